@@ -1,0 +1,1 @@
+"""Bandsmith front ends: the command line and the Qt workbench window."""
