@@ -1,0 +1,353 @@
+"""Full analysis of one candidate: figures, amplifier needs and sensitivities.
+
+Everything works from the netlist, so it holds for any circuit module.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import numpy as np
+
+from .errors import InputError
+from .figures import Figures, measure
+from .mna import IDEAL, OpAmpModel, build_system
+from .netlist import Element, Netlist
+from .rational import Rational, rational_from_system, reference_w
+from .timeresponse import StepResponse, step_response
+
+__all__ = [
+    "Tolerances",
+    "Requirements",
+    "Analysis",
+    "Response",
+    "transfer_function",
+    "ideal_figures",
+    "required_gbw",
+    "requirements",
+    "sensitivities",
+    "analyze",
+    "sweep",
+    "within_tolerances",
+]
+
+DEFAULT_A0 = 1e5
+
+
+@dataclass(frozen=True, slots=True)
+class Tolerances:
+    """How far the finite-op-amp figures may stray from the ideal ones.
+
+    ``f0`` and ``q`` are fractions (0.01 = 1 %); ``gain_db`` is in dB.
+    """
+
+    f0: float = 0.01
+    q: float = 0.05
+    gain_db: float = 0.5
+
+    def __post_init__(self):
+        for name in ("f0", "q", "gain_db"):
+            v = getattr(self, name)
+            if not (math.isfinite(v) and v > 0):
+                raise InputError(f"tol-{name.replace('_', '-')}", f"must be a finite number above zero, got {v!r}")
+
+
+@dataclass(frozen=True, slots=True)
+class Requirements:
+    """What the circuit asks of its op-amp (CONTRACT.md's REQUIREMENTS)."""
+
+    gbw_hz: float | None
+    gbw_reason: str | None
+    tolerances: Tolerances
+    a0: float
+    vin_v: float
+    vout_peak_v: float
+    slew_sine_v_per_us: float
+    slew_step_v_per_us: float
+    iout_peak_ma: float
+    gbw_rule_of_thumb_hz: float
+
+    def to_json(self) -> dict:
+        def f(x):
+            return None if x is None or not math.isfinite(x) else float(x)
+
+        return {
+            "gbw_hz": f(self.gbw_hz),
+            "gbw_reason": self.gbw_reason,
+            "tol_f0": float(self.tolerances.f0),
+            "tol_q": float(self.tolerances.q),
+            "tol_gain_db": float(self.tolerances.gain_db),
+            "a0": float(self.a0),
+            "vin_v": float(self.vin_v),
+            "vout_peak_v": f(self.vout_peak_v),
+            "slew_sine_v_per_us": f(self.slew_sine_v_per_us),
+            "slew_step_v_per_us": f(self.slew_step_v_per_us),
+            "iout_peak_ma": f(self.iout_peak_ma),
+            "gbw_rule_of_thumb_hz": f(self.gbw_rule_of_thumb_hz),
+        }
+
+
+@dataclass(frozen=True, slots=True)
+class Response:
+    """A frequency response: frequencies in Hz and complex ``H`` (V/V), shape ``(F,)``."""
+
+    f_hz: np.ndarray
+    h: np.ndarray
+    group_delay_s: np.ndarray
+
+    @property
+    def magnitude_db(self) -> np.ndarray:
+        return 20.0 * np.log10(np.abs(self.h))
+
+    @property
+    def phase_deg(self) -> np.ndarray:
+        """Phase in degrees, unwrapped so that it is continuous over the sweep."""
+        return np.degrees(np.unwrap(np.angle(self.h)))
+
+
+@dataclass(frozen=True, slots=True)
+class Analysis:
+    """One candidate, fully analysed."""
+
+    netlist: Netlist
+    ideal: Figures
+    actual: Figures | None
+    opamp: OpAmpModel
+    requirements: Requirements
+    sensitivity: Mapping[str, Mapping[str, float]]
+    h_ideal: Rational
+    h_actual: Rational | None
+    step: StepResponse = field(repr=False)
+
+    def to_json(self) -> dict:
+        return {
+            "netlist": self.netlist.to_json(),
+            "ideal": self.ideal.to_json(),
+            "actual": self.actual.to_json() if self.actual is not None else None,
+            "opamp": self.opamp.to_json(),
+            "requirements": self.requirements.to_json(),
+            "sensitivity": {k: {r: float(s) for r, s in v.items()} for k, v in self.sensitivity.items()},
+        }
+
+
+def transfer_function(
+    netlist: Netlist,
+    opamp: OpAmpModel = IDEAL,
+    *,
+    overrides: Mapping[str, np.ndarray | float] | None = None,
+    gbw_hz: np.ndarray | None = None,
+    a0: np.ndarray | float | None = None,
+    w_ref: float | None = None,
+) -> Rational:
+    """Exact rational transfer function of a netlist (batched where overrides are arrays).
+
+    ``w_ref`` (rad/s) normalises the coefficients; by default the natural frequency of the netlist
+    with an ideal op-amp, which keeps a finite op-amp's figures near ``ω/w_ref = 1``.
+    """
+    if w_ref is None:
+        w_ref = reference_w(build_system(netlist))
+    system = build_system(netlist, opamp, overrides=overrides, gbw_hz=gbw_hz, a0=a0)
+    return rational_from_system(system, w_ref)
+
+
+def ideal_figures(netlist: Netlist) -> Figures:
+    """Figures with an ideal op-amp (batch of one)."""
+    return measure(transfer_function(netlist))
+
+
+def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances) -> np.ndarray:
+    """True where ``fig`` is within ``tol`` of the reference figures (scalars in ``ref``)."""
+    with np.errstate(invalid="ignore"):
+        ok = np.abs(fig.f0_hz / ref.f0_hz - 1.0) <= tol.f0
+        ok &= np.abs(fig.q / ref.q - 1.0) <= tol.q
+        ok &= np.abs(fig.gain_center_db - ref.gain_center_db) <= tol.gain_db
+        ok &= np.sign(fig.gain_center) == np.sign(ref.gain_center)
+    return ok & fig.valid
+
+
+def _grid_near(ref: Figures) -> np.ndarray:
+    """A search grid in ω/w_ref wide enough for the band (bandwidth up to 100× around f0)."""
+    return np.logspace(-2.0, 2.0, 1601)
+
+
+def _finite_batch(netlist: Netlist, gbw: np.ndarray, a0: float, w_ref: float) -> Figures:
+    h = transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
+    return measure(h, grid=np.logspace(-2.0, 2.0, 801))
+
+
+def required_gbw(netlist: Netlist, ideal: Figures, *, a0: float = DEFAULT_A0, tolerances: Tolerances = Tolerances()) -> tuple[float | None, str | None]:
+    """Smallest single-pole GBW (Hz) from which on every figure stays within tolerance.
+
+    Searched, not estimated: the figures are measured at 61 GBW values from f0/10 to f0·10⁹ in one
+    batched solve, then at 48 values between the last failing and the first passing one, so that
+    the answer is at most 1 % above the true minimum. Returns ``(None, reason)`` when even the
+    largest GBW fails (an open-loop gain ``a0`` too small).
+    """
+    ref = ideal.item()
+    if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
+        return None, "the circuit has no band-pass peak with an ideal op-amp"
+    w_ref = 2.0 * math.pi * ref.f0_hz
+    gbw = ref.f0_hz * np.logspace(-1.0, 9.0, 61)
+    ok = within_tolerances(_finite_batch(netlist, gbw, a0, w_ref), ref, tolerances)
+    if not ok[-1]:
+        top = _finite_batch(netlist, gbw[-1:], a0, w_ref).item()
+        return None, (
+            f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {gbw[-1]:.3g} Hz "
+            f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
+            f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed"
+        )
+    fails = np.flatnonzero(~ok)
+    if fails.size == 0:
+        return float(gbw[0]), None
+    lo, hi = gbw[fails[-1]], gbw[fails[-1] + 1]
+    fine = np.geomspace(lo, hi, 48)
+    ok = within_tolerances(_finite_batch(netlist, fine, a0, w_ref), ref, tolerances)
+    fails = np.flatnonzero(~ok)
+    return float(fine[fails[-1] + 1] if fails.size else fine[0]), None
+
+
+def _opamp_output_current(netlist: Netlist, f_hz: float, rload_ohm: float | None) -> float:
+    """Peak op-amp output current (A) per volt of input at ``f_hz``, ideal op-amp, optional load."""
+    if rload_ohm is not None:
+        netlist = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
+    system = build_system(netlist)
+    x = system.solve(np.array([2j * math.pi * f_hz]))[0, 0]
+    rows = system.layout.opamp_row.values()
+    return float(max(abs(x[r]) for r in rows)) if rows else 0.0
+
+
+def requirements(
+    netlist: Netlist,
+    ideal: Figures,
+    step: StepResponse,
+    *,
+    vin_v: float = 1.0,
+    a0: float = DEFAULT_A0,
+    rload_ohm: float | None = None,
+    tolerances: Tolerances = Tolerances(),
+) -> Requirements:
+    """The op-amp needs of a candidate (see BRIEF.md's definitions).
+
+    Slew for a sine of peak ``vin_v`` at f0: ``2π·f0·|gain|·vin``; for a step of height ``vin_v``:
+    the largest ``|dv_out/dt|`` of the step response; output current: the peak current the op-amp
+    output delivers at f0 into the circuit and the optional load.
+    """
+    ref = ideal.item()
+    gbw, reason = required_gbw(netlist, ideal, a0=a0, tolerances=tolerances)
+    gain = abs(ref.gain_center)
+    # Common practice, no source: open-loop gain at f0 some 40 dB above the peak gain.
+    rule = 100.0 * gain * ref.f0_hz if math.isfinite(gain) else math.nan
+    iout = _opamp_output_current(netlist, ref.f0_hz, rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
+    return Requirements(
+        gbw_hz=gbw,
+        gbw_reason=reason,
+        tolerances=tolerances,
+        a0=a0,
+        vin_v=vin_v,
+        vout_peak_v=gain * vin_v,
+        slew_sine_v_per_us=2.0 * math.pi * ref.f0_hz * gain * vin_v * 1e-6,
+        slew_step_v_per_us=step.max_slope_per_s * vin_v * 1e-6,
+        iout_peak_ma=iout * 1e3,
+        gbw_rule_of_thumb_hz=rule,
+    )
+
+
+_SENS_STEP = 1e-4
+
+
+def sensitivities(netlist: Netlist, parts: Mapping[str, float] | None = None) -> dict[str, dict[str, float]]:
+    """Normalised sensitivities ``S = ∂ln y/∂ln x`` of f0, Q and |centre gain| to every part.
+
+    Central differences in ``ln x`` (step 1e-4, error of order 1e-8), all parts in one batched
+    solve with an ideal op-amp. A part at zero (an absent winding resistance) has S = 0.
+    """
+    values = dict(parts if parts is not None else netlist.values())
+    refs = [r for r, v in values.items() if v > 0]
+    if not refs:
+        return {"f0": {}, "q": {}, "gain": {}}
+    n = len(refs)
+    over = {}
+    for j, r in enumerate(refs):
+        col = np.full(2 * n, values[r])
+        col[2 * j] *= math.exp(_SENS_STEP)
+        col[2 * j + 1] *= math.exp(-_SENS_STEP)
+        over[r] = col
+    w_ref = reference_w(build_system(netlist))
+    fig = measure(transfer_function(netlist, overrides=over, w_ref=w_ref), grid=np.logspace(-2.0, 2.0, 801))
+
+    def s(y):
+        ly = np.log(np.abs(y))
+        return (ly[0::2] - ly[1::2]) / (2.0 * _SENS_STEP)
+
+    out = {}
+    for key, y in (("f0", fig.f0_hz), ("q", fig.q), ("gain", fig.gain_center)):
+        vals = s(y)
+        out[key] = {r: (float(vals[refs.index(r)]) if r in refs else 0.0) for r in values}
+    return out
+
+
+def analyze(
+    netlist: Netlist,
+    *,
+    opamp: OpAmpModel | None = None,
+    vin_v: float = 1.0,
+    a0: float | None = None,
+    rload_ohm: float | None = None,
+    tolerances: Tolerances = Tolerances(),
+    parts: Mapping[str, float] | None = None,
+) -> Analysis:
+    """Analyse one candidate.
+
+    Parameters
+    ----------
+    netlist : Netlist
+        The circuit.
+    opamp : OpAmpModel, optional
+        The op-amp actually used; with it the ``actual`` figures are computed.
+    vin_v : float
+        Peak input amplitude in volts, for slew and current needs.
+    a0 : float, optional
+        Open-loop gain for the required-GBW search; ``opamp.a0`` or 1e5 by default.
+    rload_ohm : float, optional
+        A load from the output to ground, in ohm.
+    tolerances : Tolerances
+        For the required-GBW search.
+    parts : mapping, optional
+        The part values by component reference (for sensitivities); the netlist's by default.
+    """
+    if not (math.isfinite(vin_v) and vin_v > 0):
+        raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
+    if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
+        raise InputError("rload", f"must be a finite number above zero, got {rload_ohm!r}")
+    if a0 is None:
+        a0 = opamp.a0 if opamp is not None else DEFAULT_A0
+    w_ref = reference_w(build_system(netlist))
+    h_ideal = transfer_function(netlist, w_ref=w_ref)
+    ideal = measure(h_ideal)
+    h_actual = actual = None
+    if opamp is not None and not opamp.ideal:
+        h_actual = transfer_function(netlist, opamp, w_ref=w_ref)
+        actual = measure(h_actual)
+    step = step_response(h_ideal)
+    req = requirements(netlist, ideal, step, vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances)
+    sens = sensitivities(netlist, parts)
+    return Analysis(
+        netlist=netlist,
+        ideal=ideal,
+        actual=actual,
+        opamp=opamp if opamp is not None else IDEAL,
+        requirements=req,
+        sensitivity=sens,
+        h_ideal=h_ideal,
+        h_actual=h_actual,
+        step=step,
+    )
+
+
+def sweep(h: Rational, f_hz: np.ndarray, *, i: int = 0) -> Response:
+    """Frequency response of member ``i`` of a transfer function at frequencies in Hz."""
+    f = np.asarray(f_hz, dtype=float)
+    one = h.item(i)
+    return Response(f_hz=f, h=one.at_f(f)[0], group_delay_s=one.group_delay(f)[0])

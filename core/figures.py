@@ -1,0 +1,180 @@
+"""Response figures measured on the computed response (BRIEF.md's shared definitions).
+
+f0 is the frequency of the magnitude peak; f_low and f_high are the −3 dB points relative to the
+peak; the bandwidth is their difference; Q = f0/bandwidth; the centre gain is |H(f0)| with the sign
+of the circuit (negative where the phase at f0 is beyond ±90°, as for an inverting circuit); the
+centre phase is the angle of H(f0) in degrees in (−180, 180].
+
+Method
+------
+With ``u = (ω/w_ref)²`` the squared magnitude is a ratio of real polynomials, ``|H|² = P(u)/Q(u)``
+(``P(u)`` is ``N(p)·N(−p)`` at ``p² = −u``). A grid locates the peak and the half-power crossings;
+a safeguarded Newton iteration on ``P'Q − PQ'`` (the peak) and of ``P − ½|H|²_peak·Q`` (the crossings)
+refines each to about 1e-13 relative. Everything is vectorised over the batch.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, fields
+
+import numpy as np
+
+from .rational import Rational, polyder_batch, polymul_batch, polyval_batch
+
+__all__ = ["Figures", "measure", "default_grid"]
+
+_ROOT_STEPS = 8
+
+
+@dataclass(frozen=True, slots=True)
+class Figures:
+    """Response figures, each an array over the batch (shape ``(B,)``); NaN where undefined."""
+
+    f0_hz: np.ndarray
+    q: np.ndarray
+    bw_hz: np.ndarray
+    f_low_hz: np.ndarray
+    f_high_hz: np.ndarray
+    gain_center: np.ndarray
+    gain_center_db: np.ndarray
+    phase_center_deg: np.ndarray
+
+    def item(self, i: int = 0) -> "Figures":
+        """Member ``i`` as scalars (floats)."""
+        return Figures(**{f.name: float(np.asarray(getattr(self, f.name)).reshape(-1)[i]) for f in fields(self)})
+
+    def to_json(self, i: int = 0) -> dict:
+        """CONTRACT.md's FIGURES object for member ``i`` (None where a figure is undefined)."""
+        out = {}
+        for f in fields(self):
+            v = float(np.asarray(getattr(self, f.name)).reshape(-1)[i])
+            out[f.name] = v if np.isfinite(v) else None
+        return out
+
+    @property
+    def valid(self) -> np.ndarray:
+        """True where every figure is defined."""
+        return np.isfinite(self.q) & np.isfinite(self.f0_hz) & np.isfinite(self.gain_center_db)
+
+
+def default_grid() -> np.ndarray:
+    """Normalised search grid ``ω/w_ref``: 4 decades each side, 0.46 % steps."""
+    return np.logspace(-4.0, 4.0, 4001)
+
+
+def _even_part_u(c: np.ndarray) -> np.ndarray:
+    """Polynomial in ``u`` equal to ``|c(jx)|²`` at ``u = x²`` (highest power first)."""
+    k = c.shape[1]
+    powers = np.arange(k - 1, -1, -1)
+    c_neg = c * np.where(powers % 2 == 1, -1.0, 1.0)
+    m = polymul_batch(c, c_neg)  # even polynomial in p, degree 2(k−1)
+    deg = m.shape[1] - 1
+    even = m[:, ::2]  # powers deg, deg−2, …, 0 (deg is even)
+    kpow = np.arange(deg // 2, -1, -1)
+    return even * np.where(kpow % 2 == 1, -1.0, 1.0)  # p^{2k} = (−u)^k
+
+
+def _root(poly: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """The root of ``poly(u)`` in the bracket ``[lo, hi]`` (batched; the ends differ in sign).
+
+    Safeguarded Newton: a Newton step that leaves the shrinking bracket is replaced by bisection.
+    """
+    dpoly = polyder_batch(poly)
+    lo = lo.copy()
+    hi = hi.copy()
+    f_lo = polyval_batch(poly, lo)
+    x = 0.5 * (lo + hi)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for _ in range(_ROOT_STEPS):
+            f = polyval_batch(poly, x)
+            same = np.signbit(f) == np.signbit(f_lo)
+            lo = np.where(same, x, lo)
+            f_lo = np.where(same, f, f_lo)
+            hi = np.where(same, hi, x)
+            step = x - f / polyval_batch(dpoly, x)
+            inside = (step >= lo) & (step <= hi)
+            x = np.where(inside, step, 0.5 * (lo + hi))
+    return x
+
+
+def measure(h: Rational, *, grid: np.ndarray | None = None) -> Figures:
+    """Measure the response figures of every member of a batched transfer function.
+
+    Parameters
+    ----------
+    h : Rational
+        The transfer function (batched).
+    grid : ndarray, optional
+        Search grid in ``ω/w_ref`` (ascending), shape ``(G,)`` or ``(B, G)``; by default
+        :func:`default_grid`. A peak on the grid's edge counts as no peak (NaN figures).
+
+    Returns
+    -------
+    Figures
+        Arrays of shape ``(B,)``.
+    """
+    x = default_grid() if grid is None else np.asarray(grid, dtype=float)
+    b = h.batch
+    x = np.broadcast_to(x, (b, x.shape[-1]))
+    u = x * x
+    pu = _even_part_u(h.num)
+    qu = _even_part_u(h.den)
+    mag2 = polyval_batch(pu, u) / polyval_batch(qu, u)
+    rows = np.arange(b)
+    i = np.argmax(mag2, axis=1)
+    g = x.shape[1]
+    inner = (i > 0) & (i < g - 1)
+    ic = np.clip(i, 1, g - 2)
+
+    # Peak: d|H|²/du ∝ P'Q − PQ' goes from positive to negative.
+    slope = _poly_sub(polymul_batch(polyder_batch(pu), qu), polymul_batch(pu, polyder_batch(qu)))
+    u_pk = _root(slope, u[rows, ic - 1], u[rows, ic + 1])
+    peak2 = polyval_batch(pu, u_pk) / polyval_batch(qu, u_pk)
+
+    # Half-power points: P − ½·peak²·Q crosses zero each side of the peak.
+    half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
+    below = mag2 < (0.5 * peak2)[:, None]
+    idx = np.arange(g)[None, :]
+    low_k = np.max(np.where(below & (idx < ic[:, None]), idx, -1), axis=1)
+    high_k = np.min(np.where(below & (idx > ic[:, None]), idx, g), axis=1)
+    has_low = low_k >= 0
+    has_high = high_k < g
+    lk = np.clip(low_k, 0, g - 2)
+    hk = np.clip(high_k, 1, g - 1)
+    both = _root(
+        np.concatenate([half, half]),
+        np.concatenate([u[rows, lk], np.maximum(u[rows, hk - 1], u_pk)]),
+        np.concatenate([np.minimum(u[rows, lk + 1], u_pk), u[rows, hk]]),
+    )
+    u_low, u_high = both[:b], both[b:]
+
+    w = h.w_ref
+    f0 = np.sqrt(u_pk) * w / (2.0 * np.pi)
+    f_low = np.where(has_low, np.sqrt(u_low) * w / (2.0 * np.pi), np.nan)
+    f_high = np.where(has_high, np.sqrt(u_high) * w / (2.0 * np.pi), np.nan)
+    f0 = np.where(inner, f0, np.nan)
+    bw = f_high - f_low
+    hc = h.at_f(f0[:, None])[:, 0]
+    phase = np.degrees(np.angle(hc))
+    phase = np.where(phase <= -180.0 + 1e-7, 180.0, phase)
+    sign = np.where(np.abs(phase) > 90.0, -1.0, 1.0)
+    mag = np.abs(hc)
+    return Figures(
+        f0_hz=f0,
+        q=f0 / bw,
+        bw_hz=bw,
+        f_low_hz=f_low,
+        f_high_hz=f_high,
+        gain_center=sign * mag,
+        gain_center_db=20.0 * np.log10(np.where(mag > 0, mag, np.nan)),
+        phase_center_deg=phase,
+    )
+
+
+def _poly_sub(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """``a − b`` for batched polynomials of possibly different lengths (highest power first)."""
+    n = max(a.shape[1], b.shape[1])
+    out = np.zeros((a.shape[0], n), dtype=np.result_type(a, b))
+    out[:, n - a.shape[1] :] += a
+    out[:, n - b.shape[1] :] -= b
+    return out

@@ -1,0 +1,181 @@
+"""Transfer functions as ratios of polynomials, obtained from a netlist's MNA pencil.
+
+The transfer function of ``(G + s·C) x = b`` is ``H(s) = N(s)/D(s)`` with ``D = det(G + s·C)``
+and ``N = H·D`` (Cramer's rule). Both are polynomials of degree at most the number of reactive
+entries (capacitors, inductors, finite op-amps). They are found exactly by interpolation: sampled
+at ``K`` points on a circle of radius ``w_ref`` (rad/s) and transformed with a discrete Fourier
+transform. Coefficients are kept in the normalised variable ``p = s / w_ref`` so that they stay of
+order one, highest power first (numpy's convention).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg
+
+from .mna import MnaSystem
+
+__all__ = ["Rational", "rational_from_system", "reference_w", "polyval_batch"]
+
+# A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
+# double real pole at −w_ref).
+_ANGLE_OFFSET = 0.3771
+# Leading coefficients below this fraction of the largest are numerical zeros (degree drops).
+_TRIM = 1e-11
+# Any coefficient below this fraction of the largest is rounding noise (an exact zero at DC).
+_SNAP = 1e-13
+
+
+def polyval_batch(c: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """Evaluate polynomials ``c`` (shape ``(B, k)``, highest power first) at ``x`` (``(B, ...)``)."""
+    x = np.asarray(x)
+    cc = np.asarray(c).reshape(c.shape + (1,) * (x.ndim - 1))
+    if cc.shape[1] == 1:
+        return cc[:, 0] + np.zeros_like(x)
+    y = cc[:, 0] * x + cc[:, 1]
+    for i in range(2, cc.shape[1]):
+        y = y * x + cc[:, i]
+    return y
+
+
+def polyder_batch(c: np.ndarray) -> np.ndarray:
+    """Derivative of batched polynomials (highest power first)."""
+    k = c.shape[1]
+    if k == 1:
+        return np.zeros_like(c)
+    powers = np.arange(k - 1, 0, -1)
+    return c[:, :-1] * powers
+
+
+def polymul_batch(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Product of batched polynomials (highest power first); loops over degree, not batch."""
+    out = np.zeros((a.shape[0], a.shape[1] + b.shape[1] - 1), dtype=np.result_type(a, b))
+    for j in range(b.shape[1]):
+        out[:, j : j + a.shape[1]] += a * b[:, j : j + 1]
+    return out
+
+
+def _trim(c: np.ndarray) -> np.ndarray:
+    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    scale[scale == 0] = 1.0
+    c = np.where(np.abs(c) <= _SNAP * scale, 0.0, c)
+    small = np.all(np.abs(c) <= _TRIM * scale, axis=0)
+    first = int(np.argmin(small)) if not small.all() else c.shape[1] - 1
+    return c[:, first:]
+
+
+@dataclass(frozen=True, slots=True)
+class Rational:
+    """``H(s) = N(s/w_ref) / D(s/w_ref)``, batched.
+
+    Attributes
+    ----------
+    num, den : ndarray
+        Real coefficients in ``p = s/w_ref``, highest power first, shape ``(B, m)`` and ``(B, n)``.
+    w_ref : ndarray
+        Normalising angular frequency in rad/s, shape ``(B,)``.
+    """
+
+    num: np.ndarray
+    den: np.ndarray
+    w_ref: np.ndarray
+
+    @property
+    def batch(self) -> int:
+        return self.num.shape[0]
+
+    def at_s(self, s: np.ndarray) -> np.ndarray:
+        """``H`` at complex frequencies ``s`` (rad/s) of shape ``(F,)`` or ``(B, F)``: ``(B, F)``."""
+        s = np.asarray(s, dtype=complex)
+        if s.ndim == 1:
+            s = np.broadcast_to(s, (self.batch, s.size))
+        p = s / self.w_ref[:, None]
+        return polyval_batch(self.num, p) / polyval_batch(self.den, p)
+
+    def at_f(self, f_hz: np.ndarray) -> np.ndarray:
+        """Frequency response at frequencies in Hz: ``(B, F)`` complex."""
+        return self.at_s(2j * np.pi * np.asarray(f_hz, dtype=float))
+
+    def group_delay(self, f_hz: np.ndarray) -> np.ndarray:
+        """Group delay ``−dφ/dω`` in seconds at frequencies in Hz, exact from the polynomials: ``(B, F)``."""
+        w = 2.0 * np.pi * np.asarray(f_hz, dtype=float)
+        p = 1j * np.broadcast_to(w, (self.batch, w.size)) / self.w_ref[:, None]
+        dn = polyval_batch(polyder_batch(self.num), p) / polyval_batch(self.num, p)
+        dd = polyval_batch(polyder_batch(self.den), p) / polyval_batch(self.den, p)
+        # d(ln H)/dω = j·(N'/N − D'/D)/w_ref; the delay is minus the imaginary part of that.
+        return -np.real(dn - dd) / self.w_ref[:, None]
+
+    def item(self, i: int = 0) -> "Rational":
+        """The ``i``-th member of the batch, as a batch of one."""
+        return Rational(self.num[i : i + 1], self.den[i : i + 1], self.w_ref[i : i + 1])
+
+    def to_s(self, i: int = 0) -> tuple[np.ndarray, np.ndarray]:
+        """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) for member ``i``, as scipy.signal uses."""
+        num = np.trim_zeros(self.num[i], "f")
+        den = np.trim_zeros(self.den[i], "f")
+        w = self.w_ref[i]
+        b = num / w ** np.arange(num.size - 1, -1, -1)
+        a = den / w ** np.arange(den.size - 1, -1, -1)
+        return b / a[0], a / a[0]
+
+    def poles(self, i: int = 0) -> np.ndarray:
+        """Poles in rad/s of member ``i``."""
+        return np.roots(np.trim_zeros(self.den[i], "f")) * self.w_ref[i]
+
+    def zeros(self, i: int = 0) -> np.ndarray:
+        """Finite zeros in rad/s of member ``i``."""
+        num = np.trim_zeros(self.num[i], "f")
+        return np.roots(num) * self.w_ref[i] if num.size > 1 else np.zeros(0)
+
+
+def reference_w(system: MnaSystem) -> float:
+    """A natural angular frequency (rad/s) of the first member: geometric mean of its finite poles.
+
+    Used to normalise polynomial coefficients; an ideal-op-amp second-order band-pass gives ω0.
+    """
+    ev = scipy.linalg.eigvals(system.G[0], -system.C[0])
+    mag = np.abs(ev[np.isfinite(ev)])
+    mag = mag[(mag > 0) & (mag < 1e300)]
+    if mag.size == 0:
+        return 1.0
+    return float(np.exp(np.mean(np.log(mag))))
+
+
+def _degree_bound(system: MnaSystem) -> int:
+    c = system.C[0]
+    return int(np.count_nonzero(np.any(c != 0, axis=1)))
+
+
+def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = None) -> Rational:
+    """Exact rational transfer function of a batched MNA system.
+
+    Parameters
+    ----------
+    system : MnaSystem
+        The pencil ``G + s·C`` with its batch.
+    w_ref : float or ndarray, optional
+        Normalising angular frequency (rad/s), scalar or ``(B,)``; by default
+        :func:`reference_w` of the first member.
+    """
+    if w_ref is None:
+        w_ref = reference_w(system)
+    w = np.broadcast_to(np.asarray(w_ref, dtype=float), (system.batch,))
+    k = _degree_bound(system) + 1
+    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
+    p = np.exp(1j * theta)
+    s = w[:, None] * p[None, :]
+    a = system.matrix(s)
+    den_v = np.linalg.det(a)
+    b = np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None]
+    h = np.linalg.solve(a, b)[..., system.output_index, 0]
+    num_v = h * den_v
+    # v_j = Σ_k c_k e^{ikθ_j}: an FFT gives c_k·e^{ik·offset}, ascending powers.
+    undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
+    den_c = (np.fft.fft(den_v, axis=1) / k * undo).real[:, ::-1]
+    num_c = (np.fft.fft(num_v, axis=1) / k * undo).real[:, ::-1]
+    den_c = _trim(den_c)
+    num_c = _trim(num_c)
+    scale = np.max(np.abs(den_c), axis=1, keepdims=True)
+    return Rational(num_c / scale, den_c / scale, np.array(w, dtype=float))
