@@ -1,0 +1,69 @@
+"""The ``bandsmith`` command.
+
+With no sub-command, or a session file as the only argument, it opens the workbench window; the
+sub-commands run headless. Every module of this package that defines ``COMMAND`` (a
+:class:`~app.cli.common.Command`) is a sub-command: adding one is adding a module.
+"""
+
+from __future__ import annotations
+
+import importlib
+import pkgutil
+import sys
+
+from .common import Command, CliParser, run_guarded
+
+__all__ = ["main", "commands"]
+
+
+def commands() -> tuple[Command, ...]:
+    """Every sub-command, in listing order."""
+    found = []
+    for info in pkgutil.iter_modules(__path__):
+        if info.name.startswith("_") or info.name == "common":
+            continue
+        mod = importlib.import_module(f"{__name__}.{info.name}")
+        cmd = getattr(mod, "COMMAND", None)
+        if isinstance(cmd, Command):
+            found.append(cmd)
+    return tuple(sorted(found, key=lambda c: (c.order, c.name)))
+
+
+def _parser() -> CliParser:
+    parser = CliParser(
+        prog="bandsmith",
+        description="Bandsmith: active band-pass filter workbench. With no command, opens the window.",
+    )
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=CliParser)
+    for cmd in commands():
+        p = sub.add_parser(cmd.name, help=cmd.help, description=cmd.help)
+        cmd.configure(p)
+        p.set_defaults(_run=cmd.run)
+    return parser
+
+
+def _open_window(argv: list[str]) -> int:
+    try:
+        from app.window.main import run_window
+    except ImportError as exc:  # the window is not built or Qt is missing
+        print(f"bandsmith: the window cannot start ({exc}); see `bandsmith --help` for the commands", file=sys.stderr)
+        return 1
+    return run_window(argv[0] if argv else None)
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``bandsmith`` command; returns the exit status."""
+    argv = list(sys.argv[1:] if argv is None else argv)
+    names = {c.name for c in commands()}
+    if not argv or (len(argv) == 1 and argv[0] not in names and not argv[0].startswith("-")):
+        return _open_window(argv)
+    parser = _parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "_run", None):
+        parser.print_help()
+        return 0
+    return run_guarded(args._run, args)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

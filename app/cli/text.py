@@ -1,0 +1,69 @@
+"""Readable plain-text tables for the terminal (the default output of the commands)."""
+
+from __future__ import annotations
+
+import math
+
+from core.values import format_value
+
+__all__ = ["table", "figures_rows", "requirements_rows", "sensitivity_table", "UNITS"]
+
+UNITS = {"R": "Ω", "L": "H", "C": "F"}
+
+
+def table(rows: list[list[str]], *, header: list[str] | None = None) -> str:
+    """Columns padded to their widest cell; numbers right-aligned, words left-aligned."""
+    allrows = ([header] if header else []) + rows
+    if not allrows:
+        return ""
+    widths = [max(len(r[i]) for r in allrows if i < len(r)) for i in range(max(len(r) for r in allrows))]
+    lines = []
+    for k, r in enumerate(allrows):
+        cells = [c.rjust(widths[i]) if i and _numeric(c) else c.ljust(widths[i]) for i, c in enumerate(r)]
+        lines.append("  ".join(cells).rstrip())
+        if header and k == 0:
+            lines.append("  ".join("-" * w for w in widths))
+    return "\n".join(lines)
+
+
+def _numeric(cell: str) -> bool:
+    return bool(cell) and (cell[0].isdigit() or cell[0] in "+-.—")
+
+
+def _num(x, unit="", digits=5):
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return "—"
+    return format_value(x, unit, digits=digits)
+
+
+def figures_rows(fig: dict) -> list[list[str]]:
+    """FIGURES as label/value rows."""
+    return [
+        ["f0", _num(fig["f0_hz"], "Hz")],
+        ["Q", _num(fig["q"])],
+        ["bandwidth", _num(fig["bw_hz"], "Hz")],
+        ["f_low / f_high", f"{_num(fig['f_low_hz'], 'Hz')} / {_num(fig['f_high_hz'], 'Hz')}"],
+        ["centre gain", f"{_num(fig['gain_center'])} ({_num(fig['gain_center_db'], 'dB', 4)})"],
+        ["centre phase", _num(fig["phase_center_deg"], "°", 4)],
+    ]
+
+
+def requirements_rows(req: dict) -> list[list[str]]:
+    """REQUIREMENTS as label/value rows."""
+    gbw = _num(req["gbw_hz"], "Hz", 4) if req["gbw_hz"] is not None else f"none ({req['gbw_reason']})"
+    return [
+        ["required GBW", gbw],
+        ["  within", f"f0 ±{100 * req['tol_f0']:g} %, Q ±{100 * req['tol_q']:g} %, gain ±{req['tol_gain_db']:g} dB, A0 {req['a0']:g}"],
+        ["  rule of thumb", _num(req.get("gbw_rule_of_thumb_hz"), "Hz", 3) + " (A(f0) 40 dB above the gain)"],
+        ["output peak", _num(req["vout_peak_v"], "V", 4) + f" for {_num(req['vin_v'], 'V', 4)} in"],
+        ["slew, sine at f0", _num(req["slew_sine_v_per_us"], "V/µs", 4)],
+        ["slew, input step", _num(req["slew_step_v_per_us"], "V/µs", 4)],
+        ["output current", _num(req["iout_peak_ma"] * 1e-3 if req["iout_peak_ma"] is not None else None, "A", 4) + " peak at f0"],
+    ]
+
+
+def sensitivity_table(sens: dict) -> str:
+    """Parts as rows, S(f0), S(Q), S(gain) as columns."""
+    refs = list(sens["f0"])
+    rows = [[r] + [f"{sens[k][r]:+.3f}" for k in ("f0", "q", "gain")] for r in refs]
+    return table(rows, header=["part", "S(f0)", "S(Q)", "S(gain)"])

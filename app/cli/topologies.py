@@ -1,0 +1,34 @@
+"""``bandsmith topologies``: the circuits Bandsmith knows, their parts and an example each."""
+
+from __future__ import annotations
+
+from core.circuits import all_topologies
+from core.values import format_value
+
+from .common import Command, print_json
+from .text import UNITS, table
+
+
+def configure(p):
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def run(args) -> int:
+    topos = all_topologies()
+    if args.json:
+        print_json({"topologies": [t.to_json() for t in topos]})
+        return 0
+    for t in topos:
+        print(f"{t.id}: {t.title}{' (inverting)' if t.inverting else ''}")
+        rows = [
+            [c.ref, c.kind, format_value(t.example.get(c.ref, 0.0), UNITS[c.kind]), c.role + ("" if c.required else " [optional]")]
+            for c in t.components
+        ]
+        print(table(rows, header=["part", "kind", "example", "role"]))
+        if t.notes:
+            print(f"note: {t.notes}")
+        print()
+    return 0
+
+
+COMMAND = Command("topologies", "list the band-pass circuits, their parts and a working example", configure, run, order=10)
