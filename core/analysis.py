@@ -167,17 +167,54 @@ def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances) -> np.ndarray
     return ok & fig.valid
 
 
-def _grid_near(ref: Figures) -> np.ndarray:
-    """A search grid in ω/w_ref wide enough for the band (bandwidth up to 100× around f0)."""
-    return np.logspace(-2.0, 2.0, 1601)
-
-
-def _finite_batch(netlist: Netlist, gbw: np.ndarray, a0: float, w_ref: float) -> Figures:
+def _finite_batch(netlist: Netlist, gbw: np.ndarray, a0: float, w_ref: float) -> tuple[Rational, Figures]:
     h = transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
-    return measure(h, grid=np.logspace(-2.0, 2.0, 801))
+    return h, measure(h)
 
 
-def required_gbw(netlist: Netlist, ideal: Figures, *, a0: float = DEFAULT_A0, tolerances: Tolerances = Tolerances()) -> tuple[float | None, str | None]:
+@dataclass(frozen=True, slots=True)
+class _GbwSearch:
+    gbw_hz: float | None
+    reason: str | None
+    probe: tuple[Rational, Figures] | None  # the response at an extra GBW measured in the same batch
+
+
+def _search_gbw(
+    netlist: Netlist, ref: Figures, *, a0: float, tolerances: Tolerances, w_ref: float, probe_gbw_hz: float | None = None
+) -> _GbwSearch:
+    """The required-GBW search; ``probe_gbw_hz`` rides along in the first batch (the actual op-amp)."""
+    if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
+        return _GbwSearch(None, "the circuit has no band-pass peak with an ideal op-amp", None)
+    ladder = ref.f0_hz * np.logspace(-1.0, 9.0, 61)
+    gbw = ladder if probe_gbw_hz is None else np.append(ladder, probe_gbw_hz)
+    h, fig = _finite_batch(netlist, gbw, a0, w_ref)
+    probe = None if probe_gbw_hz is None else (h.item(gbw.size - 1), fig.item(gbw.size - 1))
+    ok = within_tolerances(fig, ref, tolerances)[: ladder.size]
+    if not ok[-1]:
+        top = fig.item(ladder.size - 1)
+        return _GbwSearch(
+            None,
+            f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {ladder[-1]:.3g} Hz "
+            f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
+            f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed",
+            probe,
+        )
+    fails = np.flatnonzero(~ok)
+    if fails.size == 0:
+        return _GbwSearch(float(ladder[0]), None, probe)
+    fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], 48)
+    ok = within_tolerances(_finite_batch(netlist, fine, a0, w_ref)[1], ref, tolerances)
+    fails = np.flatnonzero(~ok)
+    return _GbwSearch(float(fine[fails[-1] + 1] if fails.size else fine[0]), None, probe)
+
+
+def required_gbw(
+    netlist: Netlist,
+    ideal: Figures,
+    *,
+    a0: float = DEFAULT_A0,
+    tolerances: Tolerances = Tolerances(),
+) -> tuple[float | None, str | None]:
     """Smallest single-pole GBW (Hz) from which on every figure stays within tolerance.
 
     Searched, not estimated: the figures are measured at 61 GBW values from f0/10 to f0·10⁹ in one
@@ -186,26 +223,9 @@ def required_gbw(netlist: Netlist, ideal: Figures, *, a0: float = DEFAULT_A0, to
     largest GBW fails (an open-loop gain ``a0`` too small).
     """
     ref = ideal.item()
-    if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
-        return None, "the circuit has no band-pass peak with an ideal op-amp"
-    w_ref = 2.0 * math.pi * ref.f0_hz
-    gbw = ref.f0_hz * np.logspace(-1.0, 9.0, 61)
-    ok = within_tolerances(_finite_batch(netlist, gbw, a0, w_ref), ref, tolerances)
-    if not ok[-1]:
-        top = _finite_batch(netlist, gbw[-1:], a0, w_ref).item()
-        return None, (
-            f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {gbw[-1]:.3g} Hz "
-            f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
-            f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed"
-        )
-    fails = np.flatnonzero(~ok)
-    if fails.size == 0:
-        return float(gbw[0]), None
-    lo, hi = gbw[fails[-1]], gbw[fails[-1] + 1]
-    fine = np.geomspace(lo, hi, 48)
-    ok = within_tolerances(_finite_batch(netlist, fine, a0, w_ref), ref, tolerances)
-    fails = np.flatnonzero(~ok)
-    return float(fine[fails[-1] + 1] if fails.size else fine[0]), None
+    w_ref = 2.0 * math.pi * ref.f0_hz if math.isfinite(ref.f0_hz) else 1.0
+    found = _search_gbw(netlist, ref, a0=a0, tolerances=tolerances, w_ref=w_ref)
+    return found.gbw_hz, found.reason
 
 
 def _opamp_output_current(netlist: Netlist, f_hz: float, rload_ohm: float | None) -> float:
@@ -227,6 +247,7 @@ def requirements(
     a0: float = DEFAULT_A0,
     rload_ohm: float | None = None,
     tolerances: Tolerances = Tolerances(),
+    gbw_search: tuple[float | None, str | None] | None = None,
 ) -> Requirements:
     """The op-amp needs of a candidate (see BRIEF.md's definitions).
 
@@ -235,7 +256,9 @@ def requirements(
     output delivers at f0 into the circuit and the optional load.
     """
     ref = ideal.item()
-    gbw, reason = required_gbw(netlist, ideal, a0=a0, tolerances=tolerances)
+    if gbw_search is None:
+        gbw_search = required_gbw(netlist, ideal, a0=a0, tolerances=tolerances)
+    gbw, reason = gbw_search
     gain = abs(ref.gain_center)
     # Common practice, no source: open-loop gain at f0 some 40 dB above the peak gain.
     rule = 100.0 * gain * ref.f0_hz if math.isfinite(gain) else math.nan
@@ -257,35 +280,45 @@ def requirements(
 _SENS_STEP = 1e-4
 
 
-def sensitivities(netlist: Netlist, parts: Mapping[str, float] | None = None) -> dict[str, dict[str, float]]:
+def _nominal_and_sensitivities(
+    netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float
+) -> tuple[Rational, Figures, dict[str, dict[str, float]]]:
+    """The ideal response and its figures (member 0) and the sensitivities, in one batched solve."""
+    values = dict(parts if parts is not None else netlist.values())
+    refs = [r for r, v in values.items() if v > 0]
+    n = len(refs)
+    over = {}
+    for j, r in enumerate(refs):
+        col = np.full(1 + 2 * n, values[r])
+        col[1 + 2 * j] *= math.exp(_SENS_STEP)
+        col[2 + 2 * j] *= math.exp(-_SENS_STEP)
+        over[r] = col
+    h = transfer_function(netlist, overrides=over or None, w_ref=w_ref)
+    fig = measure(h)
+
+    def s(y):
+        ly = np.log(np.abs(y[1:]))
+        return (ly[0::2] - ly[1::2]) / (2.0 * _SENS_STEP)
+
+    sens = {}
+    for key, y in (("f0", fig.f0_hz), ("q", fig.q), ("gain", fig.gain_center)):
+        vals = s(y)
+        sens[key] = {r: (float(vals[refs.index(r)]) if r in refs else 0.0) for r in values}
+    nominal = Figures(**{k: getattr(fig, k)[:1] for k in Figures.__slots__})
+    return h.item(0), nominal, sens
+
+
+def sensitivities(
+    netlist: Netlist, parts: Mapping[str, float] | None = None, *, w_ref: float | None = None
+) -> dict[str, dict[str, float]]:
     """Normalised sensitivities ``S = ∂ln y/∂ln x`` of f0, Q and |centre gain| to every part.
 
     Central differences in ``ln x`` (step 1e-4, error of order 1e-8), all parts in one batched
     solve with an ideal op-amp. A part at zero (an absent winding resistance) has S = 0.
     """
-    values = dict(parts if parts is not None else netlist.values())
-    refs = [r for r, v in values.items() if v > 0]
-    if not refs:
-        return {"f0": {}, "q": {}, "gain": {}}
-    n = len(refs)
-    over = {}
-    for j, r in enumerate(refs):
-        col = np.full(2 * n, values[r])
-        col[2 * j] *= math.exp(_SENS_STEP)
-        col[2 * j + 1] *= math.exp(-_SENS_STEP)
-        over[r] = col
-    w_ref = reference_w(build_system(netlist))
-    fig = measure(transfer_function(netlist, overrides=over, w_ref=w_ref), grid=np.logspace(-2.0, 2.0, 801))
-
-    def s(y):
-        ly = np.log(np.abs(y))
-        return (ly[0::2] - ly[1::2]) / (2.0 * _SENS_STEP)
-
-    out = {}
-    for key, y in (("f0", fig.f0_hz), ("q", fig.q), ("gain", fig.gain_center)):
-        vals = s(y)
-        out[key] = {r: (float(vals[refs.index(r)]) if r in refs else 0.0) for r in values}
-    return out
+    if w_ref is None:
+        w_ref = reference_w(build_system(netlist))
+    return _nominal_and_sensitivities(netlist, parts, w_ref)[2]
 
 
 def analyze(
@@ -324,15 +357,25 @@ def analyze(
     if a0 is None:
         a0 = opamp.a0 if opamp is not None else DEFAULT_A0
     w_ref = reference_w(build_system(netlist))
-    h_ideal = transfer_function(netlist, w_ref=w_ref)
-    ideal = measure(h_ideal)
+    h_ideal, ideal, sens = _nominal_and_sensitivities(netlist, parts, w_ref)
+    finite = opamp is not None and not opamp.ideal
+    ref = ideal.item()
+    search_w = 2.0 * math.pi * ref.f0_hz if math.isfinite(ref.f0_hz) else w_ref
+    probe = opamp.gbw_hz if finite and opamp.a0 == a0 else None
+    found = _search_gbw(netlist, ref, a0=a0, tolerances=tolerances, w_ref=search_w, probe_gbw_hz=probe)
     h_actual = actual = None
-    if opamp is not None and not opamp.ideal:
-        h_actual = transfer_function(netlist, opamp, w_ref=w_ref)
-        actual = measure(h_actual)
+    if finite:
+        if found.probe is not None:
+            h_actual, actual_scalar = found.probe
+            actual = Figures(**{k: np.array([getattr(actual_scalar, k)]) for k in Figures.__slots__})
+        else:
+            h_actual = transfer_function(netlist, opamp, w_ref=search_w)
+            actual = measure(h_actual)
     step = step_response(h_ideal)
-    req = requirements(netlist, ideal, step, vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances)
-    sens = sensitivities(netlist, parts)
+    req = requirements(
+        netlist, ideal, step, vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
+        gbw_search=(found.gbw_hz, found.reason),
+    )
     return Analysis(
         netlist=netlist,
         ideal=ideal,

@@ -48,8 +48,13 @@ def default_time_grid(poles: np.ndarray, n: int = 1000) -> np.ndarray:
 
 
 def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray):
-    r, p, k = scipy.signal.residue(b, a)
-    direct = float(k[0].real) if np.size(k) else 0.0
+    """Step and impulse responses from simple poles: ``r_i = N(λ_i)/D'(λ_i)`` after division."""
+    direct = 0.0
+    if b.size >= a.size:
+        quotient, b = np.polydiv(b, a)
+        direct = float(quotient[-1])
+    p = np.roots(a)
+    r = np.polyval(b, p) / np.polyval(np.polyder(a), p)
     e = np.exp(np.outer(t, p))
     h = (e @ r).real
     y = direct + ((e - 1.0) @ (r / p)).real
