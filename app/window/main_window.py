@@ -1,0 +1,386 @@
+"""The workbench window: target strip, candidates board, plot panes, menus, status bar.
+
+Layout (top to bottom): the target strip; a splitter with the candidates board on the left and the
+panes on the right (a tab widget whose first tab is the plot grid; later panes are added with
+:meth:`WorkbenchWindow.add_pane`); the status bar with the cursor read-out, notices and the
+progress of background work.
+
+File handling goes through the state (document, path, clean flag), a
+:class:`~app.window.prompts.Prompter` (all dialogs; tests script it) and
+:class:`~app.window.recent.RecentFiles`.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from PySide6 import QtCore, QtGui, QtWidgets
+
+from core.errors import InputError
+from core.session import SessionError, load_session, save_session
+
+from .background import BackgroundJob, JobStatus
+from .candidates_board import CandidatesBoard
+from .demo import blank_session
+from .plot_grid import PlotGrid
+from .prompts import Prompter
+from .recent import RecentFiles
+from .recovery import RecoveryKeeper, left_behind
+from .state import WorkbenchState
+from .target_strip import TargetStrip
+from .theme import STYLE_SHEET
+
+__all__ = ["WorkbenchWindow"]
+
+_IMAGE_FILTER = "PNG image (*.png);;SVG image (*.svg)"
+_CSV_FILTER = "CSV table (*.csv)"
+_NETLIST_FILTER = "SPICE netlist (*.cir *.sp *.net)"
+_REPORT_FILTER = "HTML report (*.html);;PDF report (*.pdf)"
+
+
+class WorkbenchWindow(QtWidgets.QMainWindow):
+    """The main window over a :class:`WorkbenchState`.
+
+    Parameters
+    ----------
+    state : WorkbenchState
+        The document and its analyses.
+    prompter : Prompter, optional
+        Dialogs; tests pass one with scripted answers.
+    settings : QSettings, optional
+        Where recent files are kept; tests pass a temporary one.
+    recovery : bool
+        Keep a recovery copy while there are unsaved changes.
+    """
+
+    def __init__(
+        self,
+        state: WorkbenchState,
+        *,
+        prompter: Prompter | None = None,
+        settings: QtCore.QSettings | None = None,
+        recovery: bool = True,
+        parent: QtWidgets.QWidget | None = None,
+    ):
+        super().__init__(parent)
+        self.setObjectName("workbench")
+        self.state = state
+        self.prompter = prompter or Prompter()
+        self.recent = RecentFiles(settings or QtCore.QSettings())
+        self.keeper = RecoveryKeeper(state, parent=self) if recovery else None
+        self.setStyleSheet(STYLE_SHEET)
+
+        self.target_strip = TargetStrip(state, self)
+        self.board = CandidatesBoard(state, self)
+        self.plot_grid = PlotGrid(state, self)
+        self.panes = QtWidgets.QTabWidget(self)
+        self.panes.setObjectName("panes")
+        self.panes.setDocumentMode(True)
+        self.panes.addTab(self.plot_grid, "Responses")
+        self.splitter = QtWidgets.QSplitter(QtCore.Qt.Orientation.Horizontal, self)
+        self.splitter.addWidget(self.board)
+        self.splitter.addWidget(self.panes)
+        self.splitter.setStretchFactor(0, 0)
+        self.splitter.setStretchFactor(1, 1)
+        self.splitter.setChildrenCollapsible(False)
+        central = QtWidgets.QWidget(self)
+        lay = QtWidgets.QVBoxLayout(central)
+        lay.setContentsMargins(0, 0, 0, 0)
+        lay.setSpacing(0)
+        lay.addWidget(self.target_strip)
+        lay.addWidget(self.splitter, 1)
+        self.setCentralWidget(central)
+
+        self.cursor_label = QtWidgets.QLabel(self)
+        self.cursor_label.setObjectName("cursorReadout")
+        self.cursor_label.setMinimumWidth(360)
+        self.job_status = JobStatus(self)
+        self.statusBar().addWidget(self.cursor_label)
+        self.statusBar().addPermanentWidget(self.job_status)
+        self.plot_grid.cursor_text.connect(self.cursor_label.setText)
+        state.notice.connect(lambda text: self.statusBar().showMessage(text, 8000))
+
+        self._build_menus()
+        state.path_changed.connect(self._on_path_changed)
+        state.clean_changed.connect(self._on_clean_changed)
+        state.current_changed.connect(self._on_current_changed)
+        self._on_path_changed(state.path)
+        self._on_clean_changed(state.is_clean)
+        self._on_current_changed(state.current_id)
+        self.resize(1280, 800)
+        self._fit_splitter()
+
+    # ------------------------------------------------------------------ building
+    def _action(self, text: str, name: str, slot, shortcut=None, tip: str = "") -> QtGui.QAction:
+        act = QtGui.QAction(text, self)
+        act.setObjectName(name)
+        if shortcut is not None:
+            act.setShortcut(QtGui.QKeySequence(shortcut))
+        if tip:
+            act.setStatusTip(tip)
+            act.setToolTip(tip)
+        act.triggered.connect(slot)
+        self.addAction(act)
+        return act
+
+    def _build_menus(self) -> None:
+        K = QtGui.QKeySequence.StandardKey
+        bar = self.menuBar()
+        m = bar.addMenu("&File")
+        self.act_new = self._action("&New session", "actNew", self.new_session, K.New, "Start a new session from the demo target")
+        self.act_open = self._action("&Open…", "actOpen", self.open_dialog, K.Open, "Open a session file")
+        self.act_save = self._action("&Save", "actSave", self.save, K.Save, "Save the session")
+        self.act_save_as = self._action("Save &as…", "actSaveAs", self.save_as, K.SaveAs, "Save the session under another name")
+        m.addActions([self.act_new, self.act_open])
+        self.recent_menu = m.addMenu("Open &recent")
+        self.recent_menu.aboutToShow.connect(self._fill_recent_menu)
+        m.addActions([self.act_save, self.act_save_as])
+        m.addSeparator()
+        ex = m.addMenu("&Export")
+        self.act_export_plots = self._action("Plots as image (PNG, SVG)…", "actExportPlots", self.export_plots)
+        self.act_export_parts = self._action("Parts list (CSV)…", "actExportParts", lambda: self._export_candidate("parts"))
+        self.act_export_response = self._action("Response table (CSV)…", "actExportResponse", lambda: self._export_candidate("response"))
+        self.act_export_netlist = self._action("SPICE netlist…", "actExportNetlist", lambda: self._export_candidate("netlist"))
+        ex.addActions([self.act_export_plots, self.act_export_parts, self.act_export_response, self.act_export_netlist])
+        self.act_report = self._action("&Report (HTML, PDF)…", "actReport", self.write_report, "Ctrl+R", "Write a report of the session")
+        m.addAction(self.act_report)
+        m.addSeparator()
+        self.act_quit = self._action("&Quit", "actQuit", self.close, K.Quit)
+        m.addAction(self.act_quit)
+
+        e = bar.addMenu("&Edit")
+        stack = self.state.undo_stack
+        self.act_undo = stack.createUndoAction(self, "&Undo")
+        self.act_undo.setObjectName("actUndo")
+        self.act_undo.setShortcut(QtGui.QKeySequence(K.Undo))
+        self.act_redo = stack.createRedoAction(self, "&Redo")
+        self.act_redo.setObjectName("actRedo")
+        self.act_redo.setShortcuts([QtGui.QKeySequence(K.Redo), QtGui.QKeySequence("Ctrl+Shift+Z")])
+        for a in (self.act_undo, self.act_redo):
+            self.addAction(a)
+        e.addActions([self.act_undo, self.act_redo])
+        e.addSeparator()
+        add = e.addMenu("&Add candidate")
+        from core.circuits import all_topologies
+
+        for topo in all_topologies():
+            act = add.addAction(topo.title)
+            act.triggered.connect(lambda _=False, t=topo.id: self.state.add_candidate(t))
+        self.act_duplicate = self._action("&Duplicate selected candidate", "actDuplicate", lambda: self._on_current(self.state.duplicate), "Ctrl+D")
+        self.act_remove = self._action("Re&move selected candidate", "actRemove", lambda: self._on_current(self.state.remove))
+        self.act_redesign = self._action("Re&design selected candidate", "actRedesign", lambda: self._on_current(self.state.redesign))
+        e.addActions([self.act_duplicate, self.act_remove, self.act_redesign])
+
+        h = bar.addMenu("&Help")
+        self.act_help = self._action("Bandsmith &help and cautions", "actHelp", self.show_help, K.HelpContents)
+        if self.act_help.shortcut().isEmpty():
+            self.act_help.setShortcut(QtGui.QKeySequence("F1"))
+        h.addAction(self.act_help)
+
+    def add_pane(self, title: str, widget: QtWidgets.QWidget) -> int:
+        """Add a pane (tolerance spread, noise, …) as a tab beside the plots; returns its index."""
+        return self.panes.addTab(widget, title)
+
+    def run_job(self, job: BackgroundJob) -> BackgroundJob:
+        """Start long work off the GUI thread with its progress and Cancel in the status bar."""
+        self.job_status.watch(job)
+        job.start()
+        return job
+
+    def _fit_splitter(self) -> None:
+        want = min(self.board.preferred_width(), int(self.width() * 0.52))
+        self.splitter.setSizes([want, max(300, self.width() - want)])
+
+    def resizeEvent(self, event) -> None:  # noqa: N802 - Qt's name
+        super().resizeEvent(event)
+        if not getattr(self, "_user_split", False):
+            self._fit_splitter()
+
+    # ------------------------------------------------------------------ view updates
+    def _display_name(self) -> str:
+        return Path(self.state.path).name if self.state.path else "Untitled session"
+
+    def _on_path_changed(self, _path: str) -> None:
+        self.setWindowTitle(f"{self._display_name()}[*] — Bandsmith")
+
+    def _on_clean_changed(self, clean: bool) -> None:
+        self.setWindowModified(not clean)
+
+    def _on_current_changed(self, cid: str) -> None:
+        for act in (self.act_export_parts, self.act_export_response, self.act_export_netlist, self.act_duplicate, self.act_remove, self.act_redesign):
+            act.setEnabled(bool(cid))
+
+    def _on_current(self, fn) -> None:
+        if self.state.current_id:
+            fn(self.state.current_id)
+
+    def _fill_recent_menu(self) -> None:
+        self.recent_menu.clear()
+        paths = self.recent.paths()
+        if not paths:
+            a = self.recent_menu.addAction("(none yet)")
+            a.setEnabled(False)
+            return
+        for i, p in enumerate(paths, 1):
+            a = self.recent_menu.addAction(f"&{i} {p}")
+            a.triggered.connect(lambda _=False, path=p: self.open_path(path))
+        self.recent_menu.addSeparator()
+        self.recent_menu.addAction("Clear list").triggered.connect(self.recent.clear)
+
+    # ------------------------------------------------------------------ sessions
+    def _settle_unsaved(self) -> bool:
+        """Before the document goes away: True when it may (saved, discarded), False to stay."""
+        if self.state.is_clean:
+            return True
+        answer = self.prompter.ask_unsaved(self, self._display_name())
+        if answer == "save":
+            return self.save()
+        if answer == "discard":
+            if self.keeper is not None:
+                self.keeper.discard()
+            return True
+        return False
+
+    def new_session(self) -> None:
+        if self._settle_unsaved():
+            self.state.replace_document(blank_session(), None)
+
+    def open_dialog(self) -> None:
+        if not self._settle_unsaved():
+            return
+        folder = str(Path(self.state.path).parent) if self.state.path else str(Path.home())
+        path = self.prompter.ask_open_path(self, folder)
+        if path:
+            self.open_path(path, settled=True)
+
+    def open_path(self, path: str, *, settled: bool = False) -> bool:
+        """Open a session file; a damaged or newer file gives a message and changes nothing."""
+        if not settled and not self._settle_unsaved():
+            return False
+        try:
+            session = load_session(path)
+        except SessionError as exc:
+            self.prompter.error(self, "Cannot open the session", exc.reason)
+            if exc.kind == "missing":
+                self.recent.remove(os.path.abspath(path))
+            return False
+        self.state.replace_document(session, os.path.abspath(path))
+        self.recent.add(path)
+        return True
+
+    def save(self) -> bool:
+        if not self.state.path:
+            return self.save_as()
+        return self._write(self.state.path)
+
+    def save_as(self) -> bool:
+        suggested = self.state.path or str(Path.home() / "bandsmith-session.bandsmith.json")
+        path = self.prompter.ask_save_path(self, suggested)
+        if not path:
+            return False
+        return self._write(path)
+
+    def _write(self, path: str) -> bool:
+        try:
+            save_session(self.state.session, path)
+        except (SessionError, InputError) as exc:
+            self.prompter.error(self, "Cannot save the session", exc.reason)
+            return False
+        self.state.mark_saved(os.path.abspath(path))
+        self.recent.add(path)
+        self.statusBar().showMessage(f"Saved {path}", 5000)
+        return True
+
+    def offer_recovery(self) -> bool:
+        """Offer the newest copy a crashed run left behind; True when one was restored."""
+        copies = left_behind(self.keeper.folder if self.keeper else None)
+        if not copies:
+            return False
+        copy = copies[0]
+        answer = self.prompter.ask_restore(self, copy.original, copy.when)
+        if answer == "discard":
+            copy.discard()
+            return False
+        if answer != "restore":
+            return False
+        try:
+            session = copy.load()
+        except SessionError as exc:
+            self.prompter.error(self, "Cannot restore the unsaved work", exc.reason)
+            return False
+        self.state.replace_document(session, copy.original or None, clean=False)
+        copy.discard()
+        if self.keeper is not None:
+            self.keeper.write_now()
+        self.statusBar().showMessage("Restored unsaved work; save it to keep it", 8000)
+        return True
+
+    def closeEvent(self, event: QtGui.QCloseEvent) -> None:  # noqa: N802 - Qt's name
+        if self._settle_unsaved():
+            if self.keeper is not None:
+                self.keeper.discard()
+            event.accept()
+        else:
+            event.ignore()
+
+    # ------------------------------------------------------------------ exports, report, help
+    def _helper(self, module: str, name: str):
+        try:
+            mod = __import__(f"app.window.{module}", fromlist=[name])
+            return getattr(mod, name)
+        except (ImportError, AttributeError):
+            self.prompter.error(self, "Not available", f"This build of Bandsmith has no {module} feature ({name}).")
+            return None
+
+    def _stem(self) -> str:
+        return Path(self.state.path).name.split(".")[0] if self.state.path else "bandsmith"
+
+    def export_plots(self) -> None:
+        fn = self._helper("exporting", "export_plot_image")
+        if fn is None:
+            return
+        path = self.prompter.ask_save_path(self, str(Path.home() / f"{self._stem()}-plots.png"), _IMAGE_FILTER)
+        if path:
+            self._run_export(lambda: fn(self.plot_grid, path), path)
+
+    def _export_candidate(self, what: str) -> None:
+        cid = self.state.current_id
+        if not cid:
+            return
+        name, filt, suffix = {
+            "parts": ("export_parts_csv", _CSV_FILTER, "parts.csv"),
+            "response": ("export_response_csv", _CSV_FILTER, "response.csv"),
+            "netlist": ("export_netlist", _NETLIST_FILTER, "cir"),
+        }[what]
+        fn = self._helper("exporting", name)
+        if fn is None:
+            return
+        sep = "." if suffix == "cir" else "-"
+        path = self.prompter.ask_save_path(self, str(Path.home() / f"{self._stem()}-{cid}{sep}{suffix}"), filt)
+        if path:
+            self._run_export(lambda: fn(self.state.session, cid, path), path)
+
+    def write_report(self) -> None:
+        fn = self._helper("report", "write_report")
+        if fn is None:
+            return
+        path = self.prompter.ask_save_path(self, str(Path.home() / f"{self._stem()}-report.html"), _REPORT_FILTER)
+        if path:
+            self._run_export(lambda: fn(self.state.session, path), path)
+
+    def _run_export(self, call, path: str) -> None:
+        try:
+            call()
+        except InputError as exc:
+            self.prompter.error(self, "Export failed", str(exc))
+            return
+        except OSError as exc:
+            self.prompter.error(self, "Export failed", f"cannot write {path}: {exc.strerror or exc}")
+            return
+        self.statusBar().showMessage(f"Wrote {path}", 5000)
+
+    def show_help(self) -> None:
+        fn = self._helper("about", "show_about")
+        if fn is not None:
+            fn(self)

@@ -1,0 +1,156 @@
+"""Recovery copies: unsaved work written aside while it is unsaved, offered after a crash.
+
+While the document has unsaved changes, a copy (an ordinary session file) is written a moment
+after each change (debounced) to the recovery folder, under a name that carries this process's id,
+with a small ``.meta.json`` beside it saying which file it belongs to. Saving, or leaving without
+saving on purpose, deletes the copy. A copy whose process no longer runs was left by a crash:
+:func:`left_behind` finds those at the next start.
+
+The folder is the platform's application-data location (``QStandardPaths``) plus ``recovery``;
+the environment variable ``BANDSMITH_RECOVERY_DIR`` overrides it (tests use this).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+from PySide6 import QtCore
+
+from core.session import SessionError, dumps_session, load_session
+
+from .state import WorkbenchState
+
+__all__ = ["recovery_dir", "RecoveryCopy", "RecoveryKeeper", "left_behind", "DEBOUNCE_MS"]
+
+DEBOUNCE_MS = 1500
+_SUFFIX = ".bandsmith.json"
+
+
+def recovery_dir() -> Path:
+    """The recovery folder (created on demand)."""
+    env = os.environ.get("BANDSMITH_RECOVERY_DIR")
+    if env:
+        d = Path(env)
+    else:
+        base = QtCore.QStandardPaths.writableLocation(QtCore.QStandardPaths.StandardLocation.AppDataLocation)
+        d = Path(base or Path.home() / ".bandsmith") / "recovery"
+    d.mkdir(parents=True, exist_ok=True)
+    return d
+
+
+def _alive(pid: int) -> bool:
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    return True
+
+
+@dataclass(frozen=True, slots=True)
+class RecoveryCopy:
+    """A recovery copy on disk: the copy, its meta file, the file it belongs to ("" untitled), when."""
+
+    path: Path
+    meta_path: Path
+    original: str
+    saved_at: float
+    pid: int
+
+    def load(self):
+        """The session in the copy (SessionError if the copy itself is damaged)."""
+        return load_session(self.path)
+
+    def discard(self) -> None:
+        for p in (self.path, self.meta_path):
+            try:
+                p.unlink()
+            except FileNotFoundError:
+                pass
+
+    @property
+    def when(self) -> str:
+        return time.strftime("%Y-%m-%d %H:%M", time.localtime(self.saved_at))
+
+
+def left_behind(folder: Path | None = None) -> list[RecoveryCopy]:
+    """Copies left by processes that no longer run (newest first)."""
+    d = folder or recovery_dir()
+    out = []
+    for meta in d.glob("unsaved-*.meta.json"):
+        try:
+            info = json.loads(meta.read_text(encoding="utf-8"))
+            pid = int(info["pid"])
+        except (OSError, ValueError, KeyError, TypeError):
+            continue
+        copy = d / f"unsaved-{pid}{_SUFFIX}"
+        if _alive(pid) or not copy.is_file():
+            continue
+        out.append(RecoveryCopy(copy, meta, str(info.get("original", "")), float(info.get("saved_at", 0.0)), pid))
+    return sorted(out, key=lambda c: c.saved_at, reverse=True)
+
+
+class RecoveryKeeper(QtCore.QObject):
+    """Keeps this process's recovery copy of a state's document up to date.
+
+    ``written(str)`` is emitted with the copy's path after each write.
+    """
+
+    written = QtCore.Signal(str)
+
+    def __init__(self, state: WorkbenchState, *, debounce_ms: int = DEBOUNCE_MS, folder: Path | None = None, parent: QtCore.QObject | None = None):
+        super().__init__(parent)
+        self.state = state
+        self.folder = folder or recovery_dir()
+        pid = os.getpid()
+        self.copy_path = self.folder / f"unsaved-{pid}{_SUFFIX}"
+        self.meta_path = self.folder / f"unsaved-{pid}.meta.json"
+        self.timer = QtCore.QTimer(self)
+        self.timer.setSingleShot(True)
+        self.timer.setInterval(debounce_ms)
+        self.timer.timeout.connect(self.write_now)
+        state.session_changed.connect(self._on_session_changed)
+        state.clean_changed.connect(self._on_clean_changed)
+
+    def _on_session_changed(self, _session) -> None:
+        if not self.state.is_clean:
+            self.timer.start()
+
+    def _on_clean_changed(self, clean: bool) -> None:
+        if clean:
+            self.timer.stop()
+            self.discard()
+        else:
+            self.timer.start()
+
+    def write_now(self) -> None:
+        """Write the copy at once (if there is anything unsaved)."""
+        self.timer.stop()
+        if self.state.is_clean:
+            return
+        try:
+            text = dumps_session(self.state.session)
+            tmp = self.copy_path.with_name(self.copy_path.name + ".tmp")
+            tmp.write_text(text, encoding="utf-8")
+            os.replace(tmp, self.copy_path)
+            meta = {"pid": os.getpid(), "original": self.state.path, "saved_at": time.time()}
+            self.meta_path.write_text(json.dumps(meta), encoding="utf-8")
+        except (OSError, SessionError):
+            return  # a recovery copy is a courtesy; failing to write one must not disturb work
+        self.written.emit(str(self.copy_path))
+
+    def discard(self) -> None:
+        """Delete this process's copy (after a save, or when leaving without saving on purpose)."""
+        self.timer.stop()
+        for p in (self.copy_path, self.meta_path):
+            try:
+                p.unlink()
+            except FileNotFoundError:
+                pass
