@@ -134,9 +134,11 @@ def _real_positive_roots(c: np.ndarray) -> np.ndarray:
     comp[:, 0, :] = -c[:, 1:] / lead
     if k > 2:
         comp[:, np.arange(1, k - 1), np.arange(k - 2)] = 1.0
+    bad = ~np.isfinite(comp).all(axis=(1, 2))  # a member with no peak (NaN) has no roots either
+    comp[bad] = 0.0
     r = np.linalg.eigvals(comp)
     real = np.abs(r.imag) <= 1e-7 * np.abs(r)
-    return np.where(real & (r.real > 0), r.real, np.nan)
+    return np.where(real & (r.real > 0) & ~bad[:, None], r.real, np.nan)
 
 
 def _ratio(pu, qu, u):
