@@ -205,7 +205,8 @@ def _search_gbw(
     fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], 48)
     ok = within_tolerances(_finite_batch(netlist, fine, a0, w_ref)[1], ref, tolerances)
     fails = np.flatnonzero(~ok)
-    return _GbwSearch(float(fine[fails[-1] + 1] if fails.size else fine[0]), None, probe)
+    # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
+    return _GbwSearch(float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None, probe)
 
 
 def required_gbw(
