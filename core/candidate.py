@@ -77,7 +77,15 @@ class Candidate:
         return self.topology.build(self.values)
 
     def analyze(self, conditions: Conditions = Conditions()) -> Analysis:
-        return analyze(
+        """Analyse under ``conditions``.
+
+        Raises
+        ------
+        InputError
+            (field ``parts``) when the values give no band-pass response whose ideal figures and
+            sensitivities can be measured (a response flat or sharp beyond floating-point reach).
+        """
+        result = analyze(
             self.netlist,
             opamp=conditions.opamp,
             vin_v=conditions.vin_v,
@@ -86,6 +94,15 @@ class Candidate:
             tolerances=conditions.tolerances,
             parts=self.values,
         )
+        sens = [x for by_ref in result.sensitivity.values() for x in by_ref.values()]
+        if not (bool(result.ideal.valid[0]) and math.isfinite(result.ideal.item().f_low_hz)
+                and math.isfinite(result.ideal.item().f_high_hz) and all(math.isfinite(x) for x in sens)):
+            raise InputError(
+                "parts",
+                f"these {self.topology_id} values give no band-pass peak that can be measured "
+                "(the response is far too flat or too sharp); check the values and their units",
+            )
+        return result
 
 
 def parse_parts(topology: Topology, assignments: Mapping[str, str | float]) -> dict[str, float]:
