@@ -16,6 +16,23 @@ With an ideal op-amp,
 With all resistors equal to R and both capacitors equal to C: ``ω0 = √2/(RC)``,
 ``Q = √2/(4 − K)``, centre gain ``K/(4 − K)``; the circuit is unstable for ``K ≥ 4``.
 
+Design (``synthesize``). In the equal-part design the gain is tied to Q (``K = 4 − √2/Q``, gain
+``2√2·Q − 1``), so a target with another gain needs unequal resistors. With conductances
+normalised as ``x_i = 1/(R_i·ω0·C1)`` and ``r = C1/C2``, the three target equations become
+
+    x1 = |H0|/(K·Q),   x3·(x1 + x2)·r = 1,   x1 + (1 − K)·x2 + (1 + r)·x3 = 1/Q,
+
+and with ``y = x1 + x2`` the last two give ``(K − 1)·y² − (K·x1 − 1/Q)·y − (1 + r)/r = 0``, which
+has exactly one positive root for ``K > 1``. For ``Q ≥ 0.5`` that root always exceeds ``x1``, so
+every ``K > 1`` gives a stable design meeting f0, Q and the gain: R1 acts as the input divider that
+sets the gain. The procedure takes ``C1 = C2``, chooses ``K`` (searched over 1.05–21) for the
+least resistor spread — which is the equal-resistor design ``K = 4 − √2/Q`` exactly when the gain
+asked is ``2√2·Q − 1`` — and the capacitor level from the E6 series that puts the resistors best in
+1 kΩ–1 MΩ; RA and RB are then centred on the other resistors with ``RB/RA = K − 1``. Pinned parts
+replace these choices in that order (equal capacitors kept longest); pinning both RA and RB fixes
+``K``. High Q makes Q steeply sensitive to K (``S(Q; K) = 2√2·Q − 1`` in the equal-part design),
+which the design warns about.
+
 References
 ----------
 S. Franco, *Design with Operational Amplifiers and Analog Integrated Circuits*, 3rd ed.,
@@ -27,8 +44,12 @@ from __future__ import annotations
 import math
 from typing import Mapping
 
+import numpy as np
+
 from ..netlist import Element, Netlist
+from ..synthesis import Exact, Infeasible, Spec, choose_level, solve_pinned
 from ..topology import Component, IdealFormulas, Topology
+from ..values import format_value
 
 COMPONENTS = (
     Component("R1", "R", "input resistor"),
@@ -70,6 +91,147 @@ def formulas(v: Mapping[str, float]) -> IdealFormulas:
     return IdealFormulas(f0_hz=w0 / (2.0 * math.pi), q=q, gain=(k / (r1 * c1)) / a1 if a1 > 0 else math.inf)
 
 
+_K_MIN, _K_MAX = 1.05, 21.0
+_FILTER = ("R1", "R2", "R3", "C1", "C2")
+
+
+def _normalised(spec: Spec, k, r):
+    """``x1, x2, x3`` (arrays; x2 ≤ 0 where the gain cannot be met) for gain K and C1/C2 = r."""
+    k = np.asarray(k, dtype=float)
+    r = np.asarray(r, dtype=float)
+    q = spec.q
+    x1 = spec.gain / (k * q)
+    a = k - 1.0
+    b = -(k * x1 - 1.0 / q)
+    c = -(1.0 + r) / r
+    root = np.sqrt(b * b - 4.0 * a * c)
+    # The positive root, written without cancellation for either sign of b.
+    y = np.where(b <= 0, (-b + root) / (2.0 * a), (2.0 * (1.0 + r) / r) / (b + root))
+    return x1, y - x1, 1.0 / (r * y)
+
+
+def _spread(x1, x2, x3):
+    xs = np.stack(np.broadcast_arrays(x1, x2, x3))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out = xs.max(axis=0) / xs.min(axis=0)
+    return np.where(xs.min(axis=0) > 0, out, np.inf)
+
+
+def best_gain_k(spec: Spec, r: float = 1.0) -> float:
+    """The amplifier gain K (1.05 to 21) that gives the least spread of R1, R2, R3 for C1/C2 = r."""
+    import scipy.optimize
+
+    if r == 1.0:
+        k_eq = 4.0 - math.sqrt(2.0) / spec.q
+        if k_eq > 1.0 and float(_spread(*_normalised(spec, k_eq, r))) <= 1.0 + 1e-12:
+            return k_eq  # the equal-resistor design meets this gain exactly
+    km1 = np.geomspace(_K_MIN - 1.0, _K_MAX - 1.0, 160)
+    sp = _spread(*_normalised(spec, 1.0 + km1, r))
+    i = int(np.argmin(sp))
+    if not np.isfinite(sp[i]):
+        raise Infeasible(f"no amplifier gain K from {_K_MIN} to {_K_MAX:g} meets Q {spec.q:.4g} with gain {spec.gain:.4g} (Q below about 0.35 is out of reach)")
+    lo, hi = math.log(km1[max(i - 1, 0)]), math.log(km1[min(i + 1, km1.size - 1)])
+    res = scipy.optimize.minimize_scalar(
+        lambda t: float(np.log(_spread(*_normalised(spec, 1.0 + math.exp(t), r)))), bounds=(lo, hi), method="bounded", options={"xatol": 1e-10}
+    )
+    t = res.x if res.fun <= math.log(sp[i]) else math.log(km1[i])
+    return 1.0 + math.exp(t)
+
+
+def _filter_parts(spec: Spec, c1: float, r: float, k: float) -> dict[str, float]:
+    x1, x2, x3 = (float(v) for v in _normalised(spec, k, r))
+    wc = spec.w0 * c1
+    return {
+        "R1": 1.0 / (x1 * wc),
+        "R2": 1.0 / (x2 * wc) if x2 > 0 else math.nan,
+        "R3": 1.0 / (x3 * wc),
+        "C1": c1,
+        "C2": c1 / r,
+    }
+
+
+def _gain_network(values: dict[str, float], k: float, fixed: dict[str, float]) -> tuple[float, float]:
+    """RA, RB for gain K: pinned ones kept, otherwise centred on the filter's resistors."""
+    if "RA" in fixed and "RB" in fixed:
+        return fixed["RA"], fixed["RB"]
+    if "RA" in fixed:
+        return fixed["RA"], (k - 1.0) * fixed["RA"]
+    if "RB" in fixed:
+        return fixed["RB"] / (k - 1.0), fixed["RB"]
+    centre = (values["R1"] * values["R2"] * values["R3"]) ** (1.0 / 3.0)
+    ra = centre / math.sqrt(k - 1.0)
+    return ra, (k - 1.0) * ra
+
+
+def synthesize(spec: Spec, fixed: dict[str, float] | None = None, *, series: str = "E24") -> Exact:
+    """Exact part values for a target (see the module notes); pinned parts keep their values.
+
+    ``series`` is the one the parts will be chosen from (the capacitor level is taken in it).
+
+    Raises
+    ------
+    Infeasible
+        Pins that leave no stable solution, a pinned gain K at or below 1, or a Q out of reach.
+    """
+    fixed = dict(fixed or {})
+    k_pinned = None
+    if "RA" in fixed and "RB" in fixed:
+        k_pinned = 1.0 + fixed["RB"] / fixed["RA"]
+    pins = {r: v for r, v in fixed.items() if r in _FILTER}
+    notes = []
+
+    if not pins:
+        k = k_pinned if k_pinned is not None else best_gain_k(spec)
+        unit = _filter_parts(spec, 1.0, 1.0, k)
+        if not all(math.isfinite(v) and v > 0 for v in unit.values()):
+            raise Infeasible(f"with K = 1 + RB/RA = {k:.5g} pinned no resistor set meets Q {spec.q:.4g} and gain {spec.gain:.4g}")
+        c = choose_level(unit, {r: r[0] for r in unit}, "C1", series)
+        values = _filter_parts(spec, c, 1.0, k)
+        notes.append(
+            f"impedance level: C1 = C2 = {format_value(c, 'F')} chosen so that the resistors sit best in "
+            f"1 kΩ–1 MΩ (common practice); pin a part with --fix to set another level"
+        )
+        if k_pinned is None:
+            equal = abs(values["R1"] / values["R2"] - 1.0) < 1e-9 and abs(values["R3"] / values["R2"] - 1.0) < 1e-9
+            notes.append(
+                f"K = 1 + RB/RA = {k:.5g}: " + ("the equal-resistor design, which gives this gain exactly" if equal else "chosen for the least resistor spread; R1 with R2 sets the gain")
+            )
+    else:
+        def parts(th):
+            return _filter_parts(spec, math.exp(th[0]), math.exp(th[1]), 1.0 + math.exp(th[2]))
+
+        defaults = [("equal capacitors", lambda th: th[1])]
+        extra = []
+        if k_pinned is not None:
+            if k_pinned <= 1.0:
+                raise Infeasible("RB/RA must be above zero")
+            extra.append(lambda th: th[2] - math.log(k_pinned - 1.0))
+        else:
+            defaults.append(("K for the least resistor spread", lambda th: th[2] - math.log(best_gain_k(spec, math.exp(th[1])) - 1.0)))
+        c_guess = pins.get("C1") or pins.get("C2") or 10e-9
+        k0 = k_pinned or best_gain_k(spec)
+        try:
+            th, used = solve_pinned([math.log(c_guess), 0.0, math.log(k0 - 1.0)], parts, pins, defaults, extra=extra)
+        except Infeasible as exc:
+            if "over-determine" in exc.reason:
+                raise Infeasible(exc.reason.replace("pin at most", "pin at most (RA with RB counting as one)")) from None
+            shown = ", ".join(f"{r} = {format_value(v, 'F' if r[0] == 'C' else 'Ω')}" for r, v in sorted(fixed.items()))
+            raise Infeasible(f"no Sallen–Key design meets f0 {format_value(spec.f0_hz, 'Hz')}, Q {spec.q:.4g}, gain {spec.gain:.4g} with {shown}; pin other parts or fewer") from None
+        c1 = pins.get("C1", math.exp(th[0]))
+        r = c1 / pins["C2"] if "C2" in pins else math.exp(th[1])
+        k = k_pinned if k_pinned is not None else 1.0 + math.exp(th[2])
+        values = _filter_parts(spec, c1, r, k)
+        values.update(pins)
+        notes.append(f"{', '.join(sorted(fixed))} pinned; the other parts follow")
+        for name in used:
+            notes.append(f"{name} takes up the remaining freedom" + (f" (K = {k:.5g})" if name.startswith("K") else ""))
+    ra, rb = _gain_network(values, k, fixed)
+    values["RA"], values["RB"] = ra, rb
+    if not all(math.isfinite(v) and v > 0 for v in values.values()):
+        raise Infeasible(f"no Sallen–Key design with positive parts meets Q {spec.q:.4g} and gain {spec.gain:.4g} here")
+    return Exact(values, notes)
+
+
 TOPOLOGY = Topology(
     id="sallen-key",
     title="Sallen–Key band-pass (non-inverting, gain K)",
@@ -78,6 +240,7 @@ TOPOLOGY = Topology(
     example=EXAMPLE,
     build=build,
     formulas=formulas,
+    synthesize=synthesize,
     order=30,
     notes="Non-inverting; Q rises steeply as K nears 4, so high-Q stages need tight gain resistors.",
 )
