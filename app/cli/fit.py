@@ -1,0 +1,155 @@
+"""``bandsmith fit``: which parts explain a measured response of a built candidate."""
+
+from __future__ import annotations
+
+import math
+
+from core.candidate import Candidate, parse_parts
+from core.circuits import get_topology
+from core.diagnose import diagnose
+from core.errors import InputError
+from core.measured import FREQ_UNITS, ColumnMapping, MappingNeeded, guess_mapping, read_measurement, scan_table
+from core.mna import OpAmpModel
+from core.values import format_value, parse_fraction, parse_positive
+
+from .common import Command, print_json, split_assignments
+from .text import UNITS, table
+
+_MAPPING_HINT = "give --columns F,M[,P] (column numbers from 1) and the units with --freq-unit, --mag-unit, --phase-unit"
+
+
+def configure(p):
+    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
+    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="the design's part values, e.g. R1=4k7 C=10n")
+    p.add_argument("--measured", metavar="FILE", required=True, help="measured response (CSV or whitespace-separated text)")
+    p.add_argument("--parts", dest="fit_parts", metavar="REF,REF,…", help="parts to fit (default: every part above zero)")
+    p.add_argument("--range", metavar="P", help="allowed change of every fitted part, e.g. 20%% (default: 3× its tolerance)")
+    p.add_argument("--tol", action="append", default=[], metavar="KIND=P", help="tolerance of a part kind for the default ranges (R=1%%, C=5%%, L=10%%); repeatable")
+    p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz) of the model; without it the op-amp is ideal")
+    p.add_argument("--a0", metavar="A", help="op-amp open-loop gain of the model (default 1e5)")
+    p.add_argument("--columns", metavar="F,M[,P]", help="which columns hold frequency, magnitude and phase (numbers from 1)")
+    p.add_argument("--freq-unit", choices=tuple(FREQ_UNITS), help="unit of the frequency column")
+    p.add_argument("--mag-unit", choices=("dB", "linear"), help="unit of the magnitude column")
+    p.add_argument("--phase-unit", choices=("deg", "rad"), help="unit of the phase column")
+    p.add_argument("--magnitude-only", action="store_true", help="fit the magnitude only, even where there is phase")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def _mapping(args) -> ColumnMapping | None:
+    if args.columns is None:
+        return None
+    toks = [t.strip() for t in args.columns.split(",")]
+    if len(toks) not in (2, 3) or not all(t.isdigit() and int(t) >= 1 for t in toks):
+        raise InputError("columns", f"{args.columns!r} is not F,M or F,M,P with column numbers from 1, e.g. 1,2,3")
+    cols = [int(t) - 1 for t in toks]
+    return ColumnMapping(
+        freq=cols[0], mag=cols[1], phase=cols[2] if len(cols) == 3 else None,
+        freq_unit=args.freq_unit, mag_unit=args.mag_unit, phase_unit=args.phase_unit,
+    )
+
+
+def _read(args):
+    mapping = _mapping(args)
+    units_only = args.columns is None and (args.freq_unit or args.mag_unit or args.phase_unit)
+    try:
+        if units_only:  # the file's own columns, the units from the options
+            guess, _, problem = guess_mapping(scan_table(args.measured))
+            if guess is None:
+                raise InputError("columns", f"{args.measured}: {problem}; {_MAPPING_HINT}")
+            mapping = ColumnMapping(
+                freq=guess.freq, mag=guess.mag, phase=guess.phase,
+                freq_unit=args.freq_unit or guess.freq_unit, mag_unit=args.mag_unit or guess.mag_unit,
+                phase_unit=args.phase_unit or guess.phase_unit,
+            )
+        return read_measurement(args.measured, mapping=mapping)
+    except MappingNeeded as exc:
+        raise InputError("measured", f"{exc.reason}; {_MAPPING_HINT}") from None
+
+
+def _tolerances(items: list[str]) -> dict[str, float]:
+    out = {}
+    for it in items:
+        kind, sep, text = it.partition("=")
+        kind = kind.strip().upper()
+        if not sep or kind not in ("R", "C", "L"):
+            raise InputError("tol", f"{it!r}: expected KIND=P with KIND R, C or L, e.g. C=5%")
+        v = parse_fraction(text, field=f"tol {kind}")
+        if not v > 0:
+            raise InputError(f"tol {kind}", "must be above zero")
+        out[kind] = v
+    return out
+
+
+def fit_json(args) -> dict:
+    """The FIT object of ``bandsmith fit`` for parsed arguments."""
+    topo = get_topology(args.topology)
+    cand = Candidate(topo.id, parse_parts(topo, split_assignments(args.parts)))
+    m = _read(args)
+    opamp = None
+    if args.gbw is not None:
+        a0 = parse_positive(args.a0, field="a0") if args.a0 is not None else 1e5
+        opamp = OpAmpModel(parse_positive(args.gbw, field="gbw"), a0)
+    elif args.a0 is not None:
+        raise InputError("a0", "only means something with --gbw")
+    rng = None
+    if args.range is not None:
+        rng = parse_fraction(args.range, field="range")
+    parts = None
+    if args.fit_parts is not None:
+        parts = [p for p in args.fit_parts.split(",")]
+    d = diagnose(cand, m, parts=parts, ranges=rng, tolerances=_tolerances(args.tol), opamp=opamp, use_phase=not args.magnitude_only)
+    out = d.to_json()
+    out["measured"].update({"source": m.source, "sha256": m.sha256, "has_phase": m.has_phase, "file_notes": list(m.notes)})
+    out["components"] = {k: float(v) for k, v in cand.values.items()}
+    out["opamp"] = None if opamp is None else opamp.to_json()
+    return out
+
+
+def _num(x, unit="", digits=4):
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return "—"
+    return format_value(x, unit, digits=digits)
+
+
+def print_readable(r: dict) -> None:
+    topo = get_topology(r["topology"])
+    ms, dz, fz = r["measured"], r["design_figures"], r["fitted_figures"]
+    print(f"{topo.id}: {ms['source']} ({ms['points']} points, {'magnitude and phase' if ms['has_phase'] else 'magnitude'};"
+          f" fitted on the {'complex response' if r['mode'] == 'complex' else 'magnitude'})")
+    for n in ms["file_notes"] + ms["notes"]:
+        print(f"  note: {n}")
+    print()
+    rows = [
+        ["f0", _num(ms["f0_hz"], "Hz", 5), _num(dz["f0_hz"], "Hz", 5), _num(fz["f0_hz"], "Hz", 5)],
+        ["Q", _num(ms["q"]), _num(dz["q"]), _num(fz["q"])],
+        ["centre gain", _num(ms["gain_center_db"], "dB"), _num(dz["gain_center_db"], "dB"), _num(fz["gain_center_db"], "dB")],
+    ]
+    print(table(rows, header=["figure", "measured", "design", "fitted"]))
+    print()
+    rows = []
+    for ref in r["parts"]:
+        unit = UNITS[topo.component(ref).kind]
+        rows.append([ref, _num(r["nominal"][ref], unit), _num(r["fitted"][ref], unit), f"{r['change_pct'][ref]:+.2f} %",
+                     f"±{r['range_pct'][ref]:g} %" + (" (edge)" if ref in r["at_bound"] else "")])
+    print(table(rows, header=["part", "design", "fitted", "change", "range"]))
+    print(f"residual: {r['residual_db_rms']:.3g} dB rms" + (f", {r['residual_phase_deg_rms']:.3g}° rms" if r["residual_phase_deg_rms"] is not None else "")
+          + f" (design: {r['nominal_residual_db_rms']:.3g} dB rms)")
+    print()
+    rows = [[a["part"], f"{a['change_pct']:+.2f} %", f"{a['residual_db_rms']:.3g} dB", f"{a['explained_pct']:.0f} %"] for a in r["alone"]]
+    print(table(rows, header=["alone", "change", "residual rms", "explains"]))
+    print()
+    print(r["summary"])
+    for n in r["notes"]:
+        print(f"note: {n}")
+
+
+def run(args) -> int:
+    result = fit_json(args)
+    if args.json:
+        print_json(result)
+    else:
+        print_readable(result)
+    return 0
+
+
+COMMAND = Command("fit", "fit a design's parts to a measured response: which parts explain the difference", configure, run, order=60)
