@@ -1,0 +1,209 @@
+"""Offscreen images of :class:`~app.plots.curves.PlotData`: PNG bytes for the report and exports.
+
+Each plot is drawn by a pyqtgraph ``PlotWidget`` in the light theme (white ground, dark axes,
+grid, a legend, axis titles with units, every candidate in its own colour and line style) that is
+never shown on screen, then painted into a ``QImage`` and written as PNG through a ``QBuffer``.
+A ``QApplication`` must exist; :func:`ensure_qt_app` makes one (offscreen when there is no display).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import sys
+from typing import Sequence
+
+import pyqtgraph as pg
+from PySide6 import QtCore, QtGui, QtWidgets
+
+from core.values import format_value
+
+from .curves import Curve, PlotData
+
+__all__ = [
+    "ensure_qt_app",
+    "FrequencyAxis",
+    "build_plot_widget",
+    "paint_widget",
+    "image_png",
+    "render_plot_png",
+    "render_plots_png",
+    "INK",
+]
+
+INK = "#202124"  # text and axes
+_GRID_ALPHA = 0.25
+
+
+def ensure_qt_app() -> QtWidgets.QApplication:
+    """The running ``QApplication``, or a new one (offscreen when there is no display)."""
+    app = QtWidgets.QApplication.instance()
+    if app is not None:
+        if not isinstance(app, QtWidgets.QApplication):
+            raise RuntimeError("plots need a QApplication, but a QGuiApplication is running")
+        return app
+    if "QT_QPA_PLATFORM" not in os.environ and sys.platform.startswith("linux"):
+        if not (os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY")):
+            os.environ["QT_QPA_PLATFORM"] = "offscreen"
+    return QtWidgets.QApplication(sys.argv[:1] or ["bandsmith"])
+
+
+def _style(index: int):
+    """The candidate's style from the window's theme (one look everywhere)."""
+    from app.window.theme import candidate_style
+
+    return candidate_style(index)
+
+
+class FrequencyAxis(pg.AxisItem):
+    """A log-frequency axis whose ticks read 100, 1k, 10k (not 10² or 1000)."""
+
+    def tickStrings(self, values, scale, spacing):
+        if not self.logMode:
+            return super().tickStrings(values, scale, spacing)
+        return [_tick_hz(10.0 ** v) if _labelled(v) else "" for v in values]
+
+
+def _labelled(log_f: float) -> bool:
+    """Label the decades and the 2 and 5 between them; the other minor ticks only get grid lines."""
+    if not math.isfinite(log_f):
+        return False
+    mantissa = 10.0 ** (log_f - math.floor(log_f + 1e-9))
+    return any(abs(mantissa - m) < 1e-6 * m for m in (1.0, 2.0, 5.0))
+
+
+def _tick_hz(f: float) -> str:
+    text = format_value(f, "", digits=3).strip()
+    return text.replace(" ", "")
+
+
+def _pen(index: int, width: float):
+    st = _style(index)
+    return pg.mkPen(QtGui.QColor(st.colour), width=width, style=st.pen_style)
+
+
+def build_plot_widget(plot: PlotData, *, width: int = 900, height: int = 380, line_width: float = 2.0):
+    """A light-theme ``PlotWidget`` drawing ``plot`` (not shown); returns the widget.
+
+    The plot item's curves are in ``widget.getPlotItem().listDataItems()``, one per candidate in
+    legend order.
+    """
+    ensure_qt_app()
+    axis_items = {"bottom": FrequencyAxis("bottom")} if plot.log_x else {}
+    w = pg.PlotWidget(background="w", axisItems=axis_items)
+    w.setAttribute(QtCore.Qt.WidgetAttribute.WA_DontShowOnScreen, True)
+    w.resize(width, height)
+    item = w.getPlotItem()
+    item.setTitle(plot.title, color=INK, size="12pt")
+    for name in ("left", "bottom", "right", "top"):
+        ax = item.getAxis(name)
+        ax.setPen(pg.mkPen(INK))
+        ax.setTextPen(pg.mkPen(INK))
+    item.showAxis("right", False)
+    item.showAxis("top", False)
+    item.setContentsMargins(4, 4, 26, 4)  # room for the last tick label on the right
+    _label(item, "bottom", plot.x_label, plot.x_unit, log=plot.log_x)
+    _label(item, "left", plot.y_label, plot.y_unit, log=False)
+    item.showGrid(x=True, y=True, alpha=_GRID_ALPHA)
+    legend = item.addLegend(offset=(-8, 8), labelTextColor=INK, brush=pg.mkBrush(255, 255, 255, 230), pen=pg.mkPen("#9aa0a6"))
+    legend.setLabelTextSize("9pt")
+    if plot.log_x:
+        item.setLogMode(x=True, y=False)
+    for c in plot.curves:
+        item.plot(c.x, _finite(c), pen=_pen(c.index, line_width), name=c.label, connect="finite")
+    guide_pen = pg.mkPen("#7d8590", width=max(1.0, line_width / 2), style=QtCore.Qt.PenStyle.DashLine)
+    for g in plot.guides:
+        vertical = g.axis == "x"
+        value = math.log10(g.value) if (vertical and plot.log_x) else g.value
+        line = pg.InfiniteLine(pos=value, angle=90 if vertical else 0, pen=guide_pen, label=g.label or None,
+                               labelOpts={"position": 0.96 if vertical else 0.03, "color": "#5f6368", "anchors": [(0, 0), (0, 0)] if vertical else [(0, 1), (0, 1)]})
+        item.addItem(line, ignoreBounds=True)
+    item.enableAutoRange()
+    if plot.log_x and plot.curves:
+        xs = [c.x for c in plot.curves if len(c.x)]
+        lo = min(float(x.min()) for x in xs)
+        hi = max(float(x.max()) for x in xs)
+        item.setXRange(math.log10(lo), math.log10(hi), padding=0.0)
+    elif plot.curves:
+        hi = max(float(c.x.max()) for c in plot.curves if len(c.x))
+        item.setXRange(0.0, hi, padding=0.0)
+    return w
+
+
+def _finite(c: Curve):
+    import numpy as np
+
+    y = np.asarray(c.y, dtype=float)
+    return np.where(np.isfinite(y), y, np.nan)
+
+
+# Units shown with an SI prefix chosen by the axis (ms, µs, kHz); the others are shown as they are.
+_SCALED_UNITS = {"s", "Hz", "V", "A"}
+
+
+def _label(item, side: str, text: str, unit: str, *, log: bool) -> None:
+    ax = item.getAxis(side)
+    if unit in _SCALED_UNITS and not log:
+        ax.enableAutoSIPrefix(True)
+        item.setLabel(side, text, units=unit, color=INK)
+    else:
+        ax.enableAutoSIPrefix(False)
+        item.setLabel(side, f"{text} ({unit})" if unit else text, color=INK)
+
+
+def paint_widget(widget: QtWidgets.QWidget, *, scale: float = 2.0) -> QtGui.QImage:
+    """Paint a (possibly never shown) widget into a white ``QImage`` at ``scale`` × its size.
+
+    The image holds ``scale``² as many pixels as the widget covers on screen, so it stays sharp
+    when printed or zoomed. A graphics view (a plot) is re-drawn from its scene at that size, so
+    its text and lines are drawn sharp, not enlarged pixels (the image's device pixel ratio is
+    ``scale``).
+    """
+    ensure_qt_app()
+    shown_here = not widget.isVisible()
+    if shown_here:
+        widget.setAttribute(QtCore.Qt.WidgetAttribute.WA_DontShowOnScreen, True)
+        widget.show()
+    QtWidgets.QApplication.processEvents()
+    size = widget.size()
+    img = QtGui.QImage(round(size.width() * scale), round(size.height() * scale), QtGui.QImage.Format.Format_ARGB32)
+    img.setDevicePixelRatio(scale)
+    img.fill(QtGui.QColor("white"))
+    painter = QtGui.QPainter(img)
+    painter.setRenderHint(QtGui.QPainter.RenderHint.Antialiasing, True)
+    painter.setRenderHint(QtGui.QPainter.RenderHint.TextAntialiasing, True)
+    try:
+        # QWidget.render, not QGraphicsView.render: the widget paints itself as on a screen of
+        # this pixel ratio, so items that ignore transformations (legends, labels) scale too.
+        QtWidgets.QWidget.render(widget, painter, QtCore.QPoint(0, 0))
+    finally:
+        painter.end()
+    if shown_here:
+        widget.hide()
+    return img
+
+
+def image_png(img: QtGui.QImage) -> bytes:
+    """A ``QImage`` as PNG bytes (through a ``QBuffer``)."""
+    buf = QtCore.QBuffer()
+    buf.open(QtCore.QIODevice.OpenModeFlag.WriteOnly)
+    if not img.save(buf, "PNG"):
+        raise RuntimeError("Qt could not encode the image as PNG")
+    data = bytes(buf.data())
+    buf.close()
+    return data
+
+
+def render_plot_png(plot: PlotData, *, width: int = 900, height: int = 380, scale: float = 2.0) -> bytes:
+    """PNG bytes of one plot, ``width`` × ``height`` logical pixels at ``scale`` (2 = sharp)."""
+    w = build_plot_widget(plot, width=width, height=height, line_width=2.0 * scale)
+    try:
+        return image_png(paint_widget(w, scale=scale))
+    finally:
+        w.close()
+        w.deleteLater()
+
+
+def render_plots_png(plots: Sequence[PlotData], **kw) -> dict[str, bytes]:
+    """PNG bytes of several plots, keyed by ``PlotData.key``."""
+    return {p.key: render_plot_png(p, **kw) for p in plots}
