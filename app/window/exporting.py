@@ -1,0 +1,175 @@
+"""Exports from the window: plot images (PNG, SVG), parts and response tables (CSV), SPICE netlists.
+
+Every file is written atomically (:func:`write_atomic`: a temporary file in the same folder,
+flushed and synced, then :func:`os.replace`), so an export that fails half-way leaves any older
+file as it was. The tables and the netlist come from :mod:`core.exports`; this module only picks
+the candidate and the session's op-amp and writes the text.
+
+Images: PNG is the widget as it is on screen (``QWidget.grab``: the widget's size times the
+screen's pixel ratio); SVG is a vector drawing made by rendering the widget into a
+``QSvgGenerator`` with a ``QPainter`` (pyqtgraph's own SVG exporter fails with PySide6 6.12).
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+from core.errors import InputError
+from core.session import Session
+
+__all__ = [
+    "IMAGE_SUFFIXES",
+    "write_atomic",
+    "widget_png",
+    "widget_svg",
+    "export_plot_image",
+    "export_parts_csv",
+    "export_response_csv",
+    "export_netlist",
+]
+
+IMAGE_SUFFIXES = (".png", ".svg")
+
+
+def write_atomic(path: str | os.PathLike, data: bytes | str) -> Path:
+    """Write ``data`` (text is UTF-8) to ``path`` atomically; returns the path.
+
+    A temporary file in the same folder is written, flushed and fsynced, then renamed over
+    ``path``. On any failure the temporary file is removed and an existing ``path`` is untouched.
+
+    Raises
+    ------
+    InputError
+        On the field ``output`` when the folder is missing or the file cannot be written.
+    """
+    p = Path(path)
+    if isinstance(data, str):
+        data = data.encode("utf-8")
+    folder = p.parent if str(p.parent) else Path(".")
+    if not folder.is_dir():
+        raise InputError("output", f"the folder {folder} does not exist")
+    if p.is_dir():
+        raise InputError("output", f"{p} is a folder")
+    try:
+        mode = os.stat(p).st_mode & 0o7777
+    except OSError:
+        umask = os.umask(0)
+        os.umask(umask)
+        mode = 0o666 & ~umask
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=folder)
+    except OSError as exc:
+        raise InputError("output", f"cannot write in {folder}: {exc.strerror or exc}") from None
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.chmod(tmp, mode)
+        os.replace(tmp, p)
+    except BaseException as exc:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        if isinstance(exc, OSError):
+            raise InputError("output", f"cannot write {p}: {exc.strerror or exc}") from None
+        raise
+    return p
+
+
+# --------------------------------------------------------------------------- images
+
+
+def widget_png(widget) -> bytes:
+    """PNG bytes of a widget as it is drawn (``grab()``: its size × the screen's pixel ratio)."""
+    from PySide6 import QtCore
+
+    pixmap = widget.grab()
+    buf = QtCore.QBuffer()
+    buf.open(QtCore.QIODevice.OpenModeFlag.WriteOnly)
+    if not pixmap.save(buf, "PNG"):
+        raise RuntimeError("Qt could not encode the image as PNG")
+    data = bytes(buf.data())
+    buf.close()
+    return data
+
+
+def widget_svg(widget, *, title: str = "Bandsmith plot", description: str = "") -> bytes:
+    """SVG bytes of a widget: a vector drawing (paths and text) at the widget's size."""
+    from PySide6 import QtCore, QtGui, QtSvg
+
+    size = widget.size()
+    buf = QtCore.QBuffer()
+    buf.open(QtCore.QIODevice.OpenModeFlag.WriteOnly)
+    gen = QtSvg.QSvgGenerator()
+    gen.setOutputDevice(buf)
+    gen.setSize(size)
+    gen.setViewBox(QtCore.QRect(0, 0, size.width(), size.height()))
+    gen.setTitle(title)
+    gen.setDescription(description or "Exported from Bandsmith")
+    painter = QtGui.QPainter()
+    if not painter.begin(gen):
+        raise RuntimeError("Qt could not start the SVG drawing")
+    try:
+        painter.fillRect(QtCore.QRect(0, 0, size.width(), size.height()), QtGui.QColor("white"))
+        widget.render(painter)
+    finally:
+        painter.end()
+    data = bytes(buf.data())
+    buf.close()
+    return data
+
+
+def export_plot_image(widget, path: str | os.PathLike, *, title: str | None = None) -> Path:
+    """Save a plot (any widget) as PNG or SVG, chosen by the suffix of ``path``; returns the path.
+
+    Raises
+    ------
+    InputError
+        On the field ``output`` for a suffix other than ``.png`` or ``.svg``, or a missing folder.
+    """
+    p = Path(path)
+    suffix = p.suffix.lower()
+    if suffix not in IMAGE_SUFFIXES:
+        raise InputError("output", f"{p.name!r} must end in .png or .svg (got {suffix or 'no suffix'})")
+    if suffix == ".png":
+        data = widget_png(widget)
+    else:
+        name = title or widget.objectName() or "plot"
+        data = widget_svg(widget, title=f"Bandsmith: {name}")
+    return write_atomic(p, data)
+
+
+# --------------------------------------------------------------------------- tables and netlists
+
+
+def _exports():
+    try:
+        from core import exports
+    except ImportError as exc:  # pragma: no cover - the core module ships with this one
+        raise RuntimeError(f"the exports of the core are missing ({exc})") from None
+    return exports
+
+
+def export_parts_csv(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:
+    """Write the parts list of one candidate of ``session`` as CSV (:func:`core.exports.parts_csv`)."""
+    entry = session.candidate(candidate_id)
+    return write_atomic(path, _exports().parts_csv(entry))
+
+
+def export_response_csv(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:
+    """Write one candidate's frequency response with the session's op-amp as CSV
+    (:func:`core.exports.response_csv`)."""
+    entry = session.candidate(candidate_id)
+    cond = session.conditions_for(entry)
+    return write_atomic(path, _exports().response_csv(entry, gbw_hz=cond.gbw_hz, a0=cond.a0, f0_hz=session.target.f0_hz))
+
+
+def export_netlist(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:
+    """Write one candidate as a SPICE netlist with the session's op-amp (:func:`core.exports.spice_netlist`)."""
+    entry = session.candidate(candidate_id)
+    cond = session.conditions_for(entry)
+    return write_atomic(path, _exports().spice_netlist(entry, gbw_hz=cond.gbw_hz, a0=cond.a0))
