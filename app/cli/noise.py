@@ -1,0 +1,86 @@
+"""``bandsmith noise``: output noise of one candidate, per source, integrated, and the SNR."""
+
+from __future__ import annotations
+
+from core.candidate import Candidate, parse_parts
+from core.circuits import get_topology
+from core.errors import InputError
+from core.mna import IDEAL, OpAmpModel
+from core.noise import NoiseSettings, output_noise
+from core.values import format_value, parse_nonnegative, parse_positive
+
+from .common import Command, print_json, split_assignments
+from .text import table
+
+
+def configure(p):
+    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
+    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
+    p.add_argument("--en", metavar="V_PER_RTHZ", help="op-amp voltage noise density, V/√Hz (default 10n)")
+    p.add_argument("--in", dest="in_", metavar="A_PER_RTHZ", help="op-amp current noise density at each input, A/√Hz (default 1p)")
+    p.add_argument("--temp", metavar="K", help="temperature in kelvin (default 300)")
+    p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); without it the op-amp is ideal")
+    p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
+    p.add_argument("--band", nargs=2, metavar=("F1", "F2"), help="integration band in Hz (default f0/10 to 10·f0)")
+    p.add_argument("--vin", metavar="V", help="input sine peak amplitude for the SNR (default 1)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def settings_from(args) -> NoiseSettings:
+    """Read the noise options into :class:`NoiseSettings` (bad input raises InputError)."""
+    kw = {}
+    if args.en is not None:
+        kw["en_v_per_rthz"] = parse_nonnegative(args.en, field="en")
+    if args.in_ is not None:
+        kw["in_a_per_rthz"] = parse_nonnegative(args.in_, field="in")
+    if args.temp is not None:
+        kw["temperature_k"] = parse_positive(args.temp, field="temp")
+    if args.band is not None:
+        kw["band_hz"] = (parse_positive(args.band[0], field="band"), parse_positive(args.band[1], field="band"))
+    return NoiseSettings(**kw)
+
+
+def noise_json(topology_id: str, assignments: dict[str, str], settings: NoiseSettings, opamp: OpAmpModel, vin_v: float) -> dict:
+    """The noise command's JSON object for typed parts."""
+    topo = get_topology(topology_id)
+    cand = Candidate(topo.id, parse_parts(topo, assignments))
+    result = output_noise(cand.netlist, settings, opamp=opamp, vin_v=vin_v)
+    return {"topology": topo.id, "components": {k: float(v) for k, v in cand.values.items()}, **result.to_json()}
+
+
+def print_readable(r: dict) -> None:
+    amp = "ideal op-amp" if r["opamp"] is None else f"GBW {format_value(r['opamp']['gbw_hz'], 'Hz')}"
+    f1, f2 = r["band_hz"]
+    print(
+        f"{r['topology']}: f0 {format_value(r['f0_hz'], 'Hz', digits=5)}, {amp}, {r['temperature_k']:g} K, "
+        f"en {format_value(r['en_v_per_rthz'], 'V/√Hz')}, in {format_value(r['in_a_per_rthz'], 'A/√Hz')}"
+    )
+    total = r["integrated_uv_rms"] ** 2
+    rows = []
+    order = sorted(r["contributions"].items(), key=lambda kv: -kv[1]["integrated_uv_rms"])
+    for name, c in order:
+        share = 100.0 * c["integrated_uv_rms"] ** 2 / total if total > 0 else 0.0
+        rows.append([name, f"{c['density_at_f0_nv_rthz']:.4g}", f"{c['integrated_uv_rms']:.4g}", f"{share:.1f}"])
+    rows.append(["total", f"{r['density_at_f0_nv_rthz']:.4g}", f"{r['integrated_uv_rms']:.4g}", "100.0" if total > 0 else "0.0"])
+    print(table(rows, header=["source", "at f0 (nV/√Hz)", f"{format_value(f1, 'Hz')}–{format_value(f2, 'Hz')} (µV rms)", "share (%)"]))
+    print()
+    snr = "∞ (noiseless)" if r["snr_db"] is None else f"{r['snr_db']:.2f} dB"
+    print(f"signal {format_value(r['signal_uv_rms'] * 1e-6, 'V')} rms at f0 for {format_value(r['vin_v'], 'V')} peak in; SNR {snr}")
+
+
+def run(args) -> int:
+    settings = settings_from(args)
+    a0 = parse_positive(args.a0, field="a0") if args.a0 is not None else 1e5
+    opamp = IDEAL if args.gbw is None else OpAmpModel(parse_positive(args.gbw, field="gbw"), a0)
+    vin = parse_positive(args.vin, field="vin") if args.vin is not None else 1.0
+    if not args.topology:
+        raise InputError("topology", "missing; give a circuit id (see `bandsmith topologies`)")
+    result = noise_json(args.topology, split_assignments(args.parts), settings, opamp, vin)
+    if args.json:
+        print_json(result)
+    else:
+        print_readable(result)
+    return 0
+
+
+COMMAND = Command("noise", "output noise per source (resistors, op-amp en and in), integrated over a band, and the SNR", configure, run, order=45)

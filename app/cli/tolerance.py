@@ -1,0 +1,166 @@
+"""``bandsmith tolerance``: Monte Carlo spread, yield and worst case of one candidate."""
+
+from __future__ import annotations
+
+import re
+
+from core.candidate import Candidate, parse_parts
+from core.circuits import get_topology
+from core.errors import InputError
+from core.mna import IDEAL, OpAmpModel
+from core.tolerance import DEFAULT_TOLERANCES, MAX_TRIALS, STAT_KEYS, SpreadSettings, run_spread
+from core.values import format_value, parse_fraction, parse_positive
+
+from .common import Command, print_json, split_assignments
+from .text import UNITS, figures_rows, table
+
+_WHOLE = re.compile(r"\s*[+-]?[0-9][0-9_]*\s*")
+
+
+def configure(p):
+    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
+    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
+    p.add_argument(
+        "--tol",
+        action="append",
+        default=[],
+        metavar="KIND_OR_REF=P",
+        help="tolerance of a kind (R, C, L) or of one part (C2=2%%); repeatable; defaults R=1%% C=5%% L=10%%",
+    )
+    p.add_argument("--dist", choices=("uniform", "normal"), default="uniform", help="uniform ±p, or normal with p = 3σ (default uniform)")
+    p.add_argument("--trials", metavar="N", help="number of Monte Carlo trials (default 10000)")
+    p.add_argument("--seed", metavar="S", help="random seed, a whole number (default 1); the same seed gives the same numbers")
+    p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); without it the op-amp is ideal")
+    p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
+    p.add_argument("--gbw-tol", metavar="P", help="spread of the GBW (needs --gbw; default 0)")
+    p.add_argument("--window-f0", metavar="P", help="yield window for f0 around nominal (default ±5%%)")
+    p.add_argument("--window-q", metavar="P", help="yield window for Q around nominal (default ±10%%)")
+    p.add_argument("--window-gain-db", metavar="D", help="yield window for the centre gain in dB (default ±1)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def _whole(text: str, field: str, *, low: int) -> int:
+    if not _WHOLE.fullmatch(text):
+        raise InputError(field, f'"{text}" is not a whole number')
+    v = int(text.replace("_", ""))
+    if v < low:
+        raise InputError(field, f"must be {'a positive' if low else 'a'} whole number{'' if low else ' of 0 or more'}, got {v}")
+    return v
+
+
+def _positive_fraction(text: str, field: str) -> float:
+    v = parse_fraction(text, field=field)
+    if v <= 0:
+        raise InputError(field, "must be greater than zero")
+    return v
+
+
+def settings_from(args) -> SpreadSettings:
+    """Read the spread options into :class:`SpreadSettings` (bad input raises InputError)."""
+    tol = {}
+    for tok in args.tol:
+        key, sep, text = tok.partition("=")
+        key = key.strip()
+        if not sep or not key:
+            raise InputError("tol", f'"{tok}" is not KIND_OR_REF=P; write e.g. R=1% or C2=2%')
+        if key in tol:
+            raise InputError("tol", f"{key} given twice")
+        tol[key] = parse_fraction(text, field=f"tol {key}")
+    kw = {"tolerances": tol, "dist": args.dist}
+    if args.trials is not None:
+        n = _whole(args.trials, "trials", low=1)
+        if n > MAX_TRIALS:
+            raise InputError("trials", f"at most {MAX_TRIALS}, got {n}")
+        kw["trials"] = n
+    if args.seed is not None:
+        kw["seed"] = _whole(args.seed, "seed", low=0)
+    if args.gbw_tol is not None:
+        kw["gbw_tol"] = parse_fraction(args.gbw_tol, field="gbw-tol")
+    if args.window_f0 is not None:
+        kw["window_f0"] = _positive_fraction(args.window_f0, "window-f0")
+    if args.window_q is not None:
+        kw["window_q"] = _positive_fraction(args.window_q, "window-q")
+    if args.window_gain_db is not None:
+        kw["window_gain_db"] = parse_positive(args.window_gain_db, field="window-gain-db")
+    return SpreadSettings(**kw)
+
+
+def opamp_from(args) -> OpAmpModel:
+    a0 = parse_positive(args.a0, field="a0") if args.a0 is not None else 1e5
+    if args.gbw is None:
+        return IDEAL
+    return OpAmpModel(parse_positive(args.gbw, field="gbw"), a0)
+
+
+def tolerance_json(topology_id: str, assignments: dict[str, str], settings: SpreadSettings, opamp: OpAmpModel) -> dict:
+    """The tolerance command's JSON object for typed parts."""
+    topo = get_topology(topology_id)
+    cand = Candidate(topo.id, parse_parts(topo, assignments))
+    spread = run_spread(cand.netlist, settings, opamp=opamp)
+    return {"topology": topo.id, "components": {k: float(v) for k, v in cand.values.items()}, **spread.to_json()}
+
+
+def _cell(key: str, v) -> str:
+    if v is None:
+        return "—"
+    if key == "f0_hz":
+        return format_value(v, "Hz", digits=5)
+    if key == "gain_center_db":
+        return f"{v:.3f}"
+    return f"{v:.4g}"
+
+
+def _corner(c: dict) -> str:
+    return " ".join(f"{ref}{'+' if p > 0 else '−'}{100 * abs(p):g}%" for ref, p in c.items()) or "nominal"
+
+
+def print_readable(r: dict) -> None:
+    topo = get_topology(r["topology"])
+    amp = "ideal op-amp" if r["opamp"] is None else f"GBW {format_value(r['opamp']['gbw_hz'], 'Hz')}"
+    if r["opamp"] is not None and r.get("gbw_tol"):
+        amp += f" ±{100 * r['gbw_tol']:g} %"
+    print(f"{topo.id}: {r['trials']} trials, {r['dist']}, seed {r['seed']}, {amp}")
+    parts = [
+        [ref, format_value(v, UNITS[topo.component(ref).kind]), f"±{100 * r['tolerances'][ref]:g} %" if ref in r["tolerances"] else "—"]
+        for ref, v in r["components"].items()
+    ]
+    print(table(parts, header=["part", "value", "tolerance"]))
+    print()
+    print(table(figures_rows(r["nominal"]), header=["nominal", ""]))
+    print()
+    names = {"f0_hz": "f0", "q": "Q", "gain_center_db": "gain (dB)"}
+    rows = [[names[k]] + [_cell(k, r[k][s]) for s in STAT_KEYS] for k in names]
+    print(table(rows, header=["figure"] + list(STAT_KEYS)))
+    print()
+    w = r["window"]
+    print(
+        f"yield {100 * r['yield']:.2f} % within f0 ±{100 * w['f0']:g} %, Q ±{100 * w['q']:g} %, gain ±{w['gain_db']:g} dB"
+        + (f"; {r['failed_trials']} trials unstable or without a peak" if r["failed_trials"] else "")
+    )
+    print()
+    wc = r["worst_case"]
+    print(f"worst case ({wc['method']}, {wc['corner_count']} corners" + (f", {wc['unstable_corners']} unstable" if wc["unstable_corners"] else "") + ")")
+    rows = []
+    for k in names:
+        lo, hi = wc[k]
+        clo, chi = wc["corners"][k]
+        rows.append([names[k] + " lowest", _cell(k, lo), _corner(clo)])
+        rows.append([names[k] + " highest", _cell(k, hi), _corner(chi)])
+    print(table(rows, header=["", "value", "corner"]))
+
+
+def run(args) -> int:
+    settings = settings_from(args)
+    opamp = opamp_from(args)
+    if settings.gbw_tol > 0 and opamp.ideal:
+        raise InputError("gbw-tol", "needs --gbw: an ideal op-amp has no GBW to spread")
+    result = tolerance_json(args.topology, split_assignments(args.parts), settings, opamp)
+    if args.json:
+        print_json(result)
+    else:
+        print_readable(result)
+    return 0
+
+
+_DEFAULTS = ", ".join(f"{k} {100 * v:g} %" for k, v in DEFAULT_TOLERANCES.items())
+COMMAND = Command("tolerance", f"Monte Carlo tolerance spread, yield and worst case ({_DEFAULTS} by default)", configure, run, order=40)
