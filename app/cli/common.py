@@ -6,6 +6,7 @@ import argparse
 import json
 import math
 import sys
+import warnings
 from dataclasses import dataclass
 from typing import Callable
 
@@ -50,9 +51,15 @@ class CliParser(argparse.ArgumentParser):
 
 
 def run_guarded(run: Callable[[argparse.Namespace], int], args: argparse.Namespace) -> int:
-    """Run a command: bad input → exit 2 and one line; an internal failure → exit 1, no traceback."""
+    """Run a command: bad input → exit 2 and one line; an internal failure → exit 1, no traceback.
+
+    Warnings (numpy's floating-point ones on a degenerate design, say) are not printed: stderr
+    carries only the one-line message.
+    """
     try:
-        return run(args)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return run(args)
     except InputError as exc:
         print(str(exc), file=sys.stderr)
         return EXIT_BAD_INPUT
