@@ -10,7 +10,8 @@ Choosing standard values
 Every part that is neither pinned nor an inductor's winding resistance is offered the standard
 values up to ``width`` steps of the series below and above its exact value (by default one step:
 the two standard values that bracket it, or — for a value already standard, such as the capacitor
-level a design procedure chose — itself and its two neighbours). All combinations are analysed in one batched solve
+level a design procedure chose — itself and its two neighbours). Inductors are taken from E12
+when E24 is asked (:func:`part_series_of`). All combinations are analysed in one batched solve
 (:func:`core.analysis.transfer_function` with override arrays, measured by
 :func:`core.figures.measure` on a grid around the target), and the combination with the least
 weighted error wins:
@@ -54,6 +55,8 @@ __all__ = [
     "choose_standard",
     "spread_of",
     "parse_fixed",
+    "design_session",
+    "part_series_of",
 ]
 
 UNITS = {"R": "Ω", "L": "H", "C": "F"}
@@ -181,6 +184,15 @@ def _weighted_batch(fig: Figures, spec: Spec, tol: Tolerances) -> np.ndarray:
     return np.where(np.isfinite(e), e, np.inf)
 
 
+def part_series_of(kind: str, series: str) -> str:
+    """The series a part of this kind is chosen from: inductors from E12 when E24 is asked.
+
+    Inductors are seldom stocked in E24 values (common practice, no source); E12 is a subset of
+    E24, so the chosen values still lie in the series asked for.
+    """
+    return "E12" if kind == "L" and series == "E24" else series
+
+
 @functools.lru_cache(maxsize=None)
 def _mantissas(series: str) -> np.ndarray:
     return np.array(mantissas(series))
@@ -238,10 +250,16 @@ def choose_standard(
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h, grid=grid), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
     x = np.array([values[r] for r in free])
-    options = _options(x, series, width)
+    part_series = [part_series_of(topology.component(r).kind, series) for r in free]
+    options = [None] * len(free)
+    rounded = np.empty(len(free))
+    for ps in set(part_series):
+        idx = [i for i, p in enumerate(part_series) if p == ps]
+        for i, o in zip(idx, _options(x[idx], ps, width)):
+            options[i] = o
+        rounded[idx] = nearest_array(x[idx], ps)
     mesh = np.meshgrid(*options, indexing="ij")
     # The last member rounds every part alone to its nearest standard value, for comparison.
-    rounded = nearest_array(x, series)
     over = {r: np.append(m.reshape(-1), v) for r, m, v in zip(free, mesh, rounded)}
     h = transfer_function(netlist, overrides=over, w_ref=spec.w0)
     fig = measure(h, grid=grid)
@@ -477,3 +495,44 @@ def design_json(result: DesignResult) -> dict:
         },
         **body,
     }
+
+
+def design_session(spec: Spec, results, *, series: str | None = None, conditions: Conditions | None = None, notes: str = ""):
+    """A session holding the feasible designs of ``results`` (for ``--save``).
+
+    Each feasible design becomes a candidate (id = its circuit id, ``-2``, ``-3`` ... for
+    repeats) with its chosen parts, its series as ``snap``, its pinned parts as ``fixed`` and its
+    design notes and warnings as the candidate's notes; infeasible ones are listed in the
+    session's notes with their reasons.
+    """
+    from .session import CandidateEntry, OpAmpSpec, Session, Target
+
+    results = list(results)
+    if series is None:
+        series = results[0].series if results else "E24"
+    if conditions is None:
+        conditions = results[0].conditions if results else Conditions()
+    session = Session(
+        target=Target(f0_hz=spec.f0_hz, q=spec.q, gain=spec.gain, vin_v=conditions.vin_v, series=series),
+        candidates=(),
+        opamp=OpAmpSpec(gbw_hz=conditions.gbw_hz, a0=conditions.a0),
+        tolerances=conditions.tolerances,
+        rload_ohm=conditions.rload_ohm,
+    )
+    lines = [notes] if notes else []
+    for r in results:
+        if not r.feasible:
+            lines.append(f"{r.topology_id}: not feasible: {r.reason}")
+            continue
+        entry = CandidateEntry(
+            id=session.new_candidate_id(r.topology_id),
+            topology_id=r.topology_id,
+            values=dict(r.chosen),
+            snap=None if r.series == "exact" else r.series,
+            fixed=tuple(r.fixed),
+            notes="\n".join(list(r.notes) + [f"warning: {w}" for w in r.warnings]),
+        )
+        session = session.with_candidate(entry)
+    from dataclasses import replace
+
+    return replace(session, notes="\n".join(lines))

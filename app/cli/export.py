@@ -1,0 +1,74 @@
+"""``bandsmith export``: one export of a session candidate (SPICE netlist, parts CSV, response CSV)."""
+
+from __future__ import annotations
+
+import sys
+
+import numpy as np
+
+from core.errors import InputError
+from core.exports import parts_csv, response_csv, spice_netlist, write_atomic
+from core.session import load_session
+from core.values import parse_positive
+
+from .common import Command
+
+
+def configure(p):
+    p.add_argument("session", metavar="FILE", help="session file")
+    what = p.add_mutually_exclusive_group()
+    what.add_argument("--netlist", metavar="OUT.cir", help="write a SPICE netlist of the candidate")
+    what.add_argument("--parts", metavar="OUT.csv", help="write the parts list (CSV)")
+    what.add_argument("--response", metavar="OUT.csv", help="write the frequency response (CSV, as `sweep --csv`)")
+    p.add_argument("--candidate", metavar="ID", help="candidate id (default: the first one switched on)")
+    p.add_argument("--from", dest="f_from", metavar="F", help="response/sweep start frequency")
+    p.add_argument("--to", dest="f_to", metavar="F", help="response/sweep stop frequency")
+    p.add_argument("--points", metavar="N", help="response points (default 1000) or netlist points per decade (default 100)")
+
+
+def _points(text: str | None, default: int) -> int:
+    if text is None:
+        return default
+    try:
+        n = int(text)
+    except ValueError:
+        raise InputError("points", f"{text!r} is not a whole number") from None
+    if not 2 <= n <= 1_000_000:
+        raise InputError("points", "must be from 2 to 1000000")
+    return n
+
+
+def run(args) -> int:
+    if not (args.netlist or args.parts or args.response):
+        raise InputError("export", "say what to write: --netlist OUT.cir, --parts OUT.csv or --response OUT.csv")
+    session = load_session(args.session)
+    if args.candidate is not None:
+        entry = session.candidate(args.candidate)
+    else:
+        on = [c for c in session.candidates if c.enabled] or list(session.candidates)
+        if not on:
+            raise InputError("candidate", f"{args.session} has no candidate to export")
+        entry = on[0]
+    f_from = parse_positive(args.f_from, field="from") if args.f_from is not None else None
+    f_to = parse_positive(args.f_to, field="to") if args.f_to is not None else None
+    if f_from is not None and f_to is not None and f_to <= f_from:
+        raise InputError("to", f"must be above --from ({f_from:g} Hz)")
+    gbw, a0 = session.opamp.gbw_hz, session.opamp.a0
+    if args.netlist:
+        out, text = args.netlist, spice_netlist(entry, gbw_hz=gbw, a0=a0, f_start_hz=f_from, f_stop_hz=f_to, points_per_decade=_points(args.points, 100))
+    elif args.parts:
+        out, text = args.parts, parts_csv(entry, gbw_hz=gbw)
+    else:
+        f = np.geomspace(f_from if f_from is not None else 10.0, f_to if f_to is not None else 10e6, _points(args.points, 1000))
+        if f[-1] <= f[0]:
+            raise InputError("to", "must be above --from")
+        out, text = args.response, response_csv(entry, gbw_hz=gbw, a0=a0, f_hz=f)
+    if out == "-":
+        sys.stdout.write(text)
+    else:
+        write_atomic(out, text)
+        print(f"wrote {out} (candidate {entry.id})")
+    return 0
+
+
+COMMAND = Command("export", "write a SPICE netlist, parts list or response table of a session candidate", configure, run, order=60)
