@@ -123,7 +123,7 @@ def test_undo_redo_from_the_menu_actions(window, qtbot):
     window.act_redo.trigger()
     assert_allclose(window.state.session.candidate(cid).values[ref], 12e3)
     assert col.fields[ref].edit.text() == "12 kΩ"
-    assert window.act_undo.shortcut().toString() == "Ctrl+Z"
+    assert "Ctrl+Z" in [s.toString() for s in window.act_undo.shortcuts()]
     assert "Ctrl+Shift+Z" in [s.toString() for s in window.act_redo.shortcuts()]
 
 

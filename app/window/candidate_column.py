@@ -76,6 +76,9 @@ class CandidateColumn(QtWidgets.QFrame):
         self.circuit.setToolTip(f"{self.topology.title}\n{self.topology.notes}")
         self.circuit.setStyleSheet("color: #5f6368;")
         self.circuit.setWordWrap(True)
+        # Two lines for every circuit name, so the rows of all columns line up side by side.
+        self.circuit.setFixedHeight(2 * self.circuit.fontMetrics().lineSpacing() + 2)
+        self.circuit.setAlignment(QtCore.Qt.AlignmentFlag.AlignLeft | QtCore.Qt.AlignmentFlag.AlignTop)
         lay.addWidget(self.circuit)
 
         # Switches: on/off and pin on the first row, variant actions on the second.

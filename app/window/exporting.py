@@ -108,6 +108,9 @@ def widget_svg(widget, *, title: str = "Bandsmith plot", description: str = "") 
     gen.setOutputDevice(buf)
     gen.setSize(size)
     gen.setViewBox(QtCore.QRect(0, 0, size.width(), size.height()))
+    # The screen's resolution: pyqtgraph replays cached QPictures (axes), which Qt rescales by
+    # the ratio of resolutions; the generator's default (72 dpi) would shrink them by a quarter.
+    gen.setResolution(widget.logicalDpiX())
     gen.setTitle(title)
     gen.setDescription(description or "Exported from Bandsmith")
     painter = QtGui.QPainter()
@@ -157,15 +160,23 @@ def _exports():
 def export_parts_csv(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:
     """Write the parts list of one candidate of ``session`` as CSV (:func:`core.exports.parts_csv`)."""
     entry = session.candidate(candidate_id)
-    return write_atomic(path, _exports().parts_csv(entry))
+    return write_atomic(path, _exports().parts_csv(entry, gbw_hz=session.opamp.gbw_hz))
 
 
-def export_response_csv(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:
+def export_response_csv(session: Session, candidate_id: str, path: str | os.PathLike, *, f_hz=None) -> Path:
     """Write one candidate's frequency response with the session's op-amp as CSV
-    (:func:`core.exports.response_csv`)."""
+    (:func:`core.exports.response_csv`).
+
+    The frequencies are those of the plots (two decades each side of the target f0, see
+    :func:`app.plots.curves.frequency_grid`) unless ``f_hz`` (Hz) is given.
+    """
+    from app.plots.curves import frequency_grid
+
     entry = session.candidate(candidate_id)
     cond = session.conditions_for(entry)
-    return write_atomic(path, _exports().response_csv(entry, gbw_hz=cond.gbw_hz, a0=cond.a0, f0_hz=session.target.f0_hz))
+    if f_hz is None:
+        f_hz = frequency_grid([session.target.f0_hz])
+    return write_atomic(path, _exports().response_csv(entry, gbw_hz=cond.gbw_hz, a0=cond.a0, f_hz=f_hz))
 
 
 def export_netlist(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:

@@ -38,6 +38,30 @@ _CSV_FILTER = "CSV table (*.csv)"
 _NETLIST_FILTER = "SPICE netlist (*.cir *.sp *.net)"
 _REPORT_FILTER = "HTML report (*.html);;PDF report (*.pdf)"
 
+# Where a platform defines no key for a standard action (Quit and Help on some desktops, every
+# one under the offscreen platform), the usual ones.
+_K = QtGui.QKeySequence.StandardKey
+_FALLBACK_KEYS = {
+    _K.New: "Ctrl+N",
+    _K.Open: "Ctrl+O",
+    _K.Save: "Ctrl+S",
+    _K.SaveAs: "Ctrl+Shift+S",
+    _K.Quit: "Ctrl+Q",
+    _K.HelpContents: "F1",
+}
+
+
+def _unique_keys(standard, *usual: str) -> list[QtGui.QKeySequence]:
+    """The platform's keys for a standard action plus the usual ones, each once (a key bound
+    twice to one action would be ambiguous and fire nothing)."""
+    keys = list(QtGui.QKeySequence.keyBindings(standard)) + [QtGui.QKeySequence(k) for k in usual]
+    out, seen = [], set()
+    for k in keys:
+        if not k.isEmpty() and k.toString() not in seen:
+            seen.add(k.toString())
+            out.append(k)
+    return out
+
 
 class WorkbenchWindow(QtWidgets.QMainWindow):
     """The main window over a :class:`WorkbenchState`.
@@ -120,6 +144,8 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         if tip:
             act.setStatusTip(tip)
             act.setToolTip(tip)
+        if shortcut is not None and act.shortcut().isEmpty() and shortcut in _FALLBACK_KEYS:
+            act.setShortcut(QtGui.QKeySequence(_FALLBACK_KEYS[shortcut]))
         act.triggered.connect(slot)
         self.addAction(act)
         return act
@@ -153,10 +179,10 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         stack = self.state.undo_stack
         self.act_undo = stack.createUndoAction(self, "&Undo")
         self.act_undo.setObjectName("actUndo")
-        self.act_undo.setShortcut(QtGui.QKeySequence(K.Undo))
+        self.act_undo.setShortcuts(_unique_keys(K.Undo, "Ctrl+Z"))
         self.act_redo = stack.createRedoAction(self, "&Redo")
         self.act_redo.setObjectName("actRedo")
-        self.act_redo.setShortcuts([QtGui.QKeySequence(K.Redo), QtGui.QKeySequence("Ctrl+Shift+Z")])
+        self.act_redo.setShortcuts(_unique_keys(K.Redo, "Ctrl+Shift+Z", "Ctrl+Y"))
         for a in (self.act_undo, self.act_redo):
             self.addAction(a)
         e.addActions([self.act_undo, self.act_redo])
@@ -174,8 +200,6 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
 
         h = bar.addMenu("&Help")
         self.act_help = self._action("Bandsmith &help and cautions", "actHelp", self.show_help, K.HelpContents)
-        if self.act_help.shortcut().isEmpty():
-            self.act_help.setShortcut(QtGui.QKeySequence("F1"))
         h.addAction(self.act_help)
 
     def add_pane(self, title: str, widget: QtWidgets.QWidget) -> int:

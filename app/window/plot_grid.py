@@ -10,6 +10,7 @@ from PySide6 import QtCore, QtWidgets
 
 from .plots import PLOT_CLASSES, CandidatePlot
 from .state import WorkbenchState
+from .theme import apply_plot_theme
 
 __all__ = ["PlotGrid"]
 
@@ -27,6 +28,7 @@ class PlotGrid(QtWidgets.QWidget):
         self.setObjectName("plotGrid")
         self.state = state
         self.plots: dict[str, CandidatePlot] = {}
+        apply_plot_theme()  # before the first plot is made: pyqtgraph reads it at construction
         for cls in PLOT_CLASSES:
             plot = cls(state, self)
             plot.cursor_text.connect(self.cursor_text)

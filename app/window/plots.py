@@ -267,7 +267,7 @@ class GbwErrorPlot(CandidatePlot):
         return res.gbw.gbw_hz, y
 
     def _setup_extras(self, item):
-        self.limit_line = pg.InfiniteLine(angle=0, pos=0.0, pen=_LIMIT, label="tolerance", labelOpts={"position": 0.08, "color": "#b0191e", "anchors": [(0, 1), (0, 1)]})
+        self.limit_line = pg.InfiniteLine(angle=0, pos=0.0, pen=_LIMIT, label="tolerance", labelOpts={"position": 0.9, "color": "#b0191e", "anchors": [(0, 1), (0, 1)]})
         item.addItem(self.limit_line, ignoreBounds=True)
         self.opamp_line = pg.InfiniteLine(angle=90, pen=pg.mkPen("#202124", width=1.5), label="op-amp", labelOpts={"position": 0.92, "color": "#202124"})
         item.addItem(self.opamp_line, ignoreBounds=True)

@@ -1,0 +1,128 @@
+"""The window as a whole: screenshots at two sizes, background jobs, start-up from the command."""
+
+import os
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+from PySide6 import QtCore, QtWidgets
+
+from app.window.background import BackgroundJob
+from app.window.demo import demo_session
+from app.window.main import STARTUP_MARK
+from app.window.main_window import WorkbenchWindow
+from app.window.state import WorkbenchState
+from window_helpers import ScriptedPrompter, temp_settings
+
+pytestmark = pytest.mark.gui
+
+ARTIFACTS = Path(__file__).parent / "_artifacts"
+
+
+@pytest.fixture
+def window(qtbot, tmp_path, monkeypatch):
+    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
+    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
+    qtbot.addWidget(w)
+    return w
+
+
+@pytest.mark.parametrize("size", [(1280, 800), (1920, 1080)])
+def test_screenshot_of_the_demo_session(window, qtbot, size):
+    window.resize(*size)
+    window.show()
+    qtbot.waitExposed(window)
+    qtbot.wait(50)
+    image = window.grab()
+    ARTIFACTS.mkdir(exist_ok=True)
+    out = ARTIFACTS / f"window_{size[0]}x{size[1]}.png"
+    assert image.save(str(out))
+    assert image.width() == size[0] and image.height() == size[1]
+    # Every column's title and needs are on screen at this size (not squeezed to nothing).
+    for col in window.board.columns.values():
+        assert col.need_gbw.text().startswith(("GBW", "—"))
+        assert col.need_gbw.width() >= col.need_gbw.sizeHint().width() - 2
+    for plot in window.plot_grid.plots.values():
+        assert plot.width() >= 220 and plot.height() >= 170
+
+
+def test_background_job_reports_progress_and_result(qtbot, window):
+    def work(progress, cancelled):
+        for i in range(5):
+            progress((i + 1) / 5)
+        return 42
+
+    job = BackgroundJob(work, "test job")
+    seen = []
+    job.progress.connect(seen.append)
+    with qtbot.waitSignal(job.finished, timeout=5000) as blocker:
+        window.run_job(job)
+    assert blocker.args == [42]
+    assert seen[-1] == pytest.approx(1.0)
+    qtbot.waitUntil(lambda: not window.job_status.isVisible() or window.job_status.job is None)
+
+
+def test_background_job_can_be_cancelled(qtbot, window):
+    started = []
+
+    def work(progress, cancelled):
+        started.append(True)
+        while not cancelled():
+            time.sleep(0.005)
+        return None
+
+    job = BackgroundJob(work, "long job")
+    window.show()
+    window.run_job(job)
+    qtbot.waitUntil(lambda: bool(started), timeout=5000)
+    assert window.job_status.isVisible()
+    with qtbot.waitSignal(job.cancelled, timeout=5000):
+        qtbot.mouseClick(window.job_status.cancel_button, QtCore.Qt.MouseButton.LeftButton)
+    assert window.job_status.job is None
+
+
+def test_background_job_failure_is_reported(qtbot):
+    def work(progress, cancelled):
+        raise ValueError("bad trial")
+
+    job = BackgroundJob(work)
+    with qtbot.waitSignal(job.failed, timeout=5000) as blocker:
+        job.start()
+    assert "bad trial" in blocker.args[0]
+
+
+def test_help_key_and_shortcuts(window):
+    assert window.act_help.shortcut().toString() == "F1"
+    assert window.act_save.shortcut().toString() == "Ctrl+S"
+    assert window.act_save_as.shortcut().toString() == "Ctrl+Shift+S"
+    assert window.act_open.shortcut().toString() == "Ctrl+O"
+    assert window.act_new.shortcut().toString() == "Ctrl+N"
+    assert window.act_quit.shortcut().toString() == "Ctrl+Q"
+
+
+def test_tooltips_name_units(window):
+    strip = window.target_strip
+    assert "Hz" in strip.f0.edit.toolTip()
+    assert "V/V" in strip.gain.edit.toolTip()
+    assert "Hz" in strip.gbw.edit.toolTip()
+    col = next(iter(window.board.columns.values()))
+    tips = [f.edit.toolTip() for f in col.fields.values()]
+    assert all(("ohm" in t) or ("farad" in t) or ("henry" in t) for t in tips)
+
+
+@pytest.mark.cli
+def test_bandsmith_command_shows_the_window(tmp_path):
+    env = dict(
+        os.environ,
+        QT_QPA_PLATFORM="offscreen",
+        BANDSMITH_STARTUP_MARK="1",
+        BANDSMITH_QUIT_AFTER_SHOW="1",
+        BANDSMITH_RECOVERY_DIR=str(tmp_path),
+        XDG_CONFIG_HOME=str(tmp_path),
+        HOME=str(tmp_path),
+    )
+    proc = subprocess.run([sys.executable, "-m", "app.cli"], env=env, capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    assert STARTUP_MARK in proc.stderr
