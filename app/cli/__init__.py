@@ -36,7 +36,8 @@ def _parser() -> CliParser:
     )
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=CliParser)
     for cmd in commands():
-        p = sub.add_parser(cmd.name, help=cmd.help, description=cmd.help)
+        # argparse %-formats help strings: a literal "%" in a command's help ("R 1 %") must be doubled
+        p = sub.add_parser(cmd.name, help=cmd.help.replace("%", "%%"), description=cmd.help)
         cmd.configure(p)
         p.set_defaults(_run=cmd.run)
     return parser
