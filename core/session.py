@@ -558,6 +558,29 @@ def session_from_json(obj: Any, *, source: str = "the session") -> Session:
         raise r.impossible("candidates" if exc.field == "id" else exc.field, exc.reason) from None
 
 
+def _ends_early(text: str) -> bool:
+    """Whether the text stops inside a string or with brackets still open (a cut-off file)."""
+    depth = 0
+    in_string = escaped = False
+    for ch in text:
+        if in_string:
+            if escaped:
+                escaped = False
+            elif ch == "\\":
+                escaped = True
+            elif ch == '"':
+                in_string = False
+        elif ch == '"':
+            in_string = True
+        elif ch in "{[":
+            depth += 1
+        elif ch in "}]":
+            depth -= 1
+            if depth < 0:
+                return False
+    return in_string or depth > 0
+
+
 def _reject_constant(name: str):
     raise ValueError(f"{name} is not a JSON number")
 
@@ -570,8 +593,8 @@ def loads_session(text: str, *, source: str = "the session") -> Session:
     try:
         obj = json.loads(text, parse_constant=_reject_constant)
     except json.JSONDecodeError as exc:
-        if exc.pos >= len(text.rstrip()):
-            raise r.fail("truncated", f"is truncated: the JSON ends early (line {exc.lineno}); it may be an interrupted copy") from None
+        if exc.pos >= len(text.rstrip()) or _ends_early(text):
+            raise r.fail("truncated", "is truncated: it ends before its JSON is complete; it may be an interrupted copy") from None
         raise r.fail("damaged", f"is damaged: not valid JSON at line {exc.lineno}, column {exc.colno} ({exc.msg})") from None
     except ValueError as exc:
         raise r.fail("damaged", f"is damaged: {exc}") from None
