@@ -213,7 +213,10 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         return job
 
     def _fit_splitter(self) -> None:
-        want = min(self.board.preferred_width(), int(self.width() * 0.52))
+        # On a wide screen the board may take up to 60 % (four columns at 1920 px); on a narrow
+        # one about half, so the plots keep a readable size and the board scrolls sideways.
+        share = 0.6 if self.width() >= 1600 else 0.52
+        want = min(self.board.preferred_width(), int(self.width() * share))
         self.splitter.setSizes([want, max(300, self.width() - want)])
 
     def resizeEvent(self, event) -> None:  # noqa: N802 - Qt's name

@@ -136,6 +136,8 @@ class CandidatePlot(pg.PlotWidget):
         # pyqtgraph pick an SI prefix for the unit ("ms", "kHz").
         for side, text, unit, log in (("bottom", self.x_label, self.x_unit, self.log_x), ("left", self.y_label, self.y_unit, self.log_y)):
             if log or unit in ("dB", "°", "V/V", "× tol"):
+                # No SI scaling on these axes: a "(x0.001)" beside "V/V" reads as nonsense.
+                item.getAxis(side).enableAutoSIPrefix(False)
                 item.setLabel(side, f"{text} ({unit})" if unit else text, color=_INK)
             else:
                 item.setLabel(side, text, units=unit, color=_INK)
@@ -267,7 +269,7 @@ class GbwErrorPlot(CandidatePlot):
         return res.gbw.gbw_hz, y
 
     def _setup_extras(self, item):
-        self.limit_line = pg.InfiniteLine(angle=0, pos=0.0, pen=_LIMIT, label="tolerance", labelOpts={"position": 0.9, "color": "#b0191e", "anchors": [(0, 1), (0, 1)]})
+        self.limit_line = pg.InfiniteLine(angle=0, pos=0.0, pen=_LIMIT, label="tolerance", labelOpts={"position": 0.98, "color": "#b0191e", "anchors": [(1, 1), (1, 1)]})
         item.addItem(self.limit_line, ignoreBounds=True)
         self.opamp_line = pg.InfiniteLine(angle=90, pen=pg.mkPen("#202124", width=1.5), label="op-amp", labelOpts={"position": 0.92, "color": "#202124"})
         item.addItem(self.opamp_line, ignoreBounds=True)
