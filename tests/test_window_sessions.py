@@ -115,7 +115,7 @@ def test_saving_removes_the_recovery_copy(qtbot, tmp_path, recovery_dir):
     "content, words",
     [
         ('{"format": "bandsmith-session", "version": 1, "target": {', "truncated"),
-        ("{not json at all", "damaged"),
+        ('{"format": "bandsmith-session",, "version": 1}', "damaged"),
         (json.dumps({"format": "bandsmith-session", "version": 99, "target": {}}), "newer"),
         (json.dumps({"format": "something-else", "version": 1}), "not a Bandsmith session"),
     ],
