@@ -261,9 +261,10 @@ def choose_standard(
     mesh = np.meshgrid(*options, indexing="ij")
     # The last member rounds every part alone to its nearest standard value, for comparison.
     over = {r: np.append(m.reshape(-1), v) for r, m, v in zip(free, mesh, rounded)}
-    h = transfer_function(netlist, overrides=over, w_ref=spec.w0)
-    fig = measure(h, grid=grid)
-    cost = np.where(hurwitz_stable(h.den) & fig.valid, _weighted_batch(fig, spec, tolerances), np.inf)
+    with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
+        h = transfer_function(netlist, overrides=over, w_ref=spec.w0)
+        fig = measure(h, grid=grid)
+        cost = np.where(hurwitz_stable(h.den) & fig.valid, _weighted_batch(fig, spec, tolerances), np.inf)
     i = int(np.argmin(cost[:-1]))
     chosen = dict(values)
     chosen.update({r: float(over[r][i]) for r in free})
