@@ -434,10 +434,6 @@ def _closed_form(num: np.ndarray, den: np.ndarray, w_ref: float) -> tuple[Figure
     return fig, stable & np.isfinite(q) & np.isfinite(gain)
 
 
-def _take(fig: Figures, idx: np.ndarray) -> Figures:
-    return Figures(**{f.name: getattr(fig, f.name)[idx] for f in fields(Figures)})
-
-
 def _put(fig: Figures, idx: np.ndarray, part: Figures) -> Figures:
     out = {}
     for f in fields(Figures):
