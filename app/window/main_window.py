@@ -134,6 +134,12 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         self._on_current_changed(state.current_id)
         self.resize(1280, 800)
         self._fit_splitter()
+        from .measurement_pane import install as install_measurement_pane
+
+        install_measurement_pane(self)
+        from .shelf_pane import install as install_shelf_pane
+
+        install_shelf_pane(self)
 
     # ------------------------------------------------------------------ building
     def _action(self, text: str, name: str, slot, shortcut=None, tip: str = "") -> QtGui.QAction:
