@@ -140,7 +140,7 @@ def test_figures_in_report_match_closed_form_mfb(qapp):
     assert format_value(q, "", digits=4).strip() in text
     assert format_value(h0, "", digits=4).strip() in text
     # Error against the target, as printed: 100·(f0/target − 1) with three significant digits.
-    assert f"{100 * (w0 / (2 * math.pi) / 2000.0 - 1):+.3g} %" in text
+    assert f"{100 * (w0 / (2 * math.pi) / 2000.0 - 1):+.3f} %" in text
 
 
 def test_report_without_images_and_with_notes_escaped(qapp):
@@ -171,15 +171,15 @@ def test_switched_off_candidate_is_listed_but_not_plotted(qapp):
     assert f"{off.id}: " in text and "switched off (not in the plots)" in text
 
 
-def test_sections_can_be_added_before_the_notes(qapp, monkeypatch):
+def test_sections_can_be_added_before_the_cautions(qapp, monkeypatch):
     from app.window import report
 
     monkeypatch.setattr(report, "SECTIONS", list(report.SECTIONS))
     report.register_section("spread", lambda ctx: "<h2>Tolerance spread</h2><p>later</p>")
     names = [n for n, _ in report.SECTIONS]
-    assert names.index("spread") == names.index("notes") - 1
+    assert names.index("spread") == names.index("cautions") - 1 == len(names) - 2
     page = report.build_report_html(_built_session(), images=False)
-    assert page.index("Tolerance spread") < page.index(">Notes<") < page.index(">Cautions<")
+    assert page.index(">Notes<") < page.index("Achieved figures") < page.index("Tolerance spread") < page.index(">Cautions<")
     report.register_section("spread", lambda ctx: "")  # replacing keeps one entry
     assert [n for n, _ in report.SECTIONS].count("spread") == 1
 

@@ -23,6 +23,7 @@ from .curves import Curve, PlotData
 __all__ = [
     "ensure_qt_app",
     "FrequencyAxis",
+    "PlotImageWidget",
     "build_plot_widget",
     "paint_widget",
     "image_png",
@@ -82,41 +83,62 @@ def _pen(index: int, width: float):
     return pg.mkPen(QtGui.QColor(st.colour), width=width, style=st.pen_style)
 
 
-def build_plot_widget(plot: PlotData, *, width: int = 900, height: int = 380, line_width: float = 2.0):
-    """A light-theme ``PlotWidget`` drawing ``plot`` (not shown); returns the widget.
+class PlotImageWidget(pg.GraphicsLayoutWidget):
+    """A plot with its legend in a row of its own underneath, so the legend never hides a curve."""
 
-    The plot item's curves are in ``widget.getPlotItem().listDataItems()``, one per candidate in
-    legend order.
+    def __init__(self, plot_item: pg.PlotItem, legend: pg.LegendItem):
+        super().__init__()
+        self.setBackground("w")
+        self.addItem(plot_item, row=0, col=0)
+        self.addItem(legend, row=1, col=0)
+        lay = self.ci.layout
+        lay.setRowStretchFactor(0, 1)
+        lay.setRowStretchFactor(1, 0)
+        legend.setSizePolicy(QtWidgets.QSizePolicy.Policy.Preferred, QtWidgets.QSizePolicy.Policy.Fixed)
+        lay.setRowFixedHeight(1, legend.preferredHeight())
+        self.ci.layout.setContentsMargins(2, 2, 2, 2)
+        self.plot_item = plot_item
+        self.legend = legend
+
+    def getPlotItem(self) -> pg.PlotItem:  # noqa: N802 - the name PlotWidget uses
+        return self.plot_item
+
+
+def build_plot_widget(plot: PlotData, *, width: int = 900, height: int = 380, line_width: float = 2.0) -> PlotImageWidget:
+    """A light-theme widget drawing ``plot`` (not shown): the plot, and its legend underneath.
+
+    The curves are in ``widget.getPlotItem().listDataItems()``, one per candidate in legend
+    order; the legend is ``widget.legend``.
     """
     ensure_qt_app()
     axis_items = {"bottom": FrequencyAxis("bottom")} if plot.log_x else {}
-    w = pg.PlotWidget(background="w", axisItems=axis_items)
-    w.setAttribute(QtCore.Qt.WidgetAttribute.WA_DontShowOnScreen, True)
-    w.resize(width, height)
-    item = w.getPlotItem()
-    item.setTitle(plot.title, color=INK, size="12pt")
+    item = pg.PlotItem(axisItems=axis_items)
+    item.setTitle(plot.title, color=INK, size="11pt")
     for name in ("left", "bottom", "right", "top"):
         ax = item.getAxis(name)
         ax.setPen(pg.mkPen(INK))
         ax.setTextPen(pg.mkPen(INK))
     item.showAxis("right", False)
     item.showAxis("top", False)
-    item.setContentsMargins(4, 4, 26, 4)  # room for the last tick label on the right
+    item.setContentsMargins(4, 4, 26, 0)  # room for the last tick label on the right
     _label(item, "bottom", plot.x_label, plot.x_unit, log=plot.log_x)
     _label(item, "left", plot.y_label, plot.y_unit, log=False)
     item.showGrid(x=True, y=True, alpha=_GRID_ALPHA)
-    legend = item.addLegend(offset=(-8, 8), labelTextColor=INK, brush=pg.mkBrush(255, 255, 255, 230), pen=pg.mkPen("#9aa0a6"))
-    legend.setLabelTextSize("9pt")
     if plot.log_x:
         item.setLogMode(x=True, y=False)
+    legend = pg.LegendItem(colCount=max(1, min(len(plot.curves), 5)), labelTextColor=INK, labelTextSize="9pt", horSpacing=24, verSpacing=-4)
+    legend.layout.setContentsMargins(40, 0, 0, 0)
     for c in plot.curves:
-        item.plot(c.x, _finite(c), pen=_pen(c.index, line_width), name=c.label, connect="finite")
+        curve = item.plot(c.x, _finite(c), pen=_pen(c.index, line_width), connect="finite")
+        curve.opts["name"] = c.label
+        legend.addItem(curve, c.label)
     guide_pen = pg.mkPen("#7d8590", width=max(1.0, line_width / 2), style=QtCore.Qt.PenStyle.DashLine)
     for g in plot.guides:
         vertical = g.axis == "x"
         value = math.log10(g.value) if (vertical and plot.log_x) else g.value
-        line = pg.InfiniteLine(pos=value, angle=90 if vertical else 0, pen=guide_pen, label=g.label or None,
-                               labelOpts={"position": 0.96 if vertical else 0.03, "color": "#5f6368", "anchors": [(0, 0), (0, 0)] if vertical else [(0, 1), (0, 1)]})
+        # Labels inside the view: beside the top of a vertical line, under a horizontal one.
+        opts = {"position": 0.95 if vertical else 0.02, "color": "#5f6368", "anchors": [(0, 0), (0, 0)]}
+        line = pg.InfiniteLine(pos=value, angle=90 if vertical else 0, pen=guide_pen, label=g.label or None, labelOpts=opts)
         item.addItem(line, ignoreBounds=True)
     item.enableAutoRange()
     if plot.log_x and plot.curves:
@@ -127,6 +149,9 @@ def build_plot_widget(plot: PlotData, *, width: int = 900, height: int = 380, li
     elif plot.curves:
         hi = max(float(c.x.max()) for c in plot.curves if len(c.x))
         item.setXRange(0.0, hi, padding=0.0)
+    w = PlotImageWidget(item, legend)
+    w.setAttribute(QtCore.Qt.WidgetAttribute.WA_DontShowOnScreen, True)
+    w.resize(width, height)
     return w
 
 

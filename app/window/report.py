@@ -2,7 +2,8 @@
 
 The report is made of sections, each built by a function ``(ReportContext) -> str`` that returns
 an HTML fragment ("" leaves the section out). :data:`SECTIONS` lists them in order; a later
-feature adds its own with :func:`register_section` (the tolerance spread, noise or a cascade
+feature adds its own with :func:`register_section` (before the cautions, which always close the
+report; the tolerance spread, noise or a cascade
 chain would read their results from ``context.session.extras`` or compute them through the core)
 without touching the others.
 
@@ -153,10 +154,14 @@ def make_context(
     created: datetime | None = None,
     source: str | None = None,
     image_width: int = 900,
+    image_aspect: float = 0.42,
 ) -> ReportContext:
-    """Analyse every candidate (and render the plots when ``images``) for the section builders."""
+    """Analyse every candidate (and render the plots when ``images``) for the section builders.
+
+    The plots are ``image_width`` CSS pixels wide and ``image_aspect`` times that high.
+    """
     cands = _analyse(session)
-    imgs = _plot_images(session, cands, width=image_width, height=round(image_width * 0.42)) if images else {}
+    imgs = _plot_images(session, cands, width=image_width, height=round(image_width * image_aspect)) if images else {}
     return ReportContext(
         session=session,
         candidates=cands,
@@ -170,9 +175,16 @@ def make_context(
 # --------------------------------------------------------------------------- formatting
 
 
+# Units that never take an SI prefix (no "mdB", no "m°").
+_UNPREFIXED = ("dB", "°", "%")
+
+
 def _num(x: float | None, unit: str = "", digits: int = 4) -> str:
     if x is None or not math.isfinite(x):
         return "—"
+    if unit in _UNPREFIXED:
+        text = f"{round(float(x), 9) + 0.0:.{digits}g}"  # + 0.0: no "-0"
+        return f"{text}{unit}" if unit == "°" else f"{text} {unit}"
     return format_value(float(x), unit, digits=digits)
 
 
@@ -183,15 +195,28 @@ def _slew(x: float | None, *, unit: bool = True) -> str:
     return f"{x:.3g} V/µs" if unit else f"{x:.3g}"
 
 
+def _gbw_cell(need_hz: float | None, have_hz: float | None) -> str:
+    """The required GBW; marked when the session's op-amp falls short of it."""
+    if need_hz is None:
+        return '<span class="bad">none</span>'
+    text = escape(_num(need_hz, "Hz", 3))
+    if have_hz is not None and have_hz < need_hz:
+        return f'<span class="bad">{text} ▲</span>'
+    return text
+
+
 def _sens(x: float) -> str:
     """A sensitivity with three decimals and its sign; a rounded zero has no sign."""
     return "0.000" if abs(x) < 5e-4 else f"{x:+.3f}"
 
 
-def _signed(x: float | None, unit: str, digits: int = 3) -> str:
+def _signed(x: float | None, unit: str, decimals: int = 3) -> str:
+    """A deviation with its sign and fixed decimals ("+0.507 %", "-0.191 dB"); a rounded zero is "0.000"."""
     if x is None or not math.isfinite(x):
         return "—"
-    return f"{x:+.{digits}g} {unit}".strip()
+    if abs(x) < 0.5 * 10.0**-decimals:
+        return f"{0.0:.{decimals}f} {unit}".strip()
+    return f"{x:+.{decimals}f} {unit}".strip()
 
 
 def _table(header: Sequence[str] | None, rows: Sequence[Sequence[str]], *, cls: str = "", align: str = "lr") -> str:
@@ -200,7 +225,7 @@ def _table(header: Sequence[str] | None, rows: Sequence[Sequence[str]], *, cls: 
     ``align`` has one letter per column: ``l`` left, ``L`` left and never wrapped, ``r`` right and
     never wrapped (numbers); the last letter repeats.
     """
-    head = "<tr>" + "".join(f"<th>{h}</th>" for h in header) + "</tr>\n" if header else ""
+    head = "<thead><tr>" + "".join(f"<th>{h}</th>" for h in header) + "</tr></thead>\n" if header else ""
     body = []
     for r in rows:
         cells = []
@@ -211,7 +236,7 @@ def _table(header: Sequence[str] | None, rows: Sequence[Sequence[str]], *, cls: 
             cells.append(f'<td align="{side}"{keep}>{c}</td>')
         body.append("<tr>" + "".join(cells) + "</tr>")
     c = f' class="{cls}"' if cls else ""
-    return f'<table{c} border="1" cellspacing="0" cellpadding="4">\n{head}' + "\n".join(body) + "\n</table>"
+    return f'<table{c} border="1" cellspacing="0" cellpadding="3">\n{head}' + "\n".join(body) + "\n</table>"
 
 
 def _smallest_series(x: float) -> str:
@@ -296,7 +321,7 @@ def section_summary(ctx: ReportContext) -> str:
             escape(_num(fig.f0_hz, "Hz")),
             escape(_num(fig.q)),
             escape(_num(fig.gain_center_db, "dB")),
-            escape(_num(r.gbw_hz, "Hz", 3)) if r.gbw_hz is not None else "none",
+            _gbw_cell(r.gbw_hz, ctx.session.opamp.gbw_hz),
             escape(_slew(r.slew_sine_v_per_us, unit=False)),
             escape(_slew(r.slew_step_v_per_us, unit=False)),
             escape(_num(r.iout_peak_ma * 1e-3, "A", 3)),
@@ -307,7 +332,9 @@ def section_summary(ctx: ReportContext) -> str:
         "<h2>Candidates at a glance</h2>\n"
         + _table(header, rows, cls="summary", align="Lr")
         + f'\n<p class="note">Figures measured on the computed response {note}; needs for an input of '
-        f'{escape(_num(ctx.session.target.vin_v, "V"))} peak (slew for a sine at f0 and for an input step).</p>'
+        f'{escape(_num(ctx.session.target.vin_v, "V"))} peak (slew for a sine at f0 and for an input step).'
+        + (" ▲ marks a GBW above the session's op-amp." if ctx.session.opamp.gbw_hz is not None else "")
+        + "</p>"
     )
 
 
@@ -316,7 +343,7 @@ def section_plots(ctx: ReportContext) -> str:
     if not ctx.images:
         return ""
     note = ("with the session's op-amp (" + escape(_opamp_text(ctx.session)) + ")") if ctx.session.opamp.gbw_hz is not None else "with an ideal op-amp"
-    out = ["<h2>Responses</h2>", f'<p class="note">Every active candidate in its own colour and line style, {note}.</p>']
+    out = ['<h2 class="plots">Responses</h2>', f'<p class="note">Every active candidate in its own colour and line style, {note}.</p>']
     from app.plots.curves import PLOT_KEYS
 
     for key in PLOT_KEYS:
@@ -326,8 +353,7 @@ def section_plots(ctx: ReportContext) -> str:
         uri = "data:image/png;base64," + base64.b64encode(png).decode("ascii")
         cap = _PLOT_CAPTIONS.get(key, "")
         out.append(
-            f'<p class="plot"><img src="{uri}" width="{ctx.image_width}" alt="{escape(cap)}" class="plot" id="plot-{key}"/>'
-            f'<br/><span class="caption">{escape(cap)}</span></p>'
+            f'<p class="plot"><img src="{uri}" width="{ctx.image_width}" alt="{escape(cap)}" class="plot" id="plot-{key}"/></p>'
         )
     return "\n".join(out)
 
@@ -387,10 +413,12 @@ def _needs_table(c: CandidateReport, session: Session) -> str:
     have = session.opamp.gbw_hz
     verdict = ""
     if have is not None and r.gbw_hz is not None:
-        ok = have >= r.gbw_hz
-        verdict = f" — the session's op-amp ({_num(have, 'Hz')}) {'is enough' if ok else 'is NOT enough'}"
+        if have >= r.gbw_hz:
+            verdict = escape(f" — the session's op-amp ({_num(have, 'Hz')}) is enough")
+        else:
+            verdict = f' — <span class="bad">the session\'s op-amp ({escape(_num(have, "Hz"))}) is not enough</span>'
     rows = [
-        ["required GBW", escape(gbw + verdict)],
+        ["required GBW", escape(gbw) + verdict],
         ["tolerances it holds", escape(f"f0 ±{100 * r.tolerances.f0:g} %, Q ±{100 * r.tolerances.q:g} %, gain ±{r.tolerances.gain_db:g} dB of the ideal figures, A0 {r.a0:g}")],
         ["rule of thumb", escape(_num(r.gbw_rule_of_thumb_hz, "Hz", 3) + " (open-loop gain at f0 40 dB above the centre gain)")],
         ["output peak", escape(f"{_num(r.vout_peak_v, 'V')} for {_num(r.vin_v, 'V')} in")],
@@ -402,10 +430,11 @@ def _needs_table(c: CandidateReport, session: Session) -> str:
 
 
 def _sensitivity_table(c: CandidateReport) -> str:
+    """Parts as columns, S(f0), S(Q), S(gain) as rows: compact for circuits with many parts."""
     s = c.analysis.sensitivity
     refs = list(s.get("f0", {}))
-    rows = [[f"<b>{escape(ref)}</b>"] + [_sens(float(s[k][ref])) for k in ("f0", "q", "gain")] for ref in refs]
-    return _table(["part", "S(f0)", "S(Q)", "S(gain)"], rows, cls="sens")
+    rows = [[f"<b>{label}</b>"] + [_sens(float(s[k][ref])) for ref in refs] for k, label in (("f0", "S(f0)"), ("q", "S(Q)"), ("gain", "S(gain)"))]
+    return _table(["figure"] + [escape(r) for r in refs], rows, cls="sens", align="Lr")
 
 
 def section_candidates(ctx: ReportContext) -> str:
@@ -423,7 +452,7 @@ def section_candidates(ctx: ReportContext) -> str:
         out.append(f'<h2 class="candidate" id="cand-{escape(e.id)}">{escape(e.id)}: {escape(topo.title)}</h2>')
         out.append(f'<p class="meta">{escape("; ".join(flags))}.</p>')
         if e.notes:
-            out.append(f"<p><i>{_paragraphs(e.notes)}</i></p>")
+            out.append(f'<p class="cand-notes">{_paragraphs(e.notes)}</p>')
         out.append("<h3>Parts</h3>\n" + _parts_table(c))
         if c.analysis is None:
             out.append(f'<p class="error">This candidate {escape(c.error or "cannot be analysed")}.</p>')
@@ -457,17 +486,17 @@ def section_cautions(ctx: ReportContext) -> str:
 SECTIONS: list[tuple[str, SectionBuilder]] = [
     ("title", section_title),
     ("target", section_target),
+    ("notes", section_notes),
     ("summary", section_summary),
     ("plots", section_plots),
     ("candidates", section_candidates),
     # Extension point: later features register theirs here ("spread", "noise", "chains").
-    ("notes", section_notes),
     ("cautions", section_cautions),
 ]
 
 
-def register_section(name: str, builder: SectionBuilder, *, before: str = "notes") -> None:
-    """Add (or replace) a report section; new ones go before ``before`` (default: the notes)."""
+def register_section(name: str, builder: SectionBuilder, *, before: str = "cautions") -> None:
+    """Add (or replace) a report section; new ones go before ``before`` (default: the cautions)."""
     for i, (n, _) in enumerate(SECTIONS):
         if n == name:
             SECTIONS[i] = (name, builder)
@@ -488,8 +517,9 @@ h3 { font-size: 11pt; margin-top: 1em; margin-bottom: 0.3em; }
 table { border-collapse: collapse; border-color: #c9ccd2; margin: 0.3em 0; }
 th { background: #ebeef2; text-align: left; font-weight: 600; }
 td, th { padding: 3px 8px; border: 1px solid #c9ccd2; }
-p.meta, p.note, span.caption { color: #555a60; font-size: 9pt; }
-p.error { color: #b0191e; font-weight: 600; }
+p.meta, p.note { color: #555a60; font-size: 9pt; }
+p.cand-notes { font-style: italic; font-size: 8.5pt; }
+p.error, span.bad { color: #b0191e; font-weight: 600; }
 img.plot { max-width: 100%; height: auto; }
 ul.cautions li { margin-bottom: 0.4em; }
 code { font-family: 'DejaVu Sans Mono', monospace; }
@@ -498,7 +528,12 @@ code { font-family: 'DejaVu Sans Mono', monospace; }
 
 # On screen the page is a centred column; on paper (QTextDocument) the page margins do that.
 _SCREEN_CSS = "body { max-width: 960px; margin: 1.5em auto; padding: 0 1em; }\n"
-_PRINT_CSS = "h2.candidate { page-break-before: always; }\n"  # each candidate starts a page
+# On paper the plots, each candidate and the cautions start a page of their own.
+_PRINT_CSS = (
+    "h2.plots, h2.candidate, h2.cautions-title { page-break-before: always; }\n"
+    "h3 { margin-top: 0.7em; margin-bottom: 0.2em; }\np.note, p.meta { margin-top: 0.2em; margin-bottom: 0.3em; }\n"
+    "p.plot { margin-top: 0; margin-bottom: 4px; }\n"
+)
 
 
 def render_html(ctx: ReportContext, *, for_print: bool = False) -> str:
@@ -650,7 +685,8 @@ def pdf_bytes(html: str, *, title: str = "Bandsmith report") -> bytes:
 def write_report_pdf(session: Session, path: str | os.PathLike, *, created: datetime | None = None, source: str | None = None) -> Path:
     """Write the PDF report atomically; returns the path."""
     p = Path(path)
-    ctx = make_context(session, images=True, created=created, source=source, image_width=_PDF_IMAGE_WIDTH)
+    # Four plots and their heading fill one A4 page.
+    ctx = make_context(session, images=True, created=created, source=source, image_width=_PDF_IMAGE_WIDTH, image_aspect=0.32)
     html = render_html(ctx, for_print=True)
     write_atomic(p, pdf_bytes(html))
     return p
