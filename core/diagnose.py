@@ -40,7 +40,7 @@ from typing import Mapping
 
 import numpy as np
 import scipy.optimize
-import scipy.stats
+import scipy.special
 
 from .analysis import transfer_function
 from .candidate import Candidate
@@ -304,6 +304,11 @@ def _se_pct(x: np.ndarray, A: np.ndarray, sigma2: float) -> list[float]:
     return [float(100.0 * math.exp(xi) * math.sqrt(v)) if v >= 0 and math.isfinite(v) else math.nan for xi, v in zip(x, d)]
 
 
+def _chi2(dof: int) -> float:
+    """The ``_CONFIDENCE`` point of χ² with ``dof`` degrees of freedom."""
+    return float(scipy.special.chdtri(dof, 1.0 - _CONFIDENCE))
+
+
 def _rms(a: np.ndarray) -> float:
     return float(np.sqrt(np.mean(a * a)))
 
@@ -512,7 +517,7 @@ def diagnose(
     sigma2 = max(Sf / dof, 1e-30)
 
     def explains(S, dropped):
-        return S - Sf <= sigma2 * scipy.stats.chi2.ppf(_CONFIDENCE, max(dropped, 1))
+        return S - Sf <= sigma2 * _chi2(max(dropped, 1))
 
     deviation = max(S0 - Sf, 1e-300)
 
@@ -568,7 +573,7 @@ def diagnose(
     # The words.
     scatter = f"{res_db:.2g} dB rms" + (f" and {res_ph:.2g}° rms" if math.isfinite(res_ph) else "")
     sentences: list[str] = []
-    if S0 - Sf <= sigma2 * scipy.stats.chi2.ppf(_CONFIDENCE, max(rank, 1)):
+    if S0 - Sf <= sigma2 * _chi2(max(rank, 1)):
         verdict = "matches"
         explanation = {}
         sentences.append(
