@@ -137,6 +137,9 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         from .measurement_pane import install as install_measurement_pane
 
         install_measurement_pane(self)
+        from .shelf_pane import install as install_shelf_pane
+
+        install_shelf_pane(self)
 
     # ------------------------------------------------------------------ building
     def _action(self, text: str, name: str, slot, shortcut=None, tip: str = "") -> QtGui.QAction:
