@@ -452,3 +452,20 @@ def test_json_has_the_contract_keys():
     assert set(obj["worst_case"]["corners"]) == {"f0_hz", "q", "gain_center_db"}
     assert obj["worst_case"]["corners"]["f0_hz"][0]["gbw"] in (-0.1, 0.1)
     assert set(obj["nominal"]) == {"f0_hz", "q", "bw_hz", "f_low_hz", "f_high_hz", "gain_center", "gain_center_db", "phase_center_deg"}
+
+
+def test_settings_survive_a_session_round_trip():
+    # The window keeps both settings under the session's extras (core.session keeps them verbatim).
+    from core.noise import NoiseSettings
+    from core.session import CandidateEntry, Session, Target, dumps_session, loads_session
+
+    spread = SpreadSettings(tolerances={"C2": 0.02}, dist="normal", trials=25_000, seed=3, gbw_tol=0.1)
+    noise = NoiseSettings(en_v_per_rthz=3e-9, band_hz=(200.0, 20e3))
+    s = Session(
+        target=Target(f0_hz=2e3, q=5.0, gain=4.0),
+        candidates=(CandidateEntry("mfb", "mfb", get_topology("mfb").example),),
+        extras={"spread": spread.to_json(), "noise": noise.to_json()},
+    )
+    back = loads_session(dumps_session(s))
+    assert SpreadSettings.from_json(back.extras["spread"]) == spread
+    assert NoiseSettings.from_json(back.extras["noise"]) == noise
