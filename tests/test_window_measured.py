@@ -153,3 +153,15 @@ def test_the_mapping_dialog(qtbot, files):
     dlg.mag.setCurrentIndex(0)  # frequency and magnitude in one column: refused, the dialog stays
     dlg._accept()
     assert dlg.problem.text() and dlg.result() != QtWidgets.QDialog.DialogCode.Accepted
+
+
+def test_editing_the_design_refits_after_a_pause(window, files, qtbot):
+    pane = window.measurement_pane
+    assert pane.import_file(str(files["csv_khz"]))
+    assert pane.diagnosis.alone[0].part == "C2"
+    # The board's C2 really is 6 % high: put that into the design, and nothing is left to explain.
+    window.state.set_part("mfb", "C2", MFB["C2"] * 1.06)
+    with qtbot.waitSignal(pane.diagnosed, timeout=5000):
+        pass
+    assert pane.diagnosis.verdict == "matches"
+    assert "matches the design" in pane.summary.text()

@@ -238,6 +238,10 @@ class MeasurementPane(QtWidgets.QWidget):
             fit.setObjectName("fitted")
             self._points[key], self._fit_curves[key] = pts, fit
 
+        self._refit_timer = QtCore.QTimer(self)
+        self._refit_timer.setSingleShot(True)
+        self._refit_timer.setInterval(300)
+        self._refit_timer.timeout.connect(self.run_diagnosis)
         state.session_changed.connect(self._on_session_changed)
         state.analyses_changed.connect(self._redraw)
         self._on_session_changed(state.session)
@@ -309,6 +313,7 @@ class MeasurementPane(QtWidgets.QWidget):
         if pick in ids:
             self.candidate_box.setCurrentText(pick)
         self.candidate_box.blockSignals(False)
+        same = m is not None and self.measurement is not None and m.sha256 == self.measurement.sha256
         self.measurement, self.measurement_candidate = m, cand
         self.clear_button.setEnabled(m is not None)
         if m is None:
@@ -319,7 +324,10 @@ class MeasurementPane(QtWidgets.QWidget):
             self._show_diagnosis()
             self._redraw()
             return
-        self.run_diagnosis()
+        if same:  # only the design changed: refit once the edits pause, so each edit re-plots at once
+            self._refit_timer.start()
+        else:
+            self.run_diagnosis()
 
     def run_diagnosis(self) -> "Diagnosis | None":
         """Fit the chosen candidate to the measurement and show the result."""
