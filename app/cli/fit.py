@@ -135,7 +135,7 @@ def print_readable(r: dict) -> None:
     print(f"residual: {r['residual_db_rms']:.3g} dB rms" + (f", {r['residual_phase_deg_rms']:.3g}° rms" if r["residual_phase_deg_rms"] is not None else "")
           + f" (design: {r['nominal_residual_db_rms']:.3g} dB rms)")
     print()
-    rows = [[a["part"], f"{a['change_pct']:+.2f} %", f"{a['residual_db_rms']:.3g} dB", f"{a['explained_pct']:.0f} %"] for a in r["alone"]]
+    rows = [[a["part"], f"{a['change_pct']:+.2f} %", f"{a['residual_db_rms']:.3g} dB", f"{a['explained_pct']:.1f} %"] for a in r["alone"]]
     print(table(rows, header=["alone", "change", "residual rms", "explains"]))
     print()
     print(r["summary"])

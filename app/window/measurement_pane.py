@@ -375,7 +375,7 @@ class MeasurementPane(QtWidgets.QWidget):
         self.summary.setText(d.summary)
         self.ranking.setRowCount(len(d.alone))
         for r, a in enumerate(d.alone):
-            for c, text in enumerate((a.part, f"{a.change_pct:+.2f} %", f"{a.residual_db_rms:.3g} dB", f"{100 * a.explained:.0f} %")):
+            for c, text in enumerate((a.part, f"{a.change_pct:+.2f} %", f"{a.residual_db_rms:.3g} dB", f"{100 * a.explained:.1f} %")):
                 self.ranking.setItem(r, c, QtWidgets.QTableWidgetItem(text))
         units = {"R": "Ω", "C": "F", "L": "H"}
         topo = Candidate(d.topology_id, d.nominal).topology
