@@ -164,6 +164,9 @@ class SpreadSettings:
         object.__setattr__(self, "window_q", _fraction(self.window_q, "window-q", positive=True))
         object.__setattr__(self, "window_gain_db", _fraction(self.window_gain_db, "window-gain-db", positive=True))
 
+    def __hash__(self):
+        return hash((tuple(self.tolerances.items()), self.gbw_tol, self.dist, self.trials, self.seed, self.window_f0, self.window_q, self.window_gain_db))
+
     @property
     def window(self) -> Tolerances:
         """The yield window as :class:`core.analysis.Tolerances`."""
