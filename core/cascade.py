@@ -56,7 +56,6 @@ from .circuits import get_topology, topology_ids
 from .errors import InputError
 from .eseries import SERIES_NAMES
 from .figures import Figures
-from .mna import IDEAL
 from .prototypes import Prototype, check_order, check_response, check_ripple, prototype
 from .rational import Rational
 from .values import format_value
