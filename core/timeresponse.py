@@ -14,8 +14,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
-import scipy.signal
 
 from .rational import Rational
 
@@ -62,6 +60,9 @@ def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray):
 
 
 def _state_space(b: np.ndarray, a: np.ndarray, t: np.ndarray):
+    import scipy.linalg  # imported here: scipy.signal alone costs the command line 0.7 s at start
+    import scipy.signal
+
     A, B, C, D = scipy.signal.tf2ss(b, a)
     n = A.shape[0]
     aug = np.zeros((n + 1, n + 1))
