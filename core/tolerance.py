@@ -20,7 +20,8 @@ The figures of a trial are those of :mod:`core.figures`. A second-order band-pas
 ``ω0·(√(1 + 1/(4Q²)) ∓ 1/(2Q))``, the same values :func:`core.figures.measure` finds — otherwise
 they are measured on a search grid of each trial's own, centred on the first-order estimate of its
 f0 and as wide as three times its estimated half-bandwidth (robust from Q = 0.5 to beyond 100); a
-trial whose measurement lands away from its estimate is measured again on the wide default grid.
+trial whose measurement lands away from its estimate is measured again with the global search of
+:func:`core.figures.measure`.
 
 A trial passes when it is stable (Routh–Hurwitz on its denominator), its figures are defined and
 its f0, Q and centre gain lie within the window (±P, ±P, ±D dB) around the nominal figures, which
@@ -132,9 +133,10 @@ class SpreadSettings:
     seed : int
         Seed of the random generator (0 or more); the same seed gives the same numbers.
     window_f0, window_q : float
-        Yield window: the largest relative deviation of f0 and Q from nominal (fractions, > 0).
+        Yield window: the largest relative deviation of f0 and Q from nominal (fractions, > 0;
+        defaults ±5 % and ±10 %).
     window_gain_db : float
-        Yield window for the centre gain in dB (> 0).
+        Yield window for the centre gain in dB (> 0; default ±1 dB).
     """
 
     tolerances: Mapping[str, float] = field(default_factory=lambda: dict(DEFAULT_TOLERANCES))
