@@ -202,3 +202,38 @@ def test_unknown_candidate_names_the_field(tmp_path):
     with pytest.raises(InputError) as err:
         export_netlist(_session(), "nope", tmp_path / "x.cir")
     assert err.value.field == "candidate"
+
+
+def test_svg_of_a_grid_of_plots_is_vector_only(qtbot, tmp_path):
+    """A widget holding several plots (as the window's plot grid does) exports as one SVG."""
+    import pyqtgraph as pg
+    from PySide6 import QtWidgets
+
+    from app.window.exporting import export_plot_image
+
+    top = QtWidgets.QWidget()
+    qtbot.addWidget(top)
+    grid = QtWidgets.QGridLayout(top)
+    x = np.geomspace(10.0, 1e5, 300)
+    for k in range(4):
+        pw = pg.PlotWidget(background="w")
+        pw.plot(x, np.sin(np.log(x) + k), pen=pg.mkPen("#1b5e9e", width=2))
+        pw.setTitle(f"plot {k}")
+        grid.addWidget(pw, k // 2, k % 2)
+    top.resize(800, 500)
+    top.show()
+    qtbot.waitExposed(top)
+    root = ET.parse(export_plot_image(top, tmp_path / "grid.svg")).getroot()
+    assert root.get("viewBox").split() == ["0", "0", "800", "500"]
+    # No bitmaps: the plots' cached background would otherwise come in as <image> elements.
+    assert not root.findall(f".//{SVG_NS}image")
+    texts = " ".join("".join(t.itertext()) for t in root.iter(f"{SVG_NS}text"))
+    assert all(f"plot {k}" in texts for k in range(4))
+    points = sum(len(e.get("points", "").split()) for e in root.iter(f"{SVG_NS}polyline"))
+    points += sum(e.get("d", "").count("L") for e in root.iter(f"{SVG_NS}path"))
+    assert points > 4 * 250
+    png = export_plot_image(top, tmp_path / "grid.png")
+    from PySide6 import QtGui
+
+    img = QtGui.QImage(str(png))
+    assert (img.width(), img.height()) == (round(800 * top.devicePixelRatioF()), round(500 * top.devicePixelRatioF()))

@@ -99,7 +99,7 @@ def widget_png(widget) -> bytes:
 
 def widget_svg(widget, *, title: str = "Bandsmith plot", description: str = "") -> bytes:
     """SVG bytes of a widget: a vector drawing (paths and text) at the widget's size."""
-    from PySide6 import QtCore, QtGui, QtSvg
+    from PySide6 import QtCore, QtGui, QtSvg, QtWidgets
 
     size = widget.size()
     buf = QtCore.QBuffer()
@@ -113,14 +113,28 @@ def widget_svg(widget, *, title: str = "Bandsmith plot", description: str = "") 
     gen.setResolution(widget.logicalDpiX())
     gen.setTitle(title)
     gen.setDescription(description or "Exported from Bandsmith")
+    # Graphics views (pyqtgraph plots) paint their background from a cached bitmap; switch the
+    # cache off while drawing so that the SVG holds only vector shapes and text.
+    views = widget.findChildren(QtWidgets.QGraphicsView)
+    if isinstance(widget, QtWidgets.QGraphicsView):
+        views.append(widget)
+    modes = [(v, v.cacheMode()) for v in views]
+    for v, _ in modes:
+        v.setCacheMode(QtWidgets.QGraphicsView.CacheModeFlag.CacheNone)
+        v.resetCachedContent()
     painter = QtGui.QPainter()
     if not painter.begin(gen):
         raise RuntimeError("Qt could not start the SVG drawing")
     try:
         painter.fillRect(QtCore.QRect(0, 0, size.width(), size.height()), QtGui.QColor("white"))
-        widget.render(painter)
+        # QWidget.render (a plain widget needs the offset; a graphics view would otherwise
+        # take its own render(), which draws only the scene): the widget and its children as
+        # they are painted on screen.
+        QtWidgets.QWidget.render(widget, painter, QtCore.QPoint(0, 0))
     finally:
         painter.end()
+        for v, mode in modes:
+            v.setCacheMode(mode)
     data = bytes(buf.data())
     buf.close()
     return data

@@ -28,6 +28,7 @@ from core.analysis import Analysis
 from core.candidate import Candidate, Conditions
 from core.cautions import cautions_html
 from core.circuits import get_topology
+from core.design import Spec, errors_of
 from core.errors import InputError
 from core.eseries import SERIES_NAMES, in_series
 from core.figures import Figures
@@ -247,15 +248,9 @@ def _smallest_series(x: float) -> str:
 
 
 def _target_errors(fig: Figures, session: Session) -> dict[str, float]:
-    """Deviation of achieved figures from the target: f0 and Q in %, |gain| in dB."""
+    """Deviation from the target (core.design.errors_of): f0 and Q in %, gain in dB."""
     t = session.target
-    f = fig.item()
-    with_gain = math.isfinite(f.gain_center) and f.gain_center != 0
-    return {
-        "f0_pct": 100.0 * (f.f0_hz / t.f0_hz - 1.0),
-        "q_pct": 100.0 * (f.q / t.q - 1.0),
-        "gain_db": 20.0 * math.log10(abs(f.gain_center) / t.gain) if with_gain else math.nan,
-    }
+    return errors_of(fig, Spec(t.f0_hz, t.q, t.gain))
 
 
 def _opamp_text(session: Session) -> str:
@@ -288,7 +283,7 @@ def section_target(ctx: ReportContext) -> str:
     rows = [
         ["centre frequency f0", _num(t.f0_hz, "Hz")],
         ["Q", _num(t.q)],
-        ["bandwidth (f0 / Q)", _num(t.f0_hz / t.q, "Hz")],
+        ["bandwidth (f0 / Q)", _num(Spec(t.f0_hz, t.q, t.gain).bw_hz, "Hz")],
         ["centre gain (magnitude)", f"{_num(t.gain)} ({_num(20 * math.log10(t.gain), 'dB')})"],
         ["input level (peak)", _num(t.vin_v, "V")],
         ["standard series", escape(t.series)],
@@ -397,7 +392,7 @@ def _figures_table(c: CandidateReport, session: Session) -> str:
     rows = [
         row("f0", _num(t.f0_hz, "Hz"), "f0_hz", "Hz", "f0_pct", "%"),
         row("Q", _num(t.q), "q", "", "q_pct", "%"),
-        row("bandwidth", _num(t.f0_hz / t.q, "Hz"), "bw_hz", "Hz"),
+        row("bandwidth", _num(Spec(t.f0_hz, t.q, t.gain).bw_hz, "Hz"), "bw_hz", "Hz"),
         row("f_low", "", "f_low_hz", "Hz"),
         row("f_high", "", "f_high_hz", "Hz"),
         row("centre gain (V/V)", _num(t.gain), "gain_center", ""),
@@ -692,8 +687,17 @@ def write_report_pdf(session: Session, path: str | os.PathLike, *, created: date
     return p
 
 
-def write_report(session: Session | str | os.PathLike, path: str | os.PathLike, *, created: datetime | None = None) -> Path:
+def write_report(
+    session: Session | str | os.PathLike,
+    path: str | os.PathLike,
+    *,
+    created: datetime | None = None,
+    source: str | None = None,
+) -> Path:
     """Write the report of a session (or of a session file) to ``path``: HTML or PDF by its suffix.
+
+    ``source`` is the session's file name shown on the report (that of the file when a path is
+    given).
 
     Raises
     ------
@@ -702,9 +706,8 @@ def write_report(session: Session | str | os.PathLike, path: str | os.PathLike, 
         (:class:`core.session.SessionError`, field ``session``).
     """
     out, kind = report_file(path)
-    source = None
     if not isinstance(session, Session):
-        source = Path(session).name
+        source = source or Path(session).name
         session = load_session(session)
     if kind == "pdf":
         return write_report_pdf(session, out, created=created, source=source)
