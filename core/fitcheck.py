@@ -185,11 +185,13 @@ class _Shared:
     ideal: Figures
     step: StepResponse
     gbw: dict  # a0 → (gbw, reason)
+    ideal_unstable: np.ndarray  # right-half-plane poles with an ideal op-amp (rad/s), usually none
 
 
 def _shared(netlist: Netlist) -> _Shared:
     h = transfer_function(netlist)
-    return _Shared(measure(h), step_response(h), {})
+    poles = h.poles(0)
+    return _Shared(measure(h), step_response(h), {}, poles[poles.real >= 0])
 
 
 def _fmt(x: float, unit: str) -> str:
@@ -294,11 +296,16 @@ def check_amp(
     total = 2.0 * supply_v
     supply_ok = amp.supply_min_v <= total <= amp.supply_max_v
     verdict, reasons = _judge(amp, margins, needs, actual.item(), ref, in_tolerance or not stable, supply_ok, supply_v, vin_v, rload_ohm, tolerances)
+    if shared.ideal_unstable.size:  # a design that needs the op-amp's roll-off to be stable is no design
+        unstable = shared.ideal_unstable
+        stable = False
+        response_ok = False
     if not stable:
         f_hz = float(np.max(np.abs(unstable))) / (2.0 * math.pi)
         others = () if verdict == FITS else reasons
         verdict = DOES_NOT_FIT
-        reasons = (f"with this op-amp the circuit is unstable: a closed-loop pole near {_fmt(f_hz, 'Hz')} "
+        whose = "even with an ideal op-amp" if shared.ideal_unstable.size else "with this op-amp"
+        reasons = (f"{whose} the circuit is unstable: a closed-loop pole near {_fmt(f_hz, 'Hz')} "
                    "lies in the right half-plane",) + others
     return Verdict(amp, verdict, reasons, margins, needs, actual, response_ok, supply_ok, room, stable)
 

@@ -170,6 +170,18 @@ def test_unstable_with_a_second_pole():
     assert max(complex(r).real for r in roots) > 0
 
 
+def test_circuit_unstable_with_an_ideal_op_amp():
+    # Equal-part Sallen–Key with K = 5 ≥ 4: the ideal denominator s² + (4 − K)/(RC)·s + 2/(RC)²
+    # has a negative middle coefficient, so its poles lie in the right half-plane (Franco, ch. 3).
+    topo = get_topology("sallen-key")
+    v = {"R1": 10e3, "R2": 10e3, "R3": 10e3, "C1": 10e-9, "C2": 10e-9, "RA": 10e3, "RB": 40e3}
+    got = check_amp(topo.netlist(v), make(), supply_v=SUPPLY, vin_v=VIN)
+    assert not got.stable and got.verdict == DOES_NOT_FIT
+    assert got.reasons[0].startswith("even with an ideal op-amp the circuit is unstable")
+    # The poles' magnitude is ω0 = √2/(RC): the message names that frequency.
+    assert "2.25 kHz" in got.reasons[0]
+
+
 def test_a0_too_small_does_not_fit():
     got = check(make(a0=3.0, gbw_hz=1e9))
     assert got.verdict == DOES_NOT_FIT and got.needs.gbw_hz is None
