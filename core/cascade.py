@@ -571,7 +571,8 @@ def _gross_miss(errors: Mapping[str, float], q: float, series: str) -> str | Non
     half_bw_pct = 100.0 / (2.0 * q)
     parts = "exact parts" if series == "exact" else f"the best {series} parts"
     if abs(errors["f0_pct"]) > half_bw_pct:
-        return f"{parts} put f0 {errors['f0_pct']:+.3g} % off, more than half the stage's bandwidth (±{half_bw_pct:.3g} %)"
+        finer = "" if series in ("exact", "E192") else "; a finer series may do"
+        return f"{parts} put f0 {errors['f0_pct']:+.3g} % off, more than half the stage's bandwidth (±{half_bw_pct:.3g} %){finer}"
     if abs(errors["q_pct"]) > GROSS_Q_PCT:
         return f"{parts} put Q {errors['q_pct']:+.3g} % off (more than ±{GROSS_Q_PCT:g} %)"
     if abs(errors["gain_db"]) > GROSS_GAIN_DB:

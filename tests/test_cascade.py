@@ -222,6 +222,16 @@ def test_stage_q_beyond_reach_gives_plain_reason():
     assert exc.value.field == "save"
 
 
+def test_standard_parts_too_coarse_for_sharp_stages():
+    # Order-8 Butterworth, Q_bp = 10: the sharpest stages (Q 51) need f0 within ±0.97 % (half their
+    # bandwidth); E24 steps are about 10 %, and no combination near the design gets close enough.
+    # The same request is built with E96 (see STANDARD_CASES).
+    s = ChainSettings.from_request("butterworth", 8, f0_hz=40e3, bw_hz=4e3, gain=4.0, series="E24")
+    r = design_cascade(s)
+    assert not r.feasible
+    assert "half the stage's bandwidth" in r.reason and "a finer series may do" in r.reason
+
+
 def test_named_circuit_that_cannot_build_a_stage():
     # The multiple-feedback band-pass with equal capacitors reaches a centre gain below 2·Q² only
     # (REFERENCES.md, Franco 3rd ed. ch. 3): stage 1 (Q 7.09) cannot take a gain of 1000.
