@@ -13,7 +13,8 @@ the two standard values that bracket it, or — for a value already standard, su
 level a design procedure chose — itself and its two neighbours). Inductors are taken from E12
 when E24 is asked (:func:`part_series_of`). All combinations are analysed in one batched solve
 (:func:`core.analysis.transfer_function` with override arrays, measured by
-:func:`core.figures.measure` on a grid around the target), and the combination with the least
+:func:`core.figures.measure` — by exact roots, or on a grid around the target for very large
+batches), and the combination with the least
 weighted error wins:
 
     E = √((Δf0/f0 / tol_f0)² + (ΔQ/Q / tol_q)² + (Δgain_dB / tol_gain_db)²),
@@ -38,7 +39,7 @@ from .analysis import Analysis, Tolerances, transfer_function
 from .candidate import Candidate, Conditions
 from .circuits import get_topology
 from .errors import InputError
-from .eseries import SERIES_NAMES, in_series, mantissas, nearest_array
+from .eseries import SERIES_NAMES, in_series, mantissas
 from .figures import Figures, measure
 from .synthesis import MADE, PRACTICAL, Infeasible, Spec, hurwitz_stable, search_grid
 from .topology import Topology
@@ -65,6 +66,8 @@ _KIND_NAMES = {"R": "resistor", "C": "capacitor", "L": "inductor"}
 _TIGHT_PARTS = 0.005
 # Warn above these spreads (largest/smallest value among resistors, among capacitors).
 _SPREAD_R, _SPREAD_C = 1000.0, 100.0
+# Batches up to this size are measured by exact roots (global, and cheaper there), larger on a grid.
+_ROOTS_UP_TO = 4096
 
 
 @dataclass(frozen=True, slots=True)
@@ -193,9 +196,28 @@ def part_series_of(kind: str, series: str) -> str:
     return "E12" if kind == "L" and series == "E24" else series
 
 
+_POW10 = np.array([float(f"1e{k}") for k in range(0, 309)])  # exact powers of ten (up to 1e22)
+
+
 @functools.lru_cache(maxsize=None)
-def _mantissas(series: str) -> np.ndarray:
-    return np.array(mantissas(series))
+def _series_table(series: str) -> tuple[np.ndarray, np.ndarray, int]:
+    """Integer codes of one decade, their log10 in [0, 1), and the code digits (2 or 3)."""
+    m = np.array(mantissas(series))
+    ndigits = 2 if series in ("E3", "E6", "E12", "E24") else 3
+    codes = np.round(m * 10 ** (ndigits - 1))
+    return codes, np.log10(m), ndigits
+
+
+def _standard(k: np.ndarray, series: str) -> np.ndarray:
+    """Standard value number ``k`` (through all decades): its code times an exact power of ten.
+
+    The same single correctly rounded step as :mod:`core.eseries`, so 4.7e3 is exactly 4700.0.
+    """
+    codes, _, ndigits = _series_table(series)
+    n = codes.size
+    e = k // n - (ndigits - 1)
+    code = codes[k % n]
+    return np.where(e >= 0, code * _POW10[np.clip(e, 0, 308)], code / _POW10[np.clip(-e, 0, 308)])
 
 
 def _options(x: np.ndarray, series: str, width: int) -> list[np.ndarray]:
@@ -206,25 +228,30 @@ def _options(x: np.ndarray, series: str, width: int) -> list[np.ndarray]:
     is itself standard (within 1e-9) is offered itself and its ``width`` neighbours each side
     (``count=width + 1``). Found for all parts at once.
     """
-    m = _mantissas(series)
-    n = m.size
+    return _bracketed(x, series, width)[0]
+
+
+def _bracketed(x: np.ndarray, series: str, width: int) -> tuple[list[np.ndarray], np.ndarray]:
+    """:func:`_options` and the nearest standard value of each (log scale, ties to the lower)."""
+    codes, logm, _ = _series_table(series)
+    n = codes.size
     lx = np.log10(x)
     dec = np.floor(lx)
-    lo = (dec * n + np.searchsorted(np.log10(m), lx - dec, side="right") - 1).astype(np.int64)
-
-    def val(k):
-        return m[k % n] * 10.0 ** (k // n)
-
+    lo = (dec * n + np.searchsorted(logm, lx - dec, side="right") - 1).astype(np.int64)
     for _ in range(2):  # settle rounding of the logarithm at decade edges
-        lo = lo + (val(lo + 1) <= x * (1 + 1e-9))
-        lo = lo - (val(lo) > x * (1 + 1e-9))
-    standard = val(lo) >= x * (1 - 1e-9)
+        lo = lo + (_standard(lo + 1, series) <= x * (1 + 1e-9))
+        lo = lo - (_standard(lo, series) > x * (1 + 1e-9))
+    v_lo = _standard(lo, series)
+    standard = v_lo >= x * (1 - 1e-9)
     hi = np.where(standard, lo, lo + 1)
-    steps = np.arange(width + 1)
-    steps = [steps if st else steps[:-1] for st in standard]
-    idx = [np.unique(np.concatenate([l - st, h + st])) for l, h, st in zip(lo, hi, steps)]
-    flat = nearest_array(val(np.concatenate(idx)), series)  # the series' own exact representation
-    return np.split(flat, np.cumsum([i.size for i in idx])[:-1])
+    v_hi = _standard(hi, series)
+    near = np.where(np.log(x / v_lo) <= np.log(v_hi / x), v_lo, v_hi)
+    idx = []
+    for low, high, is_std in zip(lo, hi, standard):
+        steps = np.arange(width + 1 if is_std else width)
+        idx.append(np.unique(np.concatenate([low - steps, high + steps])))
+    flat = _standard(np.concatenate(idx), series)
+    return np.split(flat, np.cumsum([i.size for i in idx])[:-1]), near
 
 
 def choose_standard(
@@ -247,7 +274,7 @@ def choose_standard(
     grid = search_grid(spec.q)
     if not free:
         h = transfer_function(netlist, w_ref=spec.w0)
-        cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h, grid=grid), spec, tolerances), np.inf)[0])
+        cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
     x = np.array([values[r] for r in free])
     part_series = [part_series_of(topology.component(r).kind, series) for r in free]
@@ -255,15 +282,17 @@ def choose_standard(
     rounded = np.empty(len(free))
     for ps in set(part_series):
         idx = [i for i, p in enumerate(part_series) if p == ps]
-        for i, o in zip(idx, _options(x[idx], ps, width)):
+        opts, near = _bracketed(x[idx], ps, width)
+        for i, o in zip(idx, opts):
             options[i] = o
-        rounded[idx] = nearest_array(x[idx], ps)
+        rounded[idx] = near
     mesh = np.meshgrid(*options, indexing="ij")
     # The last member rounds every part alone to its nearest standard value, for comparison.
     over = {r: np.append(m.reshape(-1), v) for r, m, v in zip(free, mesh, rounded)}
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
         h = transfer_function(netlist, overrides=over, w_ref=spec.w0)
-        fig = measure(h, grid=grid)
+        # exact polynomial roots up to a few thousand members; a grid around the target beyond
+        fig = measure(h) if h.batch <= _ROOTS_UP_TO else measure(h, grid=grid)
         cost = np.where(hurwitz_stable(h.den) & fig.valid, _weighted_batch(fig, spec, tolerances), np.inf)
     i = int(np.argmin(cost[:-1]))
     chosen = dict(values)

@@ -9,6 +9,7 @@ denominators.
 
 from __future__ import annotations
 
+import functools
 import itertools
 import math
 from dataclasses import dataclass
@@ -124,6 +125,16 @@ def _out_of(x: np.ndarray, lo: float, hi: float) -> np.ndarray:
     return np.maximum(0.0, math.log10(lo) - lx) + np.maximum(0.0, lx - math.log10(hi))
 
 
+@functools.lru_cache(maxsize=None)
+def _level_capacitors(cs: str) -> np.ndarray:
+    """Capacitor values a level may take: E6 (or E3) from 0.1 pF to 1 F, snapped into E48+ series."""
+    caps = values_between(1e-13, 1.0, cs if cs in ("E3", "E6") else "E6")
+    if cs not in ("E3", "E6"):  # E48 and finer have no E6 values: take their nearest members
+        caps = np.unique(nearest_array(caps, cs))
+    caps.setflags(write=False)
+    return caps
+
+
 def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref: str, series: str) -> float:
     """Choose the impedance level of a design whose parts all scale together.
 
@@ -138,11 +149,7 @@ def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref:
     float
         The level ``s``.
     """
-    cs = capacitor_series(series)
-    caps = values_between(1e-13, 1.0, cs if cs in ("E3", "E6") else "E6")
-    if cs not in ("E3", "E6"):  # E48 and finer have no E6 values: take their nearest members
-        caps = np.unique(nearest_array(caps, cs))
-    s = caps / unit[level_ref]
+    s = _level_capacitors(capacitor_series(series)) / unit[level_ref]
     cost = np.zeros_like(s)
     r_logs = []
     for ref, v in unit.items():

@@ -119,8 +119,6 @@ def _spread(x1, x2, x3):
 
 def best_gain_k(spec: Spec, r: float = 1.0) -> float:
     """The amplifier gain K (1.05 to 21) that gives the least spread of R1, R2, R3 for C1/C2 = r."""
-    import scipy.optimize
-
     if r == 1.0:
         k_eq = 4.0 - math.sqrt(2.0) / spec.q
         if k_eq > 1.0 and float(_spread(*_normalised(spec, k_eq, r))) <= 1.0 + 1e-12:
@@ -130,12 +128,13 @@ def best_gain_k(spec: Spec, r: float = 1.0) -> float:
     i = int(np.argmin(sp))
     if not np.isfinite(sp[i]):
         raise Infeasible(f"no amplifier gain K from {_K_MIN} to {_K_MAX:g} meets Q {spec.q:.4g} with gain {spec.gain:.4g} (Q below about 0.35 is out of reach)")
-    lo, hi = math.log(km1[max(i - 1, 0)]), math.log(km1[min(i + 1, km1.size - 1)])
-    res = scipy.optimize.minimize_scalar(
-        lambda t: float(np.log(_spread(*_normalised(spec, 1.0 + math.exp(t), r)))), bounds=(lo, hi), method="bounded", options={"xatol": 1e-10}
-    )
-    t = res.x if res.fun <= math.log(sp[i]) else math.log(km1[i])
-    return 1.0 + math.exp(t)
+    # Refine between the grid neighbours twice (the spread is smooth there but for its kink at
+    # the optimum); any K meets the target exactly, so this only tidies the choice.
+    for _ in range(2):
+        fine = np.geomspace(km1[max(i - 1, 0)], km1[min(i + 1, km1.size - 1)], 41)
+        sp_fine = _spread(*_normalised(spec, 1.0 + fine, r))
+        km1, i = fine, int(np.argmin(sp_fine))
+    return 1.0 + float(km1[i])
 
 
 def _filter_parts(spec: Spec, c1: float, r: float, k: float) -> dict[str, float]:
