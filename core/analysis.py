@@ -31,6 +31,7 @@ __all__ = [
     "analyze",
     "sweep",
     "within_tolerances",
+    "is_stable",
 ]
 
 DEFAULT_A0 = 1e5
@@ -121,8 +122,33 @@ class Analysis:
     h_actual: Rational | None
     step: StepResponse = field(repr=False)
 
+    @property
+    def stable_ideal(self) -> bool:
+        """True when every pole with the ideal op-amp lies in the left half-plane."""
+        return is_stable(self.h_ideal)
+
+    @property
+    def stable_actual(self) -> bool | None:
+        """The same with the actual op-amp; None without one."""
+        return None if self.h_actual is None else is_stable(self.h_actual)
+
+    @property
+    def warnings(self) -> tuple[str, ...]:
+        """Plain-words warnings about the analysis itself (an unstable circuit, say)."""
+        out = []
+        if not self.stable_ideal:
+            out.append(
+                "unstable even with an ideal op-amp (a pole in the right half-plane): it oscillates, "
+                "and the figures describe a frequency response that cannot be observed"
+            )
+        elif self.stable_actual is False:
+            out.append(f"unstable with the {self.opamp.gbw_hz:.3g} Hz op-amp: it oscillates on the bench")
+        return tuple(out)
+
     def to_json(self) -> dict:
         return {
+            "stability": {"ideal": self.stable_ideal, "actual": self.stable_actual},
+            "warnings": list(self.warnings),
             "netlist": self.netlist.to_json(),
             "ideal": self.ideal.to_json(),
             "actual": self.actual.to_json() if self.actual is not None else None,
@@ -130,6 +156,12 @@ class Analysis:
             "requirements": self.requirements.to_json(),
             "sensitivity": {k: {r: float(s) for r, s in v.items()} for k, v in self.sensitivity.items()},
         }
+
+
+def is_stable(h: Rational, i: int = 0) -> bool:
+    """True when every pole of member ``i`` has a negative real part (to 1e-9 of its size)."""
+    p = h.poles(i)
+    return bool(np.all(p.real < 1e-9 * np.abs(p))) if p.size else True
 
 
 def transfer_function(

@@ -248,3 +248,16 @@ def test_requirements_json_has_contract_keys():
             "slew_sine_v_per_us", "slew_step_v_per_us", "iout_peak_ma"}
     assert set(req) >= keys
     assert_allclose([req["tol_f0"], req["tol_q"], req["tol_gain_db"], req["a0"], req["vin_v"]], [0.01, 0.05, 0.5, 1e5, 1.0])
+
+
+def test_unstable_sallen_key_is_flagged():
+    # Equal-part Sallen–Key band-pass: Q = √2/(4 − K), unstable for K ≥ 4 (Franco 3rd ed. ch. 3);
+    # RB/RA = 4 gives K = 5, so a pole pair lies in the right half-plane.
+    from core.candidate import Candidate
+
+    values = {"R1": 10e3, "R2": 10e3, "R3": 10e3, "C1": 10e-9, "C2": 10e-9, "RA": 10e3, "RB": 40e3}
+    a = Candidate("sallen-key", values).analyze()
+    assert a.stable_ideal is False
+    assert any("unstable" in w for w in a.warnings)
+    stable = Candidate("sallen-key", dict(values, RB=20e3)).analyze()  # K = 3 < 4
+    assert stable.stable_ideal and not stable.warnings

@@ -44,6 +44,8 @@ def print_readable(result: dict) -> None:
     print(table(requirements_rows(result["requirements"]), header=["amplifier needs", ""]))
     print()
     print(sensitivity_table(result["sensitivity"]))
+    for w in result.get("warnings", []):
+        print(f"warning: {w}")
 
 
 def run(args) -> int:
