@@ -8,7 +8,7 @@ from core.candidate import Candidate, parse_parts
 from core.circuits import get_topology
 from core.errors import InputError
 from core.mna import IDEAL, OpAmpModel
-from core.tolerance import DEFAULT_TOLERANCES, MAX_TRIALS, STAT_KEYS, SpreadSettings, run_spread
+from core.tolerance import MAX_TRIALS, STAT_KEYS, SpreadSettings, run_spread
 from core.values import format_value, parse_fraction, parse_positive
 
 from .common import Command, print_json, split_assignments
@@ -162,5 +162,4 @@ def run(args) -> int:
     return 0
 
 
-_DEFAULTS = ", ".join(f"{k} {100 * v:g} %" for k, v in DEFAULT_TOLERANCES.items())
-COMMAND = Command("tolerance", f"Monte Carlo tolerance spread, yield and worst case ({_DEFAULTS} by default)", configure, run, order=40)
+COMMAND = Command("tolerance", "Monte Carlo tolerance spread, yield and worst case of one candidate", configure, run, order=40)
