@@ -1,11 +1,15 @@
 """The design report of a session: HTML with the plots embedded, or PDF through Qt.
 
 The report is made of sections, each built by a function ``(ReportContext) -> str`` that returns
-an HTML fragment ("" leaves the section out). :data:`SECTIONS` lists them in order; a later
-feature adds its own with :func:`register_section` (before the cautions, which always close the
-report; the tolerance spread, noise or a cascade
-chain would read their results from ``context.session.extras`` or compute them through the core)
-without touching the others.
+an HTML fragment ("" leaves the section out). :data:`SECTIONS` lists them in order: title,
+target, notes, candidates at a glance, plots, one section per candidate, cautions. A later
+feature adds its own with :func:`register_section`, by default just before the cautions, which
+always close the report: the tolerance spread, noise or a cascade chain would read their results
+from ``context.session.extras`` or compute them through the core, without touching the others.
+
+The same HTML goes to the screen (a self-contained page, plots as PNG ``data:`` URIs) and to
+paper (:func:`pdf_bytes` lays it out on A4 with Qt's ``QTextDocument`` and ``QPdfWriter``, the
+plots on one page, each candidate starting a page, a footer with page numbers).
 
 Every number comes from the core: :meth:`core.candidate.Candidate.analyze` under the session's
 conditions for figures, needs and sensitivities, :mod:`app.plots.curves` (core sweeps and step
