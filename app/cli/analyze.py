@@ -14,7 +14,7 @@ from .text import UNITS, figures_rows, requirements_rows, sensitivity_table, tab
 def configure(p):
     p.add_argument("topology", nargs="?", help="circuit id (see `bandsmith topologies`)")
     p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
-    p.add_argument("--session", metavar="FILE", help="analyse every candidate of a session file")
+    p.add_argument("--session", metavar="FILE", help="analyse every candidate of a session file (its op-amp and drive unless given here)")
     add_amp_options(p)
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
@@ -48,6 +48,21 @@ def print_readable(result: dict) -> None:
         print(f"warning: {w}")
 
 
+def _session_conditions(session, entry, args):
+    """The session's conditions for a candidate, with any op-amp or drive option given on the command line instead."""
+    from dataclasses import replace
+
+    base = session.conditions_for(entry)
+    given = conditions_from(args)
+    changes = {}
+    for name, option in (("gbw_hz", "gbw"), ("a0", "a0"), ("vin_v", "vin"), ("rload_ohm", "rload")):
+        if getattr(args, option, None) is not None:
+            changes[name] = getattr(given, name)
+    if any(getattr(args, o, None) is not None for o in ("tol_f0", "tol_q", "tol_gain_db")):
+        changes["tolerances"] = given.tolerances
+    return replace(base, **changes) if changes else base
+
+
 def run(args) -> int:
     conditions = conditions_from(args)
     if args.session:
@@ -56,7 +71,10 @@ def run(args) -> int:
         from core.session import load_session  # issue 3's sessions
 
         session = load_session(args.session)
-        results = [dict(analyze_one(c.topology_id, {k: v for k, v in c.values.items()}, session.conditions_for(c)), id=c.id) for c in session.candidates]
+        results = [
+            dict(analyze_one(c.topology_id, dict(c.values), _session_conditions(session, c, args)), id=c.id, enabled=c.enabled)
+            for c in session.candidates
+        ]
         if args.json:
             print_json({"candidates": results})
         else:
