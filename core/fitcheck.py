@@ -22,7 +22,7 @@ half-plane), or its response leaves the tolerances of the ideal figures;
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Iterable, Mapping
 
 import numpy as np
@@ -47,6 +47,8 @@ __all__ = [
     "Needs",
     "Verdict",
     "FitReport",
+    "Basis",
+    "basis_of",
     "check_amp",
     "fit_check",
 ]
@@ -178,20 +180,31 @@ class FitReport:
         raise KeyError(name)
 
 
-@dataclass(frozen=True, slots=True)
-class _Shared:
-    """What every model's check shares: the ideal response, its figures and its step response."""
+@dataclass(frozen=True, slots=True, eq=False)
+class Basis:
+    """What every model's check of one candidate shares, computed once (:func:`basis_of`).
+
+    The ideal figures and step response, the right-half-plane poles with an ideal op-amp (rad/s;
+    usually none), and the required GBW found so far for each (A0, tolerances).
+    """
 
     ideal: Figures
     step: StepResponse
-    gbw: dict  # a0 → (gbw, reason)
-    ideal_unstable: np.ndarray  # right-half-plane poles with an ideal op-amp (rad/s), usually none
+    ideal_unstable: np.ndarray
+    gbw: dict = field(default_factory=dict, repr=False)
+
+    def required_gbw(self, netlist: Netlist, a0: float, tolerances: Tolerances) -> tuple[float | None, str | None]:
+        key = (float(a0), tolerances)
+        if key not in self.gbw:
+            self.gbw[key] = required_gbw(netlist, self.ideal, a0=a0, tolerances=tolerances)
+        return self.gbw[key]
 
 
-def _shared(netlist: Netlist) -> _Shared:
+def basis_of(netlist: Netlist) -> Basis:
+    """The shared part of a candidate's checks (pass it to :func:`check_amp` for each model)."""
     h = transfer_function(netlist)
     poles = h.poles(0)
-    return _Shared(measure(h), step_response(h), {}, poles[poles.real >= 0])
+    return Basis(measure(h), step_response(h), poles[poles.real >= 0])
 
 
 def _fmt(x: float, unit: str) -> str:
@@ -210,7 +223,7 @@ def check_amp(
     vin_v: float = 1.0,
     rload_ohm: float | None = None,
     tolerances: Tolerances = Tolerances(),
-    _cache: _Shared | None = None,
+    basis: Basis | None = None,
 ) -> Verdict:
     """Check one shelf model against one candidate.
 
@@ -228,6 +241,8 @@ def check_amp(
         A load from the output to ground (ohm).
     tolerances : Tolerances
         For the required GBW and for the response with this model.
+    basis : Basis, optional
+        The candidate's :func:`basis_of`, when several models are checked against it.
     """
     if not (math.isfinite(supply_v) and supply_v > 0):
         raise InputError("supply", f"must be a finite number above zero (the ±V of a symmetric supply), got {supply_v!r}")
@@ -235,12 +250,10 @@ def check_amp(
         raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
     if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
         raise InputError("rload", f"must be a finite number above zero, got {rload_ohm!r}")
-    shared = _cache if _cache is not None else _shared(netlist)
+    shared = basis if basis is not None else basis_of(netlist)
     ideal = shared.ideal
     ref = ideal.item()
-    if amp.a0 not in shared.gbw:
-        shared.gbw[amp.a0] = required_gbw(netlist, ideal, a0=amp.a0, tolerances=tolerances)
-    gbw_need, gbw_reason = shared.gbw[amp.a0]
+    gbw_need, gbw_reason = shared.required_gbw(netlist, amp.a0, tolerances)
     req: Requirements = requirements(
         netlist, ideal, shared.step, vin_v=vin_v, a0=amp.a0, rload_ohm=rload_ohm, tolerances=tolerances,
         gbw_search=(gbw_need, gbw_reason),
@@ -385,9 +398,9 @@ def fit_check(
     per distinct A0. The report's ``headroom`` is the circuit's with an ideal op-amp, every node
     limited by the rails only; each verdict carries its model's own.
     """
-    shared = _shared(netlist)
+    shared = basis_of(netlist)
     verdicts = tuple(
-        check_amp(netlist, a, supply_v=supply_v, vin_v=vin_v, rload_ohm=rload_ohm, tolerances=tolerances, _cache=shared)
+        check_amp(netlist, a, supply_v=supply_v, vin_v=vin_v, rload_ohm=rload_ohm, tolerances=tolerances, basis=shared)
         for a in amps
     )
     room = headroom(netlist, vin_v=vin_v, supply_v=supply_v, amp=None, rload_ohm=rload_ohm)
