@@ -26,8 +26,8 @@ from core.ampmodel import amp_transfer_function
 from core.analysis import transfer_function
 from core.candidate import Candidate
 from core.errors import InputError
-from core.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, FitReport, fit_check
-from core.headroom import DEFAULT_SUPPLY_V
+from core.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, FitReport, basis_of, check_amp
+from core.headroom import DEFAULT_SUPPLY_V, headroom
 from core.session import Session
 from core.shelf import ARCHETYPES, OpAmp, ShelfError, ShelfState, amps_from_json, save_shelf
 from core.values import format_value, parse_positive, parse_value
@@ -189,7 +189,7 @@ class ShelfModel(QtCore.QObject):
 class _Cache:
     """Fit reports by (candidate, conditions, models): an unchanged candidate costs nothing."""
 
-    def __init__(self, size: int = 64):
+    def __init__(self, size: int = 512):
         self._d: dict = {}
         self._size = size
 
@@ -449,23 +449,36 @@ class ShelfPane(QtWidgets.QWidget):
             self.refresh()
 
     def _compute(self) -> None:
+        """Fit reports of the active candidates; each (candidate, model) verdict is cached, so an
+        edit of one model or one candidate recomputes only what it touches."""
         s: Session = self.state.session
         amps = self.amps()
         supply = self.supply_v
         out = {}
         for c in self._candidates():
-            key = (c.topology_id, tuple(sorted(c.values.items())), amps, supply, s.target.vin_v, s.rload_ohm, s.tolerances)
+            key = (c.topology_id, tuple(sorted(c.values.items())), supply, s.target.vin_v, s.rload_ohm, s.tolerances)
 
-            def make(c=c):
+            def make_base(c=c):
                 try:
                     net = Candidate(c.topology_id, c.values).netlist
-                    return fit_check(net, amps, supply_v=supply, vin_v=s.target.vin_v, rload_ohm=s.rload_ohm, tolerances=s.tolerances)
+                    room = headroom(net, vin_v=s.target.vin_v, supply_v=supply, rload_ohm=s.rload_ohm)
+                    return net, basis_of(net), room
                 except InputError:
                     return None
 
-            rep = self._cache.get(key, make)
-            if rep is not None:
-                out[c.id] = rep
+            base = self._cache.get(key, make_base)
+            if base is None:
+                continue
+            net, shared, room = base
+            verdicts = tuple(
+                self._cache.get(
+                    key + (a,),
+                    lambda a=a: check_amp(net, a, supply_v=supply, vin_v=s.target.vin_v, rload_ohm=s.rload_ohm,
+                                          tolerances=s.tolerances, basis=shared),
+                )
+                for a in amps
+            )
+            out[c.id] = FitReport(shared.ideal, verdicts, room)
         self._reports = out
         self._dirty = False
 
