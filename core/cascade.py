@@ -72,6 +72,10 @@ __all__ = [
     "Overall",
     "Cascade",
     "design_cascade",
+    "with_stage_circuit",
+    "chain_cascade",
+    "stage_tolerances",
+    "circuit_choices",
     "cascade_json",
     "reference_zpk",
     "cascade_session",
@@ -753,6 +757,14 @@ def _max_dev_db(a: np.ndarray, b: np.ndarray) -> float:
     return float(np.max(d)) if d.size else math.nan
 
 
+def _stage_vin(settings: ChainSettings, conditions: Conditions, plan: CascadePlan, built: list[Stage], sec: SectionPlan) -> float:
+    """Amplitude reaching a stage at its own f0 (earlier stages as built, ideal op-amp)."""
+    if not built:
+        return conditions.vin_v
+    partial = Cascade(settings, conditions, plan, tuple(built), False, None, None, None, None, None, None, np.empty(0))
+    return conditions.vin_v * float(abs(partial.response(np.array([sec.f0_hz]))[0]))
+
+
 def design_cascade(settings: ChainSettings, *, conditions: Conditions = Conditions()) -> Cascade:
     """Design, build and measure a chain of second-order band-pass stages.
 
@@ -770,17 +782,76 @@ def design_cascade(settings: ChainSettings, *, conditions: Conditions = Conditio
         With ``feasible`` False and a plain ``reason`` when a stage cannot be built.
     """
     plan = plan_cascade(settings.prototype(), settings.band, settings.gain)
-    q_max = max(s.q for s in plan.sections)
     built: list[Stage] = []
     for sec in plan.sections:
-        # Amplitude reaching this stage at its own f0 (earlier stages as built, ideal op-amp).
-        if built:
-            partial = Cascade(settings, conditions, plan, tuple(built), False, None, None, None, None, None, None, np.empty(0))
-            vin = conditions.vin_v * float(abs(partial.response(np.array([sec.f0_hz]))[0]))
-        else:
-            vin = conditions.vin_v
-        built.append(_build_stage(sec, vin, settings, conditions))
-    stages = tuple(built)
+        built.append(_build_stage(sec, _stage_vin(settings, conditions, plan, built, sec), settings, conditions))
+    return _assemble(settings, conditions, plan, tuple(built))
+
+
+def _redrive(settings: ChainSettings, conditions: Conditions, plan: CascadePlan, built: list[Stage], st: Stage) -> Stage:
+    """A built stage re-analysed for the amplitude that now reaches it (parts unchanged)."""
+    vin = _stage_vin(settings, conditions, plan, built, st.plan)
+    if not st.feasible or abs(vin / st.vin_v - 1.0) <= 1e-12:
+        return replace(st, vin_v=vin)
+    res = st.result
+    cond = replace(res.conditions, vin_v=vin)
+    an = Candidate(res.topology_id, res.chosen).analyze(cond)
+    return replace(st, vin_v=vin, result=replace(res, analysis=an, conditions=cond), h_ideal=an.h_ideal, h_actual=an.h_actual if an.h_actual is not None else st.h_actual)
+
+
+def with_stage_circuit(result: Cascade, index: int, circuit: str) -> Cascade:
+    """The chain with stage ``index`` (from 1) redesigned on ``circuit`` (``auto`` or an id).
+
+    The other stages keep their parts; the later ones are re-analysed for the amplitude that now
+    reaches them. ``settings.circuit`` keeps the original request.
+    """
+    n = len(result.stages)
+    if isinstance(index, bool) or not isinstance(index, int) or not 1 <= index <= n:
+        raise InputError("stage", f"must be a stage number from 1 to {n}, got {index!r}")
+    if circuit not in circuit_choices():
+        raise InputError("circuit", f"{circuit!r} is not a circuit; choose one of {', '.join(circuit_choices())}")
+    settings, conditions, plan = result.settings, result.conditions, result.plan
+    built = list(result.stages[: index - 1])
+    sec = plan.sections[index - 1]
+    built.append(_build_stage(sec, _stage_vin(settings, conditions, plan, built, sec), replace(settings, circuit=circuit), conditions))
+    for st in result.stages[index:]:
+        built.append(_redrive(settings, conditions, plan, built, st))
+    return _assemble(settings, conditions, plan, tuple(built))
+
+
+def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cascade:
+    """Measure a saved chain with its saved parts (nothing is redesigned).
+
+    Each stage is analysed as :func:`design_cascade` would (its drive and its stage tolerances);
+    its errors are against the stage's planned target.
+    """
+    from .design import DesignResult, Spec, errors_of, spread_of, weighted_error
+
+    settings = chain.settings
+    plan = plan_cascade(settings.prototype(), settings.band, settings.gain)
+    built: list[Stage] = []
+    for sec, saved in zip(plan.sections, chain.stages):
+        vin = _stage_vin(settings, conditions, plan, built, sec)
+        cond = replace(conditions, vin_v=vin, tolerances=stage_tolerances(conditions.tolerances, sec.q))
+        cand = Candidate(saved.topology_id, saved.values)
+        an = cand.analyze(cond)
+        spec = Spec(sec.f0_hz, sec.q, sec.gain)
+        errors = errors_of(an.ideal, spec)
+        tol = cond.tolerances
+        within = abs(errors["f0_pct"]) <= 100 * tol.f0 and abs(errors["q_pct"]) <= 100 * tol.q and abs(errors["gain_db"]) <= tol.gain_db
+        sp = spread_of(cand.topology, cand.values)
+        res = DesignResult(
+            topology_id=cand.topology_id, spec=spec, feasible=True, reason=None, exact=dict(cand.values), chosen=dict(cand.values),
+            series=settings.series, ideal=an.ideal, errors=errors, warnings=(), analysis=an, conditions=cond,
+        )
+        att = Attempt(cand.topology_id, True, an.requirements.gbw_hz, sp["r"] or 1.0, sp["c"] or 1.0, None, errors, within, weighted_error(errors, tol))
+        built.append(Stage(sec, vin, res, (att,), True, None, an.h_ideal, an.h_actual))
+    return _assemble(settings, conditions, plan, tuple(built))
+
+
+def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan, stages: tuple[Stage, ...]) -> Cascade:
+    """Measure built stages as a whole chain (module notes)."""
+    q_max = max(s.q for s in plan.sections)
     feasible = all(s.feasible for s in stages)
     reason = None if feasible else _summary(stages)
     f = _sweep(settings, q_max)

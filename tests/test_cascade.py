@@ -9,7 +9,7 @@ import scipy.signal
 from numpy.testing import assert_allclose
 
 from core.candidate import Candidate, Conditions
-from core.cascade import Chain, ChainSettings, cascade_json, cascade_session, chains_in, design_cascade
+from core.cascade import Chain, ChainSettings, cascade_json, cascade_session, chain_cascade, chains_in, design_cascade, with_stage_circuit
 from core.design import spread_of
 from core.errors import InputError
 from core.eseries import in_series
@@ -275,6 +275,46 @@ def test_session_round_trip_and_stage_candidates():
         want = st.result.analysis.ideal.item()
         assert_allclose([fig.f0_hz, fig.q, fig.gain_center], [want.f0_hz, want.q, want.gain_center], rtol=1e-9)
     assert Chain.from_json(chain.to_json()) == chain
+
+
+def test_saved_chain_measures_as_designed():
+    s = ChainSettings.from_request("butterworth", 4, f0_hz=6e3, bw_hz=1.5e3, gain=3.0, series="E24")
+    cond = Conditions(gbw_hz=10e6, vin_v=0.3)
+    r = design_cascade(s, conditions=cond)
+    (chain,) = chains_in(loads_session(dumps_session(cascade_session(r))))
+    again = chain_cascade(chain, conditions=cond)
+    a, b = cascade_json(r), cascade_json(again)
+    for key in ("reference_max_dev_db", "passband_max_dev_db", "actual_max_dev_db", "required_gbw_hz"):
+        assert_allclose(b[key], a[key], rtol=1e-9)
+    for key in ("f_low_hz", "f_high_hz", "f0_hz", "gain_center_db", "ripple_db"):
+        assert_allclose(b["overall"][key], a["overall"][key], rtol=1e-9, atol=1e-12)
+    for x, y in zip(a["sections"], b["sections"]):
+        assert x["chosen"] == y["chosen"] and x["circuit"] == y["circuit"]
+        assert_allclose([y["ideal"][k] for k in ("f0_hz", "q", "gain_center")], [x["ideal"][k] for k in ("f0_hz", "q", "gain_center")], rtol=1e-12)
+        assert_allclose(y["requirements"]["gbw_hz"], x["requirements"]["gbw_hz"], rtol=1e-12)
+        assert_allclose(y["vin_v"], x["vin_v"], rtol=1e-12)
+
+
+def test_change_one_stage_circuit():
+    s = ChainSettings.from_request("butterworth", 3, f0_hz=5e3, bw_hz=2e3, gain=2.0, series="exact")
+    r = design_cascade(s, conditions=Conditions(vin_v=0.5))
+    others = [c for c in ("rlc-tank", "mfb", "sallen-key") if c != r.stages[1].circuit]
+    r2 = with_stage_circuit(r, 2, others[0])
+    assert r2.feasible, r2.reason
+    assert r2.stages[1].circuit == others[0]
+    assert r2.stages[0].chosen == r.stages[0].chosen and r2.stages[2].chosen == r.stages[2].chosen
+    assert r2.settings == r.settings
+    # Exact parts: the chain still matches the reference library, and later stages are re-driven.
+    assert r2.reference_max_dev_db <= 0.01
+    h = np.prod(r2.stage_responses(np.array([r2.stages[2].plan.f0_hz]))[:2], axis=0)
+    assert_allclose(r2.stages[2].vin_v, 0.5 * abs(h[0]), rtol=1e-9)
+    assert_allclose(r2.stages[2].result.analysis.requirements.vin_v, r2.stages[2].vin_v, rtol=1e-12)
+    with pytest.raises(InputError) as exc:
+        with_stage_circuit(r, 4, "mfb")
+    assert exc.value.field == "stage"
+    with pytest.raises(InputError) as exc:
+        with_stage_circuit(r, 1, "twin-t")
+    assert exc.value.field == "circuit"
 
 
 def test_chain_from_json_rejects_bad_objects():
