@@ -380,6 +380,16 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
     return out
 
 
+@functools.lru_cache(maxsize=None)
+def _takes_series(fn) -> bool:
+    import inspect
+
+    try:
+        return "series" in inspect.signature(fn).parameters
+    except (TypeError, ValueError):
+        return False
+
+
 def _infeasible(topo: Topology, spec: Spec, series: str, reason: str, fixed, conditions, exact=None, notes=()) -> DesignResult:
     return DesignResult(
         topology_id=topo.id,
@@ -445,7 +455,10 @@ def design(
     if topo.synthesize is None:
         return _infeasible(topo, spec, series, f"{topo.title} has no design procedure yet; enter its parts by hand", pins, conditions)
     try:
-        exact = topo.synthesize(spec, pins, series=series)
+        if _takes_series(topo.synthesize):
+            exact = topo.synthesize(spec, pins, series=series)
+        else:  # a design procedure that ignores the series: (spec, fixed) only
+            exact = topo.synthesize(spec, pins)
     except Infeasible as exc:
         return _infeasible(topo, spec, series, exc.reason, pins, conditions)
     notes = tuple(getattr(exact, "notes", ()))

@@ -287,6 +287,17 @@ def test_high_q_sallen_key_warns_about_tight_parts():
     assert not any("sensitive" in w for w in low.warnings)
 
 
+def test_sallen_key_gain_above_four_stays_stable_with_unequal_resistors():
+    # Franco ch. 3: with all parts equal the circuit is unstable for K ≥ 4 (Q = √2/(4 − K)). The
+    # unequal-resistor procedure of the module notes keeps every pinned K > 1 stable.
+    for rb in (40e3, 100e3):
+        r = design("sallen-key", Spec(2e3, 5.0, 4.0), series="exact", fixed={"RA": 10e3, "RB": rb})
+        assert r.feasible
+        assert 1 + rb / 10e3 >= 4
+        assert np.all(np.roots(r.analysis.h_ideal.den[0]).real < 0)
+        assert_meets(r, Spec(2e3, 5.0, 4.0))
+
+
 def test_large_spread_warns():
     # MFB equal C: R3/R2 = 2·(2Q² − |H0|): 3598 at Q = 30, |H0| = 1 (Franco's equations).
     r = design("mfb", Spec(1e3, 30.0, 1.0), series="exact")
