@@ -327,3 +327,41 @@ def test_rendered_plots_are_png_with_every_candidate(qapp):
     assert "(Hz)" in item.getAxis("bottom").label.toPlainText()
     assert "(dB)" in item.getAxis("left").label.toPlainText()
     w.deleteLater()
+
+
+def test_empty_session_and_ideal_opamp(qapp, tmp_path):
+    pypdf = pytest.importorskip("pypdf")
+    from app.window.report import build_report_html, write_report
+
+    empty = Session(Target(1000.0, 2.0, 1.0), ())
+    page = build_report_html(empty)
+    assert "This session has no candidates" in page and "<img" not in page
+    assert "licensed practice" in page
+    out = write_report(empty, tmp_path / "empty.pdf")
+    assert len(pypdf.PdfReader(str(out)).pages) >= 1
+
+    ideal = Session(Target(2000.0, 5.0, 4.0), (CandidateEntry("mfb", "mfb", dict(get_topology("mfb").example)),))
+    page = build_report_html(ideal)
+    text = _text(page)
+    assert page.count("<img") == 4
+    assert "with an ideal op-amp" in text
+    assert "GBW " not in re.search(r"Achieved figures.*?Amplifier needs", text).group(0)  # one column: ideal
+
+
+def test_unstable_candidate_is_warned_and_kept_out_of_the_plots(qapp):
+    from app.window.report import make_context, render_html
+
+    bad = dict(get_topology("sallen-key").example)
+    # K = 1 + RB/RA = 101: far beyond the gain at which this band-pass turns unstable (a K of a
+    # few; from memory). The core's stability flag decides; the report only follows it.
+    bad["RB"] = 1e6
+    s = Session(
+        Target(500.0, 2.0, 2.0),
+        (CandidateEntry("sk", "sallen-key", bad), CandidateEntry("mfb", "mfb", dict(get_topology("mfb").example))),
+        opamp=OpAmpSpec(gbw_hz=1e6),
+    )
+    ctx = make_context(s, images=False)
+    assert [c.label for c in ctx.active] == ["mfb"]
+    assert ctx.candidates[1].index == 1  # keeps its colour
+    text = _text(render_html(ctx))
+    assert "Warning: unstable" in text

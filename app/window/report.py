@@ -89,6 +89,21 @@ class CandidateReport:
     def label(self) -> str:
         return self.entry.id
 
+    @property
+    def stable(self) -> bool:
+        """Whether the response drawn (with the session's op-amp, else ideal) is stable."""
+        a = self.analysis
+        if a is None:
+            return False
+        flag = a.stable_actual if a.h_actual is not None else a.stable_ideal
+        return flag is not False
+
+    @property
+    def plotted(self) -> bool:
+        """Switched on, analysed and stable: drawn in the plots (an unstable response grows
+        without bound and would flatten every other curve)."""
+        return self.entry.enabled and self.analysis is not None and self.stable
+
 
 @dataclass(frozen=True, slots=True)
 class ReportContext:
@@ -119,8 +134,8 @@ class ReportContext:
 
     @property
     def active(self) -> tuple[CandidateReport, ...]:
-        """The switched-on candidates the core could analyse (the ones in the plots)."""
-        return tuple(c for c in self.candidates if c.entry.enabled and c.analysis is not None)
+        """The candidates drawn in the plots (see :attr:`CandidateReport.plotted`)."""
+        return tuple(c for c in self.candidates if c.plotted)
 
 
 SectionBuilder = Callable[[ReportContext], str]
@@ -135,6 +150,8 @@ def _analyse(session: Session) -> tuple[CandidateReport, ...]:
             out.append(CandidateReport(entry, i, cond, analysis))
         except InputError as exc:
             out.append(CandidateReport(entry, i, cond, None, f"cannot be analysed: {exc}"))
+        except Exception as exc:  # a design the core cannot handle: said in the report, never a crash
+            out.append(CandidateReport(entry, i, cond, None, f"cannot be analysed ({type(exc).__name__}: {exc})"))
     return tuple(out)
 
 
@@ -142,7 +159,7 @@ def _plot_images(session: Session, candidates: Sequence[CandidateReport], *, wid
     from app.plots.curves import plot_inputs, response_plots
     from app.plots.render import ensure_qt_app, render_plots_png
 
-    active = [c for c in candidates if c.entry.enabled and c.analysis is not None]
+    active = [c for c in candidates if c.plotted]
     if not active:
         return {}
     ensure_qt_app()
@@ -342,7 +359,12 @@ def section_plots(ctx: ReportContext) -> str:
     if not ctx.images:
         return ""
     note = ("with the session's op-amp (" + escape(_opamp_text(ctx.session)) + ")") if ctx.session.opamp.gbw_hz is not None else "with an ideal op-amp"
-    out = ['<h2 class="plots">Responses</h2>', f'<p class="note">Every active candidate in its own colour and line style, {note}.</p>']
+    left_out = [c for c in ctx.candidates if c.entry.enabled and not c.plotted]
+    why = ""
+    if left_out:
+        names = ", ".join(f"{c.label} ({'unstable' if c.analysis is not None else 'not analysed'})" for c in left_out)
+        why = f" Left out: {escape(names)}."
+    out = ['<h2 class="plots">Responses</h2>', f'<p class="note">Every active candidate in its own colour and line style, {note}.{why}</p>']
     from app.plots.curves import PLOT_KEYS
 
     for key in PLOT_KEYS:
@@ -456,6 +478,8 @@ def section_candidates(ctx: ReportContext) -> str:
         if c.analysis is None:
             out.append(f'<p class="error">This candidate {escape(c.error or "cannot be analysed")}.</p>')
             continue
+        for w in getattr(c.analysis, "warnings", ()):
+            out.append(f'<p class="error">Warning: {escape(w)}.</p>')
         out.append("<h3>Achieved figures</h3>\n" + _figures_table(c, ctx.session))
         out.append("<h3>Amplifier needs</h3>\n" + _needs_table(c, ctx.session))
         out.append(
