@@ -218,6 +218,8 @@ def test_svg_of_a_grid_of_plots_is_vector_only(qtbot, tmp_path):
     for k in range(4):
         pw = pg.PlotWidget(background="w")
         pw.plot(x, np.sin(np.log(x) + k), pen=pg.mkPen("#1b5e9e", width=2))
+        if k == 3:  # scatter symbols, as in a pole-zero view: drawn from a bitmap cache on screen
+            pw.plot([1e2, 1e3, 1e4], [0.0, 0.5, -0.5], pen=None, symbol="x", symbolSize=12)
         pw.setTitle(f"plot {k}")
         grid.addWidget(pw, k // 2, k % 2)
     top.resize(800, 500)
@@ -225,7 +227,7 @@ def test_svg_of_a_grid_of_plots_is_vector_only(qtbot, tmp_path):
     qtbot.waitExposed(top)
     root = ET.parse(export_plot_image(top, tmp_path / "grid.svg")).getroot()
     assert root.get("viewBox").split() == ["0", "0", "800", "500"]
-    # No bitmaps: the plots' cached background would otherwise come in as <image> elements.
+    # No bitmaps: the plots' cached background and symbols would otherwise be <image> elements.
     assert not root.findall(f".//{SVG_NS}image")
     texts = " ".join("".join(t.itertext()) for t in root.iter(f"{SVG_NS}text"))
     assert all(f"plot {k}" in texts for k in range(4))

@@ -80,7 +80,7 @@ def shortcuts_of(widget: QtWidgets.QWidget) -> list[tuple[str, str]]:
     """Every action of ``widget`` (and its children) that has a shortcut, as ``(text, keys)``."""
     seen: dict[str, str] = {}
     for action in widget.findChildren(QtGui.QAction):
-        keys = [_native(s) for s in action.shortcuts() if not s.isEmpty()]
+        keys = [_native(s) for s in action.shortcuts() if _typed(s)]
         text = action.text().replace("&&", "\0").replace("&", "").replace("\0", "&").rstrip(".… ")
         if keys and text and text not in seen:
             seen[text] = ", ".join(keys)

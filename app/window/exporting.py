@@ -122,9 +122,13 @@ def widget_svg(widget, *, title: str = "Bandsmith plot", description: str = "") 
     for v, _ in modes:
         v.setCacheMode(QtWidgets.QGraphicsView.CacheModeFlag.CacheNone)
         v.resetCachedContent()
+    # pyqtgraph items in "export mode" draw shapes instead of cached bitmaps (scatter symbols).
+    exporting = [it for v in views if v.scene() is not None for it in v.scene().items() if hasattr(it, "setExportMode")]
     painter = QtGui.QPainter()
     if not painter.begin(gen):
         raise RuntimeError("Qt could not start the SVG drawing")
+    for it in exporting:
+        it.setExportMode(True, {"antialias": True, "background": QtGui.QColor("white"), "painter": painter})
     try:
         painter.fillRect(QtCore.QRect(0, 0, size.width(), size.height()), QtGui.QColor("white"))
         # QWidget.render (a plain widget needs the offset; a graphics view would otherwise
@@ -133,6 +137,8 @@ def widget_svg(widget, *, title: str = "Bandsmith plot", description: str = "") 
         QtWidgets.QWidget.render(widget, painter, QtCore.QPoint(0, 0))
     finally:
         painter.end()
+        for it in exporting:
+            it.setExportMode(False)
         for v, mode in modes:
             v.setCacheMode(mode)
     data = bytes(buf.data())
