@@ -204,41 +204,38 @@ def _finite_batch(netlist: Netlist, gbw: np.ndarray, a0: float, w_ref: float) ->
     return h, measure(h)
 
 
-@dataclass(frozen=True, slots=True)
-class _GbwSearch:
-    gbw_hz: float | None
-    reason: str | None
-    probe: tuple[Rational, Figures] | None  # the response at an extra GBW measured in the same batch
+_LADDER_DECADES = (-1.0, 9.0)
+_LADDER_POINTS = 61
+_FINE_POINTS = 48
 
 
-def _search_gbw(
-    netlist: Netlist, ref: Figures, *, a0: float, tolerances: Tolerances, w_ref: float, probe_gbw_hz: float | None = None
-) -> _GbwSearch:
-    """The required-GBW search; ``probe_gbw_hz`` rides along in the first batch (the actual op-amp)."""
+def _ladder(f_hz: float) -> np.ndarray:
+    """The coarse GBW ladder (Hz): f/10 to f·10⁹."""
+    return f_hz * np.logspace(*_LADDER_DECADES, _LADDER_POINTS)
+
+
+def _conclude_gbw(
+    netlist: Netlist, ref: Figures, ladder: np.ndarray, on_ladder: Figures, *, a0: float, tolerances: Tolerances, w_ref: float
+) -> tuple[float | None, str | None]:
+    """From the figures along the coarse ladder to the required GBW: refine in the failing step."""
     if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
-        return _GbwSearch(None, "the circuit has no band-pass peak with an ideal op-amp", None)
-    ladder = ref.f0_hz * np.logspace(-1.0, 9.0, 61)
-    gbw = ladder if probe_gbw_hz is None else np.append(ladder, probe_gbw_hz)
-    h, fig = _finite_batch(netlist, gbw, a0, w_ref)
-    probe = None if probe_gbw_hz is None else (h.item(gbw.size - 1), fig.item(gbw.size - 1))
-    ok = within_tolerances(fig, ref, tolerances)[: ladder.size]
+        return None, "the circuit has no band-pass peak with an ideal op-amp"
+    ok = within_tolerances(on_ladder, ref, tolerances)
     if not ok[-1]:
-        top = fig.item(ladder.size - 1)
-        return _GbwSearch(
-            None,
+        top = on_ladder.item(ladder.size - 1)
+        return None, (
             f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {ladder[-1]:.3g} Hz "
             f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
-            f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed",
-            probe,
+            f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed"
         )
     fails = np.flatnonzero(~ok)
     if fails.size == 0:
-        return _GbwSearch(float(ladder[0]), None, probe)
-    fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], 48)
+        return float(ladder[0]), None
+    fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
     ok = within_tolerances(_finite_batch(netlist, fine, a0, w_ref)[1], ref, tolerances)
     fails = np.flatnonzero(~ok)
     # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
-    return _GbwSearch(float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None, probe)
+    return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None
 
 
 def required_gbw(
@@ -256,9 +253,12 @@ def required_gbw(
     largest GBW fails (an open-loop gain ``a0`` too small).
     """
     ref = ideal.item()
-    w_ref = 2.0 * math.pi * ref.f0_hz if math.isfinite(ref.f0_hz) else 1.0
-    found = _search_gbw(netlist, ref, a0=a0, tolerances=tolerances, w_ref=w_ref)
-    return found.gbw_hz, found.reason
+    if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
+        return None, "the circuit has no band-pass peak with an ideal op-amp"
+    w_ref = 2.0 * math.pi * ref.f0_hz
+    ladder = _ladder(ref.f0_hz)
+    on_ladder = _finite_batch(netlist, ladder, a0, w_ref)[1]
+    return _conclude_gbw(netlist, ref, ladder, on_ladder, a0=a0, tolerances=tolerances, w_ref=w_ref)
 
 
 def _opamp_output_current(netlist: Netlist, f_hz: float, rload_ohm: float | None) -> float:
@@ -313,32 +313,61 @@ def requirements(
 _SENS_STEP = 1e-4
 
 
-def _nominal_and_sensitivities(
-    netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float
-) -> tuple[Rational, Figures, dict[str, dict[str, float]]]:
-    """The ideal response and its figures (member 0) and the sensitivities, in one batched solve."""
+@dataclass(frozen=True, slots=True)
+class _FirstPass:
+    h_ideal: Rational
+    ideal: Figures
+    sensitivity: dict[str, dict[str, float]]
+    ladder: np.ndarray | None
+    on_ladder: Figures | None
+    probe: tuple[Rational, Figures] | None
+
+
+def _first_pass(
+    netlist: Netlist,
+    parts: Mapping[str, float] | None,
+    w_ref: float,
+    *,
+    ladder: np.ndarray | None = None,
+    a0: float = DEFAULT_A0,
+    probe_gbw_hz: float | None = None,
+) -> _FirstPass:
+    """One batched solve for everything that does not depend on the ideal figures.
+
+    Members, in order: the nominal circuit and its 2·P part perturbations with an ideal op-amp
+    (``1/A0 = 1/ωt = 0``), then the GBW ladder and the probe GBW with the finite op-amp.
+    """
     values = dict(parts if parts is not None else netlist.values())
     refs = [r for r, v in values.items() if v > 0]
-    n = len(refs)
+    n_ideal = 1 + 2 * len(refs)
+    gbw = np.full(n_ideal, np.inf)
+    if ladder is not None:
+        gbw = np.concatenate([gbw, ladder])
+    if probe_gbw_hz is not None:
+        gbw = np.append(gbw, probe_gbw_hz)
+    total = gbw.size
     over = {}
     for j, r in enumerate(refs):
-        col = np.full(1 + 2 * n, values[r])
+        col = np.full(total, values[r])
         col[1 + 2 * j] *= math.exp(_SENS_STEP)
         col[2 + 2 * j] *= math.exp(-_SENS_STEP)
         over[r] = col
-    h = transfer_function(netlist, overrides=over or None, w_ref=w_ref)
+    finite = total > n_ideal
+    a0s = np.where(np.isfinite(gbw), a0, np.inf) if finite else None
+    h = transfer_function(netlist, overrides=over or None, gbw_hz=gbw if finite else None, a0=a0s, w_ref=w_ref)
     fig = measure(h)
 
     def s(y):
-        ly = np.log(np.abs(y[1:]))
+        ly = np.log(np.abs(y[1:n_ideal]))
         return (ly[0::2] - ly[1::2]) / (2.0 * _SENS_STEP)
 
     sens = {}
     for key, y in (("f0", fig.f0_hz), ("q", fig.q), ("gain", fig.gain_center)):
         vals = s(y)
         sens[key] = {r: (float(vals[refs.index(r)]) if r in refs else 0.0) for r in values}
-    nominal = Figures(**{k: getattr(fig, k)[:1] for k in Figures.__slots__})
-    return h.item(0), nominal, sens
+    on_ladder = None if ladder is None else fig.take(slice(n_ideal, n_ideal + ladder.size))
+    probe = None if probe_gbw_hz is None else (h.item(total - 1), fig.take(slice(total - 1, total)))
+    return _FirstPass(h.item(0), fig.take(slice(0, 1)), sens, ladder, on_ladder, probe)
 
 
 def sensitivities(
@@ -351,7 +380,7 @@ def sensitivities(
     """
     if w_ref is None:
         w_ref = reference_w(build_system(netlist))
-    return _nominal_and_sensitivities(netlist, parts, w_ref)[2]
+    return _first_pass(netlist, parts, w_ref).sensitivity
 
 
 def analyze(
@@ -390,24 +419,23 @@ def analyze(
     if a0 is None:
         a0 = opamp.a0 if opamp is not None else DEFAULT_A0
     w_ref = reference_w(build_system(netlist))
-    h_ideal, ideal, sens = _nominal_and_sensitivities(netlist, parts, w_ref)
     finite = opamp is not None and not opamp.ideal
-    ref = ideal.item()
-    search_w = 2.0 * math.pi * ref.f0_hz if math.isfinite(ref.f0_hz) else w_ref
+    ladder = _ladder(w_ref / (2.0 * math.pi))
     probe = opamp.gbw_hz if finite and opamp.a0 == a0 else None
-    found = _search_gbw(netlist, ref, a0=a0, tolerances=tolerances, w_ref=search_w, probe_gbw_hz=probe)
+    first = _first_pass(netlist, parts, w_ref, ladder=ladder, a0=a0, probe_gbw_hz=probe)
+    h_ideal, ideal, sens = first.h_ideal, first.ideal, first.sensitivity
+    ref = ideal.item()
+    gbw_search = _conclude_gbw(netlist, ref, ladder, first.on_ladder, a0=a0, tolerances=tolerances, w_ref=w_ref)
     h_actual = actual = None
-    if finite:
-        if found.probe is not None:
-            h_actual, actual_scalar = found.probe
-            actual = Figures(**{k: np.array([getattr(actual_scalar, k)]) for k in Figures.__slots__})
-        else:
-            h_actual = transfer_function(netlist, opamp, w_ref=search_w)
-            actual = measure(h_actual)
+    if first.probe is not None:
+        h_actual, actual = first.probe
+    elif finite:
+        h_actual = transfer_function(netlist, opamp, w_ref=w_ref)
+        actual = measure(h_actual)
     step = step_response(h_ideal)
     req = requirements(
         netlist, ideal, step, vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
-        gbw_search=(found.gbw_hz, found.reason),
+        gbw_search=gbw_search,
     )
     return Analysis(
         netlist=netlist,

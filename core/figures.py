@@ -39,6 +39,10 @@ class Figures:
     gain_center_db: np.ndarray
     phase_center_deg: np.ndarray
 
+    def take(self, index) -> "Figures":
+        """A sub-batch (a slice or index array), as arrays."""
+        return Figures(**{f.name: np.asarray(getattr(self, f.name))[index] for f in fields(self)})
+
     def item(self, i: int = 0) -> "Figures":
         """Member ``i`` as scalars (floats)."""
         return Figures(**{f.name: float(np.asarray(getattr(self, f.name)).reshape(-1)[i]) for f in fields(self)})
@@ -127,8 +131,18 @@ def _real_positive_roots(c: np.ndarray) -> np.ndarray:
     b, k = c.shape
     if k < 2:
         return np.full((b, 0), np.nan)
-    lead = c[:, :1]
     scale = np.max(np.abs(c), axis=1, keepdims=True)
+    # A member of lower degree than the batch (an ideal op-amp beside finite ones) has leading
+    # zeros: shift it up and multiply by (u + 1), whose root −1 is never real positive.
+    for _ in range(k - 1):
+        low = np.abs(c[:, 0]) <= 1e-14 * scale[:, 0]
+        if not low.any():
+            break
+        shifted = np.zeros_like(c)
+        shifted[:, :-1] = c[:, 1:]
+        shifted[:, 1:] += c[:, 1:]
+        c = np.where(low[:, None], shifted, c)
+    lead = c[:, :1]
     lead = np.where(np.abs(lead) <= 1e-14 * scale, 1e-14 * scale, lead)
     comp = np.zeros((b, k - 1, k - 1))
     comp[:, 0, :] = -c[:, 1:] / lead

@@ -108,8 +108,12 @@ class Rational:
         return -np.real(dn - dd) / self.w_ref[:, None]
 
     def item(self, i: int = 0) -> "Rational":
-        """The ``i``-th member of the batch, as a batch of one."""
-        return Rational(self.num[i : i + 1], self.den[i : i + 1], self.w_ref[i : i + 1])
+        """The ``i``-th member of the batch, as a batch of one (leading zero coefficients dropped)."""
+        return Rational(_lead_trim(self.num[i : i + 1]), _lead_trim(self.den[i : i + 1]), self.w_ref[i : i + 1])
+
+    def take(self, index) -> "Rational":
+        """A sub-batch (a slice or index array)."""
+        return Rational(self.num[index], self.den[index], self.w_ref[index])
 
     def to_s(self, i: int = 0) -> tuple[np.ndarray, np.ndarray]:
         """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) for member ``i``, as scipy.signal uses."""
@@ -144,8 +148,14 @@ def reference_w(system: MnaSystem) -> float:
 
 
 def _degree_bound(system: MnaSystem) -> int:
-    c = system.C[0]
-    return int(np.count_nonzero(np.any(c != 0, axis=1)))
+    """Rows of C with an entry in any member: the degree of ``det(G + s·C)`` is at most that."""
+    return int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2))))
+
+
+def _lead_trim(c: np.ndarray) -> np.ndarray:
+    """Drop leading columns that are zero in every row (keeps at least one column)."""
+    nz = np.flatnonzero(np.any(c != 0, axis=0))
+    return c[:, nz[0] :] if nz.size else c[:, -1:]
 
 
 def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = None) -> Rational:
