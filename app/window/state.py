@@ -137,6 +137,15 @@ class WorkbenchState(QtCore.QObject):
             return
         self.undo_stack.push(SessionEdit(self, self._session, after, text))
 
+    def set_extra(self, key: str, value, text: str) -> None:
+        """Set one section of ``session.extras`` (a plain JSON value), undoably; None removes it."""
+        extras = dict(self._session.extras)
+        if value is None:
+            extras.pop(key, None)
+        else:
+            extras[key] = value
+        self.edit(replace(self._session, extras=extras), text)
+
     def set_part(self, candidate_id: str, ref: str, value: float) -> None:
         """Set one part (SI units); snapped to the candidate's series when it has one."""
         entry = self._session.candidate(candidate_id)
