@@ -192,6 +192,7 @@ class MagnitudePlot(CandidatePlot):
         return res.response.f_hz, res.response.magnitude_db
 
     def _setup_extras(self, item):
+        self.envelopes: dict[str, tuple] = {}
         self.f0_line = pg.InfiniteLine(angle=90, pen=_GUIDE)
         self.gain_line = pg.InfiniteLine(angle=0, pen=_GUIDE, label="target", labelOpts={"position": 0.93, "color": "#5f6368", "anchors": [(0.5, 0), (0.5, 0)]})
         item.addItem(self.f0_line, ignoreBounds=True)
@@ -205,6 +206,36 @@ class MagnitudePlot(CandidatePlot):
 
     def _readout(self, x, y):
         return f"{_short(x, 'Hz')}, {y:.2f} dB"
+
+    # -- shaded bands (a tolerance envelope) -------------------------------------------------
+    def set_envelope(self, key: str, f_hz, low_db, high_db, *, colour: str) -> None:
+        """Shade the band between two magnitude curves (dB over Hz), edged in ``colour``.
+
+        ``key`` names the band (a later call with the same key replaces it); the band sits below
+        the candidate curves and does not move the view's range.
+        """
+        self.clear_envelope(key)
+        item = self.getPlotItem()
+        edge = QtGui.QColor(colour)
+        edge.setAlpha(170)
+        fill = QtGui.QColor(colour)
+        fill.setAlpha(55)
+        pen = pg.mkPen(edge, width=1.0)
+        lo = pg.PlotDataItem(f_hz, low_db, pen=pen, connect="finite")
+        hi = pg.PlotDataItem(f_hz, high_db, pen=pen, connect="finite")
+        for c in (lo, hi):
+            c.setObjectName(f"envelope_{key}")
+            c.setZValue(-8)
+            item.addItem(c, ignoreBounds=True)
+        band = pg.FillBetweenItem(lo, hi, brush=pg.mkBrush(fill))
+        band.setZValue(-9)
+        item.addItem(band, ignoreBounds=True)
+        self.envelopes[key] = (lo, hi, band)
+
+    def clear_envelope(self, key: str) -> None:
+        """Remove the band ``key`` (nothing happens when there is none)."""
+        for it in self.envelopes.pop(key, ()):
+            self.getPlotItem().removeItem(it)
 
 
 class PhasePlot(CandidatePlot):
