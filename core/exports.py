@@ -32,6 +32,8 @@ __all__ = [
     "RESPONSE_HEADER",
     "PARTS_HEADER",
     "spice_netlist",
+    "element_lines",
+    "opamp_subckt_lines",
     "parts_csv",
     "response_csv",
     "write_atomic",
@@ -121,18 +123,51 @@ def spice_netlist(
         lines.append(f"* op-amp: single-pole macro-model, GBW = {_num(opamp.gbw_hz)} Hz, A0 = {_num(opamp.a0)}")
     lines.append(cautions_comment("* "))
     lines.append(f"VIN {nl.input} {nl.ground} DC 0 AC 1")
-    for e in nl.elements:
-        if e.kind == "opamp":
-            plus, minus, out = e.nodes
-            lines.append(f"X{e.ref} {plus} {minus} {out} {OPAMP_SUBCKT}")
-        elif e.kind == "L" and e.series_resistance > 0:
-            mid = f"{e.nodes[0]}_{e.ref}"
-            lines.append(f"{_name(e.ref, 'L')} {e.nodes[0]} {mid} {_num(e.value)}")
-            lines.append(f"{_name(e.series_ref or 'RL', 'R')} {mid} {e.nodes[1]} {_num(e.series_resistance)}")
-        else:
-            lines.append(f"{_name(e.ref, e.kind)} {e.nodes[0]} {e.nodes[1]} {_num(e.value)}")
-    gain = IDEAL_GAIN if opamp.ideal else opamp.a0
+    lines += element_lines(nl)
+    lines += opamp_subckt_lines(opamp)
     lines += [
+        f".ac dec {points_per_decade} {_num(f1)} {_num(f2)}",
+        ".end",
+    ]
+    return "\n".join(lines) + "\n"
+
+
+def element_lines(nl, *, node=None, suffix: str = "") -> list[str]:
+    """SPICE lines of a netlist's parts and op-amps (no source, subcircuit or control lines).
+
+    Parameters
+    ----------
+    nl : core.netlist.Netlist
+        The circuit.
+    node : callable, optional
+        ``node(name) -> str`` renames every node (ground included); identity by default.
+    suffix : str
+        Appended to every element name (``"_S2"`` makes ``R1`` into ``R1_S2``), so several
+        circuits can share one netlist.
+
+    An inductor with a winding resistance becomes the inductor and a resistor in series through a
+    node of its own; an op-amp becomes an instance of :data:`OPAMP_SUBCKT`.
+    """
+    rename = node or (lambda n: n)
+    out = []
+    for e in nl.elements:
+        nodes = [rename(n) for n in e.nodes]
+        if e.kind == "opamp":
+            plus, minus, o = nodes
+            out.append(f"X{e.ref}{suffix} {plus} {minus} {o} {OPAMP_SUBCKT}")
+        elif e.kind == "L" and e.series_resistance > 0:
+            mid = f"{nodes[0]}_{e.ref}"
+            out.append(f"{_name(e.ref, 'L')}{suffix} {nodes[0]} {mid} {_num(e.value)}")
+            out.append(f"{_name(e.series_ref or 'RL', 'R')}{suffix} {mid} {nodes[1]} {_num(e.series_resistance)}")
+        else:
+            out.append(f"{_name(e.ref, e.kind)}{suffix} {nodes[0]} {nodes[1]} {_num(e.value)}")
+    return out
+
+
+def opamp_subckt_lines(opamp: OpAmpModel) -> list[str]:
+    """The ``.subckt`` … ``.ends`` lines of the op-amp macro-model (module notes)."""
+    gain = IDEAL_GAIN if opamp.ideal else opamp.a0
+    lines = [
         f".subckt {OPAMP_SUBCKT} inp inn out",
         "* A(s) = A0/(1 + s*A0/(2*pi*GBW)): gm into RP || CP, then a unity buffer",
         f"GIN 0 x inp inn {_num(_GM)}",
@@ -140,13 +175,8 @@ def spice_netlist(
     ]
     if not opamp.ideal:
         lines.append(f"CP x 0 {_num(_GM / (2.0 * math.pi * opamp.gbw_hz))}")
-    lines += [
-        "EOUT out 0 x 0 1",
-        f".ends {OPAMP_SUBCKT}",
-        f".ac dec {points_per_decade} {_num(f1)} {_num(f2)}",
-        ".end",
-    ]
-    return "\n".join(lines) + "\n"
+    lines += ["EOUT out 0 x 0 1", f".ends {OPAMP_SUBCKT}"]
+    return lines
 
 
 def _series_of(x: float) -> str:
