@@ -13,7 +13,6 @@ import csv
 import io
 import math
 import os
-import tempfile
 from pathlib import Path
 from typing import Any
 
@@ -23,6 +22,7 @@ from .analysis import DEFAULT_A0, ideal_figures, sweep, transfer_function
 from .candidate import Candidate
 from .cautions import cautions_comment
 from .eseries import SERIES_NAMES, in_series
+from .atomic import write_bytes_atomic
 from .errors import InputError
 from .mna import IDEAL, OpAmpModel
 
@@ -250,25 +250,7 @@ def write_atomic(path: str | os.PathLike, text: str) -> None:
         On the field ``output`` when the file cannot be written (the old one is left as it was).
     """
     target = Path(path)
-    folder = target.parent if str(target.parent) else Path(".")
     try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+        write_bytes_atomic(target, text)
     except OSError as exc:
         raise InputError("output", f"cannot write {target}: {exc.strerror or exc}") from None
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(text.encode("utf-8"))
-            fh.flush()
-            os.fsync(fh.fileno())
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, target)
-    except BaseException as exc:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise InputError("output", f"cannot write {target}: {exc.strerror or exc}") from None
-        raise

@@ -31,7 +31,6 @@ from __future__ import annotations
 import json
 import math
 import os
-import tempfile
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Callable, Mapping
@@ -39,6 +38,7 @@ from typing import Any, Callable, Mapping
 from .analysis import DEFAULT_A0, Tolerances
 from .candidate import Conditions
 from .circuits import get_topology
+from .atomic import write_bytes_atomic
 from .errors import InputError
 from .eseries import SERIES_NAMES
 
@@ -330,44 +330,11 @@ def save_session(s: Session, path: str | os.PathLike) -> None:
     If anything fails before the rename, the old file (if any) is left as it was and the temporary
     file is removed. A failure to write is a :class:`SessionError` of kind ``write-failed``.
     """
-    data = dumps_session(s).encode("utf-8")
     target = Path(path)
-    folder = target.parent if str(target.parent) else Path(".")
     try:
-        mode = os.stat(target).st_mode & 0o7777
-    except OSError:
-        umask = os.umask(0)
-        os.umask(umask)
-        mode = 0o666 & ~umask
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+        write_bytes_atomic(target, dumps_session(s))
     except OSError as exc:
-        raise SessionError("write-failed", f"cannot write {target}: {exc.strerror or exc}") from None
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.chmod(tmp, mode)
-        os.replace(tmp, target)
-    except BaseException as exc:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise SessionError("write-failed", f"cannot write {target}: {exc.strerror or exc}; the old file is unchanged") from None
-        raise
-    try:  # make the rename itself durable; not every platform lets a folder be opened
-        dfd = os.open(folder, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(dfd)
-    except OSError:
-        pass
-    finally:
-        os.close(dfd)
+        raise SessionError("write-failed", f"cannot write {target}: {exc.strerror or exc}; the old file is unchanged") from None
 
 
 # --------------------------------------------------------------------------- reading

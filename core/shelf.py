@@ -26,11 +26,11 @@ import json
 import math
 import numbers
 import os
-import tempfile
 from dataclasses import dataclass, fields
 from pathlib import Path
 from typing import Iterable, Sequence
 
+from .atomic import write_bytes_atomic
 from .errors import InputError
 from .mna import OpAmpModel
 
@@ -318,28 +318,11 @@ def save_shelf(amps: Iterable[OpAmp], path: str | os.PathLike) -> None:
     target, so an interrupted save leaves the old file as it was. Raises :class:`ShelfError`
     (``write-failed``) when the file cannot be written, :class:`InputError` for duplicate names.
     """
-    data = dumps_shelf(amps).encode("utf-8")
     target = Path(path)
-    folder = target.parent if str(target.parent) else Path(".")
     try:
-        folder.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+        write_bytes_atomic(target, dumps_shelf(amps), make_folder=True)
     except OSError as exc:
         raise ShelfError("write-failed", f"cannot write {target}: {exc.strerror or exc}") from None
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, target)
-    except BaseException as exc:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise ShelfError("write-failed", f"cannot write {target}: {exc.strerror or exc}") from None
-        raise
 
 
 @dataclass(frozen=True, slots=True)

@@ -13,9 +13,9 @@ screen's pixel ratio); SVG is a vector drawing made by rendering the widget into
 from __future__ import annotations
 
 import os
-import tempfile
 from pathlib import Path
 
+from core.atomic import write_bytes_atomic
 from core.errors import InputError
 from core.session import Session
 
@@ -53,30 +53,9 @@ def write_atomic(path: str | os.PathLike, data: bytes | str) -> Path:
     if p.is_dir():
         raise InputError("output", f"{p} is a folder")
     try:
-        mode = os.stat(p).st_mode & 0o7777
-    except OSError:
-        umask = os.umask(0)
-        os.umask(umask)
-        mode = 0o666 & ~umask
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=folder)
+        write_bytes_atomic(p, data)
     except OSError as exc:
-        raise InputError("output", f"cannot write in {folder}: {exc.strerror or exc}") from None
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.chmod(tmp, mode)
-        os.replace(tmp, p)
-    except BaseException as exc:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise InputError("output", f"cannot write {p}: {exc.strerror or exc}") from None
-        raise
+        raise InputError("output", f"cannot write {p}: {exc.strerror or exc}") from None
     return p
 
 
