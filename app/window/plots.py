@@ -100,6 +100,7 @@ class CandidatePlot(pg.PlotWidget):
         self.setObjectName(f"plot_{self.key}")
         self.state = state
         self.curves: dict[str, pg.PlotDataItem] = {}
+        self.overlays: dict[str, pg.PlotDataItem] = {}
         item = self.getPlotItem()
         item.setTitle(self.title, color=_INK, size="10pt")
         self._label_axes(item)
@@ -167,6 +168,29 @@ class CandidatePlot(pg.PlotWidget):
                 curve.setPen(self.state.style(cid).pen(2.0))
             curve.setData(*data)
         self._update_extras()
+
+    # -- overlays (a candidate's curve under other conditions, e.g. with a shelf op-amp) ------
+    def set_overlay(self, key: str, x, y, *, pen) -> pg.PlotDataItem:
+        """Draw (or redraw) the extra curve ``key`` behind the candidate curves, with ``pen``.
+
+        The curve does not move the view's range; :meth:`clear_overlay` removes it.
+        """
+        curve = self.overlays.get(key)
+        if curve is None:
+            curve = pg.PlotDataItem([], [], connect="finite")
+            curve.setObjectName(f"overlay_{key}")
+            curve.setZValue(-3)
+            self.getPlotItem().addItem(curve, ignoreBounds=True)
+            self.overlays[key] = curve
+        curve.setPen(pen)
+        curve.setData(x, y)
+        return curve
+
+    def clear_overlay(self, key: str) -> None:
+        """Remove the extra curve ``key`` (nothing happens when there is none)."""
+        curve = self.overlays.pop(key, None)
+        if curve is not None:
+            self.getPlotItem().removeItem(curve)
 
     def _on_mouse_moved(self, pos: QtCore.QPointF) -> None:
         vb = self.getPlotItem().getViewBox()
