@@ -12,7 +12,7 @@ from core.values import format_value
 
 from .common import Command, conditions_from, print_json
 from .design import add_target_options, series_from, spec_from
-from .text import UNITS, table
+from .text import UNITS, signed_error, table
 
 
 def configure(p):
@@ -21,10 +21,6 @@ def configure(p):
 
 def _v(x, unit="", digits=4) -> str:
     return "—" if x is None or (isinstance(x, float) and not math.isfinite(x)) else format_value(x, unit, digits=digits)
-
-
-def _e(x, unit="%") -> str:
-    return "—" if x is None or not math.isfinite(x) else f"{x:+.3g} {unit}"
 
 
 def print_compare(out: dict) -> None:
@@ -57,7 +53,7 @@ def print_compare(out: dict) -> None:
         return [_v(c["ideal"][key], unit, digits) if c["ideal"] else "—" for c in cands]
 
     def err(key, unit="%"):
-        return [_e(c["errors"][key], unit) if c["errors"] else "—" for c in cands]
+        return [signed_error(c["errors"][key], unit) if c["errors"] else "—" for c in cands]
 
     def req(key, unit="", scale=1.0):
         return [_v(c["requirements"][key] * scale if c["requirements"] and c["requirements"][key] is not None else None, unit) for c in cands]

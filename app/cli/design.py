@@ -12,7 +12,7 @@ from core.session import save_session
 from core.values import format_value, parse_positive
 
 from .common import Command, add_amp_options, conditions_from, print_json, split_assignments
-from .text import UNITS, figures_rows, requirements_rows, sensitivity_table, table
+from .text import UNITS, figures_rows, requirements_rows, sensitivity_table, signed_error, table
 
 SERIES_HELP = "standard series for the parts: " + ", ".join(SERIES_NAMES) + " or exact (default E24)"
 
@@ -61,10 +61,6 @@ def configure(p):
     p.add_argument("--fix", action="append", default=[], metavar="REF=VALUE", help="pin a part (repeatable), e.g. --fix C1=10n")
 
 
-def _pct(x: float, unit: str = "%") -> str:
-    return "—" if x is None or not math.isfinite(x) else f"{x:+.3g} {unit}"
-
-
 def print_design(r: DesignResult) -> None:
     """The readable form of one design."""
     topo = get_topology(r.topology_id)
@@ -93,9 +89,9 @@ def print_design(r: DesignResult) -> None:
     target_gain = -s.gain if topo.inverting else s.gain
     print(table(
         [
-            ["f0", format_value(s.f0_hz, "Hz", digits=5), format_value(f.f0_hz, "Hz", digits=5), _pct(e["f0_pct"])],
-            ["Q", f"{s.q:.5g}", f"{f.q:.5g}", _pct(e["q_pct"])],
-            ["centre gain", f"{target_gain:.5g}", f"{f.gain_center:.5g}", _pct(e["gain_db"], "dB")],
+            ["f0", format_value(s.f0_hz, "Hz", digits=5), format_value(f.f0_hz, "Hz", digits=5), signed_error(e["f0_pct"])],
+            ["Q", f"{s.q:.5g}", f"{f.q:.5g}", signed_error(e["q_pct"])],
+            ["centre gain", f"{target_gain:.5g}", f"{f.gain_center:.5g}", signed_error(e["gain_db"], "dB")],
         ],
         header=["figure", "target", "chosen parts", "error"],
     ))

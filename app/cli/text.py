@@ -6,7 +6,7 @@ import math
 
 from core.values import format_value
 
-__all__ = ["table", "figures_rows", "requirements_rows", "sensitivity_table", "UNITS"]
+__all__ = ["table", "figures_rows", "requirements_rows", "sensitivity_table", "signed_error", "UNITS"]
 
 UNITS = {"R": "Ω", "L": "H", "C": "F"}
 
@@ -24,6 +24,13 @@ def table(rows: list[list[str]], *, header: list[str] | None = None) -> str:
         if header and k == 0:
             lines.append("  ".join("-" * w for w in widths))
     return "\n".join(lines)
+
+
+def signed_error(x: float | None, unit: str = "%") -> str:
+    """An error with its sign, 3 significant digits; rounding noise (below 1e-9) shows as 0."""
+    if x is None or not math.isfinite(x):
+        return "—"
+    return f"{0.0 if abs(x) < 1e-9 else x:+.3g} {unit}"
 
 
 def _numeric(cell: str) -> bool:
