@@ -140,6 +140,12 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         from .shelf_pane import install as install_shelf_pane
 
         install_shelf_pane(self)
+        from .spread_pane import install as install_spread_pane
+
+        install_spread_pane(self)
+        from .noise_pane import install as install_noise_pane
+
+        install_noise_pane(self)
 
     # ------------------------------------------------------------------ building
     def _action(self, text: str, name: str, slot, shortcut=None, tip: str = "") -> QtGui.QAction:
