@@ -6,6 +6,8 @@ target, notes, candidates at a glance, plots, one section per candidate, caution
 feature adds its own with :func:`register_section`, by default just before the cautions, which
 always close the report: the tolerance spread, noise or a cascade chain would read their results
 from ``context.session.extras`` or compute them through the core, without touching the others.
+Such sections live in modules ``app/window/report_*.py``, which this module imports (in name
+order) once it is defined; each registers its sections when imported.
 
 The same HTML goes to the screen (a self-contained page, plots as PNG ``data:`` URIs) and to
 paper (:func:`pdf_bytes` lays it out on A4 with Qt's ``QTextDocument`` and ``QPdfWriter``, the
@@ -740,3 +742,20 @@ def write_report(
     if kind == "pdf":
         return write_report_pdf(session, out, created=created, source=source)
     return write_report_html(session, out, created=created, source=source)
+
+
+# --------------------------------------------------------------------------- sections of later features
+
+
+def _load_section_modules() -> None:
+    """Import every ``app/window/report_*.py`` (in name order): each registers its own sections
+    with :func:`register_section` when imported, so adding a section touches no other file."""
+    import importlib
+    import pkgutil
+
+    for info in pkgutil.iter_modules([str(Path(__file__).parent)]):
+        if info.name.startswith("report_"):
+            importlib.import_module(f"{__package__}.{info.name}")
+
+
+_load_section_modules()
