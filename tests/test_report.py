@@ -87,8 +87,8 @@ def test_cli_html_report_has_plots_parts_needs_and_cautions(session_file, tmp_pa
     text = _text(page)
     session = load_session(session_file)
 
-    # The four plots, embedded as PNG images.
-    uris = re.findall(r'<img src="data:image/png;base64,([A-Za-z0-9+/=]+)"', page)
+    # The four plots, embedded as PNG images (later sections may add images of their own).
+    uris = re.findall(r'<img src="data:image/png;base64,([A-Za-z0-9+/=]+)"[^>]* id="plot-', page)
     assert len(uris) == 4
     for u in uris:
         w, h = _png_size(base64.b64decode(u))
@@ -175,13 +175,13 @@ def test_sections_can_be_added_before_the_cautions(qapp, monkeypatch):
     from app.window import report
 
     monkeypatch.setattr(report, "SECTIONS", list(report.SECTIONS))
-    report.register_section("spread", lambda ctx: "<h2>Tolerance spread</h2><p>later</p>")
+    report.register_section("later-feature", lambda ctx: "<h2>A later feature</h2><p>later</p>")
     names = [n for n, _ in report.SECTIONS]
-    assert names.index("spread") == names.index("cautions") - 1 == len(names) - 2
+    assert names.index("later-feature") == names.index("cautions") - 1 == len(names) - 2
     page = report.build_report_html(_built_session(), images=False)
-    assert page.index(">Notes<") < page.index("Achieved figures") < page.index("Tolerance spread") < page.index(">Cautions<")
-    report.register_section("spread", lambda ctx: "")  # replacing keeps one entry
-    assert [n for n, _ in report.SECTIONS].count("spread") == 1
+    assert page.index(">Notes<") < page.index("Achieved figures") < page.index("A later feature") < page.index(">Cautions<")
+    report.register_section("later-feature", lambda ctx: "")  # replacing keeps one entry
+    assert [n for n, _ in report.SECTIONS].count("later-feature") == 1
 
 
 # --------------------------------------------------------------------------- PDF
@@ -343,7 +343,7 @@ def test_empty_session_and_ideal_opamp(qapp, tmp_path):
     ideal = Session(Target(2000.0, 5.0, 4.0), (CandidateEntry("mfb", "mfb", dict(get_topology("mfb").example)),))
     page = build_report_html(ideal)
     text = _text(page)
-    assert page.count("<img") == 4
+    assert page.count('class="plot" id="plot-') == 4
     assert "with an ideal op-amp" in text
     assert "GBW " not in re.search(r"Achieved figures.*?Amplifier needs", text).group(0)  # one column: ideal
 
