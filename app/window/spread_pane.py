@@ -53,7 +53,7 @@ from .state import WorkbenchState, part_unit
 from .theme import BAD, WARN
 from .value_field import ValueField
 
-__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
+__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "FigureHistogram", "window_of", "candidate_circuit", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
 
 #: Name of the band the pane shades on the magnitude plot.
 ENVELOPE_KEY = "spread"
@@ -154,16 +154,25 @@ def _whole_number(text: str, field: str, *, low: int, high: int) -> int:
     return int(v)
 
 
-class _Histogram(pg.PlotWidget):
+def window_of(settings: SpreadSettings, key: str, nominal: float) -> tuple[float, float]:
+    """The yield window of one figure (``f0_hz``, ``q``, ``gain_center_db``) around its nominal."""
+    if key == "gain_center_db":
+        return nominal - settings.window_gain_db, nominal + settings.window_gain_db
+    w = settings.window_f0 if key == "f0_hz" else settings.window_q
+    return nominal * (1.0 - w), nominal * (1.0 + w)
+
+
+class FigureHistogram(pg.PlotWidget):
     """One figure's histogram: trials per bin, the yield window shaded, nominal and worst case."""
 
     def __init__(self, key: str, title: str, unit: str, parent=None):
-        super().__init__(parent)
+        super().__init__(parent, background="w")
         self.key = key
         self.title = title
         self.setObjectName(f"hist_{key}")
         item = self.getPlotItem()
         item.setMenuEnabled(False)
+        item.setContentsMargins(2, 2, 14, 2)  # room for the last tick label on the right
         item.setMouseEnabled(x=False, y=False)
         item.hideButtons()
         item.setTitle(title, color=_INK, size="10pt")
@@ -207,7 +216,7 @@ class _Histogram(pg.PlotWidget):
         wide = span > 0 and (window[1] - window[0]) > _ZOOM_RATIO * span
         if not wide:  # the window fits: show all of it
             lo, hi = min(lo, window[0]), max(hi, window[1])
-        self.getPlotItem().setTitle(self.title + (" (window wider than shown)" if wide else ""), color=_INK, size="10pt")
+        self.getPlotItem().setTitle(self.title + (" (window is wider)" if wide else ""), color=_INK, size="10pt")
         pad = 0.04 * (hi - lo) if hi > lo else max(abs(lo) * 1e-3, 1e-12)
         lo, hi = lo - pad, hi + pad
         counts, edges = np.histogram(v, bins=_BINS, range=(float(v.min()), float(v.max())) if v.max() > v.min() else None)
@@ -475,7 +484,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.hist_grid = QtWidgets.QGridLayout()
         self.hist_grid.setSpacing(6)
         outer.addLayout(self.hist_grid)
-        self.histograms = {key: _Histogram(key, title, unit, body) for key, title, unit in _FIGURES}
+        self.histograms = {key: FigureHistogram(key, title, unit, body) for key, title, unit in _FIGURES}
         self._hist_columns = 0
         self._reflow_histograms(3)
         key_line = QtWidgets.QLabel(
@@ -821,12 +830,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         for key, _title, _unit in _FIGURES:
             x = getattr(sp, key)[sp.measured]
             n0 = float(getattr(nom, key))
-            if key == "gain_center_db":
-                win = (n0 - s.window_gain_db, n0 + s.window_gain_db)
-            else:
-                w = s.window_f0 if key == "f0_hz" else s.window_q
-                win = (n0 * (1 - w), n0 * (1 + w))
-            self.histograms[key].show_data(x, n0, win, getattr(sp.worst, key), colour)
+            self.histograms[key].show_data(x, n0, window_of(s, key, n0), getattr(sp.worst, key), colour)
         self._fill_stats(sp)
         self._fill_corners(sp)
         self._update_envelope()
