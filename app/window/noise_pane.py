@@ -30,7 +30,7 @@ from core.values import format_value, parse_nonnegative, parse_positive, parse_v
 
 from .extras_settings import NOISE_KEY, stored_noise
 from .plots import LogAxis
-from .spread_pane import CandidatePicker, candidate_circuit
+from .spread_pane import CandidatePicker, candidate_circuit, winding_text
 from .state import WorkbenchState
 from .value_field import ValueField
 
@@ -152,6 +152,11 @@ class NoisePane(QtWidgets.QWidget):
         self.info.setWordWrap(True)
         bar.addWidget(self.info, 1)
         outer.addLayout(bar)
+        self.winding = QtWidgets.QLabel(self)
+        self.winding.setObjectName("windingLine")
+        self.winding.setWordWrap(True)
+        self.winding.hide()
+        outer.addWidget(self.winding)
 
         box = QtWidgets.QGroupBox("Noise sources and band", self)
         box.setObjectName("noiseSettings")
@@ -370,6 +375,7 @@ class NoisePane(QtWidgets.QWidget):
         s = self.settings
         vin = self.state.session.target.vin_v
         if circ is None:
+            self.winding.hide()
             self.result = self.view = None
             self.problem = f"{cid} has no usable part values." if cid else "No active candidate."
             self._key = None
@@ -381,6 +387,9 @@ class NoisePane(QtWidgets.QWidget):
         key = (entry.topology_id, tuple(sorted(entry.values.items())), opamp, s, vin)
         if key != self._key:
             self._key = key
+            text = winding_text(net, opamp)
+            self.winding.setText(text)
+            self.winding.setVisible(bool(text))
             try:
                 self.result = output_noise(net, s, opamp=opamp, vin_v=vin)
                 f0 = self.result.f0_hz

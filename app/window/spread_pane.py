@@ -53,7 +53,7 @@ from .state import WorkbenchState, part_unit
 from .theme import BAD, WARN
 from .value_field import ValueField
 
-__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "FigureHistogram", "window_of", "candidate_circuit", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
+__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "FigureHistogram", "window_of", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
 
 #: Name of the band the pane shades on the magnitude plot.
 ENVELOPE_KEY = "spread"
@@ -119,6 +119,27 @@ def candidate_circuit(state: WorkbenchState, cid: str | None) -> tuple[Netlist, 
         return Candidate(entry.topology_id, entry.values).netlist, s.conditions_for(entry).opamp
     except InputError:
         return None
+
+
+def winding_text(netlist: Netlist, opamp: OpAmpModel) -> str:
+    """One line per inductor: its Q at f0 (ωL/RL) and how much its winding lowers the circuit's Q
+    (:func:`core.inductor.winding_effect`); "" for a circuit without an inductor."""
+    from core.inductor import winding_effect
+
+    try:
+        effects = winding_effect(netlist, opamp=opamp)
+    except InputError:
+        return ""
+    lines = []
+    for w in effects:
+        if w.rl_ohm <= 0:
+            lines.append(f"Inductor {w.ref}: lossless ({w.series_ref} = 0); give its winding resistance to see what it costs.")
+        elif math.isfinite(w.inductor_q) and math.isfinite(w.q_lossless):
+            lines.append(
+                f"Inductor {w.ref}: Q at f0 = {w.inductor_q:.3g} (ωL/{w.series_ref}, {w.series_ref} = {format_value(w.rl_ohm, 'Ω', digits=3)}); "
+                f"its winding lowers the circuit's Q from {w.q_lossless:.4g} to {w.q:.4g} ({-100.0 * w.q_drop:+.2f} %)."
+            )
+    return " ".join(lines)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -365,6 +386,12 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.run_info.setWordWrap(True)
         bar.addWidget(self.run_info, 1)
         outer.addLayout(bar)
+        self.winding = QtWidgets.QLabel(body)
+        self.winding.setObjectName("windingLine")
+        self.winding.setWordWrap(True)
+        self.winding.setToolTip("The inductor's own quality factor at f0 and what its winding resistance does to the circuit's Q (the spread varies the winding resistance as a resistor).")
+        self.winding.hide()
+        outer.addWidget(self.winding)
 
         # -- settings -----------------------------------------------------------------------
         self.settings_row = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.LeftToRight)
@@ -624,6 +651,9 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.dist.setCurrentIndex(self.dist.findData(s.dist))
         circ = candidate_circuit(self.state, self.picker.candidate_id)
         ideal = circ is None or circ[1].ideal
+        text = winding_text(*circ) if circ is not None else ""
+        self.winding.setText(text)
+        self.winding.setVisible(bool(text))
         gbw = self.fields["gbw_tol"]
         gbw.edit.setEnabled(not ideal)
         gbw.edit.setToolTip(
