@@ -1,4 +1,5 @@
-"""``bandsmith export``: one export of a session candidate (SPICE netlist, parts CSV, response CSV)."""
+"""``bandsmith export``: one export of a session candidate (SPICE netlist, parts CSV, response CSV),
+or with ``--chain ID`` the netlist or parts list of a whole chain kept in the session."""
 
 from __future__ import annotations
 
@@ -21,6 +22,7 @@ def configure(p):
     what.add_argument("--parts", metavar="OUT.csv", help="write the parts list (CSV)")
     what.add_argument("--response", metavar="OUT.csv", help="write the frequency response (CSV, as `sweep --csv`)")
     p.add_argument("--candidate", metavar="ID", help="candidate id (default: the first one switched on)")
+    p.add_argument("--chain", metavar="ID", help="a chain kept in the session: the netlist or parts list of all its stages")
     p.add_argument("--from", dest="f_from", metavar="F", help="response/sweep start frequency")
     p.add_argument("--to", dest="f_to", metavar="F", help="response/sweep stop frequency")
     p.add_argument("--points", metavar="N", help="response points (default 1000) or netlist points per decade (default 100)")
@@ -38,10 +40,42 @@ def _points(text: str | None, default: int) -> int:
     return n
 
 
+def _run_chain(args, session) -> int:
+    """``--chain ID``: the netlist or parts list of a chain kept in the session."""
+    from core.cascade import chains_in
+    from core.chain_exports import chain_parts_csv, chain_spice_netlist
+
+    if args.response:
+        raise InputError("chain", "--response is for one candidate; a chain exports --netlist or --parts")
+    if args.candidate is not None:
+        raise InputError("chain", "give --chain or --candidate, not both")
+    f_from = parse_positive(args.f_from, field="from") if args.f_from is not None else None
+    f_to = parse_positive(args.f_to, field="to") if args.f_to is not None else None
+    chains = chains_in(session)
+    chain = next((c for c in chains if c.id == args.chain), None)
+    if chain is None:
+        known = ", ".join(c.id for c in chains) or "none"
+        raise InputError("chain", f"{args.chain!r} is not a chain of {args.session} (its chains: {known})")
+    o = session.opamp
+    if args.netlist:
+        ppd = _points(args.points, 100) if args.points is not None else None
+        out, text = args.netlist, chain_spice_netlist(chain, gbw_hz=o.gbw_hz, a0=o.a0, f_start_hz=f_from, f_stop_hz=f_to, points_per_decade=ppd)
+    else:
+        out, text = args.parts, chain_parts_csv(chain, gbw_hz=o.gbw_hz)
+    if out == "-":
+        sys.stdout.write(text)
+    else:
+        write_atomic(out, text)
+        print(f"wrote {out} (chain {chain.id})")
+    return 0
+
+
 def run(args) -> int:
     if not (args.netlist or args.parts or args.response):
         raise InputError("export", "say what to write: --netlist OUT.cir, --parts OUT.csv or --response OUT.csv")
     session = load_session(args.session)
+    if args.chain is not None:
+        return _run_chain(args, session)
     if args.candidate is not None:
         entry = session.candidate(args.candidate)
     else:
