@@ -146,6 +146,9 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         from .noise_pane import install as install_noise_pane
 
         install_noise_pane(self)
+        from .chain_pane import install as install_chain_pane
+
+        install_chain_pane(self)
 
     # ------------------------------------------------------------------ building
     def _action(self, text: str, name: str, slot, shortcut=None, tip: str = "") -> QtGui.QAction:
