@@ -431,7 +431,7 @@ class NoisePane(QtWidgets.QWidget):
         snr = "∞ (noiseless)" if not math.isfinite(r.snr_db) else f"{r.snr_db:.1f} dB"
         gain = abs(r.gain_center)
         lines = [
-            f"over <b>{band}</b>{'' if s.band_hz else ' (f0/10 to 10·f0)'}",
+            f"over <b>{band}</b> ({'' if s.band_hz else 'f0/10 to 10·f0, '}shaded on the plot)",
             f"density at f0 ({format_value(r.f0_hz, 'Hz', digits=4)}): <b>{_nv(r.total_at_f0_v_rthz)}</b>"
             + (f", input-referred <b>{_nv(r.total_at_f0_v_rthz / gain)}</b>" if gain > 0 else ""),
             f"SNR <b>{snr}</b> for a {format_value(r.vin_v, 'V', digits=4)} peak sine at f0 "
@@ -477,7 +477,7 @@ class NoisePane(QtWidgets.QWidget):
                 if silent:
                     it.setForeground(QtGui.QColor(_MUTED))
                 if c:
-                    it.setTextAlignment(int(QtCore.Qt.AlignmentFlag.AlignRight | QtCore.Qt.AlignmentFlag.AlignVCenter))
+                    it.setTextAlignment(QtCore.Qt.AlignmentFlag.AlignRight | QtCore.Qt.AlignmentFlag.AlignVCenter)
                 if row < 2 and share > 0:
                     f = it.font()
                     f.setBold(True)

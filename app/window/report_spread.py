@@ -27,6 +27,7 @@ import numpy as np
 
 from core.candidate import Candidate
 from core.errors import InputError
+from core.mna import IDEAL
 from core.noise import NoiseResult, output_noise
 from core.tolerance import Spread, run_spread
 from core.values import format_value
@@ -113,7 +114,7 @@ def _spread_settings_table(s) -> str:
 
 def _spread_block(ctx: ReportContext, c, s) -> str:
     net = Candidate(c.entry.topology_id, c.entry.values).netlist
-    opamp = c.conditions.opamp
+    opamp = c.conditions.opamp or IDEAL  # None: ideal
     eff, notes = spread_for_circuit(s, net, opamp)
     sp = run_spread(net, eff, opamp=opamp)
     passed = int(np.count_nonzero(sp.passed))
@@ -174,7 +175,7 @@ def section_spread(ctx: ReportContext) -> str:
 
 def _noise_of(c, s, vin: float) -> tuple[NoiseResult, NoiseResult]:
     net = Candidate(c.entry.topology_id, c.entry.values).netlist
-    opamp = c.conditions.opamp
+    opamp = c.conditions.opamp or IDEAL  # None: ideal
     r = output_noise(net, s, opamp=opamp, vin_v=vin)
     lo = min(r.band_hz[0] / 1.5, r.f0_hz * 10.0**-_VIEW_DECADES)
     hi = max(r.band_hz[1] * 1.5, r.f0_hz * 10.0**_VIEW_DECADES)

@@ -31,7 +31,7 @@ from PySide6 import QtCore, QtGui, QtWidgets
 
 from core.candidate import Candidate
 from core.errors import InputError
-from core.mna import OpAmpModel
+from core.mna import IDEAL, OpAmpModel
 from core.netlist import Netlist
 from core.tolerance import (
     DISTRIBUTIONS,
@@ -116,7 +116,7 @@ def candidate_circuit(state: WorkbenchState, cid: str | None) -> tuple[Netlist, 
     s = state.session
     try:
         entry = s.candidate(cid)
-        return Candidate(entry.topology_id, entry.values).netlist, s.conditions_for(entry).opamp
+        return Candidate(entry.topology_id, entry.values).netlist, s.conditions_for(entry).opamp or IDEAL
     except InputError:
         return None
 
@@ -284,7 +284,7 @@ def _fit_height(t: QtWidgets.QTableWidget) -> None:
 def _item(text: str, *, bold: bool = False, colour: str | None = None, tip: str = "", align_right: bool = True) -> QtWidgets.QTableWidgetItem:
     it = QtWidgets.QTableWidgetItem(text)
     if align_right:
-        it.setTextAlignment(int(QtCore.Qt.AlignmentFlag.AlignRight | QtCore.Qt.AlignmentFlag.AlignVCenter))
+        it.setTextAlignment(QtCore.Qt.AlignmentFlag.AlignRight | QtCore.Qt.AlignmentFlag.AlignVCenter)
     if bold:
         f = it.font()
         f.setBold(True)
@@ -695,8 +695,10 @@ class SpreadPane(QtWidgets.QScrollArea):
                 self.parts.setItem(r, 0, name)
                 self.parts.setItem(r, 1, val)
                 self.parts.setItem(r, 2, tol)
-            self.parts.resizeColumnsToContents()
-            self.parts.horizontalHeader().setStretchLastSection(True)
+            head = self.parts.horizontalHeader()
+            head.setSectionResizeMode(0, QtWidgets.QHeaderView.ResizeMode.ResizeToContents)
+            head.setSectionResizeMode(1, QtWidgets.QHeaderView.ResizeMode.ResizeToContents)
+            head.setSectionResizeMode(2, QtWidgets.QHeaderView.ResizeMode.Stretch)
             h = self.parts.horizontalHeader().height() + 22 * len(refs) + 2 * self.parts.frameWidth() + 2
             self.parts.setFixedHeight(min(max(h, 80), 230))
         finally:
@@ -901,7 +903,7 @@ class SpreadPane(QtWidgets.QScrollArea):
                     text = "" if d is None else (f"+{_percent(d)}" if d > 0 else f"−{_percent(-d)}")
                     self.corners.setItem(r, col, _item(text, colour=BAD if d is not None and d < 0 else None))
                 col += 1
-        note = "Each column: the deviation of every part that gives the extreme (values in the table on the left)."
+        note = "Each column is one corner: the deviation of every part that gives that extreme (the extremes are the statistics' worst-case rows)."
         if wc.unstable_corners:
             note += f" {wc.unstable_corners} corner{'s are' if wc.unstable_corners > 1 else ' is'} unstable or without a peak."
         self.worst_note.setText(note)
