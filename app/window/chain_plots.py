@@ -15,7 +15,7 @@ import math
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6 import QtCore, QtWidgets
+from PySide6 import QtCore, QtGui, QtWidgets
 
 from core.cascade import Cascade, ChainSettings
 from core.values import format_value
@@ -75,9 +75,10 @@ class ChainPlots(pg.GraphicsLayoutWidget):
         One per stage, in signal order.
     """
 
-    def __init__(self, parent: QtWidgets.QWidget | None = None):
+    def __init__(self, parent: QtWidgets.QWidget | None = None, *, line_scale: float = 1.0):
         apply_plot_theme()
         super().__init__(parent)
+        self._k = float(line_scale)  # line widths × this (an image painted at 2× wants 2)
         self.setObjectName("chainPlots")
         self.setBackground("w")
         self.ci.layout.setContentsMargins(2, 2, 8, 2)
@@ -98,26 +99,31 @@ class ChainPlots(pg.GraphicsLayoutWidget):
             p.getAxis("bottom").setHeight(6)
         self.overall_legend = self._legend(0, columns=3)
         self.stage_legend = self._legend(4, columns=4)
-        self.reference_curve = self.overall.plot([], [], pen=_REFERENCE_PEN, name="ideal response")
-        self.built_curve = self.overall.plot([], [], pen=pg.mkPen(_INK, width=2.4), name="built (ideal op-amp)")
-        self.actual_curve = self.overall.plot([], [], pen=candidate_style(1).pen(2.0), name="with the op-amp")
+        self.reference_curve = self.overall.plot([], [], pen=self._pen(_REFERENCE_PEN), name="ideal response")
+        self.built_curve = self.overall.plot([], [], pen=pg.mkPen(_INK, width=2.4 * self._k), name="built (ideal op-amp)")
+        self.actual_curve = self.overall.plot([], [], pen=candidate_style(1).pen(2.0 * self._k), name="with the op-amp")
         for c in (self.reference_curve, self.built_curve, self.actual_curve):
             self.overall_legend.addItem(c, c.opts["name"])
         self._fit_legend(self.overall_legend)
-        self.deviation_curve = self.deviation.plot([], [], pen=pg.mkPen(_INK, width=1.8))
-        self.deviation_actual_curve = self.deviation.plot([], [], pen=candidate_style(1).pen(1.8))
-        self.zero_line = pg.InfiniteLine(pos=0.0, angle=0, pen=_EDGE_PEN)
+        self.deviation_curve = self.deviation.plot([], [], pen=pg.mkPen(_INK, width=1.8 * self._k))
+        self.deviation_actual_curve = self.deviation.plot([], [], pen=candidate_style(1).pen(1.8 * self._k))
+        self.zero_line = pg.InfiniteLine(pos=0.0, angle=0, pen=self._pen(_EDGE_PEN))
         self.deviation.addItem(self.zero_line, ignoreBounds=True)
         self.stage_curves: list[pg.PlotDataItem] = []
         self.edge_lines: list[pg.InfiniteLine] = []
         for p in (self.overall, self.deviation, self.stages):
             for _ in range(2):
-                line = pg.InfiniteLine(angle=90, pen=_EDGE_PEN)
+                line = pg.InfiniteLine(angle=90, pen=self._pen(_EDGE_PEN))
                 p.addItem(line, ignoreBounds=True)
                 self.edge_lines.append(line)
-        self.level_line = pg.InfiniteLine(angle=0, pen=_EDGE_PEN)
+        self.level_line = pg.InfiniteLine(angle=0, pen=self._pen(_EDGE_PEN))
         self.overall.addItem(self.level_line, ignoreBounds=True)
         self.setMinimumHeight(300)
+
+    def _pen(self, pen: QtGui.QPen) -> QtGui.QPen:
+        out = QtGui.QPen(pen)
+        out.setWidthF(pen.widthF() * self._k)
+        return out
 
     def _plot(self, row: int, title: str, y_label: str, unit: str) -> pg.PlotItem:
         p = self.addPlot(row=row, col=0, axisItems={"bottom": LogAxis("bottom")})
@@ -152,7 +158,7 @@ class ChainPlots(pg.GraphicsLayoutWidget):
     def _stage_curve(self, k: int) -> pg.PlotDataItem:
         while len(self.stage_curves) <= k:
             i = len(self.stage_curves)
-            curve = self.stages.plot([], [], pen=candidate_style(i).pen(2.0), name=f"stage {i + 1}")
+            curve = self.stages.plot([], [], pen=candidate_style(i).pen(2.0 * self._k), name=f"stage {i + 1}")
             self.stage_curves.append(curve)
             self.stage_legend.addItem(curve, curve.opts["name"])
             self._fit_legend(self.stage_legend)
@@ -206,7 +212,7 @@ class ChainPlots(pg.GraphicsLayoutWidget):
             label = f"{st.index}: {st.circuit}" if st.feasible else f"{st.index}: not built (planned)"
             curve.setData(f, _db(stage_h[k]))
             if not st.feasible:
-                curve.setPen(_PLANNED_PEN)
+                curve.setPen(self._pen(_PLANNED_PEN))
             self._legend_label(self.stage_legend, curve, label)
         # Edges and the edge level.
         for i, line in enumerate(self.edge_lines):
