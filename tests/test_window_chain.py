@@ -297,3 +297,22 @@ def test_remeasuring_the_shown_chain_keeps_what_the_user_typed(qtbot, pane, stat
     qtbot.waitUntil(lambda: not pane.busy, timeout=WAIT_MS)
     assert "20 MHz" in pane.plots.overall_legend.items[-1][1].text
     assert pane.band_a.edit.text() == "7 kHz"
+
+
+def test_fixing_the_stage_that_could_not_be_built_keeps_the_chain(qtbot, pane, state):
+    # With E48 parts on the tank alone, stage 5 of this Chebyshev chain misses (core cascade's
+    # rule: f0 off by more than half the stage's bandwidth); the Sallen-Key circuit builds it.
+    fill_form(pane, response="chebyshev", order=6, ripple="0.5", f0="10k", bw="2k", gain="2", series="E48", circuit="rlc-tank")
+    build(qtbot, pane)
+    assert not pane.shown.feasible and EXTRAS_KEY not in state.session.extras
+    assert [st.index for st in pane.shown.stages if not st.feasible] == [5]
+    combo = pane.stage_combo(5)
+    combo.setCurrentIndex(combo.findData("sallen-key"))
+    combo.activated.emit(combo.currentIndex())
+    qtbot.waitUntil(lambda: not pane.busy, timeout=WAIT_MS)
+    (chain,) = chains_in(state.session)
+    assert [s.topology_id for s in chain.stages] == ["rlc-tank"] * 4 + ["sallen-key", "rlc-tank"]
+    assert pane.shown.feasible and pane.shown_chain() == chain
+    assert "not kept" not in pane.chain_combo.currentText()
+    state.undo_stack.undo()
+    assert EXTRAS_KEY not in state.session.extras
