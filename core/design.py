@@ -41,6 +41,7 @@ from .circuits import get_topology
 from .errors import InputError
 from .eseries import SERIES_NAMES, in_series, mantissas
 from .figures import Figures, measure
+from .inductor import inductor_q_needed, inductor_q_warning
 from .synthesis import MADE, PRACTICAL, Infeasible, Spec, hurwitz_stable, search_grid
 from .topology import Topology
 from .values import format_value, parse_value
@@ -486,6 +487,10 @@ def design(
         return _infeasible(topo, spec, series, "the chosen parts do not give a stable band-pass", pins, conditions, exact, notes)
     errors = errors_of(analysis.ideal, spec)
     warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins)
+    if any(c.kind == "L" for c in topo.components):  # a real inductor must reach its share of the Q
+        w = inductor_q_warning(inductor_q_needed(spec.q))
+        if w:
+            warnings.append(w)
     return DesignResult(
         topology_id=topo.id,
         spec=spec,
