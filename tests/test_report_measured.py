@@ -145,7 +145,7 @@ def test_headless_report_command_includes_it(tmp_path):
     assert r.returncode == 0, r.stderr
     pypdf = pytest.importorskip("pypdf")
     reader = pypdf.PdfReader(str(pdf))
-    text = re.sub(r"\s+", " ", " ".join(p.extract_text() for p in reader.pages))  
+    text = re.sub(r"\s+", " ", " ".join(p.extract_text() for p in reader.pages))  # words come tab-separated
     assert "Measured against the design" in text and "Diagnosis" in text
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     (ARTIFACTS / "report_measured.pdf").write_bytes(pdf.read_bytes())
