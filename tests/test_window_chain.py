@@ -316,3 +316,30 @@ def test_fixing_the_stage_that_could_not_be_built_keeps_the_chain(qtbot, pane, s
     assert "not kept" not in pane.chain_combo.currentText()
     state.undo_stack.undo()
     assert EXTRAS_KEY not in state.session.extras
+
+
+def test_remove_takes_the_chain_out_and_undo_brings_it_back(qtbot, pane, state):
+    fill_form(pane, order=2)
+    build(qtbot, pane)
+    kept = chains_in(state.session)
+    qtbot.mouseClick(pane.btn_remove, QtCore.Qt.MouseButton.LeftButton)
+    assert EXTRAS_KEY not in state.session.extras
+    assert pane.shown is None and pane.stage_table.rowCount() == 0
+    state.undo_stack.undo()
+    assert chains_in(state.session) == kept
+    qtbot.waitUntil(lambda: not pane.busy and pane.shown_id == "chain-1", timeout=WAIT_MS)
+    assert pane.stage_table.rowCount() == 2
+
+
+def test_a_session_chain_that_cannot_be_read_is_said_and_left_alone(qtbot):
+    from dataclasses import replace
+
+    raw = [{"id": "odd", "settings": {"response": "elliptic"}, "stages": []}]
+    state = WorkbenchState(replace(demo_session(), extras={EXTRAS_KEY: raw}))
+    pane = make_pane(qtbot, state)
+    assert "cannot be read" in pane.messages.text()
+    fill_form(pane, order=2)
+    build(qtbot, pane)
+    kept = state.session.extras[EXTRAS_KEY]
+    assert kept[0] == raw[0] and len(kept) == 2  # the unreadable entry is kept as it was
+    assert [c.id for c in chains_in(replace(state.session, extras={EXTRAS_KEY: kept[1:]}))] == ["chain-1"]

@@ -170,6 +170,7 @@ class ChainPane(QtWidgets.QWidget):
         self._shown_saved = False
         self._want_id: str | None = None
         self._form_for: str | None = None  # the chain whose request the form shows
+        self._problems: list[str] = []  # chains of the session that cannot be read
         self._filling = False
 
         outer = QtWidgets.QVBoxLayout(self)
@@ -770,7 +771,7 @@ class ChainPane(QtWidgets.QWidget):
         self.shown_changed.emit()
 
     def _fill_summary(self, result: Cascade | None, cid: str | None, saved: bool) -> None:
-        notes = [f"<span style='color:{WARN}'>⚠ {_esc(p)}</span>" for p in getattr(self, "_problems", [])]
+        notes = [f"<span style='color:{WARN}'>⚠ {_esc(p)}</span>" for p in self._problems]
         if result is None:
             self.summary.setText(
                 "<b>No chain shown.</b> Set the band on the left and press <b>Build chain</b>: "
