@@ -145,7 +145,7 @@ def winding_text(netlist: Netlist, opamp: OpAmpModel) -> str:
 # ---------------------------------------------------------------------------------------------
 # A run and its result
 # ---------------------------------------------------------------------------------------------
-@dataclass(frozen=True, slots=True)
+@dataclass(frozen=True, slots=True, eq=False)  # compared by identity: it holds arrays
 class SpreadRun:
     """A finished run: for which candidate and inputs (``key``), the spread, the envelope, notes."""
 
@@ -356,6 +356,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         self._run_job = run_job or (lambda job: job.start())
         self.job: BackgroundJob | None = None
         self.runs: dict[str, SpreadRun] = {}
+        self._envelope_of = None
         self._filling = False
         self.setWidgetResizable(True)
         self.setFrameShape(QtWidgets.QFrame.Shape.NoFrame)
@@ -916,9 +917,15 @@ class SpreadPane(QtWidgets.QScrollArea):
         run = self.current_run()
         if run is None or not self.show_envelope.isChecked() or self.is_stale():
             plot.clear_envelope(ENVELOPE_KEY)
+            self._envelope_of = None
             return
+        colour = self.state.style(run.candidate_id).colour
+        drawn = self._envelope_of
+        if drawn is not None and drawn[0] is run and drawn[1] == colour and ENVELOPE_KEY in plot.envelopes:
+            return  # already drawn
         env = run.envelope
-        plot.set_envelope(ENVELOPE_KEY, env.f_hz, env.magnitude_db[0], env.magnitude_db[-1], colour=self.state.style(run.candidate_id).colour)
+        plot.set_envelope(ENVELOPE_KEY, env.f_hz, env.magnitude_db[0], env.magnitude_db[-1], colour=colour)
+        self._envelope_of = (run, colour)
 
     # ------------------------------------------------------------------ layout
     def _reflow_histograms(self, columns: int) -> None:
