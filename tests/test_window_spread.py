@@ -9,7 +9,6 @@ corners of the tolerance box when the figure is monotonic in each part (true of 
 for small tolerances; common practice, no source).
 """
 
-from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
