@@ -75,15 +75,25 @@ class LegendStrip(QtWidgets.QWidget):
         self._row.setContentsMargins(8, 2, 8, 0)
         self._row.setSpacing(14)
         self.entries: list[QtWidgets.QLabel] = []
+        # A note at the end of the strip (kept across rebuilds), e.g. what an overlay curve shows.
+        self.note = QtWidgets.QLabel(self)
+        self.note.setObjectName("legendNote")
+        self.note.setStyleSheet("color: #5f6368;")
+        self.note.hide()
         state.analyses_changed.connect(self._on_analyses_changed)
         self._on_analyses_changed()
+
+    def set_note(self, text: str) -> None:
+        """Show ``text`` (rich text allowed) at the end of the strip; "" hides it."""
+        self.note.setText(text)
+        self.note.setVisible(bool(text))
 
     def _on_analyses_changed(self) -> None:
         from .candidate_column import style_swatch
 
         while self._row.count():
             item = self._row.takeAt(0)
-            if item.widget():
+            if item.widget() and item.widget() is not self.note:
                 item.widget().deleteLater()
         self.entries = []
         title = QtWidgets.QLabel("Curves:")
@@ -98,3 +108,4 @@ class LegendStrip(QtWidgets.QWidget):
             self._row.addWidget(text)
             self.entries.append(text)
         self._row.addStretch(1)
+        self._row.addWidget(self.note)
