@@ -1,4 +1,5 @@
-"""One column of the candidates board: a candidate's switches, parts, figures and amplifier needs.
+"""One column of the candidates board: a candidate's switches, parts, figures, amplifier needs and
+the verdicts of the shelf's op-amps (:mod:`app.window.verdict_strip`).
 
 The column follows its candidate by id: it reads the entry from each new session and the result
 from the state after each analysis, and writes to the state only when the user edits something.
@@ -19,6 +20,7 @@ from .results import CandidateResult, target_errors
 from .state import WorkbenchState, part_unit
 from .theme import BAD, GOOD, WARN, CandidateStyle
 from .value_field import ValueField
+from .verdict_strip import VerdictStrip
 
 __all__ = ["CandidateColumn", "style_swatch"]
 
@@ -176,6 +178,10 @@ class CandidateColumn(QtWidgets.QFrame):
         lay.addWidget(self.need_gbw)
         lay.addWidget(self.need_flag)
         lay.addWidget(self.needs)
+
+        # Every shelf op-amp's verdict; choosing one draws it on the plots (app/window/verdict_strip.py).
+        self.verdict_strip = VerdictStrip(state, candidate_id, self)
+        lay.addWidget(self.verdict_strip)
         self.problem = QtWidgets.QLabel(self)
         self.problem.setObjectName("fieldError")
         self.problem.setWordWrap(True)
