@@ -10,7 +10,10 @@ may reach, the node that limits first and the largest input).
 The shelf lives in the user's configuration folder (:mod:`app.shelf_paths`); edits are saved with
 "Save shelf". The supply (±V) belongs to the session, in its ``"shelf"`` section, with the models
 copied into it by "Copy to session" (so that a session carries the op-amps it was checked with).
-Verdicts are computed only while the pane is visible, and cached.
+The verdicts come from the state's :class:`~app.window.verdicts.VerdictBook`, which the candidate
+columns' verdict strips read too (the pane gives it the shelf); the pane asks for them only while
+it is visible. Choosing a pair here chooses it in the book as well, so the candidate's column shows
+it and the Responses plots draw it (:mod:`app.window.amp_overlay`).
 """
 
 from __future__ import annotations
@@ -26,26 +29,18 @@ from core.ampmodel import amp_transfer_function
 from core.analysis import transfer_function
 from core.candidate import Candidate
 from core.errors import InputError
-from core.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, FitReport, basis_of, check_amp
-from core.headroom import DEFAULT_SUPPLY_V, headroom
-from core.session import Session
-from core.shelf import ARCHETYPES, OpAmp, ShelfError, ShelfState, amps_from_json, save_shelf
+from core.fitcheck import FITS, FitReport
+from core.shelf import ARCHETYPES, OpAmp, ShelfError, ShelfState, save_shelf
 from core.values import format_value, parse_positive, parse_value
 
 from .state import WorkbenchState
-from .theme import BAD, GOOD, WARN
+from .theme import BAD, GOOD
 from .value_field import ValueField
+from .verdict_strip import VERDICT_LOOK
+from .verdicts import SESSION_KEY, VerdictBook, session_amps, session_supply_v, verdict_tooltip
 
 __all__ = ["ShelfModel", "ShelfPane", "VERDICT_LOOK", "SESSION_KEY", "install"]
 
-SESSION_KEY = "shelf"
-
-# Verdict → (symbol, text colour, cell tint); the word is always shown beside the colour.
-VERDICT_LOOK = {
-    FITS: ("✓", GOOD, "#e3f2e7"),
-    MARGINAL: ("◐", WARN, "#fbefd9"),
-    DOES_NOT_FIT: ("✗", BAD, "#f8e0e0"),
-}
 
 # Editor columns: (field, header, unit for display, how it is read).
 _COLUMNS = (
@@ -186,21 +181,6 @@ class ShelfModel(QtCore.QObject):
             self.modified_changed.emit(False)
 
 
-class _Cache:
-    """Fit reports by (candidate, conditions, models): an unchanged candidate costs nothing."""
-
-    def __init__(self, size: int = 512):
-        self._d: dict = {}
-        self._size = size
-
-    def get(self, key, make):
-        if key not in self._d:
-            if len(self._d) >= self._size:
-                self._d.pop(next(iter(self._d)))
-            self._d[key] = make()
-        return self._d[key]
-
-
 class _FramedSelection(QtWidgets.QStyledItemDelegate):
     """The selected verdict keeps its word, colour and tint, and gets a dark frame instead."""
 
@@ -239,7 +219,8 @@ class ShelfPane(QtWidgets.QWidget):
 
             shelf = open_user_shelf()
         self.shelf = ShelfModel(shelf, self)
-        self._cache = _Cache()
+        self.book = VerdictBook.of(state)
+        self.book.set_shelf(self.shelf.amps)
         self._reports: dict[str, FitReport] = {}
         self._dirty = True
         self._chosen: tuple[str, str] | None = None
@@ -268,6 +249,7 @@ class ShelfPane(QtWidgets.QWidget):
         self.conditions = QtWidgets.QLabel(self)
         self.conditions.setObjectName("shelfConditions")
         self.conditions.setStyleSheet("color: #5f6368;")
+        self.conditions.setWordWrap(True)  # long; it must not set the pane's (and the window's) width
         bar.addWidget(self.conditions, 1)
         outer.addLayout(bar)
 
@@ -280,6 +262,7 @@ class ShelfPane(QtWidgets.QWidget):
         ll.setContentsMargins(0, 0, 0, 0)
         t = QtWidgets.QLabel("Verdicts — op-amps on the shelf against each active candidate (click one to see it)", left)
         t.setObjectName("sectionTitle")
+        t.setWordWrap(True)
         ll.addWidget(t)
         self.verdicts = QtWidgets.QTableWidget(left)
         self.verdicts.setObjectName("verdicts")
@@ -293,6 +276,7 @@ class ShelfPane(QtWidgets.QWidget):
 
         t = QtWidgets.QLabel("Shelf — your op-amp models (edit a cell; type values as 10M, 200k, 0.5)", left)
         t.setObjectName("sectionTitle")
+        t.setWordWrap(True)
         ll.addWidget(t)
         self.editor = QtWidgets.QTableWidget(0, len(_COLUMNS), left)
         self.editor.setObjectName("shelfTable")
@@ -308,7 +292,7 @@ class ShelfPane(QtWidgets.QWidget):
         self.editor_error.setWordWrap(True)
         self.editor_error.hide()
         ll.addWidget(self.editor_error)
-        buttons = QtWidgets.QHBoxLayout()
+        buttons = QtWidgets.QGridLayout()  # two rows, so the pane stays narrow enough beside the board
         self.btn_add = QtWidgets.QPushButton("Add model", left)
         self.btn_dup = QtWidgets.QPushButton("Duplicate", left)
         self.btn_remove = QtWidgets.QPushButton("Remove", left)
@@ -323,8 +307,11 @@ class ShelfPane(QtWidgets.QWidget):
             (self.btn_save, "Write the shelf to your configuration folder"),
         ):
             b.setToolTip(tip)
-            buttons.addWidget(b)
-        buttons.addStretch(1)
+        for k, b in enumerate((self.btn_add, self.btn_dup, self.btn_remove)):
+            buttons.addWidget(b, 0, k)
+        buttons.addWidget(self.btn_restore, 1, 0, 1, 2)
+        buttons.addWidget(self.btn_save, 1, 2)
+        buttons.setColumnStretch(3, 1)
         ll.addLayout(buttons)
         self.shelf_file = QtWidgets.QLabel(left)
         self.shelf_file.setObjectName("shelfFile")
@@ -363,6 +350,7 @@ class ShelfPane(QtWidgets.QWidget):
         rl.addWidget(self.plot, 2)
         t = QtWidgets.QLabel("Headroom at the input level", right)
         t.setObjectName("sectionTitle")
+        t.setWordWrap(True)
         rl.addWidget(t)
         self.headroom_table = QtWidgets.QTableWidget(0, 5, right)
         self.headroom_table.setObjectName("headroomTable")
@@ -385,7 +373,7 @@ class ShelfPane(QtWidgets.QWidget):
         split.addWidget(right)
         split.setStretchFactor(0, 3)
         split.setStretchFactor(1, 2)
-        right.setMinimumWidth(420)
+        right.setMinimumWidth(320)
         split.setSizes([740, 540])
         self.splitter = split
 
@@ -393,6 +381,7 @@ class ShelfPane(QtWidgets.QWidget):
         self.shelf.modified_changed.connect(lambda _m: self._show_file())
         state.session_changed.connect(self._on_session_changed)
         state.analyses_changed.connect(self._mark_dirty)
+        self.book.chosen_changed.connect(self._on_book_chosen)
         self._fill_editor()
         self._show_file()
         self._on_session_changed(state.session)
@@ -400,26 +389,15 @@ class ShelfPane(QtWidgets.QWidget):
     # ------------------------------------------------------------------ reading
     @property
     def supply_v(self) -> float:
-        sec = self.state.session.extras.get(SESSION_KEY)
-        v = sec.get("supply_v") if isinstance(sec, dict) else None
-        if isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) and v > 0:
-            return float(v)
-        return DEFAULT_SUPPLY_V
+        return session_supply_v(self.state.session)
 
     def session_amps(self) -> tuple[OpAmp, ...]:
         """Models the session carries (copied into it earlier); unusable entries are left out."""
-        sec = self.state.session.extras.get(SESSION_KEY)
-        if not isinstance(sec, dict):
-            return ()
-        try:
-            return amps_from_json(sec.get("amps", []))
-        except InputError:
-            return ()
+        return session_amps(self.state.session)
 
     def amps(self) -> tuple[OpAmp, ...]:
         """What the verdicts are for: the shelf, then session models not on the shelf."""
-        names = {a.name.casefold() for a in self.shelf.amps}
-        return self.shelf.amps + tuple(a for a in self.session_amps() if a.name.casefold() not in names)
+        return self.book.amps()
 
     def _candidates(self) -> list:
         return [c for c in self.state.session.candidates if c.enabled]
@@ -449,37 +427,9 @@ class ShelfPane(QtWidgets.QWidget):
             self.refresh()
 
     def _compute(self) -> None:
-        """Fit reports of the active candidates; each (candidate, model) verdict is cached, so an
-        edit of one model or one candidate recomputes only what it touches."""
-        s: Session = self.state.session
-        amps = self.amps()
-        supply = self.supply_v
-        out = {}
-        for c in self._candidates():
-            key = (c.topology_id, tuple(sorted(c.values.items())), supply, s.target.vin_v, s.rload_ohm, s.tolerances)
-
-            def make_base(c=c):
-                try:
-                    net = Candidate(c.topology_id, c.values).netlist
-                    room = headroom(net, vin_v=s.target.vin_v, supply_v=supply, rload_ohm=s.rload_ohm)
-                    return net, basis_of(net), room
-                except InputError:
-                    return None
-
-            base = self._cache.get(key, make_base)
-            if base is None:
-                continue
-            net, shared, room = base
-            verdicts = tuple(
-                self._cache.get(
-                    key + (a,),
-                    lambda a=a: check_amp(net, a, supply_v=supply, vin_v=s.target.vin_v, rload_ohm=s.rload_ohm,
-                                          tolerances=s.tolerances, basis=shared),
-                )
-                for a in amps
-            )
-            out[c.id] = FitReport(shared.ideal, verdicts, room)
-        self._reports = out
+        """Fit reports of the active candidates, from the book (each (candidate, model) verdict is
+        cached there, so an edit of one model or one candidate recomputes only what it touches)."""
+        self._reports = self.book.reports_now()
         self._dirty = False
 
     def refresh(self) -> None:
@@ -501,6 +451,7 @@ class ShelfPane(QtWidgets.QWidget):
         self._mark_dirty()
 
     def _on_shelf_changed(self) -> None:
+        self.book.set_shelf(self.shelf.amps)
         self._fill_editor()
         self._mark_dirty()
 
@@ -622,14 +573,7 @@ class ShelfPane(QtWidgets.QWidget):
 
     @staticmethod
     def _tooltip(v) -> str:
-        m = v.margins
-        parts = [f"{v.amp.name}: {v.verdict}"] + [f"• {r}" for r in v.reasons]
-
-        def r(x):
-            return "—" if x is None or not math.isfinite(x) else f"{x:.3g}×"
-
-        parts.append(f"margins: GBW {r(m.gbw)}, slew {r(m.slew)}, output current {r(m.iout)}, swing {format_value(m.swing_v, 'V', digits=3)} to spare")
-        return "\n".join(parts)
+        return verdict_tooltip(v)
 
     def cell_text(self, candidate_id: str, amp_name: str) -> str:
         """What the verdict board shows for a pair (as a user reads it)."""
@@ -645,8 +589,10 @@ class ShelfPane(QtWidgets.QWidget):
         self.choose(cid, name)
 
     def choose(self, candidate_id: str, amp_name: str) -> None:
-        """Show one candidate with one shelf model: reasons, overlay, headroom."""
+        """Show one candidate with one shelf model: reasons, overlay, headroom (and choose it in
+        the book: the candidate's column and the Responses plots show it too)."""
         self._chosen = (candidate_id, amp_name)
+        self.book.choose(candidate_id, amp_name)
         if self._dirty:
             self.refresh()
         else:
@@ -657,6 +603,11 @@ class ShelfPane(QtWidgets.QWidget):
                 self.verdicts.blockSignals(False)
             self._show_chosen()
         self.chosen_changed.emit(candidate_id, amp_name)
+
+    def _on_book_chosen(self, candidate_id: str, amp_name: str) -> None:
+        """A model chosen elsewhere (a column's verdict strip) is shown here too."""
+        if amp_name and (candidate_id, amp_name) != self._chosen:
+            self.choose(candidate_id, amp_name)
 
     def _show_chosen(self) -> None:
         pair = self._chosen
@@ -773,4 +724,7 @@ def install(window) -> ShelfPane:
     pane = ShelfPane(window.state, parent=window)
     window.shelf_pane = pane
     window.add_pane("Op-amp shelf", pane)
+    from .amp_overlay import install as install_amp_overlay
+
+    install_amp_overlay(window)
     return pane
