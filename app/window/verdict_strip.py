@@ -117,6 +117,7 @@ class VerdictStrip(QtWidgets.QWidget):
         self.candidate_id = candidate_id
         self.book = VerdictBook.of(state)
         self.rows: list[VerdictRow] = []
+        self._shown: tuple | None = None
 
         lay = QtWidgets.QVBoxLayout(self)
         lay.setContentsMargins(0, 0, 0, 0)
@@ -177,6 +178,12 @@ class VerdictStrip(QtWidgets.QWidget):
         report = self.book.report(self.candidate_id)
         current = self.book.is_current(self.candidate_id)
         chosen = self.book.chosen(self.candidate_id)
+        self._show_status(report, current)
+        # After an edit only the status changes until the new verdicts come: leave the rest be.
+        last = self._shown
+        if last is not None and last[0] is report and last[1:] == (chosen, amps) and self.isVisible():
+            return
+        self._shown = (report, chosen, amps)
         while len(self.rows) < len(amps):
             r = VerdictRow(self)
             r.clicked.connect(self._on_row_clicked)
@@ -195,14 +202,11 @@ class VerdictStrip(QtWidgets.QWidget):
                     v = None
             is_chosen = chosen is not None and chosen.casefold() == a.name.casefold()
             r.show_verdict(a.name, v.verdict if v is not None else None, verdict_tooltip(v) if v is not None else "", chosen=is_chosen)
-        if report is None and not current:
-            self.status.setText("checking…")
-        elif not current:
-            self.status.setText("updating…")
-        else:
-            self.status.setText("")
         self._show_headroom(chosen, report)
         self.show()
+
+    def _show_status(self, report, current: bool) -> None:
+        self.status.setText("" if current else "checking…" if report is None else "updating…")
 
     def _show_headroom(self, chosen: str | None, report) -> None:
         v = None
