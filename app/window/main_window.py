@@ -63,6 +63,34 @@ def _unique_keys(standard, *usual: str) -> list[QtGui.QKeySequence]:
     return out
 
 
+class PaneTabs(QtWidgets.QTabWidget):
+    """The tabs beside the board; panes added with :meth:`add_scrolled` sit in a scroll area.
+
+    ``indexOf`` and ``setCurrentWidget`` accept the pane itself as well as its scroll area.
+    """
+
+    def add_scrolled(self, widget: QtWidgets.QWidget, title: str) -> int:
+        area = QtWidgets.QScrollArea(self)
+        area.setObjectName(f"scroll_{widget.objectName() or title}")
+        area.setFrameShape(QtWidgets.QFrame.NoFrame)
+        area.setWidgetResizable(True)
+        area.setWidget(widget)
+        return self.addTab(area, title)
+
+    def _holder(self, widget: QtWidgets.QWidget) -> QtWidgets.QWidget:
+        for i in range(self.count()):
+            page = self.widget(i)
+            if isinstance(page, QtWidgets.QScrollArea) and page.widget() is widget:
+                return page
+        return widget
+
+    def indexOf(self, widget: QtWidgets.QWidget) -> int:  # noqa: N802 - Qt's name
+        return super().indexOf(self._holder(widget))
+
+    def setCurrentWidget(self, widget: QtWidgets.QWidget) -> None:  # noqa: N802 - Qt's name
+        super().setCurrentWidget(self._holder(widget))
+
+
 class WorkbenchWindow(QtWidgets.QMainWindow):
     """The main window over a :class:`WorkbenchState`.
 
@@ -98,7 +126,7 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         self.target_strip = TargetStrip(state, self)
         self.board = CandidatesBoard(state, self)
         self.plot_grid = PlotGrid(state, self)
-        self.panes = QtWidgets.QTabWidget(self)
+        self.panes = PaneTabs(self)
         self.panes.setObjectName("panes")
         self.panes.setDocumentMode(True)
         self.panes.addTab(self.plot_grid, "Responses")
@@ -108,6 +136,7 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         self.splitter.setStretchFactor(0, 0)
         self.splitter.setStretchFactor(1, 1)
         self.splitter.setChildrenCollapsible(False)
+        self.panes.currentChanged.connect(self._on_pane_changed)
         central = QtWidgets.QWidget(self)
         lay = QtWidgets.QVBoxLayout(central)
         lay.setContentsMargins(0, 0, 0, 0)
@@ -218,8 +247,11 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         h.addAction(self.act_help)
 
     def add_pane(self, title: str, widget: QtWidgets.QWidget) -> int:
-        """Add a pane (tolerance spread, noise, …) as a tab beside the plots; returns its index."""
-        return self.panes.addTab(widget, title)
+        """Add a pane (tolerance spread, noise, …) as a tab beside the plots; returns its index.
+
+        The pane sits in a scroll area, so a wide pane scrolls instead of squeezing the board.
+        """
+        return self.panes.add_scrolled(widget, title)
 
     def run_job(self, job: BackgroundJob) -> BackgroundJob:
         """Start long work off the GUI thread with its progress and Cancel in the status bar."""
@@ -229,10 +261,20 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
 
     def _fit_splitter(self) -> None:
         # On a wide screen the board may take up to 60 % (four columns at 1920 px); on a narrow
-        # one about half, so the plots keep a readable size and the board scrolls sideways.
+        # one about half, so the plots keep a readable size and the board scrolls sideways. A
+        # pane that needs more room than that (the stage chain) gets it, up to 75 % of the width,
+        # while its tab is shown.
         share = 0.6 if self.width() >= 1600 else 0.52
         want = min(self.board.preferred_width(), int(self.width() * share))
+        page = self.panes.currentWidget()
+        if isinstance(page, QtWidgets.QScrollArea) and page.widget() is not None:
+            need = page.widget().minimumSizeHint().width() + page.verticalScrollBar().sizeHint().width() + 8
+            want = min(want, max(self.width() - need, int(self.width() * 0.25)))
         self.splitter.setSizes([want, max(300, self.width() - want)])
+
+    def _on_pane_changed(self, _index: int) -> None:
+        if not getattr(self, "_user_split", False):
+            self._fit_splitter()
 
     def resizeEvent(self, event) -> None:  # noqa: N802 - Qt's name
         super().resizeEvent(event)
