@@ -47,7 +47,6 @@ from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
 import numpy as np
-import scipy.signal
 
 from .bandpass import Band, CascadePlan, SectionPlan, band_from, biquad_bandpass, peak_over_frequency, plan_cascade
 from .analysis import Tolerances
@@ -496,6 +495,8 @@ class Cascade:
 
     def reference_response(self, f_hz: np.ndarray) -> np.ndarray:
         """scipy.signal's band-pass of the same family, order and edges, scaled to the gain."""
+        import scipy.signal  # here, not at import: it costs the window 0.6 s at start
+
         z, p, k = reference_zpk(self.settings)
         _, h = scipy.signal.freqs_zpk(z, p, k, worN=2 * math.pi * np.asarray(f_hz, dtype=float))
         return h
@@ -518,6 +519,8 @@ def reference_zpk(settings: ChainSettings) -> tuple[np.ndarray, np.ndarray, floa
     or ``bessel(N, [ω_low, ω_high], btype='bandpass', analog=True, norm='mag')``, with the gain
     scaled so that the magnitude at the geometric centre is ``settings.gain``.
     """
+    import scipy.signal  # here, not at import: it costs the window 0.6 s at start
+
     wn = [2 * math.pi * settings.f_low_hz, 2 * math.pi * settings.f_high_hz]
     n = settings.order
     if settings.response == "bessel":

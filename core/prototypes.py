@@ -20,7 +20,6 @@ import numbers
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.signal
 
 from .errors import InputError
 
@@ -214,6 +213,8 @@ def prototype(response: str, order, *, ripple_db: float | None = None) -> Protot
     InputError
         Naming ``response``, ``order`` or ``ripple-db``.
     """
+    import scipy.signal  # here, not at import: it costs the window 0.6 s at start
+
     name = check_response(response)
     n = check_order(order)
     rp = check_ripple(name, ripple_db)

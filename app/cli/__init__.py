@@ -55,7 +55,8 @@ def _open_window(argv: list[str]) -> int:
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``bandsmith`` command; returns the exit status."""
     argv = list(sys.argv[1:] if argv is None else argv)
-    names = {c.name for c in commands()}
+    # Command names are their module names: decide "window or command" without importing them all.
+    names = {info.name for info in pkgutil.iter_modules(__path__) if not info.name.startswith("_") and info.name != "common"}
     if not argv or (len(argv) == 1 and argv[0] not in names and not argv[0].startswith("-")):
         return _open_window(argv)
     parser = _parser()
