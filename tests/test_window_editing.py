@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose
-from PySide6 import QtCore, QtWidgets
+from PySide6 import QtCore
 
 from app.window.demo import demo_session
 from app.window.main_window import WorkbenchWindow

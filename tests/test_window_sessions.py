@@ -5,7 +5,6 @@ import subprocess
 import sys
 
 import pytest
-from PySide6 import QtCore
 
 from app.window.demo import demo_session
 from app.window.main_window import WorkbenchWindow

@@ -1,10 +1,9 @@
 """The op-amp shelf pane: editor, verdicts (words beside colours), the chosen pair, session copy."""
 
-import json
 from pathlib import Path
 
 import pytest
-from PySide6 import QtCore, QtWidgets
+from PySide6 import QtCore
 
 from app.window.demo import demo_session
 from app.window.shelf_pane import SESSION_KEY, VERDICT_LOOK, ShelfPane

@@ -7,7 +7,7 @@ import time
 from pathlib import Path
 
 import pytest
-from PySide6 import QtCore, QtWidgets
+from PySide6 import QtCore
 
 from app.window.background import BackgroundJob
 from app.window.demo import demo_session

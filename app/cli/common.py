@@ -13,7 +13,7 @@ from typing import Callable
 from core.analysis import Tolerances
 from core.candidate import Conditions
 from core.errors import InputError
-from core.values import parse_fraction, parse_positive, parse_value
+from core.values import parse_fraction, parse_positive
 
 __all__ = [
     "Command",

@@ -7,7 +7,6 @@ from the state after each analysis, and writes to the state only when the user e
 
 from __future__ import annotations
 
-import math
 
 from PySide6 import QtCore, QtGui, QtWidgets
 

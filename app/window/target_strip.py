@@ -7,9 +7,8 @@ A changed target redesigns every unpinned candidate (see :meth:`WorkbenchState.s
 
 from __future__ import annotations
 
-from PySide6 import QtCore, QtWidgets
+from PySide6 import QtWidgets
 
-from core.errors import InputError
 from core.session import SERIES_CHOICES, Session
 from core.values import format_value, parse_positive
 
