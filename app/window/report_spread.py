@@ -33,7 +33,7 @@ from core.tolerance import Spread, run_spread
 from core.values import format_value
 
 from .extras_settings import spread_for_circuit, stored_noise, stored_spread
-from .report import ReportContext, register_section
+from .report import ReportContext, _table, register_section
 
 __all__ = ["section_spread", "section_noise", "histograms_png", "noise_density_png"]
 
@@ -58,25 +58,6 @@ def _fig(key: str, x: float, *, spread: bool = False) -> str:
     if key == "q":
         return f"{x:.3g}" if spread else f"{x:.4g}"
     return f"{x:.3f} dB" if spread else f"{x:+.3f} dB"
-
-
-def _table(header: Sequence[str] | None, rows: Sequence[Sequence[str]], *, cls: str, align: str = "Lr") -> str:
-    """An HTML table (cells are HTML already).
-
-    ``align`` has a letter per column (the last repeats): ``l`` left, ``L`` left and never
-    wrapped, ``r`` right and never wrapped (numbers).
-    """
-    head = "<thead><tr>" + "".join(f"<th>{h}</th>" for h in header) + "</tr></thead>\n" if header else ""
-    body = []
-    for r in rows:
-        cells = []
-        for j, c in enumerate(r):
-            a = align[min(j, len(align) - 1)]
-            side = "right" if a == "r" else "left"
-            keep = ' style="white-space: nowrap"' if a in "rL" else ""
-            cells.append(f'<td align="{side}"{keep}>{c}</td>')
-        body.append("<tr>" + "".join(cells) + "</tr>")
-    return f'<table class="{cls}" border="1" cellspacing="0" cellpadding="3">\n{head}' + "\n".join(body) + "\n</table>"
 
 
 def _img(png: bytes, width: int, alt: str, ident: str) -> str:
@@ -131,7 +112,7 @@ def _spread_block(ctx: ReportContext, c, s) -> str:
     rows = [["<b>nominal</b>"] + [escape(_fig(key, float(getattr(nom, key)))) for key, _ in _FIGS]]
     for k, label in _STATS:
         rows.append([f"<b>{escape(label)}</b>"] + [escape(_fig(key, stats[key][k], spread=(k == "std"))) for key, _ in _FIGS])
-    out.append(_table(["over the trials"] + [escape(label) for _, label in _FIGS], rows, cls="spread-stats"))
+    out.append(_table(["over the trials"] + [escape(label) for _, label in _FIGS], rows, cls="spread-stats", align="Lr"))
     wc = sp.worst
     wrows = []
     for key, label in _FIGS:
