@@ -30,6 +30,7 @@ from core.values import format_value, parse_nonnegative, parse_positive, parse_v
 
 from .extras_settings import NOISE_KEY, stored_noise
 from .plots import LogAxis
+from .shown_only import RecomputeWhenShown
 from .spread_pane import CandidatePicker, candidate_circuit, winding_text
 from .state import WorkbenchState
 from .value_field import ValueField
@@ -113,7 +114,7 @@ def _swatch(pen: QtGui.QPen, width: int = 30, height: int = 12) -> QtGui.QIcon:
     return QtGui.QIcon(pm)
 
 
-class NoisePane(QtWidgets.QWidget):
+class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
     """Output noise of the selected candidate.
 
     Attributes
@@ -354,18 +355,7 @@ class NoisePane(QtWidgets.QWidget):
     def _on_session_changed(self, _session) -> None:
         self.error.hide()
         self._fill_settings()
-        self._dirty = True
-        if self.isVisible():
-            QtCore.QTimer.singleShot(0, self._refresh_if_dirty)
-
-    def _refresh_if_dirty(self) -> None:
-        if self._dirty and self.isVisible():
-            self.refresh()
-
-    def showEvent(self, event) -> None:  # noqa: N802 - Qt's name
-        super().showEvent(event)
-        if self._dirty:
-            self.refresh()
+        self.mark_dirty()
 
     def refresh(self) -> None:
         """Recompute (when anything it depends on changed) and redraw."""

@@ -33,6 +33,7 @@ from core.fitcheck import FITS, FitReport
 from core.shelf import ARCHETYPES, OpAmp, ShelfError, ShelfState, save_shelf
 from core.values import format_value, parse_positive, parse_value
 
+from .shown_only import RecomputeWhenShown
 from .state import WorkbenchState
 from .theme import BAD, GOOD
 from .value_field import ValueField
@@ -197,7 +198,7 @@ class _FramedSelection(QtWidgets.QStyledItemDelegate):
             painter.restore()
 
 
-class ShelfPane(QtWidgets.QWidget):
+class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
     """The shelf pane over a workbench state and a shelf.
 
     Parameters
@@ -380,7 +381,7 @@ class ShelfPane(QtWidgets.QWidget):
         self.shelf.changed.connect(self._on_shelf_changed)
         self.shelf.modified_changed.connect(lambda _m: self._show_file())
         state.session_changed.connect(self._on_session_changed)
-        state.analyses_changed.connect(self._mark_dirty)
+        state.analyses_changed.connect(self.mark_dirty)
         self.book.chosen_changed.connect(self._on_book_chosen)
         self._fill_editor()
         self._show_file()
@@ -412,19 +413,6 @@ class ShelfPane(QtWidgets.QWidget):
         return self.reports()[candidate_id].verdict(amp_name)
 
     # ------------------------------------------------------------------ computing
-    def _mark_dirty(self) -> None:
-        self._dirty = True
-        if self.isVisible():
-            QtCore.QTimer.singleShot(0, self._refresh_if_dirty)
-
-    def _refresh_if_dirty(self) -> None:
-        if self._dirty and self.isVisible():
-            self.refresh()
-
-    def showEvent(self, event) -> None:  # noqa: N802 - Qt's name
-        super().showEvent(event)
-        if self._dirty:
-            self.refresh()
 
     def _compute(self) -> None:
         """Fit reports of the active candidates, from the book (each (candidate, model) verdict is
@@ -448,12 +436,12 @@ class ShelfPane(QtWidgets.QWidget):
             f"Q ±{100 * s.tolerances.q:g} %, gain ±{s.tolerances.gain_db:g} dB. Supply limits, common-mode range and "
             "swing remain yours to check against the datasheet."
         )
-        self._mark_dirty()
+        self.mark_dirty()
 
     def _on_shelf_changed(self) -> None:
         self.book.set_shelf(self.shelf.amps)
         self._fill_editor()
-        self._mark_dirty()
+        self.mark_dirty()
 
     def _show_file(self) -> None:
         where = str(self.shelf.path) if self.shelf.path else "(no file)"
