@@ -1,7 +1,8 @@
-"""Atomic file writes: a temporary file in the same folder, flushed and synced, then renamed.
+"""Files on disk: atomic writes, and reading a text file with the reason when it cannot be read.
 
-Used for every file Bandsmith writes (sessions, the op-amp shelf, exports, reports), so that a
-write that fails half-way leaves the old file exactly as it was.
+Writes go to a temporary file in the same folder, flushed and synced, then renamed: used for every
+file Bandsmith writes (sessions, the op-amp shelf, exports, reports), so that a write that fails
+half-way leaves the old file exactly as it was.
 """
 
 from __future__ import annotations
@@ -9,8 +10,9 @@ from __future__ import annotations
 import os
 import tempfile
 from pathlib import Path
+from typing import Callable
 
-__all__ = ["write_bytes_atomic"]
+__all__ = ["write_bytes_atomic", "read_utf8"]
 
 
 def _mode_for(target: Path) -> int:
@@ -63,3 +65,25 @@ def write_bytes_atomic(path: str | os.PathLike, data: bytes | str, *, make_folde
     finally:
         os.close(dfd)
     return target
+
+
+def read_utf8(path: str | os.PathLike, *, what: str, error: Callable[[str, str], Exception]) -> str:
+    """Read a UTF-8 text file (a byte-order mark is allowed); never writes.
+
+    Failures raise ``error(kind, message)`` with kind ``missing``, ``unreadable`` (a folder, no
+    permission) or ``damaged`` (not UTF-8); ``what`` names the file's kind in the message
+    ("session file", "shelf file").
+    """
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except FileNotFoundError:
+        raise error("missing", f"{p} does not exist") from None
+    except IsADirectoryError:
+        raise error("unreadable", f"{p} is a folder, not a {what}") from None
+    except OSError as exc:
+        raise error("unreadable", f"cannot read {p}: {exc.strerror or exc}") from None
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise error("damaged", f"{p} is damaged: not UTF-8 text (byte {exc.start})") from None

@@ -38,7 +38,7 @@ from typing import Any, Callable, Mapping
 from .analysis import DEFAULT_A0, Tolerances
 from .candidate import Conditions
 from .circuits import get_topology
-from .atomic import write_bytes_atomic
+from .atomic import read_utf8, write_bytes_atomic
 from .errors import InputError
 from .eseries import SERIES_NAMES
 
@@ -580,16 +580,5 @@ def load_session(path: str | os.PathLike) -> Session:
         with a message that says which.
     """
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise SessionError("missing", f"{p} does not exist") from None
-    except IsADirectoryError:
-        raise SessionError("unreadable", f"{p} is a folder, not a session file") from None
-    except OSError as exc:
-        raise SessionError("unreadable", f"cannot read {p}: {exc.strerror or exc}") from None
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise SessionError("damaged", f"{p} is damaged: not UTF-8 text (byte {exc.start})") from None
+    text = read_utf8(p, what="session file", error=SessionError)
     return loads_session(text, source=str(p))

@@ -30,7 +30,7 @@ from dataclasses import dataclass, fields
 from pathlib import Path
 from typing import Iterable, Sequence
 
-from .atomic import write_bytes_atomic
+from .atomic import read_utf8, write_bytes_atomic
 from .errors import InputError
 from .mna import OpAmpModel
 
@@ -296,18 +296,7 @@ def load_shelf(path: str | os.PathLike) -> tuple[OpAmp, ...]:
         that says which.
     """
     p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise ShelfError("missing", f"{p} does not exist") from None
-    except IsADirectoryError:
-        raise ShelfError("unreadable", f"{p} is a folder, not a shelf file") from None
-    except OSError as exc:
-        raise ShelfError("unreadable", f"cannot read {p}: {exc.strerror or exc}") from None
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise ShelfError("damaged", f"{p} is damaged: not UTF-8 text (byte {exc.start})") from None
+    text = read_utf8(p, what="shelf file", error=ShelfError)
     return loads_shelf(text, source=str(p))
 
 
