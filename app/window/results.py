@@ -62,11 +62,16 @@ class CandidateResult:
         return self.error is None
 
 
-def analyse_entry(entry: CandidateEntry, conditions: Conditions, f_hz: np.ndarray) -> CandidateResult:
-    """Analyse one candidate under ``conditions`` and gather its curves on the grid ``f_hz``."""
+def analyse_entry(
+    entry: CandidateEntry, conditions: Conditions, f_hz: np.ndarray, *, analysis: Analysis | None = None
+) -> CandidateResult:
+    """Analyse one candidate under ``conditions`` and gather its curves on the grid ``f_hz``.
+
+    ``analysis``, when given, is that candidate's analysis already made under the same conditions
+    (by the design that chose its parts) and is used instead of analysing again.
+    """
     try:
-        cand = Candidate(entry.topology_id, entry.values)
-        an = cand.analyze(conditions)
+        an = analysis if analysis is not None else Candidate(entry.topology_id, entry.values).analyze(conditions)
         h = an.h_actual if an.h_actual is not None else an.h_ideal
         fig = (an.actual if an.actual is not None else an.ideal).item()
         response = sweep(h, f_hz)
@@ -108,6 +113,15 @@ class ResultCache:
     @staticmethod
     def key(entry: CandidateEntry, conditions: Conditions, f0_hz: float) -> tuple:
         return (entry.topology_id, tuple(sorted(entry.values.items())), conditions, float(f0_hz))
+
+    def put_analysis(self, session: Session, entry: CandidateEntry, analysis: Analysis) -> None:
+        """Keep ``entry``'s result built from an analysis already made under the session's conditions."""
+        cond = session.conditions_for(entry)
+        k = self.key(entry, cond, session.target.f0_hz)
+        if k not in self._items:
+            self._items[k] = analyse_entry(entry, cond, frequency_grid(session.target.f0_hz), analysis=analysis)
+            while len(self._items) > self._size:
+                self._items.popitem(last=False)
 
     def get(self, session: Session, entry: CandidateEntry) -> CandidateResult:
         """The result of ``entry`` in ``session``, computed on first request."""

@@ -18,6 +18,7 @@ from typing import Mapping
 from PySide6 import QtCore
 from PySide6.QtGui import QUndoStack
 
+from core.candidate import Candidate
 from core.eseries import nearest
 from core.errors import InputError
 from core.session import CandidateEntry, OpAmpSpec, Session, Target
@@ -267,7 +268,11 @@ class WorkbenchState(QtCore.QObject):
             return None, res.reason or "no design for this target"
         values = dict(entry.values)
         values.update({k: float(v) for k, v in res.chosen.items()})
-        return replace(entry, values=values), None
+        designed = replace(entry, values=values)
+        # The design analysed exactly these parts under these conditions: keep that work.
+        if res.analysis is not None and res.analysis.netlist.values() == Candidate(designed.topology_id, values).netlist.values():
+            self._cache.put_analysis(session, designed, res.analysis)
+        return designed, None
 
     def _redesigned(self, s: Session, ids: list[str], *, series_changed: bool) -> Session:
         problems = []
