@@ -15,7 +15,7 @@ from .errors import InputError
 from .figures import Figures, measure
 from .mna import IDEAL, OpAmpModel, build_system
 from .netlist import Element, Netlist
-from .rational import Rational, rational_from_system, reference_w
+from .rational import OpAmpFamily, Rational, concat, rational_and_family, rational_from_system, reference_w
 from .timeresponse import StepResponse, step_response
 
 __all__ = [
@@ -215,9 +215,18 @@ def _ladder(f_hz: float) -> np.ndarray:
 
 
 def _conclude_gbw(
-    netlist: Netlist, ref: Figures, ladder: np.ndarray, on_ladder: Figures, *, a0: float, tolerances: Tolerances, w_ref: float
+    netlist: Netlist,
+    ref: Figures,
+    ladder: np.ndarray,
+    on_ladder: Figures,
+    *,
+    a0: float,
+    tolerances: Tolerances,
+    w_ref: float,
+    family: OpAmpFamily | None = None,
 ) -> tuple[float | None, str | None]:
-    """From the figures along the coarse ladder to the required GBW: refine in the failing step."""
+    """From the figures along the coarse ladder to the required GBW: refine in the failing step
+    (through the op-amp family when there is one, else a batched solve)."""
     if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
         return None, "the circuit has no band-pass peak with an ideal op-amp"
     ok = within_tolerances(on_ladder, ref, tolerances)
@@ -232,7 +241,8 @@ def _conclude_gbw(
     if fails.size == 0:
         return float(ladder[0]), None
     fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
-    ok = within_tolerances(_finite_batch(netlist, fine, a0, w_ref)[1], ref, tolerances)
+    on_fine = measure(family.at(fine, a0)) if family is not None else _finite_batch(netlist, fine, a0, w_ref)[1]
+    ok = within_tolerances(on_fine, ref, tolerances)
     fails = np.flatnonzero(~ok)
     # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
     return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None
@@ -321,6 +331,7 @@ class _FirstPass:
     ladder: np.ndarray | None
     on_ladder: Figures | None
     probe: tuple[Rational, Figures] | None
+    family: OpAmpFamily | None
 
 
 def _first_pass(
@@ -340,21 +351,19 @@ def _first_pass(
     values = dict(parts if parts is not None else netlist.values())
     refs = [r for r, v in values.items() if v > 0]
     n_ideal = 1 + 2 * len(refs)
-    gbw = np.full(n_ideal, np.inf)
-    if ladder is not None:
-        gbw = np.concatenate([gbw, ladder])
-    if probe_gbw_hz is not None:
-        gbw = np.append(gbw, probe_gbw_hz)
-    total = gbw.size
     over = {}
     for j, r in enumerate(refs):
-        col = np.full(total, values[r])
+        col = np.full(n_ideal, values[r])
         col[1 + 2 * j] *= math.exp(_SENS_STEP)
         col[2 + 2 * j] *= math.exp(-_SENS_STEP)
         over[r] = col
-    finite = total > n_ideal
-    a0s = np.where(np.isfinite(gbw), a0, np.inf) if finite else None
-    h = transfer_function(netlist, overrides=over or None, gbw_hz=gbw if finite else None, a0=a0s, w_ref=w_ref)
+    h_ideal, family = rational_and_family(build_system(netlist, overrides=over or None), w_ref)
+    gbw = np.concatenate([ladder if ladder is not None else [], [probe_gbw_hz] if probe_gbw_hz is not None else []])
+    h = h_ideal
+    if gbw.size:
+        h_finite = family.at(gbw, a0) if family is not None else _finite_batch(netlist, gbw, a0, w_ref)[0]
+        h = concat([h_ideal, h_finite])
+    total = h.batch
     fig = measure(h)
 
     def s(y):
@@ -367,7 +376,7 @@ def _first_pass(
         sens[key] = {r: (float(vals[refs.index(r)]) if r in refs else 0.0) for r in values}
     on_ladder = None if ladder is None else fig.take(slice(n_ideal, n_ideal + ladder.size))
     probe = None if probe_gbw_hz is None else (h.item(total - 1), fig.take(slice(total - 1, total)))
-    return _FirstPass(h.item(0), fig.take(slice(0, 1)), sens, ladder, on_ladder, probe)
+    return _FirstPass(h.item(0), fig.take(slice(0, 1)), sens, ladder, on_ladder, probe, family)
 
 
 def sensitivities(
@@ -425,7 +434,9 @@ def analyze(
     first = _first_pass(netlist, parts, w_ref, ladder=ladder, a0=a0, probe_gbw_hz=probe)
     h_ideal, ideal, sens = first.h_ideal, first.ideal, first.sensitivity
     ref = ideal.item()
-    gbw_search = _conclude_gbw(netlist, ref, ladder, first.on_ladder, a0=a0, tolerances=tolerances, w_ref=w_ref)
+    gbw_search = _conclude_gbw(
+        netlist, ref, ladder, first.on_ladder, a0=a0, tolerances=tolerances, w_ref=w_ref, family=first.family
+    )
     h_actual = actual = None
     if first.probe is not None:
         h_actual, actual = first.probe

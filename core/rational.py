@@ -17,7 +17,7 @@ import scipy.linalg
 
 from .mna import MnaSystem
 
-__all__ = ["Rational", "rational_from_system", "reference_w", "polyval_batch"]
+__all__ = ["Rational", "OpAmpFamily", "rational_from_system", "rational_and_family", "concat", "reference_w", "polyval_batch"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -158,6 +158,21 @@ def _lead_trim(c: np.ndarray) -> np.ndarray:
     return c[:, nz[0] :] if nz.size else c[:, -1:]
 
 
+def _coefficients(values: np.ndarray, k: int) -> np.ndarray:
+    """Polynomial coefficients (highest first) from values at the ``k`` rotated points of the circle.
+
+    ``v_j = Σ_k c_k e^{ikθ_j}``: an FFT gives ``c_k·e^{ik·offset}``, ascending powers.
+    """
+    undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
+    return (np.fft.fft(values, axis=1) / k * undo).real[:, ::-1]
+
+
+def _samples(system: MnaSystem, w: np.ndarray) -> tuple[int, np.ndarray]:
+    k = _degree_bound(system) + 1
+    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
+    return k, system.matrix(w[:, None] * np.exp(1j * theta)[None, :])
+
+
 def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = None) -> Rational:
     """Exact rational transfer function of a batched MNA system.
 
@@ -169,23 +184,83 @@ def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = N
         Normalising angular frequency (rad/s), scalar or ``(B,)``; by default
         :func:`reference_w` of the first member.
     """
+    return _rational_and_family(system, w_ref, family=False)[0]
+
+
+@dataclass(frozen=True, slots=True)
+class OpAmpFamily:
+    """A one-op-amp circuit's transfer function for every single-pole op-amp at once.
+
+    The op-amp's row holds ``−(1/A0 + s/ωt)`` in the output node's column and nothing else
+    depends on the op-amp, so by expanding the determinant along that row
+    ``D(s) = D0(s) − (1/A0 + s/ωt)·M(s)``, with ``D0`` the ideal-op-amp determinant and ``M`` the
+    signed cofactor of that entry; the numerator (Cramer's rule replaces the output column) does
+    not depend on the op-amp at all. Coefficients in ``p = s/w_ref``, highest first.
+    """
+
+    num: np.ndarray
+    d0: np.ndarray
+    cofactor: np.ndarray
+    w_ref: float
+
+    def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
+        """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s)."""
+        gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
+        alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
+        beta = self.w_ref / (2.0 * np.pi * gbw)
+        n = max(self.d0.size, self.cofactor.size + 1)
+        d0 = np.zeros(n)
+        d0[n - self.d0.size :] = self.d0
+        m = np.zeros(n)
+        m[n - self.cofactor.size :] = self.cofactor
+        mp = np.zeros(n)  # M(p)·p
+        mp[n - self.cofactor.size - 1 : n - 1] = self.cofactor
+        den = d0[None, :] - alpha[:, None] * m[None, :] - beta[:, None] * mp[None, :]
+        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        num = np.broadcast_to(self.num, (gbw.size, self.num.size))
+        return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
+
+
+def rational_and_family(system: MnaSystem, w_ref: float) -> tuple[Rational, OpAmpFamily | None]:
+    """:func:`rational_from_system` of an ideal-op-amp system, and the :class:`OpAmpFamily` of its
+    first member (None unless the netlist has exactly one op-amp), from the same samples."""
+    return _rational_and_family(system, w_ref, family=True)
+
+
+def _rational_and_family(system: MnaSystem, w_ref, *, family: bool) -> tuple[Rational, OpAmpFamily | None]:
     if w_ref is None:
         w_ref = reference_w(system)
     w = np.broadcast_to(np.asarray(w_ref, dtype=float), (system.batch,))
-    k = _degree_bound(system) + 1
-    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
-    p = np.exp(1j * theta)
-    s = w[:, None] * p[None, :]
-    a = system.matrix(s)
+    k, a = _samples(system, w)
     den_v = np.linalg.det(a)
     b = np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None]
     h = np.linalg.solve(a, b)[..., system.output_index, 0]
     num_v = h * den_v
-    # v_j = Σ_k c_k e^{ikθ_j}: an FFT gives c_k·e^{ik·offset}, ascending powers.
-    undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
-    den_c = (np.fft.fft(den_v, axis=1) / k * undo).real[:, ::-1]
-    num_c = (np.fft.fft(num_v, axis=1) / k * undo).real[:, ::-1]
-    den_c = _trim(den_c)
-    num_c = _trim(num_c)
+    den_c = _trim(_coefficients(den_v, k))
+    num_c = _trim(_coefficients(num_v, k))
     scale = np.max(np.abs(den_c), axis=1, keepdims=True)
-    return Rational(num_c / scale, den_c / scale, np.array(w, dtype=float))
+    rational = Rational(num_c / scale, den_c / scale, np.array(w, dtype=float))
+    fam = None
+    rows = list(system.layout.opamp_row.values())
+    if family and len(rows) == 1:
+        r, c = rows[0], system.output_index
+        minor = np.delete(np.delete(a[0], r, axis=-2), c, axis=-1)
+        cof = (-1.0) ** (r + c) * _coefficients(np.linalg.det(minor)[None, :], k)
+        cof = _trim(cof)[0] / scale[0, 0]
+        fam = OpAmpFamily(_lead_trim(num_c[:1])[0] / scale[0, 0], _lead_trim(den_c[:1])[0] / scale[0, 0], cof, float(w[0]))
+    return rational, fam
+
+
+def concat(parts: list[Rational]) -> Rational:
+    """One batch from several (coefficients padded with leading zeros to a common length)."""
+    m = max(p.num.shape[1] for p in parts)
+    n = max(p.den.shape[1] for p in parts)
+
+    def pad(c, width):
+        return np.pad(c, ((0, 0), (width - c.shape[1], 0)))
+
+    return Rational(
+        np.concatenate([pad(p.num, m) for p in parts]),
+        np.concatenate([pad(p.den, n) for p in parts]),
+        np.concatenate([p.w_ref for p in parts]),
+    )
