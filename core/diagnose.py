@@ -50,6 +50,7 @@ from .measured import Measurement
 from .mna import IDEAL, OpAmpModel, build_system
 from .rational import reference_w
 from .readoff import ReadOff, read_off_measurement
+from .tolerance import DEFAULT_TOLERANCES  # the same part tolerances as the spread
 
 __all__ = [
     "DEFAULT_TOLERANCES",
@@ -60,7 +61,6 @@ __all__ = [
     "diagnose",
 ]
 
-DEFAULT_TOLERANCES = {"R": 0.01, "C": 0.05, "L": 0.10}
 RANGE_FACTOR = 3.0
 DB_PER_NEPER = 20.0 / math.log(10.0)
 _PRIOR_DB = 0.01  # residual (dB) per tolerance moved: the faint pull towards the design

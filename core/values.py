@@ -31,6 +31,7 @@ __all__ = [
     "parse_fraction",
     "format_value",
     "format_rkm",
+    "UNPREFIXED_UNITS",
 ]
 
 _HINT = "try 4k7, 4700 or 4.7e3"
@@ -243,13 +244,17 @@ def _place_point(d: str, n_int: int) -> tuple[str, str]:
     return d[:n_int].ljust(n_int, "0"), d[n_int:]
 
 
-def format_value(x: float, unit: str = "", *, digits: int = 4) -> str:
+# Units that never take an SI prefix ("mdB" and "k%" read as nonsense): written plainly.
+UNPREFIXED_UNITS = ("dB", "°", "%")
+
+
+def format_value(x: float | None, unit: str = "", *, digits: int = 4) -> str:
     """Write a value in engineering notation with an SI prefix: 4700, "Ω" → ``"4.7 kΩ"``.
 
     Parameters
     ----------
-    x : float
-        Value in SI base units.
+    x : float or None
+        Value in SI base units; None (a figure that does not exist) is written ``"—"``.
     unit : str, optional
         Unit symbol appended after the prefix (``"Ω"``, ``"F"``, ``"H"``, ``"Hz"``, ``"V"``, ...).
     digits : int, optional
@@ -258,12 +263,15 @@ def format_value(x: float, unit: str = "", *, digits: int = 4) -> str:
     Returns
     -------
     str
-        E.g. ``"10 nF"``, ``"15.92 kHz"``, ``"0 Ω"``, ``"-2.2 mV"``; ``"—"`` for nan, ``"∞ Hz"`` for
-        infinity. Prefixes run from f (1e-15) to T (1e12); outside that range the number is written
-        with an exponent (``"1e-18 F"``). :func:`parse_value` reads every finite result back.
+        E.g. ``"10 nF"``, ``"15.92 kHz"``, ``"0 Ω"``, ``"-2.2 mV"``; ``"—"`` for nan or None,
+        ``"∞ Hz"`` for infinity. Prefixes run from f (1e-15) to T (1e12); outside that range the
+        number is written with an exponent (``"1e-18 F"``). :func:`parse_value` reads every finite
+        result back. Units of :data:`UNPREFIXED_UNITS` take no prefix: ``"12.26 dB"``, ``"180°"``.
     """
     if digits < 1:
         raise InputError("digits", "must be at least 1")
+    if x is None:
+        return "—"
     x = float(x)
     tail = f" {unit}" if unit else ""
     if math.isnan(x):
@@ -271,6 +279,9 @@ def format_value(x: float, unit: str = "", *, digits: int = 4) -> str:
     sign = "-" if x < 0 else ""
     if math.isinf(x):
         return f"{sign}∞{tail}"
+    if unit in UNPREFIXED_UNITS:
+        text = f"{round(x, 9) + 0.0:.{digits}g}"  # + 0.0: rounding noise never shows as "-0"
+        return text + unit if unit == "°" else f"{text} {unit}"
     if x == 0:
         return f"0{tail}"
     d, exp = _significant(x, digits)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import math
 
 from core.candidate import Candidate, parse_parts
 from core.circuits import get_topology
@@ -105,12 +104,6 @@ def fit_json(args) -> dict:
     return out
 
 
-def _num(x, unit="", digits=4):
-    if x is None or (isinstance(x, float) and not math.isfinite(x)):
-        return "—"
-    return format_value(x, unit, digits=digits)
-
-
 def print_readable(r: dict) -> None:
     topo = get_topology(r["topology"])
     ms, dz, fz = r["measured"], r["design_figures"], r["fitted_figures"]
@@ -120,16 +113,16 @@ def print_readable(r: dict) -> None:
         print(f"  note: {n}")
     print()
     rows = [
-        ["f0", _num(ms["f0_hz"], "Hz", 5), _num(dz["f0_hz"], "Hz", 5), _num(fz["f0_hz"], "Hz", 5)],
-        ["Q", _num(ms["q"]), _num(dz["q"]), _num(fz["q"])],
-        ["centre gain", _num(ms["gain_center_db"], "dB"), _num(dz["gain_center_db"], "dB"), _num(fz["gain_center_db"], "dB")],
+        ["f0", format_value(ms["f0_hz"], "Hz", digits=5), format_value(dz["f0_hz"], "Hz", digits=5), format_value(fz["f0_hz"], "Hz", digits=5)],
+        ["Q", format_value(ms["q"]), format_value(dz["q"]), format_value(fz["q"])],
+        ["centre gain", format_value(ms["gain_center_db"], "dB"), format_value(dz["gain_center_db"], "dB"), format_value(fz["gain_center_db"], "dB")],
     ]
     print(table(rows, header=["figure", "measured", "design", "fitted"]))
     print()
     rows = []
     for ref in r["parts"]:
         unit = UNITS[topo.component(ref).kind]
-        rows.append([ref, _num(r["nominal"][ref], unit), _num(r["fitted"][ref], unit), f"{r['change_pct'][ref]:+.2f} %",
+        rows.append([ref, format_value(r["nominal"][ref], unit), format_value(r["fitted"][ref], unit), f"{r['change_pct'][ref]:+.2f} %",
                      f"±{r['range_pct'][ref]:g} %" + (" (edge)" if ref in r["at_bound"] else "")])
     print(table(rows, header=["part", "design", "fitted", "change", "range"]))
     print(f"residual: {r['residual_db_rms']:.3g} dB rms" + (f", {r['residual_phase_deg_rms']:.3g}° rms" if r["residual_phase_deg_rms"] is not None else "")

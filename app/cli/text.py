@@ -37,35 +37,29 @@ def _numeric(cell: str) -> bool:
     return bool(cell) and (cell[0].isdigit() or cell[0] in "+-.—")
 
 
-def _num(x, unit="", digits=5):
-    if x is None or (isinstance(x, float) and not math.isfinite(x)):
-        return "—"
-    return format_value(x, unit, digits=digits)
-
-
 def figures_rows(fig: dict) -> list[list[str]]:
     """FIGURES as label/value rows."""
     return [
-        ["f0", _num(fig["f0_hz"], "Hz")],
-        ["Q", _num(fig["q"])],
-        ["bandwidth", _num(fig["bw_hz"], "Hz")],
-        ["f_low / f_high", f"{_num(fig['f_low_hz'], 'Hz')} / {_num(fig['f_high_hz'], 'Hz')}"],
-        ["centre gain", f"{_num(fig['gain_center'])} ({_num(fig['gain_center_db'], 'dB', 4)})"],
-        ["centre phase", _num(fig["phase_center_deg"], "°", 4)],
+        ["f0", format_value(fig["f0_hz"], "Hz")],
+        ["Q", format_value(fig["q"])],
+        ["bandwidth", format_value(fig["bw_hz"], "Hz")],
+        ["f_low / f_high", f"{format_value(fig['f_low_hz'], 'Hz')} / {format_value(fig['f_high_hz'], 'Hz')}"],
+        ["centre gain", f"{format_value(fig['gain_center'])} ({format_value(fig['gain_center_db'], 'dB', digits=4)})"],
+        ["centre phase", format_value(fig["phase_center_deg"], "°", digits=4)],
     ]
 
 
 def requirements_rows(req: dict) -> list[list[str]]:
     """REQUIREMENTS as label/value rows."""
-    gbw = _num(req["gbw_hz"], "Hz", 4) if req["gbw_hz"] is not None else f"none ({req['gbw_reason']})"
+    gbw = format_value(req["gbw_hz"], "Hz", digits=4) if req["gbw_hz"] is not None else f"none ({req['gbw_reason']})"
     return [
         ["required GBW", gbw],
         ["  within", f"f0 ±{100 * req['tol_f0']:g} %, Q ±{100 * req['tol_q']:g} %, gain ±{req['tol_gain_db']:g} dB, A0 {req['a0']:g}"],
-        ["  rule of thumb", _num(req.get("gbw_rule_of_thumb_hz"), "Hz", 3) + " (A(f0) 40 dB above the gain)"],
-        ["output peak", _num(req["vout_peak_v"], "V", 4) + f" for {_num(req['vin_v'], 'V', 4)} in"],
-        ["slew, sine at f0", _num(req["slew_sine_v_per_us"], "V/µs", 4)],
-        ["slew, input step", _num(req["slew_step_v_per_us"], "V/µs", 4)],
-        ["output current", _num(req["iout_peak_ma"] * 1e-3 if req["iout_peak_ma"] is not None else None, "A", 4) + " peak at f0"],
+        ["  rule of thumb", format_value(req.get("gbw_rule_of_thumb_hz"), "Hz", digits=3) + " (A(f0) 40 dB above the gain)"],
+        ["output peak", format_value(req["vout_peak_v"], "V", digits=4) + f" for {format_value(req['vin_v'], 'V', digits=4)} in"],
+        ["slew, sine at f0", format_value(req["slew_sine_v_per_us"], "V/µs", digits=4)],
+        ["slew, input step", format_value(req["slew_step_v_per_us"], "V/µs", digits=4)],
+        ["output current", format_value(req["iout_peak_ma"] * 1e-3 if req["iout_peak_ma"] is not None else None, "A", digits=4) + " peak at f0"],
     ]
 
 

@@ -91,14 +91,6 @@ def _chain_key(chain: Chain) -> str:
     return json.dumps(chain.to_json(), sort_keys=True)
 
 
-def _num(x, unit: str = "", digits: int = 4) -> str:
-    if x is None or not math.isfinite(x):
-        return "—"
-    if unit in ("dB", "%"):
-        return f"{round(float(x), 9) + 0.0:.{digits}g} {unit}"
-    return format_value(float(x), unit, digits=digits)
-
-
 def _signed(x, unit: str, decimals: int = 2) -> str:
     if x is None or not math.isfinite(x):
         return "—"
@@ -788,7 +780,7 @@ class ChainPane(QtWidgets.QWidget):
                 f"<span style='color:{BAD}'><b>✗ Cannot be built</b></span>: {len(bad)} of {len(result.stages)} stages cannot be built, "
                 "so this chain is not kept in the session.",
             ]
-            lines += [f"• stage {st.index} (f0 {_esc(_num(st.plan.f0_hz, 'Hz'))}, Q {st.plan.q:.3g}): {_esc(_first_clause(st.reason))}" for st in bad]
+            lines += [f"• stage {st.index} (f0 {_esc(format_value(st.plan.f0_hz, 'Hz'))}, Q {st.plan.q:.3g}): {_esc(_first_clause(st.reason))}" for st in bad]
             lines.append(
                 f"<span style='color:{_MUTED}'>Select a stage below for every circuit's reason; widen the band, lower the order, "
                 "choose a finer series or another circuit for that stage.</span>"
@@ -803,20 +795,20 @@ class ChainPane(QtWidgets.QWidget):
         if need is None:
             verdict = f"<span style='color:{BAD}'>✗ a stage needs more gain-bandwidth than any op-amp has</span>"
         elif have is None:
-            verdict = f"needs GBW {_esc(_num(need, 'Hz', 3))} (the most any stage needs); the session's op-amp is ideal"
+            verdict = f"needs GBW {_esc(format_value(need, 'Hz', digits=3))} (the most any stage needs); the session's op-amp is ideal"
         elif have >= need:
-            verdict = f"<span style='color:{GOOD}'>✓</span> needs GBW {_esc(_num(need, 'Hz', 3))}; the session's {_esc(_num(have, 'Hz', 3))} op-amp is enough"
+            verdict = f"<span style='color:{GOOD}'>✓</span> needs GBW {_esc(format_value(need, 'Hz', digits=3))}; the session's {_esc(format_value(have, 'Hz', digits=3))} op-amp is enough"
         else:
-            verdict = f"<span style='color:{BAD}'>✗ needs GBW {_esc(_num(need, 'Hz', 3))}; the session's {_esc(_num(have, 'Hz', 3))} op-amp is not enough</span>"
+            verdict = f"<span style='color:{BAD}'>✗ needs GBW {_esc(format_value(need, 'Hz', digits=3))}; the session's {_esc(format_value(have, 'Hz', digits=3))} op-amp is not enough</span>"
         edge = "ripple-band edges" if s.response == "chebyshev" else "−3 dB points"
         lines = [
             head + ("" if saved else " <i>(not kept)</i>"),
-            f"Band asked: {_esc(_num(s.f_low_hz, 'Hz'))} to {_esc(_num(s.f_high_hz, 'Hz'))} ({edge}), centre gain {s.gain:.4g}",
-            f"Built: edges {_esc(_num(o.f_low_hz, 'Hz'))} / {_esc(_num(o.f_high_hz, 'Hz'))}, centre gain {_esc(_num(o.gain_center_db, 'dB', 3))}, "
-            f"ripple {_esc(_num(o.ripple_db, 'dB', 2))}, peak {_esc(_num(o.peak_gain_db, 'dB', 3))}",
-            f"Off the ideal {_esc(response_title(s))} response: up to <b>{_esc(_num(result.passband_max_dev_db, 'dB', 3))}</b> in the band, "
-            f"{_esc(_num(result.reference_max_dev_db, 'dB', 3))} over the whole sweep"
-            + (f"; with the op-amp {_esc(_num(result.actual_max_dev_db, 'dB', 3))}" if result.actual_max_dev_db is not None else ""),
+            f"Band asked: {_esc(format_value(s.f_low_hz, 'Hz'))} to {_esc(format_value(s.f_high_hz, 'Hz'))} ({edge}), centre gain {s.gain:.4g}",
+            f"Built: edges {_esc(format_value(o.f_low_hz, 'Hz'))} / {_esc(format_value(o.f_high_hz, 'Hz'))}, centre gain {_esc(format_value(o.gain_center_db, 'dB', digits=3))}, "
+            f"ripple {_esc(format_value(o.ripple_db, 'dB', digits=2))}, peak {_esc(format_value(o.peak_gain_db, 'dB', digits=3))}",
+            f"Off the ideal {_esc(response_title(s))} response: up to <b>{_esc(format_value(result.passband_max_dev_db, 'dB', digits=3))}</b> in the band, "
+            f"{_esc(format_value(result.reference_max_dev_db, 'dB', digits=3))} over the whole sweep"
+            + (f"; with the op-amp {_esc(format_value(result.actual_max_dev_db, 'dB', digits=3))}" if result.actual_max_dev_db is not None else ""),
             verdict,
         ]
         self.summary.setText("<br>".join(lines))
@@ -858,11 +850,11 @@ class ChainPane(QtWidgets.QWidget):
                 table.setCellWidget(r, 1, combo)
                 an = st.result.analysis if st.feasible and st.result is not None else None
                 cells = [
-                    _num(st.plan.f0_hz, "Hz"),
+                    format_value(st.plan.f0_hz, "Hz"),
                     f"{st.plan.q:.4g}",
                     f"{st.plan.gain:.4g}",
-                    _num(st.peak_internal_gain_db, "dB", 3) if st.feasible else "—",
-                    (_num(an.requirements.gbw_hz, "Hz", 3) if an.requirements.gbw_hz is not None else "none") if an is not None else "—",
+                    format_value(st.peak_internal_gain_db, "dB", digits=3) if st.feasible else "—",
+                    (format_value(an.requirements.gbw_hz, "Hz", digits=3) if an.requirements.gbw_hz is not None else "none") if an is not None else "—",
                     _parts_text(st.circuit, st.chosen) if st.feasible else "not built: " + _first_clause(st.reason),
                 ]
                 for c, text in enumerate(cells, start=2):
@@ -910,8 +902,8 @@ class ChainPane(QtWidgets.QWidget):
         else:
             out.append(f"<b>Stage {st.index}</b> <span style='color:{BAD}'>✗ not built</span>")
         out.append(
-            f"Target: f0 {_esc(_num(p.f0_hz, 'Hz'))}, Q {p.q:.4g}, own peak gain {p.gain:.4g}; "
-            f"input reaching it {_esc(_num(st.vin_v, 'V'))} peak at its f0."
+            f"Target: f0 {_esc(format_value(p.f0_hz, 'Hz'))}, Q {p.q:.4g}, own peak gain {p.gain:.4g}; "
+            f"input reaching it {_esc(format_value(st.vin_v, 'V'))} peak at its f0."
         )
         if not st.feasible:
             out.append(f"<span style='color:{BAD}'>{_esc(st.reason or '')}</span>")
@@ -933,12 +925,12 @@ class ChainPane(QtWidgets.QWidget):
             an = res.analysis
             if an is not None:
                 r = an.requirements
-                gbw = _num(r.gbw_hz, "Hz", 3) if r.gbw_hz is not None else f"none ({r.gbw_reason})"
+                gbw = format_value(r.gbw_hz, "Hz", digits=3) if r.gbw_hz is not None else f"none ({r.gbw_reason})"
                 out.append(
                     f"Needs: GBW {_esc(gbw)} (f0 ±{100 * r.tolerances.f0:.3g} %, Q ±{100 * r.tolerances.q:.3g} %, "
-                    f"gain ±{r.tolerances.gain_db:g} dB); output {_esc(_num(r.vout_peak_v, 'V'))} peak; slew "
+                    f"gain ±{r.tolerances.gain_db:g} dB); output {_esc(format_value(r.vout_peak_v, 'V'))} peak; slew "
                     f"{r.slew_sine_v_per_us:.3g} V/µs for a sine at f0, {r.slew_step_v_per_us:.3g} V/µs for a step; "
-                    f"output current {_esc(_num(r.iout_peak_ma * 1e-3, 'A', 3))} peak."
+                    f"output current {_esc(format_value(r.iout_peak_ma * 1e-3, 'A', digits=3))} peak."
                 )
         for w in st.warnings:
             out.append(f"<span style='color:{WARN}'>⚠ {_esc(w)}</span>")
@@ -947,7 +939,7 @@ class ChainPane(QtWidgets.QWidget):
             for a in st.attempts:
                 if a.sane:
                     ok = "meets its tolerances" if a.within else "usable, outside its tolerances"
-                    tried.append(f"{_esc(a.topology_id)}: {ok}, needs GBW {_esc(_num(a.gbw_hz, 'Hz', 3))}")
+                    tried.append(f"{_esc(a.topology_id)}: {ok}, needs GBW {_esc(format_value(a.gbw_hz, 'Hz', digits=3))}")
                 else:
                     tried.append(f"{_esc(a.topology_id)}: {_esc(a.reason or 'cannot build it')}")
             out.append("Circuits tried: " + "; ".join(tried) + ".")

@@ -14,7 +14,6 @@ The pane is added to the window by :func:`install` (one call in the main window)
 
 from __future__ import annotations
 
-import math
 from dataclasses import replace
 from typing import TYPE_CHECKING
 
@@ -48,10 +47,6 @@ __all__ = ["MeasurementPane", "ColumnMappingDialog", "install", "MEASURED_FILTER
 MEASURED_FILTER = "Measured response (*.csv *.txt *.tsv *.dat *.prn);;All files (*)"
 _POINT_BRUSH = pg.mkBrush(32, 33, 36, 120)
 _FIT_PEN = pg.mkPen("#3c4043", width=1.4, style=QtCore.Qt.PenStyle.DashLine)
-
-
-def _num(x: float, unit: str = "", digits: int = 4) -> str:
-    return format_value(x, unit, digits=digits) if x is not None and math.isfinite(x) else "—"
 
 
 class ColumnMappingDialog(QtWidgets.QDialog):
@@ -349,7 +344,7 @@ class MeasurementPane(QtWidgets.QWidget):
                 self.summary.setText(f"No diagnosis: {exc.reason}")
             self._fitted_for = key
         phase = "magnitude and phase" if m.has_phase else "magnitude only"
-        self.source_label.setText(f"{m.source}: {m.points} points, {_num(m.f_hz[0], 'Hz', 3)} to {_num(m.f_hz[-1], 'Hz', 3)}, {phase}"
+        self.source_label.setText(f"{m.source}: {m.points} points, {format_value(m.f_hz[0], 'Hz', digits=3)} to {format_value(m.f_hz[-1], 'Hz', digits=3)}, {phase}"
                                   + ("".join(f"; {n}" for n in m.notes)))
         self._show_diagnosis()
         self._redraw()
@@ -369,9 +364,9 @@ class MeasurementPane(QtWidgets.QWidget):
             return
         cols = (d.measured.to_json(), d.design_figures, d.fitted_figures)
         for c, fig in enumerate(cols):
-            self.figures.setItem(0, c, QtWidgets.QTableWidgetItem(_num(fig.get("f0_hz"), "Hz", 5)))
-            self.figures.setItem(1, c, QtWidgets.QTableWidgetItem(_num(fig.get("q"))))
-            self.figures.setItem(2, c, QtWidgets.QTableWidgetItem(_num(fig.get("gain_center_db"), "dB")))
+            self.figures.setItem(0, c, QtWidgets.QTableWidgetItem(format_value(fig.get("f0_hz"), "Hz", digits=5)))
+            self.figures.setItem(1, c, QtWidgets.QTableWidgetItem(format_value(fig.get("q"))))
+            self.figures.setItem(2, c, QtWidgets.QTableWidgetItem(format_value(fig.get("gain_center_db"), "dB")))
         self.summary.setText(d.summary)
         self.ranking.setRowCount(len(d.alone))
         for r, a in enumerate(d.alone):
@@ -383,7 +378,7 @@ class MeasurementPane(QtWidgets.QWidget):
         for r, ref in enumerate(d.parts):
             unit = units.get(topo.component(ref).kind, "")
             edge = " (edge)" if ref in d.at_bound else ""
-            cells = (ref, _num(d.nominal[ref], unit), f"{_num(d.fitted[ref], unit)} ({d.change_pct[ref]:+.2f} %)", f"±{100 * d.ranges[ref]:g} %{edge}")
+            cells = (ref, format_value(d.nominal[ref], unit), f"{format_value(d.fitted[ref], unit)} ({d.change_pct[ref]:+.2f} %)", f"±{100 * d.ranges[ref]:g} %{edge}")
             for c, text in enumerate(cells):
                 self.fitted.setItem(r, c, QtWidgets.QTableWidgetItem(text))
 

@@ -200,16 +200,6 @@ def make_context(
 
 
 # Units that never take an SI prefix (no "mdB", no "m°").
-_UNPREFIXED = ("dB", "°", "%")
-
-
-def _num(x: float | None, unit: str = "", digits: int = 4) -> str:
-    if x is None or not math.isfinite(x):
-        return "—"
-    if unit in _UNPREFIXED:
-        text = f"{round(float(x), 9) + 0.0:.{digits}g}"  # + 0.0: no "-0"
-        return f"{text}{unit}" if unit == "°" else f"{text} {unit}"
-    return format_value(float(x), unit, digits=digits)
 
 
 def _slew(x: float | None, *, unit: bool = True) -> str:
@@ -223,7 +213,7 @@ def _gbw_cell(need_hz: float | None, have_hz: float | None) -> str:
     """The required GBW; marked when the session's op-amp falls short of it."""
     if need_hz is None:
         return '<span class="bad">none</span>'
-    text = escape(_num(need_hz, "Hz", 3))
+    text = escape(format_value(need_hz, "Hz", digits=3))
     if have_hz is not None and have_hz < need_hz:
         return f'<span class="bad">{text} ▲</span>'
     return text
@@ -280,7 +270,7 @@ def _opamp_text(session: Session) -> str:
     o = session.opamp
     if o.gbw_hz is None:
         return f"ideal (A0 {o.a0:g} for the required-GBW search)"
-    return f"GBW {_num(o.gbw_hz, 'Hz')}, A0 {o.a0:g}"
+    return f"GBW {format_value(o.gbw_hz, 'Hz')}, A0 {o.a0:g}"
 
 
 # --------------------------------------------------------------------------- sections
@@ -293,8 +283,8 @@ def section_title(ctx: ReportContext) -> str:
     t = ctx.session.target
     return (
         f"<h1>Band-pass design report</h1>\n"
-        f'<p class="meta">Made by Bandsmith on {escape(when)}{src}. Target: f0 {escape(_num(t.f0_hz, "Hz"))}, '
-        f"Q {escape(_num(t.q))}, centre gain {escape(_num(t.gain))}; {len(ctx.candidates)} candidate"
+        f'<p class="meta">Made by Bandsmith on {escape(when)}{src}. Target: f0 {escape(format_value(t.f0_hz, "Hz"))}, '
+        f"Q {escape(format_value(t.q))}, centre gain {escape(format_value(t.gain))}; {len(ctx.candidates)} candidate"
         f"{'s' if len(ctx.candidates) != 1 else ''}.</p>"
     )
 
@@ -304,14 +294,14 @@ def section_target(ctx: ReportContext) -> str:
     s = ctx.session
     t, tol = s.target, s.tolerances
     rows = [
-        ["centre frequency f0", _num(t.f0_hz, "Hz")],
-        ["Q", _num(t.q)],
-        ["bandwidth (f0 / Q)", _num(Spec(t.f0_hz, t.q, t.gain).bw_hz, "Hz")],
-        ["centre gain (magnitude)", f"{_num(t.gain)} ({_num(20 * math.log10(t.gain), 'dB')})"],
-        ["input level (peak)", _num(t.vin_v, "V")],
+        ["centre frequency f0", format_value(t.f0_hz, "Hz")],
+        ["Q", format_value(t.q)],
+        ["bandwidth (f0 / Q)", format_value(Spec(t.f0_hz, t.q, t.gain).bw_hz, "Hz")],
+        ["centre gain (magnitude)", f"{format_value(t.gain)} ({format_value(20 * math.log10(t.gain), 'dB')})"],
+        ["input level (peak)", format_value(t.vin_v, "V")],
         ["standard series", escape(t.series)],
         ["op-amp", escape(_opamp_text(s))],
-        ["load on the output", _num(s.rload_ohm, "Ω") if s.rload_ohm is not None else "none"],
+        ["load on the output", format_value(s.rload_ohm, "Ω") if s.rload_ohm is not None else "none"],
         ["required-GBW tolerances", f"f0 ±{100 * tol.f0:g} %, Q ±{100 * tol.q:g} %, gain ±{tol.gain_db:g} dB"],
     ]
     return "<h2>Target</h2>\n" + _table(None, [[escape(a), escape(b)] for a, b in rows], cls="kv", align="ll")
@@ -336,13 +326,13 @@ def section_summary(ctx: ReportContext) -> str:
         r = a.requirements
         rows.append([
             name,
-            escape(_num(fig.f0_hz, "Hz")),
-            escape(_num(fig.q)),
-            escape(_num(fig.gain_center_db, "dB")),
+            escape(format_value(fig.f0_hz, "Hz")),
+            escape(format_value(fig.q)),
+            escape(format_value(fig.gain_center_db, "dB")),
             _gbw_cell(r.gbw_hz, ctx.session.opamp.gbw_hz),
             escape(_slew(r.slew_sine_v_per_us, unit=False)),
             escape(_slew(r.slew_step_v_per_us, unit=False)),
-            escape(_num(r.iout_peak_ma * 1e-3, "A", 3)),
+            escape(format_value(r.iout_peak_ma * 1e-3, "A", digits=3)),
         ])
     note = "with the session's op-amp" if ctx.session.opamp.gbw_hz is not None else "with an ideal op-amp"
     header = ["candidate", "f0", "Q", "gain", "GBW needed", "slew, sine (V/µs)", "slew, step (V/µs)", "I out (peak)"]
@@ -350,7 +340,7 @@ def section_summary(ctx: ReportContext) -> str:
         "<h2>Candidates at a glance</h2>\n"
         + _table(header, rows, cls="summary", align="Lr")
         + f'\n<p class="note">Figures measured on the computed response {note}; needs for an input of '
-        f'{escape(_num(ctx.session.target.vin_v, "V"))} peak (slew for a sine at f0 and for an input step).'
+        f'{escape(format_value(ctx.session.target.vin_v, "V"))} peak (slew for a sine at f0 and for an input step).'
         + (" ▲ marks a GBW above the session's op-amp." if ctx.session.opamp.gbw_hz is not None else "")
         + "</p>"
     )
@@ -407,24 +397,24 @@ def _figures_table(c: CandidateReport, session: Session) -> str:
     e_act = _target_errors(a.actual, session) if a.actual is not None else None
     header = ["figure", "target", "ideal op-amp", "error"]
     if actual is not None:
-        header += [escape(f"GBW {_num(session.opamp.gbw_hz, 'Hz')}"), "error"]
+        header += [escape(f"GBW {format_value(session.opamp.gbw_hz, 'Hz')}"), "error"]
 
     def row(name, target, key, unit, err_key=None, err_unit="", digits=4):
-        r = [escape(name), escape(target), escape(_num(getattr(ideal, key), unit, digits))]
+        r = [escape(name), escape(target), escape(format_value(getattr(ideal, key), unit, digits=digits))]
         r.append(escape(_signed(e_ideal[err_key], err_unit)) if err_key else "")
         if actual is not None:
-            r.append(escape(_num(getattr(actual, key), unit, digits)))
+            r.append(escape(format_value(getattr(actual, key), unit, digits=digits)))
             r.append(escape(_signed(e_act[err_key], err_unit)) if err_key else "")
         return r
 
     rows = [
-        row("f0", _num(t.f0_hz, "Hz"), "f0_hz", "Hz", "f0_pct", "%"),
-        row("Q", _num(t.q), "q", "", "q_pct", "%"),
-        row("bandwidth", _num(Spec(t.f0_hz, t.q, t.gain).bw_hz, "Hz"), "bw_hz", "Hz"),
+        row("f0", format_value(t.f0_hz, "Hz"), "f0_hz", "Hz", "f0_pct", "%"),
+        row("Q", format_value(t.q), "q", "", "q_pct", "%"),
+        row("bandwidth", format_value(Spec(t.f0_hz, t.q, t.gain).bw_hz, "Hz"), "bw_hz", "Hz"),
         row("f_low", "", "f_low_hz", "Hz"),
         row("f_high", "", "f_high_hz", "Hz"),
-        row("centre gain (V/V)", _num(t.gain), "gain_center", ""),
-        row("centre gain (dB)", _num(20 * math.log10(t.gain), "dB"), "gain_center_db", "dB", "gain_db", "dB"),
+        row("centre gain (V/V)", format_value(t.gain), "gain_center", ""),
+        row("centre gain (dB)", format_value(20 * math.log10(t.gain), "dB"), "gain_center_db", "dB", "gain_db", "dB"),
         row("centre phase", "", "phase_center_deg", "°"),
     ]
     return _table(header, rows, cls="figures")
@@ -432,22 +422,22 @@ def _figures_table(c: CandidateReport, session: Session) -> str:
 
 def _needs_table(c: CandidateReport, session: Session) -> str:
     r = c.analysis.requirements
-    gbw = _num(r.gbw_hz, "Hz", 4) if r.gbw_hz is not None else f"none: {r.gbw_reason}"
+    gbw = format_value(r.gbw_hz, "Hz", digits=4) if r.gbw_hz is not None else f"none: {r.gbw_reason}"
     have = session.opamp.gbw_hz
     verdict = ""
     if have is not None and r.gbw_hz is not None:
         if have >= r.gbw_hz:
-            verdict = escape(f" — the session's op-amp ({_num(have, 'Hz')}) is enough")
+            verdict = escape(f" — the session's op-amp ({format_value(have, 'Hz')}) is enough")
         else:
-            verdict = f' — <span class="bad">the session\'s op-amp ({escape(_num(have, "Hz"))}) is not enough</span>'
+            verdict = f' — <span class="bad">the session\'s op-amp ({escape(format_value(have, "Hz"))}) is not enough</span>'
     rows = [
         ["required GBW", escape(gbw) + verdict],
         ["tolerances it holds", escape(f"f0 ±{100 * r.tolerances.f0:g} %, Q ±{100 * r.tolerances.q:g} %, gain ±{r.tolerances.gain_db:g} dB of the ideal figures, A0 {r.a0:g}")],
-        ["rule of thumb", escape(_num(r.gbw_rule_of_thumb_hz, "Hz", 3) + " (open-loop gain at f0 40 dB above the centre gain)")],
-        ["output peak", escape(f"{_num(r.vout_peak_v, 'V')} for {_num(r.vin_v, 'V')} in")],
+        ["rule of thumb", escape(format_value(r.gbw_rule_of_thumb_hz, "Hz", digits=3) + " (open-loop gain at f0 40 dB above the centre gain)")],
+        ["output peak", escape(f"{format_value(r.vout_peak_v, 'V')} for {format_value(r.vin_v, 'V')} in")],
         ["slew rate, sine at f0", escape(_slew(r.slew_sine_v_per_us))],
         ["slew rate, input step", escape(_slew(r.slew_step_v_per_us))],
-        ["output current", escape(_num(r.iout_peak_ma * 1e-3, "A") + " peak at f0" + (f", load {_num(session.rload_ohm, 'Ω')}" if session.rload_ohm else ""))],
+        ["output current", escape(format_value(r.iout_peak_ma * 1e-3, "A") + " peak at f0" + (f", load {format_value(session.rload_ohm, 'Ω')}" if session.rload_ohm else ""))],
     ]
     return _table(None, rows, cls="needs kv", align="ll")
 
@@ -568,7 +558,7 @@ def render_html(ctx: ReportContext, *, for_print: bool = False) -> str:
     narrow the text on a PDF page.
     """
     body = "\n\n".join(part for part in (builder(ctx) for _, builder in SECTIONS) if part)
-    title = f"Bandsmith report: f0 {_num(ctx.session.target.f0_hz, 'Hz')}, Q {_num(ctx.session.target.q)}"
+    title = f"Bandsmith report: f0 {format_value(ctx.session.target.f0_hz, 'Hz')}, Q {format_value(ctx.session.target.q)}"
     css = _CSS + (_PRINT_CSS if for_print else _SCREEN_CSS)
     return (
         "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n"

@@ -33,7 +33,7 @@ from core.values import format_rkm, format_value
 
 from .chain_pane import EXTRAS_KEY, chain_conditions, saved_chains
 from .chain_plots import ChainPlots, response_title
-from .report import ReportContext, _gbw_cell, _num, _signed, _slew, _table, register_section
+from .report import ReportContext, _gbw_cell, _signed, _slew, _table, register_section
 
 __all__ = ["section_chains", "chain_plot_png", "PLOT_ASPECT"]
 
@@ -66,9 +66,9 @@ def _request_table(chain: Chain) -> str:
     rows = [
         ["response", escape(response_title(s))],
         ["order", f"{s.order} (a band-pass of order {2 * s.order}, {s.order} stage{'s' if s.order != 1 else ''})"],
-        ["band edges", escape(f"{_num(s.f_low_hz, 'Hz')} to {_num(s.f_high_hz, 'Hz')} ({edges})")],
-        ["centre √(f_low·f_high), bandwidth", escape(f"{_num(band.f0_hz, 'Hz')}, {_num(band.bw_hz, 'Hz')} (Q {band.q_bp:.4g})")],
-        ["centre gain", escape(f"{s.gain:.4g} ({_num(20 * math.log10(s.gain), 'dB')})")],
+        ["band edges", escape(f"{format_value(s.f_low_hz, 'Hz')} to {format_value(s.f_high_hz, 'Hz')} ({edges})")],
+        ["centre √(f_low·f_high), bandwidth", escape(f"{format_value(band.f0_hz, 'Hz')}, {format_value(band.bw_hz, 'Hz')} (Q {band.q_bp:.4g})")],
+        ["centre gain", escape(f"{s.gain:.4g} ({format_value(20 * math.log10(s.gain), 'dB')})")],
         ["circuit", "auto: per stage the one needing the least GBW with sane parts" if s.circuit == "auto" else escape(s.circuit)],
         ["parts", escape("exact values" if s.series == "exact" else f"{s.series} series")],
     ]
@@ -77,22 +77,22 @@ def _request_table(chain: Chain) -> str:
 
 def _built_table(result: Cascade, ctx: ReportContext) -> str:
     o, a = result.overall, result.overall_actual
-    header = ["figure", "ideal op-amp"] + ([escape(f"GBW {_num(result.conditions.gbw_hz, 'Hz')}")] if a is not None else [])
+    header = ["figure", "ideal op-amp"] + ([escape(f"GBW {format_value(result.conditions.gbw_hz, 'Hz')}")] if a is not None else [])
 
     def row(name, fn):
         return [escape(name), escape(fn(o))] + ([escape(fn(a))] if a is not None else [])
 
     rows = [
-        row("band edges", lambda x: f"{_num(x.f_low_hz, 'Hz')} / {_num(x.f_high_hz, 'Hz')} (at {x.edge_level_db:.3g} dB)"),
-        row("−3 dB points", lambda x: f"{_num(x.f_low_3db_hz, 'Hz')} / {_num(x.f_high_3db_hz, 'Hz')}"),
-        row("centre", lambda x: _num(x.f0_hz, "Hz")),
-        row("centre gain", lambda x: _num(x.gain_center_db, "dB")),
-        row("ripple", lambda x: _num(x.ripple_db, "dB", 3)),
-        row("peak gain", lambda x: f"{_num(x.peak_gain_db, 'dB')} at {_num(x.f_peak_hz, 'Hz')}"),
+        row("band edges", lambda x: f"{format_value(x.f_low_hz, 'Hz')} / {format_value(x.f_high_hz, 'Hz')} (at {x.edge_level_db:.3g} dB)"),
+        row("−3 dB points", lambda x: f"{format_value(x.f_low_3db_hz, 'Hz')} / {format_value(x.f_high_3db_hz, 'Hz')}"),
+        row("centre", lambda x: format_value(x.f0_hz, "Hz")),
+        row("centre gain", lambda x: format_value(x.gain_center_db, "dB")),
+        row("ripple", lambda x: format_value(x.ripple_db, "dB", digits=3)),
+        row("peak gain", lambda x: f"{format_value(x.peak_gain_db, 'dB')} at {format_value(x.f_peak_hz, 'Hz')}"),
     ]
-    dev = [escape("off the ideal response"), escape(f"{_num(result.passband_max_dev_db, 'dB', 3)} in the band, {_num(result.reference_max_dev_db, 'dB', 3)} over the sweep")]
+    dev = [escape("off the ideal response"), escape(f"{format_value(result.passband_max_dev_db, 'dB', digits=3)} in the band, {format_value(result.reference_max_dev_db, 'dB', digits=3)} over the sweep")]
     if a is not None:
-        dev.append(escape(f"{_num(result.actual_max_dev_db, 'dB', 3)} over the sweep"))
+        dev.append(escape(f"{format_value(result.actual_max_dev_db, 'dB', digits=3)} over the sweep"))
     rows.append(dev)
     return _table(header, rows, cls="figures", align="lr")
 
@@ -103,7 +103,7 @@ def _needs_line(result: Cascade) -> str:
     have = result.conditions.gbw_hz
     text = f"<b>GBW the most demanding stage needs:</b> {_gbw_cell(need, have)}"
     if need is not None and have is not None:
-        text += escape(f" — the session's op-amp ({_num(have, 'Hz')}) is {'enough' if have >= need else 'not enough'}")
+        text += escape(f" — the session's op-amp ({format_value(have, 'Hz')}) is {'enough' if have >= need else 'not enough'}")
     return f"<p>{text}</p>"
 
 
@@ -115,13 +115,13 @@ def _stages_table(result: Cascade) -> str:
         rows.append([
             f"<b>{st.index}</b>",
             escape(st.circuit),
-            escape(_num(p.f0_hz, "Hz")),
+            escape(format_value(p.f0_hz, "Hz")),
             escape(f"{p.q:.4g}"),
             escape(f"{p.gain:.4g}"),
             escape(_signed(e["f0_pct"], "%", 2)),
             escape(_signed(e["q_pct"], "%", 2)),
             escape(_signed(e["gain_db"], "dB", 2)),
-            escape(_num(st.peak_internal_gain_db, "dB")),
+            escape(format_value(st.peak_internal_gain_db, "dB")),
         ])
     header = ["stage", "circuit", "f0", "Q", "gain", "f0 off", "Q off", "gain off", "peak so far"]
     return _table(header, rows, cls="stages", align="LLr")
@@ -134,12 +134,12 @@ def _stage_needs_table(result: Cascade) -> str:
         r = st.result.analysis.requirements
         rows.append([
             f"<b>{st.index}</b>",
-            escape(_num(st.vin_v, "V")),
+            escape(format_value(st.vin_v, "V")),
             _gbw_cell(r.gbw_hz, have),
             escape(_slew(r.slew_sine_v_per_us, unit=False)),
             escape(_slew(r.slew_step_v_per_us, unit=False)),
-            escape(_num(r.vout_peak_v, "V")),
-            escape(_num(r.iout_peak_ma * 1e-3, "A", 3)),
+            escape(format_value(r.vout_peak_v, "V")),
+            escape(format_value(r.iout_peak_ma * 1e-3, "A", digits=3)),
         ])
     header = ["stage", "input", "GBW needed", "slew, sine", "slew, step", "output", "I out"]
     return _table(header, rows, cls="needs", align="Lr")
@@ -208,7 +208,7 @@ def _one_chain(chain: Chain, ctx: ReportContext) -> str:
             out.append(f'<p class="error">The plots could not be drawn ({escape(type(exc).__name__)}: {escape(str(exc))}).</p>')
         else:
             out.append(_img(png, width, f"Chain {chain.id}: the whole chain, its deviation from the ideal response and each stage", f"plot-chain-{chain.id}"))
-            amp = "" if result.conditions.gbw_hz is None else f", dashed amber with the {_num(result.conditions.gbw_hz, 'Hz', 3)} op-amp"
+            amp = "" if result.conditions.gbw_hz is None else f", dashed amber with the {format_value(result.conditions.gbw_hz, 'Hz', digits=3)} op-amp"
             out.append(
                 f'<p class="note">Top: the chain built with an ideal op-amp (black){escape(amp)} and the ideal '
                 f"{escape(response_title(s))} response (grey dashed); dotted lines mark the band edges and their level. "
@@ -222,7 +222,7 @@ def _one_chain(chain: Chain, ctx: ReportContext) -> str:
     out.append(
         "<h3>Amplifier needs per stage</h3>\n" + _stage_needs_table(result)
         + '\n<p class="note">Peaks, for the input that reaches each stage at its own f0 when the chain\'s input is a sine of '
-        f"{escape(_num(result.conditions.vin_v, 'V'))} peak; slew rates in V/µs, for that sine and for an input step."
+        f"{escape(format_value(result.conditions.vin_v, 'V'))} peak; slew rates in V/µs, for that sine and for an input step."
         + (" ▲ marks a GBW above the session's op-amp." if result.conditions.gbw_hz is not None else "")
         + "</p>"
     )
