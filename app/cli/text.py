@@ -40,11 +40,11 @@ def _numeric(cell: str) -> bool:
 def figures_rows(fig: dict) -> list[list[str]]:
     """FIGURES as label/value rows."""
     return [
-        ["f0", format_value(fig["f0_hz"], "Hz")],
-        ["Q", format_value(fig["q"])],
-        ["bandwidth", format_value(fig["bw_hz"], "Hz")],
-        ["f_low / f_high", f"{format_value(fig['f_low_hz'], 'Hz')} / {format_value(fig['f_high_hz'], 'Hz')}"],
-        ["centre gain", f"{format_value(fig['gain_center'])} ({format_value(fig['gain_center_db'], 'dB', digits=4)})"],
+        ["f0", format_value(fig["f0_hz"], "Hz", digits=5)],
+        ["Q", format_value(fig["q"], digits=5)],
+        ["bandwidth", format_value(fig["bw_hz"], "Hz", digits=5)],
+        ["f_low / f_high", f"{format_value(fig['f_low_hz'], 'Hz', digits=5)} / {format_value(fig['f_high_hz'], 'Hz', digits=5)}"],
+        ["centre gain", f"{format_value(fig['gain_center'], digits=5)} ({format_value(fig['gain_center_db'], 'dB', digits=4)})"],
         ["centre phase", format_value(fig["phase_center_deg"], "°", digits=4)],
     ]
 
