@@ -12,10 +12,10 @@ from typing import Mapping
 import numpy as np
 
 from .errors import InputError
-from .figures import Figures, measure
-from .mna import IDEAL, OpAmpModel, build_system
+from .figures import Figures, measure, measure_near
+from .mna import IDEAL, MnaSystem, OpAmpModel, build_system
 from .netlist import Element, Netlist
-from .rational import OpAmpFamily, Rational, concat, rational_and_family, rational_from_system, reference_w
+from .rational import OpAmpFamily, Rational, rational_and_family, rational_from_system, reference_w
 from .timeresponse import StepResponse, step_response
 
 __all__ = [
@@ -199,11 +199,6 @@ def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances) -> np.ndarray
     return ok & fig.valid
 
 
-def _finite_batch(netlist: Netlist, gbw: np.ndarray, a0: float, w_ref: float) -> tuple[Rational, Figures]:
-    h = transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
-    return h, measure(h)
-
-
 _LADDER_DECADES = (-1.0, 9.0)
 _LADDER_POINTS = 61
 _FINE_POINTS = 48
@@ -214,24 +209,98 @@ def _ladder(f_hz: float) -> np.ndarray:
     return f_hz * np.logspace(*_LADDER_DECADES, _LADDER_POINTS)
 
 
-def _conclude_gbw(
-    netlist: Netlist,
-    ref: Figures,
-    ladder: np.ndarray,
-    on_ladder: Figures,
-    *,
-    a0: float,
-    tolerances: Tolerances,
-    w_ref: float,
-    family: OpAmpFamily | None = None,
-) -> tuple[float | None, str | None]:
-    """From the figures along the coarse ladder to the required GBW: refine in the failing step
-    (through the op-amp family when there is one, else a batched solve)."""
+def _gbw_figures(
+    netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float,
+    gbw: np.ndarray, a0: float, tolerances: Tolerances,
+) -> Figures:
+    """Figures along GBW values (Hz), sought near the ideal ones (:func:`core.figures.measure_near`):
+    a member farther off than about twice the tolerances fails whatever its exact figures are.
+    Through the op-amp family when there is one, else a batched solve."""
+    if family is not None:
+        h = family.at(gbw, a0)
+    else:
+        h = transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
+    return measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
+
+
+def _search_gbw(
+    netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float, *, a0: float, tolerances: Tolerances,
+    probe: float | None = None,
+) -> tuple[tuple[float | None, str | None], Figures | None]:
+    """The required-GBW search: a coarse ladder, then a fine one in the last failing step.
+
+    With ``probe`` (a GBW in Hz, same ``a0``) its figures ride along in the coarse batch and are
+    returned too (NaN where they are not near the ideal ones: the caller measures them exactly).
+    """
+    ref = ideal.item()
     if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
-        return None, "the circuit has no band-pass peak with an ideal op-amp"
+        return (None, "the circuit has no band-pass peak with an ideal op-amp"), None
+    ladder = _ladder(ref.f0_hz)
+    if probe is None:
+        on_ladder = _gbw_figures(netlist, ideal, family, w_ref, ladder, a0, tolerances)
+        at_probe = None
+    else:
+        both = _gbw_figures(netlist, ideal, family, w_ref, np.append(ladder, probe), a0, tolerances)
+        on_ladder, at_probe = both.take(slice(0, ladder.size)), both.take(slice(ladder.size, None))
+    return _conclude_gbw(netlist, ideal, family, w_ref, ladder, on_ladder, a0=a0, tolerances=tolerances), at_probe
+
+
+# Lagrange basis of the ladder points j−1, j, j+1, j+2 (uniform in log GBW) at sub-steps
+# t ∈ [0, 1] of the step from j to j+1: shape (T, 4).
+_SUB = np.linspace(0.0, 1.0, 257)
+_BASIS = np.stack(
+    [
+        -_SUB * (_SUB - 1.0) * (_SUB - 2.0) / 6.0,
+        (_SUB + 1.0) * (_SUB - 1.0) * (_SUB - 2.0) / 2.0,
+        -(_SUB + 1.0) * _SUB * (_SUB - 2.0) / 2.0,
+        (_SUB + 1.0) * _SUB * (_SUB - 1.0) / 6.0,
+    ],
+    axis=1,
+)
+# The reported GBW lies this fraction above the interpolated crossing (the interpolation error
+# of a cubic over a ladder step is below 0.1 % in GBW for these smooth errors).
+_CROSSING_MARGIN = 0.005
+
+
+def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, ladder: np.ndarray, j: int) -> float | None:
+    """The required GBW (Hz) inside the ladder step from ``j`` (failing) to ``j + 1`` (passing):
+    each figure's error is interpolated by the cubic through the ladder points ``j − 1 … j + 2``
+    (uniform in log GBW), and the last sub-step where the worst error exceeds its tolerance is
+    found; the result is :data:`_CROSSING_MARGIN` above it. None where the four points are not
+    all measured (a point too far off) or the interpolation disagrees with the measured pass and
+    fail at ``j`` and ``j + 1``: the caller then measures a fine ladder."""
+    if j < 1 or j + 2 >= ladder.size:
+        return None
+    sl = slice(j - 1, j + 3)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        err = np.stack([
+            (np.asarray(on_ladder.f0_hz)[sl] / ref.f0_hz - 1.0) / tol.f0,
+            (np.asarray(on_ladder.q)[sl] / ref.q - 1.0) / tol.q,
+            (np.asarray(on_ladder.gain_center_db)[sl] - ref.gain_center_db) / tol.gain_db,
+        ])
+    same_sign = np.all(np.sign(np.asarray(on_ladder.gain_center)[sl]) == np.sign(ref.gain_center))
+    if not (np.all(np.isfinite(err)) and same_sign):
+        return None
+    worst = np.max(np.abs(err @ _BASIS.T), axis=0)  # (T,)
+    if not (worst[0] > 1.0 and worst[-1] <= 1.0):
+        return None
+    k = int(np.flatnonzero(worst > 1.0)[-1]) + 1
+    step = math.log(ladder[j + 1] / ladder[j])
+    return float(ladder[j] * math.exp(_SUB[k] * step) * (1.0 + _CROSSING_MARGIN))
+
+
+def _conclude_gbw(
+    netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float, ladder: np.ndarray,
+    on_ladder: Figures, *, a0: float, tolerances: Tolerances,
+) -> tuple[float | None, str | None]:
+    ref = ideal.item()
     ok = within_tolerances(on_ladder, ref, tolerances)
     if not ok[-1]:
-        top = on_ladder.item(ladder.size - 1)
+        top_gbw = ladder[-1:]
+        if family is not None:
+            top = measure(family.at(top_gbw, a0)).item()
+        else:
+            top = measure(transfer_function(netlist, gbw_hz=top_gbw, a0=np.full(1, a0), w_ref=w_ref)).item()
         return None, (
             f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {ladder[-1]:.3g} Hz "
             f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
@@ -240,9 +309,11 @@ def _conclude_gbw(
     fails = np.flatnonzero(~ok)
     if fails.size == 0:
         return float(ladder[0]), None
+    found = _interpolated_crossing(on_ladder, ref, tolerances, ladder, int(fails[-1]))
+    if found is not None:
+        return found, None
     fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
-    on_fine = measure(family.at(fine, a0)) if family is not None else _finite_batch(netlist, fine, a0, w_ref)[1]
-    ok = within_tolerances(on_fine, ref, tolerances)
+    ok = within_tolerances(_gbw_figures(netlist, ideal, family, w_ref, fine, a0, tolerances), ref, tolerances)
     fails = np.flatnonzero(~ok)
     # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
     return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None
@@ -258,24 +329,29 @@ def required_gbw(
     """Smallest single-pole GBW (Hz) from which on every figure stays within tolerance.
 
     Searched, not estimated: the figures are measured at 61 GBW values from f0/10 to f0·10⁹ in one
-    batched solve, then at 48 values between the last failing and the first passing one, so that
-    the answer is at most 1 % above the true minimum. Returns ``(None, reason)`` when even the
+    batch, then at 48 values between the last failing and the first passing one, so that the
+    answer is at most 1 % above the true minimum. Returns ``(None, reason)`` when even the
     largest GBW fails (an open-loop gain ``a0`` too small).
     """
     ref = ideal.item()
     if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
         return None, "the circuit has no band-pass peak with an ideal op-amp"
     w_ref = 2.0 * math.pi * ref.f0_hz
-    ladder = _ladder(ref.f0_hz)
-    on_ladder = _finite_batch(netlist, ladder, a0, w_ref)[1]
-    return _conclude_gbw(netlist, ref, ladder, on_ladder, a0=a0, tolerances=tolerances, w_ref=w_ref)
+    family = rational_and_family(build_system(netlist), w_ref)[1]
+    return _search_gbw(netlist, ideal, family, w_ref, a0=a0, tolerances=tolerances)[0]
 
 
-def _opamp_output_current(netlist: Netlist, f_hz: float, rload_ohm: float | None) -> float:
-    """Peak op-amp output current (A) per volt of input at ``f_hz``, ideal op-amp, optional load."""
+def _opamp_output_current(
+    netlist: Netlist, f_hz: float, rload_ohm: float | None, system: MnaSystem | None = None
+) -> float:
+    """Peak op-amp output current (A) per volt of input at ``f_hz``, ideal op-amp, optional load.
+
+    ``system`` is the netlist's ideal-op-amp system (its member 0 is used) when already built."""
     if rload_ohm is not None:
         netlist = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
-    system = build_system(netlist)
+        system = None
+    if system is None:
+        system = build_system(netlist)
     x = system.solve(np.array([2j * math.pi * f_hz]))[0, 0]
     rows = system.layout.opamp_row.values()
     return float(max(abs(x[r]) for r in rows)) if rows else 0.0
@@ -291,12 +367,14 @@ def requirements(
     rload_ohm: float | None = None,
     tolerances: Tolerances = Tolerances(),
     gbw_search: tuple[float | None, str | None] | None = None,
+    system: MnaSystem | None = None,
 ) -> Requirements:
     """The op-amp needs of a candidate (see BRIEF.md's definitions).
 
     Slew for a sine of peak ``vin_v`` at f0: ``2π·f0·|gain|·vin``; for a step of height ``vin_v``:
     the largest ``|dv_out/dt|`` of the step response; output current: the peak current the op-amp
-    output delivers at f0 into the circuit and the optional load.
+    output delivers at f0 into the circuit and the optional load. ``gbw_search`` is a finished
+    :func:`required_gbw`, ``system`` the netlist's ideal system, when the caller has them.
     """
     ref = ideal.item()
     if gbw_search is None:
@@ -305,7 +383,7 @@ def requirements(
     gain = abs(ref.gain_center)
     # Common practice, no source: open-loop gain at f0 some 40 dB above the peak gain.
     rule = 100.0 * gain * ref.f0_hz if math.isfinite(gain) else math.nan
-    iout = _opamp_output_current(netlist, ref.f0_hz, rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
+    iout = _opamp_output_current(netlist, ref.f0_hz, rload_ohm, system) * vin_v if math.isfinite(ref.f0_hz) else math.nan
     return Requirements(
         gbw_hz=gbw,
         gbw_reason=reason,
@@ -325,58 +403,41 @@ _SENS_STEP = 1e-4
 
 @dataclass(frozen=True, slots=True)
 class _FirstPass:
+    system: MnaSystem
+    w_ref: float
     h_ideal: Rational
     ideal: Figures
     sensitivity: dict[str, dict[str, float]]
-    ladder: np.ndarray | None
-    on_ladder: Figures | None
-    probe: tuple[Rational, Figures] | None
     family: OpAmpFamily | None
 
 
-def _first_pass(
-    netlist: Netlist,
-    parts: Mapping[str, float] | None,
-    w_ref: float,
-    *,
-    ladder: np.ndarray | None = None,
-    a0: float = DEFAULT_A0,
-    probe_gbw_hz: float | None = None,
-) -> _FirstPass:
-    """One batched solve for everything that does not depend on the ideal figures.
-
-    Members, in order: the nominal circuit and its 2·P part perturbations with an ideal op-amp
-    (``1/A0 = 1/ωt = 0``), then the GBW ladder and the probe GBW with the finite op-amp.
-    """
+def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
+    """One batched solve for the ideal op-amp: the nominal circuit and its 2·P part perturbations
+    (member 0 is the nominal one), their figures and the sensitivities; with one op-amp also the
+    :class:`OpAmpFamily` of the nominal circuit. ``w_ref`` defaults to the nominal circuit's
+    :func:`~core.rational.reference_w`."""
     values = dict(parts if parts is not None else netlist.values())
     refs = [r for r, v in values.items() if v > 0]
     n_ideal = 1 + 2 * len(refs)
     over = {}
+    up, down = math.exp(_SENS_STEP), math.exp(-_SENS_STEP)
     for j, r in enumerate(refs):
         col = np.full(n_ideal, values[r])
-        col[1 + 2 * j] *= math.exp(_SENS_STEP)
-        col[2 + 2 * j] *= math.exp(-_SENS_STEP)
+        col[1 + 2 * j] *= up
+        col[2 + 2 * j] *= down
         over[r] = col
-    h_ideal, family = rational_and_family(build_system(netlist, overrides=over or None), w_ref)
-    gbw = np.concatenate([ladder if ladder is not None else [], [probe_gbw_hz] if probe_gbw_hz is not None else []])
-    h = h_ideal
-    if gbw.size:
-        h_finite = family.at(gbw, a0) if family is not None else _finite_batch(netlist, gbw, a0, w_ref)[0]
-        h = concat([h_ideal, h_finite])
-    total = h.batch
+    system = build_system(netlist, overrides=over or None)
+    if w_ref is None:
+        w_ref = reference_w(system)
+    h, family = rational_and_family(system, w_ref)
     fig = measure(h)
-
-    def s(y):
-        ly = np.log(np.abs(y[1:n_ideal]))
-        return (ly[0::2] - ly[1::2]) / (2.0 * _SENS_STEP)
-
+    ly = np.log(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
+    sv = (ly[:, 0::2] - ly[:, 1::2]) / (2.0 * _SENS_STEP)
     sens = {}
-    for key, y in (("f0", fig.f0_hz), ("q", fig.q), ("gain", fig.gain_center)):
-        vals = s(y)
-        sens[key] = {r: (float(vals[refs.index(r)]) if r in refs else 0.0) for r in values}
-    on_ladder = None if ladder is None else fig.take(slice(n_ideal, n_ideal + ladder.size))
-    probe = None if probe_gbw_hz is None else (h.item(total - 1), fig.take(slice(total - 1, total)))
-    return _FirstPass(h.item(0), fig.take(slice(0, 1)), sens, ladder, on_ladder, probe, family)
+    for row, key in enumerate(("f0", "q", "gain")):
+        by_ref = dict(zip(refs, sv[row].tolist()))
+        sens[key] = {r: by_ref.get(r, 0.0) for r in values}
+    return _FirstPass(system, float(w_ref), h.item(0), fig.take(slice(0, 1)), sens, family)
 
 
 def sensitivities(
@@ -427,26 +488,24 @@ def analyze(
         raise InputError("rload", f"must be a finite number above zero, got {rload_ohm!r}")
     if a0 is None:
         a0 = opamp.a0 if opamp is not None else DEFAULT_A0
-    w_ref = reference_w(build_system(netlist))
     finite = opamp is not None and not opamp.ideal
-    ladder = _ladder(w_ref / (2.0 * math.pi))
-    probe = opamp.gbw_hz if finite and opamp.a0 == a0 else None
-    first = _first_pass(netlist, parts, w_ref, ladder=ladder, a0=a0, probe_gbw_hz=probe)
-    h_ideal, ideal, sens = first.h_ideal, first.ideal, first.sensitivity
-    ref = ideal.item()
-    gbw_search = _conclude_gbw(
-        netlist, ref, ladder, first.on_ladder, a0=a0, tolerances=tolerances, w_ref=w_ref, family=first.family
-    )
-    h_actual = actual = None
-    if first.probe is not None:
-        h_actual, actual = first.probe
-    elif finite:
-        h_actual = transfer_function(netlist, opamp, w_ref=w_ref)
-        actual = measure(h_actual)
+    first = _first_pass(netlist, parts)
+    h_ideal, ideal, sens, w_ref = first.h_ideal, first.ideal, first.sensitivity, first.w_ref
+    probe = opamp.gbw_hz if finite and opamp.a0 == a0 and first.family is not None else None
+    gbw_search, actual = _search_gbw(netlist, ideal, first.family, w_ref, a0=a0, tolerances=tolerances, probe=probe)
+    h_actual = None
+    if finite:
+        if first.family is not None:
+            h_actual = first.family.at(np.array([opamp.gbw_hz]), opamp.a0).item(0)
+        else:
+            h_actual = transfer_function(netlist, opamp, w_ref=w_ref)
+        if actual is None or not bool(actual.valid[0]):  # far from the ideal: measured exactly
+            actual = measure(h_actual)
     step = step_response(h_ideal)
+    nominal = MnaSystem(first.system.G[:1], first.system.C[:1], first.system.layout, first.system.output_index)
     req = requirements(
         netlist, ideal, step, vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
-        gbw_search=gbw_search,
+        gbw_search=gbw_search, system=nominal,
     )
     return Analysis(
         netlist=netlist,

@@ -45,13 +45,13 @@ def default_time_grid(poles: np.ndarray, n: int = 1000) -> np.ndarray:
     return np.linspace(0.0, t_end, n)
 
 
-def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray):
-    """Step and impulse responses from simple poles: ``r_i = N(λ_i)/D'(λ_i)`` after division."""
+def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
+    """Step and impulse responses from simple poles ``p`` (the roots of ``a``):
+    ``r_i = N(λ_i)/D'(λ_i)`` after division."""
     direct = 0.0
     if b.size >= a.size:
         quotient, b = np.polydiv(b, a)
         direct = float(quotient[-1])
-    p = np.roots(a)
     r = np.polyval(b, p) / np.polyval(np.polyder(a), p)
     e = np.exp(np.outer(t, p))
     h = (e @ r).real
@@ -72,6 +72,10 @@ def _state_space(b: np.ndarray, a: np.ndarray, t: np.ndarray):
     y = phi[:, :n, n] @ C[0] + D[0, 0]
     h = np.einsum("j,tjk,k->t", C[0], phi[:, :n, :n], B[:, 0])
     return y, h
+
+
+# Early times, in units of the fastest pole's time constant, where a fast op-amp pole shapes the start.
+_EARLY = np.geomspace(1e-3, 20.0, 200)
 
 
 def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> StepResponse:
@@ -95,12 +99,12 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
     if t_s is None:
         t_s = default_time_grid(poles)
     fast = np.abs(poles[np.isfinite(poles)]).max() if poles.size else 1.0
-    early = np.geomspace(1e-3 / fast, 20.0 / fast, 200)
+    early = _EARLY / fast
     t_all = np.concatenate([t_s, early])
     dist = np.abs(poles[:, None] - poles[None, :])
     gap = np.min(dist[~np.eye(poles.size, dtype=bool)]) if poles.size > 1 else np.inf
     if gap > 1e-5 * fast:
-        y, slope = _modal(b, a, t_all)
+        y, slope = _modal(b, a, t_all, poles)
     else:
         y, slope = _state_space(b, a, t_all)
     n = t_s.size
