@@ -40,6 +40,7 @@ from .candidate import Candidate, Conditions
 from .circuits import get_topology
 from .errors import InputError
 from .eseries import SERIES_NAMES, in_series, mantissas
+from .expansion import Expansion, ExpansionUnavailable
 from .figures import Figures, measure
 from .inductor import inductor_q_needed, inductor_q_warning
 from .synthesis import MADE, PRACTICAL, Infeasible, Spec, hurwitz_stable, search_grid
@@ -255,6 +256,24 @@ def _bracketed(x: np.ndarray, series: str, width: int) -> tuple[list[np.ndarray]
     return np.split(flat, np.cumsum([i.size for i in idx])[:-1]), near
 
 
+def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
+    """Transfer functions of every combination (part values by reference, arrays of one length).
+
+    Through the netlist's coefficient expansion (:mod:`core.expansion`, built once per circuit)
+    when it applies, else one batched solve.
+    """
+    try:
+        exp = Expansion(netlist, w_ref=w_ref)
+    except ExpansionUnavailable:
+        return transfer_function(netlist, overrides=over, w_ref=w_ref)
+    size = len(next(iter(over.values())))
+    ratios = np.ones((size, len(exp.variables)))
+    for j, v in enumerate(exp.variables):
+        if v.name in over:
+            ratios[:, j] = over[v.name] / v.value
+    return exp.rational(ratios)
+
+
 def choose_standard(
     topology: Topology,
     exact: Mapping[str, float],
@@ -291,7 +310,7 @@ def choose_standard(
     # The last member rounds every part alone to its nearest standard value, for comparison.
     over = {r: np.append(m.reshape(-1), v) for r, m, v in zip(free, mesh, rounded)}
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
-        h = transfer_function(netlist, overrides=over, w_ref=spec.w0)
+        h = _combinations(netlist, over, spec.w0)
         # exact polynomial roots up to a few thousand members; a grid around the target beyond
         fig = measure(h) if h.batch <= _ROOTS_UP_TO else measure(h, grid=grid)
         cost = np.where(hurwitz_stable(h.den) & fig.valid, _weighted_batch(fig, spec, tolerances), np.inf)

@@ -123,6 +123,80 @@ def _system_for(netlist: Netlist, variables: tuple[Variable, ...], values: np.nd
     return build_system(netlist, opamp, overrides=overrides, gbw_hz=gbw, a0=a0)
 
 
+@dataclass(frozen=True, slots=True)
+class _Fit:
+    """The value-independent part of an expansion: monomial exponents and integer-point
+    coefficients (ascending powers of ``s``, a common factor ``s^low`` removed)."""
+
+    exps: np.ndarray
+    den: np.ndarray
+    num: np.ndarray
+    low: int
+    num_powers: tuple[int, ...]
+    den_powers: tuple[int, ...]
+    factors: list
+    num_slots: list
+    den_slots: list
+
+
+# Structural fits by netlist structure (elements, nodes, which parameters are present): the
+# integer-point determinants do not depend on the part values, so a circuit pays for them once.
+_FITS: dict[tuple, _Fit] = {}
+
+
+def _structure_key(netlist: Netlist, variables: tuple[Variable, ...]) -> tuple:
+    elements = tuple((e.ref, e.kind, tuple(e.nodes), e.series_ref) for e in netlist.elements)
+    return (elements, netlist.ground, netlist.input, netlist.output,
+            tuple((v.name, v.kind, v.degree) for v in variables))
+
+
+def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: OpAmpModel, sizes: list[int]) -> _Fit:
+    n_var = len(sizes)
+    grid = np.indices(sizes).reshape(n_var, -1).T.astype(float)  # (P, n_var), integer points
+    values = np.column_stack([v.stamped(grid[:, j]) for j, v in enumerate(variables)])
+    system = _system_for(netlist, variables, values, opamp)
+    k = int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2)))) + 1
+    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
+    s = np.exp(1j * theta)
+    a = system.matrix(s)  # (P, k, n, n)
+    den_v = np.linalg.det(a)
+    a[..., :, system.output_index] = 0.0
+    a[..., system.layout.source_row, system.output_index] = 1.0
+    num_v = np.linalg.det(a)  # Cramer's rule: the output column replaced by the source vector
+    undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
+    den_c = (np.fft.fft(den_v, axis=1) / k * undo).real  # ascending powers of s
+    num_c = (np.fft.fft(num_v, axis=1) / k * undo).real
+    both = np.concatenate([den_c, num_c], axis=1).reshape(*sizes, 2 * k)
+    for axis, size in enumerate(sizes):  # per-axis Vandermonde: values at t = 0..d → powers
+        vinv = np.linalg.inv(np.vander(np.arange(size, dtype=float), size, increasing=True))
+        both = np.moveaxis(np.tensordot(vinv, both, axes=(1, axis)), 0, axis)
+    both = both.reshape(-1, 2 * k)
+    scale = np.max(np.abs(both))
+    if not scale > 0:
+        raise ExpansionUnavailable("the determinant vanishes identically")
+    both = np.where(np.abs(both) <= _ZERO * scale, 0.0, both)
+    keep = np.any(both != 0.0, axis=1)
+    exps = np.indices(sizes).reshape(n_var, -1).T[keep]  # (M, n_var) exponents
+    coef = both[keep]
+    den, num = coef[:, :k], coef[:, k:]
+    # Structural trimming: powers of s absent from every monomial.
+    den_pw = np.flatnonzero(np.any(den != 0, axis=0))
+    num_pw = np.flatnonzero(np.any(num != 0, axis=0))
+    if den_pw.size == 0 or num_pw.size == 0:
+        raise ExpansionUnavailable("no transfer from the input to the output")
+    low = int(min(den_pw[0], num_pw[0]))  # a common factor s^low cancels
+    den = den[:, low : den_pw[-1] + 1]
+    num = num[:, low : num_pw[-1] + 1]
+    num_powers = tuple(int(p) for p in np.flatnonzero(np.any(num != 0, axis=0)))
+    den_powers = tuple(int(p) for p in np.flatnonzero(np.any(den != 0, axis=0)))
+    return _Fit(
+        exps=exps, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers,
+        factors=[tuple((int(i), int(e)) for i, e in enumerate(row) if e) for row in exps],
+        num_slots=[(r, p, int(m)) for r, p in enumerate(num_powers) for m in np.flatnonzero(num[:, p])],
+        den_slots=[(r, p, int(m)) for r, p in enumerate(den_powers) for m in np.flatnonzero(den[:, p])],
+    )
+
+
 class Expansion:
     """The coefficients of ``N`` and ``D`` of a netlist as polynomials in its parameters.
 
@@ -151,48 +225,21 @@ class Expansion:
         sizes = [v.degree + 1 for v in self.variables]
         if math.prod(sizes) > MAX_POINTS:
             raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
-        self._fit(sizes)
-        self._verify()
+        key = _structure_key(netlist, self.variables)
+        fit = _FITS.get(key)
+        if fit is None:
+            fit = _structural_fit(netlist, self.variables, opamp, sizes)
+            self._scale(fit)
+            self._verify()  # once per structure: the integer fit does not depend on the values
+            _FITS[key] = fit
+        else:
+            self._scale(fit)
 
     # -- building -------------------------------------------------------------------------------
-    def _fit(self, sizes: list[int]) -> None:
-        n_var = len(sizes)
-        grid = np.indices(sizes).reshape(n_var, -1).T.astype(float)  # (P, n_var), integer points
-        values = np.column_stack([v.stamped(grid[:, j]) for j, v in enumerate(self.variables)])
-        system = _system_for(self.netlist, self.variables, values, self.opamp)
-        k = int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2)))) + 1
-        theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
-        s = np.exp(1j * theta)
-        a = system.matrix(s)  # (P, k, n, n)
-        den_v = np.linalg.det(a)
-        a[..., :, system.output_index] = 0.0
-        a[..., system.layout.source_row, system.output_index] = 1.0
-        num_v = np.linalg.det(a)  # Cramer's rule: the output column replaced by the source vector
-        undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
-        den_c = (np.fft.fft(den_v, axis=1) / k * undo).real  # ascending powers of s
-        num_c = (np.fft.fft(num_v, axis=1) / k * undo).real
-        both = np.concatenate([den_c, num_c], axis=1).reshape(*sizes, 2 * k)
-        for axis, size in enumerate(sizes):  # per-axis Vandermonde: values at t = 0..d → powers
-            vinv = np.linalg.inv(np.vander(np.arange(size, dtype=float), size, increasing=True))
-            both = np.moveaxis(np.tensordot(vinv, both, axes=(1, axis)), 0, axis)
-        both = both.reshape(-1, 2 * k)
-        scale = np.max(np.abs(both))
-        if not scale > 0:
-            raise ExpansionUnavailable("the determinant vanishes identically")
-        both = np.where(np.abs(both) <= _ZERO * scale, 0.0, both)
-        keep = np.any(both != 0.0, axis=1)
-        exps = np.indices(sizes).reshape(n_var, -1).T[keep]  # (M, n_var) exponents
-        coef = both[keep]
-        den, num = coef[:, :k], coef[:, k:]
-        # Structural trimming: powers of s absent from every monomial.
-        den_pw = np.flatnonzero(np.any(den != 0, axis=0))
-        num_pw = np.flatnonzero(np.any(num != 0, axis=0))
-        if den_pw.size == 0 or num_pw.size == 0:
-            raise ExpansionUnavailable("no transfer from the input to the output")
-        low = min(den_pw[0], num_pw[0])  # a common factor s^low cancels
-        den = den[:, low : den_pw[-1] + 1]
-        num = num[:, low : num_pw[-1] + 1]
-        # Scale every coefficient to the nominal values and to p = s/w_ref, in logs (no overflow).
+    def _scale(self, fit: "_Fit") -> None:
+        """Scale the structural coefficients to the nominal values and to ``p = s/w_ref``."""
+        exps, den, num, low = fit.exps, fit.den, fit.num, fit.low
+        # in logs, so that nothing overflows
         log_stamp = np.array([v.log_stamp for v in self.variables])
         base = exps @ log_stamp  # (M,)
         log_w = math.log(self.w_ref)
@@ -202,11 +249,11 @@ class Expansion:
         den = np.where(den != 0, den * np.exp(np.minimum(lden - shift, 700.0)), 0.0)
         num = np.where(num != 0, num * np.exp(np.minimum(lnum - shift, 700.0)), 0.0)
         #: Powers of p present in the numerator and denominator (ascending).
-        self.num_powers = tuple(int(p) for p in np.flatnonzero(np.any(num != 0, axis=0)))
-        self.den_powers = tuple(int(p) for p in np.flatnonzero(np.any(den != 0, axis=0)))
-        self._factors = [tuple((int(i), int(e)) for i, e in enumerate(row) if e) for row in exps]
-        self._num_terms = [(r, int(m), float(num[m, p])) for r, p in enumerate(self.num_powers) for m in np.flatnonzero(num[:, p])]
-        self._den_terms = [(r, int(m), float(den[m, p])) for r, p in enumerate(self.den_powers) for m in np.flatnonzero(den[:, p])]
+        self.num_powers = fit.num_powers
+        self.den_powers = fit.den_powers
+        self._factors = fit.factors
+        self._num_terms = [(r, m, float(num[m, p])) for r, p, m in fit.num_slots]
+        self._den_terms = [(r, m, float(den[m, p])) for r, p, m in fit.den_slots]
 
     def _verify(self) -> None:
         rng = np.random.default_rng(20260101)
