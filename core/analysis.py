@@ -15,7 +15,8 @@ from .errors import InputError
 from .figures import Figures, measure, measure_near
 from .mna import IDEAL, MnaSystem, OpAmpModel, build_system
 from .netlist import Element, Netlist
-from .rational import OpAmpFamily, Rational, rational_and_family, rational_from_system, reference_w
+from .expansion import Expansion, ExpansionUnavailable
+from .rational import OpAmpFamily, Rational, _lead_trim, rational_and_family, rational_from_system, reference_w
 from .timeresponse import StepResponse, step_response
 
 __all__ = [
@@ -411,6 +412,60 @@ class _FirstPass:
     family: OpAmpFamily | None
 
 
+# An op-amp model whose stamps are 1 (``1/A0`` and ``1/ωt``, s-units) for the expansion below.
+_UNIT_AMP = OpAmpModel(gbw_hz=1.0 / (2.0 * math.pi), a0=1.0)
+
+
+def _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref):
+    """The first pass's transfer functions from the netlist's coefficient expansion
+    (:mod:`core.expansion`, built once per circuit) instead of solves: ``(system, w_ref, h,
+    family)`` with ``system`` the nominal one, or None where the expansion does not apply (not
+    one op-amp, or a part the expansion does not carry)."""
+    if len(netlist.opamps) != 1:
+        return None
+    try:
+        exp = Expansion(netlist, _UNIT_AMP, w_ref=1.0)
+    except ExpansionUnavailable:
+        return None
+    col = {name: j for j, name in enumerate(exp.names)}
+    if any(r not in col for r in refs):
+        return None
+    ratios = np.ones((n_ideal + 1, len(exp.variables)))
+    absent = np.zeros(ratios.shape, dtype=bool)
+    absent[:n_ideal, col["gbw"]] = True  # the ideal op-amp: 1/ωt = 1/A0 = 0
+    absent[:, col["a0"]] = True
+    for j, r in enumerate(refs):
+        ratios[1 + 2 * j, col[r]] = up
+        ratios[2 + 2 * j, col[r]] = down
+    num_l, den_l = exp.coefficients(ratios, absent=absent)  # lowest power first, batch last
+    num = np.zeros((n_ideal + 1, exp.num_powers[-1] + 1))
+    den = np.zeros((n_ideal + 1, exp.den_powers[-1] + 1))
+    num[:, list(exp.num_powers)] = num_l.T
+    den[:, list(exp.den_powers)] = den_l.T  # ascending powers of s here
+    d0 = den[0]
+    nz = np.flatnonzero(d0)
+    if nz.size < 2 or not np.all(np.isfinite(den)):
+        return None
+    if w_ref is None:  # geometric mean of the finite, nonzero poles (core.rational.reference_w)
+        w_ref = float((abs(d0[nz[0]]) / abs(d0[nz[-1]])) ** (1.0 / (nz[-1] - nz[0])))
+    # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: M from the member with 1/ωt = 1
+    m_s = np.zeros(den.shape[1])
+    m_s[:-1] = (d0 - den[n_ideal])[1:]
+    to_p = w_ref ** np.arange(den.shape[1])
+    to_pn = w_ref ** np.arange(num.shape[1])
+    den_p = (den[:n_ideal] * to_p)[:, ::-1]
+    num_p = (num[:n_ideal] * to_pn)[:, ::-1]
+    scale = np.max(np.abs(den_p), axis=1, keepdims=True)
+    h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
+    s0 = scale[0, 0]
+    family = OpAmpFamily(
+        _lead_trim(num_p[:1] / s0)[0], _lead_trim(den_p[:1] / s0)[0], _lead_trim((m_s * to_p)[None, ::-1] / s0)[0],
+        float(w_ref),
+    )
+    system = build_system(netlist)
+    return system, float(w_ref), h, family
+
+
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
     """One batched solve for the ideal op-amp: the nominal circuit and its 2·P part perturbations
     (member 0 is the nominal one), their figures and the sensitivities; with one op-amp also the
@@ -426,10 +481,14 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
         col[1 + 2 * j] *= up
         col[2 + 2 * j] *= down
         over[r] = col
-    system = build_system(netlist, overrides=over or None)
-    if w_ref is None:
-        w_ref = reference_w(system)
-    h, family = rational_and_family(system, w_ref)
+    quick = _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref)
+    if quick is not None:
+        system, w_ref, h, family = quick
+    else:
+        system = build_system(netlist, overrides=over or None)
+        if w_ref is None:
+            w_ref = reference_w(system)
+        h, family = rational_and_family(system, w_ref)
     fig = measure(h)
     ly = np.log(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
     sv = (ly[:, 0::2] - ly[:, 1::2]) / (2.0 * _SENS_STEP)

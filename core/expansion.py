@@ -271,7 +271,7 @@ class Expansion:
             raise ExpansionUnavailable(f"disagrees with the solver by {err:.2g}")
 
     # -- use ----------------------------------------------------------------------------------
-    def coefficients(self, ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def coefficients(self, ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """Numerator and denominator coefficients in ``p = s/w_ref`` for a batch of values.
 
         Parameters
@@ -279,6 +279,9 @@ class Expansion:
         ratios : ndarray
             Shape ``(B, len(variables))``: each parameter's value over its nominal value (a part's
             value, the GBW, the open-loop gain).
+        absent : ndarray of bool, optional
+            Same shape: True where that parameter's stamp is zero in that member (an open
+            resistor, an infinite GBW or A0: the ideal op-amp); its ratio is then ignored.
 
         Returns
         -------
@@ -296,10 +299,14 @@ class Expansion:
         r = np.asarray(ratios, dtype=float)
         b = r.shape[0]
         q = np.array(r.T, dtype=float, order="C")  # (n_var, B)
+        if absent is not None:
+            q[np.asarray(absent).T] = 1.0
         bad = ~np.all(np.isfinite(q) & (q > 0), axis=0)
         for j, v in enumerate(self.variables):
             if v.inverse:
                 np.divide(1.0, q[j], out=q[j])
+        if absent is not None:
+            q[np.asarray(absent).T] = 0.0
         mono = np.empty((len(self._factors), b))
         for m, factors in enumerate(self._factors):
             if not factors:

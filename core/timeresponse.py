@@ -78,6 +78,15 @@ def _state_space(b: np.ndarray, a: np.ndarray, t: np.ndarray):
 _EARLY = np.geomspace(1e-3, 20.0, 200)
 
 
+def _roots(a: np.ndarray) -> np.ndarray:
+    """Roots of a monic polynomial: the quadratic formula for degree two, else numpy.roots."""
+    if a.size == 3:
+        d = np.sqrt(complex(a[1] * a[1] - 4.0 * a[2]))
+        q = -0.5 * (a[1] + (d if (np.conj(a[1]) * d).real >= 0 else -d))  # no cancellation
+        return np.array([q, a[2] / q]) if q != 0 else np.zeros(2, dtype=complex)
+    return np.roots(a)
+
+
 def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> StepResponse:
     """Unit-step response of member ``i`` of a transfer function.
 
@@ -95,7 +104,7 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
         looks at a fine grid of early times where a fast op-amp pole shapes the start.
     """
     b, a = h.to_s(i)
-    poles = np.roots(a)
+    poles = _roots(a)
     if t_s is None:
         t_s = default_time_grid(poles)
     fast = np.abs(poles[np.isfinite(poles)]).max() if poles.size else 1.0
