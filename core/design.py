@@ -28,6 +28,7 @@ parts, not from the search.
 
 from __future__ import annotations
 
+import bisect
 import functools
 import math
 from dataclasses import dataclass, field
@@ -199,6 +200,7 @@ def part_series_of(kind: str, series: str) -> str:
 
 
 _POW10 = np.array([float(f"1e{k}") for k in range(0, 309)])  # exact powers of ten (up to 1e22)
+_POW10_LIST = _POW10.tolist()
 
 
 @functools.lru_cache(maxsize=None)
@@ -234,27 +236,35 @@ def _options(x: np.ndarray, series: str, width: int) -> list[np.ndarray]:
 
 
 def _bracketed(x: np.ndarray, series: str, width: int) -> tuple[list[np.ndarray], np.ndarray]:
-    """:func:`_options` and the nearest standard value of each (log scale, ties to the lower)."""
-    codes, logm, _ = _series_table(series)
-    n = codes.size
-    lx = np.log10(x)
-    dec = np.floor(lx)
-    lo = (dec * n + np.searchsorted(logm, lx - dec, side="right") - 1).astype(np.int64)
-    for _ in range(2):  # settle rounding of the logarithm at decade edges
-        lo = lo + (_standard(lo + 1, series) <= x * (1 + 1e-9))
-        lo = lo - (_standard(lo, series) > x * (1 + 1e-9))
-    v_lo = _standard(lo, series)
-    standard = v_lo >= x * (1 - 1e-9)
-    hi = np.where(standard, lo, lo + 1)
-    v_hi = _standard(hi, series)
-    near = np.where(np.log(x / v_lo) <= np.log(v_hi / x), v_lo, v_hi)
-    idx = []  # small integer sets: plain Python is quicker than an array call per part
-    for low, high, is_std in zip(lo.tolist(), hi.tolist(), standard.tolist()):
+    """:func:`_options` and the nearest standard value of each (log scale, ties to the lower).
+
+    A handful of parts: plain Python floats and integers, quicker here than array calls; the
+    values are the same single correctly rounded steps as :func:`_standard`.
+    """
+    codes, logm, ndigits = _series_table(series)
+    codes_l, logm_l, n = codes.tolist(), logm.tolist(), codes.size
+    pow10 = _POW10_LIST
+
+    def std(k: int) -> float:
+        e = k // n - (ndigits - 1)
+        return codes_l[k % n] * pow10[e] if e >= 0 else codes_l[k % n] / pow10[-e]
+
+    options, near = [], []
+    for xv in np.asarray(x, dtype=float).tolist():
+        lx = math.log10(xv)
+        dec = math.floor(lx)
+        lo = dec * n + bisect.bisect_right(logm_l, lx - dec) - 1
+        for _ in range(2):  # settle rounding of the logarithm at decade edges
+            lo += std(lo + 1) <= xv * (1 + 1e-9)
+            lo -= std(lo) > xv * (1 + 1e-9)
+        v_lo = std(lo)
+        is_std = v_lo >= xv * (1 - 1e-9)
+        hi = lo if is_std else lo + 1
+        v_hi = std(hi)
+        near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)
         steps = range(width + 1 if is_std else width)
-        idx.append(sorted({low - k for k in steps} | {high + k for k in steps}))
-    flat = _standard(np.array([k for ks in idx for k in ks], dtype=np.int64), series)
-    ends = np.cumsum([len(ks) for ks in idx]).tolist()
-    return [flat[a:b] for a, b in zip([0] + ends[:-1], ends)], near
+        options.append(np.array([std(k) for k in sorted({lo - k for k in steps} | {hi + k for k in steps})]))
+    return options, np.array(near)
 
 
 def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
