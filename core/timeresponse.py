@@ -53,9 +53,14 @@ def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
         quotient, b = np.polydiv(b, a)
         direct = float(quotient[-1])
     r = np.polyval(b, p) / np.polyval(np.polyder(a), p)
+    # A real polynomial's complex poles come in conjugate pairs whose terms are conjugate: keep
+    # the upper one of each pair, twice its real part.
+    upper = p.imag >= 0
+    p, r = p[upper], r[upper]
+    w = np.where(p.imag > 0, 2.0, 1.0)
     e = np.exp(np.outer(t, p))
-    h = (e @ r).real
-    y = direct + ((e - 1.0) @ (r / p)).real
+    h = (e @ (w * r)).real
+    y = direct + ((e - 1.0) @ (w * r / p)).real
     return y, h
 
 
