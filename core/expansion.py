@@ -137,11 +137,24 @@ class _Fit:
     factors: list
     num_slots: list
     den_slots: list
+    exps_f: np.ndarray
 
 
 # Structural fits by netlist structure (elements, nodes, which parameters are present): the
 # integer-point determinants do not depend on the part values, so a circuit pays for them once.
 _FITS: dict[tuple, _Fit] = {}
+
+
+def _unit_netlist(netlist: Netlist) -> Netlist:
+    """The same circuit with every part at 1 (ohm, henry, farad) and a present winding resistance
+    at 1 ohm: natural frequencies near 1 rad/s, where the solver is well conditioned."""
+    from dataclasses import replace
+
+    elements = tuple(
+        e if e.kind == "opamp" else replace(e, value=1.0, series_resistance=1.0 if e.series_resistance > 0 else 0.0)
+        for e in netlist.elements
+    )
+    return replace(netlist, elements=elements)
 
 
 def _structure_key(netlist: Netlist, variables: tuple[Variable, ...]) -> tuple:
@@ -194,7 +207,25 @@ def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: Op
         factors=[tuple((int(i), int(e)) for i, e in enumerate(row) if e) for row in exps],
         num_slots=[(r, p, int(m)) for r, p in enumerate(num_powers) for m in np.flatnonzero(num[:, p])],
         den_slots=[(r, p, int(m)) for r, p in enumerate(den_powers) for m in np.flatnonzero(den[:, p])],
+        exps_f=exps.astype(float),
     )
+
+
+# Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
+# product with the term matrix; larger batches (Monte Carlo) use the loops, which stay clear of
+# BLAS threads.
+_SMALL_BATCH = 2048
+# log of a zero stamp: exp(-1e5·e) underflows to exactly 0 for every exponent e ≥ 1, while
+# 0·(-1e5) = 0 for the monomials without it.
+_LOG_ZERO = -1e5
+
+
+def _term_matrix(coef: np.ndarray, slots: list, rows: int) -> np.ndarray:
+    """(rows, M) matrix of the scaled coefficients: row = power slot, column = monomial."""
+    out = np.zeros((rows, coef.shape[0]))
+    for r, p, m in slots:
+        out[r, m] = coef[m, p]
+    return out
 
 
 class Expansion:
@@ -229,11 +260,22 @@ class Expansion:
         fit = _FITS.get(key)
         if fit is None:
             fit = _structural_fit(netlist, self.variables, opamp, sizes)
-            self._scale(fit)
-            self._verify()  # once per structure: the integer fit does not depend on the values
+            # Checked once per structure, at unit values (well conditioned for the solver it is
+            # checked against): the integer fit does not depend on the values.
+            Expansion._checked(_unit_netlist(netlist), opamp, fit, key)
             _FITS[key] = fit
-        else:
-            self._scale(fit)
+        self._scale(fit)
+
+    @classmethod
+    def _checked(cls, netlist: Netlist, opamp: OpAmpModel, fit: "_Fit", key) -> None:
+        probe = cls.__new__(cls)
+        probe.netlist, probe.opamp, probe.w_ref = netlist, opamp, 1.0
+        probe.variables = circuit_variables(netlist, opamp)
+        probe.names = tuple(v.name for v in probe.variables)
+        if _structure_key(netlist, probe.variables) != key:
+            raise ExpansionUnavailable("the unit-valued circuit has another structure")
+        probe._scale(fit)
+        probe._verify()
 
     # -- building -------------------------------------------------------------------------------
     def _scale(self, fit: "_Fit") -> None:
@@ -254,6 +296,9 @@ class Expansion:
         self._factors = fit.factors
         self._num_terms = [(r, m, float(num[m, p])) for r, p, m in fit.num_slots]
         self._den_terms = [(r, m, float(den[m, p])) for r, p, m in fit.den_slots]
+        self._exps = fit.exps_f
+        self._num_mat = _term_matrix(num, fit.num_slots, len(fit.num_powers))
+        self._den_mat = _term_matrix(den, fit.den_slots, len(fit.den_powers))
 
     def _verify(self) -> None:
         rng = np.random.default_rng(20260101)
@@ -307,6 +352,15 @@ class Expansion:
                 np.divide(1.0, q[j], out=q[j])
         if absent is not None:
             q[np.asarray(absent).T] = 0.0
+        if b <= _SMALL_BATCH:  # two small products: fewer array calls than the loops below
+            with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+                lq = np.where(q > 0, np.log(np.where(q > 0, q, 1.0)), _LOG_ZERO)
+                mono = np.exp(self._exps @ lq)  # (M, B); an absent stamp gives exactly 0
+            num, den = self._num_mat @ mono, self._den_mat @ mono
+            if bad.any():
+                num[:, bad] = np.nan
+                den[:, bad] = np.nan
+            return num, den
         mono = np.empty((len(self._factors), b))
         for m, factors in enumerate(self._factors):
             if not factors:

@@ -134,7 +134,7 @@ def measure(h: Rational, *, grid: np.ndarray | None = None) -> Figures:
 
 
 def _biquad(h: Rational):
-    """``(u_pk, u_low, u_high)`` in closed form when every member is ``b1·p / (a2·p² + a1·p + a0)``
+    """``(u_pk, u_low, u_high, bandwidth in ω/w_ref)`` in closed form when every member is ``b1·p / (a2·p² + a1·p + a0)``
     with a peak (``a0·a2 > 0``, ``a1 ≠ 0``); None otherwise.
 
     ``|H|² = b1²x² / ((a0 − a2x²)² + a1²x²)`` peaks at ``x² = a0/a2``; it is half the peak where
@@ -153,7 +153,9 @@ def _biquad(h: Rational):
     u_pk = a0 / a2
     x_high = (a1 + np.sqrt(a1 * a1 + 4.0 * a0 * a2)) / (2.0 * a2)
     x_low = u_pk / x_high
-    return u_pk, x_low * x_low, x_high * x_high
+    # x_high − x_low = |a1|/a2 exactly; at the peak H = b1·jx/(a1·jx) = b1/a1 (signed, real)
+    hc = (num[:, -2] * sign / (den[:, 1] * sign)).astype(complex)
+    return u_pk, x_low * x_low, x_high * x_high, a1 / a2, hc
 
 
 def measure_near(h: Rational, ref: Figures, *, spread: float) -> Figures:
@@ -165,6 +167,11 @@ def measure_near(h: Rational, ref: Figures, *, spread: float) -> Figures:
     reference by more than ``spread``. Cheaper than :func:`measure` by a fixed cost, for callers
     that ask "within tolerance of the reference?" and need exact figures only where it is.
     """
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        return _measure_near(h, ref, spread)
+
+
+def _measure_near(h: Rational, ref: Figures, spread: float) -> Figures:
     b = h.batch
     to_u = (2.0 * np.pi / h.w_ref) ** 2
     k2 = (1.0 + spread) ** 2
@@ -310,14 +317,17 @@ def _by_grid(pu, qu, slope, grid):
     return np.where(inner, u_pk, np.nan), u_low, u_high
 
 
-def _figures(h: Rational, u_pk, u_low, u_high) -> Figures:
+def _figures(h: Rational, u_pk, u_low, u_high, bw_x=None, hc=None) -> Figures:
+    """Figures from the peak and half-power points (in ``u``); ``bw_x``, the bandwidth in
+    ``ω/w_ref``, and ``hc``, ``H`` at the peak, where they are known without cancellation."""
     to_hz = h.w_ref / (2.0 * np.pi)
     f0 = np.sqrt(u_pk) * to_hz
     f_low = np.sqrt(u_low) * to_hz
     f_high = np.sqrt(u_high) * to_hz
-    bw = f_high - f_low
-    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        hc = h.at_f(f0[:, None])[:, 0]
+    bw = f_high - f_low if bw_x is None else bw_x * to_hz
+    if hc is None:
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            hc = h.at_f(f0[:, None])[:, 0]
     phase = np.degrees(np.angle(hc))
     phase = np.where(phase <= -180.0 + 1e-7, 180.0, phase)
     sign = np.where(np.abs(phase) > 90.0, -1.0, 1.0)
