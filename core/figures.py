@@ -198,8 +198,8 @@ _NEWTON_STEPS = (4, 40)  # steps before the first convergence test, most steps
 
 def _newton(poly: np.ndarray, x0, k2: float) -> tuple[np.ndarray, np.ndarray]:
     """Newton's method on batched polynomials from ``x0`` (``(B,)`` or broadcastable): the roots
-    and a mask of the members that converged (last step below 1e-7 relative, so that the error
-    after it is of order 1e-14) within a factor
+    and a mask of the members that converged (last step below 1e-5 relative, so that the error
+    after it is of order 1e-10) within a factor
     ``k2`` of their start. Iterates until every member has converged or left that window."""
     b = poly.shape[0]
     x0 = np.broadcast_to(np.asarray(x0, dtype=float), (b,))
@@ -213,7 +213,7 @@ def _newton(poly: np.ndarray, x0, k2: float) -> tuple[np.ndarray, np.ndarray]:
             x = x - step
             if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
                 inside = (x >= lo) & (x <= hi)
-                ok = (np.abs(step) <= 1e-7 * np.abs(x)) & inside  # quadratic: ~1e-14 after it
+                ok = (np.abs(step) <= 1e-5 * np.abs(x)) & inside  # quadratic: ~1e-10 after it
                 if not np.any(inside & ~ok):
                     break
     return x, ok
