@@ -15,12 +15,13 @@ refines each to about 1e-13 relative. Everything is vectorised over the batch.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, fields
 
 import numpy as np
 
 from .polyroots import cubic_roots, quadratic_roots
-from .rational import Rational, polyder_batch, polymul_batch, polyval_batch
+from .rational import Rational, polyder_batch, polyval_batch
 
 __all__ = ["Figures", "measure", "measure_near"]
 
@@ -65,16 +66,48 @@ class Figures:
         return np.isfinite(self.q) & np.isfinite(self.f0_hz) & np.isfinite(self.gain_center_db)
 
 
-def _even_part_u(c: np.ndarray) -> np.ndarray:
-    """Polynomial in ``u`` equal to ``|c(jx)|²`` at ``u = x²`` (highest power first)."""
+@functools.lru_cache(maxsize=None)
+def _sq_mag_matrix(k: int) -> np.ndarray:
+    """(k·k, k) matrix taking the outer product of ``c`` (highest power first) to the coefficients
+    in ``u`` (highest first) of ``|c(jx)|²`` at ``u = x²``: ``c_i c_j j^{e_i} (−j)^{e_j} x^{e_i+e_j}``."""
+    e = np.arange(k - 1, -1, -1)
+    out = np.zeros((k, k, k))
+    for i in range(k):
+        for j in range(k):
+            if (e[i] + e[j]) % 2 == 0:
+                w = (1j ** e[i] * (-1j) ** e[j]).real
+                out[i, j, k - 1 - (e[i] + e[j]) // 2] = round(w)
+    return out.reshape(k * k, k)
+
+
+@functools.lru_cache(maxsize=None)
+def _slope_matrix(m: int, n: int) -> np.ndarray:
+    """(m·n, m+n−2) matrix taking the outer product of ``P`` and ``Q`` (in ``u``, highest first)
+    to ``P'Q − PQ'``: the term ``p_a q_b`` lands at power ``a+b−1`` with weight ``a − b``."""
+    a = np.arange(m - 1, -1, -1)
+    b = np.arange(n - 1, -1, -1)
+    deg = m + n - 3  # highest power of the result
+    out = np.zeros((m, n, max(deg + 1, 1)))
+    for i in range(m):
+        for j in range(n):
+            p = a[i] + b[j] - 1
+            if p >= 0 and a[i] != b[j]:
+                out[i, j, deg - p] = a[i] - b[j]
+    return out.reshape(m * n, -1)
+
+
+def _sq_mag_u(c: np.ndarray) -> np.ndarray:
+    """Polynomial in ``u`` equal to ``|c(jx)|²`` at ``u = x²`` (highest power first): one product."""
     k = c.shape[1]
-    powers = np.arange(k - 1, -1, -1)
-    c_neg = c * np.where(powers % 2 == 1, -1.0, 1.0)
-    m = polymul_batch(c, c_neg)  # even polynomial in p, degree 2(k−1)
-    deg = m.shape[1] - 1
-    even = m[:, ::2]  # powers deg, deg−2, …, 0 (deg is even)
-    kpow = np.arange(deg // 2, -1, -1)
-    return even * np.where(kpow % 2 == 1, -1.0, 1.0)  # p^{2k} = (−u)^k
+    return (c[:, :, None] * c[:, None, :]).reshape(c.shape[0], k * k) @ _sq_mag_matrix(k)
+
+
+def _slope_u(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
+    """``P'Q − PQ'`` (the numerator of d|H|²/du), highest power first: one product."""
+    m, n = pu.shape[1], qu.shape[1]
+    if m + n < 3:
+        return np.zeros((pu.shape[0], 1))
+    return (pu[:, :, None] * qu[:, None, :]).reshape(pu.shape[0], m * n) @ _slope_matrix(m, n)
 
 
 def _root(poly: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
@@ -123,9 +156,9 @@ def measure(h: Rational, *, grid: np.ndarray | None = None) -> Figures:
     quick = _biquad(h)
     if quick is not None:
         return _figures(h, *quick)
-    pu = _even_part_u(h.num)
-    qu = _even_part_u(h.den)
-    slope = _poly_sub(polymul_batch(polyder_batch(pu), qu), polymul_batch(pu, polyder_batch(qu)))
+    pu = _sq_mag_u(h.num)
+    qu = _sq_mag_u(h.den)
+    slope = _slope_u(pu, qu)
     if grid is None:
         u_pk, u_low, u_high = _by_roots(pu, qu, slope)
     else:
@@ -175,9 +208,9 @@ def _measure_near(h: Rational, ref: Figures, spread: float) -> Figures:
     b = h.batch
     to_u = (2.0 * np.pi / h.w_ref) ** 2
     k2 = (1.0 + spread) ** 2
-    pu = _even_part_u(h.num)
-    qu = _even_part_u(h.den)
-    slope = _poly_sub(polymul_batch(polyder_batch(pu), qu), polymul_batch(pu, polyder_batch(qu)))
+    pu = _sq_mag_u(h.num)
+    qu = _sq_mag_u(h.den)
+    slope = _slope_u(pu, qu)
     u0 = float(np.asarray(ref.f0_hz).reshape(-1)[0]) ** 2 * to_u
     u_pk, ok = _newton(slope, u0, k2)
     half = _poly_sub(pu, qu * (0.5 * _ratio(pu, qu, u_pk))[:, None])
