@@ -15,7 +15,7 @@ from .errors import InputError
 from .figures import Figures, measure, measure_near
 from .mna import IDEAL, MnaSystem, OpAmpModel, build_system
 from .netlist import Element, Netlist
-from .expansion import Expansion, ExpansionUnavailable
+from .expansion import ExpansionUnavailable, unit_expansion
 from .rational import OpAmpFamily, Rational, _lead_trim, rational_and_family, rational_from_system, reference_w
 from .timeresponse import StepResponse, step_response
 
@@ -424,19 +424,20 @@ def _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref):
     if len(netlist.opamps) != 1:
         return None
     try:
-        exp = Expansion(netlist, _UNIT_AMP, w_ref=1.0)
+        exp, variables = unit_expansion(netlist, _UNIT_AMP)
     except ExpansionUnavailable:
         return None
     col = {name: j for j, name in enumerate(exp.names)}
     if any(r not in col for r in refs):
         return None
-    ratios = np.ones((n_ideal + 1, len(exp.variables)))
+    # unit nominal values: the ratios are the values (the op-amp's are 1: stamps of 1)
+    ratios = np.tile(np.array([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal + 1, 1))
     absent = np.zeros(ratios.shape, dtype=bool)
     absent[:n_ideal, col["gbw"]] = True  # the ideal op-amp: 1/ωt = 1/A0 = 0
     absent[:, col["a0"]] = True
     for j, r in enumerate(refs):
-        ratios[1 + 2 * j, col[r]] = up
-        ratios[2 + 2 * j, col[r]] = down
+        ratios[1 + 2 * j, col[r]] *= up
+        ratios[2 + 2 * j, col[r]] *= down
     num_l, den_l = exp.coefficients(ratios, absent=absent)  # lowest power first, batch last
     num = np.zeros((n_ideal + 1, exp.num_powers[-1] + 1))
     den = np.zeros((n_ideal + 1, exp.den_powers[-1] + 1))

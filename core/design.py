@@ -41,7 +41,7 @@ from .candidate import Candidate, Conditions
 from .circuits import get_topology
 from .errors import InputError
 from .eseries import SERIES_NAMES, in_series, mantissas
-from .expansion import Expansion, ExpansionUnavailable
+from .expansion import ExpansionUnavailable, unit_expansion
 from .figures import Figures, measure
 from .inductor import inductor_q_needed, inductor_q_warning
 from .synthesis import MADE, PRACTICAL, Infeasible, Spec, hurwitz_stable, search_grid
@@ -274,15 +274,14 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
     when it applies, else one batched solve.
     """
     try:
-        exp = Expansion(netlist, w_ref=w_ref)
+        exp, variables = unit_expansion(netlist)
     except ExpansionUnavailable:
         return transfer_function(netlist, overrides=over, w_ref=w_ref)
     size = len(next(iter(over.values())))
-    ratios = np.ones((size, len(exp.variables)))
-    for j, v in enumerate(exp.variables):
-        if v.name in over:
-            ratios[:, j] = over[v.name] / v.value
-    return exp.rational(ratios)
+    ratios = np.empty((size, len(exp.variables)))
+    for j, (v, unit) in enumerate(zip(variables, exp.variables)):
+        ratios[:, j] = (over[v.name] if v.name in over else v.value) / unit.value
+    return exp.rational(ratios, w_ref=w_ref)
 
 
 def choose_standard(

@@ -29,7 +29,7 @@ from .mna import IDEAL, OpAmpModel, build_system
 from .netlist import Netlist
 from .rational import Rational, rational_from_system
 
-__all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "MAX_POINTS"]
+__all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "MAX_POINTS"]
 
 # Largest number of integer points the expansion evaluates (2^14 for 14 one-degree parameters).
 MAX_POINTS = 1 << 14
@@ -380,13 +380,15 @@ class Expansion:
             den[:, bad] = np.nan
         return num, den
 
-    def rational(self, ratios: np.ndarray) -> Rational:
+    def rational(self, ratios: np.ndarray, *, w_ref: float | None = None) -> Rational:
         """Transfer functions for a batch of values given as ratios to the nominal ones.
 
         Parameters
         ----------
         ratios : ndarray
             Shape ``(B, len(variables))``, as :meth:`coefficients` takes.
+        w_ref : float, optional
+            Normalise to ``p = s/w_ref`` (rad/s) instead of the expansion's own ``w_ref``.
 
         Returns
         -------
@@ -395,6 +397,12 @@ class Expansion:
             largest denominator coefficient is ±1.
         """
         num_c, den_c = self.coefficients(ratios)
+        if w_ref is not None and w_ref != self.w_ref:
+            k = w_ref / self.w_ref  # c·(s/w_e)^n = c·k^n·(s/w_ref)^n
+            num_c = num_c * (k ** np.array(self.num_powers, dtype=float))[:, None]
+            den_c = den_c * (k ** np.array(self.den_powers, dtype=float))[:, None]
+        else:
+            w_ref = self.w_ref
         b = num_c.shape[1]
         num = np.zeros((b, self.num_powers[-1] + 1))
         den = np.zeros((b, self.den_powers[-1] + 1))
@@ -402,9 +410,29 @@ class Expansion:
         den[:, [den.shape[1] - 1 - p for p in self.den_powers]] = den_c.T
         with np.errstate(invalid="ignore", divide="ignore"):
             scale = np.max(np.abs(den), axis=1, keepdims=True)
-            return Rational(num / scale, den / scale, np.full(b, self.w_ref))
+            return Rational(num / scale, den / scale, np.full(b, float(w_ref)))
 
     @property
     def pure_bandpass(self) -> bool:
         """True when every member is ``b1·p / (a2·p² + a1·p + a0)``, a second-order band-pass."""
         return self.num_powers == (1,) and self.den_powers == (0, 1, 2)
+
+
+_UNIT: dict[tuple, "Expansion"] = {}
+
+
+def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Expansion, tuple[Variable, ...]]:
+    """The expansion of this circuit's structure at unit values (1 Ω, 1 H, 1 F, and ``opamp``'s
+    GBW and A0) and ``w_ref = 1`` rad/s, kept per structure; and ``netlist``'s own variables.
+
+    Its ratios are then the values themselves (over ``opamp``'s for the op-amp variables), so one
+    expansion serves every set of values of a circuit without rescaling. Raises
+    :class:`ExpansionUnavailable` as :class:`Expansion` does.
+    """
+    variables = circuit_variables(netlist, opamp)
+    key = (_structure_key(netlist, variables), opamp)
+    exp = _UNIT.get(key)
+    if exp is None:
+        exp = Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)
+        _UNIT[key] = exp
+    return exp, variables
