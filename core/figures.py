@@ -46,11 +46,11 @@ class Figures:
 
     def take(self, index) -> "Figures":
         """A sub-batch (a slice or index array), as arrays."""
-        return Figures(**{f.name: np.asarray(getattr(self, f.name))[index] for f in fields(self)})
+        return Figures(*[np.asarray(getattr(self, name))[index] for name in _FIELDS])
 
     def item(self, i: int = 0) -> "Figures":
         """Member ``i`` as scalars (floats)."""
-        return Figures(**{f.name: float(np.asarray(getattr(self, f.name)).reshape(-1)[i]) for f in fields(self)})
+        return Figures(*[float(np.asarray(getattr(self, name)).reshape(-1)[i]) for name in _FIELDS])
 
     def to_json(self, i: int = 0) -> dict:
         """CONTRACT.md's FIGURES object for member ``i`` (None where a figure is undefined)."""
@@ -64,6 +64,9 @@ class Figures:
     def valid(self) -> np.ndarray:
         """True where every figure is defined."""
         return np.isfinite(self.q) & np.isfinite(self.f0_hz) & np.isfinite(self.gain_center_db)
+
+
+_FIELDS = tuple(f.name for f in fields(Figures))
 
 
 @functools.lru_cache(maxsize=None)
@@ -235,7 +238,9 @@ def _newton(poly: np.ndarray, x0, k2: float) -> tuple[np.ndarray, np.ndarray]:
     after it is of order 1e-10) within a factor
     ``k2`` of their start. Iterates until every member has converged or left that window."""
     b = poly.shape[0]
-    x0 = np.broadcast_to(np.asarray(x0, dtype=float), (b,))
+    x0 = np.asarray(x0, dtype=float)
+    if x0.shape != (b,):
+        x0 = np.broadcast_to(x0, (b,))
     lo, hi = x0 / k2, x0 * k2
     dpoly = polyder_batch(poly)
     x = x0

@@ -154,7 +154,9 @@ def _degree_bound(system: MnaSystem) -> int:
 
 def _lead_trim(c: np.ndarray) -> np.ndarray:
     """Drop leading columns that are zero in every row (keeps at least one column)."""
-    nz = np.flatnonzero(np.any(c != 0, axis=0))
+    if c.shape[1] < 2 or c[:, 0].any():
+        return c
+    nz = np.flatnonzero((c != 0).any(axis=0))
     return c[:, nz[0] :] if nz.size else c[:, -1:]
 
 
@@ -206,7 +208,8 @@ class OpAmpFamily:
     def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
         """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s)."""
         gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
-        alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
+        alpha = 1.0 / np.asarray(a0, dtype=float)
+        alpha = alpha[:, None] if alpha.ndim else alpha
         beta = self.w_ref / (2.0 * np.pi * gbw)
         n = max(self.d0.size, self.cofactor.size + 1)
         d0 = np.zeros(n)
@@ -215,10 +218,9 @@ class OpAmpFamily:
         m[n - self.cofactor.size :] = self.cofactor
         mp = np.zeros(n)  # M(p)·p
         mp[n - self.cofactor.size - 1 : n - 1] = self.cofactor
-        den = d0[None, :] - alpha[:, None] * m[None, :] - beta[:, None] * mp[None, :]
+        den = d0[None, :] - alpha * m[None, :] - beta[:, None] * mp[None, :]
         scale = np.max(np.abs(den), axis=1, keepdims=True)
-        num = np.broadcast_to(self.num, (gbw.size, self.num.size))
-        return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
+        return Rational(self.num[None, :] / scale, den / scale, np.full(gbw.size, self.w_ref))
 
 
 def rational_and_family(system: MnaSystem, w_ref: float) -> tuple[Rational, OpAmpFamily | None]:
