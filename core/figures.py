@@ -220,7 +220,7 @@ def _measure_near(h: Rational, ref: Figures, spread: float) -> Figures:
     ul = float(np.asarray(ref.f_low_hz).reshape(-1)[0]) ** 2 * to_u
     uh = float(np.asarray(ref.f_high_hz).reshape(-1)[0]) ** 2 * to_u
     shift = u_pk / u0  # the band edges start where the moved peak carries them
-    both, ok2 = _newton(np.concatenate([half, half]), np.concatenate([ul * shift, uh * shift]), k2)
+    both, ok2 = _newton(np.concatenate([half, half]), np.concatenate([ul * shift, uh * shift]), k2, first=5)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
     nan = np.nan
     u_pk = np.where(ok, u_pk, nan)
@@ -229,14 +229,15 @@ def _measure_near(h: Rational, ref: Figures, spread: float) -> Figures:
     return _figures(h, u_pk, u_low, u_high)
 
 
-_NEWTON_STEPS = (4, 40)  # steps before the first convergence test, most steps
+_NEWTON_MOST = 40
 
 
-def _newton(poly: np.ndarray, x0, k2: float) -> tuple[np.ndarray, np.ndarray]:
+def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndarray, np.ndarray]:
     """Newton's method on batched polynomials from ``x0`` (``(B,)`` or broadcastable): the roots
     and a mask of the members that converged (last step below 1e-5 relative, so that the error
     after it is of order 1e-10) within a factor
-    ``k2`` of their start. Iterates until every member has converged or left that window."""
+    ``k2`` of their start. Iterates until every member has converged or left that window, testing
+    that after ``first`` steps and then every other step (a test costs about a step)."""
     b = poly.shape[0]
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
@@ -244,7 +245,7 @@ def _newton(poly: np.ndarray, x0, k2: float) -> tuple[np.ndarray, np.ndarray]:
     lo, hi = x0 / k2, x0 * k2
     dpoly = polyder_batch(poly)
     x = x0
-    first, most = _NEWTON_STEPS
+    most = _NEWTON_MOST
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         for n in range(1, most + 1):
             step = polyval_batch(poly, x) / polyval_batch(dpoly, x)

@@ -111,10 +111,14 @@ def _normalised(spec: Spec, k, r):
 
 
 def _spread(x1, x2, x3):
-    xs = np.stack(np.broadcast_arrays(x1, x2, x3))
+    lo = np.minimum(np.minimum(x1, x2), x3)
     with np.errstate(invalid="ignore", divide="ignore"):
-        out = xs.max(axis=0) / xs.min(axis=0)
-    return np.where(xs.min(axis=0) > 0, out, np.inf)
+        out = np.maximum(np.maximum(x1, x2), x3) / lo
+    return np.where(lo > 0, out, np.inf)
+
+
+_KM1_GRID = np.geomspace(_K_MIN - 1.0, _K_MAX - 1.0, 160)  # K − 1, logarithmic
+_UNIT_41 = np.linspace(0.0, 1.0, 41)
 
 
 def best_gain_k(spec: Spec, r: float = 1.0) -> float:
@@ -123,7 +127,7 @@ def best_gain_k(spec: Spec, r: float = 1.0) -> float:
         k_eq = 4.0 - math.sqrt(2.0) / spec.q
         if k_eq > 1.0 and float(_spread(*_normalised(spec, k_eq, r))) <= 1.0 + 1e-12:
             return k_eq  # the equal-resistor design meets this gain exactly
-    km1 = np.geomspace(_K_MIN - 1.0, _K_MAX - 1.0, 160)
+    km1 = _KM1_GRID
     sp = _spread(*_normalised(spec, 1.0 + km1, r))
     i = int(np.argmin(sp))
     if not np.isfinite(sp[i]):
@@ -131,7 +135,8 @@ def best_gain_k(spec: Spec, r: float = 1.0) -> float:
     # Refine between the grid neighbours twice (the spread is smooth there but for its kink at
     # the optimum); any K meets the target exactly, so this only tidies the choice.
     for _ in range(2):
-        fine = np.geomspace(km1[max(i - 1, 0)], km1[min(i + 1, km1.size - 1)], 41)
+        lo, hi = km1[max(i - 1, 0)], km1[min(i + 1, km1.size - 1)]
+        fine = lo * (hi / lo) ** _UNIT_41
         sp_fine = _spread(*_normalised(spec, 1.0 + fine, r))
         km1, i = fine, int(np.argmin(sp_fine))
     return 1.0 + float(km1[i])
