@@ -11,11 +11,11 @@ Every part that is neither pinned nor an inductor's winding resistance is offere
 values up to ``width`` steps of the series below and above its exact value (by default one step:
 the two standard values that bracket it, or — for a value already standard, such as the capacitor
 level a design procedure chose — itself and its two neighbours). Inductors are taken from E12
-when E24 is asked (:func:`part_series_of`). All combinations are analysed in one batched solve
-(:func:`core.analysis.transfer_function` with override arrays, measured by
-:func:`core.figures.measure` — by exact roots, or on a grid around the target for very large
-batches), and the combination with the least
-weighted error wins:
+when E24 is asked (:func:`part_series_of`). All combinations are analysed in one batch (through
+the circuit's coefficient expansion, :mod:`core.expansion`, or one batched solve where it does not
+apply; measured by :func:`core.figures.measure` — in closed form for second-order band-passes, by
+exact roots otherwise, or on a grid around the target for very large batches), and the
+combination with the least weighted error wins:
 
     E = √((Δf0/f0 / tol_f0)² + (ΔQ/Q / tol_q)² + (Δgain_dB / tol_gain_db)²),
 

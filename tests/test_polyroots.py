@@ -1,0 +1,75 @@
+"""Closed-form roots and the fast figure paths, checked against general-purpose references."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose
+
+from core.analysis import _first_pass, _ladder
+from core.circuits import get_topology
+from core.figures import measure, measure_near
+from core.polyroots import cubic_roots, quadratic_roots
+
+
+def _real_sorted(roots):
+    return np.sort(roots[np.isfinite(roots)])
+
+
+def test_cubic_roots_match_numpy_roots_across_scales():
+    # numpy.roots (companion-matrix eigenvalues, a general-purpose reference) on cubics whose roots
+    # spread over twenty decades: the closed form must keep the small roots beside a large one.
+    rng = np.random.default_rng(3)
+    for _ in range(300):
+        true = rng.normal(size=3) * 10 ** rng.uniform(-10, 10, size=3)
+        c = np.poly(true)[None, :] * rng.uniform(0.5, 2.0)
+        got, bad = cubic_roots(c)
+        assert not bad[0]
+        assert_allclose(_real_sorted(got[0]), np.sort(true), rtol=1e-12)
+
+
+def test_cubic_with_one_real_root_beside_a_large_complex_pair():
+    # The reversed-polynomial branch: a real root at 1 and a pair of modulus 1e9.
+    pair = 1e9 * np.exp(1j * np.array([2.0, -2.0]))
+    c = np.poly(np.concatenate([[1.0], pair])).real[None, :]
+    got, _ = cubic_roots(c)
+    assert_allclose(_real_sorted(got[0]), [1.0], rtol=1e-13)
+
+
+def test_quadratic_roots_real_and_complex():
+    got, bad = quadratic_roots(np.array([[1.0, -3.0, 2.0], [1.0, 0.0, 1.0], [2.0, -4.0, 2.0]]))
+    assert not bad.any()
+    assert_allclose(np.sort(got[0]), [1.0, 2.0])
+    assert np.all(np.isnan(got[1]))  # u² + 1: a complex pair
+    assert_allclose(got[2], [1.0, 1.0])  # a double root counts as real
+
+
+@pytest.mark.parametrize("topology_id", ["rlc-tank", "mfb", "sallen-key"])
+def test_measure_near_equals_the_exact_figures_where_it_measures(topology_id):
+    # The Newton-from-the-ideal path against the exact-root path on a GBW ladder: where it gives
+    # figures they agree to 1e-8, and the members it leaves out are far outside the default
+    # tolerances (f0 ±1 %, Q ±5 %; its window of 14 % is made for them), so NaN never turns a
+    # pass into a fail.
+    topo = get_topology(topology_id)
+    nl = topo.netlist(dict(topo.example))
+    first = _first_pass(nl, None)
+    ladder = _ladder(first.ideal.item().f0_hz)
+    h = first.family.at(ladder, 1e5)
+    exact, near = measure(h), measure_near(h, first.ideal, spread=0.14)
+    got = np.isfinite(near.q)
+    assert got.sum() >= 30
+    for name in ("f0_hz", "q", "gain_center", "f_low_hz", "f_high_hz"):
+        assert_allclose(getattr(near, name)[got], getattr(exact, name)[got], rtol=1e-8)
+    ref = first.ideal.item()
+    worst = np.maximum(np.abs(exact.f0_hz[~got] / ref.f0_hz - 1.0) / 0.01, np.abs(exact.q[~got] / ref.q - 1.0) / 0.05)
+    assert np.all(~np.isfinite(worst) | (worst > 2.0))
+
+
+def test_biquad_closed_form_at_a_very_high_q():
+    # Facts of the trade (common practice, no source): a parallel tank has f0 = 1/(2π√(LC)) and,
+    # across R2, Q = R2·√(C/L). At Q ≈ 3e10 the closed form still gives both to 1e-12.
+    topo = get_topology("rlc-tank")
+    v = {"R1": 1.0, "R2": 1.0, "L": 1e-15, "C": 1e6}
+    fig = measure(_first_pass(topo.netlist(v), None).h_ideal).item()
+    assert fig.f0_hz == pytest.approx(1.0 / (2 * np.pi * np.sqrt(1e-15 * 1e6)), rel=1e-12)
+    assert fig.q == pytest.approx(1.0 * np.sqrt(1e6 / 1e-15), rel=1e-12)
