@@ -210,17 +210,21 @@ def _ladder(f_hz: float) -> np.ndarray:
     return f_hz * np.logspace(*_LADDER_DECADES, _LADDER_POINTS)
 
 
+def _with_gbw(netlist: Netlist, family: OpAmpFamily | None, w_ref: float, gbw: np.ndarray, a0: float) -> Rational:
+    """Transfer functions with single-pole op-amps of these GBWs (Hz): through the op-amp family
+    when there is one, else a batched solve."""
+    if family is not None:
+        return family.at(gbw, a0)
+    return transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
+
+
 def _gbw_figures(
     netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float,
     gbw: np.ndarray, a0: float, tolerances: Tolerances,
 ) -> Figures:
     """Figures along GBW values (Hz), sought near the ideal ones (:func:`core.figures.measure_near`):
-    a member farther off than about twice the tolerances fails whatever its exact figures are.
-    Through the op-amp family when there is one, else a batched solve."""
-    if family is not None:
-        h = family.at(gbw, a0)
-    else:
-        h = transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
+    a member farther off than about twice the tolerances fails whatever its exact figures are."""
+    h = _with_gbw(netlist, family, w_ref, gbw, a0)
     return measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
 
 
@@ -297,11 +301,7 @@ def _conclude_gbw(
     ref = ideal.item()
     ok = within_tolerances(on_ladder, ref, tolerances)
     if not ok[-1]:
-        top_gbw = ladder[-1:]
-        if family is not None:
-            top = measure(family.at(top_gbw, a0)).item()
-        else:
-            top = measure(transfer_function(netlist, gbw_hz=top_gbw, a0=np.full(1, a0), w_ref=w_ref)).item()
+        top = measure(_with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
         return None, (
             f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {ladder[-1]:.3g} Hz "
             f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
@@ -349,7 +349,7 @@ def _opamp_output_current(
 ) -> float:
     """Peak op-amp output current (A) per volt of input at ``f_hz``, ideal op-amp, optional load.
 
-    ``system`` is the netlist's ideal-op-amp system (its member 0 is used) when already built."""
+    ``system`` is the netlist's ideal-op-amp system (batch of one) when already built."""
     if rload_ohm is not None:
         netlist = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
         system = None
@@ -406,7 +406,7 @@ _SENS_STEP = 1e-4
 
 @dataclass(frozen=True, slots=True)
 class _FirstPass:
-    system: MnaSystem
+    system: MnaSystem  # the nominal circuit's, ideal op-amp (batch of one)
     w_ref: float
     h_ideal: Rational
     ideal: Figures
@@ -470,28 +470,30 @@ def _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref):
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
-    """One batched solve for the ideal op-amp: the nominal circuit and its 2·P part perturbations
-    (member 0 is the nominal one), their figures and the sensitivities; with one op-amp also the
-    :class:`OpAmpFamily` of the nominal circuit. ``w_ref`` defaults to the nominal circuit's
+    """One batch for the ideal op-amp: the nominal circuit and its 2·P part perturbations (member 0
+    is the nominal one), their figures and the sensitivities; with one op-amp also the
+    :class:`OpAmpFamily` of the nominal circuit. From the coefficient expansion where it applies,
+    else one batched solve. ``w_ref`` defaults to the nominal circuit's
     :func:`~core.rational.reference_w`."""
     values = dict(parts if parts is not None else netlist.values())
     refs = [r for r, v in values.items() if v > 0]
     n_ideal = 1 + 2 * len(refs)
-    over = {}
     up, down = math.exp(_SENS_STEP), math.exp(-_SENS_STEP)
-    for j, r in enumerate(refs):
-        col = np.full(n_ideal, values[r])
-        col[1 + 2 * j] *= up
-        col[2 + 2 * j] *= down
-        over[r] = col
     quick = _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref)
     if quick is not None:
         system, w_ref, h, family = quick
     else:
-        system = build_system(netlist, overrides=over or None)
+        over = {}
+        for j, r in enumerate(refs):
+            col = np.full(n_ideal, values[r])
+            col[1 + 2 * j] *= up
+            col[2 + 2 * j] *= down
+            over[r] = col
+        batch = build_system(netlist, overrides=over or None)
         if w_ref is None:
-            w_ref = reference_w(system)
-        h, family = rational_and_family(system, w_ref)
+            w_ref = reference_w(batch)
+        h, family = rational_and_family(batch, w_ref)
+        system = MnaSystem(batch.G[:1], batch.C[:1], batch.layout, batch.output_index)
     fig = measure(h)
     ly = np.log(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
     sv = (ly[:, 0::2] - ly[:, 1::2]) / (2.0 * _SENS_STEP)
@@ -557,17 +559,13 @@ def analyze(
     gbw_search, actual = _search_gbw(netlist, ideal, first.family, w_ref, a0=a0, tolerances=tolerances, probe=probe)
     h_actual = None
     if finite:
-        if first.family is not None:
-            h_actual = first.family.at(np.array([opamp.gbw_hz]), opamp.a0).item(0)
-        else:
-            h_actual = transfer_function(netlist, opamp, w_ref=w_ref)
+        h_actual = _with_gbw(netlist, first.family, w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
         if actual is None or not bool(actual.valid[0]):  # far from the ideal: measured exactly
             actual = measure(h_actual)
     step = step_response(h_ideal)
-    nominal = MnaSystem(first.system.G[:1], first.system.C[:1], first.system.layout, first.system.output_index)
     req = requirements(
         netlist, ideal, step, vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
-        gbw_search=gbw_search, system=nominal,
+        gbw_search=gbw_search, system=first.system,
     )
     return Analysis(
         netlist=netlist,

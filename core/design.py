@@ -28,7 +28,6 @@ parts, not from the search.
 
 from __future__ import annotations
 
-import bisect
 import functools
 import math
 from dataclasses import dataclass, field
@@ -40,7 +39,7 @@ from .analysis import Analysis, Tolerances, transfer_function
 from .candidate import Candidate, Conditions
 from .circuits import get_topology
 from .errors import InputError
-from .eseries import SERIES_NAMES, in_series, mantissas
+from .eseries import SERIES_NAMES, in_series, search_options
 from .expansion import ExpansionUnavailable, unit_expansion
 from .figures import Figures, measure
 from .inductor import inductor_q_needed, inductor_q_warning
@@ -199,72 +198,10 @@ def part_series_of(kind: str, series: str) -> str:
     return "E12" if kind == "L" and series == "E24" else series
 
 
-_POW10 = np.array([float(f"1e{k}") for k in range(0, 309)])  # exact powers of ten (up to 1e22)
-_POW10_LIST = _POW10.tolist()
-
-
-@functools.lru_cache(maxsize=None)
-def _series_table(series: str) -> tuple[np.ndarray, np.ndarray, int]:
-    """Integer codes of one decade, their log10 in [0, 1), and the code digits (2 or 3)."""
-    m = np.array(mantissas(series))
-    ndigits = 2 if series in ("E3", "E6", "E12", "E24") else 3
-    codes = np.round(m * 10 ** (ndigits - 1))
-    return codes, np.log10(m), ndigits
-
-
-def _standard(k: np.ndarray, series: str) -> np.ndarray:
-    """Standard value number ``k`` (through all decades): its code times an exact power of ten.
-
-    The same single correctly rounded step as :mod:`core.eseries`, so 4.7e3 is exactly 4700.0.
-    """
-    codes, _, ndigits = _series_table(series)
-    n = codes.size
-    e = k // n - (ndigits - 1)
-    code = codes[k % n]
-    return np.where(e >= 0, code * _POW10[np.clip(e, 0, 308)], code / _POW10[np.clip(-e, 0, 308)])
-
-
 def _options(x: np.ndarray, series: str, width: int) -> list[np.ndarray]:
-    """For each value, the standard values up to ``width`` steps of the series below and above it.
-
-    A value between two standard values is offered the ``width`` values at or below it and the
-    ``width`` at or above it (:func:`core.eseries.candidates` with ``count=width``); a value that
-    is itself standard (within 1e-9) is offered itself and its ``width`` neighbours each side
-    (``count=width + 1``). Found for all parts at once.
-    """
-    return _bracketed(x, series, width)[0]
-
-
-def _bracketed(x: np.ndarray, series: str, width: int) -> tuple[list[np.ndarray], np.ndarray]:
-    """:func:`_options` and the nearest standard value of each (log scale, ties to the lower).
-
-    A handful of parts: plain Python floats and integers, quicker here than array calls; the
-    values are the same single correctly rounded steps as :func:`_standard`.
-    """
-    codes, logm, ndigits = _series_table(series)
-    codes_l, logm_l, n = codes.tolist(), logm.tolist(), codes.size
-    pow10 = _POW10_LIST
-
-    def std(k: int) -> float:
-        e = k // n - (ndigits - 1)
-        return codes_l[k % n] * pow10[e] if e >= 0 else codes_l[k % n] / pow10[-e]
-
-    options, near = [], []
-    for xv in np.asarray(x, dtype=float).tolist():
-        lx = math.log10(xv)
-        dec = math.floor(lx)
-        lo = dec * n + bisect.bisect_right(logm_l, lx - dec) - 1
-        for _ in range(2):  # settle rounding of the logarithm at decade edges
-            lo += std(lo + 1) <= xv * (1 + 1e-9)
-            lo -= std(lo) > xv * (1 + 1e-9)
-        v_lo = std(lo)
-        is_std = v_lo >= xv * (1 - 1e-9)
-        hi = lo if is_std else lo + 1
-        v_hi = std(hi)
-        near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)
-        steps = range(width + 1 if is_std else width)
-        options.append(np.array([std(k) for k in sorted({lo - k for k in steps} | {hi + k for k in steps})]))
-    return options, np.array(near)
+    """For each value, the standard values up to ``width`` steps of the series below and above it
+    (:func:`core.eseries.search_options`)."""
+    return search_options(x, series, width)[0]
 
 
 def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
@@ -311,7 +248,7 @@ def choose_standard(
     rounded = np.empty(len(free))
     for ps in set(part_series):
         idx = [i for i, p in enumerate(part_series) if p == ps]
-        opts, near = _bracketed(x[idx], ps, width)
+        opts, near = search_options(x[idx], ps, width)
         for i, o in zip(idx, opts):
             options[i] = o
         rounded[idx] = near

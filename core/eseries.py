@@ -17,6 +17,9 @@ Table 2 (E48–E192).
 
 from __future__ import annotations
 
+import bisect
+import math
+
 import numpy as np
 
 from core.errors import InputError
@@ -28,6 +31,7 @@ __all__ = [
     "nearest_array",
     "neighbours",
     "candidates",
+    "search_options",
     "values_between",
     "in_series",
     "usual_tolerance",
@@ -227,6 +231,53 @@ def candidates(x: float, series: str, *, count: int = 2) -> tuple[float, ...]:
     index = np.unique(np.concatenate([np.arange(lo - count + 1, lo + 1),
                                       np.arange(hi, hi + count)]))
     return tuple(float(v) for v in _value(index, codes, ndigits))
+
+
+_POW10_LIST = _POW10.tolist()
+
+
+def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.ndarray]:
+    """For a few values at once: the standard values a combination search offers each, and each
+    one's nearest standard value.
+
+    A value between two standard values is offered the ``width`` values at or below it and the
+    ``width`` at or above it (:func:`candidates` with ``count=width``); a value that is itself
+    standard is offered itself and its ``width`` neighbours each side (``count=width + 1``). The
+    nearest is :func:`nearest_array`'s. Plain Python numbers inside: for the handful of parts of
+    one design that is quicker than array calls, and every value is the same single correctly
+    rounded step from its code.
+
+    Returns
+    -------
+    options : list of ndarray
+        Ascending standard values, one array per element of ``x``.
+    nearest : ndarray
+        Shape ``(len(x),)``.
+    """
+    codes, ndigits = _series(series)
+    codes_l, n = codes.tolist(), len(codes)
+    log_mant = [math.log10(c) - (ndigits - 1) for c in codes_l]
+
+    def value(k: int) -> float:
+        e = k // n - (ndigits - 1)
+        return codes_l[k % n] * _POW10_LIST[e] if e >= 0 else codes_l[k % n] / _POW10_LIST[-e]
+
+    options, near = [], []
+    for xv in _positive(x).reshape(-1).tolist():
+        lx = math.log10(xv)
+        decade = math.floor(lx)
+        lo = decade * n + bisect.bisect_right(log_mant, lx - decade) - 1
+        for _ in range(2):  # the log estimate is off by at most one step; settle it both ways
+            lo += value(lo + 1) <= xv * (1 + _REL_TOL)
+            lo -= value(lo) > xv * (1 + _REL_TOL)
+        v_lo = value(lo)
+        standard = v_lo >= xv * (1 - _REL_TOL)
+        hi = lo if standard else lo + 1
+        v_hi = value(hi)
+        near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)
+        steps = range(width + 1 if standard else width)
+        options.append(np.array([value(k) for k in sorted({lo - k for k in steps} | {hi + k for k in steps})]))
+    return options, np.array(near)
 
 
 def values_between(lo: float, hi: float, series: str) -> np.ndarray:

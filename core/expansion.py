@@ -259,23 +259,15 @@ class Expansion:
         key = _structure_key(netlist, self.variables)
         fit = _FITS.get(key)
         if fit is None:
-            fit = _structural_fit(netlist, self.variables, opamp, sizes)
+            _FITS[key] = fit = _structural_fit(netlist, self.variables, opamp, sizes)
             # Checked once per structure, at unit values (well conditioned for the solver it is
             # checked against): the integer fit does not depend on the values.
-            Expansion._checked(_unit_netlist(netlist), opamp, fit, key)
-            _FITS[key] = fit
+            try:
+                Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)._verify()
+            except ExpansionUnavailable:
+                del _FITS[key]
+                raise
         self._scale(fit)
-
-    @classmethod
-    def _checked(cls, netlist: Netlist, opamp: OpAmpModel, fit: "_Fit", key) -> None:
-        probe = cls.__new__(cls)
-        probe.netlist, probe.opamp, probe.w_ref = netlist, opamp, 1.0
-        probe.variables = circuit_variables(netlist, opamp)
-        probe.names = tuple(v.name for v in probe.variables)
-        if _structure_key(netlist, probe.variables) != key:
-            raise ExpansionUnavailable("the unit-valued circuit has another structure")
-        probe._scale(fit)
-        probe._verify()
 
     # -- building -------------------------------------------------------------------------------
     def _scale(self, fit: "_Fit") -> None:

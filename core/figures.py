@@ -8,9 +8,16 @@ centre phase is the angle of H(f0) in degrees in (−180, 180].
 Method
 ------
 With ``u = (ω/w_ref)²`` the squared magnitude is a ratio of real polynomials, ``|H|² = P(u)/Q(u)``
-(``P(u)`` is ``N(p)·N(−p)`` at ``p² = −u``). A grid locates the peak and the half-power crossings;
-a safeguarded Newton iteration on ``P'Q − PQ'`` (the peak) and of ``P − ½|H|²_peak·Q`` (the crossings)
-refines each to about 1e-13 relative. Everything is vectorised over the batch.
+(``P(u)`` is ``N(p)·N(−p)`` at ``p² = −u``). The peak is a root of ``P'Q − PQ'`` and the
+half-power points are roots of ``P − ½|H|²_peak·Q``, found one of four ways, each vectorised over
+the batch:
+
+- a batch of pure second-order band-passes in closed form (:func:`_biquad`);
+- otherwise as exact real positive roots (closed form for quadratics and cubics in large batches,
+  :mod:`core.polyroots`, else companion-matrix eigenvalues);
+- with a search grid (large Monte Carlo batches): bracketed on the grid and refined by a
+  safeguarded Newton iteration to about 1e-13 relative;
+- :func:`measure_near`: Newton's method from reference figures (GBW ladders near the ideal op-amp).
 """
 
 from __future__ import annotations
@@ -170,8 +177,8 @@ def measure(h: Rational, *, grid: np.ndarray | None = None) -> Figures:
 
 
 def _biquad(h: Rational):
-    """``(u_pk, u_low, u_high, bandwidth in ω/w_ref)`` in closed form when every member is ``b1·p / (a2·p² + a1·p + a0)``
-    with a peak (``a0·a2 > 0``, ``a1 ≠ 0``); None otherwise.
+    """``(u_pk, u_low, u_high, bandwidth in ω/w_ref, H at the peak)`` in closed form when every
+    member is ``b1·p / (a2·p² + a1·p + a0)`` with a peak (``a0·a2 > 0``, ``a1 ≠ 0``); else None.
 
     ``|H|² = b1²x² / ((a0 − a2x²)² + a1²x²)`` peaks at ``x² = a0/a2``; it is half the peak where
     ``a2x² ∓ |a1|x − a0 = 0``, so ``x_high = (|a1| + √(a1² + 4a0a2))/(2a2)`` and
@@ -198,9 +205,9 @@ def measure_near(h: Rational, ref: Figures, *, spread: float) -> Figures:
     """Figures of members known to lie near reference figures (a GBW ladder near the ideal op-amp).
 
     The peak and the half-power points are found by Newton's method started at ``ref``'s (one
-    member, scalars or arrays of one; the band edges scaled by the peak's move); a member for which it does not converge, or converges
-    farther than a factor ``1 + spread`` from the start, gets NaN figures: it is off the
-    reference by more than ``spread``. Cheaper than :func:`measure` by a fixed cost, for callers
+    member, scalars or arrays of one; the band edges scaled by the peak's move); a member for
+    which it does not converge, or converges farther than a factor ``1 + spread`` from the start,
+    gets NaN figures: it is off the reference by more than ``spread``. Cheaper than :func:`measure` by a fixed cost, for callers
     that ask "within tolerance of the reference?" and need exact figures only where it is.
     """
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
@@ -235,9 +242,9 @@ _NEWTON_MOST = 40
 def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndarray, np.ndarray]:
     """Newton's method on batched polynomials from ``x0`` (``(B,)`` or broadcastable): the roots
     and a mask of the members that converged (last step below 1e-5 relative, so that the error
-    after it is of order 1e-10) within a factor
-    ``k2`` of their start. Iterates until every member has converged or left that window, testing
-    that after ``first`` steps and then every other step (a test costs about a step)."""
+    after it is of order 1e-10) within a factor ``k2`` of their start. Iterates until every
+    member has converged or left that window, testing that after ``first`` steps and then every
+    other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps."""
     b = poly.shape[0]
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
@@ -245,9 +252,8 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     lo, hi = x0 / k2, x0 * k2
     dpoly = polyder_batch(poly)
     x = x0
-    most = _NEWTON_MOST
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        for n in range(1, most + 1):
+        for n in range(1, _NEWTON_MOST + 1):
             step = polyval_batch(poly, x) / polyval_batch(dpoly, x)
             x = x - step
             if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step

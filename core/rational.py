@@ -17,7 +17,7 @@ import scipy.linalg
 
 from .mna import MnaSystem
 
-__all__ = ["Rational", "OpAmpFamily", "rational_from_system", "rational_and_family", "concat", "reference_w", "polyval_batch"]
+__all__ = ["Rational", "OpAmpFamily", "rational_from_system", "rational_and_family", "reference_w", "polyval_batch"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -251,18 +251,3 @@ def _rational_and_family(system: MnaSystem, w_ref, *, family: bool) -> tuple[Rat
         cof = _trim(cof)[0] / scale[0, 0]
         fam = OpAmpFamily(_lead_trim(num_c[:1])[0] / scale[0, 0], _lead_trim(den_c[:1])[0] / scale[0, 0], cof, float(w[0]))
     return rational, fam
-
-
-def concat(parts: list[Rational]) -> Rational:
-    """One batch from several (coefficients padded with leading zeros to a common length)."""
-    m = max(p.num.shape[1] for p in parts)
-    n = max(p.den.shape[1] for p in parts)
-
-    def pad(c, width):
-        return np.pad(c, ((0, 0), (width - c.shape[1], 0)))
-
-    return Rational(
-        np.concatenate([pad(p.num, m) for p in parts]),
-        np.concatenate([pad(p.den, n) for p in parts]),
-        np.concatenate([p.w_ref for p in parts]),
-    )
