@@ -17,7 +17,7 @@ from core.values import format_value, parse_nonnegative, parse_positive
 
 from .results import CandidateResult, target_errors
 from .state import WorkbenchState, part_unit
-from .theme import BAD, GOOD, WARN, CandidateStyle
+from .theme import BAD, GOOD, WARN, CandidateStyle, error_label
 from .value_field import ValueField
 from .verdict_strip import VerdictStrip
 
@@ -181,10 +181,7 @@ class CandidateColumn(QtWidgets.QFrame):
         # Every shelf op-amp's verdict; choosing one draws it on the plots (app/window/verdict_strip.py).
         self.verdict_strip = VerdictStrip(state, candidate_id, self)
         lay.addWidget(self.verdict_strip)
-        self.problem = QtWidgets.QLabel(self)
-        self.problem.setObjectName("fieldError")
-        self.problem.setWordWrap(True)
-        self.problem.hide()
+        self.problem = error_label(self)
         lay.addWidget(self.problem)
         lay.addStretch(1)
 

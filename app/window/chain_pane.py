@@ -48,13 +48,12 @@ from core.values import format_value, parse_positive
 
 from .background import BackgroundJob
 from .chain_plots import ChainPlots, response_title
-from .theme import BAD, GOOD, WARN, candidate_style
+from .theme import BAD, GOOD, MUTED, WARN, candidate_style, error_label
 from .value_field import ValueField
 
 __all__ = ["EXTRAS_KEY", "ChainPane", "chain_conditions", "saved_chains", "install"]
 
 EXTRAS_KEY = "chains"
-_MUTED = "#5f6368"
 _NETLIST_FILTER = "SPICE netlist (*.cir *.sp *.net)"
 _CSV_FILTER = "CSV table (*.csv)"
 
@@ -215,7 +214,7 @@ class ChainPane(QtWidgets.QWidget):
         bar.addStretch(1)
         self.busy_label = QtWidgets.QLabel(self)
         self.busy_label.setObjectName("chainBusy")
-        self.busy_label.setStyleSheet(f"color: {_MUTED};")
+        self.busy_label.setStyleSheet(f"color: {MUTED};")
         bar.addWidget(self.busy_label)
         return bar
 
@@ -275,7 +274,7 @@ class ChainPane(QtWidgets.QWidget):
         self.edge_note = QtWidgets.QLabel(box)
         self.edge_note.setObjectName("edgeNote")
         self.edge_note.setWordWrap(True)
-        self.edge_note.setStyleSheet(f"color: {_MUTED}; font-size: 11px;")
+        self.edge_note.setStyleSheet(f"color: {MUTED}; font-size: 11px;")
         form.addRow("", self.edge_note)
 
         self.gain_field = ValueField(
@@ -308,10 +307,7 @@ class ChainPane(QtWidgets.QWidget):
         self.btn_build.setToolTip("Design every stage and keep the chain in the session (undo takes it away)")
         self.btn_build.clicked.connect(self.build)
         form.addRow("", self.btn_build)
-        self.form_error = QtWidgets.QLabel(box)
-        self.form_error.setObjectName("fieldError")
-        self.form_error.setWordWrap(True)
-        self.form_error.hide()
+        self.form_error = error_label(box)
         form.addRow(self.form_error)
         lay.addWidget(box)
 
@@ -782,7 +778,7 @@ class ChainPane(QtWidgets.QWidget):
             ]
             lines += [f"• stage {st.index} (f0 {_esc(format_value(st.plan.f0_hz, 'Hz'))}, Q {st.plan.q:.3g}): {_esc(_first_clause(st.reason))}" for st in bad]
             lines.append(
-                f"<span style='color:{_MUTED}'>Select a stage below for every circuit's reason; widen the band, lower the order, "
+                f"<span style='color:{MUTED}'>Select a stage below for every circuit's reason; widen the band, lower the order, "
                 "choose a finer series or another circuit for that stage.</span>"
             )
             self.summary.setText("<br>".join(lines))

@@ -21,11 +21,10 @@ from core.cascade import Cascade, ChainSettings
 from core.values import format_value
 
 from .plots import LogAxis
-from .theme import apply_plot_theme, candidate_style
+from .theme import INK, apply_plot_theme, candidate_style
 
 __all__ = ["ChainPlots", "plot_frequencies", "response_title"]
 
-_INK = "#202124"
 _REFERENCE_PEN = pg.mkPen("#6b7079", width=1.6, style=QtCore.Qt.PenStyle.DashLine)
 _EDGE_PEN = pg.mkPen("#9aa0a6", width=1, style=QtCore.Qt.PenStyle.DotLine)
 _PLANNED_PEN = pg.mkPen("#9aa0a6", width=1.4, style=QtCore.Qt.PenStyle.DashLine)
@@ -57,7 +56,6 @@ def _round_down(x: float) -> float:
 def _db(h: np.ndarray) -> np.ndarray:
     with np.errstate(divide="ignore"):
         return 20.0 * np.log10(np.abs(h))
-
 
 
 class ChainPlots(pg.GraphicsLayoutWidget):
@@ -100,12 +98,12 @@ class ChainPlots(pg.GraphicsLayoutWidget):
         self.overall_legend = self._legend(0, columns=3)
         self.stage_legend = self._legend(4, columns=4)
         self.reference_curve = self.overall.plot([], [], pen=self._pen(_REFERENCE_PEN), name="ideal response")
-        self.built_curve = self.overall.plot([], [], pen=pg.mkPen(_INK, width=2.4 * self._k), name="built (ideal op-amp)")
+        self.built_curve = self.overall.plot([], [], pen=pg.mkPen(INK, width=2.4 * self._k), name="built (ideal op-amp)")
         self.actual_curve = self.overall.plot([], [], pen=candidate_style(1).pen(2.0 * self._k), name="with the op-amp")
         for c in (self.reference_curve, self.built_curve, self.actual_curve):
             self.overall_legend.addItem(c, c.opts["name"])
         self._fit_legend(self.overall_legend)
-        self.deviation_curve = self.deviation.plot([], [], pen=pg.mkPen(_INK, width=1.8 * self._k))
+        self.deviation_curve = self.deviation.plot([], [], pen=pg.mkPen(INK, width=1.8 * self._k))
         self.deviation_actual_curve = self.deviation.plot([], [], pen=candidate_style(1).pen(1.8 * self._k))
         self.zero_line = pg.InfiniteLine(pos=0.0, angle=0, pen=self._pen(_EDGE_PEN))
         self.deviation.addItem(self.zero_line, ignoreBounds=True)
@@ -127,22 +125,22 @@ class ChainPlots(pg.GraphicsLayoutWidget):
 
     def _plot(self, row: int, title: str, y_label: str, unit: str) -> pg.PlotItem:
         p = self.addPlot(row=row, col=0, axisItems={"bottom": LogAxis("bottom")})
-        p.setTitle(title, color=_INK, size="9pt")
+        p.setTitle(title, color=INK, size="9pt")
         p.setLogMode(x=True, y=False)
         p.showGrid(x=True, y=True, alpha=0.22)
         p.setMenuEnabled(False)
         p.getAxis("left").enableAutoSIPrefix(False)
-        p.setLabel("left", f"{y_label} ({unit})", color=_INK)
-        p.setLabel("bottom", "Frequency (Hz)", color=_INK)
+        p.setLabel("left", f"{y_label} ({unit})", color=INK)
+        p.setLabel("bottom", "Frequency (Hz)", color=INK)
         p.getAxis("left").setWidth(58)
         for side in ("left", "bottom"):
             ax = p.getAxis(side)
-            ax.setPen(pg.mkPen(_INK))
-            ax.setTextPen(pg.mkPen(_INK))
+            ax.setPen(pg.mkPen(INK))
+            ax.setTextPen(pg.mkPen(INK))
         return p
 
     def _legend(self, row: int, *, columns: int) -> pg.LegendItem:
-        legend = pg.LegendItem(colCount=columns, labelTextColor=_INK, labelTextSize="8pt", horSpacing=18, verSpacing=-8)
+        legend = pg.LegendItem(colCount=columns, labelTextColor=INK, labelTextSize="8pt", horSpacing=18, verSpacing=-8)
         legend.setSizePolicy(QtWidgets.QSizePolicy.Policy.Preferred, QtWidgets.QSizePolicy.Policy.Fixed)
         legend.layout.setContentsMargins(58, 0, 0, 0)  # in line with the plots, past the axis
         self.addItem(legend, row=row, col=0)
@@ -182,9 +180,9 @@ class ChainPlots(pg.GraphicsLayoutWidget):
             return
         s = result.settings
         built = result.feasible
-        self.overall.setTitle("Whole chain" if built else "Whole chain: not built, the ideal response only", color=_INK, size="9pt")
+        self.overall.setTitle("Whole chain" if built else "Whole chain: not built, the ideal response only", color=INK, size="9pt")
         self.deviation.setTitle(
-            "Built chain − ideal response (lines as above)" if built else "Built chain − ideal response: nothing built", color=_INK, size="9pt"
+            "Built chain − ideal response (lines as above)" if built else "Built chain − ideal response: nothing built", color=INK, size="9pt"
         )
         f = plot_frequencies(s, max(p.q for p in result.plan.sections))
         ref_db = _db(result.reference_response(f))

@@ -33,12 +33,11 @@ from .plots import LogAxis
 from .shown_only import RecomputeWhenShown
 from .spread_pane import CandidatePicker, candidate_circuit, winding_text
 from .state import WorkbenchState
+from .theme import INK, MUTED, error_label, headline
 from .value_field import ValueField
 
 __all__ = ["NoisePane", "SOURCE_COLOURS", "install"]
 
-_INK = "#202124"
-_MUTED = "#5f6368"
 #: Colours of the noise sources, in the order the core lists them (our own set; they name
 #: sources, not candidates). Each kind of source also has its own line style.
 SOURCE_COLOURS = ("#2f6f9f", "#c8702a", "#7b3f8c", "#3f8f5a", "#b23a48", "#8a7a2e", "#4a90c2", "#9c5a3c", "#5a5f8f", "#2a9d8f")
@@ -149,7 +148,7 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         bar.addWidget(self.picker)
         self.info = QtWidgets.QLabel(self)
         self.info.setObjectName("noiseInfo")
-        self.info.setStyleSheet(f"color: {_MUTED};")
+        self.info.setStyleSheet(f"color: {MUTED};")
         self.info.setWordWrap(True)
         bar.addWidget(self.info, 1)
         outer.addLayout(bar)
@@ -205,22 +204,11 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
             f.committed.connect(lambda v, k=key: self._on_field(k, v))
         outer.addWidget(box)
 
-        self.error = QtWidgets.QLabel(self)
-        self.error.setObjectName("fieldError")
-        self.error.setWordWrap(True)
-        self.error.hide()
+        self.error = error_label(self)
         outer.addWidget(self.error)
 
         figs = QtWidgets.QHBoxLayout()
-        col = QtWidgets.QVBoxLayout()
-        col.setSpacing(0)
-        cap = QtWidgets.QLabel("Output noise, integrated", self)
-        cap.setStyleSheet(f"color: {_MUTED}; font-weight: 600;")
-        col.addWidget(cap)
-        self.integrated = QtWidgets.QLabel("—", self)
-        self.integrated.setObjectName("noiseIntegrated")
-        self.integrated.setStyleSheet(f"font-size: 26px; font-weight: 700; color: {_INK};")
-        col.addWidget(self.integrated)
+        col, self.integrated = headline(self, "Output noise, integrated", "noiseIntegrated", 26)
         figs.addLayout(col)
         self.figures = QtWidgets.QLabel(self)
         self.figures.setObjectName("noiseFigures")
@@ -237,13 +225,13 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         self.canvas.setObjectName("noisePlot")
         self.canvas.setBackground("w")
         self.plot = pg.PlotItem(axisItems={"bottom": LogAxis("bottom"), "left": LogAxis("left")})
-        self.plot.setTitle("Output noise density by source", color=_INK, size="10pt")
+        self.plot.setTitle("Output noise density by source", color=INK, size="10pt")
         self.plot.setLogMode(x=True, y=True)
         self.plot.showGrid(x=True, y=True, alpha=0.22)
         self.plot.setMenuEnabled(False)
-        self.plot.setLabel("bottom", "Frequency (Hz)", color=_INK)
-        self.plot.setLabel("left", "Density at the output (V/√Hz)", color=_INK)
-        self.legend = pg.LegendItem(colCount=4, labelTextColor=_INK, labelTextSize="8pt", horSpacing=14, verSpacing=-6)
+        self.plot.setLabel("bottom", "Frequency (Hz)", color=INK)
+        self.plot.setLabel("left", "Density at the output (V/√Hz)", color=INK)
+        self.legend = pg.LegendItem(colCount=4, labelTextColor=INK, labelTextSize="8pt", horSpacing=14, verSpacing=-6)
         self.canvas.addItem(self.plot, row=0, col=0)
         self.canvas.addItem(self.legend, row=1, col=0)
         self.canvas.ci.layout.setRowStretchFactor(0, 1)
@@ -251,9 +239,9 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         self.band_region = pg.LinearRegionItem(values=(0, 1), movable=False, brush=pg.mkBrush(27, 94, 158, 22), pen=pg.mkPen((27, 94, 158, 90)))
         self.band_region.setZValue(-10)
         self.plot.addItem(self.band_region, ignoreBounds=True)
-        self.f0_line = pg.InfiniteLine(angle=90, pen=pg.mkPen("#7d8590", width=1, style=QtCore.Qt.PenStyle.DashLine), label="f0", labelOpts={"position": 0.96, "color": _MUTED})
+        self.f0_line = pg.InfiniteLine(angle=90, pen=pg.mkPen("#7d8590", width=1, style=QtCore.Qt.PenStyle.DashLine), label="f0", labelOpts={"position": 0.96, "color": MUTED})
         self.plot.addItem(self.f0_line, ignoreBounds=True)
-        self.total_curve = self.plot.plot([], [], pen=pg.mkPen(_INK, width=3.0), name="total", connect="finite")
+        self.total_curve = self.plot.plot([], [], pen=pg.mkPen(INK, width=3.0), name="total", connect="finite")
         self.total_curve.setZValue(5)
         self.body.addWidget(self.canvas, 3)
 
@@ -465,7 +453,7 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
                 name.setToolTip(name.toolTip() + "; it does not reach the output (no curve)")
             for c, it in enumerate(cells):
                 if silent:
-                    it.setForeground(QtGui.QColor(_MUTED))
+                    it.setForeground(QtGui.QColor(MUTED))
                 if c:
                     it.setTextAlignment(QtCore.Qt.AlignmentFlag.AlignRight | QtCore.Qt.AlignmentFlag.AlignVCenter)
                 if row < 2 and share > 0:

@@ -19,6 +19,7 @@ from core.values import format_value
 
 from .results import CandidateResult
 from .state import WorkbenchState
+from .theme import INK
 
 __all__ = [
     "CandidatePlot",
@@ -32,7 +33,6 @@ __all__ = [
     "LogAxis",
 ]
 
-_INK = "#202124"
 _GUIDE = pg.mkPen("#7d8590", width=1, style=QtCore.Qt.PenStyle.DashLine)
 _LIMIT = pg.mkPen("#b0191e", width=1.2, style=QtCore.Qt.PenStyle.DashLine)
 # The error chart clips errors to this range (×tolerance) so that "no band-pass at all" (an
@@ -102,7 +102,7 @@ class CandidatePlot(pg.PlotWidget):
         self.curves: dict[str, pg.PlotDataItem] = {}
         self.overlays: dict[str, pg.PlotDataItem] = {}
         item = self.getPlotItem()
-        item.setTitle(self.title, color=_INK, size="10pt")
+        item.setTitle(self.title, color=INK, size="10pt")
         self._label_axes(item)
         item.showGrid(x=True, y=True, alpha=0.22)
         item.setLogMode(x=self.log_x, y=self.log_y)
@@ -139,9 +139,9 @@ class CandidatePlot(pg.PlotWidget):
             if log or unit in ("dB", "°", "V/V", "× tol"):
                 # No SI scaling on these axes: a "(x0.001)" beside "V/V" reads as nonsense.
                 item.getAxis(side).enableAutoSIPrefix(False)
-                item.setLabel(side, f"{text} ({unit})" if unit else text, color=_INK)
+                item.setLabel(side, f"{text} ({unit})" if unit else text, color=INK)
             else:
-                item.setLabel(side, text, units=unit, color=_INK)
+                item.setLabel(side, text, units=unit, color=INK)
 
     def _new_curve(self, cid: str) -> pg.PlotDataItem:
         st = self.state.style(cid)

@@ -35,7 +35,7 @@ from core.values import format_value, parse_positive, parse_value
 
 from .shown_only import RecomputeWhenShown
 from .state import WorkbenchState
-from .theme import BAD, GOOD
+from .theme import BAD, GOOD, error_label
 from .value_field import ValueField
 from .verdict_strip import VERDICT_LOOK
 from .verdicts import SESSION_KEY, VerdictBook, session_amps, session_supply_v, verdict_tooltip
@@ -288,10 +288,7 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.editor.itemChanged.connect(self._on_editor_item)
         self.editor.verticalHeader().setDefaultSectionSize(24)
         ll.addWidget(self.editor, 3)
-        self.editor_error = QtWidgets.QLabel(left)
-        self.editor_error.setObjectName("fieldError")
-        self.editor_error.setWordWrap(True)
-        self.editor_error.hide()
+        self.editor_error = error_label(left)
         ll.addWidget(self.editor_error)
         buttons = QtWidgets.QGridLayout()  # two rows, so the pane stays narrow enough beside the board
         self.btn_add = QtWidgets.QPushButton("Add model", left)

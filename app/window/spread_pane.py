@@ -50,7 +50,7 @@ from .background import BackgroundJob, Cancelled
 from .extras_settings import SPREAD_KEY, circuit_refs, spread_for_circuit, stored_spread
 from .results import frequency_grid
 from .state import WorkbenchState, part_unit
-from .theme import BAD, WARN
+from .theme import BAD, INK, MUTED, WARN, error_label, headline
 from .value_field import ValueField
 
 __all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "FigureHistogram", "window_of", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
@@ -62,11 +62,9 @@ ENVELOPE_TRIALS = 2000
 _BINS = 48
 # A histogram shows all of the yield window unless it is this many times wider than the trials.
 _ZOOM_RATIO = 6.0
-_INK = "#202124"
-_MUTED = "#5f6368"
 _WINDOW_BRUSH = (46, 139, 87, 40)
 _WORST_PEN = pg.mkPen(BAD, width=1.2, style=QtCore.Qt.PenStyle.DotLine)
-_NOMINAL_PEN = pg.mkPen(_INK, width=1.5)
+_NOMINAL_PEN = pg.mkPen(INK, width=1.5)
 _FIGURES = (("f0_hz", "f0", "Hz"), ("q", "Q", ""), ("gain_center_db", "Centre gain", "dB"))
 _DIST_TEXT = {"uniform": "uniform, ±p", "normal": "normal, p = 3σ"}
 
@@ -196,15 +194,15 @@ class FigureHistogram(pg.PlotWidget):
         item.setContentsMargins(2, 2, 14, 2)  # room for the last tick label on the right
         item.setMouseEnabled(x=False, y=False)
         item.hideButtons()
-        item.setTitle(title, color=_INK, size="10pt")
+        item.setTitle(title, color=INK, size="10pt")
         item.showGrid(x=True, y=True, alpha=0.2)
         if unit == "Hz":
-            item.setLabel("bottom", title, units="Hz", color=_INK)
+            item.setLabel("bottom", title, units="Hz", color=INK)
         else:
             item.getAxis("bottom").enableAutoSIPrefix(False)
-            item.setLabel("bottom", f"{title} ({unit})" if unit else title, color=_INK)
+            item.setLabel("bottom", f"{title} ({unit})" if unit else title, color=INK)
         item.getAxis("left").enableAutoSIPrefix(False)
-        item.setLabel("left", "trials", color=_INK)
+        item.setLabel("left", "trials", color=INK)
         self.window = pg.LinearRegionItem(values=(0, 1), movable=False, brush=pg.mkBrush(*_WINDOW_BRUSH), pen=pg.mkPen((46, 139, 87, 160), width=1))
         self.window.setZValue(-10)
         item.addItem(self.window)
@@ -237,7 +235,7 @@ class FigureHistogram(pg.PlotWidget):
         wide = span > 0 and (window[1] - window[0]) > _ZOOM_RATIO * span
         if not wide:  # the window fits: show all of it
             lo, hi = min(lo, window[0]), max(hi, window[1])
-        self.getPlotItem().setTitle(self.title + (" (window is wider)" if wide else ""), color=_INK, size="10pt")
+        self.getPlotItem().setTitle(self.title + (" (window is wider)" if wide else ""), color=INK, size="10pt")
         pad = 0.04 * (hi - lo) if hi > lo else max(abs(lo) * 1e-3, 1e-12)
         lo, hi = lo - pad, hi + pad
         counts, edges = np.histogram(v, bins=_BINS, range=(float(v.min()), float(v.max())) if v.max() > v.min() else None)
@@ -383,7 +381,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         bar.addWidget(self.run_button)
         self.run_info = QtWidgets.QLabel(body)
         self.run_info.setObjectName("spreadRunInfo")
-        self.run_info.setStyleSheet(f"color: {_MUTED};")
+        self.run_info.setStyleSheet(f"color: {MUTED};")
         self.run_info.setWordWrap(True)
         bar.addWidget(self.run_info, 1)
         outer.addLayout(bar)
@@ -471,10 +469,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.parts.setToolTip("Type a part's own tolerance (2%, 0.5 %); clear it to use its kind's. Overrides apply to every candidate with a part of that name.")
         self.parts.itemChanged.connect(self._on_part_item)
         pl.addWidget(self.parts)
-        self.parts_error = QtWidgets.QLabel(parts_box)
-        self.parts_error.setObjectName("fieldError")
-        self.parts_error.setWordWrap(True)
-        self.parts_error.hide()
+        self.parts_error = error_label(parts_box)
         pl.addWidget(self.parts_error)
         self.settings_row.addWidget(parts_box, 1)
 
@@ -485,21 +480,10 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.stale.setStyleSheet(f"color: {WARN}; background: #fdf5e6; border: 1px solid {WARN}; padding: 4px; font-weight: 600;")
         self.stale.hide()
         outer.addWidget(self.stale)
-        self.error = QtWidgets.QLabel(body)
-        self.error.setObjectName("fieldError")
-        self.error.setWordWrap(True)
-        self.error.hide()
+        self.error = error_label(body)
         outer.addWidget(self.error)
         yrow = QtWidgets.QHBoxLayout()
-        ycol = QtWidgets.QVBoxLayout()
-        ycol.setSpacing(0)
-        cap = QtWidgets.QLabel("Yield", body)
-        cap.setStyleSheet(f"color: {_MUTED}; font-weight: 600;")
-        ycol.addWidget(cap)
-        self.yield_label = QtWidgets.QLabel("—", body)
-        self.yield_label.setObjectName("yieldLabel")
-        self.yield_label.setStyleSheet(f"font-size: 30px; font-weight: 700; color: {_INK};")
-        ycol.addWidget(self.yield_label)
+        ycol, self.yield_label = headline(body, "Yield", "yieldLabel", 30)
         yrow.addLayout(ycol)
         self.yield_text = QtWidgets.QLabel(body)
         self.yield_text.setObjectName("yieldText")
@@ -519,7 +503,7 @@ class SpreadPane(QtWidgets.QScrollArea):
             "Shaded green: the yield window. Solid line: nominal. Red dotted: the worst-case corners.", body
         )
         key_line.setObjectName("histogramKey")
-        key_line.setStyleSheet(f"color: {_MUTED};")
+        key_line.setStyleSheet(f"color: {MUTED};")
         key_line.setWordWrap(True)
         outer.addWidget(key_line)
         env_row = QtWidgets.QHBoxLayout()
@@ -561,7 +545,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.worst_note = QtWidgets.QLabel(body)
         self.worst_note.setObjectName("worstNote")
         self.worst_note.setWordWrap(True)
-        self.worst_note.setStyleSheet(f"color: {_MUTED};")
+        self.worst_note.setStyleSheet(f"color: {MUTED};")
         wcol.addWidget(self.worst_note)
         wcol.addStretch(1)
         self.tables_row.addLayout(wcol, 1)
@@ -691,7 +675,7 @@ class SpreadPane(QtWidgets.QScrollArea):
                 val = QtWidgets.QTableWidgetItem(format_value(values[ref], part_unit(kind), digits=4))
                 val.setFlags(val.flags() & ~QtCore.Qt.ItemFlag.ItemIsEditable)
                 own = ref in s.tolerances and ref not in ("R", "C", "L")
-                tol = _item(_percent(s.tolerances[ref]) if own else f"({_percent(s.tolerances[kind])}, {kind})", bold=own, colour=None if own else _MUTED, align_right=False)
+                tol = _item(_percent(s.tolerances[ref]) if own else f"({_percent(s.tolerances[kind])}, {kind})", bold=own, colour=None if own else MUTED, align_right=False)
                 tol.setToolTip("this part's own tolerance; clear it to use its kind's" if own else f"the tolerance of every {kind}; type one for {ref} alone")
                 self.parts.setItem(r, 0, name)
                 self.parts.setItem(r, 1, val)
@@ -851,7 +835,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         ]
         if failed:
             lines.append(f"<span style='color:{BAD}'>{_count(failed)} trials unstable or without a band-pass peak (counted as failing).</span>")
-        lines += [f"<span style='color:{_MUTED}'>{n}.</span>" for n in run.notes]
+        lines += [f"<span style='color:{MUTED}'>{n}.</span>" for n in run.notes]
         self.yield_text.setText("<br>".join(lines))
         tol = ", ".join(f"{k} ±{_percent(v)}" for k, v in sp.tolerances.items())
         gbw = f", GBW ±{_percent(s.gbw_tol)}" if s.gbw_tol > 0 else ""

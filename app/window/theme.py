@@ -9,9 +9,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from PySide6 import QtCore, QtGui
+from PySide6 import QtCore, QtGui, QtWidgets
 
-__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "STYLE_SHEET", "apply_plot_theme", "GOOD", "WARN", "BAD"]
+__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "STYLE_SHEET", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED", "error_label", "headline"]
 
 # Blue, amber, dark magenta, sky, vermilion-brown, bluish green, olive, slate: alternating dark and
 # light so that any two neighbours are told apart by lightness as well as by hue.
@@ -38,6 +38,9 @@ LINE_STYLES = (
 SYMBOLS = ("x", "t", "s", "d", "star", "+", "t1", "p")
 
 # Status colours of flags; each flag also carries a symbol so it does not rely on colour.
+# Text: body ink and the muted grey of captions and notes.
+INK = "#202124"
+MUTED = "#5f6368"
 GOOD = "#1d7a3a"
 WARN = "#a35f00"
 BAD = "#b0191e"
@@ -87,3 +90,27 @@ QLabel#needFlagBad {{ color: white; background: {BAD}; font-weight: 700; padding
 QLabel#candidateTitle {{ font-weight: 700; font-size: 13px; }}
 QLineEdit[invalid="true"] {{ border: 1px solid {BAD}; background: #fff1f0; }}
 """
+
+
+def error_label(parent: QtWidgets.QWidget) -> QtWidgets.QLabel:
+    """The hidden, word-wrapped label a form shows its input error in (styled as ``fieldError``)."""
+    label = QtWidgets.QLabel(parent)
+    label.setObjectName("fieldError")
+    label.setWordWrap(True)
+    label.hide()
+    return label
+
+
+def headline(parent: QtWidgets.QWidget, caption: str, object_name: str, size_px: int) -> tuple[QtWidgets.QVBoxLayout, QtWidgets.QLabel]:
+    """A pane's headline figure: a muted caption over a large bold value (``—`` until set).
+    Returns the column to place and the value label."""
+    col = QtWidgets.QVBoxLayout()
+    col.setSpacing(0)
+    cap = QtWidgets.QLabel(caption, parent)
+    cap.setStyleSheet(f"color: {MUTED}; font-weight: 600;")
+    col.addWidget(cap)
+    value = QtWidgets.QLabel("—", parent)
+    value.setObjectName(object_name)
+    value.setStyleSheet(f"font-size: {size_px}px; font-weight: 700; color: {INK};")
+    col.addWidget(value)
+    return col, value

@@ -15,6 +15,8 @@ from PySide6 import QtCore, QtWidgets
 from core.errors import InputError
 from core.values import format_value, parse_positive
 
+from .theme import error_label
+
 __all__ = ["ValueField"]
 
 
@@ -58,10 +60,7 @@ class ValueField(QtWidgets.QWidget):
         self.edit.setObjectName(f"edit_{name}")
         self.edit.setToolTip(tooltip)
         self.edit.setMinimumWidth(70)
-        self.error = QtWidgets.QLabel(self)
-        self.error.setObjectName("fieldError")
-        self.error.setWordWrap(True)
-        self.error.hide()
+        self.error = error_label(self)
         lay = QtWidgets.QVBoxLayout(self)
         lay.setContentsMargins(0, 0, 0, 0)
         lay.setSpacing(1)

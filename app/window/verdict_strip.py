@@ -21,7 +21,7 @@ from PySide6 import QtCore, QtGui, QtWidgets
 from core.fitcheck import DOES_NOT_FIT, FITS, MARGINAL
 from core.values import format_value
 
-from .theme import BAD, GOOD, WARN
+from .theme import BAD, GOOD, MUTED, WARN
 from .verdicts import VerdictBook, verdict_tooltip
 
 __all__ = ["VerdictStrip", "VerdictRow", "VERDICT_LOOK"]
@@ -33,7 +33,6 @@ VERDICT_LOOK = {
     DOES_NOT_FIT: ("✗", BAD, "#f8e0e0"),
 }
 _PENDING = ("…", "#5f6368", "#eeeeea")
-_MUTED = "#5f6368"
 
 
 class VerdictRow(QtWidgets.QFrame):
@@ -129,7 +128,7 @@ class VerdictStrip(QtWidgets.QWidget):
                          "Click one to draw the candidate with it on the plots and see its headroom.")
         self.status = QtWidgets.QLabel(self)
         self.status.setObjectName("verdictStatus")
-        self.status.setStyleSheet(f"color: {_MUTED};")
+        self.status.setStyleSheet(f"color: {MUTED};")
         head.addWidget(title)
         head.addStretch(1)
         head.addWidget(self.status)
@@ -224,7 +223,7 @@ class VerdictStrip(QtWidgets.QWidget):
         fig = v.actual.item()
         if math.isfinite(fig.f0_hz):
             lines.append(
-                f"<span style='color:{_MUTED}'>With it (the pale band on the plots):</span> f0 "
+                f"<span style='color:{MUTED}'>With it (the pale band on the plots):</span> f0 "
                 f"{format_value(fig.f0_hz, 'Hz', digits=4)}, Q {fig.q:.3g}, gain {fig.gain_center_db:+.2f} dB"
             )
         if room.limiting_node is None:
