@@ -13,7 +13,7 @@ import numpy as np
 
 from .errors import InputError
 from .figures import Figures, measure, measure_near
-from .mna import IDEAL, MnaSystem, OpAmpModel, build_system
+from .mna import IDEAL, OpAmpModel, build_system, solve_at
 from .netlist import Element, Netlist
 from .expansion import ExpansionUnavailable, unit_expansion
 from .rational import OpAmpFamily, Rational, _lead_trim, rational_and_family, rational_from_system, reference_w
@@ -344,19 +344,12 @@ def required_gbw(
     return _search_gbw(netlist, ideal, family, w_ref, a0=a0, tolerances=tolerances)[0]
 
 
-def _opamp_output_current(
-    netlist: Netlist, f_hz: float, rload_ohm: float | None, system: MnaSystem | None = None
-) -> float:
-    """Peak op-amp output current (A) per volt of input at ``f_hz``, ideal op-amp, optional load.
-
-    ``system`` is the netlist's ideal-op-amp system (batch of one) when already built."""
+def _opamp_output_current(netlist: Netlist, f_hz: float, rload_ohm: float | None) -> float:
+    """Peak op-amp output current (A) per volt of input at ``f_hz``, ideal op-amp, optional load."""
     if rload_ohm is not None:
         netlist = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
-        system = None
-    if system is None:
-        system = build_system(netlist)
-    x = system.solve(np.array([2j * math.pi * f_hz]))[0, 0]
-    rows = system.layout.opamp_row.values()
+    x, layout = solve_at(netlist, 2j * math.pi * f_hz)
+    rows = layout.opamp_row.values()
     return float(max(abs(x[r]) for r in rows)) if rows else 0.0
 
 
@@ -370,14 +363,13 @@ def requirements(
     rload_ohm: float | None = None,
     tolerances: Tolerances = Tolerances(),
     gbw_search: tuple[float | None, str | None] | None = None,
-    system: MnaSystem | None = None,
 ) -> Requirements:
     """The op-amp needs of a candidate (see BRIEF.md's definitions).
 
     Slew for a sine of peak ``vin_v`` at f0: ``2π·f0·|gain|·vin``; for a step of height ``vin_v``:
     the largest ``|dv_out/dt|`` of the step response; output current: the peak current the op-amp
     output delivers at f0 into the circuit and the optional load. ``gbw_search`` is a finished
-    :func:`required_gbw`, ``system`` the netlist's ideal system, when the caller has them.
+    :func:`required_gbw`, when the caller has it.
     """
     ref = ideal.item()
     if gbw_search is None:
@@ -386,7 +378,7 @@ def requirements(
     gain = abs(ref.gain_center)
     # Common practice, no source: open-loop gain at f0 some 40 dB above the peak gain.
     rule = 100.0 * gain * ref.f0_hz if math.isfinite(gain) else math.nan
-    iout = _opamp_output_current(netlist, ref.f0_hz, rload_ohm, system) * vin_v if math.isfinite(ref.f0_hz) else math.nan
+    iout = _opamp_output_current(netlist, ref.f0_hz, rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
     return Requirements(
         gbw_hz=gbw,
         gbw_reason=reason,
@@ -406,7 +398,6 @@ _SENS_STEP = 1e-4
 
 @dataclass(frozen=True, slots=True)
 class _FirstPass:
-    system: MnaSystem  # the nominal circuit's, ideal op-amp (batch of one)
     w_ref: float
     h_ideal: Rational
     ideal: Figures
@@ -420,9 +411,9 @@ _UNIT_AMP = OpAmpModel(gbw_hz=1.0 / (2.0 * math.pi), a0=1.0)
 
 def _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref):
     """The first pass's transfer functions from the netlist's coefficient expansion
-    (:mod:`core.expansion`, built once per circuit) instead of solves: ``(system, w_ref, h,
-    family)`` with ``system`` the nominal one, or None where the expansion does not apply (not
-    one op-amp, or a part the expansion does not carry)."""
+    (:mod:`core.expansion`, built once per circuit) instead of solves: ``(w_ref, h, family)``, or
+    None where the expansion does not apply (not one op-amp, or a part the expansion does not
+    carry)."""
     if len(netlist.opamps) != 1:
         return None
     try:
@@ -465,8 +456,7 @@ def _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref):
         _lead_trim(num_p[:1] / s0)[0], _lead_trim(den_p[:1] / s0)[0], _lead_trim((m_s * to_p)[None, ::-1] / s0)[0],
         float(w_ref),
     )
-    system = build_system(netlist)
-    return system, float(w_ref), h, family
+    return float(w_ref), h, family
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
@@ -481,7 +471,7 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
     up, down = math.exp(_SENS_STEP), math.exp(-_SENS_STEP)
     quick = _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref)
     if quick is not None:
-        system, w_ref, h, family = quick
+        w_ref, h, family = quick
     else:
         over = {}
         for j, r in enumerate(refs):
@@ -493,7 +483,6 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
         if w_ref is None:
             w_ref = reference_w(batch)
         h, family = rational_and_family(batch, w_ref)
-        system = MnaSystem(batch.G[:1], batch.C[:1], batch.layout, batch.output_index)
     fig = measure(h)
     ly = np.log(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
     sv = (ly[:, 0::2] - ly[:, 1::2]) / (2.0 * _SENS_STEP)
@@ -501,7 +490,7 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
     for row, key in enumerate(("f0", "q", "gain")):
         by_ref = dict(zip(refs, sv[row].tolist()))
         sens[key] = {r: by_ref.get(r, 0.0) for r in values}
-    return _FirstPass(system, float(w_ref), h.item(0), fig.take(slice(0, 1)), sens, family)
+    return _FirstPass(float(w_ref), h.item(0), fig.take(slice(0, 1)), sens, family)
 
 
 def sensitivities(
@@ -565,7 +554,7 @@ def analyze(
     step = step_response(h_ideal)
     req = requirements(
         netlist, ideal, step, vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
-        gbw_search=gbw_search, system=first.system,
+        gbw_search=gbw_search,
     )
     return Analysis(
         netlist=netlist,

@@ -24,7 +24,7 @@ import numpy as np
 
 from .netlist import Netlist
 
-__all__ = ["OpAmpModel", "MnaLayout", "MnaSystem", "build_system"]
+__all__ = ["OpAmpModel", "MnaLayout", "MnaSystem", "build_system", "solve_at"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -247,3 +247,56 @@ def build_system(
             C[:, row, idx[out]] -= 1.0 / (2.0 * np.pi * np.broadcast_to(np.asarray(gbw, float), (size,)))
 
     return MnaSystem(G, C, layout, idx[netlist.output])
+
+
+def solve_at(netlist: Netlist, s: complex) -> tuple[np.ndarray, MnaLayout]:
+    """All unknowns of the netlist's own values at one complex frequency ``s`` (rad/s), ideal
+    op-amps, unit input source: ``(x, layout)`` with ``x`` of shape ``(n,)``.
+
+    The same stamps as :func:`build_system`, written straight into one complex matrix (a batch of
+    one through :func:`build_system` costs some forty array operations)."""
+    layout = MnaLayout.of(netlist)
+    n = layout.size
+    a = [[0j] * n for _ in range(n)]
+    idx = layout.node_index
+    gnd = netlist.ground
+
+    def admittance(p, q, y):
+        ip = idx[p] if p != gnd else None
+        iq = idx[q] if q != gnd else None
+        if ip is not None:
+            a[ip][ip] += y
+        if iq is not None:
+            a[iq][iq] += y
+        if ip is not None and iq is not None:
+            a[ip][iq] -= y
+            a[iq][ip] -= y
+
+    for e in netlist.elements:
+        if e.kind == "R":
+            admittance(*e.nodes, 1.0 / e.value)
+        elif e.kind == "C":
+            admittance(*e.nodes, s * e.value)
+        elif e.kind == "L":
+            row = layout.inductor_row[e.ref]
+            for node, sign in zip(e.nodes, (1.0, -1.0)):
+                if node != gnd:
+                    a[idx[node]][row] += sign
+                    a[row][idx[node]] += sign
+            a[row][row] -= e.series_resistance + s * e.value
+    src, inp = layout.source_row, idx[netlist.input]
+    a[inp][src] += 1.0
+    a[src][inp] += 1.0
+    for e in netlist.opamps:
+        row = layout.opamp_row[e.ref]
+        plus, minus, out = e.nodes
+        if out == gnd:
+            raise ValueError(f"{e.ref}: op-amp output on ground")
+        a[idx[out]][row] += 1.0
+        if plus != gnd:
+            a[row][idx[plus]] += 1.0
+        if minus != gnd:
+            a[row][idx[minus]] -= 1.0
+    b = np.zeros(n, dtype=complex)
+    b[src] = 1.0
+    return np.linalg.solve(np.array(a), b), layout
