@@ -30,19 +30,20 @@ class StepResponse:
     max_slope_per_s: float
 
 
+_UNIT_GRID = {1000: np.linspace(0.0, 1.0, 1000)}  # the default grid's shape, scaled per circuit
+
+
 def default_time_grid(poles: np.ndarray, n: int = 1000) -> np.ndarray:
     """Times from 0 to where the slowest pole has decayed (8 time constants), at most 40 cycles."""
-    poles = poles[np.isfinite(poles)]
-    decay = np.abs(poles.real)
-    decay = decay[decay > 0]
-    if decay.size == 0:
+    finite = [p for p in poles.tolist() if np.isfinite(p)]
+    decay = [abs(p.real) for p in finite if p.real != 0]
+    if not decay:
         return np.linspace(0.0, 1.0, n)
-    t_end = 8.0 / decay.min()
-    osc = np.abs(poles.imag)
-    osc = osc[osc > 0]
-    if osc.size:
-        t_end = min(t_end, 40.0 * 2.0 * np.pi / osc.min())
-    return np.linspace(0.0, t_end, n)
+    t_end = 8.0 / min(decay)
+    osc = [abs(p.imag) for p in finite if p.imag != 0]
+    if osc:
+        t_end = min(t_end, 40.0 * 2.0 * np.pi / min(osc))
+    return _UNIT_GRID[n] * t_end if n in _UNIT_GRID else np.linspace(0.0, t_end, n)
 
 
 def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
@@ -52,16 +53,23 @@ def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
     if b.size >= a.size:
         quotient, b = np.polydiv(b, a)
         direct = float(quotient[-1])
-    r = np.polyval(b, p) / np.polyval(np.polyder(a), p)
     # A real polynomial's complex poles come in conjugate pairs whose terms are conjugate: keep
     # the upper one of each pair, twice its real part.
-    upper = p.imag >= 0
-    p, r = p[upper], r[upper]
-    w = np.where(p.imag > 0, 2.0, 1.0)
-    e = np.exp(np.outer(t, p))
-    h = (e @ (w * r)).real
-    y = direct + ((e - 1.0) @ (w * r / p)).real
+    p = p[p.imag >= 0]
+    da = a[:-1] * np.arange(a.size - 1, 0, -1)  # D'(s), highest power first
+    r = _horner(b, p) / _horner(da, p) * np.where(p.imag > 0, 2.0, 1.0)
+    e = np.exp(t[:, None] * p)
+    h = (e @ r).real
+    y = ((e - 1.0) @ (r / p)).real + direct
     return y, h
+
+
+def _horner(c: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """The polynomial ``c`` (highest power first) at ``x`` (np.polyval without its conversions)."""
+    y = np.zeros_like(x)
+    for ck in c.tolist():
+        y = y * x + ck
+    return y
 
 
 def _state_space(b: np.ndarray, a: np.ndarray, t: np.ndarray):
@@ -112,14 +120,13 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
     poles = _roots(a)
     if t_s is None:
         t_s = default_time_grid(poles)
-    fast = np.abs(poles[np.isfinite(poles)]).max() if poles.size else 1.0
-    early = _EARLY / fast
-    t_all = np.concatenate([t_s, early])
-    dist = np.abs(poles[:, None] - poles[None, :])
-    gap = np.min(dist[~np.eye(poles.size, dtype=bool)]) if poles.size > 1 else np.inf
+    listed = poles.tolist()
+    fast = max((abs(p) for p in listed if np.isfinite(p)), default=1.0)
+    t_all = np.concatenate([t_s, _EARLY / fast])
+    gap = min((abs(p - q) for k, p in enumerate(listed) for q in listed[k + 1 :]), default=np.inf)
     if gap > 1e-5 * fast:
         y, slope = _modal(b, a, t_all, poles)
     else:
         y, slope = _state_space(b, a, t_all)
     n = t_s.size
-    return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.max(np.abs(slope))))
+    return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.abs(slope).max()))
