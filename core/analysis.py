@@ -283,8 +283,8 @@ def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, la
             (np.asarray(on_ladder.q)[sl] / ref.q - 1.0) / tol.q,
             (np.asarray(on_ladder.gain_center_db)[sl] - ref.gain_center_db) / tol.gain_db,
         ])
-    same_sign = np.all(np.sign(np.asarray(on_ladder.gain_center)[sl]) == np.sign(ref.gain_center))
-    if not (np.all(np.isfinite(err)) and same_sign):
+    same_sign = (np.sign(np.asarray(on_ladder.gain_center)[sl]) == np.sign(ref.gain_center)).all()
+    if not (np.isfinite(err).all() and same_sign):
         return None
     worst = np.max(np.abs(err @ _BASIS.T), axis=0)  # (T,)
     if not (worst[0] > 1.0 and worst[-1] <= 1.0):
@@ -438,7 +438,7 @@ def _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref):
     den[:, list(exp.den_powers)] = den_l.T  # ascending powers of s here
     d0 = den[0]
     nz = np.flatnonzero(d0)
-    if nz.size < 2 or not np.all(np.isfinite(den)):
+    if nz.size < 2 or not np.isfinite(den).all():
         return None
     if w_ref is None:  # geometric mean of the finite, nonzero poles (core.rational.reference_w)
         w_ref = float((abs(d0[nz[0]]) / abs(d0[nz[-1]])) ** (1.0 / (nz[-1] - nz[0])))

@@ -87,7 +87,7 @@ def _positive(x: np.ndarray, field: str = "value") -> np.ndarray:
         x = np.asarray(x, dtype=float)
     except (TypeError, ValueError):
         raise InputError(field, "is not a number") from None
-    if not np.all(np.isfinite(x) & (x > 0)):
+    if not (np.isfinite(x) & (x > 0)).all():
         raise InputError(field, "must be a finite number greater than zero")
     return x
 

@@ -338,7 +338,7 @@ class Expansion:
         q = np.array(r.T, dtype=float, order="C")  # (n_var, B)
         if absent is not None:
             q[np.asarray(absent).T] = 1.0
-        bad = ~np.all(np.isfinite(q) & (q > 0), axis=0)
+        bad = ~(np.isfinite(q) & (q > 0)).all(axis=0)
         for j, v in enumerate(self.variables):
             if v.inverse:
                 np.divide(1.0, q[j], out=q[j])

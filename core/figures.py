@@ -57,7 +57,11 @@ class Figures:
 
     def item(self, i: int = 0) -> "Figures":
         """Member ``i`` as scalars (floats)."""
-        return Figures(*[float(np.asarray(getattr(self, name)).reshape(-1)[i]) for name in _FIELDS])
+        out = []
+        for name in _FIELDS:
+            v = getattr(self, name)
+            out.append(float(v) if isinstance(v, (float, int)) else float(np.asarray(v).reshape(-1)[i]))
+        return Figures(*out)
 
     def to_json(self, i: int = 0) -> dict:
         """CONTRACT.md's FIGURES object for member ``i`` (None where a figure is undefined)."""
@@ -187,11 +191,11 @@ def _biquad(h: Rational):
     num, den = h.num, h.den
     if den.shape[1] != 3 or num.shape[1] > 3 or num.shape[1] < 2:
         return None
-    if np.any(num[:, -1] != 0) or (num.shape[1] == 3 and np.any(num[:, 0] != 0)):
+    if (num[:, -1] != 0).any() or (num.shape[1] == 3 and (num[:, 0] != 0).any()):
         return None
     sign = np.sign(den[:, 0])
     a2, a1, a0 = den[:, 0] * sign, np.abs(den[:, 1]), den[:, 2] * sign
-    if not (np.all(a0 > 0) and np.all(a2 > 0) and np.all(a1 > 0) and np.all(np.isfinite(den))):
+    if not ((a0 > 0).all() and (a2 > 0).all() and (a1 > 0).all() and np.isfinite(den).all()):
         return None
     u_pk = a0 / a2
     x_high = (a1 + np.sqrt(a1 * a1 + 4.0 * a0 * a2)) / (2.0 * a2)
@@ -259,7 +263,7 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
             if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
                 inside = (x >= lo) & (x <= hi)
                 ok = (np.abs(step) <= 1e-5 * np.abs(x)) & inside  # quadratic: ~1e-10 after it
-                if not np.any(inside & ~ok):
+                if not (inside & ~ok).any():
                     break
     return x, ok
 
@@ -366,25 +370,25 @@ def _figures(h: Rational, u_pk, u_low, u_high, bw_x=None, hc=None) -> Figures:
     """Figures from the peak and half-power points (in ``u``); ``bw_x``, the bandwidth in
     ``ω/w_ref``, and ``hc``, ``H`` at the peak, where they are known without cancellation."""
     to_hz = h.w_ref / (2.0 * np.pi)
-    f0 = np.sqrt(u_pk) * to_hz
-    f_low = np.sqrt(u_low) * to_hz
-    f_high = np.sqrt(u_high) * to_hz
-    bw = f_high - f_low if bw_x is None else bw_x * to_hz
-    if hc is None:
-        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-            hc = h.at_f(f0[:, None])[:, 0]
-    phase = np.degrees(np.angle(hc))
-    phase = np.where(phase <= -180.0 + 1e-7, 180.0, phase)
-    sign = np.where(np.abs(phase) > 90.0, -1.0, 1.0)
-    mag = np.abs(hc)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        x_pk = np.sqrt(u_pk)  # ω/w_ref at the peak
+        f0 = x_pk * to_hz
+        f_low = np.sqrt(u_low) * to_hz
+        f_high = np.sqrt(u_high) * to_hz
+        bw = f_high - f_low if bw_x is None else bw_x * to_hz
+        if hc is None:
+            p = 1j * x_pk
+            hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
+        phase = np.angle(hc, deg=True)
+        phase[phase <= -180.0 + 1e-7] = 180.0
+        mag = np.abs(hc)
         return Figures(
             f0_hz=f0,
             q=f0 / bw,
             bw_hz=bw,
             f_low_hz=f_low,
             f_high_hz=f_high,
-            gain_center=sign * mag,
+            gain_center=np.where(np.abs(phase) > 90.0, -mag, mag),
             gain_center_db=20.0 * np.log10(np.where(mag > 0, mag, np.nan)),
             phase_center_deg=phase,
         )

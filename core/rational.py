@@ -31,12 +31,15 @@ _SNAP = 1e-13
 def polyval_batch(c: np.ndarray, x: np.ndarray) -> np.ndarray:
     """Evaluate polynomials ``c`` (shape ``(B, k)``, highest power first) at ``x`` (``(B, ...)``)."""
     x = np.asarray(x)
-    cc = np.asarray(c).reshape(c.shape + (1,) * (x.ndim - 1))
-    if cc.shape[1] == 1:
+    cc = c if x.ndim == 1 else np.asarray(c).reshape(c.shape + (1,) * (x.ndim - 1))
+    k = cc.shape[1]
+    if k == 1:
         return cc[:, 0] + np.zeros_like(x)
-    y = cc[:, 0] * x + cc[:, 1]
-    for i in range(2, cc.shape[1]):
-        y = y * x + cc[:, i]
+    y = cc[:, 0] * x  # a new array: the steps below work in place
+    for i in range(1, k - 1):
+        y += cc[:, i]
+        y *= x
+    y += cc[:, k - 1]
     return y
 
 

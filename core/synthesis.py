@@ -266,7 +266,7 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
     n = a.shape[1] - 1
     ok = a[:, 0] > 0
     if n <= 2:
-        return ok & np.all(a > 0, axis=1)
+        return ok & (a > 0).all(axis=1)
     width = n // 2 + 1
     r0 = np.zeros((a.shape[0], width))
     r1 = np.zeros((a.shape[0], width))
@@ -278,7 +278,7 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
             new = np.zeros_like(r0)
             new[:, :-1] = (r1[:, :1] * r0[:, 1:] - r0[:, :1] * r1[:, 1:]) / r1[:, :1]
             r0, r1 = r1, new
-    return ok & np.all(np.isfinite(r0), axis=1)
+    return ok & np.isfinite(r0).all(axis=1)
 
 
 def refine_measured(
