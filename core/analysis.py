@@ -431,29 +431,24 @@ def _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref):
     for j, r in enumerate(refs):
         ratios[1 + 2 * j, col[r]] *= up
         ratios[2 + 2 * j, col[r]] *= down
-    num_l, den_l = exp.coefficients(ratios, absent=absent)  # lowest power first, batch last
-    num = np.zeros((n_ideal + 1, exp.num_powers[-1] + 1))
-    den = np.zeros((n_ideal + 1, exp.den_powers[-1] + 1))
-    num[:, list(exp.num_powers)] = num_l.T
-    den[:, list(exp.den_powers)] = den_l.T  # ascending powers of s here
+    num, den = exp.dense(ratios, absent=absent)  # in p = s (the unit expansion), highest power first
     d0 = den[0]
     nz = np.flatnonzero(d0)
     if nz.size < 2 or not np.isfinite(den).all():
         return None
     if w_ref is None:  # geometric mean of the finite, nonzero poles (core.rational.reference_w)
-        w_ref = float((abs(d0[nz[0]]) / abs(d0[nz[-1]])) ** (1.0 / (nz[-1] - nz[0])))
-    # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: M from the member with 1/ωt = 1
+        w_ref = float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0])))
+    # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
     m_s = np.zeros(den.shape[1])
-    m_s[:-1] = (d0 - den[n_ideal])[1:]
-    to_p = w_ref ** np.arange(den.shape[1])
-    to_pn = w_ref ** np.arange(num.shape[1])
-    den_p = (den[:n_ideal] * to_p)[:, ::-1]
-    num_p = (num[:n_ideal] * to_pn)[:, ::-1]
-    scale = np.max(np.abs(den_p), axis=1, keepdims=True)
+    m_s[1:] = (d0 - den[n_ideal])[:-1]
+    to_p = w_ref ** np.arange(den.shape[1] - 1, -1, -1.0)  # c·s^k = c·w_ref^k·p^k
+    den_p = den[:n_ideal] * to_p
+    num_p = num[:n_ideal] * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
+    scale = np.abs(den_p).max(axis=1, keepdims=True)
     h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
     s0 = scale[0, 0]
     family = OpAmpFamily(
-        _lead_trim(num_p[:1] / s0)[0], _lead_trim(den_p[:1] / s0)[0], _lead_trim((m_s * to_p)[None, ::-1] / s0)[0],
+        _lead_trim(num_p[:1] / s0)[0], _lead_trim(den_p[:1] / s0)[0], _lead_trim((m_s * to_p)[None, :] / s0)[0],
         float(w_ref),
     )
     return float(w_ref), h, family

@@ -221,6 +221,17 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
     return exp.rational(ratios, w_ref=w_ref)
 
 
+@functools.lru_cache(maxsize=64)
+def _combination_index(sizes: tuple[int, ...]) -> np.ndarray:
+    """Index rows ``(len(sizes), N + 1)`` that enumerate every combination of options of these
+    counts (the last part fastest, as ``np.meshgrid(..., indexing="ij")``), then one more column
+    that points each part at the entry after its options (the nearest value)."""
+    grid = np.indices(sizes).reshape(len(sizes), -1)
+    index = np.concatenate([grid, np.array(sizes)[:, None]], axis=1)
+    index.setflags(write=False)
+    return index
+
+
 def choose_standard(
     topology: Topology,
     exact: Mapping[str, float],
@@ -252,9 +263,11 @@ def choose_standard(
         for i, o in zip(idx, opts):
             options[i] = o
         rounded[idx] = near
-    mesh = np.meshgrid(*options, indexing="ij")
-    # The last member rounds every part alone to its nearest standard value, for comparison.
-    over = {r: np.append(m.reshape(-1), v) for r, m, v in zip(free, mesh, rounded)}
+    # Every combination of the options, and last the member that rounds every part alone to its
+    # nearest standard value, for comparison: each part's options with its nearest value after
+    # them, taken by a combination index.
+    index = _combination_index(tuple(o.size for o in options))
+    over = {r: np.append(o, v)[k] for r, o, v, k in zip(free, options, rounded.tolist(), index)}
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
         h = _combinations(netlist, over, spec.w0)
         # exact polynomial roots up to a few thousand members; a grid around the target beyond

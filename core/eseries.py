@@ -18,6 +18,7 @@ Table 2 (E48–E192).
 from __future__ import annotations
 
 import bisect
+import functools
 import math
 
 import numpy as np
@@ -236,6 +237,14 @@ def candidates(x: float, series: str, *, count: int = 2) -> tuple[float, ...]:
 _POW10_LIST = _POW10.tolist()
 
 
+@functools.lru_cache(maxsize=None)
+def _series_lists(series: str) -> tuple[list[float], list[float], int]:
+    """A series' codes, their log10 mantissas (in [0, 1)) and code digits, as plain lists."""
+    codes, ndigits = _series(series)
+    codes_l = codes.tolist()
+    return codes_l, [math.log10(c) - (ndigits - 1) for c in codes_l], ndigits
+
+
 def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.ndarray]:
     """For a few values at once: the standard values a combination search offers each, and each
     one's nearest standard value.
@@ -254,9 +263,8 @@ def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.nda
     nearest : ndarray
         Shape ``(len(x),)``.
     """
-    codes, ndigits = _series(series)
-    codes_l, n = codes.tolist(), len(codes)
-    log_mant = [math.log10(c) - (ndigits - 1) for c in codes_l]
+    codes_l, log_mant, ndigits = _series_lists(series)
+    n = len(codes_l)
 
     def value(k: int) -> float:
         e = k // n - (ndigits - 1)

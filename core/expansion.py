@@ -228,6 +228,15 @@ def _term_matrix(coef: np.ndarray, slots: list, rows: int) -> np.ndarray:
     return out
 
 
+def _dense_matrix(term: np.ndarray, powers: tuple[int, ...]) -> np.ndarray:
+    """(M, top + 1) matrix from monomials to the coefficients of every power, highest first."""
+    top = powers[-1]
+    out = np.zeros((term.shape[1], top + 1))
+    for r, p in enumerate(powers):
+        out[:, top - p] = term[r]
+    return out
+
+
 class Expansion:
     """The coefficients of ``N`` and ``D`` of a netlist as polynomials in its parameters.
 
@@ -291,6 +300,14 @@ class Expansion:
         self._exps = fit.exps_f
         self._num_mat = _term_matrix(num, fit.num_slots, len(fit.num_powers))
         self._den_mat = _term_matrix(den, fit.den_slots, len(fit.den_powers))
+        # For :meth:`dense`: exponents over the log *ratios* (an inverse parameter's stamp is the
+        # reciprocal: its column negated), the log ratio that makes a stamp absent, and term
+        # matrices onto every power of p, highest first.
+        sign = np.array([-1.0 if v.inverse else 1.0 for v in self.variables])
+        self._exps_ratio = np.ascontiguousarray((fit.exps_f * sign[None, :]).T)  # (n_var, M)
+        self._absent_log = _LOG_ZERO * sign
+        self._num_dense = _dense_matrix(self._num_mat, self.num_powers)
+        self._den_dense = _dense_matrix(self._den_mat, self.den_powers)
 
     def _verify(self) -> None:
         rng = np.random.default_rng(20260101)
@@ -372,6 +389,42 @@ class Expansion:
             den[:, bad] = np.nan
         return num, den
 
+    def dense(
+        self, ratios: np.ndarray, *, absent: np.ndarray | None = None, w_ref: float | None = None
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """Numerator and denominator coefficients, batch first and every power of ``p = s/w_ref``
+        present, highest first: shapes ``(B, num_powers[-1] + 1)`` and ``(B, den_powers[-1] + 1)``.
+
+        ``ratios`` and ``absent`` as :meth:`coefficients` takes them; ``w_ref`` (rad/s) defaults
+        to the expansion's own. A member with a ratio that is not a finite number above zero is
+        NaN throughout. Up to :data:`_SMALL_BATCH` members this is ``exp(log ratios @ exponents)``
+        and one product per polynomial, about a dozen array calls in all.
+        """
+        r = np.asarray(ratios, dtype=float)
+        b = r.shape[0]
+        if b > _SMALL_BATCH:
+            num_c, den_c = self.coefficients(r, absent=absent)
+            num = np.zeros((b, self.num_powers[-1] + 1))
+            den = np.zeros((b, self.den_powers[-1] + 1))
+            num[:, [num.shape[1] - 1 - p for p in self.num_powers]] = num_c.T
+            den[:, [den.shape[1] - 1 - p for p in self.den_powers]] = den_c.T
+        else:
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                lr = np.log(r)
+                if absent is not None:
+                    lr = np.where(absent, self._absent_log, lr)
+                bad = ~np.isfinite(lr).all(axis=1)
+                mono = np.exp(lr @ self._exps_ratio)  # (B, M); an absent stamp gives exactly 0
+                num, den = mono @ self._num_dense, mono @ self._den_dense
+            if bad.any():
+                num[bad] = np.nan
+                den[bad] = np.nan
+        if w_ref is not None and w_ref != self.w_ref:
+            k = w_ref / self.w_ref  # c·(s/w_e)^n = c·k^n·(s/w_ref)^n
+            num *= k ** np.arange(num.shape[1] - 1, -1, -1.0)
+            den *= k ** np.arange(den.shape[1] - 1, -1, -1.0)
+        return num, den
+
     def rational(self, ratios: np.ndarray, *, w_ref: float | None = None) -> Rational:
         """Transfer functions for a batch of values given as ratios to the nominal ones.
 
@@ -388,21 +441,11 @@ class Expansion:
             Coefficients in ``p = s/w_ref``, highest power first, each member scaled so that its
             largest denominator coefficient is ±1.
         """
-        num_c, den_c = self.coefficients(ratios)
-        if w_ref is not None and w_ref != self.w_ref:
-            k = w_ref / self.w_ref  # c·(s/w_e)^n = c·k^n·(s/w_ref)^n
-            num_c = num_c * (k ** np.array(self.num_powers, dtype=float))[:, None]
-            den_c = den_c * (k ** np.array(self.den_powers, dtype=float))[:, None]
-        else:
-            w_ref = self.w_ref
-        b = num_c.shape[1]
-        num = np.zeros((b, self.num_powers[-1] + 1))
-        den = np.zeros((b, self.den_powers[-1] + 1))
-        num[:, [num.shape[1] - 1 - p for p in self.num_powers]] = num_c.T
-        den[:, [den.shape[1] - 1 - p for p in self.den_powers]] = den_c.T
+        num, den = self.dense(ratios, w_ref=w_ref)
+        w = self.w_ref if w_ref is None else float(w_ref)
         with np.errstate(invalid="ignore", divide="ignore"):
-            scale = np.max(np.abs(den), axis=1, keepdims=True)
-            return Rational(num / scale, den / scale, np.full(b, float(w_ref)))
+            scale = np.abs(den).max(axis=1, keepdims=True)
+            return Rational(num / scale, den / scale, np.full(num.shape[0], w))
 
     @property
     def pure_bandpass(self) -> bool:

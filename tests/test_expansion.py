@@ -1,0 +1,60 @@
+"""The coefficient expansion against the MNA solver it replaces (core.rational, itself checked
+against sympy's nodal derivations in test_circuits_sympy.py)."""
+
+import numpy as np
+import pytest
+
+from core.circuits import all_topologies
+from core.expansion import unit_expansion
+from core.mna import OpAmpModel, build_system
+from core.rational import rational_from_system
+
+
+def _ratios(netlist, exp, variables, rng, n):
+    base = np.array([v.value / u.value for v, u in zip(variables, exp.variables)])
+    return base * np.exp(rng.uniform(-0.3, 0.3, (n, base.size)))
+
+
+@pytest.mark.parametrize("topo", all_topologies(), ids=lambda t: t.id)
+def test_rational_matches_the_solver(topo):
+    netlist = topo.build(topo.example)
+    exp, variables = unit_expansion(netlist)
+    rng = np.random.default_rng(7)
+    ratios = _ratios(netlist, exp, variables, rng, 6)
+    w_ref = 2 * np.pi * 1e3
+    mine = exp.rational(ratios, w_ref=w_ref)
+    over = {v.name: ratios[:, j] * u.value for j, (v, u) in enumerate(zip(variables, exp.variables))}
+    ref = rational_from_system(build_system(netlist, overrides=over), w_ref)
+    s = 2j * np.pi * np.geomspace(100.0, 1e4, 7)
+    np.testing.assert_allclose(mine.at_s(s), ref.at_s(s), rtol=1e-9)
+
+
+@pytest.mark.parametrize("topo", all_topologies(), ids=lambda t: t.id)
+def test_dense_with_an_absent_opamp_pole_is_the_ideal_circuit(topo):
+    amp = OpAmpModel(gbw_hz=1e6, a0=1e5)
+    netlist = topo.build(topo.example)
+    exp, variables = unit_expansion(netlist, amp)
+    ratios = np.array([[v.value / u.value for v, u in zip(variables, exp.variables)]] * 2)
+    absent = np.zeros(ratios.shape, dtype=bool)
+    absent[0, [exp.names.index("gbw"), exp.names.index("a0")]] = True
+    num, den = exp.dense(ratios, absent=absent)
+    ideal = rational_from_system(build_system(netlist), exp.w_ref)
+    finite = rational_from_system(build_system(netlist, amp), exp.w_ref)
+    p = 1j * np.geomspace(0.1, 10.0, 5)
+    got = np.polyval(num[0], p) / np.polyval(den[0], p)
+    np.testing.assert_allclose(got, ideal.at_s(p * exp.w_ref)[0], rtol=1e-9)
+    got = np.polyval(num[1], p) / np.polyval(den[1], p)
+    np.testing.assert_allclose(got, finite.at_s(p * exp.w_ref)[0], rtol=1e-9)
+
+
+def test_a_member_with_an_unusable_value_is_nan_and_the_rest_are_not():
+    topo = next(t for t in all_topologies() if t.id == "mfb")
+    netlist = topo.build(topo.example)
+    exp, variables = unit_expansion(netlist)
+    ratios = np.ones((4, len(variables)))
+    ratios[1, 0] = 0.0
+    ratios[2, 1] = -1.0
+    ratios[3, 0] = np.inf
+    num, den = exp.dense(ratios)
+    assert np.isfinite(num[0]).all() and np.isfinite(den[0]).all()
+    assert np.isnan(num[1:]).all() and np.isnan(den[1:]).all()
