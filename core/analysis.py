@@ -5,6 +5,7 @@ Everything works from the netlist, so it holds for any circuit module.
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field
 from typing import Mapping
@@ -409,7 +410,17 @@ class _FirstPass:
 _UNIT_AMP = OpAmpModel(gbw_hz=1.0 / (2.0 * math.pi), a0=1.0)
 
 
-def _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref):
+@functools.lru_cache(maxsize=64)
+def _absent_mask(rows: int, n_var: int, gbw: int, a0: int) -> np.ndarray:
+    """Absent stamps of the first pass: 1/ωt in every member but the last, 1/A0 in all."""
+    absent = np.zeros((rows, n_var), dtype=bool)
+    absent[:-1, gbw] = True  # the ideal op-amp: 1/ωt = 1/A0 = 0
+    absent[:, a0] = True
+    absent.setflags(write=False)
+    return absent
+
+
+def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     """The first pass's transfer functions from the netlist's coefficient expansion
     (:mod:`core.expansion`, built once per circuit) instead of solves: ``(w_ref, h, family)``, or
     None where the expansion does not apply (not one op-amp, or a part the expansion does not
@@ -423,15 +434,15 @@ def _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref):
     col = {name: j for j, name in enumerate(exp.names)}
     if any(r not in col for r in refs):
         return None
-    # unit nominal values: the ratios are the values (the op-amp's are 1: stamps of 1)
-    ratios = np.tile(np.array([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal + 1, 1))
-    absent = np.zeros(ratios.shape, dtype=bool)
-    absent[:n_ideal, col["gbw"]] = True  # the ideal op-amp: 1/ωt = 1/A0 = 0
-    absent[:, col["a0"]] = True
-    for j, r in enumerate(refs):
-        ratios[1 + 2 * j, col[r]] *= up
-        ratios[2 + 2 * j, col[r]] *= down
-    num, den = exp.dense(ratios, absent=absent)  # in p = s (the unit expansion), highest power first
+    # unit nominal values: the ratios are the values (the op-amp's are 1: stamps of 1); member
+    # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
+    lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal + 1, 1))
+    cols = [col[r] for r in refs]
+    rows = np.arange(len(refs))
+    lr[1 + 2 * rows, cols] += _SENS_STEP
+    lr[2 + 2 * rows, cols] -= _SENS_STEP
+    num, den = exp.dense_log(lr, absent=_absent_mask(n_ideal + 1, len(variables), col["gbw"], col["a0"]))
+    # in p = s (the unit expansion), highest power first
     d0 = den[0]
     nz = np.flatnonzero(d0)
     if nz.size < 2 or not np.isfinite(den).all():
@@ -463,11 +474,11 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
     values = dict(parts if parts is not None else netlist.values())
     refs = [r for r, v in values.items() if v > 0]
     n_ideal = 1 + 2 * len(refs)
-    up, down = math.exp(_SENS_STEP), math.exp(-_SENS_STEP)
-    quick = _first_pass_expanded(netlist, refs, n_ideal, up, down, w_ref)
+    quick = _first_pass_expanded(netlist, refs, n_ideal, w_ref)
     if quick is not None:
         w_ref, h, family = quick
     else:
+        up, down = math.exp(_SENS_STEP), math.exp(-_SENS_STEP)
         over = {}
         for j, r in enumerate(refs):
             col = np.full(n_ideal, values[r])

@@ -409,20 +409,26 @@ class Expansion:
             num[:, [num.shape[1] - 1 - p for p in self.num_powers]] = num_c.T
             den[:, [den.shape[1] - 1 - p for p in self.den_powers]] = den_c.T
         else:
-            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            with np.errstate(divide="ignore", invalid="ignore"):
                 lr = np.log(r)
-                if absent is not None:
-                    lr = np.where(absent, self._absent_log, lr)
-                bad = ~np.isfinite(lr).all(axis=1)
-                mono = np.exp(lr @ self._exps_ratio)  # (B, M); an absent stamp gives exactly 0
-                num, den = mono @ self._num_dense, mono @ self._den_dense
-            if bad.any():
-                num[bad] = np.nan
-                den[bad] = np.nan
+            num, den = self.dense_log(lr, absent=absent)
         if w_ref is not None and w_ref != self.w_ref:
             k = w_ref / self.w_ref  # c·(s/w_e)^n = c·k^n·(s/w_ref)^n
             num *= k ** np.arange(num.shape[1] - 1, -1, -1.0)
             den *= k ** np.arange(den.shape[1] - 1, -1, -1.0)
+        return num, den
+
+    def dense_log(self, log_ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`dense` from the natural logs of the ratios (any batch size, the expansion's
+        ``w_ref``): ``exp(log ratios @ exponents)`` and one product per polynomial."""
+        with np.errstate(invalid="ignore", over="ignore"):
+            lr = log_ratios if absent is None else np.where(absent, self._absent_log, log_ratios)
+            bad = ~np.isfinite(lr).all(axis=1)
+            mono = np.exp(lr @ self._exps_ratio)  # (B, M); an absent stamp gives exactly 0
+            num, den = mono @ self._num_dense, mono @ self._den_dense
+        if bad.any():
+            num[bad] = np.nan
+            den[bad] = np.nan
         return num, den
 
     def rational(self, ratios: np.ndarray, *, w_ref: float | None = None) -> Rational:

@@ -379,17 +379,22 @@ def _figures(h: Rational, u_pk, u_low, u_high, bw_x=None, hc=None) -> Figures:
         if hc is None:
             p = 1j * x_pk
             hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
-        phase = np.angle(hc, deg=True)
+        re, im = hc.real, hc.imag
+        phase = np.arctan2(im, re)
+        phase *= 180.0 / np.pi
         phase[phase <= -180.0 + 1e-7] = 180.0
-        mag = np.abs(hc)
+        mag = np.hypot(re, im)
+        db = np.log10(mag)  # −inf at a zero gain: NaN below
+        db *= 20.0
+        db[mag == 0] = np.nan
         return Figures(
             f0_hz=f0,
             q=f0 / bw,
             bw_hz=bw,
             f_low_hz=f_low,
             f_high_hz=f_high,
-            gain_center=np.where(np.abs(phase) > 90.0, -mag, mag),
-            gain_center_db=20.0 * np.log10(np.where(mag > 0, mag, np.nan)),
+            gain_center=np.copysign(mag, re + 0.0),  # negative where |phase| > 90° (+ 0.0 clears a −0)
+            gain_center_db=db,
             phase_center_deg=phase,
         )
 
