@@ -206,9 +206,12 @@ _LADDER_POINTS = 61
 _FINE_POINTS = 48
 
 
+_UNIT_LADDER = np.logspace(*_LADDER_DECADES, _LADDER_POINTS)
+
+
 def _ladder(f_hz: float) -> np.ndarray:
     """The coarse GBW ladder (Hz): f/10 to f·10⁹."""
-    return f_hz * np.logspace(*_LADDER_DECADES, _LADDER_POINTS)
+    return f_hz * _UNIT_LADDER
 
 
 def _with_gbw(netlist: Netlist, family: OpAmpFamily | None, w_ref: float, gbw: np.ndarray, a0: float) -> Rational:
@@ -278,16 +281,15 @@ def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, la
     if j < 1 or j + 2 >= ladder.size:
         return None
     sl = slice(j - 1, j + 3)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        err = np.stack([
-            (np.asarray(on_ladder.f0_hz)[sl] / ref.f0_hz - 1.0) / tol.f0,
-            (np.asarray(on_ladder.q)[sl] / ref.q - 1.0) / tol.q,
-            (np.asarray(on_ladder.gain_center_db)[sl] - ref.gain_center_db) / tol.gain_db,
-        ])
-    same_sign = (np.sign(np.asarray(on_ladder.gain_center)[sl]) == np.sign(ref.gain_center)).all()
-    if not (np.isfinite(err).all() and same_sign):
+    # errors over tolerances at the four points, as plain numbers (a handful of them)
+    f0, q, db = (np.asarray(v)[sl].tolist() for v in (on_ladder.f0_hz, on_ladder.q, on_ladder.gain_center_db))
+    err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0], [(v / ref.q - 1.0) / tol.q for v in q],
+           [(v - ref.gain_center_db) / tol.gain_db for v in db]]
+    if not all(math.isfinite(e) for row in err for e in row):
         return None
-    worst = np.max(np.abs(err @ _BASIS.T), axis=0)  # (T,)
+    if not all(math.copysign(1.0, g) == math.copysign(1.0, ref.gain_center) for g in np.asarray(on_ladder.gain_center)[sl].tolist()):
+        return None
+    worst = np.abs(_BASIS @ np.array(err).T).max(axis=1)  # (T,)
     if not (worst[0] > 1.0 and worst[-1] <= 1.0):
         return None
     k = int(np.flatnonzero(worst > 1.0)[-1]) + 1
