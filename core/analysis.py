@@ -18,7 +18,7 @@ from .mna import IDEAL, OpAmpModel, build_system, solve_at
 from .netlist import Element, Netlist
 from .expansion import ExpansionUnavailable, unit_expansion
 from .rational import OpAmpFamily, Rational, _lead_trim, rational_and_family, rational_from_system, reference_w
-from .timeresponse import StepResponse, step_response
+from .timeresponse import StepResponse, max_step_slope, step_response
 
 __all__ = [
     "Tolerances",
@@ -122,7 +122,14 @@ class Analysis:
     sensitivity: Mapping[str, Mapping[str, float]]
     h_ideal: Rational
     h_actual: Rational | None
-    step: StepResponse = field(repr=False)
+    _step: StepResponse | None = field(default=None, repr=False, compare=False)
+
+    @property
+    def step(self) -> StepResponse:
+        """The ideal-op-amp unit-step response (computed when first asked for)."""
+        if self._step is None:
+            object.__setattr__(self, "_step", step_response(self.h_ideal))
+        return self._step
 
     @property
     def stable_ideal(self) -> bool:
@@ -359,7 +366,7 @@ def _opamp_output_current(netlist: Netlist, f_hz: float, rload_ohm: float | None
 def requirements(
     netlist: Netlist,
     ideal: Figures,
-    step: StepResponse,
+    step: StepResponse | float,
     *,
     vin_v: float = 1.0,
     a0: float = DEFAULT_A0,
@@ -370,7 +377,8 @@ def requirements(
     """The op-amp needs of a candidate (see BRIEF.md's definitions).
 
     Slew for a sine of peak ``vin_v`` at f0: ``2π·f0·|gain|·vin``; for a step of height ``vin_v``:
-    the largest ``|dv_out/dt|`` of the step response; output current: the peak current the op-amp
+    the largest ``|dv_out/dt|`` of the step response (``step``: the response, or its largest
+    ``|slope|`` in 1/s per volt, :func:`core.timeresponse.max_step_slope`); output current: the peak current the op-amp
     output delivers at f0 into the circuit and the optional load. ``gbw_search`` is a finished
     :func:`required_gbw`, when the caller has it.
     """
@@ -390,7 +398,7 @@ def requirements(
         vin_v=vin_v,
         vout_peak_v=gain * vin_v,
         slew_sine_v_per_us=2.0 * math.pi * ref.f0_hz * gain * vin_v * 1e-6,
-        slew_step_v_per_us=step.max_slope_per_s * vin_v * 1e-6,
+        slew_step_v_per_us=(step if isinstance(step, float) else step.max_slope_per_s) * vin_v * 1e-6,
         iout_peak_ma=iout * 1e3,
         gbw_rule_of_thumb_hz=rule,
     )
@@ -559,9 +567,8 @@ def analyze(
         h_actual = _with_gbw(netlist, first.family, w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
         if actual is None or not bool(actual.valid[0]):  # far from the ideal: measured exactly
             actual = measure(h_actual)
-    step = step_response(h_ideal)
     req = requirements(
-        netlist, ideal, step, vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
+        netlist, ideal, max_step_slope(h_ideal), vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
         gbw_search=gbw_search,
     )
     return Analysis(
@@ -573,7 +580,6 @@ def analyze(
         sensitivity=sens,
         h_ideal=h_ideal,
         h_actual=h_actual,
-        step=step,
     )
 
 

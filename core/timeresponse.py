@@ -15,9 +15,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .rational import Rational
+from .rational import Rational, _trim_leading
 
-__all__ = ["StepResponse", "step_response", "default_time_grid"]
+__all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -130,3 +130,20 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
         y, slope = _state_space(b, a, t_all)
     n = t_s.size
     return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.abs(slope).max()))
+
+
+def max_step_slope(h: Rational, *, i: int = 0) -> float:
+    """The largest ``|dy/dt|`` (1/s per volt of step) of member ``i``'s unit-step response.
+
+    For a stable pure second-order band-pass ``b1·p/(a2·p² + a1·p + a0)`` (``p = s/w_ref``) it is
+    ``|h(0+)| = |b1|·w_ref/a2`` exactly: the impulse response starts there and every later
+    extremum is smaller by ``e^(−ω0·t/(2Q))`` (derived beside the test of the step slew in
+    tests/test_requirements.py), which equals ``2π·BW·|G|``. Any other circuit:
+    :func:`step_response`'s ``max_slope_per_s``.
+    """
+    num, den = _trim_leading(h.num[i]), _trim_leading(h.den[i])
+    if den.size == 3 and num.size == 2 and num[1] == 0 and num[0] != 0:
+        a2, a1, a0 = den.tolist()
+        if (a2 > 0 and a1 > 0 and a0 > 0) or (a2 < 0 and a1 < 0 and a0 < 0):
+            return abs(float(num[0]) * float(h.w_ref[i]) / a2)
+    return step_response(h, i=i).max_slope_per_s

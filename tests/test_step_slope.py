@@ -1,0 +1,39 @@
+"""The largest step slope (the impulse response's peak) against scipy.signal.impulse."""
+
+import numpy as np
+import pytest
+import scipy.signal
+
+from core.rational import Rational
+from core.timeresponse import max_step_slope, step_response
+
+
+def _biquad(w0, q, gain, w_ref):
+    """H(s) = gain·(w0/q)·s / (s² + (w0/q)·s + w0²), written in p = s/w_ref."""
+    b = np.array([[gain * (w0 / q) * w_ref, 0.0]])
+    a = np.array([[w_ref**2, (w0 / q) * w_ref, w0**2]])
+    return Rational(b, a, np.array([w_ref]))
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_closed_form_is_the_peak_of_scipys_impulse_response(seed):
+    rng = np.random.default_rng(seed)
+    w0 = 2 * np.pi * 10 ** rng.uniform(0, 6)
+    q = 10 ** rng.uniform(np.log10(0.3), np.log10(50))
+    gain = rng.choice([-1, 1]) * 10 ** rng.uniform(-1, 2)
+    h = _biquad(w0, q, gain, w_ref=w0 * 10 ** rng.uniform(-0.5, 0.5))
+    got = max_step_slope(h)
+    # scipy.signal.impulse on a fine grid from t = 0 over many decay times
+    t = np.linspace(0.0, 16.0 * max(q, 1.0 / q) / w0, 20001)
+    _, y = scipy.signal.impulse(([gain * w0 / q, 0.0], [1.0, w0 / q, w0 * w0]), T=t)
+    peak = np.max(np.abs(y))
+    assert got == pytest.approx(abs(y[0]), rel=1e-9)  # the peak sits at t = 0+
+    assert peak <= got * (1 + 1e-9)
+    # and the sampled step response agrees
+    assert step_response(h).max_slope_per_s == pytest.approx(got, rel=1e-9)
+
+
+def test_a_circuit_that_is_not_a_pure_biquad_uses_the_step_response():
+    # a band-pass with an extra real pole: no closed form here
+    h = Rational(np.array([[0.0, 1.0, 0.0]]), np.array([[0.1, 1.1, 1.2, 1.0]]), np.array([1.0]))
+    assert max_step_slope(h) == step_response(h).max_slope_per_s
