@@ -119,20 +119,17 @@ def capacitor_series(series: str) -> str:
     return "E3" if series == "E3" else "E6"
 
 
-def _out_of(x: np.ndarray, lo: float, hi: float) -> np.ndarray:
-    """Decades by which ``x`` lies outside ``[lo, hi]`` (0 inside)."""
-    lx = np.log10(x)
-    return np.maximum(0.0, math.log10(lo) - lx) + np.maximum(0.0, lx - math.log10(hi))
-
-
 @functools.lru_cache(maxsize=None)
-def _level_capacitors(cs: str) -> np.ndarray:
-    """Capacitor values a level may take: E6 (or E3) from 0.1 pF to 1 F, snapped into E48+ series."""
+def _level_capacitors(cs: str) -> tuple[np.ndarray, np.ndarray]:
+    """Capacitor values a level may take: E6 (or E3) from 0.1 pF to 1 F, snapped into E48+ series;
+    and their log10."""
     caps = values_between(1e-13, 1.0, cs if cs in ("E3", "E6") else "E6")
     if cs not in ("E3", "E6"):  # E48 and finer have no E6 values: take their nearest members
         caps = np.unique(nearest_array(caps, cs))
+    logs = np.log10(caps)
     caps.setflags(write=False)
-    return caps
+    logs.setflags(write=False)
+    return caps, logs
 
 
 def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref: str, series: str) -> float:
@@ -149,23 +146,24 @@ def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref:
     float
         The level ``s``.
     """
-    s = _level_capacitors(capacitor_series(series)) / unit[level_ref]
-    cost = np.zeros_like(s)
-    r_logs = []
-    for ref, v in unit.items():
-        if v <= 0:
-            continue
-        kind = kinds[ref]
-        x = v * s if kind == "C" else v / s
-        lo, hi = PREFERRED[kind]
-        cost += (2.0 if kind == "L" else 1.0) * _out_of(x, lo, hi)
-        if kind == "R":
-            r_logs.append(np.log10(x))
-    if r_logs:
-        r = np.array(r_logs)
+    caps, log_caps = _level_capacitors(capacitor_series(series))
+    log_s = log_caps - math.log10(unit[level_ref])  # log10 of every level on offer
+    parts = [(ref, v) for ref, v in unit.items() if v > 0]
+    kinds_of = [kinds[ref] for ref, _ in parts]
+    # log10 of every part at every level, (parts, levels): capacitors scale up, the rest down
+    sign = np.array([1.0 if k == "C" else -1.0 for k in kinds_of])
+    lx = np.log10([v for _, v in parts])[:, None] + sign[:, None] * log_s[None, :]
+    lo = np.array([math.log10(PREFERRED[k][0]) for k in kinds_of])[:, None]
+    hi = np.array([math.log10(PREFERRED[k][1]) for k in kinds_of])[:, None]
+    weight = np.array([2.0 if k == "L" else 1.0 for k in kinds_of])  # decades outside, inductors twice
+    cost = weight @ (np.maximum(0.0, lo - lx) + np.maximum(0.0, lx - hi))
+    rows = [i for i, k in enumerate(kinds_of) if k == "R"]
+    if rows:
+        r = lx[rows]
         centre = 0.5 * (r.min(axis=0) + r.max(axis=0))
         cost += 0.05 * np.abs(centre - math.log10(R_CENTRE_OHM))
-    return float(s[int(np.argmin(cost))])
+    i = int(np.argmin(cost))
+    return float(caps[i] / unit[level_ref])
 
 
 def solve_pinned(
