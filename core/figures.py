@@ -60,7 +60,7 @@ class Figures:
         out = []
         for name in _FIELDS:
             v = getattr(self, name)
-            out.append(float(v) if isinstance(v, (float, int)) else float(np.asarray(v).reshape(-1)[i]))
+            out.append(float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)))  # flat index
         return Figures(*out)
 
     def to_json(self, i: int = 0) -> dict:
