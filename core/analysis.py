@@ -294,7 +294,8 @@ def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, la
            [(v - ref.gain_center_db) / tol.gain_db for v in db]]
     if not all(math.isfinite(e) for row in err for e in row):
         return None
-    if not all(math.copysign(1.0, g) == math.copysign(1.0, ref.gain_center) for g in np.asarray(on_ladder.gain_center)[sl].tolist()):
+    sign = math.copysign(1.0, ref.gain_center)
+    if not all(math.copysign(1.0, g) == sign for g in np.asarray(on_ladder.gain_center)[sl].tolist()):
         return None
     worst = np.abs(_BASIS @ np.array(err).T).max(axis=1)  # (T,)
     if not (worst[0] > 1.0 and worst[-1] <= 1.0):
@@ -378,9 +379,9 @@ def requirements(
 
     Slew for a sine of peak ``vin_v`` at f0: ``2π·f0·|gain|·vin``; for a step of height ``vin_v``:
     the largest ``|dv_out/dt|`` of the step response (``step``: the response, or its largest
-    ``|slope|`` in 1/s per volt, :func:`core.timeresponse.max_step_slope`); output current: the peak current the op-amp
-    output delivers at f0 into the circuit and the optional load. ``gbw_search`` is a finished
-    :func:`required_gbw`, when the caller has it.
+    ``|slope|`` in 1/s per volt, :func:`core.timeresponse.max_step_slope`); output current: the
+    peak current the op-amp output delivers at f0 into the circuit and the optional load.
+    ``gbw_search`` is a finished :func:`required_gbw`, when the caller has it.
     """
     ref = ideal.item()
     if gbw_search is None:

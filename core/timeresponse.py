@@ -11,6 +11,7 @@ instead (scipy.linalg.expm, batched over time).
 
 from __future__ import annotations
 
+import cmath
 from dataclasses import dataclass
 
 import numpy as np
@@ -35,7 +36,7 @@ _UNIT_GRID = {1000: np.linspace(0.0, 1.0, 1000)}  # the default grid's shape, sc
 
 def default_time_grid(poles: np.ndarray, n: int = 1000) -> np.ndarray:
     """Times from 0 to where the slowest pole has decayed (8 time constants), at most 40 cycles."""
-    finite = [p for p in poles.tolist() if np.isfinite(p)]
+    finite = [p for p in poles.tolist() if cmath.isfinite(p)]
     decay = [abs(p.real) for p in finite if p.real != 0]
     if not decay:
         return np.linspace(0.0, 1.0, n)
@@ -121,7 +122,7 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
     if t_s is None:
         t_s = default_time_grid(poles)
     listed = poles.tolist()
-    fast = max((abs(p) for p in listed if np.isfinite(p)), default=1.0)
+    fast = max((abs(p) for p in listed if cmath.isfinite(p)), default=1.0)
     t_all = np.concatenate([t_s, _EARLY / fast])
     gap = min((abs(p - q) for k, p in enumerate(listed) for q in listed[k + 1 :]), default=np.inf)
     if gap > 1e-5 * fast:
