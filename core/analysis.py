@@ -29,6 +29,7 @@ __all__ = [
     "ideal_figures",
     "required_gbw",
     "requirements",
+    "opamp_output_current",
     "sensitivities",
     "analyze",
     "sweep",
@@ -355,13 +356,22 @@ def required_gbw(
     return _search_gbw(netlist, ideal, family, w_ref, a0=a0, tolerances=tolerances)[0]
 
 
-def _opamp_output_current(netlist: Netlist, f_hz: float, rload_ohm: float | None) -> float:
-    """Peak op-amp output current (A) per volt of input at ``f_hz``, ideal op-amp, optional load."""
+def opamp_output_current(
+    netlist: Netlist, f_hz: float, *, rload_ohm: float | None = None, load: Netlist | None = None
+) -> float:
+    """Peak op-amp output current (A) per volt of input at ``f_hz``, ideal op-amps.
+
+    The largest over the netlist's op-amps of the current each delivers into the circuit, into
+    an optional load resistor ``rload_ohm`` (ohm) from the output to ground and into an optional
+    circuit ``load`` whose input is driven by the output (the next stage of a chain).
+    """
+    own = [e.ref for e in netlist.opamps]
     if rload_ohm is not None:
         netlist = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
+    if load is not None:
+        netlist = netlist.driving(load)
     x, layout = solve_at(netlist, 2j * math.pi * f_hz)
-    rows = layout.opamp_row.values()
-    return float(max(abs(x[r]) for r in rows)) if rows else 0.0
+    return float(max(abs(x[layout.opamp_row[r]]) for r in own)) if own else 0.0
 
 
 def requirements(
@@ -390,7 +400,7 @@ def requirements(
     gain = abs(ref.gain_center)
     # Common practice, no source: open-loop gain at f0 some 40 dB above the peak gain.
     rule = 100.0 * gain * ref.f0_hz if math.isfinite(gain) else math.nan
-    iout = _opamp_output_current(netlist, ref.f0_hz, rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
+    iout = opamp_output_current(netlist, ref.f0_hz, rload_ohm=rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
     return Requirements(
         gbw_hz=gbw,
         gbw_reason=reason,

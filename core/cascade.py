@@ -27,8 +27,10 @@ Rules
   the chain's response is the product of the stages' responses (ideal and finite op-amp alike).
 - Each stage's amplifier needs are computed for the amplitude that reaches it when the chain's
   input is a sine of peak ``vin`` at the stage's own f0: ``vin·|H_1…H_(k−1)(f_k)|`` (its
-  ``requirements.vin_v``); its ``peak_internal_gain_db`` is the peak over all frequencies of the
-  response from the chain's input to its output, with the chosen parts.
+  ``requirements.vin_v``). A stage's output current includes the current into the next stage's
+  input (the two circuits solved together at the stage's f0); the load resistor of the
+  conditions is on the last stage's output only. Its ``peak_internal_gain_db`` is the peak over
+  all frequencies of the response from the chain's input to its output, with the chosen parts.
 - A sane spread (common practice, no source): the largest resistor at most ``MAX_R_SPREAD`` times
   the smallest, the largest capacitor at most ``MAX_C_SPREAD`` times the smallest.
 - The overall figures are measured on the built chain's response: the band edges where it crosses
@@ -852,6 +854,23 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
     return _assemble(settings, conditions, plan, tuple(built))
 
 
+def _loaded(stages: tuple[Stage, ...]) -> tuple[Stage, ...]:
+    """Built stages with each one's output current into its own circuit and the next stage's
+    input (module notes); the last stage keeps its own, with the conditions' load."""
+    from .analysis import opamp_output_current
+
+    out = list(stages)
+    for k, (st, nxt) in enumerate(zip(stages[:-1], stages[1:])):
+        an = st.result.analysis
+        f0 = an.ideal.item().f0_hz
+        if not math.isfinite(f0):
+            continue
+        amps = opamp_output_current(an.netlist, f0, load=nxt.result.analysis.netlist) * st.vin_v
+        req = replace(an.requirements, iout_peak_ma=amps * 1e3)
+        out[k] = replace(st, result=replace(st.result, analysis=replace(an, requirements=req)))
+    return tuple(out)
+
+
 def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan, stages: tuple[Stage, ...]) -> Cascade:
     """Measure built stages as a whole chain (module notes)."""
     q_max = max(s.q for s in plan.sections)
@@ -861,6 +880,7 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
     shell = Cascade(settings, conditions, plan, stages, feasible, reason, None, None, None, None, None, f)
     if not feasible:
         return shell
+    stages = _loaded(stages)
     peaks_db = _peaks_internal(stages, shell.stage_responses, f, q_max)
     stages = tuple(replace(s, peak_internal_gain_db=float(p)) for s, p in zip(stages, peaks_db))
     shell = replace(shell, stages=stages)

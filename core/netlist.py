@@ -9,7 +9,7 @@ against ground.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from .errors import InputError
 
@@ -125,6 +125,27 @@ class Netlist:
     def with_element(self, element: Element) -> "Netlist":
         """A copy with one more element (a load resistor, say)."""
         return Netlist(self.elements + (element,), self.ground, self.input, self.output)
+
+    def driving(self, load: "Netlist", tag: str = "next:") -> "Netlist":
+        """A copy whose output also drives ``load`` (the next stage of a chain, say).
+
+        ``load``'s input node is joined to this output and its ground to this ground; its other
+        nodes and its references get ``tag`` in front. Input and output stay this netlist's.
+        """
+
+        def node(n: str) -> str:
+            if n == load.ground:
+                return self.ground
+            if n == load.input:
+                return self.output
+            return tag + n
+
+        extra = tuple(
+            replace(e, ref=tag + e.ref, nodes=tuple(node(n) for n in e.nodes),
+                    series_ref=tag + e.series_ref if e.series_ref else None)
+            for e in load.elements
+        )
+        return Netlist(self.elements + extra, self.ground, self.input, self.output)
 
     def to_json(self) -> dict:
         """The netlist as CONTRACT.md's NETLIST object."""

@@ -34,6 +34,7 @@ def test_sections_reproduce_with_analyze():
     assert out["response"] == "chebyshev" and out["order"] == 4 and out["feasible"] is True
     assert len(out["sections"]) == 4
     assert_allclose(out["overall"]["f0_hz"], math.sqrt(out["overall"]["f_low_hz"] * out["overall"]["f_high_hz"]), rtol=1e-12)
+    last = len(out["sections"])
     for sec in out["sections"]:
         parts = [f"{k}={v!r}" for k, v in sec["chosen"].items()]
         req = sec["requirements"]
@@ -45,6 +46,8 @@ def test_sections_reproduce_with_analyze():
         for key in FIGURES:
             assert_allclose(got["ideal"][key], sec["ideal"][key], rtol=1e-9, atol=1e-9)
         for key in ("gbw_hz", "vout_peak_v", "slew_sine_v_per_us", "slew_step_v_per_us", "iout_peak_ma"):
+            if key == "iout_peak_ma" and sec["index"] < last:
+                continue  # an inner stage also drives the next stage's input (tests/test_cascade.py)
             assert_allclose(got["requirements"][key], sec["requirements"][key], rtol=1e-9)
 
 
