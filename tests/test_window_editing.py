@@ -199,3 +199,23 @@ def test_duplicate_and_pin_buttons(window, qtbot):
     with qtbot.waitSignal(window.state.session_changed):
         qtbot.mouseClick(col.pin, QtCore.Qt.MouseButton.LeftButton)
     assert window.state.session.candidate(col.candidate_id).pinned
+
+
+def test_pole_zero_plot_names_the_poles_outside_its_view(window, qtbot):
+    # The demo's 3 MHz op-amp adds a real pole far from the 5.6 kHz band (an op-amp pole lies near
+    # −GBW times the feedback factor; common practice, no source): the note names it per candidate.
+    plot = window.plot_grid.plots["pole_zero"]
+    text = plot.far_note.toPlainText()
+    assert plot.far_note.isVisible() and text.startswith("outside the view")
+    for cid, res in window.state.results.items():
+        far = max(abs(p) for p in res.poles_hz)
+        assert far > 100 * window.state.session.target.f0_hz
+        assert f"{cid} pole" in text
+    from pathlib import Path
+
+    out = Path(__file__).resolve().parent / "_artifacts"
+    out.mkdir(exist_ok=True)
+    plot.grab().save(str(out / "pole_zero_note.png"))
+    # zoomed out far enough, nothing is outside and the note goes
+    plot.getPlotItem().getViewBox().setRange(xRange=(-1e9, 1e9), yRange=(-1e9, 1e9), padding=0)
+    assert plot.far_note.toPlainText() == "" and not plot.far_note.isVisible()

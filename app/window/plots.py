@@ -19,7 +19,7 @@ from core.values import format_value
 
 from .results import CandidateResult
 from .state import WorkbenchState
-from .theme import INK
+from .theme import INK, MUTED
 
 __all__ = [
     "CandidatePlot",
@@ -359,8 +359,9 @@ class GbwErrorPlot(CandidatePlot):
 class PoleZeroPlot(CandidatePlot):
     """Poles (each candidate's own symbol) and zeros (rings) in the s-plane, in Hz (s / 2π).
 
-    The view centres on the band: a dotted circle has the radius of the target f0; an op-amp's own
-    far pole lies outside (zoom out with the mouse wheel to see it).
+    The view centres on the band: a dotted circle has the radius of the target f0. Poles and zeros
+    outside the view (an op-amp's own far pole, mostly) are listed in a note at its top left, each
+    with its candidate and its distance |s|/2π (zoom out with the mouse wheel to see them).
     """
 
     key = "pole_zero"
@@ -397,6 +398,32 @@ class PoleZeroPlot(CandidatePlot):
             res = self.state.results[cid]
             item.setPen(pg.mkPen(self.state.style(cid).colour, width=1.5))
             self.zero_items[cid].setData(res.zeros_hz.real, res.zeros_hz.imag)
+        self._update_far_note()
+
+    def far_text(self) -> str:
+        """The note on the poles and zeros outside the current view ("" when there are none)."""
+        (x0, x1), (y0, y1) = self.getPlotItem().getViewBox().viewRange()
+        parts = []
+        for cid in self.curves:
+            res = self.state.results[cid]
+            for what, points in (("pole", res.poles_hz), ("zero", res.zeros_hz)):
+                out = [p for p in np.asarray(points).tolist() if not (x0 <= p.real <= x1 and y0 <= p.imag <= y1)]
+                far = sorted(abs(p) for p in out if math.isfinite(abs(p)))
+                if far:
+                    where = ", ".join(_short(r, "Hz") for r in far[:3]) + (" …" if len(far) > 3 else "")
+                    parts.append(f"{cid} {what}{'s' if len(far) > 1 else ''} {where}")
+        return "\n".join(["outside the view, |s|/2π:"] + parts) if parts else ""
+
+    def _update_far_note(self) -> None:
+        note = getattr(self, "far_note", None)
+        if note is None:
+            return
+        text = self.far_text()
+        if text != note.toPlainText():
+            note.setText(text)
+        note.setVisible(bool(text))
+        (x0, _), (_, y1) = self.getPlotItem().getViewBox().viewRange()
+        note.setPos(x0, y1)
 
     def _setup_extras(self, item):
         self.circle = QtWidgets.QGraphicsEllipseItem()
@@ -405,6 +432,12 @@ class PoleZeroPlot(CandidatePlot):
         item.addItem(pg.InfiniteLine(angle=90, pos=0.0, pen=pg.mkPen("#b5b9bf", width=1)), ignoreBounds=True)
         item.addItem(pg.InfiniteLine(angle=0, pos=0.0, pen=pg.mkPen("#b5b9bf", width=1)), ignoreBounds=True)
         self._range_f0 = None
+        # top left of whatever the view shows, in small muted type
+        self.far_note = pg.TextItem("", color=MUTED, anchor=(0, 0), fill=pg.mkBrush(255, 255, 255, 210))
+        self.far_note.setFont(QtGui.QFont(self.font().family(), 8))
+        self.far_note.setZValue(-5)  # under the markers: a pole near the corner stays on top
+        item.addItem(self.far_note, ignoreBounds=True)
+        item.getViewBox().sigRangeChanged.connect(lambda *_: self._update_far_note())
 
     def _update_extras(self):
         f0 = self.state.session.target.f0_hz
