@@ -219,3 +219,26 @@ def test_pole_zero_plot_names_the_poles_outside_its_view(window, qtbot):
     # zoomed out far enough, nothing is outside and the note goes
     plot.getPlotItem().getViewBox().setRange(xRange=(-1e9, 1e9), yRange=(-1e9, 1e9), padding=0)
     assert plot.far_note.toPlainText() == "" and not plot.far_note.isVisible()
+
+
+def test_an_export_shows_busy_then_what_it_wrote(window, tmp_path):
+    from PySide6 import QtWidgets
+
+    seen = {}
+
+    def slow_write():
+        seen["cursor"] = QtWidgets.QApplication.overrideCursor()
+        seen["message"] = window.statusBar().currentMessage()
+
+    window._run_export(slow_write, str(tmp_path / "report.html"))
+    assert seen["cursor"] is not None and seen["cursor"].shape() == QtCore.Qt.CursorShape.WaitCursor
+    assert seen["message"].startswith("Writing report.html")
+    assert QtWidgets.QApplication.overrideCursor() is None
+    assert window.statusBar().currentMessage().startswith("Wrote ")
+
+    def failing():
+        raise OSError(28, "No space left on device")
+
+    window._run_export(failing, str(tmp_path / "report.html"))
+    assert QtWidgets.QApplication.overrideCursor() is None
+    assert window.prompter.errors and "No space left" in window.prompter.errors[-1][1]

@@ -454,13 +454,23 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
             self._run_export(lambda: fn(self.state.session, path), path)
 
     def _run_export(self, call, path: str) -> None:
+        # A report takes a second or two on the GUI thread (its plots are drawn with Qt): say so
+        # and show the busy cursor meanwhile.
+        self.statusBar().showMessage(f"Writing {Path(path).name} …")
+        QtWidgets.QApplication.setOverrideCursor(QtCore.Qt.CursorShape.WaitCursor)
+        QtWidgets.QApplication.processEvents(QtCore.QEventLoop.ProcessEventsFlag.ExcludeUserInputEvents)
+        error = None
         try:
             call()
         except InputError as exc:
-            self.prompter.error(self, "Export failed", str(exc))
-            return
+            error = str(exc)
         except OSError as exc:
-            self.prompter.error(self, "Export failed", f"cannot write {path}: {exc.strerror or exc}")
+            error = f"cannot write {path}: {exc.strerror or exc}"
+        finally:
+            QtWidgets.QApplication.restoreOverrideCursor()
+        if error is not None:
+            self.statusBar().clearMessage()
+            self.prompter.error(self, "Export failed", error)
             return
         self.statusBar().showMessage(f"Wrote {path}", 5000)
 
