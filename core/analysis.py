@@ -377,7 +377,7 @@ def opamp_output_current(
 def requirements(
     netlist: Netlist,
     ideal: Figures,
-    step: StepResponse | float,
+    step_slope_per_s: float,
     *,
     vin_v: float = 1.0,
     a0: float = DEFAULT_A0,
@@ -388,8 +388,8 @@ def requirements(
     """The op-amp needs of a candidate (see BRIEF.md's definitions).
 
     Slew for a sine of peak ``vin_v`` at f0: ``2π·f0·|gain|·vin``; for a step of height ``vin_v``:
-    the largest ``|dv_out/dt|`` of the step response (``step``: the response, or its largest
-    ``|slope|`` in 1/s per volt, :func:`core.timeresponse.max_step_slope`); output current: the
+    the largest ``|dv_out/dt|`` of the step response (``step_slope_per_s``: its largest ``|slope|``
+    in 1/s per volt, :func:`core.timeresponse.max_step_slope`); output current: the
     peak current the op-amp output delivers at f0 into the circuit and the optional load.
     ``gbw_search`` is a finished :func:`required_gbw`, when the caller has it.
     """
@@ -409,7 +409,7 @@ def requirements(
         vin_v=vin_v,
         vout_peak_v=gain * vin_v,
         slew_sine_v_per_us=2.0 * math.pi * ref.f0_hz * gain * vin_v * 1e-6,
-        slew_step_v_per_us=(step if isinstance(step, float) else step.max_slope_per_s) * vin_v * 1e-6,
+        slew_step_v_per_us=step_slope_per_s * vin_v * 1e-6,
         iout_peak_ma=iout * 1e3,
         gbw_rule_of_thumb_hz=rule,
     )

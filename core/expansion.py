@@ -297,17 +297,17 @@ class Expansion:
         self._factors = fit.factors
         self._num_terms = [(r, m, float(num[m, p])) for r, p, m in fit.num_slots]
         self._den_terms = [(r, m, float(den[m, p])) for r, p, m in fit.den_slots]
-        self._exps = fit.exps_f
-        self._num_mat = _term_matrix(num, fit.num_slots, len(fit.num_powers))
-        self._den_mat = _term_matrix(den, fit.den_slots, len(fit.den_powers))
-        # For :meth:`dense`: exponents over the log *ratios* (an inverse parameter's stamp is the
-        # reciprocal: its column negated), the log ratio that makes a stamp absent, and term
+        # For :meth:`dense_log`: exponents over the log *ratios* (an inverse parameter's stamp is
+        # the reciprocal: its column negated), the log ratio that makes a stamp absent, and term
         # matrices onto every power of p, highest first.
         sign = np.array([-1.0 if v.inverse else 1.0 for v in self.variables])
         self._exps_ratio = np.ascontiguousarray((fit.exps_f * sign[None, :]).T)  # (n_var, M)
         self._absent_log = _LOG_ZERO * sign
-        self._num_dense = _dense_matrix(self._num_mat, self.num_powers)
-        self._den_dense = _dense_matrix(self._den_mat, self.den_powers)
+        self._num_dense = _dense_matrix(_term_matrix(num, fit.num_slots, len(fit.num_powers)), self.num_powers)
+        self._den_dense = _dense_matrix(_term_matrix(den, fit.den_slots, len(fit.den_powers)), self.den_powers)
+        # the dense columns of the powers present (lowest first), for :meth:`coefficients`
+        self._num_cols = [self.num_powers[-1] - p for p in self.num_powers]
+        self._den_cols = [self.den_powers[-1] - p for p in self.den_powers]
 
     def _verify(self) -> None:
         rng = np.random.default_rng(20260101)
@@ -352,6 +352,10 @@ class Expansion:
         """
         r = np.asarray(ratios, dtype=float)
         b = r.shape[0]
+        if b <= _SMALL_BATCH:  # two small products (dense_log): fewer array calls than the loops below
+            with np.errstate(divide="ignore", invalid="ignore"):
+                num, den = self.dense_log(np.log(r), absent=absent)
+            return num[:, self._num_cols].T, den[:, self._den_cols].T
         q = np.array(r.T, dtype=float, order="C")  # (n_var, B)
         if absent is not None:
             q[np.asarray(absent).T] = 1.0
@@ -361,15 +365,6 @@ class Expansion:
                 np.divide(1.0, q[j], out=q[j])
         if absent is not None:
             q[np.asarray(absent).T] = 0.0
-        if b <= _SMALL_BATCH:  # two small products: fewer array calls than the loops below
-            with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
-                lq = np.where(q > 0, np.log(np.where(q > 0, q, 1.0)), _LOG_ZERO)
-                mono = np.exp(self._exps @ lq)  # (M, B); an absent stamp gives exactly 0
-            num, den = self._num_mat @ mono, self._den_mat @ mono
-            if bad.any():
-                num[:, bad] = np.nan
-                den[:, bad] = np.nan
-            return num, den
         mono = np.empty((len(self._factors), b))
         for m, factors in enumerate(self._factors):
             if not factors:

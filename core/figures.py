@@ -211,8 +211,9 @@ def measure_near(h: Rational, ref: Figures, *, spread: float) -> Figures:
     The peak and the half-power points are found by Newton's method started at ``ref``'s (one
     member, scalars or arrays of one; the band edges scaled by the peak's move); a member for
     which it does not converge, or converges farther than a factor ``1 + spread`` from the start,
-    gets NaN figures: it is off the reference by more than ``spread``. Cheaper than :func:`measure` by a fixed cost, for callers
-    that ask "within tolerance of the reference?" and need exact figures only where it is.
+    gets NaN figures: it is off the reference by more than ``spread``. Cheaper than
+    :func:`measure` by a fixed cost, for callers that ask "within tolerance of the reference?"
+    and need exact figures only where it is.
     """
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         return _measure_near(h, ref, spread)
@@ -225,11 +226,12 @@ def _measure_near(h: Rational, ref: Figures, spread: float) -> Figures:
     pu = _sq_mag_u(h.num)
     qu = _sq_mag_u(h.den)
     slope = _slope_u(pu, qu)
-    u0 = float(np.asarray(ref.f0_hz).reshape(-1)[0]) ** 2 * to_u
+    ref = ref.item()
+    u0 = ref.f0_hz**2 * to_u
     u_pk, ok = _newton(slope, u0, k2)
     half = _poly_sub(pu, qu * (0.5 * _ratio(pu, qu, u_pk))[:, None])
-    ul = float(np.asarray(ref.f_low_hz).reshape(-1)[0]) ** 2 * to_u
-    uh = float(np.asarray(ref.f_high_hz).reshape(-1)[0]) ** 2 * to_u
+    ul = ref.f_low_hz**2 * to_u
+    uh = ref.f_high_hz**2 * to_u
     shift = u_pk / u0  # the band edges start where the moved peak carries them
     both, ok2 = _newton(np.concatenate([half, half]), np.concatenate([ul * shift, uh * shift]), k2, first=5)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])

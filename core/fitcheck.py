@@ -34,7 +34,7 @@ from .figures import Figures, measure
 from .headroom import DEFAULT_SUPPLY_V, Headroom, headroom
 from .netlist import Netlist
 from .shelf import OpAmp
-from .timeresponse import StepResponse, step_response
+from .timeresponse import max_step_slope
 from .values import format_value
 
 __all__ = [
@@ -184,12 +184,13 @@ class FitReport:
 class Basis:
     """What every model's check of one candidate shares, computed once (:func:`basis_of`).
 
-    The ideal figures and step response, the right-half-plane poles with an ideal op-amp (rad/s;
-    usually none), and the required GBW found so far for each (A0, tolerances).
+    The ideal figures, the largest step slope (1/s per volt, :func:`core.timeresponse.max_step_slope`),
+    the right-half-plane poles with an ideal op-amp (rad/s; usually none), and the required GBW
+    found so far for each (A0, tolerances).
     """
 
     ideal: Figures
-    step: StepResponse
+    step_slope_per_s: float
     ideal_unstable: np.ndarray
     gbw: dict = field(default_factory=dict, repr=False)
 
@@ -204,7 +205,7 @@ def basis_of(netlist: Netlist) -> Basis:
     """The shared part of a candidate's checks (pass it to :func:`check_amp` for each model)."""
     h = transfer_function(netlist)
     poles = h.poles(0)
-    return Basis(measure(h), step_response(h), poles[poles.real >= 0])
+    return Basis(measure(h), max_step_slope(h), poles[poles.real >= 0])
 
 
 def _fmt(x: float, unit: str) -> str:
@@ -255,7 +256,7 @@ def check_amp(
     ref = ideal.item()
     gbw_need, gbw_reason = shared.required_gbw(netlist, amp.a0, tolerances)
     req: Requirements = requirements(
-        netlist, ideal, shared.step, vin_v=vin_v, a0=amp.a0, rload_ohm=rload_ohm, tolerances=tolerances,
+        netlist, ideal, shared.step_slope_per_s, vin_v=vin_v, a0=amp.a0, rload_ohm=rload_ohm, tolerances=tolerances,
         gbw_search=(gbw_need, gbw_reason),
     )
     room = headroom(netlist, vin_v=vin_v, supply_v=supply_v, amp=amp, rload_ohm=rload_ohm)
@@ -394,7 +395,7 @@ def fit_check(
 ) -> FitReport:
     """Check every shelf model against a candidate, and the candidate's own headroom.
 
-    The ideal response, its figures and its step response are computed once; the required GBW once
+    The ideal response, its figures and its largest step slope are computed once; the required GBW once
     per distinct A0. The report's ``headroom`` is the circuit's with an ideal op-amp, every node
     limited by the rails only; each verdict carries its model's own.
     """

@@ -197,106 +197,115 @@ def build_system(
     n = layout.size
     G = np.zeros((size, n, n))
     C = np.zeros((size, n, n))
-    idx = layout.node_index
-    gnd = netlist.ground
+    gbw = gbw_hz if gbw_hz is not None else opamp.gbw_hz
+    gain0 = a0 if a0 is not None else opamp.a0
 
-    def stamp_admittance(m, a, b, y):
-        ia = idx.get(a) if a != gnd else None
-        ib = idx.get(b) if b != gnd else None
+    def quantity(kind: str, ref: str) -> np.ndarray:
+        if kind == "g":
+            return 1.0 / vals[ref]
+        if kind == "rs":
+            return vals[ref + ".rs"]
+        if kind == "a0":
+            return 1.0 / np.broadcast_to(np.asarray(gain0, float), (size,))
+        if kind == "wt":
+            return 1.0 / (2.0 * np.pi * np.broadcast_to(np.asarray(gbw, float), (size,)))
+        return vals[ref]  # "c", "l"
+
+    known: dict[tuple[str, str], np.ndarray] = {}
+    for which, i, j, sign, q in _stamps(netlist, layout):
+        m = G if which == "G" else C
+        if q is None:
+            m[:, i, j] += sign
+            continue
+        if q[0] in _OPAMP_TERMS and gbw is None:
+            continue  # the ideal op-amp: 1/A0 = 1/ωt = 0
+        y = known.get(q)
+        if y is None:
+            y = known[q] = quantity(*q)
+        if sign > 0:
+            m[:, i, j] += y
+        else:
+            m[:, i, j] -= y
+
+    return MnaSystem(G, C, layout, layout.node_index[netlist.output])
+
+
+_OPAMP_TERMS = ("a0", "wt")
+
+
+def _stamps(netlist: Netlist, layout: MnaLayout) -> list[tuple[str, int, int, float, tuple[str, str] | None]]:
+    """Every entry of the pencil, in stamping order: ``(matrix, row, column, sign, quantity)``.
+
+    ``matrix`` is ``"G"`` or ``"C"``; ``quantity`` is None for the constant 1 or ``(kind, ref)``:
+    ``"g"`` a resistor's conductance, ``"c"`` a capacitance, ``"l"`` an inductance, ``"rs"`` a
+    winding resistance, ``"a0"`` and ``"wt"`` an op-amp's ``1/A0`` and ``1/ωt`` (both zero for the
+    ideal op-amp). The one place the stamps of the module notes are written down.
+    """
+    idx, gnd = layout.node_index, netlist.ground
+    out = []
+
+    def admittance(which, a, b, q):
+        ia = idx[a] if a != gnd else None
+        ib = idx[b] if b != gnd else None
         if ia is not None:
-            m[:, ia, ia] += y
+            out.append((which, ia, ia, 1.0, q))
         if ib is not None:
-            m[:, ib, ib] += y
+            out.append((which, ib, ib, 1.0, q))
         if ia is not None and ib is not None:
-            m[:, ia, ib] -= y
-            m[:, ib, ia] -= y
+            out.append((which, ia, ib, -1.0, q))
+            out.append((which, ib, ia, -1.0, q))
 
     for e in netlist.elements:
         if e.kind == "R":
-            stamp_admittance(G, *e.nodes, 1.0 / vals[e.ref])
+            admittance("G", *e.nodes, ("g", e.ref))
         elif e.kind == "C":
-            stamp_admittance(C, *e.nodes, vals[e.ref])
+            admittance("C", *e.nodes, ("c", e.ref))
         elif e.kind == "L":
             row = layout.inductor_row[e.ref]
-            a, b = e.nodes
-            for node, sign in ((a, 1.0), (b, -1.0)):
+            for node, sign in zip(e.nodes, (1.0, -1.0)):
                 if node != gnd:
-                    G[:, idx[node], row] += sign
-                    G[:, row, idx[node]] += sign
-            G[:, row, row] -= vals[e.ref + ".rs"]
-            C[:, row, row] -= vals[e.ref]
-
-    src = layout.source_row
-    G[:, idx[netlist.input], src] += 1.0
-    G[:, src, idx[netlist.input]] += 1.0
-
+                    out.append(("G", idx[node], row, sign, None))
+                    out.append(("G", row, idx[node], sign, None))
+            out.append(("G", row, row, -1.0, ("rs", e.ref)))
+            out.append(("C", row, row, -1.0, ("l", e.ref)))
+    src, inp = layout.source_row, idx[netlist.input]
+    out.append(("G", inp, src, 1.0, None))
+    out.append(("G", src, inp, 1.0, None))
     for e in netlist.opamps:
         row = layout.opamp_row[e.ref]
-        plus, minus, out = e.nodes
-        if out == gnd:
+        plus, minus, o = e.nodes
+        if o == gnd:
             raise ValueError(f"{e.ref}: op-amp output on ground")
-        G[:, idx[out], row] += 1.0  # output current enters the output node
+        out.append(("G", idx[o], row, 1.0, None))  # output current enters the output node
         if plus != gnd:
-            G[:, row, idx[plus]] += 1.0
+            out.append(("G", row, idx[plus], 1.0, None))
         if minus != gnd:
-            G[:, row, idx[minus]] -= 1.0
-        gbw = gbw_hz if gbw_hz is not None else opamp.gbw_hz
-        if gbw is not None:
-            gain0 = a0 if a0 is not None else opamp.a0
-            G[:, row, idx[out]] -= 1.0 / np.broadcast_to(np.asarray(gain0, float), (size,))
-            C[:, row, idx[out]] -= 1.0 / (2.0 * np.pi * np.broadcast_to(np.asarray(gbw, float), (size,)))
-
-    return MnaSystem(G, C, layout, idx[netlist.output])
+            out.append(("G", row, idx[minus], -1.0, None))
+        out.append(("G", row, idx[o], -1.0, ("a0", e.ref)))
+        out.append(("C", row, idx[o], -1.0, ("wt", e.ref)))
+    return out
 
 
 def solve_at(netlist: Netlist, s: complex) -> tuple[np.ndarray, MnaLayout]:
     """All unknowns of the netlist's own values at one complex frequency ``s`` (rad/s), ideal
     op-amps, unit input source: ``(x, layout)`` with ``x`` of shape ``(n,)``.
 
-    The same stamps as :func:`build_system`, written straight into one complex matrix (a batch of
-    one through :func:`build_system` costs some forty array operations)."""
+    The stamps of :func:`build_system` (:func:`_stamps`) added as plain numbers into one complex
+    matrix: a batch of one through :func:`build_system` costs some forty array operations."""
     layout = MnaLayout.of(netlist)
     n = layout.size
     a = [[0j] * n for _ in range(n)]
-    idx = layout.node_index
-    gnd = netlist.ground
-
-    def admittance(p, q, y):
-        ip = idx[p] if p != gnd else None
-        iq = idx[q] if q != gnd else None
-        if ip is not None:
-            a[ip][ip] += y
-        if iq is not None:
-            a[iq][iq] += y
-        if ip is not None and iq is not None:
-            a[ip][iq] -= y
-            a[iq][ip] -= y
-
-    for e in netlist.elements:
-        if e.kind == "R":
-            admittance(*e.nodes, 1.0 / e.value)
-        elif e.kind == "C":
-            admittance(*e.nodes, s * e.value)
-        elif e.kind == "L":
-            row = layout.inductor_row[e.ref]
-            for node, sign in zip(e.nodes, (1.0, -1.0)):
-                if node != gnd:
-                    a[idx[node]][row] += sign
-                    a[row][idx[node]] += sign
-            a[row][row] -= e.series_resistance + s * e.value
-    src, inp = layout.source_row, idx[netlist.input]
-    a[inp][src] += 1.0
-    a[src][inp] += 1.0
-    for e in netlist.opamps:
-        row = layout.opamp_row[e.ref]
-        plus, minus, out = e.nodes
-        if out == gnd:
-            raise ValueError(f"{e.ref}: op-amp output on ground")
-        a[idx[out]][row] += 1.0
-        if plus != gnd:
-            a[row][idx[plus]] += 1.0
-        if minus != gnd:
-            a[row][idx[minus]] -= 1.0
+    parts = {e.ref: e for e in netlist.elements}
+    for which, i, j, sign, q in _stamps(netlist, layout):
+        if q is None:
+            y = 1.0
+        elif q[0] in _OPAMP_TERMS:
+            continue  # ideal op-amps
+        else:
+            kind, ref = q
+            e = parts[ref]
+            y = 1.0 / e.value if kind == "g" else e.series_resistance if kind == "rs" else e.value
+        a[i][j] += sign * (s * y if which == "C" else y)
     b = np.zeros(n, dtype=complex)
-    b[src] = 1.0
+    b[layout.source_row] = 1.0
     return np.linalg.solve(np.array(a), b), layout
