@@ -525,11 +525,10 @@ def sensitivities(
 ) -> dict[str, dict[str, float]]:
     """Normalised sensitivities ``S = ∂ln y/∂ln x`` of f0, Q and |centre gain| to every part.
 
-    Central differences in ``ln x`` (step 1e-4, error of order 1e-8), all parts in one batched
-    solve with an ideal op-amp. A part at zero (an absent winding resistance) has S = 0.
+    Central differences in ``ln x`` (step 1e-4, error of order 1e-8), all parts in one batch with
+    an ideal op-amp (:func:`_first_pass`, which also picks ``w_ref`` when none is given). A part
+    at zero (an absent winding resistance) has S = 0.
     """
-    if w_ref is None:
-        w_ref = reference_w(build_system(netlist))
     return _first_pass(netlist, parts, w_ref).sensitivity
 
 

@@ -120,8 +120,8 @@ class Rational:
 
     def to_s(self, i: int = 0) -> tuple[np.ndarray, np.ndarray]:
         """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) for member ``i``, as scipy.signal uses."""
-        num = _trim_leading(self.num[i])
-        den = _trim_leading(self.den[i])
+        one = self.item(i)
+        num, den = one.num[0], one.den[0]
         # powers of 1/w_ref, highest first: p = s/w_ref turns c_k·p^k into (c_k/w_ref^k)·s^k
         scale = float(self.w_ref[i]) ** -np.arange(max(num.size, den.size) - 1, -1, -1.0)
         b = num * scale[scale.size - num.size :]
@@ -130,11 +130,11 @@ class Rational:
 
     def poles(self, i: int = 0) -> np.ndarray:
         """Poles in rad/s of member ``i``."""
-        return np.roots(_trim_leading(self.den[i])) * self.w_ref[i]
+        return np.roots(self.item(i).den[0]) * self.w_ref[i]
 
     def zeros(self, i: int = 0) -> np.ndarray:
         """Finite zeros in rad/s of member ``i``."""
-        num = _trim_leading(self.num[i])
+        num = self.item(i).num[0]
         return np.roots(num) * self.w_ref[i] if num.size > 1 else np.zeros(0)
 
 
@@ -154,14 +154,6 @@ def reference_w(system: MnaSystem) -> float:
 def _degree_bound(system: MnaSystem) -> int:
     """Rows of C with an entry in any member: the degree of ``det(G + s·C)`` is at most that."""
     return int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2))))
-
-
-def _trim_leading(c: np.ndarray) -> np.ndarray:
-    """A coefficient row without its leading zeros (np.trim_zeros(c, "f") at a third of the cost)."""
-    if c.size == 0 or c[0] != 0:
-        return c
-    nz = np.flatnonzero(c)
-    return c[nz[0] :] if nz.size else c[:0]
 
 
 def _lead_trim(c: np.ndarray) -> np.ndarray:

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .rational import Rational, _trim_leading
+from .rational import Rational, polyder_batch, polyval_batch
 
 __all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope"]
 
@@ -57,20 +57,13 @@ def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
     # A real polynomial's complex poles come in conjugate pairs whose terms are conjugate: keep
     # the upper one of each pair, twice its real part.
     p = p[p.imag >= 0]
-    da = a[:-1] * np.arange(a.size - 1, 0, -1)  # D'(s), highest power first
-    r = _horner(b, p) / _horner(da, p) * np.where(p.imag > 0, 2.0, 1.0)
+    at = p[None, :]
+    r = polyval_batch(b[None, :], at)[0] / polyval_batch(polyder_batch(a[None, :]), at)[0]
+    r *= np.where(p.imag > 0, 2.0, 1.0)
     e = np.exp(t[:, None] * p)
     h = (e @ r).real
     y = ((e - 1.0) @ (r / p)).real + direct
     return y, h
-
-
-def _horner(c: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """The polynomial ``c`` (highest power first) at ``x`` (np.polyval without its conversions)."""
-    y = np.zeros_like(x)
-    for ck in c.tolist():
-        y = y * x + ck
-    return y
 
 
 def _state_space(b: np.ndarray, a: np.ndarray, t: np.ndarray):
@@ -142,7 +135,8 @@ def max_step_slope(h: Rational, *, i: int = 0) -> float:
     tests/test_requirements.py), which equals ``2π·BW·|G|``. Any other circuit:
     :func:`step_response`'s ``max_slope_per_s``.
     """
-    num, den = _trim_leading(h.num[i]), _trim_leading(h.den[i])
+    one = h.item(i)
+    num, den = one.num[0], one.den[0]
     if den.size == 3 and num.size == 2 and num[1] == 0 and num[0] != 0:
         a2, a1, a0 = den.tolist()
         if (a2 > 0 and a1 > 0 and a0 > 0) or (a2 < 0 and a1 < 0 and a0 < 0):

@@ -415,9 +415,7 @@ class PoleZeroPlot(CandidatePlot):
         return "\n".join(["outside the view, |s|/2π:"] + parts) if parts else ""
 
     def _update_far_note(self) -> None:
-        note = getattr(self, "far_note", None)
-        if note is None:
-            return
+        note = self.far_note
         text = self.far_text()
         if text != note.toPlainText():
             note.setText(text)
