@@ -13,7 +13,7 @@ from pathlib import Path
 
 from PySide6 import QtCore
 
-from core.shelf import ShelfState, open_shelf
+from bandsmith.bench.shelf import ShelfState, open_shelf
 
 __all__ = ["ENV_VAR", "APP_NAME", "FILE_NAME", "shelf_path", "open_user_shelf"]
 

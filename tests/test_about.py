@@ -4,7 +4,7 @@ import re
 
 import pytest
 
-from core.cautions import CAUTIONS, cautions_comment, cautions_html, cautions_text
+from bandsmith.common.cautions import CAUTIONS, cautions_comment, cautions_html, cautions_text
 
 
 def _plain(html: str) -> str:
@@ -43,7 +43,7 @@ def test_cautions_forms_agree():
 
 @pytest.mark.gui
 def test_about_html_has_purpose_shortcuts_and_cautions(qapp):
-    from app.window.about import about_html, default_shortcuts
+    from bandsmith.app.window.about import about_html, default_shortcuts
 
     html = about_html()
     text = _plain(html)
@@ -62,7 +62,7 @@ def test_about_html_has_purpose_shortcuts_and_cautions(qapp):
 def test_about_dialog_lists_the_parents_own_shortcuts(qtbot):
     from PySide6 import QtGui, QtWidgets
 
-    from app.window.about import show_about
+    from bandsmith.app.window.about import show_about
 
     parent = QtWidgets.QMainWindow()
     qtbot.addWidget(parent)

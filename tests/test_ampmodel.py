@@ -4,10 +4,10 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from core.ampmodel import amp_system, amp_transfer_function, open_loop_gain
-from core.analysis import transfer_function
-from core.circuits import get_topology
-from core.mna import OpAmpModel, build_system
+from bandsmith.solver.ampmodel import amp_system, amp_transfer_function, open_loop_gain
+from bandsmith.analysis.analyzer import transfer_function
+from bandsmith.circuits import get_topology
+from bandsmith.solver.mna import OpAmpModel, build_system
 
 
 def two_pole_gain(f, gbw, a0, fp2):

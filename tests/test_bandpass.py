@@ -7,9 +7,9 @@ import pytest
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from core.bandpass import band_from, geffe, plan_cascade
-from core.errors import InputError
-from core.prototypes import RESPONSES, prototype
+from bandsmith.chain.bandpass import band_from, geffe, plan_cascade
+from bandsmith.common.errors import InputError
+from bandsmith.chain.prototypes import RESPONSES, prototype
 
 
 def reference_zpk(response, n, band, ripple_db=None):

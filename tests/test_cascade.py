@@ -8,13 +8,13 @@ import pytest
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from core.candidate import Candidate, Conditions
-from core.cascade import Chain, ChainSettings, cascade_json, cascade_session, chain_cascade, chains_in, design_cascade, with_stage_circuit
-from core.design import spread_of
-from core.errors import InputError
-from core.eseries import in_series
-from core.prototypes import RESPONSES
-from core.session import dumps_session, loads_session
+from bandsmith.design.candidate import Candidate, Conditions
+from bandsmith.chain.cascade import Chain, ChainSettings, cascade_json, cascade_session, chain_cascade, chains_in, design_cascade, with_stage_circuit
+from bandsmith.design.designer import spread_of
+from bandsmith.common.errors import InputError
+from bandsmith.common.eseries import in_series
+from bandsmith.chain.prototypes import RESPONSES
+from bandsmith.files.session import dumps_session, loads_session
 
 HALF_POWER_DB = 10 * math.log10(0.5)
 
@@ -24,7 +24,7 @@ def reference_db(settings, f_hz):
 
     scipy.signal.iirfilter(N, [ω1, ω2], rp=R, btype='bandpass', analog=True, ftype='butter' or
     'cheby1'); for Bessel scipy.signal.bessel(N, [ω1, ω2], btype='bandpass', analog=True,
-    norm='mag'). Built here independently of core.cascade.reference_zpk.
+    norm='mag'). Built here independently of bandsmith.chain.cascade.reference_zpk.
     """
     wn = [2 * math.pi * settings.f_low_hz, 2 * math.pi * settings.f_high_hz]
     if settings.response == "bessel":

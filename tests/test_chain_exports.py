@@ -19,14 +19,14 @@ import pytest
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from app.cli import main as cli_main
-from core.candidate import Candidate, Conditions
-from core.cascade import Chain, ChainSettings, ChainStage, cascade_session, chain_cascade, design_cascade
-from core.chain_exports import CHAIN_PARTS_HEADER, chain_parts_csv, chain_spice_netlist
-from core.circuits import get_topology
-from core.errors import InputError
-from core.exports import OPAMP_SUBCKT
-from core.session import save_session
+from bandsmith.app.cli import main as cli_main
+from bandsmith.design.candidate import Candidate, Conditions
+from bandsmith.chain.cascade import Chain, ChainSettings, ChainStage, cascade_session, chain_cascade, design_cascade
+from bandsmith.chain.chain_exports import CHAIN_PARTS_HEADER, chain_parts_csv, chain_spice_netlist
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.files.exports import OPAMP_SUBCKT
+from bandsmith.files.session import save_session
 
 
 # --------------------------------------------------------------------------- a small SPICE reader
@@ -165,7 +165,7 @@ def test_one_op_amp_macro_model_per_stage(built):
     assert all(rest[-1] == OPAMP_SUBCKT for rest in xs.values())
     assert list(p["subckts"]) == [OPAMP_SUBCKT]
     sub = p["subckts"][OPAMP_SUBCKT]["elements"]
-    # The single-pole model: gm into RP || CP with RP = A0/gm, pole at GBW/A0 (core.exports notes).
+    # The single-pole model: gm into RP || CP with RP = A0/gm, pole at GBW/A0 (bandsmith.files.exports notes).
     gm, rp, cp = float(sub["GIN"][4]), float(sub["RP"][2]), float(sub["CP"][2])
     assert_allclose(rp * gm, 1e5, rtol=1e-12)
     assert_allclose(1 / (2 * math.pi * rp * cp), 2e6 / 1e5, rtol=1e-12)

@@ -18,10 +18,10 @@ import pytest
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from core.analysis import ideal_figures, sensitivities, sweep, transfer_function
-from core.circuits import get_topology
-from core.figures import measure
-from core.mna import OpAmpModel
+from bandsmith.analysis.analyzer import ideal_figures, sensitivities, sweep, transfer_function
+from bandsmith.circuits import get_topology
+from bandsmith.analysis.figures import measure
+from bandsmith.solver.mna import OpAmpModel
 
 TWO_PI = 2.0 * math.pi
 

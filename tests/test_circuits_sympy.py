@@ -2,7 +2,7 @@
 
 Source: sympy (a general-purpose computer-algebra library). Each circuit's node equations are
 written below by hand from the circuit description (CONTRACT.md / the circuit modules'
-docstrings), independently of ``core.mna`` and the circuit netlists, solved symbolically for
+docstrings), independently of ``bandsmith.solver.mna`` and the circuit netlists, solved symbolically for
 Vout/Vin, turned into numpy functions with ``lambdify`` and compared with the core's response at
 seeded random part values and frequencies, to 1e-9 relative.
 
@@ -19,9 +19,9 @@ import pytest
 import sympy as sp
 from numpy.testing import assert_allclose
 
-from core.analysis import transfer_function
-from core.circuits import get_topology
-from core.mna import OpAmpModel, build_system
+from bandsmith.analysis.analyzer import transfer_function
+from bandsmith.circuits import get_topology
+from bandsmith.solver.mna import OpAmpModel, build_system
 
 RTOL = 1e-9
 N_SAMPLES = 25  # random part sets per circuit and op-amp model

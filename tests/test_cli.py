@@ -3,7 +3,7 @@
 The installed command runs in subprocesses (marked ``cli``): every call is started up front, two at
 a time, so that the interpreter start-ups (about a second each, mostly importing scipy) overlap;
 each test then reads the result of its own call. The full list of bad inputs also runs in-process
-through ``app.cli.main`` (the same code the entry point calls), a representative set of them in
+through ``bandsmith.app.cli.main`` (the same code the entry point calls), a representative set of them in
 subprocesses.
 """
 
@@ -25,7 +25,7 @@ import pytest
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from app.cli import main as cli_main
+from bandsmith.app.cli import main as cli_main
 
 cli = pytest.mark.cli
 
@@ -90,7 +90,7 @@ GOOD = {
 def _example_calls() -> dict[str, list[str]]:
     """``analyze ID REF=VALUE … --json`` for every circuit's example (started early; the test checks
     that these are the examples ``bandsmith topologies --json`` prints)."""
-    from core.circuits import all_topologies
+    from bandsmith.circuits import all_topologies
 
     return {
         t.id: ["analyze", t.id, *[f"{k}={v!r}" for k, v in t.to_json()["example"].items()], "--json"]
@@ -133,7 +133,7 @@ def run(args) -> subprocess.CompletedProcess:
 
 
 def _in_process(args, capsys):
-    """Run ``app.cli.main`` (what the installed entry point calls) and capture its output."""
+    """Run ``bandsmith.app.cli.main`` (what the installed entry point calls) and capture its output."""
     try:
         code = cli_main(list(args))
     except SystemExit as exc:  # argparse's --help and errors
@@ -181,7 +181,7 @@ def test_topologies_table(capsys):
 
 def test_every_command_has_help(capsys):
     # every sub-command's --help prints (exit 0) without a traceback (a stray "%" once broke one)
-    from app.cli import commands
+    from bandsmith.app.cli import commands
 
     for cmd in commands():
         code, out, err = _in_process([cmd.name, "--help"], capsys)

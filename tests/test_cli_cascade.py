@@ -15,7 +15,7 @@ ROOT = Path(__file__).resolve().parents[1]
 
 
 def bandsmith(*args, cwd=None):
-    return subprocess.run([sys.executable, "-m", "app.cli", *args], capture_output=True, text=True, cwd=cwd or ROOT, timeout=120)
+    return subprocess.run([sys.executable, "-m", "bandsmith.app", *args], capture_output=True, text=True, cwd=cwd or ROOT, timeout=120)
 
 
 def cascade_json(*args):

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 from numpy.testing import assert_allclose
 
-from core.shelf import ARCHETYPES, OpAmp, save_shelf
+from bandsmith.bench.shelf import ARCHETYPES, OpAmp, save_shelf
 
 pytestmark = pytest.mark.cli
 
@@ -19,7 +19,7 @@ SK = ["sallen-key", "R1=4k53", "R2=4k53", "R3=4k53", "C1=100n", "C2=100n", "RA=1
 
 def bandsmith(*args, shelf):
     env = dict(os.environ, BANDSMITH_SHELF=str(shelf), QT_QPA_PLATFORM="offscreen")
-    return subprocess.run([sys.executable, "-m", "app.cli", *args], capture_output=True, text=True, cwd=ROOT, env=env, timeout=120)
+    return subprocess.run([sys.executable, "-m", "bandsmith.app", *args], capture_output=True, text=True, cwd=ROOT, env=env, timeout=120)
 
 
 def run_json(*args, shelf):
@@ -146,7 +146,7 @@ def test_empty_shelf_is_bad_input(tmp_path):
 
 
 def test_shelf_path_env_and_config_folder(monkeypatch, tmp_path):
-    from app import shelf_paths
+    from bandsmith.app import shelf_paths
     from PySide6 import QtCore
 
     monkeypatch.setenv("BANDSMITH_SHELF", str(tmp_path / "x.json"))

@@ -1,6 +1,6 @@
 """``bandsmith design``, ``compare``, ``export`` and ``analyze --session`` (CONTRACT.md is the reference).
 
-Most calls run in-process through ``app.cli.main`` (the code the entry point runs); a few run the
+Most calls run in-process through ``bandsmith.app.cli.main`` (the code the entry point runs); a few run the
 installed command in a subprocess (marked ``cli``).
 """
 
@@ -16,7 +16,7 @@ from pathlib import Path
 import pytest
 from numpy.testing import assert_allclose
 
-from app.cli import main as cli_main
+from bandsmith.app.cli import main as cli_main
 
 DESIGN_KEYS = {"topology", "spec", "feasible", "reason", "exact", "chosen", "series", "ideal", "errors", "netlist", "requirements", "sensitivity"}
 ANALYZE_KEYS = {"topology", "components", "netlist", "ideal", "actual", "opamp", "requirements", "sensitivity"}

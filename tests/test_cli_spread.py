@@ -20,7 +20,7 @@ FIGURES = {"f0_hz", "q", "bw_hz", "f_low_hz", "f_high_hz", "gain_center", "gain_
 
 
 def bandsmith(*args):
-    return subprocess.run([sys.executable, "-m", "app.cli", *args], capture_output=True, text=True, cwd=ROOT, timeout=120)
+    return subprocess.run([sys.executable, "-m", "bandsmith.app", *args], capture_output=True, text=True, cwd=ROOT, timeout=120)
 
 
 def ok_json(*args):

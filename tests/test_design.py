@@ -17,12 +17,13 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from core.candidate import Candidate, Conditions
-from core.circuits import get_topology
-from core.compare import compare, compare_json, needs_inductor, part_count
-from core.design import DesignResult, design, design_json, design_session, weighted_error
-from core.errors import InputError
-from core.synthesis import Infeasible, Spec, hurwitz_stable, search_grid
+from bandsmith.design.candidate import Candidate, Conditions
+from bandsmith.circuits import get_topology
+from bandsmith.design.compare import compare, compare_json, needs_inductor, part_count
+from bandsmith.design.designer import DesignResult, design, design_json, weighted_error
+from bandsmith.files.design_session import design_session
+from bandsmith.common.errors import InputError
+from bandsmith.circuits.synthesis import Infeasible, Spec, hurwitz_stable, search_grid
 
 REL = 1e-9  # the round-trip bound of the issue
 
@@ -123,7 +124,7 @@ def test_tank_parallel_resonance_equations():
 
 def test_sallen_key_any_gain_above_one_is_realisable_for_q_from_one_half():
     # Derived in the module notes: for Q ≥ 0.5 and K > 1 the positive root y exceeds x1 (x2 > 0).
-    from core.circuits.sallen_key import _normalised
+    from bandsmith.circuits.sallen_key import _normalised
 
     rng = np.random.default_rng(11)
     k = 1 + 10 ** rng.uniform(-2, 2, 5000)

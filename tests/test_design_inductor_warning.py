@@ -1,4 +1,4 @@
-"""The tank's design warns when its inductor would need a Q beyond ordinary parts (core.design).
+"""The tank's design warns when its inductor would need a Q beyond ordinary parts (bandsmith.design.designer).
 
 First order, a winding of quality factor Q_L across a lossless tank of Q_d gives
 1/Q = 1/Q_d + 1/Q_L (the series-to-parallel conversion of any circuit-theory text), so losing at
@@ -8,8 +8,8 @@ practice, no source): a target Q above 200/19 ≈ 10.5 should warn, one below sh
 
 import pytest
 
-from core.design import Spec, design
-from core.inductor import ORDINARY_INDUCTOR_Q
+from bandsmith.design.designer import Spec, design
+from bandsmith.analysis.inductor import ORDINARY_INDUCTOR_Q
 
 
 def _inductor_warnings(result):

@@ -1,4 +1,4 @@
-"""Diagnosis (core.diagnose): which parts explain a measured response.
+"""Diagnosis (bandsmith.bench.diagnose): which parts explain a measured response.
 
 The "board" is a circuit's example design with one or two parts moved by a known amount; its
 response comes from scipy.signal.freqs on the textbook biquad (tests/measured_helpers.py), with
@@ -17,12 +17,12 @@ import numpy as np
 import pytest
 import scipy.signal
 
-from core.candidate import Candidate
-from core.diagnose import DEFAULT_TOLERANCES, diagnose
-from core.errors import InputError
-from core.measured import Measurement
-from core.mna import OpAmpModel
-from core.analysis import transfer_function
+from bandsmith.design.candidate import Candidate
+from bandsmith.bench.diagnose import DEFAULT_TOLERANCES, diagnose
+from bandsmith.common.errors import InputError
+from bandsmith.bench.measured import Measurement
+from bandsmith.solver.mna import OpAmpModel
+from bandsmith.analysis.analyzer import transfer_function
 
 from measured_helpers import MFB, NOISE_DB, NOISE_DEG, TANK, biquad, moved, sweep
 

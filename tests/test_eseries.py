@@ -1,4 +1,4 @@
-"""Tests for core.eseries: IEC 60063 series and snapping values onto them."""
+"""Tests for bandsmith.common.eseries: IEC 60063 series and snapping values onto them."""
 
 import math
 
@@ -8,8 +8,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
-from core.errors import InputError
-from core.eseries import (
+from bandsmith.common.errors import InputError
+from bandsmith.common.eseries import (
     SERIES_NAMES,
     candidates,
     in_series,

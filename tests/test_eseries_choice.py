@@ -14,12 +14,12 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from core.analysis import Tolerances
-from core.candidate import Candidate, Conditions
-from core.circuits import get_topology
-from core.design import _options, choose_standard, design, errors_of, part_series_of, weighted_error
-from core.eseries import candidates, in_series, nearest
-from core.synthesis import Spec
+from bandsmith.analysis.analyzer import Tolerances
+from bandsmith.design.candidate import Candidate, Conditions
+from bandsmith.circuits import get_topology
+from bandsmith.design.designer import _options, choose_standard, design, errors_of, part_series_of, weighted_error
+from bandsmith.common.eseries import candidates, in_series, nearest
+from bandsmith.circuits.synthesis import Spec
 
 SERIES = ("E6", "E12", "E24", "E48", "E96", "E192")
 
@@ -39,7 +39,7 @@ def test_options_are_the_bracketing_standard_values():
     (o,) = _options(np.array([4500.0]), "E12", 1)
     assert o.tolist() == [3900.0, 4700.0]
     (o,) = _options(np.array([4500.0]), "E12", 2)
-    assert o.tolist() == [3300.0, 3900.0, 4700.0, 5600.0]  # = candidates(4500, "E12") of core.eseries
+    assert o.tolist() == [3300.0, 3900.0, 4700.0, 5600.0]  # = candidates(4500, "E12") of bandsmith.common.eseries
     # a value already standard is offered itself and its neighbours (E24: 4.3 k, 4.7 k, 5.1 k)
     (o,) = _options(np.array([4700.0]), "E24", 1)
     assert o.tolist() == [4300.0, 4700.0, 5100.0]
@@ -133,7 +133,7 @@ def test_search_never_worse_than_rounding_each_part_alone():
             cand = Candidate(tid, rounded_alone(r))
             a = cand.analyze()
             w_round = weighted_error(errors_of(a.ideal, spec), tol) if bool(a.ideal.valid[0]) else math.inf
-            from core.synthesis import hurwitz_stable
+            from bandsmith.circuits.synthesis import hurwitz_stable
 
             if not bool(hurwitz_stable(a.h_ideal.den)[0]):
                 w_round = math.inf

@@ -1,13 +1,13 @@
-"""The coefficient expansion against the MNA solver it replaces (core.rational, itself checked
+"""The coefficient expansion against the MNA solver it replaces (bandsmith.solver.rational, itself checked
 against sympy's nodal derivations in test_circuits_sympy.py)."""
 
 import numpy as np
 import pytest
 
-from core.circuits import all_topologies
-from core.expansion import unit_expansion
-from core.mna import OpAmpModel, build_system
-from core.rational import rational_from_system
+from bandsmith.circuits import all_topologies
+from bandsmith.solver.expansion import unit_expansion
+from bandsmith.solver.mna import OpAmpModel, build_system
+from bandsmith.solver.rational import rational_from_system
 
 
 def _ratios(netlist, exp, variables, rng, n):

@@ -13,9 +13,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from core.circuits import all_topologies
-from core.errors import InputError
-from core.session import CandidateEntry, OpAmpSpec, Session, Target
+from bandsmith.circuits import all_topologies
+from bandsmith.common.errors import InputError
+from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target
 
 ARTIFACTS = Path(__file__).resolve().parents[1] / "tests" / "_artifacts" / "exports"
 SVG_NS = "{http://www.w3.org/2000/svg}"
@@ -31,9 +31,9 @@ def _session() -> Session:
 @pytest.fixture
 def plot_widget(qtbot):
     """A light-theme plot of the three example circuits, as the report draws it, shown 640×360."""
-    from app.plots.curves import plot_inputs, response_plots
-    from app.plots.render import build_plot_widget
-    from core.candidate import Candidate
+    from bandsmith.app.plots.curves import plot_inputs, response_plots
+    from bandsmith.app.plots.render import build_plot_widget
+    from bandsmith.design.candidate import Candidate
 
     s = _session()
     items = [(c.id, i, Candidate(c.topology_id, c.values).analyze(s.conditions_for(c))) for i, c in enumerate(s.candidates)]
@@ -48,7 +48,7 @@ def plot_widget(qtbot):
 def test_png_export_has_the_widgets_size(plot_widget, tmp_path):
     from PySide6 import QtGui
 
-    from app.window.exporting import export_plot_image
+    from bandsmith.app.window.exporting import export_plot_image
 
     out = export_plot_image(plot_widget, tmp_path / "magnitude.png")
     img = QtGui.QImage(str(out))
@@ -75,7 +75,7 @@ def _grey(img, w: int = 64, h: int = 36) -> np.ndarray:
 def test_svg_export_is_vector_svg(plot_widget, tmp_path):
     from PySide6 import QtGui, QtSvg
 
-    from app.window.exporting import export_plot_image
+    from bandsmith.app.window.exporting import export_plot_image
 
     out = export_plot_image(plot_widget, tmp_path / "magnitude.SVG", title="magnitude")
     root = ET.parse(out).getroot()
@@ -110,7 +110,7 @@ def test_svg_export_is_vector_svg(plot_widget, tmp_path):
 
 
 def test_image_export_rejects_other_suffixes_and_keeps_old_file(plot_widget, tmp_path):
-    from app.window.exporting import export_plot_image
+    from bandsmith.app.window.exporting import export_plot_image
 
     old = tmp_path / "plot.jpg"
     old.write_text("old")
@@ -124,7 +124,7 @@ def test_image_export_rejects_other_suffixes_and_keeps_old_file(plot_widget, tmp
 
 
 def test_write_atomic_replaces_whole_or_not_at_all(tmp_path, monkeypatch):
-    from app.window import exporting
+    from bandsmith.app.window import exporting
 
     target = tmp_path / "parts.csv"
     exporting.write_atomic(target, "first\n")
@@ -146,12 +146,12 @@ def test_write_atomic_replaces_whole_or_not_at_all(tmp_path, monkeypatch):
 
 # --------------------------------------------------------------------------- tables and netlists
 
-needs_exports = pytest.mark.skipif(importlib.util.find_spec("core.exports") is None, reason="core.exports is not there yet")
+needs_exports = pytest.mark.skipif(importlib.util.find_spec("bandsmith.files.exports") is None, reason="bandsmith.files.exports is not there yet")
 
 
 @needs_exports
 def test_parts_csv_lists_every_part(tmp_path):
-    from app.window.exporting import export_parts_csv
+    from bandsmith.app.window.exporting import export_parts_csv
 
     s = _session()
     for c in s.candidates:
@@ -167,7 +167,7 @@ def test_parts_csv_lists_every_part(tmp_path):
 
 @needs_exports
 def test_response_csv_is_a_table_of_numbers(tmp_path):
-    from app.window.exporting import export_response_csv
+    from bandsmith.app.window.exporting import export_response_csv
 
     s = _session()
     out = export_response_csv(s, "mfb", tmp_path / "mfb-response.csv")
@@ -181,7 +181,7 @@ def test_response_csv_is_a_table_of_numbers(tmp_path):
 
 @needs_exports
 def test_netlist_has_every_part_and_ends(tmp_path):
-    from app.window.exporting import export_netlist
+    from bandsmith.app.window.exporting import export_netlist
 
     s = _session()
     for c in s.candidates:
@@ -197,7 +197,7 @@ def test_netlist_has_every_part_and_ends(tmp_path):
 
 @needs_exports
 def test_unknown_candidate_names_the_field(tmp_path):
-    from app.window.exporting import export_netlist
+    from bandsmith.app.window.exporting import export_netlist
 
     with pytest.raises(InputError) as err:
         export_netlist(_session(), "nope", tmp_path / "x.cir")
@@ -209,7 +209,7 @@ def test_svg_of_a_grid_of_plots_is_vector_only(qtbot, tmp_path):
     import pyqtgraph as pg
     from PySide6 import QtWidgets
 
-    from app.window.exporting import export_plot_image
+    from bandsmith.app.window.exporting import export_plot_image
 
     top = QtWidgets.QWidget()
     qtbot.addWidget(top)

@@ -19,14 +19,14 @@ import pytest
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from app.cli import main as cli_main
-from core.analysis import transfer_function
-from core.candidate import Candidate
-from core.circuits import all_topologies, get_topology
-from core.errors import InputError
-from core.exports import IDEAL_GAIN, OPAMP_SUBCKT, parts_csv, response_csv, spice_netlist, write_atomic
-from core.mna import OpAmpModel
-from core.session import CandidateEntry
+from bandsmith.app.cli import main as cli_main
+from bandsmith.analysis.analyzer import transfer_function
+from bandsmith.design.candidate import Candidate
+from bandsmith.circuits import all_topologies, get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.files.exports import IDEAL_GAIN, OPAMP_SUBCKT, parts_csv, response_csv, spice_netlist, write_atomic
+from bandsmith.solver.mna import OpAmpModel
+from bandsmith.files.session import CandidateEntry
 
 
 # --------------------------------------------------------------------------- a small SPICE reader
@@ -263,7 +263,7 @@ def test_write_atomic(tmp_path, monkeypatch):
     p = tmp_path / "x.cir"
     write_atomic(p, "first\n")
     assert p.read_text() == "first\n"
-    import core.exports as ex
+    import bandsmith.files.exports as ex
 
     def broken(src, dst):
         raise OSError(13, "Permission denied")

@@ -14,11 +14,11 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from core.analysis import analyze, ideal_figures, transfer_function
-from core.circuits import get_topology
-from core.figures import measure
-from core.mna import OpAmpModel
-from core.rational import Rational
+from bandsmith.analysis.analyzer import analyze, ideal_figures, transfer_function
+from bandsmith.circuits import get_topology
+from bandsmith.analysis.figures import measure
+from bandsmith.solver.mna import OpAmpModel
+from bandsmith.solver.rational import Rational
 
 TWO_PI = 2.0 * math.pi
 

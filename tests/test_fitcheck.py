@@ -7,11 +7,11 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from core.analysis import Tolerances
-from core.circuits import get_topology
-from core.errors import InputError
-from core.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, MARGINAL_FACTORS, check_amp, fit_check
-from core.shelf import ARCHETYPES, OpAmp
+from bandsmith.analysis.analyzer import Tolerances
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, MARGINAL_FACTORS, check_amp, fit_check
+from bandsmith.bench.shelf import ARCHETYPES, OpAmp
 from test_ampmodel import sk_finite, two_pole_gain
 from test_headroom import sallen_key_nodes
 

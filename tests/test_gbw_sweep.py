@@ -1,4 +1,4 @@
-"""core.gbw_sweep: errors of the figures over a GBW ladder."""
+"""bandsmith.analysis.gbw_sweep: errors of the figures over a GBW ladder."""
 
 import math
 
@@ -6,11 +6,11 @@ import numpy as np
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from core.analysis import Tolerances, ideal_figures, required_gbw, transfer_function
-from core.candidate import Candidate
-from core.circuits import get_topology
-from core.gbw_sweep import gbw_error_sweep, gbw_ladder
-from core.mna import OpAmpModel
+from bandsmith.analysis.analyzer import Tolerances, ideal_figures, required_gbw, transfer_function
+from bandsmith.design.candidate import Candidate
+from bandsmith.circuits import get_topology
+from bandsmith.analysis.gbw_sweep import gbw_error_sweep, gbw_ladder
+from bandsmith.solver.mna import OpAmpModel
 
 
 def _mfb():

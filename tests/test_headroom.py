@@ -7,10 +7,10 @@ import pytest
 import scipy.optimize
 from numpy.testing import assert_allclose
 
-from core.circuits import get_topology
-from core.errors import InputError
-from core.headroom import headroom, node_limits
-from core.shelf import OpAmp
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.bench.headroom import headroom, node_limits
+from bandsmith.bench.shelf import OpAmp
 
 
 def shelf_amp(**over):

@@ -1,4 +1,4 @@
-"""Real inductors (core.inductor): winding Q, the Q it costs the tank, and the design warning."""
+"""Real inductors (bandsmith.analysis.inductor): winding Q, the Q it costs the tank, and the design warning."""
 
 import math
 
@@ -7,9 +7,9 @@ import pytest
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from core.circuits import get_topology
-from core.errors import InputError
-from core.inductor import (
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.analysis.inductor import (
     ORDINARY_INDUCTOR_Q,
     inductor_q,
     inductor_q_needed,
@@ -17,7 +17,7 @@ from core.inductor import (
     q_with_winding,
     winding_effect,
 )
-from core.mna import OpAmpModel
+from bandsmith.solver.mna import OpAmpModel
 
 
 def tank(q_design, q_inductor, *, f0_hz=8e3, l_h=4.7e-3, gain=3.0):
@@ -104,7 +104,7 @@ def test_q_needed_keeps_the_loss():
 
 
 def test_warning_beyond_ordinary_parts():
-    # The 200 limit is common practice, no source (see core.inductor).
+    # The 200 limit is common practice, no source (see bandsmith.analysis.inductor).
     assert ORDINARY_INDUCTOR_Q == 200.0
     assert inductor_q_warning(150.0) is None
     assert inductor_q_warning(200.0) is None

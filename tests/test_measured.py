@@ -1,4 +1,4 @@
-"""Reading measured responses (core.measured) and reading f0, Q and gain off them (core.readoff).
+"""Reading measured responses (bandsmith.bench.measured) and reading f0, Q and gain off them (bandsmith.bench.readoff).
 
 The data are made by the tests (tests/measured_helpers.py): a known design with a part moved by a
 known amount, computed with scipy.signal.freqs from the textbook biquad, sampled at 201 log
@@ -14,8 +14,8 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from core.errors import InputError
-from core.measured import (
+from bandsmith.common.errors import InputError
+from bandsmith.bench.measured import (
     ColumnMapping,
     MappingNeeded,
     Measurement,
@@ -25,8 +25,8 @@ from core.measured import (
     session_measurements,
     with_measurement,
 )
-from core.readoff import read_off, read_off_measurement
-from core.session import CandidateEntry, Session, Target, dumps_session, loads_session
+from bandsmith.bench.readoff import read_off, read_off_measurement
+from bandsmith.files.session import CandidateEntry, Session, Target, dumps_session, loads_session
 
 from measured_helpers import MFB, TANK, sweep, true_figures, write_layouts, moved
 

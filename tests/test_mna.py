@@ -3,8 +3,8 @@
 import numpy as np
 import pytest
 
-from core.circuits import all_topologies
-from core.mna import build_system, solve_at
+from bandsmith.circuits import all_topologies
+from bandsmith.solver.mna import build_system, solve_at
 
 
 @pytest.mark.parametrize("topo", all_topologies(), ids=lambda t: t.id)

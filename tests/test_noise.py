@@ -1,4 +1,4 @@
-"""Output noise (core.noise) against Johnson–Nyquist, a closed form, sympy nodal analysis and scipy quad."""
+"""Output noise (bandsmith.analysis.noise) against Johnson–Nyquist, a closed form, sympy nodal analysis and scipy quad."""
 
 import math
 
@@ -9,10 +9,10 @@ import scipy.integrate
 import sympy as sp
 from numpy.testing import assert_allclose
 
-from core.circuits import get_topology
-from core.errors import InputError
-from core.mna import IDEAL, OpAmpModel
-from core.noise import (
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.solver.mna import IDEAL, OpAmpModel
+from bandsmith.analysis.noise import (
     BOLTZMANN_J_PER_K,
     NoiseSettings,
     johnson_density,

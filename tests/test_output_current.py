@@ -7,12 +7,12 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from core.analysis import opamp_output_current
-from core.candidate import Conditions
-from core.cascade import ChainSettings, design_cascade
-from core.circuits import all_topologies
-from core.mna import solve_at
-from core.netlist import Element, Netlist
+from bandsmith.analysis.analyzer import opamp_output_current
+from bandsmith.design.candidate import Conditions
+from bandsmith.chain.cascade import ChainSettings, design_cascade
+from bandsmith.circuits import all_topologies
+from bandsmith.solver.mna import solve_at
+from bandsmith.solver.netlist import Element, Netlist
 
 TOPOLOGIES = all_topologies()
 

@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from core.analysis import _first_pass, _ladder
-from core.circuits import get_topology
-from core.figures import measure, measure_near
-from core.polyroots import cubic_roots, quadratic_roots
+from bandsmith.analysis.analyzer import _first_pass, _ladder
+from bandsmith.circuits import get_topology
+from bandsmith.analysis.figures import measure, measure_near
+from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
 
 
 def _real_sorted(roots):

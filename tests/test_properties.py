@@ -2,7 +2,7 @@
 
 - Any part values in wide log-uniform ranges give finite figures or a clear InputError, never
   another exception (BRIEF.md: bad input never crashes).
-- Any malformed value text given to the parsing of typed parts (``core.candidate.parse_parts``,
+- Any malformed value text given to the parsing of typed parts (``bandsmith.design.candidate.parse_parts``,
   what the command line and the window use) gives InputError, never another exception.
 - The ideal band-pass biquad's magnitude is symmetric about f0 on a log axis (derived below).
 """
@@ -18,10 +18,10 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
-from core.analysis import transfer_function
-from core.candidate import Candidate, Conditions, parse_parts
-from core.circuits import get_topology, topology_ids
-from core.errors import InputError
+from bandsmith.analysis.analyzer import transfer_function
+from bandsmith.design.candidate import Candidate, Conditions, parse_parts
+from bandsmith.circuits import get_topology, topology_ids
+from bandsmith.common.errors import InputError
 
 SETTINGS = settings(derandomize=True, deadline=None, max_examples=100,
                     suppress_health_check=[HealthCheck.too_slow])

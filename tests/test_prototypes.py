@@ -7,8 +7,8 @@ import pytest
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from core.errors import InputError
-from core.prototypes import DEFAULT_RIPPLE_DB, RESPONSES, check_order, prototype
+from bandsmith.common.errors import InputError
+from bandsmith.chain.prototypes import DEFAULT_RIPPLE_DB, RESPONSES, check_order, prototype
 
 # Pole frequency ωp / Q per section, "r" a real pole at that frequency; normalised as scipy does
 # (buttap −3 dB at 1 rad/s; cheb1ap ripple-band edge at 1; besselap norm='mag' −3 dB at 1).

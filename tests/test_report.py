@@ -19,10 +19,10 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from core.candidate import Candidate
-from core.circuits import all_topologies, get_topology
-from core.session import CandidateEntry, OpAmpSpec, Session, Target, load_session, save_session
-from core.values import format_rkm, format_value
+from bandsmith.design.candidate import Candidate
+from bandsmith.circuits import all_topologies, get_topology
+from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target, load_session, save_session
+from bandsmith.common.values import format_rkm, format_value
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "resources" / "demo_session.bandsmith.json"
@@ -56,7 +56,7 @@ def session_file(tmp_path) -> Path:
 
 
 def _bandsmith(*args, cwd=None):
-    return subprocess.run([sys.executable, "-m", "app.cli", *map(str, args)], capture_output=True, text=True, cwd=cwd or ROOT, timeout=300)
+    return subprocess.run([sys.executable, "-m", "bandsmith.app", *map(str, args)], capture_output=True, text=True, cwd=cwd or ROOT, timeout=300)
 
 
 def _text(page: str) -> str:
@@ -124,7 +124,7 @@ def test_cli_html_report_has_plots_parts_needs_and_cautions(session_file, tmp_pa
 
 def test_figures_in_report_match_closed_form_mfb(qapp):
     """The f0, Q and gain the report prints for the mfb example match the textbook formulas."""
-    from app.window.report import build_report_html
+    from bandsmith.app.report.builder import build_report_html
 
     topo = get_topology("mfb")
     v = dict(topo.example)
@@ -144,7 +144,7 @@ def test_figures_in_report_match_closed_form_mfb(qapp):
 
 
 def test_report_without_images_and_with_notes_escaped(qapp):
-    from app.window.report import build_report_html
+    from bandsmith.app.report.builder import build_report_html
 
     s = _built_session()
     page = build_report_html(s, images=False, created=datetime(2026, 3, 4, 5, 6, tzinfo=timezone.utc))
@@ -156,8 +156,8 @@ def test_report_without_images_and_with_notes_escaped(qapp):
 def test_switched_off_candidate_is_listed_but_not_plotted(qapp):
     from dataclasses import replace
 
-    from app.plots.curves import plot_inputs
-    from app.window.report import make_context
+    from bandsmith.app.plots.curves import plot_inputs
+    from bandsmith.app.report.builder import make_context
 
     s = _built_session()
     off = replace(s.candidates[1], enabled=False)
@@ -165,14 +165,14 @@ def test_switched_off_candidate_is_listed_but_not_plotted(qapp):
     ctx = make_context(s, images=False)
     assert [c.label for c in ctx.active] == [c.id for c in s.candidates if c.enabled]
     assert off.id not in [p.label for p in plot_inputs([(c.label, c.index, c.analysis) for c in ctx.active])]
-    from app.window.report import render_html
+    from bandsmith.app.report.builder import render_html
 
     text = _text(render_html(ctx))
     assert f"{off.id}: " in text and "switched off (not in the plots)" in text
 
 
 def test_sections_can_be_added_before_the_cautions(qapp, monkeypatch):
-    from app.window import report
+    from bandsmith.app.report import builder as report
 
     monkeypatch.setattr(report, "SECTIONS", list(report.SECTIONS))
     report.register_section("later-feature", lambda ctx: "<h2>A later feature</h2><p>later</p>")
@@ -256,7 +256,8 @@ def test_cli_bad_output_exits_2_naming_output(session_file, tmp_path, name):
 
 
 def test_write_report_is_atomic(qapp, tmp_path, monkeypatch):
-    from app.window import exporting, report
+    from bandsmith.app.window import exporting
+    from bandsmith.app.report import builder as report
 
     out = tmp_path / "r.html"
     out.write_text("old", encoding="utf-8")
@@ -265,7 +266,7 @@ def test_write_report_is_atomic(qapp, tmp_path, monkeypatch):
         raise OSError(28, "No space left on device")
 
     monkeypatch.setattr(exporting.os, "replace", fail)
-    from core.errors import InputError
+    from bandsmith.common.errors import InputError
 
     with pytest.raises(InputError) as err:
         report.write_report(_built_session(), out)
@@ -281,7 +282,7 @@ def test_curves_match_scipy_freqs_and_step(qapp):
     """The report's curves are the core's response: checked against scipy.signal."""
     import scipy.signal
 
-    from app.plots.curves import PLOT_KEYS, plot_inputs, response_plots
+    from bandsmith.app.plots.curves import PLOT_KEYS, plot_inputs, response_plots
 
     s = _built_session()
     an = _analyses(s)
@@ -307,8 +308,8 @@ def test_curves_match_scipy_freqs_and_step(qapp):
 
 
 def test_rendered_plots_are_png_with_every_candidate(qapp):
-    from app.plots.curves import plot_inputs, response_plots
-    from app.plots.render import build_plot_widget, render_plots_png
+    from bandsmith.app.plots.curves import plot_inputs, response_plots
+    from bandsmith.app.plots.render import build_plot_widget, render_plots_png
 
     s = _built_session()
     an = _analyses(s)
@@ -331,7 +332,7 @@ def test_rendered_plots_are_png_with_every_candidate(qapp):
 
 def test_empty_session_and_ideal_opamp(qapp, tmp_path):
     pypdf = pytest.importorskip("pypdf")
-    from app.window.report import build_report_html, write_report
+    from bandsmith.app.report.builder import build_report_html, write_report
 
     empty = Session(Target(1000.0, 2.0, 1.0), ())
     page = build_report_html(empty)
@@ -349,7 +350,7 @@ def test_empty_session_and_ideal_opamp(qapp, tmp_path):
 
 
 def test_unstable_candidate_is_warned_and_kept_out_of_the_plots(qapp):
-    from app.window.report import make_context, render_html
+    from bandsmith.app.report.builder import make_context, render_html
 
     bad = dict(get_topology("sallen-key").example)
     # K = 1 + RB/RA = 101: far beyond the gain at which this band-pass turns unstable (a K of a

@@ -13,12 +13,12 @@ from pathlib import Path
 
 import pytest
 
-from app.window.report import SECTIONS, build_report_html
-from core.candidate import Conditions
-from core.cascade import ChainSettings, cascade_session, chain_cascade, design_cascade
-from core.circuits import get_topology
-from core.session import save_session
-from core.values import format_rkm
+from bandsmith.app.report.builder import SECTIONS, build_report_html
+from bandsmith.design.candidate import Conditions
+from bandsmith.chain.cascade import ChainSettings, cascade_session, chain_cascade, design_cascade
+from bandsmith.circuits import get_topology
+from bandsmith.files.session import save_session
+from bandsmith.common.values import format_rkm
 
 REPO = Path(__file__).resolve().parents[1]
 
@@ -51,9 +51,9 @@ def test_the_section_shows_request_figures_stages_and_parts(session):
     for heading in ("Request", "As built", "Stages", "Amplifier needs per stage", "Parts"):
         assert f"<h3>{heading}</h3>" in part
     # The deviation from the ideal response is the core's, as measured from the saved parts.
-    from core.cascade import chains_in
+    from bandsmith.chain.cascade import chains_in
 
-    from app.window.chain_pane import chain_conditions
+    from bandsmith.app.window.panes.chain_pane import chain_conditions
 
     (chain,) = chains_in(session)
     result = chain_cascade(chain, conditions=chain_conditions(session))
@@ -95,7 +95,7 @@ def test_bandsmith_report_headless_includes_the_chain(session, tmp_path):
     out = tmp_path / "report.html"
     env = dict(os.environ, PYTHONPATH=str(REPO), QT_QPA_PLATFORM="offscreen")
     proc = subprocess.run(
-        [sys.executable, "-m", "app.cli", "report", str(path), "-o", str(out)], cwd=REPO, env=env, capture_output=True, text=True, timeout=120
+        [sys.executable, "-m", "bandsmith.app", "report", str(path), "-o", str(out)], cwd=REPO, env=env, capture_output=True, text=True, timeout=120
     )
     assert proc.returncode == 0, proc.stderr
     html = out.read_text(encoding="utf-8")

@@ -18,8 +18,8 @@ from pathlib import Path
 import pytest
 from numpy.testing import assert_allclose
 
-from core.measured import read_measurement, with_measurement
-from core.session import CandidateEntry, OpAmpSpec, Session, Target, save_session
+from bandsmith.bench.measured import read_measurement, with_measurement
+from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target, save_session
 from measured_helpers import MFB, moved, sweep, true_figures, write_layouts
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -57,10 +57,10 @@ def _section(page: str) -> str:
 
 
 def test_report_shows_overlay_figures_and_diagnosis(qapp, tmp_path):
-    from app.window.report import build_report_html
-    from core.candidate import Candidate
-    from core.diagnose import diagnose
-    from core.readoff import read_off_measurement
+    from bandsmith.app.report.builder import build_report_html
+    from bandsmith.design.candidate import Candidate
+    from bandsmith.bench.diagnose import diagnose
+    from bandsmith.bench.readoff import read_off_measurement
 
     session, m = _measured_session(tmp_path)
     page = build_report_html(session)
@@ -83,7 +83,7 @@ def test_report_shows_overlay_figures_and_diagnosis(qapp, tmp_path):
     assert_allclose(ro.f0_hz, true["f0_hz"], rtol=0.005)
     assert_allclose(ro.q, true["q"], rtol=0.04)
     assert_allclose(ro.gain_center_db, true["gain_db"], atol=0.12)
-    from core.values import format_value
+    from bandsmith.common.values import format_value
 
     assert format_value(ro.f0_hz, "Hz", digits=5) in text
     assert f"{ro.gain_center_db:+.2f} dB" in text
@@ -105,7 +105,7 @@ def test_report_shows_overlay_figures_and_diagnosis(qapp, tmp_path):
 
 
 def test_magnitude_only_and_missing_candidate(qapp, tmp_path):
-    from app.window.report import build_report_html
+    from bandsmith.app.report.builder import build_report_html
 
     session, m = _measured_session(tmp_path, layout="quoted_magnitude")
     sec = _section(build_report_html(session))
@@ -119,7 +119,7 @@ def test_magnitude_only_and_missing_candidate(qapp, tmp_path):
 
 
 def test_no_measurement_no_section(qapp, tmp_path):
-    from app.window.report import build_report_html
+    from bandsmith.app.report.builder import build_report_html
 
     session, _ = _measured_session(tmp_path)
     from dataclasses import replace
@@ -135,13 +135,13 @@ def test_headless_report_command_includes_it(tmp_path):
     save_session(session, path)
     out = tmp_path / "report.html"
     env = {k: v for k, v in __import__("os").environ.items() if k not in ("DISPLAY", "WAYLAND_DISPLAY", "QT_QPA_PLATFORM")}
-    r = subprocess.run([sys.executable, "-m", "app.cli", "report", str(path), "-o", str(out)], capture_output=True, text=True, cwd=ROOT, timeout=300, env=env)
+    r = subprocess.run([sys.executable, "-m", "bandsmith.app", "report", str(path), "-o", str(out)], capture_output=True, text=True, cwd=ROOT, timeout=300, env=env)
     assert r.returncode == 0, r.stderr
     page = out.read_text(encoding="utf-8")
     sec = _section(page)
     assert 'id="measured-1-magnitude"' in sec and 'id="measured-1-phase"' in sec and "Diagnosis:" in _text(sec)
     pdf = tmp_path / "report.pdf"
-    r = subprocess.run([sys.executable, "-m", "app.cli", "report", str(path), "-o", str(pdf)], capture_output=True, text=True, cwd=ROOT, timeout=300, env=env)
+    r = subprocess.run([sys.executable, "-m", "bandsmith.app", "report", str(path), "-o", str(pdf)], capture_output=True, text=True, cwd=ROOT, timeout=300, env=env)
     assert r.returncode == 0, r.stderr
     pypdf = pytest.importorskip("pypdf")
     reader = pypdf.PdfReader(str(pdf))

@@ -1,8 +1,8 @@
 """The report's "Op-amps from the shelf" section: the session's models against every active candidate.
 
-The models straddle the candidate's required GBW (core.fitcheck's own need) by ±0.1 %, every
+The models straddle the candidate's required GBW (bandsmith.bench.fitcheck's own need) by ±0.1 %, every
 other margin far above its comfort factor, so the verdict words are known; the headroom printed is
-core.headroom's for the chosen model.
+bandsmith.bench.headroom's for the chosen model.
 """
 
 from __future__ import annotations
@@ -11,12 +11,12 @@ import html as htmllib
 import re
 from dataclasses import replace
 
-from core.candidate import Candidate
-from core.fitcheck import check_amp
-from core.headroom import headroom
-from core.session import CandidateEntry, OpAmpSpec, Session, Target
-from core.shelf import OpAmp
-from core.values import format_value
+from bandsmith.design.candidate import Candidate
+from bandsmith.bench.fitcheck import check_amp
+from bandsmith.bench.headroom import headroom
+from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target
+from bandsmith.bench.shelf import OpAmp
+from bandsmith.common.values import format_value
 
 MFB = {"R1": 10e3, "R2": 866.0, "R3": 82e3, "C1": 10e-9, "C2": 10e-9}  # the MFB example (core/circuits/mfb.py)
 
@@ -47,7 +47,7 @@ def _session():
 
 
 def test_verdict_table_reasons_and_chosen_headroom(qapp):
-    from app.window.report import build_report_html
+    from bandsmith.app.report.builder import build_report_html
 
     s, amps = _session()
     page = build_report_html(s, images=False)
@@ -70,7 +70,7 @@ def test_verdict_table_reasons_and_chosen_headroom(qapp):
 
 
 def test_no_models_in_the_session_no_section(qapp):
-    from app.window.report import build_report_html
+    from bandsmith.app.report.builder import build_report_html
 
     s, _ = _session()
     assert 'class="shelf"' not in build_report_html(replace(s, extras={}), images=False)
@@ -80,9 +80,9 @@ def test_pdf_of_the_demo_with_the_generic_models(qapp, tmp_path):
     """The demo session with every shipped generic model kept in it: a page for a person to look at."""
     from pathlib import Path
 
-    from app.window.demo import demo_session
-    from app.window.report import write_report
-    from core.shelf import ARCHETYPES
+    from bandsmith.app.window.demo import demo_session
+    from bandsmith.app.report.builder import write_report
+    from bandsmith.bench.shelf import ARCHETYPES
 
     s = demo_session()
     first = s.candidates[0].id

@@ -1,6 +1,6 @@
 """Report sections of the tolerance spread and the output noise, in process and from `bandsmith report`.
 
-The numbers are the core's (core.tolerance, core.noise; checked against outside sources in
+The numbers are the core's (bandsmith.spread.tolerance, bandsmith.analysis.noise; checked against outside sources in
 tests/test_tolerance.py and tests/test_noise.py): the report must carry them for the session's
 own settings, skip the spread when the session keeps none, and use the noise defaults, saying so.
 """
@@ -15,15 +15,15 @@ from pathlib import Path
 
 import pytest
 
-from app.window.demo import demo_session
-from app.window.report import SECTIONS, build_report_html
-from app.window.report_spread import section_noise, section_spread
-from core.candidate import Candidate
-from core.mna import IDEAL
-from core.noise import NoiseSettings, output_noise
-from core.session import OpAmpSpec, save_session
-from core.tolerance import SpreadSettings, run_spread
-from core.values import format_value
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.report.builder import SECTIONS, build_report_html
+from bandsmith.app.report.spread_section import section_noise, section_spread
+from bandsmith.design.candidate import Candidate
+from bandsmith.solver.mna import IDEAL
+from bandsmith.analysis.noise import NoiseSettings, output_noise
+from bandsmith.files.session import OpAmpSpec, save_session
+from bandsmith.spread.tolerance import SpreadSettings, run_spread
+from bandsmith.common.values import format_value
 
 WHEN = datetime(2026, 3, 1, 12, 0, tzinfo=timezone.utc)
 ROOT = Path(__file__).resolve().parents[1]
@@ -73,7 +73,7 @@ def test_spread_section_from_saved_settings():
 
 def test_spread_with_an_ideal_opamp_leaves_the_gbw_spread_out():
     s = replace(demo_session(), opamp=OpAmpSpec(gbw_hz=None), extras={"spread": SpreadSettings(gbw_tol=0.3, trials=500).to_json()})
-    from app.window.report import make_context
+    from bandsmith.app.report.builder import make_context
 
     ctx = make_context(s, images=False, created=WHEN)
     text = section_spread(ctx)
@@ -95,7 +95,7 @@ def test_headless_report_command_includes_both(tmp_path):
     save_session(s, src)
     env = {k: v for k, v in os.environ.items() if k not in ("QT_QPA_PLATFORM", "DISPLAY", "WAYLAND_DISPLAY")}
     for out in (tmp_path / "r.html", tmp_path / "r.pdf"):
-        p = subprocess.run([sys.executable, "-m", "app.cli", "report", str(src), "-o", str(out)], cwd=ROOT, env=env, capture_output=True, text=True, timeout=300)
+        p = subprocess.run([sys.executable, "-m", "bandsmith.app", "report", str(src), "-o", str(out)], cwd=ROOT, env=env, capture_output=True, text=True, timeout=300)
         assert p.returncode == 0, p.stderr
         assert out.is_file()
     html = (tmp_path / "r.html").read_text(encoding="utf-8")

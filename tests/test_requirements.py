@@ -1,7 +1,7 @@
 """Amplifier needs: required GBW, slew rate for the sine and the step, output peak and current.
 
 Definitions: BRIEF.md ("Required GBW", "Slew rate needed", "Output current needed"). The tolerance
-checks below are written here, not taken from ``core.analysis.within_tolerances``.
+checks below are written here, not taken from ``bandsmith.analysis.analyzer.within_tolerances``.
 """
 
 from __future__ import annotations
@@ -13,11 +13,11 @@ import pytest
 import scipy.signal
 from numpy.testing import assert_allclose
 
-from core.analysis import Tolerances, analyze, ideal_figures, required_gbw, transfer_function
-from core.circuits import get_topology
-from core.figures import measure
-from core.mna import OpAmpModel
-from core.timeresponse import step_response
+from bandsmith.analysis.analyzer import Tolerances, analyze, ideal_figures, required_gbw, transfer_function
+from bandsmith.circuits import get_topology
+from bandsmith.analysis.figures import measure
+from bandsmith.solver.mna import OpAmpModel
+from bandsmith.analysis.timeresponse import step_response
 
 TWO_PI = 2.0 * math.pi
 
@@ -275,7 +275,7 @@ def test_requirements_json_has_contract_keys():
 def test_unstable_sallen_key_is_flagged():
     # Equal-part Sallen–Key band-pass: Q = √2/(4 − K), unstable for K ≥ 4 (Franco 3rd ed. ch. 3);
     # RB/RA = 4 gives K = 5, so a pole pair lies in the right half-plane.
-    from core.candidate import Candidate
+    from bandsmith.design.candidate import Candidate
 
     values = {"R1": 10e3, "R2": 10e3, "R3": 10e3, "C1": 10e-9, "C2": 10e-9, "RA": 10e3, "RB": 40e3}
     a = Candidate("sallen-key", values).analyze()

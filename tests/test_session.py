@@ -13,11 +13,11 @@ from pathlib import Path
 
 import pytest
 
-import core.session as session_mod
-from core.analysis import Tolerances
-from core.circuits import get_topology
-from core.errors import InputError
-from core.session import (
+import bandsmith.files.session as session_mod
+from bandsmith.analysis.analyzer import Tolerances
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.files.session import (
     FORMAT,
     VERSION,
     CandidateEntry,

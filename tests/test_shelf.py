@@ -8,8 +8,8 @@ import re
 import pytest
 from numpy.testing import assert_allclose
 
-from core.errors import InputError
-from core.shelf import (
+from bandsmith.common.errors import InputError
+from bandsmith.bench.shelf import (
     ARCHETYPES,
     FORMAT,
     VERSION,

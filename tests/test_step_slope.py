@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 import scipy.signal
 
-from core.rational import Rational
-from core.timeresponse import max_step_slope, step_response
+from bandsmith.solver.rational import Rational
+from bandsmith.analysis.timeresponse import max_step_slope, step_response
 
 
 def _biquad(w0, q, gain, w_ref):

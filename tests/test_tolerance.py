@@ -1,4 +1,4 @@
-"""Tolerance spread: sampling, Monte Carlo figures, yield, worst case, settings (core.tolerance)."""
+"""Tolerance spread: sampling, Monte Carlo figures, yield, worst case, settings (bandsmith.spread.tolerance)."""
 
 import math
 
@@ -7,14 +7,14 @@ import pytest
 import scipy.stats
 from numpy.testing import assert_allclose, assert_array_equal
 
-from core.analysis import sensitivities, transfer_function
-from core.circuits import get_topology
-from core.errors import InputError
-from core.expansion import Expansion, circuit_variables
-from core.figures import measure
-from core.mna import IDEAL, OpAmpModel, build_system
-from core.rational import reference_w
-from core.tolerance import (
+from bandsmith.analysis.analyzer import sensitivities, transfer_function
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.solver.expansion import Expansion, circuit_variables
+from bandsmith.analysis.figures import measure
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
+from bandsmith.solver.rational import reference_w
+from bandsmith.spread.tolerance import (
     DEFAULT_TOLERANCES,
     STAT_KEYS,
     SpreadCancelled,
@@ -210,7 +210,7 @@ def test_monte_carlo_spread_matches_first_order_prediction(topology_id, dist):
     # so Var(ln y) ≈ Σ S_i²·Var(u_i) and σ_y/y ≈ σ(ln y) = √Σ (S_i·σ_i)². For U(−p, p) the variance
     # is (2p)²/12 = p²/3, σ_i = p/√3; for N(0, p/3), σ_i = p/3. The gain in dB is
     # 20·log10|g| = (20/ln 10)·ln|g|, so σ(dB) = (20/ln 10)·σ(ln|g|). The sensitivities come from
-    # core.analysis.sensitivities (central differences on the solver), not from the spread module.
+    # bandsmith.analysis.analyzer.sensitivities (central differences on the solver), not from the spread module.
     # Tolerance 3 %: the sampling error of a standard deviation from N = 40 000 trials is
     # 1/√(2N) ≈ 0.35 %, and the second-order terms at p = 0.2 % are of order p.
     nl = example(topology_id)
@@ -245,7 +245,7 @@ def test_stats_keys_and_values():
 @pytest.mark.parametrize("rl_frac", [0.0, 0.05])
 def test_finite_opamp_trials_match_exact_measure_for_any_q(q, rl_frac):
     # The spread measures finite-op-amp trials on a short search grid of each trial's own; the
-    # reference is core.figures.measure's global search on the solver's transfer function for
+    # reference is bandsmith.analysis.figures.measure's global search on the solver's transfer function for
     # the same sampled values. Q from 0.5 (a double real pole) to 100, with and without a winding
     # resistance (RL = rl_frac·√(L/C)/Q: an inductor Q of ω0·L/RL = Q/rl_frac, 20 times the circuit's).
     l_h = 1e-3
@@ -280,7 +280,7 @@ def test_expansion_and_solver_engines_agree(topology_id, changes):
 @pytest.mark.parametrize("topology_id", CIRCUITS)
 @pytest.mark.parametrize("gbw", [None, 1e6])
 def test_expansion_equals_solver_transfer_function(topology_id, gbw):
-    # The expansion's polynomials against the MNA solver (core.rational), at random part values.
+    # The expansion's polynomials against the MNA solver (bandsmith.solver.rational), at random part values.
     nl = example(topology_id, **({"RL": 30.0} if topology_id == "rlc-tank" else {}))
     op = IDEAL if gbw is None else OpAmpModel(gbw)
     w = reference_w(build_system(nl))
@@ -391,7 +391,7 @@ def test_sensitivity_corners_beyond_twelve_parts(monkeypatch):
     # With more varying quantities than MAX_CORNER_PARTS the worst case uses the corners the
     # sensitivities point to; the ideal tank's figures are monomials (REFERENCES.md), so those
     # corners are the true extremes and agree with the full enumeration.
-    import core.tolerance as tolerance
+    import bandsmith.spread.tolerance as tolerance
 
     nl = example("rlc-tank", RL=20.0)
     full = worst_case(nl, SpreadSettings())
@@ -455,9 +455,9 @@ def test_json_has_the_contract_keys():
 
 
 def test_settings_survive_a_session_round_trip():
-    # The window keeps both settings under the session's extras (core.session keeps them verbatim).
-    from core.noise import NoiseSettings
-    from core.session import CandidateEntry, Session, Target, dumps_session, loads_session
+    # The window keeps both settings under the session's extras (bandsmith.files.session keeps them verbatim).
+    from bandsmith.analysis.noise import NoiseSettings
+    from bandsmith.files.session import CandidateEntry, Session, Target, dumps_session, loads_session
 
     spread = SpreadSettings(tolerances={"C2": 0.02}, dist="normal", trials=25_000, seed=3, gbw_tol=0.1)
     noise = NoiseSettings(en_v_per_rthz=3e-9, band_hz=(200.0, 20e3))

@@ -1,4 +1,4 @@
-"""Tests for core.values: reading and writing values (SI prefixes, IEC 60062 RKM codes)."""
+"""Tests for bandsmith.common.values: reading and writing values (SI prefixes, IEC 60062 RKM codes)."""
 
 import math
 
@@ -7,8 +7,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
-from core.errors import InputError
-from core.values import (
+from bandsmith.common.errors import InputError
+from bandsmith.common.values import (
     format_rkm,
     format_value,
     parse_fraction,

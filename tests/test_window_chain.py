@@ -11,12 +11,12 @@ import scipy.signal
 from numpy.testing import assert_allclose
 from PySide6 import QtCore
 
-from app.window.chain_pane import EXTRAS_KEY, ChainPane
-from app.window.demo import demo_session
-from app.window.state import WorkbenchState
-from app.window.theme import STYLE_SHEET
-from core.cascade import chains_in
-from core.session import load_session, save_session
+from bandsmith.app.window.panes.chain_pane import EXTRAS_KEY, ChainPane
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.app.window.theme import STYLE_SHEET
+from bandsmith.chain.cascade import chains_in
+from bandsmith.files.session import load_session, save_session
 
 from window_helpers import ScriptedPrompter, temp_settings
 
@@ -91,7 +91,7 @@ def test_a_new_session_shows_no_chain_and_says_how_to_build_one(pane, state):
 def test_build_from_the_form_lists_the_stages_and_plots_them(qtbot, pane, state):
     fill_form(pane, order=4, f0="10k", bw="3k", gain="2", series="exact")
     build(qtbot, pane)
-    # The chain is kept in the session, as core.cascade defines it.
+    # The chain is kept in the session, as bandsmith.chain.cascade defines it.
     (chain,) = chains_in(state.session)
     assert chain.id == "chain-1" and len(chain.stages) == 4
     lo, hi = band_edges(10e3, 3e3)
@@ -237,7 +237,7 @@ def test_exports_of_the_shown_chain(qtbot, state, tmp_path):
 
 
 def test_the_window_has_the_pane_and_runs_its_jobs_in_the_status_bar(qtbot, tmp_path):
-    from app.window.main_window import WorkbenchWindow
+    from bandsmith.app.window.main_window import WorkbenchWindow
 
     state = WorkbenchState(demo_session())
     win = WorkbenchWindow(state, prompter=ScriptedPrompter(), settings=temp_settings(tmp_path), recovery=False)
@@ -277,7 +277,7 @@ def test_screenshot_of_the_pane(qtbot, pane, state):
 def test_with_an_ideal_op_amp_nothing_claims_a_finite_one(qtbot):
     from dataclasses import replace
 
-    from core.session import OpAmpSpec
+    from bandsmith.files.session import OpAmpSpec
 
     state = WorkbenchState(replace(demo_session(), opamp=OpAmpSpec(gbw_hz=None, a0=1e5)))
     pane = make_pane(qtbot, state)

@@ -5,9 +5,9 @@ import pytest
 from numpy.testing import assert_allclose
 from PySide6 import QtCore
 
-from app.window.demo import demo_session
-from app.window.main_window import WorkbenchWindow
-from app.window.state import WorkbenchState
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.window.main_window import WorkbenchWindow
+from bandsmith.app.window.state import WorkbenchState
 from window_helpers import ScriptedPrompter, temp_settings
 
 pytestmark = pytest.mark.gui

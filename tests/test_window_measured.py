@@ -13,11 +13,11 @@ import pytest
 from numpy.testing import assert_allclose
 from PySide6 import QtWidgets
 
-from app.window.main_window import WorkbenchWindow
-from app.window.measurement_pane import ColumnMappingDialog
-from app.window.state import WorkbenchState
-from core.measured import ColumnMapping, MappingNeeded, read_measurement, session_measurements
-from core.session import CandidateEntry, Session, Target, load_session
+from bandsmith.app.window.main_window import WorkbenchWindow
+from bandsmith.app.window.panes.measurement_pane import ColumnMappingDialog
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.bench.measured import ColumnMapping, MappingNeeded, read_measurement, session_measurements
+from bandsmith.files.session import CandidateEntry, Session, Target, load_session
 from measured_helpers import MFB, sweep, write_layouts
 from window_helpers import ScriptedPrompter, temp_settings
 
@@ -102,7 +102,7 @@ def test_import_is_undoable_and_saved(window, files, tmp_path):
     assert pane.measurement is None and _points(window, "magnitude")[0].size == 0
     window.state.undo_stack.redo()
     assert pane.measurement is not None and _points(window, "magnitude")[0].size == 201
-    from core.session import save_session
+    from bandsmith.files.session import save_session
 
     out = tmp_path / "with_measurement.json"
     save_session(window.state.session, out)

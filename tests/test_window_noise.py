@@ -20,15 +20,15 @@ import scipy.constants
 from numpy.testing import assert_allclose
 from PySide6 import QtCore, QtWidgets
 
-from app.window.demo import demo_session
-from app.window.main_window import WorkbenchWindow
-from app.window.noise_pane import NoisePane
-from app.window.state import WorkbenchState
-from core.candidate import Candidate
-from core.mna import IDEAL
-from core.noise import NoiseSettings, output_noise
-from core.session import load_session
-from core.values import format_value
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.window.main_window import WorkbenchWindow
+from bandsmith.app.window.panes.noise_pane import NoisePane
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.design.candidate import Candidate
+from bandsmith.solver.mna import IDEAL
+from bandsmith.analysis.noise import NoiseSettings, output_noise
+from bandsmith.files.session import load_session
+from bandsmith.common.values import format_value
 from window_helpers import ScriptedPrompter, temp_settings
 
 pytestmark = pytest.mark.gui

@@ -6,11 +6,11 @@ import sys
 
 import pytest
 
-from app.window.demo import demo_session
-from app.window.main_window import WorkbenchWindow
-from app.window.recovery import left_behind
-from app.window.state import WorkbenchState
-from core.session import dumps_session, load_session
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.window.main_window import WorkbenchWindow
+from bandsmith.app.window.recovery import left_behind
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.files.session import dumps_session, load_session
 from window_helpers import ScriptedPrompter, temp_settings
 
 pytestmark = pytest.mark.gui
@@ -133,7 +133,7 @@ def test_unusable_file_gives_its_message_and_is_not_touched(qtbot, tmp_path, rec
 
 def test_open_dialog_and_recent_menu(qtbot, tmp_path, recovery_dir):
     target = tmp_path / "r.bandsmith.json"
-    from core.session import save_session
+    from bandsmith.files.session import save_session
 
     save_session(demo_session(), target)
     w, _ = _window(qtbot, tmp_path, open_path=[str(target)])

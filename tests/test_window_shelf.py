@@ -5,11 +5,11 @@ from pathlib import Path
 import pytest
 from PySide6 import QtCore
 
-from app.window.demo import demo_session
-from app.window.shelf_pane import SESSION_KEY, VERDICT_LOOK, ShelfPane
-from app.window.state import WorkbenchState
-from core.fitcheck import VERDICTS
-from core.shelf import ARCHETYPES, OpAmp, ShelfState, load_shelf, open_shelf, save_shelf
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.window.panes.shelf_pane import SESSION_KEY, VERDICT_LOOK, ShelfPane
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.bench.fitcheck import VERDICTS
+from bandsmith.bench.shelf import ARCHETYPES, OpAmp, ShelfState, load_shelf, open_shelf, save_shelf
 
 pytestmark = pytest.mark.gui
 
@@ -144,7 +144,7 @@ def test_copy_to_session_keeps_the_model(pane, state, tmp_path):
     assert sec["chosen"] == {cid: "bench amp"}
     assert OpAmp.from_json(sec["amps"][0]) == bench()
     # It survives a save and a load of the session, and shows on a shelf that lacks it.
-    from core.session import load_session, save_session
+    from bandsmith.files.session import load_session, save_session
 
     path = tmp_path / "s.bandsmith.json"
     save_session(state.session, path)
@@ -191,7 +191,7 @@ def test_damaged_shelf_file_banner_archetypes_file_untouched(qtbot, state, tmp_p
 
 
 def test_main_window_has_the_pane(qtbot, tmp_path, monkeypatch):
-    from app.window.main_window import WorkbenchWindow
+    from bandsmith.app.window.main_window import WorkbenchWindow
     from window_helpers import ScriptedPrompter, temp_settings
 
     shelf = tmp_path / "cfg" / "shelf.json"

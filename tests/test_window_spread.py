@@ -1,7 +1,7 @@
 """The Tolerance spread pane: settings in the session, a run off the GUI thread, cancel, histograms,
 yield, worst case, the envelope on the magnitude plot, stale results, save/reopen and undo.
 
-The reference for every number is the core (core.tolerance, itself checked against the
+The reference for every number is the core (bandsmith.spread.tolerance, itself checked against the
 first-order sensitivity prediction, scipy.stats.kstest and the worst-case bound in
 tests/test_tolerance.py): the pane must show exactly what the core computes for the same settings
 and seed. The one outside fact used here: for the uniform distribution no trial lies beyond the
@@ -16,17 +16,17 @@ import pytest
 from numpy.testing import assert_allclose
 from PySide6 import QtCore
 
-from app.window.demo import demo_session
-from app.window.main_window import WorkbenchWindow
-from app.window.plots import MagnitudePlot
-from app.window.results import frequency_grid
-from app.window.spread_pane import ENVELOPE_KEY, ENVELOPE_TRIALS, SpreadPane
-from app.window.state import WorkbenchState
-from core.candidate import Candidate
-from core.mna import IDEAL
-from core.session import load_session
-from core.tolerance import SpreadSettings, magnitude_envelope, run_spread
-from core.values import format_value
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.window.main_window import WorkbenchWindow
+from bandsmith.app.window.widgets.plots import MagnitudePlot
+from bandsmith.app.document.results import frequency_grid
+from bandsmith.app.window.panes.spread_pane import ENVELOPE_KEY, ENVELOPE_TRIALS, SpreadPane
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.design.candidate import Candidate
+from bandsmith.solver.mna import IDEAL
+from bandsmith.files.session import load_session
+from bandsmith.spread.tolerance import SpreadSettings, magnitude_envelope, run_spread
+from bandsmith.common.values import format_value
 from window_helpers import ScriptedPrompter, temp_settings
 
 pytestmark = pytest.mark.gui
@@ -232,7 +232,7 @@ def test_tank_shows_its_inductor(qtbot, pane, state):
     state.set_current("rlc-tank")
     assert pane.winding.isVisible()
     text = pane.winding.text()
-    from core.inductor import winding_effect
+    from bandsmith.analysis.inductor import winding_effect
 
     net, opamp = circuit(state, "rlc-tank")
     w = winding_effect(net, opamp=opamp)[0]

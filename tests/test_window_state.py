@@ -3,8 +3,8 @@
 import pytest
 from numpy.testing import assert_allclose
 
-from app.window.demo import demo_session
-from app.window.state import WorkbenchState
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.window.state import WorkbenchState
 
 pytestmark = pytest.mark.gui
 

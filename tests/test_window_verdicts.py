@@ -3,7 +3,7 @@ the Responses plots, and its headroom.
 
 The models straddle the candidate's required GBW by ±0.1 % with every other margin far above its
 comfort factor, so only GBW decides. The curve drawn for the chosen model is checked against the
-exact transfer function from core.ampmodel evaluated here, and the headroom against core.headroom.
+exact transfer function from bandsmith.solver.ampmodel evaluated here, and the headroom against bandsmith.bench.headroom.
 """
 
 from __future__ import annotations
@@ -15,18 +15,18 @@ import pytest
 from numpy.testing import assert_allclose
 from PySide6 import QtCore
 
-from app.window.amp_overlay import overlay_key
-from app.window.demo import demo_session
-from app.window.main_window import WorkbenchWindow
-from app.window.state import WorkbenchState
-from app.window.verdicts import VerdictBook
-from core.ampmodel import amp_transfer_function
-from core.analysis import sweep
-from core.candidate import Candidate
-from core.fitcheck import VERDICTS, check_amp
-from core.headroom import headroom
-from core.session import CandidateEntry, OpAmpSpec, Session, Target
-from core.shelf import OpAmp, save_shelf
+from bandsmith.app.window.widgets.amp_overlay import overlay_key
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.window.main_window import WorkbenchWindow
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.app.window.verdicts import VerdictBook
+from bandsmith.solver.ampmodel import amp_transfer_function
+from bandsmith.analysis.analyzer import sweep
+from bandsmith.design.candidate import Candidate
+from bandsmith.bench.fitcheck import VERDICTS, check_amp
+from bandsmith.bench.headroom import headroom
+from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target
+from bandsmith.bench.shelf import OpAmp, save_shelf
 from window_helpers import ScriptedPrompter, temp_settings
 
 pytestmark = pytest.mark.gui
@@ -127,7 +127,7 @@ def test_choosing_overlays_the_response_with_that_op_amp(window, qtbot):
     ph = window.plot_grid.plots["phase"].overlays[overlay_key("mfb")]
     f = np.asarray(mag.xData)
     assert_allclose(f, window.state.result("mfb").response.f_hz)
-    # The exact rational response with this model (core.ampmodel), evaluated here.
+    # The exact rational response with this model (bandsmith.solver.ampmodel), evaluated here.
     amp = s.row("just below").amp_name
     model = next(a for a in book.amps() if a.name == amp)
     h = amp_transfer_function(Candidate("mfb", MFB).netlist, gbw_hz=model.gbw_hz, a0=model.a0, f_p2_hz=model.f_p2_hz).at_f(f)[0]
@@ -155,7 +155,7 @@ def test_headroom_of_the_chosen_one(window, qtbot, session):
     room = headroom(Candidate("mfb", MFB).netlist, vin_v=0.5, supply_v=15.0, amp=model)
     text = s.headroom_text()
     assert f"node {room.limiting_node} limits first" in text
-    from core.values import format_value
+    from bandsmith.common.values import format_value
 
     assert format_value(room.max_vin_v, "V", digits=3) in text
     assert "✓" in text  # 0.5 V fits

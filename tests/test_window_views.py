@@ -9,11 +9,11 @@ from pathlib import Path
 import pytest
 from PySide6 import QtCore
 
-from app.window.background import BackgroundJob
-from app.window.demo import demo_session
-from app.window.main import STARTUP_MARK
-from app.window.main_window import WorkbenchWindow
-from app.window.state import WorkbenchState
+from bandsmith.app.window.background import BackgroundJob
+from bandsmith.app.window.demo import demo_session
+from bandsmith.app.window.main import STARTUP_MARK
+from bandsmith.app.window.main_window import WorkbenchWindow
+from bandsmith.app.window.state import WorkbenchState
 from window_helpers import ScriptedPrompter, temp_settings
 
 pytestmark = pytest.mark.gui
@@ -123,6 +123,6 @@ def test_bandsmith_command_shows_the_window(tmp_path):
         XDG_CONFIG_HOME=str(tmp_path),
         HOME=str(tmp_path),
     )
-    proc = subprocess.run([sys.executable, "-m", "app.cli"], env=env, capture_output=True, text=True, timeout=120)
+    proc = subprocess.run([sys.executable, "-m", "bandsmith.app"], env=env, capture_output=True, text=True, timeout=120)
     assert proc.returncode == 0, proc.stderr
     assert STARTUP_MARK in proc.stderr

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from PySide6 import QtCore
 
-from app.window.prompts import Prompter
+from bandsmith.app.window.prompts import Prompter
 
 
 class ScriptedPrompter(Prompter):

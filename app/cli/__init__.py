@@ -1,8 +1,8 @@
-"""The ``bandsmith`` command.
+"""The ``bandsmith`` command's sub-commands, all headless.
 
-With no sub-command, or a session file as the only argument, it opens the workbench window; the
-sub-commands run headless. Every module of this package that defines ``COMMAND`` (a
-:class:`~app.cli.common.Command`) is a sub-command: adding one is adding a module.
+With no sub-command, or a session file as the only argument, the command opens the workbench
+window instead (:mod:`bandsmith.app.entry` decides, with :func:`wants_window`). Every module of this package that defines ``COMMAND`` (a
+:class:`~bandsmith.app.cli.common.Command`) is a sub-command: adding one is adding a module.
 """
 
 from __future__ import annotations
@@ -11,9 +11,9 @@ import importlib
 import pkgutil
 import sys
 
-from .common import Command, CliParser, run_guarded
+from bandsmith.app.cli.common import Command, CliParser, run_guarded
 
-__all__ = ["main", "commands"]
+__all__ = ["main", "commands", "wants_window"]
 
 
 def commands() -> tuple[Command, ...]:
@@ -43,22 +43,16 @@ def _parser() -> CliParser:
     return parser
 
 
-def _open_window(argv: list[str]) -> int:
-    try:
-        from app.window.main import run_window
-    except ImportError as exc:  # the window is not built or Qt is missing
-        print(f"bandsmith: the window cannot start ({exc}); see `bandsmith --help` for the commands", file=sys.stderr)
-        return 1
-    return run_window(argv[0] if argv else None)
+def wants_window(argv: list[str]) -> bool:
+    """True when ``argv`` asks for the window: nothing, or one argument that is not a command."""
+    # Command names are their module names: decide without importing them all.
+    names = {info.name for info in pkgutil.iter_modules(__path__) if not info.name.startswith("_") and info.name != "common"}
+    return not argv or (len(argv) == 1 and argv[0] not in names and not argv[0].startswith("-"))
 
 
 def main(argv: list[str] | None = None) -> int:
-    """Entry point of the ``bandsmith`` command; returns the exit status."""
+    """Run one sub-command (``argv`` without the program name); returns the exit status."""
     argv = list(sys.argv[1:] if argv is None else argv)
-    # Command names are their module names: decide "window or command" without importing them all.
-    names = {info.name for info in pkgutil.iter_modules(__path__) if not info.name.startswith("_") and info.name != "common"}
-    if not argv or (len(argv) == 1 and argv[0] not in names and not argv[0].startswith("-")):
-        return _open_window(argv)
     parser = _parser()
     args = parser.parse_args(argv)
     if not getattr(args, "_run", None):

@@ -1,5 +1,5 @@
 import sys
 
-from app.cli import main
+from bandsmith.app.cli import main
 
 sys.exit(main())

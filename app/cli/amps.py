@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import sys
 
-from core.shelf import ShelfState
-from core.values import format_value
+from bandsmith.bench.shelf import ShelfState
+from bandsmith.common.values import format_value
 
-from .common import Command, print_json
-from .text import table
+from bandsmith.app.cli.common import Command, print_json
+from bandsmith.app.cli.text import table
 
 
 def configure(p):
@@ -17,7 +17,7 @@ def configure(p):
 
 def user_shelf() -> ShelfState:
     """The user's shelf; an unusable file gives the archetypes and a warning on stderr."""
-    from app.shelf_paths import open_user_shelf
+    from bandsmith.app.shelf_paths import open_user_shelf
 
     state = open_user_shelf()
     if state.warning:

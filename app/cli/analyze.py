@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-from core.candidate import Candidate, analysis_json, parse_parts
-from core.circuits import get_topology
-from core.errors import InputError
-from core.values import format_value
+from bandsmith.design.candidate import Candidate, analysis_json, parse_parts
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.common.values import format_value
 
-from .common import Command, add_amp_options, conditions_from, print_json, split_assignments
-from .text import UNITS, figures_rows, requirements_rows, sensitivity_table, table
+from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, print_json, split_assignments
+from bandsmith.app.cli.text import UNITS, figures_rows, requirements_rows, sensitivity_table, table
 
 
 def configure(p):
@@ -68,7 +68,7 @@ def run(args) -> int:
     if args.session:
         if args.topology or args.parts:
             raise InputError("session", "give either a session file or a circuit with its parts, not both")
-        from core.session import load_session  # issue 3's sessions
+        from bandsmith.files.session import load_session  # issue 3's sessions
 
         session = load_session(args.session)
         results = [

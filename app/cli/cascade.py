@@ -2,14 +2,14 @@
 
 from __future__ import annotations
 
-from core.cascade import AUTO, ChainSettings, cascade_json, cascade_session, circuit_choices, design_cascade
-from core.circuits import get_topology
-from core.errors import InputError
-from core.prototypes import RESPONSES
-from core.values import format_value, parse_positive
+from bandsmith.chain.cascade import AUTO, ChainSettings, cascade_json, cascade_session, circuit_choices, design_cascade
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.chain.prototypes import RESPONSES
+from bandsmith.common.values import format_value, parse_positive
 
-from .common import Command, add_amp_options, conditions_from, print_json
-from .text import UNITS, table
+from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, print_json
+from bandsmith.app.cli.text import UNITS, table
 
 
 def configure(p):
@@ -130,7 +130,7 @@ def run(args) -> int:
     result = design_cascade(settings, conditions=conditions)
     out = cascade_json(result)
     if args.save:
-        from core.session import save_session
+        from bandsmith.files.session import save_session
 
         save_session(cascade_session(result), args.save)
     if args.json:

@@ -4,18 +4,18 @@ from __future__ import annotations
 
 import math
 
-from core.analysis import Tolerances
-from core.candidate import Candidate, parse_parts
-from core.circuits import get_topology
-from core.errors import InputError
-from core.fitcheck import FitReport, fit_check
-from core.headroom import DEFAULT_SUPPLY_V
-from core.shelf import find_amp
-from core.values import format_value, parse_fraction, parse_positive
+from bandsmith.analysis.analyzer import Tolerances
+from bandsmith.design.candidate import Candidate, parse_parts
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.bench.fitcheck import FitReport, fit_check
+from bandsmith.bench.headroom import DEFAULT_SUPPLY_V
+from bandsmith.bench.shelf import find_amp
+from bandsmith.common.values import format_value, parse_fraction, parse_positive
 
-from .amps import user_shelf
-from .common import Command, print_json, split_assignments
-from .text import UNITS, table
+from bandsmith.app.cli.amps import user_shelf
+from bandsmith.app.cli.common import Command, print_json, split_assignments
+from bandsmith.app.cli.text import UNITS, table
 
 
 def configure(p):

@@ -10,10 +10,10 @@ import warnings
 from dataclasses import dataclass
 from typing import Callable
 
-from core.analysis import Tolerances
-from core.candidate import Conditions
-from core.errors import InputError
-from core.values import parse_fraction, parse_positive
+from bandsmith.analysis.analyzer import Tolerances
+from bandsmith.design.candidate import Conditions
+from bandsmith.common.errors import InputError
+from bandsmith.common.values import parse_fraction, parse_positive
 
 __all__ = [
     "Command",

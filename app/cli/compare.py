@@ -4,15 +4,15 @@ from __future__ import annotations
 
 import math
 
-from core.circuits import get_topology
-from core.compare import compare, compare_json
-from core.design import design_session
-from core.session import save_session
-from core.values import format_value
+from bandsmith.circuits import get_topology
+from bandsmith.design.compare import compare, compare_json
+from bandsmith.files.design_session import design_session
+from bandsmith.files.session import save_session
+from bandsmith.common.values import format_value
 
-from .common import Command, conditions_from, print_json
-from .design import add_target_options, series_from, spec_from
-from .text import UNITS, signed_error, table
+from bandsmith.app.cli.common import Command, conditions_from, print_json
+from bandsmith.app.cli.design import add_target_options, series_from, spec_from
+from bandsmith.app.cli.text import UNITS, signed_error, table
 
 
 def configure(p):

@@ -4,15 +4,16 @@ from __future__ import annotations
 
 import math
 
-from core.circuits import get_topology
-from core.design import DesignResult, Spec, design, design_json, design_session
-from core.errors import InputError
-from core.eseries import SERIES_NAMES
-from core.session import save_session
-from core.values import format_value, parse_positive
+from bandsmith.circuits import get_topology
+from bandsmith.design.designer import DesignResult, Spec, design, design_json
+from bandsmith.files.design_session import design_session
+from bandsmith.common.errors import InputError
+from bandsmith.common.eseries import SERIES_NAMES
+from bandsmith.files.session import save_session
+from bandsmith.common.values import format_value, parse_positive
 
-from .common import Command, add_amp_options, conditions_from, print_json, split_assignments
-from .text import UNITS, figures_rows, requirements_rows, sensitivity_table, signed_error, table
+from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, print_json, split_assignments
+from bandsmith.app.cli.text import UNITS, figures_rows, requirements_rows, sensitivity_table, signed_error, table
 
 SERIES_HELP = "standard series for the parts: " + ", ".join(SERIES_NAMES) + " or exact (default E24)"
 

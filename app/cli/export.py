@@ -7,12 +7,12 @@ import sys
 
 import numpy as np
 
-from core.errors import InputError
-from core.exports import parts_csv, response_csv, spice_netlist, write_atomic
-from core.session import load_session
-from core.values import parse_positive
+from bandsmith.common.errors import InputError
+from bandsmith.files.exports import parts_csv, response_csv, spice_netlist, write_atomic
+from bandsmith.files.session import load_session
+from bandsmith.common.values import parse_positive
 
-from .common import Command
+from bandsmith.app.cli.common import Command
 
 
 def configure(p):
@@ -42,8 +42,8 @@ def _points(text: str | None, default: int) -> int:
 
 def _run_chain(args, session) -> int:
     """``--chain ID``: the netlist or parts list of a chain kept in the session."""
-    from core.cascade import chains_in
-    from core.chain_exports import chain_parts_csv, chain_spice_netlist
+    from bandsmith.chain.cascade import chains_in
+    from bandsmith.chain.chain_exports import chain_parts_csv, chain_spice_netlist
 
     if args.response:
         raise InputError("chain", "--response is for one candidate; a chain exports --netlist or --parts")

@@ -3,16 +3,16 @@
 from __future__ import annotations
 
 
-from core.candidate import Candidate, parse_parts
-from core.circuits import get_topology
-from core.diagnose import diagnose
-from core.errors import InputError
-from core.measured import FREQ_UNITS, ColumnMapping, MappingNeeded, guess_mapping, read_measurement, scan_table
-from core.mna import OpAmpModel
-from core.values import format_value, parse_fraction, parse_positive
+from bandsmith.design.candidate import Candidate, parse_parts
+from bandsmith.circuits import get_topology
+from bandsmith.bench.diagnose import diagnose
+from bandsmith.common.errors import InputError
+from bandsmith.bench.measured import FREQ_UNITS, ColumnMapping, MappingNeeded, guess_mapping, read_measurement, scan_table
+from bandsmith.solver.mna import OpAmpModel
+from bandsmith.common.values import format_value, parse_fraction, parse_positive
 
-from .common import Command, print_json, split_assignments
-from .text import UNITS, table
+from bandsmith.app.cli.common import Command, print_json, split_assignments
+from bandsmith.app.cli.text import UNITS, table
 
 _MAPPING_HINT = "give --columns F,M[,P] (column numbers from 1) and the units with --freq-unit, --mag-unit, --phase-unit"
 

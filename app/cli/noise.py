@@ -2,15 +2,15 @@
 
 from __future__ import annotations
 
-from core.candidate import Candidate, parse_parts
-from core.circuits import get_topology
-from core.errors import InputError
-from core.mna import IDEAL, OpAmpModel
-from core.noise import NoiseSettings, output_noise
-from core.values import format_value, parse_nonnegative, parse_positive
+from bandsmith.design.candidate import Candidate, parse_parts
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.solver.mna import IDEAL, OpAmpModel
+from bandsmith.analysis.noise import NoiseSettings, output_noise
+from bandsmith.common.values import format_value, parse_nonnegative, parse_positive
 
-from .common import Command, print_json, split_assignments
-from .text import table
+from bandsmith.app.cli.common import Command, print_json, split_assignments
+from bandsmith.app.cli.text import table
 
 
 def configure(p):

@@ -9,7 +9,7 @@ from __future__ import annotations
 import os
 import sys
 
-from .common import Command
+from bandsmith.app.cli.common import Command
 
 
 def configure(p):
@@ -27,14 +27,14 @@ def _offscreen_if_headless() -> None:
 
 def run(args) -> int:
     # Check the output and read the session before Qt starts, so bad input fails fast.
-    from core.session import load_session
+    from bandsmith.files.session import load_session
 
-    from app.window.report import report_file
+    from bandsmith.app.report.builder import report_file
 
     out, kind = report_file(args.output)
     session = load_session(args.session)
     _offscreen_if_headless()
-    from app.window.report import write_report_html, write_report_pdf
+    from bandsmith.app.report.builder import write_report_html, write_report_pdf
 
     source = os.path.basename(args.session)
     if kind == "pdf":

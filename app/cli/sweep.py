@@ -7,15 +7,15 @@ import sys
 
 import numpy as np
 
-from core.analysis import sweep, transfer_function
-from core.mna import IDEAL
-from core.candidate import Candidate, parse_parts
-from core.circuits import get_topology
-from core.errors import InputError
-from core.values import parse_positive
+from bandsmith.analysis.analyzer import sweep, transfer_function
+from bandsmith.solver.mna import IDEAL
+from bandsmith.design.candidate import Candidate, parse_parts
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.common.values import parse_positive
 
-from .common import Command, add_amp_options, conditions_from, split_assignments
-from .text import table
+from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, split_assignments
+from bandsmith.app.cli.text import table
 
 HEADER = ["frequency_hz", "magnitude_db", "phase_deg", "group_delay_s"]
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from core.values import format_value
+from bandsmith.common.values import format_value
 
 __all__ = ["table", "figures_rows", "requirements_rows", "sensitivity_table", "signed_error", "UNITS"]
 

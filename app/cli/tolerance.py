@@ -4,15 +4,15 @@ from __future__ import annotations
 
 import re
 
-from core.candidate import Candidate, parse_parts
-from core.circuits import get_topology
-from core.errors import InputError
-from core.mna import IDEAL, OpAmpModel
-from core.tolerance import MAX_TRIALS, STAT_KEYS, SpreadSettings, run_spread
-from core.values import format_value, parse_fraction, parse_positive
+from bandsmith.design.candidate import Candidate, parse_parts
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.solver.mna import IDEAL, OpAmpModel
+from bandsmith.spread.tolerance import MAX_TRIALS, STAT_KEYS, SpreadSettings, run_spread
+from bandsmith.common.values import format_value, parse_fraction, parse_positive
 
-from .common import Command, print_json, split_assignments
-from .text import UNITS, figures_rows, table
+from bandsmith.app.cli.common import Command, print_json, split_assignments
+from bandsmith.app.cli.text import UNITS, figures_rows, table
 
 _WHOLE = re.compile(r"\s*[+-]?[0-9][0-9_]*\s*")
 

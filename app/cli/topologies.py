@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-from core.circuits import all_topologies
-from core.values import format_value
+from bandsmith.circuits import all_topologies
+from bandsmith.common.values import format_value
 
-from .common import Command, print_json
-from .text import UNITS, table
+from bandsmith.app.cli.common import Command, print_json
+from bandsmith.app.cli.text import UNITS, table
 
 
 def configure(p):

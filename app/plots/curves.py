@@ -21,9 +21,9 @@ from typing import Sequence
 
 import numpy as np
 
-from core.analysis import Analysis, sweep
-from core.rational import Rational
-from core.timeresponse import default_time_grid, step_response
+from bandsmith.analysis.analyzer import Analysis, sweep
+from bandsmith.solver.rational import Rational
+from bandsmith.analysis.timeresponse import default_time_grid, step_response
 
 __all__ = [
     "Curve",

@@ -1,4 +1,4 @@
-"""Offscreen images of :class:`~app.plots.curves.PlotData`: PNG bytes for the report and exports.
+"""Offscreen images of :class:`~bandsmith.app.plots.curves.PlotData`: PNG bytes for the report and exports.
 
 Each plot is drawn by a pyqtgraph ``PlotWidget`` in the light theme (white ground, dark axes,
 grid, a legend, axis titles with units, every candidate in its own colour and line style) that is
@@ -16,9 +16,9 @@ from typing import Sequence
 import pyqtgraph as pg
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from core.values import format_value
+from bandsmith.common.values import format_value
 
-from .curves import Curve, PlotData
+from bandsmith.app.plots.curves import Curve, PlotData
 
 __all__ = [
     "ensure_qt_app",
@@ -51,7 +51,7 @@ def ensure_qt_app() -> QtWidgets.QApplication:
 
 def _style(index: int):
     """The candidate's style from the window's theme (one look everywhere)."""
-    from app.window.theme import candidate_style
+    from bandsmith.app.window.theme import candidate_style
 
     return candidate_style(index)
 

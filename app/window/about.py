@@ -12,7 +12,7 @@ from typing import Iterable, Sequence
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from core.cautions import cautions_html
+from bandsmith.common.cautions import cautions_html
 
 __all__ = ["about_html", "show_about", "default_shortcuts", "shortcuts_of", "AboutDialog"]
 

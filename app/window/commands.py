@@ -1,7 +1,7 @@
 """Undoable edits of the session document.
 
 Every edit of the workbench is one :class:`SessionEdit` on the state's QUndoStack: it holds the
-document before and after (both immutable :class:`core.session.Session` values), so undo and redo
+document before and after (both immutable :class:`bandsmith.files.session.Session` values), so undo and redo
 are exact whatever the edit was, and an edit that touched several candidates undoes in one step.
 """
 
@@ -11,10 +11,10 @@ from typing import TYPE_CHECKING
 
 from PySide6.QtGui import QUndoCommand
 
-from core.session import Session
+from bandsmith.files.session import Session
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .state import WorkbenchState
+    from bandsmith.app.window.state import WorkbenchState
 
 __all__ = ["SessionEdit"]
 

@@ -9,8 +9,8 @@ from __future__ import annotations
 from importlib import resources
 from pathlib import Path
 
-from core.circuits import get_topology
-from core.session import CandidateEntry, OpAmpSpec, Session, Target, load_session
+from bandsmith.circuits import get_topology
+from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target, load_session
 
 __all__ = ["DEMO_NAME", "demo_path", "demo_session", "blank_session"]
 
@@ -20,7 +20,7 @@ DEMO_NAME = "demo_session.bandsmith.json"
 def demo_path() -> Path | None:
     """Where the shipped demo session is, or None when it is not installed."""
     try:
-        p = Path(str(resources.files("resources") / DEMO_NAME))
+        p = Path(str(resources.files("bandsmith.resources") / DEMO_NAME))
     except (ModuleNotFoundError, TypeError):
         return None
     return p if p.is_file() else None

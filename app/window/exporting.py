@@ -2,7 +2,7 @@
 
 Every file is written atomically (:func:`write_atomic`: a temporary file in the same folder,
 flushed and synced, then :func:`os.replace`), so an export that fails half-way leaves any older
-file as it was. The tables and the netlist come from :mod:`core.exports`; this module only picks
+file as it was. The tables and the netlist come from :mod:`bandsmith.files.exports`; this module only picks
 the candidate and the session's op-amp and writes the text.
 
 Images: PNG is the widget as it is on screen (``QWidget.grab``: the widget's size times the
@@ -15,9 +15,9 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-from core.atomic import write_bytes_atomic
-from core.errors import InputError
-from core.session import Session
+from bandsmith.common.atomic import write_bytes_atomic
+from bandsmith.common.errors import InputError
+from bandsmith.files.session import Session
 
 __all__ = [
     "IMAGE_SUFFIXES",
@@ -150,26 +150,26 @@ def export_plot_image(widget, path: str | os.PathLike, *, title: str | None = No
 
 def _exports():
     try:
-        from core import exports
+        from bandsmith.files import exports
     except ImportError as exc:  # pragma: no cover - the core module ships with this one
         raise RuntimeError(f"the exports of the core are missing ({exc})") from None
     return exports
 
 
 def export_parts_csv(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:
-    """Write the parts list of one candidate of ``session`` as CSV (:func:`core.exports.parts_csv`)."""
+    """Write the parts list of one candidate of ``session`` as CSV (:func:`bandsmith.files.exports.parts_csv`)."""
     entry = session.candidate(candidate_id)
     return write_atomic(path, _exports().parts_csv(entry, gbw_hz=session.opamp.gbw_hz))
 
 
 def export_response_csv(session: Session, candidate_id: str, path: str | os.PathLike, *, f_hz=None) -> Path:
     """Write one candidate's frequency response with the session's op-amp as CSV
-    (:func:`core.exports.response_csv`).
+    (:func:`bandsmith.files.exports.response_csv`).
 
     The frequencies are those of the plots (two decades each side of the target f0, see
-    :func:`app.plots.curves.frequency_grid`) unless ``f_hz`` (Hz) is given.
+    :func:`bandsmith.app.plots.curves.frequency_grid`) unless ``f_hz`` (Hz) is given.
     """
-    from app.plots.curves import frequency_grid
+    from bandsmith.app.plots.curves import frequency_grid
 
     entry = session.candidate(candidate_id)
     cond = session.conditions_for(entry)
@@ -179,7 +179,7 @@ def export_response_csv(session: Session, candidate_id: str, path: str | os.Path
 
 
 def export_netlist(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:
-    """Write one candidate as a SPICE netlist with the session's op-amp (:func:`core.exports.spice_netlist`)."""
+    """Write one candidate as a SPICE netlist with the session's op-amp (:func:`bandsmith.files.exports.spice_netlist`)."""
     entry = session.candidate(candidate_id)
     cond = session.conditions_for(entry)
     return write_atomic(path, _exports().spice_netlist(entry, gbw_hz=cond.gbw_hz, a0=cond.a0))

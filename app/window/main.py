@@ -19,12 +19,12 @@ STARTUP_MARK = "bandsmith: window shown"
 def build_window(path: str | None = None, *, prompter=None, settings=None, recovery: bool = True):
     """The window on a session file (or the demo). A file that cannot be opened gives a message
     (the file is left as it is) and the window opens on the demo instead."""
-    from core.session import SessionError, load_session
+    from bandsmith.files.session import SessionError, load_session
 
-    from .demo import demo_session
-    from .main_window import WorkbenchWindow
-    from .state import WorkbenchState
-    from .theme import apply_plot_theme
+    from bandsmith.app.window.demo import demo_session
+    from bandsmith.app.window.main_window import WorkbenchWindow
+    from bandsmith.app.window.state import WorkbenchState
+    from bandsmith.app.window.theme import apply_plot_theme
 
     apply_plot_theme()
     problem = None

@@ -6,33 +6,39 @@ panes on the right (a tab widget whose first tab is the plot grid; later panes a
 progress of background work.
 
 File handling goes through the state (document, path, clean flag), a
-:class:`~app.window.prompts.Prompter` (all dialogs; tests script it) and
-:class:`~app.window.recent.RecentFiles`.
+:class:`~bandsmith.app.window.prompts.Prompter` (all dialogs; tests script it) and
+:class:`~bandsmith.app.window.recent.RecentFiles`.
 """
 
 from __future__ import annotations
 
+import importlib
 import os
 from pathlib import Path
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from core.errors import InputError
-from core.session import SessionError, load_session, save_session
+from bandsmith.common.errors import InputError
+from bandsmith.files.session import SessionError, load_session, save_session
 
-from .background import BackgroundJob, JobStatus
-from .candidates_board import CandidatesBoard
-from .demo import blank_session
-from .plot_grid import PlotGrid
-from .prompts import Prompter
-from .recent import RecentFiles
-from .recovery import RecoveryKeeper, left_behind
-from .state import WorkbenchState
-from .target_strip import TargetStrip
-from .theme import STYLE_SHEET
+from bandsmith.app.window.background import BackgroundJob, JobStatus
+from bandsmith.app.window.widgets.candidates_board import CandidatesBoard
+from bandsmith.app.window.demo import blank_session
+from bandsmith.app.window.widgets.plot_grid import PlotGrid
+from bandsmith.app.window.prompts import Prompter
+from bandsmith.app.window.recent import RecentFiles
+from bandsmith.app.window.recovery import RecoveryKeeper, left_behind
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.app.window.widgets.target_strip import TargetStrip
+from bandsmith.app.window.theme import STYLE_SHEET
 
 __all__ = ["WorkbenchWindow"]
 
+_HELPER_MODULES = {
+    "exporting": "bandsmith.app.window.exporting",
+    "report": "bandsmith.app.report.builder",
+    "about": "bandsmith.app.window.about",
+}
 _IMAGE_FILTER = "PNG image (*.png);;SVG image (*.svg)"
 _CSV_FILTER = "CSV table (*.csv)"
 _NETLIST_FILTER = "SPICE netlist (*.cir *.sp *.net)"
@@ -163,19 +169,19 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         self._on_current_changed(state.current_id)
         self.resize(1280, 800)
         self._fit_splitter()
-        from .measurement_pane import install as install_measurement_pane
+        from bandsmith.app.window.panes.measurement_pane import install as install_measurement_pane
 
         install_measurement_pane(self)
-        from .shelf_pane import install as install_shelf_pane
+        from bandsmith.app.window.panes.shelf_pane import install as install_shelf_pane
 
         install_shelf_pane(self)
-        from .spread_pane import install as install_spread_pane
+        from bandsmith.app.window.panes.spread_pane import install as install_spread_pane
 
         install_spread_pane(self)
-        from .noise_pane import install as install_noise_pane
+        from bandsmith.app.window.panes.noise_pane import install as install_noise_pane
 
         install_noise_pane(self)
-        from .chain_pane import install as install_chain_pane
+        from bandsmith.app.window.panes.chain_pane import install as install_chain_pane
 
         install_chain_pane(self)
 
@@ -232,7 +238,7 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         e.addActions([self.act_undo, self.act_redo])
         e.addSeparator()
         add = e.addMenu("&Add candidate")
-        from core.circuits import all_topologies
+        from bandsmith.circuits import all_topologies
 
         for topo in all_topologies():
             act = add.addAction(topo.title)
@@ -409,21 +415,16 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
             event.ignore()
 
     # ------------------------------------------------------------------ exports, report, help
-    def _helper(self, module: str, name: str):
-        try:
-            mod = __import__(f"app.window.{module}", fromlist=[name])
-            return getattr(mod, name)
-        except (ImportError, AttributeError):
-            self.prompter.error(self, "Not available", f"This build of Bandsmith has no {module} feature ({name}).")
-            return None
+    @staticmethod
+    def _helper(module: str, name: str):
+        # Imported on first use: exports, the report and the help page add nothing to start-up.
+        return getattr(importlib.import_module(_HELPER_MODULES[module]), name)
 
     def _stem(self) -> str:
         return Path(self.state.path).name.split(".")[0] if self.state.path else "bandsmith"
 
     def export_plots(self) -> None:
         fn = self._helper("exporting", "export_plot_image")
-        if fn is None:
-            return
         path = self.prompter.ask_save_path(self, str(Path.home() / f"{self._stem()}-plots.png"), _IMAGE_FILTER)
         if path:
             self._run_export(lambda: fn(self.plot_grid, path), path)
@@ -438,8 +439,6 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
             "netlist": ("export_netlist", _NETLIST_FILTER, "cir"),
         }[what]
         fn = self._helper("exporting", name)
-        if fn is None:
-            return
         sep = "." if suffix == "cir" else "-"
         path = self.prompter.ask_save_path(self, str(Path.home() / f"{self._stem()}-{cid}{sep}{suffix}"), filt)
         if path:
@@ -447,8 +446,6 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
 
     def write_report(self) -> None:
         fn = self._helper("report", "write_report")
-        if fn is None:
-            return
         path = self.prompter.ask_save_path(self, str(Path.home() / f"{self._stem()}-report.html"), _REPORT_FILTER)
         if path:
             self._run_export(lambda: fn(self.state.session, path), path)
@@ -475,6 +472,4 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         self.statusBar().showMessage(f"Wrote {path}", 5000)
 
     def show_help(self) -> None:
-        fn = self._helper("about", "show_about")
-        if fn is not None:
-            fn(self)
+        self._helper("about", "show_about")(self)

@@ -20,9 +20,9 @@ from pathlib import Path
 
 from PySide6 import QtCore
 
-from core.session import SessionError, dumps_session, load_session
+from bandsmith.files.session import SessionError, dumps_session, load_session
 
-from .state import WorkbenchState
+from bandsmith.app.window.state import WorkbenchState
 
 __all__ = ["recovery_dir", "RecoveryCopy", "RecoveryKeeper", "left_behind", "DEBOUNCE_MS"]
 

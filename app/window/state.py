@@ -1,9 +1,9 @@
 """The workbench's state: the session document, its file, its undo history and the analyses.
 
-The document is an immutable :class:`core.session.Session`. Views never change it in place: an
+The document is an immutable :class:`bandsmith.files.session.Session`. Views never change it in place: an
 edit builds a new Session (``dataclasses.replace``) and goes through :meth:`WorkbenchState.edit`,
-which pushes a :class:`~app.window.commands.SessionEdit` on the undo stack. Applying a document
-re-analyses every active candidate (through :class:`~app.window.results.ResultCache`, so only
+which pushes a :class:`~bandsmith.app.window.commands.SessionEdit` on the undo stack. Applying a document
+re-analyses every active candidate (through :class:`~bandsmith.app.document.results.ResultCache`, so only
 changed ones cost anything) and emits, in order, ``session_changed`` and ``analyses_changed``.
 
 Views subscribe to the signals and write to the state only on user input.
@@ -18,15 +18,15 @@ from typing import Mapping
 from PySide6 import QtCore
 from PySide6.QtGui import QUndoStack
 
-from core.candidate import Candidate
-from core.eseries import nearest
-from core.errors import InputError
-from core.session import CandidateEntry, OpAmpSpec, Session, Target
-from core.values import format_value
+from bandsmith.design.candidate import Candidate
+from bandsmith.common.eseries import nearest
+from bandsmith.common.errors import InputError
+from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target
+from bandsmith.common.values import format_value
 
-from .commands import SessionEdit
-from .results import CandidateResult, ResultCache
-from .theme import CandidateStyle, candidate_style
+from bandsmith.app.window.commands import SessionEdit
+from bandsmith.app.document.results import CandidateResult, ResultCache
+from bandsmith.app.window.theme import CandidateStyle, candidate_style
 
 __all__ = ["WorkbenchState", "UNITS", "part_unit"]
 
@@ -198,7 +198,7 @@ class WorkbenchState(QtCore.QObject):
 
     def add_candidate(self, topology_id: str) -> str:
         """Add a candidate of a circuit, designed for the target where the core can; returns its id."""
-        from core.circuits import get_topology
+        from bandsmith.circuits import get_topology
 
         topo = get_topology(topology_id)
         new_id = self._session.new_candidate_id(topology_id)
@@ -249,7 +249,7 @@ class WorkbenchState(QtCore.QObject):
     # ------------------------------------------------------------------ internals
     def _designed(self, entry: CandidateEntry, session: Session) -> tuple[CandidateEntry | None, str | None]:
         try:
-            from core.design import Spec, design
+            from bandsmith.design.designer import Spec, design
         except ImportError:
             return None, "automatic design is not available"
         t = session.target
@@ -328,7 +328,7 @@ class WorkbenchState(QtCore.QObject):
 
 def entry_kind(entry: CandidateEntry, ref: str) -> str:
     """The kind (R, C, L) of a part of a candidate."""
-    from core.circuits import get_topology
+    from bandsmith.circuits import get_topology
 
     return get_topology(entry.topology_id).component(ref).kind
 

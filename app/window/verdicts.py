@@ -2,8 +2,8 @@
 
 The candidate columns (a verdict strip each), the shelf pane and the response plots (the chosen
 op-amp's curve) read the same :class:`VerdictBook` (:meth:`VerdictBook.of` a state). The book
-holds no widgets; every number comes from :mod:`core.fitcheck`, :mod:`core.headroom` and
-:mod:`core.ampmodel`.
+holds no widgets; every number comes from :mod:`bandsmith.bench.fitcheck`, :mod:`bandsmith.bench.headroom` and
+:mod:`bandsmith.solver.ampmodel`.
 
 When it computes
 ----------------
@@ -33,16 +33,16 @@ from dataclasses import dataclass
 import numpy as np
 from PySide6 import QtCore
 
-from core.ampmodel import amp_transfer_function
-from core.analysis import sweep
-from core.candidate import Candidate
-from core.errors import InputError
-from core.fitcheck import FitReport, Verdict, basis_of, check_amp
-from core.figures import Figures, measure
-from core.headroom import DEFAULT_SUPPLY_V, headroom
-from core.session import CandidateEntry, Session
-from core.shelf import OpAmp, amps_from_json
-from core.values import format_value
+from bandsmith.solver.ampmodel import amp_transfer_function
+from bandsmith.analysis.analyzer import sweep
+from bandsmith.design.candidate import Candidate
+from bandsmith.common.errors import InputError
+from bandsmith.bench.fitcheck import FitReport, Verdict, basis_of, check_amp
+from bandsmith.analysis.figures import Figures, measure
+from bandsmith.bench.headroom import DEFAULT_SUPPLY_V, headroom
+from bandsmith.files.session import CandidateEntry, Session
+from bandsmith.bench.shelf import OpAmp, amps_from_json
+from bandsmith.common.values import format_value
 
 __all__ = [
     "SESSION_KEY",
@@ -98,7 +98,7 @@ class AmpResponse:
     """A candidate's response with one shelf model, on the frequencies of its own curves.
 
     ``magnitude_db`` and ``phase_deg`` (unwrapped along the sweep, as the candidate's own phase
-    curve) are :func:`core.analysis.sweep` of :func:`core.ampmodel.amp_transfer_function`;
+    curve) are :func:`bandsmith.analysis.analyzer.sweep` of :func:`bandsmith.solver.ampmodel.amp_transfer_function`;
     ``figures`` are measured on that transfer function (scalars, :meth:`Figures.item`).
     """
 

@@ -9,8 +9,8 @@ from __future__ import annotations
 import importlib
 import pkgutil
 
-from ..errors import InputError
-from ..topology import Topology
+from bandsmith.common.errors import InputError
+from bandsmith.circuits.topology import Topology
 
 __all__ = ["all_topologies", "get_topology", "topology_ids"]
 

@@ -35,10 +35,10 @@ from __future__ import annotations
 import math
 from typing import Mapping
 
-from ..netlist import Element, Netlist
-from ..synthesis import Exact, Infeasible, Spec, choose_level, refine_measured
-from ..topology import Component, IdealFormulas, Topology
-from ..values import format_value
+from bandsmith.solver.netlist import Element, Netlist
+from bandsmith.circuits.synthesis import Exact, Infeasible, Spec, choose_level, refine_measured
+from bandsmith.circuits.topology import Component, IdealFormulas, Topology
+from bandsmith.common.values import format_value
 
 COMPONENTS = (
     Component("R1", "R", "input resistor; sets the centre gain with R2"),

@@ -46,10 +46,10 @@ from typing import Mapping
 
 import numpy as np
 
-from ..netlist import Element, Netlist
-from ..synthesis import Exact, Infeasible, Spec, choose_level, solve_pinned
-from ..topology import Component, IdealFormulas, Topology
-from ..values import format_value
+from bandsmith.solver.netlist import Element, Netlist
+from bandsmith.circuits.synthesis import Exact, Infeasible, Spec, choose_level, solve_pinned
+from bandsmith.circuits.topology import Component, IdealFormulas, Topology
+from bandsmith.common.values import format_value
 
 COMPONENTS = (
     Component("R1", "R", "input resistor"),

@@ -10,8 +10,8 @@ from __future__ import annotations
 
 
 def cascade_order8():
-    from core.candidate import Conditions
-    from core.cascade import ChainSettings, design_cascade
+    from bandsmith.design.candidate import Conditions
+    from bandsmith.chain.cascade import ChainSettings, design_cascade
 
     settings = ChainSettings.from_request("butterworth", 8, f0_hz=40e3, bw_hz=16e3, gain=10.0, series="E24")
     result = design_cascade(settings, conditions=Conditions(gbw_hz=20e6))

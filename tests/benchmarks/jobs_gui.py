@@ -26,7 +26,7 @@ def gui_replot_median_ms() -> float:
     from PySide6 import QtCore, QtWidgets
 
     app = QtWidgets.QApplication.instance() or QtWidgets.QApplication(["bench"])
-    from app.window.main import build_window
+    from bandsmith.app.window.main import build_window
 
     settings = QtCore.QSettings(os.path.join(tempfile.mkdtemp(), "s.ini"), QtCore.QSettings.Format.IniFormat)
     window, _ = build_window(None, settings=settings, recovery=False)
@@ -57,7 +57,7 @@ def gui_replot_median_ms() -> float:
 def _command() -> list[str]:
     """The installed ``bandsmith`` command, or the same entry point through this interpreter."""
     exe = shutil.which("bandsmith")
-    return [exe] if exe else [sys.executable, "-m", "app.cli"]
+    return [exe] if exe else [sys.executable, "-m", "bandsmith.app"]
 
 
 def gui_startup_s() -> float:

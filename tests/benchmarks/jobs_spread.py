@@ -12,20 +12,20 @@ from __future__ import annotations
 
 
 def _netlist():
-    from core.circuits import get_topology
+    from bandsmith.circuits import get_topology
 
     topo = get_topology("mfb")
     return topo.netlist(topo.example)
 
 
 def mc_ideal_100k():
-    from core.tolerance import SpreadSettings, run_spread
+    from bandsmith.spread.tolerance import SpreadSettings, run_spread
 
     return run_spread(_netlist(), SpreadSettings(trials=100_000, seed=7)).to_json()
 
 
 def mc_finite_10k():
-    from core.mna import OpAmpModel
-    from core.tolerance import SpreadSettings, run_spread
+    from bandsmith.solver.mna import OpAmpModel
+    from bandsmith.spread.tolerance import SpreadSettings, run_spread
 
     return run_spread(_netlist(), SpreadSettings(trials=10_000, seed=7, gbw_tol=0.2), opamp=OpAmpModel(1e6, 1e5)).to_json()

@@ -48,9 +48,9 @@ def reference_call() -> Callable[[], object]:
 
 
 def analyze_one() -> Callable[[], object]:
-    from core.analysis import sweep
-    from core.candidate import Candidate, Conditions
-    from core.circuits import get_topology
+    from bandsmith.analysis.analyzer import sweep
+    from bandsmith.design.candidate import Candidate, Conditions
+    from bandsmith.circuits import get_topology
 
     topo = get_topology("mfb")
     cand = Candidate(topo.id, topo.example)
@@ -65,8 +65,8 @@ def analyze_one() -> Callable[[], object]:
 
 
 def compare_e24() -> Callable[[], object]:
-    from core.compare import compare
-    from core.design import Spec
+    from bandsmith.design.compare import compare
+    from bandsmith.design.designer import Spec
 
     spec = Spec(f0_hz=3.3e3, q=4.0, gain=3.0)
     return lambda: compare(spec, series="E24")

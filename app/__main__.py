@@ -1,0 +1,5 @@
+import sys
+
+from bandsmith.app.entry import main
+
+sys.exit(main())

@@ -1,0 +1,1 @@
+"""The workbench's building blocks: value fields, target strip, candidate columns, plots."""

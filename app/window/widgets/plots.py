@@ -1,0 +1,454 @@
+"""The plots of the workbench, each a thin pyqtgraph view over the state's results.
+
+Every plot creates one curve per candidate the first time it sees the candidate and afterwards
+only calls ``setData`` on it (a candidate that is switched off or removed loses its curve). The
+data come ready-made from :class:`~bandsmith.app.document.results.CandidateResult`; the plots only pick fields
+and draw. Axes carry their quantity and unit; each plot has a legend; moving the mouse over a plot
+emits a read-out of the point under the cursor (``cursor_text``).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6 import QtCore, QtGui, QtWidgets
+
+from bandsmith.common.values import format_value
+
+from bandsmith.app.document.results import CandidateResult
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.app.window.theme import INK, MUTED
+
+__all__ = [
+    "CandidatePlot",
+    "MagnitudePlot",
+    "PhasePlot",
+    "GroupDelayPlot",
+    "StepPlot",
+    "GbwErrorPlot",
+    "PoleZeroPlot",
+    "PLOT_CLASSES",
+    "LogAxis",
+]
+
+_GUIDE = pg.mkPen("#7d8590", width=1, style=QtCore.Qt.PenStyle.DashLine)
+_LIMIT = pg.mkPen("#b0191e", width=1.2, style=QtCore.Qt.PenStyle.DashLine)
+# The error chart clips errors to this range (×tolerance) so that "no band-pass at all" (an
+# infinite error) shows at the top edge rather than vanishing.
+_ERR_FLOOR, _ERR_CEIL = 1e-3, 1e3
+
+
+def _short(x: float, unit: str = "") -> str:
+    return format_value(x, unit, digits=3)
+
+
+class LogAxis(pg.AxisItem):
+    """A logarithmic axis whose ticks read 100, 1k, 10k, 1M (SI prefixes, no exponents).
+
+    With ``plain=True`` the ticks are plain numbers (0.01, 0.1, 1, 10) for dimensionless ratios,
+    where "10m" would read as metres or milli-something.
+    """
+
+    def __init__(self, orientation, *, plain: bool = False, **kw):
+        super().__init__(orientation, **kw)
+        self._plain = plain
+        self.enableAutoSIPrefix(False)
+
+    def tickStrings(self, values, scale, spacing):
+        if not self.logMode:
+            return super().tickStrings(values, scale, spacing)
+        out = []
+        for v in values:
+            x = 10.0**v
+            if not math.isfinite(x):
+                out.append("")
+            elif self._plain:
+                out.append(f"{x:g}")
+            else:
+                out.append(_short(x).replace(" ", ""))
+        return out
+
+
+class CandidatePlot(pg.PlotWidget):
+    """Base of the workbench plots: one curve per active candidate, kept and updated with setData.
+
+    Subclasses set the titles and implement :meth:`curve_data` (and :meth:`_readout`).
+    """
+
+    key = ""
+    title = ""
+    x_label, x_unit = "", ""
+    y_label, y_unit = "", ""
+    log_x = False
+    log_y = False
+    # Where this plot's own legend sits (pyqtgraph offset), or None: by default the grid's shared
+    # legend strip names every candidate once, above all the plots, and no plot hides curves
+    # under a legend box.
+    legend_offset: tuple[int, int] | None = None
+
+    cursor_text = QtCore.Signal(str)
+
+    def __init__(self, state: WorkbenchState, parent: QtWidgets.QWidget | None = None):
+        axes = {}
+        if self.log_x:
+            axes["bottom"] = LogAxis("bottom")
+        if self.log_y:
+            axes["left"] = LogAxis("left", plain=True)
+        super().__init__(parent, axisItems=axes or None)
+        self.setObjectName(f"plot_{self.key}")
+        self.state = state
+        self.curves: dict[str, pg.PlotDataItem] = {}
+        self.overlays: dict[str, pg.PlotDataItem] = {}
+        item = self.getPlotItem()
+        item.setTitle(self.title, color=INK, size="10pt")
+        self._label_axes(item)
+        item.showGrid(x=True, y=True, alpha=0.22)
+        item.setLogMode(x=self.log_x, y=self.log_y)
+        item.setMenuEnabled(False)
+        self.legend = None
+        if self.legend_offset is not None:
+            self.legend = item.addLegend(offset=self.legend_offset, labelTextSize="8pt", verSpacing=-6)
+            self.legend.setBrush(pg.mkBrush(255, 255, 255, 215))
+            self.legend.setPen(pg.mkPen("#c9c9c4"))
+        self.setMinimumSize(220, 170)
+        self.scene().sigMouseMoved.connect(self._on_mouse_moved)
+        state.analyses_changed.connect(self._on_analyses_changed)
+        self._setup_extras(item)
+        self._on_analyses_changed()
+
+    # -- to override ------------------------------------------------------------------
+    def curve_data(self, res: CandidateResult) -> tuple[np.ndarray, np.ndarray] | None:
+        raise NotImplementedError
+
+    def _setup_extras(self, item: pg.PlotItem) -> None:
+        """Guide lines and markers that are not candidate curves."""
+
+    def _update_extras(self) -> None:
+        """Bring guides and markers up to date (after the curves)."""
+
+    def _readout(self, x: float, y: float) -> str:
+        return f"{self.x_label} {_short(x, self.x_unit)}, {self.y_label.lower()} {_short(y, self.y_unit)}"
+
+    # -- common -------------------------------------------------------------------------
+    def _label_axes(self, item: pg.PlotItem) -> None:
+        # Log axes get the unit in the title (their ticks carry the prefix); linear ones let
+        # pyqtgraph pick an SI prefix for the unit ("ms", "kHz").
+        for side, text, unit, log in (("bottom", self.x_label, self.x_unit, self.log_x), ("left", self.y_label, self.y_unit, self.log_y)):
+            if log or unit in ("dB", "°", "V/V", "× tol"):
+                # No SI scaling on these axes: a "(x0.001)" beside "V/V" reads as nonsense.
+                item.getAxis(side).enableAutoSIPrefix(False)
+                item.setLabel(side, f"{text} ({unit})" if unit else text, color=INK)
+            else:
+                item.setLabel(side, text, units=unit, color=INK)
+
+    def _new_curve(self, cid: str) -> pg.PlotDataItem:
+        st = self.state.style(cid)
+        curve = self.getPlotItem().plot([], [], pen=st.pen(2.0), name=cid, connect="finite")
+        curve.setObjectName(cid)
+        return curve
+
+    def _on_analyses_changed(self) -> None:
+        results = self.state.results
+        for cid in list(self.curves):
+            if cid not in results or not results[cid].ok:
+                item = self.curves.pop(cid)
+                self.getPlotItem().removeItem(item)
+        for cid, res in results.items():
+            if not res.ok:
+                continue
+            data = self.curve_data(res)
+            if data is None:
+                continue
+            curve = self.curves.get(cid)
+            if curve is None:
+                curve = self.curves[cid] = self._new_curve(cid)
+            else:
+                curve.setPen(self.state.style(cid).pen(2.0))
+            curve.setData(*data)
+        self._update_extras()
+
+    # -- overlays (a candidate's curve under other conditions, e.g. with a shelf op-amp) ------
+    def set_overlay(self, key: str, x, y, *, pen) -> pg.PlotDataItem:
+        """Draw (or redraw) the extra curve ``key`` behind the candidate curves, with ``pen``.
+
+        The curve does not move the view's range; :meth:`clear_overlay` removes it.
+        """
+        curve = self.overlays.get(key)
+        if curve is None:
+            curve = pg.PlotDataItem([], [], connect="finite")
+            curve.setObjectName(f"overlay_{key}")
+            curve.setZValue(-3)
+            self.getPlotItem().addItem(curve, ignoreBounds=True)
+            self.overlays[key] = curve
+        curve.setPen(pen)
+        curve.setData(x, y)
+        return curve
+
+    def clear_overlay(self, key: str) -> None:
+        """Remove the extra curve ``key`` (nothing happens when there is none)."""
+        curve = self.overlays.pop(key, None)
+        if curve is not None:
+            self.getPlotItem().removeItem(curve)
+
+    def _on_mouse_moved(self, pos: QtCore.QPointF) -> None:
+        vb = self.getPlotItem().getViewBox()
+        if not vb.sceneBoundingRect().contains(pos):
+            return
+        p = vb.mapSceneToView(pos)
+        x, y = p.x(), p.y()
+        if self.log_x:
+            x = 10.0**x
+        if self.log_y:
+            y = 10.0**y
+        self.cursor_text.emit(f"{self.title}: {self._readout(x, y)}")
+
+
+class MagnitudePlot(CandidatePlot):
+    key = "magnitude"
+    title = "Magnitude"
+    x_label, x_unit = "Frequency", "Hz"
+    y_label, y_unit = "Gain", "dB"
+    log_x = True
+
+    def curve_data(self, res):
+        return res.response.f_hz, res.response.magnitude_db
+
+    def _setup_extras(self, item):
+        self.envelopes: dict[str, tuple] = {}
+        self.f0_line = pg.InfiniteLine(angle=90, pen=_GUIDE)
+        self.gain_line = pg.InfiniteLine(angle=0, pen=_GUIDE, label="target", labelOpts={"position": 0.93, "color": "#5f6368", "anchors": [(0.5, 0), (0.5, 0)]})
+        item.addItem(self.f0_line, ignoreBounds=True)
+        item.addItem(self.gain_line, ignoreBounds=True)
+        self.state.session_changed.connect(self._on_session_changed)
+        self._on_session_changed(self.state.session)
+
+    def _on_session_changed(self, session):
+        self.f0_line.setValue(math.log10(session.target.f0_hz))
+        self.gain_line.setValue(20.0 * math.log10(session.target.gain))
+
+    def _readout(self, x, y):
+        return f"{_short(x, 'Hz')}, {y:.2f} dB"
+
+    # -- shaded bands (a tolerance envelope) -------------------------------------------------
+    def set_envelope(self, key: str, f_hz, low_db, high_db, *, colour: str) -> None:
+        """Shade the band between two magnitude curves (dB over Hz), edged in ``colour``.
+
+        ``key`` names the band (a later call with the same key replaces it); the band sits below
+        the candidate curves and does not move the view's range.
+        """
+        self.clear_envelope(key)
+        item = self.getPlotItem()
+        edge = QtGui.QColor(colour)
+        edge.setAlpha(170)
+        fill = QtGui.QColor(colour)
+        fill.setAlpha(55)
+        pen = pg.mkPen(edge, width=1.0)
+        lo = pg.PlotDataItem(f_hz, low_db, pen=pen, connect="finite")
+        hi = pg.PlotDataItem(f_hz, high_db, pen=pen, connect="finite")
+        for c in (lo, hi):
+            c.setObjectName(f"envelope_{key}")
+            c.setZValue(-8)
+            item.addItem(c, ignoreBounds=True)
+        band = pg.FillBetweenItem(lo, hi, brush=pg.mkBrush(fill))
+        band.setZValue(-9)
+        item.addItem(band, ignoreBounds=True)
+        self.envelopes[key] = (lo, hi, band)
+
+    def clear_envelope(self, key: str) -> None:
+        """Remove the band ``key`` (nothing happens when there is none)."""
+        for it in self.envelopes.pop(key, ()):
+            self.getPlotItem().removeItem(it)
+
+
+class PhasePlot(CandidatePlot):
+    key = "phase"
+    title = "Phase"
+    x_label, x_unit = "Frequency", "Hz"
+    y_label, y_unit = "Phase", "°"
+    log_x = True
+
+    def curve_data(self, res):
+        return res.response.f_hz, res.response.phase_deg
+
+    def _readout(self, x, y):
+        return f"{_short(x, 'Hz')}, {y:.1f}°"
+
+
+class GroupDelayPlot(CandidatePlot):
+    key = "group_delay"
+    title = "Group delay"
+    x_label, x_unit = "Frequency", "Hz"
+    y_label, y_unit = "Delay", "s"
+    log_x = True
+
+    def curve_data(self, res):
+        return res.response.f_hz, res.response.group_delay_s
+
+    def _readout(self, x, y):
+        return f"{_short(x, 'Hz')}, {_short(y, 's')}"
+
+
+class StepPlot(CandidatePlot):
+    key = "step"
+    title = "Step response (1 V step)"
+    x_label, x_unit = "Time", "s"
+    y_label, y_unit = "Output", "V/V"
+
+    def curve_data(self, res):
+        return res.step.t_s, res.step.y
+
+    def _readout(self, x, y):
+        return f"t = {_short(x, 's')}, {y:.3f} V/V"
+
+
+class GbwErrorPlot(CandidatePlot):
+    """Worst figure error (in multiples of its tolerance) against the op-amp's GBW.
+
+    A round marker sits at each candidate's required GBW (where its curve drops through the
+    tolerance line); a vertical line marks the session's op-amp.
+    """
+
+    key = "gbw_error"
+    title = "Error vs op-amp GBW"
+    x_label, x_unit = "Op-amp GBW", "Hz"
+    y_label, y_unit = "Worst error", "× tol"
+    log_x = True
+    log_y = True
+
+    def curve_data(self, res):
+        if res.gbw is None:
+            return None
+        y = np.clip(np.where(np.isnan(res.gbw.worst), np.inf, res.gbw.worst), _ERR_FLOOR, _ERR_CEIL)
+        return res.gbw.gbw_hz, y
+
+    def _setup_extras(self, item):
+        self.limit_line = pg.InfiniteLine(angle=0, pos=0.0, pen=_LIMIT, label="tolerance", labelOpts={"position": 0.98, "color": "#b0191e", "anchors": [(1, 1), (1, 1)]})
+        item.addItem(self.limit_line, ignoreBounds=True)
+        self.opamp_line = pg.InfiniteLine(angle=90, pen=pg.mkPen("#202124", width=1.5), label="op-amp", labelOpts={"position": 0.92, "color": "#202124"})
+        item.addItem(self.opamp_line, ignoreBounds=True)
+        self.need_markers = pg.ScatterPlotItem(size=10, pxMode=True)
+        item.addItem(self.need_markers)
+
+    def _update_extras(self):
+        gbw = self.state.session.opamp.gbw_hz
+        self.opamp_line.setVisible(gbw is not None)
+        if gbw is not None:
+            self.opamp_line.setValue(math.log10(gbw))
+            self.opamp_line.label.setFormat(f"op-amp {_short(gbw, 'Hz')}")
+        spots = []
+        for cid, res in self.state.results.items():
+            if res.ok and res.analysis.requirements.gbw_hz is not None:
+                st = self.state.style(cid)
+                spots.append(
+                    {
+                        "pos": (math.log10(res.analysis.requirements.gbw_hz), 0.0),
+                        "brush": pg.mkBrush(st.colour),
+                        "pen": pg.mkPen("w", width=1.2),
+                        "symbol": "o",
+                        "data": cid,
+                    }
+                )
+        self.need_markers.setData(spots)
+
+    def _readout(self, x, y):
+        return f"GBW {_short(x, 'Hz')}, worst error {y:.3g} × tolerance"
+
+
+class PoleZeroPlot(CandidatePlot):
+    """Poles (each candidate's own symbol) and zeros (rings) in the s-plane, in Hz (s / 2π).
+
+    The view centres on the band: a dotted circle has the radius of the target f0. Poles and zeros
+    outside the view (an op-amp's own far pole, mostly) are listed in a note at its top left, each
+    with its candidate and its distance |s|/2π (zoom out with the mouse wheel to see them).
+    """
+
+    key = "pole_zero"
+    title = "Poles (×) and zeros (○)"
+    x_label, x_unit = "σ / 2π", "Hz"
+    y_label, y_unit = "ω / 2π", "Hz"
+
+    def __init__(self, state, parent=None):
+        self.zero_items: dict[str, pg.ScatterPlotItem] = {}
+        super().__init__(state, parent)
+        self.getPlotItem().getViewBox().setAspectLocked(True)
+
+    def _new_curve(self, cid):
+        st = self.state.style(cid)
+        fill = QtGui.QColor(st.colour)
+        fill.setAlpha(150)  # coinciding poles of two candidates stay visible
+        item = pg.ScatterPlotItem(size=11, pen=pg.mkPen(st.colour, width=1.5), brush=pg.mkBrush(fill), symbol=st.symbol, name=cid)
+        item.setObjectName(cid)
+        self.getPlotItem().addItem(item)
+        zeros = pg.ScatterPlotItem(size=10, pen=pg.mkPen(st.colour, width=1.8), brush=pg.mkBrush(None), symbol="o")
+        self.getPlotItem().addItem(zeros)
+        self.zero_items[cid] = zeros
+        return item
+
+    def curve_data(self, res):
+        return res.poles_hz.real, res.poles_hz.imag
+
+    def _on_analyses_changed(self):
+        super()._on_analyses_changed()
+        for cid in list(self.zero_items):
+            if cid not in self.curves:
+                self.getPlotItem().removeItem(self.zero_items.pop(cid))
+        for cid, item in self.curves.items():
+            res = self.state.results[cid]
+            item.setPen(pg.mkPen(self.state.style(cid).colour, width=1.5))
+            self.zero_items[cid].setData(res.zeros_hz.real, res.zeros_hz.imag)
+        self._update_far_note()
+
+    def far_text(self) -> str:
+        """The note on the poles and zeros outside the current view ("" when there are none)."""
+        (x0, x1), (y0, y1) = self.getPlotItem().getViewBox().viewRange()
+        parts = []
+        for cid in self.curves:
+            res = self.state.results[cid]
+            for what, points in (("pole", res.poles_hz), ("zero", res.zeros_hz)):
+                out = [p for p in np.asarray(points).tolist() if not (x0 <= p.real <= x1 and y0 <= p.imag <= y1)]
+                far = sorted(abs(p) for p in out if math.isfinite(abs(p)))
+                if far:
+                    where = ", ".join(_short(r, "Hz") for r in far[:3]) + (" …" if len(far) > 3 else "")
+                    parts.append(f"{cid} {what}{'s' if len(far) > 1 else ''} {where}")
+        return "\n".join(["outside the view, |s|/2π:"] + parts) if parts else ""
+
+    def _update_far_note(self) -> None:
+        note = self.far_note
+        text = self.far_text()
+        if text != note.toPlainText():
+            note.setText(text)
+        note.setVisible(bool(text))
+        (x0, _), (_, y1) = self.getPlotItem().getViewBox().viewRange()
+        note.setPos(x0, y1)
+
+    def _setup_extras(self, item):
+        self.circle = QtWidgets.QGraphicsEllipseItem()
+        self.circle.setPen(pg.mkPen("#7d8590", width=1, style=QtCore.Qt.PenStyle.DotLine, cosmetic=True))
+        item.addItem(self.circle, ignoreBounds=True)
+        item.addItem(pg.InfiniteLine(angle=90, pos=0.0, pen=pg.mkPen("#b5b9bf", width=1)), ignoreBounds=True)
+        item.addItem(pg.InfiniteLine(angle=0, pos=0.0, pen=pg.mkPen("#b5b9bf", width=1)), ignoreBounds=True)
+        self._range_f0 = None
+        # top left of whatever the view shows, in small muted type
+        self.far_note = pg.TextItem("", color=MUTED, anchor=(0, 0), fill=pg.mkBrush(255, 255, 255, 210))
+        self.far_note.setFont(QtGui.QFont(self.font().family(), 8))
+        self.far_note.setZValue(-5)  # under the markers: a pole near the corner stays on top
+        item.addItem(self.far_note, ignoreBounds=True)
+        item.getViewBox().sigRangeChanged.connect(lambda *_: self._update_far_note())
+
+    def _update_extras(self):
+        f0 = self.state.session.target.f0_hz
+        self.circle.setRect(-f0, -f0, 2 * f0, 2 * f0)
+        pen = self.circle.pen()
+        pen.setCosmetic(True)
+        self.circle.setPen(pen)
+        if self._range_f0 != f0:  # re-centre only when the target moves, not on every edit
+            self._range_f0 = f0
+            self.getPlotItem().getViewBox().setRange(xRange=(-1.6 * f0, 0.6 * f0), yRange=(-1.3 * f0, 1.3 * f0), padding=0)
+
+    def _readout(self, x, y):
+        return f"σ/2π {_short(x, 'Hz')}, ω/2π {_short(y, 'Hz')}"
+
+
+PLOT_CLASSES = (MagnitudePlot, PhasePlot, GroupDelayPlot, StepPlot, GbwErrorPlot, PoleZeroPlot)

@@ -1,0 +1,141 @@
+"""The target strip: what the design aims at and the op-amp it is built with.
+
+f0, Q or bandwidth (a switch chooses which one is typed; the other is shown), centre gain, input
+level, the standard series parts are chosen from, and the op-amp's GBW (empty = ideal) and A0.
+A changed target redesigns every unpinned candidate (see :meth:`WorkbenchState.set_target`).
+"""
+
+from __future__ import annotations
+
+from PySide6 import QtWidgets
+
+from bandsmith.files.session import SERIES_CHOICES, Session
+from bandsmith.common.values import format_value, parse_positive
+
+from bandsmith.app.window.state import WorkbenchState
+from bandsmith.app.window.widgets.value_field import ValueField
+
+__all__ = ["TargetStrip"]
+
+_NOTATION = "Any notation: 2k, 2000, 2e3, 2kHz."
+
+
+def _parse_gbw(text: str) -> float | None:
+    if not text.strip() or text.strip().lower() in ("ideal", "none", "∞"):
+        return None
+    return parse_positive(text, field="GBW")
+
+
+def _fmt_plain(v: float | None) -> str:
+    return "" if v is None else format_value(v, "", digits=4)
+
+
+def _fmt_a0(v: float | None) -> str:
+    return "" if v is None else f"{v:.4g}"
+
+
+class TargetStrip(QtWidgets.QFrame):
+    """The row of target and op-amp fields at the top of the window."""
+
+    def __init__(self, state: WorkbenchState, parent: QtWidgets.QWidget | None = None):
+        super().__init__(parent)
+        self.setObjectName("targetStrip")
+        self.state = state
+        self.f0 = ValueField("f0", "Hz", tooltip=f"Target centre frequency f0, in Hz. {_NOTATION}")
+        self.q = ValueField("Q", "", fmt=_fmt_plain, tooltip="Target quality factor Q = f0 / bandwidth (dimensionless), e.g. 5 or 7.5.")
+        self.bw = ValueField("bandwidth", "Hz", tooltip=f"Target −3 dB bandwidth, in Hz (Q = f0 / bandwidth). {_NOTATION}")
+        self.gain = ValueField("gain", "V/V", fmt=_fmt_plain, tooltip="Magnitude of the centre gain |H(f0)|, in V/V (4 = +12 dB); the sign follows the circuit.")
+        self.vin = ValueField("vin", "V", tooltip="Peak input amplitude, in volts: sets the slew-rate and output-current needs. E.g. 0.5, 500m.")
+        self.gbw = ValueField(
+            "gbw",
+            "Hz",
+            parse=_parse_gbw,
+            fmt=lambda v: "ideal" if v is None else format_value(v, "Hz"),
+            tooltip="Gain-bandwidth product of the op-amp, in Hz (e.g. 1M, 10meg, 3e6). Leave empty or type 'ideal' for an ideal op-amp.",
+        )
+        self.a0 = ValueField("a0", "V/V", fmt=_fmt_a0, tooltip="Open-loop DC gain A0 of the op-amp, in V/V (1e5 = 100 dB).")
+        self.q_mode = QtWidgets.QComboBox(self)
+        self.q_mode.setObjectName("qMode")
+        self.q_mode.addItems(["Q", "Bandwidth"])
+        self.q_mode.setToolTip("Type the target as Q or as a −3 dB bandwidth in Hz; the other is derived.")
+        self.derived = QtWidgets.QLabel(self)
+        self.derived.setObjectName("derivedQ")
+        self.series = QtWidgets.QComboBox(self)
+        self.series.setObjectName("series")
+        self.series.addItems(list(SERIES_CHOICES))
+        self.series.setToolTip("Standard series (IEC 60063) new designs take their parts from, or 'exact' for unrounded values.")
+
+        lay = QtWidgets.QHBoxLayout(self)
+        lay.setContentsMargins(8, 4, 8, 4)
+        lay.setSpacing(6)
+
+        def group(title: str, *widgets):
+            box = QtWidgets.QVBoxLayout()
+            box.setSpacing(1)
+            lab = QtWidgets.QLabel(title)
+            lab.setObjectName("sectionTitle")
+            box.addWidget(lab)
+            row = QtWidgets.QHBoxLayout()
+            row.setSpacing(4)
+            for w in widgets:
+                if isinstance(w, str):
+                    row.addWidget(QtWidgets.QLabel(w))
+                else:
+                    row.addWidget(w)
+            box.addLayout(row)
+            lay.addLayout(box)
+
+        group("Target", "f0", self.f0, self.q_mode, self.q, self.bw, self.derived, "centre gain", self.gain)
+        lay.addSpacing(10)
+        group("Drive", "vin (peak)", self.vin)
+        group("Parts", self.series)
+        lay.addSpacing(10)
+        group("Op-amp", "GBW", self.gbw, "A0", self.a0)
+        lay.addStretch(1)
+        for f in (self.f0, self.q, self.bw, self.gain, self.vin, self.gbw, self.a0):
+            f.edit.setFixedWidth(96)
+            f.setSizePolicy(QtWidgets.QSizePolicy.Policy.Fixed, QtWidgets.QSizePolicy.Policy.Preferred)
+        for c in (self.q_mode, self.series):
+            c.setSizePolicy(QtWidgets.QSizePolicy.Policy.Fixed, QtWidgets.QSizePolicy.Policy.Fixed)
+        self.derived.setMinimumWidth(80)
+
+        self.f0.committed.connect(lambda v: self.state.set_target(f0_hz=v))
+        self.q.committed.connect(lambda v: self.state.set_target(q=v))
+        self.bw.committed.connect(self._on_bw_committed)
+        self.gain.committed.connect(lambda v: self.state.set_target(gain=v))
+        self.vin.committed.connect(lambda v: self.state.set_target(vin_v=v))
+        self.gbw.committed.connect(lambda v: self.state.set_opamp(gbw_hz=v))
+        self.a0.committed.connect(lambda v: self.state.set_opamp(a0=v))
+        self.series.activated.connect(self._on_series_activated)
+        self.q_mode.currentIndexChanged.connect(self._on_q_mode_changed)
+        state.session_changed.connect(self._on_session_changed)
+        self._on_session_changed(state.session)
+        self._on_q_mode_changed(0)
+
+    # -- user input ---------------------------------------------------------------------
+    def _on_bw_committed(self, bw_hz: float) -> None:
+        self.state.set_target(q=self.state.session.target.f0_hz / bw_hz)
+
+    def _on_series_activated(self, index: int) -> None:
+        self.state.set_target(series=self.series.itemText(index))
+
+    def _on_q_mode_changed(self, index: int) -> None:
+        self.q.setVisible(index == 0)
+        self.bw.setVisible(index == 1)
+        self._on_session_changed(self.state.session)
+
+    # -- state → view -------------------------------------------------------------------
+    def _on_session_changed(self, session: Session) -> None:
+        t = session.target
+        self.f0.set_value(t.f0_hz)
+        self.q.set_value(t.q)
+        self.bw.set_value(t.f0_hz / t.q)
+        self.gain.set_value(t.gain)
+        self.vin.set_value(t.vin_v)
+        self.gbw.set_value(session.opamp.gbw_hz)
+        self.a0.set_value(session.opamp.a0)
+        self.series.setCurrentText(t.series)
+        if self.q_mode.currentIndex() == 0:
+            self.derived.setText(f"BW {format_value(t.f0_hz / t.q, 'Hz', digits=3)}")
+        else:
+            self.derived.setText(f"Q {t.q:.3g}")

@@ -1,0 +1,1 @@
+"""One circuit analysed: response figures, amplifier needs, sensitivities, time response, noise, inductors."""

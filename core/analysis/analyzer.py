@@ -1,0 +1,600 @@
+"""Full analysis of one candidate: figures, amplifier needs and sensitivities.
+
+Everything works from the netlist, so it holds for any circuit module.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import numpy as np
+
+from bandsmith.common.errors import InputError
+from bandsmith.analysis.figures import Figures, measure, measure_near
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
+from bandsmith.solver.netlist import Element, Netlist
+from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
+from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, rational_and_family, rational_from_system, reference_w
+from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, step_response
+
+__all__ = [
+    "Tolerances",
+    "Requirements",
+    "Analysis",
+    "Response",
+    "transfer_function",
+    "ideal_figures",
+    "required_gbw",
+    "requirements",
+    "opamp_output_current",
+    "sensitivities",
+    "analyze",
+    "sweep",
+    "within_tolerances",
+    "is_stable",
+]
+
+DEFAULT_A0 = 1e5
+
+
+@dataclass(frozen=True, slots=True)
+class Tolerances:
+    """How far the finite-op-amp figures may stray from the ideal ones.
+
+    ``f0`` and ``q`` are fractions (0.01 = 1 %); ``gain_db`` is in dB.
+    """
+
+    f0: float = 0.01
+    q: float = 0.05
+    gain_db: float = 0.5
+
+    def __post_init__(self):
+        for name in ("f0", "q", "gain_db"):
+            v = getattr(self, name)
+            if not (math.isfinite(v) and v > 0):
+                raise InputError(f"tol-{name.replace('_', '-')}", f"must be a finite number above zero, got {v!r}")
+
+
+@dataclass(frozen=True, slots=True)
+class Requirements:
+    """What the circuit asks of its op-amp (CONTRACT.md's REQUIREMENTS)."""
+
+    gbw_hz: float | None
+    gbw_reason: str | None
+    tolerances: Tolerances
+    a0: float
+    vin_v: float
+    vout_peak_v: float
+    slew_sine_v_per_us: float
+    slew_step_v_per_us: float
+    iout_peak_ma: float
+    gbw_rule_of_thumb_hz: float
+
+    def to_json(self) -> dict:
+        def f(x):
+            return None if x is None or not math.isfinite(x) else float(x)
+
+        return {
+            "gbw_hz": f(self.gbw_hz),
+            "gbw_reason": self.gbw_reason,
+            "tol_f0": float(self.tolerances.f0),
+            "tol_q": float(self.tolerances.q),
+            "tol_gain_db": float(self.tolerances.gain_db),
+            "a0": float(self.a0),
+            "vin_v": float(self.vin_v),
+            "vout_peak_v": f(self.vout_peak_v),
+            "slew_sine_v_per_us": f(self.slew_sine_v_per_us),
+            "slew_step_v_per_us": f(self.slew_step_v_per_us),
+            "iout_peak_ma": f(self.iout_peak_ma),
+            "gbw_rule_of_thumb_hz": f(self.gbw_rule_of_thumb_hz),
+        }
+
+
+@dataclass(frozen=True, slots=True)
+class Response:
+    """A frequency response: frequencies in Hz and complex ``H`` (V/V), shape ``(F,)``."""
+
+    f_hz: np.ndarray
+    h: np.ndarray
+    group_delay_s: np.ndarray
+
+    @property
+    def magnitude_db(self) -> np.ndarray:
+        return 20.0 * np.log10(np.abs(self.h))
+
+    @property
+    def phase_deg(self) -> np.ndarray:
+        """Phase in degrees, unwrapped so that it is continuous over the sweep."""
+        return np.degrees(np.unwrap(np.angle(self.h)))
+
+
+@dataclass(frozen=True, slots=True)
+class Analysis:
+    """One candidate, fully analysed."""
+
+    netlist: Netlist
+    ideal: Figures
+    actual: Figures | None
+    opamp: OpAmpModel
+    requirements: Requirements
+    sensitivity: Mapping[str, Mapping[str, float]]
+    h_ideal: Rational
+    h_actual: Rational | None
+    _step: StepResponse | None = field(default=None, repr=False, compare=False)
+
+    @property
+    def step(self) -> StepResponse:
+        """The ideal-op-amp unit-step response (computed when first asked for)."""
+        if self._step is None:
+            object.__setattr__(self, "_step", step_response(self.h_ideal))
+        return self._step
+
+    @property
+    def stable_ideal(self) -> bool:
+        """True when every pole with the ideal op-amp lies in the left half-plane."""
+        return is_stable(self.h_ideal)
+
+    @property
+    def stable_actual(self) -> bool | None:
+        """The same with the actual op-amp; None without one."""
+        return None if self.h_actual is None else is_stable(self.h_actual)
+
+    @property
+    def warnings(self) -> tuple[str, ...]:
+        """Plain-words warnings about the analysis itself (an unstable circuit, say)."""
+        out = []
+        if not self.stable_ideal:
+            out.append(
+                "unstable even with an ideal op-amp (a pole in the right half-plane): it oscillates, "
+                "and the figures describe a frequency response that cannot be observed"
+            )
+        elif self.stable_actual is False:
+            out.append(f"unstable with the {self.opamp.gbw_hz:.3g} Hz op-amp: it oscillates on the bench")
+        return tuple(out)
+
+    def to_json(self) -> dict:
+        return {
+            "stability": {"ideal": self.stable_ideal, "actual": self.stable_actual},
+            "warnings": list(self.warnings),
+            "netlist": self.netlist.to_json(),
+            "ideal": self.ideal.to_json(),
+            "actual": self.actual.to_json() if self.actual is not None else None,
+            "opamp": self.opamp.to_json(),
+            "requirements": self.requirements.to_json(),
+            "sensitivity": {k: {r: float(s) for r, s in v.items()} for k, v in self.sensitivity.items()},
+        }
+
+
+def is_stable(h: Rational, i: int = 0) -> bool:
+    """True when every pole of member ``i`` has a negative real part (to 1e-9 of its size)."""
+    p = h.poles(i)
+    return bool(np.all(p.real < 1e-9 * np.abs(p))) if p.size else True
+
+
+def transfer_function(
+    netlist: Netlist,
+    opamp: OpAmpModel = IDEAL,
+    *,
+    overrides: Mapping[str, np.ndarray | float] | None = None,
+    gbw_hz: np.ndarray | None = None,
+    a0: np.ndarray | float | None = None,
+    w_ref: float | None = None,
+) -> Rational:
+    """Exact rational transfer function of a netlist (batched where overrides are arrays).
+
+    ``w_ref`` (rad/s) normalises the coefficients; by default the natural frequency of the netlist
+    with an ideal op-amp, which keeps a finite op-amp's figures near ``ω/w_ref = 1``.
+    """
+    if w_ref is None:
+        w_ref = reference_w(build_system(netlist))
+    system = build_system(netlist, opamp, overrides=overrides, gbw_hz=gbw_hz, a0=a0)
+    return rational_from_system(system, w_ref)
+
+
+def ideal_figures(netlist: Netlist) -> Figures:
+    """Figures with an ideal op-amp (batch of one)."""
+    return measure(transfer_function(netlist))
+
+
+def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances) -> np.ndarray:
+    """True where ``fig`` is within ``tol`` of the reference figures (scalars in ``ref``)."""
+    with np.errstate(invalid="ignore"):
+        ok = np.abs(fig.f0_hz / ref.f0_hz - 1.0) <= tol.f0
+        ok &= np.abs(fig.q / ref.q - 1.0) <= tol.q
+        ok &= np.abs(fig.gain_center_db - ref.gain_center_db) <= tol.gain_db
+        ok &= np.sign(fig.gain_center) == np.sign(ref.gain_center)
+    return ok & fig.valid
+
+
+_LADDER_DECADES = (-1.0, 9.0)
+_LADDER_POINTS = 61
+_FINE_POINTS = 48
+
+
+_UNIT_LADDER = np.logspace(*_LADDER_DECADES, _LADDER_POINTS)
+
+
+def _ladder(f_hz: float) -> np.ndarray:
+    """The coarse GBW ladder (Hz): f/10 to f·10⁹."""
+    return f_hz * _UNIT_LADDER
+
+
+def _with_gbw(netlist: Netlist, family: OpAmpFamily | None, w_ref: float, gbw: np.ndarray, a0: float) -> Rational:
+    """Transfer functions with single-pole op-amps of these GBWs (Hz): through the op-amp family
+    when there is one, else a batched solve."""
+    if family is not None:
+        return family.at(gbw, a0)
+    return transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
+
+
+def _gbw_figures(
+    netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float,
+    gbw: np.ndarray, a0: float, tolerances: Tolerances,
+) -> Figures:
+    """Figures along GBW values (Hz), sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`):
+    a member farther off than about twice the tolerances fails whatever its exact figures are."""
+    h = _with_gbw(netlist, family, w_ref, gbw, a0)
+    return measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
+
+
+def _search_gbw(
+    netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float, *, a0: float, tolerances: Tolerances,
+    probe: float | None = None,
+) -> tuple[tuple[float | None, str | None], Figures | None]:
+    """The required-GBW search: a coarse ladder, then a fine one in the last failing step.
+
+    With ``probe`` (a GBW in Hz, same ``a0``) its figures ride along in the coarse batch and are
+    returned too (NaN where they are not near the ideal ones: the caller measures them exactly).
+    """
+    ref = ideal.item()
+    if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
+        return (None, "the circuit has no band-pass peak with an ideal op-amp"), None
+    ladder = _ladder(ref.f0_hz)
+    if probe is None:
+        on_ladder = _gbw_figures(netlist, ideal, family, w_ref, ladder, a0, tolerances)
+        at_probe = None
+    else:
+        both = _gbw_figures(netlist, ideal, family, w_ref, np.append(ladder, probe), a0, tolerances)
+        on_ladder, at_probe = both.take(slice(0, ladder.size)), both.take(slice(ladder.size, None))
+    return _conclude_gbw(netlist, ideal, family, w_ref, ladder, on_ladder, a0=a0, tolerances=tolerances), at_probe
+
+
+# Lagrange basis of the ladder points j−1, j, j+1, j+2 (uniform in log GBW) at sub-steps
+# t ∈ [0, 1] of the step from j to j+1: shape (T, 4).
+_SUB = np.linspace(0.0, 1.0, 257)
+_BASIS = np.stack(
+    [
+        -_SUB * (_SUB - 1.0) * (_SUB - 2.0) / 6.0,
+        (_SUB + 1.0) * (_SUB - 1.0) * (_SUB - 2.0) / 2.0,
+        -(_SUB + 1.0) * _SUB * (_SUB - 2.0) / 2.0,
+        (_SUB + 1.0) * _SUB * (_SUB - 1.0) / 6.0,
+    ],
+    axis=1,
+)
+# The reported GBW lies this fraction above the interpolated crossing (the interpolation error
+# of a cubic over a ladder step is below 0.1 % in GBW for these smooth errors).
+_CROSSING_MARGIN = 0.005
+
+
+def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, ladder: np.ndarray, j: int) -> float | None:
+    """The required GBW (Hz) inside the ladder step from ``j`` (failing) to ``j + 1`` (passing):
+    each figure's error is interpolated by the cubic through the ladder points ``j − 1 … j + 2``
+    (uniform in log GBW), and the last sub-step where the worst error exceeds its tolerance is
+    found; the result is :data:`_CROSSING_MARGIN` above it. None where the four points are not
+    all measured (a point too far off) or the interpolation disagrees with the measured pass and
+    fail at ``j`` and ``j + 1``: the caller then measures a fine ladder."""
+    if j < 1 or j + 2 >= ladder.size:
+        return None
+    sl = slice(j - 1, j + 3)
+    # errors over tolerances at the four points, as plain numbers (a handful of them)
+    f0, q, db = (np.asarray(v)[sl].tolist() for v in (on_ladder.f0_hz, on_ladder.q, on_ladder.gain_center_db))
+    err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0], [(v / ref.q - 1.0) / tol.q for v in q],
+           [(v - ref.gain_center_db) / tol.gain_db for v in db]]
+    if not all(math.isfinite(e) for row in err for e in row):
+        return None
+    sign = math.copysign(1.0, ref.gain_center)
+    if not all(math.copysign(1.0, g) == sign for g in np.asarray(on_ladder.gain_center)[sl].tolist()):
+        return None
+    worst = np.abs(_BASIS @ np.array(err).T).max(axis=1)  # (T,)
+    if not (worst[0] > 1.0 and worst[-1] <= 1.0):
+        return None
+    k = int(np.flatnonzero(worst > 1.0)[-1]) + 1
+    step = math.log(ladder[j + 1] / ladder[j])
+    return float(ladder[j] * math.exp(_SUB[k] * step) * (1.0 + _CROSSING_MARGIN))
+
+
+def _conclude_gbw(
+    netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float, ladder: np.ndarray,
+    on_ladder: Figures, *, a0: float, tolerances: Tolerances,
+) -> tuple[float | None, str | None]:
+    ref = ideal.item()
+    ok = within_tolerances(on_ladder, ref, tolerances)
+    if not ok[-1]:
+        top = measure(_with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
+        return None, (
+            f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {ladder[-1]:.3g} Hz "
+            f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
+            f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed"
+        )
+    fails = np.flatnonzero(~ok)
+    if fails.size == 0:
+        return float(ladder[0]), None
+    found = _interpolated_crossing(on_ladder, ref, tolerances, ladder, int(fails[-1]))
+    if found is not None:
+        return found, None
+    fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
+    ok = within_tolerances(_gbw_figures(netlist, ideal, family, w_ref, fine, a0, tolerances), ref, tolerances)
+    fails = np.flatnonzero(~ok)
+    # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
+    return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None
+
+
+def required_gbw(
+    netlist: Netlist,
+    ideal: Figures,
+    *,
+    a0: float = DEFAULT_A0,
+    tolerances: Tolerances = Tolerances(),
+) -> tuple[float | None, str | None]:
+    """Smallest single-pole GBW (Hz) from which on every figure stays within tolerance.
+
+    Searched, not estimated: the figures are measured at 61 GBW values from f0/10 to f0·10⁹ in one
+    batch (near the ideal figures, :func:`bandsmith.analysis.figures.measure_near`); inside the step from the
+    last failing to the first passing value each figure's error is interpolated by a cubic through
+    four ladder points, and the answer is 0.5 % above the crossing (where the four points are not
+    all measurable, 48 values across the step are measured instead, at most 1 % above). Returns
+    ``(None, reason)`` when even the largest GBW fails (an open-loop gain ``a0`` too small).
+    """
+    ref = ideal.item()
+    if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
+        return None, "the circuit has no band-pass peak with an ideal op-amp"
+    w_ref = 2.0 * math.pi * ref.f0_hz
+    family = rational_and_family(build_system(netlist), w_ref)[1]
+    return _search_gbw(netlist, ideal, family, w_ref, a0=a0, tolerances=tolerances)[0]
+
+
+def opamp_output_current(
+    netlist: Netlist, f_hz: float, *, rload_ohm: float | None = None, load: Netlist | None = None
+) -> float:
+    """Peak op-amp output current (A) per volt of input at ``f_hz``, ideal op-amps.
+
+    The largest over the netlist's op-amps of the current each delivers into the circuit, into
+    an optional load resistor ``rload_ohm`` (ohm) from the output to ground and into an optional
+    circuit ``load`` whose input is driven by the output (the next stage of a chain).
+    """
+    own = [e.ref for e in netlist.opamps]
+    if rload_ohm is not None:
+        netlist = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
+    if load is not None:
+        netlist = netlist.driving(load)
+    x, layout = solve_at(netlist, 2j * math.pi * f_hz)
+    return float(max(abs(x[layout.opamp_row[r]]) for r in own)) if own else 0.0
+
+
+def requirements(
+    netlist: Netlist,
+    ideal: Figures,
+    step_slope_per_s: float,
+    *,
+    vin_v: float = 1.0,
+    a0: float = DEFAULT_A0,
+    rload_ohm: float | None = None,
+    tolerances: Tolerances = Tolerances(),
+    gbw_search: tuple[float | None, str | None] | None = None,
+) -> Requirements:
+    """The op-amp needs of a candidate (see BRIEF.md's definitions).
+
+    Slew for a sine of peak ``vin_v`` at f0: ``2π·f0·|gain|·vin``; for a step of height ``vin_v``:
+    the largest ``|dv_out/dt|`` of the step response (``step_slope_per_s``: its largest ``|slope|``
+    in 1/s per volt, :func:`bandsmith.analysis.timeresponse.max_step_slope`); output current: the
+    peak current the op-amp output delivers at f0 into the circuit and the optional load.
+    ``gbw_search`` is a finished :func:`required_gbw`, when the caller has it.
+    """
+    ref = ideal.item()
+    if gbw_search is None:
+        gbw_search = required_gbw(netlist, ideal, a0=a0, tolerances=tolerances)
+    gbw, reason = gbw_search
+    gain = abs(ref.gain_center)
+    # Common practice, no source: open-loop gain at f0 some 40 dB above the peak gain.
+    rule = 100.0 * gain * ref.f0_hz if math.isfinite(gain) else math.nan
+    iout = opamp_output_current(netlist, ref.f0_hz, rload_ohm=rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
+    return Requirements(
+        gbw_hz=gbw,
+        gbw_reason=reason,
+        tolerances=tolerances,
+        a0=a0,
+        vin_v=vin_v,
+        vout_peak_v=gain * vin_v,
+        slew_sine_v_per_us=2.0 * math.pi * ref.f0_hz * gain * vin_v * 1e-6,
+        slew_step_v_per_us=step_slope_per_s * vin_v * 1e-6,
+        iout_peak_ma=iout * 1e3,
+        gbw_rule_of_thumb_hz=rule,
+    )
+
+
+_SENS_STEP = 1e-4
+
+
+@dataclass(frozen=True, slots=True)
+class _FirstPass:
+    w_ref: float
+    h_ideal: Rational
+    ideal: Figures
+    sensitivity: dict[str, dict[str, float]]
+    family: OpAmpFamily | None
+
+
+# An op-amp model whose stamps are 1 (``1/A0`` and ``1/ωt``, s-units) for the expansion below.
+_UNIT_AMP = OpAmpModel(gbw_hz=1.0 / (2.0 * math.pi), a0=1.0)
+
+
+@functools.lru_cache(maxsize=64)
+def _absent_mask(rows: int, n_var: int, gbw: int, a0: int) -> np.ndarray:
+    """Absent stamps of the first pass: 1/ωt in every member but the last, 1/A0 in all."""
+    absent = np.zeros((rows, n_var), dtype=bool)
+    absent[:-1, gbw] = True  # the ideal op-amp: 1/ωt = 1/A0 = 0
+    absent[:, a0] = True
+    absent.setflags(write=False)
+    return absent
+
+
+def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
+    """The first pass's transfer functions from the netlist's coefficient expansion
+    (:mod:`bandsmith.solver.expansion`, built once per circuit) instead of solves: ``(w_ref, h, family)``, or
+    None where the expansion does not apply (not one op-amp, or a part the expansion does not
+    carry)."""
+    if len(netlist.opamps) != 1:
+        return None
+    try:
+        exp, variables = unit_expansion(netlist, _UNIT_AMP)
+    except ExpansionUnavailable:
+        return None
+    col = {name: j for j, name in enumerate(exp.names)}
+    if any(r not in col for r in refs):
+        return None
+    # unit nominal values: the ratios are the values (the op-amp's are 1: stamps of 1); member
+    # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
+    lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal + 1, 1))
+    cols = [col[r] for r in refs]
+    rows = np.arange(len(refs))
+    lr[1 + 2 * rows, cols] += _SENS_STEP
+    lr[2 + 2 * rows, cols] -= _SENS_STEP
+    num, den = exp.dense_log(lr, absent=_absent_mask(n_ideal + 1, len(variables), col["gbw"], col["a0"]))
+    # in p = s (the unit expansion), highest power first
+    d0 = den[0]
+    nz = np.flatnonzero(d0)
+    if nz.size < 2 or not np.isfinite(den).all():
+        return None
+    if w_ref is None:  # geometric mean of the finite, nonzero poles (bandsmith.solver.rational.reference_w)
+        w_ref = float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0])))
+    # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
+    m_s = np.zeros(den.shape[1])
+    m_s[1:] = (d0 - den[n_ideal])[:-1]
+    to_p = w_ref ** np.arange(den.shape[1] - 1, -1, -1.0)  # c·s^k = c·w_ref^k·p^k
+    den_p = den[:n_ideal] * to_p
+    num_p = num[:n_ideal] * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
+    scale = np.abs(den_p).max(axis=1, keepdims=True)
+    h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
+    s0 = scale[0, 0]
+    family = OpAmpFamily(
+        _lead_trim(num_p[:1] / s0)[0], _lead_trim(den_p[:1] / s0)[0], _lead_trim((m_s * to_p)[None, :] / s0)[0],
+        float(w_ref),
+    )
+    return float(w_ref), h, family
+
+
+def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
+    """One batch for the ideal op-amp: the nominal circuit and its 2·P part perturbations (member 0
+    is the nominal one), their figures and the sensitivities; with one op-amp also the
+    :class:`OpAmpFamily` of the nominal circuit. From the coefficient expansion where it applies,
+    else one batched solve. ``w_ref`` defaults to the nominal circuit's
+    :func:`~bandsmith.solver.rational.reference_w`."""
+    values = dict(parts if parts is not None else netlist.values())
+    refs = [r for r, v in values.items() if v > 0]
+    n_ideal = 1 + 2 * len(refs)
+    quick = _first_pass_expanded(netlist, refs, n_ideal, w_ref)
+    if quick is not None:
+        w_ref, h, family = quick
+    else:
+        up, down = math.exp(_SENS_STEP), math.exp(-_SENS_STEP)
+        over = {}
+        for j, r in enumerate(refs):
+            col = np.full(n_ideal, values[r])
+            col[1 + 2 * j] *= up
+            col[2 + 2 * j] *= down
+            over[r] = col
+        batch = build_system(netlist, overrides=over or None)
+        if w_ref is None:
+            w_ref = reference_w(batch)
+        h, family = rational_and_family(batch, w_ref)
+    fig = measure(h)
+    ly = np.log(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
+    sv = (ly[:, 0::2] - ly[:, 1::2]) / (2.0 * _SENS_STEP)
+    sens = {}
+    for row, key in enumerate(("f0", "q", "gain")):
+        by_ref = dict(zip(refs, sv[row].tolist()))
+        sens[key] = {r: by_ref.get(r, 0.0) for r in values}
+    return _FirstPass(float(w_ref), h.item(0), fig.take(slice(0, 1)), sens, family)
+
+
+def sensitivities(
+    netlist: Netlist, parts: Mapping[str, float] | None = None, *, w_ref: float | None = None
+) -> dict[str, dict[str, float]]:
+    """Normalised sensitivities ``S = ∂ln y/∂ln x`` of f0, Q and |centre gain| to every part.
+
+    Central differences in ``ln x`` (step 1e-4, error of order 1e-8), all parts in one batch with
+    an ideal op-amp (:func:`_first_pass`, which also picks ``w_ref`` when none is given). A part
+    at zero (an absent winding resistance) has S = 0.
+    """
+    return _first_pass(netlist, parts, w_ref).sensitivity
+
+
+def analyze(
+    netlist: Netlist,
+    *,
+    opamp: OpAmpModel | None = None,
+    vin_v: float = 1.0,
+    a0: float | None = None,
+    rload_ohm: float | None = None,
+    tolerances: Tolerances = Tolerances(),
+    parts: Mapping[str, float] | None = None,
+) -> Analysis:
+    """Analyse one candidate.
+
+    Parameters
+    ----------
+    netlist : Netlist
+        The circuit.
+    opamp : OpAmpModel, optional
+        The op-amp actually used; with it the ``actual`` figures are computed.
+    vin_v : float
+        Peak input amplitude in volts, for slew and current needs.
+    a0 : float, optional
+        Open-loop gain for the required-GBW search; ``opamp.a0`` or 1e5 by default.
+    rload_ohm : float, optional
+        A load from the output to ground, in ohm.
+    tolerances : Tolerances
+        For the required-GBW search.
+    parts : mapping, optional
+        The part values by component reference (for sensitivities); the netlist's by default.
+    """
+    if not (math.isfinite(vin_v) and vin_v > 0):
+        raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
+    if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
+        raise InputError("rload", f"must be a finite number above zero, got {rload_ohm!r}")
+    if a0 is None:
+        a0 = opamp.a0 if opamp is not None else DEFAULT_A0
+    finite = opamp is not None and not opamp.ideal
+    first = _first_pass(netlist, parts)
+    h_ideal, ideal, sens, w_ref = first.h_ideal, first.ideal, first.sensitivity, first.w_ref
+    probe = opamp.gbw_hz if finite and opamp.a0 == a0 and first.family is not None else None
+    gbw_search, actual = _search_gbw(netlist, ideal, first.family, w_ref, a0=a0, tolerances=tolerances, probe=probe)
+    h_actual = None
+    if finite:
+        h_actual = _with_gbw(netlist, first.family, w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
+        if actual is None or not bool(actual.valid[0]):  # far from the ideal: measured exactly
+            actual = measure(h_actual)
+    req = requirements(
+        netlist, ideal, max_step_slope(h_ideal), vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
+        gbw_search=gbw_search,
+    )
+    return Analysis(
+        netlist=netlist,
+        ideal=ideal,
+        actual=actual,
+        opamp=opamp if opamp is not None else IDEAL,
+        requirements=req,
+        sensitivity=sens,
+        h_ideal=h_ideal,
+        h_actual=h_actual,
+    )
+
+
+def sweep(h: Rational, f_hz: np.ndarray, *, i: int = 0) -> Response:
+    """Frequency response of member ``i`` of a transfer function at frequencies in Hz."""
+    f = np.asarray(f_hz, dtype=float)
+    one = h.item(i)
+    return Response(f_hz=f, h=one.at_f(f)[0], group_delay_s=one.group_delay(f)[0])

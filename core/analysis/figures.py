@@ -1,0 +1,410 @@
+"""Response figures measured on the computed response (BRIEF.md's shared definitions).
+
+f0 is the frequency of the magnitude peak; f_low and f_high are the −3 dB points relative to the
+peak; the bandwidth is their difference; Q = f0/bandwidth; the centre gain is |H(f0)| with the sign
+of the circuit (negative where the phase at f0 is beyond ±90°, as for an inverting circuit); the
+centre phase is the angle of H(f0) in degrees in (−180, 180].
+
+Method
+------
+With ``u = (ω/w_ref)²`` the squared magnitude is a ratio of real polynomials, ``|H|² = P(u)/Q(u)``
+(``P(u)`` is ``N(p)·N(−p)`` at ``p² = −u``). The peak is a root of ``P'Q − PQ'`` and the
+half-power points are roots of ``P − ½|H|²_peak·Q``, found one of four ways, each vectorised over
+the batch:
+
+- a batch of pure second-order band-passes in closed form (:func:`_biquad`);
+- otherwise as exact real positive roots (closed form for quadratics and cubics in large batches,
+  :mod:`bandsmith.solver.polyroots`, else companion-matrix eigenvalues);
+- with a search grid (large Monte Carlo batches): bracketed on the grid and refined by a
+  safeguarded Newton iteration to about 1e-13 relative;
+- :func:`measure_near`: Newton's method from reference figures (GBW ladders near the ideal op-amp).
+"""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass, fields
+
+import numpy as np
+
+from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
+from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
+
+__all__ = ["Figures", "measure", "measure_near"]
+
+_ROOT_STEPS = 8
+# From this batch size on, quadratics and cubics are solved in closed form (bandsmith.solver.polyroots): a
+# fixed cost of some hundred array operations against about 1.4 µs per member for eigenvalues.
+_CLOSED_FORM_FROM = 96
+
+
+@dataclass(frozen=True, slots=True)
+class Figures:
+    """Response figures, each an array over the batch (shape ``(B,)``); NaN where undefined."""
+
+    f0_hz: np.ndarray
+    q: np.ndarray
+    bw_hz: np.ndarray
+    f_low_hz: np.ndarray
+    f_high_hz: np.ndarray
+    gain_center: np.ndarray
+    gain_center_db: np.ndarray
+    phase_center_deg: np.ndarray
+
+    def take(self, index) -> "Figures":
+        """A sub-batch (a slice or index array), as arrays."""
+        return Figures(*[np.asarray(getattr(self, name))[index] for name in _FIELDS])
+
+    def item(self, i: int = 0) -> "Figures":
+        """Member ``i`` as scalars (floats)."""
+        out = []
+        for name in _FIELDS:
+            v = getattr(self, name)
+            out.append(float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)))  # flat index
+        return Figures(*out)
+
+    def to_json(self, i: int = 0) -> dict:
+        """CONTRACT.md's FIGURES object for member ``i`` (None where a figure is undefined)."""
+        out = {}
+        for f in fields(self):
+            v = float(np.asarray(getattr(self, f.name)).reshape(-1)[i])
+            out[f.name] = v if np.isfinite(v) else None
+        return out
+
+    @property
+    def valid(self) -> np.ndarray:
+        """True where every figure is defined."""
+        return np.isfinite(self.q) & np.isfinite(self.f0_hz) & np.isfinite(self.gain_center_db)
+
+
+_FIELDS = tuple(f.name for f in fields(Figures))
+
+
+@functools.lru_cache(maxsize=None)
+def _sq_mag_matrix(k: int) -> np.ndarray:
+    """(k·k, k) matrix taking the outer product of ``c`` (highest power first) to the coefficients
+    in ``u`` (highest first) of ``|c(jx)|²`` at ``u = x²``: ``c_i c_j j^{e_i} (−j)^{e_j} x^{e_i+e_j}``."""
+    e = np.arange(k - 1, -1, -1)
+    out = np.zeros((k, k, k))
+    for i in range(k):
+        for j in range(k):
+            if (e[i] + e[j]) % 2 == 0:
+                w = (1j ** e[i] * (-1j) ** e[j]).real
+                out[i, j, k - 1 - (e[i] + e[j]) // 2] = round(w)
+    return out.reshape(k * k, k)
+
+
+@functools.lru_cache(maxsize=None)
+def _slope_matrix(m: int, n: int) -> np.ndarray:
+    """(m·n, m+n−2) matrix taking the outer product of ``P`` and ``Q`` (in ``u``, highest first)
+    to ``P'Q − PQ'``: the term ``p_a q_b`` lands at power ``a+b−1`` with weight ``a − b``."""
+    a = np.arange(m - 1, -1, -1)
+    b = np.arange(n - 1, -1, -1)
+    deg = m + n - 3  # highest power of the result
+    out = np.zeros((m, n, max(deg + 1, 1)))
+    for i in range(m):
+        for j in range(n):
+            p = a[i] + b[j] - 1
+            if p >= 0 and a[i] != b[j]:
+                out[i, j, deg - p] = a[i] - b[j]
+    return out.reshape(m * n, -1)
+
+
+def _sq_mag_u(c: np.ndarray) -> np.ndarray:
+    """Polynomial in ``u`` equal to ``|c(jx)|²`` at ``u = x²`` (highest power first): one product."""
+    k = c.shape[1]
+    return (c[:, :, None] * c[:, None, :]).reshape(c.shape[0], k * k) @ _sq_mag_matrix(k)
+
+
+def _slope_u(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
+    """``P'Q − PQ'`` (the numerator of d|H|²/du), highest power first: one product."""
+    m, n = pu.shape[1], qu.shape[1]
+    if m + n < 3:
+        return np.zeros((pu.shape[0], 1))
+    return (pu[:, :, None] * qu[:, None, :]).reshape(pu.shape[0], m * n) @ _slope_matrix(m, n)
+
+
+def _root(poly: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """The root of ``poly(u)`` in the bracket ``[lo, hi]`` (batched; the ends differ in sign).
+
+    Safeguarded Newton: a Newton step that leaves the shrinking bracket is replaced by bisection.
+    """
+    dpoly = polyder_batch(poly)
+    lo = lo.copy()
+    hi = hi.copy()
+    f_lo = polyval_batch(poly, lo)
+    x = 0.5 * (lo + hi)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for _ in range(_ROOT_STEPS):
+            f = polyval_batch(poly, x)
+            same = np.signbit(f) == np.signbit(f_lo)
+            lo = np.where(same, x, lo)
+            f_lo = np.where(same, f, f_lo)
+            hi = np.where(same, hi, x)
+            step = x - f / polyval_batch(dpoly, x)
+            inside = (step >= lo) & (step <= hi)
+            x = np.where(inside, step, 0.5 * (lo + hi))
+    return x
+
+
+def measure(h: Rational, *, grid: np.ndarray | None = None) -> Figures:
+    """Measure the response figures of every member of a batched transfer function.
+
+    Parameters
+    ----------
+    h : Rational
+        The transfer function (batched).
+    grid : ndarray, optional
+        Without a grid (the default) the peak and the half-power points are the exact real
+        positive roots of their polynomials (batched companion-matrix eigenvalues): global and
+        exact, best for batches up to a few thousand. With a search grid in ``ω/w_ref``
+        (ascending, ``(G,)`` or ``(B, G)``) they are bracketed on the grid and refined by a
+        safeguarded Newton iteration: cheaper for large batches (Monte Carlo) whose band is known;
+        a peak on the grid's edge then counts as no peak (NaN figures).
+
+    Returns
+    -------
+    Figures
+        Arrays of shape ``(B,)``.
+    """
+    quick = _biquad(h)
+    if quick is not None:
+        return _figures(h, *quick)
+    pu = _sq_mag_u(h.num)
+    qu = _sq_mag_u(h.den)
+    slope = _slope_u(pu, qu)
+    if grid is None:
+        u_pk, u_low, u_high = _by_roots(pu, qu, slope)
+    else:
+        u_pk, u_low, u_high = _by_grid(pu, qu, slope, np.asarray(grid, dtype=float))
+    return _figures(h, u_pk, u_low, u_high)
+
+
+def _biquad(h: Rational):
+    """``(u_pk, u_low, u_high, bandwidth in ω/w_ref, H at the peak)`` in closed form when every
+    member is ``b1·p / (a2·p² + a1·p + a0)`` with a peak (``a0·a2 > 0``, ``a1 ≠ 0``); else None.
+
+    ``|H|² = b1²x² / ((a0 − a2x²)² + a1²x²)`` peaks at ``x² = a0/a2``; it is half the peak where
+    ``a2x² ∓ |a1|x − a0 = 0``, so ``x_high = (|a1| + √(a1² + 4a0a2))/(2a2)`` and
+    ``x_low = (a0/a2)/x_high`` (the product of the two, free of cancellation).
+    """
+    num, den = h.num, h.den
+    if den.shape[1] != 3 or num.shape[1] > 3 or num.shape[1] < 2:
+        return None
+    if (num[:, -1] != 0).any() or (num.shape[1] == 3 and (num[:, 0] != 0).any()):
+        return None
+    sign = np.sign(den[:, 0])
+    a2, a1, a0 = den[:, 0] * sign, np.abs(den[:, 1]), den[:, 2] * sign
+    if not ((a0 > 0).all() and (a2 > 0).all() and (a1 > 0).all() and np.isfinite(den).all()):
+        return None
+    u_pk = a0 / a2
+    x_high = (a1 + np.sqrt(a1 * a1 + 4.0 * a0 * a2)) / (2.0 * a2)
+    x_low = u_pk / x_high
+    # x_high − x_low = |a1|/a2 exactly; at the peak H = b1·jx/(a1·jx) = b1/a1 (signed, real)
+    hc = (num[:, -2] * sign / (den[:, 1] * sign)).astype(complex)
+    return u_pk, x_low * x_low, x_high * x_high, a1 / a2, hc
+
+
+def measure_near(h: Rational, ref: Figures, *, spread: float) -> Figures:
+    """Figures of members known to lie near reference figures (a GBW ladder near the ideal op-amp).
+
+    The peak and the half-power points are found by Newton's method started at ``ref``'s (one
+    member, scalars or arrays of one; the band edges scaled by the peak's move); a member for
+    which it does not converge, or converges farther than a factor ``1 + spread`` from the start,
+    gets NaN figures: it is off the reference by more than ``spread``. Cheaper than
+    :func:`measure` by a fixed cost, for callers that ask "within tolerance of the reference?"
+    and need exact figures only where it is.
+    """
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        return _measure_near(h, ref, spread)
+
+
+def _measure_near(h: Rational, ref: Figures, spread: float) -> Figures:
+    b = h.batch
+    to_u = (2.0 * np.pi / h.w_ref) ** 2
+    k2 = (1.0 + spread) ** 2
+    pu = _sq_mag_u(h.num)
+    qu = _sq_mag_u(h.den)
+    slope = _slope_u(pu, qu)
+    ref = ref.item()
+    u0 = ref.f0_hz**2 * to_u
+    u_pk, ok = _newton(slope, u0, k2)
+    half = _poly_sub(pu, qu * (0.5 * _ratio(pu, qu, u_pk))[:, None])
+    ul = ref.f_low_hz**2 * to_u
+    uh = ref.f_high_hz**2 * to_u
+    shift = u_pk / u0  # the band edges start where the moved peak carries them
+    both, ok2 = _newton(np.concatenate([half, half]), np.concatenate([ul * shift, uh * shift]), k2, first=5)
+    ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
+    nan = np.nan
+    u_pk = np.where(ok, u_pk, nan)
+    u_low = np.where(ok & ok2[:b], both[:b], nan)
+    u_high = np.where(ok & ok2[b:], both[b:], nan)
+    return _figures(h, u_pk, u_low, u_high)
+
+
+_NEWTON_MOST = 40
+
+
+def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndarray, np.ndarray]:
+    """Newton's method on batched polynomials from ``x0`` (``(B,)`` or broadcastable): the roots
+    and a mask of the members that converged (last step below 1e-5 relative, so that the error
+    after it is of order 1e-10) within a factor ``k2`` of their start. Iterates until every
+    member has converged or left that window, testing that after ``first`` steps and then every
+    other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps."""
+    b = poly.shape[0]
+    x0 = np.asarray(x0, dtype=float)
+    if x0.shape != (b,):
+        x0 = np.broadcast_to(x0, (b,))
+    lo, hi = x0 / k2, x0 * k2
+    dpoly = polyder_batch(poly)
+    x = x0
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        for n in range(1, _NEWTON_MOST + 1):
+            step = polyval_batch(poly, x) / polyval_batch(dpoly, x)
+            x = x - step
+            if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
+                inside = (x >= lo) & (x <= hi)
+                ok = (np.abs(step) <= 1e-5 * np.abs(x)) & inside  # quadratic: ~1e-10 after it
+                if not (inside & ~ok).any():
+                    break
+    return x, ok
+
+
+def _real_positive_roots(c: np.ndarray) -> np.ndarray:
+    """Real positive roots of batched real polynomials, NaN elsewhere: shape ``(B, deg)``."""
+    b, k = c.shape
+    if k < 2:
+        return np.full((b, 0), np.nan)
+    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    # A member of lower degree than the batch (an ideal op-amp beside finite ones) has leading
+    # zeros: shift it up and multiply by (u + 1), whose root −1 is never real positive.
+    for _ in range(k - 1):
+        low = np.abs(c[:, 0]) <= 1e-14 * scale[:, 0]
+        if not low.any():
+            break
+        shifted = np.zeros_like(c)
+        shifted[:, :-1] = c[:, 1:]
+        shifted[:, 1:] += c[:, 1:]
+        c = np.where(low[:, None], shifted, c)
+    lead = c[:, :1]
+    lead = np.where(np.abs(lead) <= 1e-14 * scale, 1e-14 * scale, lead)
+    if k in (3, 4) and b >= _CLOSED_FORM_FROM:  # members it cannot take go to the eigenvalues
+        r, bad = (quadratic_roots if k == 3 else cubic_roots)(np.concatenate([lead, c[:, 1:]], axis=1))
+        if bad.any():
+            r[bad] = _real_positive_roots_eig(c[bad], lead[bad])
+        return np.where(r > 0, r, np.nan)
+    return _real_positive_roots_eig(c, lead)
+
+
+def _real_positive_roots_eig(c: np.ndarray, lead: np.ndarray) -> np.ndarray:
+    """Real positive roots from the eigenvalues of the companion matrices (any degree)."""
+    b, k = c.shape
+    comp = np.zeros((b, k - 1, k - 1))
+    comp[:, 0, :] = -c[:, 1:] / lead
+    if k > 2:
+        comp[:, np.arange(1, k - 1), np.arange(k - 2)] = 1.0
+    bad = ~np.isfinite(comp).all(axis=(1, 2))  # a member with no peak (NaN) has no roots either
+    comp[bad] = 0.0
+    r = np.linalg.eigvals(comp)
+    real = np.abs(r.imag) <= 1e-7 * np.abs(r)
+    return np.where(real & (r.real > 0) & ~bad[:, None], r.real, np.nan)
+
+
+def _ratio(pu, qu, u):
+    return polyval_batch(pu, u) / polyval_batch(qu, u)
+
+
+def _by_roots(pu, qu, slope):
+    b = pu.shape[0]
+    cand = _real_positive_roots(slope)
+    if cand.shape[1] == 0:
+        nan = np.full(b, np.nan)
+        return nan, nan, nan
+    with np.errstate(invalid="ignore", divide="ignore"):
+        val = _ratio(pu, qu, np.nan_to_num(cand, nan=1.0))
+    val = np.where(np.isfinite(cand), val, -np.inf)
+    j = np.argmax(val, axis=1)
+    rows = np.arange(b)
+    u_pk = np.where(np.isfinite(val[rows, j]), cand[rows, j], np.nan)
+    peak2 = _ratio(pu, qu, u_pk)
+    half_roots = _real_positive_roots(_poly_sub(pu, qu * (0.5 * peak2)[:, None]))
+    pk = u_pk[:, None]
+    with np.errstate(invalid="ignore"):
+        low = np.where(half_roots < pk, half_roots, -np.inf).max(axis=1)
+        high = np.where(half_roots > pk, half_roots, np.inf).min(axis=1)
+    u_low = np.where(np.isfinite(low), low, np.nan)
+    u_high = np.where(np.isfinite(high), high, np.nan)
+    return u_pk, u_low, u_high
+
+
+def _by_grid(pu, qu, slope, grid):
+    b = pu.shape[0]
+    x = np.broadcast_to(grid, (b, grid.shape[-1]))
+    u = x * x
+    mag2 = _ratio(pu, qu, u)
+    rows = np.arange(b)
+    i = np.argmax(mag2, axis=1)
+    g = x.shape[1]
+    inner = (i > 0) & (i < g - 1)
+    ic = np.clip(i, 1, g - 2)
+    # Peak: d|H|²/du ∝ P'Q − PQ' goes from positive to negative.
+    u_pk = _root(slope, u[rows, ic - 1], u[rows, ic + 1])
+    peak2 = _ratio(pu, qu, u_pk)
+    # Half-power points: P − ½·peak²·Q crosses zero each side of the peak.
+    half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
+    below = mag2 < (0.5 * peak2)[:, None]
+    idx = np.arange(g)[None, :]
+    low_k = np.max(np.where(below & (idx < ic[:, None]), idx, -1), axis=1)
+    high_k = np.min(np.where(below & (idx > ic[:, None]), idx, g), axis=1)
+    lk = np.clip(low_k, 0, g - 2)
+    hk = np.clip(high_k, 1, g - 1)
+    both = _root(
+        np.concatenate([half, half]),
+        np.concatenate([u[rows, lk], np.maximum(u[rows, hk - 1], u_pk)]),
+        np.concatenate([np.minimum(u[rows, lk + 1], u_pk), u[rows, hk]]),
+    )
+    u_low = np.where(low_k >= 0, both[:b], np.nan)
+    u_high = np.where(high_k < g, both[b:], np.nan)
+    return np.where(inner, u_pk, np.nan), u_low, u_high
+
+
+def _figures(h: Rational, u_pk, u_low, u_high, bw_x=None, hc=None) -> Figures:
+    """Figures from the peak and half-power points (in ``u``); ``bw_x``, the bandwidth in
+    ``ω/w_ref``, and ``hc``, ``H`` at the peak, where they are known without cancellation."""
+    to_hz = h.w_ref / (2.0 * np.pi)
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        x_pk = np.sqrt(u_pk)  # ω/w_ref at the peak
+        f0 = x_pk * to_hz
+        f_low = np.sqrt(u_low) * to_hz
+        f_high = np.sqrt(u_high) * to_hz
+        bw = f_high - f_low if bw_x is None else bw_x * to_hz
+        if hc is None:
+            p = 1j * x_pk
+            hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
+        re, im = hc.real, hc.imag
+        phase = np.arctan2(im, re)
+        phase *= 180.0 / np.pi
+        phase[phase <= -180.0 + 1e-7] = 180.0
+        mag = np.hypot(re, im)
+        db = np.log10(mag)  # −inf at a zero gain: NaN below
+        db *= 20.0
+        db[mag == 0] = np.nan
+        return Figures(
+            f0_hz=f0,
+            q=f0 / bw,
+            bw_hz=bw,
+            f_low_hz=f_low,
+            f_high_hz=f_high,
+            gain_center=np.copysign(mag, re + 0.0),  # negative where |phase| > 90° (+ 0.0 clears a −0)
+            gain_center_db=db,
+            phase_center_deg=phase,
+        )
+
+
+def _poly_sub(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """``a − b`` for batched polynomials of possibly different lengths (highest power first)."""
+    n = max(a.shape[1], b.shape[1])
+    out = np.zeros((a.shape[0], n), dtype=np.result_type(a, b))
+    out[:, n - a.shape[1] :] += a
+    out[:, n - b.shape[1] :] -= b
+    return out

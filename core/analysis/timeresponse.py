@@ -1,0 +1,144 @@
+"""Step and impulse responses of a rational transfer function.
+
+For a strictly proper ``H(s) = N(s)/D(s)`` with simple poles ``λ_i`` and residues ``r_i`` the
+impulse response is ``h(t) = Σ r_i·e^{λ_i t}`` and the unit-step response
+``y(t) = D_∞ + Σ r_i·(e^{λ_i t} − 1)/λ_i`` (``D_∞`` the direct term), evaluated for all times at
+once. The step's slope is the impulse response, so the largest ``|dy/dt|`` of a step of height
+``vin`` is ``vin·max|h(t)|``. Poles that nearly coincide (a Q of exactly 0.5) make the residues
+ill-conditioned; there the responses come from the matrix exponential of a state-space form
+instead (scipy.linalg.expm, batched over time).
+"""
+
+from __future__ import annotations
+
+import cmath
+from dataclasses import dataclass
+
+import numpy as np
+
+from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
+
+__all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope"]
+
+
+@dataclass(frozen=True, slots=True)
+class StepResponse:
+    """Unit-step response ``y`` (V/V) and its slope ``dy/dt`` (1/s) at times ``t_s`` (s)."""
+
+    t_s: np.ndarray
+    y: np.ndarray
+    slope_per_s: np.ndarray
+    max_slope_per_s: float
+
+
+_UNIT_GRID = {1000: np.linspace(0.0, 1.0, 1000)}  # the default grid's shape, scaled per circuit
+
+
+def default_time_grid(poles: np.ndarray, n: int = 1000) -> np.ndarray:
+    """Times from 0 to where the slowest pole has decayed (8 time constants), at most 40 cycles."""
+    finite = [p for p in poles.tolist() if cmath.isfinite(p)]
+    decay = [abs(p.real) for p in finite if p.real != 0]
+    if not decay:
+        return np.linspace(0.0, 1.0, n)
+    t_end = 8.0 / min(decay)
+    osc = [abs(p.imag) for p in finite if p.imag != 0]
+    if osc:
+        t_end = min(t_end, 40.0 * 2.0 * np.pi / min(osc))
+    return _UNIT_GRID[n] * t_end if n in _UNIT_GRID else np.linspace(0.0, t_end, n)
+
+
+def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
+    """Step and impulse responses from simple poles ``p`` (the roots of ``a``):
+    ``r_i = N(λ_i)/D'(λ_i)`` after division."""
+    direct = 0.0
+    if b.size >= a.size:
+        quotient, b = np.polydiv(b, a)
+        direct = float(quotient[-1])
+    # A real polynomial's complex poles come in conjugate pairs whose terms are conjugate: keep
+    # the upper one of each pair, twice its real part.
+    p = p[p.imag >= 0]
+    at = p[None, :]
+    r = polyval_batch(b[None, :], at)[0] / polyval_batch(polyder_batch(a[None, :]), at)[0]
+    r *= np.where(p.imag > 0, 2.0, 1.0)
+    e = np.exp(t[:, None] * p)
+    h = (e @ r).real
+    y = ((e - 1.0) @ (r / p)).real + direct
+    return y, h
+
+
+def _state_space(b: np.ndarray, a: np.ndarray, t: np.ndarray):
+    import scipy.linalg  # imported here: scipy.signal alone costs the command line 0.7 s at start
+    import scipy.signal
+
+    A, B, C, D = scipy.signal.tf2ss(b, a)
+    n = A.shape[0]
+    aug = np.zeros((n + 1, n + 1))
+    aug[:n, :n] = A
+    aug[:n, n] = B[:, 0]
+    phi = scipy.linalg.expm(aug[None, :, :] * t[:, None, None])
+    y = phi[:, :n, n] @ C[0] + D[0, 0]
+    h = np.einsum("j,tjk,k->t", C[0], phi[:, :n, :n], B[:, 0])
+    return y, h
+
+
+# Early times, in units of the fastest pole's time constant, where a fast op-amp pole shapes the start.
+_EARLY = np.geomspace(1e-3, 20.0, 200)
+
+
+def _roots(a: np.ndarray) -> np.ndarray:
+    """Roots of a monic polynomial: the quadratic formula for degree two, else numpy.roots."""
+    if a.size == 3:
+        d = np.sqrt(complex(a[1] * a[1] - 4.0 * a[2]))
+        q = -0.5 * (a[1] + (d if (np.conj(a[1]) * d).real >= 0 else -d))  # no cancellation
+        return np.array([q, a[2] / q]) if q != 0 else np.zeros(2, dtype=complex)
+    return np.roots(a)
+
+
+def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> StepResponse:
+    """Unit-step response of member ``i`` of a transfer function.
+
+    Parameters
+    ----------
+    h : Rational
+        The transfer function.
+    t_s : ndarray, optional
+        Times in seconds (ascending, from 0); :func:`default_time_grid` by default.
+
+    Returns
+    -------
+    StepResponse
+        The response, its slope and the largest ``|slope|`` (1/s, per volt of step), which also
+        looks at a fine grid of early times where a fast op-amp pole shapes the start.
+    """
+    b, a = h.to_s(i)
+    poles = _roots(a)
+    if t_s is None:
+        t_s = default_time_grid(poles)
+    listed = poles.tolist()
+    fast = max((abs(p) for p in listed if cmath.isfinite(p)), default=1.0)
+    t_all = np.concatenate([t_s, _EARLY / fast])
+    gap = min((abs(p - q) for k, p in enumerate(listed) for q in listed[k + 1 :]), default=np.inf)
+    if gap > 1e-5 * fast:
+        y, slope = _modal(b, a, t_all, poles)
+    else:
+        y, slope = _state_space(b, a, t_all)
+    n = t_s.size
+    return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.abs(slope).max()))
+
+
+def max_step_slope(h: Rational, *, i: int = 0) -> float:
+    """The largest ``|dy/dt|`` (1/s per volt of step) of member ``i``'s unit-step response.
+
+    For a stable pure second-order band-pass ``b1·p/(a2·p² + a1·p + a0)`` (``p = s/w_ref``) it is
+    ``|h(0+)| = |b1|·w_ref/a2`` exactly: the impulse response starts there and every later
+    extremum is smaller by ``e^(−ω0·t/(2Q))`` (derived beside the test of the step slew in
+    tests/test_requirements.py), which equals ``2π·BW·|G|``. Any other circuit:
+    :func:`step_response`'s ``max_slope_per_s``.
+    """
+    one = h.item(i)
+    num, den = one.num[0], one.den[0]
+    if den.size == 3 and num.size == 2 and num[1] == 0 and num[0] != 0:
+        a2, a1, a0 = den.tolist()
+        if (a2 > 0 and a1 > 0 and a0 > 0) or (a2 < 0 and a1 < 0 and a0 < 0):
+            return abs(float(num[0]) * float(h.w_ref[i]) / a2)
+    return step_response(h, i=i).max_slope_per_s

@@ -1,0 +1,1 @@
+"""The bench: measured responses, fitting parts to them, and the op-amp shelf with its checks."""

@@ -1,0 +1,1 @@
+"""Higher-order band-pass filters as chains of second-order stages."""

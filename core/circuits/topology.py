@@ -1,0 +1,129 @@
+"""What a circuit module declares: its parts, its netlist builder and its textbook formulas."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Callable, Mapping
+
+from bandsmith.common.errors import InputError
+from bandsmith.solver.netlist import Netlist
+
+__all__ = ["Component", "IdealFormulas", "Topology"]
+
+
+@dataclass(frozen=True, slots=True)
+class Component:
+    """One part of a circuit: reference, kind (``R``, ``L``, ``C``), role, and whether it is required.
+
+    Optional parts (an inductor's series resistance) default to ``default`` and may be zero.
+    """
+
+    ref: str
+    kind: str
+    role: str
+    required: bool = True
+    default: float = 0.0
+
+    def to_json(self) -> dict:
+        return {"ref": self.ref, "kind": self.kind, "role": self.role, "required": self.required}
+
+
+@dataclass(frozen=True, slots=True)
+class IdealFormulas:
+    """Textbook values for an ideal op-amp: f0 (Hz), Q and the signed centre gain (V/V)."""
+
+    f0_hz: float
+    q: float
+    gain: float
+
+
+@dataclass(frozen=True, slots=True)
+class Topology:
+    """A band-pass circuit known to Bandsmith.
+
+    Parameters
+    ----------
+    id : str
+        Command-line id (``rlc-tank``, ``mfb``, ``sallen-key``).
+    title : str
+        A readable name.
+    inverting : bool
+        True when the centre gain is negative.
+    components : tuple of Component
+        The parts, in display order.
+    example : mapping
+        A working set of part values (SI units).
+    build : callable
+        ``values -> Netlist`` for a complete, validated set of part values.
+    formulas : callable
+        ``values -> IdealFormulas``, the textbook figures (a cross-check, never the measurement).
+    synthesize : callable, optional
+        ``(target, fixed) -> dict`` of exact part values meeting a target (see ``bandsmith.design.designer``).
+    order : int
+        Position in listings.
+    notes : str
+        Design notes shown beside the circuit.
+    """
+
+    id: str
+    title: str
+    inverting: bool
+    components: tuple[Component, ...]
+    example: Mapping[str, float]
+    build: Callable[[Mapping[str, float]], Netlist]
+    formulas: Callable[[Mapping[str, float]], IdealFormulas]
+    synthesize: Callable | None = None
+    order: int = 100
+    notes: str = ""
+    refs: tuple[str, ...] = field(init=False)
+
+    def __post_init__(self):
+        object.__setattr__(self, "refs", tuple(c.ref for c in self.components))
+
+    def component(self, ref: str) -> Component:
+        for c in self.components:
+            if c.ref == ref:
+                return c
+        raise InputError(ref, f"{self.id} has no part {ref}; its parts are {', '.join(self.refs)}")
+
+    def values_from(self, given: Mapping[str, float]) -> dict[str, float]:
+        """Validate a set of part values (SI floats) and fill optional parts with their defaults.
+
+        Raises
+        ------
+        InputError
+            For an unknown part, a missing required part, a non-finite value, a required part at
+            zero or below, or an optional part below zero.
+        """
+        for ref in given:
+            self.component(ref)
+        out = {}
+        for c in self.components:
+            if c.ref not in given:
+                if c.required:
+                    raise InputError(c.ref, f"missing; {self.id} needs {', '.join(x.ref for x in self.components if x.required)}")
+                out[c.ref] = float(c.default)
+                continue
+            v = float(given[c.ref])
+            if not math.isfinite(v):
+                raise InputError(c.ref, f"{v!r} is not a finite number")
+            if c.required and v <= 0:
+                raise InputError(c.ref, f"must be greater than zero, got {v:g}")
+            if not c.required and v < 0:
+                raise InputError(c.ref, f"must be zero or more, got {v:g}")
+            out[c.ref] = v
+        return out
+
+    def netlist(self, given: Mapping[str, float]) -> Netlist:
+        """The netlist for a set of part values (validated first)."""
+        return self.build(self.values_from(given))
+
+    def to_json(self) -> dict:
+        return {
+            "id": self.id,
+            "title": self.title,
+            "inverting": self.inverting,
+            "components": [c.to_json() for c in self.components],
+            "example": {k: float(v) for k, v in self.example.items()},
+        }

@@ -1,0 +1,1 @@
+"""From a target to parts: candidates, design procedures, standard-value search, comparison."""

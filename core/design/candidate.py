@@ -1,0 +1,129 @@
+"""A candidate design: a circuit, its part values and the conditions it is analysed under.
+
+This is the unit the command line, sessions and the window share: typed text in, a validated
+candidate, an :class:`~bandsmith.analysis.analyzer.Analysis` out, and CONTRACT.md's JSON for it.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Mapping
+
+from bandsmith.analysis.analyzer import DEFAULT_A0, Analysis, Tolerances, analyze
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.solver.mna import OpAmpModel
+from bandsmith.solver.netlist import Netlist
+from bandsmith.circuits.topology import Topology
+from bandsmith.common.values import parse_value
+
+__all__ = ["Conditions", "Candidate", "parse_parts", "analysis_json"]
+
+
+@dataclass(frozen=True, slots=True)
+class Conditions:
+    """What a candidate is analysed under.
+
+    Parameters
+    ----------
+    gbw_hz : float, optional
+        The op-amp's gain-bandwidth in Hz; None analyses with an ideal op-amp only.
+    a0 : float
+        Open-loop gain (V/V) of the single-pole model and of the required-GBW search.
+    vin_v : float
+        Peak input amplitude (V).
+    rload_ohm : float, optional
+        A load from the output to ground (ohm).
+    tolerances : Tolerances
+        Limits of the required-GBW search.
+    """
+
+    gbw_hz: float | None = None
+    a0: float = DEFAULT_A0
+    vin_v: float = 1.0
+    rload_ohm: float | None = None
+    tolerances: Tolerances = field(default_factory=Tolerances)
+
+    def __post_init__(self):
+        checks = (("gbw", self.gbw_hz, True), ("a0", self.a0, False), ("vin", self.vin_v, False), ("rload", self.rload_ohm, True))
+        for name, v, optional in checks:
+            if v is None and optional:
+                continue
+            if v is None or not math.isfinite(v) or v <= 0:
+                raise InputError(name, f"must be a finite number above zero, got {v!r}")
+
+    @property
+    def opamp(self) -> OpAmpModel | None:
+        return None if self.gbw_hz is None else OpAmpModel(self.gbw_hz, self.a0)
+
+
+@dataclass(frozen=True, slots=True)
+class Candidate:
+    """A circuit with validated part values (SI units; optional parts filled in)."""
+
+    topology_id: str
+    values: Mapping[str, float]
+
+    def __post_init__(self):
+        object.__setattr__(self, "values", self.topology.values_from(dict(self.values)))
+
+    @property
+    def topology(self) -> Topology:
+        return get_topology(self.topology_id)
+
+    @property
+    def netlist(self) -> Netlist:
+        return self.topology.build(self.values)
+
+    def analyze(self, conditions: Conditions = Conditions()) -> Analysis:
+        """Analyse under ``conditions``.
+
+        Raises
+        ------
+        InputError
+            (field ``parts``) when the values give no band-pass response whose ideal figures and
+            sensitivities can be measured (a response flat or sharp beyond floating-point reach).
+        """
+        result = analyze(
+            self.netlist,
+            opamp=conditions.opamp,
+            vin_v=conditions.vin_v,
+            a0=conditions.a0,
+            rload_ohm=conditions.rload_ohm,
+            tolerances=conditions.tolerances,
+            parts=self.values,
+        )
+        sens = [x for by_ref in result.sensitivity.values() for x in by_ref.values()]
+        ideal = result.ideal.item()
+        if not (math.isfinite(ideal.f0_hz) and math.isfinite(ideal.q) and math.isfinite(ideal.gain_center_db)
+                and math.isfinite(ideal.f_low_hz) and math.isfinite(ideal.f_high_hz) and all(math.isfinite(x) for x in sens)):
+            raise InputError(
+                "parts",
+                f"these {self.topology_id} values give no band-pass peak that can be measured "
+                "(the response is far too flat or too sharp); check the values and their units",
+            )
+        return result
+
+
+def parse_parts(topology: Topology, assignments: Mapping[str, str | float]) -> dict[str, float]:
+    """Read typed part values (any notation of :mod:`bandsmith.common.values`) for a circuit.
+
+    Unknown references, missing required parts and values that are not numbers raise
+    :class:`InputError` naming the part.
+    """
+    out = {}
+    for ref, text in assignments.items():
+        topology.component(ref)
+        out[ref] = parse_value(text, field=ref)
+    return topology.values_from(out)
+
+
+def analysis_json(candidate: Candidate, analysis: Analysis) -> dict:
+    """CONTRACT.md's ANALYZE object."""
+    body = analysis.to_json()
+    return {
+        "topology": candidate.topology_id,
+        "components": {k: float(v) for k, v in candidate.values.items()},
+        **body,
+    }

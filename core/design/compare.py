@@ -1,0 +1,48 @@
+"""Every circuit designed for one target, side by side (CONTRACT.md's ``compare``)."""
+
+from __future__ import annotations
+
+from typing import Sequence
+
+from bandsmith.design.candidate import Conditions
+from bandsmith.circuits import all_topologies, get_topology
+from bandsmith.design.designer import DesignResult, Spec, design, design_json, spread_of
+from bandsmith.circuits.topology import Topology
+
+__all__ = ["compare", "compare_json", "part_count", "needs_inductor", "candidate_json"]
+
+
+def part_count(topology: Topology) -> int:
+    """Parts to buy: resistors, capacitors, inductors and op-amps (a winding resistance is not one)."""
+    comps = sum(1 for c in topology.components if c.required)
+    opamps = len(topology.build(topology.values_from(dict(topology.example))).opamps)
+    return comps + opamps
+
+
+def needs_inductor(topology: Topology) -> bool:
+    return any(c.kind == "L" for c in topology.components)
+
+
+def compare(spec: Spec, *, series: str = "E24", conditions: Conditions = Conditions(), width: int = 1) -> tuple[DesignResult, ...]:
+    """Design every circuit that has a design procedure for ``spec`` (see :func:`bandsmith.design.designer.design`)."""
+    return tuple(
+        design(t.id, spec, series=series, conditions=conditions, width=width)
+        for t in all_topologies()
+        if t.synthesize is not None
+    )
+
+
+def candidate_json(result: DesignResult) -> dict:
+    """One DESIGN object with ``spread``, ``part_count`` and ``needs_inductor``."""
+    topo = get_topology(result.topology_id)
+    out = design_json(result)
+    out["spread"] = spread_of(topo, result.chosen) if result.feasible else None
+    out["part_count"] = part_count(topo)
+    out["needs_inductor"] = needs_inductor(topo)
+    return out
+
+
+def compare_json(spec: Spec, results: Sequence[DesignResult]) -> dict:
+    """CONTRACT.md's compare object: ``{"spec": …, "candidates": [DESIGN + spread, …]}``."""
+    series = results[0].series if results else None
+    return {"spec": spec.to_json(), "series": series, "candidates": [candidate_json(r) for r in results]}

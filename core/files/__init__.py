@@ -1,0 +1,1 @@
+"""What Bandsmith writes and reads: session files and the exports of one candidate."""

@@ -1,0 +1,474 @@
+"""Transfer-function coefficients as polynomials in the part values, for very large batches.
+
+For a netlist whose every part stamps one parameter into the MNA pencil through a rank-one update
+(a resistor its conductance, a capacitor its capacitance, an inductor its inductance and winding
+resistance), ``D(s) = det(G + s·C)`` and the Cramer numerator ``N(s)`` are *multi-affine* in those
+parameters: of degree at most one in each. The op-amp parameters ``1/A0`` and ``1/ω_t`` are shared
+by the ``m`` op-amps of a netlist, so they appear with degree at most ``m``. Hence every
+coefficient of ``N`` and ``D`` is a fixed polynomial in the parameters,
+
+    D(s) = Σ_k s^k Σ_S c_{S,k} Π_i x_i^{S_i},
+
+with a few dozen monomials for a one-op-amp band-pass. :class:`Expansion` finds the ``c_{S,k}``
+once, exactly, by evaluating the pencil at the integer points ``x_i ∈ {0, 1, …, d_i}`` (every entry
+then is an integer, and the determinants are exact) and inverting the per-axis Vandermonde
+matrices; a batch of part values then costs one matrix product instead of one LU factorisation per
+trial and interpolation point. The result is checked against
+:func:`bandsmith.solver.rational.rational_from_system` on a few perturbed members when built; a netlist that
+does not fit the assumptions raises :class:`ExpansionUnavailable` and callers use the solver.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
+from bandsmith.solver.netlist import Netlist
+from bandsmith.solver.rational import Rational, rational_from_system
+
+__all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "MAX_POINTS"]
+
+# Largest number of integer points the expansion evaluates (2^14 for 14 one-degree parameters).
+MAX_POINTS = 1 << 14
+# Same rotation of the interpolation circle as bandsmith.solver.rational (no sample on a real pole).
+_ANGLE_OFFSET = 0.3771
+# Monomial coefficients below this fraction of the largest are rounding noise (they are integers).
+_ZERO = 1e-9
+# Largest relative disagreement with the solver accepted when the expansion is verified.
+_VERIFY_RTOL = 1e-8
+
+
+class ExpansionUnavailable(RuntimeError):
+    """The netlist does not fit the expansion (too many parameters, or a check failed)."""
+
+
+@dataclass(frozen=True, slots=True)
+class Variable:
+    """One parameter of the expansion.
+
+    Attributes
+    ----------
+    name : str
+        Part reference (``R1``, ``C2``, ``RL``), or ``"gbw"`` / ``"a0"`` for the op-amp.
+    kind : str
+        ``"R"`` (stamped as a conductance), ``"C"``, ``"L"``, ``"RS"`` (a winding's series
+        resistance), ``"gbw"`` (stamped as ``1/(2π·GBW)``) or ``"a0"`` (stamped as ``1/A0``).
+    value : float
+        The nominal value in SI units (ohm, F, H, Hz, V/V).
+    degree : int
+        Highest power of the parameter in the determinant (1, or the op-amp count).
+    """
+
+    name: str
+    kind: str
+    value: float
+    degree: int = 1
+
+    @property
+    def inverse(self) -> bool:
+        """True where the stamped parameter is the reciprocal of the value (R, GBW, A0)."""
+        return self.kind in ("R", "gbw", "a0")
+
+    def stamped(self, t: np.ndarray) -> np.ndarray:
+        """The part value whose stamp equals ``t`` (0 gives an absent stamp)."""
+        t = np.asarray(t, dtype=float)
+        with np.errstate(divide="ignore"):
+            if self.kind == "gbw":
+                return np.where(t == 0, np.inf, 1.0 / (2.0 * np.pi * np.where(t == 0, 1.0, t)))
+            if self.inverse:
+                return np.where(t == 0, np.inf, 1.0 / np.where(t == 0, 1.0, t))
+        return t
+
+    @property
+    def log_stamp(self) -> float:
+        """Natural log of the nominal stamped parameter."""
+        if self.kind == "gbw":
+            return -math.log(2.0 * math.pi * self.value)
+        return -math.log(self.value) if self.inverse else math.log(self.value)
+
+
+def circuit_variables(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Variable, ...]:
+    """The parameters of a netlist: every part with a value above zero, then the op-amp's.
+
+    Parts come in netlist order; an inductor's winding resistance follows under its
+    ``series_ref`` (or ``"<ref>.rs"``) when it is above zero. A finite op-amp adds ``gbw`` and
+    ``a0`` (degree: the number of op-amps).
+    """
+    out = []
+    for e in netlist.passives:
+        out.append(Variable(e.ref, e.kind, float(e.value)))
+        if e.kind == "L" and e.series_resistance > 0:
+            out.append(Variable(e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance)))
+    m = len(netlist.opamps)
+    if not opamp.ideal and m:
+        out.append(Variable("gbw", "gbw", float(opamp.gbw_hz), m))
+        out.append(Variable("a0", "a0", float(opamp.a0), m))
+    return tuple(out)
+
+
+def _system_for(netlist: Netlist, variables: tuple[Variable, ...], values: np.ndarray, opamp: OpAmpModel):
+    """The MNA system with the parameters set to the columns of ``values`` (B, n), SI units."""
+    overrides = {}
+    gbw = a0 = None
+    for j, v in enumerate(variables):
+        if v.kind == "gbw":
+            gbw = values[:, j]
+        elif v.kind == "a0":
+            a0 = values[:, j]
+        else:
+            overrides[v.name] = values[:, j]
+    return build_system(netlist, opamp, overrides=overrides, gbw_hz=gbw, a0=a0)
+
+
+@dataclass(frozen=True, slots=True)
+class _Fit:
+    """The value-independent part of an expansion: monomial exponents and integer-point
+    coefficients (ascending powers of ``s``, a common factor ``s^low`` removed)."""
+
+    exps: np.ndarray
+    den: np.ndarray
+    num: np.ndarray
+    low: int
+    num_powers: tuple[int, ...]
+    den_powers: tuple[int, ...]
+    factors: list
+    num_slots: list
+    den_slots: list
+    exps_f: np.ndarray
+
+
+# Structural fits by netlist structure (elements, nodes, which parameters are present): the
+# integer-point determinants do not depend on the part values, so a circuit pays for them once.
+_FITS: dict[tuple, _Fit] = {}
+
+
+def _unit_netlist(netlist: Netlist) -> Netlist:
+    """The same circuit with every part at 1 (ohm, henry, farad) and a present winding resistance
+    at 1 ohm: natural frequencies near 1 rad/s, where the solver is well conditioned."""
+    from dataclasses import replace
+
+    elements = tuple(
+        e if e.kind == "opamp" else replace(e, value=1.0, series_resistance=1.0 if e.series_resistance > 0 else 0.0)
+        for e in netlist.elements
+    )
+    return replace(netlist, elements=elements)
+
+
+def _structure_key(netlist: Netlist, variables: tuple[Variable, ...]) -> tuple:
+    elements = tuple((e.ref, e.kind, tuple(e.nodes), e.series_ref) for e in netlist.elements)
+    return (elements, netlist.ground, netlist.input, netlist.output,
+            tuple((v.name, v.kind, v.degree) for v in variables))
+
+
+def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: OpAmpModel, sizes: list[int]) -> _Fit:
+    n_var = len(sizes)
+    grid = np.indices(sizes).reshape(n_var, -1).T.astype(float)  # (P, n_var), integer points
+    values = np.column_stack([v.stamped(grid[:, j]) for j, v in enumerate(variables)])
+    system = _system_for(netlist, variables, values, opamp)
+    k = int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2)))) + 1
+    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
+    s = np.exp(1j * theta)
+    a = system.matrix(s)  # (P, k, n, n)
+    den_v = np.linalg.det(a)
+    a[..., :, system.output_index] = 0.0
+    a[..., system.layout.source_row, system.output_index] = 1.0
+    num_v = np.linalg.det(a)  # Cramer's rule: the output column replaced by the source vector
+    undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
+    den_c = (np.fft.fft(den_v, axis=1) / k * undo).real  # ascending powers of s
+    num_c = (np.fft.fft(num_v, axis=1) / k * undo).real
+    both = np.concatenate([den_c, num_c], axis=1).reshape(*sizes, 2 * k)
+    for axis, size in enumerate(sizes):  # per-axis Vandermonde: values at t = 0..d → powers
+        vinv = np.linalg.inv(np.vander(np.arange(size, dtype=float), size, increasing=True))
+        both = np.moveaxis(np.tensordot(vinv, both, axes=(1, axis)), 0, axis)
+    both = both.reshape(-1, 2 * k)
+    scale = np.max(np.abs(both))
+    if not scale > 0:
+        raise ExpansionUnavailable("the determinant vanishes identically")
+    both = np.where(np.abs(both) <= _ZERO * scale, 0.0, both)
+    keep = np.any(both != 0.0, axis=1)
+    exps = np.indices(sizes).reshape(n_var, -1).T[keep]  # (M, n_var) exponents
+    coef = both[keep]
+    den, num = coef[:, :k], coef[:, k:]
+    # Structural trimming: powers of s absent from every monomial.
+    den_pw = np.flatnonzero(np.any(den != 0, axis=0))
+    num_pw = np.flatnonzero(np.any(num != 0, axis=0))
+    if den_pw.size == 0 or num_pw.size == 0:
+        raise ExpansionUnavailable("no transfer from the input to the output")
+    low = int(min(den_pw[0], num_pw[0]))  # a common factor s^low cancels
+    den = den[:, low : den_pw[-1] + 1]
+    num = num[:, low : num_pw[-1] + 1]
+    num_powers = tuple(int(p) for p in np.flatnonzero(np.any(num != 0, axis=0)))
+    den_powers = tuple(int(p) for p in np.flatnonzero(np.any(den != 0, axis=0)))
+    return _Fit(
+        exps=exps, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers,
+        factors=[tuple((int(i), int(e)) for i, e in enumerate(row) if e) for row in exps],
+        num_slots=[(r, p, int(m)) for r, p in enumerate(num_powers) for m in np.flatnonzero(num[:, p])],
+        den_slots=[(r, p, int(m)) for r, p in enumerate(den_powers) for m in np.flatnonzero(den[:, p])],
+        exps_f=exps.astype(float),
+    )
+
+
+# Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
+# product with the term matrix; larger batches (Monte Carlo) use the loops, which stay clear of
+# BLAS threads.
+_SMALL_BATCH = 2048
+# log of a zero stamp: exp(-1e5·e) underflows to exactly 0 for every exponent e ≥ 1, while
+# 0·(-1e5) = 0 for the monomials without it.
+_LOG_ZERO = -1e5
+
+
+def _term_matrix(coef: np.ndarray, slots: list, rows: int) -> np.ndarray:
+    """(rows, M) matrix of the scaled coefficients: row = power slot, column = monomial."""
+    out = np.zeros((rows, coef.shape[0]))
+    for r, p, m in slots:
+        out[r, m] = coef[m, p]
+    return out
+
+
+def _dense_matrix(term: np.ndarray, powers: tuple[int, ...]) -> np.ndarray:
+    """(M, top + 1) matrix from monomials to the coefficients of every power, highest first."""
+    top = powers[-1]
+    out = np.zeros((term.shape[1], top + 1))
+    for r, p in enumerate(powers):
+        out[:, top - p] = term[r]
+    return out
+
+
+class Expansion:
+    """The coefficients of ``N`` and ``D`` of a netlist as polynomials in its parameters.
+
+    Parameters
+    ----------
+    netlist : Netlist
+        The circuit (its values are the nominal ones).
+    opamp : OpAmpModel
+        Ideal, or single-pole with the nominal GBW and A0.
+    w_ref : float
+        Normalising angular frequency (rad/s) of the returned :class:`~bandsmith.solver.rational.Rational`.
+
+    Raises
+    ------
+    ExpansionUnavailable
+        When the netlist has too many parameters (more than :data:`MAX_POINTS` integer points) or
+        the expansion disagrees with the solver.
+    """
+
+    def __init__(self, netlist: Netlist, opamp: OpAmpModel = IDEAL, *, w_ref: float):
+        self.netlist = netlist
+        self.opamp = opamp
+        self.w_ref = float(w_ref)
+        self.variables = circuit_variables(netlist, opamp)
+        self.names = tuple(v.name for v in self.variables)
+        sizes = [v.degree + 1 for v in self.variables]
+        if math.prod(sizes) > MAX_POINTS:
+            raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
+        key = _structure_key(netlist, self.variables)
+        fit = _FITS.get(key)
+        if fit is None:
+            _FITS[key] = fit = _structural_fit(netlist, self.variables, opamp, sizes)
+            # Checked once per structure, at unit values (well conditioned for the solver it is
+            # checked against): the integer fit does not depend on the values.
+            try:
+                Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)._verify()
+            except ExpansionUnavailable:
+                del _FITS[key]
+                raise
+        self._scale(fit)
+
+    # -- building -------------------------------------------------------------------------------
+    def _scale(self, fit: "_Fit") -> None:
+        """Scale the structural coefficients to the nominal values and to ``p = s/w_ref``."""
+        exps, den, num, low = fit.exps, fit.den, fit.num, fit.low
+        # in logs, so that nothing overflows
+        log_stamp = np.array([v.log_stamp for v in self.variables])
+        base = exps @ log_stamp  # (M,)
+        log_w = math.log(self.w_ref)
+        lden = base[:, None] + (np.arange(den.shape[1]) + low)[None, :] * log_w
+        lnum = base[:, None] + (np.arange(num.shape[1]) + low)[None, :] * log_w
+        shift = np.max(np.where(den != 0, lden, -np.inf))
+        den = np.where(den != 0, den * np.exp(np.minimum(lden - shift, 700.0)), 0.0)
+        num = np.where(num != 0, num * np.exp(np.minimum(lnum - shift, 700.0)), 0.0)
+        #: Powers of p present in the numerator and denominator (ascending).
+        self.num_powers = fit.num_powers
+        self.den_powers = fit.den_powers
+        self._factors = fit.factors
+        self._num_terms = [(r, m, float(num[m, p])) for r, p, m in fit.num_slots]
+        self._den_terms = [(r, m, float(den[m, p])) for r, p, m in fit.den_slots]
+        # For :meth:`dense_log`: exponents over the log *ratios* (an inverse parameter's stamp is
+        # the reciprocal: its column negated), the log ratio that makes a stamp absent, and term
+        # matrices onto every power of p, highest first.
+        sign = np.array([-1.0 if v.inverse else 1.0 for v in self.variables])
+        self._exps_ratio = np.ascontiguousarray((fit.exps_f * sign[None, :]).T)  # (n_var, M)
+        self._absent_log = _LOG_ZERO * sign
+        self._num_dense = _dense_matrix(_term_matrix(num, fit.num_slots, len(fit.num_powers)), self.num_powers)
+        self._den_dense = _dense_matrix(_term_matrix(den, fit.den_slots, len(fit.den_powers)), self.den_powers)
+        # the dense columns of the powers present (lowest first), for :meth:`coefficients`
+        self._num_cols = [self.num_powers[-1] - p for p in self.num_powers]
+        self._den_cols = [self.den_powers[-1] - p for p in self.den_powers]
+
+    def _verify(self) -> None:
+        rng = np.random.default_rng(20260101)
+        lr = np.vstack([np.zeros(len(self.variables)), rng.uniform(-0.1, 0.1, (3, len(self.variables)))])
+        for j, v in enumerate(self.variables):
+            if v.kind == "a0":
+                lr[:, j] = 0.0
+        mine = self.rational(np.exp(lr))
+        values = np.exp(lr) * np.array([v.value for v in self.variables])
+        ref = rational_from_system(_system_for(self.netlist, self.variables, values, self.opamp), self.w_ref)
+        p = 1j * np.geomspace(0.2, 5.0, 9)
+        a, b = mine.at_s(p * self.w_ref), ref.at_s(p * self.w_ref)
+        err = np.max(np.abs(a - b)) / max(np.max(np.abs(b)), 1e-300)
+        if not err <= _VERIFY_RTOL:
+            raise ExpansionUnavailable(f"disagrees with the solver by {err:.2g}")
+
+    # -- use ----------------------------------------------------------------------------------
+    def coefficients(self, ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """Numerator and denominator coefficients in ``p = s/w_ref`` for a batch of values.
+
+        Parameters
+        ----------
+        ratios : ndarray
+            Shape ``(B, len(variables))``: each parameter's value over its nominal value (a part's
+            value, the GBW, the open-loop gain).
+        absent : ndarray of bool, optional
+            Same shape: True where that parameter's stamp is zero in that member (an open
+            resistor, an infinite GBW or A0: the ideal op-amp); its ratio is then ignored.
+
+        Returns
+        -------
+        num, den : ndarray
+            Shape ``(len(num_powers), B)`` and ``(len(den_powers), B)`` — *lowest* power first and
+            the batch last (the layout the loops below fill fastest); a member with a ratio that
+            is not a finite number above zero is NaN throughout.
+
+        Notes
+        -----
+        Written as loops over the few monomials with whole-batch array operations, not as matrix
+        products: a BLAS product with an inner size of five runs slower than the loop and, on a
+        busy machine, its worker threads slow it down tenfold.
+        """
+        r = np.asarray(ratios, dtype=float)
+        b = r.shape[0]
+        if b <= _SMALL_BATCH:  # two small products (dense_log): fewer array calls than the loops below
+            with np.errstate(divide="ignore", invalid="ignore"):
+                num, den = self.dense_log(np.log(r), absent=absent)
+            return num[:, self._num_cols].T, den[:, self._den_cols].T
+        q = np.array(r.T, dtype=float, order="C")  # (n_var, B)
+        if absent is not None:
+            q[np.asarray(absent).T] = 1.0
+        bad = ~(np.isfinite(q) & (q > 0)).all(axis=0)
+        for j, v in enumerate(self.variables):
+            if v.inverse:
+                np.divide(1.0, q[j], out=q[j])
+        if absent is not None:
+            q[np.asarray(absent).T] = 0.0
+        mono = np.empty((len(self._factors), b))
+        for m, factors in enumerate(self._factors):
+            if not factors:
+                mono[m] = 1.0
+                continue
+            (i, e), rest = factors[0], factors[1:]
+            np.power(q[i], e, out=mono[m]) if e != 1 else np.copyto(mono[m], q[i])
+            for i, e in rest:
+                np.multiply(mono[m], q[i] if e == 1 else q[i] ** e, out=mono[m])
+        num = np.zeros((len(self.num_powers), b))
+        den = np.zeros((len(self.den_powers), b))
+        for out, terms in ((num, self._num_terms), (den, self._den_terms)):
+            for row, m, c in terms:
+                out[row] += c * mono[m]
+        if bad.any():
+            num[:, bad] = np.nan
+            den[:, bad] = np.nan
+        return num, den
+
+    def dense(
+        self, ratios: np.ndarray, *, absent: np.ndarray | None = None, w_ref: float | None = None
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """Numerator and denominator coefficients, batch first and every power of ``p = s/w_ref``
+        present, highest first: shapes ``(B, num_powers[-1] + 1)`` and ``(B, den_powers[-1] + 1)``.
+
+        ``ratios`` and ``absent`` as :meth:`coefficients` takes them; ``w_ref`` (rad/s) defaults
+        to the expansion's own. A member with a ratio that is not a finite number above zero is
+        NaN throughout. Up to :data:`_SMALL_BATCH` members this is ``exp(log ratios @ exponents)``
+        and one product per polynomial, about a dozen array calls in all.
+        """
+        r = np.asarray(ratios, dtype=float)
+        b = r.shape[0]
+        if b > _SMALL_BATCH:
+            num_c, den_c = self.coefficients(r, absent=absent)
+            num = np.zeros((b, self.num_powers[-1] + 1))
+            den = np.zeros((b, self.den_powers[-1] + 1))
+            num[:, [num.shape[1] - 1 - p for p in self.num_powers]] = num_c.T
+            den[:, [den.shape[1] - 1 - p for p in self.den_powers]] = den_c.T
+        else:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                lr = np.log(r)
+            num, den = self.dense_log(lr, absent=absent)
+        if w_ref is not None and w_ref != self.w_ref:
+            k = w_ref / self.w_ref  # c·(s/w_e)^n = c·k^n·(s/w_ref)^n
+            num *= k ** np.arange(num.shape[1] - 1, -1, -1.0)
+            den *= k ** np.arange(den.shape[1] - 1, -1, -1.0)
+        return num, den
+
+    def dense_log(self, log_ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`dense` from the natural logs of the ratios (any batch size, the expansion's
+        ``w_ref``): ``exp(log ratios @ exponents)`` and one product per polynomial."""
+        with np.errstate(invalid="ignore", over="ignore"):
+            lr = log_ratios if absent is None else np.where(absent, self._absent_log, log_ratios)
+            bad = ~np.isfinite(lr).all(axis=1)
+            mono = np.exp(lr @ self._exps_ratio)  # (B, M); an absent stamp gives exactly 0
+            num, den = mono @ self._num_dense, mono @ self._den_dense
+        if bad.any():
+            num[bad] = np.nan
+            den[bad] = np.nan
+        return num, den
+
+    def rational(self, ratios: np.ndarray, *, w_ref: float | None = None) -> Rational:
+        """Transfer functions for a batch of values given as ratios to the nominal ones.
+
+        Parameters
+        ----------
+        ratios : ndarray
+            Shape ``(B, len(variables))``, as :meth:`coefficients` takes.
+        w_ref : float, optional
+            Normalise to ``p = s/w_ref`` (rad/s) instead of the expansion's own ``w_ref``.
+
+        Returns
+        -------
+        Rational
+            Coefficients in ``p = s/w_ref``, highest power first, each member scaled so that its
+            largest denominator coefficient is ±1.
+        """
+        num, den = self.dense(ratios, w_ref=w_ref)
+        w = self.w_ref if w_ref is None else float(w_ref)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            scale = np.abs(den).max(axis=1, keepdims=True)
+            return Rational(num / scale, den / scale, np.full(num.shape[0], w))
+
+    @property
+    def pure_bandpass(self) -> bool:
+        """True when every member is ``b1·p / (a2·p² + a1·p + a0)``, a second-order band-pass."""
+        return self.num_powers == (1,) and self.den_powers == (0, 1, 2)
+
+
+_UNIT: dict[tuple, "Expansion"] = {}
+
+
+def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Expansion, tuple[Variable, ...]]:
+    """The expansion of this circuit's structure at unit values (1 Ω, 1 H, 1 F, and ``opamp``'s
+    GBW and A0) and ``w_ref = 1`` rad/s, kept per structure; and ``netlist``'s own variables.
+
+    Its ratios are then the values themselves (over ``opamp``'s for the op-amp variables), so one
+    expansion serves every set of values of a circuit without rescaling. Raises
+    :class:`ExpansionUnavailable` as :class:`Expansion` does.
+    """
+    variables = circuit_variables(netlist, opamp)
+    key = (_structure_key(netlist, variables), opamp)
+    exp = _UNIT.get(key)
+    if exp is None:
+        exp = Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)
+        _UNIT[key] = exp
+    return exp, variables

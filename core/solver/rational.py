@@ -1,0 +1,257 @@
+"""Transfer functions as ratios of polynomials, obtained from a netlist's MNA pencil.
+
+The transfer function of ``(G + s·C) x = b`` is ``H(s) = N(s)/D(s)`` with ``D = det(G + s·C)``
+and ``N = H·D`` (Cramer's rule). Both are polynomials of degree at most the number of reactive
+entries (capacitors, inductors, finite op-amps). They are found exactly by interpolation: sampled
+at ``K`` points on a circle of radius ``w_ref`` (rad/s) and transformed with a discrete Fourier
+transform. Coefficients are kept in the normalised variable ``p = s / w_ref`` so that they stay of
+order one, highest power first (numpy's convention).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg
+
+from bandsmith.solver.mna import MnaSystem
+
+__all__ = ["Rational", "OpAmpFamily", "rational_from_system", "rational_and_family", "reference_w", "polyval_batch"]
+
+# A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
+# double real pole at −w_ref).
+_ANGLE_OFFSET = 0.3771
+# Leading coefficients below this fraction of the largest are numerical zeros (degree drops).
+_TRIM = 1e-11
+# Any coefficient below this fraction of the largest is rounding noise (an exact zero at DC).
+_SNAP = 1e-13
+
+
+def polyval_batch(c: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """Evaluate polynomials ``c`` (shape ``(B, k)``, highest power first) at ``x`` (``(B, ...)``)."""
+    x = np.asarray(x)
+    cc = c if x.ndim == 1 else np.asarray(c).reshape(c.shape + (1,) * (x.ndim - 1))
+    k = cc.shape[1]
+    if k == 1:
+        return cc[:, 0] + np.zeros_like(x)
+    y = cc[:, 0] * x  # a new array: the steps below work in place
+    for i in range(1, k - 1):
+        y += cc[:, i]
+        y *= x
+    y += cc[:, k - 1]
+    return y
+
+
+def polyder_batch(c: np.ndarray) -> np.ndarray:
+    """Derivative of batched polynomials (highest power first)."""
+    k = c.shape[1]
+    if k == 1:
+        return np.zeros_like(c)
+    powers = np.arange(k - 1, 0, -1)
+    return c[:, :-1] * powers
+
+
+def polymul_batch(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Product of batched polynomials (highest power first); loops over degree, not batch."""
+    out = np.zeros((a.shape[0], a.shape[1] + b.shape[1] - 1), dtype=np.result_type(a, b))
+    for j in range(b.shape[1]):
+        out[:, j : j + a.shape[1]] += a * b[:, j : j + 1]
+    return out
+
+
+def _trim(c: np.ndarray) -> np.ndarray:
+    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    scale[scale == 0] = 1.0
+    c = np.where(np.abs(c) <= _SNAP * scale, 0.0, c)
+    small = np.all(np.abs(c) <= _TRIM * scale, axis=0)
+    first = int(np.argmin(small)) if not small.all() else c.shape[1] - 1
+    return c[:, first:]
+
+
+@dataclass(frozen=True, slots=True)
+class Rational:
+    """``H(s) = N(s/w_ref) / D(s/w_ref)``, batched.
+
+    Attributes
+    ----------
+    num, den : ndarray
+        Real coefficients in ``p = s/w_ref``, highest power first, shape ``(B, m)`` and ``(B, n)``.
+    w_ref : ndarray
+        Normalising angular frequency in rad/s, shape ``(B,)``.
+    """
+
+    num: np.ndarray
+    den: np.ndarray
+    w_ref: np.ndarray
+
+    @property
+    def batch(self) -> int:
+        return self.num.shape[0]
+
+    def at_s(self, s: np.ndarray) -> np.ndarray:
+        """``H`` at complex frequencies ``s`` (rad/s) of shape ``(F,)`` or ``(B, F)``: ``(B, F)``."""
+        s = np.asarray(s, dtype=complex)
+        if s.ndim == 1:
+            s = np.broadcast_to(s, (self.batch, s.size))
+        p = s / self.w_ref[:, None]
+        return polyval_batch(self.num, p) / polyval_batch(self.den, p)
+
+    def at_f(self, f_hz: np.ndarray) -> np.ndarray:
+        """Frequency response at frequencies in Hz: ``(B, F)`` complex."""
+        return self.at_s(2j * np.pi * np.asarray(f_hz, dtype=float))
+
+    def group_delay(self, f_hz: np.ndarray) -> np.ndarray:
+        """Group delay ``−dφ/dω`` in seconds at frequencies in Hz, exact from the polynomials: ``(B, F)``."""
+        w = 2.0 * np.pi * np.asarray(f_hz, dtype=float)
+        p = 1j * np.broadcast_to(w, (self.batch, w.size)) / self.w_ref[:, None]
+        dn = polyval_batch(polyder_batch(self.num), p) / polyval_batch(self.num, p)
+        dd = polyval_batch(polyder_batch(self.den), p) / polyval_batch(self.den, p)
+        # d(ln H)/dω = j·(N'/N − D'/D)/w_ref; the delay is minus the imaginary part of that.
+        return -np.real(dn - dd) / self.w_ref[:, None]
+
+    def item(self, i: int = 0) -> "Rational":
+        """The ``i``-th member of the batch, as a batch of one (leading zero coefficients dropped)."""
+        return Rational(_lead_trim(self.num[i : i + 1]), _lead_trim(self.den[i : i + 1]), self.w_ref[i : i + 1])
+
+    def take(self, index) -> "Rational":
+        """A sub-batch (a slice or index array)."""
+        return Rational(self.num[index], self.den[index], self.w_ref[index])
+
+    def to_s(self, i: int = 0) -> tuple[np.ndarray, np.ndarray]:
+        """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) for member ``i``, as scipy.signal uses."""
+        one = self.item(i)
+        num, den = one.num[0], one.den[0]
+        # powers of 1/w_ref, highest first: p = s/w_ref turns c_k·p^k into (c_k/w_ref^k)·s^k
+        scale = float(self.w_ref[i]) ** -np.arange(max(num.size, den.size) - 1, -1, -1.0)
+        b = num * scale[scale.size - num.size :]
+        a = den * scale[scale.size - den.size :]
+        return b / a[0], a / a[0]
+
+    def poles(self, i: int = 0) -> np.ndarray:
+        """Poles in rad/s of member ``i``."""
+        return np.roots(self.item(i).den[0]) * self.w_ref[i]
+
+    def zeros(self, i: int = 0) -> np.ndarray:
+        """Finite zeros in rad/s of member ``i``."""
+        num = self.item(i).num[0]
+        return np.roots(num) * self.w_ref[i] if num.size > 1 else np.zeros(0)
+
+
+def reference_w(system: MnaSystem) -> float:
+    """A natural angular frequency (rad/s) of the first member: geometric mean of its finite poles.
+
+    Used to normalise polynomial coefficients; an ideal-op-amp second-order band-pass gives ω0.
+    """
+    ev = scipy.linalg.eigvals(system.G[0], -system.C[0])
+    mag = np.abs(ev[np.isfinite(ev)])
+    mag = mag[(mag > 0) & (mag < 1e300)]
+    if mag.size == 0:
+        return 1.0
+    return float(np.exp(np.mean(np.log(mag))))
+
+
+def _degree_bound(system: MnaSystem) -> int:
+    """Rows of C with an entry in any member: the degree of ``det(G + s·C)`` is at most that."""
+    return int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2))))
+
+
+def _lead_trim(c: np.ndarray) -> np.ndarray:
+    """Drop leading columns that are zero in every row (keeps at least one column)."""
+    if c.shape[1] < 2 or c[:, 0].any():
+        return c
+    nz = np.flatnonzero((c != 0).any(axis=0))
+    return c[:, nz[0] :] if nz.size else c[:, -1:]
+
+
+def _coefficients(values: np.ndarray, k: int) -> np.ndarray:
+    """Polynomial coefficients (highest first) from values at the ``k`` rotated points of the circle.
+
+    ``v_j = Σ_k c_k e^{ikθ_j}``: an FFT gives ``c_k·e^{ik·offset}``, ascending powers.
+    """
+    undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
+    return (np.fft.fft(values, axis=1) / k * undo).real[:, ::-1]
+
+
+def _samples(system: MnaSystem, w: np.ndarray) -> tuple[int, np.ndarray]:
+    k = _degree_bound(system) + 1
+    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
+    return k, system.matrix(w[:, None] * np.exp(1j * theta)[None, :])
+
+
+def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = None) -> Rational:
+    """Exact rational transfer function of a batched MNA system.
+
+    Parameters
+    ----------
+    system : MnaSystem
+        The pencil ``G + s·C`` with its batch.
+    w_ref : float or ndarray, optional
+        Normalising angular frequency (rad/s), scalar or ``(B,)``; by default
+        :func:`reference_w` of the first member.
+    """
+    return _rational_and_family(system, w_ref, family=False)[0]
+
+
+@dataclass(frozen=True, slots=True)
+class OpAmpFamily:
+    """A one-op-amp circuit's transfer function for every single-pole op-amp at once.
+
+    The op-amp's row holds ``−(1/A0 + s/ωt)`` in the output node's column and nothing else
+    depends on the op-amp, so by expanding the determinant along that row
+    ``D(s) = D0(s) − (1/A0 + s/ωt)·M(s)``, with ``D0`` the ideal-op-amp determinant and ``M`` the
+    signed cofactor of that entry; the numerator (Cramer's rule replaces the output column) does
+    not depend on the op-amp at all. Coefficients in ``p = s/w_ref``, highest first.
+    """
+
+    num: np.ndarray
+    d0: np.ndarray
+    cofactor: np.ndarray
+    w_ref: float
+
+    def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
+        """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s)."""
+        gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
+        alpha = 1.0 / np.asarray(a0, dtype=float)
+        alpha = alpha[:, None] if alpha.ndim else alpha
+        beta = self.w_ref / (2.0 * np.pi * gbw)
+        n = max(self.d0.size, self.cofactor.size + 1)
+        d0 = np.zeros(n)
+        d0[n - self.d0.size :] = self.d0
+        m = np.zeros(n)
+        m[n - self.cofactor.size :] = self.cofactor
+        mp = np.zeros(n)  # M(p)·p
+        mp[n - self.cofactor.size - 1 : n - 1] = self.cofactor
+        den = d0[None, :] - alpha * m[None, :] - beta[:, None] * mp[None, :]
+        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        return Rational(self.num[None, :] / scale, den / scale, np.full(gbw.size, self.w_ref))
+
+
+def rational_and_family(system: MnaSystem, w_ref: float) -> tuple[Rational, OpAmpFamily | None]:
+    """:func:`rational_from_system` of an ideal-op-amp system, and the :class:`OpAmpFamily` of its
+    first member (None unless the netlist has exactly one op-amp), from the same samples."""
+    return _rational_and_family(system, w_ref, family=True)
+
+
+def _rational_and_family(system: MnaSystem, w_ref, *, family: bool) -> tuple[Rational, OpAmpFamily | None]:
+    if w_ref is None:
+        w_ref = reference_w(system)
+    w = np.broadcast_to(np.asarray(w_ref, dtype=float), (system.batch,))
+    k, a = _samples(system, w)
+    den_v = np.linalg.det(a)
+    b = np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None]
+    h = np.linalg.solve(a, b)[..., system.output_index, 0]
+    num_v = h * den_v
+    den_c = _trim(_coefficients(den_v, k))
+    num_c = _trim(_coefficients(num_v, k))
+    scale = np.max(np.abs(den_c), axis=1, keepdims=True)
+    rational = Rational(num_c / scale, den_c / scale, np.array(w, dtype=float))
+    fam = None
+    rows = list(system.layout.opamp_row.values())
+    if family and len(rows) == 1:
+        r, c = rows[0], system.output_index
+        minor = np.delete(np.delete(a[0], r, axis=-2), c, axis=-1)
+        cof = (-1.0) ** (r + c) * _coefficients(np.linalg.det(minor)[None, :], k)
+        cof = _trim(cof)[0] / scale[0, 0]
+        fam = OpAmpFamily(_lead_trim(num_c[:1])[0] / scale[0, 0], _lead_trim(den_c[:1])[0] / scale[0, 0], cof, float(w[0]))
+    return rational, fam

@@ -1,0 +1,1 @@
+"""Tolerance spread: Monte Carlo trials, yield, worst case and magnitude envelopes."""
