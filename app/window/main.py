@@ -42,10 +42,10 @@ def build_window(path: str | None = None, *, prompter=None, settings=None, recov
 
 
 def run_window(path: str | None) -> int:
-    """Open the workbench window and run until it closes; returns the exit status."""
-    if "QT_QPA_PLATFORM" not in os.environ and sys.platform.startswith("linux"):
-        if not (os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY")):
-            os.environ["QT_QPA_PLATFORM"] = "offscreen"
+    """Open the workbench window and run until it closes; returns the exit status.
+
+    The caller has checked the display (:func:`bandsmith.app.entry.display_problem`).
+    """
     from PySide6 import QtCore, QtWidgets
 
     app = QtWidgets.QApplication.instance() or QtWidgets.QApplication(sys.argv[:1] or ["bandsmith"])
