@@ -230,6 +230,44 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         outer = QtWidgets.QVBoxLayout(self)
         outer.setContentsMargins(6, 6, 6, 6)
         outer.setSpacing(4)
+        self._build_banner(outer)
+        self._build_supply_bar(outer)
+
+        split = QtWidgets.QSplitter(QtCore.Qt.Orientation.Horizontal, self)
+        split.setChildrenCollapsible(False)
+        outer.addWidget(split, 1)
+
+        left = QtWidgets.QWidget(split)
+        ll = QtWidgets.QVBoxLayout(left)
+        ll.setContentsMargins(0, 0, 0, 0)
+        self._build_verdict_table(left, ll)
+        self._build_shelf_editor(left, ll)
+        self._build_shelf_buttons(left, ll)
+
+        right = QtWidgets.QWidget(split)
+        rl = QtWidgets.QVBoxLayout(right)
+        rl.setContentsMargins(0, 0, 0, 0)
+        self._build_detail(right, rl)
+        self._build_headroom(right, rl)
+        split.addWidget(left)
+        split.addWidget(right)
+        split.setStretchFactor(0, 3)
+        split.setStretchFactor(1, 2)
+        right.setMinimumWidth(320)
+        split.setSizes([740, 540])
+        self.splitter = split
+
+        self.shelf.changed.connect(self._on_shelf_changed)
+        self.shelf.modified_changed.connect(lambda _m: self._show_file())
+        state.session_changed.connect(self._on_session_changed)
+        state.analyses_changed.connect(self.mark_dirty)
+        self.book.chosen_changed.connect(self._on_book_chosen)
+        self._fill_editor()
+        self._show_file()
+        self._on_session_changed(state.session)
+
+    def _build_banner(self, outer: QtWidgets.QVBoxLayout) -> None:
+        """The warning line shown when the shelf file could not be read as it was."""
         self.banner = QtWidgets.QLabel(self)
         self.banner.setObjectName("shelfWarning")
         self.banner.setWordWrap(True)
@@ -238,6 +276,8 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.banner.setText(f"⚠ {self.shelf.warning}" if self.shelf.warning else "")
         outer.addWidget(self.banner)
 
+    def _build_supply_bar(self, outer: QtWidgets.QVBoxLayout) -> None:
+        """The supply field (±V, kept in the session) and the line of conditions beside it."""
         bar = QtWidgets.QHBoxLayout()
         bar.addWidget(QtWidgets.QLabel("Supply ±", self))
         self.supply = ValueField(
@@ -254,13 +294,8 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         bar.addWidget(self.conditions, 1)
         outer.addLayout(bar)
 
-        split = QtWidgets.QSplitter(QtCore.Qt.Orientation.Horizontal, self)
-        split.setChildrenCollapsible(False)
-        outer.addWidget(split, 1)
-
-        left = QtWidgets.QWidget(split)
-        ll = QtWidgets.QVBoxLayout(left)
-        ll.setContentsMargins(0, 0, 0, 0)
+    def _build_verdict_table(self, left: QtWidgets.QWidget, ll: QtWidgets.QVBoxLayout) -> None:
+        """The verdict board: one row per shelf model, one column per active candidate."""
         t = QtWidgets.QLabel("Verdicts — op-amps on the shelf against each active candidate (click one to see it)", left)
         t.setObjectName("sectionTitle")
         t.setWordWrap(True)
@@ -275,6 +310,8 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.verdicts.setItemDelegate(_FramedSelection(self.verdicts))
         ll.addWidget(self.verdicts, 2)
 
+    def _build_shelf_editor(self, left: QtWidgets.QWidget, ll: QtWidgets.QVBoxLayout) -> None:
+        """The shelf editor (one row per model, every figure editable) and its error line."""
         t = QtWidgets.QLabel("Shelf — your op-amp models (edit a cell; type values as 10M, 200k, 0.5)", left)
         t.setObjectName("sectionTitle")
         t.setWordWrap(True)
@@ -290,6 +327,9 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         ll.addWidget(self.editor, 3)
         self.editor_error = error_label(left)
         ll.addWidget(self.editor_error)
+
+    def _build_shelf_buttons(self, left: QtWidgets.QWidget, ll: QtWidgets.QVBoxLayout) -> None:
+        """Add, duplicate, remove, restore and save buttons under the editor, and the shelf file's line."""
         buttons = QtWidgets.QGridLayout()  # two rows, so the pane stays narrow enough beside the board
         self.btn_add = QtWidgets.QPushButton("Add model", left)
         self.btn_dup = QtWidgets.QPushButton("Duplicate", left)
@@ -322,9 +362,8 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.btn_restore.clicked.connect(self.shelf.restore_archetypes)
         self.btn_save.clicked.connect(self.save_shelf)
 
-        right = QtWidgets.QWidget(split)
-        rl = QtWidgets.QVBoxLayout(right)
-        rl.setContentsMargins(0, 0, 0, 0)
+    def _build_detail(self, right: QtWidgets.QWidget, rl: QtWidgets.QVBoxLayout) -> None:
+        """The chosen pair's title and reasons, and its magnitude with an ideal and with the chosen op-amp."""
         self.detail_title = QtWidgets.QLabel("Choose a verdict on the left", right)
         self.detail_title.setObjectName("detailTitle")
         self.detail_title.setTextFormat(QtCore.Qt.TextFormat.RichText)
@@ -346,6 +385,9 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.curve_ideal = self.plot.plot([], [], name="ideal op-amp")
         self.curve_amp = self.plot.plot([], [], name="with the chosen op-amp")
         rl.addWidget(self.plot, 2)
+
+    def _build_headroom(self, right: QtWidgets.QWidget, rl: QtWidgets.QVBoxLayout) -> None:
+        """The chosen pair's headroom table, its largest input and the Copy to session button."""
         t = QtWidgets.QLabel("Headroom at the input level", right)
         t.setObjectName("sectionTitle")
         t.setWordWrap(True)
@@ -367,22 +409,6 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.btn_copy.setEnabled(False)
         self.btn_copy.clicked.connect(self.copy_to_session)
         rl.addWidget(self.btn_copy, 0, QtCore.Qt.AlignmentFlag.AlignLeft)
-        split.addWidget(left)
-        split.addWidget(right)
-        split.setStretchFactor(0, 3)
-        split.setStretchFactor(1, 2)
-        right.setMinimumWidth(320)
-        split.setSizes([740, 540])
-        self.splitter = split
-
-        self.shelf.changed.connect(self._on_shelf_changed)
-        self.shelf.modified_changed.connect(lambda _m: self._show_file())
-        state.session_changed.connect(self._on_session_changed)
-        state.analyses_changed.connect(self.mark_dirty)
-        self.book.chosen_changed.connect(self._on_book_chosen)
-        self._fill_editor()
-        self._show_file()
-        self._on_session_changed(state.session)
 
     # ------------------------------------------------------------------ reading
     @property
