@@ -2,6 +2,7 @@
 
 import pytest
 from numpy.testing import assert_allclose
+from PySide6 import QtCore
 
 from bandsmith.app.window.demo import demo_session
 from bandsmith.app.window.state import WorkbenchState
@@ -76,3 +77,37 @@ def test_opamp_change_reanalyses_with_finite_gbw(state):
     res = next(iter(state.results.values()))
     assert res.conditions.gbw_hz == 1e5
     assert res.analysis.actual is not None
+
+
+def test_the_adapter_re_emits_the_document_as_qt_signals(state):
+    seen = []
+    state.session_changed.connect(lambda s: seen.append(("session", s)))
+    state.analyses_changed.connect(lambda: seen.append(("analyses", None)))
+    state.clean_changed.connect(lambda c: seen.append(("clean", c)))
+    state.path_changed.connect(lambda p: seen.append(("path", p)))
+    cid = _first(state).id
+    assert state.document.session is state.session
+    state.set_pinned(cid, not _first(state).pinned)
+    assert seen == [("session", state.session), ("analyses", None), ("clean", False)]
+    seen.clear()
+    state.mark_saved("/tmp/adapter.bandsmith.json")
+    assert seen[0] == ("path", "/tmp/adapter.bandsmith.json")
+    assert set(seen[1:]) == {("clean", True)}  # told at least once, never anything else
+    assert state.is_clean
+
+
+def test_undo_and_redo_actions_follow_the_plain_history(state):
+    parent = QtCore.QObject()
+    undo = state.undo_stack.createUndoAction(parent, "&Undo")
+    redo = state.undo_stack.createRedoAction(parent, "&Redo")
+    assert (undo.isEnabled(), undo.text(), redo.isEnabled(), redo.text()) == (False, "&Undo", False, "&Redo")
+    cid = _first(state).id
+    state.set_enabled(cid, False)
+    assert undo.isEnabled() and undo.text() == f"&Undo switch {cid} off"
+    undo.trigger()
+    assert _first(state).enabled and not undo.isEnabled()
+    assert redo.isEnabled() and redo.text() == f"&Redo switch {cid} off"
+    redo.trigger()
+    assert not _first(state).enabled
+    del parent  # the actions go with their parent; a later edit must not touch them
+    state.set_enabled(cid, True)

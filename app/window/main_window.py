@@ -129,37 +129,8 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         self.keeper = RecoveryKeeper(state, parent=self) if recovery else None
         self.setStyleSheet(STYLE_SHEET)
 
-        self.target_strip = TargetStrip(state, self)
-        self.board = CandidatesBoard(state, self)
-        self.plot_grid = PlotGrid(state, self)
-        self.panes = PaneTabs(self)
-        self.panes.setObjectName("panes")
-        self.panes.setDocumentMode(True)
-        self.panes.addTab(self.plot_grid, "Responses")
-        self.splitter = QtWidgets.QSplitter(QtCore.Qt.Orientation.Horizontal, self)
-        self.splitter.addWidget(self.board)
-        self.splitter.addWidget(self.panes)
-        self.splitter.setStretchFactor(0, 0)
-        self.splitter.setStretchFactor(1, 1)
-        self.splitter.setChildrenCollapsible(False)
-        self.panes.currentChanged.connect(self._on_pane_changed)
-        central = QtWidgets.QWidget(self)
-        lay = QtWidgets.QVBoxLayout(central)
-        lay.setContentsMargins(0, 0, 0, 0)
-        lay.setSpacing(0)
-        lay.addWidget(self.target_strip)
-        lay.addWidget(self.splitter, 1)
-        self.setCentralWidget(central)
-
-        self.cursor_label = QtWidgets.QLabel(self)
-        self.cursor_label.setObjectName("cursorReadout")
-        self.cursor_label.setMinimumWidth(360)
-        self.job_status = JobStatus(self)
-        self.statusBar().addWidget(self.cursor_label)
-        self.statusBar().addPermanentWidget(self.job_status)
-        self.plot_grid.cursor_text.connect(self.cursor_label.setText)
-        state.notice.connect(lambda text: self.statusBar().showMessage(text, 8000))
-
+        self._build_central()
+        self._build_status_bar()
         self._build_menus()
         state.path_changed.connect(self._on_path_changed)
         state.clean_changed.connect(self._on_clean_changed)
@@ -184,6 +155,41 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         from bandsmith.app.window.panes.chain_pane import install as install_chain_pane
 
         install_chain_pane(self)
+
+    def _build_central(self) -> None:
+        """The target strip above the candidates board and, beside it, the pane tabs (Responses first)."""
+        self.target_strip = TargetStrip(self.state, self)
+        self.board = CandidatesBoard(self.state, self)
+        self.plot_grid = PlotGrid(self.state, self)
+        self.panes = PaneTabs(self)
+        self.panes.setObjectName("panes")
+        self.panes.setDocumentMode(True)
+        self.panes.addTab(self.plot_grid, "Responses")
+        self.splitter = QtWidgets.QSplitter(QtCore.Qt.Orientation.Horizontal, self)
+        self.splitter.addWidget(self.board)
+        self.splitter.addWidget(self.panes)
+        self.splitter.setStretchFactor(0, 0)
+        self.splitter.setStretchFactor(1, 1)
+        self.splitter.setChildrenCollapsible(False)
+        self.panes.currentChanged.connect(self._on_pane_changed)
+        central = QtWidgets.QWidget(self)
+        lay = QtWidgets.QVBoxLayout(central)
+        lay.setContentsMargins(0, 0, 0, 0)
+        lay.setSpacing(0)
+        lay.addWidget(self.target_strip)
+        lay.addWidget(self.splitter, 1)
+        self.setCentralWidget(central)
+
+    def _build_status_bar(self) -> None:
+        """The plot cursor's read-out, background jobs, and the state's notices (for 8 s)."""
+        self.cursor_label = QtWidgets.QLabel(self)
+        self.cursor_label.setObjectName("cursorReadout")
+        self.cursor_label.setMinimumWidth(360)
+        self.job_status = JobStatus(self)
+        self.statusBar().addWidget(self.cursor_label)
+        self.statusBar().addPermanentWidget(self.job_status)
+        self.plot_grid.cursor_text.connect(self.cursor_label.setText)
+        self.state.notice.connect(lambda text: self.statusBar().showMessage(text, 8000))
 
     # ------------------------------------------------------------------ building
     def _action(self, text: str, name: str, slot, shortcut=None, tip: str = "") -> QtGui.QAction:

@@ -1,44 +1,32 @@
-"""The workbench's state: the session document, its file, its undo history and the analyses.
+"""The workbench's state for the window: a thin QObject over the plain-Python document model.
 
-The document is an immutable :class:`bandsmith.files.session.Session`. Views never change it in place: an
-edit builds a new Session (``dataclasses.replace``) and goes through :meth:`WorkbenchState.edit`,
-which pushes a :class:`~bandsmith.app.window.commands.SessionEdit` on the undo stack. Applying a document
-re-analyses every active candidate (through :class:`~bandsmith.app.document.results.ResultCache`, so only
-changed ones cost anything) and emits, in order, ``session_changed`` and ``analyses_changed``.
+The document, its undo history and the analyses live in :class:`bandsmith.app.document.model.Document`
+(no Qt). :class:`WorkbenchState` re-emits the document's notifications as Qt signals, hands out its
+history as :attr:`WorkbenchState.undo_stack` (undo/redo and the Edit menu's actions, see
+:class:`~bandsmith.app.window.commands.UndoStack`) and adds what only the window needs: each
+candidate's drawing style. Reading and editing are passed through unchanged.
 
 Views subscribe to the signals and write to the state only on user input.
 """
 
 from __future__ import annotations
 
-import math
-from dataclasses import replace
 from typing import Mapping
 
 from PySide6 import QtCore
-from PySide6.QtGui import QUndoStack
 
-from bandsmith.design.candidate import Candidate
-from bandsmith.common.eseries import nearest
-from bandsmith.common.errors import InputError
-from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target
-from bandsmith.common.values import format_value
+from bandsmith.files.session import OpAmpSpec, Session
 
-from bandsmith.app.window.commands import SessionEdit
-from bandsmith.app.document.results import CandidateResult, ResultCache
+from bandsmith.app.document.model import UNITS, Document, entry_kind, part_unit, target_from_bandwidth
+from bandsmith.app.document.results import CandidateResult
+from bandsmith.app.window.commands import UndoStack
 from bandsmith.app.window.theme import CandidateStyle, candidate_style
 
-__all__ = ["WorkbenchState", "UNITS", "part_unit"]
-
-UNITS = {"R": "Ω", "C": "F", "L": "H"}
-
-
-def part_unit(kind: str) -> str:
-    return UNITS.get(kind, "")
+__all__ = ["WorkbenchState", "UNITS", "part_unit", "entry_kind", "target_from_bandwidth", "OpAmpSpec"]
 
 
 class WorkbenchState(QtCore.QObject):
-    """The document and everything derived from it.
+    """The document and everything derived from it, with Qt signals.
 
     Signals
     -------
@@ -65,279 +53,88 @@ class WorkbenchState(QtCore.QObject):
 
     def __init__(self, session: Session, path: str | None = None, parent: QtCore.QObject | None = None):
         super().__init__(parent)
-        self._session = session
-        self._path = path or ""
-        self._cache = ResultCache()
-        self._results: dict[str, CandidateResult] = {}
-        self._styles: dict[str, int] = {}
-        self._current = ""
-        self._forced_dirty = False
-        self.undo_stack = QUndoStack(self)
-        self.undo_stack.cleanChanged.connect(self._on_stack_clean_changed)
-        self._assign_styles()
-        self._pick_current()
-        self._analyse()
+        self.document = Document(session, path)
+        self.undo_stack = UndoStack(self.document.history, self)
+        for name in ("session_changed", "analyses_changed", "path_changed", "clean_changed", "current_changed", "notice"):
+            getattr(self.document, name).connect(getattr(self, name).emit)
 
     # ------------------------------------------------------------------ reading
     @property
     def session(self) -> Session:
-        return self._session
+        return self.document.session
 
     @property
     def path(self) -> str:
-        return self._path
+        return self.document.path
 
     @property
     def results(self) -> Mapping[str, CandidateResult]:
         """Results of the enabled candidates, by candidate id, in session order."""
-        return self._results
+        return self.document.results
 
     @property
     def current_id(self) -> str:
-        return self._current
+        return self.document.current_id
 
     @property
     def is_clean(self) -> bool:
-        return self.undo_stack.isClean() and not self._forced_dirty
+        return self.document.is_clean
 
     def style(self, candidate_id: str) -> CandidateStyle:
         """The colour, line style and symbol of a candidate (stable while it exists)."""
-        return candidate_style(self._styles.get(candidate_id, 0))
+        return candidate_style(self.document.style_index(candidate_id))
 
     def result(self, candidate_id: str) -> CandidateResult | None:
-        return self._results.get(candidate_id)
+        return self.document.result(candidate_id)
 
     # ------------------------------------------------------------------ whole documents
     def replace_document(self, session: Session, path: str | None, *, clean: bool = True) -> None:
         """Start over with another document (New, Open, a restored recovery copy): history cleared."""
-        was_clean = self.is_clean
-        self.undo_stack.clear()
-        self.undo_stack.setClean()
-        self._forced_dirty = not clean
-        self._cache = ResultCache()
-        self._styles = {}
-        self._current = ""
-        self._set_path(path or "")
-        self._apply(session)
-        if was_clean != self.is_clean:
-            self.clean_changed.emit(self.is_clean)
+        self.document.replace_document(session, path, clean=clean)
 
     def mark_saved(self, path: str) -> None:
         """The document was written to ``path``: it is now clean."""
-        self._set_path(path)
-        was_clean = self.is_clean
-        self._forced_dirty = False
-        self.undo_stack.setClean()
-        if not was_clean:
-            self.clean_changed.emit(True)
+        self.document.mark_saved(path)
 
-    # ------------------------------------------------------------------ edits (undoable)
+    # ------------------------------------------------------------------ edits (undoable; see Document)
     def edit(self, after: Session, text: str) -> None:
-        """Make ``after`` the document, undoably. A no-op when nothing changed."""
-        if after == self._session:
-            return
-        self.undo_stack.push(SessionEdit(self, self._session, after, text))
+        self.document.edit(after, text)
 
     def set_extra(self, key: str, value, text: str) -> None:
-        """Set one section of ``session.extras`` (a plain JSON value), undoably; None removes it."""
-        extras = dict(self._session.extras)
-        if value is None:
-            extras.pop(key, None)
-        else:
-            extras[key] = value
-        self.edit(replace(self._session, extras=extras), text)
+        self.document.set_extra(key, value, text)
 
     def set_part(self, candidate_id: str, ref: str, value: float) -> None:
-        """Set one part (SI units); snapped to the candidate's series when it has one."""
-        entry = self._session.candidate(candidate_id)
-        kind = entry_kind(entry, ref)
-        if entry.snap and value > 0:
-            value = nearest(value, entry.snap)
-        values = dict(entry.values)
-        values[ref] = value
-        new = replace(entry, values=values)  # validated by CandidateEntry
-        self.edit(self._session.with_candidate(new), f"{ref} of {candidate_id} = {format_value(value, part_unit(kind))}")
+        self.document.set_part(candidate_id, ref, value)
 
     def set_fixed(self, candidate_id: str, ref: str, fixed: bool) -> None:
-        """Keep (or free) a part when the candidate is redesigned."""
-        entry = self._session.candidate(candidate_id)
-        refs = [r for r in entry.fixed if r != ref] + ([ref] if fixed else [])
-        new = replace(entry, fixed=tuple(refs))
-        self.edit(self._session.with_candidate(new), f"{'keep' if fixed else 'free'} {ref} of {candidate_id}")
+        self.document.set_fixed(candidate_id, ref, fixed)
 
     def set_enabled(self, candidate_id: str, enabled: bool) -> None:
-        entry = self._session.candidate(candidate_id)
-        self.edit(self._session.with_candidate(replace(entry, enabled=enabled)), f"switch {candidate_id} {'on' if enabled else 'off'}")
+        self.document.set_enabled(candidate_id, enabled)
 
     def set_pinned(self, candidate_id: str, pinned: bool) -> None:
-        entry = self._session.candidate(candidate_id)
-        self.edit(self._session.with_candidate(replace(entry, pinned=pinned)), f"{'pin' if pinned else 'unpin'} {candidate_id}")
+        self.document.set_pinned(candidate_id, pinned)
 
     def set_snap(self, candidate_id: str, series: str | None) -> None:
-        """Snap every part of a candidate to ``series`` (None: keep exact values from now on)."""
-        entry = self._session.candidate(candidate_id)
-        values = dict(entry.values)
-        if series:
-            values = {r: (nearest(v, series) if v > 0 else v) for r, v in values.items()}
-        new = replace(entry, snap=series, values=values)
-        self.edit(self._session.with_candidate(new), f"{candidate_id}: {'snap to ' + series if series else 'exact values'}")
+        self.document.set_snap(candidate_id, series)
 
     def duplicate(self, candidate_id: str) -> str:
-        """Add a copy of a candidate right after it (to try a variant); returns the new id."""
-        entry = self._session.candidate(candidate_id)
-        new_id = self._session.new_candidate_id(entry.topology_id)
-        copy = replace(entry, id=new_id, pinned=False)
-        cands = list(self._session.candidates)
-        cands.insert(cands.index(entry) + 1, copy)
-        self.edit(replace(self._session, candidates=tuple(cands)), f"duplicate {candidate_id} as {new_id}")
-        self.set_current(new_id)
-        return new_id
+        return self.document.duplicate(candidate_id)
 
     def remove(self, candidate_id: str) -> None:
-        self.edit(self._session.without_candidate(candidate_id), f"remove {candidate_id}")
+        self.document.remove(candidate_id)
 
     def add_candidate(self, topology_id: str) -> str:
-        """Add a candidate of a circuit, designed for the target where the core can; returns its id."""
-        from bandsmith.circuits import get_topology
-
-        topo = get_topology(topology_id)
-        new_id = self._session.new_candidate_id(topology_id)
-        series = self._session.target.series
-        snap = None if series == "exact" else series
-        entry = CandidateEntry(id=new_id, topology_id=topology_id, values=dict(topo.example), snap=snap)
-        designed, reason = self._designed(entry, self._session)
-        if designed is not None:
-            entry = designed
-        elif reason:
-            self.notice.emit(f"{new_id}: {reason}; the circuit's example values are used")
-        self.edit(self._session.with_candidate(entry), f"add {new_id}")
-        self.set_current(new_id)
-        return new_id
+        return self.document.add_candidate(topology_id)
 
     def set_target(self, **changes) -> None:
-        """Change the target (f0_hz, q, gain, vin_v, series); unpinned candidates are redesigned.
-
-        A candidate that is pinned keeps its parts; one the core cannot design for the new target
-        keeps its parts too, and a notice says why.
-        """
-        old = self._session
-        target = replace(old.target, **changes)
-        if target == old.target:
-            return
-        s = replace(old, target=target)
-        redesign = any(k in changes for k in ("f0_hz", "q", "gain", "series"))
-        if redesign:
-            s = self._redesigned(s, [c.id for c in s.candidates if not c.pinned], series_changed="series" in changes)
-        what = ", ".join(f"{k}" for k in changes)
-        self.edit(s, f"target {what}")
+        self.document.set_target(**changes)
 
     def set_opamp(self, **changes) -> None:
-        """Change the op-amp (gbw_hz — None for ideal — and a0)."""
-        opamp = replace(self._session.opamp, **changes)
-        self.edit(replace(self._session, opamp=opamp), "op-amp " + ", ".join(changes))
+        self.document.set_opamp(**changes)
 
     def redesign(self, candidate_id: str) -> None:
-        """Choose new parts for one candidate from the target (its kept parts stay)."""
-        s = self._redesigned(self._session, [candidate_id], series_changed=False)
-        self.edit(s, f"redesign {candidate_id}")
+        self.document.redesign(candidate_id)
 
     def set_current(self, candidate_id: str) -> None:
-        if candidate_id != self._current:
-            self._current = candidate_id
-            self.current_changed.emit(candidate_id)
-
-    # ------------------------------------------------------------------ internals
-    def _designed(self, entry: CandidateEntry, session: Session) -> tuple[CandidateEntry | None, str | None]:
-        try:
-            from bandsmith.design.designer import Spec, design
-        except ImportError:
-            return None, "automatic design is not available"
-        t = session.target
-        try:
-            fixed = {r: entry.values[r] for r in entry.fixed}
-            res = design(
-                entry.topology_id,
-                Spec(f0_hz=t.f0_hz, q=t.q, gain=t.gain),
-                series=entry.snap or "exact",
-                fixed=fixed or None,
-                conditions=session.conditions_for(entry),
-            )
-        except InputError as exc:
-            return None, str(exc)
-        if not res.feasible:
-            return None, res.reason or "no design for this target"
-        values = dict(entry.values)
-        values.update({k: float(v) for k, v in res.chosen.items()})
-        designed = replace(entry, values=values)
-        # The design analysed exactly these parts under these conditions: keep that work.
-        if res.analysis is not None and res.analysis.netlist.values() == Candidate(designed.topology_id, values).netlist.values():
-            self._cache.put_analysis(session, designed, res.analysis)
-        return designed, None
-
-    def _redesigned(self, s: Session, ids: list[str], *, series_changed: bool) -> Session:
-        problems = []
-        for cid in ids:
-            entry = s.candidate(cid)
-            if series_changed:
-                entry = replace(entry, snap=None if s.target.series == "exact" else s.target.series)
-            designed, reason = self._designed(entry, s)
-            if designed is None:
-                problems.append(f"{cid}: {reason}")
-                designed = entry
-            s = s.with_candidate(designed)
-        if problems:
-            self.notice.emit("kept the parts of " + "; ".join(problems))
-        return s
-
-    def _apply(self, session: Session) -> None:
-        """Make ``session`` the document (called by SessionEdit and replace_document)."""
-        self._session = session
-        self._assign_styles()
-        self._pick_current()
-        self._analyse()
-        self.session_changed.emit(session)
-        self.analyses_changed.emit()
-
-    def _analyse(self) -> None:
-        s = self._session
-        self._results = {c.id: self._cache.get(s, c) for c in s.candidates if c.enabled}
-
-    def _assign_styles(self) -> None:
-        ids = [c.id for c in self._session.candidates]
-        self._styles = {k: v for k, v in self._styles.items() if k in ids}
-        for cid in ids:
-            if cid not in self._styles:
-                used = set(self._styles.values())
-                self._styles[cid] = next(i for i in range(len(ids) + 1) if i not in used)
-
-    def _pick_current(self) -> None:
-        ids = [c.id for c in self._session.candidates]
-        if self._current not in ids:
-            active = [c.id for c in self._session.candidates if c.enabled]
-            self._current = (active or ids or [""])[0]
-            self.current_changed.emit(self._current)
-
-    def _set_path(self, path: str) -> None:
-        if path != self._path:
-            self._path = path
-            self.path_changed.emit(path)
-
-    def _on_stack_clean_changed(self, _clean: bool) -> None:
-        self.clean_changed.emit(self.is_clean)
-
-
-def entry_kind(entry: CandidateEntry, ref: str) -> str:
-    """The kind (R, C, L) of a part of a candidate."""
-    from bandsmith.circuits import get_topology
-
-    return get_topology(entry.topology_id).component(ref).kind
-
-
-def target_from_bandwidth(target: Target, bw_hz: float) -> float:
-    """Q for a bandwidth (Hz) at the target's f0 (Q = f0 / bandwidth)."""
-    if not (math.isfinite(bw_hz) and bw_hz > 0):
-        raise InputError("bandwidth", "must be a finite number above zero")
-    return target.f0_hz / bw_hz
-
-
-__all__ += ["entry_kind", "target_from_bandwidth", "OpAmpSpec"]
+        self.document.set_current(candidate_id)

@@ -150,6 +150,25 @@ class MeasurementPane(QtWidgets.QWidget):
 
         lay = QtWidgets.QVBoxLayout(self)
         lay.setContentsMargins(10, 8, 10, 8)
+        self._build_bar(lay)
+        body = QtWidgets.QHBoxLayout()
+        lay.addLayout(body, 1)
+        left = QtWidgets.QVBoxLayout()
+        body.addLayout(left, 3)
+        self._build_tables(left)
+        self._build_deviation_plot(body)
+        self._add_plot_overlays(plot_grid)
+
+        self._refit_timer = QtCore.QTimer(self)
+        self._refit_timer.setSingleShot(True)
+        self._refit_timer.setInterval(300)
+        self._refit_timer.timeout.connect(self.run_diagnosis)
+        state.session_changed.connect(self._on_session_changed)
+        state.analyses_changed.connect(self._redraw)
+        self._on_session_changed(state.session)
+
+    def _build_bar(self, lay: QtWidgets.QVBoxLayout) -> None:
+        """Import, the candidate the board was built from, Remove, and the line naming the measurement."""
         bar = QtWidgets.QHBoxLayout()
         self.import_button = QtWidgets.QPushButton("Import measurement…", self)
         self.import_button.setObjectName("importMeasurement")
@@ -171,10 +190,9 @@ class MeasurementPane(QtWidgets.QWidget):
         self.source_label.setObjectName("measuredSource")
         self.source_label.setWordWrap(True)
         lay.addWidget(self.source_label)
-        body = QtWidgets.QHBoxLayout()
-        lay.addLayout(body, 1)
-        left = QtWidgets.QVBoxLayout()
-        body.addLayout(left, 3)
+
+    def _build_tables(self, left: QtWidgets.QVBoxLayout) -> None:
+        """The figures (measured, design, fitted), the diagnosis in words, and the part tables."""
         self.figures = QtWidgets.QTableWidget(3, 3, self)
         self.figures.setObjectName("measuredFigures")
         self.figures.setHorizontalHeaderLabels(["measured", "design", "fitted"])
@@ -201,6 +219,9 @@ class MeasurementPane(QtWidgets.QWidget):
             t.horizontalHeader().setSectionResizeMode(QtWidgets.QHeaderView.ResizeMode.Stretch)
             t.verticalHeader().setVisible(False)
             tables.addWidget(t, 1)
+
+    def _build_deviation_plot(self, body: QtWidgets.QHBoxLayout) -> None:
+        """The plot of measured minus model, against the design and against the fit (dB)."""
         self.deviation = pg.PlotWidget(self, axisItems={"bottom": LogAxis("bottom")})
         self.deviation.setObjectName("deviationPlot")
         dv = self.deviation.getPlotItem()
@@ -219,6 +240,8 @@ class MeasurementPane(QtWidgets.QWidget):
         self.deviation.setMinimumSize(300, 220)
         body.addWidget(self.deviation, 2)
 
+    def _add_plot_overlays(self, plot_grid) -> None:
+        """The measured points and the fitted curve on the Responses' magnitude and phase plots."""
         self._points = {}
         self._fit_curves = {}
         for key in ("magnitude", "phase"):
@@ -232,14 +255,6 @@ class MeasurementPane(QtWidgets.QWidget):
             fit = item.plot([], [], pen=_FIT_PEN, name="fitted")
             fit.setObjectName("fitted")
             self._points[key], self._fit_curves[key] = pts, fit
-
-        self._refit_timer = QtCore.QTimer(self)
-        self._refit_timer.setSingleShot(True)
-        self._refit_timer.setInterval(300)
-        self._refit_timer.timeout.connect(self.run_diagnosis)
-        state.session_changed.connect(self._on_session_changed)
-        state.analyses_changed.connect(self._redraw)
-        self._on_session_changed(state.session)
 
     # ------------------------------------------------------------------ questions
     def ask_path(self) -> str | None:

@@ -12,6 +12,9 @@ Every figure comes from :func:`bandsmith.analysis.noise.output_noise` (one adjoi
 figures over the chosen band, the curves over a wider view (two decades each side of f0). It is
 fast, so the pane recomputes on every edit, but only while its tab is visible; a hidden pane
 remembers that it is out of date and catches up when it is shown.
+
+The module is a little over 500 lines: the settings' parsers (en, in, temperature, band edges)
+serve only this pane's fields, so they stay beside it.
 """
 
 from __future__ import annotations
@@ -142,9 +145,21 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         outer = QtWidgets.QVBoxLayout(self)
         outer.setContentsMargins(10, 8, 10, 8)
         outer.setSpacing(6)
+        self._build_header(outer)
+        self._build_settings(outer)
+        self._build_figures(outer)
+        self._build_plot(outer)
+        self._build_source_table()
+
+        state.session_changed.connect(self._on_session_changed)
+        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
+        self._on_session_changed(state.session)
+
+    def _build_header(self, outer: QtWidgets.QVBoxLayout) -> None:
+        """The candidate picker with its one-line description, and the inductor winding's line."""
         bar = QtWidgets.QHBoxLayout()
         bar.addWidget(QtWidgets.QLabel("Candidate", self))
-        self.picker = CandidatePicker(state, self)
+        self.picker = CandidatePicker(self.state, self)
         bar.addWidget(self.picker)
         self.info = QtWidgets.QLabel(self)
         self.info.setObjectName("noiseInfo")
@@ -158,6 +173,8 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         self.winding.hide()
         outer.addWidget(self.winding)
 
+    def _build_settings(self, outer: QtWidgets.QVBoxLayout) -> None:
+        """The group of noise settings: en, in, temperature and the integration band."""
         box = QtWidgets.QGroupBox("Noise sources and band", self)
         box.setObjectName("noiseSettings")
         grid = QtWidgets.QGridLayout(box)
@@ -204,6 +221,8 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
             f.committed.connect(lambda v, k=key: self._on_field(k, v))
         outer.addWidget(box)
 
+    def _build_figures(self, outer: QtWidgets.QVBoxLayout) -> None:
+        """The error line, the integrated noise in large type and the figures beside it."""
         self.error = error_label(self)
         outer.addWidget(self.error)
 
@@ -217,6 +236,8 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         figs.addWidget(self.figures, 1)
         outer.addLayout(figs)
 
+    def _build_plot(self, outer: QtWidgets.QVBoxLayout) -> None:
+        """The density plot (one curve per source, the total, the band and f0) in the pane's body."""
         # Plot above the table until the pane is wide enough for both side by side (resizeEvent).
         self.body = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.TopToBottom)
         self.body.setSpacing(10)
@@ -245,6 +266,8 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         self.total_curve.setZValue(5)
         self.body.addWidget(self.canvas, 3)
 
+    def _build_source_table(self) -> None:
+        """The table of sources, largest first, and the line naming the largest (beside the plot)."""
         tcol = QtWidgets.QVBoxLayout()
         t = QtWidgets.QLabel("Sources, largest first", self)
         t.setObjectName("sectionTitle")
@@ -268,10 +291,6 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         self.largest.setTextFormat(QtCore.Qt.TextFormat.RichText)
         tcol.addWidget(self.largest)
         self.body.addLayout(tcol, 2)
-
-        state.session_changed.connect(self._on_session_changed)
-        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
-        self._on_session_changed(state.session)
 
     # ------------------------------------------------------------------ settings
     @property

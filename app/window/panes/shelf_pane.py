@@ -14,6 +14,10 @@ The verdicts come from the state's :class:`~bandsmith.app.window.verdicts.Verdic
 columns' verdict strips read too (the pane gives it the shelf); the pane asks for them only while
 it is visible. Choosing a pair here chooses it in the book as well, so the candidate's column shows
 it and the Responses plots draw it (:mod:`bandsmith.app.window.widgets.amp_overlay`).
+
+The module runs past 500 lines because its three parts (board, editor, chosen pair) share one
+selection and one recompute cycle, so they stay one view; the shelf's editable model lives apart,
+in :mod:`bandsmith.app.window.panes.shelf_model`.
 """
 
 from __future__ import annotations
@@ -30,9 +34,10 @@ from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.errors import InputError
 from bandsmith.bench.fitcheck import FITS, FitReport
-from bandsmith.bench.shelf import ARCHETYPES, OpAmp, ShelfError, ShelfState, save_shelf
-from bandsmith.common.values import format_value, parse_positive, parse_value
+from bandsmith.bench.shelf import OpAmp, ShelfError, ShelfState
+from bandsmith.common.values import format_value, parse_positive
 
+from bandsmith.app.window.panes.shelf_model import EDITOR_COLUMNS, EDITOR_TIPS, ShelfModel, cell_text, read_cell
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import BAD, GOOD, error_label
@@ -41,145 +46,6 @@ from bandsmith.app.window.widgets.verdict_strip import VERDICT_LOOK
 from bandsmith.app.window.verdicts import SESSION_KEY, VerdictBook, session_amps, session_supply_v, verdict_tooltip
 
 __all__ = ["ShelfModel", "ShelfPane", "VERDICT_LOOK", "SESSION_KEY", "install"]
-
-
-# Editor columns: (field, header, unit for display, how it is read).
-_COLUMNS = (
-    ("name", "name", "", "text"),
-    ("gbw_hz", "GBW", "Hz", "si"),
-    ("a0", "A0 (V/V)", "", "si"),
-    ("f_p2_hz", "2nd pole", "Hz", "si-optional"),
-    ("slew_v_per_us", "slew (V/µs)", "", "plain"),
-    ("iout_max_ma", "Iout max (mA)", "", "plain"),
-    ("supply_min_v", "supply min (V total)", "", "plain"),
-    ("supply_max_v", "supply max (V total)", "", "plain"),
-    ("swing_neg_v", "swing to V− (V)", "", "plain"),
-    ("swing_pos_v", "swing to V+ (V)", "", "plain"),
-    ("cm_neg_v", "CM to V− (V)", "", "plain"),
-    ("cm_pos_v", "CM to V+ (V)", "", "plain"),
-    ("en_nv_rthz", "en (nV/√Hz)", "", "plain"),
-    ("in_pa_rthz", "in (pA/√Hz)", "", "plain"),
-    ("notes", "notes", "", "text"),
-)
-_TIPS = {
-    "gbw_hz": "Gain-bandwidth product, Hz (10M, 10 MHz, 1e7).",
-    "a0": "Open-loop DC gain, V/V (200k, 2e5).",
-    "f_p2_hz": "Second open-loop pole, Hz; leave empty for a single-pole model.",
-    "swing_neg_v": "How close the output gets to the negative rail, V (0 = rail to rail).",
-    "swing_pos_v": "How close the output gets to the positive rail, V (0 = rail to rail).",
-    "cm_neg_v": "Input common-mode range: how far inside the negative rail it ends, V (negative = beyond the rail).",
-    "cm_pos_v": "Input common-mode range: how far inside the positive rail it ends, V (negative = beyond the rail).",
-}
-
-
-def _cell_text(amp: OpAmp, key: str, unit: str, how: str) -> str:
-    v = getattr(amp, key)
-    if how == "text":
-        return v
-    if v is None:
-        return ""
-    if how.startswith("si"):
-        return format_value(v, unit, digits=4) if unit else f"{v:g}"
-    return f"{v:g}"
-
-
-def _read_cell(text: str, key: str, how: str):
-    text = text.strip()
-    if how == "text":
-        return text
-    if how == "si-optional" and text in ("", "—", "none", "-"):
-        return None
-    return parse_value(text, field=key)
-
-
-class ShelfModel(QtCore.QObject):
-    """The user's shelf in the window: the models, their file, and whether edits are unsaved.
-
-    Signals
-    -------
-    changed()
-        The models changed (edit, add, remove, restore, revert).
-    modified_changed(bool)
-        True while there are edits not saved to the file.
-    """
-
-    changed = QtCore.Signal()
-    modified_changed = QtCore.Signal(bool)
-
-    def __init__(self, state: ShelfState, parent: QtCore.QObject | None = None):
-        super().__init__(parent)
-        self._amps = tuple(state.amps)
-        self.path = state.path
-        self.warning = state.warning
-        self.from_file = state.from_file
-        self._modified = False
-
-    @property
-    def amps(self) -> tuple[OpAmp, ...]:
-        return self._amps
-
-    @property
-    def modified(self) -> bool:
-        return self._modified
-
-    def _set(self, amps, *, modified: bool = True) -> None:
-        self._amps = tuple(amps)
-        self.changed.emit()
-        if modified != self._modified:
-            self._modified = modified
-            self.modified_changed.emit(modified)
-
-    def replace_amp(self, index: int, amp: OpAmp) -> None:
-        """Put ``amp`` at ``index``; a name another model has is bad input."""
-        others = [a for i, a in enumerate(self._amps) if i != index]
-        if any(a.name.casefold() == amp.name.casefold() for a in others):
-            raise InputError("name", f"another op-amp on the shelf is already named {amp.name!r}")
-        amps = list(self._amps)
-        amps[index] = amp
-        self._set(amps)
-
-    def _free_name(self, base: str) -> str:
-        names = {a.name.casefold() for a in self._amps}
-        if base.casefold() not in names:
-            return base
-        k = 2
-        while f"{base} {k}".casefold() in names:
-            k += 1
-        return f"{base} {k}"
-
-    def add(self) -> int:
-        """A new model (the first archetype's figures, a name of its own); returns its row."""
-        amps = list(self._amps) + [replace(ARCHETYPES[0], name=self._free_name("my op-amp"), notes="")]
-        self._set(amps)
-        return len(amps) - 1
-
-    def duplicate(self, index: int) -> int:
-        src = self._amps[index]
-        amps = list(self._amps)
-        amps.insert(index + 1, replace(src, name=self._free_name(f"{src.name} copy")))
-        self._set(amps)
-        return index + 1
-
-    def remove(self, index: int) -> None:
-        amps = list(self._amps)
-        del amps[index]
-        self._set(amps)
-
-    def restore_archetypes(self) -> None:
-        """Add back every archetype that is not on the shelf (by name)."""
-        names = {a.name.casefold() for a in self._amps}
-        self._set(list(self._amps) + [a for a in ARCHETYPES if a.name.casefold() not in names])
-
-    def save(self) -> None:
-        """Write the shelf file (atomic). Raises :class:`ShelfError` when it cannot be written."""
-        if self.path is None:
-            raise ShelfError("write-failed", "no shelf file location is known")
-        save_shelf(self._amps, self.path)
-        self.warning = None
-        self.from_file = True
-        if self._modified:
-            self._modified = False
-            self.modified_changed.emit(False)
 
 
 class _FramedSelection(QtWidgets.QStyledItemDelegate):
@@ -230,6 +96,44 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         outer = QtWidgets.QVBoxLayout(self)
         outer.setContentsMargins(6, 6, 6, 6)
         outer.setSpacing(4)
+        self._build_banner(outer)
+        self._build_supply_bar(outer)
+
+        split = QtWidgets.QSplitter(QtCore.Qt.Orientation.Horizontal, self)
+        split.setChildrenCollapsible(False)
+        outer.addWidget(split, 1)
+
+        left = QtWidgets.QWidget(split)
+        ll = QtWidgets.QVBoxLayout(left)
+        ll.setContentsMargins(0, 0, 0, 0)
+        self._build_verdict_table(left, ll)
+        self._build_shelf_editor(left, ll)
+        self._build_shelf_buttons(left, ll)
+
+        right = QtWidgets.QWidget(split)
+        rl = QtWidgets.QVBoxLayout(right)
+        rl.setContentsMargins(0, 0, 0, 0)
+        self._build_detail(right, rl)
+        self._build_headroom(right, rl)
+        split.addWidget(left)
+        split.addWidget(right)
+        split.setStretchFactor(0, 3)
+        split.setStretchFactor(1, 2)
+        right.setMinimumWidth(320)
+        split.setSizes([740, 540])
+        self.splitter = split
+
+        self.shelf.changed.connect(self._on_shelf_changed)
+        self.shelf.modified_changed.connect(lambda _m: self._show_file())
+        state.session_changed.connect(self._on_session_changed)
+        state.analyses_changed.connect(self.mark_dirty)
+        self.book.chosen_changed.connect(self._on_book_chosen)
+        self._fill_editor()
+        self._show_file()
+        self._on_session_changed(state.session)
+
+    def _build_banner(self, outer: QtWidgets.QVBoxLayout) -> None:
+        """The warning line shown when the shelf file could not be read as it was."""
         self.banner = QtWidgets.QLabel(self)
         self.banner.setObjectName("shelfWarning")
         self.banner.setWordWrap(True)
@@ -238,6 +142,8 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.banner.setText(f"⚠ {self.shelf.warning}" if self.shelf.warning else "")
         outer.addWidget(self.banner)
 
+    def _build_supply_bar(self, outer: QtWidgets.QVBoxLayout) -> None:
+        """The supply field (±V, kept in the session) and the line of conditions beside it."""
         bar = QtWidgets.QHBoxLayout()
         bar.addWidget(QtWidgets.QLabel("Supply ±", self))
         self.supply = ValueField(
@@ -254,13 +160,8 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         bar.addWidget(self.conditions, 1)
         outer.addLayout(bar)
 
-        split = QtWidgets.QSplitter(QtCore.Qt.Orientation.Horizontal, self)
-        split.setChildrenCollapsible(False)
-        outer.addWidget(split, 1)
-
-        left = QtWidgets.QWidget(split)
-        ll = QtWidgets.QVBoxLayout(left)
-        ll.setContentsMargins(0, 0, 0, 0)
+    def _build_verdict_table(self, left: QtWidgets.QWidget, ll: QtWidgets.QVBoxLayout) -> None:
+        """The verdict board: one row per shelf model, one column per active candidate."""
         t = QtWidgets.QLabel("Verdicts — op-amps on the shelf against each active candidate (click one to see it)", left)
         t.setObjectName("sectionTitle")
         t.setWordWrap(True)
@@ -275,21 +176,26 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.verdicts.setItemDelegate(_FramedSelection(self.verdicts))
         ll.addWidget(self.verdicts, 2)
 
+    def _build_shelf_editor(self, left: QtWidgets.QWidget, ll: QtWidgets.QVBoxLayout) -> None:
+        """The shelf editor (one row per model, every figure editable) and its error line."""
         t = QtWidgets.QLabel("Shelf — your op-amp models (edit a cell; type values as 10M, 200k, 0.5)", left)
         t.setObjectName("sectionTitle")
         t.setWordWrap(True)
         ll.addWidget(t)
-        self.editor = QtWidgets.QTableWidget(0, len(_COLUMNS), left)
+        self.editor = QtWidgets.QTableWidget(0, len(EDITOR_COLUMNS), left)
         self.editor.setObjectName("shelfTable")
-        self.editor.setHorizontalHeaderLabels([c[1] for c in _COLUMNS])
-        for i, (key, _h, _u, _how) in enumerate(_COLUMNS):
-            if key in _TIPS:
-                self.editor.horizontalHeaderItem(i).setToolTip(_TIPS[key])
+        self.editor.setHorizontalHeaderLabels([c[1] for c in EDITOR_COLUMNS])
+        for i, (key, _h, _u, _how) in enumerate(EDITOR_COLUMNS):
+            if key in EDITOR_TIPS:
+                self.editor.horizontalHeaderItem(i).setToolTip(EDITOR_TIPS[key])
         self.editor.itemChanged.connect(self._on_editor_item)
         self.editor.verticalHeader().setDefaultSectionSize(24)
         ll.addWidget(self.editor, 3)
         self.editor_error = error_label(left)
         ll.addWidget(self.editor_error)
+
+    def _build_shelf_buttons(self, left: QtWidgets.QWidget, ll: QtWidgets.QVBoxLayout) -> None:
+        """Add, duplicate, remove, restore and save buttons under the editor, and the shelf file's line."""
         buttons = QtWidgets.QGridLayout()  # two rows, so the pane stays narrow enough beside the board
         self.btn_add = QtWidgets.QPushButton("Add model", left)
         self.btn_dup = QtWidgets.QPushButton("Duplicate", left)
@@ -322,9 +228,8 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.btn_restore.clicked.connect(self.shelf.restore_archetypes)
         self.btn_save.clicked.connect(self.save_shelf)
 
-        right = QtWidgets.QWidget(split)
-        rl = QtWidgets.QVBoxLayout(right)
-        rl.setContentsMargins(0, 0, 0, 0)
+    def _build_detail(self, right: QtWidgets.QWidget, rl: QtWidgets.QVBoxLayout) -> None:
+        """The chosen pair's title and reasons, and its magnitude with an ideal and with the chosen op-amp."""
         self.detail_title = QtWidgets.QLabel("Choose a verdict on the left", right)
         self.detail_title.setObjectName("detailTitle")
         self.detail_title.setTextFormat(QtCore.Qt.TextFormat.RichText)
@@ -346,6 +251,9 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.curve_ideal = self.plot.plot([], [], name="ideal op-amp")
         self.curve_amp = self.plot.plot([], [], name="with the chosen op-amp")
         rl.addWidget(self.plot, 2)
+
+    def _build_headroom(self, right: QtWidgets.QWidget, rl: QtWidgets.QVBoxLayout) -> None:
+        """The chosen pair's headroom table, its largest input and the Copy to session button."""
         t = QtWidgets.QLabel("Headroom at the input level", right)
         t.setObjectName("sectionTitle")
         t.setWordWrap(True)
@@ -367,22 +275,6 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.btn_copy.setEnabled(False)
         self.btn_copy.clicked.connect(self.copy_to_session)
         rl.addWidget(self.btn_copy, 0, QtCore.Qt.AlignmentFlag.AlignLeft)
-        split.addWidget(left)
-        split.addWidget(right)
-        split.setStretchFactor(0, 3)
-        split.setStretchFactor(1, 2)
-        right.setMinimumWidth(320)
-        split.setSizes([740, 540])
-        self.splitter = split
-
-        self.shelf.changed.connect(self._on_shelf_changed)
-        self.shelf.modified_changed.connect(lambda _m: self._show_file())
-        state.session_changed.connect(self._on_session_changed)
-        state.analyses_changed.connect(self.mark_dirty)
-        self.book.chosen_changed.connect(self._on_book_chosen)
-        self._fill_editor()
-        self._show_file()
-        self._on_session_changed(state.session)
 
     # ------------------------------------------------------------------ reading
     @property
@@ -452,10 +344,10 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
             amps = self.shelf.amps
             self.editor.setRowCount(len(amps))
             for r, a in enumerate(amps):
-                for c, (key, _h, unit, how) in enumerate(_COLUMNS):
-                    item = QtWidgets.QTableWidgetItem(_cell_text(a, key, unit, how))
-                    if key in _TIPS:
-                        item.setToolTip(_TIPS[key])
+                for c, (key, _h, unit, how) in enumerate(EDITOR_COLUMNS):
+                    item = QtWidgets.QTableWidgetItem(cell_text(a, key, unit, how))
+                    if key in EDITOR_TIPS:
+                        item.setToolTip(EDITOR_TIPS[key])
                     self.editor.setItem(r, c, item)
             self.editor.resizeColumnsToContents()
         finally:
@@ -465,17 +357,17 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         if self._filling:
             return
         row, col = item.row(), item.column()
-        key, _h, unit, how = _COLUMNS[col]
+        key, _h, unit, how = EDITOR_COLUMNS[col]
         old = self.shelf.amps[row]
         try:
-            value = _read_cell(item.text(), key, how)
+            value = read_cell(item.text(), key, how)
             new = replace(old, **{key: value})
             self.shelf.replace_amp(row, new)
         except InputError as exc:
             self.editor_error.setText(f"{old.name}: {exc}")
             self.editor_error.show()
             self._filling = True
-            item.setText(_cell_text(old, key, unit, how))
+            item.setText(cell_text(old, key, unit, how))
             self._filling = False
             return
         self.editor_error.hide()

@@ -64,7 +64,35 @@ class CandidateColumn(QtWidgets.QFrame):
         lay.setContentsMargins(8, 6, 8, 8)
         lay.setSpacing(4)
 
-        # Header: line sample, id, circuit.
+        self._build_header(lay)  # line sample, id, circuit
+        self._build_switches(lay)  # on/off and pin on the first row, variant actions on the second
+        self._build_snap_row(lay)
+        self._build_part_fields(lay)
+        self._build_figures(lay)
+        self._build_needs(lay)
+
+        # Every shelf op-amp's verdict; choosing one draws it on the plots (app/window/verdict_strip.py).
+        self.verdict_strip = VerdictStrip(state, candidate_id, self)
+        lay.addWidget(self.verdict_strip)
+        self.problem = error_label(self)
+        lay.addWidget(self.problem)
+        lay.addStretch(1)
+
+        self.active.clicked.connect(lambda checked: self.state.set_enabled(self.candidate_id, checked))
+        self.pin.clicked.connect(lambda checked: self.state.set_pinned(self.candidate_id, checked))
+        self.dup.clicked.connect(lambda: self.state.duplicate(self.candidate_id))
+        self.remove_btn.clicked.connect(lambda: self.state.remove(self.candidate_id))
+        self.redo_design.clicked.connect(lambda: self.state.redesign(self.candidate_id))
+        self.snap.activated.connect(self._on_snap_activated)
+        state.session_changed.connect(self._on_session_changed)
+        state.analyses_changed.connect(self._on_analyses_changed)
+        state.current_changed.connect(self._on_current_changed)
+        self._on_session_changed(state.session)
+        self._on_analyses_changed()
+        self._on_current_changed(state.current_id)
+
+    def _build_header(self, lay: QtWidgets.QVBoxLayout) -> None:
+        """The line sample, the candidate's id and its circuit's short name (two lines high)."""
         head = QtWidgets.QHBoxLayout()
         self.swatch = QtWidgets.QLabel(self)
         self.swatch.setObjectName("swatch")
@@ -82,7 +110,8 @@ class CandidateColumn(QtWidgets.QFrame):
         self.circuit.setAlignment(QtCore.Qt.AlignmentFlag.AlignLeft | QtCore.Qt.AlignmentFlag.AlignTop)
         lay.addWidget(self.circuit)
 
-        # Switches: on/off and pin on the first row, variant actions on the second.
+    def _build_switches(self, lay: QtWidgets.QVBoxLayout) -> None:
+        """Active, Pin and Remove on one row; Duplicate and Redesign on the next."""
         row = QtWidgets.QHBoxLayout()
         row.setSpacing(3)
         self.active = QtWidgets.QCheckBox("Active", self)
@@ -104,7 +133,8 @@ class CandidateColumn(QtWidgets.QFrame):
         row2.addStretch(1)
         lay.addLayout(row2)
 
-        # Parts.
+    def _build_snap_row(self, lay: QtWidgets.QVBoxLayout) -> None:
+        """The Parts title and the series the parts are snapped to."""
         snap_row = QtWidgets.QHBoxLayout()
         lab = QtWidgets.QLabel("Parts", self)
         lab.setObjectName("sectionTitle")
@@ -118,6 +148,9 @@ class CandidateColumn(QtWidgets.QFrame):
         self.snap.setToolTip("Snap every part to a standard series (IEC 60063), or keep exact values.")
         snap_row.addWidget(self.snap)
         lay.addLayout(snap_row)
+
+    def _build_part_fields(self, lay: QtWidgets.QVBoxLayout) -> None:
+        """One row per part: its reference, its value field and its keep box (edits go to the state)."""
         grid = QtWidgets.QGridLayout()
         grid.setHorizontalSpacing(4)
         grid.setVerticalSpacing(2)
@@ -148,7 +181,8 @@ class CandidateColumn(QtWidgets.QFrame):
         grid.setColumnStretch(1, 1)
         lay.addLayout(grid)
 
-        # Figures and errors.
+    def _build_figures(self, lay: QtWidgets.QVBoxLayout) -> None:
+        """The achieved figures against the target."""
         self.figures_title = QtWidgets.QLabel("Achieved", self)
         self.figures_title.setObjectName("sectionTitle")
         lay.addWidget(self.figures_title)
@@ -158,7 +192,8 @@ class CandidateColumn(QtWidgets.QFrame):
         self.figures.setToolTip("Figures measured on the computed response with the session's op-amp; errors against the target, ✓ within tolerance.")
         lay.addWidget(self.figures)
 
-        # Amplifier needs.
+    def _build_needs(self, lay: QtWidgets.QVBoxLayout) -> None:
+        """What the op-amp must offer: GBW in large type, then slew rate, current and output swing."""
         needs_title = QtWidgets.QLabel("Amplifier needs", self)
         needs_title.setObjectName("sectionTitle")
         lay.addWidget(needs_title)
@@ -177,26 +212,6 @@ class CandidateColumn(QtWidgets.QFrame):
         lay.addWidget(self.need_gbw)
         lay.addWidget(self.need_flag)
         lay.addWidget(self.needs)
-
-        # Every shelf op-amp's verdict; choosing one draws it on the plots (app/window/verdict_strip.py).
-        self.verdict_strip = VerdictStrip(state, candidate_id, self)
-        lay.addWidget(self.verdict_strip)
-        self.problem = error_label(self)
-        lay.addWidget(self.problem)
-        lay.addStretch(1)
-
-        self.active.clicked.connect(lambda checked: self.state.set_enabled(self.candidate_id, checked))
-        self.pin.clicked.connect(lambda checked: self.state.set_pinned(self.candidate_id, checked))
-        self.dup.clicked.connect(lambda: self.state.duplicate(self.candidate_id))
-        self.remove_btn.clicked.connect(lambda: self.state.remove(self.candidate_id))
-        self.redo_design.clicked.connect(lambda: self.state.redesign(self.candidate_id))
-        self.snap.activated.connect(self._on_snap_activated)
-        state.session_changed.connect(self._on_session_changed)
-        state.analyses_changed.connect(self._on_analyses_changed)
-        state.current_changed.connect(self._on_current_changed)
-        self._on_session_changed(state.session)
-        self._on_analyses_changed()
-        self._on_current_changed(state.current_id)
 
     def _tool(self, text: str, name: str, tip: str, *, checkable: bool = False) -> QtWidgets.QToolButton:
         b = QtWidgets.QToolButton(self)

@@ -41,6 +41,15 @@ class TargetStrip(QtWidgets.QFrame):
         super().__init__(parent)
         self.setObjectName("targetStrip")
         self.state = state
+        self._make_fields()
+        self._lay_out()
+        self._connect_fields()
+        state.session_changed.connect(self._on_session_changed)
+        self._on_session_changed(state.session)
+        self._on_q_mode_changed(0)
+
+    def _make_fields(self) -> None:
+        """The value fields of the target and the op-amp, the Q/bandwidth switch and the series box."""
         self.f0 = ValueField("f0", "Hz", tooltip=f"Target centre frequency f0, in Hz. {_NOTATION}")
         self.q = ValueField("Q", "", fmt=_fmt_plain, tooltip="Target quality factor Q = f0 / bandwidth (dimensionless), e.g. 5 or 7.5.")
         self.bw = ValueField("bandwidth", "Hz", tooltip=f"Target −3 dB bandwidth, in Hz (Q = f0 / bandwidth). {_NOTATION}")
@@ -65,6 +74,8 @@ class TargetStrip(QtWidgets.QFrame):
         self.series.addItems(list(SERIES_CHOICES))
         self.series.setToolTip("Standard series (IEC 60063) new designs take their parts from, or 'exact' for unrounded values.")
 
+    def _lay_out(self) -> None:
+        """The fields in titled groups along one row: Target, Drive, Parts, Op-amp."""
         lay = QtWidgets.QHBoxLayout(self)
         lay.setContentsMargins(8, 4, 8, 4)
         lay.setSpacing(6)
@@ -99,6 +110,8 @@ class TargetStrip(QtWidgets.QFrame):
             c.setSizePolicy(QtWidgets.QSizePolicy.Policy.Fixed, QtWidgets.QSizePolicy.Policy.Fixed)
         self.derived.setMinimumWidth(80)
 
+    def _connect_fields(self) -> None:
+        """Committed values go to the state as target or op-amp edits."""
         self.f0.committed.connect(lambda v: self.state.set_target(f0_hz=v))
         self.q.committed.connect(lambda v: self.state.set_target(q=v))
         self.bw.committed.connect(self._on_bw_committed)
@@ -108,9 +121,6 @@ class TargetStrip(QtWidgets.QFrame):
         self.a0.committed.connect(lambda v: self.state.set_opamp(a0=v))
         self.series.activated.connect(self._on_series_activated)
         self.q_mode.currentIndexChanged.connect(self._on_q_mode_changed)
-        state.session_changed.connect(self._on_session_changed)
-        self._on_session_changed(state.session)
-        self._on_q_mode_changed(0)
 
     # -- user input ---------------------------------------------------------------------
     def _on_bw_committed(self, bw_hz: float) -> None:
