@@ -1,0 +1,1 @@
+"""Verdicts: which candidate to build (``buildable``, ``marginal``, ``not buildable``), ranked."""
