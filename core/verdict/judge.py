@@ -28,7 +28,9 @@ figure beyond its design tolerance is always ``not buildable``.
 The yield is estimated from the sensitivities (:func:`bandsmith.verdict.yield_estimate.estimate_yield`)
 and confirmed by a short fixed-seed Monte Carlo when the estimate lies within
 ``limits.confirm_band`` of a yield limit or a figure's first-order spread exceeds
-``limits.confirm_sigma``; the verdict then uses the Monte Carlo's yield.
+``limits.confirm_sigma``; the verdict then uses the Monte Carlo's yield. The Monte Carlo is skipped
+where it cannot change the verdict (other reasons already make the candidate ``not buildable``, or
+``marginal`` with the estimate far from the lower yield limit), which keeps a comparison fast.
 """
 
 from __future__ import annotations
@@ -142,8 +144,9 @@ class Verdict:
         }
 
 
-def _pct(x: float) -> str:
-    return f"{x:.3g} %"
+def _ratio(x: float) -> str:
+    """A spread as ``72 : 1`` or ``10 000 : 1``."""
+    return (f"{x:,.0f}".replace(",", " ") if x >= 1000 else f"{x:.3g}") + " : 1"
 
 
 def _figure_reasons(errors: Mapping[str, float], tol, series: str, suffix: str, with_what: str) -> list[Reason]:
@@ -170,9 +173,9 @@ def _spread_reasons(spread: Mapping[str, float | None], limits: VerdictLimits) -
         if s is None:
             continue
         if s > hard:
-            out.append(Reason(f"{key}_spread", f"{word} spread {s:.3g} : 1 is beyond {hard:.3g} : 1: the parts cannot track or be bought from one range", s, hard, NOT_BUILDABLE))
+            out.append(Reason(f"{key}_spread", f"{word} spread {_ratio(s)} is beyond {_ratio(hard)}: the parts cannot track or be bought from one range", s, hard, NOT_BUILDABLE))
         elif s > marginal:
-            out.append(Reason(f"{key}_spread", f"{word} spread {s:.3g} : 1 is above {marginal:.3g} : 1: parts from far-apart ranges that drift apart", s, marginal, MARGINAL))
+            out.append(Reason(f"{key}_spread", f"{word} spread {_ratio(s)} is above {_ratio(marginal)}: parts from far-apart ranges that drift apart", s, marginal, MARGINAL))
     return out
 
 
@@ -224,12 +227,18 @@ def _amp_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
     return out
 
 
-def _yield(result: DesignResult, limits: VerdictLimits) -> tuple[YieldEstimate, float | None, float]:
+def _yield(result: DesignResult, limits: VerdictLimits, so_far: str) -> tuple[YieldEstimate, float | None, float]:
+    """The estimate, the confirming Monte Carlo's yield (or None) and the yield the verdict uses.
+
+    The Monte Carlo runs only where it can change the verdict: not when other reasons already
+    make the candidate ``not buildable``; when they make it ``marginal``, only near the lower limit.
+    """
     topo = result.topology
     tol = part_tolerances_of({c.ref: c.kind for c in topo.components}, result.chosen, limits)
     est = estimate_yield(result.analysis.sensitivity, tol, limits)
-    near = min(abs(est.fraction - limits.yield_marginal), abs(est.fraction - limits.yield_min)) < limits.confirm_band
-    bent = max(est.sigma["f0"], est.sigma["q"], math.expm1(est.sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
+    edges = {BUILDABLE: (limits.yield_marginal, limits.yield_min), MARGINAL: (limits.yield_min,), NOT_BUILDABLE: ()}[so_far]
+    near = any(abs(est.fraction - e) < limits.confirm_band for e in edges)
+    bent = bool(edges) and max(est.sigma["f0"], est.sigma["q"], math.expm1(est.sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
     mc = confirm_yield(result.analysis.netlist, tol, limits) if (near or bent) and tol else None
     return est, mc, est.fraction if mc is None else mc
 
@@ -307,7 +316,8 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
     reasons += _range_reasons(result, limits)
     reasons += _amp_reasons(result, limits)
-    est, mc, y = _yield(result, limits)
+    so_far = max((r.weight for r in reasons), key=VERDICTS.index, default=BUILDABLE)
+    est, mc, y = _yield(result, limits, so_far)
     r = _yield_reason(est, mc, y, limits, {c.kind for c in topo.components})
     if r is not None:
         reasons.append(r)

@@ -47,7 +47,7 @@ LIMIT_SOURCES = MappingProxyType({
     "window_q": "same window as the tolerance spread's default",
     "window_gain_db": "same window as the tolerance spread's default",
     "inductor_q_ordinary": "bandsmith.analysis.inductor.ORDINARY_INDUCTOR_Q (common practice, no source)",
-    "inductor_q_max": "common practice, no source (beyond it only large air-core or pot-core parts, measured one by one)",
+    "inductor_q_max": "common practice, no source (the best ferrite pot cores and toroids reach a few hundred)",
     "mc_trials": "a short check: about ±1 percentage point of standard error at 2 000 trials",
     "mc_seed": "fixed so that the same candidate always gets the same verdict",
     "confirm_band": "chosen here: estimates this close to a yield limit are checked by Monte Carlo",
@@ -78,7 +78,7 @@ class VerdictLimits:
     ----------
     r_spread_marginal, r_spread_max : float
         Largest over smallest resistor: ``marginal`` above 1 000 : 1, ``not buildable`` above
-        30 000 : 1.
+        5 000 : 1.
     c_spread_marginal, c_spread_max : float
         The same for capacitors: 100 : 1 and 10 000 : 1.
     r_min_ohm, r_max_ohm : float
@@ -107,7 +107,7 @@ class VerdictLimits:
         The yield window around the nominal figures: ±5 %, ±10 %, ±1 dB.
     inductor_q_ordinary, inductor_q_max : float
         An inductor whose winding must reach a Q above 200 (ordinary small inductors) is ``marginal``,
-        above 1 000 ``not buildable``. The Q needed keeps the circuit's Q within its design tolerance
+        above 500 ``not buildable``. The Q needed keeps the circuit's Q within its design tolerance
         (:func:`bandsmith.analysis.inductor.inductor_q_needed`).
     mc_trials, mc_seed : int
         The short Monte Carlo that confirms a yield estimate.
@@ -119,7 +119,7 @@ class VerdictLimits:
     """
 
     r_spread_marginal: float = 1_000.0
-    r_spread_max: float = 30_000.0
+    r_spread_max: float = 5_000.0
     c_spread_marginal: float = 100.0
     c_spread_max: float = 10_000.0
     r_min_ohm: float = 100.0
@@ -141,7 +141,7 @@ class VerdictLimits:
     window_q: float = 0.10
     window_gain_db: float = 1.0
     inductor_q_ordinary: float = ORDINARY_INDUCTOR_Q
-    inductor_q_max: float = 1_000.0
+    inductor_q_max: float = 500.0
     mc_trials: int = 2_000
     mc_seed: int = 1
     confirm_band: float = 0.05
