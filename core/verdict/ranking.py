@@ -3,12 +3,13 @@
 Order (best first), each key deciding only where the ones before it tie:
 
 1. the verdict: ``buildable``, then ``marginal``, then ``not buildable``;
-2. the yield under the part tolerances, in steps of 5 percentage points (so that a Monte Carlo's
+2. the fewer reasons of that weight (the nearer miss first);
+3. the yield under the part tolerances, in steps of 5 percentage points (so that a Monte Carlo's
    scatter of a point or two does not decide);
-3. no inductor before an inductor (a wound part is larger, dearer and less ideal);
-4. the lower required GBW (a slower, cheaper op-amp; a candidate with none last);
-5. the fewer parts;
-6. the candidate's position in the comparison (stable).
+4. no inductor before an inductor (a wound part is larger, dearer and less ideal);
+5. the lower required GBW (a slower, cheaper op-amp; a candidate with none last);
+6. the fewer parts;
+7. the candidate's position in the comparison (stable).
 
 The recommended candidate is the first one when it is ``buildable``; otherwise there is none, and
 the reason names the nearest candidate and what holds it back.
@@ -32,7 +33,8 @@ def merit_key(v: Verdict, position: int = 0) -> tuple:
     """The sort key of a verdict (smaller is better; see the module notes)."""
     y = -1.0 if v.yield_fraction is None else v.yield_fraction
     gbw = v.required_gbw_hz if v.required_gbw_hz is not None and math.isfinite(v.required_gbw_hz) else math.inf
-    return (VERDICTS.index(v.verdict), -math.floor(y / YIELD_STEP + 1e-9), v.needs_inductor, gbw, v.part_count, position)
+    heavy = sum(1 for r in v.reasons if r.weight == v.verdict)
+    return (VERDICTS.index(v.verdict), heavy, -math.floor(y / YIELD_STEP + 1e-9), v.needs_inductor, gbw, v.part_count, position)
 
 
 @dataclass(frozen=True, slots=True)
