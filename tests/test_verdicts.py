@@ -211,3 +211,15 @@ def test_comparison_json_keeps_every_compare_key(demo):
     for a, b in zip(base["candidates"], out["candidates"]):
         assert set(a) <= set(b)
         assert json.dumps(a["chosen"]) == json.dumps(b["chosen"])
+
+
+def test_monte_carlo_confirms_only_near_a_limit(demo):
+    v = _by_id(demo)
+    # the tank's estimate (87.5 %) is 2.5 points from the 90 % limit: confirmed by Monte Carlo
+    assert v["rlc-tank"].yield_mc is not None
+    assert v["rlc-tank"].yield_mc == pytest.approx(v["rlc-tank"].estimate.fraction, abs=0.05)
+    # the MFB's (about 99 %) is far from every limit: the estimate stands alone
+    assert v["mfb"].yield_mc is None and v["mfb"].yield_fraction > 0.95
+    j = comparison_json(demo)
+    tank = next(c for c in j["candidates"] if c["topology"] == "rlc-tank")
+    assert tank["yield"]["method"] == "monte carlo"

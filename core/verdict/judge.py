@@ -27,8 +27,9 @@ figure beyond its design tolerance is always ``not buildable``.
 
 The yield is estimated from the sensitivities (:func:`bandsmith.verdict.yield_estimate.estimate_yield`)
 and confirmed by a short fixed-seed Monte Carlo when the estimate lies within
-``limits.confirm_band`` of a yield limit or a figure's first-order spread exceeds
-``limits.confirm_sigma``; the verdict then uses the Monte Carlo's yield. The Monte Carlo is skipped
+``limits.confirm_band`` of a yield limit, or within four times that where a figure's first-order
+spread exceeds ``limits.confirm_sigma`` (the linear model bends there); the verdict then uses the
+Monte Carlo's yield. The Monte Carlo is skipped
 where it cannot change the verdict (other reasons already make the candidate ``not buildable``, or
 ``marginal`` with the estimate far from the lower yield limit), which keeps a comparison fast.
 """
@@ -237,9 +238,10 @@ def _yield(result: DesignResult, limits: VerdictLimits, so_far: str) -> tuple[Yi
     tol = part_tolerances_of({c.ref: c.kind for c in topo.components}, result.chosen, limits)
     est = estimate_yield(result.analysis.sensitivity, tol, limits)
     edges = {BUILDABLE: (limits.yield_marginal, limits.yield_min), MARGINAL: (limits.yield_min,), NOT_BUILDABLE: ()}[so_far]
-    near = any(abs(est.fraction - e) < limits.confirm_band for e in edges)
-    bent = bool(edges) and max(est.sigma["f0"], est.sigma["q"], math.expm1(est.sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
-    mc = confirm_yield(result.analysis.netlist, tol, limits) if (near or bent) and tol else None
+    bent = max(est.sigma["f0"], est.sigma["q"], math.expm1(est.sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
+    band = limits.confirm_band * (4.0 if bent else 1.0)
+    near = any(abs(est.fraction - e) < band for e in edges)
+    mc = confirm_yield(result.analysis.netlist, tol, limits) if near and tol else None
     return est, mc, est.fraction if mc is None else mc
 
 
@@ -316,12 +318,12 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
     reasons += _range_reasons(result, limits)
     reasons += _amp_reasons(result, limits)
+    r = _inductor_reason(result, limits)
+    if r is not None:
+        reasons.append(r)
     so_far = max((r.weight for r in reasons), key=VERDICTS.index, default=BUILDABLE)
     est, mc, y = _yield(result, limits, so_far)
     r = _yield_reason(est, mc, y, limits, {c.kind for c in topo.components})
-    if r is not None:
-        reasons.append(r)
-    r = _inductor_reason(result, limits)
     if r is not None:
         reasons.append(r)
     ordered = _order(reasons)

@@ -51,7 +51,7 @@ LIMIT_SOURCES = MappingProxyType({
     "mc_trials": "a short check: about ±1 percentage point of standard error at 2 000 trials",
     "mc_seed": "fixed so that the same candidate always gets the same verdict",
     "confirm_band": "chosen here: estimates this close to a yield limit are checked by Monte Carlo",
-    "confirm_sigma": "chosen here: beyond this relative spread the first-order model is checked by Monte Carlo",
+    "confirm_sigma": "chosen here: beyond this relative spread the first-order model is checked over a wider band",
 })
 
 
@@ -114,8 +114,8 @@ class VerdictLimits:
     confirm_band : float
         Estimates within this distance of a yield limit (0.05 = 5 percentage points) are confirmed.
     confirm_sigma : float
-        Estimates where a figure's first-order relative spread exceeds this (5 %) are confirmed (the
-        first-order model bends there).
+        Where a figure's first-order relative spread exceeds this (5 %), the first-order model
+        bends, and estimates within four times ``confirm_band`` of a yield limit are confirmed.
     """
 
     r_spread_marginal: float = 1_000.0

@@ -68,6 +68,14 @@ def _points(parts: int) -> np.ndarray:
     return u
 
 
+@functools.lru_cache(maxsize=64)
+def _log_deviations(p: tuple[float, ...]) -> np.ndarray:
+    """``ln(1 + p_i·u)`` at the fixed points, shape ``(parts, POINTS)`` (cached: tolerances repeat)."""
+    d = np.log1p(np.array(p)[:, None] * _points(len(p)))
+    d.setflags(write=False)
+    return d
+
+
 @dataclass(frozen=True, slots=True)
 class YieldEstimate:
     """A first-order yield estimate.
@@ -146,7 +154,7 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
           -limits.window_gain_db / _DB_PER_NEPER]
     hi = [math.log1p(limits.window_f0), math.log1p(limits.window_q), limits.window_gain_db / _DB_PER_NEPER]
     if refs:
-        x = s @ np.log1p(p[:, None] * _points(len(refs)))  # (3, points): the figures' log deviations
+        x = s @ _log_deviations(tuple(p.tolist()))  # (3, points): the figures' log deviations
     else:
         x = np.zeros((len(FIGURES), 1))
     inside = [(row >= a) & (row <= b) for row, a, b in zip(x, lo, hi)]
