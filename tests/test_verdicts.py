@@ -223,3 +223,15 @@ def test_monte_carlo_confirms_only_near_a_limit(demo):
     j = comparison_json(demo)
     tank = next(c for c in j["candidates"] if c["topology"] == "rlc-tank")
     assert tank["yield"]["method"] == "monte carlo"
+
+
+def test_compare_limit_options_reach_the_verdicts(capsys):
+    argv = ["compare", "--f0", "20k", "--q", "50", "--gain", "10", "--json"]
+    assert cli_main(argv + ["--max-gbw", "1G", "--max-r-spread", "20000"]) == 0
+    j = json.loads(capsys.readouterr().out)
+    mfb = next(c for c in j["candidates"] if c["topology"] == "mfb")
+    codes = {r["code"]: r for r in mfb["reasons"]}
+    assert "r_spread" not in codes and codes["gbw"]["weight"] == "marginal"
+    assert j["limits"]["gbw_max_hz"] == 1e9 and j["limits"]["r_spread_max"] >= 20000
+    assert cli_main(argv + ["--good-yield", "40%"]) == 0
+    assert json.loads(capsys.readouterr().out)["limits"]["yield_min"] == pytest.approx(0.4)

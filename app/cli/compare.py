@@ -48,11 +48,19 @@ def limits_from(args) -> VerdictLimits:
         if reader == "fraction" and not 0 < v <= 1:
             raise InputError(field, f"must be a yield above 0 and at most 100%, got {text!r}")
         kw[name] = v
-    if "yield_min" in kw and "yield_marginal" not in kw:
-        kw["yield_marginal"] = max(kw["yield_min"], VerdictLimits().yield_marginal)
-    if "gbw_max_hz" in kw and "gbw_ordinary_hz" not in kw:
-        kw["gbw_ordinary_hz"] = min(kw["gbw_max_hz"], VerdictLimits().gbw_ordinary_hz)
-    return VerdictLimits(**kw)
+    # One limit of a pair given alone moves the other only as far as it must.
+    default = VerdictLimits()
+    for low, high in (("yield_min", "yield_marginal"), ("gbw_ordinary_hz", "gbw_max_hz"),
+                      ("r_spread_marginal", "r_spread_max"), ("c_spread_marginal", "c_spread_max")):
+        if low in kw and high not in kw:
+            kw[high] = max(kw[low], getattr(default, high))
+        if high in kw and low not in kw:
+            kw[low] = min(kw[high], getattr(default, low))
+    try:
+        return VerdictLimits(**kw)
+    except InputError as exc:  # name the option, not the field of the limits object
+        options = {name.replace("_", "-"): option[2:] for option, name, _, _ in _LIMIT_OPTIONS}
+        raise InputError(options.get(exc.field, exc.field), exc.reason) from None
 
 
 def _v(x, unit="", digits=4) -> str:
