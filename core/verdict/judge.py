@@ -253,7 +253,8 @@ def _yield_reason(est: YieldEstimate, mc: float | None, y: float, limits: Verdic
     how = f"{limits.mc_trials} Monte Carlo trials" if mc is not None else "first-order estimate"
     tol = ", ".join(f"{k} {100 * limits.tolerances[k]:g} %" for k in ("R", "C", "L") if k in kinds)
     window = f"f0 ±{100 * limits.window_f0:g} %, Q ±{100 * limits.window_q:g} %, gain ±{limits.window_gain_db:g} dB"
-    most = f"; {est.figure_words} varies most, {100 * est.share:.0f} % of it from {est.part}" if est.part else ""
+    spread = f"±{est.sigma['gain_db']:.2g} dB" if est.figure == "gain" else f"±{100 * est.sigma[est.figure]:.2g} %"
+    most = f"; {est.figure_words} varies most ({spread} at one standard deviation), {100 * est.share:.0f} % of that from {est.part}" if est.part else ""
     return Reason(
         "yield",
         f"yield {100 * y:.1f} % ({how}) with parts of {tol} inside {window}, below {100 * limit:g} %{most}",

@@ -21,6 +21,7 @@ import math
 from dataclasses import dataclass
 from typing import Sequence
 
+from bandsmith.common.values import format_value
 from bandsmith.verdict.judge import BUILDABLE, VERDICTS, Verdict
 
 __all__ = ["YIELD_STEP", "Ranking", "merit_key", "rank"]
@@ -69,8 +70,8 @@ def rank(verdicts: Sequence[Verdict]) -> Ranking:
         return Ranking((), (), None, "there is no candidate to judge")
     best = verdicts[order[0]]
     if best.verdict == BUILDABLE:
-        why = [f"yield {100 * best.yield_fraction:.0f} %" if best.yield_fraction is not None else None,
-               f"op-amp of {best.required_gbw_hz / 1e6:.3g} MHz" if best.required_gbw_hz is not None else None,
+        why = [f"yield {100 * best.yield_fraction:.1f} %" if best.yield_fraction is not None else None,
+               f"op-amp of {format_value(best.required_gbw_hz, 'Hz')} GBW" if best.required_gbw_hz is not None else None,
                f"{best.part_count} parts", "with an inductor" if best.needs_inductor else "no inductor"]
         others = sum(1 for v in verdicts if v.verdict == BUILDABLE) - 1
         lead = "the only buildable candidate" if others == 0 else f"the best of {others + 1} buildable candidates"
