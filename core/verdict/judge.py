@@ -150,12 +150,13 @@ def _ratio(x: float) -> str:
     return (f"{x:,.0f}".replace(",", " ") if x >= 1000 else f"{x:.3g}") + " : 1"
 
 
-def _figure_reasons(errors: Mapping[str, float], tol, series: str, suffix: str, with_what: str) -> list[Reason]:
+def _figure_reasons(errors: Mapping[str, float], tol, suffix: str, with_what: str) -> list[Reason]:
+    """A reason for each figure error (``errors_of``'s keys) beyond the design tolerances ``tol``."""
     out = []
-    for key, code, name, value, limit, unit in (
-        ("f0_pct", "f0_error", "f0", errors["f0_pct"], 100.0 * tol.f0, "%"),
-        ("q_pct", "q_error", "Q", errors["q_pct"], 100.0 * tol.q, "%"),
-        ("gain_db", "gain_error", "the centre gain", errors["gain_db"], tol.gain_db, "dB"),
+    for code, name, value, limit, unit in (
+        ("f0_error", "f0", errors["f0_pct"], 100.0 * tol.f0, "%"),
+        ("q_error", "Q", errors["q_pct"], 100.0 * tol.q, "%"),
+        ("gain_error", "the centre gain", errors["gain_db"], tol.gain_db, "dB"),
     ):
         if not math.isfinite(value) or abs(value) > limit:
             out.append(Reason(
@@ -311,11 +312,10 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     reasons: list[Reason] = []
     if not a.stable_ideal or a.stable_actual is False:
         reasons.append(Reason("unstable", "; ".join(a.warnings) or "unstable", None, None, NOT_BUILDABLE))
-    series = "exact" if result.series == "exact" else f"{result.series}"
-    reasons += _figure_reasons(result.errors, tol, series, "", f"with {series} parts and an ideal op-amp,")
+    reasons += _figure_reasons(result.errors, tol, "", f"with {result.series} parts and an ideal op-amp,")
     if a.actual is not None:
-        reasons += _figure_reasons(errors_of(a.actual, result.spec), tol, series, "_opamp",
-                                   f"with the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
+        reasons += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
+                                   f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
     reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
     reasons += _range_reasons(result, limits)
     reasons += _amp_reasons(result, limits)
