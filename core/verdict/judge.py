@@ -27,7 +27,7 @@ figure beyond its design tolerance is always ``not buildable``.
 
 The yield is estimated from the sensitivities (:func:`bandsmith.verdict.yield_estimate.estimate_yield`)
 and confirmed by a short fixed-seed Monte Carlo when the estimate lies within
-``limits.confirm_band`` of a yield limit, or within four times that where a figure's first-order
+``limits.confirm_band`` of a yield limit, or within twice that where a figure's first-order
 spread exceeds ``limits.confirm_sigma`` (the linear model bends there); the verdict then uses the
 Monte Carlo's yield. The Monte Carlo is skipped
 where it cannot change the verdict (other reasons already make the candidate ``not buildable``, or
@@ -240,7 +240,7 @@ def _yield(result: DesignResult, limits: VerdictLimits, so_far: str) -> tuple[Yi
     est = estimate_yield(result.analysis.sensitivity, tol, limits)
     edges = {BUILDABLE: (limits.yield_marginal, limits.yield_min), MARGINAL: (limits.yield_min,), NOT_BUILDABLE: ()}[so_far]
     bent = max(est.sigma["f0"], est.sigma["q"], math.expm1(est.sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
-    band = limits.confirm_band * (4.0 if bent else 1.0)
+    band = limits.confirm_band * (2.0 if bent else 1.0)
     near = any(abs(est.fraction - e) < band for e in edges)
     mc = confirm_yield(result.analysis.netlist, tol, limits) if near and tol else None
     return est, mc, est.fraction if mc is None else mc

@@ -115,7 +115,7 @@ class VerdictLimits:
         Estimates within this distance of a yield limit (0.05 = 5 percentage points) are confirmed.
     confirm_sigma : float
         Where a figure's first-order relative spread exceeds this (5 %), the first-order model
-        bends, and estimates within four times ``confirm_band`` of a yield limit are confirmed.
+        bends, and estimates within twice ``confirm_band`` of a yield limit are confirmed.
     """
 
     r_spread_marginal: float = 1_000.0

@@ -181,14 +181,27 @@ def confirm_yield(netlist: Netlist, tolerances: Mapping[str, float], limits: Ver
     """The yield of a short fixed-seed Monte Carlo (ideal op-amp) with these part tolerances and window.
 
     ``tolerances`` by reference (parts not in it are held exact); ``trials`` and ``seed`` default to
-    the limits' ``mc_trials`` and ``mc_seed``.
+    the limits' ``mc_trials`` and ``mc_seed``. The same candidate always gives the same number, so
+    recent results are kept (a comparison re-judged after one candidate changed runs only that
+    candidate's Monte Carlo again).
     """
+    return _confirm(
+        netlist,
+        tuple(sorted((r, float(p)) for r, p in tolerances.items())),
+        limits.mc_trials if trials is None else int(trials),
+        limits.mc_seed if seed is None else int(seed),
+        (limits.window_f0, limits.window_q, limits.window_gain_db),
+    )
+
+
+@functools.lru_cache(maxsize=256)
+def _confirm(netlist: Netlist, tolerances: tuple[tuple[str, float], ...], trials: int, seed: int, window: tuple[float, float, float]) -> float:
     settings = SpreadSettings(
-        tolerances={"R": 0.0, "C": 0.0, "L": 0.0, **{r: float(p) for r, p in tolerances.items()}},
-        trials=limits.mc_trials if trials is None else trials,
-        seed=limits.mc_seed if seed is None else seed,
-        window_f0=limits.window_f0,
-        window_q=limits.window_q,
-        window_gain_db=limits.window_gain_db,
+        tolerances={"R": 0.0, "C": 0.0, "L": 0.0, **dict(tolerances)},
+        trials=trials,
+        seed=seed,
+        window_f0=window[0],
+        window_q=window[1],
+        window_gain_db=window[2],
     )
     return run_spread(netlist, settings).yield_fraction
