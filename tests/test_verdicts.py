@@ -262,3 +262,14 @@ def test_every_registered_circuit_gets_a_verdict(target):
     ranked = [v for _, v, _ in c.ranked()]
     order = [(BUILDABLE, MARGINAL, NOT_BUILDABLE).index(v.verdict) for v in ranked]
     assert order == sorted(order)
+
+
+def test_every_limit_has_a_source_and_a_description():
+    from dataclasses import fields
+
+    from bandsmith.verdict import LIMIT_SOURCES
+
+    names = {f.name for f in fields(VerdictLimits)}
+    assert names == set(LIMIT_SOURCES)
+    assert all(LIMIT_SOURCES[n] for n in names)
+    assert all(n in VerdictLimits.__doc__ for n in names)
