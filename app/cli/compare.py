@@ -5,18 +5,62 @@ from __future__ import annotations
 import math
 
 from bandsmith.circuits import get_topology
-from bandsmith.design.compare import compare, compare_json
+from bandsmith.common.errors import InputError
 from bandsmith.files.design_session import design_session
 from bandsmith.files.session import save_session
-from bandsmith.common.values import format_value
+from bandsmith.common.values import format_value, parse_fraction, parse_positive
+from bandsmith.verdict import VerdictLimits, compare_verdicts, comparison_json
 
 from bandsmith.app.cli.common import Command, conditions_from, print_json
 from bandsmith.app.cli.design import add_target_options, series_from, spec_from
 from bandsmith.app.cli.text import UNITS, signed_error, table
 
 
+# Verdict limit options: (option, VerdictLimits field, reader, help).
+_LIMIT_OPTIONS = (
+    ("--max-gbw", "gbw_max_hz", "value", "required GBW above this makes a candidate not buildable (default 50 MHz)"),
+    ("--ordinary-gbw", "gbw_ordinary_hz", "value", "required GBW above this makes it marginal (default 10 MHz)"),
+    ("--min-yield", "yield_min", "fraction", "yield below this makes it not buildable (default 50%%)"),
+    ("--good-yield", "yield_marginal", "fraction", "yield below this makes it marginal (default 90%%)"),
+    ("--max-r-spread", "r_spread_marginal", "value", "resistor spread above this makes it marginal (default 1000)"),
+    ("--max-c-spread", "c_spread_marginal", "value", "capacitor spread above this makes it marginal (default 100)"),
+    ("--opamp-slew", "opamp_slew_v_per_us", "value", "the op-amp's slew rate in V/µs, when known"),
+    ("--opamp-iout", "opamp_iout_ma", "value", "the op-amp's output current in mA, when known"),
+)
+
+
 def configure(p):
     add_target_options(p)
+    g = p.add_argument_group("verdict limits")
+    for option, _, _, text in _LIMIT_OPTIONS:
+        g.add_argument(option, metavar="X", help=text)
+
+
+def limits_from(args) -> VerdictLimits:
+    """The verdict limits from the command line (defaults for those not given)."""
+    kw = {}
+    for option, name, reader, _ in _LIMIT_OPTIONS:
+        text = getattr(args, option[2:].replace("-", "_"), None)
+        if text is None:
+            continue
+        field = option[2:]
+        v = parse_fraction(text, field=field) if reader == "fraction" else parse_positive(text, field=field)
+        if reader == "fraction" and not 0 < v <= 1:
+            raise InputError(field, f"must be a yield above 0 and at most 100%, got {text!r}")
+        kw[name] = v
+    # One limit of a pair given alone moves the other only as far as it must.
+    default = VerdictLimits()
+    for low, high in (("yield_min", "yield_marginal"), ("gbw_ordinary_hz", "gbw_max_hz"),
+                      ("r_spread_marginal", "r_spread_max"), ("c_spread_marginal", "c_spread_max")):
+        if low in kw and high not in kw:
+            kw[high] = max(kw[low], getattr(default, high))
+        if high in kw and low not in kw:
+            kw[low] = min(kw[high], getattr(default, low))
+    try:
+        return VerdictLimits(**kw)
+    except InputError as exc:  # name the option, not the field of the limits object
+        options = {name.replace("_", "-"): option[2:] for option, name, _, _ in _LIMIT_OPTIONS}
+        raise InputError(options.get(exc.field, exc.field), exc.reason) from None
 
 
 def _v(x, unit="", digits=4) -> str:
@@ -32,13 +76,24 @@ def print_compare(out: dict) -> None:
         f"|centre gain| {spec['gain']:.5g}; parts from {out['series']}"
     )
     print()
+    _print_verdicts(out)
+    gbw = (out.get("figures_with") or {}).get("gbw_hz")
+    if gbw is not None:
+        print(f"figures below are with the op-amp of GBW {format_value(gbw, 'Hz')} (single pole); errors against the target")
+    else:
+        print("figures below are with an ideal op-amp; errors against the target")
+    print()
     header = [""] + [c["topology"] for c in cands]
     refs: list[str] = []
     for c in cands:
         for ref in get_topology(c["topology"]).refs:
             if ref not in refs:
                 refs.append(ref)
-    rows = [["feasible"] + ["yes" if c["feasible"] else "no" for c in cands]]
+    rows = [
+        ["verdict"] + [c.get("verdict", "—") for c in cands],
+        ["rank"] + [str(c.get("rank", "—")) for c in cands],
+        ["feasible"] + ["yes" if c["feasible"] else "no" for c in cands],
+    ]
     for ref in refs:
         row = [ref]
         for c in cands:
@@ -49,11 +104,14 @@ def print_compare(out: dict) -> None:
                 row.append(_v(c["chosen"][ref], UNITS[topo.component(ref).kind]))
         rows.append(row)
 
+    def shown(c):
+        return c.get("actual") if gbw is not None and c.get("actual") else c["ideal"]
+
     def fig(key, unit="", digits=5):
-        return [_v(c["ideal"][key], unit, digits) if c["ideal"] else "—" for c in cands]
+        return [_v(shown(c)[key], unit, digits) if shown(c) else "—" for c in cands]
 
     def err(key, unit="%"):
-        return [signed_error(c["errors"][key], unit) if c["errors"] else "—" for c in cands]
+        return [signed_error(_errors(shown(c), spec)[key], unit) if shown(c) else "—" for c in cands]
 
     def req(key, unit="", scale=1.0):
         return [_v(c["requirements"][key] * scale if c["requirements"] and c["requirements"][key] is not None else None, unit) for c in cands]
@@ -73,6 +131,7 @@ def print_compare(out: dict) -> None:
         ["C spread"] + [f"{c['spread']['c']:.3g} : 1" if c["spread"] and c["spread"]["c"] else "—" for c in cands],
         ["parts"] + [str(c["part_count"]) for c in cands],
         ["inductor"] + ["yes" if c["needs_inductor"] else "no" for c in cands],
+        ["yield"] + [f"{c['yield']['yield_pct']:.1f} %" if c.get("yield") else "—" for c in cands],
         ["warnings"] + [str(len(c["warnings"])) for c in cands],
     ]
     print(table(rows, header=header))
@@ -85,14 +144,44 @@ def print_compare(out: dict) -> None:
                 print(f"  - {line}")
 
 
+def _errors(fig: dict, spec: dict) -> dict:
+    """``f0_pct``, ``q_pct``, ``gain_db`` of a FIGURES object against the target."""
+    def pct(x, ref):
+        return None if x is None else 100.0 * (x / ref - 1.0)
+
+    g = fig.get("gain_center_db")
+    return {
+        "f0_pct": pct(fig.get("f0_hz"), spec["f0_hz"]),
+        "q_pct": pct(fig.get("q"), spec["q"]),
+        "gain_db": None if g is None else g - 20.0 * math.log10(spec["gain"]),
+    }
+
+
+def _print_verdicts(out: dict) -> None:
+    """The recommendation first, then every candidate best first with its verdict and reasons."""
+    rec = out.get("recommended")
+    print(f"recommended: {rec}" if rec else "recommended: none")
+    print(f"  {out.get('recommended_reason')}")
+    print()
+    for c in sorted(out["candidates"], key=lambda c: c.get("rank", 0)):
+        y = c.get("yield")
+        extra = f", yield {y['yield_pct']:.1f} %" if y else ""
+        print(f"{c.get('rank')}. {c['topology']}: {c.get('verdict')}{extra}")
+        for r in c.get("reasons", []):
+            print(f"     - {r['text']}")
+    print()
+
+
 def run(args) -> int:
     spec = spec_from(args)
     series = series_from(args)
     conditions = conditions_from(args)
-    results = compare(spec, series=series, conditions=conditions)
+    limits = limits_from(args)
+    comparison = compare_verdicts(spec, series=series, conditions=conditions, limits=limits)
+    results = comparison.results
     if args.save:
         save_session(design_session(spec, results, series=series, conditions=conditions), args.save)
-    out = compare_json(spec, results)
+    out = comparison_json(comparison)
     if args.json:
         print_json(out)
     else:
@@ -103,4 +192,4 @@ def run(args) -> int:
     return 0
 
 
-COMMAND = Command("compare", "design every circuit for one target and compare them side by side", configure, run, order=45)
+COMMAND = Command("compare", "design every circuit for one target, judge each (buildable, marginal, not buildable) and rank them", configure, run, order=45)

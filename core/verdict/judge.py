@@ -1,0 +1,333 @@
+"""A verdict for one designed candidate: ``buildable``, ``marginal`` or ``not buildable``, with reasons.
+
+The checks, each giving a reason only when a limit of :class:`bandsmith.verdict.limits.VerdictLimits`
+(or a design tolerance) is crossed:
+
+=====================  ==============================================================  ================
+code                   what                                                            weight
+=====================  ==============================================================  ================
+``infeasible``         the circuit's design procedure cannot meet the target            not buildable
+``unstable``           a pole in the right half-plane (ideal, or with the op-amp)       not buildable
+``f0_error`` …         an ideal-op-amp figure (f0, Q, gain) beyond its design tolerance not buildable
+``f0_error_opamp`` …   the same with the session's op-amp (``--gbw``)                    not buildable
+``r_spread``           largest over smallest resistor                                   marginal / not
+``c_spread``           the same for capacitors                                          marginal / not
+``part_small/large``   a part outside the practical range of its kind                   marginal
+``gbw_none``           no op-amp GBW meets the tolerances (A0 too small)                not buildable
+``gbw``                required GBW above ordinary op-amps / above the ceiling          marginal / not
+``gbw_opamp``          required GBW above the session's op-amp                           not buildable
+``slew``/``iout``      needed slew rate / output current above an ordinary op-amp      marginal
+``slew_opamp`` …       the same above the session's op-amp (when known)                 not buildable
+``yield``              yield under the part tolerances below the limits                 marginal / not
+``inductor_q``         the inductor's winding must reach a Q beyond ordinary parts       marginal / not
+=====================  ==============================================================  ================
+
+A candidate's verdict is the heaviest weight among its reasons; with none it is ``buildable``. A
+figure beyond its design tolerance is always ``not buildable``.
+
+The yield is estimated from the sensitivities (:func:`bandsmith.verdict.yield_estimate.estimate_yield`)
+and confirmed by a short fixed-seed Monte Carlo when the estimate lies within
+``limits.confirm_band`` of a yield limit, or within twice that where a figure's first-order
+spread exceeds ``limits.confirm_sigma`` (the linear model bends there); the verdict then uses the
+Monte Carlo's yield. The Monte Carlo is skipped
+where it cannot change the verdict (other reasons already make the candidate ``not buildable``, or
+``marginal`` with the estimate far from the lower yield limit), which keeps a comparison fast.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Mapping
+
+from bandsmith.analysis.inductor import inductor_q_needed
+from bandsmith.common.values import format_value
+from bandsmith.design.compare import needs_inductor, part_count
+from bandsmith.design.designer import DesignResult, errors_of, spread_of
+from bandsmith.verdict.limits import VerdictLimits
+from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield, part_tolerances_of
+
+__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge"]
+
+BUILDABLE, MARGINAL, NOT_BUILDABLE = "buildable", "marginal", "not buildable"
+#: The verdicts, best first.
+VERDICTS = (BUILDABLE, MARGINAL, NOT_BUILDABLE)
+_UNITS = {"R": "Ω", "C": "F", "L": "H"}
+_KIND_WORDS = {"R": "resistor", "C": "capacitor", "L": "inductor"}
+_SMALL_WHY = {
+    "R": "it loads the op-amp's output and the stage driving it",
+    "C": "a few pF of stray capacitance shift it noticeably",
+    "L": "its own winding capacitance and lead inductance matter",
+}
+_LARGE_WHY = {
+    "R": "bias current, leakage, noise and stray capacitance matter",
+    "C": "only electrolytic or high-k parts come this large: loss, drift and wide tolerance",
+    "L": "a large inductor has a low self-resonance and a large winding resistance",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Reason:
+    """One reason behind a verdict.
+
+    Attributes
+    ----------
+    code : str
+        A stable key (see the module notes).
+    text : str
+        The reason in plain words, with its number.
+    value, limit : float or None
+        The number behind it and the limit it crossed, in the unit the code implies (per cent for
+        ``*_error`` of f0 and Q and for ``yield``, dB for the gain error, Hz, V/µs, mA, ratios).
+    weight : str
+        ``marginal`` or ``not buildable``.
+    """
+
+    code: str
+    text: str
+    value: float | None
+    limit: float | None
+    weight: str
+
+    def to_json(self) -> dict:
+        def f(x):
+            return None if x is None or not math.isfinite(x) else float(x)
+
+        return {"code": self.code, "text": self.text, "value": f(self.value), "limit": f(self.limit), "weight": self.weight}
+
+
+@dataclass(frozen=True, slots=True)
+class Verdict:
+    """The verdict of one candidate.
+
+    Attributes
+    ----------
+    candidate : str
+        The candidate's id (its circuit id in a comparison).
+    verdict : str
+        ``buildable``, ``marginal`` or ``not buildable``.
+    reasons : tuple of Reason
+        Every limit crossed, heaviest first.
+    yield_fraction : float or None
+        The yield the verdict used (the Monte Carlo's when it ran, else the estimate); None for an
+        infeasible candidate.
+    estimate : YieldEstimate or None
+    yield_mc : float or None
+        The confirming Monte Carlo's yield (None when it did not run).
+    required_gbw_hz : float or None
+    part_count : int
+    needs_inductor : bool
+    with_opamp : float or None
+        The session op-amp's GBW (Hz) the figures were also judged with.
+    """
+
+    candidate: str
+    verdict: str
+    reasons: tuple[Reason, ...]
+    yield_fraction: float | None
+    estimate: YieldEstimate | None
+    yield_mc: float | None
+    required_gbw_hz: float | None
+    part_count: int
+    needs_inductor: bool
+    with_opamp: float | None = None
+
+    def to_json(self) -> dict:
+        return {
+            "verdict": self.verdict,
+            "reasons": [r.to_json() for r in self.reasons],
+            "yield": None if self.yield_fraction is None else {
+                "yield_pct": 100.0 * self.yield_fraction,
+                "method": "monte carlo" if self.yield_mc is not None else "first-order estimate",
+                "estimate": self.estimate.to_json() if self.estimate is not None else None,
+                "monte_carlo_pct": None if self.yield_mc is None else 100.0 * self.yield_mc,
+            },
+        }
+
+
+def _ratio(x: float) -> str:
+    """A spread as ``72 : 1`` or ``10 000 : 1``."""
+    return (f"{x:,.0f}".replace(",", " ") if x >= 1000 else f"{x:.3g}") + " : 1"
+
+
+def _figure_reasons(errors: Mapping[str, float], tol, suffix: str, with_what: str) -> list[Reason]:
+    """A reason for each figure error (``errors_of``'s keys) beyond the design tolerances ``tol``."""
+    out = []
+    for code, name, value, limit, unit in (
+        ("f0_error", "f0", errors["f0_pct"], 100.0 * tol.f0, "%"),
+        ("q_error", "Q", errors["q_pct"], 100.0 * tol.q, "%"),
+        ("gain_error", "the centre gain", errors["gain_db"], tol.gain_db, "dB"),
+    ):
+        if not math.isfinite(value) or abs(value) > limit:
+            out.append(Reason(
+                code + suffix,
+                f"{with_what} {name} misses the target by {value:+.3g} {unit}, beyond the ±{limit:g} {unit} design tolerance",
+                value, limit, NOT_BUILDABLE,
+            ))
+    return out
+
+
+def _spread_reasons(spread: Mapping[str, float | None], limits: VerdictLimits) -> list[Reason]:
+    out = []
+    for key, word, marginal, hard in (("r", "resistor", limits.r_spread_marginal, limits.r_spread_max),
+                                      ("c", "capacitor", limits.c_spread_marginal, limits.c_spread_max)):
+        s = spread.get(key)
+        if s is None:
+            continue
+        if s > hard:
+            out.append(Reason(f"{key}_spread", f"{word} spread {_ratio(s)} is beyond {_ratio(hard)}: the parts cannot track or be bought from one range", s, hard, NOT_BUILDABLE))
+        elif s > marginal:
+            out.append(Reason(f"{key}_spread", f"{word} spread {_ratio(s)} is above {_ratio(marginal)}: parts from far-apart ranges that drift apart", s, marginal, MARGINAL))
+    return out
+
+
+def _range_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
+    bounds = {"R": (limits.r_min_ohm, limits.r_max_ohm), "C": (limits.c_min_f, limits.c_max_f), "L": (limits.l_min_h, limits.l_max_h)}
+    out = []
+    for comp in result.topology.components:
+        if not comp.required or comp.kind not in bounds:
+            continue
+        v = result.chosen.get(comp.ref, 0.0)
+        lo, hi = bounds[comp.kind]
+        unit = _UNITS[comp.kind]
+        if v < lo:
+            out.append(Reason("part_small", f"{comp.ref} = {format_value(v, unit)} is below {format_value(lo, unit)}: {_SMALL_WHY[comp.kind]}", v, lo, MARGINAL))
+        elif v > hi:
+            out.append(Reason("part_large", f"{comp.ref} = {format_value(v, unit)} is above {format_value(hi, unit)}: {_LARGE_WHY[comp.kind]}", v, hi, MARGINAL))
+    return out
+
+
+def _amp_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
+    req = result.analysis.requirements
+    out = []
+    gbw = req.gbw_hz
+    if gbw is None or not math.isfinite(gbw):
+        out.append(Reason("gbw_none", f"no op-amp gain-bandwidth holds the figures within the tolerances: {req.gbw_reason or 'the open-loop gain is too small'}", None, None, NOT_BUILDABLE))
+    else:
+        if gbw > limits.gbw_max_hz:
+            out.append(Reason("gbw", f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, beyond the {format_value(limits.gbw_max_hz, 'Hz')} ceiling", gbw, limits.gbw_max_hz, NOT_BUILDABLE))
+        elif gbw > limits.gbw_ordinary_hz:
+            out.append(Reason("gbw", f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, above the {format_value(limits.gbw_ordinary_hz, 'Hz')} of ordinary op-amps: a fast part and a careful layout", gbw, limits.gbw_ordinary_hz, MARGINAL))
+        own = result.conditions.gbw_hz
+        if own is not None and gbw > own:
+            out.append(Reason("gbw_opamp", f"needs {format_value(gbw, 'Hz')} gain-bandwidth; the session's op-amp has {format_value(own, 'Hz')}", gbw, own, NOT_BUILDABLE))
+    slews = [x for x in (req.slew_sine_v_per_us, req.slew_step_v_per_us) if x is not None and math.isfinite(x)]
+    if slews:
+        slew = max(slews)
+        for code, limit, weight, whose in (("slew_opamp", limits.opamp_slew_v_per_us, NOT_BUILDABLE, "the session's op-amp"),
+                                           ("slew", limits.slew_ordinary_v_per_us, MARGINAL, "an ordinary op-amp")):
+            if limit is not None and slew > limit:
+                out.append(Reason(code, f"needs a slew rate of {slew:.3g} V/µs at {req.vin_v:g} V in, above the {limit:g} V/µs of {whose}", slew, limit, weight))
+                break
+    iout = req.iout_peak_ma
+    if iout is not None and math.isfinite(iout):
+        for code, limit, weight, whose in (("iout_opamp", limits.opamp_iout_ma, NOT_BUILDABLE, "the session's op-amp"),
+                                           ("iout", limits.iout_ordinary_ma, MARGINAL, "an ordinary op-amp")):
+            if limit is not None and iout > limit:
+                out.append(Reason(code, f"the op-amp must deliver {iout:.3g} mA peak at {req.vin_v:g} V in, above the {limit:g} mA of {whose}", iout, limit, weight))
+                break
+    return out
+
+
+def _yield(result: DesignResult, limits: VerdictLimits, so_far: str) -> tuple[YieldEstimate, float | None, float]:
+    """The estimate, the confirming Monte Carlo's yield (or None) and the yield the verdict uses.
+
+    The Monte Carlo runs only where it can change the verdict: not when other reasons already
+    make the candidate ``not buildable``; when they make it ``marginal``, only near the lower limit.
+    """
+    topo = result.topology
+    tol = part_tolerances_of({c.ref: c.kind for c in topo.components}, result.chosen, limits)
+    est = estimate_yield(result.analysis.sensitivity, tol, limits)
+    edges = {BUILDABLE: (limits.yield_marginal, limits.yield_min), MARGINAL: (limits.yield_min,), NOT_BUILDABLE: ()}[so_far]
+    bent = max(est.sigma["f0"], est.sigma["q"], math.expm1(est.sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
+    band = limits.confirm_band * (2.0 if bent else 1.0)
+    near = any(abs(est.fraction - e) < band for e in edges)
+    mc = confirm_yield(result.analysis.netlist, tol, limits) if near and tol else None
+    return est, mc, est.fraction if mc is None else mc
+
+
+def _yield_reason(est: YieldEstimate, mc: float | None, y: float, limits: VerdictLimits, kinds: set[str]) -> Reason | None:
+    if y >= limits.yield_marginal:
+        return None
+    hard = y < limits.yield_min
+    limit = limits.yield_min if hard else limits.yield_marginal
+    how = f"{limits.mc_trials} Monte Carlo trials" if mc is not None else "first-order estimate"
+    tol = ", ".join(f"{k} {100 * limits.tolerances[k]:g} %" for k in ("R", "C", "L") if k in kinds)
+    window = f"f0 ±{100 * limits.window_f0:g} %, Q ±{100 * limits.window_q:g} %, gain ±{limits.window_gain_db:g} dB"
+    spread = f"±{est.sigma['gain_db']:.2g} dB" if est.figure == "gain" else f"±{100 * est.sigma[est.figure]:.2g} %"
+    most = f"; {est.figure_words} varies most ({spread} at one standard deviation), {100 * est.share:.0f} % of that from {est.part}" if est.part else ""
+    return Reason(
+        "yield",
+        f"yield {100 * y:.1f} % ({how}) with parts of {tol} inside {window}, below {100 * limit:g} %{most}",
+        100.0 * y, 100.0 * limit, NOT_BUILDABLE if hard else MARGINAL,
+    )
+
+
+def _inductor_reason(result: DesignResult, limits: VerdictLimits) -> Reason | None:
+    if not needs_inductor(result.topology):
+        return None
+    tol_q = result.conditions.tolerances.q
+    needed = inductor_q_needed(result.spec.q, max_q_loss=min(tol_q, 0.99))
+    if needed > limits.inductor_q_max:
+        weight, limit, what = NOT_BUILDABLE, limits.inductor_q_max, "any inductor you can buy"
+    elif needed > limits.inductor_q_ordinary:
+        weight, limit, what = MARGINAL, limits.inductor_q_ordinary, "ordinary small inductors"
+    else:
+        return None
+    return Reason(
+        "inductor_q",
+        f"to keep Q within ±{100 * tol_q:g} % the inductor's winding needs a Q of {needed:.3g} at f0, beyond the {limit:g} of {what}",
+        needed, limit, weight,
+    )
+
+
+def _order(reasons: list[Reason]) -> tuple[Reason, ...]:
+    return tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
+
+
+def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, candidate: str | None = None) -> Verdict:
+    """The verdict of one designed candidate (see the module notes).
+
+    Parameters
+    ----------
+    result : DesignResult
+        A design (:func:`bandsmith.design.designer.design`); its conditions' tolerances are the
+        design tolerances and its op-amp (``conditions.gbw_hz``) the session's op-amp.
+    limits : VerdictLimits
+    candidate : str, optional
+        The candidate's id (default: its circuit id).
+
+    Returns
+    -------
+    Verdict
+    """
+    topo = result.topology
+    cid = candidate or result.topology_id
+    count, inductor = part_count(topo), needs_inductor(topo)
+    if not result.feasible or result.analysis is None:
+        reason = Reason("infeasible", result.reason or "the circuit cannot meet this target", None, None, NOT_BUILDABLE)
+        return Verdict(cid, NOT_BUILDABLE, (reason,), None, None, None, None, count, inductor, result.conditions.gbw_hz)
+    a = result.analysis
+    tol = result.conditions.tolerances
+    reasons: list[Reason] = []
+    if not a.stable_ideal or a.stable_actual is False:
+        reasons.append(Reason("unstable", "; ".join(a.warnings) or "unstable", None, None, NOT_BUILDABLE))
+    reasons += _figure_reasons(result.errors, tol, "", f"with {result.series} parts and an ideal op-amp,")
+    if a.actual is not None:
+        reasons += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
+                                   f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
+    reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
+    reasons += _range_reasons(result, limits)
+    reasons += _amp_reasons(result, limits)
+    r = _inductor_reason(result, limits)
+    if r is not None:
+        reasons.append(r)
+    so_far = max((r.weight for r in reasons), key=VERDICTS.index, default=BUILDABLE)
+    est, mc, y = _yield(result, limits, so_far)
+    r = _yield_reason(est, mc, y, limits, {c.kind for c in topo.components})
+    if r is not None:
+        reasons.append(r)
+    ordered = _order(reasons)
+    verdict = ordered[0].weight if ordered else BUILDABLE
+    req = a.requirements.gbw_hz
+    return Verdict(cid, verdict, ordered, y, est, mc, req if req is not None and math.isfinite(req) else None, count, inductor, result.conditions.gbw_hz)
