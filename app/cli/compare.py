@@ -4,14 +4,12 @@ from __future__ import annotations
 
 import math
 
+from bandsmith import api
 from bandsmith.circuits import get_topology
-from bandsmith.design.compare import compare, compare_json
-from bandsmith.files.design_session import design_session
-from bandsmith.files.session import save_session
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, conditions_from, print_json
-from bandsmith.app.cli.design import add_target_options, series_from, spec_from
+from bandsmith.app.cli.common import Command, amp_options, print_json
+from bandsmith.app.cli.design import add_target_options, target_options
 from bandsmith.app.cli.text import UNITS, signed_error, table
 
 
@@ -86,13 +84,10 @@ def print_compare(out: dict) -> None:
 
 
 def run(args) -> int:
-    spec = spec_from(args)
-    series = series_from(args)
-    conditions = conditions_from(args)
-    results = compare(spec, series=series, conditions=conditions)
+    report = api.compare(**target_options(args), **amp_options(args))
     if args.save:
-        save_session(design_session(spec, results, series=series, conditions=conditions), args.save)
-    out = compare_json(spec, results)
+        api.save_session(report.to_session(), args.save)
+    out = report.to_json()
     if args.json:
         print_json(out)
     else:
