@@ -6,7 +6,7 @@ measurement, checks op-amps, and opens and saves sessions::
 
     import bandsmith
 
-    d = bandsmith.design("mfb", f0_hz="12k", q=6, gain=2)
+    d = bandsmith.design_circuit("mfb", f0_hz="12k", q=6, gain=2)
     print(d.chosen, d.to_json()["errors"])
 
 Every function takes its options by keyword, in SI units (or text such as ``"4k7"``), and returns a
@@ -19,8 +19,8 @@ scipy; it never imports Qt.
 from __future__ import annotations
 
 __all__ = [
-    "circuits",
-    "design",
+    "list_circuits",
+    "design_circuit",
     "compare",
     "analyze",
     "analyze_session",

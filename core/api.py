@@ -35,8 +35,8 @@ if TYPE_CHECKING:  # pragma: no cover - annotations only
     from bandsmith.spread.tolerance import Spread, SpreadSettings
 
 __all__ = [
-    "circuits",
-    "design",
+    "list_circuits",
+    "design_circuit",
     "compare",
     "analyze",
     "analyze_session",
@@ -196,7 +196,7 @@ def tolerances_of(tol_f0: Value | None, tol_q: Value | None, tol_gain_db: Value 
 
 
 def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=None, tol_q=None, tol_gain_db=None) -> "Conditions":
-    """The op-amp and drive options (as :func:`design` takes them) read into ``Conditions``."""
+    """The op-amp and drive options (as :func:`design_circuit` takes them) read into ``Conditions``."""
     from bandsmith.design.candidate import Conditions
 
     return Conditions(
@@ -278,13 +278,13 @@ class CircuitList:
         return {"topologies": [t.to_json() for t in self.topologies]}
 
 
-def circuits() -> CircuitList:
+def list_circuits() -> CircuitList:
     """The band-pass circuits Bandsmith can design and analyse.
 
     Returns
     -------
     CircuitList
-        Iterable over the circuits; ``.ids`` gives the ids that :func:`design` and
+        Iterable over the circuits; ``.ids`` gives the ids that :func:`design_circuit` and
         :func:`analyze` take; ``to_json()`` is the ``topologies --json`` object.
     """
     from bandsmith.circuits import all_topologies
@@ -336,7 +336,7 @@ class DesignReport:
         return design_json(self.result)
 
 
-def design(
+def design_circuit(
     circuit: str,
     *,
     f0_hz: Value,
@@ -358,7 +358,7 @@ def design(
     Parameters
     ----------
     circuit : str
-        Circuit id (see :func:`circuits`), e.g. ``"mfb"``.
+        Circuit id (see :func:`list_circuits`), e.g. ``"mfb"``.
     f0_hz : float or str
         Centre frequency (Hz).
     q : float or str, optional
@@ -543,7 +543,7 @@ def analyze(
     Parameters
     ----------
     circuit : str
-        Circuit id (see :func:`circuits`).
+        Circuit id (see :func:`list_circuits`).
     parts : mapping or sequence of str
         Part values by reference (ohm, farad, henry), e.g. ``{"R1": "16k", "C1": 2.2e-9}``, or as
         ``REF=VALUE`` texts, e.g. ``["R1=16k", "C1=2.2n"]``.

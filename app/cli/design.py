@@ -30,7 +30,7 @@ def add_target_options(p) -> None:
 
 
 def target_options(args) -> dict:
-    """The target and series as typed, keyed as :func:`bandsmith.design` takes them; a missing one is bad input."""
+    """The target and series as typed, keyed as :func:`bandsmith.design_circuit` takes them; a missing one is bad input."""
     if args.f0 is None:
         raise InputError("f0", "missing; give the centre frequency, e.g. --f0 2.4k")
     if args.q is None and args.bw is None:
@@ -103,7 +103,7 @@ def print_design(report: api.DesignReport) -> None:
 
 
 def run(args) -> int:
-    report = api.design(args.topology, **target_options(args), fix=args.fix, **amp_options(args))
+    report = api.design_circuit(args.topology, **target_options(args), fix=args.fix, **amp_options(args))
     if args.save:
         api.save_session(report.to_session(), args.save)
     if args.json:

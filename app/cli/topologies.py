@@ -14,7 +14,7 @@ def configure(p):
 
 
 def run(args) -> int:
-    topos = api.circuits()
+    topos = api.list_circuits()
     if args.json:
         print_json(topos.to_json())
         return 0
