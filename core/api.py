@@ -319,8 +319,10 @@ class DesignReport:
 
     @property
     def chosen(self) -> Mapping[str, float]:
-        """The chosen standard values by reference (ohm, farad, henry)."""
-        return self.result.chosen
+        """The chosen standard values by reference (ohm, farad, henry), read-only."""
+        from types import MappingProxyType
+
+        return MappingProxyType(self.result.chosen)
 
     def to_session(self, *, notes: str = "") -> "Session":
         """A session holding this design (save it with :func:`save_session`)."""
@@ -1081,8 +1083,10 @@ class MeasurementFitReport:
 
     @property
     def fitted(self) -> Mapping[str, float]:
-        """The fitted part values by reference (ohm, farad, henry)."""
-        return self.diagnosis.to_json()["fitted"]
+        """The fitted part values by reference (ohm, farad, henry), read-only."""
+        from types import MappingProxyType
+
+        return MappingProxyType(dict(self.diagnosis.to_json()["fitted"]))
 
     def to_json(self) -> dict:
         """The ``bandsmith fit --json`` object."""
