@@ -10,14 +10,12 @@ import warnings
 from dataclasses import dataclass
 from typing import Callable
 
-from bandsmith.api import split_assignments
 from bandsmith.common.errors import InputError
 
 __all__ = [
     "Command",
     "CliParser",
     "run_guarded",
-    "split_assignments",
     "add_amp_options",
     "amp_options",
     "print_json",
