@@ -654,7 +654,7 @@ class SweepReport:
     Attributes
     ----------
     f_hz : numpy.ndarray
-        Frequencies (Hz), log-spaced.
+        Frequencies (Hz), log-spaced. The four arrays are read-only.
     magnitude_db : numpy.ndarray
         Gain (dB).
     phase_deg : numpy.ndarray
@@ -732,7 +732,10 @@ def sweep(
     cand = candidate_of(circuit, parts)
     h = transfer_function(cand.netlist, conditions.opamp or IDEAL)
     r = _sweep(h, np.geomspace(f1, f2, points))
-    return SweepReport(r.f_hz, r.magnitude_db, r.phase_deg, r.group_delay_s)
+    columns = [np.array(c, dtype=float) for c in (r.f_hz, r.magnitude_db, r.phase_deg, r.group_delay_s)]
+    for c in columns:
+        c.flags.writeable = False
+    return SweepReport(*columns)
 
 
 # --------------------------------------------------------------------------------------------

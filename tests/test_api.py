@@ -175,6 +175,9 @@ def test_a_result_cannot_be_changed():
         d.result = None
     with pytest.raises(TypeError):
         d.chosen["R1"] = 1.0  # the core's values are a read-only mapping
+    s = bandsmith.sweep("mfb", MFB, points=3)
+    with pytest.raises(ValueError):
+        s.f_hz[0] = 1.0  # read-only arrays
 
 
 def test_bad_input_names_the_field():
