@@ -1,4 +1,5 @@
-"""The ``bandsmith`` command's sub-commands, all headless.
+"""The ``bandsmith`` command's sub-commands, all headless: each reads its options, calls the
+public API (:mod:`bandsmith.api`) and prints the result's ``to_json()`` or a readable form of it.
 
 With no sub-command, or a session file as the only argument, the command opens the workbench
 window instead (:mod:`bandsmith.app.entry` decides, with :func:`wants_window`). Every module of this package that defines ``COMMAND`` (a

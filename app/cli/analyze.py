@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-from bandsmith.design.candidate import Candidate, analysis_json, parse_parts
+from bandsmith import api
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, print_json, split_assignments
+from bandsmith.app.cli.common import Command, add_amp_options, amp_options, print_json
 from bandsmith.app.cli.text import UNITS, figures_rows, requirements_rows, sensitivity_table, table
 
 
@@ -17,13 +17,6 @@ def configure(p):
     p.add_argument("--session", metavar="FILE", help="analyse every candidate of a session file (its op-amp and drive unless given here)")
     add_amp_options(p)
     p.add_argument("--json", action="store_true", help="print one JSON object")
-
-
-def analyze_one(topology_id: str, assignments: dict[str, str], conditions) -> dict:
-    """CONTRACT.md's ANALYZE object for typed parts."""
-    topo = get_topology(topology_id)
-    cand = Candidate(topo.id, parse_parts(topo, assignments))
-    return analysis_json(cand, cand.analyze(conditions))
 
 
 def print_readable(result: dict) -> None:
@@ -48,44 +41,26 @@ def print_readable(result: dict) -> None:
         print(f"warning: {w}")
 
 
-def _session_conditions(session, entry, args):
-    """The session's conditions for a candidate, with any op-amp or drive option given on the command line instead."""
-    from dataclasses import replace
-
-    base = session.conditions_for(entry)
-    given = conditions_from(args)
-    changes = {}
-    for name, option in (("gbw_hz", "gbw"), ("a0", "a0"), ("vin_v", "vin"), ("rload_ohm", "rload")):
-        if getattr(args, option, None) is not None:
-            changes[name] = getattr(given, name)
-    if any(getattr(args, o, None) is not None for o in ("tol_f0", "tol_q", "tol_gain_db")):
-        changes["tolerances"] = given.tolerances
-    return replace(base, **changes) if changes else base
-
-
 def run(args) -> int:
-    conditions = conditions_from(args)
+    options = amp_options(args)
+    api.conditions_of(**options)  # bad options are reported before anything else
     if args.session:
         if args.topology or args.parts:
             raise InputError("session", "give either a session file or a circuit with its parts, not both")
-        from bandsmith.files.session import load_session  # issue 3's sessions
-
-        session = load_session(args.session)
-        results = [
-            dict(analyze_one(c.topology_id, dict(c.values), _session_conditions(session, c, args)), id=c.id, enabled=c.enabled)
-            for c in session.candidates
-        ]
+        given = {"gbw_hz": args.gbw, "a0": args.a0, "vin_v": args.vin, "rload_ohm": args.rload,
+                 "tol_f0": args.tol_f0, "tol_q": args.tol_q, "tol_gain_db": args.tol_gain_db}
+        out = api.analyze_session(api.open_session(args.session), **given).to_json()
         if args.json:
-            print_json({"candidates": results})
+            print_json(out)
         else:
-            for r in results:
+            for r in out["candidates"]:
                 print(f"== {r['id']}")
                 print_readable(r)
                 print()
         return 0
     if not args.topology:
         raise InputError("topology", "missing; give a circuit id (see `bandsmith topologies`) or --session FILE")
-    result = analyze_one(args.topology, split_assignments(args.parts), conditions)
+    result = api.analyze(args.topology, args.parts, **options).to_json()
     if args.json:
         print_json(result)
     else:

@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-from bandsmith.chain.cascade import AUTO, ChainSettings, cascade_json, cascade_session, circuit_choices, design_cascade
+from bandsmith import api
+from bandsmith.chain.cascade import AUTO
 from bandsmith.circuits import get_topology
-from bandsmith.common.errors import InputError
 from bandsmith.chain.prototypes import RESPONSES
-from bandsmith.common.values import format_value, parse_positive
+from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, print_json
+from bandsmith.app.cli.common import Command, add_amp_options, amp_options, print_json
 from bandsmith.app.cli.text import UNITS, table
 
 
@@ -26,33 +26,6 @@ def configure(p):
     add_amp_options(p)
     p.add_argument("--save", metavar="FILE", help="write a session file with the chain")
     p.add_argument("--json", action="store_true", help="print one JSON object")
-
-
-def _opt(args, name: str, field: str):
-    v = getattr(args, name)
-    return None if v is None else parse_positive(v, field=field)
-
-
-def settings_from(args) -> ChainSettings:
-    """Read the command's options into :class:`ChainSettings` (InputError naming the option)."""
-    if args.response is None:
-        raise InputError("response", f"missing; choose one of {', '.join(RESPONSES)}")
-    if args.order is None:
-        raise InputError("order", "missing; give an integer from 1 to 8")
-    if args.circuit not in circuit_choices():
-        raise InputError("circuit", f"{args.circuit!r} is not a circuit; choose one of {', '.join(circuit_choices())}")
-    return ChainSettings.from_request(
-        args.response,
-        args.order,
-        f0_hz=_opt(args, "f0", "f0"),
-        bw_hz=_opt(args, "bw", "bw"),
-        f_low_hz=_opt(args, "f_low", "f-low"),
-        f_high_hz=_opt(args, "f_high", "f-high"),
-        ripple_db=_opt(args, "ripple_db", "ripple-db"),
-        gain=_opt(args, "gain", "gain") if args.gain is not None else 1.0,
-        circuit=args.circuit,
-        series=args.series,
-    )
 
 
 def _num(x, unit="", digits=5):
@@ -125,14 +98,22 @@ def print_readable(out: dict) -> None:
 
 
 def run(args) -> int:
-    settings = settings_from(args)
-    conditions = conditions_from(args)
-    result = design_cascade(settings, conditions=conditions)
-    out = cascade_json(result)
+    report = api.cascade(
+        response=args.response,
+        order=args.order,
+        f0_hz=args.f0,
+        bw_hz=args.bw,
+        f_low_hz=args.f_low,
+        f_high_hz=args.f_high,
+        ripple_db=args.ripple_db,
+        gain=args.gain if args.gain is not None else 1.0,
+        circuit=args.circuit,
+        series=args.series,
+        **amp_options(args),
+    )
+    out = report.to_json()
     if args.save:
-        from bandsmith.files.session import save_session
-
-        save_session(cascade_session(result), args.save)
+        api.save_session(report.to_session(), args.save)
     if args.json:
         print_json(out)
     else:

@@ -4,17 +4,13 @@ from __future__ import annotations
 
 import math
 
-from bandsmith.analysis.analyzer import Tolerances
-from bandsmith.design.candidate import Candidate, parse_parts
+from bandsmith import api
 from bandsmith.circuits import get_topology
-from bandsmith.common.errors import InputError
-from bandsmith.bench.fitcheck import FitReport, fit_check
 from bandsmith.bench.headroom import DEFAULT_SUPPLY_V
-from bandsmith.bench.shelf import find_amp
-from bandsmith.common.values import format_value, parse_fraction, parse_positive
+from bandsmith.common.values import format_value, parse_positive
 
 from bandsmith.app.cli.amps import user_shelf
-from bandsmith.app.cli.common import Command, print_json, split_assignments
+from bandsmith.app.cli.common import Command, print_json
 from bandsmith.app.cli.text import UNITS, table
 
 
@@ -30,39 +26,6 @@ def configure(p):
     p.add_argument("--tol-q", metavar="P", help="Q tolerance for the required GBW (default 5%%)")
     p.add_argument("--tol-gain-db", metavar="D", help="centre-gain tolerance in dB (default 0.5)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
-
-
-def _tolerances(args) -> Tolerances:
-    d = Tolerances()
-
-    def frac(text, field):
-        v = parse_fraction(text, field=field)
-        if v <= 0:
-            raise InputError(field, "must be greater than zero")
-        return v
-
-    return Tolerances(
-        f0=frac(args.tol_f0, "tol-f0") if args.tol_f0 is not None else d.f0,
-        q=frac(args.tol_q, "tol-q") if args.tol_q is not None else d.q,
-        gain_db=parse_positive(args.tol_gain_db, field="tol-gain-db") if args.tol_gain_db is not None else d.gain_db,
-    )
-
-
-def check_json(cand: Candidate, report: FitReport, *, vin_v: float, supply_v: float, rload_ohm: float | None) -> dict:
-    """The ``check`` object: candidate, one verdict per model, the circuit's own headroom."""
-    return {
-        "candidate": {
-            "topology": cand.topology_id,
-            "components": {k: float(v) for k, v in cand.values.items()},
-            "netlist": cand.netlist.to_json(),
-            "ideal": report.ideal.to_json(),
-            "vin_v": float(vin_v),
-            "supply_v": float(supply_v),
-            "rload_ohm": None if rload_ohm is None else float(rload_ohm),
-        },
-        "verdicts": [v.to_json() for v in report.verdicts],
-        "headroom": report.headroom.to_json(),
-    }
 
 
 def _r(x) -> str:
@@ -110,25 +73,18 @@ def print_readable(result: dict) -> None:
 
 
 def run(args) -> int:
-    topo = get_topology(args.topology)
-    cand = Candidate(topo.id, parse_parts(topo, split_assignments(args.parts)))
-    vin = parse_positive(args.vin, field="vin") if args.vin is not None else 1.0
-    supply = parse_positive(args.supply, field="supply") if args.supply is not None else DEFAULT_SUPPLY_V
-    rload = parse_positive(args.rload, field="rload") if args.rload is not None else None
-    tol = _tolerances(args)
-    shelf = user_shelf().amps
-    if args.amp:
-        amps = []
-        for name in args.amp:
-            a = find_amp(shelf, name)
-            if a not in amps:
-                amps.append(a)
-    else:
-        amps = list(shelf)
-    if not amps:
-        raise InputError("amp", "the shelf is empty; add an op-amp to it first")
-    report = fit_check(cand.netlist, amps, supply_v=supply, vin_v=vin, rload_ohm=rload, tolerances=tol)
-    result = check_json(cand, report, vin_v=vin, supply_v=supply, rload_ohm=rload)
+    # The options are read in the order they have always been, so the first bad one is the one named;
+    # the shelf file is read only once they are good.
+    api.candidate_of(get_topology(args.topology).id, args.parts)
+    options = {
+        "vin_v": parse_positive(args.vin, field="vin") if args.vin is not None else 1.0,
+        "supply_v": parse_positive(args.supply, field="supply") if args.supply is not None else DEFAULT_SUPPLY_V,
+        "rload_ohm": parse_positive(args.rload, field="rload") if args.rload is not None else None,
+        "tol_f0": args.tol_f0, "tol_q": args.tol_q, "tol_gain_db": args.tol_gain_db,
+    }
+    api.tolerances_of(args.tol_f0, args.tol_q, args.tol_gain_db)
+    report = api.check_opamps(args.topology, args.parts, amps=args.amp or None, shelf=user_shelf().amps, **options)
+    result = report.to_json()
     if args.json:
         print_json(result)
     else:

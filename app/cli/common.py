@@ -10,18 +10,14 @@ import warnings
 from dataclasses import dataclass
 from typing import Callable
 
-from bandsmith.analysis.analyzer import Tolerances
-from bandsmith.design.candidate import Conditions
 from bandsmith.common.errors import InputError
-from bandsmith.common.values import parse_fraction, parse_positive
 
 __all__ = [
     "Command",
     "CliParser",
     "run_guarded",
-    "split_assignments",
     "add_amp_options",
-    "conditions_from",
+    "amp_options",
     "print_json",
     "EXIT_OK",
     "EXIT_INTERNAL",
@@ -70,20 +66,6 @@ def run_guarded(run: Callable[[argparse.Namespace], int], args: argparse.Namespa
         return EXIT_INTERNAL
 
 
-def split_assignments(tokens: list[str], *, what: str = "part") -> dict[str, str]:
-    """``["R1=4k7", "C=10n"]`` → ``{"R1": "4k7", "C": "10n"}``; malformed tokens are bad input."""
-    out: dict[str, str] = {}
-    for tok in tokens:
-        ref, sep, text = tok.partition("=")
-        ref = ref.strip()
-        if not sep or not ref:
-            raise InputError(tok, f"expected {what} as REF=VALUE, e.g. R1=4k7")
-        if ref in out:
-            raise InputError(ref, "given twice")
-        out[ref] = text.strip()
-    return out
-
-
 def add_amp_options(p: argparse.ArgumentParser, *, tolerances: bool = True) -> None:
     """The op-amp and drive options shared by the analysing commands."""
     p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); without it the op-amp is ideal")
@@ -96,27 +78,17 @@ def add_amp_options(p: argparse.ArgumentParser, *, tolerances: bool = True) -> N
         p.add_argument("--tol-gain-db", metavar="D", help="centre-gain tolerance in dB (default 0.5)")
 
 
-def _positive_fraction(text: str, field: str) -> float:
-    v = parse_fraction(text, field=field)
-    if v <= 0:
-        raise InputError(field, "must be greater than zero")
-    return v
-
-
-def conditions_from(args: argparse.Namespace) -> Conditions:
-    """Read the op-amp and drive options into :class:`Conditions`."""
-    gbw = parse_positive(args.gbw, field="gbw") if getattr(args, "gbw", None) is not None else None
-    a0 = parse_positive(args.a0, field="a0") if getattr(args, "a0", None) is not None else 1e5
-    vin = parse_positive(args.vin, field="vin") if getattr(args, "vin", None) is not None else 1.0
-    rload = parse_positive(args.rload, field="rload") if getattr(args, "rload", None) is not None else None
-    tol = Tolerances()
-    if getattr(args, "tol_f0", None) is not None or getattr(args, "tol_q", None) is not None or getattr(args, "tol_gain_db", None) is not None:
-        tol = Tolerances(
-            f0=_positive_fraction(args.tol_f0, "tol-f0") if args.tol_f0 is not None else tol.f0,
-            q=_positive_fraction(args.tol_q, "tol-q") if args.tol_q is not None else tol.q,
-            gain_db=parse_positive(args.tol_gain_db, field="tol-gain-db") if args.tol_gain_db is not None else tol.gain_db,
-        )
-    return Conditions(gbw_hz=gbw, a0=a0, vin_v=vin, rload_ohm=rload, tolerances=tol)
+def amp_options(args: argparse.Namespace) -> dict:
+    """The op-amp and drive options as typed, keyed as the API takes them (absent ones at their defaults)."""
+    out = {
+        "gbw_hz": getattr(args, "gbw", None),
+        "a0": getattr(args, "a0", None) if getattr(args, "a0", None) is not None else 1e5,
+        "vin_v": getattr(args, "vin", None) if getattr(args, "vin", None) is not None else 1.0,
+        "rload_ohm": getattr(args, "rload", None),
+    }
+    for key in ("tol_f0", "tol_q", "tol_gain_db"):
+        out[key] = getattr(args, key, None)
+    return out
 
 
 def _clean(obj):

@@ -4,15 +4,14 @@ from __future__ import annotations
 
 import math
 
+from bandsmith import api
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
-from bandsmith.files.design_session import design_session
-from bandsmith.files.session import save_session
 from bandsmith.common.values import format_value, parse_fraction, parse_positive
-from bandsmith.verdict import VerdictLimits, compare_verdicts, comparison_json
+from bandsmith.verdict import VerdictLimits
 
-from bandsmith.app.cli.common import Command, conditions_from, print_json
-from bandsmith.app.cli.design import add_target_options, series_from, spec_from
+from bandsmith.app.cli.common import Command, amp_options, print_json
+from bandsmith.app.cli.design import add_target_options, target_options
 from bandsmith.app.cli.text import UNITS, signed_error, table
 
 
@@ -173,15 +172,10 @@ def _print_verdicts(out: dict) -> None:
 
 
 def run(args) -> int:
-    spec = spec_from(args)
-    series = series_from(args)
-    conditions = conditions_from(args)
-    limits = limits_from(args)
-    comparison = compare_verdicts(spec, series=series, conditions=conditions, limits=limits)
-    results = comparison.results
+    report = api.compare(**target_options(args), **amp_options(args), limits=limits_from(args))
     if args.save:
-        save_session(design_session(spec, results, series=series, conditions=conditions), args.save)
-    out = comparison_json(comparison)
+        api.save_session(report.to_session(), args.save)
+    out = report.to_json()
     if args.json:
         print_json(out)
     else:

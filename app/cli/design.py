@@ -4,15 +4,13 @@ from __future__ import annotations
 
 import math
 
+from bandsmith import api
 from bandsmith.circuits import get_topology
-from bandsmith.design.designer import DesignResult, Spec, design, design_json
-from bandsmith.files.design_session import design_session
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
-from bandsmith.files.session import save_session
-from bandsmith.common.values import format_value, parse_positive
+from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, print_json, split_assignments
+from bandsmith.app.cli.common import Command, add_amp_options, amp_options, print_json
 from bandsmith.app.cli.text import UNITS, figures_rows, requirements_rows, sensitivity_table, signed_error, table
 
 SERIES_HELP = "standard series for the parts: " + ", ".join(SERIES_NAMES) + " or exact (default E24)"
@@ -31,29 +29,15 @@ def add_target_options(p) -> None:
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
 
-def spec_from(args) -> Spec:
-    """The target from ``--f0``, ``--q``/``--bw`` and ``--gain`` (each required)."""
+def target_options(args) -> dict:
+    """The target and series as typed, keyed as :func:`bandsmith.design_circuit` takes them; a missing one is bad input."""
     if args.f0 is None:
         raise InputError("f0", "missing; give the centre frequency, e.g. --f0 2.4k")
     if args.q is None and args.bw is None:
         raise InputError("q", "missing; give --q Q or --bw BANDWIDTH")
     if args.gain is None:
         raise InputError("gain", "missing; give the centre-gain magnitude, e.g. --gain 4")
-    f0 = parse_positive(args.f0, field="f0")
-    gain = parse_positive(args.gain, field="gain")
-    if args.bw is not None:
-        return Spec.from_bandwidth(f0, parse_positive(args.bw, field="bw"), gain)
-    return Spec(f0_hz=f0, q=parse_positive(args.q, field="q"), gain=gain)
-
-
-def series_from(args) -> str:
-    text = (args.series or "E24").strip()
-    if text.lower() == "exact":
-        return "exact"
-    name = text.upper()
-    if name not in SERIES_NAMES:
-        raise InputError("series", f"{text!r} is not a series; choose one of {', '.join(SERIES_NAMES)} or exact")
-    return name
+    return {"f0_hz": args.f0, "q": args.q, "bw_hz": args.bw, "gain": args.gain, "series": args.series}
 
 
 def configure(p):
@@ -62,8 +46,9 @@ def configure(p):
     p.add_argument("--fix", action="append", default=[], metavar="REF=VALUE", help="pin a part (repeatable), e.g. --fix C1=10n")
 
 
-def print_design(r: DesignResult) -> None:
+def print_design(report: api.DesignReport) -> None:
     """The readable form of one design."""
+    r = report.result
     topo = get_topology(r.topology_id)
     s = r.spec
     print(f"{topo.id}: {topo.title}")
@@ -105,7 +90,7 @@ def print_design(r: DesignResult) -> None:
             print(f"{title}:")
             for item in items:
                 print(f"  - {item}")
-    j = design_json(r)
+    j = report.to_json()
     if j["actual"] is not None:
         print()
         gbw = format_value(j["opamp"]["gbw_hz"], "Hz")
@@ -118,18 +103,13 @@ def print_design(r: DesignResult) -> None:
 
 
 def run(args) -> int:
-    spec = spec_from(args)
-    series = series_from(args)
-    conditions = conditions_from(args)
-    topo = get_topology(args.topology)
-    fixed = split_assignments(args.fix)
-    result = design(topo.id, spec, series=series, fixed=fixed, conditions=conditions)
+    report = api.design_circuit(args.topology, **target_options(args), fix=args.fix, **amp_options(args))
     if args.save:
-        save_session(design_session(spec, [result], series=series, conditions=conditions), args.save)
+        api.save_session(report.to_session(), args.save)
     if args.json:
-        print_json(design_json(result))
+        print_json(report.to_json())
     else:
-        print_design(result)
+        print_design(report)
         if args.save:
             print()
             print(f"session written to {args.save}")

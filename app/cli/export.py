@@ -9,7 +9,7 @@ import numpy as np
 
 from bandsmith.common.errors import InputError
 from bandsmith.files.exports import parts_csv, response_csv, spice_netlist, write_atomic
-from bandsmith.files.session import load_session
+from bandsmith.api import open_session
 from bandsmith.common.values import parse_positive
 
 from bandsmith.app.cli.common import Command
@@ -73,7 +73,7 @@ def _run_chain(args, session) -> int:
 def run(args) -> int:
     if not (args.netlist or args.parts or args.response):
         raise InputError("export", "say what to write: --netlist OUT.cir, --parts OUT.csv or --response OUT.csv")
-    session = load_session(args.session)
+    session = open_session(args.session)
     if args.chain is not None:
         return _run_chain(args, session)
     if args.candidate is not None:

@@ -2,16 +2,13 @@
 
 from __future__ import annotations
 
-
-from bandsmith.design.candidate import Candidate, parse_parts
+from bandsmith import api
 from bandsmith.circuits import get_topology
-from bandsmith.bench.diagnose import diagnose
 from bandsmith.common.errors import InputError
 from bandsmith.bench.measured import FREQ_UNITS, ColumnMapping, MappingNeeded, guess_mapping, read_measurement, scan_table
-from bandsmith.solver.mna import OpAmpModel
-from bandsmith.common.values import format_value, parse_fraction, parse_positive
+from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json, split_assignments
+from bandsmith.app.cli.common import Command, print_json
 from bandsmith.app.cli.text import UNITS, table
 
 _MAPPING_HINT = "give --columns F,M[,P] (column numbers from 1) and the units with --freq-unit, --mag-unit, --phase-unit"
@@ -65,43 +62,21 @@ def _read(args):
         raise InputError("measured", f"{exc.reason}; {_MAPPING_HINT}") from None
 
 
-def _tolerances(items: list[str]) -> dict[str, float]:
-    out = {}
-    for it in items:
-        kind, sep, text = it.partition("=")
-        kind = kind.strip().upper()
-        if not sep or kind not in ("R", "C", "L"):
-            raise InputError("tol", f"{it!r}: expected KIND=P with KIND R, C or L, e.g. C=5%")
-        v = parse_fraction(text, field=f"tol {kind}")
-        if not v > 0:
-            raise InputError(f"tol {kind}", "must be above zero")
-        out[kind] = v
-    return out
-
-
-def fit_json(args) -> dict:
-    """The FIT object of ``bandsmith fit`` for parsed arguments."""
-    topo = get_topology(args.topology)
-    cand = Candidate(topo.id, parse_parts(topo, split_assignments(args.parts)))
+def fit_report(args) -> api.MeasurementFitReport:
+    """The fit of ``bandsmith fit`` for parsed arguments (the circuit and parts checked before the file is read)."""
+    api.candidate_of(get_topology(args.topology).id, args.parts)
     m = _read(args)
-    opamp = None
-    if args.gbw is not None:
-        a0 = parse_positive(args.a0, field="a0") if args.a0 is not None else 1e5
-        opamp = OpAmpModel(parse_positive(args.gbw, field="gbw"), a0)
-    elif args.a0 is not None:
-        raise InputError("a0", "only means something with --gbw")
-    rng = None
-    if args.range is not None:
-        rng = parse_fraction(args.range, field="range")
-    parts = None
-    if args.fit_parts is not None:
-        parts = [p for p in args.fit_parts.split(",")]
-    d = diagnose(cand, m, parts=parts, ranges=rng, tolerances=_tolerances(args.tol), opamp=opamp, use_phase=not args.magnitude_only)
-    out = d.to_json()
-    out["measured"].update({"source": m.source, "sha256": m.sha256, "has_phase": m.has_phase, "file_notes": list(m.notes)})
-    out["components"] = {k: float(v) for k, v in cand.values.items()}
-    out["opamp"] = None if opamp is None else opamp.to_json()
-    return out
+    return api.fit(
+        args.topology,
+        args.parts,
+        measured=m,
+        fit_parts=None if args.fit_parts is None else args.fit_parts.split(","),
+        part_range=args.range,
+        tolerances=args.tol,
+        gbw_hz=args.gbw,
+        a0=args.a0,
+        magnitude_only=args.magnitude_only,
+    )
 
 
 def print_readable(r: dict) -> None:
@@ -137,7 +112,7 @@ def print_readable(r: dict) -> None:
 
 
 def run(args) -> int:
-    result = fit_json(args)
+    result = fit_report(args).to_json()
     if args.json:
         print_json(result)
     else:

@@ -2,14 +2,11 @@
 
 from __future__ import annotations
 
-from bandsmith.design.candidate import Candidate, parse_parts
-from bandsmith.circuits import get_topology
+from bandsmith import api
 from bandsmith.common.errors import InputError
-from bandsmith.solver.mna import IDEAL, OpAmpModel
-from bandsmith.analysis.noise import NoiseSettings, output_noise
-from bandsmith.common.values import format_value, parse_nonnegative, parse_positive
+from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json, split_assignments
+from bandsmith.app.cli.common import Command, print_json
 from bandsmith.app.cli.text import table
 
 
@@ -24,28 +21,6 @@ def configure(p):
     p.add_argument("--band", nargs=2, metavar=("F1", "F2"), help="integration band in Hz (default f0/10 to 10·f0)")
     p.add_argument("--vin", metavar="V", help="input sine peak amplitude for the SNR (default 1)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
-
-
-def settings_from(args) -> NoiseSettings:
-    """Read the noise options into :class:`NoiseSettings` (bad input raises InputError)."""
-    kw = {}
-    if args.en is not None:
-        kw["en_v_per_rthz"] = parse_nonnegative(args.en, field="en")
-    if args.in_ is not None:
-        kw["in_a_per_rthz"] = parse_nonnegative(args.in_, field="in")
-    if args.temp is not None:
-        kw["temperature_k"] = parse_positive(args.temp, field="temp")
-    if args.band is not None:
-        kw["band_hz"] = (parse_positive(args.band[0], field="band"), parse_positive(args.band[1], field="band"))
-    return NoiseSettings(**kw)
-
-
-def noise_json(topology_id: str, assignments: dict[str, str], settings: NoiseSettings, opamp: OpAmpModel, vin_v: float) -> dict:
-    """The noise command's JSON object for typed parts."""
-    topo = get_topology(topology_id)
-    cand = Candidate(topo.id, parse_parts(topo, assignments))
-    result = output_noise(cand.netlist, settings, opamp=opamp, vin_v=vin_v)
-    return {"topology": topo.id, "components": {k: float(v) for k, v in cand.values.items()}, **result.to_json()}
 
 
 def print_readable(r: dict) -> None:
@@ -69,13 +44,20 @@ def print_readable(r: dict) -> None:
 
 
 def run(args) -> int:
-    settings = settings_from(args)
-    a0 = parse_positive(args.a0, field="a0") if args.a0 is not None else 1e5
-    opamp = IDEAL if args.gbw is None else OpAmpModel(parse_positive(args.gbw, field="gbw"), a0)
-    vin = parse_positive(args.vin, field="vin") if args.vin is not None else 1.0
     if not args.topology:
         raise InputError("topology", "missing; give a circuit id (see `bandsmith topologies`)")
-    result = noise_json(args.topology, split_assignments(args.parts), settings, opamp, vin)
+    report = api.noise(
+        args.topology,
+        args.parts,
+        en_v_per_rthz=args.en,
+        in_a_per_rthz=args.in_,
+        temperature_k=args.temp,
+        band_hz=args.band,
+        gbw_hz=args.gbw,
+        a0=args.a0 if args.a0 is not None else 1e5,
+        vin_v=args.vin if args.vin is not None else 1.0,
+    )
+    result = report.to_json()
     if args.json:
         print_json(result)
     else:

@@ -27,12 +27,12 @@ def _offscreen_if_headless() -> None:
 
 def run(args) -> int:
     # Check the output and read the session before Qt starts, so bad input fails fast.
-    from bandsmith.files.session import load_session
+    from bandsmith.api import open_session
 
     from bandsmith.app.report.builder import report_file
 
     out, kind = report_file(args.output)
-    session = load_session(args.session)
+    session = open_session(args.session)
     _offscreen_if_headless()
     from bandsmith.app.report.builder import write_report_html, write_report_pdf
 

@@ -5,19 +5,12 @@ from __future__ import annotations
 import csv
 import sys
 
-import numpy as np
+from bandsmith import api
 
-from bandsmith.analysis.analyzer import sweep, transfer_function
-from bandsmith.solver.mna import IDEAL
-from bandsmith.design.candidate import Candidate, parse_parts
-from bandsmith.circuits import get_topology
-from bandsmith.common.errors import InputError
-from bandsmith.common.values import parse_positive
-
-from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, split_assignments
+from bandsmith.app.cli.common import Command, add_amp_options, amp_options
 from bandsmith.app.cli.text import table
 
-HEADER = ["frequency_hz", "magnitude_db", "phase_deg", "group_delay_s"]
+HEADER = list(api.SweepReport.COLUMNS)
 
 
 def configure(p):
@@ -30,30 +23,19 @@ def configure(p):
     p.add_argument("--csv", action="store_true", help="print CSV with a header row")
 
 
-def sweep_rows(topology_id: str, assignments: dict[str, str], conditions, f_from: float, f_to: float, points: int) -> list[list[float]]:
-    """Rows of (frequency_hz, magnitude_db, phase_deg, group_delay_s), phase unwrapped."""
-    topo = get_topology(topology_id)
-    cand = Candidate(topo.id, parse_parts(topo, assignments))
-    h = transfer_function(cand.netlist, conditions.opamp or IDEAL)
-    r = sweep(h, np.geomspace(f_from, f_to, points))
-    return np.column_stack([r.f_hz, r.magnitude_db, r.phase_deg, r.group_delay_s]).tolist()
-
-
 def run(args) -> int:
-    conditions = conditions_from(args)
-    f_from = parse_positive(args.f_from, field="from") if args.f_from is not None else 10.0
-    f_to = parse_positive(args.f_to, field="to") if args.f_to is not None else 10e6
-    if f_to <= f_from:
-        raise InputError("to", f"must be above --from ({f_from:g} Hz)")
-    points = 1000
-    if args.points is not None:
-        try:
-            points = int(args.points)
-        except ValueError:
-            raise InputError("points", f"{args.points!r} is not a whole number") from None
-        if not 2 <= points <= 1_000_000:
-            raise InputError("points", "must be from 2 to 1000000")
-    rows = sweep_rows(args.topology, split_assignments(args.parts), conditions, f_from, f_to, points)
+    options = amp_options(args)
+    conditions = api.conditions_of(**options)  # every amp option is checked, though the sweep uses GBW and A0 only
+    report = api.sweep(
+        args.topology,
+        args.parts,
+        f_from_hz=args.f_from if args.f_from is not None else 10.0,
+        f_to_hz=args.f_to if args.f_to is not None else 10e6,
+        points=args.points if args.points is not None else 1000,
+        gbw_hz=conditions.gbw_hz,
+        a0=conditions.a0,
+    )
+    rows = report.rows()
     if args.csv:
         w = csv.writer(sys.stdout, lineterminator="\n")
         w.writerow(HEADER)

@@ -2,19 +2,14 @@
 
 from __future__ import annotations
 
-import re
-
-from bandsmith.design.candidate import Candidate, parse_parts
+from bandsmith import api
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
-from bandsmith.solver.mna import IDEAL, OpAmpModel
-from bandsmith.spread.tolerance import MAX_TRIALS, STAT_KEYS, SpreadSettings, run_spread
-from bandsmith.common.values import format_value, parse_fraction, parse_positive
+from bandsmith.spread.tolerance import STAT_KEYS
+from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json, split_assignments
+from bandsmith.app.cli.common import Command, print_json
 from bandsmith.app.cli.text import UNITS, figures_rows, table
-
-_WHOLE = re.compile(r"\s*[+-]?[0-9][0-9_]*\s*")
 
 
 def configure(p):
@@ -39,24 +34,8 @@ def configure(p):
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
 
-def _whole(text: str, field: str, *, low: int) -> int:
-    if not _WHOLE.fullmatch(text):
-        raise InputError(field, f'"{text}" is not a whole number')
-    v = int(text.replace("_", ""))
-    if v < low:
-        raise InputError(field, f"must be {'a positive' if low else 'a'} whole number{'' if low else ' of 0 or more'}, got {v}")
-    return v
-
-
-def _positive_fraction(text: str, field: str) -> float:
-    v = parse_fraction(text, field=field)
-    if v <= 0:
-        raise InputError(field, "must be greater than zero")
-    return v
-
-
-def settings_from(args) -> SpreadSettings:
-    """Read the spread options into :class:`SpreadSettings` (bad input raises InputError)."""
+def options_from(args) -> dict:
+    """The spread options as typed, keyed as :func:`bandsmith.tolerance` takes them."""
     tol = {}
     for tok in args.tol:
         key, sep, text = tok.partition("=")
@@ -65,39 +44,12 @@ def settings_from(args) -> SpreadSettings:
             raise InputError("tol", f'"{tok}" is not KIND_OR_REF=P; write e.g. R=1% or C2=2%')
         if key in tol:
             raise InputError("tol", f"{key} given twice")
-        tol[key] = parse_fraction(text, field=f"tol {key}")
-    kw = {"tolerances": tol, "dist": args.dist}
-    if args.trials is not None:
-        n = _whole(args.trials, "trials", low=1)
-        if n > MAX_TRIALS:
-            raise InputError("trials", f"at most {MAX_TRIALS}, got {n}")
-        kw["trials"] = n
-    if args.seed is not None:
-        kw["seed"] = _whole(args.seed, "seed", low=0)
-    if args.gbw_tol is not None:
-        kw["gbw_tol"] = parse_fraction(args.gbw_tol, field="gbw-tol")
-    if args.window_f0 is not None:
-        kw["window_f0"] = _positive_fraction(args.window_f0, "window-f0")
-    if args.window_q is not None:
-        kw["window_q"] = _positive_fraction(args.window_q, "window-q")
-    if args.window_gain_db is not None:
-        kw["window_gain_db"] = parse_positive(args.window_gain_db, field="window-gain-db")
-    return SpreadSettings(**kw)
-
-
-def opamp_from(args) -> OpAmpModel:
-    a0 = parse_positive(args.a0, field="a0") if args.a0 is not None else 1e5
-    if args.gbw is None:
-        return IDEAL
-    return OpAmpModel(parse_positive(args.gbw, field="gbw"), a0)
-
-
-def tolerance_json(topology_id: str, assignments: dict[str, str], settings: SpreadSettings, opamp: OpAmpModel) -> dict:
-    """The tolerance command's JSON object for typed parts."""
-    topo = get_topology(topology_id)
-    cand = Candidate(topo.id, parse_parts(topo, assignments))
-    spread = run_spread(cand.netlist, settings, opamp=opamp)
-    return {"topology": topo.id, "components": {k: float(v) for k, v in cand.values.items()}, **spread.to_json()}
+        tol[key] = text
+    return {
+        "tolerances": tol, "dist": args.dist, "trials": args.trials, "seed": args.seed, "gbw_tol": args.gbw_tol,
+        "window_f0": args.window_f0, "window_q": args.window_q, "window_gain_db": args.window_gain_db,
+        "gbw_hz": args.gbw, "a0": args.a0 if args.a0 is not None else 1e5,
+    }
 
 
 def _cell(key: str, v) -> str:
@@ -150,11 +102,7 @@ def print_readable(r: dict) -> None:
 
 
 def run(args) -> int:
-    settings = settings_from(args)
-    opamp = opamp_from(args)
-    if settings.gbw_tol > 0 and opamp.ideal:
-        raise InputError("gbw-tol", "needs --gbw: an ideal op-amp has no GBW to spread")
-    result = tolerance_json(args.topology, split_assignments(args.parts), settings, opamp)
+    result = api.tolerance(args.topology, args.parts, **options_from(args)).to_json()
     if args.json:
         print_json(result)
     else:

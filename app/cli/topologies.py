@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from bandsmith.circuits import all_topologies
+from bandsmith import api
 from bandsmith.common.values import format_value
 
 from bandsmith.app.cli.common import Command, print_json
@@ -14,9 +14,9 @@ def configure(p):
 
 
 def run(args) -> int:
-    topos = all_topologies()
+    topos = api.list_circuits()
     if args.json:
-        print_json({"topologies": [t.to_json() for t in topos]})
+        print_json(topos.to_json())
         return 0
     for t in topos:
         print(f"{t.id}: {t.title}{' (inverting)' if t.inverting else ''}")

@@ -1,0 +1,1352 @@
+"""The public Python API: one function per job, keyword-only options, frozen results.
+
+Every function here sits on top of the core layers (it may import any of them; none of them
+imports this module). Each returns a frozen result whose ``to_json()`` is exactly the object the
+matching ``bandsmith`` command prints with ``--json``; the command line is a thin layer over these
+functions. Values may be numbers in SI units or text such as ``"4k7"`` or ``"12 kHz"``
+(:func:`parse_value`). Bad input raises :class:`~bandsmith.common.errors.InputError` naming the
+field and the reason.
+
+The heavy layers are imported inside the functions, so ``import bandsmith`` stays light.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field, replace
+from typing import TYPE_CHECKING, Any, Iterator, Mapping, Sequence
+
+from bandsmith.common.errors import InputError
+
+if TYPE_CHECKING:  # pragma: no cover - annotations only
+    from bandsmith.analysis.analyzer import Analysis, Tolerances
+    from bandsmith.analysis.noise import NoiseResult
+    from bandsmith.bench.diagnose import Diagnosis
+    from bandsmith.bench.fitcheck import FitReport
+    from bandsmith.bench.measured import Measurement
+    from bandsmith.bench.shelf import OpAmp
+    from bandsmith.chain.cascade import Cascade
+    from bandsmith.circuits.synthesis import Spec
+    from bandsmith.circuits.topology import Topology
+    from bandsmith.design.candidate import Candidate, Conditions
+    from bandsmith.design.designer import DesignResult
+    from bandsmith.files.session import Session
+    from bandsmith.verdict import Comparison, VerdictLimits
+    from bandsmith.solver.mna import OpAmpModel
+    from bandsmith.spread.tolerance import Spread, SpreadSettings
+
+__all__ = [
+    "list_circuits",
+    "design_circuit",
+    "compare",
+    "analyze",
+    "analyze_session",
+    "sweep",
+    "tolerance",
+    "noise",
+    "cascade",
+    "fit",
+    "check_opamps",
+    "open_session",
+    "save_session",
+    "parse_value",
+    "format_value",
+    "CircuitList",
+    "DesignReport",
+    "ComparisonReport",
+    "AnalysisReport",
+    "SessionAnalysisReport",
+    "SweepReport",
+    "ToleranceReport",
+    "NoiseReport",
+    "CascadeReport",
+    "MeasurementFitReport",
+    "OpAmpCheckReport",
+    "InputError",
+]
+
+DEFAULT_A0 = 1e5
+Value = float | str
+
+
+# --------------------------------------------------------------------------------------------
+# Values
+
+
+def parse_value(text: str | float, *, field: str = "value") -> float:
+    """A number from text with an SI prefix, an RKM code or a unit.
+
+    Parameters
+    ----------
+    text : str or float
+        ``"4k7"``, ``"2.2n"``, ``"12 kHz"``, ``"1e3"`` or a number (returned as a float).
+    field : str
+        The name given in the error message when the text is not a number.
+
+    Returns
+    -------
+    float
+        The value in SI units (ohm, farad, henry, hertz, volt …, without the unit).
+
+    Raises
+    ------
+    InputError
+        When the text is not a finite number.
+    """
+    from bandsmith.common.values import parse_value as _parse
+
+    return _parse(text, field=field)
+
+
+def format_value(x: float | None, unit: str = "", *, digits: int = 4) -> str:
+    """A number with an SI prefix and its unit, e.g. ``4.7 kΩ`` or ``12 kHz``.
+
+    Parameters
+    ----------
+    x : float or None
+        The value in SI units (None gives ``"—"``).
+    unit : str
+        The unit symbol written after the prefix (``"Hz"``, ``"Ω"``, ``"F"``, ``"V"`` …).
+    digits : int
+        Significant digits.
+
+    Returns
+    -------
+    str
+        The value as shown on screen and in reports.
+    """
+    from bandsmith.common.values import format_value as _format
+
+    return _format(x, unit, digits=digits)
+
+
+def _positive(v: Value, field: str) -> float:
+    from bandsmith.common.values import parse_positive
+
+    return parse_positive(v, field=field)
+
+
+def _optional_positive(v: Value | None, field: str) -> float | None:
+    return None if v is None else _positive(v, field)
+
+
+def _fraction(v: Value, field: str) -> float:
+    from bandsmith.common.values import parse_fraction
+
+    return parse_fraction(v, field=field)
+
+
+def _positive_fraction(v: Value, field: str) -> float:
+    f = _fraction(v, field)
+    if f <= 0:
+        raise InputError(field, "must be greater than zero")
+    return f
+
+
+def _topology(circuit: str) -> "Topology":
+    from bandsmith.circuits import get_topology
+
+    return get_topology(circuit)
+
+
+def split_assignments(tokens: Sequence[str], *, what: str = "part") -> dict[str, str]:
+    """``["R1=4k7", "C=10n"]`` → ``{"R1": "4k7", "C": "10n"}``; malformed tokens are bad input."""
+    out: dict[str, str] = {}
+    for tok in tokens:
+        ref, sep, text = tok.partition("=")
+        ref = ref.strip()
+        if not sep or not ref:
+            raise InputError(tok, f"expected {what} as REF=VALUE, e.g. R1=4k7")
+        if ref in out:
+            raise InputError(ref, "given twice")
+        out[ref] = text.strip()
+    return out
+
+
+def _assignments(parts: "Mapping[str, Value] | Sequence[str] | None", *, what: str = "part") -> dict:
+    """Part values as a mapping, or as ``REF=VALUE`` texts (as typed on the command line)."""
+    if parts is None:
+        return {}
+    if isinstance(parts, Mapping):
+        return dict(parts)
+    if isinstance(parts, str):
+        parts = parts.split()
+    return split_assignments(list(parts), what=what)
+
+
+def candidate_of(circuit: str, parts: "Mapping[str, Value] | Sequence[str]") -> "Candidate":
+    """The candidate of a circuit id and its part values (``{"R1": "4k7", "C1": 10e-9}``)."""
+    from bandsmith.design.candidate import Candidate, parse_parts
+
+    values = _assignments(parts)
+    topo = _topology(circuit)
+    return Candidate(topo.id, parse_parts(topo, values))
+
+
+def tolerances_of(tol_f0: Value | None, tol_q: Value | None, tol_gain_db: Value | None) -> "Tolerances":
+    from bandsmith.analysis.analyzer import Tolerances
+
+    d = Tolerances()
+    if tol_f0 is None and tol_q is None and tol_gain_db is None:
+        return d
+    return Tolerances(
+        f0=_positive_fraction(tol_f0, "tol-f0") if tol_f0 is not None else d.f0,
+        q=_positive_fraction(tol_q, "tol-q") if tol_q is not None else d.q,
+        gain_db=_positive(tol_gain_db, "tol-gain-db") if tol_gain_db is not None else d.gain_db,
+    )
+
+
+def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=None, tol_q=None, tol_gain_db=None) -> "Conditions":
+    """The op-amp and drive options (as :func:`design_circuit` takes them) read into ``Conditions``."""
+    from bandsmith.design.candidate import Conditions
+
+    return Conditions(
+        gbw_hz=_optional_positive(gbw_hz, "gbw"),
+        a0=_positive(a0, "a0"),
+        vin_v=_positive(vin_v, "vin"),
+        rload_ohm=_optional_positive(rload_ohm, "rload"),
+        tolerances=tolerances_of(tol_f0, tol_q, tol_gain_db),
+    )
+
+
+def _opamp(gbw_hz: Value | None, a0: Value) -> "OpAmpModel":
+    from bandsmith.solver.mna import IDEAL, OpAmpModel
+
+    a0 = _positive(a0, "a0")
+    return IDEAL if gbw_hz is None else OpAmpModel(_positive(gbw_hz, "gbw"), a0)
+
+
+def _series(series: str | None) -> str:
+    from bandsmith.common.eseries import SERIES_NAMES
+
+    text = (series or "E24").strip()
+    if text.lower() == "exact":
+        return "exact"
+    name = text.upper()
+    if name not in SERIES_NAMES:
+        raise InputError("series", f"{text!r} is not a series; choose one of {', '.join(SERIES_NAMES)} or exact")
+    return name
+
+
+def _spec(f0_hz: Value, q: Value | None, bw_hz: Value | None, gain: Value) -> "Spec":
+    from bandsmith.circuits.synthesis import Spec
+
+    if q is None and bw_hz is None:
+        raise InputError("q", "missing; give q or bw_hz")
+    if q is not None and bw_hz is not None:
+        raise InputError("q", "give q or bw_hz, not both")
+    f0 = _positive(f0_hz, "f0")
+    g = _positive(gain, "gain")
+    if bw_hz is not None:
+        return Spec.from_bandwidth(f0, _positive(bw_hz, "bw"), g)
+    return Spec(f0_hz=f0, q=_positive(q, "q"), gain=g)
+
+
+def _values_json(candidate: "Candidate") -> dict[str, float]:
+    return {k: float(v) for k, v in candidate.values.items()}
+
+
+# --------------------------------------------------------------------------------------------
+# Circuits
+
+
+@dataclass(frozen=True)
+class CircuitList:
+    """The circuits Bandsmith knows (``bandsmith topologies``).
+
+    Attributes
+    ----------
+    topologies : tuple of Topology
+        Every circuit: its id, title, parts (kind, role, an example value in ohm, farad or
+        henry) and whether it inverts.
+    """
+
+    topologies: tuple
+
+    def __iter__(self) -> Iterator["Topology"]:
+        return iter(self.topologies)
+
+    def __len__(self) -> int:
+        return len(self.topologies)
+
+    @property
+    def ids(self) -> tuple[str, ...]:
+        """The circuit ids, in listing order."""
+        return tuple(t.id for t in self.topologies)
+
+    def to_json(self) -> dict:
+        """The ``bandsmith topologies --json`` object."""
+        return {"topologies": [t.to_json() for t in self.topologies]}
+
+
+def list_circuits() -> CircuitList:
+    """The band-pass circuits Bandsmith can design and analyse.
+
+    Returns
+    -------
+    CircuitList
+        Iterable over the circuits; ``.ids`` gives the ids that :func:`design_circuit` and
+        :func:`analyze` take; ``to_json()`` is the ``topologies --json`` object.
+    """
+    from bandsmith.circuits import all_topologies
+
+    return CircuitList(tuple(all_topologies()))
+
+
+# --------------------------------------------------------------------------------------------
+# Design and compare
+
+
+@dataclass(frozen=True)
+class DesignReport:
+    """One circuit designed for a target (``bandsmith design``).
+
+    Attributes
+    ----------
+    result : DesignResult
+        The core's result: ``exact`` and ``chosen`` part values (ohm, farad, henry), ``ideal``
+        figures, ``errors`` (f0 and Q in %, gain in dB), ``analysis``, notes and warnings.
+    conditions : Conditions
+        The op-amp (GBW in Hz, A0 in V/V), input peak (V) and load (ohm) it was analysed under.
+    """
+
+    result: "DesignResult"
+    conditions: "Conditions"
+
+    @property
+    def feasible(self) -> bool:
+        """Whether the circuit can meet the target."""
+        return self.result.feasible
+
+    @property
+    def chosen(self) -> Mapping[str, float]:
+        """The chosen standard values by reference (ohm, farad, henry), read-only."""
+        from types import MappingProxyType
+
+        return MappingProxyType(self.result.chosen)
+
+    def to_session(self, *, notes: str = "") -> "Session":
+        """A session holding this design (save it with :func:`save_session`)."""
+        from bandsmith.files.design_session import design_session
+
+        r = self.result
+        return design_session(r.spec, [r], series=r.series, conditions=self.conditions, notes=notes)
+
+    def to_json(self) -> dict:
+        """The ``bandsmith design --json`` object."""
+        from bandsmith.design.designer import design_json
+
+        return design_json(self.result)
+
+
+def design_circuit(
+    circuit: str,
+    *,
+    f0_hz: Value,
+    q: Value | None = None,
+    bw_hz: Value | None = None,
+    gain: Value,
+    series: str = "E24",
+    fix: "Mapping[str, Value] | Sequence[str] | None" = None,
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+    vin_v: Value = 1.0,
+    rload_ohm: Value | None = None,
+    tol_f0: Value | None = None,
+    tol_q: Value | None = None,
+    tol_gain_db: Value | None = None,
+) -> DesignReport:
+    """Part values of one circuit for a target centre frequency, Q (or bandwidth) and gain.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id (see :func:`list_circuits`), e.g. ``"mfb"``.
+    f0_hz : float or str
+        Centre frequency (Hz).
+    q : float or str, optional
+        Quality factor f0 / bandwidth (dimensionless); give ``q`` or ``bw_hz``.
+    bw_hz : float or str, optional
+        −3 dB bandwidth (Hz), instead of ``q``.
+    gain : float or str
+        Magnitude of the centre gain (V/V); its sign follows the circuit.
+    series : str
+        Standard series of the parts: ``"E6"`` … ``"E192"`` or ``"exact"``.
+    fix : mapping or sequence of str, optional
+        Parts pinned to a value (ohm, farad, henry), e.g. ``{"C1": "10n"}`` or ``["C1=10n"]``.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None analyses with an ideal op-amp only.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+    vin_v : float or str
+        Input peak amplitude (V) for the slew rate and output current.
+    rload_ohm : float or str, optional
+        Load from the output to ground (ohm).
+    tol_f0, tol_q : float or str, optional
+        How far f0 and Q may stray with the finite op-amp (fractions, 0.01 = 1 %; defaults
+        1 % and 5 %), for the required GBW.
+    tol_gain_db : float or str, optional
+        Allowed centre-gain change (dB; default 0.5) for the required GBW.
+
+    Returns
+    -------
+    DesignReport
+        ``to_json()`` is the ``design --json`` object; ``to_session()`` a session with it.
+    """
+    from bandsmith.design.designer import design as _design
+
+    spec = _spec(f0_hz, q, bw_hz, gain)
+    series = _series(series)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    topo = _topology(circuit)
+    fixed = _assignments(fix)
+    result = _design(topo.id, spec, series=series, fixed=fixed, conditions=conditions)
+    return DesignReport(result, conditions)
+
+
+@dataclass(frozen=True)
+class ComparisonReport:
+    """Every circuit designed for one target, judged and ranked (``bandsmith compare``).
+
+    Attributes
+    ----------
+    comparison : Comparison
+        The designs (one per circuit, in listing order), their verdicts, ranking and the limits
+        they were judged against (:mod:`bandsmith.verdict`).
+    series : str
+        The parts' standard series.
+    conditions : Conditions
+        The op-amp (GBW in Hz), input peak (V) and load (ohm).
+    """
+
+    comparison: "Comparison"
+    series: str
+    conditions: "Conditions"
+
+    @property
+    def spec(self) -> "Spec":
+        """The target: f0 (Hz), Q and centre-gain magnitude (V/V)."""
+        return self.comparison.spec
+
+    @property
+    def results(self) -> tuple:
+        """One DesignResult per circuit, in listing order."""
+        return self.comparison.results
+
+    @property
+    def recommended(self) -> str | None:
+        """The id of the candidate to build, or None when none is buildable."""
+        return self.comparison.recommended
+
+    def to_session(self, *, notes: str = "") -> "Session":
+        """A session holding every design as a candidate."""
+        from bandsmith.files.design_session import design_session
+
+        return design_session(self.spec, self.results, series=self.series, conditions=self.conditions, notes=notes)
+
+    def to_json(self) -> dict:
+        """The ``bandsmith compare --json`` object."""
+        from bandsmith.verdict import comparison_json
+
+        return comparison_json(self.comparison)
+
+
+def compare(
+    *,
+    f0_hz: Value,
+    q: Value | None = None,
+    bw_hz: Value | None = None,
+    gain: Value,
+    series: str = "E24",
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+    vin_v: Value = 1.0,
+    rload_ohm: Value | None = None,
+    tol_f0: Value | None = None,
+    tol_q: Value | None = None,
+    tol_gain_db: Value | None = None,
+    limits: "VerdictLimits | None" = None,
+) -> ComparisonReport:
+    """Design every circuit for one target, judge each and rank them.
+
+    Parameters
+    ----------
+    f0_hz : float or str
+        Centre frequency (Hz).
+    q : float or str, optional
+        Quality factor (dimensionless); give ``q`` or ``bw_hz``.
+    bw_hz : float or str, optional
+        −3 dB bandwidth (Hz), instead of ``q``.
+    gain : float or str
+        Magnitude of the centre gain (V/V).
+    series : str
+        ``"E6"`` … ``"E192"`` or ``"exact"``.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None is an ideal op-amp.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+    vin_v : float or str
+        Input peak amplitude (V).
+    rload_ohm : float or str, optional
+        Load from the output to ground (ohm).
+    tol_f0, tol_q : float or str, optional
+        Allowed f0 and Q change with the finite op-amp (fractions) for the required GBW.
+    tol_gain_db : float or str, optional
+        Allowed centre-gain change (dB) for the required GBW.
+    limits : VerdictLimits, optional
+        The limits the verdicts judge against (:class:`bandsmith.verdict.VerdictLimits`);
+        None takes its defaults.
+
+    Returns
+    -------
+    ComparisonReport
+        ``to_json()`` is the ``compare --json`` object, verdicts and recommendation included.
+    """
+    from bandsmith.verdict import VerdictLimits, compare_verdicts
+
+    spec = _spec(f0_hz, q, bw_hz, gain)
+    series = _series(series)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    comparison = compare_verdicts(spec, series=series, conditions=conditions, limits=limits or VerdictLimits())
+    return ComparisonReport(comparison, series, conditions)
+
+
+# --------------------------------------------------------------------------------------------
+# Analysis of given parts
+
+
+@dataclass(frozen=True)
+class AnalysisReport:
+    """Figures, amplifier needs and sensitivities of one candidate (``bandsmith analyze``).
+
+    Attributes
+    ----------
+    candidate : Candidate
+        Circuit id and part values (ohm, farad, henry).
+    analysis : Analysis
+        Ideal and finite-op-amp figures (f0 in Hz, Q, gain), requirements (GBW in Hz, slew in
+        V/s, output current in A) and sensitivities.
+    id : str, optional
+        The candidate's id when it came from a session.
+    enabled : bool, optional
+        Whether that candidate is switched on in the session.
+    """
+
+    candidate: "Candidate"
+    analysis: "Analysis"
+    id: str | None = None
+    enabled: bool | None = None
+
+    def to_json(self) -> dict:
+        """The ``bandsmith analyze --json`` object (with ``id`` and ``enabled`` from a session)."""
+        from bandsmith.design.candidate import analysis_json
+
+        out = analysis_json(self.candidate, self.analysis)
+        if self.id is not None:
+            out = dict(out, id=self.id, enabled=self.enabled)
+        return out
+
+
+def analyze(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+    vin_v: Value = 1.0,
+    rload_ohm: Value | None = None,
+    tol_f0: Value | None = None,
+    tol_q: Value | None = None,
+    tol_gain_db: Value | None = None,
+) -> AnalysisReport:
+    """Analyse one candidate: figures, amplifier needs and sensitivities.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id (see :func:`list_circuits`).
+    parts : mapping or sequence of str
+        Part values by reference (ohm, farad, henry), e.g. ``{"R1": "16k", "C1": 2.2e-9}``, or as
+        ``REF=VALUE`` texts, e.g. ``["R1=16k", "C1=2.2n"]``.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None is an ideal op-amp.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+    vin_v : float or str
+        Input peak amplitude (V).
+    rload_ohm : float or str, optional
+        Load from the output to ground (ohm).
+    tol_f0, tol_q : float or str, optional
+        Allowed f0 and Q change with the finite op-amp (fractions) for the required GBW.
+    tol_gain_db : float or str, optional
+        Allowed centre-gain change (dB) for the required GBW.
+
+    Returns
+    -------
+    AnalysisReport
+        ``to_json()`` is the ``analyze --json`` object.
+    """
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    cand = candidate_of(circuit, parts)
+    return AnalysisReport(cand, cand.analyze(conditions))
+
+
+@dataclass(frozen=True)
+class SessionAnalysisReport:
+    """Every candidate of a session analysed (``bandsmith analyze --session``).
+
+    Attributes
+    ----------
+    candidates : tuple of AnalysisReport
+        One report per candidate, in the session's order, each with its ``id`` and ``enabled``.
+    """
+
+    candidates: tuple
+
+    def __iter__(self) -> Iterator[AnalysisReport]:
+        return iter(self.candidates)
+
+    def to_json(self) -> dict:
+        """The ``bandsmith analyze --session FILE --json`` object."""
+        return {"candidates": [c.to_json() for c in self.candidates]}
+
+
+def analyze_session(
+    session: "Session | str | os.PathLike",
+    *,
+    gbw_hz: Value | None = None,
+    a0: Value | None = None,
+    vin_v: Value | None = None,
+    rload_ohm: Value | None = None,
+    tol_f0: Value | None = None,
+    tol_q: Value | None = None,
+    tol_gain_db: Value | None = None,
+) -> SessionAnalysisReport:
+    """Analyse every candidate of a session under its own op-amp and drive, or the ones given.
+
+    Parameters
+    ----------
+    session : Session or path
+        A session (:func:`open_session`) or the path of a session file.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz) instead of the session's.
+    a0 : float or str, optional
+        Op-amp open-loop DC gain (V/V) instead of the session's.
+    vin_v : float or str, optional
+        Input peak amplitude (V) instead of the session's.
+    rload_ohm : float or str, optional
+        Load from the output to ground (ohm) instead of the session's.
+    tol_f0, tol_q : float or str, optional
+        Allowed f0 and Q change (fractions) for the required GBW; giving any of the three
+        tolerances replaces the session's (the others take their defaults).
+    tol_gain_db : float or str, optional
+        Allowed centre-gain change (dB) for the required GBW.
+
+    Returns
+    -------
+    SessionAnalysisReport
+        ``to_json()`` is the ``analyze --session FILE --json`` object.
+    """
+    if not hasattr(session, "candidates"):
+        session = open_session(session)
+    given = conditions_of(gbw_hz, a0 if a0 is not None else DEFAULT_A0, vin_v if vin_v is not None else 1.0,
+                        rload_ohm, tol_f0, tol_q, tol_gain_db)
+    changes: dict[str, Any] = {}
+    for name, option in (("gbw_hz", gbw_hz), ("a0", a0), ("vin_v", vin_v), ("rload_ohm", rload_ohm)):
+        if option is not None:
+            changes[name] = getattr(given, name)
+    if any(t is not None for t in (tol_f0, tol_q, tol_gain_db)):
+        changes["tolerances"] = given.tolerances
+    reports = []
+    for entry in session.candidates:
+        base = session.conditions_for(entry)
+        conditions = replace(base, **changes) if changes else base
+        cand = candidate_of(entry.topology_id, dict(entry.values))
+        reports.append(AnalysisReport(cand, cand.analyze(conditions), id=entry.id, enabled=entry.enabled))
+    return SessionAnalysisReport(tuple(reports))
+
+
+@dataclass(frozen=True)
+class SweepReport:
+    """The frequency response of one candidate (``bandsmith sweep``).
+
+    Attributes
+    ----------
+    f_hz : numpy.ndarray
+        Frequencies (Hz), log-spaced. The four arrays are read-only.
+    magnitude_db : numpy.ndarray
+        Gain (dB).
+    phase_deg : numpy.ndarray
+        Phase (degrees), unwrapped.
+    group_delay_s : numpy.ndarray
+        Group delay (s).
+    """
+
+    f_hz: Any
+    magnitude_db: Any
+    phase_deg: Any
+    group_delay_s: Any
+
+    COLUMNS = ("frequency_hz", "magnitude_db", "phase_deg", "group_delay_s")
+
+    def rows(self) -> list[list[float]]:
+        """Rows of (frequency Hz, magnitude dB, phase deg, group delay s)."""
+        import numpy as np
+
+        return np.column_stack([self.f_hz, self.magnitude_db, self.phase_deg, self.group_delay_s]).tolist()
+
+    def to_json(self) -> dict:
+        """The columns as lists, keyed as the header of ``sweep --csv``."""
+        return {name: [float(v) for v in col] for name, col in zip(self.COLUMNS, (self.f_hz, self.magnitude_db, self.phase_deg, self.group_delay_s))}
+
+
+def sweep(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    f_from_hz: Value = 10.0,
+    f_to_hz: Value = 10e6,
+    points: int | str = 1000,
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+) -> SweepReport:
+    """The frequency response of one candidate at log-spaced frequencies.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of str
+        Part values by reference (ohm, farad, henry).
+    f_from_hz, f_to_hz : float or str
+        First and last frequency (Hz), ``f_from_hz < f_to_hz``.
+    points : int
+        Number of log-spaced points, 2 to 1 000 000.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None is an ideal op-amp.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+
+    Returns
+    -------
+    SweepReport
+        Arrays of frequency (Hz), magnitude (dB), phase (deg) and group delay (s).
+    """
+    import numpy as np
+
+    from bandsmith.analysis.analyzer import sweep as _sweep, transfer_function
+    from bandsmith.solver.mna import IDEAL
+
+    conditions = conditions_of(gbw_hz, a0)
+    f1, f2 = _positive(f_from_hz, "from"), _positive(f_to_hz, "to")
+    if f2 <= f1:
+        raise InputError("to", f"must be above --from ({f1:g} Hz)")
+    if isinstance(points, str):
+        try:
+            points = int(points)
+        except ValueError:
+            raise InputError("points", f"{points!r} is not a whole number") from None
+    if isinstance(points, bool) or not isinstance(points, int) or not 2 <= points <= 1_000_000:
+        raise InputError("points", "must be from 2 to 1000000")
+    cand = candidate_of(circuit, parts)
+    h = transfer_function(cand.netlist, conditions.opamp or IDEAL)
+    r = _sweep(h, np.geomspace(f1, f2, points))
+    columns = [np.array(c, dtype=float) for c in (r.f_hz, r.magnitude_db, r.phase_deg, r.group_delay_s)]
+    for c in columns:
+        c.flags.writeable = False
+    return SweepReport(*columns)
+
+
+# --------------------------------------------------------------------------------------------
+# Tolerance spread and noise
+
+
+@dataclass(frozen=True)
+class ToleranceReport:
+    """Monte Carlo spread, yield and worst case of one candidate (``bandsmith tolerance``).
+
+    Attributes
+    ----------
+    candidate : Candidate
+        Circuit id and nominal part values (ohm, farad, henry).
+    spread : Spread
+        Statistics of f0 (Hz), Q and centre gain (dB), the yield (fraction) and the worst-case
+        corners.
+    """
+
+    candidate: "Candidate"
+    spread: "Spread"
+
+    @property
+    def yield_fraction(self) -> float:
+        """Share of the trials within the yield window (0 to 1)."""
+        return float(self.to_json()["yield"])
+
+    def to_json(self) -> dict:
+        """The ``bandsmith tolerance --json`` object."""
+        return {"topology": self.candidate.topology_id, "components": _values_json(self.candidate), **self.spread.to_json()}
+
+
+def _whole(v: int | str, field: str, *, low: int) -> int:
+    import re
+
+    if isinstance(v, bool) or not isinstance(v, (int, str)):
+        raise InputError(field, f"must be a whole number, got {v!r}")
+    if isinstance(v, str):
+        if not re.fullmatch(r"\s*[+-]?[0-9][0-9_]*\s*", v):
+            raise InputError(field, f'"{v}" is not a whole number')
+        v = int(v.replace("_", ""))
+    if v < low:
+        raise InputError(field, f"must be {'a positive' if low else 'a'} whole number{'' if low else ' of 0 or more'}, got {v}")
+    return v
+
+
+def _spread_settings(tolerances, dist, trials, seed, gbw_tol, window_f0, window_q, window_gain_db) -> "SpreadSettings":
+    from bandsmith.spread.tolerance import MAX_TRIALS, SpreadSettings
+
+    kw: dict[str, Any] = {"tolerances": {k: _fraction(v, f"tol {k}") for k, v in dict(tolerances or {}).items()}, "dist": dist}
+    if trials is not None:
+        n = _whole(trials, "trials", low=1)
+        if n > MAX_TRIALS:
+            raise InputError("trials", f"at most {MAX_TRIALS}, got {n}")
+        kw["trials"] = n
+    if seed is not None:
+        kw["seed"] = _whole(seed, "seed", low=0)
+    if gbw_tol is not None:
+        kw["gbw_tol"] = _fraction(gbw_tol, "gbw-tol")
+    if window_f0 is not None:
+        kw["window_f0"] = _positive_fraction(window_f0, "window-f0")
+    if window_q is not None:
+        kw["window_q"] = _positive_fraction(window_q, "window-q")
+    if window_gain_db is not None:
+        kw["window_gain_db"] = _positive(window_gain_db, "window-gain-db")
+    return SpreadSettings(**kw)
+
+
+def tolerance(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    tolerances: Mapping[str, Value] | None = None,
+    dist: str = "uniform",
+    trials: int | str | None = None,
+    seed: int | str | None = None,
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+    gbw_tol: Value | None = None,
+    window_f0: Value | None = None,
+    window_q: Value | None = None,
+    window_gain_db: Value | None = None,
+) -> ToleranceReport:
+    """Monte Carlo tolerance spread, yield and worst case of one candidate.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of str
+        Nominal part values by reference (ohm, farad, henry).
+    tolerances : mapping, optional
+        Tolerance by kind (``"R"``, ``"C"``, ``"L"``) or by reference (``"C2"``), as fractions
+        or text (``"1%"``); kinds not given keep R 1 %, C 5 %, L 10 %.
+    dist : {"uniform", "normal"}
+        ``uniform``: value·(1 + U(−p, p)); ``normal``: value·(1 + N(0, p/3)).
+    trials : int, optional
+        Number of trials (default 10 000).
+    seed : int, optional
+        Seed of the random generator (default 1); the same seed gives the same numbers.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None is an ideal op-amp.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+    gbw_tol : float or str, optional
+        Spread of the GBW (fraction; needs ``gbw_hz``).
+    window_f0, window_q : float or str, optional
+        Yield window around nominal f0 and Q (fractions; defaults ±5 % and ±10 %).
+    window_gain_db : float or str, optional
+        Yield window for the centre gain (dB; default ±1).
+
+    Returns
+    -------
+    ToleranceReport
+        ``to_json()`` is the ``tolerance --json`` object.
+    """
+    from bandsmith.spread.tolerance import run_spread
+
+    settings = _spread_settings(tolerances, dist, trials, seed, gbw_tol, window_f0, window_q, window_gain_db)
+    opamp = _opamp(gbw_hz, a0)
+    if settings.gbw_tol > 0 and opamp.ideal:
+        raise InputError("gbw-tol", "needs --gbw: an ideal op-amp has no GBW to spread")
+    cand = candidate_of(circuit, parts)
+    return ToleranceReport(cand, run_spread(cand.netlist, settings, opamp=opamp))
+
+
+@dataclass(frozen=True)
+class NoiseReport:
+    """Output noise of one candidate (``bandsmith noise``).
+
+    Attributes
+    ----------
+    candidate : Candidate
+        Circuit id and part values (ohm, farad, henry).
+    result : NoiseResult
+        Density per source (V/√Hz), integrated noise (V rms) over the band (Hz) and the SNR (dB).
+    """
+
+    candidate: "Candidate"
+    result: "NoiseResult"
+
+    def to_json(self) -> dict:
+        """The ``bandsmith noise --json`` object."""
+        return {"topology": self.candidate.topology_id, "components": _values_json(self.candidate), **self.result.to_json()}
+
+
+def noise(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    en_v_per_rthz: Value | None = None,
+    in_a_per_rthz: Value | None = None,
+    temperature_k: Value | None = None,
+    band_hz: tuple[Value, Value] | None = None,
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+    vin_v: Value = 1.0,
+) -> NoiseReport:
+    """Output noise per source, integrated over a band, and the signal-to-noise ratio.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of str
+        Part values by reference (ohm, farad, henry).
+    en_v_per_rthz : float or str, optional
+        Op-amp voltage noise density (V/√Hz; default 10 nV/√Hz).
+    in_a_per_rthz : float or str, optional
+        Op-amp current noise density at each input (A/√Hz; default 1 pA/√Hz).
+    temperature_k : float or str, optional
+        Temperature of the resistors (K; default 300).
+    band_hz : (float, float), optional
+        Integration band (Hz); default f0/10 to 10·f0.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None is an ideal op-amp.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+    vin_v : float or str
+        Input sine peak (V) for the SNR.
+
+    Returns
+    -------
+    NoiseReport
+        ``to_json()`` is the ``noise --json`` object.
+    """
+    from bandsmith.analysis.noise import NoiseSettings, output_noise
+    from bandsmith.common.values import parse_nonnegative
+
+    kw: dict[str, Any] = {}
+    if en_v_per_rthz is not None:
+        kw["en_v_per_rthz"] = parse_nonnegative(en_v_per_rthz, field="en")
+    if in_a_per_rthz is not None:
+        kw["in_a_per_rthz"] = parse_nonnegative(in_a_per_rthz, field="in")
+    if temperature_k is not None:
+        kw["temperature_k"] = _positive(temperature_k, "temp")
+    if band_hz is not None:
+        kw["band_hz"] = (_positive(band_hz[0], "band"), _positive(band_hz[1], "band"))
+    settings = NoiseSettings(**kw)
+    opamp = _opamp(gbw_hz, a0)
+    vin = _positive(vin_v, "vin")
+    cand = candidate_of(circuit, parts)
+    return NoiseReport(cand, output_noise(cand.netlist, settings, opamp=opamp, vin_v=vin))
+
+
+# --------------------------------------------------------------------------------------------
+# Cascade
+
+
+@dataclass(frozen=True)
+class CascadeReport:
+    """A higher-order band-pass built as a chain of second-order stages (``bandsmith cascade``).
+
+    Attributes
+    ----------
+    result : Cascade
+        The stages (circuit, f0 in Hz, Q, gain, parts), the whole chain's band edges (Hz) and
+        gains (dB), and the GBW (Hz) the most demanding stage needs.
+    """
+
+    result: "Cascade"
+
+    @property
+    def feasible(self) -> bool:
+        """Whether every stage could be built."""
+        return self.result.feasible
+
+    def to_session(self, *, notes: str = "") -> "Session":
+        """A session with the stages as candidates and the chain kept in it."""
+        from bandsmith.chain.cascade import cascade_session
+
+        return cascade_session(self.result, notes=notes)
+
+    def to_json(self) -> dict:
+        """The ``bandsmith cascade --json`` object."""
+        from bandsmith.chain.cascade import cascade_json
+
+        return cascade_json(self.result)
+
+
+def cascade(
+    *,
+    response: str,
+    order: int,
+    f0_hz: Value | None = None,
+    bw_hz: Value | None = None,
+    f_low_hz: Value | None = None,
+    f_high_hz: Value | None = None,
+    ripple_db: Value | None = None,
+    gain: Value = 1.0,
+    circuit: str = "auto",
+    series: str = "E24",
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+    vin_v: Value = 1.0,
+    rload_ohm: Value | None = None,
+    tol_f0: Value | None = None,
+    tol_q: Value | None = None,
+    tol_gain_db: Value | None = None,
+) -> CascadeReport:
+    """Design a higher-order band-pass as a chain of second-order stages.
+
+    Parameters
+    ----------
+    response : str
+        Prototype family, e.g. ``"butterworth"`` or ``"chebyshev"``.
+    order : int
+        Prototype order, 1 to 8 (the band-pass has that many stages).
+    f0_hz, bw_hz : float or str, optional
+        Geometric centre (Hz) and bandwidth f_high − f_low (Hz); or give the edges.
+    f_low_hz, f_high_hz : float or str, optional
+        Band edges (Hz): −3 dB, or the ripple-band edges for Chebyshev.
+    ripple_db : float or str, optional
+        Chebyshev passband ripple (dB; default 0.5).
+    gain : float or str
+        Gain magnitude at the geometric centre (V/V).
+    circuit : str
+        ``"auto"`` (least GBW with sane parts, per stage) or one circuit id for every stage.
+    series : str
+        ``"E6"`` … ``"E192"`` or ``"exact"``.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None is an ideal op-amp.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+    vin_v : float or str
+        Input peak amplitude (V).
+    rload_ohm : float or str, optional
+        Load from the output to ground (ohm).
+    tol_f0, tol_q : float or str, optional
+        Allowed f0 and Q change (fractions) for each stage's required GBW.
+    tol_gain_db : float or str, optional
+        Allowed centre-gain change (dB) for each stage's required GBW.
+
+    Returns
+    -------
+    CascadeReport
+        ``to_json()`` is the ``cascade --json`` object; ``to_session()`` a session with the chain.
+    """
+    from bandsmith.chain.cascade import ChainSettings, circuit_choices, design_cascade
+    from bandsmith.chain.prototypes import RESPONSES
+
+    if response is None:
+        raise InputError("response", f"missing; choose one of {', '.join(RESPONSES)}")
+    if order is None:
+        raise InputError("order", "missing; give an integer from 1 to 8")
+    if circuit not in circuit_choices():
+        raise InputError("circuit", f"{circuit!r} is not a circuit; choose one of {', '.join(circuit_choices())}")
+    settings = ChainSettings.from_request(
+        response,
+        order,
+        f0_hz=_optional_positive(f0_hz, "f0"),
+        bw_hz=_optional_positive(bw_hz, "bw"),
+        f_low_hz=_optional_positive(f_low_hz, "f-low"),
+        f_high_hz=_optional_positive(f_high_hz, "f-high"),
+        ripple_db=_optional_positive(ripple_db, "ripple-db"),
+        gain=_positive(gain, "gain"),
+        circuit=circuit,
+        series=series,
+    )
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    return CascadeReport(design_cascade(settings, conditions=conditions))
+
+
+# --------------------------------------------------------------------------------------------
+# The bench: fit to a measurement, op-amp check
+
+
+@dataclass(frozen=True)
+class MeasurementFitReport:
+    """Which parts explain a measured response of a built candidate (``bandsmith fit``).
+
+    Attributes
+    ----------
+    candidate : Candidate
+        The design's circuit and part values (ohm, farad, henry).
+    measurement : Measurement
+        The measured response: frequencies (Hz), magnitude (dB) and, if given, phase (rad).
+    diagnosis : Diagnosis
+        Fitted part values, their change (%), the residual (dB rms) and each part alone.
+    opamp : OpAmpModel, optional
+        The op-amp model of the fit (GBW in Hz), None for an ideal one.
+    """
+
+    candidate: "Candidate"
+    measurement: "Measurement"
+    diagnosis: "Diagnosis"
+    opamp: "OpAmpModel | None" = None
+
+    @property
+    def fitted(self) -> Mapping[str, float]:
+        """The fitted part values by reference (ohm, farad, henry), read-only."""
+        from types import MappingProxyType
+
+        return MappingProxyType(dict(self.diagnosis.to_json()["fitted"]))
+
+    def to_json(self) -> dict:
+        """The ``bandsmith fit --json`` object."""
+        m = self.measurement
+        out = self.diagnosis.to_json()
+        out["measured"].update({"source": m.source, "sha256": m.sha256, "has_phase": m.has_phase, "file_notes": list(m.notes)})
+        out["components"] = _values_json(self.candidate)
+        out["opamp"] = None if self.opamp is None else self.opamp.to_json()
+        return out
+
+
+def _kind_tolerances(tolerances: "Mapping[str, Value] | Sequence[str] | None") -> dict[str, float]:
+    if isinstance(tolerances, Mapping):
+        tolerances = [f"{k}={v}" for k, v in tolerances.items()]
+    out = {}
+    for it in tolerances or ():
+        kind, sep, text = it.partition("=")
+        kind = kind.strip().upper()
+        if not sep or kind not in ("R", "C", "L"):
+            raise InputError("tol", f"{it!r}: expected KIND=P with KIND R, C or L, e.g. C=5%")
+        v = _fraction(text, f"tol {kind}")
+        if not v > 0:
+            raise InputError(f"tol {kind}", "must be above zero")
+        out[kind] = v
+    return out
+
+
+def fit(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    measured: "str | os.PathLike | Measurement",
+    fit_parts: Sequence[str] | None = None,
+    part_range: Value | None = None,
+    tolerances: "Mapping[str, Value] | Sequence[str] | None" = None,
+    gbw_hz: Value | None = None,
+    a0: Value | None = None,
+    magnitude_only: bool = False,
+) -> MeasurementFitReport:
+    """Fit a design's part values to a measured response and rank the parts that explain it.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of str
+        The design's part values by reference (ohm, farad, henry).
+    measured : path or Measurement
+        A measured response file (CSV or whitespace-separated: frequency, magnitude in dB or
+        V/V, optional phase), or one already read.
+    fit_parts : sequence of str, optional
+        References of the parts to fit (default every part above zero).
+    part_range : float or str, optional
+        Allowed change of every fitted part (fraction, e.g. ``"20%"``; default 3× its tolerance).
+    tolerances : mapping or sequence of str, optional
+        Tolerance by kind (``{"C": "5%"}`` or ``["C=5%"]``; fractions) for the default ranges.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz) of the model; None is an ideal op-amp.
+    a0 : float or str, optional
+        Op-amp open-loop DC gain (V/V; needs ``gbw_hz``; default 1e5).
+    magnitude_only : bool
+        Fit the magnitude only, even where the file has phase.
+
+    Returns
+    -------
+    MeasurementFitReport
+        ``to_json()`` is the ``fit --json`` object.
+    """
+    from bandsmith.bench.diagnose import diagnose
+    from bandsmith.bench.measured import MappingNeeded, read_measurement
+    from bandsmith.solver.mna import OpAmpModel
+
+    cand = candidate_of(circuit, parts)
+    m = measured
+    if isinstance(measured, (str, bytes, os.PathLike)):
+        try:
+            m = read_measurement(measured)
+        except MappingNeeded as exc:
+            raise InputError("measured", exc.reason) from None
+    opamp = None
+    if gbw_hz is not None:
+        a = _positive(a0, "a0") if a0 is not None else DEFAULT_A0
+        opamp = OpAmpModel(_positive(gbw_hz, "gbw"), a)
+    elif a0 is not None:
+        raise InputError("a0", "only means something with --gbw")
+    rng = None if part_range is None else _fraction(part_range, "range")
+    names = None if fit_parts is None else list(fit_parts)
+    d = diagnose(cand, m, parts=names, ranges=rng, tolerances=_kind_tolerances(tolerances), opamp=opamp, use_phase=not magnitude_only)
+    return MeasurementFitReport(cand, m, d, opamp)
+
+
+@dataclass(frozen=True)
+class OpAmpCheckReport:
+    """Which op-amps will do for one candidate, and how much signal fits (``bandsmith check``).
+
+    Attributes
+    ----------
+    candidate : Candidate
+        Circuit id and part values (ohm, farad, henry).
+    report : FitReport
+        One verdict per op-amp with its margins (GBW, slew, output current as ratios; swing in
+        V) and the circuit's own headroom (node peaks in V, largest input in V).
+    vin_v : float
+        Input peak (V).
+    supply_v : float
+        Symmetric supply ±V (V).
+    rload_ohm : float, optional
+        Load from the output to ground (ohm).
+    """
+
+    candidate: "Candidate"
+    report: "FitReport"
+    vin_v: float
+    supply_v: float
+    rload_ohm: float | None = None
+
+    def to_json(self) -> dict:
+        """The ``bandsmith check --json`` object."""
+        cand, report = self.candidate, self.report
+        return {
+            "candidate": {
+                "topology": cand.topology_id,
+                "components": _values_json(cand),
+                "netlist": cand.netlist.to_json(),
+                "ideal": report.ideal.to_json(),
+                "vin_v": float(self.vin_v),
+                "supply_v": float(self.supply_v),
+                "rload_ohm": None if self.rload_ohm is None else float(self.rload_ohm),
+            },
+            "verdicts": [v.to_json() for v in report.verdicts],
+            "headroom": report.headroom.to_json(),
+        }
+
+
+def check_opamps(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    amps: "Sequence[OpAmp | str] | None" = None,
+    shelf: "Sequence[OpAmp] | None" = None,
+    vin_v: Value = 1.0,
+    supply_v: Value | None = None,
+    rload_ohm: Value | None = None,
+    tol_f0: Value | None = None,
+    tol_q: Value | None = None,
+    tol_gain_db: Value | None = None,
+) -> OpAmpCheckReport:
+    """Check op-amp models against one candidate: verdicts, margins and headroom.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of str
+        Part values by reference (ohm, farad, henry).
+    amps : sequence of OpAmp or str, optional
+        The models to check, or their names on ``shelf`` (default every model on ``shelf``).
+    shelf : sequence of OpAmp, optional
+        Where names are looked up (default the shipped generic archetypes).
+    vin_v : float or str
+        Input peak amplitude (V).
+    supply_v : float or str, optional
+        Symmetric supply ±V (V; default 15).
+    rload_ohm : float or str, optional
+        Load from the output to ground (ohm).
+    tol_f0, tol_q : float or str, optional
+        Allowed f0 and Q change (fractions) for the required GBW.
+    tol_gain_db : float or str, optional
+        Allowed centre-gain change (dB) for the required GBW.
+
+    Returns
+    -------
+    OpAmpCheckReport
+        ``to_json()`` is the ``check --json`` object.
+    """
+    from bandsmith.bench.fitcheck import fit_check
+    from bandsmith.bench.headroom import DEFAULT_SUPPLY_V
+    from bandsmith.bench.shelf import ARCHETYPES, find_amp
+
+    cand = candidate_of(circuit, parts)
+    vin = _positive(vin_v, "vin")
+    supply = _positive(supply_v, "supply") if supply_v is not None else DEFAULT_SUPPLY_V
+    rload = _optional_positive(rload_ohm, "rload")
+    tol = tolerances_of(tol_f0, tol_q, tol_gain_db)
+    shelf = tuple(ARCHETYPES if shelf is None else shelf)
+    chosen: list = []
+    for a in (shelf if amps is None else amps):
+        model = find_amp(shelf, a) if isinstance(a, str) else a
+        if model not in chosen:
+            chosen.append(model)
+    if not chosen:
+        raise InputError("amp", "the shelf is empty; add an op-amp to it first")
+    report = fit_check(cand.netlist, chosen, supply_v=supply, vin_v=vin, rload_ohm=rload, tolerances=tol)
+    return OpAmpCheckReport(cand, report, vin, supply, rload)
+
+
+# --------------------------------------------------------------------------------------------
+# Sessions
+
+
+def open_session(path: str | os.PathLike) -> "Session":
+    """Read a session file (``*.bandsmith.json``).
+
+    Parameters
+    ----------
+    path : str or path-like
+        The session file.
+
+    Returns
+    -------
+    Session
+        The target (f0 in Hz, Q, gain), op-amp (GBW in Hz, A0), drive (V, ohm) and candidates
+        (part values in ohm, farad, henry); frozen.
+
+    Raises
+    ------
+    InputError
+        When the file is missing, not JSON, or not a valid session (the message says where).
+    """
+    from bandsmith.files.session import load_session
+
+    return load_session(path)
+
+
+def save_session(session: "Session", path: str | os.PathLike) -> None:
+    """Write a session file atomically (an existing file is replaced only once complete).
+
+    Parameters
+    ----------
+    session : Session
+        From :func:`open_session` or a report's ``to_session()``.
+    path : str or path-like
+        The file to write (``*.bandsmith.json``).
+
+    Returns
+    -------
+    None
+    """
+    from bandsmith.files.session import save_session as _save
+
+    _save(session, path)
