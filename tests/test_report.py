@@ -30,7 +30,7 @@ ARTIFACTS = ROOT / "tests" / "_artifacts" / "report"
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 UNITS = {"R": "Ω", "L": "H", "C": "F"}
 
-# The three cautions of BRIEF.md; each fact must be in every report.
+# The three cautions the README states ("Cautions"); each fact must be in every report.
 CAUTION_FACTS = ("prototype", "production", "common-mode", "output swing", "datasheet", "mains", "electrical codes", "licensed practice")
 
 
