@@ -1,4 +1,4 @@
-"""The ``bandsmith`` command (CONTRACT.md is the reference).
+"""The ``bandsmith`` command, against the interface the README documents ("Command line").
 
 The installed command runs in subprocesses (marked ``cli``): every call is started up front, two at
 a time, so that the interpreter start-ups (about a second each, mostly importing scipy) overlap;
@@ -43,7 +43,7 @@ TANK = ["rlc-tank", "R1=3k3", "R2=6k8", "L=10m", "C=22n"]
 MFB = ["mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n"]
 SK = ["sallen-key", "R1=4k53", "R2=4k53", "R3=4k53", "C1=100n", "C2=100n", "RA=10k", "RB=22k1"]
 
-# Bad input (CONTRACT.md): exit 2, one stderr line naming the field, nothing on stdout.
+# Bad input (README, "Command line", exit status): exit 2, one stderr line naming the field, nothing on stdout.
 BAD = {
     "bad-value": (["analyze", "rlc-tank", "R1=4x7", "R2=6k8", "L=10m", "C=22n"], "R1"),
     "unknown-part": (["analyze", *TANK, "R9=1k"], "R9"),
@@ -217,7 +217,7 @@ def test_bad_input_exits_2_with_one_line_naming_the_field(case):
 @cli
 @pytest.mark.usefixtures("_pool")
 def test_bad_value_message_suggests_the_notation():
-    # CONTRACT.md's example message: R1: "4x7" is not a value; try 4k7, 4700 or 4.7e3
+    # The README's example message ("Command line"): R1: "4x7" is not a value; try 4k7, 4700 or 4.7e3
     line = run(BAD["bad-value"][0]).stderr.strip()
     assert line.startswith("R1:") and '"4x7"' in line
 
@@ -228,7 +228,7 @@ def test_bad_value_message_suggests_the_notation():
 @cli
 @pytest.mark.usefixtures("_pool")
 def test_topologies_json():
-    # CONTRACT.md: ids rlc-tank, mfb, sallen-key; components with ref, kind, role, required
+    # README ("The circuits", `bandsmith topologies`): ids rlc-tank, mfb, sallen-key; components with ref, kind, role, required
     data = ok_json("topologies-json")
     topos = {t["id"]: t for t in data["topologies"]}
     assert set(topos) == {"rlc-tank", "mfb", "sallen-key"}
@@ -250,7 +250,7 @@ def test_topologies_json():
 @cli
 @pytest.mark.usefixtures("_pool")
 def test_every_topology_example_analyses():
-    # CONTRACT.md: every example is a working design — fed back to `analyze`, it analyses (exit 0)
+    # README (`bandsmith topologies`): every example is a working design — fed back to `analyze`, it analyses (exit 0)
     data = ok_json("topologies-json")
     calls = _example_calls()
     for t in data["topologies"]:
@@ -282,7 +282,7 @@ TOP = {"topology", "components", "netlist", "ideal", "actual", "opamp", "require
 
 
 def _check_netlist(nl, refs):
-    # CONTRACT.md NETLIST: ground/input/output, elements with ref, kind, nodes (value; L: series_resistance)
+    # README (`bandsmith analyze`, NETLIST): ground/input/output, elements with ref, kind, nodes (value; L: series_resistance)
     assert (nl["ground"], nl["input"], nl["output"]) == ("0", "in", "out")
     seen = set()
     for e in nl["elements"]:
@@ -307,14 +307,14 @@ def test_analyze_json_ideal_keys(name):
     out = ok_json(name)
     assert set(out) >= TOP
     assert set(out["ideal"]) >= FIGURES and set(out["requirements"]) >= REQUIREMENTS
-    assert out["actual"] is None and out["opamp"] is None  # CONTRACT.md: only with --gbw
+    assert out["actual"] is None and out["opamp"] is None  # README (`bandsmith analyze`): only with --gbw
     _check_netlist(out["netlist"], out["components"])
     assert set(out["sensitivity"]) == {"f0", "q", "gain"}
     for by_ref in out["sensitivity"].values():
         assert set(by_ref) == set(out["components"])
         assert all(isinstance(x, float) for x in by_ref.values())
     req = out["requirements"]
-    # CONTRACT.md defaults: tolerances 0.01, 0.05, 0.5 dB; A0 1e5; vin 1 V
+    # README ("Definitions", `bandsmith analyze`) defaults: tolerances 0.01, 0.05, 0.5 dB; A0 1e5; vin 1 V
     assert_allclose([req["tol_f0"], req["tol_q"], req["tol_gain_db"], req["a0"], req["vin_v"]], [0.01, 0.05, 0.5, 1e5, 1.0])
     assert req["gbw_hz"] > 0 and req["gbw_reason"] is None
     # common practice, no source: an inverting band-pass has 180° at its centre
@@ -360,7 +360,7 @@ def test_analyze_json_with_gbw_and_every_option():
 @cli
 @pytest.mark.usefixtures("_pool")
 def test_analyze_sallen_key_json():
-    # CONTRACT.md: every resistor that sets a gain (the Sallen–Key amplifier's too) is in the netlist
+    # README ("The circuits"): every resistor that sets a gain (the Sallen–Key amplifier's too) is in the netlist
     out = ok_json("analyze-sk-json")
     refs = {e["ref"] for e in out["netlist"]["elements"]}
     assert {"RA", "RB"} <= refs
@@ -393,14 +393,14 @@ def _csv(name):
     r = run(GOOD[name])
     assert r.returncode == 0 and r.stderr == ""
     rows = list(csv.reader(io.StringIO(r.stdout)))
-    assert rows[0] == ["frequency_hz", "magnitude_db", "phase_deg", "group_delay_s"]  # CONTRACT.md
+    assert rows[0] == ["frequency_hz", "magnitude_db", "phase_deg", "group_delay_s"]  # README (`bandsmith sweep`)
     return np.array(rows[1:], dtype=float)
 
 
 @cli
 @pytest.mark.usefixtures("_pool")
 def test_sweep_default_range_and_points():
-    # CONTRACT.md: log-spaced, default 10 Hz to 10 MHz, 1000 points
+    # README (`bandsmith sweep`): log-spaced, default 10 Hz to 10 MHz, 1000 points
     a = _csv("sweep-default-csv")
     assert a.shape == (1000, 4)
     f = a[:, 0]
@@ -413,7 +413,7 @@ def test_sweep_default_range_and_points():
 @pytest.mark.usefixtures("_pool")
 def test_sweep_csv_matches_scipy_freqs():
     # scipy.signal.freqs on the tank's closed-form biquad −(s/(R1·C))/(s² + s/(R2·C) + 1/(LC))
-    # (REFERENCES.md) against the command's CSV (printed to 10 significant digits)
+    # (derived by nodal analysis; checked with sympy in test_circuits_sympy.py) against the command's CSV (printed to 10 significant digits)
     a = _csv("sweep-tank-csv")
     assert a.shape == (401, 4)
     f, mag_db, phase, gd = a.T
