@@ -1,4 +1,4 @@
-"""``bandsmith design``, ``compare``, ``export`` and ``analyze --session`` (CONTRACT.md is the reference).
+"""``bandsmith design``, ``compare``, ``export`` and ``analyze --session`` (the README's "Command line" is the reference).
 
 Most calls run in-process through ``bandsmith.app.cli.main`` (the code the entry point runs); a few run the
 installed command in a subprocess (marked ``cli``).
