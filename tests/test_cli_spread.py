@@ -1,4 +1,4 @@
-"""``bandsmith tolerance`` and ``bandsmith noise`` run as commands (CONTRACT.md, issue 5)."""
+"""``bandsmith tolerance`` and ``bandsmith noise`` run as commands (README, `bandsmith tolerance` and `bandsmith noise`)."""
 
 import json
 import math
@@ -64,7 +64,7 @@ def test_tolerance_json_shape():
 
 
 def test_resistors_held_exact_fix_the_tank_gain():
-    # The tank's centre gain is −R2/R1 (REFERENCES.md, parallel tank): with --tol R=0% it cannot move.
+    # The tank's centre gain is −R2/R1 (parallel tank, derived by nodal analysis): with --tol R=0% it cannot move.
     out = ok_json("tolerance", *TANK, "--tol", "R=0%", "--trials", "3000")
     assert out["tolerances"]["R1"] == 0.0 and out["tolerances"]["R2"] == 0.0
     assert out["tolerances"]["L"] == 0.1 and out["tolerances"]["C"] == 0.05
