@@ -20,7 +20,7 @@ def configure(p):
 
 
 def analyze_one(topology_id: str, assignments: dict[str, str], conditions) -> dict:
-    """CONTRACT.md's ANALYZE object for typed parts."""
+    """The README's ANALYZE object for typed parts."""
     topo = get_topology(topology_id)
     cand = Candidate(topo.id, parse_parts(topo, assignments))
     return analysis_json(cand, cand.analyze(conditions))
