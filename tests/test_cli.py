@@ -1,10 +1,9 @@
 """The ``bandsmith`` command, against the interface the README documents ("Command line").
 
-The installed command runs in subprocesses (marked ``cli``): every call is started up front, two at
-a time, so that the interpreter start-ups (about a second each, mostly importing scipy) overlap;
-each test then reads the result of its own call. The full list of bad inputs also runs in-process
-through ``bandsmith.app.cli.main`` (the same code the entry point calls), a representative set of them in
-subprocesses.
+The commands run in-process through ``bandsmith.app.entry.main`` (what the installed entry point
+calls; tests/cli_helpers.py captures stdout, stderr and the exit status), each call once per run.
+A few smoke tests (marked ``cli``) run the installed program itself and check that it prints
+exactly what the in-process call prints; they fail when the program is not installed.
 """
 
 from __future__ import annotations
@@ -13,12 +12,7 @@ import csv
 import io
 import json
 import math
-import os
-import shutil
 import subprocess
-import sys
-from concurrent.futures import ThreadPoolExecutor
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -26,17 +20,9 @@ import scipy.signal
 from numpy.testing import assert_allclose
 
 from bandsmith.app.cli import main as cli_main
+from cli_helpers import run_command, run_installed
 
 cli = pytest.mark.cli
-
-
-def _bandsmith() -> str:
-    """The installed entry point (next to this interpreter if there, else on PATH)."""
-    here = Path(sys.executable).with_name("bandsmith")
-    found = str(here) if here.exists() else shutil.which("bandsmith")
-    if not found:
-        pytest.skip("the bandsmith command is not installed (pip install -e .)")
-    return found
 
 
 TANK = ["rlc-tank", "R1=3k3", "R2=6k8", "L=10m", "C=22n"]
@@ -72,8 +58,8 @@ BAD = {
     "unmeasurable": (["analyze", "rlc-tank", "R1=1", "R2=1e300", "L=1e-300", "C=1e300"], "parts"),
 }
 
-# the bad inputs also run through the installed command (one of each kind)
-BAD_IN_SUBPROCESS = ["bad-value", "missing-part", "nan-value", "negative-gbw", "bad-points-fraction",
+# the bad inputs also run through the entry point (one of each kind)
+BAD_THROUGH_ENTRY = ["bad-value", "missing-part", "nan-value", "negative-gbw", "bad-points-fraction",
                      "unknown-topology", "unmeasurable"]
 
 GOOD = {
@@ -98,38 +84,15 @@ def _example_calls() -> dict[str, list[str]]:
     }
 
 
-_POOL: ThreadPoolExecutor | None = None
-_FUTURES: dict[tuple, object] = {}
-
-
-def _start(args):
-    exe = _bandsmith()
-    env = dict(os.environ, PYTHONIOENCODING="utf-8")
-    return subprocess.run([exe, *args], capture_output=True, text=True, encoding="utf-8", env=env, timeout=120)
-
-
-@pytest.fixture(scope="module", autouse=True)
-def _pool(request):
-    """Start every subprocess call at once (two at a time) if this run has any ``cli`` test here."""
-    global _POOL
-    mine = [i for i in request.session.items if i.module is request.module]
-    if not any(i.get_closest_marker("cli") for i in mine):
-        yield
-        return
-    _bandsmith()
-    _POOL = ThreadPoolExecutor(max_workers=2)
-    for args in list(GOOD.values()) + list(_example_calls().values()) + [BAD[k][0] for k in BAD_IN_SUBPROCESS]:
-        _FUTURES[tuple(args)] = _POOL.submit(_start, list(args))
-    yield
-    _POOL.shutdown(wait=True)
+_RESULTS: dict[tuple, subprocess.CompletedProcess] = {}
 
 
 def run(args) -> subprocess.CompletedProcess:
-    assert _POOL is not None, "a subprocess test must use the _pool fixture (mark it with @cli)"
+    """``bandsmith ARGS…`` through the entry point, once per run (several tests read one call)."""
     key = tuple(args)
-    if key not in _FUTURES:
-        _FUTURES[key] = _POOL.submit(_start, list(args))
-    return _FUTURES[key].result()
+    if key not in _RESULTS:
+        _RESULTS[key] = run_command(list(args))
+    return _RESULTS[key]
 
 
 def _in_process(args, capsys):
@@ -149,8 +112,7 @@ def ok_json(name):
     return json.loads(r.stdout)  # exactly one JSON object on stdout (json.loads refuses trailing text)
 
 
-# ------------------------------------------------------------------ in-process (fast; run first while
-# the subprocesses start in the background)
+# ------------------------------------------------------------------ through bandsmith.app.cli.main
 
 
 def _check_bad(code, stdout, stderr, field):
@@ -205,17 +167,13 @@ def test_sweep_with_finite_opamp_is_continuous(capsys):
 # ------------------------------------------------------------------ bad input
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
-@pytest.mark.parametrize("case", BAD_IN_SUBPROCESS)
+@pytest.mark.parametrize("case", BAD_THROUGH_ENTRY)
 def test_bad_input_exits_2_with_one_line_naming_the_field(case):
     args, field = BAD[case]
     r = run(args)
     _check_bad(r.returncode, r.stdout, r.stderr, field)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_bad_value_message_suggests_the_notation():
     # The README's example message ("Command line"): R1: "4x7" is not a value; try 4k7, 4700 or 4.7e3
     line = run(BAD["bad-value"][0]).stderr.strip()
@@ -225,8 +183,6 @@ def test_bad_value_message_suggests_the_notation():
 # ------------------------------------------------------------------ topologies
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_topologies_json():
     # README ("The circuits", `bandsmith topologies`): ids rlc-tank, mfb, sallen-key; components with ref, kind, role, required
     data = ok_json("topologies-json")
@@ -247,8 +203,6 @@ def test_topologies_json():
     assert topos["rlc-tank"]["inverting"] and topos["mfb"]["inverting"] and not topos["sallen-key"]["inverting"]
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_every_topology_example_analyses():
     # README (`bandsmith topologies`): every example is a working design — fed back to `analyze`, it analyses (exit 0)
     data = ok_json("topologies-json")
@@ -264,8 +218,6 @@ def test_every_topology_example_analyses():
         assert (out["ideal"]["gain_center"] < 0) == t["inverting"]
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_help_lists_every_command():
     r = run(GOOD["help"])
     assert r.returncode == 0, r.stderr
@@ -299,8 +251,6 @@ def _check_netlist(nl, refs):
     assert any(e["kind"] == "opamp" for e in nl["elements"])
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 @pytest.mark.parametrize("name", ["rlc-tank", "mfb"])
 def test_analyze_json_ideal_keys(name):
     # the examples' analyses (`analyze ID REF=VALUE … --json`, no --gbw)
@@ -323,8 +273,6 @@ def test_analyze_json_ideal_keys(name):
     assert_allclose(out["ideal"]["gain_center_db"], 20 * math.log10(-out["ideal"]["gain_center"]), rtol=1e-12)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_analyze_tank_json_values():
     # parallel resonance (circuit theory): f0 = 1/(2π√(LC)), Q = R2·√(C/L), gain −R2/R1
     out = ok_json("rlc-tank")
@@ -340,8 +288,6 @@ def test_analyze_tank_json_values():
     assert_allclose(out["requirements"]["slew_sine_v_per_us"], 2 * math.pi * f0 * gain * 1e-6, rtol=1e-9)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_analyze_json_with_gbw_and_every_option():
     out = ok_json("analyze-tank-gbw-json")
     assert set(out) >= TOP
@@ -357,8 +303,6 @@ def test_analyze_json_with_gbw_and_every_option():
     assert_allclose(out["actual"]["f0_hz"], out["ideal"]["f0_hz"], rtol=0.01)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_analyze_sallen_key_json():
     # README ("The circuits"): every resistor that sets a gain (the Sallen–Key amplifier's too) is in the netlist
     out = ok_json("analyze-sk-json")
@@ -370,8 +314,6 @@ def test_analyze_sallen_key_json():
     assert set(out["actual"]) >= FIGURES
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 @pytest.mark.parametrize("name", ["analyze-mfb-gbw-table"])
 def test_analyze_readable_table(name):
     r = run(GOOD[name])
@@ -397,8 +339,6 @@ def _csv(name):
     return np.array(rows[1:], dtype=float)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_sweep_default_range_and_points():
     # README (`bandsmith sweep`): log-spaced, default 10 Hz to 10 MHz, 1000 points
     a = _csv("sweep-default-csv")
@@ -409,8 +349,6 @@ def test_sweep_default_range_and_points():
     assert_allclose(np.diff(np.log(f)), np.log(1e6) / 999, rtol=1e-6)  # log-spaced
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_sweep_csv_matches_scipy_freqs():
     # scipy.signal.freqs on the tank's closed-form biquad −(s/(R1·C))/(s² + s/(R2·C) + 1/(LC))
     # (derived by nodal analysis; checked with sympy in test_circuits_sympy.py) against the command's CSV (printed to 10 significant digits)
@@ -430,11 +368,31 @@ def test_sweep_csv_matches_scipy_freqs():
     assert np.all(gd > 0)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_sweep_table_output():
     r = run(GOOD["sweep-table"])
     assert r.returncode == 0 and r.stderr == ""
     lines = r.stdout.splitlines()
     assert "frequency_hz" in lines[0] and "group_delay_s" in lines[0]
     assert len([ln for ln in lines if ln.strip() and ln.strip()[0].isdigit()]) == 5
+
+
+# ------------------------------------------------------------------ the installed program (smoke tests)
+
+
+@cli
+def test_installed_program_prints_what_the_entry_point_prints():
+    # One JSON command, one CSV command and one bad input through the real program: the same
+    # stdout, stderr and exit status as the in-process call the other tests read.
+    for args in (GOOD["analyze-tank-gbw-json"], GOOD["sweep-tank-csv"], BAD["bad-value"][0]):
+        real, here = run_installed(args), run(args)
+        assert (real.returncode, real.stdout, real.stderr) == (here.returncode, here.stdout, here.stderr), args
+
+
+@cli
+def test_installed_program_help_lists_every_command():
+    r = run_installed(["--help"])
+    assert r.returncode == 0 and r.stderr == "", r.stderr
+    from bandsmith.app.cli import commands
+
+    for cmd in commands():
+        assert cmd.name in r.stdout
