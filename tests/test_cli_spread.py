@@ -1,16 +1,14 @@
-"""``bandsmith tolerance`` and ``bandsmith noise`` run as commands (README, `bandsmith tolerance` and `bandsmith noise`)."""
+"""``bandsmith tolerance`` and ``bandsmith noise`` run as commands, in-process through the entry point (tests/cli_helpers.py) (README, `bandsmith tolerance` and `bandsmith noise`)."""
 
 import json
 import math
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 import scipy.constants
 from numpy.testing import assert_allclose
 
-pytestmark = pytest.mark.cli
+from cli_helpers import run_command
 
 ROOT = Path(__file__).resolve().parents[1]
 MFB = ["mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n"]
@@ -20,7 +18,7 @@ FIGURES = {"f0_hz", "q", "bw_hz", "f_low_hz", "f_high_hz", "gain_center", "gain_
 
 
 def bandsmith(*args):
-    return subprocess.run([sys.executable, "-m", "bandsmith.app", *args], capture_output=True, text=True, cwd=ROOT, timeout=120)
+    return run_command(args, cwd=ROOT)
 
 
 def ok_json(*args):
