@@ -72,8 +72,18 @@ def drawn_fraction(image, rect: QtCore.QRect | None = None) -> float:
 
 
 def region_of(child, parent) -> QtCore.QRect:
-    """The rectangle ``child`` covers in a grab of ``parent`` (widget coordinates)."""
-    return QtCore.QRect(child.mapTo(parent, QtCore.QPoint(0, 0)), child.size())
+    """The part of ``child`` that shows in a grab of ``parent``, in ``parent``'s coordinates: its
+    rectangle clipped by every widget between them (a scroll area's viewport, say); empty when it
+    is hidden or scrolled away."""
+    if child is not parent and not child.isVisibleTo(parent):
+        return QtCore.QRect()
+    rect, w = child.rect(), child
+    while w is not parent:
+        rect = rect.translated(w.pos())
+        w = w.parentWidget()
+        assert w is not None, f"{child!r} is not inside {parent!r}"
+        rect = rect.intersected(w.rect())
+    return rect
 
 
 def assert_text_shown(label) -> None:
@@ -101,8 +111,9 @@ def screenshot(widget, path, *, regions=(), labels=(), at_least: float = 0.005):
     assert image.save(str(path)), path
     assert drawn_fraction(image) >= at_least, f"{path}: the picture is blank"
     for child in regions:
-        assert child.isVisible(), f"{child!r} is not on screen in {path}"
-        share = drawn_fraction(image, region_of(child, widget) if child is not widget else None)
+        box = region_of(child, widget)
+        assert box.width() > 8 and box.height() > 8, f"{child!r} is not on screen in {path} ({box})"
+        share = drawn_fraction(image, box)
         assert share >= at_least, f"{child!r} is blank in {path} ({share:.4f} of its pixels drawn)"
     for label in labels:
         assert_text_shown(label)
