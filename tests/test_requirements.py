@@ -152,11 +152,10 @@ def test_no_gbw_when_a0_is_too_small(v):
 #   h → 0 as t → ∞, so max |h| = |h(0+)|. A step of height vin then needs 2π·BW·|G|·vin.
 
 
-@pytest.mark.parametrize("case", list(CASES))
+# the lossy tank is left out: its winding resistance adds a zero, so it is not the pure biquad
+@pytest.mark.parametrize("case", [k for k, (_, v) in CASES.items() if not v.get("RL")])
 def test_step_slew_is_2pi_bandwidth_gain_vin(case):
     topology_id, v = CASES[case]
-    if v.get("RL"):
-        pytest.skip("the winding resistance adds a zero: not the pure band-pass biquad")
     nl = get_topology(topology_id).netlist(v)
     vin = 2.5
     res = analyze(nl, vin_v=vin)
