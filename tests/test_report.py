@@ -190,7 +190,7 @@ def test_sections_can_be_added_before_the_cautions(qapp, monkeypatch):
 @pytest.mark.cli
 def test_cli_pdf_report_opens_with_pages_text_and_images(session_file, tmp_path):
     # a smoke test of the installed program itself (fails when it is not installed)
-    pypdf = pytest.importorskip("pypdf")
+    import pypdf  # a test dependency (pyproject.toml, extra "test"): missing, the test fails
     out = tmp_path / "report.pdf"
     r = run_installed(["report", session_file, "-o", out], cwd=ROOT)
     assert r.returncode == 0, r.stderr
@@ -330,7 +330,7 @@ def test_rendered_plots_are_png_with_every_candidate(qapp):
 
 
 def test_empty_session_and_ideal_opamp(qapp, tmp_path):
-    pypdf = pytest.importorskip("pypdf")
+    import pypdf  # a test dependency (pyproject.toml, extra "test"): missing, the test fails
     from bandsmith.app.report.builder import build_report_html, write_report
 
     empty = Session(Target(1000.0, 2.0, 1.0), ())
