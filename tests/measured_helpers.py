@@ -1,8 +1,8 @@
 """Synthetic bench measurements for the measurement, diagnosis and ``fit`` tests.
 
 The "board" is a known design with one or two parts moved by a known amount. Its response is
-computed outside the project: the textbook biquad of each circuit (REFERENCES.md, derived and
-checked by nodal analysis there) evaluated by ``scipy.signal.freqs``. It is sampled at 201
+computed outside the project: the textbook biquad of each circuit (derived by nodal analysis;
+checked with sympy in test_circuits_sympy.py) evaluated by ``scipy.signal.freqs``. It is sampled at 201
 log-spaced points from f0/3 to 3·f0, as a network analyser's sweep would be, with seeded
 Gaussian scatter of 0.05 dB and 0.5° (a bench instrument's trace noise; common practice, no
 source), and written in the layouts the tests read.
@@ -26,7 +26,7 @@ MFB = {"R1": 10e3, "R2": 866.0, "R3": 82e3, "C1": 10e-9, "C2": 10e-9}
 
 
 def biquad(topology: str, v: dict) -> tuple[np.ndarray, np.ndarray]:
-    """``(b, a)`` in s of the ideal-op-amp band-pass (REFERENCES.md, derived)."""
+    """``(b, a)`` in s of the ideal-op-amp band-pass (derived by nodal analysis)."""
     if topology == "rlc-tank":
         # H(s) = -(s/(R1·C)) / (s² + s/(R2·C) + 1/(L·C))
         return np.array([-1.0 / (v["R1"] * v["C"]), 0.0]), np.array([1.0, 1.0 / (v["R2"] * v["C"]), 1.0 / (v["L"] * v["C"])])

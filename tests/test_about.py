@@ -11,7 +11,7 @@ def _plain(html: str) -> str:
     return re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", html))
 
 
-# The three cautions of BRIEF.md ("Cautions the program shows"); each must be said somewhere in
+# The three cautions the README states ("Cautions", near its top); each must be said somewhere in
 # the text, in our words. These fragments are the facts each caution carries.
 CAUTION_FACTS = (
     ("prototype", "measure", "production"),

@@ -32,7 +32,7 @@ def reference_db(response, n, band, gain, f_hz, ripple_db=None):
 @pytest.mark.parametrize(
     "response,n,q_bp,ripple,want",
     [
-        # REFERENCES.md check values [derived]: Butterworth N = 2, Qbp = 5.
+        # Derived check values (scipy.signal.lp2bp_zpk on buttap/cheb1ap): Butterworth N = 2, Qbp = 5.
         ("butterworth", 2, 5.0, None, [("0.931622", "7.08881"), ("1.073397", "7.08881")]),
         # Butterworth N = 3, Qbp = 10: the real pole's section at f0, Q = 10 (exact by the formula
         # Q = Qbp/α0, α0 = 1), and a pair.
@@ -42,8 +42,8 @@ def reference_db(response, n, band, gain, f_hz, ripple_db=None):
     ],
 )
 def test_reference_check_values(response, n, q_bp, ripple, want):
-    # Source: REFERENCES.md "Low-pass prototypes and the band-pass transformation", check values
-    # [derived]; each compared to within one unit of its last printed digit.
+    # Source: derived with scipy.signal.lp2bp_zpk on buttap/cheb1ap (the same numbers as Geffe's
+    # algorithm, Williams & Taylor, Electronic Filter Design Handbook, band-pass chapter; from memory); each compared to within one unit of its last printed digit.
     f0 = 1000.0
     plan = plan_cascade(prototype(response, n, ripple_db=ripple), band_from(f0_hz=f0, bw_hz=f0 / q_bp), 1.0)
     assert len(plan.sections) == len(want)

@@ -75,7 +75,7 @@ def test_exact_parts_match_reference(response, n):
 @pytest.mark.parametrize(
     "response,n,q_bp,ripple,want",
     [
-        # REFERENCES.md check values [derived]: Butterworth N = 2, Qbp = 5.
+        # Derived check values (scipy.signal.lp2bp_zpk on buttap/cheb1ap): Butterworth N = 2, Qbp = 5.
         ("butterworth", 2, 5.0, None, [("0.931622", "7.08881"), ("1.073397", "7.08881")]),
         # Butterworth N = 3, Qbp = 10: the real pole's section at f0 with Q = Qbp/α0 = 10, and a pair.
         ("butterworth", 3, 10.0, None, [("1.000000", "10.00000"), ("0.95762", "20.0188"), ("1.04425", "20.0188")]),
@@ -84,8 +84,8 @@ def test_exact_parts_match_reference(response, n):
     ],
 )
 def test_built_sections_hit_reference_check_values(response, n, q_bp, ripple, want):
-    # Source: REFERENCES.md "Low-pass prototypes and the band-pass transformation", check values
-    # [derived], compared to within one unit of the last printed digit; measured on the built
+    # Source: derived with scipy.signal.lp2bp_zpk on buttap/cheb1ap (the same numbers as Geffe's
+    # algorithm, Williams & Taylor, Electronic Filter Design Handbook, band-pass chapter; from memory), compared to within one unit of the last printed digit; measured on the built
     # stages (exact parts, ideal op-amp).
     f0 = 20e3
     s = ChainSettings.from_request(response, n, f0_hz=f0, bw_hz=f0 / q_bp, ripple_db=ripple, gain=2.0, series="exact")
@@ -234,7 +234,7 @@ def test_standard_parts_too_coarse_for_sharp_stages():
 
 def test_named_circuit_that_cannot_build_a_stage():
     # The multiple-feedback band-pass with equal capacitors reaches a centre gain below 2·Q² only
-    # (REFERENCES.md, Franco 3rd ed. ch. 3): stage 1 (Q 7.09) cannot take a gain of 1000.
+    # (Franco, Design with Operational Amplifiers, 3rd ed., ch. 3): stage 1 (Q 7.09) cannot take a gain of 1000.
     s = ChainSettings.from_request("butterworth", 2, f0_hz=10e3, bw_hz=2e3, gain=1000.0, circuit="mfb")
     r = design_cascade(s)
     assert not r.feasible

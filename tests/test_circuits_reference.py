@@ -6,7 +6,8 @@ Sources, named beside each check:
   Circuits*, 3rd ed., McGraw-Hill, ch. 3 (multiple-feedback and Sallen–Key band-pass, Examples
   3.13(a) and 3.15), and the parallel-resonance relations of circuit theory for the tank;
 - facts of the trade (marked "common practice, no source");
-- values derived by algebra in REFERENCES.md (marked "derived", with the derivation).
+- values derived by algebra here or with sympy (test_circuits_sympy.py) (marked "derived", with
+  the derivation).
 """
 
 from __future__ import annotations
@@ -26,23 +27,24 @@ from bandsmith.solver.mna import OpAmpModel
 TWO_PI = 2.0 * math.pi
 
 
-# ------------------------------------------------------------------ closed-form biquads (REFERENCES.md)
+# ------------------------------------------------------------------ closed-form biquads (derived by nodal
+# analysis; the sympy solution in test_circuits_sympy.py reduces to each of them)
 
 
 def tank_biquad(v):
-    """H = −(s/(R1·C)) / (s² + s/(R2·C) + 1/(L·C)) (REFERENCES.md, parallel-tank band-pass; RL = 0)."""
+    """H = −(s/(R1·C)) / (s² + s/(R2·C) + 1/(L·C)) (parallel-tank band-pass, derived; RL = 0)."""
     return [-1.0 / (v["R1"] * v["C"]), 0.0], [1.0, 1.0 / (v["R2"] * v["C"]), 1.0 / (v["L"] * v["C"])]
 
 
 def mfb_biquad(v):
-    """H = −(s/(R1·C2)) / (s² + s·(C1+C2)/(R3·C1·C2) + (1/R1 + 1/R2)/(R3·C1·C2)) (REFERENCES.md)."""
+    """H = −(s/(R1·C2)) / (s² + s·(C1+C2)/(R3·C1·C2) + (1/R1 + 1/R2)/(R3·C1·C2)) (derived; Franco 3rd ed. ch. 3)."""
     r1, r2, r3, c1, c2 = (v[k] for k in ("R1", "R2", "R3", "C1", "C2"))
     return [-1.0 / (r1 * c2), 0.0], [1.0, (c1 + c2) / (r3 * c1 * c2), (1 / r1 + 1 / r2) / (r3 * c1 * c2)]
 
 
 def sallen_key_biquad(v):
     """Variant A: H = (K·s/(R1·Ca)) / (s² + s·[1/(R1·Ca) + (1−K)/(R2·Ca) + 1/(R3·Ca) + 1/(R3·Cb)]
-    + (R1+R2)/(R1·R2·R3·Ca·Cb)), K = 1 + RB/RA (REFERENCES.md); our C1 is Ca, C2 is Cb."""
+    + (R1+R2)/(R1·R2·R3·Ca·Cb)), K = 1 + RB/RA (derived by nodal analysis); our C1 is Ca, C2 is Cb."""
     r1, r2, r3, ca, cb = (v[k] for k in ("R1", "R2", "R3", "C1", "C2"))
     k = 1.0 + v["RB"] / v["RA"]
     a1 = 1 / (r1 * ca) + (1 - k) / (r2 * ca) + 1 / (r3 * ca) + 1 / (r3 * cb)
@@ -80,7 +82,7 @@ def biquad_figures(b, a):
 
 @pytest.mark.parametrize(("topology_id", "k"), CASES)
 def test_sweep_matches_scipy_freqs_on_the_closed_form_biquad(topology_id, k):
-    # scipy.signal.freqs on REFERENCES.md's closed-form biquad vs the core's sweep, 4 decades
+    # scipy.signal.freqs on the closed-form biquad above vs the core's sweep, 4 decades
     v = DESIGNS[topology_id][k]
     b, a = BIQUADS[topology_id](v)
     f0 = biquad_figures(b, a)[0]
@@ -89,7 +91,7 @@ def test_sweep_matches_scipy_freqs_on_the_closed_form_biquad(topology_id, k):
     r = sweep(transfer_function(get_topology(topology_id).netlist(v)), f)
     assert_allclose(r.h, want, rtol=1e-9)
     assert_allclose(r.magnitude_db, 20 * np.log10(np.abs(want)), atol=1e-8)
-    # phase unwrapped (CONTRACT.md: continuous over the sweep): equal to numpy.unwrap of scipy's
+    # phase unwrapped (README, `bandsmith sweep`: continuous over the sweep): equal to numpy.unwrap of scipy's
     # angle up to one constant multiple of 360°, and a band-pass turns by less than 180° in all
     # (derived: from +90° (the s of the numerator) far below f0 to −90° (1/s) far above).
     ref = np.degrees(np.unwrap(np.angle(want)))
@@ -141,8 +143,8 @@ def test_rational_coefficients_are_the_biquad(topology_id):
 def test_textbook_formulas_match_measured_figures(topology_id, k):
     # Tank: parallel resonance, ω0 = 1/√(LC), Q = R2·√(C/L), H(jω0) = −R2/R1 (circuit theory).
     # MFB: Franco 3rd ed. ch. 3, ω0 = √((1/R1 + 1/R2)/(R3·C1·C2)), Q = ω0·R3·C1C2/(C1+C2),
-    #      H0 = −R3·C1/(R1·(C1+C2)) (labels mapped as REFERENCES.md says).
-    # Sallen–Key variant A: Franco 3rd ed. ch. 3 via REFERENCES.md's H(s) (derived for unequal parts).
+    #      H0 = −R3·C1/(R1·(C1+C2)) (Franco's labels mapped to ours: R1 input, R2 shunt, R3 feedback).
+    # Sallen–Key variant A: Franco 3rd ed. ch. 3; H(s) above (derived for unequal parts).
     # Written out here independently of the circuit modules' own `formulas`.
     v = DESIGNS[topology_id][k]
     if topology_id == "rlc-tank":
@@ -173,7 +175,7 @@ def test_mfb_equal_capacitor_relations():
 
 
 def test_tank_trade_facts_10mH_10nF():
-    # Common practice, no source (REFERENCES.md restates it): a tank's natural time constant is
+    # Common practice, no source: a tank's natural time constant is
     # √(LC) and its characteristic resistance √(L/C). 10 mH with 10 nF: √(LC) = √(1e-10) = 10 µs,
     # √(L/C) = √(1e6) = 1 kΩ; so 4.7 kΩ across the tank gives Q = 4.7 kΩ/1 kΩ = 4.7 and
     # f0 = 1/(2π·10 µs) ≈ 15.92 kHz.
@@ -192,7 +194,7 @@ def test_tank_trade_facts_10mH_10nF():
 @pytest.mark.parametrize(("topology_id", "k"), CASES)
 def test_inverting_band_pass_has_180_degrees_at_centre(topology_id, k):
     # Common practice, no source: an inverting band-pass has a phase of 180° at its centre
-    # frequency (the non-inverting Sallen–Key has 0°); CONTRACT.md: phase in (−180, 180].
+    # frequency (the non-inverting Sallen–Key has 0°); README "Definitions": phase in (−180, 180].
     fig = ideal_figures(get_topology(topology_id).netlist(DESIGNS[topology_id][k])).item()
     inverting = get_topology(topology_id).inverting
     assert_allclose(fig.phase_center_deg, 180.0 if inverting else 0.0, atol=1e-6)
@@ -224,7 +226,7 @@ def test_franco_example_3_15_mfb():
     assert_allclose(fig.gain_center_db, 20.0, atol=1e-8)
 
 
-# REFERENCES.md "Finite op-amp GBW" [derived]: on Example 3.15's circuit, GBW 1 MHz → f0 = 990.147 Hz,
+# Derived (exact single-pole analysis, no published figure): on Franco 3rd ed. Example 3.15's circuit, GBW 1 MHz → f0 = 990.147 Hz,
 # Q = 10.0975; 10 MHz → 999.001 Hz, 10.0100. What we found: these are the values of the
 # integrator op-amp A(s) = ωt/s, i.e. the single-pole model with A0 → ∞ (A0 = 1e12 here, any
 # A0 ≥ 1e9 gives the same 5–6 digits). With A0 = 1e5 f0 still agrees (990.147 Hz to 6 digits, the
@@ -260,7 +262,7 @@ def test_franco_example_3_13a_sallen_key():
 
 @pytest.mark.parametrize("gbw", [1e8, 1e9])
 def test_first_order_gbw_shift(gbw):
-    # REFERENCES.md [derived, first order in f0/GBW with A = ωt/s]: MFB equal C,
+    # Derived (first order in f0/GBW with A = ωt/s; no published closed form found): MFB equal C,
     # Δf0/f0 ≈ −Q·f0/GBW and ΔQ/Q ≈ +Q·f0/GBW; Sallen–Key variant A equal parts,
     # Δf0/f0 ≈ −K²·f0/(2√2·GBW), ΔQ/Q ≈ +K²·f0/(2√2·GBW). The ratio to the exact shift tends to 1
     # (the second-order remainder is of relative size f0·Q/GBW, hence the 1e-2·… tolerance).
@@ -276,13 +278,13 @@ def test_first_order_gbw_shift(gbw):
     assert_allclose([(fig.f0_hz / 1e3 - 1) / -y, (fig.q / 10 - 1) / y], [1.0, 1.0], rtol=30 * y * 10)
 
 
-# ------------------------------------------------------------------ sensitivities (REFERENCES.md, derived)
+# ------------------------------------------------------------------ sensitivities (derived by hand)
 
 SENS_ATOL = 1e-6  # central differences with step 1e-4 in ln x: error of order 1e-8
 
 
 def test_tank_sensitivities():
-    # derived (REFERENCES.md): ω0 = 1/√(LC) → S(ω0;L) = S(ω0;C) = −½, S(ω0;R1) = S(ω0;R2) = 0;
+    # derived (differentiating the parallel-resonance relations): ω0 = 1/√(LC) → S(ω0;L) = S(ω0;C) = −½, S(ω0;R1) = S(ω0;R2) = 0;
     # Q = R2·√(C/L) → S(Q;R2) = 1, S(Q;C) = ½, S(Q;L) = −½, S(Q;R1) = 0;
     # H0 = −R2/R1 → S(gain;R1) = −1, S(gain;R2) = 1, S(gain;L) = S(gain;C) = 0.
     v = {"R1": 3300.0, "R2": 6800.0, "L": 0.01, "C": 22e-9, "RL": 0.0}
@@ -313,7 +315,7 @@ def test_tank_winding_resistance_sensitivity_sign():
 
 
 def test_mfb_equal_c_sensitivities():
-    # derived (REFERENCES.md), equal C: ω0² = (1/R1 + 1/R2)/(R3·C1·C2) →
+    # derived (from the MFB biquad above), equal C: ω0² = (1/R1 + 1/R2)/(R3·C1·C2) →
     #   S(ω0;R3) = S(ω0;C1) = S(ω0;C2) = −½, S(ω0;R1) = −R2/(2(R1+R2)), S(ω0;R2) = −R1/(2(R1+R2));
     # Q = ω0·R3·C1·C2/(C1+C2) → S(Q;R3) = −½ + 1 = ½, S(Q;C1) = −½ + 1 − C1/(C1+C2) = 0 (and C2),
     #   S(Q;R1) = S(ω0;R1), S(Q;R2) = S(ω0;R2);
@@ -333,7 +335,7 @@ def test_mfb_equal_c_sensitivities():
 
 
 def test_sallen_key_equal_parts_sensitivities():
-    # derived (REFERENCES.md), variant A, all R and all C equal: Q = √2/(4 − K) →
+    # derived (from the Sallen–Key biquad above), variant A, all R and all C equal: Q = √2/(4 − K) →
     #   S(Q;K) = K/(4 − K) = 2√2·Q − 1; K = 1 + RB/RA → S(K;RB) = −S(K;RA) = (K−1)/K, so
     #   S(Q;RB) = −S(Q;RA) = (K−1)/K·S(Q;K); RA and RB do not move ω0: S(ω0;RA) = S(ω0;RB) = 0;
     # ω0² = (R1+R2)/(R1·R2·R3·C1·C2) → S(ω0;R1) = S(ω0;R2) = −¼ (equal R), S(ω0;R3) = S(ω0;C) = −½.

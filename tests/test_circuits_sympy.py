@@ -1,7 +1,7 @@
 """The core's transfer functions against nodal equations written and solved here with sympy.
 
 Source: sympy (a general-purpose computer-algebra library). Each circuit's node equations are
-written below by hand from the circuit description (CONTRACT.md / the circuit modules'
+written below by hand from the circuit description (the README's "The circuits" table / the circuit modules'
 docstrings), independently of ``bandsmith.solver.mna`` and the circuit netlists, solved symbolically for
 Vout/Vin, turned into numpy functions with ``lambdify`` and compared with the core's response at
 seeded random part values and frequencies, to 1e-9 relative.
@@ -216,7 +216,7 @@ def test_batched_overrides_match_sympy(topology_id):
 
 def test_symbolic_tank_is_the_parallel_resonance_biquad():
     # derived: with RL = 0 the sympy solution reduces to H = −(s/(R1·C))/(s² + s/(R2·C) + 1/(LC))
-    # (REFERENCES.md, parallel-tank inverting band-pass) — checks the hand-written equations too.
+    # (the parallel-resonance biquad of any circuit-theory text) — checks the hand-written equations too.
     _, h, _ = symbolic_transfer("rlc-tank", True)
     R1, R2, L, C, RL = sp.symbols("R1 R2 L C RL", positive=True)
     biquad = -(s / (R1 * C)) / (s**2 + s / (R2 * C) + 1 / (L * C))
@@ -224,7 +224,8 @@ def test_symbolic_tank_is_the_parallel_resonance_biquad():
 
 
 def test_symbolic_mfb_and_sallen_key_are_the_reference_biquads():
-    # derived: REFERENCES.md's closed forms follow from the hand-written nodal equations.
+    # derived: the closed forms of test_circuits_reference.py (MFB: Franco, Design with Operational
+    # Amplifiers, 3rd ed., ch. 3; Sallen–Key variant A) follow from the hand-written nodal equations.
     _, h, _ = symbolic_transfer("mfb", True)
     R1, R2, R3, C1, C2 = sp.symbols("R1 R2 R3 C1 C2", positive=True)
     mfb = -(s / (R1 * C2)) / (s**2 + s * (C1 + C2) / (R3 * C1 * C2) + (1 / R1 + 1 / R2) / (R3 * C1 * C2))

@@ -1,10 +1,9 @@
-"""The ``bandsmith`` command (CONTRACT.md is the reference).
+"""The ``bandsmith`` command, against the interface the README documents ("Command line").
 
-The installed command runs in subprocesses (marked ``cli``): every call is started up front, two at
-a time, so that the interpreter start-ups (about a second each, mostly importing scipy) overlap;
-each test then reads the result of its own call. The full list of bad inputs also runs in-process
-through ``bandsmith.app.cli.main`` (the same code the entry point calls), a representative set of them in
-subprocesses.
+The commands run in-process through ``bandsmith.app.entry.main`` (what the installed entry point
+calls; tests/cli_helpers.py captures stdout, stderr and the exit status), each call once per run.
+A few smoke tests (marked ``cli``) run the installed program itself and check that it prints
+exactly what the in-process call prints; they fail when the program is not installed.
 """
 
 from __future__ import annotations
@@ -13,12 +12,7 @@ import csv
 import io
 import json
 import math
-import os
-import shutil
 import subprocess
-import sys
-from concurrent.futures import ThreadPoolExecutor
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -26,24 +20,16 @@ import scipy.signal
 from numpy.testing import assert_allclose
 
 from bandsmith.app.cli import main as cli_main
+from cli_helpers import run_command, run_installed
 
 cli = pytest.mark.cli
-
-
-def _bandsmith() -> str:
-    """The installed entry point (next to this interpreter if there, else on PATH)."""
-    here = Path(sys.executable).with_name("bandsmith")
-    found = str(here) if here.exists() else shutil.which("bandsmith")
-    if not found:
-        pytest.skip("the bandsmith command is not installed (pip install -e .)")
-    return found
 
 
 TANK = ["rlc-tank", "R1=3k3", "R2=6k8", "L=10m", "C=22n"]
 MFB = ["mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n"]
 SK = ["sallen-key", "R1=4k53", "R2=4k53", "R3=4k53", "C1=100n", "C2=100n", "RA=10k", "RB=22k1"]
 
-# Bad input (CONTRACT.md): exit 2, one stderr line naming the field, nothing on stdout.
+# Bad input (README, "Command line", exit status): exit 2, one stderr line naming the field, nothing on stdout.
 BAD = {
     "bad-value": (["analyze", "rlc-tank", "R1=4x7", "R2=6k8", "L=10m", "C=22n"], "R1"),
     "unknown-part": (["analyze", *TANK, "R9=1k"], "R9"),
@@ -72,8 +58,8 @@ BAD = {
     "unmeasurable": (["analyze", "rlc-tank", "R1=1", "R2=1e300", "L=1e-300", "C=1e300"], "parts"),
 }
 
-# the bad inputs also run through the installed command (one of each kind)
-BAD_IN_SUBPROCESS = ["bad-value", "missing-part", "nan-value", "negative-gbw", "bad-points-fraction",
+# the bad inputs also run through the entry point (one of each kind)
+BAD_THROUGH_ENTRY = ["bad-value", "missing-part", "nan-value", "negative-gbw", "bad-points-fraction",
                      "unknown-topology", "unmeasurable"]
 
 GOOD = {
@@ -98,38 +84,15 @@ def _example_calls() -> dict[str, list[str]]:
     }
 
 
-_POOL: ThreadPoolExecutor | None = None
-_FUTURES: dict[tuple, object] = {}
-
-
-def _start(args):
-    exe = _bandsmith()
-    env = dict(os.environ, PYTHONIOENCODING="utf-8")
-    return subprocess.run([exe, *args], capture_output=True, text=True, encoding="utf-8", env=env, timeout=120)
-
-
-@pytest.fixture(scope="module", autouse=True)
-def _pool(request):
-    """Start every subprocess call at once (two at a time) if this run has any ``cli`` test here."""
-    global _POOL
-    mine = [i for i in request.session.items if i.module is request.module]
-    if not any(i.get_closest_marker("cli") for i in mine):
-        yield
-        return
-    _bandsmith()
-    _POOL = ThreadPoolExecutor(max_workers=2)
-    for args in list(GOOD.values()) + list(_example_calls().values()) + [BAD[k][0] for k in BAD_IN_SUBPROCESS]:
-        _FUTURES[tuple(args)] = _POOL.submit(_start, list(args))
-    yield
-    _POOL.shutdown(wait=True)
+_RESULTS: dict[tuple, subprocess.CompletedProcess] = {}
 
 
 def run(args) -> subprocess.CompletedProcess:
-    assert _POOL is not None, "a subprocess test must use the _pool fixture (mark it with @cli)"
+    """``bandsmith ARGS…`` through the entry point, once per run (several tests read one call)."""
     key = tuple(args)
-    if key not in _FUTURES:
-        _FUTURES[key] = _POOL.submit(_start, list(args))
-    return _FUTURES[key].result()
+    if key not in _RESULTS:
+        _RESULTS[key] = run_command(list(args))
+    return _RESULTS[key]
 
 
 def _in_process(args, capsys):
@@ -149,8 +112,7 @@ def ok_json(name):
     return json.loads(r.stdout)  # exactly one JSON object on stdout (json.loads refuses trailing text)
 
 
-# ------------------------------------------------------------------ in-process (fast; run first while
-# the subprocesses start in the background)
+# ------------------------------------------------------------------ through bandsmith.app.cli.main
 
 
 def _check_bad(code, stdout, stderr, field):
@@ -205,19 +167,15 @@ def test_sweep_with_finite_opamp_is_continuous(capsys):
 # ------------------------------------------------------------------ bad input
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
-@pytest.mark.parametrize("case", BAD_IN_SUBPROCESS)
+@pytest.mark.parametrize("case", BAD_THROUGH_ENTRY)
 def test_bad_input_exits_2_with_one_line_naming_the_field(case):
     args, field = BAD[case]
     r = run(args)
     _check_bad(r.returncode, r.stdout, r.stderr, field)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_bad_value_message_suggests_the_notation():
-    # CONTRACT.md's example message: R1: "4x7" is not a value; try 4k7, 4700 or 4.7e3
+    # The README's example message ("Command line"): R1: "4x7" is not a value; try 4k7, 4700 or 4.7e3
     line = run(BAD["bad-value"][0]).stderr.strip()
     assert line.startswith("R1:") and '"4x7"' in line
 
@@ -225,10 +183,8 @@ def test_bad_value_message_suggests_the_notation():
 # ------------------------------------------------------------------ topologies
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_topologies_json():
-    # CONTRACT.md: ids rlc-tank, mfb, sallen-key; components with ref, kind, role, required
+    # README ("The circuits", `bandsmith topologies`): ids rlc-tank, mfb, sallen-key; components with ref, kind, role, required
     data = ok_json("topologies-json")
     topos = {t["id"]: t for t in data["topologies"]}
     assert set(topos) == {"rlc-tank", "mfb", "sallen-key"}
@@ -247,10 +203,8 @@ def test_topologies_json():
     assert topos["rlc-tank"]["inverting"] and topos["mfb"]["inverting"] and not topos["sallen-key"]["inverting"]
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_every_topology_example_analyses():
-    # CONTRACT.md: every example is a working design — fed back to `analyze`, it analyses (exit 0)
+    # README (`bandsmith topologies`): every example is a working design — fed back to `analyze`, it analyses (exit 0)
     data = ok_json("topologies-json")
     calls = _example_calls()
     for t in data["topologies"]:
@@ -264,8 +218,6 @@ def test_every_topology_example_analyses():
         assert (out["ideal"]["gain_center"] < 0) == t["inverting"]
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_help_lists_every_command():
     r = run(GOOD["help"])
     assert r.returncode == 0, r.stderr
@@ -282,7 +234,7 @@ TOP = {"topology", "components", "netlist", "ideal", "actual", "opamp", "require
 
 
 def _check_netlist(nl, refs):
-    # CONTRACT.md NETLIST: ground/input/output, elements with ref, kind, nodes (value; L: series_resistance)
+    # README (`bandsmith analyze`, NETLIST): ground/input/output, elements with ref, kind, nodes (value; L: series_resistance)
     assert (nl["ground"], nl["input"], nl["output"]) == ("0", "in", "out")
     seen = set()
     for e in nl["elements"]:
@@ -299,22 +251,20 @@ def _check_netlist(nl, refs):
     assert any(e["kind"] == "opamp" for e in nl["elements"])
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 @pytest.mark.parametrize("name", ["rlc-tank", "mfb"])
 def test_analyze_json_ideal_keys(name):
     # the examples' analyses (`analyze ID REF=VALUE … --json`, no --gbw)
     out = ok_json(name)
     assert set(out) >= TOP
     assert set(out["ideal"]) >= FIGURES and set(out["requirements"]) >= REQUIREMENTS
-    assert out["actual"] is None and out["opamp"] is None  # CONTRACT.md: only with --gbw
+    assert out["actual"] is None and out["opamp"] is None  # README (`bandsmith analyze`): only with --gbw
     _check_netlist(out["netlist"], out["components"])
     assert set(out["sensitivity"]) == {"f0", "q", "gain"}
     for by_ref in out["sensitivity"].values():
         assert set(by_ref) == set(out["components"])
         assert all(isinstance(x, float) for x in by_ref.values())
     req = out["requirements"]
-    # CONTRACT.md defaults: tolerances 0.01, 0.05, 0.5 dB; A0 1e5; vin 1 V
+    # README ("Definitions", `bandsmith analyze`) defaults: tolerances 0.01, 0.05, 0.5 dB; A0 1e5; vin 1 V
     assert_allclose([req["tol_f0"], req["tol_q"], req["tol_gain_db"], req["a0"], req["vin_v"]], [0.01, 0.05, 0.5, 1e5, 1.0])
     assert req["gbw_hz"] > 0 and req["gbw_reason"] is None
     # common practice, no source: an inverting band-pass has 180° at its centre
@@ -323,8 +273,6 @@ def test_analyze_json_ideal_keys(name):
     assert_allclose(out["ideal"]["gain_center_db"], 20 * math.log10(-out["ideal"]["gain_center"]), rtol=1e-12)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_analyze_tank_json_values():
     # parallel resonance (circuit theory): f0 = 1/(2π√(LC)), Q = R2·√(C/L), gain −R2/R1
     out = ok_json("rlc-tank")
@@ -340,8 +288,6 @@ def test_analyze_tank_json_values():
     assert_allclose(out["requirements"]["slew_sine_v_per_us"], 2 * math.pi * f0 * gain * 1e-6, rtol=1e-9)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_analyze_json_with_gbw_and_every_option():
     out = ok_json("analyze-tank-gbw-json")
     assert set(out) >= TOP
@@ -357,10 +303,8 @@ def test_analyze_json_with_gbw_and_every_option():
     assert_allclose(out["actual"]["f0_hz"], out["ideal"]["f0_hz"], rtol=0.01)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_analyze_sallen_key_json():
-    # CONTRACT.md: every resistor that sets a gain (the Sallen–Key amplifier's too) is in the netlist
+    # README ("The circuits"): every resistor that sets a gain (the Sallen–Key amplifier's too) is in the netlist
     out = ok_json("analyze-sk-json")
     refs = {e["ref"] for e in out["netlist"]["elements"]}
     assert {"RA", "RB"} <= refs
@@ -370,8 +314,6 @@ def test_analyze_sallen_key_json():
     assert set(out["actual"]) >= FIGURES
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 @pytest.mark.parametrize("name", ["analyze-mfb-gbw-table"])
 def test_analyze_readable_table(name):
     r = run(GOOD[name])
@@ -393,14 +335,12 @@ def _csv(name):
     r = run(GOOD[name])
     assert r.returncode == 0 and r.stderr == ""
     rows = list(csv.reader(io.StringIO(r.stdout)))
-    assert rows[0] == ["frequency_hz", "magnitude_db", "phase_deg", "group_delay_s"]  # CONTRACT.md
+    assert rows[0] == ["frequency_hz", "magnitude_db", "phase_deg", "group_delay_s"]  # README (`bandsmith sweep`)
     return np.array(rows[1:], dtype=float)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_sweep_default_range_and_points():
-    # CONTRACT.md: log-spaced, default 10 Hz to 10 MHz, 1000 points
+    # README (`bandsmith sweep`): log-spaced, default 10 Hz to 10 MHz, 1000 points
     a = _csv("sweep-default-csv")
     assert a.shape == (1000, 4)
     f = a[:, 0]
@@ -409,11 +349,9 @@ def test_sweep_default_range_and_points():
     assert_allclose(np.diff(np.log(f)), np.log(1e6) / 999, rtol=1e-6)  # log-spaced
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_sweep_csv_matches_scipy_freqs():
     # scipy.signal.freqs on the tank's closed-form biquad −(s/(R1·C))/(s² + s/(R2·C) + 1/(LC))
-    # (REFERENCES.md) against the command's CSV (printed to 10 significant digits)
+    # (derived by nodal analysis; checked with sympy in test_circuits_sympy.py) against the command's CSV (printed to 10 significant digits)
     a = _csv("sweep-tank-csv")
     assert a.shape == (401, 4)
     f, mag_db, phase, gd = a.T
@@ -430,11 +368,31 @@ def test_sweep_csv_matches_scipy_freqs():
     assert np.all(gd > 0)
 
 
-@cli
-@pytest.mark.usefixtures("_pool")
 def test_sweep_table_output():
     r = run(GOOD["sweep-table"])
     assert r.returncode == 0 and r.stderr == ""
     lines = r.stdout.splitlines()
     assert "frequency_hz" in lines[0] and "group_delay_s" in lines[0]
     assert len([ln for ln in lines if ln.strip() and ln.strip()[0].isdigit()]) == 5
+
+
+# ------------------------------------------------------------------ the installed program (smoke tests)
+
+
+@cli
+def test_installed_program_prints_what_the_entry_point_prints():
+    # One JSON command and one bad input through the real program: the same stdout, stderr and
+    # exit status as the in-process call the other tests read.
+    for args in (GOOD["analyze-tank-gbw-json"], BAD["bad-value"][0]):
+        real, here = run_installed(args), run(args)
+        assert (real.returncode, real.stdout, real.stderr) == (here.returncode, here.stdout, here.stderr), args
+
+
+@cli
+def test_installed_program_help_lists_every_command():
+    r = run_installed(["--help"])
+    assert r.returncode == 0 and r.stderr == "", r.stderr
+    from bandsmith.app.cli import commands
+
+    for cmd in commands():
+        assert cmd.name in r.stdout

@@ -1,21 +1,20 @@
-"""``bandsmith cascade`` run as a command, and its sections given back to ``bandsmith analyze``."""
+"""``bandsmith cascade`` run as a command (in-process through the entry point, tests/cli_helpers.py),
+and its sections given back to ``bandsmith analyze``."""
 
 import json
 import math
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 from numpy.testing import assert_allclose
 
-pytestmark = pytest.mark.cli
+from cli_helpers import run_command
 
 ROOT = Path(__file__).resolve().parents[1]
 
 
 def bandsmith(*args, cwd=None):
-    return subprocess.run([sys.executable, "-m", "bandsmith.app", *args], capture_output=True, text=True, cwd=cwd or ROOT, timeout=120)
+    return run_command(args, cwd=cwd or ROOT)
 
 
 def cascade_json(*args):

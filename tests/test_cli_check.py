@@ -1,25 +1,21 @@
-"""``bandsmith amps`` and ``bandsmith check`` run as commands, with the shelf file set by the environment."""
+"""``bandsmith amps`` and ``bandsmith check`` run as commands (in-process through the entry point,
+tests/cli_helpers.py), with the shelf file set by the environment."""
 
 import json
-import os
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 from numpy.testing import assert_allclose
 
+from cli_helpers import run_command
 from bandsmith.bench.shelf import ARCHETYPES, OpAmp, save_shelf
-
-pytestmark = pytest.mark.cli
 
 ROOT = Path(__file__).resolve().parents[1]
 SK = ["sallen-key", "R1=4k53", "R2=4k53", "R3=4k53", "C1=100n", "C2=100n", "RA=10k", "RB=22k1"]
 
 
 def bandsmith(*args, shelf):
-    env = dict(os.environ, BANDSMITH_SHELF=str(shelf), QT_QPA_PLATFORM="offscreen")
-    return subprocess.run([sys.executable, "-m", "bandsmith.app", *args], capture_output=True, text=True, cwd=ROOT, env=env, timeout=120)
+    return run_command(args, cwd=ROOT, env={"BANDSMITH_SHELF": str(shelf)})
 
 
 def run_json(*args, shelf):

@@ -1,4 +1,5 @@
-"""``bandsmith fit`` run as the installed command (the issue's FIT object is the reference).
+"""``bandsmith fit`` run in-process through the entry point (tests/cli_helpers.py) (the README's
+``bandsmith fit`` is the reference).
 
 The measured files are made here (tests/measured_helpers.py): the MFB example with C2 6 % high,
 from scipy.signal.freqs on the textbook biquad, with seeded scatter, in several layouts.
@@ -7,27 +8,13 @@ from scipy.signal.freqs on the textbook biquad, with seeded scatter, in several 
 from __future__ import annotations
 
 import json
-import shutil
-import subprocess
-import sys
-from concurrent.futures import ThreadPoolExecutor
-from pathlib import Path
 
 import pytest
 
+from cli_helpers import run_command
 from measured_helpers import MFB, moved, sweep, true_figures, write_layouts
 
-pytestmark = pytest.mark.cli
-
 DESIGN = ["mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n"]
-
-
-def _bandsmith() -> str:
-    here = Path(sys.executable).with_name("bandsmith")
-    found = str(here) if here.exists() else shutil.which("bandsmith")
-    if not found:
-        pytest.skip("the bandsmith command is not installed (pip install -e .)")
-    return found
 
 
 @pytest.fixture(scope="module")
@@ -51,7 +38,6 @@ def files(tmp_path_factory):
 
 @pytest.fixture(scope="module")
 def runs(files):
-    exe = _bandsmith()
     calls = {
         "csv": [*DESIGN, "--measured", str(files["csv_khz"]), "--json"],
         "semicolon": [*DESIGN, "--measured", str(files["semicolon_comma"]), "--json"],
@@ -70,12 +56,7 @@ def runs(files):
         "no-file-option": [*DESIGN, "--json"],
     }
 
-    def run(args):
-        return subprocess.run([exe, "fit", *args], capture_output=True, text=True, timeout=120)
-
-    with ThreadPoolExecutor(max_workers=2) as pool:
-        results = dict(zip(calls, pool.map(run, calls.values())))
-    return results
+    return {name: run_command(["fit", *args]) for name, args in calls.items()}
 
 
 @pytest.mark.parametrize("name", ["csv", "semicolon", "linear", "magnitude", "mapping"])

@@ -1,16 +1,14 @@
-"""``bandsmith tolerance`` and ``bandsmith noise`` run as commands (CONTRACT.md, issue 5)."""
+"""``bandsmith tolerance`` and ``bandsmith noise`` run as commands, in-process through the entry point (tests/cli_helpers.py) (README, `bandsmith tolerance` and `bandsmith noise`)."""
 
 import json
 import math
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
 import scipy.constants
 from numpy.testing import assert_allclose
 
-pytestmark = pytest.mark.cli
+from cli_helpers import run_command
 
 ROOT = Path(__file__).resolve().parents[1]
 MFB = ["mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n"]
@@ -20,7 +18,7 @@ FIGURES = {"f0_hz", "q", "bw_hz", "f_low_hz", "f_high_hz", "gain_center", "gain_
 
 
 def bandsmith(*args):
-    return subprocess.run([sys.executable, "-m", "bandsmith.app", *args], capture_output=True, text=True, cwd=ROOT, timeout=120)
+    return run_command(args, cwd=ROOT)
 
 
 def ok_json(*args):
@@ -64,7 +62,7 @@ def test_tolerance_json_shape():
 
 
 def test_resistors_held_exact_fix_the_tank_gain():
-    # The tank's centre gain is −R2/R1 (REFERENCES.md, parallel tank): with --tol R=0% it cannot move.
+    # The tank's centre gain is −R2/R1 (parallel tank, derived by nodal analysis): with --tol R=0% it cannot move.
     out = ok_json("tolerance", *TANK, "--tol", "R=0%", "--trials", "3000")
     assert out["tolerances"]["R1"] == 0.0 and out["tolerances"]["R2"] == 0.0
     assert out["tolerances"]["L"] == 0.1 and out["tolerances"]["C"] == 0.05

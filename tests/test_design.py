@@ -3,9 +3,9 @@
 Sources, named beside each check:
 - S. Franco, *Design with Operational Amplifiers and Analog Integrated Circuits*, 3rd ed.,
   McGraw-Hill, ch. 3: Example 3.15 (multiple-feedback band-pass) and Example 3.13(a) (Sallen–Key
-  band-pass), as quoted in REFERENCES.md; the equal-capacitor MFB design equations.
+  band-pass); the equal-capacitor MFB design equations.
 - Parallel resonance, any circuit-theory text: ω0 = 1/√(LC), Q = R·√(C/L).
-- The transfer functions of REFERENCES.md (derived by nodal analysis), through each module's
+- The circuits' transfer functions (derived by nodal analysis, checked with sympy), through each module's
   ``formulas``.
 """
 
@@ -100,7 +100,7 @@ def test_mfb_equal_capacitor_equations():
 
 
 def test_mfb_unequal_capacitors_meet_the_transfer_function():
-    # REFERENCES.md's MFB transfer function (derived): ω0² = (1/R1 + 1/R2)/(R3·C1·C2),
+    # The MFB transfer function (derived by nodal analysis): ω0² = (1/R1 + 1/R2)/(R3·C1·C2),
     # Q = ω0·R3·C1·C2/(C1 + C2), H0 = −R3·C1/(R1·(C1 + C2)), via the module's formulas.
     topo = get_topology("mfb")
     spec = Spec(4.2e3, 3.0, 25.0)  # gain above 2Q² = 18: only unequal capacitors reach it
@@ -140,7 +140,7 @@ def test_sallen_key_any_gain_above_one_is_realisable_for_q_from_one_half():
 
 
 def test_tank_winding_resistance_is_made_up_for():
-    # The winding lowers Q (BRIEF.md); the design raises R2 above the lossless Q·√(L/C).
+    # The winding lowers Q (common practice, no source); the design raises R2 above the lossless Q·√(L/C).
     spec = Spec(2.0e3, 6.0, 2.0)
     lossless = design("rlc-tank", spec, series="exact", fixed={"C": 100e-9})
     lossy = design("rlc-tank", spec, series="exact", fixed={"C": 100e-9, "RL": 8.0})
@@ -280,7 +280,7 @@ def test_winding_resistance_too_large_for_the_q():
 
 
 def test_high_q_sallen_key_warns_about_tight_parts():
-    # REFERENCES.md (derived): S(Q; K) = 2√2·Q − 1 in the equal-part design — high Q needs tight parts.
+    # Derived (from Q = √2/(4 − K), Franco 3rd ed. ch. 3): S(Q; K) = 2√2·Q − 1 in the equal-part design — high Q needs tight parts.
     r = design("sallen-key", Spec(1e3, 25.0, 2.0), series="exact")
     assert r.feasible
     assert any("sensitive" in w and "±" in w for w in r.warnings)
@@ -353,13 +353,13 @@ def test_bad_input_raises():
 # --------------------------------------------------------------------------- JSON, compare, sessions
 
 
-CONTRACT_DESIGN_KEYS = {"topology", "spec", "feasible", "reason", "exact", "chosen", "series", "ideal", "errors", "netlist", "requirements", "sensitivity"}
+README_DESIGN_KEYS = {"topology", "spec", "feasible", "reason", "exact", "chosen", "series", "ideal", "errors", "netlist", "requirements", "sensitivity"}
 
 
 def test_design_json_has_the_contract_keys():
     r = design("mfb", Spec(2.4e3, 8.0, 4.0), conditions=Conditions(gbw_hz=2e6))
     j = design_json(r)
-    assert CONTRACT_DESIGN_KEYS <= set(j)
+    assert README_DESIGN_KEYS <= set(j)
     assert set(j["errors"]) == {"f0_pct", "q_pct", "gain_db"}
     assert set(j["spec"]) >= {"f0_hz", "q", "gain"}
     assert j["actual"] is not None and j["errors_actual"] is not None
@@ -375,7 +375,7 @@ def test_compare_every_circuit_with_spread_part_count_and_inductor():
     assert set(j) >= {"spec", "candidates"}
     by = {c["topology"]: c for c in j["candidates"]}
     for c in j["candidates"]:
-        assert CONTRACT_DESIGN_KEYS <= set(c)
+        assert README_DESIGN_KEYS <= set(c)
         assert {"spread", "part_count", "needs_inductor"} <= set(c)
         assert c["spread"]["r"] >= 1.0
     # parts to buy: the tank has R1, R2, L, C and an op-amp; MFB five passives and an op-amp;

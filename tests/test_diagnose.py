@@ -118,7 +118,7 @@ def test_two_moved_parts_are_found_together(phase):
 
 
 def test_an_identifiable_set_is_recovered_by_the_full_fit():
-    # The tank's response fixes R1·C, R2·C and L·C (REFERENCES.md, derived): with R1 held, R2, L
+    # The tank's response fixes R1·C, R2·C and L·C (derived from the tank's biquad): with R1 held, R2, L
     # and C are each fixed, so the all-parts fit recovers the moves themselves.
     moves = {"R2": -0.025, "C": 0.06}
     parts = ["R2", "L", "C"]
@@ -134,7 +134,7 @@ def test_an_identifiable_set_is_recovered_by_the_full_fit():
 
 def test_parts_that_cannot_be_told_apart_are_named():
     # Tank: raising C while lowering R1, R2 and L by the same factor leaves
-    # -(s/(R1·C)) / (s² + s/(R2·C) + 1/(L·C)) unchanged (derived from REFERENCES.md's formula).
+    # -(s/(R1·C)) / (s² + s/(R2·C) + 1/(L·C)) unchanged (derived from the parallel-tank biquad).
     d = diagnose(Candidate("rlc-tank", TANK), measurement("rlc-tank", TANK, {"C": 0.06}))
     assert d.confounded == (("R1", "R2", "L", "C"),)
     assert "not separately identifiable" in d.summary

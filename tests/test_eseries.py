@@ -21,11 +21,11 @@ from bandsmith.common.eseries import (
     values_between,
 )
 
-# IEC 60063:2015, Table 1 (two digits) [published, as listed in REFERENCES.md]
+# IEC 60063:2015, Table 1 (two digits) [published]
 E12_IEC = [10, 12, 15, 18, 22, 27, 33, 39, 47, 56, 68, 82]
 E24_IEC = [10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30,
            33, 36, 39, 43, 47, 51, 56, 62, 68, 75, 82, 91]
-# IEC 60063:2015, Table 2 (three digits) [published, as listed in REFERENCES.md]
+# IEC 60063:2015, Table 2 (three digits) [published]
 E96_IEC = [100, 102, 105, 107, 110, 113, 115, 118, 121, 124, 127, 130, 133, 137, 140, 143,
            147, 150, 154, 158, 162, 165, 169, 174, 178, 182, 187, 191, 196, 200, 205, 210,
            215, 221, 226, 232, 237, 243, 249, 255, 261, 267, 274, 280, 287, 294, 301, 309,
@@ -68,18 +68,18 @@ def test_every_decade_holds_the_published_values(series, expected, scale):
 # ------------------------------------------------------------ derived invariants
 
 def test_e96_is_the_rounded_geometric_series():
-    # derived (REFERENCES.md): E96[i] = round(100·10^(i/96)) for every i
+    # derived (checked here on the published table): E96[i] = round(100·10^(i/96)) for every i
     assert codes("E96", 100) == [round(100 * 10 ** (i / 96)) for i in range(96)]
 
 
 def test_e48_is_every_other_e96_value():
-    # derived (REFERENCES.md): E48 = E96[::2], checked against the published E96 list
+    # derived: E48 = E96[::2], checked against the published E96 list
     assert codes("E48", 100) == E96_IEC[::2]
     assert codes("E48", 100) == [round(100 * 10 ** (i / 48)) for i in range(48)]
 
 
 def test_e12_is_every_other_e24_value():
-    # derived (REFERENCES.md): E12 = E24[::2], on the published IEC 60063 lists
+    # derived: E12 = E24[::2], on the published IEC 60063 lists
     assert E12_IEC == E24_IEC[::2]
     assert codes("E12", 10) == codes("E24", 10)[::2]
 
@@ -91,7 +91,7 @@ def test_e6_and_e3_are_every_other_value_of_the_next_series():
 
 
 def test_e192_is_the_formula_except_920():
-    # derived (REFERENCES.md): E192 = round(100·10^(i/192)) except 920, where the formula gives 919
+    # derived: E192 = round(100·10^(i/192)) except 920, where the formula gives 919
     formula = [round(100 * 10 ** (i / 192)) for i in range(192)]
     got = codes("E192", 100)
     differ = [(g, f) for g, f in zip(got, formula) if g != f]
@@ -100,7 +100,7 @@ def test_e192_is_the_formula_except_920():
 
 
 def test_e24_is_not_the_formula():
-    # derived (REFERENCES.md): E24 differs from round(10·10^(i/24)) at exactly these values,
+    # derived: E24 differs from round(10·10^(i/24)) at exactly these values,
     # which is why E3–E24 are tabulated
     formula = [round(10 * 10 ** (i / 24)) for i in range(24)]
     differ = [c for c, f in zip(E24_IEC, formula) if c != f]
@@ -233,7 +233,7 @@ def test_snapping_properties(x, series):
 # ------------------------------------------------------------ tolerances
 
 def test_usual_tolerance():
-    # IEC 60063 [published, as quoted in REFERENCES.md]: E12 10 %, E24 5 %, E96 1 %
+    # IEC 60063:2015 [published]: E12 10 %, E24 5 %, E96 1 %
     assert_allclose([usual_tolerance(s) for s in ("E12", "E24", "E96")], [0.10, 0.05, 0.01])
     # common practice, no source: E6 20 %, E48 2 %, E192 0.5 %
     assert_allclose([usual_tolerance(s) for s in ("e6", "E48", "E192")], [0.2, 0.02, 0.005])

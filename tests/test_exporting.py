@@ -4,7 +4,6 @@ all written atomically."""
 from __future__ import annotations
 
 import csv
-import importlib.util
 import io
 import os
 import xml.etree.ElementTree as ET
@@ -146,10 +145,7 @@ def test_write_atomic_replaces_whole_or_not_at_all(tmp_path, monkeypatch):
 
 # --------------------------------------------------------------------------- tables and netlists
 
-needs_exports = pytest.mark.skipif(importlib.util.find_spec("bandsmith.files.exports") is None, reason="bandsmith.files.exports is not there yet")
 
-
-@needs_exports
 def test_parts_csv_lists_every_part(tmp_path):
     from bandsmith.app.window.exporting import export_parts_csv
 
@@ -165,7 +161,6 @@ def test_parts_csv_lists_every_part(tmp_path):
         assert "U1" in listed and "1 MHz" in listed["U1"]["formatted_value"]  # the session's op-amp
 
 
-@needs_exports
 def test_response_csv_is_a_table_of_numbers(tmp_path):
     from bandsmith.app.window.exporting import export_response_csv
 
@@ -179,7 +174,6 @@ def test_response_csv_is_a_table_of_numbers(tmp_path):
     assert np.all(np.diff(values[:, 0]) > 0)
 
 
-@needs_exports
 def test_netlist_has_every_part_and_ends(tmp_path):
     from bandsmith.app.window.exporting import export_netlist
 
@@ -195,7 +189,6 @@ def test_netlist_has_every_part_and_ends(tmp_path):
                 assert any(ln.split()[0].upper().endswith(ref.upper()) for ln in lines[1:] if not ln.startswith("*"))
 
 
-@needs_exports
 def test_unknown_candidate_names_the_field(tmp_path):
     from bandsmith.app.window.exporting import export_netlist
 

@@ -5,7 +5,7 @@ first line a title, R/L/C/V/G/E/X elements, ``.subckt``/``.ends``, ``.ac``, ``.e
 solved by an independent nodal analysis, also written here, with the macro-model's own elements
 (a voltage-controlled current source, a resistor, a capacitor, a voltage-controlled voltage
 source). Its response must equal the core's analysis with the single-pole op-amp
-A(s) = A0/(1 + s·A0/(2π·GBW)) of BRIEF.md — which is checked against scipy.signal.freqs too.
+A(s) = A0/(1 + s·A0/(2π·GBW)) of the README's "Definitions" — which is checked against scipy.signal.freqs too.
 """
 
 from __future__ import annotations
@@ -166,7 +166,7 @@ def test_netlist_contains_the_macro_model_with_the_gbw():
     assert el["EOUT"] == ["out", "0", "x", "0", "1"]
     assert_allclose(gm * rp, a0, rtol=1e-12)  # DC gain
     assert_allclose(gm / (2 * math.pi * cp), gbw, rtol=1e-12)  # gain-bandwidth product
-    # the macro-model's A(jω) = gm·RP/(1 + jω·RP·CP) is BRIEF.md's single-pole model (scipy.signal.freqs)
+    # the macro-model's A(jω) = gm·RP/(1 + jω·RP·CP) is the README's single-pole model (scipy.signal.freqs)
     w = 2 * math.pi * np.geomspace(1.0, 1e8, 50)
     _, ref = scipy.signal.freqs([a0], [a0 / (2 * math.pi * gbw), 1.0], worN=w)
     assert_allclose(gm * rp / (1 + 1j * w * rp * cp), ref, rtol=1e-12)
@@ -203,7 +203,7 @@ def test_netlist_options_and_bad_input():
         spice_netlist(("mfb", get_topology("mfb").example), gbw_hz=-1.0)
     with pytest.raises(InputError):
         spice_netlist(object())
-    assert "prototype" in text  # the cautions travel with the export (BRIEF.md)
+    assert "prototype" in text  # the cautions travel with the export (README "Cautions")
 
 
 # --------------------------------------------------------------------------- parts list

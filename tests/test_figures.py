@@ -3,7 +3,7 @@
 For a band-pass biquad H = H0·(ω0/Q)·s/(s² + (ω0/Q)·s + ω0²) (derived, any circuit-theory text):
 |H(jω)|² = H0²·(ω0ω/Q)² / ((ω0² − ω²)² + (ω0ω/Q)²) is largest, H0², at ω = ω0; it is half of that
 where |ω0² − ω²| = ω0ω/Q, i.e. ω = ω0·(√(1 + 1/(4Q²)) ∓ 1/(2Q)); so bandwidth = ω0/Q exactly,
-f_low·f_high = f0², and H(jω0) = H0. BRIEF.md asks the measured figures to equal these.
+f_low·f_high = f0², and H(jω0) = H0. The README's "Definitions" measure the figures on the response; they must equal these.
 """
 
 from __future__ import annotations
@@ -56,7 +56,7 @@ def random_mfb(rng):
 
 
 def random_sallen_key(rng):
-    """A stable Sallen–Key part set (variant A closed form, REFERENCES.md), Q up to about 100."""
+    """A stable Sallen–Key part set (variant A closed form, derived by nodal analysis), Q up to about 100."""
     while True:
         v = {r: _log_uniform(rng, 1e3, 1e5) for r in ("R1", "R2", "R3", "RA")}
         v.update({c: _log_uniform(rng, 1e-9, 1e-6) for c in ("C1", "C2")})
@@ -74,7 +74,7 @@ MAKERS = {"rlc-tank": random_tank, "mfb": random_mfb, "sallen-key": random_salle
 
 @pytest.mark.parametrize("topology_id", list(MAKERS))
 def test_ideal_figures_equal_biquad_values(topology_id):
-    # BRIEF.md: for an ideal op-amp the measured figures equal the biquad values exactly (1e-6 asked).
+    # For an ideal op-amp the measured figures equal the biquad values (derived; to 1e-6).
     rng = np.random.default_rng(31 + list(MAKERS).index(topology_id))
     topo = get_topology(topology_id)
     for _ in range(40):
@@ -129,7 +129,7 @@ GBW_LADDER = np.array([30.0, 100.0, 300.0, 1e3, 3e3, 1e4, 3e4, 1e5, 3e5, 1e6])
 def test_finite_opamp_figures_converge_monotonically_to_ideal(topology_id):
     # derived: the single-pole model A(s) = A0/(1 + s·A0/(2π·GBW)) tends to the ideal op-amp as
     # GBW → ∞ and A0 → ∞; with A0 = 1e12 the deviations of f0, Q and gain shrink monotonically
-    # along the GBW ladder, roughly as 1/GBW (first order in f0/GBW, REFERENCES.md).
+    # along the GBW ladder, roughly as 1/GBW (first order in f0/GBW, derived).
     topo = get_topology(topology_id)
     nl = topo.netlist(topo.example)
     ideal = ideal_figures(nl).item()
@@ -179,7 +179,7 @@ def test_analyze_actual_equals_direct_measurement(topology_id):
 
 
 def test_figures_json_has_contract_keys():
-    # CONTRACT.md FIGURES keys
+    # README (`bandsmith analyze`): FIGURES keys
     fig = ideal_figures(get_topology("rlc-tank").netlist(get_topology("rlc-tank").example))
     keys = {"f0_hz", "q", "bw_hz", "f_low_hz", "f_high_hz", "gain_center", "gain_center_db", "phase_center_deg"}
     j = fig.to_json()

@@ -59,7 +59,7 @@ def test_generous_amp_fits(base):
 def test_needs_against_independent_computations(base):
     v, net = sk()
     k = 1 + v["RB"] / v["RA"]
-    # Sine slew at f0: 2π·f0·|gain|·vin (BRIEF's definition; SR = 2π·f·Vpeak, Franco 3rd ed. Ex. 6.8).
+    # Sine slew at f0: 2π·f0·|gain|·vin (the README's definition; SR = 2π·f·Vpeak, Franco 3rd ed. Ex. 6.8).
     f0 = base.actual.item().f0_hz  # probe's GBW is 50 MHz: the figures are within 1e-4 of ideal
     r1, r2, r3, c1, c2 = (v[x] for x in ("R1", "R2", "R3", "C1", "C2"))
     w0 = math.sqrt((r1 + r2) / (r1 * r2 * r3 * c1 * c2))  # ideal ω0 of this band-pass (Franco, ch. 3)
@@ -72,7 +72,7 @@ def test_needs_against_independent_computations(base):
     vout, va = n["out"][0], n["a"][0]
     i = VIN * abs((vout - va) / r2 + vout / (v["RA"] + v["RB"]) + vout / RLOAD)
     assert_allclose(base.needs.iout_ma, i * 1e3, rtol=1e-9)
-    # Step slew of a second-order band-pass: G·ω0/Q·vin = the initial slope (REFERENCES.md, derived).
+    # Step slew of a second-order band-pass: G·ω0/Q·vin = the initial slope (derived by the initial-value theorem, see test_requirements.py).
     assert_allclose(base.needs.slew_step_v_per_us, gain * a1 * VIN * 1e-6, rtol=1e-3)
 
 

@@ -21,7 +21,7 @@ from bandsmith.solver.mna import OpAmpModel
 
 
 def tank(q_design, q_inductor, *, f0_hz=8e3, l_h=4.7e-3, gain=3.0):
-    """Tank with lossless Q ``q_design`` (Q = R2/√(L/C), REFERENCES.md) and an inductor of Q ``q_inductor`` at f0."""
+    """Tank with lossless Q ``q_design`` (Q = R2/√(L/C), parallel resonance) and an inductor of Q ``q_inductor`` at f0."""
     c = 1 / ((2 * math.pi * f0_hz) ** 2 * l_h)
     r2 = q_design * math.sqrt(l_h / c)
     rl = 2 * math.pi * f0_hz * l_h / q_inductor
@@ -65,7 +65,7 @@ def test_winding_effect_measured(q_design, q_inductor):
     nl, v = tank(q_design, q_inductor)
     (eff,) = winding_effect(nl)
     assert eff.ref == "L" and eff.series_ref == "RL" and eff.rl_ohm == v["RL"]
-    # Lossless figures: the textbook Q = R2·√(C/L) (REFERENCES.md).
+    # Lossless figures: the textbook Q = R2·√(C/L) (parallel resonance, any circuit-theory text).
     assert_allclose(eff.q_lossless, q_design, rtol=1e-9)
     # With the winding: scipy.signal.freqs on a grid of 5.5e-6 relative steps, the −3 dB crossings
     # interpolated linearly; the peak's grid position limits f0 to half a step.

@@ -246,7 +246,7 @@ def test_readoff_matches_the_moved_design(topology, design, moves, noise):
     assert_allclose(r.f0_hz, truth["f0_hz"], rtol=tol["f0"])
     assert_allclose(r.q, truth["q"], rtol=tol["q"])
     assert_allclose(r.gain_center_db, truth["gain_db"], atol=tol["gain_db"])
-    # Both circuits invert: the phase at f0 is 180° (BRIEF.md), the signed gain negative. The phase
+    # Both circuits invert: the phase at f0 is 180° (common practice, no source), the signed gain negative. The phase
     # falls by 2Q radians per unit of ln f at f0 (derived), so the f0 bias above moves it by up to
     # 0.2° without scatter.
     assert r.gain_center < 0

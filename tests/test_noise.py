@@ -43,7 +43,7 @@ def test_boltzmann_constant_is_the_exact_si_value():
 )
 def test_johnson_nyquist_density(r_ohm, t_k, want_nv):
     # √(4kTR) (J. B. Johnson; H. Nyquist, Phys. Rev. 32, 1928) with the exact SI k; the values are
-    # REFERENCES.md's, given to 5 significant figures.
+    # derived (√(4kTR) evaluated with k = scipy.constants.k), given to 5 significant figures.
     assert_allclose(johnson_density(r_ohm, t_k) * 1e9, want_nv, rtol=5e-5)
 
 
@@ -122,7 +122,7 @@ def _solve_sallen_key(v, f_hz, a_s):
 @pytest.mark.parametrize("gbw", [None, 1e6])
 def test_noise_transfers_match_sympy_nodal_analysis(topology_id, solver, gbw):
     # The reference writes its own nodal equations (docstrings above) and solves them with sympy;
-    # the single-pole op-amp is A(s) = A0/(1 + s·A0/(2π·GBW)) (BRIEF.md's model). Signs differ
+    # the single-pole op-amp is A(s) = A0/(1 + s·A0/(2π·GBW)) (the README's op-amp model, "Definitions"). Signs differ
     # by convention only, so magnitudes are compared.
     nl, v = netlist(topology_id)
     f = np.geomspace(50.0, 50e3, 13)
@@ -160,7 +160,7 @@ def test_winding_resistance_noise_transfer():
 def test_integrated_noise_matches_quad(q):
     # Reference: scipy.integrate.quad of the closed-form output density of the tank with an ideal
     # noiseless op-amp, S(f) = 4kT·R1·|H|² + (4kT/R2)·|Z_f|², Z_f = 1/(1/R2 + sC + 1/(sL)),
-    # H = −Z_f/R1 (parallel tank, REFERENCES.md); epsabs=0 because the integrand is of order
+    # H = −Z_f/R1 (parallel tank, derived by nodal analysis); epsabs=0 because the integrand is of order
     # 1e-16 V²/Hz. The trapezoid on the module's log grid (at least 100·Q points per decade) is
     # good to about 5e-7 here; 1e-5 allowed.
     # Parts from the parallel-resonance relations: f0 = 1/(2π√(LC)) = 5 kHz, Q = R2·√(C/L), gain 2.

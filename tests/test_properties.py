@@ -1,7 +1,7 @@
 """Property-based tests (hypothesis, derandomized): wide part values, malformed text, symmetry.
 
 - Any part values in wide log-uniform ranges give finite figures or a clear InputError, never
-  another exception (BRIEF.md: bad input never crashes).
+  another exception (README "Command line": bad input is exit 2, never a crash).
 - Any malformed value text given to the parsing of typed parts (``bandsmith.design.candidate.parse_parts``,
   what the command line and the window use) gives InputError, never another exception.
 - The ideal band-pass biquad's magnitude is symmetric about f0 on a log axis (derived below).
@@ -137,7 +137,7 @@ def test_regressions_found_by_the_properties(topology_id, values):
     which=st.integers(0, 10),
 )
 def test_zero_negative_and_non_finite_parts_are_input_errors(topology_id, bad, which):
-    # CONTRACT.md: zero or negative values of required parts and non-finite numbers are bad input
+    # README "Command line": zero or negative values of required parts and non-finite numbers are bad input
     topo = get_topology(topology_id)
     values = dict(topo.example)
     ref = topo.refs[which % len(topo.refs)]

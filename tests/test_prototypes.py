@@ -12,8 +12,7 @@ from bandsmith.chain.prototypes import DEFAULT_RIPPLE_DB, RESPONSES, check_order
 
 # Pole frequency ωp / Q per section, "r" a real pole at that frequency; normalised as scipy does
 # (buttap −3 dB at 1 rad/s; cheb1ap ripple-band edge at 1; besselap norm='mag' −3 dB at 1).
-# Source: REFERENCES.md "Low-pass prototypes and the band-pass transformation", a table derived
-# with scipy.signal 1.17 (derived, not a published handbook table), four decimals.
+# Source: a table derived with scipy.signal 1.17 (buttap, cheb1ap, besselap(norm='mag')) (derived, not a published handbook table), four decimals.
 # Rows: N -> (real pole ωp or None, [(ωp, Q), …] by ascending Q).
 TABLE = {
     "butterworth": {
@@ -56,7 +55,7 @@ def _make(key, n):
 
 @pytest.mark.parametrize("key,n", CASES, ids=[f"{k if isinstance(k, str) else k[0] + str(k[1])}-{n}" for k, n in CASES])
 def test_pole_table(key, n):
-    # Source: REFERENCES.md prototype table [derived with scipy.signal 1.17], rounded to 4 decimals.
+    # Source: the table above [derived with scipy.signal 1.17], rounded to 4 decimals.
     real, pairs = TABLE[key][n]
     proto = _make(key, n)
     secs = proto.sections

@@ -11,7 +11,6 @@ import math
 import re
 import shutil
 import subprocess
-import sys
 from datetime import datetime, timezone
 from pathlib import Path
 
@@ -23,6 +22,7 @@ from bandsmith.design.candidate import Candidate
 from bandsmith.circuits import all_topologies, get_topology
 from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target, load_session, save_session
 from bandsmith.common.values import format_rkm, format_value
+from cli_helpers import run_command, run_installed
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "resources" / "demo_session.bandsmith.json"
@@ -30,7 +30,7 @@ ARTIFACTS = ROOT / "tests" / "_artifacts" / "report"
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 UNITS = {"R": "Ω", "L": "H", "C": "F"}
 
-# The three cautions of BRIEF.md; each fact must be in every report.
+# The three cautions the README states ("Cautions"); each fact must be in every report.
 CAUTION_FACTS = ("prototype", "production", "common-mode", "output swing", "datasheet", "mains", "electrical codes", "licensed practice")
 
 
@@ -56,7 +56,8 @@ def session_file(tmp_path) -> Path:
 
 
 def _bandsmith(*args, cwd=None):
-    return subprocess.run([sys.executable, "-m", "bandsmith.app", *map(str, args)], capture_output=True, text=True, cwd=cwd or ROOT, timeout=300)
+    """``bandsmith ARGS…`` in-process through the entry point (tests/cli_helpers.py)."""
+    return run_command(args, cwd=cwd or ROOT)
 
 
 def _text(page: str) -> str:
@@ -78,7 +79,6 @@ def _analyses(session: Session):
 # --------------------------------------------------------------------------- HTML
 
 
-@pytest.mark.cli
 def test_cli_html_report_has_plots_parts_needs_and_cautions(session_file, tmp_path):
     out = tmp_path / "report.html"
     r = _bandsmith("report", session_file, "-o", out)
@@ -189,9 +189,10 @@ def test_sections_can_be_added_before_the_cautions(qapp, monkeypatch):
 
 @pytest.mark.cli
 def test_cli_pdf_report_opens_with_pages_text_and_images(session_file, tmp_path):
-    pypdf = pytest.importorskip("pypdf")
+    # a smoke test of the installed program itself (fails when it is not installed)
+    import pypdf  # a test dependency (pyproject.toml, extra "test"): missing, the test fails
     out = tmp_path / "report.pdf"
-    r = _bandsmith("report", session_file, "-o", out)
+    r = run_installed(["report", session_file, "-o", out], cwd=ROOT)
     assert r.returncode == 0, r.stderr
     assert out.read_bytes()[:5] == b"%PDF-"
     reader = pypdf.PdfReader(str(out))
@@ -222,7 +223,6 @@ def test_cli_pdf_report_opens_with_pages_text_and_images(session_file, tmp_path)
 # --------------------------------------------------------------------------- bad input
 
 
-@pytest.mark.cli
 @pytest.mark.parametrize(
     "content, field",
     [
@@ -245,7 +245,6 @@ def test_cli_bad_session_exits_2_with_one_line(tmp_path, content, field):
     assert out.read_text(encoding="utf-8") == "old report"  # never touched
 
 
-@pytest.mark.cli
 @pytest.mark.parametrize("name", ["out.docx", "out", "missing-folder/out.html"])
 def test_cli_bad_output_exits_2_naming_output(session_file, tmp_path, name):
     r = _bandsmith("report", session_file, "-o", tmp_path / name)
@@ -331,7 +330,7 @@ def test_rendered_plots_are_png_with_every_candidate(qapp):
 
 
 def test_empty_session_and_ideal_opamp(qapp, tmp_path):
-    pypdf = pytest.importorskip("pypdf")
+    import pypdf  # a test dependency (pyproject.toml, extra "test"): missing, the test fails
     from bandsmith.app.report.builder import build_report_html, write_report
 
     empty = Session(Target(1000.0, 2.0, 1.0), ())

@@ -4,10 +4,7 @@ plot image, registered for headless reports too (``bandsmith report``)."""
 from __future__ import annotations
 
 import base64
-import os
 import re
-import subprocess
-import sys
 from dataclasses import replace
 from pathlib import Path
 
@@ -19,6 +16,7 @@ from bandsmith.chain.cascade import ChainSettings, cascade_session, chain_cascad
 from bandsmith.circuits import get_topology
 from bandsmith.files.session import save_session
 from bandsmith.common.values import format_rkm
+from cli_helpers import run_command
 
 REPO = Path(__file__).resolve().parents[1]
 
@@ -93,10 +91,7 @@ def test_bandsmith_report_headless_includes_the_chain(session, tmp_path):
     path = tmp_path / "chain.bandsmith.json"
     save_session(session, path)
     out = tmp_path / "report.html"
-    env = dict(os.environ, PYTHONPATH=str(REPO), QT_QPA_PLATFORM="offscreen")
-    proc = subprocess.run(
-        [sys.executable, "-m", "bandsmith.app", "report", str(path), "-o", str(out)], cwd=REPO, env=env, capture_output=True, text=True, timeout=120
-    )
+    proc = run_command(["report", path, "-o", out], cwd=REPO)  # in-process through the entry point
     assert proc.returncode == 0, proc.stderr
     html = out.read_text(encoding="utf-8")
     assert 'id="chain-band-a"' in html and 'id="plot-chain-band-a"' in html

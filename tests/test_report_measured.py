@@ -11,8 +11,6 @@ from __future__ import annotations
 import base64
 import html as htmllib
 import re
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
@@ -20,6 +18,7 @@ from numpy.testing import assert_allclose
 
 from bandsmith.bench.measured import read_measurement, with_measurement
 from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target, save_session
+from cli_helpers import run_command
 from measured_helpers import MFB, moved, sweep, true_figures, write_layouts
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -128,22 +127,21 @@ def test_no_measurement_no_section(qapp, tmp_path):
     assert 'class="measured"' not in build_report_html(plain, images=False)
 
 
-@pytest.mark.cli
 def test_headless_report_command_includes_it(tmp_path):
+    # `bandsmith report` in-process through the entry point (tests/cli_helpers.py)
     session, m = _measured_session(tmp_path)
     path = tmp_path / "bench.bandsmith.json"
     save_session(session, path)
     out = tmp_path / "report.html"
-    env = {k: v for k, v in __import__("os").environ.items() if k not in ("DISPLAY", "WAYLAND_DISPLAY", "QT_QPA_PLATFORM")}
-    r = subprocess.run([sys.executable, "-m", "bandsmith.app", "report", str(path), "-o", str(out)], capture_output=True, text=True, cwd=ROOT, timeout=300, env=env)
+    r = run_command(["report", path, "-o", out], cwd=ROOT)
     assert r.returncode == 0, r.stderr
     page = out.read_text(encoding="utf-8")
     sec = _section(page)
     assert 'id="measured-1-magnitude"' in sec and 'id="measured-1-phase"' in sec and "Diagnosis:" in _text(sec)
     pdf = tmp_path / "report.pdf"
-    r = subprocess.run([sys.executable, "-m", "bandsmith.app", "report", str(path), "-o", str(pdf)], capture_output=True, text=True, cwd=ROOT, timeout=300, env=env)
+    r = run_command(["report", path, "-o", pdf], cwd=ROOT)
     assert r.returncode == 0, r.stderr
-    pypdf = pytest.importorskip("pypdf")
+    import pypdf  # a test dependency (pyproject.toml, extra "test"): missing, the test fails
     reader = pypdf.PdfReader(str(pdf))
     text = re.sub(r"\s+", " ", " ".join(p.extract_text() for p in reader.pages))  # words come tab-separated
     assert "Measured against the design" in text and "Diagnosis" in text

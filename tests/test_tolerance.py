@@ -39,7 +39,7 @@ def example(topology_id, **changes):
 
 
 def tank(f0_hz, q, gain, *, l_h=1e-3, rl_ohm=0.0):
-    """Tank band-pass from the parallel-resonance relations (REFERENCES.md): f0 = 1/(2π√(LC)), Q = R2/√(L/C), gain −R2/R1."""
+    """Tank band-pass from the parallel-resonance relations (any circuit-theory text): f0 = 1/(2π√(LC)), Q = R2/√(L/C), gain −R2/R1."""
     c = 1.0 / ((2 * math.pi * f0_hz) ** 2 * l_h)
     r2 = q * math.sqrt(l_h / c)
     return get_topology("rlc-tank").netlist({"R1": r2 / gain, "R2": r2, "L": l_h, "C": c, "RL": rl_ohm})
@@ -173,7 +173,7 @@ def test_zero_tolerance_holds_parts_exact():
     for ref in ("R1", "R2", "RL"):
         assert_allclose(values[ref], nl.values()[ref], rtol=0, atol=0)
     assert np.std(values["C"]) > 0
-    # The tank's centre gain is −R2/R1 (REFERENCES.md, parallel tank) — with the resistors exact
+    # The tank's centre gain is −R2/R1 (parallel tank, derived by nodal analysis) — with the resistors exact
     # and no winding loss it does not move at all.
     sp = run_spread(example("rlc-tank"), s)
     assert_allclose(sp.gain_center, -example("rlc-tank").element("R2").value / example("rlc-tank").element("R1").value, rtol=1e-12)
@@ -183,7 +183,7 @@ def test_zero_tolerance_holds_parts_exact():
 
 
 def test_trial_figures_are_the_tank_formulas_and_yield_follows():
-    # Parallel resonance (REFERENCES.md): f0 = 1/(2π√(LC)), Q = R2·√(C/L), gain −R2/R1, applied to
+    # Parallel resonance (any circuit-theory text): f0 = 1/(2π√(LC)), Q = R2·√(C/L), gain −R2/R1, applied to
     # the sampled part values of each trial; the yield is then counted from those formulas alone.
     nl = example("rlc-tank")
     s = SpreadSettings(trials=40_000, seed=3, window_f0=0.04, window_q=0.05, window_gain_db=0.15)
@@ -306,8 +306,8 @@ def test_expansion_equals_solver_transfer_function(topology_id, gbw):
 def test_unstable_trials_are_failures_not_errors():
     # Sallen–Key variant A with all parts equal: Q = √2/(4 − K) (Franco, 3rd ed., ch. 3). At Q = 20
     # the gain K = 3.929 sits 0.07 below the oscillation limit and 1 % resistors push some trials
-    # past it. Unstable exactly when the s-coefficient of the denominator (REFERENCES.md, variant
-    # A) is not positive: a1 = 1/(R1·C1) + (1−K)/(R2·C1) + 1/(R3·C1) + 1/(R3·C2).
+    # past it. Unstable exactly when the s-coefficient of the denominator (derived by nodal
+    # analysis, variant A) is not positive: a1 = 1/(R1·C1) + (1−K)/(R2·C1) + 1/(R3·C1) + 1/(R3·C2).
     k = 4 - math.sqrt(2) / 20
     nl = get_topology("sallen-key").netlist({"R1": 10e3, "R2": 10e3, "R3": 10e3, "C1": 10e-9, "C2": 10e-9, "RA": 10e3, "RB": 10e3 * (k - 1)})
     sp = run_spread(nl, SpreadSettings(trials=20_000, seed=9), keep_values=True)
@@ -361,7 +361,7 @@ def test_worst_case_bounds_every_uniform_trial(topology_id, changes, gbw):
     # Holds when every figure is monotone in each part over the tolerance box (so its extremes sit
     # on corners) and the box stays clear of the oscillation limit: exactly so for the ideal tank,
     # whose f0, Q and gain are products of powers of the part values (parallel resonance,
-    # REFERENCES.md), and checked here for the other examples. A part that enters through a ratio
+    # any circuit-theory text), and checked here for the other examples. A part that enters through a ratio
     # with an interior optimum (the MFB's Q peaks at C1 = C2) can break it when the two
     # tolerances differ; the normal distribution is not bounded at all.
     nl = example(topology_id, **changes)
@@ -379,7 +379,7 @@ def test_worst_case_bounds_every_uniform_trial(topology_id, changes, gbw):
         assert np.all(y >= lo - slack * abs(lo)) and np.all(y <= hi + slack * abs(hi)), name
         clo, chi = wc.corners[name]
         assert set(clo) == set(chi) and len(clo) == n_vary
-    # The tank's f0 = 1/(2π√(LC)) is lowest with L and C both high (REFERENCES.md).
+    # The tank's f0 = 1/(2π√(LC)) is lowest with L and C both high (parallel resonance).
     if topology_id == "rlc-tank" and gbw is None:
         lo_corner = wc.corners["f0_hz"][0]
         assert lo_corner["L"] == pytest.approx(0.10) and lo_corner["C"] == pytest.approx(0.05)
@@ -389,7 +389,7 @@ def test_worst_case_bounds_every_uniform_trial(topology_id, changes, gbw):
 
 def test_sensitivity_corners_beyond_twelve_parts(monkeypatch):
     # With more varying quantities than MAX_CORNER_PARTS the worst case uses the corners the
-    # sensitivities point to; the ideal tank's figures are monomials (REFERENCES.md), so those
+    # sensitivities point to; the ideal tank's figures are monomials (parallel resonance), so those
     # corners are the true extremes and agree with the full enumeration.
     import bandsmith.spread.tolerance as tolerance
 

@@ -29,7 +29,7 @@ def read(text):
 @pytest.mark.parametrize(
     ("code", "expected"),
     [
-        # IEC 60062:2016 [published, as listed in REFERENCES.md]
+        # IEC 60062:2016, Marking codes for resistors and capacitors (RKM code) [published]
         ("R47", 0.47), ("4R7", 4.7), ("470R", 470.0), ("4K7", 4.7e3), ("47K3", 47.3e3),
         ("4M7", 4.7e6), ("4n7", 4.7e-9), ("1µ0", 1e-6),
         # from memory: u as the ASCII spelling of µ
@@ -92,7 +92,7 @@ def test_numbers_pass_through(number):
 # ------------------------------------------------------------ bad values
 
 def test_contract_message():
-    # CONTRACT.md, "Conventions": the message names the field and the reason
+    # README, "Command line" (exit status): the message names the field and the reason
     with pytest.raises(InputError) as err:
         parse_value("4x7", field="R1")
     assert str(err.value) == 'R1: "4x7" is not a value; try 4k7, 4700 or 4.7e3'

@@ -18,7 +18,7 @@ from bandsmith.app.window.theme import STYLE_SHEET
 from bandsmith.chain.cascade import chains_in
 from bandsmith.files.session import load_session, save_session
 
-from window_helpers import ScriptedPrompter, temp_settings
+from window_helpers import ScriptedPrompter, screenshot, temp_settings
 
 pytestmark = pytest.mark.gui
 
@@ -257,7 +257,7 @@ def test_the_window_has_the_pane_and_runs_its_jobs_in_the_status_bar(qtbot, tmp_
     assert win.act_undo.isEnabled()
     ARTIFACTS.mkdir(exist_ok=True)
     qtbot.wait(50)
-    win.grab().save(str(ARTIFACTS / "chain_pane_window.png"))
+    screenshot(win, ARTIFACTS / "chain_pane_window.png", regions=(pane.plots, pane.stage_table), labels=(pane.summary,))
 
 
 def test_screenshot_of_the_pane(qtbot, pane, state):
@@ -266,12 +266,12 @@ def test_screenshot_of_the_pane(qtbot, pane, state):
     pane.stage_table.setCurrentCell(2, 0)
     ARTIFACTS.mkdir(exist_ok=True)
     qtbot.wait(50)
-    assert pane.grab().save(str(ARTIFACTS / "chain_pane.png"))
+    screenshot(pane, ARTIFACTS / "chain_pane.png", regions=(pane.plots, pane.stage_table), labels=(pane.summary,))
     # And one of a chain that cannot be built.
     fill_form(pane, response="chebyshev", order=6, ripple="0.5", f0="10k", bw="2k", gain="2")
     build(qtbot, pane)
     qtbot.wait(50)
-    assert pane.grab().save(str(ARTIFACTS / "chain_pane_not_built.png"))
+    screenshot(pane, ARTIFACTS / "chain_pane_not_built.png", labels=(pane.summary,))
 
 
 def test_with_an_ideal_op_amp_nothing_claims_a_finite_one(qtbot):

@@ -8,7 +8,7 @@ from PySide6 import QtCore
 from bandsmith.app.window.demo import demo_session
 from bandsmith.app.window.main_window import WorkbenchWindow
 from bandsmith.app.window.state import WorkbenchState
-from window_helpers import ScriptedPrompter, temp_settings
+from window_helpers import ScriptedPrompter, drawn_fraction, screenshot, temp_settings
 
 pytestmark = pytest.mark.gui
 
@@ -215,7 +215,10 @@ def test_pole_zero_plot_names_the_poles_outside_its_view(window, qtbot):
 
     out = Path(__file__).resolve().parent / "_artifacts"
     out.mkdir(exist_ok=True)
-    plot.grab().save(str(out / "pole_zero_note.png"))
+    image = screenshot(plot, out / "pole_zero_note.png")
+    # the note is drawn where it stands: its box in the picture holds text, not background only
+    box = plot.mapFromScene(plot.far_note.sceneBoundingRect()).boundingRect().intersected(image.rect())
+    assert drawn_fraction(image, box) > 0.02, drawn_fraction(image, box)
     # zoomed out far enough, nothing is outside and the note goes
     plot.getPlotItem().getViewBox().setRange(xRange=(-1e9, 1e9), yRange=(-1e9, 1e9), padding=0)
     assert plot.far_note.toPlainText() == "" and not plot.far_note.isVisible()

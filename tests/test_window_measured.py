@@ -19,7 +19,7 @@ from bandsmith.app.window.state import WorkbenchState
 from bandsmith.bench.measured import ColumnMapping, MappingNeeded, read_measurement, session_measurements
 from bandsmith.files.session import CandidateEntry, Session, Target, load_session
 from measured_helpers import MFB, sweep, write_layouts
-from window_helpers import ScriptedPrompter, temp_settings
+from window_helpers import ScriptedPrompter, screenshot, temp_settings
 
 pytestmark = pytest.mark.gui
 
@@ -88,10 +88,10 @@ def test_import_shows_the_overlay_and_the_diagnosis(window, files, qtbot):
     window.panes.setCurrentIndex(0)
     qtbot.wait(50)
     ARTIFACTS.mkdir(exist_ok=True)
-    assert window.grab().save(str(ARTIFACTS / "measured_overlay.png"))
+    screenshot(window, ARTIFACTS / "measured_overlay.png", regions=(window.plot_grid.plots["magnitude"], window.plot_grid.plots["phase"]))
     window.panes.setCurrentWidget(pane)
     qtbot.wait(50)
-    assert window.grab().save(str(ARTIFACTS / "measured_pane.png"))
+    screenshot(window, ARTIFACTS / "measured_pane.png", regions=(pane.figures, pane.ranking, pane.deviation), labels=(pane.source_label, pane.summary))
 
 
 def test_import_is_undoable_and_saved(window, files, tmp_path):

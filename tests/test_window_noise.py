@@ -29,7 +29,7 @@ from bandsmith.solver.mna import IDEAL
 from bandsmith.analysis.noise import NoiseSettings, output_noise
 from bandsmith.files.session import load_session
 from bandsmith.common.values import format_value
-from window_helpers import ScriptedPrompter, temp_settings
+from window_helpers import ScriptedPrompter, screenshot, temp_settings
 
 pytestmark = pytest.mark.gui
 
@@ -186,7 +186,7 @@ def test_screenshots(qtbot, tmp_path, monkeypatch, tabs):
     ARTIFACTS.mkdir(exist_ok=True)
     t, pane = tabs
     qtbot.wait(50)
-    assert pane.grab().save(str(ARTIFACTS / "noise_pane.png"))
+    screenshot(pane, ARTIFACTS / "noise_pane.png", regions=(pane.canvas, pane.table), labels=(pane.integrated,))
     monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
     w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
     qtbot.addWidget(w)
@@ -197,5 +197,6 @@ def test_screenshots(qtbot, tmp_path, monkeypatch, tabs):
     w.panes.setCurrentWidget(w.noise_pane)
     qtbot.waitUntil(lambda: w.noise_pane.result is not None and w.noise_pane.picker.candidate_id == "rlc-tank")
     qtbot.wait(50)
-    assert w.grab().save(str(ARTIFACTS / "noise_pane_window.png"))
+    p = w.noise_pane
+    screenshot(w, ARTIFACTS / "noise_pane_window.png", regions=(p.canvas, p.table), labels=(p.integrated, p.winding))
     assert "Inductor L: Q at f0" in w.noise_pane.winding.text()

@@ -10,6 +10,7 @@ from bandsmith.app.window.panes.shelf_pane import SESSION_KEY, VERDICT_LOOK, She
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.bench.fitcheck import VERDICTS
 from bandsmith.bench.shelf import ARCHETYPES, OpAmp, ShelfState, load_shelf, open_shelf, save_shelf
+from window_helpers import screenshot
 
 pytestmark = pytest.mark.gui
 
@@ -212,13 +213,13 @@ def test_main_window_has_the_pane(qtbot, tmp_path, monkeypatch):
     w.shelf_pane.choose(cid, "bench amp")
     qtbot.wait(30)
     ARTIFACTS.mkdir(exist_ok=True)
-    assert w.grab().save(str(ARTIFACTS / "shelf_pane_window.png"))
+    p = w.shelf_pane
+    screenshot(w, ARTIFACTS / "shelf_pane_window.png", regions=(p.verdicts, p.plot, p.headroom_table), labels=(p.detail_title,))
 
 
 def test_screenshot_of_the_pane(pane, state, qtbot):
     pane.choose("sallen-key" if "sallen-key" in active(state) else active(state)[0], ARCHETYPES[1].name)
     qtbot.wait(30)
     ARTIFACTS.mkdir(exist_ok=True)
-    image = pane.grab()
-    assert image.save(str(ARTIFACTS / "shelf_pane.png"))
+    image = screenshot(pane, ARTIFACTS / "shelf_pane.png", regions=(pane.verdicts, pane.plot, pane.headroom_table), labels=(pane.detail_title,))
     assert image.width() == 1280

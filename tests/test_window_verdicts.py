@@ -27,7 +27,7 @@ from bandsmith.bench.fitcheck import VERDICTS, check_amp
 from bandsmith.bench.headroom import headroom
 from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target
 from bandsmith.bench.shelf import OpAmp, save_shelf
-from window_helpers import ScriptedPrompter, temp_settings
+from window_helpers import ScriptedPrompter, screenshot, temp_settings
 
 pytestmark = pytest.mark.gui
 
@@ -196,11 +196,11 @@ def test_screenshot_of_a_column_with_its_strip(qtbot, tmp_path, monkeypatch):
     qtbot.wait(50)
     ARTIFACTS.mkdir(exist_ok=True)
     col = w.board.columns[cid]
-    assert col.grab().save(str(ARTIFACTS / "verdict_strip_column.png"))
-    assert w.grab().save(str(ARTIFACTS / "verdict_strip_window.png"))
+    screenshot(col, ARTIFACTS / "verdict_strip_column.png", regions=(s, *s.rows), labels=(col.title, col.need_gbw))
+    screenshot(w, ARTIFACTS / "verdict_strip_window.png", regions=(col, s), labels=(col.title, col.need_gbw))
     w.resize(1280, 800)  # the window's own size
     qtbot.wait(50)
-    assert w.grab().save(str(ARTIFACTS / "verdict_strip_window_1280.png"))
+    screenshot(w, ARTIFACTS / "verdict_strip_window_1280.png", regions=(col,), labels=(col.title, col.need_gbw))
     for r in s.rows:  # nothing clipped: each line as tall as its wrapped text needs
         assert r.label.height() >= r.label.heightForWidth(r.label.width())
         assert r.mapTo(col, r.rect().topRight()).x() <= col.contentsRect().right()

@@ -43,3 +43,78 @@ class ScriptedPrompter(Prompter):
 def temp_settings(tmp_path) -> QtCore.QSettings:
     """A QSettings file of the test's own (the user's settings are never touched)."""
     return QtCore.QSettings(str(tmp_path / "settings.ini"), QtCore.QSettings.Format.IniFormat)
+
+
+def _pixels(image) -> "np.ndarray":
+    """The image's pixels as a (height, width) array of 32-bit ARGB values."""
+    import numpy as np
+    from PySide6 import QtGui
+
+    if isinstance(image, QtGui.QPixmap):
+        image = image.toImage()
+    image = image.convertToFormat(QtGui.QImage.Format.Format_ARGB32)
+    w, h, stride = image.width(), image.height(), image.bytesPerLine()
+    raw = np.frombuffer(image.constBits(), dtype=np.uint32, count=h * stride // 4)
+    return raw.reshape(h, stride // 4)[:, :w].copy()  # a copy: the converted image goes away
+
+
+def drawn_fraction(image, rect: QtCore.QRect | None = None) -> float:
+    """Share of the pixels in ``rect`` (all of ``image`` if None) that differ from its most common
+    colour (taken as the background): 0 for a blank region."""
+    import numpy as np
+
+    px = _pixels(image)
+    if rect is not None:
+        px = px[rect.top(): rect.bottom() + 1, rect.left(): rect.right() + 1]
+    assert px.size, f"empty region {rect}"
+    _, counts = np.unique(px, return_counts=True)
+    return 1.0 - counts.max() / px.size
+
+
+def region_of(child, parent) -> QtCore.QRect:
+    """The part of ``child`` that shows in a grab of ``parent``, in ``parent``'s coordinates: its
+    rectangle clipped by every widget between them (a scroll area's viewport, say); empty when it
+    is hidden or scrolled away."""
+    if child is not parent and not child.isVisibleTo(parent):
+        return QtCore.QRect()
+    rect, w = child.rect(), child
+    while w is not parent:
+        rect = rect.translated(w.pos())
+        w = w.parentWidget()
+        assert w is not None, f"{child!r} is not inside {parent!r}"
+        rect = rect.intersected(w.rect())
+    return rect
+
+
+def assert_text_shown(label) -> None:
+    """``label`` is on screen with its text, not elided nor cut at its right edge (one-line labels)."""
+    from PySide6 import QtGui
+
+    assert label.isVisible(), f"{label.objectName() or label!r} is hidden"
+    fmt, text = label.textFormat(), label.text()
+    if fmt == QtCore.Qt.TextFormat.RichText or (fmt == QtCore.Qt.TextFormat.AutoText and QtGui.Qt.mightBeRichText(text)):
+        text = QtGui.QTextDocumentFragment.fromHtml(text).toPlainText()
+    assert text.strip(), f"{label!r} shows no text"
+    if not label.wordWrap():
+        widest = max(label.fontMetrics().horizontalAdvance(line) for line in text.splitlines() or [text])
+        assert widest <= label.contentsRect().width(), f"{text!r} is cut: {widest} px in {label.contentsRect().width()} px"
+
+
+def screenshot(widget, path, *, regions=(), labels=(), at_least: float = 0.005):
+    """Grab ``widget``, save the picture to ``path`` (for a person to look at) and check what it shows.
+
+    The whole picture, and the part of it each widget in ``regions`` covers, must not be blank:
+    at least ``at_least`` of their pixels differ from the region's background colour (text, lines,
+    curves). Each label of ``labels`` must show its text in full. Returns the grabbed QImage.
+    """
+    image = widget.grab().toImage()
+    assert image.save(str(path)), path
+    assert drawn_fraction(image) >= at_least, f"{path}: the picture is blank"
+    for child in regions:
+        box = region_of(child, widget)
+        assert box.width() > 8 and box.height() > 8, f"{child!r} is not on screen in {path} ({box})"
+        share = drawn_fraction(image, box)
+        assert share >= at_least, f"{child!r} is blank in {path} ({share:.4f} of its pixels drawn)"
+    for label in labels:
+        assert_text_shown(label)
+    return image

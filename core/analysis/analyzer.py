@@ -60,7 +60,7 @@ class Tolerances:
 
 @dataclass(frozen=True, slots=True)
 class Requirements:
-    """What the circuit asks of its op-amp (CONTRACT.md's REQUIREMENTS)."""
+    """What the circuit asks of its op-amp (the README's REQUIREMENTS)."""
 
     gbw_hz: float | None
     gbw_reason: str | None
@@ -385,7 +385,7 @@ def requirements(
     tolerances: Tolerances = Tolerances(),
     gbw_search: tuple[float | None, str | None] | None = None,
 ) -> Requirements:
-    """The op-amp needs of a candidate (see BRIEF.md's definitions).
+    """The op-amp needs of a candidate (see the README's "Definitions").
 
     Slew for a sine of peak ``vin_v`` at f0: ``2π·f0·|gain|·vin``; for a step of height ``vin_v``:
     the largest ``|dv_out/dt|`` of the step response (``step_slope_per_s``: its largest ``|slope|``

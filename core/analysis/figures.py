@@ -1,4 +1,4 @@
-"""Response figures measured on the computed response (BRIEF.md's shared definitions).
+"""Response figures measured on the computed response (the README's "Definitions").
 
 f0 is the frequency of the magnitude peak; f_low and f_high are the −3 dB points relative to the
 peak; the bandwidth is their difference; Q = f0/bandwidth; the centre gain is |H(f0)| with the sign
@@ -64,7 +64,7 @@ class Figures:
         return Figures(*out)
 
     def to_json(self, i: int = 0) -> dict:
-        """CONTRACT.md's FIGURES object for member ``i`` (None where a figure is undefined)."""
+        """The README's FIGURES object for member ``i`` (None where a figure is undefined)."""
         out = {}
         for f in fields(self):
             v = float(np.asarray(getattr(self, f.name)).reshape(-1)[i])

@@ -282,7 +282,7 @@ class NoiseResult:
     snr_db: float
 
     def to_json(self) -> dict:
-        """CONTRACT's noise object (issue 5), with a few keys more."""
+        """The README's noise object (``bandsmith noise``), with a few keys more."""
 
         def f(x):
             return float(x) if math.isfinite(x) else None

@@ -140,7 +140,7 @@ class Diagnosis:
         ``matches``; the all-parts fit for ``several``).
     notes : tuple of str
     design_figures, fitted_figures : dict
-        FIGURES (CONTRACT.md) of the model with the design and with the fitted values.
+        FIGURES (README, ``bandsmith analyze``) of the model with the design and with the fitted values.
     """
 
     topology_id: str
@@ -174,7 +174,7 @@ class Diagnosis:
         return out
 
     def to_json(self) -> dict:
-        """CONTRACT's FIT object (see ``bandsmith fit``)."""
+        """The README's FIT object (see ``bandsmith fit``)."""
 
         def f(x):
             return float(x) if math.isfinite(x) else None

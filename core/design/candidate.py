@@ -1,7 +1,7 @@
 """A candidate design: a circuit, its part values and the conditions it is analysed under.
 
 This is the unit the command line, sessions and the window share: typed text in, a validated
-candidate, an :class:`~bandsmith.analysis.analyzer.Analysis` out, and CONTRACT.md's JSON for it.
+candidate, an :class:`~bandsmith.analysis.analyzer.Analysis` out, and the README's JSON for it.
 """
 
 from __future__ import annotations
@@ -120,7 +120,7 @@ def parse_parts(topology: Topology, assignments: Mapping[str, str | float]) -> d
 
 
 def analysis_json(candidate: Candidate, analysis: Analysis) -> dict:
-    """CONTRACT.md's ANALYZE object."""
+    """The README's ANALYZE object."""
     body = analysis.to_json()
     return {
         "topology": candidate.topology_id,

@@ -1,4 +1,4 @@
-"""Every circuit designed for one target, side by side (CONTRACT.md's ``compare``)."""
+"""Every circuit designed for one target, side by side (the README's ``bandsmith compare``)."""
 
 from __future__ import annotations
 
@@ -43,6 +43,6 @@ def candidate_json(result: DesignResult) -> dict:
 
 
 def compare_json(spec: Spec, results: Sequence[DesignResult]) -> dict:
-    """CONTRACT.md's compare object: ``{"spec": …, "candidates": [DESIGN + spread, …]}``."""
+    """The README's compare object: ``{"spec": …, "candidates": [DESIGN + spread, …]}``."""
     series = results[0].series if results else None
     return {"spec": spec.to_json(), "series": series, "candidates": [candidate_json(r) for r in results]}

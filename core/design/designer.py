@@ -495,7 +495,7 @@ def _errors_actual(result: DesignResult) -> dict | None:
 
 
 def design_json(result: DesignResult) -> dict:
-    """CONTRACT.md's DESIGN object (plus ``warnings``, ``notes``, ``fixed``, ``search``, ...)."""
+    """The README's DESIGN object (plus ``warnings``, ``notes``, ``fixed``, ``search``, ...)."""
     a = result.analysis
     body = a.to_json() if a is not None else {"netlist": None, "ideal": None, "actual": None, "opamp": None, "requirements": None, "sensitivity": None}
     s = result.search

@@ -62,7 +62,7 @@ class Element:
             raise InputError(self.ref, "series resistance must be a finite number of zero or more")
 
     def to_json(self) -> dict:
-        """The element as CONTRACT.md's NETLIST entry."""
+        """The element as the README's NETLIST entry."""
         out = {"ref": self.ref, "kind": self.kind, "nodes": list(self.nodes)}
         if self.kind != "opamp":
             out["value"] = float(self.value)
@@ -148,7 +148,7 @@ class Netlist:
         return Netlist(self.elements + extra, self.ground, self.input, self.output)
 
     def to_json(self) -> dict:
-        """The netlist as CONTRACT.md's NETLIST object."""
+        """The netlist as the README's NETLIST object."""
         return {
             "ground": self.ground,
             "input": self.input,

@@ -322,7 +322,7 @@ class Spread:
         return stats(getattr(self, name)[self.measured])
 
     def to_json(self) -> dict:
-        """CONTRACT's tolerance object (issue 5), with a few keys more."""
+        """The README's tolerance object (``bandsmith tolerance``), with a few keys more."""
         s = self.settings
         return {
             "trials": int(s.trials),

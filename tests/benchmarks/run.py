@@ -1,7 +1,7 @@
 """Benchmark: each job's median time divided by one reference call measured in the same run.
 
 Run ``python tests/benchmarks/run.py``; the last line of output is one JSON object
-``{"reference_s": …, "ratios": {JOB: …}, "absolute": {KEY: …}}`` (CONTRACT.md). The reference is
+``{"reference_s": …, "ratios": {JOB: …}, "absolute": {KEY: …}}`` (the README's "Benchmark"). The reference is
 ``scipy.signal.freqs`` on a second-order band-pass at 1000 frequencies. A job whose module is not
 there yet is simply absent. Not collected by pytest (no ``test_`` prefix).
 """
