@@ -53,7 +53,7 @@ def test_the_section_shows_request_figures_stages_and_parts(session):
     # The deviation from the ideal response is the core's, as measured from the saved parts.
     from bandsmith.chain.cascade import chains_in
 
-    from bandsmith.app.window.panes.chain_pane import chain_conditions
+    from bandsmith.app.document.extras_chains import chain_conditions
 
     (chain,) = chains_in(session)
     result = chain_cascade(chain, conditions=chain_conditions(session))

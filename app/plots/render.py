@@ -19,6 +19,7 @@ from PySide6 import QtCore, QtGui, QtWidgets
 from bandsmith.common.values import format_value
 
 from bandsmith.app.plots.curves import Curve, PlotData
+from bandsmith.app.plots.palette import INK, candidate_style
 
 __all__ = [
     "ensure_qt_app",
@@ -32,7 +33,6 @@ __all__ = [
     "INK",
 ]
 
-INK = "#202124"  # text and axes
 _GRID_ALPHA = 0.25
 
 
@@ -47,13 +47,6 @@ def ensure_qt_app() -> QtWidgets.QApplication:
         if not (os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY")):
             os.environ["QT_QPA_PLATFORM"] = "offscreen"
     return QtWidgets.QApplication(sys.argv[:1] or ["bandsmith"])
-
-
-def _style(index: int):
-    """The candidate's style from the window's theme (one look everywhere)."""
-    from bandsmith.app.window.theme import candidate_style
-
-    return candidate_style(index)
 
 
 class FrequencyAxis(pg.AxisItem):
@@ -79,7 +72,7 @@ def _tick_hz(f: float) -> str:
 
 
 def _pen(index: int, width: float):
-    st = _style(index)
+    st = candidate_style(index)
     return pg.mkPen(QtGui.QColor(st.colour), width=width, style=st.pen_style)
 
 

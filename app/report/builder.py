@@ -41,7 +41,7 @@ from bandsmith.analysis.figures import Figures
 from bandsmith.files.session import CandidateEntry, Session, load_session
 from bandsmith.common.values import format_rkm, format_value
 
-from bandsmith.app.window.exporting import write_atomic
+from bandsmith.files.exports import write_atomic
 
 __all__ = [
     "CandidateReport",

@@ -31,8 +31,8 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_rkm, format_value
 
-from bandsmith.app.window.panes.chain_pane import EXTRAS_KEY, chain_conditions, saved_chains
-from bandsmith.app.window.widgets.chain_plots import ChainPlots, response_title
+from bandsmith.app.document.extras_chains import EXTRAS_KEY, chain_conditions, saved_chains
+from bandsmith.app.plots.chain_plots import ChainPlots, response_title
 from bandsmith.app.report.builder import ReportContext, _gbw_cell, _signed, _slew, _table, register_section
 
 __all__ = ["section_chains", "chain_plot_png", "PLOT_ASPECT"]

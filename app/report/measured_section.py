@@ -109,7 +109,7 @@ def measured_plot_pngs(m: Measurement, c: CandidateReport, fitted_values=None, *
     from bandsmith.app.plots.curves import Curve, PlotData
     from bandsmith.app.plots.render import build_plot_widget, ensure_qt_app, image_png, paint_widget
 
-    from bandsmith.app.window.theme import candidate_style
+    from bandsmith.app.plots.palette import candidate_style
 
     def candidate_colour(index: int) -> str:
         return candidate_style(index).colour

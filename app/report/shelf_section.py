@@ -24,7 +24,7 @@ from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, fit_check
 from bandsmith.common.values import format_value
 
 from bandsmith.app.report.builder import ReportContext, register_section
-from bandsmith.app.window.verdicts import SESSION_KEY, session_amps, session_supply_v
+from bandsmith.app.document.extras_shelf import SESSION_KEY, session_amps, session_supply_v
 
 __all__ = ["section_shelf"]
 

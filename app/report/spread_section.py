@@ -261,8 +261,8 @@ def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 27
     ensure_qt_app()
     from PySide6 import QtWidgets
 
-    from bandsmith.app.window.panes.spread_pane import FigureHistogram, window_of
-    from bandsmith.app.window.theme import apply_plot_theme, candidate_style
+    from bandsmith.app.plots.histogram import HISTOGRAM_FIGURES, FigureHistogram, window_of
+    from bandsmith.app.plots.palette import apply_plot_theme, candidate_style
 
     apply_plot_theme()
     box = QtWidgets.QWidget()
@@ -272,7 +272,7 @@ def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 27
     lay.setSpacing(4)
     nom = sp.nominal.item()
     colour = candidate_style(index).colour
-    for key, title, unit in (("f0_hz", "f0", "Hz"), ("q", "Q", ""), ("gain_center_db", "Centre gain", "dB")):
+    for key, title, unit in HISTOGRAM_FIGURES:
         h = FigureHistogram(key, title, unit, box)
         n0 = float(getattr(nom, key))
         h.show_data(getattr(sp, key)[sp.measured], n0, window_of(sp.settings, key, n0), getattr(sp.worst, key), colour)
@@ -287,8 +287,8 @@ def noise_density_png(items: Sequence[tuple[str, int, NoiseResult]], *, width: i
     ensure_qt_app()
     import pyqtgraph as pg
 
-    from bandsmith.app.window.widgets.plots import LogAxis
-    from bandsmith.app.window.theme import apply_plot_theme, candidate_style
+    from bandsmith.app.plots.axes import LogAxis
+    from bandsmith.app.plots.palette import apply_plot_theme, candidate_style
 
     apply_plot_theme()
     item = pg.PlotItem(axisItems={"bottom": FrequencyAxis("bottom"), "left": LogAxis("left")})

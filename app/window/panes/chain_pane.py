@@ -46,44 +46,19 @@ from bandsmith.chain.prototypes import DEFAULT_RIPPLE_DB
 from bandsmith.files.session import Session
 from bandsmith.common.values import format_value, parse_positive
 
+from bandsmith.app.document.extras_chains import EXTRAS_KEY, chain_conditions, saved_chains
 from bandsmith.app.window.background import BackgroundJob
-from bandsmith.app.window.widgets.chain_plots import ChainPlots, response_title
+from bandsmith.app.plots.chain_plots import ChainPlots, response_title
 from bandsmith.app.window.theme import BAD, GOOD, MUTED, WARN, candidate_style, error_label
 from bandsmith.app.window.widgets.value_field import ValueField
 
 __all__ = ["EXTRAS_KEY", "ChainPane", "chain_conditions", "saved_chains", "install"]
 
-EXTRAS_KEY = "chains"
 _NETLIST_FILTER = "SPICE netlist (*.cir *.sp *.net)"
 _CSV_FILTER = "CSV table (*.csv)"
 
 
 # --------------------------------------------------------------------------- helpers (no widgets)
-
-
-def chain_conditions(session: Session) -> Conditions:
-    """What a chain is analysed under: the session's op-amp, input level, load and tolerances."""
-    return Conditions(
-        gbw_hz=session.opamp.gbw_hz,
-        a0=session.opamp.a0,
-        vin_v=session.target.vin_v,
-        rload_ohm=session.rload_ohm,
-        tolerances=session.tolerances,
-    )
-
-
-def saved_chains(session: Session) -> tuple[list[Chain], list[str]]:
-    """The usable chains of a session and, in words, any entry that could not be read."""
-    raw = session.extras.get(EXTRAS_KEY, [])
-    if not isinstance(raw, list):
-        return [], [f"the session's {EXTRAS_KEY!r} section is not a list and was left alone"]
-    chains, problems = [], []
-    for i, obj in enumerate(raw):
-        try:
-            chains.append(Chain.from_json(obj))
-        except InputError as exc:
-            problems.append(f"chain {i + 1} of the session cannot be read ({exc}) and is left as it is")
-    return chains, problems
 
 
 def _chain_key(chain: Chain) -> str:

@@ -26,7 +26,6 @@ from dataclasses import dataclass, replace
 from typing import Callable
 
 import numpy as np
-import pyqtgraph as pg
 from PySide6 import QtCore, QtGui, QtWidgets
 
 from bandsmith.design.candidate import Candidate
@@ -49,8 +48,9 @@ from bandsmith.common.values import format_value, parse_fraction, parse_value
 from bandsmith.app.window.background import BackgroundJob, Cancelled
 from bandsmith.app.document.extras_settings import SPREAD_KEY, circuit_refs, spread_for_circuit, stored_spread
 from bandsmith.app.document.results import frequency_grid
+from bandsmith.app.plots.histogram import HISTOGRAM_FIGURES, FigureHistogram, window_of
 from bandsmith.app.window.state import WorkbenchState, part_unit
-from bandsmith.app.window.theme import BAD, INK, MUTED, WARN, error_label, headline
+from bandsmith.app.window.theme import BAD, MUTED, WARN, error_label, headline
 from bandsmith.app.window.widgets.value_field import ValueField
 
 __all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "FigureHistogram", "window_of", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
@@ -59,13 +59,6 @@ __all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "FigureHistogram", "win
 ENVELOPE_KEY = "spread"
 #: Trials the magnitude envelope is taken over (the first ones of the run).
 ENVELOPE_TRIALS = 2000
-_BINS = 48
-# A histogram shows all of the yield window unless it is this many times wider than the trials.
-_ZOOM_RATIO = 6.0
-_WINDOW_BRUSH = (46, 139, 87, 40)
-_WORST_PEN = pg.mkPen(BAD, width=1.2, style=QtCore.Qt.PenStyle.DotLine)
-_NOMINAL_PEN = pg.mkPen(INK, width=1.5)
-_FIGURES = (("f0_hz", "f0", "Hz"), ("q", "Q", ""), ("gain_center_db", "Centre gain", "dB"))
 _DIST_TEXT = {"uniform": "uniform, ±p", "normal": "normal, p = 3σ"}
 
 
@@ -171,92 +164,6 @@ def _whole_number(text: str, field: str, *, low: int, high: int) -> int:
     if not low <= v <= high:
         raise InputError(field, f"must be from {low} to {_count(high)}")
     return int(v)
-
-
-def window_of(settings: SpreadSettings, key: str, nominal: float) -> tuple[float, float]:
-    """The yield window of one figure (``f0_hz``, ``q``, ``gain_center_db``) around its nominal."""
-    if key == "gain_center_db":
-        return nominal - settings.window_gain_db, nominal + settings.window_gain_db
-    w = settings.window_f0 if key == "f0_hz" else settings.window_q
-    return nominal * (1.0 - w), nominal * (1.0 + w)
-
-
-class FigureHistogram(pg.PlotWidget):
-    """One figure's histogram: trials per bin, the yield window shaded, nominal and worst case."""
-
-    def __init__(self, key: str, title: str, unit: str, parent=None):
-        super().__init__(parent, background="w")
-        self.key = key
-        self.title = title
-        self.setObjectName(f"hist_{key}")
-        item = self.getPlotItem()
-        item.setMenuEnabled(False)
-        item.setContentsMargins(2, 2, 14, 2)  # room for the last tick label on the right
-        item.setMouseEnabled(x=False, y=False)
-        item.hideButtons()
-        item.setTitle(title, color=INK, size="10pt")
-        item.showGrid(x=True, y=True, alpha=0.2)
-        if unit == "Hz":
-            item.setLabel("bottom", title, units="Hz", color=INK)
-        else:
-            item.getAxis("bottom").enableAutoSIPrefix(False)
-            item.setLabel("bottom", f"{title} ({unit})" if unit else title, color=INK)
-        item.getAxis("left").enableAutoSIPrefix(False)
-        item.setLabel("left", "trials", color=INK)
-        self.window = pg.LinearRegionItem(values=(0, 1), movable=False, brush=pg.mkBrush(*_WINDOW_BRUSH), pen=pg.mkPen((46, 139, 87, 160), width=1))
-        self.window.setZValue(-10)
-        item.addItem(self.window)
-        self.bars = pg.PlotDataItem([0, 1], [0], stepMode="center", fillLevel=0, pen=pg.mkPen("#1b5e9e", width=1.2), brush=pg.mkBrush(27, 94, 158, 90))
-        item.addItem(self.bars)
-        self.nominal = pg.InfiniteLine(angle=90, pen=_NOMINAL_PEN)
-        self.worst_lo = pg.InfiniteLine(angle=90, pen=_WORST_PEN)
-        self.worst_hi = pg.InfiniteLine(angle=90, pen=_WORST_PEN)
-        for line in (self.nominal, self.worst_lo, self.worst_hi):
-            item.addItem(line, ignoreBounds=True)
-        self.counts = np.zeros(0)
-        self.edges = np.zeros(0)
-        self.setMinimumSize(200, 170)
-        self.clear_data()
-
-    def clear_data(self) -> None:
-        self.counts, self.edges = np.zeros(0), np.zeros(0)
-        self.bars.setData([0.0, 1.0], [0.0])
-        for it in (self.window, self.nominal, self.worst_lo, self.worst_hi, self.bars):
-            it.setVisible(False)
-
-    def show_data(self, values: np.ndarray, nominal: float, window: tuple[float, float], worst: tuple[float, float], colour: str) -> None:
-        v = values[np.isfinite(values)]
-        if v.size == 0:
-            self.clear_data()
-            return
-        core = [m for m in (*worst, nominal) if math.isfinite(m)]
-        lo, hi = float(min(v.min(), *core)), float(max(v.max(), *core))
-        span = hi - lo
-        wide = span > 0 and (window[1] - window[0]) > _ZOOM_RATIO * span
-        if not wide:  # the window fits: show all of it
-            lo, hi = min(lo, window[0]), max(hi, window[1])
-        self.getPlotItem().setTitle(self.title + (" (window is wider)" if wide else ""), color=INK, size="10pt")
-        pad = 0.04 * (hi - lo) if hi > lo else max(abs(lo) * 1e-3, 1e-12)
-        lo, hi = lo - pad, hi + pad
-        counts, edges = np.histogram(v, bins=_BINS, range=(float(v.min()), float(v.max())) if v.max() > v.min() else None)
-        self.counts, self.edges = counts, edges
-        c = QtGui.QColor(colour)
-        fill = QtGui.QColor(colour)
-        fill.setAlpha(95)
-        self.bars.setData(edges, counts, stepMode="center", fillLevel=0)
-        self.bars.setPen(pg.mkPen(c, width=1.2))
-        self.bars.setBrush(pg.mkBrush(fill))
-        self.window.setRegion(window)
-        self.nominal.setValue(nominal)
-        self.worst_lo.setValue(worst[0])
-        self.worst_hi.setValue(worst[1])
-        self.worst_lo.setVisible(math.isfinite(worst[0]))
-        self.worst_hi.setVisible(math.isfinite(worst[1]))
-        for it in (self.window, self.nominal, self.bars):
-            it.setVisible(True)
-        item = self.getPlotItem()
-        item.setXRange(lo, hi, padding=0)
-        item.setYRange(0, max(1, int(counts.max())) * 1.08, padding=0)
 
 
 def _table(rows: int, cols: int, parent, name: str) -> QtWidgets.QTableWidget:
@@ -496,7 +403,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.hist_grid = QtWidgets.QGridLayout()
         self.hist_grid.setSpacing(6)
         outer.addLayout(self.hist_grid)
-        self.histograms = {key: FigureHistogram(key, title, unit, body) for key, title, unit in _FIGURES}
+        self.histograms = {key: FigureHistogram(key, title, unit, body) for key, title, unit in HISTOGRAM_FIGURES}
         self._hist_columns = 0
         self._reflow_histograms(3)
         key_line = QtWidgets.QLabel(
@@ -526,7 +433,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         scol.addWidget(t)
         self._stat_rows = ("nominal", "mean", "std", "min", "p5", "p50", "p95", "max", "worst low", "worst high")
         self.stats = _table(len(self._stat_rows), 3, body, "spreadStats")
-        self.stats.setHorizontalHeaderLabels([title for _k, title, _u in _FIGURES])
+        self.stats.setHorizontalHeaderLabels([title for _k, title, _u in HISTOGRAM_FIGURES])
         self.stats.setVerticalHeaderLabels(["nominal", "mean", "std. dev.", "min", "p5", "median", "p95", "max", "worst case low", "worst case high"])
         self.stats.horizontalHeader().setSectionResizeMode(QtWidgets.QHeaderView.ResizeMode.Stretch)
         scol.addWidget(self.stats)
@@ -844,7 +751,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         )
         nom = sp.nominal.item()
         colour = self.state.style(run.candidate_id).colour
-        for key, _title, _unit in _FIGURES:
+        for key, _title, _unit in HISTOGRAM_FIGURES:
             x = getattr(sp, key)[sp.measured]
             n0 = float(getattr(nom, key))
             self.histograms[key].show_data(x, n0, window_of(s, key, n0), getattr(sp.worst, key), colour)
@@ -854,7 +761,7 @@ class SpreadPane(QtWidgets.QScrollArea):
 
     def _fill_stats(self, sp: Spread) -> None:
         nom = sp.nominal.item()
-        for j, (key, _title, _unit) in enumerate(_FIGURES):
+        for j, (key, _title, _unit) in enumerate(HISTOGRAM_FIGURES):
             st = sp.stats(key)
             lo, hi = getattr(sp.worst, key)
             vals = [float(getattr(nom, key)), st["mean"], st["std"], st["min"], st["p5"], st["p50"], st["p95"], st["max"], lo, hi]
