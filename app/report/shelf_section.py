@@ -23,7 +23,8 @@ from bandsmith.design.candidate import Candidate
 from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, fit_check
 from bandsmith.common.values import format_value
 
-from bandsmith.app.report.builder import ReportContext, register_section
+from bandsmith.app.report.context import ReportContext
+from bandsmith.app.report.sections import register_section
 from bandsmith.app.document.extras_shelf import SESSION_KEY, session_amps, session_supply_v
 
 __all__ = ["section_shelf"]
