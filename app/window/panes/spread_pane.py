@@ -272,10 +272,29 @@ class SpreadPane(QtWidgets.QScrollArea):
         outer.setContentsMargins(10, 8, 10, 10)
         outer.setSpacing(6)
 
-        # -- candidate and run --------------------------------------------------------------
+        self._build_run_bar(body, outer)
+        self.settings_row = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.LeftToRight)
+        self.settings_row.setSpacing(12)
+        outer.addLayout(self.settings_row)
+        self.settings_row.addWidget(self._build_settings_box(body), 0)
+        self.settings_row.addWidget(self._build_parts_box(body), 1)
+        self._build_yield(body, outer)
+        self._build_histograms(body, outer)
+        self._build_tables(body, outer)
+        outer.addStretch(1)
+        for tbl in (self.stats, self.corners):
+            _fit_height(tbl)
+
+        state.session_changed.connect(self._on_session_changed)
+        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
+        self._on_session_changed(state.session)
+
+    # ------------------------------------------------------------------ building
+    def _build_run_bar(self, body: QtWidgets.QWidget, outer: QtWidgets.QVBoxLayout) -> None:
+        """The candidate, Run and what the last run was; the inductor's winding line."""
         bar = QtWidgets.QHBoxLayout()
         bar.addWidget(QtWidgets.QLabel("Candidate", body))
-        self.picker = CandidatePicker(state, body)
+        self.picker = CandidatePicker(self.state, body)
         bar.addWidget(self.picker)
         self.run_button = QtWidgets.QPushButton("Run", body)
         self.run_button.setObjectName("runSpread")
@@ -299,10 +318,12 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.winding.hide()
         outer.addWidget(self.winding)
 
-        # -- settings -----------------------------------------------------------------------
-        self.settings_row = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.LeftToRight)
-        self.settings_row.setSpacing(12)
-        outer.addLayout(self.settings_row)
+    def _frac_field(self, box: QtWidgets.QWidget, name: str, tip: str, check: Callable[[float], SpreadSettings]) -> ValueField:
+        """A fraction field ("1%", "0.01") whose entry is checked by building the settings it makes."""
+        return ValueField(name, "%", parse=lambda t: self._checked(check, parse_fraction(t, field=name)), fmt=lambda v: "" if v is None else _percent(v), tooltip=tip, parent=box)
+
+    def _build_settings_box(self, body: QtWidgets.QWidget) -> QtWidgets.QGroupBox:
+        """Tolerances per kind, the GBW spread, the distribution, trials, seed and the yield window."""
         box = QtWidgets.QGroupBox("Tolerances and trials", body)
         box.setObjectName("spreadSettings")
         grid = QtWidgets.QGridLayout(box)
@@ -310,14 +331,11 @@ class SpreadPane(QtWidgets.QScrollArea):
         grid.setVerticalSpacing(3)
         self.fields: dict[str, ValueField] = {}
 
-        def frac_field(name: str, tip: str, check: Callable[[float], SpreadSettings]):
-            return ValueField(name, "%", parse=lambda t: self._checked(check, parse_fraction(t, field=name)), fmt=lambda v: "" if v is None else _percent(v), tooltip=tip, parent=box)
-
         specs = [
-            ("R", "Resistors ±", frac_field("tol_R", "Tolerance of every resistor (and a winding resistance): 1%, 0.5 %, 0.01.", lambda v: self._with_kind("R", v))),
-            ("C", "Capacitors ±", frac_field("tol_C", "Tolerance of every capacitor: 5%, 2 %, 0.05.", lambda v: self._with_kind("C", v))),
-            ("L", "Inductors ±", frac_field("tol_L", "Tolerance of every inductor: 10%, 0.1.", lambda v: self._with_kind("L", v))),
-            ("gbw_tol", "Op-amp GBW ±", frac_field("gbw_tol", "Spread of the op-amp's gain-bandwidth: 20%, 0.2 (needs a finite op-amp).", lambda v: replace(self.settings, gbw_tol=v))),
+            ("R", "Resistors ±", self._frac_field(box, "tol_R", "Tolerance of every resistor (and a winding resistance): 1%, 0.5 %, 0.01.", lambda v: self._with_kind("R", v))),
+            ("C", "Capacitors ±", self._frac_field(box, "tol_C", "Tolerance of every capacitor: 5%, 2 %, 0.05.", lambda v: self._with_kind("C", v))),
+            ("L", "Inductors ±", self._frac_field(box, "tol_L", "Tolerance of every inductor: 10%, 0.1.", lambda v: self._with_kind("L", v))),
+            ("gbw_tol", "Op-amp GBW ±", self._frac_field(box, "gbw_tol", "Spread of the op-amp's gain-bandwidth: 20%, 0.2 (needs a finite op-amp).", lambda v: replace(self.settings, gbw_tol=v))),
         ]
         for i, (key, label, fld) in enumerate(specs):
             grid.addWidget(QtWidgets.QLabel(label, box), i, 0)
@@ -343,11 +361,21 @@ class SpreadPane(QtWidgets.QScrollArea):
         grid.addWidget(self.fields["trials"], 1, 3)
         grid.addWidget(QtWidgets.QLabel("Seed", box), 2, 2)
         grid.addWidget(self.fields["seed"], 2, 3)
+        self._build_window_rows(box, grid)
+        for fld in self.fields.values():
+            fld.edit.setMaximumWidth(110)
+        for key, fld in self.fields.items():
+            fld.committed.connect(lambda v, k=key: self._on_field(k, v))
+        grid.setColumnStretch(4, 1)
+        return box
+
+    def _build_window_rows(self, box: QtWidgets.QGroupBox, grid: QtWidgets.QGridLayout) -> None:
+        """The yield window: f0 and Q within ± a fraction, the centre gain within ± some dB."""
         win = QtWidgets.QLabel("Yield window around nominal", box)
         win.setObjectName("sectionTitle")
         grid.addWidget(win, 4, 0, 1, 4)
-        self.fields["window_f0"] = frac_field("window_f0", "A trial passes when its f0 is within ± this of nominal: 5%, 0.05.", lambda v: replace(self.settings, window_f0=v))
-        self.fields["window_q"] = frac_field("window_q", "… its Q within ± this of nominal: 10%, 0.1.", lambda v: replace(self.settings, window_q=v))
+        self.fields["window_f0"] = self._frac_field(box, "window_f0", "A trial passes when its f0 is within ± this of nominal: 5%, 0.05.", lambda v: replace(self.settings, window_f0=v))
+        self.fields["window_q"] = self._frac_field(box, "window_q", "… its Q within ± this of nominal: 10%, 0.1.", lambda v: replace(self.settings, window_q=v))
         self.fields["window_gain_db"] = ValueField(
             "window_gain_db", "dB", parse=lambda t: self._checked(lambda v: replace(self.settings, window_gain_db=v), parse_value(t.replace("dB", ""), field="window_gain_db")),
             fmt=lambda v: "" if v is None else f"{v:g} dB", tooltip="… and its centre gain within ± this many dB of nominal: 1, 0.5 dB.", parent=box,
@@ -358,13 +386,9 @@ class SpreadPane(QtWidgets.QScrollArea):
         grid.addWidget(self.fields["window_q"], 5, 3)
         grid.addWidget(QtWidgets.QLabel("Gain ±", box), 6, 0)
         grid.addWidget(self.fields["window_gain_db"], 6, 1)
-        for fld in self.fields.values():
-            fld.edit.setMaximumWidth(110)
-        for key, fld in self.fields.items():
-            fld.committed.connect(lambda v, k=key: self._on_field(k, v))
-        grid.setColumnStretch(4, 1)
-        self.settings_row.addWidget(box, 0)
 
+    def _build_parts_box(self, body: QtWidgets.QWidget) -> QtWidgets.QGroupBox:
+        """The table of per-part tolerances."""
         parts_box = QtWidgets.QGroupBox("Per-part tolerance (blank: its kind's)", body)
         pl = QtWidgets.QVBoxLayout(parts_box)
         self.parts = QtWidgets.QTableWidget(0, 3, parts_box)
@@ -378,9 +402,10 @@ class SpreadPane(QtWidgets.QScrollArea):
         pl.addWidget(self.parts)
         self.parts_error = error_label(parts_box)
         pl.addWidget(self.parts_error)
-        self.settings_row.addWidget(parts_box, 1)
+        return parts_box
 
-        # -- yield --------------------------------------------------------------------------
+    def _build_yield(self, body: QtWidgets.QWidget, outer: QtWidgets.QVBoxLayout) -> None:
+        """The stale warning, the error line and the yield in large type."""
         self.stale = QtWidgets.QLabel(body)
         self.stale.setObjectName("spreadStale")
         self.stale.setWordWrap(True)
@@ -399,7 +424,8 @@ class SpreadPane(QtWidgets.QScrollArea):
         yrow.addWidget(self.yield_text, 1)
         outer.addLayout(yrow)
 
-        # -- histograms ---------------------------------------------------------------------
+    def _build_histograms(self, body: QtWidgets.QWidget, outer: QtWidgets.QVBoxLayout) -> None:
+        """The three histograms, their key and the envelope switch."""
         self.hist_grid = QtWidgets.QGridLayout()
         self.hist_grid.setSpacing(6)
         outer.addLayout(self.hist_grid)
@@ -423,7 +449,8 @@ class SpreadPane(QtWidgets.QScrollArea):
         env_row.addStretch(1)
         outer.addLayout(env_row)
 
-        # -- statistics and worst case ------------------------------------------------------
+    def _build_tables(self, body: QtWidgets.QWidget, outer: QtWidgets.QVBoxLayout) -> None:
+        """The statistics of the trials and the worst-case corners."""
         self.tables_row = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.LeftToRight)
         self.tables_row.setSpacing(12)
         outer.addLayout(self.tables_row)
@@ -456,13 +483,6 @@ class SpreadPane(QtWidgets.QScrollArea):
         wcol.addWidget(self.worst_note)
         wcol.addStretch(1)
         self.tables_row.addLayout(wcol, 1)
-        outer.addStretch(1)
-        for tbl in (self.stats, self.corners):
-            _fit_height(tbl)
-
-        state.session_changed.connect(self._on_session_changed)
-        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
-        self._on_session_changed(state.session)
 
     # ------------------------------------------------------------------ settings
     @property
