@@ -16,6 +16,10 @@ A run goes off the GUI thread (:class:`~bandsmith.app.window.background.Backgrou
 bar and Cancel). It also computes the p5–p95 magnitude envelope of the first trials, shaded on the
 Responses tab's magnitude plot for the candidate while the result is fresh. Results are not saved:
 a run takes well under a second for ten thousand trials.
+
+The module is longer than most because it also holds the candidate chooser and the circuit reading
+the noise pane shares (:class:`CandidatePicker`, :func:`candidate_circuit`, :func:`winding_text`);
+the histograms are :mod:`bandsmith.app.plots.histogram`'s, and every function stays short.
 """
 
 from __future__ import annotations
