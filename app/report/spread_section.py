@@ -278,12 +278,12 @@ def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 27
 
 def noise_density_png(items: Sequence[tuple[str, int, NoiseResult]], *, width: int = 900, height: int = 340) -> bytes:
     """PNG of the output noise density (V/√Hz, log-log) of several candidates ``(label, index, result)``."""
-    from bandsmith.app.plots.render import INK, FrequencyAxis, PlotImageWidget, ensure_qt_app
+    from bandsmith.app.plots.axes import FrequencyAxis, LogAxis
+    from bandsmith.app.plots.render import INK, PlotImageWidget, ensure_qt_app
 
     ensure_qt_app()
     import pyqtgraph as pg
 
-    from bandsmith.app.plots.axes import LogAxis
     from bandsmith.app.plots.palette import apply_plot_theme, candidate_style
 
     apply_plot_theme()
