@@ -173,15 +173,16 @@ def test_switched_off_candidate_is_listed_but_not_plotted(qapp):
 
 def test_sections_can_be_added_before_the_cautions(qapp, monkeypatch):
     from bandsmith.app.report import builder as report
+    from bandsmith.app.report import sections
 
-    monkeypatch.setattr(report, "SECTIONS", list(report.SECTIONS))
+    monkeypatch.setattr(sections, "SECTIONS", list(sections.SECTIONS))
     report.register_section("later-feature", lambda ctx: "<h2>A later feature</h2><p>later</p>")
-    names = [n for n, _ in report.SECTIONS]
+    names = [n for n, _ in sections.SECTIONS]
     assert names.index("later-feature") == names.index("cautions") - 1 == len(names) - 2
     page = report.build_report_html(_built_session(), images=False)
     assert page.index(">Notes<") < page.index("Achieved figures") < page.index("A later feature") < page.index(">Cautions<")
     report.register_section("later-feature", lambda ctx: "")  # replacing keeps one entry
-    assert [n for n, _ in report.SECTIONS].count("later-feature") == 1
+    assert [n for n, _ in sections.SECTIONS].count("later-feature") == 1
 
 
 # --------------------------------------------------------------------------- PDF

@@ -51,7 +51,7 @@ def test_the_section_shows_request_figures_stages_and_parts(session):
     # The deviation from the ideal response is the core's, as measured from the saved parts.
     from bandsmith.chain.cascade import chains_in
 
-    from bandsmith.app.window.panes.chain_pane import chain_conditions
+    from bandsmith.app.document.extras_chains import chain_conditions
 
     (chain,) = chains_in(session)
     result = chain_cascade(chain, conditions=chain_conditions(session))
@@ -95,3 +95,24 @@ def test_bandsmith_report_headless_includes_the_chain(session, tmp_path):
     assert proc.returncode == 0, proc.stderr
     html = out.read_text(encoding="utf-8")
     assert 'id="chain-band-a"' in html and 'id="plot-chain-band-a"' in html
+
+
+def test_the_chains_a_session_keeps_are_read_without_qt(session):
+    """The chains and the shelf a session keeps are read by Qt-free modules (app/document), so the
+    headless report and the window agree on them; checked in a fresh interpreter."""
+    code = (
+        "import sys\n"
+        "import bandsmith.app.document.extras_chains as c, bandsmith.app.document.extras_shelf as s\n"
+        "assert not [m for m in sys.modules if m.startswith(('PySide6', 'pyqtgraph'))], 'Qt was imported'\n"
+    )
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    assert proc.returncode == 0, proc.stderr
+    from bandsmith.app.document.extras_chains import saved_chains
+
+    chains, problems = saved_chains(session)
+    assert [c.id for c in chains] == ["band-a"] and problems == []
+    bad = replace(session, extras={"chains": session.extras["chains"] + ["not a chain"]})
+    chains, problems = saved_chains(bad)
+    assert [c.id for c in chains] == ["band-a"] and len(problems) == 1 and "chain 2" in problems[0]
+    chains, problems = saved_chains(replace(session, extras={"chains": {"id": "x"}}))
+    assert chains == [] and "is not a list" in problems[0]

@@ -16,9 +16,9 @@ from typing import Sequence
 import pyqtgraph as pg
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from bandsmith.common.values import format_value
-
+from bandsmith.app.plots.axes import FrequencyAxis
 from bandsmith.app.plots.curves import Curve, PlotData
+from bandsmith.app.plots.palette import INK, candidate_style
 
 __all__ = [
     "ensure_qt_app",
@@ -32,7 +32,6 @@ __all__ = [
     "INK",
 ]
 
-INK = "#202124"  # text and axes
 _GRID_ALPHA = 0.25
 
 
@@ -49,37 +48,8 @@ def ensure_qt_app() -> QtWidgets.QApplication:
     return QtWidgets.QApplication(sys.argv[:1] or ["bandsmith"])
 
 
-def _style(index: int):
-    """The candidate's style from the window's theme (one look everywhere)."""
-    from bandsmith.app.window.theme import candidate_style
-
-    return candidate_style(index)
-
-
-class FrequencyAxis(pg.AxisItem):
-    """A log-frequency axis whose ticks read 100, 1k, 10k (not 10² or 1000)."""
-
-    def tickStrings(self, values, scale, spacing):
-        if not self.logMode:
-            return super().tickStrings(values, scale, spacing)
-        return [_tick_hz(10.0 ** v) if _labelled(v) else "" for v in values]
-
-
-def _labelled(log_f: float) -> bool:
-    """Label the decades and the 2 and 5 between them; the other minor ticks only get grid lines."""
-    if not math.isfinite(log_f):
-        return False
-    mantissa = 10.0 ** (log_f - math.floor(log_f + 1e-9))
-    return any(abs(mantissa - m) < 1e-6 * m for m in (1.0, 2.0, 5.0))
-
-
-def _tick_hz(f: float) -> str:
-    text = format_value(f, "", digits=3).strip()
-    return text.replace(" ", "")
-
-
 def _pen(index: int, width: float):
-    st = _style(index)
+    st = candidate_style(index)
     return pg.mkPen(QtGui.QColor(st.colour), width=width, style=st.pen_style)
 
 

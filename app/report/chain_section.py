@@ -17,12 +17,11 @@ For each chain, in the order kept, each starting a page on paper:
 - the parts of every stage, with their RKM codes (IEC 60062) and roles.
 
 A chain that cannot be read or measured is said in words, never raised. The section goes before
-the cautions (:func:`bandsmith.app.report.builder.register_section`).
+the cautions (:func:`bandsmith.app.report.sections.register_section`).
 """
 
 from __future__ import annotations
 
-import base64
 import math
 from html import escape
 
@@ -31,9 +30,11 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_rkm, format_value
 
-from bandsmith.app.window.panes.chain_pane import EXTRAS_KEY, chain_conditions, saved_chains
-from bandsmith.app.window.widgets.chain_plots import ChainPlots, response_title
-from bandsmith.app.report.builder import ReportContext, _gbw_cell, _signed, _slew, _table, register_section
+from bandsmith.app.document.extras_chains import EXTRAS_KEY, chain_conditions, saved_chains
+from bandsmith.app.plots.chain_plots import ChainPlots, response_title
+from bandsmith.app.report.cells import gbw_cell, html_table, png_img, signed, slew_text
+from bandsmith.app.report.context import ReportContext
+from bandsmith.app.report.sections import register_section
 
 __all__ = ["section_chains", "chain_plot_png", "PLOT_ASPECT"]
 
@@ -72,7 +73,7 @@ def _request_table(chain: Chain) -> str:
         ["circuit", "auto: per stage the one needing the least GBW with sane parts" if s.circuit == "auto" else escape(s.circuit)],
         ["parts", escape("exact values" if s.series == "exact" else f"{s.series} series")],
     ]
-    return _table(None, rows, cls="kv", align="ll")
+    return html_table(None, rows, cls="kv", align="ll")
 
 
 def _built_table(result: Cascade, ctx: ReportContext) -> str:
@@ -94,14 +95,14 @@ def _built_table(result: Cascade, ctx: ReportContext) -> str:
     if a is not None:
         dev.append(escape(f"{format_value(result.actual_max_dev_db, 'dB', digits=3)} over the sweep"))
     rows.append(dev)
-    return _table(header, rows, cls="figures", align="lr")
+    return html_table(header, rows, cls="figures", align="lr")
 
 
 def _needs_line(result: Cascade) -> str:
     gbws = [st.result.analysis.requirements.gbw_hz for st in result.stages if st.result is not None and st.result.analysis is not None]
     need = max(gbws) if gbws and all(g is not None for g in gbws) else None
     have = result.conditions.gbw_hz
-    text = f"<b>GBW the most demanding stage needs:</b> {_gbw_cell(need, have)}"
+    text = f"<b>GBW the most demanding stage needs:</b> {gbw_cell(need, have)}"
     if need is not None and have is not None:
         text += escape(f" — the session's op-amp ({format_value(have, 'Hz')}) is {'enough' if have >= need else 'not enough'}")
     return f"<p>{text}</p>"
@@ -118,13 +119,13 @@ def _stages_table(result: Cascade) -> str:
             escape(format_value(p.f0_hz, "Hz")),
             escape(f"{p.q:.4g}"),
             escape(f"{p.gain:.4g}"),
-            escape(_signed(e["f0_pct"], "%", 2)),
-            escape(_signed(e["q_pct"], "%", 2)),
-            escape(_signed(e["gain_db"], "dB", 2)),
+            escape(signed(e["f0_pct"], "%", 2)),
+            escape(signed(e["q_pct"], "%", 2)),
+            escape(signed(e["gain_db"], "dB", 2)),
             escape(format_value(st.peak_internal_gain_db, "dB")),
         ])
     header = ["stage", "circuit", "f0", "Q", "gain", "f0 off", "Q off", "gain off", "peak so far"]
-    return _table(header, rows, cls="stages", align="LLr")
+    return html_table(header, rows, cls="stages", align="LLr")
 
 
 def _stage_needs_table(result: Cascade) -> str:
@@ -135,14 +136,14 @@ def _stage_needs_table(result: Cascade) -> str:
         rows.append([
             f"<b>{st.index}</b>",
             escape(format_value(st.vin_v, "V")),
-            _gbw_cell(r.gbw_hz, have),
-            escape(_slew(r.slew_sine_v_per_us, unit=False)),
-            escape(_slew(r.slew_step_v_per_us, unit=False)),
+            gbw_cell(r.gbw_hz, have),
+            escape(slew_text(r.slew_sine_v_per_us, unit=False)),
+            escape(slew_text(r.slew_step_v_per_us, unit=False)),
             escape(format_value(r.vout_peak_v, "V")),
             escape(format_value(r.iout_peak_ma * 1e-3, "A", digits=3)),
         ])
     header = ["stage", "input", "GBW needed", "slew, sine", "slew, step", "output", "I out"]
-    return _table(header, rows, cls="needs", align="Lr")
+    return html_table(header, rows, cls="needs", align="Lr")
 
 
 def _parts_table(chain: Chain) -> str:
@@ -160,7 +161,7 @@ def _parts_table(chain: Chain) -> str:
                 escape(format_rkm(v, c.kind)),
                 escape(c.role),
             ])
-    return _table(["stage", "part", "value", "code", "role"], rows, cls="parts", align="rLrrl")
+    return html_table(["stage", "part", "value", "code", "role"], rows, cls="parts", align="rLrrl")
 
 
 def _stage_warnings(result: Cascade) -> list[str]:
@@ -169,11 +170,6 @@ def _stage_warnings(result: Cascade) -> list[str]:
         for w in st.warnings:
             out.append(f"stage {st.index}: {w}")
     return out
-
-
-def _img(png: bytes, width: int, alt: str, ident: str) -> str:
-    uri = "data:image/png;base64," + base64.b64encode(png).decode("ascii")
-    return f'<p class="plot"><img src="{uri}" width="{width}" alt="{escape(alt)}" class="plot" id="{escape(ident)}"/></p>'
 
 
 def _one_chain(chain: Chain, ctx: ReportContext) -> str:
@@ -207,7 +203,7 @@ def _one_chain(chain: Chain, ctx: ReportContext) -> str:
         except Exception as exc:  # drawing must not cost the report its text
             out.append(f'<p class="error">The plots could not be drawn ({escape(type(exc).__name__)}: {escape(str(exc))}).</p>')
         else:
-            out.append(_img(png, width, f"Chain {chain.id}: the whole chain, its deviation from the ideal response and each stage", f"plot-chain-{chain.id}"))
+            out.append(png_img(png, width, f"Chain {chain.id}: the whole chain, its deviation from the ideal response and each stage", f"plot-chain-{chain.id}"))
             amp = "" if result.conditions.gbw_hz is None else f", dashed amber with the {format_value(result.conditions.gbw_hz, 'Hz', digits=3)} op-amp"
             out.append(
                 f'<p class="note">Top: the chain built with an ideal op-amp (black){escape(amp)} and the ideal '

@@ -15,12 +15,11 @@ in the order kept:
 
 A measurement whose candidate is not in the session (or cannot be analysed) keeps its read-off
 figures and says why there is no diagnosis; a damaged measurements section is said, never raised.
-The section goes before the cautions (:func:`bandsmith.app.report.builder.register_section`).
+The section goes before the cautions (:func:`bandsmith.app.report.sections.register_section`).
 """
 
 from __future__ import annotations
 
-import base64
 import math
 from html import escape
 from typing import Sequence
@@ -34,7 +33,9 @@ from bandsmith.bench.measured import Measurement, session_measurements
 from bandsmith.bench.readoff import read_off_measurement
 from bandsmith.common.values import format_value
 
-from bandsmith.app.report.builder import CandidateReport, ReportContext, register_section
+from bandsmith.app.report.cells import png_img
+from bandsmith.app.report.context import CandidateReport, ReportContext
+from bandsmith.app.report.sections import register_section
 
 __all__ = ["section_measured", "measured_plot_pngs", "MEASURED_KEYS"]
 
@@ -109,7 +110,7 @@ def measured_plot_pngs(m: Measurement, c: CandidateReport, fitted_values=None, *
     from bandsmith.app.plots.curves import Curve, PlotData
     from bandsmith.app.plots.render import build_plot_widget, ensure_qt_app, image_png, paint_widget
 
-    from bandsmith.app.window.theme import candidate_style
+    from bandsmith.app.plots.palette import candidate_style
 
     def candidate_colour(index: int) -> str:
         return candidate_style(index).colour
@@ -237,11 +238,6 @@ def _residuals(d) -> str:
     )
 
 
-def _img(png: bytes, width: int, alt: str, ident: str) -> str:
-    uri = "data:image/png;base64," + base64.b64encode(png).decode("ascii")
-    return f'<p class="plot"><img src="{uri}" width="{width}" alt="{escape(alt)}" class="measured" id="{escape(ident)}"/></p>'
-
-
 def _one(ctx: ReportContext, k: int, m: Measurement, cid: str | None) -> str:
     # On paper each measurement after the first starts a page (QTextDocument reads page-break-before).
     brk = ' style="page-break-before: always"' if k else ""
@@ -275,7 +271,7 @@ def _one(ctx: ReportContext, k: int, m: Measurement, cid: str | None) -> str:
         for key in MEASURED_KEYS:
             if key in pngs:
                 alt = f"Measured {key} of {m.source} over the predicted response of {cand.label}"
-                out.append(_img(pngs[key], width, alt, f"measured-{k + 1}-{key}"))
+                out.append(png_img(pngs[key], width, alt, f"measured-{k + 1}-{key}", cls="measured"))
         if pngs:
             op = cand.conditions.opamp
             with_op = f"with the session's op-amp (GBW {_num(op.gbw_hz, 'Hz', 3)})" if op is not None else "with an ideal op-amp"

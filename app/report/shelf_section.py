@@ -23,8 +23,9 @@ from bandsmith.design.candidate import Candidate
 from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, fit_check
 from bandsmith.common.values import format_value
 
-from bandsmith.app.report.builder import ReportContext, register_section
-from bandsmith.app.window.verdicts import SESSION_KEY, session_amps, session_supply_v
+from bandsmith.app.report.context import ReportContext
+from bandsmith.app.report.sections import register_section
+from bandsmith.app.document.extras_shelf import SESSION_KEY, session_amps, session_supply_v
 
 __all__ = ["section_shelf"]
 
@@ -78,16 +79,8 @@ def _largest_input(room) -> str:
     )
 
 
-def section_shelf(ctx: ReportContext) -> str:
-    """The session's shelf models against every active candidate ("" when it keeps none)."""
-    s = ctx.session
-    amps = session_amps(s)
-    if not amps:
-        return ""
-    supply = session_supply_v(s)
-    chosen = _chosen(s)
-    cands = [c for c in ctx.candidates if c.entry.enabled and c.analysis is not None]
-    out = [
+def _intro(s, supply: float) -> list[str]:
+    return [
         '<h2 class="shelf" style="page-break-before: always">Op-amps from the shelf</h2>',
         f'<p class="note">The op-amp models kept in the session, each checked against every active candidate at '
         f"{escape(_v(s.target.vin_v, 'V', 4))} peak input on ±{supply:g} V"
@@ -97,17 +90,10 @@ def section_shelf(ctx: ReportContext) -> str:
         f"gain ±{s.tolerances.gain_db:g} dB. Supply limits, common-mode range and swing remain yours to check "
         "against the datasheet.</p>",
     ]
-    if not cands:
-        out.append("<p>No active candidate to check.</p>")
-        return "\n".join(out)
-    reports, problems = {}, {}
-    for c in cands:
-        try:
-            net = Candidate(c.entry.topology_id, c.entry.values).netlist
-            reports[c.label] = fit_check(net, amps, supply_v=supply, vin_v=s.target.vin_v, rload_ohm=s.rload_ohm, tolerances=s.tolerances)
-        except Exception as exc:  # a candidate the core cannot check: said, never raised
-            problems[c.label] = f"{type(exc).__name__}: {exc}"
-    checked = [c for c in cands if c.label in reports]
+
+
+def _verdict_table(amps, checked, reports, chosen: dict[str, str]) -> str:
+    """Models as rows, candidates as columns, the verdict in each cell (the chosen one marked)."""
     header = "<thead><tr><th>model (GBW, slew rate, output current)</th>" + "".join(
         f"<th>{escape(c.label)}</th>" for c in checked
     ) + "</tr></thead>"
@@ -125,40 +111,67 @@ def section_shelf(ctx: ReportContext) -> str:
             is_chosen = chosen.get(c.label, "").casefold() == a.name.casefold()
             cells.append(f'<td align="left"{keep}>{_cell(v.verdict, is_chosen)}</td>')
         rows.append("<tr>" + "".join(cells) + "</tr>")
-    out.append(f'<table class="shelf" border="1" cellspacing="0" cellpadding="3">\n{header}\n' + "\n".join(rows) + "\n</table>")
+    return f'<table class="shelf" border="1" cellspacing="0" cellpadding="3">\n{header}\n' + "\n".join(rows) + "\n</table>"
+
+
+def _candidate_block(label: str, rep, chosen_name: str | None) -> list[str]:
+    """One candidate: every model's verdict and reasons, then the headroom (with the chosen model)."""
+    out = [f"<h3>{escape(label)}</h3>"]
+    items = []
+    for v in rep.verdicts:
+        symbol, _kind = _LOOK[v.verdict]
+        fig = v.actual.item()
+        with_it = ""
+        if math.isfinite(fig.f0_hz):
+            with_it = f" With it: f0 {_v(fig.f0_hz, 'Hz', 4)}, Q {fig.q:.3g}, centre gain {fig.gain_center_db:+.2f} dB."
+        items.append(
+            f"<li><b>{escape(v.amp.name)}</b>: {symbol} {escape(v.verdict)} — {escape('; '.join(v.reasons))}.{escape(with_it)}</li>"
+        )
+    out.append('<ul class="verdicts">' + "\n".join(items) + "</ul>")
+    pick = None
+    if chosen_name is not None:
+        try:
+            pick = rep.verdict(chosen_name)
+        except KeyError:
+            pick = None
+    if pick is not None:
+        out.append(f"<p><b>Headroom with the chosen {escape(pick.amp.name)}</b></p>")
+        room = pick.headroom
+    else:
+        out.append('<p><b>Headroom</b> <span style="color: #555a60; font-size: 9pt">(no model chosen for this candidate: an ideal op-amp, '
+                   "every node limited by the supply rails only)</span></p>")
+        room = rep.headroom
+    out.append(_headroom_table(room))
+    out.append(f"<p>{_largest_input(room)}</p>")
+    return out
+
+
+def section_shelf(ctx: ReportContext) -> str:
+    """The session's shelf models against every active candidate ("" when it keeps none)."""
+    s = ctx.session
+    amps = session_amps(s)
+    if not amps:
+        return ""
+    supply = session_supply_v(s)
+    chosen = _chosen(s)
+    cands = [c for c in ctx.candidates if c.entry.enabled and c.analysis is not None]
+    out = _intro(s, supply)
+    if not cands:
+        out.append("<p>No active candidate to check.</p>")
+        return "\n".join(out)
+    reports, problems = {}, {}
+    for c in cands:
+        try:
+            net = Candidate(c.entry.topology_id, c.entry.values).netlist
+            reports[c.label] = fit_check(net, amps, supply_v=supply, vin_v=s.target.vin_v, rload_ohm=s.rload_ohm, tolerances=s.tolerances)
+        except Exception as exc:  # a candidate the core cannot check: said, never raised
+            problems[c.label] = f"{type(exc).__name__}: {exc}"
+    checked = [c for c in cands if c.label in reports]
+    out.append(_verdict_table(amps, checked, reports, chosen))
     for label, why in problems.items():
         out.append(f'<p class="error">{escape(label)} cannot be checked ({escape(why)}).</p>')
-
     for c in checked:
-        rep = reports[c.label]
-        out.append(f"<h3>{escape(c.label)}</h3>")
-        items = []
-        for v in rep.verdicts:
-            symbol, _kind = _LOOK[v.verdict]
-            fig = v.actual.item()
-            with_it = ""
-            if math.isfinite(fig.f0_hz):
-                with_it = f" With it: f0 {_v(fig.f0_hz, 'Hz', 4)}, Q {fig.q:.3g}, centre gain {fig.gain_center_db:+.2f} dB."
-            items.append(
-                f"<li><b>{escape(v.amp.name)}</b>: {symbol} {escape(v.verdict)} — {escape('; '.join(v.reasons))}.{escape(with_it)}</li>"
-            )
-        out.append('<ul class="verdicts">' + "\n".join(items) + "</ul>")
-        name = chosen.get(c.label)
-        pick = None
-        if name is not None:
-            try:
-                pick = rep.verdict(name)
-            except KeyError:
-                pick = None
-        if pick is not None:
-            out.append(f"<p><b>Headroom with the chosen {escape(pick.amp.name)}</b></p>")
-            room = pick.headroom
-        else:
-            out.append('<p><b>Headroom</b> <span style="color: #555a60; font-size: 9pt">(no model chosen for this candidate: an ideal op-amp, '
-                       "every node limited by the supply rails only)</span></p>")
-            room = rep.headroom
-        out.append(_headroom_table(room))
-        out.append(f"<p>{_largest_input(room)}</p>")
+        out.extend(_candidate_block(c.label, reports[c.label], chosen.get(c.label)))
     return "\n".join(out)
 
 

@@ -1,4 +1,4 @@
-"""Report sections for the tolerance spread and the output noise (registered with bandsmith.app.report.builder).
+"""Report sections for the tolerance spread and the output noise (registered with bandsmith.app.report.sections).
 
 Both are computed through the core from the session's own settings when the report is made
 (results are never stored in a session):
@@ -18,7 +18,6 @@ imported only then); a candidate the core cannot handle gets a line saying why, 
 
 from __future__ import annotations
 
-import base64
 import math
 from html import escape
 from typing import Sequence
@@ -33,7 +32,9 @@ from bandsmith.spread.tolerance import Spread, run_spread
 from bandsmith.common.values import format_value
 
 from bandsmith.app.document.extras_settings import spread_for_circuit, stored_noise, stored_spread
-from bandsmith.app.report.builder import ReportContext, _table, register_section
+from bandsmith.app.report.cells import html_table, png_img
+from bandsmith.app.report.context import ReportContext
+from bandsmith.app.report.sections import register_section
 
 __all__ = ["section_spread", "section_noise", "histograms_png", "noise_density_png"]
 
@@ -58,11 +59,6 @@ def _fig(key: str, x: float, *, spread: bool = False) -> str:
     if key == "q":
         return f"{x:.3g}" if spread else f"{x:.4g}"
     return f"{x:.3f} dB" if spread else f"{x:+.3f} dB"
-
-
-def _img(png: bytes, width: int, alt: str, ident: str) -> str:
-    uri = "data:image/png;base64," + base64.b64encode(png).decode("ascii")
-    return f'<p class="plot"><img src="{uri}" width="{width}" alt="{escape(alt)}" class="plot" id="{escape(ident)}"/></p>'
 
 
 def _corner_text(corner) -> str:
@@ -90,7 +86,7 @@ def _spread_settings_table(s) -> str:
         ["trials, seed", escape(f"{_count(s.trials)}, seed {s.seed} (the same seed gives the same trials)")],
         ["yield window", escape(f"f0 ±{_pct(s.window_f0)}, Q ±{_pct(s.window_q)}, centre gain ±{s.window_gain_db:g} dB of nominal")],
     ]
-    return _table(None, rows, cls="kv", align="Ll")
+    return html_table(None, rows, cls="kv", align="Ll")
 
 
 def _spread_block(ctx: ReportContext, c, s) -> str:
@@ -112,7 +108,7 @@ def _spread_block(ctx: ReportContext, c, s) -> str:
     rows = [["<b>nominal</b>"] + [escape(_fig(key, float(getattr(nom, key)))) for key, _ in _FIGS]]
     for k, label in _STATS:
         rows.append([f"<b>{escape(label)}</b>"] + [escape(_fig(key, stats[key][k], spread=(k == "std"))) for key, _ in _FIGS])
-    out.append(_table(["over the trials"] + [escape(label) for _, label in _FIGS], rows, cls="spread-stats", align="Lr"))
+    out.append(html_table(["over the trials"] + [escape(label) for _, label in _FIGS], rows, cls="spread-stats", align="Lr"))
     wc = sp.worst
     wrows = []
     for key, label in _FIGS:
@@ -122,10 +118,10 @@ def _spread_block(ctx: ReportContext, c, s) -> str:
     how = f"{wc.method}, {wc.corner_count} evaluated" if wc.corner_count else wc.method
     out.append(f'<p class="note">Worst case over the corners of the tolerance box ({escape(how)})'
                + (f"; {wc.unstable_corners} corner(s) unstable or without a peak" if wc.unstable_corners else "") + ".</p>")
-    out.append(_table(["figure", "lowest", "highest", "corner of the lowest", "corner of the highest"], wrows, cls="spread-worst", align="Lrrl"))
+    out.append(html_table(["figure", "lowest", "highest", "corner of the lowest", "corner of the highest"], wrows, cls="spread-worst", align="Lrrl"))
     if ctx.images:
         png = histograms_png(sp, c.index, width=ctx.image_width, height=round(ctx.image_width * 0.3))
-        out.append(_img(png, ctx.image_width, f"Histograms of f0, Q and centre gain of {c.label}", f"spread-hist-{c.label}"))
+        out.append(png_img(png, ctx.image_width, f"Histograms of f0, Q and centre gain of {c.label}", f"spread-hist-{c.label}"))
         out.append('<p class="note">Shaded: the yield window. Solid line: nominal. Dotted: the worst-case extremes.</p>')
     return "\n".join(out)
 
@@ -216,10 +212,10 @@ def section_noise(ctx: ReportContext) -> str:
             escape("∞" if not math.isfinite(r.snr_db) else f"{r.snr_db:.1f} dB"),
             escape(", ".join(top) if top else "none"),
         ])
-    out.append(_table(["candidate", "density at f0", "input-referred at f0", "integrated", "SNR", "largest (share of power)"], rows, cls="noise-summary", align="Lrrrrl"))
+    out.append(html_table(["candidate", "density at f0", "input-referred at f0", "integrated", "SNR", "largest (share of power)"], rows, cls="noise-summary", align="Lrrrrl"))
     if ctx.images and results:
         png = noise_density_png([(c.label, c.index, view) for c, _r, view in results], width=ctx.image_width, height=round(ctx.image_width * 0.38))
-        out.append(_img(png, ctx.image_width, "Output noise density of every candidate", "noise-density"))
+        out.append(png_img(png, ctx.image_width, "Output noise density of every candidate", "noise-density"))
     for c, r, _view in results:
         srows = []
         for name, kind, share in _shares(r):
@@ -233,7 +229,7 @@ def section_noise(ctx: ReportContext) -> str:
         band = f"{format_value(r.band_hz[0], 'Hz')} to {format_value(r.band_hz[1], 'Hz')}"
         out.append(f'<h3 id="noise-{escape(c.label)}">{escape(c.label)}: sources, largest first</h3>')
         out.append(f'<p class="note">Integrated over {escape(band)}; share of the output noise power.</p>')
-        out.append(_table(["source", "kind", "at f0", "integrated", "share"], srows, cls="noise-sources", align="LLr"))
+        out.append(html_table(["source", "kind", "at f0", "integrated", "share"], srows, cls="noise-sources", align="LLr"))
     return "\n".join(out)
 
 
@@ -261,8 +257,8 @@ def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 27
     ensure_qt_app()
     from PySide6 import QtWidgets
 
-    from bandsmith.app.window.panes.spread_pane import FigureHistogram, window_of
-    from bandsmith.app.window.theme import apply_plot_theme, candidate_style
+    from bandsmith.app.plots.histogram import HISTOGRAM_FIGURES, FigureHistogram, window_of
+    from bandsmith.app.plots.palette import apply_plot_theme, candidate_style
 
     apply_plot_theme()
     box = QtWidgets.QWidget()
@@ -272,7 +268,7 @@ def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 27
     lay.setSpacing(4)
     nom = sp.nominal.item()
     colour = candidate_style(index).colour
-    for key, title, unit in (("f0_hz", "f0", "Hz"), ("q", "Q", ""), ("gain_center_db", "Centre gain", "dB")):
+    for key, title, unit in HISTOGRAM_FIGURES:
         h = FigureHistogram(key, title, unit, box)
         n0 = float(getattr(nom, key))
         h.show_data(getattr(sp, key)[sp.measured], n0, window_of(sp.settings, key, n0), getattr(sp.worst, key), colour)
@@ -282,13 +278,13 @@ def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 27
 
 def noise_density_png(items: Sequence[tuple[str, int, NoiseResult]], *, width: int = 900, height: int = 340) -> bytes:
     """PNG of the output noise density (V/√Hz, log-log) of several candidates ``(label, index, result)``."""
-    from bandsmith.app.plots.render import INK, FrequencyAxis, PlotImageWidget, ensure_qt_app
+    from bandsmith.app.plots.axes import FrequencyAxis, LogAxis
+    from bandsmith.app.plots.render import INK, PlotImageWidget, ensure_qt_app
 
     ensure_qt_app()
     import pyqtgraph as pg
 
-    from bandsmith.app.window.widgets.plots import LogAxis
-    from bandsmith.app.window.theme import apply_plot_theme, candidate_style
+    from bandsmith.app.plots.palette import apply_plot_theme, candidate_style
 
     apply_plot_theme()
     item = pg.PlotItem(axisItems={"bottom": FrequencyAxis("bottom"), "left": LogAxis("left")})

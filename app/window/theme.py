@@ -1,80 +1,27 @@
-"""Colours, line styles and the light style sheet of the workbench.
+"""The light style sheet of the workbench and its small styled widgets.
 
-Candidate colours are our own set, picked so that neighbours differ in hue *and* lightness (they
-stay apart for the common red-green colour vision deficiencies and in greyscale print); each
-candidate also gets its own line style, so no curve depends on colour alone.
+The colours, line styles and symbols are those of every plot (:mod:`bandsmith.app.plots.palette`),
+re-exported here for the window's modules.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from PySide6 import QtWidgets
 
-from PySide6 import QtCore, QtGui, QtWidgets
+from bandsmith.app.plots.palette import (
+    BAD,
+    GOOD,
+    INK,
+    LINE_STYLES,
+    MUTED,
+    PALETTE,
+    WARN,
+    CandidateStyle,
+    apply_plot_theme,
+    candidate_style,
+)
 
 __all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "STYLE_SHEET", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED", "error_label", "headline"]
-
-# Blue, amber, dark magenta, sky, vermilion-brown, bluish green, olive, slate: alternating dark and
-# light so that any two neighbours are told apart by lightness as well as by hue.
-PALETTE = (
-    "#1b5e9e",
-    "#e09b1a",
-    "#8e2c7c",
-    "#4fb0e0",
-    "#b3471d",
-    "#2b9c84",
-    "#7a7a1f",
-    "#5c6470",
-)
-
-LINE_STYLES = (
-    QtCore.Qt.PenStyle.SolidLine,
-    QtCore.Qt.PenStyle.DashLine,
-    QtCore.Qt.PenStyle.DotLine,
-    QtCore.Qt.PenStyle.DashDotLine,
-    QtCore.Qt.PenStyle.DashDotDotLine,
-)
-
-# Scatter symbols of the pole-zero view, one per candidate (poles; zeros are always "o").
-SYMBOLS = ("x", "t", "s", "d", "star", "+", "t1", "p")
-
-# Status colours of flags; each flag also carries a symbol so it does not rely on colour.
-# Text: body ink and the muted grey of captions and notes.
-INK = "#202124"
-MUTED = "#5f6368"
-GOOD = "#1d7a3a"
-WARN = "#a35f00"
-BAD = "#b0191e"
-
-
-@dataclass(frozen=True, slots=True)
-class CandidateStyle:
-    """How one candidate is drawn everywhere: colour (hex), Qt pen style and scatter symbol."""
-
-    colour: str
-    pen_style: QtCore.Qt.PenStyle
-    symbol: str
-
-    def pen(self, width: float = 2.0):
-        import pyqtgraph as pg
-
-        return pg.mkPen(QtGui.QColor(self.colour), width=width, style=self.pen_style)
-
-
-def candidate_style(index: int) -> CandidateStyle:
-    """The style of the ``index``-th candidate of a session (cycles after the palette's end)."""
-    return CandidateStyle(
-        colour=PALETTE[index % len(PALETTE)],
-        pen_style=LINE_STYLES[index % len(LINE_STYLES)],
-        symbol=SYMBOLS[index % len(SYMBOLS)],
-    )
-
-
-def apply_plot_theme() -> None:
-    """A light theme for every pyqtgraph plot (white ground, dark axes, antialiased lines)."""
-    import pyqtgraph as pg
-
-    pg.setConfigOptions(background="w", foreground="#202124", antialias=True)
-
 
 STYLE_SHEET = f"""
 QMainWindow, QWidget#board {{ background: #f6f6f3; }}

@@ -36,13 +36,14 @@ from PySide6 import QtCore
 from bandsmith.solver.ampmodel import amp_transfer_function
 from bandsmith.analysis.analyzer import sweep
 from bandsmith.design.candidate import Candidate
-from bandsmith.common.errors import InputError
 from bandsmith.bench.fitcheck import FitReport, Verdict, basis_of, check_amp
 from bandsmith.analysis.figures import Figures, measure
-from bandsmith.bench.headroom import DEFAULT_SUPPLY_V, headroom
-from bandsmith.files.session import CandidateEntry, Session
-from bandsmith.bench.shelf import OpAmp, amps_from_json
+from bandsmith.bench.headroom import headroom
+from bandsmith.files.session import CandidateEntry
+from bandsmith.bench.shelf import OpAmp
 from bandsmith.common.values import format_value
+
+from bandsmith.app.document.extras_shelf import SESSION_KEY, session_amps, session_supply_v
 
 __all__ = [
     "SESSION_KEY",
@@ -54,28 +55,7 @@ __all__ = [
     "verdict_tooltip",
 ]
 
-SESSION_KEY = "shelf"
 DELAY_MS = 250
-
-
-def session_supply_v(session: Session) -> float:
-    """The session's supply ±V (``extras["shelf"]["supply_v"]``), or the default ±15 V."""
-    sec = session.extras.get(SESSION_KEY)
-    v = sec.get("supply_v") if isinstance(sec, dict) else None
-    if isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) and v > 0:
-        return float(v)
-    return DEFAULT_SUPPLY_V
-
-
-def session_amps(session: Session) -> tuple[OpAmp, ...]:
-    """Models the session carries (copied into it from the shelf); an unusable section gives none."""
-    sec = session.extras.get(SESSION_KEY)
-    if not isinstance(sec, dict):
-        return ()
-    try:
-        return amps_from_json(sec.get("amps", []))
-    except InputError:
-        return ()
 
 
 def verdict_tooltip(v: Verdict) -> str:

@@ -16,6 +16,11 @@ A run goes off the GUI thread (:class:`~bandsmith.app.window.background.Backgrou
 bar and Cancel). It also computes the p5–p95 magnitude envelope of the first trials, shaded on the
 Responses tab's magnitude plot for the candidate while the result is fresh. Results are not saved:
 a run takes well under a second for ten thousand trials.
+
+The results (yield, histograms, statistics, worst case) are drawn by
+:class:`~bandsmith.app.window.panes.spread_view.SpreadResults`; this module holds the settings, the
+runs, and the candidate chooser and circuit reading the noise pane shares (:class:`CandidatePicker`,
+:func:`candidate_circuit`, :func:`winding_text`).
 """
 
 from __future__ import annotations
@@ -25,9 +30,7 @@ import time
 from dataclasses import dataclass, replace
 from typing import Callable
 
-import numpy as np
-import pyqtgraph as pg
-from PySide6 import QtCore, QtGui, QtWidgets
+from PySide6 import QtCore, QtWidgets
 
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.errors import InputError
@@ -49,24 +52,26 @@ from bandsmith.common.values import format_value, parse_fraction, parse_value
 from bandsmith.app.window.background import BackgroundJob, Cancelled
 from bandsmith.app.document.extras_settings import SPREAD_KEY, circuit_refs, spread_for_circuit, stored_spread
 from bandsmith.app.document.results import frequency_grid
+from bandsmith.app.window.panes.spread_view import (
+    DIST_TEXT,
+    ENVELOPE_TRIALS,
+    SpreadResults,
+    count_text,
+    percent_text,
+    table_item,
+)
 from bandsmith.app.window.state import WorkbenchState, part_unit
-from bandsmith.app.window.theme import BAD, INK, MUTED, WARN, error_label, headline
+from bandsmith.app.window.theme import MUTED, WARN, error_label
 from bandsmith.app.window.widgets.value_field import ValueField
 
-__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "FigureHistogram", "window_of", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
+__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
 
 #: Name of the band the pane shades on the magnitude plot.
 ENVELOPE_KEY = "spread"
-#: Trials the magnitude envelope is taken over (the first ones of the run).
-ENVELOPE_TRIALS = 2000
-_BINS = 48
-# A histogram shows all of the yield window unless it is this many times wider than the trials.
-_ZOOM_RATIO = 6.0
-_WINDOW_BRUSH = (46, 139, 87, 40)
-_WORST_PEN = pg.mkPen(BAD, width=1.2, style=QtCore.Qt.PenStyle.DotLine)
-_NOMINAL_PEN = pg.mkPen(INK, width=1.5)
-_FIGURES = (("f0_hz", "f0", "Hz"), ("q", "Q", ""), ("gain_center_db", "Centre gain", "dB"))
-_DIST_TEXT = {"uniform": "uniform, ±p", "normal": "normal, p = 3σ"}
+_RESULT_WIDGETS = (
+    "yield_label", "yield_text", "hist_grid", "histograms", "show_envelope", "tables_row", "stats",
+    "corners", "worst_title", "worst_note",
+)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -155,164 +160,13 @@ class SpreadRun:
     seconds: float
 
 
-def _count(n: int) -> str:
-    """A count with its thousands apart: 10 000."""
-    return f"{int(n):,}".replace(",", " ")
-
-
-def _percent(x: float) -> str:
-    return f"{100.0 * x:.4g} %"
-
-
 def _whole_number(text: str, field: str, *, low: int, high: int) -> int:
     v = parse_value(text, field=field)
     if not (math.isfinite(v) and float(v).is_integer()):
         raise InputError(field, f"must be a whole number, got {text.strip()!r}")
     if not low <= v <= high:
-        raise InputError(field, f"must be from {low} to {_count(high)}")
+        raise InputError(field, f"must be from {low} to {count_text(high)}")
     return int(v)
-
-
-def window_of(settings: SpreadSettings, key: str, nominal: float) -> tuple[float, float]:
-    """The yield window of one figure (``f0_hz``, ``q``, ``gain_center_db``) around its nominal."""
-    if key == "gain_center_db":
-        return nominal - settings.window_gain_db, nominal + settings.window_gain_db
-    w = settings.window_f0 if key == "f0_hz" else settings.window_q
-    return nominal * (1.0 - w), nominal * (1.0 + w)
-
-
-class FigureHistogram(pg.PlotWidget):
-    """One figure's histogram: trials per bin, the yield window shaded, nominal and worst case."""
-
-    def __init__(self, key: str, title: str, unit: str, parent=None):
-        super().__init__(parent, background="w")
-        self.key = key
-        self.title = title
-        self.setObjectName(f"hist_{key}")
-        item = self.getPlotItem()
-        item.setMenuEnabled(False)
-        item.setContentsMargins(2, 2, 14, 2)  # room for the last tick label on the right
-        item.setMouseEnabled(x=False, y=False)
-        item.hideButtons()
-        item.setTitle(title, color=INK, size="10pt")
-        item.showGrid(x=True, y=True, alpha=0.2)
-        if unit == "Hz":
-            item.setLabel("bottom", title, units="Hz", color=INK)
-        else:
-            item.getAxis("bottom").enableAutoSIPrefix(False)
-            item.setLabel("bottom", f"{title} ({unit})" if unit else title, color=INK)
-        item.getAxis("left").enableAutoSIPrefix(False)
-        item.setLabel("left", "trials", color=INK)
-        self.window = pg.LinearRegionItem(values=(0, 1), movable=False, brush=pg.mkBrush(*_WINDOW_BRUSH), pen=pg.mkPen((46, 139, 87, 160), width=1))
-        self.window.setZValue(-10)
-        item.addItem(self.window)
-        self.bars = pg.PlotDataItem([0, 1], [0], stepMode="center", fillLevel=0, pen=pg.mkPen("#1b5e9e", width=1.2), brush=pg.mkBrush(27, 94, 158, 90))
-        item.addItem(self.bars)
-        self.nominal = pg.InfiniteLine(angle=90, pen=_NOMINAL_PEN)
-        self.worst_lo = pg.InfiniteLine(angle=90, pen=_WORST_PEN)
-        self.worst_hi = pg.InfiniteLine(angle=90, pen=_WORST_PEN)
-        for line in (self.nominal, self.worst_lo, self.worst_hi):
-            item.addItem(line, ignoreBounds=True)
-        self.counts = np.zeros(0)
-        self.edges = np.zeros(0)
-        self.setMinimumSize(200, 170)
-        self.clear_data()
-
-    def clear_data(self) -> None:
-        self.counts, self.edges = np.zeros(0), np.zeros(0)
-        self.bars.setData([0.0, 1.0], [0.0])
-        for it in (self.window, self.nominal, self.worst_lo, self.worst_hi, self.bars):
-            it.setVisible(False)
-
-    def show_data(self, values: np.ndarray, nominal: float, window: tuple[float, float], worst: tuple[float, float], colour: str) -> None:
-        v = values[np.isfinite(values)]
-        if v.size == 0:
-            self.clear_data()
-            return
-        core = [m for m in (*worst, nominal) if math.isfinite(m)]
-        lo, hi = float(min(v.min(), *core)), float(max(v.max(), *core))
-        span = hi - lo
-        wide = span > 0 and (window[1] - window[0]) > _ZOOM_RATIO * span
-        if not wide:  # the window fits: show all of it
-            lo, hi = min(lo, window[0]), max(hi, window[1])
-        self.getPlotItem().setTitle(self.title + (" (window is wider)" if wide else ""), color=INK, size="10pt")
-        pad = 0.04 * (hi - lo) if hi > lo else max(abs(lo) * 1e-3, 1e-12)
-        lo, hi = lo - pad, hi + pad
-        counts, edges = np.histogram(v, bins=_BINS, range=(float(v.min()), float(v.max())) if v.max() > v.min() else None)
-        self.counts, self.edges = counts, edges
-        c = QtGui.QColor(colour)
-        fill = QtGui.QColor(colour)
-        fill.setAlpha(95)
-        self.bars.setData(edges, counts, stepMode="center", fillLevel=0)
-        self.bars.setPen(pg.mkPen(c, width=1.2))
-        self.bars.setBrush(pg.mkBrush(fill))
-        self.window.setRegion(window)
-        self.nominal.setValue(nominal)
-        self.worst_lo.setValue(worst[0])
-        self.worst_hi.setValue(worst[1])
-        self.worst_lo.setVisible(math.isfinite(worst[0]))
-        self.worst_hi.setVisible(math.isfinite(worst[1]))
-        for it in (self.window, self.nominal, self.bars):
-            it.setVisible(True)
-        item = self.getPlotItem()
-        item.setXRange(lo, hi, padding=0)
-        item.setYRange(0, max(1, int(counts.max())) * 1.08, padding=0)
-
-
-def _table(rows: int, cols: int, parent, name: str) -> QtWidgets.QTableWidget:
-    t = QtWidgets.QTableWidget(rows, cols, parent)
-    t.setObjectName(name)
-    t.setEditTriggers(QtWidgets.QAbstractItemView.EditTrigger.NoEditTriggers)
-    t.setSelectionMode(QtWidgets.QAbstractItemView.SelectionMode.NoSelection)
-    t.verticalHeader().setDefaultSectionSize(22)
-    t.setHorizontalScrollBarPolicy(QtCore.Qt.ScrollBarPolicy.ScrollBarAsNeeded)
-    t.setVerticalScrollBarPolicy(QtCore.Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
-    return t
-
-
-def _fit_height(t: QtWidgets.QTableWidget) -> None:
-    """Make a table exactly as tall as its rows (no vertical scrolling)."""
-    h = t.horizontalHeader().height() if t.horizontalHeader().isVisible() else 0
-    h += sum(t.rowHeight(r) for r in range(t.rowCount())) + 2 * t.frameWidth()
-    if t.horizontalScrollBar().isVisible():
-        h += t.horizontalScrollBar().height()
-    t.setFixedHeight(h + 2)
-
-
-def _item(text: str, *, bold: bool = False, colour: str | None = None, tip: str = "", align_right: bool = True) -> QtWidgets.QTableWidgetItem:
-    it = QtWidgets.QTableWidgetItem(text)
-    if align_right:
-        it.setTextAlignment(QtCore.Qt.AlignmentFlag.AlignRight | QtCore.Qt.AlignmentFlag.AlignVCenter)
-    if bold:
-        f = it.font()
-        f.setBold(True)
-        it.setFont(f)
-    if colour:
-        it.setForeground(QtGui.QColor(colour))
-    if tip:
-        it.setToolTip(tip)
-    return it
-
-
-def _fmt_figure(key: str, x: float) -> str:
-    if not math.isfinite(x):
-        return "—"
-    if key == "f0_hz":
-        return format_value(x, "Hz", digits=5)
-    if key == "q":
-        return f"{x:.4g}"
-    return f"{x:+.3f} dB"
-
-
-def _fmt_spread(key: str, x: float) -> str:
-    """A standard deviation: f0 in Hz, Q plain, gain in dB (no sign)."""
-    if not math.isfinite(x):
-        return "—"
-    if key == "f0_hz":
-        return format_value(x, "Hz", digits=3)
-    if key == "q":
-        return f"{x:.3g}"
-    return f"{x:.3f} dB"
 
 
 class SpreadPane(QtWidgets.QScrollArea):
@@ -365,10 +219,25 @@ class SpreadPane(QtWidgets.QScrollArea):
         outer.setContentsMargins(10, 8, 10, 10)
         outer.setSpacing(6)
 
-        # -- candidate and run --------------------------------------------------------------
+        self._build_run_bar(body, outer)
+        self.settings_row = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.LeftToRight)
+        self.settings_row.setSpacing(12)
+        outer.addLayout(self.settings_row)
+        self.settings_row.addWidget(self._build_settings_box(body), 0)
+        self.settings_row.addWidget(self._build_parts_box(body), 1)
+        self._build_yield(body, outer)
+        outer.addStretch(1)
+
+        state.session_changed.connect(self._on_session_changed)
+        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
+        self._on_session_changed(state.session)
+
+    # ------------------------------------------------------------------ building
+    def _build_run_bar(self, body: QtWidgets.QWidget, outer: QtWidgets.QVBoxLayout) -> None:
+        """The candidate, Run and what the last run was; the inductor's winding line."""
         bar = QtWidgets.QHBoxLayout()
         bar.addWidget(QtWidgets.QLabel("Candidate", body))
-        self.picker = CandidatePicker(state, body)
+        self.picker = CandidatePicker(self.state, body)
         bar.addWidget(self.picker)
         self.run_button = QtWidgets.QPushButton("Run", body)
         self.run_button.setObjectName("runSpread")
@@ -392,10 +261,12 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.winding.hide()
         outer.addWidget(self.winding)
 
-        # -- settings -----------------------------------------------------------------------
-        self.settings_row = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.LeftToRight)
-        self.settings_row.setSpacing(12)
-        outer.addLayout(self.settings_row)
+    def _frac_field(self, box: QtWidgets.QWidget, name: str, tip: str, check: Callable[[float], SpreadSettings]) -> ValueField:
+        """A fraction field ("1%", "0.01") whose entry is checked by building the settings it makes."""
+        return ValueField(name, "%", parse=lambda t: self._checked(check, parse_fraction(t, field=name)), fmt=lambda v: "" if v is None else percent_text(v), tooltip=tip, parent=box)
+
+    def _build_settings_box(self, body: QtWidgets.QWidget) -> QtWidgets.QGroupBox:
+        """Tolerances per kind, the GBW spread, the distribution, trials, seed and the yield window."""
         box = QtWidgets.QGroupBox("Tolerances and trials", body)
         box.setObjectName("spreadSettings")
         grid = QtWidgets.QGridLayout(box)
@@ -403,14 +274,11 @@ class SpreadPane(QtWidgets.QScrollArea):
         grid.setVerticalSpacing(3)
         self.fields: dict[str, ValueField] = {}
 
-        def frac_field(name: str, tip: str, check: Callable[[float], SpreadSettings]):
-            return ValueField(name, "%", parse=lambda t: self._checked(check, parse_fraction(t, field=name)), fmt=lambda v: "" if v is None else _percent(v), tooltip=tip, parent=box)
-
         specs = [
-            ("R", "Resistors ±", frac_field("tol_R", "Tolerance of every resistor (and a winding resistance): 1%, 0.5 %, 0.01.", lambda v: self._with_kind("R", v))),
-            ("C", "Capacitors ±", frac_field("tol_C", "Tolerance of every capacitor: 5%, 2 %, 0.05.", lambda v: self._with_kind("C", v))),
-            ("L", "Inductors ±", frac_field("tol_L", "Tolerance of every inductor: 10%, 0.1.", lambda v: self._with_kind("L", v))),
-            ("gbw_tol", "Op-amp GBW ±", frac_field("gbw_tol", "Spread of the op-amp's gain-bandwidth: 20%, 0.2 (needs a finite op-amp).", lambda v: replace(self.settings, gbw_tol=v))),
+            ("R", "Resistors ±", self._frac_field(box, "tol_R", "Tolerance of every resistor (and a winding resistance): 1%, 0.5 %, 0.01.", lambda v: self._with_kind("R", v))),
+            ("C", "Capacitors ±", self._frac_field(box, "tol_C", "Tolerance of every capacitor: 5%, 2 %, 0.05.", lambda v: self._with_kind("C", v))),
+            ("L", "Inductors ±", self._frac_field(box, "tol_L", "Tolerance of every inductor: 10%, 0.1.", lambda v: self._with_kind("L", v))),
+            ("gbw_tol", "Op-amp GBW ±", self._frac_field(box, "gbw_tol", "Spread of the op-amp's gain-bandwidth: 20%, 0.2 (needs a finite op-amp).", lambda v: replace(self.settings, gbw_tol=v))),
         ]
         for i, (key, label, fld) in enumerate(specs):
             grid.addWidget(QtWidgets.QLabel(label, box), i, 0)
@@ -419,14 +287,14 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.dist = QtWidgets.QComboBox(box)
         self.dist.setObjectName("spreadDist")
         for d in DISTRIBUTIONS:
-            self.dist.addItem(_DIST_TEXT[d], d)
+            self.dist.addItem(DIST_TEXT[d], d)
         self.dist.setToolTip("uniform: each part anywhere within ±p; normal: p is three standard deviations.")
         self.dist.activated.connect(self._on_dist)
         grid.addWidget(QtWidgets.QLabel("Distribution", box), 0, 2)
         grid.addWidget(self.dist, 0, 3)
         self.fields["trials"] = ValueField(
             "trials", "", parse=lambda t: self._checked(lambda v: replace(self.settings, trials=v), _whole_number(t, "trials", low=1, high=MAX_TRIALS)),
-            fmt=lambda v: "" if v is None else str(int(v)), tooltip=f"Number of trials, 1 to {_count(MAX_TRIALS)}: 10000, 10k, 1e5.", parent=box,
+            fmt=lambda v: "" if v is None else str(int(v)), tooltip=f"Number of trials, 1 to {count_text(MAX_TRIALS)}: 10000, 10k, 1e5.", parent=box,
         )
         self.fields["seed"] = ValueField(
             "seed", "", parse=lambda t: self._checked(lambda v: replace(self.settings, seed=v), _whole_number(t, "seed", low=0, high=2**63 - 1)),
@@ -436,11 +304,21 @@ class SpreadPane(QtWidgets.QScrollArea):
         grid.addWidget(self.fields["trials"], 1, 3)
         grid.addWidget(QtWidgets.QLabel("Seed", box), 2, 2)
         grid.addWidget(self.fields["seed"], 2, 3)
+        self._build_window_rows(box, grid)
+        for fld in self.fields.values():
+            fld.edit.setMaximumWidth(110)
+        for key, fld in self.fields.items():
+            fld.committed.connect(lambda v, k=key: self._on_field(k, v))
+        grid.setColumnStretch(4, 1)
+        return box
+
+    def _build_window_rows(self, box: QtWidgets.QGroupBox, grid: QtWidgets.QGridLayout) -> None:
+        """The yield window: f0 and Q within ± a fraction, the centre gain within ± some dB."""
         win = QtWidgets.QLabel("Yield window around nominal", box)
         win.setObjectName("sectionTitle")
         grid.addWidget(win, 4, 0, 1, 4)
-        self.fields["window_f0"] = frac_field("window_f0", "A trial passes when its f0 is within ± this of nominal: 5%, 0.05.", lambda v: replace(self.settings, window_f0=v))
-        self.fields["window_q"] = frac_field("window_q", "… its Q within ± this of nominal: 10%, 0.1.", lambda v: replace(self.settings, window_q=v))
+        self.fields["window_f0"] = self._frac_field(box, "window_f0", "A trial passes when its f0 is within ± this of nominal: 5%, 0.05.", lambda v: replace(self.settings, window_f0=v))
+        self.fields["window_q"] = self._frac_field(box, "window_q", "… its Q within ± this of nominal: 10%, 0.1.", lambda v: replace(self.settings, window_q=v))
         self.fields["window_gain_db"] = ValueField(
             "window_gain_db", "dB", parse=lambda t: self._checked(lambda v: replace(self.settings, window_gain_db=v), parse_value(t.replace("dB", ""), field="window_gain_db")),
             fmt=lambda v: "" if v is None else f"{v:g} dB", tooltip="… and its centre gain within ± this many dB of nominal: 1, 0.5 dB.", parent=box,
@@ -451,13 +329,9 @@ class SpreadPane(QtWidgets.QScrollArea):
         grid.addWidget(self.fields["window_q"], 5, 3)
         grid.addWidget(QtWidgets.QLabel("Gain ±", box), 6, 0)
         grid.addWidget(self.fields["window_gain_db"], 6, 1)
-        for fld in self.fields.values():
-            fld.edit.setMaximumWidth(110)
-        for key, fld in self.fields.items():
-            fld.committed.connect(lambda v, k=key: self._on_field(k, v))
-        grid.setColumnStretch(4, 1)
-        self.settings_row.addWidget(box, 0)
 
+    def _build_parts_box(self, body: QtWidgets.QWidget) -> QtWidgets.QGroupBox:
+        """The table of per-part tolerances."""
         parts_box = QtWidgets.QGroupBox("Per-part tolerance (blank: its kind's)", body)
         pl = QtWidgets.QVBoxLayout(parts_box)
         self.parts = QtWidgets.QTableWidget(0, 3, parts_box)
@@ -471,9 +345,10 @@ class SpreadPane(QtWidgets.QScrollArea):
         pl.addWidget(self.parts)
         self.parts_error = error_label(parts_box)
         pl.addWidget(self.parts_error)
-        self.settings_row.addWidget(parts_box, 1)
+        return parts_box
 
-        # -- yield --------------------------------------------------------------------------
+    def _build_yield(self, body: QtWidgets.QWidget, outer: QtWidgets.QVBoxLayout) -> None:
+        """The stale warning, the error line, then the results (yield, histograms, tables)."""
         self.stale = QtWidgets.QLabel(body)
         self.stale.setObjectName("spreadStale")
         self.stale.setWordWrap(True)
@@ -482,80 +357,11 @@ class SpreadPane(QtWidgets.QScrollArea):
         outer.addWidget(self.stale)
         self.error = error_label(body)
         outer.addWidget(self.error)
-        yrow = QtWidgets.QHBoxLayout()
-        ycol, self.yield_label = headline(body, "Yield", "yieldLabel", 30)
-        yrow.addLayout(ycol)
-        self.yield_text = QtWidgets.QLabel(body)
-        self.yield_text.setObjectName("yieldText")
-        self.yield_text.setWordWrap(True)
-        self.yield_text.setTextFormat(QtCore.Qt.TextFormat.RichText)
-        yrow.addWidget(self.yield_text, 1)
-        outer.addLayout(yrow)
-
-        # -- histograms ---------------------------------------------------------------------
-        self.hist_grid = QtWidgets.QGridLayout()
-        self.hist_grid.setSpacing(6)
-        outer.addLayout(self.hist_grid)
-        self.histograms = {key: FigureHistogram(key, title, unit, body) for key, title, unit in _FIGURES}
-        self._hist_columns = 0
-        self._reflow_histograms(3)
-        key_line = QtWidgets.QLabel(
-            "Shaded green: the yield window. Solid line: nominal. Red dotted: the worst-case corners.", body
-        )
-        key_line.setObjectName("histogramKey")
-        key_line.setStyleSheet(f"color: {MUTED};")
-        key_line.setWordWrap(True)
-        outer.addWidget(key_line)
-        env_row = QtWidgets.QHBoxLayout()
-        self.show_envelope = QtWidgets.QCheckBox("Shade the p5–p95 band on the Magnitude plot", body)
-        self.show_envelope.setObjectName("showEnvelope")
-        self.show_envelope.setChecked(True)
-        self.show_envelope.setToolTip(f"The 5th to 95th percentile of the magnitude over the first {ENVELOPE_TRIALS} trials, on the Responses tab.")
-        self.show_envelope.toggled.connect(lambda _on: self._update_envelope())
-        env_row.addWidget(self.show_envelope)
-        env_row.addStretch(1)
-        outer.addLayout(env_row)
-
-        # -- statistics and worst case ------------------------------------------------------
-        self.tables_row = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.LeftToRight)
-        self.tables_row.setSpacing(12)
-        outer.addLayout(self.tables_row)
-        scol = QtWidgets.QVBoxLayout()
-        t = QtWidgets.QLabel("Statistics of the trials", body)
-        t.setObjectName("sectionTitle")
-        scol.addWidget(t)
-        self._stat_rows = ("nominal", "mean", "std", "min", "p5", "p50", "p95", "max", "worst low", "worst high")
-        self.stats = _table(len(self._stat_rows), 3, body, "spreadStats")
-        self.stats.setHorizontalHeaderLabels([title for _k, title, _u in _FIGURES])
-        self.stats.setVerticalHeaderLabels(["nominal", "mean", "std. dev.", "min", "p5", "median", "p95", "max", "worst case low", "worst case high"])
-        self.stats.horizontalHeader().setSectionResizeMode(QtWidgets.QHeaderView.ResizeMode.Stretch)
-        scol.addWidget(self.stats)
-        scol.addStretch(1)
-        self.tables_row.addLayout(scol, 1)
-        wcol = QtWidgets.QVBoxLayout()
-        self.worst_title = QtWidgets.QLabel("Worst case: the corners of the tolerance box", body)
-        self.worst_title.setObjectName("sectionTitle")
-        self.worst_title.setWordWrap(True)
-        wcol.addWidget(self.worst_title)
-        self.corners = _table(0, 6, body, "worstCorners")
-        self.corners.setHorizontalHeaderLabels(["f0 low", "f0 high", "Q low", "Q high", "gain low", "gain high"])
-        self.corners.horizontalHeader().setSectionResizeMode(QtWidgets.QHeaderView.ResizeMode.Stretch)
-        self.corners.setToolTip("Each column is one corner: the deviation of every part (and the GBW) that gives that extreme.")
-        wcol.addWidget(self.corners)
-        self.worst_note = QtWidgets.QLabel(body)
-        self.worst_note.setObjectName("worstNote")
-        self.worst_note.setWordWrap(True)
-        self.worst_note.setStyleSheet(f"color: {MUTED};")
-        wcol.addWidget(self.worst_note)
-        wcol.addStretch(1)
-        self.tables_row.addLayout(wcol, 1)
-        outer.addStretch(1)
-        for tbl in (self.stats, self.corners):
-            _fit_height(tbl)
-
-        state.session_changed.connect(self._on_session_changed)
-        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
-        self._on_session_changed(state.session)
+        self.results = SpreadResults(body)
+        self.results.show_envelope.toggled.connect(lambda _on: self._update_envelope())
+        outer.addWidget(self.results)
+        for name in _RESULT_WIDGETS:  # the results' widgets, reachable from the pane as before
+            setattr(self, name, getattr(self.results, name))
 
     # ------------------------------------------------------------------ settings
     @property
@@ -578,9 +384,9 @@ class SpreadPane(QtWidgets.QScrollArea):
     def _on_field(self, key: str, value) -> None:
         s = self.settings
         if key in ("R", "C", "L"):
-            self._store(self._with_kind(key, value), f"spread: {key} tolerance ±{_percent(value)}")
+            self._store(self._with_kind(key, value), f"spread: {key} tolerance ±{percent_text(value)}")
         elif key in ("window_f0", "window_q", "gbw_tol"):
-            self._store(replace(s, **{key: value}), f"spread: {key.replace('_', ' ')} ±{_percent(value)}")
+            self._store(replace(s, **{key: value}), f"spread: {key.replace('_', ' ')} ±{percent_text(value)}")
         elif key == "window_gain_db":
             self._store(replace(s, window_gain_db=value), f"spread: gain window ±{value:g} dB")
         else:
@@ -599,7 +405,7 @@ class SpreadPane(QtWidgets.QScrollArea):
             text = f"spread: {ref} takes its kind's tolerance"
         else:
             tol[ref] = value
-            text = f"spread: {ref} ±{_percent(value)}"
+            text = f"spread: {ref} ±{percent_text(value)}"
         self._store(replace(self.settings, tolerances=tol), text)
 
     def _on_part_item(self, item: QtWidgets.QTableWidgetItem) -> None:
@@ -675,7 +481,7 @@ class SpreadPane(QtWidgets.QScrollArea):
                 val = QtWidgets.QTableWidgetItem(format_value(values[ref], part_unit(kind), digits=4))
                 val.setFlags(val.flags() & ~QtCore.Qt.ItemFlag.ItemIsEditable)
                 own = ref in s.tolerances and ref not in ("R", "C", "L")
-                tol = _item(_percent(s.tolerances[ref]) if own else f"({_percent(s.tolerances[kind])}, {kind})", bold=own, colour=None if own else MUTED, align_right=False)
+                tol = table_item(percent_text(s.tolerances[ref]) if own else f"({percent_text(s.tolerances[kind])}, {kind})", bold=own, colour=None if own else MUTED, align_right=False)
                 tol.setToolTip("this part's own tolerance; clear it to use its kind's" if own else f"the tolerance of every {kind}; type one for {ref} alone")
                 self.parts.setItem(r, 0, name)
                 self.parts.setItem(r, 1, val)
@@ -732,7 +538,7 @@ class SpreadPane(QtWidgets.QScrollArea):
             progress(1.0)
             return SpreadRun(cid, key, spread, env, notes, time.perf_counter() - t0)
 
-        n = _count(settings.trials)
+        n = count_text(settings.trials)
         job = BackgroundJob(work, title=f"Tolerance spread of {cid}, {n} trials", parent=self)
         job.finished.connect(lambda result, j=job: self._on_job_finished(j, result))
         job.failed.connect(lambda text, j=job: self._on_job_failed(j, text))
@@ -806,16 +612,8 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.run_button.setEnabled(bool(cid) and not (self.job is not None and self.job.running))
         if run is None:
             self.stale.hide()
-            self.yield_label.setText("—")
-            n = _count(self.settings.trials)
-            self.yield_text.setText(f"Press <b>Run</b> to draw {n} trials of <b>{cid}</b>." if cid else "No active candidate.")
+            self.results.clear(cid, self.settings.trials)
             self.run_info.setText("Not run yet." if cid else "")
-            for h in self.histograms.values():
-                h.clear_data()
-            self.stats.clearContents()
-            self.corners.setRowCount(0)
-            _fit_height(self.corners)
-            self.worst_note.setText("")
             self._update_envelope()
             return
         sp = run.spread
@@ -826,73 +624,13 @@ class SpreadPane(QtWidgets.QScrollArea):
             f"⚠ Stale: {run.candidate_id} or the spread settings changed after this run; the figures below are from "
             "before the change (and the band is off the Magnitude plot). Press Run to bring them up to date."
         )
-        self.yield_label.setText(f"{100.0 * sp.yield_fraction:.1f} %")
-        passed = int(np.count_nonzero(sp.passed))
-        failed = sp.failed_trials
-        lines = [
-            f"<b>{_count(passed)}</b> of {_count(s.trials)} trials within the window: f0 ±{_percent(s.window_f0)}, "
-            f"Q ±{_percent(s.window_q)}, gain ±{s.window_gain_db:g} dB of nominal."
-        ]
-        if failed:
-            lines.append(f"<span style='color:{BAD}'>{_count(failed)} trials unstable or without a band-pass peak (counted as failing).</span>")
-        lines += [f"<span style='color:{MUTED}'>{n}.</span>" for n in run.notes]
-        self.yield_text.setText("<br>".join(lines))
-        tol = ", ".join(f"{k} ±{_percent(v)}" for k, v in sp.tolerances.items())
-        gbw = f", GBW ±{_percent(s.gbw_tol)}" if s.gbw_tol > 0 else ""
+        tol = ", ".join(f"{k} ±{percent_text(v)}" for k, v in sp.tolerances.items())
+        gbw = f", GBW ±{percent_text(s.gbw_tol)}" if s.gbw_tol > 0 else ""
         self.run_info.setText(
-            f"{run.candidate_id}: {_count(s.trials)} trials, {_DIST_TEXT[s.dist]}, seed {s.seed} ({tol}{gbw}); {run.seconds:.2f} s."
+            f"{run.candidate_id}: {count_text(s.trials)} trials, {DIST_TEXT[s.dist]}, seed {s.seed} ({tol}{gbw}); {run.seconds:.2f} s."
         )
-        nom = sp.nominal.item()
-        colour = self.state.style(run.candidate_id).colour
-        for key, _title, _unit in _FIGURES:
-            x = getattr(sp, key)[sp.measured]
-            n0 = float(getattr(nom, key))
-            self.histograms[key].show_data(x, n0, window_of(s, key, n0), getattr(sp.worst, key), colour)
-        self._fill_stats(sp)
-        self._fill_corners(sp)
+        self.results.show_run(run, self.state.style(run.candidate_id).colour)
         self._update_envelope()
-
-    def _fill_stats(self, sp: Spread) -> None:
-        nom = sp.nominal.item()
-        for j, (key, _title, _unit) in enumerate(_FIGURES):
-            st = sp.stats(key)
-            lo, hi = getattr(sp.worst, key)
-            vals = [float(getattr(nom, key)), st["mean"], st["std"], st["min"], st["p5"], st["p50"], st["p95"], st["max"], lo, hi]
-            for i, v in enumerate(vals):
-                text = _fmt_spread(key, v) if self._stat_rows[i] == "std" else _fmt_figure(key, v)
-                self.stats.setItem(i, j, _item(text, bold=self._stat_rows[i].startswith("worst"), colour=BAD if self._stat_rows[i].startswith("worst") else None))
-
-    def _fill_corners(self, sp: Spread) -> None:
-        wc = sp.worst
-        self.worst_title.setText(
-            f"Worst case: {wc.method}" + (f" ({wc.corner_count})" if wc.corner_count else "") + " of the tolerance box"
-        )
-        names = []
-        for key in ("f0_hz", "q", "gain_center_db"):
-            for corner in wc.corners.get(key, ({}, {})):
-                for n in corner:
-                    if n not in names:
-                        names.append(n)
-        self.corners.setRowCount(len(names))
-        self.corners.setVerticalHeaderLabels(["GBW" if n == "gbw" else n for n in names])
-        col = 0
-        for key in ("f0_hz", "q", "gain_center_db"):
-            lo_hi = wc.corners.get(key, ({}, {}))
-            ext = getattr(wc, key)
-            for side in (0, 1):
-                corner = lo_hi[side]
-                head = self.corners.horizontalHeaderItem(col)
-                head.setToolTip(f"{'lowest' if side == 0 else 'highest'} {key.split('_')[0]}: {_fmt_figure(key, ext[side])}")
-                for r, n in enumerate(names):
-                    d = corner.get(n)
-                    text = "" if d is None else (f"+{_percent(d)}" if d > 0 else f"−{_percent(-d)}")
-                    self.corners.setItem(r, col, _item(text, colour=BAD if d is not None and d < 0 else None))
-                col += 1
-        note = "Each column is one corner: the deviation of every part that gives that extreme (the extremes are the statistics' worst-case rows)."
-        if wc.unstable_corners:
-            note += f" {wc.unstable_corners} corner{'s are' if wc.unstable_corners > 1 else ' is'} unstable or without a peak."
-        self.worst_note.setText(note)
-        _fit_height(self.corners)
 
     def _update_envelope(self) -> None:
         plot = self.magnitude_plot
@@ -912,25 +650,12 @@ class SpreadPane(QtWidgets.QScrollArea):
         self._envelope_of = (run, colour)
 
     # ------------------------------------------------------------------ layout
-    def _reflow_histograms(self, columns: int) -> None:
-        if columns == self._hist_columns:
-            return
-        self._hist_columns = columns
-        for h in self.histograms.values():
-            self.hist_grid.removeWidget(h)
-        for i, h in enumerate(self.histograms.values()):
-            self.hist_grid.addWidget(h, i // columns, i % columns)
-        for c in range(3):
-            self.hist_grid.setColumnStretch(c, 1 if c < columns else 0)
-
     def resizeEvent(self, event) -> None:  # noqa: N802 - Qt's name
         super().resizeEvent(event)
         w = event.size().width()
-        self._reflow_histograms(3 if w >= 760 else 2)
+        self.results.reflow(w)
         direction = QtWidgets.QBoxLayout.Direction.LeftToRight if w >= 860 else QtWidgets.QBoxLayout.Direction.TopToBottom
         self.settings_row.setDirection(direction)
-        self.tables_row.setDirection(direction)
-        QtCore.QTimer.singleShot(0, lambda: [_fit_height(t) for t in (self.stats, self.corners)])
 
 
 def install(window) -> SpreadPane:

@@ -18,6 +18,7 @@ from PySide6 import QtCore, QtGui, QtWidgets
 from bandsmith.common.values import format_value
 
 from bandsmith.app.document.results import CandidateResult
+from bandsmith.app.plots.axes import LogAxis
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import INK, MUTED
 
@@ -42,33 +43,6 @@ _ERR_FLOOR, _ERR_CEIL = 1e-3, 1e3
 
 def _short(x: float, unit: str = "") -> str:
     return format_value(x, unit, digits=3)
-
-
-class LogAxis(pg.AxisItem):
-    """A logarithmic axis whose ticks read 100, 1k, 10k, 1M (SI prefixes, no exponents).
-
-    With ``plain=True`` the ticks are plain numbers (0.01, 0.1, 1, 10) for dimensionless ratios,
-    where "10m" would read as metres or milli-something.
-    """
-
-    def __init__(self, orientation, *, plain: bool = False, **kw):
-        super().__init__(orientation, **kw)
-        self._plain = plain
-        self.enableAutoSIPrefix(False)
-
-    def tickStrings(self, values, scale, spacing):
-        if not self.logMode:
-            return super().tickStrings(values, scale, spacing)
-        out = []
-        for v in values:
-            x = 10.0**v
-            if not math.isfinite(x):
-                out.append("")
-            elif self._plain:
-                out.append(f"{x:g}")
-            else:
-                out.append(_short(x).replace(" ", ""))
-        return out
 
 
 class CandidatePlot(pg.PlotWidget):

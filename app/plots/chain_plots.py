@@ -20,8 +20,8 @@ from PySide6 import QtCore, QtGui, QtWidgets
 from bandsmith.chain.cascade import Cascade, ChainSettings
 from bandsmith.common.values import format_value
 
-from bandsmith.app.window.widgets.plots import LogAxis
-from bandsmith.app.window.theme import INK, apply_plot_theme, candidate_style
+from bandsmith.app.plots.axes import LogAxis
+from bandsmith.app.plots.palette import INK, apply_plot_theme, candidate_style
 
 __all__ = ["ChainPlots", "plot_frequencies", "response_title"]
 
