@@ -30,6 +30,7 @@ from html import escape
 from pathlib import Path
 from typing import Callable, Mapping, Sequence
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.analyzer import Analysis
 from bandsmith.design.candidate import Candidate, Conditions
 from bandsmith.common.cautions import cautions_html
@@ -61,7 +62,7 @@ __all__ = [
 ]
 
 REPORT_SUFFIXES = (".html", ".htm", ".pdf")
-_PART_UNITS = {"R": "Ω", "L": "H", "C": "F"}
+_PART_UNITS = PART_UNITS
 _PLOT_CAPTIONS = {
     "magnitude": "Magnitude response, every active candidate overlaid.",
     "phase": "Phase response (unwrapped along the sweep).",

@@ -26,6 +26,7 @@ import base64
 import math
 from html import escape
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.chain.cascade import Cascade, Chain, chain_cascade
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
@@ -38,7 +39,7 @@ from bandsmith.app.report.builder import ReportContext, _gbw_cell, _signed, _sle
 __all__ = ["section_chains", "chain_plot_png", "PLOT_ASPECT"]
 
 PLOT_ASPECT = 0.78  # height / width of the chain's plot image
-_UNITS = {"R": "Ω", "L": "H", "C": "F"}
+_UNITS = PART_UNITS
 
 
 def chain_plot_png(result: Cascade, *, width: int = 900, height: int | None = None, scale: float = 2.0) -> bytes:

@@ -27,6 +27,7 @@ from typing import Sequence
 
 import numpy as np
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.analyzer import sweep, transfer_function
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.errors import InputError
@@ -39,7 +40,7 @@ from bandsmith.app.report.builder import CandidateReport, ReportContext, registe
 __all__ = ["section_measured", "measured_plot_pngs", "MEASURED_KEYS"]
 
 MEASURED_KEYS = ("magnitude", "phase")
-_UNITS = {"R": "Ω", "C": "F", "L": "H"}
+_UNITS = PART_UNITS
 _POINTS_COLOUR = "#5f6368"
 _FIT_COLOUR = "#202124"
 _ASPECT = 0.28

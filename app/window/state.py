@@ -18,6 +18,7 @@ from typing import Mapping
 from PySide6 import QtCore
 from PySide6.QtGui import QUndoStack
 
+from bandsmith.common.units import PART_UNITS, part_unit
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.eseries import nearest
 from bandsmith.common.errors import InputError
@@ -30,11 +31,7 @@ from bandsmith.app.window.theme import CandidateStyle, candidate_style
 
 __all__ = ["WorkbenchState", "UNITS", "part_unit"]
 
-UNITS = {"R": "Ω", "C": "F", "L": "H"}
-
-
-def part_unit(kind: str) -> str:
-    return UNITS.get(kind, "")
+UNITS = PART_UNITS
 
 
 class WorkbenchState(QtCore.QObject):

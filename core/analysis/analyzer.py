@@ -12,6 +12,7 @@ from typing import Mapping
 
 import numpy as np
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
@@ -74,8 +75,7 @@ class Requirements:
     gbw_rule_of_thumb_hz: float
 
     def to_json(self) -> dict:
-        def f(x):
-            return None if x is None or not math.isfinite(x) else float(x)
+        f = finite_or_none
 
         return {
             "gbw_hz": f(self.gbw_hz),

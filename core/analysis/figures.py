@@ -27,6 +27,7 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
@@ -67,8 +68,7 @@ class Figures:
         """CONTRACT.md's FIGURES object for member ``i`` (None where a figure is undefined)."""
         out = {}
         for f in fields(self):
-            v = float(np.asarray(getattr(self, f.name)).reshape(-1)[i])
-            out[f.name] = v if np.isfinite(v) else None
+            out[f.name] = finite_or_none(np.asarray(getattr(self, f.name)).reshape(-1)[i])
         return out
 
     @property

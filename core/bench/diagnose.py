@@ -42,6 +42,7 @@ import numpy as np
 import scipy.optimize
 import scipy.special
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.errors import InputError
@@ -89,10 +90,9 @@ class PartFit:
     change_se_pct: float = math.nan
 
     def to_json(self) -> dict:
-        se = float(self.change_se_pct)
         return {
             "part": self.part, "value": float(self.value), "change_pct": float(self.change_pct),
-            "change_se_pct": se if math.isfinite(se) else None,
+            "change_se_pct": finite_or_none(self.change_se_pct),
             "residual_db_rms": float(self.residual_db_rms), "explained_pct": float(100.0 * self.explained),
             "at_bound": bool(self.at_bound),
         }
@@ -176,8 +176,7 @@ class Diagnosis:
     def to_json(self) -> dict:
         """CONTRACT's FIT object (see ``bandsmith fit``)."""
 
-        def f(x):
-            return float(x) if math.isfinite(x) else None
+        f = finite_or_none
 
         return {
             "topology": self.topology_id,

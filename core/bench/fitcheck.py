@@ -27,6 +27,7 @@ from typing import Iterable, Mapping
 
 import numpy as np
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.ampmodel import amp_transfer_function
 from bandsmith.analysis.analyzer import Requirements, Tolerances, required_gbw, requirements, transfer_function, within_tolerances
 from bandsmith.common.errors import InputError
@@ -86,8 +87,7 @@ class Margins:
         return {"gbw": self.gbw, "slew": self.slew, "iout": self.iout, "swing": self.swing, "cm": self.cm}
 
     def to_json(self) -> dict:
-        def f(x):
-            return float(x) if math.isfinite(x) else None
+        f = finite_or_none
 
         return {k: f(getattr(self, k)) for k in ("gbw", "slew", "iout", "swing_v", "swing", "cm", "cm_v")}
 
@@ -113,8 +113,7 @@ class Needs:
         return max(self.slew_sine_v_per_us, self.slew_step_v_per_us)
 
     def to_json(self) -> dict:
-        def f(x):
-            return None if x is None or not math.isfinite(x) else float(x)
+        f = finite_or_none
 
         return {
             "gbw_hz": f(self.gbw_hz),

@@ -50,6 +50,7 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.chain.bandpass import Band, CascadePlan, SectionPlan, band_from, biquad_bandpass, peak_over_frequency, plan_cascade
 from bandsmith.analysis.analyzer import Tolerances
 from bandsmith.design.candidate import Candidate, Conditions
@@ -417,8 +418,7 @@ class Overall:
     f_high_3db_hz: float
 
     def to_json(self) -> dict:
-        def f(x):
-            return float(x) if math.isfinite(x) else None
+        f = finite_or_none
 
         return {
             "f_low_hz": f(self.f_low_hz),

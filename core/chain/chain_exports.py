@@ -21,6 +21,7 @@ import math
 from dataclasses import dataclass
 from typing import Any, Mapping
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.analyzer import DEFAULT_A0
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.cautions import cautions_comment
@@ -32,7 +33,7 @@ from bandsmith.common.values import format_value
 __all__ = ["CHAIN_PARTS_HEADER", "ChainPart", "stage_suffix", "chain_spice_netlist", "chain_parts_csv", "chain_parts"]
 
 CHAIN_PARTS_HEADER = ["stage", "reference", "stage_reference", "circuit", "kind", "value", "formatted_value", "series", "role"]
-_UNITS = {"R": "Ω", "L": "H", "C": "F"}
+_UNITS = PART_UNITS
 
 
 def stage_suffix(index: int) -> str:

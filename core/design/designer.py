@@ -35,6 +35,8 @@ from typing import Mapping
 
 import numpy as np
 
+from bandsmith.common.units import PART_UNITS
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.analysis.analyzer import Analysis, Tolerances, transfer_function
 from bandsmith.design.candidate import Candidate, Conditions
 from bandsmith.circuits import get_topology
@@ -61,7 +63,7 @@ __all__ = [
     "part_series_of",
 ]
 
-UNITS = {"R": "Ω", "L": "H", "C": "F"}
+UNITS = PART_UNITS  # kept under its old name
 _KIND_NAMES = {"R": "resistor", "C": "capacitor", "L": "inductor"}
 # Warn when the tolerance needed on every part to hold Q within its tolerance falls below this.
 _TIGHT_PARTS = 0.005
@@ -515,8 +517,8 @@ def design_json(result: DesignResult) -> dict:
         "notes": list(result.notes),
         "search": None if s is None else {
             "combinations": s.combinations,
-            "weighted_error": s.weighted if math.isfinite(s.weighted) else None,
-            "weighted_error_rounded": s.weighted_rounded if math.isfinite(s.weighted_rounded) else None,
+            "weighted_error": finite_or_none(s.weighted),
+            "weighted_error_rounded": finite_or_none(s.weighted_rounded),
         },
         **body,
     }

@@ -18,6 +18,7 @@ from typing import Any
 
 import numpy as np
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.analyzer import DEFAULT_A0, ideal_figures, sweep, transfer_function
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.cautions import cautions_comment
@@ -44,7 +45,7 @@ IDEAL_GAIN = 1e9
 _GM = 1e-3  # transconductance of the macro-model's input stage (S)
 RESPONSE_HEADER = ["frequency_hz", "magnitude_db", "phase_deg", "group_delay_s"]
 PARTS_HEADER = ["reference", "kind", "value", "formatted_value", "series", "role"]
-_UNITS = {"R": "Ω", "L": "H", "C": "F"}
+_UNITS = PART_UNITS
 
 
 def _candidate(obj: Any) -> tuple[Candidate, str]:
