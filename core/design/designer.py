@@ -45,7 +45,8 @@ from bandsmith.common.eseries import SERIES_NAMES, in_series, search_options
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
 from bandsmith.analysis.figures import Figures, measure
 from bandsmith.analysis.inductor import inductor_q_needed, inductor_q_warning
-from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec, hurwitz_stable, search_grid
+from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec, search_grid
+from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
 from bandsmith.common.values import format_value, parse_value
 

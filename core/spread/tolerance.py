@@ -17,7 +17,7 @@ trial.
 The figures of a trial are those of :mod:`bandsmith.analysis.figures`. A second-order band-pass
 ``b1·p/(a2·p² + a1·p + a0)`` (any circuit here with an ideal op-amp) has them in closed form —
 ``ω0 = √(a0/a2)``, ``Q = √(a0·a2)/|a1|``, centre gain ``b1/a1`` and ``−3 dB`` points
-``ω0·(√(1 + 1/(4Q²)) ∓ 1/(2Q))``, the same values :func:`bandsmith.analysis.figures.measure` finds — otherwise
+``ω0·(√(1 + 1/(4Q²)) ∓ 1/(2Q))``, by :func:`bandsmith.analysis.figures.biquad_figures` — otherwise
 they are measured on a search grid of each trial's own, centred on the first-order estimate of its
 f0 and as wide as three times its estimated half-bandwidth (robust from Q = 0.5 to beyond 100); a
 trial whose measurement lands away from its estimate is measured again with the global search of
@@ -46,10 +46,11 @@ import numpy as np
 from bandsmith.analysis.analyzer import Tolerances, transfer_function, within_tolerances
 from bandsmith.common.errors import InputError
 from bandsmith.solver.expansion import Expansion, ExpansionUnavailable, Variable, circuit_variables
-from bandsmith.analysis.figures import Figures, measure
+from bandsmith.analysis.figures import Figures, biquad_figures, measure
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import Rational, reference_w
+from bandsmith.solver.stability import hurwitz_stable
 
 __all__ = [
     "DEFAULT_TOLERANCES",
@@ -380,65 +381,6 @@ def stats(x: np.ndarray) -> dict[str, float]:
 # ---------------------------------------------------------------------------------------------
 # Stability and figures of a batch
 # ---------------------------------------------------------------------------------------------
-def hurwitz_stable(den: np.ndarray) -> np.ndarray:
-    """True where every root of the polynomial lies in the open left half-plane (Routh–Hurwitz).
-
-    Parameters
-    ----------
-    den : ndarray
-        Real coefficients, highest power first, shape ``(B, n + 1)`` (leading coefficient
-        non-zero). A zero in the first column of the Routh array (a root on or near the axis)
-        counts as not stable.
-    """
-    a = np.asarray(den, dtype=float)
-    b, k = a.shape
-    with np.errstate(invalid="ignore", divide="ignore"):
-        a = a / a[:, :1]
-        ok = np.all(np.isfinite(a), axis=1)
-        if k == 1:
-            return ok
-        width = (k + 1) // 2 + 1
-        r0 = np.zeros((b, width))
-        r1 = np.zeros((b, width))
-        r0[:, : (k + 1) // 2] = a[:, 0::2]
-        r1[:, : k // 2] = a[:, 1::2]
-        for _ in range(k - 1):
-            first = r1[:, 0]
-            ok &= first > 0
-            safe = np.where(first > 0, first, 1.0)
-            nxt = np.zeros_like(r0)
-            nxt[:, :-1] = (first[:, None] * r0[:, 1:] - r0[:, :1] * r1[:, 1:]) / safe[:, None]
-            r0, r1 = r1, nxt
-    return ok
-
-
-def _closed_form(num: np.ndarray, den: np.ndarray, w_ref: float) -> tuple[Figures, np.ndarray]:
-    """Figures of ``b1·p/(a2·p² + a1·p + a0)`` (rows of ``num``, ``den`` lowest power first)."""
-    b1 = num[0]
-    a0, a1, a2 = den[0], den[1], den[2]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        stable = ((a0 > 0) & (a1 > 0) & (a2 > 0)) | ((a0 < 0) & (a1 < 0) & (a2 < 0))
-        ratio = a0 / a2
-        x0 = np.sqrt(np.where(ratio > 0, ratio, np.nan))
-        q = x0 * np.abs(a2 / a1)
-        f0 = x0 * (w_ref / (2.0 * math.pi))
-        gain = b1 / a1
-        half = 1.0 / (2.0 * q)
-        root = np.sqrt(1.0 + half * half)
-        mag = np.abs(gain)
-        fig = Figures(
-            f0_hz=f0,
-            q=q,
-            bw_hz=f0 / q,
-            f_low_hz=f0 * (root - half),
-            f_high_hz=f0 * (root + half),
-            gain_center=gain,
-            gain_center_db=20.0 * np.log10(np.where(mag > 0, mag, np.nan)),
-            phase_center_deg=np.where(np.isfinite(gain), np.where(gain < 0, 180.0, 0.0), np.nan),
-        )
-    return fig, stable & np.isfinite(q) & np.isfinite(gain)
-
-
 def _put(fig: Figures, idx: np.ndarray, part: Figures) -> Figures:
     out = {}
     for f in fields(Figures):
@@ -502,8 +444,8 @@ class _Evaluator:
     def figures(self, ratios: np.ndarray, *, tracked: bool = True) -> tuple[Figures, np.ndarray]:
         """Figures and stability of each row of ``ratios`` (shape ``(B, len(variables))``)."""
         if self.expansion is not None and self.expansion.pure_bandpass:
-            num, den = self.expansion.coefficients(ratios)
-            return _closed_form(num, den, self.w_ref)
+            num, den = self.expansion.coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
+            return biquad_figures(num[0], den[2], den[1], den[0], self.w_ref)
         h = self.rational(ratios)
         stable = hurwitz_stable(h.den)
         fig = self._measure_tracked(h, ratios) if tracked else _measure_wide(h)
