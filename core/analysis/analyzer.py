@@ -14,6 +14,7 @@ import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.errors import InputError
+from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
@@ -415,9 +416,6 @@ def requirements(
     )
 
 
-_SENS_STEP = 1e-4
-
-
 @dataclass(frozen=True, slots=True)
 class _FirstPass:
     w_ref: float
@@ -460,8 +458,8 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal + 1, 1))
     cols = [col[r] for r in refs]
     rows = np.arange(len(refs))
-    lr[1 + 2 * rows, cols] += _SENS_STEP
-    lr[2 + 2 * rows, cols] -= _SENS_STEP
+    lr[1 + 2 * rows, cols] += SENS_STEP
+    lr[2 + 2 * rows, cols] -= SENS_STEP
     num, den = exp.dense_log(lr, absent=_absent_mask(n_ideal + 1, len(variables), col["gbw"], col["a0"]))
     # in p = s (the unit expansion), highest power first
     d0 = den[0]
@@ -499,7 +497,7 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
     if quick is not None:
         w_ref, h, family = quick
     else:
-        up, down = math.exp(_SENS_STEP), math.exp(-_SENS_STEP)
+        up, down = math.exp(SENS_STEP), math.exp(-SENS_STEP)
         over = {}
         for j, r in enumerate(refs):
             col = np.full(n_ideal, values[r])
@@ -511,8 +509,7 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
             w_ref = reference_w(batch)
         h, family = rational_and_family(batch, w_ref)
     fig = measure(h)
-    ly = np.log(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
-    sv = (ly[:, 0::2] - ly[:, 1::2]) / (2.0 * _SENS_STEP)
+    sv = log_slopes(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
     sens = {}
     for row, key in enumerate(("f0", "q", "gain")):
         by_ref = dict(zip(refs, sv[row].tolist()))

@@ -46,6 +46,7 @@ import numpy as np
 from bandsmith.analysis.analyzer import Tolerances, transfer_function, within_tolerances
 from bandsmith.common.errors import InputError
 from bandsmith.solver.expansion import Expansion, ExpansionUnavailable, Variable, circuit_variables
+from bandsmith.analysis.sensitivity import log_slopes, perturbed_ratios
 from bandsmith.analysis.figures import Figures, biquad_figures, measure
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
@@ -84,7 +85,6 @@ MAX_CORNER_PARTS = 12
 MAX_TOLERANCE = 0.5
 MAX_TRIALS = 5_000_000
 _GRID_POINTS = 49
-_SENS_STEP = 1e-4
 _WIDE_CHUNK = 256
 
 
@@ -454,17 +454,11 @@ class _Evaluator:
     def sensitivities(self) -> dict[str, np.ndarray]:
         """``∂ln y/∂ln x`` of f0, Q and |gain| to every variable (central differences, step 1e-4)."""
         if self._sens is None:
-            n = len(self.variables)
-            rows = np.ones((2 * n, n))
-            for j in range(n):
-                rows[2 * j, j] = math.exp(_SENS_STEP)
-                rows[2 * j + 1, j] = math.exp(-_SENS_STEP)
-            fig, _ = self.figures(rows, tracked=False)
+            fig, _ = self.figures(perturbed_ratios(len(self.variables)), tracked=False)
             out = {}
             for key, y in (("f0", fig.f0_hz), ("q", fig.q), ("gain", np.abs(fig.gain_center))):
                 with np.errstate(invalid="ignore", divide="ignore"):
-                    ly = np.log(y)
-                s = (ly[0::2] - ly[1::2]) / (2.0 * _SENS_STEP)
+                    s = log_slopes(y)
                 out[key] = np.where(np.isfinite(s), s, 0.0)
             self._sens = out
         return self._sens
