@@ -15,7 +15,7 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-from bandsmith.common.atomic import write_bytes_atomic
+from bandsmith.files import exports
 from bandsmith.common.errors import InputError
 from bandsmith.files.session import Session
 
@@ -45,18 +45,12 @@ def write_atomic(path: str | os.PathLike, data: bytes | str) -> Path:
         On the field ``output`` when the folder is missing or the file cannot be written.
     """
     p = Path(path)
-    if isinstance(data, str):
-        data = data.encode("utf-8")
     folder = p.parent if str(p.parent) else Path(".")
     if not folder.is_dir():
         raise InputError("output", f"the folder {folder} does not exist")
     if p.is_dir():
         raise InputError("output", f"{p} is a folder")
-    try:
-        write_bytes_atomic(p, data)
-    except OSError as exc:
-        raise InputError("output", f"cannot write {p}: {exc.strerror or exc}") from None
-    return p
+    return exports.write_atomic(p, data)
 
 
 # --------------------------------------------------------------------------- images
@@ -148,18 +142,10 @@ def export_plot_image(widget, path: str | os.PathLike, *, title: str | None = No
 # --------------------------------------------------------------------------- tables and netlists
 
 
-def _exports():
-    try:
-        from bandsmith.files import exports
-    except ImportError as exc:  # pragma: no cover - the core module ships with this one
-        raise RuntimeError(f"the exports of the core are missing ({exc})") from None
-    return exports
-
-
 def export_parts_csv(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:
     """Write the parts list of one candidate of ``session`` as CSV (:func:`bandsmith.files.exports.parts_csv`)."""
     entry = session.candidate(candidate_id)
-    return write_atomic(path, _exports().parts_csv(entry, gbw_hz=session.opamp.gbw_hz))
+    return write_atomic(path, exports.parts_csv(entry, gbw_hz=session.opamp.gbw_hz))
 
 
 def export_response_csv(session: Session, candidate_id: str, path: str | os.PathLike, *, f_hz=None) -> Path:
@@ -175,11 +161,11 @@ def export_response_csv(session: Session, candidate_id: str, path: str | os.Path
     cond = session.conditions_for(entry)
     if f_hz is None:
         f_hz = frequency_grid([session.target.f0_hz])
-    return write_atomic(path, _exports().response_csv(entry, gbw_hz=cond.gbw_hz, a0=cond.a0, f_hz=f_hz))
+    return write_atomic(path, exports.response_csv(entry, gbw_hz=cond.gbw_hz, a0=cond.a0, f_hz=f_hz))
 
 
 def export_netlist(session: Session, candidate_id: str, path: str | os.PathLike) -> Path:
     """Write one candidate as a SPICE netlist with the session's op-amp (:func:`bandsmith.files.exports.spice_netlist`)."""
     entry = session.candidate(candidate_id)
     cond = session.conditions_for(entry)
-    return write_atomic(path, _exports().spice_netlist(entry, gbw_hz=cond.gbw_hz, a0=cond.a0))
+    return write_atomic(path, exports.spice_netlist(entry, gbw_hz=cond.gbw_hz, a0=cond.a0))

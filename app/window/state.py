@@ -245,10 +245,7 @@ class WorkbenchState(QtCore.QObject):
 
     # ------------------------------------------------------------------ internals
     def _designed(self, entry: CandidateEntry, session: Session) -> tuple[CandidateEntry | None, str | None]:
-        try:
-            from bandsmith.design.designer import Spec, design
-        except ImportError:
-            return None, "automatic design is not available"
+        from bandsmith.design.designer import Spec, design
         t = session.target
         try:
             fixed = {r: entry.values[r] for r in entry.fixed}

@@ -242,8 +242,9 @@ def response_csv(
     return buf.getvalue()
 
 
-def write_atomic(path: str | os.PathLike, text: str) -> None:
-    """Write text (UTF-8) atomically: a temporary file in the same folder, fsync, rename.
+def write_atomic(path: str | os.PathLike, text: str | bytes) -> Path:
+    """Write text (UTF-8) or bytes atomically (:func:`bandsmith.common.atomic.write_bytes_atomic`:
+    a temporary file in the same folder, fsync, rename); returns the path.
 
     Raises
     ------
@@ -255,3 +256,4 @@ def write_atomic(path: str | os.PathLike, text: str) -> None:
         write_bytes_atomic(target, text)
     except OSError as exc:
         raise InputError("output", f"cannot write {target}: {exc.strerror or exc}") from None
+    return target
