@@ -13,6 +13,7 @@ from typing import Mapping
 import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
+from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure, measure_near
@@ -62,7 +63,10 @@ class Tolerances:
 
 @dataclass(frozen=True, slots=True)
 class Requirements:
-    """What the circuit asks of its op-amp (CONTRACT.md's REQUIREMENTS)."""
+    """What the circuit asks of its op-amp (CONTRACT.md's REQUIREMENTS).
+
+    Stored in SI (V/s, A); the data-sheet units (V/µs, mA) are the properties below and the JSON.
+    """
 
     gbw_hz: float | None
     gbw_reason: str | None
@@ -70,10 +74,25 @@ class Requirements:
     a0: float
     vin_v: float
     vout_peak_v: float
-    slew_sine_v_per_us: float
-    slew_step_v_per_us: float
-    iout_peak_ma: float
+    slew_sine_v_per_s: float
+    slew_step_v_per_s: float
+    iout_peak_a: float
     gbw_rule_of_thumb_hz: float
+
+    @property
+    def slew_sine_v_per_us(self) -> float:
+        """Slew rate for a sine at f0, in V/µs (for display)."""
+        return to_v_per_us(self.slew_sine_v_per_s)
+
+    @property
+    def slew_step_v_per_us(self) -> float:
+        """Slew rate for an input step, in V/µs (for display)."""
+        return to_v_per_us(self.slew_step_v_per_s)
+
+    @property
+    def iout_peak_ma(self) -> float:
+        """Peak output current at f0, in mA (for display)."""
+        return to_ma(self.iout_peak_a)
 
     def to_json(self) -> dict:
         f = finite_or_none
@@ -409,9 +428,9 @@ def requirements(
         a0=a0,
         vin_v=vin_v,
         vout_peak_v=gain * vin_v,
-        slew_sine_v_per_us=2.0 * math.pi * ref.f0_hz * gain * vin_v * 1e-6,
-        slew_step_v_per_us=step_slope_per_s * vin_v * 1e-6,
-        iout_peak_ma=iout * 1e3,
+        slew_sine_v_per_s=2.0 * math.pi * ref.f0_hz * gain * vin_v,
+        slew_step_v_per_s=step_slope_per_s * vin_v,
+        iout_peak_a=iout,
         gbw_rule_of_thumb_hz=rule,
     )
 

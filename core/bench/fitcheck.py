@@ -28,6 +28,7 @@ from typing import Iterable, Mapping
 import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
+from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.solver.ampmodel import amp_transfer_function
 from bandsmith.analysis.analyzer import Requirements, Tolerances, required_gbw, requirements, transfer_function, within_tolerances
 from bandsmith.common.errors import InputError
@@ -94,13 +95,16 @@ class Margins:
 
 @dataclass(frozen=True, slots=True)
 class Needs:
-    """What the candidate asks of this op-amp at the input level (units in the names)."""
+    """What the candidate asks of this op-amp at the input level (units in the names).
+
+    Stored in SI (V/s, A); the data-sheet units (V/µs, mA) are the properties below and the JSON.
+    """
 
     gbw_hz: float | None
     gbw_reason: str | None
-    slew_sine_v_per_us: float
-    slew_step_v_per_us: float
-    iout_ma: float
+    slew_sine_v_per_s: float
+    slew_step_v_per_s: float
+    iout_a: float
     vout_peak_v: float
     out_allowed_v: float
     cm_node: str | None
@@ -109,8 +113,20 @@ class Needs:
     supply_total_v: float
 
     @property
+    def slew_sine_v_per_us(self) -> float:
+        return to_v_per_us(self.slew_sine_v_per_s)
+
+    @property
+    def slew_step_v_per_us(self) -> float:
+        return to_v_per_us(self.slew_step_v_per_s)
+
+    @property
     def slew_v_per_us(self) -> float:
         return max(self.slew_sine_v_per_us, self.slew_step_v_per_us)
+
+    @property
+    def iout_ma(self) -> float:
+        return to_ma(self.iout_a)
 
     def to_json(self) -> dict:
         f = finite_or_none
@@ -296,9 +312,9 @@ def check_amp(
     needs = Needs(
         gbw_hz=gbw_need,
         gbw_reason=gbw_reason,
-        slew_sine_v_per_us=req.slew_sine_v_per_us,
-        slew_step_v_per_us=req.slew_step_v_per_us,
-        iout_ma=req.iout_peak_ma,
+        slew_sine_v_per_s=req.slew_sine_v_per_s,
+        slew_step_v_per_s=req.slew_step_v_per_s,
+        iout_a=req.iout_peak_a,
         vout_peak_v=out_peak,
         out_allowed_v=out_allowed,
         cm_node=None if cm_node == netlist.ground else cm_node,

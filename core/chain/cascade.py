@@ -866,7 +866,7 @@ def _loaded(stages: tuple[Stage, ...]) -> tuple[Stage, ...]:
         if not math.isfinite(f0):
             continue
         amps = opamp_output_current(an.netlist, f0, load=nxt.result.analysis.netlist) * st.vin_v
-        req = replace(an.requirements, iout_peak_ma=amps * 1e3)
+        req = replace(an.requirements, iout_peak_a=amps)
         out[k] = replace(st, result=replace(st.result, analysis=replace(an, requirements=req)))
     return tuple(out)
 
