@@ -26,17 +26,9 @@ __all__ = ["DB_PER_NEPER", "EDGE", "Fits", "ResidualModel", "fit_everything", "m
 
 
 DB_PER_NEPER = 20.0 / math.log(10.0)
-
-
 _PRIOR_DB = 0.01  # residual (dB) per tolerance moved: the faint pull towards the design
-
-
 _FD_STEP = 1e-6
-
-
 _CONFIDENCE = 0.999
-
-
 _NULL_RATIO = 1e-4
 
 

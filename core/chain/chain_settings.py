@@ -25,8 +25,6 @@ HALF_POWER_DB = 10.0 * math.log10(0.5)
 
 
 AUTO = "auto"
-
-
 _SERIES_CHOICES = SERIES_NAMES + ("exact",)
 
 

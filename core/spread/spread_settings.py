@@ -17,28 +17,16 @@ __all__ = ["DEFAULT_TOLERANCES", "KINDS", "DISTRIBUTIONS", "STAT_KEYS", "CHUNK",
 
 #: Tolerances by kind when none is given (fractions): resistors 1 %, capacitors 5 %, inductors 10 %.
 DEFAULT_TOLERANCES = MappingProxyType({"R": 0.01, "C": 0.05, "L": 0.10})
-
-
 KINDS = ("R", "C", "L")
-
-
 DISTRIBUTIONS = ("uniform", "normal")
-
-
 STAT_KEYS = ("mean", "std", "min", "p1", "p5", "p50", "p95", "p99", "max")
 
 
 #: Trials drawn and evaluated together (keeps the peak memory of a large run modest).
 CHUNK = 20_000
-
-
 #: Up to this many varying quantities every corner of the tolerance box is evaluated.
 MAX_CORNER_PARTS = 12
-
-
 MAX_TOLERANCE = 0.5
-
-
 MAX_TRIALS = 5_000_000
 
 
