@@ -260,12 +260,7 @@ def check_amp(
     basis : Basis, optional
         The candidate's :func:`basis_of`, when several models are checked against it.
     """
-    if not (math.isfinite(supply_v) and supply_v > 0):
-        raise InputError("supply", f"must be a finite number above zero (the ±V of a symmetric supply), got {supply_v!r}")
-    if not (math.isfinite(vin_v) and vin_v > 0):
-        raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
-    if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
-        raise InputError("rload", f"must be a finite number above zero, got {rload_ohm!r}")
+    _check_conditions(supply_v, vin_v, rload_ohm)
     shared = basis if basis is not None else basis_of(netlist)
     ideal = shared.ideal
     ref = ideal.item()
@@ -285,20 +280,8 @@ def check_amp(
     in_tolerance = bool(within_tolerances(actual, ref, tolerances)[0])
     response_ok = stable and in_tolerance
 
-    # Output swing: the op-amp output with the least room for its peak.
-    outs = [e.nodes[2] for e in netlist.opamps]
-    swing_pairs = [(room.limits[o].amplitude_v, room.node_peak_v[o]) for o in outs]
-    out_allowed, out_peak = min(swing_pairs, key=lambda p: _ratio(*p))
-    # Common mode: every op-amp input (a grounded input sits at 0 V).
-    cm_pairs = []
-    for e in netlist.opamps:
-        for n in e.nodes[:2]:
-            if n == netlist.ground:
-                lim = amp_cm_amplitude(amp, supply_v)
-                cm_pairs.append((n, lim, 0.0))
-            else:
-                cm_pairs.append((n, room.limits[n].amplitude_v, room.node_peak_v[n]))
-    cm_node, cm_allowed, cm_peak = min(cm_pairs, key=lambda p: (_ratio(p[1], p[2]), p[1] - p[2]))
+    out_allowed, out_peak = _tightest_output(netlist, room)
+    cm_node, cm_allowed, cm_peak = _tightest_input(netlist, room, amp, supply_v)
 
     margins = Margins(
         gbw=_ratio(amp.gbw_hz, gbw_need) if gbw_need is not None else 0.0,
@@ -330,13 +313,48 @@ def check_amp(
         stable = False
         response_ok = False
     if not stable:
-        f_hz = float(np.max(np.abs(unstable))) / (2.0 * math.pi)
-        others = () if verdict == FITS else reasons
-        verdict = DOES_NOT_FIT
-        whose = "even with an ideal op-amp" if shared.ideal_unstable.size else "with this op-amp"
-        reasons = (f"{whose} the circuit is unstable: a closed-loop pole near {_fmt(f_hz, 'Hz')} "
-                   "lies in the right half-plane",) + others
+        verdict, reasons = _unstable(verdict, reasons, unstable, ideal_too=bool(shared.ideal_unstable.size))
     return Verdict(amp, verdict, reasons, margins, needs, actual, response_ok, supply_ok, room, stable)
+
+
+def _check_conditions(supply_v: float, vin_v: float, rload_ohm: float | None) -> None:
+    if not (math.isfinite(supply_v) and supply_v > 0):
+        raise InputError("supply", f"must be a finite number above zero (the ±V of a symmetric supply), got {supply_v!r}")
+    if not (math.isfinite(vin_v) and vin_v > 0):
+        raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
+    if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
+        raise InputError("rload", f"must be a finite number above zero, got {rload_ohm!r}")
+
+
+def _tightest_output(netlist: Netlist, room) -> tuple[float, float]:
+    """Output swing: ``(allowed, peak)`` (V) of the op-amp output with the least room for its peak."""
+    outs = [e.nodes[2] for e in netlist.opamps]
+    swing_pairs = [(room.limits[o].amplitude_v, room.node_peak_v[o]) for o in outs]
+    return min(swing_pairs, key=lambda p: _ratio(*p))
+
+
+def _tightest_input(netlist: Netlist, room, amp: OpAmp, supply_v: float) -> tuple[str, float, float]:
+    """Common mode: ``(node, allowed, peak)`` of the op-amp input with the least room (a grounded
+    input sits at 0 V)."""
+    cm_pairs = []
+    for e in netlist.opamps:
+        for n in e.nodes[:2]:
+            if n == netlist.ground:
+                lim = amp_cm_amplitude(amp, supply_v)
+                cm_pairs.append((n, lim, 0.0))
+            else:
+                cm_pairs.append((n, room.limits[n].amplitude_v, room.node_peak_v[n]))
+    return min(cm_pairs, key=lambda p: (_ratio(p[1], p[2]), p[1] - p[2]))
+
+
+def _unstable(verdict: str, reasons: tuple[str, ...], unstable: np.ndarray, *, ideal_too: bool) -> tuple[str, tuple[str, ...]]:
+    """An unstable circuit does not fit, whatever else: the reason first, the others after it."""
+    f_hz = float(np.max(np.abs(unstable))) / (2.0 * math.pi)
+    others = () if verdict == FITS else reasons
+    whose = "even with an ideal op-amp" if ideal_too else "with this op-amp"
+    reasons = (f"{whose} the circuit is unstable: a closed-loop pole near {_fmt(f_hz, 'Hz')} "
+               "lies in the right half-plane",) + others
+    return DOES_NOT_FIT, reasons
 
 
 def amp_cm_amplitude(amp: OpAmp, supply_v: float) -> float:

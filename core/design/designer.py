@@ -436,10 +436,7 @@ def design(
     if topo.synthesize is None:
         return _infeasible(topo, spec, series, f"{topo.title} has no design procedure yet; enter its parts by hand", pins, conditions)
     try:
-        if _takes_series(topo.synthesize):
-            exact = topo.synthesize(spec, pins, series=series)
-        else:  # a design procedure that ignores the series: (spec, fixed) only
-            exact = topo.synthesize(spec, pins)
+        exact = _synthesize(topo, spec, pins, series)
     except Infeasible as exc:
         return _infeasible(topo, spec, series, exc.reason, pins, conditions)
     notes = tuple(getattr(exact, "notes", ()))
@@ -454,17 +451,30 @@ def design(
     else:
         choice = choose_standard(topo, exact, spec, series, keep=tuple(pins), tolerances=conditions.tolerances, width=width)
         if choice.values is None:
-            return _infeasible(
-                topo, spec, series,
-                f"no combination of {series} values near the exact design gives a stable band-pass near the target; "
-                f"use a finer series (the exact values are given)",
-                pins, conditions, exact, notes,
-            )
+            return _infeasible(topo, spec, series, _NO_STANDARD.format(series=series), pins, conditions, exact, notes)
         chosen = choice.values
     cand = Candidate(topo.id, chosen)
     analysis = cand.analyze(conditions)
     if not bool(hurwitz_stable(analysis.h_ideal.den)[0]) or not bool(analysis.ideal.valid[0]):
         return _infeasible(topo, spec, series, "the chosen parts do not give a stable band-pass", pins, conditions, exact, notes)
+    return _feasible(topo, spec, series, exact, cand, analysis, notes, pins, conditions, choice)
+
+
+_NO_STANDARD = (
+    "no combination of {series} values near the exact design gives a stable band-pass near the target; "
+    "use a finer series (the exact values are given)"
+)
+
+
+def _synthesize(topo, spec: Spec, pins: dict, series: str):
+    """The circuit's exact design; raises :class:`Infeasible`."""
+    if _takes_series(topo.synthesize):
+        return topo.synthesize(spec, pins, series=series)
+    return topo.synthesize(spec, pins)  # a design procedure that ignores the series: (spec, fixed) only
+
+
+def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analysis, notes, pins, conditions: Conditions, choice) -> DesignResult:
+    """The result of a design that works: its errors, warnings and analysis."""
     errors = errors_of(analysis.ideal, spec)
     warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins)
     if any(c.kind == "L" for c in topo.components):  # a real inductor must reach its share of the Q
