@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import math
 
-
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.figures import Figures
 from bandsmith.chain.chain_settings import Chain

@@ -10,7 +10,6 @@ import math
 from dataclasses import dataclass
 from typing import Any, Mapping
 
-
 from bandsmith.chain.bandpass import Band, band_from
 from bandsmith.design.candidate import Candidate
 from bandsmith.circuits import get_topology, topology_ids

@@ -1,5 +1,6 @@
 """What a session holds: the target, the op-amp, the candidates and the session itself (:mod:`bandsmith.files.session` describes the file)."""
 
+from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field, replace

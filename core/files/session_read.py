@@ -1,5 +1,6 @@
 """Reading a session file: checks every field, names what is wrong, upgrades older versions (:mod:`bandsmith.files.session` describes the file)."""
 
+from __future__ import annotations
 
 import json
 import math
