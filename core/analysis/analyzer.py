@@ -1,6 +1,13 @@
 """Full analysis of one candidate: figures, amplifier needs and sensitivities.
 
 Everything works from the netlist, so it holds for any circuit module.
+
+One unit of some 600 lines, on purpose: :func:`analyze` shares one batched first pass (the
+nominal circuit, its part perturbations and the one-op-amp family of its denominator,
+:class:`~bandsmith.solver.rational.OpAmpFamily`) between the figures, the sensitivities and the
+required-GBW search, and the record that carries it between them (``_FirstPass``) is private to
+this module. Generic pieces live elsewhere: the figures in :mod:`bandsmith.analysis.figures`, the
+central differences in :mod:`bandsmith.analysis.sensitivity`.
 """
 
 from __future__ import annotations
