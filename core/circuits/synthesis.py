@@ -3,8 +3,8 @@
 Each circuit module's ``synthesize(spec, fixed)`` returns an :class:`Exact` (a dict of exact part
 values, with notes saying what was chosen) or raises :class:`Infeasible` with a reason in plain
 words. The helpers here choose an impedance level by common practice, solve for the parts left
-free when some are pinned, refine a design on its measured response, and tell stable from unstable
-denominators.
+free when some are pinned and refine a design on its measured response; telling stable from
+unstable denominators is :func:`bandsmith.solver.stability.hurwitz_stable`, re-exported here.
 """
 
 from __future__ import annotations
