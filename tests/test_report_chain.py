@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import base64
 import re
+import subprocess
+import sys
 from dataclasses import replace
 from pathlib import Path
 

@@ -299,13 +299,15 @@ def test_unwritable_folder_is_bad_input(tmp_path):
 
 def test_older_versions_are_upgraded(monkeypatch):
     # The upgrade chain, exercised with a pretend version 2 whose upgrade renames a key.
-    monkeypatch.setattr(session_mod, "VERSION", 2)
+    import bandsmith.files.session_read as session_read  # where a file's version is checked
+
+    monkeypatch.setattr(session_read, "VERSION", 2)
 
     def one_to_two(obj):
         obj["notes"] = obj.pop("remarks", "")
         return obj
 
-    monkeypatch.setitem(session_mod._UPGRADES, 1, one_to_two)
+    monkeypatch.setitem(session_read._UPGRADES, 1, one_to_two)
     old = session_to_json(sample())
     old["version"] = 1
     old["remarks"] = old.pop("notes")

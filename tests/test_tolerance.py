@@ -391,11 +391,11 @@ def test_sensitivity_corners_beyond_twelve_parts(monkeypatch):
     # With more varying quantities than MAX_CORNER_PARTS the worst case uses the corners the
     # sensitivities point to; the ideal tank's figures are monomials (parallel resonance), so those
     # corners are the true extremes and agree with the full enumeration.
-    import bandsmith.spread.tolerance as tolerance
+    import bandsmith.spread.worst as worst
 
     nl = example("rlc-tank", RL=20.0)
     full = worst_case(nl, SpreadSettings())
-    monkeypatch.setattr(tolerance, "MAX_CORNER_PARTS", 2)
+    monkeypatch.setattr(worst, "MAX_CORNER_PARTS", 2)
     quick = worst_case(nl, SpreadSettings())
     assert quick.method == "sensitivity corners" and quick.corner_count == 6
     assert full.method == "all corners" and full.corner_count == 32

@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 from bandsmith import api
+from bandsmith.common.units import PART_UNITS
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
 from bandsmith.app.cli.common import Command, add_amp_options, amp_options, print_json
-from bandsmith.app.cli.text import UNITS, figures_rows, requirements_rows, sensitivity_table, table
+from bandsmith.app.cli.text import figures_rows, requirements_rows, sensitivity_table, table
 
 
 def configure(p):
@@ -22,7 +23,7 @@ def configure(p):
 def print_readable(result: dict) -> None:
     topo = get_topology(result["topology"])
     print(f"{topo.id}: {topo.title}")
-    parts = [[ref, format_value(v, UNITS[topo.component(ref).kind])] for ref, v in result["components"].items()]
+    parts = [[ref, format_value(v, PART_UNITS[topo.component(ref).kind])] for ref, v in result["components"].items()]
     print(table(parts, header=["part", "value"]))
     print()
     rows = figures_rows(result["ideal"])

@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 from bandsmith import api
+from bandsmith.common.units import PART_UNITS
 from bandsmith.chain.cascade import AUTO
 from bandsmith.circuits import get_topology
 from bandsmith.chain.prototypes import RESPONSES
 from bandsmith.common.values import format_value
 
 from bandsmith.app.cli.common import Command, add_amp_options, amp_options, print_json
-from bandsmith.app.cli.text import UNITS, table
+from bandsmith.app.cli.text import table
 
 
 def configure(p):
@@ -39,7 +40,7 @@ def _num(x, unit="", digits=5):
 
 def _parts(circuit: str, chosen: dict) -> str:
     topo = get_topology(circuit)
-    return " ".join(f"{ref}={format_value(v, UNITS[topo.component(ref).kind], digits=3)}" for ref, v in chosen.items() if v > 0 or topo.component(ref).required)
+    return " ".join(f"{ref}={format_value(v, PART_UNITS[topo.component(ref).kind], digits=3)}" for ref, v in chosen.items() if v > 0 or topo.component(ref).required)
 
 
 def print_readable(out: dict) -> None:

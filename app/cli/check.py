@@ -5,13 +5,14 @@ from __future__ import annotations
 import math
 
 from bandsmith import api
+from bandsmith.common.units import PART_UNITS
 from bandsmith.circuits import get_topology
 from bandsmith.bench.headroom import DEFAULT_SUPPLY_V
 from bandsmith.common.values import format_value, parse_positive
 
 from bandsmith.app.cli.amps import user_shelf
 from bandsmith.app.cli.common import Command, print_json
-from bandsmith.app.cli.text import UNITS, table
+from bandsmith.app.cli.text import table
 
 
 def configure(p):
@@ -37,7 +38,7 @@ def _r(x) -> str:
 def print_readable(result: dict) -> None:
     c = result["candidate"]
     topo = get_topology(c["topology"])
-    parts = ", ".join(f"{r}={format_value(v, UNITS[topo.component(r).kind])}" for r, v in c["components"].items())
+    parts = ", ".join(f"{r}={format_value(v, PART_UNITS[topo.component(r).kind])}" for r, v in c["components"].items())
     load = f", load {format_value(c['rload_ohm'], 'Ω')}" if c["rload_ohm"] is not None else ""
     print(f"{topo.id}: {parts}")
     print(f"input {format_value(c['vin_v'], 'V')} peak, supply ±{c['supply_v']:g} V{load}")

@@ -4,12 +4,12 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 import sys
 import warnings
 from dataclasses import dataclass
 from typing import Callable
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.errors import InputError
 
 __all__ = [
@@ -104,7 +104,7 @@ def _clean(obj):
         f = float(obj)
     except (TypeError, ValueError):
         return str(obj)
-    return f if math.isfinite(f) else None
+    return finite_or_none(f)
 
 
 def print_json(obj) -> None:

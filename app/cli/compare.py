@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 
 from bandsmith import api
+from bandsmith.common.units import PART_UNITS
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value, parse_fraction, parse_positive
@@ -12,7 +13,7 @@ from bandsmith.verdict import VerdictLimits
 
 from bandsmith.app.cli.common import Command, amp_options, print_json
 from bandsmith.app.cli.design import add_target_options, target_options
-from bandsmith.app.cli.text import UNITS, signed_error, table
+from bandsmith.app.cli.text import signed_error, table
 
 
 # Verdict limit options: (option, VerdictLimits field, reader, help).
@@ -100,7 +101,7 @@ def print_compare(out: dict) -> None:
             if ref not in topo.refs or not c["feasible"]:
                 row.append("—")
             else:
-                row.append(_v(c["chosen"][ref], UNITS[topo.component(ref).kind]))
+                row.append(_v(c["chosen"][ref], PART_UNITS[topo.component(ref).kind]))
         rows.append(row)
 
     def shown(c):

@@ -5,13 +5,14 @@ from __future__ import annotations
 import math
 
 from bandsmith import api
+from bandsmith.common.units import PART_UNITS
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
 from bandsmith.common.values import format_value
 
 from bandsmith.app.cli.common import Command, add_amp_options, amp_options, print_json
-from bandsmith.app.cli.text import UNITS, figures_rows, requirements_rows, sensitivity_table, signed_error, table
+from bandsmith.app.cli.text import figures_rows, requirements_rows, sensitivity_table, signed_error, table
 
 SERIES_HELP = "standard series for the parts: " + ", ".join(SERIES_NAMES) + " or exact (default E24)"
 
@@ -59,12 +60,12 @@ def print_design(report: api.DesignReport) -> None:
     if not r.feasible:
         print(f"not feasible: {r.reason}")
         if r.exact:
-            rows = [[ref, format_value(v, UNITS[topo.component(ref).kind], digits=5)] for ref, v in r.exact.items()]
+            rows = [[ref, format_value(v, PART_UNITS[topo.component(ref).kind], digits=5)] for ref, v in r.exact.items()]
             print(table(rows, header=["part", "exact"]))
         return
     rows = []
     for ref, v in r.chosen.items():
-        unit = UNITS[topo.component(ref).kind]
+        unit = PART_UNITS[topo.component(ref).kind]
         mark = "pinned" if ref in r.fixed else ""
         rows.append([ref, format_value(r.exact[ref], unit, digits=5), format_value(v, unit, digits=4), mark])
     print()

@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 from bandsmith import api
+from bandsmith.common.units import PART_UNITS
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.bench.measured import FREQ_UNITS, ColumnMapping, MappingNeeded, guess_mapping, read_measurement, scan_table
 from bandsmith.common.values import format_value
 
 from bandsmith.app.cli.common import Command, print_json
-from bandsmith.app.cli.text import UNITS, table
+from bandsmith.app.cli.text import table
 
 _MAPPING_HINT = "give --columns F,M[,P] (column numbers from 1) and the units with --freq-unit, --mag-unit, --phase-unit"
 
@@ -96,7 +97,7 @@ def print_readable(r: dict) -> None:
     print()
     rows = []
     for ref in r["parts"]:
-        unit = UNITS[topo.component(ref).kind]
+        unit = PART_UNITS[topo.component(ref).kind]
         rows.append([ref, format_value(r["nominal"][ref], unit), format_value(r["fitted"][ref], unit), f"{r['change_pct'][ref]:+.2f} %",
                      f"±{r['range_pct'][ref]:g} %" + (" (edge)" if ref in r["at_bound"] else "")])
     print(table(rows, header=["part", "design", "fitted", "change", "range"]))

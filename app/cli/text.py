@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import math
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.common.values import format_value
 
-__all__ = ["table", "figures_rows", "requirements_rows", "sensitivity_table", "signed_error", "UNITS"]
+__all__ = ["table", "figures_rows", "requirements_rows", "sensitivity_table", "signed_error"]
 
-UNITS = {"R": "Ω", "L": "H", "C": "F"}
 
 
 def table(rows: list[list[str]], *, header: list[str] | None = None) -> str:

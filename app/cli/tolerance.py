@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 from bandsmith import api
+from bandsmith.common.units import PART_UNITS
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.spread.tolerance import STAT_KEYS
 from bandsmith.common.values import format_value
 
 from bandsmith.app.cli.common import Command, print_json
-from bandsmith.app.cli.text import UNITS, figures_rows, table
+from bandsmith.app.cli.text import figures_rows, table
 
 
 def configure(p):
@@ -73,7 +74,7 @@ def print_readable(r: dict) -> None:
         amp += f" ±{100 * r['gbw_tol']:g} %"
     print(f"{topo.id}: {r['trials']} trials, {r['dist']}, seed {r['seed']}, {amp}")
     parts = [
-        [ref, format_value(v, UNITS[topo.component(ref).kind]), f"±{100 * r['tolerances'][ref]:g} %" if ref in r["tolerances"] else "—"]
+        [ref, format_value(v, PART_UNITS[topo.component(ref).kind]), f"±{100 * r['tolerances'][ref]:g} %" if ref in r["tolerances"] else "—"]
         for ref, v in r["components"].items()
     ]
     print(table(parts, header=["part", "value", "tolerance"]))

@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 from bandsmith import api
+from bandsmith.common.units import PART_UNITS
 from bandsmith.common.values import format_value
 
 from bandsmith.app.cli.common import Command, print_json
-from bandsmith.app.cli.text import UNITS, table
+from bandsmith.app.cli.text import table
 
 
 def configure(p):
@@ -21,7 +22,7 @@ def run(args) -> int:
     for t in topos:
         print(f"{t.id}: {t.title}{' (inverting)' if t.inverting else ''}")
         rows = [
-            [c.ref, c.kind, format_value(t.example.get(c.ref, 0.0), UNITS[c.kind]), c.role + ("" if c.required else " [optional]")]
+            [c.ref, c.kind, format_value(t.example.get(c.ref, 0.0), PART_UNITS[c.kind]), c.role + ("" if c.required else " [optional]")]
             for c in t.components
         ]
         print(table(rows, header=["part", "kind", "example", "role"]))

@@ -18,6 +18,7 @@ import math
 from dataclasses import replace
 from typing import Mapping
 
+from bandsmith.common.units import part_unit
 from bandsmith.common.eseries import nearest
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
@@ -27,14 +28,8 @@ from bandsmith.files.session import CandidateEntry, Session, Target
 from bandsmith.app.document.history import Callbacks, Edit, History
 from bandsmith.app.document.results import CandidateResult, ResultCache
 
-__all__ = ["Document", "UNITS", "part_unit", "entry_kind", "target_from_bandwidth"]
+__all__ = ["Document", "entry_kind", "target_from_bandwidth"]
 
-UNITS = {"R": "Ω", "C": "F", "L": "H"}
-
-
-def part_unit(kind: str) -> str:
-    """The SI unit symbol of a part kind (R → Ω, C → F, L → H; "" for anything else)."""
-    return UNITS.get(kind, "")
 
 
 class Document:

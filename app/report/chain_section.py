@@ -25,6 +25,7 @@ from __future__ import annotations
 import math
 from html import escape
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.chain.cascade import Cascade, Chain, chain_cascade
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
@@ -39,7 +40,6 @@ from bandsmith.app.report.sections import register_section
 __all__ = ["section_chains", "chain_plot_png", "PLOT_ASPECT"]
 
 PLOT_ASPECT = 0.78  # height / width of the chain's plot image
-_UNITS = {"R": "Ω", "L": "H", "C": "F"}
 
 
 def chain_plot_png(result: Cascade, *, width: int = 900, height: int | None = None, scale: float = 2.0) -> bytes:
@@ -157,7 +157,7 @@ def _parts_table(chain: Chain) -> str:
             rows.append([
                 str(st.index),
                 f"<b>{escape(c.ref)}</b>",
-                escape(format_value(v, _UNITS[c.kind], digits=4)),
+                escape(format_value(v, PART_UNITS[c.kind], digits=4)),
                 escape(format_rkm(v, c.kind)),
                 escape(c.role),
             ])

@@ -26,6 +26,7 @@ from typing import Sequence
 
 import numpy as np
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.analyzer import sweep, transfer_function
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.errors import InputError
@@ -40,7 +41,6 @@ from bandsmith.app.report.sections import register_section
 __all__ = ["section_measured", "measured_plot_pngs", "MEASURED_KEYS"]
 
 MEASURED_KEYS = ("magnitude", "phase")
-_UNITS = {"R": "Ω", "C": "F", "L": "H"}
 _POINTS_COLOUR = "#5f6368"
 _FIT_COLOUR = "#202124"
 _ASPECT = 0.28
@@ -212,7 +212,7 @@ def _fitted_table(d) -> str:
     topo = Candidate(d.topology_id, d.nominal).topology
     rows = []
     for ref in d.parts:
-        unit = _UNITS.get(topo.component(ref).kind, "")
+        unit = PART_UNITS.get(topo.component(ref).kind, "")
         rows.append([
             f"<b>{escape(ref)}</b>",
             escape(_num(d.nominal[ref], unit)),

@@ -19,6 +19,7 @@ import math
 from html import escape
 from pathlib import Path
 
+from bandsmith.common.units import part_unit
 from bandsmith.circuits import get_topology
 from bandsmith.common.cautions import cautions_html
 from bandsmith.common.values import format_rkm, format_value
@@ -41,7 +42,6 @@ __all__ = [
     "section_cautions",
 ]
 
-_PART_UNITS = {"R": "Ω", "L": "H", "C": "F"}
 _PLOT_CAPTIONS = {
     "magnitude": "Magnitude response, every active candidate overlaid.",
     "phase": "Phase response (unwrapped along the sweep).",
@@ -159,7 +159,7 @@ def _parts_table(c: CandidateReport) -> str:
     rows = []
     for comp in topo.components:
         v = float(c.entry.values[comp.ref])
-        unit = _PART_UNITS.get(comp.kind, "")
+        unit = part_unit(comp.kind)
         absent = v == 0 and not comp.required
         rows.append([
             f"<b>{escape(comp.ref)}</b>",

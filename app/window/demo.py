@@ -21,7 +21,7 @@ def demo_path() -> Path | None:
     """Where the shipped demo session is, or None when it is not installed."""
     try:
         p = Path(str(resources.files("bandsmith.resources") / DEMO_NAME))
-    except (ModuleNotFoundError, TypeError):
+    except TypeError:
         return None
     return p if p.is_file() else None
 

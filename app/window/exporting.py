@@ -45,15 +45,12 @@ def write_atomic(path: str | os.PathLike, data: bytes | str) -> Path:
         On the field ``output`` when the folder is missing or the file cannot be written.
     """
     p = Path(path)
-    if isinstance(data, str):
-        data = data.encode("utf-8")
     folder = p.parent if str(p.parent) else Path(".")
     if not folder.is_dir():
         raise InputError("output", f"the folder {folder} does not exist")
     if p.is_dir():
         raise InputError("output", f"{p} is a folder")
-    exports.write_atomic(p, data)  # its OSError becomes InputError("output", "cannot write …")
-    return p
+    return exports.write_atomic(p, data)
 
 
 # --------------------------------------------------------------------------- images

@@ -20,6 +20,7 @@ from pathlib import Path
 
 from PySide6 import QtCore
 
+from bandsmith.common.atomic import write_bytes_atomic
 from bandsmith.files.session import SessionError, dumps_session, load_session
 
 from bandsmith.app.window.state import WorkbenchState
@@ -137,9 +138,7 @@ class RecoveryKeeper(QtCore.QObject):
             return
         try:
             text = dumps_session(self.state.session)
-            tmp = self.copy_path.with_name(self.copy_path.name + ".tmp")
-            tmp.write_text(text, encoding="utf-8")
-            os.replace(tmp, self.copy_path)
+            write_bytes_atomic(self.copy_path, text)
             meta = {"pid": os.getpid(), "original": self.state.path, "saved_at": time.time()}
             self.meta_path.write_text(json.dumps(meta), encoding="utf-8")
         except (OSError, SessionError):

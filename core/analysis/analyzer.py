@@ -1,6 +1,13 @@
 """Full analysis of one candidate: figures, amplifier needs and sensitivities.
 
 Everything works from the netlist, so it holds for any circuit module.
+
+One unit of some 600 lines, on purpose: :func:`analyze` shares one batched first pass (the
+nominal circuit, its part perturbations and the one-op-amp family of its denominator,
+:class:`~bandsmith.solver.rational.OpAmpFamily`) between the figures, the sensitivities and the
+required-GBW search, and the record that carries it between them (``_FirstPass``) is private to
+this module. Generic pieces live elsewhere: the figures in :mod:`bandsmith.analysis.figures`, the
+central differences in :mod:`bandsmith.analysis.sensitivity`.
 """
 
 from __future__ import annotations
@@ -12,7 +19,10 @@ from typing import Mapping
 
 import numpy as np
 
+from bandsmith.common.jsonutil import finite_or_none
+from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.common.errors import InputError
+from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
@@ -60,7 +70,10 @@ class Tolerances:
 
 @dataclass(frozen=True, slots=True)
 class Requirements:
-    """What the circuit asks of its op-amp (the README's REQUIREMENTS)."""
+    """What the circuit asks of its op-amp (the README's REQUIREMENTS).
+
+    Stored in SI (V/s, A); the data-sheet units (V/µs, mA) are the properties below and the JSON.
+    """
 
     gbw_hz: float | None
     gbw_reason: str | None
@@ -68,14 +81,28 @@ class Requirements:
     a0: float
     vin_v: float
     vout_peak_v: float
-    slew_sine_v_per_us: float
-    slew_step_v_per_us: float
-    iout_peak_ma: float
+    slew_sine_v_per_s: float
+    slew_step_v_per_s: float
+    iout_peak_a: float
     gbw_rule_of_thumb_hz: float
 
+    @property
+    def slew_sine_v_per_us(self) -> float:
+        """Slew rate for a sine at f0, in V/µs (for display)."""
+        return to_v_per_us(self.slew_sine_v_per_s)
+
+    @property
+    def slew_step_v_per_us(self) -> float:
+        """Slew rate for an input step, in V/µs (for display)."""
+        return to_v_per_us(self.slew_step_v_per_s)
+
+    @property
+    def iout_peak_ma(self) -> float:
+        """Peak output current at f0, in mA (for display)."""
+        return to_ma(self.iout_peak_a)
+
     def to_json(self) -> dict:
-        def f(x):
-            return None if x is None or not math.isfinite(x) else float(x)
+        f = finite_or_none
 
         return {
             "gbw_hz": f(self.gbw_hz),
@@ -408,14 +435,11 @@ def requirements(
         a0=a0,
         vin_v=vin_v,
         vout_peak_v=gain * vin_v,
-        slew_sine_v_per_us=2.0 * math.pi * ref.f0_hz * gain * vin_v * 1e-6,
-        slew_step_v_per_us=step_slope_per_s * vin_v * 1e-6,
-        iout_peak_ma=iout * 1e3,
+        slew_sine_v_per_s=2.0 * math.pi * ref.f0_hz * gain * vin_v,
+        slew_step_v_per_s=step_slope_per_s * vin_v,
+        iout_peak_a=iout,
         gbw_rule_of_thumb_hz=rule,
     )
-
-
-_SENS_STEP = 1e-4
 
 
 @dataclass(frozen=True, slots=True)
@@ -460,8 +484,8 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal + 1, 1))
     cols = [col[r] for r in refs]
     rows = np.arange(len(refs))
-    lr[1 + 2 * rows, cols] += _SENS_STEP
-    lr[2 + 2 * rows, cols] -= _SENS_STEP
+    lr[1 + 2 * rows, cols] += SENS_STEP
+    lr[2 + 2 * rows, cols] -= SENS_STEP
     num, den = exp.dense_log(lr, absent=_absent_mask(n_ideal + 1, len(variables), col["gbw"], col["a0"]))
     # in p = s (the unit expansion), highest power first
     d0 = den[0]
@@ -499,7 +523,7 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
     if quick is not None:
         w_ref, h, family = quick
     else:
-        up, down = math.exp(_SENS_STEP), math.exp(-_SENS_STEP)
+        up, down = math.exp(SENS_STEP), math.exp(-SENS_STEP)
         over = {}
         for j, r in enumerate(refs):
             col = np.full(n_ideal, values[r])
@@ -511,8 +535,7 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
             w_ref = reference_w(batch)
         h, family = rational_and_family(batch, w_ref)
     fig = measure(h)
-    ly = np.log(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
-    sv = (ly[:, 0::2] - ly[:, 1::2]) / (2.0 * _SENS_STEP)
+    sv = log_slopes(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
     sens = {}
     for row, key in enumerate(("f0", "q", "gain")):
         by_ref = dict(zip(refs, sv[row].tolist()))

@@ -23,14 +23,15 @@ the batch:
 from __future__ import annotations
 
 import functools
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, fields, replace
 
 import numpy as np
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
-__all__ = ["Figures", "measure", "measure_near"]
+__all__ = ["Figures", "measure", "measure_near", "biquad_figures"]
 
 _ROOT_STEPS = 8
 # From this batch size on, quadratics and cubics are solved in closed form (bandsmith.solver.polyroots): a
@@ -67,8 +68,7 @@ class Figures:
         """The README's FIGURES object for member ``i`` (None where a figure is undefined)."""
         out = {}
         for f in fields(self):
-            v = float(np.asarray(getattr(self, f.name)).reshape(-1)[i])
-            out[f.name] = v if np.isfinite(v) else None
+            out[f.name] = finite_or_none(np.asarray(getattr(self, f.name)).reshape(-1)[i])
         return out
 
     @property
@@ -169,7 +169,7 @@ def measure(h: Rational, *, grid: np.ndarray | None = None) -> Figures:
     """
     quick = _biquad(h)
     if quick is not None:
-        return _figures(h, *quick)
+        return _figures_at(h.w_ref, *quick[:-1])
     pu = _sq_mag_u(h.num)
     qu = _sq_mag_u(h.den)
     slope = _slope_u(pu, qu)
@@ -181,28 +181,66 @@ def measure(h: Rational, *, grid: np.ndarray | None = None) -> Figures:
 
 
 def _biquad(h: Rational):
-    """``(u_pk, u_low, u_high, bandwidth in ω/w_ref, H at the peak)`` in closed form when every
-    member is ``b1·p / (a2·p² + a1·p + a0)`` with a peak (``a0·a2 > 0``, ``a1 ≠ 0``); else None.
-
-    ``|H|² = b1²x² / ((a0 − a2x²)² + a1²x²)`` peaks at ``x² = a0/a2``; it is half the peak where
-    ``a2x² ∓ |a1|x − a0 = 0``, so ``x_high = (|a1| + √(a1² + 4a0a2))/(2a2)`` and
-    ``x_low = (a0/a2)/x_high`` (the product of the two, free of cancellation).
-    """
+    """The closed form of :func:`biquad_figures` when every member is ``b1·p / (a2·p² + a1·p + a0)``
+    with a peak; else None."""
     num, den = h.num, h.den
     if den.shape[1] != 3 or num.shape[1] > 3 or num.shape[1] < 2:
         return None
     if (num[:, -1] != 0).any() or (num.shape[1] == 3 and (num[:, 0] != 0).any()):
         return None
-    sign = np.sign(den[:, 0])
-    a2, a1, a0 = den[:, 0] * sign, np.abs(den[:, 1]), den[:, 2] * sign
-    if not ((a0 > 0).all() and (a2 > 0).all() and (a1 > 0).all() and np.isfinite(den).all()):
+    if not np.isfinite(den).all():
         return None
-    u_pk = a0 / a2
-    x_high = (a1 + np.sqrt(a1 * a1 + 4.0 * a0 * a2)) / (2.0 * a2)
-    x_low = u_pk / x_high
-    # x_high − x_low = |a1|/a2 exactly; at the peak H = b1·jx/(a1·jx) = b1/a1 (signed, real)
-    hc = (num[:, -2] * sign / (den[:, 1] * sign)).astype(complex)
-    return u_pk, x_low * x_low, x_high * x_high, a1 / a2, hc
+    parts = _biquad_parts(num[:, -2], den[:, 0], den[:, 1], den[:, 2])
+    return parts if parts[-1].all() else None
+
+
+def _biquad_parts(b1, a2, a1, a0):
+    """``(u_pk, u_low, u_high, bandwidth in ω/w_ref, H at the peak, has a peak)`` of
+    ``b1·p / (a2·p² + a1·p + a0)``, NaN where there is no peak (``a0·a2 ≤ 0`` or ``a1 = 0``).
+
+    ``|H|² = b1²x² / ((a0 − a2x²)² + a1²x²)`` peaks at ``x² = a0/a2``; it is half the peak where
+    ``a2x² ∓ |a1|x − a0 = 0``, so ``x_high = (|a1| + √(a1² + 4a0a2))/(2a2)`` and
+    ``x_low = (a0/a2)/x_high`` (the product of the two, free of cancellation); derived (sympy).
+    """
+    sign = np.sign(a2)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        # at the peak H = b1·jx/(a1·jx) = b1/a1 (signed, real)
+        hc = (b1 * sign / (a1 * sign)).astype(complex)
+        a2, a1, a0 = a2 * sign, np.abs(a1), a0 * sign
+        peak = (a0 > 0) & (a2 > 0) & (a1 > 0)
+        nan = np.where(peak, 1.0, np.nan)
+        u_pk = a0 / a2 * nan
+        x_high = (a1 + np.sqrt(a1 * a1 + 4.0 * a0 * a2)) / (2.0 * a2)
+        x_low = u_pk / x_high  # x_high − x_low = |a1|/a2 exactly
+    return u_pk, x_low * x_low, x_high * x_high, a1 / a2 * nan, hc, peak
+
+
+def biquad_figures(b1, a2, a1, a0, w_ref) -> tuple[Figures, np.ndarray]:
+    """Figures of second-order band-passes ``b1·p / (a2·p² + a1·p + a0)`` in closed form.
+
+    Parameters
+    ----------
+    b1, a2, a1, a0 : ndarray
+        Coefficients, shape ``(B,)``, of the band-pass in ``p = s/w_ref``.
+    w_ref : float or ndarray
+        The reference frequency in rad/s.
+
+    Returns
+    -------
+    (Figures, ndarray)
+        The figures (NaN where there is no peak) and a mask of the members that are stable (the
+        three coefficients of one sign, Routh–Hurwitz for a quadratic) with defined figures.
+    """
+    b1, a2, a1, a0 = (np.asarray(x, dtype=float) for x in (b1, a2, a1, a0))
+    *parts, _ = _biquad_parts(b1, a2, a1, a0)
+    fig = _figures_at(np.asarray(w_ref, dtype=float), *parts)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        stable = ((a0 > 0) & (a1 > 0) & (a2 > 0)) | ((a0 < 0) & (a1 < 0) & (a2 < 0))
+        # Q as √(a0/a2)·|a2/a1| (the spread has always reported this rounding; f0/bw, as
+        # measure() divides, agrees to a unit in the last place)
+        q = np.sqrt(parts[0]) * np.abs(a2 / a1)
+    fig = replace(fig, q=q)
+    return fig, stable & fig.valid
 
 
 def measure_near(h: Rational, ref: Figures, *, spread: float) -> Figures:
@@ -368,19 +406,24 @@ def _by_grid(pu, qu, slope, grid):
     return np.where(inner, u_pk, np.nan), u_low, u_high
 
 
-def _figures(h: Rational, u_pk, u_low, u_high, bw_x=None, hc=None) -> Figures:
-    """Figures from the peak and half-power points (in ``u``); ``bw_x``, the bandwidth in
-    ``ω/w_ref``, and ``hc``, ``H`` at the peak, where they are known without cancellation."""
-    to_hz = h.w_ref / (2.0 * np.pi)
+def _figures(h: Rational, u_pk, u_low, u_high) -> Figures:
+    """Figures from the peak and half-power points (in ``u``)."""
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        p = 1j * np.sqrt(u_pk)
+        hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
+    return _figures_at(h.w_ref, u_pk, u_low, u_high, None, hc)
+
+
+def _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
+    """Figures from the peak and half-power points (in ``u``), ``H`` at the peak and, where it is
+    known without cancellation, ``bw_x``, the bandwidth in ``ω/w_ref``."""
+    to_hz = w_ref / (2.0 * np.pi)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         x_pk = np.sqrt(u_pk)  # ω/w_ref at the peak
         f0 = x_pk * to_hz
         f_low = np.sqrt(u_low) * to_hz
         f_high = np.sqrt(u_high) * to_hz
         bw = f_high - f_low if bw_x is None else bw_x * to_hz
-        if hc is None:
-            p = 1j * x_pk
-            hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
         re, im = hc.real, hc.imag
         phase = np.arctan2(im, re)
         phase *= 180.0 / np.pi

@@ -17,6 +17,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.figures import Figures, measure
@@ -131,8 +132,7 @@ class WindingEffect:
         return 1.0 - self.q / self.q_lossless
 
     def to_json(self) -> dict:
-        def f(x):
-            return float(x) if math.isfinite(x) else None
+        f = finite_or_none
 
         return {
             "ref": self.ref,

@@ -37,6 +37,7 @@ from typing import Any, Mapping
 import numpy as np
 import scipy.constants
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.figures import measure
@@ -284,8 +285,7 @@ class NoiseResult:
     def to_json(self) -> dict:
         """The README's noise object (``bandsmith noise``), with a few keys more."""
 
-        def f(x):
-            return float(x) if math.isfinite(x) else None
+        f = finite_or_none
 
         return {
             "temperature_k": float(self.settings.temperature_k),

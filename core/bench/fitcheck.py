@@ -27,6 +27,8 @@ from typing import Iterable, Mapping
 
 import numpy as np
 
+from bandsmith.common.jsonutil import finite_or_none
+from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.solver.ampmodel import amp_transfer_function
 from bandsmith.analysis.analyzer import Requirements, Tolerances, required_gbw, requirements, transfer_function, within_tolerances
 from bandsmith.common.errors import InputError
@@ -86,21 +88,23 @@ class Margins:
         return {"gbw": self.gbw, "slew": self.slew, "iout": self.iout, "swing": self.swing, "cm": self.cm}
 
     def to_json(self) -> dict:
-        def f(x):
-            return float(x) if math.isfinite(x) else None
+        f = finite_or_none
 
         return {k: f(getattr(self, k)) for k in ("gbw", "slew", "iout", "swing_v", "swing", "cm", "cm_v")}
 
 
 @dataclass(frozen=True, slots=True)
 class Needs:
-    """What the candidate asks of this op-amp at the input level (units in the names)."""
+    """What the candidate asks of this op-amp at the input level (units in the names).
+
+    Stored in SI (V/s, A); the data-sheet units (V/µs, mA) are the properties below and the JSON.
+    """
 
     gbw_hz: float | None
     gbw_reason: str | None
-    slew_sine_v_per_us: float
-    slew_step_v_per_us: float
-    iout_ma: float
+    slew_sine_v_per_s: float
+    slew_step_v_per_s: float
+    iout_a: float
     vout_peak_v: float
     out_allowed_v: float
     cm_node: str | None
@@ -109,12 +113,23 @@ class Needs:
     supply_total_v: float
 
     @property
+    def slew_sine_v_per_us(self) -> float:
+        return to_v_per_us(self.slew_sine_v_per_s)
+
+    @property
+    def slew_step_v_per_us(self) -> float:
+        return to_v_per_us(self.slew_step_v_per_s)
+
+    @property
     def slew_v_per_us(self) -> float:
         return max(self.slew_sine_v_per_us, self.slew_step_v_per_us)
 
+    @property
+    def iout_ma(self) -> float:
+        return to_ma(self.iout_a)
+
     def to_json(self) -> dict:
-        def f(x):
-            return None if x is None or not math.isfinite(x) else float(x)
+        f = finite_or_none
 
         return {
             "gbw_hz": f(self.gbw_hz),
@@ -245,12 +260,7 @@ def check_amp(
     basis : Basis, optional
         The candidate's :func:`basis_of`, when several models are checked against it.
     """
-    if not (math.isfinite(supply_v) and supply_v > 0):
-        raise InputError("supply", f"must be a finite number above zero (the ±V of a symmetric supply), got {supply_v!r}")
-    if not (math.isfinite(vin_v) and vin_v > 0):
-        raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
-    if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
-        raise InputError("rload", f"must be a finite number above zero, got {rload_ohm!r}")
+    _check_conditions(supply_v, vin_v, rload_ohm)
     shared = basis if basis is not None else basis_of(netlist)
     ideal = shared.ideal
     ref = ideal.item()
@@ -270,20 +280,8 @@ def check_amp(
     in_tolerance = bool(within_tolerances(actual, ref, tolerances)[0])
     response_ok = stable and in_tolerance
 
-    # Output swing: the op-amp output with the least room for its peak.
-    outs = [e.nodes[2] for e in netlist.opamps]
-    swing_pairs = [(room.limits[o].amplitude_v, room.node_peak_v[o]) for o in outs]
-    out_allowed, out_peak = min(swing_pairs, key=lambda p: _ratio(*p))
-    # Common mode: every op-amp input (a grounded input sits at 0 V).
-    cm_pairs = []
-    for e in netlist.opamps:
-        for n in e.nodes[:2]:
-            if n == netlist.ground:
-                lim = amp_cm_amplitude(amp, supply_v)
-                cm_pairs.append((n, lim, 0.0))
-            else:
-                cm_pairs.append((n, room.limits[n].amplitude_v, room.node_peak_v[n]))
-    cm_node, cm_allowed, cm_peak = min(cm_pairs, key=lambda p: (_ratio(p[1], p[2]), p[1] - p[2]))
+    out_allowed, out_peak = _tightest_output(netlist, room)
+    cm_node, cm_allowed, cm_peak = _tightest_input(netlist, room, amp, supply_v)
 
     margins = Margins(
         gbw=_ratio(amp.gbw_hz, gbw_need) if gbw_need is not None else 0.0,
@@ -297,9 +295,9 @@ def check_amp(
     needs = Needs(
         gbw_hz=gbw_need,
         gbw_reason=gbw_reason,
-        slew_sine_v_per_us=req.slew_sine_v_per_us,
-        slew_step_v_per_us=req.slew_step_v_per_us,
-        iout_ma=req.iout_peak_ma,
+        slew_sine_v_per_s=req.slew_sine_v_per_s,
+        slew_step_v_per_s=req.slew_step_v_per_s,
+        iout_a=req.iout_peak_a,
         vout_peak_v=out_peak,
         out_allowed_v=out_allowed,
         cm_node=None if cm_node == netlist.ground else cm_node,
@@ -315,13 +313,48 @@ def check_amp(
         stable = False
         response_ok = False
     if not stable:
-        f_hz = float(np.max(np.abs(unstable))) / (2.0 * math.pi)
-        others = () if verdict == FITS else reasons
-        verdict = DOES_NOT_FIT
-        whose = "even with an ideal op-amp" if shared.ideal_unstable.size else "with this op-amp"
-        reasons = (f"{whose} the circuit is unstable: a closed-loop pole near {_fmt(f_hz, 'Hz')} "
-                   "lies in the right half-plane",) + others
+        verdict, reasons = _unstable(verdict, reasons, unstable, ideal_too=bool(shared.ideal_unstable.size))
     return Verdict(amp, verdict, reasons, margins, needs, actual, response_ok, supply_ok, room, stable)
+
+
+def _check_conditions(supply_v: float, vin_v: float, rload_ohm: float | None) -> None:
+    if not (math.isfinite(supply_v) and supply_v > 0):
+        raise InputError("supply", f"must be a finite number above zero (the ±V of a symmetric supply), got {supply_v!r}")
+    if not (math.isfinite(vin_v) and vin_v > 0):
+        raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
+    if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
+        raise InputError("rload", f"must be a finite number above zero, got {rload_ohm!r}")
+
+
+def _tightest_output(netlist: Netlist, room) -> tuple[float, float]:
+    """Output swing: ``(allowed, peak)`` (V) of the op-amp output with the least room for its peak."""
+    outs = [e.nodes[2] for e in netlist.opamps]
+    swing_pairs = [(room.limits[o].amplitude_v, room.node_peak_v[o]) for o in outs]
+    return min(swing_pairs, key=lambda p: _ratio(*p))
+
+
+def _tightest_input(netlist: Netlist, room, amp: OpAmp, supply_v: float) -> tuple[str, float, float]:
+    """Common mode: ``(node, allowed, peak)`` of the op-amp input with the least room (a grounded
+    input sits at 0 V)."""
+    cm_pairs = []
+    for e in netlist.opamps:
+        for n in e.nodes[:2]:
+            if n == netlist.ground:
+                lim = amp_cm_amplitude(amp, supply_v)
+                cm_pairs.append((n, lim, 0.0))
+            else:
+                cm_pairs.append((n, room.limits[n].amplitude_v, room.node_peak_v[n]))
+    return min(cm_pairs, key=lambda p: (_ratio(p[1], p[2]), p[1] - p[2]))
+
+
+def _unstable(verdict: str, reasons: tuple[str, ...], unstable: np.ndarray, *, ideal_too: bool) -> tuple[str, tuple[str, ...]]:
+    """An unstable circuit does not fit, whatever else: the reason first, the others after it."""
+    f_hz = float(np.max(np.abs(unstable))) / (2.0 * math.pi)
+    others = () if verdict == FITS else reasons
+    whose = "even with an ideal op-amp" if ideal_too else "with this op-amp"
+    reasons = (f"{whose} the circuit is unstable: a closed-loop pole near {_fmt(f_hz, 'Hz')} "
+               "lies in the right half-plane",) + others
+    return DOES_NOT_FIT, reasons
 
 
 def amp_cm_amplitude(amp: OpAmp, supply_v: float) -> float:

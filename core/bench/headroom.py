@@ -31,6 +31,7 @@ from typing import Mapping
 
 import numpy as np
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.ampmodel import amp_system
 from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import MnaSystem, build_system
@@ -198,8 +199,7 @@ class Headroom:
         return self.limits[node].amplitude_v - self.node_peak_v[node]
 
     def to_json(self) -> dict:
-        def f(x):
-            return float(x) if math.isfinite(x) else None
+        f = finite_or_none
 
         return {
             "amp": self.amp,

@@ -24,6 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.errors import InputError
 
 __all__ = ["ReadOff", "read_off", "read_off_measurement", "PEAK_WINDOW_DB", "HALF_POWER_DB"]
@@ -67,8 +68,7 @@ class ReadOff:
     notes: tuple[str, ...] = ()
 
     def to_json(self) -> dict:
-        def f(x):
-            return float(x) if math.isfinite(x) else None
+        f = finite_or_none
 
         return {
             "f0_hz": f(self.f0_hz), "q": f(self.q), "bw_hz": f(self.bw_hz), "f_low_hz": f(self.f_low_hz),

@@ -21,6 +21,7 @@ import math
 from dataclasses import dataclass
 from typing import Any, Mapping
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.analyzer import DEFAULT_A0
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.cautions import cautions_comment
@@ -32,7 +33,6 @@ from bandsmith.common.values import format_value
 __all__ = ["CHAIN_PARTS_HEADER", "ChainPart", "stage_suffix", "chain_spice_netlist", "chain_parts_csv", "chain_parts"]
 
 CHAIN_PARTS_HEADER = ["stage", "reference", "stage_reference", "circuit", "kind", "value", "formatted_value", "series", "role"]
-_UNITS = {"R": "Ω", "L": "H", "C": "F"}
 
 
 def stage_suffix(index: int) -> str:
@@ -189,7 +189,7 @@ def chain_parts(chain_or_cascade: Any, *, gbw_hz: float | None = None) -> tuple[
             v = float(cand.values[c.ref])
             if not c.required and v <= 0:
                 continue
-            out.append(ChainPart(st.index, _name(c.ref, c.kind) + sfx, c.ref, st.topology_id, c.kind, v, format_value(v, _UNITS[c.kind]), _series_of(v), c.role))
+            out.append(ChainPart(st.index, _name(c.ref, c.kind) + sfx, c.ref, st.topology_id, c.kind, v, format_value(v, PART_UNITS[c.kind]), _series_of(v), c.role))
         for e in cand.netlist.opamps:
             shown = "ideal" if gbw_hz is None else f"GBW {format_value(gbw_hz, 'Hz')}"
             out.append(ChainPart(st.index, f"X{e.ref}{sfx}", e.ref, st.topology_id, "opamp", None if gbw_hz is None else float(gbw_hz), shown, "", "op-amp"))

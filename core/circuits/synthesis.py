@@ -3,8 +3,8 @@
 Each circuit module's ``synthesize(spec, fixed)`` returns an :class:`Exact` (a dict of exact part
 values, with notes saying what was chosen) or raises :class:`Infeasible` with a reason in plain
 words. The helpers here choose an impedance level by common practice, solve for the parts left
-free when some are pinned, refine a design on its measured response, and tell stable from unstable
-denominators.
+free when some are pinned and refine a design on its measured response; telling stable from
+unstable denominators is :func:`bandsmith.solver.stability.hurwitz_stable`, re-exported here.
 """
 
 from __future__ import annotations
@@ -19,6 +19,7 @@ import numpy as np
 
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import nearest_array, values_between
+from bandsmith.solver.stability import hurwitz_stable
 
 __all__ = [
     "Spec",
@@ -251,32 +252,6 @@ def search_grid(q: float, *, slack: float = 1.35) -> np.ndarray:
     coarse = np.logspace(-1.5, 1.5, 31)
     coarse = coarse[(coarse < lo) | (coarse > dense[-1])]
     return np.sort(np.concatenate([coarse, dense]))
-
-
-def hurwitz_stable(den: np.ndarray) -> np.ndarray:
-    """True for each denominator (rows, highest power first) with every root in the left half-plane.
-
-    Routh's criterion, batched: the first column of the Routh array is all of one sign.
-    """
-    a = np.asarray(den, dtype=float)
-    lead = a[:, :1]
-    a = a * np.where(lead < 0, -1.0, 1.0)
-    n = a.shape[1] - 1
-    ok = a[:, 0] > 0
-    if n <= 2:
-        return ok & (a > 0).all(axis=1)
-    width = n // 2 + 1
-    r0 = np.zeros((a.shape[0], width))
-    r1 = np.zeros((a.shape[0], width))
-    r0[:, : a[:, 0::2].shape[1]] = a[:, 0::2]
-    r1[:, : a[:, 1::2].shape[1]] = a[:, 1::2]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        for _ in range(n):
-            ok &= r1[:, 0] > 0
-            new = np.zeros_like(r0)
-            new[:, :-1] = (r1[:, :1] * r0[:, 1:] - r0[:, :1] * r1[:, 1:]) / r1[:, :1]
-            r0, r1 = r1, new
-    return ok & np.isfinite(r0).all(axis=1)
 
 
 def refine_measured(

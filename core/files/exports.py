@@ -18,6 +18,7 @@ from typing import Any
 
 import numpy as np
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.analyzer import DEFAULT_A0, ideal_figures, sweep, transfer_function
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.cautions import cautions_comment
@@ -44,7 +45,6 @@ IDEAL_GAIN = 1e9
 _GM = 1e-3  # transconductance of the macro-model's input stage (S)
 RESPONSE_HEADER = ["frequency_hz", "magnitude_db", "phase_deg", "group_delay_s"]
 PARTS_HEADER = ["reference", "kind", "value", "formatted_value", "series", "role"]
-_UNITS = {"R": "Ω", "L": "H", "C": "F"}
 
 
 def _candidate(obj: Any) -> tuple[Candidate, str]:
@@ -207,7 +207,7 @@ def parts_csv(entry_or_candidate: Any, *, gbw_hz: float | None = None) -> str:
         v = cand.values[c.ref]
         if not c.required and v <= 0:
             continue
-        w.writerow([c.ref, c.kind, _num(v), format_value(v, _UNITS[c.kind]), _series_of(v), c.role])
+        w.writerow([c.ref, c.kind, _num(v), format_value(v, PART_UNITS[c.kind]), _series_of(v), c.role])
     for e in cand.netlist.opamps:
         value = "" if gbw_hz is None else _num(gbw_hz)
         shown = "ideal" if gbw_hz is None else f"GBW {format_value(gbw_hz, 'Hz')}"
@@ -241,8 +241,9 @@ def response_csv(
     return buf.getvalue()
 
 
-def write_atomic(path: str | os.PathLike, text: str) -> None:
-    """Write text (UTF-8) atomically: a temporary file in the same folder, fsync, rename.
+def write_atomic(path: str | os.PathLike, text: str | bytes) -> Path:
+    """Write text (UTF-8) or bytes atomically (:func:`bandsmith.common.atomic.write_bytes_atomic`:
+    a temporary file in the same folder, fsync, rename); returns the path.
 
     Raises
     ------
@@ -254,3 +255,4 @@ def write_atomic(path: str | os.PathLike, text: str) -> None:
         write_bytes_atomic(target, text)
     except OSError as exc:
         raise InputError("output", f"cannot write {target}: {exc.strerror or exc}") from None
+    return target

@@ -40,6 +40,7 @@ import math
 from dataclasses import dataclass
 from typing import Mapping
 
+from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
 from bandsmith.design.compare import needs_inductor, part_count
@@ -52,7 +53,6 @@ __all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verd
 BUILDABLE, MARGINAL, NOT_BUILDABLE = "buildable", "marginal", "not buildable"
 #: The verdicts, best first.
 VERDICTS = (BUILDABLE, MARGINAL, NOT_BUILDABLE)
-_UNITS = {"R": "Ω", "C": "F", "L": "H"}
 _KIND_WORDS = {"R": "resistor", "C": "capacitor", "L": "inductor"}
 _SMALL_WHY = {
     "R": "it loads the op-amp's output and the stage driving it",
@@ -189,7 +189,7 @@ def _range_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
             continue
         v = result.chosen.get(comp.ref, 0.0)
         lo, hi = bounds[comp.kind]
-        unit = _UNITS[comp.kind]
+        unit = PART_UNITS[comp.kind]
         if v < lo:
             out.append(Reason("part_small", f"{comp.ref} = {format_value(v, unit)} is below {format_value(lo, unit)}: {_SMALL_WHY[comp.kind]}", v, lo, MARGINAL))
         elif v > hi:

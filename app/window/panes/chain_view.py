@@ -14,6 +14,7 @@ from html import escape
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
+from bandsmith.common.units import part_unit
 from bandsmith.chain.cascade import AUTO, Cascade, circuit_choices
 from bandsmith.circuits import get_topology
 from bandsmith.common.values import format_value
@@ -38,13 +39,12 @@ def _signed(x, unit: str, decimals: int = 2) -> str:
 
 def _parts_text(topology_id: str, values) -> str:
     topo = get_topology(topology_id)
-    units = {"R": "Ω", "C": "F", "L": "H"}
     out = []
     for c in topo.components:
         v = float(values[c.ref])
         if not c.required and v <= 0:
             continue
-        out.append(f"{c.ref} {format_value(v, units[c.kind], digits=3)}".replace(" ", "\u00a0"))
+        out.append(f"{c.ref} {format_value(v, part_unit(c.kind), digits=3)}".replace(" ", "\u00a0"))
     return ", ".join(out)  # no-break spaces: a long list wraps between parts, never inside one
 
 
@@ -137,13 +137,12 @@ def stage_detail_html(st) -> str:
             f"Its parts give: f0 {_esc(_signed(e['f0_pct'], '%'))}, Q {_esc(_signed(e['q_pct'], '%'))}, "
             f"gain {_esc(_signed(e['gain_db'], 'dB'))} off the target (ideal op-amp)."
         )
-        units = {"R": "Ω", "C": "F", "L": "H"}
         rows = []
         for c in topo.components:
             v = float(st.chosen[c.ref])
             if not c.required and v <= 0:
                 continue
-            rows.append(f"<tr><td><b>{_esc(c.ref)}</b></td><td align='right'>{_esc(format_value(v, units[c.kind], digits=4))}</td><td>{_esc(c.role)}</td></tr>")
+            rows.append(f"<tr><td><b>{_esc(c.ref)}</b></td><td align='right'>{_esc(format_value(v, part_unit(c.kind), digits=4))}</td><td>{_esc(c.role)}</td></tr>")
         out.append("<table cellspacing='0' cellpadding='2'>" + "".join(rows) + "</table>")
         an = res.analysis
         if an is not None:

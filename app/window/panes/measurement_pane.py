@@ -21,6 +21,7 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6 import QtCore, QtWidgets
 
+from bandsmith.common.units import part_unit
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.errors import InputError
@@ -387,11 +388,10 @@ class MeasurementPane(QtWidgets.QWidget):
         for r, a in enumerate(d.alone):
             for c, text in enumerate((a.part, f"{a.change_pct:+.2f} %", f"{a.residual_db_rms:.3g} dB", f"{100 * a.explained:.1f} %")):
                 self.ranking.setItem(r, c, QtWidgets.QTableWidgetItem(text))
-        units = {"R": "Ω", "C": "F", "L": "H"}
         topo = Candidate(d.topology_id, d.nominal).topology
         self.fitted.setRowCount(len(d.parts))
         for r, ref in enumerate(d.parts):
-            unit = units.get(topo.component(ref).kind, "")
+            unit = part_unit(topo.component(ref).kind)
             edge = " (edge)" if ref in d.at_bound else ""
             cells = (ref, format_value(d.nominal[ref], unit), f"{format_value(d.fitted[ref], unit)} ({d.change_pct[ref]:+.2f} %)", f"±{100 * d.ranges[ref]:g} %{edge}")
             for c, text in enumerate(cells):

@@ -32,6 +32,7 @@ from typing import Callable
 
 from PySide6 import QtCore, QtWidgets
 
+from bandsmith.common.units import part_unit
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import IDEAL, OpAmpModel
@@ -60,7 +61,7 @@ from bandsmith.app.window.panes.spread_view import (
     percent_text,
     table_item,
 )
-from bandsmith.app.window.state import WorkbenchState, part_unit
+from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import MUTED, WARN, error_label
 from bandsmith.app.window.widgets.value_field import ValueField
 

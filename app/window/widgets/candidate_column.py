@@ -10,13 +10,14 @@ from __future__ import annotations
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
+from bandsmith.common.units import part_unit
 from bandsmith.circuits import get_topology
 from bandsmith.common.eseries import SERIES_NAMES
 from bandsmith.files.session import CandidateEntry, Session
 from bandsmith.common.values import format_value, parse_nonnegative, parse_positive
 
 from bandsmith.app.document.results import CandidateResult, target_errors
-from bandsmith.app.window.state import WorkbenchState, part_unit
+from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import BAD, GOOD, WARN, CandidateStyle, error_label
 from bandsmith.app.window.widgets.value_field import ValueField
 from bandsmith.app.window.widgets.verdict_strip import VerdictStrip

@@ -1,0 +1,183 @@
+"""Standard values for an exact design: a search over the combinations near it (used by :func:`bandsmith.design.designer.design`).
+
+Every part that is neither pinned nor an inductor's winding resistance is offered the standard
+values up to ``width`` steps of the series below and above its exact value (by default one step:
+the two standard values that bracket it, or — for a value already standard, such as the capacitor
+level a design procedure chose — itself and its two neighbours). Inductors are taken from E12
+when E24 is asked (:func:`part_series_of`). All combinations are analysed in one batch (through
+the circuit's coefficient expansion, :mod:`bandsmith.solver.expansion`, or one batched solve where it does not
+apply; measured by :func:`bandsmith.analysis.figures.measure` — in closed form for second-order band-passes, by
+exact roots otherwise, or on a grid around the target for very large batches), and the
+combination with the least weighted error wins:
+
+    E = √((Δf0/f0 / tol_f0)² + (ΔQ/Q / tol_q)² + (Δgain_dB / tol_gain_db)²),
+
+the errors relative to the target and weighted by the tolerances of the conditions (by default
+1 %, 5 % and 0.5 dB). Unstable combinations (a denominator failing Routh's test) are never chosen.
+Because rounding every part alone to its nearest standard value is one of the combinations, the
+search is never worse than that. The reported errors come from the full analysis of the chosen
+parts, not from the search.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass
+from typing import Mapping
+
+import numpy as np
+
+from bandsmith.analysis.analyzer import Tolerances, transfer_function
+from bandsmith.common.eseries import search_options
+from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
+from bandsmith.analysis.figures import Figures, measure
+from bandsmith.circuits.synthesis import Spec, search_grid
+from bandsmith.solver.stability import hurwitz_stable
+from bandsmith.circuits.topology import Topology
+
+__all__ = ["Choice", "errors_of", "weighted_error", "choose_standard", "part_series_of"]
+
+
+# Batches up to this size are measured by exact roots (global, and cheaper there), larger on a grid.
+_ROOTS_UP_TO = 4096
+
+
+@dataclass(frozen=True, slots=True)
+class Choice:
+    """The outcome of a standard-value search.
+
+    ``values`` are the chosen parts (None when no combination is stable); ``weighted`` and
+    ``weighted_rounded`` are the weighted errors (see the module notes) of the chosen
+    combination and of every part rounded alone, as measured in the search.
+    """
+
+    values: dict[str, float] | None
+    combinations: int
+    weighted: float
+    weighted_rounded: float
+
+
+def errors_of(fig: Figures, spec: Spec, i: int = 0) -> dict[str, float]:
+    """``f0_pct``, ``q_pct``, ``gain_db`` of member ``i`` of ``fig`` against the target."""
+    one = fig.item(i)
+    return {
+        "f0_pct": 100.0 * (one.f0_hz / spec.f0_hz - 1.0),
+        "q_pct": 100.0 * (one.q / spec.q - 1.0),
+        "gain_db": one.gain_center_db - 20.0 * math.log10(spec.gain),
+    }
+
+
+def weighted_error(errors: Mapping[str, float], tolerances: Tolerances = Tolerances()) -> float:
+    """The search's weighted error of an ``errors`` dict (see the module notes); inf if undefined."""
+    e = math.sqrt(
+        (errors["f0_pct"] / 100.0 / tolerances.f0) ** 2
+        + (errors["q_pct"] / 100.0 / tolerances.q) ** 2
+        + (errors["gain_db"] / tolerances.gain_db) ** 2
+    )
+    return e if math.isfinite(e) else math.inf
+
+
+def _weighted_batch(fig: Figures, spec: Spec, tol: Tolerances) -> np.ndarray:
+    with np.errstate(invalid="ignore", divide="ignore"):
+        e = np.sqrt(
+            ((fig.f0_hz / spec.f0_hz - 1.0) / tol.f0) ** 2
+            + ((fig.q / spec.q - 1.0) / tol.q) ** 2
+            + ((fig.gain_center_db - 20.0 * math.log10(spec.gain)) / tol.gain_db) ** 2
+        )
+    return np.where(np.isfinite(e), e, np.inf)
+
+
+def part_series_of(kind: str, series: str) -> str:
+    """The series a part of this kind is chosen from: inductors from E12 when E24 is asked.
+
+    Inductors are seldom stocked in E24 values (common practice, no source); E12 is a subset of
+    E24, so the chosen values still lie in the series asked for.
+    """
+    return "E12" if kind == "L" and series == "E24" else series
+
+
+def _options(x: np.ndarray, series: str, width: int) -> list[np.ndarray]:
+    """For each value, the standard values up to ``width`` steps of the series below and above it
+    (:func:`bandsmith.common.eseries.search_options`)."""
+    return search_options(x, series, width)[0]
+
+
+def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
+    """Transfer functions of every combination (part values by reference, arrays of one length).
+
+    Through the netlist's coefficient expansion (:mod:`bandsmith.solver.expansion`, built once per circuit)
+    when it applies, else one batched solve.
+    """
+    try:
+        exp, variables = unit_expansion(netlist)
+    except ExpansionUnavailable:
+        return transfer_function(netlist, overrides=over, w_ref=w_ref)
+    size = len(next(iter(over.values())))
+    ratios = np.empty((size, len(exp.variables)))
+    for j, (v, unit) in enumerate(zip(variables, exp.variables)):
+        ratios[:, j] = (over[v.name] if v.name in over else v.value) / unit.value
+    return exp.rational(ratios, w_ref=w_ref)
+
+
+@functools.lru_cache(maxsize=64)
+def _combination_index(sizes: tuple[int, ...]) -> np.ndarray:
+    """Index rows ``(len(sizes), N + 1)`` that enumerate every combination of options of these
+    counts (the last part fastest, as ``np.meshgrid(..., indexing="ij")``), then one more column
+    that points each part at the entry after its options (the nearest value)."""
+    grid = np.indices(sizes).reshape(len(sizes), -1)
+    index = np.concatenate([grid, np.array(sizes)[:, None]], axis=1)
+    index.setflags(write=False)
+    return index
+
+
+def choose_standard(
+    topology: Topology,
+    exact: Mapping[str, float],
+    spec: Spec,
+    series: str,
+    *,
+    keep: tuple[str, ...] = (),
+    tolerances: Tolerances = Tolerances(),
+    width: int = 1,
+) -> Choice:
+    """Choose standard values for the parts not in ``keep`` by a batched combination search.
+
+    See the module notes. Optional parts (the winding resistance) are never changed.
+    """
+    values = topology.values_from(dict(exact))
+    free = [c.ref for c in topology.components if c.required and c.ref not in keep]
+    netlist = topology.build(values)
+    if not free:
+        h = transfer_function(netlist, w_ref=spec.w0)
+        cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
+        return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
+    x = np.array([values[r] for r in free])
+    part_series = [part_series_of(topology.component(r).kind, series) for r in free]
+    options = [None] * len(free)
+    rounded = np.empty(len(free))
+    for ps in set(part_series):
+        idx = [i for i, p in enumerate(part_series) if p == ps]
+        opts, near = search_options(x[idx], ps, width)
+        for i, o in zip(idx, opts):
+            options[i] = o
+        rounded[idx] = near
+    # Every combination of the options, and last the member that rounds every part alone to its
+    # nearest standard value, for comparison: each part's options with its nearest value after
+    # them, taken by a combination index.
+    index = _combination_index(tuple(o.size for o in options))
+    over = {r: np.append(o, v)[k] for r, o, v, k in zip(free, options, rounded.tolist(), index)}
+    with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
+        h = _combinations(netlist, over, spec.w0)
+        # exact polynomial roots up to a few thousand members; a grid around the target beyond
+        fig = measure(h) if h.batch <= _ROOTS_UP_TO else measure(h, grid=search_grid(spec.q))
+        cost = np.where(hurwitz_stable(h.den) & fig.valid, _weighted_batch(fig, spec, tolerances), np.inf)
+    i = int(np.argmin(cost[:-1]))
+    chosen = dict(values)
+    chosen.update({r: float(over[r][i]) for r in free})
+    return Choice(
+        values=chosen if math.isfinite(cost[i]) else None,
+        combinations=int(cost.size - 1),
+        weighted=float(cost[i]),
+        weighted_rounded=float(cost[-1]),
+    )

@@ -1,0 +1,56 @@
+"""The magnitude envelope of a tolerance spread: percentiles of |H| (dB) over its first trials."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from bandsmith.common.errors import InputError
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
+from bandsmith.solver.netlist import Netlist
+from bandsmith.solver.rational import Rational, reference_w
+from bandsmith.spread.spread_settings import SpreadSettings
+from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, setup_spread
+
+__all__ = ["Envelope", "magnitude_envelope"]
+
+
+@dataclass(frozen=True, slots=True)
+class Envelope:
+    """Percentiles of the magnitude over trials: ``magnitude_db[i]`` is percentile ``percentiles[i]``."""
+
+    f_hz: np.ndarray
+    percentiles: tuple[float, ...]
+    magnitude_db: np.ndarray
+    trials: int
+
+
+def magnitude_envelope(
+    netlist: Netlist,
+    settings: SpreadSettings,
+    f_hz: np.ndarray,
+    *,
+    opamp: OpAmpModel = IDEAL,
+    trials: int = 2000,
+    percentiles: tuple[float, ...] = (5.0, 50.0, 95.0),
+) -> Envelope:
+    """Percentiles of the magnitude (dB) over the first ``trials`` trials of a spread, at ``f_hz``.
+
+    The trials are the same as :func:`run_spread`'s first ones for these settings.
+    """
+    _, parts, spread = setup_spread(netlist, settings, opamp)
+    w_ref = reference_w(build_system(netlist))
+    ev = Evaluator(netlist, opamp, w_ref, nominal_figures(netlist, opamp, w_ref))
+    count = min(int(trials), settings.trials)
+    if count < 1:
+        raise InputError("trials", "the envelope needs at least one trial")
+    _, drawn = next(draws(settings, spread, settings.trials))
+    h = ev.rational(evaluator_columns(ev, drawn[:count]))
+    f = np.asarray(f_hz, dtype=float)
+    mags = np.empty((count, f.size))
+    for start in range(0, count, 500):
+        sl = slice(start, start + 500)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            mags[sl] = 20.0 * np.log10(np.abs(Rational(h.num[sl], h.den[sl], h.w_ref[sl]).at_f(f)))
+    return Envelope(f_hz=f, percentiles=tuple(float(x) for x in percentiles), magnitude_db=np.nanpercentile(mags, percentiles, axis=0), trials=count)

@@ -1,0 +1,209 @@
+"""The engine of the tolerance spread: figures of batches of part values, and the seeded draws.
+
+How a batch is evaluated (the coefficient expansion or the solver, the closed form of a
+second-order band-pass, the tracked search grid) is described in :mod:`bandsmith.spread.tolerance`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import fields
+
+import numpy as np
+
+from bandsmith.analysis.analyzer import transfer_function
+from bandsmith.common.errors import InputError
+from bandsmith.solver.expansion import Expansion, ExpansionUnavailable, Variable, circuit_variables
+from bandsmith.analysis.sensitivity import log_slopes, perturbed_ratios
+from bandsmith.analysis.figures import Figures, biquad_figures, measure
+from bandsmith.solver.mna import OpAmpModel
+from bandsmith.solver.netlist import Netlist
+from bandsmith.solver.rational import Rational
+from bandsmith.solver.stability import hurwitz_stable
+from bandsmith.spread.spread_settings import CHUNK, KINDS, SpreadSettings
+
+__all__ = ["Evaluator", "part_tolerances", "setup_spread", "nominal_figures", "draws", "evaluator_columns"]
+
+
+_GRID_POINTS = 49  # points of the search grid each trial is measured on
+_WIDE_CHUNK = 256  # members measured together by the global search
+
+
+def _put(fig: Figures, idx: np.ndarray, part: Figures) -> Figures:
+    out = {}
+    for f in fields(Figures):
+        a = np.array(getattr(fig, f.name), dtype=float)
+        a[idx] = getattr(part, f.name)
+        out[f.name] = a
+    return Figures(**out)
+
+
+def _measure_wide(h: Rational) -> Figures:
+    """:func:`measure` with its default (global) search, a few hundred members at a time."""
+    parts = []
+    for start in range(0, h.batch, _WIDE_CHUNK):
+        sl = slice(start, start + _WIDE_CHUNK)
+        parts.append(measure(Rational(h.num[sl], h.den[sl], h.w_ref[sl])))
+    return Figures(**{f.name: np.concatenate([getattr(p, f.name) for p in parts]) for f in fields(Figures)})
+
+
+class Evaluator:
+    """Figures of batches of part values (ratios to nominal), by expansion or by the solver."""
+
+    def __init__(self, netlist: Netlist, opamp: OpAmpModel, w_ref: float, nominal: Figures, engine: str = "auto"):
+        if engine not in ("auto", "expansion", "solver"):
+            raise ValueError(f"unknown engine {engine!r}")
+        self.netlist = netlist
+        self.opamp = opamp
+        self.w_ref = w_ref
+        self.nominal = nominal.item()
+        self.variables: tuple[Variable, ...] = circuit_variables(netlist, opamp)
+        self.expansion: Expansion | None = None
+        if engine != "solver":
+            try:
+                self.expansion = Expansion(netlist, opamp, w_ref=w_ref)
+            except ExpansionUnavailable:
+                if engine == "expansion":
+                    raise
+        self.method = "expansion" if self.expansion is not None else "solver"
+        self._sens: dict[str, np.ndarray] | None = None
+
+    def rational(self, ratios: np.ndarray) -> Rational:
+        if self.expansion is not None:
+            return self.expansion.rational(ratios)
+        overrides, gbw, a0 = {}, None, None
+        for j, v in enumerate(self.variables):
+            col = v.value * ratios[:, j]
+            if v.kind == "gbw":
+                gbw = col
+            elif v.kind == "a0":
+                a0 = col
+            else:
+                overrides[v.name] = col
+        h = transfer_function(self.netlist, self.opamp, overrides=overrides, gbw_hz=gbw, a0=a0, w_ref=self.w_ref)
+        bad = ~np.all(np.isfinite(ratios) & (ratios > 0), axis=1)
+        if bad.any():
+            num, den = h.num.copy(), h.den.copy()
+            num[bad] = np.nan
+            den[bad] = np.nan
+            h = Rational(num, den, h.w_ref)
+        return h
+
+    def figures(self, ratios: np.ndarray, *, tracked: bool = True) -> tuple[Figures, np.ndarray]:
+        """Figures and stability of each row of ``ratios`` (shape ``(B, len(variables))``)."""
+        if self.expansion is not None and self.expansion.pure_bandpass:
+            num, den = self.expansion.coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
+            return biquad_figures(num[0], den[2], den[1], den[0], self.w_ref)
+        h = self.rational(ratios)
+        stable = hurwitz_stable(h.den)
+        fig = self._measure_tracked(h, ratios) if tracked else _measure_wide(h)
+        return fig, stable & fig.valid
+
+    def sensitivities(self) -> dict[str, np.ndarray]:
+        """``∂ln y/∂ln x`` of f0, Q and |gain| to every variable (central differences, step 1e-4)."""
+        if self._sens is None:
+            fig, _ = self.figures(perturbed_ratios(len(self.variables)), tracked=False)
+            out = {}
+            for key, y in (("f0", fig.f0_hz), ("q", fig.q), ("gain", np.abs(fig.gain_center))):
+                with np.errstate(invalid="ignore", divide="ignore"):
+                    s = log_slopes(y)
+                out[key] = np.where(np.isfinite(s), s, 0.0)
+            self._sens = out
+        return self._sens
+
+    def _measure_tracked(self, h: Rational, ratios: np.ndarray) -> Figures:
+        """Measure each member on a grid of its own around its first-order f0 and bandwidth."""
+        sens = self.sensitivities()
+        nom = self.nominal
+        with np.errstate(invalid="ignore", divide="ignore"):
+            lr = np.log(ratios)
+            ln_f0 = np.full(h.batch, math.log(nom.f0_hz))
+            ln_q = np.full(h.batch, math.log(nom.q))
+            for j in range(lr.shape[1]):
+                if sens["f0"][j] or sens["q"][j]:
+                    ln_f0 += sens["f0"][j] * lr[:, j]
+                    ln_q += sens["q"][j] * lr[:, j]
+            q_est = np.clip(np.exp(ln_q), 0.05, 1e4)
+            f0_est = np.exp(ln_f0)
+            half = 3.0 * np.arcsinh(1.0 / (2.0 * q_est)) + 0.01
+            centre = f0_est * (2.0 * math.pi) / self.w_ref
+            ok_est = np.isfinite(centre) & np.isfinite(half)
+            centre = np.where(ok_est, centre, 1.0)
+            half = np.where(ok_est, half, 1.0)
+            t = np.linspace(-1.0, 1.0, _GRID_POINTS)
+            grid = centre[:, None] * np.exp(half[:, None] * t[None, :])
+            fig = measure(h, grid=grid)
+            off = np.abs(np.log(fig.f0_hz / f0_est)) > 0.5 * half
+            off |= np.abs(np.log(fig.q / q_est)) > math.log(2.0)
+            redo = (~fig.valid | off | ~ok_est) & np.all(np.isfinite(h.den), axis=1)
+        idx = np.flatnonzero(redo)
+        if idx.size:
+            wide = _measure_wide(Rational(h.num[idx], h.den[idx], h.w_ref[idx]))
+            fig = _put(fig, idx, wide)
+        return fig
+
+
+def _kind(v: Variable) -> str:
+    return "R" if v.kind in ("R", "RS") else v.kind
+
+
+def part_tolerances(netlist: Netlist, settings: SpreadSettings) -> dict[str, float]:
+    """The tolerance (fraction) of every part with a value above zero, by reference.
+
+    A part's own entry wins over its kind's; an inductor's winding resistance is a resistor.
+
+    Raises
+    ------
+    InputError
+        For a tolerance key that is neither a kind (R, C, L) nor a part of the circuit.
+    """
+    parts = [v for v in circuit_variables(netlist) if v.kind not in ("gbw", "a0")]
+    refs = {v.name for v in parts} | {e.ref for e in netlist.passives} | {e.series_ref for e in netlist.passives if e.series_ref}
+    for key in settings.tolerances:
+        if key not in KINDS and key not in refs:
+            names = ", ".join(sorted(refs))
+            raise InputError("tol", f"{key!r} is neither a kind (R, C, L) nor a part of this circuit ({names})")
+    return {v.name: float(settings.tolerances.get(v.name, settings.tolerances[_kind(v)])) for v in parts}
+
+
+def nominal_figures(netlist: Netlist, opamp: OpAmpModel, w_ref: float) -> Figures:
+    fig = measure(transfer_function(netlist, opamp, w_ref=w_ref))
+    if not bool(fig.valid[0]):
+        raise InputError("circuit", "the nominal circuit has no band-pass peak; there is nothing to spread")
+    return fig
+
+
+def setup_spread(netlist: Netlist, settings: SpreadSettings, opamp: OpAmpModel):
+    if settings.gbw_tol > 0 and opamp.ideal:
+        raise InputError("gbw-tol", "a GBW spread needs a finite op-amp (give its GBW); an ideal op-amp has none")
+    tol = part_tolerances(netlist, settings)
+    parts = [v for v in circuit_variables(netlist, opamp) if v.kind not in ("gbw", "a0")]
+    spread = np.array([tol[v.name] for v in parts] + [settings.gbw_tol])
+    return tol, parts, spread
+
+
+def draws(settings: SpreadSettings, spread: np.ndarray, total: int):
+    """Chunks ``(start, ratios)`` of the trial ratios, one column per part and one for the GBW."""
+    rng = np.random.default_rng(settings.seed)
+    for start in range(0, total, CHUNK):
+        m = min(CHUNK, total - start)
+        if settings.dist == "uniform":
+            z = rng.uniform(-1.0, 1.0, size=(m, spread.size))
+        else:
+            z = rng.standard_normal(size=(m, spread.size)) / 3.0
+        yield start, 1.0 + z * spread
+
+
+def evaluator_columns(ev: Evaluator, drawn: np.ndarray) -> np.ndarray:
+    """Drawn part/GBW ratios → the evaluator's variables (A0 held at nominal)."""
+    cols = []
+    k = 0
+    for v in ev.variables:
+        if v.kind == "a0":
+            cols.append(np.ones(drawn.shape[0]))
+        elif v.kind == "gbw":
+            cols.append(drawn[:, -1])
+        else:
+            cols.append(drawn[:, k])
+            k += 1
+    return np.column_stack(cols)
