@@ -99,9 +99,11 @@ class VerdictLimitsDialog(QtWidgets.QDialog):
         stored = stored_limits(state.session)
         self.limits = stored.settings
         lay = QtWidgets.QVBoxLayout(self)
+        tol = state.session.tolerances
         intro = QtWidgets.QLabel(
-            "What makes a candidate marginal or not buildable. Figure errors are judged against the "
-            "session's design tolerances (target strip). Kept in the session; Undo restores the old limits.",
+            "What makes a candidate marginal or not buildable. Figure errors are judged against the session's "
+            f"design tolerances (f0 ±{100 * tol.f0:g} %, Q ±{100 * tol.q:g} %, gain ±{tol.gain_db:g} dB): "
+            "beyond them a candidate is never buildable. Kept in the session; Undo restores the old limits.",
             self,
         )
         intro.setWordWrap(True)
@@ -130,7 +132,7 @@ class VerdictLimitsDialog(QtWidgets.QDialog):
             edit.setToolTip(f"{f.label} ({f.unit or 'number'}); source: {src}" if src else f.label)
             row = QtWidgets.QHBoxLayout()
             row.addWidget(edit, 1)
-            unit = QtWidgets.QLabel(f.unit, self)
+            unit = QtWidgets.QLabel(f.unit if f.scale is not None else "", self)  # SI values carry their unit
             unit.setMinimumWidth(unit.fontMetrics().horizontalAdvance("V/µs") + 4)
             row.addWidget(unit)
             form.addRow(f.label, row)
