@@ -49,9 +49,10 @@ class VerdictBadge(QtWidgets.QLabel):
             self.setToolTip("")
             return
         sym, colour, ground = VERDICT_LOOK[row.verdict.verdict]
-        star = f" {RECOMMENDED_MARK} recommended" if row.recommended else ""
-        self.setText(f'<b style="color:{colour}">{sym} {row.verdict.verdict}</b>'
-                     f'<span style="color:{MUTED}"> · rank {row.rank}</span><b style="color:{INK}">{star}</b>')
+        # The recommended candidate is rank 1: its badge says "recommended" instead of the rank.
+        tail = (f'<b style="color:{INK}"> · {RECOMMENDED_MARK} recommended</b>' if row.recommended
+                else f'<span style="color:{MUTED}"> · rank {row.rank}</span>')
+        self.setText(f'<b style="color:{colour}">{sym} {row.verdict.verdict}</b>{tail}')
         self.setStyleSheet(f"QLabel#verdictBadge {{ background: {ground}; border-radius: 3px; padding: 1px 4px; }}")
         self.setToolTip("\n".join(f"• {r.text}" for r in row.verdict.reasons) or "No limit crossed.")
 

@@ -72,7 +72,12 @@ def _flag(v, *codes: str) -> str | None:
 
 
 def _signed(x: float, digits: int = 2) -> str:
-    return "—" if not math.isfinite(x) else f"{x:+.{digits}f}".replace("-", "−")
+    """A signed deviation with a true minus sign; a value that rounds to zero has no sign."""
+    if not math.isfinite(x):
+        return "—"
+    if abs(x) < 0.5 * 10.0**-digits:
+        return f"{0.0:.{digits}f}"
+    return f"{x:+.{digits}f}".replace("-", "−")
 
 
 class ComparisonTable(QtWidgets.QWidget):
