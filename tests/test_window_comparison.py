@@ -204,3 +204,21 @@ def test_the_comparison_fits_without_scrolling(qtbot, tmp_path, monkeypatch, siz
     assert _header_fits(col.verdict_details.sensitivities) == []
     for col in w.board.columns.values():
         assert col.verdict_badge.sizeHint().width() <= col.verdict_badge.width(), col.verdict_badge.text()
+
+
+def test_a_damaged_limits_section_is_noted_and_the_defaults_used(qtbot, tmp_path, monkeypatch, core):
+    s = _core_session(core)
+    from dataclasses import replace
+
+    w = _window(qtbot, tmp_path, monkeypatch, replace(s, extras={"verdict_limits": {"yield_min": "half"}}))
+    text = w.comparison.summary.text()
+    assert "verdict limits cannot be used" in text and "defaults apply" in text
+    assert f"{RECOMMENDED_MARK}1" in [w.comparison.cell_text(i, "#") for i in range(w.comparison.table.rowCount())]
+
+
+def test_a_part_typed_far_off_still_gets_a_verdict_with_its_reason(window):
+    window.state.set_part("mfb", "R3", 1.0)  # 1 Ω: below the practical range, the figures far off
+    i = _rows(window)["mfb"]
+    assert window.comparison.cell_text(i, "Verdict").endswith("not buildable")
+    reasons = window.board.columns["mfb"].verdict_details.reasons.text()
+    assert "R3 = 1 Ω is below 100 Ω" in reasons and "misses the target" in reasons

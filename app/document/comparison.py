@@ -183,6 +183,8 @@ def design_notes(session: Session, entry: CandidateEntry) -> tuple[str, ...]:
                      conditions=session.conditions_for(entry))
     except InputError as exc:
         return (str(exc),)
+    except Exception as exc:  # a design procedure that fails here is a note, never a crash of the view
+        return (f"the design procedure failed for this target ({type(exc).__name__}: {exc})",)
     if not res.feasible and res.reason:
         return tuple(res.notes) + (res.reason,)
     return tuple(res.notes)
@@ -225,7 +227,14 @@ class ComparisonCache:
     def verdict(self, session: Session, entry: CandidateEntry, analysis: Analysis | None, error: str | None, limits: VerdictLimits) -> Verdict:
         key = (entry.id, entry.topology_id, tuple(sorted(entry.values.items())), entry.snap, session.conditions_for(entry),
                _spec(session), limits, analysis is None, error)
-        return self._keep(self._verdicts, key, lambda: judge(design_result_of(session, entry, analysis, error), limits, candidate=entry.id))
+        def make() -> Verdict:
+            try:
+                return judge(design_result_of(session, entry, analysis, error), limits, candidate=entry.id)
+            except Exception as exc:  # a candidate the core cannot judge is not buildable, with the reason
+                why = f"cannot judge this design ({type(exc).__name__}: {exc})"
+                return judge(design_result_of(session, entry, None, why), limits, candidate=entry.id)
+
+        return self._keep(self._verdicts, key, make)
 
     def notes(self, session: Session, entry: CandidateEntry) -> tuple[str, ...]:
         key = (entry.topology_id, _spec(session), tuple((r, entry.values[r]) for r in entry.fixed), session.conditions_for(entry))
