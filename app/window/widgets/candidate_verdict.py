@@ -144,8 +144,13 @@ class VerdictDetails(QtWidgets.QWidget):
             t.setItem(i, 0, QtWidgets.QTableWidgetItem(ref))
             for c, (_, key) in enumerate(SENSITIVITY_COLUMNS[1:], start=1):
                 s = float(sens.get(key, {}).get(ref, math.nan))
-                s = 0.0 if math.isfinite(s) and abs(s) < 5e-4 else s
-                item = QtWidgets.QTableWidgetItem("—" if not math.isfinite(s) else f"{s:+.2f}".replace("-", "−"))
+                if not math.isfinite(s):
+                    text = "—"
+                elif abs(s) < 0.005:  # rounds to zero: no sign
+                    text = "0.00"
+                else:
+                    text = f"{s:+.2f}".replace("-", "−")
+                item = QtWidgets.QTableWidgetItem(text)
                 item.setTextAlignment(QtCore.Qt.AlignmentFlag.AlignRight | QtCore.Qt.AlignmentFlag.AlignVCenter)
                 if math.isfinite(s) and abs(s) >= _STRONG:
                     f = item.font()
