@@ -23,6 +23,7 @@ from bandsmith.files.session import SessionError, load_session, save_session
 
 from bandsmith.app.window.background import BackgroundJob, JobStatus
 from bandsmith.app.window.widgets.candidates_board import CandidatesBoard
+from bandsmith.app.window.widgets.comparison_table import ComparisonTable
 from bandsmith.app.window.demo import blank_session
 from bandsmith.app.window.widgets.plot_grid import PlotGrid
 from bandsmith.app.window.prompts import Prompter
@@ -160,6 +161,9 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         """The target strip above the candidates board and, beside it, the pane tabs (Responses first)."""
         self.target_strip = TargetStrip(self.state, self)
         self.board = CandidatesBoard(self.state, self)
+        # The at-a-glance comparison (verdicts and the recommendation) under the target strip.
+        self.comparison = ComparisonTable(self.state, self)
+        self.comparison.limits_requested.connect(self.show_verdict_limits)
         self.plot_grid = PlotGrid(self.state, self)
         self.panes = PaneTabs(self)
         self.panes.setObjectName("panes")
@@ -177,6 +181,7 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         lay.setContentsMargins(0, 0, 0, 0)
         lay.setSpacing(0)
         lay.addWidget(self.target_strip)
+        lay.addWidget(self.comparison)
         lay.addWidget(self.splitter, 1)
         self.setCentralWidget(central)
 
@@ -253,6 +258,10 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         self.act_remove = self._action("Re&move selected candidate", "actRemove", lambda: self._on_current(self.state.remove))
         self.act_redesign = self._action("Re&design selected candidate", "actRedesign", lambda: self._on_current(self.state.redesign))
         e.addActions([self.act_duplicate, self.act_remove, self.act_redesign])
+        e.addSeparator()
+        self.act_limits = self._action("&Verdict limits…", "actVerdictLimits", self.show_verdict_limits,
+                                       tip="Show or change what makes a candidate marginal or not buildable")
+        e.addAction(self.act_limits)
 
         h = bar.addMenu("&Help")
         self.act_help = self._action("Bandsmith &help and cautions", "actHelp", self.show_help, K.HelpContents)
@@ -476,6 +485,15 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
             self.prompter.error(self, "Export failed", error)
             return
         self.statusBar().showMessage(f"Wrote {path}", 5000)
+
+    def show_verdict_limits(self) -> QtWidgets.QDialog:
+        """Open the verdict limits dialog (non-modal; OK writes the limits as one undoable edit)."""
+        from bandsmith.app.window.widgets.verdict_limits_dialog import VerdictLimitsDialog
+
+        dialog = VerdictLimitsDialog(self.state, self)
+        dialog.setAttribute(QtCore.Qt.WidgetAttribute.WA_DeleteOnClose)
+        dialog.open()
+        return dialog
 
     def show_help(self) -> None:
         self._helper("about", "show_about")(self)

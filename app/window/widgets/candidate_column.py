@@ -1,5 +1,7 @@
-"""One column of the candidates board: a candidate's switches, parts, figures, amplifier needs and
-the verdicts of the shelf's op-amps (:mod:`bandsmith.app.window.widgets.verdict_strip`).
+"""One column of the candidates board: a candidate's verdict (:mod:`bandsmith.app.window.widgets.candidate_verdict`),
+switches, parts, figures, amplifier needs, the verdicts of the shelf's op-amps
+(:mod:`bandsmith.app.window.widgets.verdict_strip`), and why the candidate got its verdict (reasons,
+design notes, and the sensitivities while it is the selected candidate).
 
 The column follows its candidate by id: it reads the entry from each new session and the result
 from the state after each analysis, and writes to the state only when the user edits something.
@@ -19,6 +21,7 @@ from bandsmith.common.values import format_value, parse_nonnegative, parse_posit
 from bandsmith.app.document.results import CandidateResult, target_errors
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import BAD, GOOD, WARN, CandidateStyle, error_label
+from bandsmith.app.window.widgets.candidate_verdict import VerdictBadge, VerdictDetails
 from bandsmith.app.window.widgets.value_field import ValueField
 from bandsmith.app.window.widgets.verdict_strip import VerdictStrip
 
@@ -66,6 +69,8 @@ class CandidateColumn(QtWidgets.QFrame):
         lay.setSpacing(4)
 
         self._build_header(lay)  # line sample, id, circuit
+        self.verdict_badge = VerdictBadge(state, candidate_id, self)  # the candidate's verdict and rank
+        lay.addWidget(self.verdict_badge)
         self._build_switches(lay)  # on/off and pin on the first row, variant actions on the second
         self._build_snap_row(lay)
         self._build_part_fields(lay)
@@ -77,6 +82,9 @@ class CandidateColumn(QtWidgets.QFrame):
         lay.addWidget(self.verdict_strip)
         self.problem = error_label(self)
         lay.addWidget(self.problem)
+        # Why the candidate got its verdict: reasons, design notes, sensitivities (selected only).
+        self.verdict_details = VerdictDetails(state, candidate_id, self)
+        lay.addWidget(self.verdict_details)
         lay.addStretch(1)
 
         self.active.clicked.connect(lambda checked: self.state.set_enabled(self.candidate_id, checked))
