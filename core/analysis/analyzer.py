@@ -14,7 +14,7 @@ import numpy as np
 
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.figures import Figures, measure, measure_near
-from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
+from bandsmith.solver.mna import IDEAL, MnaSystem, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
 from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, rational_and_family, rational_from_system, reference_w
@@ -30,6 +30,8 @@ __all__ = [
     "required_gbw",
     "requirements",
     "opamp_output_current",
+    "AmplifierNeeds",
+    "amplifier_needs",
     "sensitivities",
     "analyze",
     "sweep",
@@ -59,8 +61,43 @@ class Tolerances:
 
 
 @dataclass(frozen=True, slots=True)
+class AmplifierNeeds:
+    """What one amplifier of a circuit asks of its op-amp (SI units but for the named ones).
+
+    ``vout_peak_v`` is the peak of its output at f0 for the input's peak amplitude; the slew rates
+    as :class:`Requirements` defines them, at this amplifier's output; ``iout_peak_ma`` the peak
+    current its output delivers at f0.
+    """
+
+    ref: str
+    node: str
+    vout_peak_v: float
+    slew_sine_v_per_us: float
+    slew_step_v_per_us: float
+    iout_peak_ma: float
+
+    def to_json(self) -> dict:
+        def f(x):
+            return None if x is None or not math.isfinite(x) else float(x)
+
+        return {
+            "ref": self.ref,
+            "node": self.node,
+            "vout_peak_v": f(self.vout_peak_v),
+            "slew_sine_v_per_us": f(self.slew_sine_v_per_us),
+            "slew_step_v_per_us": f(self.slew_step_v_per_us),
+            "iout_peak_ma": f(self.iout_peak_ma),
+        }
+
+
+@dataclass(frozen=True, slots=True)
 class Requirements:
-    """What the circuit asks of its op-amp (CONTRACT.md's REQUIREMENTS)."""
+    """What the circuit asks of its op-amps (CONTRACT.md's REQUIREMENTS).
+
+    With several amplifiers ``amplifiers`` lists each one's needs and ``vout_peak_v``, the slew
+    rates and ``iout_peak_ma`` hold the worst of them; ``gbw_hz`` is the one GBW every amplifier
+    of the circuit needs (the same op-amp model on all of them).
+    """
 
     gbw_hz: float | None
     gbw_reason: str | None
@@ -72,6 +109,7 @@ class Requirements:
     slew_step_v_per_us: float
     iout_peak_ma: float
     gbw_rule_of_thumb_hz: float
+    amplifiers: tuple[AmplifierNeeds, ...] = ()
 
     def to_json(self) -> dict:
         def f(x):
@@ -90,6 +128,7 @@ class Requirements:
             "slew_step_v_per_us": f(self.slew_step_v_per_us),
             "iout_peak_ma": f(self.iout_peak_ma),
             "gbw_rule_of_thumb_hz": f(self.gbw_rule_of_thumb_hz),
+            "amplifiers": [a.to_json() for a in self.amplifiers],
         }
 
 
@@ -374,6 +413,43 @@ def opamp_output_current(
     return float(max(abs(x[layout.opamp_row[r]]) for r in own)) if own else 0.0
 
 
+def amplifier_needs(
+    netlist: Netlist, f0_hz: float, *, vin_v: float = 1.0, rload_ohm: float | None = None, w_ref: float | None = None,
+) -> tuple[AmplifierNeeds, ...]:
+    """Each amplifier's output swing, slew rates and output current (ideal op-amps).
+
+    One solve at f0 gives every op-amp's output voltage and current; the step slew of each
+    output comes from the exact transfer function to that output node
+    (:func:`bandsmith.analysis.timeresponse.max_step_slope`). ``vin_v`` is the input's peak (V).
+    """
+    if not math.isfinite(f0_hz):
+        return tuple(AmplifierNeeds(e.ref, e.nodes[2], math.nan, math.nan, math.nan, math.nan) for e in netlist.opamps)
+    loaded = netlist
+    if rload_ohm is not None:
+        loaded = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
+    x, layout = solve_at(loaded, 2j * math.pi * f0_hz)
+    system = build_system(netlist)
+    if w_ref is None:
+        w_ref = 2.0 * math.pi * f0_hz
+    out = []
+    for e in netlist.opamps:
+        node = e.nodes[2]
+        v = abs(x[layout.node_index[node]]) * vin_v
+        at_node = MnaSystem(system.G, system.C, system.layout, system.layout.node_index[node])
+        slope = max_step_slope(rational_from_system(at_node, w_ref))
+        out.append(
+            AmplifierNeeds(
+                ref=e.ref,
+                node=node,
+                vout_peak_v=v,
+                slew_sine_v_per_us=2.0 * math.pi * f0_hz * v * 1e-6,
+                slew_step_v_per_us=slope * vin_v * 1e-6,
+                iout_peak_ma=abs(x[layout.opamp_row[e.ref]]) * vin_v * 1e3,
+            )
+        )
+    return tuple(out)
+
+
 def requirements(
     netlist: Netlist,
     ideal: Figures,
@@ -400,18 +476,34 @@ def requirements(
     gain = abs(ref.gain_center)
     # Common practice, no source: open-loop gain at f0 some 40 dB above the peak gain.
     rule = 100.0 * gain * ref.f0_hz if math.isfinite(gain) else math.nan
-    iout = opamp_output_current(netlist, ref.f0_hz, rload_ohm=rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
+    vout = gain * vin_v
+    slew_sine = 2.0 * math.pi * ref.f0_hz * gain * vin_v * 1e-6
+    slew_step = step_slope_per_s * vin_v * 1e-6
+    if len(netlist.opamps) > 1:
+        amps = amplifier_needs(netlist, ref.f0_hz, vin_v=vin_v, rload_ohm=rload_ohm)
+        # the worst amplifier (the output's own figures are among them)
+        vout = max([vout] + [a.vout_peak_v for a in amps])
+        slew_sine = max([slew_sine] + [a.slew_sine_v_per_us for a in amps])
+        slew_step = max([slew_step] + [a.slew_step_v_per_us for a in amps])
+        iout_ma = max(a.iout_peak_ma for a in amps)
+    else:
+        iout = opamp_output_current(netlist, ref.f0_hz, rload_ohm=rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
+        iout_ma = iout * 1e3
+        amps = tuple(
+            AmplifierNeeds(e.ref, e.nodes[2], vout, slew_sine, slew_step, iout_ma) for e in netlist.opamps
+        )
     return Requirements(
         gbw_hz=gbw,
         gbw_reason=reason,
         tolerances=tolerances,
         a0=a0,
         vin_v=vin_v,
-        vout_peak_v=gain * vin_v,
-        slew_sine_v_per_us=2.0 * math.pi * ref.f0_hz * gain * vin_v * 1e-6,
-        slew_step_v_per_us=step_slope_per_s * vin_v * 1e-6,
-        iout_peak_ma=iout * 1e3,
+        vout_peak_v=vout,
+        slew_sine_v_per_us=slew_sine,
+        slew_step_v_per_us=slew_step,
+        iout_peak_ma=iout_ma,
         gbw_rule_of_thumb_hz=rule,
+        amplifiers=amps,
     )
 
 

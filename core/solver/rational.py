@@ -10,6 +10,7 @@ order one, highest power first (numpy's convention).
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 
 import numpy as np
@@ -233,10 +234,88 @@ def rational_and_family(system: MnaSystem, w_ref: float) -> tuple[Rational, OpAm
     return _rational_and_family(system, w_ref, family=True)
 
 
+def _finite_amps(system: MnaSystem) -> bool:
+    terms = system.amp_terms
+    return bool(terms) and any(np.any(a != 0) or np.any(b != 0) for _, _, a, b in terms)
+
+
+def _by_amplifiers(system: MnaSystem, w: np.ndarray) -> Rational:
+    """Exact transfer function of a system with finite op-amps, expanded in the op-amp terms.
+
+    Each op-amp ``k`` adds ``x_k(s) = −(1/A0 + s/ωt)`` to one entry ``(r_k, c_k)`` of the pencil,
+    and the determinant is linear in every row, so (row ``r_k`` split into its ideal part and
+    ``x_k·e_{c_k}``)
+
+        D(s) = Σ_S Π_{k∈S} x_k(s) · det(A_S(s)),
+
+    over every subset ``S`` of the op-amps, ``A_S`` being the ideal-op-amp pencil with the rows
+    ``r_k`` (k ∈ S) replaced by the unit rows ``e_{c_k}``; the numerator (Cramer's rule: the output
+    column replaced by the source vector) likewise. Each ``det(A_S)`` is interpolated on the circle
+    ``|s| = w_ref``, where its roots (those of passive-and-ideal-op-amp sub-circuits) live, and
+    the products with the linear factors are formed exactly. Interpolating ``D`` itself instead
+    loses the small high-order coefficients that far op-amp poles put in it (``(w_ref/ωt)^m``,
+    below the rounding of the samples).
+    """
+    terms = system.amp_terms
+    G0 = system.G.copy()
+    C0 = system.C.copy()
+    for r, c, a, b in terms:  # the ideal-op-amp pencil: the terms were stamped with a minus sign
+        G0[:, r, c] += a
+        C0[:, r, c] += b
+    base = MnaSystem(G0, C0, system.layout, system.output_index, None)
+    k, a0 = _samples(base, w)
+    src = system.source_vector().astype(complex)
+    out = system.output_index
+    m = len(terms)
+    bsz = system.batch
+    # x_k in p = s/w_ref, highest power first: −(1/ωt·w_ref)·p − 1/A0, shape (B, 2)
+    lin = [np.stack([-np.broadcast_to(b, (bsz,)) * w, -np.broadcast_to(a, (bsz,))], axis=1) for _, _, a, b in terms]
+    den = None
+    num = None
+    for size in range(m + 1):
+        for subset in itertools.combinations(range(m), size):
+            mat = a0.copy()
+            for j in subset:
+                r, c = terms[j][0], terms[j][1]
+                mat[..., r, :] = 0.0
+                mat[..., r, c] = 1.0
+            d_c = _snap(_coefficients(np.linalg.det(mat), k))
+            cram = mat.copy()
+            cram[..., :, out] = src
+            n_c = _snap(_coefficients(np.linalg.det(cram), k))
+            for j in subset:
+                d_c = polymul_batch(d_c, lin[j])
+                n_c = polymul_batch(n_c, lin[j])
+            den = d_c if den is None else _padd(den, d_c)
+            num = n_c if num is None else _padd(num, n_c)
+    den = _lead_trim(den)
+    num = _lead_trim(num)
+    scale = np.max(np.abs(den), axis=1, keepdims=True)
+    scale[scale == 0] = 1.0
+    return Rational(num / scale, den / scale, np.array(w, dtype=float))
+
+
+def _snap(c: np.ndarray) -> np.ndarray:
+    """Rounding noise (below :data:`_SNAP` of the largest coefficient of a row) set to zero."""
+    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    return np.where(np.abs(c) <= _SNAP * scale, 0.0, c)
+
+
+def _padd(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Sum of batched polynomials of possibly different lengths (highest power first)."""
+    n = max(a.shape[1], b.shape[1])
+    out = np.zeros((a.shape[0], n), dtype=np.result_type(a, b))
+    out[:, n - a.shape[1] :] += a
+    out[:, n - b.shape[1] :] += b
+    return out
+
+
 def _rational_and_family(system: MnaSystem, w_ref, *, family: bool) -> tuple[Rational, OpAmpFamily | None]:
     if w_ref is None:
         w_ref = reference_w(system)
     w = np.broadcast_to(np.asarray(w_ref, dtype=float), (system.batch,))
+    if _finite_amps(system):
+        return _by_amplifiers(system, w), None
     k, a = _samples(system, w)
     den_v = np.linalg.det(a)
     b = np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None]
