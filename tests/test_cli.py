@@ -228,10 +228,10 @@ def test_bad_value_message_suggests_the_notation():
 @cli
 @pytest.mark.usefixtures("_pool")
 def test_topologies_json():
-    # CONTRACT.md: ids rlc-tank, mfb, sallen-key; components with ref, kind, role, required
+    # The command-line contract's circuit ids; components with ref, kind, role, required
     data = ok_json("topologies-json")
     topos = {t["id"]: t for t in data["topologies"]}
-    assert set(topos) == {"rlc-tank", "mfb", "sallen-key"}
+    assert set(topos) == {"rlc-tank", "mfb", "sallen-key", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"}
     for t in topos.values():
         assert isinstance(t["title"], str) and t["title"]
         assert isinstance(t["inverting"], bool)
