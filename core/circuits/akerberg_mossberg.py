@@ -48,8 +48,8 @@ COMPONENTS = (
     Component("R6", "R", "inverter's feedback resistor (R6/R5 scales ω0²)"),
 )
 
-# A 15 kHz line-frequency marker detector for a video-test probe (our own scenario): Q ≈ 40, gain ≈ −5.
-EXAMPLE = {"R1": 42.2e3, "R2": 205e3, "R3": 4.99e3, "R4": 4.99e3, "C1": 2.2e-9, "C2": 2.2e-9, "R5": 4.99e3, "R6": 4.99e3}
+# A 4.5 kHz carrier pick-off for a power-line data probe (our own scenario): Q ≈ 30, gain ≈ −5.
+EXAMPLE = {"R1": 21e3, "R2": 105e3, "R3": 3.48e3, "R4": 3.48e3, "C1": 10e-9, "C2": 10e-9, "R5": 3.57e3, "R6": 3.48e3}
 
 
 def build(v: Mapping[str, float]) -> Netlist:

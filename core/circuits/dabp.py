@@ -51,7 +51,7 @@ COMPONENTS = (
 )
 
 # A 1.2 kHz tone-burst receiver for a pipeline leak sensor (our own scenario): Q ≈ 12, gain ≈ +1.
-EXAMPLE = {"R1": 38.3e3, "R2": 38.3e3, "C1": 10e-9, "R3": 13.3e3, "C2": 10e-9, "R4": 13.3e3, "R5": 13.3e3, "R6": 13.3e3}
+EXAMPLE = {"R1": 316e3, "R2": 324e3, "C1": 10e-9, "R3": 13e3, "C2": 10e-9, "R4": 13.3e3, "R5": 13e3, "R6": 13.3e3}
 
 
 def build(v: Mapping[str, float]) -> Netlist:
