@@ -14,10 +14,10 @@ import numpy as np
 
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.figures import Figures, measure, measure_near
-from bandsmith.solver.mna import IDEAL, MnaSystem, OpAmpModel, build_system, solve_at
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
-from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, rational_and_family, rational_from_system, reference_w
+from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, node_rationals, rational_and_family, rational_from_system, reference_w
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, step_response
 
 __all__ = [
@@ -431,12 +431,12 @@ def amplifier_needs(
     system = build_system(netlist)
     if w_ref is None:
         w_ref = 2.0 * math.pi * f0_hz
+    at_nodes = node_rationals(system, [system.layout.node_index[e.nodes[2]] for e in netlist.opamps], w_ref)
     out = []
-    for e in netlist.opamps:
+    for i, e in enumerate(netlist.opamps):
         node = e.nodes[2]
         v = abs(x[layout.node_index[node]]) * vin_v
-        at_node = MnaSystem(system.G, system.C, system.layout, system.layout.node_index[node])
-        slope = max_step_slope(rational_from_system(at_node, w_ref))
+        slope = max_step_slope(at_nodes, i=i)
         out.append(
             AmplifierNeeds(
                 ref=e.ref,

@@ -18,7 +18,7 @@ import scipy.linalg
 
 from bandsmith.solver.mna import MnaSystem
 
-__all__ = ["Rational", "OpAmpFamily", "rational_from_system", "rational_and_family", "reference_w", "polyval_batch"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "reference_w", "polyval_batch"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -234,6 +234,23 @@ def rational_and_family(system: MnaSystem, w_ref: float) -> tuple[Rational, OpAm
     return _rational_and_family(system, w_ref, family=True)
 
 
+def node_rationals(system: MnaSystem, indices, w_ref: float) -> Rational:
+    """Transfer functions from the input to several unknowns (node voltages, op-amp currents) of
+    member 0 of an ideal-op-amp system, from one set of samples: a batch of ``len(indices)``."""
+    w = np.array([float(w_ref)])
+    one = MnaSystem(system.G[:1], system.C[:1], system.layout, system.output_index, None)
+    k, a = _samples(one, w)
+    den_v = np.linalg.det(a)[0]
+    b = np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None]
+    x = np.linalg.solve(a, b)[0, :, :, 0]  # (K, n)
+    idx = list(indices)
+    num_c = _trim(_coefficients((x[:, idx] * den_v[:, None]).T, k))
+    den_c = _trim(_coefficients(den_v[None, :], k))
+    scale = np.max(np.abs(den_c))
+    den = np.broadcast_to(den_c / scale, (len(idx), den_c.shape[1]))
+    return Rational(num_c / scale, np.array(den), np.full(len(idx), float(w_ref)))
+
+
 def _finite_amps(system: MnaSystem) -> bool:
     terms = system.amp_terms
     return bool(terms) and any(np.any(a != 0) or np.any(b != 0) for _, _, a, b in terms)
@@ -264,35 +281,90 @@ def _by_amplifiers(system: MnaSystem, w: np.ndarray) -> Rational:
         C0[:, r, c] += b
     base = MnaSystem(G0, C0, system.layout, system.output_index, None)
     k, a0 = _samples(base, w)
-    src = system.source_vector().astype(complex)
-    out = system.output_index
-    m = len(terms)
     bsz = system.batch
     # x_k in p = s/w_ref, highest power first: −(1/ωt·w_ref)·p − 1/A0, shape (B, 2)
     lin = [np.stack([-np.broadcast_to(b, (bsz,)) * w, -np.broadcast_to(a, (bsz,))], axis=1) for _, _, a, b in terms]
     den = None
     num = None
-    for size in range(m + 1):
-        for subset in itertools.combinations(range(m), size):
-            mat = a0.copy()
-            for j in subset:
-                r, c = terms[j][0], terms[j][1]
-                mat[..., r, :] = 0.0
-                mat[..., r, c] = 1.0
-            d_c = _snap(_coefficients(np.linalg.det(mat), k))
-            cram = mat.copy()
-            cram[..., :, out] = src
-            n_c = _snap(_coefficients(np.linalg.det(cram), k))
-            for j in subset:
-                d_c = polymul_batch(d_c, lin[j])
-                n_c = polymul_batch(n_c, lin[j])
-            den = d_c if den is None else _padd(den, d_c)
-            num = n_c if num is None else _padd(num, n_c)
+    for subset, d_c, n_c in _subset_dets(a0, k, terms, system.source_vector(), system.output_index):
+        for j in subset:
+            d_c = polymul_batch(d_c, lin[j])
+            n_c = polymul_batch(n_c, lin[j])
+        den = d_c if den is None else _padd(den, d_c)
+        num = n_c if num is None else _padd(num, n_c)
     den = _lead_trim(den)
     num = _lead_trim(num)
     scale = np.max(np.abs(den), axis=1, keepdims=True)
     scale[scale == 0] = 1.0
     return Rational(num / scale, den / scale, np.array(w, dtype=float))
+
+
+def _subset_dets(samples: np.ndarray, k: int, terms, source: np.ndarray, out: int):
+    """For every subset ``S`` of the op-amps: ``(S, D_S, N_S)``, the coefficients (in ``p``) of
+    ``det(A_S)`` and of its Cramer numerator, ``A_S`` the sampled ideal pencil ``samples``
+    (``(B, K, n, n)``) with the rows of the op-amps in ``S`` replaced by the unit rows of their
+    output columns (see :func:`_by_amplifiers`)."""
+    src = source.astype(complex)
+    for size in range(len(terms) + 1):
+        for subset in itertools.combinations(range(len(terms)), size):
+            mat = samples.copy()
+            for j in subset:
+                r, c = terms[j][0], terms[j][1]
+                mat[..., r, :] = 0.0
+                mat[..., r, c] = 1.0
+            d_c = _snap(_coefficients(np.linalg.det(mat), k))
+            mat[..., :, out] = src
+            n_c = _snap(_coefficients(np.linalg.det(mat), k))
+            yield subset, d_c, n_c
+
+
+@dataclass(frozen=True, slots=True)
+class AmpFamily:
+    """A several-op-amp circuit's transfer function for every single-pole op-amp at once, the same
+    op-amp on every amplifier.
+
+    With ``x(p) = −(1/A0 + p·w_ref/ωt)`` the determinant is ``D = Σ_j x^j·D_j(p)``, ``D_j`` the sum
+    of ``det(A_S)`` over the subsets of ``j`` op-amps (:func:`_by_amplifiers`), and the numerator
+    likewise; ``den_terms[j]`` and ``num_terms[j]`` hold ``D_j`` and ``N_j`` (highest power first).
+    The one-op-amp case is :class:`OpAmpFamily`.
+    """
+
+    num_terms: tuple[np.ndarray, ...]
+    den_terms: tuple[np.ndarray, ...]
+    w_ref: float
+
+    def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
+        """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s)."""
+        gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
+        alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
+        x = np.stack([-self.w_ref / (2.0 * np.pi * gbw), -alpha], axis=1)
+        power = np.ones((gbw.size, 1))
+        num = den = None
+        for j, (n_j, d_j) in enumerate(zip(self.num_terms, self.den_terms)):
+            if j:
+                power = polymul_batch(power, x)
+            n_c = polymul_batch(np.broadcast_to(n_j, (gbw.size, n_j.size)), power)
+            d_c = polymul_batch(np.broadcast_to(d_j, (gbw.size, d_j.size)), power)
+            num = n_c if num is None else _padd(num, n_c)
+            den = d_c if den is None else _padd(den, d_c)
+        den = _lead_trim(den)
+        num = _lead_trim(num)
+        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        scale[scale == 0] = 1.0
+        return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
+
+
+def _amp_family(system: MnaSystem, samples: np.ndarray, k: int, w: float) -> AmpFamily:
+    """:class:`AmpFamily` of member 0 of an ideal-op-amp system (its sampled pencil given)."""
+    terms = system.amp_terms
+    m = len(terms)
+    nums: list = [None] * (m + 1)
+    dens: list = [None] * (m + 1)
+    for subset, d_c, n_c in _subset_dets(samples[:1], k, terms, system.source_vector(), system.output_index):
+        j = len(subset)
+        dens[j] = d_c if dens[j] is None else _padd(dens[j], d_c)
+        nums[j] = n_c if nums[j] is None else _padd(nums[j], n_c)
+    return AmpFamily(tuple(n[0] for n in nums), tuple(d[0] for d in dens), float(w))
 
 
 def _snap(c: np.ndarray) -> np.ndarray:
@@ -327,7 +399,9 @@ def _rational_and_family(system: MnaSystem, w_ref, *, family: bool) -> tuple[Rat
     rational = Rational(num_c / scale, den_c / scale, np.array(w, dtype=float))
     fam = None
     rows = list(system.layout.opamp_row.values())
-    if family and len(rows) == 1:
+    if family and len(rows) > 1 and system.amp_terms:
+        fam = _amp_family(system, a, k, float(w[0]))
+    elif family and len(rows) == 1:
         r, c = rows[0], system.output_index
         minor = np.delete(np.delete(a[0], r, axis=-2), c, axis=-1)
         cof = (-1.0) ** (r + c) * _coefficients(np.linalg.det(minor)[None, :], k)
