@@ -305,17 +305,20 @@ def _subset_dets(samples: np.ndarray, k: int, terms, source: np.ndarray, out: in
     (``(B, K, n, n)``) with the rows of the op-amps in ``S`` replaced by the unit rows of their
     output columns (see :func:`_by_amplifiers`)."""
     src = source.astype(complex)
-    for size in range(len(terms) + 1):
-        for subset in itertools.combinations(range(len(terms)), size):
-            mat = samples.copy()
-            for j in subset:
-                r, c = terms[j][0], terms[j][1]
-                mat[..., r, :] = 0.0
-                mat[..., r, c] = 1.0
-            d_c = _snap(_coefficients(np.linalg.det(mat), k))
-            mat[..., :, out] = src
-            n_c = _snap(_coefficients(np.linalg.det(mat), k))
-            yield subset, d_c, n_c
+    subsets = [sub for size in range(len(terms) + 1) for sub in itertools.combinations(range(len(terms)), size)]
+    b = samples.shape[0]
+    # every subset's matrix and its Cramer matrix in one stack: (2·subsets, B, K, n, n)
+    mats = np.repeat(samples[None], 2 * len(subsets), axis=0)
+    for i, subset in enumerate(subsets):
+        for j in subset:
+            r, c = terms[j][0], terms[j][1]
+            mats[2 * i : 2 * i + 2, ..., r, :] = 0.0
+            mats[2 * i : 2 * i + 2, ..., r, c] = 1.0
+    mats[1::2, ..., :, out] = src
+    dets = np.linalg.det(mats).reshape(-1, samples.shape[1])  # (2·subsets·B, K)
+    coef = _snap(_coefficients(dets, k)).reshape(len(subsets), 2, b, -1)
+    for i, subset in enumerate(subsets):
+        yield subset, coef[i, 0], coef[i, 1]
 
 
 @dataclass(frozen=True, slots=True)
