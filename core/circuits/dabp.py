@@ -24,9 +24,10 @@ setting any gain.
 Design (``synthesize``): ``K = max(2, 2·|H0|)`` — the divider then halves the input for gains
 of 1 and more — ``R3 = R4 = √(K − 1)/(ω0·√(C1·C2))``, ``Rp = Q/(ω0·C1)``, ``R1 = K·Rp/|H0|``,
 ``R2 = K·Rp/(K − |H0|)`` and ``R5 = (K − 1)·R6`` with R6 at ``1/(ω0·√(C1·C2))``. The centre gain
-is free; with equal capacitors the resistor spread is about ``2Q`` : 1. The op-amps' GBW barely
-moves f0 or Q here (their errors cancel in the simulated inductor), and the GBW needed hardly
-depends on K.
+is free; with equal capacitors the resistor spread is at most about ``2Q`` : 1. Of the ways to
+connect the two op-amps' inputs to ``n``, ``p`` and ``q`` that give this ideal response, the one
+above is stable with finite op-amps and needs the least GBW (checked here by nodal analysis):
+about half that of the Tow–Thomas loop at the same target, and nearly independent of K.
 """
 
 from __future__ import annotations
