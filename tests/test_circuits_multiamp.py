@@ -328,3 +328,17 @@ def test_cascade_auto_picks_multi_amplifier_circuits_for_sharp_stages():
     assert r.feasible, r.reason
     sharp = [st for st in r.stages if st.plan.q > 40]
     assert sharp and all(st.result.topology_id in MULTI for st in sharp)
+
+
+@pytest.mark.parametrize("gbw, pole2", [(1e7, 3e7), (1e9, 5e9)])
+def test_two_pole_opamps_hold_against_the_direct_solve(topo, gbw, pole2):
+    # The two-pole op-amp model (a second pole per amplifier): polynomials against the direct
+    # solve of the same pencil, 1e-9 relative from f0/1000 to 1000·f0.
+    from bandsmith.solver.ampmodel import amp_system, amp_transfer_function
+
+    nl = topo.netlist(topo.example)
+    f0 = analyze(nl).ideal.item().f0_hz
+    f = f0 * np.geomspace(1e-3, 1e3, 25)
+    h = amp_transfer_function(nl, gbw_hz=gbw, a0=1e5, f_p2_hz=pole2)
+    direct = amp_system(nl, gbw_hz=gbw, a0=1e5, f_p2_hz=pole2).transfer(2j * math.pi * f)[0]
+    assert_allclose(h.at_f(f)[0], direct, rtol=1e-9)
