@@ -227,6 +227,17 @@ def transfer_function(
     ``w_ref`` (rad/s) normalises the coefficients; by default the natural frequency of the netlist
     with an ideal op-amp, which keeps a finite op-amp's figures near ``ω/w_ref = 1``.
     """
+    if overrides is None and len(netlist.opamps) > 1 and (gbw_hz is not None or not opamp.ideal):
+        # only the op-amp varies: the family of the ideal circuit serves every GBW at once
+        ideal = build_system(netlist)
+        if w_ref is None:
+            w_ref = reference_w(ideal)
+        family = rational_and_family(ideal, w_ref)[1]
+        if family is not None:
+            gbw = np.atleast_1d(np.asarray(gbw_hz if gbw_hz is not None else opamp.gbw_hz, dtype=float))
+            gain0 = np.asarray(a0 if a0 is not None else opamp.a0, dtype=float)
+            size = max(gbw.size, gain0.size)
+            return family.at(np.broadcast_to(gbw, (size,)), np.broadcast_to(gain0, (size,)))
     if w_ref is None:
         w_ref = reference_w(build_system(netlist))
     system = build_system(netlist, opamp, overrides=overrides, gbw_hz=gbw_hz, a0=a0)

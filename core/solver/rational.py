@@ -280,10 +280,13 @@ def _by_amplifiers(system: MnaSystem, w: np.ndarray) -> Rational:
         G0[:, r, c] += a
         C0[:, r, c] += b
     base = MnaSystem(G0, C0, system.layout, system.output_index, None)
-    k, a0 = _samples(base, w)
+    # the circle: the ideal circuit's natural frequency (a w_ref among far op-amp poles would put
+    # it far from the roots of the det(A_S)); the result is rescaled to w_ref at the end
+    wb = np.full(system.batch, reference_w(base))
+    k, a0 = _samples(base, wb)
     bsz = system.batch
-    # x_k in p = s/w_ref, highest power first: −(1/ωt·w_ref)·p − 1/A0, shape (B, 2)
-    lin = [np.stack([-np.broadcast_to(b, (bsz,)) * w, -np.broadcast_to(a, (bsz,))], axis=1) for _, _, a, b in terms]
+    # x_k in p_b = s/wb, highest power first: −(wb/ωt)·p_b − 1/A0, shape (B, 2)
+    lin = [np.stack([-np.broadcast_to(b, (bsz,)) * wb, -np.broadcast_to(a, (bsz,))], axis=1) for _, _, a, b in terms]
     den = None
     num = None
     for subset, d_c, n_c in _subset_dets(a0, k, terms, system.source_vector(), system.output_index):
@@ -292,11 +295,18 @@ def _by_amplifiers(system: MnaSystem, w: np.ndarray) -> Rational:
             n_c = polymul_batch(n_c, lin[j])
         den = d_c if den is None else _padd(den, d_c)
         num = n_c if num is None else _padd(num, n_c)
-    den = _lead_trim(den)
-    num = _lead_trim(num)
+    den = _lead_trim(_rescale(den, wb / w))
+    num = _lead_trim(_rescale(num, wb / w))
     scale = np.max(np.abs(den), axis=1, keepdims=True)
     scale[scale == 0] = 1.0
     return Rational(num / scale, den / scale, np.array(w, dtype=float))
+
+
+def _rescale(c: np.ndarray, ratio: np.ndarray) -> np.ndarray:
+    """Coefficients in ``p_b = s/w_b`` (highest power first) to ``p = s/w``, ``ratio = w_b/w``
+    per member: ``c_k·p_b^k = c_k·(w/w_b)^k·p^k``."""
+    powers = np.arange(c.shape[1] - 1, -1, -1.0)
+    return c * (1.0 / ratio[:, None]) ** powers[None, :]
 
 
 def _subset_dets(samples: np.ndarray, k: int, terms, source: np.ndarray, out: int):
