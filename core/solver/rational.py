@@ -11,6 +11,7 @@ order one, highest power first (numpy's convention).
 from __future__ import annotations
 
 import itertools
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -347,24 +348,34 @@ class AmpFamily:
     w_ref: float
 
     def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
-        """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s)."""
+        """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s).
+
+        ``x^j = (−α − β·p)^j = Σ_i C(j, i)·(−β)^i·(−α)^(j−i)·p^i`` (binomial theorem), so both
+        polynomials are one weighted sum of the shifted ``N_j``, ``D_j``: a single product."""
         gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
         alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
-        x = np.stack([-self.w_ref / (2.0 * np.pi * gbw), -alpha], axis=1)
-        power = np.ones((gbw.size, 1))
-        num = den = None
-        for j, (n_j, d_j) in enumerate(zip(self.num_terms, self.den_terms)):
-            if j:
-                power = polymul_batch(power, x)
-            n_c = polymul_batch(np.broadcast_to(n_j, (gbw.size, n_j.size)), power)
-            d_c = polymul_batch(np.broadcast_to(d_j, (gbw.size, d_j.size)), power)
-            num = n_c if num is None else _padd(num, n_c)
-            den = d_c if den is None else _padd(den, d_c)
+        beta = self.w_ref / (2.0 * np.pi * gbw)
+        m = len(self.den_terms) - 1
+        num = _family_sum(self.num_terms, alpha, beta, m)
+        den = _family_sum(self.den_terms, alpha, beta, m)
         den = _lead_trim(den)
         num = _lead_trim(num)
         scale = np.max(np.abs(den), axis=1, keepdims=True)
         scale[scale == 0] = 1.0
         return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
+
+
+def _family_sum(terms: tuple[np.ndarray, ...], alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
+    """``Σ_j x^j·T_j(p)`` for ``x = −α − β·p`` (batched over α, β), highest power first."""
+    length = max(t.size + j for j, t in enumerate(terms))
+    pairs = [(j, i) for j in range(m + 1) for i in range(j + 1)]
+    shifted = np.zeros((len(pairs), length))
+    weights = np.empty((alpha.size, len(pairs)))
+    for n, (j, i) in enumerate(pairs):
+        t = terms[j]
+        shifted[n, length - t.size - i : length - i] = t  # T_j·p^i
+        weights[:, n] = math.comb(j, i) * (-beta) ** i * (-alpha) ** (j - i)
+    return weights @ shifted
 
 
 def _amp_family(system: MnaSystem, samples: np.ndarray, k: int, w: float) -> AmpFamily:
