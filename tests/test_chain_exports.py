@@ -141,6 +141,12 @@ def stage_parts(parsed: dict, index: int) -> dict[str, tuple[str, float]]:
 # --------------------------------------------------------------------------- netlist
 
 
+
+def _amps(stage):
+    """The op-amp references of a chain stage's circuit."""
+    topo = get_topology(stage.topology_id)
+    return [e.ref for e in topo.build(topo.values_from(stage.values)).opamps]
+
 def test_the_netlist_parses_back_into_every_stage_s_parts(built):
     chain = built.chain("chain-1")
     p = parse_spice(chain_spice_netlist(chain, gbw_hz=2e6, a0=1e5))
@@ -161,7 +167,8 @@ def test_one_op_amp_macro_model_per_stage(built):
     chain = built.chain("chain-1")
     p = parse_spice(chain_spice_netlist(chain, gbw_hz=2e6, a0=1e5))
     xs = {n: rest for n, rest in p["elements"].items() if n[0].upper() == "X"}
-    assert sorted(xs) == sorted(f"XU1_S{st.index}" for st in chain.stages)
+    # one instance per amplifier of every stage
+    assert sorted(xs) == sorted(f"X{u}_S{st.index}" for st in chain.stages for u in _amps(st))
     assert all(rest[-1] == OPAMP_SUBCKT for rest in xs.values())
     assert list(p["subckts"]) == [OPAMP_SUBCKT]
     sub = p["subckts"][OPAMP_SUBCKT]["elements"]
@@ -240,7 +247,7 @@ def test_the_default_sweep_is_fine_enough_for_the_sharpest_stage(built):
 
 
 def test_bad_input_is_named():
-    s = ChainSettings.from_request("chebyshev", 6, f0_hz=10e3, bw_hz=2e3, series="E24")
+    s = ChainSettings.from_request("chebyshev", 6, f0_hz=10e3, bw_hz=2e3, series="E24", circuit="sallen-key")
     r = design_cascade(s)
     assert not r.feasible
     with pytest.raises(InputError) as exc:
@@ -276,7 +283,8 @@ def test_the_parts_list_lists_every_part_with_the_netlist_s_references(built):
             assert r["circuit"] == st.topology_id and r["kind"] == topo.component(ref).kind and r["role"]
             assert r["reference"] in p["elements"]  # the same name as in the netlist
         amps = [r for r in mine if r["kind"] == "opamp"]
-        assert len(amps) == 1 and amps[0]["reference"] == f"XU1_S{st.index}" and float(amps[0]["value"]) == 2e6
+        assert [a["reference"] for a in amps] == [f"X{u}_S{st.index}" for u in _amps(st)]
+        assert all(float(a["value"]) == 2e6 for a in amps)
     refs = [r["reference"] for r in rows]
     assert len(refs) == len(set(refs))
 
@@ -306,7 +314,7 @@ def test_bandsmith_export_chain(built, tmp_path, capsys):
     p = parse_spice(net.read_text(encoding="utf-8"))
     for st in chain.stages:
         assert stage_parts(p, st.index) == {c.ref: (c.kind, float(st.values[c.ref])) for c in get_topology(st.topology_id).components if c.required or st.values[c.ref] > 0}
-    assert len(read_csv(parts.read_text(encoding="utf-8"))) == sum(len([v for v in s.values.values() if v > 0]) + 1 for s in chain.stages)
+    assert len(read_csv(parts.read_text(encoding="utf-8"))) == sum(len([v for v in s.values.values() if v > 0]) + len(_amps(s)) for s in chain.stages)
     # A chain the session does not have, or a response table of a chain: one line naming the option.
     assert cli_main(["export", str(path), "--netlist", str(net), "--chain", "nope"]) == 2
     err = capsys.readouterr().err

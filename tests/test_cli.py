@@ -184,10 +184,10 @@ def test_bad_value_message_suggests_the_notation():
 
 
 def test_topologies_json():
-    # README ("The circuits", `bandsmith topologies`): ids rlc-tank, mfb, sallen-key; components with ref, kind, role, required
+    # README ("The circuits", `bandsmith topologies`): every circuit id; components with ref, kind, role, required
     data = ok_json("topologies-json")
     topos = {t["id"]: t for t in data["topologies"]}
-    assert set(topos) == {"rlc-tank", "mfb", "sallen-key"}
+    assert set(topos) == {"rlc-tank", "mfb", "sallen-key", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"}
     for t in topos.values():
         assert isinstance(t["title"], str) and t["title"]
         assert isinstance(t["inverting"], bool)

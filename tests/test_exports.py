@@ -147,8 +147,12 @@ def test_netlist_parses_back_into_the_same_parts(topology_id, values):
             assert rest[1] == p["elements"]["RL"][0]  # the winding in series with L
         else:
             assert rest[:2] == list(e.nodes)
-    (op,) = cand.netlist.opamps
-    assert p["elements"][f"X{op.ref}"] == [*op.nodes, OPAMP_SUBCKT]
+    # one op-amp instance per amplifier, each on its own nodes
+    amps = cand.netlist.opamps
+    assert amps
+    assert sorted(n for n in p["elements"] if n.startswith("X")) == sorted(f"X{op.ref}" for op in amps)
+    for op in amps:
+        assert p["elements"][f"X{op.ref}"] == [*op.nodes, OPAMP_SUBCKT]
     kind, per_decade, f1, f2 = p["ac"]
     assert kind == "dec" and per_decade == 100 and 0 < f1 < f2
 

@@ -29,7 +29,7 @@ from bandsmith.solver.mna import IDEAL
 from bandsmith.analysis.noise import NoiseSettings, output_noise
 from bandsmith.files.session import load_session
 from bandsmith.common.values import format_value
-from window_helpers import ScriptedPrompter, screenshot, temp_settings
+from window_helpers import scroll_to, ScriptedPrompter, screenshot, temp_settings
 
 pytestmark = pytest.mark.gui
 
@@ -198,5 +198,6 @@ def test_screenshots(qtbot, tmp_path, monkeypatch, tabs):
     qtbot.waitUntil(lambda: w.noise_pane.result is not None and w.noise_pane.picker.candidate_id == "rlc-tank")
     qtbot.wait(50)
     p = w.noise_pane
+    scroll_to(p.table)  # the sources table lies below the plot at 1280×800: scroll, as a user would
     screenshot(w, ARTIFACTS / "noise_pane_window.png", regions=(p.canvas, p.table), labels=(p.integrated, p.winding))
     assert "Inductor L: Q at f0" in w.noise_pane.winding.text()

@@ -100,6 +100,19 @@ def assert_text_shown(label) -> None:
         assert widest <= label.contentsRect().width(), f"{text!r} is cut: {widest} px in {label.contentsRect().width()} px"
 
 
+def scroll_to(child) -> None:
+    """Scroll every scroll area holding ``child`` so that it is in view, as a user would."""
+    from PySide6 import QtWidgets
+
+    w = child.parentWidget()
+    while w is not None:
+        if isinstance(w, QtWidgets.QScrollArea) and w.widget() is not None:
+            top = child.mapTo(w.widget(), QtCore.QPoint(0, 0))
+            w.verticalScrollBar().setValue(min(top.y(), w.verticalScrollBar().maximum()))
+        w = w.parentWidget()
+    QtWidgets.QApplication.processEvents()
+
+
 def screenshot(widget, path, *, regions=(), labels=(), at_least: float = 0.005):
     """Grab ``widget``, save the picture to ``path`` (for a person to look at) and check what it shows.
 

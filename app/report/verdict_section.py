@@ -17,7 +17,8 @@ from bandsmith.common.values import format_value
 from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VerdictLimits
 
 from bandsmith.app.document.comparison import SessionComparison, judge_session
-from bandsmith.app.report.builder import ReportContext, register_section
+from bandsmith.app.report.context import ReportContext
+from bandsmith.app.report.sections import register_section
 
 __all__ = ["section_verdicts", "report_comparison", "VERDICT_MARKS"]
 

@@ -27,7 +27,7 @@ from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
-from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, rational_and_family, rational_from_system, reference_w
+from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, node_rationals, rational_and_family, rational_from_system, reference_w
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, step_response
 
 __all__ = [
@@ -40,6 +40,8 @@ __all__ = [
     "required_gbw",
     "requirements",
     "opamp_output_current",
+    "AmplifierNeeds",
+    "amplifier_needs",
     "sensitivities",
     "analyze",
     "sweep",
@@ -69,10 +71,41 @@ class Tolerances:
 
 
 @dataclass(frozen=True, slots=True)
+class AmplifierNeeds:
+    """What one amplifier of a circuit asks of its op-amp, in SI units.
+
+    ``vout_peak_v`` is the peak of its output at f0 for the input's peak amplitude (V); the slew
+    rates (V/s) as :class:`Requirements` defines them, at this amplifier's output; ``iout_peak_a``
+    the peak current its output delivers at f0 (A). The JSON shows V/µs and mA.
+    """
+
+    ref: str
+    node: str
+    vout_peak_v: float
+    slew_sine_v_per_s: float
+    slew_step_v_per_s: float
+    iout_peak_a: float
+
+    def to_json(self) -> dict:
+        f = finite_or_none
+        return {
+            "ref": self.ref,
+            "node": self.node,
+            "vout_peak_v": f(self.vout_peak_v),
+            "slew_sine_v_per_us": f(to_v_per_us(self.slew_sine_v_per_s)),
+            "slew_step_v_per_us": f(to_v_per_us(self.slew_step_v_per_s)),
+            "iout_peak_ma": f(to_ma(self.iout_peak_a)),
+        }
+
+
+@dataclass(frozen=True, slots=True)
 class Requirements:
-    """What the circuit asks of its op-amp (the README's REQUIREMENTS).
+    """What the circuit asks of its op-amps (the README's REQUIREMENTS).
 
     Stored in SI (V/s, A); the data-sheet units (V/µs, mA) are the properties below and the JSON.
+    With several amplifiers ``amplifiers`` lists each one's needs and ``vout_peak_v``, the slew
+    rates and the output current hold the worst of them; ``gbw_hz`` is the one GBW every amplifier
+    of the circuit needs (the same op-amp model on all of them).
     """
 
     gbw_hz: float | None
@@ -85,6 +118,7 @@ class Requirements:
     slew_step_v_per_s: float
     iout_peak_a: float
     gbw_rule_of_thumb_hz: float
+    amplifiers: tuple[AmplifierNeeds, ...] = ()
 
     @property
     def slew_sine_v_per_us(self) -> float:
@@ -117,6 +151,7 @@ class Requirements:
             "slew_step_v_per_us": f(self.slew_step_v_per_us),
             "iout_peak_ma": f(self.iout_peak_ma),
             "gbw_rule_of_thumb_hz": f(self.gbw_rule_of_thumb_hz),
+            "amplifiers": [a.to_json() for a in self.amplifiers],
         }
 
 
@@ -215,6 +250,17 @@ def transfer_function(
     ``w_ref`` (rad/s) normalises the coefficients; by default the natural frequency of the netlist
     with an ideal op-amp, which keeps a finite op-amp's figures near ``ω/w_ref = 1``.
     """
+    if overrides is None and len(netlist.opamps) > 1 and (gbw_hz is not None or not opamp.ideal):
+        # only the op-amp varies: the family of the ideal circuit serves every GBW at once
+        ideal = build_system(netlist)
+        if w_ref is None:
+            w_ref = reference_w(ideal)
+        family = rational_and_family(ideal, w_ref)[1]
+        if family is not None:
+            gbw = np.atleast_1d(np.asarray(gbw_hz if gbw_hz is not None else opamp.gbw_hz, dtype=float))
+            gain0 = np.asarray(a0 if a0 is not None else opamp.a0, dtype=float)
+            size = max(gbw.size, gain0.size)
+            return family.at(np.broadcast_to(gbw, (size,)), np.broadcast_to(gain0, (size,)))
     if w_ref is None:
         w_ref = reference_w(build_system(netlist))
     system = build_system(netlist, opamp, overrides=overrides, gbw_hz=gbw_hz, a0=a0)
@@ -401,6 +447,43 @@ def opamp_output_current(
     return float(max(abs(x[layout.opamp_row[r]]) for r in own)) if own else 0.0
 
 
+def amplifier_needs(
+    netlist: Netlist, f0_hz: float, *, vin_v: float = 1.0, rload_ohm: float | None = None, w_ref: float | None = None,
+) -> tuple[AmplifierNeeds, ...]:
+    """Each amplifier's output swing, slew rates and output current (ideal op-amps).
+
+    One solve at f0 gives every op-amp's output voltage and current; the step slew of each
+    output comes from the exact transfer function to that output node
+    (:func:`bandsmith.analysis.timeresponse.max_step_slope`). ``vin_v`` is the input's peak (V).
+    """
+    if not math.isfinite(f0_hz):
+        return tuple(AmplifierNeeds(e.ref, e.nodes[2], math.nan, math.nan, math.nan, math.nan) for e in netlist.opamps)
+    loaded = netlist
+    if rload_ohm is not None:
+        loaded = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
+    x, layout = solve_at(loaded, 2j * math.pi * f0_hz)
+    system = build_system(netlist)
+    if w_ref is None:
+        w_ref = 2.0 * math.pi * f0_hz
+    at_nodes = node_rationals(system, [system.layout.node_index[e.nodes[2]] for e in netlist.opamps], w_ref)
+    out = []
+    for i, e in enumerate(netlist.opamps):
+        node = e.nodes[2]
+        v = abs(x[layout.node_index[node]]) * vin_v
+        slope = max_step_slope(at_nodes, i=i)
+        out.append(
+            AmplifierNeeds(
+                ref=e.ref,
+                node=node,
+                vout_peak_v=v,
+                slew_sine_v_per_s=2.0 * math.pi * f0_hz * v,
+                slew_step_v_per_s=slope * vin_v,
+                iout_peak_a=abs(x[layout.opamp_row[e.ref]]) * vin_v,
+            )
+        )
+    return tuple(out)
+
+
 def requirements(
     netlist: Netlist,
     ideal: Figures,
@@ -427,18 +510,31 @@ def requirements(
     gain = abs(ref.gain_center)
     # Common practice, no source: open-loop gain at f0 some 40 dB above the peak gain.
     rule = 100.0 * gain * ref.f0_hz if math.isfinite(gain) else math.nan
-    iout = opamp_output_current(netlist, ref.f0_hz, rload_ohm=rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
+    vout = gain * vin_v
+    slew_sine = 2.0 * math.pi * ref.f0_hz * gain * vin_v
+    slew_step = step_slope_per_s * vin_v
+    if len(netlist.opamps) > 1:
+        amps = amplifier_needs(netlist, ref.f0_hz, vin_v=vin_v, rload_ohm=rload_ohm)
+        # the worst amplifier (the output's own figures are among them)
+        vout = max([vout] + [a.vout_peak_v for a in amps])
+        slew_sine = max([slew_sine] + [a.slew_sine_v_per_s for a in amps])
+        slew_step = max([slew_step] + [a.slew_step_v_per_s for a in amps])
+        iout = max(a.iout_peak_a for a in amps)
+    else:
+        iout = opamp_output_current(netlist, ref.f0_hz, rload_ohm=rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
+        amps = tuple(AmplifierNeeds(e.ref, e.nodes[2], vout, slew_sine, slew_step, iout) for e in netlist.opamps)
     return Requirements(
         gbw_hz=gbw,
         gbw_reason=reason,
         tolerances=tolerances,
         a0=a0,
         vin_v=vin_v,
-        vout_peak_v=gain * vin_v,
-        slew_sine_v_per_s=2.0 * math.pi * ref.f0_hz * gain * vin_v,
-        slew_step_v_per_s=step_slope_per_s * vin_v,
+        vout_peak_v=vout,
+        slew_sine_v_per_s=slew_sine,
+        slew_step_v_per_s=slew_step,
         iout_peak_a=iout,
         gbw_rule_of_thumb_hz=rule,
+        amplifiers=amps,
     )
 
 

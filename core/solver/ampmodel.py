@@ -88,10 +88,14 @@ def amp_system(
     inv_a0 = 1.0 / float(a0)
     inv_wt = 1.0 / (2.0 * math.pi * float(gbw_hz))
     inv_wp2 = 1.0 / (2.0 * math.pi * float(f_p2_hz))
+    terms = []
     for k, e in enumerate(netlist.opamps):
         row = lay.opamp_row[e.ref]
         out = lay.node_index[e.nodes[2]]
         w = n + k
+        # the op-amp's small terms, as rational.py's expansion in the op-amp terms takes them
+        terms.append((row, w, np.full(b, inv_a0), np.full(b, inv_wt)))
+        terms.append((w, out, np.zeros(b), np.full(b, inv_wp2)))
         # Move the op-amp row's output terms onto the internal state w.
         G[:, row, out] += inv_a0
         C[:, row, out] += inv_wt
@@ -102,7 +106,7 @@ def amp_system(
         G[:, w, out] -= 1.0
         C[:, w, out] -= inv_wp2
     layout = MnaLayout(lay.node_index, lay.source_row, lay.inductor_row, lay.opamp_row, size)
-    return MnaSystem(G, C, layout, base.output_index)
+    return MnaSystem(G, C, layout, base.output_index, tuple(terms))
 
 
 def amp_transfer_function(

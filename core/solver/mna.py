@@ -100,6 +100,9 @@ class MnaSystem:
     C: np.ndarray
     layout: MnaLayout
     output_index: int
+    # Each op-amp's term ``−(1/A0 + s/ωt)`` as ``(row, column, 1/A0, 1/ωt)`` with ``(B,)`` arrays
+    # (zeros for the ideal op-amp); None where the system was built otherwise (a second pole).
+    amp_terms: tuple[tuple[int, int, np.ndarray, np.ndarray], ...] | None = None
 
     @property
     def batch(self) -> int:
@@ -227,7 +230,14 @@ def build_system(
         else:
             m[:, i, j] -= y
 
-    return MnaSystem(G, C, layout, layout.node_index[netlist.output])
+    terms = []
+    for e in netlist.opamps:
+        row, col = layout.opamp_row[e.ref], layout.node_index[e.nodes[2]]
+        if gbw is None:
+            terms.append((row, col, np.zeros(size), np.zeros(size)))
+        else:
+            terms.append((row, col, known[("a0", e.ref)], known[("wt", e.ref)]))
+    return MnaSystem(G, C, layout, layout.node_index[netlist.output], tuple(terms))
 
 
 _OPAMP_TERMS = ("a0", "wt")

@@ -10,6 +10,8 @@ order one, highest power first (numpy's convention).
 
 from __future__ import annotations
 
+import itertools
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -17,7 +19,7 @@ import scipy.linalg
 
 from bandsmith.solver.mna import MnaSystem
 
-__all__ = ["Rational", "OpAmpFamily", "rational_from_system", "rational_and_family", "reference_w", "polyval_batch"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "reference_w", "polyval_batch"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -233,10 +235,183 @@ def rational_and_family(system: MnaSystem, w_ref: float) -> tuple[Rational, OpAm
     return _rational_and_family(system, w_ref, family=True)
 
 
+def node_rationals(system: MnaSystem, indices, w_ref: float) -> Rational:
+    """Transfer functions from the input to several unknowns (node voltages, op-amp currents) of
+    member 0 of an ideal-op-amp system, from one set of samples: a batch of ``len(indices)``."""
+    w = np.array([float(w_ref)])
+    one = MnaSystem(system.G[:1], system.C[:1], system.layout, system.output_index, None)
+    k, a = _samples(one, w)
+    den_v = np.linalg.det(a)[0]
+    b = np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None]
+    x = np.linalg.solve(a, b)[0, :, :, 0]  # (K, n)
+    idx = list(indices)
+    num_c = _trim(_coefficients((x[:, idx] * den_v[:, None]).T, k))
+    den_c = _trim(_coefficients(den_v[None, :], k))
+    scale = np.max(np.abs(den_c))
+    den = np.broadcast_to(den_c / scale, (len(idx), den_c.shape[1]))
+    return Rational(num_c / scale, np.array(den), np.full(len(idx), float(w_ref)))
+
+
+def _finite_amps(system: MnaSystem) -> bool:
+    terms = system.amp_terms
+    return bool(terms) and any(np.any(a != 0) or np.any(b != 0) for _, _, a, b in terms)
+
+
+def _by_amplifiers(system: MnaSystem, w: np.ndarray) -> Rational:
+    """Exact transfer function of a system with finite op-amps, expanded in the op-amp terms.
+
+    Each op-amp ``k`` adds ``x_k(s) = −(1/A0 + s/ωt)`` to one entry ``(r_k, c_k)`` of the pencil,
+    and the determinant is linear in every row, so (row ``r_k`` split into its ideal part and
+    ``x_k·e_{c_k}``)
+
+        D(s) = Σ_S Π_{k∈S} x_k(s) · det(A_S(s)),
+
+    over every subset ``S`` of the op-amps, ``A_S`` being the ideal-op-amp pencil with the rows
+    ``r_k`` (k ∈ S) replaced by the unit rows ``e_{c_k}``; the numerator (Cramer's rule: the output
+    column replaced by the source vector) likewise. Each ``det(A_S)`` is interpolated on the circle
+    ``|s| = w_ref``, where its roots (those of passive-and-ideal-op-amp sub-circuits) live, and
+    the products with the linear factors are formed exactly. Interpolating ``D`` itself instead
+    loses the small high-order coefficients that far op-amp poles put in it (``(w_ref/ωt)^m``,
+    below the rounding of the samples).
+    """
+    terms = system.amp_terms
+    G0 = system.G.copy()
+    C0 = system.C.copy()
+    for r, c, a, b in terms:  # the ideal-op-amp pencil: the terms were stamped with a minus sign
+        G0[:, r, c] += a
+        C0[:, r, c] += b
+    base = MnaSystem(G0, C0, system.layout, system.output_index, None)
+    # the circle: the ideal circuit's natural frequency (a w_ref among far op-amp poles would put
+    # it far from the roots of the det(A_S)); the result is rescaled to w_ref at the end
+    wb = np.full(system.batch, reference_w(base))
+    k, a0 = _samples(base, wb)
+    bsz = system.batch
+    # x_k in p_b = s/wb, highest power first: −(wb/ωt)·p_b − 1/A0, shape (B, 2)
+    lin = [np.stack([-np.broadcast_to(b, (bsz,)) * wb, -np.broadcast_to(a, (bsz,))], axis=1) for _, _, a, b in terms]
+    den = None
+    num = None
+    for subset, d_c, n_c in _subset_dets(a0, k, terms, system.source_vector(), system.output_index):
+        for j in subset:
+            d_c = polymul_batch(d_c, lin[j])
+            n_c = polymul_batch(n_c, lin[j])
+        den = d_c if den is None else _padd(den, d_c)
+        num = n_c if num is None else _padd(num, n_c)
+    den = _lead_trim(_rescale(den, wb / w))
+    num = _lead_trim(_rescale(num, wb / w))
+    scale = np.max(np.abs(den), axis=1, keepdims=True)
+    scale[scale == 0] = 1.0
+    return Rational(num / scale, den / scale, np.array(w, dtype=float))
+
+
+def _rescale(c: np.ndarray, ratio: np.ndarray) -> np.ndarray:
+    """Coefficients in ``p_b = s/w_b`` (highest power first) to ``p = s/w``, ``ratio = w_b/w``
+    per member: ``c_k·p_b^k = c_k·(w/w_b)^k·p^k``."""
+    powers = np.arange(c.shape[1] - 1, -1, -1.0)
+    return c * (1.0 / ratio[:, None]) ** powers[None, :]
+
+
+def _subset_dets(samples: np.ndarray, k: int, terms, source: np.ndarray, out: int):
+    """For every subset ``S`` of the op-amps: ``(S, D_S, N_S)``, the coefficients (in ``p``) of
+    ``det(A_S)`` and of its Cramer numerator, ``A_S`` the sampled ideal pencil ``samples``
+    (``(B, K, n, n)``) with the rows of the op-amps in ``S`` replaced by the unit rows of their
+    output columns (see :func:`_by_amplifiers`)."""
+    src = source.astype(complex)
+    subsets = [sub for size in range(len(terms) + 1) for sub in itertools.combinations(range(len(terms)), size)]
+    b = samples.shape[0]
+    # every subset's matrix and its Cramer matrix in one stack: (2·subsets, B, K, n, n)
+    mats = np.repeat(samples[None], 2 * len(subsets), axis=0)
+    for i, subset in enumerate(subsets):
+        for j in subset:
+            r, c = terms[j][0], terms[j][1]
+            mats[2 * i : 2 * i + 2, ..., r, :] = 0.0
+            mats[2 * i : 2 * i + 2, ..., r, c] = 1.0
+    mats[1::2, ..., :, out] = src
+    dets = np.linalg.det(mats).reshape(-1, samples.shape[1])  # (2·subsets·B, K)
+    coef = _snap(_coefficients(dets, k)).reshape(len(subsets), 2, b, -1)
+    for i, subset in enumerate(subsets):
+        yield subset, coef[i, 0], coef[i, 1]
+
+
+@dataclass(frozen=True, slots=True)
+class AmpFamily:
+    """A several-op-amp circuit's transfer function for every single-pole op-amp at once, the same
+    op-amp on every amplifier.
+
+    With ``x(p) = −(1/A0 + p·w_ref/ωt)`` the determinant is ``D = Σ_j x^j·D_j(p)``, ``D_j`` the sum
+    of ``det(A_S)`` over the subsets of ``j`` op-amps (:func:`_by_amplifiers`), and the numerator
+    likewise; ``den_terms[j]`` and ``num_terms[j]`` hold ``D_j`` and ``N_j`` (highest power first).
+    The one-op-amp case is :class:`OpAmpFamily`.
+    """
+
+    num_terms: tuple[np.ndarray, ...]
+    den_terms: tuple[np.ndarray, ...]
+    w_ref: float
+
+    def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
+        """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s).
+
+        ``x^j = (−α − β·p)^j = Σ_i C(j, i)·(−β)^i·(−α)^(j−i)·p^i`` (binomial theorem), so both
+        polynomials are one weighted sum of the shifted ``N_j``, ``D_j``: a single product."""
+        gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
+        alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
+        beta = self.w_ref / (2.0 * np.pi * gbw)
+        m = len(self.den_terms) - 1
+        num = _family_sum(self.num_terms, alpha, beta, m)
+        den = _family_sum(self.den_terms, alpha, beta, m)
+        den = _lead_trim(den)
+        num = _lead_trim(num)
+        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        scale[scale == 0] = 1.0
+        return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
+
+
+def _family_sum(terms: tuple[np.ndarray, ...], alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
+    """``Σ_j x^j·T_j(p)`` for ``x = −α − β·p`` (batched over α, β), highest power first."""
+    length = max(t.size + j for j, t in enumerate(terms))
+    pairs = [(j, i) for j in range(m + 1) for i in range(j + 1)]
+    shifted = np.zeros((len(pairs), length))
+    weights = np.empty((alpha.size, len(pairs)))
+    for n, (j, i) in enumerate(pairs):
+        t = terms[j]
+        shifted[n, length - t.size - i : length - i] = t  # T_j·p^i
+        weights[:, n] = math.comb(j, i) * (-beta) ** i * (-alpha) ** (j - i)
+    return weights @ shifted
+
+
+def _amp_family(system: MnaSystem, samples: np.ndarray, k: int, w: float) -> AmpFamily:
+    """:class:`AmpFamily` of member 0 of an ideal-op-amp system (its sampled pencil given)."""
+    terms = system.amp_terms
+    m = len(terms)
+    nums: list = [None] * (m + 1)
+    dens: list = [None] * (m + 1)
+    for subset, d_c, n_c in _subset_dets(samples[:1], k, terms, system.source_vector(), system.output_index):
+        j = len(subset)
+        dens[j] = d_c if dens[j] is None else _padd(dens[j], d_c)
+        nums[j] = n_c if nums[j] is None else _padd(nums[j], n_c)
+    return AmpFamily(tuple(n[0] for n in nums), tuple(d[0] for d in dens), float(w))
+
+
+def _snap(c: np.ndarray) -> np.ndarray:
+    """Rounding noise (below :data:`_SNAP` of the largest coefficient of a row) set to zero."""
+    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    return np.where(np.abs(c) <= _SNAP * scale, 0.0, c)
+
+
+def _padd(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Sum of batched polynomials of possibly different lengths (highest power first)."""
+    n = max(a.shape[1], b.shape[1])
+    out = np.zeros((a.shape[0], n), dtype=np.result_type(a, b))
+    out[:, n - a.shape[1] :] += a
+    out[:, n - b.shape[1] :] += b
+    return out
+
+
 def _rational_and_family(system: MnaSystem, w_ref, *, family: bool) -> tuple[Rational, OpAmpFamily | None]:
     if w_ref is None:
         w_ref = reference_w(system)
     w = np.broadcast_to(np.asarray(w_ref, dtype=float), (system.batch,))
+    if _finite_amps(system):
+        return _by_amplifiers(system, w), None
     k, a = _samples(system, w)
     den_v = np.linalg.det(a)
     b = np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None]
@@ -248,7 +423,9 @@ def _rational_and_family(system: MnaSystem, w_ref, *, family: bool) -> tuple[Rat
     rational = Rational(num_c / scale, den_c / scale, np.array(w, dtype=float))
     fam = None
     rows = list(system.layout.opamp_row.values())
-    if family and len(rows) == 1:
+    if family and len(rows) > 1 and system.amp_terms:
+        fam = _amp_family(system, a, k, float(w[0]))
+    elif family and len(rows) == 1:
         r, c = rows[0], system.output_index
         minor = np.delete(np.delete(a[0], r, axis=-2), c, axis=-1)
         cof = (-1.0) ** (r + c) * _coefficients(np.linalg.det(minor)[None, :], k)

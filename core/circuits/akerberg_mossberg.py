@@ -1,0 +1,93 @@
+"""Åkerberg–Mossberg two-integrator loop at its band-pass output (``akerberg-mossberg``).
+
+Netlist: as the Tow–Thomas loop (:mod:`bandsmith.circuits.tow_thomas`) — U1 the lossy inverting
+integrator (R1 in, R2 and C1 across it, R3 back from ``v3``), U2 the inverting integrator (R4
+from ``out`` to ``m2``, C2 from ``m2`` to ``v2``), U3 the inverter (R5 from ``v2`` to ``m3``, R6
+from ``m3`` to ``v3``) — except that the inverter's non-inverting input sits on the second
+integrator's summing node ``m2`` instead of ground. Ideally ``m2`` is a virtual ground and nothing
+changes; with real op-amps U2's error voltage at ``m2`` is fed forward through U3 and cancels most
+of the loop's phase error, so Q rises far less with finite GBW than in the Tow–Thomas loop.
+
+Notes
+-----
+With ideal op-amps the transfer function is the Tow–Thomas one (derived by nodal analysis; checked
+with sympy in the tests):
+
+    H(s) = −(s/(R1·C1)) / (s² + s/(R2·C1) + R6/(R3·R4·R5·C1·C2)),
+
+``ω0 = √(R6/(R3·R4·R5·C1·C2))``, ``Q = ω0·R2·C1``, centre gain ``−R2/R1``; the design is the
+Tow–Thomas one (equal capacitors, ``R3 = R4 = R5 = R6 = R``, ``R2 = Q·R``, ``R1 = R2/|H0|``),
+a resistor spread of about Q : 1.
+
+References
+----------
+D. Åkerberg and K. Mossberg, "A versatile active RC building block with inherent compensation for
+the finite bandwidth of the amplifier", IEEE Trans. Circuits and Systems 21 (1974) (from memory).
+The circuit's placement of the inverter's input was confirmed here by nodal analysis: of the
+ways to connect the second integrator and inverter that give the ideal loop, this one is stable
+and needs about half the GBW of the Tow–Thomas loop.
+"""
+
+from __future__ import annotations
+
+from typing import Mapping
+
+from bandsmith.circuits.synthesis import Exact, Spec
+from bandsmith.circuits.topology import Component, Topology
+from bandsmith.circuits.tow_thomas import loop_formulas, loop_synthesize
+from bandsmith.solver.netlist import Element, Netlist
+
+COMPONENTS = (
+    Component("R1", "R", "input resistor; sets the centre gain (−R2/R1)"),
+    Component("R2", "R", "damping resistor across C1; sets Q (and bandwidth)"),
+    Component("R3", "R", "loop resistor from the inverter back to the first integrator; tunes f0"),
+    Component("R4", "R", "second integrator's resistor; tunes f0"),
+    Component("C1", "C", "first (lossy) integrator's capacitor"),
+    Component("C2", "C", "second integrator's capacitor"),
+    Component("R5", "R", "inverter's input resistor"),
+    Component("R6", "R", "inverter's feedback resistor (R6/R5 scales ω0²)"),
+)
+
+# A 4.5 kHz carrier pick-off for a power-line data probe (our own scenario): Q ≈ 30, gain ≈ −5.
+EXAMPLE = {"R1": 21e3, "R2": 105e3, "R3": 3.48e3, "R4": 3.48e3, "C1": 10e-9, "C2": 10e-9, "R5": 3.57e3, "R6": 3.48e3}
+
+
+def build(v: Mapping[str, float]) -> Netlist:
+    """Netlist of the Åkerberg–Mossberg band-pass for validated part values (ohm, F)."""
+    return Netlist(
+        (
+            Element("R1", "R", ("in", "m1"), v["R1"]),
+            Element("R2", "R", ("m1", "out"), v["R2"]),
+            Element("C1", "C", ("m1", "out"), v["C1"]),
+            Element("R3", "R", ("v3", "m1"), v["R3"]),
+            Element("U1", "opamp", ("0", "m1", "out")),
+            Element("R4", "R", ("out", "m2"), v["R4"]),
+            Element("C2", "C", ("m2", "v2"), v["C2"]),
+            Element("U2", "opamp", ("0", "m2", "v2")),
+            Element("R5", "R", ("v2", "m3"), v["R5"]),
+            Element("R6", "R", ("m3", "v3"), v["R6"]),
+            Element("U3", "opamp", ("m2", "m3", "v3")),
+        )
+    )
+
+
+def synthesize(spec: Spec, fixed: dict[str, float] | None = None, *, series: str = "E24") -> Exact:
+    """Exact part values for a target (the Tow–Thomas design); pinned parts keep their values."""
+    return loop_synthesize(spec, fixed, series, "Åkerberg–Mossberg")
+
+
+TOPOLOGY = Topology(
+    id="akerberg-mossberg",
+    title="Åkerberg–Mossberg two-integrator loop (band-pass output)",
+    inverting=True,
+    components=COMPONENTS,
+    example=EXAMPLE,
+    build=build,
+    formulas=loop_formulas,
+    synthesize=synthesize,
+    order=70,
+    notes=(
+        "Three op-amps; the Tow–Thomas loop with the inverter's + input on the second integrator's summing "
+        "node, which cancels most of the op-amps' phase error: about half the GBW of the Tow–Thomas loop."
+    ),
+)
