@@ -11,42 +11,16 @@ measurement, checks op-amps, and opens and saves sessions::
 
 Every function takes its options by keyword, in SI units (or text such as ``"4k7"``), and returns a
 frozen result whose ``to_json()`` is the object the matching ``bandsmith`` command prints with
-``--json``. The functions live in :mod:`bandsmith.api` and are loaded on first use, so importing
-a sub-package (``bandsmith.solver``, say) stays light. The core is pure Python over numpy and
+``--json``. The functions live in :mod:`bandsmith.api`, which imports what each job needs only
+when it runs, so importing a sub-package (``bandsmith.solver``, say) stays light. The core is pure Python over numpy and
 scipy; it never imports Qt.
 """
 
 from __future__ import annotations
 
-__all__ = [
-    "list_circuits",
-    "design_circuit",
-    "compare",
-    "analyze",
-    "analyze_session",
-    "sweep",
-    "tolerance",
-    "noise",
-    "cascade",
-    "fit",
-    "check_opamps",
-    "open_session",
-    "save_session",
-    "parse_value",
-    "format_value",
-    "CircuitList",
-    "DesignReport",
-    "ComparisonReport",
-    "AnalysisReport",
-    "SessionAnalysisReport",
-    "SweepReport",
-    "ToleranceReport",
-    "NoiseReport",
-    "CascadeReport",
-    "MeasurementFitReport",
-    "OpAmpCheckReport",
-    "InputError",
-]
+# The list lives with the functions (bandsmith.api imports only the errors module when loaded);
+# each name is fetched from there on first use.
+from bandsmith.api import __all__  # noqa: E402
 
 
 def __getattr__(name: str):
