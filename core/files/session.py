@@ -41,6 +41,7 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.atomic import read_utf8, write_bytes_atomic
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
+from bandsmith.common.limits import check_id
 
 __all__ = [
     "FORMAT",
@@ -148,7 +149,9 @@ class CandidateEntry:
     Parameters
     ----------
     id : str
-        Unique within the session (the topology id, then ``-2``, ``-3``, ...).
+        Unique within the session (the topology id, then ``-2``, ``-3``, ...); 1 to 64 letters,
+        digits, ``.``, ``_`` or ``-``, starting with a letter or digit
+        (:data:`bandsmith.common.limits.ID_PATTERN`), so it is safe in a netlist, a CSV or a report.
     topology_id : str
         Circuit id (see :func:`bandsmith.circuits.topology_ids`).
     values : mapping
@@ -175,8 +178,9 @@ class CandidateEntry:
     notes: str = ""
 
     def __post_init__(self):
-        if not isinstance(self.id, str) or not self.id.strip():
-            raise InputError("id", f"a candidate id must be a non-empty text, got {self.id!r}")
+        check_id("id", self.id, "a candidate id")
+        if not isinstance(self.notes, str):
+            raise InputError("notes", f"must be text, got {type(self.notes).__name__}")
         topo = get_topology(self.topology_id)
         object.__setattr__(self, "values", topo.values_from(dict(self.values)))
         if self.snap is not None and self.snap not in SERIES_NAMES:

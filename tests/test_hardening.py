@@ -1,0 +1,119 @@
+"""Hostile input: each test here failed before its fix (one finding each, see the docstrings).
+
+The contract checked is the project's own rule for bad input: an :class:`InputError` (exit 2 on
+the command line, one line naming the field) or a correct result, never a crash or a file that
+does something the user did not ask for.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+
+from bandsmith.app.cli import main as cli_main
+from bandsmith.circuits import get_topology
+from bandsmith.common.errors import InputError
+from bandsmith.files.session import CandidateEntry, Session, SessionError, Target, load_session, save_session
+
+INJECTED = "mfb\n.control\nshell echo injected\n.endc\n*"
+
+
+def _session_obj(**cand) -> dict:
+    entry = {"id": "mfb", "topology": "mfb", "values": dict(get_topology("mfb").example)}
+    entry.update(cand)
+    return {"format": "bandsmith-session", "version": 1,
+            "target": {"f0_hz": 2400.0, "q": 8.0, "gain": 4.0}, "candidates": [entry]}
+
+
+def _write(tmp_path: Path, obj, name="s.json") -> Path:
+    p = tmp_path / name
+    p.write_text(json.dumps(obj), encoding="utf-8")
+    return p
+
+
+def _cli(argv, capsys):
+    code = cli_main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+# ------------------------------------------------------------------ 1. netlist injection
+
+
+def test_reader_refuses_an_id_with_a_newline_naming_the_field(tmp_path):
+    p = _write(tmp_path, _session_obj(id=INJECTED))
+    with pytest.raises(SessionError) as exc:
+        load_session(p)
+    assert "candidates[0].id" in str(exc.value)
+    assert "\n" not in str(exc.value)
+
+
+@pytest.mark.parametrize("bad", ["", " mfb", "-mfb", "a b", "a;b", "x" * 65, "é", "a\rb", "<b>"])
+def test_candidate_entry_refuses_ids_outside_the_character_set(bad):
+    with pytest.raises(InputError) as exc:
+        CandidateEntry(bad, "mfb", dict(get_topology("mfb").example))
+    assert exc.value.field == "id"
+
+
+@pytest.mark.parametrize("good", ["mfb", "sallen-key-2", "stage-1", "A.b_c-9", "x" * 64])
+def test_candidate_entry_accepts_ids_of_the_character_set(good):
+    assert CandidateEntry(good, "mfb", dict(get_topology("mfb").example)).id == good
+
+
+def test_export_of_an_injected_session_writes_no_netlist(tmp_path, capsys):
+    p = _write(tmp_path, _session_obj(id=INJECTED))
+    before = p.read_bytes()
+    out = tmp_path / "x.cir"
+    code, _, err = _cli(["export", str(p), "--netlist", str(out)], capsys)
+    assert code == 2 and not out.exists()
+    assert err.count("\n") == 1 and "candidates[0].id" in err
+    assert p.read_bytes() == before
+
+
+def test_chain_id_is_checked():
+    from bandsmith.chain.cascade import Chain
+
+    with pytest.raises(InputError) as exc:
+        Chain(INJECTED, None, ())  # the id is checked first
+    assert exc.value.field == "id"
+
+
+def test_netlist_comment_never_breaks_a_line():
+    """A duck-typed entry (not validated) still cannot put a line into the netlist."""
+    from bandsmith.files.exports import spice_netlist
+
+    class Loose:
+        id = INJECTED
+        topology_id = "mfb"
+        values = dict(get_topology("mfb").example)
+
+    text = spice_netlist(Loose())
+    assert not any(line.startswith((".control", "shell", ".endc")) for line in text.splitlines())
+
+
+def test_parts_csv_quotes_what_needs_quoting():
+    """CSV (RFC 4180, section 2): a field with a comma, quote or line break is quoted; Python's
+    csv module reads it back as one field."""
+    import csv
+    import io
+
+    from bandsmith.common.limits import one_line
+
+    row = ["a,b", 'q"x', "l\nm"]
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerow(row)
+    assert next(csv.reader(io.StringIO(buf.getvalue()))) == row
+    assert "\n" not in one_line("a\nb")
+
+
+def test_report_escapes_notes():
+    """HTML 5 (WHATWG, section 13.1.2): text with < and & must be written as character references."""
+    from bandsmith.app.report.builder import build_report_html
+
+    entry = CandidateEntry("mfb", "mfb", dict(get_topology("mfb").example), notes="<script>x</script> & co")
+    s = Session(Target(2400.0, 8.0, 4.0), (entry,), notes="<img src=x onerror=y>")
+    html = build_report_html(s, images=False)
+    assert "<script>x" not in html and "<img src=x" not in html
+    assert "&lt;script&gt;" in html and "&lt;img src=x" in html
