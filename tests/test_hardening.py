@@ -117,3 +117,38 @@ def test_report_escapes_notes():
     html = build_report_html(s, images=False)
     assert "<script>x" not in html and "<img src=x" not in html
     assert "&lt;script&gt;" in html and "&lt;img src=x" in html
+
+
+# ------------------------------------------------------------------ 2. fit memory
+
+
+def test_fit_memory_does_not_grow_with_the_square_of_the_points(tmp_path):
+    """6 000 points: a full SVD's left factor alone would be 12 000² doubles (1.15 GB); the thin
+    SVD and chunked evaluation keep the whole fit far below that (numpy.linalg.svd,
+    ``full_matrices=False``)."""
+    import tracemalloc
+
+    import numpy as np
+    import scipy.signal
+
+    from measured_helpers import MFB, biquad, moved, true_figures
+
+    from bandsmith.bench.diagnose import diagnose
+    from bandsmith.bench.measured import read_measurement
+    from bandsmith.design.candidate import Candidate
+
+    f0 = true_figures("mfb", MFB)["f0_hz"]
+    f = np.geomspace(f0 / 3.0, f0 * 3.0, 6000)
+    b, a = biquad("mfb", moved(MFB, {"R3": 0.02}))
+    _, h = scipy.signal.freqs(b, a, worN=2 * np.pi * f)  # the board, outside the project
+    p = tmp_path / "m.csv"
+    p.write_text("f,db,deg\n" + "".join(f"{x:.17g},{20 * np.log10(abs(y)):.17g},{np.degrees(np.angle(y)):.17g}\n" for x, y in zip(f, h)))
+    m = read_measurement(p)
+    tracemalloc.start()
+    try:
+        d = diagnose(Candidate("mfb", MFB), m)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert peak < 150e6
+    assert d.to_json()  # a complete result
