@@ -152,3 +152,67 @@ def test_fit_memory_does_not_grow_with_the_square_of_the_points(tmp_path):
         tracemalloc.stop()
     assert peak < 150e6
     assert d.to_json()  # a complete result
+
+
+# ------------------------------------------------------------------ 3. finite but extreme values
+
+EXTREME = [
+    (["analyze", "mfb", "R1=10k", "R2=866", "R3=1e-320", "C1=10n", "C2=10n"], "R3"),
+    (["analyze", "mfb", "R1=10k", "R2=866", "R3=1e-300", "C1=10n", "C2=10n"], "R3"),
+    (["noise", "mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n", "--en", "1e300"], "en"),
+    (["design", "mfb", "--f0", "1e-320", "--q", "8", "--gain", "4"], "f0"),
+    (["design", "mfb", "--f0", "1e308", "--q", "8", "--gain", "4"], "f0"),
+    (["design", "mfb", "--f0", "1k", "--q", "1e-300", "--gain", "4"], "q"),
+    (["design", "mfb", "--f0", "1k", "--q", "8", "--gain", "4", "--gbw", "1e-320"], "gbw"),
+]
+
+
+@pytest.mark.parametrize("argv,field", EXTREME)
+def test_extreme_values_are_bad_input_naming_the_field(argv, field, capsys):
+    code, out, err = _cli(argv, capsys)
+    assert code == 2, err
+    assert err.count("\n") == 1 and err.startswith(f"{field}: ")
+    assert "range" in err
+
+
+def test_an_underflowing_literal_is_not_reported_as_zero():
+    from bandsmith.common.values import parse_positive
+
+    with pytest.raises(InputError) as exc:
+        parse_positive("1e-400", field="R3")
+    assert "got 0" not in str(exc.value) and "too small" in str(exc.value)
+    from bandsmith.common.values import parse_value
+
+    assert parse_value("0e-400", field="x") == 0.0
+
+
+def test_extreme_values_in_a_session_name_the_key(tmp_path):
+    obj = _session_obj()
+    obj["candidates"][0]["values"]["R3"] = 1e-300
+    with pytest.raises(SessionError) as exc:
+        load_session(_write(tmp_path, obj))
+    assert "candidates[0].values.R3" in str(exc.value)
+    obj = _session_obj()
+    obj["target"]["f0_hz"] = 1e300
+    with pytest.raises(SessionError) as exc:
+        load_session(_write(tmp_path, obj))
+    assert "target.f0" in str(exc.value)
+    obj = _session_obj()
+    obj["opamp"] = {"gbw_hz": 1e-320}
+    with pytest.raises(SessionError) as exc:
+        load_session(_write(tmp_path, obj))
+    assert "opamp.gbw_hz" in str(exc.value)
+
+
+@pytest.mark.parametrize("rows,what", [
+    ("1e-300,0,0\n1e300,0,0\n" + "".join(f"{k}e3,0,0\n" for k in range(1, 9)), "frequency"),
+    ("".join(f"{k}e3,{1e300 if k == 4 else 0},0\n" for k in range(1, 9)), "magnitude"),
+])
+def test_extreme_measured_data_names_the_line(tmp_path, rows, what):
+    from bandsmith.bench.measured import MeasurementError, read_measurement
+
+    p = tmp_path / "m.csv"
+    p.write_text("f_hz,mag_db,phase_deg\n" + rows)
+    with pytest.raises(MeasurementError) as exc:
+        read_measurement(p)
+    assert what in str(exc.value) and "line" in str(exc.value) and "range" in str(exc.value)

@@ -39,6 +39,7 @@ import scipy.constants
 
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import NOISE_DENSITY_MAX
 from bandsmith.analysis.figures import measure
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
@@ -110,6 +111,9 @@ class NoiseSettings:
     def __post_init__(self):
         object.__setattr__(self, "en_v_per_rthz", _number(self.en_v_per_rthz, "en", positive=False))
         object.__setattr__(self, "in_a_per_rthz", _number(self.in_a_per_rthz, "in", positive=False))
+        for name, field in (("en_v_per_rthz", "en"), ("in_a_per_rthz", "in")):
+            if getattr(self, name) > NOISE_DENSITY_MAX:
+                raise InputError(field, f"{getattr(self, name):.3g} is outside the range the analysis can resolve, 0 to {NOISE_DENSITY_MAX:g} per √Hz")
         object.__setattr__(self, "temperature_k", _number(self.temperature_k, "temp", positive=True))
         if self.band_hz is not None:
             if isinstance(self.band_hz, (str, bytes)) or len(self.band_hz) != 2:

@@ -35,6 +35,7 @@ from typing import Any, Mapping
 import numpy as np
 
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import FREQ_RANGE_HZ, MAG_DB_RANGE
 
 __all__ = [
     "MeasurementError",
@@ -226,6 +227,10 @@ class Measurement:
             raise MeasurementError("frequencies must increase", source=self.source)
         if not np.all(np.isfinite(m)) or (p is not None and not np.all(np.isfinite(p))):
             raise MeasurementError("magnitude and phase must be finite", source=self.source)
+        if f[0] < FREQ_RANGE_HZ[0] or f[-1] > FREQ_RANGE_HZ[1]:
+            raise MeasurementError(f"frequencies must lie from {FREQ_RANGE_HZ[0]:g} to {FREQ_RANGE_HZ[1]:g} Hz", source=self.source)
+        if np.any(m < MAG_DB_RANGE[0]) or np.any(m > MAG_DB_RANGE[1]):
+            raise MeasurementError(f"magnitudes must lie from {MAG_DB_RANGE[0]:g} to {MAG_DB_RANGE[1]:g} dB", source=self.source)
         for a in (f, m, p):
             if a is not None:
                 a.flags.writeable = False
@@ -662,6 +667,13 @@ def read_measurement(
     bad = np.flatnonzero(~(np.isfinite(f) & (f > 0)))
     if bad.size:
         raise MeasurementError(f"frequency {v[bad[0], mapping.freq]:g} is not above zero", line=int(lines[bad[0]]), source=src)
+    lo, hi = FREQ_RANGE_HZ
+    bad = np.flatnonzero((f < lo) | (f > hi))
+    if bad.size:
+        raise MeasurementError(
+            f"frequency {f[bad[0]]:.3g} Hz is outside the range the analysis can resolve, {lo:g} to {hi:g} Hz",
+            line=int(lines[bad[0]]), source=src,
+        )
     m = v[:, mapping.mag]
     if mapping.mag_unit == "linear":
         bad = np.flatnonzero(m <= 0)
@@ -670,6 +682,13 @@ def read_measurement(
                 f"linear magnitude {m[bad[0]]:g} is not above zero (is the column in dB?)", line=int(lines[bad[0]]), source=src
             )
         m = 20.0 * np.log10(m)
+    lo, hi = MAG_DB_RANGE
+    bad = np.flatnonzero(~((m >= lo) & (m <= hi)))
+    if bad.size:
+        raise MeasurementError(
+            f"magnitude {m[bad[0]]:.3g} dB is outside the range the analysis can resolve, {lo:g} to {hi:g} dB",
+            line=int(lines[bad[0]]), source=src,
+        )
     p = None
     if mapping.phase is not None:
         p = v[:, mapping.phase]

@@ -9,12 +9,16 @@ Ids
     files and reports; this character set can never start a new netlist line or a markup tag.
 
 Part values (SI units), per kind (:data:`PART_RANGES`)
-    R from 1e-6 Ω to 1e15 Ω, C from 1e-18 F to 1e3 F, L from 1e-15 H to 1e6 H. Wider than any
+    R from 1e-6 Ω to 1e15 Ω, C from 1e-18 F to 1e6 F, L from 1e-15 H to 1e12 H. Wider than any
     real part, narrow enough that products and quotients of a few parts (time constants, MNA
     pencil entries, their squares) stay inside double precision (about 1e-308 to 1e308).
 
 Frequencies (:data:`FREQ_RANGE_HZ`)
     1e-6 Hz to 1e15 Hz for a centre frequency, a GBW or a measured point.
+
+Targets and op-amp figures (:data:`TARGET_RANGES`, :data:`A0_RANGE`, :data:`NOISE_DENSITY_MAX`)
+    Q from 1e-3 to 1e5, centre gain from 1e-6 to 1e6 (V/V), open-loop gain A0 from 1e-3 to 1e12,
+    noise densities (V/√Hz or A/√Hz) up to 1e-3; a measured magnitude from -400 dB to +400 dB.
 
 Files (:data:`MAX_FILE_BYTES`)
     Session, shelf and measured-data files are read only when they are regular files of at most
@@ -34,6 +38,10 @@ __all__ = [
     "check_id",
     "PART_RANGES",
     "FREQ_RANGE_HZ",
+    "TARGET_RANGES",
+    "A0_RANGE",
+    "NOISE_DENSITY_MAX",
+    "MAG_DB_RANGE",
     "check_range",
     "check_part_value",
     "MAX_FILE_BYTES",
@@ -62,8 +70,12 @@ def check_id(field: str, value: object, what: str = "an id") -> str:
 
 
 # Part value ranges per kind (SI units), module notes.
-PART_RANGES = {"R": (1e-6, 1e15), "C": (1e-18, 1e3), "L": (1e-15, 1e6)}
+PART_RANGES = {"R": (1e-6, 1e15), "C": (1e-18, 1e6), "L": (1e-15, 1e12)}
 FREQ_RANGE_HZ = (1e-6, 1e15)
+TARGET_RANGES = {"f0": FREQ_RANGE_HZ, "q": (1e-3, 1e5), "gain": (1e-6, 1e6)}
+A0_RANGE = (1e-3, 1e12)
+NOISE_DENSITY_MAX = 1e-3
+MAG_DB_RANGE = (-400.0, 400.0)
 _UNITS = {"R": "Ω", "C": "F", "L": "H"}
 
 

@@ -145,6 +145,8 @@ def parse_value(text: str | float | int, *, field: str) -> float:
         x = _decimal(m["sign"], m["int"], m["frac"], _RKM_EXP[m["letter"]])
     if not math.isfinite(x):
         raise InputError(field, f'"{_shown(text)}" is too large to be a value')
+    if x == 0 and (m["int"] + (m["frac"] or "")).strip("0"):
+        raise InputError(field, f'"{_shown(text)}" is too small to be a value: it rounds to zero')
     return x + 0.0
 
 

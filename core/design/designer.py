@@ -39,6 +39,7 @@ from bandsmith.analysis.analyzer import Analysis, Tolerances, transfer_function
 from bandsmith.design.candidate import Candidate, Conditions
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import check_part_value
 from bandsmith.common.eseries import SERIES_NAMES, in_series, search_options
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
 from bandsmith.analysis.figures import Figures, measure
@@ -154,6 +155,8 @@ def parse_fixed(topology: Topology, fixed: Mapping[str, float | str] | None) -> 
             raise InputError(ref, f"must be greater than zero, got {x:g}")
         if not comp.required and x < 0:
             raise InputError(ref, f"must be zero or more, got {x:g}")
+        if x > 0:
+            check_part_value(ref, comp.kind, x)
         out[ref] = x
     return out
 

@@ -41,7 +41,7 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.atomic import read_utf8, write_bytes_atomic
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
-from bandsmith.common.limits import check_id
+from bandsmith.common.limits import A0_RANGE, FREQ_RANGE_HZ, TARGET_RANGES, check_id, check_range
 
 __all__ = [
     "FORMAT",
@@ -121,6 +121,8 @@ class Target:
         _finite_positive("q", self.q)
         _finite_positive("gain", self.gain)
         _finite_positive("vin", self.vin_v)
+        for name, value in (("f0", self.f0_hz), ("q", self.q), ("gain", self.gain)):
+            check_range(name, float(value), *TARGET_RANGES[name], "Hz" if name == "f0" else "")
         if self.series not in SERIES_CHOICES:
             raise InputError("series", f"{self.series!r} is not a series; choose one of {', '.join(SERIES_CHOICES)}")
         for name in ("f0_hz", "q", "gain", "vin_v"):
@@ -137,6 +139,9 @@ class OpAmpSpec:
     def __post_init__(self):
         _finite_positive("gbw", self.gbw_hz, optional=True)
         _finite_positive("a0", self.a0)
+        if self.gbw_hz is not None:
+            check_range("gbw", float(self.gbw_hz), *FREQ_RANGE_HZ, "Hz")
+        check_range("a0", float(self.a0), *A0_RANGE)
         if self.gbw_hz is not None:
             object.__setattr__(self, "gbw_hz", float(self.gbw_hz))
         object.__setattr__(self, "a0", float(self.a0))
@@ -510,10 +515,15 @@ def session_from_json(obj: Any, *, source: str = "the session") -> Session:
         raise
     except InputError as exc:
         raise r.impossible(f"target.{exc.field}", exc.reason) from None
-    opamp = OpAmpSpec(
-        gbw_hz=r.positive(o, "gbw_hz", "opamp.gbw_hz", default=None, nullable=True),
-        a0=r.positive(o, "a0", "opamp.a0", default=DEFAULT_A0),
-    )
+    try:
+        opamp = OpAmpSpec(
+            gbw_hz=r.positive(o, "gbw_hz", "opamp.gbw_hz", default=None, nullable=True),
+            a0=r.positive(o, "a0", "opamp.a0", default=DEFAULT_A0),
+        )
+    except SessionError:
+        raise
+    except InputError as exc:
+        raise r.impossible({"gbw": "opamp.gbw_hz"}.get(exc.field, f"opamp.{exc.field}"), exc.reason) from None
     tolerances = Tolerances(
         f0=r.positive(tol, "f0", "tolerances.f0", default=Tolerances().f0),
         q=r.positive(tol, "q", "tolerances.q", default=Tolerances().q),
