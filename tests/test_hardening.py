@@ -216,3 +216,50 @@ def test_extreme_measured_data_names_the_line(tmp_path, rows, what):
     with pytest.raises(MeasurementError) as exc:
         read_measurement(p)
     assert what in str(exc.value) and "line" in str(exc.value) and "range" in str(exc.value)
+
+
+# ------------------------------------------------------------------ 4. readers without limits
+
+
+def _fifo(tmp_path):
+    import os
+
+    p = tmp_path / "pipe"
+    os.mkfifo(p)
+    return p
+
+
+def test_session_reader_refuses_a_fifo_and_a_device(tmp_path):
+    """POSIX: open(2) with O_NONBLOCK on a FIFO returns at once; the reader must not wait."""
+    with pytest.raises(SessionError) as exc:
+        load_session(_fifo(tmp_path))
+    assert "pipe" in str(exc.value)
+    with pytest.raises(SessionError) as exc:
+        load_session("/dev/zero")
+    assert "device" in str(exc.value)
+
+
+def test_shelf_and_measured_readers_refuse_a_fifo(tmp_path):
+    from bandsmith.bench.measured import MeasurementError, read_measurement
+    from bandsmith.bench.shelf import ShelfError, load_shelf
+
+    with pytest.raises(ShelfError):
+        load_shelf(_fifo(tmp_path))
+    with pytest.raises(MeasurementError) as exc:
+        read_measurement("/dev/zero")
+    assert "device" in str(exc.value)
+
+
+def test_file_size_caps(tmp_path, monkeypatch):
+    from bandsmith.common import limits
+
+    p = _write(tmp_path, _session_obj())
+    monkeypatch.setitem(limits.MAX_FILE_BYTES, "session file", 100)
+    with pytest.raises(SessionError) as exc:
+        load_session(p)
+    assert "at most" in str(exc.value)
+
+
+def test_export_of_a_fifo_session_exits_2(tmp_path, capsys):
+    code, _, err = _cli(["export", str(_fifo(tmp_path)), "--netlist", str(tmp_path / "x.cir")], capsys)
+    assert code == 2 and err.count("\n") == 1

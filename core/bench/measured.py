@@ -34,6 +34,7 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from bandsmith.common.atomic import read_bytes_limited
 from bandsmith.common.errors import InputError
 from bandsmith.common.limits import FREQ_RANGE_HZ, MAG_DB_RANGE
 
@@ -264,7 +265,8 @@ class Measurement:
     def matches_file(self, path: str | os.PathLike) -> bool:
         """True when the file at ``path`` has the bytes this measurement was read from."""
         try:
-            return hashlib.sha256(Path(path).read_bytes()).hexdigest() == self.sha256
+            raw = read_bytes_limited(path, what="measured file", error=lambda kind, msg: OSError(msg))
+            return hashlib.sha256(raw).hexdigest() == self.sha256
         except OSError:
             return False
 
@@ -283,10 +285,11 @@ def _load(source: str | bytes | os.PathLike, name: str | None) -> tuple[str, str
             raise MeasurementError("no such file", source=str(source))
         if path.is_dir():
             raise MeasurementError("is a folder, not a file", source=str(source))
-        try:
-            raw = path.read_bytes()
-        except OSError as exc:
-            raise MeasurementError(f"cannot be read ({exc.strerror or exc})", source=src) from None
+
+        def refuse(kind: str, message: str) -> MeasurementError:
+            return MeasurementError(message.replace(str(path), "it", 1), source=src)
+
+        raw = read_bytes_limited(path, what="measured file", error=refuse)
     elif isinstance(source, str):
         raw, src = source.encode("utf-8"), name or "text"
     else:

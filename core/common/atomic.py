@@ -8,11 +8,12 @@ half-way leaves the old file exactly as it was.
 from __future__ import annotations
 
 import os
+import stat
 import tempfile
 from pathlib import Path
 from typing import Callable
 
-__all__ = ["write_bytes_atomic", "read_utf8"]
+__all__ = ["write_bytes_atomic", "read_utf8", "read_bytes_limited"]
 
 
 def _mode_for(target: Path) -> int:
@@ -67,22 +68,72 @@ def write_bytes_atomic(path: str | os.PathLike, data: bytes | str, *, make_folde
     return target
 
 
-def read_utf8(path: str | os.PathLike, *, what: str, error: Callable[[str, str], Exception]) -> str:
-    """Read a UTF-8 text file (a byte-order mark is allowed); never writes.
+def _file_kind(mode: int) -> str:
+    if stat.S_ISDIR(mode):
+        return "a folder"
+    if stat.S_ISFIFO(mode):
+        return "a pipe (FIFO)"
+    if stat.S_ISCHR(mode) or stat.S_ISBLK(mode):
+        return "a device"
+    if stat.S_ISSOCK(mode):
+        return "a socket"
+    return "not a regular file"
 
-    Failures raise ``error(kind, message)`` with kind ``missing``, ``unreadable`` (a folder, no
-    permission) or ``damaged`` (not UTF-8); ``what`` names the file's kind in the message
-    ("session file", "shelf file").
+
+def read_bytes_limited(
+    path: str | os.PathLike, *, what: str, error: Callable[[str, str], Exception], max_bytes: int | None = None
+) -> bytes:
+    """The bytes of a regular file of at most ``max_bytes`` (default: the cap of ``what`` in
+    :data:`bandsmith.common.limits.MAX_FILE_BYTES`); never writes, never blocks.
+
+    A pipe, a device (``/dev/zero``), a socket or a folder is refused before anything is read (a
+    pipe is opened without waiting for a writer), and so is a file above the cap. Failures raise
+    ``error(kind, message)`` with kind ``missing`` or ``unreadable``.
     """
+    from bandsmith.common.limits import MAX_FILE_BYTES
+
+    cap = max_bytes if max_bytes is not None else MAX_FILE_BYTES.get(what, 64 << 20)
     p = Path(path)
     try:
-        raw = p.read_bytes()
+        fd = os.open(p, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
     except FileNotFoundError:
         raise error("missing", f"{p} does not exist") from None
     except IsADirectoryError:
         raise error("unreadable", f"{p} is a folder, not a {what}") from None
     except OSError as exc:
         raise error("unreadable", f"cannot read {p}: {exc.strerror or exc}") from None
+    try:
+        st = os.fstat(fd)
+        if not stat.S_ISREG(st.st_mode):
+            raise error("unreadable", f"{p} is {_file_kind(st.st_mode)}, not a {what}")
+        if st.st_size > cap:
+            raise error("unreadable", f"{p} is {st.st_size / 2**20:.1f} MiB; a {what} may be at most {cap / 2**20:g} MiB")
+        chunks, total = [], 0
+        while True:
+            chunk = os.read(fd, min(1 << 20, cap + 1 - total))
+            if not chunk:
+                break
+            chunks.append(chunk)
+            total += len(chunk)
+            if total > cap:
+                raise error("unreadable", f"{p} grew past {cap / 2**20:g} MiB while being read; a {what} may be at most that")
+        return b"".join(chunks)
+    except OSError as exc:
+        raise error("unreadable", f"cannot read {p}: {exc.strerror or exc}") from None
+    finally:
+        os.close(fd)
+
+
+def read_utf8(path: str | os.PathLike, *, what: str, error: Callable[[str, str], Exception]) -> str:
+    """Read a UTF-8 text file (a byte-order mark is allowed); never writes.
+
+    Failures raise ``error(kind, message)`` with kind ``missing``, ``unreadable`` (a folder, a
+    pipe, a device, a file above its size cap, no permission; see :func:`read_bytes_limited`) or
+    ``damaged`` (not UTF-8); ``what`` names the file's kind in the message ("session file",
+    "shelf file").
+    """
+    p = Path(path)
+    raw = read_bytes_limited(p, what=what, error=error)
     try:
         return raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
