@@ -263,3 +263,36 @@ def test_file_size_caps(tmp_path, monkeypatch):
 def test_export_of_a_fifo_session_exits_2(tmp_path, capsys):
     code, _, err = _cli(["export", str(_fifo(tmp_path)), "--netlist", str(tmp_path / "x.cir")], capsys)
     assert code == 2 and err.count("\n") == 1
+
+
+# ------------------------------------------------------------------ 5. lone surrogates
+
+
+def test_a_lone_surrogate_is_refused_on_read_naming_where(tmp_path):
+    """RFC 8259, section 8.2: a \\u escape of a lone surrogate is legal JSON but no Unicode
+    character; UTF-8 (RFC 3629) cannot encode it, so such a session could never be saved."""
+    p = tmp_path / "s.json"
+    p.write_text(json.dumps(_session_obj(notes="x")).replace('"notes": "x"', '"notes": "a\\ud800b"'), encoding="utf-8")
+    with pytest.raises(SessionError) as exc:
+        load_session(p)
+    assert "candidates[0].notes" in str(exc.value) and "surrogate" in str(exc.value)
+
+
+def test_a_lone_surrogate_is_refused_on_edit_and_on_save(tmp_path):
+    with pytest.raises(InputError) as exc:
+        CandidateEntry("mfb", "mfb", dict(get_topology("mfb").example), notes="a\ud800")
+    assert exc.value.field == "notes"
+    with pytest.raises(InputError):
+        Session(Target(2400.0, 8.0, 4.0), (), notes="\udfff")
+    s = Session(Target(2400.0, 8.0, 4.0), (), extras={"later": {"k": "\ud800"}})
+    out = tmp_path / "out.json"
+    with pytest.raises(SessionError) as exc:  # an InputError: the window's Save shows it
+        save_session(s, out)
+    assert "later.k" in str(exc.value) and not out.exists()
+
+
+def test_report_of_a_surrogate_session_exits_2(tmp_path, capsys):
+    p = tmp_path / "s.json"
+    p.write_text(json.dumps(_session_obj()).replace('"format"', '"notes": "\\udc80", "format"'), encoding="utf-8")
+    code, _, err = _cli(["report", str(p), "-o", str(tmp_path / "r.html")], capsys)
+    assert code == 2 and err.count("\n") == 1 and "surrogate" in err

@@ -41,7 +41,7 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.atomic import read_utf8, write_bytes_atomic
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
-from bandsmith.common.limits import A0_RANGE, FREQ_RANGE_HZ, TARGET_RANGES, check_id, check_range
+from bandsmith.common.limits import A0_RANGE, FREQ_RANGE_HZ, TARGET_RANGES, check_id, check_range, one_line
 
 __all__ = [
     "FORMAT",
@@ -83,6 +83,38 @@ class SessionError(InputError):
     def __init__(self, kind: str, reason: str):
         super().__init__("session", reason)
         self.kind = kind
+
+
+def _surrogate_at(obj: Any, where: str) -> str | None:
+    """The key path of the first text (key or value) inside ``obj`` that holds a lone surrogate
+    (``\\ud800``: legal in JSON's ``\\u`` escapes and in Python text, but not UTF-8), else None."""
+    if isinstance(obj, str):
+        try:
+            obj.encode("utf-8")
+        except UnicodeEncodeError:
+            return where
+        return None
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            sub = f"{where}.{k}" if where else str(k)
+            if isinstance(k, str) and _surrogate_at(k, sub) is not None:
+                return sub
+            found = _surrogate_at(v, sub)
+            if found is not None:
+                return found
+    elif isinstance(obj, (list, tuple)):
+        for i, v in enumerate(obj):
+            found = _surrogate_at(v, f"{where}[{i}]")
+            if found is not None:
+                return found
+    return None
+
+
+def _check_text(name: str, v: Any) -> None:
+    if not isinstance(v, str):
+        raise InputError(name, f"must be text, got {type(v).__name__}")
+    if _surrogate_at(v, name) is not None:
+        raise InputError(name, "holds a lone surrogate character (such as \\ud800), which no UTF-8 file can store; remove it")
 
 
 def _finite_positive(name: str, v: float | None, *, optional: bool = False) -> None:
@@ -184,8 +216,7 @@ class CandidateEntry:
 
     def __post_init__(self):
         check_id("id", self.id, "a candidate id")
-        if not isinstance(self.notes, str):
-            raise InputError("notes", f"must be text, got {type(self.notes).__name__}")
+        _check_text("notes", self.notes)
         topo = get_topology(self.topology_id)
         object.__setattr__(self, "values", topo.values_from(dict(self.values)))
         if self.snap is not None and self.snap not in SERIES_NAMES:
@@ -223,6 +254,7 @@ class Session:
         if dup:
             raise InputError("id", f"candidate ids must be unique; {', '.join(dup)} appears more than once")
         object.__setattr__(self, "candidates", cands)
+        _check_text("notes", self.notes)
         _finite_positive("rload", self.rload_ohm, optional=True)
         if self.rload_ohm is not None:
             object.__setattr__(self, "rload_ohm", float(self.rload_ohm))
@@ -320,10 +352,14 @@ def session_to_json(s: Session) -> dict:
 
 def dumps_session(s: Session) -> str:
     """Canonical text of a session: sorted keys, indent 2, UTF-8 characters kept, final newline."""
+    obj = session_to_json(s)
     try:
-        text = json.dumps(session_to_json(s), sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False)
+        text = json.dumps(obj, sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False)
     except (TypeError, ValueError) as exc:
         raise InputError("extras", f"a section cannot be written as JSON ({exc})") from None
+    where = _surrogate_at(obj, "")
+    if where is not None:
+        raise SessionError("write-failed", f"{one_line(where, 80)} holds a lone surrogate character (such as \\ud800), which no UTF-8 file can store; remove it (nothing was written)")
     return text + "\n"
 
 
@@ -581,6 +617,12 @@ def loads_session(text: str, *, source: str = "the session") -> Session:
         raise r.fail("damaged", f"is damaged: {exc}") from None
     except RecursionError:
         raise r.fail("damaged", "is damaged: nested too deeply to read") from None
+    try:
+        where = _surrogate_at(obj, "")
+    except RecursionError:
+        raise r.fail("damaged", "is damaged: nested too deeply to read") from None
+    if where is not None:
+        raise r.fail("damaged", f"is damaged: {one_line(where, 80)} holds a lone surrogate (a \\ud800-style escape that is no character), which cannot be saved again")
     return session_from_json(obj, source=source)
 
 
