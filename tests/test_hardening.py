@@ -296,3 +296,44 @@ def test_report_of_a_surrogate_session_exits_2(tmp_path, capsys):
     p.write_text(json.dumps(_session_obj()).replace('"format"', '"notes": "\\udc80", "format"'), encoding="utf-8")
     code, _, err = _cli(["report", str(p), "-o", str(tmp_path / "r.html")], capsys)
     assert code == 2 and err.count("\n") == 1 and "surrogate" in err
+
+
+# ------------------------------------------------------------------ 6. recovery copies and reused process ids
+
+
+def test_a_copy_left_by_an_earlier_run_with_this_pid_is_offered_and_not_overwritten(tmp_path):
+    """A reused process id (Linux: ids wrap and containers restart from 1): the copy a crashed
+    run left under this very pid belongs to another run and must be offered, not taken over."""
+    import os
+
+    pytest.importorskip("PySide6")
+    from bandsmith.app.window import recovery
+
+    old_key = f"unsaved-{os.getpid()}-0123456789ab"
+    copy = tmp_path / f"{old_key}.bandsmith.json"
+    s = Session(Target(2400.0, 8.0, 4.0), ())
+    save_session(s, copy)
+    meta = {"pid": os.getpid(), "run": "0123456789ab", "start": "1", "original": "", "saved_at": 5.0}
+    (tmp_path / f"{old_key}.meta.json").write_text(json.dumps(meta))
+    found = recovery.left_behind(tmp_path)
+    assert [c.path for c in found] == [copy]
+    assert found[0].load() == s
+
+
+def test_a_copy_of_a_live_process_with_another_start_time_is_offered(tmp_path):
+    import os
+
+    pytest.importorskip("PySide6")
+    from bandsmith.app.window import recovery
+
+    parent = os.getppid()
+    if recovery._start_time(parent) is None:
+        pytest.skip("no /proc start times here")
+    copy = tmp_path / f"unsaved-{parent}-feedfacecafe.bandsmith.json"
+    save_session(Session(Target(2400.0, 8.0, 4.0), ()), copy)
+    meta = {"pid": parent, "run": "feedfacecafe", "start": "-1", "original": "", "saved_at": 5.0}
+    (tmp_path / f"unsaved-{parent}-feedfacecafe.meta.json").write_text(json.dumps(meta))
+    assert [c.path for c in recovery.left_behind(tmp_path)] == [copy]
+    meta["start"] = recovery._start_time(parent)  # the same run: still alive, not offered
+    (tmp_path / f"unsaved-{parent}-feedfacecafe.meta.json").write_text(json.dumps(meta))
+    assert recovery.left_behind(tmp_path) == []
