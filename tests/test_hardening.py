@@ -337,3 +337,70 @@ def test_a_copy_of_a_live_process_with_another_start_time_is_offered(tmp_path):
     meta["start"] = recovery._start_time(parent)  # the same run: still alive, not offered
     (tmp_path / f"unsaved-{parent}-feedfacecafe.meta.json").write_text(json.dumps(meta))
     assert recovery.left_behind(tmp_path) == []
+
+
+# ------------------------------------------------------------------ 7. the atomic writer
+
+
+def test_writing_through_a_symlink_updates_its_target(tmp_path):
+    """POSIX rename(2) replaces the link itself; a save must update the file the link names."""
+    import os
+
+    from bandsmith.common.atomic import write_bytes_atomic
+
+    real = tmp_path / "real.txt"
+    real.write_text("old")
+    link = tmp_path / "link.txt"
+    os.symlink(real, link)
+    write_bytes_atomic(link, "new")
+    assert link.is_symlink() and real.read_text() == "new"
+
+
+@pytest.mark.parametrize("kind", ["fifo", "device", "folder", "dot"])
+def test_the_writer_refuses_what_is_not_a_regular_file(tmp_path, kind):
+    import os
+    import stat
+
+    from bandsmith.common.atomic import write_bytes_atomic
+
+    if kind == "fifo":
+        target = _fifo(tmp_path)
+    elif kind == "device":
+        target = tmp_path / "null-link"
+        os.symlink("/dev/null", target)  # written through a link to a device: refused, device kept
+    elif kind == "folder":
+        target = tmp_path / "d"
+        target.mkdir()
+    else:
+        target = tmp_path / "."
+    with pytest.raises(OSError) as exc:
+        write_bytes_atomic(target, "x")
+    assert "regular file" in str(exc.value) or "folder" in str(exc.value)
+    if kind == "device":
+        assert stat.S_ISCHR(os.stat("/dev/null").st_mode)
+    if kind == "fifo":
+        assert stat.S_ISFIFO(os.stat(target).st_mode)
+
+
+def test_stale_temporary_files_of_killed_saves_are_cleared(tmp_path):
+    import subprocess
+    import sys
+
+    from bandsmith.common.atomic import write_bytes_atomic
+
+    gone = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
+    pid = int(gone.stdout)  # a process that has ended
+    stale = tmp_path / f".s.json.bsw{pid}-abc123.tmp"
+    stale.write_text("half")
+    other = tmp_path / f".t.json.bsw{pid}-abc123.tmp"  # another file's: left alone
+    other.write_text("half")
+    write_bytes_atomic(tmp_path / "s.json", "{}")
+    assert not stale.exists() and other.exists()
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted([other.name, "s.json"])
+
+
+def test_cli_output_dot_is_a_clear_message(tmp_path, capsys, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    p = _write(tmp_path, _session_obj())
+    code, _, err = _cli(["export", str(p), "--netlist", "."], capsys)
+    assert code == 2 and "busy" not in err and "folder" in err

@@ -3,11 +3,19 @@
 Writes go to a temporary file in the same folder, flushed and synced, then renamed: used for every
 file Bandsmith writes (sessions, the op-amp shelf, exports, reports), so that a write that fails
 half-way leaves the old file exactly as it was.
+
+A path that is a symbolic link is written through: the file it points to is replaced, the link
+stays. Only regular files are written: a folder, a device (``/dev/full``), a pipe or a socket at
+the path is refused with an ``OSError`` saying so, and left alone. Temporary files are named
+``.<name>.bsw<pid>-<random>.tmp``; a save first removes those of its own file left by a process
+that no longer runs (a save killed half-way).
 """
 
 from __future__ import annotations
 
+import errno
 import os
+import re
 import stat
 import tempfile
 from pathlib import Path
@@ -26,6 +34,50 @@ def _mode_for(target: Path) -> int:
         return 0o666 & ~umask
 
 
+def _pid_gone(pid: int) -> bool:
+    if pid == os.getpid():
+        return False
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return True
+    except OSError:
+        return False
+    return False
+
+
+def _clear_stale(folder: Path, name: str) -> None:
+    """Remove temporary files of ``name`` left in ``folder`` by saves whose process is gone."""
+    pattern = re.compile(re.escape(f".{name}.bsw") + r"([0-9]+)-[A-Za-z0-9_]+\.tmp")
+    try:
+        entries = list(os.scandir(folder))
+    except OSError:
+        return
+    for e in entries:
+        m = pattern.fullmatch(e.name)
+        if m and e.is_file(follow_symlinks=False) and _pid_gone(int(m.group(1))):
+            try:
+                os.unlink(e.path)
+            except OSError:
+                pass
+
+
+def _writable_target(target: Path) -> Path:
+    """The regular file to replace for ``target``: a symbolic link's target; OSError for a folder,
+    a device, a pipe or a socket."""
+    real = Path(os.path.realpath(target)) if target.is_symlink() else target
+    try:
+        st = os.stat(real)
+    except FileNotFoundError:
+        return real
+    except OSError:
+        return real  # let the write itself report it
+    if not stat.S_ISREG(st.st_mode):
+        code = errno.EISDIR if stat.S_ISDIR(st.st_mode) else errno.EINVAL
+        raise OSError(code, f"it is {_file_kind(st.st_mode)}; only a regular file can be written there", str(target))
+    return real
+
+
 def write_bytes_atomic(path: str | os.PathLike, data: bytes | str, *, make_folder: bool = False) -> Path:
     """Write ``data`` (text is UTF-8 encoded) to ``path`` atomically.
 
@@ -37,11 +89,15 @@ def write_bytes_atomic(path: str | os.PathLike, data: bytes | str, *, make_folde
     if isinstance(data, str):
         data = data.encode("utf-8")
     target = Path(path)
-    folder = target.parent if str(target.parent) else Path(".")
+    if not target.name or target.name in (".", ".."):
+        raise OSError(errno.EISDIR, "it is a folder; give a file name", str(target))
     if make_folder:
-        folder.mkdir(parents=True, exist_ok=True)
+        (target.parent if str(target.parent) else Path(".")).mkdir(parents=True, exist_ok=True)
+    target = _writable_target(target)
+    folder = target.parent if str(target.parent) else Path(".")
     mode = _mode_for(target)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
+    _clear_stale(folder, target.name)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.bsw{os.getpid()}-", suffix=".tmp", dir=folder)
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
