@@ -404,3 +404,38 @@ def test_cli_output_dot_is_a_clear_message(tmp_path, capsys, monkeypatch):
     p = _write(tmp_path, _session_obj())
     code, _, err = _cli(["export", str(p), "--netlist", "."], capsys)
     assert code == 2 and "busy" not in err and "folder" in err
+
+
+# ------------------------------------------------------------------ 8. messages and wrongly accepted inputs
+
+
+@pytest.mark.parametrize("cmd", [
+    ["design", "mfb", "--f0", "1k", "--q", "5", "--gain", "2"],
+    ["compare", "--f0", "1k", "--q", "5", "--gain", "2"],
+])
+def test_save_with_an_empty_name_is_bad_input(cmd, capsys):
+    code, _, err = _cli(cmd + ["--save", ""], capsys)
+    assert code == 2 and err.startswith("save: ")
+
+
+@pytest.mark.parametrize("part,text,unit", [("C1", "4k7Ω", "ohm"), ("C1", "1MEGA", "ampere"), ("R1", "10nF", "farad")])
+def test_a_unit_contradicting_the_part_kind_is_refused(part, text, unit, capsys):
+    """SI brochure (BIPM, 9th edition, table 4): Ω, F, A are distinct units; "1MEGA" reads as one
+    megaampere (SPICE's MEG, then the ampere's symbol)."""
+    vals = {"R1": "10k", "R2": "866", "R3": "82k", "C1": "10n", "C2": "10n", part: text}
+    code, _, err = _cli(["analyze", "mfb", *(f"{k}={v}" for k, v in vals.items())], capsys)
+    assert code == 2 and err.startswith(f"{part}: ") and unit in err
+
+
+def test_a_matching_unit_is_still_read(capsys):
+    code, _, err = _cli(["analyze", "mfb", "R1=10kΩ", "R2=866ohm", "R3=82k", "C1=10nF", "C2=10n"], capsys)
+    assert code == 0, err
+
+
+def test_long_inputs_are_not_echoed_whole(capsys, tmp_path):
+    code, _, err = _cli(["analyze", "mfb", "R1=" + "x" * 10_000, "R2=866", "R3=82k", "C1=10n", "C2=10n"], capsys)
+    assert code == 2 and len(err) < 400
+    code, _, err = _cli(["tolerance", "mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n", "--seed", "9" * 5000], capsys)
+    assert code == 2 and err.startswith("seed: ") and len(err) < 400
+    code, _, err = _cli(["report", str(_write(tmp_path, _session_obj())), "-o", str(tmp_path / ("a" * 300 + ".html"))], capsys)
+    assert code == 2 and err.startswith("output: ")

@@ -8,7 +8,7 @@ from bandsmith.common.errors import InputError
 from bandsmith.chain.prototypes import RESPONSES
 from bandsmith.common.values import format_value, parse_positive
 
-from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, print_json
+from bandsmith.app.cli.common import check_save_path, Command, add_amp_options, conditions_from, print_json
 from bandsmith.app.cli.text import UNITS, table
 
 
@@ -129,6 +129,7 @@ def run(args) -> int:
     conditions = conditions_from(args)
     result = design_cascade(settings, conditions=conditions)
     out = cascade_json(result)
+    check_save_path(args.save)
     if args.save:
         from bandsmith.files.session import save_session
 

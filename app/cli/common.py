@@ -13,12 +13,14 @@ from typing import Callable
 from bandsmith.analysis.analyzer import Tolerances
 from bandsmith.design.candidate import Conditions
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import one_line
 from bandsmith.common.values import parse_fraction, parse_positive
 
 __all__ = [
     "Command",
     "CliParser",
     "run_guarded",
+    "check_save_path",
     "split_assignments",
     "add_amp_options",
     "conditions_from",
@@ -29,6 +31,14 @@ __all__ = [
 ]
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
+_MESSAGE_CHARS = 300  # a message longer than this (a long input echoed in it) is cut, on one line
+
+
+def check_save_path(path: str | None) -> str | None:
+    """``--save``'s value: None when not given; an empty one is bad input, not "save nothing"."""
+    if path is not None and not path.strip():
+        raise InputError("save", "give the name of the session file to write")
+    return path
 
 
 @dataclass(frozen=True)
@@ -61,12 +71,12 @@ def run_guarded(run: Callable[[argparse.Namespace], int], args: argparse.Namespa
             warnings.simplefilter("ignore")
             return run(args)
     except InputError as exc:
-        print(str(exc), file=sys.stderr)
+        print(one_line(str(exc), _MESSAGE_CHARS), file=sys.stderr)
         return EXIT_BAD_INPUT
     except BrokenPipeError:
         return EXIT_OK
     except Exception as exc:  # an internal failure: a short message, never a traceback
-        print(f"bandsmith: internal error: {type(exc).__name__}: {exc}", file=sys.stderr)
+        print(one_line(f"bandsmith: internal error: {type(exc).__name__}: {exc}", _MESSAGE_CHARS), file=sys.stderr)
         return EXIT_INTERNAL
 
 

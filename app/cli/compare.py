@@ -10,7 +10,7 @@ from bandsmith.files.design_session import design_session
 from bandsmith.files.session import save_session
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, conditions_from, print_json
+from bandsmith.app.cli.common import check_save_path, Command, conditions_from, print_json
 from bandsmith.app.cli.design import add_target_options, series_from, spec_from
 from bandsmith.app.cli.text import UNITS, signed_error, table
 
@@ -90,6 +90,7 @@ def run(args) -> int:
     series = series_from(args)
     conditions = conditions_from(args)
     results = compare(spec, series=series, conditions=conditions)
+    check_save_path(args.save)
     if args.save:
         save_session(design_session(spec, results, series=series, conditions=conditions), args.save)
     out = compare_json(spec, results)

@@ -12,7 +12,7 @@ from bandsmith.common.eseries import SERIES_NAMES
 from bandsmith.files.session import save_session
 from bandsmith.common.values import format_value, parse_positive
 
-from bandsmith.app.cli.common import Command, add_amp_options, conditions_from, print_json, split_assignments
+from bandsmith.app.cli.common import check_save_path, Command, add_amp_options, conditions_from, print_json, split_assignments
 from bandsmith.app.cli.text import UNITS, figures_rows, requirements_rows, sensitivity_table, signed_error, table
 
 SERIES_HELP = "standard series for the parts: " + ", ".join(SERIES_NAMES) + " or exact (default E24)"
@@ -124,6 +124,7 @@ def run(args) -> int:
     topo = get_topology(args.topology)
     fixed = split_assignments(args.fix)
     result = design(topo.id, spec, series=series, fixed=fixed, conditions=conditions)
+    check_save_path(args.save)
     if args.save:
         save_session(design_session(spec, [result], series=series, conditions=conditions), args.save)
     if args.json:

@@ -7,6 +7,7 @@ import re
 from bandsmith.design.candidate import Candidate, parse_parts
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import one_line
 from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.spread.tolerance import MAX_TRIALS, STAT_KEYS, SpreadSettings, run_spread
 from bandsmith.common.values import format_value, parse_fraction, parse_positive
@@ -41,7 +42,10 @@ def configure(p):
 
 def _whole(text: str, field: str, *, low: int) -> int:
     if not _WHOLE.fullmatch(text):
-        raise InputError(field, f'"{text}" is not a whole number')
+        raise InputError(field, f'"{one_line(text)}" is not a whole number')
+    digits = text.replace("_", "").lstrip("+-").lstrip("0")
+    if len(digits) > 30:  # far beyond any seed or trial count; int() refuses past 4300 digits anyway
+        raise InputError(field, f"{len(digits)} digits is too long; give a whole number of at most 30 digits")
     v = int(text.replace("_", ""))
     if v < low:
         raise InputError(field, f"must be {'a positive' if low else 'a'} whole number{'' if low else ' of 0 or more'}, got {v}")

@@ -16,7 +16,7 @@ from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import OpAmpModel
 from bandsmith.solver.netlist import Netlist
 from bandsmith.circuits.topology import Topology
-from bandsmith.common.values import parse_value
+from bandsmith.common.values import parse_value, KIND_UNITS
 
 __all__ = ["Conditions", "Candidate", "parse_parts", "analysis_json"]
 
@@ -115,7 +115,7 @@ def parse_parts(topology: Topology, assignments: Mapping[str, str | float]) -> d
     out = {}
     for ref, text in assignments.items():
         topology.component(ref)
-        out[ref] = parse_value(text, field=ref)
+        out[ref] = parse_value(text, field=ref, unit=KIND_UNITS.get(topology.component(ref).kind))
     return topology.values_from(out)
 
 

@@ -46,7 +46,7 @@ from bandsmith.analysis.figures import Figures, measure
 from bandsmith.analysis.inductor import inductor_q_needed, inductor_q_warning
 from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec, hurwitz_stable, search_grid
 from bandsmith.circuits.topology import Topology
-from bandsmith.common.values import format_value, parse_value
+from bandsmith.common.values import format_value, parse_value, KIND_UNITS
 
 __all__ = [
     "Spec",
@@ -148,7 +148,7 @@ def parse_fixed(topology: Topology, fixed: Mapping[str, float | str] | None) -> 
     out = {}
     for ref, v in (fixed or {}).items():
         comp = topology.component(ref)
-        x = parse_value(v, field=ref)
+        x = parse_value(v, field=ref, unit=KIND_UNITS.get(comp.kind))
         if not math.isfinite(x):
             raise InputError(ref, f"{x!r} is not a finite number")
         if comp.required and x <= 0:
