@@ -439,3 +439,25 @@ def test_long_inputs_are_not_echoed_whole(capsys, tmp_path):
     assert code == 2 and err.startswith("seed: ") and len(err) < 400
     code, _, err = _cli(["report", str(_write(tmp_path, _session_obj())), "-o", str(tmp_path / ("a" * 300 + ".html"))], capsys)
     assert code == 2 and err.startswith("output: ")
+
+
+def test_sallen_key_with_r1_and_r2_pinned_meets_the_target():
+    """Finding 11: pinning R1 and R2 ended in ZeroDivisionError. The exact parts are checked on
+    the closed-form variant-A biquad (S. Franco, Design with Operational Amplifiers and Analog
+    Integrated Circuits, 3rd ed., ch. 3, Sallen–Key band-pass): ω0 = √a0, Q = ω0/a1, H(jω0) = b1/a1."""
+    import math
+
+    from bandsmith.circuits.synthesis import Spec
+    from bandsmith.design.designer import design
+
+    r = design("sallen-key", Spec(3300.0, 4.0, 3.0), fixed={"R1": "22k", "R2": "6k8"})
+    assert r.feasible
+    v = r.exact
+    k = 1.0 + v["RB"] / v["RA"]
+    r1, r2, r3, ca, cb = (v[x] for x in ("R1", "R2", "R3", "C1", "C2"))
+    a1 = 1 / (r1 * ca) + (1 - k) / (r2 * ca) + 1 / (r3 * ca) + 1 / (r3 * cb)
+    a0 = (r1 + r2) / (r1 * r2 * r3 * ca * cb)
+    w0 = math.sqrt(a0)
+    assert w0 / (2 * math.pi) == pytest.approx(3300.0, rel=1e-6)
+    assert w0 / a1 == pytest.approx(4.0, rel=1e-6)
+    assert k / (r1 * ca) / a1 == pytest.approx(3.0, rel=1e-6)
