@@ -17,7 +17,7 @@ Frequencies (:data:`FREQ_RANGE_HZ`)
     1e-6 Hz to 1e15 Hz for a centre frequency, a GBW or a measured point.
 
 Targets and op-amp figures (:data:`TARGET_RANGES`, :data:`A0_RANGE`, :data:`NOISE_DENSITY_MAX`)
-    Q from 1e-3 to 1e5, centre gain from 1e-6 to 1e6 (V/V), open-loop gain A0 from 1e-3 to 1e12,
+    Q from 1e-3 to 1e5, centre gain from 1e-6 to 1e6 (V/V), open-loop gain A0 from 1e-3 to 1e16,
     noise densities (V/√Hz or A/√Hz) up to 1e-3; a measured magnitude from -400 dB to +400 dB.
 
 Files (:data:`MAX_FILE_BYTES`)
@@ -73,7 +73,7 @@ def check_id(field: str, value: object, what: str = "an id") -> str:
 PART_RANGES = {"R": (1e-6, 1e15), "C": (1e-18, 1e6), "L": (1e-15, 1e12)}
 FREQ_RANGE_HZ = (1e-6, 1e15)
 TARGET_RANGES = {"f0": FREQ_RANGE_HZ, "q": (1e-3, 1e5), "gain": (1e-6, 1e6)}
-A0_RANGE = (1e-3, 1e12)
+A0_RANGE = (1e-3, 1e16)
 NOISE_DENSITY_MAX = 1e-3
 MAG_DB_RANGE = (-400.0, 400.0)
 _UNITS = {"R": "Ω", "C": "F", "L": "H"}
