@@ -461,3 +461,16 @@ def test_sallen_key_with_r1_and_r2_pinned_meets_the_target():
     assert w0 / (2 * math.pi) == pytest.approx(3300.0, rel=1e-6)
     assert w0 / a1 == pytest.approx(4.0, rel=1e-6)
     assert k / (r1 * ca) / a1 == pytest.approx(3.0, rel=1e-6)
+
+
+def test_spread_envelope_reads_past_the_first_chunk():
+    """Finding 12: more trials than one chunk (CHUNK = 20 000) raised ValueError."""
+    import numpy as np
+
+    from bandsmith.spread.tolerance import CHUNK, SpreadSettings, magnitude_envelope
+
+    nl = get_topology("mfb").netlist(get_topology("mfb").example)
+    n = CHUNK + 1500
+    env = magnitude_envelope(nl, SpreadSettings(trials=n + 10, seed=4), np.geomspace(500, 8000, 20), trials=n)
+    assert env.trials == n and env.magnitude_db.shape == (3, 20)
+    assert np.all(np.diff(env.magnitude_db, axis=0) >= -1e-12)  # 5th ≤ 50th ≤ 95th percentile
