@@ -474,3 +474,14 @@ def test_spread_envelope_reads_past_the_first_chunk():
     env = magnitude_envelope(nl, SpreadSettings(trials=n + 10, seed=4), np.geomspace(500, 8000, 20), trials=n)
     assert env.trials == n and env.magnitude_db.shape == (3, 20)
     assert np.all(np.diff(env.magnitude_db, axis=0) >= -1e-12)  # 5th ≤ 50th ≤ 95th percentile
+
+
+def test_a_damaged_shelf_section_is_said_in_the_report():
+    """Finding 13: the other damaged sections get a note; the shelf's was dropped silently."""
+    from bandsmith.app.report.builder import build_report_html
+    from bandsmith.app.window.verdicts import SESSION_KEY
+
+    entry = CandidateEntry("mfb", "mfb", dict(get_topology("mfb").example))
+    s = Session(Target(2400.0, 8.0, 4.0), (entry,), extras={SESSION_KEY: {"amps": [{"name": 5}]}})
+    html = build_report_html(s, images=False)
+    assert "op-amp models cannot be used" in html
