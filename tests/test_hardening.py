@@ -164,6 +164,9 @@ EXTREME = [
     (["design", "mfb", "--f0", "1e308", "--q", "8", "--gain", "4"], "f0"),
     (["design", "mfb", "--f0", "1k", "--q", "1e-300", "--gain", "4"], "q"),
     (["design", "mfb", "--f0", "1k", "--q", "8", "--gain", "4", "--gbw", "1e-320"], "gbw"),
+    # found by the long fuzz run (BANDSMITH_FUZZ_EXAMPLES=1500)
+    (["analyze", "mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n", "--rload", "1e-320"], "rload"),
+    (["noise", "mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n", "--vin", "1e-320"], "vin"),
 ]
 
 
@@ -173,6 +176,11 @@ def test_extreme_values_are_bad_input_naming_the_field(argv, field, capsys):
     assert code == 2, err
     assert err.count("\n") == 1 and err.startswith(f"{field}: ")
     assert "range" in err
+
+
+def test_a_vanishing_chebyshev_ripple_is_bad_input(capsys):
+    code, _, err = _cli(["cascade", "--response", "chebyshev", "--order", "2", "--f0", "2k", "--bw", "500", "--ripple-db", "1e-320"], capsys)
+    assert code == 2 and err.startswith("ripple-db: ")
 
 
 def test_an_underflowing_literal_is_not_reported_as_zero():

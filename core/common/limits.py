@@ -18,7 +18,9 @@ Frequencies (:data:`FREQ_RANGE_HZ`)
 
 Targets and op-amp figures (:data:`TARGET_RANGES`, :data:`A0_RANGE`, :data:`NOISE_DENSITY_MAX`)
     Q from 1e-3 to 1e5, centre gain from 1e-6 to 1e6 (V/V), open-loop gain A0 from 1e-3 to 1e16,
-    noise densities (V/√Hz or A/√Hz) up to 1e-3; a measured magnitude from -400 dB to +400 dB.
+    noise densities (V/√Hz or A/√Hz) up to 1e-3; a measured magnitude from -400 dB to +400 dB;
+    an input amplitude from 1e-9 V to 1e6 V (:data:`VIN_RANGE_V`), a load in the resistor range, a
+    Chebyshev ripple of at least 1e-3 dB (:data:`RIPPLE_DB_MIN`).
 
 Files (:data:`MAX_FILE_BYTES`)
     Session, shelf and measured-data files are read only when they are regular files of at most
@@ -42,6 +44,8 @@ __all__ = [
     "A0_RANGE",
     "NOISE_DENSITY_MAX",
     "MAG_DB_RANGE",
+    "VIN_RANGE_V",
+    "RIPPLE_DB_MIN",
     "check_range",
     "check_part_value",
     "MAX_FILE_BYTES",
@@ -76,6 +80,8 @@ TARGET_RANGES = {"f0": FREQ_RANGE_HZ, "q": (1e-3, 1e5), "gain": (1e-6, 1e6)}
 A0_RANGE = (1e-3, 1e16)
 NOISE_DENSITY_MAX = 1e-3
 MAG_DB_RANGE = (-400.0, 400.0)
+VIN_RANGE_V = (1e-9, 1e6)
+RIPPLE_DB_MIN = 1e-3
 _UNITS = {"R": "Ω", "C": "F", "L": "H"}
 
 

@@ -17,6 +17,7 @@ from bandsmith.solver.mna import OpAmpModel
 from bandsmith.solver.netlist import Netlist
 from bandsmith.circuits.topology import Topology
 from bandsmith.common.values import parse_value, KIND_UNITS
+from bandsmith.common.limits import VIN_RANGE_V, check_part_value, check_range
 
 __all__ = ["Conditions", "Candidate", "parse_parts", "analysis_json"]
 
@@ -52,6 +53,9 @@ class Conditions:
                 continue
             if v is None or not math.isfinite(v) or v <= 0:
                 raise InputError(name, f"must be a finite number above zero, got {v!r}")
+        check_range("vin", float(self.vin_v), *VIN_RANGE_V, "V")
+        if self.rload_ohm is not None:
+            check_part_value("rload", "R", float(self.rload_ohm))
 
     @property
     def opamp(self) -> OpAmpModel | None:

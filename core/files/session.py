@@ -41,7 +41,7 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.atomic import read_utf8, write_bytes_atomic
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
-from bandsmith.common.limits import A0_RANGE, FREQ_RANGE_HZ, TARGET_RANGES, check_id, check_range, one_line
+from bandsmith.common.limits import A0_RANGE, FREQ_RANGE_HZ, TARGET_RANGES, VIN_RANGE_V, check_id, check_part_value, check_range, one_line
 
 __all__ = [
     "FORMAT",
@@ -155,6 +155,7 @@ class Target:
         _finite_positive("vin", self.vin_v)
         for name, value in (("f0", self.f0_hz), ("q", self.q), ("gain", self.gain)):
             check_range(name, float(value), *TARGET_RANGES[name], "Hz" if name == "f0" else "")
+        check_range("vin", float(self.vin_v), *VIN_RANGE_V, "V")
         if self.series not in SERIES_CHOICES:
             raise InputError("series", f"{self.series!r} is not a series; choose one of {', '.join(SERIES_CHOICES)}")
         for name in ("f0_hz", "q", "gain", "vin_v"):
@@ -256,6 +257,8 @@ class Session:
         object.__setattr__(self, "candidates", cands)
         _check_text("notes", self.notes)
         _finite_positive("rload", self.rload_ohm, optional=True)
+        if self.rload_ohm is not None:
+            check_part_value("rload", "R", float(self.rload_ohm))
         if self.rload_ohm is not None:
             object.__setattr__(self, "rload_ohm", float(self.rload_ohm))
         clash = sorted(set(self.extras) & _KNOWN_KEYS)
