@@ -493,3 +493,11 @@ def test_a_damaged_shelf_section_is_said_in_the_report():
     s = Session(Target(2400.0, 8.0, 4.0), (entry,), extras={SESSION_KEY: {"amps": [{"name": 5}]}})
     html = build_report_html(s, images=False)
     assert "op-amp models cannot be used" in html
+
+
+def test_an_unreachable_target_blames_the_target_not_a_part(capsys):
+    """Finding 9: a target whose parts fall outside the analysable range was reported as the
+    part's fault ("R2: ..."), a part the user never typed."""
+    code, out, err = _cli(["design", "mfb", "--f0", "1e15", "--q", "1e5", "--gain", "1e6"], capsys)
+    assert code == 0 and not err
+    assert "not feasible: this target needs R2" in out

@@ -443,7 +443,10 @@ def design(
     except Infeasible as exc:
         return _infeasible(topo, spec, series, exc.reason, pins, conditions)
     notes = tuple(getattr(exact, "notes", ()))
-    exact = topo.values_from(dict(exact))
+    try:
+        exact = topo.values_from(dict(exact))
+    except InputError as exc:  # the target, not a part the user typed, is what is out of reach
+        return _infeasible(topo, spec, series, f"this target needs {exc.field} = {exc.reason.replace(' is outside', ', outside', 1)}", pins, conditions)
     reason = _limits(topo, exact)
     if reason:
         return _infeasible(topo, spec, series, reason, pins, conditions, exact, notes)
