@@ -501,3 +501,18 @@ def test_an_unreachable_target_blames_the_target_not_a_part(capsys):
     code, out, err = _cli(["design", "mfb", "--f0", "1e15", "--q", "1e5", "--gain", "1e6"], capsys)
     assert code == 0 and not err
     assert "not feasible: this target needs R2" in out
+
+
+@pytest.mark.parametrize("col", [1, 2])
+def test_an_overflowing_number_in_a_measured_file_names_its_line(tmp_path, col):
+    """Finding 9: 1e400 overflows IEEE 754 double precision to infinity; the message must still
+    give the line."""
+    from bandsmith.bench.measured import MeasurementError, read_measurement
+
+    rows = [[f"{k}e3", "0", "0"] for k in range(1, 10)]
+    rows[4][col] = "1e400"
+    p = tmp_path / "m.csv"
+    p.write_text("f,db,deg\n" + "".join(",".join(r) + "\n" for r in rows))
+    with pytest.raises(MeasurementError) as exc:
+        read_measurement(p)
+    assert "line 6" in str(exc.value)

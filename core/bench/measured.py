@@ -696,6 +696,9 @@ def read_measurement(
     if mapping.phase is not None:
         p = v[:, mapping.phase]
         p = np.degrees(p) if mapping.phase_unit == "rad" else p.copy()
+        bad = np.flatnonzero(~np.isfinite(p))
+        if bad.size:
+            raise MeasurementError(f"phase {v[bad[0], mapping.phase]:g} is not a finite number", line=int(lines[bad[0]]), source=src)
     order = np.argsort(f, kind="stable")
     if np.any(np.diff(order) < 0):
         notes.append("rows sorted by frequency")
