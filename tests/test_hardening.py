@@ -516,3 +516,8 @@ def test_an_overflowing_number_in_a_measured_file_names_its_line(tmp_path, col):
     with pytest.raises(MeasurementError) as exc:
         read_measurement(p)
     assert "line 6" in str(exc.value)
+
+
+def test_an_empty_export_name_is_named(tmp_path, capsys):
+    code, _, err = _cli(["export", str(_write(tmp_path, _session_obj())), "--netlist", ""], capsys)
+    assert code == 2 and err.startswith("netlist: ")
