@@ -521,3 +521,11 @@ def test_an_overflowing_number_in_a_measured_file_names_its_line(tmp_path, col):
 def test_an_empty_export_name_is_named(tmp_path, capsys):
     code, _, err = _cli(["export", str(_write(tmp_path, _session_obj())), "--netlist", ""], capsys)
     assert code == 2 and err.startswith("netlist: ")
+
+
+def test_reader_refuses_a_chain_id_with_a_newline(tmp_path):
+    obj = _session_obj()
+    obj["chains"] = [{"id": INJECTED, "settings": {}, "stages": []}]
+    with pytest.raises(SessionError) as exc:
+        load_session(_write(tmp_path, obj))
+    assert "chains[0].id" in str(exc.value)

@@ -572,6 +572,14 @@ def session_from_json(obj: Any, *, source: str = "the session") -> Session:
     rload = r.positive(obj, "rload_ohm", "rload_ohm", default=None, nullable=True)
     notes = r.text(obj, "notes", "notes", default="")
     extras = {k: v for k, v in obj.items() if k not in _KNOWN_KEYS}
+    chains = extras.get("chains")
+    if isinstance(chains, list):  # chain ids reach netlists too: checked here, the rest where chains are read
+        for i, ch in enumerate(chains):
+            if isinstance(ch, dict) and "id" in ch:
+                try:
+                    check_id("id", ch["id"], "a chain id")
+                except InputError as exc:
+                    raise r.impossible(f"chains[{i}].id", exc.reason) from None
     try:
         return Session(target=target, candidates=entries, opamp=opamp, tolerances=tolerances, rload_ohm=rload, notes=notes, extras=extras)
     except InputError as exc:
