@@ -529,3 +529,8 @@ def test_reader_refuses_a_chain_id_with_a_newline(tmp_path):
     with pytest.raises(SessionError) as exc:
         load_session(_write(tmp_path, obj))
     assert "chains[0].id" in str(exc.value)
+
+
+def test_argument_errors_are_cut_too(capsys):
+    code, _, err = _cli(["tolerance", "mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n", "--dist", "z" * 5000], capsys)
+    assert code == 2 and len(err) < 400 and err.count("\n") == 1

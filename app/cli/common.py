@@ -56,7 +56,7 @@ class CliParser(argparse.ArgumentParser):
     """An argument parser whose errors are one line naming the option, exit status 2."""
 
     def error(self, message: str):  # noqa: D401 - argparse's signature
-        sys.stderr.write(f"{self.prog}: {message}\n")
+        sys.stderr.write(one_line(f"{self.prog}: {message}", _MESSAGE_CHARS) + "\n")
         sys.exit(EXIT_BAD_INPUT)
 
 
