@@ -34,7 +34,10 @@ def _write(tmp_path: Path, obj, name="s.json") -> Path:
 
 
 def _cli(argv, capsys):
-    code = cli_main(list(argv))
+    try:
+        code = cli_main(list(argv))
+    except SystemExit as exc:  # argparse's own errors
+        code = exc.code
     out, err = capsys.readouterr()
     return code, out, err
 
