@@ -17,6 +17,7 @@ from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING, Any, Iterator, Mapping, Sequence
 
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import one_line
 
 if TYPE_CHECKING:  # pragma: no cover - annotations only
     from bandsmith.analysis.analyzer import Analysis, Tolerances
@@ -794,7 +795,10 @@ def _whole(v: int | str, field: str, *, low: int) -> int:
         raise InputError(field, f"must be a whole number, got {v!r}")
     if isinstance(v, str):
         if not re.fullmatch(r"\s*[+-]?[0-9][0-9_]*\s*", v):
-            raise InputError(field, f'"{v}" is not a whole number')
+            raise InputError(field, f'"{one_line(v)}" is not a whole number')
+        digits = v.strip().replace("_", "").lstrip("+-").lstrip("0")
+        if len(digits) > 30:  # far beyond any seed or trial count; int() refuses past 4300 digits anyway
+            raise InputError(field, f"{len(digits)} digits is too long; give a whole number of at most 30 digits")
         v = int(v.replace("_", ""))
     if v < low:
         raise InputError(field, f"must be {'a positive' if low else 'a'} whole number{'' if low else ' of 0 or more'}, got {v}")
@@ -1346,7 +1350,14 @@ def save_session(session: "Session", path: str | os.PathLike) -> None:
     Returns
     -------
     None
+
+    Raises
+    ------
+    InputError
+        When the name is empty (field ``save``) or the file cannot be written.
     """
     from bandsmith.files.session import save_session as _save
 
+    if not os.fspath(path).strip():  # an empty name is bad input, not "save nothing"
+        raise InputError("save", "give the name of the session file to write")
     _save(session, path)

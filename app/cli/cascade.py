@@ -113,7 +113,7 @@ def run(args) -> int:
         **amp_options(args),
     )
     out = report.to_json()
-    if args.save:
+    if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"
         api.save_session(report.to_session(), args.save)
     if args.json:
         print_json(out)

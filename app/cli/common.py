@@ -11,6 +11,7 @@ from typing import Callable
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import one_line
 
 __all__ = [
     "Command",
@@ -25,6 +26,7 @@ __all__ = [
 ]
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
+_MESSAGE_CHARS = 300  # a message longer than this (a long input echoed in it) is cut, on one line
 
 
 @dataclass(frozen=True)
@@ -42,7 +44,7 @@ class CliParser(argparse.ArgumentParser):
     """An argument parser whose errors are one line naming the option, exit status 2."""
 
     def error(self, message: str):  # noqa: D401 - argparse's signature
-        sys.stderr.write(f"{self.prog}: {message}\n")
+        sys.stderr.write(one_line(f"{self.prog}: {message}", _MESSAGE_CHARS) + "\n")
         sys.exit(EXIT_BAD_INPUT)
 
 
@@ -57,12 +59,12 @@ def run_guarded(run: Callable[[argparse.Namespace], int], args: argparse.Namespa
             warnings.simplefilter("ignore")
             return run(args)
     except InputError as exc:
-        print(str(exc), file=sys.stderr)
+        print(one_line(str(exc), _MESSAGE_CHARS), file=sys.stderr)
         return EXIT_BAD_INPUT
     except BrokenPipeError:
         return EXIT_OK
     except Exception as exc:  # an internal failure: a short message, never a traceback
-        print(f"bandsmith: internal error: {type(exc).__name__}: {exc}", file=sys.stderr)
+        print(one_line(f"bandsmith: internal error: {type(exc).__name__}: {exc}", _MESSAGE_CHARS), file=sys.stderr)
         return EXIT_INTERNAL
 
 

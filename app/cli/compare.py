@@ -174,7 +174,7 @@ def _print_verdicts(out: dict) -> None:
 
 def run(args) -> int:
     report = api.compare(**target_options(args), **amp_options(args), limits=limits_from(args))
-    if args.save:
+    if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"
         api.save_session(report.to_session(), args.save)
     out = report.to_json()
     if args.json:

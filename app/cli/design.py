@@ -105,7 +105,7 @@ def print_design(report: api.DesignReport) -> None:
 
 def run(args) -> int:
     report = api.design_circuit(args.topology, **target_options(args), fix=args.fix, **amp_options(args))
-    if args.save:
+    if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"
         api.save_session(report.to_session(), args.save)
     if args.json:
         print_json(report.to_json())

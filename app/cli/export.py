@@ -71,6 +71,10 @@ def _run_chain(args, session) -> int:
 
 
 def run(args) -> int:
+    for name in ("netlist", "parts", "response"):
+        given = getattr(args, name)
+        if given is not None and not given.strip():
+            raise InputError(name, "give the name of the file to write")
     if not (args.netlist or args.parts or args.response):
         raise InputError("export", "say what to write: --netlist OUT.cir, --parts OUT.csv or --response OUT.csv")
     session = open_session(args.session)

@@ -57,10 +57,13 @@ def report_file(path: str | os.PathLike) -> tuple[Path, str]:
     if suffix not in REPORT_SUFFIXES:
         raise InputError("output", f"{p.name!r} must end in .html or .pdf (got {suffix or 'no suffix'})")
     folder = p.parent if str(p.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError("output", f"the folder {folder} does not exist")
-    if p.is_dir():
-        raise InputError("output", f"{p} is a folder")
+    try:
+        if not folder.is_dir():
+            raise InputError("output", f"the folder {folder} does not exist")
+        if p.is_dir():
+            raise InputError("output", f"{p} is a folder")
+    except OSError as exc:  # a name too long for the file system, say
+        raise InputError("output", f"cannot write there: {exc.strerror or exc}") from None
     return p, ("pdf" if suffix == ".pdf" else "html")
 
 

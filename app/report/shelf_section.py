@@ -20,6 +20,8 @@ import math
 from html import escape
 
 from bandsmith.design.candidate import Candidate
+from bandsmith.bench.shelf import amps_from_json
+from bandsmith.common.errors import InputError
 from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, fit_check
 from bandsmith.common.values import format_value
 
@@ -77,6 +79,20 @@ def _largest_input(room) -> str:
         f"<b>{escape(_v(room.max_vin_v, 'V', 4))}</b> peak (the session's input is {escape(_v(room.vin_v, 'V', 4))}, "
         f"supply ±{room.supply_v:g} V)."
     )
+
+
+def _damaged(session) -> str | None:
+    """Why the session's shelf section cannot be read, or None (absent or fine)."""
+    if SESSION_KEY not in session.extras:
+        return None
+    sec = session.extras[SESSION_KEY]
+    if not isinstance(sec, dict):
+        return f"the section is {type(sec).__name__}, not an object"
+    try:
+        amps_from_json(sec.get("amps", []))
+    except InputError as exc:
+        return str(exc)
+    return None
 
 
 def _intro(s, supply: float) -> list[str]:
@@ -149,6 +165,9 @@ def _candidate_block(label: str, rep, chosen_name: str | None) -> list[str]:
 def section_shelf(ctx: ReportContext) -> str:
     """The session's shelf models against every active candidate ("" when it keeps none)."""
     s = ctx.session
+    problem = _damaged(s)
+    if problem:  # as the other sections say a damaged section: in words, never dropped silently
+        return f'<h2 class="shelf">Op-amps from the shelf</h2>\n<p class="error">The session\'s op-amp models cannot be used: {escape(problem)}.</p>'
     amps = session_amps(s)
     if not amps:
         return ""

@@ -1,10 +1,14 @@
 """Recovery copies: unsaved work written aside while it is unsaved, offered after a crash.
 
 While the document has unsaved changes, a copy (an ordinary session file) is written a moment
-after each change (debounced) to the recovery folder, under a name that carries this process's id,
-with a small ``.meta.json`` beside it saying which file it belongs to. Saving, or leaving without
-saving on purpose, deletes the copy. A copy whose process no longer runs was left by a crash:
-:func:`left_behind` finds those at the next start.
+after each change (debounced) to the recovery folder, under a name that carries this process's id
+and a random token drawn once per run (``unsaved-<pid>-<token>``), with a small ``.meta.json``
+beside it saying which file it belongs to, the process id, the token and the process's start time
+(Linux: field 22 of ``/proc/<pid>/stat``). Saving, or leaving without saving on purpose, deletes
+the copy. A copy whose owner no longer runs was left by a crash: :func:`left_behind` finds those at
+the next start. The owner is gone when its process id is not running, or when it runs with
+another start time or (for this very process id) another token: a process id reused by a later
+run, common in containers, neither hides the old copy nor overwrites it.
 
 The folder is the platform's application-data location (``QStandardPaths``) plus ``recovery``;
 the environment variable ``BANDSMITH_RECOVERY_DIR`` overrides it (tests use this).
@@ -14,6 +18,7 @@ from __future__ import annotations
 
 import json
 import os
+import secrets
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -41,6 +46,31 @@ def recovery_dir() -> Path:
         d = Path(base or Path.home() / ".bandsmith") / "recovery"
     d.mkdir(parents=True, exist_ok=True)
     return d
+
+
+_RUN_TOKEN = secrets.token_hex(6)  # this run's token: tells it from an earlier run with the same pid
+
+
+def _start_time(pid: int) -> str | None:
+    """The start time of process ``pid`` in clock ticks since boot (Linux), None where unknown."""
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as fh:
+            stat = fh.read().decode("ascii", "replace")
+        return stat.rsplit(")", 1)[1].split()[19]
+    except (OSError, IndexError):
+        return None
+
+
+def _owner_alive(info: dict) -> bool:
+    """Whether the run that wrote a copy's meta ``info`` still runs (module notes)."""
+    pid = int(info["pid"])
+    if pid == os.getpid():
+        run = info.get("run")
+        return run is None or run == _RUN_TOKEN
+    if not _alive(pid):
+        return False
+    start, now = info.get("start"), _start_time(pid)
+    return start is None or now is None or str(start) == now
 
 
 def _alive(pid: int) -> bool:
@@ -89,10 +119,11 @@ def left_behind(folder: Path | None = None) -> list[RecoveryCopy]:
         try:
             info = json.loads(meta.read_text(encoding="utf-8"))
             pid = int(info["pid"])
-        except (OSError, ValueError, KeyError, TypeError):
+            alive = _owner_alive(info)
+        except (OSError, ValueError, KeyError, TypeError, AttributeError):
             continue
-        copy = d / f"unsaved-{pid}{_SUFFIX}"
-        if _alive(pid) or not copy.is_file():
+        copy = meta.with_name(meta.name[: -len(".meta.json")] + _SUFFIX)
+        if alive or not copy.is_file():
             continue
         out.append(RecoveryCopy(copy, meta, str(info.get("original", "")), float(info.get("saved_at", 0.0)), pid))
     return sorted(out, key=lambda c: c.saved_at, reverse=True)
@@ -110,9 +141,9 @@ class RecoveryKeeper(QtCore.QObject):
         super().__init__(parent)
         self.state = state
         self.folder = folder or recovery_dir()
-        pid = os.getpid()
-        self.copy_path = self.folder / f"unsaved-{pid}{_SUFFIX}"
-        self.meta_path = self.folder / f"unsaved-{pid}.meta.json"
+        key = f"unsaved-{os.getpid()}-{_RUN_TOKEN}"
+        self.copy_path = self.folder / f"{key}{_SUFFIX}"
+        self.meta_path = self.folder / f"{key}.meta.json"
         self.timer = QtCore.QTimer(self)
         self.timer.setSingleShot(True)
         self.timer.setInterval(debounce_ms)
@@ -139,7 +170,8 @@ class RecoveryKeeper(QtCore.QObject):
         try:
             text = dumps_session(self.state.session)
             write_bytes_atomic(self.copy_path, text)
-            meta = {"pid": os.getpid(), "original": self.state.path, "saved_at": time.time()}
+            meta = {"pid": os.getpid(), "run": _RUN_TOKEN, "start": _start_time(os.getpid()),
+                    "original": self.state.path, "saved_at": time.time()}
             self.meta_path.write_text(json.dumps(meta), encoding="utf-8")
         except (OSError, SessionError):
             return  # a recovery copy is a courtesy; failing to write one must not disturb work

@@ -40,6 +40,7 @@ import scipy.constants
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import NOISE_DENSITY_MAX, VIN_RANGE_V, check_range
 from bandsmith.analysis.figures import measure
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
@@ -111,6 +112,9 @@ class NoiseSettings:
     def __post_init__(self):
         object.__setattr__(self, "en_v_per_rthz", _number(self.en_v_per_rthz, "en", positive=False))
         object.__setattr__(self, "in_a_per_rthz", _number(self.in_a_per_rthz, "in", positive=False))
+        for name, field in (("en_v_per_rthz", "en"), ("in_a_per_rthz", "in")):
+            if getattr(self, name) > NOISE_DENSITY_MAX:
+                raise InputError(field, f"{getattr(self, name):.3g} is outside the range the analysis can resolve, 0 to {NOISE_DENSITY_MAX:g} per √Hz")
         object.__setattr__(self, "temperature_k", _number(self.temperature_k, "temp", positive=True))
         if self.band_hz is not None:
             if isinstance(self.band_hz, (str, bytes)) or len(self.band_hz) != 2:
@@ -345,6 +349,7 @@ def output_noise(
     """
     if not (isinstance(vin_v, (int, float)) and math.isfinite(vin_v) and vin_v > 0):
         raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
+    check_range("vin", float(vin_v), *VIN_RANGE_V, "V")
     w_ref = reference_w(build_system(netlist))
     fig = measure(transfer_function(netlist, opamp, w_ref=w_ref)).item()
     if not (math.isfinite(fig.f0_hz) and math.isfinite(fig.gain_center)):

@@ -28,6 +28,8 @@ __all__ = ["DB_PER_NEPER", "EDGE", "Fits", "ResidualModel", "fit_everything", "m
 DB_PER_NEPER = 20.0 / math.log(10.0)
 _PRIOR_DB = 0.01  # residual (dB) per tolerance moved: the faint pull towards the design
 _FD_STEP = 1e-6
+# Rows × points evaluated at once by the model (bounds its temporaries to a few tens of MB).
+_CHUNK_POINTS = 2_000_000
 _CONFIDENCE = 0.999
 _NULL_RATIO = 1e-4
 
@@ -45,6 +47,7 @@ class ResidualModel:
         self.w_ref = reference_w(build_system(self.netlist))
         self.meas_db = m.mag_db
         self.meas_h = m.h
+        self.inv_meas_h = None if m.h is None else 1.0 / m.h
         self.calls = 0
 
     def h(self, x: np.ndarray) -> np.ndarray:
@@ -57,14 +60,28 @@ class ResidualModel:
     def split(self, hm: np.ndarray) -> tuple[np.ndarray, np.ndarray | None]:
         """Magnitude error (dB) and phase error (rad) of model responses ``(B, F)``."""
         if self.mode == "complex":
-            ratio = hm / self.meas_h
+            ratio = hm * self.inv_meas_h  # a product: numpy's complex division is several times slower
             return DB_PER_NEPER * np.log(np.abs(ratio)), np.angle(ratio)
         return 20.0 * np.log10(np.abs(hm)) - self.meas_db, None
 
     def residual(self, x: np.ndarray) -> np.ndarray:
         """``(B, R)`` residuals in dB (phase as dB-equivalent)."""
+        x = np.atleast_2d(x)
+        rows = max(1, _CHUNK_POINTS // max(self.f.size, 1))
+        if x.shape[0] > rows:  # bounded temporaries: a few rows of a long measurement at a time
+            return np.concatenate([self.residual(x[k : k + rows]) for k in range(0, x.shape[0], rows)])
         mag, ph = self.split(self.h(x))
         return mag if ph is None else np.concatenate([mag, DB_PER_NEPER * ph], axis=1)
+
+    def sum_sq(self, x: np.ndarray) -> np.ndarray:
+        """``(B,)`` sums of squared residuals, a few rows at a time (no ``(B, R)`` array)."""
+        x = np.atleast_2d(x)
+        rows = max(1, _CHUNK_POINTS // max(self.f.size, 1))
+        out = []
+        for k in range(0, x.shape[0], rows):
+            r = self.residual(x[k : k + rows])
+            out.append(np.sum(r * r, axis=1))
+        return np.concatenate(out)
 
 
 def fit_subsets(model: ResidualModel, subsets: np.ndarray, x0: np.ndarray, lo: np.ndarray, hi: np.ndarray, iters: int = 40):
@@ -132,7 +149,10 @@ def rms(a: np.ndarray) -> float:
 
 def confounded_groups(J: np.ndarray, parts: tuple[str, ...]) -> tuple[tuple[tuple[str, ...], ...], list[np.ndarray], int]:
     """Groups of parts the data cannot tell apart, the null directions (in log-change), and the rank."""
-    _, s, vt = np.linalg.svd(J, full_matrices=True)
+    # The thin SVD: only the right singular vectors are used; full_matrices=True would build the
+    # (2N × 2N) left factor, memory growing with the square of the points. A J with fewer rows
+    # than parts (a tiny measurement) still needs every right vector, so it takes the full one.
+    _, s, vt = np.linalg.svd(J, full_matrices=J.shape[0] < J.shape[1])
     s_full = np.zeros(len(parts))
     s_full[: s.size] = s
     null = s_full <= _NULL_RATIO * max(s_full[0], 1e-300)
@@ -192,7 +212,7 @@ def fit_everything(model: ResidualModel, rng: Mapping[str, float], tol_log: np.n
     xs = lo[:, None] + (hi - lo)[:, None] * grid[None, :]  # (n, G)
     X = np.zeros((n * grid.size, n))
     X[np.arange(n * grid.size), np.repeat(np.arange(n), grid.size)] = xs.reshape(-1)
-    Sg = np.sum(model.residual(X) ** 2, axis=1).reshape(n, grid.size)
+    Sg = model.sum_sq(X).reshape(n, grid.size)
     start = xs[np.arange(n), np.argmin(Sg, axis=1)][:, None]
     x1, S1, A1 = fit_subsets(model, np.arange(n)[:, None], start, lo, hi)
 

@@ -15,7 +15,9 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from bandsmith.common.atomic import read_bytes_limited
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import FREQ_RANGE_HZ, MAG_DB_RANGE
 
 __all__ = ["MeasurementError", "MappingNeeded", "ColumnMapping", "TableScan", "Measurement", "measurement_to_json", "measurement_from_json", "session_measurements", "with_measurement", "FREQ_UNITS", "MAG_UNITS", "PHASE_UNITS", "EXTRAS_KEY", "MIN_POINTS"]
 
@@ -187,6 +189,10 @@ class Measurement:
             raise MeasurementError("frequencies must increase", source=self.source)
         if not np.all(np.isfinite(m)) or (p is not None and not np.all(np.isfinite(p))):
             raise MeasurementError("magnitude and phase must be finite", source=self.source)
+        if f[0] < FREQ_RANGE_HZ[0] or f[-1] > FREQ_RANGE_HZ[1]:
+            raise MeasurementError(f"frequencies must lie from {FREQ_RANGE_HZ[0]:g} to {FREQ_RANGE_HZ[1]:g} Hz", source=self.source)
+        if np.any(m < MAG_DB_RANGE[0]) or np.any(m > MAG_DB_RANGE[1]):
+            raise MeasurementError(f"magnitudes must lie from {MAG_DB_RANGE[0]:g} to {MAG_DB_RANGE[1]:g} dB", source=self.source)
         for a in (f, m, p):
             if a is not None:
                 a.flags.writeable = False
@@ -220,7 +226,8 @@ class Measurement:
     def matches_file(self, path: str | os.PathLike) -> bool:
         """True when the file at ``path`` has the bytes this measurement was read from."""
         try:
-            return hashlib.sha256(Path(path).read_bytes()).hexdigest() == self.sha256
+            raw = read_bytes_limited(path, what="measured file", error=lambda kind, msg: OSError(msg))
+            return hashlib.sha256(raw).hexdigest() == self.sha256
         except OSError:
             return False
 

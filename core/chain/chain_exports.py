@@ -26,7 +26,7 @@ from bandsmith.analysis.analyzer import DEFAULT_A0
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.cautions import cautions_comment
 from bandsmith.common.errors import InputError
-from bandsmith.files.exports import OPAMP_SUBCKT, _name, _num, _series_of, element_lines, opamp_subckt_lines
+from bandsmith.files.exports import OPAMP_SUBCKT, _comment_text, _name, _num, _series_of, element_lines, opamp_subckt_lines
 from bandsmith.solver.mna import OpAmpModel
 from bandsmith.common.values import format_value
 
@@ -131,7 +131,7 @@ def chain_spice_netlist(
         raise InputError("points", "must be a whole number above zero")
     n = len(stages)
     lines = [
-        f"* Bandsmith export: chain {chain_id}, {n} stage{'s' if n != 1 else ''} in series",
+        f"* Bandsmith export: chain {_comment_text(chain_id)}, {n} stage{'s' if n != 1 else ''} in series",
         f"* {_settings_text(settings)}",
         "* input node in (AC source VIN), output node out, ground 0; stage k ends at node s<k>_out",
         "* element names end in _S<k> for stage k",

@@ -15,6 +15,7 @@ from bandsmith.design.candidate import Candidate
 from bandsmith.circuits import get_topology, topology_ids
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
+from bandsmith.common.limits import check_id
 from bandsmith.chain.prototypes import Prototype, check_order, check_response, check_ripple, prototype
 
 __all__ = ["AUTO", "ChainSettings", "ChainStage", "Chain", "circuit_choices"]
@@ -200,8 +201,7 @@ class Chain:
     notes: str = ""
 
     def __post_init__(self):
-        if not isinstance(self.id, str) or not self.id.strip():
-            raise InputError("id", f"a chain id must be a non-empty text, got {self.id!r}")
+        check_id("id", self.id, "a chain id")
         stages = tuple(self.stages)
         if [s.index for s in stages] != list(range(1, len(stages) + 1)):
             raise InputError("stages", "stage indices must run 1, 2, 3, … in order")

@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import RIPPLE_DB_MIN
 
 __all__ = [
     "RESPONSES",
@@ -191,8 +192,8 @@ def check_ripple(response: str, ripple_db: float | None) -> float | None:
     if ripple_db is None:
         return DEFAULT_RIPPLE_DB
     r = float(ripple_db)
-    if not (math.isfinite(r) and 0.0 < r <= MAX_RIPPLE_DB):
-        raise InputError("ripple-db", f"must be above 0 and at most {MAX_RIPPLE_DB:g} dB, got {ripple_db!r}")
+    if not (math.isfinite(r) and RIPPLE_DB_MIN <= r <= MAX_RIPPLE_DB):
+        raise InputError("ripple-db", f"must be from {RIPPLE_DB_MIN:g} to {MAX_RIPPLE_DB:g} dB, got {ripple_db!r}")
     return r
 
 

@@ -143,9 +143,9 @@ def _filter_parts(spec: Spec, c1: float, r: float, k: float) -> dict[str, float]
     x1, x2, x3 = (float(v) for v in _normalised(spec, k, r))
     wc = spec.w0 * c1
     return {
-        "R1": 1.0 / (x1 * wc),
-        "R2": 1.0 / (x2 * wc) if x2 > 0 else math.nan,
-        "R3": 1.0 / (x3 * wc),
+        "R1": 1.0 / (x1 * wc) if x1 * wc > 0 else math.nan,
+        "R2": 1.0 / (x2 * wc) if x2 * wc > 0 else math.nan,
+        "R3": 1.0 / (x3 * wc) if x3 * wc > 0 else math.nan,  # a search may pass through x = 0
         "C1": c1,
         "C2": c1 / r,
     }

@@ -18,6 +18,7 @@ from typing import Callable, Mapping, Sequence
 import numpy as np
 
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import TARGET_RANGES, check_range
 from bandsmith.common.eseries import nearest_array, values_between
 from bandsmith.solver.stability import hurwitz_stable
 
@@ -73,6 +74,7 @@ class Spec:
             v = float(v)
             if not (math.isfinite(v) and v > 0):
                 raise InputError(field, f"must be a finite number above zero, got {v!r}")
+            check_range(field, v, *TARGET_RANGES[field], "Hz" if field == "f0" else "")
             object.__setattr__(self, name, v)
 
     @classmethod

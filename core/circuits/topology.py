@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from typing import Callable, Mapping
 
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import check_part_value
 from bandsmith.solver.netlist import Netlist
 
 __all__ = ["Component", "IdealFormulas", "Topology"]
@@ -112,6 +113,8 @@ class Topology:
                 raise InputError(c.ref, f"must be greater than zero, got {v:g}")
             if not c.required and v < 0:
                 raise InputError(c.ref, f"must be zero or more, got {v:g}")
+            if v > 0:
+                check_part_value(c.ref, c.kind, v)
             out[c.ref] = v
         return out
 

@@ -23,6 +23,7 @@ import numbers
 import re
 
 from bandsmith.common.errors import InputError
+from bandsmith.common.units import PART_UNITS
 
 __all__ = [
     "parse_value",
@@ -32,6 +33,7 @@ __all__ = [
     "format_value",
     "format_rkm",
     "UNPREFIXED_UNITS",
+    "KIND_UNITS",
 ]
 
 _HINT = "try 4k7, 4700 or 4.7e3"
@@ -43,7 +45,7 @@ _PREFIX_EXP = {
 }
 _RKM_EXP = {**_PREFIX_EXP, "R": 0, "r": 0}
 
-_UNIT = r"(?:(?i:ohms?)|Ω|F|H|(?i:hz)|V|A|s)"
+_UNIT = r"(?P<unit>(?i:ohms?)|Ω|F|H|(?i:hz)|V|A|s)"
 _SIGN = r"(?P<sign>[+-]?)"
 _PLAIN_RE = re.compile(
     _SIGN
@@ -57,6 +59,13 @@ _FRACTION_RE = re.compile(
     _SIGN + r"(?P<int>[0-9]*)(?:\.(?P<frac>[0-9]*))?(?:[eE](?P<exp>[+-]?[0-9]+))?\s*(?P<pct>%)?"
 )
 _NON_FINITE = {"nan", "inf", "infinity"}
+# The unit a part kind is written in (bandsmith.common.units); a value given with another unit is refused.
+KIND_UNITS = PART_UNITS
+_UNIT_NAMES = {"Ω": "ohm", "F": "farad", "H": "henry", "Hz": "hertz", "V": "volt", "A": "ampere", "s": "second"}
+
+
+def _canonical_unit(u: str) -> str:
+    return "Ω" if u.lower().startswith("ohm") else ("Hz" if u.lower() == "hz" else u)
 _MAX_EXP_DIGITS = 6  # longer exponents overflow or underflow a float anyway
 
 
@@ -101,7 +110,7 @@ def _from_number(value: numbers.Real, field: str) -> float:
     return x + 0.0  # folds -0.0 into 0.0
 
 
-def parse_value(text: str | float | int, *, field: str) -> float:
+def parse_value(text: str | float | int, *, field: str, unit: str | None = None) -> float:
     """Read a value typed by a user.
 
     Parameters
@@ -111,6 +120,10 @@ def parse_value(text: str | float | int, *, field: str) -> float:
         a unit symbol (see the module docstring). Numbers are accepted as they are, if finite.
     field : str
         Name of the field the value came from, used in the error message (e.g. ``"R1"``).
+    unit : str, optional
+        The unit the field is in (``"Ω"``, ``"F"``, ``"H"``, ``"Hz"``, ...; see :data:`KIND_UNITS`
+        for parts). A value written with another unit (``"10nF"`` for a resistor, ``"1MEGA"``,
+        one megaampere, for a capacitor) is refused; without ``unit`` any unit is read and ignored.
 
     Returns
     -------
@@ -143,8 +156,13 @@ def parse_value(text: str | float | int, *, field: str) -> float:
                 raise InputError(field, f'"{_shown(text)}" is not a finite number')
             raise InputError(field, f'"{_shown(text)}" is not a value; {_HINT}')
         x = _decimal(m["sign"], m["int"], m["frac"], _RKM_EXP[m["letter"]])
+    if unit is not None and m["unit"] and _canonical_unit(m["unit"]) != unit:
+        got = _canonical_unit(m["unit"])
+        raise InputError(field, f'"{_shown(text)}" is in {_UNIT_NAMES.get(got, got)}s ({got}), but {field} is in {_UNIT_NAMES.get(unit, unit)}s ({unit})')
     if not math.isfinite(x):
         raise InputError(field, f'"{_shown(text)}" is too large to be a value')
+    if x == 0 and (m["int"] + (m["frac"] or "")).strip("0"):
+        raise InputError(field, f'"{_shown(text)}" is too small to be a value: it rounds to zero')
     return x + 0.0
 
 

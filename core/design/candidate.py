@@ -16,7 +16,8 @@ from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import OpAmpModel
 from bandsmith.solver.netlist import Netlist
 from bandsmith.circuits.topology import Topology
-from bandsmith.common.values import parse_value
+from bandsmith.common.values import parse_value, KIND_UNITS
+from bandsmith.common.limits import VIN_RANGE_V, check_part_value, check_range
 
 __all__ = ["Conditions", "Candidate", "parse_parts", "analysis_json"]
 
@@ -52,6 +53,9 @@ class Conditions:
                 continue
             if v is None or not math.isfinite(v) or v <= 0:
                 raise InputError(name, f"must be a finite number above zero, got {v!r}")
+        check_range("vin", float(self.vin_v), *VIN_RANGE_V, "V")
+        if self.rload_ohm is not None:
+            check_part_value("rload", "R", float(self.rload_ohm))
 
     @property
     def opamp(self) -> OpAmpModel | None:
@@ -115,7 +119,7 @@ def parse_parts(topology: Topology, assignments: Mapping[str, str | float]) -> d
     out = {}
     for ref, text in assignments.items():
         topology.component(ref)
-        out[ref] = parse_value(text, field=ref)
+        out[ref] = parse_value(text, field=ref, unit=KIND_UNITS.get(topology.component(ref).kind))
     return topology.values_from(out)
 
 

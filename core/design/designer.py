@@ -21,13 +21,14 @@ from bandsmith.analysis.analyzer import Analysis, Tolerances
 from bandsmith.design.candidate import Candidate, Conditions
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import check_part_value
 from bandsmith.common.eseries import SERIES_NAMES, in_series
 from bandsmith.analysis.figures import Figures
 from bandsmith.analysis.inductor import inductor_q_needed, inductor_q_warning
 from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
-from bandsmith.common.values import format_value, parse_value
+from bandsmith.common.values import KIND_UNITS, format_value, parse_value
 from bandsmith.design.standard import Choice, _options, choose_standard, errors_of, part_series_of, weighted_error  # noqa: F401 (re-exported)
 
 __all__ = [
@@ -113,13 +114,15 @@ def parse_fixed(topology: Topology, fixed: Mapping[str, float | str] | None) -> 
     out = {}
     for ref, v in (fixed or {}).items():
         comp = topology.component(ref)
-        x = parse_value(v, field=ref)
+        x = parse_value(v, field=ref, unit=KIND_UNITS.get(comp.kind))
         if not math.isfinite(x):
             raise InputError(ref, f"{x!r} is not a finite number")
         if comp.required and x <= 0:
             raise InputError(ref, f"must be greater than zero, got {x:g}")
         if not comp.required and x < 0:
             raise InputError(ref, f"must be zero or more, got {x:g}")
+        if x > 0:
+            check_part_value(ref, comp.kind, x)
         out[ref] = x
     return out
 
@@ -278,7 +281,10 @@ def design(
     except Infeasible as exc:
         return _infeasible(topo, spec, series, exc.reason, pins, conditions)
     notes = tuple(getattr(exact, "notes", ()))
-    exact = topo.values_from(dict(exact))
+    try:
+        exact = topo.values_from(dict(exact))
+    except InputError as exc:  # the target, not a part the user typed, is what is out of reach
+        return _infeasible(topo, spec, series, f"this target needs {exc.field} = {exc.reason.replace(' is outside', ', outside', 1)}", pins, conditions)
     reason = _limits(topo, exact)
     if reason:
         return _infeasible(topo, spec, series, reason, pins, conditions, exact, notes)

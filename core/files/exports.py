@@ -60,6 +60,12 @@ def _candidate(obj: Any) -> tuple[Candidate, str]:
     return Candidate(topology_id, values), getattr(obj, "id", topology_id)
 
 
+def _comment_text(text: str) -> str:
+    """Text made safe for a one-line SPICE comment: every character that is not printable (a
+    newline, a carriage return, ...) becomes ``?``, so nothing after ``*`` can start a new line."""
+    return "".join(c if c.isprintable() else "?" for c in str(text))
+
+
 def _num(x: float) -> str:
     """A SPICE number: the shortest text that reads back as the same float (never a suffix)."""
     return repr(float(x))
@@ -113,7 +119,7 @@ def spice_netlist(
     if not (isinstance(points_per_decade, int) and points_per_decade > 0):
         raise InputError("points", "must be a whole number above zero")
     lines = [
-        f"* Bandsmith export: candidate {cid}, {topo.id} ({topo.title})",
+        f"* Bandsmith export: candidate {_comment_text(cid)}, {topo.id} ({topo.title})",
         f"* ideal-op-amp figures of these parts: f0 {fig.f0_hz:.6g} Hz, Q {fig.q:.6g}, centre gain {fig.gain_center:.6g}",
         "* input node in (AC source VIN), output node out, ground 0",
     ]

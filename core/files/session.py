@@ -34,8 +34,9 @@ from pathlib import Path
 
 from bandsmith.common.atomic import write_bytes_atomic
 from bandsmith.common.errors import InputError
+from bandsmith.common.limits import one_line
 # What a session holds is in session_model, reading it in session_read; both are re-exported here.
-from bandsmith.files.session_model import FORMAT, SERIES_CHOICES, VERSION, CandidateEntry, OpAmpSpec, Session, SessionError, Target
+from bandsmith.files.session_model import FORMAT, SERIES_CHOICES, VERSION, CandidateEntry, OpAmpSpec, Session, SessionError, Target, surrogate_at
 from bandsmith.files.session_read import load_session, loads_session, session_from_json
 
 __all__ = [
@@ -99,10 +100,14 @@ def session_to_json(s: Session) -> dict:
 
 def dumps_session(s: Session) -> str:
     """Canonical text of a session: sorted keys, indent 2, UTF-8 characters kept, final newline."""
+    obj = session_to_json(s)
     try:
-        text = json.dumps(session_to_json(s), sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False)
+        text = json.dumps(obj, sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False)
     except (TypeError, ValueError) as exc:
         raise InputError("extras", f"a section cannot be written as JSON ({exc})") from None
+    where = surrogate_at(obj, "")
+    if where is not None:
+        raise SessionError("write-failed", f"{one_line(where, 80)} holds a lone surrogate character (such as \\ud800), which no UTF-8 file can store; remove it (nothing was written)")
     return text + "\n"
 
 

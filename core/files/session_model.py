@@ -11,8 +11,9 @@ from bandsmith.design.candidate import Conditions
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
+from bandsmith.common.limits import A0_RANGE, FREQ_RANGE_HZ, TARGET_RANGES, VIN_RANGE_V, check_id, check_part_value, check_range
 
-__all__ = ["FORMAT", "VERSION", "SERIES_CHOICES", "KNOWN_KEYS", "SessionError", "Target", "OpAmpSpec", "CandidateEntry", "Session"]
+__all__ = ["FORMAT", "VERSION", "SERIES_CHOICES", "KNOWN_KEYS", "SessionError", "surrogate_at", "Target", "OpAmpSpec", "CandidateEntry", "Session"]
 
 
 FORMAT = "bandsmith-session"
@@ -40,6 +41,38 @@ class SessionError(InputError):
     def __init__(self, kind: str, reason: str):
         super().__init__("session", reason)
         self.kind = kind
+
+
+def surrogate_at(obj: Any, where: str) -> str | None:
+    """The key path of the first text (key or value) inside ``obj`` that holds a lone surrogate
+    (``\\ud800``: legal in JSON's ``\\u`` escapes and in Python text, but not UTF-8), else None."""
+    if isinstance(obj, str):
+        try:
+            obj.encode("utf-8")
+        except UnicodeEncodeError:
+            return where
+        return None
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            sub = f"{where}.{k}" if where else str(k)
+            if isinstance(k, str) and surrogate_at(k, sub) is not None:
+                return sub
+            found = surrogate_at(v, sub)
+            if found is not None:
+                return found
+    elif isinstance(obj, (list, tuple)):
+        for i, v in enumerate(obj):
+            found = surrogate_at(v, f"{where}[{i}]")
+            if found is not None:
+                return found
+    return None
+
+
+def _check_text(name: str, v: Any) -> None:
+    if not isinstance(v, str):
+        raise InputError(name, f"must be text, got {type(v).__name__}")
+    if surrogate_at(v, name) is not None:
+        raise InputError(name, "holds a lone surrogate character (such as \\ud800), which no UTF-8 file can store; remove it")
 
 
 def _finite_positive(name: str, v: float | None, *, optional: bool = False) -> None:
@@ -78,6 +111,9 @@ class Target:
         _finite_positive("q", self.q)
         _finite_positive("gain", self.gain)
         _finite_positive("vin", self.vin_v)
+        for name, value in (("f0", self.f0_hz), ("q", self.q), ("gain", self.gain)):
+            check_range(name, float(value), *TARGET_RANGES[name], "Hz" if name == "f0" else "")
+        check_range("vin", float(self.vin_v), *VIN_RANGE_V, "V")
         if self.series not in SERIES_CHOICES:
             raise InputError("series", f"{self.series!r} is not a series; choose one of {', '.join(SERIES_CHOICES)}")
         for name in ("f0_hz", "q", "gain", "vin_v"):
@@ -95,6 +131,9 @@ class OpAmpSpec:
         _finite_positive("gbw", self.gbw_hz, optional=True)
         _finite_positive("a0", self.a0)
         if self.gbw_hz is not None:
+            check_range("gbw", float(self.gbw_hz), *FREQ_RANGE_HZ, "Hz")
+        check_range("a0", float(self.a0), *A0_RANGE)
+        if self.gbw_hz is not None:
             object.__setattr__(self, "gbw_hz", float(self.gbw_hz))
         object.__setattr__(self, "a0", float(self.a0))
 
@@ -106,7 +145,9 @@ class CandidateEntry:
     Parameters
     ----------
     id : str
-        Unique within the session (the topology id, then ``-2``, ``-3``, ...).
+        Unique within the session (the topology id, then ``-2``, ``-3``, ...); 1 to 64 letters,
+        digits, ``.``, ``_`` or ``-``, starting with a letter or digit
+        (:data:`bandsmith.common.limits.ID_PATTERN`), so it is safe in a netlist, a CSV or a report.
     topology_id : str
         Circuit id (see :func:`bandsmith.circuits.topology_ids`).
     values : mapping
@@ -133,8 +174,8 @@ class CandidateEntry:
     notes: str = ""
 
     def __post_init__(self):
-        if not isinstance(self.id, str) or not self.id.strip():
-            raise InputError("id", f"a candidate id must be a non-empty text, got {self.id!r}")
+        check_id("id", self.id, "a candidate id")
+        _check_text("notes", self.notes)
         topo = get_topology(self.topology_id)
         object.__setattr__(self, "values", topo.values_from(dict(self.values)))
         if self.snap is not None and self.snap not in SERIES_NAMES:
@@ -172,7 +213,10 @@ class Session:
         if dup:
             raise InputError("id", f"candidate ids must be unique; {', '.join(dup)} appears more than once")
         object.__setattr__(self, "candidates", cands)
+        _check_text("notes", self.notes)
         _finite_positive("rload", self.rload_ohm, optional=True)
+        if self.rload_ohm is not None:
+            check_part_value("rload", "R", float(self.rload_ohm))
         if self.rload_ohm is not None:
             object.__setattr__(self, "rload_ohm", float(self.rload_ohm))
         clash = sorted(set(self.extras) & KNOWN_KEYS)

@@ -12,7 +12,8 @@ from bandsmith.analysis.analyzer import DEFAULT_A0, Tolerances
 from bandsmith.circuits import get_topology
 from bandsmith.common.atomic import read_utf8
 from bandsmith.common.errors import InputError
-from bandsmith.files.session_model import FORMAT, KNOWN_KEYS, VERSION, CandidateEntry, OpAmpSpec, Session, SessionError, Target
+from bandsmith.common.limits import check_id, one_line
+from bandsmith.files.session_model import FORMAT, KNOWN_KEYS, VERSION, CandidateEntry, OpAmpSpec, Session, SessionError, Target, surrogate_at
 
 __all__ = ["session_from_json", "loads_session", "load_session"]
 
@@ -187,10 +188,15 @@ def session_from_json(obj: Any, *, source: str = "the session") -> Session:
         raise
     except InputError as exc:
         raise r.impossible(f"target.{exc.field}", exc.reason) from None
-    opamp = OpAmpSpec(
-        gbw_hz=r.positive(o, "gbw_hz", "opamp.gbw_hz", default=None, nullable=True),
-        a0=r.positive(o, "a0", "opamp.a0", default=DEFAULT_A0),
-    )
+    try:
+        opamp = OpAmpSpec(
+            gbw_hz=r.positive(o, "gbw_hz", "opamp.gbw_hz", default=None, nullable=True),
+            a0=r.positive(o, "a0", "opamp.a0", default=DEFAULT_A0),
+        )
+    except SessionError:
+        raise
+    except InputError as exc:
+        raise r.impossible({"gbw": "opamp.gbw_hz"}.get(exc.field, f"opamp.{exc.field}"), exc.reason) from None
     tolerances = Tolerances(
         f0=r.positive(tol, "f0", "tolerances.f0", default=Tolerances().f0),
         q=r.positive(tol, "q", "tolerances.q", default=Tolerances().q),
@@ -200,6 +206,14 @@ def session_from_json(obj: Any, *, source: str = "the session") -> Session:
     rload = r.positive(obj, "rload_ohm", "rload_ohm", default=None, nullable=True)
     notes = r.text(obj, "notes", "notes", default="")
     extras = {k: v for k, v in obj.items() if k not in KNOWN_KEYS}
+    chains = extras.get("chains")
+    if isinstance(chains, list):  # chain ids reach netlists too: checked here, the rest where chains are read
+        for i, ch in enumerate(chains):
+            if isinstance(ch, dict) and "id" in ch:
+                try:
+                    check_id("id", ch["id"], "a chain id")
+                except InputError as exc:
+                    raise r.impossible(f"chains[{i}].id", exc.reason) from None
     try:
         return Session(target=target, candidates=entries, opamp=opamp, tolerances=tolerances, rload_ohm=rload, notes=notes, extras=extras)
     except InputError as exc:
@@ -248,6 +262,12 @@ def loads_session(text: str, *, source: str = "the session") -> Session:
         raise r.fail("damaged", f"is damaged: {exc}") from None
     except RecursionError:
         raise r.fail("damaged", "is damaged: nested too deeply to read") from None
+    try:
+        where = surrogate_at(obj, "")
+    except RecursionError:
+        raise r.fail("damaged", "is damaged: nested too deeply to read") from None
+    if where is not None:
+        raise r.fail("damaged", f"is damaged: {one_line(where, 80)} holds a lone surrogate (a \\ud800-style escape that is no character), which cannot be saved again")
     return session_from_json(obj, source=source)
 
 

@@ -49,6 +49,11 @@ class OpAmpModel:
             raise InputError("gbw", f"{self.gbw_hz!r} is not a usable gain-bandwidth; it must be above zero")
         if not (np.isfinite(self.a0) and self.a0 > 0):
             raise InputError("a0", f"{self.a0!r} is not a usable open-loop gain; it must be above zero")
+        from bandsmith.common.limits import A0_RANGE, FREQ_RANGE_HZ, check_range
+
+        if self.gbw_hz is not None:
+            check_range("gbw", float(self.gbw_hz), *FREQ_RANGE_HZ, "Hz")
+        check_range("a0", float(self.a0), *A0_RANGE)
 
     @property
     def ideal(self) -> bool:

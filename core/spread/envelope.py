@@ -45,8 +45,14 @@ def magnitude_envelope(
     count = min(int(trials), settings.trials)
     if count < 1:
         raise InputError("trials", "the envelope needs at least one trial")
-    _, drawn = next(draws(settings, spread, settings.trials))
-    h = ev.rational(evaluator_columns(ev, drawn[:count]))
+    chunks, got = [], 0
+    for _, d in draws(settings, spread, settings.trials):  # every chunk the count reaches into
+        chunks.append(d[: count - got])
+        got += chunks[-1].shape[0]
+        if got >= count:
+            break
+    drawn = np.concatenate(chunks)
+    h = ev.rational(evaluator_columns(ev, drawn))
     f = np.asarray(f_hz, dtype=float)
     mags = np.empty((count, f.size))
     for start in range(0, count, 500):

@@ -24,6 +24,7 @@ import scipy.signal
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(Path(__file__).resolve().parent))
+sys.path.insert(0, str(ROOT / "tests"))
 
 
 def median_time(fn: Callable[[], object], *, repeat: int, number: int = 1) -> float:
@@ -87,6 +88,44 @@ def peak_mb(fn: Callable[[], object]) -> float:
     return peak / 1e6
 
 
+def fit_100k() -> tuple[float, float]:
+    """``bandsmith fit`` (in process) on a 100 000-point measured file: (seconds, peak MB).
+
+    The board is the MFB example with R3 2 % high and C1 3 % low; its response is the textbook
+    biquad evaluated by ``scipy.signal.freqs`` at 100 000 log-spaced points from f0/3 to 3·f0.
+    Time covers reading the file and the fit; the peak is the largest traced allocation.
+    """
+    import contextlib
+    import io
+    import tempfile
+
+    from measured_helpers import MFB, biquad, moved, true_figures
+
+    from bandsmith.app.cli import main as cli_main
+
+    f0 = true_figures("mfb", MFB)["f0_hz"]
+    f = np.geomspace(f0 / 3.0, f0 * 3.0, 100_000)
+    b, a = biquad("mfb", moved(MFB, {"R3": 0.02, "C1": -0.03}))
+    _, h = scipy.signal.freqs(b, a, worN=2 * np.pi * f)
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "sweep_100k.csv"
+        rows = ["frequency_hz,magnitude_db,phase_deg"]
+        rows += [f"{x:.9g},{m:.6f},{p:.5f}" for x, m, p in zip(f, 20 * np.log10(np.abs(h)), np.degrees(np.angle(h)))]
+        path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+        argv = ["fit", "mfb", *(f"{k}={v!r}" for k, v in MFB.items()), "--measured", str(path), "--json"]
+
+        def run():
+            with contextlib.redirect_stdout(io.StringIO()), contextlib.redirect_stderr(io.StringIO()):
+                code = cli_main(argv)
+            if code != 0:
+                raise RuntimeError(f"fit_100k: bandsmith fit exited {code}")
+
+        t0 = time.perf_counter()
+        run()
+        seconds = time.perf_counter() - t0
+        return seconds, peak_mb(run)
+
+
 def main() -> dict:
     ref = median_time(reference_call(), repeat=31, number=200)
     ratios: dict[str, float] = {}
@@ -121,10 +160,19 @@ def main() -> dict:
         if fn is not None:
             absolute[key] = float(fn())
             print(f"{key}: {absolute[key]:.3g}", file=sys.stderr)
+    try:
+        absolute["fit_100k_s"], absolute["fit_100k_peak_mb"] = fit_100k()
+        print(f"fit_100k: {absolute['fit_100k_s']:.3g} s, {absolute['fit_100k_peak_mb']:.3g} MB peak", file=sys.stderr)
+    except (ImportError, AttributeError) as exc:
+        print(f"fit_100k: not built ({exc})", file=sys.stderr)
     result = {"reference_s": ref, "ratios": ratios, "absolute": absolute}
     print(json.dumps(result))
     return result
 
 
 if __name__ == "__main__":
-    main()
+    if sys.argv[1:] == ["fit_100k"]:  # the fit job alone
+        s, mb = fit_100k()
+        print(json.dumps({"absolute": {"fit_100k_s": s, "fit_100k_peak_mb": mb}}))
+    else:
+        main()
