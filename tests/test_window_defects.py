@@ -43,3 +43,62 @@ def test_successful_report_prints_nothing_on_stderr(tmp_path, suffix):
     assert r.returncode == 0, r.stderr
     assert r.stderr == ""
     assert out.exists()
+
+
+# --------------------------------------------------------------------------- PDF pages
+
+MM = 72 / 25.4  # PDF points per millimetre (ISO 32000-1, 8.3.2.3: 1/72 inch per unit)
+
+
+def _page_fill(page) -> float:
+    """Fraction of a page's text column filled: top margin to the lowest text or image.
+
+    The report's page: A4, 15 mm margins, a 24 CSS-pixel (18 pt) footer left out. Text
+    positions come from pypdf's text visitor (the text matrix times the CTM, ISO 32000-1
+    9.4.2); an image covers the unit square mapped by the CTM at its ``Do`` (ISO 32000-1 8.3.4).
+    """
+    height = float(page.mediabox.height)
+    top, foot = height - 15 * MM, 15 * MM + 18.0
+    ys = []
+
+    def on_text(text, cm, tm, font, size):
+        if text.strip():
+            ys.append(cm[1] * tm[4] + cm[3] * tm[5] + cm[5])
+
+    def on_op(op, args, cm, tm):
+        if op == b"Do":
+            ys.extend([cm[5], cm[5] + cm[3]])
+
+    page.extract_text(visitor_text=on_text, visitor_operand_before=on_op)
+    body = [y for y in ys if y > foot]
+    return (top - min(body)) / (top - foot) if body else 0.0
+
+
+def _all_circuits_session():
+    from bandsmith.circuits import all_topologies
+    from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target
+
+    cands = tuple(CandidateEntry(t.id, t.id, dict(t.example)) for t in all_topologies())
+    return Session(Target(f0_hz=2000.0, q=5.0, gain=4.0, vin_v=0.5), cands, opamp=OpAmpSpec(gbw_hz=1e6))
+
+
+@pytest.mark.parametrize("which", ["demo", "all circuits"])
+def test_pdf_report_has_no_near_empty_page_but_the_last(qapp, tmp_path, which):
+    import pypdf
+
+    from bandsmith.app.report.pdf import write_report_pdf
+    from bandsmith.files.session import load_session
+
+    session = load_session(DEMO) if which == "demo" else _all_circuits_session()
+    out = write_report_pdf(session, tmp_path / "report.pdf")
+    reader = pypdf.PdfReader(str(out))
+    fills = [_page_fill(p) for p in reader.pages]
+    assert len(fills) >= 3
+    # Every page but the last at least a quarter full (issue 16: a blank page, a one-row page).
+    assert min(fills[:-1]) >= 0.25, [round(f, 2) for f in fills]
+    assert fills[-1] > 0.0
+    # No page ends on a heading: the last line of each page is not a section title.
+    headings = {"Parts", "Needs", "Figures", "Plots", "Cautions", "Noise"}
+    for page in reader.pages[:-1]:
+        lines = [ln.strip() for ln in page.extract_text().splitlines() if ln.strip() and "page " not in ln]
+        assert lines and lines[-1] not in headings
