@@ -102,3 +102,84 @@ def test_pdf_report_has_no_near_empty_page_but_the_last(qapp, tmp_path, which):
     for page in reader.pages[:-1]:
         lines = [ln.strip() for ln in page.extract_text().splitlines() if ln.strip() and "page " not in ln]
         assert lines and lines[-1] not in headings
+
+
+# --------------------------------------------------------------------------- report from the window
+
+
+@pytest.fixture
+def window(qtbot, tmp_path, monkeypatch):
+    from bandsmith.app.window.demo import demo_session
+    from bandsmith.app.window.main_window import WorkbenchWindow
+    from bandsmith.app.window.state import WorkbenchState
+    from window_helpers import ScriptedPrompter, temp_settings
+
+    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
+    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
+    qtbot.addWidget(w)
+    w.show()
+    qtbot.waitExposed(w)
+    return w
+
+
+@pytest.mark.parametrize(
+    "name, chosen, expected",
+    [
+        ("/tmp/myreport", "PDF report (*.pdf)", "/tmp/myreport.pdf"),
+        ("/tmp/myreport", "HTML report (*.html)", "/tmp/myreport.html"),
+        ("/tmp/myreport.PDF", "PDF report (*.pdf)", "/tmp/myreport.PDF"),
+        ("/tmp/my.report", "PDF report (*.pdf)", "/tmp/my.report.pdf"),
+        ("/tmp/plots", "PNG image (*.png)", "/tmp/plots.png"),
+        ("/tmp/notes", "All files (*)", "/tmp/notes"),
+        ("", "PDF report (*.pdf)", ""),
+    ],
+)
+def test_save_dialog_adds_the_chosen_type(name, chosen, expected):
+    # The suffix follows the dialog's selected filter (QFileDialog.getSaveFileName's second value).
+    from bandsmith.app.window.exporting import with_chosen_suffix
+
+    assert with_chosen_suffix(name, chosen) == expected
+
+
+def test_report_written_in_background_window_stays_responsive(window, qtbot, tmp_path):
+    import pypdf
+    from PySide6 import QtCore
+
+    out = tmp_path / "myreport.pdf"
+    window.prompter.answers["save_path"] = [str(out)]
+    ticks = []
+    timer = QtCore.QTimer()
+    timer.timeout.connect(lambda: ticks.append(1))
+    timer.start(20)
+    window.write_report()
+    job = window.report_job
+    assert job.running and window.job_status.isVisible()
+    assert window.job_status.label.text() == "Writing myreport.pdf"
+    with qtbot.waitSignal(job.finished, timeout=60000):
+        pass
+    timer.stop()
+    assert out.read_bytes()[:5] == b"%PDF-"
+    assert len(pypdf.PdfReader(str(out)).pages) >= 3
+    # The event loop ran while the report was made (the timer fired): the window kept answering.
+    assert len(ticks) >= 5
+    assert window.statusBar().currentMessage() == f"Wrote {out}"
+    assert window.prompter.errors == []
+
+
+def test_report_cancel_writes_nothing(window, qtbot, tmp_path):
+    out = tmp_path / "cancelled.html"
+    window.prompter.answers["save_path"] = [str(out)]
+    window.write_report()
+    job = window.report_job
+    window.job_status.cancel_button.click()
+    with qtbot.waitSignal(job.cancelled, timeout=60000):
+        pass
+    assert not out.exists()
+    assert "cancelled" in window.statusBar().currentMessage()
+
+
+def test_report_with_unknown_type_worded_for_the_window(window, tmp_path):
+    window.prompter.answers["save_path"] = [str(tmp_path / "myreport.txt")]
+    window.write_report()
+    (title, text), = window.prompter.errors
+    assert "HTML (.html) or PDF (.pdf)" in text and "output:" not in text

@@ -19,6 +19,7 @@ from PySide6 import QtCore, QtGui, QtWidgets
 
 from bandsmith.app.plots.axes import FrequencyAxis
 from bandsmith.app.plots.curves import Curve, PlotData
+from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.plots.palette import INK, candidate_style
 
 __all__ = [
@@ -236,6 +237,7 @@ def render_plot_png(plot: PlotData, *, width: int = 900, height: int = 380, scal
         w.deleteLater()
 
 
+@on_gui_thread
 def render_plots_png(plots: Sequence[PlotData], **kw) -> dict[str, bytes]:
     """PNG bytes of several plots, keyed by ``PlotData.key``."""
     return {p.key: render_plot_png(p, **kw) for p in plots}

@@ -13,6 +13,7 @@ from pathlib import Path
 from bandsmith.files.exports import write_atomic
 from bandsmith.files.session import Session
 
+from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.report.context import make_context
 from bandsmith.app.report.page import render_html
 
@@ -25,6 +26,7 @@ _PDF_IMAGE_WIDTH = 660  # CSS pixels; the text column of A4 less 15 mm margins i
 _PDF_DPI = 300
 
 
+@on_gui_thread
 def pdf_bytes(html: str, *, title: str = "Bandsmith report") -> bytes:
     """Lay out report HTML on A4 pages with Qt (QTextDocument) and return the PDF file's bytes.
 
@@ -156,11 +158,15 @@ def paginate(doc, page_h: float) -> None:
         block = block.next()
 
 
-def write_report_pdf(session: Session, path: str | os.PathLike, *, created: datetime | None = None, source: str | None = None) -> Path:
-    """Write the PDF report atomically; returns the path."""
+def write_report_pdf(session: Session, path: str | os.PathLike, *, created: datetime | None = None, source: str | None = None, progress=None) -> Path:
+    """Write the PDF report atomically; returns the path.
+
+    ``progress(fraction)``, when given, is called as the sections are built (see
+    :func:`bandsmith.app.report.page.render_html`).
+    """
     p = Path(path)
     # Four plots and their heading fill one A4 page.
     ctx = make_context(session, images=True, created=created, source=source, image_width=_PDF_IMAGE_WIDTH, image_aspect=0.32)
-    html = render_html(ctx, for_print=True)
+    html = render_html(ctx, for_print=True, progress=progress)
     write_atomic(p, pdf_bytes(html))
     return p

@@ -28,9 +28,56 @@ __all__ = [
     "export_parts_csv",
     "export_response_csv",
     "export_netlist",
+    "with_chosen_suffix",
+    "report_job",
 ]
 
 IMAGE_SUFFIXES = (".png", ".svg")
+
+
+def with_chosen_suffix(path: str, chosen_filter: str | None) -> str:
+    """``path`` with the suffix of the file type chosen in a save dialog, when it has none of them.
+
+    ``chosen_filter`` is the dialog's selected filter, e.g. ``"PDF report (*.pdf)"``; the
+    suffixes are its ``*.ext`` patterns. A name already ending in one of them (in any case) is
+    kept; a name with no suffix or another one gets the filter's first (``myreport`` →
+    ``myreport.pdf``). A filter of every file (``*``) leaves the name alone.
+    """
+    import re
+
+    if not path or not chosen_filter:
+        return path
+    suffixes = [s.lower() for s in re.findall(r"\*(\.[\w.]+)", chosen_filter)]
+    if not suffixes:
+        return path
+    name = Path(path).name.lower()
+    if any(name.endswith(s) for s in suffixes):
+        return path
+    return path + suffixes[0]
+
+
+def report_job(session: Session, path: str):
+    """A :class:`~bandsmith.app.window.background.BackgroundJob` writing the report of ``session``.
+
+    The candidates are analysed, the spreads and noise computed and the HTML assembled on the
+    worker thread; only the drawing of the plots (and the PDF's page layout) is handed to the
+    GUI thread (:func:`bandsmith.app.plots.gui_thread.on_gui_thread`), a few hundred
+    milliseconds in all. Progress follows the report's sections; Cancel stops at the next
+    section and nothing is written.
+    """
+    from bandsmith.app.report.builder import write_report
+    from bandsmith.app.window.background import BackgroundJob, Cancelled
+
+    def work(progress, cancelled):
+        def step(fraction: float) -> None:
+            if cancelled():
+                raise Cancelled()
+            progress(0.05 + 0.9 * fraction)
+
+        progress(0.02)
+        return write_report(session, path, progress=step)
+
+    return BackgroundJob(work, f"Writing {Path(path).name}")
 
 
 def write_atomic(path: str | os.PathLike, data: bytes | str) -> Path:

@@ -37,8 +37,11 @@ class Prompter:
         return path or None
 
     def ask_save_path(self, parent: QtWidgets.QWidget, suggested: str, filters: str = SESSION_FILTER) -> str | None:
-        path, _ = QtWidgets.QFileDialog.getSaveFileName(parent, "Save as", suggested, filters)
-        return path or None
+        from bandsmith.app.window.exporting import with_chosen_suffix
+
+        path, chosen = QtWidgets.QFileDialog.getSaveFileName(parent, "Save as", suggested, filters)
+        # The file type chosen in the dialog gives the suffix when the name has none of its own.
+        return with_chosen_suffix(path, chosen) or None
 
     def ask_restore(self, parent: QtWidgets.QWidget, original: str, when: str) -> str:
         """A recovery copy exists: returns ``"restore"``, ``"discard"`` or ``"later"``."""
