@@ -183,3 +183,35 @@ def test_report_with_unknown_type_worded_for_the_window(window, tmp_path):
     window.write_report()
     (title, text), = window.prompter.errors
     assert "HTML (.html) or PDF (.pdf)" in text and "output:" not in text
+
+
+# --------------------------------------------------------------------------- hints fit the unit
+
+
+@pytest.mark.parametrize(
+    "field_name, text, must, must_not",
+    [
+        ("gbw", "1..5M", "kHz", "4k7"),  # a frequency: no resistor codes
+        ("f0", "abc", "kHz", "4k7"),
+        ("q", "five", "2.5", "4k7"),  # dimensionless
+        ("vin", "x", "15V", "4k7"),
+    ],
+)
+def test_bad_value_hint_fits_the_field_unit(window, qtbot, field_name, text, must, must_not):
+    # Common practice, no source: an example must be a valid entry for the same field.
+    field = getattr(window.target_strip, field_name)
+    field.edit.setText(text)
+    field.edit.editingFinished.emit()
+    shown = field.error_text
+    assert shown and must in shown and must_not not in shown, shown
+
+
+def test_every_hint_example_is_accepted_by_the_parser():
+    import re
+
+    from bandsmith.common.values import _UNIT_HINTS, parse_value, value_hint
+
+    assert value_hint("Hz") != value_hint("Ω") == value_hint()
+    for unit, hint in _UNIT_HINTS.items():
+        for example in re.sub(r"^try ", "", hint).replace(" or ", ", ").split(", "):
+            assert parse_value(example, field="x") > 0, (unit, example)

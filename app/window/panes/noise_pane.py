@@ -60,11 +60,11 @@ def _strip_rthz(text: str) -> str:
 
 
 def _parse_en(text: str) -> float:
-    return parse_nonnegative(_strip_rthz(text), field="en")
+    return parse_nonnegative(_strip_rthz(text), field="en", unit="V/√Hz")
 
 
 def _parse_in(text: str) -> float:
-    return parse_nonnegative(_strip_rthz(text), field="in")
+    return parse_nonnegative(_strip_rthz(text), field="in", unit="A/√Hz")
 
 
 def _parse_temperature(text: str) -> float:

@@ -23,7 +23,7 @@ _NOTATION = "Any notation: 2k, 2000, 2e3, 2kHz."
 def _parse_gbw(text: str) -> float | None:
     if not text.strip() or text.strip().lower() in ("ideal", "none", "∞"):
         return None
-    return parse_positive(text, field="GBW")
+    return parse_positive(text, field="GBW", unit="Hz")
 
 
 def _fmt_plain(v: float | None) -> str:

@@ -52,7 +52,7 @@ class ValueField(QtWidgets.QWidget):
         super().__init__(parent)
         self.name = name
         self.unit = unit
-        self._parse = parse or (lambda text: parse_positive(text, field=name))
+        self._parse = parse or (lambda text: parse_positive(text, field=name, unit=unit))
         self._fmt = fmt or (lambda v: format_value(v, unit) if v is not None else "")
         self._value: float | None = None
         self.setObjectName(f"field_{name}")
