@@ -8,6 +8,7 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from cli_helpers import run_installed
@@ -215,3 +216,73 @@ def test_every_hint_example_is_accepted_by_the_parser():
     for unit, hint in _UNIT_HINTS.items():
         for example in re.sub(r"^try ", "", hint).replace(" or ", ", ").split(", "):
             assert parse_value(example, field="x") > 0, (unit, example)
+
+
+# --------------------------------------------------------------------------- plots
+
+ARTIFACTS = ROOT / "tests" / "_artifacts" / "window_defects"
+
+
+def _plot(window, key):
+    return window.plot_grid.plots[key]
+
+
+def test_magnitude_markers_sit_on_f0_and_the_3db_points(window):
+    # The −3 dB points of a band-pass are where |H| is 1/√2 of its peak (IEC 60050-103, 103-07-...:
+    # "cut-off frequency"; common practice): the markers sit on the curve there.
+    plot = _plot(window, "magnitude")
+    for cid, curve in plot.curves.items():
+        fig = window.state.results[cid].figures
+        pts = plot.marker_points(cid)
+        assert len(pts) == 3
+        (f0, g0), (fl, gl), (fh, gh) = pts
+        assert f0 == pytest.approx(fig.f0_hz) and fl < f0 < fh
+        assert gl == pytest.approx(g0 - 3.0) and gh == pytest.approx(g0 - 3.0)
+        x, y = curve.getData()
+        f, db = 10.0 ** np.asarray(x), np.asarray(y)
+        assert np.interp(np.log10(fl), np.log10(f), db) == pytest.approx(gl, abs=0.05)
+        assert np.interp(np.log10(f0), np.log10(f), db) == pytest.approx(g0, abs=0.05)
+
+
+def test_cursor_readout_cleared_when_the_mouse_leaves(window, qtbot):
+    from PySide6 import QtCore, QtGui
+
+    plot = _plot(window, "magnitude")
+    vb = plot.getPlotItem().getViewBox()
+    centre = vb.sceneBoundingRect().center()
+    plot._on_mouse_moved(centre)
+    assert window.cursor_label.text().startswith("Magnitude: ")
+    plot.leaveEvent(QtCore.QEvent(QtCore.QEvent.Type.Leave))
+    assert window.cursor_label.text() == ""
+
+
+def test_step_title_and_axis_agree_and_pole_zero_title_names_the_markers(window):
+    step = _plot(window, "step")
+    title = step.getPlotItem().titleLabel.text
+    axis = step.getPlotItem().getAxis("left").labelText
+    assert "1 V" not in title and "unit step" in title.lower()
+    assert "per input step" in axis.lower()
+    pz = _plot(window, "pole_zero")
+    assert "×" not in pz.getPlotItem().titleLabel.text and "filled" in pz.getPlotItem().titleLabel.text
+
+
+def test_coincident_poles_get_a_multiplicity_label(window):
+    from bandsmith.app.window.widgets.plots import OVERLAP, coincident
+
+    # A double pole (a second-order Butterworth stage twice, common practice) counts 2.
+    p = complex(-1000.0, 1000.0)
+    assert coincident([p, p * (1 + 1e-9), p.conjugate(), p.conjugate()]) == [(p, 2), (p.conjugate(), 2)]
+    assert coincident([p, -p]) == []
+    pz = _plot(window, "pole_zero")
+    res = [window.state.results[c] for c in pz.curves]
+    groups = coincident(np.concatenate([r.poles_hz for r in res]), rel=OVERLAP) + coincident(np.concatenate([r.zeros_hz for r in res]), rel=OVERLAP)
+    assert len(pz.multiplicity_labels) == len(groups) >= 1
+    assert sorted(lab.toPlainText() for lab in pz.multiplicity_labels) == sorted(f"×{n}" for _, n in groups)
+
+
+def test_look_at_the_plots(window):
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    for key in ("magnitude", "step", "pole_zero"):
+        plot = _plot(window, key)
+        plot.resize(700, 420)
+        assert plot.grab().save(str(ARTIFACTS / f"{key}.png"))
