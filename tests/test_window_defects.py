@@ -286,3 +286,29 @@ def test_look_at_the_plots(window):
         plot = _plot(window, key)
         plot.resize(700, 420)
         assert plot.grab().save(str(ARTIFACTS / f"{key}.png"))
+
+
+def test_tolerance_envelope_visible_at_the_default_zoom(window, qtbot):
+    from bandsmith.app.window.panes.spread_pane import ENVELOPE_KEY
+
+    pane = window.spread_pane
+    window.panes.setCurrentWidget(pane)
+    with qtbot.waitSignal(pane.run_finished, timeout=60_000):
+        pane.run()
+    plot = window.plot_grid.plots["magnitude"]
+    window.panes.setCurrentIndex(0)
+    lo, hi, _band = plot.envelopes[ENVELOPE_KEY]
+    x, y_lo = lo.getData()
+    _, y_hi = hi.getData()
+    vb = plot.getPlotItem().getViewBox()
+    (x0, x1), (v0, v1) = vb.viewRange()
+    seen = (x >= x0) & (x <= x1)
+    # The widest part of the band in view, in screen pixels: at least 8 px (a band a line's width
+    # wide is what the issue saw).
+    px_per_db = vb.height() / (v1 - v0)
+    assert seen.sum() > 10
+    assert float(np.max((y_hi - y_lo)[seen])) * px_per_db >= 8.0
+    # The pass band is in view: the peak of the upper edge lies inside the y range.
+    assert v0 < float(np.max(y_hi)) < v1
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    plot.grab().save(str(ARTIFACTS / "envelope.png"))

@@ -646,7 +646,8 @@ class SpreadPane(QtWidgets.QScrollArea):
         if drawn is not None and drawn[0] is run and drawn[1] == colour and ENVELOPE_KEY in plot.envelopes:
             return  # already drawn
         env = run.envelope
-        plot.set_envelope(ENVELOPE_KEY, env.f_hz, env.magnitude_db[0], env.magnitude_db[-1], colour=colour)
+        # A new envelope moves the view to the pass band, where the band is wide enough to see.
+        plot.set_envelope(ENVELOPE_KEY, env.f_hz, env.magnitude_db[0], env.magnitude_db[-1], colour=colour, zoom=drawn is None or drawn[0] is not run)
         self._envelope_of = (run, colour)
 
     # ------------------------------------------------------------------ layout

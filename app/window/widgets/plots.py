@@ -247,11 +247,12 @@ class MagnitudePlot(CandidatePlot):
         return f"{_short(x, 'Hz')}, {y:.2f} dB"
 
     # -- shaded bands (a tolerance envelope) -------------------------------------------------
-    def set_envelope(self, key: str, f_hz, low_db, high_db, *, colour: str) -> None:
+    def set_envelope(self, key: str, f_hz, low_db, high_db, *, colour: str, zoom: bool = False) -> None:
         """Shade the band between two magnitude curves (dB over Hz), edged in ``colour``.
 
         ``key`` names the band (a later call with the same key replaces it); the band sits below
-        the candidate curves and does not move the view's range.
+        the candidate curves. With ``zoom`` the view moves to the pass band (:meth:`zoom_to_band`),
+        where the band is wide enough to be seen; otherwise the view's range is kept.
         """
         self.clear_envelope(key)
         item = self.getPlotItem()
@@ -270,6 +271,29 @@ class MagnitudePlot(CandidatePlot):
         band.setZValue(-9)
         item.addItem(band, ignoreBounds=True)
         self.envelopes[key] = (lo, hi, band)
+        if zoom:
+            self.zoom_to_band(f_hz, low_db, high_db)
+
+    def zoom_to_band(self, f_hz, low_db, high_db) -> None:
+        """Show the pass band of an envelope: where its upper edge is within 12 dB of its peak.
+
+        Over the whole sweep (some 80 dB tall) a p5–p95 band a few dB wide near f0 is a line's
+        width; over the pass band it is a visible fraction of the plot. A double click or the
+        mouse wheel gives the whole sweep back (pyqtgraph's view box).
+        """
+        f = np.asarray(f_hz, dtype=float)
+        lo = np.asarray(low_db, dtype=float)
+        hi = np.asarray(high_db, dtype=float)
+        ok = np.isfinite(f) & (f > 0) & np.isfinite(lo) & np.isfinite(hi)
+        if not ok.any():
+            return
+        f, lo, hi = f[ok], lo[ok], hi[ok]
+        top = float(hi.max())
+        near = hi >= top - 12.0
+        f_lo, f_hi = float(f[near].min()), float(f[near].max())
+        span = max(math.log10(f_hi / f_lo), 0.05)
+        x0, x1 = math.log10(f_lo) - 0.25 * span, math.log10(f_hi) + 0.25 * span
+        self.getPlotItem().getViewBox().setRange(xRange=(x0, x1), yRange=(top - 15.0, top + 3.0), padding=0)
 
     def clear_envelope(self, key: str) -> None:
         """Remove the band ``key`` (nothing happens when there is none)."""
