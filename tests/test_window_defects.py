@@ -312,3 +312,20 @@ def test_tolerance_envelope_visible_at_the_default_zoom(window, qtbot):
     assert v0 < float(np.max(y_hi)) < v1
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     plot.grab().save(str(ARTIFACTS / "envelope.png"))
+
+
+# --------------------------------------------------------------------------- help
+
+
+def test_help_lists_fixed_names_and_ordinary_keys(window):
+    from bandsmith.app.window.about import shortcuts_of
+
+    # A command on the undo stack changes the undo action's text ("Undo <what was done>").
+    window.act_undo.setText("Undo import measurement bench_sweep.csv")
+    rows = dict(shortcuts_of(window))
+    assert "Undo" in rows and not any(name.startswith("Undo ") for name in rows)
+    assert "Ctrl+Z" in rows["Undo"].split(", ")
+    # Only keys a usual keyboard has (F13 and beyond are absent on a PC keyboard, IBM PC/AT layout).
+    for keys in rows.values():
+        for k in keys.split(", "):
+            assert not any(k.endswith(f"F{n}") for n in range(13, 36)), k
