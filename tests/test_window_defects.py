@@ -5,7 +5,9 @@ Sources are named beside the checks; "common practice, no source" where the rule
 
 from __future__ import annotations
 
+import math
 import re
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -329,3 +331,43 @@ def test_help_lists_fixed_names_and_ordinary_keys(window):
     for keys in rows.values():
         for k in keys.split(", "):
             assert not any(k.endswith(f"F{n}") for n in range(13, 36)), k
+
+
+# --------------------------------------------------------------------------- noise from the shelf
+
+
+def test_noise_takes_en_and_in_from_the_chosen_shelf_model(window, qtbot):
+    from bandsmith.analysis.noise import output_noise
+    from bandsmith.app.window.panes.spread_pane import candidate_circuit
+
+    noise = window.noise_pane
+    window.panes.setCurrentWidget(noise)
+    noise.refresh()
+    assert "placeholders" in noise.noise_source.text()
+    cid = noise.picker.candidate_id
+    shelf = window.shelf_pane
+    amp = next(a for a in shelf.amps() if math.isfinite(a.en_nv_rthz) and (a.en_nv_rthz, a.in_pa_rthz) != (10.0, 1.0))
+    shelf.choose(cid, amp.name)
+    shelf.copy_to_session()
+    noise.refresh()
+    assert amp.name in noise.noise_source.text() and "placeholders" not in noise.noise_source.text()
+    # The figures are those of the model's datasheet densities (nV/√Hz, pA/√Hz → SI).
+    net, opamp = candidate_circuit(window.state, cid)
+    s = replace(noise.settings, en_v_per_rthz=amp.en_nv_rthz * 1e-9, in_a_per_rthz=amp.in_pa_rthz * 1e-12)
+    ref = output_noise(net, s, opamp=opamp, vin_v=window.state.session.target.vin_v)
+    assert noise.result.total_v_rms == pytest.approx(ref.total_v_rms, rel=1e-12)
+    assert noise.fields["en"].value == pytest.approx(amp.en_nv_rthz * 1e-9)
+    # Values typed in the pane win, and the pane says so.
+    noise.fields["en"].edit.setText("3n")
+    noise.fields["en"].edit.editingFinished.emit()
+    noise.refresh()
+    assert noise.noise_source.text().startswith("en, in as typed")
+
+
+def test_look_at_the_noise_pane(window):
+    noise = window.noise_pane
+    window.panes.setCurrentWidget(noise)
+    noise.refresh()
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    assert noise.grab().save(str(ARTIFACTS / "noise_pane.png"))
+    assert noise.noise_source.isVisible() and noise.noise_source.text()
