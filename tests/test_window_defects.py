@@ -371,3 +371,32 @@ def test_look_at_the_noise_pane(window):
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     assert noise.grab().save(str(ARTIFACTS / "noise_pane.png"))
     assert noise.noise_source.isVisible() and noise.noise_source.text()
+
+
+# --------------------------------------------------------------------------- shelf reasons
+
+
+def test_shelf_reasons_are_in_the_table(window):
+    shelf = window.shelf_pane
+    window.panes.setCurrentWidget(shelf)
+    shelf.refresh()
+    t = shelf.verdicts
+    why = t.columnCount() - 1
+    assert t.horizontalHeaderItem(why).text() == "why"
+    reports = shelf.reports()
+    for i, amp in enumerate(shelf.amps()):
+        text = t.item(i, why).text()
+        assert text
+        for cid, rep in reports.items():
+            v = rep.verdict(amp.name)
+            if v.verdict != "fits":
+                # each reason of a pair that does not fit is on screen, in words
+                assert all(r in text for r in v.reasons), (amp.name, cid)
+    # A supply the model cannot take (±15 V on a 5.5 V CMOS part) is said in the table.
+    assert any("supply" in t.item(i, why).text() for i in range(t.rowCount()))
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    window.resize(1366, 768)
+    from PySide6 import QtWidgets
+
+    QtWidgets.QApplication.processEvents()
+    assert shelf.grab().save(str(ARTIFACTS / "shelf_pane.png"))
