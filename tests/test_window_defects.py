@@ -400,3 +400,29 @@ def test_shelf_reasons_are_in_the_table(window):
 
     QtWidgets.QApplication.processEvents()
     assert shelf.grab().save(str(ARTIFACTS / "shelf_pane.png"))
+
+
+# --------------------------------------------------------------------------- PNG export
+
+
+@pytest.mark.parametrize("choice, scale", [("screen size (1×)", 1.0), ("sharp on paper (2×)", 2.0), ("large print (4×)", 4.0)])
+def test_png_export_at_the_chosen_resolution_with_a_title(window, tmp_path, choice, scale):
+    from PySide6 import QtGui
+
+    from bandsmith.app.window.exporting import _TITLE_PX
+    from window_helpers import drawn_fraction
+
+    out = tmp_path / "plots"
+    window.prompter.answers["save_path"] = [str(out) + ".png"]
+    window.prompter.answers["choice"] = [choice]
+    window.export_plots()
+    img = QtGui.QImage(str(out) + ".png")
+    grid = window.plot_grid.size()
+    # PNG size: the grid's size times the chosen scale, plus the title band (PNG IHDR width/height).
+    assert img.width() == round(grid.width() * scale)
+    assert img.height() == round(grid.height() * scale) + round(_TITLE_PX * scale)
+    band = img.copy(0, 0, img.width(), round(_TITLE_PX * scale))
+    assert drawn_fraction(band) > 0.005  # the title is drawn
+    if scale == 2.0:
+        ARTIFACTS.mkdir(parents=True, exist_ok=True)
+        img.save(str(ARTIFACTS / "export_2x.png"))

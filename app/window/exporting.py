@@ -29,6 +29,7 @@ __all__ = [
     "export_response_csv",
     "export_netlist",
     "with_chosen_suffix",
+    "PNG_SCALES",
     "report_job",
 ]
 
@@ -106,10 +107,49 @@ def write_atomic(path: str | os.PathLike, data: bytes | str) -> Path:
 # --------------------------------------------------------------------------- images
 
 
-def widget_png(widget) -> bytes:
-    """PNG bytes of a widget as it is drawn (``grab()``: its size × the screen's pixel ratio)."""
-    from PySide6 import QtCore
+#: The resolutions offered for a PNG export: name → scale (image pixels per widget pixel).
+PNG_SCALES = {
+    "screen size (1×)": 1.0,
+    "sharp on paper (2×)": 2.0,
+    "large print (4×)": 4.0,
+}
+_TITLE_PX = 30  # height of the title band, in widget pixels (scaled with the image)
 
+
+def widget_png(widget, *, scale: float | None = None, title: str | None = None) -> bytes:
+    """PNG bytes of a widget.
+
+    Without ``scale`` and ``title``: as it is drawn (``grab()``: its size × the screen's pixel
+    ratio). With ``scale``, the widget is painted afresh at ``scale`` × its size (text and
+    lines drawn sharp, :func:`bandsmith.app.plots.render.paint_widget`); with ``title``, a band
+    above the widget carries the title in bold.
+    """
+    from PySide6 import QtCore, QtGui
+
+    if scale is not None or title:
+        from bandsmith.app.plots.render import image_png, paint_widget
+
+        s = float(scale or 1.0)
+        body = paint_widget(widget, scale=s)
+        if not title:
+            return image_png(body)
+        band = round(_TITLE_PX * s)
+        img = QtGui.QImage(body.width(), body.height() + band, QtGui.QImage.Format.Format_ARGB32)
+        img.fill(QtGui.QColor("white"))
+        p = QtGui.QPainter(img)
+        try:
+            p.setRenderHint(QtGui.QPainter.RenderHint.TextAntialiasing, True)
+            font = QtGui.QFont(widget.font())
+            font.setBold(True)
+            font.setPixelSize(max(8, round(15 * s)))
+            p.setFont(font)
+            p.setPen(QtGui.QColor("#202124"))
+            p.drawText(QtCore.QRect(round(10 * s), 0, body.width() - round(20 * s), band), int(QtCore.Qt.AlignmentFlag.AlignLeft | QtCore.Qt.AlignmentFlag.AlignVCenter), title)
+            body.setDevicePixelRatio(1.0)
+            p.drawImage(0, band, body)
+        finally:
+            p.end()
+        return image_png(img)
     pixmap = widget.grab()
     buf = QtCore.QBuffer()
     buf.open(QtCore.QIODevice.OpenModeFlag.WriteOnly)
@@ -169,8 +209,11 @@ def widget_svg(widget, *, title: str = "Bandsmith plot", description: str = "") 
     return data
 
 
-def export_plot_image(widget, path: str | os.PathLike, *, title: str | None = None) -> Path:
+def export_plot_image(widget, path: str | os.PathLike, *, title: str | None = None, scale: float | None = None) -> Path:
     """Save a plot (any widget) as PNG or SVG, chosen by the suffix of ``path``; returns the path.
+
+    A PNG is drawn at ``scale`` × the widget's size with ``title`` above it when these are given
+    (:func:`widget_png`), else as on screen.
 
     Raises
     ------
@@ -182,7 +225,7 @@ def export_plot_image(widget, path: str | os.PathLike, *, title: str | None = No
     if suffix not in IMAGE_SUFFIXES:
         raise InputError("output", f"{p.name!r} must end in .png or .svg (got {suffix or 'no suffix'})")
     if suffix == ".png":
-        data = widget_png(widget)
+        data = widget_png(widget, scale=scale, title=title) if (scale is not None or title) else widget_png(widget)
     else:
         name = title or widget.objectName() or "plot"
         data = widget_svg(widget, title=f"Bandsmith: {name}")

@@ -432,8 +432,20 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
     def export_plots(self) -> None:
         fn = self._helper("exporting", "export_plot_image")
         path = self.prompter.ask_save_path(self, str(Path.home() / f"{self._stem()}-plots.png"), _IMAGE_FILTER)
-        if path:
-            self._run_export(lambda: fn(self.plot_grid, path), path)
+        if not path:
+            return
+        from bandsmith.common.values import format_value
+
+        t = self.state.session.target
+        title = f"{self._display_name()} — target f0 {format_value(t.f0_hz, 'Hz')}, Q {format_value(t.q)}, gain {format_value(t.gain)}"
+        scale = None
+        if Path(path).suffix.lower() == ".png":
+            scales = self._helper("exporting", "PNG_SCALES")
+            choice = self.prompter.ask_choice(self, "PNG resolution", "Resolution of the image:", list(scales))
+            if choice is None:
+                return
+            scale = scales[choice]
+        self._run_export(lambda: fn(self.plot_grid, path, title=title, scale=scale), path)
 
     def _export_candidate(self, what: str) -> None:
         cid = self.state.current_id

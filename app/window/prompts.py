@@ -59,6 +59,11 @@ class Prompter:
         clicked = box.clickedButton()
         return "restore" if clicked is restore else "discard" if clicked is discard else "later"
 
+    def ask_choice(self, parent: QtWidgets.QWidget, title: str, label: str, items: list[str]) -> str | None:
+        """One of ``items`` (the first preselected), or None when cancelled."""
+        item, ok = QtWidgets.QInputDialog.getItem(parent, title, label, items, 0, False)
+        return item if ok else None
+
     def error(self, parent: QtWidgets.QWidget, title: str, text: str) -> None:
         QtWidgets.QMessageBox.warning(parent, title, text)
 

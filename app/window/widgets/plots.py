@@ -228,7 +228,7 @@ class MagnitudePlot(CandidatePlot):
                         symbols.append(sym)
             marks = self.markers.get(cid)
             if marks is None:
-                marks = self.markers[cid] = pg.ScatterPlotItem(size=11)
+                marks = self.markers[cid] = pg.ScatterPlotItem(size=9)
                 marks.setObjectName(f"markers_{cid}")
                 marks.setZValue(5)
                 item.addItem(marks, ignoreBounds=True)
