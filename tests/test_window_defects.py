@@ -426,3 +426,42 @@ def test_png_export_at_the_chosen_resolution_with_a_title(window, tmp_path, choi
     if scale == 2.0:
         ARTIFACTS.mkdir(parents=True, exist_ok=True)
         img.save(str(ARTIFACTS / "export_2x.png"))
+
+
+# --------------------------------------------------------------------------- snapping
+
+
+def test_moving_a_candidate_to_another_series_redesigns_it(window):
+    from bandsmith.common.eseries import nearest
+
+    state = window.state
+    cid = "sallen-key"
+    t = state.session.target
+    assert state.session.candidate(cid).snap == "E24"
+    state.set_snap(cid, "E96")
+    entry = state.session.candidate(cid)
+    assert entry.snap == "E96"
+    # Every part is an E96 value (IEC 60063:2015, Table 3 values, through the series code).
+    for ref, v in entry.values.items():
+        if v > 0 and ref[0] in "RC":
+            assert nearest(v, "E96") == pytest.approx(v, rel=1e-12), ref
+    # Designed for the target in E96: Q and the centre gain within the design tolerances
+    # (±5 % Q, ±0.5 dB), which rounding the E24 values to E96 missed (issue 16: Q +12.8 %).
+    fig = state.results[cid].figures
+    assert abs(fig.q / t.q - 1.0) <= 0.05
+    assert abs(fig.gain_center_db - 20 * math.log10(t.gain)) <= 0.5
+    assert state.undo_stack.undoText().endswith("redesigned in E96")
+
+
+def test_a_typed_value_that_is_snapped_says_so(window, qtbot):
+    state = window.state
+    cid = next(c.id for c in state.session.candidates if c.snap == "E24")
+    entry = state.session.candidate(cid)
+    ref = next(r for r in entry.values if r.startswith("R"))
+    with qtbot.waitSignal(state.notice, timeout=2000) as sig:
+        state.set_part(cid, ref, 4990.0)
+    # 4.99 kΩ is an E96 value, not an E24 one; E24 has 4.7 k and 5.1 k (IEC 60063, Table 1).
+    assert state.session.candidate(cid).values[ref] == pytest.approx(5100.0)
+    text = sig.args[0]
+    assert "4.99 kΩ" in text and "5.1 kΩ" in text and "E24" in text
+    assert window.statusBar().currentMessage() == text
