@@ -465,3 +465,20 @@ def test_a_typed_value_that_is_snapped_says_so(window, qtbot):
     text = sig.args[0]
     assert "4.99 kΩ" in text and "5.1 kΩ" in text and "E24" in text
     assert window.statusBar().currentMessage() == text
+
+
+# --------------------------------------------------------------------------- chain form
+
+
+def test_chain_form_follows_the_target(window):
+    state = window.state
+    form = window.chain_pane.form
+    before = form.request()
+    assert before.series == state.session.target.series
+    state.set_target(f0_hz=7200.0, series="E12")
+    req = form.request()
+    # The band's geometric centre is f0 (a band-pass's centre, f0 = √(f_low·f_high)).
+    assert math.sqrt(req.f_low_hz * req.f_high_hz) == pytest.approx(7200.0, rel=1e-3)
+    assert (req.f_high_hz - req.f_low_hz) == pytest.approx(7200.0 / state.session.target.q, rel=1e-3)
+    assert req.series == "E12"
+    assert req.response == before.response and req.order == before.order
