@@ -482,3 +482,45 @@ def test_chain_form_follows_the_target(window):
     assert (req.f_high_hz - req.f_low_hz) == pytest.approx(7200.0 / state.session.target.q, rel=1e-3)
     assert req.series == "E12"
     assert req.response == before.response and req.order == before.order
+
+
+# --------------------------------------------------------------------------- tolerances and load
+
+
+def test_design_tolerances_and_load_shown_and_editable(window, qtbot):
+    strip = window.target_strip
+    s = window.state.session
+    assert strip.tol_f0.edit.text() == "1 %" and strip.tol_q.edit.text() == "5 %" and strip.tol_gain.edit.text() == "0.5 dB"
+    assert strip.load.edit.text() == "none"
+    for field, text in ((strip.tol_q, "10%"), (strip.tol_gain, "1"), (strip.load, "2k")):
+        field.edit.setText(text)
+        field.edit.editingFinished.emit()
+    s = window.state.session
+    assert s.tolerances.q == pytest.approx(0.10) and s.tolerances.gain_db == pytest.approx(1.0)
+    assert s.rload_ohm == pytest.approx(2000.0)
+    # The analyses run under the new load (conditions_for carries it to the core).
+    cid = window.state.current_id
+    assert window.state.results[cid].conditions.rload_ohm == pytest.approx(2000.0)
+    # Shown on the strip at all times (the fields open from the button).
+    assert strip.tolerance_button.isVisible()
+    assert strip.tolerance_button.text() == "f0 ±1%, Q ±10%, ±1 dB\n2 kΩ load"
+    window.state.undo_stack.undo()
+    assert window.state.session.rload_ohm is None and strip.load.edit.text() == "none"
+    assert strip.tolerance_button.text().endswith("no load")
+    # The strip still fits a 1366-pixel-wide screen.
+    assert strip.minimumSizeHint().width() <= 1280
+
+
+def test_spread_yield_window_explained_beside_the_design_tolerances(window):
+    pane = window.spread_pane
+    window.panes.setCurrentWidget(pane)
+    note = pane.window_note.text()
+    # defaults: yield ±5 %, ±10 %, ±1 dB; design ±1 %, ±5 %, ±0.5 dB
+    assert "±5 % f0" in note and "±1 %, ±5 %, ±0.5 dB" in note and "differ" in note
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    window.resize(1366, 768)
+    from PySide6 import QtWidgets
+
+    QtWidgets.QApplication.processEvents()
+    assert window.target_strip.grab().save(str(ARTIFACTS / "target_strip_1366.png"))
+    assert pane.grab().save(str(ARTIFACTS / "spread_pane.png"))
