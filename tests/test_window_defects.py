@@ -85,14 +85,30 @@ def _all_circuits_session():
     return Session(Target(f0_hz=2000.0, q=5.0, gain=4.0, vin_v=0.5), cands, opamp=OpAmpSpec(gbw_hz=1e6))
 
 
-@pytest.mark.parametrize("which", ["demo", "all circuits"])
+def _everything_session():
+    """The window's demo with a tolerance spread, the noise and a stage chain (a long report)."""
+    from bandsmith.analysis.noise import NoiseSettings
+    from bandsmith.app.window.demo import demo_session
+    from bandsmith.chain.cascade import ChainSettings, cascade_session, design_cascade
+    from bandsmith.design.candidate import Conditions
+    from bandsmith.spread.tolerance import SpreadSettings
+
+    request = ChainSettings.from_request("butterworth", 3, f0_hz=10e3, bw_hz=3e3, gain=2.0, series="E24")
+    chain = cascade_session(design_cascade(request, conditions=Conditions(gbw_hz=10e6)), chain_id="band-a")
+    demo = demo_session()
+    extras = dict(demo.extras)
+    extras.update({"spread": SpreadSettings().to_json(), "noise": NoiseSettings().to_json(), "chains": chain.extras["chains"]})
+    return replace(demo, extras=extras)
+
+
+@pytest.mark.parametrize("which", ["demo", "all circuits", "everything"])
 def test_pdf_report_has_no_near_empty_page_but_the_last(qapp, tmp_path, which):
     import pypdf
 
     from bandsmith.app.report.pdf import write_report_pdf
     from bandsmith.files.session import load_session
 
-    session = load_session(DEMO) if which == "demo" else _all_circuits_session()
+    session = {"demo": lambda: load_session(DEMO), "all circuits": _all_circuits_session, "everything": _everything_session}[which]()
     out = write_report_pdf(session, tmp_path / "report.pdf")
     reader = pypdf.PdfReader(str(out))
     fills = [_page_fill(p) for p in reader.pages]
