@@ -540,3 +540,25 @@ def test_spread_yield_window_explained_beside_the_design_tolerances(window):
     QtWidgets.QApplication.processEvents()
     assert window.target_strip.grab().save(str(ARTIFACTS / "target_strip_1366.png"))
     assert pane.grab().save(str(ARTIFACTS / "spread_pane.png"))
+
+
+def test_cursor_readout_snaps_to_a_curve_near_the_mouse(window):
+    from PySide6 import QtCore
+
+    plot = _plot(window, "magnitude")
+    vb = plot.getPlotItem().getViewBox()
+    cid, curve = next(iter(plot.curves.items()))
+    x, y = curve.getData()
+    i = len(x) // 3
+    # 3 px above a curve point: the read-out is a point of a curve (the nearest), named
+    scene = vb.mapViewToScene(QtCore.QPointF(float(x[i]), float(y[i]))) + QtCore.QPointF(0, -3)
+    view = vb.mapSceneToView(scene)
+    who, sx, sy = plot.nearest_point(view.x(), view.y())
+    cx, cy = plot.curves[who].getData()
+    j = int(np.argmin(np.abs(cx - sx)))
+    assert (cx[j], cy[j]) == (sx, sy)
+    plot._on_mouse_moved(scene)
+    assert window.cursor_label.text() == f"Magnitude: {who} — {plot._readout(10.0 ** sx, sy)}"
+    # far from every curve (top left corner of the view): the plain cursor position
+    (x0, _), (_, y1) = vb.viewRange()
+    assert plot.nearest_point(x0, y1) is None

@@ -173,11 +173,39 @@ class CandidatePlot(pg.PlotWidget):
             return
         p = vb.mapSceneToView(pos)
         x, y = p.x(), p.y()
+        snapped = self.nearest_point(x, y)
+        who = ""
+        if snapped is not None:  # within a few pixels of a curve: read the curve, not the cursor
+            who, x, y = snapped
+            who += " — "
         if self.log_x:
             x = 10.0**x
         if self.log_y:
             y = 10.0**y
-        self.cursor_text.emit(f"{self.title}: {self._readout(x, y)}")
+        self.cursor_text.emit(f"{self.title}: {who}{self._readout(x, y)}")
+
+    SNAP_PX = 10.0
+
+    def nearest_point(self, x: float, y: float):
+        """The curve point nearest the view point (x, y) (view coordinates, log10 on log axes),
+        as ``(candidate id, x, y)``, when it lies within :attr:`SNAP_PX` screen pixels; else None."""
+        vb = self.getPlotItem().getViewBox()
+        px, py = vb.viewPixelSize()
+        if not (px > 0 and py > 0):
+            return None
+        best = None
+        for cid, curve in self.curves.items():
+            cx, cy = curve.getData()
+            if cx is None or len(cx) == 0:
+                continue
+            cx = np.asarray(cx, dtype=float)
+            cy = np.asarray(cy, dtype=float)
+            d2 = ((cx - x) / px) ** 2 + ((cy - y) / py) ** 2
+            d2 = np.where(np.isfinite(d2), d2, np.inf)
+            i = int(np.argmin(d2))
+            if d2[i] <= self.SNAP_PX**2 and (best is None or d2[i] < best[0]):
+                best = (float(d2[i]), cid, float(cx[i]), float(cy[i]))
+        return None if best is None else best[1:]
 
     def leaveEvent(self, event) -> None:  # noqa: N802 - Qt's name
         # The read-out belongs to the point under the mouse: gone when the mouse leaves.
