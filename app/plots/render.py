@@ -227,6 +227,7 @@ def image_png(img: QtGui.QImage) -> bytes:
     return data
 
 
+@on_gui_thread  # one plot at a time: the GUI thread is held a few tens of milliseconds each
 def render_plot_png(plot: PlotData, *, width: int = 900, height: int = 380, scale: float = 2.0) -> bytes:
     """PNG bytes of one plot, ``width`` × ``height`` logical pixels at ``scale`` (2 = sharp)."""
     w = build_plot_widget(plot, width=width, height=height, line_width=2.0 * scale)
@@ -237,7 +238,6 @@ def render_plot_png(plot: PlotData, *, width: int = 900, height: int = 380, scal
         w.deleteLater()
 
 
-@on_gui_thread
 def render_plots_png(plots: Sequence[PlotData], **kw) -> dict[str, bytes]:
     """PNG bytes of several plots, keyed by ``PlotData.key``."""
     return {p.key: render_plot_png(p, **kw) for p in plots}

@@ -13,7 +13,6 @@ from pathlib import Path
 from bandsmith.files.exports import write_atomic
 from bandsmith.files.session import Session
 
-from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.report.context import make_context
 from bandsmith.app.report.page import render_html
 
@@ -26,12 +25,14 @@ _PDF_IMAGE_WIDTH = 660  # CSS pixels; the text column of A4 less 15 mm margins i
 _PDF_DPI = 300
 
 
-@on_gui_thread
 def pdf_bytes(html: str, *, title: str = "Bandsmith report") -> bytes:
     """Lay out report HTML on A4 pages with Qt (QTextDocument) and return the PDF file's bytes.
 
     Every page carries a footer with the page number. Needs a ``QGuiApplication`` (made
-    offscreen when none runs).
+    offscreen when none runs). It may run on a worker thread (a report written in the
+    background): a ``QTextDocument`` and a ``QPainter`` on a ``QPdfWriter`` are usable outside the
+    GUI thread (Qt 6 docs, "Threads and QObjects" / "Reentrancy and Thread-Safety": painting on
+    a QImage, QPrinter or QPdfWriter device from other threads is supported); no widget is made.
     """
     from PySide6 import QtCore, QtGui
 
