@@ -562,3 +562,14 @@ def test_cursor_readout_snaps_to_a_curve_near_the_mouse(window):
     # far from every curve (top left corner of the view): the plain cursor position
     (x0, _), (_, y1) = vb.viewRange()
     assert plot.nearest_point(x0, y1) is None
+
+
+def test_a_capacitor_field_is_not_told_to_try_resistor_codes(window):
+    from bandsmith.app.window.widgets.value_field import ValueField
+
+    caps = [f for f in window.board.findChildren(ValueField) if f.unit == "F"]
+    assert caps
+    field = caps[0]
+    field.edit.setText("ten")
+    field.edit.editingFinished.emit()
+    assert "10n" in field.error_text and "4k7" not in field.error_text
