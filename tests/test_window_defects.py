@@ -573,3 +573,16 @@ def test_a_capacitor_field_is_not_told_to_try_resistor_codes(window):
     field.edit.setText("ten")
     field.edit.editingFinished.emit()
     assert "10n" in field.error_text and "4k7" not in field.error_text
+
+
+def test_look_at_the_help_shortcuts(window):
+    from bandsmith.app.window.about import AboutDialog
+
+    window.act_undo.setText("Undo import measurement bench_sweep.csv")
+    dialog = AboutDialog(window)
+    dialog.resize(640, 900)
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    assert dialog.grab().save(str(ARTIFACTS / "help.png"))
+    html = dialog.browser.toHtml()
+    assert "Undo import" not in html and "F14" not in html
+    dialog.close()
