@@ -58,7 +58,7 @@ def _page_fill(page) -> float:
 
     The report's page: A4, 15 mm margins, a 24 CSS-pixel (18 pt) footer left out. Text
     positions come from pypdf's text visitor (the text matrix times the CTM, ISO 32000-1
-    9.4.2); an image covers the unit square mapped by the CTM at its ``Do`` (ISO 32000-1 8.3.4).
+    9.4, text objects); an image covers the unit square mapped by the CTM at its ``Do`` (ISO 32000-1 8.9, images).
     """
     height = float(page.mediabox.height)
     top, foot = height - 15 * MM, 15 * MM + 18.0
@@ -246,8 +246,8 @@ def _plot(window, key):
 
 
 def test_magnitude_markers_sit_on_f0_and_the_3db_points(window):
-    # The −3 dB points of a band-pass are where |H| is 1/√2 of its peak (IEC 60050-103, 103-07-...:
-    # "cut-off frequency"; common practice): the markers sit on the curve there.
+    # The −3 dB (half-power) points of a band-pass are where |H| is 1/√2 of its peak (common
+    # practice, no source): the markers sit on the curve there and at the peak.
     plot = _plot(window, "magnitude")
     for cid, curve in plot.curves.items():
         fig = window.state.results[cid].figures
@@ -343,7 +343,7 @@ def test_help_lists_fixed_names_and_ordinary_keys(window):
     rows = dict(shortcuts_of(window))
     assert "Undo" in rows and not any(name.startswith("Undo ") for name in rows)
     assert "Ctrl+Z" in rows["Undo"].split(", ")
-    # Only keys a usual keyboard has (F13 and beyond are absent on a PC keyboard, IBM PC/AT layout).
+    # Only keys a usual keyboard has (a PC keyboard's function keys are F1–F12; common practice, no source).
     for keys in rows.values():
         for k in keys.split(", "):
             assert not any(k.endswith(f"F{n}") for n in range(13, 36)), k
@@ -457,7 +457,7 @@ def test_moving_a_candidate_to_another_series_redesigns_it(window):
     state.set_snap(cid, "E96")
     entry = state.session.candidate(cid)
     assert entry.snap == "E96"
-    # Every part is an E96 value (IEC 60063:2015, Table 3 values, through the series code).
+    # Every part is an E96 value (the IEC 60063 E96 series, through the series code).
     for ref, v in entry.values.items():
         if v > 0 and ref[0] in "RC":
             assert nearest(v, "E96") == pytest.approx(v, rel=1e-12), ref
