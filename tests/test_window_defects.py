@@ -586,3 +586,34 @@ def test_look_at_the_help_shortcuts(window):
     html = dialog.browser.toHtml()
     assert "Undo import" not in html and "F14" not in html
     dialog.close()
+
+
+def test_drawing_handed_to_the_gui_thread_from_a_worker(qapp, qtbot):
+    import threading
+
+    from PySide6 import QtCore
+
+    from bandsmith.app.plots.gui_thread import on_gui_thread
+
+    seen = {}
+
+    @on_gui_thread
+    def where(x):
+        seen["gui"] = QtCore.QThread.currentThread() == qapp.thread()
+        if x < 0:
+            raise ValueError("negative")
+        return 2 * x
+
+    out = {}
+
+    def worker():
+        out["value"] = where(21)
+        try:
+            where(-1)
+        except ValueError as exc:
+            out["error"] = str(exc)
+
+    t = threading.Thread(target=worker)
+    t.start()
+    qtbot.waitUntil(lambda: not t.is_alive(), timeout=5000)
+    assert out == {"value": 42, "error": "negative"} and seen["gui"]

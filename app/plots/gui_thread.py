@@ -74,7 +74,12 @@ def on_gui_thread(fn: F) -> F:
             return fn(*args, **kwargs)
         box = _Call(fn, args, kwargs)
         _gui_caller(app).call.emit(box)
-        box.done.wait()
+        # Wait, but not past the application's end: a window closed while a report is drawn
+        # must not leave this thread waiting for an event loop that is gone (Qt waits for the
+        # thread pool when the application object goes).
+        while not box.done.wait(0.1):
+            if QtCore.QCoreApplication.closingDown() or QtCore.QCoreApplication.instance() is None:
+                raise RuntimeError("the application closed before the drawing was done")
         if box.error is not None:
             raise box.error
         return box.value
