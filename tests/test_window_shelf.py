@@ -56,7 +56,7 @@ def editor_cell(pane, row, header):
 
 def test_every_pair_has_a_word_and_a_symbol(pane, state):
     ids = active(state)
-    assert pane.verdicts.columnCount() == len(ids)
+    assert pane.verdicts.columnCount() == len(ids) + 1  # and the "why" column
     assert pane.verdicts.rowCount() == 3
     for cid in ids:
         for a in pane.amps():

@@ -30,6 +30,9 @@ class ScriptedPrompter(Prompter):
     def ask_save_path(self, parent, suggested, filters=None):
         return self._next("save_path", None)
 
+    def ask_choice(self, parent, title, label, items):
+        return self._next("choice", items[0])
+
     def ask_restore(self, parent, original, when):
         return self._next("restore", "later")
 

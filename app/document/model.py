@@ -152,12 +152,21 @@ class Document:
         """Set one part (SI units); snapped to the candidate's series when it has one."""
         entry = self._session.candidate(candidate_id)
         kind = entry_kind(entry, ref)
+        typed = value
         if entry.snap and value > 0:
             value = nearest(value, entry.snap)
         values = dict(entry.values)
         values[ref] = value
         new = replace(entry, values=values)  # validated by CandidateEntry
-        self.edit(self._session.with_candidate(new), f"{ref} of {candidate_id} = {format_value(value, part_unit(kind))}")
+        unit = part_unit(kind)
+        snapped = value != typed and abs(value - typed) > 1e-9 * abs(typed)
+        self.edit(self._session.with_candidate(new), f"{ref} of {candidate_id} = {format_value(value, unit)}")
+        if snapped:
+            # A typed value is never changed without a word.
+            self.notice.emit(
+                f"{ref} of {candidate_id}: {format_value(typed, unit)} is not in {entry.snap}; snapped to "
+                f"{format_value(value, unit)} (choose exact values or a finer series to keep it)"
+            )
 
     def set_fixed(self, candidate_id: str, ref: str, fixed: bool) -> None:
         """Keep (or free) a part when the candidate is redesigned."""
@@ -175,13 +184,26 @@ class Document:
         self.edit(self._session.with_candidate(replace(entry, pinned=pinned)), f"{'pin' if pinned else 'unpin'} {candidate_id}")
 
     def set_snap(self, candidate_id: str, series: str | None) -> None:
-        """Snap every part of a candidate to ``series`` (None: keep exact values from now on)."""
+        """Move a candidate to ``series`` (None: keep exact values from now on).
+
+        To a series, the candidate is redesigned for the target in that series (its kept parts
+        stay): rounding the present values to another series moves f0, Q and the gain. When no
+        design is possible the present values are rounded instead, and a notice says so and
+        suggests Redesign.
+        """
         entry = self._session.candidate(candidate_id)
-        values = dict(entry.values)
-        if series:
-            values = {r: (nearest(v, series) if v > 0 else v) for r, v in values.items()}
+        if not series:
+            new = replace(entry, snap=None)
+            self.edit(self._session.with_candidate(new), f"{candidate_id}: exact values")
+            return
+        designed, reason = self._designed(replace(entry, snap=series), self._session)
+        if designed is not None:
+            self.edit(self._session.with_candidate(designed), f"{candidate_id}: redesigned in {series}")
+            return
+        values = {r: (nearest(v, series) if v > 0 else v) for r, v in entry.values.items()}
         new = replace(entry, snap=series, values=values)
-        self.edit(self._session.with_candidate(new), f"{candidate_id}: {'snap to ' + series if series else 'exact values'}")
+        self.edit(self._session.with_candidate(new), f"{candidate_id}: snap to {series}")
+        self.notice.emit(f"{candidate_id}: present values rounded to {series} ({reason}); the figures may move — try Redesign")
 
     def duplicate(self, candidate_id: str) -> str:
         """Add a copy of a candidate right after it (to try a variant); returns the new id."""

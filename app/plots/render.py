@@ -8,16 +8,18 @@ A ``QApplication`` must exist; :func:`ensure_qt_app` makes one (offscreen when t
 
 from __future__ import annotations
 
+import contextlib
 import math
 import os
 import sys
-from typing import Sequence
+from typing import Iterator, Sequence
 
 import pyqtgraph as pg
 from PySide6 import QtCore, QtGui, QtWidgets
 
 from bandsmith.app.plots.axes import FrequencyAxis
 from bandsmith.app.plots.curves import Curve, PlotData
+from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.plots.palette import INK, candidate_style
 
 __all__ = [
@@ -26,6 +28,7 @@ __all__ = [
     "PlotImageWidget",
     "build_plot_widget",
     "paint_widget",
+    "quiet_size_hints",
     "image_png",
     "render_plot_png",
     "render_plots_png",
@@ -146,6 +149,36 @@ def _label(item, side: str, text: str, unit: str, *, log: bool) -> None:
         item.setLabel(side, f"{text} ({unit})" if unit else text, color=INK)
 
 
+# Emitted by Qt's platform window when a plugin (offscreen and others) cannot pass a widget's
+# size hints on to a window manager; harmless for a widget that is only painted into an image.
+_SIZE_HINTS_MESSAGE = "does not support propagateSizeHints()"
+
+
+@contextlib.contextmanager
+def quiet_size_hints() -> Iterator[None]:
+    """Drop Qt's "This plugin does not support propagateSizeHints()" messages while painting offscreen.
+
+    Only that message is dropped; every other Qt message goes on to the handler that was
+    installed before (or to stderr, as Qt's default handler would). The handler is restored on
+    exit.
+    """
+    previous = None
+
+    def handler(mode, context, message):
+        if _SIZE_HINTS_MESSAGE in message:
+            return
+        if previous is not None:
+            previous(mode, context, message)
+        else:
+            sys.stderr.write(message + "\n")
+
+    previous = QtCore.qInstallMessageHandler(handler)
+    try:
+        yield
+    finally:
+        QtCore.qInstallMessageHandler(previous)
+
+
 def paint_widget(widget: QtWidgets.QWidget, *, scale: float = 2.0) -> QtGui.QImage:
     """Paint a (possibly never shown) widget into a white ``QImage`` at ``scale`` × its size.
 
@@ -155,6 +188,11 @@ def paint_widget(widget: QtWidgets.QWidget, *, scale: float = 2.0) -> QtGui.QIma
     ``scale``).
     """
     ensure_qt_app()
+    with quiet_size_hints():
+        return _paint(widget, scale)
+
+
+def _paint(widget: QtWidgets.QWidget, scale: float) -> QtGui.QImage:
     shown_here = not widget.isVisible()
     if shown_here:
         widget.setAttribute(QtCore.Qt.WidgetAttribute.WA_DontShowOnScreen, True)
@@ -189,6 +227,7 @@ def image_png(img: QtGui.QImage) -> bytes:
     return data
 
 
+@on_gui_thread  # one plot at a time: the GUI thread is held a few tens of milliseconds each
 def render_plot_png(plot: PlotData, *, width: int = 900, height: int = 380, scale: float = 2.0) -> bytes:
     """PNG bytes of one plot, ``width`` × ``height`` logical pixels at ``scale`` (2 = sharp)."""
     w = build_plot_widget(plot, width=width, height=height, line_width=2.0 * scale)

@@ -80,11 +80,13 @@ def write_report(
     *,
     created: datetime | None = None,
     source: str | None = None,
+    progress=None,
 ) -> Path:
     """Write the report of a session (or of a session file) to ``path``: HTML or PDF by its suffix.
 
     ``source`` is the session's file name shown on the report (that of the file when a path is
-    given).
+    given). ``progress(fraction)`` is called as the sections are built; it may raise (a
+    background job's cancel) to stop before anything is written.
 
     Raises
     ------
@@ -97,5 +99,5 @@ def write_report(
         source = source or Path(session).name
         session = load_session(session)
     if kind == "pdf":
-        return write_report_pdf(session, out, created=created, source=source)
-    return write_report_html(session, out, created=created, source=source)
+        return write_report_pdf(session, out, created=created, source=source, progress=progress)
+    return write_report_html(session, out, created=created, source=source, progress=progress)

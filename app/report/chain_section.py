@@ -33,6 +33,7 @@ from bandsmith.common.values import format_rkm, format_value
 
 from bandsmith.app.document.extras_chains import EXTRAS_KEY, chain_conditions, saved_chains
 from bandsmith.app.plots.chain_plots import ChainPlots, response_title
+from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.report.cells import gbw_cell, html_table, png_img, signed, slew_text
 from bandsmith.app.report.context import ReportContext
 from bandsmith.app.report.sections import register_section
@@ -42,6 +43,7 @@ __all__ = ["section_chains", "chain_plot_png", "PLOT_ASPECT"]
 PLOT_ASPECT = 0.78  # height / width of the chain's plot image
 
 
+@on_gui_thread
 def chain_plot_png(result: Cascade, *, width: int = 900, height: int | None = None, scale: float = 2.0) -> bytes:
     """PNG bytes of a chain's plots (as the pane draws them), ``width`` × ``height`` CSS pixels."""
     from PySide6 import QtCore

@@ -34,6 +34,7 @@ from bandsmith.bench.measured import Measurement, session_measurements
 from bandsmith.bench.readoff import read_off_measurement
 from bandsmith.common.values import format_value
 
+from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.report.cells import png_img
 from bandsmith.app.report.context import CandidateReport, ReportContext
 from bandsmith.app.report.sections import register_section
@@ -97,6 +98,7 @@ def _curves(m: Measurement, c: CandidateReport, fitted_values) -> dict:
     return out
 
 
+@on_gui_thread
 def measured_plot_pngs(m: Measurement, c: CandidateReport, fitted_values=None, *, width: int = 900, height: int = 320) -> dict[str, bytes]:
     """PNG images of the measured points over the candidate's predicted response.
 

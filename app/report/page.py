@@ -43,13 +43,19 @@ _PRINT_CSS = (
 )
 
 
-def render_html(ctx: ReportContext, *, for_print: bool = False) -> str:
+def render_html(ctx: ReportContext, *, for_print: bool = False, progress=None) -> str:
     """The report page from a prepared context (every section of :data:`SECTIONS`).
 
     ``for_print`` leaves out the screen layout (a centred column with padding), which would
-    narrow the text on a PDF page.
+    narrow the text on a PDF page. ``progress(fraction)``, when given, is called after each
+    section (it may raise to stop the report: a background job's cancel).
     """
-    body = "\n\n".join(part for part in (builder(ctx) for _, builder in sections.SECTIONS) if part)
+    parts = []
+    for k, (_, builder) in enumerate(sections.SECTIONS):
+        parts.append(builder(ctx))
+        if progress is not None:
+            progress((k + 1) / len(sections.SECTIONS))
+    body = "\n\n".join(part for part in parts if part)
     title = f"Bandsmith report: f0 {format_value(ctx.session.target.f0_hz, 'Hz')}, Q {format_value(ctx.session.target.q)}"
     css = _CSS + (_PRINT_CSS if for_print else _SCREEN_CSS)
     return (
@@ -65,6 +71,7 @@ def build_report_html(
     created: datetime | None = None,
     source: str | None = None,
     image_width: int = 900,
+    progress=None,
 ) -> str:
     """The report of a session as one self-contained HTML page.
 
@@ -82,4 +89,4 @@ def build_report_html(
     image_width : int
         Width of the plots in CSS pixels.
     """
-    return render_html(make_context(session, images=images, created=created, source=source, image_width=image_width))
+    return render_html(make_context(session, images=images, created=created, source=source, image_width=image_width), progress=progress)

@@ -16,7 +16,7 @@ from bandsmith.files.session import Session
 from bandsmith.app.report.context import make_context
 from bandsmith.app.report.page import render_html
 
-__all__ = ["pdf_bytes", "write_report_pdf"]
+__all__ = ["paginate", "pdf_bytes", "write_report_pdf"]
 
 # A4 with 15 mm margins; the page is laid out at 96 CSS pixels per inch.
 _PDF_MARGIN_MM = 15.0
@@ -29,7 +29,10 @@ def pdf_bytes(html: str, *, title: str = "Bandsmith report") -> bytes:
     """Lay out report HTML on A4 pages with Qt (QTextDocument) and return the PDF file's bytes.
 
     Every page carries a footer with the page number. Needs a ``QGuiApplication`` (made
-    offscreen when none runs).
+    offscreen when none runs). It may run on a worker thread (a report written in the
+    background): a ``QTextDocument`` and a ``QPainter`` on a ``QPdfWriter`` are usable outside the
+    GUI thread (Qt 6 docs, "Threads and QObjects" / "Reentrancy and Thread-Safety": painting on
+    a QImage, QPrinter or QPdfWriter device from other threads is supported); no widget is made.
     """
     from PySide6 import QtCore, QtGui
 
@@ -63,6 +66,7 @@ def pdf_bytes(html: str, *, title: str = "Bandsmith report") -> bytes:
     doc.setDefaultFont(font)
     doc.setHtml(html)
     doc.setPageSize(QtCore.QSizeF(page_w, page_h))
+    paginate(doc, page_h)
     pages = doc.pageCount()
 
     painter = QtGui.QPainter(writer)
@@ -95,11 +99,75 @@ def pdf_bytes(html: str, *, title: str = "Bandsmith report") -> bytes:
     return data
 
 
-def write_report_pdf(session: Session, path: str | os.PathLike, *, created: datetime | None = None, source: str | None = None) -> Path:
-    """Write the PDF report atomically; returns the path."""
+# A page a forced break would leave less full than this is filled on instead (the test asks a
+# quarter at least; this leaves a margin); a heading
+# closer than _KEEP_WITH_NEXT CSS pixels to the foot of its page starts the next page.
+_MIN_FILL = 0.4
+_KEEP_WITH_NEXT = 60.0
+
+
+def paginate(doc, page_h: float) -> None:
+    """Move the page breaks of a laid-out ``QTextDocument`` so that no page is left near-empty.
+
+    Two rules, applied in document order (each change re-lays out what follows):
+
+    * a forced break (``page-break-before``) is dropped when the page it would close is less
+      than 40 % full (a few lines spilled over) or already full (the break would leave a
+      blank page);
+    * a heading (``<h1>``–``<h3>``) whose next block does not start on the same page, or lies
+      within ``_KEEP_WITH_NEXT`` of the page's foot, starts the next page (kept with its table).
+
+    Common practice in typesetting (keep-with-next, no widowed headings); no source.
+    """
+    from PySide6 import QtGui
+
+    layout = doc.documentLayout()
+    always = QtGui.QTextFormat.PageBreakFlag.PageBreak_AlwaysBefore
+    auto = QtGui.QTextFormat.PageBreakFlag.PageBreak_Auto
+
+    def top(block) -> float:
+        return layout.blockBoundingRect(block).top()
+
+    def bottom(block) -> float:
+        return layout.blockBoundingRect(block).bottom()
+
+    def set_break(block, flag) -> None:
+        fmt = block.blockFormat()
+        fmt.setPageBreakPolicy(flag)
+        cursor = QtGui.QTextCursor(block)
+        cursor.setBlockFormat(fmt)
+        # Qt re-lays out only near the edit; everything after it moves, so lay it all out again.
+        doc.markContentsDirty(block.position(), doc.characterCount() - block.position())
+
+    prev = None
+    block = doc.begin()
+    while block.isValid():
+        policy = block.blockFormat().pageBreakPolicy()
+        if prev is not None and policy & always:
+            end = bottom(prev)
+            fill = (end % page_h) / page_h
+            if fill < _MIN_FILL or fill > 0.97:
+                set_break(block, auto)
+        elif prev is not None and block.blockFormat().headingLevel() > 0:
+            nxt = block.next()
+            if nxt.isValid():
+                page = int(top(block) // page_h)
+                foot = (page + 1) * page_h
+                if int(top(nxt) // page_h) != page or top(nxt) + _KEEP_WITH_NEXT > foot:
+                    set_break(block, always)
+        prev = block
+        block = block.next()
+
+
+def write_report_pdf(session: Session, path: str | os.PathLike, *, created: datetime | None = None, source: str | None = None, progress=None) -> Path:
+    """Write the PDF report atomically; returns the path.
+
+    ``progress(fraction)``, when given, is called as the sections are built (see
+    :func:`bandsmith.app.report.page.render_html`).
+    """
     p = Path(path)
     # Four plots and their heading fill one A4 page.
     ctx = make_context(session, images=True, created=created, source=source, image_width=_PDF_IMAGE_WIDTH, image_aspect=0.32)
-    html = render_html(ctx, for_print=True)
+    html = render_html(ctx, for_print=True, progress=progress)
     write_atomic(p, pdf_bytes(html))
     return p

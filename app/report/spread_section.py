@@ -32,6 +32,7 @@ from bandsmith.spread.tolerance import Spread, run_spread
 from bandsmith.common.values import format_value
 
 from bandsmith.app.document.extras_settings import spread_for_circuit, stored_noise, stored_spread
+from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.report.cells import html_table, png_img
 from bandsmith.app.report.context import ReportContext
 from bandsmith.app.report.sections import register_section
@@ -250,6 +251,7 @@ def _paint_png(widget, width: int, height: int) -> bytes:
         widget.deleteLater()
 
 
+@on_gui_thread
 def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 270) -> bytes:
     """PNG of the three histograms (f0, Q, centre gain) of a spread, in the candidate's colour."""
     from bandsmith.app.plots.render import ensure_qt_app
@@ -276,6 +278,7 @@ def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 27
     return _paint_png(box, width, height)
 
 
+@on_gui_thread
 def noise_density_png(items: Sequence[tuple[str, int, NoiseResult]], *, width: int = 900, height: int = 340) -> bytes:
     """PNG of the output noise density (V/√Hz, log-log) of several candidates ``(label, index, result)``."""
     from bandsmith.app.plots.axes import FrequencyAxis, LogAxis

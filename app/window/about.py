@@ -57,12 +57,13 @@ def _native(seq: QtGui.QKeySequence) -> str:
 
 
 def _typed(seq: QtGui.QKeySequence) -> bool:
-    """True for a binding on a letter or function key (not a dedicated "Undo" or "Open" key)."""
+    """True for a binding on a letter or on F1–F12 (not a dedicated "Undo" or "Open" key, nor the
+    F13–F35 some platforms bind for keyboards that have them: X11 binds Undo to F14)."""
     if seq.isEmpty():
         return False
     key = seq[0].key()
     Key = QtCore.Qt.Key
-    return Key.Key_A.value <= key.value <= Key.Key_Z.value or Key.Key_F1.value <= key.value <= Key.Key_F35.value
+    return Key.Key_A.value <= key.value <= Key.Key_Z.value or Key.Key_F1.value <= key.value <= Key.Key_F12.value
 
 
 def default_shortcuts() -> list[tuple[str, str]]:
@@ -76,12 +77,22 @@ def default_shortcuts() -> list[tuple[str, str]]:
     return out
 
 
+# Actions whose text changes as the user works (an undo stack's "Undo import measurement …"):
+# the help lists them under a fixed name, by the action's object name.
+_FIXED_NAMES = {"actUndo": "Undo", "actRedo": "Redo"}
+
+
 def shortcuts_of(widget: QtWidgets.QWidget) -> list[tuple[str, str]]:
-    """Every action of ``widget`` (and its children) that has a shortcut, as ``(text, keys)``."""
+    """Every action of ``widget`` (and its children) that has a shortcut, as ``(name, keys)``.
+
+    The name is the action's fixed name (:data:`_FIXED_NAMES`, or a ``helpName`` property), else
+    its menu text without the mnemonic ``&`` and the trailing ellipsis.
+    """
     seen: dict[str, str] = {}
     for action in widget.findChildren(QtGui.QAction):
-        keys = [_native(s) for s in action.shortcuts() if _typed(s)]
-        text = action.text().replace("&&", "\0").replace("&", "").replace("\0", "&").rstrip(".… ")
+        keys = list(dict.fromkeys(_native(s) for s in action.shortcuts() if _typed(s)))
+        fixed = action.property("helpName") or _FIXED_NAMES.get(action.objectName())
+        text = fixed or action.text().replace("&&", "\0").replace("&", "").replace("\0", "&").rstrip(".… ")
         if keys and text and text not in seen:
             seen[text] = ", ".join(keys)
     return list(seen.items())

@@ -39,11 +39,15 @@ class _Runnable(QtCore.QRunnable):
         try:
             result = self._work(self._signals.progress.emit, self._flag.is_set)
         except Cancelled:
-            self._signals.done.emit(None, "", True)
+            done = (None, "", True)
         except Exception as exc:  # reported, never raised into Qt
-            self._signals.done.emit(None, f"{type(exc).__name__}: {exc}", False)
+            done = (None, f"{type(exc).__name__}: {exc}", False)
         else:
-            self._signals.done.emit(result, "", self._flag.is_set())
+            done = (result, "", self._flag.is_set())
+        try:
+            self._signals.done.emit(*done)
+        except RuntimeError:  # the window (and the signals' object) went while the job ran
+            pass
 
 
 class BackgroundJob(QtCore.QObject):

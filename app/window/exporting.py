@@ -28,9 +28,57 @@ __all__ = [
     "export_parts_csv",
     "export_response_csv",
     "export_netlist",
+    "with_chosen_suffix",
+    "PNG_SCALES",
+    "report_job",
 ]
 
 IMAGE_SUFFIXES = (".png", ".svg")
+
+
+def with_chosen_suffix(path: str, chosen_filter: str | None) -> str:
+    """``path`` with the suffix of the file type chosen in a save dialog, when it has none of them.
+
+    ``chosen_filter`` is the dialog's selected filter, e.g. ``"PDF report (*.pdf)"``; the
+    suffixes are its ``*.ext`` patterns. A name already ending in one of them (in any case) is
+    kept; a name with no suffix or another one gets the filter's first (``myreport`` →
+    ``myreport.pdf``). A filter of every file (``*``) leaves the name alone.
+    """
+    import re
+
+    if not path or not chosen_filter:
+        return path
+    suffixes = [s.lower() for s in re.findall(r"\*(\.[\w.]+)", chosen_filter)]
+    if not suffixes:
+        return path
+    name = Path(path).name.lower()
+    if any(name.endswith(s) for s in suffixes):
+        return path
+    return path + suffixes[0]
+
+
+def report_job(session: Session, path: str):
+    """A :class:`~bandsmith.app.window.background.BackgroundJob` writing the report of ``session``.
+
+    The candidates are analysed, the spreads and noise computed and the HTML assembled on the
+    worker thread; only the drawing of the plots (and the PDF's page layout) is handed to the
+    GUI thread (:func:`bandsmith.app.plots.gui_thread.on_gui_thread`), a few hundred
+    milliseconds in all. Progress follows the report's sections; Cancel stops at the next
+    section and nothing is written.
+    """
+    from bandsmith.app.report.builder import write_report
+    from bandsmith.app.window.background import BackgroundJob, Cancelled
+
+    def work(progress, cancelled):
+        def step(fraction: float) -> None:
+            if cancelled():
+                raise Cancelled()
+            progress(0.05 + 0.9 * fraction)
+
+        progress(0.02)
+        return write_report(session, path, progress=step)
+
+    return BackgroundJob(work, f"Writing {Path(path).name}")
 
 
 def write_atomic(path: str | os.PathLike, data: bytes | str) -> Path:
@@ -56,10 +104,49 @@ def write_atomic(path: str | os.PathLike, data: bytes | str) -> Path:
 # --------------------------------------------------------------------------- images
 
 
-def widget_png(widget) -> bytes:
-    """PNG bytes of a widget as it is drawn (``grab()``: its size × the screen's pixel ratio)."""
-    from PySide6 import QtCore
+#: The resolutions offered for a PNG export: name → scale (image pixels per widget pixel).
+PNG_SCALES = {
+    "screen size (1×)": 1.0,
+    "sharp on paper (2×)": 2.0,
+    "large print (4×)": 4.0,
+}
+_TITLE_PX = 30  # height of the title band, in widget pixels (scaled with the image)
 
+
+def widget_png(widget, *, scale: float | None = None, title: str | None = None) -> bytes:
+    """PNG bytes of a widget.
+
+    Without ``scale`` and ``title``: as it is drawn (``grab()``: its size × the screen's pixel
+    ratio). With ``scale``, the widget is painted afresh at ``scale`` × its size (text and
+    lines drawn sharp, :func:`bandsmith.app.plots.render.paint_widget`); with ``title``, a band
+    above the widget carries the title in bold.
+    """
+    from PySide6 import QtCore, QtGui
+
+    if scale is not None or title:
+        from bandsmith.app.plots.render import image_png, paint_widget
+
+        s = float(scale or 1.0)
+        body = paint_widget(widget, scale=s)
+        if not title:
+            return image_png(body)
+        band = round(_TITLE_PX * s)
+        img = QtGui.QImage(body.width(), body.height() + band, QtGui.QImage.Format.Format_ARGB32)
+        img.fill(QtGui.QColor("white"))
+        p = QtGui.QPainter(img)
+        try:
+            p.setRenderHint(QtGui.QPainter.RenderHint.TextAntialiasing, True)
+            font = QtGui.QFont(widget.font())
+            font.setBold(True)
+            font.setPixelSize(max(8, round(15 * s)))
+            p.setFont(font)
+            p.setPen(QtGui.QColor("#202124"))
+            p.drawText(QtCore.QRect(round(10 * s), 0, body.width() - round(20 * s), band), int(QtCore.Qt.AlignmentFlag.AlignLeft | QtCore.Qt.AlignmentFlag.AlignVCenter), title)
+            body.setDevicePixelRatio(1.0)
+            p.drawImage(0, band, body)
+        finally:
+            p.end()
+        return image_png(img)
     pixmap = widget.grab()
     buf = QtCore.QBuffer()
     buf.open(QtCore.QIODevice.OpenModeFlag.WriteOnly)
@@ -119,8 +206,11 @@ def widget_svg(widget, *, title: str = "Bandsmith plot", description: str = "") 
     return data
 
 
-def export_plot_image(widget, path: str | os.PathLike, *, title: str | None = None) -> Path:
+def export_plot_image(widget, path: str | os.PathLike, *, title: str | None = None, scale: float | None = None) -> Path:
     """Save a plot (any widget) as PNG or SVG, chosen by the suffix of ``path``; returns the path.
+
+    A PNG is drawn at ``scale`` × the widget's size with ``title`` above it when these are given
+    (:func:`widget_png`), else as on screen.
 
     Raises
     ------
@@ -132,7 +222,7 @@ def export_plot_image(widget, path: str | os.PathLike, *, title: str | None = No
     if suffix not in IMAGE_SUFFIXES:
         raise InputError("output", f"{p.name!r} must end in .png or .svg (got {suffix or 'no suffix'})")
     if suffix == ".png":
-        data = widget_png(widget)
+        data = widget_png(widget, scale=scale, title=title) if (scale is not None or title) else widget_png(widget)
     else:
         name = title or widget.objectName() or "plot"
         data = widget_svg(widget, title=f"Bandsmith: {name}")

@@ -441,8 +441,20 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
     def export_plots(self) -> None:
         fn = self._helper("exporting", "export_plot_image")
         path = self.prompter.ask_save_path(self, str(Path.home() / f"{self._stem()}-plots.png"), _IMAGE_FILTER)
-        if path:
-            self._run_export(lambda: fn(self.plot_grid, path), path)
+        if not path:
+            return
+        from bandsmith.common.values import format_value
+
+        t = self.state.session.target
+        title = f"{self._display_name()} — target f0 {format_value(t.f0_hz, 'Hz')}, Q {format_value(t.q)}, gain {format_value(t.gain)}"
+        scale = None
+        if Path(path).suffix.lower() == ".png":
+            scales = self._helper("exporting", "PNG_SCALES")
+            choice = self.prompter.ask_choice(self, "PNG resolution", "Resolution of the image:", list(scales))
+            if choice is None:
+                return
+            scale = scales[choice]
+        self._run_export(lambda: fn(self.plot_grid, path, title=title, scale=scale), path)
 
     def _export_candidate(self, what: str) -> None:
         cid = self.state.current_id
@@ -460,10 +472,18 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
             self._run_export(lambda: fn(self.state.session, cid, path), path)
 
     def write_report(self) -> None:
-        fn = self._helper("report", "write_report")
         path = self.prompter.ask_save_path(self, str(Path.home() / f"{self._stem()}-report.html"), _REPORT_FILTER)
-        if path:
-            self._run_export(lambda: fn(self.state.session, path), path)
+        if not path:
+            return
+        if Path(path).suffix.lower() not in (".html", ".htm", ".pdf"):
+            self.prompter.error(self, "Report not written", f"A report is written as HTML (.html) or PDF (.pdf); choose one of these types for {Path(path).name}.")
+            return
+        # Written in the background: progress and Cancel in the status bar, the window stays usable.
+        job = self._helper("exporting", "report_job")(self.state.session, path)
+        job.finished.connect(lambda _p: self.statusBar().showMessage(f"Wrote {path}", 5000))
+        job.failed.connect(lambda text: self.prompter.error(self, "Report not written", text.split(": ", 1)[-1]))
+        job.cancelled.connect(lambda: self.statusBar().showMessage("Report cancelled; nothing written", 5000))
+        self.report_job = self.run_job(job)
 
     def _run_export(self, call, path: str) -> None:
         # A report takes a second or two on the GUI thread (its plots are drawn with Qt): say so

@@ -37,8 +37,11 @@ class Prompter:
         return path or None
 
     def ask_save_path(self, parent: QtWidgets.QWidget, suggested: str, filters: str = SESSION_FILTER) -> str | None:
-        path, _ = QtWidgets.QFileDialog.getSaveFileName(parent, "Save as", suggested, filters)
-        return path or None
+        from bandsmith.app.window.exporting import with_chosen_suffix
+
+        path, chosen = QtWidgets.QFileDialog.getSaveFileName(parent, "Save as", suggested, filters)
+        # The file type chosen in the dialog gives the suffix when the name has none of its own.
+        return with_chosen_suffix(path, chosen) or None
 
     def ask_restore(self, parent: QtWidgets.QWidget, original: str, when: str) -> str:
         """A recovery copy exists: returns ``"restore"``, ``"discard"`` or ``"later"``."""
@@ -55,6 +58,11 @@ class Prompter:
         box.exec()
         clicked = box.clickedButton()
         return "restore" if clicked is restore else "discard" if clicked is discard else "later"
+
+    def ask_choice(self, parent: QtWidgets.QWidget, title: str, label: str, items: list[str]) -> str | None:
+        """One of ``items`` (the first preselected), or None when cancelled."""
+        item, ok = QtWidgets.QInputDialog.getItem(parent, title, label, items, 0, False)
+        return item if ok else None
 
     def error(self, parent: QtWidgets.QWidget, title: str, text: str) -> None:
         QtWidgets.QMessageBox.warning(parent, title, text)

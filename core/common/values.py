@@ -30,6 +30,7 @@ __all__ = [
     "parse_positive",
     "parse_nonnegative",
     "parse_fraction",
+    "value_hint",
     "format_value",
     "format_rkm",
     "UNPREFIXED_UNITS",
@@ -37,6 +38,28 @@ __all__ = [
 ]
 
 _HINT = "try 4k7, 4700 or 4.7e3"
+# Examples that fit the field's unit (a GBW is not told to try a resistor code).
+_UNIT_HINTS = {
+    "Ω": _HINT,
+    "F": "try 10n, 10nF or 1e-8",
+    "H": "try 10m, 10mH or 0.01",
+    "Hz": "try 2k, 2kHz or 2e3",
+    "V": "try 15, 15V or 1.5e1",
+    "A": "try 10m, 10mA or 0.01",
+    "s": "try 1m, 1ms or 1e-3",
+    "dB": "try 0.5, 3 or 1e1",
+    "V/√Hz": "try 10n, 10nV or 1e-8",
+    "A/√Hz": "try 1p, 1pA or 1e-12",
+    "V/µs": "try 13, 0.5 or 1e1",
+    "K": "try 300 or 3e2",
+}
+
+
+def value_hint(unit: str | None = None) -> str:
+    """Examples of notation for a field of ``unit`` (``"Hz"``, ``"F"``, …); resistor codes when None."""
+    if unit is None:
+        return _HINT
+    return _UNIT_HINTS.get(unit, "try 2.5, 2500 or 2.5e3")
 
 # Decimal exponent of each SI prefix and RKM letter. "u" is the ASCII spelling of micro.
 _PREFIX_EXP = {
@@ -124,6 +147,7 @@ def parse_value(text: str | float | int, *, field: str, unit: str | None = None)
         The unit the field is in (``"Ω"``, ``"F"``, ``"H"``, ``"Hz"``, ...; see :data:`KIND_UNITS`
         for parts). A value written with another unit (``"10nF"`` for a resistor, ``"1MEGA"``,
         one megaampere, for a capacitor) is refused; without ``unit`` any unit is read and ignored.
+        The examples of an error message fit it too (:func:`value_hint`).
 
     Returns
     -------
@@ -140,10 +164,10 @@ def parse_value(text: str | float | int, *, field: str, unit: str | None = None)
     if isinstance(text, numbers.Real) and not isinstance(text, bool):
         return _from_number(text, field)
     if not isinstance(text, str):
-        raise InputError(field, f"{type(text).__name__} is not a value; {_HINT}")
+        raise InputError(field, f"{type(text).__name__} is not a value; {value_hint(unit)}")
     s = _normalise(text)
     if not s:
-        raise InputError(field, f"no value given; {_HINT}")
+        raise InputError(field, f"no value given; {value_hint(unit)}")
     m = _PLAIN_RE.fullmatch(s)
     if m and (m["int"] or m["frac"]):
         prefix = m["prefix"] or ""
@@ -154,7 +178,7 @@ def parse_value(text: str | float | int, *, field: str, unit: str | None = None)
         if not (m and (m["int"] or m["frac"])):
             if s.lstrip("+-").lower() in _NON_FINITE:
                 raise InputError(field, f'"{_shown(text)}" is not a finite number')
-            raise InputError(field, f'"{_shown(text)}" is not a value; {_HINT}')
+            raise InputError(field, f'"{_shown(text)}" is not a value; {value_hint(unit)}')
         x = _decimal(m["sign"], m["int"], m["frac"], _RKM_EXP[m["letter"]])
     if unit is not None and m["unit"] and _canonical_unit(m["unit"]) != unit:
         got = _canonical_unit(m["unit"])
@@ -166,7 +190,7 @@ def parse_value(text: str | float | int, *, field: str, unit: str | None = None)
     return x + 0.0
 
 
-def parse_positive(text: str | float | int, *, field: str) -> float:
+def parse_positive(text: str | float | int, *, field: str, unit: str | None = None) -> float:
     """Read a value as :func:`parse_value` does and require it to be greater than zero.
 
     Raises
@@ -174,13 +198,13 @@ def parse_positive(text: str | float | int, *, field: str) -> float:
     InputError
         As :func:`parse_value`, or with reason ``"must be greater than zero"``.
     """
-    x = parse_value(text, field=field)
+    x = parse_value(text, field=field, unit=unit)
     if not x > 0:
         raise InputError(field, "must be greater than zero")
     return x
 
 
-def parse_nonnegative(text: str | float | int, *, field: str) -> float:
+def parse_nonnegative(text: str | float | int, *, field: str, unit: str | None = None) -> float:
     """Read a value as :func:`parse_value` does and require it to be zero or more.
 
     Raises
@@ -188,7 +212,7 @@ def parse_nonnegative(text: str | float | int, *, field: str) -> float:
     InputError
         As :func:`parse_value`, or with reason ``"must not be negative"``.
     """
-    x = parse_value(text, field=field)
+    x = parse_value(text, field=field, unit=unit)
     if x < 0:
         raise InputError(field, "must not be negative")
     return x

@@ -123,6 +123,20 @@ class ChainForm(QtWidgets.QGroupBox):
         t = session.target
         self.set_settings(ChainSettings.from_request("butterworth", 4, f0_hz=t.f0_hz, bw_hz=t.f0_hz / t.q, gain=t.gain, series=t.series))
 
+    def follow_target(self, session: Session) -> None:
+        """Put the target's band, gain and series in the form (the response, the number of
+        stages and the circuit stay as they are)."""
+        t = session.target
+        from bandsmith.chain.bandpass import band_from
+
+        band = band_from(f0_hz=t.f0_hz, bw_hz=t.f0_hz / t.q)  # as load_defaults (ChainSettings.from_request)
+        self._band = (band.f_low_hz, band.f_high_hz)
+        self._show_band()
+        self.gain_field.set_value(t.gain)
+        index = self.series_combo.findData(t.series)
+        if index >= 0:
+            self.series_combo.setCurrentIndex(index)
+
     def set_settings(self, s: ChainSettings) -> None:
         """Show a chain's request in the form."""
         self.response_combo.setCurrentIndex(self.response_combo.findData(s.response))

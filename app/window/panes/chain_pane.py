@@ -335,6 +335,12 @@ class ChainPane(QtWidgets.QWidget):
 
     # ------------------------------------------------------------------ following the session
     def _on_session_changed(self, session: Session) -> None:
+        # The "New chain" form follows the target: a new f0, Q, gain or series is put in it.
+        t = session.target
+        target = (t.f0_hz, t.q, t.gain, t.series)
+        if getattr(self, "_form_target", target) != target:
+            self.form.follow_target(session)
+        self._form_target = target
         chains, problems = saved_chains(session)
         ids = [c.id for c in chains]
         want = self._want_id or (self._shown_id if self._shown is not None else None)

@@ -32,6 +32,7 @@ from bandsmith.analysis.noise import NoiseResult, NoiseSettings, output_noise
 from bandsmith.common.values import format_value, parse_nonnegative, parse_positive, parse_value
 
 from bandsmith.app.document.extras_settings import NOISE_KEY, stored_noise
+from bandsmith.app.document.extras_shelf import SESSION_KEY as SHELF_KEY, session_amps
 from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.panes.spread_pane import CandidatePicker, candidate_circuit, winding_text
@@ -55,16 +56,49 @@ _VIEW_DECADES = 2.0
 _RTHZ = re.compile(r"\s*/\s*(√\s*\(?\s*hz\s*\)?|rt\s*hz|sqrt\s*\(?\s*hz\s*\)?)\s*$", re.IGNORECASE)
 
 
+_DEFAULT_NOISE = NoiseSettings()
+
+
+def chosen_amp(session, candidate_id: str | None):
+    """The shelf model kept in the session as chosen for ``candidate_id`` (``extras["shelf"]``), or None."""
+    sec = session.extras.get(SHELF_KEY)
+    if not candidate_id or not isinstance(sec, dict) or not isinstance(sec.get("chosen"), dict):
+        return None
+    name = sec["chosen"].get(candidate_id)
+    if not isinstance(name, str):
+        return None
+    return next((a for a in session_amps(session) if a.name.casefold() == name.casefold()), None)
+
+
+def noise_sources(session, candidate_id: str | None) -> tuple[NoiseSettings, str]:
+    """The noise settings the pane computes with for a candidate, and where en and in come from.
+
+    Values typed in the pane (anything but the placeholders 10 nV/√Hz, 1 pA/√Hz) are used as
+    typed; otherwise the shelf model chosen for the candidate gives its datasheet en and in;
+    without one the placeholders are used and said to be placeholders.
+    """
+    s = stored_noise(session).settings
+    typed = (s.en_v_per_rthz, s.in_a_per_rthz) != (_DEFAULT_NOISE.en_v_per_rthz, _DEFAULT_NOISE.in_a_per_rthz)
+    if typed:
+        return s, "en, in as typed here."
+    amp = chosen_amp(session, candidate_id)
+    if amp is not None:
+        en, i_n = amp.en_nv_rthz, amp.in_pa_rthz
+        if all(isinstance(v, (int, float)) and math.isfinite(v) and v >= 0 for v in (en, i_n)):
+            return replace(s, en_v_per_rthz=en * 1e-9, in_a_per_rthz=i_n * 1e-12), f"en, in from {amp.name}, the shelf model chosen for {candidate_id}."
+    return s, "en, in are placeholders: choose an op-amp on the shelf, or type its datasheet's."
+
+
 def _strip_rthz(text: str) -> str:
     return _RTHZ.sub("", text)
 
 
 def _parse_en(text: str) -> float:
-    return parse_nonnegative(_strip_rthz(text), field="en")
+    return parse_nonnegative(_strip_rthz(text), field="en", unit="V")  # the density per √Hz, its "/√Hz" stripped
 
 
 def _parse_in(text: str) -> float:
-    return parse_nonnegative(_strip_rthz(text), field="in")
+    return parse_nonnegative(_strip_rthz(text), field="in", unit="A")  # the density per √Hz, its "/√Hz" stripped
 
 
 def _parse_temperature(text: str) -> float:
@@ -203,6 +237,11 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         )
         for f in self.fields.values():
             f.edit.setMaximumWidth(130)
+        self.noise_source = QtWidgets.QLabel(box)
+        self.noise_source.setObjectName("noiseSource")
+        self.noise_source.setMinimumHeight(self.noise_source.fontMetrics().height() + 2)
+        self.noise_source.setStyleSheet(f"color: {MUTED};")
+        grid.addWidget(self.noise_source, 3, 0, 1, 5)
         labels = {"en": "Voltage noise en", "in": "Current noise in", "temp": "Temperature", "f1": "Band from", "f2": "to"}
         for i, key in enumerate(("en", "in", "temp")):
             grid.addWidget(QtWidgets.QLabel(labels[key], box), i, 0)
@@ -380,6 +419,10 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
             self.computed.emit()
             return
         net, opamp = circ
+        s, where = noise_sources(self.state.session, cid)
+        self.noise_source.setText(where)
+        self.fields["en"].set_value(s.en_v_per_rthz)
+        self.fields["in"].set_value(s.in_a_per_rthz)
         entry = self.state.session.candidate(cid)
         key = (entry.topology_id, tuple(sorted(entry.values.items())), opamp, s, vin)
         if key != self._key:

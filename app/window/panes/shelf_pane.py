@@ -64,6 +64,25 @@ class _FramedSelection(QtWidgets.QStyledItemDelegate):
             painter.restore()
 
 
+def reasons_text(pairs) -> str:
+    """The reasons of one model's verdicts over the candidates ``(candidate id, Verdict)``, in words.
+
+    A reason every candidate shares is said once ("the ±15 V supply … is above its largest,
+    5.5 V"); the others are prefixed with their candidate. A model that fits every candidate says
+    so. Reasons of a "fits" verdict (its comfortable margins) are left out.
+    """
+    if not pairs:
+        return ""
+    if all(v.verdict == FITS for _, v in pairs):
+        return "fits every candidate"
+    lists = [(cid, [r for r in v.reasons] if v.verdict != FITS else []) for cid, v in pairs]
+    common = [r for r in lists[0][1] if all(r in rs for _, rs in lists)]
+    parts = list(common)
+    for cid, rs in lists:
+        parts += [f"{cid}: {r}" for r in rs if r not in common]
+    return "; ".join(parts)
+
+
 class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
     """The shelf pane over a workbench state and a shelf.
 
@@ -406,8 +425,8 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         try:
             self.verdicts.clear()
             self.verdicts.setRowCount(len(amps))
-            self.verdicts.setColumnCount(len(cands))
-            self.verdicts.setHorizontalHeaderLabels([c.id for c in cands])
+            self.verdicts.setColumnCount(len(cands) + 1)
+            self.verdicts.setHorizontalHeaderLabels([c.id for c in cands] + ["why"])
             for j, c in enumerate(cands):
                 head = self.verdicts.horizontalHeaderItem(j)
                 style = self.state.style(c.id)
@@ -430,7 +449,19 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
                     f.setBold(v.verdict != FITS)
                     item.setFont(f)
                     self.verdicts.setItem(i, j, item)
+            why_col = len(cands)
+            self.verdicts.horizontalHeaderItem(why_col).setToolTip("The reasons behind each model's verdicts, in words (the same as in each cell's tooltip).")
+            for i, a in enumerate(amps):
+                text = reasons_text([(c.id, self._reports[c.id].verdict(a.name)) for c in cands])
+                item = QtWidgets.QTableWidgetItem(text)
+                item.setFlags(QtCore.Qt.ItemFlag.ItemIsEnabled)
+                item.setToolTip(text)
+                self.verdicts.setItem(i, why_col, item)
             self.verdicts.resizeColumnsToContents()
+            self.verdicts.setWordWrap(True)
+            self.verdicts.setColumnWidth(why_col, max(260, min(self.verdicts.columnWidth(why_col), 520)))
+            self.verdicts.horizontalHeader().setStretchLastSection(True)
+            self.verdicts.resizeRowsToContents()
             if self._chosen is not None:
                 pos = self._position(*self._chosen)
                 if pos is None:
@@ -460,8 +491,8 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
     # ------------------------------------------------------------------ the chosen pair
     def _on_verdict_cell(self, row: int, col: int, _prow: int, _pcol: int) -> None:
         it = self.verdicts.item(row, col) if row >= 0 and col >= 0 else None
-        if it is None:
-            return
+        if it is None or it.data(QtCore.Qt.ItemDataRole.UserRole) is None:
+            return  # the "why" column: nothing to choose
         cid, name = it.data(QtCore.Qt.ItemDataRole.UserRole)
         self.choose(cid, name)
 

@@ -75,6 +75,19 @@ _RESULT_WIDGETS = (
 )
 
 
+def window_note(settings, tolerances) -> str:
+    """A line on how the yield window relates to the design tolerances (the target strip's)."""
+    win = f"±{100 * settings.window_f0:g} % f0, ±{100 * settings.window_q:g} % Q, ±{settings.window_gain_db:g} dB"
+    des = f"±{100 * tolerances.f0:g} %, ±{100 * tolerances.q:g} %, ±{tolerances.gain_db:g} dB"
+    same = (settings.window_f0, settings.window_q, settings.window_gain_db) == (tolerances.f0, tolerances.q, tolerances.gain_db)
+    if same:
+        return f"Yield window {win}: the same as the design tolerances (top strip)."
+    return (
+        f"Yield window {win}, around the design's nominal: how far built copies may spread from it. "
+        f"The design tolerances in the top strip ({des}) judge the design against the target; they differ."
+    )
+
+
 # ---------------------------------------------------------------------------------------------
 # A candidate chooser shared with the noise pane
 # ---------------------------------------------------------------------------------------------
@@ -330,6 +343,13 @@ class SpreadPane(QtWidgets.QScrollArea):
         grid.addWidget(self.fields["window_q"], 5, 3)
         grid.addWidget(QtWidgets.QLabel("Gain ±", box), 6, 0)
         grid.addWidget(self.fields["window_gain_db"], 6, 1)
+        # The yield window is a production window on the spread of built copies; the design
+        # tolerances (target strip) judge one design against the target: say how they differ.
+        self.window_note = QtWidgets.QLabel(box)
+        self.window_note.setObjectName("yieldWindowNote")
+        self.window_note.setWordWrap(True)
+        self.window_note.setStyleSheet(f"color: {MUTED};")
+        grid.addWidget(self.window_note, 7, 0, 1, 4)
 
     def _build_parts_box(self, body: QtWidgets.QWidget) -> QtWidgets.QGroupBox:
         """The table of per-part tolerances."""
@@ -441,6 +461,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         for key in ("gbw_tol", "trials", "seed", "window_f0", "window_q", "window_gain_db"):
             self.fields[key].set_value(getattr(s, key))
         self.dist.setCurrentIndex(self.dist.findData(s.dist))
+        self.window_note.setText(window_note(s, self.state.session.tolerances))
         circ = candidate_circuit(self.state, self.picker.candidate_id)
         ideal = circ is None or circ[1].ideal
         text = winding_text(*circ) if circ is not None else ""
@@ -647,7 +668,8 @@ class SpreadPane(QtWidgets.QScrollArea):
         if drawn is not None and drawn[0] is run and drawn[1] == colour and ENVELOPE_KEY in plot.envelopes:
             return  # already drawn
         env = run.envelope
-        plot.set_envelope(ENVELOPE_KEY, env.f_hz, env.magnitude_db[0], env.magnitude_db[-1], colour=colour)
+        # A new envelope moves the view to the pass band, where the band is wide enough to see.
+        plot.set_envelope(ENVELOPE_KEY, env.f_hz, env.magnitude_db[0], env.magnitude_db[-1], colour=colour, zoom=drawn is None or drawn[0] is not run)
         self._envelope_of = (run, colour)
 
     # ------------------------------------------------------------------ layout

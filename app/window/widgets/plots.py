@@ -169,14 +169,48 @@ class CandidatePlot(pg.PlotWidget):
     def _on_mouse_moved(self, pos: QtCore.QPointF) -> None:
         vb = self.getPlotItem().getViewBox()
         if not vb.sceneBoundingRect().contains(pos):
+            self.cursor_text.emit("")  # over the axes or the title: no value to read
             return
         p = vb.mapSceneToView(pos)
         x, y = p.x(), p.y()
+        snapped = self.nearest_point(x, y)
+        who = ""
+        if snapped is not None:  # within a few pixels of a curve: read the curve, not the cursor
+            who, x, y = snapped
+            who += " — "
         if self.log_x:
             x = 10.0**x
         if self.log_y:
             y = 10.0**y
-        self.cursor_text.emit(f"{self.title}: {self._readout(x, y)}")
+        self.cursor_text.emit(f"{self.title}: {who}{self._readout(x, y)}")
+
+    SNAP_PX = 10.0
+
+    def nearest_point(self, x: float, y: float):
+        """The curve point nearest the view point (x, y) (view coordinates, log10 on log axes),
+        as ``(candidate id, x, y)``, when it lies within :attr:`SNAP_PX` screen pixels; else None."""
+        vb = self.getPlotItem().getViewBox()
+        px, py = vb.viewPixelSize()
+        if not (px > 0 and py > 0):
+            return None
+        best = None
+        for cid, curve in self.curves.items():
+            cx, cy = curve.getData()
+            if cx is None or len(cx) == 0:
+                continue
+            cx = np.asarray(cx, dtype=float)
+            cy = np.asarray(cy, dtype=float)
+            d2 = ((cx - x) / px) ** 2 + ((cy - y) / py) ** 2
+            d2 = np.where(np.isfinite(d2), d2, np.inf)
+            i = int(np.argmin(d2))
+            if d2[i] <= self.SNAP_PX**2 and (best is None or d2[i] < best[0]):
+                best = (float(d2[i]), cid, float(cx[i]), float(cy[i]))
+        return None if best is None else best[1:]
+
+    def leaveEvent(self, event) -> None:  # noqa: N802 - Qt's name
+        # The read-out belongs to the point under the mouse: gone when the mouse leaves.
+        self.cursor_text.emit("")
+        super().leaveEvent(event)
 
 
 class MagnitudePlot(CandidatePlot):
@@ -202,15 +236,51 @@ class MagnitudePlot(CandidatePlot):
         self.f0_line.setValue(math.log10(session.target.f0_hz))
         self.gain_line.setValue(20.0 * math.log10(session.target.gain))
 
+    def _update_extras(self):
+        # Each candidate's achieved f0 (▼ on the peak) and −3 dB points (| on the band edges),
+        # in its colour, from the figures the core measured (bandsmith.analysis.figures).
+        if not hasattr(self, "markers"):
+            self.markers: dict[str, pg.ScatterPlotItem] = {}
+        item = self.getPlotItem()
+        for cid in list(self.markers):
+            if cid not in self.curves:
+                item.removeItem(self.markers.pop(cid))
+        for cid in self.curves:
+            fig = self.state.results[cid].figures
+            xs, ys, symbols = [], [], []
+            if fig is not None and math.isfinite(fig.gain_center_db):
+                for f, dy, sym in ((fig.f0_hz, 0.0, "t"), (fig.f_low_hz, -3.0, "|"), (fig.f_high_hz, -3.0, "|")):
+                    if math.isfinite(f) and f > 0:
+                        xs.append(math.log10(f))
+                        ys.append(fig.gain_center_db + dy)
+                        symbols.append(sym)
+            marks = self.markers.get(cid)
+            if marks is None:
+                marks = self.markers[cid] = pg.ScatterPlotItem(size=9)
+                marks.setObjectName(f"markers_{cid}")
+                marks.setZValue(5)
+                item.addItem(marks, ignoreBounds=True)
+            colour = self.state.style(cid).colour
+            marks.setData(xs, ys, symbol=symbols, pen=pg.mkPen(colour, width=2.0), brush=pg.mkBrush(colour))
+
+    def marker_points(self, cid: str) -> list[tuple[float, float]]:
+        """The f0 and −3 dB markers of ``cid`` as (frequency Hz, gain dB), f0 first."""
+        marks = self.markers.get(cid)
+        if marks is None:
+            return []
+        x, y = marks.getData()
+        return [(10.0 ** a, float(b)) for a, b in zip(x, y)]
+
     def _readout(self, x, y):
         return f"{_short(x, 'Hz')}, {y:.2f} dB"
 
     # -- shaded bands (a tolerance envelope) -------------------------------------------------
-    def set_envelope(self, key: str, f_hz, low_db, high_db, *, colour: str) -> None:
+    def set_envelope(self, key: str, f_hz, low_db, high_db, *, colour: str, zoom: bool = False) -> None:
         """Shade the band between two magnitude curves (dB over Hz), edged in ``colour``.
 
         ``key`` names the band (a later call with the same key replaces it); the band sits below
-        the candidate curves and does not move the view's range.
+        the candidate curves. With ``zoom`` the view moves to the pass band (:meth:`zoom_to_band`),
+        where the band is wide enough to be seen; otherwise the view's range is kept.
         """
         self.clear_envelope(key)
         item = self.getPlotItem()
@@ -229,6 +299,29 @@ class MagnitudePlot(CandidatePlot):
         band.setZValue(-9)
         item.addItem(band, ignoreBounds=True)
         self.envelopes[key] = (lo, hi, band)
+        if zoom:
+            self.zoom_to_band(f_hz, low_db, high_db)
+
+    def zoom_to_band(self, f_hz, low_db, high_db) -> None:
+        """Show the pass band of an envelope: where its upper edge is within 12 dB of its peak.
+
+        Over the whole sweep (some 80 dB tall) a p5–p95 band a few dB wide near f0 is a line's
+        width; over the pass band it is a visible fraction of the plot. A double click or the
+        mouse wheel gives the whole sweep back (pyqtgraph's view box).
+        """
+        f = np.asarray(f_hz, dtype=float)
+        lo = np.asarray(low_db, dtype=float)
+        hi = np.asarray(high_db, dtype=float)
+        ok = np.isfinite(f) & (f > 0) & np.isfinite(lo) & np.isfinite(hi)
+        if not ok.any():
+            return
+        f, lo, hi = f[ok], lo[ok], hi[ok]
+        top = float(hi.max())
+        near = hi >= top - 12.0
+        f_lo, f_hi = float(f[near].min()), float(f[near].max())
+        span = max(math.log10(f_hi / f_lo), 0.05)
+        x0, x1 = math.log10(f_lo) - 0.25 * span, math.log10(f_hi) + 0.25 * span
+        self.getPlotItem().getViewBox().setRange(xRange=(x0, x1), yRange=(top - 15.0, top + 3.0), padding=0)
 
     def clear_envelope(self, key: str) -> None:
         """Remove the band ``key`` (nothing happens when there is none)."""
@@ -266,9 +359,10 @@ class GroupDelayPlot(CandidatePlot):
 
 class StepPlot(CandidatePlot):
     key = "step"
-    title = "Step response (1 V step)"
+    # Drawn per volt of input step (a unit step), so the axis reads V/V whatever the input.
+    title = "Unit step response"
     x_label, x_unit = "Time", "s"
-    y_label, y_unit = "Output", "V/V"
+    y_label, y_unit = "Output per input step", "V/V"
 
     def curve_data(self, res):
         return res.step.t_s, res.step.y
@@ -339,7 +433,7 @@ class PoleZeroPlot(CandidatePlot):
     """
 
     key = "pole_zero"
-    title = "Poles (×) and zeros (○)"
+    title = "Poles (filled markers) and zeros (○)"
     x_label, x_unit = "σ / 2π", "Hz"
     y_label, y_unit = "ω / 2π", "Hz"
 
@@ -372,7 +466,27 @@ class PoleZeroPlot(CandidatePlot):
             res = self.state.results[cid]
             item.setPen(pg.mkPen(self.state.style(cid).colour, width=1.5))
             self.zero_items[cid].setData(res.zeros_hz.real, res.zeros_hz.imag)
+        self._update_multiplicity()
         self._update_far_note()
+
+    def _update_multiplicity(self) -> None:
+        # Coincident poles (or zeros), of one candidate or of several, draw on top of each other:
+        # a "×n" beside them says how many there are.
+        item = self.getPlotItem()
+        for label in getattr(self, "multiplicity_labels", []):
+            item.removeItem(label)
+        self.multiplicity_labels = []
+        results = [self.state.results[cid] for cid in self.curves]
+        for points in (
+            np.concatenate([np.asarray(r.poles_hz).ravel() for r in results] or [np.zeros(0, complex)]),
+            np.concatenate([np.asarray(r.zeros_hz).ravel() for r in results] or [np.zeros(0, complex)]),
+        ):
+            for p, n in coincident(points, rel=OVERLAP):
+                label = pg.TextItem(f"×{n}", color=INK, anchor=(-0.2, 1.0))
+                label.setFont(QtGui.QFont(self.font().family(), 8, QtGui.QFont.Weight.Bold))
+                label.setPos(p.real, p.imag)
+                item.addItem(label, ignoreBounds=True)
+                self.multiplicity_labels.append(label)
 
     def far_text(self) -> str:
         """The note on the poles and zeros outside the current view ("" when there are none)."""
@@ -423,6 +537,25 @@ class PoleZeroPlot(CandidatePlot):
 
     def _readout(self, x, y):
         return f"σ/2π {_short(x, 'Hz')}, ω/2π {_short(y, 'Hz')}"
+
+
+# Poles this close (relative to their distance from the origin) draw as one marker at the
+# plot's usual zoom: they are counted together.
+OVERLAP = 0.02
+
+
+def coincident(points, rel: float = 1e-6) -> list[tuple[complex, int]]:
+    """Groups of coinciding points (within ``rel`` of their size, or 1e-9 Hz): (point, count ≥ 2)."""
+    left = [complex(p) for p in np.asarray(points).ravel() if np.isfinite(p)]
+    out = []
+    while left:
+        p = left.pop(0)
+        tol = max(rel * abs(p), 1e-9)
+        same = [q for q in left if abs(q - p) <= tol]
+        if same:
+            out.append((p, 1 + len(same)))
+            left = [q for q in left if abs(q - p) > tol]
+    return out
 
 
 PLOT_CLASSES = (MagnitudePlot, PhasePlot, GroupDelayPlot, StepPlot, GbwErrorPlot, PoleZeroPlot)

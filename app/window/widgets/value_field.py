@@ -13,7 +13,7 @@ from typing import Callable
 from PySide6 import QtCore, QtWidgets
 
 from bandsmith.common.errors import InputError
-from bandsmith.common.values import format_value, parse_positive
+from bandsmith.common.values import format_value, parse_positive, value_hint
 
 from bandsmith.app.window.theme import error_label
 
@@ -52,7 +52,7 @@ class ValueField(QtWidgets.QWidget):
         super().__init__(parent)
         self.name = name
         self.unit = unit
-        self._parse = parse or (lambda text: parse_positive(text, field=name))
+        self._parse = parse or (lambda text: parse_positive(text, field=name, unit=unit))
         self._fmt = fmt or (lambda v: format_value(v, unit) if v is not None else "")
         self._value: float | None = None
         self.setObjectName(f"field_{name}")
@@ -93,7 +93,12 @@ class ValueField(QtWidgets.QWidget):
         try:
             value = self._parse(text)
         except InputError as exc:
-            self._show_error(exc.reason)
+            reason = exc.reason
+            # A parser given without the field's unit suggests resistor codes: the field knows
+            # its unit, so the examples fit it (a capacitor is not told to try 4k7).
+            if self.unit and self.unit != "Ω":
+                reason = reason.replace(value_hint(None), value_hint(self.unit))
+            self._show_error(reason)
             return
         self._show_error(None)
         if value == self._value:
