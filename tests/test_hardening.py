@@ -537,3 +537,44 @@ def test_reader_refuses_a_chain_id_with_a_newline(tmp_path):
 def test_argument_errors_are_cut_too(capsys):
     code, _, err = _cli(["tolerance", "mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n", "--dist", "z" * 5000], capsys)
     assert code == 2 and len(err) < 400 and err.count("\n") == 1
+
+
+# ------------------------------------------------------------------ counts (a session's candidates)
+
+
+def test_a_session_of_too_many_candidates_is_refused_on_read(tmp_path):
+    # bandsmith.common.limits.MAX_CANDIDATES bounds what the window, the analyses and the report
+    # must handle (the report's cost grows with the candidates); the file is left as it is.
+    import json
+
+    from bandsmith.common.limits import MAX_CANDIDATES
+    from bandsmith.files.session import SessionError, load_session
+
+    demo = json.loads((Path(__file__).resolve().parents[1] / "resources" / "demo_session.bandsmith.json").read_text())
+    first = demo["candidates"][0]
+    demo["candidates"] = [dict(first, id=f"c{i}") for i in range(MAX_CANDIDATES + 1)]
+    path = tmp_path / "many.bandsmith.json"
+    path.write_text(json.dumps(demo))
+    before = path.read_bytes()
+    with pytest.raises(SessionError) as info:
+        load_session(path)
+    assert "candidates" in str(info.value) and str(MAX_CANDIDATES) in str(info.value)
+    assert path.read_bytes() == before
+
+
+def test_a_full_session_takes_no_more_candidates_and_says_why():
+    from dataclasses import replace
+
+    from bandsmith.app.document.model import Document
+    from bandsmith.app.window.demo import demo_session
+    from bandsmith.common.limits import MAX_CANDIDATES
+
+    s = demo_session()
+    first = s.candidates[0]
+    full = replace(s, candidates=tuple(replace(first, id=f"c{i}") for i in range(MAX_CANDIDATES)))
+    doc = Document(full)
+    notices = []
+    doc.notice.connect(notices.append)
+    assert doc.duplicate("c0") is None and doc.add_candidate("mfb") is None
+    assert len(doc.session.candidates) == MAX_CANDIDATES
+    assert notices and "at most" in notices[-1]

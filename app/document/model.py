@@ -18,6 +18,7 @@ import math
 from dataclasses import replace
 from typing import Mapping
 
+from bandsmith.common.limits import MAX_CANDIDATES
 from bandsmith.common.units import part_unit
 from bandsmith.common.eseries import nearest
 from bandsmith.common.errors import InputError
@@ -205,8 +206,18 @@ class Document:
         self.edit(self._session.with_candidate(new), f"{candidate_id}: snap to {series}")
         self.notice.emit(f"{candidate_id}: present values rounded to {series} ({reason}); the figures may move — try Redesign")
 
-    def duplicate(self, candidate_id: str) -> str:
-        """Add a copy of a candidate right after it (to try a variant); returns the new id."""
+    def _room_for_another(self) -> bool:
+        """False, with a notice, when the session holds as many candidates as it can."""
+        if len(self._session.candidates) < MAX_CANDIDATES:
+            return True
+        self.notice.emit(f"a session holds at most {MAX_CANDIDATES} candidates: remove one first")
+        return False
+
+    def duplicate(self, candidate_id: str) -> str | None:
+        """Add a copy of a candidate right after it (to try a variant); returns the new id, or None
+        (with a notice) when the session is full."""
+        if not self._room_for_another():
+            return None
         entry = self._session.candidate(candidate_id)
         new_id = self._session.new_candidate_id(entry.topology_id)
         copy = replace(entry, id=new_id, pinned=False)
@@ -219,10 +230,13 @@ class Document:
     def remove(self, candidate_id: str) -> None:
         self.edit(self._session.without_candidate(candidate_id), f"remove {candidate_id}")
 
-    def add_candidate(self, topology_id: str) -> str:
-        """Add a candidate of a circuit, designed for the target where the core can; returns its id."""
+    def add_candidate(self, topology_id: str) -> str | None:
+        """Add a candidate of a circuit, designed for the target where the core can; returns its id,
+        or None (with a notice) when the session is full."""
         from bandsmith.circuits import get_topology
 
+        if not self._room_for_another():
+            return None
         topo = get_topology(topology_id)
         new_id = self._session.new_candidate_id(topology_id)
         series = self._session.target.series

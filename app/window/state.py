@@ -118,13 +118,13 @@ class WorkbenchState(QtCore.QObject):
     def set_snap(self, candidate_id: str, series: str | None) -> None:
         self.document.set_snap(candidate_id, series)
 
-    def duplicate(self, candidate_id: str) -> str:
+    def duplicate(self, candidate_id: str) -> str | None:
         return self.document.duplicate(candidate_id)
 
     def remove(self, candidate_id: str) -> None:
         self.document.remove(candidate_id)
 
-    def add_candidate(self, topology_id: str) -> str:
+    def add_candidate(self, topology_id: str) -> str | None:
         return self.document.add_candidate(topology_id)
 
     def set_target(self, **changes) -> None:

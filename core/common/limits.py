@@ -22,9 +22,11 @@ Targets and op-amp figures (:data:`TARGET_RANGES`, :data:`A0_RANGE`, :data:`NOIS
     an input amplitude from 1e-9 V to 1e6 V (:data:`VIN_RANGE_V`), a load in the resistor range, a
     Chebyshev ripple of at least 1e-3 dB (:data:`RIPPLE_DB_MIN`).
 
-Files (:data:`MAX_FILE_BYTES`)
+Files (:data:`MAX_FILE_BYTES`, :data:`MAX_CANDIDATES`)
     Session, shelf and measured-data files are read only when they are regular files of at most
-    their size cap (64 MiB for session and shelf files, 256 MiB for measured data).
+    their size cap (64 MiB for session and shelf files, 256 MiB for measured data). A session holds
+    at most 100 candidates: far more than a comparison on one screen, and what keeps the window,
+    the analyses and the report (one section and one curve per candidate) bounded.
 """
 
 from __future__ import annotations
@@ -49,6 +51,7 @@ __all__ = [
     "check_range",
     "check_part_value",
     "MAX_FILE_BYTES",
+    "MAX_CANDIDATES",
     "one_line",
 ]
 
@@ -104,5 +107,7 @@ def check_part_value(field: str, kind: str, x: float) -> float:
     lo, hi = PART_RANGES[kind]
     return check_range(field, x, lo, hi, _UNITS[kind])
 
+
+MAX_CANDIDATES = 100
 
 MAX_FILE_BYTES = {"session file": 64 << 20, "shelf file": 64 << 20, "measured file": 256 << 20}

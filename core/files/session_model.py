@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections import Counter
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
@@ -11,7 +12,9 @@ from bandsmith.design.candidate import Conditions
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
-from bandsmith.common.limits import A0_RANGE, FREQ_RANGE_HZ, TARGET_RANGES, VIN_RANGE_V, check_id, check_part_value, check_range
+from bandsmith.common.limits import (
+    A0_RANGE, FREQ_RANGE_HZ, MAX_CANDIDATES, TARGET_RANGES, VIN_RANGE_V, check_id, check_part_value, check_range,
+)
 
 __all__ = ["FORMAT", "VERSION", "SERIES_CHOICES", "KNOWN_KEYS", "SessionError", "surrogate_at", "Target", "OpAmpSpec", "CandidateEntry", "Session"]
 
@@ -208,8 +211,9 @@ class Session:
 
     def __post_init__(self):
         cands = tuple(self.candidates)
-        ids = [c.id for c in cands]
-        dup = sorted({i for i in ids if ids.count(i) > 1})
+        if len(cands) > MAX_CANDIDATES:
+            raise InputError("candidates", f"a session holds at most {MAX_CANDIDATES} candidates, got {len(cands)}")
+        dup = sorted(i for i, n in Counter(c.id for c in cands).items() if n > 1)
         if dup:
             raise InputError("id", f"candidate ids must be unique; {', '.join(dup)} appears more than once")
         object.__setattr__(self, "candidates", cands)
