@@ -121,6 +121,7 @@ class ComparisonTable(QtWidgets.QWidget):
         self.summary.setSizePolicy(QtWidgets.QSizePolicy.Policy.Ignored, QtWidgets.QSizePolicy.Policy.Preferred)
         side.addWidget(self.summary, 1)
 
+        self.max_rows = MAX_ROWS
         self.table = QtWidgets.QTableWidget(0, len(COLUMNS), self)
         self.table.setObjectName("comparisonGrid")
         self.table.setEditTriggers(QtWidgets.QAbstractItemView.EditTrigger.NoEditTriggers)
@@ -240,13 +241,21 @@ class ComparisonTable(QtWidgets.QWidget):
         ids = [self.row_id(i) for i in range(self.table.rowCount())]
         widest = max([fm.horizontalAdvance("▸ " + i) for i in ids] + [hh.sectionSize(1) - 16])
         self.table.setColumnWidth(1, widest + 16)
-        rows = min(self.table.rowCount(), MAX_ROWS)
+        rows = min(self.table.rowCount(), self.max_rows)
         frame = 2 * self.table.frameWidth()
         h = hh.sizeHint().height() + rows * self.table.verticalHeader().defaultSectionSize() + frame
         w = sum(hh.sectionSize(c) for c in range(hh.count())) + frame
-        if self.table.rowCount() > MAX_ROWS:
+        if self.table.rowCount() > self.max_rows:
             w += self.table.verticalScrollBar().sizeHint().width()
         self.table.setFixedSize(w, h)
+
+    def set_max_rows(self, rows: int) -> None:
+        """Show at most ``rows`` rows without scrolling (the window lowers it on a short screen,
+        so the board and the plots below keep their height)."""
+        rows = max(1, min(int(rows), MAX_ROWS))
+        if rows != self.max_rows:
+            self.max_rows = rows
+            self._fit_size()
 
     def _select_current(self, cid: str) -> None:
         """Mark the selected candidate's row: ▸ before its id, in bold."""

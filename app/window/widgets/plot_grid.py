@@ -16,6 +16,8 @@ __all__ = ["PlotGrid"]
 
 # Below this width (px) the grid uses two columns instead of three.
 _THREE_COLUMNS_FROM = 1000
+# The least height (px) of a plot: axis labels, ticks and a readable curve.
+_MIN_PLOT_HEIGHT = 140
 
 
 class PlotGrid(QtWidgets.QWidget):
@@ -32,6 +34,9 @@ class PlotGrid(QtWidgets.QWidget):
         for cls in PLOT_CLASSES:
             plot = cls(state, self)
             plot.cursor_text.connect(self.cursor_text)
+            # Three rows of plots, the tabs and the legend must fit under the target strip and
+            # the comparison table of a 768 px high laptop screen.
+            plot.setMinimumHeight(_MIN_PLOT_HEIGHT)
             self.plots[cls.key] = plot
         outer = QtWidgets.QVBoxLayout(self)
         outer.setContentsMargins(0, 0, 0, 0)
