@@ -253,6 +253,12 @@ class CandidateColumn(QtWidgets.QFrame):
         entry = self._entry(session)
         if entry is None:  # about to be removed by the board
             return
+        # Another candidate was edited: this column's fields are as they were (a part edit then
+        # refills one column, not all of them).
+        key = (entry, self.state.style(self.candidate_id))
+        if key == getattr(self, "_shown_entry", None):
+            return
+        self._shown_entry = key
         self.swatch.setPixmap(style_swatch(self.state.style(self.candidate_id)))
         self.title.setText(entry.id)
         self.active.setChecked(entry.enabled)
@@ -279,6 +285,12 @@ class CandidateColumn(QtWidgets.QFrame):
         if entry is None:
             return
         res = self.state.result(self.candidate_id)
+        # The same result under the same conditions: nothing to redraw (identity: results hold arrays).
+        key = (entry.enabled, session.target, session.opamp, session.tolerances)
+        last = getattr(self, "_shown_result", None)
+        if last is not None and last[0] is res and last[1] == key:
+            return
+        self._shown_result = (res, key)
         self.problem.hide()
         if not entry.enabled or res is None:
             self.figures_title.setText("Achieved")

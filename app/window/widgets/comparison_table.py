@@ -80,6 +80,17 @@ def _signed(x: float, digits: int = 2) -> str:
     return f"{x:+.{digits}f}".replace("-", "−")
 
 
+def _looks_alike(a: QtWidgets.QTableWidgetItem, b: QtWidgets.QTableWidgetItem, *, bold_too: bool) -> bool:
+    """Whether two cells show the same (text, colours, tooltip, row id; the boldness too unless
+    the selection mark sets it, as in the id column)."""
+    role = QtCore.Qt.ItemDataRole
+    same = (a.text() == b.text() and a.toolTip() == b.toolTip() and a.foreground() == b.foreground()
+            and a.background() == b.background() and a.data(role.UserRole) == b.data(role.UserRole))
+    if bold_too:
+        same = same and a.font().bold() == b.font().bold()
+    return same
+
+
 class ComparisonTable(QtWidgets.QWidget):
     """The recommendation line and the table of candidates (see the module notes).
 
@@ -159,11 +170,13 @@ class ComparisonTable(QtWidgets.QWidget):
         comp = self.comparison = comparison_of(self.state.document)
         self._show_summary(comp)
         self.table.blockSignals(True)
+        changed = self.table.rowCount() != len(comp.rows)
         self.table.setRowCount(len(comp.rows))
         for i, row in enumerate(comp.rows):
-            self._fill_row(i, row)
+            changed |= self._fill_row(i, row)
         self.table.blockSignals(False)
-        self._select_current(self.state.current_id)
+        if changed:
+            self._select_current(self.state.current_id)
 
     def _show_summary(self, comp: SessionComparison) -> None:
         if comp.recommended is not None:
@@ -192,7 +205,8 @@ class ComparisonTable(QtWidgets.QWidget):
             item.setFont(f)
         return item
 
-    def _fill_row(self, i: int, row: CandidateJudgement) -> None:
+    def _fill_row(self, i: int, row: CandidateJudgement) -> bool:
+        """Show ``row`` in table row ``i``; True when a cell changed."""
         v = row.verdict
         reasons = "\n".join(f"• {r.text}" for r in v.reasons) if v is not None else ""
         tip = f"{row.id}: {v.verdict}" + (f"\n{reasons}" if reasons else "") if v is not None else f"{row.id}: switched off, not judged"
@@ -226,9 +240,17 @@ class ComparisonTable(QtWidgets.QWidget):
             cells.append(self._item(_ratio(row.c_spread), colour=_flag(v, "c_spread")))
         cells.append(self._item(str(row.part_count)))
         cells.append(self._item("yes" if row.needs_inductor else "no", right=False))
+        changed = False
         for c, item in enumerate(cells):
             item.setData(QtCore.Qt.ItemDataRole.UserRole, row.id)
+            if c == 1 and row.id == self.state.current_id:
+                item.setText("▸ " + row.id)  # as the selection mark shows it
+            old = self.table.item(i, c)
+            if old is not None and _looks_alike(old, item, bold_too=c != 1):
+                continue  # the cell shows the same: leave it (no relayout, no repaint)
+            changed = True
             self.table.setItem(i, c, item)
+        return changed
 
     def _fit_size(self) -> None:
         """As wide as its columns and as tall as its rows (up to MAX_ROWS; more scroll)."""
