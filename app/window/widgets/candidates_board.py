@@ -55,6 +55,8 @@ class CandidatesBoard(QtWidgets.QScrollArea):
         self.count_label = QtWidgets.QLabel(self.top_strip)
         self.count_label.setObjectName("boardCount")
         self.count_label.setStyleSheet("color: #5f6368;")
+        # The count may be cut short in a narrow board; it must not widen the board.
+        self.count_label.setSizePolicy(QtWidgets.QSizePolicy.Policy.Ignored, QtWidgets.QSizePolicy.Policy.Preferred)
         strip.addWidget(self.add_button)
         strip.addWidget(self.count_label, 1)
         self.setViewportMargins(0, self.top_strip.sizeHint().height(), 0, 0)
