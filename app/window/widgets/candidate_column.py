@@ -70,6 +70,9 @@ class CandidateColumn(QtWidgets.QFrame):
 
         self._build_header(lay)  # line sample, id, circuit
         self.verdict_badge = VerdictBadge(state, candidate_id, self)  # the candidate's verdict and rank
+        # Fixed in both directions: a rank that changes (another candidate edited) repaints the
+        # badge without laying out this column again.
+        self.verdict_badge.setFixedWidth(_COLUMN_WIDTH - 16 - 4)
         lay.addWidget(self.verdict_badge)
         self._build_switches(lay)  # on/off and pin on the first row, variant actions on the second
         self._build_snap_row(lay)
