@@ -5,6 +5,15 @@ the header's font plus the header's padding ≤ the section's width), and the pa
 controls lie wholly inside the window (after scrolling their scroll area to them, as a user would).
 The screenshots are saved under tests/_artifacts/ for a person to look at.
 
+What the screenshots showed before the layout work, and what was changed: at 1366×768 the window
+was 787 px high (three rows of 170 px plots could not shrink) and "+ Add candidate" scrolled away
+with the columns; 2½ columns showed; the shelf's verdict columns were hidden beside its plot and an
+empty 2–9 Hz plot showed before a verdict was picked; the measured pane's part tables, side by
+side with stretched columns, cut their headers ("art alor"); the chain pane showed three empty
+plots with overlapping ticks. Now: plots fit 768 px, the add button sits in a strip that never
+scrolls, the board shows whole columns, the shelf stacks verdicts / chosen pair / shelf on a narrow
+pane, the part tables are one above the other sized to their contents, and empty plots are hidden.
+
 Sizes: 1366×768 is the commonest laptop panel and 1920×1080 the commonest desktop one (fact of
 the trade, e.g. the screen-resolution shares published by web statistics services).
 """
@@ -38,7 +47,7 @@ def _essentials(window) -> dict[str, list[tuple[str, QtWidgets.QWidget]]]:
         "Measured": [("Import button", m.import_button), ("figures table", m.figures), ("part ranking", m.ranking), ("fitted parts", m.fitted)],
         "Op-amp shelf": [("verdict table", s.verdicts), ("model editor", s.editor), ("Add model", s.btn_add)],
         "Tolerance spread": [("Run button", sp.run_button), ("per-part tolerances", sp.parts)],
-        "Noise": [("noise plot", n.canvas)],
+        "Noise": [("noise plot", n.canvas), ("sources table", n.table)],
         "Stage chain": [("Build chain", c.form.btn_build), ("stage table", c.view.stage_table)],
     }
 
@@ -130,3 +139,17 @@ def test_board_columns_and_add_button_with_many_candidates(window, qtbot):
         assert region_of(last.title, window).width() >= last.title.width() - 1
 
     qtbot.waitUntil(shown, timeout=3000)
+
+
+@pytest.mark.parametrize("area", [(0, 0, 1366, 728), (0, 30, 1920, 1050)], ids=["laptop", "desktop"])
+def test_window_opens_sized_to_the_available_area(qtbot, tmp_path, monkeypatch, area):
+    """Not a fixed 1280×800: the screen's available area (without its panels), less a title bar."""
+    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
+    monkeypatch.setattr(QtGui.QScreen, "availableGeometry", lambda self: QtCore.QRect(*area))
+    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path), recovery=False)
+    qtbot.addWidget(w)
+    title = w.style().pixelMetric(QtWidgets.QStyle.PixelMetric.PM_TitleBarHeight)
+    assert w.width() == area[2]
+    assert w.height() == area[3] - title
+    assert (w.x(), w.y()) == (area[0], area[1])
+    w.state.mark_saved("")
