@@ -78,7 +78,9 @@ class CandidatesBoard(QtWidgets.QScrollArea):
                 col = self.columns[cid] = CandidateColumn(self.state, cid, self.widget())
             if self._row.indexOf(col) != i:
                 self._row.removeWidget(col)
-                self._row.insertWidget(i, col)
+                # Top-aligned at its own height: a column that grows (an edit) leaves the others'
+                # geometry, layout and paint alone.
+                self._row.insertWidget(i, col, 0, QtCore.Qt.AlignmentFlag.AlignTop)
         n = len(ids)
         self.count_label.setText(f"{n} candidate{'s' if n != 1 else ''}" + (" · scroll sideways for more" if self._hidden_columns() else ""))
 
