@@ -153,3 +153,34 @@ def test_window_opens_sized_to_the_available_area(qtbot, tmp_path, monkeypatch, 
     assert w.height() == area[3] - title
     assert (w.x(), w.y()) == (area[0], area[1])
     w.state.mark_saved("")
+
+
+def test_a_part_edit_redraws_only_the_edited_candidate(window, qtbot):
+    """The edited candidate's curves change; the others' keep their very arrays; the axes stay put
+    while the user edits; another column's fields are not refilled."""
+    window.resize(1366, 768)
+    window.show()
+    qtbot.waitExposed(window)
+    qtbot.wait(20)
+    cols = list(window.board.columns.values())
+    col, other = cols[0], cols[1]
+    mag = window.plot_grid.plots["magnitude"]
+    vb = mag.getPlotItem().getViewBox()
+    before_range = vb.viewRange()
+    before_other = mag.curves[other.candidate_id].yData
+    before_edited = mag.curves[col.candidate_id].yData.copy()
+    other_value = other.fields[next(iter(other.fields))].edit.text()
+    ref = next(r for r in col.fields if col.topology.component(r).required)
+    value = window.state.session.candidate(col.candidate_id).values[ref] * 1.2
+    col.fields[ref].edit.setText(f"{value:.6g}")
+    col.fields[ref].edit.editingFinished.emit()
+    qtbot.wait(20)
+    after_edited = mag.curves[col.candidate_id].yData
+    assert after_edited.shape != before_edited.shape or not (after_edited == before_edited).all()
+    assert mag.curves[other.candidate_id].yData is before_other
+    assert vb.viewRange() == before_range
+    assert other.fields[next(iter(other.fields))].edit.text() == other_value
+    # A change of target fits the axes again.
+    window.state.set_target(f0_hz=window.state.session.target.f0_hz * 2)
+    qtbot.wait(20)
+    assert any(vb.autoRangeEnabled())

@@ -77,6 +77,8 @@ class PlotGrid(QtWidgets.QWidget):
         for plot in self._fitting:
             vb = plot.getPlotItem().getViewBox()
             if part_edit:
+                if any(vb.autoRangeEnabled()):
+                    vb.updateAutoRange()  # settle a fit still pending (no paint yet) before keeping it
                 vb.disableAutoRange()
             else:
                 vb.enableAutoRange()
