@@ -271,12 +271,14 @@ class CandidateColumn(QtWidgets.QFrame):
             f.set_value(entry.values[ref])
             f.edit.setToolTip(f.edit.toolTip().split("\nNow: ")[0] + f"\nNow: {entry.values[ref]:.6g} {f.unit}")
             self.keeps[ref].setChecked(ref in entry.fixed)
-        self.setProperty("enabledCandidate", entry.enabled)
-        self._repolish()
+        if self.property("enabledCandidate") != entry.enabled:  # re-polish (restyle) only on a change
+            self.setProperty("enabledCandidate", entry.enabled)
+            self._repolish()
 
     def _on_current_changed(self, candidate_id: str) -> None:
-        self.setProperty("current", candidate_id == self.candidate_id)
-        self._repolish()
+        if self.property("current") != (candidate_id == self.candidate_id):
+            self.setProperty("current", candidate_id == self.candidate_id)
+            self._repolish()
 
     def _repolish(self) -> None:
         self.style().unpolish(self)
