@@ -139,7 +139,7 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         self._on_path_changed(state.path)
         self._on_clean_changed(state.is_clean)
         self._on_current_changed(state.current_id)
-        self.resize(1280, 800)
+        self._size_to_screen()
         self._fit_splitter()
         from bandsmith.app.window.panes.measurement_pane import install as install_measurement_pane
 
@@ -280,17 +280,35 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         job.start()
         return job
 
+    def _size_to_screen(self) -> None:
+        """Open sized to the screen's available area (less the panels and docks), not a fixed size.
+
+        The title bar is not part of the available area's height once the window is placed, so
+        its height (the style's, as the frame is not known before the window is shown) is taken
+        off.
+        """
+        screen = self.screen() or QtGui.QGuiApplication.primaryScreen()
+        if screen is None:
+            self.resize(1280, 800)
+            return
+        area = screen.availableGeometry()
+        title = self.style().pixelMetric(QtWidgets.QStyle.PixelMetric.PM_TitleBarHeight)
+        self.resize(area.width(), max(480, area.height() - title))
+        self.move(area.topLeft())
+
     def _fit_splitter(self) -> None:
-        # On a wide screen the board may take up to 60 % (four columns at 1920 px); on a narrow
-        # one about half, so the plots keep a readable size and the board scrolls sideways. A
-        # pane that needs more room than that (the stage chain) gets it, up to 75 % of the width,
-        # while its tab is shown.
-        share = 0.6 if self.width() >= 1600 else 0.52
-        want = min(self.board.preferred_width(), int(self.width() * share))
+        # The board shows whole columns only: as many as fit in about half the width (60 % on a
+        # wide screen: four columns at 1920 px), at least one, at most all of them; the rest scroll
+        # sideways (the comparison table above compares them all at a glance). A pane that needs
+        # more room (the stage chain) gets it, the board keeping a quarter of the width.
+        self.comparison.set_max_rows(4 if self.height() < 900 else 8)
+        share = 0.6 if self.width() >= 1600 else 0.5
+        want = self.board.width_for(int(self.width() * share))
         page = self.panes.currentWidget()
         if isinstance(page, QtWidgets.QScrollArea) and page.widget() is not None:
             need = page.widget().minimumSizeHint().width() + page.verticalScrollBar().sizeHint().width() + 8
-            want = min(want, max(self.width() - need, int(self.width() * 0.25)))
+            if want > self.width() - need:
+                want = self.board.width_for(max(self.width() - need, int(self.width() * 0.25)))
         self.splitter.setSizes([want, max(300, self.width() - want)])
 
     def _on_pane_changed(self, _index: int) -> None:

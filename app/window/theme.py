@@ -21,7 +21,7 @@ from bandsmith.app.plots.palette import (
     candidate_style,
 )
 
-__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "STYLE_SHEET", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED", "error_label", "headline"]
+__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "STYLE_SHEET", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED", "error_label", "fit_columns", "headline"]
 
 STYLE_SHEET = f"""
 QMainWindow, QWidget#board {{ background: #f6f6f3; }}
@@ -61,3 +61,13 @@ def headline(parent: QtWidgets.QWidget, caption: str, object_name: str, size_px:
     value.setStyleSheet(f"font-size: {size_px}px; font-weight: 700; color: {INK};")
     col.addWidget(value)
     return col, value
+
+
+def fit_columns(table: QtWidgets.QTableView, *, stretch_last: bool = True) -> None:
+    """Size a table's columns to their contents, header text included (never narrower than the
+    header's text), the last one taking what room is left; a table narrower than its columns
+    scrolls sideways instead of cutting its headers."""
+    header = table.horizontalHeader()
+    header.setSectionResizeMode(QtWidgets.QHeaderView.ResizeMode.ResizeToContents)
+    header.setStretchLastSection(stretch_last)
+    header.setMinimumSectionSize(36)

@@ -184,6 +184,9 @@ class ChainView(QtWidgets.QSplitter):
         self.setChildrenCollapsible(False)
         self._result: Cascade | None = None
         self.plots = ChainPlots(self)
+        # Three stacked plots, each tall enough for its tick labels not to run together (the pane
+        # scrolls on a short screen).
+        self.plots.setMinimumHeight(3 * 120 + 30)
         self.addWidget(self.plots)
         bottom = QtWidgets.QWidget(self)
         bl = QtWidgets.QVBoxLayout(bottom)
@@ -226,6 +229,8 @@ class ChainView(QtWidgets.QSplitter):
     def show_cascade(self, result: Cascade | None, *, editable: bool) -> None:
         """Draw a chain (or None) and list its stages; ``editable`` enables the circuit choosers."""
         self._result = result
+        # No empty plot frames (with a meaningless axis) before a chain is built.
+        self.plots.setVisible(result is not None)
         self.plots.show_cascade(result)
         self._fill_stages(result, editable=editable)
 

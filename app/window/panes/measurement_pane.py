@@ -39,6 +39,7 @@ from bandsmith.bench.measured import (
 from bandsmith.common.values import format_value
 
 from bandsmith.app.window.widgets.plots import LogAxis
+from bandsmith.app.window.theme import fit_columns
 
 if TYPE_CHECKING:
     from bandsmith.bench.diagnose import Diagnosis
@@ -199,7 +200,7 @@ class MeasurementPane(QtWidgets.QWidget):
         self.figures.setHorizontalHeaderLabels(["measured", "design", "fitted"])
         self.figures.setVerticalHeaderLabels(["f0", "Q", "centre gain"])
         self.figures.setEditTriggers(QtWidgets.QAbstractItemView.EditTrigger.NoEditTriggers)
-        self.figures.horizontalHeader().setSectionResizeMode(QtWidgets.QHeaderView.ResizeMode.Stretch)
+        fit_columns(self.figures)
         self.figures.setMaximumHeight(120)
         left.addWidget(self.figures)
         self.summary = QtWidgets.QLabel("", self)
@@ -207,7 +208,8 @@ class MeasurementPane(QtWidgets.QWidget):
         self.summary.setWordWrap(True)
         self.summary.setTextInteractionFlags(QtCore.Qt.TextInteractionFlag.TextSelectableByMouse)
         left.addWidget(self.summary)
-        tables = QtWidgets.QHBoxLayout()
+        # One above the other: side by side, at a laptop's width, their headers were cut.
+        tables = QtWidgets.QVBoxLayout()
         left.addLayout(tables, 1)
         self.ranking = QtWidgets.QTableWidget(0, 4, self)
         self.ranking.setObjectName("partRanking")
@@ -217,8 +219,9 @@ class MeasurementPane(QtWidgets.QWidget):
         self.fitted.setHorizontalHeaderLabels(["all parts", "design", "fitted", "range"])
         for t in (self.ranking, self.fitted):
             t.setEditTriggers(QtWidgets.QAbstractItemView.EditTrigger.NoEditTriggers)
-            t.horizontalHeader().setSectionResizeMode(QtWidgets.QHeaderView.ResizeMode.Stretch)
+            fit_columns(t)
             t.verticalHeader().setVisible(False)
+            t.setMinimumHeight(110)
             tables.addWidget(t, 1)
 
     def _build_deviation_plot(self, body: QtWidgets.QHBoxLayout) -> None:
@@ -400,6 +403,8 @@ class MeasurementPane(QtWidgets.QWidget):
     def _redraw(self) -> None:
         """Measured points and the fitted curve on the magnitude and phase plots."""
         m = self.measurement
+        # No empty frame (with a meaningless axis) before a measurement is imported.
+        self.deviation.setVisible(m is not None)
         if m is None:
             for item in list(self._points.values()) + list(self._fit_curves.values()) + [self.dev_design, self.dev_fitted]:
                 item.setData([], [])

@@ -41,6 +41,7 @@ from bandsmith.app.window.panes.shelf_model import EDITOR_COLUMNS, EDITOR_TIPS, 
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import BAD, GOOD, error_label
+from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.widgets.value_field import ValueField
 from bandsmith.app.window.widgets.verdict_strip import VERDICT_LOOK
 from bandsmith.app.window.verdicts import SESSION_KEY, VerdictBook, session_amps, session_supply_v, verdict_tooltip
@@ -81,6 +82,10 @@ def reasons_text(pairs) -> str:
     for cid, rs in lists:
         parts += [f"{cid}: {r}" for r in rs if r not in common]
     return "; ".join(parts)
+
+
+# Below this pane width (px) the verdicts and shelf sit above the chosen pair's plot, not beside it.
+_SIDE_BY_SIDE_FROM = 1100
 
 
 class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
@@ -126,8 +131,15 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         ll = QtWidgets.QVBoxLayout(left)
         ll.setContentsMargins(0, 0, 0, 0)
         self._build_verdict_table(left, ll)
-        self._build_shelf_editor(left, ll)
-        self._build_shelf_buttons(left, ll)
+        # The shelf editor in a box of its own: beside the chosen pair it sits under the
+        # verdicts; on a narrow pane it moves under the chosen pair (verdicts, pair, shelf).
+        self._editor_box = QtWidgets.QWidget(left)
+        el = QtWidgets.QVBoxLayout(self._editor_box)
+        el.setContentsMargins(0, 0, 0, 0)
+        self._build_shelf_editor(self._editor_box, el)
+        self._build_shelf_buttons(self._editor_box, el)
+        ll.addWidget(self._editor_box, 3)
+        self._left_layout = ll
 
         right = QtWidgets.QWidget(split)
         rl = QtWidgets.QVBoxLayout(right)
@@ -249,7 +261,7 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
 
     def _build_detail(self, right: QtWidgets.QWidget, rl: QtWidgets.QVBoxLayout) -> None:
         """The chosen pair's title and reasons, and its magnitude with an ideal and with the chosen op-amp."""
-        self.detail_title = QtWidgets.QLabel("Choose a verdict on the left", right)
+        self.detail_title = QtWidgets.QLabel("Choose a verdict in the table", right)
         self.detail_title.setObjectName("detailTitle")
         self.detail_title.setTextFormat(QtCore.Qt.TextFormat.RichText)
         self.detail_title.setWordWrap(True)
@@ -259,10 +271,12 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         self.detail_reasons.setWordWrap(True)
         self.detail_reasons.setTextFormat(QtCore.Qt.TextFormat.RichText)
         rl.addWidget(self.detail_reasons)
-        self.plot = pg.PlotWidget(right)
+        # The workbench's own log axis (plain decade ticks): pyqtgraph's, with an SI prefix, ran
+        # its labels together ("0.50.60.70.80.91").
+        self.plot = pg.PlotWidget(right, axisItems={"bottom": LogAxis("bottom")})
         self.plot.setObjectName("overlay")
         self.plot.setLogMode(x=True, y=False)
-        self.plot.setLabel("bottom", "frequency", units="Hz")
+        self.plot.setLabel("bottom", "frequency (Hz)")
         self.plot.setLabel("left", "magnitude", units="dB")
         self.plot.showGrid(x=True, y=True, alpha=0.25)
         self.plot.addLegend(offset=(6, 6))
@@ -462,6 +476,7 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
             self.verdicts.setColumnWidth(why_col, max(260, min(self.verdicts.columnWidth(why_col), 520)))
             self.verdicts.horizontalHeader().setStretchLastSection(True)
             self.verdicts.resizeRowsToContents()
+            self._fit_heights()
             if self._chosen is not None:
                 pos = self._position(*self._chosen)
                 if pos is None:
@@ -517,10 +532,49 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         if amp_name and (candidate_id, amp_name) != self._chosen:
             self.choose(candidate_id, amp_name)
 
+    def _fit_heights(self) -> None:
+        """The verdict table as tall as its rows (up to ten); on a narrow pane, the three blocks
+        stacked at the heights they need (verdicts, the chosen pair, the shelf)."""
+        t = self.verdicts
+        rows = min(t.rowCount(), 10)
+        bar = t.horizontalScrollBar().sizeHint().height()
+        h = t.horizontalHeader().sizeHint().height() + rows * t.verticalHeader().defaultSectionSize() + 2 * t.frameWidth() + bar
+        t.setMinimumHeight(min(h, 4 * t.verticalHeader().defaultSectionSize() + 40))
+        t.setMaximumHeight(max(h, 60))
+        if self.splitter.orientation() == QtCore.Qt.Orientation.Vertical:
+            top = self.splitter.widget(0)
+            heights = [top.sizeHint().height(), self.splitter.widget(1).sizeHint().height(), self._editor_box.sizeHint().height()]
+            top.setMaximumHeight(heights[0])
+            self.splitter.setSizes(heights)
+        else:
+            self.splitter.widget(0).setMaximumHeight(16777215)
+
+    def _choose_text(self) -> str:
+        where = "above" if self.splitter.orientation() == QtCore.Qt.Orientation.Vertical else "on the left"
+        return f"Choose a verdict {where} to see its response and headroom here"
+
+    def resizeEvent(self, event) -> None:  # noqa: N802 - Qt's name
+        # Narrow (a laptop, the board beside): the verdicts and the shelf above the chosen pair's
+        # plot and headroom, each at the pane's full width, so no verdict column is hidden.
+        vertical = event.size().width() < _SIDE_BY_SIDE_FROM
+        orientation = QtCore.Qt.Orientation.Vertical if vertical else QtCore.Qt.Orientation.Horizontal
+        if self.splitter.orientation() != orientation:
+            self.splitter.setOrientation(orientation)
+            if vertical:
+                self.splitter.addWidget(self._editor_box)  # verdicts, the chosen pair, the shelf
+            else:
+                self._left_layout.addWidget(self._editor_box, 3)
+            self._fit_heights()
+            if self._chosen is None:
+                self.detail_title.setText(self._choose_text())
+        super().resizeEvent(event)
+
     def _show_chosen(self) -> None:
         pair = self._chosen
+        # No empty plot frame (with a meaningless axis) before a verdict is picked.
+        self.plot.setVisible(pair is not None and pair[0] in self._reports)
         if pair is None or pair[0] not in self._reports:
-            self.detail_title.setText("Choose a verdict on the left")
+            self.detail_title.setText(self._choose_text())
             self.detail_reasons.setText("")
             self.curve_ideal.setData([], [])
             self.curve_amp.setData([], [])

@@ -178,6 +178,7 @@ class SpreadResults(QtWidgets.QWidget):
         self.yield_text.setText(f"Press <b>Run</b> to draw {n} trials of <b>{cid}</b>." if cid else "No active candidate.")
         for h in self.histograms.values():
             h.clear_data()
+            h.setVisible(False)  # no empty frames (with a meaningless 0–1 axis) before a run
         self.stats.clearContents()
         self.corners.setRowCount(0)
         fit_height(self.corners)
@@ -187,6 +188,8 @@ class SpreadResults(QtWidgets.QWidget):
         """Show a finished run, its histograms in ``colour`` (the candidate's)."""
         sp = run.spread
         s = sp.settings
+        for h in self.histograms.values():
+            h.setVisible(True)
         self.yield_label.setText(f"{100.0 * sp.yield_fraction:.1f} %")
         passed = int(np.count_nonzero(sp.passed))
         failed = sp.failed_trials

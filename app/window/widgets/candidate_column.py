@@ -70,6 +70,9 @@ class CandidateColumn(QtWidgets.QFrame):
 
         self._build_header(lay)  # line sample, id, circuit
         self.verdict_badge = VerdictBadge(state, candidate_id, self)  # the candidate's verdict and rank
+        # Fixed in both directions: a rank that changes (another candidate edited) repaints the
+        # badge without laying out this column again.
+        self.verdict_badge.setFixedWidth(_COLUMN_WIDTH - 16 - 4)
         lay.addWidget(self.verdict_badge)
         self._build_switches(lay)  # on/off and pin on the first row, variant actions on the second
         self._build_snap_row(lay)
@@ -253,6 +256,12 @@ class CandidateColumn(QtWidgets.QFrame):
         entry = self._entry(session)
         if entry is None:  # about to be removed by the board
             return
+        # Another candidate was edited: this column's fields are as they were (a part edit then
+        # refills one column, not all of them).
+        key = (entry, self.state.style(self.candidate_id))
+        if key == getattr(self, "_shown_entry", None):
+            return
+        self._shown_entry = key
         self.swatch.setPixmap(style_swatch(self.state.style(self.candidate_id)))
         self.title.setText(entry.id)
         self.active.setChecked(entry.enabled)
@@ -262,12 +271,14 @@ class CandidateColumn(QtWidgets.QFrame):
             f.set_value(entry.values[ref])
             f.edit.setToolTip(f.edit.toolTip().split("\nNow: ")[0] + f"\nNow: {entry.values[ref]:.6g} {f.unit}")
             self.keeps[ref].setChecked(ref in entry.fixed)
-        self.setProperty("enabledCandidate", entry.enabled)
-        self._repolish()
+        if self.property("enabledCandidate") != entry.enabled:  # re-polish (restyle) only on a change
+            self.setProperty("enabledCandidate", entry.enabled)
+            self._repolish()
 
     def _on_current_changed(self, candidate_id: str) -> None:
-        self.setProperty("current", candidate_id == self.candidate_id)
-        self._repolish()
+        if self.property("current") != (candidate_id == self.candidate_id):
+            self.setProperty("current", candidate_id == self.candidate_id)
+            self._repolish()
 
     def _repolish(self) -> None:
         self.style().unpolish(self)
@@ -279,6 +290,12 @@ class CandidateColumn(QtWidgets.QFrame):
         if entry is None:
             return
         res = self.state.result(self.candidate_id)
+        # The same result under the same conditions: nothing to redraw (identity: results hold arrays).
+        key = (entry.enabled, session.target, session.opamp, session.tolerances)
+        last = getattr(self, "_shown_result", None)
+        if last is not None and last[0] is res and last[1] == key:
+            return
+        self._shown_result = (res, key)
         self.problem.hide()
         if not entry.enabled or res is None:
             self.figures_title.setText("Achieved")

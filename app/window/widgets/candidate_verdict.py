@@ -28,6 +28,17 @@ SENSITIVITY_COLUMNS = (("part", None), ("S(f0)", "f0"), ("S(Q)", "q"), ("S(gain)
 _STRONG = 1.0
 
 
+def _same(row, shown) -> bool:
+    """Whether comparison row ``row`` shows as ``shown`` did (both judged the same way); a row
+    that cannot be compared counts as changed."""
+    if row is None or shown is None:
+        return False
+    try:
+        return bool(row == shown)
+    except (TypeError, ValueError):
+        return False
+
+
 class VerdictBadge(QtWidgets.QLabel):
     """The verdict of candidate ``candidate_id`` on one line (fixed height, so columns line up)."""
 
@@ -43,6 +54,9 @@ class VerdictBadge(QtWidgets.QLabel):
 
     def refresh(self) -> None:
         row = comparison_of(self.state.document).row(self.candidate_id)
+        if _same(row, getattr(self, "_shown_row", None)):
+            return
+        self._shown_row = row
         if row is None or row.verdict is None:
             self.setText(f'<span style="color:{MUTED}">not judged (switched off)</span>')
             self.setStyleSheet("")
@@ -53,7 +67,9 @@ class VerdictBadge(QtWidgets.QLabel):
         tail = (f'<b style="color:{INK}"> · {RECOMMENDED_MARK} recommended</b>' if row.recommended
                 else f'<span style="color:{MUTED}"> · rank {row.rank}</span>')
         self.setText(f'<b style="color:{colour}">{sym} {row.verdict.verdict}</b>{tail}')
-        self.setStyleSheet(f"QLabel#verdictBadge {{ background: {ground}; border-radius: 3px; padding: 1px 4px; }}")
+        sheet = f"QLabel#verdictBadge {{ background: {ground}; border-radius: 3px; padding: 1px 4px; }}"
+        if sheet != self.styleSheet():  # a new style sheet re-polishes the widget: only on a change
+            self.setStyleSheet(sheet)
         self.setToolTip("\n".join(f"• {r.text}" for r in row.verdict.reasons) or "No limit crossed.")
 
     @property
@@ -115,6 +131,10 @@ class VerdictDetails(QtWidgets.QWidget):
 
     def refresh(self) -> None:
         row = comparison_of(self.state.document).row(self.candidate_id)
+        if _same(row, getattr(self, "_shown_row", None)):
+            self._show_sensitivities()
+            return
+        self._shown_row = row
         if row is None or row.verdict is None:
             self.reasons.setText(f'<span style="color:{MUTED}">switched off: not judged</span>')
         elif not row.verdict.reasons:
@@ -133,6 +153,10 @@ class VerdictDetails(QtWidgets.QWidget):
         current = self.state.current_id == self.candidate_id
         res = self.state.result(self.candidate_id)
         sens = res.analysis.sensitivity if current and res is not None and res.ok else None
+        shown = getattr(self, "_shown_sens", None)
+        if shown is not None and shown[0] is sens:
+            return  # the same table (or none) as shown
+        self._shown_sens = (sens,)
         self.sens_title.setVisible(sens is not None)
         self.sensitivities.setVisible(sens is not None)
         if sens is None:

@@ -1,8 +1,9 @@
 """The candidates board: one column per candidate, side by side, scrolling sideways when many.
 
 The board only keeps its columns in step with the session's candidates (adds, removes, reorders
-by id); each column draws itself from the state. The last item is a button that adds a candidate
-of any circuit, designed for the target.
+by id); each column draws itself from the state. A strip above the scrolling columns (outside
+the scrolled area, so it is always in view) holds the button that adds a candidate of any
+circuit, designed for the target.
 """
 
 from __future__ import annotations
@@ -35,9 +36,15 @@ class CandidatesBoard(QtWidgets.QScrollArea):
         self._row = QtWidgets.QHBoxLayout(inner)
         self._row.setContentsMargins(6, 6, 6, 6)
         self._row.setSpacing(6)
-        self.add_button = QtWidgets.QToolButton(inner)
+        # The strip sits in the scroll area's top margin: it never scrolls away.
+        self.top_strip = QtWidgets.QWidget(self)
+        self.top_strip.setObjectName("boardStrip")
+        strip = QtWidgets.QHBoxLayout(self.top_strip)
+        strip.setContentsMargins(6, 3, 6, 1)
+        strip.setSpacing(8)
+        self.add_button = QtWidgets.QToolButton(self.top_strip)
         self.add_button.setObjectName("addCandidate")
-        self.add_button.setText("+ Add\ncandidate")
+        self.add_button.setText("+ Add candidate")
         self.add_button.setToolTip("Add a candidate of another circuit, designed for the target.")
         self.add_button.setPopupMode(QtWidgets.QToolButton.ToolButtonPopupMode.InstantPopup)
         menu = QtWidgets.QMenu(self.add_button)
@@ -45,8 +52,14 @@ class CandidatesBoard(QtWidgets.QScrollArea):
             act = menu.addAction(topo.title)
             act.triggered.connect(lambda _=False, t=topo.id: self.state.add_candidate(t))
         self.add_button.setMenu(menu)
-        self.add_button.setMinimumSize(90, 60)
-        self._row.addWidget(self.add_button, 0, QtCore.Qt.AlignmentFlag.AlignTop)
+        self.count_label = QtWidgets.QLabel(self.top_strip)
+        self.count_label.setObjectName("boardCount")
+        self.count_label.setStyleSheet("color: #5f6368;")
+        # The count may be cut short in a narrow board; it must not widen the board.
+        self.count_label.setSizePolicy(QtWidgets.QSizePolicy.Policy.Ignored, QtWidgets.QSizePolicy.Policy.Preferred)
+        strip.addWidget(self.add_button)
+        strip.addWidget(self.count_label, 1)
+        self.setViewportMargins(0, self.top_strip.sizeHint().height(), 0, 0)
         self._row.addStretch(1)
         self.setWidget(inner)
         state.session_changed.connect(self._on_session_changed)
@@ -65,9 +78,35 @@ class CandidatesBoard(QtWidgets.QScrollArea):
                 col = self.columns[cid] = CandidateColumn(self.state, cid, self.widget())
             if self._row.indexOf(col) != i:
                 self._row.removeWidget(col)
-                self._row.insertWidget(i, col)
+                # Top-aligned at its own height: a column that grows (an edit) leaves the others'
+                # geometry, layout and paint alone.
+                self._row.insertWidget(i, col, 0, QtCore.Qt.AlignmentFlag.AlignTop)
+        n = len(ids)
+        self.count_label.setText(f"{n} candidate{'s' if n != 1 else ''}" + (" · scroll sideways for more" if self._hidden_columns() else ""))
+
+    def _hidden_columns(self) -> bool:
+        bar = self.horizontalScrollBar()
+        return bar.maximum() > 0
+
+    def resizeEvent(self, event) -> None:  # noqa: N802 - Qt's name
+        super().resizeEvent(event)
+        self.top_strip.setGeometry(0, 0, self.width(), self.top_strip.sizeHint().height())
+        n = len(self.columns)
+        if n:
+            self.count_label.setText(f"{n} candidate{'s' if n != 1 else ''}" + (" · scroll sideways for more" if self._hidden_columns() else ""))
 
     def preferred_width(self) -> int:
         """Width (px) that shows every column without sideways scrolling."""
-        cols = sum(c.width() + self._row.spacing() for c in self.columns.values())
-        return cols + self.add_button.sizeHint().width() + 30
+        return self.width_for(1 << 20)
+
+    def width_for(self, room: int) -> int:
+        """Width (px) of the board showing as many whole columns as fit in ``room`` px (at least
+        one, at most all), with its margins and vertical scroll bar."""
+        m = self._row.contentsMargins()
+        extra = m.left() + m.right() + self.verticalScrollBar().sizeHint().width() + 2
+        cols = [c.width() for c in self.columns.values()]
+        if not cols:
+            return max(self.top_strip.sizeHint().width(), 120)
+        step = max(cols) + self._row.spacing()
+        k = max(1, min(len(cols), (room - extra + self._row.spacing()) // step))
+        return max(k * step - self._row.spacing() + extra, self.top_strip.minimumSizeHint().width())

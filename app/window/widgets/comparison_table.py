@@ -80,6 +80,17 @@ def _signed(x: float, digits: int = 2) -> str:
     return f"{x:+.{digits}f}".replace("-", "−")
 
 
+def _looks_alike(a: QtWidgets.QTableWidgetItem, b: QtWidgets.QTableWidgetItem, *, bold_too: bool) -> bool:
+    """Whether two cells show the same (text, colours, tooltip, row id; the boldness too unless
+    the selection mark sets it, as in the id column)."""
+    role = QtCore.Qt.ItemDataRole
+    same = (a.text() == b.text() and a.toolTip() == b.toolTip() and a.foreground() == b.foreground()
+            and a.background() == b.background() and a.data(role.UserRole) == b.data(role.UserRole))
+    if bold_too:
+        same = same and a.font().bold() == b.font().bold()
+    return same
+
+
 class ComparisonTable(QtWidgets.QWidget):
     """The recommendation line and the table of candidates (see the module notes).
 
@@ -121,6 +132,7 @@ class ComparisonTable(QtWidgets.QWidget):
         self.summary.setSizePolicy(QtWidgets.QSizePolicy.Policy.Ignored, QtWidgets.QSizePolicy.Policy.Preferred)
         side.addWidget(self.summary, 1)
 
+        self.max_rows = MAX_ROWS
         self.table = QtWidgets.QTableWidget(0, len(COLUMNS), self)
         self.table.setObjectName("comparisonGrid")
         self.table.setEditTriggers(QtWidgets.QAbstractItemView.EditTrigger.NoEditTriggers)
@@ -158,11 +170,13 @@ class ComparisonTable(QtWidgets.QWidget):
         comp = self.comparison = comparison_of(self.state.document)
         self._show_summary(comp)
         self.table.blockSignals(True)
+        changed = self.table.rowCount() != len(comp.rows)
         self.table.setRowCount(len(comp.rows))
         for i, row in enumerate(comp.rows):
-            self._fill_row(i, row)
+            changed |= self._fill_row(i, row)
         self.table.blockSignals(False)
-        self._select_current(self.state.current_id)
+        if changed:
+            self._select_current(self.state.current_id)
 
     def _show_summary(self, comp: SessionComparison) -> None:
         if comp.recommended is not None:
@@ -191,7 +205,8 @@ class ComparisonTable(QtWidgets.QWidget):
             item.setFont(f)
         return item
 
-    def _fill_row(self, i: int, row: CandidateJudgement) -> None:
+    def _fill_row(self, i: int, row: CandidateJudgement) -> bool:
+        """Show ``row`` in table row ``i``; True when a cell changed."""
         v = row.verdict
         reasons = "\n".join(f"• {r.text}" for r in v.reasons) if v is not None else ""
         tip = f"{row.id}: {v.verdict}" + (f"\n{reasons}" if reasons else "") if v is not None else f"{row.id}: switched off, not judged"
@@ -225,9 +240,17 @@ class ComparisonTable(QtWidgets.QWidget):
             cells.append(self._item(_ratio(row.c_spread), colour=_flag(v, "c_spread")))
         cells.append(self._item(str(row.part_count)))
         cells.append(self._item("yes" if row.needs_inductor else "no", right=False))
+        changed = False
         for c, item in enumerate(cells):
             item.setData(QtCore.Qt.ItemDataRole.UserRole, row.id)
+            if c == 1 and row.id == self.state.current_id:
+                item.setText("▸ " + row.id)  # as the selection mark shows it
+            old = self.table.item(i, c)
+            if old is not None and _looks_alike(old, item, bold_too=c != 1):
+                continue  # the cell shows the same: leave it (no relayout, no repaint)
+            changed = True
             self.table.setItem(i, c, item)
+        return changed
 
     def _fit_size(self) -> None:
         """As wide as its columns and as tall as its rows (up to MAX_ROWS; more scroll)."""
@@ -240,13 +263,21 @@ class ComparisonTable(QtWidgets.QWidget):
         ids = [self.row_id(i) for i in range(self.table.rowCount())]
         widest = max([fm.horizontalAdvance("▸ " + i) for i in ids] + [hh.sectionSize(1) - 16])
         self.table.setColumnWidth(1, widest + 16)
-        rows = min(self.table.rowCount(), MAX_ROWS)
+        rows = min(self.table.rowCount(), self.max_rows)
         frame = 2 * self.table.frameWidth()
         h = hh.sizeHint().height() + rows * self.table.verticalHeader().defaultSectionSize() + frame
         w = sum(hh.sectionSize(c) for c in range(hh.count())) + frame
-        if self.table.rowCount() > MAX_ROWS:
+        if self.table.rowCount() > self.max_rows:
             w += self.table.verticalScrollBar().sizeHint().width()
         self.table.setFixedSize(w, h)
+
+    def set_max_rows(self, rows: int) -> None:
+        """Show at most ``rows`` rows without scrolling (the window lowers it on a short screen,
+        so the board and the plots below keep their height)."""
+        rows = max(1, min(int(rows), MAX_ROWS))
+        if rows != self.max_rows:
+            self.max_rows = rows
+            self._fit_size()
 
     def _select_current(self, cid: str) -> None:
         """Mark the selected candidate's row: ▸ before its id, in bold."""

@@ -2,6 +2,12 @@
 
 Three columns when the grid is wide, two when it is narrow (it re-flows on resize), so each plot
 keeps a readable size. ``cursor_text`` forwards the read-out of whichever plot the mouse is over.
+
+While the user edits part values the axes stay put (auto-range is switched off for that edit, so
+only the edited candidate's curves are redrawn, not the ticks and grid); any other change (the
+target, the op-amp, a candidate added, removed, switched on or off, a new session) fits the axes
+to the curves again. The axes are drawn into a cached pixmap (a device-coordinate cache) and
+only re-rendered when their range or size changes.
 """
 
 from __future__ import annotations
@@ -16,6 +22,8 @@ __all__ = ["PlotGrid"]
 
 # Below this width (px) the grid uses two columns instead of three.
 _THREE_COLUMNS_FROM = 1000
+# The least height (px) of a plot: axis labels, ticks and a readable curve.
+_MIN_PLOT_HEIGHT = 140
 
 
 class PlotGrid(QtWidgets.QWidget):
@@ -32,7 +40,18 @@ class PlotGrid(QtWidgets.QWidget):
         for cls in PLOT_CLASSES:
             plot = cls(state, self)
             plot.cursor_text.connect(self.cursor_text)
+            # Three rows of plots, the tabs and the legend must fit under the target strip and
+            # the comparison table of a 768 px high laptop screen.
+            plot.setMinimumHeight(_MIN_PLOT_HEIGHT)
             self.plots[cls.key] = plot
+        for plot in self.plots.values():
+            item = plot.getPlotItem()
+            for side in ("left", "bottom"):
+                item.getAxis(side).setCacheMode(QtWidgets.QGraphicsItem.CacheMode.DeviceCoordinateCache)
+        # The plots that fit their axes to the curves (the pole-zero plot sets its own range).
+        self._fitting = [p for p in self.plots.values() if any(p.getPlotItem().getViewBox().autoRangeEnabled())]
+        self._last_session = state.session
+        state.session_changed.connect(self._keep_axes_on_part_edits)
         outer = QtWidgets.QVBoxLayout(self)
         outer.setContentsMargins(0, 0, 0, 0)
         outer.setSpacing(0)
@@ -44,6 +63,25 @@ class PlotGrid(QtWidgets.QWidget):
         self._layout.setSpacing(6)
         self._columns = 0
         self._reflow(3)
+
+    def _keep_axes_on_part_edits(self, session) -> None:
+        """Before the plots redraw: keep the axes when only part values changed, else fit them."""
+        before, self._last_session = self._last_session, session
+        part_edit = (
+            before is not None
+            and before.target == session.target
+            and before.opamp == session.opamp
+            and [(c.id, c.topology_id, c.enabled) for c in before.candidates]
+            == [(c.id, c.topology_id, c.enabled) for c in session.candidates]
+        )
+        for plot in self._fitting:
+            vb = plot.getPlotItem().getViewBox()
+            if part_edit:
+                if any(vb.autoRangeEnabled()):
+                    vb.updateAutoRange()  # settle a fit still pending (no paint yet) before keeping it
+                vb.disableAutoRange()
+            else:
+                vb.enableAutoRange()
 
     def _reflow(self, columns: int) -> None:
         if columns == self._columns:
@@ -90,6 +128,11 @@ class LegendStrip(QtWidgets.QWidget):
 
     def _on_analyses_changed(self) -> None:
         from bandsmith.app.window.widgets.candidate_column import style_swatch
+
+        names = [(cid, self.state.style(cid)) for cid in self.state.results]
+        if names == getattr(self, "_shown_names", None):
+            return  # the same candidates in the same styles: the strip stays (part edits)
+        self._shown_names = names
 
         while self._row.count():
             item = self._row.takeAt(0)

@@ -121,6 +121,9 @@ class CandidatePlot(pg.PlotWidget):
         st = self.state.style(cid)
         curve = self.getPlotItem().plot([], [], pen=st.pen(2.0), name=cid, connect="finite")
         curve.setObjectName(cid)
+        # Drawn once into a pixmap and blitted while unchanged: a part edit redraws the edited
+        # candidate's curve only, not every curve under the repainted region.
+        curve.curve.setCacheMode(QtWidgets.QGraphicsItem.CacheMode.DeviceCoordinateCache)
         return curve
 
     def _on_analyses_changed(self) -> None:
@@ -129,9 +132,17 @@ class CandidatePlot(pg.PlotWidget):
             if cid not in results or not results[cid].ok:
                 item = self.curves.pop(cid)
                 self.getPlotItem().removeItem(item)
+        shown = getattr(self, "_shown", {})
+        self._shown = {}
         for cid, res in results.items():
             if not res.ok:
                 continue
+            pen_key = self.state.style(cid)
+            prev = shown.get(cid)
+            if cid in self.curves and prev is not None and prev[0] is res and prev[1] == pen_key:
+                self._shown[cid] = shown[cid]  # unchanged result and style: the curve stays as it is
+                continue
+            self._shown[cid] = (res, pen_key)
             data = self.curve_data(res)
             if data is None:
                 continue

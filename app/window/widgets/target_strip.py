@@ -202,6 +202,11 @@ class TargetStrip(QtWidgets.QFrame):
     # -- state → view -------------------------------------------------------------------
     def _on_session_changed(self, session: Session) -> None:
         t = session.target
+        # A part edit leaves the target and the op-amp as they were: nothing to refill.
+        key = (t, session.opamp, session.tolerances, session.rload_ohm, self.q_mode.currentIndex())
+        if key == getattr(self, "_shown", None):
+            return
+        self._shown = key
         self.f0.set_value(t.f0_hz)
         self.q.set_value(t.q)
         self.bw.set_value(t.f0_hz / t.q)
