@@ -18,6 +18,10 @@ scipy; it never imports Qt.
 
 from __future__ import annotations
 
+from bandsmith.solver.blas_threads import one_blas_thread
+
+one_blas_thread()  # before numpy loads BLAS, where possible: the core's matrices are all small
+
 __all__ = [
     "list_circuits",
     "design_circuit",
