@@ -15,7 +15,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
 
 from bandsmith.solver.mna import MnaSystem
 
@@ -145,6 +144,8 @@ def reference_w(system: MnaSystem) -> float:
 
     Used to normalise polynomial coefficients; an ideal-op-amp second-order band-pass gives ω0.
     """
+    import scipy.linalg  # here, not at import: scipy.linalg is a third of the command's start-up
+
     ev = scipy.linalg.eigvals(system.G[0], -system.C[0])
     mag = np.abs(ev[np.isfinite(ev)])
     mag = mag[(mag > 0) & (mag < 1e300)]
