@@ -18,6 +18,10 @@ scipy; it never imports Qt.
 
 from __future__ import annotations
 
+from bandsmith.solver.blas_threads import one_blas_thread
+
+one_blas_thread()  # before numpy loads BLAS, where possible: the core's matrices are all small
+
 # The list lives with the functions (bandsmith.api imports only the errors module when loaded);
 # each name is fetched from there on first use.
 from bandsmith.api import __all__  # noqa: E402

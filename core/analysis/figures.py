@@ -31,7 +31,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
-__all__ = ["Figures", "measure", "measure_near", "biquad_figures"]
+__all__ = ["Figures", "measure", "measure_near", "biquad_figures", "exact_in_closed_form"]
 
 _ROOT_STEPS = 8
 # From this batch size on, quadratics and cubics are solved in closed form (bandsmith.solver.polyroots): a
@@ -178,6 +178,16 @@ def measure(h: Rational, *, grid: np.ndarray | None = None) -> Figures:
     else:
         u_pk, u_low, u_high = _by_grid(pu, qu, slope, np.asarray(grid, dtype=float))
     return _figures(h, u_pk, u_low, u_high)
+
+
+def exact_in_closed_form(h: Rational) -> bool:
+    """True when :func:`measure` without a grid takes every root in closed form: a batch of at
+    least 96 members whose peak and half-power polynomials in ``u = ω²`` are quadratics or cubics
+    (numerator and denominator of degree at most three in ``s``, the denominator above one, the
+    slope ``P'Q − PQ'`` of degree two or three). Then the exact measurement costs no more than
+    a search grid."""
+    m, n = h.num.shape[1], h.den.shape[1]
+    return h.batch >= _CLOSED_FORM_FROM and m + n - 2 in (3, 4) and max(m, n) in (3, 4)
 
 
 def _biquad(h: Rational):

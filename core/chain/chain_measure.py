@@ -89,6 +89,8 @@ def _crossing(mag_fn, lo_hz: np.ndarray, hi_hz: np.ndarray, level: float) -> np.
     fa = mag_fn(np.exp(a)) - level
     for _ in range(60):
         m = 0.5 * (a + b)
+        if ((m == a) | (m == b)).all():
+            break  # every bracket is two neighbouring floats: the steps left change nothing
         fm = mag_fn(np.exp(m)) - level
         same = np.signbit(fm) == np.signbit(fa)
         a, fa = np.where(same, m, a), np.where(same, fm, fa)

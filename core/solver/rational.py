@@ -15,7 +15,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
 
 from bandsmith.solver.mna import MnaSystem
 
@@ -145,6 +144,8 @@ def reference_w(system: MnaSystem) -> float:
 
     Used to normalise polynomial coefficients; an ideal-op-amp second-order band-pass gives ω0.
     """
+    import scipy.linalg  # here, not at import: scipy.linalg is a third of the command's start-up
+
     ev = scipy.linalg.eigvals(system.G[0], -system.C[0])
     mag = np.abs(ev[np.isfinite(ev)])
     mag = mag[(mag > 0) & (mag < 1e300)]
@@ -181,7 +182,7 @@ def _samples(system: MnaSystem, w: np.ndarray) -> tuple[int, np.ndarray]:
     return k, system.matrix(w[:, None] * np.exp(1j * theta)[None, :])
 
 
-def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = None) -> Rational:
+def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = None, *, circle_w: float | None = None) -> Rational:
     """Exact rational transfer function of a batched MNA system.
 
     Parameters
@@ -191,8 +192,12 @@ def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = N
     w_ref : float or ndarray, optional
         Normalising angular frequency (rad/s), scalar or ``(B,)``; by default
         :func:`reference_w` of the first member.
+    circle_w : float, optional
+        With finite op-amps, the radius (rad/s) of the sampling circle of the ideal-op-amp
+        determinants, known to be near their roots (a circuit at unit values); by default the
+        ideal circuit's :func:`reference_w` (generalised eigenvalues, scipy.linalg).
     """
-    return _rational_and_family(system, w_ref, family=False)[0]
+    return _rational_and_family(system, w_ref, family=False, circle_w=circle_w)[0]
 
 
 @dataclass(frozen=True, slots=True)
@@ -257,7 +262,7 @@ def _finite_amps(system: MnaSystem) -> bool:
     return bool(terms) and any(np.any(a != 0) or np.any(b != 0) for _, _, a, b in terms)
 
 
-def _by_amplifiers(system: MnaSystem, w: np.ndarray) -> Rational:
+def _by_amplifiers(system: MnaSystem, w: np.ndarray, circle_w: float | None = None) -> Rational:
     """Exact transfer function of a system with finite op-amps, expanded in the op-amp terms.
 
     Each op-amp ``k`` adds ``x_k(s) = −(1/A0 + s/ωt)`` to one entry ``(r_k, c_k)`` of the pencil,
@@ -283,7 +288,7 @@ def _by_amplifiers(system: MnaSystem, w: np.ndarray) -> Rational:
     base = MnaSystem(G0, C0, system.layout, system.output_index, None)
     # the circle: the ideal circuit's natural frequency (a w_ref among far op-amp poles would put
     # it far from the roots of the det(A_S)); the result is rescaled to w_ref at the end
-    wb = np.full(system.batch, reference_w(base))
+    wb = np.full(system.batch, reference_w(base) if circle_w is None else float(circle_w))
     k, a0 = _samples(base, wb)
     bsz = system.batch
     # x_k in p_b = s/wb, highest power first: −(wb/ωt)·p_b − 1/A0, shape (B, 2)
@@ -406,12 +411,12 @@ def _padd(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return out
 
 
-def _rational_and_family(system: MnaSystem, w_ref, *, family: bool) -> tuple[Rational, OpAmpFamily | None]:
+def _rational_and_family(system: MnaSystem, w_ref, *, family: bool, circle_w: float | None = None) -> tuple[Rational, OpAmpFamily | None]:
     if w_ref is None:
         w_ref = reference_w(system)
     w = np.broadcast_to(np.asarray(w_ref, dtype=float), (system.batch,))
     if _finite_amps(system):
-        return _by_amplifiers(system, w), None
+        return _by_amplifiers(system, w, circle_w), None
     k, a = _samples(system, w)
     den_v = np.linalg.det(a)
     b = np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None]

@@ -15,7 +15,7 @@ from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.common.errors import InputError
 from bandsmith.solver.expansion import Expansion, ExpansionUnavailable, Variable, circuit_variables
 from bandsmith.analysis.sensitivity import log_slopes, perturbed_ratios
-from bandsmith.analysis.figures import Figures, biquad_figures, measure
+from bandsmith.analysis.figures import Figures, biquad_figures, exact_in_closed_form, measure
 from bandsmith.solver.mna import OpAmpModel
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import Rational
@@ -96,7 +96,10 @@ class Evaluator:
             return biquad_figures(num[0], den[2], den[1], den[0], self.w_ref)
         h = self.rational(ratios)
         stable = hurwitz_stable(h.den)
-        fig = self._measure_tracked(h, ratios) if tracked else _measure_wide(h)
+        if tracked and exact_in_closed_form(h):
+            fig = measure(h)  # exact roots in closed form: cheaper than the tracked grid, and global
+        else:
+            fig = self._measure_tracked(h, ratios) if tracked else _measure_wide(h)
         return fig, stable & fig.valid
 
     def sensitivities(self) -> dict[str, np.ndarray]:

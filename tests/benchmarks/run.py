@@ -3,7 +3,8 @@
 Run ``python tests/benchmarks/run.py``; the last line of output is one JSON object
 ``{"reference_s": …, "ratios": {JOB: …}, "absolute": {KEY: …}}`` (the README's "Benchmark"). The reference is
 ``scipy.signal.freqs`` on a second-order band-pass at 1000 frequencies. A job whose module is not
-there yet is simply absent. Not collected by pytest (no ``test_`` prefix).
+there yet is simply absent. Every job runs over every circuit and keeps its worst, named under
+``"worst"``; a goal not met is printed and the exit status is 1. Not collected by pytest (no ``test_`` prefix).
 """
 
 from __future__ import annotations
@@ -27,9 +28,10 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(ROOT / "tests"))
 
 
-def median_time(fn: Callable[[], object], *, repeat: int, number: int = 1) -> float:
+def median_time(fn: Callable[[], object], *, repeat: int, number: int = 1, warm: bool = True) -> float:
     """Median over ``repeat`` runs of the mean time of ``number`` calls, in seconds."""
-    fn()  # warm-up: imports, caches
+    if warm:
+        fn()  # warm-up: imports, caches
     times = []
     for _ in range(repeat):
         gc.disable()
@@ -48,35 +50,17 @@ def reference_call() -> Callable[[], object]:
     return lambda: scipy.signal.freqs(b, a, worN=w)
 
 
-def analyze_one() -> Callable[[], object]:
-    from bandsmith.analysis.analyzer import sweep
-    from bandsmith.design.candidate import Candidate, Conditions
-    from bandsmith.circuits import get_topology
-
-    topo = get_topology("mfb")
-    cand = Candidate(topo.id, topo.example)
-    cond = Conditions(gbw_hz=1e6)
-    f = np.geomspace(10.0, 10e6, 1000)
-
-    def job():
-        a = cand.analyze(cond)
-        sweep(a.h_actual, f)
-
-    return job
-
-
-def compare_e24() -> Callable[[], object]:
-    from bandsmith.design.compare import compare
-    from bandsmith.design.designer import Spec
-
-    spec = Spec(f0_hz=3.3e3, q=4.0, gain=3.0)
-    return lambda: compare(spec, series="E24")
-
-
 def _optional(module: str, name: str):
     try:
         return getattr(importlib.import_module(module), name)
     except (ImportError, AttributeError):
+        return None
+
+
+def _optional_module(module: str):
+    try:
+        return importlib.import_module(module)
+    except ImportError:
         return None
 
 
@@ -86,6 +70,136 @@ def peak_mb(fn: Callable[[], object]) -> float:
     _, peak = tracemalloc.get_traced_memory()
     tracemalloc.stop()
     return peak / 1e6
+
+
+# Goals (issue "Speed on every path"): ratios to the reference, absolute figures in their units.
+# A goal not met is printed and makes the exit status 1, after the JSON line.
+RATIO_GOALS = {
+    "analyze_one": 60.0,
+    "compare_e24": 150.0,
+    "mc_ideal_100k": 2000.0,
+    "mc_finite_10k": 20000.0,
+    "mc_finite_1m": 30000.0,
+    "cascade_order8": 1000.0,
+}
+ABSOLUTE_GOALS = {
+    "gui_replot_median_ms": 33.0,
+    "gui_startup_s": 1.5,
+    "fit_100k_s": 5.0,
+    "fit_100k_peak_mb": 500.0,
+    "mc_peak_mb": 500.0,
+    "cli_start_s": 0.30,
+    "sweep_1m_s": 2.0,
+    "sweep_1m_peak_mb": 300.0,
+    "first_analysis_x_warm": 3.0,
+}
+
+
+class Results:
+    """What the jobs measured: ratios, absolute figures and each job's worst circuit."""
+
+    def __init__(self, ref: float):
+        self.ref = ref
+        self.ratios: dict[str, float] = {}
+        self.absolute: dict[str, float] = {}
+        self.worst: dict[str, str] = {}
+
+    def time_each(self, name: str, make, circuits, *, repeat: int, number: int = 1, warm: bool = True):
+        """Time ``make(circuit)()`` for every circuit; keep the worst ratio and name its circuit."""
+        worst = None
+        for c in circuits:
+            fn = make(c)
+            t = median_time(fn, repeat=repeat, number=number, warm=warm)
+            print(f"{name}[{c}]: {t * 1e3:.3f} ms median, {t / self.ref:.1f}x reference", file=sys.stderr)
+            if worst is None or t > worst[0]:
+                worst = (t, c)
+        if worst is not None:
+            self.ratios[name] = worst[0] / self.ref
+            self.worst[name] = worst[1]
+            print(f"{name}: worst {worst[1]}, {worst[0] / self.ref:.1f}x reference", file=sys.stderr)
+
+    def put(self, key: str, value: float, worst: str | None = None) -> None:
+        self.absolute[key] = float(value)
+        if worst is not None:
+            self.worst[key] = worst
+        print(f"{key}: {value:.4g}" + (f" (worst {worst})" if worst else ""), file=sys.stderr)
+
+    def failures(self) -> list[str]:
+        out = [f"{k}: {v:.1f}x > {RATIO_GOALS[k]:g}x" for k, v in self.ratios.items() if k in RATIO_GOALS and v > RATIO_GOALS[k]]
+        out += [f"{k}: {v:.4g} > {ABSOLUTE_GOALS[k]:g}" for k, v in self.absolute.items() if k in ABSOLUTE_GOALS and v > ABSOLUTE_GOALS[k]]
+        return out
+
+    def to_json(self) -> dict:
+        return {"reference_s": self.ref, "ratios": self.ratios, "absolute": self.absolute, "worst": self.worst}
+
+
+def run_analysis_jobs(res: Results) -> None:
+    """``analyze_one`` over every circuit (the worst kept) and ``compare_e24`` (every circuit in one call)."""
+    jobs = _optional_module("jobs_analysis")
+    if jobs is None:
+        return
+    res.time_each("analyze_one", jobs.analyze_one, jobs.circuits(), repeat=9, number=5)
+    res.time_each("compare_e24", lambda _c: jobs.compare_e24(), ["all circuits"], repeat=9, number=2)
+
+
+def run_spread_jobs(res: Results) -> None:
+    """The Monte Carlo jobs over every circuit; ``mc_peak_mb`` is the largest peak of any of them."""
+    jobs = _optional_module("jobs_spread")
+    if jobs is None:
+        return
+    from jobs_analysis import circuits
+
+    peaks = []
+    for name, repeat in (("mc_ideal_100k", 3), ("mc_finite_10k", 3), ("mc_finite_1m", 1)):
+        fn = getattr(jobs, name, None)
+        if fn is None:
+            continue
+        # a million trials: warmed by the 10k job, timed once
+        res.time_each(name, lambda c, fn=fn: (lambda: fn(c)), circuits(), repeat=repeat, warm=name != "mc_finite_1m")
+        peaks += [(peak_mb(lambda c=c: fn(c)), f"{name}[{c}]") for c in circuits()]
+    if peaks:
+        mb, where = max(peaks)
+        res.put("mc_peak_mb", mb, where)
+
+
+def run_cascade_job(res: Results) -> None:
+    fn = _optional("jobs_cascade", "cascade_order8")
+    if fn is not None:
+        res.time_each("cascade_order8", lambda _c: fn, ["circuits chosen per stage"], repeat=9)
+
+
+def run_cli_jobs(res: Results) -> None:
+    """Whole-process jobs: command start-up, a million-point sweep, the first analysis in a fresh process."""
+    jobs = _optional_module("jobs_cli")
+    if jobs is None:
+        return
+    from jobs_analysis import circuits
+
+    print(f"numpy import floor: {jobs.numpy_floor():.3f} s (least of 7)", file=sys.stderr)
+    start = jobs.cli_start()
+    for cmd, t in start.items():
+        print(f"cli {cmd}: median {t['median']:.3f} s, least {t['min']:.3f} s", file=sys.stderr)
+    cmd = max(start, key=lambda k: start[k]["median"])
+    res.put("cli_start_s", start[cmd]["median"], cmd)
+    sw = jobs.sweep_1m()
+    res.put("sweep_1m_s", sw["s"])
+    res.put("sweep_1m_peak_mb", sw["peak_mb"])
+    firsts = []
+    for c in circuits():
+        first, warm = jobs.first_analysis(c)
+        cold, _ = jobs.first_analysis(c, preload_scipy=False)
+        print(f"first analysis[{c}]: {first * 1e3:.2f} ms ({cold * 1e3:.2f} ms importing scipy.linalg on first use), "
+              f"warm {warm * 1e3:.2f} ms", file=sys.stderr)
+        firsts.append((first / warm, c))
+    x, c = max(firsts)
+    res.put("first_analysis_x_warm", x, c)
+
+
+def run_gui_jobs(res: Results) -> None:
+    for key in ("gui_replot_median_ms", "gui_startup_s"):
+        fn = _optional("jobs_gui", key)
+        if fn is not None:
+            res.put(key, float(fn()))
 
 
 def fit_100k() -> tuple[float, float]:
@@ -126,53 +240,41 @@ def fit_100k() -> tuple[float, float]:
         return seconds, peak_mb(run)
 
 
-def main() -> dict:
-    ref = median_time(reference_call(), repeat=31, number=200)
-    ratios: dict[str, float] = {}
-    absolute: dict[str, float] = {}
+def run_fit_job(res: Results) -> None:
+    seconds, mb = fit_100k()
+    res.put("fit_100k_s", seconds)
+    res.put("fit_100k_peak_mb", mb)
 
-    def job(name: str, make, *, repeat: int, number: int = 1):
-        try:
-            fn = make()
-        except (ImportError, AttributeError) as exc:
-            print(f"{name}: not built ({exc})", file=sys.stderr)
-            return None
-        t = median_time(fn, repeat=repeat, number=number)
-        ratios[name] = t / ref
-        print(f"{name}: {t * 1e3:.3f} ms median, {t / ref:.1f}x reference", file=sys.stderr)
-        return fn
 
-    job("analyze_one", analyze_one, repeat=15, number=10)
-    job("compare_e24", compare_e24, repeat=15, number=3)
-    mc_peaks = []
-    for name in ("mc_ideal_100k", "mc_finite_10k"):
-        fn = _optional("jobs_spread", name)
-        if fn is not None:
-            job(name, lambda fn=fn: fn, repeat=5)
-            mc_peaks.append(peak_mb(fn))
-    if mc_peaks:
-        absolute["mc_peak_mb"] = max(mc_peaks)
-    fn = _optional("jobs_cascade", "cascade_order8")
-    if fn is not None:
-        job("cascade_order8", lambda: fn, repeat=9)
-    for key in ("gui_replot_median_ms", "gui_startup_s"):
-        fn = _optional("jobs_gui", key)
-        if fn is not None:
-            absolute[key] = float(fn())
-            print(f"{key}: {absolute[key]:.3g}", file=sys.stderr)
-    try:
-        absolute["fit_100k_s"], absolute["fit_100k_peak_mb"] = fit_100k()
-        print(f"fit_100k: {absolute['fit_100k_s']:.3g} s, {absolute['fit_100k_peak_mb']:.3g} MB peak", file=sys.stderr)
-    except (ImportError, AttributeError) as exc:
-        print(f"fit_100k: not built ({exc})", file=sys.stderr)
-    result = {"reference_s": ref, "ratios": ratios, "absolute": absolute}
+# Job groups, run in this order; `run.py GROUP …` runs only those named.
+GROUPS = {
+    "analysis": run_analysis_jobs,
+    "spread": run_spread_jobs,
+    "cascade": run_cascade_job,
+    "cli": run_cli_jobs,
+    "fit": run_fit_job,
+    "gui": run_gui_jobs,
+}
+
+
+def main(groups: list[str] | None = None) -> dict:
+    unknown = sorted(set(groups or ()) - set(GROUPS))
+    if unknown:
+        sys.exit(f"unknown job groups {', '.join(unknown)}; choose from {', '.join(GROUPS)}")
+    res = Results(median_time(reference_call(), repeat=31, number=200))
+    print(f"reference: {res.ref * 1e6:.1f} us", file=sys.stderr)
+    for name, run in GROUPS.items():
+        if not groups or name in groups:
+            run(res)
+    result = res.to_json()
     print(json.dumps(result))
+    failed = res.failures()
+    for line in failed:
+        print(f"GOAL NOT MET: {line}", file=sys.stderr)
+    if failed:
+        sys.exit(1)
     return result
 
 
 if __name__ == "__main__":
-    if sys.argv[1:] == ["fit_100k"]:  # the fit job alone
-        s, mb = fit_100k()
-        print(json.dumps({"absolute": {"fit_100k_s": s, "fit_100k_peak_mb": mb}}))
-    else:
-        main()
+    main(sys.argv[1:])

@@ -1,0 +1,108 @@
+"""Benchmark jobs of the ``bandsmith`` command as a user starts it, timed by run.py (not collected by pytest).
+
+Each is a whole process (``python -m bandsmith.app.entry`` is what the ``bandsmith`` script runs),
+wall time measured from here, so start-up, imports and output are all in.
+
+- ``cli_start``: ``bandsmith topologies --json`` and a one-candidate ``bandsmith analyze … --json``
+  (the MFB's example values, our own scenario), several runs each;
+- ``sweep_1m``: ``bandsmith sweep … --points 1000000 --csv`` written to a file, with the child's
+  peak resident memory;
+- ``numpy_floor``: ``python -c "import numpy"``, the floor any start-up sits on.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+
+MFB = ["R1=16k", "R2=1.1k", "R3=150k", "C1=2.4n", "C2=2.2n"]
+
+
+def _command() -> list[str]:
+    exe = shutil.which("bandsmith", path=os.path.dirname(sys.executable)) or shutil.which("bandsmith")
+    return [exe] if exe else [sys.executable, "-m", "bandsmith.app.entry"]
+
+
+def _wall(argv: list[str], *, stdout=subprocess.DEVNULL) -> float:
+    t0 = time.perf_counter()
+    subprocess.run(argv, stdout=stdout, stderr=subprocess.DEVNULL, check=True)
+    return time.perf_counter() - t0
+
+
+def _times(argv: list[str], runs: int) -> list[float]:
+    _wall(argv)  # warm the file cache
+    return [_wall(argv) for _ in range(runs)]
+
+
+def cli_start(runs: int = 7) -> dict[str, dict[str, float]]:
+    """Wall time (s) of each command: ``{"topologies": {"median", "min"}, "analyze": {...}}``."""
+    out = {}
+    for name, args in (("topologies", ["topologies", "--json"]), ("analyze", ["analyze", "mfb", *MFB, "--json"])):
+        t = _times(_command() + args, runs)
+        out[name] = {"median": statistics.median(t), "min": min(t)}
+    return out
+
+
+def numpy_floor(runs: int = 7) -> float:
+    return min(_times([sys.executable, "-c", "import numpy"], runs))
+
+
+# A small Python runs the command and reports its peak resident memory: the benchmark's own
+# process is large by then, and a child forked straight from it would count its pages.
+_PEAK = (
+    "import resource, subprocess, sys; "
+    "subprocess.run(sys.argv[2:], stdout=open(sys.argv[1], 'wb'), stderr=subprocess.DEVNULL, check=True); "
+    "print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)"
+)
+
+
+def sweep_1m(runs: int = 3) -> dict[str, float]:
+    """Median wall time (s) of a million-point CSV sweep to a file, and its largest peak RSS (MB)."""
+    argv = _command() + ["sweep", "mfb", *MFB, "--gbw", "1meg", "--points", "1000000", "--csv"]
+    times = []
+    with tempfile.TemporaryDirectory() as tmp:
+        out = os.path.join(tmp, "sweep.csv")
+        for _ in range(runs):
+            with open(out, "wb") as fh:
+                times.append(_wall(argv, stdout=fh))
+        peak_kb = max(
+            int(subprocess.run([sys.executable, "-c", _PEAK, out, *argv], capture_output=True, text=True, check=True).stdout.split()[-1])
+            for _ in range(2)
+        )  # KiB on Linux
+    return {"s": statistics.median(times), "peak_mb": peak_kb * 1024 / 1e6}
+
+
+_FIRST = r"""
+import json, statistics, sys, time
+sys.path.insert(0, {here!r})
+from jobs_analysis import example_values
+from bandsmith.design.candidate import Candidate, Conditions
+if {preload!r}:
+    import scipy.linalg  # a module the multi-op-amp analysis needs: imported, like the others
+c = {circuit!r}
+values = example_values(c)
+cond = Conditions(gbw_hz=1e6)
+t0 = time.perf_counter(); Candidate(c, values).analyze(cond); first = time.perf_counter() - t0
+warm = []
+for _ in range(21):
+    t0 = time.perf_counter(); Candidate(c, values).analyze(cond); warm.append(time.perf_counter() - t0)
+print(json.dumps([first, statistics.median(warm)]))
+"""
+
+
+def first_analysis(circuit: str, *, preload_scipy: bool = True) -> tuple[float, float]:
+    """``(first, warm)``: one candidate's analysis (s) as the first in a fresh process (its modules
+    already imported: with ``preload_scipy``, scipy.linalg too, which the analysis of a circuit
+    with several op-amps imports on first use; its import is start-up, measured by
+    :func:`cli_start`) and the median of later ones."""
+    here = os.path.dirname(os.path.abspath(__file__))
+    out = subprocess.run([sys.executable, "-c", _FIRST.format(here=here, circuit=circuit, preload=preload_scipy)],
+                         capture_output=True, text=True, check=True).stdout
+    first, warm = json.loads(out.strip().splitlines()[-1])
+    return first, warm

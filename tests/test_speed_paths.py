@@ -1,0 +1,76 @@
+"""The faster paths give the results of the ones they replace (speed itself is the benchmark's).
+
+- ``sweep --csv`` block formatting: the same text as formatting each value with Python's
+  ``format(v, ".10g")`` (the language reference's format specification) through ``csv.writer``.
+- Monte Carlo trials measured by the closed-form roots: the same figures (1e-12 relative) and the
+  same pass/fail as the tracked-grid search they replace.
+- One BLAS thread: a thread count the user set in the environment is kept.
+"""
+
+import csv
+import io
+import os
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+from numpy.testing import assert_allclose, assert_array_equal
+
+from bandsmith.analysis.figures import exact_in_closed_form
+from bandsmith.app.cli.sweep import write_csv
+from bandsmith.circuits import get_topology
+from bandsmith.solver.mna import IDEAL, OpAmpModel
+from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, setup_spread
+from bandsmith.spread.spread_settings import SpreadSettings
+from bandsmith.solver.mna import build_system
+from bandsmith.solver.rational import reference_w
+
+
+def test_csv_blocks_are_the_text_of_each_value_formatted():
+    rng = np.random.default_rng(3)
+    cols = [10.0 ** rng.uniform(-30, 30, 70_000) * rng.choice([-1.0, 1.0], 70_000) for _ in range(3)]
+    cols.append(np.array([np.nan, np.inf, -np.inf, -0.0, 0.0, 1e-320, 5e-324, 1.7976931348623157e308] * 8750))
+    out = io.StringIO()
+    write_csv(out, cols)
+    ref = io.StringIO()
+    csv.writer(ref, lineterminator="\n").writerows([f"{v:.10g}" for v in row] for row in np.column_stack(cols).tolist())
+    assert out.getvalue() == ref.getvalue()
+
+
+def _netlist(circuit):
+    topo = get_topology(circuit)
+    values = dict(topo.example)
+    if "RL" in values:
+        values["RL"] = 15.0  # a winding resistance: the tank's numerator gains a zero
+    return topo.netlist(values)
+
+
+@pytest.mark.parametrize("circuit, opamp", [("rlc-tank", IDEAL), ("mfb", OpAmpModel(1e6, 1e5)), ("sallen-key", OpAmpModel(1e6, 1e5))])
+def test_closed_form_trials_match_the_tracked_search(circuit, opamp):
+    net = _netlist(circuit)
+    settings = SpreadSettings(trials=5000, seed=11, gbw_tol=0.2 if not opamp.ideal else 0.0)
+    _, _, spread = setup_spread(net, settings, opamp)
+    w_ref = reference_w(build_system(net))
+    ev = Evaluator(net, opamp, w_ref, nominal_figures(net, opamp, w_ref))
+    (_, drawn), = list(draws(settings, spread, settings.trials))
+    ratios = evaluator_columns(ev, drawn)
+    h = ev.rational(ratios)
+    assert exact_in_closed_form(h)
+    fig, _ = ev.figures(ratios)
+    tracked = ev._measure_tracked(h, ratios)
+    assert_array_equal(fig.valid, tracked.valid)
+    for name in ("f0_hz", "q", "bw_hz", "gain_center_db"):
+        assert_allclose(getattr(fig, name), getattr(tracked, name), rtol=1e-12)
+
+
+def test_a_blas_thread_count_set_by_the_user_is_kept():
+    code = "import os, bandsmith.solver; print(os.environ['OPENBLAS_NUM_THREADS'])"
+    env = dict(os.environ, OPENBLAS_NUM_THREADS="2")
+    out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, check=True).stdout
+    assert out.strip() == "2"
+    env.pop("OPENBLAS_NUM_THREADS")
+    env.pop("MKL_NUM_THREADS", None)
+    env.pop("OMP_NUM_THREADS", None)
+    out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, check=True).stdout
+    assert out.strip() == "1"
