@@ -8,6 +8,10 @@ progress of background work.
 File handling goes through the state (document, path, clean flag), a
 :class:`~bandsmith.app.window.prompts.Prompter` (all dialogs; tests script it) and
 :class:`~bandsmith.app.window.recent.RecentFiles`.
+
+The module is a little over 500 lines: it is the shell every action of the menus is wired
+through (files, recovery, exports, the report job, help), each a short method; the panes, the
+board and the plots live in their own modules.
 """
 
 from __future__ import annotations

@@ -5,6 +5,10 @@ only calls ``setData`` on it (a candidate that is switched off or removed loses 
 data come ready-made from :class:`~bandsmith.app.document.results.CandidateResult`; the plots only pick fields
 and draw. Axes carry their quantity and unit; each plot has a legend; moving the mouse over a plot
 emits a read-out of the point under the cursor (``cursor_text``).
+
+The module is a little over 500 lines because the six plots share one base class (curves per
+candidate, legend, read-out, axes kept during part edits) and each adds only what it draws; split
+apart, each would have to reach back into that base.
 """
 
 from __future__ import annotations
