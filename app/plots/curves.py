@@ -170,5 +170,5 @@ def response_plots(
         PlotData("magnitude", "Magnitude", "Frequency", "Hz", "Gain", "dB", True, tuple(mag), tuple(guides)),
         PlotData("phase", "Phase", "Frequency", "Hz", "Phase", "°", True, tuple(phase)),
         PlotData("group_delay", "Group delay", "Frequency", "Hz", "Delay", "s", True, tuple(gd)),
-        PlotData("step", "Unit step response", "Time", "s", "Output per input step", "V/V", False, tuple(step)),
+        PlotData("step", "Unit step response", "Time", "s", "Output", "V/V", False, tuple(step)),
     )

@@ -305,7 +305,7 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         # wide screen: four columns at 1920 px), at least one, at most all of them; the rest scroll
         # sideways (the comparison table above compares them all at a glance). A pane that needs
         # more room (the stage chain) gets it, the board keeping a quarter of the width.
-        self.comparison.set_max_rows(4 if self.height() < 900 else 8)
+        self.comparison.set_max_rows(5 if self.height() < 900 else 8)
         share = 0.6 if self.width() >= 1600 else 0.5
         want = self.board.width_for(int(self.width() * share))
         page = self.panes.currentWidget()

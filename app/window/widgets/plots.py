@@ -377,7 +377,7 @@ class StepPlot(CandidatePlot):
     # Drawn per volt of input step (a unit step), so the axis reads V/V whatever the input.
     title = "Unit step response"
     x_label, x_unit = "Time", "s"
-    y_label, y_unit = "Output per input step", "V/V"
+    y_label, y_unit = "Output", "V/V"
 
     def curve_data(self, res):
         return res.step.t_s, res.step.y
