@@ -62,7 +62,7 @@ from bandsmith.circuits import topology_ids
 from bandsmith.common.errors import InputError
 from bandsmith.solver.rational import Rational
 from bandsmith.common.values import format_value
-from bandsmith.chain.chain_settings import AUTO, Chain, ChainSettings, ChainStage, circuit_choices
+from bandsmith.chain.chain_settings import AUTO, STAGE_HOLD, Chain, ChainSettings, ChainStage, circuit_choices
 from bandsmith.chain.cascade_json import cascade_json, cascade_session, chains_in
 from bandsmith.chain.chain_measure import Overall, max_dev_db, measure_chain, peaks_internal, reference_zpk, sweep_frequencies
 
@@ -90,18 +90,19 @@ __all__ = [
 
 MAX_R_SPREAD = 1000.0
 MAX_C_SPREAD = 100.0
-# A stage's f0 is held within this share of its own bandwidth, its Q within STAGE_Q_TOL.
-STAGE_F0_SHARE = 0.05
-STAGE_Q_TOL = 0.05
+# A stage's f0 is held within this share of its own bandwidth, its Q within STAGE_Q_TOL
+# (the documented limits and their sources: bandsmith.chain.chain_settings.StageHold).
+STAGE_F0_SHARE = STAGE_HOLD.f0_share
+STAGE_Q_TOL = STAGE_HOLD.q_tol
 # The sharpest stage any of our circuits is asked to build (common practice, no source: a tank
 # cannot beat its inductor's own Q, a few hundred at best; the RC circuits give out well before).
 MAX_STAGE_Q = 300.0
 # Chosen parts that miss a stage by more than these make it unbuildable (beside f0 off by more
 # than half the stage's bandwidth).
-GROSS_Q_PCT = 25.0
-GROSS_GAIN_DB = 3.0
+GROSS_Q_PCT = STAGE_HOLD.gross_q_pct
+GROSS_GAIN_DB = STAGE_HOLD.gross_gain_db
 # Above this in-band deviation from the reference (dB) the chain carries a warning.
-WARN_BAND_DEV_DB = 1.0
+WARN_BAND_DEV_DB = STAGE_HOLD.band_dev_marginal_db
 
 
 # --------------------------------------------------------------------------- settings and the saved chain
@@ -319,7 +320,7 @@ def _gross_miss(errors: Mapping[str, float], q: float, series: str) -> str | Non
     f0 off by more than half the stage's bandwidth (``1/(2Q)``), Q by more than
     ``GROSS_Q_PCT`` %, or the gain by more than ``GROSS_GAIN_DB`` dB.
     """
-    half_bw_pct = 100.0 / (2.0 * q)
+    half_bw_pct = 100.0 * STAGE_HOLD.gross_f0_share / q
     parts = "exact parts" if series == "exact" else f"the best {series} parts"
     if abs(errors["f0_pct"]) > half_bw_pct:
         finer = "" if series in ("exact", "E192") else "; a finer series may do"
@@ -358,7 +359,8 @@ def stage_tolerances(tol: Tolerances, q: float) -> Tolerances:
     f0 within ``STAGE_F0_SHARE/Q`` (a share of the stage's own bandwidth) and Q within
     ``STAGE_Q_TOL``, or the given tolerances where those are tighter; the gain tolerance as given.
     """
-    return Tolerances(f0=min(tol.f0, STAGE_F0_SHARE / q), q=min(tol.q, STAGE_Q_TOL), gain_db=tol.gain_db)
+    gain_db = tol.gain_db if STAGE_HOLD.gain_db is None else min(tol.gain_db, STAGE_HOLD.gain_db)
+    return Tolerances(f0=min(tol.f0, STAGE_F0_SHARE / q), q=min(tol.q, STAGE_Q_TOL), gain_db=gain_db)
 
 
 def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, conditions: Conditions) -> Stage:
