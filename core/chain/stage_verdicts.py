@@ -149,7 +149,6 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     order = sorted(range(len(cands)), key=key)
     k = order[0]
     i, res, att = cands[k]
-    v = verdicts[k]
     notes: tuple[str, ...] = ()
     if not att.within and att.errors is not None:
         e = att.errors
@@ -157,9 +156,6 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
             f"no circuit meets this stage within its tolerances with {series} parts; the best judged, {att.topology_id}, "
             f"is off by f0 {e['f0_pct']:+.3g} %, Q {e['q_pct']:+.3g} %, gain {e['gain_db']:+.3g} dB (a finer series or a trimmer helps)",
         )
-    if v.verdict != BUILDABLE:
-        first = v.reasons[0].text if v.reasons else v.verdict
-        notes += (f"no circuit makes this stage buildable; the best, {att.topology_id}, is {v.verdict}: {first}",)
     return i, res, att, notes
 
 
