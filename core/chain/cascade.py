@@ -25,9 +25,9 @@ Rules
 - ``auto`` (per stage): when some circuit's design is feasible, with a required GBW and a sane
   spread, every circuit that does not miss the stage grossly is judged
   (:func:`bandsmith.chain.stage_verdicts.choose_auto`): the best verdict first, the sane ones
-  before the others, then :func:`bandsmith.verdict.rank`'s figure of merit; a not-buildable
+  before the others, the nearest fit, then :func:`bandsmith.verdict.rank`'s figure of merit; a not-buildable
   circuit is never chosen while a buildable or marginal one exists. A note says when the pick
-  misses the stage's tolerances or is not buildable.
+  misses the stage's tolerances.
 - Verdicts (:mod:`bandsmith.chain.stage_verdicts`): each stage judged against its own target and
   stage tolerances, the chain by its worst stage and its in-band deviation; the chain's warnings
   list every stage outside its hold.
