@@ -22,7 +22,7 @@ def configure(p):
     p.add_argument("--f-high", metavar="F2", help="upper band edge (Hz)")
     p.add_argument("--ripple-db", metavar="R", help="chebyshev passband ripple in dB (default 0.5)")
     p.add_argument("--gain", metavar="G", help="gain magnitude at the geometric centre √(f_low·f_high) (default 1)")
-    p.add_argument("--circuit", metavar="ID", default=AUTO, help="auto (least GBW with sane parts, per stage) or a circuit id for every stage")
+    p.add_argument("--circuit", metavar="ID", default=AUTO, help="auto (per stage: the best verdict, then the nearest fit and the ranking) or a circuit id for every stage")
     p.add_argument("--series", metavar="S", default="E24", help="E6 … E192 or exact (default E24)")
     add_amp_options(p)
     p.add_argument("--save", metavar="FILE", help="write a session file with the chain")
@@ -43,7 +43,21 @@ def _parts(circuit: str, chosen: dict) -> str:
     return " ".join(f"{ref}={format_value(v, PART_UNITS[topo.component(ref).kind], digits=3)}" for ref, v in chosen.items() if v > 0 or topo.component(ref).required)
 
 
+def print_verdicts(out: dict) -> None:
+    """The chain's verdict and reasons, then each stage's verdict and its first reasons."""
+    print(f"chain: {out['verdict']}")
+    for r in out["reasons"]:
+        print(f"  - {r['text']}")
+    for sec in out["sections"]:
+        circuit = f" ({sec['circuit']})" if sec["circuit"] else ""
+        print(f"stage {sec['index']}{circuit}: {sec['verdict']}")
+        for r in sec["reasons"]:
+            print(f"  - {r['text']}")
+    print()
+
+
 def print_readable(out: dict) -> None:
+    print_verdicts(out)
     s = out["spec"]
     ripple = f" {s['ripple_db']:g} dB" if s["ripple_db"] is not None else ""
     print(
@@ -58,6 +72,7 @@ def print_readable(out: dict) -> None:
             [
                 str(sec["index"]),
                 sec["circuit"] or "—",
+                sec["verdict"],
                 _num(sec["f0_hz"], "Hz"),
                 f"{sec['q']:.4g}",
                 f"{sec['gain']:.4g}",
@@ -66,7 +81,7 @@ def print_readable(out: dict) -> None:
                 _parts(sec["circuit"], sec["chosen"]) if sec["feasible"] else "not built (below)",
             ]
         )
-    print(table(rows, header=["stage", "circuit", "f0", "Q", "gain", "peak so far", "needs GBW", "parts"]))
+    print(table(rows, header=["stage", "circuit", "verdict", "f0", "Q", "gain", "peak so far", "needs GBW", "parts"]))
     print()
     if not out["feasible"]:
         print(f"not buildable: {out['reason']}")

@@ -22,10 +22,15 @@ Rules
 - A stage is not built when its Q is above ``MAX_STAGE_Q`` (300, common practice, no source),
   or when the chosen parts miss it grossly: f0 off by more than half its bandwidth, Q by more than
   25 %, the gain by more than 3 dB.
-- ``auto`` (per stage): among the circuits whose design is feasible, whose required GBW exists and
-  whose spread is sane, the one needing the least GBW among those whose chosen parts meet the
-  stage's f0, Q and gain within its tolerances; when none does, the closest one (least
-  tolerance-weighted error), with a warning.
+- ``auto`` (per stage): when some circuit's design is feasible, with a required GBW and a sane
+  spread, every circuit that does not miss the stage grossly is judged
+  (:func:`bandsmith.chain.stage_verdicts.choose_auto`): the best verdict first, the sane ones
+  before the others, the nearest fit, then :func:`bandsmith.verdict.rank`'s figure of merit; a not-buildable
+  circuit is never chosen while a buildable or marginal one exists. A note says when the pick
+  misses the stage's tolerances.
+- Verdicts (:mod:`bandsmith.chain.stage_verdicts`): each stage judged against its own target and
+  stage tolerances, the chain by its worst stage and its in-band deviation; the chain's warnings
+  list every stage outside its hold.
 - Band edges: −3 dB points for Butterworth and Bessel, the ripple-band edges (−R dB below the peak)
   for Chebyshev; the whole's centre is ``√(f_low·f_high)``; ``gain`` is the magnitude there.
 - Stages are driven by op-amp outputs, which the op-amp model treats as ideal voltage sources, so
@@ -62,9 +67,10 @@ from bandsmith.circuits import topology_ids
 from bandsmith.common.errors import InputError
 from bandsmith.solver.rational import Rational
 from bandsmith.common.values import format_value
-from bandsmith.chain.chain_settings import AUTO, Chain, ChainSettings, ChainStage, circuit_choices
+from bandsmith.chain.chain_settings import AUTO, STAGE_HOLD, Chain, ChainSettings, ChainStage, circuit_choices
 from bandsmith.chain.cascade_json import cascade_json, cascade_session, chains_in
 from bandsmith.chain.chain_measure import Overall, max_dev_db, measure_chain, peaks_internal, reference_zpk, sweep_frequencies
+from bandsmith.chain.stage_verdicts import choose_auto, hold_warnings
 
 __all__ = [
     "AUTO",
@@ -90,18 +96,19 @@ __all__ = [
 
 MAX_R_SPREAD = 1000.0
 MAX_C_SPREAD = 100.0
-# A stage's f0 is held within this share of its own bandwidth, its Q within STAGE_Q_TOL.
-STAGE_F0_SHARE = 0.05
-STAGE_Q_TOL = 0.05
+# A stage's f0 is held within this share of its own bandwidth, its Q within STAGE_Q_TOL
+# (the documented limits and their sources: bandsmith.chain.chain_settings.StageHold).
+STAGE_F0_SHARE = STAGE_HOLD.f0_share
+STAGE_Q_TOL = STAGE_HOLD.q_tol
 # The sharpest stage any of our circuits is asked to build (common practice, no source: a tank
 # cannot beat its inductor's own Q, a few hundred at best; the RC circuits give out well before).
 MAX_STAGE_Q = 300.0
 # Chosen parts that miss a stage by more than these make it unbuildable (beside f0 off by more
 # than half the stage's bandwidth).
-GROSS_Q_PCT = 25.0
-GROSS_GAIN_DB = 3.0
+GROSS_Q_PCT = STAGE_HOLD.gross_q_pct
+GROSS_GAIN_DB = STAGE_HOLD.gross_gain_db
 # Above this in-band deviation from the reference (dB) the chain carries a warning.
-WARN_BAND_DEV_DB = 1.0
+WARN_BAND_DEV_DB = STAGE_HOLD.band_dev_marginal_db
 
 
 # --------------------------------------------------------------------------- settings and the saved chain
@@ -222,7 +229,7 @@ class Cascade:
     sweep_f_hz : ndarray
         The log-spaced frequencies the overall figures and deviations were measured on.
     warnings : tuple of str
-        The chain's own: a built response far from the reference.
+        The chain's own: every stage outside its hold, a built response far from the reference.
     """
 
     settings: ChainSettings
@@ -319,7 +326,7 @@ def _gross_miss(errors: Mapping[str, float], q: float, series: str) -> str | Non
     f0 off by more than half the stage's bandwidth (``1/(2Q)``), Q by more than
     ``GROSS_Q_PCT`` %, or the gain by more than ``GROSS_GAIN_DB`` dB.
     """
-    half_bw_pct = 100.0 / (2.0 * q)
+    half_bw_pct = 100.0 * STAGE_HOLD.gross_f0_share / q
     parts = "exact parts" if series == "exact" else f"the best {series} parts"
     if abs(errors["f0_pct"]) > half_bw_pct:
         finer = "" if series in ("exact", "E192") else "; a finer series may do"
@@ -358,7 +365,8 @@ def stage_tolerances(tol: Tolerances, q: float) -> Tolerances:
     f0 within ``STAGE_F0_SHARE/Q`` (a share of the stage's own bandwidth) and Q within
     ``STAGE_Q_TOL``, or the given tolerances where those are tighter; the gain tolerance as given.
     """
-    return Tolerances(f0=min(tol.f0, STAGE_F0_SHARE / q), q=min(tol.q, STAGE_Q_TOL), gain_db=tol.gain_db)
+    gain_db = tol.gain_db if STAGE_HOLD.gain_db is None else min(tol.gain_db, STAGE_HOLD.gain_db)
+    return Tolerances(f0=min(tol.f0, STAGE_F0_SHARE / q), q=min(tol.q, STAGE_Q_TOL), gain_db=gain_db)
 
 
 def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, conditions: Conditions) -> Stage:
@@ -380,18 +388,8 @@ def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, condi
         why = "; ".join(f"{a.topology_id}: {a.reason}" for a in attempts)
         first = next((res for res, a in tried if res is not None), None)
         return Stage(plan, vin_v, first, attempts, False, f"no circuit builds it with sane parts ({why})")
-    meets = [t for t in usable if t[2].within]
-    note = ()
-    if meets:  # the least GBW among those that meet the stage's target within the tolerances
-        best = min(meets, key=lambda t: (t[2].gbw_hz, t[0]))
-    else:  # none does with these parts: the closest one
-        best = min(usable, key=lambda t: (t[2].weighted, t[0]))
-        e = best[2].errors
-        note = (
-            f"no circuit meets this stage within its tolerances with {settings.series} parts; the closest, {best[2].topology_id}, "
-            f"is off by f0 {e['f0_pct']:+.3g} %, Q {e['q_pct']:+.3g} %, gain {e['gain_db']:+.3g} dB (a finer series or a trimmer helps)",
-        )
-    return _finish(plan, vin_v, best[1], attempts, conditions, note)
+    best = choose_auto(tried, settings.series)  # by verdict, then rank (bandsmith.chain.stage_verdicts)
+    return _finish(plan, vin_v, best[1], attempts, conditions, best[3])
 
 
 def _finish(plan, vin_v, res, attempts, conditions: Conditions, notes: tuple[str, ...] = ()) -> Stage:
@@ -526,7 +524,7 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
     feasible = all(s.feasible for s in stages)
     reason = None if feasible else _summary(stages)
     f = sweep_frequencies(settings, q_max)
-    shell = Cascade(settings, conditions, plan, stages, feasible, reason, None, None, None, None, None, f)
+    shell = Cascade(settings, conditions, plan, stages, feasible, reason, None, None, None, None, None, f, hold_warnings(stages))
     if not feasible:
         return shell
     stages = _loaded(stages)
@@ -542,7 +540,7 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
         overall_actual = measure_chain(lambda x: shell.response(x, actual=True), settings, f, q_max)
         actual_dev = max_dev_db(shell.response(f, actual=True), ref)
     band_dev = max_dev_db(h[band], ref[band])
-    warnings = []
+    warnings = list(shell.warnings)  # every stage outside its hold
     if band_dev > WARN_BAND_DEV_DB:
         finer = "" if settings.series in ("exact", "E192") else "; a finer series (E96, say) or trimming the sharpest stages brings it closer"
         warnings.append(f"with {settings.series} parts the chain is up to {band_dev:.3g} dB off the ideal {settings.response} response within the band{finer}")

@@ -52,15 +52,21 @@ def _stage_json(st: Stage) -> dict:
 def cascade_json(result: Cascade) -> dict:
     """The ``bandsmith cascade --json`` object (issue 6's contract, with extra keys)."""
     s = result.settings
+    from bandsmith.chain.stage_verdicts import verdicts_json
+
     gbws = [st.result.analysis.requirements.gbw_hz if st.feasible and st.result.analysis is not None else None for st in result.stages]
+    stage_verdicts, chain_verdict = verdicts_json(result)
+    sections = [_stage_json(st) | sv for st, sv in zip(result.stages, stage_verdicts)]
     return {
+        "verdict": chain_verdict["verdict"],
+        "reasons": chain_verdict["reasons"],
         "response": s.response,
         "order": s.order,
         "spec": s.to_json(),
         "feasible": result.feasible,
         "reason": result.reason,
         "warnings": list(result.warnings),
-        "sections": [_stage_json(st) for st in result.stages],
+        "sections": sections,
         "overall": result.overall.to_json() if result.overall is not None else None,
         "overall_actual": result.overall_actual.to_json() if result.overall_actual is not None else None,
         "opamp": None if result.conditions.opamp is None else result.conditions.opamp.to_json(),

@@ -18,7 +18,7 @@ from bandsmith.common.eseries import SERIES_NAMES
 from bandsmith.common.limits import check_id
 from bandsmith.chain.prototypes import Prototype, check_order, check_response, check_ripple, prototype
 
-__all__ = ["AUTO", "ChainSettings", "ChainStage", "Chain", "circuit_choices"]
+__all__ = ["AUTO", "ChainSettings", "ChainStage", "Chain", "circuit_choices", "StageHold", "STAGE_HOLD", "HOLD_SOURCES"]
 
 HALF_POWER_DB = 10.0 * math.log10(0.5)
 
@@ -38,6 +38,62 @@ def _positive(name: str, v) -> float:
     if not (math.isfinite(x) and x > 0):
         raise InputError(name, f"must be a finite number above zero, got {v!r}")
     return x
+
+
+#: Where each limit of :class:`StageHold` comes from.
+HOLD_SOURCES = {
+    "f0_share": "common practice, no source (a stage's centre must stay well inside its own bandwidth; "
+    "measured here: an order-6 Butterworth with this share moved 0.5 dB in the band, with f0 at 1 % it moved 4.6 dB)",
+    "q_tol": "common practice, no source",
+    "gain_db": "the design tolerance given (Tolerances.gain_db, 0.5 dB by default); common practice, no source",
+    "gross_f0_share": "derived: a stage whose f0 is off by half its bandwidth peaks at the edge of its own band",
+    "gross_q_pct": "common practice, no source",
+    "gross_gain_db": "common practice, no source",
+    "band_dev_marginal_db": "common practice, no source (the chain's long-standing warning level)",
+    "band_dev_max_db": "common practice, no source",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class StageHold:
+    """What a chain holds each stage to, and when a stage or the chain is missed grossly.
+
+    Every limit's source is in :data:`HOLD_SOURCES`.
+
+    Parameters
+    ----------
+    f0_share : float
+        A stage of quality factor Q is held to f0 within ``f0_share/Q`` (a share of its own
+        bandwidth f0/Q; 0.05 = 5 % of its bandwidth), or the given f0 tolerance where tighter.
+    q_tol : float
+        Q within this fraction (0.05 = 5 %), or the given Q tolerance where tighter.
+    gain_db : float or None
+        The stage's gain within this many dB; None = the gain tolerance given (0.5 dB by default).
+    gross_f0_share : float
+        Chosen parts that put a stage's f0 off by more than this share of its bandwidth
+        (0.5 = half) leave the stage unbuilt: "missing grossly".
+    gross_q_pct : float
+        The same for Q off by more than this many per cent (25 %).
+    gross_gain_db : float
+        The same for the stage's gain off by more than this many dB (3 dB).
+    band_dev_marginal_db, band_dev_max_db : float
+        The built chain (ideal op-amp) against its ideal family response within the pass band:
+        above the first the chain is at best ``marginal`` (and warned), above the second
+        ``not buildable``.
+    """
+
+    f0_share: float = 0.05
+    q_tol: float = 0.05
+    gain_db: float | None = None
+    gross_f0_share: float = 0.5
+    gross_q_pct: float = 25.0
+    gross_gain_db: float = 3.0
+    band_dev_marginal_db: float = 1.0
+    band_dev_max_db: float = 3.0
+
+
+#: The limits every chain uses.
+STAGE_HOLD = StageHold()
 
 
 def circuit_choices() -> tuple[str, ...]:
