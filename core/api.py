@@ -8,6 +8,10 @@ functions. Values may be numbers in SI units or text such as ``"4k7"`` or ``"12 
 field and the reason.
 
 The heavy layers are imported inside the functions, so ``import bandsmith`` stays light.
+
+The module is long because it is the whole public surface in one place: one short function and
+one small frozen result per job, each with its numpydoc units, in the order of the README's
+table. The work itself is in the layers below.
 """
 
 from __future__ import annotations
