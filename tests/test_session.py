@@ -111,7 +111,7 @@ def test_the_demo_session_loads_and_is_canonical():
     s = load_session(DEMO)
     assert dumps_session(s) == DEMO.read_text(encoding="utf-8")
     assert len(s.candidates) >= 3
-    assert {c.topology_id for c in s.candidates} == {"mfb", "sallen-key", "rlc-tank"}
+    assert {c.topology_id for c in s.candidates} == {"mfb", "sallen-key", "rlc-tank", "dabp"}
 
 
 @pytest.mark.parametrize("cut", [1, 10, 0.5, 0.9, -2])

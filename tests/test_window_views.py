@@ -46,8 +46,10 @@ def test_screenshot_of_the_demo_session(window, qtbot, size):
         assert col.need_gbw.text().startswith(("GBW", "—"))
         assert_text_shown(col.need_gbw)
         assert col.need_gbw.width() >= col.need_gbw.sizeHint().width() - 2
+    # Six plots beside the board under the comparison table (five rows on a screen under 900 px):
+    # each keeps room for its axes, ticks and a readable curve.
     for plot in window.plot_grid.plots.values():
-        assert plot.width() >= 220 and plot.height() >= 170
+        assert plot.width() >= 220 and plot.height() >= 150
 
 
 def test_background_job_reports_progress_and_result(qtbot, window):
