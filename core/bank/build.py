@@ -36,6 +36,8 @@ __all__ = ["AUTO", "PER_CHANNEL", "Channel", "Bank", "design_bank", "capacitor_r
 
 AUTO = "auto"
 PER_CHANNEL = "per-channel"
+#: Most channels in one bank (a 1/24-octave bank over the audio band has 241).
+MAX_CHANNELS = 400
 #: Capacitor values are shared from this series (the commonly stocked one; common practice).
 CAP_SERIES = "E6"
 
@@ -186,6 +188,8 @@ def design_bank(
     if series not in SERIES_NAMES + ("exact",):
         raise InputError("series", f"{series!r} is not a series; choose one of {', '.join(SERIES_NAMES)} or exact")
     f = np.asarray(centres_hz, dtype=float)
+    if not 1 <= f.size <= MAX_CHANNELS:
+        raise InputError("centres", f"a bank has 1 to {MAX_CHANNELS} channels, this one would have {f.size}")
     qs = np.broadcast_to(np.asarray(q, dtype=float), f.shape)
     specs = [Spec(float(fi), float(qi), float(gain)) for fi, qi in zip(f, qs)]
     circuits, why = _circuits(specs, circuit, series, conditions)
