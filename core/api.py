@@ -64,7 +64,7 @@ __all__ = [
     "MeasurementFitReport",
     "OpAmpCheckReport",
     "InputError",
-    "bank",
+    "filter_bank",
     "BankReport",
 ]
 
@@ -1371,7 +1371,7 @@ def save_session(session: "Session", path: str | os.PathLike) -> None:
 
 @dataclass(frozen=True)
 class BankReport:
-    """A filter bank: many band-pass channels designed together (``bandsmith bank``).
+    """A filter bank: many band-pass channels designed together (``bandsmith bank``; :func:`filter_bank`).
 
     Attributes
     ----------
@@ -1413,7 +1413,7 @@ def _centre_list(centres_hz) -> list[float]:
     return [_positive(v, "centres") for v in items]
 
 
-def bank(
+def filter_bank(
     *,
     octave_fraction: int | str | None = None,
     from_hz: Value | None = None,

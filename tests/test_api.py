@@ -56,7 +56,7 @@ PINNED = [
     "MeasurementFitReport",
     "OpAmpCheckReport",
     "InputError",
-    "bank",
+    "filter_bank",
     "BankReport",
 ]
 

@@ -69,7 +69,7 @@ def _write(path: str, text: str) -> None:
 
 
 def run(args) -> int:
-    report = api.bank(
+    report = api.filter_bank(
         octave_fraction=args.octave_fraction,
         from_hz=args.from_hz,
         to_hz=args.to_hz,
