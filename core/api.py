@@ -1398,6 +1398,12 @@ class BankReport:
 
         return bank_spice_netlist(self.result, gbw_hz=_optional_positive(gbw_hz, "gbw"))
 
+    def to_session(self, *, notes: str = "") -> "Session":
+        """A session keeping the bank under ``extras["banks"]`` (its channels as candidates too)."""
+        from bandsmith.bank.bank_session import bank_session
+
+        return bank_session(self.result, notes=notes)
+
     def parts_csv(self) -> str:
         """The parts list: one row per distinct value with its quantity, then the op-amp packages."""
         from bandsmith.bank.bank_json import bank_parts_csv

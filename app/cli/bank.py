@@ -23,6 +23,7 @@ def configure(p):
     p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); default an ideal op-amp")
     p.add_argument("--netlist", metavar="OUT.cir", help="write one SPICE netlist of every channel")
     p.add_argument("--parts", metavar="OUT.csv", help="write the parts list with quantities")
+    p.add_argument("--save", metavar="FILE", help="write a session file keeping the bank (and its channels as candidates)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
 
@@ -85,11 +86,13 @@ def run(args) -> int:
         _write(args.netlist, report.netlist(gbw_hz=args.gbw))
     if args.parts:
         _write(args.parts, report.parts_csv())
+    if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"
+        api.save_session(report.to_session(), args.save)
     if args.json:
         print_json(out)
     else:
         print_readable(out)
-        for p in (args.netlist, args.parts):
+        for p in (args.netlist, args.parts, args.save):
             if p:
                 print(f"\nwrote {p}")
     return 0
