@@ -1425,6 +1425,8 @@ def filter_bank(
     from_hz: Value | None = None,
     to_hz: Value | None = None,
     centres_hz: "Sequence[Value] | str | None" = None,
+    count: int | str | None = None,
+    linear: bool = False,
     q: Value | None = None,
     gain: Value = 1.0,
     circuit: str = "auto",
@@ -1444,6 +1446,11 @@ def filter_bank(
         The lowest and highest centre (Hz); each snaps to the nearest band.
     centres_hz : sequence or str, optional
         Centres typed by the user (Hz), a sequence or comma-separated text, instead of a rule.
+    count : int or str, optional
+        Instead of ``octave_fraction``: this many centres from ``from_hz`` to ``to_hz``, evenly
+        spaced on a log scale (equal ratios).
+    linear : bool
+        With ``count``: evenly spaced in hertz instead (equal steps).
     q : float or str, optional
         Q of every channel; by default from the band's width, so that neighbours cross at −3 dB.
     gain : float or str
@@ -1469,11 +1476,23 @@ def filter_bank(
     from bandsmith.bank.build import AUTO, PER_CHANNEL, design_bank
     from bandsmith.bank.response import bank_response
 
-    rule_given = octave_fraction is not None or from_hz is not None or to_hz is not None
+    rule_given = octave_fraction is not None or from_hz is not None or to_hz is not None or count is not None
     if rule_given and centres_hz is not None:
         raise InputError("centres", "give --centres or --octave-fraction with --from and --to, not both")
+    if octave_fraction is not None and count is not None:
+        raise InputError("count", "give --octave-fraction or --count, not both")
     labels = None
-    if centres_hz is not None:
+    if count is not None:
+        for name, v in (("from", from_hz), ("to", to_hz)):
+            if v is None:
+                raise InputError(name, "missing; give the lowest and highest centre frequencies")
+        n = _whole(count, "count", low=1)
+        if n > 400:
+            raise InputError("count", f"a bank has at most 400 channels, got {n}")
+        f = C.even_centres(_positive(from_hz, "from"), _positive(to_hz, "to"), n, linear=bool(linear))
+        rule = {"kind": "linear" if linear else "log", "count": n}
+        q_rule = C.q_for_crossing(f)
+    elif centres_hz is not None:
         f = C.listed_centres(_centre_list(centres_hz))
         rule = {"kind": "list"}
         q_rule = C.q_for_crossing(f)

@@ -87,6 +87,20 @@ def test_typed_centres_with_equal_ratios_get_the_rule_q():
         C.listed_centres([1000, 1000])
 
 
+def test_evenly_spaced_centres():
+    # equal ratios r = 10^(1/3) between four centres from 100 Hz to 1 kHz: Q = √r/(r − 1) (derived from
+    # the −3 dB points f0·(√(1 + 1/(4Q²)) ∓ 1/(2Q)) meeting at the geometric means)
+    out = bandsmith.filter_bank(count=4, from_hz=100, to_hz="1k", circuit="mfb").to_json()
+    r = 10 ** (1 / 3)
+    assert [c["target_f0_hz"] for c in out["channels"]] == pytest.approx([100, 215.443469, 464.158883, 1000], rel=1e-8)
+    assert all(c["q"] == pytest.approx(math.sqrt(r) / (r - 1), rel=1e-12) for c in out["channels"])
+    lin = bandsmith.filter_bank(count=3, from_hz=1000, to_hz=2000, linear=True, q=10, circuit="mfb").to_json()
+    assert [c["target_f0_hz"] for c in lin["channels"]] == [1000, 1500, 2000]
+    with pytest.raises(InputError) as e:
+        bandsmith.filter_bank(count=3, octave_fraction=3, from_hz=100, to_hz=1000)
+    assert e.value.field == "count"
+
+
 # ------------------------------------------------------------------ designed together
 
 

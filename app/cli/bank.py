@@ -16,6 +16,8 @@ def configure(p):
     p.add_argument("--from", dest="from_hz", metavar="F1", help="lowest centre (Hz), snapped to the nearest band")
     p.add_argument("--to", dest="to_hz", metavar="F2", help="highest centre (Hz), snapped to the nearest band")
     p.add_argument("--centres", metavar="F,F,…", help="centres typed as a comma-separated list (Hz)")
+    p.add_argument("--count", metavar="N", help="instead of --octave-fraction: N centres from F1 to F2, evenly spaced on a log scale")
+    p.add_argument("--linear", action="store_true", help="with --count: evenly spaced in hertz instead")
     p.add_argument("--q", metavar="Q", help="Q of every channel (default: from the band width, neighbours crossing at −3 dB)")
     p.add_argument("--gain", metavar="G", default="1", help="centre-gain magnitude of every channel (default 1)")
     p.add_argument("--circuit", metavar="ID", default="auto", help="auto (the verdicts' choice for the hardest channel), per-channel, or a circuit id")
@@ -34,7 +36,11 @@ def _db(x):
 def print_readable(out: dict) -> None:
     ch = out["channels"]
     rule = out["rule"]
-    how = f"1/{rule['b']}-octave bands ({rule['standard']})" if rule.get("kind") == "fraction" else "centres as listed"
+    how = {
+        "fraction": lambda: f"1/{rule['b']}-octave bands ({rule['standard']})",
+        "log": lambda: "evenly spaced on a log scale",
+        "linear": lambda: "evenly spaced in hertz",
+    }.get(rule.get("kind"), lambda: "centres as listed")()
     print(f"{len(ch)} channels, {how}, parts {out['series']}")
     print(f"circuit: {out['circuit_reason']}")
     print()
@@ -75,6 +81,8 @@ def run(args) -> int:
         from_hz=args.from_hz,
         to_hz=args.to_hz,
         centres_hz=args.centres,
+        count=args.count,
+        linear=args.linear,
         q=args.q,
         gain=args.gain,
         circuit=args.circuit,

@@ -28,7 +28,7 @@ from bandsmith.common.errors import InputError
 
 __all__ = [
     "G", "F_REF_HZ", "R10", "band_index_range", "mid_band_hz", "band_edges_hz", "band_q",
-    "nominal_label_hz", "fraction_centres", "listed_centres", "q_for_crossing",
+    "nominal_label_hz", "fraction_centres", "listed_centres", "even_centres", "q_for_crossing",
 ]
 
 #: Base-ten octave ratio (IEC 61260-1:2014, 5.2).
@@ -136,6 +136,21 @@ def listed_centres(values: Sequence[float]) -> np.ndarray:
     if np.any(np.diff(f) <= 1e-9 * f[1:]):
         raise InputError("centres", "the centres must be distinct")
     return f
+
+
+def even_centres(f_from_hz: float, f_to_hz: float, count: int, *, linear: bool = False) -> np.ndarray:
+    """``count`` centres from F1 to F2 (Hz), evenly spaced on a log scale (equal ratios) or, with
+    ``linear``, in hertz (equal steps)."""
+    for name, f in (("from", f_from_hz), ("to", f_to_hz)):
+        if not (math.isfinite(f) and f > 0):
+            raise InputError(name, f"must be a frequency above zero, got {f!r}")
+    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
+        raise InputError("count", f"must be a whole number of channels, 1 or more, got {count!r}")
+    if count > 1 and not f_to_hz > f_from_hz:
+        raise InputError("to", f"must be above --from ({f_from_hz:g} Hz) for more than one channel, got {f_to_hz:g} Hz")
+    if count == 1:
+        return np.array([float(f_from_hz)])
+    return np.linspace(f_from_hz, f_to_hz, count) if linear else np.geomspace(f_from_hz, f_to_hz, count)
 
 
 def q_for_crossing(f: np.ndarray) -> np.ndarray:
