@@ -8,6 +8,7 @@ where possible, and duals and quads share the standard pin-outs of their familie
 
 from __future__ import annotations
 
+from collections import Counter
 from dataclasses import dataclass
 from typing import Iterable, Mapping
 
@@ -63,9 +64,12 @@ def bom_lines(designs: Iterable[tuple[str, Mapping[str, float]]]) -> tuple[BomLi
         for ref, kind, v in _parts(circuit, chosen):
             found.setdefault(_key(kind, v), []).append(f"CH{n}.{ref}")
     order = {"R": 0, "C": 1, "L": 2}
+    items = sorted(found.items(), key=lambda kv: (order.get(kv[0][0], 9), kv[0][1]))
+    texts = [format_value(v, PART_UNITS[kind], digits=4) for (kind, v), _ in items]
+    clash = {t for t, n in Counter(texts).items() if n > 1}  # exact values that print alike keep more digits
     return tuple(
-        BomLine(kind, v, format_value(v, PART_UNITS[kind], digits=4), tuple(refs))
-        for (kind, v), refs in sorted(found.items(), key=lambda kv: (order.get(kv[0][0], 9), kv[0][1]))
+        BomLine(kind, v, format_value(v, PART_UNITS[kind], digits=9) if t in clash else t, tuple(refs))
+        for ((kind, v), refs), t in zip(items, texts)
     )
 
 
