@@ -5,5 +5,5 @@ band's width (:mod:`bandsmith.bank.centres`); every channel from one circuit wit
 values, uniform centre gain and op-amps packed into duals and quads (:mod:`bandsmith.bank.build`,
 :mod:`bandsmith.bank.bom`); the bank's response, the ripple of the channels' sum and the isolation
 table (:mod:`bandsmith.bank.response`); the ``bank --json`` object and the exports
-(:mod:`bandsmith.bank.bank_json`).
+(:mod:`bandsmith.bank.bank_json`); the session's ``extras["banks"]`` (:mod:`bandsmith.bank.bank_session`).
 """
