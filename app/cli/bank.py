@@ -30,7 +30,7 @@ def configure(p):
 
 
 def _db(x):
-    return "—" if x is None else f"{x:.2f}"
+    return "—" if x is None else f"{round(x, 2) + 0.0:.2f}"  # no "-0.00"
 
 
 def print_readable(out: dict) -> None:

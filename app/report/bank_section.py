@@ -65,7 +65,7 @@ def _channels_table(saved: SavedBank, r) -> str:
             escape(format_value(ch.target_f0_hz, "Hz", digits=5)),
             escape(format_value(one.f0_hz, "Hz", digits=5)),
             escape(f"{one.q:.4g}"),
-            escape(f"{one.gain_center_db:.2f}"),
+            escape(f"{round(one.gain_center_db, 2) + 0.0:.2f}"),
             escape(f"{iso[i, i - 1]:.2f}") if i > 0 else "—",
             escape(f"{iso[i, i + 1]:.2f}") if i < n - 1 else "—",
             escape(ch.circuit),

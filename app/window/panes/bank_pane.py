@@ -230,7 +230,7 @@ class BankPane(QtWidgets.QWidget):
                 format_value(c["target_f0_hz"], "Hz", digits=5),
                 format_value(c["f0_hz"], "Hz", digits=5),
                 "—" if fig["q"] is None else f"{fig['q']:.4g}",
-                "—" if fig["gain_center_db"] is None else f"{fig['gain_center_db']:.2f}",
+                "—" if fig["gain_center_db"] is None else f"{round(fig['gain_center_db'], 2) + 0.0:.2f}",
                 "—" if iso["below"] is None else f"{iso['below']:.2f}",
                 "—" if iso["above"] is None else f"{iso['above']:.2f}",
                 c["circuit"],
