@@ -68,6 +68,8 @@ __all__ = [
     "MeasurementFitReport",
     "OpAmpCheckReport",
     "InputError",
+    "filter_bank",
+    "BankReport",
 ]
 
 DEFAULT_A0 = 1e5
@@ -1365,3 +1367,162 @@ def save_session(session: "Session", path: str | os.PathLike) -> None:
     if not os.fspath(path).strip():  # an empty name is bad input, not "save nothing"
         raise InputError("save", "give the name of the session file to write")
     _save(session, path)
+
+
+# --------------------------------------------------------------------------------------------
+# Filter banks
+
+
+@dataclass(frozen=True)
+class BankReport:
+    """A filter bank: many band-pass channels designed together (``bandsmith bank``; :func:`filter_bank`).
+
+    Attributes
+    ----------
+    result : Bank
+        The channels (target centre in Hz, Q, centre gain, circuit, parts in SI units, analysis),
+        each channel's parts when designed alone, and how the circuit was chosen.
+    response : BankResponse
+        Every channel's and the sum's response over a sweep (Hz), the sum's ripple (dB) over the
+        covered band and the isolation table (dB).
+    """
+
+    result: "Any"
+    response: "Any"
+
+    def to_json(self) -> dict:
+        """The ``bandsmith bank --json`` object."""
+        from bandsmith.bank.bank_json import bank_json
+
+        return bank_json(self.result, self.response)
+
+    def netlist(self, *, gbw_hz: Value | None = None) -> str:
+        """One SPICE netlist of every channel (common input ``in``, outputs ``ch<k>_out``)."""
+        from bandsmith.bank.bank_json import bank_spice_netlist
+
+        return bank_spice_netlist(self.result, gbw_hz=_optional_positive(gbw_hz, "gbw"))
+
+    def to_session(self, *, notes: str = "") -> "Session":
+        """A session keeping the bank under ``extras["banks"]`` (its channels as candidates too)."""
+        from bandsmith.bank.bank_session import bank_session
+
+        return bank_session(self.result, notes=notes)
+
+    def parts_csv(self) -> str:
+        """The parts list: one row per distinct value with its quantity, then the op-amp packages."""
+        from bandsmith.bank.bank_json import bank_parts_csv
+
+        return bank_parts_csv(self.result)
+
+
+def _centre_list(centres_hz) -> list[float]:
+    if isinstance(centres_hz, str):
+        items = [t for t in (x.strip() for x in centres_hz.split(",")) if t]
+    else:
+        items = list(centres_hz)
+    return [_positive(v, "centres") for v in items]
+
+
+def filter_bank(
+    *,
+    octave_fraction: int | str | None = None,
+    from_hz: Value | None = None,
+    to_hz: Value | None = None,
+    centres_hz: "Sequence[Value] | str | None" = None,
+    count: int | str | None = None,
+    linear: bool = False,
+    q: Value | None = None,
+    gain: Value = 1.0,
+    circuit: str = "auto",
+    series: str = "E24",
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+    points: int | str = 400,
+) -> BankReport:
+    """Design a filter bank: band-pass channels on a rule or a list, designed together.
+
+    Parameters
+    ----------
+    octave_fraction : int or str, optional
+        ``b`` for bands of 1/b octave with the exact base-ten mid-band frequencies of
+        IEC 61260-1:2014 (1 = octaves, 3 = third-octaves), with ``from_hz`` and ``to_hz``.
+    from_hz, to_hz : float or str, optional
+        The lowest and highest centre (Hz); each snaps to the nearest band.
+    centres_hz : sequence or str, optional
+        Centres typed by the user (Hz), a sequence or comma-separated text, instead of a rule.
+    count : int or str, optional
+        Instead of ``octave_fraction``: this many centres from ``from_hz`` to ``to_hz``, evenly
+        spaced on a log scale (equal ratios).
+    linear : bool
+        With ``count``: evenly spaced in hertz instead (equal steps).
+    q : float or str, optional
+        Q of every channel; by default from the band's width, so that neighbours cross at −3 dB.
+    gain : float or str
+        Centre-gain magnitude of every channel (V/V).
+    circuit : str
+        ``auto`` (the verdicts' best circuit for the hardest channel), ``per-channel``, or a
+        circuit id.
+    series : str
+        ``E6`` … ``E192`` or ``exact``.
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None is an ideal op-amp.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+    points : int or str
+        Points of the response sweep.
+
+    Returns
+    -------
+    BankReport
+        ``to_json()`` is the ``bank --json`` object.
+    """
+    from bandsmith.bank import centres as C
+    from bandsmith.bank.build import AUTO, PER_CHANNEL, design_bank
+    from bandsmith.bank.response import bank_response
+
+    rule_given = octave_fraction is not None or from_hz is not None or to_hz is not None or count is not None
+    if rule_given and centres_hz is not None:
+        raise InputError("centres", "give --centres or --octave-fraction with --from and --to, not both")
+    if octave_fraction is not None and count is not None:
+        raise InputError("count", "give --octave-fraction or --count, not both")
+    labels = None
+    if count is not None:
+        for name, v in (("from", from_hz), ("to", to_hz)):
+            if v is None:
+                raise InputError(name, "missing; give the lowest and highest centre frequencies")
+        n = _whole(count, "count", low=1)
+        if n > 400:
+            raise InputError("count", f"a bank has at most 400 channels, got {n}")
+        f = C.even_centres(_positive(from_hz, "from"), _positive(to_hz, "to"), n, linear=bool(linear))
+        rule = {"kind": "linear" if linear else "log", "count": n}
+        q_rule = C.q_for_crossing(f)
+    elif centres_hz is not None:
+        f = C.listed_centres(_centre_list(centres_hz))
+        rule = {"kind": "list"}
+        q_rule = C.q_for_crossing(f)
+    elif rule_given:
+        if octave_fraction is None:
+            raise InputError("octave-fraction", "missing; give the b of 1/b-octave bands (1, 2, 3, 6, 12, 24 …)")
+        for name, v in (("from", from_hz), ("to", to_hz)):
+            if v is None:
+                raise InputError(name, "missing; give the lowest and highest centre frequencies")
+        b = _whole(octave_fraction, "octave-fraction", low=1)
+        x, f, labels = C.fraction_centres(b, _positive(from_hz, "from"), _positive(to_hz, "to"))
+        rule = {"kind": "fraction", "b": b, "standard": "IEC 61260-1:2014, base ten", "x": [int(v) for v in x]}
+        q_rule = C.band_q(b)
+    else:
+        raise InputError("centres", "missing; give --centres F,F,… or --octave-fraction B --from F1 --to F2")
+    if q is not None:
+        q_val = _positive(q, "q")
+    elif q_rule is None:
+        raise InputError("q", "a single channel has no neighbour to set its Q from; give q")
+    else:
+        q_val = q_rule
+    if circuit not in (AUTO, PER_CHANNEL):
+        circuit = _topology(circuit).id
+    n_points = _whole(points, "points", low=2)
+    if n_points > 100_000:
+        raise InputError("points", f"at most 100000 points, got {n_points}")
+    conditions = conditions_of(gbw_hz, a0)
+    result = design_bank(f, q_val, _positive(gain, "gain"), circuit=circuit, series=_series(series), labels_hz=labels, rule=rule, conditions=conditions)
+    return BankReport(result, bank_response(result, points=n_points))

@@ -56,6 +56,8 @@ PINNED = [
     "MeasurementFitReport",
     "OpAmpCheckReport",
     "InputError",
+    "filter_bank",
+    "BankReport",
 ]
 
 FUNCTIONS = [n for n in PINNED if inspect.isfunction(getattr(api, n))]

@@ -160,6 +160,9 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         from bandsmith.app.window.panes.chain_pane import install as install_chain_pane
 
         install_chain_pane(self)
+        from bandsmith.app.window.panes.bank_pane import install as install_bank_pane
+
+        install_bank_pane(self)
 
     def _build_central(self) -> None:
         """The target strip above the candidates board and, beside it, the pane tabs (Responses first)."""
