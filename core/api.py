@@ -64,6 +64,8 @@ __all__ = [
     "MeasurementFitReport",
     "OpAmpCheckReport",
     "InputError",
+    "bias",
+    "trim",
 ]
 
 DEFAULT_A0 = 1e5
@@ -1361,3 +1363,102 @@ def save_session(session: "Session", path: str | os.PathLike) -> None:
     if not os.fspath(path).strip():  # an empty name is bad input, not "save nothing"
         raise InputError("save", "give the name of the session file to write")
     _save(session, path)
+
+
+# --------------------------------------------------------------------------------------------
+# On the board: single supply and trimming
+
+
+def bias(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    supply_v: Value,
+    reference: str = "divider",
+    divider_ohm: Value = 100e3,
+    rload_ohm: Value = 10e3,
+    vin_v: Value = 1.0,
+    headroom_v: Value = 0.0,
+    bias_current_a: Value = 0.0,
+    corner_ratio: float = 10.0,
+) -> "BiasedCircuit":
+    """A circuit built for one supply: DC node voltages, reference, coupling, swing and response.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of "REF=VALUE"
+        Part values.
+    supply_v : float or str
+        The single supply in V.
+    reference : str
+        ``"divider"`` or ``"buffered"``.
+    divider_ohm : float or str
+        Each divider resistor, in ohm.
+    rload_ohm : float or str
+        The load behind the output coupling capacitor, in ohm.
+    vin_v : float or str
+        The input's peak amplitude in V.
+    headroom_v : float or str
+        How close to a rail the output swings, in V.
+    bias_current_a : float or str
+        Input bias current into each op-amp pin, in A.
+    corner_ratio : float
+        The coupling corners sit this many times below the band's lower edge.
+
+    Returns
+    -------
+    BiasedCircuit
+        Its ``to_json()`` is what ``bandsmith bias --json`` prints.
+    """
+    from bandsmith.board.bias import BiasSettings, bias_circuit
+    from bandsmith.common.values import parse_nonnegative, parse_value
+
+    cand = candidate_of(circuit, parts)
+    settings = BiasSettings(
+        supply_v=_positive(supply_v, "supply"), reference=str(reference), divider_ohm=_positive(divider_ohm, "divider"),
+        rload_ohm=_positive(rload_ohm, "rload"), vin_v=_positive(vin_v, "vin"),
+        headroom_v=parse_nonnegative(headroom_v, field="headroom"),
+        bias_current_a=parse_value(bias_current_a, field="ibias"), corner_ratio=float(corner_ratio),
+    )
+    return bias_circuit(cand.netlist, settings)
+
+
+def trim(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    tolerances: "Mapping[str, Value] | None" = None,
+    measured_f0_hz: Value | None = None,
+    target_f0_hz: Value | None = None,
+) -> "TrimPlan":
+    """Which part to make adjustable for f0, Q and gain, the trimmer that covers the spread, and a correction.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of "REF=VALUE"
+        Part values.
+    tolerances : mapping, optional
+        Tolerance by part kind (``{"R": "1%", "C": "5%", "L": "10%"}``) or by reference.
+    measured_f0_hz : float or str, optional
+        The built stage's measured f0 in Hz; gives the correction.
+    target_f0_hz : float or str, optional
+        The f0 to trim to, in Hz (the nominal f0 by default).
+
+    Returns
+    -------
+    TrimPlan
+        Its ``to_json()`` is what ``bandsmith trim --json`` prints.
+    """
+    from bandsmith.board.trim import trim_plan
+
+    cand = candidate_of(circuit, parts)
+    tol = {str(k): _positive_fraction(v, f"tol {k}") for k, v in (tolerances or {}).items()}
+    return trim_plan(
+        cand.netlist, cand.topology.components, tolerances=tol,
+        measured_f0_hz=_positive(measured_f0_hz, "measured-f0") if measured_f0_hz is not None else None,
+        target_f0_hz=_positive(target_f0_hz, "target-f0") if target_f0_hz is not None else None,
+    )

@@ -56,6 +56,8 @@ PINNED = [
     "MeasurementFitReport",
     "OpAmpCheckReport",
     "InputError",
+    "bias",
+    "trim",
 ]
 
 FUNCTIONS = [n for n in PINNED if inspect.isfunction(getattr(api, n))]
@@ -65,6 +67,7 @@ REPORTS = [n for n in PINNED if n.endswith("Report") or n == "CircuitList"]
 POSITIONAL = {
     "analyze": ("circuit", "parts"), "sweep": ("circuit", "parts"), "tolerance": ("circuit", "parts"),
     "noise": ("circuit", "parts"), "fit": ("circuit", "parts"), "check_opamps": ("circuit", "parts"),
+    "bias": ("circuit", "parts"), "trim": ("circuit", "parts"),
     "design_circuit": ("circuit",), "analyze_session": ("session",), "open_session": ("path",),
     "save_session": ("session", "path"), "parse_value": ("text",), "format_value": ("x", "unit"),
 }

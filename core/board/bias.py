@@ -10,8 +10,9 @@ node's voltage, and the whole network (coupling and reference included) gives th
 Closed forms used (an RC section's corner is 1/(2πRC), Sedra & Smith, *Microelectronic Circuits*,
 7th ed., sec. 1.6, single-time-constant networks):
 
-- input coupling corner ``1/(2π·R_in·C_in)``, with ``R_in`` the circuit's DC input resistance
-  (capacitors open, op-amps ideal) from the coupling capacitor's far side;
+- input coupling corner ``1/(2π·R_in·C_in)``, with ``R_in`` the smallest magnitude of the
+  circuit's input impedance from DC through the band (op-amps ideal, the reference an AC ground);
+  for an input resistor into a virtual ground this is that resistor;
 - output coupling corner ``1/(2π·R_load·C_out)`` (the op-amp output is a zero-impedance source);
 - the divider's Thevenin resistance ``R_top·R_bot/(R_top + R_bot)`` and its bypass corner
   ``1/(2π·R_th·C_bypass)``; start-up: the reference rises as ``1 − exp(−t/τ)``, τ = R_th·C_bypass,
@@ -224,15 +225,24 @@ def _node_capacitance(elements, node: str) -> float:
     return sum(e.value for e in elements if e.kind == "C" and node in e.nodes)
 
 
-def input_resistance(elements, node: str) -> float:
-    """DC resistance (ohm) seen into ``node`` with the reference at 0 V and op-amps ideal; inf if none."""
+def input_resistance(elements, node: str, f_hz: np.ndarray) -> float:
+    """The smallest input impedance magnitude (ohm) seen into ``node`` at DC and over ``f_hz``.
+
+    The reference is an AC ground and op-amps are ideal. The AC part uses a small sense resistor
+    ``Rs`` from a test source: with ``H = V(node)/V(source)``, ``Z_in = Rs·H/(1 − H)``. Infinite
+    when the node has no resistive path at all.
+    """
+    elements = tuple(elements)
     test = dc_operating_point(elements, {REF: 0.0, node: 1.0})
-    current = 0.0
-    for e in elements:
-        if e.kind == "R" and node in e.nodes:
-            other = e.nodes[1] if e.nodes[0] == node else e.nodes[0]
-            current += (1.0 - test[other]) / e.value
-    return math.inf if current <= 0 else 1.0 / current
+    current = sum((1.0 - test[e.nodes[1] if e.nodes[0] == node else e.nodes[0]]) / e.value
+                  for e in elements if e.kind == "R" and node in e.nodes)
+    r_dc = math.inf if current <= 0 else 1.0 / current
+    rs = 1e-3 * min(e.value for e in elements if e.kind == "R")
+    ac = tuple(replace(e, nodes=tuple("0" if n == REF else n for n in e.nodes)) for e in elements)
+    probe = Netlist(ac + (Element("RSENSE", "R", ("probe", node), rs),), ground="0", input="probe", output=node)
+    h = transfer_function(probe).item(0).at_f(np.asarray(f_hz, dtype=float))[0]
+    z = np.abs(rs * h / (1.0 - h))
+    return float(min(r_dc, np.min(z)))
 
 
 def bias_circuit(netlist: Netlist, settings: BiasSettings) -> BiasedCircuit:
@@ -265,7 +275,7 @@ def bias_circuit(netlist: Netlist, settings: BiasSettings) -> BiasedCircuit:
         notes.append(f"node {node!r} has no DC path: bias resistor RB{k + 1} = {r:.3g} ohm to the reference added")
     core = core + tuple(added)
     # input coupling: the DC input resistance from the coupling capacitor's far side
-    r_in = input_resistance(core, netlist.input)
+    r_in = input_resistance(core, netlist.input, np.geomspace(f_corner, split.f_high_hz, 301))
     if not math.isfinite(r_in):
         r_in = settings.divider_ohm
         notes.append("the input has no DC path; the input coupling capacitor is sized against the divider resistance")
