@@ -30,6 +30,7 @@ from bandsmith.analysis.analyzer import ideal_figures, sensitivities, transfer_f
 from bandsmith.analysis.figures import Figures, measure
 from bandsmith.common.eseries import neighbours
 from bandsmith.common.errors import InputError
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.netlist import Netlist
 
 __all__ = ["TrimChoice", "Correction", "TrimPlan", "trim_plan", "trimmed_trials", "DEFAULT_TOLERANCES",
@@ -41,6 +42,7 @@ TRIMMER_TOLERANCE = 0.10
 SETTING_RESOLUTION = 1e-3  # a multi-turn trimmer set to 0.1 % of its track
 OTHERS = {"f0": ("gain", "bw"), "q": ("f0", "gain"), "gain": ("f0", "q")}
 MOVE_SHARE = 0.25
+MIN_S = 1e-3  # a resistor with |S| below this does not move the figure
 
 
 @dataclass(frozen=True, slots=True)
@@ -67,8 +69,9 @@ class TrimChoice:
     resolution_pct: float
 
     def to_json(self) -> dict:
-        return {"part": self.part, "interaction": self.interaction, "trimmer_ohm": self.trimmer_ohm,
-                "fixed_ohm": self.fixed_ohm, "range_pct": self.range_pct, "resolution_pct": self.resolution_pct,
+        return {"part": self.part, "interaction": self.interaction, "trimmer_ohm": finite_or_none(self.trimmer_ohm),
+                "fixed_ohm": finite_or_none(self.fixed_ohm), "range_pct": self.range_pct,
+                "resolution_pct": finite_or_none(self.resolution_pct),
                 "nominal_ohm": self.nominal_ohm, "sensitivity": self.sensitivity, "others": dict(self.others),
                 "spread_3sigma_pct": self.spread_3sigma_pct}
 
@@ -138,18 +141,21 @@ def part_tolerances(netlist: Netlist, given: Mapping[str, float]) -> dict[str, f
 
 
 def _choose(figure: str, sens: Mapping[str, Mapping[str, float]], resistors, taken=()) -> tuple[str, float, dict, float]:
-    """The resistor for ``figure``: least interaction (to 6 digits), then one not trimming another figure, then largest |S|."""
+    """The part for ``figure``: one not trimming another figure where there is one, then the least
+    interaction (to 6 digits), then the largest |S|. Parts moving the figure by less than a quarter of
+    the best one are passed over."""
     own = {r: abs(sens[figure][r]) for r in resistors}
     best = max(own.values())
-    if best <= 0:
-        raise InputError("parts", f"no resistor moves {figure}")
+    if best <= 1e-6:
+        raise InputError("parts", f"no part moves {figure}")
     rows = []
     for r in resistors:
         if own[r] < MOVE_SHARE * best:
             continue
         others = {o: float(sens[o][r]) for o in OTHERS[figure]}
         inter = max(abs(v) for v in others.values()) / own[r]
-        rows.append((round(inter, 6), r in taken, -own[r], r, others, inter))
+        inter = 0.0 if inter < 1e-9 else inter  # numerical noise of the central differences
+        rows.append((r in taken, round(inter, 6), -own[r], r, others, inter))
     *_, part, others, inter = min(rows)
     return part, float(sens[figure][part]), others, float(inter)
 
@@ -186,6 +192,8 @@ def _correction(netlist: Netlist, choice: TrimChoice, measured: float, target: f
     except ValueError:
         raise InputError("measured-f0", f"no value of {choice.part} within ×20 brings f0 to {target:g} Hz") from None
     tol = DEFAULT_TOLERANCES["R"]
+    if not math.isfinite(choice.fixed_ohm):
+        return Correction(choice.part, r0, new, lin, measured, target, True)
     in_range = choice.fixed_ohm * (1 + tol) <= new <= choice.fixed_ohm * (1 - tol) + choice.trimmer_ohm * (1 - TRIMMER_TOLERANCE)
     return Correction(choice.part, r0, new, lin, measured, target, bool(in_range))
 
@@ -219,12 +227,18 @@ def trim_plan(
     if not resistors:
         raise InputError("parts", "the circuit has no resistor to trim")
     choices = {}
+    every = [e.ref for e in netlist.passives]
     for fig in ("f0", "q", "gain"):
-        part, s, others, inter = _choose(fig, sens, resistors, tuple(c.part for c in choices.values()))
+        moving = [r for r in resistors if abs(sens[fig][r]) > MIN_S]
+        taken = tuple(c.part for c in choices.values())
+        part, s, others, inter = _choose(fig, sens, moving if moving else every, taken)
         sigma = math.sqrt(sum((sens[fig].get(ref, 0.0) * p / math.sqrt(3.0)) ** 2 for ref, p in tol.items()))
         need = 3.0 * sigma
         r0 = netlist.element(part).value
-        fixed, trimmer, reach, res = _trimmer(r0, s, need, tol[part])
+        if netlist.element(part).kind == "R":
+            fixed, trimmer, reach, res = _trimmer(r0, s, need, tol[part])
+        else:  # no resistor moves it: the L or C itself must be adjustable (slug-tuned coil, trimmer capacitor)
+            fixed, trimmer, reach, res = math.nan, math.nan, need, math.nan
         choices[fig] = TrimChoice(fig, part, r0, s, others, inter, 100 * need, trimmer, fixed, 100 * reach, 100 * res)
     correction = None
     if measured_f0_hz is not None:
@@ -232,7 +246,10 @@ def trim_plan(
         correction = _correction(netlist, choices["f0"], measured_f0_hz, target)
     c = choices
     procedure = (
-        f"Fit {c['f0'].part} as {c['f0'].fixed_ohm:.4g} Ω fixed in series with a {c['f0'].trimmer_ohm:.4g} Ω trimmer set to mid-track.",
+        (f"Fit {c['f0'].part} as {c['f0'].fixed_ohm:.4g} Ω fixed in series with a {c['f0'].trimmer_ohm:.4g} Ω trimmer set to mid-track."
+         if math.isfinite(c["f0"].trimmer_ohm) else
+         f"No resistor moves f0: make {c['f0'].part} adjustable over ±{c['f0'].range_pct / abs(c['f0'].sensitivity):.3g} % "
+         "(a slug-tuned inductor or a trimmer capacitor in parallel)."),
         f"Trim f0 first with {c['f0'].part} (it moves f0 with S = {c['f0'].sensitivity:+.3g}; "
         f"the others by at most {c['f0'].interaction:.2g}× as much).",
         f"Then Q with {c['q'].part} (S = {c['q'].sensitivity:+.3g}), and re-check f0.",
