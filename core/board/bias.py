@@ -327,6 +327,12 @@ def bias_circuit(netlist: Netlist, settings: BiasSettings) -> BiasedCircuit:
     out_net = Netlist(ac_core, ground="0", input=SOURCE, output=netlist.output)
     peak_gain = float(np.max(np.abs(transfer_function(out_net).item(0).at_f(f)[0])))
     out_pk = peak_gain * settings.vin_v
+    moved = {name: float(getattr(biased, attr)) / float(getattr(split, attr)) - 1.0
+             for name, attr in (("f0", "f0_hz"), ("Q", "q"), ("gain", "gain_center"))}
+    worst = max(moved, key=lambda k: abs(moved[k]))
+    if abs(moved[worst]) > 0.01:
+        notes.append(f"the bias network moves {worst} by {100 * moved[worst]:+.2g} %; a larger --corner-ratio "
+                     "(coupling corners further below the band) brings it back")
     v_out = node_v[netlist.output]
     margin = min(vs - settings.headroom_v - (v_out + out_pk), (v_out - out_pk) - settings.headroom_v)
     if margin < 0:
