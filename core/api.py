@@ -1381,6 +1381,10 @@ def bias(
     headroom_v: Value = 0.0,
     bias_current_a: Value = 0.0,
     corner_ratio: float = 10.0,
+    cp_f: Value | None = None,
+    temp_range_c: "tuple[float, float] | None" = None,
+    tempco: "Mapping[str, Value] | None" = None,
+    rated_v: Value = 50.0,
 ) -> "BiasedCircuit":
     """A circuit built for one supply: DC node voltages, reference, coupling, swing and response.
 
@@ -1406,6 +1410,14 @@ def bias(
         Input bias current into each op-amp pin, in A.
     corner_ratio : float
         The coupling corners sit this many times below the band's lower edge.
+    cp_f : float or str, optional
+        The inductor's parallel (winding) capacitance in F: gives its self-resonance.
+    temp_range_c : (float, float), optional
+        Two temperatures in °C: the drift of f0, Q and gain between them.
+    tempco : mapping, optional
+        Temperature coefficients per K by kind or reference (``{"R": 50e-6}``).
+    rated_v : float or str
+        A class-2 capacitor's rated voltage in V (for its loss under DC bias).
 
     Returns
     -------
@@ -1422,7 +1434,19 @@ def bias(
         headroom_v=parse_nonnegative(headroom_v, field="headroom"),
         bias_current_a=parse_value(bias_current_a, field="ibias"), corner_ratio=float(corner_ratio),
     )
-    return bias_circuit(cand.netlist, settings)
+    biased = bias_circuit(cand.netlist, settings)
+    from dataclasses import replace as _replace
+
+    from bandsmith.board.physics import board_physics
+
+    physics = board_physics(
+        cand.netlist, node_dc_v=biased.node_dc_v, coupling=biased.coupling,
+        cp_f=_positive(cp_f, "cp") if cp_f is not None else None,
+        temp_range_c=_temp_range(temp_range_c),
+        tempco={str(k): parse_value(t, field=f"tc {k}") for k, t in (tempco or {}).items()},
+        rated_v=_positive(rated_v, "rated"),
+    )
+    return _replace(biased, physics=physics)
 
 
 def trim(
@@ -1462,3 +1486,14 @@ def trim(
         measured_f0_hz=_positive(measured_f0_hz, "measured-f0") if measured_f0_hz is not None else None,
         target_f0_hz=_positive(target_f0_hz, "target-f0") if target_f0_hz is not None else None,
     )
+
+
+def _temp_range(t: "Sequence[Value] | None") -> "tuple[float, float] | None":
+    from bandsmith.common.values import parse_value
+
+    if t is None:
+        return None
+    if len(t) != 2:
+        raise InputError("temp-range", f"give two temperatures in °C, got {len(t)}")
+    lo, hi = sorted(parse_value(x, field="temp-range") for x in t)
+    return lo, hi

@@ -22,7 +22,22 @@ def configure(p):
     p.add_argument("--ibias", metavar="A", default="0", help="op-amp input bias current into each pin, amperes (default 0)")
     p.add_argument("--corner-ratio", metavar="K", default="10",
                    help="coupling corners this many times below the band's lower edge (default 10, at least 10)")
+    p.add_argument("--cp", metavar="F", help="the inductor's parallel (winding) capacitance: its self-resonance")
+    p.add_argument("--temp-range", metavar=("T1", "T2"), nargs=2, help="drift of f0, Q and gain between two temperatures, °C")
+    p.add_argument("--tc", metavar="KIND=PPM", action="append", default=[],
+                   help="temperature coefficient in ppm/K by kind or part (default R=50 C=0 L=200; repeatable)")
+    p.add_argument("--rated", metavar="V", default="50", help="a class-2 capacitor's rated voltage (default 50)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
+
+
+def _tempcos(items) -> dict:
+    out = {}
+    for item in items:
+        key, sep, value = item.partition("=")
+        if not sep or not key.strip():
+            raise api.InputError("tc", f"{item!r} is not KIND=PPM (R=50, C=0, L=200, R2=25)")
+        out[key.strip()] = api.parse_value(value.strip(), field=f"tc {key.strip()}") * 1e-6
+    return out
 
 
 def print_readable(r: dict) -> None:
@@ -50,6 +65,31 @@ def print_readable(r: dict) -> None:
           f"{format_value(r['swing_margin_v'], 'V', digits=3)}")
     for n in r["notes"]:
         print(f"note: {n}")
+    _print_physics(r["physics"])
+
+
+def _pct(d: dict) -> str:
+    return f"f0 {d['f0_pct']:+.3g} %, Q {d['q_pct']:+.3g} %, gain {d['gain_pct']:+.3g} %"
+
+
+def _print_physics(ph) -> None:
+    if not ph:
+        return
+    print()
+    for c in ph["capacitors"]:
+        t = c["x7r_temperature_spread"]
+        print(f"{c['ref']}: {c['dielectric']}; as X7R over -55…125 °C: {_pct(t['low'])} to {_pct(t['high'])}")
+    for c in ph["coupling_if_x7r"]:
+        print(f"{c['ref']} as X7R at {c['dc_v']:.3g} V DC: corner {format_value(c['corner_hz'], 'Hz', digits=3)} → "
+              f"{format_value(c['corner_hz_x7r_biased'], 'Hz', digits=3)}")
+    for i in ph["inductors"]:
+        print(f"{i['ref']}: self-resonance {format_value(i['srf_hz'], 'Hz', digits=4)} ({i['srf_over_f0']:.3g}× f0); "
+              f"with its winding capacitance {_pct(i['change_with_cp'])}")
+    if ph["drift"]:
+        d = ph["drift"]
+        print(f"drift at {d['t_low_c']:g} °C: {_pct(d['at_low'])}; at {d['t_high_c']:g} °C: {_pct(d['at_high'])}")
+    for w in ph["warnings"]:
+        print(f"warning: {w}")
 
 
 def run(args) -> int:
@@ -57,6 +97,7 @@ def run(args) -> int:
         args.topology, args.parts, supply_v=args.supply, reference=args.reference, divider_ohm=args.divider,
         rload_ohm=args.rload, vin_v=args.vin, headroom_v=args.headroom, bias_current_a=args.ibias,
         corner_ratio=api.parse_value(args.corner_ratio, field="corner-ratio"),
+        cp_f=args.cp, temp_range_c=args.temp_range, tempco=_tempcos(args.tc), rated_v=args.rated,
     ).to_json()
     if args.json:
         print_json(result)

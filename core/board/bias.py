@@ -150,6 +150,8 @@ class BiasedCircuit:
         The same circuit's figures on a split supply (ideal grounds, no coupling).
     notes : tuple of str
         What was added or needs care, in words.
+    physics : BoardPhysics or None
+        Dielectric advice, self-resonance and drift (:mod:`bandsmith.board.physics`), when asked for.
     """
 
     settings: BiasSettings
@@ -169,6 +171,7 @@ class BiasedCircuit:
     figures: Figures
     figures_split: Figures
     notes: tuple = field(default=())
+    physics: object = None
 
     def response(self, f_hz: np.ndarray) -> np.ndarray:
         """The complex response from the source to the load at frequencies in Hz."""
@@ -206,6 +209,7 @@ class BiasedCircuit:
                 "phase_deg": [float(x) for x in np.degrees(np.angle(h))],
             },
             "notes": list(self.notes),
+            "physics": self.physics.to_json() if self.physics is not None else None,
         }
 
 
