@@ -27,6 +27,7 @@ def configure(p):
     p.add_argument("--tc", metavar="KIND=PPM", action="append", default=[],
                    help="temperature coefficient in ppm/K by kind or part (default R=50 C=0 L=200; repeatable)")
     p.add_argument("--rated", metavar="V", default="50", help="a class-2 capacitor's rated voltage (default 50)")
+    p.add_argument("--spice", metavar="OUT.cir", help="also write a SPICE netlist with the bias network")
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
 
@@ -93,12 +94,23 @@ def _print_physics(ph) -> None:
 
 
 def run(args) -> int:
-    result = api.bias(
+    biased = api.bias(
         args.topology, args.parts, supply_v=args.supply, reference=args.reference, divider_ohm=args.divider,
         rload_ohm=args.rload, vin_v=args.vin, headroom_v=args.headroom, bias_current_a=args.ibias,
         corner_ratio=api.parse_value(args.corner_ratio, field="corner-ratio"),
         cp_f=args.cp, temp_range_c=args.temp_range, tempco=_tempcos(args.tc), rated_v=args.rated,
-    ).to_json()
+    )
+    result = biased.to_json()
+    if args.spice:
+        from bandsmith.board.spice import biased_spice
+        from bandsmith.files.exports import write_atomic
+
+        if not args.spice.strip():
+            raise api.InputError("spice", "give the name of the file to write")
+        try:
+            write_atomic(args.spice, biased_spice(biased))
+        except OSError as exc:
+            raise api.InputError("spice", f"cannot write {args.spice!r}: {exc.strerror or exc}") from None
     if args.json:
         print_json(result)
     else:
