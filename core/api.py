@@ -1456,6 +1456,7 @@ def trim(
     tolerances: "Mapping[str, Value] | None" = None,
     measured_f0_hz: Value | None = None,
     target_f0_hz: Value | None = None,
+    measured: "str | os.PathLike | None" = None,
 ) -> "TrimPlan":
     """Which part to make adjustable for f0, Q and gain, the trimmer that covers the spread, and a correction.
 
@@ -1471,6 +1472,9 @@ def trim(
         The built stage's measured f0 in Hz; gives the correction.
     target_f0_hz : float or str, optional
         The f0 to trim to, in Hz (the nominal f0 by default).
+    measured : path, optional
+        A measured sweep (as :func:`fit` reads it): the parts are fitted to it and the correction
+        solved on the fitted circuit.
 
     Returns
     -------
@@ -1480,11 +1484,13 @@ def trim(
     from bandsmith.board.trim import trim_plan
 
     cand = candidate_of(circuit, parts)
+    fitted = dict(fit(circuit, parts, measured=measured).fitted) if measured is not None else None
     tol = {str(k): _positive_fraction(v, f"tol {k}") for k, v in (tolerances or {}).items()}
     return trim_plan(
         cand.netlist, cand.topology.components, tolerances=tol,
         measured_f0_hz=_positive(measured_f0_hz, "measured-f0") if measured_f0_hz is not None else None,
         target_f0_hz=_positive(target_f0_hz, "target-f0") if target_f0_hz is not None else None,
+        fitted=fitted,
     )
 
 

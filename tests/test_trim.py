@@ -100,3 +100,20 @@ def test_command_prints_the_contract_keys(capsys):
 def test_bad_measurement_exits_2(capsys):
     code = cli_main(["trim", "mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n", "--measured-f0", "-5"])
     assert code == 2 and "measured-f0" in capsys.readouterr().err
+
+
+def test_correction_from_a_measured_sweep_through_the_fit(tmp_path):
+    # the board: the MFB with C2 6 % high, its sweep from the textbook biquad (scipy.signal.freqs)
+    from measured_helpers import sweep, write_layouts
+
+    f, mag, ph = sweep("mfb", MFB, {"C2": 0.06})
+    path = write_layouts(tmp_path, f, mag, ph)["csv_khz"]
+    plan = api.trim("mfb", MFB, measured=str(path))
+    c = plan.correction
+    assert c.part == "R2"
+    built = dict(MFB, C2=MFB["C2"] * 1.06)
+    assert c.measured_f0_hz == pytest.approx(float(sp.N(W0.subs({sp.Symbol(k, positive=True): v for k, v in built.items()}))) / (2 * math.pi), rel=2e-3)
+    # the built board with R2 set to the new value: back on the nominal f0 (Franco's formula)
+    trimmed = dict(built, R2=c.new_value)
+    f0 = float(sp.N(W0.subs({sp.Symbol(k, positive=True): v for k, v in trimmed.items()}))) / (2 * math.pi)
+    assert f0 == pytest.approx(float(plan.nominal.f0_hz), rel=3e-3)

@@ -15,6 +15,7 @@ def configure(p):
     p.add_argument("--tol", metavar="KIND=P", action="append", default=[],
                    help="tolerance by kind or part, e.g. R=1%% C=5%% R2=0.5%% (repeatable; default R 1%%, C 5%%, L 10%%)")
     p.add_argument("--measured-f0", metavar="F", help="the built stage's measured f0 in Hz: gives the correction")
+    p.add_argument("--measured", metavar="FILE", help="a measured sweep (as `bandsmith fit` reads it): fit, then correct")
     p.add_argument("--target-f0", metavar="F", help="the f0 to trim to, Hz (default the nominal f0)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
@@ -54,7 +55,8 @@ def print_readable(r: dict) -> None:
 
 def run(args) -> int:
     result = api.trim(args.topology, args.parts, tolerances=_tolerances(args.tol),
-                      measured_f0_hz=args.measured_f0, target_f0_hz=args.target_f0).to_json()
+                      measured_f0_hz=args.measured_f0, target_f0_hz=args.target_f0,
+                      measured=args.measured).to_json()
     if args.json:
         print_json(result)
     else:

@@ -33,6 +33,12 @@ from bandsmith.common.errors import InputError
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.netlist import Netlist
 
+
+def scaled(netlist: Netlist, factors: Mapping[str, float]) -> Netlist:
+    """A copy with some parts' values multiplied by a factor (by reference)."""
+    return Netlist(tuple(replace(e, value=e.value * factors[e.ref]) if e.ref in factors else e for e in netlist.elements),
+                   netlist.ground, netlist.input, netlist.output)
+
 __all__ = ["TrimChoice", "Correction", "TrimPlan", "trim_plan", "trimmed_trials", "DEFAULT_TOLERANCES",
            "TRIMMER_VALUES", "TRIMMER_TOLERANCE", "SETTING_RESOLUTION"]
 
@@ -180,11 +186,18 @@ def _f0_of(netlist: Netlist, ref: str, value: float) -> float:
     return float(ideal_figures(_with_value(netlist, ref, value)).f0_hz[0])
 
 
-def _correction(netlist: Netlist, choice: TrimChoice, measured: float, target: float) -> Correction:
+def _correction(netlist: Netlist, choice: TrimChoice, measured: float, target: float,
+                fitted: Mapping[str, float] | None = None) -> Correction:
     r0 = choice.nominal_ohm
-    model = _f0_of(netlist, choice.part, r0)
-    goal = target * model / measured  # the built stage is the model scaled by measured/model
-    lin = r0 * (goal / model) ** (1.0 / choice.sensitivity)
+    if fitted:  # the fit located the deviation: solve on the fitted circuit for the target itself
+        netlist = scaled(netlist, {e.ref: fitted[e.ref] / e.value for e in netlist.passives if e.ref in fitted})
+        r0 = netlist.element(choice.part).value
+        measured = _f0_of(netlist, choice.part, r0)
+        goal = target
+    else:
+        model = _f0_of(netlist, choice.part, r0)
+        goal = target * model / measured  # the built stage is the model scaled by measured/model
+    lin = r0 * (target / measured) ** (1.0 / choice.sensitivity)
     try:
         x = brentq(lambda lx: math.log(_f0_of(netlist, choice.part, math.exp(lx)) / goal),
                    math.log(r0 / 20), math.log(r0 * 20), xtol=1e-10)
@@ -193,9 +206,9 @@ def _correction(netlist: Netlist, choice: TrimChoice, measured: float, target: f
         raise InputError("measured-f0", f"no value of {choice.part} within ×20 brings f0 to {target:g} Hz") from None
     tol = DEFAULT_TOLERANCES["R"]
     if not math.isfinite(choice.fixed_ohm):
-        return Correction(choice.part, r0, new, lin, measured, target, True)
+        return Correction(choice.part, choice.nominal_ohm, new, lin, measured, target, True)
     in_range = choice.fixed_ohm * (1 + tol) <= new <= choice.fixed_ohm * (1 - tol) + choice.trimmer_ohm * (1 - TRIMMER_TOLERANCE)
-    return Correction(choice.part, r0, new, lin, measured, target, bool(in_range))
+    return Correction(choice.part, choice.nominal_ohm, new, lin, measured, target, bool(in_range))
 
 
 def trim_plan(
@@ -205,6 +218,7 @@ def trim_plan(
     tolerances: Mapping[str, float] | None = None,
     measured_f0_hz: float | None = None,
     target_f0_hz: float | None = None,
+    fitted: Mapping[str, float] | None = None,
 ) -> TrimPlan:
     """The trim plan of a circuit (ideal op-amp).
 
@@ -218,6 +232,9 @@ def trim_plan(
         Tolerances (fractions) by reference or by kind.
     measured_f0_hz, target_f0_hz : float, optional
         A measured f0 and the f0 to reach (the nominal one by default), in Hz.
+    fitted : mapping, optional
+        Part values fitted to a measured sweep (``bandsmith fit``): the correction is solved on
+        that circuit (its f0 is the measured one).
     """
     nominal = ideal_figures(netlist).item(0)
     sens = {k: dict(v) for k, v in sensitivities(netlist).items()}
@@ -241,9 +258,9 @@ def trim_plan(
             fixed, trimmer, reach, res = math.nan, math.nan, need, math.nan
         choices[fig] = TrimChoice(fig, part, r0, s, others, inter, 100 * need, trimmer, fixed, 100 * reach, 100 * res)
     correction = None
-    if measured_f0_hz is not None:
+    if measured_f0_hz is not None or fitted:
         target = target_f0_hz if target_f0_hz is not None else nominal.f0_hz
-        correction = _correction(netlist, choices["f0"], measured_f0_hz, target)
+        correction = _correction(netlist, choices["f0"], measured_f0_hz or math.nan, target, fitted)
     c = choices
     procedure = (
         (f"Fit {c['f0'].part} as {c['f0'].fixed_ohm:.4g} Ω fixed in series with a {c['f0'].trimmer_ohm:.4g} Ω trimmer set to mid-track."
