@@ -109,6 +109,8 @@ def run(args) -> int:
             raise api.InputError("spice", "give the name of the file to write")
         try:
             write_atomic(args.spice, biased_spice(biased))
+        except api.InputError as exc:
+            raise api.InputError("spice", exc.reason) from None
         except OSError as exc:
             raise api.InputError("spice", f"cannot write {args.spice!r}: {exc.strerror or exc}") from None
     if args.json:

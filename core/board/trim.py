@@ -140,6 +140,10 @@ def _with_value(netlist: Netlist, ref: str, value: float) -> Netlist:
 
 def part_tolerances(netlist: Netlist, given: Mapping[str, float]) -> dict[str, float]:
     """Each passive's tolerance: by reference, else by kind, else the default (R 1 %, C 5 %, L 10 %)."""
+    known = {"R", "C", "L"} | {e.ref for e in netlist.passives}
+    for key in given:
+        if key not in known:
+            raise InputError(f"tol {key}", f"not a kind (R, C, L) nor a part of this circuit ({', '.join(e.ref for e in netlist.passives)})")
     out = {}
     for e in netlist.passives:
         out[e.ref] = float(given.get(e.ref, given.get(e.kind, DEFAULT_TOLERANCES[e.kind])))
