@@ -1457,6 +1457,9 @@ def trim(
     measured_f0_hz: Value | None = None,
     target_f0_hz: Value | None = None,
     measured: "str | os.PathLike | None" = None,
+    trials: int = 0,
+    window: Value = 0.005,
+    seed: int = 1,
 ) -> "TrimPlan":
     """Which part to make adjustable for f0, Q and gain, the trimmer that covers the spread, and a correction.
 
@@ -1475,23 +1478,32 @@ def trim(
     measured : path, optional
         A measured sweep (as :func:`fit` reads it): the parts are fitted to it and the correction
         solved on the fitted circuit.
+    trials : int
+        Monte Carlo trials of f0 before and after trimming (0: none).
+    window : float or str
+        The f0 window of that Monte Carlo, a fraction (``"0.5%"``).
+    seed : int
+        The Monte Carlo's seed.
 
     Returns
     -------
     TrimPlan
         Its ``to_json()`` is what ``bandsmith trim --json`` prints.
     """
-    from bandsmith.board.trim import trim_plan
+    from bandsmith.board.trim import trim_plan, with_monte_carlo
 
     cand = candidate_of(circuit, parts)
     fitted = dict(fit(circuit, parts, measured=measured).fitted) if measured is not None else None
     tol = {str(k): _positive_fraction(v, f"tol {k}") for k, v in (tolerances or {}).items()}
-    return trim_plan(
+    plan = trim_plan(
         cand.netlist, cand.topology.components, tolerances=tol,
         measured_f0_hz=_positive(measured_f0_hz, "measured-f0") if measured_f0_hz is not None else None,
         target_f0_hz=_positive(target_f0_hz, "target-f0") if target_f0_hz is not None else None,
         fitted=fitted,
     )
+    if trials:
+        return with_monte_carlo(cand.netlist, plan, trials=trials, window=_positive_fraction(window, "window"), seed=seed)
+    return plan
 
 
 def _temp_range(t: "Sequence[Value] | None") -> "tuple[float, float] | None":

@@ -117,3 +117,12 @@ def test_correction_from_a_measured_sweep_through_the_fit(tmp_path):
     trimmed = dict(built, R2=c.new_value)
     f0 = float(sp.N(W0.subs({sp.Symbol(k, positive=True): v for k, v in trimmed.items()}))) / (2 * math.pi)
     assert f0 == pytest.approx(float(plan.nominal.f0_hz), rel=3e-3)
+
+
+def test_command_reports_the_trimmed_monte_carlo(capsys):
+    code = cli_main(["trim", "mfb", "R1=10k", "R2=866", "R3=82k", "C1=10n", "C2=10n", "--trials", "3000", "--json"])
+    out = json.loads(capsys.readouterr().out)
+    assert code == 0
+    mc = out["monte_carlo"]
+    assert mc["trials"] == 3000 and mc["window_pct"] == pytest.approx(0.5)
+    assert mc["within_after"] >= 0.99 > mc["within_before"]

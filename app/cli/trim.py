@@ -17,6 +17,10 @@ def configure(p):
     p.add_argument("--measured-f0", metavar="F", help="the built stage's measured f0 in Hz: gives the correction")
     p.add_argument("--measured", metavar="FILE", help="a measured sweep (as `bandsmith fit` reads it): fit, then correct")
     p.add_argument("--target-f0", metavar="F", help="the f0 to trim to, Hz (default the nominal f0)")
+    p.add_argument("--trials", metavar="N", type=int, default=0,
+                   help="Monte Carlo of f0 before and after trimming, N trials (default none)")
+    p.add_argument("--window", metavar="P", default="0.5%", help="f0 window of that Monte Carlo (default 0.5%%)")
+    p.add_argument("--seed", metavar="S", type=int, default=1, help="the Monte Carlo's seed (default 1)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
 
@@ -48,6 +52,11 @@ def print_readable(r: dict) -> None:
         print(f"measured f0 {format_value(c['measured_f0_hz'], 'Hz', digits=5)} → target {format_value(c['target_f0_hz'], 'Hz', digits=5)}: "
               f"set {c['part']} from {c['old_value']:.5g} to {c['new_value']:.5g}"
               + ("" if c["in_range"] else " (outside the trimmer's range)"))
+    if r["monte_carlo"]:
+        m = r["monte_carlo"]
+        print()
+        print(f"Monte Carlo, {m['trials']} trials: f0 within ±{m['window_pct']:.3g} % in {100 * m['within_before']:.1f} % "
+              f"of them as built, {100 * m['within_after']:.1f} % after trimming {r['f0']['part']}")
     print()
     for i, step in enumerate(r["procedure"], 1):
         print(f"{i}. {step}")
@@ -56,7 +65,7 @@ def print_readable(r: dict) -> None:
 def run(args) -> int:
     result = api.trim(args.topology, args.parts, tolerances=_tolerances(args.tol),
                       measured_f0_hz=args.measured_f0, target_f0_hz=args.target_f0,
-                      measured=args.measured).to_json()
+                      measured=args.measured, trials=args.trials, window=args.window, seed=args.seed).to_json()
     if args.json:
         print_json(result)
     else:

@@ -39,7 +39,7 @@ def scaled(netlist: Netlist, factors: Mapping[str, float]) -> Netlist:
     return Netlist(tuple(replace(e, value=e.value * factors[e.ref]) if e.ref in factors else e for e in netlist.elements),
                    netlist.ground, netlist.input, netlist.output)
 
-__all__ = ["TrimChoice", "Correction", "TrimPlan", "trim_plan", "trimmed_trials", "DEFAULT_TOLERANCES",
+__all__ = ["TrimChoice", "Correction", "TrimPlan", "trim_plan", "trimmed_trials", "with_monte_carlo", "DEFAULT_TOLERANCES",
            "TRIMMER_VALUES", "TRIMMER_TOLERANCE", "SETTING_RESOLUTION"]
 
 DEFAULT_TOLERANCES = {"R": 0.01, "C": 0.05, "L": 0.10}
@@ -114,6 +114,9 @@ class TrimPlan:
         The tolerance of each part (fraction).
     correction : Correction or None
         With a measured f0.
+    monte_carlo : mapping or None
+        With trials: ``trials``, ``seed``, ``window_pct`` and the share of trials with f0 inside
+        the window before and after trimming (``within_before``, ``within_after``, fractions).
     procedure : tuple of str
         The bench steps, in order.
     """
@@ -125,12 +128,14 @@ class TrimPlan:
     tolerances: Mapping[str, float]
     correction: Correction | None
     procedure: tuple
+    monte_carlo: Mapping[str, float] | None = None
 
     def to_json(self) -> dict:
         return {"nominal": self.nominal.to_json(), "f0": self.f0.to_json(), "q": self.q.to_json(),
                 "gain": self.gain.to_json(), "tolerances": dict(self.tolerances),
                 "correction": self.correction.to_json() if self.correction else None,
-                "procedure": list(self.procedure)}
+                "procedure": list(self.procedure),
+                "monte_carlo": dict(self.monte_carlo) if self.monte_carlo else None}
 
 
 def _with_value(netlist: Netlist, ref: str, value: float) -> Netlist:
@@ -308,3 +313,17 @@ def trimmed_trials(netlist: Netlist, plan: TrimPlan, *, trials: int = 2000, seed
         r = fixed + np.round(setting / step) * step
         current = f0({**values, choice.part: r})
     return before, current
+
+
+def with_monte_carlo(netlist: Netlist, plan: TrimPlan, *, trials: int, window: float = 0.005, seed: int = 1) -> TrimPlan:
+    """The plan with a Monte Carlo of f0 before and after trimming (:func:`trimmed_trials`)."""
+    if not (isinstance(trials, int) and 1 <= trials <= 1_000_000):
+        raise InputError("trials", f"must be a whole number from 1 to 1000000, got {trials!r}")
+    if not (math.isfinite(window) and 0 < window < 1):
+        raise InputError("window", f"must be a fraction between 0 and 1, got {window!r}")
+    before, after = trimmed_trials(netlist, plan, trials=trials, seed=seed)
+    f0 = float(plan.nominal.f0_hz)
+    mc = {"trials": trials, "seed": seed, "window_pct": 100 * window,
+          "within_before": float(np.mean(np.abs(before / f0 - 1) <= window)),
+          "within_after": float(np.mean(np.abs(after / f0 - 1) <= window))}
+    return replace(plan, monte_carlo=mc)
