@@ -1460,6 +1460,8 @@ def trim(
     trials: int = 0,
     window: Value = 0.005,
     seed: int = 1,
+    temp_range_c: "tuple[float, float] | None" = None,
+    tempco: "Mapping[str, Value] | None" = None,
 ) -> "TrimPlan":
     """Which part to make adjustable for f0, Q and gain, the trimmer that covers the spread, and a correction.
 
@@ -1484,6 +1486,10 @@ def trim(
         The f0 window of that Monte Carlo, a fraction (``"0.5%"``).
     seed : int
         The Monte Carlo's seed.
+    temp_range_c : (float, float), optional
+        Two temperatures in °C: the trimmed trials are also taken to a temperature in that range.
+    tempco : mapping, optional
+        ± temperature coefficients per K by kind or reference (defaults R 50e-6, C 30e-6, L 200e-6).
 
     Returns
     -------
@@ -1502,7 +1508,11 @@ def trim(
         fitted=fitted,
     )
     if trials:
-        return with_monte_carlo(cand.netlist, plan, trials=trials, window=_positive_fraction(window, "window"), seed=seed)
+        return with_monte_carlo(
+            cand.netlist, plan, trials=trials, window=_positive_fraction(window, "window"), seed=seed,
+            t_range=_temp_range(temp_range_c),
+            tempco={str(k): _number_of(t, f"tc {k}") for k, t in (tempco or {}).items()},
+        )
     return plan
 
 
@@ -1515,3 +1525,9 @@ def _temp_range(t: "Sequence[Value] | None") -> "tuple[float, float] | None":
         raise InputError("temp-range", f"give two temperatures in °C, got {len(t)}")
     lo, hi = sorted(parse_value(x, field="temp-range") for x in t)
     return lo, hi
+
+
+def _number_of(v: Value, field: str) -> float:
+    from bandsmith.common.values import parse_value
+
+    return parse_value(v, field=field)

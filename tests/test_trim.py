@@ -126,3 +126,21 @@ def test_command_reports_the_trimmed_monte_carlo(capsys):
     mc = out["monte_carlo"]
     assert mc["trials"] == 3000 and mc["window_pct"] == pytest.approx(0.5)
     assert mc["within_after"] >= 0.99 > mc["within_before"]
+
+
+def test_temperature_as_a_spread_source_stays_within_the_formula_bounds():
+    # capacitors only, ±300 ppm/K, all trials at 70 °C: f0 ∝ 1/√(C1·C2) (Franco), so each trial's f0
+    # moves by at most the factor 1/(1 − 300e-6·45) either way and at 25 °C not at all
+    from bandsmith.board.trim import over_temperature
+
+    plan = api.trim("mfb", MFB)
+    net = api.candidate_of("mfb", MFB).netlist
+    _, after, values = trimmed_trials(net, plan, trials=2000, seed=3, keep_values=True)
+    rng = np.random.default_rng(5)
+    same = over_temperature(net, values, (25.0, 25.0), {"C": 300e-6}, rng)
+    np.testing.assert_allclose(same, after, rtol=1e-9)
+    hot = over_temperature(net, values, (70.0, 70.0), {"C": 300e-6}, rng)
+    ratio = hot / after
+    bound = 1 / (1 - 300e-6 * 45)
+    assert np.all(ratio <= bound * (1 + 1e-9)) and np.all(ratio >= 1 / bound * (1 - 1e-9))
+    assert np.max(np.abs(ratio - 1)) > 0.5 * (bound - 1)

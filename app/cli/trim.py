@@ -21,6 +21,10 @@ def configure(p):
                    help="Monte Carlo of f0 before and after trimming, N trials (default none)")
     p.add_argument("--window", metavar="P", default="0.5%", help="f0 window of that Monte Carlo (default 0.5%%)")
     p.add_argument("--seed", metavar="S", type=int, default=1, help="the Monte Carlo's seed (default 1)")
+    p.add_argument("--temp-range", metavar=("T1", "T2"), nargs=2,
+                   help="with --trials: also take each trimmed trial to a temperature between T1 and T2 °C")
+    p.add_argument("--tc", metavar="KIND=PPM", action="append", default=[],
+                   help="± temperature coefficient in ppm/K by kind or part (default R=50 C=30 L=200; repeatable)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
 
@@ -31,6 +35,16 @@ def _tolerances(items) -> dict:
         if not sep or not key.strip():
             raise api.InputError("tol", f"{item!r} is not KIND=P (R=1%, C=5%, R2=0.5%)")
         out[key.strip()] = value.strip()
+    return out
+
+
+def _tempcos(items) -> dict:
+    out = {}
+    for item in items:
+        key, sep, value = item.partition("=")
+        if not sep or not key.strip():
+            raise api.InputError("tc", f"{item!r} is not KIND=PPM (R=50, C=30, L=200, R2=25)")
+        out[key.strip()] = api.parse_value(value.strip(), field=f"tc {key.strip()}") * 1e-6
     return out
 
 
@@ -57,6 +71,9 @@ def print_readable(r: dict) -> None:
         print()
         print(f"Monte Carlo, {m['trials']} trials: f0 within ±{m['window_pct']:.3g} % in {100 * m['within_before']:.1f} % "
               f"of them as built, {100 * m['within_after']:.1f} % after trimming {r['f0']['part']}")
+        if "within_after_over_temperature" in m:
+            print(f"trimmed, then taken to {m['t_low_c']:g}…{m['t_high_c']:g} °C: "
+                  f"{100 * m['within_after_over_temperature']:.1f} % still within the window")
     print()
     for i, step in enumerate(r["procedure"], 1):
         print(f"{i}. {step}")
@@ -65,7 +82,8 @@ def print_readable(r: dict) -> None:
 def run(args) -> int:
     result = api.trim(args.topology, args.parts, tolerances=_tolerances(args.tol),
                       measured_f0_hz=args.measured_f0, target_f0_hz=args.target_f0,
-                      measured=args.measured, trials=args.trials, window=args.window, seed=args.seed).to_json()
+                      measured=args.measured, trials=args.trials, window=args.window, seed=args.seed,
+                      temp_range_c=args.temp_range, tempco=_tempcos(args.tc)).to_json()
     if args.json:
         print_json(result)
     else:

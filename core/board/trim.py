@@ -48,7 +48,8 @@ TRIMMER_TOLERANCE = 0.10
 SETTING_RESOLUTION = 1e-3  # a multi-turn trimmer set to 0.1 % of its track
 OTHERS = {"f0": ("gain", "bw"), "q": ("f0", "gain"), "gain": ("f0", "q")}
 MOVE_SHARE = 0.25
-MIN_S = 1e-3  # a resistor with |S| below this does not move the figure
+MIN_S = 1e-3
+C0G_TC = 30e-6  # EIA-198 C0G: 0 ± 30 ppm/K  # a resistor with |S| below this does not move the figure
 
 
 @dataclass(frozen=True, slots=True)
@@ -284,12 +285,13 @@ def trim_plan(
     return TrimPlan(nominal, c["f0"], c["q"], c["gain"], tol, correction, procedure)
 
 
-def trimmed_trials(netlist: Netlist, plan: TrimPlan, *, trials: int = 2000, seed: int = 1) -> tuple[np.ndarray, np.ndarray]:
+def trimmed_trials(netlist: Netlist, plan: TrimPlan, *, trials: int = 2000, seed: int = 1, keep_values: bool = False):
     """Monte Carlo of f0 before and after trimming f0 with the plan's part (ideal op-amp).
 
     Every part is drawn uniform within its tolerance; the trim part is then set (three Newton steps
     in ln R on the batch) to bring f0 to nominal, quantised to the trimmer's setting step and held
-    within the fixed + trimmer range. Returns (f0 before, f0 after) in Hz, one per trial.
+    within the fixed + trimmer range. Returns (f0 before, f0 after) in Hz, one per trial, and with
+    ``keep_values`` the trimmed part values too.
     """
     rng = np.random.default_rng(seed)
     values = {e.ref: e.value * (1 + rng.uniform(-plan.tolerances[e.ref], plan.tolerances[e.ref], trials))
@@ -312,18 +314,45 @@ def trimmed_trials(netlist: Netlist, plan: TrimPlan, *, trials: int = 2000, seed
         step = SETTING_RESOLUTION * trimmer
         r = fixed + np.round(setting / step) * step
         current = f0({**values, choice.part: r})
+    if keep_values:
+        return before, current, {**values, choice.part: r}
     return before, current
 
 
-def with_monte_carlo(netlist: Netlist, plan: TrimPlan, *, trials: int, window: float = 0.005, seed: int = 1) -> TrimPlan:
-    """The plan with a Monte Carlo of f0 before and after trimming (:func:`trimmed_trials`)."""
+def over_temperature(netlist: Netlist, values: Mapping[str, np.ndarray], t_range: tuple[float, float],
+                     tempco: Mapping[str, float], rng: np.random.Generator) -> np.ndarray:
+    """f0 (Hz) of each trial at a temperature drawn uniform in ``t_range`` (°C).
+
+    Each part's coefficient is drawn uniform within ± the coefficient of its reference or kind (a
+    data sheet's ±α, sign unknown), per K; values move by ``1 + α·(T − 25 °C)``.
+    """
+    trials = next(iter(values.values())).size
+    t = rng.uniform(t_range[0], t_range[1], trials)
+    moved = {}
+    for e in netlist.passives:
+        a = abs(float(tempco.get(e.ref, tempco.get(e.kind, 0.0))))
+        moved[e.ref] = values[e.ref] * (1 + rng.uniform(-a, a, trials) * (t - 25.0))
+    return np.asarray(measure(transfer_function(netlist, overrides=moved)).f0_hz, dtype=float)
+
+
+def with_monte_carlo(netlist: Netlist, plan: TrimPlan, *, trials: int, window: float = 0.005, seed: int = 1,
+                     t_range: tuple[float, float] | None = None, tempco: Mapping[str, float] | None = None) -> TrimPlan:
+    """The plan with a Monte Carlo of f0 before and after trimming (:func:`trimmed_trials`), and,
+    with ``t_range`` (°C), of the trimmed stage over temperature (:func:`over_temperature`)."""
     if not (isinstance(trials, int) and 1 <= trials <= 1_000_000):
         raise InputError("trials", f"must be a whole number from 1 to 1000000, got {trials!r}")
     if not (math.isfinite(window) and 0 < window < 1):
         raise InputError("window", f"must be a fraction between 0 and 1, got {window!r}")
-    before, after = trimmed_trials(netlist, plan, trials=trials, seed=seed)
+    before, after, trimmed = trimmed_trials(netlist, plan, trials=trials, seed=seed, keep_values=True)
     f0 = float(plan.nominal.f0_hz)
     mc = {"trials": trials, "seed": seed, "window_pct": 100 * window,
           "within_before": float(np.mean(np.abs(before / f0 - 1) <= window)),
           "within_after": float(np.mean(np.abs(after / f0 - 1) <= window))}
+    if t_range is not None:
+        from bandsmith.board.physics import DEFAULT_TEMPCO
+
+        tc = {**DEFAULT_TEMPCO, "C": C0G_TC, **dict(tempco or {})}
+        hot = over_temperature(netlist, trimmed, t_range, tc, np.random.default_rng(seed + 1))
+        mc.update({"t_low_c": t_range[0], "t_high_c": t_range[1],
+                   "within_after_over_temperature": float(np.mean(np.abs(hot / f0 - 1) <= window))})
     return replace(plan, monte_carlo=mc)
