@@ -87,3 +87,12 @@ def test_bias_command_carries_the_physics(capsys):
     # coupling capacitors see half the supply: an X7R's loss raises the corner by 1/(1 − 0.3·2.5/50)
     cin = ph["coupling_if_x7r"][0]
     assert cin["corner_hz_x7r_biased"] == pytest.approx(cin["corner_hz"] / (1 - 0.3 * 2.5 / 50), rel=1e-9)
+
+
+def test_core_tolerance_moves_f0_as_one_over_root_l():
+    # the tank's f0 = 1/(2π√(LC)): L at −10 % and +10 % moves f0 by 1/√0.9 − 1 and 1/√1.1 − 1
+    net = api.candidate_of("rlc-tank", dict(TANK, RL=0.0)).netlist
+    (i,) = inductor_resonance(net, None, core_tolerance=0.10)
+    assert i.srf_hz is None and i.warning is None
+    assert i.core_low["f0_pct"] == pytest.approx(100 * (1 / math.sqrt(0.9) - 1), rel=1e-6)
+    assert i.core_high["f0_pct"] == pytest.approx(100 * (1 / math.sqrt(1.1) - 1), rel=1e-6)

@@ -84,6 +84,10 @@ def _print_physics(ph) -> None:
         print(f"{c['ref']} as X7R at {c['dc_v']:.3g} V DC: corner {format_value(c['corner_hz'], 'Hz', digits=3)} → "
               f"{format_value(c['corner_hz_x7r_biased'], 'Hz', digits=3)}")
     for i in ph["inductors"]:
+        c = i["core_spread"]
+        print(f"{i['ref']}: core ±{100 * i['core_tolerance']:.3g} %: {_pct(c['low'])} to {_pct(c['high'])}")
+        if i["srf_hz"] is None:
+            continue
         print(f"{i['ref']}: self-resonance {format_value(i['srf_hz'], 'Hz', digits=4)} ({i['srf_over_f0']:.3g}× f0); "
               f"with its winding capacitance {_pct(i['change_with_cp'])}")
     if ph["drift"]:

@@ -119,37 +119,54 @@ def self_resonance_hz(l_h: float, cp_f: float, r_ohm: float = 0.0) -> float:
 
 @dataclass(frozen=True, slots=True)
 class InductorResonance:
-    """An inductor's self-resonance against the circuit's f0, and the figures with Cp in the model."""
+    """An inductor's self-resonance against the circuit's f0, the figures with Cp in the model, and
+    the figures at the ends of its core's tolerance (``core_low``/``core_high``, per cent)."""
 
     ref: str
-    cp_f: float
-    srf_hz: float
+    cp_f: float | None
+    srf_hz: float | None
     f0_hz: float
-    ratio: float
+    ratio: float | None
     warning: str | None
-    change: Mapping[str, float]
+    change: Mapping[str, float] | None
+    core_tolerance: float
+    core_low: Mapping[str, float]
+    core_high: Mapping[str, float]
 
     def to_json(self) -> dict:
         return {"ref": self.ref, "cp_f": self.cp_f, "srf_hz": self.srf_hz, "f0_hz": self.f0_hz,
-                "srf_over_f0": self.ratio, "warning": self.warning, "change_with_cp": dict(self.change)}
+                "srf_over_f0": self.ratio, "warning": self.warning,
+                "change_with_cp": dict(self.change) if self.change is not None else None,
+                "core_tolerance": self.core_tolerance,
+                "core_spread": {"low": dict(self.core_low), "high": dict(self.core_high)}}
 
 
-def inductor_resonance(netlist: Netlist, cp_f: float) -> tuple[InductorResonance, ...]:
-    """Each inductor's self-resonance with a parallel capacitance ``cp_f`` (F), and a warning within a decade of f0."""
-    if not (math.isfinite(cp_f) and cp_f > 0):
+def inductor_resonance(netlist: Netlist, cp_f: float | None, *, core_tolerance: float = 0.10) -> tuple[InductorResonance, ...]:
+    """Each inductor's self-resonance with a parallel capacitance ``cp_f`` (F; None: not known), a
+    warning within a decade of f0, and the figures at ± its core's tolerance (default 10 %, a
+    ferrite-cored inductor's usual grade; common practice, no source)."""
+    if cp_f is not None and not (math.isfinite(cp_f) and cp_f > 0):
         raise InputError("cp", f"must be a finite capacitance above zero, got {cp_f!r}")
+    if not (math.isfinite(core_tolerance) and 0 <= core_tolerance < 1):
+        raise InputError("core-tol", f"must be a fraction from 0 to 1, got {core_tolerance!r}")
     base = ideal_figures(netlist)
     f0 = float(base.f0_hz[0])
     out = []
     for e in netlist.passives:
         if e.kind != "L":
             continue
+        lo = _change(base, ideal_figures(scaled(netlist, {e.ref: 1 - core_tolerance})))
+        hi = _change(base, ideal_figures(scaled(netlist, {e.ref: 1 + core_tolerance})))
+        if cp_f is None:
+            out.append(InductorResonance(e.ref, None, None, f0, None, None, None, core_tolerance, lo, hi))
+            continue
         srf = self_resonance_hz(e.value, cp_f, e.series_resistance)
         with_cp = netlist.with_element(Element(f"CP_{e.ref}", "C", e.nodes, cp_f))
         ratio = srf / f0
         warning = (f"{e.ref} resonates by itself at {srf:.4g} Hz, within a decade of f0 ({f0:.4g} Hz): "
                    "choose a coil with less winding capacitance") if ratio < 10 else None
-        out.append(InductorResonance(e.ref, cp_f, srf, f0, ratio, warning, _change(base, ideal_figures(with_cp))))
+        out.append(InductorResonance(e.ref, cp_f, srf, f0, ratio, warning, _change(base, ideal_figures(with_cp)),
+                                     core_tolerance, lo, hi))
     return tuple(out)
 
 
@@ -230,7 +247,7 @@ def board_physics(
 
     dc = {e.ref: v(e.nodes[0]) - v(e.nodes[1]) for e in netlist.passives if e.kind == "C"} if volts else None
     caps = capacitor_advice(netlist, dc_v=dc, rated_v=rated_v)
-    inductors = inductor_resonance(netlist, cp_f) if cp_f is not None else ()
+    inductors = inductor_resonance(netlist, cp_f)
     drift = temperature_drift(netlist, *temp_range_c, tempco) if temp_range_c is not None else None
     coupled = []
     for c in coupling:
