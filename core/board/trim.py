@@ -31,13 +31,8 @@ from bandsmith.analysis.figures import Figures, measure
 from bandsmith.common.eseries import neighbours
 from bandsmith.common.errors import InputError
 from bandsmith.common.jsonutil import finite_or_none
+from bandsmith.board.physics import scaled
 from bandsmith.solver.netlist import Netlist
-
-
-def scaled(netlist: Netlist, factors: Mapping[str, float]) -> Netlist:
-    """A copy with some parts' values multiplied by a factor (by reference)."""
-    return Netlist(tuple(replace(e, value=e.value * factors[e.ref]) if e.ref in factors else e for e in netlist.elements),
-                   netlist.ground, netlist.input, netlist.output)
 
 __all__ = ["TrimChoice", "Correction", "TrimPlan", "trim_plan", "trimmed_trials", "with_monte_carlo", "DEFAULT_TOLERANCES",
            "TRIMMER_VALUES", "TRIMMER_TOLERANCE", "SETTING_RESOLUTION"]
