@@ -273,7 +273,8 @@ def trim_plan(
          f"No resistor moves f0: make {c['f0'].part} adjustable over ±{c['f0'].range_pct / abs(c['f0'].sensitivity):.3g} % "
          "(a slug-tuned inductor or a trimmer capacitor in parallel)."),
         f"Trim f0 first with {c['f0'].part} (it moves f0 with S = {c['f0'].sensitivity:+.3g}; "
-        f"the others by at most {c['f0'].interaction:.2g}× as much).",
+        + (f"the gain and the bandwidth by at most {c['f0'].interaction:.2g}× as much)."
+           if c["f0"].interaction > 0 else "the gain and the bandwidth not at all)."),
         f"Then Q with {c['q'].part} (S = {c['q'].sensitivity:+.3g}), and re-check f0.",
         f"Gain last with {c['gain'].part} (S = {c['gain'].sensitivity:+.3g}).",
     )
