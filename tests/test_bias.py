@@ -2,7 +2,7 @@
 
 Every check is against something written here independently of the package: a nodal DC solve done
 with sympy from Kirchhoff's current law and Ohm's law, the RC corner 1/(2πRC) (Sedra & Smith,
-*Microelectronic Circuits*, 7th ed., sec. 1.6), and the textbook transfer function of the
+*Microelectronic Circuits*, single-time-constant networks; from memory), and the textbook transfer function of the
 inverting tank circuit evaluated with scipy.signal.freqs.
 """
 

@@ -2,8 +2,8 @@
 Monte Carlo of the trimmed stage.
 
 References: the MFB band-pass is tuned at constant bandwidth and gain by its shunt resistor to
-ground (A. B. Williams and F. J. Taylor, *Electronic Filter Design Handbook*, 4th ed., 2006,
-sec. 5.2); the MFB's ideal f0, Q and gain (S. Franco, *Design with Operational Amplifiers and Analog
+ground (A. B. Williams and F. J. Taylor, *Electronic Filter Design Handbook*, 4th ed., 2006, the
+band-pass chapter; from memory — and visible in the formulas below: R2 appears only in ω0); the MFB's ideal f0, Q and gain (S. Franco, *Design with Operational Amplifiers and Analog
 Integrated Circuits*, 3rd ed., ch. 3), differentiated here with sympy; the variance of a uniform
 draw on ±p is p²/3.
 """

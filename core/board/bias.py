@@ -7,8 +7,8 @@ or a buffered (ideal) source. A node left with no DC path (reached only through 
 bias resistor to the reference. Then a DC solve (capacitors open, inductors shorted) gives every
 node's voltage, and the whole network (coupling and reference included) gives the response.
 
-Closed forms used (an RC section's corner is 1/(2πRC), Sedra & Smith, *Microelectronic Circuits*,
-7th ed., sec. 1.6, single-time-constant networks):
+Closed forms used (an RC section's corner is 1/(2πRC): A. S. Sedra and K. C. Smith,
+*Microelectronic Circuits*, the single-time-constant networks; chapter from memory):
 
 - input coupling corner ``1/(2π·R_in·C_in)``, with ``R_in`` the smallest magnitude of the
   circuit's input impedance from DC through the band (op-amps ideal, the reference an AC ground);

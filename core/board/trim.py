@@ -7,8 +7,10 @@ the smallest *interaction*, the largest |S| on the other figures divided by its 
 The other figures are, for f0, the gain and the bandwidth (a band-pass is re-centred at constant
 bandwidth, S_bw = S_f0 − S_Q); for Q, f0 and the gain; for the gain, f0 and Q. For the
 multiple-feedback band-pass this picks the shunt resistor to ground, the classic choice (A. B.
-Williams and F. J. Taylor, *Electronic Filter Design Handbook*, 4th ed., McGraw-Hill, 2006,
-sec. 5.2, the MFB band-pass "can be tuned by adjusting R2" at constant bandwidth and gain).
+Williams and F. J. Taylor, *Electronic Filter Design Handbook*, 4th ed., McGraw-Hill, 2006, the
+chapter on band-pass filters: the MFB band-pass's centre frequency adjusted by R2 at constant
+bandwidth and gain; section from memory). It follows from the formulas: ω0² ∝ (1/R1 + 1/R2),
+while the bandwidth (C1 + C2)/(R3·C1·C2) and the gain R3·C1/(R1·(C1 + C2)) have no R2 in them.
 
 The spread a trim must cover is 3σ of the figure, σ² = Σ (S_i·σ_i)², each part's value uniform
 within ± its tolerance p (σ_i = p/√3, the Monte Carlo's default draw). The trim part must then
