@@ -70,6 +70,8 @@ __all__ = [
     "InputError",
     "filter_bank",
     "BankReport",
+    "bias",
+    "trim",
 ]
 
 DEFAULT_A0 = 1e5
@@ -1526,3 +1528,171 @@ def filter_bank(
     conditions = conditions_of(gbw_hz, a0)
     result = design_bank(f, q_val, _positive(gain, "gain"), circuit=circuit, series=_series(series), labels_hz=labels, rule=rule, conditions=conditions)
     return BankReport(result, bank_response(result, points=n_points))
+
+
+# --------------------------------------------------------------------------------------------
+# On the board: single supply and trimming
+
+
+def bias(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    supply_v: Value,
+    reference: str = "divider",
+    divider_ohm: Value = 100e3,
+    rload_ohm: Value = 10e3,
+    vin_v: Value = 1.0,
+    headroom_v: Value = 0.0,
+    bias_current_a: Value = 0.0,
+    corner_ratio: float = 10.0,
+    cp_f: Value | None = None,
+    temp_range_c: "tuple[float, float] | None" = None,
+    tempco: "Mapping[str, Value] | None" = None,
+    rated_v: Value = 50.0,
+) -> "BiasedCircuit":
+    """A circuit built for one supply: DC node voltages, reference, coupling, swing and response.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of "REF=VALUE"
+        Part values.
+    supply_v : float or str
+        The single supply in V.
+    reference : str
+        ``"divider"`` or ``"buffered"``.
+    divider_ohm : float or str
+        Each divider resistor, in ohm.
+    rload_ohm : float or str
+        The load behind the output coupling capacitor, in ohm.
+    vin_v : float or str
+        The input's peak amplitude in V.
+    headroom_v : float or str
+        How close to a rail the output swings, in V.
+    bias_current_a : float or str
+        Input bias current into each op-amp pin, in A.
+    corner_ratio : float
+        The coupling corners sit this many times below the band's lower edge.
+    cp_f : float or str, optional
+        The inductor's parallel (winding) capacitance in F: gives its self-resonance.
+    temp_range_c : (float, float), optional
+        Two temperatures in °C: the drift of f0, Q and gain between them.
+    tempco : mapping, optional
+        Temperature coefficients per K by kind or reference (``{"R": 50e-6}``).
+    rated_v : float or str
+        A class-2 capacitor's rated voltage in V (for its loss under DC bias).
+
+    Returns
+    -------
+    BiasedCircuit
+        Its ``to_json()`` is what ``bandsmith bias --json`` prints.
+    """
+    from bandsmith.board.bias import BiasSettings, bias_circuit
+    from bandsmith.common.values import parse_nonnegative, parse_value
+
+    cand = candidate_of(circuit, parts)
+    settings = BiasSettings(
+        supply_v=_positive(supply_v, "supply"), reference=str(reference), divider_ohm=_positive(divider_ohm, "divider"),
+        rload_ohm=_positive(rload_ohm, "rload"), vin_v=_positive(vin_v, "vin"),
+        headroom_v=parse_nonnegative(headroom_v, field="headroom"),
+        bias_current_a=parse_value(bias_current_a, field="ibias"), corner_ratio=float(corner_ratio),
+    )
+    biased = bias_circuit(cand.netlist, settings)
+    from dataclasses import replace as _replace
+
+    from bandsmith.board.physics import board_physics
+
+    physics = board_physics(
+        cand.netlist, node_dc_v=biased.node_dc_v, coupling=biased.coupling,
+        cp_f=_positive(cp_f, "cp") if cp_f is not None else None,
+        temp_range_c=_temp_range(temp_range_c),
+        tempco={str(k): parse_value(t, field=f"tc {k}") for k, t in (tempco or {}).items()},
+        rated_v=_positive(rated_v, "rated"),
+    )
+    return _replace(biased, physics=physics)
+
+
+def trim(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    tolerances: "Mapping[str, Value] | None" = None,
+    measured_f0_hz: Value | None = None,
+    target_f0_hz: Value | None = None,
+    measured: "str | os.PathLike | None" = None,
+    trials: int = 0,
+    window: Value = 0.005,
+    seed: int = 1,
+    temp_range_c: "tuple[float, float] | None" = None,
+    tempco: "Mapping[str, Value] | None" = None,
+) -> "TrimPlan":
+    """Which part to make adjustable for f0, Q and gain, the trimmer that covers the spread, and a correction.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of "REF=VALUE"
+        Part values.
+    tolerances : mapping, optional
+        Tolerance by part kind (``{"R": "1%", "C": "5%", "L": "10%"}``) or by reference.
+    measured_f0_hz : float or str, optional
+        The built stage's measured f0 in Hz; gives the correction.
+    target_f0_hz : float or str, optional
+        The f0 to trim to, in Hz (the nominal f0 by default).
+    measured : path, optional
+        A measured sweep (as :func:`fit` reads it): the parts are fitted to it and the correction
+        solved on the fitted circuit.
+    trials : int
+        Monte Carlo trials of f0 before and after trimming (0: none).
+    window : float or str
+        The f0 window of that Monte Carlo, a fraction (``"0.5%"``).
+    seed : int
+        The Monte Carlo's seed.
+    temp_range_c : (float, float), optional
+        Two temperatures in °C: the trimmed trials are also taken to a temperature in that range.
+    tempco : mapping, optional
+        ± temperature coefficients per K by kind or reference (defaults R 50e-6, C 30e-6, L 200e-6).
+
+    Returns
+    -------
+    TrimPlan
+        Its ``to_json()`` is what ``bandsmith trim --json`` prints.
+    """
+    from bandsmith.board.trim import trim_plan, with_monte_carlo
+
+    cand = candidate_of(circuit, parts)
+    fitted = dict(fit(circuit, parts, measured=measured).fitted) if measured is not None else None
+    tol = {str(k): _positive_fraction(v, f"tol {k}") for k, v in (tolerances or {}).items()}
+    plan = trim_plan(
+        cand.netlist, cand.topology.components, tolerances=tol,
+        measured_f0_hz=_positive(measured_f0_hz, "measured-f0") if measured_f0_hz is not None else None,
+        target_f0_hz=_positive(target_f0_hz, "target-f0") if target_f0_hz is not None else None,
+        fitted=fitted,
+    )
+    if trials:
+        return with_monte_carlo(
+            cand.netlist, plan, trials=trials, window=_positive_fraction(window, "window"), seed=seed,
+            t_range=_temp_range(temp_range_c),
+            tempco={str(k): _number_of(t, f"tc {k}") for k, t in (tempco or {}).items()},
+        )
+    return plan
+
+
+def _temp_range(t: "Sequence[Value] | None") -> "tuple[float, float] | None":
+    from bandsmith.common.values import parse_value
+
+    if t is None:
+        return None
+    if len(t) != 2:
+        raise InputError("temp-range", f"give two temperatures in °C, got {len(t)}")
+    lo, hi = sorted(parse_value(x, field="temp-range") for x in t)
+    return lo, hi
+
+
+def _number_of(v: Value, field: str) -> float:
+    from bandsmith.common.values import parse_value
+
+    return parse_value(v, field=field)

@@ -58,6 +58,8 @@ PINNED = [
     "InputError",
     "filter_bank",
     "BankReport",
+    "bias",
+    "trim",
 ]
 
 FUNCTIONS = [n for n in PINNED if inspect.isfunction(getattr(api, n))]
@@ -67,6 +69,7 @@ REPORTS = [n for n in PINNED if n.endswith("Report") or n == "CircuitList"]
 POSITIONAL = {
     "analyze": ("circuit", "parts"), "sweep": ("circuit", "parts"), "tolerance": ("circuit", "parts"),
     "noise": ("circuit", "parts"), "fit": ("circuit", "parts"), "check_opamps": ("circuit", "parts"),
+    "bias": ("circuit", "parts"), "trim": ("circuit", "parts"),
     "design_circuit": ("circuit",), "analyze_session": ("session",), "open_session": ("path",),
     "save_session": ("session", "path"), "parse_value": ("text",), "format_value": ("x", "unit"),
 }
