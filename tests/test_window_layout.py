@@ -49,6 +49,7 @@ def _essentials(window) -> dict[str, list[tuple[str, QtWidgets.QWidget]]]:
         "Tolerance spread": [("Run button", sp.run_button), ("per-part tolerances", sp.parts)],
         "Noise": [("noise plot", n.canvas), ("sources table", n.table)],
         "Stage chain": [("Build chain", c.form.btn_build), ("stage table", c.view.stage_table)],
+        "Filter bank": [("Design bank", window.bank_pane.btn_design), ("channel table", window.bank_pane.table)],
     }
 
 
@@ -116,6 +117,7 @@ def test_every_pane_fits(window, qtbot, size):
         for t in tables:
             problems += [f"{title}: {p}" for p in _header_problems(t)]
         # "+ Add candidate" is reachable whatever the pane and however many candidates.
+        assert title in essentials, f"name the essential controls of the {title!r} pane in _essentials"
         for name, w in [("+ Add candidate", window.board.add_button), *essentials[title]]:
             if not _fully_shown(w, window):
                 problems.append(f"{title}: {name} is not wholly inside the window ({region_of(w, window)} of {w.size()})")
