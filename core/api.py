@@ -197,7 +197,7 @@ def tolerances_of(tol_f0: Value | None, tol_q: Value | None, tol_gain_db: Value 
     )
 
 
-def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=None, tol_q=None, tol_gain_db=None) -> "Conditions":
+def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=None, tol_q=None, tol_gain_db=None, rsource_ohm=None) -> "Conditions":
     """The op-amp and drive options (as :func:`design_circuit` takes them) read into ``Conditions``."""
     from bandsmith.design.candidate import Conditions
 
@@ -207,7 +207,19 @@ def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=
         vin_v=_positive(vin_v, "vin"),
         rload_ohm=_optional_positive(rload_ohm, "rload"),
         tolerances=tolerances_of(tol_f0, tol_q, tol_gain_db),
+        rsource_ohm=_optional_positive(rsource_ohm, "rsource"),
     )
+
+
+def _with_source(netlist: "Netlist", rsource_ohm: Value | None) -> "Netlist":
+    """The netlist driven through a series source resistance ``rsource_ohm`` (ohm), if given."""
+    from bandsmith.design.source import with_source
+    from bandsmith.common.limits import check_part_value
+
+    rs = _optional_positive(rsource_ohm, "rsource")
+    if rs is not None:
+        check_part_value("rsource", "R", rs)
+    return with_source(netlist, rs)
 
 
 def _opamp(gbw_hz: Value | None, a0: Value) -> "OpAmpModel":
@@ -356,6 +368,7 @@ def design_circuit(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
 ) -> DesignReport:
     """Part values of one circuit for a target centre frequency, Q (or bandwidth) and gain.
 
@@ -398,7 +411,7 @@ def design_circuit(
 
     spec = _spec(f0_hz, q, bw_hz, gain)
     series = _series(series)
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
     topo = _topology(circuit)
     fixed = _assignments(fix)
     result = _design(topo.id, spec, series=series, fixed=fixed, conditions=conditions)
@@ -466,6 +479,7 @@ def compare(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
     limits: "VerdictLimits | None" = None,
 ) -> ComparisonReport:
     """Design every circuit for one target, judge each and rank them.
@@ -494,6 +508,8 @@ def compare(
         Allowed f0 and Q change with the finite op-amp (fractions) for the required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for the required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
     limits : VerdictLimits, optional
         The limits the verdicts judge against (:class:`bandsmith.verdict.VerdictLimits`);
         None takes its defaults.
@@ -507,7 +523,7 @@ def compare(
 
     spec = _spec(f0_hz, q, bw_hz, gain)
     series = _series(series)
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
     comparison = compare_verdicts(spec, series=series, conditions=conditions, limits=limits or VerdictLimits())
     return ComparisonReport(comparison, series, conditions)
 
@@ -559,6 +575,7 @@ def analyze(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
 ) -> AnalysisReport:
     """Analyse one candidate: figures, amplifier needs and sensitivities.
 
@@ -581,13 +598,15 @@ def analyze(
         Allowed f0 and Q change with the finite op-amp (fractions) for the required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for the required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
 
     Returns
     -------
     AnalysisReport
         ``to_json()`` is the ``analyze --json`` object.
     """
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
     cand = candidate_of(circuit, parts)
     return AnalysisReport(cand, cand.analyze(conditions))
 
@@ -622,6 +641,7 @@ def analyze_session(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
 ) -> SessionAnalysisReport:
     """Analyse every candidate of a session under its own op-amp and drive, or the ones given.
 
@@ -642,6 +662,8 @@ def analyze_session(
         tolerances replaces the session's (the others take their defaults).
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for the required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
 
     Returns
     -------
@@ -651,9 +673,9 @@ def analyze_session(
     if not hasattr(session, "candidates"):
         session = open_session(session)
     given = conditions_of(gbw_hz, a0 if a0 is not None else DEFAULT_A0, vin_v if vin_v is not None else 1.0,
-                        rload_ohm, tol_f0, tol_q, tol_gain_db)
+                        rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
     changes: dict[str, Any] = {}
-    for name, option in (("gbw_hz", gbw_hz), ("a0", a0), ("vin_v", vin_v), ("rload_ohm", rload_ohm)):
+    for name, option in (("gbw_hz", gbw_hz), ("a0", a0), ("vin_v", vin_v), ("rload_ohm", rload_ohm), ("rsource_ohm", rsource_ohm)):
         if option is not None:
             changes[name] = getattr(given, name)
     if any(t is not None for t in (tol_f0, tol_q, tol_gain_db)):
@@ -841,6 +863,7 @@ def tolerance(
     window_f0: Value | None = None,
     window_q: Value | None = None,
     window_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
 ) -> ToleranceReport:
     """Monte Carlo tolerance spread, yield and worst case of one candidate.
 
@@ -882,7 +905,8 @@ def tolerance(
     if settings.gbw_tol > 0 and opamp.ideal:
         raise InputError("gbw-tol", "needs --gbw: an ideal op-amp has no GBW to spread")
     cand = candidate_of(circuit, parts)
-    return ToleranceReport(cand, run_spread(cand.netlist, settings, opamp=opamp))
+    net = _with_source(cand.netlist, rsource_ohm)
+    return ToleranceReport(cand, run_spread(net, settings, opamp=opamp))
 
 
 @dataclass(frozen=True)
@@ -916,6 +940,7 @@ def noise(
     gbw_hz: Value | None = None,
     a0: Value = DEFAULT_A0,
     vin_v: Value = 1.0,
+    rsource_ohm: Value | None = None,
 ) -> NoiseReport:
     """Output noise per source, integrated over a band, and the signal-to-noise ratio.
 
@@ -961,7 +986,8 @@ def noise(
     opamp = _opamp(gbw_hz, a0)
     vin = _positive(vin_v, "vin")
     cand = candidate_of(circuit, parts)
-    return NoiseReport(cand, output_noise(cand.netlist, settings, opamp=opamp, vin_v=vin))
+    net = _with_source(cand.netlist, rsource_ohm)
+    return NoiseReport(cand, output_noise(net, settings, opamp=opamp, vin_v=vin))
 
 
 # --------------------------------------------------------------------------------------------
@@ -1018,6 +1044,7 @@ def cascade(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
 ) -> CascadeReport:
     """Design a higher-order band-pass as a chain of second-order stages.
 
@@ -1078,7 +1105,7 @@ def cascade(
         circuit=circuit,
         series=series,
     )
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
     return CascadeReport(design_cascade(settings, conditions=conditions))
 
 
@@ -1282,6 +1309,8 @@ def check_opamps(
         Allowed f0 and Q change (fractions) for the required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for the required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
 
     Returns
     -------

@@ -36,6 +36,9 @@ class Conditions:
         Peak input amplitude (V).
     rload_ohm : float, optional
         A load from the output to ground (ohm).
+    rsource_ohm : float, optional
+        A source resistance in series with the input (ohm): the element ``RSOURCE`` of the
+        netlist every analysis sees (:mod:`bandsmith.design.source`).
     tolerances : Tolerances
         Limits of the required-GBW search.
     """
@@ -45,9 +48,11 @@ class Conditions:
     vin_v: float = 1.0
     rload_ohm: float | None = None
     tolerances: Tolerances = field(default_factory=Tolerances)
+    rsource_ohm: float | None = None
 
     def __post_init__(self):
-        checks = (("gbw", self.gbw_hz, True), ("a0", self.a0, False), ("vin", self.vin_v, False), ("rload", self.rload_ohm, True))
+        checks = (("gbw", self.gbw_hz, True), ("a0", self.a0, False), ("vin", self.vin_v, False), ("rload", self.rload_ohm, True),
+                  ("rsource", self.rsource_ohm, True))
         for name, v, optional in checks:
             if v is None and optional:
                 continue
@@ -56,6 +61,8 @@ class Conditions:
         check_range("vin", float(self.vin_v), *VIN_RANGE_V, "V")
         if self.rload_ohm is not None:
             check_part_value("rload", "R", float(self.rload_ohm))
+        if self.rsource_ohm is not None:
+            check_part_value("rsource", "R", float(self.rsource_ohm))
 
     @property
     def opamp(self) -> OpAmpModel | None:
@@ -80,6 +87,12 @@ class Candidate:
     def netlist(self) -> Netlist:
         return self.topology.build(self.values)
 
+    def driven_netlist(self, conditions: Conditions = Conditions()) -> Netlist:
+        """The netlist as driven under ``conditions``: with the source resistance in series, if any."""
+        from bandsmith.design.source import with_source
+
+        return with_source(self.netlist, conditions.rsource_ohm)
+
     def analyze(self, conditions: Conditions = Conditions()) -> Analysis:
         """Analyse under ``conditions``.
 
@@ -90,7 +103,7 @@ class Candidate:
             sensitivities can be measured (a response flat or sharp beyond floating-point reach).
         """
         result = analyze(
-            self.netlist,
+            self.driven_netlist(conditions),
             opamp=conditions.opamp,
             vin_v=conditions.vin_v,
             a0=conditions.a0,
