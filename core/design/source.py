@@ -36,3 +36,52 @@ def with_source(netlist: Netlist, rsource_ohm: float | None) -> Netlist:
     rs = Element(SOURCE_REF, "R", (old, SOURCE_NODE), float(rsource_ohm))
     output = node(netlist.output)
     return Netlist((rs,) + elements, netlist.ground, old, output)
+
+
+def input_resistor(netlist: Netlist) -> str | None:
+    """The resistor that alone joins the source node to the circuit, or None.
+
+    When exactly one element touches the netlist's input and it is a resistor, that resistor is in
+    series with the source, so a source resistance adds to it (common practice, no source).
+    """
+    touching = [e for e in netlist.elements if netlist.input in e.nodes]
+    if len(touching) == 1 and touching[0].kind == "R":
+        return touching[0].ref
+    return None
+
+
+def absorb_source(netlist: Netlist, values: dict[str, float], rsource_ohm: float | None,
+                  pinned: tuple[str, ...] = ()) -> tuple[dict[str, float], tuple[str, ...]]:
+    """Exact part values with the input resistor lowered by a known source resistance.
+
+    Parameters
+    ----------
+    netlist : Netlist
+        The circuit built from ``values`` (without the source).
+    values : dict
+        Exact part values (SI).
+    rsource_ohm : float or None
+        The source resistance (ohm).
+    pinned : tuple of str
+        Parts the user fixed: never changed.
+
+    Returns
+    -------
+    values, notes
+        The values to build (``R_in − Rs`` in place of ``R_in``: the circuit driven through ``Rs``
+        then has exactly the designed response) and a note saying so, or the values unchanged
+        with a note on why the source cannot be absorbed.
+    """
+    if rsource_ohm is None:
+        return dict(values), ()
+    ref = input_resistor(netlist)
+    rs = float(rsource_ohm)
+    if ref is None:
+        return dict(values), (f"the source resistance {rs:.4g} Ω cannot be absorbed: no single resistor takes the input; it is analysed as given",)
+    if ref in pinned:
+        return dict(values), (f"the source resistance {rs:.4g} Ω is not absorbed: {ref} is pinned",)
+    if values[ref] <= rs:
+        return dict(values), (f"the source resistance {rs:.4g} Ω is not absorbed: it exceeds {ref} = {values[ref]:.4g} Ω",)
+    out = dict(values)
+    out[ref] = values[ref] - rs
+    return out, (f"{ref} is lowered by the source resistance {rs:.4g} Ω (to {out[ref]:.5g} Ω), so the source completes it",)
