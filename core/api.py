@@ -1006,6 +1006,7 @@ class CascadeReport:
     """
 
     result: "Cascade"
+    mask: "Mapping[str, Any] | None" = None
 
     @property
     def feasible(self) -> bool:
@@ -1022,7 +1023,10 @@ class CascadeReport:
         """The ``bandsmith cascade --json`` object."""
         from bandsmith.chain.cascade import cascade_json
 
-        return cascade_json(self.result)
+        out = cascade_json(self.result)
+        if self.mask is not None:
+            out.update(self.mask)
+        return out
 
 
 def cascade(
@@ -1045,6 +1049,8 @@ def cascade(
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
     rsource_ohm: Value | None = None,
+    reject: "Sequence[str] | None" = None,
+    pass_loss_db: Value | None = None,
 ) -> CascadeReport:
     """Design a higher-order band-pass as a chain of second-order stages.
 
@@ -1090,12 +1096,13 @@ def cascade(
     if response is None:
         raise InputError("response", f"missing; choose one of {', '.join(RESPONSES)}")
     if order is None:
-        raise InputError("order", "missing; give an integer from 1 to 8")
+        raise InputError("order", "missing; give an integer from 1 to 8, or auto with --reject points")
     if circuit not in circuit_choices():
         raise InputError("circuit", f"{circuit!r} is not a circuit; choose one of {', '.join(circuit_choices())}")
+    auto = isinstance(order, str) and order.strip().lower() == "auto"
     settings = ChainSettings.from_request(
         response,
-        order,
+        1 if auto else order,
         f0_hz=_optional_positive(f0_hz, "f0"),
         bw_hz=_optional_positive(bw_hz, "bw"),
         f_low_hz=_optional_positive(f_low_hz, "f-low"),
@@ -1106,6 +1113,11 @@ def cascade(
         series=series,
     )
     conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
+    if auto or reject:
+        from bandsmith.chain.mask_design import design_to_mask
+
+        result, mask_json = design_to_mask(settings, reject, pass_loss_db, conditions=conditions, auto=auto)
+        return CascadeReport(result, mask_json)
     return CascadeReport(design_cascade(settings, conditions=conditions))
 
 
