@@ -401,6 +401,8 @@ def design_circuit(
         1 % and 5 %), for the required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB; default 0.5) for the required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
 
     Returns
     -------
@@ -892,6 +894,8 @@ def tolerance(
         Yield window around nominal f0 and Q (fractions; defaults ±5 % and ±10 %).
     window_gain_db : float or str, optional
         Yield window for the centre gain (dB; default ±1).
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist (spread with the resistors' tolerance).
 
     Returns
     -------
@@ -964,6 +968,8 @@ def noise(
         Op-amp open-loop DC gain (V/V).
     vin_v : float or str
         Input sine peak (V) for the SNR.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist (its own thermal noise counted).
 
     Returns
     -------
@@ -1003,6 +1009,9 @@ class CascadeReport:
     result : Cascade
         The stages (circuit, f0 in Hz, Q, gain, parts), the whole chain's band edges (Hz) and
         gains (dB), and the GBW (Hz) the most demanding stage needs.
+    mask : dict or None
+        With rejection points: the JSON keys of the mask checked on the built chain (``mask``:
+        ``{f_hz, required_db, achieved_db, margin_db}`` per point, dB), else None.
     """
 
     result: "Cascade"
@@ -1058,8 +1067,9 @@ def cascade(
     ----------
     response : str
         Prototype family, e.g. ``"butterworth"`` or ``"chebyshev"``.
-    order : int
-        Prototype order, 1 to 8 (the band-pass has that many stages).
+    order : int or str
+        Prototype order, 1 to 8 (the band-pass has that many stages), or ``"auto"``: the least
+        order meeting the ``reject`` points.
     f0_hz, bw_hz : float or str, optional
         Geometric centre (Hz) and bandwidth f_high − f_low (Hz); or give the edges.
     f_low_hz, f_high_hz : float or str, optional
@@ -1084,6 +1094,13 @@ def cascade(
         Allowed f0 and Q change (fractions) for each stage's required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for each stage's required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the chain's input (ohm), an element of the first stage's netlist.
+    reject : sequence of str, optional
+        Rejection points ``"F=DB"``: at least DB dB below the centre gain at frequency F (Hz, any
+        value notation). With ``order="auto"`` the least order meeting them is chosen.
+    pass_loss_db : float or str, optional
+        Loss allowed at the pass-band edges with a mask (dB; Butterworth below 3.01, Chebyshev its ripple).
 
     Returns
     -------
