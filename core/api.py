@@ -1010,8 +1010,9 @@ class CascadeReport:
         The stages (circuit, f0 in Hz, Q, gain, parts), the whole chain's band edges (Hz) and
         gains (dB), and the GBW (Hz) the most demanding stage needs.
     mask : dict or None
-        With rejection points: the JSON keys of the mask checked on the built chain (``mask``:
-        ``{f_hz, required_db, achieved_db, margin_db}`` per point, dB), else None.
+        Extra JSON keys: with rejection points the mask checked on the built chain (``mask``:
+        ``{f_hz, required_db, achieved_db, margin_db}`` per point, dB), and ``joint`` (the
+        in-band deviation in dB with parts chosen per stage and for the whole chain).
     """
 
     result: "Cascade"
@@ -1060,6 +1061,7 @@ def cascade(
     rsource_ohm: Value | None = None,
     reject: "Sequence[str] | None" = None,
     pass_loss_db: Value | None = None,
+    joint: bool = True,
 ) -> CascadeReport:
     """Design a higher-order band-pass as a chain of second-order stages.
 
@@ -1101,6 +1103,9 @@ def cascade(
         value notation). With ``order="auto"`` the least order meeting them is chosen.
     pass_loss_db : float or str, optional
         Loss allowed at the pass-band edges with a mask (dB; Butterworth below 3.01, Chebyshev its ripple).
+    joint : bool
+        Choose the standard values of all stages together for the least in-band deviation of the
+        whole chain (True, the default) or each stage's alone; JSON ``joint`` gives the improvement (dB).
 
     Returns
     -------
@@ -1133,9 +1138,13 @@ def cascade(
     if auto or reject:
         from bandsmith.chain.mask_design import design_to_mask
 
-        result, mask_json = design_to_mask(settings, reject, pass_loss_db, conditions=conditions, auto=auto)
+        result, mask_json = design_to_mask(settings, reject, pass_loss_db, conditions=conditions, auto=auto, joint=bool(joint))
         return CascadeReport(result, mask_json)
-    return CascadeReport(design_cascade(settings, conditions=conditions))
+    if joint:
+        from bandsmith.chain.joint import design_jointly
+
+        return CascadeReport(*design_jointly(settings, conditions=conditions))
+    return CascadeReport(design_cascade(settings, conditions=conditions), {"joint": None})
 
 
 # --------------------------------------------------------------------------------------------

@@ -27,6 +27,8 @@ def configure(p):
     p.add_argument("--reject", metavar="F=DB", action="append", default=[],
                    help="attenuation of at least DB dB below the centre gain at frequency F (repeatable); makes a mask")
     p.add_argument("--pass-loss-db", metavar="L", help="loss allowed at the pass-band edges with a mask (butterworth, below 3.01 dB; chebyshev: its ripple)")
+    p.add_argument("--parts-alone", action="store_true",
+                   help="choose each stage's standard values alone (default: all stages together, for the least in-band deviation of the whole chain)")
     add_amp_options(p)
     p.add_argument("--save", metavar="FILE", help="write a session file with the chain")
     p.add_argument("--json", action="store_true", help="print one JSON object")
@@ -95,6 +97,9 @@ def print_readable(out: dict) -> None:
     if out["overall_actual"] is not None:
         a = out["overall_actual"]
         rows.append(["with the op-amp", f"edges {_num(a['f_low_hz'], 'Hz')} / {_num(a['f_high_hz'], 'Hz')}, centre gain {_num(a['gain_center_db'], 'dB', 4)}, {_num(out['actual_max_dev_db'], 'dB', 3)} off the reference"])
+    j = out.get("joint")
+    if j is not None and j["passband_dev_alone_db"] is not None:
+        rows.append(["parts chosen together", f"{_num(j['passband_dev_joint_db'], 'dB', 3)} off in the band; each stage alone {_num(j['passband_dev_alone_db'], 'dB', 3)}"])
     print("whole chain")
     width = max(len(r[0]) for r in rows)
     for label, value in rows:
@@ -132,6 +137,7 @@ def run(args) -> int:
         **amp_options(args),
         reject=args.reject or None,
         pass_loss_db=args.pass_loss_db,
+        joint=not args.parts_alone,
     )
     out = report.to_json()
     if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"

@@ -7,6 +7,7 @@ margin is measured on the built chain's response (with the finite op-amp when on
 
 from __future__ import annotations
 
+from dataclasses import replace
 from typing import Any, Sequence
 
 import numpy as np
@@ -47,6 +48,7 @@ def design_to_mask(
     *,
     conditions: Conditions = Conditions(),
     auto: bool = True,
+    joint: bool = True,
 ) -> tuple[Cascade, dict]:
     """Design a chain to a mask.
 
@@ -63,6 +65,8 @@ def design_to_mask(
         Op-amp, drive, load, source.
     auto : bool
         Choose the least order meeting the mask (True) or check the mask at ``settings.order``.
+    joint : bool
+        Choose the parts of all stages together, weighted by the mask (:mod:`bandsmith.chain.joint`).
 
     Returns
     -------
@@ -87,7 +91,7 @@ def design_to_mask(
     else:
         n = settings.order
     built_settings = settings_for_order(settings, n, mask)
-    result = design_cascade(built_settings, conditions=conditions)
+    result, joint_key = _build(built_settings, conditions, mask, joint)
     allowed = allowed_pass_loss_db(built_settings, mask)
     ideal = check_mask(result.reference_response, settings.f_low_hz, settings.f_high_hz, allowed, mask, on="ideal response")
     if result.feasible:
@@ -113,5 +117,39 @@ def design_to_mask(
             )
         else:
             notes.append(f"order {n} does not meet the mask even with ideal parts")
+    if not check.met and result.feasible and ideal.met:
+        finer = _finer_series(built_settings, conditions, mask, allowed, joint)
+        out["mask_finer_series"] = finer
+        if finer:
+            notes.append(f"the {finer} series meets the mask with the same order")
+        else:
+            notes.append("no finer series up to E192 meets it either: trim the sharpest stage or take one order more")
     out["mask_notes"] = notes
+    out.update(joint_key)
     return result, out
+
+
+def _build(settings: ChainSettings, conditions: Conditions, mask: Mask, joint: bool) -> tuple[Cascade, dict]:
+    if not joint:
+        return design_cascade(settings, conditions=conditions), {"joint": None}
+    from bandsmith.chain.joint import design_jointly
+
+    return design_jointly(settings, conditions=conditions, mask=mask)
+
+
+_FINER = ("E6", "E12", "E24", "E48", "E96", "E192")
+
+
+def _finer_series(settings: ChainSettings, conditions: Conditions, mask: Mask, allowed: float, joint: bool) -> str | None:
+    """The first series finer than the chain's whose built chain meets the mask, or None."""
+    if settings.series not in _FINER:
+        return None
+    actual = conditions.opamp is not None
+    for series in _FINER[_FINER.index(settings.series) + 1 :]:
+        result, _ = _build(replace(settings, series=series), conditions, mask, joint)
+        if not result.feasible:
+            continue
+        check = check_mask(lambda f: result.response(f, actual=actual), settings.f_low_hz, settings.f_high_hz, allowed, mask)
+        if check.met:
+            return series
+    return None
