@@ -64,6 +64,9 @@ __all__ = [
     "MeasurementFitReport",
     "OpAmpCheckReport",
     "InputError",
+    "burst",
+    "burst_cascade",
+    "BurstReport",
 ]
 
 DEFAULT_A0 = 1e5
@@ -1428,3 +1431,149 @@ def save_session(session: "Session", path: str | os.PathLike) -> None:
     if not os.fspath(path).strip():  # an empty name is bad input, not "save nothing"
         raise InputError("save", "give the name of the session file to write")
     _save(session, path)
+
+
+# --------------------------------------------------------------------------------------------
+# Tone bursts
+
+
+@dataclass(frozen=True)
+class BurstReport:
+    """The response to a tone burst (``bandsmith burst``).
+
+    Attributes
+    ----------
+    source : str
+        A circuit id, or ``"chain"`` for a whole chain.
+    components : dict or None
+        The circuit's part values (ohm, farad, henry); None for a chain.
+    result : BurstResult
+        Times (s), output and envelope (V per volt of input peak), ``envelope_tau_s``,
+        ``settle_time_s`` and ``ringdown_time_s`` (s).
+    with_opamp : bool
+        Whether the finite op-amp was in the response.
+    """
+
+    source: str
+    components: "Mapping[str, float] | None"
+    result: "BurstResult"
+    with_opamp: bool = False
+
+    def to_json(self) -> dict:
+        """The ``bandsmith burst --json`` object."""
+        return {"topology": self.source, "components": None if self.components is None else dict(self.components),
+                "with_opamp": self.with_opamp, **self.result.to_json()}
+
+
+def _burst_duration(freq_hz: float, cycles: Value | None, duration_s: Value | None) -> float:
+    if (cycles is None) == (duration_s is None):
+        raise InputError("cycles", "give either the number of cycles or the duration of the burst")
+    if cycles is not None:
+        return _positive(cycles, "cycles") / freq_hz
+    return _positive(duration_s, "duration")
+
+
+def _within(within: Value | None) -> float:
+    if within is None:
+        return 0.01
+    w = _positive_fraction(within, "within")
+    if w >= 1:
+        raise InputError("within", f"must be below 100 %, got {within!r}")
+    return w
+
+
+def burst(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    freq_hz: Value,
+    cycles: Value | None = None,
+    duration_s: Value | None = None,
+    within: Value | None = None,
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+    rsource_ohm: Value | None = None,
+) -> BurstReport:
+    """The response of one candidate to a tone burst: envelope, settling and ring-down.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of str
+        Part values by reference (ohm, farad, henry).
+    freq_hz : float or str
+        The tone (Hz).
+    cycles : float or str, optional
+        How many cycles the tone is on (give this or ``duration_s``).
+    duration_s : float or str, optional
+        How long the tone is on (s).
+    within : float or str, optional
+        Settling band around the steady amplitude (fraction or percent; default 1 %).
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None is an ideal op-amp.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
+
+    Returns
+    -------
+    BurstReport
+        ``to_json()`` is the ``burst --json`` object (``envelope_tau_s``, ``settle_time_s``,
+        ``ringdown_time_s`` in s, and the waveform).
+    """
+    from bandsmith.analysis.analyzer import transfer_function
+    from bandsmith.analysis.burst import burst_response, zpk_of
+
+    f = _positive(freq_hz, "freq")
+    duration = _burst_duration(f, cycles, duration_s)
+    w = _within(within)
+    conditions = conditions_of(gbw_hz, a0, rsource_ohm=rsource_ohm)
+    cand = candidate_of(circuit, parts)
+    net = cand.driven_netlist(conditions)
+    h = transfer_function(net, conditions.opamp) if conditions.opamp is not None else transfer_function(net)
+    return BurstReport(cand.topology_id, _values_json(cand), burst_response(zpk_of(h), f, duration, within=w), conditions.opamp is not None)
+
+
+def burst_cascade(
+    report: CascadeReport,
+    *,
+    freq_hz: Value,
+    cycles: Value | None = None,
+    duration_s: Value | None = None,
+    within: Value | None = None,
+    with_opamp: bool = False,
+) -> BurstReport:
+    """The response of a whole chain (from :func:`cascade`) to a tone burst.
+
+    Parameters
+    ----------
+    report : CascadeReport
+        A built chain.
+    freq_hz : float or str
+        The tone (Hz).
+    cycles : float or str, optional
+        How many cycles the tone is on (give this or ``duration_s``).
+    duration_s : float or str, optional
+        How long the tone is on (s).
+    within : float or str, optional
+        Settling band around the steady amplitude (fraction or percent; default 1 %).
+    with_opamp : bool
+        Use the stages' responses with the finite op-amp of the chain's conditions.
+
+    Returns
+    -------
+    BurstReport
+        As :func:`burst`, ``topology`` ``"chain"``.
+    """
+    from bandsmith.analysis.burst import burst_response, chain_zpk
+
+    res = report.result
+    if not res.feasible:
+        raise InputError("chain", f"the chain cannot be built: {res.reason}")
+    f = _positive(freq_hz, "freq")
+    duration = _burst_duration(f, cycles, duration_s)
+    use = with_opamp and res.conditions.opamp is not None
+    hs = [st.h_actual if use and st.h_actual is not None else st.h_ideal for st in res.stages]
+    return BurstReport("chain", None, burst_response(chain_zpk(hs), f, duration, within=_within(within)), use)

@@ -56,6 +56,9 @@ PINNED = [
     "MeasurementFitReport",
     "OpAmpCheckReport",
     "InputError",
+    "burst",
+    "burst_cascade",
+    "BurstReport",
 ]
 
 FUNCTIONS = [n for n in PINNED if inspect.isfunction(getattr(api, n))]
