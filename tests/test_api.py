@@ -70,6 +70,7 @@ POSITIONAL = {
     "noise": ("circuit", "parts"), "fit": ("circuit", "parts"), "check_opamps": ("circuit", "parts"),
     "design_circuit": ("circuit",), "analyze_session": ("session",), "open_session": ("path",),
     "save_session": ("session", "path"), "parse_value": ("text",), "format_value": ("x", "unit"),
+    "burst": ("circuit", "parts"), "burst_cascade": ("report",),
 }
 
 # A parameter's name ends in its unit; its description must name the unit (SI symbols, BIPM SI
