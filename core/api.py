@@ -200,7 +200,7 @@ def tolerances_of(tol_f0: Value | None, tol_q: Value | None, tol_gain_db: Value 
     )
 
 
-def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=None, tol_q=None, tol_gain_db=None, rsource_ohm=None) -> "Conditions":
+def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=None, tol_q=None, tol_gain_db=None, rsource_ohm=None, cload_f=None) -> "Conditions":
     """The op-amp and drive options (as :func:`design_circuit` takes them) read into ``Conditions``."""
     from bandsmith.design.candidate import Conditions
 
@@ -211,6 +211,7 @@ def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=
         rload_ohm=_optional_positive(rload_ohm, "rload"),
         tolerances=tolerances_of(tol_f0, tol_q, tol_gain_db),
         rsource_ohm=_optional_positive(rsource_ohm, "rsource"),
+        cload_f=_optional_positive(cload_f, "cload"),
     )
 
 
@@ -372,6 +373,7 @@ def design_circuit(
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
     rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
 ) -> DesignReport:
     """Part values of one circuit for a target centre frequency, Q (or bandwidth) and gain.
 
@@ -406,6 +408,9 @@ def design_circuit(
         Allowed centre-gain change (dB; default 0.5) for the required GBW.
     rsource_ohm : float or str, optional
         Source resistance in series with the input (ohm), an element of the netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
 
     Returns
     -------
@@ -416,7 +421,7 @@ def design_circuit(
 
     spec = _spec(f0_hz, q, bw_hz, gain)
     series = _series(series)
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
     topo = _topology(circuit)
     fixed = _assignments(fix)
     result = _design(topo.id, spec, series=series, fixed=fixed, conditions=conditions)
@@ -485,6 +490,7 @@ def compare(
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
     rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
     limits: "VerdictLimits | None" = None,
 ) -> ComparisonReport:
     """Design every circuit for one target, judge each and rank them.
@@ -515,6 +521,9 @@ def compare(
         Allowed centre-gain change (dB) for the required GBW.
     rsource_ohm : float or str, optional
         Source resistance in series with the input (ohm), an element of the netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
     limits : VerdictLimits, optional
         The limits the verdicts judge against (:class:`bandsmith.verdict.VerdictLimits`);
         None takes its defaults.
@@ -528,7 +537,7 @@ def compare(
 
     spec = _spec(f0_hz, q, bw_hz, gain)
     series = _series(series)
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
     comparison = compare_verdicts(spec, series=series, conditions=conditions, limits=limits or VerdictLimits())
     return ComparisonReport(comparison, series, conditions)
 
@@ -581,6 +590,7 @@ def analyze(
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
     rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
 ) -> AnalysisReport:
     """Analyse one candidate: figures, amplifier needs and sensitivities.
 
@@ -605,13 +615,16 @@ def analyze(
         Allowed centre-gain change (dB) for the required GBW.
     rsource_ohm : float or str, optional
         Source resistance in series with the input (ohm), an element of the netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
 
     Returns
     -------
     AnalysisReport
         ``to_json()`` is the ``analyze --json`` object.
     """
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
     cand = candidate_of(circuit, parts)
     return AnalysisReport(cand, cand.analyze(conditions))
 
@@ -647,6 +660,7 @@ def analyze_session(
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
     rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
 ) -> SessionAnalysisReport:
     """Analyse every candidate of a session under its own op-amp and drive, or the ones given.
 
@@ -669,6 +683,9 @@ def analyze_session(
         Allowed centre-gain change (dB) for the required GBW.
     rsource_ohm : float or str, optional
         Source resistance in series with the input (ohm), an element of the netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
 
     Returns
     -------
@@ -678,9 +695,10 @@ def analyze_session(
     if not hasattr(session, "candidates"):
         session = open_session(session)
     given = conditions_of(gbw_hz, a0 if a0 is not None else DEFAULT_A0, vin_v if vin_v is not None else 1.0,
-                        rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
+                        rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
     changes: dict[str, Any] = {}
-    for name, option in (("gbw_hz", gbw_hz), ("a0", a0), ("vin_v", vin_v), ("rload_ohm", rload_ohm), ("rsource_ohm", rsource_ohm)):
+    for name, option in (("gbw_hz", gbw_hz), ("a0", a0), ("vin_v", vin_v), ("rload_ohm", rload_ohm), ("rsource_ohm", rsource_ohm),
+                         ("cload_f", cload_f)):
         if option is not None:
             changes[name] = getattr(given, name)
     if any(t is not None for t in (tol_f0, tol_q, tol_gain_db)):
@@ -1062,6 +1080,7 @@ def cascade(
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
     rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
     reject: "Sequence[str] | None" = None,
     pass_loss_db: Value | None = None,
     joint: bool = True,
@@ -1101,6 +1120,9 @@ def cascade(
         Allowed centre-gain change (dB) for each stage's required GBW.
     rsource_ohm : float or str, optional
         Source resistance in series with the chain's input (ohm), an element of the first stage's netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground on the last stage (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
     reject : sequence of str, optional
         Rejection points ``"F=DB"``: at least DB dB below the centre gain at frequency F (Hz, any
         value notation). With ``order="auto"`` the least order meeting them is chosen.
@@ -1137,7 +1159,7 @@ def cascade(
         circuit=circuit,
         series=series,
     )
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
     if auto or reject:
         from bandsmith.chain.mask_design import design_to_mask
 
@@ -1350,8 +1372,6 @@ def check_opamps(
         Allowed f0 and Q change (fractions) for the required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for the required GBW.
-    rsource_ohm : float or str, optional
-        Source resistance in series with the input (ohm), an element of the netlist.
 
     Returns
     -------
