@@ -67,3 +67,11 @@ def test_mask_weighs_the_search():
     out = api.cascade(response="butterworth", order="auto", f_low_hz=950, f_high_hz=1050, reject=["1k2=30", "800=30"]).to_json()
     assert out["joint"] is not None
     assert all(p["margin_db"] >= 0 for p in out["mask"])
+
+
+def test_joint_with_a_source_resistance_sees_it():
+    # the first stage's options are analysed driven through the source, like its chosen parts
+    for rs in (None, 2e3):
+        j = api.cascade(response="butterworth", order=4, f0_hz=1e3, bw_hz=200, rsource_ohm=rs).to_json()["joint"]
+        assert j["passband_dev_joint_db"] <= j["passband_dev_alone_db"] + 1e-9
+        assert j["passband_dev_joint_db"] <= j["objective_alone_db"] + 0.05

@@ -97,7 +97,9 @@ def stage_options(stage, f_hz: np.ndarray, keep: int = KEEP) -> tuple[list[dict]
         options.append(search_options(np.array([exact[r]]), ps, 1)[0][0])
     index = _combination_index(tuple(o.size for o in options))[:, :-1]
     over = {r: o[k] for r, o, k in zip(free, options, index)}
-    netlist = topo.build(exact)
+    from bandsmith.design.source import with_source
+
+    netlist = with_source(topo.build(exact), res.conditions.rsource_ohm)  # the first stage sees the source
     with np.errstate(all="ignore"):
         h = _combinations(netlist, over, res.spec.w0)
         fig = measure(h)
