@@ -34,7 +34,7 @@ from bandsmith.chain.cascade import Cascade, chain_cascade
 from bandsmith.common.eseries import search_options
 from bandsmith.design.candidate import Conditions
 
-__all__ = ["KEEP", "MAX_SWEEPS", "JointChoice", "stage_options", "choose_jointly", "joint_json", "design_jointly"]
+__all__ = ["KEEP", "MAX_SWEEPS", "JointChoice", "stage_options", "choose_jointly", "joint_json", "design_jointly", "best_single_trim"]
 
 KEEP = 64
 MAX_SWEEPS = 8
@@ -209,3 +209,51 @@ def design_jointly(settings, *, conditions: Conditions = Conditions(), mask=None
     alone = design_cascade(settings, conditions=conditions)
     joint, info = choose_jointly(alone, mask=mask, conditions=conditions)
     return joint, joint_json(alone, joint, info)
+
+
+def best_single_trim(result: Cascade, mask=None) -> dict | None:
+    """The one part whose trimming (set to its stage's exact value) helps the chain most.
+
+    Every part of every stage is tried at its exact design value, the rest kept, all of a stage's
+    parts in one batch; the objective is the joint search's (module notes). Returns ``{stage,
+    part, from, to, objective_db, objective_now_db}`` (values in SI units, dB), or None when
+    nothing can be trimmed.
+    """
+    from bandsmith.design.source import with_source
+    from bandsmith.design.standard import _combinations
+
+    if not result.feasible or result.settings.series == "exact":
+        return None
+    s = result.settings
+    band_f = np.geomspace(s.f_low_hz, s.f_high_hz, GRID_POINTS)
+    pts = () if mask is None else mask.points
+    f = np.concatenate([band_f, [s.band.f0_hz], [p.f_hz for p in pts]])
+    band, centre = slice(0, GRID_POINTS), GRID_POINTS
+    rej = np.arange(GRID_POINTS + 1, f.size)
+    need = np.array([p.required_db for p in pts])
+    ref_db = 20.0 * np.log10(np.abs(result.reference_response(f)))
+    rows = [20.0 * np.log10(np.abs(st.h_ideal.at_f(f)[0])) for st in result.stages]
+    total = np.sum(rows, axis=0)
+    now = float(_objective(total, ref_db, band, centre, rej, need))
+    best = None
+    for k, st in enumerate(result.stages):
+        res = st.result
+        if res.exact is None:
+            continue
+        exact = res.topology.values_from(dict(res.exact))
+        chosen = dict(res.chosen)
+        parts = [r for r in chosen if r in exact and chosen[r] > 0 and exact[r] > 0 and chosen[r] != exact[r]]
+        if not parts:
+            continue
+        over = {r: np.where(np.arange(len(parts)) == i, exact[r], chosen[r]) for i, r in enumerate(parts)}
+        net = with_source(res.topology.build(chosen), res.conditions.rsource_ohm)
+        with np.errstate(all="ignore"):
+            h = _combinations(net, over, res.spec.w0)
+            mag = 20.0 * np.log10(np.abs(h.at_f(f)))
+        obj = _objective(total - rows[k] + mag, ref_db, band, centre, rej, need)
+        obj = np.where(np.isfinite(obj), obj, np.inf)
+        i = int(np.argmin(obj))
+        if best is None or obj[i] < best["objective_db"]:
+            best = {"stage": st.index, "part": parts[i], "from": float(chosen[parts[i]]), "to": float(exact[parts[i]]),
+                    "objective_db": float(obj[i]), "objective_now_db": now}
+    return best

@@ -14,7 +14,7 @@ import numpy as np
 
 from bandsmith.chain.cascade import Cascade, design_cascade
 from bandsmith.chain.chain_settings import HALF_POWER_DB, ChainSettings
-from bandsmith.chain.mask import MET_SLACK_DB, Mask, check_mask, least_order, mask_of, orders_by_family, settings_for_order
+from bandsmith.chain.mask import MET_SLACK_DB, PASS_EDGE_SLACK_DB, Mask, check_mask, least_order, mask_of, orders_by_family, settings_for_order
 from bandsmith.chain.prototypes import MAX_ORDER
 from bandsmith.common.errors import InputError
 from bandsmith.design.candidate import Conditions
@@ -101,13 +101,15 @@ def design_to_mask(
     else:
         check = ideal
     out = check.to_json()
+    if not result.feasible:  # nothing built meets anything: the margins shown are the ideal response's
+        out["mask_met"] = False
     out["order_auto"] = bool(auto)
     out["orders_by_family"] = fams
     out["mask_ideal"] = ideal.to_json()["mask"]
     out["mask_pass_band_hz"] = [settings.f_low_hz, settings.f_high_hz]
     notes = []
-    if not check.met:
-        bad = [p for p in check.points if p["margin_db"] < -MET_SLACK_DB] + [e for e in check.pass_band if e["margin_db"] < -1e-3]
+    if not out["mask_met"]:
+        bad = [p for p in check.points if p["margin_db"] < -MET_SLACK_DB] + [e for e in check.pass_band if e["margin_db"] < -PASS_EDGE_SLACK_DB]
         if not result.feasible:
             notes.append("the chain cannot be built, so the mask is shown on the ideal response")
         elif ideal.met:
@@ -123,7 +125,16 @@ def design_to_mask(
         if finer:
             notes.append(f"the {finer} series meets the mask with the same order")
         else:
-            notes.append("no finer series up to E192 meets it either: trim the sharpest stage or take one order more")
+            notes.append("no finer series up to E192 meets it either: trim a part or take one order more")
+        from bandsmith.chain.joint import best_single_trim
+
+        trim = best_single_trim(result, mask)
+        out["mask_trim"] = trim
+        if trim is not None and trim["objective_db"] < trim["objective_now_db"]:
+            notes.append(
+                f"trimming stage {trim['stage']}'s {trim['part']} from {trim['from']:.5g} to {trim['to']:.5g} brings the chain "
+                f"within {trim['objective_db']:.3g} dB of its ideal response (now {trim['objective_now_db']:.3g} dB)"
+            )
     out["mask_notes"] = notes
     out.update(joint_key)
     return result, out
