@@ -23,10 +23,8 @@ Method (common practice, no source: coordinate descent on a separable sum)
 
 from __future__ import annotations
 
-import math
 import time
 from dataclasses import dataclass
-from typing import Sequence
 
 import numpy as np
 
