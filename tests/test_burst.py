@@ -112,3 +112,17 @@ def test_cli_keys():
         assert key in out
     assert len(out["waveform"]["t_s"]) == len(out["waveform"]["y"]) == len(out["waveform"]["envelope"]) <= 4000
     assert out["within"] == pytest.approx(0.02)
+
+
+def test_cli_chain_burst_from_a_session(tmp_path):
+    rep = api.cascade(response="butterworth", order=3, f0_hz=1e3, bw_hz=200, series="exact")
+    path = tmp_path / "c.bandsmith.json"
+    api.save_session(rep.to_session(), path)
+    p = subprocess.run([sys.executable, "-m", "bandsmith.app.cli", "burst", "--session", str(path), "--chain", "chain-1",
+                        "--freq", "1k", "--cycles", "40", "--json"], capture_output=True, text=True)
+    assert p.returncode == 0, p.stderr
+    out = json.loads(p.stdout)
+    want = api.burst_cascade(rep, freq_hz=1e3, cycles=40).to_json()
+    assert out["topology"] == "chain"
+    assert out["envelope_tau_s"] == pytest.approx(want["envelope_tau_s"], rel=1e-9)
+    assert out["ringdown_time_s"] == pytest.approx(want["ringdown_time_s"], rel=1e-9)

@@ -10,7 +10,7 @@ from bandsmith.app.cli.common import Command, add_source_option, print_json
 
 
 def configure(p):
-    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
+    p.add_argument("topology", nargs="?", help="circuit id (see `bandsmith topologies`); leave out with --session/--chain")
     p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
     p.add_argument("--freq", metavar="F", help="the tone (Hz)")
     g = p.add_mutually_exclusive_group()
@@ -20,6 +20,8 @@ def configure(p):
     p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); without it the op-amp is ideal")
     p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
     add_source_option(p)
+    p.add_argument("--session", metavar="FILE", help="with --chain: the burst through a chain the session keeps (its parts, the session's op-amp or --gbw)")
+    p.add_argument("--chain", metavar="ID", help="the chain's id (e.g. chain-1)")
     p.add_argument("--json", action="store_true", help="print one JSON object (with the waveform)")
 
 
@@ -42,7 +44,41 @@ def print_readable(r: dict) -> None:
         print(f"  {a.ljust(width)}  {b}")
 
 
+def _chain_report(args):
+    """A session's chain, measured with its own parts under the session's op-amp and drive."""
+    from bandsmith.chain.cascade import chain_cascade, chains_in
+
+    if args.topology or args.parts:
+        raise InputError("session", "give either a circuit with its parts or a session with --chain, not both")
+    if not args.chain:
+        raise InputError("chain", "missing; give the id of a chain the session keeps (e.g. chain-1)")
+    session = api.open_session(args.session)
+    chains = {c.id: c for c in chains_in(session)}
+    if args.chain not in chains:
+        known = ", ".join(chains) or "none"
+        raise InputError("chain", f"no chain {args.chain!r} in this session; its chains are {known}")
+    from dataclasses import replace
+
+    from bandsmith.design.candidate import Conditions
+
+    conditions = Conditions(gbw_hz=session.opamp.gbw_hz, a0=session.opamp.a0, vin_v=session.target.vin_v,
+                            rload_ohm=session.rload_ohm, tolerances=session.tolerances)
+    if args.gbw is not None:
+        conditions = replace(conditions, gbw_hz=api.parse_value(args.gbw, field="gbw"))
+    return api.CascadeReport(chain_cascade(chains[args.chain], conditions=conditions))
+
+
 def run(args) -> int:
+    if args.session or args.chain:
+        if args.freq is None:
+            raise InputError("freq", "missing; give the tone's frequency, e.g. --freq 1k")
+        if not args.session:
+            raise InputError("session", "--chain needs --session FILE")
+        report = api.burst_cascade(_chain_report(args), freq_hz=args.freq, cycles=args.cycles, duration_s=args.duration,
+                                   within=args.within, with_opamp=True)  # the session's op-amp (or --gbw), if any
+        out = report.to_json()
+        print_json(out) if args.json else print_readable(out)
+        return 0
     if not args.topology:
         raise InputError("topology", "missing; give a circuit id (see `bandsmith topologies`)")
     if args.freq is None:
