@@ -72,6 +72,9 @@ __all__ = [
     "BankReport",
     "bias",
     "trim",
+    "burst",
+    "burst_cascade",
+    "BurstReport",
 ]
 
 DEFAULT_A0 = 1e5
@@ -205,7 +208,7 @@ def tolerances_of(tol_f0: Value | None, tol_q: Value | None, tol_gain_db: Value 
     )
 
 
-def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=None, tol_q=None, tol_gain_db=None) -> "Conditions":
+def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=None, tol_q=None, tol_gain_db=None, rsource_ohm=None, cload_f=None) -> "Conditions":
     """The op-amp and drive options (as :func:`design_circuit` takes them) read into ``Conditions``."""
     from bandsmith.design.candidate import Conditions
 
@@ -215,7 +218,20 @@ def conditions_of(gbw_hz=None, a0=DEFAULT_A0, vin_v=1.0, rload_ohm=None, tol_f0=
         vin_v=_positive(vin_v, "vin"),
         rload_ohm=_optional_positive(rload_ohm, "rload"),
         tolerances=tolerances_of(tol_f0, tol_q, tol_gain_db),
+        rsource_ohm=_optional_positive(rsource_ohm, "rsource"),
+        cload_f=_optional_positive(cload_f, "cload"),
     )
+
+
+def _with_source(netlist: "Netlist", rsource_ohm: Value | None) -> "Netlist":
+    """The netlist driven through a series source resistance ``rsource_ohm`` (ohm), if given."""
+    from bandsmith.design.source import with_source
+    from bandsmith.common.limits import check_part_value
+
+    rs = _optional_positive(rsource_ohm, "rsource")
+    if rs is not None:
+        check_part_value("rsource", "R", rs)
+    return with_source(netlist, rs)
 
 
 def _opamp(gbw_hz: Value | None, a0: Value) -> "OpAmpModel":
@@ -364,6 +380,8 @@ def design_circuit(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
 ) -> DesignReport:
     """Part values of one circuit for a target centre frequency, Q (or bandwidth) and gain.
 
@@ -396,6 +414,11 @@ def design_circuit(
         1 % and 5 %), for the required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB; default 0.5) for the required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
 
     Returns
     -------
@@ -406,7 +429,7 @@ def design_circuit(
 
     spec = _spec(f0_hz, q, bw_hz, gain)
     series = _series(series)
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
     topo = _topology(circuit)
     fixed = _assignments(fix)
     result = _design(topo.id, spec, series=series, fixed=fixed, conditions=conditions)
@@ -474,6 +497,8 @@ def compare(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
     limits: "VerdictLimits | None" = None,
 ) -> ComparisonReport:
     """Design every circuit for one target, judge each and rank them.
@@ -502,6 +527,11 @@ def compare(
         Allowed f0 and Q change with the finite op-amp (fractions) for the required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for the required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
     limits : VerdictLimits, optional
         The limits the verdicts judge against (:class:`bandsmith.verdict.VerdictLimits`);
         None takes its defaults.
@@ -515,7 +545,7 @@ def compare(
 
     spec = _spec(f0_hz, q, bw_hz, gain)
     series = _series(series)
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
     comparison = compare_verdicts(spec, series=series, conditions=conditions, limits=limits or VerdictLimits())
     return ComparisonReport(comparison, series, conditions)
 
@@ -567,6 +597,8 @@ def analyze(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
 ) -> AnalysisReport:
     """Analyse one candidate: figures, amplifier needs and sensitivities.
 
@@ -589,13 +621,18 @@ def analyze(
         Allowed f0 and Q change with the finite op-amp (fractions) for the required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for the required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
 
     Returns
     -------
     AnalysisReport
         ``to_json()`` is the ``analyze --json`` object.
     """
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
     cand = candidate_of(circuit, parts)
     return AnalysisReport(cand, cand.analyze(conditions))
 
@@ -630,6 +667,8 @@ def analyze_session(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
 ) -> SessionAnalysisReport:
     """Analyse every candidate of a session under its own op-amp and drive, or the ones given.
 
@@ -650,6 +689,11 @@ def analyze_session(
         tolerances replaces the session's (the others take their defaults).
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for the required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
 
     Returns
     -------
@@ -659,9 +703,10 @@ def analyze_session(
     if not hasattr(session, "candidates"):
         session = open_session(session)
     given = conditions_of(gbw_hz, a0 if a0 is not None else DEFAULT_A0, vin_v if vin_v is not None else 1.0,
-                        rload_ohm, tol_f0, tol_q, tol_gain_db)
+                        rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
     changes: dict[str, Any] = {}
-    for name, option in (("gbw_hz", gbw_hz), ("a0", a0), ("vin_v", vin_v), ("rload_ohm", rload_ohm)):
+    for name, option in (("gbw_hz", gbw_hz), ("a0", a0), ("vin_v", vin_v), ("rload_ohm", rload_ohm), ("rsource_ohm", rsource_ohm),
+                         ("cload_f", cload_f)):
         if option is not None:
             changes[name] = getattr(given, name)
     if any(t is not None for t in (tol_f0, tol_q, tol_gain_db)):
@@ -849,6 +894,7 @@ def tolerance(
     window_f0: Value | None = None,
     window_q: Value | None = None,
     window_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
 ) -> ToleranceReport:
     """Monte Carlo tolerance spread, yield and worst case of one candidate.
 
@@ -877,6 +923,8 @@ def tolerance(
         Yield window around nominal f0 and Q (fractions; defaults ±5 % and ±10 %).
     window_gain_db : float or str, optional
         Yield window for the centre gain (dB; default ±1).
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist (spread with the resistors' tolerance).
 
     Returns
     -------
@@ -890,7 +938,8 @@ def tolerance(
     if settings.gbw_tol > 0 and opamp.ideal:
         raise InputError("gbw-tol", "needs --gbw: an ideal op-amp has no GBW to spread")
     cand = candidate_of(circuit, parts)
-    return ToleranceReport(cand, run_spread(cand.netlist, settings, opamp=opamp))
+    net = _with_source(cand.netlist, rsource_ohm)
+    return ToleranceReport(cand, run_spread(net, settings, opamp=opamp))
 
 
 @dataclass(frozen=True)
@@ -924,6 +973,7 @@ def noise(
     gbw_hz: Value | None = None,
     a0: Value = DEFAULT_A0,
     vin_v: Value = 1.0,
+    rsource_ohm: Value | None = None,
 ) -> NoiseReport:
     """Output noise per source, integrated over a band, and the signal-to-noise ratio.
 
@@ -947,6 +997,8 @@ def noise(
         Op-amp open-loop DC gain (V/V).
     vin_v : float or str
         Input sine peak (V) for the SNR.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist (its own thermal noise counted).
 
     Returns
     -------
@@ -969,7 +1021,8 @@ def noise(
     opamp = _opamp(gbw_hz, a0)
     vin = _positive(vin_v, "vin")
     cand = candidate_of(circuit, parts)
-    return NoiseReport(cand, output_noise(cand.netlist, settings, opamp=opamp, vin_v=vin))
+    net = _with_source(cand.netlist, rsource_ohm)
+    return NoiseReport(cand, output_noise(net, settings, opamp=opamp, vin_v=vin))
 
 
 # --------------------------------------------------------------------------------------------
@@ -985,9 +1038,14 @@ class CascadeReport:
     result : Cascade
         The stages (circuit, f0 in Hz, Q, gain, parts), the whole chain's band edges (Hz) and
         gains (dB), and the GBW (Hz) the most demanding stage needs.
+    mask : dict or None
+        Extra JSON keys: with rejection points the mask checked on the built chain (``mask``:
+        ``{f_hz, required_db, achieved_db, margin_db}`` per point, dB), and ``joint`` (the
+        in-band deviation in dB with parts chosen per stage and for the whole chain).
     """
 
     result: "Cascade"
+    mask: "Mapping[str, Any] | None" = None
 
     @property
     def feasible(self) -> bool:
@@ -1004,7 +1062,10 @@ class CascadeReport:
         """The ``bandsmith cascade --json`` object."""
         from bandsmith.chain.cascade import cascade_json
 
-        return cascade_json(self.result)
+        out = cascade_json(self.result)
+        if self.mask is not None:
+            out.update(self.mask)
+        return out
 
 
 def cascade(
@@ -1026,6 +1087,11 @@ def cascade(
     tol_f0: Value | None = None,
     tol_q: Value | None = None,
     tol_gain_db: Value | None = None,
+    rsource_ohm: Value | None = None,
+    cload_f: Value | None = None,
+    reject: "Sequence[str] | None" = None,
+    pass_loss_db: Value | None = None,
+    joint: bool = True,
 ) -> CascadeReport:
     """Design a higher-order band-pass as a chain of second-order stages.
 
@@ -1033,8 +1099,9 @@ def cascade(
     ----------
     response : str
         Prototype family, e.g. ``"butterworth"`` or ``"chebyshev"``.
-    order : int
-        Prototype order, 1 to 8 (the band-pass has that many stages).
+    order : int or str
+        Prototype order, 1 to 8 (the band-pass has that many stages), or ``"auto"``: the least
+        order meeting the ``reject`` points.
     f0_hz, bw_hz : float or str, optional
         Geometric centre (Hz) and bandwidth f_high − f_low (Hz); or give the edges.
     f_low_hz, f_high_hz : float or str, optional
@@ -1059,6 +1126,19 @@ def cascade(
         Allowed f0 and Q change (fractions) for each stage's required GBW.
     tol_gain_db : float or str, optional
         Allowed centre-gain change (dB) for each stage's required GBW.
+    rsource_ohm : float or str, optional
+        Source resistance in series with the chain's input (ohm), an element of the first stage's netlist.
+    cload_f : float or str, optional
+        Load capacitance from the output to ground on the last stage (F), beside ``rload_ohm`` (a converter's input):
+        counted in the output current at f0.
+    reject : sequence of str, optional
+        Rejection points ``"F=DB"``: at least DB dB below the centre gain at frequency F (Hz, any
+        value notation). With ``order="auto"`` the least order meeting them is chosen.
+    pass_loss_db : float or str, optional
+        Loss allowed at the pass-band edges with a mask (dB; Butterworth below 3.01, Chebyshev its ripple).
+    joint : bool
+        Choose the standard values of all stages together for the least in-band deviation of the
+        whole chain (True, the default) or each stage's alone; JSON ``joint`` gives the improvement (dB).
 
     Returns
     -------
@@ -1071,12 +1151,13 @@ def cascade(
     if response is None:
         raise InputError("response", f"missing; choose one of {', '.join(RESPONSES)}")
     if order is None:
-        raise InputError("order", "missing; give an integer from 1 to 8")
+        raise InputError("order", "missing; give an integer from 1 to 8, or auto with --reject points")
     if circuit not in circuit_choices():
         raise InputError("circuit", f"{circuit!r} is not a circuit; choose one of {', '.join(circuit_choices())}")
+    auto = isinstance(order, str) and order.strip().lower() == "auto"
     settings = ChainSettings.from_request(
         response,
-        order,
+        1 if auto else order,
         f0_hz=_optional_positive(f0_hz, "f0"),
         bw_hz=_optional_positive(bw_hz, "bw"),
         f_low_hz=_optional_positive(f_low_hz, "f-low"),
@@ -1086,8 +1167,17 @@ def cascade(
         circuit=circuit,
         series=series,
     )
-    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db)
-    return CascadeReport(design_cascade(settings, conditions=conditions))
+    conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
+    if auto or reject:
+        from bandsmith.chain.mask_design import design_to_mask
+
+        result, mask_json = design_to_mask(settings, reject, pass_loss_db, conditions=conditions, auto=auto, joint=bool(joint))
+        return CascadeReport(result, mask_json)
+    if joint:
+        from bandsmith.chain.joint import design_jointly
+
+        return CascadeReport(*design_jointly(settings, conditions=conditions))
+    return CascadeReport(design_cascade(settings, conditions=conditions), {"joint": None})
 
 
 # --------------------------------------------------------------------------------------------
@@ -1696,3 +1786,149 @@ def _number_of(v: Value, field: str) -> float:
     from bandsmith.common.values import parse_value
 
     return parse_value(v, field=field)
+
+
+# --------------------------------------------------------------------------------------------
+# Tone bursts
+
+
+@dataclass(frozen=True)
+class BurstReport:
+    """The response to a tone burst (``bandsmith burst``).
+
+    Attributes
+    ----------
+    source : str
+        A circuit id, or ``"chain"`` for a whole chain.
+    components : dict or None
+        The circuit's part values (ohm, farad, henry); None for a chain.
+    result : BurstResult
+        Times (s), output and envelope (V per volt of input peak), ``envelope_tau_s``,
+        ``settle_time_s`` and ``ringdown_time_s`` (s).
+    with_opamp : bool
+        Whether the finite op-amp was in the response.
+    """
+
+    source: str
+    components: "Mapping[str, float] | None"
+    result: "BurstResult"
+    with_opamp: bool = False
+
+    def to_json(self) -> dict:
+        """The ``bandsmith burst --json`` object."""
+        return {"topology": self.source, "components": None if self.components is None else dict(self.components),
+                "with_opamp": self.with_opamp, **self.result.to_json()}
+
+
+def _burst_duration(freq_hz: float, cycles: Value | None, duration_s: Value | None) -> float:
+    if (cycles is None) == (duration_s is None):
+        raise InputError("cycles", "give either the number of cycles or the duration of the burst")
+    if cycles is not None:
+        return _positive(cycles, "cycles") / freq_hz
+    return _positive(duration_s, "duration")
+
+
+def _within(within: Value | None) -> float:
+    if within is None:
+        return 0.01
+    w = _positive_fraction(within, "within")
+    if w >= 1:
+        raise InputError("within", f"must be below 100 %, got {within!r}")
+    return w
+
+
+def burst(
+    circuit: str,
+    parts: "Mapping[str, Value] | Sequence[str]",
+    *,
+    freq_hz: Value,
+    cycles: Value | None = None,
+    duration_s: Value | None = None,
+    within: Value | None = None,
+    gbw_hz: Value | None = None,
+    a0: Value = DEFAULT_A0,
+    rsource_ohm: Value | None = None,
+) -> BurstReport:
+    """The response of one candidate to a tone burst: envelope, settling and ring-down.
+
+    Parameters
+    ----------
+    circuit : str
+        Circuit id.
+    parts : mapping or sequence of str
+        Part values by reference (ohm, farad, henry).
+    freq_hz : float or str
+        The tone (Hz).
+    cycles : float or str, optional
+        How many cycles the tone is on (give this or ``duration_s``).
+    duration_s : float or str, optional
+        How long the tone is on (s).
+    within : float or str, optional
+        Settling band around the steady amplitude (fraction or percent; default 1 %).
+    gbw_hz : float or str, optional
+        Op-amp gain-bandwidth (Hz); None is an ideal op-amp.
+    a0 : float or str
+        Op-amp open-loop DC gain (V/V).
+    rsource_ohm : float or str, optional
+        Source resistance in series with the input (ohm), an element of the netlist.
+
+    Returns
+    -------
+    BurstReport
+        ``to_json()`` is the ``burst --json`` object (``envelope_tau_s``, ``settle_time_s``,
+        ``ringdown_time_s`` in s, and the waveform).
+    """
+    from bandsmith.analysis.analyzer import transfer_function
+    from bandsmith.analysis.burst import burst_response, zpk_of
+
+    f = _positive(freq_hz, "freq")
+    duration = _burst_duration(f, cycles, duration_s)
+    w = _within(within)
+    conditions = conditions_of(gbw_hz, a0, rsource_ohm=rsource_ohm)
+    cand = candidate_of(circuit, parts)
+    net = cand.driven_netlist(conditions)
+    h = transfer_function(net, conditions.opamp) if conditions.opamp is not None else transfer_function(net)
+    return BurstReport(cand.topology_id, _values_json(cand), burst_response(zpk_of(h), f, duration, within=w), conditions.opamp is not None)
+
+
+def burst_cascade(
+    report: CascadeReport,
+    *,
+    freq_hz: Value,
+    cycles: Value | None = None,
+    duration_s: Value | None = None,
+    within: Value | None = None,
+    with_opamp: bool = False,
+) -> BurstReport:
+    """The response of a whole chain (from :func:`cascade`) to a tone burst.
+
+    Parameters
+    ----------
+    report : CascadeReport
+        A built chain.
+    freq_hz : float or str
+        The tone (Hz).
+    cycles : float or str, optional
+        How many cycles the tone is on (give this or ``duration_s``).
+    duration_s : float or str, optional
+        How long the tone is on (s).
+    within : float or str, optional
+        Settling band around the steady amplitude (fraction or percent; default 1 %).
+    with_opamp : bool
+        Use the stages' responses with the finite op-amp of the chain's conditions.
+
+    Returns
+    -------
+    BurstReport
+        As :func:`burst`, ``topology`` ``"chain"``.
+    """
+    from bandsmith.analysis.burst import burst_response, chain_zpk
+
+    res = report.result
+    if not res.feasible:
+        raise InputError("chain", f"the chain cannot be built: {res.reason}")
+    f = _positive(freq_hz, "freq")
+    duration = _burst_duration(f, cycles, duration_s)
+    use = with_opamp and res.conditions.opamp is not None
+    hs = [st.h_actual if use and st.h_actual is not None else st.h_ideal for st in res.stages]
+    return BurstReport("chain", None, burst_response(chain_zpk(hs), f, duration, within=_within(within)), use)

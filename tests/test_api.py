@@ -60,6 +60,9 @@ PINNED = [
     "BankReport",
     "bias",
     "trim",
+    "burst",
+    "burst_cascade",
+    "BurstReport",
 ]
 
 FUNCTIONS = [n for n in PINNED if inspect.isfunction(getattr(api, n))]
@@ -72,6 +75,7 @@ POSITIONAL = {
     "bias": ("circuit", "parts"), "trim": ("circuit", "parts"),
     "design_circuit": ("circuit",), "analyze_session": ("session",), "open_session": ("path",),
     "save_session": ("session", "path"), "parse_value": ("text",), "format_value": ("x", "unit"),
+    "burst": ("circuit", "parts"), "burst_cascade": ("report",),
 }
 
 # A parameter's name ends in its unit; its description must name the unit (SI symbols, BIPM SI

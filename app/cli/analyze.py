@@ -49,7 +49,8 @@ def run(args) -> int:
         if args.topology or args.parts:
             raise InputError("session", "give either a session file or a circuit with its parts, not both")
         given = {"gbw_hz": args.gbw, "a0": args.a0, "vin_v": args.vin, "rload_ohm": args.rload,
-                 "tol_f0": args.tol_f0, "tol_q": args.tol_q, "tol_gain_db": args.tol_gain_db}
+                 "tol_f0": args.tol_f0, "tol_q": args.tol_q, "tol_gain_db": args.tol_gain_db,
+                 "rsource_ohm": args.rsource, "cload_f": args.cload}
         out = api.analyze_session(api.open_session(args.session), **given).to_json()
         if args.json:
             print_json(out)

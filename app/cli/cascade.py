@@ -15,7 +15,7 @@ from bandsmith.app.cli.text import table
 
 def configure(p):
     p.add_argument("--response", metavar="NAME", help=f"prototype family: {', '.join(RESPONSES)}")
-    p.add_argument("--order", metavar="N", help="prototype order 1 to 8 (the band-pass has N stages)")
+    p.add_argument("--order", metavar="N", help="prototype order 1 to 8 (the band-pass has N stages), or auto: the least meeting the --reject points")
     p.add_argument("--f0", metavar="F", help="geometric centre of the band (Hz), with --bw")
     p.add_argument("--bw", metavar="B", help="bandwidth f_high − f_low (Hz)")
     p.add_argument("--f-low", metavar="F1", help="lower band edge (Hz): −3 dB, or the ripple-band edge for chebyshev")
@@ -24,6 +24,11 @@ def configure(p):
     p.add_argument("--gain", metavar="G", help="gain magnitude at the geometric centre √(f_low·f_high) (default 1)")
     p.add_argument("--circuit", metavar="ID", default=AUTO, help="auto (per stage: the best verdict, then the nearest fit and the ranking) or a circuit id for every stage")
     p.add_argument("--series", metavar="S", default="E24", help="E6 … E192 or exact (default E24)")
+    p.add_argument("--reject", metavar="F=DB", action="append", default=[],
+                   help="attenuation of at least DB dB below the centre gain at frequency F (repeatable); makes a mask")
+    p.add_argument("--pass-loss-db", metavar="L", help="loss allowed at the pass-band edges with a mask (butterworth, below 3.01 dB; chebyshev: its ripple)")
+    p.add_argument("--parts-alone", action="store_true",
+                   help="choose each stage's standard values alone (default: all stages together, for the least in-band deviation of the whole chain)")
     add_amp_options(p)
     p.add_argument("--save", metavar="FILE", help="write a session file with the chain")
     p.add_argument("--json", action="store_true", help="print one JSON object")
@@ -107,10 +112,29 @@ def print_readable(out: dict) -> None:
     if out["overall_actual"] is not None:
         a = out["overall_actual"]
         rows.append(["with the op-amp", f"edges {_num(a['f_low_hz'], 'Hz')} / {_num(a['f_high_hz'], 'Hz')}, centre gain {_num(a['gain_center_db'], 'dB', 4)}, {_num(out['actual_max_dev_db'], 'dB', 3)} off the reference"])
+    j = out.get("joint")
+    if j is not None and j["passband_dev_alone_db"] is not None:
+        rows.append(["parts chosen together", f"{_num(j['passband_dev_joint_db'], 'dB', 3)} off in the band; each stage alone {_num(j['passband_dev_alone_db'], 'dB', 3)}"])
     print("whole chain")
     width = max(len(r[0]) for r in rows)
     for label, value in rows:
         print(f"  {label.ljust(width)}  {value}")
+    if out.get("mask") is not None:
+        print_mask(out)
+
+
+def print_mask(out: dict) -> None:
+    """The mask's margins, as measured on the built chain."""
+    print()
+    how = "the least order meeting it" if out.get("order_auto") else "the order given"
+    print(f"mask (order {out['order']}, {how}; measured with the {out['mask_on']}): {'met' if out['mask_met'] else 'NOT met'}")
+    rows = [[_num(p["f_hz"], "Hz"), f"≥ {p['required_db']:.4g} dB down", f"{p['achieved_db']:.4g} dB down", f"{p['margin_db']:+.3f} dB"] for p in out["mask"]]
+    rows += [[_num(p["f_hz"], "Hz"), f"≤ {p['allowed_db']:.4g} dB loss", f"{p['loss_db']:.4g} dB loss", f"{p['margin_db']:+.3f} dB"] for p in out["pass_band"]]
+    print(table(rows, header=["at", "required", "achieved", "margin"]))
+    fams = ", ".join(f"{k} {v if v is not None else '> 8'}" for k, v in out["orders_by_family"].items())
+    print(f"least order per family: {fams}")
+    for n in out.get("mask_notes", []):
+        print(f"note: {n}")
 
 
 def run(args) -> int:
@@ -126,6 +150,9 @@ def run(args) -> int:
         circuit=args.circuit,
         series=args.series,
         **amp_options(args),
+        reject=args.reject or None,
+        pass_loss_db=args.pass_loss_db,
+        joint=not args.parts_alone,
     )
     out = report.to_json()
     if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"

@@ -19,6 +19,7 @@ __all__ = [
     "run_guarded",
     "add_amp_options",
     "amp_options",
+    "add_source_option",
     "print_json",
     "EXIT_OK",
     "EXIT_INTERNAL",
@@ -74,10 +75,17 @@ def add_amp_options(p: argparse.ArgumentParser, *, tolerances: bool = True) -> N
     p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
     p.add_argument("--vin", metavar="V", help="input peak amplitude in volts (default 1)")
     p.add_argument("--rload", metavar="R", help="load resistance from the output to ground (ohm)")
-    if tolerances:
+    if tolerances:  # the analysing commands (not sweep) also take a source resistance and a load capacitance
+        add_source_option(p)
+        p.add_argument("--cload", metavar="C", help="load capacitance from the output to ground (F), beside --rload: counted in the output current")
         p.add_argument("--tol-f0", metavar="P", help="f0 tolerance for the required GBW (default 1%%)")
         p.add_argument("--tol-q", metavar="P", help="Q tolerance for the required GBW (default 5%%)")
         p.add_argument("--tol-gain-db", metavar="D", help="centre-gain tolerance in dB (default 0.5)")
+
+
+def add_source_option(p: argparse.ArgumentParser) -> None:
+    """``--rsource R``: a source resistance in series with the input (an element of the netlist)."""
+    p.add_argument("--rsource", metavar="R", help="source resistance in series with the input (ohm), seen by every analysis")
 
 
 def amp_options(args: argparse.Namespace) -> dict:
@@ -90,6 +98,10 @@ def amp_options(args: argparse.Namespace) -> dict:
     }
     for key in ("tol_f0", "tol_q", "tol_gain_db"):
         out[key] = getattr(args, key, None)
+    if hasattr(args, "rsource"):
+        out["rsource_ohm"] = args.rsource
+    if hasattr(args, "cload"):
+        out["cload_f"] = args.cload
     return out
 
 

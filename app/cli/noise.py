@@ -6,7 +6,7 @@ from bandsmith import api
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json
+from bandsmith.app.cli.common import Command, add_source_option, print_json
 from bandsmith.app.cli.text import table
 
 
@@ -20,6 +20,7 @@ def configure(p):
     p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
     p.add_argument("--band", nargs=2, metavar=("F1", "F2"), help="integration band in Hz (default f0/10 to 10·f0)")
     p.add_argument("--vin", metavar="V", help="input sine peak amplitude for the SNR (default 1)")
+    add_source_option(p)
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
 
@@ -56,6 +57,7 @@ def run(args) -> int:
         gbw_hz=args.gbw,
         a0=args.a0 if args.a0 is not None else 1e5,
         vin_v=args.vin if args.vin is not None else 1.0,
+        rsource_ohm=args.rsource,
     )
     result = report.to_json()
     if args.json:

@@ -9,7 +9,7 @@ from bandsmith.common.errors import InputError
 from bandsmith.spread.tolerance import STAT_KEYS
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json
+from bandsmith.app.cli.common import Command, add_source_option, print_json
 from bandsmith.app.cli.text import figures_rows, table
 
 
@@ -32,6 +32,7 @@ def configure(p):
     p.add_argument("--window-f0", metavar="P", help="yield window for f0 around nominal (default ±5%%)")
     p.add_argument("--window-q", metavar="P", help="yield window for Q around nominal (default ±10%%)")
     p.add_argument("--window-gain-db", metavar="D", help="yield window for the centre gain in dB (default ±1)")
+    add_source_option(p)
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
 
@@ -50,6 +51,7 @@ def options_from(args) -> dict:
         "tolerances": tol, "dist": args.dist, "trials": args.trials, "seed": args.seed, "gbw_tol": args.gbw_tol,
         "window_f0": args.window_f0, "window_q": args.window_q, "window_gain_db": args.window_gain_db,
         "gbw_hz": args.gbw, "a0": args.a0 if args.a0 is not None else 1e5,
+        "rsource_ohm": getattr(args, "rsource", None),
     }
 
 

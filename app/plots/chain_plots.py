@@ -116,6 +116,9 @@ class ChainPlots(pg.GraphicsLayoutWidget):
                 self.edge_lines.append(line)
         self.level_line = pg.InfiniteLine(angle=0, pen=self._pen(_EDGE_PEN))
         self.overall.addItem(self.level_line, ignoreBounds=True)
+        # A mask's rejection points: the level each must stay under, met (ink) or missed (red)
+        self.mask_points = pg.ScatterPlotItem(size=11 * self._k, symbol="t", pen=pg.mkPen(INK, width=1.2 * self._k))
+        self.overall.addItem(self.mask_points, ignoreBounds=True)
         self.setMinimumHeight(300)
 
     def _pen(self, pen: QtGui.QPen) -> QtGui.QPen:
@@ -172,6 +175,7 @@ class ChainPlots(pg.GraphicsLayoutWidget):
         self._fit_legend(self.stage_legend)
         for line in self.edge_lines + [self.level_line]:
             line.hide()
+        self.mask_points.setData([])
 
     def show_cascade(self, result: Cascade | None) -> None:
         """Draw a chain (built or not); None empties the plots."""
@@ -238,6 +242,17 @@ class ChainPlots(pg.GraphicsLayoutWidget):
         t = _round_down(0.75 * span)
         ticks = [(-t, f"{-t:g}"), (0.0, "0"), (t, f"+{t:g}")] if built else [(0.0, "0")]
         self.deviation.getAxis("left").setTicks([ticks, []])
+
+    def show_mask(self, points, centre_db: float) -> None:
+        """Draw a mask's rejection points: a triangle at each point's ceiling (``centre_db −
+        required_db``), filled red where the drawn chain misses it. ``points`` are the JSON
+        ``mask`` entries (``f_hz``, ``required_db``, ``margin_db``)."""
+        spots = []
+        for p in points:
+            missed = p.get("margin_db") is not None and p["margin_db"] < 0
+            spots.append({"pos": (math.log10(p["f_hz"]), centre_db - p["required_db"]),
+                          "brush": pg.mkBrush("#c62828" if missed else "#ffffff")})
+        self.mask_points.setData(spots)
 
     @staticmethod
     def _legend_label(legend: pg.LegendItem, curve: pg.PlotDataItem, text: str) -> None:

@@ -369,13 +369,18 @@ def stage_tolerances(tol: Tolerances, q: float) -> Tolerances:
     return Tolerances(f0=min(tol.f0, STAGE_F0_SHARE / q), q=min(tol.q, STAGE_Q_TOL), gain_db=gain_db)
 
 
+def _stage_rsource(conditions: Conditions, index: int) -> float | None:
+    """The source resistance drives the first stage only; later ones are driven by an op-amp output."""
+    return conditions.rsource_ohm if index == 1 else None
+
+
 def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, conditions: Conditions) -> Stage:
     if plan.q > MAX_STAGE_Q:
         return Stage(
             plan, vin_v, None, (), False,
             f"Q {plan.q:.4g} is above {MAX_STAGE_Q:g}, beyond any of our circuits with real parts ({_Q_CAP_WHY})",
         )
-    cond = replace(conditions, vin_v=vin_v, tolerances=stage_tolerances(conditions.tolerances, plan.q))
+    cond = replace(conditions, vin_v=vin_v, tolerances=stage_tolerances(conditions.tolerances, plan.q), rsource_ohm=_stage_rsource(conditions, plan.index))
     if settings.circuit != AUTO:
         res, att = _attempt(settings.circuit, plan, settings.series, cond)
         if not att.feasible:
@@ -484,7 +489,7 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
     built: list[Stage] = []
     for sec, saved in zip(plan.sections, chain.stages):
         vin = _stage_vin(settings, conditions, plan, built, sec)
-        cond = replace(conditions, vin_v=vin, tolerances=stage_tolerances(conditions.tolerances, sec.q))
+        cond = replace(conditions, vin_v=vin, tolerances=stage_tolerances(conditions.tolerances, sec.q), rsource_ohm=_stage_rsource(conditions, sec.index))
         cand = Candidate(saved.topology_id, saved.values)
         an = cand.analyze(cond)
         spec = Spec(sec.f0_hz, sec.q, sec.gain)

@@ -36,6 +36,13 @@ class Conditions:
         Peak input amplitude (V).
     rload_ohm : float, optional
         A load from the output to ground (ohm).
+    rsource_ohm : float, optional
+        A source resistance in series with the input (ohm): the element ``RSOURCE`` of the
+        netlist every analysis sees (:mod:`bandsmith.design.source`).
+    cload_f : float, optional
+        A load capacitance from the output to ground (F), beside ``rload_ohm``: a converter's
+        input. Op-amp outputs drive it, so the response is unchanged; the output current at f0
+        includes it.
     tolerances : Tolerances
         Limits of the required-GBW search.
     """
@@ -45,9 +52,12 @@ class Conditions:
     vin_v: float = 1.0
     rload_ohm: float | None = None
     tolerances: Tolerances = field(default_factory=Tolerances)
+    rsource_ohm: float | None = None
+    cload_f: float | None = None
 
     def __post_init__(self):
-        checks = (("gbw", self.gbw_hz, True), ("a0", self.a0, False), ("vin", self.vin_v, False), ("rload", self.rload_ohm, True))
+        checks = (("gbw", self.gbw_hz, True), ("a0", self.a0, False), ("vin", self.vin_v, False), ("rload", self.rload_ohm, True),
+                  ("rsource", self.rsource_ohm, True), ("cload", self.cload_f, True))
         for name, v, optional in checks:
             if v is None and optional:
                 continue
@@ -56,6 +66,10 @@ class Conditions:
         check_range("vin", float(self.vin_v), *VIN_RANGE_V, "V")
         if self.rload_ohm is not None:
             check_part_value("rload", "R", float(self.rload_ohm))
+        if self.rsource_ohm is not None:
+            check_part_value("rsource", "R", float(self.rsource_ohm))
+        if self.cload_f is not None:
+            check_part_value("cload", "C", float(self.cload_f))
 
     @property
     def opamp(self) -> OpAmpModel | None:
@@ -80,6 +94,12 @@ class Candidate:
     def netlist(self) -> Netlist:
         return self.topology.build(self.values)
 
+    def driven_netlist(self, conditions: Conditions = Conditions()) -> Netlist:
+        """The netlist as driven under ``conditions``: with the source resistance in series, if any."""
+        from bandsmith.design.source import with_source
+
+        return with_source(self.netlist, conditions.rsource_ohm)
+
     def analyze(self, conditions: Conditions = Conditions()) -> Analysis:
         """Analyse under ``conditions``.
 
@@ -90,7 +110,7 @@ class Candidate:
             sensitivities can be measured (a response flat or sharp beyond floating-point reach).
         """
         result = analyze(
-            self.netlist,
+            self.driven_netlist(conditions),
             opamp=conditions.opamp,
             vin_v=conditions.vin_v,
             a0=conditions.a0,
@@ -107,7 +127,31 @@ class Candidate:
                 f"these {self.topology_id} values give no band-pass peak that can be measured "
                 "(the response is far too flat or too sharp); check the values and their units",
             )
+        if conditions.cload_f is not None:
+            result = _with_capacitive_load(result, conditions)
         return result
+
+
+def _with_capacitive_load(result: Analysis, conditions: Conditions) -> Analysis:
+    """The analysis with the output current at f0 into the load R ∥ C as well (R optional)."""
+    from dataclasses import replace
+
+    from bandsmith.solver.mna import solve_at
+    from bandsmith.solver.netlist import Element
+
+    f0 = result.ideal.item().f0_hz
+    if not math.isfinite(f0):
+        return result
+    elements = [Element("CLOAD", "C", ("in", "0"), float(conditions.cload_f))]
+    if conditions.rload_ohm is not None:
+        elements.append(Element("RLOAD", "R", ("in", "0"), float(conditions.rload_ohm)))
+    load = Netlist(tuple(elements), "0", "in", "in")
+    x, layout = solve_at(result.netlist.driving(load, tag="load:"), 2j * math.pi * f0)
+    each = {e.ref: abs(x[layout.opamp_row[e.ref]]) * conditions.vin_v for e in result.netlist.opamps}
+    req = result.requirements
+    rows = tuple(replace(a, iout_peak_a=float(each.get(a.ref, a.iout_peak_a))) for a in req.amplifiers)
+    worst = max(each.values()) if each else req.iout_peak_a
+    return replace(result, requirements=replace(req, iout_peak_a=float(worst), amplifiers=rows))
 
 
 def parse_parts(topology: Topology, assignments: Mapping[str, str | float]) -> dict[str, float]:

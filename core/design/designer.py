@@ -288,6 +288,11 @@ def design(
     reason = _limits(topo, exact)
     if reason:
         return _infeasible(topo, spec, series, reason, pins, conditions, exact, notes)
+    if conditions.rsource_ohm is not None:  # a known source resistance completes the input resistor
+        from bandsmith.design.source import absorb_source
+
+        exact, absorbed = absorb_source(topo.build(exact), exact, conditions.rsource_ohm, tuple(pins))
+        notes = notes + absorbed
 
     choice = None
     if series == "exact":

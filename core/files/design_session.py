@@ -32,6 +32,7 @@ def design_session(spec: Spec, results: Iterable[DesignResult], *, series: str |
         opamp=OpAmpSpec(gbw_hz=conditions.gbw_hz, a0=conditions.a0),
         tolerances=conditions.tolerances,
         rload_ohm=conditions.rload_ohm,
+        rsource_ohm=conditions.rsource_ohm,
     )
     lines = [notes] if notes else []
     for r in results:

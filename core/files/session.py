@@ -95,6 +95,8 @@ def session_to_json(s: Session) -> dict:
             "notes": s.notes,
         }
     )
+    if s.rsource_ohm is not None:  # written only when given: files without a source stay as they were
+        out["rsource_ohm"] = s.rsource_ohm
     return out
 
 

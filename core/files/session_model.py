@@ -28,7 +28,7 @@ VERSION = 1
 SERIES_CHOICES = SERIES_NAMES + ("exact",)
 
 
-KNOWN_KEYS = frozenset({"format", "version", "target", "opamp", "tolerances", "rload_ohm", "candidates", "notes"})
+KNOWN_KEYS = frozenset({"format", "version", "target", "opamp", "tolerances", "rload_ohm", "rsource_ohm", "candidates", "notes"})
 
 
 class SessionError(InputError):
@@ -208,6 +208,7 @@ class Session:
     rload_ohm: float | None = None
     notes: str = ""
     extras: Mapping[str, Any] = field(default_factory=dict)
+    rsource_ohm: float | None = None
 
     def __post_init__(self):
         cands = tuple(self.candidates)
@@ -223,6 +224,10 @@ class Session:
             check_part_value("rload", "R", float(self.rload_ohm))
         if self.rload_ohm is not None:
             object.__setattr__(self, "rload_ohm", float(self.rload_ohm))
+        _finite_positive("rsource", self.rsource_ohm, optional=True)
+        if self.rsource_ohm is not None:
+            check_part_value("rsource", "R", float(self.rsource_ohm))
+            object.__setattr__(self, "rsource_ohm", float(self.rsource_ohm))
         clash = sorted(set(self.extras) & KNOWN_KEYS)
         if clash:
             raise InputError("extras", f"{', '.join(clash)} is a section of the session itself, not an extra")
@@ -238,6 +243,7 @@ class Session:
             vin_v=self.target.vin_v,
             rload_ohm=self.rload_ohm,
             tolerances=self.tolerances,
+            rsource_ohm=self.rsource_ohm,
         )
 
     def candidate(self, id: str) -> CandidateEntry:

@@ -204,6 +204,7 @@ def session_from_json(obj: Any, *, source: str = "the session") -> Session:
     )
     entries = tuple(_read_candidate(r, c, i) for i, c in enumerate(cands))
     rload = r.positive(obj, "rload_ohm", "rload_ohm", default=None, nullable=True)
+    rsource = r.positive(obj, "rsource_ohm", "rsource_ohm", default=None, nullable=True)
     notes = r.text(obj, "notes", "notes", default="")
     extras = {k: v for k, v in obj.items() if k not in KNOWN_KEYS}
     chains = extras.get("chains")
@@ -215,7 +216,7 @@ def session_from_json(obj: Any, *, source: str = "the session") -> Session:
                 except InputError as exc:
                     raise r.impossible(f"chains[{i}].id", exc.reason) from None
     try:
-        return Session(target=target, candidates=entries, opamp=opamp, tolerances=tolerances, rload_ohm=rload, notes=notes, extras=extras)
+        return Session(target=target, candidates=entries, opamp=opamp, tolerances=tolerances, rload_ohm=rload, notes=notes, extras=extras, rsource_ohm=rsource)
     except InputError as exc:
         raise r.impossible("candidates" if exc.field == "id" else exc.field, exc.reason) from None
 

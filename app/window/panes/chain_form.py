@@ -111,6 +111,16 @@ class ChainForm(QtWidgets.QGroupBox):
         self.series_combo.setToolTip("The standard series the parts come from (IEC 60063), or exact values")
         self._form.addRow("Parts from", self.series_combo)
 
+        self.reject_field = QtWidgets.QLineEdit(self)
+        self.reject_field.setObjectName("chainReject")
+        self.reject_field.setPlaceholderText("e.g. 1k2=30, 800=40")
+        self.reject_field.setToolTip("Rejection points F=DB: at least DB dB below the centre gain at frequency F; drawn on the chain's plot")
+        self._form.addRow("Reject", self.reject_field)
+        self.order_auto = QtWidgets.QCheckBox("least order meeting the rejection", self)
+        self.order_auto.setObjectName("chainOrderAuto")
+        self.order_auto.setToolTip("Choose the order: the least one whose ideal response meets every rejection point")
+        self._form.addRow("", self.order_auto)
+
         self.btn_build = QtWidgets.QPushButton("Build chain", self)
         self.btn_build.setObjectName("buildChain")
         self.btn_build.setToolTip("Design every stage and keep the chain in the session (undo takes it away)")
@@ -208,6 +218,19 @@ class ChainForm(QtWidgets.QGroupBox):
         self.edge_note.setText(
             "Edges: where the passband ripple band ends (−ripple dB)." if cheb else "Edges: the −3 dB points."
         )
+
+    def mask_request(self) -> tuple[list[str], bool]:
+        """The rejection points as typed (``"F=DB"`` each, checked) and whether the order is chosen
+        from them; an InputError (field ``reject``) for a bad point or auto without points."""
+        from bandsmith.chain.mask import parse_reject
+
+        points = [t.strip() for t in self.reject_field.text().replace(";", ",").split(",") if t.strip()]
+        for t in points:
+            parse_reject(t)
+        auto = self.order_auto.isChecked()
+        if auto and not points:
+            raise InputError("reject", "the least order needs at least one rejection point F=DB")
+        return points, auto
 
     def request(self) -> ChainSettings:
         """The settings the form asks for (InputError naming the field when something is off)."""

@@ -24,6 +24,7 @@ form (:mod:`~bandsmith.app.window.panes.chain_form`), the jobs, cache and sessio
 
 from __future__ import annotations
 
+import math
 from html import escape
 from typing import Callable
 
@@ -235,12 +236,25 @@ class ChainPane(QtWidgets.QWidget):
         """Design a new chain from the form, off the GUI thread; a buildable one is kept in the session."""
         try:
             settings = self.form.request()
+            reject, auto = self.form.mask_request()
         except InputError as exc:
             self.form_error.setText(str(exc))
             self.form_error.show()
             return
         self.form_error.hide()
         conditions = self.controller.conditions()
+        if reject:
+            from bandsmith.chain.mask_design import design_to_mask
+
+            def work():
+                result, keys = design_to_mask(settings, reject, conditions=conditions, auto=auto)
+                self._mask = (result.settings.f_low_hz, result.settings.f_high_hz, result.settings.order, keys)
+                return result
+
+            title = f"Designing a {response_title(settings)} chain to the mask"
+            self._start(title, work, lambda r: self._on_built(r, conditions))
+            return
+        self._mask = None
         title = f"Designing a {response_title(settings)} chain of {settings.order} stage{'s' if settings.order != 1 else ''}"
         self._start(title, lambda: design_cascade(settings, conditions=conditions), lambda r: self._on_built(r, conditions))
 
@@ -403,6 +417,9 @@ class ChainPane(QtWidgets.QWidget):
     def _display(self, result: Cascade | None, cid: str | None, *, saved: bool) -> None:
         self._shown, self._shown_id, self._shown_saved = result, cid, saved and result is not None
         self.view.show_cascade(result, editable=not self.controller.busy)
+        mask = getattr(self, "_mask", None)
+        if result is not None and mask is not None and mask[:3] == (result.settings.f_low_hz, result.settings.f_high_hz, result.settings.order):
+            self.view.plots.show_mask(mask[3]["mask"], 20.0 * math.log10(result.settings.gain))
         summary, messages = summary_html(result, cid, saved, self._problems)
         self.summary.setText(summary)
         self.messages.setText(messages)

@@ -1,0 +1,105 @@
+"""``bandsmith burst``: the response of one candidate to a tone burst, its envelope, settling and ring-down."""
+
+from __future__ import annotations
+
+from bandsmith import api
+from bandsmith.common.errors import InputError
+from bandsmith.common.values import format_value
+
+from bandsmith.app.cli.common import Command, add_source_option, print_json
+
+
+def configure(p):
+    p.add_argument("topology", nargs="?", help="circuit id (see `bandsmith topologies`); leave out with --session/--chain")
+    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
+    p.add_argument("--freq", metavar="F", help="the tone (Hz)")
+    g = p.add_mutually_exclusive_group()
+    g.add_argument("--cycles", metavar="N", help="how many cycles the tone is on")
+    g.add_argument("--duration", metavar="T", help="how long the tone is on (s, e.g. 20m)")
+    p.add_argument("--within", metavar="P", help="settling band around the steady amplitude (default 1%%)")
+    p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); without it the op-amp is ideal")
+    p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
+    add_source_option(p)
+    p.add_argument("--session", metavar="FILE", help="with --chain: the burst through a chain the session keeps (its parts, the session's op-amp or --gbw)")
+    p.add_argument("--chain", metavar="ID", help="the chain's id (e.g. chain-1)")
+    p.add_argument("--json", action="store_true", help="print one JSON object (with the waveform)")
+
+
+def _t(x) -> str:
+    return "never within the burst" if x is None else format_value(x, "s", digits=4)
+
+
+def print_readable(r: dict) -> None:
+    amp = "with the op-amp" if r["with_opamp"] else "ideal op-amp"
+    print(f"{r['topology']}: {r['cycles']:.6g} cycles of {format_value(r['freq_hz'], 'Hz', digits=5)} "
+          f"({format_value(r['duration_s'], 's', digits=4)}), {amp}")
+    rows = [
+        ("steady amplitude", f"{r['steady_amplitude']:.5g} V/V"),
+        ("envelope time constant", _t(r["envelope_tau_s"])),
+        (f"settles to ±{100 * r['within']:g} %", _t(r["settle_time_s"]) + " after the start"),
+        ("rings down to 1 %", _t(r["ringdown_time_s"]) + " after the end"),
+    ]
+    width = max(len(a) for a, _ in rows)
+    for a, b in rows:
+        print(f"  {a.ljust(width)}  {b}")
+
+
+def _chain_report(args):
+    """A session's chain, measured with its own parts under the session's op-amp and drive."""
+    from bandsmith.chain.cascade import chain_cascade, chains_in
+
+    if args.topology or args.parts:
+        raise InputError("session", "give either a circuit with its parts or a session with --chain, not both")
+    if not args.chain:
+        raise InputError("chain", "missing; give the id of a chain the session keeps (e.g. chain-1)")
+    session = api.open_session(args.session)
+    chains = {c.id: c for c in chains_in(session)}
+    if args.chain not in chains:
+        known = ", ".join(chains) or "none"
+        raise InputError("chain", f"no chain {args.chain!r} in this session; its chains are {known}")
+    from dataclasses import replace
+
+    from bandsmith.design.candidate import Conditions
+
+    conditions = Conditions(gbw_hz=session.opamp.gbw_hz, a0=session.opamp.a0, vin_v=session.target.vin_v,
+                            rload_ohm=session.rload_ohm, tolerances=session.tolerances)
+    if args.gbw is not None:
+        conditions = replace(conditions, gbw_hz=api.parse_value(args.gbw, field="gbw"))
+    return api.CascadeReport(chain_cascade(chains[args.chain], conditions=conditions))
+
+
+def run(args) -> int:
+    if args.session or args.chain:
+        if args.freq is None:
+            raise InputError("freq", "missing; give the tone's frequency, e.g. --freq 1k")
+        if not args.session:
+            raise InputError("session", "--chain needs --session FILE")
+        report = api.burst_cascade(_chain_report(args), freq_hz=args.freq, cycles=args.cycles, duration_s=args.duration,
+                                   within=args.within, with_opamp=True)  # the session's op-amp (or --gbw), if any
+        out = report.to_json()
+        print_json(out) if args.json else print_readable(out)
+        return 0
+    if not args.topology:
+        raise InputError("topology", "missing; give a circuit id (see `bandsmith topologies`)")
+    if args.freq is None:
+        raise InputError("freq", "missing; give the tone's frequency, e.g. --freq 1k")
+    report = api.burst(
+        args.topology,
+        args.parts,
+        freq_hz=args.freq,
+        cycles=args.cycles,
+        duration_s=args.duration,
+        within=args.within,
+        gbw_hz=args.gbw,
+        a0=args.a0 if args.a0 is not None else 1e5,
+        rsource_ohm=args.rsource,
+    )
+    out = report.to_json()
+    if args.json:
+        print_json(out)
+    else:
+        print_readable(out)
+    return 0
+
+
+COMMAND = Command("burst", "the response of one candidate to a tone burst: envelope, settling and ring-down", configure, run, order=58)
