@@ -19,7 +19,7 @@ from bandsmith.app.window.main_window import WorkbenchWindow
 from bandsmith.app.window.panes.board_pane import BoardPane
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.common.values import format_value
-from window_helpers import ScriptedPrompter, screenshot, temp_settings
+from window_helpers import ScriptedPrompter, screenshot, scroll_to, temp_settings
 
 pytestmark = pytest.mark.gui
 ARTIFACTS = Path(__file__).parent / "_artifacts"
@@ -39,8 +39,8 @@ def pane(qtbot):
 
 
 def shown_nodes(p) -> dict[str, str]:
-    t = p.nodes_table
-    return {t.item(r, 0).text(): t.item(r, 1).text() for r in range(t.rowCount())}
+    t = p.nodes_table  # one row: the node names in the header, their DC voltages below
+    return {t.horizontalHeaderItem(c).text(): t.item(0, c).text() for c in range(1, t.columnCount())}
 
 
 def entry(p):
@@ -118,6 +118,8 @@ def test_screenshots(qtbot, tmp_path, monkeypatch, size):
     p.measured_edit.editingFinished.emit()
     qtbot.waitUntil(lambda: p.plan is not None and p.plan.correction is not None, timeout=WAIT_MS)
     qtbot.wait(80)
+    scroll_to(p.correction)  # below the bias at 1366×768: scroll, as a user would
+    qtbot.wait(30)
     screenshot(w, ARTIFACTS / f"board_pane_{size[0]}x{size[1]}.png", regions=(p.trim_table,))
     for t in p.findChildren(QtWidgets.QTableWidget):
         h = t.horizontalHeader()

@@ -59,9 +59,25 @@ def _fill(table: QtWidgets.QTableWidget, rows: list[list[str]]) -> None:
             if c:
                 it.setTextAlignment(_RIGHT)
             table.setItem(r, c, it)
-    fit_columns(table)
-    h = table.horizontalHeader().height() + sum(table.rowHeight(i) for i in range(len(rows))) + 2 * table.frameWidth()
-    table.setFixedHeight(h + (table.horizontalScrollBar().sizeHint().height() if table.horizontalScrollBar().isVisible() else 0))
+    _fit(table)
+
+
+def _fit(table: QtWidgets.QTableWidget) -> None:
+    """Columns to their contents (headers included), the table as wide and tall as its cells
+    (sideways scrolling when the pane is narrower)."""
+    fit_columns(table, stretch_last=False)
+    table.resizeColumnsToContents()
+    header = table.horizontalHeader()
+    for i in range(table.columnCount()):
+        need = header.fontMetrics().horizontalAdvance(table.horizontalHeaderItem(i).text()) + 16
+        if header.sectionSize(i) < need:
+            header.resizeSection(i, need)
+    w = header.length() + 2 * table.frameWidth()
+    table.setMaximumWidth(w)
+    table.setMinimumWidth(min(w, 220))
+    bar = table.horizontalScrollBar().sizeHint().height()
+    h = header.height() + sum(table.rowHeight(i) for i in range(table.rowCount())) + 2 * table.frameWidth()
+    table.setFixedHeight(h + bar if table.width() < w else h)
 
 
 def _title(parent, text: str) -> QtWidgets.QLabel:
@@ -103,17 +119,13 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         self._build_form(outer)
         self.error = error_label(self)
         outer.addWidget(self.error)
-        scroll = QtWidgets.QScrollArea(self)
-        scroll.setWidgetResizable(True)
-        scroll.setFrameShape(QtWidgets.QFrame.Shape.NoFrame)
-        inner = QtWidgets.QWidget(scroll)
-        scroll.setWidget(inner)
-        self.body = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.TopToBottom, inner)
-        self.body.setContentsMargins(0, 0, 0, 0)
+        # The window's tab already scrolls; the body is the bias (left) beside the trim plan when wide.
+        self.body = QtWidgets.QBoxLayout(QtWidgets.QBoxLayout.Direction.TopToBottom)
         self.body.setSpacing(14)
-        self._build_bias(inner)
-        self._build_trim(inner)
-        outer.addWidget(scroll, 1)
+        self._build_bias(self)
+        self._build_trim(self)
+        outer.addLayout(self.body)
+        outer.addStretch(1)
 
         state.session_changed.connect(self._on_session_changed)
         state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
@@ -163,18 +175,27 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         col = QtWidgets.QVBoxLayout()
         col.setSpacing(4)
         col.addWidget(_title(inner, "Bias on a single supply"))
+        row = QtWidgets.QHBoxLayout()
+        row.setSpacing(10)
         self.reference_table = _table(inner, "boardReferenceTable", ["reference", "value"])
-        col.addWidget(self.reference_table)
-        self.nodes_table = _table(inner, "boardNodes", ["node", "DC voltage"], ["", "The node's DC voltage to ground, V"])
-        col.addWidget(self.nodes_table)
-        self.coupling_table = _table(inner, "boardCoupling", ["part", "where", "value", "into", "corner"],
-                                     ["", "", "Capacitance, F", "The resistance it works into, Ω", "Its high-pass corner, Hz"])
-        col.addWidget(self.coupling_table)
+        row.addWidget(self.reference_table, 0, QtCore.Qt.AlignmentFlag.AlignTop | QtCore.Qt.AlignmentFlag.AlignLeft)
+        right = QtWidgets.QVBoxLayout()
+        right.setSpacing(4)
+        # One row: each node's DC voltage under its name.
+        self.nodes_table = _table(inner, "boardNodes", ["node"])
+        self.nodes_table.setToolTip("Every node's DC voltage to ground, V")
+        right.addWidget(self.nodes_table)
+        self.coupling_table = _table(inner, "boardCoupling", ["coupling", "where", "value", "into", "corner"],
+                                     ["The coupling capacitor", "", "Capacitance, F", "The resistance it works into, Ω", "Its high-pass corner, Hz"])
+        right.addWidget(self.coupling_table)
         self.swing = QtWidgets.QLabel(inner)
         self.swing.setObjectName("boardSwing")
-        self.swing.setWordWrap(True)
         self.swing.setTextFormat(QtCore.Qt.TextFormat.RichText)
-        col.addWidget(self.swing)
+        right.addWidget(self.swing)
+        right.addStretch(1)
+        row.addLayout(right)
+        row.addStretch(1)
+        col.addLayout(row)
         self.notes = QtWidgets.QLabel(inner)
         self.notes.setObjectName("boardNotes")
         self.notes.setWordWrap(True)
@@ -309,6 +330,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         b, plan = self.biased, self.plan
         if b is None or plan is None:
             self.info.setText(self.problem or "")
+            self.nodes_table.setColumnCount(1)
             for t in (self.reference_table, self.nodes_table, self.coupling_table, self.trim_table):
                 _fill(t, [])
             for lab in (self.swing, self.notes, self.procedure, self.correction):
@@ -328,8 +350,10 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
                          ["bypass corner", format_value(b.bypass_corner_hz, "Hz", digits=3)]]
         ref_rows.append(["settles (0.1 %)", format_value(b.settle_s, "s", digits=3)])
         _fill(self.reference_table, ref_rows)
-        nodes = [[n, format_value(v, "V", digits=4)] for n, v in b.node_dc_v.items() if n not in ("0",)]
-        _fill(self.nodes_table, nodes)
+        nodes = [(n, v) for n, v in b.node_dc_v.items() if n != "0"]
+        self.nodes_table.setColumnCount(len(nodes) + 1)
+        self.nodes_table.setHorizontalHeaderLabels(["node"] + [n for n, _ in nodes])
+        _fill(self.nodes_table, [["DC"] + [format_value(v, "V", digits=4) for _, v in nodes]] if nodes else [])
         _fill(self.coupling_table, [[c.ref, c.where, format_value(c.capacitance_f, "F", digits=3), ohm(c.resistance_ohm),
                                      format_value(c.corner_hz, "Hz", digits=3)] for c in b.coupling])
         colour = "#b23a48" if b.swing_margin_v < 0 else "inherit"
@@ -365,7 +389,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
     # ------------------------------------------------------------------ layout
     def resizeEvent(self, event) -> None:  # noqa: N802 - Qt's name
         super().resizeEvent(event)
-        wide = event.size().width() >= 900
+        wide = event.size().width() >= 1250
         self.body.setDirection(QtWidgets.QBoxLayout.Direction.LeftToRight if wide else QtWidgets.QBoxLayout.Direction.TopToBottom)
 
 
