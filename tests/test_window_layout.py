@@ -49,6 +49,7 @@ def _essentials(window) -> dict[str, list[tuple[str, QtWidgets.QWidget]]]:
         "Tolerance spread": [("Run button", sp.run_button), ("per-part tolerances", sp.parts)],
         "Noise": [("noise plot", n.canvas), ("sources table", n.table)],
         "Stage chain": [("Build chain", c.form.btn_build), ("stage table", c.view.stage_table)],
+        "Board": [("supply field", window.board_pane.supply_edit), ("trim table", window.board_pane.trim_table)],
     }
 
 
