@@ -125,3 +125,38 @@ def test_screenshots(qtbot, tmp_path, monkeypatch, size):
         h = t.horizontalHeader()
         for i in range(t.columnCount()):
             assert h.sectionSize(i) >= h.fontMetrics().horizontalAdvance(t.horizontalHeaderItem(i).text())
+
+
+def test_reference_kind_is_kept_and_undone(pane, qtbot):
+    pane.reference_combo.setCurrentIndex(pane.reference_combo.findData("buffered"))
+    pane.reference_combo.activated.emit(pane.reference_combo.currentIndex())
+    assert pane.state.session.extras[BOARD_KEY]["reference"] == "buffered"
+    qtbot.waitUntil(lambda: pane.biased.settings.reference == "buffered", timeout=WAIT_MS)
+    assert pane.biased.bypass_f is None  # a buffered reference needs no bypass capacitor
+    pane.state.undo_stack.undo()
+    qtbot.waitUntil(lambda: pane.biased.settings.reference == "divider", timeout=WAIT_MS)
+    assert pane.reference_combo.currentData() == "divider"
+
+
+def test_an_inductor_trim_follows_the_selected_candidate(pane, qtbot):
+    pane.state.set_current("rlc-tank")
+    qtbot.waitUntil(lambda: pane.plan is not None and pane.plan.f0.part == "L", timeout=WAIT_MS)
+    e = entry(pane)
+    plan = bandsmith.api.trim(e.topology_id, dict(e.values))
+    assert pane.trim_parts() == [plan.f0.part, plan.q.part, plan.gain.part]
+    assert pane.plan.f0.part == "L" and pane.trim_table.item(0, 4).text() == "—"  # no resistor trimmer for L
+
+
+def test_a_hidden_pane_does_not_compute(qtbot):
+    tabs = QtWidgets.QTabWidget()
+    other = QtWidgets.QWidget()
+    p = BoardPane(WorkbenchState(demo_session()))
+    tabs.addTab(other, "other")
+    tabs.addTab(p, "Board")
+    qtbot.addWidget(tabs)
+    tabs.show()
+    qtbot.waitExposed(tabs)
+    qtbot.wait(100)
+    assert p.biased is None and p._key is None
+    tabs.setCurrentWidget(p)
+    qtbot.waitUntil(lambda: p.biased is not None, timeout=WAIT_MS)

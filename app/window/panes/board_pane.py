@@ -244,7 +244,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
 
     def _on_supply(self) -> None:
         try:
-            v = parse_positive(self.supply_edit.text().strip().removesuffix("V").strip(), field="supply")
+            v = parse_positive(self.supply_edit.text(), field="supply", unit="V")
         except InputError as exc:
             self._say(str(exc))
             return
@@ -263,7 +263,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         meas = dict(self.settings.measured_f0_hz)
         if text:
             try:
-                v = parse_positive(text.removesuffix("Hz").strip(), field="measured-f0")
+                v = parse_positive(text, field="measured-f0", unit="Hz")
             except InputError as exc:
                 self._say(str(exc))
                 return
@@ -322,6 +322,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         else:
             self.biased = self.plan = None
             self.problem = (error or "").strip().splitlines()[-1] if error else "Cannot compute."
+            self._say(f"Cannot bias {key[0]}: {self.problem}")
         self._draw()
         self.computed.emit()
 
