@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
+from html import escape
 from typing import Callable
 
 from PySide6 import QtCore, QtWidgets
@@ -364,6 +365,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
             f"{'; it clips' if b.swing_margin_v < 0 else ''})."
         )
         self.notes.setText("; ".join(n[:1].upper() + n[1:] for n in b.notes) + ("." if b.notes else ""))
+        self.notes.setVisible(bool(b.notes))
         rows = []
         for name, ch in (("f0", plan.f0), ("Q", plan.q), ("gain", plan.gain)):
             rows.append([name, ch.part, f"{ch.interaction:.3g}", ohm(ch.fixed_ohm), ohm(ch.trimmer_ohm),
@@ -371,7 +373,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         _fill(self.trim_table, rows)
         for r in range(self.trim_table.rowCount()):
             self.trim_table.item(r, 1).setTextAlignment(QtCore.Qt.AlignmentFlag.AlignLeft | QtCore.Qt.AlignmentFlag.AlignVCenter)
-        self.procedure.setText("<b>Procedure</b><ol style='margin-left:-20px'>" + "".join(f"<li>{s}</li>" for s in plan.procedure) + "</ol>")
+        self.procedure.setText("<b>Procedure</b><ol style='margin-left:-20px'>" + "".join(f"<li>{escape(s)}</li>" for s in plan.procedure) + "</ol>")
         c = plan.correction
         if c is None:
             self.correction.setText(f"<span style='color:{MUTED}'>Type the measured f0 above for the new value of {plan.f0.part}.</span>")
