@@ -4,6 +4,7 @@ import json
 import math
 import subprocess
 import sys
+from pathlib import Path
 
 import pytest
 
@@ -79,3 +80,18 @@ def test_cli_rsource_and_bad_value():
     assert ok.returncode == 0 and json.loads(ok.stdout)["ideal"]["gain_center"] == pytest.approx(-5.0)
     bad = run("analyze", "rlc-tank", *TANK, "--rsource", "-3", "--json")
     assert bad.returncode == 2 and "rsource" in bad.stderr
+
+
+def test_the_report_states_the_source_resistance(tmp_path):
+    # The session's source resistance is part of every analysis; the report's target says so.
+    from dataclasses import replace
+
+    from bandsmith.app.report.builder import write_report
+    from bandsmith.files.session import load_session
+
+    demo = Path(__file__).resolve().parents[1] / "resources" / "demo_session.bandsmith.json"
+    s = replace(load_session(demo), rsource_ohm=600.0)
+    out = tmp_path / "r.html"
+    write_report(s, out)
+    text = out.read_text(encoding="utf-8")
+    assert "source resistance" in text and "600 Ω in series with the input" in text

@@ -50,6 +50,7 @@ def _essentials(window) -> dict[str, list[tuple[str, QtWidgets.QWidget]]]:
         "Noise": [("noise plot", n.canvas), ("sources table", n.table)],
         "Stage chain": [("Build chain", c.form.btn_build), ("stage table", c.view.stage_table)],
         "Filter bank": [("Design bank", window.bank_pane.btn_design), ("channel table", window.bank_pane.table)],
+        "Tone burst": [("burst plot", window.burst_pane.plot), ("frequency field", window.burst_pane.freq_edit)],
         "Board": [("supply field", window.board_pane.supply_edit), ("trim table", window.board_pane.trim_table)],
     }
 

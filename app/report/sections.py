@@ -89,6 +89,7 @@ def section_target(ctx: ReportContext) -> str:
         ["standard series", escape(t.series)],
         ["op-amp", escape(_opamp_text(s))],
         ["load on the output", format_value(s.rload_ohm, "Ω") if s.rload_ohm is not None else "none"],
+        ["source resistance", format_value(s.rsource_ohm, "Ω") + " in series with the input (in every figure)" if s.rsource_ohm else "none (an ideal source)"],
         ["required-GBW tolerances", f"f0 ±{100 * tol.f0:g} %, Q ±{100 * tol.q:g} %, gain ±{tol.gain_db:g} dB"],
     ]
     return "<h2>Target</h2>\n" + html_table(None, [[escape(a), escape(b)] for a, b in rows], cls="kv", align="ll")

@@ -166,6 +166,9 @@ class WorkbenchWindow(QtWidgets.QMainWindow):
         from bandsmith.app.window.panes.board_pane import install as install_board_pane
 
         install_board_pane(self)
+        from bandsmith.app.window.panes.burst_pane import install as install_burst_pane
+
+        install_burst_pane(self)
 
     def _build_central(self) -> None:
         """The target strip above the candidates board and, beside it, the pane tabs (Responses first)."""
