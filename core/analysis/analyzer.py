@@ -27,7 +27,7 @@ from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
-from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, node_rationals, rational_and_family, rational_from_system, reference_w
+from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, rational_from_system, reference_w
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, step_response
 
 __all__ = [
@@ -565,7 +565,13 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     """The first pass's transfer functions from the netlist's coefficient expansion
     (:mod:`bandsmith.solver.expansion`, built once per circuit) instead of solves: ``(w_ref, h, family)``, or
     None where the expansion does not apply (not one op-amp, or a part the expansion does not
-    carry)."""
+    carry).
+
+    With several op-amps the ideal members come from the ideal-op-amp expansion and the
+    :class:`~bandsmith.solver.rational.AmpFamily` from the nominal circuit's sampled pencil (the
+    expansion with the op-amp's stamps would carry ``(m + 1)²`` times the integer points)."""
+    if len(netlist.opamps) > 1:
+        return _first_pass_expanded_multi(netlist, refs, n_ideal, w_ref)
     if len(netlist.opamps) != 1:
         return None
     try:
@@ -604,6 +610,34 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
         float(w_ref),
     )
     return float(w_ref), h, family
+
+
+def _first_pass_expanded_multi(netlist, refs, n_ideal, w_ref):
+    """:func:`_first_pass_expanded` for several op-amps: ``(w_ref, h, family)`` or None."""
+    try:
+        exp, variables = unit_expansion(netlist)
+    except ExpansionUnavailable:
+        return None
+    col = {name: j for j, name in enumerate(exp.names)}
+    if any(r not in col for r in refs):
+        return None
+    lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal, 1))
+    cols = [col[r] for r in refs]
+    rows = np.arange(len(refs))
+    lr[1 + 2 * rows, cols] += SENS_STEP
+    lr[2 + 2 * rows, cols] -= SENS_STEP
+    num, den = exp.dense_log(lr)  # in p = s, highest power first
+    d0 = den[0]
+    nz = np.flatnonzero(d0)
+    if nz.size < 2 or not np.isfinite(den).all():
+        return None
+    if w_ref is None:  # geometric mean of the finite, nonzero poles (bandsmith.solver.rational.reference_w)
+        w_ref = float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0])))
+    den_p = den * w_ref ** np.arange(den.shape[1] - 1, -1, -1.0)  # c·s^k = c·w_ref^k·p^k
+    num_p = num * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
+    scale = np.abs(den_p).max(axis=1, keepdims=True)
+    h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
+    return float(w_ref), h, amp_family(build_system(netlist), float(w_ref))
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
