@@ -255,7 +255,7 @@ def transfer_function(
         ideal = build_system(netlist)
         if w_ref is None:
             w_ref = reference_w(ideal)
-        family = rational_and_family(ideal, w_ref)[1]
+        family = amp_family(ideal, w_ref)  # as rational_and_family's, without the ideal solve
         if family is not None:
             gbw = np.atleast_1d(np.asarray(gbw_hz if gbw_hz is not None else opamp.gbw_hz, dtype=float))
             gain0 = np.asarray(a0 if a0 is not None else opamp.a0, dtype=float)
