@@ -74,3 +74,22 @@ def test_a_blas_thread_count_set_by_the_user_is_kept():
     env.pop("OMP_NUM_THREADS", None)
     out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, check=True).stdout
     assert out.strip() == "1"
+
+
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_step_slopes_of_every_amplifier_output_in_one_pass_equal_one_by_one(circuit):
+    """max_step_slopes (shared poles and exponentials) against max_step_slope member by member,
+    itself checked against scipy.signal.step in tests/test_requirements.py: equal."""
+    import math
+
+    from bandsmith.analysis.timeresponse import max_step_slope, max_step_slopes
+    from bandsmith.circuits import get_topology
+    from bandsmith.solver.mna import build_system
+    from bandsmith.solver.rational import node_rationals
+
+    topo = get_topology(circuit)
+    netlist = topo.build(dict(topo.example))
+    system = build_system(netlist)
+    nodes = [system.layout.node_index[e.nodes[2]] for e in netlist.opamps]
+    h = node_rationals(system, nodes, 2 * math.pi * 1e3)
+    assert_allclose(max_step_slopes(h), [max_step_slope(h, i=i) for i in range(h.batch)], rtol=1e-14)

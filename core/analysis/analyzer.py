@@ -28,7 +28,7 @@ from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
 from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, rational_from_system, reference_w
-from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, step_response
+from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes, step_response
 
 __all__ = [
     "Tolerances",
@@ -467,10 +467,11 @@ def amplifier_needs(
         w_ref = 2.0 * math.pi * f0_hz
     at_nodes = node_rationals(system, [system.layout.node_index[e.nodes[2]] for e in netlist.opamps], w_ref)
     out = []
+    slopes = max_step_slopes(at_nodes)  # one denominator: the poles and exponentials shared
     for i, e in enumerate(netlist.opamps):
         node = e.nodes[2]
         v = abs(x[layout.node_index[node]]) * vin_v
-        slope = max_step_slope(at_nodes, i=i)
+        slope = slopes[i]
         out.append(
             AmplifierNeeds(
                 ref=e.ref,
