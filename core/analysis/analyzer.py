@@ -186,6 +186,9 @@ class Analysis:
     h_ideal: Rational
     h_actual: Rational | None
     _step: StepResponse | None = field(default=None, repr=False, compare=False)
+    # stable_ideal and stable_actual, found when first asked for (the verdict and the JSON ask thrice)
+    _stable_ideal: bool | None = field(default=None, repr=False, compare=False)
+    _stable_actual: bool | None = field(default=None, repr=False, compare=False)
 
     @property
     def step(self) -> StepResponse:
@@ -197,12 +200,18 @@ class Analysis:
     @property
     def stable_ideal(self) -> bool:
         """True when every pole with the ideal op-amp lies in the left half-plane."""
-        return is_stable(self.h_ideal)
+        if self._stable_ideal is None:
+            object.__setattr__(self, "_stable_ideal", is_stable(self.h_ideal))
+        return self._stable_ideal
 
     @property
     def stable_actual(self) -> bool | None:
         """The same with the actual op-amp; None without one."""
-        return None if self.h_actual is None else is_stable(self.h_actual)
+        if self.h_actual is None:
+            return None
+        if self._stable_actual is None:
+            object.__setattr__(self, "_stable_actual", is_stable(self.h_actual))
+        return self._stable_actual
 
     @property
     def warnings(self) -> tuple[str, ...]:
