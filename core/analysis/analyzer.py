@@ -245,6 +245,17 @@ def is_stable(h: Rational, i: int = 0) -> bool:
     return bool(np.all(p.real < 1e-9 * np.abs(p))) if p.size else True
 
 
+@functools.lru_cache(maxsize=32)
+def _nominal_system(netlist: Netlist):
+    """``build_system(netlist)`` (ideal op-amps, the netlist's own values), kept for the few
+    netlists last asked for: one analysis builds it for the op-amp family, the amplifiers' needs
+    and the GBW sweep. Read-only arrays."""
+    system = build_system(netlist)
+    system.G.setflags(write=False)
+    system.C.setflags(write=False)
+    return system
+
+
 def transfer_function(
     netlist: Netlist,
     opamp: OpAmpModel = IDEAL,
@@ -261,7 +272,7 @@ def transfer_function(
     """
     if overrides is None and len(netlist.opamps) > 1 and (gbw_hz is not None or not opamp.ideal):
         # only the op-amp varies: the family of the ideal circuit serves every GBW at once
-        ideal = build_system(netlist)
+        ideal = _nominal_system(netlist)
         if w_ref is None:
             w_ref = reference_w(ideal)
         family = amp_family(ideal, w_ref)  # as rational_and_family's, without the ideal solve
@@ -471,7 +482,7 @@ def amplifier_needs(
     if rload_ohm is not None:
         loaded = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
     x, layout = solve_at(loaded, 2j * math.pi * f0_hz)
-    system = build_system(netlist)
+    system = _nominal_system(netlist)
     if w_ref is None:
         w_ref = 2.0 * math.pi * f0_hz
     at_nodes = node_rationals(system, [system.layout.node_index[e.nodes[2]] for e in netlist.opamps], w_ref)
@@ -647,7 +658,7 @@ def _first_pass_expanded_multi(netlist, refs, n_ideal, w_ref):
     num_p = num * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
     scale = np.abs(den_p).max(axis=1, keepdims=True)
     h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
-    return float(w_ref), h, amp_family(build_system(netlist), float(w_ref))
+    return float(w_ref), h, amp_family(_nominal_system(netlist), float(w_ref))
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
