@@ -93,3 +93,16 @@ def test_step_slopes_of_every_amplifier_output_in_one_pass_equal_one_by_one(circ
     nodes = [system.layout.node_index[e.nodes[2]] for e in netlist.opamps]
     h = node_rationals(system, nodes, 2 * math.pi * 1e3)
     assert_allclose(max_step_slopes(h), [max_step_slope(h, i=i) for i in range(h.batch)], rtol=1e-14)
+
+
+def test_quadratic_hurwitz_shortcut_agrees_with_the_roots():
+    """The quadratic case of hurwitz_stable against numpy.roots (stable iff both roots have a
+    negative real part; a root on the axis is not stable)."""
+    from bandsmith.solver.stability import hurwitz_stable
+
+    rng = np.random.default_rng(7)
+    den = rng.normal(size=(2000, 3))
+    den[::9, 1] = 0.0  # roots on the imaginary axis
+    den[::13, 2] = 0.0  # a root at zero
+    want = [bool(np.all(np.roots(d).real < 0)) for d in den]
+    assert_array_equal(hurwitz_stable(den), want)
