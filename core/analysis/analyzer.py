@@ -585,7 +585,7 @@ def _absent_mask(rows: int, n_var: int, gbw: int, a0: int) -> np.ndarray:
 def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     """The first pass's transfer functions from the netlist's coefficient expansion
     (:mod:`bandsmith.solver.expansion`, built once per circuit) instead of solves: ``(w_ref, h, family)``, or
-    None where the expansion does not apply (not one op-amp, or a part the expansion does not
+    None where the expansion does not apply (no op-amp, or a part the expansion does not
     carry).
 
     With several op-amps the ideal members come from the ideal-op-amp expansion and the
@@ -663,8 +663,8 @@ def _first_pass_expanded_multi(netlist, refs, n_ideal, w_ref):
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
     """One batch for the ideal op-amp: the nominal circuit and its 2·P part perturbations (member 0
-    is the nominal one), their figures and the sensitivities; with one op-amp also the
-    :class:`OpAmpFamily` of the nominal circuit. From the coefficient expansion where it applies,
+    is the nominal one), their figures and the sensitivities; with op-amps also the
+    :class:`OpAmpFamily` (one) or :class:`~bandsmith.solver.rational.AmpFamily` (several) of the nominal circuit. From the coefficient expansion where it applies,
     else one batched solve. ``w_ref`` defaults to the nominal circuit's
     :func:`~bandsmith.solver.rational.reference_w`."""
     values = dict(parts if parts is not None else netlist.values())
