@@ -58,3 +58,24 @@ def test_a_member_with_an_unusable_value_is_nan_and_the_rest_are_not():
     num, den = exp.dense(ratios)
     assert np.isfinite(num[0]).all() and np.isfinite(den[0]).all()
     assert np.isnan(num[1:]).all() and np.isnan(den[1:]).all()
+
+
+@pytest.mark.parametrize("topo", all_topologies(), ids=lambda t: t.id)
+def test_first_pass_by_expansion_agrees_with_the_solver(topo, monkeypatch):
+    """The analysis' first pass (nominal and perturbed ideal circuits, the op-amp family) from the
+    coefficient expansion against the batched MNA solve (the reference: Cramer's rule on the
+    pencil, exact interpolation), every circuit, one and several op-amps: 1e-12 relative."""
+    from bandsmith.analysis import analyzer
+
+    netlist = topo.build(topo.example)
+    fast = analyzer._first_pass(netlist, None)
+    monkeypatch.setattr(analyzer, "_first_pass_expanded", lambda *a: None)
+    slow = analyzer._first_pass(netlist, None, w_ref=fast.w_ref)
+    s = 1j * fast.w_ref * np.geomspace(0.2, 5.0, 11)
+    np.testing.assert_allclose(fast.h_ideal.at_s(s), slow.h_ideal.at_s(s), rtol=1e-12)
+    if slow.family is not None:
+        gbw = np.array([1e4, 1e6, 1e8]) * fast.w_ref / (2 * np.pi)
+        np.testing.assert_allclose(fast.family.at(gbw, 1e5).at_s(s), slow.family.at(gbw, 1e5).at_s(s), rtol=1e-12)
+    for key, by_ref in slow.sensitivity.items():  # central differences: rounding over the step, 1e-8
+        for ref, v in by_ref.items():
+            assert abs(fast.sensitivity[key][ref] - v) <= 1e-8, (key, ref)

@@ -74,3 +74,65 @@ def test_a_blas_thread_count_set_by_the_user_is_kept():
     env.pop("OMP_NUM_THREADS", None)
     out = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True, check=True).stdout
     assert out.strip() == "1"
+
+
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_step_slopes_of_every_amplifier_output_in_one_pass_equal_one_by_one(circuit):
+    """max_step_slopes (shared poles and exponentials) against max_step_slope member by member,
+    itself checked against scipy.signal.step in tests/test_requirements.py: equal."""
+    import math
+
+    from bandsmith.analysis.timeresponse import max_step_slope, max_step_slopes
+    from bandsmith.circuits import get_topology
+    from bandsmith.solver.mna import build_system
+    from bandsmith.solver.rational import node_rationals
+
+    topo = get_topology(circuit)
+    netlist = topo.build(dict(topo.example))
+    system = build_system(netlist)
+    nodes = [system.layout.node_index[e.nodes[2]] for e in netlist.opamps]
+    h = node_rationals(system, nodes, 2 * math.pi * 1e3)
+    assert_allclose(max_step_slopes(h), [max_step_slope(h, i=i) for i in range(h.batch)], rtol=1e-14)
+
+
+def test_quadratic_hurwitz_shortcut_agrees_with_the_roots():
+    """The quadratic case of hurwitz_stable against numpy.roots (stable iff both roots have a
+    negative real part; a root on the axis is not stable)."""
+    from bandsmith.solver.stability import hurwitz_stable
+
+    rng = np.random.default_rng(7)
+    den = rng.normal(size=(2000, 3))
+    den[::9, 1] = 0.0  # roots on the imaginary axis
+    den[::13, 2] = 0.0  # a root at zero
+    want = [bool(np.all(np.roots(d).real < 0)) for d in den]
+    assert_array_equal(hurwitz_stable(den), want)
+
+
+@pytest.mark.parametrize("circuit", ["rlc-tank", "mfb", "sallen-key", "dabp", "state-variable"])
+def test_gbw_error_sweep_through_the_family_agrees_with_the_batched_solve(circuit, monkeypatch):
+    """gbw_error_sweep (the op-amp family) against the same sweep through the batched MNA solve
+    of every GBW: the same errors to rounding (1e-9 of a percent is far below any display)."""
+    import math
+
+    from bandsmith.analysis import gbw_sweep
+    from bandsmith.analysis.analyzer import ideal_figures, transfer_function
+    from bandsmith.circuits import get_topology
+
+    topo = get_topology(circuit)
+    netlist = topo.build(dict(topo.example))
+    ideal = ideal_figures(netlist)
+    ladder = gbw_sweep.gbw_ladder(ideal.item().f0_hz, n=40)
+    fast = gbw_sweep.gbw_error_sweep(netlist, ideal, ladder)
+
+    def solved(net, *, gbw_hz, a0, w_ref):
+        from bandsmith.solver.mna import build_system
+        from bandsmith.solver.rational import rational_from_system
+
+        return rational_from_system(build_system(net, gbw_hz=gbw_hz, a0=a0), w_ref)
+
+    monkeypatch.setattr(gbw_sweep, "rational_and_family", lambda *a: (None, None))
+    monkeypatch.setattr(gbw_sweep, "transfer_function", solved)
+    slow = gbw_sweep.gbw_error_sweep(netlist, ideal, ladder)
+    for a, b in ((fast.f0_error, slow.f0_error), (fast.q_error, slow.q_error), (fast.gain_error_db, slow.gain_error_db)):
+        assert_allclose(a, b, rtol=1e-9, atol=1e-12)
+    assert math.isfinite(float(np.min(fast.worst)))

@@ -27,8 +27,8 @@ from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
-from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, node_rationals, rational_and_family, rational_from_system, reference_w
-from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, step_response
+from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, rational_from_system, reference_w
+from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes, step_response
 
 __all__ = [
     "Tolerances",
@@ -186,6 +186,9 @@ class Analysis:
     h_ideal: Rational
     h_actual: Rational | None
     _step: StepResponse | None = field(default=None, repr=False, compare=False)
+    # stable_ideal and stable_actual, found when first asked for (the verdict and the JSON ask thrice)
+    _stable_ideal: bool | None = field(default=None, repr=False, compare=False)
+    _stable_actual: bool | None = field(default=None, repr=False, compare=False)
 
     @property
     def step(self) -> StepResponse:
@@ -197,12 +200,18 @@ class Analysis:
     @property
     def stable_ideal(self) -> bool:
         """True when every pole with the ideal op-amp lies in the left half-plane."""
-        return is_stable(self.h_ideal)
+        if self._stable_ideal is None:
+            object.__setattr__(self, "_stable_ideal", is_stable(self.h_ideal))
+        return self._stable_ideal
 
     @property
     def stable_actual(self) -> bool | None:
         """The same with the actual op-amp; None without one."""
-        return None if self.h_actual is None else is_stable(self.h_actual)
+        if self.h_actual is None:
+            return None
+        if self._stable_actual is None:
+            object.__setattr__(self, "_stable_actual", is_stable(self.h_actual))
+        return self._stable_actual
 
     @property
     def warnings(self) -> tuple[str, ...]:
@@ -236,6 +245,17 @@ def is_stable(h: Rational, i: int = 0) -> bool:
     return bool(np.all(p.real < 1e-9 * np.abs(p))) if p.size else True
 
 
+@functools.lru_cache(maxsize=32)
+def _nominal_system(netlist: Netlist):
+    """``build_system(netlist)`` (ideal op-amps, the netlist's own values), kept for the few
+    netlists last asked for: one analysis builds it for the op-amp family, the amplifiers' needs
+    and the GBW sweep. Read-only arrays."""
+    system = build_system(netlist)
+    system.G.setflags(write=False)
+    system.C.setflags(write=False)
+    return system
+
+
 def transfer_function(
     netlist: Netlist,
     opamp: OpAmpModel = IDEAL,
@@ -252,10 +272,10 @@ def transfer_function(
     """
     if overrides is None and len(netlist.opamps) > 1 and (gbw_hz is not None or not opamp.ideal):
         # only the op-amp varies: the family of the ideal circuit serves every GBW at once
-        ideal = build_system(netlist)
+        ideal = _nominal_system(netlist)
         if w_ref is None:
             w_ref = reference_w(ideal)
-        family = rational_and_family(ideal, w_ref)[1]
+        family = amp_family(ideal, w_ref)  # as rational_and_family's, without the ideal solve
         if family is not None:
             gbw = np.atleast_1d(np.asarray(gbw_hz if gbw_hz is not None else opamp.gbw_hz, dtype=float))
             gain0 = np.asarray(a0 if a0 is not None else opamp.a0, dtype=float)
@@ -462,15 +482,16 @@ def amplifier_needs(
     if rload_ohm is not None:
         loaded = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
     x, layout = solve_at(loaded, 2j * math.pi * f0_hz)
-    system = build_system(netlist)
+    system = _nominal_system(netlist)
     if w_ref is None:
         w_ref = 2.0 * math.pi * f0_hz
     at_nodes = node_rationals(system, [system.layout.node_index[e.nodes[2]] for e in netlist.opamps], w_ref)
     out = []
+    slopes = max_step_slopes(at_nodes)  # one denominator: the poles and exponentials shared
     for i, e in enumerate(netlist.opamps):
         node = e.nodes[2]
         v = abs(x[layout.node_index[node]]) * vin_v
-        slope = max_step_slope(at_nodes, i=i)
+        slope = slopes[i]
         out.append(
             AmplifierNeeds(
                 ref=e.ref,
@@ -564,8 +585,14 @@ def _absent_mask(rows: int, n_var: int, gbw: int, a0: int) -> np.ndarray:
 def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     """The first pass's transfer functions from the netlist's coefficient expansion
     (:mod:`bandsmith.solver.expansion`, built once per circuit) instead of solves: ``(w_ref, h, family)``, or
-    None where the expansion does not apply (not one op-amp, or a part the expansion does not
-    carry)."""
+    None where the expansion does not apply (no op-amp, or a part the expansion does not
+    carry).
+
+    With several op-amps the ideal members come from the ideal-op-amp expansion and the
+    :class:`~bandsmith.solver.rational.AmpFamily` from the nominal circuit's sampled pencil (the
+    expansion with the op-amp's stamps would carry ``(m + 1)²`` times the integer points)."""
+    if len(netlist.opamps) > 1:
+        return _first_pass_expanded_multi(netlist, refs, n_ideal, w_ref)
     if len(netlist.opamps) != 1:
         return None
     try:
@@ -606,10 +633,38 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     return float(w_ref), h, family
 
 
+def _first_pass_expanded_multi(netlist, refs, n_ideal, w_ref):
+    """:func:`_first_pass_expanded` for several op-amps: ``(w_ref, h, family)`` or None."""
+    try:
+        exp, variables = unit_expansion(netlist)
+    except ExpansionUnavailable:
+        return None
+    col = {name: j for j, name in enumerate(exp.names)}
+    if any(r not in col for r in refs):
+        return None
+    lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal, 1))
+    cols = [col[r] for r in refs]
+    rows = np.arange(len(refs))
+    lr[1 + 2 * rows, cols] += SENS_STEP
+    lr[2 + 2 * rows, cols] -= SENS_STEP
+    num, den = exp.dense_log(lr)  # in p = s, highest power first
+    d0 = den[0]
+    nz = np.flatnonzero(d0)
+    if nz.size < 2 or not np.isfinite(den).all():
+        return None
+    if w_ref is None:  # geometric mean of the finite, nonzero poles (bandsmith.solver.rational.reference_w)
+        w_ref = float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0])))
+    den_p = den * w_ref ** np.arange(den.shape[1] - 1, -1, -1.0)  # c·s^k = c·w_ref^k·p^k
+    num_p = num * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
+    scale = np.abs(den_p).max(axis=1, keepdims=True)
+    h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
+    return float(w_ref), h, amp_family(_nominal_system(netlist), float(w_ref))
+
+
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
     """One batch for the ideal op-amp: the nominal circuit and its 2·P part perturbations (member 0
-    is the nominal one), their figures and the sensitivities; with one op-amp also the
-    :class:`OpAmpFamily` of the nominal circuit. From the coefficient expansion where it applies,
+    is the nominal one), their figures and the sensitivities; with op-amps also the
+    :class:`OpAmpFamily` (one) or :class:`~bandsmith.solver.rational.AmpFamily` (several) of the nominal circuit. From the coefficient expansion where it applies,
     else one batched solve. ``w_ref`` defaults to the nominal circuit's
     :func:`~bandsmith.solver.rational.reference_w`."""
     values = dict(parts if parts is not None else netlist.values())

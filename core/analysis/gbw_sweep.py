@@ -16,7 +16,9 @@ import numpy as np
 
 from bandsmith.analysis.analyzer import DEFAULT_A0, Tolerances, transfer_function
 from bandsmith.analysis.figures import Figures, measure
+from bandsmith.solver.mna import build_system
 from bandsmith.solver.netlist import Netlist
+from bandsmith.solver.rational import rational_and_family
 
 __all__ = ["GbwSweep", "gbw_ladder", "gbw_error_sweep"]
 
@@ -99,7 +101,13 @@ def gbw_error_sweep(
         nan = np.full(n, np.nan)
         return GbwSweep(g, nan, nan.copy(), nan.copy(), np.full(n, np.inf))
     w_ref = 2.0 * math.pi * ref.f0_hz
-    h = transfer_function(netlist, gbw_hz=g, a0=np.full(n, float(a0)), w_ref=w_ref)
+    family = None
+    if len(netlist.opamps) == 1:  # the one-op-amp family serves every GBW (several: transfer_function's)
+        family = rational_and_family(build_system(netlist), w_ref)[1]
+    if family is not None:
+        h = family.at(g, np.full(n, float(a0)))
+    else:
+        h = transfer_function(netlist, gbw_hz=g, a0=np.full(n, float(a0)), w_ref=w_ref)
     fig = measure(h, grid=_SEARCH_GRID)
     with np.errstate(invalid="ignore", divide="ignore"):
         f0_err = fig.f0_hz / ref.f0_hz - 1.0

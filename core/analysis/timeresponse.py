@@ -18,7 +18,7 @@ import numpy as np
 
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
-__all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope"]
+__all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -124,6 +124,56 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
         y, slope = _state_space(b, a, t_all)
     n = t_s.size
     return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.abs(slope).max()))
+
+
+def _pure_bandpass_slope(h: Rational, i: int) -> float | None:
+    """:func:`max_step_slope`'s closed form for member ``i``, or None where it does not apply."""
+    one = h.item(i)
+    num, den = one.num[0], one.den[0]
+    if den.size == 3 and num.size == 2 and num[1] == 0 and num[0] != 0:
+        a2, a1, a0 = den.tolist()
+        if (a2 > 0 and a1 > 0 and a0 > 0) or (a2 < 0 and a1 < 0 and a0 < 0):
+            return abs(float(num[0]) * float(h.w_ref[i]) / a2)
+    return None
+
+
+def max_step_slopes(h: Rational) -> list[float]:
+    """:func:`max_step_slope` of every member of ``h``.
+
+    Members with one denominator (the transfer functions to several nodes of one circuit) share
+    its poles, time grid and modal exponentials: one ``exp`` over the grid for all of them, and
+    each member's residues as :func:`_modal` finds them. Members whose poles are too close for
+    the modal form go through :func:`step_response` one by one.
+    """
+    out: list[float | None] = [_pure_bandpass_slope(h, i) for i in range(h.batch)]
+    groups: dict[tuple, list[tuple[int, np.ndarray]]] = {}
+    for i in range(h.batch):
+        if out[i] is None:
+            b, a = h.to_s(i)
+            groups.setdefault(tuple(a.tolist()), []).append((i, b))
+    for key, members in groups.items():
+        a = np.array(key)
+        poles = _roots(a)
+        listed = poles.tolist()
+        fast = max((abs(p) for p in listed if cmath.isfinite(p)), default=1.0)
+        gap = min((abs(p - q) for k, p in enumerate(listed) for q in listed[k + 1 :]), default=np.inf)
+        if not gap > 1e-5 * fast:
+            for i, _ in members:
+                out[i] = step_response(h, i=i).max_slope_per_s
+            continue
+        t_all = np.concatenate([default_time_grid(poles), _EARLY / fast])
+        p = poles[poles.imag >= 0]
+        e = np.exp(t_all[:, None] * p)
+        at = p[None, :]
+        dd = polyval_batch(polyder_batch(a[None, :]), at)[0]
+        twice = np.where(p.imag > 0, 2.0, 1.0)
+        for i, b in members:  # the impulse response h(t) = Σ r·e^{λt}, as _modal forms it
+            if b.size >= a.size:
+                b = np.polydiv(b, a)[1]
+            r = polyval_batch(b[None, :], at)[0] / dd
+            r *= twice
+            out[i] = float(np.abs((e @ r).real).max())
+    return out
 
 
 def max_step_slope(h: Rational, *, i: int = 0) -> float:

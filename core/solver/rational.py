@@ -18,7 +18,7 @@ import numpy as np
 
 from bandsmith.solver.mna import MnaSystem
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "reference_w", "polyval_batch"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "polyval_batch"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -381,6 +381,17 @@ def _family_sum(terms: tuple[np.ndarray, ...], alpha: np.ndarray, beta: np.ndarr
         shifted[n, length - t.size - i : length - i] = t  # T_j·p^i
         weights[:, n] = math.comb(j, i) * (-beta) ** i * (-alpha) ** (j - i)
     return weights @ shifted
+
+
+def amp_family(system: MnaSystem, w_ref: float) -> AmpFamily | None:
+    """:class:`AmpFamily` of member 0 of an ideal-op-amp system with several op-amps (None with
+    fewer than two), sampled on the circle ``|s| = w_ref`` (rad/s) as
+    :func:`rational_and_family` samples it: the same family, without the ideal solve."""
+    if len(system.layout.opamp_row) < 2 or not system.amp_terms:
+        return None
+    one = MnaSystem(system.G[:1], system.C[:1], system.layout, system.output_index, system.amp_terms)
+    k, a = _samples(one, np.array([float(w_ref)]))
+    return _amp_family(one, a, k, float(w_ref))
 
 
 def _amp_family(system: MnaSystem, samples: np.ndarray, k: int, w: float) -> AmpFamily:

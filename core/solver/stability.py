@@ -31,6 +31,10 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
         ok = np.all(np.isfinite(a), axis=1)
         if k == 1:
             return ok
+        if k == 3:  # a quadratic: the two steps of the loop below written out (same arithmetic)
+            a1, a2 = a[:, 1], a[:, 2]
+            ok &= a1 > 0
+            return ok & ((a1 * a2 - 0.0) / np.where(a1 > 0, a1, 1.0) > 0)
         width = (k + 1) // 2 + 1
         r0 = np.zeros((b, width))
         r1 = np.zeros((b, width))
