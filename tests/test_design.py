@@ -20,7 +20,8 @@ from numpy.testing import assert_allclose
 from bandsmith.design.candidate import Candidate, Conditions
 from bandsmith.circuits import get_topology, topology_ids
 from bandsmith.design.compare import compare, compare_json, needs_inductor, part_count
-from bandsmith.design.designer import DesignResult, design, design_json, weighted_error
+from bandsmith.design.designer import DesignResult, design, design_json
+from bandsmith.design.standard import weighted_error
 from bandsmith.files.design_session import design_session
 from bandsmith.common.errors import InputError
 from bandsmith.circuits.synthesis import Infeasible, Spec, hurwitz_stable, search_grid

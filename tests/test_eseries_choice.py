@@ -17,7 +17,8 @@ from numpy.testing import assert_allclose
 from bandsmith.analysis.analyzer import Tolerances
 from bandsmith.design.candidate import Candidate, Conditions
 from bandsmith.circuits import get_topology
-from bandsmith.design.designer import _options, choose_standard, design, errors_of, part_series_of, weighted_error
+from bandsmith.design.designer import design
+from bandsmith.design.standard import _options, choose_standard, errors_of, part_series_of, weighted_error
 from bandsmith.common.eseries import candidates, in_series, nearest
 from bandsmith.circuits.synthesis import Spec
 

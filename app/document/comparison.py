@@ -33,7 +33,8 @@ from bandsmith.analysis.analyzer import Analysis
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.design.compare import needs_inductor, part_count
-from bandsmith.design.designer import DesignResult, Spec, design, errors_of, spread_of
+from bandsmith.design.designer import DesignResult, Spec, design, spread_of
+from bandsmith.design.standard import errors_of
 from bandsmith.files.session import CandidateEntry, Session
 from bandsmith.verdict import Verdict, VerdictLimits, judge, rank
 

@@ -24,7 +24,8 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.cautions import cautions_html
 from bandsmith.common.values import format_rkm, format_value
 from bandsmith.analysis.figures import Figures
-from bandsmith.design.designer import Spec, errors_of
+from bandsmith.design.designer import Spec
+from bandsmith.design.standard import errors_of
 from bandsmith.files.session import Session
 
 from bandsmith.app.report.cells import gbw_cell, html_table, paragraphs, png_img, sensitivity_text, signed, slew_text, smallest_series
@@ -51,7 +52,7 @@ _PLOT_CAPTIONS = {
 
 
 def _target_errors(fig: Figures, session: Session) -> dict[str, float]:
-    """Deviation from the target (bandsmith.design.designer.errors_of): f0 and Q in %, gain in dB."""
+    """Deviation from the target (bandsmith.design.standard.errors_of): f0 and Q in %, gain in dB."""
     t = session.target
     return errors_of(fig, Spec(t.f0_hz, t.q, t.gain))
 

@@ -124,7 +124,7 @@ class Attempt:
     ``reason`` says why a feasible design is still not usable (no GBW is enough, or the spread
     is not sane); ``errors`` are the chosen parts' ``f0_pct``, ``q_pct``, ``gain_db`` against the
     stage's target, ``within`` whether they lie inside the tolerances, ``weighted`` their
-    tolerance-weighted size (:func:`bandsmith.design.designer.weighted_error`).
+    tolerance-weighted size (:func:`bandsmith.design.standard.weighted_error`).
     """
 
     topology_id: str
@@ -291,7 +291,8 @@ def _design(topology_id: str, plan: SectionPlan, series: str, conditions: Condit
 
 
 def _attempt(topology_id: str, plan: SectionPlan, series: str, conditions: Conditions):
-    from bandsmith.design.designer import spread_of, weighted_error
+    from bandsmith.design.designer import spread_of
+    from bandsmith.design.standard import weighted_error
 
     try:
         res = _design(topology_id, plan, series, conditions)
@@ -482,7 +483,8 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
     Each stage is analysed as :func:`design_cascade` would (its drive and its stage tolerances);
     its errors are against the stage's planned target.
     """
-    from bandsmith.design.designer import DesignResult, Spec, errors_of, spread_of, weighted_error
+    from bandsmith.design.designer import DesignResult, Spec, spread_of
+    from bandsmith.design.standard import errors_of, weighted_error
 
     settings = chain.settings
     plan = plan_cascade(settings.prototype(), settings.band, settings.gain)

@@ -16,7 +16,7 @@
   buildable or marginal one exists for that stage. Within one verdict: the sane ones (a finite
   required GBW and a sane spread) before the others; among ``not buildable`` ones the fewer
   reasons of that weight; then the nearest fit (the least tolerance-weighted figure error,
-  :func:`bandsmith.design.designer.weighted_error`, in steps of ``FIT_STEP``); then :func:`bandsmith.verdict.rank`'s order
+  :func:`bandsmith.design.standard.weighted_error`, in steps of ``FIT_STEP``); then :func:`bandsmith.verdict.rank`'s order
   (its figure of merit). The nearest fit comes before the figure of merit because in a chain the
   stages' small misses add up. Measured on eleven standard-part chains (E24 and E96,
   Butterworth, Chebyshev and Bessel, orders 2 to 8): with rank's order alone, two of them moved

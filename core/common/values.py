@@ -23,7 +23,6 @@ import numbers
 import re
 
 from bandsmith.common.errors import InputError
-from bandsmith.common.units import PART_UNITS
 
 __all__ = [
     "parse_value",
@@ -34,7 +33,6 @@ __all__ = [
     "format_value",
     "format_rkm",
     "UNPREFIXED_UNITS",
-    "KIND_UNITS",
 ]
 
 _HINT = "try 4k7, 4700 or 4.7e3"
@@ -83,7 +81,6 @@ _FRACTION_RE = re.compile(
 )
 _NON_FINITE = {"nan", "inf", "infinity"}
 # The unit a part kind is written in (bandsmith.common.units); a value given with another unit is refused.
-KIND_UNITS = PART_UNITS
 _UNIT_NAMES = {"Ω": "ohm", "F": "farad", "H": "henry", "Hz": "hertz", "V": "volt", "A": "ampere", "s": "second"}
 
 
@@ -144,7 +141,7 @@ def parse_value(text: str | float | int, *, field: str, unit: str | None = None)
     field : str
         Name of the field the value came from, used in the error message (e.g. ``"R1"``).
     unit : str, optional
-        The unit the field is in (``"Ω"``, ``"F"``, ``"H"``, ``"Hz"``, ...; see :data:`KIND_UNITS`
+        The unit the field is in (``"Ω"``, ``"F"``, ``"H"``, ``"Hz"``, ...; see :data:`bandsmith.common.units.PART_UNITS`
         for parts). A value written with another unit (``"10nF"`` for a resistor, ``"1MEGA"``,
         one megaampere, for a capacitor) is refused; without ``unit`` any unit is read and ignored.
         The examples of an error message fit it too (:func:`value_hint`).

@@ -16,7 +16,8 @@ from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import OpAmpModel
 from bandsmith.solver.netlist import Netlist
 from bandsmith.circuits.topology import Topology
-from bandsmith.common.values import parse_value, KIND_UNITS
+from bandsmith.common.units import PART_UNITS
+from bandsmith.common.values import parse_value
 from bandsmith.common.limits import VIN_RANGE_V, check_part_value, check_range
 
 __all__ = ["Conditions", "Candidate", "parse_parts", "analysis_json"]
@@ -163,7 +164,7 @@ def parse_parts(topology: Topology, assignments: Mapping[str, str | float]) -> d
     out = {}
     for ref, text in assignments.items():
         topology.component(ref)
-        out[ref] = parse_value(text, field=ref, unit=KIND_UNITS.get(topology.component(ref).kind))
+        out[ref] = parse_value(text, field=ref, unit=PART_UNITS.get(topology.component(ref).kind))
     return topology.values_from(out)
 
 

@@ -28,24 +28,18 @@ from bandsmith.analysis.inductor import inductor_q_needed, inductor_q_warning
 from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
-from bandsmith.common.values import KIND_UNITS, format_value, parse_value
-from bandsmith.design.standard import Choice, _options, choose_standard, errors_of, part_series_of, weighted_error  # noqa: F401 (re-exported)
+from bandsmith.common.values import format_value, parse_value
+from bandsmith.design.standard import Choice, choose_standard, errors_of
 
 __all__ = [
     "Spec",
     "DesignResult",
-    "Choice",
     "design",
     "design_json",
-    "errors_of",
-    "weighted_error",
-    "choose_standard",
     "spread_of",
     "parse_fixed",
-    "part_series_of",
 ]
 
-UNITS = PART_UNITS  # kept under its old name
 _KIND_NAMES = {"R": "resistor", "C": "capacitor", "L": "inductor"}
 # Warn when the tolerance needed on every part to hold Q within its tolerance falls below this.
 _TIGHT_PARTS = 0.005
@@ -114,7 +108,7 @@ def parse_fixed(topology: Topology, fixed: Mapping[str, float | str] | None) -> 
     out = {}
     for ref, v in (fixed or {}).items():
         comp = topology.component(ref)
-        x = parse_value(v, field=ref, unit=KIND_UNITS.get(comp.kind))
+        x = parse_value(v, field=ref, unit=PART_UNITS.get(comp.kind))
         if not math.isfinite(x):
             raise InputError(ref, f"{x!r} is not a finite number")
         if comp.required and x <= 0:
@@ -149,8 +143,8 @@ def _limits(topology: Topology, values: Mapping[str, float]) -> str | None:
         if not (lo <= v <= hi):
             word = "above" if v > hi else "below"
             return (
-                f"{c.ref} would be {format_value(v, UNITS[c.kind])}, {word} any {_KIND_NAMES[c.kind]} made "
-                f"({format_value(lo, UNITS[c.kind])} to {format_value(hi, UNITS[c.kind])}); this target is out of this circuit's reach"
+                f"{c.ref} would be {format_value(v, PART_UNITS[c.kind])}, {word} any {_KIND_NAMES[c.kind]} made "
+                f"({format_value(lo, PART_UNITS[c.kind])} to {format_value(hi, PART_UNITS[c.kind])}); this target is out of this circuit's reach"
             )
     return None
 
@@ -163,7 +157,7 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
             continue
         lo, hi = PRACTICAL[c.kind]
         if v > hi or v < lo:
-            unit = UNITS[c.kind]
+            unit = PART_UNITS[c.kind]
             if c.kind == "L":
                 what = "larger than most catalogue inductors" if v > hi else "smaller than most catalogue inductors"
             elif c.kind == "C":

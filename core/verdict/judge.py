@@ -44,7 +44,8 @@ from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
 from bandsmith.design.compare import needs_inductor, part_count
-from bandsmith.design.designer import DesignResult, errors_of, spread_of
+from bandsmith.design.designer import DesignResult, spread_of
+from bandsmith.design.standard import errors_of
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield, part_tolerances_of
 
