@@ -24,7 +24,8 @@ from bandsmith.design.designer import DesignResult, design, design_json
 from bandsmith.design.standard import weighted_error
 from bandsmith.files.design_session import design_session
 from bandsmith.common.errors import InputError
-from bandsmith.circuits.synthesis import Infeasible, Spec, hurwitz_stable, search_grid
+from bandsmith.circuits.synthesis import Infeasible, Spec, search_grid
+from bandsmith.solver.stability import hurwitz_stable
 
 REL = 1e-9  # the round-trip bound of the issue
 

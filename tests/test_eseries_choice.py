@@ -134,7 +134,7 @@ def test_search_never_worse_than_rounding_each_part_alone():
             cand = Candidate(tid, rounded_alone(r))
             a = cand.analyze()
             w_round = weighted_error(errors_of(a.ideal, spec), tol) if bool(a.ideal.valid[0]) else math.inf
-            from bandsmith.circuits.synthesis import hurwitz_stable
+            from bandsmith.solver.stability import hurwitz_stable
 
             if not bool(hurwitz_stable(a.h_ideal.den)[0]):
                 w_round = math.inf

@@ -3,8 +3,7 @@
 Each circuit module's ``synthesize(spec, fixed)`` returns an :class:`Exact` (a dict of exact part
 values, with notes saying what was chosen) or raises :class:`Infeasible` with a reason in plain
 words. The helpers here choose an impedance level by common practice, solve for the parts left
-free when some are pinned and refine a design on its measured response; telling stable from
-unstable denominators is :func:`bandsmith.solver.stability.hurwitz_stable`, re-exported here.
+free when some are pinned and refine a design on its measured response.
 """
 
 from __future__ import annotations
@@ -20,7 +19,6 @@ import numpy as np
 from bandsmith.common.errors import InputError
 from bandsmith.common.limits import TARGET_RANGES, check_range
 from bandsmith.common.eseries import nearest_array, values_between
-from bandsmith.solver.stability import hurwitz_stable
 
 __all__ = [
     "Spec",
@@ -33,7 +31,6 @@ __all__ = [
     "choose_level",
     "solve_pinned",
     "search_grid",
-    "hurwitz_stable",
     "refine_measured",
 ]
 
