@@ -32,7 +32,6 @@ from bandsmith.app.document.results import CandidateResult, ResultCache
 __all__ = ["Document", "entry_kind", "target_from_bandwidth"]
 
 
-
 class Document:
     """The session document and everything derived from it.
 

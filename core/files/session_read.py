@@ -54,14 +54,22 @@ class _Reader:
             raise self.wrong(where, "an object", v)
         return v
 
-    def number(self, parent: dict, key: str, where: str, *, default: Any = ..., nullable: bool = False) -> float | None:
+    def _entry(self, parent: dict, key: str, where: str, default: Any, nullable: bool) -> tuple[bool, Any]:
+        """``(True, value)`` when the entry is settled without a type check (missing with a
+        default, or null where null is allowed); ``(False, raw value)`` otherwise."""
         if key not in parent:
             if default is ...:
                 raise self.fail("wrong-type", f"lacks a required entry: {where}")
-            return default
+            return True, default
         v = parent[key]
         if v is None and nullable:
-            return None
+            return True, None
+        return False, v
+
+    def number(self, parent: dict, key: str, where: str, *, default: Any = ..., nullable: bool = False) -> float | None:
+        settled, v = self._entry(parent, key, where, default, nullable)
+        if settled:
+            return v
         if isinstance(v, bool) or not isinstance(v, (int, float)):
             raise self.wrong(where, "a number" + (" or null" if nullable else ""), v)
         v = float(v)
@@ -76,13 +84,9 @@ class _Reader:
         return v
 
     def text(self, parent: dict, key: str, where: str, *, default: Any = ..., nullable: bool = False) -> str | None:
-        if key not in parent:
-            if default is ...:
-                raise self.fail("wrong-type", f"lacks a required entry: {where}")
-            return default
-        v = parent[key]
-        if v is None and nullable:
-            return None
+        settled, v = self._entry(parent, key, where, default, nullable)
+        if settled:
+            return v
         if not isinstance(v, str):
             raise self.wrong(where, "text" + (" or null" if nullable else ""), v)
         return v

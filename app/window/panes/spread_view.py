@@ -251,48 +251,6 @@ class SpreadResults(QtWidgets.QWidget):
         self.worst_note.setText(note)
         fit_height(self.corners)
 
-    def _fill_stats(self, sp: Spread) -> None:
-        nom = sp.nominal.item()
-        for j, (key, _title, _unit) in enumerate(HISTOGRAM_FIGURES):
-            st = sp.stats(key)
-            lo, hi = getattr(sp.worst, key)
-            vals = [float(getattr(nom, key)), st["mean"], st["std"], st["min"], st["p5"], st["p50"], st["p95"], st["max"], lo, hi]
-            for i, v in enumerate(vals):
-                text = _fmt_spread(key, v) if self._stat_rows[i] == "std" else _fmt_figure(key, v)
-                self.stats.setItem(i, j, table_item(text, bold=self._stat_rows[i].startswith("worst"), colour=BAD if self._stat_rows[i].startswith("worst") else None))
-
-    def _fill_corners(self, sp: Spread) -> None:
-        wc = sp.worst
-        self.worst_title.setText(
-            f"Worst case: {wc.method}" + (f" ({wc.corner_count})" if wc.corner_count else "") + " of the tolerance box"
-        )
-        names = []
-        for key in ("f0_hz", "q", "gain_center_db"):
-            for corner in wc.corners.get(key, ({}, {})):
-                for n in corner:
-                    if n not in names:
-                        names.append(n)
-        self.corners.setRowCount(len(names))
-        self.corners.setVerticalHeaderLabels(["GBW" if n == "gbw" else n for n in names])
-        col = 0
-        for key in ("f0_hz", "q", "gain_center_db"):
-            lo_hi = wc.corners.get(key, ({}, {}))
-            ext = getattr(wc, key)
-            for side in (0, 1):
-                corner = lo_hi[side]
-                head = self.corners.horizontalHeaderItem(col)
-                head.setToolTip(f"{'lowest' if side == 0 else 'highest'} {key.split('_')[0]}: {_fmt_figure(key, ext[side])}")
-                for r, n in enumerate(names):
-                    d = corner.get(n)
-                    text = "" if d is None else (f"+{percent_text(d)}" if d > 0 else f"−{percent_text(-d)}")
-                    self.corners.setItem(r, col, table_item(text, colour=BAD if d is not None and d < 0 else None))
-                col += 1
-        note = "Each column is one corner: the deviation of every part that gives that extreme (the extremes are the statistics' worst-case rows)."
-        if wc.unstable_corners:
-            note += f" {wc.unstable_corners} corner{'s are' if wc.unstable_corners > 1 else ' is'} unstable or without a peak."
-        self.worst_note.setText(note)
-        fit_height(self.corners)
-
     def _reflow_histograms(self, columns: int) -> None:
         if columns == self._hist_columns:
             return
