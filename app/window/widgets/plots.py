@@ -138,6 +138,7 @@ class CandidatePlot(pg.PlotWidget):
                 self.getPlotItem().removeItem(item)
         shown = getattr(self, "_shown", {})
         self._shown = {}
+        self._updated: set[str] = set()  # the candidates redrawn by this call
         for cid, res in results.items():
             if not res.ok:
                 continue
@@ -147,6 +148,7 @@ class CandidatePlot(pg.PlotWidget):
                 self._shown[cid] = shown[cid]  # unchanged result and style: the curve stays as it is
                 continue
             self._shown[cid] = (res, pen_key)
+            self._updated.add(cid)
             data = self.curve_data(res)
             if data is None:
                 continue
@@ -478,6 +480,8 @@ class PoleZeroPlot(CandidatePlot):
             if cid not in self.curves:
                 self.getPlotItem().removeItem(self.zero_items.pop(cid))
         for cid, item in self.curves.items():
+            if cid not in self._updated:  # the same result and style: its markers stay as they are
+                continue
             res = self.state.results[cid]
             item.setPen(pg.mkPen(self.state.style(cid).colour, width=1.5))
             self.zero_items[cid].setData(res.zeros_hz.real, res.zeros_hz.imag)
@@ -488,20 +492,34 @@ class PoleZeroPlot(CandidatePlot):
         # Coincident poles (or zeros), of one candidate or of several, draw on top of each other:
         # a "×n" beside them says how many there are.
         item = self.getPlotItem()
-        for label in getattr(self, "multiplicity_labels", []):
-            item.removeItem(label)
-        self.multiplicity_labels = []
         results = [self.state.results[cid] for cid in self.curves]
-        for points in (
-            np.concatenate([np.asarray(r.poles_hz).ravel() for r in results] or [np.zeros(0, complex)]),
-            np.concatenate([np.asarray(r.zeros_hz).ravel() for r in results] or [np.zeros(0, complex)]),
-        ):
-            for p, n in coincident(points, rel=OVERLAP):
+        groups = [
+            group
+            for points in (
+                np.concatenate([np.asarray(r.poles_hz).ravel() for r in results] or [np.zeros(0, complex)]),
+                np.concatenate([np.asarray(r.zeros_hz).ravel() for r in results] or [np.zeros(0, complex)]),
+            )
+            for group in coincident(points, rel=OVERLAP)
+        ]
+        labels = getattr(self, "multiplicity_labels", [])
+        # The labels already there are moved and retitled (an edit rarely changes how many
+        # there are); only the missing ones are made, only the extra ones removed.
+        for label in labels[len(groups):]:
+            item.removeItem(label)
+        labels = labels[: len(groups)]
+        for k, (p, n) in enumerate(groups):
+            if k < len(labels):
+                label = labels[k]
+                if label.textItem.toPlainText() != f"×{n}":
+                    label.setText(f"×{n}")
+            else:
                 label = pg.TextItem(f"×{n}", color=INK, anchor=(-0.2, 1.0))
                 label.setFont(QtGui.QFont(self.font().family(), 8, QtGui.QFont.Weight.Bold))
-                label.setPos(p.real, p.imag)
                 item.addItem(label, ignoreBounds=True)
-                self.multiplicity_labels.append(label)
+                labels.append(label)
+            if (label.pos().x(), label.pos().y()) != (p.real, p.imag):
+                label.setPos(p.real, p.imag)
+        self.multiplicity_labels = labels
 
     def far_text(self) -> str:
         """The note on the poles and zeros outside the current view ("" when there are none)."""
