@@ -263,6 +263,8 @@ class MagnitudePlot(CandidatePlot):
             if cid not in self.curves:
                 item.removeItem(self.markers.pop(cid))
         for cid in self.curves:
+            if cid in self.markers and cid not in getattr(self, "_updated", self.curves):
+                continue  # the same result and style: its markers stay as they are
             fig = self.state.results[cid].figures
             xs, ys, symbols = [], [], []
             if fig is not None and math.isfinite(fig.gain_center_db):
@@ -468,6 +470,9 @@ class PoleZeroPlot(CandidatePlot):
         self.getPlotItem().addItem(item)
         zeros = pg.ScatterPlotItem(size=10, pen=pg.mkPen(st.colour, width=1.8), brush=pg.mkBrush(None), symbol="o")
         self.getPlotItem().addItem(zeros)
+        # Blitted from a pixmap while unchanged, as the curves are: an edit redraws one candidate's markers.
+        for scatter in (item, zeros):
+            scatter.setCacheMode(QtWidgets.QGraphicsItem.CacheMode.DeviceCoordinateCache)
         self.zero_items[cid] = zeros
         return item
 
