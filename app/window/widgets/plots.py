@@ -278,6 +278,7 @@ class MagnitudePlot(CandidatePlot):
                 marks = self.markers[cid] = pg.ScatterPlotItem(size=9)
                 marks.setObjectName(f"markers_{cid}")
                 marks.setZValue(5)
+                marks.setCacheMode(QtWidgets.QGraphicsItem.CacheMode.DeviceCoordinateCache)  # blitted while unchanged
                 item.addItem(marks, ignoreBounds=True)
             colour = self.state.style(cid).colour
             marks.setData(xs, ys, symbol=symbols, pen=pg.mkPen(colour, width=2.0), brush=pg.mkBrush(colour))
