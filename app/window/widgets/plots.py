@@ -422,9 +422,18 @@ class GbwErrorPlot(CandidatePlot):
     def _update_extras(self):
         gbw = self.state.session.opamp.gbw_hz
         self.opamp_line.setVisible(gbw is not None)
-        if gbw is not None:
+        if gbw is not None and gbw != getattr(self, "_shown_gbw", None):  # a part edit leaves the line alone
+            self._shown_gbw = gbw
             self.opamp_line.setValue(math.log10(gbw))
             self.opamp_line.label.setFormat(f"op-amp {_short(gbw, 'Hz')}")
+        needs = [
+            (cid, res.analysis.requirements.gbw_hz, self.state.style(cid).colour)
+            for cid, res in self.state.results.items()
+            if res.ok and res.analysis.requirements.gbw_hz is not None
+        ]
+        if needs == getattr(self, "_shown_needs", None):
+            return  # the same needs in the same colours: the markers stay as they are
+        self._shown_needs = needs
         spots = []
         for cid, res in self.state.results.items():
             if res.ok and res.analysis.requirements.gbw_hz is not None:
