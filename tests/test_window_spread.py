@@ -224,6 +224,8 @@ def test_settings_survive_save_and_reopen(qtbot, window, tmp_path):
     qtbot.addWidget(w2)
     assert w2.open_path(path)
     p2 = w2.spread_pane
+    w2.show()
+    w2.panes.setCurrentWidget(p2)  # a hidden pane refills its fields when it is shown
     assert p2.fields["L"].edit.text() == "2 %"
     assert p2.settings == SpreadSettings(tolerances={"L": 0.02, "C": 0.01})
 

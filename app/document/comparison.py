@@ -51,9 +51,15 @@ __all__ = [
     "judge_session",
     "ComparisonCache",
     "comparison_of",
+    "cache_of",
+    "NOTES_PENDING",
 ]
 
 LIMITS_KEY = "verdict_limits"
+
+#: A candidate's design notes while they are deferred (:attr:`ComparisonCache.defer_notes`): working
+#: them out runs the circuit's design procedure, which the window's start leaves for after it shows.
+NOTES_PENDING = ("working out the design notes…",)
 
 
 def stored_limits(session: Session) -> Stored:
@@ -214,6 +220,9 @@ class ComparisonCache:
         self._verdicts: OrderedDict[tuple, Verdict] = OrderedDict()
         self._notes: OrderedDict[tuple, tuple[str, ...]] = OrderedDict()
         self._last: tuple[Session, SessionComparison] | None = None
+        #: While True, notes not yet worked out read :data:`NOTES_PENDING` (see :meth:`fill_notes`).
+        self.defer_notes = False
+        self._pending: list[tuple[Session, CandidateEntry]] = []
 
     def _keep(self, store: OrderedDict, key, make):
         hit = store.get(key)
@@ -239,7 +248,18 @@ class ComparisonCache:
 
     def notes(self, session: Session, entry: CandidateEntry) -> tuple[str, ...]:
         key = (entry.topology_id, _spec(session), tuple((r, entry.values[r]) for r in entry.fixed), session.conditions_for(entry))
+        if self.defer_notes and key not in self._notes:
+            self._pending.append((session, entry))
+            return NOTES_PENDING
         return self._keep(self._notes, key, lambda: design_notes(session, entry))
+
+    def fill_notes(self) -> bool:
+        """Stop deferring the notes; True when some were pending (the next comparison has them)."""
+        self.defer_notes = False
+        pending, self._pending = self._pending, []
+        if pending:
+            self._last = None  # the last comparison holds NOTES_PENDING: judge again (verdicts are cached)
+        return bool(pending)
 
     def comparison(self, session: Session, analysis_of: AnalysisOf) -> SessionComparison:
         """The comparison of ``session`` (the last one again while the session is the same)."""
@@ -286,6 +306,14 @@ def judge_session(session: Session, analysis_of: AnalysisOf, *, cache: Compariso
 
 
 _PER_DOCUMENT: "weakref.WeakKeyDictionary[object, ComparisonCache]" = weakref.WeakKeyDictionary()
+
+
+def cache_of(document) -> ComparisonCache:
+    """The :class:`ComparisonCache` of a document (made on first use)."""
+    cache = _PER_DOCUMENT.get(document)
+    if cache is None:
+        cache = _PER_DOCUMENT[document] = ComparisonCache()
+    return cache
 
 
 def comparison_of(document) -> SessionComparison:

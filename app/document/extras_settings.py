@@ -21,7 +21,6 @@ from dataclasses import dataclass, replace
 from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.analysis.noise import NoiseSettings
 from bandsmith.files.session import Session
 from bandsmith.spread.tolerance import KINDS, SpreadSettings
 
@@ -66,6 +65,8 @@ def stored_spread(session: Session) -> Stored:
 
 def stored_noise(session: Session) -> Stored:
     """The session's :class:`NoiseSettings` (``extras["noise"]``), or the defaults."""
+    from bandsmith.analysis.noise import NoiseSettings  # imported when asked: it pulls in scipy.constants
+
     return _stored(session, NOISE_KEY, NoiseSettings)
 
 

@@ -624,9 +624,22 @@ class SpreadPane(QtWidgets.QScrollArea):
         for cid in list(self.runs):
             if cid not in ids:
                 del self.runs[cid]
+        if not self.isVisible():
+            # Hidden (another tab is shown): refill the settings and results when next shown;
+            # only the envelope on the magnitude plot must follow now (off once it is stale).
+            self._refill_when_shown = True
+            if self._envelope_of is not None:
+                self._update_envelope()
+            return
+        self._refill_when_shown = False
         self.error.hide()
         self._fill_settings()
         self._show_result()
+
+    def showEvent(self, event) -> None:  # noqa: N802 - Qt's name
+        super().showEvent(event)
+        if getattr(self, "_refill_when_shown", False):
+            self._on_session_changed(self.state.session)
 
     def _show_result(self) -> None:
         run = self.current_run()

@@ -269,8 +269,11 @@ class CandidateColumn(QtWidgets.QFrame):
         self.snap.setCurrentIndex(max(0, self.snap.findData(entry.snap)))
         for ref, f in self.fields.items():
             f.set_value(entry.values[ref])
-            f.edit.setToolTip(f.edit.toolTip().split("\nNow: ")[0] + f"\nNow: {entry.values[ref]:.6g} {f.unit}")
-            self.keeps[ref].setChecked(ref in entry.fixed)
+            tip = f.edit.toolTip().split("\nNow: ")[0] + f"\nNow: {entry.values[ref]:.6g} {f.unit}"
+            if tip != f.edit.toolTip():
+                f.edit.setToolTip(tip)
+            if self.keeps[ref].isChecked() != (ref in entry.fixed):
+                self.keeps[ref].setChecked(ref in entry.fixed)
         if self.property("enabledCandidate") != entry.enabled:  # re-polish (restyle) only on a change
             self.setProperty("enabledCandidate", entry.enabled)
             self._repolish()

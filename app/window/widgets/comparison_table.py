@@ -188,8 +188,9 @@ class ComparisonTable(QtWidgets.QWidget):
         text = f'<span style="color:{colour}; font-weight:600">{lead}</span>{reason} <span style="color:{MUTED}">({with_what})</span>'
         if comp.problem:
             text += f'<br/><span style="color:{WARN}">⚠ {comp.problem}</span>'
-        self.summary.setText(text)
-        self.summary.setToolTip(comp.reason)
+        if text != self.summary.text():  # unchanged: no relayout
+            self.summary.setText(text)
+            self.summary.setToolTip(comp.reason)
 
     def _item(self, text: str, *, tip: str = "", colour: str | None = None, bold: bool = False, right: bool = True) -> QtWidgets.QTableWidgetItem:
         item = QtWidgets.QTableWidgetItem(text)
@@ -207,6 +208,17 @@ class ComparisonTable(QtWidgets.QWidget):
 
     def _fill_row(self, i: int, row: CandidateJudgement) -> bool:
         """Show ``row`` in table row ``i``; True when a cell changed."""
+        shown = getattr(self, "_shown_rows", None)
+        if shown is None:
+            shown = self._shown_rows = {}
+        key = (row.id, self.state.style(row.id), row.id == self.state.current_id)
+        try:
+            same = shown.get(i, (None, None))[0] == key and bool(shown[i][1] == row) and self.table.item(i, 0) is not None
+        except (TypeError, ValueError):  # a row that cannot be compared counts as changed
+            same = False
+        if same:
+            return False  # the row judged as it was shown (an edit of another candidate)
+        shown[i] = (key, row)
         v = row.verdict
         reasons = "\n".join(f"• {r.text}" for r in v.reasons) if v is not None else ""
         tip = f"{row.id}: {v.verdict}" + (f"\n{reasons}" if reasons else "") if v is not None else f"{row.id}: switched off, not judged"

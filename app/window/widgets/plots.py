@@ -138,6 +138,7 @@ class CandidatePlot(pg.PlotWidget):
                 self.getPlotItem().removeItem(item)
         shown = getattr(self, "_shown", {})
         self._shown = {}
+        self._updated: set[str] = set()  # the candidates redrawn by this call
         for cid, res in results.items():
             if not res.ok:
                 continue
@@ -147,6 +148,7 @@ class CandidatePlot(pg.PlotWidget):
                 self._shown[cid] = shown[cid]  # unchanged result and style: the curve stays as it is
                 continue
             self._shown[cid] = (res, pen_key)
+            self._updated.add(cid)
             data = self.curve_data(res)
             if data is None:
                 continue
@@ -261,6 +263,8 @@ class MagnitudePlot(CandidatePlot):
             if cid not in self.curves:
                 item.removeItem(self.markers.pop(cid))
         for cid in self.curves:
+            if cid in self.markers and cid not in getattr(self, "_updated", self.curves):
+                continue  # the same result and style: its markers stay as they are
             fig = self.state.results[cid].figures
             xs, ys, symbols = [], [], []
             if fig is not None and math.isfinite(fig.gain_center_db):
@@ -274,6 +278,7 @@ class MagnitudePlot(CandidatePlot):
                 marks = self.markers[cid] = pg.ScatterPlotItem(size=9)
                 marks.setObjectName(f"markers_{cid}")
                 marks.setZValue(5)
+                marks.setCacheMode(QtWidgets.QGraphicsItem.CacheMode.DeviceCoordinateCache)  # blitted while unchanged
                 item.addItem(marks, ignoreBounds=True)
             colour = self.state.style(cid).colour
             marks.setData(xs, ys, symbol=symbols, pen=pg.mkPen(colour, width=2.0), brush=pg.mkBrush(colour))
@@ -417,9 +422,18 @@ class GbwErrorPlot(CandidatePlot):
     def _update_extras(self):
         gbw = self.state.session.opamp.gbw_hz
         self.opamp_line.setVisible(gbw is not None)
-        if gbw is not None:
+        if gbw is not None and gbw != getattr(self, "_shown_gbw", None):  # a part edit leaves the line alone
+            self._shown_gbw = gbw
             self.opamp_line.setValue(math.log10(gbw))
             self.opamp_line.label.setFormat(f"op-amp {_short(gbw, 'Hz')}")
+        needs = [
+            (cid, res.analysis.requirements.gbw_hz, self.state.style(cid).colour)
+            for cid, res in self.state.results.items()
+            if res.ok and res.analysis.requirements.gbw_hz is not None
+        ]
+        if needs == getattr(self, "_shown_needs", None):
+            return  # the same needs in the same colours: the markers stay as they are
+        self._shown_needs = needs
         spots = []
         for cid, res in self.state.results.items():
             if res.ok and res.analysis.requirements.gbw_hz is not None:
@@ -466,6 +480,9 @@ class PoleZeroPlot(CandidatePlot):
         self.getPlotItem().addItem(item)
         zeros = pg.ScatterPlotItem(size=10, pen=pg.mkPen(st.colour, width=1.8), brush=pg.mkBrush(None), symbol="o")
         self.getPlotItem().addItem(zeros)
+        # Blitted from a pixmap while unchanged, as the curves are: an edit redraws one candidate's markers.
+        for scatter in (item, zeros):
+            scatter.setCacheMode(QtWidgets.QGraphicsItem.CacheMode.DeviceCoordinateCache)
         self.zero_items[cid] = zeros
         return item
 
@@ -478,6 +495,8 @@ class PoleZeroPlot(CandidatePlot):
             if cid not in self.curves:
                 self.getPlotItem().removeItem(self.zero_items.pop(cid))
         for cid, item in self.curves.items():
+            if cid not in self._updated:  # the same result and style: its markers stay as they are
+                continue
             res = self.state.results[cid]
             item.setPen(pg.mkPen(self.state.style(cid).colour, width=1.5))
             self.zero_items[cid].setData(res.zeros_hz.real, res.zeros_hz.imag)
@@ -488,20 +507,34 @@ class PoleZeroPlot(CandidatePlot):
         # Coincident poles (or zeros), of one candidate or of several, draw on top of each other:
         # a "×n" beside them says how many there are.
         item = self.getPlotItem()
-        for label in getattr(self, "multiplicity_labels", []):
-            item.removeItem(label)
-        self.multiplicity_labels = []
         results = [self.state.results[cid] for cid in self.curves]
-        for points in (
-            np.concatenate([np.asarray(r.poles_hz).ravel() for r in results] or [np.zeros(0, complex)]),
-            np.concatenate([np.asarray(r.zeros_hz).ravel() for r in results] or [np.zeros(0, complex)]),
-        ):
-            for p, n in coincident(points, rel=OVERLAP):
+        groups = [
+            group
+            for points in (
+                np.concatenate([np.asarray(r.poles_hz).ravel() for r in results] or [np.zeros(0, complex)]),
+                np.concatenate([np.asarray(r.zeros_hz).ravel() for r in results] or [np.zeros(0, complex)]),
+            )
+            for group in coincident(points, rel=OVERLAP)
+        ]
+        labels = getattr(self, "multiplicity_labels", [])
+        # The labels already there are moved and retitled (an edit rarely changes how many
+        # there are); only the missing ones are made, only the extra ones removed.
+        for label in labels[len(groups):]:
+            item.removeItem(label)
+        labels = labels[: len(groups)]
+        for k, (p, n) in enumerate(groups):
+            if k < len(labels):
+                label = labels[k]
+                if label.textItem.toPlainText() != f"×{n}":
+                    label.setText(f"×{n}")
+            else:
                 label = pg.TextItem(f"×{n}", color=INK, anchor=(-0.2, 1.0))
                 label.setFont(QtGui.QFont(self.font().family(), 8, QtGui.QFont.Weight.Bold))
-                label.setPos(p.real, p.imag)
                 item.addItem(label, ignoreBounds=True)
-                self.multiplicity_labels.append(label)
+                labels.append(label)
+            if (label.pos().x(), label.pos().y()) != (p.real, p.imag):
+                label.setPos(p.real, p.imag)
+        self.multiplicity_labels = labels
 
     def far_text(self) -> str:
         """The note on the poles and zeros outside the current view ("" when there are none)."""

@@ -77,8 +77,9 @@ class ValueField(QtWidgets.QWidget):
     def set_value(self, value: float | None) -> None:
         """Show ``value`` (from the state); clears any error. Emits nothing."""
         self._value = value
-        self.edit.setText(self._fmt(value))
-        self.edit.setToolTip(self.edit.toolTip())
+        text = self._fmt(value)
+        if self.edit.text() != text:  # an unchanged field is not touched (no relayout, no repaint)
+            self.edit.setText(text)
         self._show_error(None)
 
     @property
@@ -113,6 +114,8 @@ class ValueField(QtWidgets.QWidget):
         return super().eventFilter(obj, event)
 
     def _show_error(self, reason: str | None) -> None:
+        if not reason and not self.error.text() and not self.edit.property("invalid"):
+            return  # no error shown, none to show: restyling would only cost a relayout
         self.error.setText(reason or "")
         self.error.setVisible(bool(reason))
         self.edit.setProperty("invalid", bool(reason))

@@ -129,6 +129,10 @@ class VerdictStrip(QtWidgets.QWidget):
         self.status = QtWidgets.QLabel(self)
         self.status.setObjectName("verdictStatus")
         self.status.setStyleSheet(f"color: {MUTED};")
+        # As wide as its longest text, always: "updating…" coming and going after each edit then
+        # moves nothing (a label of fixed size asks for no relayout of the column).
+        fm = self.status.fontMetrics()
+        self.status.setFixedSize(max(fm.horizontalAdvance(t) for t in ("checking…", "updating…")) + 4, fm.height())
         head.addWidget(title)
         head.addStretch(1)
         head.addWidget(self.status)
@@ -205,7 +209,9 @@ class VerdictStrip(QtWidgets.QWidget):
         self.show()
 
     def _show_status(self, report, current: bool) -> None:
-        self.status.setText("" if current else "checking…" if report is None else "updating…")
+        text = "" if current else "checking…" if report is None else "updating…"
+        if text != self.status.text():
+            self.status.setText(text)
 
     def _show_headroom(self, chosen: str | None, report) -> None:
         v = None
