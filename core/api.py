@@ -17,7 +17,7 @@ table. The work itself is in the layers below.
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Any, Iterator, Mapping, Sequence
 
 from bandsmith.common.errors import InputError
@@ -25,11 +25,14 @@ from bandsmith.common.limits import one_line
 
 if TYPE_CHECKING:  # pragma: no cover - annotations only
     from bandsmith.analysis.analyzer import Analysis, Tolerances
+    from bandsmith.analysis.burst import BurstResult
     from bandsmith.analysis.noise import NoiseResult
     from bandsmith.bench.diagnose import Diagnosis
     from bandsmith.bench.fitcheck import FitReport
     from bandsmith.bench.measured import Measurement
     from bandsmith.bench.shelf import OpAmp
+    from bandsmith.board.bias import BiasedCircuit
+    from bandsmith.board.trim import TrimPlan
     from bandsmith.chain.cascade import Cascade
     from bandsmith.circuits.synthesis import Spec
     from bandsmith.circuits.topology import Topology
@@ -38,6 +41,7 @@ if TYPE_CHECKING:  # pragma: no cover - annotations only
     from bandsmith.files.session import Session
     from bandsmith.verdict import Comparison, VerdictLimits
     from bandsmith.solver.mna import OpAmpModel
+    from bandsmith.solver.netlist import Netlist
     from bandsmith.spread.tolerance import Spread, SpreadSettings
 
 __all__ = [

@@ -12,7 +12,7 @@ from dataclasses import replace
 import pytest
 
 import bandsmith
-from bandsmith.app.report.board_section import BOARD_KEY
+from bandsmith.app.document.extras_board import BOARD_KEY
 from bandsmith.app.report.page import build_report_html
 from bandsmith.app.report.sections import SECTIONS
 from bandsmith.app.window.demo import demo_session

@@ -13,7 +13,7 @@ import pytest
 from PySide6 import QtWidgets
 
 import bandsmith
-from bandsmith.app.report.board_section import BOARD_KEY
+from bandsmith.app.document.extras_board import BOARD_KEY
 from bandsmith.app.window.demo import demo_session
 from bandsmith.app.window.main_window import WorkbenchWindow
 from bandsmith.app.window.panes.board_pane import BoardPane

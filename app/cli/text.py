@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import math
 
-from bandsmith.common.units import PART_UNITS
 from bandsmith.common.values import format_value
 
 __all__ = ["table", "figures_rows", "requirements_rows", "sensitivity_table", "signed_error"]

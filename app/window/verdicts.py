@@ -204,10 +204,6 @@ class VerdictBook(QtCore.QObject):
         """The chosen model's name for a candidate, or None."""
         return self._chosen.get(candidate_id)
 
-    def chosen_verdict(self, candidate_id: str) -> Verdict | None:
-        name = self.chosen(candidate_id)
-        return None if name is None else self.verdict(candidate_id, name)
-
     def choose(self, candidate_id: str, amp_name: str | None) -> None:
         """Choose a model for a candidate (None: none), shown on the plots and in its column."""
         if amp_name == self._chosen.get(candidate_id):

@@ -15,7 +15,6 @@ from __future__ import annotations
 
 import csv
 import io
-import math
 
 import numpy as np
 

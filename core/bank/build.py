@@ -231,7 +231,7 @@ def design_bank(
             c_i = float(f"{c_a * 10.0 ** (-k):.6g}")
             key = (round(math.log10(f[i]) - k, 9), round(float(qs[i]), 9))
             if key in done:
-                j, kj = done[key]
+                j, _ = done[key]
                 vals = {r: (c_i if r in refs else v) for r, v in chosen[j].items()}
                 chosen[i], shared[i], reused[i] = vals, True, j
                 analyses[i] = Candidate(cid, vals).analyze(conditions)

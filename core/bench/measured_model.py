@@ -10,7 +10,6 @@ from __future__ import annotations
 import hashlib
 import os
 from dataclasses import dataclass, replace
-from pathlib import Path
 from typing import Any, Mapping
 
 import numpy as np

@@ -25,7 +25,7 @@ from PySide6 import QtCore, QtWidgets
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value, parse_positive
 
-from bandsmith.app.report.board_section import BOARD_KEY, BoardSettings, board_of, ohm, part_value, stored_board
+from bandsmith.app.document.extras_board import BOARD_KEY, BoardSettings, board_of, ohm, part_value, stored_board
 from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.panes.spread_pane import CandidatePicker

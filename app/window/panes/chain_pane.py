@@ -30,7 +30,7 @@ from typing import Callable
 
 from PySide6 import QtCore, QtWidgets
 
-from bandsmith.chain.cascade import AUTO, Cascade, chain_cascade, design_cascade, with_stage_circuit
+from bandsmith.chain.cascade import AUTO, Cascade, Chain, chain_cascade, design_cascade, with_stage_circuit
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 from bandsmith.design.candidate import Conditions
@@ -87,6 +87,7 @@ class ChainPane(QtWidgets.QWidget):
         self._shown_saved = False
         self._want_id: str | None = None
         self._form_for: str | None = None  # the chain whose request the form shows
+        self._mask: tuple | None = None  # (f_low, f_high, order, mask keys) of the last chain built to a mask
         self._problems: list[str] = []  # chains of the session that cannot be read
         self._filling = False
 
@@ -246,13 +247,14 @@ class ChainPane(QtWidgets.QWidget):
         if reject:
             from bandsmith.chain.mask_design import design_to_mask
 
-            def work():
-                result, keys = design_to_mask(settings, reject, conditions=conditions, auto=auto)
+            def done(out) -> None:
+                # The mask is kept on the GUI thread, with the chain it was checked on.
+                result, keys = out
                 self._mask = (result.settings.f_low_hz, result.settings.f_high_hz, result.settings.order, keys)
-                return result
+                self._on_built(result, conditions)
 
             title = f"Designing a {response_title(settings)} chain to the mask"
-            self._start(title, work, lambda r: self._on_built(r, conditions))
+            self._start(title, lambda: design_to_mask(settings, reject, conditions=conditions, auto=auto), done)
             return
         self._mask = None
         title = f"Designing a {response_title(settings)} chain of {settings.order} stage{'s' if settings.order != 1 else ''}"
@@ -417,7 +419,7 @@ class ChainPane(QtWidgets.QWidget):
     def _display(self, result: Cascade | None, cid: str | None, *, saved: bool) -> None:
         self._shown, self._shown_id, self._shown_saved = result, cid, saved and result is not None
         self.view.show_cascade(result, editable=not self.controller.busy)
-        mask = getattr(self, "_mask", None)
+        mask = self._mask
         if result is not None and mask is not None and mask[:3] == (result.settings.f_low_hz, result.settings.f_high_hz, result.settings.order):
             self.view.plots.show_mask(mask[3]["mask"], 20.0 * math.log10(result.settings.gain))
         summary, messages = summary_html(result, cid, saved, self._problems)
@@ -437,7 +439,7 @@ class ChainPane(QtWidgets.QWidget):
 
     def stage_combo(self, index: int) -> QtWidgets.QComboBox:
         """The circuit chooser of stage ``index`` (from 1)."""
-        return self.stage_table.cellWidget(index - 1, 1)
+        return self.view.stage_combo(index)
 
 
 def install(window) -> ChainPane:

@@ -334,9 +334,6 @@ class CandidateColumn(QtWidgets.QFrame):
         ) + "</table>"
         self.figures.setText(html)
 
-    def _show_figures_error(self, text: str) -> None:
-        self.figures.setText(text)
-
     def _show_needs(self, res: CandidateResult, session: Session) -> None:
         req = res.analysis.requirements
         have = session.opamp.gbw_hz

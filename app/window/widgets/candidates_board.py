@@ -95,10 +95,6 @@ class CandidatesBoard(QtWidgets.QScrollArea):
         if n:
             self.count_label.setText(f"{n} candidate{'s' if n != 1 else ''}" + (" · scroll sideways for more" if self._hidden_columns() else ""))
 
-    def preferred_width(self) -> int:
-        """Width (px) that shows every column without sideways scrolling."""
-        return self.width_for(1 << 20)
-
     def width_for(self, room: int) -> int:
         """Width (px) of the board showing as many whole columns as fit in ``room`` px (at least
         one, at most all), with its margins and vertical scroll bar."""
