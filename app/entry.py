@@ -15,7 +15,8 @@ from __future__ import annotations
 import ctypes
 import os
 import sys
-from importlib import metadata
+
+from bandsmith.common.version import installed_version
 
 from bandsmith.app import cli
 
@@ -80,18 +81,11 @@ def display_problem(environ: dict[str, str] | None = None) -> str | None:
     return None
 
 
-def _version() -> str:
-    try:
-        return metadata.version("bandsmith")
-    except metadata.PackageNotFoundError:  # run from a source tree that was never installed
-        return "unknown"
-
-
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``bandsmith`` command; returns the exit status."""
     argv = list(sys.argv[1:] if argv is None else argv)
     if argv == ["--version"]:
-        print(f"bandsmith {_version()}")
+        print(f"bandsmith {installed_version() or 'unknown'}")
         return 0
     if cli.wants_window(argv):
         problem = display_problem()

@@ -13,6 +13,7 @@ from typing import Iterable, Sequence
 from PySide6 import QtCore, QtGui, QtWidgets
 
 from bandsmith.common.cautions import cautions_html
+from bandsmith.common.version import installed_version
 
 __all__ = ["about_html", "show_about", "default_shortcuts", "shortcuts_of", "AboutDialog"]
 
@@ -111,7 +112,7 @@ def about_html(shortcuts: Sequence[tuple[str, str]] | None = None, *, version: s
     if shortcuts is None:
         shortcuts = default_shortcuts()
     if version is None:
-        version = _installed_version()
+        version = installed_version() or ""
     rows = "\n".join(
         f"<tr><td style='padding:2px 16px 2px 0'>{escape(what)}</td><td><b>{escape(keys)}</b></td></tr>"
         for what, keys in shortcuts
@@ -129,15 +130,6 @@ def about_html(shortcuts: Sequence[tuple[str, str]] | None = None, *, version: s
 </table>
 {cautions_html(heading_level=2)}
 """
-
-
-def _installed_version() -> str:
-    try:
-        from importlib.metadata import version
-
-        return version("bandsmith")
-    except Exception:  # not installed as a package: no version line
-        return ""
 
 
 class AboutDialog(QtWidgets.QDialog):

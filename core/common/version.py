@@ -1,0 +1,15 @@
+"""The installed version of Bandsmith, read from the package metadata."""
+
+from __future__ import annotations
+
+from importlib import metadata
+
+__all__ = ["installed_version"]
+
+
+def installed_version() -> str | None:
+    """The version pip installed (``"0.1.0"``), or None when run from a source tree never installed."""
+    try:
+        return metadata.version("bandsmith")
+    except metadata.PackageNotFoundError:
+        return None
