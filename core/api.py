@@ -21,7 +21,7 @@ from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Any, Iterator, Mapping, Sequence
 
 from bandsmith.common.errors import InputError
-from bandsmith.common.limits import one_line
+from bandsmith.common.limits import DEFAULT_A0, one_line
 
 if TYPE_CHECKING:  # pragma: no cover - annotations only
     from bandsmith.analysis.analyzer import Analysis, Tolerances
@@ -81,7 +81,6 @@ __all__ = [
     "BurstReport",
 ]
 
-DEFAULT_A0 = 1e5
 Value = float | str
 
 

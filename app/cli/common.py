@@ -9,6 +9,7 @@ import warnings
 from dataclasses import dataclass
 from typing import Callable
 
+from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.errors import InputError
 from bandsmith.common.limits import one_line
@@ -92,7 +93,7 @@ def amp_options(args: argparse.Namespace) -> dict:
     """The op-amp and drive options as typed, keyed as the API takes them (absent ones at their defaults)."""
     out = {
         "gbw_hz": getattr(args, "gbw", None),
-        "a0": getattr(args, "a0", None) if getattr(args, "a0", None) is not None else 1e5,
+        "a0": getattr(args, "a0", None) if getattr(args, "a0", None) is not None else DEFAULT_A0,
         "vin_v": getattr(args, "vin", None) if getattr(args, "vin", None) is not None else 1.0,
         "rload_ohm": getattr(args, "rload", None),
     }

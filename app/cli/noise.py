@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from bandsmith import api
+from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
@@ -55,7 +56,7 @@ def run(args) -> int:
         temperature_k=args.temp,
         band_hz=args.band,
         gbw_hz=args.gbw,
-        a0=args.a0 if args.a0 is not None else 1e5,
+        a0=args.a0 if args.a0 is not None else DEFAULT_A0,
         vin_v=args.vin if args.vin is not None else 1.0,
         rsource_ohm=args.rsource,
     )

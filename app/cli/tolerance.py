@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from bandsmith import api
+from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.units import PART_UNITS
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
@@ -50,7 +51,7 @@ def options_from(args) -> dict:
     return {
         "tolerances": tol, "dist": args.dist, "trials": args.trials, "seed": args.seed, "gbw_tol": args.gbw_tol,
         "window_f0": args.window_f0, "window_q": args.window_q, "window_gain_db": args.window_gain_db,
-        "gbw_hz": args.gbw, "a0": args.a0 if args.a0 is not None else 1e5,
+        "gbw_hz": args.gbw, "a0": args.a0 if args.a0 is not None else DEFAULT_A0,
         "rsource_ohm": getattr(args, "rsource", None),
     }
 

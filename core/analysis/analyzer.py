@@ -19,6 +19,7 @@ from typing import Mapping
 
 import numpy as np
 
+from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.common.errors import InputError
@@ -49,7 +50,6 @@ __all__ = [
     "is_stable",
 ]
 
-DEFAULT_A0 = 1e5
 
 
 @dataclass(frozen=True, slots=True)

@@ -44,6 +44,7 @@ __all__ = [
     "FREQ_RANGE_HZ",
     "TARGET_RANGES",
     "A0_RANGE",
+    "DEFAULT_A0",
     "NOISE_DENSITY_MAX",
     "MAG_DB_RANGE",
     "VIN_RANGE_V",
@@ -81,6 +82,8 @@ PART_RANGES = {"R": (1e-6, 1e15), "C": (1e-18, 1e6), "L": (1e-15, 1e12)}
 FREQ_RANGE_HZ = (1e-6, 1e15)
 TARGET_RANGES = {"f0": FREQ_RANGE_HZ, "q": (1e-3, 1e5), "gain": (1e-6, 1e6)}
 A0_RANGE = (1e-3, 1e16)
+#: The op-amp model's open-loop DC gain when none is given (V/V).
+DEFAULT_A0 = 1e5
 NOISE_DENSITY_MAX = 1e-3
 MAG_DB_RANGE = (-400.0, 400.0)
 VIN_RANGE_V = (1e-9, 1e6)
