@@ -10,6 +10,8 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6 import QtCore, QtWidgets
 
+from bandsmith.common.values import format_value
+
 from bandsmith.app.plots.palette import INK, apply_plot_theme, candidate_style
 
 __all__ = ["BurstPlot"]
@@ -61,8 +63,8 @@ class BurstPlot(pg.PlotWidget):
         self.envelope_curve.setData(t, env)
         self.envelope_low_curve.setData(t, -env)
         self.getPlotItem().setTitle(
-            f"{j['cycles']:.4g} cycles at {j['freq_hz']:.6g} Hz: envelope τ "
-            + ("—" if j["envelope_tau_s"] is None else f"{j['envelope_tau_s']:.4g} s"),
+            f"{j['cycles']:.4g} cycles at {format_value(j['freq_hz'], 'Hz', digits=4)}: envelope τ "
+            + format_value(j["envelope_tau_s"], "s", digits=4),
             color=INK, size="9pt",
         )
         self._mark(self.burst_end_line, j["duration_s"])
