@@ -24,7 +24,9 @@ import time
 MFB = ["R1=16k", "R2=1.1k", "R3=150k", "C1=2.4n", "C2=2.2n"]
 
 
-def _command() -> list[str]:
+def command() -> list[str]:
+    """The ``bandsmith`` command beside this interpreter (a virtualenv's own, not another one found
+    first on PATH), else the one on PATH, else the entry point through this interpreter."""
     exe = shutil.which("bandsmith", path=os.path.dirname(sys.executable)) or shutil.which("bandsmith")
     return [exe] if exe else [sys.executable, "-m", "bandsmith.app.entry"]
 
@@ -44,7 +46,7 @@ def cli_start(runs: int = 7) -> dict[str, dict[str, float]]:
     """Wall time (s) of each command: ``{"topologies": {"median", "min"}, "analyze": {...}}``."""
     out = {}
     for name, args in (("topologies", ["topologies", "--json"]), ("analyze", ["analyze", "mfb", *MFB, "--json"])):
-        t = _times(_command() + args, runs)
+        t = _times(command() + args, runs)
         out[name] = {"median": statistics.median(t), "min": min(t)}
     return out
 
@@ -64,7 +66,7 @@ _PEAK = (
 
 def sweep_1m(runs: int = 3) -> dict[str, float]:
     """Median wall time (s) of a million-point CSV sweep to a file, and its largest peak RSS (MB)."""
-    argv = _command() + ["sweep", "mfb", *MFB, "--gbw", "1meg", "--points", "1000000", "--csv"]
+    argv = command() + ["sweep", "mfb", *MFB, "--gbw", "1meg", "--points", "1000000", "--csv"]
     times = []
     with tempfile.TemporaryDirectory() as tmp:
         out = os.path.join(tmp, "sweep.csv")

@@ -22,14 +22,13 @@
 from __future__ import annotations
 
 import os
-import shutil
 import statistics
 import subprocess
-import sys
 import tempfile
 import time
 
 import numpy as np
+from jobs_cli import command
 
 _EDITS = 30
 
@@ -90,19 +89,13 @@ def gui_replot_median_ms(size: tuple[int, int] = (1366, 768)) -> float:
     return 1e3 * statistics.median(times)
 
 
-def _command() -> list[str]:
-    """The installed ``bandsmith`` command, or the same entry point through this interpreter."""
-    exe = shutil.which("bandsmith")
-    return [exe] if exe else [sys.executable, "-m", "bandsmith.app"]
-
-
 def gui_startup_s() -> float:
     env = dict(os.environ, QT_QPA_PLATFORM="offscreen", BANDSMITH_STARTUP_MARK="1", BANDSMITH_QUIT_AFTER_SHOW="1")
     env.setdefault("BANDSMITH_RECOVERY_DIR", tempfile.mkdtemp(prefix="bandsmith-bench-"))
     runs = []
     for _ in range(3):
         t0 = time.perf_counter()
-        proc = subprocess.Popen(_command(), env=env, stderr=subprocess.PIPE, stdout=subprocess.DEVNULL, text=True)
+        proc = subprocess.Popen(command(), env=env, stderr=subprocess.PIPE, stdout=subprocess.DEVNULL, text=True)
         shown = None
         for line in proc.stderr:
             if "window shown" in line:
