@@ -234,9 +234,11 @@ class ComparisonCache:
             store.move_to_end(key)
         return hit
 
-    def verdict(self, session: Session, entry: CandidateEntry, analysis: Analysis | None, error: str | None, limits: VerdictLimits) -> Verdict:
+    def verdict(self, session: Session, entry: CandidateEntry, analysis: Analysis | None, error: str | None,
+                limits: VerdictLimits, limits_key: tuple | None = None) -> Verdict:
+        """The verdict of ``entry``; ``limits_key`` is ``limits.key()`` when the caller has it."""
         key = (entry.id, entry.topology_id, tuple(sorted(entry.values.items())), entry.snap, session.conditions_for(entry),
-               _spec(session), limits, analysis is None, error)
+               _spec(session), limits.key() if limits_key is None else limits_key, analysis is None, error)
         def make() -> Verdict:
             try:
                 return judge(design_result_of(session, entry, analysis, error), limits, candidate=entry.id)
@@ -284,11 +286,12 @@ def judge_session(session: Session, analysis_of: AnalysisOf, *, cache: Compariso
     cache = cache or ComparisonCache()
     stored = stored_limits(session)
     limits = stored.settings
+    limits_key = limits.key()
     judged: list[tuple[CandidateEntry, Verdict, Analysis | None]] = []
     for entry in session.candidates:
         if entry.enabled:
             analysis, error = analysis_of(entry)
-            judged.append((entry, cache.verdict(session, entry, analysis, error, limits), analysis))
+            judged.append((entry, cache.verdict(session, entry, analysis, error, limits, limits_key), analysis))
     ranking = rank([v for _, v, _ in judged])
     by_id = {e.id: (v, r, a) for (e, v, a), r in zip(judged, ranking.ranks)}
     rows = []

@@ -176,8 +176,13 @@ class VerdictLimits:
             if isinstance(v, bool) or not isinstance(v, int) or v < low:
                 raise InputError(name.replace("_", "-"), f"must be a whole number of {low} or more, got {v!r}")
 
+    def key(self) -> tuple:
+        """Every limit in one hashable tuple (equal limits, equal keys): what a cache keys on,
+        worked out once instead of at every lookup."""
+        return tuple(tuple(v.items()) if isinstance(v, Mapping) else v for v in (getattr(self, f.name) for f in fields(self)))
+
     def __hash__(self):
-        return hash(tuple(tuple(v.items()) if isinstance(v, Mapping) else v for v in (getattr(self, f.name) for f in fields(self))))
+        return hash(self.key())
 
     def tolerance_of(self, ref: str, kind: str) -> float:
         """The tolerance of part ``ref`` of ``kind``: by reference, else by kind, else 0."""

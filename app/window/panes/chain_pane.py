@@ -105,7 +105,7 @@ class ChainPane(QtWidgets.QWidget):
         self.splitter = split
         outer.addWidget(split, 1)
 
-        state.session_changed.connect(self._on_session_changed)
+        state.session_changed.connect(self._on_session_signal)
         self.form.load_defaults(state.session)
         self._on_session_changed(state.session)
 
@@ -350,13 +350,33 @@ class ChainPane(QtWidgets.QWidget):
             self.prompter.error(self, "Export failed", str(exc))
 
     # ------------------------------------------------------------------ following the session
-    def _on_session_changed(self, session: Session) -> None:
-        # The "New chain" form follows the target: a new f0, Q, gain or series is put in it.
+    _follow_when_shown = False
+
+    def _on_session_signal(self, session: Session) -> None:
+        """The form follows the target at once; a hidden pane refills its chains when it is next
+        shown, so a part edit elsewhere costs it nothing."""
+        if self.isVisible():
+            self._on_session_changed(session)
+        else:
+            self._follow_target(session)
+            self._follow_when_shown = True
+
+    def showEvent(self, event) -> None:  # noqa: N802 - Qt's name
+        super().showEvent(event)
+        if self._follow_when_shown:
+            self._follow_when_shown = False
+            self._on_session_changed(self.state.session)
+
+    def _follow_target(self, session: Session) -> None:
+        """The "New chain" form follows the target: a new f0, Q, gain or series is put in it."""
         t = session.target
         target = (t.f0_hz, t.q, t.gain, t.series)
         if getattr(self, "_form_target", target) != target:
             self.form.follow_target(session)
         self._form_target = target
+
+    def _on_session_changed(self, session: Session) -> None:
+        self._follow_target(session)
         chains, problems = saved_chains(session)
         ids = [c.id for c in chains]
         want = self._want_id or (self._shown_id if self._shown is not None else None)
