@@ -10,6 +10,7 @@ order one, highest power first (numpy's convention).
 
 from __future__ import annotations
 
+import functools
 import itertools
 import math
 from dataclasses import dataclass
@@ -361,8 +362,9 @@ class AmpFamily:
         alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
         beta = self.w_ref / (2.0 * np.pi * gbw)
         m = len(self.den_terms) - 1
-        num = _family_sum(self.num_terms, alpha, beta, m)
-        den = _family_sum(self.den_terms, alpha, beta, m)
+        weights = _family_weights(alpha, beta, m)
+        num = weights @ _family_shifted(self.num_terms, m)
+        den = weights @ _family_shifted(self.den_terms, m)
         den = _lead_trim(den)
         num = _lead_trim(num)
         scale = np.max(np.abs(den), axis=1, keepdims=True)
@@ -370,17 +372,40 @@ class AmpFamily:
         return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
 
 
-def _family_sum(terms: tuple[np.ndarray, ...], alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
-    """``Σ_j x^j·T_j(p)`` for ``x = −α − β·p`` (batched over α, β), highest power first."""
+@functools.lru_cache(maxsize=16)
+def _family_pairs(m: int) -> tuple[tuple[tuple[int, int], ...], np.ndarray, np.ndarray, np.ndarray]:
+    """The pairs ``(j, i)``, ``0 ≤ i ≤ j ≤ m``, of the terms ``x^j·T_j`` (``x = −α − β·p``) expanded
+    by the binomial theorem, with the powers ``i`` and ``j − i`` (index arrays) and the binomial
+    coefficients ``C(j, i)`` (read-only)."""
+    pairs = tuple((j, i) for j in range(m + 1) for i in range(j + 1))
+    i_pow = np.array([i for _, i in pairs])
+    rest = np.array([j - i for j, i in pairs])
+    comb = np.array([float(math.comb(j, i)) for j, i in pairs])
+    for a in (i_pow, rest, comb):
+        a.setflags(write=False)
+    return pairs, i_pow, rest, comb
+
+
+def _family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
+    """``C(j, i)·(−β)^i·(−α)^(j−i)`` for every pair of :func:`_family_pairs`: ``(B, pairs)``.
+
+    Each power of ``−β`` and ``−α`` is taken once (``m + 1`` of each), then picked per pair."""
+    _, i_pow, rest, comb = _family_pairs(m)
+    nb, na = -beta, -alpha
+    pb = np.stack([nb**i for i in range(m + 1)], axis=1)
+    pa = np.stack([na**i for i in range(m + 1)], axis=1)
+    return np.ascontiguousarray(comb * pb[:, i_pow] * pa[:, rest])
+
+
+def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> np.ndarray:
+    """The shifted terms ``T_j·p^i`` of every pair of :func:`_family_pairs`: ``(pairs, length)``."""
     length = max(t.size + j for j, t in enumerate(terms))
-    pairs = [(j, i) for j in range(m + 1) for i in range(j + 1)]
+    pairs = _family_pairs(m)[0]
     shifted = np.zeros((len(pairs), length))
-    weights = np.empty((alpha.size, len(pairs)))
     for n, (j, i) in enumerate(pairs):
         t = terms[j]
         shifted[n, length - t.size - i : length - i] = t  # T_j·p^i
-        weights[:, n] = math.comb(j, i) * (-beta) ** i * (-alpha) ** (j - i)
-    return weights @ shifted
+    return shifted
 
 
 def amp_family(system: MnaSystem, w_ref: float) -> AmpFamily | None:
