@@ -321,21 +321,43 @@ def _subset_dets(samples: np.ndarray, k: int, terms, source: np.ndarray, out: in
     ``det(A_S)`` and of its Cramer numerator, ``A_S`` the sampled ideal pencil ``samples``
     (``(B, K, n, n)``) with the rows of the op-amps in ``S`` replaced by the unit rows of their
     output columns (see :func:`_by_amplifiers`)."""
-    src = source.astype(complex)
-    subsets = [sub for size in range(len(terms) + 1) for sub in itertools.combinations(range(len(terms)), size)]
-    b = samples.shape[0]
-    # every subset's matrix and its Cramer matrix in one stack: (2·subsets, B, K, n, n)
-    mats = np.repeat(samples[None], 2 * len(subsets), axis=0)
-    for i, subset in enumerate(subsets):
-        for j in subset:
-            r, c = terms[j][0], terms[j][1]
-            mats[2 * i : 2 * i + 2, ..., r, :] = 0.0
-            mats[2 * i : 2 * i + 2, ..., r, c] = 1.0
-    mats[1::2, ..., :, out] = src
-    dets = np.linalg.det(mats).reshape(-1, samples.shape[1])  # (2·subsets·B, K)
-    coef = _snap(_coefficients(dets, k)).reshape(len(subsets), 2, b, -1)
+    subsets, coef = _subset_coefficients(samples, k, terms, source, out)
     for i, subset in enumerate(subsets):
         yield subset, coef[i, 0], coef[i, 1]
+
+
+def _subset_coefficients(samples: np.ndarray, k: int, terms, source: np.ndarray, out: int):
+    """:func:`_subset_dets` as arrays: ``(subsets, coef)`` with ``coef[i, 0]`` the coefficients of
+    ``det(A_S)`` and ``coef[i, 1]`` of its Cramer numerator for ``S = subsets[i]``: ``(S, 2, B, K)``."""
+    keep, fill, subsets = _subset_pattern(tuple((t[0], t[1]) for t in terms), samples.shape[-1], out, source.tobytes())
+    b = samples.shape[0]
+    # every subset's matrix and its Cramer matrix in one stack: (2·subsets, B, K, n, n)
+    mats = np.where(keep[:, None, None], samples[None], fill[:, None, None])
+    dets = np.linalg.det(mats).reshape(-1, samples.shape[1])  # (2·subsets·B, K)
+    return subsets, _snap(_coefficients(dets, k)).reshape(len(subsets), 2, b, -1)
+
+
+@functools.lru_cache(maxsize=64)
+def _subset_pattern(rc: tuple[tuple[int, int], ...], n: int, out: int, source: bytes):
+    """What :func:`_subset_coefficients` puts in place of the pencil's entries, by circuit
+    structure: ``(keep, fill, subsets)``, ``keep`` ``(2·subsets, n, n)`` True where the entry stays
+    and ``fill`` the entry otherwise (the op-amps' unit rows, the source column of each Cramer
+    matrix), every subset of the op-amps by size (read-only)."""
+    src = np.frombuffer(source, dtype=float).astype(complex)
+    subsets = tuple(sub for size in range(len(rc) + 1) for sub in itertools.combinations(range(len(rc)), size))
+    keep = np.ones((2 * len(subsets), n, n), dtype=bool)
+    fill = np.zeros((2 * len(subsets), n, n), dtype=complex)
+    for i, subset in enumerate(subsets):
+        for j in subset:
+            r, c = rc[j]
+            keep[2 * i : 2 * i + 2, r, :] = False
+            fill[2 * i : 2 * i + 2, r, :] = 0.0
+            fill[2 * i : 2 * i + 2, r, c] = 1.0
+    keep[1::2, :, out] = False
+    fill[1::2, :, out] = src
+    keep.setflags(write=False)
+    fill.setflags(write=False)
+    return keep, fill, subsets
 
 
 @dataclass(frozen=True, slots=True)
@@ -422,14 +444,18 @@ def amp_family(system: MnaSystem, w_ref: float) -> AmpFamily | None:
 def _amp_family(system: MnaSystem, samples: np.ndarray, k: int, w: float) -> AmpFamily:
     """:class:`AmpFamily` of member 0 of an ideal-op-amp system (its sampled pencil given)."""
     terms = system.amp_terms
-    m = len(terms)
-    nums: list = [None] * (m + 1)
-    dens: list = [None] * (m + 1)
-    for subset, d_c, n_c in _subset_dets(samples[:1], k, terms, system.source_vector(), system.output_index):
-        j = len(subset)
-        dens[j] = d_c if dens[j] is None else _padd(dens[j], d_c)
-        nums[j] = n_c if nums[j] is None else _padd(nums[j], n_c)
-    return AmpFamily(tuple(n[0] for n in nums), tuple(d[0] for d in dens), float(w))
+    subsets, coef = _subset_coefficients(samples[:1], k, terms, system.source_vector(), system.output_index)
+    # the sum over the subsets of each size (they come by size), added in their order
+    sums = []
+    start = 0
+    for j in range(len(terms) + 1):
+        stop = start + math.comb(len(terms), j)
+        acc = coef[start, :, 0]  # (2, K): determinant and Cramer numerator
+        for i in range(start + 1, stop):
+            acc = acc + coef[i, :, 0]
+        sums.append(acc)
+        start = stop
+    return AmpFamily(tuple(x[1] for x in sums), tuple(x[0] for x in sums), float(w))
 
 
 def _snap(c: np.ndarray) -> np.ndarray:
