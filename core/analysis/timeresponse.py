@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
+from bandsmith.solver.rational import Rational, coefficients_in_s, polyder_batch, polyval_batch
 
 __all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
 
@@ -126,14 +126,13 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
     return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.abs(slope).max()))
 
 
-def _pure_bandpass_slope(h: Rational, i: int) -> float | None:
-    """:func:`max_step_slope`'s closed form for member ``i``, or None where it does not apply."""
-    one = h.item(i)
-    num, den = one.num[0], one.den[0]
+def _pure_bandpass_slope(num: np.ndarray, den: np.ndarray, w_ref: float) -> float | None:
+    """:func:`max_step_slope`'s closed form for one member (coefficients in ``p = s/w_ref``,
+    leading zeros dropped), or None where it does not apply."""
     if den.size == 3 and num.size == 2 and num[1] == 0 and num[0] != 0:
         a2, a1, a0 = den.tolist()
         if (a2 > 0 and a1 > 0 and a0 > 0) or (a2 < 0 and a1 < 0 and a0 < 0):
-            return abs(float(num[0]) * float(h.w_ref[i]) / a2)
+            return abs(float(num[0]) * w_ref / a2)
     return None
 
 
@@ -145,11 +144,14 @@ def max_step_slopes(h: Rational) -> list[float]:
     each member's residues as :func:`_modal` finds them. Members whose poles are too close for
     the modal form go through :func:`step_response` one by one.
     """
-    out: list[float | None] = [_pure_bandpass_slope(h, i) for i in range(h.batch)]
+    out: list[float | None] = []
     groups: dict[tuple, list[tuple[int, np.ndarray]]] = {}
-    for i in range(h.batch):
+    for i, w in enumerate(h.w_ref.tolist()):
+        one = h.item(i)
+        num, den = one.num[0], one.den[0]
+        out.append(_pure_bandpass_slope(num, den, w))
         if out[i] is None:
-            b, a = h.to_s(i)
+            b, a = coefficients_in_s(num, den, w)
             groups.setdefault(tuple(a.tolist()), []).append((i, b))
     for key, members in groups.items():
         a = np.array(key)
@@ -186,9 +188,5 @@ def max_step_slope(h: Rational, *, i: int = 0) -> float:
     :func:`step_response`'s ``max_slope_per_s``.
     """
     one = h.item(i)
-    num, den = one.num[0], one.den[0]
-    if den.size == 3 and num.size == 2 and num[1] == 0 and num[0] != 0:
-        a2, a1, a0 = den.tolist()
-        if (a2 > 0 and a1 > 0 and a0 > 0) or (a2 < 0 and a1 < 0 and a0 < 0):
-            return abs(float(num[0]) * float(h.w_ref[i]) / a2)
-    return step_response(h, i=i).max_slope_per_s
+    slope = _pure_bandpass_slope(one.num[0], one.den[0], float(h.w_ref[i]))
+    return step_response(h, i=i).max_slope_per_s if slope is None else slope

@@ -19,7 +19,7 @@ import numpy as np
 
 from bandsmith.solver.mna import MnaSystem
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "polyval_batch"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "coefficients_in_s", "polyval_batch"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -63,11 +63,14 @@ def polymul_batch(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 
 
 def _trim(c: np.ndarray) -> np.ndarray:
-    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    mag = np.abs(c)
+    scale = mag.max(axis=1, keepdims=True)
     scale[scale == 0] = 1.0
-    c = np.where(np.abs(c) <= _SNAP * scale, 0.0, c)
-    small = np.all(np.abs(c) <= _TRIM * scale, axis=0)
-    first = int(np.argmin(small)) if not small.all() else c.shape[1] - 1
+    noise = mag <= _SNAP * scale
+    c = np.where(noise, 0.0, c)
+    mag[noise] = 0.0  # |c| after the snap
+    small = (mag <= _TRIM * scale).all(axis=0)
+    first = int(small.argmin()) if not small.all() else c.shape[1] - 1
     return c[:, first:]
 
 
@@ -123,12 +126,7 @@ class Rational:
     def to_s(self, i: int = 0) -> tuple[np.ndarray, np.ndarray]:
         """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) for member ``i``, as scipy.signal uses."""
         one = self.item(i)
-        num, den = one.num[0], one.den[0]
-        # powers of 1/w_ref, highest first: p = s/w_ref turns c_k·p^k into (c_k/w_ref^k)·s^k
-        scale = float(self.w_ref[i]) ** -np.arange(max(num.size, den.size) - 1, -1, -1.0)
-        b = num * scale[scale.size - num.size :]
-        a = den * scale[scale.size - den.size :]
-        return b / a[0], a / a[0]
+        return coefficients_in_s(one.num[0], one.den[0], float(self.w_ref[i]))
 
     def poles(self, i: int = 0) -> np.ndarray:
         """Poles in rad/s of member ``i``."""
@@ -138,6 +136,16 @@ class Rational:
         """Finite zeros in rad/s of member ``i``."""
         num = self.item(i).num[0]
         return np.roots(num) * self.w_ref[i] if num.size > 1 else np.zeros(0)
+
+
+def coefficients_in_s(num: np.ndarray, den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
+    """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) of ``num/den`` in ``p = s/w_ref``
+    (leading zeros already dropped): :meth:`Rational.to_s` of one member."""
+    # powers of 1/w_ref, highest first: p = s/w_ref turns c_k·p^k into (c_k/w_ref^k)·s^k
+    scale = w_ref ** -np.arange(max(num.size, den.size) - 1, -1, -1.0)
+    b = num * scale[scale.size - num.size :]
+    a = den * scale[scale.size - den.size :]
+    return b / a[0], a / a[0]
 
 
 def reference_w(system: MnaSystem) -> float:
@@ -162,7 +170,7 @@ def _degree_bound(system: MnaSystem) -> int:
 
 def _lead_trim(c: np.ndarray) -> np.ndarray:
     """Drop leading columns that are zero in every row (keeps at least one column)."""
-    if c.shape[1] < 2 or c[:, 0].any():
+    if c.shape[1] < 2 or np.count_nonzero(c[:, 0]):
         return c
     nz = np.flatnonzero((c != 0).any(axis=0))
     return c[:, nz[0] :] if nz.size else c[:, -1:]
@@ -173,14 +181,24 @@ def _coefficients(values: np.ndarray, k: int) -> np.ndarray:
 
     ``v_j = Σ_k c_k e^{ikθ_j}``: an FFT gives ``c_k·e^{ik·offset}``, ascending powers.
     """
+    return (np.fft.fft(values, axis=1) / k * _circle(k)[1]).real[:, ::-1]
+
+
+@functools.lru_cache(maxsize=64)
+def _circle(k: int) -> tuple[np.ndarray, np.ndarray]:
+    """The ``k`` rotated unit points ``e^{iθ_j}`` of :func:`_samples` and the factors
+    ``e^{−ik·offset}`` that :func:`_coefficients` undoes the rotation with (read-only)."""
+    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
+    points = np.exp(1j * theta)
     undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
-    return (np.fft.fft(values, axis=1) / k * undo).real[:, ::-1]
+    points.setflags(write=False)
+    undo.setflags(write=False)
+    return points, undo
 
 
 def _samples(system: MnaSystem, w: np.ndarray) -> tuple[int, np.ndarray]:
     k = _degree_bound(system) + 1
-    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
-    return k, system.matrix(w[:, None] * np.exp(1j * theta)[None, :])
+    return k, system.matrix(w[:, None] * _circle(k)[0][None, :])
 
 
 def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = None, *, circle_w: float | None = None) -> Rational:
