@@ -347,20 +347,25 @@ def _subset_dets(samples: np.ndarray, k: int, terms, source: np.ndarray, out: in
 def _subset_coefficients(samples: np.ndarray, k: int, terms, source: np.ndarray, out: int):
     """:func:`_subset_dets` as arrays: ``(subsets, coef)`` with ``coef[i, 0]`` the coefficients of
     ``det(A_S)`` and ``coef[i, 1]`` of its Cramer numerator for ``S = subsets[i]``: ``(S, 2, B, K)``."""
-    keep, fill, subsets = _subset_pattern(tuple((t[0], t[1]) for t in terms), samples.shape[-1], out, source.tobytes())
+    keep, fill, subsets, live = _subset_pattern(tuple((t[0], t[1]) for t in terms), samples.shape[-1], out, source.tobytes())
     b = samples.shape[0]
-    # every subset's matrix and its Cramer matrix in one stack: (2·subsets, B, K, n, n)
-    mats = np.where(keep[:, None, None], samples[None], fill[:, None, None])
-    dets = np.linalg.det(mats).reshape(-1, samples.shape[1])  # (2·subsets·B, K)
-    return subsets, _snap(_coefficients(dets, k)).reshape(len(subsets), 2, b, -1)
+    # every subset's matrix and its Cramer matrix in one stack, (2·subsets, B, K, n, n), but for
+    # the Cramer matrices with a zero row, whose determinant is exactly zero
+    mats = np.where(keep[live, None, None], samples[None], fill[live, None, None])
+    dets = np.zeros((keep.shape[0],) + samples.shape[:2], dtype=complex)
+    dets[live] = np.linalg.det(mats)
+    return subsets, _snap(_coefficients(dets.reshape(-1, samples.shape[1]), k)).reshape(len(subsets), 2, b, -1)
 
 
 @functools.lru_cache(maxsize=64)
 def _subset_pattern(rc: tuple[tuple[int, int], ...], n: int, out: int, source: bytes):
     """What :func:`_subset_coefficients` puts in place of the pencil's entries, by circuit
-    structure: ``(keep, fill, subsets)``, ``keep`` ``(2·subsets, n, n)`` True where the entry stays
-    and ``fill`` the entry otherwise (the op-amps' unit rows, the source column of each Cramer
-    matrix), every subset of the op-amps by size (read-only)."""
+    structure: ``(keep, fill, subsets, live)``, ``keep`` ``(2·subsets, n, n)`` True where the entry
+    stays and ``fill`` the entry otherwise (the op-amps' unit rows, the source column of each
+    Cramer matrix), every subset of the op-amps by size, and the indices of the matrices whose
+    determinant is not zero by structure: a Cramer matrix of a subset holding the op-amp that
+    drives the output has that op-amp's row all zero (its unit row lies in the output column, which
+    the source column replaces, zero there). Read-only."""
     src = np.frombuffer(source, dtype=float).astype(complex)
     subsets = tuple(sub for size in range(len(rc) + 1) for sub in itertools.combinations(range(len(rc)), size))
     keep = np.ones((2 * len(subsets), n, n), dtype=bool)
@@ -373,9 +378,11 @@ def _subset_pattern(rc: tuple[tuple[int, int], ...], n: int, out: int, source: b
             fill[2 * i : 2 * i + 2, r, c] = 1.0
     keep[1::2, :, out] = False
     fill[1::2, :, out] = src
-    keep.setflags(write=False)
-    fill.setflags(write=False)
-    return keep, fill, subsets
+    zero = [2 * i + 1 for i, subset in enumerate(subsets) if any(rc[j][1] == out and src[rc[j][0]] == 0 for j in subset)]
+    live = np.array([i for i in range(2 * len(subsets)) if i not in zero], dtype=int)
+    for a in (keep, fill, live):
+        a.setflags(write=False)
+    return keep, fill, subsets, live
 
 
 @dataclass(frozen=True, slots=True)
