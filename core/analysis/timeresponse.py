@@ -47,12 +47,31 @@ def default_time_grid(poles: np.ndarray, n: int = 1000) -> np.ndarray:
     return _UNIT_GRID[n] * t_end if n in _UNIT_GRID else np.linspace(0.0, t_end, n)
 
 
+def _polydiv(u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``numpy.polydiv(u, v)`` of two real 1-D coefficient arrays (highest power first): the same
+    long division and the same stripping of leading remainder terms (``numpy.allclose(r[0], 0,
+    rtol=1e-14)``, i.e. ``|r[0]| ≤ 1e-8``), without its general-purpose overhead."""
+    u = u + 0.0
+    v = v + 0.0
+    n = v.size - 1
+    scale = 1.0 / v[0]
+    q = np.zeros(max(u.size - n, 1))
+    r = u
+    for k in range(u.size - n):
+        d = scale * r[k]
+        q[k] = d
+        r[k : k + n + 1] -= d * v
+    while r.size > 1 and abs(r[0]) <= 1e-8:
+        r = r[1:]
+    return q, r
+
+
 def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
     """Step and impulse responses from simple poles ``p`` (the roots of ``a``):
     ``r_i = N(λ_i)/D'(λ_i)`` after division."""
     direct = 0.0
     if b.size >= a.size:
-        quotient, b = np.polydiv(b, a)
+        quotient, b = _polydiv(b, a)
         direct = float(quotient[-1])
     # A real polynomial's complex poles come in conjugate pairs whose terms are conjugate: keep
     # the upper one of each pair, twice its real part.
@@ -171,7 +190,7 @@ def max_step_slopes(h: Rational) -> list[float]:
         twice = np.where(p.imag > 0, 2.0, 1.0)
         for i, b in members:  # the impulse response h(t) = Σ r·e^{λt}, as _modal forms it
             if b.size >= a.size:
-                b = np.polydiv(b, a)[1]
+                b = _polydiv(b, a)[1]
             r = polyval_batch(b[None, :], at)[0] / dd
             r *= twice
             out[i] = float(np.abs((e @ r).real).max())
