@@ -110,8 +110,21 @@ class Rational:
         """Group delay ``−dφ/dω`` in seconds at frequencies in Hz, exact from the polynomials: ``(B, F)``."""
         w = 2.0 * np.pi * np.asarray(f_hz, dtype=float)
         p = 1j * np.broadcast_to(w, (self.batch, w.size)) / self.w_ref[:, None]
-        dn = polyval_batch(polyder_batch(self.num), p) / polyval_batch(self.num, p)
-        dd = polyval_batch(polyder_batch(self.den), p) / polyval_batch(self.den, p)
+        return self._delay(p, polyval_batch(self.num, p), polyval_batch(self.den, p))
+
+    def response_and_delay(self, f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`at_f` and :meth:`group_delay` together, ``(H, delay in s)``, each ``(B, F)``: the
+        numerator and denominator are evaluated once for both (the same points ``p = jω/w_ref``)."""
+        w = 2.0 * np.pi * np.asarray(f_hz, dtype=float)
+        p = 1j * np.broadcast_to(w, (self.batch, w.size)) / self.w_ref[:, None]
+        n = polyval_batch(self.num, p)
+        d = polyval_batch(self.den, p)
+        return n / d, self._delay(p, n, d)
+
+    def _delay(self, p: np.ndarray, n: np.ndarray, d: np.ndarray) -> np.ndarray:
+        """The group delay (s) from ``N`` and ``D`` at ``p = jω/w_ref``."""
+        dn = polyval_batch(polyder_batch(self.num), p) / n
+        dd = polyval_batch(polyder_batch(self.den), p) / d
         # d(ln H)/dω = j·(N'/N − D'/D)/w_ref; the delay is minus the imaginary part of that.
         return -np.real(dn - dd) / self.w_ref[:, None]
 
