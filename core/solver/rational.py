@@ -449,8 +449,11 @@ def _family_pairs(m: int) -> tuple[tuple[tuple[int, int], ...], np.ndarray, np.n
 def _family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
     """``C(j, i)·(−β)^i·(−α)^(j−i)`` for every pair of :func:`_family_pairs`: ``(B, pairs)``.
 
-    Each power of ``−β`` and ``−α`` is taken once (``m + 1`` of each), then picked per pair."""
+    Each power of ``−β`` and ``−α`` is taken once (``m + 1`` of each), then picked per pair; an
+    ``α`` broadcast from one value (one open-loop gain for the whole ladder) is raised once."""
     _, i_pow, rest, comb = _family_pairs(m)
+    if alpha.ndim == 1 and alpha.size > 1 and alpha.strides[0] == 0:
+        alpha = alpha[:1]  # the same number in every member: its powers broadcast below
     nb, na = -beta, -alpha
     pb = np.stack([nb**i for i in range(m + 1)], axis=1)
     pa = np.stack([na**i for i in range(m + 1)], axis=1)
