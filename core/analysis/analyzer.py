@@ -770,5 +770,5 @@ def analyze(
 def sweep(h: Rational, f_hz: np.ndarray, *, i: int = 0) -> Response:
     """Frequency response of member ``i`` of a transfer function at frequencies in Hz."""
     f = np.asarray(f_hz, dtype=float)
-    one = h.item(i)
-    return Response(f_hz=f, h=one.at_f(f)[0], group_delay_s=one.group_delay(f)[0])
+    response, delay = h.item(i).response_and_delay(f)
+    return Response(f_hz=f, h=response[0], group_delay_s=delay[0])

@@ -304,11 +304,16 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     if x0.shape != (b,):
         x0 = np.broadcast_to(x0, (b,))
     lo, hi = x0 / k2, x0 * k2
-    dpoly = polyder_batch(poly)
+    # the polynomials and their derivatives (a leading zero: the same Horner steps) in one batch
+    both = np.zeros((2 * b, poly.shape[1]))
+    both[:b] = poly
+    if poly.shape[1] > 1:  # a constant's derivative is zero
+        both[b:, 1:] = polyder_batch(poly)
     x = x0
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         for n in range(1, _NEWTON_MOST + 1):
-            step = polyval_batch(poly, x) / polyval_batch(dpoly, x)
+            v = polyval_batch(both, np.concatenate((x, x)))
+            step = v[:b] / v[b:]
             x = x - step
             if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
                 inside = (x >= lo) & (x <= hi)

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
+from bandsmith.solver.rational import Rational, coefficients_in_s, polyder_batch, polyval_batch
 
 __all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
 
@@ -47,12 +47,31 @@ def default_time_grid(poles: np.ndarray, n: int = 1000) -> np.ndarray:
     return _UNIT_GRID[n] * t_end if n in _UNIT_GRID else np.linspace(0.0, t_end, n)
 
 
+def _polydiv(u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``numpy.polydiv(u, v)`` of two real 1-D coefficient arrays (highest power first): the same
+    long division and the same stripping of leading remainder terms (``numpy.allclose(r[0], 0,
+    rtol=1e-14)``, i.e. ``|r[0]| ≤ 1e-8``), without its general-purpose overhead."""
+    u = u + 0.0
+    v = v + 0.0
+    n = v.size - 1
+    scale = 1.0 / v[0]
+    q = np.zeros(max(u.size - n, 1))
+    r = u
+    for k in range(u.size - n):
+        d = scale * r[k]
+        q[k] = d
+        r[k : k + n + 1] -= d * v
+    while r.size > 1 and abs(r[0]) <= 1e-8:
+        r = r[1:]
+    return q, r
+
+
 def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
     """Step and impulse responses from simple poles ``p`` (the roots of ``a``):
     ``r_i = N(λ_i)/D'(λ_i)`` after division."""
     direct = 0.0
     if b.size >= a.size:
-        quotient, b = np.polydiv(b, a)
+        quotient, b = _polydiv(b, a)
         direct = float(quotient[-1])
     # A real polynomial's complex poles come in conjugate pairs whose terms are conjugate: keep
     # the upper one of each pair, twice its real part.
@@ -126,14 +145,13 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
     return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.abs(slope).max()))
 
 
-def _pure_bandpass_slope(h: Rational, i: int) -> float | None:
-    """:func:`max_step_slope`'s closed form for member ``i``, or None where it does not apply."""
-    one = h.item(i)
-    num, den = one.num[0], one.den[0]
+def _pure_bandpass_slope(num: np.ndarray, den: np.ndarray, w_ref: float) -> float | None:
+    """:func:`max_step_slope`'s closed form for one member (coefficients in ``p = s/w_ref``,
+    leading zeros dropped), or None where it does not apply."""
     if den.size == 3 and num.size == 2 and num[1] == 0 and num[0] != 0:
         a2, a1, a0 = den.tolist()
         if (a2 > 0 and a1 > 0 and a0 > 0) or (a2 < 0 and a1 < 0 and a0 < 0):
-            return abs(float(num[0]) * float(h.w_ref[i]) / a2)
+            return abs(float(num[0]) * w_ref / a2)
     return None
 
 
@@ -145,11 +163,14 @@ def max_step_slopes(h: Rational) -> list[float]:
     each member's residues as :func:`_modal` finds them. Members whose poles are too close for
     the modal form go through :func:`step_response` one by one.
     """
-    out: list[float | None] = [_pure_bandpass_slope(h, i) for i in range(h.batch)]
+    out: list[float | None] = []
     groups: dict[tuple, list[tuple[int, np.ndarray]]] = {}
-    for i in range(h.batch):
+    for i, w in enumerate(h.w_ref.tolist()):
+        one = h.item(i)
+        num, den = one.num[0], one.den[0]
+        out.append(_pure_bandpass_slope(num, den, w))
         if out[i] is None:
-            b, a = h.to_s(i)
+            b, a = coefficients_in_s(num, den, w)
             groups.setdefault(tuple(a.tolist()), []).append((i, b))
     for key, members in groups.items():
         a = np.array(key)
@@ -169,7 +190,7 @@ def max_step_slopes(h: Rational) -> list[float]:
         twice = np.where(p.imag > 0, 2.0, 1.0)
         for i, b in members:  # the impulse response h(t) = Σ r·e^{λt}, as _modal forms it
             if b.size >= a.size:
-                b = np.polydiv(b, a)[1]
+                b = _polydiv(b, a)[1]
             r = polyval_batch(b[None, :], at)[0] / dd
             r *= twice
             out[i] = float(np.abs((e @ r).real).max())
@@ -186,9 +207,5 @@ def max_step_slope(h: Rational, *, i: int = 0) -> float:
     :func:`step_response`'s ``max_slope_per_s``.
     """
     one = h.item(i)
-    num, den = one.num[0], one.den[0]
-    if den.size == 3 and num.size == 2 and num[1] == 0 and num[0] != 0:
-        a2, a1, a0 = den.tolist()
-        if (a2 > 0 and a1 > 0 and a0 > 0) or (a2 < 0 and a1 < 0 and a0 < 0):
-            return abs(float(num[0]) * float(h.w_ref[i]) / a2)
-    return step_response(h, i=i).max_slope_per_s
+    slope = _pure_bandpass_slope(one.num[0], one.den[0], float(h.w_ref[i]))
+    return step_response(h, i=i).max_slope_per_s if slope is None else slope

@@ -10,6 +10,7 @@ order one, highest power first (numpy's convention).
 
 from __future__ import annotations
 
+import functools
 import itertools
 import math
 from dataclasses import dataclass
@@ -18,7 +19,7 @@ import numpy as np
 
 from bandsmith.solver.mna import MnaSystem
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "polyval_batch"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "coefficients_in_s", "polyval_batch"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -62,11 +63,14 @@ def polymul_batch(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 
 
 def _trim(c: np.ndarray) -> np.ndarray:
-    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    mag = np.abs(c)
+    scale = mag.max(axis=1, keepdims=True)
     scale[scale == 0] = 1.0
-    c = np.where(np.abs(c) <= _SNAP * scale, 0.0, c)
-    small = np.all(np.abs(c) <= _TRIM * scale, axis=0)
-    first = int(np.argmin(small)) if not small.all() else c.shape[1] - 1
+    noise = mag <= _SNAP * scale
+    c = np.where(noise, 0.0, c)
+    mag[noise] = 0.0  # |c| after the snap
+    small = (mag <= _TRIM * scale).all(axis=0)
+    first = int(small.argmin()) if not small.all() else c.shape[1] - 1
     return c[:, first:]
 
 
@@ -106,8 +110,21 @@ class Rational:
         """Group delay ``−dφ/dω`` in seconds at frequencies in Hz, exact from the polynomials: ``(B, F)``."""
         w = 2.0 * np.pi * np.asarray(f_hz, dtype=float)
         p = 1j * np.broadcast_to(w, (self.batch, w.size)) / self.w_ref[:, None]
-        dn = polyval_batch(polyder_batch(self.num), p) / polyval_batch(self.num, p)
-        dd = polyval_batch(polyder_batch(self.den), p) / polyval_batch(self.den, p)
+        return self._delay(p, polyval_batch(self.num, p), polyval_batch(self.den, p))
+
+    def response_and_delay(self, f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`at_f` and :meth:`group_delay` together, ``(H, delay in s)``, each ``(B, F)``: the
+        numerator and denominator are evaluated once for both (the same points ``p = jω/w_ref``)."""
+        w = 2.0 * np.pi * np.asarray(f_hz, dtype=float)
+        p = 1j * np.broadcast_to(w, (self.batch, w.size)) / self.w_ref[:, None]
+        n = polyval_batch(self.num, p)
+        d = polyval_batch(self.den, p)
+        return n / d, self._delay(p, n, d)
+
+    def _delay(self, p: np.ndarray, n: np.ndarray, d: np.ndarray) -> np.ndarray:
+        """The group delay (s) from ``N`` and ``D`` at ``p = jω/w_ref``."""
+        dn = polyval_batch(polyder_batch(self.num), p) / n
+        dd = polyval_batch(polyder_batch(self.den), p) / d
         # d(ln H)/dω = j·(N'/N − D'/D)/w_ref; the delay is minus the imaginary part of that.
         return -np.real(dn - dd) / self.w_ref[:, None]
 
@@ -122,12 +139,7 @@ class Rational:
     def to_s(self, i: int = 0) -> tuple[np.ndarray, np.ndarray]:
         """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) for member ``i``, as scipy.signal uses."""
         one = self.item(i)
-        num, den = one.num[0], one.den[0]
-        # powers of 1/w_ref, highest first: p = s/w_ref turns c_k·p^k into (c_k/w_ref^k)·s^k
-        scale = float(self.w_ref[i]) ** -np.arange(max(num.size, den.size) - 1, -1, -1.0)
-        b = num * scale[scale.size - num.size :]
-        a = den * scale[scale.size - den.size :]
-        return b / a[0], a / a[0]
+        return coefficients_in_s(one.num[0], one.den[0], float(self.w_ref[i]))
 
     def poles(self, i: int = 0) -> np.ndarray:
         """Poles in rad/s of member ``i``."""
@@ -137,6 +149,16 @@ class Rational:
         """Finite zeros in rad/s of member ``i``."""
         num = self.item(i).num[0]
         return np.roots(num) * self.w_ref[i] if num.size > 1 else np.zeros(0)
+
+
+def coefficients_in_s(num: np.ndarray, den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
+    """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) of ``num/den`` in ``p = s/w_ref``
+    (leading zeros already dropped): :meth:`Rational.to_s` of one member."""
+    # powers of 1/w_ref, highest first: p = s/w_ref turns c_k·p^k into (c_k/w_ref^k)·s^k
+    scale = w_ref ** -np.arange(max(num.size, den.size) - 1, -1, -1.0)
+    b = num * scale[scale.size - num.size :]
+    a = den * scale[scale.size - den.size :]
+    return b / a[0], a / a[0]
 
 
 def reference_w(system: MnaSystem) -> float:
@@ -161,7 +183,7 @@ def _degree_bound(system: MnaSystem) -> int:
 
 def _lead_trim(c: np.ndarray) -> np.ndarray:
     """Drop leading columns that are zero in every row (keeps at least one column)."""
-    if c.shape[1] < 2 or c[:, 0].any():
+    if c.shape[1] < 2 or np.count_nonzero(c[:, 0]):
         return c
     nz = np.flatnonzero((c != 0).any(axis=0))
     return c[:, nz[0] :] if nz.size else c[:, -1:]
@@ -172,14 +194,24 @@ def _coefficients(values: np.ndarray, k: int) -> np.ndarray:
 
     ``v_j = Σ_k c_k e^{ikθ_j}``: an FFT gives ``c_k·e^{ik·offset}``, ascending powers.
     """
+    return (np.fft.fft(values, axis=1) / k * _circle(k)[1]).real[:, ::-1]
+
+
+@functools.lru_cache(maxsize=64)
+def _circle(k: int) -> tuple[np.ndarray, np.ndarray]:
+    """The ``k`` rotated unit points ``e^{iθ_j}`` of :func:`_samples` and the factors
+    ``e^{−ik·offset}`` that :func:`_coefficients` undoes the rotation with (read-only)."""
+    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
+    points = np.exp(1j * theta)
     undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
-    return (np.fft.fft(values, axis=1) / k * undo).real[:, ::-1]
+    points.setflags(write=False)
+    undo.setflags(write=False)
+    return points, undo
 
 
 def _samples(system: MnaSystem, w: np.ndarray) -> tuple[int, np.ndarray]:
     k = _degree_bound(system) + 1
-    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
-    return k, system.matrix(w[:, None] * np.exp(1j * theta)[None, :])
+    return k, system.matrix(w[:, None] * _circle(k)[0][None, :])
 
 
 def rational_from_system(system: MnaSystem, w_ref: float | np.ndarray | None = None, *, circle_w: float | None = None) -> Rational:
@@ -320,21 +352,50 @@ def _subset_dets(samples: np.ndarray, k: int, terms, source: np.ndarray, out: in
     ``det(A_S)`` and of its Cramer numerator, ``A_S`` the sampled ideal pencil ``samples``
     (``(B, K, n, n)``) with the rows of the op-amps in ``S`` replaced by the unit rows of their
     output columns (see :func:`_by_amplifiers`)."""
-    src = source.astype(complex)
-    subsets = [sub for size in range(len(terms) + 1) for sub in itertools.combinations(range(len(terms)), size)]
-    b = samples.shape[0]
-    # every subset's matrix and its Cramer matrix in one stack: (2·subsets, B, K, n, n)
-    mats = np.repeat(samples[None], 2 * len(subsets), axis=0)
-    for i, subset in enumerate(subsets):
-        for j in subset:
-            r, c = terms[j][0], terms[j][1]
-            mats[2 * i : 2 * i + 2, ..., r, :] = 0.0
-            mats[2 * i : 2 * i + 2, ..., r, c] = 1.0
-    mats[1::2, ..., :, out] = src
-    dets = np.linalg.det(mats).reshape(-1, samples.shape[1])  # (2·subsets·B, K)
-    coef = _snap(_coefficients(dets, k)).reshape(len(subsets), 2, b, -1)
+    subsets, coef = _subset_coefficients(samples, k, terms, source, out)
     for i, subset in enumerate(subsets):
         yield subset, coef[i, 0], coef[i, 1]
+
+
+def _subset_coefficients(samples: np.ndarray, k: int, terms, source: np.ndarray, out: int):
+    """:func:`_subset_dets` as arrays: ``(subsets, coef)`` with ``coef[i, 0]`` the coefficients of
+    ``det(A_S)`` and ``coef[i, 1]`` of its Cramer numerator for ``S = subsets[i]``: ``(S, 2, B, K)``."""
+    keep, fill, subsets, live = _subset_pattern(tuple((t[0], t[1]) for t in terms), samples.shape[-1], out, source.tobytes())
+    b = samples.shape[0]
+    # every subset's matrix and its Cramer matrix in one stack, (2·subsets, B, K, n, n), but for
+    # the Cramer matrices with a zero row, whose determinant is exactly zero
+    mats = np.where(keep[live, None, None], samples[None], fill[live, None, None])
+    dets = np.zeros((keep.shape[0],) + samples.shape[:2], dtype=complex)
+    dets[live] = np.linalg.det(mats)
+    return subsets, _snap(_coefficients(dets.reshape(-1, samples.shape[1]), k)).reshape(len(subsets), 2, b, -1)
+
+
+@functools.lru_cache(maxsize=64)
+def _subset_pattern(rc: tuple[tuple[int, int], ...], n: int, out: int, source: bytes):
+    """What :func:`_subset_coefficients` puts in place of the pencil's entries, by circuit
+    structure: ``(keep, fill, subsets, live)``, ``keep`` ``(2·subsets, n, n)`` True where the entry
+    stays and ``fill`` the entry otherwise (the op-amps' unit rows, the source column of each
+    Cramer matrix), every subset of the op-amps by size, and the indices of the matrices whose
+    determinant is not zero by structure: a Cramer matrix of a subset holding the op-amp that
+    drives the output has that op-amp's row all zero (its unit row lies in the output column, which
+    the source column replaces, zero there). Read-only."""
+    src = np.frombuffer(source, dtype=float).astype(complex)
+    subsets = tuple(sub for size in range(len(rc) + 1) for sub in itertools.combinations(range(len(rc)), size))
+    keep = np.ones((2 * len(subsets), n, n), dtype=bool)
+    fill = np.zeros((2 * len(subsets), n, n), dtype=complex)
+    for i, subset in enumerate(subsets):
+        for j in subset:
+            r, c = rc[j]
+            keep[2 * i : 2 * i + 2, r, :] = False
+            fill[2 * i : 2 * i + 2, r, :] = 0.0
+            fill[2 * i : 2 * i + 2, r, c] = 1.0
+    keep[1::2, :, out] = False
+    fill[1::2, :, out] = src
+    zero = [2 * i + 1 for i, subset in enumerate(subsets) if any(rc[j][1] == out and src[rc[j][0]] == 0 for j in subset)]
+    live = np.array([i for i in range(2 * len(subsets)) if i not in zero], dtype=int)
+    for a in (keep, fill, live):
+        a.setflags(write=False)
+    return keep, fill, subsets, live
 
 
 @dataclass(frozen=True, slots=True)
@@ -361,8 +422,9 @@ class AmpFamily:
         alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
         beta = self.w_ref / (2.0 * np.pi * gbw)
         m = len(self.den_terms) - 1
-        num = _family_sum(self.num_terms, alpha, beta, m)
-        den = _family_sum(self.den_terms, alpha, beta, m)
+        weights = _family_weights(alpha, beta, m)
+        num = weights @ _family_shifted(self.num_terms, m)
+        den = weights @ _family_shifted(self.den_terms, m)
         den = _lead_trim(den)
         num = _lead_trim(num)
         scale = np.max(np.abs(den), axis=1, keepdims=True)
@@ -370,17 +432,43 @@ class AmpFamily:
         return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
 
 
-def _family_sum(terms: tuple[np.ndarray, ...], alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
-    """``Σ_j x^j·T_j(p)`` for ``x = −α − β·p`` (batched over α, β), highest power first."""
+@functools.lru_cache(maxsize=16)
+def _family_pairs(m: int) -> tuple[tuple[tuple[int, int], ...], np.ndarray, np.ndarray, np.ndarray]:
+    """The pairs ``(j, i)``, ``0 ≤ i ≤ j ≤ m``, of the terms ``x^j·T_j`` (``x = −α − β·p``) expanded
+    by the binomial theorem, with the powers ``i`` and ``j − i`` (index arrays) and the binomial
+    coefficients ``C(j, i)`` (read-only)."""
+    pairs = tuple((j, i) for j in range(m + 1) for i in range(j + 1))
+    i_pow = np.array([i for _, i in pairs])
+    rest = np.array([j - i for j, i in pairs])
+    comb = np.array([float(math.comb(j, i)) for j, i in pairs])
+    for a in (i_pow, rest, comb):
+        a.setflags(write=False)
+    return pairs, i_pow, rest, comb
+
+
+def _family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
+    """``C(j, i)·(−β)^i·(−α)^(j−i)`` for every pair of :func:`_family_pairs`: ``(B, pairs)``.
+
+    Each power of ``−β`` and ``−α`` is taken once (``m + 1`` of each), then picked per pair; an
+    ``α`` broadcast from one value (one open-loop gain for the whole ladder) is raised once."""
+    _, i_pow, rest, comb = _family_pairs(m)
+    if alpha.ndim == 1 and alpha.size > 1 and alpha.strides[0] == 0:
+        alpha = alpha[:1]  # the same number in every member: its powers broadcast below
+    nb, na = -beta, -alpha
+    pb = np.stack([nb**i for i in range(m + 1)], axis=1)
+    pa = np.stack([na**i for i in range(m + 1)], axis=1)
+    return np.ascontiguousarray(comb * pb[:, i_pow] * pa[:, rest])
+
+
+def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> np.ndarray:
+    """The shifted terms ``T_j·p^i`` of every pair of :func:`_family_pairs`: ``(pairs, length)``."""
     length = max(t.size + j for j, t in enumerate(terms))
-    pairs = [(j, i) for j in range(m + 1) for i in range(j + 1)]
+    pairs = _family_pairs(m)[0]
     shifted = np.zeros((len(pairs), length))
-    weights = np.empty((alpha.size, len(pairs)))
     for n, (j, i) in enumerate(pairs):
         t = terms[j]
         shifted[n, length - t.size - i : length - i] = t  # T_j·p^i
-        weights[:, n] = math.comb(j, i) * (-beta) ** i * (-alpha) ** (j - i)
-    return weights @ shifted
+    return shifted
 
 
 def amp_family(system: MnaSystem, w_ref: float) -> AmpFamily | None:
@@ -397,14 +485,18 @@ def amp_family(system: MnaSystem, w_ref: float) -> AmpFamily | None:
 def _amp_family(system: MnaSystem, samples: np.ndarray, k: int, w: float) -> AmpFamily:
     """:class:`AmpFamily` of member 0 of an ideal-op-amp system (its sampled pencil given)."""
     terms = system.amp_terms
-    m = len(terms)
-    nums: list = [None] * (m + 1)
-    dens: list = [None] * (m + 1)
-    for subset, d_c, n_c in _subset_dets(samples[:1], k, terms, system.source_vector(), system.output_index):
-        j = len(subset)
-        dens[j] = d_c if dens[j] is None else _padd(dens[j], d_c)
-        nums[j] = n_c if nums[j] is None else _padd(nums[j], n_c)
-    return AmpFamily(tuple(n[0] for n in nums), tuple(d[0] for d in dens), float(w))
+    subsets, coef = _subset_coefficients(samples[:1], k, terms, system.source_vector(), system.output_index)
+    # the sum over the subsets of each size (they come by size), added in their order
+    sums = []
+    start = 0
+    for j in range(len(terms) + 1):
+        stop = start + math.comb(len(terms), j)
+        acc = coef[start, :, 0]  # (2, K): determinant and Cramer numerator
+        for i in range(start + 1, stop):
+            acc = acc + coef[i, :, 0]
+        sums.append(acc)
+        start = stop
+    return AmpFamily(tuple(x[1] for x in sums), tuple(x[0] for x in sums), float(w))
 
 
 def _snap(c: np.ndarray) -> np.ndarray:

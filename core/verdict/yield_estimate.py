@@ -157,9 +157,9 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
         x = s @ _log_deviations(tuple(p.tolist()))  # (3, points): the figures' log deviations
     else:
         x = np.zeros((len(FIGURES), 1))
-    inside = [(row >= a) & (row <= b) for row, a, b in zip(x, lo, hi)]
+    inside = (x >= np.array(lo)[:, None]) & (x <= np.array(hi)[:, None])  # (3, points), all rows at once
     fraction = np.count_nonzero(inside[0] & inside[1] & inside[2]) / x.shape[1]
-    within = np.array([np.count_nonzero(row) for row in inside]) / x.shape[1]
+    within = np.count_nonzero(inside, axis=1) / x.shape[1]
     k = int(np.argmin(within)) if refs else 0
     if refs and contrib[k].sum() > 0:
         j = int(np.argmax(contrib[k]))
