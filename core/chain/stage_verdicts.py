@@ -136,7 +136,22 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     cands = [(i, res, a) for i, (res, a) in enumerate(tried) if res is not None and a.feasible and res.feasible]
     if not cands:
         return None
-    verdicts = [judge(res, limits, candidate=a.topology_id) for _, res, a in cands]
+    # A circuit whose parts miss the stage's tolerances, that no GBW serves or only one beyond the
+    # ceiling or the op-amp's, or whose spread is beyond the limits, is not buildable (judge's
+    # figure, GBW and spread reasons, from the attempt's own numbers): while another one judges
+    # better it cannot be chosen, so it is judged only when none does. Dropping it keeps the
+    # others' order (rank's key ends in their position).
+    def hopeless(res, a) -> bool:
+        own = res.conditions.gbw_hz
+        return (not a.within or a.gbw_hz is None or not math.isfinite(a.gbw_hz) or a.gbw_hz > limits.gbw_max_hz
+                or (own is not None and a.gbw_hz > own) or a.r_spread > limits.r_spread_max or a.c_spread > limits.c_spread_max)
+
+    sure = [hopeless(res, a) for _, res, a in cands]
+    judged = {k: judge(cands[k][1], limits, candidate=cands[k][2].topology_id) for k in range(len(cands)) if not sure[k]}
+    if not any(v.verdict != NOT_BUILDABLE for v in judged.values()):
+        judged = {k: judged.get(k) or judge(cands[k][1], limits, candidate=cands[k][2].topology_id) for k in range(len(cands))}
+    cands = [cands[k] for k in judged]
+    verdicts = list(judged.values())
     ranking = rank(verdicts)
     def key(k):
         v, a = verdicts[k], cands[k][2]
