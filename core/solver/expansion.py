@@ -171,25 +171,27 @@ def table_path():
 
 def _load_table() -> dict:
     """The shipped table's index, ``{hash: (start, end)}`` byte offsets of each entry's JSON object
-    from the end of the index line, and ``"@base"``: where that is. Empty when the file is missing
-    or stale (its stamp is not :func:`_table_stamp`). Only the three header lines are read here;
-    an entry is read and parsed when asked for (:func:`_table_line`)."""
+    from the end of the index line, ``"@base"``: where that is, and ``"@raw"``: the file's bytes.
+    Empty when the file is missing or stale (its stamp is not :func:`_table_stamp`). Only the
+    header is parsed here; an entry is parsed when asked for (:func:`_table_line`)."""
     global _TABLE
     if _TABLE is None:
         _TABLE = {}
-        import json
-
         try:
             with open(table_path(), "rb") as fh:
-                first, stamp, index = fh.readline(), fh.readline(), fh.readline()
-                base = fh.tell()
+                raw = fh.read()
         except OSError:
             return _TABLE
+        import json
+
         # "{", then "stamp": {...}, then "index": {...}, then one entry per line: "<hash>": {...},
-        if (first.strip() == b"{" and stamp.startswith(b'"stamp": ') and index.startswith(b'"index": ')
-                and json.loads(stamp[9:].rstrip(b",\n")) == _table_stamp()):
-            _TABLE = {name: tuple(span) for name, span in json.loads(index[9:].rstrip(b",\n")).items()}
-            _TABLE["@base"] = base
+        parts = raw.split(b"\n", 3)
+        first, stamp, index = (parts + [b"", b"", b""])[:3]
+        if (len(parts) == 4 and first == b"{" and stamp.startswith(b'"stamp": ') and index.startswith(b'"index": ')
+                and json.loads(stamp[9:].rstrip(b",")) == _table_stamp()):
+            _TABLE = {name: tuple(span) for name, span in json.loads(index[9:].rstrip(b",")).items()}
+            _TABLE["@base"] = len(first) + len(stamp) + len(index) + 3
+            _TABLE["@raw"] = raw
     return _TABLE
 
 
@@ -199,12 +201,8 @@ def _table_line(name: str) -> bytes | None:
     span = table.get(name)
     if span is None:
         return None
-    try:
-        with open(table_path(), "rb") as fh:
-            fh.seek(table["@base"] + span[0])
-            return fh.read(span[1] - span[0])
-    except OSError:
-        return None
+    base = table["@base"]
+    return table["@raw"][base + span[0] : base + span[1]]
 
 
 def _table_fit(key: tuple) -> "_Fit | str | None":
@@ -218,10 +216,23 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
     entry = json.loads(raw)
     if "unavailable" in entry:
         return str(entry["unavailable"])
-    return _fit_of(
-        np.array(entry["exps"], dtype=np.int64).reshape(-1, entry["n_var"]),
-        np.array(entry["den"], dtype=float), np.array(entry["num"], dtype=float), int(entry["low"]),
-    )
+    exps = (np.frombuffer(entry["exps"].encode("ascii"), dtype=np.uint8).astype(np.int64) - 48).reshape(-1, entry["n_var"])
+    return _fit_of(exps, _dense_of(entry["den"], exps.shape[0]), _dense_of(entry["num"], exps.shape[0]), int(entry["low"]))
+
+
+def _sparse_of(c: np.ndarray) -> list:
+    """A coefficient matrix ``(M, k)`` for the table: ``[k, flat indices, values]`` of its nonzero entries."""
+    flat = c.reshape(-1)
+    nz = np.flatnonzero(flat)
+    return [int(c.shape[1]), nz.tolist(), flat[nz].tolist()]
+
+
+def _dense_of(sparse: list, rows: int) -> np.ndarray:
+    """The matrix :func:`_sparse_of` wrote."""
+    cols, at, values = sparse
+    out = np.zeros(rows * cols)
+    out[at] = values
+    return out.reshape(rows, cols)
 
 
 def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, dict]:
@@ -244,8 +255,10 @@ def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, dict]
                 _FITS[key] = saved
     except ExpansionUnavailable as exc:
         return structure_hash(key), {"unavailable": str(exc)}
-    entry = {"n_var": len(variables), "low": fit.low, "exps": fit.exps.reshape(-1).tolist(),
-             "den": fit.den.tolist(), "num": fit.num.tolist()}
+    if fit.exps.size and (fit.exps.min() < 0 or fit.exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
+        raise ValueError("an exponent beyond one digit")
+    entry = {"n_var": len(variables), "low": fit.low, "exps": "".join(str(int(e)) for e in fit.exps.reshape(-1)),
+             "den": _sparse_of(fit.den), "num": _sparse_of(fit.num)}
     return structure_hash(key), entry
 
 
@@ -399,14 +412,16 @@ class Expansion:
         """Scale the structural coefficients to the nominal values and to ``p = s/w_ref``."""
         exps, den, num, low = fit.exps, fit.den, fit.num, fit.low
         # in logs, so that nothing overflows
-        log_stamp = np.array([v.log_stamp for v in self.variables])
-        base = exps @ log_stamp  # (M,)
-        log_w = math.log(self.w_ref)
-        lden = base[:, None] + (np.arange(den.shape[1]) + low)[None, :] * log_w
-        lnum = base[:, None] + (np.arange(num.shape[1]) + low)[None, :] * log_w
-        shift = np.max(np.where(den != 0, lden, -np.inf))
-        den = np.where(den != 0, den * np.exp(np.minimum(lden - shift, 700.0)), 0.0)
-        num = np.where(num != 0, num * np.exp(np.minimum(lnum - shift, 700.0)), 0.0)
+        log_stamps = [v.log_stamp for v in self.variables]
+        if self.w_ref != 1.0 or any(log_stamps):  # (unit stamps and w_ref = 1, as unit_expansion's: nothing to scale)
+            log_stamp = np.array(log_stamps)
+            base = exps @ log_stamp  # (M,)
+            log_w = math.log(self.w_ref)
+            lden = base[:, None] + (np.arange(den.shape[1]) + low)[None, :] * log_w
+            lnum = base[:, None] + (np.arange(num.shape[1]) + low)[None, :] * log_w
+            shift = np.max(np.where(den != 0, lden, -np.inf))
+            den = np.where(den != 0, den * np.exp(np.minimum(lden - shift, 700.0)), 0.0)
+            num = np.where(num != 0, num * np.exp(np.minimum(lnum - shift, 700.0)), 0.0)
         #: Powers of p present in the numerator and denominator (ascending).
         self.num_powers = fit.num_powers
         self.den_powers = fit.den_powers
