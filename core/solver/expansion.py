@@ -16,6 +16,11 @@ matrices; a batch of part values then costs one matrix product instead of one LU
 trial and interpolation point. The result is checked against
 :func:`bandsmith.solver.rational.rational_from_system` on a few perturbed members when built; a netlist that
 does not fit the assumptions raises :class:`ExpansionUnavailable` and callers use the solver.
+
+The fits of our circuits' usual structures ship precomputed (``bandsmith/resources/expansions.json``,
+looked up by :func:`structure_hash` of the netlist structure and read lazily, one entry at a time),
+so that a process's first analysis does not pay for them; a structure the file does not hold is
+fitted and verified on first use as above.
 """
 
 from __future__ import annotations
