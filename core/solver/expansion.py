@@ -385,15 +385,35 @@ class Expansion:
     """
 
     def __init__(self, netlist: Netlist, opamp: OpAmpModel = IDEAL, *, w_ref: float):
-        self.netlist = netlist
+        variables = circuit_variables(netlist, opamp)
+        self._setup(netlist, None, opamp, w_ref, variables, _structure_key(netlist, variables))
+
+    @classmethod
+    def _at_unit(cls, netlist: Netlist, opamp: OpAmpModel, variables: tuple[Variable, ...], key: tuple) -> "Expansion":
+        """``Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)`` from ``netlist``'s own variables
+        and structure key (the unit netlist's are the same with the parts at 1); the unit netlist
+        itself is built only when needed (a fit, a check)."""
+        self = cls.__new__(cls)
+        unit = tuple(Variable(v.name, v.kind, 1.0, v.degree) if v.kind in ("R", "C", "L", "RS") else v for v in variables)
+        self._setup(None, netlist, opamp, 1.0, unit, key)
+        return self
+
+    @property
+    def netlist(self) -> Netlist:
+        """The circuit at the nominal values."""
+        if self._netlist is None:
+            self._netlist = _unit_netlist(self._unit_of)
+        return self._netlist
+
+    def _setup(self, netlist, unit_of, opamp, w_ref, variables, key) -> None:
+        self._netlist, self._unit_of = netlist, unit_of
         self.opamp = opamp
         self.w_ref = float(w_ref)
-        self.variables = circuit_variables(netlist, opamp)
+        self.variables = variables
         self.names = tuple(v.name for v in self.variables)
         sizes = [v.degree + 1 for v in self.variables]
         if math.prod(sizes) > MAX_POINTS:
             raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
-        key = _structure_key(netlist, self.variables)
         fit = _FITS.get(key)
         if fit is None:
             shipped = _table_fit(key)
@@ -402,11 +422,11 @@ class Expansion:
             if shipped is not None:  # computed and verified when the table was written
                 _FITS[key] = fit = shipped
         if fit is None:
-            _FITS[key] = fit = _structural_fit(netlist, self.variables, opamp, sizes)
+            _FITS[key] = fit = _structural_fit(self.netlist, self.variables, opamp, sizes)
             # Checked once per structure, at unit values (well conditioned for the solver it is
             # checked against): the integer fit does not depend on the values.
             try:
-                Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)._verify()
+                Expansion(_unit_netlist(self.netlist), opamp, w_ref=1.0)._verify()
             except ExpansionUnavailable:
                 del _FITS[key]
                 raise
@@ -615,9 +635,10 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Expansi
     :class:`ExpansionUnavailable` as :class:`Expansion` does.
     """
     variables = circuit_variables(netlist, opamp)
-    key = (_structure_key(netlist, variables), opamp)
+    structure = _structure_key(netlist, variables)
+    key = (structure, opamp)
     exp = _UNIT.get(key)
     if exp is None:
-        exp = Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)
+        exp = Expansion._at_unit(netlist, opamp, variables, structure)
         _UNIT[key] = exp
     return exp, variables
