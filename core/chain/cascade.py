@@ -291,14 +291,13 @@ def _stacked(stages: tuple[Stage, ...], actual: bool) -> Rational | None:
     """Every stage's transfer function (the finite op-amp's where asked and known) as one batch,
     or None when a stage has none (or there is no stage).
 
-    The coefficients are padded with leading zeros to a common length: Horner's rule then gives
-    each member the very value its own evaluation gives, in one pass over all stages.
+    Each stage's first member (as :meth:`Cascade.stage_responses` always took), its coefficients
+    padded with leading zeros to a common length: Horner's rule then gives each stage the very
+    value its own evaluation gives, in one pass over all stages.
     """
     hs = [st.h_actual if actual and st.h_actual is not None else st.h_ideal for st in stages]
     if not hs or any(h is None for h in hs):
         return None
-    if len(hs) == 1:
-        return hs[0]
 
     def pad(rows):
         width = max(r.shape[1] for r in rows)
