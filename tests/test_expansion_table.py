@@ -102,7 +102,8 @@ def test_a_structure_not_in_the_table_is_fitted(no_fits, monkeypatch):
 
 
 def test_a_stale_table_is_ignored(no_fits, monkeypatch, tmp_path):
-    text = E.table_path().read_text(encoding="utf-8").replace('"format": 1', '"format": 0', 1)
+    text = E.table_path().read_text(encoding="utf-8").replace(f'"format": {E.TABLE_FORMAT}', '"format": 0', 1)
+    assert text != E.table_path().read_text(encoding="utf-8")
     (tmp_path / "expansions.json").write_text(text, encoding="utf-8")
     monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
     assert E._load_table() == {}
@@ -121,3 +122,16 @@ def test_a_damaged_table_is_ignored(no_fits, monkeypatch, tmp_path):
     (tmp_path / "expansions.json").write_text("{\n", encoding="utf-8")
     monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
     assert E._load_table() == {}
+
+
+def test_a_damaged_entry_is_fitted(no_fits, monkeypatch, tmp_path):
+    topo = get_topology("sallen-key")
+    net = topo.build(topo.example)
+    name = E.structure_hash(E._structure_key(net, E.circuit_variables(net, IDEAL)))
+    text = E.table_path().read_text(encoding="utf-8")
+    start = text.index(f'\n"{name}": ') + len(name) + 5
+    broken = text[:start] + '{"n_var":1' + " " * (text.index("\n", start) - start - 10) + text[text.index("\n", start):]
+    assert len(broken) == len(text)  # the index still points at the right bytes
+    (tmp_path / "expansions.json").write_text(broken, encoding="utf-8")
+    monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
+    _agrees_with_solver(net, IDEAL)

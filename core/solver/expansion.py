@@ -153,7 +153,7 @@ _FITS: dict[tuple, _Fit] = {}
 # file (a circuit added later, a changed netlist) is fitted and verified as before. A fit's
 # inputs beside the structure are the constants below: a file written with other ones is ignored.
 TABLE_FILE = "expansions.json"
-TABLE_FORMAT = 1
+TABLE_FORMAT = 2
 _TABLE: dict | None = None
 
 
@@ -169,9 +169,12 @@ def _table_stamp() -> dict:
     return {"format": TABLE_FORMAT, "zero": _ZERO, "angle_offset": _ANGLE_OFFSET, "max_points": MAX_POINTS}
 
 
+_TABLE_PATH = resource_path(TABLE_FILE)
+
+
 def table_path():
     """Where the shipped table is (a file of :mod:`bandsmith.resources`)."""
-    return resource_path(TABLE_FILE)
+    return _TABLE_PATH
 
 
 def _load_table() -> dict:
@@ -218,11 +221,15 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
         return None
     import json
 
-    entry = json.loads(raw)
-    if "unavailable" in entry:
-        return str(entry["unavailable"])
-    exps = (np.frombuffer(entry["exps"].encode("ascii"), dtype=np.uint8).astype(np.int64) - 48).reshape(-1, entry["n_var"])
-    return _fit_of(exps, _dense_of(entry["den"], exps.shape[0]), _dense_of(entry["num"], exps.shape[0]), int(entry["low"]))
+    try:
+        entry = json.loads(raw)
+        if "unavailable" in entry:
+            return str(entry["unavailable"])
+        exps = (np.frombuffer(entry["exps"].encode("ascii"), dtype=np.uint8).astype(np.int64) - 48).reshape(-1, entry["n_var"])
+        return _fit_of(exps, _dense_of(entry["den"], exps.shape[0]), _dense_of(entry["num"], exps.shape[0]), int(entry["low"]),
+                       (entry["num_powers"], entry["den_powers"]))
+    except (ValueError, KeyError, TypeError, IndexError):  # a damaged entry: fitted instead
+        return None
 
 
 def _sparse_of(c: np.ndarray) -> list:
@@ -263,7 +270,7 @@ def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, dict]
     if fit.exps.size and (fit.exps.min() < 0 or fit.exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
         raise ValueError("an exponent beyond one digit")
     entry = {"n_var": len(variables), "low": fit.low, "exps": "".join(str(int(e)) for e in fit.exps.reshape(-1)),
-             "den": _sparse_of(fit.den), "num": _sparse_of(fit.num)}
+             "den": _sparse_of(fit.den), "num": _sparse_of(fit.num), "num_powers": list(fit.num_powers), "den_powers": list(fit.den_powers)}
     return structure_hash(key), entry
 
 
@@ -342,11 +349,13 @@ def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: Op
     return _fit_of(exps, den[:, low : den_pw[-1] + 1], num[:, low : num_pw[-1] + 1], low)
 
 
-def _fit_of(exps: np.ndarray, den: np.ndarray, num: np.ndarray, low: int) -> _Fit:
+def _fit_of(exps: np.ndarray, den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
     """A :class:`_Fit` from its exponents ``(M, n_var)``, its trimmed coefficients ``(M, ·)``
-    (ascending powers of ``s`` from ``s^low``) and ``low``."""
-    num_powers = tuple(int(p) for p in np.flatnonzero(np.any(num != 0, axis=0)))
-    den_powers = tuple(int(p) for p in np.flatnonzero(np.any(den != 0, axis=0)))
+    (ascending powers of ``s`` from ``s^low``), ``low``, and the powers present in the numerator
+    and the denominator when known (the columns with a nonzero coefficient)."""
+    if powers is None:
+        powers = tuple(tuple(int(p) for p in np.flatnonzero(np.any(c != 0, axis=0))) for c in (num, den))
+    num_powers, den_powers = (tuple(p) for p in powers)
     return _Fit(exps=exps, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers, exps_f=exps.astype(float))
 
 
