@@ -359,3 +359,20 @@ def test_settings_bad_input(kwargs, field):
     with pytest.raises(InputError) as exc:
         ChainSettings.from_request(f0_hz=1e3, bw_hz=100.0, **kwargs)
     assert exc.value.field == field
+
+
+def test_stage_responses_are_each_stage_against_scipy_freqs():
+    # Every stage evaluated in one batch (bandsmith.chain.cascade) against scipy.signal.freqs of
+    # that stage's own polynomials in s (Rational.to_s), ideal and with a 10 MHz op-amp; our
+    # scenario: a 10 kHz channel, Chebyshev 0.5 dB, order 6, 3 kHz wide, E24 parts.
+    s = ChainSettings.from_request("chebyshev", 6, f0_hz=10e3, bw_hz=3e3, series="E24")
+    r = design_cascade(s, conditions=Conditions(gbw_hz=10e6))
+    assert r.feasible, r.reason
+    f = np.geomspace(1e3, 1e5, 301)
+    for actual in (False, True):
+        got = r.stage_responses(f, actual=actual)
+        for k, st in enumerate(r.stages):
+            b, a = (st.h_actual if actual else st.h_ideal).to_s()
+            _, want = scipy.signal.freqs(b, a, worN=2 * np.pi * f)
+            assert_allclose(got[k], want, rtol=1e-9)
+        assert_allclose(r.response(f, actual=actual), np.prod(got, axis=0), rtol=1e-12)

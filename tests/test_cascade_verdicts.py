@@ -211,3 +211,36 @@ def test_cli_shows_verdicts_first_and_json_keeps_its_keys():
     assert old_top | {"verdict", "reasons"} <= set(out)
     for sec in out["sections"]:
         assert {"index", "circuit", "feasible", "reason", "chosen", "errors", "warnings", "tried", "verdict", "reasons"} <= set(sec)
+
+
+def test_auto_pick_is_the_rule_applied_to_every_circuit_judged(monkeypatch):
+    # choose_auto judges only the circuits that can still be chosen; its pick must be the one the
+    # module's rule gives with every feasible circuit judged (verdict, sane, fewer not-buildable
+    # reasons, nearest-fit step, then rank). Our scenario: a 40 kHz receiver channel, 16 kHz wide,
+    # gain 10, a 20 MHz op-amp (the stages' pick turns on verdicts and fits alike).
+    from bandsmith.chain.stage_verdicts import FIT_STEP, choose_auto
+    from bandsmith.verdict import rank
+
+    seen = []
+
+    def spy(tried, series, *a, **k):
+        pick = choose_auto(tried, series, *a, **k)
+        seen.append((tried, pick))
+        return pick
+
+    monkeypatch.setattr(cascade_mod, "choose_auto", spy)
+    s = ChainSettings.from_request("butterworth", 8, f0_hz=40e3, bw_hz=16e3, gain=10.0, series="E24")
+    design_cascade(s, conditions=Conditions(gbw_hz=20e6))
+    assert len(seen) == 8
+    for tried, pick in seen:
+        cands = [(i, res, a) for i, (res, a) in enumerate(tried) if res is not None and a.feasible and res.feasible]
+        verdicts = [judge(res, candidate=a.topology_id) for _, res, a in cands]
+        ranks = rank(verdicts).ranks
+
+        def key(k):
+            v, a = verdicts[k], cands[k][2]
+            heavy = sum(1 for r in v.reasons if r.weight == NOT_BUILDABLE) if v.verdict == NOT_BUILDABLE else 0
+            near = math.floor(a.weighted / FIT_STEP + 1e-9) if math.isfinite(a.weighted) else math.inf
+            return (VERDICTS.index(v.verdict), not a.sane, heavy, near, ranks[k])
+
+        assert pick[0] == cands[min(range(len(cands)), key=key)][0]

@@ -252,6 +252,9 @@ class Cascade:
         A stage that could not be built contributes its planned ideal section.
         """
         f = np.asarray(f_hz, dtype=float)
+        stacked = _stacked(self.stages, actual)
+        if stacked is not None:  # every stage built: one evaluation of all of them
+            return stacked.at_f(f)
         out = np.empty((len(self.stages), f.size), dtype=complex)
         for k, st in enumerate(self.stages):
             h = st.h_actual if actual and st.h_actual is not None else st.h_ideal
@@ -282,6 +285,28 @@ class Cascade:
             ChainStage(st.index, st.plan.f0_hz, st.plan.q, st.plan.gain, st.circuit, st.chosen, cid) for st, cid in zip(self.stages, ids)
         )
         return Chain(chain_id, self.settings, stages, notes)
+
+
+def _stacked(stages: tuple[Stage, ...], actual: bool) -> Rational | None:
+    """Every stage's transfer function (the finite op-amp's where asked and known) as one batch,
+    or None when a stage has none (or there is no stage).
+
+    Each stage's first member (as :meth:`Cascade.stage_responses` always took), its coefficients
+    padded with leading zeros to a common length: Horner's rule then gives each stage the very
+    value its own evaluation gives, in one pass over all stages.
+    """
+    hs = [st.h_actual if actual and st.h_actual is not None else st.h_ideal for st in stages]
+    if not hs or any(h is None for h in hs):
+        return None
+
+    def pad(rows):
+        width = max(r.shape[1] for r in rows)
+        out = np.zeros((len(rows), width))
+        for k, r in enumerate(rows):
+            out[k, width - r.shape[1]:] = r[0]
+        return out
+
+    return Rational(pad([h.num for h in hs]), pad([h.den for h in hs]), np.array([float(h.w_ref[0]) for h in hs]))
 
 
 def _design(topology_id: str, plan: SectionPlan, series: str, conditions: Conditions):
@@ -535,24 +560,33 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
     if not feasible:
         return shell
     stages = _loaded(stages)
-    peaks_db = peaks_internal(stages, shell.stage_responses, f, q_max)
+    ideal, finite = _stacked(stages, False), _stacked(stages, True)  # stage transfer functions, built once
+
+    def stage_h(x, *, actual=False):
+        return (finite if actual else ideal).at_f(x)
+
+    def response(x, *, actual=False):
+        return np.prod(stage_h(x, actual=actual), axis=0)
+
+    peaks_db = peaks_internal(stages, stage_h, f, q_max)
     stages = tuple(replace(s, peak_internal_gain_db=float(p)) for s, p in zip(stages, peaks_db))
     shell = replace(shell, stages=stages)
-    h = shell.response(f)
+    h = response(f)
     ref = shell.reference_response(f)
-    overall = measure_chain(shell.response, settings, f, q_max)
+    overall = measure_chain(response, settings, f, q_max)
     band = (f >= settings.f_low_hz) & (f <= settings.f_high_hz)
-    overall_actual = actual_dev = None
+    overall_actual = actual_dev = act_band = None
     if conditions.opamp is not None:
-        overall_actual = measure_chain(lambda x: shell.response(x, actual=True), settings, f, q_max)
-        actual_dev = max_dev_db(shell.response(f, actual=True), ref)
+        overall_actual = measure_chain(lambda x: response(x, actual=True), settings, f, q_max)
+        h_act = response(f, actual=True)
+        actual_dev = max_dev_db(h_act, ref)
+        act_band = max_dev_db(h_act[band], ref[band])
     band_dev = max_dev_db(h[band], ref[band])
     warnings = list(shell.warnings)  # every stage outside its hold
     if band_dev > WARN_BAND_DEV_DB:
         finer = "" if settings.series in ("exact", "E192") else "; a finer series (E96, say) or trimming the sharpest stages brings it closer"
         warnings.append(f"with {settings.series} parts the chain is up to {band_dev:.3g} dB off the ideal {settings.response} response within the band{finer}")
     if overall_actual is not None:
-        act_band = max_dev_db(shell.response(f[band], actual=True), ref[band])
         if act_band > max(WARN_BAND_DEV_DB, band_dev + 0.5):
             warnings.append(f"with the {format_value(conditions.gbw_hz, 'Hz', digits=3)} op-amp the chain is up to {act_band:.3g} dB off the ideal response within the band; a faster op-amp is needed")
     return replace(

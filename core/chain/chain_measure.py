@@ -83,8 +83,9 @@ def sweep_frequencies(settings: ChainSettings, q_max: float) -> np.ndarray:
     return np.geomspace(band.f0_hz / r, band.f0_hz * r, n)
 
 
-def _crossing(mag_fn, lo_hz: np.ndarray, hi_hz: np.ndarray, level: float) -> np.ndarray:
-    """Where ``mag_fn`` crosses ``level`` between each pair of brackets (bisection in log f)."""
+def _crossing(mag_fn, lo_hz: np.ndarray, hi_hz: np.ndarray, level) -> np.ndarray:
+    """Where ``mag_fn`` crosses ``level`` (a number, or one per bracket) between each pair of
+    brackets (bisection in log f, every bracket in one call per step)."""
     a, b = np.log(lo_hz), np.log(hi_hz)
     fa = mag_fn(np.exp(a)) - level
     for _ in range(60):
@@ -98,13 +99,25 @@ def _crossing(mag_fn, lo_hz: np.ndarray, hi_hz: np.ndarray, level: float) -> np.
     return np.exp(0.5 * (a + b))
 
 
-def _edges(mag_fn, f: np.ndarray, mag: np.ndarray, level: float) -> tuple[float, float]:
-    above = np.flatnonzero(mag >= level)
-    if above.size == 0 or above[0] == 0 or above[-1] == f.size - 1:
-        return math.nan, math.nan
-    i0, i1 = above[0], above[-1]
-    lo, hi = _crossing(mag_fn, np.array([f[i0 - 1], f[i1]]), np.array([f[i0], f[i1 + 1]]), level)
-    return float(lo), float(hi)
+def _edges(mag_fn, f: np.ndarray, mag: np.ndarray, levels: tuple[float, ...]) -> list[tuple[float, float]]:
+    """The lower and upper crossing of each level, ``(nan, nan)`` where the sweep has none; the
+    brackets of all levels are bisected together."""
+    lo, hi, lv, which = [], [], [], []
+    out = [(math.nan, math.nan)] * len(levels)
+    for n, level in enumerate(levels):
+        above = np.flatnonzero(mag >= level)
+        if above.size == 0 or above[0] == 0 or above[-1] == f.size - 1:
+            continue
+        i0, i1 = above[0], above[-1]
+        lo += [f[i0 - 1], f[i1]]
+        hi += [f[i0], f[i1 + 1]]
+        lv += [level, level]
+        which.append(n)
+    if which:
+        x = _crossing(mag_fn, np.array(lo), np.array(hi), np.array(lv))
+        for k, n in enumerate(which):
+            out[n] = (float(x[2 * k]), float(x[2 * k + 1]))
+    return out
 
 
 def measure_chain(response, settings: ChainSettings, f: np.ndarray, q_max: float) -> Overall:
@@ -117,8 +130,7 @@ def measure_chain(response, settings: ChainSettings, f: np.ndarray, q_max: float
     mag = mag_fn(f)
     peak, f_pk = peak_over_frequency(lambda x: mag_fn(x).reshape(1, -1), float(f[0]), float(f[-1]), q_max=q_max, rows=1)
     peak, f_pk = float(peak[0]), float(f_pk[0])
-    lo, hi = _edges(mag_fn, f, mag, peak * 10 ** (settings.edge_level_db / 20))
-    lo3, hi3 = _edges(mag_fn, f, mag, peak * 10 ** (HALF_POWER_DB / 20))
+    (lo, hi), (lo3, hi3) = _edges(mag_fn, f, mag, (peak * 10 ** (settings.edge_level_db / 20), peak * 10 ** (HALF_POWER_DB / 20)))
     f0 = math.sqrt(lo * hi) if math.isfinite(lo) and math.isfinite(hi) else math.nan
     gc = float(20 * np.log10(mag_fn(np.array([f0]))[0])) if math.isfinite(f0) else math.nan
     ripple = math.nan

@@ -136,7 +136,39 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     cands = [(i, res, a) for i, (res, a) in enumerate(tried) if res is not None and a.feasible and res.feasible]
     if not cands:
         return None
-    verdicts = [judge(res, limits, candidate=a.topology_id) for _, res, a in cands]
+
+    def fit(a) -> tuple:  # the key's sane and nearest-fit steps: the attempt's own numbers
+        return (not a.sane, math.floor(a.weighted / FIT_STEP + 1e-9) if math.isfinite(a.weighted) else math.inf)
+
+    def verdict_of(k: int) -> Verdict:
+        return judge(cands[k][1], limits, candidate=cands[k][2].topology_id)
+
+    # Only the circuits that can still be chosen are judged; the pick is the one judging them all
+    # gives. (1) A circuit whose parts miss the stage's tolerances, that no GBW serves or only one
+    # beyond the ceiling or the op-amp's, or whose spread is beyond the limits, is not buildable
+    # (judge's figure, GBW and spread reasons, from the attempt's own numbers): judged only when no
+    # other one judges better. (2) The others are judged in the order of their fit; once one is
+    # buildable, one with a worse fit (sane, nearest-fit step) cannot come before it. Dropping
+    # candidates keeps the others' order (rank's key ends in their position).
+    def hopeless(res, a) -> bool:
+        own = res.conditions.gbw_hz
+        return (not a.within or a.gbw_hz is None or not math.isfinite(a.gbw_hz) or a.gbw_hz > limits.gbw_max_hz
+                or (own is not None and a.gbw_hz > own) or a.r_spread > limits.r_spread_max or a.c_spread > limits.c_spread_max)
+
+    hopeful = sorted((k for k in range(len(cands)) if not hopeless(cands[k][1], cands[k][2])), key=lambda k: fit(cands[k][2]))
+    judged: dict[int, Verdict] = {}
+    best_fit = None  # the fit of the first buildable one (the least fit of any buildable one)
+    for k in hopeful:
+        if best_fit is not None and fit(cands[k][2]) > best_fit:
+            break
+        judged[k] = verdict_of(k)
+        if best_fit is None and judged[k].verdict == BUILDABLE:
+            best_fit = fit(cands[k][2])
+    if not any(v.verdict != NOT_BUILDABLE for v in judged.values()):
+        judged = {k: judged.get(k) or verdict_of(k) for k in range(len(cands))}
+    ks = sorted(judged)
+    cands = [cands[k] for k in ks]
+    verdicts = [judged[k] for k in ks]
     ranking = rank(verdicts)
     def key(k):
         v, a = verdicts[k], cands[k][2]

@@ -19,6 +19,7 @@ from bandsmith.circuits.topology import Topology
 from bandsmith.common.units import PART_UNITS
 from bandsmith.common.values import parse_value
 from bandsmith.common.limits import VIN_RANGE_V, check_part_value, check_range
+from bandsmith.design.source import with_source  # at import: the first analysis of a process should not load it
 
 __all__ = ["Conditions", "Candidate", "parse_parts", "analysis_json"]
 
@@ -97,8 +98,6 @@ class Candidate:
 
     def driven_netlist(self, conditions: Conditions = Conditions()) -> Netlist:
         """The netlist as driven under ``conditions``: with the source resistance in series, if any."""
-        from bandsmith.design.source import with_source
-
         return with_source(self.netlist, conditions.rsource_ohm)
 
     def analyze(self, conditions: Conditions = Conditions()) -> Analysis:

@@ -16,6 +16,11 @@ matrices; a batch of part values then costs one matrix product instead of one LU
 trial and interpolation point. The result is checked against
 :func:`bandsmith.solver.rational.rational_from_system` on a few perturbed members when built; a netlist that
 does not fit the assumptions raises :class:`ExpansionUnavailable` and callers use the solver.
+
+The fits of our circuits' usual structures ship precomputed (``bandsmith/resources/expansions.json``,
+looked up by :func:`structure_hash` of the netlist structure and read lazily, one entry at a time),
+so that a process's first analysis does not pay for them; a structure the file does not hold is
+fitted and verified on first use as above.
 """
 
 from __future__ import annotations
@@ -25,11 +30,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from bandsmith.resources import resource_path
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import Rational, rational_from_system
 
-__all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "MAX_POINTS"]
+__all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path"]
 
 # Largest number of integer points the expansion evaluates (2^14 for 14 one-degree parameters).
 MAX_POINTS = 1 << 14
@@ -134,15 +140,157 @@ class _Fit:
     low: int
     num_powers: tuple[int, ...]
     den_powers: tuple[int, ...]
-    factors: list
-    num_slots: list
-    den_slots: list
     exps_f: np.ndarray
 
 
 # Structural fits by netlist structure (elements, nodes, which parameters are present): the
 # integer-point determinants do not depend on the part values, so a circuit pays for them once.
 _FITS: dict[tuple, _Fit] = {}
+
+# The fits of our circuits' usual structures, computed ahead (tests/expansion_table.py writes the
+# file; tests/test_expansion_table.py regenerates it and compares) so that a process's first
+# analysis does not pay for them. Looked up by :func:`structure_hash`; a structure not in the
+# file (a circuit added later, a changed netlist) is fitted and verified as before. A fit's
+# inputs beside the structure are the constants below: a file written with other ones is ignored.
+TABLE_FILE = "expansions.json"
+TABLE_FORMAT = 2
+_TABLE: dict | None = None
+
+
+def structure_hash(key: tuple) -> str:
+    """A short, stable name of a structure key (:func:`_structure_key`): SHA-256 of its ``repr``."""
+    import hashlib
+
+    return hashlib.sha256(repr(key).encode()).hexdigest()[:20]
+
+
+def _table_stamp() -> dict:
+    """What a table's fits depend on beside the structure (written to, and checked in, the file)."""
+    return {"format": TABLE_FORMAT, "zero": _ZERO, "angle_offset": _ANGLE_OFFSET, "max_points": MAX_POINTS}
+
+
+_TABLE_PATH = resource_path(TABLE_FILE)
+
+
+def table_path():
+    """Where the shipped table is (a file of :mod:`bandsmith.resources`)."""
+    return _TABLE_PATH
+
+
+def _load_table() -> dict:
+    """The shipped table's index, ``{hash: (start, end)}`` byte offsets of each entry's JSON object
+    from the end of the index line, ``"@base"``: where that is, and ``"@raw"``: the file's bytes.
+    Empty when the file is missing or stale (its stamp is not :func:`_table_stamp`). Only the
+    header is parsed here; an entry is parsed when asked for (:func:`_table_line`)."""
+    global _TABLE
+    if _TABLE is None:
+        _TABLE = {}
+        try:
+            with open(table_path(), "rb") as fh:
+                raw = fh.read()
+        except OSError:
+            return _TABLE
+        import json
+
+        # "{", then "stamp": {...}, then "index": {...}, then one entry per line: "<hash>": {...},
+        parts = raw.split(b"\n", 3)
+        first, stamp, index = (parts + [b"", b"", b""])[:3]
+        if (len(parts) == 4 and first == b"{" and stamp.startswith(b'"stamp": ') and index.startswith(b'"index": ')
+                and json.loads(stamp[9:].rstrip(b",")) == _table_stamp()):
+            _TABLE = {name: tuple(span) for name, span in json.loads(index[9:].rstrip(b",")).items()}
+            _TABLE["@base"] = len(first) + len(stamp) + len(index) + 3
+            _TABLE["@raw"] = raw
+    return _TABLE
+
+
+def _table_line(name: str) -> bytes | None:
+    """The JSON object of entry ``name`` in the shipped table, or None."""
+    table = _load_table()
+    span = table.get(name)
+    if span is None:
+        return None
+    base = table["@base"]
+    return table["@raw"][base + span[0] : base + span[1]]
+
+
+def _table_fit(key: tuple) -> "_Fit | str | None":
+    """The shipped fit of a structure, its reason text when the structure is known not to fit,
+    or None when the table does not have it."""
+    raw = _table_line(structure_hash(key))
+    if raw is None:
+        return None
+    import json
+
+    try:
+        entry = json.loads(raw)
+        if "unavailable" in entry:
+            return str(entry["unavailable"])
+        exps = (np.frombuffer(entry["exps"].encode("ascii"), dtype=np.uint8).astype(np.int64) - 48).reshape(-1, entry["n_var"])
+        return _fit_of(exps, _dense_of(entry["den"], exps.shape[0]), _dense_of(entry["num"], exps.shape[0]), int(entry["low"]),
+                       (entry["num_powers"], entry["den_powers"]))
+    except (ValueError, KeyError, TypeError, IndexError):  # a damaged entry: fitted instead
+        return None
+
+
+def _sparse_of(c: np.ndarray) -> list:
+    """A coefficient matrix ``(M, k)`` for the table: ``[k, flat indices, values]`` of its nonzero entries."""
+    flat = c.reshape(-1)
+    nz = np.flatnonzero(flat)
+    return [int(c.shape[1]), nz.tolist(), flat[nz].tolist()]
+
+
+def _dense_of(sparse: list, rows: int) -> np.ndarray:
+    """The matrix :func:`_sparse_of` wrote."""
+    cols, at, values = sparse
+    out = np.zeros(rows * cols)
+    out[at] = values
+    return out.reshape(rows, cols)
+
+
+def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, dict]:
+    """``(hash, entry)`` of a netlist's structure for the shipped table: its fit, computed and
+    verified now (``{"unavailable": reason}`` when it does not fit)."""
+    variables = circuit_variables(netlist, opamp)
+    key = _structure_key(netlist, variables)
+    sizes = [v.degree + 1 for v in variables]
+    try:
+        if math.prod(sizes) > MAX_POINTS:
+            raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
+        fit = _structural_fit(netlist, variables, opamp, sizes)
+        saved, _FITS[key] = _FITS.get(key), fit
+        try:
+            Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)._verify()
+        finally:
+            if saved is None:
+                del _FITS[key]
+            else:
+                _FITS[key] = saved
+    except ExpansionUnavailable as exc:
+        return structure_hash(key), {"unavailable": str(exc)}
+    if fit.exps.size and (fit.exps.min() < 0 or fit.exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
+        raise ValueError("an exponent beyond one digit")
+    entry = {"n_var": len(variables), "low": fit.low, "exps": "".join(str(int(e)) for e in fit.exps.reshape(-1)),
+             "den": _sparse_of(fit.den), "num": _sparse_of(fit.num), "num_powers": list(fit.num_powers), "den_powers": list(fit.den_powers)}
+    return structure_hash(key), entry
+
+
+def table_text(entries: dict[str, dict]) -> str:
+    """The table file's text (valid JSON): the stamp, the index of byte offsets, then one entry per
+    line, sorted by hash (the layout :func:`_load_table` reads)."""
+    import json
+
+    body, index, at = [], {}, 0
+    names = sorted(entries)
+    for k, name in enumerate(names):
+        obj = json.dumps(entries[name], separators=(",", ":"))
+        head = f'"{name}": '
+        start = at + len(head.encode())
+        index[name] = [start, start + len(obj.encode())]
+        line = head + obj + ("," if k < len(names) - 1 else "") + "\n"
+        body.append(line)
+        at += len(line.encode())
+    header = ["{\n", f'"stamp": {json.dumps(_table_stamp(), sort_keys=True)},\n', f'"index": {json.dumps(index, separators=(",", ":"))},\n']
+    return "".join(header + body) + "}\n"
 
 
 def _unit_netlist(netlist: Netlist) -> Netlist:
@@ -198,17 +346,17 @@ def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: Op
     if den_pw.size == 0 or num_pw.size == 0:
         raise ExpansionUnavailable("no transfer from the input to the output")
     low = int(min(den_pw[0], num_pw[0]))  # a common factor s^low cancels
-    den = den[:, low : den_pw[-1] + 1]
-    num = num[:, low : num_pw[-1] + 1]
-    num_powers = tuple(int(p) for p in np.flatnonzero(np.any(num != 0, axis=0)))
-    den_powers = tuple(int(p) for p in np.flatnonzero(np.any(den != 0, axis=0)))
-    return _Fit(
-        exps=exps, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers,
-        factors=[tuple((int(i), int(e)) for i, e in enumerate(row) if e) for row in exps],
-        num_slots=[(r, p, int(m)) for r, p in enumerate(num_powers) for m in np.flatnonzero(num[:, p])],
-        den_slots=[(r, p, int(m)) for r, p in enumerate(den_powers) for m in np.flatnonzero(den[:, p])],
-        exps_f=exps.astype(float),
-    )
+    return _fit_of(exps, den[:, low : den_pw[-1] + 1], num[:, low : num_pw[-1] + 1], low)
+
+
+def _fit_of(exps: np.ndarray, den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
+    """A :class:`_Fit` from its exponents ``(M, n_var)``, its trimmed coefficients ``(M, ·)``
+    (ascending powers of ``s`` from ``s^low``), ``low``, and the powers present in the numerator
+    and the denominator when known (the columns with a nonzero coefficient)."""
+    if powers is None:
+        powers = tuple(tuple(int(p) for p in np.flatnonzero(np.any(c != 0, axis=0))) for c in (num, den))
+    num_powers, den_powers = (tuple(p) for p in powers)
+    return _Fit(exps=exps, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers, exps_f=exps.astype(float))
 
 
 # Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
@@ -220,21 +368,10 @@ _SMALL_BATCH = 2048
 _LOG_ZERO = -1e5
 
 
-def _term_matrix(coef: np.ndarray, slots: list, rows: int) -> np.ndarray:
-    """(rows, M) matrix of the scaled coefficients: row = power slot, column = monomial."""
-    out = np.zeros((rows, coef.shape[0]))
-    for r, p, m in slots:
-        out[r, m] = coef[m, p]
-    return out
-
-
-def _dense_matrix(term: np.ndarray, powers: tuple[int, ...]) -> np.ndarray:
-    """(M, top + 1) matrix from monomials to the coefficients of every power, highest first."""
-    top = powers[-1]
-    out = np.zeros((term.shape[1], top + 1))
-    for r, p in enumerate(powers):
-        out[:, top - p] = term[r]
-    return out
+def _terms(coef: np.ndarray, pattern: np.ndarray, powers: tuple[int, ...]) -> list[tuple[int, int, float]]:
+    """``(row, monomial, coefficient)`` where the structural fit ``pattern`` is nonzero, row =
+    index in ``powers``; ``coef`` is the same fit scaled to the nominal values."""
+    return [(r, int(m), float(coef[m, p])) for r, p in enumerate(powers) for m in np.flatnonzero(pattern[:, p])]
 
 
 class Expansion:
@@ -257,22 +394,48 @@ class Expansion:
     """
 
     def __init__(self, netlist: Netlist, opamp: OpAmpModel = IDEAL, *, w_ref: float):
-        self.netlist = netlist
+        variables = circuit_variables(netlist, opamp)
+        self._setup(netlist, None, opamp, w_ref, variables, _structure_key(netlist, variables))
+
+    @classmethod
+    def _at_unit(cls, netlist: Netlist, opamp: OpAmpModel, variables: tuple[Variable, ...], key: tuple) -> "Expansion":
+        """``Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)`` from ``netlist``'s own variables
+        and structure key (the unit netlist's are the same with the parts at 1); the unit netlist
+        itself is built only when needed (a fit, a check)."""
+        self = cls.__new__(cls)
+        unit = tuple(Variable(v.name, v.kind, 1.0, v.degree) if v.kind in ("R", "C", "L", "RS") else v for v in variables)
+        self._setup(None, netlist, opamp, 1.0, unit, key)
+        return self
+
+    @property
+    def netlist(self) -> Netlist:
+        """The circuit at the nominal values."""
+        if self._netlist is None:
+            self._netlist = _unit_netlist(self._unit_of)
+        return self._netlist
+
+    def _setup(self, netlist, unit_of, opamp, w_ref, variables, key) -> None:
+        self._netlist, self._unit_of = netlist, unit_of
         self.opamp = opamp
         self.w_ref = float(w_ref)
-        self.variables = circuit_variables(netlist, opamp)
+        self.variables = variables
         self.names = tuple(v.name for v in self.variables)
         sizes = [v.degree + 1 for v in self.variables]
         if math.prod(sizes) > MAX_POINTS:
             raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
-        key = _structure_key(netlist, self.variables)
         fit = _FITS.get(key)
         if fit is None:
-            _FITS[key] = fit = _structural_fit(netlist, self.variables, opamp, sizes)
+            shipped = _table_fit(key)
+            if isinstance(shipped, str):
+                raise ExpansionUnavailable(shipped)
+            if shipped is not None:  # computed and verified when the table was written
+                _FITS[key] = fit = shipped
+        if fit is None:
+            _FITS[key] = fit = _structural_fit(self.netlist, self.variables, opamp, sizes)
             # Checked once per structure, at unit values (well conditioned for the solver it is
             # checked against): the integer fit does not depend on the values.
             try:
-                Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)._verify()
+                Expansion(_unit_netlist(self.netlist), opamp, w_ref=1.0)._verify()
             except ExpansionUnavailable:
                 del _FITS[key]
                 raise
@@ -283,28 +446,31 @@ class Expansion:
         """Scale the structural coefficients to the nominal values and to ``p = s/w_ref``."""
         exps, den, num, low = fit.exps, fit.den, fit.num, fit.low
         # in logs, so that nothing overflows
-        log_stamp = np.array([v.log_stamp for v in self.variables])
-        base = exps @ log_stamp  # (M,)
-        log_w = math.log(self.w_ref)
-        lden = base[:, None] + (np.arange(den.shape[1]) + low)[None, :] * log_w
-        lnum = base[:, None] + (np.arange(num.shape[1]) + low)[None, :] * log_w
-        shift = np.max(np.where(den != 0, lden, -np.inf))
-        den = np.where(den != 0, den * np.exp(np.minimum(lden - shift, 700.0)), 0.0)
-        num = np.where(num != 0, num * np.exp(np.minimum(lnum - shift, 700.0)), 0.0)
+        log_stamps = [v.log_stamp for v in self.variables]
+        if self.w_ref != 1.0 or any(log_stamps):  # (unit stamps and w_ref = 1, as unit_expansion's: nothing to scale)
+            log_stamp = np.array(log_stamps)
+            base = exps @ log_stamp  # (M,)
+            log_w = math.log(self.w_ref)
+            lden = base[:, None] + (np.arange(den.shape[1]) + low)[None, :] * log_w
+            lnum = base[:, None] + (np.arange(num.shape[1]) + low)[None, :] * log_w
+            shift = np.max(np.where(den != 0, lden, -np.inf))
+            den = np.where(den != 0, den * np.exp(np.minimum(lden - shift, 700.0)), 0.0)
+            num = np.where(num != 0, num * np.exp(np.minimum(lnum - shift, 700.0)), 0.0)
         #: Powers of p present in the numerator and denominator (ascending).
         self.num_powers = fit.num_powers
         self.den_powers = fit.den_powers
-        self._factors = fit.factors
-        self._num_terms = [(r, m, float(num[m, p])) for r, p, m in fit.num_slots]
-        self._den_terms = [(r, m, float(den[m, p])) for r, p, m in fit.den_slots]
+        self._fit = fit
+        self._num_scaled, self._den_scaled = num, den
+        self._loops = None  # the monomials' factors and terms of the large-batch loops, made when first needed
         # For :meth:`dense_log`: exponents over the log *ratios* (an inverse parameter's stamp is
         # the reciprocal: its column negated), the log ratio that makes a stamp absent, and term
         # matrices onto every power of p, highest first.
         sign = np.array([-1.0 if v.inverse else 1.0 for v in self.variables])
         self._exps_ratio = np.ascontiguousarray((fit.exps_f * sign[None, :]).T)  # (n_var, M)
         self._absent_log = _LOG_ZERO * sign
-        self._num_dense = _dense_matrix(_term_matrix(num, fit.num_slots, len(fit.num_powers)), self.num_powers)
-        self._den_dense = _dense_matrix(_term_matrix(den, fit.den_slots, len(fit.den_powers)), self.den_powers)
+        # (M, top + 1): every power of p, highest first (a power absent from the fit is a zero column)
+        self._num_dense = np.ascontiguousarray(num[:, ::-1])
+        self._den_dense = np.ascontiguousarray(den[:, ::-1])
         # the dense columns of the powers present (lowest first), for :meth:`coefficients`
         self._num_cols = [self.num_powers[-1] - p for p in self.num_powers]
         self._den_cols = [self.den_powers[-1] - p for p in self.den_powers]
@@ -370,8 +536,15 @@ class Expansion:
                 np.divide(1.0, q[j], out=q[j])
         if absent is not None:
             q[np.asarray(absent).T] = 0.0
-        mono = np.empty((len(self._factors), b))
-        for m, factors in enumerate(self._factors):
+        if self._loops is None:
+            self._loops = (
+                [tuple((int(i), int(e)) for i, e in enumerate(row) if e) for row in self._fit.exps],
+                _terms(self._num_scaled, self._fit.num, self.num_powers),
+                _terms(self._den_scaled, self._fit.den, self.den_powers),
+            )
+        all_factors, num_terms, den_terms = self._loops
+        mono = np.empty((len(all_factors), b))
+        for m, factors in enumerate(all_factors):
             if not factors:
                 mono[m] = 1.0
                 continue
@@ -381,7 +554,7 @@ class Expansion:
                 np.multiply(mono[m], q[i] if e == 1 else q[i] ** e, out=mono[m])
         num = np.zeros((len(self.num_powers), b))
         den = np.zeros((len(self.den_powers), b))
-        for out, terms in ((num, self._num_terms), (den, self._den_terms)):
+        for out, terms in ((num, num_terms), (den, den_terms)):
             for row, m, c in terms:
                 out[row] += c * mono[m]
         if bad.any():
@@ -471,9 +644,10 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Expansi
     :class:`ExpansionUnavailable` as :class:`Expansion` does.
     """
     variables = circuit_variables(netlist, opamp)
-    key = (_structure_key(netlist, variables), opamp)
+    structure = _structure_key(netlist, variables)
+    key = (structure, opamp)
     exp = _UNIT.get(key)
     if exp is None:
-        exp = Expansion(_unit_netlist(netlist), opamp, w_ref=1.0)
+        exp = Expansion._at_unit(netlist, opamp, variables, structure)
         _UNIT[key] = exp
     return exp, variables

@@ -1,0 +1,137 @@
+"""The shipped table of expansion fits (bandsmith/resources/expansions.json): regenerated here and
+compared with the file, and the fallback to fitting for a structure the table does not hold.
+
+The fits themselves are checked against the MNA solver in test_expansion.py (which now reads
+them from the table) and, when the table is written, by the expansion's own verification.
+"""
+
+import json
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import bandsmith.solver.expansion as E
+from bandsmith.circuits import get_topology
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
+from bandsmith.solver.netlist import Element
+from bandsmith.solver.rational import rational_from_system
+
+sys.path.insert(0, str(Path(__file__).parent))
+from expansion_table import structures, table_entries  # noqa: E402
+
+
+def _shipped() -> dict:
+    return json.loads(E.table_path().read_text(encoding="utf-8"))
+
+
+def test_the_shipped_table_is_what_the_generator_writes_now():
+    shipped = _shipped()
+    assert shipped.pop("stamp") == E._table_stamp()
+    index = shipped.pop("index")
+    fresh = table_entries()
+    assert sorted(shipped) == sorted(fresh) == sorted(index), "run python tests/expansion_table.py"
+    for name, entry in fresh.items():
+        old = shipped[name]
+        assert set(old) == set(entry)
+        if "unavailable" in entry:
+            assert old == entry
+            continue
+        assert (old["n_var"], old["low"], old["exps"]) == (entry["n_var"], entry["low"], entry["exps"])
+        rows = len(entry["exps"]) // entry["n_var"]
+        for part in ("den", "num"):  # integer-point determinants: equal to rounding (BLAS may differ)
+            a, b = E._dense_of(old[part], rows), E._dense_of(entry[part], rows)
+            assert a.shape == b.shape
+            np.testing.assert_allclose(a, b, rtol=0, atol=1e-12 * np.abs(b).max())
+
+
+def test_the_index_points_at_each_entry():
+    raw = E.table_path().read_bytes()
+    base = raw.index(b"\n", raw.index(b'"index": ')) + 1
+    for name, (start, end) in _shipped()["index"].items():
+        assert json.loads(raw[base + start : base + end]) == _shipped()[name]
+
+
+def test_every_structure_of_the_generator_is_found_in_the_table():
+    table = E._load_table()
+    for label, net, amp in structures():
+        key = E._structure_key(net, E.circuit_variables(net, amp))
+        assert E.structure_hash(key) in table, label
+
+
+@pytest.fixture
+def no_fits(monkeypatch):
+    """Fresh caches (the table is read again)."""
+    monkeypatch.setattr(E, "_FITS", {})
+    monkeypatch.setattr(E, "_UNIT", {})
+    monkeypatch.setattr(E, "_TABLE", None)
+
+
+def _agrees_with_solver(net, amp):
+    exp, variables = E.unit_expansion(net, amp)
+    ratios = np.array([[v.value / u.value for v, u in zip(variables, exp.variables)]])
+    w = 2 * np.pi * 1e3
+    mine = exp.rational(ratios, w_ref=w)
+    ref = rational_from_system(build_system(net, amp), w)
+    s = 2j * np.pi * np.geomspace(100.0, 1e4, 7)
+    np.testing.assert_allclose(mine.at_s(s), ref.at_s(s), rtol=1e-9)
+
+
+def test_a_shipped_fit_is_used_without_fitting(no_fits, monkeypatch):
+    topo = get_topology("sallen-key")
+    net = topo.build(topo.example)
+
+    def fail(*a, **k):
+        raise AssertionError("fitted although the table has the structure")
+
+    monkeypatch.setattr(E, "_structural_fit", fail)
+    _agrees_with_solver(net, OpAmpModel(gbw_hz=1e6))
+
+
+def test_a_structure_not_in_the_table_is_fitted(no_fits, monkeypatch):
+    # a circuit added later (here: the MFB with an extra capacitor across its output)
+    topo = get_topology("mfb")
+    base = topo.build(topo.example)
+    net = base.with_element(Element("CX", "C", (base.output, "0"), 1e-9))
+    calls = []
+    real = E._structural_fit
+    monkeypatch.setattr(E, "_structural_fit", lambda *a: calls.append(1) or real(*a))
+    _agrees_with_solver(net, IDEAL)
+    assert calls == [1]
+
+
+def test_a_stale_table_is_ignored(no_fits, monkeypatch, tmp_path):
+    text = E.table_path().read_text(encoding="utf-8").replace(f'"format": {E.TABLE_FORMAT}', '"format": 0', 1)
+    assert text != E.table_path().read_text(encoding="utf-8")
+    (tmp_path / "expansions.json").write_text(text, encoding="utf-8")
+    monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
+    assert E._load_table() == {}
+    topo = get_topology("sallen-key")
+    _agrees_with_solver(topo.build(topo.example), IDEAL)
+
+
+def test_a_missing_table_is_ignored(no_fits, monkeypatch, tmp_path):
+    monkeypatch.setattr(E, "table_path", lambda: tmp_path / "none.json")
+    assert E._load_table() == {}
+    topo = get_topology("mfb")
+    _agrees_with_solver(topo.build(topo.example), IDEAL)
+
+
+def test_a_damaged_table_is_ignored(no_fits, monkeypatch, tmp_path):
+    (tmp_path / "expansions.json").write_text("{\n", encoding="utf-8")
+    monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
+    assert E._load_table() == {}
+
+
+def test_a_damaged_entry_is_fitted(no_fits, monkeypatch, tmp_path):
+    topo = get_topology("sallen-key")
+    net = topo.build(topo.example)
+    name = E.structure_hash(E._structure_key(net, E.circuit_variables(net, IDEAL)))
+    text = E.table_path().read_text(encoding="utf-8")
+    start = text.index(f'\n"{name}": ') + len(name) + 5
+    broken = text[:start] + '{"n_var":1' + " " * (text.index("\n", start) - start - 10) + text[text.index("\n", start):]
+    assert len(broken) == len(text)  # the index still points at the right bytes
+    (tmp_path / "expansions.json").write_text(broken, encoding="utf-8")
+    monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
+    _agrees_with_solver(net, IDEAL)
