@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["quadratic_roots", "cubic_roots"]
+__all__ = ["quadratic_roots", "cubic_roots", "quadratic_roots_rows", "cubic_roots_rows"]
 
 # A complex pair whose imaginary part is below this fraction of its modulus counts as a double
 # real root (the same threshold the eigenvalue path uses).
@@ -48,13 +48,20 @@ def quadratic_roots(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     NaN marks a complex root; the mask is True where the member must be solved another way
     (a zero leading coefficient or non-finite coefficients).
     """
+    roots, bad = quadratic_roots_rows(c[:, 0], c[:, 1], c[:, 2])
+    return np.stack(roots, axis=1), bad
+
+
+def quadratic_roots_rows(c0, c1, c2) -> tuple[list[np.ndarray], np.ndarray]:
+    """:func:`quadratic_roots` with the coefficients as separate arrays ``(B,)``: a list of the two
+    root arrays and the mask. Every operation works on whole contiguous arrays (a ``(B, 2)`` array
+    broadcast against a ``(B, 1)`` column runs several times slower); the arithmetic is the same."""
     with np.errstate(all="ignore"):
-        lead = c[:, 0]
-        e = c[:, 1] / lead
-        f = c[:, 2] / lead
+        lead = c0
+        e = c1 / lead
+        f = c2 / lead
         r1, r2 = _quadratic(e, f)
-        roots = np.stack([r1, r2], axis=1)
-        roots = _polish(roots, np.stack([np.ones_like(e), e, f], axis=1))
+        roots = _polish([r1, r2], [None, e, f])
     bad = ~(np.isfinite(e) & np.isfinite(f))
     return roots, bad
 
@@ -67,11 +74,20 @@ def _dominant_real(a: np.ndarray, b: np.ndarray, c: np.ndarray) -> np.ndarray:
     three = r * r < q3
     sq = np.sqrt(np.where(three, q, 0.0))
     theta = np.arccos(np.clip(np.where(three, r / np.where(three, sq * sq * sq, 1.0), 0.0), -1.0, 1.0))
-    ks = np.array([0.0, 2.0 * np.pi, -2.0 * np.pi])
-    trig = -2.0 * sq[:, None] * np.cos((theta[:, None] + ks[None, :]) / 3.0) - (a / 3.0)[:, None]
-    pick = np.take_along_axis(trig, np.argmax(np.abs(trig), axis=1)[:, None], axis=1)[:, 0]
+    a3 = a / 3.0
+    m2sq = -2.0 * sq
+    # the three trigonometric roots; the first of largest magnitude (a NaN first of all, as argmax)
+    pick = None
+    for k in (0.0, 2.0 * np.pi, -2.0 * np.pi):
+        t = m2sq * np.cos((theta + k) / 3.0) - a3
+        if pick is None:
+            pick = t
+            continue
+        nan_pick = np.isnan(pick)
+        take = (np.abs(t) > np.abs(pick)) | (np.isnan(t) & ~nan_pick)
+        pick = np.where(take, t, pick)
     big = -np.copysign(np.cbrt(np.abs(r) + np.sqrt(np.where(three, 0.0, r * r - q3))), r)
-    card = big + np.divide(q, big, out=np.zeros_like(big), where=big != 0) - a / 3.0
+    card = big + np.divide(q, big, out=np.zeros_like(big), where=big != 0) - a3
     return np.where(three, pick, card)
 
 
@@ -80,11 +96,18 @@ def cubic_roots(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
     NaN marks a complex root; the mask is True where the member must be solved another way.
     """
+    roots, bad = cubic_roots_rows(c[:, 0], c[:, 1], c[:, 2], c[:, 3])
+    return np.stack(roots, axis=1), bad
+
+
+def cubic_roots_rows(c0, c1, c2, c3) -> tuple[list[np.ndarray], np.ndarray]:
+    """:func:`cubic_roots` with the coefficients as separate arrays ``(B,)``: a list of the three
+    root arrays and the mask (see :func:`quadratic_roots_rows`)."""
     with np.errstate(all="ignore"):
-        lead = c[:, 0]
-        a = c[:, 1] / lead
-        b = c[:, 2] / lead
-        k = c[:, 3] / lead
+        lead = c0
+        a = c1 / lead
+        b = c2 / lead
+        k = c3 / lead
         r_fwd = _dominant_real(a, b, k)
         # the reversed polynomial u³ + (b/k)·u² + (a/k)·u + 1/k has the roots 1/u
         r_rev = 1.0 / _dominant_real(b / k, a / k, 1.0 / k)
@@ -96,25 +119,30 @@ def cubic_roots(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         f = np.where(zero, b, -k / safe)
         e = np.where(zero, a, np.where(big, (f - b) / safe, a + r1))
         s1, s2 = _quadratic(e, f)
-        roots = np.stack([r1, s1, s2], axis=1)
-        roots = _polish(roots, np.stack([np.ones_like(a), a, b, k], axis=1))
+        roots = _polish([r1, s1, s2], [None, a, b, k])
     bad = ~(np.isfinite(a) & np.isfinite(b) & np.isfinite(k) & np.isfinite(r1))
     return roots, bad
 
 
-def _polish(roots: np.ndarray, monic: np.ndarray, steps: int = 2) -> np.ndarray:
-    """Two Newton steps on every finite root; a step that is not finite or grows is not taken."""
-    n = monic.shape[1]
-    d = monic[:, :-1] * np.arange(n - 1, 0, -1)
-    x = roots
-    for _ in range(steps):
-        p = monic[:, :1] * x + monic[:, 1:2]
-        for i in range(2, n):
-            p = p * x + monic[:, i : i + 1]
-        dp = d[:, :1] + np.zeros_like(x)
-        for i in range(1, n - 1):
-            dp = dp * x + d[:, i : i + 1]
-        step = p / dp
-        ok = np.isfinite(step) & (np.abs(step) <= 0.5 * np.abs(x) + 1e-300)
-        x = np.where(ok, x - step, x)
-    return x
+def _polish(roots: list[np.ndarray], monic: list, steps: int = 2) -> list[np.ndarray]:
+    """Two Newton steps on every finite root of the monic polynomial ``monic`` (coefficients
+    highest first, the leading 1 given as None); a step that is not finite or grows is not taken."""
+    n = len(monic)
+    # derivative coefficients (n − 1 − i)·c_i; the leading one is n − 1
+    d = [float(n - 1)] + [monic[i] * float(n - 1 - i) for i in range(1, n - 1)]
+    out = []
+    for x in roots:
+        for _ in range(steps):
+            p = x + monic[1]  # 1·x is x
+            for i in range(2, n):
+                p *= x
+                p += monic[i]
+            dp = np.full_like(x, d[0])
+            for i in range(1, n - 1):
+                dp *= x
+                dp += d[i]
+            step = p / dp
+            ok = np.isfinite(step) & (np.abs(step) <= 0.5 * np.abs(x) + 1e-300)
+            x = np.where(ok, x - step, x)
+        out.append(x)
+    return out
