@@ -21,6 +21,7 @@ from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.spread.spread_settings import CHUNK, KINDS, SpreadSettings
+from bandsmith.spread import trialfigures as tf
 
 __all__ = ["Evaluator", "part_tolerances", "setup_spread", "nominal_figures", "draws", "evaluator_columns"]
 
@@ -94,6 +95,10 @@ class Evaluator:
         if self.expansion is not None and self.expansion.pure_bandpass:
             num, den = self.expansion.coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
             return biquad_figures(num[0], den[2], den[1], den[0], self.w_ref)
+        if tracked and self.expansion is not None and ratios.shape[0] >= tf.CLOSED_FORM_FROM:
+            out = self._figures_rows(ratios)
+            if out is not None:
+                return out
         h = self.rational(ratios)
         stable = hurwitz_stable(h.den)
         if tracked and exact_in_closed_form(h):
@@ -101,6 +106,66 @@ class Evaluator:
         else:
             fig = self._measure_tracked(h, ratios) if tracked else _measure_wide(h)
         return fig, stable & fig.valid
+
+    def _figures_rows(self, ratios: np.ndarray) -> tuple[Figures, np.ndarray] | None:
+        """:meth:`figures` (tracked) of a large batch worked on one array per coefficient
+        (:mod:`bandsmith.spread.trialfigures`): the closed-form roots where :func:`measure` takes
+        them, else Newton's method from each member's first-order estimate in place of the
+        tracked grid; None for a batch that reduces to a pure second-order band-pass."""
+        ex = self.expansion
+        num_c, den_c = ex.coefficients(ratios)
+        num, den = tf.scaled_rows(num_c, den_c, ex.num_powers, ex.den_powers)
+        m, n = len(num), len(den)
+        if n == 3 and m in (2, 3) and not (num[-1] != 0).any() and (m == 2 or not (num[0] != 0).any()):
+            return None  # measure() would take the closed form of a band-pass biquad
+        b = ratios.shape[0]
+        w = np.full(b, self.w_ref)
+        stable = tf.hurwitz_rows(den)
+        pu = tf.sq_mag_rows(num)
+        qu = tf.sq_mag_rows(den)
+        slope = tf.slope_rows(pu, qu)
+        if m + n - 2 in (3, 4) and max(m, n) in (3, 4):  # exact_in_closed_form
+            fig = tf.figures_rows(num, den, w, *tf.by_roots_rows(pu, qu, slope))
+            return fig, stable & fig.valid
+        f0_est, q_est, half, ok_est = self._estimates(ratios)
+        centre = f0_est * (2.0 * math.pi) / self.w_ref
+        with np.errstate(invalid="ignore", over="ignore"):
+            ok_est &= np.isfinite(centre)
+            centre = np.where(ok_est, centre, 1.0)
+            half = np.where(ok_est, half, 1.0)
+            edges = (centre * np.exp(-half)) ** 2, (centre * np.exp(half)) ** 2
+        live = np.isfinite(den[0])
+        for r in den[1:]:
+            live &= np.isfinite(r)
+        u_pk, u_low, u_high, _ = tf.tracked_points(pu, qu, slope, centre * centre, q_est, edges, live)
+        fig = tf.figures_rows(num, den, w, u_pk, u_low, u_high)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            off = np.abs(np.log(fig.f0_hz / f0_est)) > 0.5 * half
+            off |= np.abs(np.log(fig.q / q_est)) > math.log(2.0)
+        idx = np.flatnonzero((~fig.valid | off | ~ok_est) & live)
+        if idx.size:
+            wide = _measure_wide(Rational(np.stack(num, axis=1)[idx], np.stack(den, axis=1)[idx], w[idx]))
+            fig = _put(fig, idx, wide)
+        return fig, stable & fig.valid
+
+    def _estimates(self, ratios: np.ndarray):
+        """First-order f0 and Q of each member (from the sensitivities), the log half-width of its
+        search span (three times its estimated half-bandwidth) and a mask of the finite ones."""
+        sens = self.sensitivities()
+        nom = self.nominal
+        b = ratios.shape[0]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            lr = np.log(ratios)
+            ln_f0 = np.full(b, math.log(nom.f0_hz))
+            ln_q = np.full(b, math.log(nom.q))
+            for j in range(lr.shape[1]):
+                if sens["f0"][j] or sens["q"][j]:
+                    ln_f0 += sens["f0"][j] * lr[:, j]
+                    ln_q += sens["q"][j] * lr[:, j]
+            q_est = np.clip(np.exp(ln_q), 0.05, 1e4)
+            f0_est = np.exp(ln_f0)
+            half = 3.0 * np.arcsinh(1.0 / (2.0 * q_est)) + 0.01
+        return f0_est, q_est, half, np.isfinite(f0_est) & np.isfinite(half)
 
     def sensitivities(self) -> dict[str, np.ndarray]:
         """``∂ln y/∂ln x`` of f0, Q and |gain| to every variable (central differences, step 1e-4)."""
