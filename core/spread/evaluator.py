@@ -14,6 +14,7 @@ import numpy as np
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.common.errors import InputError
 from bandsmith.solver.expansion import Expansion, ExpansionUnavailable, Variable, circuit_variables
+from bandsmith.solver.expansion import _SMALL_BATCH as _EXPANSION_SMALL_BATCH
 from bandsmith.analysis.sensitivity import log_slopes, perturbed_ratios
 from bandsmith.analysis.figures import Figures, biquad_figures, exact_in_closed_form, measure
 from bandsmith.solver.mna import OpAmpModel
@@ -68,6 +69,7 @@ class Evaluator:
                     raise
         self.method = "expansion" if self.expansion is not None else "solver"
         self._sens: dict[str, np.ndarray] | None = None
+        self._plan: tf.CoefficientPlan | None = None
 
     def rational(self, ratios: np.ndarray) -> Rational:
         if self.expansion is not None:
@@ -93,7 +95,7 @@ class Evaluator:
     def figures(self, ratios: np.ndarray, *, tracked: bool = True) -> tuple[Figures, np.ndarray]:
         """Figures and stability of each row of ``ratios`` (shape ``(B, len(variables))``)."""
         if self.expansion is not None and self.expansion.pure_bandpass:
-            num, den = self.expansion.coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
+            num, den = self._coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
             return biquad_figures(num[0], den[2], den[1], den[0], self.w_ref)
         if tracked and self.expansion is not None and ratios.shape[0] >= tf.CLOSED_FORM_FROM:
             out = self._figures_rows(ratios)
@@ -107,13 +109,22 @@ class Evaluator:
             fig = self._measure_tracked(h, ratios) if tracked else _measure_wide(h)
         return fig, stable & fig.valid
 
+    def _coefficients(self, ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`Expansion.coefficients` (bit-identical); a large batch through the shared
+        monomial products of :class:`bandsmith.spread.trialfigures.CoefficientPlan`."""
+        if ratios.shape[0] <= _EXPANSION_SMALL_BATCH:  # the expansion's own small-batch form
+            return self.expansion.coefficients(ratios)
+        if self._plan is None:
+            self._plan = tf.CoefficientPlan(self.expansion)
+        return self._plan(ratios)
+
     def _figures_rows(self, ratios: np.ndarray) -> tuple[Figures, np.ndarray] | None:
         """:meth:`figures` (tracked) of a large batch worked on one array per coefficient
         (:mod:`bandsmith.spread.trialfigures`): the closed-form roots where :func:`measure` takes
         them, else Newton's method from each member's first-order estimate in place of the
         tracked grid; None for a batch that reduces to a pure second-order band-pass."""
         ex = self.expansion
-        num_c, den_c = ex.coefficients(ratios)
+        num_c, den_c = self._coefficients(ratios)
         num, den = tf.scaled_rows(num_c, den_c, ex.num_powers, ex.den_powers)
         m, n = len(num), len(den)
         if n == 3 and m in (2, 3) and not (num[-1] != 0).any() and (m == 2 or not (num[0] != 0).any()):
