@@ -66,6 +66,15 @@ def quadratic_roots_rows(c0, c1, c2) -> tuple[list[np.ndarray], np.ndarray]:
     return roots, bad
 
 
+def _first_largest(x: np.ndarray, y: np.ndarray, first=None) -> np.ndarray:
+    """Elementwise the one of larger magnitude, ``x`` on a tie or where ``x`` is NaN, ``y`` where
+    it alone is NaN: argmax's choice over ``[x, y]``. ``first``: the arrays ``x`` was chosen from,
+    for the NaN test of a chain."""
+    nan_x = np.isnan(x) if first is None else np.isnan(first[0]) | np.isnan(first[1])
+    take = (np.abs(y) > np.abs(x)) | (np.isnan(y) & ~nan_x)
+    return np.where(take, y, x)
+
+
 def _dominant_real(a: np.ndarray, b: np.ndarray, c: np.ndarray) -> np.ndarray:
     """The real root of largest magnitude of the monic ``u³ + a·u² + b·u + c``."""
     q = (a * a - 3.0 * b) / 9.0
@@ -76,16 +85,18 @@ def _dominant_real(a: np.ndarray, b: np.ndarray, c: np.ndarray) -> np.ndarray:
     theta = np.arccos(np.clip(np.where(three, r / np.where(three, sq * sq * sq, 1.0), 0.0), -1.0, 1.0))
     a3 = a / 3.0
     m2sq = -2.0 * sq
-    # the three trigonometric roots; the first of largest magnitude (a NaN first of all, as argmax)
-    pick = None
-    for k in (0.0, 2.0 * np.pi, -2.0 * np.pi):
-        t = m2sq * np.cos((theta + k) / 3.0) - a3
-        if pick is None:
-            pick = t
-            continue
-        nan_pick = np.isnan(pick)
-        take = (np.abs(t) > np.abs(pick)) | (np.isnan(t) & ~nan_pick)
-        pick = np.where(take, t, pick)
+    # The three trigonometric roots t0 ≤ t2 ≤ t1 (cosines of θ/3 and (θ ± 2π)/3); the first of
+    # largest magnitude is taken (a NaN first of all, as argmax would). The middle one can be
+    # that only by rounding, where it nearly meets another (θ near 0 or π): computed there alone.
+    t0 = m2sq * np.cos(theta / 3.0) - a3
+    t1 = m2sq * np.cos((theta + 2.0 * np.pi) / 3.0) - a3
+    pick = _first_largest(t0, t1)
+    # t2 − t0 ≥ 0.74·√q·(π − θ) and t1 − t2 ≥ 0.74·√q·θ, against rounding below 1e-14·(√q + |a/3|)
+    clear = 0.74 * sq * np.minimum(theta, np.pi - theta) > 1e-12 * (sq + np.abs(a3))
+    near = three & ~clear
+    if near.any():
+        t2 = m2sq[near] * np.cos((theta[near] - 2.0 * np.pi) / 3.0) - a3[near]
+        pick[near] = _first_largest(_first_largest(t0[near], t1[near]), t2, first=(t0[near], t1[near]))
     big = -np.copysign(np.cbrt(np.abs(r) + np.sqrt(np.where(three, 0.0, r * r - q3))), r)
     card = big + np.divide(q, big, out=np.zeros_like(big), where=big != 0) - a3
     return np.where(three, pick, card)
@@ -109,10 +120,15 @@ def cubic_roots_rows(c0, c1, c2, c3) -> tuple[list[np.ndarray], np.ndarray]:
         b = c2 / lead
         k = c3 / lead
         r_fwd = _dominant_real(a, b, k)
-        # the reversed polynomial u³ + (b/k)·u² + (a/k)·u + 1/k has the roots 1/u
-        r_rev = 1.0 / _dominant_real(b / k, a / k, 1.0 / k)
         dominant = np.abs(r_fwd) ** 3 >= np.abs(k)
-        r1 = np.where(dominant | (k == 0) | ~np.isfinite(r_rev), r_fwd, r_rev)
+        r1 = r_fwd
+        rev = ~(dominant | (k == 0))
+        if rev.any():  # only there is the reversed root taken (computed for those members alone)
+            kr, ar, br = k[rev], a[rev], b[rev]
+            # the reversed polynomial u³ + (b/k)·u² + (a/k)·u + 1/k has the roots 1/u
+            r_rev = 1.0 / _dominant_real(br / kr, ar / kr, 1.0 / kr)
+            r1 = r_fwd.copy()
+            r1[rev] = np.where(np.isfinite(r_rev), r_rev, r_fwd[rev])
         big = np.abs(r1) ** 3 >= np.abs(k)
         zero = r1 == 0
         safe = np.where(zero, 1.0, r1)
