@@ -72,6 +72,7 @@ class Evaluator:
         self._plan: tf.CoefficientPlan | None = None
 
     def rational(self, ratios: np.ndarray) -> Rational:
+        ratios = np.ascontiguousarray(ratios)  # row order for the products of small batches
         if self.expansion is not None:
             return self.expansion.rational(ratios)
         overrides, gbw, a0 = {}, None, None
@@ -94,6 +95,8 @@ class Evaluator:
 
     def figures(self, ratios: np.ndarray, *, tracked: bool = True) -> tuple[Figures, np.ndarray]:
         """Figures and stability of each row of ``ratios`` (shape ``(B, len(variables))``)."""
+        if ratios.shape[0] <= _EXPANSION_SMALL_BATCH:
+            ratios = np.ascontiguousarray(ratios)  # row order for the products of small batches
         if self.expansion is not None and self.expansion.pure_bandpass:
             num, den = self._coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
             return biquad_figures(num[0], den[2], den[1], den[0], self.w_ref)
@@ -166,13 +169,13 @@ class Evaluator:
         nom = self.nominal
         b = ratios.shape[0]
         with np.errstate(invalid="ignore", divide="ignore"):
-            lr = np.log(ratios)
             ln_f0 = np.full(b, math.log(nom.f0_hz))
             ln_q = np.full(b, math.log(nom.q))
-            for j in range(lr.shape[1]):
+            for j in range(ratios.shape[1]):
                 if sens["f0"][j] or sens["q"][j]:
-                    ln_f0 += sens["f0"][j] * lr[:, j]
-                    ln_q += sens["q"][j] * lr[:, j]
+                    lr = np.log(ratios[:, j])
+                    ln_f0 += sens["f0"][j] * lr
+                    ln_q += sens["q"][j] * lr
             q_est = np.clip(np.exp(ln_q), 0.05, 1e4)
             f0_est = np.exp(ln_f0)
             half = 3.0 * np.arcsinh(1.0 / (2.0 * q_est)) + 0.01
@@ -274,15 +277,18 @@ def draws(settings: SpreadSettings, spread: np.ndarray, total: int):
 
 
 def evaluator_columns(ev: Evaluator, drawn: np.ndarray) -> np.ndarray:
-    """Drawn part/GBW ratios → the evaluator's variables (A0 held at nominal)."""
-    cols = []
+    """Drawn part/GBW ratios → the evaluator's variables (A0 held at nominal).
+
+    Shape ``(B, len(ev.variables))``, stored column by column (Fortran order): the evaluator
+    works on one contiguous array per variable."""
+    out = np.empty((len(ev.variables), drawn.shape[0]))
     k = 0
-    for v in ev.variables:
+    for j, v in enumerate(ev.variables):
         if v.kind == "a0":
-            cols.append(np.ones(drawn.shape[0]))
+            out[j] = 1.0
         elif v.kind == "gbw":
-            cols.append(drawn[:, -1])
+            out[j] = drawn[:, -1]
         else:
-            cols.append(drawn[:, k])
+            out[j] = drawn[:, k]
             k += 1
-    return np.column_stack(cols)
+    return out.T
