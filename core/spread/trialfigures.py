@@ -11,7 +11,9 @@ the measurement is written on those rows:
 - stability by Routh–Hurwitz, the same arithmetic as :func:`bandsmith.solver.stability.hurwitz_stable`
   (a structural zero of the Routh array is skipped: it only ever meets ``first > 0`` tests);
 - ``|H|² = P(u)/Q(u)`` at ``u = (ω/w_ref)²`` and the slope ``P'Q − PQ'``, summed in the order of
-  the products of :mod:`bandsmith.analysis.figures`;
+  the products of :mod:`bandsmith.analysis.figures` (those products run through BLAS, whose
+  fused multiply-adds can round a slope coefficient with a weight other than ±1, ±2 differently:
+  a unit in the last place);
 - peak and half-power points: exact roots in closed form where :func:`bandsmith.analysis.figures.measure`
   takes them (quadratics and cubics, the same arithmetic), otherwise Newton's method started at
   the trial's first-order estimate of f0 and Q (:func:`tracked_points`); a trial for which it
@@ -136,7 +138,8 @@ def sq_mag_rows(c: Rows) -> Rows:
 
 
 def slope_rows(pu: Rows, qu: Rows) -> Rows:
-    """``P'Q − PQ'`` in ``u`` (rows, highest first), as :func:`bandsmith.analysis.figures._slope_u`."""
+    """``P'Q − PQ'`` in ``u`` (rows, highest first), as :func:`bandsmith.analysis.figures._slope_u`
+    sums it (to a unit in the last place: no fused multiply-add here)."""
     m, n = len(pu), len(qu)
     b = pu[0].shape[0]
     if m + n < 3:
