@@ -286,7 +286,7 @@ def _newton(poly: Rows, x: list[np.ndarray], live: np.ndarray) -> tuple[list[np.
             xi -= st
         if last:
             break
-        if n >= 2:
+        if n >= 1:
             conv = np.ones_like(live)
             for xi, st in zip(x, steps):
                 conv &= np.abs(st) <= _CONVERGED * np.abs(xi)
@@ -307,8 +307,8 @@ def tracked_points(pu: Rows, qu: Rows, slope: Rows, u0: np.ndarray, q_est: np.nd
     u0 : ndarray
         Estimated peak, ``u = (ω/w_ref)²``.
     q_est : ndarray
-        Estimated Q: the half-power points start at ``u0·(√(1 + 1/4Q²) ∓ 1/2Q)²`` scaled by the
-        peak's move.
+        Estimated Q, for members whose curvature at the peak gives none: the half-power points
+        start at ``u_pk·(√(1 + 1/4Q²) ∓ 1/2Q)²``, Q from that curvature.
     edges : (ndarray, ndarray)
         The ends of the span the estimate vouches for (``u``): a value of ``|H|²`` there above
         the peak found means a higher peak elsewhere, and the member fails.
@@ -324,11 +324,15 @@ def tracked_points(pu: Rows, qu: Rows, slope: Rows, u0: np.ndarray, q_est: np.nd
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         (u_pk,), (ds,), ok = _newton(slope, [np.array(u0, dtype=float)], live)
         ok &= (ds < 0) & (u_pk > 0)  # a maximum: the slope falls through zero
-        peak2 = _ratio_rows(pu, qu, u_pk)
+        p_pk, q_pk = polyval_rows(pu, u_pk), polyval_rows(qu, u_pk)
+        peak2 = p_pk / q_pk
         ok &= (_ratio_rows(pu, qu, edges[0]) < peak2) & (_ratio_rows(pu, qu, edges[1]) < peak2)
         half_peak = 0.5 * peak2
         half = _poly_sub_rows(pu, [q * half_peak for q in qu])
-        t = 0.5 / q_est
+        # 1/2Q from the curvature at the peak: d²|H|²/du² = S'/Q², and a second-order band-pass
+        # has |H|²(u0 ± Δu) ≈ ½|H|²(u0) with Δu² = −2|H|²/(d²|H|²/du²) = u0²/Q² (derived, sympy)
+        t = np.sqrt(-2.0 * p_pk * q_pk / ds) / (2.0 * u_pk)
+        t = np.where(np.isfinite(t) & (t > 0), t, 0.5 / q_est)
         r = np.sqrt(1.0 + t * t)
         lo, hi = r - t, r + t
         (u_low, u_high), _, ok2 = _newton(half, [u_pk * (lo * lo), u_pk * (hi * hi)], live & ok)
