@@ -81,22 +81,41 @@ def _dominant_real(a: np.ndarray, b: np.ndarray, c: np.ndarray) -> np.ndarray:
     r = (2.0 * a * a * a - 9.0 * a * b + 27.0 * c) / 54.0
     q3 = q * q * q
     three = r * r < q3
-    sq = np.sqrt(np.where(three, q, 0.0))
-    theta = np.arccos(np.clip(np.where(three, r / np.where(three, sq * sq * sq, 1.0), 0.0), -1.0, 1.0))
+    every = bool(three.all())  # every member has three real roots (then the masks are no-ops)
+    if every:
+        sq = np.sqrt(q)
+        theta = np.arccos(np.clip(r / (sq * sq * sq), -1.0, 1.0))
+    else:
+        sq = np.sqrt(np.where(three, q, 0.0))
+        theta = np.arccos(np.clip(np.where(three, r / np.where(three, sq * sq * sq, 1.0), 0.0), -1.0, 1.0))
     a3 = a / 3.0
     m2sq = -2.0 * sq
     # The three trigonometric roots t0 ≤ t2 ≤ t1 (cosines of θ/3 and (θ ± 2π)/3); the first of
-    # largest magnitude is taken (a NaN first of all, as argmax would). The middle one can be
-    # that only by rounding, where it nearly meets another (θ near 0 or π): computed there alone.
-    t0 = m2sq * np.cos(theta / 3.0) - a3
-    t1 = m2sq * np.cos((theta + 2.0 * np.pi) / 3.0) - a3
-    pick = _first_largest(t0, t1)
-    # t2 − t0 ≥ 0.74·√q·(π − θ) and t1 − t2 ≥ 0.74·√q·θ, against rounding below 1e-14·(√q + |a/3|)
-    clear = 0.74 * sq * np.minimum(theta, np.pi - theta) > 1e-12 * (sq + np.abs(a3))
+    # largest magnitude is taken (a NaN first of all, as argmax would).
+    # - t0 + t1 = −2√q·cos((θ + π)/3) − 2a/3 with |2√q·cos((θ + π)/3)| ≤ √q: where 2|a|/3 exceeds
+    #   √q by more than rounding, t0 (a > 0) or t1 (a < 0) is the larger, and only it is computed;
+    # - the middle one can be the largest only by rounding, where it nearly meets another (θ near
+    #   0 or π): t2 − t0 ≥ 0.74·√q·(π − θ) and t1 − t2 ≥ 0.74·√q·θ, against rounding below
+    #   1e-14·(√q + |a/3|); all three are computed there alone.
+    abs_a3 = np.abs(a3)
+    dec = 2.0 * abs_a3 - sq > 1e-12 * (sq + abs_a3)
+    unused = ~three  # members that take the Cardano form
+    if (unused | (dec & (a3 > 0))).all():
+        pick = m2sq * np.cos(theta / 3.0) - a3
+    elif (unused | (dec & (a3 < 0))).all():
+        pick = m2sq * np.cos((theta + 2.0 * np.pi) / 3.0) - a3
+    else:
+        pick = _first_largest(m2sq * np.cos(theta / 3.0) - a3, m2sq * np.cos((theta + 2.0 * np.pi) / 3.0) - a3)
+    clear = 0.74 * sq * np.minimum(theta, np.pi - theta) > 1e-12 * (sq + abs_a3)
     near = three & ~clear
     if near.any():
-        t2 = m2sq[near] * np.cos((theta[near] - 2.0 * np.pi) / 3.0) - a3[near]
-        pick[near] = _first_largest(_first_largest(t0[near], t1[near]), t2, first=(t0[near], t1[near]))
+        m, th, a3n = m2sq[near], theta[near], a3[near]
+        t0 = m * np.cos(th / 3.0) - a3n
+        t1 = m * np.cos((th + 2.0 * np.pi) / 3.0) - a3n
+        t2 = m * np.cos((th - 2.0 * np.pi) / 3.0) - a3n
+        pick[near] = _first_largest(_first_largest(t0, t1), t2, first=(t0, t1))
+    if every:
+        return pick
     big = -np.copysign(np.cbrt(np.abs(r) + np.sqrt(np.where(three, 0.0, r * r - q3))), r)
     card = big + np.divide(q, big, out=np.zeros_like(big), where=big != 0) - a3
     return np.where(three, pick, card)
