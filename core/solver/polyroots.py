@@ -161,23 +161,33 @@ def cubic_roots_rows(c0, c1, c2, c3) -> tuple[list[np.ndarray], np.ndarray]:
 
 def _polish(roots: list[np.ndarray], monic: list, steps: int = 2) -> list[np.ndarray]:
     """Two Newton steps on every finite root of the monic polynomial ``monic`` (coefficients
-    highest first, the leading 1 given as None); a step that is not finite or grows is not taken."""
+    highest first, the leading 1 given as None); a step that is not finite or grows is not taken.
+    Works in place on its own copies (fewer fresh arrays)."""
     n = len(monic)
     # derivative coefficients (n − 1 − i)·c_i; the leading one is n − 1
     d = [float(n - 1)] + [monic[i] * float(n - 1 - i) for i in range(1, n - 1)]
     out = []
     for x in roots:
+        x = x.copy()
         for _ in range(steps):
             p = x + monic[1]  # 1·x is x
             for i in range(2, n):
                 p *= x
                 p += monic[i]
-            dp = np.full_like(x, d[0])
-            for i in range(1, n - 1):
-                dp *= x
-                dp += d[i]
-            step = p / dp
-            ok = np.isfinite(step) & (np.abs(step) <= 0.5 * np.abs(x) + 1e-300)
-            x = np.where(ok, x - step, x)
+            if n == 2:
+                dp = np.full_like(x, d[0])
+            else:  # Horner from d0: (d0·x + d1)·x + …
+                dp = x * d[0]
+                dp += d[1]
+                for i in range(2, n - 1):
+                    dp *= x
+                    dp += d[i]
+            p /= dp  # the step
+            ok = np.isfinite(p)
+            lim = np.abs(x)
+            lim *= 0.5
+            lim += 1e-300
+            ok &= np.abs(p, out=dp) <= lim
+            np.subtract(x, p, out=x, where=ok)
         out.append(x)
     return out
