@@ -32,10 +32,16 @@ def _quadratic(e: np.ndarray, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Real roots of ``u² + e·u + f`` (NaN for a complex pair), cancellation-free."""
     disc = e * e - 4.0 * f
     sq = np.sqrt(np.abs(disc))
-    near = (disc < 0) & (0.5 * sq <= NEAR_REAL * np.sqrt(np.abs(f)))
     q = -0.5 * (e + np.copysign(sq, e))
+    nonzero = q != 0
+    if nonzero.all():
+        r2 = f / q
+    else:
+        r2 = np.divide(f, q, out=np.zeros_like(q), where=nonzero)
+    if (disc >= 0).all():  # every pair real (no NaN either): the masks below are no-ops
+        return q, r2
     r1 = q
-    r2 = np.divide(f, q, out=np.zeros_like(q), where=q != 0)
+    near = (disc < 0) & (0.5 * sq <= NEAR_REAL * np.sqrt(np.abs(f)))
     r1 = np.where(near, -0.5 * e, r1)
     r2 = np.where(near, -0.5 * e, r2)
     real = (disc >= 0) | near
