@@ -401,6 +401,7 @@ class CoefficientPlan:
         rest_pw = {(i, e): q[i] ** e for i, e in self.powers if i not in unit}
         outs = (np.zeros((self.n_num, b)), np.zeros((self.n_den, b)))
         tmp = np.empty(b)
+        buffers: list[np.ndarray] = []
         stack: list[tuple[tuple, np.ndarray]] = []
         one = None
         for factors, terms in self._steps(unit):
@@ -410,8 +411,10 @@ class CoefficientPlan:
                 i, e = factors[depth]
                 if depth == 0:
                     node = q[i] if e == 1 else first_pw[(i, e)]
-                else:
-                    node = stack[-1][1] * (q[i] if e == 1 else rest_pw[(i, e)])
+                else:  # one buffer per depth: a node replaces only nodes no longer on the stack
+                    while len(buffers) < depth:
+                        buffers.append(np.empty(b))
+                    node = np.multiply(stack[-1][1], q[i] if e == 1 else rest_pw[(i, e)], out=buffers[depth - 1])
                 stack.append((factors[: depth + 1], node))
             if factors:
                 node = stack[-1][1]
