@@ -93,3 +93,23 @@ def test_cubic_roots_of_batches_with_three_real_roots_match_numpy_roots(signs):
     assert not bad.any()
     for g, t in zip(got, true):
         assert_allclose(_real_sorted(g), np.sort(t), rtol=1e-9)
+
+
+def test_positive_roots_only_leave_the_positive_roots_unchanged():
+    # With positive=True a root array with no member at or above zero skips its Newton polish;
+    # the positive roots must be exactly those of the full computation (derived: a polish step is
+    # at most half the root, so it never crosses zero).
+    from bandsmith.solver.polyroots import cubic_roots_rows, quadratic_roots_rows
+
+    rng = np.random.default_rng(8)
+    n = 4000
+    true = rng.uniform(0.5, 2.0, size=(n, 3)) * 10.0 ** rng.integers(-3, 4, size=(n, 3))
+    true[:, :2] *= -1.0  # two negative roots in every member, one positive
+    true[:50, 2] = 0.0  # a root at zero
+    c = [np.ascontiguousarray(col) for col in np.stack([np.poly(t) for t in true]).T]
+    for solve, coeffs in ((cubic_roots_rows, c), (quadratic_roots_rows, [np.ones(n), -(true[:, 0] + true[:, 2]), true[:, 0] * true[:, 2]])):
+        full, bad_full = solve(*coeffs)
+        pos, bad_pos = solve(*coeffs, positive=True)
+        np.testing.assert_array_equal(bad_full, bad_pos)
+        for a, b in zip(full, pos):
+            np.testing.assert_array_equal(np.where(a > 0, a, np.nan), np.where(b > 0, b, np.nan))

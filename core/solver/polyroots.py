@@ -58,16 +58,20 @@ def quadratic_roots(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.stack(roots, axis=1), bad
 
 
-def quadratic_roots_rows(c0, c1, c2) -> tuple[list[np.ndarray], np.ndarray]:
+def quadratic_roots_rows(c0, c1, c2, *, positive: bool = False) -> tuple[list[np.ndarray], np.ndarray]:
     """:func:`quadratic_roots` with the coefficients as separate arrays ``(B,)``: a list of the two
     root arrays and the mask. Every operation works on whole contiguous arrays (a ``(B, 2)`` array
-    broadcast against a ``(B, 1)`` column runs several times slower); the arithmetic is the same."""
+    broadcast against a ``(B, 1)`` column runs several times slower); the arithmetic is the same.
+
+    ``positive``: only the positive roots are wanted; a root array with no member that is
+    positive, zero or within 4e-300 of zero is returned unpolished (the polish never moves a root
+    across zero, so such an array stays negative or NaN)."""
     with np.errstate(all="ignore"):
         lead = c0
         e = c1 / lead
         f = c2 / lead
         r1, r2 = _quadratic(e, f)
-        roots = _polish([r1, r2], [None, e, f])
+        roots = _polish([r1, r2], [None, e, f], positive=positive)
     bad = ~(np.isfinite(e) & np.isfinite(f))
     return roots, bad
 
@@ -136,9 +140,9 @@ def cubic_roots(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.stack(roots, axis=1), bad
 
 
-def cubic_roots_rows(c0, c1, c2, c3) -> tuple[list[np.ndarray], np.ndarray]:
+def cubic_roots_rows(c0, c1, c2, c3, *, positive: bool = False) -> tuple[list[np.ndarray], np.ndarray]:
     """:func:`cubic_roots` with the coefficients as separate arrays ``(B,)``: a list of the three
-    root arrays and the mask (see :func:`quadratic_roots_rows`)."""
+    root arrays and the mask (see :func:`quadratic_roots_rows`, also for ``positive``)."""
     with np.errstate(all="ignore"):
         lead = c0
         a = c1 / lead
@@ -160,12 +164,12 @@ def cubic_roots_rows(c0, c1, c2, c3) -> tuple[list[np.ndarray], np.ndarray]:
         f = np.where(zero, b, -k / safe)
         e = np.where(zero, a, np.where(big, (f - b) / safe, a + r1))
         s1, s2 = _quadratic(e, f)
-        roots = _polish([r1, s1, s2], [None, a, b, k])
+        roots = _polish([r1, s1, s2], [None, a, b, k], positive=positive)
     bad = ~(np.isfinite(a) & np.isfinite(b) & np.isfinite(k) & np.isfinite(r1))
     return roots, bad
 
 
-def _polish(roots: list[np.ndarray], monic: list, steps: int = 2) -> list[np.ndarray]:
+def _polish(roots: list[np.ndarray], monic: list, steps: int = 2, *, positive: bool = False) -> list[np.ndarray]:
     """Two Newton steps on every finite root of the monic polynomial ``monic`` (coefficients
     highest first, the leading 1 given as None); a step that is not finite or grows is not taken.
     Works in place on its own copies (fewer fresh arrays)."""
@@ -174,6 +178,10 @@ def _polish(roots: list[np.ndarray], monic: list, steps: int = 2) -> list[np.nda
     d = [float(n - 1)] + [monic[i] * float(n - 1 - i) for i in range(1, n - 1)]
     out = []
     for x in roots:
+        # a step is at most half the root (plus 1e-300): a root below −4e-300 stays negative
+        if positive and not (x >= -4e-300).any():
+            out.append(x)
+            continue
         x = x.copy()
         for _ in range(steps):
             p = x + monic[1]  # 1·x is x

@@ -222,7 +222,7 @@ def real_positive_roots_rows(c: Rows) -> list[np.ndarray]:
         c = [np.where(low, s, x) for s, x in zip(shifted, c)]
     lead = np.where(np.abs(c[0]) <= tiny, tiny, c[0])
     if k in (3, 4) and b >= CLOSED_FORM_FROM:
-        roots, bad = (quadratic_roots_rows if k == 3 else cubic_roots_rows)(lead, *c[1:])
+        roots, bad = (quadratic_roots_rows if k == 3 else cubic_roots_rows)(lead, *c[1:], positive=True)
         if bad.any():
             full = np.stack(c, axis=1)[bad]
             eig = _real_positive_roots_eig(full, lead[bad][:, None])
@@ -250,6 +250,12 @@ def by_roots_rows(pu: Rows, qu: Rows, slope: Rows):
     if not cand:
         nan = np.full(b, np.nan)
         return nan, nan, nan
+    # a candidate array without a member (NaN throughout) is never argmax's choice: left out
+    kept = [cd for cd in cand if not np.isnan(cd).all()]
+    if not kept:
+        nan = np.full(b, np.nan)
+        return nan, nan, nan
+    cand = kept
     with np.errstate(invalid="ignore", divide="ignore"):
         vals = [_ratio_rows(pu, qu, np.nan_to_num(cd, nan=1.0)) for cd in cand]
     vals = [np.where(np.isfinite(cd), v, -np.inf) for cd, v in zip(cand, vals)]
@@ -258,7 +264,7 @@ def by_roots_rows(pu: Rows, qu: Rows, slope: Rows):
     with np.errstate(invalid="ignore", divide="ignore"):
         peak2 = _ratio_rows(pu, qu, u_pk)
         half_peak = 0.5 * peak2
-        half_roots = real_positive_roots_rows(_poly_sub_rows(pu, [q * half_peak for q in qu]))
+        half_roots = [r for r in real_positive_roots_rows(_poly_sub_rows(pu, [q * half_peak for q in qu])) if not np.isnan(r).all()]
     low = np.full(b, -np.inf)
     high = np.full(b, np.inf)
     with np.errstate(invalid="ignore"):
