@@ -1,7 +1,8 @@
 """The engine of the tolerance spread: figures of batches of part values, and the seeded draws.
 
 How a batch is evaluated (the coefficient expansion or the solver, the closed form of a
-second-order band-pass, the tracked search grid) is described in :mod:`bandsmith.spread.tolerance`.
+second-order band-pass, closed-form roots or Newton's method from each trial's estimate, the
+tracked search grid of the solver's batches) is described in :mod:`bandsmith.spread.tolerance`.
 """
 
 from __future__ import annotations
