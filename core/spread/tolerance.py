@@ -23,8 +23,8 @@ and the half-power points are the exact roots in closed form where their polynom
 quadratics or cubics (one op-amp with a finite GBW, the tank with a winding resistance), and else
 (several op-amps with a finite GBW) found by Newton's method started at the trial's first-order
 estimate of f0 and, for the band edges, at the bandwidth the curvature of ``|H|²`` at the peak
-gives. A trial for which that fails, whose peak is not the highest point of the span three
-estimated half-bandwidths either side, or whose figures land away from its estimate is measured
+gives. A trial for which that fails, whose ``|H|²`` three estimated half-bandwidths either side of
+its estimate is above the peak found, or whose figures land away from its estimate is measured
 again with the global search of :func:`bandsmith.analysis.figures.measure`.
 
 A trial passes when it is stable (Routh–Hurwitz on its denominator), its figures are defined and
