@@ -142,12 +142,8 @@ class Evaluator:
         if m + n - 2 in (3, 4) and max(m, n) in (3, 4):  # exact_in_closed_form
             fig = tf.figures_rows(num, den, w, *tf.by_roots_rows(pu, qu, slope))
             return fig, stable & fig.valid
-        f0_est, q_est, half, ok_est = self._estimates(ratios)
-        centre = f0_est * (2.0 * math.pi) / self.w_ref
+        f0_est, q_est, centre, half, ok_est = self._estimates(ratios)
         with np.errstate(invalid="ignore", over="ignore"):
-            ok_est &= np.isfinite(centre)
-            centre = np.where(ok_est, centre, 1.0)
-            half = np.where(ok_est, half, 1.0)
             edges = (centre * np.exp(-half)) ** 2, (centre * np.exp(half)) ** 2
         live = np.isfinite(den[0])
         for r in den[1:]:
@@ -164,12 +160,13 @@ class Evaluator:
         return fig, stable & fig.valid
 
     def _estimates(self, ratios: np.ndarray):
-        """First-order f0 and Q of each member (from the sensitivities), the log half-width of its
-        search span (three times its estimated half-bandwidth) and a mask of the finite ones."""
+        """First-order f0 and Q of each member (from the sensitivities); the centre (``ω/w_ref``)
+        and log half-width (three estimated half-bandwidths) of its search span, 1 where the
+        estimate is not finite; and a mask of the members whose estimate is."""
         sens = self.sensitivities()
         nom = self.nominal
         b = ratios.shape[0]
-        with np.errstate(invalid="ignore", divide="ignore"):
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             ln_f0 = np.full(b, math.log(nom.f0_hz))
             ln_q = np.full(b, math.log(nom.q))
             for j in range(ratios.shape[1]):
@@ -180,7 +177,9 @@ class Evaluator:
             q_est = np.clip(np.exp(ln_q), 0.05, 1e4)
             f0_est = np.exp(ln_f0)
             half = 3.0 * np.arcsinh(1.0 / (2.0 * q_est)) + 0.01
-        return f0_est, q_est, half, np.isfinite(f0_est) & np.isfinite(half)
+            centre = f0_est * (2.0 * math.pi) / self.w_ref
+        ok_est = np.isfinite(centre) & np.isfinite(half)
+        return f0_est, q_est, np.where(ok_est, centre, 1.0), np.where(ok_est, half, 1.0), ok_est
 
     def sensitivities(self) -> dict[str, np.ndarray]:
         """``∂ln y/∂ln x`` of f0, Q and |gain| to every variable (central differences, step 1e-4)."""
@@ -196,23 +195,8 @@ class Evaluator:
 
     def _measure_tracked(self, h: Rational, ratios: np.ndarray) -> Figures:
         """Measure each member on a grid of its own around its first-order f0 and bandwidth."""
-        sens = self.sensitivities()
-        nom = self.nominal
+        f0_est, q_est, centre, half, ok_est = self._estimates(ratios)
         with np.errstate(invalid="ignore", divide="ignore"):
-            lr = np.log(ratios)
-            ln_f0 = np.full(h.batch, math.log(nom.f0_hz))
-            ln_q = np.full(h.batch, math.log(nom.q))
-            for j in range(lr.shape[1]):
-                if sens["f0"][j] or sens["q"][j]:
-                    ln_f0 += sens["f0"][j] * lr[:, j]
-                    ln_q += sens["q"][j] * lr[:, j]
-            q_est = np.clip(np.exp(ln_q), 0.05, 1e4)
-            f0_est = np.exp(ln_f0)
-            half = 3.0 * np.arcsinh(1.0 / (2.0 * q_est)) + 0.01
-            centre = f0_est * (2.0 * math.pi) / self.w_ref
-            ok_est = np.isfinite(centre) & np.isfinite(half)
-            centre = np.where(ok_est, centre, 1.0)
-            half = np.where(ok_est, half, 1.0)
             t = np.linspace(-1.0, 1.0, _GRID_POINTS)
             grid = centre[:, None] * np.exp(half[:, None] * t[None, :])
             fig = measure(h, grid=grid)
