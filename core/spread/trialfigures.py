@@ -22,23 +22,25 @@ the measurement is written on those rows:
 The tracked search of :mod:`bandsmith.analysis.figures` brackets the same roots on a 49-point grid
 and refines them by Newton's method: both converge to the roots of the same polynomials, so the
 figures agree to rounding (Newton's method from a first-order estimate within a per cent of the
-root converges quadratically: four or five steps to the last digit, against 49 evaluations of
-``|H|²`` per trial on the grid).
+root converges quadratically: four steps for the peak and three for the band edges to the last
+digit, against 49 evaluations of ``|H|²`` per trial on the grid).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
+from bandsmith.analysis.figures import _CLOSED_FORM_FROM as CLOSED_FORM_FROM
 from bandsmith.analysis.figures import Figures, _figures_at, _real_positive_roots_eig
 from bandsmith.solver.polyroots import cubic_roots_rows, quadratic_roots_rows
 
-__all__ = ["Rows", "scaled_rows", "hurwitz_rows", "sq_mag_rows", "slope_rows", "polyval_rows", "by_roots_rows", "tracked_points", "figures_rows"]
+__all__ = [
+    "Rows", "CLOSED_FORM_FROM", "CoefficientPlan", "scaled_rows", "hurwitz_rows", "sq_mag_rows", "slope_rows",
+    "polyval_rows", "real_positive_roots_rows", "by_roots_rows", "tracked_points", "figures_rows",
+]
 
 Rows = list  # a batch of polynomials: k arrays (B,), highest power first
 
-# as in bandsmith.analysis.figures: from this batch size on quadratics and cubics in closed form
-CLOSED_FORM_FROM = 96
 # Newton's method on the tracked roots: at most this many steps; converged when a step is below
 # _CONVERGED of the root (quadratic convergence: the next, last, step leaves rounding error only)
 _NEWTON_MOST = 12
