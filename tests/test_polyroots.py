@@ -73,3 +73,43 @@ def test_biquad_closed_form_at_a_very_high_q():
     fig = measure(_first_pass(topo.netlist(v), None).h_ideal).item()
     assert fig.f0_hz == pytest.approx(1.0 / (2 * np.pi * np.sqrt(1e-15 * 1e6)), rel=1e-12)
     assert fig.q == pytest.approx(1.0 * np.sqrt(1e6 / 1e-15), rel=1e-12)
+
+
+@pytest.mark.parametrize("signs", ["positive", "negative", "mixed"])
+def test_cubic_roots_of_batches_with_three_real_roots_match_numpy_roots(signs):
+    # A whole batch with three real roots (the cubics of a spread): the dominant root is found with
+    # one cosine where the coefficients decide it; numpy.roots (companion-matrix eigenvalues) is
+    # the reference. Roots over eight decades, well apart.
+    rng = np.random.default_rng({"positive": 1, "negative": 2, "mixed": 3}[signs])
+    n = 500
+    true = rng.uniform(1.0, 3.0, size=(n, 3)) * 10.0 ** rng.integers(-4, 5, size=(n, 3))
+    true[:, 1] *= 1.5  # no double roots
+    if signs == "negative":
+        true = -true
+    elif signs == "mixed":
+        true *= rng.choice([-1.0, 1.0], size=(n, 3))
+    c = np.stack([np.poly(t) for t in true])
+    got, bad = cubic_roots(c)
+    assert not bad.any()
+    for g, t in zip(got, true):
+        assert_allclose(_real_sorted(g), np.sort(t), rtol=1e-9)
+
+
+def test_positive_roots_only_leave_the_positive_roots_unchanged():
+    # With positive=True a root array with no member at or above zero skips its Newton polish;
+    # the positive roots must be exactly those of the full computation (derived: a polish step is
+    # at most half the root, so it never crosses zero).
+    from bandsmith.solver.polyroots import cubic_roots_rows, quadratic_roots_rows
+
+    rng = np.random.default_rng(8)
+    n = 4000
+    true = rng.uniform(0.5, 2.0, size=(n, 3)) * 10.0 ** rng.integers(-3, 4, size=(n, 3))
+    true[:, :2] *= -1.0  # two negative roots in every member, one positive
+    true[:50, 2] = 0.0  # a root at zero
+    c = [np.ascontiguousarray(col) for col in np.stack([np.poly(t) for t in true]).T]
+    for solve, coeffs in ((cubic_roots_rows, c), (quadratic_roots_rows, [np.ones(n), -(true[:, 0] + true[:, 2]), true[:, 0] * true[:, 2]])):
+        full, bad_full = solve(*coeffs)
+        pos, bad_pos = solve(*coeffs, positive=True)
+        np.testing.assert_array_equal(bad_full, bad_pos)
+        for a, b in zip(full, pos):
+            np.testing.assert_array_equal(np.where(a > 0, a, np.nan), np.where(b > 0, b, np.nan))

@@ -1,7 +1,8 @@
 """The engine of the tolerance spread: figures of batches of part values, and the seeded draws.
 
 How a batch is evaluated (the coefficient expansion or the solver, the closed form of a
-second-order band-pass, the tracked search grid) is described in :mod:`bandsmith.spread.tolerance`.
+second-order band-pass, closed-form roots or Newton's method from each trial's estimate, the
+tracked search grid of the solver's batches) is described in :mod:`bandsmith.spread.tolerance`.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ import numpy as np
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.common.errors import InputError
 from bandsmith.solver.expansion import Expansion, ExpansionUnavailable, Variable, circuit_variables
+from bandsmith.solver.expansion import _SMALL_BATCH as _EXPANSION_SMALL_BATCH
 from bandsmith.analysis.sensitivity import log_slopes, perturbed_ratios
 from bandsmith.analysis.figures import Figures, biquad_figures, exact_in_closed_form, measure
 from bandsmith.solver.mna import OpAmpModel
@@ -21,6 +23,7 @@ from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.spread.spread_settings import CHUNK, KINDS, SpreadSettings
+from bandsmith.spread import trialfigures as tf
 
 __all__ = ["Evaluator", "part_tolerances", "setup_spread", "nominal_figures", "draws", "evaluator_columns"]
 
@@ -67,8 +70,10 @@ class Evaluator:
                     raise
         self.method = "expansion" if self.expansion is not None else "solver"
         self._sens: dict[str, np.ndarray] | None = None
+        self._plan: tf.CoefficientPlan | None = None
 
     def rational(self, ratios: np.ndarray) -> Rational:
+        ratios = np.ascontiguousarray(ratios)  # row order for the products of small batches
         if self.expansion is not None:
             return self.expansion.rational(ratios)
         overrides, gbw, a0 = {}, None, None
@@ -91,9 +96,15 @@ class Evaluator:
 
     def figures(self, ratios: np.ndarray, *, tracked: bool = True) -> tuple[Figures, np.ndarray]:
         """Figures and stability of each row of ``ratios`` (shape ``(B, len(variables))``)."""
+        if ratios.shape[0] <= _EXPANSION_SMALL_BATCH:
+            ratios = np.ascontiguousarray(ratios)  # row order for the products of small batches
         if self.expansion is not None and self.expansion.pure_bandpass:
-            num, den = self.expansion.coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
+            num, den = self._coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
             return biquad_figures(num[0], den[2], den[1], den[0], self.w_ref)
+        if tracked and self.expansion is not None and ratios.shape[0] >= tf.CLOSED_FORM_FROM:
+            out = self._figures_rows(ratios)
+            if out is not None:
+                return out
         h = self.rational(ratios)
         stable = hurwitz_stable(h.den)
         if tracked and exact_in_closed_form(h):
@@ -101,6 +112,74 @@ class Evaluator:
         else:
             fig = self._measure_tracked(h, ratios) if tracked else _measure_wide(h)
         return fig, stable & fig.valid
+
+    def _coefficients(self, ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`Expansion.coefficients` (bit-identical); a large batch through the shared
+        monomial products of :class:`bandsmith.spread.trialfigures.CoefficientPlan`."""
+        if ratios.shape[0] <= _EXPANSION_SMALL_BATCH:  # the expansion's own small-batch form
+            return self.expansion.coefficients(ratios)
+        if self._plan is None:
+            self._plan = tf.CoefficientPlan(self.expansion)
+        return self._plan(ratios)
+
+    def _figures_rows(self, ratios: np.ndarray) -> tuple[Figures, np.ndarray] | None:
+        """:meth:`figures` (tracked) of a large batch worked on one array per coefficient
+        (:mod:`bandsmith.spread.trialfigures`): the closed-form roots where :func:`measure` takes
+        them, else Newton's method from each member's first-order estimate in place of the
+        tracked grid; None for a batch that reduces to a pure second-order band-pass."""
+        ex = self.expansion
+        num_c, den_c = self._coefficients(ratios)
+        num, den = tf.scaled_rows(num_c, den_c, ex.num_powers, ex.den_powers)
+        m, n = len(num), len(den)
+        if n == 3 and m in (2, 3) and not (num[-1] != 0).any() and (m == 2 or not (num[0] != 0).any()):
+            return None  # measure() would take the closed form of a band-pass biquad
+        b = ratios.shape[0]
+        w = np.full(b, self.w_ref)
+        stable = tf.hurwitz_rows(den)
+        pu = tf.sq_mag_rows(num)
+        qu = tf.sq_mag_rows(den)
+        slope = tf.slope_rows(pu, qu)
+        if m + n - 2 in (3, 4) and max(m, n) in (3, 4):  # exact_in_closed_form
+            fig = tf.figures_rows(num, den, w, *tf.by_roots_rows(pu, qu, slope))
+            return fig, stable & fig.valid
+        f0_est, q_est, centre, half, ok_est = self._estimates(ratios)
+        with np.errstate(invalid="ignore", over="ignore"):
+            edges = (centre * np.exp(-half)) ** 2, (centre * np.exp(half)) ** 2
+        live = np.isfinite(den[0])
+        for r in den[1:]:
+            live &= np.isfinite(r)
+        u_pk, u_low, u_high, _ = tf.tracked_points(pu, qu, slope, centre * centre, q_est, edges, live)
+        fig = tf.figures_rows(num, den, w, u_pk, u_low, u_high)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            off = np.abs(np.log(fig.f0_hz / f0_est)) > 0.5 * half
+            off |= np.abs(np.log(fig.q / q_est)) > math.log(2.0)
+        idx = np.flatnonzero((~fig.valid | off | ~ok_est) & live)
+        if idx.size:
+            wide = _measure_wide(Rational(np.stack(num, axis=1)[idx], np.stack(den, axis=1)[idx], w[idx]))
+            fig = _put(fig, idx, wide)
+        return fig, stable & fig.valid
+
+    def _estimates(self, ratios: np.ndarray):
+        """First-order f0 and Q of each member (from the sensitivities); the centre (``ω/w_ref``)
+        and log half-width (three estimated half-bandwidths) of its search span, 1 where the
+        estimate is not finite; and a mask of the members whose estimate is."""
+        sens = self.sensitivities()
+        nom = self.nominal
+        b = ratios.shape[0]
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            ln_f0 = np.full(b, math.log(nom.f0_hz))
+            ln_q = np.full(b, math.log(nom.q))
+            for j in range(ratios.shape[1]):
+                if sens["f0"][j] or sens["q"][j]:
+                    lr = np.log(ratios[:, j])
+                    ln_f0 += sens["f0"][j] * lr
+                    ln_q += sens["q"][j] * lr
+            q_est = np.clip(np.exp(ln_q), 0.05, 1e4)
+            f0_est = np.exp(ln_f0)
+            half = 3.0 * np.arcsinh(1.0 / (2.0 * q_est)) + 0.01
+            centre = f0_est * (2.0 * math.pi) / self.w_ref
+        ok_est = np.isfinite(centre) & np.isfinite(half)
+        return f0_est, q_est, np.where(ok_est, centre, 1.0), np.where(ok_est, half, 1.0), ok_est
 
     def sensitivities(self) -> dict[str, np.ndarray]:
         """``∂ln y/∂ln x`` of f0, Q and |gain| to every variable (central differences, step 1e-4)."""
@@ -116,23 +195,8 @@ class Evaluator:
 
     def _measure_tracked(self, h: Rational, ratios: np.ndarray) -> Figures:
         """Measure each member on a grid of its own around its first-order f0 and bandwidth."""
-        sens = self.sensitivities()
-        nom = self.nominal
+        f0_est, q_est, centre, half, ok_est = self._estimates(ratios)
         with np.errstate(invalid="ignore", divide="ignore"):
-            lr = np.log(ratios)
-            ln_f0 = np.full(h.batch, math.log(nom.f0_hz))
-            ln_q = np.full(h.batch, math.log(nom.q))
-            for j in range(lr.shape[1]):
-                if sens["f0"][j] or sens["q"][j]:
-                    ln_f0 += sens["f0"][j] * lr[:, j]
-                    ln_q += sens["q"][j] * lr[:, j]
-            q_est = np.clip(np.exp(ln_q), 0.05, 1e4)
-            f0_est = np.exp(ln_f0)
-            half = 3.0 * np.arcsinh(1.0 / (2.0 * q_est)) + 0.01
-            centre = f0_est * (2.0 * math.pi) / self.w_ref
-            ok_est = np.isfinite(centre) & np.isfinite(half)
-            centre = np.where(ok_est, centre, 1.0)
-            half = np.where(ok_est, half, 1.0)
             t = np.linspace(-1.0, 1.0, _GRID_POINTS)
             grid = centre[:, None] * np.exp(half[:, None] * t[None, :])
             fig = measure(h, grid=grid)
@@ -198,15 +262,18 @@ def draws(settings: SpreadSettings, spread: np.ndarray, total: int):
 
 
 def evaluator_columns(ev: Evaluator, drawn: np.ndarray) -> np.ndarray:
-    """Drawn part/GBW ratios → the evaluator's variables (A0 held at nominal)."""
-    cols = []
+    """Drawn part/GBW ratios → the evaluator's variables (A0 held at nominal).
+
+    Shape ``(B, len(ev.variables))``, stored column by column (Fortran order): the evaluator
+    works on one contiguous array per variable."""
+    out = np.empty((len(ev.variables), drawn.shape[0]))
     k = 0
-    for v in ev.variables:
+    for j, v in enumerate(ev.variables):
         if v.kind == "a0":
-            cols.append(np.ones(drawn.shape[0]))
+            out[j] = 1.0
         elif v.kind == "gbw":
-            cols.append(drawn[:, -1])
+            out[j] = drawn[:, -1]
         else:
-            cols.append(drawn[:, k])
+            out[j] = drawn[:, k]
             k += 1
-    return np.column_stack(cols)
+    return out.T

@@ -17,11 +17,15 @@ trial.
 The figures of a trial are those of :mod:`bandsmith.analysis.figures`. A second-order band-pass
 ``b1·p/(a2·p² + a1·p + a0)`` (any circuit here with an ideal op-amp) has them in closed form —
 ``ω0 = √(a0/a2)``, ``Q = √(a0·a2)/|a1|``, centre gain ``b1/a1`` and ``−3 dB`` points
-``ω0·(√(1 + 1/(4Q²)) ∓ 1/(2Q))``, by :func:`bandsmith.analysis.figures.biquad_figures` — otherwise
-they are measured on a search grid of each trial's own, centred on the first-order estimate of its
-f0 and as wide as three times its estimated half-bandwidth (robust from Q = 0.5 to beyond 100); a
-trial whose measurement lands away from its estimate is measured again with the global search of
-:func:`bandsmith.analysis.figures.measure`.
+``ω0·(√(1 + 1/(4Q²)) ∓ 1/(2Q))``, by :func:`bandsmith.analysis.figures.biquad_figures`. Otherwise,
+in a chunk (:mod:`bandsmith.spread.trialfigures`, one contiguous array per coefficient), the peak
+and the half-power points are the exact roots in closed form where their polynomials are
+quadratics or cubics (one op-amp with a finite GBW, the tank with a winding resistance), and else
+(several op-amps with a finite GBW) found by Newton's method started at the trial's first-order
+estimate of f0 and, for the band edges, at the bandwidth the curvature of ``|H|²`` at the peak
+gives. A trial for which that fails, whose ``|H|²`` three estimated half-bandwidths either side of
+its estimate is above the peak found, or whose figures land away from its estimate is measured
+again with the global search of :func:`bandsmith.analysis.figures.measure`.
 
 A trial passes when it is stable (Routh–Hurwitz on its denominator), its figures are defined and
 its f0, Q and centre gain lie within the window (±P, ±P, ±D dB) around the nominal figures, which
