@@ -496,6 +496,19 @@ class Expansion:
             raise ExpansionUnavailable(f"disagrees with the solver by {err:.2g}")
 
     # -- use ----------------------------------------------------------------------------------
+    def monomial_terms(self) -> tuple[list, list, list]:
+        """The monomials and where they go, for loops over large batches (made when first asked):
+        ``(factors, num_terms, den_terms)``; ``factors[m]`` is monomial ``m`` as ``((variable,
+        exponent), …)`` (nonzero exponents, variables ascending), each term ``(row, m, coefficient)``
+        adds ``coefficient · monomial m`` to the coefficient of ``num_powers[row]`` (or ``den_powers``)."""
+        if self._loops is None:
+            self._loops = (
+                [tuple((int(i), int(e)) for i, e in enumerate(row) if e) for row in self._fit.exps],
+                _terms(self._num_scaled, self._fit.num, self.num_powers),
+                _terms(self._den_scaled, self._fit.den, self.den_powers),
+            )
+        return self._loops
+
     def coefficients(self, ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """Numerator and denominator coefficients in ``p = s/w_ref`` for a batch of values.
 
@@ -536,13 +549,7 @@ class Expansion:
                 np.divide(1.0, q[j], out=q[j])
         if absent is not None:
             q[np.asarray(absent).T] = 0.0
-        if self._loops is None:
-            self._loops = (
-                [tuple((int(i), int(e)) for i, e in enumerate(row) if e) for row in self._fit.exps],
-                _terms(self._num_scaled, self._fit.num, self.num_powers),
-                _terms(self._den_scaled, self._fit.den, self.den_powers),
-            )
-        all_factors, num_terms, den_terms = self._loops
+        all_factors, num_terms, den_terms = self.monomial_terms()
         mono = np.empty((len(all_factors), b))
         for m, factors in enumerate(all_factors):
             if not factors:

@@ -370,19 +370,20 @@ class CoefficientPlan:
     parameter at exactly its nominal value, 1, is left out: it multiplies exactly); the work falls
     to about a quarter and the memory to a few arrays of the batch.
 
-    Reads the expansion's monomial factors and terms (``_factors``, ``_num_terms``,
-    ``_den_terms``), built once per circuit.
+    Reads the expansion's monomial factors and terms
+    (:meth:`~bandsmith.solver.expansion.Expansion.monomial_terms`), built once per circuit.
     """
 
     def __init__(self, expansion):
         self.variables = expansion.variables
         self.n_num = len(expansion.num_powers)
         self.n_den = len(expansion.den_powers)
-        terms: list[list] = [[] for _ in expansion._factors]
-        for which, tlist in ((0, expansion._num_terms), (1, expansion._den_terms)):
+        factors, num_terms, den_terms = expansion.monomial_terms()
+        terms: list[list] = [[] for _ in factors]
+        for which, tlist in ((0, num_terms), (1, den_terms)):
             for row, m, c in tlist:
                 terms[m].append((which, row, c))
-        self.steps = [(tuple(f), t) for f, t in zip(expansion._factors, terms)]
+        self.steps = [(tuple(f), t) for f, t in zip(factors, terms)]
         self.powers = sorted({(i, e) for f, _ in self.steps for i, e in f if e != 1})
         # the op-amp's parameters, often held at their nominal value (A0 always, the GBW without
         # a spread): a factor 1 multiplies exactly, so it is left out (steps by left-out set)
