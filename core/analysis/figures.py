@@ -390,31 +390,58 @@ def _by_roots(pu, qu, slope):
     return u_pk, u_low, u_high
 
 
+def _on_grid(pu, qu, u):
+    """``|H|² = P(u)/Q(u)`` on a grid ``u``: ``(G,)`` shared by the batch (one product with the
+    grid's powers per polynomial) or ``(B, G)`` (Horner)."""
+    if u.ndim == 2:
+        return _ratio(pu, qu, u)
+    powers = u[:, None] ** np.arange(max(pu.shape[1], qu.shape[1]) - 1, -1, -1)  # (G, k), highest first
+    p = pu @ powers[:, powers.shape[1] - pu.shape[1]:].T
+    p /= qu @ powers[:, powers.shape[1] - qu.shape[1]:].T
+    return p
+
+
+def _last_true(mask: np.ndarray) -> np.ndarray:
+    """Per row, the index of the last True, −1 where there is none (boolean passes only)."""
+    g = mask.shape[1]
+    k = g - 1 - np.argmax(mask[:, ::-1], axis=1)
+    return np.where(mask.any(axis=1), k, -1)
+
+
 def _by_grid(pu, qu, slope, grid):
     b = pu.shape[0]
-    x = np.broadcast_to(grid, (b, grid.shape[-1]))
-    u = x * x
-    mag2 = _ratio(pu, qu, u)
+    shared = grid.ndim == 1
+    u = grid * grid  # (G,) or (B, G)
+    mag2 = _on_grid(pu, qu, u)
     rows = np.arange(b)
     i = np.argmax(mag2, axis=1)
-    g = x.shape[1]
+    g = u.shape[-1]
     inner = (i > 0) & (i < g - 1)
     ic = np.clip(i, 1, g - 2)
+
+    def at(k):
+        return u[k] if shared else u[rows, k]
+
     # Peak: d|H|²/du ∝ P'Q − PQ' goes from positive to negative.
-    u_pk = _root(slope, u[rows, ic - 1], u[rows, ic + 1])
+    u_pk = _root(slope, at(ic - 1), at(ic + 1))
     peak2 = _ratio(pu, qu, u_pk)
-    # Half-power points: P − ½·peak²·Q crosses zero each side of the peak.
+    # Half-power points: P − ½·peak²·Q crosses zero each side of the peak; bracketed by the
+    # last grid point below half power before the peak and the first one after it.
     half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
     below = mag2 < (0.5 * peak2)[:, None]
     idx = np.arange(g)[None, :]
-    low_k = np.max(np.where(below & (idx < ic[:, None]), idx, -1), axis=1)
-    high_k = np.min(np.where(below & (idx > ic[:, None]), idx, g), axis=1)
+    before = idx < ic[:, None]
+    low_k = _last_true(below & before)
+    after = below & ~before
+    after[:, :] &= idx > ic[:, None]
+    first_after = np.argmax(after, axis=1)
+    high_k = np.where(after.any(axis=1), first_after, g)
     lk = np.clip(low_k, 0, g - 2)
     hk = np.clip(high_k, 1, g - 1)
     both = _root(
         np.concatenate([half, half]),
-        np.concatenate([u[rows, lk], np.maximum(u[rows, hk - 1], u_pk)]),
-        np.concatenate([np.minimum(u[rows, lk + 1], u_pk), u[rows, hk]]),
+        np.concatenate([at(lk), np.maximum(at(hk - 1), u_pk)]),
+        np.concatenate([np.minimum(at(lk + 1), u_pk), at(hk)]),
     )
     u_low = np.where(low_k >= 0, both[:b], np.nan)
     u_high = np.where(high_k < g, both[b:], np.nan)
