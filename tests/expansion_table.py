@@ -1,8 +1,9 @@
 """Writes the shipped table of coefficient-expansion fits (``bandsmith/resources/expansions.json``).
 
-Run ``python tests/expansion_table.py`` after changing a circuit's netlist or the expansion's fit;
-``tests/test_expansion_table.py`` regenerates the table and fails when the file differs. Structures
-not in the table are fitted at first use as before, so a missing entry costs time, not correctness.
+Run ``python tests/expansion_table.py`` after changing a circuit's netlist or the expansion's fit
+(``tests/test_expansion_table.py`` regenerates the table and fails on an entry that differs or that
+no circuit has now), and after adding a circuit to ship its fits too (optional: structures not in
+the table are fitted at first use as before, so a missing entry costs time, not correctness).
 
 The structures: every circuit's example (the tank also with a winding resistance), each with and
 without a source resistance in series with its input (the chain's first stage, ``--rsource``),

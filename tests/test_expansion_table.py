@@ -27,13 +27,18 @@ def _shipped() -> dict:
 
 
 def test_the_shipped_table_is_what_the_generator_writes_now():
+    # Every entry is one the generator writes now (a circuit's netlist that changed leaves a stale
+    # entry: run python tests/expansion_table.py). A circuit added after the table was written has
+    # no entry and needs none: it is fitted at first use (test below), so adding one changes nothing here.
     shipped = _shipped()
     assert shipped.pop("stamp") == E._table_stamp()
     index = shipped.pop("index")
     fresh = table_entries()
-    assert sorted(shipped) == sorted(fresh) == sorted(index), "run python tests/expansion_table.py"
-    for name, entry in fresh.items():
-        old = shipped[name]
+    assert shipped and sorted(shipped) == sorted(index)
+    stale = sorted(set(shipped) - set(fresh))
+    assert not stale, f"{len(stale)} entries for structures no circuit has now: run python tests/expansion_table.py"
+    for name, old in shipped.items():
+        entry = fresh[name]
         assert set(old) == set(entry)
         if "unavailable" in entry:
             assert old == entry
@@ -53,11 +58,16 @@ def test_the_index_points_at_each_entry():
         assert json.loads(raw[base + start : base + end]) == _shipped()[name]
 
 
-def test_every_structure_of_the_generator_is_found_in_the_table():
+def test_a_circuit_in_the_table_has_every_structure_there():
+    # all of a circuit's structures or none (one added after the table was written)
     table = E._load_table()
+    found: dict[str, list[bool]] = {}
     for label, net, amp in structures():
         key = E._structure_key(net, E.circuit_variables(net, amp))
-        assert E.structure_hash(key) in table, label
+        found.setdefault(label.split()[0], []).append(E.structure_hash(key) in table)
+    assert any(any(hits) for hits in found.values())
+    for circuit, hits in found.items():
+        assert all(hits) or not any(hits), f"{circuit}: run python tests/expansion_table.py"
 
 
 @pytest.fixture
