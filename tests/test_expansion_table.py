@@ -54,8 +54,9 @@ def test_the_shipped_table_is_what_the_generator_writes_now():
 def test_the_index_points_at_each_entry():
     raw = E.table_path().read_bytes()
     base = raw.index(b"\n", raw.index(b'"index": ')) + 1
-    for name, (start, end) in _shipped()["index"].items():
+    for name, (start, end, digest) in _shipped()["index"].items():
         assert json.loads(raw[base + start : base + end]) == _shipped()[name]
+        assert E._digest(raw[base + start : base + end]) == digest
 
 
 def test_a_circuit_in_the_table_has_every_structure_there():
@@ -145,3 +146,47 @@ def test_a_damaged_entry_is_fitted(no_fits, monkeypatch, tmp_path):
     (tmp_path / "expansions.json").write_text(broken, encoding="utf-8")
     monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
     _agrees_with_solver(net, IDEAL)
+
+
+def _with_table(monkeypatch, tmp_path, data: bytes):
+    (tmp_path / "expansions.json").write_bytes(data)
+    monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
+
+
+def _sallen_key_entry_span():
+    topo = get_topology("sallen-key")
+    net = topo.build(topo.example)
+    name = E.structure_hash(E._structure_key(net, E.circuit_variables(net, IDEAL)))
+    raw = E.table_path().read_bytes()
+    start = raw.index(f'\n"{name}": '.encode()) + len(name) + 5
+    return net, raw, start, raw.index(b"\n", start)
+
+
+def test_an_entry_changed_but_still_valid_is_fitted_not_used(no_fits, monkeypatch, tmp_path):
+    # one digit of a coefficient changed: still a well-formed entry, so only its digest tells
+    net, raw, start, end = _sallen_key_entry_span()
+    line = raw[start:end]
+    at = line.index(b'"den":[') + 7
+    at = line.index(b"[", at) + 1  # the first flat index of the denominator's nonzero entries
+    digit = line[at:at + 1]
+    changed = line[:at] + (b"1" if digit != b"1" else b"2") + line[at + 1:]
+    _with_table(monkeypatch, tmp_path, raw[:start] + changed + raw[end:])
+    calls = []
+    real = E._structural_fit
+    monkeypatch.setattr(E, "_structural_fit", lambda *a: calls.append(1) or real(*a))
+    _agrees_with_solver(net, IDEAL)
+    assert calls == [1]
+
+
+@pytest.mark.parametrize("damage", [
+    lambda raw: raw.replace(b'"index": {', b'"index": [', 1),              # index of the wrong kind
+    lambda raw: raw.replace(b'"stamp": {', b'"stamp": \xff{', 1),          # bytes that are not text
+    lambda raw: raw.replace(b'":[', b'":["a",', 1),                        # a span of the wrong kind
+    lambda raw: raw[: len(raw) // 2],                                      # cut short
+    lambda raw: b"",
+])
+def test_a_table_that_cannot_be_read_is_ignored_whole(no_fits, monkeypatch, tmp_path, damage):
+    _with_table(monkeypatch, tmp_path, damage(E.table_path().read_bytes()))
+    assert E._load_table() == {}
+    topo = get_topology("sallen-key")
+    _agrees_with_solver(topo.build(topo.example), IDEAL)

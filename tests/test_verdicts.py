@@ -273,3 +273,36 @@ def test_every_limit_has_a_source_and_a_description():
     assert names == set(LIMIT_SOURCES)
     assert all(LIMIT_SOURCES[n] for n in names)
     assert all(n in VerdictLimits.__doc__ for n in names)
+
+
+def test_surely_not_buildable_agrees_with_judge():
+    # The shortcut a chain's circuit choice takes must never call hopeless a design that judge()
+    # finds buildable or marginal; and where it says so, judge gives not buildable. Seeded random
+    # targets over every circuit and two series (a consistency check of our own two rules).
+    import numpy as np
+
+    from bandsmith.design.designer import spread_of
+    from bandsmith.design.standard import errors_of
+    from bandsmith.verdict import surely_not_buildable
+
+    rng = np.random.default_rng(11)
+    limits = VerdictLimits()
+    seen = set()
+    for _ in range(12):
+        spec = Spec(f0_hz=float(10 ** rng.uniform(2, 5.3)), q=float(10 ** rng.uniform(-0.3, 1.7)), gain=float(10 ** rng.uniform(-0.5, 1.5)))
+        gbw = [None, 3e6][int(rng.integers(2))]
+        comparison = compare_verdicts(spec, series=["E24", "E96"][int(rng.integers(2))], conditions=Conditions(gbw_hz=gbw), limits=limits)
+        for res, v in zip(comparison.results, comparison.verdicts):
+            if not res.feasible:
+                continue
+            tol = res.conditions.tolerances
+            a = res.analysis
+            e = errors_of(a.actual if a.actual is not None else a.ideal, spec)  # the figures judge() weighs
+            within = abs(e["f0_pct"]) <= 100 * tol.f0 and abs(e["q_pct"]) <= 100 * tol.q and abs(e["gain_db"]) <= tol.gain_db
+            sp = spread_of(res.topology, res.chosen)
+            hopeless = surely_not_buildable(within=within, gbw_hz=a.requirements.gbw_hz, own_gbw_hz=gbw,
+                                            r_spread=sp["r"] or 1.0, c_spread=sp["c"] or 1.0, limits=limits)
+            seen.add((hopeless, v.verdict))
+            if hopeless:
+                assert v.verdict == NOT_BUILDABLE, (res.topology_id, spec, v.reasons)
+    assert (True, NOT_BUILDABLE) in seen and any(not h for h, _ in seen)

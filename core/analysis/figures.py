@@ -31,12 +31,13 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
-__all__ = ["Figures", "measure", "measure_near", "biquad_figures", "exact_in_closed_form"]
+__all__ = ["Figures", "measure", "measure_near", "biquad_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
+           "CLOSED_FORM_FROM"]
 
 _ROOT_STEPS = 8
 # From this batch size on, quadratics and cubics are solved in closed form (bandsmith.solver.polyroots): a
 # fixed cost of some hundred array operations against about 1.4 µs per member for eigenvalues.
-_CLOSED_FORM_FROM = 96
+CLOSED_FORM_FROM = 96
 
 
 @dataclass(frozen=True, slots=True)
@@ -169,7 +170,7 @@ def measure(h: Rational, *, grid: np.ndarray | None = None) -> Figures:
     """
     quick = _biquad(h)
     if quick is not None:
-        return _figures_at(h.w_ref, *quick[:-1])
+        return figures_at(h.w_ref, *quick[:-1])
     pu = _sq_mag_u(h.num)
     qu = _sq_mag_u(h.den)
     slope = _slope_u(pu, qu)
@@ -187,7 +188,7 @@ def exact_in_closed_form(h: Rational) -> bool:
     slope ``P'Q − PQ'`` of degree two or three). Then the exact measurement costs no more than
     a search grid."""
     m, n = h.num.shape[1], h.den.shape[1]
-    return h.batch >= _CLOSED_FORM_FROM and m + n - 2 in (3, 4) and max(m, n) in (3, 4)
+    return h.batch >= CLOSED_FORM_FROM and m + n - 2 in (3, 4) and max(m, n) in (3, 4)
 
 
 def _biquad(h: Rational):
@@ -243,7 +244,7 @@ def biquad_figures(b1, a2, a1, a0, w_ref) -> tuple[Figures, np.ndarray]:
     """
     b1, a2, a1, a0 = (np.asarray(x, dtype=float) for x in (b1, a2, a1, a0))
     *parts, _ = _biquad_parts(b1, a2, a1, a0)
-    fig = _figures_at(np.asarray(w_ref, dtype=float), *parts)
+    fig = figures_at(np.asarray(w_ref, dtype=float), *parts)
     with np.errstate(invalid="ignore", divide="ignore"):
         stable = ((a0 > 0) & (a1 > 0) & (a2 > 0)) | ((a0 < 0) & (a1 < 0) & (a2 < 0))
         # Q as √(a0/a2)·|a2/a1| (the spread has always reported this rounding; f0/bw, as
@@ -341,15 +342,15 @@ def _real_positive_roots(c: np.ndarray) -> np.ndarray:
         c = np.where(low[:, None], shifted, c)
     lead = c[:, :1]
     lead = np.where(np.abs(lead) <= 1e-14 * scale, 1e-14 * scale, lead)
-    if k in (3, 4) and b >= _CLOSED_FORM_FROM:  # members it cannot take go to the eigenvalues
+    if k in (3, 4) and b >= CLOSED_FORM_FROM:  # members it cannot take go to the eigenvalues
         r, bad = (quadratic_roots if k == 3 else cubic_roots)(np.concatenate([lead, c[:, 1:]], axis=1))
         if bad.any():
-            r[bad] = _real_positive_roots_eig(c[bad], lead[bad])
+            r[bad] = real_positive_roots_eig(c[bad], lead[bad])
         return np.where(r > 0, r, np.nan)
-    return _real_positive_roots_eig(c, lead)
+    return real_positive_roots_eig(c, lead)
 
 
-def _real_positive_roots_eig(c: np.ndarray, lead: np.ndarray) -> np.ndarray:
+def real_positive_roots_eig(c: np.ndarray, lead: np.ndarray) -> np.ndarray:
     """Real positive roots from the eigenvalues of the companion matrices (any degree)."""
     b, k = c.shape
     comp = np.zeros((b, k - 1, k - 1))
@@ -410,6 +411,8 @@ def _last_true(mask: np.ndarray) -> np.ndarray:
 
 def _by_grid(pu, qu, slope, grid):
     b = pu.shape[0]
+    if grid.ndim == 2 and grid.shape[0] == 1:
+        grid = grid[0]  # one row for the whole batch
     shared = grid.ndim == 1
     u = grid * grid  # (G,) or (B, G)
     mag2 = _on_grid(pu, qu, u)
@@ -430,10 +433,8 @@ def _by_grid(pu, qu, slope, grid):
     half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
     below = mag2 < (0.5 * peak2)[:, None]
     idx = np.arange(g)[None, :]
-    before = idx < ic[:, None]
-    low_k = _last_true(below & before)
-    after = below & ~before
-    after[:, :] &= idx > ic[:, None]
+    low_k = _last_true(below & (idx < ic[:, None]))
+    after = below & (idx > ic[:, None])
     first_after = np.argmax(after, axis=1)
     high_k = np.where(after.any(axis=1), first_after, g)
     lk = np.clip(low_k, 0, g - 2)
@@ -453,10 +454,10 @@ def _figures(h: Rational, u_pk, u_low, u_high) -> Figures:
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         p = 1j * np.sqrt(u_pk)
         hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
-    return _figures_at(h.w_ref, u_pk, u_low, u_high, None, hc)
+    return figures_at(h.w_ref, u_pk, u_low, u_high, None, hc)
 
 
-def _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
+def figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
     """Figures from the peak and half-power points (in ``u``), ``H`` at the peak and, where it is
     known without cancellation, ``bw_x``, the bandwidth in ``ω/w_ref``."""
     to_hz = w_ref / (2.0 * np.pi)

@@ -30,7 +30,7 @@ import math
 from typing import TYPE_CHECKING, Sequence
 
 from bandsmith.chain.chain_settings import STAGE_HOLD, StageHold
-from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, VerdictLimits, judge, rank
+from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, VerdictLimits, judge, rank, surely_not_buildable
 
 if TYPE_CHECKING:
     from bandsmith.chain.cascade import Cascade, Stage
@@ -151,9 +151,8 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     # buildable, one with a worse fit (sane, nearest-fit step) cannot come before it. Dropping
     # candidates keeps the others' order (rank's key ends in their position).
     def hopeless(res, a) -> bool:
-        own = res.conditions.gbw_hz
-        return (not a.within or a.gbw_hz is None or not math.isfinite(a.gbw_hz) or a.gbw_hz > limits.gbw_max_hz
-                or (own is not None and a.gbw_hz > own) or a.r_spread > limits.r_spread_max or a.c_spread > limits.c_spread_max)
+        return surely_not_buildable(within=a.within, gbw_hz=a.gbw_hz, own_gbw_hz=res.conditions.gbw_hz,
+                                    r_spread=a.r_spread, c_spread=a.c_spread, limits=limits)
 
     hopeful = sorted((k for k in range(len(cands)) if not hopeless(cands[k][1], cands[k][2])), key=lambda k: fit(cands[k][2]))
     judged: dict[int, Verdict] = {}

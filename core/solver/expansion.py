@@ -35,7 +35,8 @@ from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import Rational, rational_from_system
 
-__all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path"]
+__all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path",
+           "SMALL_BATCH", "TABLE_FORMAT"]
 
 # Largest number of integer points the expansion evaluates (2^14 for 14 one-degree parameters).
 MAX_POINTS = 1 << 14
@@ -152,8 +153,10 @@ _FITS: dict[tuple, _Fit] = {}
 # analysis does not pay for them. Looked up by :func:`structure_hash`; a structure not in the
 # file (a circuit added later, a changed netlist) is fitted and verified as before. A fit's
 # inputs beside the structure are the constants below: a file written with other ones is ignored.
+# Each entry's bytes carry a SHA-256 digest in the index: a damaged entry is fitted instead, and a
+# file that cannot be read as the table is ignored as a whole (never an error, never a wrong fit).
 TABLE_FILE = "expansions.json"
-TABLE_FORMAT = 2
+TABLE_FORMAT = 3
 _TABLE: dict | None = None
 
 
@@ -177,11 +180,19 @@ def table_path():
     return _TABLE_PATH
 
 
+def _digest(entry: bytes) -> str:
+    """The check of one entry's bytes in the table's index: SHA-256, the first 16 hex digits."""
+    import hashlib
+
+    return hashlib.sha256(entry).hexdigest()[:16]
+
+
 def _load_table() -> dict:
-    """The shipped table's index, ``{hash: (start, end)}`` byte offsets of each entry's JSON object
-    from the end of the index line, ``"@base"``: where that is, and ``"@raw"``: the file's bytes.
-    Empty when the file is missing or stale (its stamp is not :func:`_table_stamp`). Only the
-    header is parsed here; an entry is parsed when asked for (:func:`_table_line`)."""
+    """The shipped table's index, ``{hash: (start, end, digest)}`` byte offsets of each entry's JSON
+    object from the end of the index line and the digest of its bytes, ``"@base"``: where that is,
+    and ``"@raw"``: the file's bytes. Empty when the file is missing, stale (its stamp is not
+    :func:`_table_stamp`) or not laid out as the table. Only the header is parsed here; an entry
+    is parsed when asked for (:func:`_table_line`)."""
     global _TABLE
     if _TABLE is None:
         _TABLE = {}
@@ -190,32 +201,49 @@ def _load_table() -> dict:
                 raw = fh.read()
         except OSError:
             return _TABLE
-        import json
-
-        # "{", then "stamp": {...}, then "index": {...}, then one entry per line: "<hash>": {...},
-        parts = raw.split(b"\n", 3)
-        first, stamp, index = (parts + [b"", b"", b""])[:3]
-        if (len(parts) == 4 and first == b"{" and stamp.startswith(b'"stamp": ') and index.startswith(b'"index": ')
-                and json.loads(stamp[9:].rstrip(b",")) == _table_stamp()):
-            _TABLE = {name: tuple(span) for name, span in json.loads(index[9:].rstrip(b",")).items()}
-            _TABLE["@base"] = len(first) + len(stamp) + len(index) + 3
-            _TABLE["@raw"] = raw
+        try:
+            _TABLE = _parse_header(raw)
+        except Exception:  # noqa: BLE001 - whatever is wrong with the file, the fits are made instead
+            _TABLE = {}
     return _TABLE
 
 
+def _parse_header(raw: bytes) -> dict:
+    import json
+
+    # "{", then "stamp": {...}, then "index": {...}, then one entry per line: "<hash>": {...},
+    parts = raw.split(b"\n", 3)
+    first, stamp, index = (parts + [b"", b"", b""])[:3]
+    if not (len(parts) == 4 and first == b"{" and stamp.startswith(b'"stamp": ') and index.startswith(b'"index": ')
+            and json.loads(stamp[9:].rstrip(b",")) == _table_stamp()):
+        return {}
+    base = len(first) + len(stamp) + len(index) + 3
+    table = {}
+    for name, span in json.loads(index[9:].rstrip(b",")).items():
+        start, end, digest = span
+        if not (isinstance(start, int) and isinstance(end, int) and isinstance(digest, str) and 0 <= start <= end <= len(raw) - base):
+            return {}
+        table[str(name)] = (start, end, digest)
+    table["@base"] = base
+    table["@raw"] = raw
+    return table
+
+
 def _table_line(name: str) -> bytes | None:
-    """The JSON object of entry ``name`` in the shipped table, or None."""
+    """The JSON object of entry ``name`` in the shipped table, or None (not there, or its bytes do
+    not match their digest)."""
     table = _load_table()
     span = table.get(name)
     if span is None:
         return None
     base = table["@base"]
-    return table["@raw"][base + span[0] : base + span[1]]
+    line = table["@raw"][base + span[0] : base + span[1]]
+    return line if _digest(line) == span[2] else None
 
 
 def _table_fit(key: tuple) -> "_Fit | str | None":
     """The shipped fit of a structure, its reason text when the structure is known not to fit,
-    or None when the table does not have it."""
+    or None when the table does not have it (or its entry is damaged)."""
     raw = _table_line(structure_hash(key))
     if raw is None:
         return None
@@ -225,10 +253,13 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
         entry = json.loads(raw)
         if "unavailable" in entry:
             return str(entry["unavailable"])
-        exps = (np.frombuffer(entry["exps"].encode("ascii"), dtype=np.uint8).astype(np.int64) - 48).reshape(-1, entry["n_var"])
+        n_var = len(key[-1])  # the structure's variables
+        if entry["n_var"] != n_var or not entry["exps"].isdigit() or len(entry["exps"]) % n_var:
+            return None
+        exps = (np.frombuffer(entry["exps"].encode("ascii"), dtype=np.uint8).astype(np.int64) - 48).reshape(-1, n_var)
         return _fit_of(exps, _dense_of(entry["den"], exps.shape[0]), _dense_of(entry["num"], exps.shape[0]), int(entry["low"]),
                        (entry["num_powers"], entry["den_powers"]))
-    except (ValueError, KeyError, TypeError, IndexError):  # a damaged entry: fitted instead
+    except Exception:  # noqa: BLE001 - a damaged entry whose digest still matched: fitted instead
         return None
 
 
@@ -285,7 +316,7 @@ def table_text(entries: dict[str, dict]) -> str:
         obj = json.dumps(entries[name], separators=(",", ":"))
         head = f'"{name}": '
         start = at + len(head.encode())
-        index[name] = [start, start + len(obj.encode())]
+        index[name] = [start, start + len(obj.encode()), _digest(obj.encode())]
         line = head + obj + ("," if k < len(names) - 1 else "") + "\n"
         body.append(line)
         at += len(line.encode())
@@ -362,7 +393,7 @@ def _fit_of(exps: np.ndarray, den: np.ndarray, num: np.ndarray, low: int, powers
 # Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
 # product with the term matrix; larger batches (Monte Carlo) use the loops, which stay clear of
 # BLAS threads.
-_SMALL_BATCH = 2048
+SMALL_BATCH = 2048
 # log of a zero stamp: exp(-1e5·e) underflows to exactly 0 for every exponent e ≥ 1, while
 # 0·(-1e5) = 0 for the monomials without it.
 _LOG_ZERO = -1e5
@@ -536,7 +567,7 @@ class Expansion:
         """
         r = np.asarray(ratios, dtype=float)
         b = r.shape[0]
-        if b <= _SMALL_BATCH:  # two small products (dense_log): fewer array calls than the loops below
+        if b <= SMALL_BATCH:  # two small products (dense_log): fewer array calls than the loops below
             with np.errstate(divide="ignore", invalid="ignore"):
                 num, den = self.dense_log(np.log(r), absent=absent)
             return num[:, self._num_cols].T, den[:, self._den_cols].T
@@ -577,12 +608,12 @@ class Expansion:
 
         ``ratios`` and ``absent`` as :meth:`coefficients` takes them; ``w_ref`` (rad/s) defaults
         to the expansion's own. A member with a ratio that is not a finite number above zero is
-        NaN throughout. Up to :data:`_SMALL_BATCH` members this is ``exp(log ratios @ exponents)``
+        NaN throughout. Up to :data:`SMALL_BATCH` members this is ``exp(log ratios @ exponents)``
         and one product per polynomial, about a dozen array calls in all.
         """
         r = np.asarray(ratios, dtype=float)
         b = r.shape[0]
-        if b > _SMALL_BATCH:
+        if b > SMALL_BATCH:
             num_c, den_c = self.coefficients(r, absent=absent)
             num = np.zeros((b, self.num_powers[-1] + 1))
             den = np.zeros((b, self.den_powers[-1] + 1))

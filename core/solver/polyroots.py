@@ -64,8 +64,9 @@ def quadratic_roots_rows(c0, c1, c2, *, positive: bool = False) -> tuple[list[np
     broadcast against a ``(B, 1)`` column runs several times slower); the arithmetic is the same.
 
     ``positive``: only the positive roots are wanted; a root array with no member that is
-    positive, zero or within 4e-300 of zero is returned unpolished (the polish never moves a root
-    across zero, so such an array stays negative or NaN)."""
+    positive, zero or within 6e-300 of zero is returned unpolished (two polish steps, each at most
+    half the root plus 1e-300, never move a root below −6e-300 across zero, so such an array stays
+    negative or NaN)."""
     with np.errstate(all="ignore"):
         lead = c0
         e = c1 / lead
@@ -178,8 +179,8 @@ def _polish(roots: list[np.ndarray], monic: list, steps: int = 2, *, positive: b
     d = [float(n - 1)] + [monic[i] * float(n - 1 - i) for i in range(1, n - 1)]
     out = []
     for x in roots:
-        # a step is at most half the root (plus 1e-300): a root below −4e-300 stays negative
-        if positive and not (x >= -4e-300).any():
+        # a step is at most half the root (plus 1e-300): after two, a root below −6e-300 is still negative
+        if positive and not (x >= -6e-300).any():
             out.append(x)
             continue
         x = x.copy()

@@ -15,7 +15,7 @@ import numpy as np
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.common.errors import InputError
 from bandsmith.solver.expansion import Expansion, ExpansionUnavailable, Variable, circuit_variables
-from bandsmith.solver.expansion import _SMALL_BATCH as _EXPANSION_SMALL_BATCH
+from bandsmith.solver.expansion import SMALL_BATCH as _EXPANSION_SMALL_BATCH
 from bandsmith.analysis.sensitivity import log_slopes, perturbed_ratios
 from bandsmith.analysis.figures import Figures, biquad_figures, exact_in_closed_form, measure
 from bandsmith.solver.mna import OpAmpModel

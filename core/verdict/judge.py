@@ -49,7 +49,7 @@ from bandsmith.design.standard import errors_of
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield, part_tolerances_of
 
-__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge"]
+__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge", "surely_not_buildable"]
 
 BUILDABLE, MARGINAL, NOT_BUILDABLE = "buildable", "marginal", "not buildable"
 #: The verdicts, best first.
@@ -196,6 +196,20 @@ def _range_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
         elif v > hi:
             out.append(Reason("part_large", f"{comp.ref} = {format_value(v, unit)} is above {format_value(hi, unit)}: {_LARGE_WHY[comp.kind]}", v, hi, MARGINAL))
     return out
+
+
+def surely_not_buildable(
+    *, within: bool, gbw_hz: float | None, own_gbw_hz: float | None, r_spread: float, c_spread: float, limits: VerdictLimits
+) -> bool:
+    """True when numbers already known of a design make :func:`judge` call it not buildable, by the
+    reasons of that weight in :func:`_figure_reasons`, :func:`_amp_reasons` and
+    :func:`_spread_reasons` (keep them in step): figures outside the design tolerances
+    (``within`` False), no GBW that serves (None or not finite), one above ``limits.gbw_max_hz``
+    or the session's op-amp ``own_gbw_hz`` (Hz), a resistor or capacitor spread beyond its limit.
+    False says nothing: the yield, slew rate and output current are judged only by :func:`judge`.
+    Lets a caller that only wants the best of several skip judging the hopeless ones."""
+    return (not within or gbw_hz is None or not math.isfinite(gbw_hz) or gbw_hz > limits.gbw_max_hz
+            or (own_gbw_hz is not None and gbw_hz > own_gbw_hz) or r_spread > limits.r_spread_max or c_spread > limits.c_spread_max)
 
 
 def _amp_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
