@@ -47,6 +47,28 @@ def test_dense_with_an_absent_opamp_pole_is_the_ideal_circuit(topo):
     np.testing.assert_allclose(got, finite.at_s(p * exp.w_ref)[0], rtol=1e-9)
 
 
+@pytest.mark.parametrize("topo", all_topologies(), ids=lambda t: t.id)
+def test_a_large_batch_with_absent_stamps_agrees_with_the_solver(topo):
+    # Above SMALL_BATCH members the coefficients come from loops over the monomials (not the
+    # products of small batches): the ideal members (op-amp stamps absent) equal the solver's
+    # ideal circuit and the finite ones the single-pole op-amp's (MNA solve, rational_from_system).
+    from bandsmith.solver.expansion import SMALL_BATCH
+
+    amp = OpAmpModel(gbw_hz=1e6, a0=1e5)
+    netlist = topo.build(topo.example)
+    exp, variables = unit_expansion(netlist, amp)
+    n = SMALL_BATCH + 5
+    ratios = np.array([[v.value / u.value for v, u in zip(variables, exp.variables)]] * n)
+    absent = np.zeros(ratios.shape, dtype=bool)
+    absent[::2, [exp.names.index("gbw"), exp.names.index("a0")]] = True
+    num, den = exp.dense(ratios, absent=absent)
+    p = 1j * np.geomspace(0.1, 10.0, 5)
+    for i, net_amp in ((0, None), (1, amp), (n - 1, None)):
+        ref = rational_from_system(build_system(netlist) if net_amp is None else build_system(netlist, net_amp), exp.w_ref)
+        got = np.polyval(num[i], p) / np.polyval(den[i], p)
+        np.testing.assert_allclose(got, ref.at_s(p * exp.w_ref)[0], rtol=1e-9)
+
+
 def test_a_member_with_an_unusable_value_is_nan_and_the_rest_are_not():
     topo = next(t for t in all_topologies() if t.id == "mfb")
     netlist = topo.build(topo.example)

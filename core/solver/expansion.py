@@ -493,6 +493,7 @@ class Expansion:
         self._fit = fit
         self._num_scaled, self._den_scaled = num, den
         self._loops = None  # the monomials' factors and terms of the large-batch loops, made when first needed
+        self._plan: _CoefficientPlan | None = None
         # For :meth:`dense_log`: exponents over the log *ratios* (an inverse parameter's stamp is
         # the reciprocal: its column negated), the log ratio that makes a stamp absent, and term
         # matrices onto every power of p, highest first.
@@ -561,9 +562,11 @@ class Expansion:
 
         Notes
         -----
-        Written as loops over the few monomials with whole-batch array operations, not as matrix
-        products: a BLAS product with an inner size of five runs slower than the loop and, on a
-        busy machine, its worker threads slow it down tenfold.
+        Up to :data:`SMALL_BATCH` members two small products (:meth:`dense_log`); above, loops over
+        the monomials with whole-batch array operations (:class:`_CoefficientPlan`: each distinct
+        prefix of factors multiplied once), not matrix products: a BLAS product with an inner size
+        of five runs slower than the loop and, on a busy machine, its worker threads slow it down
+        tenfold.
         """
         r = np.asarray(ratios, dtype=float)
         b = r.shape[0]
@@ -571,34 +574,9 @@ class Expansion:
             with np.errstate(divide="ignore", invalid="ignore"):
                 num, den = self.dense_log(np.log(r), absent=absent)
             return num[:, self._num_cols].T, den[:, self._den_cols].T
-        q = np.array(r.T, dtype=float, order="C")  # (n_var, B)
-        if absent is not None:
-            q[np.asarray(absent).T] = 1.0
-        bad = ~(np.isfinite(q) & (q > 0)).all(axis=0)
-        for j, v in enumerate(self.variables):
-            if v.inverse:
-                np.divide(1.0, q[j], out=q[j])
-        if absent is not None:
-            q[np.asarray(absent).T] = 0.0
-        all_factors, num_terms, den_terms = self.monomial_terms()
-        mono = np.empty((len(all_factors), b))
-        for m, factors in enumerate(all_factors):
-            if not factors:
-                mono[m] = 1.0
-                continue
-            (i, e), rest = factors[0], factors[1:]
-            np.power(q[i], e, out=mono[m]) if e != 1 else np.copyto(mono[m], q[i])
-            for i, e in rest:
-                np.multiply(mono[m], q[i] if e == 1 else q[i] ** e, out=mono[m])
-        num = np.zeros((len(self.num_powers), b))
-        den = np.zeros((len(self.den_powers), b))
-        for out, terms in ((num, num_terms), (den, den_terms)):
-            for row, m, c in terms:
-                out[row] += c * mono[m]
-        if bad.any():
-            num[:, bad] = np.nan
-            den[:, bad] = np.nan
-        return num, den
+        if self._plan is None:
+            self._plan = _CoefficientPlan(self)
+        return self._plan(r, absent)
 
     def dense(
         self, ratios: np.ndarray, *, absent: np.ndarray | None = None, w_ref: float | None = None
@@ -689,3 +667,93 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Expansi
         exp = Expansion._at_unit(netlist, opamp, variables, structure)
         _UNIT[key] = exp
     return exp, variables
+
+
+class _CoefficientPlan:
+    """:meth:`Expansion.coefficients` for large batches: monomials shared, never all held at once.
+
+    The expansion's monomials come in lexicographic order of their exponents, so those that
+    begin with the same factors are neighbours: walked in that order with a stack of partial
+    products, every distinct prefix is multiplied once (for the state-variable circuit's 205 monomials
+    with a finite op-amp: 246 products instead of 879 with every op-amp parameter spread, 114
+    instead of 747 with A0 held), and each monomial is added into its
+    coefficient as soon as it is formed. Each product and each sum is the one the expansion
+    computes, in the same order, so the coefficients are bit-identical (a factor of an op-amp
+    parameter at exactly its nominal value, 1, is left out: it multiplies exactly); the work falls
+    to about a quarter and the memory to a few arrays of the batch.
+
+    Made from the expansion's monomial factors and terms (:meth:`Expansion.monomial_terms`), once
+    per expansion.
+    """
+
+    def __init__(self, expansion):
+        self.variables = expansion.variables
+        self.n_num = len(expansion.num_powers)
+        self.n_den = len(expansion.den_powers)
+        factors, num_terms, den_terms = expansion.monomial_terms()
+        terms: list[list] = [[] for _ in factors]
+        for which, tlist in ((0, num_terms), (1, den_terms)):
+            for row, m, c in tlist:
+                terms[m].append((which, row, c))
+        self.steps = [(tuple(f), t) for f, t in zip(factors, terms)]
+        self.powers = sorted({(i, e) for f, _ in self.steps for i, e in f if e != 1})
+        # the op-amp's parameters, often held at their nominal value (A0 always, the GBW without
+        # a spread): a factor 1 multiplies exactly, so it is left out (steps by left-out set)
+        self._opamp = [j for j, v in enumerate(self.variables) if v.kind in ("gbw", "a0")]
+        self._steps_without: dict[frozenset, list] = {frozenset(): self.steps}
+
+    def _steps(self, unit: frozenset) -> list:
+        steps = self._steps_without.get(unit)
+        if steps is None:
+            steps = [(tuple(f for f in factors if f[0] not in unit), t) for factors, t in self.steps]
+            self._steps_without[unit] = steps
+        return steps
+
+    def __call__(self, ratios: np.ndarray, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """Numerator and denominator coefficients, ``(len(powers), B)``, lowest power first (the
+        arguments and result of :meth:`Expansion.coefficients`)."""
+        b = ratios.shape[0]
+        q = np.array(ratios.T, dtype=float, order="C")  # (n_var, B)
+        if absent is not None:
+            q[np.asarray(absent).T] = 1.0
+        bad = ~(np.isfinite(q) & (q > 0)).all(axis=0)
+        for j, v in enumerate(self.variables):
+            if v.inverse:
+                np.divide(1.0, q[j], out=q[j])
+        if absent is not None:
+            q[np.asarray(absent).T] = 0.0  # an absent stamp: every monomial holding it is zero
+        unit = frozenset(j for j in self._opamp if q[j].min() == 1.0 == q[j].max())
+        first_pw = {(i, e): np.power(q[i], e) for i, e in self.powers if i not in unit}
+        rest_pw = {(i, e): q[i] ** e for i, e in self.powers if i not in unit}
+        outs = (np.zeros((self.n_num, b)), np.zeros((self.n_den, b)))
+        tmp = np.empty(b)
+        buffers: list[np.ndarray] = []
+        stack: list[tuple[tuple, np.ndarray]] = []
+        one = None
+        for factors, terms in self._steps(unit):
+            while stack and stack[-1][0] != factors[: len(stack[-1][0])]:
+                stack.pop()
+            for depth in range(len(stack[-1][0]) if stack else 0, len(factors)):
+                i, e = factors[depth]
+                if depth == 0:
+                    node = q[i] if e == 1 else first_pw[(i, e)]
+                else:  # one buffer per depth: a node replaces only nodes no longer on the stack
+                    while len(buffers) < depth:
+                        buffers.append(np.empty(b))
+                    node = np.multiply(stack[-1][1], q[i] if e == 1 else rest_pw[(i, e)], out=buffers[depth - 1])
+                stack.append((factors[: depth + 1], node))
+            if factors:
+                node = stack[-1][1]
+            else:
+                if one is None:
+                    one = np.ones(b)
+                node = one
+            for which, row, c in terms:
+                out = outs[which][row]
+                np.multiply(node, c, out=tmp)
+                out += tmp
+        num, den = outs
+        if bad.any():
+            num[:, bad] = np.nan
+            den[:, bad] = np.nan
+        return num, den

@@ -70,7 +70,6 @@ class Evaluator:
                     raise
         self.method = "expansion" if self.expansion is not None else "solver"
         self._sens: dict[str, np.ndarray] | None = None
-        self._plan: tf.CoefficientPlan | None = None
 
     def rational(self, ratios: np.ndarray) -> Rational:
         ratios = np.ascontiguousarray(ratios)  # row order for the products of small batches
@@ -114,13 +113,8 @@ class Evaluator:
         return fig, stable & fig.valid
 
     def _coefficients(self, ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """:meth:`Expansion.coefficients` (bit-identical); a large batch through the shared
-        monomial products of :class:`bandsmith.spread.trialfigures.CoefficientPlan`."""
-        if ratios.shape[0] <= _EXPANSION_SMALL_BATCH:  # the expansion's own small-batch form
-            return self.expansion.coefficients(ratios)
-        if self._plan is None:
-            self._plan = tf.CoefficientPlan(self.expansion)
-        return self._plan(ratios)
+        """:meth:`Expansion.coefficients` (a large batch through its shared monomial products)."""
+        return self.expansion.coefficients(ratios)
 
     def _figures_rows(self, ratios: np.ndarray) -> tuple[Figures, np.ndarray] | None:
         """:meth:`figures` (tracked) of a large batch worked on one array per coefficient

@@ -35,7 +35,7 @@ from bandsmith.analysis.figures import Figures, figures_at, real_positive_roots_
 from bandsmith.solver.polyroots import cubic_roots_rows, quadratic_roots_rows
 
 __all__ = [
-    "Rows", "CLOSED_FORM_FROM", "CoefficientPlan", "scaled_rows", "hurwitz_rows", "sq_mag_rows", "slope_rows",
+    "Rows", "CLOSED_FORM_FROM", "scaled_rows", "hurwitz_rows", "sq_mag_rows", "slope_rows",
     "polyval_rows", "real_positive_roots_rows", "by_roots_rows", "tracked_points", "figures_rows",
 ]
 
@@ -355,89 +355,3 @@ def figures_rows(num: Rows, den: Rows, w_ref: np.ndarray, u_pk, u_low, u_high) -
         p = 1j * np.sqrt(u_pk)
         hc = polyval_rows(num, p) / polyval_rows(den, p)
     return figures_at(w_ref, u_pk, u_low, u_high, None, hc)
-
-
-class CoefficientPlan:
-    """:meth:`bandsmith.solver.expansion.Expansion.coefficients` for large batches, monomials
-    shared and never all held at once.
-
-    The expansion's monomials come in lexicographic order of their exponents, so those that
-    begin with the same factors are neighbours: walked in that order with a stack of partial
-    products, every distinct prefix is multiplied once (for the state-variable circuit's 205 monomials
-    with a finite op-amp: 246 products instead of 879 with every op-amp parameter spread, 114
-    instead of 747 with A0 held), and each monomial is added into its
-    coefficient as soon as it is formed. Each product and each sum is the one the expansion
-    computes, in the same order, so the coefficients are bit-identical (a factor of an op-amp
-    parameter at exactly its nominal value, 1, is left out: it multiplies exactly); the work falls
-    to about a quarter and the memory to a few arrays of the batch.
-
-    Reads the expansion's monomial factors and terms
-    (:meth:`~bandsmith.solver.expansion.Expansion.monomial_terms`), built once per circuit.
-    """
-
-    def __init__(self, expansion):
-        self.variables = expansion.variables
-        self.n_num = len(expansion.num_powers)
-        self.n_den = len(expansion.den_powers)
-        factors, num_terms, den_terms = expansion.monomial_terms()
-        terms: list[list] = [[] for _ in factors]
-        for which, tlist in ((0, num_terms), (1, den_terms)):
-            for row, m, c in tlist:
-                terms[m].append((which, row, c))
-        self.steps = [(tuple(f), t) for f, t in zip(factors, terms)]
-        self.powers = sorted({(i, e) for f, _ in self.steps for i, e in f if e != 1})
-        # the op-amp's parameters, often held at their nominal value (A0 always, the GBW without
-        # a spread): a factor 1 multiplies exactly, so it is left out (steps by left-out set)
-        self._opamp = [j for j, v in enumerate(self.variables) if v.kind in ("gbw", "a0")]
-        self._steps_without: dict[frozenset, list] = {frozenset(): self.steps}
-
-    def _steps(self, unit: frozenset) -> list:
-        steps = self._steps_without.get(unit)
-        if steps is None:
-            steps = [(tuple(f for f in factors if f[0] not in unit), t) for factors, t in self.steps]
-            self._steps_without[unit] = steps
-        return steps
-
-    def __call__(self, ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Numerator and denominator coefficients, ``(len(powers), B)``, lowest power first."""
-        b = ratios.shape[0]
-        q = np.array(ratios.T, dtype=float, order="C")  # (n_var, B)
-        bad = ~(np.isfinite(q) & (q > 0)).all(axis=0)
-        for j, v in enumerate(self.variables):
-            if v.inverse:
-                np.divide(1.0, q[j], out=q[j])
-        unit = frozenset(j for j in self._opamp if q[j].min() == 1.0 == q[j].max())
-        first_pw = {(i, e): np.power(q[i], e) for i, e in self.powers if i not in unit}
-        rest_pw = {(i, e): q[i] ** e for i, e in self.powers if i not in unit}
-        outs = (np.zeros((self.n_num, b)), np.zeros((self.n_den, b)))
-        tmp = np.empty(b)
-        buffers: list[np.ndarray] = []
-        stack: list[tuple[tuple, np.ndarray]] = []
-        one = None
-        for factors, terms in self._steps(unit):
-            while stack and stack[-1][0] != factors[: len(stack[-1][0])]:
-                stack.pop()
-            for depth in range(len(stack[-1][0]) if stack else 0, len(factors)):
-                i, e = factors[depth]
-                if depth == 0:
-                    node = q[i] if e == 1 else first_pw[(i, e)]
-                else:  # one buffer per depth: a node replaces only nodes no longer on the stack
-                    while len(buffers) < depth:
-                        buffers.append(np.empty(b))
-                    node = np.multiply(stack[-1][1], q[i] if e == 1 else rest_pw[(i, e)], out=buffers[depth - 1])
-                stack.append((factors[: depth + 1], node))
-            if factors:
-                node = stack[-1][1]
-            else:
-                if one is None:
-                    one = np.ones(b)
-                node = one
-            for which, row, c in terms:
-                out = outs[which][row]
-                np.multiply(node, c, out=tmp)
-                out += tmp
-        num, den = outs
-        if bad.any():
-            num[:, bad] = np.nan
-            den[:, bad] = np.nan
-        return num, den
