@@ -10,7 +10,7 @@ import pytest
 import scipy.signal
 
 from bandsmith import api
-from bandsmith.analysis.burst import Zpk, burst_response, zpk_of
+from bandsmith.analysis.burst import Zpk, burst_response
 from bandsmith.common.errors import InputError
 
 

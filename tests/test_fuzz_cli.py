@@ -15,7 +15,6 @@ import contextlib
 import io
 import json
 import os
-from pathlib import Path
 
 import numpy as np
 import pytest

@@ -13,7 +13,6 @@ import html as htmllib
 import re
 from pathlib import Path
 
-import pytest
 from numpy.testing import assert_allclose
 
 from bandsmith.bench.measured import read_measurement, with_measurement

@@ -115,7 +115,7 @@ def test_gbw_error_sweep_through_the_family_agrees_with_the_batched_solve(circui
     import math
 
     from bandsmith.analysis import gbw_sweep
-    from bandsmith.analysis.analyzer import ideal_figures, transfer_function
+    from bandsmith.analysis.analyzer import ideal_figures
     from bandsmith.circuits import get_topology
 
     topo = get_topology(circuit)

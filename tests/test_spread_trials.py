@@ -18,7 +18,7 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 
-from bandsmith.analysis.analyzer import transfer_function, within_tolerances
+from bandsmith.analysis.analyzer import within_tolerances
 from bandsmith.analysis.figures import _by_roots, _slope_u, _sq_mag_u, measure
 from bandsmith.circuits import get_topology
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system

@@ -6,7 +6,6 @@ Each expected reason names the fact of the trade behind it.
 from __future__ import annotations
 
 import json
-import math
 from dataclasses import replace
 from importlib import resources
 

@@ -226,7 +226,6 @@ def test_bad_value_hint_fits_the_field_unit(window, qtbot, field_name, text, mus
 
 
 def test_every_hint_example_is_accepted_by_the_parser():
-    import re
 
     from bandsmith.common.values import _UNIT_HINTS, parse_value, value_hint
 
@@ -263,7 +262,7 @@ def test_magnitude_markers_sit_on_f0_and_the_3db_points(window):
 
 
 def test_cursor_readout_cleared_when_the_mouse_leaves(window, qtbot):
-    from PySide6 import QtCore, QtGui
+    from PySide6 import QtCore
 
     plot = _plot(window, "magnitude")
     vb = plot.getPlotItem().getViewBox()
