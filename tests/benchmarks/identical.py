@@ -303,8 +303,17 @@ def walk(t: Tally, case: str, old, new, path: str, pattern: str) -> None:
         return
     if isinstance(old, list) and isinstance(new, list):
         key = list_key(old, new)
-        if key is not None:
-            walk(t, case, {str(x[key]): x for x in old}, {str(x[key]): x for x in new}, path, pattern + "[*]")
+        if key is not None:  # matched by name: [mfb] in the path, [*] in the pattern
+            a, b = {str(x[key]): x for x in old}, {str(x[key]): x for x in new}
+            for k in b.keys() - a.keys():
+                if not t.skipped(pattern + "[*]", f"{path}[{k}]"):
+                    t.only_new[pattern + "[*]"] = t.only_new.get(pattern + "[*]", 0) + 1
+            for k in a:
+                if k not in b:
+                    if not t.skipped(pattern + "[*]", f"{path}[{k}]"):
+                        t.diff(pattern + "[*]", case, f"{path}[{k}]", a[k], "(absent)", "only in the old tree")
+                    continue
+                walk(t, case, a[k], b[k], f"{path}[{k}]", pattern + "[*]")
             return
         if all(not isinstance(x, (dict, list)) for x in old + new) and not all(is_num(x) for x in old + new):
             if old != new:  # lists of words (warnings, notes) compared whole
@@ -360,7 +369,7 @@ def short(x, width: int = 70) -> str:
     return s if len(s) <= width else s[: width - 1] + "…"
 
 
-def report(t: Tally, worst: int) -> None:
+def report(t: Tally, worst: int, examples: int) -> None:
     print(f"\nnumbers compared: {t.compared}; chosen part values compared exactly: {t.parts_compared} "
           f"({t.parts_differ} differ)")
     nonzero = sorted(((v[0], k) for k, v in t.max_rel.items() if v[0] > 0), reverse=True)
@@ -381,9 +390,14 @@ def report(t: Tally, worst: int) -> None:
             print(f"  {n:6d}  {k}")
     if t.diffs:
         print(f"DIFFERENCES beyond {t.rtol:g} relative or not equal, by key path ({len(t.diffs)} paths):")
+        print(f"  {'count':>6}  {'max rel':>9}  {'max |a-b|':>9}  key path")
         for k, items in sorted(t.diffs.items(), key=lambda kv: -len(kv[1])):
-            print(f"  {len(items):6d}  {k}")
-            for case, path, a, b, why in items[:3]:
+            nums = [(rel(float(a), float(b)), abs(float(a) - float(b))) for _, _, a, b, _ in items
+                    if is_num(a) and is_num(b)]
+            r = f"{max(x[0] for x in nums):9.3g}  {max(x[1] for x in nums):9.3g}" if nums else f"{'':9}  {'':9}"
+            print(f"  {len(items):6d}  {r}  {k}")
+            items = sorted(items, key=lambda it: -rel(float(it[2]), float(it[3])) if is_num(it[2]) and is_num(it[3]) else 0)
+            for case, path, a, b, why in items[:examples]:
                 print(f"            {why}: {case}  {path}\n              old {short(a)}\n              new {short(b)}")
     else:
         print(f"no differences beyond {t.rtol:g} relative")
@@ -417,6 +431,11 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--rtol", type=float, default=1e-12, help="relative tolerance for figures (default 1e-12)")
     ap.add_argument("--jobs", type=int, default=2, choices=(1, 2), help="processes at a time (default 2)")
     ap.add_argument("--worst", type=int, default=8, metavar="N", help="worst differences listed (default 8)")
+    ap.add_argument("--examples", type=int, default=2, metavar="N",
+                    help="examples shown per key path that differs, worst first (default 2)")
+    ap.add_argument("--save-runs", metavar="FILE", help="also write every case and both trees' output to FILE")
+    ap.add_argument("--from-runs", metavar="FILE",
+                    help="compare the output kept by --save-runs instead of running (tries other --ignore patterns)")
     args = ap.parse_args(argv)
     if args.targets < 0:
         ap.error("--targets must be 0 or more")
@@ -425,14 +444,58 @@ def main(argv: list[str] | None = None) -> int:
     if rev.returncode != 0:
         ap.error(f"--against: {args.against!r} is not a commit of this repository")
     t0 = time.perf_counter()
+    if args.from_runs:
+        runs = json.loads(Path(args.from_runs).read_text())
+    else:
+        runs = run_trees(args, rev.stdout.strip(), ap)
+        if runs is None:
+            return 2
+        if args.save_runs:
+            Path(args.save_runs).write_text(json.dumps(runs))
+    circuits, missing = runs["circuits"], runs["missing"]
+    print(f"identical: {runs['new']} against {runs['old']}; seed {runs['seed']}, {runs['targets']} targets, "
+          f"rtol {args.rtol:g}, {args.jobs} processes")
+    print(f"circuits compared: {', '.join(circuits)}")
+    if missing:
+        print(f"SKIPPED, not in {runs['against']}: {', '.join(missing)} (their candidates, tolerance and analyze runs)")
+    for note in runs["notes"]:
+        print(f"note: {note}")
+
+    tally = Tally(args.rtol, [glob(p) for p in args.ignore])
+    counts: dict[str, int] = {}
+    failed: dict[str, int] = {}
+    for c, a, b in runs["cases"]:
+        case, a, b = Case(c[0], c[1], tuple(c[2]), c[3]), Result(*a), Result(*b)
+        counts[case.kind] = counts.get(case.kind, 0) + 1
+        if a.code != 0 and b.code != 0:
+            failed[case.kind] = failed.get(case.kind, 0) + 1
+        compare_case_trees(tally, case, a, b, set(circuits))
+    print("cases: " + ", ".join(f"{k} {n}" for k, n in counts.items())
+          + (f"; failing in both trees alike: {failed}" if failed else ""))
+    report(tally, args.worst, args.examples)
+    finite = [v[0] for v in tally.max_rel.values() if math.isfinite(v[0])]
+    same = not tally.diffs
+    print(json.dumps({
+        "identical": same, "against": runs["against"], "current": runs["new"].split(" ")[0],
+        "circuits": circuits, "skipped_circuits": missing, "targets": runs["targets"], "seed": runs["seed"],
+        "cases": sum(counts.values()), "numbers": tally.compared,
+        "max_rel_diff": max(finite, default=0.0), "parts_compared": tally.parts_compared,
+        "parts_differ": tally.parts_differ, "difference_paths": len(tally.diffs),
+        "differences": sum(len(v) for v in tally.diffs.values()), "only_new_paths": len(tally.only_new),
+        "ignored": args.ignore, "seconds": round(time.perf_counter() - t0, 1)}))
+    return 0 if same else 1
+
+
+def run_trees(args: argparse.Namespace, rev: str, ap: argparse.ArgumentParser) -> dict | None:
+    """Install REV beside this tree, run every case in both and return what they printed."""
     new = current_tree()
     tmp = Path(tempfile.mkdtemp(prefix="bandsmith-identical-"))
     try:
         try:
-            old = make_old_tree(rev.stdout.strip(), tmp)
+            old = make_old_tree(rev, tmp)
         except subprocess.CalledProcessError as e:
             print(f"identical: could not install {args.against}: {e}", file=sys.stderr)
-            return 2
+            return None
         cwd = str(tmp)
         ex_new, ex_old = topologies(new, cwd), topologies(old, cwd)
         wanted = args.circuits.split(",") if args.circuits else list(ex_new)
@@ -440,15 +503,8 @@ def main(argv: list[str] | None = None) -> int:
         if unknown:
             ap.error(f"--circuits: {', '.join(unknown)} not in the current tree ({', '.join(ex_new)})")
         circuits = [c for c in wanted if c in ex_old]
-        missing = [c for c in wanted if c not in ex_old]
-        print(f"identical: {new.label} against {old.label}; seed {args.seed}, {args.targets} targets, "
-              f"rtol {args.rtol:g}, {args.jobs} processes")
-        print(f"circuits compared: {', '.join(circuits)}")
-        if missing:
-            print(f"SKIPPED, not in {args.against}: {', '.join(missing)}")
-        for c in circuits:
-            if set(ex_old[c]) != set(ex_new[c]):
-                print(f"note: {c} has parts {sorted(ex_old[c])} in the old tree, {sorted(ex_new[c])} now")
+        notes = [f"{c} has parts {sorted(ex_old[c])} in the old tree, {sorted(ex_new[c])} now"
+                 for c in circuits if set(ex_old[c]) != set(ex_new[c])]
 
         rng = np.random.default_rng(args.seed)
         targets = random_targets(args.targets, rng)
@@ -459,30 +515,11 @@ def main(argv: list[str] | None = None) -> int:
         more = analyze_cases(targets, designed, circuits, rng)
         cases += more
         results += run_all((old, new), more, cwd, args.jobs)
-
-        tally = Tally(args.rtol, [glob(p) for p in args.ignore])
-        counts: dict[str, int] = {}
-        failed: dict[str, int] = {}
-        for case, (a, b) in zip(cases, results):
-            counts[case.kind] = counts.get(case.kind, 0) + 1
-            if a.code != 0 and b.code != 0:
-                failed[case.kind] = failed.get(case.kind, 0) + 1
-            compare_case_trees(tally, case, a, b, set(circuits))
-        print("cases: " + ", ".join(f"{k} {n}" for k, n in counts.items())
-              + (f"; failing in both trees alike: {failed}" if failed else ""))
-        report(tally, args.worst)
-        nonzero = [v[0] for v in tally.max_rel.values()]
-        finite = [r for r in nonzero if math.isfinite(r)]
-        same = not tally.diffs
-        print(json.dumps({
-            "identical": same, "against": args.against, "current": new.label.split(" ")[0],
-            "circuits": circuits, "skipped_circuits": missing, "targets": args.targets, "seed": args.seed,
-            "cases": sum(counts.values()), "numbers": tally.compared,
-            "max_rel_diff": max(finite, default=0.0), "parts_compared": tally.parts_compared,
-            "parts_differ": tally.parts_differ, "difference_paths": len(tally.diffs),
-            "differences": sum(len(v) for v in tally.diffs.values()), "only_new_paths": len(tally.only_new),
-            "ignored": args.ignore, "seconds": round(time.perf_counter() - t0, 1)}))
-        return 0 if same else 1
+        return {"new": new.label, "old": old.label, "against": args.against, "seed": args.seed,
+                "targets": args.targets, "circuits": circuits, "notes": notes,
+                "missing": [c for c in wanted if c not in ex_old],
+                "cases": [[[c.name, c.kind, list(c.args), c.circuit], [a.code, a.data, a.error], [b.code, b.data, b.error]]
+                          for c, (a, b) in zip(cases, results)]}
     finally:
         remove_old_tree(tmp)
 
