@@ -55,6 +55,7 @@ import subprocess
 import sys
 import tempfile
 import time
+import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -170,10 +171,16 @@ def parts_args(parts: dict[str, float]) -> list[str]:
     return [f"{ref}={num(v)}" for ref, v in parts.items()]
 
 
-def random_targets(n: int, rng: np.random.Generator) -> list[dict]:
+def stream(seed: int, *names: object) -> np.random.Generator:
+    """A generator of its own for one input: target I is the same whatever N or the circuits are."""
+    return np.random.default_rng([seed, *(zlib.crc32(str(n).encode()) for n in names)])
+
+
+def random_targets(n: int, seed: int) -> list[dict]:
     """N targets: f0, Q and gain log-uniform, a series and an op-amp GBW (None = ideal)."""
     out = []
-    for _ in range(n):
+    for i in range(n):
+        rng = stream(seed, "target", i)
         f0 = 10 ** rng.uniform(math.log10(50.0), math.log10(2e5))
         q = 10 ** rng.uniform(math.log10(0.5), math.log10(60.0))
         gain = 10 ** rng.uniform(math.log10(0.3), math.log10(30.0))
@@ -192,7 +199,7 @@ def compare_case(i: int, t: dict) -> Case:
     return Case(name, "compare", tuple(args))
 
 
-def tolerance_cases(examples: dict[str, dict[str, float]], rng: np.random.Generator) -> list[Case]:
+def tolerance_cases(examples: dict[str, dict[str, float]], seed: int) -> list[Case]:
     """Per circuit: its example with an ideal op-amp, with a spread GBW, and normal spreads."""
     out = []
     for c, parts in examples.items():
@@ -201,23 +208,23 @@ def tolerance_cases(examples: dict[str, dict[str, float]], rng: np.random.Genera
         if "RL" in parts:  # the tank's inductor with a winding resistance (another root path)
             variants.append(("RL", {**parts, "RL": 25.0}, []))
         for label, p, extra in variants:
-            k = int(rng.integers(1, 2**31))
+            k = int(stream(seed, "tolerance", c, label).integers(1, 2**31))
             args = ["tolerance", c, *parts_args(p), "--trials", str(TRIALS), "--seed", str(k), *extra, "--json"]
             out.append(Case(f"tolerance {c} {label} seed={k}", "tolerance", tuple(args), c))
     return out
 
 
 def analyze_cases(targets: list[dict], designed: dict[int, object], circuits: list[str],
-                  rng: np.random.Generator) -> list[Case]:
+                  seed: int) -> list[Case]:
     """Per target and circuit: the current tree's chosen parts, each scaled by a random factor."""
     out = []
     for i, t in enumerate(targets):
         data = designed.get(i)
         cands = {c.get("topology"): c for c in (data or {}).get("candidates", []) if isinstance(c, dict)}
-        gbw = t["gbw"] or GBWS[1 + rng.integers(len(GBWS) - 1)]
+        gbw = t["gbw"] or GBWS[1 + stream(seed, "analyze", i).integers(len(GBWS) - 1)]
         for c in circuits:
             cand = cands.get(c)
-            factors = 10 ** rng.uniform(math.log10(0.7), math.log10(1.4), size=16)
+            factors = 10 ** stream(seed, "analyze", i, c).uniform(math.log10(0.7), math.log10(1.4), size=16)
             if not cand or not cand.get("feasible") or not cand.get("chosen"):
                 continue
             parts = {ref: v * f for (ref, v), f in zip(cand["chosen"].items(), factors)}
@@ -236,11 +243,13 @@ class Tally:
 
     rtol: float
     ignore: list[re.Pattern]
+    atol: list[tuple[re.Pattern, float]]
     compared: int = 0
     max_rel: dict[str, tuple[float, str, str, object, object]] = field(default_factory=dict)
     diffs: dict[str, list[tuple[str, str, object, object, str]]] = field(default_factory=dict)
     only_new: dict[str, int] = field(default_factory=dict)
     ignored: dict[str, int] = field(default_factory=dict)
+    near_zero: dict[str, tuple[int, float]] = field(default_factory=dict)
     parts_compared: int = 0
     parts_differ: int = 0
 
@@ -258,6 +267,26 @@ class Tally:
 def glob(pattern: str) -> re.Pattern:
     """A key path pattern: ``*`` is any text, everything else literal."""
     return re.compile(".*".join(re.escape(p) for p in pattern.split("*")))
+
+
+def absolute_rules(rtol: float, given: list[str]) -> list[tuple[re.Pattern, float]]:
+    """Absolute tolerances for figures that sit near zero, where a relative one means nothing.
+
+    The figure behind each is held to RTOL relative, which allows: a gain or a gain error in dB
+    20/ln 10 · RTOL, an error in percent (``errors.f0_pct``) 100 · RTOL percentage points, a phase
+    in degrees 180/π · RTOL (the angle of a complex value known to RTOL relative). ``--atol
+    PATTERN=A`` rules come first.
+    """
+    rules = []
+    for item in given:
+        pattern, _, a = item.rpartition("=")
+        try:
+            rules.append((glob(pattern), float(a)))
+        except ValueError:
+            sys.exit(f"identical: --atol wants PATTERN=NUMBER, got {item!r}")
+    db, pct, deg = 20 / math.log(10) * rtol, 100 * rtol, 180 / math.pi * rtol
+    return rules + [(glob("*errors*_db"), db), (glob("*gain_center_db"), db), (glob("*errors*_pct"), pct),
+                    (glob("*phase*_deg"), deg)]
 
 
 def rel(a: float, b: float) -> float:
@@ -334,6 +363,13 @@ def walk(t: Tally, case: str, old, new, path: str, pattern: str) -> None:
                 t.diff(pattern, case, path, old, new, "chosen part differs")
             return
         t.compared += 1
+        if r > t.rtol:  # a figure near zero (an error in %, a gain in dB, a phase) by its absolute rule
+            d = abs(float(old) - float(new))
+            atol = next((a for rx, a in t.atol if rx.fullmatch(pattern)), None)
+            if atol is not None and d <= atol:
+                n, m = t.near_zero.get(pattern, (0, 0.0))
+                t.near_zero[pattern] = (n + 1, max(m, d))
+                return
         if r > t.max_rel.get(pattern, (-1.0,))[0]:
             t.max_rel[pattern] = (r, case, path, old, new)
         if r > t.rtol:
@@ -384,6 +420,10 @@ def report(t: Tally, worst: int, examples: int) -> None:
         print("keys only the current tree prints (not compared):")
         for k, n in sorted(t.only_new.items()):
             print(f"  {n:6d}  {k}")
+    if t.near_zero:
+        print("beyond the relative tolerance but within the absolute one (near zero):")
+        for k, (n, m) in sorted(t.near_zero.items()):
+            print(f"  {n:6d}  |a-b| <= {m:.3g}  {k}")
     if t.ignored:
         print("ignored (--ignore):")
         for k, n in sorted(t.ignored.items()):
@@ -428,6 +468,9 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--seed", type=int, default=1, metavar="S", help="seed of the inputs (default 1)")
     ap.add_argument("--ignore", action="append", default=[], metavar="PATTERN",
                     help="leave out a key path and what is under it, e.g. 'compare.candidates[*].notes' (repeatable)")
+    ap.add_argument("--atol", action="append", default=[], metavar="PATTERN=A",
+                    help="a number under PATTERN also passes when |a - b| <= A (repeatable; before the built-in "
+                         "rules for errors in %% and dB, gains in dB and phases in degrees)")
     ap.add_argument("--rtol", type=float, default=1e-12, help="relative tolerance for figures (default 1e-12)")
     ap.add_argument("--jobs", type=int, default=2, choices=(1, 2), help="processes at a time (default 2)")
     ap.add_argument("--worst", type=int, default=8, metavar="N", help="worst differences listed (default 8)")
@@ -461,7 +504,7 @@ def main(argv: list[str] | None = None) -> int:
     for note in runs["notes"]:
         print(f"note: {note}")
 
-    tally = Tally(args.rtol, [glob(p) for p in args.ignore])
+    tally = Tally(args.rtol, [glob(p) for p in args.ignore], absolute_rules(args.rtol, args.atol))
     counts: dict[str, int] = {}
     failed: dict[str, int] = {}
     for c, a, b in runs["cases"]:
@@ -506,13 +549,12 @@ def run_trees(args: argparse.Namespace, rev: str, ap: argparse.ArgumentParser) -
         notes = [f"{c} has parts {sorted(ex_old[c])} in the old tree, {sorted(ex_new[c])} now"
                  for c in circuits if set(ex_old[c]) != set(ex_new[c])]
 
-        rng = np.random.default_rng(args.seed)
-        targets = random_targets(args.targets, rng)
+        targets = random_targets(args.targets, args.seed)
         cases = [compare_case(i, t) for i, t in enumerate(targets)]
-        cases += tolerance_cases({c: ex_new[c] for c in circuits}, rng)
+        cases += tolerance_cases({c: ex_new[c] for c in circuits}, args.seed)
         results = run_all((old, new), cases, cwd, args.jobs)
         designed = {i: r[1].data for i, r in enumerate(results[: len(targets)])}
-        more = analyze_cases(targets, designed, circuits, rng)
+        more = analyze_cases(targets, designed, circuits, args.seed)
         cases += more
         results += run_all((old, new), more, cwd, args.jobs)
         return {"new": new.label, "old": old.label, "against": args.against, "seed": args.seed,
