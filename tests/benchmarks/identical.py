@@ -63,6 +63,7 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parents[2]
 TRIALS = 20000
+TIMEOUT_S = 300  # one command; a wrong argument list could open the window and wait
 SERIES = ("E12", "E24", "E96", "exact")
 GBWS = (None, 1e6, 1e7, 1e8)
 # Keys that name an element of a list of objects, tried in this order (candidates, amplifiers,
@@ -97,7 +98,11 @@ class Result:
 def run(tree: Tree, args: list[str], cwd: str) -> Result:
     """Run ``bandsmith ARGS`` of one tree and read its JSON."""
     env = {**os.environ, **ENV_ONE_THREAD, "QT_QPA_PLATFORM": "offscreen"}
-    p = subprocess.run([*tree.argv, *args], capture_output=True, text=True, cwd=cwd, env=env)
+    try:
+        p = subprocess.run([*tree.argv, *args], capture_output=True, text=True, cwd=cwd, env=env,
+                           stdin=subprocess.DEVNULL, timeout=TIMEOUT_S)
+    except subprocess.TimeoutExpired:
+        return Result(-1, None, f"no answer within {TIMEOUT_S} s")
     err = (p.stderr.strip().splitlines() or [""])[-1]
     try:
         data = json.loads(p.stdout) if p.stdout.strip() else None
