@@ -279,8 +279,10 @@ def absolute_rules(rtol: float, given: list[str]) -> list[tuple[re.Pattern, floa
 
     The figure behind each is held to RTOL relative, which allows: a gain or a gain error in dB
     20/ln 10 · RTOL, an error in percent (``errors.f0_pct``) 100 · RTOL percentage points, a phase
-    in degrees 180/π · RTOL (the angle of a complex value known to RTOL relative). ``--atol
-    PATTERN=A`` rules come first.
+    in degrees 180/π · RTOL (the angle of a complex value known to RTOL relative); a verdict
+    reason's value is such an error (``reasons[q_error_opamp].value`` in %, ``gain_error`` in dB).
+    A rule is matched against the key pattern and the concrete path. ``--atol PATTERN=A`` rules
+    come first.
     """
     rules = []
     for item in given:
@@ -291,7 +293,8 @@ def absolute_rules(rtol: float, given: list[str]) -> list[tuple[re.Pattern, floa
             sys.exit(f"identical: --atol wants PATTERN=NUMBER, got {item!r}")
     db, pct, deg = 20 / math.log(10) * rtol, 100 * rtol, 180 / math.pi * rtol
     return rules + [(glob("*errors*_db"), db), (glob("*gain_center_db"), db), (glob("*errors*_pct"), pct),
-                    (glob("*phase*_deg"), deg)]
+                    (glob("*phase*_deg"), deg), (glob("*reasons[gain_error*].value"), db),
+                    (glob("*reasons[f0_error*].value"), pct), (glob("*reasons[q_error*].value"), pct)]
 
 
 def rel(a: float, b: float) -> float:
@@ -370,7 +373,7 @@ def walk(t: Tally, case: str, old, new, path: str, pattern: str) -> None:
         t.compared += 1
         if r > t.rtol:  # a figure near zero (an error in %, a gain in dB, a phase) by its absolute rule
             d = abs(float(old) - float(new))
-            atol = next((a for rx, a in t.atol if rx.fullmatch(pattern)), None)
+            atol = next((a for rx, a in t.atol if rx.fullmatch(pattern) or rx.fullmatch(path)), None)
             if atol is not None and d <= atol:
                 n, m = t.near_zero.get(pattern, (0, 0.0))
                 t.near_zero[pattern] = (n + 1, max(m, d))
