@@ -486,7 +486,8 @@ def main(argv: list[str] | None = None) -> int:
                     help="examples shown per key path that differs, worst first (default 2)")
     ap.add_argument("--save-runs", metavar="FILE", help="also write every case and both trees' output to FILE")
     ap.add_argument("--from-runs", metavar="FILE",
-                    help="compare the output kept by --save-runs instead of running (tries other --ignore patterns)")
+                    help="compare the output kept by --save-runs instead of running (other --ignore patterns, "
+                         "--circuits a part of them)")
     args = ap.parse_args(argv)
     if args.targets < 0:
         ap.error("--targets must be 0 or more")
@@ -504,6 +505,9 @@ def main(argv: list[str] | None = None) -> int:
         if args.save_runs:
             Path(args.save_runs).write_text(json.dumps(runs))
     circuits, missing = runs["circuits"], runs["missing"]
+    if args.from_runs and args.circuits:  # a part of what was run
+        circuits = [c for c in circuits if c in args.circuits.split(",")]
+        runs["cases"] = [x for x in runs["cases"] if x[0][3] is None or x[0][3] in circuits]
     print(f"identical: {runs['new']} against {runs['old']}; seed {runs['seed']}, {runs['targets']} targets, "
           f"rtol {args.rtol:g}, {args.jobs} processes")
     print(f"circuits compared: {', '.join(circuits)}")
