@@ -25,7 +25,8 @@ key; every number to ``--rtol`` relative (|a - b| / max(|a|, |b|), default 1e-12
 NaN); chosen part values (``chosen``, ``components``, a netlist element's ``value``) exactly;
 strings, booleans and None exactly. A key only the current tree prints is listed and not
 compared (the old tree lacks it); a key only the old tree prints is a difference. A circuit the
-old tree does not have is skipped and said. ``--ignore PATTERN`` (repeatable) leaves out a key
+old tree does not have is skipped and said, and so is a case with an option the old command's
+``--help`` does not list. ``--ignore PATTERN`` (repeatable) leaves out a key
 path and everything under it; a pattern is matched against the whole path, for example
 ``compare.candidates[*].requirements.amplifiers[*].iout_peak_ma``, where ``*`` stands for any
 text.
@@ -461,6 +462,36 @@ def topologies(tree: Tree, cwd: str) -> dict[str, dict[str, float]]:
     return {t["id"]: t["example"] for t in r.data["topologies"]}
 
 
+USED_OPTIONS = {"compare": ("--f0", "--q", "--gain", "--series", "--gbw", "--json"),
+                "tolerance": ("--trials", "--seed", "--gbw", "--gbw-tol", "--dist", "--json"),
+                "analyze": ("--gbw", "--json")}
+
+
+def old_options(tree: Tree, cwd: str) -> dict[str, set[str]]:
+    """The options each command used here lacks in TREE (read off its ``--help``)."""
+    out = {}
+    for kind, used in USED_OPTIONS.items():
+        r = subprocess.run([*tree.argv, kind, "--help"], capture_output=True, text=True, cwd=cwd,
+                           stdin=subprocess.DEVNULL, timeout=TIMEOUT_S)
+        have = set(re.findall(r"--[a-z0-9-]+", r.stdout))
+        out[kind] = {o for o in used if o not in have} if r.returncode == 0 else {"(the command itself)"}
+    return out
+
+
+def runnable(cases: list[Case], lacks: dict[str, set[str]], notes: list[str]) -> list[Case]:
+    """The cases whose options the old tree has; the others are said in NOTES and not run."""
+    keep, skipped = [], {}
+    for c in cases:
+        missing = sorted(o for o in lacks.get(c.kind, ()) if o in c.args or o.startswith("("))
+        if missing:
+            skipped.setdefault((c.kind, tuple(missing)), []).append(c)
+        else:
+            keep.append(c)
+    for (kind, missing), cs in skipped.items():
+        notes.append(f"SKIPPED {len(cs)} {kind} cases: the old tree lacks {', '.join(missing)}")
+    return keep
+
+
 def run_all(trees: tuple[Tree, Tree], cases: list[Case], cwd: str, jobs: int) -> list[tuple[Result, Result]]:
     with concurrent.futures.ThreadPoolExecutor(max_workers=jobs) as pool:
         futs = [(pool.submit(run, trees[0], list(c.args), cwd), pool.submit(run, trees[1], list(c.args), cwd))
@@ -564,9 +595,12 @@ def run_trees(args: argparse.Namespace, rev: str, ap: argparse.ArgumentParser) -
         targets = random_targets(args.targets, args.seed)
         cases = [compare_case(i, t) for i, t in enumerate(targets)]
         cases += tolerance_cases({c: ex_new[c] for c in circuits}, args.seed)
+        lacks = old_options(old, cwd)
+        cases = runnable(cases, lacks, notes)
         results = run_all((old, new), cases, cwd, args.jobs)
-        designed = {i: r[1].data for i, r in enumerate(results[: len(targets)])}
-        more = analyze_cases(targets, designed, circuits, args.seed)
+        designed = {i: r[1].data for r, c in zip(results, cases) if c.kind == "compare"
+                    for i in [int(c.name.split("#")[1].split(" ")[0])]}
+        more = runnable(analyze_cases(targets, designed, circuits, args.seed), lacks, notes)
         cases += more
         results += run_all((old, new), more, cwd, args.jobs)
         return {"new": new.label, "old": old.label, "against": args.against, "seed": args.seed,
