@@ -22,14 +22,17 @@ the Python import names changed over time, so nothing here imports either tree):
 
 How it compares: lists of objects are matched by their ``topology``, ``ref``, ``code`` or ``id``
 key; every number to ``--rtol`` relative (|a - b| / max(|a|, |b|), default 1e-12; NaN equals
-NaN); chosen part values (``chosen``, ``components``, a netlist element's ``value``) exactly;
-strings, booleans and None exactly. A key only the current tree prints is listed and not
-compared (the old tree lacks it); a key only the old tree prints is a difference. A circuit the
-old tree does not have is skipped and said, and so is a case with an option the old command's
-``--help`` does not list. ``--ignore PATTERN`` (repeatable) leaves out a key
-path and everything under it; a pattern is matched against the whole path, for example
+NaN), except figures that sit near zero (errors in % and dB, gains in dB, phases), which pass
+by the absolute amount that the same relative tolerance allows (:func:`absolute_rules`,
+``--atol``); chosen part values (``chosen``, ``components``, a netlist element's ``value``)
+exactly; strings, booleans and None exactly. A key only the current tree prints is listed and
+not compared (the old tree lacks it); a key only the old tree prints is a difference. A circuit
+the old tree does not have is skipped and said, and so is a case with an option the old
+command's ``--help`` does not list. ``--ignore PATTERN`` (repeatable) leaves out a key path and
+everything under it; a pattern is matched against the whole path, for example
 ``compare.candidates[*].requirements.amplifiers[*].iout_peak_ma``, where ``*`` stands for any
-text.
+text. ``--save-runs FILE`` keeps what both trees printed; ``--from-runs FILE`` compares it again
+(other patterns, fewer circuits) without running anything.
 
 The old revision is checked out with ``git worktree add --detach`` in a temporary folder and
 installed editable (``--no-deps``) in a throwaway virtualenv that sees this interpreter's site
