@@ -305,3 +305,20 @@ def test_surely_not_buildable_agrees_with_judge():
             if hopeless:
                 assert v.verdict == NOT_BUILDABLE, (res.topology_id, spec, v.reasons)
     assert (True, NOT_BUILDABLE) in seen and any(not h for h, _ in seen)
+
+
+def test_ties_in_theory_are_not_decided_by_rounding(demo):
+    # Two circuits whose required GBW is the same in theory come out of their searches a few units
+    # in the last place apart, and two parts of equal sensitivity (f0 ∝ 1/√(C1·C2) in a
+    # two-integrator loop, so S = −0.5 for both capacitors; from memory) get shares a rounding
+    # apart: the order of the comparison decides, not the rounding.
+    from bandsmith.verdict import estimate_yield, rank
+
+    v = demo.verdicts[0]
+    g = 1.3915339819448e6
+    a, b = replace(v, required_gbw_hz=g * (1 + 3e-16)), replace(v, required_gbw_hz=g)
+    assert rank([a, b]).order == (0, 1) and rank([b, a]).order == (0, 1)
+    est = estimate_yield({"f0": {"C1": -0.5, "C2": -0.5 * (1 - 2e-12)}, "q": {}, "gain": {}}, {"C1": 0.05, "C2": 0.05})
+    assert est.part == "C1"
+    est = estimate_yield({"f0": {"C1": -0.5 * (1 - 2e-12), "C2": -0.5}, "q": {}, "gain": {}}, {"C1": 0.05, "C2": 0.05})
+    assert est.part == "C1"

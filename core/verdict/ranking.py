@@ -7,7 +7,9 @@ Order (best first), each key deciding only where the ones before it tie:
 3. the yield under the part tolerances, in steps of 5 percentage points (so that a Monte Carlo's
    scatter of a point or two does not decide);
 4. no inductor before an inductor (a wound part is larger, dearer and less ideal);
-5. the lower required GBW (a slower, cheaper op-amp; a candidate with none last);
+5. the lower required GBW (a slower, cheaper op-amp; a candidate with none last), compared on a
+   logarithmic grid of 1e-9 relative steps, so that two circuits whose need is the same in theory
+   are not ordered by the last bits of their searches;
 6. the fewer parts;
 7. the candidate's position in the comparison (stable).
 
@@ -24,16 +26,19 @@ from typing import Sequence
 from bandsmith.common.values import format_value
 from bandsmith.verdict.judge import BUILDABLE, VERDICTS, Verdict
 
-__all__ = ["YIELD_STEP", "Ranking", "merit_key", "rank"]
+__all__ = ["YIELD_STEP", "GBW_STEP", "Ranking", "merit_key", "rank"]
 
 #: Yields closer than this count as equal in the ranking.
 YIELD_STEP = 0.05
+#: Required GBWs within this relative step count as equal in the ranking (rounding, not engineering).
+GBW_STEP = 1e-9
 
 
 def merit_key(v: Verdict, position: int = 0) -> tuple:
     """The sort key of a verdict (smaller is better; see the module notes)."""
     y = -1.0 if v.yield_fraction is None else v.yield_fraction
-    gbw = v.required_gbw_hz if v.required_gbw_hz is not None and math.isfinite(v.required_gbw_hz) else math.inf
+    g = v.required_gbw_hz
+    gbw = round(math.log(g) / GBW_STEP) if g is not None and math.isfinite(g) and g > 0 else math.inf
     heavy = sum(1 for r in v.reasons if r.weight == v.verdict)
     return (VERDICTS.index(v.verdict), heavy, -math.floor(y / YIELD_STEP + 1e-9), v.needs_inductor, gbw, v.part_count, position)
 

@@ -162,7 +162,9 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
     within = np.count_nonzero(inside, axis=1) / x.shape[1]
     k = int(np.argmin(within)) if refs else 0
     if refs and contrib[k].sum() > 0:
-        j = int(np.argmax(contrib[k]))
+        # the first part (in the circuit's order) of the largest share: parts whose shares are the
+        # same in theory (equal sensitivities and tolerances) differ only in rounding, which must not choose
+        j = int(np.flatnonzero(contrib[k] >= contrib[k].max() * (1.0 - 1e-6))[0])
         part, share = refs[j], float(contrib[k, j] / contrib[k].sum())
     else:
         part, share = None, 0.0
