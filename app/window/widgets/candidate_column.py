@@ -21,7 +21,7 @@ from bandsmith.common.values import format_value, parse_nonnegative, parse_posit
 from bandsmith.app.document.results import CandidateResult, target_errors
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import BAD, GOOD, WARN, CandidateStyle, error_label
-from bandsmith.app.window.widgets.candidate_verdict import VerdictBadge, VerdictDetails
+from bandsmith.app.window.widgets.candidate_verdict import VerdictBadge, VerdictDetails, set_pinned_text
 from bandsmith.app.window.widgets.value_field import ValueField
 from bandsmith.app.window.widgets.verdict_strip import VerdictStrip
 
@@ -108,6 +108,8 @@ class CandidateColumn(QtWidgets.QFrame):
         head = QtWidgets.QHBoxLayout()
         self.swatch = QtWidgets.QLabel(self)
         self.swatch.setObjectName("swatch")
+        # the size of style_swatch's pixmap, fixed: a new pixmap (every refill) lays nothing out again
+        self.swatch.setFixedSize(style_swatch(self.state.style(self.candidate_id)).size())
         self.title = QtWidgets.QLabel(self)
         self.title.setObjectName("candidateTitle")
         head.addWidget(self.swatch)
@@ -302,16 +304,16 @@ class CandidateColumn(QtWidgets.QFrame):
         self.problem.hide()
         if not entry.enabled or res is None:
             self.figures_title.setText("Achieved")
-            self.figures.setText('<span style="color:#5f6368">switched off: not analysed</span>')
-            self.need_gbw.setText("—")
-            self.need_flag.setText("")
-            self.needs.setText("")
+            set_pinned_text(self.figures, '<span style="color:#5f6368">switched off: not analysed</span>')
+            set_pinned_text(self.need_gbw, "—")
+            set_pinned_text(self.need_flag, "")
+            set_pinned_text(self.needs, "")
             return
         if not res.ok:
-            self.figures.setText("")
-            self.need_gbw.setText("—")
-            self.need_flag.setText("")
-            self.needs.setText("")
+            set_pinned_text(self.figures, "")
+            set_pinned_text(self.need_gbw, "—")
+            set_pinned_text(self.need_flag, "")
+            set_pinned_text(self.needs, "")
             self.problem.setText(res.error)
             self.problem.show()
             return
@@ -332,43 +334,44 @@ class CandidateColumn(QtWidgets.QFrame):
         html = "<table cellspacing=0 cellpadding=1>" + "".join(
             f"<tr><td>{a}&nbsp;</td><td align=right>{b}&nbsp;&nbsp;</td><td>{c}</td></tr>" for a, b, c in rows
         ) + "</table>"
-        self.figures.setText(html)
+        set_pinned_text(self.figures, html)
 
     def _show_needs(self, res: CandidateResult, session: Session) -> None:
         req = res.analysis.requirements
         have = session.opamp.gbw_hz
         if req.gbw_hz is None:
-            self.need_gbw.setText("GBW: no op-amp is enough")
-            self.need_gbw.setStyleSheet(f"color: {BAD};")
-            self.need_flag.setObjectName("needFlagBad")
-            self.need_flag.setText(req.gbw_reason or "")
+            big, big_sheet = "GBW: no op-amp is enough", f"color: {BAD};"
+            flag, flag_name, flag_sheet = req.gbw_reason or "", "needFlagBad", ""
         else:
-            self.need_gbw.setStyleSheet("")
-            self.need_gbw.setText(f"GBW ≥ {format_value(req.gbw_hz, 'Hz', digits=3)}")
+            big, big_sheet = f"GBW ≥ {format_value(req.gbw_hz, 'Hz', digits=3)}", ""
             if have is None:
-                self.need_flag.setObjectName("needFlagOk")
-                self.need_flag.setText("ideal op-amp assumed: type its GBW above")
-                self.need_flag.setStyleSheet("color: #5f6368;")
+                flag, flag_name, flag_sheet = "ideal op-amp assumed: type its GBW above", "needFlagOk", "color: #5f6368;"
             elif have < req.gbw_hz:
-                self.need_flag.setObjectName("needFlagBad")
-                self.need_flag.setStyleSheet("")
-                self.need_flag.setText(f"✗ op-amp {format_value(have, 'Hz', digits=3)} is below the need")
+                flag, flag_name, flag_sheet = f"✗ op-amp {format_value(have, 'Hz', digits=3)} is below the need", "needFlagBad", ""
             else:
-                self.need_flag.setObjectName("needFlagOk")
-                self.need_flag.setStyleSheet("")
-                self.need_flag.setText(f"✓ op-amp {format_value(have, 'Hz', digits=3)}: {have / req.gbw_hz:.3g}× the need")
-        self.need_flag.style().unpolish(self.need_flag)
-        self.need_flag.style().polish(self.need_flag)
+                flag, flag_name, flag_sheet = f"✓ op-amp {format_value(have, 'Hz', digits=3)}: {have / req.gbw_hz:.3g}× the need", "needFlagOk", ""
+        # style first (a new style sheet or name re-polishes), then the text, pinned at its size
+        if self.need_gbw.styleSheet() != big_sheet:
+            self.need_gbw.setStyleSheet(big_sheet)
+        set_pinned_text(self.need_gbw, big)
+        if self.need_flag.objectName() != flag_name or self.need_flag.styleSheet() != flag_sheet:
+            self.need_flag.setObjectName(flag_name)
+            self.need_flag.setStyleSheet(flag_sheet)
+            self.need_flag.style().unpolish(self.need_flag)
+            self.need_flag.style().polish(self.need_flag)
+            self.need_flag.setText("")  # its size is worked out again with the new style
+        set_pinned_text(self.need_flag, flag)
         rows = [
             ("slew, sine at f0", f"{req.slew_sine_v_per_us:.3g} V/µs"),
             ("slew, input step", f"{req.slew_step_v_per_us:.3g} V/µs"),
             ("output current", f"{req.iout_peak_ma:.3g} mA peak"),
             ("output swing", f"{req.vout_peak_v:.3g} V peak"),
         ]
-        self.needs.setText(
+        set_pinned_text(
+            self.needs,
             "<table cellspacing=0 cellpadding=1>"
             + "".join(f"<tr><td>{a}&nbsp;&nbsp;</td><td align=right><b>{b}</b></td></tr>" for a, b in rows)
-            + "</table>"
+            + "</table>",
         )
 
     @property

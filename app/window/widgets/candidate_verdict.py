@@ -78,20 +78,22 @@ class VerdictBadge(QtWidgets.QLabel):
         return "" if row is None or row.verdict is None else row.verdict.verdict
 
 
-def set_wrapped_text(label: QtWidgets.QLabel, html: str) -> None:
-    """Set a word-wrapped label's text, its size pinned to what the text needs at its width.
+def set_pinned_text(label: QtWidgets.QLabel, html: str) -> None:
+    """Set a label's text, its size pinned to what the text needs at its width.
 
     Qt lays out again every parent of a widget whose size is not fixed each time its text
-    changes; pinned, a new text of the same height (a part edit changes the numbers in the
-    reasons, rarely their lines) costs no layout of the column and the board, and a new height
-    re-pins it, which does lay them out.
+    changes (the column, the board, the scroll area: the whole board repainted); pinned, a new
+    text of the same size (a part edit changes the numbers, rarely the lines) costs no layout, and
+    a new size re-pins it, which does lay them out. The height is what a word-wrapped or rich-text
+    label needs at its width, else its size hint's. Columns have a fixed width, so the width holds.
     """
     if label.text() == html:
         return
     label.setText(html)
     w = label.width()
     if label.isVisible() and w > 0:
-        label.setFixedSize(w, label.heightForWidth(w))
+        h = label.heightForWidth(w)
+        label.setFixedSize(w, h if h >= 0 else label.sizeHint().height())
 
 
 class VerdictDetails(QtWidgets.QWidget):
@@ -152,17 +154,17 @@ class VerdictDetails(QtWidgets.QWidget):
             return
         self._shown_row = row
         if row is None or row.verdict is None:
-            set_wrapped_text(self.reasons, f'<span style="color:{MUTED}">switched off: not judged</span>')
+            set_pinned_text(self.reasons, f'<span style="color:{MUTED}">switched off: not judged</span>')
         elif not row.verdict.reasons:
-            set_wrapped_text(self.reasons, f'<span style="color:{MUTED}">no limit crossed</span>')
+            set_pinned_text(self.reasons, f'<span style="color:{MUTED}">no limit crossed</span>')
         else:
             items = []
             for r in row.verdict.reasons:
                 sym, colour, _ = VERDICT_LOOK[r.weight]
                 items.append(f'<span style="color:{colour}">{sym}</span> {escape(r.text)}')
-            set_wrapped_text(self.reasons, "<br/>".join(items))
+            set_pinned_text(self.reasons, "<br/>".join(items))
         notes = row.notes if row is not None else ()
-        set_wrapped_text(self.notes, "<br/>".join(f"· {escape(n)}" for n in notes) if notes else f'<span style="color:{MUTED}">none</span>')
+        set_pinned_text(self.notes, "<br/>".join(f"· {escape(n)}" for n in notes) if notes else f'<span style="color:{MUTED}">none</span>')
         self._show_sensitivities()
 
     def _show_sensitivities(self) -> None:
