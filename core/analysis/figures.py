@@ -85,13 +85,13 @@ _FIELDS = tuple(f.name for f in fields(Figures))
 def _sq_mag_matrix(k: int) -> np.ndarray:
     """(k·k, k) matrix taking the outer product of ``c`` (highest power first) to the coefficients
     in ``u`` (highest first) of ``|c(jx)|²`` at ``u = x²``: ``c_i c_j j^{e_i} (−j)^{e_j} x^{e_i+e_j}``."""
-    e = np.arange(k - 1, -1, -1)
     out = np.zeros((k, k, k))
     for i in range(k):
+        ei = k - 1 - i
         for j in range(k):
-            if (e[i] + e[j]) % 2 == 0:
-                w = (1j ** e[i] * (-1j) ** e[j]).real
-                out[i, j, k - 1 - (e[i] + e[j]) // 2] = round(w)
+            ej = k - 1 - j
+            if (ei + ej) % 2 == 0:  # j^ei·(−j)^ej = (−1)^ej·j^(ei+ej) = (−1)^(ej + (ei+ej)/2)
+                out[i, j, k - 1 - (ei + ej) // 2] = -1.0 if (ej + (ei + ej) // 2) % 2 else 1.0
     return out.reshape(k * k, k)
 
 
@@ -99,15 +99,15 @@ def _sq_mag_matrix(k: int) -> np.ndarray:
 def _slope_matrix(m: int, n: int) -> np.ndarray:
     """(m·n, m+n−2) matrix taking the outer product of ``P`` and ``Q`` (in ``u``, highest first)
     to ``P'Q − PQ'``: the term ``p_a q_b`` lands at power ``a+b−1`` with weight ``a − b``."""
-    a = np.arange(m - 1, -1, -1)
-    b = np.arange(n - 1, -1, -1)
     deg = m + n - 3  # highest power of the result
     out = np.zeros((m, n, max(deg + 1, 1)))
     for i in range(m):
+        a = m - 1 - i
         for j in range(n):
-            p = a[i] + b[j] - 1
-            if p >= 0 and a[i] != b[j]:
-                out[i, j, deg - p] = a[i] - b[j]
+            b = n - 1 - j
+            p = a + b - 1
+            if p >= 0 and a != b:
+                out[i, j, deg - p] = a - b
     return out.reshape(m * n, -1)
 
 

@@ -111,13 +111,18 @@ print(json.dumps([first, statistics.median(warm)]))
 """
 
 
-def first_analysis(circuit: str, *, preload_scipy: bool = True) -> tuple[float, float]:
+def first_analysis(circuit: str, *, preload_scipy: bool = True, runs: int = 3) -> tuple[float, float]:
     """``(first, warm)``: one candidate's analysis (s) as the first in a fresh process (its modules
     already imported: with ``preload_scipy``, scipy.linalg too, which the analysis of a circuit
     with several op-amps imports on first use; its import is start-up, measured by
-    :func:`cli_start`) and the median of later ones."""
+    :func:`cli_start`) and the median of later ones; each the median over ``runs`` fresh
+    processes (a first call is one sample, at the mercy of whatever else the machine does)."""
     here = os.path.dirname(os.path.abspath(__file__))
-    out = subprocess.run([sys.executable, "-c", _FIRST.format(here=here, circuit=circuit, preload=preload_scipy)],
-                         capture_output=True, text=True, check=True, env=user_env()).stdout
-    first, warm = json.loads(out.strip().splitlines()[-1])
-    return first, warm
+    firsts, warms = [], []
+    for _ in range(runs):
+        out = subprocess.run([sys.executable, "-c", _FIRST.format(here=here, circuit=circuit, preload=preload_scipy)],
+                             capture_output=True, text=True, check=True, env=user_env()).stdout
+        first, warm = json.loads(out.strip().splitlines()[-1])
+        firsts.append(first)
+        warms.append(warm)
+    return statistics.median(firsts), statistics.median(warms)
