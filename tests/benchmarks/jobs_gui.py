@@ -53,26 +53,24 @@ def _settle(app) -> None:
             return
 
 
-class _PaintWatch(set):
-    """The widgets (of those watched) that received a paint event since the set was last cleared."""
+class _PaintWatch:
+    """Which of the watched widgets received a paint event (``painted``, cleared by the caller)."""
 
     def __init__(self, widgets):
         from PySide6 import QtCore
 
-        super().__init__()
-        watch = self
+        painted: set = set()
 
         class _Filter(QtCore.QObject):
             def eventFilter(self, obj, event):  # noqa: N802 - Qt's name
                 if event.type() == QtCore.QEvent.Type.Paint:
-                    watch.add(obj)
+                    painted.add(obj)
                 return False
 
-        self._filter = _Filter()
+        self.painted = painted
+        self._filter = _Filter()  # kept: an event filter must outlive its use
         for w in widgets:
             w.installEventFilter(self._filter)
-
-    __hash__ = object.__hash__
 
 
 def gui_replot_median_ms(size: tuple[int, int] = (1366, 768)) -> float:
@@ -93,7 +91,7 @@ def gui_replot_median_ms(size: tuple[int, int] = (1366, 768)) -> float:
     mag = window.plot_grid.plots["magnitude"]
     plots = list(window.plot_grid.plots.values())
     cols = list(window.board.columns.values())
-    painted = _PaintWatch(plot.viewport() for plot in plots)
+    watch = _PaintWatch(plot.viewport() for plot in plots)
     times = []
     for i in range(_EDITS):
         col = cols[i % len(cols)]
@@ -102,12 +100,12 @@ def gui_replot_median_ms(size: tuple[int, int] = (1366, 768)) -> float:
         value = state.session.candidate(col.candidate_id).values[ref] * (1.1 if (i // len(cols)) % 2 == 0 else 1 / 1.1)
         before = np.array(mag.curves[col.candidate_id].yData, copy=True)
         field.edit.setText(f"{value:.6g}")
-        painted.clear()
+        watch.painted.clear()
         t0 = time.perf_counter()
         field.edit.editingFinished.emit()  # what Enter in the field does
         _settle(app)
         for plot in plots:
-            if plot.viewport() not in painted:
+            if plot.viewport() not in watch.painted:
                 plot.viewport().repaint()
         times.append(time.perf_counter() - t0)
         after = mag.curves[col.candidate_id].yData
