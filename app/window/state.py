@@ -28,20 +28,8 @@ __all__ = ["WorkbenchState", "entry_kind", "target_from_bandwidth", "OpAmpSpec"]
 class WorkbenchState(QtCore.QObject):
     """The document and everything derived from it, with Qt signals.
 
-    Signals
-    -------
-    session_changed(Session)
-        After any change of the document (edit, undo, redo, open, new).
-    analyses_changed()
-        After the results of the active candidates were brought up to date.
-    path_changed(str)
-        The file the document belongs to ("" for an untitled session).
-    clean_changed(bool)
-        True when the document matches its file (nothing unsaved).
-    current_changed(str)
-        The candidate the user selected (exports and reports act on it).
-    notice(str)
-        A short message for the status bar (a redesign that was not possible, ...).
+    Its signals are the notifications of :class:`bandsmith.app.document.model.Document`, with the
+    same names and arguments (described there), re-emitted on the GUI thread.
     """
 
     session_changed = QtCore.Signal(object)
