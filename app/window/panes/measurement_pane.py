@@ -419,8 +419,9 @@ class MeasurementPane(QtWidgets.QWidget):
             opamp = res.conditions.opamp if res is not None else None
             cand = Candidate(entry.topology_id, self.diagnosis.fitted_values)
             kw = {"opamp": opamp} if opamp is not None else {}
-            fit_h = transfer_function(cand.netlist, **kw).at_f(fine)[0]
-            at_m = transfer_function(cand.netlist, **kw).at_f(m.f_hz)[0]
+            fitted = transfer_function(cand.netlist, **kw)  # solved once, read at both grids
+            fit_h = fitted.at_f(fine)[0]
+            at_m = fitted.at_f(m.f_hz)[0]
             design = Candidate(entry.topology_id, entry.values)
             at_d = transfer_function(design.netlist, **kw).at_f(m.f_hz)[0]
             self.dev_design.setData(m.f_hz, m.mag_db - 20 * np.log10(np.abs(at_d)))
