@@ -424,20 +424,9 @@ def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, condi
 
 
 def _finish(plan, vin_v, res, attempts, conditions: Conditions, notes: tuple[str, ...] = ()) -> Stage:
+    # design() analyses every feasible result, with the conditions' op-amp when there is one
     an = res.analysis
-    if an is not None:
-        h_ideal, h_actual = an.h_ideal, an.h_actual
-    else:  # pragma: no cover - design() always analyses a feasible result
-        from bandsmith.analysis.analyzer import transfer_function
-
-        net = Candidate(res.topology_id, res.chosen).netlist
-        h_ideal = transfer_function(net)
-        h_actual = transfer_function(net, conditions.opamp) if conditions.opamp is not None else None
-    if conditions.opamp is not None and h_actual is None:
-        from bandsmith.analysis.analyzer import transfer_function
-
-        h_actual = transfer_function(Candidate(res.topology_id, res.chosen).netlist, conditions.opamp)
-    return Stage(plan, vin_v, res, attempts, True, None, h_ideal, h_actual, warnings=tuple(res.warnings) + tuple(notes))
+    return Stage(plan, vin_v, res, attempts, True, None, an.h_ideal, an.h_actual, warnings=tuple(res.warnings) + tuple(notes))
 
 
 def _stage_vin(settings: ChainSettings, conditions: Conditions, plan: CascadePlan, built: list[Stage], sec: SectionPlan) -> float:

@@ -33,20 +33,11 @@ from __future__ import annotations
 from typing import Mapping
 
 from bandsmith.circuits.synthesis import Exact, Spec
-from bandsmith.circuits.topology import Component, Topology
-from bandsmith.circuits.tow_thomas import loop_formulas, loop_synthesize
+from bandsmith.circuits.topology import Topology
+from bandsmith.circuits.tow_thomas import COMPONENTS, loop_formulas, loop_synthesize
 from bandsmith.solver.netlist import Element, Netlist
 
-COMPONENTS = (
-    Component("R1", "R", "input resistor; sets the centre gain (−R2/R1)"),
-    Component("R2", "R", "damping resistor across C1; sets Q (and bandwidth)"),
-    Component("R3", "R", "loop resistor from the inverter back to the first integrator; tunes f0"),
-    Component("R4", "R", "second integrator's resistor; tunes f0"),
-    Component("C1", "C", "first (lossy) integrator's capacitor"),
-    Component("C2", "C", "second integrator's capacitor"),
-    Component("R5", "R", "inverter's input resistor"),
-    Component("R6", "R", "inverter's feedback resistor (R6/R5 scales ω0²)"),
-)
+# the same parts and roles as the Tow–Thomas loop: only where the inverter's + input goes differs
 
 # A 4.5 kHz carrier pick-off for a power-line data probe (our own scenario): Q ≈ 30, gain ≈ −5.
 EXAMPLE = {"R1": 21e3, "R2": 105e3, "R3": 3.48e3, "R4": 3.48e3, "C1": 10e-9, "C2": 10e-9, "R5": 3.57e3, "R6": 3.48e3}

@@ -35,7 +35,7 @@ import math
 from typing import Mapping
 
 from bandsmith.solver.netlist import Element, Netlist
-from bandsmith.circuits.synthesis import Exact, Infeasible, Spec, choose_level, solve_pinned
+from bandsmith.circuits.synthesis import Exact, Infeasible, OverDetermined, Spec, choose_level, solve_pinned
 from bandsmith.circuits.topology import Component, IdealFormulas, Topology
 from bandsmith.common.values import format_value
 
@@ -129,9 +129,9 @@ def synthesize(spec: Spec, fixed: dict[str, float] | None = None, *, series: str
     guess = fixed.get("C1") or fixed.get("C2") or 10e-9
     try:
         th, used = solve_pinned([math.log(guess)] * 2, parts, fixed, [("equal capacitors", lambda th: th[0] - th[1])])
-    except Infeasible as exc:
-        if "over-determine" in exc.reason:
-            raise
+    except OverDetermined:
+        raise
+    except Infeasible:
         raise Infeasible(_gain_reason(spec, fixed)) from None
     c1 = fixed.get("C1", math.exp(th[0]))
     c2 = fixed.get("C2", math.exp(th[1]))

@@ -47,7 +47,7 @@ from typing import Mapping
 import numpy as np
 
 from bandsmith.solver.netlist import Element, Netlist
-from bandsmith.circuits.synthesis import Exact, Infeasible, Spec, choose_level, solve_pinned
+from bandsmith.circuits.synthesis import Exact, Infeasible, OverDetermined, Spec, choose_level, solve_pinned
 from bandsmith.circuits.topology import Component, IdealFormulas, Topology
 from bandsmith.common.values import format_value
 
@@ -213,9 +213,9 @@ def synthesize(spec: Spec, fixed: dict[str, float] | None = None, *, series: str
         k0 = k_pinned or best_gain_k(spec)
         try:
             th, used = solve_pinned([math.log(c_guess), 0.0, math.log(k0 - 1.0)], parts, pins, defaults, extra=extra)
-        except Infeasible as exc:
-            if "over-determine" in exc.reason:
-                raise Infeasible(exc.reason.replace("pin at most", "pin at most (RA with RB counting as one)")) from None
+        except OverDetermined as exc:
+            raise Infeasible(exc.reason.replace("pin at most", "pin at most (RA with RB counting as one)")) from None
+        except Infeasible:
             shown = ", ".join(f"{r} = {format_value(v, 'F' if r[0] == 'C' else 'Ω')}" for r, v in sorted(fixed.items()))
             raise Infeasible(f"no Sallen–Key design meets f0 {format_value(spec.f0_hz, 'Hz')}, Q {spec.q:.4g}, gain {spec.gain:.4g} with {shown}; pin other parts or fewer") from None
         c1 = pins.get("C1", math.exp(th[0]))

@@ -20,7 +20,7 @@ import math
 from dataclasses import dataclass
 from typing import Callable
 
-from bandsmith.circuits.synthesis import Exact, Infeasible, Spec, choose_level, solve_pinned
+from bandsmith.circuits.synthesis import Exact, Infeasible, OverDetermined, Spec, choose_level, solve_pinned
 from bandsmith.common.values import format_value
 
 __all__ = ["Pair", "synthesize_scaled"]
@@ -111,9 +111,9 @@ def synthesize_scaled(
         guess = pins.get("C1") or pins.get("C2") or 10e-9
         try:
             th, used = solve_pinned([math.log(guess)] * 2, parts, pins, [("equal capacitors", lambda th: th[0] - th[1])])
-        except Infeasible as exc:
-            if "over-determine" in exc.reason:
-                raise Infeasible(exc.reason + f" ({pair.low} and {pair.high} set only a ratio: pin them apart)") from None
+        except OverDetermined as exc:
+            raise Infeasible(exc.reason + f" ({pair.low} and {pair.high} set only a ratio: pin them apart)") from None
+        except Infeasible:
             shown = ", ".join(f"{k} = {format_value(v, 'F' if k[0] == 'C' else 'Ω')}" for k, v in sorted(pins.items()))
             raise Infeasible(
                 f"no {name} design meets f0 {format_value(spec.f0_hz, 'Hz')}, Q {spec.q:.4g}, gain "

@@ -23,6 +23,7 @@ from bandsmith.common.eseries import nearest_array, values_between
 __all__ = [
     "Spec",
     "Infeasible",
+    "OverDetermined",
     "Exact",
     "PREFERRED",
     "PRACTICAL",
@@ -102,6 +103,10 @@ class Infeasible(Exception):
     def __init__(self, reason: str):
         super().__init__(reason)
         self.reason = reason
+
+
+class OverDetermined(Infeasible):
+    """More pinned values than a circuit has free choices (:func:`solve_pinned`)."""
 
 
 class Exact(dict):
@@ -206,7 +211,7 @@ def solve_pinned(
     n = len(x0)
     need = n - len(pins) - len(extra)
     if need < 0:
-        raise Infeasible(f"{len(pins) + len(extra)} pinned values over-determine a circuit with {n} free choices; pin at most {n - len(extra)}")
+        raise OverDetermined(f"{len(pins) + len(extra)} pinned values over-determine a circuit with {n} free choices; pin at most {n - len(extra)}")
     refs = list(pins)
     target = np.log(np.array([pins[r] for r in refs], dtype=float))
 

@@ -60,7 +60,8 @@ class Topology:
     formulas : callable
         ``values -> IdealFormulas``, the textbook figures (a cross-check, never the measurement).
     synthesize : callable, optional
-        ``(target, fixed) -> dict`` of exact part values meeting a target (see ``bandsmith.design.designer``).
+        ``(target, fixed, *, series) -> dict`` of exact part values meeting a target, ``series``
+        the standard series the parts will be chosen from (see ``bandsmith.design.designer``).
     order : int
         Position in listings.
     notes : str

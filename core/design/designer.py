@@ -10,7 +10,6 @@ The standard-value search is in :mod:`bandsmith.design.standard`.
 
 from __future__ import annotations
 
-import functools
 import math
 from dataclasses import dataclass, field
 from typing import Mapping
@@ -196,16 +195,6 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
     return out
 
 
-@functools.lru_cache(maxsize=None)
-def _takes_series(fn) -> bool:
-    import inspect
-
-    try:
-        return "series" in inspect.signature(fn).parameters
-    except (TypeError, ValueError):
-        return False
-
-
 def _infeasible(topo: Topology, spec: Spec, series: str, reason: str, fixed, conditions, exact=None, notes=()) -> DesignResult:
     return DesignResult(
         topology_id=topo.id,
@@ -271,7 +260,7 @@ def design(
     if topo.synthesize is None:
         return _infeasible(topo, spec, series, f"{topo.title} has no design procedure yet; enter its parts by hand", pins, conditions)
     try:
-        exact = _synthesize(topo, spec, pins, series)
+        exact = topo.synthesize(spec, pins, series=series)
     except Infeasible as exc:
         return _infeasible(topo, spec, series, exc.reason, pins, conditions)
     notes = tuple(getattr(exact, "notes", ()))
@@ -307,13 +296,6 @@ _NO_STANDARD = (
     "no combination of {series} values near the exact design gives a stable band-pass near the target; "
     "use a finer series (the exact values are given)"
 )
-
-
-def _synthesize(topo, spec: Spec, pins: dict, series: str):
-    """The circuit's exact design; raises :class:`Infeasible`."""
-    if _takes_series(topo.synthesize):
-        return topo.synthesize(spec, pins, series=series)
-    return topo.synthesize(spec, pins)  # a design procedure that ignores the series: (spec, fixed) only
 
 
 def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analysis, notes, pins, conditions: Conditions, choice) -> DesignResult:
