@@ -12,7 +12,6 @@ and how to get it, instead of hanging on an invisible window or aborting inside 
 
 from __future__ import annotations
 
-import ctypes
 import os
 import sys
 
@@ -43,6 +42,8 @@ _XCB_LIBRARIES = {
 
 def _missing_libraries(names: dict[str, str]) -> list[str]:
     """Debian packages of the libraries in ``names`` that the dynamic loader cannot find."""
+    import ctypes  # here: only the window's start needs it
+
     missing = []
     for soname, package in names.items():
         try:

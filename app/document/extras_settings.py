@@ -65,7 +65,7 @@ def stored_spread(session: Session) -> Stored:
 
 def stored_noise(session: Session) -> Stored:
     """The session's :class:`NoiseSettings` (``extras["noise"]``), or the defaults."""
-    from bandsmith.analysis.noise import NoiseSettings  # imported when asked: it pulls in scipy.constants
+    from bandsmith.analysis.noise import NoiseSettings  # imported when asked: the noise analysis is not needed to open a session
 
     return _stored(session, NOISE_KEY, NoiseSettings)
 

@@ -17,10 +17,11 @@ import numpy as np
 import pyqtgraph as pg
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from bandsmith.chain.cascade import Cascade, ChainSettings
+from bandsmith.chain.cascade import Cascade
 from bandsmith.common.values import format_value
 
 from bandsmith.app.plots.axes import LogAxis
+from bandsmith.app.plots.chain_text import plot_frequencies, response_title
 from bandsmith.app.plots.palette import INK, apply_plot_theme, candidate_style
 
 __all__ = ["ChainPlots", "plot_frequencies", "response_title"]
@@ -28,23 +29,6 @@ __all__ = ["ChainPlots", "plot_frequencies", "response_title"]
 _REFERENCE_PEN = pg.mkPen("#6b7079", width=1.6, style=QtCore.Qt.PenStyle.DashLine)
 _EDGE_PEN = pg.mkPen("#9aa0a6", width=1, style=QtCore.Qt.PenStyle.DotLine)
 _PLANNED_PEN = pg.mkPen("#9aa0a6", width=1.4, style=QtCore.Qt.PenStyle.DashLine)
-_RESPONSE_TITLES = {"butterworth": "Butterworth", "chebyshev": "Chebyshev", "bessel": "Bessel"}
-
-
-def response_title(settings: ChainSettings) -> str:
-    """"Butterworth", or "Chebyshev 0.5 dB"."""
-    name = _RESPONSE_TITLES.get(settings.response, settings.response)
-    return f"{name} {settings.ripple_db:g} dB" if settings.ripple_db is not None else name
-
-
-def plot_frequencies(settings: ChainSettings, q_max: float) -> np.ndarray:
-    """Log-spaced frequencies (Hz) the pane draws: the band and its skirts, dense enough for the
-    sharpest stage (about 60 points per unit of ln f per unit of Q)."""
-    band = settings.band
-    k = min(max((band.f_high_hz / band.f_low_hz) ** 3, 2.0), 30.0)
-    span = 2.0 * math.log(k)
-    n = int(min(max(1200, span * 60.0 * max(q_max, 1.0)), 20000))
-    return np.geomspace(band.f0_hz / k, band.f0_hz * k, n)
 
 
 def _round_down(x: float) -> float:
@@ -196,6 +180,7 @@ class ChainPlots(pg.GraphicsLayoutWidget):
         stage_h = result.stage_responses(f)
         has_amp = result.conditions.gbw_hz is not None
         self._entries(built=result.feasible, with_amp=has_amp)
+        built_db = act_db = None  # the built chain's curves, worked out once for the lines and the ranges
         if result.feasible:
             built_db = _db(np.prod(stage_h, axis=0))
             self.built_curve.setData(f, built_db)
@@ -230,9 +215,9 @@ class ChainPlots(pg.GraphicsLayoutWidget):
         self.stages.setYRange(stage_peak - 45.0, stage_peak + 4.0, padding=0.0)
         if result.feasible:
             band = (f >= s.f_low_hz / 1.05) & (f <= s.f_high_hz * 1.05)
-            dev = np.abs((_db(np.prod(stage_h, axis=0)) - ref_db)[band])
-            if has_amp:
-                dev = np.concatenate([dev, np.abs((_db(result.response(f, actual=True)) - ref_db)[band])])
+            dev = np.abs((built_db - ref_db)[band])
+            if act_db is not None:
+                dev = np.concatenate([dev, np.abs((act_db - ref_db)[band])])
             span = max(0.5, 1.3 * float(np.nanmax(dev)) if dev.size else 0.5)
         else:
             span = 1.0

@@ -32,7 +32,7 @@ from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_rkm, format_value
 
 from bandsmith.app.document.extras_chains import EXTRAS_KEY, chain_conditions, saved_chains
-from bandsmith.app.plots.chain_plots import ChainPlots, response_title
+from bandsmith.app.plots.chain_text import response_title
 from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.report.cells import gbw_cell, html_table, png_img, signed, slew_text
 from bandsmith.app.report.context import ReportContext
@@ -48,6 +48,7 @@ def chain_plot_png(result: Cascade, *, width: int = 900, height: int | None = No
     """PNG bytes of a chain's plots (as the pane draws them), ``width`` × ``height`` CSS pixels."""
     from PySide6 import QtCore
 
+    from bandsmith.app.plots.chain_plots import ChainPlots  # Qt: only when a plot is drawn
     from bandsmith.app.plots.render import ensure_qt_app, image_png, paint_widget
 
     ensure_qt_app()

@@ -37,7 +37,7 @@ from bandsmith.design.candidate import Conditions
 from bandsmith.files.session import Session
 
 from bandsmith.app.document.extras_chains import EXTRAS_KEY, chain_conditions, saved_chains
-from bandsmith.app.plots.chain_plots import response_title
+from bandsmith.app.plots.chain_text import response_title
 from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.chain_controller import ChainController
 from bandsmith.app.window.panes.chain_form import ChainForm

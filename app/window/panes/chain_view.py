@@ -19,7 +19,8 @@ from bandsmith.chain.cascade import AUTO, Cascade, circuit_choices
 from bandsmith.circuits import get_topology
 from bandsmith.common.values import format_value
 
-from bandsmith.app.plots.chain_plots import ChainPlots, response_title
+from bandsmith.app.plots.chain_plots import ChainPlots
+from bandsmith.app.plots.chain_text import response_title
 from bandsmith.app.window.theme import BAD, GOOD, MUTED, WARN, candidate_style
 
 __all__ = ["ChainView", "summary_html", "stage_detail_html", "first_clause"]
