@@ -23,7 +23,6 @@ table, each column) shares one computation. :func:`comparison_of` hands out one 
 
 from __future__ import annotations
 
-import math
 import weakref
 from collections import OrderedDict
 from dataclasses import dataclass
@@ -39,6 +38,7 @@ from bandsmith.files.session import CandidateEntry, Session
 from bandsmith.verdict import Verdict, VerdictLimits, judge, rank
 
 from bandsmith.app.document.extras_settings import Stored
+from bandsmith.app.document.results import target_errors
 
 __all__ = [
     "LIMITS_KEY",
@@ -198,15 +198,10 @@ def design_notes(session: Session, entry: CandidateEntry) -> tuple[str, ...]:
 
 
 def _figure_errors(session: Session, analysis: Analysis) -> tuple[dict, dict]:
-    fig = analysis.actual if analysis.actual is not None else analysis.ideal
-    e = errors_of(fig, _spec(session))
-    tol = session.tolerances
-    ok = {
-        "f0_pct": bool(math.isfinite(e["f0_pct"]) and abs(e["f0_pct"]) <= 100.0 * tol.f0),
-        "q_pct": bool(math.isfinite(e["q_pct"]) and abs(e["q_pct"]) <= 100.0 * tol.q),
-        "gain_db": bool(math.isfinite(e["gain_db"]) and abs(e["gain_db"]) <= tol.gain_db),
-    }
-    return e, ok
+    """The errors against the target and whether each is within tolerance (the column's own)."""
+    t = target_errors(analysis.actual if analysis.actual is not None else analysis.ideal, session.target, session.tolerances)
+    return ({"f0_pct": t.f0_pct, "q_pct": t.q_pct, "gain_db": t.gain_db},
+            {"f0_pct": t.f0_ok, "q_pct": t.q_ok, "gain_db": t.gain_ok})
 
 
 AnalysisOf = Callable[[CandidateEntry], "tuple[Analysis | None, str | None]"]
@@ -322,9 +317,7 @@ def cache_of(document) -> ComparisonCache:
 def comparison_of(document) -> SessionComparison:
     """The comparison of a :class:`bandsmith.app.document.model.Document`'s present session, from
     the analyses it already made (one cache per document)."""
-    cache = _PER_DOCUMENT.get(document)
-    if cache is None:
-        cache = _PER_DOCUMENT[document] = ComparisonCache()
+    cache = cache_of(document)
 
     def analysis_of(entry: CandidateEntry):
         res = document.result(entry.id)

@@ -14,7 +14,6 @@ imports Qt, so the document and its history are tested without a display.
 
 from __future__ import annotations
 
-import math
 from dataclasses import replace
 from typing import Mapping
 
@@ -24,12 +23,12 @@ from bandsmith.common.eseries import nearest
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 from bandsmith.design.candidate import Candidate
-from bandsmith.files.session import CandidateEntry, Session, Target
+from bandsmith.files.session import CandidateEntry, Session
 
 from bandsmith.app.document.history import Callbacks, Edit, History
 from bandsmith.app.document.results import CandidateResult, ResultCache
 
-__all__ = ["Document", "entry_kind", "target_from_bandwidth"]
+__all__ = ["Document", "entry_kind"]
 
 
 class Document:
@@ -362,10 +361,3 @@ def entry_kind(entry: CandidateEntry, ref: str) -> str:
     from bandsmith.circuits import get_topology
 
     return get_topology(entry.topology_id).component(ref).kind
-
-
-def target_from_bandwidth(target: Target, bw_hz: float) -> float:
-    """Q for a bandwidth (Hz) at the target's f0 (Q = f0 / bandwidth)."""
-    if not (math.isfinite(bw_hz) and bw_hz > 0):
-        raise InputError("bandwidth", "must be a finite number above zero")
-    return target.f0_hz / bw_hz

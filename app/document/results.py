@@ -162,17 +162,18 @@ class TargetErrors:
 
 
 def target_errors(fig: Figures, target, tolerances) -> TargetErrors:
-    """Errors of figures (scalars, see :meth:`Figures.item`) against a :class:`bandsmith.files.session.Target`."""
-    f0 = fig.f0_hz / target.f0_hz - 1.0
-    q = fig.q / target.q - 1.0
-    g = fig.gain_center_db - 20.0 * math.log10(target.gain)
+    """Errors of figures against a :class:`bandsmith.files.session.Target` (the core's
+    :func:`bandsmith.design.standard.errors_of`), each judged against the session's tolerances."""
+    from bandsmith.design.standard import errors_of
+
+    e = errors_of(fig, target)
     return TargetErrors(
-        f0_pct=100.0 * f0,
-        q_pct=100.0 * q,
-        gain_db=g,
-        f0_ok=bool(abs(f0) <= tolerances.f0),
-        q_ok=bool(abs(q) <= tolerances.q),
-        gain_ok=bool(abs(g) <= tolerances.gain_db),
+        f0_pct=e["f0_pct"],
+        q_pct=e["q_pct"],
+        gain_db=e["gain_db"],
+        f0_ok=bool(abs(e["f0_pct"]) <= 100.0 * tolerances.f0),
+        q_ok=bool(abs(e["q_pct"]) <= 100.0 * tolerances.q),
+        gain_ok=bool(abs(e["gain_db"]) <= tolerances.gain_db),
     )
 
 

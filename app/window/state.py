@@ -15,14 +15,14 @@ from typing import Mapping
 
 from PySide6 import QtCore
 
-from bandsmith.files.session import OpAmpSpec, Session
+from bandsmith.files.session import Session
 
-from bandsmith.app.document.model import Document, entry_kind, target_from_bandwidth
+from bandsmith.app.document.model import Document
 from bandsmith.app.document.results import CandidateResult
 from bandsmith.app.window.commands import UndoStack
 from bandsmith.app.window.theme import CandidateStyle, candidate_style
 
-__all__ = ["WorkbenchState", "entry_kind", "target_from_bandwidth", "OpAmpSpec"]
+__all__ = ["WorkbenchState"]
 
 
 class WorkbenchState(QtCore.QObject):

@@ -14,7 +14,6 @@ The pane is added to the window by :func:`install` (one call in the main window)
 
 from __future__ import annotations
 
-from dataclasses import replace
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -300,11 +299,8 @@ class MeasurementPane(QtWidgets.QWidget):
 
     def remove(self) -> None:
         """Take the measurement out of the session (undoable)."""
-        s = self.state.session
-        if EXTRAS_KEY not in s.extras:
-            return
-        extras = {k: v for k, v in s.extras.items() if k != EXTRAS_KEY}
-        self.state.edit(replace(s, extras=extras), "remove measurement")
+        if EXTRAS_KEY in self.state.session.extras:
+            self.state.set_extra(EXTRAS_KEY, None, "remove measurement")
 
     def _on_candidate_chosen(self, cid: str) -> None:
         if cid and self.measurement is not None:

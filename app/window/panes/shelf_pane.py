@@ -659,9 +659,7 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
     def _on_supply_committed(self, value: float) -> None:
         sec = self._section()
         sec["supply_v"] = float(value)
-        extras = dict(self.state.session.extras)
-        extras[SESSION_KEY] = sec
-        self.state.edit(replace(self.state.session, extras=extras), f"supply ±{value:g} V")
+        self.state.set_extra(SESSION_KEY, sec, f"supply ±{value:g} V")
 
     def copy_to_session(self) -> None:
         """Keep the chosen model in the session (its figures copied), as chosen for the candidate."""
@@ -676,9 +674,7 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
         chosen[cid] = amp.name
         sec["chosen"] = chosen
         sec.setdefault("supply_v", self.supply_v)
-        extras = dict(self.state.session.extras)
-        extras[SESSION_KEY] = sec
-        self.state.edit(replace(self.state.session, extras=extras), f"{cid}: op-amp {amp.name}")
+        self.state.set_extra(SESSION_KEY, sec, f"{cid}: op-amp {amp.name}")
 
 
 def install(window) -> ShelfPane:
