@@ -110,8 +110,11 @@ def print_compare(out: dict) -> None:
     def fig(key, unit="", digits=5):
         return [_v(shown(c)[key], unit, digits) if shown(c) else "—" for c in cands]
 
+    def shown_errors(c):  # the candidate's own errors against the target, with the op-amp shown
+        return c.get("errors_actual") if gbw is not None and c.get("actual") else c.get("errors")
+
     def err(key, unit="%"):
-        return [signed_error(_errors(shown(c), spec)[key], unit) if shown(c) else "—" for c in cands]
+        return [signed_error(shown_errors(c)[key], unit) if shown_errors(c) else "—" for c in cands]
 
     def req(key, unit="", scale=1.0):
         return [_v(c["requirements"][key] * scale if c["requirements"] and c["requirements"][key] is not None else None, unit) for c in cands]
@@ -142,19 +145,6 @@ def print_compare(out: dict) -> None:
             print(f"{c['topology']}:")
             for line in lines:
                 print(f"  - {line}")
-
-
-def _errors(fig: dict, spec: dict) -> dict:
-    """``f0_pct``, ``q_pct``, ``gain_db`` of a FIGURES object against the target."""
-    def pct(x, ref):
-        return None if x is None else 100.0 * (x / ref - 1.0)
-
-    g = fig.get("gain_center_db")
-    return {
-        "f0_pct": pct(fig.get("f0_hz"), spec["f0_hz"]),
-        "q_pct": pct(fig.get("q"), spec["q"]),
-        "gain_db": None if g is None else g - 20.0 * math.log10(spec["gain"]),
-    }
 
 
 def _print_verdicts(out: dict) -> None:
