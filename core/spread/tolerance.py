@@ -249,7 +249,7 @@ def run_spread(
         values = {v.name: kept[:, j] * v.value for j, v in enumerate(parts)}
         if not opamp.ideal:
             values["gbw"] = kept[:, -1] * opamp.gbw_hz
-    worst = worst_of(ev, tol, parts, settings.gbw_tol if not opamp.ideal else 0.0, opamp)
+    worst = worst_of(ev, tol, parts, settings.gbw_tol)  # setup_spread refused a spread GBW of an ideal op-amp
     return Spread(
         settings=settings,
         tolerances=MappingProxyType(tol),

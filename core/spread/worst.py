@@ -58,7 +58,7 @@ class WorstCase:
         }
 
 
-def worst_of(ev: Evaluator, tol: Mapping[str, float], parts: list[Variable], gbw_tol: float, opamp: OpAmpModel) -> WorstCase:
+def worst_of(ev: Evaluator, tol: Mapping[str, float], parts: list[Variable], gbw_tol: float) -> WorstCase:
     names = [v.name for v in parts if tol[v.name] > 0]
     p = [tol[nm] for nm in names]
     if gbw_tol > 0:
@@ -115,4 +115,4 @@ def worst_case(netlist: Netlist, settings: SpreadSettings = SpreadSettings(), *,
     tol, parts, _ = setup_spread(netlist, settings, opamp)
     w_ref = reference_w(build_system(netlist))
     ev = Evaluator(netlist, opamp, w_ref, nominal_figures(netlist, opamp, w_ref), engine)
-    return worst_of(ev, tol, parts, settings.gbw_tol if not opamp.ideal else 0.0, opamp)
+    return worst_of(ev, tol, parts, settings.gbw_tol)  # setup_spread refused a spread GBW of an ideal op-amp
