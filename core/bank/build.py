@@ -124,28 +124,30 @@ def capacitor_refs(circuit: str) -> tuple[str, ...]:
     return tuple(c.ref for c in get_topology(circuit).components if c.kind == "C" and c.required)
 
 
-def _best(spec: Spec, series: str, conditions: Conditions) -> tuple[str, str]:
-    """The best-ranked feasible circuit for ``spec`` and why."""
+def _best(spec: Spec, series: str, conditions: Conditions) -> tuple[DesignResult, str]:
+    """The design of the best-ranked feasible circuit for ``spec`` and why."""
     comp = compare_verdicts(spec, series=series, conditions=conditions)
-    if comp.recommended is not None:
-        return comp.recommended, comp.ranking.reason
     for res, verdict, _rank in comp.ranked():
+        if comp.recommended is not None:
+            return res, comp.ranking.reason  # ranked first: the recommended one
         if res.feasible:
-            return res.topology_id, f"no circuit is buildable for it ({comp.ranking.reason}); {res.topology_id} is the best-ranked that can be designed"
+            return res, f"no circuit is buildable for it ({comp.ranking.reason}); {res.topology_id} is the best-ranked that can be designed"
     raise InputError("circuit", f"no circuit can be designed for a channel at {spec.f0_hz:.6g} Hz, Q {spec.q:.4g}, gain {spec.gain:.4g}")
 
 
-def _circuits(specs: Sequence[Spec], circuit: str, series: str, conditions: Conditions) -> tuple[list[str], str]:
+def _circuits(specs: Sequence[Spec], circuit: str, series: str, conditions: Conditions) -> tuple[list[str], str, dict[int, DesignResult]]:
+    """Each channel's circuit, why, and the channels' designs the choice already made (by index)."""
     if circuit == AUTO:
         worst = max(range(len(specs)), key=lambda i: specs[i].f0_hz * specs[i].q)
-        cid, why = _best(specs[worst], series, conditions)
-        return [cid] * len(specs), f"chosen by the verdicts for the hardest channel ({specs[worst].f0_hz:.6g} Hz): {why}"
+        res, why = _best(specs[worst], series, conditions)
+        return [res.topology_id] * len(specs), f"chosen by the verdicts for the hardest channel ({specs[worst].f0_hz:.6g} Hz): {why}", {worst: res}
     if circuit == PER_CHANNEL:
-        return [_best(s, series, conditions)[0] for s in specs], "chosen by the verdicts for each channel"
+        made = {i: _best(s, series, conditions)[0] for i, s in enumerate(specs)}
+        return [made[i].topology_id for i in range(len(specs))], "chosen by the verdicts for each channel", made
     topo = get_topology(circuit)  # InputError for an unknown id
     if topo.synthesize is None:
         raise InputError("circuit", f"{topo.id} has no design procedure; choose another circuit")
-    return [topo.id] * len(specs), "given"
+    return [topo.id] * len(specs), "given", {}
 
 
 def _feasible_or_raise(res: DesignResult, i: int) -> DesignResult:
@@ -202,8 +204,8 @@ def design_bank(
         raise InputError("centres", f"a bank has 1 to {MAX_CHANNELS} channels, this one would have {f.size}")
     qs = np.broadcast_to(np.asarray(q, dtype=float), f.shape)
     specs = [Spec(float(fi), float(qi), float(gain)) for fi, qi in zip(f, qs)]
-    circuits, why = _circuits(specs, circuit, series, conditions)
-    alone = [_feasible_or_raise(design(c, s, series=series, conditions=conditions), i) for i, (c, s) in enumerate(zip(circuits, specs))]
+    circuits, why, made = _circuits(specs, circuit, series, conditions)
+    alone = [_feasible_or_raise(made.get(i) or design(c, s, series=series, conditions=conditions), i) for i, (c, s) in enumerate(zip(circuits, specs))]
 
     # The standard-value search weighs the centre gain as if held to GAIN_WEIGHT_DB (uniform gain
     # across the bank); the analyses keep the caller's conditions.
