@@ -32,6 +32,7 @@ from bandsmith.common.eseries import SERIES_NAMES
 from bandsmith.common.values import format_value
 
 from bandsmith.app.window.background import BackgroundJob
+from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.theme import BAD
 
 __all__ = ["BankPane", "install"]
@@ -40,7 +41,7 @@ _RULE, _LIST = "rule", "list"
 _HEADER = ["ch", "label", "target f0", "f0", "Q", "gain dB", "iso below dB", "iso above dB", "circuit"]
 
 
-class BankPane(QtWidgets.QWidget):
+class BankPane(RecomputeWhenShown, QtWidgets.QWidget):
     """The filter-bank pane over a workbench state.
 
     Parameters
@@ -59,8 +60,7 @@ class BankPane(QtWidgets.QWidget):
         self._shown_extra = object()
         self.shown: dict | None = None  # the bank --json object on show
         self._build()
-        state.session_changed.connect(self._on_session)
-        self._on_session(state.session)
+        state.session_changed.connect(lambda _s: self.mark_dirty(now=True))  # shown when the tab is (a kept bank is re-measured)
 
     # ------------------------------------------------------------------ layout
     def _build(self) -> None:
@@ -187,7 +187,10 @@ class BankPane(QtWidgets.QWidget):
         self.state.set_extra(EXTRAS_KEY, [record], f"Design a filter bank of {len(report.result.channels)} channels")
 
     # ------------------------------------------------------------------ showing
-    def _on_session(self, session) -> None:
+    def refresh(self) -> None:
+        """Show the session's bank (the first kept), if it changed."""
+        self._dirty = False
+        session = self.state.session
         raw = session.extras.get(EXTRAS_KEY)
         if raw == self._shown_extra:
             return

@@ -38,6 +38,7 @@ from bandsmith.files.session import Session
 
 from bandsmith.app.document.extras_chains import EXTRAS_KEY, chain_conditions, saved_chains
 from bandsmith.app.plots.chain_text import response_title
+from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.chain_controller import ChainController
 from bandsmith.app.window.panes.chain_form import ChainForm
@@ -54,7 +55,7 @@ _FORM_FIELDS = (
 )
 
 
-class ChainPane(QtWidgets.QWidget):
+class ChainPane(RecomputeWhenShown, QtWidgets.QWidget):
     """The stage-chain pane over a workbench state.
 
     Parameters
@@ -108,6 +109,7 @@ class ChainPane(QtWidgets.QWidget):
         state.session_changed.connect(self._on_session_signal)
         self.form.load_defaults(state.session)
         self._on_session_changed(state.session)
+        self._dirty = False
 
     # ------------------------------------------------------------------ building
     def _build_header(self) -> QtWidgets.QHBoxLayout:
@@ -350,22 +352,15 @@ class ChainPane(QtWidgets.QWidget):
             self.prompter.error(self, "Export failed", str(exc))
 
     # ------------------------------------------------------------------ following the session
-    _follow_when_shown = False
-
     def _on_session_signal(self, session: Session) -> None:
         """The form follows the target at once; a hidden pane refills its chains when it is next
         shown, so a part edit elsewhere costs it nothing."""
-        if self.isVisible():
-            self._on_session_changed(session)
-        else:
-            self._follow_target(session)
-            self._follow_when_shown = True
+        self._follow_target(session)
+        self.mark_dirty(now=True)
 
-    def showEvent(self, event) -> None:  # noqa: N802 - Qt's name
-        super().showEvent(event)
-        if self._follow_when_shown:
-            self._follow_when_shown = False
-            self._on_session_changed(self.state.session)
+    def refresh(self) -> None:
+        self._dirty = False
+        self._on_session_changed(self.state.session)
 
     def _follow_target(self, session: Session) -> None:
         """The "New chain" form follows the target: a new f0, Q, gain or series is put in it."""

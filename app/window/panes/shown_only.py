@@ -14,10 +14,16 @@ class RecomputeWhenShown:
 
     _dirty = True
 
-    def mark_dirty(self) -> None:
+    def mark_dirty(self, *, now: bool = False) -> None:
+        """Something the pane shows changed. A visible pane refreshes on the next turn of the event
+        loop (several changes in one turn cost one refresh), or at once with ``now`` (a change the
+        user expects to see in the same step, as an undo); a hidden one when it is next shown."""
         self._dirty = True
         if self.isVisible():
-            QtCore.QTimer.singleShot(0, self._refresh_if_dirty)
+            if now:
+                self.refresh()
+            else:
+                QtCore.QTimer.singleShot(0, self._refresh_if_dirty)
 
     def _refresh_if_dirty(self) -> None:
         if self._dirty and self.isVisible():
