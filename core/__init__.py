@@ -12,7 +12,7 @@ measurement, checks op-amps, and opens and saves sessions::
 Every function takes its options by keyword, in SI units (or text such as ``"4k7"``), and returns a
 frozen result whose ``to_json()`` is the object the matching ``bandsmith`` command prints with
 ``--json``. The functions live in :mod:`bandsmith.api`, which imports what each job needs only
-when it runs, so importing a sub-package (``bandsmith.solver``, say) stays light. The core is pure Python over numpy and
+when it runs; importing the package or a sub-package (``bandsmith.solver``, say) does not load it. The core is pure Python over numpy and
 scipy; it never imports Qt.
 """
 
@@ -22,9 +22,44 @@ from bandsmith.solver.blas_threads import one_blas_thread
 
 one_blas_thread()  # before numpy loads BLAS, where possible: the core's matrices are all small
 
-# The list lives with the functions (bandsmith.api imports only the errors module when loaded);
-# each name is fetched from there on first use.
-from bandsmith.api import __all__  # noqa: E402
+# The public API: each name is fetched from bandsmith.api on first use, so that importing the
+# package or a sub-package (bandsmith.solver, say) does not load every layer's entry points.
+__all__ = [
+    "list_circuits",
+    "design_circuit",
+    "compare",
+    "analyze",
+    "analyze_session",
+    "sweep",
+    "tolerance",
+    "noise",
+    "cascade",
+    "fit",
+    "check_opamps",
+    "open_session",
+    "save_session",
+    "parse_value",
+    "format_value",
+    "CircuitList",
+    "DesignReport",
+    "ComparisonReport",
+    "AnalysisReport",
+    "SessionAnalysisReport",
+    "SweepReport",
+    "ToleranceReport",
+    "NoiseReport",
+    "CascadeReport",
+    "MeasurementFitReport",
+    "OpAmpCheckReport",
+    "InputError",
+    "filter_bank",
+    "BankReport",
+    "bias",
+    "trim",
+    "burst",
+    "burst_cascade",
+    "BurstReport",
+]
 
 
 def __getattr__(name: str):

@@ -44,42 +44,9 @@ if TYPE_CHECKING:  # pragma: no cover - annotations only
     from bandsmith.solver.netlist import Netlist
     from bandsmith.spread.tolerance import Spread, SpreadSettings
 
-__all__ = [
-    "list_circuits",
-    "design_circuit",
-    "compare",
-    "analyze",
-    "analyze_session",
-    "sweep",
-    "tolerance",
-    "noise",
-    "cascade",
-    "fit",
-    "check_opamps",
-    "open_session",
-    "save_session",
-    "parse_value",
-    "format_value",
-    "CircuitList",
-    "DesignReport",
-    "ComparisonReport",
-    "AnalysisReport",
-    "SessionAnalysisReport",
-    "SweepReport",
-    "ToleranceReport",
-    "NoiseReport",
-    "CascadeReport",
-    "MeasurementFitReport",
-    "OpAmpCheckReport",
-    "InputError",
-    "filter_bank",
-    "BankReport",
-    "bias",
-    "trim",
-    "burst",
-    "burst_cascade",
-    "BurstReport",
-]
+# The public names are listed with the package (bandsmith/__init__.py), which loads this module
+# only when one of them is first used.
+from bandsmith import __all__  # noqa: E402,F401
 
 Value = float | str
 
