@@ -1660,8 +1660,6 @@ def bias(
         bias_current_a=parse_value(bias_current_a, field="ibias"), corner_ratio=float(corner_ratio),
     )
     biased = bias_circuit(cand.netlist, settings)
-    from dataclasses import replace as _replace
-
     from bandsmith.board.physics import board_physics
 
     physics = board_physics(
@@ -1671,7 +1669,7 @@ def bias(
         tempco={str(k): parse_value(t, field=f"tc {k}") for k, t in (tempco or {}).items()},
         rated_v=_positive(rated_v, "rated"),
     )
-    return _replace(biased, physics=physics)
+    return replace(biased, physics=physics)
 
 
 def trim(
@@ -1736,7 +1734,7 @@ def trim(
         return with_monte_carlo(
             cand.netlist, plan, trials=trials, window=_positive_fraction(window, "window"), seed=seed,
             t_range=_temp_range(temp_range_c),
-            tempco={str(k): _number_of(t, f"tc {k}") for k, t in (tempco or {}).items()},
+            tempco={str(k): parse_value(t, field=f"tc {k}") for k, t in (tempco or {}).items()},
         )
     return plan
 
@@ -1750,12 +1748,6 @@ def _temp_range(t: "Sequence[Value] | None") -> "tuple[float, float] | None":
         raise InputError("temp-range", f"give two temperatures in °C, got {len(t)}")
     lo, hi = sorted(parse_value(x, field="temp-range") for x in t)
     return lo, hi
-
-
-def _number_of(v: Value, field: str) -> float:
-    from bandsmith.common.values import parse_value
-
-    return parse_value(v, field=field)
 
 
 # --------------------------------------------------------------------------------------------

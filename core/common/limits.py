@@ -35,6 +35,7 @@ import math
 import re
 
 from bandsmith.common.errors import InputError
+from bandsmith.common.units import PART_UNITS
 
 __all__ = [
     "ID_PATTERN",
@@ -88,7 +89,6 @@ NOISE_DENSITY_MAX = 1e-3
 MAG_DB_RANGE = (-400.0, 400.0)
 VIN_RANGE_V = (1e-9, 1e6)
 RIPPLE_DB_MIN = 1e-3
-_UNITS = {"R": "Ω", "C": "F", "L": "H"}
 
 
 def check_range(field: str, x: float, lo: float, hi: float, unit: str = "") -> float:
@@ -108,7 +108,7 @@ def check_range(field: str, x: float, lo: float, hi: float, unit: str = "") -> f
 def check_part_value(field: str, kind: str, x: float) -> float:
     """Check a part value of kind ``R``, ``C`` or ``L`` against :data:`PART_RANGES`."""
     lo, hi = PART_RANGES[kind]
-    return check_range(field, x, lo, hi, _UNITS[kind])
+    return check_range(field, x, lo, hi, PART_UNITS[kind])
 
 
 MAX_CANDIDATES = 100
