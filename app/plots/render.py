@@ -51,11 +51,6 @@ def ensure_qt_app() -> QtWidgets.QApplication:
     return QtWidgets.QApplication(sys.argv[:1] or ["bandsmith"])
 
 
-def _pen(index: int, width: float):
-    st = candidate_style(index)
-    return pg.mkPen(QtGui.QColor(st.colour), width=width, style=st.pen_style)
-
-
 class PlotImageWidget(pg.GraphicsLayoutWidget):
     """A plot with its legend in a row of its own underneath, so the legend never hides a curve."""
 
@@ -102,7 +97,7 @@ def build_plot_widget(plot: PlotData, *, width: int = 900, height: int = 380, li
     legend = pg.LegendItem(colCount=max(1, min(len(plot.curves), 5)), labelTextColor=INK, labelTextSize="9pt", horSpacing=24, verSpacing=-4)
     legend.layout.setContentsMargins(40, 0, 0, 0)
     for c in plot.curves:
-        curve = item.plot(c.x, _finite(c), pen=_pen(c.index, line_width), connect="finite")
+        curve = item.plot(c.x, _finite(c), pen=candidate_style(c.index).pen(line_width), connect="finite")
         curve.opts["name"] = c.label
         legend.addItem(curve, c.label)
     guide_pen = pg.mkPen("#7d8590", width=max(1.0, line_width / 2), style=QtCore.Qt.PenStyle.DashLine)
