@@ -46,21 +46,14 @@ PLOT_ASPECT = 0.78  # height / width of the chain's plot image
 @on_gui_thread
 def chain_plot_png(result: Cascade, *, width: int = 900, height: int | None = None, scale: float = 2.0) -> bytes:
     """PNG bytes of a chain's plots (as the pane draws them), ``width`` × ``height`` CSS pixels."""
-    from PySide6 import QtCore
-
     from bandsmith.app.plots.chain_plots import ChainPlots  # Qt: only when a plot is drawn
-    from bandsmith.app.plots.render import ensure_qt_app, image_png, paint_widget
+    from bandsmith.app.plots.render import ensure_qt_app, widget_png
 
     ensure_qt_app()
     w = ChainPlots(line_scale=scale)
-    w.setAttribute(QtCore.Qt.WidgetAttribute.WA_DontShowOnScreen, True)
     w.resize(width, height if height is not None else round(width * PLOT_ASPECT))
-    try:
-        w.show_cascade(result)
-        return image_png(paint_widget(w, scale=scale))
-    finally:
-        w.close()
-        w.deleteLater()
+    w.show_cascade(result)
+    return widget_png(w, scale=scale)
 
 
 def _request_table(chain: Chain) -> str:

@@ -110,12 +110,8 @@ def measured_plot_pngs(m: Measurement, c: CandidateReport, fitted_values=None, *
     import pyqtgraph as pg
 
     from bandsmith.app.plots.curves import Curve, PlotData
-    from bandsmith.app.plots.render import build_plot_widget, ensure_qt_app, image_png, paint_widget
-
     from bandsmith.app.plots.palette import candidate_style
-
-    def candidate_colour(index: int) -> str:
-        return candidate_style(index).colour
+    from bandsmith.app.plots.render import build_plot_widget, ensure_qt_app, widget_png
 
     ensure_qt_app()
     cur = _curves(m, c, fitted_values)
@@ -139,34 +135,30 @@ def measured_plot_pngs(m: Measurement, c: CandidateReport, fitted_values=None, *
         # An image without its legend row is that much lower, so the plots keep one size.
         h = height if key == keys[-1] else max(120, height - _LEGEND_ROW_PX)
         w = build_plot_widget(plot, width=width, height=h, line_width=2.0 * scale)
-        try:
-            items = w.getPlotItem().listDataItems()
-            # The prediction solid in the candidate's colour (its line style may be dashed, like the fit).
-            items[0].setPen(pg.mkPen(QtGui.QColor(candidate_colour(c.index)), width=2.0 * scale))
-            if fit is not None:
-                items[1].setPen(pg.mkPen(_FIT_COLOUR, width=1.6 * scale, style=QtCore.Qt.PenStyle.DashLine))
-                items[1].setZValue(2)
-            # The points behind the lines, pale enough for the lines to show through a dense sweep.
-            points = items[-1]
-            colour = QtGui.QColor(_POINTS_COLOUR)
-            colour.setAlpha(110)
-            points.setPen(None)
-            points.setSymbol("o")
-            points.setSymbolSize(2.6 * scale)
-            points.setSymbolPen(None)
-            points.setSymbolBrush(pg.mkBrush(colour))
-            points.setZValue(-1)
-            w.getPlotItem().setXRange(math.log10(f[0]), math.log10(f[-1]), padding=0.0)
-            # The images stand one above the other under a heading naming the file: no titles,
-            # and one legend, under the last.
-            w.getPlotItem().setTitle(None)
-            if key != keys[-1]:
-                w.legend.hide()
-                w.ci.layout.setRowFixedHeight(1, 0)
-            out[key] = image_png(paint_widget(w, scale=scale))
-        finally:
-            w.close()
-            w.deleteLater()
+        items = w.getPlotItem().listDataItems()
+        # The prediction solid in the candidate's colour (its line style may be dashed, like the fit).
+        items[0].setPen(pg.mkPen(QtGui.QColor(candidate_style(c.index).colour), width=2.0 * scale))
+        if fit is not None:
+            items[1].setPen(pg.mkPen(_FIT_COLOUR, width=1.6 * scale, style=QtCore.Qt.PenStyle.DashLine))
+            items[1].setZValue(2)
+        # The points behind the lines, pale enough for the lines to show through a dense sweep.
+        points = items[-1]
+        colour = QtGui.QColor(_POINTS_COLOUR)
+        colour.setAlpha(110)
+        points.setPen(None)
+        points.setSymbol("o")
+        points.setSymbolSize(2.6 * scale)
+        points.setSymbolPen(None)
+        points.setSymbolBrush(pg.mkBrush(colour))
+        points.setZValue(-1)
+        w.getPlotItem().setXRange(math.log10(f[0]), math.log10(f[-1]), padding=0.0)
+        # The images stand one above the other under a heading naming the file: no titles,
+        # and one legend, under the last.
+        w.getPlotItem().setTitle(None)
+        if key != keys[-1]:
+            w.legend.hide()
+            w.ci.layout.setRowFixedHeight(1, 0)
+        out[key] = widget_png(w, scale=scale)
     return out
 
 

@@ -237,24 +237,10 @@ def section_noise(ctx: ReportContext) -> str:
 # --------------------------------------------------------------------------- images
 
 
-def _paint_png(widget, width: int, height: int) -> bytes:
-    from PySide6 import QtCore
-
-    from bandsmith.app.plots.render import image_png, paint_widget
-
-    widget.setAttribute(QtCore.Qt.WidgetAttribute.WA_DontShowOnScreen, True)
-    widget.resize(width, height)
-    try:
-        return image_png(paint_widget(widget, scale=2.0))
-    finally:
-        widget.close()
-        widget.deleteLater()
-
-
 @on_gui_thread
 def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 270) -> bytes:
     """PNG of the three histograms (f0, Q, centre gain) of a spread, in the candidate's colour."""
-    from bandsmith.app.plots.render import ensure_qt_app
+    from bandsmith.app.plots.render import ensure_qt_app, widget_png
 
     ensure_qt_app()
     from PySide6 import QtWidgets
@@ -275,14 +261,15 @@ def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 27
         n0 = float(getattr(nom, key))
         h.show_data(getattr(sp, key)[sp.measured], n0, window_of(sp.settings, key, n0), getattr(sp.worst, key), colour)
         lay.addWidget(h)
-    return _paint_png(box, width, height)
+    box.resize(width, height)
+    return widget_png(box)
 
 
 @on_gui_thread
 def noise_density_png(items: Sequence[tuple[str, int, NoiseResult]], *, width: int = 900, height: int = 340) -> bytes:
     """PNG of the output noise density (V/√Hz, log-log) of several candidates ``(label, index, result)``."""
     from bandsmith.app.plots.axes import FrequencyAxis, LogAxis
-    from bandsmith.app.plots.render import INK, PlotImageWidget, ensure_qt_app
+    from bandsmith.app.plots.render import INK, PlotImageWidget, ensure_qt_app, widget_png
 
     ensure_qt_app()
     import pyqtgraph as pg
@@ -305,7 +292,8 @@ def noise_density_png(items: Sequence[tuple[str, int, NoiseResult]], *, width: i
         curve = item.plot(r.f_hz, y, pen=pg.mkPen(st.colour, width=4.0, style=st.pen_style), connect="finite")
         legend.addItem(curve, label)
     w = PlotImageWidget(item, legend)
-    return _paint_png(w, width, height)
+    w.resize(width, height)
+    return widget_png(w)
 
 
 register_section("spread", section_spread, before="cautions")
