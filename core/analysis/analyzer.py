@@ -28,7 +28,7 @@ from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
-from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, rational_from_system, reference_w
+from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, rational_from_system, reference_w, nominal_w_ref
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes, step_response
 
 __all__ = [
@@ -282,7 +282,7 @@ def transfer_function(
             size = max(gbw.size, gain0.size)
             return family.at(np.broadcast_to(gbw, (size,)), np.broadcast_to(gain0, (size,)))
     if w_ref is None:
-        w_ref = reference_w(build_system(netlist))
+        w_ref = nominal_w_ref(netlist)
     system = build_system(netlist, opamp, overrides=overrides, gbw_hz=gbw_hz, a0=a0)
     return rational_from_system(system, w_ref)
 

@@ -21,9 +21,9 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.figures import Figures, measure
-from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
+from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import reference_w
+from bandsmith.solver.rational import nominal_w_ref
 
 __all__ = [
     "ORDINARY_INDUCTOR_Q",
@@ -164,7 +164,7 @@ def winding_effect(netlist: Netlist, *, opamp: OpAmpModel = IDEAL) -> tuple[Wind
     opamp : OpAmpModel
         The op-amp for both sets of figures.
     """
-    w_ref = reference_w(build_system(netlist))
+    w_ref = nominal_w_ref(netlist)
     real = _figures(netlist, opamp, w_ref)
     out = []
     for k, e in enumerate(netlist.elements):

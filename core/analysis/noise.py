@@ -43,7 +43,7 @@ from bandsmith.common.limits import NOISE_DENSITY_MAX, VIN_RANGE_V, check_range
 from bandsmith.analysis.figures import measure
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import reference_w
+from bandsmith.solver.rational import nominal_w_ref
 
 __all__ = [
     "BOLTZMANN_J_PER_K",
@@ -349,7 +349,7 @@ def output_noise(
     if not (isinstance(vin_v, (int, float)) and math.isfinite(vin_v) and vin_v > 0):
         raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
     check_range("vin", float(vin_v), *VIN_RANGE_V, "V")
-    w_ref = reference_w(build_system(netlist))
+    w_ref = nominal_w_ref(netlist)
     fig = measure(transfer_function(netlist, opamp, w_ref=w_ref)).item()
     if not (math.isfinite(fig.f0_hz) and math.isfinite(fig.gain_center)):
         raise InputError("circuit", "the circuit has no band-pass peak, so there is no f0 to measure the noise at")

@@ -19,8 +19,8 @@ import scipy.special
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.bench.measured import Measurement
 from bandsmith.design.candidate import Candidate
-from bandsmith.solver.mna import OpAmpModel, build_system
-from bandsmith.solver.rational import reference_w
+from bandsmith.solver.mna import OpAmpModel
+from bandsmith.solver.rational import nominal_w_ref
 
 __all__ = ["DB_PER_NEPER", "EDGE", "Fits", "ResidualModel", "fit_everything", "mag_rms", "rms", "se_pct", "chi2_point", "confounded_groups"]
 
@@ -44,7 +44,7 @@ class ResidualModel:
         self.opamp = opamp
         self.f = m.f_hz
         self.mode = mode
-        self.w_ref = reference_w(build_system(self.netlist))
+        self.w_ref = nominal_w_ref(self.netlist)
         self.meas_db = m.mag_db
         self.meas_h = m.h
         self.inv_meas_h = None if m.h is None else 1.0 / m.h

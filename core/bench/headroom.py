@@ -36,7 +36,7 @@ from bandsmith.solver.ampmodel import amp_system
 from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import MnaSystem, build_system
 from bandsmith.solver.netlist import Element, Netlist
-from bandsmith.solver.rational import reference_w
+from bandsmith.solver.rational import reference_w, nominal_w_ref
 from bandsmith.bench.shelf import OpAmp
 
 __all__ = ["NodePeaks", "NodeLimit", "Headroom", "node_peaks", "node_limits", "headroom", "DEFAULT_SUPPLY_V"]
@@ -251,7 +251,7 @@ def headroom(
         raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
     limits = node_limits(netlist, supply_v, amp)
     loaded = _loaded(netlist, rload_ohm)
-    f_c = reference_w(build_system(netlist)) / (2.0 * math.pi)
+    f_c = nominal_w_ref(netlist) / (2.0 * math.pi)
     if amp is None:
         system = build_system(loaded)
     else:

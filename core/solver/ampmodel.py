@@ -26,7 +26,7 @@ import numpy as np
 
 from bandsmith.solver.mna import IDEAL, MnaLayout, MnaSystem, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import Rational, rational_from_system, reference_w
+from bandsmith.solver.rational import Rational, rational_from_system, nominal_w_ref
 
 __all__ = ["amp_system", "amp_transfer_function", "open_loop_gain"]
 
@@ -123,5 +123,5 @@ def amp_transfer_function(
     :func:`bandsmith.analysis.analyzer.transfer_function`.
     """
     if w_ref is None:
-        w_ref = reference_w(build_system(netlist))
+        w_ref = nominal_w_ref(netlist)
     return rational_from_system(amp_system(netlist, gbw_hz=gbw_hz, a0=a0, f_p2_hz=f_p2_hz), w_ref)

@@ -17,9 +17,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from bandsmith.solver.mna import MnaSystem
+from bandsmith.solver.mna import MnaSystem, build_system
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "coefficients_in_s", "polyval_batch"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "polyval_batch"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -174,6 +174,14 @@ def reference_w(system: MnaSystem) -> float:
     if mag.size == 0:
         return 1.0
     return float(np.exp(np.mean(np.log(mag))))
+
+
+@functools.lru_cache(maxsize=64)
+def nominal_w_ref(netlist) -> float:
+    """:func:`reference_w` of a netlist as it stands (its own values, ideal op-amps), in rad/s:
+    the normalising frequency every analysis of it uses, worked out once for the netlists last
+    asked for (a netlist is frozen, so it is its own key)."""
+    return reference_w(build_system(netlist))
 
 
 def _degree_bound(system: MnaSystem) -> int:

@@ -7,9 +7,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from bandsmith.common.errors import InputError
-from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
+from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import Rational, reference_w
+from bandsmith.solver.rational import Rational, nominal_w_ref
 from bandsmith.spread.spread_settings import SpreadSettings
 from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, setup_spread
 
@@ -40,7 +40,7 @@ def magnitude_envelope(
     The trials are the same as :func:`run_spread`'s first ones for these settings.
     """
     _, parts, spread = setup_spread(netlist, settings, opamp)
-    w_ref = reference_w(build_system(netlist))
+    w_ref = nominal_w_ref(netlist)
     ev = Evaluator(netlist, opamp, w_ref, nominal_figures(netlist, opamp, w_ref))
     count = min(int(trials), settings.trials)
     if count < 1:

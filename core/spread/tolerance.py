@@ -54,9 +54,9 @@ import numpy as np
 
 from bandsmith.analysis.analyzer import within_tolerances
 from bandsmith.analysis.figures import Figures
-from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
+from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import reference_w
+from bandsmith.solver.rational import nominal_w_ref
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.spread.spread_settings import (
     CHUNK,
@@ -238,7 +238,7 @@ def run_spread(
         or a nominal circuit without a band-pass peak.
     """
     tol, parts, spread = setup_spread(netlist, settings, opamp)
-    w_ref = reference_w(build_system(netlist))
+    w_ref = nominal_w_ref(netlist)
     nominal = nominal_figures(netlist, opamp, w_ref)
     ev = Evaluator(netlist, opamp, w_ref, nominal, engine)
     f0, q, gain, measured, passed, kept = _trials(ev, settings, spread, nominal, progress, cancel, keep_values)
