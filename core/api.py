@@ -1725,7 +1725,7 @@ def trim(
     fitted = dict(fit(circuit, parts, measured=measured).fitted) if measured is not None else None
     tol = {str(k): _positive_fraction(v, f"tol {k}") for k, v in (tolerances or {}).items()}
     plan = trim_plan(
-        cand.netlist, cand.topology.components, tolerances=tol,
+        cand.netlist, tolerances=tol,
         measured_f0_hz=_positive(measured_f0_hz, "measured-f0") if measured_f0_hz is not None else None,
         target_f0_hz=_positive(target_f0_hz, "target-f0") if target_f0_hz is not None else None,
         fitted=fitted,

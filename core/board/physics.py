@@ -18,7 +18,7 @@ Facts used (each marked with its source):
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from typing import Mapping
 
 from bandsmith.analysis.analyzer import ideal_figures, sensitivities
@@ -42,8 +42,7 @@ T_REF_C = 25.0
 
 def scaled(netlist: Netlist, factors: Mapping[str, float]) -> Netlist:
     """A copy with some parts' values multiplied by a factor (by reference)."""
-    return Netlist(tuple(replace(e, value=e.value * factors[e.ref]) if e.ref in factors else e for e in netlist.elements),
-                   netlist.ground, netlist.input, netlist.output)
+    return netlist.with_values({e.ref: e.value * factors[e.ref] for e in netlist.elements if e.ref in factors})
 
 
 def _change(base: Figures, other: Figures) -> dict:

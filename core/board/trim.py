@@ -136,11 +136,6 @@ class TrimPlan:
                 "monte_carlo": dict(self.monte_carlo) if self.monte_carlo else None}
 
 
-def _with_value(netlist: Netlist, ref: str, value: float) -> Netlist:
-    return Netlist(tuple(replace(e, value=value) if e.ref == ref else e for e in netlist.elements),
-                   netlist.ground, netlist.input, netlist.output)
-
-
 def part_tolerances(netlist: Netlist, given: Mapping[str, float]) -> dict[str, float]:
     """Each passive's tolerance: by reference, else by kind, else the default (R 1 %, C 5 %, L 10 %)."""
     known = {"R", "C", "L"} | {e.ref for e in netlist.passives}
@@ -190,7 +185,7 @@ def _trimmer(nominal: float, s: float, need: float, tol_fixed: float) -> tuple[f
 
 
 def _f0_of(netlist: Netlist, ref: str, value: float) -> float:
-    return float(ideal_figures(_with_value(netlist, ref, value)).f0_hz[0])
+    return float(ideal_figures(netlist.with_values({ref: value})).f0_hz[0])
 
 
 def _correction(netlist: Netlist, choice: TrimChoice, measured: float, target: float,
@@ -220,7 +215,6 @@ def _correction(netlist: Netlist, choice: TrimChoice, measured: float, target: f
 
 def trim_plan(
     netlist: Netlist,
-    components=(),
     *,
     tolerances: Mapping[str, float] | None = None,
     measured_f0_hz: float | None = None,
@@ -233,8 +227,6 @@ def trim_plan(
     ----------
     netlist : Netlist
         The circuit at its nominal values.
-    components : sequence of Component
-        The circuit's parts (unused but kept for the part roles in the procedure).
     tolerances : mapping, optional
         Tolerances (fractions) by reference or by kind.
     measured_f0_hz, target_f0_hz : float, optional

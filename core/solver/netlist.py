@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field, replace
+from typing import Mapping
 
 from bandsmith.common.errors import InputError
 
@@ -121,6 +122,11 @@ class Netlist:
             if e.kind == "L" and e.series_ref:
                 out[e.series_ref] = float(e.series_resistance)
         return out
+
+    def with_values(self, values: Mapping[str, float]) -> "Netlist":
+        """A copy with some parts' values set (by reference; the others as they are)."""
+        return Netlist(tuple(replace(e, value=float(values[e.ref])) if e.ref in values else e for e in self.elements),
+                       self.ground, self.input, self.output)
 
     def with_element(self, element: Element) -> "Netlist":
         """A copy with one more element (a load resistor, say)."""
