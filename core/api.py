@@ -711,7 +711,7 @@ class SweepReport:
     phase_deg: Any
     group_delay_s: Any
 
-    COLUMNS = ("frequency_hz", "magnitude_db", "phase_deg", "group_delay_s")
+    COLUMNS = ("frequency_hz", "magnitude_db", "phase_deg", "group_delay_s")  # bandsmith.files.exports.RESPONSE_HEADER
 
     def rows(self) -> list[list[float]]:
         """Rows of (frequency Hz, magnitude dB, phase deg, group delay s)."""

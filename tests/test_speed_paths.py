@@ -18,7 +18,7 @@ import pytest
 from numpy.testing import assert_allclose, assert_array_equal
 
 from bandsmith.analysis.figures import exact_in_closed_form
-from bandsmith.app.cli.sweep import write_csv
+from bandsmith.files.exports import write_csv
 from bandsmith.circuits import get_topology
 from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, setup_spread

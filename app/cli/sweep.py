@@ -8,27 +8,9 @@ from bandsmith import api
 
 from bandsmith.app.cli.common import Command, add_amp_options, amp_options
 from bandsmith.app.cli.text import table
+from bandsmith.files.exports import write_csv
 
 HEADER = list(api.SweepReport.COLUMNS)
-_CSV_BLOCK = 65536  # rows formatted per write: a few MB of text at a time
-
-
-def write_csv(out, columns, fmt: str = "%.10g") -> None:
-    """Columns of floats as CSV lines, each value ``fmt``-formatted, without a header.
-
-    One ``%`` operation per block of rows over a format repeated for the block (the C formatter,
-    not a Python call per value): the same text as formatting each value, ``"%.10g" % v`` being
-    ``f"{v:.10g}"``.
-    """
-    import numpy as np
-
-    table = np.column_stack(columns)
-    line = ",".join([fmt] * table.shape[1]) + "\n"
-    for start in range(0, table.shape[0], _CSV_BLOCK):
-        block = table[start : start + _CSV_BLOCK]
-        out.write((line * block.shape[0]) % tuple(block.ravel().tolist()))
-
-
 def configure(p):
     p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
     p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
