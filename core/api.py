@@ -131,16 +131,22 @@ def _topology(circuit: str) -> "Topology":
     return get_topology(circuit)
 
 
-def split_assignments(tokens: Sequence[str], *, what: str = "part") -> dict[str, str]:
-    """``["R1=4k7", "C=10n"]`` → ``{"R1": "4k7", "C": "10n"}``; malformed tokens are bad input."""
+def split_assignments(tokens: Sequence[str], *, what: str = "part", field: str | None = None, form: str = "") -> dict[str, str]:
+    """``["R1=4k7", "C=10n"]`` → ``{"R1": "4k7", "C": "10n"}``; a malformed or repeated token is bad input.
+
+    The error names the token (``what`` as REF=VALUE) or, with ``field`` (an option such as
+    ``tol``), that option and the ``form`` it takes ("KIND=P (R=1%, C=5%)", say).
+    """
     out: dict[str, str] = {}
     for tok in tokens:
         ref, sep, text = tok.partition("=")
         ref = ref.strip()
         if not sep or not ref:
+            if field is not None:
+                raise InputError(field, f"{tok!r} is not {form}")
             raise InputError(tok, f"expected {what} as REF=VALUE, e.g. R1=4k7")
         if ref in out:
-            raise InputError(ref, "given twice")
+            raise InputError(field or ref, f"{ref} given twice" if field else "given twice")
         out[ref] = text.strip()
     return out
 

@@ -167,3 +167,22 @@ def test_noise_readable():
 )
 def test_noise_bad_input(extra, field):
     bad("noise", *MFB, *extra, "--json", field=field)
+
+
+@pytest.mark.parametrize("command, option, token", [
+    ("tolerance", "--tol", "R1%"), ("trim", "--tol", "=2%"), ("trim", "--tc", "R50"), ("bias", "--tc", "C"),
+])
+def test_a_malformed_assignment_names_its_option(command, option, token):
+    # KEY=VALUE options of every command read the same way (one parser): the option named, exit 2
+    extra = ("--supply", "12") if command == "bias" else ()
+    line = bad(command, "mfb", "R1=16k", "R2=1.1k", "R3=150k", "C1=2.4n", "C2=2.2n", *extra, option, token, field=option.lstrip("-"))
+    assert repr(token) in line
+
+
+@pytest.mark.parametrize("command, option, tokens", [
+    ("tolerance", "--tol", ("R=1%", "R=2%")), ("trim", "--tol", ("C=5%", "C=2%")), ("bias", "--tc", ("R=50", "R=25")),
+])
+def test_an_assignment_given_twice_is_refused(command, option, tokens):
+    args = [a for t in tokens for a in (option, t)] + (["--supply", "12"] if command == "bias" else [])
+    line = bad(command, "mfb", "R1=16k", "R2=1.1k", "R3=150k", "C1=2.4n", "C2=2.2n", *args, field=option.lstrip("-"))
+    assert "given twice" in line

@@ -5,7 +5,7 @@ from __future__ import annotations
 from bandsmith import api
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json
+from bandsmith.app.cli.common import Command, print_json, tempcos_from
 from bandsmith.app.cli.text import table
 
 
@@ -29,16 +29,6 @@ def configure(p):
     p.add_argument("--rated", metavar="V", default="50", help="a class-2 capacitor's rated voltage (default 50)")
     p.add_argument("--spice", metavar="OUT.cir", help="also write a SPICE netlist with the bias network")
     p.add_argument("--json", action="store_true", help="print one JSON object")
-
-
-def _tempcos(items) -> dict:
-    out = {}
-    for item in items:
-        key, sep, value = item.partition("=")
-        if not sep or not key.strip():
-            raise api.InputError("tc", f"{item!r} is not KIND=PPM (R=50, C=0, L=200, R2=25)")
-        out[key.strip()] = api.parse_value(value.strip(), field=f"tc {key.strip()}") * 1e-6
-    return out
 
 
 def print_readable(r: dict) -> None:
@@ -102,7 +92,7 @@ def run(args) -> int:
         args.topology, args.parts, supply_v=args.supply, reference=args.reference, divider_ohm=args.divider,
         rload_ohm=args.rload, vin_v=args.vin, headroom_v=args.headroom, bias_current_a=args.ibias,
         corner_ratio=api.parse_value(args.corner_ratio, field="corner-ratio"),
-        cp_f=args.cp, temp_range_c=args.temp_range, tempco=_tempcos(args.tc), rated_v=args.rated,
+        cp_f=args.cp, temp_range_c=args.temp_range, tempco=tempcos_from(args.tc, "R=50, C=0, L=200, R2=25"), rated_v=args.rated,
     )
     result = biased.to_json()
     if args.spice:

@@ -125,3 +125,11 @@ def _clean(obj):
 def print_json(obj) -> None:
     """Print exactly one JSON object on stdout (numpy scalars made floats, non-finite as null)."""
     sys.stdout.write(json.dumps(_clean(obj), ensure_ascii=False) + "\n")
+
+
+def tempcos_from(items, example: str = "R=50, C=30, L=200, R2=25") -> dict[str, float]:
+    """``--tc KIND=PPM`` options as temperature coefficients per kelvin, by kind or part."""
+    from bandsmith import api
+
+    given = api.split_assignments(items, field="tc", form=f"KIND=PPM ({example})")
+    return {k: api.parse_value(v, field=f"tc {k}") * 1e-6 for k, v in given.items()}

@@ -6,7 +6,6 @@ from bandsmith import api
 from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.units import PART_UNITS
 from bandsmith.circuits import get_topology
-from bandsmith.common.errors import InputError
 from bandsmith.spread.tolerance import STAT_KEYS
 from bandsmith.common.values import format_value
 
@@ -39,15 +38,7 @@ def configure(p):
 
 def options_from(args) -> dict:
     """The spread options as typed, keyed as :func:`bandsmith.tolerance` takes them."""
-    tol = {}
-    for tok in args.tol:
-        key, sep, text = tok.partition("=")
-        key = key.strip()
-        if not sep or not key:
-            raise InputError("tol", f'"{tok}" is not KIND_OR_REF=P; write e.g. R=1% or C2=2%')
-        if key in tol:
-            raise InputError("tol", f"{key} given twice")
-        tol[key] = text
+    tol = api.split_assignments(args.tol, field="tol", form="KIND_OR_REF=P; write e.g. R=1% or C2=2%")
     return {
         "tolerances": tol, "dist": args.dist, "trials": args.trials, "seed": args.seed, "gbw_tol": args.gbw_tol,
         "window_f0": args.window_f0, "window_q": args.window_q, "window_gain_db": args.window_gain_db,

@@ -5,7 +5,7 @@ from __future__ import annotations
 from bandsmith import api
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json
+from bandsmith.app.cli.common import Command, print_json, tempcos_from
 from bandsmith.app.cli.text import table
 
 
@@ -26,26 +26,6 @@ def configure(p):
     p.add_argument("--tc", metavar="KIND=PPM", action="append", default=[],
                    help="± temperature coefficient in ppm/K by kind or part (default R=50 C=30 L=200; repeatable)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
-
-
-def _tolerances(items) -> dict:
-    out = {}
-    for item in items:
-        key, sep, value = item.partition("=")
-        if not sep or not key.strip():
-            raise api.InputError("tol", f"{item!r} is not KIND=P (R=1%, C=5%, R2=0.5%)")
-        out[key.strip()] = value.strip()
-    return out
-
-
-def _tempcos(items) -> dict:
-    out = {}
-    for item in items:
-        key, sep, value = item.partition("=")
-        if not sep or not key.strip():
-            raise api.InputError("tc", f"{item!r} is not KIND=PPM (R=50, C=30, L=200, R2=25)")
-        out[key.strip()] = api.parse_value(value.strip(), field=f"tc {key.strip()}") * 1e-6
-    return out
 
 
 def _ohm(x) -> str:
@@ -80,10 +60,10 @@ def print_readable(r: dict) -> None:
 
 
 def run(args) -> int:
-    result = api.trim(args.topology, args.parts, tolerances=_tolerances(args.tol),
+    result = api.trim(args.topology, args.parts, tolerances=api.split_assignments(args.tol, field="tol", form="KIND=P (R=1%, C=5%, R2=0.5%)"),
                       measured_f0_hz=args.measured_f0, target_f0_hz=args.target_f0,
                       measured=args.measured, trials=args.trials, window=args.window, seed=args.seed,
-                      temp_range_c=args.temp_range, tempco=_tempcos(args.tc)).to_json()
+                      temp_range_c=args.temp_range, tempco=tempcos_from(args.tc)).to_json()
     if args.json:
         print_json(result)
     else:
