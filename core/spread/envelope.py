@@ -9,7 +9,7 @@ import numpy as np
 from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import Rational, nominal_w_ref
+from bandsmith.solver.rational import nominal_w_ref
 from bandsmith.spread.spread_settings import SpreadSettings
 from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, setup_spread
 
@@ -58,5 +58,5 @@ def magnitude_envelope(
     for start in range(0, count, 500):
         sl = slice(start, start + 500)
         with np.errstate(divide="ignore", invalid="ignore"):
-            mags[sl] = 20.0 * np.log10(np.abs(Rational(h.num[sl], h.den[sl], h.w_ref[sl]).at_f(f)))
+            mags[sl] = 20.0 * np.log10(np.abs(h.take(sl).at_f(f)))
     return Envelope(f_hz=f, percentiles=tuple(float(x) for x in percentiles), magnitude_db=np.nanpercentile(mags, percentiles, axis=0), trials=count)

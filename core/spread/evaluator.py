@@ -46,7 +46,7 @@ def _measure_wide(h: Rational) -> Figures:
     parts = []
     for start in range(0, h.batch, _WIDE_CHUNK):
         sl = slice(start, start + _WIDE_CHUNK)
-        parts.append(measure(Rational(h.num[sl], h.den[sl], h.w_ref[sl])))
+        parts.append(measure(h.take(sl)))
     return Figures(**{f.name: np.concatenate([getattr(p, f.name) for p in parts]) for f in fields(Figures)})
 
 
@@ -98,7 +98,7 @@ class Evaluator:
         if ratios.shape[0] <= _EXPANSION_SMALL_BATCH:
             ratios = np.ascontiguousarray(ratios)  # row order for the products of small batches
         if self.expansion is not None and self.expansion.pure_bandpass:
-            num, den = self._coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
+            num, den = self.expansion.coefficients(ratios)  # b1; a0, a1, a2 (lowest power first)
             return biquad_figures(num[0], den[2], den[1], den[0], self.w_ref)
         if tracked and self.expansion is not None and ratios.shape[0] >= tf.CLOSED_FORM_FROM:
             out = self._figures_rows(ratios)
@@ -112,17 +112,13 @@ class Evaluator:
             fig = self._measure_tracked(h, ratios) if tracked else _measure_wide(h)
         return fig, stable & fig.valid
 
-    def _coefficients(self, ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """:meth:`Expansion.coefficients` (a large batch through its shared monomial products)."""
-        return self.expansion.coefficients(ratios)
-
     def _figures_rows(self, ratios: np.ndarray) -> tuple[Figures, np.ndarray] | None:
         """:meth:`figures` (tracked) of a large batch worked on one array per coefficient
         (:mod:`bandsmith.spread.trialfigures`): the closed-form roots where :func:`measure` takes
         them, else Newton's method from each member's first-order estimate in place of the
         tracked grid; None for a batch that reduces to a pure second-order band-pass."""
         ex = self.expansion
-        num_c, den_c = self._coefficients(ratios)
+        num_c, den_c = self.expansion.coefficients(ratios)
         num, den = tf.scaled_rows(num_c, den_c, ex.num_powers, ex.den_powers)
         m, n = len(num), len(den)
         if n == 3 and m in (2, 3) and not (num[-1] != 0).any() and (m == 2 or not (num[0] != 0).any()):
@@ -199,7 +195,7 @@ class Evaluator:
             redo = (~fig.valid | off | ~ok_est) & np.all(np.isfinite(h.den), axis=1)
         idx = np.flatnonzero(redo)
         if idx.size:
-            wide = _measure_wide(Rational(h.num[idx], h.den[idx], h.w_ref[idx]))
+            wide = _measure_wide(h.take(idx))
             fig = _put(fig, idx, wide)
         return fig
 
