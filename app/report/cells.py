@@ -9,7 +9,7 @@ import math
 from html import escape
 from typing import Sequence
 
-from bandsmith.common.eseries import SERIES_NAMES, in_series
+from bandsmith.common.eseries import coarsest_series
 from bandsmith.common.values import format_value
 
 __all__ = ["slew_text", "gbw_cell", "sensitivity_text", "signed", "html_table", "smallest_series", "paragraphs", "png_img"]
@@ -67,10 +67,8 @@ def html_table(header: Sequence[str] | None, rows: Sequence[Sequence[str]], *, c
 
 
 def smallest_series(x: float) -> str:
-    for name in SERIES_NAMES:
-        if in_series(x, name):
-            return name
-    return "exact"
+    """The coarsest series holding a part value, or "exact"."""
+    return coarsest_series(x) or "exact"
 
 
 def paragraphs(text: str) -> str:

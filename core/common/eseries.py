@@ -35,6 +35,7 @@ __all__ = [
     "search_options",
     "values_between",
     "in_series",
+    "coarsest_series",
     "usual_tolerance",
 ]
 
@@ -347,3 +348,9 @@ def usual_tolerance(series: str) -> float:
     if name not in _TOLERANCE:
         raise InputError("series", f"{name} has no usual tolerance; use E6 to E192")
     return _TOLERANCE[name]
+
+
+def coarsest_series(x: float) -> str | None:
+    """The coarsest series (E3 first, see :data:`SERIES_NAMES`) holding ``x`` (:func:`in_series`),
+    or None: a value zero, negative, not finite or in no series."""
+    return next((name for name in SERIES_NAMES if in_series(x, name)), None)

@@ -22,7 +22,7 @@ from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.analyzer import DEFAULT_A0, ideal_figures, sweep, transfer_function
 from bandsmith.design.candidate import Candidate
 from bandsmith.common.cautions import cautions_comment
-from bandsmith.common.eseries import SERIES_NAMES, in_series
+from bandsmith.common.eseries import coarsest_series
 from bandsmith.common.atomic import write_bytes_atomic
 from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import IDEAL, OpAmpModel
@@ -188,12 +188,7 @@ def opamp_subckt_lines(opamp: OpAmpModel) -> list[str]:
 
 def _series_of(x: float) -> str:
     """The coarsest IEC 60063 series holding ``x``, or ``none``."""
-    if not (math.isfinite(x) and x > 0):
-        return "none"
-    for s in SERIES_NAMES:
-        if in_series(x, s):
-            return s
-    return "none"
+    return coarsest_series(x) or "none"
 
 
 def parts_csv(entry_or_candidate: Any, *, gbw_hz: float | None = None) -> str:
