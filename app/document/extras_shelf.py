@@ -13,7 +13,7 @@ from bandsmith.bench.shelf import OpAmp, amps_from_json
 from bandsmith.common.errors import InputError
 from bandsmith.files.session import Session
 
-__all__ = ["SESSION_KEY", "session_supply_v", "session_amps"]
+__all__ = ["SESSION_KEY", "session_supply_v", "session_amps", "session_chosen", "chosen_amp"]
 
 SESSION_KEY = "shelf"
 
@@ -36,3 +36,19 @@ def session_amps(session: Session) -> tuple[OpAmp, ...]:
         return amps_from_json(sec.get("amps", []))
     except InputError:
         return ()
+
+
+def session_chosen(session: Session) -> dict[str, str]:
+    """The shelf model kept as chosen for each candidate (``extras["shelf"]["chosen"]``: id → model
+    name); an unusable section gives none."""
+    sec = session.extras.get(SESSION_KEY)
+    chosen = sec.get("chosen") if isinstance(sec, dict) else None
+    return {str(k): v for k, v in chosen.items() if isinstance(v, str)} if isinstance(chosen, dict) else {}
+
+
+def chosen_amp(session: Session, candidate_id: str | None) -> OpAmp | None:
+    """The model kept as chosen for ``candidate_id``, among the session's models, or None."""
+    name = session_chosen(session).get(candidate_id or "")
+    if name is None:
+        return None
+    return next((a for a in session_amps(session) if a.name.casefold() == name.casefold()), None)

@@ -27,7 +27,7 @@ from bandsmith.common.values import format_value
 
 from bandsmith.app.report.context import ReportContext
 from bandsmith.app.report.sections import register_section
-from bandsmith.app.document.extras_shelf import SESSION_KEY, session_amps, session_supply_v
+from bandsmith.app.document.extras_shelf import SESSION_KEY, session_amps, session_chosen, session_supply_v
 
 __all__ = ["section_shelf"]
 
@@ -44,12 +44,6 @@ def _cell(verdict: str, chosen: bool) -> str:
     mark = "<br/><i>chosen</i>" if chosen else ""
     # A no-break space keeps the symbol with the word when a narrow column wraps the cell.
     return f'<span style="color: {_COLOUR[kind]}; font-weight: 600">{symbol}&nbsp;{escape(verdict)}</span>{mark}'
-
-
-def _chosen(session) -> dict[str, str]:
-    sec = session.extras.get(SESSION_KEY)
-    chosen = sec.get("chosen") if isinstance(sec, dict) else None
-    return {str(k): str(v) for k, v in chosen.items()} if isinstance(chosen, dict) else {}
 
 
 def _headroom_table(room) -> str:
@@ -172,7 +166,7 @@ def section_shelf(ctx: ReportContext) -> str:
     if not amps:
         return ""
     supply = session_supply_v(s)
-    chosen = _chosen(s)
+    chosen = session_chosen(s)
     cands = [c for c in ctx.candidates if c.entry.enabled and c.analysis is not None]
     out = _intro(s, supply)
     if not cands:

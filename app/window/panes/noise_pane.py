@@ -32,7 +32,7 @@ from bandsmith.analysis.noise import NoiseResult, NoiseSettings, output_noise
 from bandsmith.common.values import format_value, parse_nonnegative, parse_positive, parse_value
 
 from bandsmith.app.document.extras_settings import NOISE_KEY, stored_noise
-from bandsmith.app.document.extras_shelf import SESSION_KEY as SHELF_KEY, session_amps
+from bandsmith.app.document.extras_shelf import chosen_amp
 from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.panes.spread_pane import CandidatePicker, candidate_circuit, winding_text
@@ -57,17 +57,6 @@ _RTHZ = re.compile(r"\s*/\s*(√\s*\(?\s*hz\s*\)?|rt\s*hz|sqrt\s*\(?\s*hz\s*\)?)
 
 
 _DEFAULT_NOISE = NoiseSettings()
-
-
-def chosen_amp(session, candidate_id: str | None):
-    """The shelf model kept in the session as chosen for ``candidate_id`` (``extras["shelf"]``), or None."""
-    sec = session.extras.get(SHELF_KEY)
-    if not candidate_id or not isinstance(sec, dict) or not isinstance(sec.get("chosen"), dict):
-        return None
-    name = sec["chosen"].get(candidate_id)
-    if not isinstance(name, str):
-        return None
-    return next((a for a in session_amps(session) if a.name.casefold() == name.casefold()), None)
 
 
 def noise_sources(session, candidate_id: str | None) -> tuple[NoiseSettings, str]:
