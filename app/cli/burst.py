@@ -60,10 +60,9 @@ def _chain_report(args):
         raise InputError("chain", f"no chain {args.chain!r} in this session; its chains are {known}")
     from dataclasses import replace
 
-    from bandsmith.design.candidate import Conditions
+    from bandsmith.app.document.extras_chains import chain_conditions
 
-    conditions = Conditions(gbw_hz=session.opamp.gbw_hz, a0=session.opamp.a0, vin_v=session.target.vin_v,
-                            rload_ohm=session.rload_ohm, tolerances=session.tolerances)
+    conditions = chain_conditions(session)  # as the window analyses the session's chains
     if args.gbw is not None:
         conditions = replace(conditions, gbw_hz=api.parse_value(args.gbw, field="gbw"))
     return api.CascadeReport(chain_cascade(chains[args.chain], conditions=conditions))

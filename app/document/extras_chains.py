@@ -6,6 +6,8 @@ entry means: it is left as it is, with the reason in words (:func:`saved_chains`
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from bandsmith.chain.cascade import Chain
 from bandsmith.common.errors import InputError
 from bandsmith.design.candidate import Conditions
@@ -17,14 +19,9 @@ EXTRAS_KEY = "chains"
 
 
 def chain_conditions(session: Session) -> Conditions:
-    """What a chain is analysed under: the session's op-amp, input level, load and tolerances."""
-    return Conditions(
-        gbw_hz=session.opamp.gbw_hz,
-        a0=session.opamp.a0,
-        vin_v=session.target.vin_v,
-        rload_ohm=session.rload_ohm,
-        tolerances=session.tolerances,
-    )
+    """What a chain is analysed under: the session's op-amp, input level, load and tolerances
+    (its source resistance is a candidate's input, not a chain's)."""
+    return replace(session.conditions, rsource_ohm=None)
 
 
 def saved_chains(session: Session) -> tuple[list[Chain], list[str]]:

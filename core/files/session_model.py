@@ -233,10 +233,9 @@ class Session:
             raise InputError("extras", f"{', '.join(clash)} is a section of the session itself, not an extra")
         object.__setattr__(self, "extras", dict(self.extras))
 
-    def conditions_for(self, entry: CandidateEntry | str) -> Conditions:
-        """The analysis conditions of a candidate (the session's op-amp, drive, load, tolerances)."""
-        if isinstance(entry, str):
-            entry = self.candidate(entry)
+    @property
+    def conditions(self) -> Conditions:
+        """The analysis conditions the session sets: its op-amp, drive, load, tolerances and source."""
         return Conditions(
             gbw_hz=self.opamp.gbw_hz,
             a0=self.opamp.a0,
@@ -245,6 +244,13 @@ class Session:
             tolerances=self.tolerances,
             rsource_ohm=self.rsource_ohm,
         )
+
+    def conditions_for(self, entry: CandidateEntry | str) -> Conditions:
+        """The analysis conditions of a candidate (:attr:`conditions`; every candidate has the
+        session's); an InputError when there is no such candidate."""
+        if isinstance(entry, str):
+            self.candidate(entry)
+        return self.conditions
 
     def candidate(self, id: str) -> CandidateEntry:
         """The candidate with this id; an InputError naming the ids otherwise."""
