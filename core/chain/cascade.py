@@ -317,7 +317,7 @@ def _design(topology_id: str, plan: SectionPlan, series: str, conditions: Condit
 
 def _attempt(topology_id: str, plan: SectionPlan, series: str, conditions: Conditions):
     from bandsmith.design.designer import spread_of
-    from bandsmith.design.standard import weighted_error
+    from bandsmith.design.standard import figure_misses, weighted_error
 
     try:
         res = _design(topology_id, plan, series, conditions)
@@ -329,7 +329,7 @@ def _attempt(topology_id: str, plan: SectionPlan, series: str, conditions: Condi
     rs, cs = sp["r"] or 1.0, sp["c"] or 1.0
     errors = dict(res.errors)
     tol = conditions.tolerances
-    within = abs(errors["f0_pct"]) <= 100 * tol.f0 and abs(errors["q_pct"]) <= 100 * tol.q and abs(errors["gain_db"]) <= tol.gain_db
+    within = not figure_misses(errors, tol)
     weighted = weighted_error(errors, tol)
     gbw = res.analysis.requirements.gbw_hz if res.analysis is not None else None
     gross = _gross_miss(errors, plan.q, series)
@@ -498,7 +498,7 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
     its errors are against the stage's planned target.
     """
     from bandsmith.design.designer import DesignResult, Spec, spread_of
-    from bandsmith.design.standard import errors_of, weighted_error
+    from bandsmith.design.standard import errors_of, figure_misses, weighted_error
 
     settings = chain.settings
     plan = plan_cascade(settings.prototype(), settings.band, settings.gain)
@@ -511,7 +511,7 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
         spec = Spec(sec.f0_hz, sec.q, sec.gain)
         errors = errors_of(an.ideal, spec)
         tol = cond.tolerances
-        within = abs(errors["f0_pct"]) <= 100 * tol.f0 and abs(errors["q_pct"]) <= 100 * tol.q and abs(errors["gain_db"]) <= tol.gain_db
+        within = not figure_misses(errors, tol)
         sp = spread_of(cand.topology, cand.values)
         res = DesignResult(
             topology_id=cand.topology_id, spec=spec, feasible=True, reason=None, exact=dict(cand.values), chosen=dict(cand.values),

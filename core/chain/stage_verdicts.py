@@ -30,6 +30,7 @@ import math
 from typing import TYPE_CHECKING, Sequence
 
 from bandsmith.chain.chain_settings import STAGE_HOLD, StageHold
+from bandsmith.design.standard import figure_misses
 from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, VerdictLimits, judge, rank, surely_not_buildable
 
 if TYPE_CHECKING:
@@ -64,14 +65,11 @@ def hold_miss(stage: "Stage") -> str | None:
     res = stage.result
     if res is None or not res.feasible or res.errors is None:
         return None
-    tol = res.conditions.tolerances
-    e = res.errors
     out = []
-    for name, value, limit, unit in (("f0", e["f0_pct"], 100.0 * tol.f0, "%"), ("Q", e["q_pct"], 100.0 * tol.q, "%"),
-                                     ("gain", e["gain_db"], tol.gain_db, "dB")):
-        if not math.isfinite(value) or abs(value) > limit:
-            extra = f" ({abs(value) * stage.plan.q:.3g} % of its bandwidth)" if name == "f0" and math.isfinite(value) else ""
-            out.append(f"{name} {value:+.3g} {unit}{extra} against ±{limit:.3g} {unit}")
+    for key, value, limit, unit in figure_misses(res.errors, res.conditions.tolerances):
+        name = {"f0_pct": "f0", "q_pct": "Q", "gain_db": "gain"}[key]
+        extra = f" ({abs(value) * stage.plan.q:.3g} % of its bandwidth)" if name == "f0" and math.isfinite(value) else ""
+        out.append(f"{name} {value:+.3g} {unit}{extra} against ±{limit:.3g} {unit}")
     if not out:
         return None
     return f"stage {stage.index} ({res.topology_id}, {res.series} parts) is outside its hold: " + ", ".join(out)

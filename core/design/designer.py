@@ -28,7 +28,7 @@ from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
 from bandsmith.common.values import format_value, parse_value
-from bandsmith.design.standard import Choice, choose_standard, errors_of
+from bandsmith.design.standard import Choice, choose_standard, errors_of, figure_misses
 
 __all__ = [
     "Spec",
@@ -180,13 +180,8 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
                 f"±{100 * tol.q:g} % takes parts of about ±{100 * needed:.2g} % or a trimmer"
             )
     if series != "exact" and result_errors is not None:
-        misses = []
-        if abs(result_errors["f0_pct"]) > 100 * tol.f0:
-            misses.append(f"f0 {result_errors['f0_pct']:+.3g} % (tolerance ±{100 * tol.f0:g} %)")
-        if abs(result_errors["q_pct"]) > 100 * tol.q:
-            misses.append(f"Q {result_errors['q_pct']:+.3g} % (±{100 * tol.q:g} %)")
-        if abs(result_errors["gain_db"]) > tol.gain_db:
-            misses.append(f"gain {result_errors['gain_db']:+.3g} dB (±{tol.gain_db:g} dB)")
+        shown = {"f0_pct": "f0 {:+.3g} % (tolerance ±{:g} %)", "q_pct": "Q {:+.3g} % (±{:g} %)", "gain_db": "gain {:+.3g} dB (±{:g} dB)"}
+        misses = [shown[key].format(value, limit) for key, value, limit, _unit in figure_misses(result_errors, tol)]
         if misses:
             out.append(f"with {series} values the best combination still misses: " + ", ".join(misses) + "; use a finer series or trim a part")
         off = [r for r in fixed if topology.component(r).required and not in_series(chosen[r], series)]

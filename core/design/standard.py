@@ -36,7 +36,7 @@ from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
 
-__all__ = ["Choice", "errors_of", "weighted_error", "choose_standard", "part_series_of"]
+__all__ = ["Choice", "errors_of", "figure_misses", "weighted_error", "choose_standard", "part_series_of"]
 
 
 # Batches up to this size are measured by exact roots (global, and cheaper there), larger on a grid.
@@ -66,6 +66,18 @@ def errors_of(fig: Figures, spec: Spec, i: int = 0) -> dict[str, float]:
         "q_pct": 100.0 * (one.q / spec.q - 1.0),
         "gain_db": one.gain_center_db - 20.0 * math.log10(spec.gain),
     }
+
+
+def figure_misses(errors: Mapping[str, float], tolerances: Tolerances) -> list[tuple[str, float, float, str]]:
+    """The figures of an ``errors`` dict (:func:`errors_of`) outside the design tolerances, as
+    ``(key, error, limit, unit)``: f0 and Q in %, the gain in dB; an undefined error is a miss."""
+    out = []
+    for key, limit, unit in (("f0_pct", 100.0 * tolerances.f0, "%"), ("q_pct", 100.0 * tolerances.q, "%"),
+                             ("gain_db", tolerances.gain_db, "dB")):
+        value = errors[key]
+        if not math.isfinite(value) or abs(value) > limit:
+            out.append((key, value, limit, unit))
+    return out
 
 
 def weighted_error(errors: Mapping[str, float], tolerances: Tolerances = Tolerances()) -> float:

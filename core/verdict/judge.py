@@ -45,7 +45,7 @@ from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
 from bandsmith.design.compare import needs_inductor, part_count
 from bandsmith.design.designer import DesignResult, spread_of
-from bandsmith.design.standard import errors_of
+from bandsmith.design.standard import errors_of, figure_misses
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield, part_tolerances_of
 
@@ -153,18 +153,15 @@ def _ratio(x: float) -> str:
 
 def _figure_reasons(errors: Mapping[str, float], tol, suffix: str, with_what: str) -> list[Reason]:
     """A reason for each figure error (``errors_of``'s keys) beyond the design tolerances ``tol``."""
+    named = {"f0_pct": ("f0_error", "f0"), "q_pct": ("q_error", "Q"), "gain_db": ("gain_error", "the centre gain")}
     out = []
-    for code, name, value, limit, unit in (
-        ("f0_error", "f0", errors["f0_pct"], 100.0 * tol.f0, "%"),
-        ("q_error", "Q", errors["q_pct"], 100.0 * tol.q, "%"),
-        ("gain_error", "the centre gain", errors["gain_db"], tol.gain_db, "dB"),
-    ):
-        if not math.isfinite(value) or abs(value) > limit:
-            out.append(Reason(
-                code + suffix,
-                f"{with_what} {name} misses the target by {value:+.3g} {unit}, beyond the ±{limit:g} {unit} design tolerance",
-                value, limit, NOT_BUILDABLE,
-            ))
+    for key, value, limit, unit in figure_misses(errors, tol):
+        code, name = named[key]
+        out.append(Reason(
+            code + suffix,
+            f"{with_what} {name} misses the target by {value:+.3g} {unit}, beyond the ±{limit:g} {unit} design tolerance",
+            value, limit, NOT_BUILDABLE,
+        ))
     return out
 
 
