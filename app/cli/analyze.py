@@ -8,7 +8,7 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_amp_options, amp_options, print_json
+from bandsmith.app.cli.common import Command, add_amp_options, amp_options, emit, print_json
 from bandsmith.app.cli.text import figures_rows, requirements_rows, sensitivity_table, table
 
 
@@ -63,11 +63,7 @@ def run(args) -> int:
     if not args.topology:
         raise InputError("topology", "missing; give a circuit id (see `bandsmith topologies`) or --session FILE")
     result = api.analyze(args.topology, args.parts, **options).to_json()
-    if args.json:
-        print_json(result)
-    else:
-        print_readable(result)
-    return 0
+    return emit(args, result, print_readable)
 
 
 COMMAND = Command("analyze", "analyse one candidate: figures, amplifier needs, sensitivities", configure, run, order=20)

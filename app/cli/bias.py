@@ -5,7 +5,7 @@ from __future__ import annotations
 from bandsmith import api
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json, tempcos_from
+from bandsmith.app.cli.common import Command, emit, tempcos_from
 from bandsmith.app.cli.text import table
 
 
@@ -107,11 +107,7 @@ def run(args) -> int:
             raise api.InputError("spice", exc.reason) from None
         except OSError as exc:
             raise api.InputError("spice", f"cannot write {args.spice!r}: {exc.strerror or exc}") from None
-    if args.json:
-        print_json(result)
-    else:
-        print_readable(result)
-    return 0
+    return emit(args, result, print_readable)
 
 
 COMMAND = Command("bias", "build one circuit for a single supply: reference, coupling, DC node voltages, swing", configure, run, order=76)

@@ -7,7 +7,7 @@ from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_source_option, print_json
+from bandsmith.app.cli.common import Command, add_source_option, emit, print_json
 
 
 def configure(p):
@@ -95,11 +95,7 @@ def run(args) -> int:
         rsource_ohm=args.rsource,
     )
     out = report.to_json()
-    if args.json:
-        print_json(out)
-    else:
-        print_readable(out)
-    return 0
+    return emit(args, out, print_readable)
 
 
 COMMAND = Command("burst", "the response of one candidate to a tone burst: envelope, settling and ring-down", configure, run, order=58)

@@ -11,7 +11,7 @@ from bandsmith.bench.headroom import DEFAULT_SUPPLY_V
 from bandsmith.common.values import format_value, parse_positive
 
 from bandsmith.app.cli.amps import user_shelf
-from bandsmith.app.cli.common import Command, print_json
+from bandsmith.app.cli.common import Command, emit
 from bandsmith.app.cli.text import table
 
 
@@ -86,11 +86,7 @@ def run(args) -> int:
     api.tolerances_of(args.tol_f0, args.tol_q, args.tol_gain_db)
     report = api.check_opamps(args.topology, args.parts, amps=args.amp or None, shelf=user_shelf().amps, **options)
     result = report.to_json()
-    if args.json:
-        print_json(result)
-    else:
-        print_readable(result)
-    return 0
+    return emit(args, result, print_readable)
 
 
 COMMAND = Command("check", "check one candidate against the op-amp shelf: verdicts, margins, headroom", configure, run, order=75)

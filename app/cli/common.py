@@ -133,3 +133,12 @@ def tempcos_from(items, example: str = "R=50, C=30, L=200, R2=25") -> dict[str, 
 
     given = api.split_assignments(items, field="tc", form=f"KIND=PPM ({example})")
     return {k: api.parse_value(v, field=f"tc {k}") * 1e-6 for k, v in given.items()}
+
+
+def emit(args, out: dict, readable: Callable[[dict], None]) -> int:
+    """Print a command's result: its JSON object with ``--json``, else ``readable(out)``; exit 0."""
+    if args.json:
+        print_json(out)
+    else:
+        readable(out)
+    return 0

@@ -9,7 +9,7 @@ from bandsmith.common.errors import InputError
 from bandsmith.bench.measured import FREQ_UNITS, ColumnMapping, MappingNeeded, guess_mapping, read_measurement, scan_table
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json
+from bandsmith.app.cli.common import Command, emit
 from bandsmith.app.cli.text import table
 
 _MAPPING_HINT = "give --columns F,M[,P] (column numbers from 1) and the units with --freq-unit, --mag-unit, --phase-unit"
@@ -114,11 +114,7 @@ def print_readable(r: dict) -> None:
 
 def run(args) -> int:
     result = fit_report(args).to_json()
-    if args.json:
-        print_json(result)
-    else:
-        print_readable(result)
-    return 0
+    return emit(args, result, print_readable)
 
 
 COMMAND = Command("fit", "fit a design's parts to a measured response: which parts explain the difference", configure, run, order=60)

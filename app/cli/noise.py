@@ -7,7 +7,7 @@ from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_source_option, print_json
+from bandsmith.app.cli.common import Command, add_source_option, emit
 from bandsmith.app.cli.text import table
 
 
@@ -61,11 +61,7 @@ def run(args) -> int:
         rsource_ohm=args.rsource,
     )
     result = report.to_json()
-    if args.json:
-        print_json(result)
-    else:
-        print_readable(result)
-    return 0
+    return emit(args, result, print_readable)
 
 
 COMMAND = Command("noise", "output noise per source (resistors, op-amp en and in), integrated over a band, and the SNR", configure, run, order=45)

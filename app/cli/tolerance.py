@@ -9,7 +9,7 @@ from bandsmith.circuits import get_topology
 from bandsmith.spread.tolerance import STAT_KEYS
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_source_option, print_json
+from bandsmith.app.cli.common import Command, add_source_option, emit
 from bandsmith.app.cli.text import figures_rows, table
 
 
@@ -98,11 +98,7 @@ def print_readable(r: dict) -> None:
 
 def run(args) -> int:
     result = api.tolerance(args.topology, args.parts, **options_from(args)).to_json()
-    if args.json:
-        print_json(result)
-    else:
-        print_readable(result)
-    return 0
+    return emit(args, result, print_readable)
 
 
 COMMAND = Command("tolerance", "Monte Carlo tolerance spread, yield and worst case of one candidate", configure, run, order=40)

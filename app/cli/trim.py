@@ -5,7 +5,7 @@ from __future__ import annotations
 from bandsmith import api
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json, tempcos_from
+from bandsmith.app.cli.common import Command, emit, tempcos_from
 from bandsmith.app.cli.text import table
 
 
@@ -64,11 +64,7 @@ def run(args) -> int:
                       measured_f0_hz=args.measured_f0, target_f0_hz=args.target_f0,
                       measured=args.measured, trials=args.trials, window=args.window, seed=args.seed,
                       temp_range_c=args.temp_range, tempco=tempcos_from(args.tc)).to_json()
-    if args.json:
-        print_json(result)
-    else:
-        print_readable(result)
-    return 0
+    return emit(args, result, print_readable)
 
 
 COMMAND = Command("trim", "a trim plan: the part to adjust for f0, Q and gain, trimmer and fixed resistor, correction", configure, run, order=77)
