@@ -6,7 +6,6 @@ Rendered images are kept in tests/_artifacts/report/ (not committed) for a perso
 from __future__ import annotations
 
 import base64
-import html as htmllib
 import math
 import re
 import shutil
@@ -23,11 +22,11 @@ from bandsmith.circuits import all_topologies, get_topology
 from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target, load_session, save_session
 from bandsmith.common.values import format_rkm, format_value
 from cli_helpers import run_command, run_installed
+from report_helpers import visible_text, png_size
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "resources" / "demo_session.bandsmith.json"
 ARTIFACTS = ROOT / "tests" / "_artifacts" / "report"
-PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 UNITS = {"R": "Ω", "L": "H", "C": "F"}
 
 # The three cautions the README states ("Cautions"); each fact must be in every report.
@@ -60,16 +59,6 @@ def _bandsmith(*args, cwd=None):
     return run_command(args, cwd=cwd or ROOT)
 
 
-def _text(page: str) -> str:
-    """Visible text of an HTML page, entities decoded, white space folded."""
-    page = re.sub(r"<(style|script)[^>]*>.*?</\1>", " ", page, flags=re.S)
-    return re.sub(r"\s+", " ", htmllib.unescape(re.sub(r"<[^>]+>", " ", page)))
-
-
-def _png_size(data: bytes) -> tuple[int, int]:
-    assert data[:8] == PNG_MAGIC
-    # PNG (ISO/IEC 15948) IHDR: width and height are big-endian 32-bit at bytes 16-24.
-    return int.from_bytes(data[16:20], "big"), int.from_bytes(data[20:24], "big")
 
 
 def _analyses(session: Session):
@@ -84,14 +73,14 @@ def test_cli_html_report_has_plots_parts_needs_and_cautions(session_file, tmp_pa
     r = _bandsmith("report", session_file, "-o", out)
     assert r.returncode == 0, r.stderr
     page = out.read_text(encoding="utf-8")
-    text = _text(page)
+    text = visible_text(page)
     session = load_session(session_file)
 
     # The four plots, embedded as PNG images (later sections may add images of their own).
     uris = re.findall(r'<img src="data:image/png;base64,([A-Za-z0-9+/=]+)"[^>]* id="plot-', page)
     assert len(uris) == 4
     for u in uris:
-        w, h = _png_size(base64.b64decode(u))
+        w, h = png_size(base64.b64decode(u))
         assert w >= 900 and h >= 300
     for key in ("magnitude", "phase", "group_delay", "step"):
         assert f'id="plot-{key}"' in page
@@ -129,7 +118,7 @@ def test_figures_in_report_match_closed_form_mfb(qapp):
     topo = get_topology("mfb")
     v = dict(topo.example)
     s = Session(Target(2000.0, 5.0, 4.0), (CandidateEntry("mfb", "mfb", v),))
-    text = _text(build_report_html(s, images=False))
+    text = visible_text(build_report_html(s, images=False))
     # S. Franco, Design with Operational Amplifiers and Analog Integrated Circuits, 3rd ed., ch. 3:
     # w0 = sqrt((1/R1 + 1/R2)/(R3 C1 C2)), Q = w0 R3 C1 C2/(C1 + C2), H0 = -R3 C1/(R1 (C1 + C2)).
     r1, r2, r3, c1, c2 = (v[k] for k in ("R1", "R2", "R3", "C1", "C2"))
@@ -167,7 +156,7 @@ def test_switched_off_candidate_is_listed_but_not_plotted(qapp):
     assert off.id not in [p.label for p in plot_inputs([(c.label, c.index, c.analysis) for c in ctx.active])]
     from bandsmith.app.report.builder import render_html
 
-    text = _text(render_html(ctx))
+    text = visible_text(render_html(ctx))
     assert f"{off.id}: " in text and "switched off (not in the plots)" in text
 
 
@@ -216,7 +205,7 @@ def test_cli_pdf_report_opens_with_pages_text_and_images(session_file, tmp_path)
         subprocess.run(["pdftoppm", "-r", "80", "-f", "1", "-l", "2", "-png", str(out), str(ARTIFACTS / "page")], check=True, timeout=120)
         pages = sorted(ARTIFACTS.glob("page-*.png"))
         assert pages
-        w, h = _png_size(pages[0].read_bytes())
+        w, h = png_size(pages[0].read_bytes())
         # A4 at 80 dpi: 210 mm × 297 mm → 661 × 935 px (ISO 216).
         assert abs(w - 661) <= 2 and abs(h - 935) <= 2
 
@@ -319,7 +308,7 @@ def test_rendered_plots_are_png_with_every_candidate(qapp):
     assert set(imgs) == {"magnitude", "phase", "group_delay", "step"}
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     for key, data in imgs.items():
-        assert _png_size(data) == (1600, 680)
+        assert png_size(data) == (1600, 680)
         (ARTIFACTS / f"plot-{key}.png").write_bytes(data)
     w = build_plot_widget(plots[0])
     item = w.getPlotItem()
@@ -343,7 +332,7 @@ def test_empty_session_and_ideal_opamp(qapp, tmp_path):
 
     ideal = Session(Target(2000.0, 5.0, 4.0), (CandidateEntry("mfb", "mfb", dict(get_topology("mfb").example)),))
     page = build_report_html(ideal)
-    text = _text(page)
+    text = visible_text(page)
     assert page.count('class="plot" id="plot-') == 4
     assert "with an ideal op-amp" in text
     assert "GBW " not in re.search(r"Achieved figures.*?Amplifier needs", text).group(0)  # one column: ideal
@@ -364,5 +353,5 @@ def test_unstable_candidate_is_warned_and_kept_out_of_the_plots(qapp):
     ctx = make_context(s, images=False)
     assert [c.label for c in ctx.active] == ["mfb"]
     assert ctx.candidates[1].index == 1  # keeps its colour
-    text = _text(render_html(ctx))
+    text = visible_text(render_html(ctx))
     assert "Warning: unstable" in text

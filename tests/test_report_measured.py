@@ -19,21 +19,12 @@ from bandsmith.bench.measured import read_measurement, with_measurement
 from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target, save_session
 from cli_helpers import run_command
 from measured_helpers import MFB, moved, sweep, true_figures, write_layouts
+from report_helpers import visible_text, png_size
 
 ROOT = Path(__file__).resolve().parents[1]
 ARTIFACTS = ROOT / "tests" / "_artifacts" / "report"
-PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 
 
-def _text(page: str) -> str:
-    page = re.sub(r"<(style|script)[^>]*>.*?</\1>", " ", page, flags=re.S)
-    return re.sub(r"\s+", " ", htmllib.unescape(re.sub(r"<[^>]+>", " ", page)))
-
-
-def _png_size(data: bytes) -> tuple[int, int]:
-    assert data[:8] == PNG_MAGIC
-    # PNG (ISO/IEC 15948) IHDR: width and height are big-endian 32-bit at bytes 16-24.
-    return int.from_bytes(data[16:20], "big"), int.from_bytes(data[20:24], "big")
 
 
 def _measured_session(tmp_path, layout="csv_khz", candidate="mfb"):
@@ -63,7 +54,7 @@ def test_report_shows_overlay_figures_and_diagnosis(qapp, tmp_path):
     session, m = _measured_session(tmp_path)
     page = build_report_html(session)
     sec = _section(page)
-    text = _text(sec)
+    text = visible_text(sec)
     assert "Measured against the design" in text and m.source in text and m.sha256[:12] in text
     assert "201 points" in text and "magnitude and phase" in text and "built from candidate mfb" in text
 
@@ -71,7 +62,7 @@ def test_report_shows_overlay_figures_and_diagnosis(qapp, tmp_path):
     for key in ("magnitude", "phase"):
         mt = re.search(rf'<img src="data:image/png;base64,([A-Za-z0-9+/=]+)"[^>]*id="measured-1-{key}"', sec)
         assert mt, key
-        w, h = _png_size(base64.b64decode(mt.group(1)))
+        w, h = png_size(base64.b64decode(mt.group(1)))
         assert w >= 900 and h >= 300
 
     # The read-off figures match the moved board's true ones (derived from its biquad), within what
@@ -108,10 +99,10 @@ def test_magnitude_only_and_missing_candidate(qapp, tmp_path):
     session, m = _measured_session(tmp_path, layout="quoted_magnitude")
     sec = _section(build_report_html(session))
     assert 'id="measured-1-magnitude"' in sec and 'id="measured-1-phase"' not in sec
-    assert "magnitude only" in _text(sec) and "Diagnosis:" in _text(sec)
+    assert "magnitude only" in visible_text(sec) and "Diagnosis:" in visible_text(sec)
 
     orphan, _ = _measured_session(tmp_path, candidate="gone")
-    text = _text(_section(build_report_html(orphan, images=False)))
+    text = visible_text(_section(build_report_html(orphan, images=False)))
     assert "No diagnosis: its candidate is not in this session" in text
     assert "<img" not in _section(build_report_html(orphan, images=False))
 
@@ -136,7 +127,7 @@ def test_headless_report_command_includes_it(tmp_path):
     assert r.returncode == 0, r.stderr
     page = out.read_text(encoding="utf-8")
     sec = _section(page)
-    assert 'id="measured-1-magnitude"' in sec and 'id="measured-1-phase"' in sec and "Diagnosis:" in _text(sec)
+    assert 'id="measured-1-magnitude"' in sec and 'id="measured-1-phase"' in sec and "Diagnosis:" in visible_text(sec)
     pdf = tmp_path / "report.pdf"
     r = run_command(["report", path, "-o", pdf], cwd=ROOT)
     assert r.returncode == 0, r.stderr

@@ -7,7 +7,6 @@ bandsmith.bench.headroom's for the chosen model.
 
 from __future__ import annotations
 
-import html as htmllib
 import re
 from dataclasses import replace
 
@@ -17,6 +16,7 @@ from bandsmith.bench.headroom import headroom
 from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target
 from bandsmith.bench.shelf import OpAmp
 from bandsmith.common.values import format_value
+from report_helpers import visible_text
 
 MFB = {"R1": 10e3, "R2": 866.0, "R3": 82e3, "C1": 10e-9, "C2": 10e-9}  # the MFB example (core/circuits/mfb.py)
 
@@ -27,10 +27,6 @@ def bench(name, gbw_hz):
         supply_max_v=40.0, swing_neg_v=0.5, swing_pos_v=0.5, cm_neg_v=0.5, cm_pos_v=0.5,
     )
 
-
-def _text(page: str) -> str:
-    page = re.sub(r"<(style|script)[^>]*>.*?</\1>", " ", page, flags=re.S)
-    return re.sub(r"\s+", " ", htmllib.unescape(re.sub(r"<[^>]+>", " ", page)))
 
 
 def _session():
@@ -53,11 +49,11 @@ def test_verdict_table_reasons_and_chosen_headroom(qapp):
     page = build_report_html(s, images=False)
     start = page.index('<h2 class="shelf"')
     sec = page[start:page.index("<h2", start + 5)]
-    text = _text(sec)
+    text = visible_text(sec)
     table = re.search(r'<table class="shelf".*?</table>', sec, flags=re.S).group(0)
     heads = re.findall(r"<th>(.*?)</th>", table)
     assert heads[-1] == "mfb" and "off" not in heads  # active candidates only
-    rows = {re.search(r"<b>(.*?)</b>", r).group(1): _text(r) for r in re.findall(r"<tr>(.*?)</tr>", table, flags=re.S)[1:]}
+    rows = {re.search(r"<b>(.*?)</b>", r).group(1): visible_text(r) for r in re.findall(r"<tr>(.*?)</tr>", table, flags=re.S)[1:]}
     assert "✗ does not fit" in rows["just below"]
     assert "◐ marginal" in rows["just above"]
     assert "✓ fits" in rows["plenty"] and "chosen" in rows["plenty"]

@@ -6,7 +6,6 @@ on a session made of the core's designs.
 
 from __future__ import annotations
 
-import html as htmllib
 import re
 from dataclasses import replace
 
@@ -18,14 +17,11 @@ from bandsmith.files.session import CandidateEntry, Session, Target
 from bandsmith.verdict import VerdictLimits, compare_verdicts
 
 from bandsmith.app.document.comparison import LIMITS_KEY, limits_section
+from report_helpers import visible_text
 
 # Invented test target (our own scenario, no source needed): a 1.2 kHz tone filter, Q 4, gain 2.
 SPEC = Spec(1200.0, 4.0, 2.0)
 
-
-def _text(page: str) -> str:
-    page = re.sub(r"<(style|script)[^>]*>.*?</\1>", " ", page, flags=re.S)
-    return re.sub(r"\s+", " ", htmllib.unescape(re.sub(r"<[^>]+>", " ", page)))
 
 
 @pytest.fixture(scope="module")
@@ -45,7 +41,7 @@ def test_verdict_section_comes_before_the_plots_with_the_core_verdicts(qapp, cor
     assert names.index("target") < names.index("verdicts") < names.index("plots") < names.index("candidates")
     page = build_report_html(_session(core), images=True)
     assert page.index(">Target<") < page.index(">Which to build<") < page.index('<h2 class="plots">') < page.index('<h2 class="candidate"')
-    text = _text(page)
+    text = visible_text(page)
     section = text[text.index("Which to build"):]
     assert f"Recommended: {core.recommended}" in section
     for r, v, rank in core.ranked():
@@ -60,7 +56,7 @@ def test_changed_limits_are_named_and_change_the_verdicts(qapp, core):
     from bandsmith.app.report.builder import build_report_html
 
     tight = replace(VerdictLimits(), r_spread_marginal=1.5, r_spread_max=2.0)
-    text = _text(build_report_html(_session(core, **{LIMITS_KEY: limits_section(tight)}), images=False))
+    text = visible_text(build_report_html(_session(core, **{LIMITS_KEY: limits_section(tight)}), images=False))
     section = text[text.index("Which to build"):]
     assert "r spread marginal 1.5" in section and "r spread max 2.0" in section
     assert "resistor spread" in section
@@ -69,7 +65,7 @@ def test_changed_limits_are_named_and_change_the_verdicts(qapp, core):
 def test_a_damaged_limits_section_is_reported_and_the_defaults_used(qapp, core):
     from bandsmith.app.report.builder import build_report_html
 
-    text = _text(build_report_html(_session(core, **{LIMITS_KEY: {"bogus": 1}}), images=False))
+    text = visible_text(build_report_html(_session(core, **{LIMITS_KEY: {"bogus": 1}}), images=False))
     assert "verdict limits cannot be used" in text and "the default verdict limits" in text
 
 
