@@ -59,3 +59,27 @@ def test_normalised_by_the_tolerances():
     loose = gbw_error_sweep(nl, ideal, g)
     assert_allclose(tight.worst, 10.0 * loose.worst, rtol=1e-9)
     assert_allclose(tight.f0_error, loose.f0_error)
+
+
+def test_the_narrow_peak_of_a_loop_near_oscillation_is_measured():
+    # A state-variable loop's Q rises steeply as the GBW falls (to thousands a few decades above
+    # f0): the sweep measures that narrow peak, checked on a dense scipy.signal.freqs sweep
+    # (scipy.signal as the reference library) around it.
+    from bandsmith.analysis.analyzer import analyze
+
+    topo = get_topology("state-variable")
+    an = analyze(topo.build(dict(topo.example)))
+    ref = an.ideal.item()
+    ladder = gbw_ladder(ref.f0_hz, n=61)
+    s = gbw_error_sweep(an.netlist, an.ideal, ladder, family=an.family)
+    k = int(np.nanargmax(s.q_error))
+    q = ref.q * (1.0 + s.q_error[k])
+    assert q > 20.0 * ref.q  # a peak far narrower than the ideal one
+    f_pk = ref.f0_hz * (1.0 + s.f0_error[k])
+    b, a = transfer_function(an.netlist, OpAmpModel(float(ladder[k]), 1e5)).to_s(0)
+    f = np.linspace(f_pk * (1.0 - 2.0 / q), f_pk * (1.0 + 2.0 / q), 400001)
+    _, h = scipy.signal.freqs(b, a, worN=2 * math.pi * f)
+    mag = np.abs(h)
+    above = f[mag >= mag.max() / math.sqrt(2.0)]
+    assert_allclose(f[np.argmax(mag)], f_pk, rtol=1e-7)
+    assert_allclose(f_pk / (above[-1] - above[0]), q, rtol=1e-3)  # grid step 1e-5 of the band

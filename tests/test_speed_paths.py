@@ -111,7 +111,10 @@ def test_quadratic_hurwitz_shortcut_agrees_with_the_roots():
 @pytest.mark.parametrize("circuit", ["rlc-tank", "mfb", "sallen-key", "dabp", "state-variable"])
 def test_gbw_error_sweep_through_the_family_agrees_with_the_batched_solve(circuit, monkeypatch):
     """gbw_error_sweep (the op-amp family) against the same sweep through the batched MNA solve
-    of every GBW: the same errors to rounding (1e-9 of a percent is far below any display)."""
+    of every GBW: the same figures to 1e-7 relative. Rounding can send a member to the other of
+    the sweep's two measurements (Newton's method or companion-matrix roots), and the roots lose
+    up to about 1e-6 of Q where far op-amp poles leave tiny leading coefficients (Newton's
+    method agrees there with a 50-digit evaluation to 5e-13, checked with mpmath)."""
     import math
 
     from bandsmith.analysis import gbw_sweep
@@ -133,6 +136,7 @@ def test_gbw_error_sweep_through_the_family_agrees_with_the_batched_solve(circui
     monkeypatch.setattr(gbw_sweep, "rational_and_family", lambda *a: (None, None))
     monkeypatch.setattr(gbw_sweep, "transfer_function", solved)
     slow = gbw_sweep.gbw_error_sweep(netlist, ideal, ladder)
-    for a, b in ((fast.f0_error, slow.f0_error), (fast.q_error, slow.q_error), (fast.gain_error_db, slow.gain_error_db)):
-        assert_allclose(a, b, rtol=1e-9, atol=1e-12)
+    assert_allclose(1.0 + fast.f0_error, 1.0 + slow.f0_error, rtol=1e-7)
+    assert_allclose(1.0 + fast.q_error, 1.0 + slow.q_error, rtol=1e-7)
+    assert_allclose(fast.gain_error_db, slow.gain_error_db, atol=1e-6)
     assert math.isfinite(float(np.min(fast.worst)))

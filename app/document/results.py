@@ -86,7 +86,9 @@ def analyse_entry(
                 lo_hz=min(wanted) / 3.0 if wanted else None,
                 hi_hz=max(wanted) * 3.0 if wanted else None,
             )
-            gbw = gbw_error_sweep(an.netlist, an.ideal, ladder, a0=conditions.a0, tolerances=conditions.tolerances)
+            gbw = gbw_error_sweep(
+                an.netlist, an.ideal, ladder, a0=conditions.a0, tolerances=conditions.tolerances, family=an.family
+            )
         two_pi = 2.0 * math.pi
         return CandidateResult(
             entry=entry,

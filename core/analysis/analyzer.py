@@ -28,7 +28,7 @@ from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
-from bandsmith.solver.rational import OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, rational_from_system, reference_w, nominal_w_ref
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, rational_from_system, reference_w, nominal_w_ref
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes, step_response
 
 __all__ = [
@@ -185,6 +185,9 @@ class Analysis:
     sensitivity: Mapping[str, Mapping[str, float]]
     h_ideal: Rational
     h_actual: Rational | None
+    # the transfer function's dependence on a common single-pole op-amp (None without op-amps or
+    # where no family applies): it gives the figures at any GBW without a solve (gbw_error_sweep)
+    family: OpAmpFamily | AmpFamily | None = field(default=None, repr=False, compare=False)
     _step: StepResponse | None = field(default=None, repr=False, compare=False)
     # stable_ideal and stable_actual, found when first asked for (the verdict and the JSON ask thrice)
     _stable_ideal: bool | None = field(default=None, repr=False, compare=False)
@@ -764,6 +767,7 @@ def analyze(
         sensitivity=sens,
         h_ideal=h_ideal,
         h_actual=h_actual,
+        family=first.family,
     )
 
 

@@ -57,6 +57,15 @@ class Figures:
         """A sub-batch (a slice or index array), as arrays."""
         return Figures(*[np.asarray(getattr(self, name))[index] for name in _FIELDS])
 
+    def put(self, index, other: "Figures") -> "Figures":
+        """A copy with the members at ``index`` (an index array) replaced by ``other``'s, in order."""
+        out = []
+        for name in _FIELDS:
+            v = np.array(getattr(self, name))
+            v[index] = getattr(other, name)
+            out.append(v)
+        return Figures(*out)
+
     def item(self, i: int = 0) -> "Figures":
         """Member ``i`` as scalars (floats)."""
         out = []
@@ -254,7 +263,7 @@ def biquad_figures(b1, a2, a1, a0, w_ref) -> tuple[Figures, np.ndarray]:
     return fig, stable & fig.valid
 
 
-def measure_near(h: Rational, ref: Figures, *, spread: float) -> Figures:
+def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = False) -> Figures:
     """Figures of members known to lie near reference figures (a GBW ladder near the ideal op-amp).
 
     The peak and the half-power points are found by Newton's method started at ``ref``'s (one
@@ -262,13 +271,17 @@ def measure_near(h: Rational, ref: Figures, *, spread: float) -> Figures:
     which it does not converge, or converges farther than a factor ``1 + spread`` from the start,
     gets NaN figures: it is off the reference by more than ``spread``. Cheaper than
     :func:`measure` by a fixed cost, for callers that ask "within tolerance of the reference?"
-    and need exact figures only where it is.
+    and need exact figures only where it is. With ``only_peak`` a member gets NaN figures too
+    unless the peak found is the only one: unless ``P'Q − PQ'`` has one sign change in its
+    coefficients, so that by Descartes' rule of signs ``|H|²`` has one stationary point in
+    ``u > 0`` (then the peak is the highest and each half-power point the only one on its side,
+    exactly what :func:`measure` finds).
     """
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        return _measure_near(h, ref, spread)
+        return _measure_near(h, ref, spread, only_peak)
 
 
-def _measure_near(h: Rational, ref: Figures, spread: float) -> Figures:
+def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> Figures:
     b = h.batch
     to_u = (2.0 * np.pi / h.w_ref) ** 2
     k2 = (1.0 + spread) ** 2
@@ -278,6 +291,8 @@ def _measure_near(h: Rational, ref: Figures, spread: float) -> Figures:
     ref = ref.item()
     u0 = ref.f0_hz**2 * to_u
     u_pk, ok = _newton(slope, u0, k2)
+    if only_peak:
+        ok &= _sign_changes(slope) == 1
     half = _poly_sub(pu, qu * (0.5 * _ratio(pu, qu, u_pk))[:, None])
     ul = ref.f_low_hz**2 * to_u
     uh = ref.f_high_hz**2 * to_u
@@ -291,6 +306,15 @@ def _measure_near(h: Rational, ref: Figures, spread: float) -> Figures:
     return _figures(h, u_pk, u_low, u_high)
 
 
+def _sign_changes(c: np.ndarray) -> np.ndarray:
+    """Sign changes along each row of coefficients, zeros skipped (Descartes' rule of signs bounds
+    the positive real roots by it): shape ``(B,)``."""
+    sign = np.sign(c)
+    last = np.maximum.accumulate(np.where(sign != 0, np.arange(c.shape[1]), 0), axis=1)
+    held = np.take_along_axis(sign, last, axis=1)  # each zero takes the sign before it (leading ones stay 0)
+    return (held[:, 1:] * held[:, :-1] < 0).sum(axis=1)
+
+
 _NEWTON_MOST = 40
 
 
@@ -299,7 +323,8 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     and a mask of the members that converged (last step below 1e-5 relative, so that the error
     after it is of order 1e-10) within a factor ``k2`` of their start. Iterates until every
     member has converged or left that window, testing that after ``first`` steps and then every
-    other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps."""
+    other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps, and then takes
+    one step more."""
     b = poly.shape[0]
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
@@ -321,6 +346,10 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
                 ok = (np.abs(step) <= 1e-5 * np.abs(x)) & inside  # quadratic: ~1e-10 after it
                 if not (inside & ~ok).any():
                     break
+        # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which
+        # for a band edge is the bandwidth (x/Q); after this step it is rounding
+        v = polyval_batch(both, np.concatenate((x, x)))
+        x = x - v[:b] / v[b:]
     return x, ok
 
 

@@ -1,8 +1,9 @@
 """Response error of a candidate versus the op-amp's gain-bandwidth, over a GBW ladder.
 
-For each GBW of the ladder the single-pole op-amp model gives a transfer function (one batched
-solve for the whole ladder); its figures are measured and compared with the ideal-op-amp figures
-of the same circuit. Each error is normalised by its tolerance, so 1.0 means "at the limit", and
+For each GBW of the ladder the single-pole op-amp model gives a transfer function (the op-amp
+family of the circuit, else one batched solve for the whole ladder); its figures are measured and
+compared with the ideal-op-amp figures of the same circuit: by Newton's method from the ideal
+figures where they lie within a factor two of them, exactly (companion-matrix roots) elsewhere. Each error is normalised by its tolerance, so 1.0 means "at the limit", and
 the worst of the three is the one a designer reads: the smallest GBW where the worst normalised
 error stays below 1 is the required GBW of :func:`bandsmith.analysis.analyzer.required_gbw`.
 """
@@ -15,17 +16,19 @@ from dataclasses import dataclass
 import numpy as np
 
 from bandsmith.analysis.analyzer import DEFAULT_A0, Tolerances, transfer_function
-from bandsmith.analysis.figures import Figures, measure
+from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.solver.mna import build_system
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import rational_and_family
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, rational_and_family
 
 __all__ = ["GbwSweep", "gbw_ladder", "gbw_error_sweep"]
 
-# The figures of a GBW ladder are searched on ω/w_ref in [1e-2, 1e2]: the band of any candidate
-# the workbench shows lies well inside (bandwidths up to 100× around f0), and a narrower grid than
-# figures.default_grid keeps a 60-point ladder at about a millisecond.
-_SEARCH_GRID = np.logspace(-2.0, 2.0, 801)
+# Ladder members whose figures lie within a factor 1 + _NEAR_SPREAD of the ideal ones and whose
+# |H| has one peak are measured by Newton's method from them (measure_near); the rest exactly (a
+# GBW of a few f0; a dual-amplifier circuit, whose op-amps add a second resonance). A search on a
+# grid would miss the narrow peak of a loop near oscillation (a state-variable's Q in the thousands).
+_NEAR_SPREAD = 9.0
+_NEAR_Q = 4.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -78,6 +81,7 @@ def gbw_error_sweep(
     *,
     a0: float = DEFAULT_A0,
     tolerances: Tolerances = Tolerances(),
+    family: OpAmpFamily | AmpFamily | None = None,
 ) -> GbwSweep:
     """Errors of a candidate's figures with a single-pole op-amp of each GBW in ``gbw_hz``.
 
@@ -93,6 +97,9 @@ def gbw_error_sweep(
         Open-loop gain (V/V) of the op-amp model.
     tolerances : Tolerances
         The limits each error is normalised by.
+    family : OpAmpFamily or AmpFamily, optional
+        The circuit's op-amp family when the caller has it (:attr:`bandsmith.analysis.analyzer.Analysis.family`);
+        else it is built here.
     """
     g = np.asarray(gbw_hz, dtype=float).reshape(-1)
     ref = ideal.item()
@@ -101,14 +108,17 @@ def gbw_error_sweep(
         nan = np.full(n, np.nan)
         return GbwSweep(g, nan, nan.copy(), nan.copy(), np.full(n, np.inf))
     w_ref = 2.0 * math.pi * ref.f0_hz
-    family = None
-    if len(netlist.opamps) == 1:  # the one-op-amp family serves every GBW (several: transfer_function's)
+    if family is None and len(netlist.opamps) == 1:  # the one-op-amp family serves every GBW (several: transfer_function's)
         family = rational_and_family(build_system(netlist), w_ref)[1]
     if family is not None:
         h = family.at(g, np.full(n, float(a0)))
     else:
         h = transfer_function(netlist, gbw_hz=g, a0=np.full(n, float(a0)), w_ref=w_ref)
-    fig = measure(h, grid=_SEARCH_GRID)
+    fig = measure_near(h, ideal, spread=_NEAR_SPREAD, only_peak=True)
+    with np.errstate(invalid="ignore"):  # a Q far above the ideal one: its narrow band is measured exactly
+        far = np.flatnonzero(~(fig.valid & (fig.q < _NEAR_Q * ref.q)))
+    if far.size:
+        fig = fig.put(far, measure(h.take(far)))
     with np.errstate(invalid="ignore", divide="ignore"):
         f0_err = fig.f0_hz / ref.f0_hz - 1.0
         q_err = fig.q / ref.q - 1.0

@@ -57,7 +57,7 @@ def analyze_one(circuit: str = "mfb"):
         req = an.requirements
         wanted = [g for g in (cond.gbw_hz, req.gbw_hz) if g is not None and math.isfinite(g)]
         ladder = gbw_ladder(ideal.f0_hz, lo_hz=min(wanted) / 3.0, hi_hz=max(wanted) * 3.0)
-        gbw_error_sweep(an.netlist, an.ideal, ladder, a0=cond.a0, tolerances=cond.tolerances)
+        gbw_error_sweep(an.netlist, an.ideal, ladder, a0=cond.a0, tolerances=cond.tolerances, family=an.family)
         h.poles(0)
         h.zeros(0)
 
