@@ -290,20 +290,40 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
     slope = _slope_u(pu, qu)
     ref = ref.item()
     u0 = ref.f0_hz**2 * to_u
-    u_pk, ok = _newton(slope, u0, k2)
     if only_peak:
-        ok &= _sign_changes(slope) == 1
+        one = _sign_changes(slope) == 1
+        if not one.any():  # (a dual-amplifier circuit's op-amps add stationary points)
+            nan = np.full(b, np.nan)
+            return _figures(h, nan, nan, nan)
+    u_pk, ok = _newton(slope, u0, k2)
     half = _poly_sub(pu, qu * (0.5 * _ratio(pu, qu, u_pk))[:, None])
-    ul = ref.f_low_hz**2 * to_u
-    uh = ref.f_high_hz**2 * to_u
-    shift = u_pk / u0  # the band edges start where the moved peak carries them
-    both, ok2 = _newton(np.concatenate([half, half]), np.concatenate([ul * shift, uh * shift]), k2, first=5)
+    if only_peak:
+        ok &= one
+        # a Lorentzian in u with the peak's curvature, |H|² = peak/(1 + ((u − u_pk)/γ)²), puts
+        # the edges γ from the peak: γ² = −2·P·Q/(P''Q − P·Q'') there (P'Q = PQ' at the peak)
+        p0, q0, p2, q2 = np.split(polyval_batch(_second_derivatives(pu, qu), np.tile(u_pk, 4)), 4)
+        spread_u = 1.0 + np.sqrt(np.abs(2.0 * p0 * q0 / (p2 * q0 - p0 * q2))) / u_pk
+        starts = np.concatenate([u_pk / spread_u, u_pk * spread_u])
+    else:  # the band edges start where the moved peak carries the reference's
+        shift = u_pk / u0
+        starts = np.concatenate([ref.f_low_hz**2 * to_u * shift, ref.f_high_hz**2 * to_u * shift])
+    both, ok2 = _newton(np.concatenate([half, half]), starts, k2, first=5)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
     nan = np.nan
     u_pk = np.where(ok, u_pk, nan)
     u_low = np.where(ok & ok2[:b], both[:b], nan)
     u_high = np.where(ok & ok2[b:], both[b:], nan)
     return _figures(h, u_pk, u_low, u_high)
+
+
+def _second_derivatives(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
+    """``P``, ``Q``, ``P''`` and ``Q''`` stacked as one batch (padded to one length): ``(4B, k)``."""
+    rows = [pu, qu, polyder_batch(polyder_batch(pu)), polyder_batch(polyder_batch(qu))]
+    k = max(r.shape[1] for r in rows)
+    out = np.zeros((4 * pu.shape[0], k))
+    for i, r in enumerate(rows):
+        out[i * pu.shape[0] : (i + 1) * pu.shape[0], k - r.shape[1] :] = r
+    return out
 
 
 def _sign_changes(c: np.ndarray) -> np.ndarray:
