@@ -329,32 +329,34 @@ def _with_gbw(netlist: Netlist, family: OpAmpFamily | None, w_ref: float, gbw: n
 def _gbw_figures(
     netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float,
     gbw: np.ndarray, a0: float, tolerances: Tolerances,
-) -> Figures:
-    """Figures along GBW values (Hz), sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`):
-    a member farther off than about twice the tolerances fails whatever its exact figures are."""
+) -> tuple[Rational, Figures]:
+    """Transfer functions and figures along GBW values (Hz), the figures sought near the ideal
+    ones (:func:`bandsmith.analysis.figures.measure_near`): a member farther off than about twice
+    the tolerances fails whatever its exact figures are."""
     h = _with_gbw(netlist, family, w_ref, gbw, a0)
-    return measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
+    return h, measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
 
 
 def _search_gbw(
     netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float, *, a0: float, tolerances: Tolerances,
     probe: float | None = None,
-) -> tuple[tuple[float | None, str | None], Figures | None]:
+) -> tuple[tuple[float | None, str | None], tuple[Rational, Figures] | None]:
     """The required-GBW search: a coarse ladder, then a fine one in the last failing step.
 
-    With ``probe`` (a GBW in Hz, same ``a0``) its figures ride along in the coarse batch and are
-    returned too (NaN where they are not near the ideal ones: the caller measures them exactly).
+    With ``probe`` (a GBW in Hz, same ``a0``) it rides along in the coarse batch, and its
+    transfer function and figures are returned too (NaN figures where they are not near the
+    ideal ones: the caller measures them exactly).
     """
     ref = ideal.item()
     if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
         return (None, "the circuit has no band-pass peak with an ideal op-amp"), None
     ladder = _ladder(ref.f0_hz)
+    at_probe = None
     if probe is None:
-        on_ladder = _gbw_figures(netlist, ideal, family, w_ref, ladder, a0, tolerances)
-        at_probe = None
+        on_ladder = _gbw_figures(netlist, ideal, family, w_ref, ladder, a0, tolerances)[1]
     else:
-        both = _gbw_figures(netlist, ideal, family, w_ref, np.append(ladder, probe), a0, tolerances)
-        on_ladder, at_probe = both.take(slice(0, ladder.size)), both.take(slice(ladder.size, None))
+        h, both = _gbw_figures(netlist, ideal, family, w_ref, np.append(ladder, probe), a0, tolerances)
+        on_ladder, at_probe = both.take(slice(0, ladder.size)), (h.item(ladder.size), both.take(slice(ladder.size, None)))
     return _conclude_gbw(netlist, ideal, family, w_ref, ladder, on_ladder, a0=a0, tolerances=tolerances), at_probe
 
 
@@ -422,7 +424,7 @@ def _conclude_gbw(
     if found is not None:
         return found, None
     fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
-    ok = within_tolerances(_gbw_figures(netlist, ideal, family, w_ref, fine, a0, tolerances), ref, tolerances)
+    ok = within_tolerances(_gbw_figures(netlist, ideal, family, w_ref, fine, a0, tolerances)[1], ref, tolerances)
     fails = np.flatnonzero(~ok)
     # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
     return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None
@@ -748,10 +750,13 @@ def analyze(
     first = _first_pass(netlist, parts)
     h_ideal, ideal, sens, w_ref = first.h_ideal, first.ideal, first.sensitivity, first.w_ref
     probe = opamp.gbw_hz if finite and opamp.a0 == a0 and first.family is not None else None
-    gbw_search, actual = _search_gbw(netlist, ideal, first.family, w_ref, a0=a0, tolerances=tolerances, probe=probe)
-    h_actual = None
-    if finite:
+    gbw_search, at_probe = _search_gbw(netlist, ideal, first.family, w_ref, a0=a0, tolerances=tolerances, probe=probe)
+    h_actual = actual = None
+    if at_probe is not None:
+        h_actual, actual = at_probe
+    elif finite:
         h_actual = _with_gbw(netlist, first.family, w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
+    if finite:
         if actual is None or not bool(actual.valid[0]):  # far from the ideal: measured exactly
             actual = measure(h_actual)
     req = requirements(
