@@ -24,7 +24,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
-from bandsmith.analysis.figures import Figures, measure, measure_near
+from bandsmith.analysis.figures import Figures, measure, measure_from, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
@@ -758,7 +758,7 @@ def analyze(
         h_actual = _with_gbw(netlist, first.family, w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
     if finite:
         if actual is None or not bool(actual.valid[0]):  # far from the ideal: measured exactly
-            actual = measure(h_actual)
+            actual = measure_from(h_actual, ideal)
     req = requirements(
         netlist, ideal, max_step_slope(h_ideal), vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
         gbw_search=gbw_search,

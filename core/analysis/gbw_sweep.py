@@ -2,8 +2,9 @@
 
 For each GBW of the ladder the single-pole op-amp model gives a transfer function (the op-amp
 family of the circuit, else one batched solve for the whole ladder); its figures are measured and
-compared with the ideal-op-amp figures of the same circuit: by Newton's method from the ideal
-figures where they lie within a factor two of them, exactly (companion-matrix roots) elsewhere. Each error is normalised by its tolerance, so 1.0 means "at the limit", and
+compared with the ideal-op-amp figures of the same circuit (found from them,
+:func:`bandsmith.analysis.figures.measure_from`: a search on a grid would miss the narrow peak of
+a loop near oscillation, a state-variable's Q in the thousands). Each error is normalised by its tolerance, so 1.0 means "at the limit", and
 the worst of the three is the one a designer reads: the smallest GBW where the worst normalised
 error stays below 1 is the required GBW of :func:`bandsmith.analysis.analyzer.required_gbw`.
 """
@@ -16,18 +17,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from bandsmith.analysis.analyzer import DEFAULT_A0, Tolerances, transfer_function
-from bandsmith.analysis.figures import Figures, measure, measure_near
+from bandsmith.analysis.figures import Figures, measure_from
 from bandsmith.solver.mna import build_system
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import AmpFamily, OpAmpFamily, rational_and_family
 
 __all__ = ["GbwSweep", "gbw_ladder", "gbw_error_sweep"]
 
-# Ladder members whose figures lie within a factor 1 + _NEAR_SPREAD of the ideal ones and whose
-# |H| has one peak are measured by Newton's method from them (measure_near); the rest exactly (a
-# GBW of a few f0; a dual-amplifier circuit, whose op-amps add a second resonance). A search on a
-# grid would miss the narrow peak of a loop near oscillation (a state-variable's Q in the thousands).
-_NEAR_SPREAD = 9.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -113,10 +109,7 @@ def gbw_error_sweep(
         h = family.at(g, np.full(n, float(a0)))
     else:
         h = transfer_function(netlist, gbw_hz=g, a0=np.full(n, float(a0)), w_ref=w_ref)
-    fig = measure_near(h, ideal, spread=_NEAR_SPREAD, only_peak=True)
-    far = np.flatnonzero(~fig.valid)
-    if far.size:
-        fig = fig.put(far, measure(h.take(far)))
+    fig = measure_from(h, ideal)
     with np.errstate(invalid="ignore", divide="ignore"):
         f0_err = fig.f0_hz / ref.f0_hz - 1.0
         q_err = fig.q / ref.q - 1.0
