@@ -15,7 +15,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass, field
-from typing import Mapping
+from typing import Mapping, Sequence
 
 import numpy as np
 
@@ -45,6 +45,7 @@ __all__ = [
     "amplifier_needs",
     "sensitivities",
     "analyze",
+    "analyze_many",
     "sweep",
     "within_tolerances",
     "is_stable",
@@ -330,10 +331,13 @@ def _gbw_figures(
     netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float,
     gbw: np.ndarray, a0: float, tolerances: Tolerances,
 ) -> tuple[Rational, Figures]:
-    """Transfer functions and figures along GBW values (Hz), the figures sought near the ideal
-    ones (:func:`bandsmith.analysis.figures.measure_near`): a member farther off than about twice
-    the tolerances fails whatever its exact figures are."""
-    h = _with_gbw(netlist, family, w_ref, gbw, a0)
+    """Transfer functions and figures along GBW values (Hz) (:func:`_near_figures`)."""
+    return _near_figures(_with_gbw(netlist, family, w_ref, gbw, a0), ideal, tolerances)
+
+
+def _near_figures(h: Rational, ideal: Figures, tolerances: Tolerances) -> tuple[Rational, Figures]:
+    """``h`` and its figures sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`):
+    a member farther off than about twice the tolerances fails whatever its exact figures are."""
     return h, measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
 
 
@@ -347,17 +351,39 @@ def _search_gbw(
     transfer function and figures are returned too (NaN figures where they are not near the
     ideal ones: the caller measures them exactly).
     """
-    ref = ideal.item()
-    if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
-        return (None, "the circuit has no band-pass peak with an ideal op-amp"), None
-    ladder = _ladder(ref.f0_hz)
-    at_probe = None
-    if probe is None:
-        on_ladder = _gbw_figures(netlist, ideal, family, w_ref, ladder, a0, tolerances)[1]
-    else:
-        h, both = _gbw_figures(netlist, ideal, family, w_ref, np.append(ladder, probe), a0, tolerances)
-        on_ladder, at_probe = both.take(slice(0, ladder.size)), (h.item(ladder.size), both.take(slice(ladder.size, None)))
-    return _conclude_gbw(netlist, ideal, family, w_ref, ladder, on_ladder, a0=a0, tolerances=tolerances), at_probe
+    return _search_gbw_many([(netlist, ideal, family, w_ref, probe)], a0=a0, tolerances=tolerances)[0]
+
+
+def _search_gbw_many(
+    items: Sequence[tuple[Netlist, Figures, OpAmpFamily | None, float, float | None]], *, a0: float, tolerances: Tolerances,
+) -> list[tuple[tuple[float | None, str | None], tuple[Rational, Figures] | None]]:
+    """:func:`_search_gbw` of several candidates ``(netlist, ideal, family, w_ref, probe)``, their
+    coarse ladders measured in one batch (each member near its own candidate's ideal figures)."""
+    out: list = [((None, "the circuit has no band-pass peak with an ideal op-amp"), None)] * len(items)
+    live, hs, refs = [], [], []
+    for i, (netlist, ideal, family, w_ref, probe) in enumerate(items):
+        ref = ideal.item()
+        if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
+            continue
+        ladder = _ladder(ref.f0_hz)
+        gbw = ladder if probe is None else np.append(ladder, probe)
+        live.append((i, ladder))
+        hs.append(_with_gbw(netlist, family, w_ref, gbw, a0))
+        refs.append(ideal)
+    if not live:
+        return out
+    h = hs[0] if len(hs) == 1 else Rational.joined(hs)
+    sizes = [x.batch for x in hs]
+    ref = refs[0] if len(refs) == 1 else Figures.repeated(refs, sizes)
+    _, fig = _near_figures(h, ref, tolerances)
+    start = 0
+    for (i, ladder), part, size in zip(live, hs, sizes):
+        netlist, ideal, family, w_ref, probe = items[i]
+        on_ladder = fig.take(slice(start, start + ladder.size))
+        at_probe = None if probe is None else (part.item(ladder.size), fig.take(slice(start + ladder.size, start + size)))
+        out[i] = (_conclude_gbw(netlist, ideal, family, w_ref, ladder, on_ladder, a0=a0, tolerances=tolerances), at_probe)
+        start += size
+    return out
 
 
 # Lagrange basis of the ladder points j−1, j, j+1, j+2 (uniform in log GBW) at sub-steps
@@ -740,6 +766,22 @@ def analyze(
     parts : mapping, optional
         The part values by component reference (for sensitivities); the netlist's by default.
     """
+    return analyze_many([netlist], opamp=opamp, vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances, parts=[parts])[0]
+
+
+def analyze_many(
+    netlists: Sequence[Netlist],
+    *,
+    opamp: OpAmpModel | None = None,
+    vin_v: float = 1.0,
+    a0: float | None = None,
+    rload_ohm: float | None = None,
+    tolerances: Tolerances = Tolerances(),
+    parts: Sequence[Mapping[str, float] | None] | None = None,
+) -> list[Analysis]:
+    """:func:`analyze` of several candidates under the same conditions (``parts``: one mapping or
+    None per netlist): their required-GBW ladders are measured in one batch, the rest one by one.
+    A compare or a stage of a chain analyses several circuits at once."""
     if not (math.isfinite(vin_v) and vin_v > 0):
         raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
     if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
@@ -747,33 +789,37 @@ def analyze(
     if a0 is None:
         a0 = opamp.a0 if opamp is not None else DEFAULT_A0
     finite = opamp is not None and not opamp.ideal
-    first = _first_pass(netlist, parts)
-    h_ideal, ideal, sens, w_ref = first.h_ideal, first.ideal, first.sensitivity, first.w_ref
-    probe = opamp.gbw_hz if finite and opamp.a0 == a0 and first.family is not None else None
-    gbw_search, at_probe = _search_gbw(netlist, ideal, first.family, w_ref, a0=a0, tolerances=tolerances, probe=probe)
-    h_actual = actual = None
-    if at_probe is not None:
-        h_actual, actual = at_probe
-    elif finite:
-        h_actual = _with_gbw(netlist, first.family, w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
-    if finite:
-        if actual is None or not bool(actual.valid[0]):  # far from the ideal: measured exactly
-            actual = measure_from(h_actual, ideal)
-    req = requirements(
-        netlist, ideal, max_step_slope(h_ideal), vin_v=vin_v, a0=a0, rload_ohm=rload_ohm, tolerances=tolerances,
-        gbw_search=gbw_search,
+    firsts = [_first_pass(n, p) for n, p in zip(netlists, parts if parts is not None else [None] * len(netlists))]
+    searches = _search_gbw_many(
+        [(n, f.ideal, f.family, f.w_ref, opamp.gbw_hz if finite and opamp.a0 == a0 and f.family is not None else None)
+         for n, f in zip(netlists, firsts)],
+        a0=a0, tolerances=tolerances,
     )
-    return Analysis(
-        netlist=netlist,
-        ideal=ideal,
-        actual=actual,
-        opamp=opamp if opamp is not None else IDEAL,
-        requirements=req,
-        sensitivity=sens,
-        h_ideal=h_ideal,
-        h_actual=h_actual,
-        family=first.family,
-    )
+    out = []
+    for netlist, first, (gbw_search, at_probe) in zip(netlists, firsts, searches):
+        h_actual = actual = None
+        if at_probe is not None:
+            h_actual, actual = at_probe
+        elif finite:
+            h_actual = _with_gbw(netlist, first.family, first.w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
+        if finite and (actual is None or not bool(actual.valid[0])):  # far from the ideal: measured exactly
+            actual = measure_from(h_actual, first.ideal)
+        req = requirements(
+            netlist, first.ideal, max_step_slope(first.h_ideal), vin_v=vin_v, a0=a0, rload_ohm=rload_ohm,
+            tolerances=tolerances, gbw_search=gbw_search,
+        )
+        out.append(Analysis(
+            netlist=netlist,
+            ideal=first.ideal,
+            actual=actual,
+            opamp=opamp if opamp is not None else IDEAL,
+            requirements=req,
+            sensitivity=first.sensitivity,
+            h_ideal=first.h_ideal,
+            h_actual=h_actual,
+            family=first.family,
+        ))
+    return out
 
 
 def sweep(h: Rational, f_hz: np.ndarray, *, i: int = 0) -> Response:

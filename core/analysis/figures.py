@@ -57,6 +57,11 @@ class Figures:
         """A sub-batch (a slice or index array), as arrays."""
         return Figures(*[np.asarray(getattr(self, name))[index] for name in _FIELDS])
 
+    @staticmethod
+    def repeated(members: "list[Figures]", counts) -> "Figures":
+        """One batch of one-member figures, member ``i`` repeated ``counts[i]`` times."""
+        return Figures(*[np.repeat([float(np.asarray(getattr(m, name)).item()) for m in members], counts) for name in _FIELDS])
+
     def put(self, index, other: "Figures") -> "Figures":
         """A copy with the members at ``index`` (an index array) replaced by ``other``'s, in order."""
         out = []
@@ -267,7 +272,7 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
     """Figures of members known to lie near reference figures (a GBW ladder near the ideal op-amp).
 
     The peak and the half-power points are found by Newton's method started at ``ref``'s (one
-    member, scalars or arrays of one; the band edges scaled by the peak's move); a member for
+    member for all, or one per member; the band edges scaled by the peak's move); a member for
     which it does not converge, or converges farther than a factor ``1 + spread`` from the start,
     gets NaN figures: it is off the reference by more than ``spread``. Cheaper than
     :func:`measure` by a fixed cost, for callers that ask "within tolerance of the reference?"
@@ -288,7 +293,8 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
     pu = _sq_mag_u(h.num)
     qu = _sq_mag_u(h.den)
     slope = _slope_u(pu, qu)
-    ref = ref.item()
+    if np.size(ref.f0_hz) == 1:
+        ref = ref.item()  # one reference for every member (else one per member)
     u0 = ref.f0_hz**2 * to_u
     if only_peak:
         one = _sign_changes(slope) == 1

@@ -315,14 +315,30 @@ def _design(topology_id: str, plan: SectionPlan, series: str, conditions: Condit
     return design(topology_id, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
 
 
-def _attempt(topology_id: str, plan: SectionPlan, series: str, conditions: Conditions):
-    from bandsmith.design.designer import spread_of
-    from bandsmith.design.standard import figure_misses, weighted_error
+def _attempts(topology_ids, plan: SectionPlan, series: str, conditions: Conditions):
+    """:func:`_attempt` of every circuit, their designs analysed in one batch."""
+    from bandsmith.design.designer import Spec, design_many
 
+    try:
+        results = design_many(topology_ids, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
+    except InputError:  # a circuit whose design raises: each on its own, to name it
+        return [_attempt(t, plan, series, conditions) for t in topology_ids]
+    return [_assess(t, res, plan, series, conditions) for t, res in zip(topology_ids, results)]
+
+
+def _attempt(topology_id: str, plan: SectionPlan, series: str, conditions: Conditions):
     try:
         res = _design(topology_id, plan, series, conditions)
     except InputError as exc:
         return None, Attempt(topology_id, False, None, None, None, exc.reason)
+    return _assess(topology_id, res, plan, series, conditions)
+
+
+def _assess(topology_id: str, res, plan: SectionPlan, series: str, conditions: Conditions):
+    """A circuit's design for a stage and what the stage makes of it: ``(result, Attempt)``."""
+    from bandsmith.design.designer import spread_of
+    from bandsmith.design.standard import figure_misses, weighted_error
+
     if not res.feasible:
         return res, Attempt(topology_id, False, None, None, None, res.reason or "cannot meet the stage's target")
     sp = spread_of(res.topology, res.chosen)
@@ -412,7 +428,7 @@ def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, condi
         if not att.feasible:
             return Stage(plan, vin_v, res, (att,), False, f"{settings.circuit} cannot build it: {att.reason}")
         return _finish(plan, vin_v, res, (att,), conditions, (f"{att.reason}",) if att.reason else ())
-    tried = [_attempt(t, plan, settings.series, cond) for t in topology_ids()]
+    tried = _attempts(topology_ids(), plan, settings.series, cond)
     attempts = tuple(a for _, a in tried)
     usable = [(i, res, a) for i, (res, a) in enumerate(tried) if a.sane]
     if not usable:

@@ -8,9 +8,9 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Mapping
+from typing import Mapping, Sequence
 
-from bandsmith.analysis.analyzer import DEFAULT_A0, Analysis, Tolerances, analyze
+from bandsmith.analysis.analyzer import DEFAULT_A0, Analysis, Tolerances, analyze, analyze_many
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import OpAmpModel
@@ -21,7 +21,7 @@ from bandsmith.common.values import parse_value
 from bandsmith.common.limits import VIN_RANGE_V, check_part_value, check_range
 from bandsmith.design.source import with_source  # at import: the first analysis of a process should not load it
 
-__all__ = ["Conditions", "Candidate", "parse_parts", "analysis_json"]
+__all__ = ["Conditions", "Candidate", "analyze_candidates", "parse_parts", "analysis_json"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -118,6 +118,10 @@ class Candidate:
             tolerances=conditions.tolerances,
             parts=self.values,
         )
+        return self._checked(result, conditions)
+
+    def _checked(self, result: Analysis, conditions: Conditions) -> Analysis:
+        """The analysis, with a capacitive load's current, once its figures are known measurable."""
         sens = [x for by_ref in result.sensitivity.values() for x in by_ref.values()]
         ideal = result.ideal.item()
         if not (math.isfinite(ideal.f0_hz) and math.isfinite(ideal.q) and math.isfinite(ideal.gain_center_db)
@@ -130,6 +134,36 @@ class Candidate:
         if conditions.cload_f is not None:
             result = _with_capacitive_load(result, conditions)
         return result
+
+
+def analyze_candidates(candidates: Sequence[Candidate], conditions: Conditions = Conditions()) -> list[Analysis | InputError]:
+    """:meth:`Candidate.analyze` of several candidates under one set of conditions, their
+    required-GBW ladders measured in one batch (:func:`bandsmith.analysis.analyzer.analyze_many`).
+
+    Returns
+    -------
+    list
+        Per candidate its analysis, or the :class:`InputError` its own analysis raises.
+    """
+    try:
+        results = analyze_many(
+            [c.driven_netlist(conditions) for c in candidates],
+            opamp=conditions.opamp,
+            vin_v=conditions.vin_v,
+            a0=conditions.a0,
+            rload_ohm=conditions.rload_ohm,
+            tolerances=conditions.tolerances,
+            parts=[c.values for c in candidates],
+        )
+    except Exception:  # one that cannot be analysed at all: each on its own, to name it
+        results = None
+    out: list[Analysis | InputError] = []
+    for i, cand in enumerate(candidates):
+        try:
+            out.append(cand.analyze(conditions) if results is None else cand._checked(results[i], conditions))
+        except InputError as exc:
+            out.append(exc)
+    return out
 
 
 def _with_capacitive_load(result: Analysis, conditions: Conditions) -> Analysis:

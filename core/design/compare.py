@@ -6,7 +6,7 @@ from typing import Sequence
 
 from bandsmith.design.candidate import Conditions
 from bandsmith.circuits import all_topologies, get_topology
-from bandsmith.design.designer import DesignResult, Spec, design, design_json, spread_of
+from bandsmith.design.designer import DesignResult, Spec, design_json, design_many, spread_of
 from bandsmith.circuits.topology import Topology
 
 __all__ = ["compare", "compare_json", "part_count", "needs_inductor", "candidate_json"]
@@ -32,12 +32,10 @@ def needs_inductor(topology: Topology) -> bool:
 
 
 def compare(spec: Spec, *, series: str = "E24", conditions: Conditions = Conditions(), width: int = 1) -> tuple[DesignResult, ...]:
-    """Design every circuit that has a design procedure for ``spec`` (see :func:`bandsmith.design.designer.design`)."""
-    return tuple(
-        design(t.id, spec, series=series, conditions=conditions, width=width)
-        for t in all_topologies()
-        if t.synthesize is not None
-    )
+    """Design every circuit that has a design procedure for ``spec`` (see :func:`bandsmith.design.designer.design`),
+    their analyses in one batch (:func:`bandsmith.design.designer.design_many`)."""
+    ids = [t.id for t in all_topologies() if t.synthesize is not None]
+    return tuple(design_many(ids, spec, series=series, conditions=conditions, width=width))
 
 
 def candidate_json(result: DesignResult) -> dict:

@@ -12,12 +12,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Mapping
+from typing import Mapping, Sequence
 
 from bandsmith.common.units import PART_UNITS
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.analysis.analyzer import Analysis, Tolerances
-from bandsmith.design.candidate import Candidate, Conditions
+from bandsmith.design.candidate import Candidate, Conditions, analyze_candidates
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.limits import check_part_value
@@ -34,6 +34,7 @@ __all__ = [
     "Spec",
     "DesignResult",
     "design",
+    "design_many",
     "design_json",
     "spread_of",
     "parse_fixed",
@@ -246,6 +247,46 @@ def design(
     InputError
         An unknown circuit, series or part, or a pinned value that is not a usable number.
     """
+    return design_many((topology_id,), spec, series=series, fixed=fixed, conditions=conditions, width=width)[0]
+
+
+def design_many(
+    topology_ids: Sequence[str],
+    spec: Spec,
+    *,
+    series: str = "E24",
+    fixed: Mapping[str, float | str] | None = None,
+    conditions: Conditions = Conditions(),
+    width: int = 1,
+) -> list[DesignResult]:
+    """:func:`design` of several circuits for one target: each chooses its parts alone, and the
+    analyses of those that got parts share one batch (:func:`bandsmith.design.candidate.analyze_candidates`).
+    ``fixed`` pins the same parts on every circuit (most callers pin none)."""
+    made = [_prepare(t, spec, series, fixed, conditions, width) for t in topology_ids]
+    ready = [i for i, m in enumerate(made) if isinstance(m, _Prepared)]
+    analyses = analyze_candidates([made[i].candidate for i in ready], conditions) if ready else []
+    out = list(made)
+    for i, analysis in zip(ready, analyses):
+        if isinstance(analysis, InputError):
+            raise analysis
+        out[i] = _conclude(made[i], analysis, spec, series, conditions)
+    return out
+
+
+@dataclass(frozen=True, slots=True)
+class _Prepared:
+    """A design with its parts chosen, waiting for its analysis."""
+
+    topology: Topology
+    exact: dict
+    notes: tuple[str, ...]
+    pins: dict
+    choice: Choice | None
+    candidate: Candidate
+
+
+def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Conditions, width: int) -> DesignResult | _Prepared:
+    """The design up to its parts: a :class:`_Prepared`, or the infeasible result."""
     topo = get_topology(topology_id)
     if not isinstance(spec, Spec):
         raise InputError("spec", "must be a design target (bandsmith.design.designer.Spec)")
@@ -280,11 +321,15 @@ def design(
         if choice.values is None:
             return _infeasible(topo, spec, series, _NO_STANDARD.format(series=series), pins, conditions, exact, notes)
         chosen = choice.values
-    cand = Candidate(topo.id, chosen)
-    analysis = cand.analyze(conditions)
+    return _Prepared(topo, exact, notes, pins, choice, Candidate(topo.id, chosen))
+
+
+def _conclude(made: _Prepared, analysis: Analysis, spec: Spec, series: str, conditions: Conditions) -> DesignResult:
+    """The design of prepared parts, from their analysis."""
+    topo, exact, notes, pins = made.topology, made.exact, made.notes, made.pins
     if not bool(hurwitz_stable(analysis.h_ideal.den)[0]) or not bool(analysis.ideal.valid[0]):
         return _infeasible(topo, spec, series, "the chosen parts do not give a stable band-pass", pins, conditions, exact, notes)
-    return _feasible(topo, spec, series, exact, cand, analysis, notes, pins, conditions, choice)
+    return _feasible(topo, spec, series, exact, made.candidate, analysis, notes, pins, conditions, made.choice)
 
 
 _NO_STANDARD = (

@@ -14,6 +14,7 @@ import functools
 import itertools
 import math
 from dataclasses import dataclass
+from typing import Sequence
 
 import numpy as np
 
@@ -135,6 +136,19 @@ class Rational:
     def take(self, index) -> "Rational":
         """A sub-batch (a slice or index array)."""
         return Rational(self.num[index], self.den[index], self.w_ref[index])
+
+    @staticmethod
+    def joined(parts: Sequence[Rational]) -> Rational:
+        """One batch of the members of several (each polynomial padded with leading zeros)."""
+        def pad(rows):
+            out = np.zeros((sum(r.shape[0] for r in rows), max(r.shape[1] for r in rows)))
+            start = 0
+            for r in rows:
+                out[start : start + r.shape[0], out.shape[1] - r.shape[1] :] = r
+                start += r.shape[0]
+            return out
+
+        return Rational(pad([p.num for p in parts]), pad([p.den for p in parts]), np.concatenate([p.w_ref for p in parts]))
 
     def to_s(self, i: int = 0) -> tuple[np.ndarray, np.ndarray]:
         """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) for member ``i``, as scipy.signal uses."""
