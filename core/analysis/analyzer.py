@@ -24,7 +24,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
-from bandsmith.analysis.figures import Figures, measure, measure_from, measure_near
+from bandsmith.analysis.figures import Figures, measure, measure_from, measure_many, measure_near
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
@@ -698,31 +698,50 @@ def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: floa
     :class:`OpAmpFamily` (one) or :class:`~bandsmith.solver.rational.AmpFamily` (several) of the nominal circuit. From the coefficient expansion where it applies,
     else one batched solve. ``w_ref`` defaults to the nominal circuit's
     :func:`~bandsmith.solver.rational.reference_w`."""
-    values = dict(parts if parts is not None else netlist.values())
-    refs = [r for r, v in values.items() if v > 0]
+    return _first_pass_many([netlist], [parts], w_ref)[0]
+
+
+def _first_pass_many(
+    netlists: Sequence[Netlist], parts: Sequence[Mapping[str, float] | None], w_ref: float | None = None,
+) -> list[_FirstPass]:
+    """:func:`_first_pass` of several candidates, their figures measured together
+    (:func:`bandsmith.analysis.figures.measure_many`)."""
+    made = []
+    for netlist, own in zip(netlists, parts):
+        values = dict(own if own is not None else netlist.values())
+        refs = [r for r, v in values.items() if v > 0]
+        made.append((values, refs, _perturbed(netlist, values, refs, w_ref)))
+    figs = measure_many([h for _, _, (_, h, _) in made])
+    out = []
+    for (values, refs, (w, h, family)), fig in zip(made, figs):
+        sv = log_slopes(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
+        sens = {}
+        for row, key in enumerate(("f0", "q", "gain")):
+            by_ref = dict(zip(refs, sv[row].tolist()))
+            sens[key] = {r: by_ref.get(r, 0.0) for r in values}
+        out.append(_FirstPass(float(w), h.item(0), fig.take(slice(0, 1)), sens, family))
+    return out
+
+
+def _perturbed(netlist: Netlist, values: dict, refs: list[str], w_ref: float | None):
+    """``(w_ref, h, family)``: the nominal circuit and its 2·P part perturbations for the ideal
+    op-amp (:func:`_first_pass_expanded`, else one batched solve)."""
     n_ideal = 1 + 2 * len(refs)
     quick = _first_pass_expanded(netlist, refs, n_ideal, w_ref)
     if quick is not None:
-        w_ref, h, family = quick
-    else:
-        up, down = math.exp(SENS_STEP), math.exp(-SENS_STEP)
-        over = {}
-        for j, r in enumerate(refs):
-            col = np.full(n_ideal, values[r])
-            col[1 + 2 * j] *= up
-            col[2 + 2 * j] *= down
-            over[r] = col
-        batch = build_system(netlist, overrides=over or None)
-        if w_ref is None:
-            w_ref = reference_w(batch)
-        h, family = rational_and_family(batch, w_ref)
-    fig = measure(h)
-    sv = log_slopes(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
-    sens = {}
-    for row, key in enumerate(("f0", "q", "gain")):
-        by_ref = dict(zip(refs, sv[row].tolist()))
-        sens[key] = {r: by_ref.get(r, 0.0) for r in values}
-    return _FirstPass(float(w_ref), h.item(0), fig.take(slice(0, 1)), sens, family)
+        return quick
+    up, down = math.exp(SENS_STEP), math.exp(-SENS_STEP)
+    over = {}
+    for j, r in enumerate(refs):
+        col = np.full(n_ideal, values[r])
+        col[1 + 2 * j] *= up
+        col[2 + 2 * j] *= down
+        over[r] = col
+    batch = build_system(netlist, overrides=over or None)
+    if w_ref is None:
+        w_ref = reference_w(batch)
+    h, family = rational_and_family(batch, w_ref)
+    return w_ref, h, family
 
 
 def sensitivities(
@@ -789,7 +808,7 @@ def analyze_many(
     if a0 is None:
         a0 = opamp.a0 if opamp is not None else DEFAULT_A0
     finite = opamp is not None and not opamp.ideal
-    firsts = [_first_pass(n, p) for n, p in zip(netlists, parts if parts is not None else [None] * len(netlists))]
+    firsts = _first_pass_many(netlists, parts if parts is not None else [None] * len(netlists))
     searches = _search_gbw_many(
         [(n, f.ideal, f.family, f.w_ref, opamp.gbw_hz if finite and opamp.a0 == a0 and f.family is not None else None)
          for n, f in zip(netlists, firsts)],

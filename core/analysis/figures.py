@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import functools
 from dataclasses import dataclass, fields, replace
+from typing import Sequence
 
 import numpy as np
 
@@ -31,7 +32,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
-__all__ = ["Figures", "measure", "measure_near", "measure_from", "biquad_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
+__all__ = ["Figures", "measure", "measure_many", "measure_near", "measure_from", "biquad_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
            "CLOSED_FORM_FROM"]
 
 _ROOT_STEPS = 8
@@ -208,15 +209,41 @@ def exact_in_closed_form(h: Rational) -> bool:
 def _biquad(h: Rational):
     """The closed form of :func:`biquad_figures` when every member is ``b1·p / (a2·p² + a1·p + a0)``
     with a peak; else None."""
+    if not _biquad_shaped(h):
+        return None
     num, den = h.num, h.den
-    if den.shape[1] != 3 or num.shape[1] > 3 or num.shape[1] < 2:
-        return None
-    if (num[:, -1] != 0).any() or (num.shape[1] == 3 and (num[:, 0] != 0).any()):
-        return None
-    if not np.isfinite(den).all():
-        return None
     parts = _biquad_parts(num[:, -2], den[:, 0], den[:, 1], den[:, 2])
     return parts if parts[-1].all() else None
+
+
+def _biquad_shaped(h: Rational) -> bool:
+    """True when every member has the form ``b1·p / (a2·p² + a1·p + a0)`` (finite denominator)."""
+    num, den = h.num, h.den
+    if den.shape[1] != 3 or num.shape[1] > 3 or num.shape[1] < 2:
+        return False
+    if (num[:, -1] != 0).any() or (num.shape[1] == 3 and (num[:, 0] != 0).any()):
+        return False
+    return bool(np.isfinite(den).all())
+
+
+def measure_many(hs: Sequence[Rational]) -> list[Figures]:
+    """:func:`measure` of several transfer functions: those that are second-order band-passes
+    with a peak in one closed-form batch (the same figures, member by member), the rest each
+    on its own."""
+    out: list[Figures | None] = [None] * len(hs)
+    quick = [i for i, h in enumerate(hs) if _biquad_shaped(h)]
+    if len(quick) > 1:
+        h = Rational.joined([hs[i] for i in quick])
+        num, den = h.num, h.den
+        *parts, peak = _biquad_parts(num[:, -2], den[:, 0], den[:, 1], den[:, 2])
+        fig = figures_at(h.w_ref, *parts)
+        start = 0
+        for i in quick:
+            stop = start + hs[i].batch
+            if peak[start:stop].all():
+                out[i] = fig.take(slice(start, stop))
+            start = stop
+    return [fig if fig is not None else measure(h) for h, fig in zip(hs, out)]
 
 
 def _biquad_parts(b1, a2, a1, a0):
