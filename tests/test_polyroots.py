@@ -6,7 +6,8 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from bandsmith.analysis.analyzer import _first_pass, _ladder
+from bandsmith.analysis.analyzer import _first_pass
+from bandsmith.analysis.gbw_search import _ladder
 from bandsmith.circuits import get_topology
 from bandsmith.analysis.figures import measure, measure_near
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots

@@ -2,12 +2,14 @@
 
 Everything works from the netlist, so it holds for any circuit module.
 
-One unit of some 600 lines, on purpose: :func:`analyze` shares one batched first pass (the
-nominal circuit, its part perturbations and the one-op-amp family of its denominator,
-:class:`~bandsmith.solver.rational.OpAmpFamily`) between the figures, the sensitivities and the
+:func:`analyze` shares one batched first pass (the nominal circuit, its part perturbations and
+the op-amp family of its denominator, :class:`~bandsmith.solver.rational.OpAmpFamily` or
+:class:`~bandsmith.solver.rational.AmpFamily`) between the figures, the sensitivities and the
 required-GBW search, and the record that carries it between them (``_FirstPass``) is private to
-this module. Generic pieces live elsewhere: the figures in :mod:`bandsmith.analysis.figures`, the
-central differences in :mod:`bandsmith.analysis.sensitivity`.
+this module. Generic pieces live elsewhere, and this module's names for them stay: the figures
+in :mod:`bandsmith.analysis.figures`, the transfer function in :mod:`bandsmith.analysis.transfer`,
+the tolerances in :mod:`bandsmith.analysis.tolerances`, the required-GBW search in
+:mod:`bandsmith.analysis.gbw_search`, the central differences in :mod:`bandsmith.analysis.sensitivity`.
 """
 
 from __future__ import annotations
@@ -24,11 +26,14 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
-from bandsmith.analysis.figures import Figures, measure, measure_from, measure_many, measure_near
+from bandsmith.analysis.figures import Figures, measure_from, measure_many
+from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
+from bandsmith.analysis.tolerances import Tolerances, within_tolerances
+from bandsmith.analysis.transfer import ideal_figures, nominal_system, transfer_function
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, rational_from_system, reference_w, nominal_w_ref
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, reference_w
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes, step_response
 
 __all__ = [
@@ -51,24 +56,6 @@ __all__ = [
     "is_stable",
 ]
 
-
-
-@dataclass(frozen=True, slots=True)
-class Tolerances:
-    """How far the finite-op-amp figures may stray from the ideal ones.
-
-    ``f0`` and ``q`` are fractions (0.01 = 1 %); ``gain_db`` is in dB.
-    """
-
-    f0: float = 0.01
-    q: float = 0.05
-    gain_db: float = 0.5
-
-    def __post_init__(self):
-        for name in ("f0", "q", "gain_db"):
-            v = getattr(self, name)
-            if not (math.isfinite(v) and v > 0):
-                raise InputError(f"tol-{name.replace('_', '-')}", f"must be a finite number above zero, got {v!r}")
 
 
 @dataclass(frozen=True, slots=True)
@@ -249,237 +236,6 @@ def is_stable(h: Rational, i: int = 0) -> bool:
     return bool(np.all(p.real < 1e-9 * np.abs(p))) if p.size else True
 
 
-@functools.lru_cache(maxsize=32)
-def _nominal_system(netlist: Netlist):
-    """``build_system(netlist)`` (ideal op-amps, the netlist's own values), kept for the few
-    netlists last asked for: one analysis builds it for the op-amp family, the amplifiers' needs
-    and the GBW sweep. Read-only arrays."""
-    system = build_system(netlist)
-    system.G.setflags(write=False)
-    system.C.setflags(write=False)
-    return system
-
-
-def transfer_function(
-    netlist: Netlist,
-    opamp: OpAmpModel = IDEAL,
-    *,
-    overrides: Mapping[str, np.ndarray | float] | None = None,
-    gbw_hz: np.ndarray | None = None,
-    a0: np.ndarray | float | None = None,
-    w_ref: float | None = None,
-) -> Rational:
-    """Exact rational transfer function of a netlist (batched where overrides are arrays).
-
-    ``w_ref`` (rad/s) normalises the coefficients; by default the natural frequency of the netlist
-    with an ideal op-amp, which keeps a finite op-amp's figures near ``ω/w_ref = 1``.
-    """
-    if overrides is None and len(netlist.opamps) > 1 and (gbw_hz is not None or not opamp.ideal):
-        # only the op-amp varies: the family of the ideal circuit serves every GBW at once
-        ideal = _nominal_system(netlist)
-        if w_ref is None:
-            w_ref = reference_w(ideal)
-        family = amp_family(ideal, w_ref)  # as rational_and_family's, without the ideal solve
-        if family is not None:
-            gbw = np.atleast_1d(np.asarray(gbw_hz if gbw_hz is not None else opamp.gbw_hz, dtype=float))
-            gain0 = np.asarray(a0 if a0 is not None else opamp.a0, dtype=float)
-            size = max(gbw.size, gain0.size)
-            return family.at(np.broadcast_to(gbw, (size,)), np.broadcast_to(gain0, (size,)))
-    if w_ref is None:
-        w_ref = nominal_w_ref(netlist)
-    system = build_system(netlist, opamp, overrides=overrides, gbw_hz=gbw_hz, a0=a0)
-    return rational_from_system(system, w_ref)
-
-
-def ideal_figures(netlist: Netlist) -> Figures:
-    """Figures with an ideal op-amp (batch of one)."""
-    return measure(transfer_function(netlist))
-
-
-def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances) -> np.ndarray:
-    """True where ``fig`` is within ``tol`` of the reference figures (scalars in ``ref``)."""
-    with np.errstate(invalid="ignore"):
-        ok = np.abs(fig.f0_hz / ref.f0_hz - 1.0) <= tol.f0
-        ok &= np.abs(fig.q / ref.q - 1.0) <= tol.q
-        ok &= np.abs(fig.gain_center_db - ref.gain_center_db) <= tol.gain_db
-        ok &= np.sign(fig.gain_center) == np.sign(ref.gain_center)
-    return ok & fig.valid
-
-
-_LADDER_DECADES = (-1.0, 9.0)
-_LADDER_POINTS = 61
-_FINE_POINTS = 48
-
-
-_UNIT_LADDER = np.logspace(*_LADDER_DECADES, _LADDER_POINTS)
-
-
-def _ladder(f_hz: float) -> np.ndarray:
-    """The coarse GBW ladder (Hz): f/10 to f·10⁹."""
-    return f_hz * _UNIT_LADDER
-
-
-def _with_gbw(netlist: Netlist, family: OpAmpFamily | None, w_ref: float, gbw: np.ndarray, a0: float) -> Rational:
-    """Transfer functions with single-pole op-amps of these GBWs (Hz): through the op-amp family
-    when there is one, else a batched solve."""
-    if family is not None:
-        return family.at(gbw, a0)
-    return transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
-
-
-def _gbw_figures(
-    netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float,
-    gbw: np.ndarray, a0: float, tolerances: Tolerances,
-) -> tuple[Rational, Figures]:
-    """Transfer functions and figures along GBW values (Hz) (:func:`_near_figures`)."""
-    return _near_figures(_with_gbw(netlist, family, w_ref, gbw, a0), ideal, tolerances)
-
-
-def _near_figures(h: Rational, ideal: Figures, tolerances: Tolerances) -> tuple[Rational, Figures]:
-    """``h`` and its figures sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`):
-    a member farther off than about twice the tolerances fails whatever its exact figures are."""
-    return h, measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
-
-
-def _search_gbw(
-    netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float, *, a0: float, tolerances: Tolerances,
-    probe: float | None = None,
-) -> tuple[tuple[float | None, str | None], tuple[Rational, Figures] | None]:
-    """The required-GBW search: a coarse ladder, then a fine one in the last failing step.
-
-    With ``probe`` (a GBW in Hz, same ``a0``) it rides along in the coarse batch, and its
-    transfer function and figures are returned too (NaN figures where they are not near the
-    ideal ones: the caller measures them exactly).
-    """
-    return _search_gbw_many([(netlist, ideal, family, w_ref, probe)], a0=a0, tolerances=tolerances)[0]
-
-
-def _search_gbw_many(
-    items: Sequence[tuple[Netlist, Figures, OpAmpFamily | None, float, float | None]], *, a0: float, tolerances: Tolerances,
-) -> list[tuple[tuple[float | None, str | None], tuple[Rational, Figures] | None]]:
-    """:func:`_search_gbw` of several candidates ``(netlist, ideal, family, w_ref, probe)``, their
-    coarse ladders measured in one batch (each member near its own candidate's ideal figures)."""
-    out: list = [((None, "the circuit has no band-pass peak with an ideal op-amp"), None)] * len(items)
-    live, hs, refs = [], [], []
-    for i, (netlist, ideal, family, w_ref, probe) in enumerate(items):
-        ref = ideal.item()
-        if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
-            continue
-        ladder = _ladder(ref.f0_hz)
-        gbw = ladder if probe is None else np.append(ladder, probe)
-        live.append((i, ladder))
-        hs.append(_with_gbw(netlist, family, w_ref, gbw, a0))
-        refs.append(ideal)
-    if not live:
-        return out
-    h = hs[0] if len(hs) == 1 else Rational.joined(hs)
-    sizes = [x.batch for x in hs]
-    ref = refs[0] if len(refs) == 1 else Figures.repeated(refs, sizes)
-    _, fig = _near_figures(h, ref, tolerances)
-    start = 0
-    for (i, ladder), part, size in zip(live, hs, sizes):
-        netlist, ideal, family, w_ref, probe = items[i]
-        on_ladder = fig.take(slice(start, start + ladder.size))
-        at_probe = None if probe is None else (part.item(ladder.size), fig.take(slice(start + ladder.size, start + size)))
-        out[i] = (_conclude_gbw(netlist, ideal, family, w_ref, ladder, on_ladder, a0=a0, tolerances=tolerances), at_probe)
-        start += size
-    return out
-
-
-# Lagrange basis of the ladder points j−1, j, j+1, j+2 (uniform in log GBW) at sub-steps
-# t ∈ [0, 1] of the step from j to j+1: shape (T, 4).
-_SUB = np.linspace(0.0, 1.0, 257)
-_BASIS = np.stack(
-    [
-        -_SUB * (_SUB - 1.0) * (_SUB - 2.0) / 6.0,
-        (_SUB + 1.0) * (_SUB - 1.0) * (_SUB - 2.0) / 2.0,
-        -(_SUB + 1.0) * _SUB * (_SUB - 2.0) / 2.0,
-        (_SUB + 1.0) * _SUB * (_SUB - 1.0) / 6.0,
-    ],
-    axis=1,
-)
-# The reported GBW lies this fraction above the interpolated crossing (the interpolation error
-# of a cubic over a ladder step is below 0.1 % in GBW for these smooth errors).
-_CROSSING_MARGIN = 0.005
-
-
-def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, ladder: np.ndarray, j: int) -> float | None:
-    """The required GBW (Hz) inside the ladder step from ``j`` (failing) to ``j + 1`` (passing):
-    each figure's error is interpolated by the cubic through the ladder points ``j − 1 … j + 2``
-    (uniform in log GBW), and the last sub-step where the worst error exceeds its tolerance is
-    found; the result is :data:`_CROSSING_MARGIN` above it. None where the four points are not
-    all measured (a point too far off) or the interpolation disagrees with the measured pass and
-    fail at ``j`` and ``j + 1``: the caller then measures a fine ladder."""
-    if j < 1 or j + 2 >= ladder.size:
-        return None
-    sl = slice(j - 1, j + 3)
-    # errors over tolerances at the four points, as plain numbers (a handful of them)
-    f0, q, db = (np.asarray(v)[sl].tolist() for v in (on_ladder.f0_hz, on_ladder.q, on_ladder.gain_center_db))
-    err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0], [(v / ref.q - 1.0) / tol.q for v in q],
-           [(v - ref.gain_center_db) / tol.gain_db for v in db]]
-    if not all(math.isfinite(e) for row in err for e in row):
-        return None
-    sign = math.copysign(1.0, ref.gain_center)
-    if not all(math.copysign(1.0, g) == sign for g in np.asarray(on_ladder.gain_center)[sl].tolist()):
-        return None
-    worst = np.abs(_BASIS @ np.array(err).T).max(axis=1)  # (T,)
-    if not (worst[0] > 1.0 and worst[-1] <= 1.0):
-        return None
-    k = int(np.flatnonzero(worst > 1.0)[-1]) + 1
-    step = math.log(ladder[j + 1] / ladder[j])
-    return float(ladder[j] * math.exp(_SUB[k] * step) * (1.0 + _CROSSING_MARGIN))
-
-
-def _conclude_gbw(
-    netlist: Netlist, ideal: Figures, family: OpAmpFamily | None, w_ref: float, ladder: np.ndarray,
-    on_ladder: Figures, *, a0: float, tolerances: Tolerances,
-) -> tuple[float | None, str | None]:
-    ref = ideal.item()
-    ok = within_tolerances(on_ladder, ref, tolerances)
-    if not ok[-1]:
-        top = measure(_with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
-        return None, (
-            f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {ladder[-1]:.3g} Hz "
-            f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
-            f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed"
-        )
-    fails = np.flatnonzero(~ok)
-    if fails.size == 0:
-        return float(ladder[0]), None
-    found = _interpolated_crossing(on_ladder, ref, tolerances, ladder, int(fails[-1]))
-    if found is not None:
-        return found, None
-    fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
-    ok = within_tolerances(_gbw_figures(netlist, ideal, family, w_ref, fine, a0, tolerances)[1], ref, tolerances)
-    fails = np.flatnonzero(~ok)
-    # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
-    return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None
-
-
-def required_gbw(
-    netlist: Netlist,
-    ideal: Figures,
-    *,
-    a0: float = DEFAULT_A0,
-    tolerances: Tolerances = Tolerances(),
-) -> tuple[float | None, str | None]:
-    """Smallest single-pole GBW (Hz) from which on every figure stays within tolerance.
-
-    Searched, not estimated: the figures are measured at 61 GBW values from f0/10 to f0·10⁹ in one
-    batch (near the ideal figures, :func:`bandsmith.analysis.figures.measure_near`); inside the step from the
-    last failing to the first passing value each figure's error is interpolated by a cubic through
-    four ladder points, and the answer is 0.5 % above the crossing (where the four points are not
-    all measurable, 48 values across the step are measured instead, at most 1 % above). Returns
-    ``(None, reason)`` when even the largest GBW fails (an open-loop gain ``a0`` too small).
-    """
-    ref = ideal.item()
-    if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
-        return None, "the circuit has no band-pass peak with an ideal op-amp"
-    w_ref = 2.0 * math.pi * ref.f0_hz
-    family = rational_and_family(build_system(netlist), w_ref)[1]
-    return _search_gbw(netlist, ideal, family, w_ref, a0=a0, tolerances=tolerances)[0]
-
-
 def opamp_output_current(
     netlist: Netlist, f_hz: float, *, rload_ohm: float | None = None, load: Netlist | None = None
 ) -> float:
@@ -513,7 +269,7 @@ def amplifier_needs(
     if rload_ohm is not None:
         loaded = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
     x, layout = solve_at(loaded, 2j * math.pi * f0_hz)
-    system = _nominal_system(netlist)
+    system = nominal_system(netlist)
     if w_ref is None:
         w_ref = 2.0 * math.pi * f0_hz
     at_nodes = node_rationals(system, [system.layout.node_index[e.nodes[2]] for e in netlist.opamps], w_ref)
@@ -689,7 +445,7 @@ def _first_pass_expanded_multi(netlist, refs, n_ideal, w_ref):
     num_p = num * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
     scale = np.abs(den_p).max(axis=1, keepdims=True)
     h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
-    return float(w_ref), h, amp_family(_nominal_system(netlist), float(w_ref))
+    return float(w_ref), h, amp_family(nominal_system(netlist), float(w_ref))
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
@@ -809,7 +565,7 @@ def analyze_many(
         a0 = opamp.a0 if opamp is not None else DEFAULT_A0
     finite = opamp is not None and not opamp.ideal
     firsts = _first_pass_many(netlists, parts if parts is not None else [None] * len(netlists))
-    searches = _search_gbw_many(
+    searches = search_gbw_many(
         [(n, f.ideal, f.family, f.w_ref, opamp.gbw_hz if finite and opamp.a0 == a0 and f.family is not None else None)
          for n, f in zip(netlists, firsts)],
         a0=a0, tolerances=tolerances,
@@ -820,7 +576,7 @@ def analyze_many(
         if at_probe is not None:
             h_actual, actual = at_probe
         elif finite:
-            h_actual = _with_gbw(netlist, first.family, first.w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
+            h_actual = with_gbw(netlist, first.family, first.w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
         if finite and (actual is None or not bool(actual.valid[0])):  # far from the ideal: measured exactly
             actual = measure_from(h_actual, first.ideal)
         req = requirements(

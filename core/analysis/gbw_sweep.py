@@ -16,7 +16,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from bandsmith.analysis.analyzer import DEFAULT_A0, Tolerances, transfer_function
+from bandsmith.analysis.tolerances import Tolerances
+from bandsmith.analysis.transfer import transfer_function
+from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.analysis.figures import Figures, measure_from
 from bandsmith.solver.mna import build_system
 from bandsmith.solver.netlist import Netlist

@@ -1,0 +1,197 @@
+"""The required GBW: the smallest gain-bandwidth of a single-pole op-amp (the same on every
+amplifier) for which a candidate's figures stay within tolerance, searched on a GBW ladder.
+
+(The error chart over a GBW ladder that the window draws is :mod:`bandsmith.analysis.gbw_sweep`.)
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Sequence
+
+import numpy as np
+
+from bandsmith.analysis.figures import Figures, measure, measure_near
+from bandsmith.analysis.tolerances import Tolerances, within_tolerances
+from bandsmith.analysis.transfer import transfer_function
+from bandsmith.common.limits import DEFAULT_A0
+from bandsmith.solver.mna import build_system
+from bandsmith.solver.netlist import Netlist
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, rational_and_family
+
+__all__ = ["required_gbw", "search_gbw", "search_gbw_many", "with_gbw"]
+
+
+_LADDER_DECADES = (-1.0, 9.0)
+_LADDER_POINTS = 61
+_FINE_POINTS = 48
+
+
+_UNIT_LADDER = np.logspace(*_LADDER_DECADES, _LADDER_POINTS)
+
+
+def _ladder(f_hz: float) -> np.ndarray:
+    """The coarse GBW ladder (Hz): f/10 to f·10⁹."""
+    return f_hz * _UNIT_LADDER
+
+
+def with_gbw(netlist: Netlist, family: OpAmpFamily | AmpFamily | None, w_ref: float, gbw: np.ndarray, a0: float) -> Rational:
+    """Transfer functions with single-pole op-amps of these GBWs (Hz): through the op-amp family
+    when there is one, else a batched solve."""
+    if family is not None:
+        return family.at(gbw, a0)
+    return transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
+
+
+def _gbw_figures(
+    netlist: Netlist, ideal: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float,
+    gbw: np.ndarray, a0: float, tolerances: Tolerances,
+) -> tuple[Rational, Figures]:
+    """Transfer functions and figures along GBW values (Hz) (:func:`_near_figures`)."""
+    h = with_gbw(netlist, family, w_ref, gbw, a0)
+    return h, _near_figures(h, ideal, tolerances)
+
+
+def _near_figures(h: Rational, ideal: Figures, tolerances: Tolerances) -> Figures:
+    """Figures sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`): a
+    member farther off than about twice the tolerances fails whatever its exact figures are."""
+    return measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
+
+
+def search_gbw(
+    netlist: Netlist, ideal: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float, *, a0: float, tolerances: Tolerances,
+    probe: float | None = None,
+) -> tuple[tuple[float | None, str | None], tuple[Rational, Figures] | None]:
+    """The required-GBW search: a coarse ladder, then a fine one in the last failing step.
+
+    With ``probe`` (a GBW in Hz, same ``a0``) it rides along in the coarse batch, and its
+    transfer function and figures are returned too (NaN figures where they are not near the
+    ideal ones: the caller measures them exactly).
+    """
+    return search_gbw_many([(netlist, ideal, family, w_ref, probe)], a0=a0, tolerances=tolerances)[0]
+
+
+def search_gbw_many(
+    items: Sequence[tuple[Netlist, Figures, OpAmpFamily | None, float, float | None]], *, a0: float, tolerances: Tolerances,
+) -> list[tuple[tuple[float | None, str | None], tuple[Rational, Figures] | None]]:
+    """:func:`_search_gbw` of several candidates ``(netlist, ideal, family, w_ref, probe)``, their
+    coarse ladders measured in one batch (each member near its own candidate's ideal figures)."""
+    out: list = [((None, "the circuit has no band-pass peak with an ideal op-amp"), None)] * len(items)
+    live, hs, refs = [], [], []
+    for i, (netlist, ideal, family, w_ref, probe) in enumerate(items):
+        ref = ideal.item()
+        if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
+            continue
+        ladder = _ladder(ref.f0_hz)
+        gbw = ladder if probe is None else np.append(ladder, probe)
+        live.append((i, ladder))
+        hs.append(with_gbw(netlist, family, w_ref, gbw, a0))
+        refs.append(ideal)
+    if not live:
+        return out
+    h = hs[0] if len(hs) == 1 else Rational.joined(hs)
+    sizes = [x.batch for x in hs]
+    ref = refs[0] if len(refs) == 1 else Figures.repeated(refs, sizes)
+    fig = _near_figures(h, ref, tolerances)
+    start = 0
+    for (i, ladder), part, size in zip(live, hs, sizes):
+        netlist, ideal, family, w_ref, probe = items[i]
+        on_ladder = fig.take(slice(start, start + ladder.size))
+        at_probe = None if probe is None else (part.item(ladder.size), fig.take(slice(start + ladder.size, start + size)))
+        out[i] = (_conclude_gbw(netlist, ideal, family, w_ref, ladder, on_ladder, a0=a0, tolerances=tolerances), at_probe)
+        start += size
+    return out
+
+
+# Lagrange basis of the ladder points j−1, j, j+1, j+2 (uniform in log GBW) at sub-steps
+# t ∈ [0, 1] of the step from j to j+1: shape (T, 4).
+_SUB = np.linspace(0.0, 1.0, 257)
+_BASIS = np.stack(
+    [
+        -_SUB * (_SUB - 1.0) * (_SUB - 2.0) / 6.0,
+        (_SUB + 1.0) * (_SUB - 1.0) * (_SUB - 2.0) / 2.0,
+        -(_SUB + 1.0) * _SUB * (_SUB - 2.0) / 2.0,
+        (_SUB + 1.0) * _SUB * (_SUB - 1.0) / 6.0,
+    ],
+    axis=1,
+)
+# The reported GBW lies this fraction above the interpolated crossing (the interpolation error
+# of a cubic over a ladder step is below 0.1 % in GBW for these smooth errors).
+_CROSSING_MARGIN = 0.005
+
+
+def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, ladder: np.ndarray, j: int) -> float | None:
+    """The required GBW (Hz) inside the ladder step from ``j`` (failing) to ``j + 1`` (passing):
+    each figure's error is interpolated by the cubic through the ladder points ``j − 1 … j + 2``
+    (uniform in log GBW), and the last sub-step where the worst error exceeds its tolerance is
+    found; the result is :data:`_CROSSING_MARGIN` above it. None where the four points are not
+    all measured (a point too far off) or the interpolation disagrees with the measured pass and
+    fail at ``j`` and ``j + 1``: the caller then measures a fine ladder."""
+    if j < 1 or j + 2 >= ladder.size:
+        return None
+    sl = slice(j - 1, j + 3)
+    # errors over tolerances at the four points, as plain numbers (a handful of them)
+    f0, q, db = (np.asarray(v)[sl].tolist() for v in (on_ladder.f0_hz, on_ladder.q, on_ladder.gain_center_db))
+    err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0], [(v / ref.q - 1.0) / tol.q for v in q],
+           [(v - ref.gain_center_db) / tol.gain_db for v in db]]
+    if not all(math.isfinite(e) for row in err for e in row):
+        return None
+    sign = math.copysign(1.0, ref.gain_center)
+    if not all(math.copysign(1.0, g) == sign for g in np.asarray(on_ladder.gain_center)[sl].tolist()):
+        return None
+    worst = np.abs(_BASIS @ np.array(err).T).max(axis=1)  # (T,)
+    if not (worst[0] > 1.0 and worst[-1] <= 1.0):
+        return None
+    k = int(np.flatnonzero(worst > 1.0)[-1]) + 1
+    step = math.log(ladder[j + 1] / ladder[j])
+    return float(ladder[j] * math.exp(_SUB[k] * step) * (1.0 + _CROSSING_MARGIN))
+
+
+def _conclude_gbw(
+    netlist: Netlist, ideal: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float, ladder: np.ndarray,
+    on_ladder: Figures, *, a0: float, tolerances: Tolerances,
+) -> tuple[float | None, str | None]:
+    ref = ideal.item()
+    ok = within_tolerances(on_ladder, ref, tolerances)
+    if not ok[-1]:
+        top = measure(with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
+        return None, (
+            f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {ladder[-1]:.3g} Hz "
+            f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
+            f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed"
+        )
+    fails = np.flatnonzero(~ok)
+    if fails.size == 0:
+        return float(ladder[0]), None
+    found = _interpolated_crossing(on_ladder, ref, tolerances, ladder, int(fails[-1]))
+    if found is not None:
+        return found, None
+    fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
+    ok = within_tolerances(_gbw_figures(netlist, ideal, family, w_ref, fine, a0, tolerances)[1], ref, tolerances)
+    fails = np.flatnonzero(~ok)
+    # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
+    return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None
+
+
+def required_gbw(
+    netlist: Netlist,
+    ideal: Figures,
+    *,
+    a0: float = DEFAULT_A0,
+    tolerances: Tolerances = Tolerances(),
+) -> tuple[float | None, str | None]:
+    """Smallest single-pole GBW (Hz) from which on every figure stays within tolerance.
+
+    Searched, not estimated: the figures are measured at 61 GBW values from f0/10 to f0·10⁹ in one
+    batch (near the ideal figures, :func:`bandsmith.analysis.figures.measure_near`); inside the step from the
+    last failing to the first passing value each figure's error is interpolated by a cubic through
+    four ladder points, and the answer is 0.5 % above the crossing (where the four points are not
+    all measurable, 48 values across the step are measured instead, at most 1 % above). Returns
+    ``(None, reason)`` when even the largest GBW fails (an open-loop gain ``a0`` too small).
+    """
+    ref = ideal.item()
+    if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
+        return None, "the circuit has no band-pass peak with an ideal op-amp"
+    w_ref = 2.0 * math.pi * ref.f0_hz
+    family = rational_and_family(build_system(netlist), w_ref)[1]
+    return search_gbw(netlist, ideal, family, w_ref, a0=a0, tolerances=tolerances)[0]

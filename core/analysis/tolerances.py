@@ -1,0 +1,41 @@
+"""How far a circuit's figures may stray from the ideal-op-amp ones, and the test of it."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from bandsmith.analysis.figures import Figures
+from bandsmith.common.errors import InputError
+
+__all__ = ["Tolerances", "within_tolerances"]
+
+
+@dataclass(frozen=True, slots=True)
+class Tolerances:
+    """How far the finite-op-amp figures may stray from the ideal ones.
+
+    ``f0`` and ``q`` are fractions (0.01 = 1 %); ``gain_db`` is in dB.
+    """
+
+    f0: float = 0.01
+    q: float = 0.05
+    gain_db: float = 0.5
+
+    def __post_init__(self):
+        for name in ("f0", "q", "gain_db"):
+            v = getattr(self, name)
+            if not (math.isfinite(v) and v > 0):
+                raise InputError(f"tol-{name.replace('_', '-')}", f"must be a finite number above zero, got {v!r}")
+
+
+def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances) -> np.ndarray:
+    """True where ``fig`` is within ``tol`` of the reference figures (scalars in ``ref``)."""
+    with np.errstate(invalid="ignore"):
+        ok = np.abs(fig.f0_hz / ref.f0_hz - 1.0) <= tol.f0
+        ok &= np.abs(fig.q / ref.q - 1.0) <= tol.q
+        ok &= np.abs(fig.gain_center_db - ref.gain_center_db) <= tol.gain_db
+        ok &= np.sign(fig.gain_center) == np.sign(ref.gain_center)
+    return ok & fig.valid

@@ -1,0 +1,62 @@
+"""The exact transfer function of a netlist, for any op-amp model and batch of part values."""
+
+from __future__ import annotations
+
+import functools
+from typing import Mapping
+
+import numpy as np
+
+from bandsmith.analysis.figures import Figures, measure
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
+from bandsmith.solver.netlist import Netlist
+from bandsmith.solver.rational import Rational, amp_family, nominal_w_ref, rational_from_system, reference_w
+
+__all__ = ["ideal_figures", "nominal_system", "transfer_function"]
+
+
+@functools.lru_cache(maxsize=32)
+def nominal_system(netlist: Netlist):
+    """``build_system(netlist)`` (ideal op-amps, the netlist's own values), kept for the few
+    netlists last asked for: one analysis builds it for the op-amp family, the amplifiers' needs
+    and the GBW sweep. Read-only arrays."""
+    system = build_system(netlist)
+    system.G.setflags(write=False)
+    system.C.setflags(write=False)
+    return system
+
+
+def transfer_function(
+    netlist: Netlist,
+    opamp: OpAmpModel = IDEAL,
+    *,
+    overrides: Mapping[str, np.ndarray | float] | None = None,
+    gbw_hz: np.ndarray | None = None,
+    a0: np.ndarray | float | None = None,
+    w_ref: float | None = None,
+) -> Rational:
+    """Exact rational transfer function of a netlist (batched where overrides are arrays).
+
+    ``w_ref`` (rad/s) normalises the coefficients; by default the natural frequency of the netlist
+    with an ideal op-amp, which keeps a finite op-amp's figures near ``ω/w_ref = 1``.
+    """
+    if overrides is None and len(netlist.opamps) > 1 and (gbw_hz is not None or not opamp.ideal):
+        # only the op-amp varies: the family of the ideal circuit serves every GBW at once
+        ideal = nominal_system(netlist)
+        if w_ref is None:
+            w_ref = reference_w(ideal)
+        family = amp_family(ideal, w_ref)  # as rational_and_family's, without the ideal solve
+        if family is not None:
+            gbw = np.atleast_1d(np.asarray(gbw_hz if gbw_hz is not None else opamp.gbw_hz, dtype=float))
+            gain0 = np.asarray(a0 if a0 is not None else opamp.a0, dtype=float)
+            size = max(gbw.size, gain0.size)
+            return family.at(np.broadcast_to(gbw, (size,)), np.broadcast_to(gain0, (size,)))
+    if w_ref is None:
+        w_ref = nominal_w_ref(netlist)
+    system = build_system(netlist, opamp, overrides=overrides, gbw_hz=gbw_hz, a0=a0)
+    return rational_from_system(system, w_ref)
+
+
+def ideal_figures(netlist: Netlist) -> Figures:
+    """Figures with an ideal op-amp (batch of one)."""
+    return measure(transfer_function(netlist))
