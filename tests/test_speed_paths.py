@@ -140,3 +140,64 @@ def test_gbw_error_sweep_through_the_family_agrees_with_the_batched_solve(circui
     assert_allclose(1.0 + fast.q_error, 1.0 + slow.q_error, rtol=1e-7)
     assert_allclose(fast.gain_error_db, slow.gain_error_db, atol=1e-6)
     assert math.isfinite(float(np.min(fast.worst)))
+
+
+@pytest.mark.parametrize("gbw_hz", [None, 1e6])
+def test_circuits_designed_together_equal_each_designed_alone(gbw_hz):
+    """design_many (the analyses of every circuit in one batch, as compare and each stage of a
+    chain make them) against design() circuit by circuit: the same parts, and the same JSON to
+    1e-12 relative (the batch's Newton iterations may run a step longer: rounding only)."""
+    import json
+    import math
+
+    from bandsmith.circuits import topology_ids
+    from bandsmith.design.candidate import Conditions
+    from bandsmith.design.designer import Spec, design, design_json, design_many
+
+    def numbers(obj, path=""):
+        if isinstance(obj, dict):
+            for k, v in obj.items():
+                yield from numbers(v, f"{path}.{k}")
+        elif isinstance(obj, list):
+            for i, v in enumerate(obj):
+                yield from numbers(v, f"{path}[{i}]")
+        else:
+            yield path, obj
+
+    cond = Conditions(gbw_hz=gbw_hz)
+    ids = topology_ids()
+    for spec in (Spec(3.3e3, 4.0, 3.0), Spec(20e3, 50.0, 10.0), Spec(455e3, 20.0, 2.0)):
+        together = design_many(ids, spec, conditions=cond)
+        for cid, res in zip(ids, together):
+            alone = design(cid, spec, conditions=cond)
+            assert res.chosen == alone.chosen, cid
+            a, b = dict(numbers(json.loads(json.dumps(design_json(res))))), dict(numbers(json.loads(json.dumps(design_json(alone)))))
+            assert a.keys() == b.keys()
+            for key, x in a.items():
+                y = b[key]
+                if isinstance(x, float) and isinstance(y, float) and math.isfinite(x):
+                    assert y == pytest.approx(x, rel=1e-12, abs=1e-300), f"{cid}{key}"
+                else:
+                    assert x == y, f"{cid}{key}"
+
+
+def test_a_candidate_that_cannot_be_analysed_does_not_stop_the_others(monkeypatch):
+    """analyze_candidates: the analysis of each candidate, or the InputError it raises alone (a
+    candidate made to fail its check here: no part values within range leave no measurable peak)."""
+    from bandsmith.common.errors import InputError
+    from bandsmith.design import candidate as cmod
+
+    topo = get_topology("mfb")
+    good = cmod.Candidate("mfb", topo.example)
+    bad = cmod.Candidate("mfb", {**topo.example, "R3": 2.0 * topo.example["R3"]})
+    checked = cmod.Candidate._checked
+
+    def check(self, result, conditions):
+        if self.values == bad.values:
+            raise InputError("parts", "no measurable peak (made to fail)")
+        return checked(self, result, conditions)
+
+    monkeypatch.setattr(cmod.Candidate, "_checked", check)
+    out = cmod.analyze_candidates([good, bad, good], cmod.Conditions())
+    assert isinstance(out[1], InputError) and out[1].field == "parts"
+    assert out[0].to_json() == good.analyze(cmod.Conditions()).to_json() == out[2].to_json()
