@@ -143,6 +143,16 @@ def _combination_index(sizes: tuple[int, ...]) -> np.ndarray:
     return index
 
 
+@functools.lru_cache(maxsize=64)
+def _flat_combination_index(sizes: tuple[int, ...]) -> np.ndarray:
+    """:func:`_combination_index` into one flat array holding each part's options and then its
+    nearest value, part after part: every combination's values are one fancy index of it."""
+    starts = np.cumsum((0,) + tuple(n + 1 for n in sizes[:-1]))
+    index = _combination_index(sizes) + starts[:, None]
+    index.setflags(write=False)
+    return index
+
+
 def choose_standard(
     topology: Topology,
     exact: Mapping[str, float],
@@ -167,18 +177,18 @@ def choose_standard(
     x = np.array([values[r] for r in free])
     part_series = [part_series_of(topology.component(r).kind, series) for r in free]
     options = [None] * len(free)
-    rounded = np.empty(len(free))
+    rounded = [None] * len(free)
     for ps in set(part_series):
         idx = [i for i, p in enumerate(part_series) if p == ps]
         opts, near = search_options(x[idx], ps, width)
-        for i, o in zip(idx, opts):
-            options[i] = o
-        rounded[idx] = near
+        for i, o, v in zip(idx, opts, near):
+            options[i], rounded[i] = o, v
     # Every combination of the options, and last the member that rounds every part alone to its
     # nearest standard value, for comparison: each part's options with its nearest value after
-    # them, taken by a combination index.
-    index = _combination_index(tuple(o.size for o in options))
-    over = {r: np.append(o, v)[k] for r, o, v, k in zip(free, options, rounded.tolist(), index)}
+    # them, in one flat array taken by a combination index.
+    flat = np.concatenate([a for o, v in zip(options, rounded) for a in (o, (v,))])
+    every = flat[_flat_combination_index(tuple(o.size for o in options))]
+    over = dict(zip(free, every))
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
         h = _combinations(netlist, over, spec.w0)
         # exact polynomial roots up to a few thousand members; a grid around the target beyond
@@ -186,7 +196,7 @@ def choose_standard(
         cost = np.where(hurwitz_stable(h.den) & fig.valid, _weighted_batch(fig, spec, tolerances), np.inf)
     i = int(np.argmin(cost[:-1]))
     chosen = dict(values)
-    chosen.update({r: float(over[r][i]) for r in free})
+    chosen.update(zip(free, every[:, i].tolist()))
     return Choice(
         values=chosen if math.isfinite(cost[i]) else None,
         combinations=int(cost.size - 1),
