@@ -61,6 +61,27 @@ def test_options_match_core_eseries_candidates():
                 assert oi.tolist() == list(candidates(float(xi), series, count=count))
 
 
+def test_search_options_agree_with_candidates_and_nearest_everywhere():
+    # Both ways search_options finds a value's neighbours (bisection of a per-series table, the
+    # logarithm beyond the table or for a wide search) give the vectorised candidates() and
+    # nearest_array() of bandsmith.common.eseries, IEC 60063:2015 Tables 1 and 2 — also for values
+    # within the 1e-9 that counts as standard, and on both sides of the table's ends (1e-15, 1e12).
+    from bandsmith.common.eseries import nearest_array, search_options
+
+    rng = np.random.default_rng(11)
+    for series in ("E3",) + SERIES:
+        x = list(10 ** rng.uniform(-17, 14, 80))
+        std = [nearest(v, series) for v in x[:12]] + [nearest(v, series) for v in (1e-15, 1.2e-15, 9e11, 1e12, 3e12)]
+        x += std + [v * (1 + 5e-10) for v in std] + [v * (1 - 5e-10) for v in std] + [v * (1 + 3e-9) for v in std]
+        x = np.array(x)
+        for w in (1, 9):
+            opts, near = search_options(x, series, w)
+            assert near.tolist() == nearest_array(x, series).tolist()
+            for xi, oi in zip(x, opts):
+                count = w + 1 if in_series(xi, series) else w
+                assert oi.tolist() == list(candidates(float(xi), series, count=count)), (series, w, xi)
+
+
 @pytest.mark.parametrize("series", SERIES)
 @pytest.mark.parametrize("topology_id", ["rlc-tank", "mfb", "sallen-key"])
 def test_chosen_values_lie_in_the_series(series, topology_id):
