@@ -33,6 +33,7 @@ __all__ = [
     "neighbours",
     "candidates",
     "search_options",
+    "search_option_lists",
     "values_between",
     "in_series",
     "coarsest_series",
@@ -272,7 +273,22 @@ def _value_of(k: int, codes_l: list[float], n: int, ndigits: int) -> float:
 
 def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.ndarray]:
     """For a few values at once: the standard values a combination search offers each, and each
-    one's nearest standard value.
+    one's nearest standard value (:func:`search_option_lists`, as arrays).
+
+    Returns
+    -------
+    options : list of ndarray
+        Ascending standard values, one array per element of ``x``.
+    nearest : ndarray
+        Shape ``(len(x),)``.
+    """
+    options, near = search_option_lists(x, series, width)
+    return [np.array(o) for o in options], np.array(near)
+
+
+def search_option_lists(x, series: str, width: int) -> tuple[list[list[float]], list[float]]:
+    """For a few values at once: the standard values a combination search offers each, and each
+    one's nearest standard value, as plain lists of floats.
 
     A value between two standard values is offered the ``width`` values at or below it and the
     ``width`` at or above it (:func:`candidates` with ``count=width``); a value that is itself
@@ -285,10 +301,10 @@ def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.nda
 
     Returns
     -------
-    options : list of ndarray
-        Ascending standard values, one array per element of ``x``.
-    nearest : ndarray
-        Shape ``(len(x),)``.
+    options : list of list of float
+        Ascending standard values, one list per element of ``x``.
+    nearest : list of float
+        One per element of ``x``.
     """
     codes_l, log_mant, ndigits = _series_lists(series)
     n = len(codes_l)
@@ -309,7 +325,7 @@ def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.nda
             near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)
             # itself and width each side, or width at or below and width above: one run of values
             lo_i, hi_i = (i - width, i + width + 1) if standard else (i - width + 1, i + width + 1)
-            options.append(np.array(table[lo_i:hi_i]))
+            options.append(table[lo_i:hi_i])
             continue
         lx = math.log10(xv)
         decade = math.floor(lx)
@@ -323,8 +339,8 @@ def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.nda
         v_hi = value(hi)
         near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)
         steps = range(width + 1 if standard else width)
-        options.append(np.array([value(k) for k in sorted({lo - k for k in steps} | {hi + k for k in steps})]))
-    return options, np.array(near)
+        options.append([value(k) for k in sorted({lo - k for k in steps} | {hi + k for k in steps})])
+    return options, near
 
 
 def values_between(lo: float, hi: float, series: str) -> np.ndarray:
