@@ -145,7 +145,7 @@ def _combinations_flat(netlist, free: list[str], flat: np.ndarray, sizes: tuple[
         every = flat[_flat_combination_index(sizes)]
         return transfer_function(netlist, overrides=dict(zip(free, every)), w_ref=w_ref)
     part = {r: p for p, r in enumerate(free)}
-    divisor = np.empty(flat.size)
+    divisor = np.ones(flat.size)
     fixed = []  # the ratios of the variables that are not searched
     sources = []  # per variable: the part it is, or -1 - its position among the fixed ones
     for v, unit in zip(variables, exp.variables):
