@@ -376,3 +376,24 @@ def test_stage_responses_are_each_stage_against_scipy_freqs():
             _, want = scipy.signal.freqs(b, a, worN=2 * np.pi * f)
             assert_allclose(got[k], want, rtol=1e-9)
         assert_allclose(r.response(f, actual=actual), np.prod(got, axis=0), rtol=1e-12)
+
+
+def test_chain_measured_from_the_sweep_it_was_given_is_the_chain_measured_afresh():
+    # The assembly hands measure_chain the magnitude it already swept; the figures must be those
+    # measure_chain finds evaluating the chain itself (same function, same points: equal numbers).
+    # Scenario (our own): an order-4 Chebyshev channel at 10 kHz, 2 kHz wide, E24, a 5 MHz op-amp.
+    from bandsmith.chain.chain_measure import measure_chain, sweep_frequencies
+
+    settings = ChainSettings.from_request("chebyshev", 4, f0_hz=10e3, bw_hz=2e3, gain=2.0, series="E24")
+    result = design_cascade(settings, conditions=Conditions(gbw_hz=5e6))
+    assert result.feasible, result.reason
+    q_max = max(s.q for s in result.plan.sections)
+    f = sweep_frequencies(settings, q_max)
+    for actual in (False, True):
+        def response(x, actual=actual):
+            return result.response(x, actual=actual)
+
+        given = measure_chain(response, settings, f, q_max, mag=np.abs(response(f)))
+        afresh = measure_chain(response, settings, f, q_max)
+        assert given == afresh
+        assert given == (result.overall_actual if actual else result.overall)

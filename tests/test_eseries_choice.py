@@ -61,6 +61,56 @@ def test_options_match_core_eseries_candidates():
                 assert oi.tolist() == list(candidates(float(xi), series, count=count))
 
 
+def test_search_options_agree_with_candidates_and_nearest_everywhere():
+    # Both ways search_options finds a value's neighbours (bisection of a per-series table, the
+    # logarithm beyond the table or for a wide search) give the vectorised candidates() and
+    # nearest_array() of bandsmith.common.eseries, IEC 60063:2015 Tables 1 and 2 — also for values
+    # within the 1e-9 that counts as standard, and on both sides of the table's ends (1e-15, 1e12).
+    from bandsmith.common.eseries import nearest_array, search_options
+
+    rng = np.random.default_rng(11)
+    for series in ("E3",) + SERIES:
+        x = list(10 ** rng.uniform(-17, 14, 80))
+        std = [nearest(v, series) for v in x[:12]] + [nearest(v, series) for v in (1e-15, 1.2e-15, 9e11, 1e12, 3e12)]
+        x += std + [v * (1 + 5e-10) for v in std] + [v * (1 - 5e-10) for v in std] + [v * (1 + 3e-9) for v in std]
+        x = np.array(x)
+        for w in (1, 9):
+            opts, near = search_options(x, series, w)
+            assert near.tolist() == nearest_array(x, series).tolist()
+            for xi, oi in zip(x, opts):
+                count = w + 1 if in_series(xi, series) else w
+                assert oi.tolist() == list(candidates(float(xi), series, count=count)), (series, w, xi)
+
+
+@pytest.mark.parametrize("topology_id", ["rlc-tank", "mfb", "sallen-key", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_search_batch_from_flat_options_equals_the_batch_by_part(topology_id):
+    # The search builds its combinations' ratios by one gather from the flat options
+    # (_combinations_flat); the chain's joint search builds them part by part (_combinations).
+    # Both make the same divisions value by value, so the transfer functions are equal to the bit.
+    from bandsmith.common.eseries import search_options
+    from bandsmith.design.standard import _combinations, _combinations_flat, _flat_combination_index
+
+    topo = get_topology(topology_id)
+    spec = Spec(2.2e3, 6.0, 2.0)  # our own target
+    values = topo.values_from(dict(topo.synthesize(spec, {}, series="E24")))
+    if "RL" in values:
+        values["RL"] = 12.0  # a winding resistance: a variable that is not searched
+    free = [c.ref for c in topo.components if c.required]
+    opts, near = [], []
+    for r in free:
+        (o,), (n,) = search_options(np.array([values[r]]), part_series_of(topo.component(r).kind, "E24"), 1)
+        opts.append(o)
+        near.append(n)
+    sizes = tuple(o.size for o in opts)
+    flat = np.concatenate([np.append(o, n) for o, n in zip(opts, near)])
+    netlist = topo.build(values)
+    by_part = _combinations(netlist, dict(zip(free, flat[_flat_combination_index(sizes)])), spec.w0)
+    from_flat = _combinations_flat(netlist, free, flat, sizes, spec.w0)
+    assert np.array_equal(by_part.num, from_flat.num, equal_nan=True)
+    assert np.array_equal(by_part.den, from_flat.den, equal_nan=True)
+    assert np.array_equal(by_part.w_ref, from_flat.w_ref)
+
+
 @pytest.mark.parametrize("series", SERIES)
 @pytest.mark.parametrize("topology_id", ["rlc-tank", "mfb", "sallen-key"])
 def test_chosen_values_lie_in_the_series(series, topology_id):

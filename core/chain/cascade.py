@@ -578,12 +578,12 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
     shell = replace(shell, stages=stages)
     h = response(f)
     ref = shell.reference_response(f)
-    overall = measure_chain(response, settings, f, q_max)
+    overall = measure_chain(response, settings, f, q_max, mag=np.abs(h))  # the sweep's magnitude, once
     band = (f >= settings.f_low_hz) & (f <= settings.f_high_hz)
     overall_actual = actual_dev = act_band = None
     if conditions.opamp is not None:
-        overall_actual = measure_chain(lambda x: response(x, actual=True), settings, f, q_max)
         h_act = response(f, actual=True)
+        overall_actual = measure_chain(lambda x: response(x, actual=True), settings, f, q_max, mag=np.abs(h_act))
         actual_dev = max_dev_db(h_act, ref)
         act_band = max_dev_db(h_act[band], ref[band])
     band_dev = max_dev_db(h[band], ref[band])

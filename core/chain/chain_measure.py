@@ -120,14 +120,16 @@ def _edges(mag_fn, f: np.ndarray, mag: np.ndarray, levels: tuple[float, ...]) ->
     return out
 
 
-def measure_chain(response, settings: ChainSettings, f: np.ndarray, q_max: float) -> Overall:
-    """Overall figures of a chain response ``response(f_hz) -> complex (F,)`` on the sweep ``f``."""
+def measure_chain(response, settings: ChainSettings, f: np.ndarray, q_max: float, *, mag: np.ndarray | None = None) -> Overall:
+    """Overall figures of a chain response ``response(f_hz) -> complex (F,)`` on the sweep ``f``
+    (``mag``: its magnitude on the sweep, when the caller has it)."""
 
     def mag_fn(x):
         x = np.asarray(x, dtype=float)
         return np.abs(response(x.reshape(-1))).reshape(x.shape)
 
-    mag = mag_fn(f)
+    if mag is None:
+        mag = mag_fn(f)
     peak, f_pk = peak_over_frequency(lambda x: mag_fn(x).reshape(1, -1), float(f[0]), float(f[-1]), q_max=q_max, rows=1)
     peak, f_pk = float(peak[0]), float(f_pk[0])
     (lo, hi), (lo3, hi3) = _edges(mag_fn, f, mag, (peak * 10 ** (settings.edge_level_db / 20), peak * 10 ** (HALF_POWER_DB / 20)))

@@ -137,6 +137,20 @@ def _level_capacitors(cs: str) -> tuple[np.ndarray, np.ndarray]:
     return caps, logs
 
 
+@functools.lru_cache(maxsize=None)
+def _level_weights(kinds_of: tuple[str, ...]) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, list[int]]:
+    """For parts of these kinds (in order), what :func:`choose_level` weighs them by: the sign of
+    their level scaling (capacitors up, the rest down), the log10 of their PREFERRED window's
+    ends (columns), their weight (an inductor twice) and the rows of the resistors. Read-only."""
+    sign = np.array([1.0 if k == "C" else -1.0 for k in kinds_of])[:, None]
+    lo = np.array([math.log10(PREFERRED[k][0]) for k in kinds_of])[:, None]
+    hi = np.array([math.log10(PREFERRED[k][1]) for k in kinds_of])[:, None]
+    weight = np.array([2.0 if k == "L" else 1.0 for k in kinds_of])  # decades outside, inductors twice
+    for a in (sign, lo, hi, weight):
+        a.setflags(write=False)
+    return sign, lo, hi, weight, [i for i, k in enumerate(kinds_of) if k == "R"]
+
+
 def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref: str, series: str) -> float:
     """Choose the impedance level of a design whose parts all scale together.
 
@@ -154,15 +168,10 @@ def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref:
     caps, log_caps = _level_capacitors(capacitor_series(series))
     log_s = log_caps - math.log10(unit[level_ref])  # log10 of every level on offer
     parts = [(ref, v) for ref, v in unit.items() if v > 0]
-    kinds_of = [kinds[ref] for ref, _ in parts]
+    sign, lo, hi, weight, rows = _level_weights(tuple(kinds[ref] for ref, _ in parts))
     # log10 of every part at every level, (parts, levels): capacitors scale up, the rest down
-    sign = np.array([1.0 if k == "C" else -1.0 for k in kinds_of])
-    lx = np.log10([v for _, v in parts])[:, None] + sign[:, None] * log_s[None, :]
-    lo = np.array([math.log10(PREFERRED[k][0]) for k in kinds_of])[:, None]
-    hi = np.array([math.log10(PREFERRED[k][1]) for k in kinds_of])[:, None]
-    weight = np.array([2.0 if k == "L" else 1.0 for k in kinds_of])  # decades outside, inductors twice
+    lx = np.log10([v for _, v in parts])[:, None] + sign * log_s[None, :]
     cost = weight @ (np.maximum(0.0, lo - lx) + np.maximum(0.0, lx - hi))
-    rows = [i for i, k in enumerate(kinds_of) if k == "R"]
     if rows:
         r = lx[rows]
         centre = 0.5 * (r.min(axis=0) + r.max(axis=0))

@@ -33,6 +33,7 @@ __all__ = [
     "neighbours",
     "candidates",
     "search_options",
+    "search_option_lists",
     "values_between",
     "in_series",
     "coarsest_series",
@@ -246,16 +247,33 @@ def _series_lists(series: str) -> tuple[list[float], list[float], int]:
     return codes_l, [math.log10(c) - (ndigits - 1) for c in codes_l], ndigits
 
 
+# Standard values from 1e-15 to 1e12 of every unit, kept per series as one ascending list (each
+# value built as :func:`_value` builds it) for the combination search's look-ups: every part a
+# circuit is made of lies far inside (bandsmith.circuits.synthesis.MADE).
+_TABLE_DECADES = (-15, 12)
+
+
+@functools.lru_cache(maxsize=None)
+def _series_table(series: str) -> tuple[list[float], float, float]:
+    """``(values, smallest x, largest x)``: the standard values of a series
+    over :data:`_TABLE_DECADES` by their index (see the module notes), and the range of ``x``
+    whose look-ups (up to 8 steps either side) stay well inside the table."""
+    codes_l, _, ndigits = _series_lists(series)
+    n = len(codes_l)
+    first, last = _TABLE_DECADES[0] * n, _TABLE_DECADES[1] * n
+    values = [_value_of(k, codes_l, n, ndigits) for k in range(first, last)]
+    return values, values[16], values[-16]
+
+
+def _value_of(k: int, codes_l: list[float], n: int, ndigits: int) -> float:
+    """Standard value number ``k`` as a plain float (as :func:`_value` computes it)."""
+    e = k // n - (ndigits - 1)
+    return codes_l[k % n] * _POW10_LIST[e] if e >= 0 else codes_l[k % n] / _POW10_LIST[-e]
+
+
 def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.ndarray]:
     """For a few values at once: the standard values a combination search offers each, and each
-    one's nearest standard value.
-
-    A value between two standard values is offered the ``width`` values at or below it and the
-    ``width`` at or above it (:func:`candidates` with ``count=width``); a value that is itself
-    standard is offered itself and its ``width`` neighbours each side (``count=width + 1``). The
-    nearest is :func:`nearest_array`'s. Plain Python numbers inside: for the handful of parts of
-    one design that is quicker than array calls, and every value is the same single correctly
-    rounded step from its code.
+    one's nearest standard value (:func:`search_option_lists`, as arrays).
 
     Returns
     -------
@@ -264,29 +282,65 @@ def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.nda
     nearest : ndarray
         Shape ``(len(x),)``.
     """
+    options, near = search_option_lists(x, series, width)
+    return [np.array(o) for o in options], np.array(near)
+
+
+def search_option_lists(x, series: str, width: int) -> tuple[list[list[float]], list[float]]:
+    """For a few values at once: the standard values a combination search offers each, and each
+    one's nearest standard value, as plain lists of floats.
+
+    A value between two standard values is offered the ``width`` values at or below it and the
+    ``width`` at or above it (:func:`candidates` with ``count=width``); a value that is itself
+    standard is offered itself and its ``width`` neighbours each side (``count=width + 1``). The
+    nearest is :func:`nearest_array`'s. Plain Python numbers inside: for the handful of parts of
+    one design that is quicker than array calls, and every value is the same single correctly
+    rounded step from its code. The offered values are neighbours in the series, so each is one
+    slice of the series' table (:func:`_series_table`), found by bisection; a value beyond the
+    table (or a wide ``width``) is located from its logarithm instead.
+
+    Returns
+    -------
+    options : list of list of float
+        Ascending standard values, one list per element of ``x``.
+    nearest : list of float
+        One per element of ``x``.
+    """
     codes_l, log_mant, ndigits = _series_lists(series)
     n = len(codes_l)
+    table, x_min, x_max = _series_table(series)
 
     def value(k: int) -> float:
-        e = k // n - (ndigits - 1)
-        return codes_l[k % n] * _POW10_LIST[e] if e >= 0 else codes_l[k % n] / _POW10_LIST[-e]
+        return _value_of(k, codes_l, n, ndigits)
 
     options, near = [], []
     for xv in _positive(x).reshape(-1).tolist():
+        ceiling = xv * (1 + _REL_TOL)
+        if width <= 8 and x_min < xv < x_max:
+            # the largest standard value <= ceiling, by bisection of the table
+            i = bisect.bisect_right(table, ceiling) - 1
+            v_lo = table[i]
+            standard = v_lo >= xv * (1 - _REL_TOL)
+            v_hi = v_lo if standard else table[i + 1]
+            near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)
+            # itself and width each side, or width at or below and width above: one run of values
+            lo_i, hi_i = (i - width, i + width + 1) if standard else (i - width + 1, i + width + 1)
+            options.append(table[lo_i:hi_i])
+            continue
         lx = math.log10(xv)
         decade = math.floor(lx)
         lo = decade * n + bisect.bisect_right(log_mant, lx - decade) - 1
         for _ in range(2):  # the log estimate is off by at most one step; settle it both ways
-            lo += value(lo + 1) <= xv * (1 + _REL_TOL)
-            lo -= value(lo) > xv * (1 + _REL_TOL)
+            lo += value(lo + 1) <= ceiling
+            lo -= value(lo) > ceiling
         v_lo = value(lo)
         standard = v_lo >= xv * (1 - _REL_TOL)
         hi = lo if standard else lo + 1
         v_hi = value(hi)
         near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)
         steps = range(width + 1 if standard else width)
-        options.append(np.array([value(k) for k in sorted({lo - k for k in steps} | {hi + k for k in steps})]))
-    return options, np.array(near)
+        options.append([value(k) for k in sorted({lo - k for k in steps} | {hi + k for k in steps})])
+    return options, near
 
 
 def values_between(lo: float, hi: float, series: str) -> np.ndarray:

@@ -29,7 +29,7 @@ from typing import Mapping
 import numpy as np
 
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
-from bandsmith.common.eseries import search_options
+from bandsmith.common.eseries import search_option_lists, search_options
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
 from bandsmith.analysis.figures import Figures, measure
 from bandsmith.circuits.synthesis import Spec, search_grid
@@ -132,6 +132,49 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
     return exp.rational(ratios, w_ref=w_ref)
 
 
+def _combinations_flat(netlist, free: list[str], flat: np.ndarray, sizes: tuple[int, ...], w_ref: float):
+    """:func:`_combinations` of every combination of the free parts' options, given as one flat
+    array (each part's options, then its nearest value: :func:`_flat_combination_index`).
+
+    Through the expansion the ratios of the combinations are taken from the flat array divided
+    once by the parts' unit values, by one gather (the same divisions, value by value, as
+    :func:`_combinations` makes on every member)."""
+    try:
+        exp, variables = unit_expansion(netlist)
+    except ExpansionUnavailable:
+        every = flat[_flat_combination_index(sizes)]
+        return transfer_function(netlist, overrides=dict(zip(free, every)), w_ref=w_ref)
+    part = {r: p for p, r in enumerate(free)}
+    divisor = np.ones(flat.size)
+    fixed = []  # the ratios of the variables that are not searched
+    sources = []  # per variable: the part it is, or -1 - its position among the fixed ones
+    for v, unit in zip(variables, exp.variables):
+        p = part.get(v.name)
+        if p is None:
+            sources.append(-1 - len(fixed))
+            fixed.append(v.value / unit.value)
+        else:
+            start = sum(sizes[:p]) + p
+            divisor[start:start + sizes[p] + 1] = unit.value
+            sources.append(p)
+    ratios = np.concatenate([flat / divisor, fixed])[_ratio_index(sizes, tuple(sources))]
+    return exp.rational(ratios, w_ref=w_ref)
+
+
+@functools.lru_cache(maxsize=64)
+def _ratio_index(sizes: tuple[int, ...], sources: tuple[int, ...]) -> np.ndarray:
+    """Index ``(N + 1, V)`` (C order) into the flat ratios of :func:`_combinations_flat` followed by
+    the fixed ones: member by member, each variable's column (a part's through
+    :func:`_flat_combination_index`, a fixed variable's one entry after the flat array)."""
+    every = _flat_combination_index(sizes)
+    n_flat = sum(sizes) + len(sizes)
+    out = np.empty((every.shape[1], len(sources)), dtype=np.intp)
+    for j, src in enumerate(sources):
+        out[:, j] = every[src] if src >= 0 else n_flat + (-1 - src)
+    out.setflags(write=False)
+    return out
+
+
 @functools.lru_cache(maxsize=64)
 def _combination_index(sizes: tuple[int, ...]) -> np.ndarray:
     """Index rows ``(len(sizes), N + 1)`` that enumerate every combination of options of these
@@ -139,6 +182,16 @@ def _combination_index(sizes: tuple[int, ...]) -> np.ndarray:
     that points each part at the entry after its options (the nearest value)."""
     grid = np.indices(sizes).reshape(len(sizes), -1)
     index = np.concatenate([grid, np.array(sizes)[:, None]], axis=1)
+    index.setflags(write=False)
+    return index
+
+
+@functools.lru_cache(maxsize=64)
+def _flat_combination_index(sizes: tuple[int, ...]) -> np.ndarray:
+    """:func:`_combination_index` into one flat array holding each part's options and then its
+    nearest value, part after part: every combination's values are one fancy index of it."""
+    starts = np.cumsum((0,) + tuple(n + 1 for n in sizes[:-1]))
+    index = _combination_index(sizes) + starts[:, None]
     index.setflags(write=False)
     return index
 
@@ -164,29 +217,28 @@ def choose_standard(
         h = transfer_function(netlist, w_ref=spec.w0)
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
-    x = np.array([values[r] for r in free])
     part_series = [part_series_of(topology.component(r).kind, series) for r in free]
     options = [None] * len(free)
-    rounded = np.empty(len(free))
+    rounded = [None] * len(free)
     for ps in set(part_series):
         idx = [i for i, p in enumerate(part_series) if p == ps]
-        opts, near = search_options(x[idx], ps, width)
-        for i, o in zip(idx, opts):
-            options[i] = o
-        rounded[idx] = near
+        opts, near = search_option_lists([values[free[i]] for i in idx], ps, width)
+        for i, o, v in zip(idx, opts, near):
+            options[i], rounded[i] = o, v
     # Every combination of the options, and last the member that rounds every part alone to its
     # nearest standard value, for comparison: each part's options with its nearest value after
-    # them, taken by a combination index.
-    index = _combination_index(tuple(o.size for o in options))
-    over = {r: np.append(o, v)[k] for r, o, v, k in zip(free, options, rounded.tolist(), index)}
+    # them, in one flat array taken by a combination index.
+    sizes = tuple(len(o) for o in options)
+    flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
+    index = _flat_combination_index(sizes)
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
-        h = _combinations(netlist, over, spec.w0)
+        h = _combinations_flat(netlist, free, flat, sizes, spec.w0)
         # exact polynomial roots up to a few thousand members; a grid around the target beyond
         fig = measure(h) if h.batch <= _ROOTS_UP_TO else measure(h, grid=search_grid(spec.q))
         cost = np.where(hurwitz_stable(h.den) & fig.valid, _weighted_batch(fig, spec, tolerances), np.inf)
     i = int(np.argmin(cost[:-1]))
     chosen = dict(values)
-    chosen.update({r: float(over[r][i]) for r in free})
+    chosen.update(zip(free, flat[index[:, i]].tolist()))
     return Choice(
         values=chosen if math.isfinite(cost[i]) else None,
         combinations=int(cost.size - 1),
