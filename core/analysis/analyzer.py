@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import functools
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Mapping, Sequence
 
 import numpy as np
@@ -163,16 +163,23 @@ class Response:
 
 @dataclass(frozen=True, slots=True)
 class Analysis:
-    """One candidate, fully analysed."""
+    """One candidate, fully analysed.
+
+    ``gbw_search`` is the required GBW (Hz, None where none serves) and the reason when none
+    does; the amplifiers' needs (:attr:`requirements`) are worked out when first asked for: a
+    chain lists circuits it never looks at that closely.
+    """
 
     netlist: Netlist
     ideal: Figures
     actual: Figures | None
     opamp: OpAmpModel
-    requirements: Requirements
+    gbw_search: tuple[float | None, str | None]
     sensitivity: Mapping[str, Mapping[str, float]]
     h_ideal: Rational
     h_actual: Rational | None
+    # what requirements() takes besides the above: (vin_v, a0, rload_ohm, tolerances)
+    drive: tuple = field(default=(1.0, DEFAULT_A0, None, Tolerances()), repr=False, compare=False)
     # the transfer function's dependence on a common single-pole op-amp (None without op-amps or
     # where no family applies): it gives the figures at any GBW without a solve (gbw_error_sweep)
     family: OpAmpFamily | AmpFamily | None = field(default=None, repr=False, compare=False)
@@ -180,6 +187,22 @@ class Analysis:
     # stable_ideal and stable_actual, found when first asked for (the verdict and the JSON ask thrice)
     _stable_ideal: bool | None = field(default=None, repr=False, compare=False)
     _stable_actual: bool | None = field(default=None, repr=False, compare=False)
+    _requirements: Requirements | None = field(default=None, repr=False, compare=False)
+
+    @property
+    def requirements(self) -> Requirements:
+        """What the circuit asks of its op-amps (:func:`requirements`; computed when first asked for)."""
+        if self._requirements is None:
+            vin_v, a0, rload_ohm, tolerances = self.drive
+            object.__setattr__(self, "_requirements", requirements(
+                self.netlist, self.ideal, max_step_slope(self.h_ideal), vin_v=vin_v, a0=a0, rload_ohm=rload_ohm,
+                tolerances=tolerances, gbw_search=self.gbw_search,
+            ))
+        return self._requirements
+
+    def with_requirements(self, req: Requirements) -> Analysis:
+        """The same analysis with these requirements (an output current into a known load, say)."""
+        return replace(self, _requirements=req)
 
     @property
     def step(self) -> StepResponse:
@@ -579,19 +602,16 @@ def analyze_many(
             h_actual = with_gbw(netlist, first.family, first.w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
         if finite and (actual is None or not bool(actual.valid[0])):  # far from the ideal: measured exactly
             actual = measure_from(h_actual, first.ideal)
-        req = requirements(
-            netlist, first.ideal, max_step_slope(first.h_ideal), vin_v=vin_v, a0=a0, rload_ohm=rload_ohm,
-            tolerances=tolerances, gbw_search=gbw_search,
-        )
         out.append(Analysis(
             netlist=netlist,
             ideal=first.ideal,
             actual=actual,
             opamp=opamp if opamp is not None else IDEAL,
-            requirements=req,
+            gbw_search=gbw_search,
             sensitivity=first.sensitivity,
             h_ideal=first.h_ideal,
             h_actual=h_actual,
+            drive=(vin_v, a0, rload_ohm, tolerances),
             family=first.family,
         ))
     return out

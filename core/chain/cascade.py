@@ -347,13 +347,12 @@ def _assess(topology_id: str, res, plan: SectionPlan, series: str, conditions: C
     tol = conditions.tolerances
     within = not figure_misses(errors, tol)
     weighted = weighted_error(errors, tol)
-    gbw = res.analysis.requirements.gbw_hz if res.analysis is not None else None
+    gbw, why = res.analysis.gbw_search if res.analysis is not None else (None, None)
     gross = _gross_miss(errors, plan.q, series)
     if gross:
         return res, Attempt(topology_id, False, gbw, rs, cs, gross, errors, False, weighted)
     reason = None
     if gbw is None:
-        why = res.analysis.requirements.gbw_reason if res.analysis is not None else None
         reason = f"no op-amp gain-bandwidth is enough ({why})" if why else "no op-amp gain-bandwidth is enough"
     elif rs > MAX_R_SPREAD:
         reason = f"its resistors spread {rs:.3g}:1, more than {MAX_R_SPREAD:g}:1"
@@ -533,7 +532,7 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
             topology_id=cand.topology_id, spec=spec, feasible=True, reason=None, exact=dict(cand.values), chosen=dict(cand.values),
             series=settings.series, ideal=an.ideal, errors=errors, warnings=(), analysis=an, conditions=cond,
         )
-        att = Attempt(cand.topology_id, True, an.requirements.gbw_hz, sp["r"] or 1.0, sp["c"] or 1.0, None, errors, within, weighted_error(errors, tol))
+        att = Attempt(cand.topology_id, True, an.gbw_search[0], sp["r"] or 1.0, sp["c"] or 1.0, None, errors, within, weighted_error(errors, tol))
         built.append(Stage(sec, vin, res, (att,), True, None, an.h_ideal, an.h_actual))
     return _assemble(settings, conditions, plan, tuple(built))
 
@@ -551,7 +550,7 @@ def _loaded(stages: tuple[Stage, ...]) -> tuple[Stage, ...]:
             continue
         amps = opamp_output_current(an.netlist, f0, load=nxt.result.analysis.netlist) * st.vin_v
         req = replace(an.requirements, iout_peak_a=amps)
-        out[k] = replace(st, result=replace(st.result, analysis=replace(an, requirements=req)))
+        out[k] = replace(st, result=replace(st.result, analysis=an.with_requirements(req)))
     return tuple(out)
 
 

@@ -185,7 +185,7 @@ def _with_capacitive_load(result: Analysis, conditions: Conditions) -> Analysis:
     req = result.requirements
     rows = tuple(replace(a, iout_peak_a=float(each.get(a.ref, a.iout_peak_a))) for a in req.amplifiers)
     worst = max(each.values()) if each else req.iout_peak_a
-    return replace(result, requirements=replace(req, iout_peak_a=float(worst), amplifiers=rows))
+    return result.with_requirements(replace(req, iout_peak_a=float(worst), amplifiers=rows))
 
 
 def parse_parts(topology: Topology, assignments: Mapping[str, str | float]) -> dict[str, float]:
