@@ -8,7 +8,7 @@ tracked search grid of the solver's batches) is described in :mod:`bandsmith.spr
 from __future__ import annotations
 
 import math
-from dataclasses import fields
+from dataclasses import dataclass, fields
 
 import numpy as np
 
@@ -20,12 +20,12 @@ from bandsmith.analysis.sensitivity import log_slopes, perturbed_ratios
 from bandsmith.analysis.figures import Figures, biquad_figures, exact_in_closed_form, measure
 from bandsmith.solver.mna import OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import Rational
+from bandsmith.solver.rational import Rational, nominal_w_ref
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.spread.spread_settings import CHUNK, KINDS, SpreadSettings
 from bandsmith.spread import trialfigures as tf
 
-__all__ = ["Evaluator", "part_tolerances", "setup_spread", "nominal_figures", "draws", "evaluator_columns"]
+__all__ = ["Evaluator", "PreparedSpread", "part_tolerances", "setup_spread", "prepare_spread", "nominal_figures", "draws", "evaluator_columns", "drawn_values"]
 
 
 _GRID_POINTS = 49  # points of the search grid each trial is measured on
@@ -135,9 +135,7 @@ class Evaluator:
         f0_est, q_est, centre, half, ok_est = self._estimates(ratios)
         with np.errstate(invalid="ignore", over="ignore"):
             edges = (centre * np.exp(-half)) ** 2, (centre * np.exp(half)) ** 2
-        live = np.isfinite(den[0])
-        for r in den[1:]:
-            live &= np.isfinite(r)
+        live = tf.finite_rows(den)
         u_pk, u_low, u_high, _ = tf.tracked_points(pu, qu, slope, centre * centre, q_est, edges, live)
         fig = tf.figures_rows(num, den, w, u_pk, u_low, u_high)
         with np.errstate(invalid="ignore", divide="ignore"):
@@ -237,6 +235,55 @@ def setup_spread(netlist: Netlist, settings: SpreadSettings, opamp: OpAmpModel):
     parts = [v for v in circuit_variables(netlist, opamp) if v.kind not in ("gbw", "a0")]
     spread = np.array([tol[v.name] for v in parts] + [settings.gbw_tol])
     return tol, parts, spread
+
+
+@dataclass(frozen=True, slots=True)
+class PreparedSpread:
+    """What every spread of a circuit starts from (:func:`prepare_spread`).
+
+    Attributes
+    ----------
+    tolerances : dict
+        The fraction of every part with a value above zero, by reference.
+    parts : list of Variable
+        The drawn parts, in the order of the drawn columns (the GBW's column follows them).
+    spread : ndarray
+        The tolerance of each drawn column, the GBW's last (fractions).
+    nominal : Figures
+        The nominal figures (batch of one), with the op-amp of the trials.
+    evaluator : Evaluator
+        The figures of batches of part values for this circuit and op-amp.
+    """
+
+    tolerances: dict
+    parts: list
+    spread: np.ndarray
+    nominal: Figures
+    evaluator: Evaluator
+
+
+def prepare_spread(netlist: Netlist, settings: SpreadSettings, opamp: OpAmpModel, engine: str = "auto") -> PreparedSpread:
+    """The tolerances, drawn columns, nominal figures and evaluator of a spread (:func:`setup_spread`,
+    then the nominal circuit measured at its reference frequency).
+
+    Raises
+    ------
+    InputError
+        As :func:`setup_spread`, or for a nominal circuit without a band-pass peak.
+    """
+    tol, parts, spread = setup_spread(netlist, settings, opamp)
+    w_ref = nominal_w_ref(netlist)
+    nominal = nominal_figures(netlist, opamp, w_ref)
+    return PreparedSpread(tol, parts, spread, nominal, Evaluator(netlist, opamp, w_ref, nominal, engine))
+
+
+def drawn_values(parts: list[Variable], opamp: OpAmpModel, drawn: np.ndarray) -> dict[str, np.ndarray]:
+    """Drawn ratios (one row per trial, the GBW's column last) → values in SI units by part reference,
+    and ``"gbw"`` (Hz) for a finite op-amp."""
+    out = {v.name: drawn[:, j] * v.value for j, v in enumerate(parts)}
+    if not opamp.ideal:
+        out["gbw"] = drawn[:, -1] * opamp.gbw_hz
+    return out
 
 
 def draws(settings: SpreadSettings, spread: np.ndarray, total: int):
