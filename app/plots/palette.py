@@ -12,7 +12,13 @@ from dataclasses import dataclass
 
 from PySide6 import QtCore, QtGui
 
-__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "SYMBOLS", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED"]
+from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL as FIT_MARGINAL
+from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE
+
+__all__ = [
+    "CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "SYMBOLS", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED",
+    "VERDICT_MARKS", "FIT_MARKS",
+]
 
 # Blue, amber, dark magenta, sky, vermilion-brown, bluish green, olive, slate: alternating dark and
 # light so that any two neighbours are told apart by lightness as well as by hue.
@@ -45,6 +51,12 @@ MUTED = "#5f6368"
 GOOD = "#1d7a3a"
 WARN = "#a35f00"
 BAD = "#b0191e"
+
+#: The symbol and status colour of a candidate's verdict, on screen and in the report (the symbol
+#: carries it in greyscale print and without colour vision).
+VERDICT_MARKS = {BUILDABLE: ("●", GOOD), MARGINAL: ("◐", WARN), NOT_BUILDABLE: ("✕", BAD)}
+#: The same for an op-amp model's fit to a candidate.
+FIT_MARKS = {FITS: ("✓", GOOD), FIT_MARGINAL: ("◐", WARN), DOES_NOT_FIT: ("✗", BAD)}
 
 
 @dataclass(frozen=True, slots=True)
