@@ -30,7 +30,7 @@ from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.panes.spread_pane import CandidatePicker
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import MUTED, error_label, fit_columns
+from bandsmith.app.window.theme import MUTED, error_label, fit_columns, note_label
 
 __all__ = ["BoardPane", "install"]
 
@@ -166,10 +166,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         bar.addWidget(self.measured_edit)
         bar.addStretch(1)
         outer.addLayout(bar)
-        self.info = QtWidgets.QLabel(self)
-        self.info.setObjectName("boardInfo")
-        self.info.setStyleSheet(f"color: {MUTED};")
-        self.info.setWordWrap(True)
+        self.info = note_label(self, "boardInfo")
         outer.addWidget(self.info)
 
     def _build_bias(self, inner: QtWidgets.QWidget) -> None:
@@ -197,10 +194,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         row.addLayout(right)
         row.addStretch(1)
         col.addLayout(row)
-        self.notes = QtWidgets.QLabel(inner)
-        self.notes.setObjectName("boardNotes")
-        self.notes.setWordWrap(True)
-        self.notes.setStyleSheet(f"color: {MUTED};")
+        self.notes = note_label(inner, "boardNotes")
         col.addWidget(self.notes)
         col.addStretch(1)
         self.body.addLayout(col, 1)

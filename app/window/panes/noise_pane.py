@@ -35,9 +35,9 @@ from bandsmith.app.document.extras_settings import NOISE_KEY, stored_noise
 from bandsmith.app.document.extras_shelf import chosen_amp
 from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
-from bandsmith.app.window.panes.spread_pane import CandidatePicker, candidate_circuit, winding_text
+from bandsmith.app.window.panes.spread_pane import CandidatePicker, WindingLine, candidate_circuit, winding_text
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import INK, MUTED, error_label, headline
+from bandsmith.app.window.theme import INK, MUTED, error_label, headline, note_label
 from bandsmith.app.window.widgets.value_field import ValueField
 
 __all__ = ["NoisePane", "SOURCE_COLOURS", "install"]
@@ -184,16 +184,10 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         bar.addWidget(QtWidgets.QLabel("Candidate", self))
         self.picker = CandidatePicker(self.state, self)
         bar.addWidget(self.picker)
-        self.info = QtWidgets.QLabel(self)
-        self.info.setObjectName("noiseInfo")
-        self.info.setStyleSheet(f"color: {MUTED};")
-        self.info.setWordWrap(True)
+        self.info = note_label(self, "noiseInfo")
         bar.addWidget(self.info, 1)
         outer.addLayout(bar)
-        self.winding = QtWidgets.QLabel(self)
-        self.winding.setObjectName("windingLine")
-        self.winding.setWordWrap(True)
-        self.winding.hide()
+        self.winding = WindingLine(self)
         outer.addWidget(self.winding)
 
     def _build_settings(self, outer: QtWidgets.QVBoxLayout) -> None:
@@ -416,9 +410,7 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         key = (entry.topology_id, tuple(sorted(entry.values.items())), opamp, s, vin)
         if key != self._key:
             self._key = key
-            text = winding_text(net, opamp)
-            self.winding.setText(text)
-            self.winding.setVisible(bool(text))
+            self.winding.show_text(winding_text(net, opamp))
             try:
                 self.result = output_noise(net, s, opamp=opamp, vin_v=vin)
                 f0 = self.result.f0_hz

@@ -62,10 +62,10 @@ from bandsmith.app.window.panes.spread_view import (
     table_item,
 )
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import MUTED, WARN, error_label
+from bandsmith.app.window.theme import MUTED, WARN, error_label, note_label
 from bandsmith.app.window.widgets.value_field import ValueField
 
-__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
+__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "WindingLine", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
 
 #: Name of the band the pane shades on the magnitude plot.
 ENVELOPE_KEY = "spread"
@@ -157,6 +157,22 @@ def winding_text(netlist: Netlist, opamp: OpAmpModel) -> str:
                 f"its winding lowers the circuit's Q from {w.q_lossless:.4g} to {w.q:.4g} ({-100.0 * w.q_drop:+.2f} %)."
             )
     return " ".join(lines)
+
+
+class WindingLine(QtWidgets.QLabel):
+    """The line under a pane's candidate chooser that says what the inductor's winding does
+    (:func:`winding_text`); hidden while there is nothing to say."""
+
+    def __init__(self, parent: QtWidgets.QWidget | None = None):
+        super().__init__(parent)
+        self.setObjectName("windingLine")
+        self.setWordWrap(True)
+        self.hide()
+
+    def show_text(self, text: str) -> None:
+        """Show ``text``, or hide the line for an empty one."""
+        self.setText(text)
+        self.setVisible(bool(text))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -262,17 +278,11 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.run_button.setMinimumWidth(90)
         self.run_button.clicked.connect(self.run)
         bar.addWidget(self.run_button)
-        self.run_info = QtWidgets.QLabel(body)
-        self.run_info.setObjectName("spreadRunInfo")
-        self.run_info.setStyleSheet(f"color: {MUTED};")
-        self.run_info.setWordWrap(True)
+        self.run_info = note_label(body, "spreadRunInfo")
         bar.addWidget(self.run_info, 1)
         outer.addLayout(bar)
-        self.winding = QtWidgets.QLabel(body)
-        self.winding.setObjectName("windingLine")
-        self.winding.setWordWrap(True)
+        self.winding = WindingLine(body)
         self.winding.setToolTip("The inductor's own quality factor at f0 and what its winding resistance does to the circuit's Q (the spread varies the winding resistance as a resistor).")
-        self.winding.hide()
         outer.addWidget(self.winding)
 
     def _frac_field(self, box: QtWidgets.QWidget, name: str, tip: str, check: Callable[[float], SpreadSettings]) -> ValueField:
@@ -345,10 +355,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         grid.addWidget(self.fields["window_gain_db"], 6, 1)
         # The yield window is a production window on the spread of built copies; the design
         # tolerances (target strip) judge one design against the target: say how they differ.
-        self.window_note = QtWidgets.QLabel(box)
-        self.window_note.setObjectName("yieldWindowNote")
-        self.window_note.setWordWrap(True)
-        self.window_note.setStyleSheet(f"color: {MUTED};")
+        self.window_note = note_label(box, "yieldWindowNote")
         grid.addWidget(self.window_note, 7, 0, 1, 4)
 
     def _build_parts_box(self, body: QtWidgets.QWidget) -> QtWidgets.QGroupBox:
@@ -464,9 +471,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.window_note.setText(window_note(s, self.state.session.tolerances))
         circ = candidate_circuit(self.state, self.picker.candidate_id)
         ideal = circ is None or circ[1].ideal
-        text = winding_text(*circ) if circ is not None else ""
-        self.winding.setText(text)
-        self.winding.setVisible(bool(text))
+        self.winding.show_text(winding_text(*circ) if circ is not None else "")
         gbw = self.fields["gbw_tol"]
         gbw.edit.setEnabled(not ideal)
         gbw.edit.setToolTip(

@@ -17,7 +17,7 @@ from bandsmith.common.values import format_value
 from bandsmith.spread.tolerance import Spread
 
 from bandsmith.app.plots.histogram import HISTOGRAM_FIGURES, FigureHistogram, window_of
-from bandsmith.app.window.theme import BAD, MUTED, headline
+from bandsmith.app.window.theme import BAD, MUTED, headline, note_label
 
 __all__ = ["SpreadResults", "DIST_TEXT", "count_text", "percent_text", "table_item", "fit_height"]
 
@@ -71,25 +71,16 @@ def table_item(text: str, *, bold: bool = False, colour: str | None = None, tip:
     return it
 
 
-def _fmt_figure(key: str, x: float) -> str:
+def _fmt_figure(key: str, x: float, *, deviation: bool = False) -> str:
+    """A figure: f0 in Hz, Q plain, gain in signed dB; with ``deviation`` a standard deviation
+    (fewer digits, the gain without a sign)."""
     if not math.isfinite(x):
         return "—"
     if key == "f0_hz":
-        return format_value(x, "Hz", digits=5)
+        return format_value(x, "Hz", digits=3 if deviation else 5)
     if key == "q":
-        return f"{x:.4g}"
-    return f"{x:+.3f} dB"
-
-
-def _fmt_spread(key: str, x: float) -> str:
-    """A standard deviation: f0 in Hz, Q plain, gain in dB (no sign)."""
-    if not math.isfinite(x):
-        return "—"
-    if key == "f0_hz":
-        return format_value(x, "Hz", digits=3)
-    if key == "q":
-        return f"{x:.3g}"
-    return f"{x:.3f} dB"
+        return f"{x:.3g}" if deviation else f"{x:.4g}"
+    return f"{x:.3f} dB" if deviation else f"{x:+.3f} dB"
 
 
 class SpreadResults(QtWidgets.QWidget):
@@ -116,12 +107,7 @@ class SpreadResults(QtWidgets.QWidget):
         self.histograms = {key: FigureHistogram(key, title, unit, body) for key, title, unit in HISTOGRAM_FIGURES}
         self._hist_columns = 0
         self._reflow_histograms(3)
-        key_line = QtWidgets.QLabel(
-            "Shaded green: the yield window. Solid line: nominal. Red dotted: the worst-case corners.", body
-        )
-        key_line.setObjectName("histogramKey")
-        key_line.setStyleSheet(f"color: {MUTED};")
-        key_line.setWordWrap(True)
+        key_line = note_label(body, "histogramKey", "Shaded green: the yield window. Solid line: nominal. Red dotted: the worst-case corners.")
         lay.addWidget(key_line)
         env_row = QtWidgets.QHBoxLayout()
         self.show_envelope = QtWidgets.QCheckBox("Shade the p5–p95 band on the Magnitude plot", body)
@@ -163,10 +149,7 @@ class SpreadResults(QtWidgets.QWidget):
         self.corners.horizontalHeader().setSectionResizeMode(QtWidgets.QHeaderView.ResizeMode.Stretch)
         self.corners.setToolTip("Each column is one corner: the deviation of every part (and the GBW) that gives that extreme.")
         wcol.addWidget(self.corners)
-        self.worst_note = QtWidgets.QLabel(body)
-        self.worst_note.setObjectName("worstNote")
-        self.worst_note.setWordWrap(True)
-        self.worst_note.setStyleSheet(f"color: {MUTED};")
+        self.worst_note = note_label(body, "worstNote")
         wcol.addWidget(self.worst_note)
         wcol.addStretch(1)
         self.tables_row.addLayout(wcol, 1)
@@ -216,7 +199,7 @@ class SpreadResults(QtWidgets.QWidget):
             lo, hi = getattr(sp.worst, key)
             vals = [float(getattr(nom, key)), st["mean"], st["std"], st["min"], st["p5"], st["p50"], st["p95"], st["max"], lo, hi]
             for i, v in enumerate(vals):
-                text = _fmt_spread(key, v) if self._stat_rows[i] == "std" else _fmt_figure(key, v)
+                text = _fmt_figure(key, v, deviation=self._stat_rows[i] == "std")
                 self.stats.setItem(i, j, table_item(text, bold=self._stat_rows[i].startswith("worst"), colour=BAD if self._stat_rows[i].startswith("worst") else None))
 
     def _fill_corners(self, sp: Spread) -> None:
