@@ -11,14 +11,13 @@ import scipy.signal
 from numpy.testing import assert_allclose
 from PySide6 import QtCore
 
-from bandsmith.app.window.panes.chain_pane import EXTRAS_KEY, ChainPane
+from bandsmith.app.window.panes.chain_pane import EXTRAS_KEY
 from bandsmith.app.window.demo import demo_session
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import STYLE_SHEET
 from bandsmith.chain.cascade import chains_in
 from bandsmith.files.session import load_session, save_session
 
-from window_helpers import ScriptedPrompter, screenshot, temp_settings
+from window_helpers import chain_pane, open_window, screenshot, ScriptedPrompter
 
 pytestmark = pytest.mark.gui
 
@@ -32,14 +31,7 @@ def state():
 
 
 def make_pane(qtbot, state, **kw):
-    p = ChainPane(state, **kw)
-    p.setStyleSheet(STYLE_SHEET)
-    qtbot.addWidget(p)
-    p.resize(1180, 760)
-    p.show()
-    qtbot.waitExposed(p)
-    qtbot.waitUntil(lambda: not p.busy, timeout=WAIT_MS)
-    return p
+    return chain_pane(qtbot, state, WAIT_MS, **kw)
 
 
 @pytest.fixture
@@ -237,15 +229,9 @@ def test_exports_of_the_shown_chain(qtbot, state, tmp_path):
     assert prompter.errors == []
 
 
-def test_the_window_has_the_pane_and_runs_its_jobs_in_the_status_bar(qtbot, tmp_path):
-    from bandsmith.app.window.main_window import WorkbenchWindow
-
-    state = WorkbenchState(demo_session())
-    win = WorkbenchWindow(state, prompter=ScriptedPrompter(), settings=temp_settings(tmp_path), recovery=False)
-    qtbot.addWidget(win)
-    win.resize(1280, 800)
-    win.show()
-    qtbot.waitExposed(win)
+def test_the_window_has_the_pane_and_runs_its_jobs_in_the_status_bar(qtbot, tmp_path, monkeypatch):
+    win = open_window(qtbot, tmp_path, monkeypatch, size=(1280, 800), recovery=False)
+    state = win.state
     pane = win.chain_pane
     titles = [win.panes.tabText(i) for i in range(win.panes.count())]
     assert "Stage chain" in titles
