@@ -8,15 +8,13 @@ worst-case corners of the tolerance box.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from bandsmith.common.values import format_value
 from bandsmith.spread.tolerance import Spread
 
 from bandsmith.app.plots.histogram import HISTOGRAM_FIGURES, FigureHistogram, window_of
+from bandsmith.app.plots.spread_text import count_text, figure_text
 from bandsmith.app.window.theme import BAD, MUTED, headline, note_label
 
 __all__ = ["SpreadResults", "DIST_TEXT", "count_text", "percent_text", "table_item", "fit_height"]
@@ -25,11 +23,6 @@ __all__ = ["SpreadResults", "DIST_TEXT", "count_text", "percent_text", "table_it
 DIST_TEXT = {"uniform": "uniform, ±p", "normal": "normal, p = 3σ"}
 #: Trials the magnitude envelope is taken over (the first ones of the run).
 ENVELOPE_TRIALS = 2000
-
-
-def count_text(n: int) -> str:
-    """A count with its thousands apart: 10 000."""
-    return f"{int(n):,}".replace(",", " ")
 
 
 def percent_text(x: float) -> str:
@@ -69,18 +62,6 @@ def table_item(text: str, *, bold: bool = False, colour: str | None = None, tip:
     if tip:
         it.setToolTip(tip)
     return it
-
-
-def _fmt_figure(key: str, x: float, *, deviation: bool = False) -> str:
-    """A figure: f0 in Hz, Q plain, gain in signed dB; with ``deviation`` a standard deviation
-    (fewer digits, the gain without a sign)."""
-    if not math.isfinite(x):
-        return "—"
-    if key == "f0_hz":
-        return format_value(x, "Hz", digits=3 if deviation else 5)
-    if key == "q":
-        return f"{x:.3g}" if deviation else f"{x:.4g}"
-    return f"{x:.3f} dB" if deviation else f"{x:+.3f} dB"
 
 
 class SpreadResults(QtWidgets.QWidget):
@@ -199,7 +180,7 @@ class SpreadResults(QtWidgets.QWidget):
             lo, hi = getattr(sp.worst, key)
             vals = [float(getattr(nom, key)), st["mean"], st["std"], st["min"], st["p5"], st["p50"], st["p95"], st["max"], lo, hi]
             for i, v in enumerate(vals):
-                text = _fmt_figure(key, v, deviation=self._stat_rows[i] == "std")
+                text = figure_text(key, v, deviation=self._stat_rows[i] == "std")
                 self.stats.setItem(i, j, table_item(text, bold=self._stat_rows[i].startswith("worst"), colour=BAD if self._stat_rows[i].startswith("worst") else None))
 
     def _fill_corners(self, sp: Spread) -> None:
@@ -222,7 +203,7 @@ class SpreadResults(QtWidgets.QWidget):
             for side in (0, 1):
                 corner = lo_hi[side]
                 head = self.corners.horizontalHeaderItem(col)
-                head.setToolTip(f"{'lowest' if side == 0 else 'highest'} {key.split('_')[0]}: {_fmt_figure(key, ext[side])}")
+                head.setToolTip(f"{'lowest' if side == 0 else 'highest'} {key.split('_')[0]}: {figure_text(key, ext[side])}")
                 for r, n in enumerate(names):
                     d = corner.get(n)
                     text = "" if d is None else (f"+{percent_text(d)}" if d > 0 else f"−{percent_text(-d)}")
