@@ -21,7 +21,7 @@ from bandsmith.app.plots.palette import (
     candidate_style,
 )
 
-__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "STYLE_SHEET", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED", "error_label", "note_label", "fit_columns", "headline"]
+__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "STYLE_SHEET", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED", "error_label", "note_label", "section_title", "fit_columns", "headline"]
 
 STYLE_SHEET = f"""
 QMainWindow, QWidget#board {{ background: #f6f6f3; }}
@@ -37,6 +37,15 @@ QLabel#needFlagBad {{ color: white; background: {BAD}; font-weight: 700; padding
 QLabel#candidateTitle {{ font-weight: 700; font-size: 13px; }}
 QLineEdit[invalid="true"] {{ border: 1px solid {BAD}; background: #fff1f0; }}
 """
+
+
+def section_title(parent: QtWidgets.QWidget | None, text: str, *, wrap: bool = False) -> QtWidgets.QLabel:
+    """The bold title over a part of a pane (styled as ``sectionTitle``); ``wrap`` for a long one."""
+    label = QtWidgets.QLabel(text, parent)
+    label.setObjectName("sectionTitle")
+    if wrap:
+        label.setWordWrap(True)
+    return label
 
 
 def note_label(parent: QtWidgets.QWidget, object_name: str, text: str = "") -> QtWidgets.QLabel:

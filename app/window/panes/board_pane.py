@@ -30,7 +30,7 @@ from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.panes.spread_pane import CandidatePicker
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import MUTED, error_label, fit_columns, note_label
+from bandsmith.app.window.theme import MUTED, error_label, fit_columns, note_label, section_title
 
 __all__ = ["BoardPane", "install"]
 
@@ -79,12 +79,6 @@ def _fit(table: QtWidgets.QTableWidget) -> None:
     bar = table.horizontalScrollBar().sizeHint().height()
     h = header.height() + sum(table.rowHeight(i) for i in range(table.rowCount())) + 2 * table.frameWidth()
     table.setFixedHeight(h + bar if table.width() < w else h)
-
-
-def _title(parent, text: str) -> QtWidgets.QLabel:
-    t = QtWidgets.QLabel(text, parent)
-    t.setObjectName("sectionTitle")
-    return t
 
 
 class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
@@ -172,7 +166,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
     def _build_bias(self, inner: QtWidgets.QWidget) -> None:
         col = QtWidgets.QVBoxLayout()
         col.setSpacing(4)
-        col.addWidget(_title(inner, "Bias on a single supply"))
+        col.addWidget(section_title(inner, "Bias on a single supply"))
         row = QtWidgets.QHBoxLayout()
         row.setSpacing(10)
         self.reference_table = _table(inner, "boardReferenceTable", ["reference", "value"])
@@ -202,7 +196,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
     def _build_trim(self, inner: QtWidgets.QWidget) -> None:
         col = QtWidgets.QVBoxLayout()
         col.setSpacing(4)
-        col.addWidget(_title(inner, "Trim plan"))
+        col.addWidget(section_title(inner, "Trim plan"))
         self.trim_table = _table(
             inner, "boardTrim", ["figure", "part", "interaction", "fixed", "trimmer", "range", "resolution"],
             ["", "The resistor made adjustable", "Its largest effect on the other figures, relative to this one",

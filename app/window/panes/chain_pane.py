@@ -43,7 +43,7 @@ from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.chain_controller import ChainController
 from bandsmith.app.window.panes.chain_form import ChainForm
 from bandsmith.app.window.panes.chain_view import ChainView, first_clause, summary_html
-from bandsmith.app.window.theme import BAD, MUTED
+from bandsmith.app.window.theme import BAD, MUTED, section_title
 
 __all__ = ["EXTRAS_KEY", "ChainPane", "chain_conditions", "saved_chains", "install"]
 
@@ -114,8 +114,7 @@ class ChainPane(RecomputeWhenShown, QtWidgets.QWidget):
     # ------------------------------------------------------------------ building
     def _build_header(self) -> QtWidgets.QHBoxLayout:
         bar = QtWidgets.QHBoxLayout()
-        label = QtWidgets.QLabel("Chain", self)
-        label.setObjectName("sectionTitle")
+        label = section_title(self, "Chain")
         bar.addWidget(label)
         self.chain_combo = QtWidgets.QComboBox(self)
         self.chain_combo.setObjectName("chainChoice")

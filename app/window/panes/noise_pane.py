@@ -37,7 +37,7 @@ from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.panes.spread_pane import CandidatePicker, WindingLine, candidate_circuit, winding_text
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import INK, MUTED, error_label, headline, note_label
+from bandsmith.app.window.theme import INK, MUTED, error_label, headline, note_label, section_title
 from bandsmith.app.window.widgets.value_field import ValueField
 
 __all__ = ["NoisePane", "SOURCE_COLOURS", "install"]
@@ -291,8 +291,7 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
     def _build_source_table(self) -> None:
         """The table of sources, largest first, and the line naming the largest (beside the plot)."""
         tcol = QtWidgets.QVBoxLayout()
-        t = QtWidgets.QLabel("Sources, largest first", self)
-        t.setObjectName("sectionTitle")
+        t = section_title(self, "Sources, largest first")
         tcol.addWidget(t)
         self.table = QtWidgets.QTableWidget(0, 4, self)
         self.table.setObjectName("noiseSources")

@@ -62,7 +62,7 @@ from bandsmith.app.window.panes.spread_view import (
     table_item,
 )
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import MUTED, WARN, error_label, note_label
+from bandsmith.app.window.theme import MUTED, WARN, error_label, note_label, section_title
 from bandsmith.app.window.widgets.value_field import ValueField
 
 __all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "WindingLine", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
@@ -338,8 +338,7 @@ class SpreadPane(QtWidgets.QScrollArea):
 
     def _build_window_rows(self, box: QtWidgets.QGroupBox, grid: QtWidgets.QGridLayout) -> None:
         """The yield window: f0 and Q within ± a fraction, the centre gain within ± some dB."""
-        win = QtWidgets.QLabel("Yield window around nominal", box)
-        win.setObjectName("sectionTitle")
+        win = section_title(box, "Yield window around nominal")
         grid.addWidget(win, 4, 0, 1, 4)
         self.fields["window_f0"] = self._frac_field(box, "window_f0", "A trial passes when its f0 is within ± this of nominal: 5%, 0.05.", lambda v: replace(self.settings, window_f0=v))
         self.fields["window_q"] = self._frac_field(box, "window_q", "… its Q within ± this of nominal: 10%, 0.1.", lambda v: replace(self.settings, window_q=v))

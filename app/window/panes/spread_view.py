@@ -15,7 +15,7 @@ from bandsmith.spread.tolerance import Spread
 
 from bandsmith.app.plots.histogram import HISTOGRAM_FIGURES, FigureHistogram, window_of
 from bandsmith.app.plots.spread_text import count_text, figure_text
-from bandsmith.app.window.theme import BAD, MUTED, headline, note_label
+from bandsmith.app.window.theme import BAD, MUTED, headline, note_label, section_title
 
 __all__ = ["SpreadResults", "DIST_TEXT", "count_text", "percent_text", "table_item", "fit_height"]
 
@@ -109,8 +109,7 @@ class SpreadResults(QtWidgets.QWidget):
         self.tables_row.setSpacing(12)
         lay.addLayout(self.tables_row)
         scol = QtWidgets.QVBoxLayout()
-        t = QtWidgets.QLabel("Statistics of the trials", body)
-        t.setObjectName("sectionTitle")
+        t = section_title(body, "Statistics of the trials")
         scol.addWidget(t)
         self._stat_rows = ("nominal", "mean", "std", "min", "p5", "p50", "p95", "max", "worst low", "worst high")
         self.stats = _table(len(self._stat_rows), 3, body, "spreadStats")
@@ -121,9 +120,7 @@ class SpreadResults(QtWidgets.QWidget):
         scol.addStretch(1)
         self.tables_row.addLayout(scol, 1)
         wcol = QtWidgets.QVBoxLayout()
-        self.worst_title = QtWidgets.QLabel("Worst case: the corners of the tolerance box", body)
-        self.worst_title.setObjectName("sectionTitle")
-        self.worst_title.setWordWrap(True)
+        self.worst_title = section_title(body, "Worst case: the corners of the tolerance box", wrap=True)
         wcol.addWidget(self.worst_title)
         self.corners = _table(0, 6, body, "worstCorners")
         self.corners.setHorizontalHeaderLabels(["f0 low", "f0 high", "Q low", "Q high", "gain low", "gain high"])

@@ -23,7 +23,7 @@ from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE
 from bandsmith.app.document.comparison import CandidateJudgement, SessionComparison, comparison_of
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.plots.palette import VERDICT_MARKS
-from bandsmith.app.window.theme import BAD, GOOD, INK, MUTED, WARN
+from bandsmith.app.window.theme import BAD, GOOD, INK, MUTED, WARN, section_title
 
 __all__ = ["VERDICT_LOOK", "verdict_text", "ComparisonTable", "COLUMNS", "MAX_ROWS", "RECOMMENDED_MARK"]
 
@@ -114,8 +114,7 @@ class ComparisonTable(QtWidgets.QWidget):
         side = QtWidgets.QVBoxLayout()
         side.setSpacing(2)
         head = QtWidgets.QHBoxLayout()
-        self.title = QtWidgets.QLabel("Which to build", self)
-        self.title.setObjectName("sectionTitle")
+        self.title = section_title(self, "Which to build")
         self.limits_button = QtWidgets.QToolButton(self)
         self.limits_button.setObjectName("verdictLimits")
         self.limits_button.setText("Limits…")

@@ -22,7 +22,7 @@ from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL
 from bandsmith.common.values import format_value
 
 from bandsmith.app.plots.palette import FIT_MARKS
-from bandsmith.app.window.theme import BAD, GOOD, MUTED
+from bandsmith.app.window.theme import BAD, GOOD, MUTED, section_title
 from bandsmith.app.window.verdicts import VerdictBook, verdict_tooltip
 
 __all__ = ["VerdictStrip", "VerdictRow", "VERDICT_LOOK"]
@@ -123,8 +123,7 @@ class VerdictStrip(QtWidgets.QWidget):
         lay.setContentsMargins(0, 0, 0, 0)
         lay.setSpacing(1)
         head = QtWidgets.QHBoxLayout()
-        title = QtWidgets.QLabel("Op-amps on the shelf", self)
-        title.setObjectName("sectionTitle")
+        title = section_title(self, "Op-amps on the shelf")
         title.setToolTip("Each shelf model against this candidate at the session's input level and supply.\n"
                          "Click one to draw the candidate with it on the plots and see its headroom.")
         self.status = QtWidgets.QLabel(self)
