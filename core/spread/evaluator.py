@@ -25,7 +25,7 @@ from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.spread.spread_settings import CHUNK, KINDS, SpreadSettings
 from bandsmith.spread import trialfigures as tf
 
-__all__ = ["Evaluator", "PreparedSpread", "part_tolerances", "setup_spread", "prepare_spread", "nominal_figures", "draws", "evaluator_columns", "drawn_values"]
+__all__ = ["Evaluator", "PreparedSpread", "part_tolerances", "setup_spread", "prepare_spread", "nominal_figures", "draws", "evaluator_columns", "drawn_values", "solver_values"]
 
 
 _GRID_POINTS = 49  # points of the search grid each trial is measured on
@@ -75,15 +75,7 @@ class Evaluator:
         ratios = np.ascontiguousarray(ratios)  # row order for the products of small batches
         if self.expansion is not None:
             return self.expansion.rational(ratios)
-        overrides, gbw, a0 = {}, None, None
-        for j, v in enumerate(self.variables):
-            col = v.value * ratios[:, j]
-            if v.kind == "gbw":
-                gbw = col
-            elif v.kind == "a0":
-                a0 = col
-            else:
-                overrides[v.name] = col
+        overrides, gbw, a0 = solver_values(self.variables, ratios)
         h = transfer_function(self.netlist, self.opamp, overrides=overrides, gbw_hz=gbw, a0=a0, w_ref=self.w_ref)
         bad = ~np.all(np.isfinite(ratios) & (ratios > 0), axis=1)
         if bad.any():
@@ -196,6 +188,21 @@ class Evaluator:
             wide = _measure_wide(h.take(idx))
             fig = _put(fig, idx, wide)
         return fig
+
+
+def solver_values(variables, ratios: np.ndarray) -> tuple[dict[str, np.ndarray], np.ndarray | None, np.ndarray | None]:
+    """Ratios to nominal (one column per variable) → what the MNA solver takes: part values by
+    reference (SI units), the op-amp's GBW (Hz) and A0 (None where they are not variables)."""
+    overrides, gbw, a0 = {}, None, None
+    for j, v in enumerate(variables):
+        col = v.value * ratios[:, j]
+        if v.kind == "gbw":
+            gbw = col
+        elif v.kind == "a0":
+            a0 = col
+        else:
+            overrides[v.name] = col
+    return overrides, gbw, a0
 
 
 def _kind(v: Variable) -> str:
