@@ -37,7 +37,7 @@ from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.panes.spread_pane import CandidatePicker, WindingLine, candidate_circuit, winding_text
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import INK, MUTED, error_label, headline, note_label, section_title
+from bandsmith.app.window.theme import INK, MUTED, error_label, headline, note_label, section_title, settings_group
 from bandsmith.app.window.widgets.value_field import ValueField
 
 __all__ = ["NoisePane", "SOURCE_COLOURS", "install"]
@@ -192,11 +192,7 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
 
     def _build_settings(self, outer: QtWidgets.QVBoxLayout) -> None:
         """The group of noise settings: en, in, temperature and the integration band."""
-        box = QtWidgets.QGroupBox("Noise sources and band", self)
-        box.setObjectName("noiseSettings")
-        grid = QtWidgets.QGridLayout(box)
-        grid.setHorizontalSpacing(6)
-        grid.setVerticalSpacing(3)
+        box, grid = settings_group(self, "Noise sources and band", "noiseSettings")
         self.fields: dict[str, ValueField] = {}
         self.fields["en"] = ValueField(
             "en", "V/√Hz", parse=lambda t: self._checked(en_v_per_rthz=_parse_en(t)), fmt=lambda v: "" if v is None else _nv(v),

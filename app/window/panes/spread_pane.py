@@ -62,7 +62,7 @@ from bandsmith.app.window.panes.spread_view import (
     table_item,
 )
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import MUTED, WARN, error_label, note_label, section_title
+from bandsmith.app.window.theme import MUTED, WARN, error_label, note_label, section_title, settings_group
 from bandsmith.app.window.widgets.value_field import ValueField
 
 __all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "WindingLine", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
@@ -291,11 +291,7 @@ class SpreadPane(QtWidgets.QScrollArea):
 
     def _build_settings_box(self, body: QtWidgets.QWidget) -> QtWidgets.QGroupBox:
         """Tolerances per kind, the GBW spread, the distribution, trials, seed and the yield window."""
-        box = QtWidgets.QGroupBox("Tolerances and trials", body)
-        box.setObjectName("spreadSettings")
-        grid = QtWidgets.QGridLayout(box)
-        grid.setHorizontalSpacing(6)
-        grid.setVerticalSpacing(3)
+        box, grid = settings_group(body, "Tolerances and trials", "spreadSettings")
         self.fields: dict[str, ValueField] = {}
 
         specs = [
