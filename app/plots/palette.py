@@ -12,13 +12,10 @@ from dataclasses import dataclass
 
 from PySide6 import QtCore, QtGui
 
-from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL as FIT_MARGINAL
-from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE
+# The status colours' home is the Qt-free bandsmith.app.plots.status; re-exported here with the rest.
+from bandsmith.app.plots.status import BAD, GOOD, INK, MUTED, WARN
 
-__all__ = [
-    "CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "SYMBOLS", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED",
-    "VERDICT_MARKS", "FIT_MARKS",
-]
+__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "SYMBOLS", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED"]
 
 # Blue, amber, dark magenta, sky, vermilion-brown, bluish green, olive, slate: alternating dark and
 # light so that any two neighbours are told apart by lightness as well as by hue.
@@ -43,20 +40,6 @@ LINE_STYLES = (
 
 # Scatter symbols of the pole-zero view, one per candidate (poles; zeros are always "o").
 SYMBOLS = ("x", "t", "s", "d", "star", "+", "t1", "p")
-
-# Status colours of flags; each flag also carries a symbol so it does not rely on colour.
-# Text: body ink and the muted grey of captions and notes.
-INK = "#202124"
-MUTED = "#5f6368"
-GOOD = "#1d7a3a"
-WARN = "#a35f00"
-BAD = "#b0191e"
-
-#: The symbol and status colour of a candidate's verdict, on screen and in the report (the symbol
-#: carries it in greyscale print and without colour vision).
-VERDICT_MARKS = {BUILDABLE: ("●", GOOD), MARGINAL: ("◐", WARN), NOT_BUILDABLE: ("✕", BAD)}
-#: The same for an op-amp model's fit to a candidate.
-FIT_MARKS = {FITS: ("✓", GOOD), FIT_MARGINAL: ("◐", WARN), DOES_NOT_FIT: ("✗", BAD)}
 
 
 @dataclass(frozen=True, slots=True)

@@ -27,7 +27,7 @@ from bandsmith.common.values import format_value
 
 from bandsmith.app.report.context import ReportContext
 from bandsmith.app.report.sections import register_section
-from bandsmith.app.plots.palette import FIT_MARKS
+from bandsmith.app.plots.status import FIT_MARKS
 from bandsmith.app.document.extras_shelf import SESSION_KEY, session_amps, session_chosen, session_supply_v
 
 __all__ = ["section_shelf"]

@@ -19,7 +19,7 @@ from bandsmith.verdict import VerdictLimits
 from bandsmith.app.document.comparison import SessionComparison, judge_session
 from bandsmith.app.report.context import ReportContext
 from bandsmith.app.report.sections import register_section
-from bandsmith.app.plots.palette import VERDICT_MARKS
+from bandsmith.app.plots.status import VERDICT_MARKS
 
 __all__ = ["section_verdicts", "report_comparison", "VERDICT_MARKS"]
 

@@ -22,12 +22,12 @@ from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE
 
 from bandsmith.app.document.comparison import CandidateJudgement, SessionComparison, comparison_of
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.plots.palette import VERDICT_MARKS
+from bandsmith.app.plots.status import VERDICT_MARKS
 from bandsmith.app.window.theme import BAD, GOOD, INK, MUTED, WARN, section_title
 
 __all__ = ["VERDICT_LOOK", "verdict_text", "ComparisonTable", "COLUMNS", "MAX_ROWS", "RECOMMENDED_MARK"]
 
-#: Symbol, text colour (:data:`~bandsmith.app.plots.palette.VERDICT_MARKS`) and a light ground of each verdict.
+#: Symbol, text colour (:data:`~bandsmith.app.plots.status.VERDICT_MARKS`) and a light ground of each verdict.
 VERDICT_LOOK = {
     BUILDABLE: (*VERDICT_MARKS[BUILDABLE], "#e5f3e8"),
     MARGINAL: (*VERDICT_MARKS[MARGINAL], "#fbf0dc"),

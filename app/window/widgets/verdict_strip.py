@@ -21,13 +21,13 @@ from PySide6 import QtCore, QtGui, QtWidgets
 from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL
 from bandsmith.common.values import format_value
 
-from bandsmith.app.plots.palette import FIT_MARKS
+from bandsmith.app.plots.status import FIT_MARKS
 from bandsmith.app.window.theme import BAD, GOOD, MUTED, section_title
 from bandsmith.app.window.verdicts import VerdictBook, verdict_tooltip
 
 __all__ = ["VerdictStrip", "VerdictRow", "VERDICT_LOOK"]
 
-# Verdict → (symbol, text colour (:data:`~bandsmith.app.plots.palette.FIT_MARKS`), tint); the word is always shown beside the colour.
+# Verdict → (symbol, text colour (:data:`~bandsmith.app.plots.status.FIT_MARKS`), tint); the word is always shown beside the colour.
 VERDICT_LOOK = {
     FITS: (*FIT_MARKS[FITS], "#e3f2e7"),
     MARGINAL: (*FIT_MARKS[MARGINAL], "#fbefd9"),
