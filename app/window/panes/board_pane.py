@@ -28,7 +28,7 @@ from bandsmith.common.values import format_value, parse_positive
 from bandsmith.app.document.extras_board import BOARD_KEY, BoardSettings, board_of, ohm, part_value, stored_board
 from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
-from bandsmith.app.window.panes.spread_pane import CandidatePicker
+from bandsmith.app.window.panes.spread_pane import candidate_bar, follow_candidate
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import MUTED, error_label, fit_columns, note_label, section_title
 
@@ -122,16 +122,11 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         outer.addLayout(self.body)
         outer.addStretch(1)
 
-        state.session_changed.connect(self._on_session_changed)
-        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
-        self._on_session_changed(state.session)
+        follow_candidate(state, self._on_session_changed)
 
     # ------------------------------------------------------------------ building
     def _build_form(self, outer: QtWidgets.QVBoxLayout) -> None:
-        bar = QtWidgets.QHBoxLayout()
-        bar.addWidget(QtWidgets.QLabel("Candidate", self))
-        self.picker = CandidatePicker(self.state, self)
-        bar.addWidget(self.picker)
+        bar, self.picker = candidate_bar(self.state, self)
         bar.addSpacing(16)
         bar.addWidget(QtWidgets.QLabel("Supply", self))
         self.supply_edit = QtWidgets.QLineEdit(self)

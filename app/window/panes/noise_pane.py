@@ -35,7 +35,7 @@ from bandsmith.app.document.extras_settings import NOISE_KEY, stored_noise
 from bandsmith.app.document.extras_shelf import chosen_amp
 from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
-from bandsmith.app.window.panes.spread_pane import CandidatePicker, WindingLine, candidate_circuit, winding_text
+from bandsmith.app.window.panes.spread_pane import WindingLine, candidate_bar, candidate_circuit, follow_candidate, winding_text
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import INK, MUTED, error_label, headline, note_label, section_title, settings_group
 from bandsmith.app.window.widgets.value_field import ValueField
@@ -174,16 +174,11 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         self._build_plot(outer)
         self._build_source_table()
 
-        state.session_changed.connect(self._on_session_changed)
-        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
-        self._on_session_changed(state.session)
+        follow_candidate(state, self._on_session_changed)
 
     def _build_header(self, outer: QtWidgets.QVBoxLayout) -> None:
         """The candidate picker with its one-line description, and the inductor winding's line."""
-        bar = QtWidgets.QHBoxLayout()
-        bar.addWidget(QtWidgets.QLabel("Candidate", self))
-        self.picker = CandidatePicker(self.state, self)
-        bar.addWidget(self.picker)
+        bar, self.picker = candidate_bar(self.state, self)
         self.info = note_label(self, "noiseInfo")
         bar.addWidget(self.info, 1)
         outer.addLayout(bar)

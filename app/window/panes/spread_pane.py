@@ -65,7 +65,7 @@ from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import MUTED, WARN, error_label, note_label, section_title, settings_group
 from bandsmith.app.window.widgets.value_field import ValueField
 
-__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "WindingLine", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
+__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "WindingLine", "candidate_bar", "follow_candidate", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
 
 #: Name of the band the pane shades on the magnitude plot.
 ENVELOPE_KEY = "spread"
@@ -124,6 +124,22 @@ class CandidatePicker(QtWidgets.QComboBox):
 
     def _on_activated(self, index: int) -> None:
         self.state.set_current(self.itemText(index))
+
+
+def candidate_bar(state: WorkbenchState, parent: QtWidgets.QWidget) -> tuple[QtWidgets.QHBoxLayout, CandidatePicker]:
+    """The row a candidate pane starts with: "Candidate" and its :class:`CandidatePicker` (more may follow)."""
+    bar = QtWidgets.QHBoxLayout()
+    bar.addWidget(QtWidgets.QLabel("Candidate", parent))
+    picker = CandidatePicker(state, parent)
+    bar.addWidget(picker)
+    return bar, picker
+
+
+def follow_candidate(state: WorkbenchState, on_change: Callable) -> None:
+    """Call ``on_change(session)`` now and whenever the session or the board's current candidate changes."""
+    state.session_changed.connect(on_change)
+    state.current_changed.connect(lambda _c: on_change(state.session))
+    on_change(state.session)
 
 
 def candidate_circuit(state: WorkbenchState, cid: str | None) -> tuple[Netlist, OpAmpModel] | None:
@@ -258,17 +274,12 @@ class SpreadPane(QtWidgets.QScrollArea):
         self._build_yield(body, outer)
         outer.addStretch(1)
 
-        state.session_changed.connect(self._on_session_changed)
-        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
-        self._on_session_changed(state.session)
+        follow_candidate(state, self._on_session_changed)
 
     # ------------------------------------------------------------------ building
     def _build_run_bar(self, body: QtWidgets.QWidget, outer: QtWidgets.QVBoxLayout) -> None:
         """The candidate, Run and what the last run was; the inductor's winding line."""
-        bar = QtWidgets.QHBoxLayout()
-        bar.addWidget(QtWidgets.QLabel("Candidate", body))
-        self.picker = CandidatePicker(self.state, body)
-        bar.addWidget(self.picker)
+        bar, self.picker = candidate_bar(self.state, body)
         self.run_button = QtWidgets.QPushButton("Run", body)
         self.run_button.setObjectName("runSpread")
         self.run_button.setToolTip("Draw the trials and find the worst case (off the window's thread; Cancel in the status bar).")
