@@ -210,6 +210,12 @@ def _with_source(netlist: "Netlist", rsource_ohm: Value | None) -> "Netlist":
     return with_source(netlist, rs)
 
 
+def _driven_candidate(circuit: str, parts: "Mapping[str, Value] | Sequence[str]", rsource_ohm: Value | None) -> "tuple[Candidate, Netlist]":
+    """A candidate and its netlist driven through the source resistance ``rsource_ohm`` (ohm), if given."""
+    cand = candidate_of(circuit, parts)
+    return cand, _with_source(cand.netlist, rsource_ohm)
+
+
 def _opamp(gbw_hz: Value | None, a0: Value) -> "OpAmpModel":
     from bandsmith.solver.mna import IDEAL, OpAmpModel
 
@@ -245,6 +251,11 @@ def _spec(f0_hz: Value, q: Value | None, bw_hz: Value | None, gain: Value) -> "S
 
 def _values_json(candidate: "Candidate") -> dict[str, float]:
     return {k: float(v) for k, v in candidate.values.items()}
+
+
+def _candidate_json(candidate: "Candidate", rest: Mapping[str, Any]) -> dict:
+    """A result's JSON led by the candidate it is of: ``topology``, ``components``, then ``rest``."""
+    return {"topology": candidate.topology_id, "components": _values_json(candidate), **rest}
 
 
 # --------------------------------------------------------------------------------------------
@@ -814,7 +825,7 @@ class ToleranceReport:
 
     def to_json(self) -> dict:
         """The ``bandsmith tolerance --json`` object."""
-        return {"topology": self.candidate.topology_id, "components": _values_json(self.candidate), **self.spread.to_json()}
+        return _candidate_json(self.candidate, self.spread.to_json())
 
 
 def _whole(v: int | str, field: str, *, low: int) -> int:
@@ -913,8 +924,7 @@ def tolerance(
     opamp = _opamp(gbw_hz, a0)
     if settings.gbw_tol > 0 and opamp.ideal:
         raise InputError("gbw-tol", "needs --gbw: an ideal op-amp has no GBW to spread")
-    cand = candidate_of(circuit, parts)
-    net = _with_source(cand.netlist, rsource_ohm)
+    cand, net = _driven_candidate(circuit, parts, rsource_ohm)
     return ToleranceReport(cand, run_spread(net, settings, opamp=opamp))
 
 
@@ -935,7 +945,7 @@ class NoiseReport:
 
     def to_json(self) -> dict:
         """The ``bandsmith noise --json`` object."""
-        return {"topology": self.candidate.topology_id, "components": _values_json(self.candidate), **self.result.to_json()}
+        return _candidate_json(self.candidate, self.result.to_json())
 
 
 def noise(
@@ -996,8 +1006,7 @@ def noise(
     settings = NoiseSettings(**kw)
     opamp = _opamp(gbw_hz, a0)
     vin = _positive(vin_v, "vin")
-    cand = candidate_of(circuit, parts)
-    net = _with_source(cand.netlist, rsource_ohm)
+    cand, net = _driven_candidate(circuit, parts, rsource_ohm)
     return NoiseReport(cand, output_noise(net, settings, opamp=opamp, vin_v=vin))
 
 
@@ -1483,6 +1492,13 @@ class BankReport:
         return bank_parts_csv(self.result)
 
 
+def _need_band_ends(from_hz: Value | None, to_hz: Value | None) -> None:
+    """Bad input when the lowest or the highest centre frequency of a bank's rule is missing."""
+    for name, v in (("from", from_hz), ("to", to_hz)):
+        if v is None:
+            raise InputError(name, "missing; give the lowest and highest centre frequencies")
+
+
 def _centre_list(centres_hz) -> list[float]:
     if isinstance(centres_hz, str):
         items = [t for t in (x.strip() for x in centres_hz.split(",")) if t]
@@ -1555,9 +1571,7 @@ def filter_bank(
         raise InputError("count", "give --octave-fraction or --count, not both")
     labels = None
     if count is not None:
-        for name, v in (("from", from_hz), ("to", to_hz)):
-            if v is None:
-                raise InputError(name, "missing; give the lowest and highest centre frequencies")
+        _need_band_ends(from_hz, to_hz)
         n = _whole(count, "count", low=1)
         if n > 400:
             raise InputError("count", f"a bank has at most 400 channels, got {n}")
@@ -1571,9 +1585,7 @@ def filter_bank(
     elif rule_given:
         if octave_fraction is None:
             raise InputError("octave-fraction", "missing; give the b of 1/b-octave bands (1, 2, 3, 6, 12, 24 …)")
-        for name, v in (("from", from_hz), ("to", to_hz)):
-            if v is None:
-                raise InputError(name, "missing; give the lowest and highest centre frequencies")
+        _need_band_ends(from_hz, to_hz)
         b = _whole(octave_fraction, "octave-fraction", low=1)
         x, f, labels = C.fraction_centres(b, _positive(from_hz, "from"), _positive(to_hz, "to"))
         rule = {"kind": "fraction", "b": b, "standard": "IEC 61260-1:2014, base ten", "x": [int(v) for v in x]}
@@ -1670,9 +1682,9 @@ def bias(
 
     physics = board_physics(
         cand.netlist, node_dc_v=biased.node_dc_v, coupling=biased.coupling,
-        cp_f=_positive(cp_f, "cp") if cp_f is not None else None,
+        cp_f=_optional_positive(cp_f, "cp"),
         temp_range_c=_temp_range(temp_range_c),
-        tempco={str(k): parse_value(t, field=f"tc {k}") for k, t in (tempco or {}).items()},
+        tempco=_tempco(tempco),
         rated_v=_positive(rated_v, "rated"),
     )
     return replace(biased, physics=physics)
@@ -1732,17 +1744,24 @@ def trim(
     tol = {str(k): _positive_fraction(v, f"tol {k}") for k, v in (tolerances or {}).items()}
     plan = trim_plan(
         cand.netlist, tolerances=tol,
-        measured_f0_hz=_positive(measured_f0_hz, "measured-f0") if measured_f0_hz is not None else None,
-        target_f0_hz=_positive(target_f0_hz, "target-f0") if target_f0_hz is not None else None,
+        measured_f0_hz=_optional_positive(measured_f0_hz, "measured-f0"),
+        target_f0_hz=_optional_positive(target_f0_hz, "target-f0"),
         fitted=fitted,
     )
     if trials:
         return with_monte_carlo(
             cand.netlist, plan, trials=trials, window=_positive_fraction(window, "window"), seed=seed,
             t_range=_temp_range(temp_range_c),
-            tempco={str(k): parse_value(t, field=f"tc {k}") for k, t in (tempco or {}).items()},
+            tempco=_tempco(tempco),
         )
     return plan
+
+
+def _tempco(tempco: "Mapping[str, Value] | None") -> dict[str, float]:
+    """Temperature coefficients per K by kind or reference, read from numbers or text."""
+    from bandsmith.common.values import parse_value
+
+    return {str(k): parse_value(t, field=f"tc {k}") for k, t in (tempco or {}).items()}
 
 
 def _temp_range(t: "Sequence[Value] | None") -> "tuple[float, float] | None":
@@ -1788,12 +1807,14 @@ class BurstReport:
                 "with_opamp": self.with_opamp, **self.result.to_json()}
 
 
-def _burst_duration(freq_hz: float, cycles: Value | None, duration_s: Value | None) -> float:
+def _burst_timing(freq_hz: Value, cycles: Value | None, duration_s: Value | None) -> tuple[float, float]:
+    """The tone (Hz) and how long it is on (s), from ``cycles`` or ``duration_s`` (one of them)."""
+    f = _positive(freq_hz, "freq")
     if (cycles is None) == (duration_s is None):
         raise InputError("cycles", "give either the number of cycles or the duration of the burst")
     if cycles is not None:
-        return _positive(cycles, "cycles") / freq_hz
-    return _positive(duration_s, "duration")
+        return f, _positive(cycles, "cycles") / f
+    return f, _positive(duration_s, "duration")
 
 
 def _within(within: Value | None) -> float:
@@ -1849,8 +1870,7 @@ def burst(
     from bandsmith.analysis.analyzer import transfer_function
     from bandsmith.analysis.burst import burst_response, zpk_of
 
-    f = _positive(freq_hz, "freq")
-    duration = _burst_duration(f, cycles, duration_s)
+    f, duration = _burst_timing(freq_hz, cycles, duration_s)
     w = _within(within)
     conditions = conditions_of(gbw_hz, a0, rsource_ohm=rsource_ohm)
     cand = candidate_of(circuit, parts)
@@ -1895,8 +1915,7 @@ def burst_cascade(
     res = report.result
     if not res.feasible:
         raise InputError("chain", f"the chain cannot be built: {res.reason}")
-    f = _positive(freq_hz, "freq")
-    duration = _burst_duration(f, cycles, duration_s)
+    f, duration = _burst_timing(freq_hz, cycles, duration_s)
     use = with_opamp and res.conditions.opamp is not None
     hs = [st.h_actual if use and st.h_actual is not None else st.h_ideal for st in res.stages]
     return BurstReport("chain", None, burst_response(chain_zpk(hs), f, duration, within=_within(within)), use)

@@ -10,23 +10,17 @@ from numpy.testing import assert_allclose
 from bandsmith.chain.bandpass import band_from, geffe, plan_cascade
 from bandsmith.common.errors import InputError
 from bandsmith.chain.prototypes import RESPONSES, prototype
+import bandpass_reference
 
 
 def reference_zpk(response, n, band, ripple_db=None):
     """The whole band-pass from scipy.signal, the reference library (analog, rad/s)."""
-    wn = [2 * math.pi * band.f_low_hz, 2 * math.pi * band.f_high_hz]
-    if response == "bessel":
-        return scipy.signal.bessel(n, wn, btype="bandpass", analog=True, norm="mag", output="zpk")
-    ftype = {"butterworth": "butter", "chebyshev": "cheby1"}[response]
-    return scipy.signal.iirfilter(n, wn, rp=ripple_db, btype="bandpass", analog=True, ftype=ftype, output="zpk")
+    return bandpass_reference.reference_zpk(response, n, band.f_low_hz, band.f_high_hz, ripple_db)
 
 
 def reference_db(response, n, band, gain, f_hz, ripple_db=None):
     """Reference magnitude in dB, scaled to ``gain`` at the geometric centre."""
-    z, p, k = reference_zpk(response, n, band, ripple_db)
-    w = 2 * math.pi * np.concatenate([[band.f0_hz], np.asarray(f_hz)])
-    _, h = scipy.signal.freqs_zpk(z, p, k, worN=w)
-    return 20 * np.log10(np.abs(h[1:]) * gain / np.abs(h[0]))
+    return bandpass_reference.reference_db(response, n, band.f_low_hz, band.f_high_hz, f_hz, gain=gain, ripple_db=ripple_db, f0_hz=band.f0_hz)
 
 
 @pytest.mark.parametrize(

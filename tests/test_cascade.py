@@ -15,26 +15,16 @@ from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import in_series
 from bandsmith.chain.prototypes import RESPONSES
 from bandsmith.files.session import dumps_session, loads_session
+import bandpass_reference
 
 HALF_POWER_DB = 10 * math.log10(0.5)
 
 
 def reference_db(settings, f_hz):
-    """The whole band-pass from the reference library, in dB, scaled to the gain at the centre.
-
-    scipy.signal.iirfilter(N, [ω1, ω2], rp=R, btype='bandpass', analog=True, ftype='butter' or
-    'cheby1'); for Bessel scipy.signal.bessel(N, [ω1, ω2], btype='bandpass', analog=True,
-    norm='mag'). Built here independently of bandsmith.chain.cascade.reference_zpk.
-    """
-    wn = [2 * math.pi * settings.f_low_hz, 2 * math.pi * settings.f_high_hz]
-    if settings.response == "bessel":
-        z, p, k = scipy.signal.bessel(settings.order, wn, btype="bandpass", analog=True, norm="mag", output="zpk")
-    else:
-        ftype = {"butterworth": "butter", "chebyshev": "cheby1"}[settings.response]
-        z, p, k = scipy.signal.iirfilter(settings.order, wn, rp=settings.ripple_db, btype="bandpass", analog=True, ftype=ftype, output="zpk")
-    w = 2 * math.pi * np.concatenate([[math.sqrt(settings.f_low_hz * settings.f_high_hz)], f_hz])
-    _, h = scipy.signal.freqs_zpk(z, p, k, worN=w)
-    return 20 * np.log10(np.abs(h[1:]) * settings.gain / np.abs(h[0]))
+    """The whole band-pass from the reference library (``bandpass_reference``, scipy.signal), in dB,
+    scaled to the gain at the centre."""
+    return bandpass_reference.reference_db(settings.response, settings.order, settings.f_low_hz, settings.f_high_hz, f_hz,
+                                           gain=settings.gain, ripple_db=settings.ripple_db)
 
 
 def built_db(result, f_hz, *, actual=False):

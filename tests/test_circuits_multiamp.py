@@ -35,7 +35,7 @@ from bandsmith.files.exports import spice_netlist
 from bandsmith.solver.mna import OpAmpModel, build_system
 from bandsmith.solver.rational import rational_from_system
 from bandsmith.spread.tolerance import SpreadSettings, run_spread
-from test_exports import parse_spice, solve_spice
+from spice_helpers import parse_spice, solve_spice
 
 TOPOLOGIES = all_topologies()
 MULTI = ("dabp", "state-variable", "tow-thomas", "akerberg-mossberg")

@@ -21,7 +21,7 @@ from numpy.testing import assert_allclose
 
 from bandsmith.analysis.analyzer import transfer_function
 from bandsmith.circuits import get_topology
-from bandsmith.solver.mna import OpAmpModel, build_system
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 
 RTOL = 1e-9
 N_SAMPLES = 25  # random part sets per circuit and op-amp model
@@ -156,6 +156,14 @@ def _reference(topology_id, ideal, v, f, gbw=None, a0=None):
 CIRCUITS = ["rlc-tank", "mfb", "sallen-key"]
 
 
+def _assert_both_solvers(nl, opamp, f, want, what: str) -> None:
+    """The MNA solver's transfer and the rational transfer function both equal ``want`` at ``f``."""
+    got_rational = transfer_function(nl, opamp).at_f(f)[0]
+    got_mna = build_system(nl, opamp).transfer(2j * np.pi * f)[0]
+    assert_allclose(got_mna, want, rtol=RTOL, err_msg=f"MnaSystem.transfer, {what}")
+    assert_allclose(got_rational, want, rtol=RTOL, err_msg=f"Rational.at_f, {what}")
+
+
 @pytest.mark.parametrize("topology_id", CIRCUITS)
 def test_ideal_opamp_matches_sympy(topology_id):
     # sympy: nodal equations written above, solved symbolically; core must agree to 1e-9.
@@ -165,11 +173,7 @@ def test_ideal_opamp_matches_sympy(topology_id):
         v = random_parts(rng, topology_id)
         f = random_freqs(rng, natural_hz(topology_id, v))
         want = _reference(topology_id, True, v, f)
-        nl = topo.netlist(v)
-        got_rational = transfer_function(nl).at_f(f)[0]
-        got_mna = build_system(nl).transfer(2j * np.pi * f)[0]
-        assert_allclose(got_mna, want, rtol=RTOL, err_msg=f"MnaSystem.transfer, {v}")
-        assert_allclose(got_rational, want, rtol=RTOL, err_msg=f"Rational.at_f, {v}")
+        _assert_both_solvers(topo.netlist(v), IDEAL, f, want, f"{v}")
 
 
 @pytest.mark.parametrize("topology_id", CIRCUITS)
@@ -185,12 +189,7 @@ def test_single_pole_opamp_matches_sympy(topology_id):
         a0 = float(_log_uniform(rng, 1e3, 1e7))
         f = random_freqs(rng, f_ref)
         want = _reference(topology_id, False, v, f, gbw, a0)
-        nl = topo.netlist(v)
-        opamp = OpAmpModel(gbw, a0)
-        got_rational = transfer_function(nl, opamp).at_f(f)[0]
-        got_mna = build_system(nl, opamp).transfer(2j * np.pi * f)[0]
-        assert_allclose(got_mna, want, rtol=RTOL, err_msg=f"MnaSystem.transfer, {v}, gbw {gbw}, a0 {a0}")
-        assert_allclose(got_rational, want, rtol=RTOL, err_msg=f"Rational.at_f, {v}, gbw {gbw}, a0 {a0}")
+        _assert_both_solvers(topo.netlist(v), OpAmpModel(gbw, a0), f, want, f"{v}, gbw {gbw}, a0 {a0}")
 
 
 @pytest.mark.parametrize("topology_id", CIRCUITS)

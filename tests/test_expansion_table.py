@@ -112,27 +112,29 @@ def test_a_structure_not_in_the_table_is_fitted(no_fits, monkeypatch):
     assert calls == [1]
 
 
+def _table_is_ignored(monkeypatch, path, circuit=None) -> None:
+    """With the table read from ``path`` nothing is loaded, and ``circuit`` (if given) is fitted afresh, agreeing with the solver."""
+    monkeypatch.setattr(E, "table_path", lambda: path)
+    assert E._load_table() == {}
+    if circuit is not None:
+        topo = get_topology(circuit)
+        _agrees_with_solver(topo.build(topo.example), IDEAL)
+
+
 def test_a_stale_table_is_ignored(no_fits, monkeypatch, tmp_path):
     text = E.table_path().read_text(encoding="utf-8").replace(f'"format": {E.TABLE_FORMAT}', '"format": 0', 1)
     assert text != E.table_path().read_text(encoding="utf-8")
     (tmp_path / "expansions.json").write_text(text, encoding="utf-8")
-    monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
-    assert E._load_table() == {}
-    topo = get_topology("sallen-key")
-    _agrees_with_solver(topo.build(topo.example), IDEAL)
+    _table_is_ignored(monkeypatch, tmp_path / "expansions.json", "sallen-key")
 
 
 def test_a_missing_table_is_ignored(no_fits, monkeypatch, tmp_path):
-    monkeypatch.setattr(E, "table_path", lambda: tmp_path / "none.json")
-    assert E._load_table() == {}
-    topo = get_topology("mfb")
-    _agrees_with_solver(topo.build(topo.example), IDEAL)
+    _table_is_ignored(monkeypatch, tmp_path / "none.json", "mfb")
 
 
 def test_a_damaged_table_is_ignored(no_fits, monkeypatch, tmp_path):
     (tmp_path / "expansions.json").write_text("{\n", encoding="utf-8")
-    monkeypatch.setattr(E, "table_path", lambda: tmp_path / "expansions.json")
-    assert E._load_table() == {}
+    _table_is_ignored(monkeypatch, tmp_path / "expansions.json")
 
 
 def test_a_damaged_entry_is_fitted(no_fits, monkeypatch, tmp_path):

@@ -1,8 +1,8 @@
 """Exports of a candidate: SPICE netlist, parts list CSV, response CSV.
 
-The netlist is read back by a small SPICE parser written here (SPICE3 syntax: ``*`` comments, the
-first line a title, R/L/C/V/G/E/X elements, ``.subckt``/``.ends``, ``.ac``, ``.end``) and then
-solved by an independent nodal analysis, also written here, with the macro-model's own elements
+The netlist is read back by the small SPICE parser of ``spice_helpers.py`` (SPICE3 syntax: ``*``
+comments, the first line a title, R/L/C/V/G/E/X elements, ``.subckt``/``.ends``, ``.ac``, ``.end``)
+and then solved by its independent nodal analysis with the macro-model's own elements
 (a voltage-controlled current source, a resistor, a capacitor, a voltage-controlled voltage
 source). Its response must equal the core's analysis with the single-pole op-amp
 A(s) = A0/(1 + s·A0/(2π·GBW)) of the README's "Definitions" — which is checked against scipy.signal.freqs too.
@@ -27,98 +27,7 @@ from bandsmith.common.errors import InputError
 from bandsmith.files.exports import IDEAL_GAIN, OPAMP_SUBCKT, parts_csv, response_csv, spice_netlist, write_atomic
 from bandsmith.solver.mna import OpAmpModel
 from bandsmith.files.session import CandidateEntry
-
-
-# --------------------------------------------------------------------------- a small SPICE reader
-
-
-def parse_spice(text: str) -> dict:
-    lines = text.splitlines()
-    out = {"title": lines[0], "elements": {}, "subckts": {}, "ac": None, "ended": False}
-    current = out["elements"]
-    for raw in lines[1:]:
-        line = raw.strip()
-        if not line or line.startswith("*"):
-            continue
-        tok = line.split()
-        head = tok[0].lower()
-        if head == ".subckt":
-            current = {}
-            out["subckts"][tok[1]] = {"ports": tok[2:], "elements": current}
-        elif head == ".ends":
-            current = out["elements"]
-        elif head == ".ac":
-            out["ac"] = (tok[1], int(tok[2]), float(tok[3]), float(tok[4]))
-        elif head == ".end":
-            out["ended"] = True
-        elif head.startswith("."):
-            raise AssertionError(f"unexpected control line {line!r}")
-        else:
-            assert tok[0] not in current, f"{tok[0]} defined twice"
-            current[tok[0]] = tok[1:]
-    return out
-
-
-def solve_spice(parsed: dict, f_hz: np.ndarray) -> np.ndarray:
-    """V(out)/V(in) of a parsed netlist by dense nodal analysis, subcircuits flattened."""
-    elems = []
-    for name, rest in parsed["elements"].items():
-        if name[0].upper() == "X":
-            sub = parsed["subckts"][rest[-1]]
-            ports = dict(zip(sub["ports"], rest[:-1]))
-            for sname, srest in sub["elements"].items():
-                k = 2 if sname[0] in "RLC" else 4
-                elems.append((sname[0].upper(), [ports.get(n, n if n == "0" else f"{name}.{n}") for n in srest[:k]], srest[k:]))
-        else:
-            k = 2 if name[0].upper() in "RLCV" else 4
-            elems.append((name[0].upper(), rest[:k], rest[k:]))
-    nodes = sorted({n for _, ns, _ in elems for n in ns if n != "0"})
-    idx = {n: i for i, n in enumerate(nodes)}
-    extra = [e for e in elems if e[0] in "VEL"]
-    size = len(nodes) + len(extra)
-    out = []
-    for f in f_hz:
-        s = 2j * math.pi * f
-        a = np.zeros((size, size), complex)
-        b = np.zeros(size, complex)
-
-        def stamp(n1, n2, y):
-            for p, q, sign in ((n1, n1, 1), (n2, n2, 1), (n1, n2, -1), (n2, n1, -1)):
-                if p != "0" and q != "0":
-                    a[idx[p], idx[q]] += sign * y
-
-        row = len(nodes)
-        for kind, ns, vals in elems:
-            if kind == "R":
-                stamp(ns[0], ns[1], 1 / float(vals[0]))
-            elif kind == "C":
-                stamp(ns[0], ns[1], s * float(vals[0]))
-            elif kind == "G":  # current gm·V(nc+, nc−) from n+ through the source to n−
-                gm = float(vals[0])
-                for n, sign in ((ns[0], 1), (ns[1], -1)):
-                    if n == "0":
-                        continue
-                    for c, csign in ((ns[2], 1), (ns[3], -1)):
-                        if c != "0":
-                            a[idx[n], idx[c]] += sign * csign * gm
-            elif kind in "VEL":
-                for n, sign in ((ns[0], 1), (ns[1], -1)):
-                    if n != "0":
-                        a[idx[n], row] += sign
-                        a[row, idx[n]] += sign
-                if kind == "V":
-                    b[row] = 1.0  # AC 1
-                elif kind == "E":
-                    gain = float(vals[0])
-                    for c, csign in ((ns[2], 1), (ns[3], -1)):
-                        if c != "0":
-                            a[row, idx[c]] -= csign * gain
-                else:  # inductor branch: V(n1) − V(n2) − sL·I = 0
-                    a[row, row] -= s * float(vals[0])
-                row += 1
-        x = np.linalg.solve(a, b)
-        out.append(x[idx["out"]] / x[idx["in"]])
-    return np.array(out)
+from spice_helpers import parse_spice, solve_spice
 
 
 def values_with_winding():

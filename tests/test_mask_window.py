@@ -8,24 +8,16 @@ import scipy.signal
 from PySide6 import QtCore
 
 from bandsmith.app.window.demo import demo_session
-from bandsmith.app.window.panes.chain_pane import ChainPane
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import STYLE_SHEET
 from bandsmith.chain.cascade import chains_in
+from window_helpers import chain_pane
 
 WAIT_MS = 30_000
 
 
 @pytest.fixture
 def pane(qtbot):
-    p = ChainPane(WorkbenchState(demo_session()))
-    p.setStyleSheet(STYLE_SHEET)
-    qtbot.addWidget(p)
-    p.resize(1180, 760)
-    p.show()
-    qtbot.waitExposed(p)
-    qtbot.waitUntil(lambda: not p.busy, timeout=WAIT_MS)
-    return p
+    return chain_pane(qtbot, WorkbenchState(demo_session()), WAIT_MS)
 
 
 def _type(field, text):

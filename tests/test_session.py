@@ -56,6 +56,16 @@ def sample() -> Session:
     )
 
 
+def sample_json_with(path: tuple, value) -> dict:
+    """The sample session's JSON object with the entry at ``path`` (keys and indices) set to ``value``."""
+    obj = session_to_json(sample())
+    node = obj
+    for key in path[:-1]:
+        node = node[key]
+    node[path[-1]] = value
+    return obj
+
+
 def write(tmp_path: Path, text: str | bytes, name: str = "s.bandsmith.json") -> Path:
     p = tmp_path / name
     p.write_bytes(text.encode("utf-8") if isinstance(text, str) else text)
@@ -167,12 +177,7 @@ def test_not_a_session(tmp_path):
     ],
 )
 def test_wrong_types(tmp_path, path, value, where):
-    obj = session_to_json(sample())
-    node = obj
-    for key in path[:-1]:
-        node = node[key]
-    node[path[-1]] = value
-    expect(write(tmp_path, json.dumps(obj)), "wrong-type", "wrong type", where)
+    expect(write(tmp_path, json.dumps(sample_json_with(path, value))), "wrong-type", "wrong type", where)
 
 
 def test_missing_required_entry_is_a_wrong_type(tmp_path):
@@ -201,12 +206,7 @@ def test_missing_required_entry_is_a_wrong_type(tmp_path):
     ],
 )
 def test_impossible_values(tmp_path, path, value, words):
-    obj = session_to_json(sample())
-    node = obj
-    for key in path[:-1]:
-        node = node[key]
-    node[path[-1]] = value
-    expect(write(tmp_path, json.dumps(obj)), "impossible-value", "impossible value", *words)
+    expect(write(tmp_path, json.dumps(sample_json_with(path, value))), "impossible-value", "impossible value", *words)
 
 
 def test_missing_and_folder(tmp_path):

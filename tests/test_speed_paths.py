@@ -21,10 +21,8 @@ from bandsmith.analysis.figures import exact_in_closed_form
 from bandsmith.files.exports import write_csv
 from bandsmith.circuits import get_topology
 from bandsmith.solver.mna import IDEAL, OpAmpModel
-from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, setup_spread
+from bandsmith.spread.evaluator import draws, evaluator_columns, prepare_spread
 from bandsmith.spread.spread_settings import SpreadSettings
-from bandsmith.solver.mna import build_system
-from bandsmith.solver.rational import reference_w
 
 
 def test_csv_blocks_are_the_text_of_each_value_formatted():
@@ -50,10 +48,9 @@ def _netlist(circuit):
 def test_closed_form_trials_match_the_tracked_search(circuit, opamp):
     net = _netlist(circuit)
     settings = SpreadSettings(trials=5000, seed=11, gbw_tol=0.2 if not opamp.ideal else 0.0)
-    _, _, spread = setup_spread(net, settings, opamp)
-    w_ref = reference_w(build_system(net))
-    ev = Evaluator(net, opamp, w_ref, nominal_figures(net, opamp, w_ref))
-    (_, drawn), = list(draws(settings, spread, settings.trials))
+    prep = prepare_spread(net, settings, opamp)
+    ev = prep.evaluator
+    (_, drawn), = list(draws(settings, prep.spread, settings.trials))
     ratios = evaluator_columns(ev, drawn)
     h = ev.rational(ratios)
     assert exact_in_closed_form(h)

@@ -21,11 +21,10 @@ from numpy.testing import assert_allclose, assert_array_equal
 from bandsmith.analysis.analyzer import within_tolerances
 from bandsmith.analysis.figures import _by_roots, _slope_u, _sq_mag_u, measure
 from bandsmith.circuits import get_topology
-from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
-from bandsmith.solver.rational import reference_w
+from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.spread import trialfigures as tf
-from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, setup_spread
+from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, prepare_spread
 from bandsmith.spread.spread_settings import SpreadSettings
 
 FINITE = OpAmpModel(1e6, 1e5)
@@ -42,12 +41,10 @@ def _netlist(circuit):
 
 def _setup(circuit, opamp, settings):
     net = _netlist(circuit)
-    _, _, spread = setup_spread(net, settings, opamp)
-    w_ref = reference_w(build_system(net))
-    nominal = nominal_figures(net, opamp, w_ref)
-    ev = Evaluator(net, opamp, w_ref, nominal)
-    (_, drawn), = list(draws(settings, spread, settings.trials))
-    return net, ev, evaluator_columns(ev, drawn), nominal
+    prep = prepare_spread(net, settings, opamp)
+    ev = prep.evaluator
+    (_, drawn), = list(draws(settings, prep.spread, settings.trials))
+    return net, ev, evaluator_columns(ev, drawn), prep.nominal
 
 
 def _rows(a):

@@ -14,6 +14,7 @@ from bandsmith.solver.expansion import Expansion, circuit_variables
 from bandsmith.analysis.figures import measure
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.rational import reference_w
+from bandsmith.spread.evaluator import solver_values
 from bandsmith.spread.tolerance import (
     DEFAULT_TOLERANCES,
     STAT_KEYS,
@@ -288,15 +289,7 @@ def test_expansion_equals_solver_transfer_function(topology_id, gbw):
     variables = circuit_variables(nl, op)
     rng = np.random.default_rng(1)
     ratios = np.exp(rng.uniform(-0.3, 0.3, (64, len(variables))))
-    overrides, g, a0 = {}, None, None
-    for j, v in enumerate(variables):
-        col = v.value * ratios[:, j]
-        if v.kind == "gbw":
-            g = col
-        elif v.kind == "a0":
-            a0 = col
-        else:
-            overrides[v.name] = col
+    overrides, g, a0 = solver_values(variables, ratios)
     ref = transfer_function(nl, op, overrides=overrides, gbw_hz=g, a0=a0, w_ref=w)
     f = np.geomspace(w / 50, w * 50, 40) / (2 * math.pi)
     assert_allclose(exp.rational(ratios).at_f(f), ref.at_f(f), rtol=1e-10, atol=1e-12 * np.max(np.abs(ref.at_f(f))))

@@ -10,18 +10,14 @@ from bandsmith.app.window.demo import demo_session
 from bandsmith.app.window.panes.bank_pane import BankPane
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.bank.bank_session import EXTRAS_KEY
+from window_helpers import open_window, show_widget
 
 pytestmark = pytest.mark.gui
 WAIT_MS = 30_000
 
 
 def make_pane(qtbot, state):
-    p = BankPane(state)
-    qtbot.addWidget(p)
-    p.resize(1100, 700)
-    p.show()
-    qtbot.waitExposed(p)
-    return p
+    return show_widget(qtbot, BankPane(state), (1100, 700))
 
 
 def test_design_from_the_form_keeps_the_bank(qtbot):
@@ -62,11 +58,7 @@ def test_a_session_keeping_a_bank_shows_it(qtbot):
     assert pane.shown["distinct_values"] == report.to_json()["distinct_values"]
 
 
-def test_the_window_has_the_pane(qtbot, tmp_path):
-    from bandsmith.app.window.main_window import WorkbenchWindow
-    from window_helpers import ScriptedPrompter, temp_settings
-
-    win = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path), recovery=False)
-    qtbot.addWidget(win)
+def test_the_window_has_the_pane(qtbot, tmp_path, monkeypatch):
+    win = open_window(qtbot, tmp_path, monkeypatch, show=False, recovery=False)
     titles = [win.panes.tabText(i) for i in range(win.panes.count())]
     assert "Filter bank" in titles and win.bank_pane.shown is None

@@ -15,11 +15,10 @@ from PySide6 import QtWidgets
 import bandsmith
 from bandsmith.app.document.extras_board import BOARD_KEY
 from bandsmith.app.window.demo import demo_session
-from bandsmith.app.window.main_window import WorkbenchWindow
 from bandsmith.app.window.panes.board_pane import BoardPane
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.common.values import format_value
-from window_helpers import ScriptedPrompter, screenshot, scroll_to, temp_settings
+from window_helpers import open_window, screenshot, scroll_to, show_widget
 
 pytestmark = pytest.mark.gui
 ARTIFACTS = Path(__file__).parent / "_artifacts"
@@ -29,11 +28,7 @@ WAIT_MS = 20_000
 @pytest.fixture
 def pane(qtbot):
     state = WorkbenchState(demo_session())
-    p = BoardPane(state)
-    qtbot.addWidget(p)
-    p.resize(1100, 760)
-    p.show()
-    qtbot.waitExposed(p)
+    p = show_widget(qtbot, BoardPane(state), (1100, 760))
     qtbot.waitUntil(lambda: p.biased is not None, timeout=WAIT_MS)
     return p
 
@@ -106,12 +101,7 @@ def test_header_texts_fit(pane):
 @pytest.mark.parametrize("size", [(1366, 768), (1920, 1080)])
 def test_screenshots(qtbot, tmp_path, monkeypatch, size):
     ARTIFACTS.mkdir(exist_ok=True)
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
-    w.resize(*size)
-    w.show()
-    qtbot.waitExposed(w)
+    w = open_window(qtbot, tmp_path, monkeypatch, size=size)
     w.panes.setCurrentWidget(w.board_pane)
     p = w.board_pane
     p.measured_edit.setText("5.8k")

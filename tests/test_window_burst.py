@@ -8,10 +8,7 @@ import pytest
 from numpy.testing import assert_allclose
 
 from bandsmith import api
-from bandsmith.app.window.demo import demo_session
-from bandsmith.app.window.main_window import WorkbenchWindow
-from bandsmith.app.window.state import WorkbenchState
-from window_helpers import ScriptedPrompter, screenshot, temp_settings
+from window_helpers import open_window, screenshot
 
 pytestmark = pytest.mark.gui
 
@@ -20,12 +17,7 @@ ARTIFACTS = Path(__file__).parent / "_artifacts"
 
 @pytest.fixture
 def window(qtbot, tmp_path, monkeypatch):
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path), recovery=False)
-    qtbot.addWidget(w)
-    w.resize(1366, 768)
-    w.show()
-    qtbot.waitExposed(w)
+    w = open_window(qtbot, tmp_path, monkeypatch, size=(1366, 768), recovery=False)
     yield w
     w.state.mark_saved("")
 

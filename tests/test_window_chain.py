@@ -7,18 +7,17 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-import scipy.signal
 from numpy.testing import assert_allclose
 from PySide6 import QtCore
 
-from bandsmith.app.window.panes.chain_pane import EXTRAS_KEY, ChainPane
+from bandsmith.app.window.panes.chain_pane import EXTRAS_KEY
 from bandsmith.app.window.demo import demo_session
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import STYLE_SHEET
 from bandsmith.chain.cascade import chains_in
 from bandsmith.files.session import load_session, save_session
+from bandpass_reference import reference_db
 
-from window_helpers import ScriptedPrompter, screenshot, temp_settings
+from window_helpers import chain_pane, open_window, screenshot, ScriptedPrompter
 
 pytestmark = pytest.mark.gui
 
@@ -32,14 +31,7 @@ def state():
 
 
 def make_pane(qtbot, state, **kw):
-    p = ChainPane(state, **kw)
-    p.setStyleSheet(STYLE_SHEET)
-    qtbot.addWidget(p)
-    p.resize(1180, 760)
-    p.show()
-    qtbot.waitExposed(p)
-    qtbot.waitUntil(lambda: not p.busy, timeout=WAIT_MS)
-    return p
+    return chain_pane(qtbot, state, WAIT_MS, **kw)
 
 
 @pytest.fixture
@@ -108,10 +100,7 @@ def test_build_from_the_form_lists_the_stages_and_plots_them(qtbot, pane, state)
     # (iirfilter, analog=True, btype='bandpass'), scaled to the centre gain: exact parts.
     f, y = pane.plots.curve_data(pane.plots.built_curve)
     assert f.size > 500
-    z, p, k = scipy.signal.iirfilter(4, [2 * math.pi * lo, 2 * math.pi * hi], btype="bandpass", analog=True, ftype="butter", output="zpk")
-    _, hc = scipy.signal.freqs_zpk(z, p, k, worN=[2 * math.pi * math.sqrt(lo * hi)])
-    _, h = scipy.signal.freqs_zpk(z, p, k * 2.0 / abs(hc[0]), worN=2 * math.pi * f)
-    assert_allclose(y, 20 * np.log10(np.abs(h)), atol=0.01)
+    assert_allclose(y, reference_db("butterworth", 4, lo, hi, f, gain=2.0), atol=0.01)
     # Each stage is drawn beneath, and the stages multiply to the whole (dB add).
     assert len(pane.plots.stage_curves) == 4
     stage_db = np.array([pane.plots.curve_data(c)[1] for c in pane.plots.stage_curves])
@@ -237,15 +226,9 @@ def test_exports_of_the_shown_chain(qtbot, state, tmp_path):
     assert prompter.errors == []
 
 
-def test_the_window_has_the_pane_and_runs_its_jobs_in_the_status_bar(qtbot, tmp_path):
-    from bandsmith.app.window.main_window import WorkbenchWindow
-
-    state = WorkbenchState(demo_session())
-    win = WorkbenchWindow(state, prompter=ScriptedPrompter(), settings=temp_settings(tmp_path), recovery=False)
-    qtbot.addWidget(win)
-    win.resize(1280, 800)
-    win.show()
-    qtbot.waitExposed(win)
+def test_the_window_has_the_pane_and_runs_its_jobs_in_the_status_bar(qtbot, tmp_path, monkeypatch):
+    win = open_window(qtbot, tmp_path, monkeypatch, size=(1280, 800), recovery=False)
+    state = win.state
     pane = win.chain_pane
     titles = [win.panes.tabText(i) for i in range(win.panes.count())]
     assert "Stage chain" in titles

@@ -15,14 +15,13 @@ from PySide6 import QtCore, QtGui, QtWidgets
 
 from bandsmith.app.window.demo import demo_session
 from bandsmith.app.window.main_window import WorkbenchWindow
-from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.widgets.comparison_table import COLUMNS, RECOMMENDED_MARK, VERDICT_LOOK
 from bandsmith.app.window.widgets.verdict_limits_dialog import VerdictLimitsDialog
 from bandsmith.design.candidate import Candidate, Conditions
 from bandsmith.design.designer import Spec
 from bandsmith.files.session import CandidateEntry, Session, Target
 from bandsmith.verdict import compare_verdicts
-from window_helpers import ScriptedPrompter, temp_settings
+from window_helpers import open_window
 
 pytestmark = pytest.mark.gui
 
@@ -42,10 +41,7 @@ def _core_session(core) -> Session:
 
 
 def _window(qtbot, tmp_path, monkeypatch, session: Session) -> WorkbenchWindow:
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(session), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path), recovery=False)
-    qtbot.addWidget(w)
-    return w
+    return open_window(qtbot, tmp_path, monkeypatch, session, show=False, recovery=False)
 
 
 @pytest.fixture

@@ -128,17 +128,9 @@ def test_pdf_report_has_no_near_empty_page_but_the_last(qapp, tmp_path, which):
 
 @pytest.fixture
 def window(qtbot, tmp_path, monkeypatch):
-    from bandsmith.app.window.demo import demo_session
-    from bandsmith.app.window.main_window import WorkbenchWindow
-    from bandsmith.app.window.state import WorkbenchState
-    from window_helpers import ScriptedPrompter, temp_settings
+    from window_helpers import open_window
 
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
-    w.show()
-    qtbot.waitExposed(w)
-    return w
+    return open_window(qtbot, tmp_path, monkeypatch)
 
 
 @pytest.mark.parametrize(

@@ -5,23 +5,14 @@ import pytest
 from numpy.testing import assert_allclose
 from PySide6 import QtCore
 
-from bandsmith.app.window.demo import demo_session
-from bandsmith.app.window.main_window import WorkbenchWindow
-from bandsmith.app.window.state import WorkbenchState
-from window_helpers import ScriptedPrompter, drawn_fraction, screenshot, temp_settings
+from window_helpers import drawn_fraction, open_window, screenshot
 
 pytestmark = pytest.mark.gui
 
 
 @pytest.fixture
 def window(qtbot, tmp_path, monkeypatch):
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    state = WorkbenchState(demo_session())
-    w = WorkbenchWindow(state, prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
-    w.show()
-    qtbot.waitExposed(w)
-    return w
+    return open_window(qtbot, tmp_path, monkeypatch)
 
 
 def _column(window, index=0):

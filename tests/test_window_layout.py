@@ -25,10 +25,7 @@ from pathlib import Path
 import pytest
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from bandsmith.app.window.demo import demo_session
-from bandsmith.app.window.main_window import WorkbenchWindow
-from bandsmith.app.window.state import WorkbenchState
-from window_helpers import ScriptedPrompter, region_of, scroll_to, temp_settings
+from window_helpers import open_window, region_of, scroll_to
 
 pytestmark = pytest.mark.gui
 
@@ -91,9 +88,7 @@ def _ancestors(widget):
 
 @pytest.fixture
 def window(qtbot, tmp_path, monkeypatch):
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path), recovery=False)
-    qtbot.addWidget(w)
+    w = open_window(qtbot, tmp_path, monkeypatch, show=False, recovery=False)
     yield w
     w.state.mark_saved("")
 
@@ -148,10 +143,8 @@ def test_board_columns_and_add_button_with_many_candidates(window, qtbot):
 @pytest.mark.parametrize("area", [(0, 0, 1366, 728), (0, 30, 1920, 1050)], ids=["laptop", "desktop"])
 def test_window_opens_sized_to_the_available_area(qtbot, tmp_path, monkeypatch, area):
     """Not a fixed 1280×800: the screen's available area (without its panels), less a title bar."""
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
     monkeypatch.setattr(QtGui.QScreen, "availableGeometry", lambda self: QtCore.QRect(*area))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path), recovery=False)
-    qtbot.addWidget(w)
+    w = open_window(qtbot, tmp_path, monkeypatch, show=False, recovery=False)
     title = w.style().pixelMetric(QtWidgets.QStyle.PixelMetric.PM_TitleBarHeight)
     assert w.width() == area[2]
     assert w.height() == area[3] - title

@@ -13,13 +13,11 @@ import pytest
 from numpy.testing import assert_allclose
 from PySide6 import QtWidgets
 
-from bandsmith.app.window.main_window import WorkbenchWindow
 from bandsmith.app.window.panes.measurement_pane import ColumnMappingDialog
-from bandsmith.app.window.state import WorkbenchState
 from bandsmith.bench.measured import ColumnMapping, MappingNeeded, read_measurement, session_measurements
 from bandsmith.files.session import CandidateEntry, Session, Target, load_session
 from measured_helpers import MFB, sweep, write_layouts
-from window_helpers import ScriptedPrompter, screenshot, temp_settings
+from window_helpers import open_window, screenshot
 
 pytestmark = pytest.mark.gui
 
@@ -43,15 +41,8 @@ def files(tmp_path):
 
 @pytest.fixture
 def window(qtbot, tmp_path, monkeypatch):
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
     session = Session(target=Target(2000.0, 5.0, 4.0, series="exact"), candidates=(CandidateEntry("mfb", "mfb", MFB, snap=None),))
-    prompter = ScriptedPrompter()
-    w = WorkbenchWindow(WorkbenchState(session), prompter=prompter, settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
-    w.resize(1280, 800)
-    w.show()
-    qtbot.waitExposed(w)
-    return w
+    return open_window(qtbot, tmp_path, monkeypatch, session, size=(1280, 800))
 
 
 def _points(w, key):

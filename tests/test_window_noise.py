@@ -21,7 +21,6 @@ from numpy.testing import assert_allclose
 from PySide6 import QtCore, QtWidgets
 
 from bandsmith.app.window.demo import demo_session
-from bandsmith.app.window.main_window import WorkbenchWindow
 from bandsmith.app.window.panes.noise_pane import NoisePane
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.design.candidate import Candidate
@@ -29,7 +28,7 @@ from bandsmith.solver.mna import IDEAL
 from bandsmith.analysis.noise import NoiseSettings, output_noise
 from bandsmith.files.session import load_session
 from bandsmith.common.values import format_value
-from window_helpers import scroll_to, ScriptedPrompter, screenshot, temp_settings
+from window_helpers import open_window, screenshot, ScriptedPrompter, scroll_to, show_widget
 
 pytestmark = pytest.mark.gui
 
@@ -50,10 +49,7 @@ def tabs(qtbot, state):
     t.addTab(other, "other")
     t.addTab(pane, "Noise")
     t.setCurrentWidget(pane)
-    qtbot.addWidget(t)
-    t.resize(1100, 760)
-    t.show()
-    qtbot.waitExposed(t)
+    show_widget(qtbot, t, (1100, 760))
     return t, pane
 
 
@@ -164,10 +160,8 @@ def test_recomputes_live_but_only_while_visible(qtbot, tabs, state):
 
 
 def test_settings_survive_save_and_reopen(qtbot, tmp_path, monkeypatch):
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
     target = tmp_path / "n.bandsmith.json"
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(save_path=[str(target)]), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
+    w = open_window(qtbot, tmp_path, monkeypatch, prompter=ScriptedPrompter(save_path=[str(target)]), show=False)
     pane = w.noise_pane
     type_into(qtbot, pane.fields["en"], "3n")
     type_into(qtbot, pane.fields["f2"], "20k")
@@ -175,8 +169,7 @@ def test_settings_survive_save_and_reopen(qtbot, tmp_path, monkeypatch):
     saved = NoiseSettings.from_json(load_session(target).extras["noise"])
     assert_allclose(saved.en_v_per_rthz, 3e-9)
     assert_allclose(saved.band_hz[1], 20e3)
-    w2 = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w2)
+    w2 = open_window(qtbot, tmp_path, monkeypatch, show=False)
     assert w2.open_path(str(target))
     assert w2.noise_pane.settings == saved
     assert w2.noise_pane.fields["f2"].edit.text() == "20 kHz"
@@ -187,12 +180,7 @@ def test_screenshots(qtbot, tmp_path, monkeypatch, tabs):
     t, pane = tabs
     qtbot.wait(50)
     screenshot(pane, ARTIFACTS / "noise_pane.png", regions=(pane.canvas, pane.table), labels=(pane.integrated,))
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
-    w.resize(1280, 800)
-    w.show()
-    qtbot.waitExposed(w)
+    w = open_window(qtbot, tmp_path, monkeypatch, size=(1280, 800))
     w.state.set_current("rlc-tank")
     w.panes.setCurrentWidget(w.noise_pane)
     qtbot.waitUntil(lambda: w.noise_pane.result is not None and w.noise_pane.picker.candidate_id == "rlc-tank")

@@ -10,7 +10,7 @@ from bandsmith.app.window.panes.shelf_pane import SESSION_KEY, VERDICT_LOOK, She
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.bench.fitcheck import VERDICTS
 from bandsmith.bench.shelf import ARCHETYPES, OpAmp, ShelfState, load_shelf, open_shelf, save_shelf
-from window_helpers import screenshot
+from window_helpers import open_window, screenshot, show_widget
 
 pytestmark = pytest.mark.gui
 
@@ -34,12 +34,7 @@ def state():
 @pytest.fixture
 def pane(qtbot, state, tmp_path):
     shelf = ShelfState((bench(),) + ARCHETYPES[:2], tmp_path / "shelf.json", False, None)
-    p = ShelfPane(state, shelf)
-    qtbot.addWidget(p)
-    p.resize(1280, 760)
-    p.show()
-    qtbot.waitExposed(p)
-    return p
+    return show_widget(qtbot, ShelfPane(state, shelf), (1280, 760))
 
 
 def active(state):
@@ -192,15 +187,10 @@ def test_damaged_shelf_file_banner_archetypes_file_untouched(qtbot, state, tmp_p
 
 
 def test_main_window_has_the_pane(qtbot, tmp_path, monkeypatch):
-    from bandsmith.app.window.main_window import WorkbenchWindow
-    from window_helpers import ScriptedPrompter, temp_settings
-
     shelf = tmp_path / "cfg" / "shelf.json"
     save_shelf((bench(),), shelf)
     monkeypatch.setenv("BANDSMITH_SHELF", str(shelf))
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
+    w = open_window(qtbot, tmp_path, monkeypatch, show=False)
     titles = [w.panes.tabText(i) for i in range(w.panes.count())]
     assert "Op-amp shelf" in titles
     assert w.shelf_pane.shelf.amps == (bench(),)

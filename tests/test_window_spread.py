@@ -17,7 +17,6 @@ from numpy.testing import assert_allclose
 from PySide6 import QtCore
 
 from bandsmith.app.window.demo import demo_session
-from bandsmith.app.window.main_window import WorkbenchWindow
 from bandsmith.app.window.widgets.plots import MagnitudePlot
 from bandsmith.app.document.results import frequency_grid
 from bandsmith.app.window.panes.spread_pane import ENVELOPE_KEY, ENVELOPE_TRIALS, SpreadPane
@@ -27,7 +26,7 @@ from bandsmith.solver.mna import IDEAL
 from bandsmith.files.session import load_session
 from bandsmith.spread.tolerance import SpreadSettings, magnitude_envelope, run_spread
 from bandsmith.common.values import format_value
-from window_helpers import ScriptedPrompter, scroll_to, screenshot, temp_settings
+from window_helpers import open_window, screenshot, ScriptedPrompter, scroll_to, show_widget
 
 pytestmark = pytest.mark.gui
 
@@ -41,23 +40,12 @@ def state():
 
 @pytest.fixture
 def pane(qtbot, state):
-    p = SpreadPane(state, magnitude_plot=MagnitudePlot(state))
-    qtbot.addWidget(p)
-    p.resize(1100, 900)
-    p.show()
-    qtbot.waitExposed(p)
-    return p
+    return show_widget(qtbot, SpreadPane(state, magnitude_plot=MagnitudePlot(state)), (1100, 900))
 
 
 @pytest.fixture
 def window(qtbot, tmp_path, monkeypatch):
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(save_path=[str(tmp_path / "s.bandsmith.json")]), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
-    w.resize(1280, 800)
-    w.show()
-    qtbot.waitExposed(w)
-    return w
+    return open_window(qtbot, tmp_path, monkeypatch, prompter=ScriptedPrompter(save_path=[str(tmp_path / "s.bandsmith.json")]), size=(1280, 800))
 
 
 def circuit(state, cid):
@@ -212,7 +200,7 @@ def test_override_of_a_part_other_circuits_lack_is_left_out(qtbot, pane, state):
     assert_allclose(run.spread.tolerances["RB"], 0.001)
 
 
-def test_settings_survive_save_and_reopen(qtbot, window, tmp_path):
+def test_settings_survive_save_and_reopen(qtbot, window, tmp_path, monkeypatch):
     pane = window.spread_pane
     type_into(qtbot, pane.fields["L"], "2%")
     pane.set_part_tolerance("C", 0.01)
@@ -220,8 +208,7 @@ def test_settings_survive_save_and_reopen(qtbot, window, tmp_path):
     path = window.state.path
     saved = load_session(path).extras["spread"]
     assert SpreadSettings.from_json(saved) == SpreadSettings(tolerances={"L": 0.02, "C": 0.01})
-    w2 = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w2)
+    w2 = open_window(qtbot, tmp_path, monkeypatch, show=False)
     assert w2.open_path(path)
     p2 = w2.spread_pane
     w2.show()

@@ -16,9 +16,6 @@ from numpy.testing import assert_allclose
 from PySide6 import QtCore
 
 from bandsmith.app.window.widgets.amp_overlay import overlay_key
-from bandsmith.app.window.demo import demo_session
-from bandsmith.app.window.main_window import WorkbenchWindow
-from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.verdicts import VerdictBook
 from bandsmith.solver.ampmodel import amp_transfer_function
 from bandsmith.analysis.analyzer import sweep
@@ -27,7 +24,7 @@ from bandsmith.bench.fitcheck import VERDICTS, check_amp
 from bandsmith.bench.headroom import headroom
 from bandsmith.files.session import CandidateEntry, OpAmpSpec, Session, Target
 from bandsmith.bench.shelf import OpAmp, save_shelf
-from window_helpers import ScriptedPrompter, screenshot, temp_settings
+from window_helpers import open_window, screenshot
 
 pytestmark = pytest.mark.gui
 
@@ -67,12 +64,7 @@ def window(qtbot, tmp_path, monkeypatch, session):
     shelf = tmp_path / "cfg" / "shelf.json"
     save_shelf((bench("just below", need * 0.999), bench("just above", need * 1.001), bench("plenty", 100 * need)), shelf)
     monkeypatch.setenv("BANDSMITH_SHELF", str(shelf))
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(session), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
-    w.resize(1280, 860)
-    w.show()
-    qtbot.waitExposed(w)
+    w = open_window(qtbot, tmp_path, monkeypatch, session, size=(1280, 860))
     w.need = need
     return w
 
@@ -183,12 +175,7 @@ def test_switched_off_or_empty_shelf_hides_the_strip(window, qtbot):
 def test_screenshot_of_a_column_with_its_strip(qtbot, tmp_path, monkeypatch):
     """The demo session with the shipped generic models: a column, and the window, looked at."""
     monkeypatch.setenv("BANDSMITH_SHELF", str(tmp_path / "none" / "shelf.json"))  # no file: the archetypes
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
-    w.resize(1600, 1000)
-    w.show()
-    qtbot.waitExposed(w)
+    w = open_window(qtbot, tmp_path, monkeypatch, size=(1600, 1000))
     cid = next(iter(w.board.columns))
     wait_verdicts(qtbot, w, cid)
     s = strip(w, cid)

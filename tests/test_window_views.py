@@ -10,11 +10,8 @@ import pytest
 from PySide6 import QtCore
 
 from bandsmith.app.window.background import BackgroundJob
-from bandsmith.app.window.demo import demo_session
 from bandsmith.app.window.main import STARTUP_MARK
-from bandsmith.app.window.main_window import WorkbenchWindow
-from bandsmith.app.window.state import WorkbenchState
-from window_helpers import ScriptedPrompter, assert_text_shown, screenshot, temp_settings
+from window_helpers import assert_text_shown, open_window, screenshot
 
 pytestmark = pytest.mark.gui
 
@@ -23,10 +20,7 @@ ARTIFACTS = Path(__file__).parent / "_artifacts"
 
 @pytest.fixture
 def window(qtbot, tmp_path, monkeypatch):
-    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
-    w = WorkbenchWindow(WorkbenchState(demo_session()), prompter=ScriptedPrompter(), settings=temp_settings(tmp_path))
-    qtbot.addWidget(w)
-    return w
+    return open_window(qtbot, tmp_path, monkeypatch, show=False)
 
 
 @pytest.mark.parametrize("size", [(1280, 800), (1920, 1080)])

@@ -48,6 +48,48 @@ def temp_settings(tmp_path) -> QtCore.QSettings:
     return QtCore.QSettings(str(tmp_path / "settings.ini"), QtCore.QSettings.Format.IniFormat)
 
 
+def open_window(qtbot, tmp_path, monkeypatch, session=None, *, prompter=None, size=None, show=True, **kw):
+    """The main window on ``session`` (the demo session by default) as a test drives it: a scripted
+    prompter, settings and a recovery folder of the test's own (under ``tmp_path``); resized to
+    ``size`` if given, and shown and exposed unless ``show`` is False. ``kw`` goes to the window
+    (``recovery=False``, say)."""
+    from bandsmith.app.window.demo import demo_session
+    from bandsmith.app.window.main_window import WorkbenchWindow
+    from bandsmith.app.window.state import WorkbenchState
+
+    monkeypatch.setenv("BANDSMITH_RECOVERY_DIR", str(tmp_path / "recovery"))
+    state = WorkbenchState(session if session is not None else demo_session())
+    w = WorkbenchWindow(state, prompter=prompter if prompter is not None else ScriptedPrompter(), settings=temp_settings(tmp_path), **kw)
+    qtbot.addWidget(w)
+    if size is not None:
+        w.resize(*size)
+    if show:
+        w.show()
+        qtbot.waitExposed(w)
+    return w
+
+
+def show_widget(qtbot, widget, size):
+    """``widget`` (a pane on its own) at ``size``, shown and exposed; closed with the test."""
+    qtbot.addWidget(widget)
+    widget.resize(*size)
+    widget.show()
+    qtbot.waitExposed(widget)
+    return widget
+
+
+def chain_pane(qtbot, state, wait_ms: int = 30_000, **kw):
+    """The chain pane on ``state`` with the window's style sheet, shown, once its first chain is built."""
+    from bandsmith.app.window.panes.chain_pane import ChainPane
+    from bandsmith.app.window.theme import STYLE_SHEET
+
+    p = ChainPane(state, **kw)
+    p.setStyleSheet(STYLE_SHEET)
+    show_widget(qtbot, p, (1180, 760))
+    qtbot.waitUntil(lambda: not p.busy, timeout=wait_ms)
+    return p
+
+
 def _pixels(image) -> "np.ndarray":
     """The image's pixels as a (height, width) array of 32-bit ARGB values."""
     import numpy as np

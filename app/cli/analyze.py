@@ -8,13 +8,12 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_amp_options, amp_options, emit, print_json
+from bandsmith.app.cli.common import Command, add_amp_options, add_circuit_arguments, amp_options, emit, print_json, require_topology
 from bandsmith.app.cli.text import figures_rows, requirements_rows, sensitivity_table, table
 
 
 def configure(p):
-    p.add_argument("topology", nargs="?", help="circuit id (see `bandsmith topologies`)")
-    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
+    add_circuit_arguments(p, optional=True)
     p.add_argument("--session", metavar="FILE", help="analyse every candidate of a session file (its op-amp and drive unless given here)")
     add_amp_options(p)
     p.add_argument("--json", action="store_true", help="print one JSON object")
@@ -60,8 +59,7 @@ def run(args) -> int:
                 print_readable(r)
                 print()
         return 0
-    if not args.topology:
-        raise InputError("topology", "missing; give a circuit id (see `bandsmith topologies`) or --session FILE")
+    require_topology(args, " or --session FILE")
     result = api.analyze(args.topology, args.parts, **options).to_json()
     return emit(args, result, print_readable)
 

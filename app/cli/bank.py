@@ -7,7 +7,7 @@ from pathlib import Path
 from bandsmith import api
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, print_json
+from bandsmith.app.cli.common import Command, emit, save_report
 from bandsmith.app.cli.text import table
 
 
@@ -94,16 +94,8 @@ def run(args) -> int:
         _write(args.netlist, report.netlist(gbw_hz=args.gbw))
     if args.parts:
         _write(args.parts, report.parts_csv())
-    if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"
-        api.save_session(report.to_session(), args.save)
-    if args.json:
-        print_json(out)
-    else:
-        print_readable(out)
-        for p in (args.netlist, args.parts, args.save):
-            if p:
-                print(f"\nwrote {p}")
-    return 0
+    save_report(args, report)
+    return emit(args, out, print_readable, written=[f"wrote {p}" for p in (args.netlist, args.parts, args.save) if p])
 
 
 COMMAND = Command("bank", "design a filter bank: many band-pass channels on a rule or a list, designed together", configure, run, order=65)

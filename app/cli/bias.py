@@ -5,13 +5,12 @@ from __future__ import annotations
 from bandsmith import api
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, emit, tempcos_from
+from bandsmith.app.cli.common import Command, add_circuit_arguments, emit, tempcos_from
 from bandsmith.app.cli.text import table
 
 
 def configure(p):
-    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
-    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C1=10n")
+    add_circuit_arguments(p, parts_help="part values, e.g. R1=4k7 C1=10n")
     p.add_argument("--supply", metavar="V", required=True, help="the single supply in volts (the other rail is ground)")
     p.add_argument("--reference", choices=("divider", "buffered"), default="divider",
                    help="mid-supply reference: a divider with a bypass capacitor (default) or a buffered one")

@@ -3,23 +3,20 @@
 from __future__ import annotations
 
 from bandsmith import api
-from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_source_option, emit, print_json
+from bandsmith.app.cli.common import Command, add_circuit_arguments, add_opamp_options, add_source_option, emit, opamp_options, require_topology
 
 
 def configure(p):
-    p.add_argument("topology", nargs="?", help="circuit id (see `bandsmith topologies`); leave out with --session/--chain")
-    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
+    add_circuit_arguments(p, optional=True, topology_help="circuit id (see `bandsmith topologies`); leave out with --session/--chain")
     p.add_argument("--freq", metavar="F", help="the tone (Hz)")
     g = p.add_mutually_exclusive_group()
     g.add_argument("--cycles", metavar="N", help="how many cycles the tone is on")
     g.add_argument("--duration", metavar="T", help="how long the tone is on (s, e.g. 20m)")
     p.add_argument("--within", metavar="P", help="settling band around the steady amplitude (default 1%%)")
-    p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); without it the op-amp is ideal")
-    p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
+    add_opamp_options(p)
     add_source_option(p)
     p.add_argument("--session", metavar="FILE", help="with --chain: the burst through a chain the session keeps (its parts, the session's op-amp or --gbw)")
     p.add_argument("--chain", metavar="ID", help="the chain's id (e.g. chain-1)")
@@ -76,11 +73,8 @@ def run(args) -> int:
             raise InputError("session", "--chain needs --session FILE")
         report = api.burst_cascade(_chain_report(args), freq_hz=args.freq, cycles=args.cycles, duration_s=args.duration,
                                    within=args.within, with_opamp=True)  # the session's op-amp (or --gbw), if any
-        out = report.to_json()
-        print_json(out) if args.json else print_readable(out)
-        return 0
-    if not args.topology:
-        raise InputError("topology", "missing; give a circuit id (see `bandsmith topologies`)")
+        return emit(args, report.to_json(), print_readable)
+    require_topology(args)
     if args.freq is None:
         raise InputError("freq", "missing; give the tone's frequency, e.g. --freq 1k")
     report = api.burst(
@@ -90,8 +84,7 @@ def run(args) -> int:
         cycles=args.cycles,
         duration_s=args.duration,
         within=args.within,
-        gbw_hz=args.gbw,
-        a0=args.a0 if args.a0 is not None else DEFAULT_A0,
+        **opamp_options(args),
         rsource_ohm=args.rsource,
     )
     out = report.to_json()

@@ -9,7 +9,7 @@ from bandsmith.circuits import get_topology
 from bandsmith.chain.prototypes import RESPONSES
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_amp_options, amp_options, print_json
+from bandsmith.app.cli.common import Command, add_amp_options, amp_options, emit, save_report
 from bandsmith.app.cli.text import table
 
 
@@ -155,15 +155,8 @@ def run(args) -> int:
         joint=not args.parts_alone,
     )
     out = report.to_json()
-    if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"
-        api.save_session(report.to_session(), args.save)
-    if args.json:
-        print_json(out)
-    else:
-        print_readable(out)
-        if args.save:
-            print(f"\nsaved {args.save}")
-    return 0
+    save_report(args, report)
+    return emit(args, out, print_readable, written=[f"saved {args.save}"] if args.save else [])
 
 
 COMMAND = Command("cascade", "design a higher-order band-pass as a chain of second-order stages", configure, run, order=60)

@@ -11,21 +11,18 @@ from bandsmith.bench.headroom import DEFAULT_SUPPLY_V
 from bandsmith.common.values import format_value, parse_positive
 
 from bandsmith.app.cli.amps import user_shelf
-from bandsmith.app.cli.common import Command, emit
+from bandsmith.app.cli.common import Command, add_circuit_arguments, add_gbw_tolerance_options, emit
 from bandsmith.app.cli.text import table
 
 
 def configure(p):
-    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
-    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
+    add_circuit_arguments(p)
     p.add_argument("--amp", metavar="NAME", action="append", default=[],
                    help="a shelf op-amp to check (repeatable; default every one on the shelf)")
     p.add_argument("--vin", metavar="V", help="input peak amplitude in volts (default 1)")
     p.add_argument("--supply", metavar="V", help=f"symmetric supply ±V in volts (default {DEFAULT_SUPPLY_V:g})")
     p.add_argument("--rload", metavar="R", help="load resistance from the output to ground (ohm)")
-    p.add_argument("--tol-f0", metavar="P", help="f0 tolerance for the required GBW (default 1%%)")
-    p.add_argument("--tol-q", metavar="P", help="Q tolerance for the required GBW (default 5%%)")
-    p.add_argument("--tol-gain-db", metavar="D", help="centre-gain tolerance in dB (default 0.5)")
+    add_gbw_tolerance_options(p)
     p.add_argument("--json", action="store_true", help="print one JSON object")
 
 

@@ -7,7 +7,7 @@ import json
 import sys
 import warnings
 from dataclasses import dataclass
-from typing import Callable
+from typing import Callable, Sequence
 
 from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.jsonutil import finite_or_none
@@ -18,9 +18,16 @@ __all__ = [
     "Command",
     "CliParser",
     "run_guarded",
+    "add_circuit_arguments",
+    "require_topology",
     "add_amp_options",
+    "add_opamp_options",
+    "add_gbw_tolerance_options",
     "amp_options",
+    "opamp_options",
     "add_source_option",
+    "save_report",
+    "emit",
     "print_json",
     "EXIT_OK",
     "EXIT_INTERNAL",
@@ -70,18 +77,45 @@ def run_guarded(run: Callable[[argparse.Namespace], int], args: argparse.Namespa
         return EXIT_INTERNAL
 
 
-def add_amp_options(p: argparse.ArgumentParser, *, tolerances: bool = True) -> None:
-    """The op-amp and drive options shared by the analysing commands."""
+TOPOLOGY_HELP = "circuit id (see `bandsmith topologies`)"
+PARTS_HELP = "part values, e.g. R1=4k7 C=10n"
+
+
+def add_circuit_arguments(p: argparse.ArgumentParser, *, optional: bool = False, topology_help: str = TOPOLOGY_HELP, parts_help: str = PARTS_HELP) -> None:
+    """The positional circuit id and ``REF=VALUE`` part values of the commands about one candidate
+    (the id may be left out where ``optional``: a command that also reads a session)."""
+    p.add_argument("topology", **({"nargs": "?"} if optional else {}), help=topology_help)
+    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help=parts_help)
+
+
+def require_topology(args: argparse.Namespace, alternative: str = "") -> None:
+    """Bad input when the circuit id is missing (``alternative``: what may stand instead, e.g. " or --session FILE")."""
+    if not args.topology:
+        raise InputError("topology", f"missing; give a circuit id (see `bandsmith topologies`){alternative}")
+
+
+def add_opamp_options(p: argparse.ArgumentParser) -> None:
+    """``--gbw F`` and ``--a0 A``: the op-amp model (ideal without ``--gbw``)."""
     p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); without it the op-amp is ideal")
     p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
+
+
+def add_gbw_tolerance_options(p: argparse.ArgumentParser) -> None:
+    """``--tol-f0``, ``--tol-q``, ``--tol-gain-db``: how far the figures may stray for the required GBW."""
+    p.add_argument("--tol-f0", metavar="P", help="f0 tolerance for the required GBW (default 1%%)")
+    p.add_argument("--tol-q", metavar="P", help="Q tolerance for the required GBW (default 5%%)")
+    p.add_argument("--tol-gain-db", metavar="D", help="centre-gain tolerance in dB (default 0.5)")
+
+
+def add_amp_options(p: argparse.ArgumentParser, *, tolerances: bool = True) -> None:
+    """The op-amp and drive options shared by the analysing commands."""
+    add_opamp_options(p)
     p.add_argument("--vin", metavar="V", help="input peak amplitude in volts (default 1)")
     p.add_argument("--rload", metavar="R", help="load resistance from the output to ground (ohm)")
     if tolerances:  # the analysing commands (not sweep) also take a source resistance and a load capacitance
         add_source_option(p)
         p.add_argument("--cload", metavar="C", help="load capacitance from the output to ground (F), beside --rload: counted in the output current")
-        p.add_argument("--tol-f0", metavar="P", help="f0 tolerance for the required GBW (default 1%%)")
-        p.add_argument("--tol-q", metavar="P", help="Q tolerance for the required GBW (default 5%%)")
-        p.add_argument("--tol-gain-db", metavar="D", help="centre-gain tolerance in dB (default 0.5)")
+        add_gbw_tolerance_options(p)
 
 
 def add_source_option(p: argparse.ArgumentParser) -> None:
@@ -89,11 +123,16 @@ def add_source_option(p: argparse.ArgumentParser) -> None:
     p.add_argument("--rsource", metavar="R", help="source resistance in series with the input (ohm), seen by every analysis")
 
 
+def opamp_options(args: argparse.Namespace) -> dict:
+    """``--gbw`` and ``--a0`` as typed, keyed as the API takes them (A0 at its default when absent)."""
+    a0 = getattr(args, "a0", None)
+    return {"gbw_hz": getattr(args, "gbw", None), "a0": a0 if a0 is not None else DEFAULT_A0}
+
+
 def amp_options(args: argparse.Namespace) -> dict:
     """The op-amp and drive options as typed, keyed as the API takes them (absent ones at their defaults)."""
     out = {
-        "gbw_hz": getattr(args, "gbw", None),
-        "a0": getattr(args, "a0", None) if getattr(args, "a0", None) is not None else DEFAULT_A0,
+        **opamp_options(args),
         "vin_v": getattr(args, "vin", None) if getattr(args, "vin", None) is not None else 1.0,
         "rload_ohm": getattr(args, "rload", None),
     }
@@ -135,10 +174,21 @@ def tempcos_from(items, example: str = "R=50, C=30, L=200, R2=25") -> dict[str, 
     return {k: api.parse_value(v, field=f"tc {k}") * 1e-6 for k, v in given.items()}
 
 
-def emit(args, out: dict, readable: Callable[[dict], None]) -> int:
-    """Print a command's result: its JSON object with ``--json``, else ``readable(out)``; exit 0."""
+def save_report(args: argparse.Namespace, report) -> None:
+    """``--save FILE``: write the report's session (an empty name is refused by save_session, not read as "save nothing")."""
+    if args.save is not None:
+        from bandsmith import api
+
+        api.save_session(report.to_session(), args.save)
+
+
+def emit(args, out: dict, readable: Callable[[dict], None], *, written: Sequence[str] = ()) -> int:
+    """Print a command's result: its JSON object with ``--json``, else ``readable(out)`` and then each
+    line of ``written`` (what the command wrote to files) after a blank line; exit 0."""
     if args.json:
         print_json(out)
     else:
         readable(out)
+        for line in written:
+            print(f"\n{line}")
     return 0

@@ -11,7 +11,7 @@ from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value, parse_fraction, parse_positive
 from bandsmith.verdict import VerdictLimits
 
-from bandsmith.app.cli.common import Command, amp_options, print_json
+from bandsmith.app.cli.common import Command, amp_options, emit, save_report
 from bandsmith.app.cli.design import add_target_options, target_options
 from bandsmith.app.cli.text import signed_error, table
 
@@ -164,17 +164,8 @@ def _print_verdicts(out: dict) -> None:
 
 def run(args) -> int:
     report = api.compare(**target_options(args), **amp_options(args), limits=limits_from(args))
-    if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"
-        api.save_session(report.to_session(), args.save)
-    out = report.to_json()
-    if args.json:
-        print_json(out)
-    else:
-        print_compare(out)
-        if args.save:
-            print()
-            print(f"session written to {args.save}")
-    return 0
+    save_report(args, report)
+    return emit(args, report.to_json(), print_compare, written=[f"session written to {args.save}"] if args.save else [])
 
 
 COMMAND = Command("compare", "design every circuit for one target, judge each (buildable, marginal, not buildable) and rank them", configure, run, order=45)

@@ -11,7 +11,7 @@ from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_amp_options, amp_options, print_json
+from bandsmith.app.cli.common import Command, add_amp_options, amp_options, emit, save_report
 from bandsmith.app.cli.text import figures_rows, requirements_rows, sensitivity_table, signed_error, table
 
 SERIES_HELP = "standard series for the parts: " + ", ".join(SERIES_NAMES) + " or exact (default E24)"
@@ -105,16 +105,8 @@ def print_design(report: api.DesignReport) -> None:
 
 def run(args) -> int:
     report = api.design_circuit(args.topology, **target_options(args), fix=args.fix, **amp_options(args))
-    if args.save is not None:  # an empty name is refused by save_session, not read as "save nothing"
-        api.save_session(report.to_session(), args.save)
-    if args.json:
-        print_json(report.to_json())
-    else:
-        print_design(report)
-        if args.save:
-            print()
-            print(f"session written to {args.save}")
-    return 0
+    save_report(args, report)
+    return emit(args, report.to_json(), lambda _out: print_design(report), written=[f"session written to {args.save}"] if args.save else [])
 
 
 COMMAND = Command("design", "part values of one circuit for a target f0, Q (or bandwidth) and gain", configure, run, order=40)

@@ -28,6 +28,16 @@ def configure(p):
     p.add_argument("--points", metavar="N", help="response points (default 1000) or netlist points per decade (default 100)")
 
 
+def _write_out(out: str, text: str, what: str) -> int:
+    """Write ``text`` to the file ``out`` (atomically, saying so) or, for ``-``, to stdout; exit 0."""
+    if out == "-":
+        sys.stdout.write(text)
+    else:
+        write_atomic(out, text)
+        print(f"wrote {out} ({what})")
+    return 0
+
+
 def _points(text: str | None, default: int) -> int:
     if text is None:
         return default
@@ -62,12 +72,7 @@ def _run_chain(args, session) -> int:
         out, text = args.netlist, chain_spice_netlist(chain, gbw_hz=o.gbw_hz, a0=o.a0, f_start_hz=f_from, f_stop_hz=f_to, points_per_decade=ppd)
     else:
         out, text = args.parts, chain_parts_csv(chain, gbw_hz=o.gbw_hz)
-    if out == "-":
-        sys.stdout.write(text)
-    else:
-        write_atomic(out, text)
-        print(f"wrote {out} (chain {chain.id})")
-    return 0
+    return _write_out(out, text, f"chain {chain.id}")
 
 
 def run(args) -> int:
@@ -101,12 +106,7 @@ def run(args) -> int:
         if f[-1] <= f[0]:
             raise InputError("to", "must be above --from")
         out, text = args.response, response_csv(entry, gbw_hz=gbw, a0=a0, f_hz=f)
-    if out == "-":
-        sys.stdout.write(text)
-    else:
-        write_atomic(out, text)
-        print(f"wrote {out} (candidate {entry.id})")
-    return 0
+    return _write_out(out, text, f"candidate {entry.id}")
 
 
 COMMAND = Command("export", "write a SPICE netlist, parts list or response table of a session candidate", configure, run, order=60)

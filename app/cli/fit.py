@@ -9,15 +9,14 @@ from bandsmith.common.errors import InputError
 from bandsmith.bench.measured import FREQ_UNITS, ColumnMapping, MappingNeeded, guess_mapping, read_measurement, scan_table
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, emit
+from bandsmith.app.cli.common import Command, add_circuit_arguments, emit
 from bandsmith.app.cli.text import table
 
 _MAPPING_HINT = "give --columns F,M[,P] (column numbers from 1) and the units with --freq-unit, --mag-unit, --phase-unit"
 
 
 def configure(p):
-    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
-    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="the design's part values, e.g. R1=4k7 C=10n")
+    add_circuit_arguments(p, parts_help="the design's part values, e.g. R1=4k7 C=10n")
     p.add_argument("--measured", metavar="FILE", required=True, help="measured response (CSV or whitespace-separated text)")
     p.add_argument("--parts", dest="fit_parts", metavar="REF,REF,…", help="parts to fit (default: every part above zero)")
     p.add_argument("--range", metavar="P", help="allowed change of every fitted part, e.g. 20%% (default: 3× its tolerance)")

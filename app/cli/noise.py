@@ -3,22 +3,18 @@
 from __future__ import annotations
 
 from bandsmith import api
-from bandsmith.common.limits import DEFAULT_A0
-from bandsmith.common.errors import InputError
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_source_option, emit
+from bandsmith.app.cli.common import Command, add_circuit_arguments, add_opamp_options, add_source_option, emit, opamp_options, require_topology
 from bandsmith.app.cli.text import table
 
 
 def configure(p):
-    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
-    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
+    add_circuit_arguments(p)
     p.add_argument("--en", metavar="V_PER_RTHZ", help="op-amp voltage noise density, V/√Hz (default 10n)")
     p.add_argument("--in", dest="in_", metavar="A_PER_RTHZ", help="op-amp current noise density at each input, A/√Hz (default 1p)")
     p.add_argument("--temp", metavar="K", help="temperature in kelvin (default 300)")
-    p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); without it the op-amp is ideal")
-    p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
+    add_opamp_options(p)
     p.add_argument("--band", nargs=2, metavar=("F1", "F2"), help="integration band in Hz (default f0/10 to 10·f0)")
     p.add_argument("--vin", metavar="V", help="input sine peak amplitude for the SNR (default 1)")
     add_source_option(p)
@@ -46,8 +42,7 @@ def print_readable(r: dict) -> None:
 
 
 def run(args) -> int:
-    if not args.topology:
-        raise InputError("topology", "missing; give a circuit id (see `bandsmith topologies`)")
+    require_topology(args)
     report = api.noise(
         args.topology,
         args.parts,
@@ -55,8 +50,7 @@ def run(args) -> int:
         in_a_per_rthz=args.in_,
         temperature_k=args.temp,
         band_hz=args.band,
-        gbw_hz=args.gbw,
-        a0=args.a0 if args.a0 is not None else DEFAULT_A0,
+        **opamp_options(args),
         vin_v=args.vin if args.vin is not None else 1.0,
         rsource_ohm=args.rsource,
     )

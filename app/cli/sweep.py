@@ -6,14 +6,13 @@ import sys
 
 from bandsmith import api
 
-from bandsmith.app.cli.common import Command, add_amp_options, amp_options
+from bandsmith.app.cli.common import Command, add_amp_options, add_circuit_arguments, amp_options
 from bandsmith.app.cli.text import table
 from bandsmith.files.exports import write_csv
 
 HEADER = list(api.SweepReport.COLUMNS)
 def configure(p):
-    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
-    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
+    add_circuit_arguments(p)
     add_amp_options(p, tolerances=False)
     p.add_argument("--from", dest="f_from", metavar="F", help="first frequency (default 10 Hz)")
     p.add_argument("--to", dest="f_to", metavar="F", help="last frequency (default 10 MHz)")

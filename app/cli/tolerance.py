@@ -3,19 +3,17 @@
 from __future__ import annotations
 
 from bandsmith import api
-from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.common.units import PART_UNITS
 from bandsmith.circuits import get_topology
 from bandsmith.spread.tolerance import STAT_KEYS
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, add_source_option, emit
+from bandsmith.app.cli.common import Command, add_circuit_arguments, add_opamp_options, add_source_option, emit, opamp_options
 from bandsmith.app.cli.text import figures_rows, table
 
 
 def configure(p):
-    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
-    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C=10n")
+    add_circuit_arguments(p)
     p.add_argument(
         "--tol",
         action="append",
@@ -26,8 +24,7 @@ def configure(p):
     p.add_argument("--dist", choices=("uniform", "normal"), default="uniform", help="uniform ±p, or normal with p = 3σ (default uniform)")
     p.add_argument("--trials", metavar="N", help="number of Monte Carlo trials (default 10000)")
     p.add_argument("--seed", metavar="S", help="random seed, a whole number (default 1); the same seed gives the same numbers")
-    p.add_argument("--gbw", metavar="F", help="op-amp gain-bandwidth (Hz); without it the op-amp is ideal")
-    p.add_argument("--a0", metavar="A", help="op-amp open-loop DC gain (default 1e5)")
+    add_opamp_options(p)
     p.add_argument("--gbw-tol", metavar="P", help="spread of the GBW (needs --gbw; default 0)")
     p.add_argument("--window-f0", metavar="P", help="yield window for f0 around nominal (default ±5%%)")
     p.add_argument("--window-q", metavar="P", help="yield window for Q around nominal (default ±10%%)")
@@ -42,7 +39,7 @@ def options_from(args) -> dict:
     return {
         "tolerances": tol, "dist": args.dist, "trials": args.trials, "seed": args.seed, "gbw_tol": args.gbw_tol,
         "window_f0": args.window_f0, "window_q": args.window_q, "window_gain_db": args.window_gain_db,
-        "gbw_hz": args.gbw, "a0": args.a0 if args.a0 is not None else DEFAULT_A0,
+        **opamp_options(args),
         "rsource_ohm": getattr(args, "rsource", None),
     }
 

@@ -5,13 +5,12 @@ from __future__ import annotations
 from bandsmith import api
 from bandsmith.common.values import format_value
 
-from bandsmith.app.cli.common import Command, emit, tempcos_from
+from bandsmith.app.cli.common import Command, add_circuit_arguments, emit, tempcos_from
 from bandsmith.app.cli.text import table
 
 
 def configure(p):
-    p.add_argument("topology", help="circuit id (see `bandsmith topologies`)")
-    p.add_argument("parts", nargs="*", metavar="REF=VALUE", help="part values, e.g. R1=4k7 C1=10n")
+    add_circuit_arguments(p, parts_help="part values, e.g. R1=4k7 C1=10n")
     p.add_argument("--tol", metavar="KIND=P", action="append", default=[],
                    help="tolerance by kind or part, e.g. R=1%% C=5%% R2=0.5%% (repeatable; default R 1%%, C 5%%, L 10%%)")
     p.add_argument("--measured-f0", metavar="F", help="the built stage's measured f0 in Hz: gives the correction")

@@ -12,6 +12,9 @@ from dataclasses import dataclass
 
 from PySide6 import QtCore, QtGui
 
+# The status colours' home is the Qt-free bandsmith.app.plots.status; re-exported here with the rest.
+from bandsmith.app.plots.status import BAD, GOOD, INK, MUTED, WARN
+
 __all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "SYMBOLS", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED"]
 
 # Blue, amber, dark magenta, sky, vermilion-brown, bluish green, olive, slate: alternating dark and
@@ -37,14 +40,6 @@ LINE_STYLES = (
 
 # Scatter symbols of the pole-zero view, one per candidate (poles; zeros are always "o").
 SYMBOLS = ("x", "t", "s", "d", "star", "+", "t1", "p")
-
-# Status colours of flags; each flag also carries a symbol so it does not rely on colour.
-# Text: body ink and the muted grey of captions and notes.
-INK = "#202124"
-MUTED = "#5f6368"
-GOOD = "#1d7a3a"
-WARN = "#a35f00"
-BAD = "#b0191e"
 
 
 @dataclass(frozen=True, slots=True)

@@ -212,8 +212,8 @@ def _paint(widget: QtWidgets.QWidget, scale: float) -> QtGui.QImage:
     return img
 
 
-def image_png(img: QtGui.QImage) -> bytes:
-    """A ``QImage`` as PNG bytes (through a ``QBuffer``)."""
+def image_png(img: "QtGui.QImage | QtGui.QPixmap") -> bytes:
+    """A ``QImage`` (or ``QPixmap``) as PNG bytes (through a ``QBuffer``)."""
     buf = QtCore.QBuffer()
     buf.open(QtCore.QIODevice.OpenModeFlag.WriteOnly)
     if not img.save(buf, "PNG"):

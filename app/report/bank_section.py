@@ -23,7 +23,7 @@ from bandsmith.common.values import format_value
 
 from bandsmith.app.report.cells import html_table
 from bandsmith.app.report.context import ReportContext
-from bandsmith.app.report.sections import register_section
+from bandsmith.app.report.sections import kept_items_section, register_section
 
 __all__ = ["section_banks"]
 
@@ -99,13 +99,7 @@ def _one_bank(saved: SavedBank, ctx: ReportContext) -> str:
 
 def section_banks(ctx: ReportContext) -> str:
     """Every bank kept in the session ("" when there is none)."""
-    if EXTRAS_KEY not in ctx.session.extras:
-        return ""
-    banks, problems = banks_in(ctx.session)
-    out = [f'<p class="error">{escape(p[:1].upper() + p[1:])}.</p>' for p in problems]
-    for saved in banks:
-        out.append(_one_bank(saved, ctx))
-    return "\n".join(out)
+    return kept_items_section(ctx, EXTRAS_KEY, banks_in, _one_bank)
 
 
 register_section("banks", section_banks, before="cautions")

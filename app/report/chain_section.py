@@ -36,7 +36,7 @@ from bandsmith.app.plots.chain_text import response_title
 from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.report.cells import gbw_cell, html_table, png_img, signed, slew_text
 from bandsmith.app.report.context import ReportContext
-from bandsmith.app.report.sections import register_section
+from bandsmith.app.report.sections import kept_items_section, register_section
 
 __all__ = ["section_chains", "chain_plot_png", "PLOT_ASPECT"]
 
@@ -224,13 +224,7 @@ def _one_chain(chain: Chain, ctx: ReportContext) -> str:
 
 def section_chains(ctx: ReportContext) -> str:
     """Every chain kept in the session ("" when there is none)."""
-    if EXTRAS_KEY not in ctx.session.extras:
-        return ""
-    chains, problems = saved_chains(ctx.session)
-    out = [f'<p class="error">{escape(p[:1].upper() + p[1:])}.</p>' for p in problems]
-    for chain in chains:
-        out.append(_one_chain(chain, ctx))
-    return "\n".join(out)
+    return kept_items_section(ctx, EXTRAS_KEY, saved_chains, _one_chain)
 
 
 register_section("chains", section_chains, before="cautions")

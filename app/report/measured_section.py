@@ -38,12 +38,13 @@ from bandsmith.app.plots.gui_thread import on_gui_thread
 from bandsmith.app.report.cells import png_img
 from bandsmith.app.report.context import CandidateReport, ReportContext
 from bandsmith.app.report.sections import register_section
+from bandsmith.app.plots.status import INK, MUTED
 
 __all__ = ["section_measured", "measured_plot_pngs", "MEASURED_KEYS"]
 
 MEASURED_KEYS = ("magnitude", "phase")
-_POINTS_COLOUR = "#5f6368"
-_FIT_COLOUR = "#202124"
+_POINTS_COLOUR = MUTED
+_FIT_COLOUR = INK
 _ASPECT = 0.28
 _LEGEND_ROW_PX = 28
 _FINE_POINTS = 600

@@ -41,6 +41,7 @@ __all__ = [
     "section_plots",
     "section_candidates",
     "section_cautions",
+    "kept_items_section",
 ]
 
 _PLOT_CAPTIONS = {
@@ -300,6 +301,21 @@ def register_section(name: str, builder: SectionBuilder, *, before: str = "cauti
     names = [n for n, _ in SECTIONS]
     at = names.index(before) if before in names else len(SECTIONS)
     SECTIONS.insert(at, (name, builder))
+
+
+def kept_items_section(ctx: ReportContext, key: str, read, one) -> str:
+    """A section of the things a session keeps under ``extras[key]`` (chains, banks …); "" when it keeps none.
+
+    ``read(session)`` gives ``(items, problems)``: each problem becomes an error paragraph, then
+    ``one(item, ctx)`` gives each item's HTML.
+    """
+    if key not in ctx.session.extras:
+        return ""
+    items, problems = read(ctx.session)
+    out = [f'<p class="error">{escape(p[:1].upper() + p[1:])}.</p>' for p in problems]
+    for item in items:
+        out.append(one(item, ctx))
+    return "\n".join(out)
 
 
 # --------------------------------------------------------------------------- sections of later features

@@ -22,17 +22,16 @@ from html import escape
 from bandsmith.design.candidate import Candidate
 from bandsmith.bench.shelf import amps_from_json
 from bandsmith.common.errors import InputError
-from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL, fit_check
+from bandsmith.bench.fitcheck import fit_check
 from bandsmith.common.values import format_value
 
 from bandsmith.app.report.context import ReportContext
 from bandsmith.app.report.sections import register_section
+from bandsmith.app.plots.status import FIT_MARKS
 from bandsmith.app.document.extras_shelf import SESSION_KEY, session_amps, session_chosen, session_supply_v
 
 __all__ = ["section_shelf"]
 
-_LOOK = {FITS: ("✓", "good"), MARGINAL: ("◐", "warn"), DOES_NOT_FIT: ("✗", "bad")}
-_COLOUR = {"good": "#1d7a3a", "warn": "#a35f00", "bad": "#b0191e"}
 
 
 def _v(x: float, unit: str, digits: int = 3) -> str:
@@ -40,10 +39,10 @@ def _v(x: float, unit: str, digits: int = 3) -> str:
 
 
 def _cell(verdict: str, chosen: bool) -> str:
-    symbol, kind = _LOOK[verdict]
+    symbol, colour = FIT_MARKS[verdict]
     mark = "<br/><i>chosen</i>" if chosen else ""
     # A no-break space keeps the symbol with the word when a narrow column wraps the cell.
-    return f'<span style="color: {_COLOUR[kind]}; font-weight: 600">{symbol}&nbsp;{escape(verdict)}</span>{mark}'
+    return f'<span style="color: {colour}; font-weight: 600">{symbol}&nbsp;{escape(verdict)}</span>{mark}'
 
 
 def _headroom_table(room) -> str:
@@ -129,7 +128,7 @@ def _candidate_block(label: str, rep, chosen_name: str | None) -> list[str]:
     out = [f"<h3>{escape(label)}</h3>"]
     items = []
     for v in rep.verdicts:
-        symbol, _kind = _LOOK[v.verdict]
+        symbol, _colour = FIT_MARKS[v.verdict]
         fig = v.actual.item()
         with_it = ""
         if math.isfinite(fig.f0_hz):

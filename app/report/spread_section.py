@@ -33,6 +33,7 @@ from bandsmith.common.values import format_value
 
 from bandsmith.app.document.extras_settings import spread_for_circuit, stored_noise, stored_spread
 from bandsmith.app.plots.gui_thread import on_gui_thread
+from bandsmith.app.plots.spread_text import count_text, figure_text
 from bandsmith.app.report.cells import html_table, png_img
 from bandsmith.app.report.context import ReportContext
 from bandsmith.app.report.sections import register_section
@@ -46,20 +47,6 @@ _VIEW_DECADES = 2.0
 
 def _pct(x: float) -> str:
     return f"{100.0 * x:.4g}\u00a0%"  # never broken before the sign
-
-
-def _count(n: int) -> str:
-    return f"{int(n):,}".replace(",", " ")
-
-
-def _fig(key: str, x: float, *, spread: bool = False) -> str:
-    if x is None or not math.isfinite(x):
-        return "—"
-    if key == "f0_hz":
-        return format_value(x, "Hz", digits=3 if spread else 5)
-    if key == "q":
-        return f"{x:.3g}" if spread else f"{x:.4g}"
-    return f"{x:.3f} dB" if spread else f"{x:+.3f} dB"
 
 
 def _corner_text(corner) -> str:
@@ -84,7 +71,7 @@ def _spread_settings_table(s) -> str:
         ["own tolerances", escape(", ".join(own) if own else "none")],
         ["op-amp GBW spread", escape(f"±{_pct(s.gbw_tol)}" if s.gbw_tol > 0 else "none")],
         ["distribution", escape(dist)],
-        ["trials, seed", escape(f"{_count(s.trials)}, seed {s.seed} (the same seed gives the same trials)")],
+        ["trials, seed", escape(f"{count_text(s.trials)}, seed {s.seed} (the same seed gives the same trials)")],
         ["yield window", escape(f"f0 ±{_pct(s.window_f0)}, Q ±{_pct(s.window_q)}, centre gain ±{s.window_gain_db:g} dB of nominal")],
     ]
     return html_table(None, rows, cls="kv", align="Ll")
@@ -98,24 +85,24 @@ def _spread_block(ctx: ReportContext, c, s) -> str:
     passed = int(np.count_nonzero(sp.passed))
     out = [f'<h3 id="spread-{escape(c.label)}">{escape(c.label)}: yield {100.0 * sp.yield_fraction:.1f} %</h3>']
     model = "ideal op-amp" if opamp.ideal else f"op-amp GBW {format_value(opamp.gbw_hz, 'Hz', digits=3)}"
-    line = f"{_count(passed)} of {_count(eff.trials)} trials within the window ({model})."
+    line = f"{count_text(passed)} of {count_text(eff.trials)} trials within the window ({model})."
     if sp.failed_trials:
-        line += f' <span class="bad">{_count(sp.failed_trials)} unstable or without a band-pass peak (counted as failing).</span>'
+        line += f' <span class="bad">{count_text(sp.failed_trials)} unstable or without a band-pass peak (counted as failing).</span>'
     out.append(f'<p class="note">{escape(line) if not sp.failed_trials else line}</p>')
     for n in notes:
         out.append(f'<p class="note">{escape(n)}.</p>')
     nom = sp.nominal.item()
     stats = {key: sp.stats(key) for key, _ in _FIGS}
-    rows = [["<b>nominal</b>"] + [escape(_fig(key, float(getattr(nom, key)))) for key, _ in _FIGS]]
+    rows = [["<b>nominal</b>"] + [escape(figure_text(key, float(getattr(nom, key)))) for key, _ in _FIGS]]
     for k, label in _STATS:
-        rows.append([f"<b>{escape(label)}</b>"] + [escape(_fig(key, stats[key][k], spread=(k == "std"))) for key, _ in _FIGS])
+        rows.append([f"<b>{escape(label)}</b>"] + [escape(figure_text(key, stats[key][k], deviation=(k == "std"))) for key, _ in _FIGS])
     out.append(html_table(["over the trials"] + [escape(label) for _, label in _FIGS], rows, cls="spread-stats", align="Lr"))
     wc = sp.worst
     wrows = []
     for key, label in _FIGS:
         lo, hi = getattr(wc, key)
         c_lo, c_hi = wc.corners.get(key, ({}, {}))
-        wrows.append([f"<b>{escape(label)}</b>", escape(_fig(key, lo)), escape(_fig(key, hi)), escape(_corner_text(c_lo)), escape(_corner_text(c_hi))])
+        wrows.append([f"<b>{escape(label)}</b>", escape(figure_text(key, lo)), escape(figure_text(key, hi)), escape(_corner_text(c_lo)), escape(_corner_text(c_hi))])
     how = f"{wc.method}, {wc.corner_count} evaluated" if wc.corner_count else wc.method
     out.append(f'<p class="note">Worst case over the corners of the tolerance box ({escape(how)})'
                + (f"; {wc.unstable_corners} corner(s) unstable or without a peak" if wc.unstable_corners else "") + ".</p>")

@@ -14,16 +14,14 @@ from __future__ import annotations
 from html import escape
 
 from bandsmith.common.values import format_value
-from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VerdictLimits
+from bandsmith.verdict import VerdictLimits
 
 from bandsmith.app.document.comparison import SessionComparison, judge_session
 from bandsmith.app.report.context import ReportContext
 from bandsmith.app.report.sections import register_section
+from bandsmith.app.plots.status import VERDICT_MARKS
 
 __all__ = ["section_verdicts", "report_comparison", "VERDICT_MARKS"]
-
-#: A symbol and a colour for each verdict (the symbol carries it in greyscale print).
-VERDICT_MARKS = {BUILDABLE: ("●", "#1d7a3a"), MARGINAL: ("◐", "#a35f00"), NOT_BUILDABLE: ("✕", "#b0191e")}
 
 
 def report_comparison(ctx: ReportContext) -> SessionComparison:

@@ -123,8 +123,10 @@ def widget_png(widget, *, scale: float | None = None, title: str | None = None) 
     """
     from PySide6 import QtCore, QtGui
 
+    from bandsmith.app.plots.render import image_png
+
     if scale is not None or title:
-        from bandsmith.app.plots.render import image_png, paint_widget
+        from bandsmith.app.plots.render import paint_widget
 
         s = float(scale or 1.0)
         body = paint_widget(widget, scale=s)
@@ -147,14 +149,7 @@ def widget_png(widget, *, scale: float | None = None, title: str | None = None) 
         finally:
             p.end()
         return image_png(img)
-    pixmap = widget.grab()
-    buf = QtCore.QBuffer()
-    buf.open(QtCore.QIODevice.OpenModeFlag.WriteOnly)
-    if not pixmap.save(buf, "PNG"):
-        raise RuntimeError("Qt could not encode the image as PNG")
-    data = bytes(buf.data())
-    buf.close()
-    return data
+    return image_png(widget.grab())
 
 
 def widget_svg(widget, *, title: str = "Bandsmith plot", description: str = "") -> bytes:

@@ -14,23 +14,36 @@ __all__ = ["Prompter", "SESSION_FILTER"]
 SESSION_FILTER = "Bandsmith sessions (*.bandsmith.json *.json);;All files (*)"
 
 
+def _three_way(
+    parent: QtWidgets.QWidget, icon, title: str, text: str, informative: str,
+    accept: tuple[str, str], destructive: tuple[str, str], reject: tuple[str, str],
+) -> str:
+    """A modal question with three buttons, each a ``(label, answer)``: the accepting one (the
+    default), the destructive one and the one that puts it off (also what closing the box gives).
+    Returns the answer of the button clicked."""
+    box = QtWidgets.QMessageBox(parent)
+    box.setIcon(icon)
+    box.setWindowTitle(title)
+    box.setText(text)
+    box.setInformativeText(informative)
+    yes = box.addButton(accept[0], QtWidgets.QMessageBox.ButtonRole.AcceptRole)
+    no = box.addButton(destructive[0], QtWidgets.QMessageBox.ButtonRole.DestructiveRole)
+    box.addButton(reject[0], QtWidgets.QMessageBox.ButtonRole.RejectRole)
+    box.setDefaultButton(yes)
+    box.exec()
+    clicked = box.clickedButton()
+    return accept[1] if clicked is yes else destructive[1] if clicked is no else reject[1]
+
+
 class Prompter:
     """Modal dialogs for the window (the real ones)."""
 
     def ask_unsaved(self, parent: QtWidgets.QWidget, name: str) -> str:
         """Unsaved changes in ``name``: returns ``"save"``, ``"discard"`` or ``"cancel"``."""
-        box = QtWidgets.QMessageBox(parent)
-        box.setIcon(QtWidgets.QMessageBox.Icon.Warning)
-        box.setWindowTitle("Unsaved changes")
-        box.setText(f"{name} has changes that are not saved.")
-        box.setInformativeText("Save them first?")
-        save = box.addButton("Save", QtWidgets.QMessageBox.ButtonRole.AcceptRole)
-        discard = box.addButton("Don't save", QtWidgets.QMessageBox.ButtonRole.DestructiveRole)
-        box.addButton("Cancel", QtWidgets.QMessageBox.ButtonRole.RejectRole)
-        box.setDefaultButton(save)
-        box.exec()
-        clicked = box.clickedButton()
-        return "save" if clicked is save else "discard" if clicked is discard else "cancel"
+        return _three_way(
+            parent, QtWidgets.QMessageBox.Icon.Warning, "Unsaved changes", f"{name} has changes that are not saved.",
+            "Save them first?", ("Save", "save"), ("Don't save", "discard"), ("Cancel", "cancel"),
+        )
 
     def ask_open_path(self, parent: QtWidgets.QWidget, folder: str) -> str | None:
         path, _ = QtWidgets.QFileDialog.getOpenFileName(parent, "Open session", folder, SESSION_FILTER)
@@ -45,19 +58,12 @@ class Prompter:
 
     def ask_restore(self, parent: QtWidgets.QWidget, original: str, when: str) -> str:
         """A recovery copy exists: returns ``"restore"``, ``"discard"`` or ``"later"``."""
-        box = QtWidgets.QMessageBox(parent)
-        box.setIcon(QtWidgets.QMessageBox.Icon.Question)
-        box.setWindowTitle("Recover unsaved work")
         what = original or "an untitled session"
-        box.setText(f"Bandsmith closed unexpectedly with unsaved changes to {what} (last kept {when}).")
-        box.setInformativeText("Restore them? The file itself has not been changed.")
-        restore = box.addButton("Restore", QtWidgets.QMessageBox.ButtonRole.AcceptRole)
-        discard = box.addButton("Discard", QtWidgets.QMessageBox.ButtonRole.DestructiveRole)
-        box.addButton("Ask again later", QtWidgets.QMessageBox.ButtonRole.RejectRole)
-        box.setDefaultButton(restore)
-        box.exec()
-        clicked = box.clickedButton()
-        return "restore" if clicked is restore else "discard" if clicked is discard else "later"
+        return _three_way(
+            parent, QtWidgets.QMessageBox.Icon.Question, "Recover unsaved work",
+            f"Bandsmith closed unexpectedly with unsaved changes to {what} (last kept {when}).",
+            "Restore them? The file itself has not been changed.", ("Restore", "restore"), ("Discard", "discard"), ("Ask again later", "later"),
+        )
 
     def ask_choice(self, parent: QtWidgets.QWidget, title: str, label: str, items: list[str]) -> str | None:
         """One of ``items`` (the first preselected), or None when cancelled."""

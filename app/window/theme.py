@@ -6,7 +6,7 @@ re-exported here for the window's modules.
 
 from __future__ import annotations
 
-from PySide6 import QtWidgets
+from PySide6 import QtCore, QtWidgets
 
 from bandsmith.app.plots.palette import (
     BAD,
@@ -21,7 +21,7 @@ from bandsmith.app.plots.palette import (
     candidate_style,
 )
 
-__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "STYLE_SHEET", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED", "error_label", "fit_columns", "headline"]
+__all__ = ["CandidateStyle", "candidate_style", "PALETTE", "LINE_STYLES", "STYLE_SHEET", "apply_plot_theme", "GOOD", "WARN", "BAD", "INK", "MUTED", "error_label", "note_label", "section_title", "selectable_label", "settings_group", "fit_columns", "headline"]
 
 STYLE_SHEET = f"""
 QMainWindow, QWidget#board {{ background: #f6f6f3; }}
@@ -37,6 +37,46 @@ QLabel#needFlagBad {{ color: white; background: {BAD}; font-weight: 700; padding
 QLabel#candidateTitle {{ font-weight: 700; font-size: 13px; }}
 QLineEdit[invalid="true"] {{ border: 1px solid {BAD}; background: #fff1f0; }}
 """
+
+
+def section_title(parent: QtWidgets.QWidget | None, text: str, *, wrap: bool = False) -> QtWidgets.QLabel:
+    """The bold title over a part of a pane (styled as ``sectionTitle``); ``wrap`` for a long one."""
+    label = QtWidgets.QLabel(text, parent)
+    label.setObjectName("sectionTitle")
+    if wrap:
+        label.setWordWrap(True)
+    return label
+
+
+def selectable_label(parent: QtWidgets.QWidget, object_name: str, *, rich: bool = False) -> QtWidgets.QLabel:
+    """A word-wrapped label whose text the user can select and copy (a summary, messages);
+    ``rich`` for HTML text."""
+    label = QtWidgets.QLabel(parent)
+    label.setObjectName(object_name)
+    label.setWordWrap(True)
+    if rich:
+        label.setTextFormat(QtCore.Qt.TextFormat.RichText)
+    label.setTextInteractionFlags(QtCore.Qt.TextInteractionFlag.TextSelectableByMouse)
+    return label
+
+
+def settings_group(parent: QtWidgets.QWidget, title: str, object_name: str) -> tuple[QtWidgets.QGroupBox, QtWidgets.QGridLayout]:
+    """A titled group of settings fields and the tight grid they are laid out on."""
+    box = QtWidgets.QGroupBox(title, parent)
+    box.setObjectName(object_name)
+    grid = QtWidgets.QGridLayout(box)
+    grid.setHorizontalSpacing(6)
+    grid.setVerticalSpacing(3)
+    return box, grid
+
+
+def note_label(parent: QtWidgets.QWidget, object_name: str, text: str = "") -> QtWidgets.QLabel:
+    """A word-wrapped line of muted text (what a run was, a note under a table)."""
+    label = QtWidgets.QLabel(text, parent)
+    label.setObjectName(object_name)
+    label.setStyleSheet(f"color: {MUTED};")
+    label.setWordWrap(True)
+    return label
 
 
 def error_label(parent: QtWidgets.QWidget) -> QtWidgets.QLabel:

@@ -116,14 +116,33 @@ def stage_options(stage, f_hz: np.ndarray, keep: int = KEEP) -> tuple[list[dict]
     return [s for s, k in zip(sets, ok) if k], rows[ok]
 
 
-def _objective(total: np.ndarray, ref_db: np.ndarray, band: slice, centre: int, rej: np.ndarray, need: np.ndarray) -> np.ndarray:
-    """Objective (dB) of chains given as ``(..., F)`` dB rows (module notes)."""
-    dev = np.max(np.abs(total[..., band] - ref_db[band]), axis=-1)
-    if rej.size == 0:
-        return dev
-    att = total[..., centre, None] - total[..., rej]
-    short = np.max(np.maximum(need - att, 0.0), axis=-1)
-    return np.maximum(dev, short)
+@dataclass(frozen=True, slots=True)
+class _Grid:
+    """Where the objective is measured: ``f`` (Hz) is the pass band (:data:`GRID_POINTS`,
+    log-spaced), its centre, then the mask's rejection points; ``need`` the attenuation each of
+    those must reach (dB) and ``ref_db`` the chain's ideal response at ``f`` (dB)."""
+
+    f: np.ndarray
+    need: np.ndarray
+    ref_db: np.ndarray
+
+    def objective(self, total: np.ndarray) -> np.ndarray:
+        """Objective (dB) of chains given as ``(..., F)`` dB rows on this grid (module notes)."""
+        band, centre = slice(0, GRID_POINTS), GRID_POINTS
+        dev = np.max(np.abs(total[..., band] - self.ref_db[band]), axis=-1)
+        if self.need.size == 0:
+            return dev
+        att = total[..., centre, None] - total[..., GRID_POINTS + 1:]
+        short = np.max(np.maximum(self.need - att, 0.0), axis=-1)
+        return np.maximum(dev, short)
+
+
+def _grid(result: Cascade, mask) -> _Grid:
+    """The objective's grid for a built chain and an optional mask."""
+    s = result.settings
+    pts = () if mask is None else mask.points
+    f = np.concatenate([np.geomspace(s.f_low_hz, s.f_high_hz, GRID_POINTS), [s.band.f0_hz], [p.f_hz for p in pts]])
+    return _Grid(f, np.array([p.required_db for p in pts]), 20.0 * np.log10(np.abs(result.reference_response(f))))
 
 
 def choose_jointly(result: Cascade, *, mask=None, conditions: Conditions | None = None) -> tuple[Cascade, JointChoice | None]:
@@ -147,31 +166,24 @@ def choose_jointly(result: Cascade, *, mask=None, conditions: Conditions | None 
     if not result.feasible or result.settings.series == "exact":
         return result, None
     t0 = time.perf_counter()
-    s = result.settings
-    band_f = np.geomspace(s.f_low_hz, s.f_high_hz, GRID_POINTS)
-    pts = () if mask is None else mask.points
-    f = np.concatenate([band_f, [s.band.f0_hz], [p.f_hz for p in pts]])
-    band, centre = slice(0, GRID_POINTS), GRID_POINTS
-    rej = np.arange(GRID_POINTS + 1, f.size)
-    need = np.array([p.required_db for p in pts])
-    ref_db = 20.0 * np.log10(np.abs(result.reference_response(f)))
-    sets, rows = zip(*(stage_options(st, f) for st in result.stages))
+    g = _grid(result, mask)
+    sets, rows = zip(*(stage_options(st, g.f) for st in result.stages))
     pick = [0] * len(rows)
     total = np.sum([r[0] for r in rows], axis=0)
-    start = float(_objective(total, ref_db, band, centre, rej, need))
+    start = float(g.objective(total))
     sweeps = 0
     for sweeps in range(1, MAX_SWEEPS + 1):
         changed = False
         for k, r in enumerate(rows):
             rest = total - r[pick[k]]
-            obj = _objective(rest[None, :] + r, ref_db, band, centre, rej, need)
+            obj = g.objective(rest[None, :] + r)
             j = int(np.argmin(obj))
             if obj[j] < obj[pick[k]] - 1e-12:
                 pick[k], changed = j, True
                 total = rest + r[j]
         if not changed:
             break
-    joint = float(_objective(total, ref_db, band, centre, rej, need))
+    joint = float(g.objective(total))
     values = tuple(sets[k][j] for k, j in enumerate(pick))
     info = JointChoice(values, start, joint, tuple(len(r) for r in rows), sweeps, time.perf_counter() - t0)
     if all(j == 0 for j in pick):
@@ -222,17 +234,10 @@ def best_single_trim(result: Cascade, mask=None) -> dict | None:
 
     if not result.feasible or result.settings.series == "exact":
         return None
-    s = result.settings
-    band_f = np.geomspace(s.f_low_hz, s.f_high_hz, GRID_POINTS)
-    pts = () if mask is None else mask.points
-    f = np.concatenate([band_f, [s.band.f0_hz], [p.f_hz for p in pts]])
-    band, centre = slice(0, GRID_POINTS), GRID_POINTS
-    rej = np.arange(GRID_POINTS + 1, f.size)
-    need = np.array([p.required_db for p in pts])
-    ref_db = 20.0 * np.log10(np.abs(result.reference_response(f)))
-    rows = [20.0 * np.log10(np.abs(st.h_ideal.at_f(f)[0])) for st in result.stages]
+    g = _grid(result, mask)
+    rows = [20.0 * np.log10(np.abs(st.h_ideal.at_f(g.f)[0])) for st in result.stages]
     total = np.sum(rows, axis=0)
-    now = float(_objective(total, ref_db, band, centre, rej, need))
+    now = float(g.objective(total))
     best = None
     for k, st in enumerate(result.stages):
         res = st.result
@@ -247,8 +252,8 @@ def best_single_trim(result: Cascade, mask=None) -> dict | None:
         net = with_source(res.topology.build(chosen), res.conditions.rsource_ohm)
         with np.errstate(all="ignore"):
             h = _combinations(net, over, res.spec.w0)
-            mag = 20.0 * np.log10(np.abs(h.at_f(f)))
-        obj = _objective(total - rows[k] + mag, ref_db, band, centre, rej, need)
+            mag = 20.0 * np.log10(np.abs(h.at_f(g.f)))
+        obj = g.objective(total - rows[k] + mag)
         obj = np.where(np.isfinite(obj), obj, np.inf)
         i = int(np.argmin(obj))
         if best is None or obj[i] < best["objective_db"]:

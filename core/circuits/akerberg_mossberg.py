@@ -34,8 +34,8 @@ from typing import Mapping
 
 from bandsmith.circuits.synthesis import Exact, Spec
 from bandsmith.circuits.topology import Topology
-from bandsmith.circuits.tow_thomas import COMPONENTS, loop_formulas, loop_synthesize
-from bandsmith.solver.netlist import Element, Netlist
+from bandsmith.circuits.tow_thomas import COMPONENTS, loop_formulas, loop_netlist, loop_synthesize
+from bandsmith.solver.netlist import Netlist
 
 # the same parts and roles as the Tow–Thomas loop: only where the inverter's + input goes differs
 
@@ -45,21 +45,7 @@ EXAMPLE = {"R1": 21e3, "R2": 105e3, "R3": 3.48e3, "R4": 3.48e3, "C1": 10e-9, "C2
 
 def build(v: Mapping[str, float]) -> Netlist:
     """Netlist of the Åkerberg–Mossberg band-pass for validated part values (ohm, F)."""
-    return Netlist(
-        (
-            Element("R1", "R", ("in", "m1"), v["R1"]),
-            Element("R2", "R", ("m1", "out"), v["R2"]),
-            Element("C1", "C", ("m1", "out"), v["C1"]),
-            Element("R3", "R", ("v3", "m1"), v["R3"]),
-            Element("U1", "opamp", ("0", "m1", "out")),
-            Element("R4", "R", ("out", "m2"), v["R4"]),
-            Element("C2", "C", ("m2", "v2"), v["C2"]),
-            Element("U2", "opamp", ("0", "m2", "v2")),
-            Element("R5", "R", ("v2", "m3"), v["R5"]),
-            Element("R6", "R", ("m3", "v3"), v["R6"]),
-            Element("U3", "opamp", ("m2", "m3", "v3")),
-        )
-    )
+    return loop_netlist(v, "m2")
 
 
 def synthesize(spec: Spec, fixed: dict[str, float] | None = None, *, series: str = "E24") -> Exact:

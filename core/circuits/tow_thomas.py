@@ -78,8 +78,12 @@ def loop_synthesize(spec: Spec, fixed, series: str, name: str) -> Exact:
     )
 
 
-def build(v: Mapping[str, float]) -> Netlist:
-    """Netlist of the Tow–Thomas band-pass for validated part values (ohm, F)."""
+def loop_netlist(v: Mapping[str, float], inverter_plus: str) -> Netlist:
+    """The two-integrator loop's netlist (Tow–Thomas and Åkerberg–Mossberg alike) for part values (ohm, F).
+
+    ``inverter_plus`` is the node of the inverter U3's non-inverting input: ground (``"0"``) in
+    the Tow–Thomas loop, the second integrator's summing node ``m2`` in the Åkerberg–Mossberg one.
+    """
     return Netlist(
         (
             Element("R1", "R", ("in", "m1"), v["R1"]),
@@ -92,9 +96,14 @@ def build(v: Mapping[str, float]) -> Netlist:
             Element("U2", "opamp", ("0", "m2", "v2")),
             Element("R5", "R", ("v2", "m3"), v["R5"]),
             Element("R6", "R", ("m3", "v3"), v["R6"]),
-            Element("U3", "opamp", ("0", "m3", "v3")),
+            Element("U3", "opamp", (inverter_plus, "m3", "v3")),
         )
     )
+
+
+def build(v: Mapping[str, float]) -> Netlist:
+    """Netlist of the Tow–Thomas band-pass for validated part values (ohm, F)."""
+    return loop_netlist(v, "0")
 
 
 def synthesize(spec: Spec, fixed: dict[str, float] | None = None, *, series: str = "E24") -> Exact:

@@ -9,9 +9,8 @@ import numpy as np
 from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import nominal_w_ref
 from bandsmith.spread.spread_settings import SpreadSettings
-from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, setup_spread
+from bandsmith.spread.evaluator import draws, evaluator_columns, prepare_spread
 
 __all__ = ["Envelope", "magnitude_envelope"]
 
@@ -39,9 +38,8 @@ def magnitude_envelope(
 
     The trials are the same as :func:`run_spread`'s first ones for these settings.
     """
-    _, parts, spread = setup_spread(netlist, settings, opamp)
-    w_ref = nominal_w_ref(netlist)
-    ev = Evaluator(netlist, opamp, w_ref, nominal_figures(netlist, opamp, w_ref))
+    prep = prepare_spread(netlist, settings, opamp)
+    ev, spread = prep.evaluator, prep.spread
     count = min(int(trials), settings.trials)
     if count < 1:
         raise InputError("trials", "the envelope needs at least one trial")

@@ -8,7 +8,7 @@ tracked search grid of the solver's batches) is described in :mod:`bandsmith.spr
 from __future__ import annotations
 
 import math
-from dataclasses import fields
+from dataclasses import dataclass, fields
 
 import numpy as np
 
@@ -20,12 +20,12 @@ from bandsmith.analysis.sensitivity import log_slopes, perturbed_ratios
 from bandsmith.analysis.figures import Figures, biquad_figures, exact_in_closed_form, measure
 from bandsmith.solver.mna import OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import Rational
+from bandsmith.solver.rational import Rational, nominal_w_ref
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.spread.spread_settings import CHUNK, KINDS, SpreadSettings
 from bandsmith.spread import trialfigures as tf
 
-__all__ = ["Evaluator", "part_tolerances", "setup_spread", "nominal_figures", "draws", "evaluator_columns"]
+__all__ = ["Evaluator", "PreparedSpread", "part_tolerances", "setup_spread", "prepare_spread", "nominal_figures", "draws", "evaluator_columns", "drawn_values", "solver_values"]
 
 
 _GRID_POINTS = 49  # points of the search grid each trial is measured on
@@ -75,15 +75,7 @@ class Evaluator:
         ratios = np.ascontiguousarray(ratios)  # row order for the products of small batches
         if self.expansion is not None:
             return self.expansion.rational(ratios)
-        overrides, gbw, a0 = {}, None, None
-        for j, v in enumerate(self.variables):
-            col = v.value * ratios[:, j]
-            if v.kind == "gbw":
-                gbw = col
-            elif v.kind == "a0":
-                a0 = col
-            else:
-                overrides[v.name] = col
+        overrides, gbw, a0 = solver_values(self.variables, ratios)
         h = transfer_function(self.netlist, self.opamp, overrides=overrides, gbw_hz=gbw, a0=a0, w_ref=self.w_ref)
         bad = ~np.all(np.isfinite(ratios) & (ratios > 0), axis=1)
         if bad.any():
@@ -135,9 +127,7 @@ class Evaluator:
         f0_est, q_est, centre, half, ok_est = self._estimates(ratios)
         with np.errstate(invalid="ignore", over="ignore"):
             edges = (centre * np.exp(-half)) ** 2, (centre * np.exp(half)) ** 2
-        live = np.isfinite(den[0])
-        for r in den[1:]:
-            live &= np.isfinite(r)
+        live = tf.finite_rows(den)
         u_pk, u_low, u_high, _ = tf.tracked_points(pu, qu, slope, centre * centre, q_est, edges, live)
         fig = tf.figures_rows(num, den, w, u_pk, u_low, u_high)
         with np.errstate(invalid="ignore", divide="ignore"):
@@ -200,6 +190,21 @@ class Evaluator:
         return fig
 
 
+def solver_values(variables, ratios: np.ndarray) -> tuple[dict[str, np.ndarray], np.ndarray | None, np.ndarray | None]:
+    """Ratios to nominal (one column per variable) → what the MNA solver takes: part values by
+    reference (SI units), the op-amp's GBW (Hz) and A0 (None where they are not variables)."""
+    overrides, gbw, a0 = {}, None, None
+    for j, v in enumerate(variables):
+        col = v.value * ratios[:, j]
+        if v.kind == "gbw":
+            gbw = col
+        elif v.kind == "a0":
+            a0 = col
+        else:
+            overrides[v.name] = col
+    return overrides, gbw, a0
+
+
 def _kind(v: Variable) -> str:
     return "R" if v.kind in ("R", "RS") else v.kind
 
@@ -237,6 +242,55 @@ def setup_spread(netlist: Netlist, settings: SpreadSettings, opamp: OpAmpModel):
     parts = [v for v in circuit_variables(netlist, opamp) if v.kind not in ("gbw", "a0")]
     spread = np.array([tol[v.name] for v in parts] + [settings.gbw_tol])
     return tol, parts, spread
+
+
+@dataclass(frozen=True, slots=True)
+class PreparedSpread:
+    """What every spread of a circuit starts from (:func:`prepare_spread`).
+
+    Attributes
+    ----------
+    tolerances : dict
+        The fraction of every part with a value above zero, by reference.
+    parts : list of Variable
+        The drawn parts, in the order of the drawn columns (the GBW's column follows them).
+    spread : ndarray
+        The tolerance of each drawn column, the GBW's last (fractions).
+    nominal : Figures
+        The nominal figures (batch of one), with the op-amp of the trials.
+    evaluator : Evaluator
+        The figures of batches of part values for this circuit and op-amp.
+    """
+
+    tolerances: dict
+    parts: list
+    spread: np.ndarray
+    nominal: Figures
+    evaluator: Evaluator
+
+
+def prepare_spread(netlist: Netlist, settings: SpreadSettings, opamp: OpAmpModel, engine: str = "auto") -> PreparedSpread:
+    """The tolerances, drawn columns, nominal figures and evaluator of a spread (:func:`setup_spread`,
+    then the nominal circuit measured at its reference frequency).
+
+    Raises
+    ------
+    InputError
+        As :func:`setup_spread`, or for a nominal circuit without a band-pass peak.
+    """
+    tol, parts, spread = setup_spread(netlist, settings, opamp)
+    w_ref = nominal_w_ref(netlist)
+    nominal = nominal_figures(netlist, opamp, w_ref)
+    return PreparedSpread(tol, parts, spread, nominal, Evaluator(netlist, opamp, w_ref, nominal, engine))
+
+
+def drawn_values(parts: list[Variable], opamp: OpAmpModel, drawn: np.ndarray) -> dict[str, np.ndarray]:
+    """Drawn ratios (one row per trial, the GBW's column last) → values in SI units by part reference,
+    and ``"gbw"`` (Hz) for a finite op-amp."""
+    out = {v.name: drawn[:, j] * v.value for j, v in enumerate(parts)}
+    if not opamp.ideal:
+        out["gbw"] = drawn[:, -1] * opamp.gbw_hz
+    return out
 
 
 def draws(settings: SpreadSettings, spread: np.ndarray, total: int):

@@ -56,7 +56,6 @@ from bandsmith.analysis.analyzer import within_tolerances
 from bandsmith.analysis.figures import Figures
 from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import nominal_w_ref
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.spread.spread_settings import (
     CHUNK,
@@ -70,7 +69,7 @@ from bandsmith.spread.spread_settings import (
     SpreadCancelled,
     SpreadSettings,
 )
-from bandsmith.spread.evaluator import Evaluator, draws, evaluator_columns, nominal_figures, part_tolerances, setup_spread
+from bandsmith.spread.evaluator import Evaluator, draws, drawn_values, evaluator_columns, part_tolerances, prepare_spread, setup_spread
 from bandsmith.spread.worst import WorstCase, worst_case, worst_of
 from bandsmith.spread.envelope import Envelope, magnitude_envelope
 
@@ -237,24 +236,18 @@ def run_spread(
         For a tolerance of a part the circuit does not have, a GBW spread with an ideal op-amp,
         or a nominal circuit without a band-pass peak.
     """
-    tol, parts, spread = setup_spread(netlist, settings, opamp)
-    w_ref = nominal_w_ref(netlist)
-    nominal = nominal_figures(netlist, opamp, w_ref)
-    ev = Evaluator(netlist, opamp, w_ref, nominal, engine)
-    f0, q, gain, measured, passed, kept = _trials(ev, settings, spread, nominal, progress, cancel, keep_values)
+    prep = prepare_spread(netlist, settings, opamp, engine)
+    ev = prep.evaluator
+    f0, q, gain, measured, passed, kept = _trials(ev, settings, prep.spread, prep.nominal, progress, cancel, keep_values)
     with np.errstate(divide="ignore", invalid="ignore"):
         gain_db = 20.0 * np.log10(np.abs(gain))
-    values = None
-    if kept is not None:
-        values = {v.name: kept[:, j] * v.value for j, v in enumerate(parts)}
-        if not opamp.ideal:
-            values["gbw"] = kept[:, -1] * opamp.gbw_hz
-    worst = worst_of(ev, tol, parts, settings.gbw_tol)  # setup_spread refused a spread GBW of an ideal op-amp
+    values = None if kept is None else drawn_values(prep.parts, opamp, kept)
+    worst = worst_of(ev, prep.tolerances, prep.parts, settings.gbw_tol)  # setup_spread refused a spread GBW of an ideal op-amp
     return Spread(
         settings=settings,
-        tolerances=MappingProxyType(tol),
+        tolerances=MappingProxyType(prep.tolerances),
         opamp=opamp,
-        nominal=nominal,
+        nominal=prep.nominal,
         f0_hz=f0,
         q=q,
         gain_center=gain,
@@ -301,10 +294,6 @@ def sample_parts(netlist: Netlist, settings: SpreadSettings = SpreadSettings(), 
     Includes ``"gbw"`` (Hz) for a finite op-amp.
     """
     _, parts, spread = setup_spread(netlist, settings, opamp)
-    drawn = np.concatenate([d for _, d in draws(settings, spread, settings.trials)])
-    out = {v.name: drawn[:, j] * v.value for j, v in enumerate(parts)}
-    if not opamp.ideal:
-        out["gbw"] = drawn[:, -1] * opamp.gbw_hz
-    return out
+    return drawn_values(parts, opamp, np.concatenate([d for _, d in draws(settings, spread, settings.trials)]))
 
 

@@ -35,7 +35,7 @@ from bandsmith.analysis.figures import Figures, figures_at, real_positive_roots_
 from bandsmith.solver.polyroots import cubic_roots_rows, quadratic_roots_rows
 
 __all__ = [
-    "Rows", "CLOSED_FORM_FROM", "scaled_rows", "hurwitz_rows", "sq_mag_rows", "slope_rows",
+    "Rows", "CLOSED_FORM_FROM", "scaled_rows", "finite_rows", "hurwitz_rows", "sq_mag_rows", "slope_rows",
     "polyval_rows", "real_positive_roots_rows", "by_roots_rows", "tracked_points", "figures_rows",
 ]
 
@@ -47,14 +47,28 @@ _NEWTON_MOST = 12
 _CONVERGED = 1e-9
 
 
+def _max_abs_rows(c: Rows) -> np.ndarray:
+    """The largest magnitude of the coefficients of each member (NaN propagates, as max does)."""
+    scale = np.abs(c[0])
+    for r in c[1:]:
+        scale = np.maximum(scale, np.abs(r))
+    return scale
+
+
+def finite_rows(c: Rows) -> np.ndarray:
+    """Mask of the members whose every coefficient is finite."""
+    ok = np.isfinite(c[0])
+    for r in c[1:]:
+        ok &= np.isfinite(r)
+    return ok
+
+
 def scaled_rows(num_c: np.ndarray, den_c: np.ndarray, num_powers, den_powers) -> tuple[Rows, Rows]:
     """The expansion's coefficients (``(len(powers), B)``, lowest power first, the powers present)
     as rows of every power, highest first, divided by the largest denominator magnitude."""
     b = num_c.shape[1]
     with np.errstate(invalid="ignore", divide="ignore"):
-        scale = np.abs(den_c[0])
-        for r in den_c[1:]:
-            scale = np.maximum(scale, np.abs(r))  # NaN propagates, as max does
+        scale = _max_abs_rows(den_c)
         out = []
         for c, powers in ((num_c, num_powers), (den_c, den_powers)):
             top = powers[-1]
@@ -76,9 +90,7 @@ def hurwitz_rows(den: Rows) -> np.ndarray:
     k = len(den)
     with np.errstate(invalid="ignore", divide="ignore"):
         a = [d / den[0] for d in den]
-        ok = np.isfinite(a[0])
-        for x in a[1:]:
-            ok &= np.isfinite(x)
+        ok = finite_rows(a)
         if k == 1:
             return ok
         if k == 3:
@@ -204,6 +216,12 @@ def _ratio_rows(pu: Rows, qu: Rows, u: np.ndarray) -> np.ndarray:
     return polyval_rows(pu, u) / polyval_rows(qu, u)
 
 
+def _half_power_rows(pu: Rows, qu: Rows, peak2: np.ndarray) -> Rows:
+    """``P − ½·peak²·Q``: its positive roots are where ``|H|² = P/Q`` is half the peak's."""
+    half_peak = 0.5 * peak2
+    return _poly_sub_rows(pu, [q * half_peak for q in qu])
+
+
 def real_positive_roots_rows(c: Rows) -> list[np.ndarray]:
     """``figures._real_positive_roots`` on rows: a list of root arrays, NaN where a root is not
     real and positive (the same arithmetic)."""
@@ -212,10 +230,7 @@ def real_positive_roots_rows(c: Rows) -> list[np.ndarray]:
     if k < 2:
         return []
     c = list(c)
-    scale = np.abs(c[0])
-    for r in c[1:]:
-        scale = np.maximum(scale, np.abs(r))
-    tiny = 1e-14 * scale
+    tiny = 1e-14 * _max_abs_rows(c)
     for _ in range(k - 1):
         low = np.abs(c[0]) <= tiny
         if not low.any():
@@ -248,16 +263,11 @@ def _argmax_pick(vals: list[np.ndarray], cands: list[np.ndarray]) -> tuple[np.nd
 def by_roots_rows(pu: Rows, qu: Rows, slope: Rows):
     """``figures._by_roots`` on rows: peak and half-power points (in ``u``) as exact roots."""
     b = pu[0].shape[0]
-    cand = real_positive_roots_rows(slope)
+    # a candidate array without a member (NaN throughout) is never argmax's choice: left out
+    cand = [cd for cd in real_positive_roots_rows(slope) if not np.isnan(cd).all()]
     if not cand:
         nan = np.full(b, np.nan)
         return nan, nan, nan
-    # a candidate array without a member (NaN throughout) is never argmax's choice: left out
-    kept = [cd for cd in cand if not np.isnan(cd).all()]
-    if not kept:
-        nan = np.full(b, np.nan)
-        return nan, nan, nan
-    cand = kept
     with np.errstate(invalid="ignore", divide="ignore"):
         vals = [_ratio_rows(pu, qu, np.nan_to_num(cd, nan=1.0)) for cd in cand]
     vals = [np.where(np.isfinite(cd), v, -np.inf) for cd, v in zip(cand, vals)]
@@ -265,8 +275,7 @@ def by_roots_rows(pu: Rows, qu: Rows, slope: Rows):
     u_pk = np.where(np.isfinite(best), pick, np.nan)
     with np.errstate(invalid="ignore", divide="ignore"):
         peak2 = _ratio_rows(pu, qu, u_pk)
-        half_peak = 0.5 * peak2
-        half_roots = [r for r in real_positive_roots_rows(_poly_sub_rows(pu, [q * half_peak for q in qu])) if not np.isnan(r).all()]
+        half_roots = [r for r in real_positive_roots_rows(_half_power_rows(pu, qu, peak2)) if not np.isnan(r).all()]
     low = np.full(b, -np.inf)
     high = np.full(b, np.inf)
     with np.errstate(invalid="ignore"):
@@ -295,14 +304,16 @@ def _newton(poly: Rows, x: list[np.ndarray], live: np.ndarray) -> tuple[list[np.
         if last:
             break
         if n >= 1:
-            conv = np.ones_like(live)
-            for xi, st in zip(x, steps):
-                conv &= np.abs(st) <= _CONVERGED * np.abs(xi)
-            last = bool((conv | ~live).all())
-    ok = np.ones_like(live)
+            last = bool((_converged(x, steps, live) | ~live).all())
+    return x, d, _converged(x, steps, live)
+
+
+def _converged(x: list[np.ndarray], steps: list[np.ndarray], like: np.ndarray) -> np.ndarray:
+    """Mask of the members whose every last Newton step is below :data:`_CONVERGED` of its root."""
+    ok = np.ones_like(like)
     for xi, st in zip(x, steps):
         ok &= np.abs(st) <= _CONVERGED * np.abs(xi)
-    return x, d, ok
+    return ok
 
 
 def tracked_points(pu: Rows, qu: Rows, slope: Rows, u0: np.ndarray, q_est: np.ndarray, edges: tuple[np.ndarray, np.ndarray], live: np.ndarray):
@@ -335,8 +346,7 @@ def tracked_points(pu: Rows, qu: Rows, slope: Rows, u0: np.ndarray, q_est: np.nd
         p_pk, q_pk = polyval_rows(pu, u_pk), polyval_rows(qu, u_pk)
         peak2 = p_pk / q_pk
         ok &= (_ratio_rows(pu, qu, edges[0]) < peak2) & (_ratio_rows(pu, qu, edges[1]) < peak2)
-        half_peak = 0.5 * peak2
-        half = _poly_sub_rows(pu, [q * half_peak for q in qu])
+        half = _half_power_rows(pu, qu, peak2)
         # 1/2Q from the curvature at the peak: d²|H|²/du² = S'/Q², and a second-order band-pass
         # has |H|²(u0 ± Δu) ≈ ½|H|²(u0) with Δu² = −2|H|²/(d²|H|²/du²) = u0²/Q² (derived, sympy)
         t = np.sqrt(-2.0 * p_pk * q_pk / ds) / (2.0 * u_pk)

@@ -12,9 +12,8 @@ import numpy as np
 from bandsmith.solver.expansion import Variable
 from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import nominal_w_ref
 from bandsmith.spread.spread_settings import MAX_CORNER_PARTS, SpreadSettings
-from bandsmith.spread.evaluator import Evaluator, nominal_figures, setup_spread
+from bandsmith.spread.evaluator import Evaluator, prepare_spread
 
 __all__ = ["WorstCase", "worst_case", "worst_of"]
 
@@ -112,7 +111,5 @@ def worst_of(ev: Evaluator, tol: Mapping[str, float], parts: list[Variable], gbw
 
 def worst_case(netlist: Netlist, settings: SpreadSettings = SpreadSettings(), *, opamp: OpAmpModel = IDEAL, engine: str = "auto") -> WorstCase:
     """The worst case alone (every corner of the tolerance box, or the sensitivity corners)."""
-    tol, parts, _ = setup_spread(netlist, settings, opamp)
-    w_ref = nominal_w_ref(netlist)
-    ev = Evaluator(netlist, opamp, w_ref, nominal_figures(netlist, opamp, w_ref), engine)
-    return worst_of(ev, tol, parts, settings.gbw_tol)  # setup_spread refused a spread GBW of an ideal op-amp
+    prep = prepare_spread(netlist, settings, opamp, engine)
+    return worst_of(prep.evaluator, prep.tolerances, prep.parts, settings.gbw_tol)  # setup_spread refused a spread GBW of an ideal op-amp

@@ -28,9 +28,9 @@ from bandsmith.common.values import format_value, parse_positive
 from bandsmith.app.document.extras_board import BOARD_KEY, BoardSettings, board_of, ohm, part_value, stored_board
 from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
-from bandsmith.app.window.panes.spread_pane import CandidatePicker
+from bandsmith.app.window.panes.spread_pane import candidate_bar, follow_candidate
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import MUTED, error_label, fit_columns
+from bandsmith.app.window.theme import MUTED, error_label, fit_columns, note_label, section_title
 
 __all__ = ["BoardPane", "install"]
 
@@ -81,12 +81,6 @@ def _fit(table: QtWidgets.QTableWidget) -> None:
     table.setFixedHeight(h + bar if table.width() < w else h)
 
 
-def _title(parent, text: str) -> QtWidgets.QLabel:
-    t = QtWidgets.QLabel(text, parent)
-    t.setObjectName("sectionTitle")
-    return t
-
-
 class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
     """Single-supply bias and the trim plan of the selected candidate.
 
@@ -128,16 +122,11 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         outer.addLayout(self.body)
         outer.addStretch(1)
 
-        state.session_changed.connect(self._on_session_changed)
-        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
-        self._on_session_changed(state.session)
+        follow_candidate(state, self._on_session_changed)
 
     # ------------------------------------------------------------------ building
     def _build_form(self, outer: QtWidgets.QVBoxLayout) -> None:
-        bar = QtWidgets.QHBoxLayout()
-        bar.addWidget(QtWidgets.QLabel("Candidate", self))
-        self.picker = CandidatePicker(self.state, self)
-        bar.addWidget(self.picker)
+        bar, self.picker = candidate_bar(self.state, self)
         bar.addSpacing(16)
         bar.addWidget(QtWidgets.QLabel("Supply", self))
         self.supply_edit = QtWidgets.QLineEdit(self)
@@ -166,16 +155,13 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         bar.addWidget(self.measured_edit)
         bar.addStretch(1)
         outer.addLayout(bar)
-        self.info = QtWidgets.QLabel(self)
-        self.info.setObjectName("boardInfo")
-        self.info.setStyleSheet(f"color: {MUTED};")
-        self.info.setWordWrap(True)
+        self.info = note_label(self, "boardInfo")
         outer.addWidget(self.info)
 
     def _build_bias(self, inner: QtWidgets.QWidget) -> None:
         col = QtWidgets.QVBoxLayout()
         col.setSpacing(4)
-        col.addWidget(_title(inner, "Bias on a single supply"))
+        col.addWidget(section_title(inner, "Bias on a single supply"))
         row = QtWidgets.QHBoxLayout()
         row.setSpacing(10)
         self.reference_table = _table(inner, "boardReferenceTable", ["reference", "value"])
@@ -197,10 +183,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
         row.addLayout(right)
         row.addStretch(1)
         col.addLayout(row)
-        self.notes = QtWidgets.QLabel(inner)
-        self.notes.setObjectName("boardNotes")
-        self.notes.setWordWrap(True)
-        self.notes.setStyleSheet(f"color: {MUTED};")
+        self.notes = note_label(inner, "boardNotes")
         col.addWidget(self.notes)
         col.addStretch(1)
         self.body.addLayout(col, 1)
@@ -208,7 +191,7 @@ class BoardPane(RecomputeWhenShown, QtWidgets.QWidget):
     def _build_trim(self, inner: QtWidgets.QWidget) -> None:
         col = QtWidgets.QVBoxLayout()
         col.setSpacing(4)
-        col.addWidget(_title(inner, "Trim plan"))
+        col.addWidget(section_title(inner, "Trim plan"))
         self.trim_table = _table(
             inner, "boardTrim", ["figure", "part", "interaction", "fixed", "trimmer", "range", "resolution"],
             ["", "The resistor made adjustable", "Its largest effect on the other figures, relative to this one",

@@ -43,7 +43,7 @@ from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.chain_controller import ChainController
 from bandsmith.app.window.panes.chain_form import ChainForm
 from bandsmith.app.window.panes.chain_view import ChainView, first_clause, summary_html
-from bandsmith.app.window.theme import BAD, MUTED
+from bandsmith.app.window.theme import BAD, MUTED, section_title, selectable_label
 
 __all__ = ["EXTRAS_KEY", "ChainPane", "chain_conditions", "saved_chains", "install"]
 
@@ -114,8 +114,7 @@ class ChainPane(RecomputeWhenShown, QtWidgets.QWidget):
     # ------------------------------------------------------------------ building
     def _build_header(self) -> QtWidgets.QHBoxLayout:
         bar = QtWidgets.QHBoxLayout()
-        label = QtWidgets.QLabel("Chain", self)
-        label.setObjectName("sectionTitle")
+        label = section_title(self, "Chain")
         bar.addWidget(label)
         self.chain_combo = QtWidgets.QComboBox(self)
         self.chain_combo.setObjectName("chainChoice")
@@ -163,18 +162,10 @@ class ChainPane(RecomputeWhenShown, QtWidgets.QWidget):
             setattr(self, name, getattr(self.form, name))
         lay.addWidget(self.form)
 
-        self.summary = QtWidgets.QLabel(inner)
-        self.summary.setObjectName("chainSummary")
-        self.summary.setWordWrap(True)
-        self.summary.setTextFormat(QtCore.Qt.TextFormat.RichText)
-        self.summary.setTextInteractionFlags(QtCore.Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.summary = selectable_label(inner, "chainSummary", rich=True)
         self.summary.setAlignment(QtCore.Qt.AlignmentFlag.AlignTop | QtCore.Qt.AlignmentFlag.AlignLeft)
         lay.addWidget(self.summary)
-        self.messages = QtWidgets.QLabel(inner)
-        self.messages.setObjectName("chainMessages")
-        self.messages.setWordWrap(True)
-        self.messages.setTextFormat(QtCore.Qt.TextFormat.RichText)
-        self.messages.setTextInteractionFlags(QtCore.Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.messages = selectable_label(inner, "chainMessages", rich=True)
         lay.addWidget(self.messages)
         lay.addStretch(1)
         scroll.setWidget(inner)

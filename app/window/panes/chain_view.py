@@ -21,7 +21,7 @@ from bandsmith.common.values import format_value
 
 from bandsmith.app.plots.chain_plots import ChainPlots
 from bandsmith.app.plots.chain_text import response_title
-from bandsmith.app.window.theme import BAD, GOOD, MUTED, WARN, candidate_style
+from bandsmith.app.window.theme import BAD, GOOD, MUTED, WARN, candidate_style, section_title
 
 __all__ = ["ChainView", "summary_html", "stage_detail_html", "first_clause"]
 
@@ -193,8 +193,7 @@ class ChainView(QtWidgets.QSplitter):
         bl = QtWidgets.QVBoxLayout(bottom)
         bl.setContentsMargins(0, 2, 0, 0)
         bl.setSpacing(2)
-        t = QtWidgets.QLabel("Stages in signal order — pick a circuit to rebuild one stage; select a row for its details", bottom)
-        t.setObjectName("sectionTitle")
+        t = section_title(bottom, "Stages in signal order — pick a circuit to rebuild one stage; select a row for its details")
         bl.addWidget(t)
         self.stage_table = QtWidgets.QTableWidget(0, 8, bottom)
         self.stage_table.setObjectName("chainStages")

@@ -38,7 +38,7 @@ from bandsmith.bench.measured import (
 from bandsmith.common.values import format_value
 
 from bandsmith.app.window.widgets.plots import LogAxis
-from bandsmith.app.window.theme import fit_columns
+from bandsmith.app.window.theme import fit_columns, selectable_label
 
 if TYPE_CHECKING:
     from bandsmith.bench.diagnose import Diagnosis
@@ -202,10 +202,7 @@ class MeasurementPane(QtWidgets.QWidget):
         fit_columns(self.figures)
         self.figures.setMaximumHeight(120)
         left.addWidget(self.figures)
-        self.summary = QtWidgets.QLabel("", self)
-        self.summary.setObjectName("diagnosisSummary")
-        self.summary.setWordWrap(True)
-        self.summary.setTextInteractionFlags(QtCore.Qt.TextInteractionFlag.TextSelectableByMouse)
+        self.summary = selectable_label(self, "diagnosisSummary")
         left.addWidget(self.summary)
         # One above the other: side by side, at a laptop's width, their headers were cut.
         tables = QtWidgets.QVBoxLayout()

@@ -35,9 +35,9 @@ from bandsmith.app.document.extras_settings import NOISE_KEY, stored_noise
 from bandsmith.app.document.extras_shelf import chosen_amp
 from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
-from bandsmith.app.window.panes.spread_pane import CandidatePicker, candidate_circuit, winding_text
+from bandsmith.app.window.panes.spread_pane import WindingLine, candidate_bar, candidate_circuit, follow_candidate, winding_text
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import INK, MUTED, error_label, headline
+from bandsmith.app.window.theme import INK, MUTED, error_label, headline, note_label, section_title, settings_group
 from bandsmith.app.window.widgets.value_field import ValueField
 
 __all__ = ["NoisePane", "SOURCE_COLOURS", "install"]
@@ -174,35 +174,20 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         self._build_plot(outer)
         self._build_source_table()
 
-        state.session_changed.connect(self._on_session_changed)
-        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
-        self._on_session_changed(state.session)
+        follow_candidate(state, self._on_session_changed)
 
     def _build_header(self, outer: QtWidgets.QVBoxLayout) -> None:
         """The candidate picker with its one-line description, and the inductor winding's line."""
-        bar = QtWidgets.QHBoxLayout()
-        bar.addWidget(QtWidgets.QLabel("Candidate", self))
-        self.picker = CandidatePicker(self.state, self)
-        bar.addWidget(self.picker)
-        self.info = QtWidgets.QLabel(self)
-        self.info.setObjectName("noiseInfo")
-        self.info.setStyleSheet(f"color: {MUTED};")
-        self.info.setWordWrap(True)
+        bar, self.picker = candidate_bar(self.state, self)
+        self.info = note_label(self, "noiseInfo")
         bar.addWidget(self.info, 1)
         outer.addLayout(bar)
-        self.winding = QtWidgets.QLabel(self)
-        self.winding.setObjectName("windingLine")
-        self.winding.setWordWrap(True)
-        self.winding.hide()
+        self.winding = WindingLine(self)
         outer.addWidget(self.winding)
 
     def _build_settings(self, outer: QtWidgets.QVBoxLayout) -> None:
         """The group of noise settings: en, in, temperature and the integration band."""
-        box = QtWidgets.QGroupBox("Noise sources and band", self)
-        box.setObjectName("noiseSettings")
-        grid = QtWidgets.QGridLayout(box)
-        grid.setHorizontalSpacing(6)
-        grid.setVerticalSpacing(3)
+        box, grid = settings_group(self, "Noise sources and band", "noiseSettings")
         self.fields: dict[str, ValueField] = {}
         self.fields["en"] = ValueField(
             "en", "V/√Hz", parse=lambda t: self._checked(en_v_per_rthz=_parse_en(t)), fmt=lambda v: "" if v is None else _nv(v),
@@ -297,8 +282,7 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
     def _build_source_table(self) -> None:
         """The table of sources, largest first, and the line naming the largest (beside the plot)."""
         tcol = QtWidgets.QVBoxLayout()
-        t = QtWidgets.QLabel("Sources, largest first", self)
-        t.setObjectName("sectionTitle")
+        t = section_title(self, "Sources, largest first")
         tcol.addWidget(t)
         self.table = QtWidgets.QTableWidget(0, 4, self)
         self.table.setObjectName("noiseSources")
@@ -416,9 +400,7 @@ class NoisePane(RecomputeWhenShown, QtWidgets.QWidget):
         key = (entry.topology_id, tuple(sorted(entry.values.items())), opamp, s, vin)
         if key != self._key:
             self._key = key
-            text = winding_text(net, opamp)
-            self.winding.setText(text)
-            self.winding.setVisible(bool(text))
+            self.winding.show_text(winding_text(net, opamp))
             try:
                 self.result = output_noise(net, s, opamp=opamp, vin_v=vin)
                 f0 = self.result.f0_hz

@@ -40,7 +40,7 @@ from bandsmith.common.values import format_value, parse_positive
 from bandsmith.app.window.panes.shelf_model import EDITOR_COLUMNS, EDITOR_TIPS, ShelfModel, cell_text, read_cell
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import BAD, GOOD, error_label
+from bandsmith.app.window.theme import BAD, GOOD, error_label, section_title
 from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.widgets.value_field import ValueField
 from bandsmith.app.window.widgets.verdict_strip import VERDICT_LOOK
@@ -193,9 +193,7 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
 
     def _build_verdict_table(self, left: QtWidgets.QWidget, ll: QtWidgets.QVBoxLayout) -> None:
         """The verdict board: one row per shelf model, one column per active candidate."""
-        t = QtWidgets.QLabel("Verdicts — op-amps on the shelf against each active candidate (click one to see it)", left)
-        t.setObjectName("sectionTitle")
-        t.setWordWrap(True)
+        t = section_title(left, "Verdicts — op-amps on the shelf against each active candidate (click one to see it)", wrap=True)
         ll.addWidget(t)
         self.verdicts = QtWidgets.QTableWidget(left)
         self.verdicts.setObjectName("verdicts")
@@ -209,9 +207,7 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
 
     def _build_shelf_editor(self, left: QtWidgets.QWidget, ll: QtWidgets.QVBoxLayout) -> None:
         """The shelf editor (one row per model, every figure editable) and its error line."""
-        t = QtWidgets.QLabel("Shelf — your op-amp models (edit a cell; type values as 10M, 200k, 0.5)", left)
-        t.setObjectName("sectionTitle")
-        t.setWordWrap(True)
+        t = section_title(left, "Shelf — your op-amp models (edit a cell; type values as 10M, 200k, 0.5)", wrap=True)
         ll.addWidget(t)
         self.editor = QtWidgets.QTableWidget(0, len(EDITOR_COLUMNS), left)
         self.editor.setObjectName("shelfTable")
@@ -287,9 +283,7 @@ class ShelfPane(RecomputeWhenShown, QtWidgets.QWidget):
 
     def _build_headroom(self, right: QtWidgets.QWidget, rl: QtWidgets.QVBoxLayout) -> None:
         """The chosen pair's headroom table, its largest input and the Copy to session button."""
-        t = QtWidgets.QLabel("Headroom at the input level", right)
-        t.setObjectName("sectionTitle")
-        t.setWordWrap(True)
+        t = section_title(right, "Headroom at the input level", wrap=True)
         rl.addWidget(t)
         self.headroom_table = QtWidgets.QTableWidget(0, 5, right)
         self.headroom_table.setObjectName("headroomTable")

@@ -62,10 +62,10 @@ from bandsmith.app.window.panes.spread_view import (
     table_item,
 )
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import MUTED, WARN, error_label
+from bandsmith.app.window.theme import MUTED, WARN, error_label, note_label, section_title, settings_group
 from bandsmith.app.window.widgets.value_field import ValueField
 
-__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
+__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "WindingLine", "candidate_bar", "follow_candidate", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
 
 #: Name of the band the pane shades on the magnitude plot.
 ENVELOPE_KEY = "spread"
@@ -126,6 +126,22 @@ class CandidatePicker(QtWidgets.QComboBox):
         self.state.set_current(self.itemText(index))
 
 
+def candidate_bar(state: WorkbenchState, parent: QtWidgets.QWidget) -> tuple[QtWidgets.QHBoxLayout, CandidatePicker]:
+    """The row a candidate pane starts with: "Candidate" and its :class:`CandidatePicker` (more may follow)."""
+    bar = QtWidgets.QHBoxLayout()
+    bar.addWidget(QtWidgets.QLabel("Candidate", parent))
+    picker = CandidatePicker(state, parent)
+    bar.addWidget(picker)
+    return bar, picker
+
+
+def follow_candidate(state: WorkbenchState, on_change: Callable) -> None:
+    """Call ``on_change(session)`` now and whenever the session or the board's current candidate changes."""
+    state.session_changed.connect(on_change)
+    state.current_changed.connect(lambda _c: on_change(state.session))
+    on_change(state.session)
+
+
 def candidate_circuit(state: WorkbenchState, cid: str | None) -> tuple[Netlist, OpAmpModel] | None:
     """The netlist and op-amp of an active candidate, or None (no candidate, or unusable values)."""
     if not cid:
@@ -157,6 +173,22 @@ def winding_text(netlist: Netlist, opamp: OpAmpModel) -> str:
                 f"its winding lowers the circuit's Q from {w.q_lossless:.4g} to {w.q:.4g} ({-100.0 * w.q_drop:+.2f} %)."
             )
     return " ".join(lines)
+
+
+class WindingLine(QtWidgets.QLabel):
+    """The line under a pane's candidate chooser that says what the inductor's winding does
+    (:func:`winding_text`); hidden while there is nothing to say."""
+
+    def __init__(self, parent: QtWidgets.QWidget | None = None):
+        super().__init__(parent)
+        self.setObjectName("windingLine")
+        self.setWordWrap(True)
+        self.hide()
+
+    def show_text(self, text: str) -> None:
+        """Show ``text``, or hide the line for an empty one."""
+        self.setText(text)
+        self.setVisible(bool(text))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -242,17 +274,12 @@ class SpreadPane(QtWidgets.QScrollArea):
         self._build_yield(body, outer)
         outer.addStretch(1)
 
-        state.session_changed.connect(self._on_session_changed)
-        state.current_changed.connect(lambda _c: self._on_session_changed(state.session))
-        self._on_session_changed(state.session)
+        follow_candidate(state, self._on_session_changed)
 
     # ------------------------------------------------------------------ building
     def _build_run_bar(self, body: QtWidgets.QWidget, outer: QtWidgets.QVBoxLayout) -> None:
         """The candidate, Run and what the last run was; the inductor's winding line."""
-        bar = QtWidgets.QHBoxLayout()
-        bar.addWidget(QtWidgets.QLabel("Candidate", body))
-        self.picker = CandidatePicker(self.state, body)
-        bar.addWidget(self.picker)
+        bar, self.picker = candidate_bar(self.state, body)
         self.run_button = QtWidgets.QPushButton("Run", body)
         self.run_button.setObjectName("runSpread")
         self.run_button.setToolTip("Draw the trials and find the worst case (off the window's thread; Cancel in the status bar).")
@@ -262,17 +289,11 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.run_button.setMinimumWidth(90)
         self.run_button.clicked.connect(self.run)
         bar.addWidget(self.run_button)
-        self.run_info = QtWidgets.QLabel(body)
-        self.run_info.setObjectName("spreadRunInfo")
-        self.run_info.setStyleSheet(f"color: {MUTED};")
-        self.run_info.setWordWrap(True)
+        self.run_info = note_label(body, "spreadRunInfo")
         bar.addWidget(self.run_info, 1)
         outer.addLayout(bar)
-        self.winding = QtWidgets.QLabel(body)
-        self.winding.setObjectName("windingLine")
-        self.winding.setWordWrap(True)
+        self.winding = WindingLine(body)
         self.winding.setToolTip("The inductor's own quality factor at f0 and what its winding resistance does to the circuit's Q (the spread varies the winding resistance as a resistor).")
-        self.winding.hide()
         outer.addWidget(self.winding)
 
     def _frac_field(self, box: QtWidgets.QWidget, name: str, tip: str, check: Callable[[float], SpreadSettings]) -> ValueField:
@@ -281,11 +302,7 @@ class SpreadPane(QtWidgets.QScrollArea):
 
     def _build_settings_box(self, body: QtWidgets.QWidget) -> QtWidgets.QGroupBox:
         """Tolerances per kind, the GBW spread, the distribution, trials, seed and the yield window."""
-        box = QtWidgets.QGroupBox("Tolerances and trials", body)
-        box.setObjectName("spreadSettings")
-        grid = QtWidgets.QGridLayout(box)
-        grid.setHorizontalSpacing(6)
-        grid.setVerticalSpacing(3)
+        box, grid = settings_group(body, "Tolerances and trials", "spreadSettings")
         self.fields: dict[str, ValueField] = {}
 
         specs = [
@@ -328,8 +345,7 @@ class SpreadPane(QtWidgets.QScrollArea):
 
     def _build_window_rows(self, box: QtWidgets.QGroupBox, grid: QtWidgets.QGridLayout) -> None:
         """The yield window: f0 and Q within ± a fraction, the centre gain within ± some dB."""
-        win = QtWidgets.QLabel("Yield window around nominal", box)
-        win.setObjectName("sectionTitle")
+        win = section_title(box, "Yield window around nominal")
         grid.addWidget(win, 4, 0, 1, 4)
         self.fields["window_f0"] = self._frac_field(box, "window_f0", "A trial passes when its f0 is within ± this of nominal: 5%, 0.05.", lambda v: replace(self.settings, window_f0=v))
         self.fields["window_q"] = self._frac_field(box, "window_q", "… its Q within ± this of nominal: 10%, 0.1.", lambda v: replace(self.settings, window_q=v))
@@ -345,10 +361,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         grid.addWidget(self.fields["window_gain_db"], 6, 1)
         # The yield window is a production window on the spread of built copies; the design
         # tolerances (target strip) judge one design against the target: say how they differ.
-        self.window_note = QtWidgets.QLabel(box)
-        self.window_note.setObjectName("yieldWindowNote")
-        self.window_note.setWordWrap(True)
-        self.window_note.setStyleSheet(f"color: {MUTED};")
+        self.window_note = note_label(box, "yieldWindowNote")
         grid.addWidget(self.window_note, 7, 0, 1, 4)
 
     def _build_parts_box(self, body: QtWidgets.QWidget) -> QtWidgets.QGroupBox:
@@ -464,9 +477,7 @@ class SpreadPane(QtWidgets.QScrollArea):
         self.window_note.setText(window_note(s, self.state.session.tolerances))
         circ = candidate_circuit(self.state, self.picker.candidate_id)
         ideal = circ is None or circ[1].ideal
-        text = winding_text(*circ) if circ is not None else ""
-        self.winding.setText(text)
-        self.winding.setVisible(bool(text))
+        self.winding.show_text(winding_text(*circ) if circ is not None else "")
         gbw = self.fields["gbw_tol"]
         gbw.edit.setEnabled(not ideal)
         gbw.edit.setToolTip(

@@ -8,16 +8,14 @@ worst-case corners of the tolerance box.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from bandsmith.common.values import format_value
 from bandsmith.spread.tolerance import Spread
 
 from bandsmith.app.plots.histogram import HISTOGRAM_FIGURES, FigureHistogram, window_of
-from bandsmith.app.window.theme import BAD, MUTED, headline
+from bandsmith.app.plots.spread_text import count_text, figure_text
+from bandsmith.app.window.theme import BAD, MUTED, headline, note_label, section_title
 
 __all__ = ["SpreadResults", "DIST_TEXT", "count_text", "percent_text", "table_item", "fit_height"]
 
@@ -25,11 +23,6 @@ __all__ = ["SpreadResults", "DIST_TEXT", "count_text", "percent_text", "table_it
 DIST_TEXT = {"uniform": "uniform, ±p", "normal": "normal, p = 3σ"}
 #: Trials the magnitude envelope is taken over (the first ones of the run).
 ENVELOPE_TRIALS = 2000
-
-
-def count_text(n: int) -> str:
-    """A count with its thousands apart: 10 000."""
-    return f"{int(n):,}".replace(",", " ")
 
 
 def percent_text(x: float) -> str:
@@ -71,27 +64,6 @@ def table_item(text: str, *, bold: bool = False, colour: str | None = None, tip:
     return it
 
 
-def _fmt_figure(key: str, x: float) -> str:
-    if not math.isfinite(x):
-        return "—"
-    if key == "f0_hz":
-        return format_value(x, "Hz", digits=5)
-    if key == "q":
-        return f"{x:.4g}"
-    return f"{x:+.3f} dB"
-
-
-def _fmt_spread(key: str, x: float) -> str:
-    """A standard deviation: f0 in Hz, Q plain, gain in dB (no sign)."""
-    if not math.isfinite(x):
-        return "—"
-    if key == "f0_hz":
-        return format_value(x, "Hz", digits=3)
-    if key == "q":
-        return f"{x:.3g}"
-    return f"{x:.3f} dB"
-
-
 class SpreadResults(QtWidgets.QWidget):
     """The yield, the histograms (with the envelope switch ``show_envelope``) and the two tables."""
 
@@ -116,12 +88,7 @@ class SpreadResults(QtWidgets.QWidget):
         self.histograms = {key: FigureHistogram(key, title, unit, body) for key, title, unit in HISTOGRAM_FIGURES}
         self._hist_columns = 0
         self._reflow_histograms(3)
-        key_line = QtWidgets.QLabel(
-            "Shaded green: the yield window. Solid line: nominal. Red dotted: the worst-case corners.", body
-        )
-        key_line.setObjectName("histogramKey")
-        key_line.setStyleSheet(f"color: {MUTED};")
-        key_line.setWordWrap(True)
+        key_line = note_label(body, "histogramKey", "Shaded green: the yield window. Solid line: nominal. Red dotted: the worst-case corners.")
         lay.addWidget(key_line)
         env_row = QtWidgets.QHBoxLayout()
         self.show_envelope = QtWidgets.QCheckBox("Shade the p5–p95 band on the Magnitude plot", body)
@@ -142,8 +109,7 @@ class SpreadResults(QtWidgets.QWidget):
         self.tables_row.setSpacing(12)
         lay.addLayout(self.tables_row)
         scol = QtWidgets.QVBoxLayout()
-        t = QtWidgets.QLabel("Statistics of the trials", body)
-        t.setObjectName("sectionTitle")
+        t = section_title(body, "Statistics of the trials")
         scol.addWidget(t)
         self._stat_rows = ("nominal", "mean", "std", "min", "p5", "p50", "p95", "max", "worst low", "worst high")
         self.stats = _table(len(self._stat_rows), 3, body, "spreadStats")
@@ -154,19 +120,14 @@ class SpreadResults(QtWidgets.QWidget):
         scol.addStretch(1)
         self.tables_row.addLayout(scol, 1)
         wcol = QtWidgets.QVBoxLayout()
-        self.worst_title = QtWidgets.QLabel("Worst case: the corners of the tolerance box", body)
-        self.worst_title.setObjectName("sectionTitle")
-        self.worst_title.setWordWrap(True)
+        self.worst_title = section_title(body, "Worst case: the corners of the tolerance box", wrap=True)
         wcol.addWidget(self.worst_title)
         self.corners = _table(0, 6, body, "worstCorners")
         self.corners.setHorizontalHeaderLabels(["f0 low", "f0 high", "Q low", "Q high", "gain low", "gain high"])
         self.corners.horizontalHeader().setSectionResizeMode(QtWidgets.QHeaderView.ResizeMode.Stretch)
         self.corners.setToolTip("Each column is one corner: the deviation of every part (and the GBW) that gives that extreme.")
         wcol.addWidget(self.corners)
-        self.worst_note = QtWidgets.QLabel(body)
-        self.worst_note.setObjectName("worstNote")
-        self.worst_note.setWordWrap(True)
-        self.worst_note.setStyleSheet(f"color: {MUTED};")
+        self.worst_note = note_label(body, "worstNote")
         wcol.addWidget(self.worst_note)
         wcol.addStretch(1)
         self.tables_row.addLayout(wcol, 1)
@@ -216,7 +177,7 @@ class SpreadResults(QtWidgets.QWidget):
             lo, hi = getattr(sp.worst, key)
             vals = [float(getattr(nom, key)), st["mean"], st["std"], st["min"], st["p5"], st["p50"], st["p95"], st["max"], lo, hi]
             for i, v in enumerate(vals):
-                text = _fmt_spread(key, v) if self._stat_rows[i] == "std" else _fmt_figure(key, v)
+                text = figure_text(key, v, deviation=self._stat_rows[i] == "std")
                 self.stats.setItem(i, j, table_item(text, bold=self._stat_rows[i].startswith("worst"), colour=BAD if self._stat_rows[i].startswith("worst") else None))
 
     def _fill_corners(self, sp: Spread) -> None:
@@ -239,7 +200,7 @@ class SpreadResults(QtWidgets.QWidget):
             for side in (0, 1):
                 corner = lo_hi[side]
                 head = self.corners.horizontalHeaderItem(col)
-                head.setToolTip(f"{'lowest' if side == 0 else 'highest'} {key.split('_')[0]}: {_fmt_figure(key, ext[side])}")
+                head.setToolTip(f"{'lowest' if side == 0 else 'highest'} {key.split('_')[0]}: {figure_text(key, ext[side])}")
                 for r, n in enumerate(names):
                     d = corner.get(n)
                     text = "" if d is None else (f"+{percent_text(d)}" if d > 0 else f"−{percent_text(-d)}")

@@ -20,7 +20,7 @@ from bandsmith.common.values import format_value, parse_nonnegative, parse_posit
 
 from bandsmith.app.document.results import CandidateResult, target_errors
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import BAD, GOOD, WARN, CandidateStyle, error_label
+from bandsmith.app.window.theme import BAD, GOOD, WARN, CandidateStyle, error_label, section_title
 from bandsmith.app.window.widgets.candidate_verdict import VerdictBadge, VerdictDetails, set_pinned_text
 from bandsmith.app.window.widgets.value_field import ValueField
 from bandsmith.app.window.widgets.verdict_strip import VerdictStrip
@@ -150,8 +150,7 @@ class CandidateColumn(QtWidgets.QFrame):
     def _build_snap_row(self, lay: QtWidgets.QVBoxLayout) -> None:
         """The Parts title and the series the parts are snapped to."""
         snap_row = QtWidgets.QHBoxLayout()
-        lab = QtWidgets.QLabel("Parts", self)
-        lab.setObjectName("sectionTitle")
+        lab = section_title(self, "Parts")
         snap_row.addWidget(lab)
         snap_row.addStretch(1)
         self.snap = QtWidgets.QComboBox(self)
@@ -197,8 +196,7 @@ class CandidateColumn(QtWidgets.QFrame):
 
     def _build_figures(self, lay: QtWidgets.QVBoxLayout) -> None:
         """The achieved figures against the target."""
-        self.figures_title = QtWidgets.QLabel("Achieved", self)
-        self.figures_title.setObjectName("sectionTitle")
+        self.figures_title = section_title(self, "Achieved")
         lay.addWidget(self.figures_title)
         self.figures = QtWidgets.QLabel(self)
         self.figures.setObjectName("figures")
@@ -208,8 +206,7 @@ class CandidateColumn(QtWidgets.QFrame):
 
     def _build_needs(self, lay: QtWidgets.QVBoxLayout) -> None:
         """What the op-amp must offer: GBW in large type, then slew rate, current and output swing."""
-        needs_title = QtWidgets.QLabel("Amplifier needs", self)
-        needs_title.setObjectName("sectionTitle")
+        needs_title = section_title(self, "Amplifier needs")
         lay.addWidget(needs_title)
         self.need_gbw = QtWidgets.QLabel(self)
         self.need_gbw.setObjectName("needBig")

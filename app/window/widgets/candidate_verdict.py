@@ -17,7 +17,7 @@ from PySide6 import QtCore, QtWidgets
 
 from bandsmith.app.document.comparison import comparison_of
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import INK, MUTED
+from bandsmith.app.window.theme import INK, MUTED, section_title
 from bandsmith.app.window.widgets.comparison_table import RECOMMENDED_MARK, VERDICT_LOOK
 
 __all__ = ["VerdictBadge", "VerdictDetails", "SENSITIVITY_COLUMNS"]
@@ -107,19 +107,16 @@ class VerdictDetails(QtWidgets.QWidget):
         lay = QtWidgets.QVBoxLayout(self)
         lay.setContentsMargins(0, 0, 0, 0)
         lay.setSpacing(2)
-        title = QtWidgets.QLabel("Why this verdict", self)
-        title.setObjectName("sectionTitle")
+        title = section_title(self, "Why this verdict")
         lay.addWidget(title)
         self.reasons = self._text("verdictReasons")
         lay.addWidget(self.reasons)
-        notes_title = QtWidgets.QLabel("Design notes", self)
-        notes_title.setObjectName("sectionTitle")
+        notes_title = section_title(self, "Design notes")
         lay.addWidget(notes_title)
         self.notes = self._text("designNotes")
         self.notes.setStyleSheet(f"color: {MUTED};")
         lay.addWidget(self.notes)
-        self.sens_title = QtWidgets.QLabel("Sensitivities", self)
-        self.sens_title.setObjectName("sectionTitle")
+        self.sens_title = section_title(self, "Sensitivities")
         self.sens_title.setToolTip("Sensitivities of the selected candidate, S = ∂ln(figure)/∂ln(part): a part 1 % high moves the figure by about S %. Bold: |S| ≥ 1.")
         lay.addWidget(self.sens_title)
         self.sensitivities = QtWidgets.QTableWidget(0, len(SENSITIVITY_COLUMNS), self)

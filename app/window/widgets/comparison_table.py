@@ -22,15 +22,16 @@ from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE
 
 from bandsmith.app.document.comparison import CandidateJudgement, SessionComparison, comparison_of
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import BAD, GOOD, INK, MUTED, WARN
+from bandsmith.app.plots.status import VERDICT_MARKS
+from bandsmith.app.window.theme import BAD, GOOD, INK, MUTED, WARN, section_title
 
 __all__ = ["VERDICT_LOOK", "verdict_text", "ComparisonTable", "COLUMNS", "MAX_ROWS", "RECOMMENDED_MARK"]
 
-#: Symbol, text colour and a light ground of each verdict (the symbol carries it without colour).
+#: Symbol, text colour (:data:`~bandsmith.app.plots.status.VERDICT_MARKS`) and a light ground of each verdict.
 VERDICT_LOOK = {
-    BUILDABLE: ("●", GOOD, "#e5f3e8"),
-    MARGINAL: ("◐", WARN, "#fbf0dc"),
-    NOT_BUILDABLE: ("✕", BAD, "#fbe6e5"),
+    BUILDABLE: (*VERDICT_MARKS[BUILDABLE], "#e5f3e8"),
+    MARGINAL: (*VERDICT_MARKS[MARGINAL], "#fbf0dc"),
+    NOT_BUILDABLE: (*VERDICT_MARKS[NOT_BUILDABLE], "#fbe6e5"),
 }
 RECOMMENDED_MARK = "★"
 MAX_ROWS = 8
@@ -113,8 +114,7 @@ class ComparisonTable(QtWidgets.QWidget):
         side = QtWidgets.QVBoxLayout()
         side.setSpacing(2)
         head = QtWidgets.QHBoxLayout()
-        self.title = QtWidgets.QLabel("Which to build", self)
-        self.title.setObjectName("sectionTitle")
+        self.title = section_title(self, "Which to build")
         self.limits_button = QtWidgets.QToolButton(self)
         self.limits_button.setObjectName("verdictLimits")
         self.limits_button.setText("Limits…")
@@ -182,7 +182,7 @@ class ComparisonTable(QtWidgets.QWidget):
         if comp.recommended is not None:
             colour, lead = GOOD, f"{RECOMMENDED_MARK} Recommended: "
         else:
-            colour, lead = BAD, "✕ Nothing to recommend: "
+            colour, lead = BAD, f"{VERDICT_MARKS[NOT_BUILDABLE][0]} Nothing to recommend: "
         reason = comp.reason.replace("&", "&amp;").replace("<", "&lt;")
         with_what = "ideal op-amp" if comp.figures_with is None else f"figures with the {format_value(comp.figures_with, 'Hz')} op-amp"
         text = f'<span style="color:{colour}; font-weight:600">{lead}</span>{reason} <span style="color:{MUTED}">({with_what})</span>'

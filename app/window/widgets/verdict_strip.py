@@ -21,16 +21,17 @@ from PySide6 import QtCore, QtGui, QtWidgets
 from bandsmith.bench.fitcheck import DOES_NOT_FIT, FITS, MARGINAL
 from bandsmith.common.values import format_value
 
-from bandsmith.app.window.theme import BAD, GOOD, MUTED, WARN
+from bandsmith.app.plots.status import FIT_MARKS
+from bandsmith.app.window.theme import BAD, GOOD, MUTED, section_title
 from bandsmith.app.window.verdicts import VerdictBook, verdict_tooltip
 
 __all__ = ["VerdictStrip", "VerdictRow", "VERDICT_LOOK"]
 
-# Verdict → (symbol, text colour, tint); the word is always shown beside the colour.
+# Verdict → (symbol, text colour (:data:`~bandsmith.app.plots.status.FIT_MARKS`), tint); the word is always shown beside the colour.
 VERDICT_LOOK = {
-    FITS: ("✓", GOOD, "#e3f2e7"),
-    MARGINAL: ("◐", WARN, "#fbefd9"),
-    DOES_NOT_FIT: ("✗", BAD, "#f8e0e0"),
+    FITS: (*FIT_MARKS[FITS], "#e3f2e7"),
+    MARGINAL: (*FIT_MARKS[MARGINAL], "#fbefd9"),
+    DOES_NOT_FIT: (*FIT_MARKS[DOES_NOT_FIT], "#f8e0e0"),
 }
 _PENDING = ("…", "#5f6368", "#eeeeea")
 
@@ -122,8 +123,7 @@ class VerdictStrip(QtWidgets.QWidget):
         lay.setContentsMargins(0, 0, 0, 0)
         lay.setSpacing(1)
         head = QtWidgets.QHBoxLayout()
-        title = QtWidgets.QLabel("Op-amps on the shelf", self)
-        title.setObjectName("sectionTitle")
+        title = section_title(self, "Op-amps on the shelf")
         title.setToolTip("Each shelf model against this candidate at the session's input level and supply.\n"
                          "Click one to draw the candidate with it on the plots and see its headroom.")
         self.status = QtWidgets.QLabel(self)
