@@ -67,7 +67,7 @@ class Figures:
         """A copy with the members at ``index`` (an index array) replaced by ``other``'s, in order."""
         out = []
         for name in _FIELDS:
-            v = np.array(getattr(self, name))
+            v = np.array(getattr(self, name), dtype=float)
             v[index] = getattr(other, name)
             out.append(v)
         return Figures(*out)

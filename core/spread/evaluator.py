@@ -32,15 +32,6 @@ _GRID_POINTS = 49  # points of the search grid each trial is measured on
 _WIDE_CHUNK = 256  # members measured together by the global search
 
 
-def _put(fig: Figures, idx: np.ndarray, part: Figures) -> Figures:
-    out = {}
-    for f in fields(Figures):
-        a = np.array(getattr(fig, f.name), dtype=float)
-        a[idx] = getattr(part, f.name)
-        out[f.name] = a
-    return Figures(**out)
-
-
 def _measure_wide(h: Rational) -> Figures:
     """:func:`measure` with its default (global) search, a few hundred members at a time."""
     parts = []
@@ -136,7 +127,7 @@ class Evaluator:
         idx = np.flatnonzero((~fig.valid | off | ~ok_est) & live)
         if idx.size:
             wide = _measure_wide(Rational(np.stack(num, axis=1)[idx], np.stack(den, axis=1)[idx], w[idx]))
-            fig = _put(fig, idx, wide)
+            fig = fig.put(idx, wide)
         return fig, stable & fig.valid
 
     def _estimates(self, ratios: np.ndarray):
@@ -186,7 +177,7 @@ class Evaluator:
         idx = np.flatnonzero(redo)
         if idx.size:
             wide = _measure_wide(h.take(idx))
-            fig = _put(fig, idx, wide)
+            fig = fig.put(idx, wide)
         return fig
 
 
