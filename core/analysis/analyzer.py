@@ -398,28 +398,33 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     None where the expansion does not apply (no op-amp, or a part the expansion does not
     carry).
 
-    With several op-amps the ideal members come from the ideal-op-amp expansion and the
-    :class:`~bandsmith.solver.rational.AmpFamily` from the nominal circuit's sampled pencil (the
-    expansion with the op-amp's stamps would carry ``(m + 1)²`` times the integer points)."""
-    if len(netlist.opamps) > 1:
-        return _first_pass_expanded_multi(netlist, refs, n_ideal, w_ref)
-    if len(netlist.opamps) != 1:
+    With one op-amp the expansion carries its stamps, and one more member (``1/ωt = 1``) gives
+    the :class:`~bandsmith.solver.rational.OpAmpFamily`; with several the ideal members come from
+    the ideal-op-amp expansion and the :class:`~bandsmith.solver.rational.AmpFamily` from the
+    nominal circuit's sampled pencil (the expansion with the op-amps' stamps would carry
+    ``(m + 1)²`` times the integer points)."""
+    one = len(netlist.opamps) == 1
+    if not netlist.opamps:
         return None
     try:
-        exp, variables = unit_expansion(netlist, _UNIT_AMP)
+        exp, variables = unit_expansion(netlist, _UNIT_AMP) if one else unit_expansion(netlist)
     except ExpansionUnavailable:
         return None
     col = {name: j for j, name in enumerate(exp.names)}
     if any(r not in col for r in refs):
         return None
-    # unit nominal values: the ratios are the values (the op-amp's are 1: stamps of 1); member
+    # unit nominal values: the ratios are the values (an op-amp's are 1: stamps of 1); member
     # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
-    lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal + 1, 1))
+    rows = n_ideal + 1 if one else n_ideal
+    lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (rows, 1))
     cols = [col[r] for r in refs]
-    rows = np.arange(len(refs))
-    lr[1 + 2 * rows, cols] += SENS_STEP
-    lr[2 + 2 * rows, cols] -= SENS_STEP
-    num, den = exp.dense_log(lr, absent=_absent_mask(n_ideal + 1, len(variables), col["gbw"], col["a0"]))
+    parts = np.arange(len(refs))
+    lr[1 + 2 * parts, cols] += SENS_STEP
+    lr[2 + 2 * parts, cols] -= SENS_STEP
+    if one:
+        num, den = exp.dense_log(lr, absent=_absent_mask(rows, len(variables), col["gbw"], col["a0"]))
+    else:
+        num, den = exp.dense_log(lr)
     # in p = s (the unit expansion), highest power first
     d0 = den[0]
     nz = np.flatnonzero(d0)
@@ -427,48 +432,22 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
         return None
     if w_ref is None:  # geometric mean of the finite, nonzero poles (bandsmith.solver.rational.reference_w)
         w_ref = float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0])))
-    # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
-    m_s = np.zeros(den.shape[1])
-    m_s[1:] = (d0 - den[n_ideal])[:-1]
     to_p = w_ref ** np.arange(den.shape[1] - 1, -1, -1.0)  # c·s^k = c·w_ref^k·p^k
     den_p = den[:n_ideal] * to_p
     num_p = num[:n_ideal] * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
     scale = np.abs(den_p).max(axis=1, keepdims=True)
     h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
+    if not one:
+        return float(w_ref), h, amp_family(nominal_system(netlist), float(w_ref))
+    # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
+    m_s = np.zeros(den.shape[1])
+    m_s[1:] = (d0 - den[n_ideal])[:-1]
     s0 = scale[0, 0]
     family = OpAmpFamily(
         _lead_trim(num_p[:1] / s0)[0], _lead_trim(den_p[:1] / s0)[0], _lead_trim((m_s * to_p)[None, :] / s0)[0],
         float(w_ref),
     )
     return float(w_ref), h, family
-
-
-def _first_pass_expanded_multi(netlist, refs, n_ideal, w_ref):
-    """:func:`_first_pass_expanded` for several op-amps: ``(w_ref, h, family)`` or None."""
-    try:
-        exp, variables = unit_expansion(netlist)
-    except ExpansionUnavailable:
-        return None
-    col = {name: j for j, name in enumerate(exp.names)}
-    if any(r not in col for r in refs):
-        return None
-    lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (n_ideal, 1))
-    cols = [col[r] for r in refs]
-    rows = np.arange(len(refs))
-    lr[1 + 2 * rows, cols] += SENS_STEP
-    lr[2 + 2 * rows, cols] -= SENS_STEP
-    num, den = exp.dense_log(lr)  # in p = s, highest power first
-    d0 = den[0]
-    nz = np.flatnonzero(d0)
-    if nz.size < 2 or not np.isfinite(den).all():
-        return None
-    if w_ref is None:  # geometric mean of the finite, nonzero poles (bandsmith.solver.rational.reference_w)
-        w_ref = float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0])))
-    den_p = den * w_ref ** np.arange(den.shape[1] - 1, -1, -1.0)  # c·s^k = c·w_ref^k·p^k
-    num_p = num * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
-    scale = np.abs(den_p).max(axis=1, keepdims=True)
-    h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
-    return float(w_ref), h, amp_family(nominal_system(netlist), float(w_ref))
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:
