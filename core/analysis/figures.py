@@ -307,7 +307,9 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
     unless the peak found is the only one: unless ``P'Q − PQ'`` has one sign change in its
     coefficients, so that by Descartes' rule of signs ``|H|²`` has one stationary point in
     ``u > 0`` (then the peak is the highest and each half-power point the only one on its side,
-    exactly what :func:`measure` finds).
+    exactly what :func:`measure` finds); the band edges then start from the peak found, a
+    Lorentzian's half-width from it by the curvature there, which holds a band far wider or
+    narrower than ``ref``'s.
     """
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         return _measure_near(h, ref, spread, only_peak)
