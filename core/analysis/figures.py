@@ -30,7 +30,7 @@ import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
-from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
+from bandsmith.solver.rational import Rational, pad_rows, polyder_batch, polyval_batch
 
 __all__ = ["Figures", "measure", "measure_many", "measure_near", "measure_from", "biquad_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
            "CLOSED_FORM_FROM"]
@@ -353,12 +353,7 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
 
 def _second_derivatives(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
     """``P``, ``Q``, ``P''`` and ``Q''`` stacked as one batch (padded to one length): ``(4B, k)``."""
-    rows = [pu, qu, polyder_batch(polyder_batch(pu)), polyder_batch(polyder_batch(qu))]
-    k = max(r.shape[1] for r in rows)
-    out = np.zeros((4 * pu.shape[0], k))
-    for i, r in enumerate(rows):
-        out[i * pu.shape[0] : (i + 1) * pu.shape[0], k - r.shape[1] :] = r
-    return out
+    return pad_rows([pu, qu, polyder_batch(polyder_batch(pu)), polyder_batch(polyder_batch(qu))])
 
 
 def _sign_changes(c: np.ndarray) -> np.ndarray:
@@ -390,10 +385,11 @@ _NEWTON_MOST = 40
 def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndarray, np.ndarray]:
     """Newton's method on batched polynomials from ``x0`` (``(B,)`` or broadcastable): the roots
     and a mask of the members that converged (last step below 1e-5 relative, so that the error
-    after it is of order 1e-10) within a factor ``k2`` of their start. Iterates until every
-    member has converged or left that window, testing that after ``first`` steps and then every
-    other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps, and then takes
-    one step more."""
+    after it is of order 1e-10) within a factor ``k2`` of their start. A member is settled at the
+    first test that finds it converged or outside that window, and stepped no more: what becomes
+    of a member does not depend on the rest of the batch. Tests come after ``first`` steps and
+    then every other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps; the
+    converged members then take one step more."""
     b = poly.shape[0]
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
@@ -405,20 +401,24 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     if poly.shape[1] > 1:  # a constant's derivative is zero
         both[b:, 1:] = polyder_batch(poly)
     x = x0
+    done = np.zeros(b, dtype=bool)
+    ok = np.zeros(b, dtype=bool)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         for n in range(1, _NEWTON_MOST + 1):
             v = polyval_batch(both, np.concatenate((x, x)))
             step = v[:b] / v[b:]
-            x = x - step
+            x = np.where(done, x, x - step)
             if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
                 inside = (x >= lo) & (x <= hi)
-                ok = (np.abs(step) <= 1e-5 * np.abs(x)) & inside  # quadratic: ~1e-10 after it
-                if not (inside & ~ok).any():
+                converged = (np.abs(step) <= 1e-5 * np.abs(x)) & inside & ~done  # quadratic: ~1e-10 after it
+                ok |= converged
+                done |= converged | ~inside
+                if done.all():
                     break
         # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which
         # for a band edge is the bandwidth (x/Q); after this step it is rounding
         v = polyval_batch(both, np.concatenate((x, x)))
-        x = x - v[:b] / v[b:]
+        x = np.where(ok, x - v[:b] / v[b:], x)
     return x, ok
 
 
