@@ -20,7 +20,7 @@ import scipy.signal
 from cli_helpers import run_command
 
 from bandsmith.chain import cascade as cascade_mod
-from bandsmith.chain.cascade import ChainSettings, _design, design_cascade, stage_tolerances
+from bandsmith.chain.cascade import ChainSettings, design_cascade, stage_tolerances
 from bandsmith.chain.cascade_json import cascade_json
 from bandsmith.chain.chain_settings import HOLD_SOURCES, STAGE_HOLD, StageHold
 from bandsmith.chain.stage_verdicts import hold_warnings, stage_verdict
@@ -146,6 +146,13 @@ def _old_pick(st):
     if meets:
         return min(meets, key=lambda a: a.gbw_hz).topology_id
     return min(usable, key=lambda a: a.weighted).topology_id
+
+
+def _design(topology_id, plan, series, conditions):
+    """One circuit designed alone for a stage's target."""
+    from bandsmith.design.designer import Spec, design
+
+    return design(topology_id, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
 
 
 def test_auto_no_longer_picks_a_not_buildable_stage():

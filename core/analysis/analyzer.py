@@ -17,7 +17,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass, field, replace
-from typing import Mapping, Sequence
+from typing import Mapping, NamedTuple, Sequence
 
 import numpy as np
 
@@ -161,25 +161,33 @@ class Response:
         return np.degrees(np.unwrap(np.angle(self.h)))
 
 
+class Drive(NamedTuple):
+    """What an analysis's amplifier needs are worked out under (:func:`requirements`)."""
+
+    vin_v: float
+    a0: float
+    rload_ohm: float | None
+    tolerances: Tolerances
+
+
 @dataclass(frozen=True, slots=True)
 class Analysis:
     """One candidate, fully analysed.
 
-    ``gbw_search`` is the required GBW (Hz, None where none serves) and the reason when none
-    does; the amplifiers' needs (:attr:`requirements`) are worked out when first asked for: a
-    chain lists circuits it never looks at that closely.
+    ``required_gbw`` is the required GBW (Hz, None where none serves) and the reason when none
+    does; the amplifiers' needs (:attr:`requirements`) are worked out when first asked for, under
+    ``drive``: a chain lists circuits it never looks at that closely.
     """
 
     netlist: Netlist
     ideal: Figures
     actual: Figures | None
     opamp: OpAmpModel
-    gbw_search: tuple[float | None, str | None]
+    required_gbw: tuple[float | None, str | None]
     sensitivity: Mapping[str, Mapping[str, float]]
     h_ideal: Rational
     h_actual: Rational | None
-    # what requirements() takes besides the above: (vin_v, a0, rload_ohm, tolerances)
-    drive: tuple = field(default=(1.0, DEFAULT_A0, None, Tolerances()), repr=False, compare=False)
+    drive: Drive = field(repr=False, compare=False)
     # the transfer function's dependence on a common single-pole op-amp (None without op-amps or
     # where no family applies): it gives the figures at any GBW without a solve (gbw_error_sweep)
     family: OpAmpFamily | AmpFamily | None = field(default=None, repr=False, compare=False)
@@ -193,10 +201,10 @@ class Analysis:
     def requirements(self) -> Requirements:
         """What the circuit asks of its op-amps (:func:`requirements`; computed when first asked for)."""
         if self._requirements is None:
-            vin_v, a0, rload_ohm, tolerances = self.drive
+            d = self.drive
             object.__setattr__(self, "_requirements", requirements(
-                self.netlist, self.ideal, max_step_slope(self.h_ideal), vin_v=vin_v, a0=a0, rload_ohm=rload_ohm,
-                tolerances=tolerances, gbw_search=self.gbw_search,
+                self.netlist, self.ideal, max_step_slope(self.h_ideal), vin_v=d.vin_v, a0=d.a0, rload_ohm=d.rload_ohm,
+                tolerances=d.tolerances, gbw_search=self.required_gbw,
             ))
         return self._requirements
 
@@ -375,7 +383,7 @@ class _FirstPass:
     h_ideal: Rational
     ideal: Figures
     sensitivity: dict[str, dict[str, float]]
-    family: OpAmpFamily | None
+    family: OpAmpFamily | AmpFamily | None
 
 
 # An op-amp model whose stamps are 1 (``1/A0`` and ``1/ωt``, s-units) for the expansion below.
@@ -586,11 +594,11 @@ def analyze_many(
             ideal=first.ideal,
             actual=actual,
             opamp=opamp if opamp is not None else IDEAL,
-            gbw_search=gbw_search,
+            required_gbw=gbw_search,
             sensitivity=first.sensitivity,
             h_ideal=first.h_ideal,
             h_actual=h_actual,
-            drive=(vin_v, a0, rload_ohm, tolerances),
+            drive=Drive(vin_v, a0, rload_ohm, tolerances),
             family=first.family,
         ))
     return out

@@ -13,13 +13,12 @@ import numpy as np
 
 from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.analysis.tolerances import Tolerances, within_tolerances
-from bandsmith.analysis.transfer import transfer_function
+from bandsmith.analysis.transfer import nominal_system, transfer_function
 from bandsmith.common.limits import DEFAULT_A0
-from bandsmith.solver.mna import build_system
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, rational_and_family
 
-__all__ = ["required_gbw", "search_gbw", "search_gbw_many", "with_gbw"]
+__all__ = ["required_gbw", "search_gbw_many", "with_gbw"]
 
 
 _LADDER_DECADES = (-1.0, 9.0)
@@ -43,39 +42,25 @@ def with_gbw(netlist: Netlist, family: OpAmpFamily | AmpFamily | None, w_ref: fl
     return transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
 
 
-def _gbw_figures(
-    netlist: Netlist, ideal: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float,
-    gbw: np.ndarray, a0: float, tolerances: Tolerances,
-) -> tuple[Rational, Figures]:
-    """Transfer functions and figures along GBW values (Hz) (:func:`_near_figures`)."""
-    h = with_gbw(netlist, family, w_ref, gbw, a0)
-    return h, _near_figures(h, ideal, tolerances)
-
-
 def _near_figures(h: Rational, ideal: Figures, tolerances: Tolerances) -> Figures:
     """Figures sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`): a
     member farther off than about twice the tolerances fails whatever its exact figures are."""
     return measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
 
 
-def search_gbw(
-    netlist: Netlist, ideal: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float, *, a0: float, tolerances: Tolerances,
-    probe: float | None = None,
-) -> tuple[tuple[float | None, str | None], tuple[Rational, Figures] | None]:
-    """The required-GBW search: a coarse ladder, then a fine one in the last failing step.
-
-    With ``probe`` (a GBW in Hz, same ``a0``) it rides along in the coarse batch, and its
-    transfer function and figures are returned too (NaN figures where they are not near the
-    ideal ones: the caller measures them exactly).
-    """
-    return search_gbw_many([(netlist, ideal, family, w_ref, probe)], a0=a0, tolerances=tolerances)[0]
-
-
 def search_gbw_many(
-    items: Sequence[tuple[Netlist, Figures, OpAmpFamily | None, float, float | None]], *, a0: float, tolerances: Tolerances,
+    items: Sequence[tuple[Netlist, Figures, OpAmpFamily | AmpFamily | None, float, float | None]], *, a0: float,
+    tolerances: Tolerances,
 ) -> list[tuple[tuple[float | None, str | None], tuple[Rational, Figures] | None]]:
-    """:func:`_search_gbw` of several candidates ``(netlist, ideal, family, w_ref, probe)``, their
-    coarse ladders measured in one batch (each member near its own candidate's ideal figures)."""
+    """The required-GBW search of several candidates ``(netlist, ideal figures, op-amp family or
+    None, w_ref, probe)``: a coarse ladder for each, all measured in one batch (each member near
+    its own candidate's ideal figures), then a fine ladder in a candidate's last failing step
+    where its coarse one cannot be interpolated.
+
+    Returns, per candidate, ``((gbw_hz or None, reason or None), probe)``: with a ``probe`` (a
+    GBW in Hz, same ``a0``) riding along in the coarse batch, its transfer function and figures
+    (NaN figures where they are not near the ideal ones: the caller measures them exactly).
+    """
     out: list = [((None, "the circuit has no band-pass peak with an ideal op-amp"), None)] * len(items)
     live, hs, refs = [], [], []
     for i, (netlist, ideal, family, w_ref, probe) in enumerate(items):
@@ -167,7 +152,7 @@ def _conclude_gbw(
     if found is not None:
         return found, None
     fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
-    ok = within_tolerances(_gbw_figures(netlist, ideal, family, w_ref, fine, a0, tolerances)[1], ref, tolerances)
+    ok = within_tolerances(_near_figures(with_gbw(netlist, family, w_ref, fine, a0), ideal, tolerances), ref, tolerances)
     fails = np.flatnonzero(~ok)
     # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
     return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None
@@ -193,5 +178,5 @@ def required_gbw(
     if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
         return None, "the circuit has no band-pass peak with an ideal op-amp"
     w_ref = 2.0 * math.pi * ref.f0_hz
-    family = rational_and_family(build_system(netlist), w_ref)[1]
-    return search_gbw(netlist, ideal, family, w_ref, a0=a0, tolerances=tolerances)[0]
+    family = rational_and_family(nominal_system(netlist), w_ref)[1]
+    return search_gbw_many([(netlist, ideal, family, w_ref, None)], a0=a0, tolerances=tolerances)[0][0]

@@ -17,10 +17,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from bandsmith.analysis.tolerances import Tolerances
-from bandsmith.analysis.transfer import transfer_function
+from bandsmith.analysis.gbw_search import with_gbw
+from bandsmith.analysis.transfer import nominal_system
 from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.analysis.figures import Figures, measure_from
-from bandsmith.solver.mna import build_system
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import AmpFamily, OpAmpFamily, rational_and_family
 
@@ -96,7 +96,8 @@ def gbw_error_sweep(
         The limits each error is normalised by.
     family : OpAmpFamily or AmpFamily, optional
         The circuit's op-amp family when the caller has it (:attr:`bandsmith.analysis.analyzer.Analysis.family`);
-        else it is built here.
+        else a one-op-amp circuit's is built here, and a circuit with several op-amps goes through
+        :func:`bandsmith.analysis.transfer.transfer_function`.
     """
     g = np.asarray(gbw_hz, dtype=float).reshape(-1)
     ref = ideal.item()
@@ -106,11 +107,8 @@ def gbw_error_sweep(
         return GbwSweep(g, nan, nan.copy(), nan.copy(), np.full(n, np.inf))
     w_ref = 2.0 * math.pi * ref.f0_hz
     if family is None and len(netlist.opamps) == 1:  # the one-op-amp family serves every GBW (several: transfer_function's)
-        family = rational_and_family(build_system(netlist), w_ref)[1]
-    if family is not None:
-        h = family.at(g, np.full(n, float(a0)))
-    else:
-        h = transfer_function(netlist, gbw_hz=g, a0=np.full(n, float(a0)), w_ref=w_ref)
+        family = rational_and_family(nominal_system(netlist), w_ref)[1]
+    h = with_gbw(netlist, family, w_ref, g, float(a0))
     fig = measure_from(h, ideal)
     with np.errstate(invalid="ignore", divide="ignore"):
         f0_err = fig.f0_hz / ref.f0_hz - 1.0

@@ -298,40 +298,16 @@ def _stacked(stages: tuple[Stage, ...], actual: bool) -> Rational | None:
     hs = [st.h_actual if actual and st.h_actual is not None else st.h_ideal for st in stages]
     if not hs or any(h is None for h in hs):
         return None
-
-    def pad(rows):
-        width = max(r.shape[1] for r in rows)
-        out = np.zeros((len(rows), width))
-        for k, r in enumerate(rows):
-            out[k, width - r.shape[1]:] = r[0]
-        return out
-
-    return Rational(pad([h.num for h in hs]), pad([h.den for h in hs]), np.array([float(h.w_ref[0]) for h in hs]))
+    return Rational.joined([h.take(slice(0, 1)) for h in hs])
 
 
-def _design(topology_id: str, plan: SectionPlan, series: str, conditions: Conditions):
-    from bandsmith.design.designer import Spec, design
+def _attempts(ids, plan: SectionPlan, series: str, conditions: Conditions):
+    """``(result, Attempt)`` of each circuit for a stage, their designs analysed in one batch."""
+    from bandsmith.design.designer import Spec, designs_or_errors
 
-    return design(topology_id, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
-
-
-def _attempts(topology_ids, plan: SectionPlan, series: str, conditions: Conditions):
-    """:func:`_attempt` of every circuit, their designs analysed in one batch."""
-    from bandsmith.design.designer import Spec, design_many
-
-    try:
-        results = design_many(topology_ids, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
-    except InputError:  # a circuit whose design raises: each on its own, to name it
-        return [_attempt(t, plan, series, conditions) for t in topology_ids]
-    return [_assess(t, res, plan, series, conditions) for t, res in zip(topology_ids, results)]
-
-
-def _attempt(topology_id: str, plan: SectionPlan, series: str, conditions: Conditions):
-    try:
-        res = _design(topology_id, plan, series, conditions)
-    except InputError as exc:
-        return None, Attempt(topology_id, False, None, None, None, exc.reason)
-    return _assess(topology_id, res, plan, series, conditions)
+    made = designs_or_errors(ids, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
+    return [(None, Attempt(t, False, None, None, None, res.reason)) if isinstance(res, InputError) else _assess(t, res, plan, series, conditions)
+            for t, res in zip(ids, made)]
 
 
 def _assess(topology_id: str, res, plan: SectionPlan, series: str, conditions: Conditions):
@@ -347,7 +323,7 @@ def _assess(topology_id: str, res, plan: SectionPlan, series: str, conditions: C
     tol = conditions.tolerances
     within = not figure_misses(errors, tol)
     weighted = weighted_error(errors, tol)
-    gbw, why = res.analysis.gbw_search if res.analysis is not None else (None, None)
+    gbw, why = res.analysis.required_gbw if res.analysis is not None else (None, None)
     gross = _gross_miss(errors, plan.q, series)
     if gross:
         return res, Attempt(topology_id, False, gbw, rs, cs, gross, errors, False, weighted)
@@ -423,7 +399,7 @@ def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, condi
         )
     cond = replace(conditions, vin_v=vin_v, tolerances=stage_tolerances(conditions.tolerances, plan.q), rsource_ohm=_stage_rsource(conditions, plan.index))
     if settings.circuit != AUTO:
-        res, att = _attempt(settings.circuit, plan, settings.series, cond)
+        res, att = _attempts([settings.circuit], plan, settings.series, cond)[0]
         if not att.feasible:
             return Stage(plan, vin_v, res, (att,), False, f"{settings.circuit} cannot build it: {att.reason}")
         return _finish(plan, vin_v, res, (att,), conditions, (f"{att.reason}",) if att.reason else ())
@@ -532,7 +508,7 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
             topology_id=cand.topology_id, spec=spec, feasible=True, reason=None, exact=dict(cand.values), chosen=dict(cand.values),
             series=settings.series, ideal=an.ideal, errors=errors, warnings=(), analysis=an, conditions=cond,
         )
-        att = Attempt(cand.topology_id, True, an.gbw_search[0], sp["r"] or 1.0, sp["c"] or 1.0, None, errors, within, weighted_error(errors, tol))
+        att = Attempt(cand.topology_id, True, an.required_gbw[0], sp["r"] or 1.0, sp["c"] or 1.0, None, errors, within, weighted_error(errors, tol))
         built.append(Stage(sec, vin, res, (att,), True, None, an.h_ideal, an.h_actual))
     return _assemble(settings, conditions, plan, tuple(built))
 

@@ -109,15 +109,7 @@ class Candidate:
             (field ``parts``) when the values give no band-pass response whose ideal figures and
             sensitivities can be measured (a response flat or sharp beyond floating-point reach).
         """
-        result = analyze(
-            self.driven_netlist(conditions),
-            opamp=conditions.opamp,
-            vin_v=conditions.vin_v,
-            a0=conditions.a0,
-            rload_ohm=conditions.rload_ohm,
-            tolerances=conditions.tolerances,
-            parts=self.values,
-        )
+        result = analyze(self.driven_netlist(conditions), parts=self.values, **_analysis_options(conditions))
         return self._checked(result, conditions)
 
     def _checked(self, result: Analysis, conditions: Conditions) -> Analysis:
@@ -137,33 +129,30 @@ class Candidate:
 
 
 def analyze_candidates(candidates: Sequence[Candidate], conditions: Conditions = Conditions()) -> list[Analysis | InputError]:
-    """:meth:`Candidate.analyze` of several candidates under one set of conditions, their
-    required-GBW ladders measured in one batch (:func:`bandsmith.analysis.analyzer.analyze_many`).
+    """:meth:`Candidate.analyze` of several candidates under one set of conditions, their first
+    passes and required-GBW ladders measured in one batch (:func:`bandsmith.analysis.analyzer.analyze_many`).
 
     Returns
     -------
     list
-        Per candidate its analysis, or the :class:`InputError` its own analysis raises.
+        Per candidate its analysis, or the :class:`InputError` it raises alone (no measurable peak).
     """
-    try:
-        results = analyze_many(
-            [c.driven_netlist(conditions) for c in candidates],
-            opamp=conditions.opamp,
-            vin_v=conditions.vin_v,
-            a0=conditions.a0,
-            rload_ohm=conditions.rload_ohm,
-            tolerances=conditions.tolerances,
-            parts=[c.values for c in candidates],
-        )
-    except Exception:  # one that cannot be analysed at all: each on its own, to name it
-        results = None
+    results = analyze_many(
+        [c.driven_netlist(conditions) for c in candidates], parts=[c.values for c in candidates], **_analysis_options(conditions)
+    )
     out: list[Analysis | InputError] = []
-    for i, cand in enumerate(candidates):
+    for cand, result in zip(candidates, results):
         try:
-            out.append(cand.analyze(conditions) if results is None else cand._checked(results[i], conditions))
+            out.append(cand._checked(result, conditions))
         except InputError as exc:
             out.append(exc)
     return out
+
+
+def _analysis_options(conditions: Conditions) -> dict:
+    """What :func:`bandsmith.analysis.analyzer.analyze` takes from the conditions."""
+    return {"opamp": conditions.opamp, "vin_v": conditions.vin_v, "a0": conditions.a0, "rload_ohm": conditions.rload_ohm,
+            "tolerances": conditions.tolerances}
 
 
 def _with_capacitive_load(result: Analysis, conditions: Conditions) -> Analysis:

@@ -35,6 +35,7 @@ __all__ = [
     "DesignResult",
     "design",
     "design_many",
+    "designs_or_errors",
     "design_json",
     "spread_of",
     "parse_fixed",
@@ -261,16 +262,37 @@ def design_many(
 ) -> list[DesignResult]:
     """:func:`design` of several circuits for one target: each chooses its parts alone, and the
     analyses of those that got parts share one batch (:func:`bandsmith.design.candidate.analyze_candidates`).
-    ``fixed`` pins the same parts on every circuit (most callers pin none)."""
-    made = [_prepare(t, spec, series, fixed, conditions, width) for t in topology_ids]
+    ``fixed`` pins the same parts on every circuit (most callers pin none). Raises the first
+    :class:`InputError` that :func:`design` would raise for one of them."""
+    out = designs_or_errors(topology_ids, spec, series=series, fixed=fixed, conditions=conditions, width=width)
+    for res in out:
+        if isinstance(res, InputError):
+            raise res
+    return out
+
+
+def designs_or_errors(
+    topology_ids: Sequence[str],
+    spec: Spec,
+    *,
+    series: str = "E24",
+    fixed: Mapping[str, float | str] | None = None,
+    conditions: Conditions = Conditions(),
+    width: int = 1,
+) -> list[DesignResult | InputError]:
+    """:func:`design_many` with each circuit's :class:`InputError` in its place instead of raised
+    (a chain lists the circuits that cannot build a stage, and why)."""
+    made: list = []
+    for t in topology_ids:
+        try:
+            made.append(_prepare(t, spec, series, fixed, conditions, width))
+        except InputError as exc:
+            made.append(exc)
     ready = [i for i, m in enumerate(made) if isinstance(m, _Prepared)]
     analyses = analyze_candidates([made[i].candidate for i in ready], conditions) if ready else []
-    out = list(made)
     for i, analysis in zip(ready, analyses):
-        if isinstance(analysis, InputError):
-            raise analysis
-        out[i] = _conclude(made[i], analysis, spec, series, conditions)
-    return out
+        made[i] = analysis if isinstance(analysis, InputError) else _conclude(made[i], analysis, spec, series, conditions)
+    return made
 
 
 @dataclass(frozen=True, slots=True)

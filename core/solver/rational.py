@@ -20,7 +20,7 @@ import numpy as np
 
 from bandsmith.solver.mna import MnaSystem, build_system
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "polyval_batch"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "polyval_batch", "pad_rows"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -44,6 +44,17 @@ def polyval_batch(c: np.ndarray, x: np.ndarray) -> np.ndarray:
         y *= x
     y += cc[:, k - 1]
     return y
+
+
+def pad_rows(blocks: Sequence[np.ndarray]) -> np.ndarray:
+    """Batches of polynomials (highest power first) stacked into one, each padded with leading
+    zeros to the longest (Horner's rule then gives every member the value it had alone)."""
+    out = np.zeros((sum(r.shape[0] for r in blocks), max(r.shape[1] for r in blocks)))
+    start = 0
+    for r in blocks:
+        out[start : start + r.shape[0], out.shape[1] - r.shape[1] :] = r
+        start += r.shape[0]
+    return out
 
 
 def polyder_batch(c: np.ndarray) -> np.ndarray:
@@ -140,15 +151,7 @@ class Rational:
     @staticmethod
     def joined(parts: Sequence[Rational]) -> Rational:
         """One batch of the members of several (each polynomial padded with leading zeros)."""
-        def pad(rows):
-            out = np.zeros((sum(r.shape[0] for r in rows), max(r.shape[1] for r in rows)))
-            start = 0
-            for r in rows:
-                out[start : start + r.shape[0], out.shape[1] - r.shape[1] :] = r
-                start += r.shape[0]
-            return out
-
-        return Rational(pad([p.num for p in parts]), pad([p.den for p in parts]), np.concatenate([p.w_ref for p in parts]))
+        return Rational(pad_rows([p.num for p in parts]), pad_rows([p.den for p in parts]), np.concatenate([p.w_ref for p in parts]))
 
     def to_s(self, i: int = 0) -> tuple[np.ndarray, np.ndarray]:
         """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) for member ``i``, as scipy.signal uses."""
