@@ -251,20 +251,10 @@ def design(
     return design_many((topology_id,), spec, series=series, fixed=fixed, conditions=conditions, width=width)[0]
 
 
-def design_many(
-    topology_ids: Sequence[str],
-    spec: Spec,
-    *,
-    series: str = "E24",
-    fixed: Mapping[str, float | str] | None = None,
-    conditions: Conditions = Conditions(),
-    width: int = 1,
-) -> list[DesignResult]:
-    """:func:`design` of several circuits for one target: each chooses its parts alone, and the
-    analyses of those that got parts share one batch (:func:`bandsmith.design.candidate.analyze_candidates`).
-    ``fixed`` pins the same parts on every circuit (most callers pin none). Raises the first
-    :class:`InputError` that :func:`design` would raise for one of them."""
-    out = designs_or_errors(topology_ids, spec, series=series, fixed=fixed, conditions=conditions, width=width)
+def design_many(topology_ids: Sequence[str], spec: Spec, **options) -> list[DesignResult]:
+    """:func:`design` of several circuits for one target (``options`` as :func:`designs_or_errors`
+    takes them), raising the first :class:`InputError` that :func:`design` would raise for one."""
+    out = designs_or_errors(topology_ids, spec, **options)
     for res in out:
         if isinstance(res, InputError):
             raise res
@@ -280,8 +270,10 @@ def designs_or_errors(
     conditions: Conditions = Conditions(),
     width: int = 1,
 ) -> list[DesignResult | InputError]:
-    """:func:`design_many` with each circuit's :class:`InputError` in its place instead of raised
-    (a chain lists the circuits that cannot build a stage, and why)."""
+    """:func:`design` of several circuits for one target: each chooses its parts alone, and the
+    analyses of those that got parts share one batch (:func:`bandsmith.design.candidate.analyze_candidates`);
+    each circuit's :class:`InputError` is kept in its place (a chain lists the circuits that cannot
+    build a stage, and why). ``fixed`` pins the same parts on every circuit (most callers pin none)."""
     made: list = []
     for t in topology_ids:
         try:
