@@ -103,16 +103,17 @@ if {preload!r}:
 c = {circuit!r}
 values = example_values(c)
 cond = Conditions(gbw_hz=1e6)
-t0 = time.perf_counter(); Candidate(c, values).analyze(cond); first = time.perf_counter() - t0
+t0 = time.perf_counter(); Candidate(c, values).analyze(cond).requirements; first = time.perf_counter() - t0
 warm = []
 for _ in range(21):
-    t0 = time.perf_counter(); Candidate(c, values).analyze(cond); warm.append(time.perf_counter() - t0)
+    t0 = time.perf_counter(); Candidate(c, values).analyze(cond).requirements; warm.append(time.perf_counter() - t0)
 print(json.dumps([first, statistics.median(warm)]))
 """
 
 
 def first_analysis(circuit: str, *, preload_scipy: bool = True, runs: int = 3) -> tuple[float, float]:
-    """``(first, warm)``: one candidate's analysis (s) as the first in a fresh process (its modules
+    """``(first, warm)``: one candidate's whole analysis (s; its amplifier needs too, which an
+    :class:`~bandsmith.analysis.analyzer.Analysis` works out when first read) as the first in a fresh process (its modules
     already imported: with ``preload_scipy``, scipy.linalg too, which the analysis of a circuit
     with several op-amps imports on first use; its import is start-up, measured by
     :func:`cli_start`) and the median of later ones; each the median over ``runs`` fresh
