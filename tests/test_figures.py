@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 import pytest
-from numpy.testing import assert_allclose
+from numpy.testing import assert_allclose, assert_array_equal
 
 from bandsmith.analysis.analyzer import analyze, ideal_figures, transfer_function
 from bandsmith.circuits import get_topology
@@ -231,3 +231,23 @@ def test_measure_from_holds_a_narrow_peak_to_many_digits():
     ok = fig.q < 100.0
     assert_allclose(fig.q[ok], exact.q[ok], rtol=1e-9)
     assert_allclose(fig.f0_hz, exact.f0_hz, rtol=1e-9)
+
+
+def test_measure_from_a_circuit_with_several_stationary_points():
+    # The dual-amplifier band-pass with a finite op-amp: its op-amps add a dip and a second peak
+    # near the GBW, so |H|² has three stationary points. measure_from keeps Newton's figures where
+    # the others are lower and outside the band, and gives measure()'s (the companion-matrix roots
+    # of every stationary point, the highest taken) everywhere: GBW from f0 to 10⁶·f0.
+    from bandsmith.analysis.figures import measure_from, measure_near
+
+    topo = get_topology("dabp")
+    res = analyze(topo.netlist(topo.example))
+    f0 = res.ideal.item().f0_hz
+    h = res.family.at(f0 * np.logspace(0.0, 6.0, 121), 1e5)
+    near = measure_near(h, res.ideal, spread=9.0, only_peak=True)
+    assert near.valid.sum() > 100  # Newton's figures for most members, not the roots
+    got, want = measure_from(h, res.ideal), measure(h)
+    assert_array_equal(np.isfinite(got.q), np.isfinite(want.q))
+    ok = np.isfinite(want.q)
+    for key in ("f0_hz", "q", "gain_center", "f_low_hz", "f_high_hz"):
+        assert_allclose(getattr(got, key)[ok], getattr(want, key)[ok], rtol=1e-7, err_msg=key)

@@ -304,12 +304,10 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
     gets NaN figures: it is off the reference by more than ``spread``. Cheaper than
     :func:`measure` by a fixed cost, for callers that ask "within tolerance of the reference?"
     and need exact figures only where it is. With ``only_peak`` a member gets NaN figures too
-    unless the peak found is the only one: unless ``P'Q − PQ'`` has one sign change in its
-    coefficients, so that by Descartes' rule of signs ``|H|²`` has one stationary point in
-    ``u > 0`` (then the peak is the highest and each half-power point the only one on its side,
-    exactly what :func:`measure` finds); the band edges then start from the peak found, a
-    Lorentzian's half-width from it by the curvature there, which holds a band far wider or
-    narrower than ``ref``'s.
+    unless the peak found is the highest stationary point of ``|H|²`` and none lies between it
+    and its band edges (:func:`_only_peak`: then they are exactly what :func:`measure` finds), and
+    the band edges start from the peak found, a Lorentzian's half-width from it by the curvature
+    there, which holds a band far wider or narrower than ``ref``'s.
     """
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         return _measure_near(h, ref, spread, only_peak)
@@ -325,15 +323,9 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
     if np.size(ref.f0_hz) == 1:
         ref = ref.item()  # one reference for every member (else one per member)
     u0 = ref.f0_hz**2 * to_u
-    if only_peak:
-        one = _sign_changes(slope) == 1
-        if not one.any():  # (a dual-amplifier circuit's op-amps add stationary points)
-            nan = np.full(b, np.nan)
-            return _figures(h, nan, nan, nan)
     u_pk, ok = _newton(slope, u0, k2)
     half = _poly_sub(pu, qu * (0.5 * _ratio(pu, qu, u_pk))[:, None])
     if only_peak:
-        ok &= one
         # a Lorentzian in u with the peak's curvature, |H|² = peak/(1 + ((u − u_pk)/γ)²), puts
         # the edges γ from the peak: γ² = −2·P·Q/(P''Q − P·Q'') there (P'Q = PQ' at the peak)
         p0, q0, p2, q2 = np.split(polyval_batch(_second_derivatives(pu, qu), np.tile(u_pk, 4)), 4)
@@ -344,11 +336,38 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
         starts = np.concatenate([ref.f_low_hz**2 * to_u * shift, ref.f_high_hz**2 * to_u * shift])
     both, ok2 = _newton(np.concatenate([half, half]), starts, k2, first=5)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
+    if only_peak:
+        ok &= _only_peak(pu, qu, slope, u_pk, both[:b], both[b:], ok & ok2[:b] & ok2[b:])
     nan = np.nan
     u_pk = np.where(ok, u_pk, nan)
     u_low = np.where(ok & ok2[:b], both[:b], nan)
     u_high = np.where(ok & ok2[b:], both[b:], nan)
     return _figures(h, u_pk, u_low, u_high)
+
+
+def _only_peak(pu, qu, slope, u_pk, u_low, u_high, live) -> np.ndarray:
+    """True where the peak found at ``u_pk`` is the highest stationary point of ``|H|² = P/Q`` in
+    ``u > 0`` and none lies between it and its band edges ``u_low``, ``u_high`` (then ``|H|²``
+    falls monotonically from the peak to each edge, so each is the half-power point nearest the
+    peak: what :func:`measure` finds). Where ``P'Q − PQ'`` has one sign change that holds by
+    Descartes' rule of signs; elsewhere (``live`` members only) the other stationary points are
+    the real positive roots of ``P'Q − PQ'`` divided by ``u − u_pk`` (synthetic division)."""
+    out = _sign_changes(slope) == 1
+    many = np.flatnonzero(live & ~out)
+    if many.size:
+        c, x = slope[many], u_pk[many]
+        rest = np.empty((many.size, c.shape[1] - 1))
+        rest[:, 0] = c[:, 0]
+        for k in range(1, c.shape[1] - 1):  # the quotient of c by (u − x), Horner's steps
+            rest[:, k] = c[:, k] + x * rest[:, k - 1]
+        others = _real_positive_roots(rest)  # (n, deg − 1), NaN where none
+        peak2 = _ratio(pu[many], qu[many], x)
+        with np.errstate(invalid="ignore"):
+            height = _ratio(pu[many], qu[many], np.nan_to_num(others, nan=1.0))
+            higher = np.isfinite(others) & (height >= peak2[:, None] * (1.0 - 1e-9))
+            inside = (others > u_low[many, None]) & (others < u_high[many, None])
+        out[many] = ~(higher | inside).any(axis=1)
+    return out
 
 
 def _second_derivatives(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
@@ -368,7 +387,8 @@ def _sign_changes(c: np.ndarray) -> np.ndarray:
 def measure_from(h: Rational, ref: Figures) -> Figures:
     """:func:`measure`'s figures, found from reference figures where that is safe: Newton's method
     from ``ref`` (:func:`measure_near` with ``only_peak`` and a window of a factor ten) for the
-    members whose ``|H|`` has one peak, the companion-matrix roots for the rest. The same figures
+    members whose peak found is the highest, with no other stationary point inside its band, the
+    companion-matrix roots for the rest. The same figures
     as :func:`measure` (closer to them than its roots at a high Q), at a fraction of its cost
     for a batch of members near ``ref`` (a GBW ladder)."""
     fig = measure_near(h, ref, spread=_FROM_SPREAD, only_peak=True)
