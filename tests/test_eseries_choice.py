@@ -82,35 +82,6 @@ def test_search_options_agree_with_candidates_and_nearest_everywhere():
                 assert oi.tolist() == list(candidates(float(xi), series, count=count)), (series, w, xi)
 
 
-@pytest.mark.parametrize("topology_id", ["rlc-tank", "mfb", "sallen-key", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
-def test_search_batch_from_flat_options_equals_the_batch_by_part(topology_id):
-    # The search builds its combinations' ratios by one gather from the flat options
-    # (_combinations_flat); the chain's joint search builds them part by part (_combinations).
-    # Both make the same divisions value by value, so the transfer functions are equal to the bit.
-    from bandsmith.common.eseries import search_options
-    from bandsmith.design.standard import _combinations, _combinations_flat, _flat_combination_index
-
-    topo = get_topology(topology_id)
-    spec = Spec(2.2e3, 6.0, 2.0)  # our own target
-    values = topo.values_from(dict(topo.synthesize(spec, {}, series="E24")))
-    if "RL" in values:
-        values["RL"] = 12.0  # a winding resistance: a variable that is not searched
-    free = [c.ref for c in topo.components if c.required]
-    opts, near = [], []
-    for r in free:
-        (o,), (n,) = search_options(np.array([values[r]]), part_series_of(topo.component(r).kind, "E24"), 1)
-        opts.append(o)
-        near.append(n)
-    sizes = tuple(o.size for o in opts)
-    flat = np.concatenate([np.append(o, n) for o, n in zip(opts, near)])
-    netlist = topo.build(values)
-    by_part = _combinations(netlist, dict(zip(free, flat[_flat_combination_index(sizes)])), spec.w0)
-    from_flat = _combinations_flat(netlist, free, flat, sizes, spec.w0)
-    assert np.array_equal(by_part.num, from_flat.num, equal_nan=True)
-    assert np.array_equal(by_part.den, from_flat.den, equal_nan=True)
-    assert np.array_equal(by_part.w_ref, from_flat.w_ref)
-
-
 @pytest.mark.parametrize("series", SERIES)
 @pytest.mark.parametrize("topology_id", ["rlc-tank", "mfb", "sallen-key"])
 def test_chosen_values_lie_in_the_series(series, topology_id):

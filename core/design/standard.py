@@ -132,49 +132,6 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
     return exp.rational(ratios, w_ref=w_ref)
 
 
-def _combinations_flat(netlist, free: list[str], flat: np.ndarray, sizes: tuple[int, ...], w_ref: float):
-    """:func:`_combinations` of every combination of the free parts' options, given as one flat
-    array (each part's options, then its nearest value: :func:`_flat_combination_index`).
-
-    Through the expansion the ratios of the combinations are taken from the flat array divided
-    once by the parts' unit values, by one gather (the same divisions, value by value, as
-    :func:`_combinations` makes on every member)."""
-    try:
-        exp, variables = unit_expansion(netlist)
-    except ExpansionUnavailable:
-        every = flat[_flat_combination_index(sizes)]
-        return transfer_function(netlist, overrides=dict(zip(free, every)), w_ref=w_ref)
-    part = {r: p for p, r in enumerate(free)}
-    divisor = np.ones(flat.size)
-    fixed = []  # the ratios of the variables that are not searched
-    sources = []  # per variable: the part it is, or -1 - its position among the fixed ones
-    for v, unit in zip(variables, exp.variables):
-        p = part.get(v.name)
-        if p is None:
-            sources.append(-1 - len(fixed))
-            fixed.append(v.value / unit.value)
-        else:
-            start = sum(sizes[:p]) + p
-            divisor[start:start + sizes[p] + 1] = unit.value
-            sources.append(p)
-    ratios = np.concatenate([flat / divisor, fixed])[_ratio_index(sizes, tuple(sources))]
-    return exp.rational(ratios, w_ref=w_ref)
-
-
-@functools.lru_cache(maxsize=64)
-def _ratio_index(sizes: tuple[int, ...], sources: tuple[int, ...]) -> np.ndarray:
-    """Index ``(N + 1, V)`` (C order) into the flat ratios of :func:`_combinations_flat` followed by
-    the fixed ones: member by member, each variable's column (a part's through
-    :func:`_flat_combination_index`, a fixed variable's one entry after the flat array)."""
-    every = _flat_combination_index(sizes)
-    n_flat = sum(sizes) + len(sizes)
-    out = np.empty((every.shape[1], len(sources)), dtype=np.intp)
-    for j, src in enumerate(sources):
-        out[:, j] = every[src] if src >= 0 else n_flat + (-1 - src)
-    out.setflags(write=False)
-    return out
-
-
 @functools.lru_cache(maxsize=64)
 def _combination_index(sizes: tuple[int, ...]) -> np.ndarray:
     """Index rows ``(len(sizes), N + 1)`` that enumerate every combination of options of these
@@ -230,15 +187,15 @@ def choose_standard(
     # them, in one flat array taken by a combination index.
     sizes = tuple(len(o) for o in options)
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
-    index = _flat_combination_index(sizes)
+    every = flat[_flat_combination_index(sizes)]  # (parts, combinations)
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
-        h = _combinations_flat(netlist, free, flat, sizes, spec.w0)
+        h = _combinations(netlist, dict(zip(free, every)), spec.w0)
         # exact polynomial roots up to a few thousand members; a grid around the target beyond
         fig = measure(h) if h.batch <= _ROOTS_UP_TO else measure(h, grid=search_grid(spec.q))
         cost = np.where(hurwitz_stable(h.den) & fig.valid, _weighted_batch(fig, spec, tolerances), np.inf)
     i = int(np.argmin(cost[:-1]))
     chosen = dict(values)
-    chosen.update(zip(free, flat[index[:, i]].tolist()))
+    chosen.update(zip(free, every[:, i].tolist()))
     return Choice(
         values=chosen if math.isfinite(cost[i]) else None,
         combinations=int(cost.size - 1),
