@@ -15,7 +15,6 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-import scipy.signal
 
 from cli_helpers import run_command
 

@@ -565,8 +565,9 @@ def analyze_many(
     parts: Sequence[Mapping[str, float] | None] | None = None,
 ) -> list[Analysis]:
     """:func:`analyze` of several candidates under the same conditions (``parts``: one mapping or
-    None per netlist): their required-GBW ladders are measured in one batch, the rest one by one.
-    A compare or a stage of a chain analyses several circuits at once."""
+    None per netlist): their first passes' second-order members and their required-GBW ladders
+    are measured in one batch each, the rest one by one. A compare or a stage of a chain analyses
+    several circuits at once."""
     if not (math.isfinite(vin_v) and vin_v > 0):
         raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
     if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
@@ -587,7 +588,7 @@ def analyze_many(
             h_actual, actual = at_probe
         elif finite:
             h_actual = with_gbw(netlist, first.family, first.w_ref, np.array([opamp.gbw_hz]), opamp.a0).item(0)
-        if finite and (actual is None or not bool(actual.valid[0])):  # far from the ideal: measured exactly
+        if finite and (actual is None or not bool(actual.valid[0])):  # far from the ideal: measured from it
             actual = measure_from(h_actual, first.ideal)
         out.append(Analysis(
             netlist=netlist,

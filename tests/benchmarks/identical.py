@@ -417,6 +417,14 @@ def short(x, width: int = 70) -> str:
     return s if len(s) <= width else s[: width - 1] + "…"
 
 
+def _counts(title: str, counts: dict[str, int]) -> None:
+    """A titled list of key paths with their counts, when there is any."""
+    if counts:
+        print(title)
+        for k, n in sorted(counts.items()):
+            print(f"  {n:6d}  {k}")
+
+
 def report(t: Tally, worst: int, examples: int) -> None:
     print(f"\nnumbers compared: {t.compared}; chosen part values compared exactly: {t.parts_compared} "
           f"({t.parts_differ} differ)")
@@ -428,18 +436,12 @@ def report(t: Tally, worst: int, examples: int) -> None:
     for r, k in nonzero[:worst]:
         _, case, path, a, b = t.max_rel[k]
         print(f"  {r:10.3g}  {case}  {path}: {a!r} -> {b!r}")
-    if t.only_new:
-        print("keys only the current tree prints (not compared):")
-        for k, n in sorted(t.only_new.items()):
-            print(f"  {n:6d}  {k}")
+    _counts("keys only the current tree prints (not compared):", t.only_new)
     if t.near_zero:
         print("beyond the relative tolerance but within the absolute one (near zero):")
         for k, (n, m) in sorted(t.near_zero.items()):
             print(f"  {n:6d}  |a-b| <= {m:.3g}  {k}")
-    if t.ignored:
-        print("ignored (--ignore):")
-        for k, n in sorted(t.ignored.items()):
-            print(f"  {n:6d}  {k}")
+    _counts("ignored (--ignore):", t.ignored)
     if t.diffs:
         print(f"DIFFERENCES beyond {t.rtol:g} relative or not equal, by key path ({len(t.diffs)} paths):")
         print(f"  {'count':>6}  {'max rel':>9}  {'max |a-b|':>9}  key path")
