@@ -32,7 +32,7 @@ from bandsmith.analysis.analyzer import Analysis
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.design.compare import needs_inductor, part_count
-from bandsmith.design.designer import DesignResult, Spec, design, spread_of
+from bandsmith.design.designer import DesignResult, design, spread_of
 from bandsmith.design.standard import errors_of
 from bandsmith.files.session import CandidateEntry, Session
 from bandsmith.verdict import Verdict, VerdictLimits, judge, rank
@@ -155,18 +155,13 @@ class SessionComparison:
         return tuple(sorted((r for r in self.rows if r.rank is not None), key=lambda r: r.rank))
 
 
-def _spec(session: Session) -> Spec:
-    t = session.target
-    return Spec(f0_hz=t.f0_hz, q=t.q, gain=t.gain)
-
-
 def design_result_of(session: Session, entry: CandidateEntry, analysis: Analysis | None, error: str | None = None) -> DesignResult:
     """A session candidate with its own parts as a :class:`DesignResult` for :func:`bandsmith.verdict.judge`.
 
     ``analysis`` is the candidate's analysis under ``session.conditions_for(entry)``; with None the
     result is infeasible and ``error`` is its reason.
     """
-    spec = _spec(session)
+    spec = session.target.spec
     cond = session.conditions_for(entry)
     series = entry.snap or "exact"
     values = dict(entry.values)
@@ -186,7 +181,7 @@ def design_notes(session: Session, entry: CandidateEntry) -> tuple[str, ...]:
     """What the circuit's design procedure chooses for the session's target (its kept parts held),
     or why it cannot design it; () when the circuit has no procedure."""
     try:
-        res = design(entry.topology_id, _spec(session), series="exact", fixed={r: entry.values[r] for r in entry.fixed} or None,
+        res = design(entry.topology_id, session.target.spec, series="exact", fixed={r: entry.values[r] for r in entry.fixed} or None,
                      conditions=session.conditions_for(entry))
     except InputError as exc:
         return (str(exc),)
@@ -233,7 +228,7 @@ class ComparisonCache:
                 limits: VerdictLimits, limits_key: tuple | None = None) -> Verdict:
         """The verdict of ``entry``; ``limits_key`` is ``limits.key()`` when the caller has it."""
         key = (entry.id, entry.topology_id, tuple(sorted(entry.values.items())), entry.snap, session.conditions_for(entry),
-               _spec(session), limits.key() if limits_key is None else limits_key, analysis is None, error)
+               session.target.spec, limits.key() if limits_key is None else limits_key, analysis is None, error)
         def make() -> Verdict:
             try:
                 return judge(design_result_of(session, entry, analysis, error), limits, candidate=entry.id)
@@ -244,7 +239,7 @@ class ComparisonCache:
         return self._keep(self._verdicts, key, make)
 
     def notes(self, session: Session, entry: CandidateEntry) -> tuple[str, ...]:
-        key = (entry.topology_id, _spec(session), tuple((r, entry.values[r]) for r in entry.fixed), session.conditions_for(entry))
+        key = (entry.topology_id, session.target.spec, tuple((r, entry.values[r]) for r in entry.fixed), session.conditions_for(entry))
         if self.defer_notes and key not in self._notes:
             self._pending.append((session, entry))
             return NOTES_PENDING

@@ -283,14 +283,13 @@ class Document:
 
     # ------------------------------------------------------------------ internals
     def _designed(self, entry: CandidateEntry, session: Session) -> tuple[CandidateEntry | None, str | None]:
-        from bandsmith.design.designer import Spec, design
+        from bandsmith.design.designer import design
 
-        t = session.target
         try:
             fixed = {r: entry.values[r] for r in entry.fixed}
             res = design(
                 entry.topology_id,
-                Spec(f0_hz=t.f0_hz, q=t.q, gain=t.gain),
+                session.target.spec,
                 series=entry.snap or "exact",
                 fixed=fixed or None,
                 conditions=session.conditions_for(entry),

@@ -22,6 +22,7 @@ from bandsmith.analysis.figures import Figures
 from bandsmith.analysis.gbw_sweep import GbwSweep, gbw_error_sweep, gbw_ladder
 from bandsmith.files.session import CandidateEntry, Session
 from bandsmith.analysis.timeresponse import StepResponse, step_response
+from bandsmith.design.standard import errors_of, figure_misses
 
 __all__ = ["CandidateResult", "ResultCache", "frequency_grid", "analyse_entry"]
 
@@ -164,18 +165,18 @@ class TargetErrors:
 
 
 def target_errors(fig: Figures, target, tolerances) -> TargetErrors:
-    """Errors of figures against a :class:`bandsmith.files.session.Target` (the core's
-    :func:`bandsmith.design.standard.errors_of`), each judged against the session's tolerances."""
-    from bandsmith.design.standard import errors_of
-
-    e = errors_of(fig, target)
+    """Errors of figures against a :class:`bandsmith.files.session.Target`, each judged against
+    the session's tolerances (the core's :func:`bandsmith.design.standard.errors_of` and
+    :func:`~bandsmith.design.standard.figure_misses`)."""
+    e = errors_of(fig, target.spec)
+    missed = {key for key, *_ in figure_misses(e, tolerances)}
     return TargetErrors(
         f0_pct=e["f0_pct"],
         q_pct=e["q_pct"],
         gain_db=e["gain_db"],
-        f0_ok=bool(abs(e["f0_pct"]) <= 100.0 * tolerances.f0),
-        q_ok=bool(abs(e["q_pct"]) <= 100.0 * tolerances.q),
-        gain_ok=bool(abs(e["gain_db"]) <= tolerances.gain_db),
+        f0_ok="f0_pct" not in missed,
+        q_ok="q_pct" not in missed,
+        gain_ok="gain_db" not in missed,
     )
 
 

@@ -24,7 +24,6 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.cautions import cautions_html
 from bandsmith.common.values import format_rkm, format_value
 from bandsmith.analysis.figures import Figures
-from bandsmith.design.designer import Spec
 from bandsmith.design.standard import errors_of
 from bandsmith.files.session import Session
 
@@ -54,8 +53,7 @@ _PLOT_CAPTIONS = {
 
 def _target_errors(fig: Figures, session: Session) -> dict[str, float]:
     """Deviation from the target (bandsmith.design.standard.errors_of): f0 and Q in %, gain in dB."""
-    t = session.target
-    return errors_of(fig, Spec(t.f0_hz, t.q, t.gain))
+    return errors_of(fig, session.target.spec)
 
 
 def _opamp_text(session: Session) -> str:
@@ -85,7 +83,7 @@ def section_target(ctx: ReportContext) -> str:
     rows = [
         ["centre frequency f0", format_value(t.f0_hz, "Hz")],
         ["Q", format_value(t.q)],
-        ["bandwidth (f0 / Q)", format_value(Spec(t.f0_hz, t.q, t.gain).bw_hz, "Hz")],
+        ["bandwidth (f0 / Q)", format_value(t.spec.bw_hz, "Hz")],
         ["centre gain (magnitude)", f"{format_value(t.gain)} ({format_value(20 * math.log10(t.gain), 'dB')})"],
         ["input level (peak)", format_value(t.vin_v, "V")],
         ["standard series", escape(t.series)],
@@ -196,7 +194,7 @@ def _figures_table(c: CandidateReport, session: Session) -> str:
     rows = [
         row("f0", format_value(t.f0_hz, "Hz"), "f0_hz", "Hz", "f0_pct", "%"),
         row("Q", format_value(t.q), "q", "", "q_pct", "%"),
-        row("bandwidth", format_value(Spec(t.f0_hz, t.q, t.gain).bw_hz, "Hz"), "bw_hz", "Hz"),
+        row("bandwidth", format_value(t.spec.bw_hz, "Hz"), "bw_hz", "Hz"),
         row("f_low", "", "f_low_hz", "Hz"),
         row("f_high", "", "f_high_hz", "Hz"),
         row("centre gain (V/V)", format_value(t.gain), "gain_center", ""),

@@ -10,6 +10,7 @@ from typing import Any, Mapping
 from bandsmith.analysis.analyzer import DEFAULT_A0, Tolerances
 from bandsmith.design.candidate import Conditions
 from bandsmith.circuits import get_topology
+from bandsmith.circuits.synthesis import Spec
 from bandsmith.common.errors import InputError
 from bandsmith.common.eseries import SERIES_NAMES
 from bandsmith.common.limits import (
@@ -121,6 +122,11 @@ class Target:
             raise InputError("series", f"{self.series!r} is not a series; choose one of {', '.join(SERIES_CHOICES)}")
         for name in ("f0_hz", "q", "gain", "vin_v"):
             object.__setattr__(self, name, float(getattr(self, name)))
+
+    @property
+    def spec(self) -> Spec:
+        """The design target (f0, Q, centre gain) the core's design and error functions take."""
+        return Spec(f0_hz=self.f0_hz, q=self.q, gain=self.gain)
 
 
 @dataclass(frozen=True, slots=True)
