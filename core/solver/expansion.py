@@ -33,15 +33,13 @@ import numpy as np
 from bandsmith.resources import resource_path
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import Rational, rational_from_system
+from bandsmith.solver.rational import _ANGLE_OFFSET, Rational, _circle, _degree_bound, rational_from_system
 
 __all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path",
            "SMALL_BATCH", "TABLE_FORMAT"]
 
 # Largest number of integer points the expansion evaluates (2^14 for 14 one-degree parameters).
 MAX_POINTS = 1 << 14
-# Same rotation of the interpolation circle as bandsmith.solver.rational (no sample on a real pole).
-_ANGLE_OFFSET = 0.3771
 # Monomial coefficients below this fraction of the largest are rounding noise (they are integers).
 _ZERO = 1e-9
 # Largest relative disagreement with the solver accepted when the expansion is verified.
@@ -347,15 +345,13 @@ def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: Op
     grid = np.indices(sizes).reshape(n_var, -1).T.astype(float)  # (P, n_var), integer points
     values = np.column_stack([v.stamped(grid[:, j]) for j, v in enumerate(variables)])
     system = _system_for(netlist, variables, values, opamp)
-    k = int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2)))) + 1
-    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
-    s = np.exp(1j * theta)
+    k = _degree_bound(system) + 1
+    s, undo = _circle(k)  # the circle bandsmith.solver.rational samples (no sample on a real pole)
     a = system.matrix(s)  # (P, k, n, n)
     den_v = np.linalg.det(a)
     a[..., :, system.output_index] = 0.0
     a[..., system.layout.source_row, system.output_index] = 1.0
     num_v = np.linalg.det(a)  # Cramer's rule: the output column replaced by the source vector
-    undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
     den_c = (np.fft.fft(den_v, axis=1) / k * undo).real  # ascending powers of s
     num_c = (np.fft.fft(num_v, axis=1) / k * undo).real
     both = np.concatenate([den_c, num_c], axis=1).reshape(*sizes, 2 * k)
@@ -723,8 +719,7 @@ class _CoefficientPlan:
         if absent is not None:
             q[np.asarray(absent).T] = 0.0  # an absent stamp: every monomial holding it is zero
         unit = frozenset(j for j in self._opamp if q[j].min() == 1.0 == q[j].max())
-        first_pw = {(i, e): np.power(q[i], e) for i, e in self.powers if i not in unit}
-        rest_pw = {(i, e): q[i] ** e for i, e in self.powers if i not in unit}
+        pw = {(i, e): q[i] ** e for i, e in self.powers if i not in unit}
         outs = (np.zeros((self.n_num, b)), np.zeros((self.n_den, b)))
         tmp = np.empty(b)
         buffers: list[np.ndarray] = []
@@ -736,11 +731,11 @@ class _CoefficientPlan:
             for depth in range(len(stack[-1][0]) if stack else 0, len(factors)):
                 i, e = factors[depth]
                 if depth == 0:
-                    node = q[i] if e == 1 else first_pw[(i, e)]
+                    node = q[i] if e == 1 else pw[(i, e)]
                 else:  # one buffer per depth: a node replaces only nodes no longer on the stack
                     while len(buffers) < depth:
                         buffers.append(np.empty(b))
-                    node = np.multiply(stack[-1][1], q[i] if e == 1 else rest_pw[(i, e)], out=buffers[depth - 1])
+                    node = np.multiply(stack[-1][1], q[i] if e == 1 else pw[(i, e)], out=buffers[depth - 1])
                 stack.append((factors[: depth + 1], node))
             if factors:
                 node = stack[-1][1]

@@ -352,7 +352,8 @@ def _by_amplifiers(system: MnaSystem, w: np.ndarray, circle_w: float | None = No
     lin = [np.stack([-np.broadcast_to(b, (bsz,)) * wb, -np.broadcast_to(a, (bsz,))], axis=1) for _, _, a, b in terms]
     den = None
     num = None
-    for subset, d_c, n_c in _subset_dets(a0, k, terms, system.source_vector(), system.output_index):
+    subsets, coef = _subset_coefficients(a0, k, terms, system.source_vector(), system.output_index)
+    for subset, (d_c, n_c) in zip(subsets, coef):
         for j in subset:
             d_c = polymul_batch(d_c, lin[j])
             n_c = polymul_batch(n_c, lin[j])
@@ -372,18 +373,11 @@ def _rescale(c: np.ndarray, ratio: np.ndarray) -> np.ndarray:
     return c * (1.0 / ratio[:, None]) ** powers[None, :]
 
 
-def _subset_dets(samples: np.ndarray, k: int, terms, source: np.ndarray, out: int):
-    """For every subset ``S`` of the op-amps: ``(S, D_S, N_S)``, the coefficients (in ``p``) of
-    ``det(A_S)`` and of its Cramer numerator, ``A_S`` the sampled ideal pencil ``samples``
-    (``(B, K, n, n)``) with the rows of the op-amps in ``S`` replaced by the unit rows of their
-    output columns (see :func:`_by_amplifiers`)."""
-    subsets, coef = _subset_coefficients(samples, k, terms, source, out)
-    for i, subset in enumerate(subsets):
-        yield subset, coef[i, 0], coef[i, 1]
-
-
 def _subset_coefficients(samples: np.ndarray, k: int, terms, source: np.ndarray, out: int):
-    """:func:`_subset_dets` as arrays: ``(subsets, coef)`` with ``coef[i, 0]`` the coefficients of
+    """For every subset ``S`` of the op-amps (:func:`_by_amplifiers`), the coefficients (in ``p``)
+    of ``det(A_S)`` and of its Cramer numerator, ``A_S`` the sampled ideal pencil ``samples``
+    (``(B, K, n, n)``) with the rows of the op-amps in ``S`` replaced by the unit rows of their
+    output columns: ``(subsets, coef)`` with ``coef[i, 0]`` the coefficients of
     ``det(A_S)`` and ``coef[i, 1]`` of its Cramer numerator for ``S = subsets[i]``: ``(S, 2, B, K)``."""
     keep, fill, subsets, live = _subset_pattern(tuple((t[0], t[1]) for t in terms), samples.shape[-1], out, source.tobytes())
     b = samples.shape[0]
