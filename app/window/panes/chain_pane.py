@@ -108,8 +108,7 @@ class ChainPane(RecomputeWhenShown, QtWidgets.QWidget):
 
         state.session_changed.connect(self._on_session_signal)
         self.form.load_defaults(state.session)
-        self._on_session_changed(state.session)
-        self._dirty = False
+        self._follow_target(state.session)  # its saved chains are filled when the pane is first shown
 
     # ------------------------------------------------------------------ building
     def _build_header(self) -> QtWidgets.QHBoxLayout:
@@ -344,9 +343,11 @@ class ChainPane(RecomputeWhenShown, QtWidgets.QWidget):
 
     # ------------------------------------------------------------------ following the session
     def _on_session_signal(self, session: Session) -> None:
-        """The form follows the target at once; a hidden pane refills its chains when it is next
-        shown, so a part edit elsewhere costs it nothing."""
-        self._follow_target(session)
+        """A visible pane refills at once (the form follows the target with it); a hidden one only
+        follows the target, and refills its chains when it is next shown, so a part edit elsewhere
+        costs it nothing."""
+        if not self.isVisible():
+            self._follow_target(session)
         self.mark_dirty(now=True)
 
     def refresh(self) -> None:

@@ -415,8 +415,11 @@ class MeasurementPane(QtWidgets.QWidget):
             fitted = transfer_function(cand.netlist, **kw)  # solved once, read at both grids
             fit_h = fitted.at_f(fine)[0]
             at_m = fitted.at_f(m.f_hz)[0]
-            design = Candidate(entry.topology_id, entry.values)
-            at_d = transfer_function(design.netlist, **kw).at_f(m.f_hz)[0]
+            if res is not None and res.ok:  # the design as the document analysed it (its source resistance too)
+                an = res.analysis
+                at_d = (an.h_actual if an.h_actual is not None else an.h_ideal).at_f(m.f_hz)[0]
+            else:
+                at_d = transfer_function(Candidate(entry.topology_id, entry.values).netlist, **kw).at_f(m.f_hz)[0]
             self.dev_design.setData(m.f_hz, m.mag_db - 20 * np.log10(np.abs(at_d)))
             self.dev_fitted.setData(m.f_hz, m.mag_db - 20 * np.log10(np.abs(at_m)))
         else:

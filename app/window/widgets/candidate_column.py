@@ -20,7 +20,7 @@ from bandsmith.common.values import format_value, parse_nonnegative, parse_posit
 
 from bandsmith.app.document.results import CandidateResult, target_errors
 from bandsmith.app.window.state import WorkbenchState
-from bandsmith.app.window.theme import BAD, GOOD, WARN, CandidateStyle, error_label, section_title
+from bandsmith.app.window.theme import BAD, GOOD, MUTED, WARN, CandidateStyle, error_label, section_title
 from bandsmith.app.window.widgets.candidate_verdict import VerdictBadge, VerdictDetails, set_pinned_text
 from bandsmith.app.window.widgets.value_field import ValueField
 from bandsmith.app.window.widgets.verdict_strip import VerdictStrip
@@ -117,7 +117,7 @@ class CandidateColumn(QtWidgets.QFrame):
         lay.addLayout(head)
         self.circuit = QtWidgets.QLabel(self._short_title(), self)
         self.circuit.setToolTip(f"{self.topology.title}\n{self.topology.notes}")
-        self.circuit.setStyleSheet("color: #5f6368;")
+        self.circuit.setStyleSheet(f"color: {MUTED};")
         self.circuit.setWordWrap(True)
         # Two lines for every circuit name, so the rows of all columns line up side by side.
         self.circuit.setFixedHeight(2 * self.circuit.fontMetrics().lineSpacing() + 2)
@@ -301,7 +301,7 @@ class CandidateColumn(QtWidgets.QFrame):
         self.problem.hide()
         if not entry.enabled or res is None:
             self.figures_title.setText("Achieved")
-            set_pinned_text(self.figures, '<span style="color:#5f6368">switched off: not analysed</span>')
+            set_pinned_text(self.figures, f'<span style="color:{MUTED}">switched off: not analysed</span>')
             set_pinned_text(self.need_gbw, "—")
             set_pinned_text(self.need_flag, "")
             set_pinned_text(self.needs, "")
@@ -342,7 +342,7 @@ class CandidateColumn(QtWidgets.QFrame):
         else:
             big, big_sheet = f"GBW ≥ {format_value(req.gbw_hz, 'Hz', digits=3)}", ""
             if have is None:
-                flag, flag_name, flag_sheet = "ideal op-amp assumed: type its GBW above", "needFlagOk", "color: #5f6368;"
+                flag, flag_name, flag_sheet = "ideal op-amp assumed: type its GBW above", "needFlagOk", f"color: {MUTED};"
             elif have < req.gbw_hz:
                 flag, flag_name, flag_sheet = f"✗ op-amp {format_value(have, 'Hz', digits=3)} is below the need", "needFlagBad", ""
             else:
