@@ -121,6 +121,10 @@ def make_old_tree(rev: str, tmp: Path) -> Tree:
     subprocess.run(["git", "-C", str(ROOT), "worktree", "add", "--detach", "-q", str(tree), rev], check=True)
     subprocess.run([sys.executable, "-m", "venv", "--system-site-packages", str(venv)], check=True)
     subprocess.run([str(venv / "bin" / "pip"), "install", "-q", "--no-deps", "-e", str(tree)], check=True, cwd=str(tmp))
+    where = subprocess.run([str(venv / "bin" / "python"), "-c", "import bandsmith; print(bandsmith.__file__)"],
+                           capture_output=True, text=True, cwd=str(tmp)).stdout.strip()
+    if not where or not Path(where).resolve().is_relative_to(tree.resolve()):  # not this tree compared with itself
+        sys.exit(f"identical: the old tree's interpreter imports bandsmith from {where or 'nowhere'}, not from {tree}")
     return Tree(f"{rev} (old)", (str(venv / "bin" / "bandsmith"),))
 
 
@@ -346,9 +350,9 @@ def walk(t: Tally, case: str, old, new, path: str, pattern: str) -> None:
         key = list_key(old, new)
         if key is not None:  # matched by name: [mfb] in the path, [*] in the pattern
             a, b = {str(x[key]): x for x in old}, {str(x[key]): x for x in new}
-            for k in b.keys() - a.keys():
+            for k in b.keys() - a.keys():  # an item (a reason, an amplifier) the old tree did not give
                 if not t.skipped(pattern + "[*]", f"{path}[{k}]"):
-                    t.only_new[pattern + "[*]"] = t.only_new.get(pattern + "[*]", 0) + 1
+                    t.diff(pattern + "[*]", case, f"{path}[{k}]", "(absent)", b[k], "only in the current tree")
             for k in a:
                 if k not in b:
                     if not t.skipped(pattern + "[*]", f"{path}[{k}]"):

@@ -187,7 +187,7 @@ def run_cli_jobs(res: Results) -> None:
     firsts = []
     for c in circuits():
         first, warm = jobs.first_analysis(c)
-        cold, _ = jobs.first_analysis(c, preload_scipy=False)
+        cold, _ = jobs.first_analysis(c, preload_scipy=False, runs=1)  # printed only
         print(f"first analysis[{c}]: {first * 1e3:.2f} ms ({cold * 1e3:.2f} ms importing scipy.linalg on first use), "
               f"warm {warm * 1e3:.2f} ms", file=sys.stderr)
         firsts.append((first / warm, c))
@@ -205,8 +205,10 @@ def run_gui_jobs(res: Results) -> None:
     here = Path(__file__).resolve().parent
     for key in ("gui_replot_median_ms", "gui_startup_s"):
         code = f"import sys; sys.path[:0] = [{str(here)!r}, {str(ROOT / 'tests')!r}]; import jobs_gui; print(jobs_gui.{key}())"
-        out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
-        res.put(key, float(out.strip().splitlines()[-1]))
+        done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+        if done.returncode != 0:  # the window job's own message, not just an exit status
+            raise RuntimeError(f"{key} failed:\n{done.stderr}")
+        res.put(key, float(done.stdout.strip().splitlines()[-1]))
 
 
 def fit_100k() -> tuple[float, float]:
