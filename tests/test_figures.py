@@ -237,7 +237,9 @@ def test_measure_from_a_circuit_with_several_stationary_points():
     # The dual-amplifier band-pass with a finite op-amp: its op-amps add a dip and a second peak
     # near the GBW, so |H|² has three stationary points. measure_from keeps Newton's figures where
     # the others are lower and outside the band, and gives measure()'s (the companion-matrix roots
-    # of every stationary point, the highest taken) everywhere: GBW from f0 to 10⁶·f0.
+    # of every stationary point, the highest taken) everywhere: GBW from f0 to 10⁶·f0. A
+    # consistency check of our own two measurements (the roots checked against the biquad's
+    # closed form above), no outside source.
     from bandsmith.analysis.figures import measure_from, measure_near
 
     topo = get_topology("dabp")

@@ -145,7 +145,8 @@ def test_gbw_error_sweep_through_the_family_agrees_with_the_batched_solve(circui
 def test_circuits_designed_together_equal_each_designed_alone(gbw_hz):
     """design_many (the analyses of every circuit in one batch, as compare and each stage of a
     chain make them) against design() circuit by circuit: the same parts, and the same JSON to
-    1e-12 relative (the batch's Newton iterations may run a step longer: rounding only)."""
+    1e-12 relative (the batch's Newton iterations may run a step longer: rounding only). A
+    consistency check of our own two paths, no outside source."""
     import json
     import math
 
@@ -182,7 +183,8 @@ def test_circuits_designed_together_equal_each_designed_alone(gbw_hz):
 
 def test_a_candidate_that_cannot_be_analysed_does_not_stop_the_others(monkeypatch):
     """analyze_candidates: the analysis of each candidate, or the InputError it raises alone (a
-    candidate made to fail its check here: no part values within range leave no measurable peak)."""
+    candidate made to fail its check here: no part values within range leave no measurable peak).
+    A consistency check of our own batching, no outside source."""
     from bandsmith.common.errors import InputError
     from bandsmith.design import candidate as cmod
 
