@@ -408,9 +408,9 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
 
     With one op-amp the expansion carries its stamps, and one more member (``1/ωt = 1``) gives
     the :class:`~bandsmith.solver.rational.OpAmpFamily`; with several the ideal members come from
-    the ideal-op-amp expansion and the :class:`~bandsmith.solver.rational.AmpFamily` from the
-    nominal circuit's sampled pencil (the expansion with the op-amps' stamps would carry
-    ``(m + 1)²`` times the integer points)."""
+    the ideal-op-amp expansion (the one with the op-amps' stamps carries ``(m + 1)²`` times its
+    integer points) and the :class:`~bandsmith.solver.rational.AmpFamily` from the nominal member
+    of the one with them (:func:`_amp_family_expanded`)."""
     one = len(netlist.opamps) == 1
     if not netlist.opamps:
         return None
@@ -446,7 +446,7 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     scale = np.abs(den_p).max(axis=1, keepdims=True)
     h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
     if not one:
-        return float(w_ref), h, amp_family(nominal_system(netlist), float(w_ref))
+        return float(w_ref), h, _amp_family_expanded(netlist, dict(zip(exp.names, lr[0].tolist())), float(w_ref), scale[0, 0])
     # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
     m_s = np.zeros(den.shape[1])
     m_s[1:] = (d0 - den[n_ideal])[:-1]
@@ -456,6 +456,26 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
         float(w_ref),
     )
     return float(w_ref), h, family
+
+
+def _amp_family_expanded(netlist: Netlist, log_parts: Mapping[str, float], w_ref: float, scale: float) -> AmpFamily | None:
+    """The :class:`~bandsmith.solver.rational.AmpFamily` of a several-op-amp circuit from its
+    expansion with the op-amps' stamps (:meth:`bandsmith.solver.expansion.Expansion.opamp_terms`:
+    one product over its monomials), in ``p = s/w_ref`` and divided by ``scale``; the nominal
+    circuit's sampled pencil (:func:`~bandsmith.solver.rational.amp_family`) where that expansion
+    is unavailable or not fitted yet (a fit of several op-amps' stamps takes up to a second).
+    ``log_parts``: the natural log of each part's value (unit expansion: its ratio)."""
+    try:
+        exp, _ = unit_expansion(netlist, _UNIT_AMP, fit=False)
+    except ExpansionUnavailable:
+        return amp_family(nominal_system(netlist), w_ref)
+    terms = exp.opamp_terms(np.array([log_parts.get(n, 0.0) for n in exp.names]))
+    if terms is None:
+        return amp_family(nominal_system(netlist), w_ref)
+    num, den = terms
+    # the unit expansion's s is p·w_ref: c·s^k = c·w_ref^k·p^k
+    to_num, to_den = (w_ref ** np.arange(t[0].size - 1, -1, -1.0) / scale for t in (num, den))
+    return AmpFamily(tuple(c * to_num for c in num), tuple(c * to_den for c in den), w_ref)
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:

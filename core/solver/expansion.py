@@ -490,6 +490,7 @@ class Expansion:
         self._num_scaled, self._den_scaled = num, den
         self._loops = None  # the monomials' factors and terms of the large-batch loops, made when first needed
         self._plan: _CoefficientPlan | None = None
+        self._picks = None  # (:meth:`_opamp_picks`, made when first asked)
         # For :meth:`dense_log`: exponents over the log *ratios* (an inverse parameter's stamp is
         # the reciprocal: its column negated), the log ratio that makes a stamp absent, and term
         # matrices onto every power of p, highest first.
@@ -616,6 +617,48 @@ class Expansion:
             den[bad] = np.nan
         return num, den
 
+    def opamp_terms(self, log_ratios: np.ndarray) -> tuple[list[np.ndarray], list[np.ndarray]] | None:
+        """The transfer function of one member as a polynomial in the op-amp stamp its ``m``
+        op-amps share, ``x = −(1/A0 + s/ω_t)``: ``D = Σ_j x^j·D_j`` and ``N = Σ_j x^j·N_j``.
+
+        Each op-amp stamps ``−x`` into one entry of the pencil, so ``D`` is a polynomial of degree
+        ``m`` in ``x`` alone, and ``D_j`` is ``(−1)^j`` times the part of ``D`` in ``(1/A0)^j`` with no
+        ``1/ω_t``: the monomials of that exponent pair, summed (no cancellation between powers, as
+        a fit over several values of ``x`` would have). ``log_ratios`` ``(n_var,)`` as
+        :meth:`dense_log` takes them (the op-amp's columns are ignored).
+
+        Returns
+        -------
+        num_terms, den_terms : list of ndarray
+            ``N_j`` and ``D_j``, ``j = 0 … m``, in the expansion's ``p``, highest power first
+            (:class:`bandsmith.solver.rational.AmpFamily`'s terms); None without op-amp variables.
+        """
+        picks = self._opamp_picks()
+        if picks is None:
+            return None
+        keep, signs = picks
+        with np.errstate(invalid="ignore", over="ignore"):
+            mono = np.exp(np.where(keep, log_ratios, 0.0) @ self._exps_ratio)  # op-amp stamps at 1
+        weighted = signs * mono  # (m + 1, M): row j the monomials of (1/A0)^j, signed (−1)^j
+        return list(weighted @ self._num_dense), list(weighted @ self._den_dense)
+
+    def _opamp_picks(self):
+        """For :meth:`opamp_terms`: the mask of the variables that are not the op-amp's, and a
+        ``(m + 1, M)`` matrix with ``(−1)^j`` in row ``j`` at the monomials with ``1/A0`` to the
+        power ``j`` and no ``1/ω_t``, zero elsewhere (made when first asked)."""
+        if self._picks is None:
+            kinds = [v.kind for v in self.variables]
+            if "gbw" not in kinds or "a0" not in kinds:
+                self._picks = (None,)
+            else:
+                exps = self._fit.exps
+                gbw, a0 = exps[:, kinds.index("gbw")], exps[:, kinds.index("a0")]
+                degree = self.variables[kinds.index("a0")].degree
+                power = np.arange(degree + 1)[:, None]
+                signs = np.where((gbw == 0)[None, :] & (a0[None, :] == power), (-1.0) ** power, 0.0)
+                self._picks = (np.array([k not in ("gbw", "a0") for k in kinds]), signs)
+        return None if self._picks[0] is None else self._picks
+
     def rational(self, ratios: np.ndarray, *, w_ref: float | None = None) -> Rational:
         """Transfer functions for a batch of values given as ratios to the nominal ones.
 
@@ -647,19 +690,23 @@ class Expansion:
 _UNIT: dict[tuple, "Expansion"] = {}
 
 
-def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Expansion, tuple[Variable, ...]]:
+def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, tuple[Variable, ...]]:
     """The expansion of this circuit's structure at unit values (1 Ω, 1 H, 1 F, and ``opamp``'s
     GBW and A0) and ``w_ref = 1`` rad/s, kept per structure; and ``netlist``'s own variables.
 
     Its ratios are then the values themselves (over ``opamp``'s for the op-amp variables), so one
     expansion serves every set of values of a circuit without rescaling. Raises
-    :class:`ExpansionUnavailable` as :class:`Expansion` does.
+    :class:`ExpansionUnavailable` as :class:`Expansion` does, and with ``fit=False`` also where
+    the structure would have to be fitted now (it is neither fitted yet nor in the shipped table:
+    for a caller with a cheaper way than a fit of several op-amps' stamps, up to a second).
     """
     variables = circuit_variables(netlist, opamp)
     structure = _structure_key(netlist, variables)
     key = (structure, opamp)
     exp = _UNIT.get(key)
     if exp is None:
+        if not fit and structure not in _FITS and _table_line(structure_hash(structure)) is None:
+            raise ExpansionUnavailable("not fitted yet")
         exp = Expansion._at_unit(netlist, opamp, variables, structure)
         _UNIT[key] = exp
     return exp, variables
