@@ -6,6 +6,7 @@ Each expected reason names the fact of the trade behind it.
 from __future__ import annotations
 
 import json
+import math
 from dataclasses import replace
 from importlib import resources
 
@@ -277,11 +278,13 @@ def test_every_limit_has_a_source_and_a_description():
 def test_surely_not_buildable_agrees_with_judge():
     # The shortcut a chain's circuit choice takes must never call hopeless a design that judge()
     # finds buildable or marginal; and where it says so, judge gives not buildable. Seeded random
-    # targets over every circuit and two series (a consistency check of our own two rules).
+    # targets over every circuit and two series (a consistency check of our own two rules). The
+    # figures' part of it is given as the chain gives it (figure_misses of the ideal errors); what
+    # those figure reasons are worth is checked against known errors in the test below.
     import numpy as np
 
     from bandsmith.design.designer import spread_of
-    from bandsmith.design.standard import errors_of
+    from bandsmith.design.standard import figure_misses
     from bandsmith.verdict import surely_not_buildable
 
     rng = np.random.default_rng(11)
@@ -294,10 +297,8 @@ def test_surely_not_buildable_agrees_with_judge():
         for res, v in zip(comparison.results, comparison.verdicts):
             if not res.feasible:
                 continue
-            tol = res.conditions.tolerances
             a = res.analysis
-            e = errors_of(a.actual if a.actual is not None else a.ideal, spec)  # the figures judge() weighs
-            within = abs(e["f0_pct"]) <= 100 * tol.f0 and abs(e["q_pct"]) <= 100 * tol.q and abs(e["gain_db"]) <= tol.gain_db
+            within = not figure_misses(res.errors, res.conditions.tolerances)
             sp = spread_of(res.topology, res.chosen)
             hopeless = surely_not_buildable(within=within, gbw_hz=a.requirements.gbw_hz, own_gbw_hz=gbw,
                                             r_spread=sp["r"] or 1.0, c_spread=sp["c"] or 1.0, limits=limits)
@@ -305,6 +306,57 @@ def test_surely_not_buildable_agrees_with_judge():
             if hopeless:
                 assert v.verdict == NOT_BUILDABLE, (res.topology_id, spec, v.reasons)
     assert (True, NOT_BUILDABLE) in seen and any(not h for h, _ in seen)
+
+
+# An equal-capacitor MFB designed exactly for f0 1 kHz, Q 2, gain 2 (R1 input, R2 to ground, R3
+# feedback), then detuned on purpose. The expected figure errors are derived, not measured:
+# - every capacitor × k: the network holds s only as s·C, so each frequency is divided by k and Q
+#   and the gain stay (frequency scaling; derived);
+# - R3 × a: f0 = √((R1 + R2)/(R1·R2·R3))/(2πC), Q = ½·√(R3·(R1 + R2)/(R1·R2)) and the centre
+#   gain magnitude R3/(2·R1) (Delyiannis–Friend band-pass with C1 = C2; derived (sympy) from its two
+#   nodal equations with an ideal op-amp), so f0 goes as 1/√a, Q as √a and the gain as a.
+# With the design tolerances f0 ±1 %, Q ±5 %, gain ±0.5 dB, a figure beyond its tolerance is a
+# reason of its own with its error and its limit, and makes the candidate not buildable.
+_DETUNED = [
+    ({"C1": 1.005, "C2": 1.005}, {"f0_pct": 100 * (1 / 1.005 - 1), "q_pct": 0.0, "gain_db": 0.0}, set()),
+    ({"C1": 1.03, "C2": 1.03}, {"f0_pct": 100 * (1 / 1.03 - 1), "q_pct": 0.0, "gain_db": 0.0}, {"f0_error"}),
+    ({"R3": 1.09}, {"f0_pct": 100 * (1.09 ** -0.5 - 1), "q_pct": 100 * (1.09 ** 0.5 - 1), "gain_db": 20 * math.log10(1.09)},
+     {"f0_error", "gain_error"}),
+    ({"R3": 1.21}, {"f0_pct": 100 * (1 / 1.1 - 1), "q_pct": 10.0, "gain_db": 20 * math.log10(1.21)},
+     {"f0_error", "q_error", "gain_error"}),
+]
+
+
+@pytest.mark.parametrize("scale, errors, missed", _DETUNED)
+def test_figure_reasons_of_a_detuned_design(scale, errors, missed):
+    from bandsmith.analysis.tolerances import Tolerances
+    from bandsmith.design.candidate import Candidate
+    from bandsmith.design.designer import design, spread_of
+    from bandsmith.design.standard import errors_of
+    from bandsmith.verdict import judge, surely_not_buildable
+
+    spec = Spec(f0_hz=1e3, q=2.0, gain=2.0)
+    exact = design("mfb", spec, series="exact", conditions=Conditions(tolerances=Tolerances(f0=0.01, q=0.05, gain_db=0.5)))
+    assert exact.chosen["C1"] == exact.chosen["C2"]  # the equations above hold for equal capacitors
+    parts = {ref: v * scale.get(ref, 1.0) for ref, v in exact.chosen.items()}
+    an = Candidate("mfb", parts).analyze(exact.conditions)
+    res = replace(exact, exact=parts, chosen=parts, ideal=an.ideal, errors=errors_of(an.ideal, spec), analysis=an)
+    for key, value in errors.items():
+        assert res.errors[key] == pytest.approx(value, abs=1e-9), key
+    v = judge(res)
+    figure = {r.code: r for r in v.reasons if r.code in ("f0_error", "q_error", "gain_error")}
+    assert set(figure) == missed
+    limits = {"f0_error": ("f0_pct", 1.0), "q_error": ("q_pct", 5.0), "gain_error": ("gain_db", 0.5)}
+    for code, r in figure.items():
+        key, limit = limits[code]
+        assert r.value == pytest.approx(errors[key], abs=1e-9) and r.limit == pytest.approx(limit)
+        assert r.weight == NOT_BUILDABLE
+    if missed:
+        assert v.verdict == NOT_BUILDABLE
+    sp = spread_of(res.topology, res.chosen)
+    hopeless = surely_not_buildable(within=not missed, gbw_hz=an.requirements.gbw_hz, own_gbw_hz=None,
+                                    r_spread=sp["r"] or 1.0, c_spread=sp["c"] or 1.0, limits=VerdictLimits())
+    assert hopeless == bool(missed)  # the figures alone decide here: neither the GBW nor a spread is near its limit
 
 
 def test_ties_in_theory_are_not_decided_by_rounding(demo):

@@ -345,7 +345,7 @@ def test_help_lists_fixed_names_and_ordinary_keys(window):
 
 def test_noise_takes_en_and_in_from_the_chosen_shelf_model(window, qtbot):
     from bandsmith.analysis.noise import output_noise
-    from bandsmith.app.window.panes.spread_pane import candidate_circuit
+    from bandsmith.app.window.widgets.candidate_picker import candidate_circuit
 
     noise = window.noise_pane
     window.panes.setCurrentWidget(noise)

@@ -91,7 +91,7 @@ def run(args) -> int:
         args.topology, args.parts, supply_v=args.supply, reference=args.reference, divider_ohm=args.divider,
         rload_ohm=args.rload, vin_v=args.vin, headroom_v=args.headroom, bias_current_a=args.ibias,
         corner_ratio=api.parse_value(args.corner_ratio, field="corner-ratio"),
-        cp_f=args.cp, temp_range_c=args.temp_range, tempco=tempcos_from(args.tc, "R=50, C=0, L=200, R2=25"), rated_v=args.rated,
+        cp_f=args.cp, temp_range_c=args.temp_range, tempco=tempcos_from(args.tc), rated_v=args.rated,
     )
     result = biased.to_json()
     if args.spice:

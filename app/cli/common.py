@@ -166,11 +166,15 @@ def print_json(obj) -> None:
     sys.stdout.write(json.dumps(_clean(obj), ensure_ascii=False) + "\n")
 
 
-def tempcos_from(items, example: str = "R=50, C=30, L=200, R2=25") -> dict[str, float]:
-    """``--tc KIND=PPM`` options as temperature coefficients per kelvin, by kind or part."""
+def tempcos_from(items) -> dict[str, float]:
+    """``--tc KIND=PPM`` options as temperature coefficients per kelvin, by kind or part.
+
+    The error's example leaves C out: it is the one kind whose default differs between the
+    commands that take ``--tc`` (bias, trim), and each command's help gives its own defaults.
+    """
     from bandsmith import api
 
-    given = api.split_assignments(items, field="tc", form=f"KIND=PPM ({example})")
+    given = api.split_assignments(items, field="tc", form="KIND=PPM (R=50, L=200, R2=25)")
     return {k: api.parse_value(v, field=f"tc {k}") * 1e-6 for k, v in given.items()}
 
 

@@ -24,7 +24,7 @@ from bandsmith.app.plots.palette import INK, candidate_style
 
 __all__ = [
     "ensure_qt_app",
-    "widget_png",
+    "render_widget_png",
     "FrequencyAxis",
     "PlotImageWidget",
     "build_plot_widget",
@@ -226,10 +226,10 @@ def image_png(img: "QtGui.QImage | QtGui.QPixmap") -> bytes:
 @on_gui_thread  # one plot at a time: the GUI thread is held a few tens of milliseconds each
 def render_plot_png(plot: PlotData, *, width: int = 900, height: int = 380, scale: float = 2.0) -> bytes:
     """PNG bytes of one plot, ``width`` × ``height`` logical pixels at ``scale`` (2 = sharp)."""
-    return widget_png(build_plot_widget(plot, width=width, height=height, line_width=2.0 * scale), scale=scale)
+    return render_widget_png(build_plot_widget(plot, width=width, height=height, line_width=2.0 * scale), scale=scale)
 
 
-def widget_png(widget: QtWidgets.QWidget, *, scale: float = 2.0) -> bytes:
+def render_widget_png(widget: QtWidgets.QWidget, *, scale: float = 2.0) -> bytes:
     """PNG bytes of a widget made for one image (sized and filled by the caller), painted at
     ``scale`` (:func:`paint_widget`); the widget is closed and deleted afterwards."""
     try:

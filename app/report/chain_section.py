@@ -47,13 +47,13 @@ PLOT_ASPECT = 0.78  # height / width of the chain's plot image
 def chain_plot_png(result: Cascade, *, width: int = 900, height: int | None = None, scale: float = 2.0) -> bytes:
     """PNG bytes of a chain's plots (as the pane draws them), ``width`` × ``height`` CSS pixels."""
     from bandsmith.app.plots.chain_plots import ChainPlots  # Qt: only when a plot is drawn
-    from bandsmith.app.plots.render import ensure_qt_app, widget_png
+    from bandsmith.app.plots.render import ensure_qt_app, render_widget_png
 
     ensure_qt_app()
     w = ChainPlots(line_scale=scale)
     w.resize(width, height if height is not None else round(width * PLOT_ASPECT))
     w.show_cascade(result)
-    return widget_png(w, scale=scale)
+    return render_widget_png(w, scale=scale)
 
 
 def _request_table(chain: Chain) -> str:

@@ -112,7 +112,7 @@ def measured_plot_pngs(m: Measurement, c: CandidateReport, fitted_values=None, *
 
     from bandsmith.app.plots.curves import Curve, PlotData
     from bandsmith.app.plots.palette import candidate_style
-    from bandsmith.app.plots.render import build_plot_widget, ensure_qt_app, widget_png
+    from bandsmith.app.plots.render import build_plot_widget, ensure_qt_app, render_widget_png
 
     ensure_qt_app()
     cur = _curves(m, c, fitted_values)
@@ -159,7 +159,7 @@ def measured_plot_pngs(m: Measurement, c: CandidateReport, fitted_values=None, *
         if key != keys[-1]:
             w.legend.hide()
             w.ci.layout.setRowFixedHeight(1, 0)
-        out[key] = widget_png(w, scale=scale)
+        out[key] = render_widget_png(w, scale=scale)
     return out
 
 

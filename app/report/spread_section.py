@@ -227,7 +227,7 @@ def section_noise(ctx: ReportContext) -> str:
 @on_gui_thread
 def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 270) -> bytes:
     """PNG of the three histograms (f0, Q, centre gain) of a spread, in the candidate's colour."""
-    from bandsmith.app.plots.render import ensure_qt_app, widget_png
+    from bandsmith.app.plots.render import ensure_qt_app, render_widget_png
 
     ensure_qt_app()
     from PySide6 import QtWidgets
@@ -249,14 +249,14 @@ def histograms_png(sp: Spread, index: int, *, width: int = 900, height: int = 27
         h.show_data(getattr(sp, key)[sp.measured], n0, window_of(sp.settings, key, n0), getattr(sp.worst, key), colour)
         lay.addWidget(h)
     box.resize(width, height)
-    return widget_png(box)
+    return render_widget_png(box)
 
 
 @on_gui_thread
 def noise_density_png(items: Sequence[tuple[str, int, NoiseResult]], *, width: int = 900, height: int = 340) -> bytes:
     """PNG of the output noise density (V/√Hz, log-log) of several candidates ``(label, index, result)``."""
     from bandsmith.app.plots.axes import FrequencyAxis, LogAxis
-    from bandsmith.app.plots.render import INK, PlotImageWidget, ensure_qt_app, widget_png
+    from bandsmith.app.plots.render import INK, PlotImageWidget, ensure_qt_app, render_widget_png
 
     ensure_qt_app()
     import pyqtgraph as pg
@@ -280,7 +280,7 @@ def noise_density_png(items: Sequence[tuple[str, int, NoiseResult]], *, width: i
         legend.addItem(curve, label)
     w = PlotImageWidget(item, legend)
     w.resize(width, height)
-    return widget_png(w)
+    return render_widget_png(w)
 
 
 register_section("spread", section_spread, before="cautions")

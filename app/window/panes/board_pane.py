@@ -28,9 +28,9 @@ from bandsmith.common.values import format_value, parse_positive
 from bandsmith.app.document.extras_board import BOARD_KEY, BoardSettings, board_of, ohm, part_value, stored_board
 from bandsmith.app.window.background import BackgroundJob
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
-from bandsmith.app.window.panes.spread_pane import candidate_bar, follow_candidate
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import MUTED, error_label, fit_columns, note_label, section_title
+from bandsmith.app.window.widgets.candidate_picker import candidate_bar, follow_candidate
 
 __all__ = ["BoardPane", "install"]
 

@@ -19,9 +19,9 @@ from bandsmith.common.values import format_value
 
 from bandsmith.app.plots.burst_plot import BurstPlot
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
-from bandsmith.app.window.panes.spread_pane import CandidatePicker
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import error_label
+from bandsmith.app.window.widgets.candidate_picker import CandidatePicker
 
 __all__ = ["BurstPane", "install"]
 

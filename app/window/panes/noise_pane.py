@@ -35,10 +35,11 @@ from bandsmith.app.document.extras_settings import NOISE_KEY, stored_noise
 from bandsmith.app.document.extras_shelf import chosen_amp
 from bandsmith.app.window.widgets.plots import LogAxis
 from bandsmith.app.window.panes.shown_only import RecomputeWhenShown
-from bandsmith.app.window.panes.spread_pane import WindingLine, candidate_bar, candidate_circuit, follow_candidate, winding_text
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import INK, MUTED, error_label, headline, note_label, section_title, settings_group
+from bandsmith.app.window.widgets.candidate_picker import candidate_bar, candidate_circuit, follow_candidate
 from bandsmith.app.window.widgets.value_field import ValueField
+from bandsmith.app.window.widgets.winding_line import WindingLine, winding_text
 
 __all__ = ["NoisePane", "SOURCE_COLOURS", "install"]
 

@@ -19,8 +19,8 @@ a run takes well under a second for ten thousand trials.
 
 The results (yield, histograms, statistics, worst case) are drawn by
 :class:`~bandsmith.app.window.panes.spread_view.SpreadResults`; this module holds the settings, the
-runs, and the candidate chooser and circuit reading the noise pane shares (:class:`CandidatePicker`,
-:func:`candidate_circuit`, :func:`winding_text`).
+runs; the candidate chooser is :mod:`bandsmith.app.window.widgets.candidate_picker`'s and the
+winding line :mod:`bandsmith.app.window.widgets.winding_line`'s (the noise pane shares them).
 """
 
 from __future__ import annotations
@@ -33,10 +33,7 @@ from typing import Callable
 from PySide6 import QtCore, QtWidgets
 
 from bandsmith.common.units import part_unit
-from bandsmith.design.candidate import Candidate
 from bandsmith.common.errors import InputError
-from bandsmith.solver.mna import IDEAL, OpAmpModel
-from bandsmith.solver.netlist import Netlist
 from bandsmith.spread.tolerance import (
     DISTRIBUTIONS,
     MAX_TRIALS,
@@ -63,9 +60,11 @@ from bandsmith.app.window.panes.spread_view import (
 )
 from bandsmith.app.window.state import WorkbenchState
 from bandsmith.app.window.theme import MUTED, WARN, error_label, note_label, section_title, settings_group
+from bandsmith.app.window.widgets.candidate_picker import candidate_bar, candidate_circuit, follow_candidate
 from bandsmith.app.window.widgets.value_field import ValueField
+from bandsmith.app.window.widgets.winding_line import WindingLine, winding_text
 
-__all__ = ["SpreadPane", "SpreadRun", "CandidatePicker", "WindingLine", "candidate_bar", "follow_candidate", "candidate_circuit", "winding_text", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
+__all__ = ["SpreadPane", "SpreadRun", "ENVELOPE_KEY", "ENVELOPE_TRIALS", "install"]
 
 #: Name of the band the pane shades on the magnitude plot.
 ENVELOPE_KEY = "spread"
@@ -86,109 +85,6 @@ def window_note(settings, tolerances) -> str:
         f"Yield window {win}, around the design's nominal: how far built copies may spread from it. "
         f"The design tolerances in the top strip ({des}) judge the design against the target; they differ."
     )
-
-
-# ---------------------------------------------------------------------------------------------
-# A candidate chooser shared with the noise pane
-# ---------------------------------------------------------------------------------------------
-class CandidatePicker(QtWidgets.QComboBox):
-    """The active candidates; shows the board's selected one, and choosing here selects it there."""
-
-    def __init__(self, state: WorkbenchState, parent: QtWidgets.QWidget | None = None):
-        super().__init__(parent)
-        self.state = state
-        self.setObjectName("candidatePicker")
-        self.setToolTip("The candidate to analyse (the one selected on the board).")
-        self.setSizeAdjustPolicy(QtWidgets.QComboBox.SizeAdjustPolicy.AdjustToContents)
-        self.activated.connect(self._on_activated)
-        state.session_changed.connect(lambda _s: self._fill())
-        state.current_changed.connect(lambda _c: self._fill())
-        self._fill()
-
-    @property
-    def candidate_id(self) -> str | None:
-        text = self.currentText()
-        return text or None
-
-    def _fill(self) -> None:
-        ids = [c.id for c in self.state.session.candidates if c.enabled]
-        want = self.state.current_id if self.state.current_id in ids else (ids[0] if ids else "")
-        self.blockSignals(True)
-        try:
-            if [self.itemText(i) for i in range(self.count())] != ids:
-                self.clear()
-                self.addItems(ids)
-            self.setCurrentIndex(ids.index(want) if want in ids else -1)
-        finally:
-            self.blockSignals(False)
-
-    def _on_activated(self, index: int) -> None:
-        self.state.set_current(self.itemText(index))
-
-
-def candidate_bar(state: WorkbenchState, parent: QtWidgets.QWidget) -> tuple[QtWidgets.QHBoxLayout, CandidatePicker]:
-    """The row a candidate pane starts with: "Candidate" and its :class:`CandidatePicker` (more may follow)."""
-    bar = QtWidgets.QHBoxLayout()
-    bar.addWidget(QtWidgets.QLabel("Candidate", parent))
-    picker = CandidatePicker(state, parent)
-    bar.addWidget(picker)
-    return bar, picker
-
-
-def follow_candidate(state: WorkbenchState, on_change: Callable) -> None:
-    """Call ``on_change(session)`` now and whenever the session or the board's current candidate changes."""
-    state.session_changed.connect(on_change)
-    state.current_changed.connect(lambda _c: on_change(state.session))
-    on_change(state.session)
-
-
-def candidate_circuit(state: WorkbenchState, cid: str | None) -> tuple[Netlist, OpAmpModel] | None:
-    """The netlist and op-amp of an active candidate, or None (no candidate, or unusable values)."""
-    if not cid:
-        return None
-    s = state.session
-    try:
-        entry = s.candidate(cid)
-        return Candidate(entry.topology_id, entry.values).netlist, s.conditions_for(entry).opamp or IDEAL
-    except InputError:
-        return None
-
-
-def winding_text(netlist: Netlist, opamp: OpAmpModel) -> str:
-    """One line per inductor: its Q at f0 (ωL/RL) and how much its winding lowers the circuit's Q
-    (:func:`bandsmith.analysis.inductor.winding_effect`); "" for a circuit without an inductor."""
-    from bandsmith.analysis.inductor import winding_effect
-
-    try:
-        effects = winding_effect(netlist, opamp=opamp)
-    except InputError:
-        return ""
-    lines = []
-    for w in effects:
-        if w.rl_ohm <= 0:
-            lines.append(f"Inductor {w.ref}: lossless ({w.series_ref} = 0); give its winding resistance to see what it costs.")
-        elif math.isfinite(w.inductor_q) and math.isfinite(w.q_lossless):
-            lines.append(
-                f"Inductor {w.ref}: Q at f0 = {w.inductor_q:.3g} (ωL/{w.series_ref}, {w.series_ref} = {format_value(w.rl_ohm, 'Ω', digits=3)}); "
-                f"its winding lowers the circuit's Q from {w.q_lossless:.4g} to {w.q:.4g} ({-100.0 * w.q_drop:+.2f} %)."
-            )
-    return " ".join(lines)
-
-
-class WindingLine(QtWidgets.QLabel):
-    """The line under a pane's candidate chooser that says what the inductor's winding does
-    (:func:`winding_text`); hidden while there is nothing to say."""
-
-    def __init__(self, parent: QtWidgets.QWidget | None = None):
-        super().__init__(parent)
-        self.setObjectName("windingLine")
-        self.setWordWrap(True)
-        self.hide()
-
-    def show_text(self, text: str) -> None:
-        """Show ``text``, or hide the line for an empty one."""
-        self.setText(text)
-        self.setVisible(bool(text))
 
 
 # ---------------------------------------------------------------------------------------------
