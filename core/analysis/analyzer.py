@@ -290,34 +290,43 @@ def amplifier_needs(
 ) -> tuple[AmplifierNeeds, ...]:
     """Each amplifier's output swing, slew rates and output current (ideal op-amps).
 
-    One solve at f0 gives every op-amp's output voltage and current; the step slew of each
-    output comes from the exact transfer function to that output node
-    (:func:`bandsmith.analysis.timeresponse.max_step_slope`). ``vin_v`` is the input's peak (V).
+    The exact transfer functions from the input to every op-amp's output node and output current
+    (:func:`bandsmith.solver.rational.node_rationals`, one set of samples) give their values at f0
+    and the step slew of each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes`);
+    with a load, one solve of the loaded circuit at f0 gives the values. ``vin_v`` is the input's
+    peak (V).
     """
     if not math.isfinite(f0_hz):
         return tuple(AmplifierNeeds(e.ref, e.nodes[2], math.nan, math.nan, math.nan, math.nan) for e in netlist.opamps)
-    loaded = netlist
-    if rload_ohm is not None:
-        loaded = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
-    x, layout = solve_at(loaded, 2j * math.pi * f0_hz)
+    s0 = 2j * math.pi * f0_hz
     system = nominal_system(netlist)
     if w_ref is None:
         w_ref = 2.0 * math.pi * f0_hz
-    at_nodes = node_rationals(system, [system.layout.node_index[e.nodes[2]] for e in netlist.opamps], w_ref)
-    out = []
+    amps = netlist.opamps
+    nodes = [system.layout.node_index[e.nodes[2]] for e in amps]
+    if rload_ohm is None:  # the outputs' voltages and currents at f0 from the same transfer functions
+        both = node_rationals(system, nodes + [system.layout.opamp_row[e.ref] for e in amps], w_ref)
+        at_f0 = np.abs(both.at_s(np.array([s0]))[:, 0]).tolist()
+        at_nodes = both.take(slice(0, len(amps)))
+        volts, amperes = at_f0[: len(amps)], at_f0[len(amps) :]
+    else:
+        loaded = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
+        x, layout = solve_at(loaded, s0)
+        volts = [abs(x[layout.node_index[e.nodes[2]]]) for e in amps]
+        amperes = [abs(x[layout.opamp_row[e.ref]]) for e in amps]
+        at_nodes = node_rationals(system, nodes, w_ref)
     slopes = max_step_slopes(at_nodes)  # one denominator: the poles and exponentials shared
-    for i, e in enumerate(netlist.opamps):
-        node = e.nodes[2]
-        v = abs(x[layout.node_index[node]]) * vin_v
-        slope = slopes[i]
+    out = []
+    for e, v, i_out, slope in zip(amps, volts, amperes, slopes):
+        v *= vin_v
         out.append(
             AmplifierNeeds(
                 ref=e.ref,
-                node=node,
+                node=e.nodes[2],
                 vout_peak_v=v,
                 slew_sine_v_per_s=2.0 * math.pi * f0_hz * v,
                 slew_step_v_per_s=slope * vin_v,
-                iout_peak_a=abs(x[layout.opamp_row[e.ref]]) * vin_v,
+                iout_peak_a=i_out * vin_v,
             )
         )
     return tuple(out)

@@ -155,6 +155,15 @@ def _pure_bandpass_slope(num: np.ndarray, den: np.ndarray, w_ref: float) -> floa
     return None
 
 
+def _leading_zeros_dropped(row: np.ndarray) -> np.ndarray:
+    """A coefficient row (highest power first) from its first nonzero entry on (its last entry
+    if all are zero): :meth:`~bandsmith.solver.rational.Rational.item` of one row, for a handful
+    of coefficients at a fraction of its cost."""
+    values = row.tolist()
+    first = next((k for k, v in enumerate(values) if v != 0), len(values) - 1)
+    return row[first:]
+
+
 def max_step_slopes(h: Rational) -> list[float]:
     """:func:`max_step_slope` of every member of ``h``.
 
@@ -166,8 +175,7 @@ def max_step_slopes(h: Rational) -> list[float]:
     out: list[float | None] = []
     groups: dict[tuple, list[tuple[int, np.ndarray]]] = {}
     for i, w in enumerate(h.w_ref.tolist()):
-        one = h.item(i)
-        num, den = one.num[0], one.den[0]
+        num, den = _leading_zeros_dropped(h.num[i]), _leading_zeros_dropped(h.den[i])  # Rational.item's
         out.append(_pure_bandpass_slope(num, den, w))
         if out[i] is None:
             b, a = coefficients_in_s(num, den, w)
