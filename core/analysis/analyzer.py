@@ -262,7 +262,22 @@ class Analysis:
 
 
 def is_stable(h: Rational, i: int = 0) -> bool:
-    """True when every pole of member ``i`` has a negative real part (to 1e-9 of its size)."""
+    """True when every pole of member ``i`` has a negative real part (to 1e-9 of its size).
+
+    A second-order denominator ``a2·p² + a1·p + a0`` has its poles in closed form (a complex
+    pair's real part ``−a1/(2·a2)`` and size ``√(a0/a2)``; real poles by the cancellation-free
+    quadratic formula), the same test without an eigenvalue call; any other goes through
+    :meth:`~bandsmith.solver.rational.Rational.poles`."""
+    den = h.den[i].tolist()
+    while len(den) > 1 and den[0] == 0:
+        den = den[1:]
+    if len(den) == 3 and den[2] != 0:
+        a2, a1, a0 = den
+        disc = a1 * a1 - 4.0 * a2 * a0
+        if disc < 0:
+            return -a1 / (2.0 * a2) < 1e-9 * math.sqrt(a0 / a2)
+        q = -0.5 * (a1 + math.copysign(math.sqrt(disc), a1))
+        return q != 0 and q / a2 < 0 and a0 / q < 0  # both real poles negative (a zero pole is not)
     p = h.poles(i)
     return bool(np.all(p.real < 1e-9 * np.abs(p))) if p.size else True
 

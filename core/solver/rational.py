@@ -303,12 +303,14 @@ def node_rationals(system: MnaSystem, indices, w_ref: float) -> Rational:
     w = np.array([float(w_ref)])
     one = MnaSystem(system.G[:1], system.C[:1], system.layout, system.output_index, None)
     k, a = _samples(one, w)
-    den_v = np.linalg.det(a)[0]
-    b = np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None]
-    x = np.linalg.solve(a, b)[0, :, :, 0]  # (K, n)
+    a = a[0]  # (K, n, n)
+    den_v = np.linalg.det(a)
+    x = np.linalg.solve(a, system.source_vector().astype(complex)[:, None])[:, :, 0]  # (K, n)
     idx = list(indices)
-    num_c = _trim(_coefficients((x[:, idx] * den_v[:, None]).T, k))
-    den_c = _trim(_coefficients(den_v[None, :], k))
+    # the determinant and every Cramer numerator from one transform; each trimmed as alone
+    both = _coefficients(np.concatenate([den_v[None, :], (x[:, idx] * den_v[:, None]).T]), k)
+    num_c = _trim(both[1:])
+    den_c = _trim(both[:1])
     scale = np.max(np.abs(den_c))
     den = np.broadcast_to(den_c / scale, (len(idx), den_c.shape[1]))
     return Rational(num_c / scale, np.array(den), np.full(len(idx), float(w_ref)))
