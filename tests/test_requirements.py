@@ -282,3 +282,24 @@ def test_unstable_sallen_key_is_flagged():
     assert any("unstable" in w for w in a.warnings)
     stable = Candidate("sallen-key", dict(values, RB=20e3)).analyze()  # K = 3 < 4
     assert stable.stable_ideal and not stable.warnings
+
+
+def test_stability_of_a_second_order_denominator_matches_its_numpy_roots():
+    # is_stable's closed form for a quadratic denominator against the poles numpy.roots finds
+    # (the test it applies to any other degree): random quadratics over six decades, with
+    # a zero middle or constant coefficient and near-marginal pairs among them.
+    from bandsmith.analysis.analyzer import is_stable
+    from bandsmith.solver.rational import Rational
+
+    rng = np.random.default_rng(5)
+    for k in range(3000):
+        den = rng.normal(size=3) * 10 ** rng.uniform(-3, 3, 3)
+        if k % 5 == 0:
+            den[1] = 0.0
+        if k % 7 == 0:
+            den[2] = 0.0
+        if k % 11 == 0:
+            den[1] *= 1e-12
+        h = Rational(np.array([[1.0, 0.0]]), den[None, :], np.array([2e3]))
+        p = np.roots(den)
+        assert is_stable(h) == bool(np.all(p.real < 1e-9 * np.abs(p))), den
