@@ -12,6 +12,7 @@ instead (scipy.linalg.expm, batched over time).
 from __future__ import annotations
 
 import cmath
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -155,6 +156,56 @@ def _pure_bandpass_slope(num: np.ndarray, den: np.ndarray, w_ref: float) -> floa
     return None
 
 
+def _second_order_slope(b: np.ndarray, a: np.ndarray) -> float | None:
+    """The largest ``|h(t)|``, ``t > 0``, of the impulse response of ``b(s)/a(s)`` for a monic
+    quadratic ``a`` with two distinct poles in the left half-plane and ``b`` of degree two at
+    most (coefficients in ``s``, highest first); None otherwise (the sampled response then).
+
+    Less its direct part, ``b/a = d + (r1·s + r0)/a`` and ``h(t) = Σ R_i·e^{p_i t}`` with
+    ``R_i = (r1·p_i + r0)/(p_i − p_j)`` and ``h(0+) = r1``. A complex pair ``σ ± jω`` gives
+    ``h'(t) = 2|C|·e^{σt}·cos(ωt + arg C)``, ``C = R_1·p_1``: the extrema fall every ``π/ω`` and
+    shrink by ``e^{σπ/ω}`` each time, so the first one after ``t = 0`` is the largest of them. Real
+    poles give at most one extremum, where ``e^{(p1 − p2)t} = −R_2·p_2/(R_1·p_1)``. The largest
+    ``|h|`` is then ``|h(0+)|`` or that first extremum's: exact, where the sampled response only
+    comes within its grid's spacing (derived)."""
+    if a.size != 3 or b.size > 3 or b.size < 1:
+        return None
+    a1, a0 = float(a[1]), float(a[2])
+    bb = [0.0] * (3 - b.size) + b.tolist()
+    d = bb[0]
+    r1, r0 = bb[1] - d * a1, bb[2] - d * a0
+    if abs(r1) <= 1e-8:  # the remainder's leading term as _polydiv strips it
+        r1 = 0.0
+    disc = a1 * a1 - 4.0 * a0
+    if not (a1 > 0 and a0 > 0 and math.isfinite(disc)) or abs(disc) <= 1e-10 * a1 * a1 + 1e-300:
+        return None  # not stable, or (nearly) a double pole: the sampled response
+    if disc < 0:
+        p1 = complex(-0.5 * a1, 0.5 * math.sqrt(-disc))
+        r_1 = (r1 * p1 + r0) / (p1 - p1.conjugate())
+        c = r_1 * p1
+        if c == 0:
+            return abs(r1)
+        phase = cmath.phase(c)
+        k = math.floor((phase - 0.5 * math.pi) / math.pi) + 1  # the first extremum after t = 0
+        t1 = (0.5 * math.pi + k * math.pi - phase) / p1.imag
+        if t1 <= 0:
+            t1 += math.pi / p1.imag
+        return max(abs(r1), abs(2.0 * (r_1 * cmath.exp(p1 * t1)).real))
+    q = -0.5 * (a1 + math.sqrt(disc))
+    p1, p2 = q, a0 / q
+    if abs(p1 - p2) <= 1e-5 * max(abs(p1), abs(p2)):  # as step_response's gap test
+        return None
+    r_1, r_2 = (r1 * p1 + r0) / (p1 - p2), (r1 * p2 + r0) / (p2 - p1)
+    best = abs(r1)
+    if r_1 != 0 and r_2 != 0:
+        ratio = -r_2 * p2 / (r_1 * p1)
+        if ratio > 0:
+            t = math.log(ratio) / (p1 - p2)
+            if t > 0:
+                best = max(best, abs(r_1 * math.exp(p1 * t) + r_2 * math.exp(p2 * t)))
+    return best
+
+
 def _leading_zeros_dropped(row: np.ndarray) -> np.ndarray:
     """A coefficient row (highest power first) from its first nonzero entry on (its last entry
     if all are zero): :meth:`~bandsmith.solver.rational.Rational.item` of one row, for a handful
@@ -179,7 +230,9 @@ def max_step_slopes(h: Rational) -> list[float]:
         out.append(_pure_bandpass_slope(num, den, w))
         if out[i] is None:
             b, a = coefficients_in_s(num, den, w)
-            groups.setdefault(tuple(a.tolist()), []).append((i, b))
+            out[i] = _second_order_slope(b, a)
+            if out[i] is None:
+                groups.setdefault(tuple(a.tolist()), []).append((i, b))
     for key, members in groups.items():
         a = np.array(key)
         poles = _roots(a)
@@ -211,9 +264,13 @@ def max_step_slope(h: Rational, *, i: int = 0) -> float:
     For a stable pure second-order band-pass ``b1·p/(a2·p² + a1·p + a0)`` (``p = s/w_ref``) it is
     ``|h(0+)| = |b1|·w_ref/a2`` exactly: the impulse response starts there and every later
     extremum is smaller by ``e^(−ω0·t/(2Q))`` (derived beside the test of the step slew in
-    tests/test_requirements.py), which equals ``2π·BW·|G|``. Any other circuit:
-    :func:`step_response`'s ``max_slope_per_s``.
+    tests/test_requirements.py), which equals ``2π·BW·|G|``. Any other second-order transfer
+    function (the voltage at another node of a two-integrator loop, say): the exact largest
+    ``|h|`` of :func:`_second_order_slope`. Any other circuit: :func:`step_response`'s
+    ``max_slope_per_s``.
     """
     one = h.item(i)
     slope = _pure_bandpass_slope(one.num[0], one.den[0], float(h.w_ref[i]))
+    if slope is None:
+        slope = _second_order_slope(*coefficients_in_s(one.num[0], one.den[0], float(h.w_ref[i])))
     return step_response(h, i=i).max_slope_per_s if slope is None else slope
