@@ -482,7 +482,7 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     return float(w_ref), h, family
 
 
-def _amp_family_expanded(netlist: Netlist, log_parts: Mapping[str, float], w_ref: float, scale: float) -> AmpFamily | None:
+def _amp_family_expanded(netlist: Netlist, log_parts: Mapping[str, float], w_ref: float, scale: float) -> AmpFamily:
     """The :class:`~bandsmith.solver.rational.AmpFamily` of a several-op-amp circuit from its
     expansion with the op-amps' stamps (:meth:`bandsmith.solver.expansion.Expansion.opamp_terms`:
     one product over its monomials), in ``p = s/w_ref`` and divided by ``scale``; the nominal
