@@ -26,6 +26,7 @@ fitted and verified on first use as above.
 from __future__ import annotations
 
 import math
+import os
 from dataclasses import dataclass
 
 import numpy as np
@@ -188,54 +189,63 @@ def _digest(entry: bytes) -> str:
 def _load_table() -> dict:
     """The shipped table's index, ``{hash: (start, end, digest)}`` byte offsets of each entry's JSON
     object from the end of the index line and the digest of its bytes, ``"@base"``: where that is,
-    and ``"@raw"``: the file's bytes. Empty when the file is missing, stale (its stamp is not
-    :func:`_table_stamp`) or not laid out as the table. Only the header is parsed here; an entry
-    is parsed when asked for (:func:`_table_line`)."""
+    and ``"@path"``: the file. Empty when the file is missing, stale (its stamp is not
+    :func:`_table_stamp`) or not laid out as the table. Only the three header lines are read and
+    parsed here; an entry is read and parsed when asked for (:func:`_table_line`)."""
     global _TABLE
     if _TABLE is None:
         _TABLE = {}
+        path = table_path()
         try:
-            with open(table_path(), "rb") as fh:
-                raw = fh.read()
+            with open(path, "rb") as fh:
+                head = [fh.readline() for _ in range(3)]
+                size = os.fstat(fh.fileno()).st_size
         except OSError:
             return _TABLE
         try:
-            _TABLE = _parse_header(raw)
+            _TABLE = _parse_header(head, size)
         except Exception:  # noqa: BLE001 - whatever is wrong with the file, the fits are made instead
             _TABLE = {}
+        if _TABLE:
+            _TABLE["@path"] = path
     return _TABLE
 
 
-def _parse_header(raw: bytes) -> dict:
+def _parse_header(head: list[bytes], size: int) -> dict:
+    """The index of the header lines ``head`` of a file of ``size`` bytes (:func:`_load_table`)."""
     import json
 
     # "{", then "stamp": {...}, then "index": {...}, then one entry per line: "<hash>": {...},
-    parts = raw.split(b"\n", 3)
-    first, stamp, index = (parts + [b"", b"", b""])[:3]
-    if not (len(parts) == 4 and first == b"{" and stamp.startswith(b'"stamp": ') and index.startswith(b'"index": ')
+    if not all(line.endswith(b"\n") for line in head):
+        return {}
+    first, stamp, index = (line[:-1] for line in head)
+    if not (first == b"{" and stamp.startswith(b'"stamp": ') and index.startswith(b'"index": ')
             and json.loads(stamp[9:].rstrip(b",")) == _table_stamp()):
         return {}
-    base = len(first) + len(stamp) + len(index) + 3
+    base = sum(len(line) for line in head)
     table = {}
     for name, span in json.loads(index[9:].rstrip(b",")).items():
         start, end, digest = span
-        if not (isinstance(start, int) and isinstance(end, int) and isinstance(digest, str) and 0 <= start <= end <= len(raw) - base):
+        if not (isinstance(start, int) and isinstance(end, int) and isinstance(digest, str) and 0 <= start <= end <= size - base):
             return {}
         table[str(name)] = (start, end, digest)
     table["@base"] = base
-    table["@raw"] = raw
     return table
 
 
 def _table_line(name: str) -> bytes | None:
-    """The JSON object of entry ``name`` in the shipped table, or None (not there, or its bytes do
-    not match their digest)."""
+    """The JSON object of entry ``name`` in the shipped table, or None (not there, not readable,
+    or its bytes do not match their digest)."""
     table = _load_table()
     span = table.get(name)
     if span is None:
         return None
-    base = table["@base"]
-    line = table["@raw"][base + span[0] : base + span[1]]
+    try:
+        with open(table["@path"], "rb") as fh:
+            fh.seek(table["@base"] + span[0])
+            line = fh.read(span[1] - span[0])
+    except OSError:
+        return None
     return line if _digest(line) == span[2] else None
 
 
