@@ -28,7 +28,7 @@ from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
 from bandsmith.common.values import format_value, parse_value
-from bandsmith.design.standard import Choice, choose_standard, errors_of, figure_misses
+from bandsmith.design.standard import Choice, choose_standard_many, errors_of, figure_misses
 
 __all__ = [
     "Spec",
@@ -277,9 +277,10 @@ def designs_or_errors(
     made: list = []
     for t in topology_ids:
         try:
-            made.append(_prepare(t, spec, series, fixed, conditions, width))
+            made.append(_prepare(t, spec, series, fixed, conditions))
         except InputError as exc:
             made.append(exc)
+    _choose_parts(made, spec, series, conditions, width)
     ready = [i for i, m in enumerate(made) if isinstance(m, _Prepared)]
     analyses = analyze_candidates([made[i].candidate for i in ready], conditions) if ready else []
     for i, analysis in zip(ready, analyses):
@@ -299,8 +300,18 @@ class _Prepared:
     candidate: Candidate
 
 
-def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Conditions, width: int) -> DesignResult | _Prepared:
-    """The design up to its parts: a :class:`_Prepared`, or the infeasible result."""
+@dataclass(frozen=True, slots=True)
+class _Exact:
+    """A design up to its exact values, waiting for its standard parts (:func:`_choose_parts`)."""
+
+    topology: Topology
+    exact: dict
+    notes: tuple[str, ...]
+    pins: dict
+
+
+def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Conditions) -> DesignResult | _Exact:
+    """The design up to its exact values: an :class:`_Exact`, or the infeasible result."""
     topo = get_topology(topology_id)
     if not isinstance(spec, Spec):
         raise InputError("spec", "must be a design target (bandsmith.design.designer.Spec)")
@@ -326,16 +337,27 @@ def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Condi
 
         exact, absorbed = absorb_source(topo.build(exact), exact, conditions.rsource_ohm, tuple(pins))
         notes = notes + absorbed
+    return _Exact(topo, exact, notes, pins)
 
-    choice = None
+
+def _choose_parts(made: list, spec: Spec, series: str, conditions: Conditions, width: int) -> None:
+    """Each :class:`_Exact` of ``made`` replaced by its :class:`_Prepared` (its parts chosen) or by
+    the infeasible result: the standard-value searches of every circuit in one call
+    (:func:`bandsmith.design.standard.choose_standard_many`), each circuit's parts chosen alone."""
+    todo = [i for i, m in enumerate(made) if isinstance(m, _Exact)]
     if series == "exact":
-        chosen = dict(exact)
-    else:
-        choice = choose_standard(topo, exact, spec, series, keep=tuple(pins), tolerances=conditions.tolerances, width=width)
+        for i in todo:
+            m = made[i]
+            made[i] = _Prepared(m.topology, m.exact, m.notes, m.pins, None, Candidate(m.topology.id, dict(m.exact)))
+        return
+    choices = choose_standard_many([(made[i].topology, made[i].exact, spec, series, tuple(made[i].pins), conditions.tolerances, width)
+                                    for i in todo])
+    for i, choice in zip(todo, choices):
+        m = made[i]
         if choice.values is None:
-            return _infeasible(topo, spec, series, _NO_STANDARD.format(series=series), pins, conditions, exact, notes)
-        chosen = choice.values
-    return _Prepared(topo, exact, notes, pins, choice, Candidate(topo.id, chosen))
+            made[i] = _infeasible(m.topology, spec, series, _NO_STANDARD.format(series=series), m.pins, conditions, m.exact, m.notes)
+        else:
+            made[i] = _Prepared(m.topology, m.exact, m.notes, m.pins, choice, Candidate(m.topology.id, choice.values))
 
 
 def _conclude(made: _Prepared, analysis: Analysis, spec: Spec, series: str, conditions: Conditions) -> DesignResult:

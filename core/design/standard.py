@@ -24,19 +24,20 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Mapping, Sequence
 
 import numpy as np
 
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
 from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
-from bandsmith.analysis.figures import Figures, measure
+from bandsmith.analysis.figures import Figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
+from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
 
-__all__ = ["Choice", "errors_of", "figure_misses", "weighted_error", "choose_standard", "part_series_of"]
+__all__ = ["Choice", "errors_of", "figure_misses", "weighted_error", "choose_standard", "choose_standard_many", "part_series_of"]
 
 
 # Batches up to this size are measured by exact roots (global, and cheaper there), larger on a grid.
@@ -167,6 +168,58 @@ def choose_standard(
 
     See the module notes. Optional parts (the winding resistance) are never changed.
     """
+    return choose_standard_many([(topology, exact, spec, series, keep, tolerances, width)])[0]
+
+
+def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
+    """:func:`choose_standard` of several circuits at once, each item ``(topology, exact, spec,
+    series, keep, tolerances, width)``: every circuit builds its own combinations and chooses its
+    own parts; the combinations that are second-order band-passes (an ideal op-amp's, the lossless
+    tank's) are measured in one closed-form batch (:func:`bandsmith.analysis.figures.measure_many`:
+    the same figures, member by member, as each batch alone)."""
+    made = [_combination_search(*item) for item in items]
+    live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
+    by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
+    with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
+        # exact polynomial roots up to a few thousand members; a grid around the target beyond
+        figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
+        for i in live:
+            m = made[i]
+            fig = figs[i] if i in figs else measure(m.h, grid=search_grid(m.spec.q))
+            cost = np.where(hurwitz_stable(m.h.den) & fig.valid, _weighted_batch(fig, m.spec, m.tolerances), np.inf)
+            made[i] = m.choice(cost)
+    return made
+
+
+@dataclass(frozen=True, slots=True)
+class _Search:
+    """One circuit's combinations (``every``: parts × combinations, the last member every part
+    rounded alone) and their transfer functions ``h``, waiting for their cost."""
+
+    values: dict[str, float]
+    free: list[str]
+    every: np.ndarray
+    h: Rational
+    spec: Spec
+    tolerances: Tolerances
+
+    def choice(self, cost: np.ndarray) -> Choice:
+        """The combination of least cost (the last member, every part rounded alone, only compared)."""
+        i = int(np.argmin(cost[:-1]))
+        chosen = dict(self.values)
+        chosen.update(zip(self.free, self.every[:, i].tolist()))
+        return Choice(
+            values=chosen if math.isfinite(cost[i]) else None,
+            combinations=int(cost.size - 1),
+            weighted=float(cost[i]),
+            weighted_rounded=float(cost[-1]),
+        )
+
+
+def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
+                        tolerances: Tolerances, width: int) -> Choice | _Search:
+    """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
+    or its :class:`Choice` at once when no part is free."""
     values = topology.values_from(dict(exact))
     free = [c.ref for c in topology.components if c.required and c.ref not in keep]
     netlist = topology.build(values)
@@ -188,17 +241,6 @@ def choose_standard(
     sizes = tuple(len(o) for o in options)
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
     every = flat[_flat_combination_index(sizes)]  # (parts, combinations)
-    with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
+    with np.errstate(all="ignore"):
         h = _combinations(netlist, dict(zip(free, every)), spec.w0)
-        # exact polynomial roots up to a few thousand members; a grid around the target beyond
-        fig = measure(h) if h.batch <= _ROOTS_UP_TO else measure(h, grid=search_grid(spec.q))
-        cost = np.where(hurwitz_stable(h.den) & fig.valid, _weighted_batch(fig, spec, tolerances), np.inf)
-    i = int(np.argmin(cost[:-1]))
-    chosen = dict(values)
-    chosen.update(zip(free, every[:, i].tolist()))
-    return Choice(
-        values=chosen if math.isfinite(cost[i]) else None,
-        combinations=int(cost.size - 1),
-        weighted=float(cost[i]),
-        weighted_rounded=float(cost[-1]),
-    )
+    return _Search(values, free, every, h, spec, tolerances)
