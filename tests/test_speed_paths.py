@@ -202,3 +202,26 @@ def test_a_candidate_that_cannot_be_analysed_does_not_stop_the_others(monkeypatc
     out = cmod.analyze_candidates([good, bad, good], cmod.Conditions())
     assert isinstance(out[1], InputError) and out[1].field == "parts"
     assert out[0].to_json() == good.analyze(cmod.Conditions()).to_json() == out[2].to_json()
+
+
+@pytest.mark.parametrize("series", ["E12", "E24", "E96"])
+def test_standard_searches_made_together_equal_each_made_alone(series):
+    """choose_standard_many (every circuit's combinations measured in one closed-form batch, as a
+    compare and each stage of a chain make them) against choose_standard circuit by circuit: the
+    same Choice, exactly (the closed form works member by member). A consistency check of our own
+    two paths, no outside source."""
+    from bandsmith.circuits import all_topologies
+    from bandsmith.design.designer import Spec
+    from bandsmith.analysis.tolerances import Tolerances
+    from bandsmith.design.standard import choose_standard, choose_standard_many
+
+    spec = Spec(3.3e3, 4.0, 3.0)
+    items = []
+    for topo in all_topologies():
+        exact = topo.values_from(dict(topo.synthesize(spec, {}, series=series)))
+        items.append((topo, exact, spec, series, (), Tolerances(), 1))
+    together = choose_standard_many(items)
+    assert len(together) == len(items) and all(c.values is not None for c in together)
+    for item, choice in zip(items, together):
+        topo, exact, spec_, series_, keep, tol, width = item
+        assert choice == choose_standard(topo, exact, spec_, series_, keep=keep, tolerances=tol, width=width), topo.id
