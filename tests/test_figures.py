@@ -212,7 +212,7 @@ def test_measure_from_holds_a_narrow_peak_to_many_digits():
     # A state-variable loop whose finite op-amp lifts its Q into the thousands (its GBW a few
     # decades above f0): measure_from's f0 and band edges against 60-digit arithmetic (mpmath,
     # a general-purpose reference library) on the same coefficients. At the Q of 9 148 found here
-    # the companion-matrix roots of measure() are off by 6.4e-8 of Q, Newton's method by 1.6e-8: Q
+    # the companion-matrix roots of measure() are off by 1.9e-8 of Q, Newton's method by 1.6e-8: Q
     # is f0 over the difference of the band edges, so an edge's rounding (about 1e-12 of it, that
     # of the half-power polynomial at such a Q) comes back multiplied by Q.
     from bandsmith.analysis.figures import measure_from

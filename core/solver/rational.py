@@ -13,7 +13,7 @@ from __future__ import annotations
 import functools
 import itertools
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
@@ -433,50 +433,24 @@ class AmpFamily:
     num_terms: tuple[np.ndarray, ...]
     den_terms: tuple[np.ndarray, ...]
     w_ref: float
-    # per open-loop gain: the polynomials in powers of −β (:meth:`_in_beta`), made when first asked
-    _by_alpha: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
         """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s).
 
         ``x^j = (−α − β·p)^j = Σ_i C(j, i)·(−β)^i·(−α)^(j−i)·p^i`` (binomial theorem), so both
-        polynomials are one weighted sum of the shifted ``N_j``, ``D_j``: a single product. With
-        one open-loop gain for every member (a GBW ladder) the sum over ``j`` is taken once per
-        gain, and each member's polynomials are a product of the powers of its ``−β``."""
+        polynomials are one weighted sum of the shifted ``N_j``, ``D_j``: a single product."""
         gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
-        a0 = np.asarray(a0, dtype=float)
+        alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
         beta = self.w_ref / (2.0 * np.pi * gbw)
         m = len(self.den_terms) - 1
-        if a0.ndim == 0 or (a0.ndim == 1 and a0.size > 1 and a0.strides[0] == 0):
-            t_num, t_den = self._in_beta(float(a0.reshape(-1)[0]))
-            pb = (-beta)[:, None] ** np.arange(m + 1.0)
-            num = pb @ t_num
-            den = pb @ t_den
-        else:
-            alpha = np.broadcast_to(1.0 / a0, gbw.shape)
-            weights = _family_weights(alpha, beta, m)
-            num = weights @ _family_shifted(self.num_terms, m)
-            den = weights @ _family_shifted(self.den_terms, m)
+        weights = _family_weights(alpha, beta, m)
+        num = weights @ _family_shifted(self.num_terms, m)
+        den = weights @ _family_shifted(self.den_terms, m)
         den = _lead_trim(den)
         num = _lead_trim(num)
         scale = np.max(np.abs(den), axis=1, keepdims=True)
         scale[scale == 0] = 1.0
         return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
-
-    def _in_beta(self, a0: float) -> tuple[np.ndarray, np.ndarray]:
-        """``N`` and ``D`` for an open-loop gain ``a0`` as polynomials in ``−β``: row ``i`` the
-        coefficient of ``(−β)^i``, ``Σ_j C(j, i)·(−α)^(j−i)·T_j·p^i`` (``(m + 1, length)`` each)."""
-        got = self._by_alpha.get(a0)
-        if got is None:
-            m = len(self.den_terms) - 1
-            _, i_pow, rest, comb = _family_pairs(m)
-            w = comb * (-1.0 / a0) ** rest  # (pairs,)
-            by_power = np.zeros((m + 1, i_pow.size))
-            by_power[i_pow, np.arange(i_pow.size)] = w
-            got = (by_power @ _family_shifted(self.num_terms, m), by_power @ _family_shifted(self.den_terms, m))
-            if len(self._by_alpha) < 8:
-                self._by_alpha[a0] = got
-        return got
 
 
 @functools.lru_cache(maxsize=16)
