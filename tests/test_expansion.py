@@ -105,17 +105,18 @@ def test_first_pass_by_expansion_agrees_with_the_solver(topo, monkeypatch):
 
 @pytest.mark.parametrize("topo", [t for t in all_topologies() if len(t.build(t.example).opamps) > 1], ids=lambda t: t.id)
 def test_opamp_terms_give_the_circuit_at_every_gbw(topo):
-    """The several-op-amp family from the expansion's monomials (Expansion.opamp_terms, as the
-    analysis builds it) against a direct MNA solve (numpy.linalg.solve of the stamped pencil, the
+    """The several-op-amp family from the expansion's monomials (Expansion.opamp_terms through
+    transfer.several_amp_family, as the analysis builds it) against a direct MNA solve (numpy.linalg.solve of the stamped pencil, the
     op-amps single-pole) at random part values, GBWs from 1e-2 to 1e6 times f0: 1e-9 relative."""
-    from bandsmith.analysis.analyzer import _UNIT_AMP, _amp_family_expanded
+    from bandsmith.analysis.transfer import several_amp_family
+    from bandsmith.solver.expansion import UNIT_OPAMP
 
     rng = np.random.default_rng(11)
     base = topo.build(topo.example)
     for _ in range(3):
         netlist = base.with_values({r: v * float(np.exp(rng.uniform(-0.3, 0.3))) for r, v in base.values().items()})
         w_ref = 2 * np.pi * 1e3
-        family = _amp_family_expanded(netlist, {r: float(np.log(v)) for r, v in netlist.values().items()}, w_ref, 1.0)
+        family = several_amp_family(netlist, w_ref)
         gbw = np.geomspace(10.0, 1e9, 8)
         s = 1j * np.geomspace(1e2, 1e5, 7)
         got = family.at(gbw, 1e5).at_s(s)
@@ -124,7 +125,7 @@ def test_opamp_terms_give_the_circuit_at_every_gbw(topo):
             a = system.G[0][None] + s[:, None, None] * system.C[0][None]
             x = np.linalg.solve(a, np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None])
             np.testing.assert_allclose(got[i], x[:, system.output_index, 0], rtol=1e-9)
-    exp, _ = unit_expansion(base, _UNIT_AMP)
+    exp, _ = unit_expansion(base, UNIT_OPAMP)
     assert exp.opamp_terms(np.zeros(len(exp.names))) is not None
     assert unit_expansion(base)[0].opamp_terms(np.zeros(len(base.passives))) is None  # no op-amp variables
 

@@ -29,11 +29,11 @@ from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure_from, measure_many
 from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
 from bandsmith.analysis.tolerances import Tolerances, within_tolerances
-from bandsmith.analysis.transfer import ideal_figures, nominal_system, transfer_function
+from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_family, transfer_function
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
-from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, amp_family, node_rationals, rational_and_family, reference_w
+from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, node_rationals, rational_and_family, reference_w
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes, step_response
 
 __all__ = [
@@ -410,10 +410,6 @@ class _FirstPass:
     family: OpAmpFamily | AmpFamily | None
 
 
-# An op-amp model whose stamps are 1 (``1/A0`` and ``1/ωt``, s-units) for the expansion below.
-_UNIT_AMP = OpAmpModel(gbw_hz=1.0 / (2.0 * math.pi), a0=1.0)
-
-
 @functools.lru_cache(maxsize=64)
 def _absent_mask(rows: int, n_var: int, gbw: int, a0: int) -> np.ndarray:
     """Absent stamps of the first pass: 1/ωt in every member but the last, 1/A0 in all."""
@@ -433,13 +429,13 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     With one op-amp the expansion carries its stamps, and one more member (``1/ωt = 1``) gives
     the :class:`~bandsmith.solver.rational.OpAmpFamily`; with several the ideal members come from
     the ideal-op-amp expansion (the one with the op-amps' stamps carries ``(m + 1)²`` times its
-    integer points) and the :class:`~bandsmith.solver.rational.AmpFamily` from the nominal member
-    of the one with them (:func:`_amp_family_expanded`)."""
+    integer points) and the :class:`~bandsmith.solver.rational.AmpFamily` from the one with them
+    (:func:`bandsmith.analysis.transfer.several_amp_family`)."""
     one = len(netlist.opamps) == 1
     if not netlist.opamps:
         return None
     try:
-        exp, variables = unit_expansion(netlist, _UNIT_AMP) if one else unit_expansion(netlist)
+        exp, variables = unit_expansion(netlist, UNIT_OPAMP) if one else unit_expansion(netlist)
     except ExpansionUnavailable:
         return None
     col = {name: j for j, name in enumerate(exp.names)}
@@ -470,7 +466,7 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     scale = np.abs(den_p).max(axis=1, keepdims=True)
     h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
     if not one:
-        return float(w_ref), h, _amp_family_expanded(netlist, dict(zip(exp.names, lr[0].tolist())), float(w_ref), scale[0, 0])
+        return float(w_ref), h, several_amp_family(netlist, float(w_ref))
     # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
     m_s = np.zeros(den.shape[1])
     m_s[1:] = (d0 - den[n_ideal])[:-1]
@@ -480,26 +476,6 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
         float(w_ref),
     )
     return float(w_ref), h, family
-
-
-def _amp_family_expanded(netlist: Netlist, log_parts: Mapping[str, float], w_ref: float, scale: float) -> AmpFamily:
-    """The :class:`~bandsmith.solver.rational.AmpFamily` of a several-op-amp circuit from its
-    expansion with the op-amps' stamps (:meth:`bandsmith.solver.expansion.Expansion.opamp_terms`:
-    one product over its monomials), in ``p = s/w_ref`` and divided by ``scale``; the nominal
-    circuit's sampled pencil (:func:`~bandsmith.solver.rational.amp_family`) where that expansion
-    is unavailable or not fitted yet (a fit of several op-amps' stamps takes up to a second).
-    ``log_parts``: the natural log of each part's value (unit expansion: its ratio)."""
-    try:
-        exp, _ = unit_expansion(netlist, _UNIT_AMP, fit=False)
-    except ExpansionUnavailable:
-        return amp_family(nominal_system(netlist), w_ref)
-    terms = exp.opamp_terms(np.array([log_parts.get(n, 0.0) for n in exp.names]))
-    if terms is None:
-        return amp_family(nominal_system(netlist), w_ref)
-    num, den = terms
-    # the unit expansion's s is p·w_ref: c·s^k = c·w_ref^k·p^k
-    to_num, to_den = (w_ref ** np.arange(t[0].size - 1, -1, -1.0) / scale for t in (num, den))
-    return AmpFamily(tuple(c * to_num for c in num), tuple(c * to_den for c in den), w_ref)
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:

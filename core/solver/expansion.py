@@ -36,8 +36,12 @@ from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import _ANGLE_OFFSET, Rational, _circle, _degree_bound, rational_from_system
 
-__all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path",
+__all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "UNIT_OPAMP", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path",
            "SMALL_BATCH", "TABLE_FORMAT"]
+
+# An op-amp model whose stamps are 1 (``1/A0`` and ``1/ωt``, s-units): with it a unit expansion's
+# op-amp ratios are 1 and its absent or unit stamps select the op-amp's terms.
+UNIT_OPAMP = OpAmpModel(gbw_hz=1.0 / (2.0 * math.pi), a0=1.0)
 
 # Largest number of integer points the expansion evaluates (2^14 for 14 one-degree parameters).
 MAX_POINTS = 1 << 14
