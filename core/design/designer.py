@@ -289,18 +289,6 @@ def designs_or_errors(
 
 
 @dataclass(frozen=True, slots=True)
-class _Prepared:
-    """A design with its parts chosen, waiting for its analysis."""
-
-    topology: Topology
-    exact: dict
-    notes: tuple[str, ...]
-    pins: dict
-    choice: Choice | None
-    candidate: Candidate
-
-
-@dataclass(frozen=True, slots=True)
 class _Exact:
     """A design up to its exact values, waiting for its standard parts (:func:`_choose_parts`)."""
 
@@ -308,6 +296,15 @@ class _Exact:
     exact: dict
     notes: tuple[str, ...]
     pins: dict
+
+
+@dataclass(frozen=True, slots=True)
+class _Prepared:
+    """A design with its parts chosen (``choice`` None for exact parts), waiting for its analysis."""
+
+    design: _Exact
+    choice: Choice | None
+    candidate: Candidate
 
 
 def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Conditions) -> DesignResult | _Exact:
@@ -347,8 +344,7 @@ def _choose_parts(made: list, spec: Spec, series: str, conditions: Conditions, w
     todo = [i for i, m in enumerate(made) if isinstance(m, _Exact)]
     if series == "exact":
         for i in todo:
-            m = made[i]
-            made[i] = _Prepared(m.topology, m.exact, m.notes, m.pins, None, Candidate(m.topology.id, dict(m.exact)))
+            made[i] = _Prepared(made[i], None, Candidate(made[i].topology.id, dict(made[i].exact)))
         return
     choices = choose_standard_many([(made[i].topology, made[i].exact, spec, series, tuple(made[i].pins), conditions.tolerances, width)
                                     for i in todo])
@@ -357,12 +353,13 @@ def _choose_parts(made: list, spec: Spec, series: str, conditions: Conditions, w
         if choice.values is None:
             made[i] = _infeasible(m.topology, spec, series, _NO_STANDARD.format(series=series), m.pins, conditions, m.exact, m.notes)
         else:
-            made[i] = _Prepared(m.topology, m.exact, m.notes, m.pins, choice, Candidate(m.topology.id, choice.values))
+            made[i] = _Prepared(m, choice, Candidate(m.topology.id, choice.values))
 
 
 def _conclude(made: _Prepared, analysis: Analysis, spec: Spec, series: str, conditions: Conditions) -> DesignResult:
     """The design of prepared parts, from their analysis."""
-    topo, exact, notes, pins = made.topology, made.exact, made.notes, made.pins
+    d = made.design
+    topo, exact, notes, pins = d.topology, d.exact, d.notes, d.pins
     if not bool(hurwitz_stable(analysis.h_ideal.den)[0]) or not bool(analysis.ideal.valid[0]):
         return _infeasible(topo, spec, series, "the chosen parts do not give a stable band-pass", pins, conditions, exact, notes)
     return _feasible(topo, spec, series, exact, made.candidate, analysis, notes, pins, conditions, made.choice)
