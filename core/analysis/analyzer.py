@@ -420,6 +420,19 @@ def _absent_mask(rows: int, n_var: int, gbw: int, a0: int) -> np.ndarray:
     return absent
 
 
+@functools.lru_cache(maxsize=64)
+def _sensitivity_steps(rows: int, n_var: int, cols: tuple[int, ...]) -> np.ndarray:
+    """The first pass's steps in the logs of the ratios, ``(rows, n_var)``: member ``1 + 2j`` has
+    column ``cols[j]`` up by :data:`SENS_STEP`, member ``2 + 2j`` down by it, the rest zero (adding
+    zero leaves a log exactly as it is). Read-only."""
+    steps = np.zeros((rows, n_var))
+    for j, c in enumerate(cols):
+        steps[1 + 2 * j, c] = SENS_STEP
+        steps[2 + 2 * j, c] = -SENS_STEP
+    steps.setflags(write=False)
+    return steps
+
+
 def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     """The first pass's transfer functions from the netlist's coefficient expansion
     (:mod:`bandsmith.solver.expansion`, built once per circuit) instead of solves: ``(w_ref, h, family)``, or
@@ -438,17 +451,14 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
         exp, variables = unit_expansion(netlist, UNIT_OPAMP) if one else unit_expansion(netlist)
     except ExpansionUnavailable:
         return None
-    col = {name: j for j, name in enumerate(exp.names)}
+    col = exp.column
     if any(r not in col for r in refs):
         return None
     # unit nominal values: the ratios are the values (an op-amp's are 1: stamps of 1); member
     # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
     rows = n_ideal + 1 if one else n_ideal
-    lr = np.tile(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]), (rows, 1))
-    cols = [col[r] for r in refs]
-    parts = np.arange(len(refs))
-    lr[1 + 2 * parts, cols] += SENS_STEP
-    lr[2 + 2 * parts, cols] -= SENS_STEP
+    lr = np.log([v.value / u.value for v, u in zip(variables, exp.variables)]) + _sensitivity_steps(
+        rows, len(variables), tuple(col[r] for r in refs))
     if one:
         num, den = exp.dense_log(lr, absent=_absent_mask(rows, len(variables), col["gbw"], col["a0"]))
     else:

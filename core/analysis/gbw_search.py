@@ -69,7 +69,7 @@ def search_gbw_many(
             continue
         ladder = _ladder(ref.f0_hz)
         gbw = ladder if probe is None else np.append(ladder, probe)
-        live.append((i, ladder))
+        live.append((i, ladder, ref))
         hs.append(with_gbw(netlist, family, w_ref, gbw, a0))
         refs.append(ideal)
     if not live:
@@ -78,12 +78,14 @@ def search_gbw_many(
     sizes = [x.batch for x in hs]
     ref = refs[0] if len(refs) == 1 else Figures.repeated(refs, sizes)
     fig = _near_figures(h, ref, tolerances)
+    ok = within_tolerances(fig, ref, tolerances)  # every member against its own candidate's figures
     start = 0
-    for (i, ladder), part, size in zip(live, hs, sizes):
+    for (i, ladder, one), part, size in zip(live, hs, sizes):
         netlist, ideal, family, w_ref, probe = items[i]
         on_ladder = fig.take(slice(start, start + ladder.size))
         at_probe = None if probe is None else (part.item(ladder.size), fig.take(slice(start + ladder.size, start + size)))
-        out[i] = (_conclude_gbw(netlist, ideal, family, w_ref, ladder, on_ladder, a0=a0, tolerances=tolerances), at_probe)
+        found = _conclude_gbw(netlist, one, family, w_ref, ladder, on_ladder, ok[start : start + ladder.size], a0=a0, tolerances=tolerances)
+        out[i] = (found, at_probe)
         start += size
     return out
 
@@ -133,11 +135,11 @@ def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, la
 
 
 def _conclude_gbw(
-    netlist: Netlist, ideal: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float, ladder: np.ndarray,
-    on_ladder: Figures, *, a0: float, tolerances: Tolerances,
+    netlist: Netlist, ref: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float, ladder: np.ndarray,
+    on_ladder: Figures, ok: np.ndarray, *, a0: float, tolerances: Tolerances,
 ) -> tuple[float | None, str | None]:
-    ref = ideal.item()
-    ok = within_tolerances(on_ladder, ref, tolerances)
+    """The required GBW from a candidate's coarse ladder: its ideal figures ``ref`` (scalars), the
+    figures ``on_ladder`` measured on the ``ladder`` and ``ok``, where they are within tolerance."""
     if not ok[-1]:
         top = measure(with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
         return None, (
@@ -152,7 +154,7 @@ def _conclude_gbw(
     if found is not None:
         return found, None
     fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
-    ok = within_tolerances(_near_figures(with_gbw(netlist, family, w_ref, fine, a0), ideal, tolerances), ref, tolerances)
+    ok = within_tolerances(_near_figures(with_gbw(netlist, family, w_ref, fine, a0), ref, tolerances), ref, tolerances)
     fails = np.flatnonzero(~ok)
     # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
     return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None

@@ -461,6 +461,7 @@ class Expansion:
         self.w_ref = float(w_ref)
         self.variables = variables
         self.names = tuple(v.name for v in self.variables)
+        self.column = {name: j for j, name in enumerate(self.names)}  # a variable's column by name
         sizes = [v.degree + 1 for v in self.variables]
         if math.prod(sizes) > MAX_POINTS:
             raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
