@@ -79,15 +79,17 @@ class Topology:
     order: int = 100
     notes: str = ""
     refs: tuple[str, ...] = field(init=False)
+    _by_ref: Mapping[str, Component] = field(init=False, repr=False, compare=False)
 
     def __post_init__(self):
         object.__setattr__(self, "refs", tuple(c.ref for c in self.components))
+        object.__setattr__(self, "_by_ref", {c.ref: c for c in self.components})
 
     def component(self, ref: str) -> Component:
-        for c in self.components:
-            if c.ref == ref:
-                return c
-        raise InputError(ref, f"{self.id} has no part {ref}; its parts are {', '.join(self.refs)}")
+        c = self._by_ref.get(ref)
+        if c is None:
+            raise InputError(ref, f"{self.id} has no part {ref}; its parts are {', '.join(self.refs)}")
+        return c
 
     def values_from(self, given: Mapping[str, float]) -> dict[str, float]:
         """Validate a set of part values (SI floats) and fill optional parts with their defaults.
@@ -99,7 +101,8 @@ class Topology:
             zero or below, or an optional part below zero.
         """
         for ref in given:
-            self.component(ref)
+            if ref not in self._by_ref:
+                self.component(ref)  # raises: no such part
         out = {}
         for c in self.components:
             if c.ref not in given:

@@ -89,8 +89,8 @@ class Netlist:
 
     def __post_init__(self):
         refs = [e.ref for e in self.elements]
-        dup = {r for r in refs if refs.count(r) > 1}
-        if dup:
+        if len(set(refs)) < len(refs):
+            dup = {r for r in refs if refs.count(r) > 1}
             raise InputError(sorted(dup)[0], "reference used twice in the netlist")
         seen: list[str] = []
         for e in self.elements:
