@@ -578,3 +578,17 @@ def test_a_full_session_takes_no_more_candidates_and_says_why():
     assert doc.duplicate("c0") is None and doc.add_candidate("mfb") is None
     assert len(doc.session.candidates) == MAX_CANDIDATES
     assert notices and "at most" in notices[-1]
+
+
+@pytest.mark.parametrize("q", [0.5, 0.3])
+def test_a_q_where_the_state_variable_leaves_no_gain_is_its_reason_not_a_crash(q, capsys):
+    # The state-variable band-pass's centre gain is at most 2·Q − 1 with equal capacitors (its
+    # gain-Q tie, derived from its transfer function, module notes): none at Q ≤ 0.5. The compare
+    # must say so for that circuit and go on with the others. Q 0.5 once raised ZeroDivisionError
+    # while the message was being written.
+    assert cli_main(["compare", "--f0", "1000", "--q", str(q), "--gain", "1.2", "--series", "E24", "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    sv = next(c for c in out["candidates"] if c["topology"] == "state-variable")
+    assert sv["feasible"] is False
+    assert "no gain at all" in sv["reason"] and "choose another circuit" in sv["reason"]
+    assert any(c["feasible"] for c in out["candidates"])

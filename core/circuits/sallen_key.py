@@ -105,8 +105,10 @@ def _normalised(spec: Spec, k, r):
     b = -(k * x1 - 1.0 / q)
     c = -(1.0 + r) / r
     root = np.sqrt(b * b - 4.0 * a * c)
-    # The positive root, written without cancellation for either sign of b.
-    y = np.where(b <= 0, (-b + root) / (2.0 * a), (2.0 * (1.0 + r) / r) / (b + root))
+    # The positive root, written without cancellation for either sign of b (the branch not taken
+    # may divide by zero: K = 1 on the grid's edge, or b + root = 0).
+    with np.errstate(divide="ignore", invalid="ignore"):
+        y = np.where(b <= 0, (-b + root) / (2.0 * a), (2.0 * (1.0 + r) / r) / (b + root))
     return x1, y - x1, 1.0 / (r * y)
 
 

@@ -99,6 +99,12 @@ def _unit(spec: Spec, c1: float, c2: float, ratio: float | None) -> dict[str, fl
     # ω0/Q = (1 + k)/(R2·Gs·R·C1), so R2·Gs = (1 + k)·Q/(ω0·R·C1)
     r2gs = (1.0 + k) * spec.q / (w * r * c1)
     spare = r2gs - 1.0 - spec.gain  # R2/R7
+    if not r2gs - 1.0 > 0:  # no gain at all is left (Q of 0.5 or below with equal capacitors)
+        raise Infeasible(
+            f"the state-variable band-pass's centre gain is tied to Q: with these capacitors it reaches "
+            f"at most {r2gs - 1.0:.4g} (2·Q − 1 = {2.0 * spec.q - 1.0:.4g} with equal capacitors), so at Q "
+            f"{spec.q:.4g} it gives no gain at all; choose another circuit"
+        )
     if not spare > 0:
         raise Infeasible(
             f"the state-variable band-pass's centre gain is tied to Q: with these capacitors it reaches "
