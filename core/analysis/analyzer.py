@@ -306,9 +306,10 @@ def amplifier_needs(
     """Each amplifier's output swing, slew rates and output current (ideal op-amps).
 
     The exact transfer functions from the input to every op-amp's output node and output current
-    (:func:`bandsmith.solver.rational.node_rationals`, one set of samples) give their values at f0
-    and the step slew of each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes`);
-    with a load, one solve of the loaded circuit at f0 gives the values. ``vin_v`` is the input's
+    (:func:`bandsmith.solver.rational.node_rationals`, one set of samples) give the step slew of
+    each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes`), and the circuit solved
+    at f0 in the same batch gives the values there; with a load, one solve of the loaded circuit
+    at f0 gives the values. ``vin_v`` is the input's
     peak (V).
     """
     if not math.isfinite(f0_hz):
@@ -319,9 +320,9 @@ def amplifier_needs(
         w_ref = 2.0 * math.pi * f0_hz
     amps = netlist.opamps
     nodes = [system.layout.node_index[e.nodes[2]] for e in amps]
-    if rload_ohm is None:  # the outputs' voltages and currents at f0 from the same transfer functions
-        both = node_rationals(system, nodes + [system.layout.opamp_row[e.ref] for e in amps], w_ref)
-        at_f0 = np.abs(both.at_s(np.array([s0]))[:, 0]).tolist()
+    if rload_ohm is None:  # the outputs' voltages and currents at f0 solved with the same samples
+        both, x0 = node_rationals(system, nodes + [system.layout.opamp_row[e.ref] for e in amps], w_ref, at=s0)
+        at_f0 = np.abs(x0).tolist()
         at_nodes = both.take(slice(0, len(amps)))
         volts, amperes = at_f0[: len(amps)], at_f0[len(amps) :]
     else:

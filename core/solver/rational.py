@@ -297,7 +297,7 @@ def rational_and_family(system: MnaSystem, w_ref: float) -> tuple[Rational, OpAm
     return _rational_and_family(system, w_ref, family=True)
 
 
-def node_rationals(system: MnaSystem, indices, w_ref: float) -> Rational:
+def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | None = None):
     """Transfer functions from the input to several unknowns (node voltages, op-amp currents) of
     member 0 of an ideal-op-amp system, from one set of samples: a batch of ``len(indices)``.
 
@@ -306,23 +306,32 @@ def node_rationals(system: MnaSystem, indices, w_ref: float) -> Rational:
     of unknown ``i``, and one transform (:func:`_coefficients`) gives the coefficients of ``D`` and
     of every numerator, those of ``D`` and those of the numerators each trimmed (:func:`_trim`) as
     alone. The steps of :func:`_samples` and :meth:`~bandsmith.solver.mna.MnaSystem.solve` are
-    written out for the one member (the same arithmetic in fewer array operations)."""
+    written out for the one member (the same arithmetic in fewer array operations).
+
+    With ``at`` (a complex frequency, rad/s) the pencil is solved there too, in the same batch,
+    and the result is ``(rational, values)``: the unknowns' complex values at ``at``, ``(len(indices),)``
+    (the solution itself, not the polynomials evaluated; the same to rounding).
+    """
     g, c = system.G[0], system.C[0]
     k = int(np.count_nonzero(c.any(axis=1))) + 1  # _degree_bound of member 0, plus one
-    a = g + (float(w_ref) * _circle(k)[0])[:, None, None] * c  # (K, n, n)
-    den_v = np.linalg.det(a)
+    s = float(w_ref) * _circle(k)[0]
+    if at is not None:
+        s = np.append(s, complex(at))
+    a = g + s[:, None, None] * c  # (K, n, n), and the pencil at ``at`` after them
+    den_v = np.linalg.det(a[:k])
     rhs = np.zeros((system.layout.size, 1), dtype=complex)
     rhs[system.layout.source_row, 0] = 1.0
-    x = np.linalg.solve(a, rhs)  # (K, n, 1)
+    x = np.linalg.solve(a, rhs)  # (K, n, 1), each matrix solved alone
     idx = list(indices)
     values = np.empty((1 + len(idx), k), dtype=complex)
     values[0] = den_v
-    values[1:] = (x[:, idx, 0] * den_v[:, None]).T
+    values[1:] = (x[:k, idx, 0] * den_v[:, None]).T
     both = _coefficients(values, k)
     num_c = _trim(both[1:])
     den_c = _trim(both[:1])
     scale = np.abs(den_c).max()
-    return Rational(num_c / scale, np.repeat(den_c / scale, len(idx), axis=0), np.full(len(idx), float(w_ref)))
+    h = Rational(num_c / scale, np.repeat(den_c / scale, len(idx), axis=0), np.full(len(idx), float(w_ref)))
+    return h if at is None else (h, x[k, idx, 0])
 
 
 def _finite_amps(system: MnaSystem) -> bool:
