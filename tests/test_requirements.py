@@ -303,3 +303,27 @@ def test_stability_of_a_second_order_denominator_matches_its_numpy_roots():
         h = Rational(np.array([[1.0, 0.0]]), den[None, :], np.array([2e3]))
         p = np.roots(den)
         assert is_stable(h) == bool(np.all(p.real < 1e-9 * np.abs(p))), den
+
+
+def test_stability_beyond_second_order_matches_its_numpy_roots():
+    # is_stable tries Routh-Hurwitz first beyond second order; its answer against the poles
+    # numpy.roots finds: random denominators of degree 3 to 6 built from their roots, with pairs
+    # near the axis (real parts from -1 to +1e-8 of their size) and poles at or near zero.
+    from bandsmith.analysis.analyzer import is_stable
+    from bandsmith.solver.rational import Rational
+
+    rng = np.random.default_rng(8)
+    for k in range(2000):
+        n = int(rng.integers(3, 7))
+        roots = []
+        while len(roots) < n:
+            if len(roots) < n - 1 and rng.random() < 0.5:
+                re = -abs(rng.normal()) * rng.choice([1.0, 1e-3, 1e-9, 0.0, -1e-8]) - 0.0
+                im = abs(rng.normal())
+                roots += [complex(re, im), complex(re, -im)]
+            else:
+                roots.append(complex(-rng.normal() * rng.choice([1.0, 1e-10, 0.0]), 0.0))
+        den = np.real(np.poly(roots)) * rng.choice([1.0, -1.0]) * 10 ** rng.uniform(-3, 3)
+        h = Rational(np.array([[1.0]]), den[None, :], np.array([2e3]))
+        p = np.roots(den)
+        assert is_stable(h) == bool(np.all(p.real < 1e-9 * np.abs(p))), den

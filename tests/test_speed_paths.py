@@ -225,3 +225,34 @@ def test_standard_searches_made_together_equal_each_made_alone(series):
     for item, choice in zip(items, together):
         topo, exact, spec_, series_, keep, tol, width = item
         assert choice == choose_standard(topo, exact, spec_, series_, keep=keep, tolerances=tol, width=width), topo.id
+
+
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_amplifier_values_at_f0_match_a_50_digit_solve(circuit):
+    """amplifier_needs's output voltages and currents at f0 (solved in node_rationals's batch)
+    against the same MNA pencil solved at f0 in 50-digit arithmetic (mpmath.lu_solve), on the
+    example parts scaled off the standard values: within 1e-13."""
+    import math
+
+    import mpmath
+
+    from bandsmith.analysis.analyzer import amplifier_needs
+    from bandsmith.analysis.transfer import nominal_system
+
+    topo = get_topology(circuit)
+    rng = np.random.default_rng(3)
+    values = {k: v * 10 ** rng.uniform(-0.1, 0.1) if v else v for k, v in topo.example.items()}
+    netlist = topo.build(topo.values_from(values))
+    f0 = 1234.5
+    needs = amplifier_needs(netlist, f0)
+    system = nominal_system(netlist)
+    lay = system.layout
+    g, c = system.G[0], system.C[0]
+    w = 2 * math.pi * f0
+    mpmath.mp.dps = 50
+    a = mpmath.matrix([[mpmath.mpc(g[i, j], w * mpmath.mpf(c[i, j])) for j in range(lay.size)] for i in range(lay.size)])
+    b = mpmath.matrix([1 if i == lay.source_row else 0 for i in range(lay.size)])
+    x = mpmath.lu_solve(a, b)
+    for e, amp in zip(netlist.opamps, needs):
+        assert_allclose(amp.vout_peak_v, float(abs(x[lay.node_index[e.nodes[2]]])), rtol=1e-13)
+        assert_allclose(amp.iout_peak_a, float(abs(x[lay.opamp_row[e.ref]])), rtol=1e-13)

@@ -266,8 +266,11 @@ def is_stable(h: Rational, i: int = 0) -> bool:
 
     A second-order denominator ``a2·p² + a1·p + a0`` has its poles in closed form (a complex
     pair's real part ``−a1/(2·a2)`` and size ``√(a0/a2)``; real poles by the cancellation-free
-    quadratic formula), the same test without an eigenvalue call; any other goes through
-    :meth:`~bandsmith.solver.rational.Rational.poles`."""
+    quadratic formula), the same test without an eigenvalue call. Any other is first tried by
+    Routh–Hurwitz (:func:`_routh_stable`): where it finds every pole in the open left half-plane,
+    so does the eigenvalue test; where it does not (a pole on or beyond the axis, or a zero in the
+    first column), the poles of :meth:`~bandsmith.solver.rational.Rational.poles` decide, to the
+    same 1e-9."""
     den = h.den[i].tolist()
     while len(den) > 1 and den[0] == 0:
         den = den[1:]
@@ -278,8 +281,32 @@ def is_stable(h: Rational, i: int = 0) -> bool:
             return -a1 / (2.0 * a2) < 1e-9 * math.sqrt(a0 / a2)
         q = -0.5 * (a1 + math.copysign(math.sqrt(disc), a1))
         return q != 0 and q / a2 < 0 and a0 / q < 0  # both real poles negative (a zero pole is not)
+    if len(den) > 3 and _routh_stable(den):
+        return True
     p = h.poles(i)
     return bool(np.all(p.real < 1e-9 * np.abs(p))) if p.size else True
+
+
+def _routh_stable(den: list[float]) -> bool:
+    """True when the first column of the Routh array of ``den`` (highest power first, leading
+    coefficient nonzero) is all positive after dividing by the leading coefficient: every root in
+    the open left half-plane (E. J. Routh, *A Treatise on the Stability of a Given State of
+    Motion*, 1877). The rows of :func:`bandsmith.solver.stability.hurwitz_stable` for one
+    polynomial, in Python floats (a handful of coefficients: cheaper than arrays); a zero or a
+    non-finite entry is not stable."""
+    lead = den[0]
+    a = [c / lead for c in den]
+    if not all(math.isfinite(c) for c in a):
+        return False
+    r0, r1 = a[0::2], a[1::2]
+    for _ in range(len(a) - 1):
+        first = r1[0] if r1 else 0.0
+        if not first > 0:
+            return False
+        r1_rest = r1[1:] + [0.0] * (len(r0) - len(r1))
+        nxt = [(first * r0[k + 1] - r0[0] * r1_rest[k]) / first for k in range(len(r0) - 1)]
+        r0, r1 = r1, nxt
+    return True
 
 
 def opamp_output_current(
@@ -306,9 +333,10 @@ def amplifier_needs(
     """Each amplifier's output swing, slew rates and output current (ideal op-amps).
 
     The exact transfer functions from the input to every op-amp's output node and output current
-    (:func:`bandsmith.solver.rational.node_rationals`, one set of samples) give their values at f0
-    and the step slew of each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes`);
-    with a load, one solve of the loaded circuit at f0 gives the values. ``vin_v`` is the input's
+    (:func:`bandsmith.solver.rational.node_rationals`, one set of samples) give the step slew of
+    each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes`), and the circuit solved
+    at f0 in the same batch gives the values there; with a load, one solve of the loaded circuit
+    at f0 gives the values. ``vin_v`` is the input's
     peak (V).
     """
     if not math.isfinite(f0_hz):
@@ -319,9 +347,9 @@ def amplifier_needs(
         w_ref = 2.0 * math.pi * f0_hz
     amps = netlist.opamps
     nodes = [system.layout.node_index[e.nodes[2]] for e in amps]
-    if rload_ohm is None:  # the outputs' voltages and currents at f0 from the same transfer functions
-        both = node_rationals(system, nodes + [system.layout.opamp_row[e.ref] for e in amps], w_ref)
-        at_f0 = np.abs(both.at_s(np.array([s0]))[:, 0]).tolist()
+    if rload_ohm is None:  # the outputs' voltages and currents at f0 solved with the same samples
+        both, x0 = node_rationals(system, nodes + [system.layout.opamp_row[e.ref] for e in amps], w_ref, at=s0)
+        at_f0 = np.abs(x0).tolist()
         at_nodes = both.take(slice(0, len(amps)))
         volts, amperes = at_f0[: len(amps)], at_f0[len(amps) :]
     else:

@@ -14,10 +14,11 @@ from __future__ import annotations
 import cmath
 import math
 from dataclasses import dataclass
+from typing import Sequence
 
 import numpy as np
 
-from bandsmith.solver.rational import Rational, coefficients_in_s, polyder_batch, polyval_batch
+from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
 __all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
 
@@ -146,17 +147,17 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
     return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.abs(slope).max()))
 
 
-def _pure_bandpass_slope(num: np.ndarray, den: np.ndarray, w_ref: float) -> float | None:
+def _pure_bandpass_slope(num: list[float], den: list[float], w_ref: float) -> float | None:
     """:func:`max_step_slope`'s closed form for one member (coefficients in ``p = s/w_ref``,
     leading zeros dropped), or None where it does not apply."""
-    if den.size == 3 and num.size == 2 and num[1] == 0 and num[0] != 0:
-        a2, a1, a0 = den.tolist()
+    if len(den) == 3 and len(num) == 2 and num[1] == 0 and num[0] != 0:
+        a2, a1, a0 = den
         if (a2 > 0 and a1 > 0 and a0 > 0) or (a2 < 0 and a1 < 0 and a0 < 0):
-            return abs(float(num[0]) * w_ref / a2)
+            return abs(num[0] * w_ref / a2)
     return None
 
 
-def _second_order_slope(b: np.ndarray, a: np.ndarray) -> float | None:
+def _second_order_slope(b: Sequence[float], a: Sequence[float]) -> float | None:
     """The largest ``|h(t)|``, ``t > 0``, of the impulse response of ``b(s)/a(s)`` for a monic
     quadratic ``a`` with two distinct poles in the left half-plane and ``b`` of degree two at
     most (coefficients in ``s``, highest first); None otherwise (the sampled response then).
@@ -168,10 +169,10 @@ def _second_order_slope(b: np.ndarray, a: np.ndarray) -> float | None:
     poles give at most one extremum, where ``e^{(p1 − p2)t} = −R_2·p_2/(R_1·p_1)``. The largest
     ``|h|`` is then ``|h(0+)|`` or that first extremum's: exact, where the sampled response only
     comes within its grid's spacing (derived)."""
-    if a.size != 3 or b.size > 3 or b.size < 1:
+    if len(a) != 3 or len(b) > 3 or len(b) < 1:
         return None
     a1, a0 = float(a[1]), float(a[2])
-    bb = [0.0] * (3 - b.size) + b.tolist()
+    bb = [0.0] * (3 - len(b)) + [float(c) for c in b]
     d = bb[0]
     r1, r0 = bb[1] - d * a1, bb[2] - d * a0
     if abs(r1) <= 1e-8:  # the remainder's leading term as _polydiv strips it
@@ -206,33 +207,57 @@ def _second_order_slope(b: np.ndarray, a: np.ndarray) -> float | None:
     return best
 
 
-def _leading_zeros_dropped(row: np.ndarray) -> np.ndarray:
-    """A coefficient row (highest power first) from its first nonzero entry on (its last entry
-    if all are zero): :meth:`~bandsmith.solver.rational.Rational.item` of one row, for a handful
-    of coefficients at a fraction of its cost."""
-    values = row.tolist()
+def _leading_zeros_dropped(values: list[float]) -> list[float]:
+    """Coefficients (highest power first) from the first nonzero one on (the last one if all are
+    zero): :meth:`~bandsmith.solver.rational.Rational.item`'s trim of one row, on a list."""
     first = next((k for k, v in enumerate(values) if v != 0), len(values) - 1)
-    return row[first:]
+    return values[first:]
+
+
+def _powers(w_ref: float, n: int) -> list[float]:
+    """``w_ref^−(n−1)``, …, ``w_ref^−1``, ``1``: the factors that turn coefficients in ``p = s/w_ref``
+    into coefficients in ``s`` (``c_k·p^k = (c_k/w_ref^k)·s^k``), formed by numpy as
+    :func:`~bandsmith.solver.rational.coefficients_in_s` forms them (numpy's power may differ from
+    Python's in the last bit); the last ``m`` of them serve any polynomial of ``m`` coefficients."""
+    return (w_ref ** -np.arange(n - 1, -1, -1.0)).tolist()
+
+
+def _in_s(num: list[float], den: list[float], powers: list[float]) -> tuple[list[float], list[float]]:
+    """:func:`~bandsmith.solver.rational.coefficients_in_s` of one member on lists: ``(b, a)`` in
+    powers of ``s``, ``a`` monic, from coefficients in ``p`` (leading zeros dropped) and
+    :func:`_powers` of at least their length; the same products and quotients, in Python floats
+    (a handful of coefficients: a list is cheaper than an array)."""
+    b = [c * f for c, f in zip(num, powers[len(powers) - len(num) :])]
+    a = [c * f for c, f in zip(den, powers[len(powers) - len(den) :])]
+    lead = a[0]
+    return [c / lead for c in b], [c / lead for c in a]
 
 
 def max_step_slopes(h: Rational) -> list[float]:
     """:func:`max_step_slope` of every member of ``h``.
 
-    Members with one denominator (the transfer functions to several nodes of one circuit) share
-    its poles, time grid and modal exponentials: one ``exp`` over the grid for all of them, and
-    each member's residues as :func:`_modal` finds them. Members whose poles are too close for
-    the modal form go through :func:`step_response` one by one.
+    Each member tries the closed forms first (:func:`_pure_bandpass_slope`, then
+    :func:`_second_order_slope`), on lists of its coefficients. Members left over with one
+    denominator (the transfer functions to several nodes of one circuit) share its poles, time
+    grid and modal exponentials: one ``exp`` over the grid for all of them, and each member's
+    residues as :func:`_modal` finds them. Members whose poles are too close for the modal form
+    go through :func:`step_response` one by one.
     """
     out: list[float | None] = []
     groups: dict[tuple, list[tuple[int, np.ndarray]]] = {}
-    for i, w in enumerate(h.w_ref.tolist()):
-        num, den = _leading_zeros_dropped(h.num[i]), _leading_zeros_dropped(h.den[i])  # Rational.item's
-        out.append(_pure_bandpass_slope(num, den, w))
-        if out[i] is None:
-            b, a = coefficients_in_s(num, den, w)
-            out[i] = _second_order_slope(b, a)
-            if out[i] is None:
-                groups.setdefault(tuple(a.tolist()), []).append((i, b))
+    width = max(h.num.shape[1], h.den.shape[1])
+    powers: dict[float, list[float]] = {}
+    for i, (num_row, den_row, w) in enumerate(zip(h.num.tolist(), h.den.tolist(), h.w_ref.tolist())):
+        num, den = _leading_zeros_dropped(num_row), _leading_zeros_dropped(den_row)  # Rational.item's
+        slope = _pure_bandpass_slope(num, den, w)
+        if slope is None:
+            if w not in powers:
+                powers[w] = _powers(w, width)
+            b, a = _in_s(num, den, powers[w])
+            slope = _second_order_slope(b, a)
+            if slope is None:
+                groups.setdefault(tuple(a), []).append((i, np.array(b)))
+        out.append(slope)
     for key, members in groups.items():
         a = np.array(key)
         poles = _roots(a)
@@ -267,10 +292,11 @@ def max_step_slope(h: Rational, *, i: int = 0) -> float:
     tests/test_requirements.py), which equals ``2π·BW·|G|``. Any other second-order transfer
     function (the voltage at another node of a two-integrator loop, say): the exact largest
     ``|h|`` of :func:`_second_order_slope`. Any other circuit: :func:`step_response`'s
-    ``max_slope_per_s``.
+    ``max_slope_per_s``. The closed forms work on lists of the member's coefficients.
     """
-    one = h.item(i)
-    slope = _pure_bandpass_slope(one.num[0], one.den[0], float(h.w_ref[i]))
+    w = float(h.w_ref[i])
+    num, den = _leading_zeros_dropped(h.num[i].tolist()), _leading_zeros_dropped(h.den[i].tolist())
+    slope = _pure_bandpass_slope(num, den, w)
     if slope is None:
-        slope = _second_order_slope(*coefficients_in_s(one.num[0], one.den[0], float(h.w_ref[i])))
+        slope = _second_order_slope(*_in_s(num, den, _powers(w, max(len(num), len(den)))))
     return step_response(h, i=i).max_slope_per_s if slope is None else slope

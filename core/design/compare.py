@@ -14,17 +14,18 @@ __all__ = ["compare", "compare_json", "part_count", "needs_inductor", "candidate
 
 def part_count(topology: Topology) -> int:
     """Parts to buy: resistors, capacitors, inductors and op-amps (a winding resistance is not one)."""
-    comps = sum(1 for c in topology.components if c.required)
-    key = (topology.id, topology.build, tuple(topology.example.items()))
-    opamps = _OPAMPS.get(key)
-    if opamps is None:
-        opamps = _OPAMPS[key] = len(topology.build(topology.values_from(dict(topology.example))).opamps)
-    return comps + opamps
+    known = _COUNTS.get(id(topology))
+    if known is None or known[0] is not topology:  # the same object, not one that took its id
+        comps = sum(1 for c in topology.components if c.required)
+        opamps = len(topology.build(topology.values_from(dict(topology.example))).opamps)
+        known = _COUNTS[id(topology)] = (topology, comps + opamps)
+    return known[1]
 
 
-# Op-amps of each circuit (its example's netlist: the same for any part values), counted once per
-# circuit so that a compare does not build a netlist again for every candidate and verdict.
-_OPAMPS: dict[tuple, int] = {}
+# The count of each circuit (op-amps from its example's netlist: the same for any part values),
+# worked out once per topology object (kept here, so its id stays its own) so that a compare does
+# not build a netlist again for every candidate and verdict.
+_COUNTS: dict[int, tuple[Topology, int]] = {}
 
 
 def needs_inductor(topology: Topology) -> bool:

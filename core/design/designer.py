@@ -410,14 +410,15 @@ def design_json(result: DesignResult) -> dict:
     a = result.analysis
     body = a.to_json() if a is not None else {"netlist": None, "ideal": None, "actual": None, "opamp": None, "requirements": None, "sensitivity": None}
     s = result.search
+    chosen = {k: float(v) for k, v in result.chosen.items()}
     return {
         "topology": result.topology_id,
         "spec": result.spec.to_json(),
         "feasible": result.feasible,
         "reason": result.reason,
         "exact": {k: float(v) for k, v in result.exact.items()},
-        "chosen": {k: float(v) for k, v in result.chosen.items()},
-        "components": {k: float(v) for k, v in result.chosen.items()},
+        "chosen": chosen,
+        "components": dict(chosen),
         "series": result.series,
         "fixed": list(result.fixed),
         "errors": dict(result.errors) if result.errors is not None else None,

@@ -297,23 +297,41 @@ def rational_and_family(system: MnaSystem, w_ref: float) -> tuple[Rational, OpAm
     return _rational_and_family(system, w_ref, family=True)
 
 
-def node_rationals(system: MnaSystem, indices, w_ref: float) -> Rational:
+def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | None = None):
     """Transfer functions from the input to several unknowns (node voltages, op-amp currents) of
-    member 0 of an ideal-op-amp system, from one set of samples: a batch of ``len(indices)``."""
-    w = np.array([float(w_ref)])
-    one = MnaSystem(system.G[:1], system.C[:1], system.layout, system.output_index, None)
-    k, a = _samples(one, w)
-    a = a[0]  # (K, n, n)
-    den_v = np.linalg.det(a)
-    x = np.linalg.solve(a, system.source_vector().astype(complex)[:, None])[:, :, 0]  # (K, n)
+    member 0 of an ideal-op-amp system, from one set of samples: a batch of ``len(indices)``.
+
+    Member 0's pencil at the ``K`` points of :func:`_samples` (``K − 1`` its :func:`_degree_bound`),
+    its determinant ``D`` and the unknowns ``x`` there; by Cramer's rule ``D·x_i`` is the numerator
+    of unknown ``i``, and one transform (:func:`_coefficients`) gives the coefficients of ``D`` and
+    of every numerator, those of ``D`` and those of the numerators each trimmed (:func:`_trim`) as
+    alone. The steps of :func:`_samples` and :meth:`~bandsmith.solver.mna.MnaSystem.solve` are
+    written out for the one member (the same arithmetic in fewer array operations).
+
+    With ``at`` (a complex frequency, rad/s) the pencil is solved there too, in the same batch,
+    and the result is ``(rational, values)``: the unknowns' complex values at ``at``, ``(len(indices),)``
+    (the solution itself, not the polynomials evaluated; the same to rounding).
+    """
+    g, c = system.G[0], system.C[0]
+    k = int(np.count_nonzero(c.any(axis=1))) + 1  # _degree_bound of member 0, plus one
+    s = float(w_ref) * _circle(k)[0]
+    if at is not None:
+        s = np.append(s, complex(at))
+    a = g + s[:, None, None] * c  # (K, n, n), and the pencil at ``at`` after them
+    den_v = np.linalg.det(a[:k])
+    rhs = np.zeros((system.layout.size, 1), dtype=complex)
+    rhs[system.layout.source_row, 0] = 1.0
+    x = np.linalg.solve(a, rhs)  # (K, n, 1), each matrix solved alone
     idx = list(indices)
-    # the determinant and every Cramer numerator from one transform; each trimmed as alone
-    both = _coefficients(np.concatenate([den_v[None, :], (x[:, idx] * den_v[:, None]).T]), k)
+    values = np.empty((1 + len(idx), k), dtype=complex)
+    values[0] = den_v
+    values[1:] = (x[:k, idx, 0] * den_v[:, None]).T
+    both = _coefficients(values, k)
     num_c = _trim(both[1:])
     den_c = _trim(both[:1])
-    scale = np.max(np.abs(den_c))
-    den = np.broadcast_to(den_c / scale, (len(idx), den_c.shape[1]))
-    return Rational(num_c / scale, np.array(den), np.full(len(idx), float(w_ref)))
+    scale = np.abs(den_c).max()
+    h = Rational(num_c / scale, np.repeat(den_c / scale, len(idx), axis=0), np.full(len(idx), float(w_ref)))
+    return h if at is None else (h, x[k, idx, 0])
 
 
 def _finite_amps(system: MnaSystem) -> bool:

@@ -45,6 +45,7 @@ from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
 from bandsmith.design.compare import needs_inductor, part_count
 from bandsmith.design.designer import DesignResult, spread_of
+from bandsmith.circuits.topology import Topology
 from bandsmith.design.standard import errors_of, figure_misses
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield, part_tolerances_of
@@ -179,13 +180,13 @@ def _spread_reasons(spread: Mapping[str, float | None], limits: VerdictLimits) -
     return out
 
 
-def _range_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
+def _range_reasons(topo: Topology, chosen: Mapping[str, float], limits: VerdictLimits) -> list[Reason]:
     bounds = {"R": (limits.r_min_ohm, limits.r_max_ohm), "C": (limits.c_min_f, limits.c_max_f), "L": (limits.l_min_h, limits.l_max_h)}
     out = []
-    for comp in result.topology.components:
+    for comp in topo.components:
         if not comp.required or comp.kind not in bounds:
             continue
-        v = result.chosen.get(comp.ref, 0.0)
+        v = chosen.get(comp.ref, 0.0)
         lo, hi = bounds[comp.kind]
         unit = PART_UNITS[comp.kind]
         if v < lo:
@@ -241,14 +242,14 @@ def _amp_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
     return out
 
 
-def _yield(result: DesignResult, limits: VerdictLimits, so_far: str) -> tuple[YieldEstimate, float | None, float]:
-    """The estimate, the confirming Monte Carlo's yield (or None) and the yield the verdict uses.
+def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits, so_far: str) -> tuple[YieldEstimate, float | None, float]:
+    """The estimate, the confirming Monte Carlo's yield (or None) and the yield the verdict uses;
+    ``kinds`` maps the circuit's part references to their kinds.
 
     The Monte Carlo runs only where it can change the verdict: not when other reasons already
     make the candidate ``not buildable``; when they make it ``marginal``, only near the lower limit.
     """
-    topo = result.topology
-    tol = part_tolerances_of({c.ref: c.kind for c in topo.components}, result.chosen, limits)
+    tol = part_tolerances_of(kinds, result.chosen, limits)
     est = estimate_yield(result.analysis.sensitivity, tol, limits)
     edges = {BUILDABLE: (limits.yield_marginal, limits.yield_min), MARGINAL: (limits.yield_min,), NOT_BUILDABLE: ()}[so_far]
     bent = max(est.sigma["f0"], est.sigma["q"], math.expm1(est.sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
@@ -276,8 +277,7 @@ def _yield_reason(est: YieldEstimate, mc: float | None, y: float, limits: Verdic
 
 
 def _inductor_reason(result: DesignResult, limits: VerdictLimits) -> Reason | None:
-    if not needs_inductor(result.topology):
-        return None
+    """The ``inductor_q`` reason of a circuit with an inductor (None when none is due)."""
     tol_q = result.conditions.tolerances.q
     needed = inductor_q_needed(result.spec.q, max_q_loss=min(tol_q, 0.99))
     if needed > limits.inductor_q_max:
@@ -329,14 +329,15 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
         reasons += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
                                    f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
     reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
-    reasons += _range_reasons(result, limits)
+    reasons += _range_reasons(topo, result.chosen, limits)
     reasons += _amp_reasons(result, limits)
-    r = _inductor_reason(result, limits)
+    r = _inductor_reason(result, limits) if inductor else None
     if r is not None:
         reasons.append(r)
     so_far = max((r.weight for r in reasons), key=VERDICTS.index, default=BUILDABLE)
-    est, mc, y = _yield(result, limits, so_far)
-    r = _yield_reason(est, mc, y, limits, {c.kind for c in topo.components})
+    kinds = {c.ref: c.kind for c in topo.components}
+    est, mc, y = _yield(result, kinds, limits, so_far)
+    r = _yield_reason(est, mc, y, limits, set(kinds.values()))
     if r is not None:
         reasons.append(r)
     ordered = _order(reasons)

@@ -189,11 +189,10 @@ class VerdictLimits:
         return float(self.tolerances.get(ref, self.tolerances.get(kind, 0.0)))
 
     def to_json(self) -> dict:
-        """A plain JSON object of every limit."""
-        out = {}
-        for f in fields(self):
-            v = getattr(self, f.name)
-            out[f.name] = dict(v) if isinstance(v, Mapping) else v
+        """A plain JSON object of every limit (the field names listed once, in :data:`_NAMES`;
+        ``tolerances`` is the one mapping among them)."""
+        out = {name: getattr(self, name) for name in _NAMES}
+        out["tolerances"] = dict(self.tolerances)
         return out
 
     @classmethod
@@ -206,3 +205,7 @@ class VerdictLimits:
         if extra:
             raise InputError("limits", f"unknown limit {extra[0]!r}")
         return cls(**dict(obj))
+
+
+#: The limits' field names, in their order (what :meth:`VerdictLimits.to_json` writes).
+_NAMES = tuple(f.name for f in fields(VerdictLimits))

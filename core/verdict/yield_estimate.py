@@ -131,6 +131,10 @@ class YieldEstimate:
         }
 
 
+def _finite_or_zero(x: float) -> float:
+    return x if math.isfinite(x) else 0.0
+
+
 def part_tolerances_of(parts: Mapping[str, str], values: Mapping[str, float], limits: VerdictLimits) -> dict[str, float]:
     """The tolerance of every part with a value above zero (reference → fraction), ``parts`` mapping
     reference → kind."""
@@ -156,29 +160,37 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
     YieldEstimate
     """
     refs = [r for r in tolerances if tolerances[r] > 0]
-    p = np.array([tolerances[r] for r in refs], dtype=float)
-    by_figure = [sensitivity.get(k, {}) for k in FIGURES]
-    s = np.array([[float(row.get(r, 0.0)) for r in refs] for row in by_figure], dtype=float).reshape(len(FIGURES), len(refs))
-    s = np.where(np.isfinite(s), s, 0.0)
+    p = tuple(float(tolerances[r]) for r in refs)
+    rows = [sensitivity.get(k, {}) for k in FIGURES]
+    # the sensitivities (3, parts), a non-finite one taken as zero
+    s = np.array([[_finite_or_zero(float(row.get(r, 0.0))) for r in refs] for row in rows], dtype=float).reshape(len(FIGURES), len(refs))
     contrib = (s * p) ** 2 / 3.0  # (3, parts): each part's share of each figure's log variance
-    sd = np.sqrt(contrib.sum(axis=1))
+    totals = contrib.sum(axis=1)
+    sd = np.sqrt(totals).tolist()
     lo, hi = _window(limits.window_f0, limits.window_q, limits.window_gain_db)
     if refs:
-        x = s @ _log_deviations(tuple(p.tolist()))  # (3, points): the figures' log deviations
+        x = s @ _log_deviations(p)  # (3, points): the figures' log deviations
     else:
         x = np.zeros((len(FIGURES), 1))
-    inside = (x >= lo) & (x <= hi)  # (3, points), all rows at once
-    fraction = np.count_nonzero(inside[0] & inside[1] & inside[2]) / x.shape[1]
-    within = [np.count_nonzero(row) / x.shape[1] for row in inside]  # row by row: contiguous, quicker than axis=1
+    inside = x >= lo  # (3, points), all rows at once
+    inside &= x <= hi
+    every = inside[0] & inside[1]
+    every &= inside[2]
+    n = x.shape[1]
+    fraction = np.count_nonzero(every) / n
+    within = [np.count_nonzero(row) / n for row in inside]  # row by row: contiguous, quicker than axis=1
     k = min(range(len(FIGURES)), key=within.__getitem__) if refs else 0  # the first of the least, as argmin
-    if refs and contrib[k].sum() > 0:
+    total = float(totals[k])
+    if refs and total > 0:
         # the first part (in the circuit's order) of the largest share: parts whose shares are the
         # same in theory (equal sensitivities and tolerances) differ only in rounding, which must not choose
-        j = int(np.flatnonzero(contrib[k] >= contrib[k].max() * (1.0 - 1e-6))[0])
-        part, share = refs[j], float(contrib[k, j] / contrib[k].sum())
+        shares = contrib[k].tolist()
+        top = max(shares) * (1.0 - 1e-6)
+        j = next(i for i, c in enumerate(shares) if c >= top)
+        part, share = refs[j], shares[j] / total
     else:
         part, share = None, 0.0
-    sigma = {"f0": float(math.expm1(sd[0])), "q": float(math.expm1(sd[1])), "gain_db": float(sd[2] * _DB_PER_NEPER)}
+    sigma = {"f0": math.expm1(sd[0]), "q": math.expm1(sd[1]), "gain_db": sd[2] * _DB_PER_NEPER}
     return YieldEstimate(
         fraction=fraction,
         sigma=sigma,
