@@ -5,10 +5,11 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+
 import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
-from bandsmith.chain.bandpass import peak_over_frequency
+from bandsmith.chain.bandpass import own_partial_products, peak_over_frequency
 from bandsmith.chain.chain_settings import HALF_POWER_DB, ChainSettings
 
 __all__ = ["Overall", "reference_zpk", "sweep_frequencies", "measure_chain", "measure_chains", "chain_peaks", "max_dev_db"]
@@ -241,14 +242,8 @@ def chain_peaks(stage_hs, n: int, f: np.ndarray, q_max: float) -> tuple[np.ndarr
         if x.ndim == 1:
             hs = [sh(x) for sh in stage_hs]
             return np.concatenate([np.abs(np.cumprod(hs[0], axis=0))] + [np.abs(np.prod(h, axis=0))[None, :] for h in hs])
-        width = x.shape[1]
-        h = first(x[:n].reshape(-1))  # every stage at every internal row's grid: one evaluation
         out = np.empty(x.shape)
-        run = h[0]
-        for k in range(n):  # row k: the first k + 1 stages at its own grid (at most 8 stages)
-            if k:
-                run = run * h[k]
-            out[k] = np.abs(run[k * width : (k + 1) * width])
+        out[:n] = np.abs(own_partial_products(first(x[:n].reshape(-1)), x.shape[1]))  # row k: the first k + 1 stages at its grid
         for r, sh in enumerate(stage_hs):
             out[n + r] = np.abs(np.prod(sh(x[n + r]), axis=0))
         return out
