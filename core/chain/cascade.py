@@ -541,8 +541,9 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
         return shell
     stages = _loaded(stages)
     # The stages' transfer functions, built once: the ideal ones and (with an op-amp) the finite
-    # ones, each response's alone and all in one batch (padded with leading zeros: each stage's
-    # very values), for evaluations at many points and at few.
+    # ones, each response's alone (for many points: the ideal ones keep their short polynomials)
+    # and all in one batch (for a few points: one call; padded with leading zeros, each stage's
+    # very values).
     parts = [_stacked(stages, False)] + ([] if conditions.opamp is None else [_stacked(stages, True)])
     both = Rational.joined(parts) if len(parts) > 1 else parts[0]
     n = len(stages)
@@ -556,8 +557,7 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
     peaks_db, peaks, f_peaks = chain_peaks([p.at_f for p in parts], n, f, q_max)
     stages = tuple(replace(s, peak_internal_gain_db=float(p)) for s, p in zip(stages, peaks_db))
     shell = replace(shell, stages=stages)
-    hb = both.at_f(f)
-    hs = np.prod(hb.reshape(-1, n, f.size), axis=1)  # the whole responses on the sweep, ideal first
+    hs = np.stack([np.prod(p.at_f(f), axis=0) for p in parts])  # the whole responses on the sweep, ideal first
     h = hs[0]
     ref = shell.reference_response(f)
     measured = measure_chains(chain_mag, settings, f, np.abs(hs), peaks, f_peaks)  # the sweep's magnitude, once
