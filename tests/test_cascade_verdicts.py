@@ -224,8 +224,8 @@ def test_auto_pick_is_the_rule_applied_to_every_circuit_judged(monkeypatch, resp
     # gain 10, a 20 MHz op-amp (the stages' pick turns on verdicts and fits alike); a 10 kHz
     # channel on E12 parts with a slow 1 MHz op-amp (stages whose every circuit is not buildable);
     # a 2.5 kHz Bessel channel on E96 parts with a 5 MHz op-amp.
-    from bandsmith.chain.stage_verdicts import FIT_STEP, choose_auto
-    from bandsmith.verdict import rank
+    from bandsmith.chain.stage_verdicts import FIT_STEP, _least_key, choose_auto
+    from bandsmith.verdict import VerdictLimits, rank
 
     seen = []
 
@@ -250,3 +250,7 @@ def test_auto_pick_is_the_rule_applied_to_every_circuit_judged(monkeypatch, resp
             return (VERDICTS.index(v.verdict), not a.sane, heavy, near, ranks[k])
 
         assert pick[0] == cands[min(range(len(cands)), key=key)][0]
+        # the bounds the choice prunes with never exceed the key judging gives (judge's sure reasons)
+        for k, (_, res, a) in enumerate(cands):
+            for opamp in (False, True):
+                assert _least_key(res, a, VerdictLimits(), opamp=opamp) <= key(k)[:4]
