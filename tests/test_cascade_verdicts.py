@@ -212,13 +212,20 @@ def test_cli_shows_verdicts_first_and_json_keeps_its_keys():
         assert {"index", "circuit", "feasible", "reason", "chosen", "errors", "warnings", "tried", "verdict", "reasons"} <= set(sec)
 
 
-def test_auto_pick_is_the_rule_applied_to_every_circuit_judged(monkeypatch):
+@pytest.mark.parametrize("response, n, f0_hz, bw_hz, gain, series, gbw_hz", [
+    ("butterworth", 8, 40e3, 16e3, 10.0, "E24", 20e6),
+    ("chebyshev", 5, 10e3, 2e3, 3.0, "E12", 1e6),
+    ("bessel", 6, 2.5e3, 600.0, 1.0, "E96", 5e6),
+])
+def test_auto_pick_is_the_rule_applied_to_every_circuit_judged(monkeypatch, response, n, f0_hz, bw_hz, gain, series, gbw_hz):
     # choose_auto judges only the circuits that can still be chosen; its pick must be the one the
     # module's rule gives with every feasible circuit judged (verdict, sane, fewer not-buildable
-    # reasons, nearest-fit step, then rank). Our scenario: a 40 kHz receiver channel, 16 kHz wide,
-    # gain 10, a 20 MHz op-amp (the stages' pick turns on verdicts and fits alike).
-    from bandsmith.chain.stage_verdicts import FIT_STEP, choose_auto
-    from bandsmith.verdict import rank
+    # reasons, nearest-fit step, then rank). Our scenarios: a 40 kHz receiver channel, 16 kHz wide,
+    # gain 10, a 20 MHz op-amp (the stages' pick turns on verdicts and fits alike); a 10 kHz
+    # channel on E12 parts with a slow 1 MHz op-amp (stages whose every circuit is not buildable);
+    # a 2.5 kHz Bessel channel on E96 parts with a 5 MHz op-amp.
+    from bandsmith.chain.stage_verdicts import FIT_STEP, _least_key, choose_auto
+    from bandsmith.verdict import VerdictLimits, rank
 
     seen = []
 
@@ -228,9 +235,9 @@ def test_auto_pick_is_the_rule_applied_to_every_circuit_judged(monkeypatch):
         return pick
 
     monkeypatch.setattr(cascade_mod, "choose_auto", spy)
-    s = ChainSettings.from_request("butterworth", 8, f0_hz=40e3, bw_hz=16e3, gain=10.0, series="E24")
-    design_cascade(s, conditions=Conditions(gbw_hz=20e6))
-    assert len(seen) == 8
+    s = ChainSettings.from_request(response, n, f0_hz=f0_hz, bw_hz=bw_hz, gain=gain, series=series)
+    design_cascade(s, conditions=Conditions(gbw_hz=gbw_hz))
+    assert len(seen) == n
     for tried, pick in seen:
         cands = [(i, res, a) for i, (res, a) in enumerate(tried) if res is not None and a.feasible and res.feasible]
         verdicts = [judge(res, candidate=a.topology_id) for _, res, a in cands]
@@ -243,3 +250,7 @@ def test_auto_pick_is_the_rule_applied_to_every_circuit_judged(monkeypatch):
             return (VERDICTS.index(v.verdict), not a.sane, heavy, near, ranks[k])
 
         assert pick[0] == cands[min(range(len(cands)), key=key)][0]
+        # the bounds the choice prunes with never exceed the key judging gives (judge's sure reasons)
+        for k, (_, res, a) in enumerate(cands):
+            for opamp in (False, True):
+                assert _least_key(res, a, VerdictLimits(), opamp=opamp) <= key(k)[:4]

@@ -45,7 +45,7 @@ import numpy as np
 from bandsmith.common.errors import InputError
 from bandsmith.chain.prototypes import Prototype
 
-__all__ = ["Band", "band_from", "geffe", "SectionPlan", "CascadePlan", "plan_cascade", "biquad_bandpass", "peak_over_frequency"]
+__all__ = ["Band", "band_from", "geffe", "SectionPlan", "CascadePlan", "plan_cascade", "biquad_bandpass", "own_partial_products", "peak_over_frequency"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -157,6 +157,24 @@ def biquad_bandpass(s: np.ndarray, w0: np.ndarray, q: np.ndarray, gain: np.ndarr
     s = np.asarray(s, dtype=complex)[None, :]
     a = w0 / q
     return g * a * s / (s * s + a * s + w0 * w0)
+
+
+def own_partial_products(h: np.ndarray, width: int) -> np.ndarray:
+    """Row k: ``H_1·H_2·…·H_(k+1)`` at the k-th block of ``width`` points, ``(n, width)``.
+
+    ``h`` is ``(n, n·width)``: n stages in signal order, each at every row's points (one
+    evaluation for all rows of a :func:`peak_over_frequency` refinement). The running product
+    multiplies in signal order, as ``np.prod`` over the first k + 1 stages of a row's own points
+    does, so the values are those of evaluating each row alone.
+    """
+    n = h.shape[0]
+    out = np.empty((n, width), dtype=h.dtype)
+    run = h[0]
+    for k in range(n):  # one step per stage (at most a few tens), never per frequency
+        if k:
+            run = run * h[k]
+        out[k] = run[k * width : (k + 1) * width]
+    return out
 
 
 def peak_over_frequency(mag_fn, f_lo_hz: float, f_hi_hz: float, *, q_max: float, rows: int) -> tuple[np.ndarray, np.ndarray]:
@@ -297,11 +315,7 @@ def plan_cascade(proto: Prototype, band: Band, gain: float) -> CascadePlan:
             h = biquad_bandpass(2j * math.pi * f, w0, q)
             return np.abs(np.cumprod(h, axis=0))
         # (rows, F): row k evaluates the product of the first k + 1 sections at its own grid.
-        out = np.empty(f.shape)
-        for k in range(n):  # loop over stages (at most 8), never over frequencies
-            h = biquad_bandpass(2j * math.pi * f[k], w0[: k + 1], q[: k + 1])
-            out[k] = np.abs(np.prod(h, axis=0))
-        return out
+        return np.abs(own_partial_products(biquad_bandpass(2j * math.pi * f.reshape(-1), w0, q), f.shape[1]))
 
     lo = min(f0.min(), band.f_low_hz) / 2.0
     hi = max(f0.max(), band.f_high_hz) * 2.0

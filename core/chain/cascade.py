@@ -69,7 +69,7 @@ from bandsmith.solver.rational import Rational
 from bandsmith.common.values import format_value
 from bandsmith.chain.chain_settings import AUTO, STAGE_HOLD, Chain, ChainSettings, ChainStage, circuit_choices
 from bandsmith.chain.cascade_json import cascade_json, cascade_session, chains_in
-from bandsmith.chain.chain_measure import Overall, max_dev_db, measure_chain, peaks_internal, reference_zpk, sweep_frequencies
+from bandsmith.chain.chain_measure import Overall, chain_peaks, max_dev_db, measure_chains, reference_zpk, sweep_frequencies
 from bandsmith.chain.stage_verdicts import choose_auto, hold_warnings
 
 __all__ = [
@@ -540,25 +540,33 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
     if not feasible:
         return shell
     stages = _loaded(stages)
-    ideal, finite = _stacked(stages, False), _stacked(stages, True)  # stage transfer functions, built once
+    # The stages' transfer functions, built once: the ideal ones and (with an op-amp) the finite
+    # ones, each response's alone (for many points: the ideal ones keep their short polynomials)
+    # and all in one batch (for a few points: one call; padded with leading zeros, each stage's
+    # very values).
+    parts = [_stacked(stages, False)] + ([] if conditions.opamp is None else [_stacked(stages, True)])
+    both = Rational.joined(parts) if len(parts) > 1 else parts[0]
+    n = len(stages)
 
-    def stage_h(x, *, actual=False):
-        return (finite if actual else ideal).at_f(x)
+    def chain_mag(x, rows):  # |whole response rows[p] at x[p]| (Hz), (P,); rows an int: one response's
+        if isinstance(rows, int):
+            return np.abs(np.prod(parts[rows].at_f(x), axis=0))
+        h = both.at_f(x)
+        return np.abs(np.prod(h.reshape(-1, n, x.size), axis=1)[rows, np.arange(x.size)])
 
-    def response(x, *, actual=False):
-        return np.prod(stage_h(x, actual=actual), axis=0)
-
-    peaks_db = peaks_internal(stages, stage_h, f, q_max)
+    peaks_db, peaks, f_peaks = chain_peaks([p.at_f for p in parts], n, f, q_max)
     stages = tuple(replace(s, peak_internal_gain_db=float(p)) for s, p in zip(stages, peaks_db))
     shell = replace(shell, stages=stages)
-    h = response(f)
+    hs = np.stack([np.prod(p.at_f(f), axis=0) for p in parts])  # the whole responses on the sweep, ideal first
+    h = hs[0]
     ref = shell.reference_response(f)
-    overall = measure_chain(response, settings, f, q_max, mag=np.abs(h))  # the sweep's magnitude, once
+    measured = measure_chains(chain_mag, settings, f, np.abs(hs), peaks, f_peaks)  # the sweep's magnitude, once
+    overall = measured[0]
     band = (f >= settings.f_low_hz) & (f <= settings.f_high_hz)
     overall_actual = actual_dev = act_band = None
     if conditions.opamp is not None:
-        h_act = response(f, actual=True)
-        overall_actual = measure_chain(lambda x: response(x, actual=True), settings, f, q_max, mag=np.abs(h_act))
+        h_act = hs[1]
+        overall_actual = measured[1]
         actual_dev = max_dev_db(h_act, ref)
         act_band = max_dev_db(h_act[band], ref[band])
     band_dev = max_dev_db(h[band], ref[band])

@@ -5,18 +5,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
 
 import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
-from bandsmith.chain.bandpass import peak_over_frequency
+from bandsmith.chain.bandpass import own_partial_products, peak_over_frequency
 from bandsmith.chain.chain_settings import HALF_POWER_DB, ChainSettings
 
-if TYPE_CHECKING:
-    from bandsmith.chain.cascade import Stage
-
-__all__ = ["Overall", "reference_zpk", "sweep_frequencies", "measure_chain", "peaks_internal", "max_dev_db"]
+__all__ = ["Overall", "reference_zpk", "sweep_frequencies", "measure_chain", "measure_chains", "chain_peaks", "max_dev_db"]
 
 
 
@@ -99,22 +95,25 @@ def _crossing(mag_fn, lo_hz: np.ndarray, hi_hz: np.ndarray, level) -> np.ndarray
     return np.exp(0.5 * (a + b))
 
 
-def _edges(mag_fn, f: np.ndarray, mag: np.ndarray, levels: tuple[float, ...]) -> list[tuple[float, float]]:
-    """The lower and upper crossing of each level, ``(nan, nan)`` where the sweep has none; the
-    brackets of all levels are bisected together."""
-    lo, hi, lv, which = [], [], [], []
+def _edges(chain_mag, f: np.ndarray, mags: np.ndarray, owner: np.ndarray, levels: list[float]) -> list[tuple[float, float]]:
+    """The lower and upper crossing of each level by the response ``owner[n]`` (magnitudes
+    ``mags[owner[n]]`` on the sweep), ``(nan, nan)`` where the sweep has none; the brackets of
+    all levels are bisected together."""
+    lo, hi, lv, who, which = [], [], [], [], []
     out = [(math.nan, math.nan)] * len(levels)
     for n, level in enumerate(levels):
-        above = np.flatnonzero(mag >= level)
+        above = np.flatnonzero(mags[owner[n]] >= level)
         if above.size == 0 or above[0] == 0 or above[-1] == f.size - 1:
             continue
         i0, i1 = above[0], above[-1]
         lo += [f[i0 - 1], f[i1]]
         hi += [f[i0], f[i1 + 1]]
         lv += [level, level]
+        who += [owner[n], owner[n]]
         which.append(n)
     if which:
-        x = _crossing(mag_fn, np.array(lo), np.array(hi), np.array(lv))
+        rows = np.array(who)
+        x = _crossing(lambda x: chain_mag(x, rows), np.array(lo), np.array(hi), np.array(lv))
         for k, n in enumerate(which):
             out[n] = (float(x[2 * k]), float(x[2 * k + 1]))
     return out
@@ -131,51 +130,126 @@ def measure_chain(response, settings: ChainSettings, f: np.ndarray, q_max: float
     if mag is None:
         mag = mag_fn(f)
     peak, f_pk = peak_over_frequency(lambda x: mag_fn(x).reshape(1, -1), float(f[0]), float(f[-1]), q_max=q_max, rows=1)
-    peak, f_pk = float(peak[0]), float(f_pk[0])
-    (lo, hi), (lo3, hi3) = _edges(mag_fn, f, mag, (peak * 10 ** (settings.edge_level_db / 20), peak * 10 ** (HALF_POWER_DB / 20)))
-    f0 = math.sqrt(lo * hi) if math.isfinite(lo) and math.isfinite(hi) else math.nan
-    gc = float(20 * np.log10(mag_fn(np.array([f0]))[0])) if math.isfinite(f0) else math.nan
-    ripple = math.nan
-    if math.isfinite(lo):
-        inside = np.flatnonzero((f > lo) & (f < hi))
-        if inside.size >= 3:
-            m = mag[inside]
-            dips = np.flatnonzero((m[1:-1] < m[:-2]) & (m[1:-1] <= m[2:])) + 1
-            if dips.size == 0:
-                ripple = 0.0
-            else:
-                # Refine every dip on local grids (the magnitude is flat to second order there).
-                lf = np.log(f[inside[dips]])
-                delta = np.log(f[1] / f[0])
-                for _ in range(2):
-                    local = lf[:, None] + np.linspace(-delta, delta, 201)[None, :]
-                    ml = mag_fn(np.exp(local))
-                    j = np.argmin(ml, axis=1)
-                    lf = local[np.arange(lf.size), j]
-                    delta /= 100.0
-                deepest = float(np.min(ml[np.arange(lf.size), j]))
-                ripple = 20 * math.log10(peak / deepest)
-                if ripple < 1e-9:  # rounding noise on a maximally flat top
-                    ripple = 0.0
-        else:
-            ripple = 0.0
-    return Overall(lo, hi, f0, gc, ripple, 20 * math.log10(peak), f_pk, settings.edge_level_db, lo3, hi3)
+    return measure_chains(lambda x, rows: mag_fn(x), settings, f, mag[None, :], peak, f_pk)[0]
 
 
-def peaks_internal(stages: tuple[Stage, ...], cascade_resp, f: np.ndarray, q_max: float) -> np.ndarray:
-    n = len(stages)
+def measure_chains(chain_mag, settings: ChainSettings, f: np.ndarray, mags: np.ndarray, peaks: np.ndarray, f_peaks: np.ndarray) -> tuple[Overall, ...]:
+    """Overall figures of several responses of one chain (ideal and finite op-amp, say), measured
+    together: each one's figures are those :func:`measure_chain` finds for it alone.
+
+    Parameters
+    ----------
+    chain_mag : callable
+        ``chain_mag(x, rows)``: ``x`` frequencies (Hz), ``(P,)``, and ``rows`` the response each
+        belongs to (``(P,)``, or one int for all), to the magnitudes ``(P,)``. A point's value
+        must not depend on the other points asked with it (numpy's elementwise arithmetic).
+    settings : ChainSettings
+    f : ndarray
+        The sweep (Hz), ``(F,)``.
+    mags : ndarray
+        Every response's magnitude on the sweep, ``(R, F)``.
+    peaks, f_peaks : ndarray
+        Every response's peak magnitude and its frequency (Hz) over the sweep's span, ``(R,)``
+        (:func:`bandsmith.chain.bandpass.peak_over_frequency`).
+
+    Notes
+    -----
+    The band edges of all responses are bisected together (one evaluation per step for all their
+    brackets); a bracket already down to two neighbouring floats is left as it is by the further
+    steps (its midpoint is one of its ends, whose side is known), so it ends where it would alone.
+    """
+    R = mags.shape[0]
+    levels = []
+    for r in range(R):
+        p = float(peaks[r])
+        levels += [p * 10 ** (settings.edge_level_db / 20), p * 10 ** (HALF_POWER_DB / 20)]
+    edges = _edges(chain_mag, f, mags, np.repeat(np.arange(R), 2), levels)
+    out = []
+    for r in range(R):
+        (lo, hi), (lo3, hi3) = edges[2 * r], edges[2 * r + 1]
+        peak = float(peaks[r])
+        f0 = math.sqrt(lo * hi) if math.isfinite(lo) and math.isfinite(hi) else math.nan
+        # one point per call: numpy multiplies the stages of a lone point in another order than
+        # those of several points (both right to rounding); alone, the figure is as it always was
+        gc = float(20 * np.log10(chain_mag(np.array([f0]), r)[0])) if math.isfinite(f0) else math.nan
+        ripple = _ripple(lambda x, r=r: chain_mag(x, r), f, mags[r], lo, hi, peak)
+        out.append(Overall(lo, hi, f0, gc, ripple, 20 * math.log10(peak), float(f_peaks[r]), settings.edge_level_db, lo3, hi3))
+    return tuple(out)
+
+
+def _ripple(mag_fn, f: np.ndarray, mag: np.ndarray, lo: float, hi: float, peak: float) -> float:
+    """The peak (magnitude) over the deepest dip between the band edges ``lo`` and ``hi`` in dB;
+    0 for one maximum, nan without edges. ``mag`` is the magnitude on the sweep ``f``, ``mag_fn``
+    the magnitude at frequencies ``(P,)``."""
+    if not math.isfinite(lo):
+        return math.nan
+    inside = np.flatnonzero((f > lo) & (f < hi))
+    if inside.size < 3:
+        return 0.0
+    m = mag[inside]
+    dips = np.flatnonzero((m[1:-1] < m[:-2]) & (m[1:-1] <= m[2:])) + 1
+    if dips.size == 0:
+        return 0.0
+    # Refine every dip on local grids (the magnitude is flat to second order there).
+    lf = np.log(f[inside[dips]])
+    delta = np.log(f[1] / f[0])
+    for _ in range(2):
+        local = lf[:, None] + np.linspace(-delta, delta, 201)[None, :]
+        ml = mag_fn(np.exp(local).reshape(-1)).reshape(local.shape)
+        j = np.argmin(ml, axis=1)
+        lf = local[np.arange(lf.size), j]
+        delta /= 100.0
+    deepest = float(np.min(ml[np.arange(lf.size), j]))
+    ripple = 20 * math.log10(peak / deepest)
+    return 0.0 if ripple < 1e-9 else ripple  # below: rounding noise on a maximally flat top
+
+
+def chain_peaks(stage_hs, n: int, f: np.ndarray, q_max: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Peaks over the sweep's span of a chain's internal responses and of its whole responses, in
+    one :func:`bandsmith.chain.bandpass.peak_over_frequency` search.
+
+    Parameters
+    ----------
+    stage_hs : sequence of callable
+        One per whole response (R of them; the first with the ideal op-amp): frequencies ``(P,)``
+        (Hz) to its stages' responses ``(n, P)`` in signal order.
+    n : int
+        The number of stages.
+    f : ndarray
+        The sweep (Hz); its ends are the span searched.
+    q_max : float
+        The sharpest stage's Q (the search grid's step).
+
+    Returns
+    -------
+    internal_db : ndarray
+        ``(n,)``: the peak in dB of ``|H_1…H_k|`` of the first response, k = 1…n.
+    peaks, f_peaks : ndarray
+        ``(R,)``: the peak magnitude of each whole response and its frequency (Hz).
+
+    Notes
+    -----
+    On the search grid the internal responses are ``|cumprod|`` over the stages and the whole
+    ones ``|prod|``; on the refining grids all are products ``H_1·H_2·…`` in signal order, each
+    row at its own frequencies. These are the very values of searching each alone (numpy's
+    product along an axis of several points multiplies in order, elementwise; its cumulative
+    product may round differently, so the grid keeps it where it was used).
+    """
+    first = stage_hs[0]
 
     def mag_fn(x):
         x = np.asarray(x, dtype=float)
         if x.ndim == 1:
-            return np.abs(np.cumprod(cascade_resp(x), axis=0))
+            hs = [sh(x) for sh in stage_hs]
+            return np.concatenate([np.abs(np.cumprod(hs[0], axis=0))] + [np.abs(np.prod(h, axis=0))[None, :] for h in hs])
         out = np.empty(x.shape)
-        for k in range(n):  # one row per stage (at most 8), vectorised over frequency
-            out[k] = np.abs(np.prod(cascade_resp(x[k])[: k + 1], axis=0))
+        out[:n] = np.abs(own_partial_products(first(x[:n].reshape(-1)), x.shape[1]))  # row k: the first k + 1 stages at its grid
+        for r, sh in enumerate(stage_hs):
+            out[n + r] = np.abs(np.prod(sh(x[n + r]), axis=0))
         return out
 
-    peaks, _ = peak_over_frequency(mag_fn, float(f[0]), float(f[-1]), q_max=q_max, rows=n)
-    return 20 * np.log10(peaks)
+    peaks, f_pk = peak_over_frequency(mag_fn, float(f[0]), float(f[-1]), q_max=q_max, rows=n + len(stage_hs))
+    return 20 * np.log10(peaks[:n]), peaks[n:], f_pk[n:]
 
 
 def max_dev_db(a: np.ndarray, b: np.ndarray) -> float:

@@ -22,16 +22,19 @@
   Butterworth, Chebyshev and Bessel, orders 2 to 8): with rank's order alone, two of them moved
   further from the ideal response in the band than before (1.84 dB and 1.65 dB, where the
   earlier least-GBW rule gave up to 1.51 dB); with the nearest fit first the largest was 1.34 dB.
+  The pick is the one judging them all gives; :func:`choose_auto` judges only those that numbers
+  the designs already have leave a chance of winning (its notes).
 """
 
 from __future__ import annotations
 
+import heapq
 import math
 from typing import TYPE_CHECKING, Sequence
 
 from bandsmith.chain.chain_settings import STAGE_HOLD, StageHold
-from bandsmith.design.standard import figure_misses
-from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, VerdictLimits, judge, rank, surely_not_buildable
+from bandsmith.design.standard import errors_of, figure_misses
+from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, VerdictLimits, judge, merit_key
 
 if TYPE_CHECKING:
     from bandsmith.chain.cascade import Cascade, Stage
@@ -130,54 +133,42 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     tuple or None
         ``(position in tried, DesignResult, Attempt, notes)`` of the pick, or None when no circuit
         gives a feasible design that does not miss the stage grossly.
+
+    Notes
+    -----
+    The pick is the least, over every candidate, of the key ``(verdict, not sane, heavy, near,
+    merit)``: the verdict's place in ``VERDICTS``; not sane; the number of ``not buildable``
+    reasons when the verdict is ``not buildable``, else 0; the nearest-fit step
+    ``⌊weighted/FIT_STEP⌋``; :func:`bandsmith.verdict.merit_key` with the candidate's position
+    (rank's order, the position last, so no two keys tie). Judging is the costly part, so the
+    pick is found by branch and bound: :func:`_least_key` gives, from numbers the design already
+    has, a tuple that the first four parts of a candidate's key cannot be below. Candidates are
+    judged in the order of those bounds; once the next bound is above the first four parts of
+    the best key so far, neither it nor any later candidate can be the least, and judging stops.
+    The pick is the one judging every candidate gives.
     """
     cands = [(i, res, a) for i, (res, a) in enumerate(tried) if res is not None and a.feasible and res.feasible]
     if not cands:
         return None
-
-    def fit(a) -> tuple:  # the key's sane and nearest-fit steps: the attempt's own numbers
-        return (not a.sane, math.floor(a.weighted / FIT_STEP + 1e-9) if math.isfinite(a.weighted) else math.inf)
-
-    def verdict_of(k: int) -> Verdict:
-        return judge(cands[k][1], limits, candidate=cands[k][2].topology_id)
-
-    # Only the circuits that can still be chosen are judged; the pick is the one judging them all
-    # gives. (1) A circuit whose parts miss the stage's tolerances, that no GBW serves or only one
-    # beyond the ceiling or the op-amp's, or whose spread is beyond the limits, is not buildable
-    # (judge's figure, GBW and spread reasons, from the attempt's own numbers): judged only when no
-    # other one judges better. (2) The others are judged in the order of their fit; once one is
-    # buildable, one with a worse fit (sane, nearest-fit step) cannot come before it. Dropping
-    # candidates keeps the others' order (rank's key ends in their position).
-    def hopeless(res, a) -> bool:
-        return surely_not_buildable(within=a.within, gbw_hz=a.gbw_hz, own_gbw_hz=res.conditions.gbw_hz,
-                                    r_spread=a.r_spread, c_spread=a.c_spread, limits=limits)
-
-    hopeful = sorted((k for k in range(len(cands)) if not hopeless(cands[k][1], cands[k][2])), key=lambda k: fit(cands[k][2]))
-    judged: dict[int, Verdict] = {}
-    best_fit = None  # the fit of the first buildable one (the least fit of any buildable one)
-    for k in hopeful:
-        if best_fit is not None and fit(cands[k][2]) > best_fit:
-            break
-        judged[k] = verdict_of(k)
-        if best_fit is None and judged[k].verdict == BUILDABLE:
-            best_fit = fit(cands[k][2])
-    if not any(v.verdict != NOT_BUILDABLE for v in judged.values()):
-        judged = {k: judged.get(k) or verdict_of(k) for k in range(len(cands))}
-    ks = sorted(judged)
-    cands = [cands[k] for k in ks]
-    verdicts = [judged[k] for k in ks]
-    ranking = rank(verdicts)
-    def key(k):
-        v, a = verdicts[k], cands[k][2]
-        # Within one verdict the nearest fit first (for not buildable, the fewer reasons of that weight
-        # before it), then rank's figure of merit (module notes).
+    # (bound, tightened, position), least first: a bound is first found without the op-amp's
+    # figures (each needs its own errors worked out) and tightened with them when it comes first.
+    heap = [(_least_key(res, a, limits, opamp=False), False, k) for k, (_, res, a) in enumerate(cands)]
+    heapq.heapify(heap)
+    best = pick = None
+    while heap:
+        bound, tightened, k = heapq.heappop(heap)
+        if best is not None and bound > best[:4]:
+            break  # this bound and every one left is above the best key's first four parts
+        i, res, a = cands[k]
+        if not tightened:
+            heapq.heappush(heap, (_least_key(res, a, limits, opamp=True), True, k))
+            continue
+        v = judge(res, limits, candidate=a.topology_id)
         heavy = sum(1 for r in v.reasons if r.weight == NOT_BUILDABLE) if v.verdict == NOT_BUILDABLE else 0
-        near = math.floor(a.weighted / FIT_STEP + 1e-9) if math.isfinite(a.weighted) else math.inf
-        return (VERDICTS.index(v.verdict), not a.sane, heavy, near, ranking.ranks[k])
-
-    order = sorted(range(len(cands)), key=key)
-    k = order[0]
-    i, res, att = cands[k]
+        key = (VERDICTS.index(v.verdict), not a.sane, heavy, _near(a), merit_key(v, k))
+        if best is None or key < best:
+            best, pick = key, k
+    i, res, att = cands[pick]
     notes: tuple[str, ...] = ()
     if not att.within and att.errors is not None:
         e = att.errors
@@ -186,6 +177,45 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
             f"is off by f0 {e['f0_pct']:+.3g} %, Q {e['q_pct']:+.3g} %, gain {e['gain_db']:+.3g} dB (a finer series or a trimmer helps)",
         )
     return i, res, att, notes
+
+
+def _near(a) -> float:
+    """The attempt's nearest-fit step ``⌊weighted/FIT_STEP⌋`` (inf for an undefined fit)."""
+    return math.floor(a.weighted / FIT_STEP + 1e-9) if math.isfinite(a.weighted) else math.inf
+
+
+def _least_key(res, a, limits: VerdictLimits, *, opamp: bool = True) -> tuple:
+    """A lower bound of the first four parts of :func:`choose_auto`'s key, from numbers the design
+    already has (no judging).
+
+    :func:`bandsmith.verdict.judge` gives a ``not buildable`` reason for each figure (f0, Q, gain)
+    outside the design tolerances with the ideal op-amp and again with the session's op-amp
+    (:func:`bandsmith.design.standard.figure_misses`), for no GBW that serves, for a GBW above
+    ``limits.gbw_max_hz`` and above the session's op-amp, and for a resistor or capacitor spread
+    above its ``*_spread_max``; a ``marginal`` one for a GBW above ``limits.gbw_ordinary_hz`` and
+    a spread above its ``*_spread_marginal`` (keep in step with judge's ``_figure_reasons``,
+    ``_amp_reasons`` and ``_spread_reasons``). Its other reasons only add weight, so the verdict
+    is at least the heaviest of these and, when ``not buildable``, has at least as many reasons
+    of that weight. The sane and nearest-fit parts are the attempt's own. With ``opamp`` False
+    the figures with the session's op-amp are left out (a looser bound, found quicker).
+    """
+    an = res.analysis
+    if an is None:  # judge gives exactly one reason: the design was not analysed
+        return (VERDICTS.index(NOT_BUILDABLE), not a.sane, 1, _near(a))
+    tol = res.conditions.tolerances
+    heavy = len(figure_misses(res.errors, tol))
+    if opamp and an.actual is not None:
+        heavy += len(figure_misses(errors_of(an.actual, res.spec), tol))
+    gbw, own = a.gbw_hz, res.conditions.gbw_hz
+    if gbw is None or not math.isfinite(gbw):
+        heavy += 1
+    else:
+        heavy += (gbw > limits.gbw_max_hz) + (own is not None and gbw > own)
+    heavy += (a.r_spread > limits.r_spread_max) + (a.c_spread > limits.c_spread_max)
+    if heavy:
+        return (VERDICTS.index(NOT_BUILDABLE), not a.sane, heavy, _near(a))
+    marginal = (gbw > limits.gbw_ordinary_hz or a.r_spread > limits.r_spread_marginal or a.c_spread > limits.c_spread_marginal)
+    return (VERDICTS.index(MARGINAL if marginal else BUILDABLE), not a.sane, 0, _near(a))
 
 
 def verdicts_json(result: "Cascade", limits: VerdictLimits = VerdictLimits()) -> tuple[list[dict], dict]:
