@@ -150,19 +150,14 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     cands = [(i, res, a) for i, (res, a) in enumerate(tried) if res is not None and a.feasible and res.feasible]
     if not cands:
         return None
-    # (bound, tightened, position), least first: a bound is first found without the op-amp's
-    # figures (each needs its own errors worked out) and tightened with them when it comes first.
-    heap = [(_least_key(res, a, limits, opamp=False), False, k) for k, (_, res, a) in enumerate(cands)]
+    heap = [(_least_key(res, a, limits), k) for k, (_, res, a) in enumerate(cands)]  # (bound, position), least first
     heapq.heapify(heap)
     best = pick = None
     while heap:
-        bound, tightened, k = heapq.heappop(heap)
+        bound, k = heapq.heappop(heap)
         if best is not None and bound > best[:4]:
             break  # this bound and every one left is above the best key's first four parts
         i, res, a = cands[k]
-        if not tightened:
-            heapq.heappush(heap, (_least_key(res, a, limits, opamp=True), True, k))
-            continue
         v = judge(res, limits, candidate=a.topology_id)
         heavy = sum(1 for r in v.reasons if r.weight == NOT_BUILDABLE) if v.verdict == NOT_BUILDABLE else 0
         key = (VERDICTS.index(v.verdict), not a.sane, heavy, _near(a), merit_key(v, k))
@@ -184,7 +179,7 @@ def _near(a) -> float:
     return math.floor(a.weighted / FIT_STEP + 1e-9) if math.isfinite(a.weighted) else math.inf
 
 
-def _least_key(res, a, limits: VerdictLimits, *, opamp: bool = True) -> tuple:
+def _least_key(res, a, limits: VerdictLimits) -> tuple:
     """A lower bound of the first four parts of :func:`choose_auto`'s key, from numbers the design
     already has (no judging).
 
@@ -196,15 +191,14 @@ def _least_key(res, a, limits: VerdictLimits, *, opamp: bool = True) -> tuple:
     a spread above its ``*_spread_marginal`` (keep in step with judge's ``_figure_reasons``,
     ``_amp_reasons`` and ``_spread_reasons``). Its other reasons only add weight, so the verdict
     is at least the heaviest of these and, when ``not buildable``, has at least as many reasons
-    of that weight. The sane and nearest-fit parts are the attempt's own. With ``opamp`` False
-    the figures with the session's op-amp are left out (a looser bound, found quicker).
+    of that weight. The sane and nearest-fit parts are the attempt's own.
     """
     an = res.analysis
     if an is None:  # judge gives exactly one reason: the design was not analysed
         return (VERDICTS.index(NOT_BUILDABLE), not a.sane, 1, _near(a))
     tol = res.conditions.tolerances
     heavy = len(figure_misses(res.errors, tol))
-    if opamp and an.actual is not None:
+    if an.actual is not None:
         heavy += len(figure_misses(errors_of(an.actual, res.spec), tol))
     gbw, own = a.gbw_hz, res.conditions.gbw_hz
     if gbw is None or not math.isfinite(gbw):
