@@ -33,8 +33,8 @@ import math
 from typing import TYPE_CHECKING, Sequence
 
 from bandsmith.chain.chain_settings import STAGE_HOLD, StageHold
-from bandsmith.design.standard import errors_of, figure_misses
-from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, VerdictLimits, judge, merit_key
+from bandsmith.design.standard import figure_misses
+from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, VerdictLimits, judge, least_verdict, merit_key
 
 if TYPE_CHECKING:
     from bandsmith.chain.cascade import Cascade, Stage
@@ -181,35 +181,10 @@ def _near(a) -> float:
 
 def _least_key(res, a, limits: VerdictLimits) -> tuple:
     """A lower bound of the first four parts of :func:`choose_auto`'s key, from numbers the design
-    already has (no judging).
-
-    :func:`bandsmith.verdict.judge` gives a ``not buildable`` reason for each figure (f0, Q, gain)
-    outside the design tolerances with the ideal op-amp and again with the session's op-amp
-    (:func:`bandsmith.design.standard.figure_misses`), for no GBW that serves, for a GBW above
-    ``limits.gbw_max_hz`` and above the session's op-amp, and for a resistor or capacitor spread
-    above its ``*_spread_max``; a ``marginal`` one for a GBW above ``limits.gbw_ordinary_hz`` and
-    a spread above its ``*_spread_marginal`` (keep in step with judge's ``_figure_reasons``,
-    ``_amp_reasons`` and ``_spread_reasons``). Its other reasons only add weight, so the verdict
-    is at least the heaviest of these and, when ``not buildable``, has at least as many reasons
-    of that weight. The sane and nearest-fit parts are the attempt's own.
-    """
-    an = res.analysis
-    if an is None:  # judge gives exactly one reason: the design was not analysed
-        return (VERDICTS.index(NOT_BUILDABLE), not a.sane, 1, _near(a))
-    tol = res.conditions.tolerances
-    heavy = len(figure_misses(res.errors, tol))
-    if an.actual is not None:
-        heavy += len(figure_misses(errors_of(an.actual, res.spec), tol))
-    gbw, own = a.gbw_hz, res.conditions.gbw_hz
-    if gbw is None or not math.isfinite(gbw):
-        heavy += 1
-    else:
-        heavy += (gbw > limits.gbw_max_hz) + (own is not None and gbw > own)
-    heavy += (a.r_spread > limits.r_spread_max) + (a.c_spread > limits.c_spread_max)
-    if heavy:
-        return (VERDICTS.index(NOT_BUILDABLE), not a.sane, heavy, _near(a))
-    marginal = (gbw > limits.gbw_ordinary_hz or a.r_spread > limits.r_spread_marginal or a.c_spread > limits.c_spread_marginal)
-    return (VERDICTS.index(MARGINAL if marginal else BUILDABLE), not a.sane, 0, _near(a))
+    already has (no judging): the verdict and count of :func:`bandsmith.verdict.least_verdict`,
+    the attempt's own sane and nearest-fit parts."""
+    verdict, heavy = least_verdict(res, limits)
+    return (VERDICTS.index(verdict), not a.sane, heavy, _near(a))
 
 
 def verdicts_json(result: "Cascade", limits: VerdictLimits = VerdictLimits()) -> tuple[list[dict], dict]:

@@ -23,7 +23,8 @@ code                   what                                                     
 =====================  ==============================================================  ================
 
 A candidate's verdict is the heaviest weight among its reasons; with none it is ``buildable``. A
-figure beyond its design tolerance is always ``not buildable``.
+figure beyond its design tolerance is always ``not buildable``. :func:`least_verdict` gives, from
+the figure, spread and GBW checks alone, a verdict that judge's is never better than.
 
 The yield is estimated from the sensitivities (:func:`bandsmith.verdict.yield_estimate.estimate_yield`)
 and confirmed by a short fixed-seed Monte Carlo when the estimate lies within
@@ -50,7 +51,7 @@ from bandsmith.design.standard import errors_of, figure_misses
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield, part_tolerances_of
 
-__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge", "surely_not_buildable"]
+__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge", "least_verdict"]
 
 BUILDABLE, MARGINAL, NOT_BUILDABLE = "buildable", "marginal", "not buildable"
 #: The verdicts, best first.
@@ -196,34 +197,30 @@ def _range_reasons(topo: Topology, chosen: Mapping[str, float], limits: VerdictL
     return out
 
 
-def surely_not_buildable(
-    *, within: bool, gbw_hz: float | None, own_gbw_hz: float | None, r_spread: float, c_spread: float, limits: VerdictLimits
-) -> bool:
-    """True when numbers already known of a design make :func:`judge` call it not buildable, by the
-    reasons of that weight in :func:`_figure_reasons`, :func:`_amp_reasons` and
-    :func:`_spread_reasons` (keep them in step): figures outside the design tolerances
-    (``within`` False), no GBW that serves (None or not finite), one above ``limits.gbw_max_hz``
-    or the session's op-amp ``own_gbw_hz`` (Hz), a resistor or capacitor spread beyond its limit.
-    False says nothing: the yield, slew rate and output current are judged only by :func:`judge`.
-    Lets a caller that only wants the best of several skip judging the hopeless ones."""
-    return (not within or gbw_hz is None or not math.isfinite(gbw_hz) or gbw_hz > limits.gbw_max_hz
-            or (own_gbw_hz is not None and gbw_hz > own_gbw_hz) or r_spread > limits.r_spread_max or c_spread > limits.c_spread_max)
+def _gbw_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
+    """The reasons of the required GBW: none serves, above ordinary op-amps or the ceiling, above
+    the session's op-amp. Read from the search the requirements carry (``analysis.required_gbw``,
+    the very ``requirements.gbw_hz`` and ``gbw_reason``), so the rest of the requirements is not
+    worked out for it."""
+    gbw, why = result.analysis.required_gbw
+    out = []
+    if gbw is None or not math.isfinite(gbw):
+        out.append(Reason("gbw_none", f"no op-amp gain-bandwidth holds the figures within the tolerances: {why or 'the open-loop gain is too small'}", None, None, NOT_BUILDABLE))
+        return out
+    if gbw > limits.gbw_max_hz:
+        out.append(Reason("gbw", f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, beyond the {format_value(limits.gbw_max_hz, 'Hz')} ceiling", gbw, limits.gbw_max_hz, NOT_BUILDABLE))
+    elif gbw > limits.gbw_ordinary_hz:
+        out.append(Reason("gbw", f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, above the {format_value(limits.gbw_ordinary_hz, 'Hz')} of ordinary op-amps: a fast part and a careful layout", gbw, limits.gbw_ordinary_hz, MARGINAL))
+    own = result.conditions.gbw_hz
+    if own is not None and gbw > own:
+        out.append(Reason("gbw_opamp", f"needs {format_value(gbw, 'Hz')} gain-bandwidth; the session's op-amp has {format_value(own, 'Hz')}", gbw, own, NOT_BUILDABLE))
+    return out
 
 
 def _amp_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
+    """The reasons of the op-amps' slew rate and output current."""
     req = result.analysis.requirements
     out = []
-    gbw = req.gbw_hz
-    if gbw is None or not math.isfinite(gbw):
-        out.append(Reason("gbw_none", f"no op-amp gain-bandwidth holds the figures within the tolerances: {req.gbw_reason or 'the open-loop gain is too small'}", None, None, NOT_BUILDABLE))
-    else:
-        if gbw > limits.gbw_max_hz:
-            out.append(Reason("gbw", f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, beyond the {format_value(limits.gbw_max_hz, 'Hz')} ceiling", gbw, limits.gbw_max_hz, NOT_BUILDABLE))
-        elif gbw > limits.gbw_ordinary_hz:
-            out.append(Reason("gbw", f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, above the {format_value(limits.gbw_ordinary_hz, 'Hz')} of ordinary op-amps: a fast part and a careful layout", gbw, limits.gbw_ordinary_hz, MARGINAL))
-        own = result.conditions.gbw_hz
-        if own is not None and gbw > own:
-            out.append(Reason("gbw_opamp", f"needs {format_value(gbw, 'Hz')} gain-bandwidth; the session's op-amp has {format_value(own, 'Hz')}", gbw, own, NOT_BUILDABLE))
     slews = [x for x in (req.slew_sine_v_per_us, req.slew_step_v_per_us) if x is not None and math.isfinite(x)]
     if slews:
         slew = max(slews)
@@ -330,6 +327,7 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
                                    f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
     reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
     reasons += _range_reasons(topo, result.chosen, limits)
+    reasons += _gbw_reasons(result, limits)
     reasons += _amp_reasons(result, limits)
     r = _inductor_reason(result, limits) if inductor else None
     if r is not None:
@@ -344,3 +342,39 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     verdict = ordered[0].weight if ordered else BUILDABLE
     req = a.requirements.gbw_hz
     return Verdict(cid, verdict, ordered, y, est, mc, req if req is not None and math.isfinite(req) else None, count, inductor, result.conditions.gbw_hz)
+
+
+def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits()) -> tuple[str, int]:
+    """The least verdict :func:`judge` can give a design, and the least number of its
+    ``not buildable`` reasons, from the checks that need nothing more worked out.
+
+    The checks are judge's own pieces, on the same numbers: a figure (f0, Q, gain) beyond its
+    design tolerance with the ideal op-amp and with the session's op-amp
+    (:func:`bandsmith.design.standard.figure_misses`), the resistor and capacitor spread
+    (:func:`bandsmith.design.designer.spread_of` of the chosen parts) and the required GBW
+    against the ceiling, ordinary op-amps and the session's op-amp. Judge's other checks
+    (stability, part range, slew rate, output current, inductor, yield) only add reasons, so its
+    verdict is at least this one (in ``VERDICTS``' order) and, when both are ``not buildable``,
+    it has at least this many reasons of that weight. Lets a caller that wants only the best of
+    several judge the few that can still be best.
+
+    Returns
+    -------
+    verdict : str
+        ``buildable``, ``marginal`` or ``not buildable``.
+    n_not_buildable : int
+        The number of ``not buildable`` reasons among these checks (0 unless ``verdict`` is
+        ``not buildable``).
+    """
+    if not result.feasible or result.analysis is None:
+        return NOT_BUILDABLE, 1  # judge gives exactly one reason: infeasible
+    a = result.analysis
+    tol = result.conditions.tolerances
+    heavy = len(figure_misses(result.errors, tol))
+    if a.actual is not None:
+        heavy += len(figure_misses(errors_of(a.actual, result.spec), tol))
+    weights = [r.weight for r in _spread_reasons(spread_of(result.topology, result.chosen), limits) + _gbw_reasons(result, limits)]
+    heavy += weights.count(NOT_BUILDABLE)
+    if heavy:
+        return NOT_BUILDABLE, heavy
+    return (MARGINAL if MARGINAL in weights else BUILDABLE), 0
