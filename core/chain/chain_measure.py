@@ -119,16 +119,16 @@ def _edges(chain_mag, f: np.ndarray, mags: np.ndarray, owner: np.ndarray, levels
     return out
 
 
-def measure_chain(response, settings: ChainSettings, f: np.ndarray, q_max: float, *, mag: np.ndarray | None = None) -> Overall:
-    """Overall figures of a chain response ``response(f_hz) -> complex (F,)`` on the sweep ``f``
-    (``mag``: its magnitude on the sweep, when the caller has it)."""
+def measure_chain(response, settings: ChainSettings, f: np.ndarray, q_max: float) -> Overall:
+    """Overall figures of one chain response ``response(f_hz) -> complex (F,)`` on the sweep ``f``,
+    measured alone: the reference :func:`measure_chains` (which a chain's assembly uses, for its
+    responses together) must agree with."""
 
     def mag_fn(x):
         x = np.asarray(x, dtype=float)
         return np.abs(response(x.reshape(-1))).reshape(x.shape)
 
-    if mag is None:
-        mag = mag_fn(f)
+    mag = mag_fn(f)
     peak, f_pk = peak_over_frequency(lambda x: mag_fn(x).reshape(1, -1), float(f[0]), float(f[-1]), q_max=q_max, rows=1)
     return measure_chains(lambda x, rows: mag_fn(x), settings, f, mag[None, :], peak, f_pk)[0]
 
