@@ -45,7 +45,7 @@ import numpy as np
 from bandsmith.common.errors import InputError
 from bandsmith.chain.prototypes import Prototype
 
-__all__ = ["Band", "band_from", "geffe", "SectionPlan", "CascadePlan", "plan_cascade", "biquad_bandpass", "own_partial_products", "peak_over_frequency"]
+__all__ = ["Band", "band_from", "geffe", "SectionPlan", "CascadePlan", "plan_cascade", "biquad_bandpass", "partial_magnitudes", "peak_over_frequency"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -159,7 +159,34 @@ def biquad_bandpass(s: np.ndarray, w0: np.ndarray, q: np.ndarray, gain: np.ndarr
     return g * a * s / (s * s + a * s + w0 * w0)
 
 
-def own_partial_products(h: np.ndarray, width: int) -> np.ndarray:
+def partial_magnitudes(stage_h, x) -> np.ndarray:
+    """The magnitudes ``|H_1·…·H_k|``, k = 1…n, of a chain's first stages (its internal
+    responses), as :func:`peak_over_frequency` asks for them: ``(n, F)``.
+
+    Parameters
+    ----------
+    stage_h : callable
+        Frequencies ``(P,)`` (Hz) to the n stages' responses ``(n, P)`` (complex, signal order).
+    x : ndarray
+        ``(F,)``: the search grid, every row at these points; the rows are ``|cumprod|`` over the
+        stages. ``(n, F)``: refining grids, row k at its own points; row k is the product of the
+        first k + 1 stages at them (:func:`_own_partial_products`, the stages evaluated once for
+        all rows).
+
+    Notes
+    -----
+    A refining row's values are those of multiplying its stages in signal order at its points
+    alone; the search grid keeps the cumulative product it has always used (numpy's cumulative
+    product may round differently from the running product, and the grid's values are kept
+    bit for bit).
+    """
+    x = np.asarray(x, dtype=float)
+    if x.ndim == 1:
+        return np.abs(np.cumprod(stage_h(x), axis=0))
+    return np.abs(_own_partial_products(stage_h(x.reshape(-1)), x.shape[1]))
+
+
+def _own_partial_products(h: np.ndarray, width: int) -> np.ndarray:
     """Row k: ``H_1·H_2·…·H_(k+1)`` at the k-th block of ``width`` points, ``(n, width)``.
 
     ``h`` is ``(n, n·width)``: n stages in signal order, each at every row's points (one
@@ -309,17 +336,12 @@ def plan_cascade(proto: Prototype, band: Band, gain: float) -> CascadePlan:
     n = len(raw)
     w0 = 2.0 * math.pi * f0
 
-    def cumulative(f_hz):
-        f = np.asarray(f_hz, dtype=float)
-        if f.ndim == 1:
-            h = biquad_bandpass(2j * math.pi * f, w0, q)
-            return np.abs(np.cumprod(h, axis=0))
-        # (rows, F): row k evaluates the product of the first k + 1 sections at its own grid.
-        return np.abs(own_partial_products(biquad_bandpass(2j * math.pi * f.reshape(-1), w0, q), f.shape[1]))
+    def sections_h(f_hz):
+        return biquad_bandpass(2j * math.pi * f_hz, w0, q)
 
     lo = min(f0.min(), band.f_low_hz) / 2.0
     hi = max(f0.max(), band.f_high_hz) * 2.0
-    peaks, _ = peak_over_frequency(cumulative, lo, hi, q_max=float(q.max()), rows=n)
+    peaks, _ = peak_over_frequency(lambda f: partial_magnitudes(sections_h, f), lo, hi, q_max=float(q.max()), rows=n)
     centre = float(np.abs(np.prod(biquad_bandpass(np.array([2j * math.pi * fc]), w0, q), axis=0))[0])
     k_total = gain / centre
     peak_gain = k_total * float(peaks[-1])

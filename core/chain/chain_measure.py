@@ -9,7 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
-from bandsmith.chain.bandpass import own_partial_products, peak_over_frequency
+from bandsmith.chain.bandpass import partial_magnitudes, peak_over_frequency
 from bandsmith.chain.chain_settings import HALF_POWER_DB, ChainSettings
 
 __all__ = ["Overall", "reference_zpk", "sweep_frequencies", "measure_chain", "measure_chains", "chain_peaks", "max_dev_db"]
@@ -229,21 +229,21 @@ def chain_peaks(stage_hs, n: int, f: np.ndarray, q_max: float) -> tuple[np.ndarr
 
     Notes
     -----
-    On the search grid the internal responses are ``|cumprod|`` over the stages and the whole
-    ones ``|prod|``; on the refining grids all are products ``H_1·H_2·…`` in signal order, each
-    row at its own frequencies. These are the very values of searching each alone (numpy's
-    product along an axis of several points multiplies in order, elementwise; its cumulative
-    product may round differently, so the grid keeps it where it was used).
+    The internal responses are :func:`bandsmith.chain.bandpass.partial_magnitudes` (``|cumprod|``
+    on the search grid, products in signal order on the refining grids), the whole ones
+    ``|prod|``, each row at its own frequencies on the refining grids. These are the very values
+    of searching each alone (numpy's product along an axis of several points multiplies in
+    order, elementwise).
     """
     first = stage_hs[0]
 
     def mag_fn(x):
         x = np.asarray(x, dtype=float)
-        if x.ndim == 1:
+        if x.ndim == 1:  # one grid for all rows: each response's stages evaluated once, for both uses
             hs = [sh(x) for sh in stage_hs]
-            return np.concatenate([np.abs(np.cumprod(hs[0], axis=0))] + [np.abs(np.prod(h, axis=0))[None, :] for h in hs])
+            return np.concatenate([partial_magnitudes(lambda _: hs[0], x)] + [np.abs(np.prod(h, axis=0))[None, :] for h in hs])
         out = np.empty(x.shape)
-        out[:n] = np.abs(own_partial_products(first(x[:n].reshape(-1)), x.shape[1]))  # row k: the first k + 1 stages at its grid
+        out[:n] = partial_magnitudes(first, x[:n])  # row k: the first k + 1 stages at its grid
         for r, sh in enumerate(stage_hs):
             out[n + r] = np.abs(np.prod(sh(x[n + r]), axis=0))
         return out
