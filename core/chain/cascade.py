@@ -548,9 +548,9 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
     both = Rational.joined(parts) if len(parts) > 1 else parts[0]
     n = len(stages)
 
-    def chain_mag(x, rows):  # |whole response rows[p] at x[p]| (Hz), (P,); rows an int: one response's
-        if isinstance(rows, int):
-            return np.abs(np.prod(parts[rows].at_f(x), axis=0))
+    def chain_mag(x, rows):  # |whole response rows[p] at x[p]| (Hz), (P,); rows one integer (numpy's too): one response's
+        if np.ndim(rows) == 0:
+            return np.abs(np.prod(parts[int(rows)].at_f(x), axis=0))
         h = both.at_f(x)
         return np.abs(np.prod(h.reshape(-1, n, x.size), axis=1)[rows, np.arange(x.size)])
 
