@@ -308,22 +308,38 @@ def test_stability_of_a_second_order_denominator_matches_its_numpy_roots():
 def test_stability_beyond_second_order_matches_its_numpy_roots():
     # is_stable tries Routh-Hurwitz first beyond second order; its answer against the poles
     # numpy.roots finds: random denominators of degree 3 to 6 built from their roots, with pairs
-    # near the axis (real parts from -1 to +1e-8 of their size) and poles at or near zero.
+    # near the axis (real parts from -1 to +1e-8 of their size), some of them repeated, and poles
+    # at or near zero.
     from bandsmith.analysis.analyzer import is_stable
     from bandsmith.solver.rational import Rational
 
     rng = np.random.default_rng(8)
-    for k in range(2000):
-        n = int(rng.integers(3, 7))
+    for k in range(4000):
+        n = int(rng.integers(3, 9))
         roots = []
         while len(roots) < n:
             if len(roots) < n - 1 and rng.random() < 0.5:
-                re = -abs(rng.normal()) * rng.choice([1.0, 1e-3, 1e-9, 0.0, -1e-8]) - 0.0
+                re = -abs(rng.normal()) * rng.choice([1.0, 1e-3, 1e-9, 0.0, -1e-8])
                 im = abs(rng.normal())
-                roots += [complex(re, im), complex(re, -im)]
+                pair = [complex(re, im), complex(re, -im)]
+                roots += pair * (2 if len(roots) < n - 3 and rng.random() < 0.3 else 1)  # a repeated pair
             else:
                 roots.append(complex(-rng.normal() * rng.choice([1.0, 1e-10, 0.0]), 0.0))
         den = np.real(np.poly(roots)) * rng.choice([1.0, -1.0]) * 10 ** rng.uniform(-3, 3)
         h = Rational(np.array([[1.0]]), den[None, :], np.array([2e3]))
         p = np.roots(den)
         assert is_stable(h) == bool(np.all(p.real < 1e-9 * np.abs(p))), den
+
+
+@pytest.mark.parametrize("den", [
+    # A repeated complex pair just right of the axis: rounding in the Routh rows leaves the first
+    # column positive, though the exact roots of these coefficients (60-digit mpmath) have a largest
+    # Re/|p| of +3.06e-9 and +2.9e-9, beyond is_stable's 1e-9 (numpy.roots: +1.24e-8 for the first).
+    [1.0, 2.61874088146642e-09, 0.2143063688832351, 2.8060642467657546e-10, 0.01148180493597931],
+    [1.0, 5.039666739490694e-09, 0.7936950264102738, 1.9999792129495225e-09, 0.1574879487371013],
+])
+def test_a_repeated_pair_just_beyond_the_axis_is_not_stable(den):
+    from bandsmith.analysis.analyzer import is_stable
+    from bandsmith.solver.rational import Rational
+
+    assert not is_stable(Rational(np.array([[1.0]]), np.array([den]), np.array([1.0])))

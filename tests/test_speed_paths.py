@@ -249,10 +249,43 @@ def test_amplifier_values_at_f0_match_a_50_digit_solve(circuit):
     lay = system.layout
     g, c = system.G[0], system.C[0]
     w = 2 * math.pi * f0
-    mpmath.mp.dps = 50
-    a = mpmath.matrix([[mpmath.mpc(g[i, j], w * mpmath.mpf(c[i, j])) for j in range(lay.size)] for i in range(lay.size)])
-    b = mpmath.matrix([1 if i == lay.source_row else 0 for i in range(lay.size)])
-    x = mpmath.lu_solve(a, b)
+    with mpmath.workdps(50):
+        a = mpmath.matrix([[mpmath.mpc(g[i, j], w * mpmath.mpf(c[i, j])) for j in range(lay.size)] for i in range(lay.size)])
+        b = mpmath.matrix([1 if i == lay.source_row else 0 for i in range(lay.size)])
+        x = mpmath.lu_solve(a, b)
     for e, amp in zip(netlist.opamps, needs):
         assert_allclose(amp.vout_peak_v, float(abs(x[lay.node_index[e.nodes[2]]])), rtol=1e-13)
         assert_allclose(amp.iout_peak_a, float(abs(x[lay.opamp_row[e.ref]])), rtol=1e-13)
+
+
+@pytest.mark.parametrize("circuit", ["mfb", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_node_rationals_writes_out_the_sampled_solve_bit_for_bit(circuit):
+    """node_rationals forms member 0's pencil, determinant and solve itself (fewer array calls);
+    the same numbers as the general path it shortens: the samples of _samples, MnaSystem.solve's
+    right-hand side, one transform (_coefficients) and the trims. With ``at`` the solution there is
+    the pencil solved at that point (numpy.linalg.solve), every unknown."""
+    import math
+
+    from bandsmith.circuits import get_topology
+    from bandsmith.solver.mna import MnaSystem, build_system
+    from bandsmith.solver.rational import _coefficients, _samples, _trim, node_rationals
+
+    topo = get_topology(circuit)
+    system = build_system(topo.build(dict(topo.example)))
+    idx = [system.layout.node_index[e.nodes[2]] for e in topo.build(dict(topo.example)).opamps]
+    idx += [system.layout.opamp_row[r] for r in system.layout.opamp_row]
+    w = 2 * math.pi * 1e3
+    one = MnaSystem(system.G[:1], system.C[:1], system.layout, system.output_index, None)
+    k, a = _samples(one, np.array([w]))
+    a = a[0]
+    den_v = np.linalg.det(a)
+    x = np.linalg.solve(a, one.source_vector().astype(complex)[None, :, None])[:, :, 0]
+    both = _coefficients(np.concatenate([den_v[None, :], (x[:, idx] * den_v[:, None]).T]), k)
+    num_c, den_c = _trim(both[1:]), _trim(both[:1])
+    scale = np.abs(den_c).max()
+    h, x0 = node_rationals(system, idx, w, at=2j * math.pi * 2e3)
+    assert np.array_equal(h.num, num_c / scale)
+    assert np.array_equal(h.den, np.repeat(den_c / scale, len(idx), axis=0))
+    assert np.array_equal(node_rationals(system, idx, w).num, h.num)
+    x_ref = np.linalg.solve(system.G[0] + 2j * math.pi * 2e3 * system.C[0], one.source_vector().astype(complex))
+    assert_allclose(x0, x_ref, rtol=1e-13, atol=0)

@@ -65,3 +65,17 @@ def test_second_order_closed_form_is_the_peak_of_scipys_impulse_response(seed):
     peak = max(np.max(np.abs(scipy.signal.impulse((rest, a), T=t)[1])) for t in (early, late))
     assert got == pytest.approx(peak, rel=1e-6)
     assert got >= peak * (1 - 1e-9)
+
+
+def test_an_all_zero_denominator_gives_no_slope_rather_than_an_error():
+    # A degenerate member (every denominator coefficient zero) read as no slope, 0.0, as the array
+    # form of these closed forms gave it; the list form once raised ZeroDivisionError here.
+    import numpy as np
+
+    from bandsmith.analysis.timeresponse import max_step_slope, max_step_slopes
+    from bandsmith.solver.rational import Rational
+
+    for den in ([0.0, 0.0, 0.0], [0.0]):
+        h = Rational(np.array([[1.0, 0.0]]), np.array([den]), np.array([1e3]))
+        assert max_step_slope(h) == 0.0
+        assert max_step_slopes(h) == [0.0]

@@ -267,10 +267,10 @@ def is_stable(h: Rational, i: int = 0) -> bool:
     A second-order denominator ``a2·p² + a1·p + a0`` has its poles in closed form (a complex
     pair's real part ``−a1/(2·a2)`` and size ``√(a0/a2)``; real poles by the cancellation-free
     quadratic formula), the same test without an eigenvalue call. Any other is first tried by
-    Routh–Hurwitz (:func:`_routh_stable`): where it finds every pole in the open left half-plane,
-    so does the eigenvalue test; where it does not (a pole on or beyond the axis, or a zero in the
-    first column), the poles of :meth:`~bandsmith.solver.rational.Rational.poles` decide, to the
-    same 1e-9."""
+    Routh–Hurwitz (:func:`_routh_stable`), which settles it only where every entry of the first
+    column is positive and none came out of a near-cancellation (a pair of poles close to the axis,
+    where rounding in the array could hide a pole just beyond it); everywhere else the poles of
+    :meth:`~bandsmith.solver.rational.Rational.poles` decide, to the same 1e-9."""
     den = h.den[i].tolist()
     while len(den) > 1 and den[0] == 0:
         den = den[1:]
@@ -287,13 +287,21 @@ def is_stable(h: Rational, i: int = 0) -> bool:
     return bool(np.all(p.real < 1e-9 * np.abs(p))) if p.size else True
 
 
+# A first-column entry of the Routh array formed as u − v with u − v below this share of |u| or
+# |v| came out of a near-cancellation: its sign is not trusted (is_stable then takes the poles).
+_ROUTH_CANCELLATION = 1e-4
+
+
 def _routh_stable(den: list[float]) -> bool:
     """True when the first column of the Routh array of ``den`` (highest power first, leading
-    coefficient nonzero) is all positive after dividing by the leading coefficient: every root in
-    the open left half-plane (E. J. Routh, *A Treatise on the Stability of a Given State of
-    Motion*, 1877). The rows of :func:`bandsmith.solver.stability.hurwitz_stable` for one
-    polynomial, in Python floats (a handful of coefficients: cheaper than arrays); a zero or a
-    non-finite entry is not stable."""
+    coefficient nonzero) is all positive after dividing by the leading coefficient, each entry
+    clear of cancellation: every root in the open left half-plane (E. J. Routh, *A Treatise on
+    the Stability of a Given State of Motion*, 1877). The rows of
+    :func:`bandsmith.solver.stability.hurwitz_stable` for one polynomial, in Python floats (a
+    handful of coefficients: cheaper than arrays). False — "not settled here" — for a zero, a
+    negative or a non-finite entry, and for an entry ``u − v`` smaller than
+    :data:`_ROUTH_CANCELLATION` of ``max(|u|, |v|)``: with a repeated pair of poles near the axis,
+    rounding in the rows can leave the column positive while a pole lies just beyond the axis."""
     lead = den[0]
     a = [c / lead for c in den]
     if not all(math.isfinite(c) for c in a):
@@ -304,6 +312,10 @@ def _routh_stable(den: list[float]) -> bool:
         if not first > 0:
             return False
         r1_rest = r1[1:] + [0.0] * (len(r0) - len(r1))
+        if len(r0) > 1:  # the next row's first entry, (u − v)/first: trusted only clear of cancellation
+            u, v = first * r0[1], r0[0] * r1_rest[0]
+            if not u - v > _ROUTH_CANCELLATION * max(abs(u), abs(v)):
+                return False
         nxt = [(first * r0[k + 1] - r0[0] * r1_rest[k]) / first for k in range(len(r0) - 1)]
         r0, r1 = r1, nxt
     return True
@@ -348,9 +360,8 @@ def amplifier_needs(
     amps = netlist.opamps
     nodes = [system.layout.node_index[e.nodes[2]] for e in amps]
     if rload_ohm is None:  # the outputs' voltages and currents at f0 solved with the same samples
-        both, x0 = node_rationals(system, nodes + [system.layout.opamp_row[e.ref] for e in amps], w_ref, at=s0)
-        at_f0 = np.abs(x0).tolist()
-        at_nodes = both.take(slice(0, len(amps)))
+        at_nodes, x0 = node_rationals(system, nodes, w_ref, at=s0)
+        at_f0 = np.abs(x0[nodes + [system.layout.opamp_row[e.ref] for e in amps]]).tolist()
         volts, amperes = at_f0[: len(amps)], at_f0[len(amps) :]
     else:
         loaded = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))

@@ -230,6 +230,9 @@ def _in_s(num: list[float], den: list[float], powers: list[float]) -> tuple[list
     b = [c * f for c, f in zip(num, powers[len(powers) - len(num) :])]
     a = [c * f for c, f in zip(den, powers[len(powers) - len(den) :])]
     lead = a[0]
+    if lead == 0:  # an all-zero denominator: IEEE quotients (inf, NaN), as numpy's division gives them
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return (np.array(b) / lead).tolist(), (np.array(a) / lead).tolist()
     return [c / lead for c in b], [c / lead for c in a]
 
 

@@ -15,7 +15,7 @@ __all__ = ["compare", "compare_json", "part_count", "needs_inductor", "candidate
 def part_count(topology: Topology) -> int:
     """Parts to buy: resistors, capacitors, inductors and op-amps (a winding resistance is not one)."""
     known = _COUNTS.get(id(topology))
-    if known is None or known[0] is not topology:  # the same object, not one that took its id
+    if known is None:
         comps = sum(1 for c in topology.components if c.required)
         opamps = len(topology.build(topology.values_from(dict(topology.example))).opamps)
         known = _COUNTS[id(topology)] = (topology, comps + opamps)
@@ -23,8 +23,9 @@ def part_count(topology: Topology) -> int:
 
 
 # The count of each circuit (op-amps from its example's netlist: the same for any part values),
-# worked out once per topology object (kept here, so its id stays its own) so that a compare does
-# not build a netlist again for every candidate and verdict.
+# worked out once per topology object so that a compare does not build a netlist again for every
+# candidate and verdict. Keyed by id (a topology holds a dict, so it is not hashable); the entry
+# holds the topology itself, so no other object can take its id while the entry lives.
 _COUNTS: dict[int, tuple[Topology, int]] = {}
 
 

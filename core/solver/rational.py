@@ -309,8 +309,9 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     written out for the one member (the same arithmetic in fewer array operations).
 
     With ``at`` (a complex frequency, rad/s) the pencil is solved there too, in the same batch,
-    and the result is ``(rational, values)``: the unknowns' complex values at ``at``, ``(len(indices),)``
-    (the solution itself, not the polynomials evaluated; the same to rounding).
+    and the result is ``(rational, x)``: every unknown's complex value at ``at``, ``(n,)`` (the
+    solution itself, not the polynomials evaluated; the same to rounding), so that values of
+    unknowns whose transfer functions are not wanted (the op-amps' currents) come along.
     """
     g, c = system.G[0], system.C[0]
     k = int(np.count_nonzero(c.any(axis=1))) + 1  # _degree_bound of member 0, plus one
@@ -319,8 +320,7 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
         s = np.append(s, complex(at))
     a = g + s[:, None, None] * c  # (K, n, n), and the pencil at ``at`` after them
     den_v = np.linalg.det(a[:k])
-    rhs = np.zeros((system.layout.size, 1), dtype=complex)
-    rhs[system.layout.source_row, 0] = 1.0
+    rhs = system.source_vector().astype(complex)[None, :, None]  # (1, n, 1): a matrix for every member
     x = np.linalg.solve(a, rhs)  # (K, n, 1), each matrix solved alone
     idx = list(indices)
     values = np.empty((1 + len(idx), k), dtype=complex)
@@ -331,7 +331,7 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     den_c = _trim(both[:1])
     scale = np.abs(den_c).max()
     h = Rational(num_c / scale, np.repeat(den_c / scale, len(idx), axis=0), np.full(len(idx), float(w_ref)))
-    return h if at is None else (h, x[k, idx, 0])
+    return h if at is None else (h, x[k, :, 0])
 
 
 def _finite_amps(system: MnaSystem) -> bool:
