@@ -324,7 +324,8 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
         ref = ref.item()  # one reference for every member (else one per member)
     u0 = ref.f0_hz**2 * to_u
     u_pk, ok = _newton(slope, u0, k2)
-    half = _poly_sub(pu, qu * (0.5 * _ratio(pu, qu, u_pk))[:, None])
+    peak2 = _ratio(pu, qu, u_pk)
+    half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
     if only_peak:
         # a Lorentzian in u with the peak's curvature, |H|² = peak/(1 + ((u − u_pk)/γ)²), puts
         # the edges γ from the peak: γ² = −2·P·Q/(P''Q − P·Q'') there (P'Q = PQ' at the peak)
@@ -337,7 +338,7 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
     both, ok2 = _newton(np.concatenate([half, half]), starts, k2, first=5)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
     if only_peak:
-        ok &= _only_peak(pu, qu, slope, u_pk, both[:b], both[b:], ok & ok2[:b] & ok2[b:])
+        ok &= _only_peak(pu, qu, slope, u_pk, peak2, both[:b], both[b:], ok & ok2[:b] & ok2[b:])
     nan = np.nan
     u_pk = np.where(ok, u_pk, nan)
     u_low = np.where(ok & ok2[:b], both[:b], nan)
@@ -345,29 +346,93 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
     return _figures(h, u_pk, u_low, u_high)
 
 
-def _only_peak(pu, qu, slope, u_pk, u_low, u_high, live) -> np.ndarray:
-    """True where the peak found at ``u_pk`` is the highest stationary point of ``|H|² = P/Q`` in
-    ``u > 0`` and none lies between it and its band edges ``u_low``, ``u_high`` (then ``|H|²``
-    falls monotonically from the peak to each edge, so each is the half-power point nearest the
-    peak: what :func:`measure` finds). Where ``P'Q − PQ'`` has one sign change that holds by
-    Descartes' rule of signs; elsewhere (``live`` members only) the other stationary points are
-    the real positive roots of ``P'Q − PQ'`` divided by ``u − u_pk`` (synthetic division)."""
+def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
+    """True where the peak found at ``u_pk`` (of height ``peak2``) is the highest stationary point
+    of ``|H|² = P/Q`` in ``u > 0`` and none lies between it and its band edges ``u_low``,
+    ``u_high`` (then ``|H|²`` falls monotonically from the peak to each edge, so each is the
+    half-power point nearest the peak: what :func:`measure` finds). Where ``P'Q − PQ'`` has one
+    sign change that holds by Descartes' rule of signs. Elsewhere (``live`` members only) the
+    other stationary points are the roots of ``T``, ``P'Q − PQ'`` divided by ``u − u_pk``
+    (synthetic division), and both conditions are settled in closed form where that can be
+    (:func:`_below_peak`, :func:`_no_root_between`), by the real positive roots of ``T``
+    (companion-matrix eigenvalues) for the rest."""
     out = _sign_changes(slope) == 1
     many = np.flatnonzero(live & ~out)
     if many.size:
-        c, x = slope[many], u_pk[many]
-        rest = np.empty((many.size, c.shape[1] - 1))
-        rest[:, 0] = c[:, 0]
-        for k in range(1, c.shape[1] - 1):  # the quotient of c by (u − x), Horner's steps
-            rest[:, k] = c[:, k] + x * rest[:, k - 1]
-        others = _real_positive_roots(rest)  # (n, deg − 1), NaN where none
-        peak2 = _ratio(pu[many], qu[many], x)
-        with np.errstate(invalid="ignore"):
-            height = _ratio(pu[many], qu[many], np.nan_to_num(others, nan=1.0))
-            higher = np.isfinite(others) & (height >= peak2[:, None] * (1.0 - 1e-9))
-            inside = (others > u_low[many, None]) & (others < u_high[many, None])
-        out[many] = ~(higher | inside).any(axis=1)
+        x = u_pk[many]
+        rest = _deflated(slope[many], x)
+        proven = _below_peak(pu[many], qu[many], peak2[many], x) & _no_root_between(rest, u_low[many], u_high[many])
+        out[many[proven]] = True
+        if not proven.all():
+            many, rest, x = many[~proven], rest[~proven], x[~proven]
+            others = _real_positive_roots(rest)  # (n, deg − 1), NaN where none
+            top = peak2[many]
+            with np.errstate(invalid="ignore"):
+                height = _ratio(pu[many], qu[many], np.nan_to_num(others, nan=1.0))
+                higher = np.isfinite(others) & (height >= top[:, None] * (1.0 - 1e-9))
+                inside = (others > u_low[many, None]) & (others < u_high[many, None])
+            out[many] = ~(higher | inside).any(axis=1)
     return out
+
+
+def _deflated(c: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """The quotient of batched polynomials ``c`` (highest power first) by ``u − x`` (Horner's
+    steps of synthetic division; the remainder, ``c(x)``, is dropped): one coefficient fewer."""
+    out = np.empty((c.shape[0], c.shape[1] - 1))
+    out[:, 0] = c[:, 0]
+    for k in range(1, c.shape[1] - 1):
+        out[:, k] = c[:, k] + x * out[:, k - 1]
+    return out
+
+
+# _below_peak's margin: a quadratic whose discriminant is within this fraction of 4·s0·s2 of zero
+# (a rival peak within rounding of the height) is left to the eigenvalues.
+_RIVAL_MARGIN = 1e-12
+
+
+def _below_peak(pu, qu, peak2, x) -> np.ndarray:
+    """True where ``|H|² = P/Q`` stays below its height ``peak2`` at ``u = x`` for every other
+    ``u ≥ 0``, proven in closed form; False where that is not known (not necessarily untrue).
+
+    ``R = peak2·Q − P`` is zero with a zero slope at the peak, so ``R = (u − x)²·S`` with ``S``
+    the quotient of two synthetic divisions (the remainders, zero but for rounding, dropped), and
+    ``|H|² < peak2`` elsewhere exactly where ``S > 0`` on ``u ≥ 0``: so where every coefficient of
+    ``S`` is at least zero and ``S(0) > 0``, or, for a quadratic ``s2·u² + s1·u + s0`` with
+    ``s0 > 0`` and ``s2 ≥ 0``, where ``s1² < 4·s0·s2`` (no real root; by a margin of
+    :data:`_RIVAL_MARGIN`). A dual-amplifier band-pass's slope has two more sign changes (a dip
+    and a small second peak near the op-amp's GBW): its ``S`` is such a quadratic."""
+    r = _poly_sub(qu * peak2[:, None], pu)
+    if r.shape[1] < 3:
+        return np.zeros(x.size, dtype=bool)
+    s = _deflated(_deflated(r, x), x)
+    with np.errstate(invalid="ignore", over="ignore"):
+        out = (s >= 0.0).all(axis=1) & (s[:, -1] > 0.0)
+        if s.shape[1] == 3:
+            s2, s1, s0 = s[:, 0], s[:, 1], s[:, 2]
+            four = 4.0 * s0 * s2
+            out |= (s0 > 0.0) & (s2 >= 0.0) & (four - s1 * s1 > _RIVAL_MARGIN * four)
+    return out
+
+
+def _no_root_between(c: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """True where the batched polynomial ``c`` (highest power first) is proven to have no real
+    root in ``(a, b]``; False where that is not known.
+
+    Budan–Fourier theorem: the number of real roots in ``(a, b]`` is ``V(a) − V(b)`` less an even
+    number, ``V(x)`` being the sign changes of ``c(x)``, ``c'(x)``, …, i.e. of the coefficients of
+    ``c(x + y)`` in ``y`` (found by repeated synthetic division, the Taylor shift); so
+    ``V(a) = V(b)`` proves that there is none (Prasolov, *Polynomials*, 2004, Thm. 1.1.4; from
+    memory). Exact when every root is real (then each count is Descartes' and exact)."""
+    n = c.shape[0]
+    t = np.concatenate([c, c])
+    x = np.concatenate([a, b])
+    d = c.shape[1] - 1
+    for i in range(d):  # after step i the last i + 1 entries are final
+        for j in range(1, d + 1 - i):
+            t[:, j] += x * t[:, j - 1]
+    v = _sign_changes(t)
+    finite = np.isfinite(t).all(axis=1)
+    return (v[:n] == v[n:]) & finite[:n] & finite[n:]
 
 
 def _second_derivatives(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
