@@ -19,6 +19,7 @@ from typing import Sequence
 import numpy as np
 
 from bandsmith.solver.mna import MnaSystem, build_system
+from bandsmith.solver.polyroots import companion_roots
 
 __all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "polyval_batch", "pad_rows"]
 
@@ -159,13 +160,12 @@ class Rational:
         return coefficients_in_s(one.num[0], one.den[0], float(self.w_ref[i]))
 
     def poles(self, i: int = 0) -> np.ndarray:
-        """Poles in rad/s of member ``i``."""
-        return np.roots(self.item(i).den[0]) * self.w_ref[i]
+        """Poles in rad/s of member ``i`` (the roots of its denominator, leading zeros dropped)."""
+        return companion_roots(self.den[i]) * self.w_ref[i]
 
     def zeros(self, i: int = 0) -> np.ndarray:
-        """Finite zeros in rad/s of member ``i``."""
-        num = self.item(i).num[0]
-        return np.roots(num) * self.w_ref[i] if num.size > 1 else np.zeros(0)
+        """Finite zeros in rad/s of member ``i`` (none for a constant numerator)."""
+        return companion_roots(self.num[i]) * self.w_ref[i]
 
 
 def coefficients_in_s(num: np.ndarray, den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
