@@ -30,7 +30,7 @@ import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
-from bandsmith.solver.rational import Rational, pad_rows, polyder_batch, polyval_batch
+from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
 __all__ = ["Figures", "measure", "measure_many", "measure_near", "measure_from", "biquad_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
            "CLOSED_FORM_FROM"]
@@ -324,12 +324,15 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
         ref = ref.item()  # one reference for every member (else one per member)
     u0 = ref.f0_hz**2 * to_u
     u_pk, ok = _newton(slope, u0, k2)
-    peak2 = _ratio(pu, qu, u_pk)
+    p0 = polyval_batch(pu, u_pk)
+    q0 = polyval_batch(qu, u_pk)
+    peak2 = p0 / q0
     half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
     if only_peak:
         # a Lorentzian in u with the peak's curvature, |H|² = peak/(1 + ((u − u_pk)/γ)²), puts
         # the edges γ from the peak: γ² = −2·P·Q/(P''Q − P·Q'') there (P'Q = PQ' at the peak)
-        p0, q0, p2, q2 = np.split(polyval_batch(_second_derivatives(pu, qu), np.tile(u_pk, 4)), 4)
+        p2 = polyval_batch(polyder_batch(polyder_batch(pu)), u_pk)
+        q2 = polyval_batch(polyder_batch(polyder_batch(qu)), u_pk)
         spread_u = 1.0 + np.sqrt(np.abs(2.0 * p0 * q0 / (p2 * q0 - p0 * q2))) / u_pk
         starts = np.concatenate([u_pk / spread_u, u_pk * spread_u])
     else:  # the band edges start where the moved peak carries the reference's
@@ -435,15 +438,12 @@ def _no_root_between(c: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return (v[:n] == v[n:]) & finite[:n] & finite[n:]
 
 
-def _second_derivatives(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
-    """``P``, ``Q``, ``P''`` and ``Q''`` stacked as one batch (padded to one length): ``(4B, k)``."""
-    return pad_rows([pu, qu, polyder_batch(polyder_batch(pu)), polyder_batch(polyder_batch(qu))])
-
-
 def _sign_changes(c: np.ndarray) -> np.ndarray:
     """Sign changes along each row of coefficients, zeros skipped (Descartes' rule of signs bounds
     the positive real roots by it): shape ``(B,)``."""
     sign = np.sign(c)
+    if sign.all():  # no zero to skip (a NaN counts no change either way)
+        return (sign[:, 1:] * sign[:, :-1] < 0).sum(axis=1)
     last = np.maximum.accumulate(np.where(sign != 0, np.arange(c.shape[1]), 0), axis=1)
     held = np.take_along_axis(sign, last, axis=1)  # each zero takes the sign before it (leading ones stay 0)
     return (held[:, 1:] * held[:, :-1] < 0).sum(axis=1)
@@ -475,24 +475,42 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     of a member does not depend on the rest of the batch. Tests come after ``first`` steps and
     then every other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps; the
     converged members then take one step more."""
-    b = poly.shape[0]
+    b, k = poly.shape
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
         x0 = np.broadcast_to(x0, (b,))
     lo, hi = x0 / k2, x0 * k2
-    # the polynomials and their derivatives (a leading zero: the same Horner steps) in one batch
-    both = np.zeros((2 * b, poly.shape[1]))
-    both[:b] = poly
-    if poly.shape[1] > 1:  # a constant's derivative is zero
-        both[b:, 1:] = polyder_batch(poly)
-    x = x0
+    # the polynomials and their derivatives (a leading zero: the same Horner steps) in one batch,
+    # stored by coefficient (row j: coefficient j of every member, contiguous)
+    rows = np.zeros((k, 2 * b))
+    rows[:, :b] = poly.T
+    if k > 1:  # a constant's derivative is zero
+        rows[1:, b:] = polyder_batch(poly).T
+    x = x0.copy()  # stepped in place
+    xx = np.empty(2 * b)
     done = np.zeros(b, dtype=bool)
+    live = None  # the members still stepped: every one until the first test
     ok = np.zeros(b, dtype=bool)
+
+    def newton_step() -> np.ndarray:
+        """``p(x)/p'(x)`` (Horner's rule on both halves at once, as polyval_batch)."""
+        xx[:b] = x
+        xx[b:] = x
+        v = rows[0] * xx
+        for i in range(1, k - 1):
+            v += rows[i]
+            v *= xx
+        if k > 1:
+            v += rows[k - 1]
+        return v[:b] / v[b:]
+
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         for n in range(1, _NEWTON_MOST + 1):
-            v = polyval_batch(both, np.concatenate((x, x)))
-            step = v[:b] / v[b:]
-            x = np.where(done, x, x - step)
+            step = newton_step()
+            if live is None:
+                x -= step
+            else:
+                np.subtract(x, step, out=x, where=live)
             if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
                 inside = (x >= lo) & (x <= hi)
                 converged = (np.abs(step) <= 1e-5 * np.abs(x)) & inside & ~done  # quadratic: ~1e-10 after it
@@ -500,10 +518,10 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
                 done |= converged | ~inside
                 if done.all():
                     break
+                live = ~done
         # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which
         # for a band edge is the bandwidth (x/Q); after this step it is rounding
-        v = polyval_batch(both, np.concatenate((x, x)))
-        x = np.where(ok, x - v[:b] / v[b:], x)
+        np.subtract(x, newton_step(), out=x, where=ok)
     return x, ok
 
 
