@@ -13,7 +13,7 @@ from __future__ import annotations
 import functools
 import itertools
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Sequence
 
 import numpy as np
@@ -433,6 +433,8 @@ class AmpFamily:
     num_terms: tuple[np.ndarray, ...]
     den_terms: tuple[np.ndarray, ...]
     w_ref: float
+    # the shifted terms of :func:`_family_shifted`, (numerator, denominator), made at the first at()
+    _shifted: tuple[np.ndarray, np.ndarray] | None = field(default=None, init=False, repr=False, compare=False)
 
     def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
         """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s).
@@ -440,12 +442,16 @@ class AmpFamily:
         ``x^j = (−α − β·p)^j = Σ_i C(j, i)·(−β)^i·(−α)^(j−i)·p^i`` (binomial theorem), so both
         polynomials are one weighted sum of the shifted ``N_j``, ``D_j``: a single product."""
         gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
-        alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
+        alpha = 1.0 / np.asarray(a0, dtype=float)
+        # one open-loop gain for the whole ladder: one value, its powers broadcast in the weights
+        alpha = alpha.reshape(1) if alpha.size == 1 else np.broadcast_to(alpha, gbw.shape)
         beta = self.w_ref / (2.0 * np.pi * gbw)
         m = len(self.den_terms) - 1
+        if self._shifted is None:
+            object.__setattr__(self, "_shifted", (_family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m)))
         weights = _family_weights(alpha, beta, m)
-        num = weights @ _family_shifted(self.num_terms, m)
-        den = weights @ _family_shifted(self.den_terms, m)
+        num = weights @ self._shifted[0]
+        den = weights @ self._shifted[1]
         den = _lead_trim(den)
         num = _lead_trim(num)
         scale = np.max(np.abs(den), axis=1, keepdims=True)
@@ -471,14 +477,17 @@ def _family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
     """``C(j, i)·(−β)^i·(−α)^(j−i)`` for every pair of :func:`_family_pairs`: ``(B, pairs)``.
 
     Each power of ``−β`` and ``−α`` is taken once (``m + 1`` of each), then picked per pair; an
-    ``α`` broadcast from one value (one open-loop gain for the whole ladder) is raised once."""
+    ``α`` of one value (one open-loop gain for the whole ladder, shape ``(1,)``) is raised once."""
     _, i_pow, rest, comb = _family_pairs(m)
     if alpha.ndim == 1 and alpha.size > 1 and alpha.strides[0] == 0:
         alpha = alpha[:1]  # the same number in every member: its powers broadcast below
     nb, na = -beta, -alpha
-    pb = np.stack([nb**i for i in range(m + 1)], axis=1)
-    pa = np.stack([na**i for i in range(m + 1)], axis=1)
-    return np.ascontiguousarray(comb * pb[:, i_pow] * pa[:, rest])
+    pb = np.empty((nb.size, m + 1))
+    pa = np.empty((na.size, m + 1))
+    for i in range(m + 1):
+        pb[:, i] = nb**i
+        pa[:, i] = na**i
+    return comb * pb[:, i_pow] * pa[:, rest]
 
 
 def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> np.ndarray:
