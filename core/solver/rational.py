@@ -438,7 +438,8 @@ class AmpFamily:
     num_terms: tuple[np.ndarray, ...]
     den_terms: tuple[np.ndarray, ...]
     w_ref: float
-    # the shifted terms of :func:`_family_shifted`, (numerator, denominator), made at the first at()
+    # the shifted terms of :func:`_family_shifted`, (numerator, denominator), made at the first at(),
+    # each less its leading columns that are zero in every pair (a product with them is zero)
     _shifted: tuple[np.ndarray, np.ndarray] | None = field(default=None, init=False, repr=False, compare=False)
 
     def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
@@ -453,7 +454,8 @@ class AmpFamily:
         beta = self.w_ref / (2.0 * np.pi * gbw)
         m = len(self.den_terms) - 1
         if self._shifted is None:
-            object.__setattr__(self, "_shifted", (_family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m)))
+            shifted = (_family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m))
+            object.__setattr__(self, "_shifted", tuple(_lead_trim(t) for t in shifted))
         weights = _family_weights(alpha, beta, m)
         num = weights @ self._shifted[0]
         den = weights @ self._shifted[1]
@@ -489,7 +491,15 @@ def _family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
     nb, na = -beta, -alpha
     pb = np.empty((nb.size, m + 1))
     pa = np.empty((na.size, m + 1))
-    for i in range(m + 1):
+    pb[:, 0] = 1.0  # x**0, x**1 and x**2 are 1, x and x·x exactly
+    pa[:, 0] = 1.0
+    if m > 0:
+        pb[:, 1] = nb
+        pa[:, 1] = na
+    if m > 1:
+        pb[:, 2] = nb * nb
+        pa[:, 2] = na * na
+    for i in range(3, m + 1):
         pb[:, i] = nb**i
         pa[:, i] = na**i
     return comb * pb[:, i_pow] * pa[:, rest]
