@@ -486,21 +486,23 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     rows[:, :b] = poly.T
     if k > 1:  # a constant's derivative is zero
         rows[1:, b:] = polyder_batch(poly).T
-    x = x0.copy()  # stepped in place
-    xx = np.empty(2 * b)
+    xx = np.empty(2 * b)  # the points of both halves: x, then a copy of it
+    x = xx[:b]  # stepped in place
+    x[:] = x0
     done = np.zeros(b, dtype=bool)
     live = None  # the members still stepped: every one until the first test
     ok = np.zeros(b, dtype=bool)
 
     def newton_step() -> np.ndarray:
         """``p(x)/p'(x)`` (Horner's rule on both halves at once, as polyval_batch)."""
-        xx[:b] = x
         xx[b:] = x
-        v = rows[0] * xx
-        for i in range(1, k - 1):
-            v += rows[i]
-            v *= xx
-        if k > 1:
+        if k == 1:
+            v = rows[0] + np.zeros_like(xx)
+        else:
+            v = rows[0] * xx
+            for i in range(1, k - 1):
+                v += rows[i]
+                v *= xx
             v += rows[k - 1]
         return v[:b] / v[b:]
 

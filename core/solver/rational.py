@@ -292,7 +292,7 @@ class OpAmpFamily:
         mp = np.zeros(n)  # M(p)·p
         mp[n - self.cofactor.size - 1 : n - 1] = self.cofactor
         den = d0[None, :] - alpha * m[None, :] - beta[:, None] * mp[None, :]
-        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        scale = np.abs(den).max(axis=1, keepdims=True)
         return Rational(self.num[None, :] / scale, den / scale, np.full(gbw.size, self.w_ref))
 
 
@@ -461,7 +461,7 @@ class AmpFamily:
         den = weights @ self._shifted[1]
         den = _lead_trim(den)
         num = _lead_trim(num)
-        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        scale = np.abs(den).max(axis=1, keepdims=True)
         scale[scale == 0] = 1.0
         return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
 
