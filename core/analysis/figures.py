@@ -532,7 +532,7 @@ def _real_positive_roots(c: np.ndarray) -> np.ndarray:
     b, k = c.shape
     if k < 2:
         return np.full((b, 0), np.nan)
-    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    scale = np.abs(c).max(axis=1, keepdims=True)
     # A member of lower degree than the batch (an ideal op-amp beside finite ones) has leading
     # zeros: shift it up and multiply by (u + 1), whose root −1 is never real positive.
     for _ in range(k - 1):
@@ -558,10 +558,11 @@ def real_positive_roots_eig(c: np.ndarray, lead: np.ndarray) -> np.ndarray:
     b, k = c.shape
     comp = np.zeros((b, k - 1, k - 1))
     comp[:, 0, :] = -c[:, 1:] / lead
-    if k > 2:
-        comp[:, np.arange(1, k - 1), np.arange(k - 2)] = 1.0
-    bad = ~np.isfinite(comp).all(axis=(1, 2))  # a member with no peak (NaN) has no roots either
-    comp[bad] = 0.0
+    for i in range(k - 2):  # the ones below the diagonal
+        comp[:, i + 1, i] = 1.0
+    bad = ~np.isfinite(comp[:, 0, :]).all(axis=1)  # a member with no peak (NaN) has no roots either
+    if bad.any():
+        comp[bad] = 0.0
     r = np.linalg.eigvals(comp)
     real = np.abs(r.imag) <= 1e-7 * np.abs(r)
     return np.where(real & (r.real > 0) & ~bad[:, None], r.real, np.nan)
@@ -577,9 +578,10 @@ def _by_roots(pu, qu, slope):
     if cand.shape[1] == 0:
         nan = np.full(b, np.nan)
         return nan, nan, nan
+    finite = np.isfinite(cand)
     with np.errstate(invalid="ignore", divide="ignore"):
-        val = _ratio(pu, qu, np.nan_to_num(cand, nan=1.0))
-    val = np.where(np.isfinite(cand), val, -np.inf)
+        val = _ratio(pu, qu, np.where(finite, cand, 1.0))  # a stand-in where there is no root
+    val = np.where(finite, val, -np.inf)
     j = np.argmax(val, axis=1)
     rows = np.arange(b)
     u_pk = np.where(np.isfinite(val[rows, j]), cand[rows, j], np.nan)
