@@ -515,7 +515,9 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
                 np.subtract(x, step, out=x, where=live)
             if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
                 inside = (x >= lo) & (x <= hi)
-                converged = (np.abs(step) <= 1e-5 * np.abs(x)) & inside & ~done  # quadratic: ~1e-10 after it
+                converged = (np.abs(step) <= 1e-5 * np.abs(x)) & inside  # quadratic: ~1e-10 after it
+                if live is not None:
+                    converged &= live
                 ok |= converged
                 done |= converged | ~inside
                 if done.all():
