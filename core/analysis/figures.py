@@ -77,7 +77,10 @@ class Figures:
         out = []
         for name in _FIELDS:
             v = getattr(self, name)
-            out.append(float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)))  # flat index
+            if type(v) is np.ndarray:
+                out.append(float(v.item(i)))  # flat index
+            else:
+                out.append(float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)))
         return Figures(*out)
 
     def to_json(self, i: int = 0) -> dict:
