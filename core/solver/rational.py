@@ -438,8 +438,7 @@ class AmpFamily:
     num_terms: tuple[np.ndarray, ...]
     den_terms: tuple[np.ndarray, ...]
     w_ref: float
-    # the shifted terms of :func:`_family_shifted`, (numerator, denominator), made at the first at(),
-    # each less its leading columns that are zero in every pair (a product with them is zero)
+    # the shifted terms of :func:`_family_shifted`, (numerator, denominator), made at the first at()
     _shifted: tuple[np.ndarray, np.ndarray] | None = field(default=None, init=False, repr=False, compare=False)
 
     def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
@@ -454,8 +453,8 @@ class AmpFamily:
         beta = self.w_ref / (2.0 * np.pi * gbw)
         m = len(self.den_terms) - 1
         if self._shifted is None:
-            shifted = (_family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m))
-            object.__setattr__(self, "_shifted", tuple(_lead_trim(t) for t in shifted))
+            # (their shape kept: a product of another shape may add in another order)
+            object.__setattr__(self, "_shifted", (_family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m)))
         weights = _family_weights(alpha, beta, m)
         num = weights @ self._shifted[0]
         den = weights @ self._shifted[1]
