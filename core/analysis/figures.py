@@ -477,7 +477,8 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     first test that finds it converged or outside that window, and stepped no more: what becomes
     of a member does not depend on the rest of the batch. Tests come after ``first`` steps and
     then every other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps; the
-    converged members then take one step more."""
+    converged members then take one step more. Floating-point warnings are the caller's to
+    silence (:func:`measure_near` does)."""
     b, k = poly.shape
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
@@ -509,26 +510,26 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
             v += rows[k - 1]
         return v[:b] / v[b:]
 
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        for n in range(1, _NEWTON_MOST + 1):
-            step = newton_step()
-            if live is None:
-                x -= step
-            else:
-                np.subtract(x, step, out=x, where=live)
-            if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
-                inside = (x >= lo) & (x <= hi)
-                converged = (np.abs(step) <= 1e-5 * np.abs(x)) & inside  # quadratic: ~1e-10 after it
-                if live is not None:
-                    converged &= live
-                ok |= converged
-                done |= converged | ~inside
-                if done.all():
-                    break
-                live = ~done
-        # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which
-        # for a band edge is the bandwidth (x/Q); after this step it is rounding
-        np.subtract(x, newton_step(), out=x, where=ok)
+    # (called under measure_near's errstate: a member that wanders off may overflow or divide by zero)
+    for n in range(1, _NEWTON_MOST + 1):
+        step = newton_step()
+        if live is None:
+            x -= step
+        else:
+            np.subtract(x, step, out=x, where=live)
+        if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
+            inside = (x >= lo) & (x <= hi)
+            converged = (np.abs(step) <= 1e-5 * np.abs(x)) & inside  # quadratic: ~1e-10 after it
+            if live is not None:
+                converged &= live
+            ok |= converged
+            done |= converged | ~inside
+            if done.all():
+                break
+            live = ~done
+    # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which
+    # for a band edge is the bandwidth (x/Q); after this step it is rounding
+    np.subtract(x, newton_step(), out=x, where=ok)
     return x, ok
 
 

@@ -215,10 +215,10 @@ def companion_roots(p: np.ndarray) -> np.ndarray:
     ``numpy.roots``'s general-purpose checks, which cost as much again for a handful of
     coefficients."""
     p = np.asarray(p, dtype=float)
-    nonzero = np.flatnonzero(p)
-    if nonzero.size == 0:
+    nonzero = [k for k, v in enumerate(p.tolist()) if v != 0]  # a handful: plain Python is quicker
+    if not nonzero:
         return np.array([])
-    first, last = int(nonzero[0]), int(nonzero[-1])
+    first, last = nonzero[0], nonzero[-1]
     trailing = p.size - 1 - last  # zeros after the last nonzero entry: roots at 0
     p = p[first : last + 1]
     n = p.size - 1
