@@ -233,6 +233,8 @@ def measure_many(hs: Sequence[Rational]) -> list[Figures]:
     """:func:`measure` of several transfer functions: those that are second-order band-passes
     with a peak in one closed-form batch (the same figures, member by member), the rest each
     on its own."""
+    if len(hs) == 1:  # nothing to batch
+        return [measure(hs[0])]
     out: list[Figures | None] = [None] * len(hs)
     quick = [i for i, h in enumerate(hs) if _biquad_shaped(h)]
     if len(quick) > 1:
