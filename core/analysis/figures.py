@@ -492,6 +492,7 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     rows[:, :b] = poly.T
     if k > 1:  # a constant's derivative is zero
         rows[1:, b:] = polyder_batch(poly).T
+    rows = list(rows)  # the coefficient rows as arrays of their own (no view made per step)
     xx = np.empty(2 * b)  # the points of both halves: x, then a copy of it
     x = xx[:b]  # stepped in place
     x[:] = x0
