@@ -211,8 +211,14 @@ def _degree_bound(system: MnaSystem) -> int:
     return int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2))))
 
 
-def _lead_trim(c: np.ndarray) -> np.ndarray:
-    """Drop leading columns that are zero in every row (keeps at least one column)."""
+def _lead_trim(c: np.ndarray, expected: int = 0) -> np.ndarray:
+    """Drop leading columns that are zero in every row (keeps at least one column).
+
+    ``expected``: the number of such columns known from the structure (a product with columns
+    that are zero); checked (they are zero and the next one is not) in two reductions, the
+    general search otherwise."""
+    if expected and c.shape[1] > expected and c[:, expected].any() and not c[:, :expected].any():
+        return c[:, expected:]
     if c.shape[1] < 2 or np.count_nonzero(c[:, 0]):
         return c
     nz = np.flatnonzero((c != 0).any(axis=0))
@@ -438,8 +444,10 @@ class AmpFamily:
     num_terms: tuple[np.ndarray, ...]
     den_terms: tuple[np.ndarray, ...]
     w_ref: float
-    # the shifted terms of :func:`_family_shifted`, (numerator, denominator), made at the first at()
+    # the shifted terms of :func:`_family_shifted`, (numerator, denominator), made at the first at(),
+    # and the number of leading columns of each that are zero in every term
     _shifted: tuple[np.ndarray, np.ndarray] | None = field(default=None, init=False, repr=False, compare=False)
+    _zero_lead: tuple[int, int] = field(default=(0, 0), init=False, repr=False, compare=False)
 
     def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
         """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s).
@@ -454,12 +462,14 @@ class AmpFamily:
         m = len(self.den_terms) - 1
         if self._shifted is None:
             # (their shape kept: a product of another shape may add in another order)
-            object.__setattr__(self, "_shifted", (_family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m)))
+            shifted = (_family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m))
+            object.__setattr__(self, "_shifted", shifted)
+            object.__setattr__(self, "_zero_lead", tuple(t.shape[1] - _lead_trim(t).shape[1] for t in shifted))
         weights = _family_weights(alpha, beta, m)
         num = weights @ self._shifted[0]
         den = weights @ self._shifted[1]
-        den = _lead_trim(den)
-        num = _lead_trim(num)
+        den = _lead_trim(den, self._zero_lead[1])
+        num = _lead_trim(num, self._zero_lead[0])
         scale = np.abs(den).max(axis=1, keepdims=True)
         scale[scale == 0] = 1.0
         return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
