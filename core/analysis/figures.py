@@ -429,8 +429,9 @@ def _no_root_between(c: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     Budan–Fourier theorem: the number of real roots in ``(a, b]`` is ``V(a) − V(b)`` less an even
     number, ``V(x)`` being the sign changes of ``c(x)``, ``c'(x)``, …, i.e. of the coefficients of
     ``c(x + y)`` in ``y`` (found by repeated synthetic division, the Taylor shift); so
-    ``V(a) = V(b)`` proves that there is none (Prasolov, *Polynomials*, 2004, Thm. 1.1.4; from
-    memory). Exact when every root is real (then each count is Descartes' and exact)."""
+    ``V(a) = V(b)`` proves that there is none (the Budan–Fourier theorem, a standard result of
+    the theory of equations; from memory). Exact when every root is real (then each count is
+    Descartes' and exact)."""
     n = c.shape[0]
     t = np.concatenate([c, c])
     x = np.concatenate([a, b])
