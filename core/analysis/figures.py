@@ -545,16 +545,19 @@ def _real_positive_roots(c: np.ndarray) -> np.ndarray:
     scale = np.abs(c).max(axis=1, keepdims=True)
     # A member of lower degree than the batch (an ideal op-amp beside finite ones) has leading
     # zeros: shift it up and multiply by (u + 1), whose root −1 is never real positive.
+    lead = None
     for _ in range(k - 1):
         low = np.abs(c[:, 0]) <= 1e-14 * scale[:, 0]
         if not low.any():
+            lead = c[:, :1]  # none (near) zero: the floor below would change nothing
             break
         shifted = np.zeros_like(c)
         shifted[:, :-1] = c[:, 1:]
         shifted[:, 1:] += c[:, 1:]
         c = np.where(low[:, None], shifted, c)
-    lead = c[:, :1]
-    lead = np.where(np.abs(lead) <= 1e-14 * scale, 1e-14 * scale, lead)
+    if lead is None:
+        lead = c[:, :1]
+        lead = np.where(np.abs(lead) <= 1e-14 * scale, 1e-14 * scale, lead)
     if k in (3, 4) and b >= CLOSED_FORM_FROM:  # members it cannot take go to the eigenvalues
         r, bad = (quadratic_roots if k == 3 else cubic_roots)(np.concatenate([lead, c[:, 1:]], axis=1))
         if bad.any():
