@@ -257,3 +257,39 @@ def test_measure_from_a_circuit_with_several_stationary_points():
     ok = np.isfinite(want.q)
     for key in ("f0_hz", "q", "gain_center", "f_low_hz", "f_high_hz"):
         assert_allclose(getattr(got, key)[ok], getattr(want, key)[ok], rtol=1e-7, err_msg=key)
+
+
+def test_closed_form_peak_proofs_agree_with_numpy_roots():
+    # measure_from settles "is the peak Newton found the highest, with no other stationary point
+    # in its band?" in closed form where it can (figures._below_peak, figures._no_root_between);
+    # both must never claim what numpy.roots (companion-matrix eigenvalues) denies, and settle
+    # the plain cases. |H|² = P/Q below its height 1 at u = x exactly where S > 0 on u ≥ 0 for
+    # P = Q − (u − x)²·S; a quadratic S has no real root where its discriminant is negative.
+    from bandsmith.analysis.figures import _below_peak, _no_root_between
+    from bandsmith.solver.rational import polymul_batch
+
+    rng = np.random.default_rng(11)
+    n = 2000
+    x = np.exp(rng.uniform(-2.0, 2.0, n))
+    s = np.stack([np.exp(rng.uniform(-8.0, 0.0, n)), rng.normal(size=n), np.exp(rng.uniform(-1.0, 1.0, n))], axis=1)
+    qu = np.exp(rng.uniform(-3.0, 3.0, (n, 5)))
+    square = np.stack([np.ones(n), -2.0 * x, x * x], axis=1)
+    pu = qu - polymul_batch(square, s)
+    got = _below_peak(pu, qu, np.ones(n), x)
+    roots = [np.roots(row) for row in s]
+    positive_root = np.array([np.any((np.abs(r.imag) <= 1e-9 * np.abs(r)) & (r.real > 0)) for r in roots])
+    assert not (got & positive_root).any()
+    assert got[~positive_root].mean() > 0.99  # the margin leaves out only near-double roots
+    # Budan–Fourier on quartics with real and complex roots: no root claimed absent that is there
+    re = rng.normal(size=(n, 4)) * 3.0
+    im = np.where(rng.random(n) < 0.5, 0.0, np.exp(rng.uniform(-6.0, 1.0, n)))  # a complex pair or two real roots
+    pair = [[re[i, 0] + 1j * im[i], re[i, 0] - 1j * im[i]] if im[i] else [re[i, 0], re[i, 1]] for i in range(n)]
+    c = np.array([np.poly(pair[i] + [re[i, 2], re[i, 3]]).real for i in range(n)])
+    a = rng.normal(size=n) * 3.0
+    b = a + np.exp(rng.uniform(-3.0, 1.0, n))
+    none = _no_root_between(c, a, b)
+    r = [np.roots(row) for row in c]
+    inside = np.array([np.any((np.abs(q.imag) <= 1e-9) & (q.real > a[i]) & (q.real <= b[i])) for i, q in enumerate(r)])
+    assert not (none & inside).any()
+    all_real = im == 0
+    assert_array_equal(none[all_real], ~inside[all_real])  # exact when every root is real

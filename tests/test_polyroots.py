@@ -114,3 +114,17 @@ def test_positive_roots_only_leave_the_positive_roots_unchanged():
         np.testing.assert_array_equal(bad_full, bad_pos)
         for a, b in zip(full, pos):
             np.testing.assert_array_equal(np.where(a > 0, a, np.nan), np.where(b > 0, b, np.nan))
+
+
+def test_companion_roots_are_numpy_roots_bit_for_bit():
+    # companion_roots is numpy.roots without its checks: the same numbers, dtype and order
+    # (numpy.roots as the reference), zeros at either end included.
+    from bandsmith.solver.polyroots import companion_roots
+
+    rng = np.random.default_rng(5)
+    for _ in range(500):
+        p = rng.normal(size=int(rng.integers(1, 8)))
+        p[rng.random(p.size) < 0.3] = 0.0
+        want, got = np.roots(p), companion_roots(p)
+        assert got.dtype == want.dtype and got.shape == want.shape
+        assert got.tobytes() == want.tobytes()

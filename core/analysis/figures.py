@@ -30,7 +30,7 @@ import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
-from bandsmith.solver.rational import Rational, pad_rows, polyder_batch, polyval_batch
+from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
 __all__ = ["Figures", "measure", "measure_many", "measure_near", "measure_from", "biquad_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
            "CLOSED_FORM_FROM"]
@@ -77,7 +77,10 @@ class Figures:
         out = []
         for name in _FIELDS:
             v = getattr(self, name)
-            out.append(float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)))  # flat index
+            if type(v) is np.ndarray:
+                out.append(float(v.item(i)))  # flat index
+            else:
+                out.append(float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)))
         return Figures(*out)
 
     def to_json(self, i: int = 0) -> dict:
@@ -230,6 +233,8 @@ def measure_many(hs: Sequence[Rational]) -> list[Figures]:
     """:func:`measure` of several transfer functions: those that are second-order band-passes
     with a peak in one closed-form batch (the same figures, member by member), the rest each
     on its own."""
+    if len(hs) == 1:  # nothing to batch
+        return [measure(hs[0])]
     out: list[Figures | None] = [None] * len(hs)
     quick = [i for i, h in enumerate(hs) if _biquad_shaped(h)]
     if len(quick) > 1:
@@ -324,11 +329,15 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
         ref = ref.item()  # one reference for every member (else one per member)
     u0 = ref.f0_hz**2 * to_u
     u_pk, ok = _newton(slope, u0, k2)
-    half = _poly_sub(pu, qu * (0.5 * _ratio(pu, qu, u_pk))[:, None])
+    p0 = polyval_batch(pu, u_pk)
+    q0 = polyval_batch(qu, u_pk)
+    peak2 = p0 / q0
+    half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
     if only_peak:
         # a Lorentzian in u with the peak's curvature, |H|² = peak/(1 + ((u − u_pk)/γ)²), puts
         # the edges γ from the peak: γ² = −2·P·Q/(P''Q − P·Q'') there (P'Q = PQ' at the peak)
-        p0, q0, p2, q2 = np.split(polyval_batch(_second_derivatives(pu, qu), np.tile(u_pk, 4)), 4)
+        p2 = polyval_batch(polyder_batch(polyder_batch(pu)), u_pk)
+        q2 = polyval_batch(polyder_batch(polyder_batch(qu)), u_pk)
         spread_u = 1.0 + np.sqrt(np.abs(2.0 * p0 * q0 / (p2 * q0 - p0 * q2))) / u_pk
         starts = np.concatenate([u_pk / spread_u, u_pk * spread_u])
     else:  # the band edges start where the moved peak carries the reference's
@@ -337,7 +346,7 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
     both, ok2 = _newton(np.concatenate([half, half]), starts, k2, first=5)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
     if only_peak:
-        ok &= _only_peak(pu, qu, slope, u_pk, both[:b], both[b:], ok & ok2[:b] & ok2[b:])
+        ok &= _only_peak(pu, qu, slope, u_pk, peak2, both[:b], both[b:], ok & ok2[:b] & ok2[b:])
     nan = np.nan
     u_pk = np.where(ok, u_pk, nan)
     u_low = np.where(ok & ok2[:b], both[:b], nan)
@@ -345,40 +354,102 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
     return _figures(h, u_pk, u_low, u_high)
 
 
-def _only_peak(pu, qu, slope, u_pk, u_low, u_high, live) -> np.ndarray:
-    """True where the peak found at ``u_pk`` is the highest stationary point of ``|H|² = P/Q`` in
-    ``u > 0`` and none lies between it and its band edges ``u_low``, ``u_high`` (then ``|H|²``
-    falls monotonically from the peak to each edge, so each is the half-power point nearest the
-    peak: what :func:`measure` finds). Where ``P'Q − PQ'`` has one sign change that holds by
-    Descartes' rule of signs; elsewhere (``live`` members only) the other stationary points are
-    the real positive roots of ``P'Q − PQ'`` divided by ``u − u_pk`` (synthetic division)."""
+def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
+    """True where the peak found at ``u_pk`` (of height ``peak2``) is the highest stationary point
+    of ``|H|² = P/Q`` in ``u > 0`` and none lies between it and its band edges ``u_low``,
+    ``u_high`` (then ``|H|²`` falls monotonically from the peak to each edge, so each is the
+    half-power point nearest the peak: what :func:`measure` finds). Where ``P'Q − PQ'`` has one
+    sign change that holds by Descartes' rule of signs. Elsewhere (``live`` members only) the
+    other stationary points are the roots of ``T``, ``P'Q − PQ'`` divided by ``u − u_pk``
+    (synthetic division), and both conditions are settled in closed form where that can be
+    (:func:`_below_peak`, :func:`_no_root_between`), by the real positive roots of ``T``
+    (companion-matrix eigenvalues) for the rest."""
     out = _sign_changes(slope) == 1
     many = np.flatnonzero(live & ~out)
     if many.size:
-        c, x = slope[many], u_pk[many]
-        rest = np.empty((many.size, c.shape[1] - 1))
-        rest[:, 0] = c[:, 0]
-        for k in range(1, c.shape[1] - 1):  # the quotient of c by (u − x), Horner's steps
-            rest[:, k] = c[:, k] + x * rest[:, k - 1]
-        others = _real_positive_roots(rest)  # (n, deg − 1), NaN where none
-        peak2 = _ratio(pu[many], qu[many], x)
-        with np.errstate(invalid="ignore"):
-            height = _ratio(pu[many], qu[many], np.nan_to_num(others, nan=1.0))
-            higher = np.isfinite(others) & (height >= peak2[:, None] * (1.0 - 1e-9))
-            inside = (others > u_low[many, None]) & (others < u_high[many, None])
-        out[many] = ~(higher | inside).any(axis=1)
+        x = u_pk[many]
+        rest = _deflated(slope[many], x)
+        proven = _below_peak(pu[many], qu[many], peak2[many], x) & _no_root_between(rest, u_low[many], u_high[many])
+        out[many[proven]] = True
+        if not proven.all():
+            many, rest, x = many[~proven], rest[~proven], x[~proven]
+            others = _real_positive_roots(rest)  # (n, deg − 1), NaN where none
+            top = peak2[many]
+            with np.errstate(invalid="ignore"):
+                height = _ratio(pu[many], qu[many], np.nan_to_num(others, nan=1.0))
+                higher = np.isfinite(others) & (height >= top[:, None] * (1.0 - 1e-9))
+                inside = (others > u_low[many, None]) & (others < u_high[many, None])
+            out[many] = ~(higher | inside).any(axis=1)
     return out
 
 
-def _second_derivatives(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
-    """``P``, ``Q``, ``P''`` and ``Q''`` stacked as one batch (padded to one length): ``(4B, k)``."""
-    return pad_rows([pu, qu, polyder_batch(polyder_batch(pu)), polyder_batch(polyder_batch(qu))])
+def _deflated(c: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """The quotient of batched polynomials ``c`` (highest power first) by ``u − x`` (Horner's
+    steps of synthetic division; the remainder, ``c(x)``, is dropped): one coefficient fewer."""
+    out = np.empty((c.shape[0], c.shape[1] - 1))
+    out[:, 0] = c[:, 0]
+    for k in range(1, c.shape[1] - 1):
+        out[:, k] = c[:, k] + x * out[:, k - 1]
+    return out
+
+
+# _below_peak's margin: a quadratic whose discriminant is within this fraction of 4·s0·s2 of zero
+# (a rival peak within rounding of the height) is left to the eigenvalues.
+_RIVAL_MARGIN = 1e-12
+
+
+def _below_peak(pu, qu, peak2, x) -> np.ndarray:
+    """True where ``|H|² = P/Q`` stays below its height ``peak2`` at ``u = x`` for every other
+    ``u ≥ 0``, proven in closed form; False where that is not known (not necessarily untrue).
+
+    ``R = peak2·Q − P`` is zero with a zero slope at the peak, so ``R = (u − x)²·S`` with ``S``
+    the quotient of two synthetic divisions (the remainders, zero but for rounding, dropped), and
+    ``|H|² < peak2`` elsewhere exactly where ``S > 0`` on ``u ≥ 0``: so where every coefficient of
+    ``S`` is at least zero and ``S(0) > 0``, or, for a quadratic ``s2·u² + s1·u + s0`` with
+    ``s0 > 0`` and ``s2 ≥ 0``, where ``s1² < 4·s0·s2`` (no real root; by a margin of
+    :data:`_RIVAL_MARGIN`). A dual-amplifier band-pass's slope has two more sign changes (a dip
+    and a small second peak near the op-amp's GBW): its ``S`` is such a quadratic."""
+    r = _poly_sub(qu * peak2[:, None], pu)
+    if r.shape[1] < 3:
+        return np.zeros(x.size, dtype=bool)
+    s = _deflated(_deflated(r, x), x)
+    with np.errstate(invalid="ignore", over="ignore"):
+        out = (s >= 0.0).all(axis=1) & (s[:, -1] > 0.0)
+        if s.shape[1] == 3:
+            s2, s1, s0 = s[:, 0], s[:, 1], s[:, 2]
+            four = 4.0 * s0 * s2
+            out |= (s0 > 0.0) & (s2 >= 0.0) & (four - s1 * s1 > _RIVAL_MARGIN * four)
+    return out
+
+
+def _no_root_between(c: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """True where the batched polynomial ``c`` (highest power first) is proven to have no real
+    root in ``(a, b]``; False where that is not known.
+
+    Budan–Fourier theorem: the number of real roots in ``(a, b]`` is ``V(a) − V(b)`` less an even
+    number, ``V(x)`` being the sign changes of ``c(x)``, ``c'(x)``, …, i.e. of the coefficients of
+    ``c(x + y)`` in ``y`` (found by repeated synthetic division, the Taylor shift); so
+    ``V(a) = V(b)`` proves that there is none (the Budan–Fourier theorem, a standard result of
+    the theory of equations; from memory). Exact when every root is real (then each count is
+    Descartes' and exact)."""
+    n = c.shape[0]
+    t = np.concatenate([c, c])
+    x = np.concatenate([a, b])
+    d = c.shape[1] - 1
+    for i in range(d):  # after step i the last i + 1 entries are final
+        for j in range(1, d + 1 - i):
+            t[:, j] += x * t[:, j - 1]
+    v = _sign_changes(t)
+    finite = np.isfinite(t).all(axis=1)
+    return (v[:n] == v[n:]) & finite[:n] & finite[n:]
 
 
 def _sign_changes(c: np.ndarray) -> np.ndarray:
     """Sign changes along each row of coefficients, zeros skipped (Descartes' rule of signs bounds
     the positive real roots by it): shape ``(B,)``."""
     sign = np.sign(c)
+    if sign.all():  # no zero to skip (a NaN counts no change either way)
+        return (sign[:, 1:] * sign[:, :-1] < 0).sum(axis=1)
     last = np.maximum.accumulate(np.where(sign != 0, np.arange(c.shape[1]), 0), axis=1)
     held = np.take_along_axis(sign, last, axis=1)  # each zero takes the sign before it (leading ones stay 0)
     return (held[:, 1:] * held[:, :-1] < 0).sum(axis=1)
@@ -409,36 +480,60 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     first test that finds it converged or outside that window, and stepped no more: what becomes
     of a member does not depend on the rest of the batch. Tests come after ``first`` steps and
     then every other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps; the
-    converged members then take one step more."""
-    b = poly.shape[0]
+    converged members then take one step more. Floating-point warnings are the caller's to
+    silence (:func:`measure_near` does)."""
+    b, k = poly.shape
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
         x0 = np.broadcast_to(x0, (b,))
     lo, hi = x0 / k2, x0 * k2
-    # the polynomials and their derivatives (a leading zero: the same Horner steps) in one batch
-    both = np.zeros((2 * b, poly.shape[1]))
-    both[:b] = poly
-    if poly.shape[1] > 1:  # a constant's derivative is zero
-        both[b:, 1:] = polyder_batch(poly)
-    x = x0
+    # the polynomials and their derivatives (a leading zero: the same Horner steps) in one batch,
+    # stored by coefficient (row j: coefficient j of every member, contiguous)
+    rows = np.zeros((k, 2 * b))
+    rows[:, :b] = poly.T
+    if k > 1:  # a constant's derivative is zero
+        rows[1:, b:] = polyder_batch(poly).T
+    rows = list(rows)  # the coefficient rows as arrays of their own (no view made per step)
+    xx = np.empty(2 * b)  # the points of both halves: x, then a copy of it
+    x = xx[:b]  # stepped in place
+    x[:] = x0
     done = np.zeros(b, dtype=bool)
+    live = None  # the members still stepped: every one until the first test
     ok = np.zeros(b, dtype=bool)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        for n in range(1, _NEWTON_MOST + 1):
-            v = polyval_batch(both, np.concatenate((x, x)))
-            step = v[:b] / v[b:]
-            x = np.where(done, x, x - step)
-            if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
-                inside = (x >= lo) & (x <= hi)
-                converged = (np.abs(step) <= 1e-5 * np.abs(x)) & inside & ~done  # quadratic: ~1e-10 after it
-                ok |= converged
-                done |= converged | ~inside
-                if done.all():
-                    break
-        # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which
-        # for a band edge is the bandwidth (x/Q); after this step it is rounding
-        v = polyval_batch(both, np.concatenate((x, x)))
-        x = np.where(ok, x - v[:b] / v[b:], x)
+
+    def newton_step() -> np.ndarray:
+        """``p(x)/p'(x)`` (Horner's rule on both halves at once, as polyval_batch)."""
+        xx[b:] = x
+        if k == 1:
+            v = rows[0] + np.zeros_like(xx)
+        else:
+            v = rows[0] * xx
+            for i in range(1, k - 1):
+                v += rows[i]
+                v *= xx
+            v += rows[k - 1]
+        return v[:b] / v[b:]
+
+    # (called under measure_near's errstate: a member that wanders off may overflow or divide by zero)
+    for n in range(1, _NEWTON_MOST + 1):
+        step = newton_step()
+        if live is None:
+            x -= step
+        else:
+            np.subtract(x, step, out=x, where=live)
+        if n >= first and (n - first) % 2 == 0:  # tested every other step: the test costs a step
+            inside = (x >= lo) & (x <= hi)
+            converged = (np.abs(step) <= 1e-5 * np.abs(x)) & inside  # quadratic: ~1e-10 after it
+            if live is not None:
+                converged &= live
+            ok |= converged
+            done |= converged | ~inside
+            if done.all():
+                break
+            live = ~done
+    # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which
+    # for a band edge is the bandwidth (x/Q); after this step it is rounding
+    np.subtract(x, newton_step(), out=x, where=ok)
     return x, ok
 
 
@@ -447,19 +542,22 @@ def _real_positive_roots(c: np.ndarray) -> np.ndarray:
     b, k = c.shape
     if k < 2:
         return np.full((b, 0), np.nan)
-    scale = np.max(np.abs(c), axis=1, keepdims=True)
+    scale = np.abs(c).max(axis=1, keepdims=True)
     # A member of lower degree than the batch (an ideal op-amp beside finite ones) has leading
     # zeros: shift it up and multiply by (u + 1), whose root −1 is never real positive.
+    lead = None
     for _ in range(k - 1):
         low = np.abs(c[:, 0]) <= 1e-14 * scale[:, 0]
         if not low.any():
+            lead = c[:, :1]  # none (near) zero: the floor below would change nothing
             break
         shifted = np.zeros_like(c)
         shifted[:, :-1] = c[:, 1:]
         shifted[:, 1:] += c[:, 1:]
         c = np.where(low[:, None], shifted, c)
-    lead = c[:, :1]
-    lead = np.where(np.abs(lead) <= 1e-14 * scale, 1e-14 * scale, lead)
+    if lead is None:
+        lead = c[:, :1]
+        lead = np.where(np.abs(lead) <= 1e-14 * scale, 1e-14 * scale, lead)
     if k in (3, 4) and b >= CLOSED_FORM_FROM:  # members it cannot take go to the eigenvalues
         r, bad = (quadratic_roots if k == 3 else cubic_roots)(np.concatenate([lead, c[:, 1:]], axis=1))
         if bad.any():
@@ -473,10 +571,11 @@ def real_positive_roots_eig(c: np.ndarray, lead: np.ndarray) -> np.ndarray:
     b, k = c.shape
     comp = np.zeros((b, k - 1, k - 1))
     comp[:, 0, :] = -c[:, 1:] / lead
-    if k > 2:
-        comp[:, np.arange(1, k - 1), np.arange(k - 2)] = 1.0
-    bad = ~np.isfinite(comp).all(axis=(1, 2))  # a member with no peak (NaN) has no roots either
-    comp[bad] = 0.0
+    for i in range(k - 2):  # the ones below the diagonal
+        comp[:, i + 1, i] = 1.0
+    bad = ~np.isfinite(comp[:, 0, :]).all(axis=1)  # a member with no peak (NaN) has no roots either
+    if bad.any():
+        comp[bad] = 0.0
     r = np.linalg.eigvals(comp)
     real = np.abs(r.imag) <= 1e-7 * np.abs(r)
     return np.where(real & (r.real > 0) & ~bad[:, None], r.real, np.nan)
@@ -492,9 +591,10 @@ def _by_roots(pu, qu, slope):
     if cand.shape[1] == 0:
         nan = np.full(b, np.nan)
         return nan, nan, nan
+    finite = np.isfinite(cand)
     with np.errstate(invalid="ignore", divide="ignore"):
-        val = _ratio(pu, qu, np.nan_to_num(cand, nan=1.0))
-    val = np.where(np.isfinite(cand), val, -np.inf)
+        val = _ratio(pu, qu, np.where(finite, cand, 1.0))  # a stand-in where there is no root
+    val = np.where(finite, val, -np.inf)
     j = np.argmax(val, axis=1)
     rows = np.arange(b)
     u_pk = np.where(np.isfinite(val[rows, j]), cand[rows, j], np.nan)

@@ -114,9 +114,8 @@ def gbw_error_sweep(
         f0_err = fig.f0_hz / ref.f0_hz - 1.0
         q_err = fig.q / ref.q - 1.0
         gain_err = fig.gain_center_db - ref.gain_center_db
-        worst = np.maximum.reduce(
-            [np.abs(f0_err) / tolerances.f0, np.abs(q_err) / tolerances.q, np.abs(gain_err) / tolerances.gain_db]
-        )
+        # the largest of the three, pairwise (NaN propagating, as a reduce over them would)
+        worst = np.maximum(np.maximum(np.abs(f0_err) / tolerances.f0, np.abs(q_err) / tolerances.q), np.abs(gain_err) / tolerances.gain_db)
         flipped = np.sign(fig.gain_center) != np.sign(ref.gain_center)
     worst = np.where(fig.valid & ~flipped, worst, np.inf)
     return GbwSweep(gbw_hz=g, f0_error=f0_err, q_error=q_err, gain_error_db=gain_err, worst=worst)

@@ -18,6 +18,7 @@ from typing import Sequence
 
 import numpy as np
 
+from bandsmith.solver.polyroots import companion_roots
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
 __all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
@@ -68,6 +69,10 @@ def _polydiv(u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return q, r
 
 
+# Below this real part exp(z) is zero in double precision (it underflows below −745.13).
+_UNDERFLOW = -746.0
+
+
 def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
     """Step and impulse responses from simple poles ``p`` (the roots of ``a``):
     ``r_i = N(λ_i)/D'(λ_i)`` after division."""
@@ -81,7 +86,11 @@ def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
     at = p[None, :]
     r = polyval_batch(b[None, :], at)[0] / polyval_batch(polyder_batch(a[None, :]), at)[0]
     r *= np.where(p.imag > 0, 2.0, 1.0)
-    e = np.exp(t[:, None] * p)
+    # exp(x + iy) is exactly zero below x ≈ −745.13 (half the smallest subnormal, e^−744.44): a
+    # fast op-amp pole underflows over most of the grid, where exp takes its slow path for nothing
+    z = t[:, None] * p
+    e = np.zeros_like(z)
+    np.exp(z, out=e, where=z.real >= _UNDERFLOW)
     h = (e @ r).real
     y = ((e - 1.0) @ (r / p)).real + direct
     return y, h
@@ -107,12 +116,13 @@ _EARLY = np.geomspace(1e-3, 20.0, 200)
 
 
 def _roots(a: np.ndarray) -> np.ndarray:
-    """Roots of a monic polynomial: the quadratic formula for degree two, else numpy.roots."""
+    """Roots of a monic polynomial: the quadratic formula for degree two, else numpy.roots's
+    (:func:`~bandsmith.solver.polyroots.companion_roots`)."""
     if a.size == 3:
         d = np.sqrt(complex(a[1] * a[1] - 4.0 * a[2]))
         q = -0.5 * (a[1] + (d if (np.conj(a[1]) * d).real >= 0 else -d))  # no cancellation
         return np.array([q, a[2] / q]) if q != 0 else np.zeros(2, dtype=complex)
-    return np.roots(a)
+    return companion_roots(a)
 
 
 def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> StepResponse:

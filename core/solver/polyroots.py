@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["quadratic_roots", "cubic_roots", "quadratic_roots_rows", "cubic_roots_rows"]
+__all__ = ["quadratic_roots", "cubic_roots", "quadratic_roots_rows", "cubic_roots_rows", "companion_roots"]
 
 # A complex pair whose imaginary part is below this fraction of its modulus counts as a double
 # real root (the same threshold the eigenvalue path uses).
@@ -206,3 +206,26 @@ def _polish(roots: list[np.ndarray], monic: list, steps: int = 2, *, positive: b
             np.subtract(x, p, out=x, where=ok)
         out.append(x)
     return out
+
+
+def companion_roots(p: np.ndarray) -> np.ndarray:
+    """``numpy.roots(p)`` of a real 1-D coefficient array (highest power first), bit for bit: the
+    same stripping of leading and trailing zeros (each trailing zero a root at 0), the same
+    companion matrix and the same ``numpy.linalg.eigvals`` call (real where every root is), without
+    ``numpy.roots``'s general-purpose checks, which cost as much again for a handful of
+    coefficients."""
+    p = np.asarray(p, dtype=float)
+    nonzero = [k for k, v in enumerate(p.tolist()) if v != 0]  # a handful: plain Python is quicker
+    if not nonzero:
+        return np.array([])
+    first, last = nonzero[0], nonzero[-1]
+    trailing = p.size - 1 - last  # zeros after the last nonzero entry: roots at 0
+    p = p[first : last + 1]
+    n = p.size - 1
+    if n > 0:
+        companion = np.eye(n, k=-1)
+        companion[0, :] = -p[1:] / p[0]
+        roots = np.linalg.eigvals(companion)
+    else:
+        roots = np.array([])
+    return roots if trailing == 0 else np.concatenate([roots, np.zeros(trailing, roots.dtype)])

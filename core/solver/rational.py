@@ -13,12 +13,13 @@ from __future__ import annotations
 import functools
 import itertools
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Sequence
 
 import numpy as np
 
 from bandsmith.solver.mna import MnaSystem, build_system
+from bandsmith.solver.polyroots import companion_roots
 
 __all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "polyval_batch", "pad_rows"]
 
@@ -120,18 +121,23 @@ class Rational:
 
     def group_delay(self, f_hz: np.ndarray) -> np.ndarray:
         """Group delay ``−dφ/dω`` in seconds at frequencies in Hz, exact from the polynomials: ``(B, F)``."""
-        w = 2.0 * np.pi * np.asarray(f_hz, dtype=float)
-        p = 1j * np.broadcast_to(w, (self.batch, w.size)) / self.w_ref[:, None]
+        p = self._jw(f_hz)
         return self._delay(p, polyval_batch(self.num, p), polyval_batch(self.den, p))
 
     def response_and_delay(self, f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`at_f` and :meth:`group_delay` together, ``(H, delay in s)``, each ``(B, F)``: the
         numerator and denominator are evaluated once for both (the same points ``p = jω/w_ref``)."""
-        w = 2.0 * np.pi * np.asarray(f_hz, dtype=float)
-        p = 1j * np.broadcast_to(w, (self.batch, w.size)) / self.w_ref[:, None]
+        p = self._jw(f_hz)
         n = polyval_batch(self.num, p)
         d = polyval_batch(self.den, p)
         return n / d, self._delay(p, n, d)
+
+    def _jw(self, f_hz: np.ndarray) -> np.ndarray:
+        """The points ``p = jω/w_ref`` of frequencies in Hz, ``(B, F)``: ``ω·(1/w_ref)`` on the
+        imaginary axis, which is what numpy's complex division ``jω/w_ref`` computes (a multiply
+        by the reciprocal), in one real product instead of two complex operations."""
+        w = 2.0 * np.pi * np.asarray(f_hz, dtype=float)
+        return 1j * (w * (1.0 / self.w_ref[:, None]))
 
     def _delay(self, p: np.ndarray, n: np.ndarray, d: np.ndarray) -> np.ndarray:
         """The group delay (s) from ``N`` and ``D`` at ``p = jω/w_ref``."""
@@ -159,13 +165,12 @@ class Rational:
         return coefficients_in_s(one.num[0], one.den[0], float(self.w_ref[i]))
 
     def poles(self, i: int = 0) -> np.ndarray:
-        """Poles in rad/s of member ``i``."""
-        return np.roots(self.item(i).den[0]) * self.w_ref[i]
+        """Poles in rad/s of member ``i`` (the roots of its denominator, leading zeros dropped)."""
+        return companion_roots(self.den[i]) * self.w_ref[i]
 
     def zeros(self, i: int = 0) -> np.ndarray:
-        """Finite zeros in rad/s of member ``i``."""
-        num = self.item(i).num[0]
-        return np.roots(num) * self.w_ref[i] if num.size > 1 else np.zeros(0)
+        """Finite zeros in rad/s of member ``i`` (none for a constant numerator)."""
+        return companion_roots(self.num[i]) * self.w_ref[i]
 
 
 def coefficients_in_s(num: np.ndarray, den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
@@ -206,8 +211,14 @@ def _degree_bound(system: MnaSystem) -> int:
     return int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2))))
 
 
-def _lead_trim(c: np.ndarray) -> np.ndarray:
-    """Drop leading columns that are zero in every row (keeps at least one column)."""
+def _lead_trim(c: np.ndarray, expected: int = 0) -> np.ndarray:
+    """Drop leading columns that are zero in every row (keeps at least one column).
+
+    ``expected``: the number of such columns known from the structure (a product with columns
+    that are zero); checked (they are zero and the next one is not) in two reductions, the
+    general search otherwise."""
+    if expected and c.shape[1] > expected and c[:, expected].any() and not c[:, :expected].any():
+        return c[:, expected:]
     if c.shape[1] < 2 or np.count_nonzero(c[:, 0]):
         return c
     nz = np.flatnonzero((c != 0).any(axis=0))
@@ -287,7 +298,7 @@ class OpAmpFamily:
         mp = np.zeros(n)  # M(p)·p
         mp[n - self.cofactor.size - 1 : n - 1] = self.cofactor
         den = d0[None, :] - alpha * m[None, :] - beta[:, None] * mp[None, :]
-        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        scale = np.abs(den).max(axis=1, keepdims=True)
         return Rational(self.num[None, :] / scale, den / scale, np.full(gbw.size, self.w_ref))
 
 
@@ -451,6 +462,10 @@ class AmpFamily:
     num_terms: tuple[np.ndarray, ...]
     den_terms: tuple[np.ndarray, ...]
     w_ref: float
+    # the shifted terms of :func:`_family_shifted`, (numerator, denominator), made at the first at(),
+    # and the number of leading columns of each that are zero in every term
+    _shifted: tuple[np.ndarray, np.ndarray] | None = field(default=None, init=False, repr=False, compare=False)
+    _zero_lead: tuple[int, int] = field(default=(0, 0), init=False, repr=False, compare=False)
 
     def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
         """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s).
@@ -458,15 +473,22 @@ class AmpFamily:
         ``x^j = (−α − β·p)^j = Σ_i C(j, i)·(−β)^i·(−α)^(j−i)·p^i`` (binomial theorem), so both
         polynomials are one weighted sum of the shifted ``N_j``, ``D_j``: a single product."""
         gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
-        alpha = np.broadcast_to(1.0 / np.asarray(a0, dtype=float), gbw.shape)
+        alpha = 1.0 / np.asarray(a0, dtype=float)
+        # one open-loop gain for the whole ladder: one value, its powers broadcast in the weights
+        alpha = alpha.reshape(1) if alpha.size == 1 else np.broadcast_to(alpha, gbw.shape)
         beta = self.w_ref / (2.0 * np.pi * gbw)
         m = len(self.den_terms) - 1
+        if self._shifted is None:
+            # (their shape kept: a product of another shape may add in another order)
+            shifted = (_family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m))
+            object.__setattr__(self, "_shifted", shifted)
+            object.__setattr__(self, "_zero_lead", tuple(t.shape[1] - _lead_trim(t).shape[1] for t in shifted))
         weights = _family_weights(alpha, beta, m)
-        num = weights @ _family_shifted(self.num_terms, m)
-        den = weights @ _family_shifted(self.den_terms, m)
-        den = _lead_trim(den)
-        num = _lead_trim(num)
-        scale = np.max(np.abs(den), axis=1, keepdims=True)
+        num = weights @ self._shifted[0]
+        den = weights @ self._shifted[1]
+        den = _lead_trim(den, self._zero_lead[1])
+        num = _lead_trim(num, self._zero_lead[0])
+        scale = np.abs(den).max(axis=1, keepdims=True)
         scale[scale == 0] = 1.0
         return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
 
@@ -489,14 +511,25 @@ def _family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
     """``C(j, i)·(−β)^i·(−α)^(j−i)`` for every pair of :func:`_family_pairs`: ``(B, pairs)``.
 
     Each power of ``−β`` and ``−α`` is taken once (``m + 1`` of each), then picked per pair; an
-    ``α`` broadcast from one value (one open-loop gain for the whole ladder) is raised once."""
+    ``α`` of one value (one open-loop gain for the whole ladder, shape ``(1,)``) is raised once."""
     _, i_pow, rest, comb = _family_pairs(m)
     if alpha.ndim == 1 and alpha.size > 1 and alpha.strides[0] == 0:
         alpha = alpha[:1]  # the same number in every member: its powers broadcast below
     nb, na = -beta, -alpha
-    pb = np.stack([nb**i for i in range(m + 1)], axis=1)
-    pa = np.stack([na**i for i in range(m + 1)], axis=1)
-    return np.ascontiguousarray(comb * pb[:, i_pow] * pa[:, rest])
+    pb = np.empty((nb.size, m + 1))
+    pa = np.empty((na.size, m + 1))
+    pb[:, 0] = 1.0  # x**0, x**1 and x**2 are 1, x and x·x exactly
+    pa[:, 0] = 1.0
+    if m > 0:
+        pb[:, 1] = nb
+        pa[:, 1] = na
+    if m > 1:
+        pb[:, 2] = nb * nb
+        pa[:, 2] = na * na
+    for i in range(3, m + 1):
+        pb[:, i] = nb**i
+        pa[:, i] = na**i
+    return comb * pb[:, i_pow] * pa[:, rest]
 
 
 def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> np.ndarray:
