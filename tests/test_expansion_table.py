@@ -5,6 +5,7 @@ The fits themselves are checked against the MNA solver in test_expansion.py (whi
 them from the table) and, when the table is written, by the expansion's own verification.
 """
 
+import hashlib
 import json
 import sys
 from pathlib import Path
@@ -32,7 +33,8 @@ def test_the_shipped_table_is_what_the_generator_writes_now():
     # no entry and needs none: it is fitted at first use (test below), so adding one changes nothing here.
     shipped = _shipped()
     assert shipped.pop("stamp") == E._table_stamp()
-    index = shipped.pop("index")
+    assert isinstance(shipped.pop("index"), str)
+    index = E._load_table()
     fresh = table_entries()
     assert shipped and sorted(shipped) == sorted(index)
     stale = sorted(set(shipped) - set(fresh))
@@ -54,9 +56,37 @@ def test_the_shipped_table_is_what_the_generator_writes_now():
 def test_the_index_points_at_each_entry():
     raw = E.table_path().read_bytes()
     base = raw.index(b"\n", raw.index(b'"index": ')) + 1
-    for name, (start, end, digest) in _shipped()["index"].items():
-        assert json.loads(raw[base + start : base + end]) == _shipped()[name]
+    shipped = _shipped()
+    index = E._load_table()
+    assert sorted(index) == sorted(set(shipped) - {"stamp", "index"})
+    for name, (start, end, digest) in index.items():
+        assert json.loads(raw[base + start : base + end]) == shipped[name]
         assert E._digest(raw[base + start : base + end]) == digest
+        assert digest == hashlib.blake2b(raw[base + start : base + end], digest_size=8).hexdigest()  # Python's hashlib
+
+
+def test_the_stamp_is_written_out_as_json_writes_it():
+    # the file's stamp line is checked by comparing bytes with the text written out in the module
+    assert E._STAMP_TEXT == json.dumps(E._table_stamp(), sort_keys=True)
+    assert json.loads(E._STAMP_TEXT) == E._table_stamp()
+
+
+def test_the_coefficients_round_trip_bit_for_bit():
+    # base64 (RFC 4648) of IEEE 754 binary64 values: the very bits come back (extremes included:
+    # the smallest subnormal, the largest finite value, one ulp either side of 1)
+    values = [1.0, -3.0000000000000036, 5e-324, 1.7976931348623157e308, np.nextafter(1.0, 2.0), np.nextafter(1.0, 0.0), -2.5e-300]
+    c = np.zeros((5, 3))
+    c.reshape(-1)[[0, 2, 4, 7, 9, 13, 14]] = values
+    back = E._dense_of(json.loads(json.dumps(E._sparse_of(c))), 5)
+    assert back.shape == c.shape and back.tobytes() == c.tobytes()
+    assert E._dense_of(E._sparse_of(np.zeros((2, 4))), 2).tobytes() == np.zeros((2, 4)).tobytes()
+
+
+def test_the_names_are_blake2b_of_the_structure():
+    topo = get_topology("mfb")
+    net = topo.build(topo.example)
+    key = E._structure_key(net, E.circuit_variables(net, IDEAL))
+    assert E.structure_hash(key) == hashlib.blake2b(repr(key).encode(), digest_size=10).hexdigest()  # Python's hashlib
 
 
 def test_a_circuit_in_the_table_has_every_structure_there():
@@ -168,10 +198,12 @@ def test_an_entry_changed_but_still_valid_is_fitted_not_used(no_fits, monkeypatc
     # one digit of a coefficient changed: still a well-formed entry, so only its digest tells
     net, raw, start, end = _sallen_key_entry_span()
     line = raw[start:end]
-    at = line.index(b'"den":[') + 7
-    at = line.index(b"[", at) + 1  # the first flat index of the denominator's nonzero entries
-    digit = line[at:at + 1]
-    changed = line[:at] + (b"1" if digit != b"1" else b"2") + line[at + 1:]
+    indices = line.index(b'"', line.index(b"\"den\":[") + 7)  # [k, "<flat indices>", "<values>"]
+    at = line.index(b'","', indices + 1) + 3  # the first character of the denominator's values
+    changed = line[:at] + (b"B" if line[at:at + 1] != b"B" else b"C") + line[at + 1:]  # base64 still
+    entry = json.loads(changed.rstrip(b","))  # well-formed: its fit decodes, with one coefficient changed
+    rows = len(entry["exps"]) // entry["n_var"]
+    assert not np.array_equal(E._dense_of(entry["den"], rows), E._dense_of(json.loads(line.rstrip(b","))["den"], rows))
     _with_table(monkeypatch, tmp_path, raw[:start] + changed + raw[end:])
     calls = []
     real = E._structural_fit
@@ -180,11 +212,19 @@ def test_an_entry_changed_but_still_valid_is_fitted_not_used(no_fits, monkeypatc
     assert calls == [1]
 
 
+def _first_span_field(raw: bytes) -> int:
+    """Where the first index record's start offset is."""
+    return raw.index(b":", raw.index(b'"index": "')) + 1
+
+
 @pytest.mark.parametrize("damage", [
-    lambda raw: raw.replace(b'"index": {', b'"index": [', 1),              # index of the wrong kind
+    lambda raw: raw.replace(b'"index": "', b'"index": [', 1),              # index of the wrong kind
     lambda raw: raw.replace(b'"stamp": {', b'"stamp": \xff{', 1),          # bytes that are not text
-    lambda raw: raw.replace(b'":[', b'":["a",', 1),                        # a span of the wrong kind
+    lambda raw: raw[:_first_span_field(raw)] + b"x" + raw[_first_span_field(raw) + 1:],  # a span of the wrong kind
+    lambda raw: raw[:_first_span_field(raw)] + b"0000001" + raw[_first_span_field(raw) + 8:],  # a record cut short
     lambda raw: raw[: len(raw) // 2],                                      # cut short
+    lambda raw: raw[:-3] + b"}\n",                                          # its last entry cut short
+    lambda raw: raw + b"\n",                                                # grown
     lambda raw: b"",
 ])
 def test_a_table_that_cannot_be_read_is_ignored_whole(no_fits, monkeypatch, tmp_path, damage):
@@ -192,3 +232,12 @@ def test_a_table_that_cannot_be_read_is_ignored_whole(no_fits, monkeypatch, tmp_
     assert E._load_table() == {}
     topo = get_topology("sallen-key")
     _agrees_with_solver(topo.build(topo.example), IDEAL)
+
+
+def test_an_index_longer_than_the_first_read_is_read_on(no_fits, monkeypatch):
+    monkeypatch.setattr(E, "_HEAD_READ", 64)
+    assert len(E._load_table()) == len(_shipped()) - 2
+    monkeypatch.setattr(E, "_TABLE", None)
+    monkeypatch.setattr(E, "_structural_fit", lambda *a: pytest.fail("fitted although the table has the structure"))
+    topo = get_topology("state-variable")
+    _agrees_with_solver(topo.build(topo.example), OpAmpModel(gbw_hz=1e6))

@@ -156,18 +156,42 @@ _FITS: dict[tuple, _Fit] = {}
 # analysis does not pay for them. Looked up by :func:`structure_hash`; a structure not in the
 # file (a circuit added later, a changed netlist) is fitted and verified as before. A fit's
 # inputs beside the structure are the constants below: a file written with other ones is ignored.
-# Each entry's bytes carry a SHA-256 digest in the index: a damaged entry is fitted instead, and a
+# Each entry's bytes carry a BLAKE2b digest in the index: a damaged entry is fitted instead, and a
 # file that cannot be read as the table is ignored as a whole (never an error, never a wrong fit).
+#
+# Layout (format 4, valid JSON): line 1 "{", line 2 the stamp (:data:`_STAMP_TEXT`), line 3 the
+# index, one string of fixed-width records "<hash>:<start>:<end>:<digest>;" sorted by hash (start
+# and end: 8 hex digits, the byte offsets of the entry's JSON object from the end of line 3), then
+# one entry per line, in the same order:
+#   "<hash>": {"n_var": n, "low": l, "exps": "<digits>", "den": [k, "<at>", "<values>"], "num": […],
+#              "num_powers": […], "den_powers": […]}      or  "<hash>": {"unavailable": "<reason>"}
+# exps is the (M, n) exponent matrix row by row, one digit each; den and num the (M, k) coefficient
+# matrices as their nonzero entries: base64 of the little-endian int32 flat indices and of the
+# float64 values (the very bits, so a fit read back is the one written). A first use reads the
+# file's head and the one entry it needs (a few KB; the file is about 55), not the whole file,
+# and parses no JSON but that entry: the stamp is compared as bytes, the index checked by its
+# layout and searched as bytes.
 TABLE_FILE = "expansions.json"
-TABLE_FORMAT = 3
-_TABLE: dict | None = None
+TABLE_FORMAT = 4
+# The index (None: not read yet): (its records, where the entries' offsets count from), or ()
+# when the file is not usable as the table.
+_TABLE: tuple | None = None
+# Bytes read first: the three header lines (about 1.9 KB for 32 entries); a longer index is read on.
+_HEAD_READ = 4096
+_RECORD = 56  # one index record: 20 + 8 + 8 + 16 hex digits, three ":" and a ";"
+_HEX = b"0123456789abcdef"
+# The stamp as the file's second line holds it: json.dumps(_table_stamp(), sort_keys=True) (a test
+# checks that they agree), written out so that a file's stamp is checked by comparing bytes (no
+# float formatting or JSON parse in a process's first analysis).
+_STAMP_TEXT = '{"angle_offset": 0.3771, "format": 4, "max_points": 16384, "zero": 1e-09}'
 
 
 def structure_hash(key: tuple) -> str:
-    """A short, stable name of a structure key (:func:`_structure_key`): SHA-256 of its ``repr``."""
+    """A short, stable name of a structure key (:func:`_structure_key`): BLAKE2b of its ``repr``
+    (:func:`hashlib.blake2b`, a 10-byte digest: 20 hex digits)."""
     import hashlib
 
-    return hashlib.sha256(repr(key).encode()).hexdigest()[:20]
+    return hashlib.blake2b(repr(key).encode(), digest_size=10).hexdigest()
 
 
 def _table_stamp() -> dict:
@@ -184,73 +208,113 @@ def table_path():
 
 
 def _digest(entry: bytes) -> str:
-    """The check of one entry's bytes in the table's index: SHA-256, the first 16 hex digits."""
+    """The check of one entry's bytes in the table's index: BLAKE2b, an 8-byte digest (16 hex digits)."""
     import hashlib
 
-    return hashlib.sha256(entry).hexdigest()[:16]
+    return hashlib.blake2b(entry, digest_size=8).hexdigest()
 
 
 def _load_table() -> dict:
-    """The shipped table's index, ``{hash: (start, end, digest)}`` byte offsets of each entry's JSON
-    object from the end of the index line and the digest of its bytes, ``"@base"``: where that is,
-    and ``"@path"``: the file. Empty when the file is missing, stale (its stamp is not
-    :func:`_table_stamp`) or not laid out as the table. Only the three header lines are read and
-    parsed here; an entry is read and parsed when asked for (:func:`_table_line`)."""
-    global _TABLE
+    """The shipped table's index as ``{hash: (start, end, digest)}``: byte offsets of each entry's
+    JSON object from the end of the index line, and the digest of its bytes. Empty when the file
+    is missing, stale (its stamp is not :func:`_table_stamp`) or not laid out as the table. Only
+    the head of the file is read (and kept); lookups use :func:`_span`."""
     if _TABLE is None:
-        _TABLE = {}
-        path = table_path()
+        fd = _open_table()
+        if fd is not None:
+            os.close(fd)
+    if not _TABLE:
+        return {}
+    records = _TABLE[0]
+    out = {}
+    for at in range(0, len(records), _RECORD):
+        name = records[at : at + 20].decode("ascii")
+        out[name] = _span(name)
+    return out
+
+
+def _span(name: str) -> tuple[int, int, str] | None:
+    """``(start, end, digest)`` of entry ``name`` in the read index, or None."""
+    records = _TABLE[0]
+    key = name.encode("ascii", "replace") + b":"
+    at = records.find(key)
+    while at > 0 and at % _RECORD:  # (a hash only ever stands at a record's start; kept exact regardless)
+        at = records.find(key, at + 1)
+    if at < 0 or len(key) != 21:
+        return None
+    return int(records[at + 21 : at + 29], 16), int(records[at + 30 : at + 38], 16), records[at + 39 : at + 55].decode("ascii")
+
+
+def _open_table() -> int | None:
+    """Read and keep the shipped table's index if not yet read (:data:`_TABLE`); the open file (a
+    descriptor, for the caller to close) when the table is usable, else None."""
+    global _TABLE
+    try:
+        fd = os.open(table_path(), os.O_RDONLY | getattr(os, "O_BINARY", 0))
+    except OSError:
+        if _TABLE is None:
+            _TABLE = ()
+        return None
+    if _TABLE is None:
         try:
-            with open(path, "rb") as fh:
-                head = [fh.readline() for _ in range(3)]
-                size = os.fstat(fh.fileno()).st_size
-        except OSError:
-            return _TABLE
-        try:
-            _TABLE = _parse_header(head, size)
+            _TABLE = _read_index(fd)
         except Exception:  # noqa: BLE001 - whatever is wrong with the file, the fits are made instead
-            _TABLE = {}
-        if _TABLE:
-            _TABLE["@path"] = path
-    return _TABLE
+            _TABLE = ()
+    if not _TABLE:
+        os.close(fd)
+        return None
+    return fd
 
 
-def _parse_header(head: list[bytes], size: int) -> dict:
-    """The index of the header lines ``head`` of a file of ``size`` bytes (:func:`_load_table`)."""
-    import json
-
-    # "{", then "stamp": {...}, then "index": {...}, then one entry per line: "<hash>": {...},
-    if not all(line.endswith(b"\n") for line in head):
-        return {}
-    first, stamp, index = (line[:-1] for line in head)
-    if not (first == b"{" and stamp.startswith(b'"stamp": ') and index.startswith(b'"index": ')
-            and json.loads(stamp[9:].rstrip(b",")) == _table_stamp()):
-        return {}
-    base = sum(len(line) for line in head)
-    table = {}
-    for name, span in json.loads(index[9:].rstrip(b",")).items():
-        start, end, digest = span
-        if not (isinstance(start, int) and isinstance(end, int) and isinstance(digest, str) and 0 <= start <= end <= size - base):
-            return {}
-        table[str(name)] = (start, end, digest)
-    table["@base"] = base
-    return table
+def _read_index(fd: int) -> tuple:
+    """``(records, base)`` of the open table file ``fd`` (:data:`_TABLE`); () when it is not the
+    table: another stamp, a header of another layout, an index record that is not four fields of
+    hex digits, or a file shorter or longer than its index says (cut, or grown)."""
+    size = os.fstat(fd).st_size
+    head = os.read(fd, _HEAD_READ)
+    prefix = b'{\n"stamp": ' + _STAMP_TEXT.encode() + b',\n"index": "'
+    end = head.find(b"\n", len(prefix))
+    while end < 0 and len(head) < size and prefix.startswith(head[: len(prefix)]):  # an index longer than the first read
+        more = os.read(fd, size - len(head))
+        if not more:
+            break
+        head += more
+        end = head.find(b"\n", len(prefix))
+    if end < 0 or not head.startswith(prefix) or not head[:end].endswith(b'",'):
+        return ()
+    records = head[len(prefix) : end - 2]
+    n = len(records) // _RECORD
+    # every record four fields of lowercase hex digits: with the digits deleted, only the separators stay
+    if n == 0 or len(records) % _RECORD or records.translate(None, _HEX) != b":::;" * n:
+        return ()
+    base = end + 1
+    last_end = int(records[-_RECORD + 30 : -_RECORD + 38], 16)
+    if last_end + len(b"\n}\n") != size - base:  # the last entry, then "\n}\n", ends the file
+        return ()
+    return (records, base)
 
 
 def _table_line(name: str) -> bytes | None:
     """The JSON object of entry ``name`` in the shipped table, or None (not there, not readable,
-    or its bytes do not match their digest)."""
-    table = _load_table()
-    span = table.get(name)
-    if span is None:
+    or its bytes do not match their digest). The first call reads the file's index as well, from
+    the same open file."""
+    if _TABLE is not None and (not _TABLE or _span(name) is None):
+        return None
+    fd = _open_table()
+    if fd is None:
         return None
     try:
-        with open(table["@path"], "rb") as fh:
-            fh.seek(table["@base"] + span[0])
-            line = fh.read(span[1] - span[0])
+        span = _span(name)
+        if span is None:
+            return None
+        start, end, digest = span
+        os.lseek(fd, _TABLE[1] + start, os.SEEK_SET)
+        line = os.read(fd, end - start) if end >= start else b""
     except OSError:
         return None
-    return line if _digest(line) == span[2] else None
+    finally:
+        os.close(fd)
+    return line if len(line) == end - start and _digest(line) == digest else None
 
 
 def _table_fit(key: tuple) -> "_Fit | str | None":
@@ -266,27 +330,43 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
         if "unavailable" in entry:
             return str(entry["unavailable"])
         n_var = len(key[-1])  # the structure's variables
-        if entry["n_var"] != n_var or not entry["exps"].isdigit() or len(entry["exps"]) % n_var:
+        digits = entry["exps"]
+        if entry["n_var"] != n_var or not digits.isdigit() or len(digits) % n_var:
             return None
-        exps = (np.frombuffer(entry["exps"].encode("ascii"), dtype=np.uint8).astype(np.int64) - 48).reshape(-1, n_var)
+        exps = np.frombuffer(digits.encode("ascii").translate(_DIGIT_VALUES), dtype=np.uint8).astype(np.int64).reshape(-1, n_var)
         return _fit_of(exps, _dense_of(entry["den"], exps.shape[0]), _dense_of(entry["num"], exps.shape[0]), int(entry["low"]),
                        (entry["num_powers"], entry["den_powers"]))
     except Exception:  # noqa: BLE001 - a damaged entry whose digest still matched: fitted instead
         return None
 
 
+# "0"…"9" → bytes 0…9 (bytes.translate): the exponent digits as their values, one byte each.
+_DIGIT_VALUES = bytes(range(48)) + bytes(range(10)) + bytes(range(58, 256))
+
+
 def _sparse_of(c: np.ndarray) -> list:
-    """A coefficient matrix ``(M, k)`` for the table: ``[k, flat indices, values]`` of its nonzero entries."""
+    """A coefficient matrix ``(M, k)`` for the table: ``[k, at, values]`` of its nonzero entries,
+    ``at`` the base64 of their flat indices (little-endian int32) and ``values`` of their values
+    (little-endian float64: the exact bits)."""
+    import binascii
+
     flat = c.reshape(-1)
     nz = np.flatnonzero(flat)
-    return [int(c.shape[1]), nz.tolist(), flat[nz].tolist()]
+    return [int(c.shape[1]), binascii.b2a_base64(nz.astype("<i4").tobytes(), newline=False).decode("ascii"),
+            binascii.b2a_base64(flat[nz].astype("<f8").tobytes(), newline=False).decode("ascii")]
 
 
 def _dense_of(sparse: list, rows: int) -> np.ndarray:
-    """The matrix :func:`_sparse_of` wrote."""
+    """The matrix :func:`_sparse_of` wrote (raises on most else; the entry's digest has already
+    told that its bytes are the ones written)."""
+    import binascii
+
     cols, at, values = sparse
+    if type(cols) is not int:
+        raise TypeError("the column count is not an integer")
+    at = np.frombuffer(binascii.a2b_base64(at, strict_mode=True), dtype="<i4")
     out = np.zeros(rows * cols)
-    out[at] = values
+    out[at] = np.frombuffer(binascii.a2b_base64(values, strict_mode=True), dtype="<f8")
     return out.reshape(rows, cols)
 
 
@@ -322,17 +402,19 @@ def table_text(entries: dict[str, dict]) -> str:
     line, sorted by hash (the layout :func:`_load_table` reads)."""
     import json
 
-    body, index, at = [], {}, 0
+    body, index, at = [], [], 0
     names = sorted(entries)
     for k, name in enumerate(names):
-        obj = json.dumps(entries[name], separators=(",", ":"))
-        head = f'"{name}": '
-        start = at + len(head.encode())
-        index[name] = [start, start + len(obj.encode()), _digest(obj.encode())]
-        line = head + obj + ("," if k < len(names) - 1 else "") + "\n"
-        body.append(line)
-        at += len(line.encode())
-    header = ["{\n", f'"stamp": {json.dumps(_table_stamp(), sort_keys=True)},\n', f'"index": {json.dumps(index, separators=(",", ":"))},\n']
+        obj = json.dumps(entries[name], separators=(",", ":")).encode()
+        head = f'"{name}": '.encode()
+        start = at + len(head)
+        if len(name) != 20 or name.strip("0123456789abcdef"):  # pragma: no cover - structure_hash's
+            raise ValueError(f"not a table name: {name!r}")
+        index.append(f"{name}:{start:08x}:{start + len(obj):08x}:{_digest(obj)};")
+        line = head + obj + (b"," if k < len(names) - 1 else b"") + b"\n"
+        body.append(line.decode())
+        at += len(line)
+    header = ["{\n", f'"stamp": {json.dumps(_table_stamp(), sort_keys=True)},\n', f'"index": "{"".join(index)}",\n']
     return "".join(header + body) + "}\n"
 
 
@@ -720,8 +802,13 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = T
     key = (structure, opamp)
     exp = _UNIT.get(key)
     if exp is None:
-        if not fit and structure not in _FITS and _table_line(structure_hash(structure)) is None:
-            raise ExpansionUnavailable("not fitted yet")
+        if not fit and structure not in _FITS:
+            shipped = _table_fit(structure)  # looked up once here (_setup then finds it fitted)
+            if shipped is None:
+                raise ExpansionUnavailable("not fitted yet")
+            if isinstance(shipped, str):
+                raise ExpansionUnavailable(shipped)
+            _FITS[structure] = shipped
         exp = Expansion._at_unit(netlist, opamp, variables, structure)
         _UNIT[key] = exp
     return exp, variables
