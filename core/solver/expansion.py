@@ -144,7 +144,7 @@ class _Fit:
     low: int
     num_powers: tuple[int, ...]
     den_powers: tuple[int, ...]
-    exps_f: np.ndarray
+    exps_t: np.ndarray  # exps.T as floats, C-contiguous (n_var, M)
 
 
 # Structural fits by netlist structure (elements, nodes, which parameters are present): the
@@ -326,14 +326,14 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
     import json
 
     try:
-        entry = json.loads(raw)
+        entry = json.loads(raw.decode())  # (a str: json.loads of bytes first detects their encoding)
         if "unavailable" in entry:
             return str(entry["unavailable"])
         n_var = len(key[-1])  # the structure's variables
-        digits = entry["exps"]
-        if entry["n_var"] != n_var or not digits.isdigit() or len(digits) % n_var:
+        digits = entry["exps"].encode("ascii")
+        if entry["n_var"] != n_var or not digits or digits.translate(None, b"0123456789") or len(digits) % n_var:
             return None
-        exps = np.frombuffer(digits.encode("ascii").translate(_DIGIT_VALUES), dtype=np.uint8).astype(np.int64).reshape(-1, n_var)
+        exps = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).astype(np.int64).reshape(-1, n_var)
         return _fit_of(exps, _dense_of(entry["den"], exps.shape[0]), _dense_of(entry["num"], exps.shape[0]), int(entry["low"]),
                        (entry["num_powers"], entry["den_powers"]))
     except Exception:  # noqa: BLE001 - a damaged entry whose digest still matched: fitted instead
@@ -479,7 +479,7 @@ def _fit_of(exps: np.ndarray, den: np.ndarray, num: np.ndarray, low: int, powers
     if powers is None:
         powers = tuple(tuple(int(p) for p in np.flatnonzero(np.any(c != 0, axis=0))) for c in (num, den))
     num_powers, den_powers = (tuple(p) for p in powers)
-    return _Fit(exps=exps, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers, exps_f=exps.astype(float))
+    return _Fit(exps=exps, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers, exps_t=np.ascontiguousarray(exps.T, dtype=float))
 
 
 # Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
@@ -569,10 +569,10 @@ class Expansion:
     def _scale(self, fit: "_Fit") -> None:
         """Scale the structural coefficients to the nominal values and to ``p = s/w_ref``."""
         exps, den, num, low = fit.exps, fit.den, fit.num, fit.low
-        # in logs, so that nothing overflows
-        log_stamps = [v.log_stamp for v in self.variables]
-        if self.w_ref != 1.0 or any(log_stamps):  # (unit stamps and w_ref = 1, as unit_expansion's: nothing to scale)
-            log_stamp = np.array(log_stamps)
+        # in logs, so that nothing overflows; nothing to scale when w_ref = 1 and every stamp is 1
+        # (unit_expansion's: its log stamps are all 0, the test below without the logs)
+        if self.w_ref != 1.0 or not all((2.0 * math.pi * v.value if v.kind == "gbw" else v.value) == 1.0 for v in self.variables):
+            log_stamp = np.array([v.log_stamp for v in self.variables])
             base = exps @ log_stamp  # (M,)
             log_w = math.log(self.w_ref)
             lden = base[:, None] + (np.arange(den.shape[1]) + low)[None, :] * log_w
@@ -591,9 +591,10 @@ class Expansion:
         # For :meth:`dense_log`: exponents over the log *ratios* (an inverse parameter's stamp is
         # the reciprocal: its column negated), the log ratio that makes a stamp absent, and term
         # matrices onto every power of p, highest first.
-        sign = np.array([-1.0 if v.inverse else 1.0 for v in self.variables])
-        self._exps_ratio = np.ascontiguousarray((fit.exps_f * sign[None, :]).T)  # (n_var, M)
-        self._absent_log = _LOG_ZERO * sign
+        inverse = [v.inverse for v in self.variables]
+        sign = np.array([-1.0 if i else 1.0 for i in inverse])
+        self._exps_ratio = fit.exps_t * sign[:, None]  # (n_var, M), C-contiguous as exps_t
+        self._absent_log = np.array([-_LOG_ZERO if i else _LOG_ZERO for i in inverse])  # _LOG_ZERO · sign
         # (M, top + 1): every power of p, highest first (a power absent from the fit is a zero column)
         self._num_dense = np.ascontiguousarray(num[:, ::-1])
         self._den_dense = np.ascontiguousarray(den[:, ::-1])
