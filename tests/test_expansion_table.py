@@ -41,16 +41,16 @@ def test_the_shipped_table_is_what_the_generator_writes_now():
     assert not stale, f"{len(stale)} entries for structures no circuit has now: run python tests/expansion_table.py"
     for name, old in shipped.items():
         entry = fresh[name]
-        assert set(old) == set(entry)
-        if "unavailable" in entry:
+        if entry.startswith("unavailable: "):
             assert old == entry
             continue
-        assert (old["n_var"], old["low"], old["exps"]) == (entry["n_var"], entry["low"], entry["exps"])
-        rows = len(entry["exps"]) // entry["n_var"]
+        n_var = int(entry.split(" ")[0])
+        a, b = (E._entry_fit(json.dumps(e).encode(), n_var) for e in (old, entry))
+        assert np.array_equal(a.exps, b.exps) and (a.low, a.num_powers, a.den_powers) == (b.low, b.num_powers, b.den_powers)
         for part in ("den", "num"):  # integer-point determinants: equal to rounding (BLAS may differ)
-            a, b = E._dense_of(old[part], rows), E._dense_of(entry[part], rows)
-            assert a.shape == b.shape
-            np.testing.assert_allclose(a, b, rtol=0, atol=1e-12 * np.abs(b).max())
+            x, y = getattr(a, part), getattr(b, part)
+            assert x.shape == y.shape
+            np.testing.assert_allclose(x, y, rtol=0, atol=1e-12 * np.abs(y).max())
 
 
 def test_the_index_points_at_each_entry():
@@ -71,15 +71,22 @@ def test_the_stamp_is_written_out_as_json_writes_it():
     assert json.loads(E._STAMP_TEXT) == E._table_stamp()
 
 
-def test_the_coefficients_round_trip_bit_for_bit():
+def test_a_fit_round_trips_bit_for_bit():
     # base64 (RFC 4648) of IEEE 754 binary64 values: the very bits come back (extremes included:
     # the smallest subnormal, the largest finite value, one ulp either side of 1)
     values = [1.0, -3.0000000000000036, 5e-324, 1.7976931348623157e308, np.nextafter(1.0, 2.0), np.nextafter(1.0, 0.0), -2.5e-300]
-    c = np.zeros((5, 3))
-    c.reshape(-1)[[0, 2, 4, 7, 9, 13, 14]] = values
-    back = E._dense_of(json.loads(json.dumps(E._sparse_of(c))), 5)
-    assert back.shape == c.shape and back.tobytes() == c.tobytes()
-    assert E._dense_of(E._sparse_of(np.zeros((2, 4))), 2).tobytes() == np.zeros((2, 4)).tobytes()
+    both = np.zeros((5, 5))
+    both.reshape(-1)[[0, 2, 4, 7, 9, 13, 24]] = values
+    exps = np.array([[0, 1], [1, 0], [1, 1], [2, 0], [0, 2]])
+    fit = E._fit_of(exps, both[:, :3], both[:, 3:], 1)
+    text = E._entry_text(fit, 2)
+    back = E._entry_fit(json.dumps(text).encode(), 2)
+    assert back.exps.dtype == exps.dtype and np.array_equal(back.exps, exps) and back.low == 1
+    assert (back.num_powers, back.den_powers) == (fit.num_powers, fit.den_powers)
+    for part in ("den", "num"):
+        assert np.ascontiguousarray(getattr(back, part)).tobytes() == np.ascontiguousarray(getattr(fit, part)).tobytes()
+    assert E._entry_fit(json.dumps(text).encode(), 3) is None  # another structure's variables
+    assert E._entry_fit(json.dumps("unavailable: no transfer").encode(), 2) == "no transfer"
 
 
 def test_the_names_are_blake2b_of_the_structure():
@@ -198,12 +205,11 @@ def test_an_entry_changed_but_still_valid_is_fitted_not_used(no_fits, monkeypatc
     # one digit of a coefficient changed: still a well-formed entry, so only its digest tells
     net, raw, start, end = _sallen_key_entry_span()
     line = raw[start:end]
-    indices = line.index(b'"', line.index(b"\"den\":[") + 7)  # [k, "<flat indices>", "<values>"]
-    at = line.index(b'","', indices + 1) + 3  # the first character of the denominator's values
+    at = line.rindex(b" ") + 1  # the first character of the coefficients' base64
     changed = line[:at] + (b"B" if line[at:at + 1] != b"B" else b"C") + line[at + 1:]  # base64 still
-    entry = json.loads(changed.rstrip(b","))  # well-formed: its fit decodes, with one coefficient changed
-    rows = len(entry["exps"]) // entry["n_var"]
-    assert not np.array_equal(E._dense_of(entry["den"], rows), E._dense_of(json.loads(line.rstrip(b","))["den"], rows))
+    n_var = int(line[1:line.index(b" ")])
+    fit, was = (E._entry_fit(x.rstrip(b","), n_var) for x in (changed, line))  # well-formed: it decodes
+    assert fit.den.tobytes() != was.den.tobytes()  # to another coefficient
     _with_table(monkeypatch, tmp_path, raw[:start] + changed + raw[end:])
     calls = []
     real = E._structural_fit

@@ -161,16 +161,13 @@ _FITS: dict[tuple, _Fit] = {}
 #
 # Layout (format 4, valid JSON): line 1 "{", line 2 the stamp (:data:`_STAMP_TEXT`), line 3 the
 # index, one string of fixed-width records "<hash>:<start>:<end>:<digest>;" sorted by hash (start
-# and end: 8 hex digits, the byte offsets of the entry's JSON object from the end of line 3), then
-# one entry per line, in the same order:
-#   "<hash>": {"n_var": n, "low": l, "exps": "<digits>", "den": [k, "<at>", "<values>"], "num": […],
-#              "num_powers": […], "den_powers": […]}      or  "<hash>": {"unavailable": "<reason>"}
-# exps is the (M, n) exponent matrix row by row, one digit each; den and num the (M, k) coefficient
-# matrices as their nonzero entries: base64 of the little-endian int32 flat indices and of the
-# float64 values (the very bits, so a fit read back is the one written). A first use reads the
-# file's head and the one entry it needs (a few KB; the file is about 55), not the whole file,
-# and parses no JSON but that entry: the stamp is compared as bytes, the index checked by its
-# layout and searched as bytes.
+# and end: 8 hex digits, the byte offsets of the entry from the end of line 3), then one entry per
+# line, in the same order: "<hash>": "<entry>", the entry a string of space-separated fields
+# (:func:`_entry_text`: counts, powers, the exponent digits, and the nonzero coefficients as base64
+# of their float64 bits and int32 indices, so a fit read back is the one written) or
+# "unavailable: <reason>". A first use reads the file's head and the one entry it needs (a few
+# KB; the file is about 45), not the whole file, and parses no JSON: the stamp is compared as
+# bytes, the index checked by its layout and searched as bytes, the entry split as bytes.
 TABLE_FILE = "expansions.json"
 TABLE_FORMAT = 4
 # The index (None: not read yet): (its records, where the entries' offsets count from), or ()
@@ -323,56 +320,67 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
     raw = _table_line(structure_hash(key))
     if raw is None:
         return None
-    import json
-
     try:
-        entry = json.loads(raw.decode())  # (a str: json.loads of bytes first detects their encoding)
-        if "unavailable" in entry:
-            return str(entry["unavailable"])
-        n_var = len(key[-1])  # the structure's variables
-        digits = entry["exps"].encode("ascii")
-        if entry["n_var"] != n_var or not digits or digits.translate(None, b"0123456789") or len(digits) % n_var:
-            return None
-        exps = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).astype(np.int64).reshape(-1, n_var)
-        return _fit_of(exps, _dense_of(entry["den"], exps.shape[0]), _dense_of(entry["num"], exps.shape[0]), int(entry["low"]),
-                       (entry["num_powers"], entry["den_powers"]))
+        return _entry_fit(raw, len(key[-1]))  # (key[-1]: the structure's variables)
     except Exception:  # noqa: BLE001 - a damaged entry whose digest still matched: fitted instead
         return None
+
+
+def _entry_text(fit: "_Fit", n_var: int) -> str:
+    """A fit as its table entry (the text of a JSON string, :func:`_entry_fit` reads it): fields
+    ``n_var low num_powers den_powers exps k_den k_num coefficients`` apart by one space, the
+    powers comma-separated, ``exps`` the ``(M, n_var)`` exponents row by row (one digit each), and
+    ``coefficients`` the nonzero entries of ``[den | num]`` ``(M, k_den + k_num)``: base64 of
+    their values (little-endian float64: the very bits) followed by their flat indices
+    (little-endian int32)."""
+    import binascii
+
+    if fit.exps.size and (fit.exps.min() < 0 or fit.exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
+        raise ValueError("an exponent beyond one digit")
+    flat = np.concatenate([fit.den, fit.num], axis=1).reshape(-1)
+    nz = np.flatnonzero(flat)
+    blob = flat[nz].astype("<f8").tobytes() + nz.astype("<i4").tobytes()
+    return " ".join([str(n_var), str(fit.low), ",".join(map(str, fit.num_powers)), ",".join(map(str, fit.den_powers)),
+                     "".join(str(int(e)) for e in fit.exps.reshape(-1)), str(fit.den.shape[1]), str(fit.num.shape[1]),
+                     binascii.b2a_base64(blob, newline=False).decode("ascii")])
+
+
+def _entry_fit(raw: bytes, n_var: int) -> "_Fit | str | None":
+    """The fit of a table entry's bytes (a JSON string: :func:`_entry_text`, or ``"unavailable:
+    <reason>"``), its reason text, or None when it is not an entry of a structure of ``n_var``
+    variables; raises on most else (the entry's digest has already told that its bytes are the
+    ones written). Bytes operations only: no JSON parse but for a reason text."""
+    import binascii
+
+    if raw.startswith(b'"unavailable: '):
+        import json
+
+        return json.loads(raw)[len("unavailable: "):]
+    if not (len(raw) > 2 and raw[0] == raw[-1] == 34):  # '"'
+        return None
+    n, low, num_powers, den_powers, digits, k_den, k_num, coefficients = raw[1:-1].split(b" ")
+    if int(n) != n_var or not digits or digits.translate(None, b"0123456789") or len(digits) % n_var:
+        return None
+    exps = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).astype(np.int64).reshape(-1, n_var)
+    k_den, k_num = int(k_den), int(k_num)
+    blob = binascii.a2b_base64(coefficients, strict_mode=True)
+    count, rest = divmod(len(blob), 12)
+    if rest:
+        return None
+    both = np.zeros(exps.shape[0] * (k_den + k_num))
+    both[np.frombuffer(blob, dtype="<i4", offset=8 * count)] = np.frombuffer(blob, dtype="<f8", count=count)
+    both = both.reshape(exps.shape[0], k_den + k_num)
+    return _fit_of(exps, both[:, :k_den], both[:, k_den:], int(low),
+                   (tuple(int(p) for p in num_powers.split(b",")), tuple(int(p) for p in den_powers.split(b","))))
 
 
 # "0"…"9" → bytes 0…9 (bytes.translate): the exponent digits as their values, one byte each.
 _DIGIT_VALUES = bytes(range(48)) + bytes(range(10)) + bytes(range(58, 256))
 
 
-def _sparse_of(c: np.ndarray) -> list:
-    """A coefficient matrix ``(M, k)`` for the table: ``[k, at, values]`` of its nonzero entries,
-    ``at`` the base64 of their flat indices (little-endian int32) and ``values`` of their values
-    (little-endian float64: the exact bits)."""
-    import binascii
-
-    flat = c.reshape(-1)
-    nz = np.flatnonzero(flat)
-    return [int(c.shape[1]), binascii.b2a_base64(nz.astype("<i4").tobytes(), newline=False).decode("ascii"),
-            binascii.b2a_base64(flat[nz].astype("<f8").tobytes(), newline=False).decode("ascii")]
-
-
-def _dense_of(sparse: list, rows: int) -> np.ndarray:
-    """The matrix :func:`_sparse_of` wrote (raises on most else; the entry's digest has already
-    told that its bytes are the ones written)."""
-    import binascii
-
-    cols, at, values = sparse
-    if type(cols) is not int:
-        raise TypeError("the column count is not an integer")
-    at = np.frombuffer(binascii.a2b_base64(at, strict_mode=True), dtype="<i4")
-    out = np.zeros(rows * cols)
-    out[at] = np.frombuffer(binascii.a2b_base64(values, strict_mode=True), dtype="<f8")
-    return out.reshape(rows, cols)
-
-
-def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, dict]:
+def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, str]:
     """``(hash, entry)`` of a netlist's structure for the shipped table: its fit, computed and
-    verified now (``{"unavailable": reason}`` when it does not fit)."""
+    verified now, as :func:`_entry_text` (``"unavailable: <reason>"`` when it does not fit)."""
     variables = circuit_variables(netlist, opamp)
     key = _structure_key(netlist, variables)
     sizes = [v.degree + 1 for v in variables]
@@ -389,15 +397,11 @@ def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, dict]
             else:
                 _FITS[key] = saved
     except ExpansionUnavailable as exc:
-        return structure_hash(key), {"unavailable": str(exc)}
-    if fit.exps.size and (fit.exps.min() < 0 or fit.exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
-        raise ValueError("an exponent beyond one digit")
-    entry = {"n_var": len(variables), "low": fit.low, "exps": "".join(str(int(e)) for e in fit.exps.reshape(-1)),
-             "den": _sparse_of(fit.den), "num": _sparse_of(fit.num), "num_powers": list(fit.num_powers), "den_powers": list(fit.den_powers)}
-    return structure_hash(key), entry
+        return structure_hash(key), f"unavailable: {exc}"
+    return structure_hash(key), _entry_text(fit, len(variables))
 
 
-def table_text(entries: dict[str, dict]) -> str:
+def table_text(entries: dict[str, str]) -> str:
     """The table file's text (valid JSON): the stamp, the index of byte offsets, then one entry per
     line, sorted by hash (the layout :func:`_load_table` reads)."""
     import json
@@ -405,7 +409,7 @@ def table_text(entries: dict[str, dict]) -> str:
     body, index, at = [], [], 0
     names = sorted(entries)
     for k, name in enumerate(names):
-        obj = json.dumps(entries[name], separators=(",", ":")).encode()
+        obj = json.dumps(entries[name]).encode()
         head = f'"{name}": '.encode()
         start = at + len(head)
         if len(name) != 20 or name.strip("0123456789abcdef"):  # pragma: no cover - structure_hash's
