@@ -78,7 +78,7 @@ def test_a_fit_round_trips_bit_for_bit():
     both = np.zeros((5, 5))
     both.reshape(-1)[[0, 2, 4, 7, 9, 13, 24]] = values
     exps = np.array([[0, 1], [1, 0], [1, 1], [2, 0], [0, 2]])
-    fit = E._fit_of(exps, both[:, :3], both[:, 3:], 1)
+    fit = E._fit_of(np.ascontiguousarray(exps.T, dtype=float), both[:, :3], both[:, 3:], 1)
     text = E._entry_text(fit, 2)
     back = E._entry_fit(json.dumps(text).encode(), 2)
     assert back.exps.dtype == exps.dtype and np.array_equal(back.exps, exps) and back.low == 1

@@ -138,13 +138,18 @@ class _Fit:
     """The value-independent part of an expansion: monomial exponents and integer-point
     coefficients (ascending powers of ``s``, a common factor ``s^low`` removed)."""
 
-    exps: np.ndarray
+    exps_t: np.ndarray  # the exponents (M monomials, n_var variables) transposed, as floats: (n_var, M), C-contiguous
     den: np.ndarray
     num: np.ndarray
     low: int
     num_powers: tuple[int, ...]
     den_powers: tuple[int, ...]
-    exps_t: np.ndarray  # exps.T as floats, C-contiguous (n_var, M)
+
+    @property
+    def exps(self) -> np.ndarray:
+        """The exponents as integers, ``(M, n_var)`` (made when asked: the unit expansions use
+        :attr:`exps_t` alone)."""
+        return np.ascontiguousarray(self.exps_t.T, dtype=np.int64)
 
 
 # Structural fits by netlist structure (elements, nodes, which parameters are present): the
@@ -204,6 +209,15 @@ def table_path():
     return _TABLE_PATH
 
 
+def _shipped_file() -> str:
+    """:func:`table_path` as a str, made from the resources package's file name (the str of a
+    pathlib path costs a process's first use of it about 13 µs, this a few)."""
+    import bandsmith.resources
+
+    folder, sep, _ = bandsmith.resources.__file__.rpartition(os.sep)
+    return folder + sep + TABLE_FILE if sep else os.fspath(_TABLE_PATH)
+
+
 def _digest(entry: bytes) -> str:
     """The check of one entry's bytes in the table's index: BLAKE2b, an 8-byte digest (16 hex digits)."""
     import hashlib
@@ -246,8 +260,9 @@ def _open_table() -> int | None:
     """Read and keep the shipped table's index if not yet read (:data:`_TABLE`); the open file (a
     descriptor, for the caller to close) when the table is usable, else None."""
     global _TABLE
+    path = table_path()
     try:
-        fd = os.open(table_path(), os.O_RDONLY | getattr(os, "O_BINARY", 0))
+        fd = os.open(_shipped_file() if path is _TABLE_PATH else path, os.O_RDONLY | getattr(os, "O_BINARY", 0))
     except OSError:
         if _TABLE is None:
             _TABLE = ()
@@ -335,13 +350,14 @@ def _entry_text(fit: "_Fit", n_var: int) -> str:
     (little-endian int32)."""
     import binascii
 
-    if fit.exps.size and (fit.exps.min() < 0 or fit.exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
+    exps = fit.exps
+    if exps.size and (exps.min() < 0 or exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
         raise ValueError("an exponent beyond one digit")
     flat = np.concatenate([fit.den, fit.num], axis=1).reshape(-1)
     nz = np.flatnonzero(flat)
     blob = flat[nz].astype("<f8").tobytes() + nz.astype("<i4").tobytes()
     return " ".join([str(n_var), str(fit.low), ",".join(map(str, fit.num_powers)), ",".join(map(str, fit.den_powers)),
-                     "".join(str(int(e)) for e in fit.exps.reshape(-1)), str(fit.den.shape[1]), str(fit.num.shape[1]),
+                     "".join(str(int(e)) for e in exps.reshape(-1)), str(fit.den.shape[1]), str(fit.num.shape[1]),
                      binascii.b2a_base64(blob, newline=False).decode("ascii")])
 
 
@@ -361,16 +377,18 @@ def _entry_fit(raw: bytes, n_var: int) -> "_Fit | str | None":
     n, low, num_powers, den_powers, digits, k_den, k_num, coefficients = raw[1:-1].split(b" ")
     if int(n) != n_var or not digits or digits.translate(None, b"0123456789") or len(digits) % n_var:
         return None
-    exps = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).astype(np.int64).reshape(-1, n_var)
+    digit_values = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).reshape(-1, n_var)
+    exps_t = np.ascontiguousarray(digit_values.T, dtype=float)
+    rows = digit_values.shape[0]
     k_den, k_num = int(k_den), int(k_num)
     blob = binascii.a2b_base64(coefficients, strict_mode=True)
     count, rest = divmod(len(blob), 12)
     if rest:
         return None
-    both = np.zeros(exps.shape[0] * (k_den + k_num))
+    both = np.zeros(rows * (k_den + k_num))
     both[np.frombuffer(blob, dtype="<i4", offset=8 * count)] = np.frombuffer(blob, dtype="<f8", count=count)
-    both = both.reshape(exps.shape[0], k_den + k_num)
-    return _fit_of(exps, both[:, :k_den], both[:, k_den:], int(low),
+    both = both.reshape(rows, k_den + k_num)
+    return _fit_of(exps_t, both[:, :k_den], both[:, k_den:], int(low),
                    (tuple(int(p) for p in num_powers.split(b",")), tuple(int(p) for p in den_powers.split(b","))))
 
 
@@ -473,17 +491,17 @@ def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: Op
     if den_pw.size == 0 or num_pw.size == 0:
         raise ExpansionUnavailable("no transfer from the input to the output")
     low = int(min(den_pw[0], num_pw[0]))  # a common factor s^low cancels
-    return _fit_of(exps, den[:, low : den_pw[-1] + 1], num[:, low : num_pw[-1] + 1], low)
+    return _fit_of(np.ascontiguousarray(exps.T, dtype=float), den[:, low : den_pw[-1] + 1], num[:, low : num_pw[-1] + 1], low)
 
 
-def _fit_of(exps: np.ndarray, den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
-    """A :class:`_Fit` from its exponents ``(M, n_var)``, its trimmed coefficients ``(M, ·)``
+def _fit_of(exps_t: np.ndarray, den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
+    """A :class:`_Fit` from its exponents transposed, as floats ``(n_var, M)`` C-contiguous, its trimmed coefficients ``(M, ·)``
     (ascending powers of ``s`` from ``s^low``), ``low``, and the powers present in the numerator
     and the denominator when known (the columns with a nonzero coefficient)."""
     if powers is None:
         powers = tuple(tuple(int(p) for p in np.flatnonzero(np.any(c != 0, axis=0))) for c in (num, den))
     num_powers, den_powers = (tuple(p) for p in powers)
-    return _Fit(exps=exps, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers, exps_t=np.ascontiguousarray(exps.T, dtype=float))
+    return _Fit(exps_t=exps_t, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers)
 
 
 # Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
@@ -572,12 +590,12 @@ class Expansion:
     # -- building -------------------------------------------------------------------------------
     def _scale(self, fit: "_Fit") -> None:
         """Scale the structural coefficients to the nominal values and to ``p = s/w_ref``."""
-        exps, den, num, low = fit.exps, fit.den, fit.num, fit.low
+        den, num, low = fit.den, fit.num, fit.low
         # in logs, so that nothing overflows; nothing to scale when w_ref = 1 and every stamp is 1
         # (unit_expansion's: its log stamps are all 0, the test below without the logs)
         if self.w_ref != 1.0 or not all((2.0 * math.pi * v.value if v.kind == "gbw" else v.value) == 1.0 for v in self.variables):
             log_stamp = np.array([v.log_stamp for v in self.variables])
-            base = exps @ log_stamp  # (M,)
+            base = fit.exps @ log_stamp  # (M,)
             log_w = math.log(self.w_ref)
             lden = base[:, None] + (np.arange(den.shape[1]) + low)[None, :] * log_w
             lnum = base[:, None] + (np.arange(num.shape[1]) + low)[None, :] * log_w
@@ -753,8 +771,8 @@ class Expansion:
             if "gbw" not in kinds or "a0" not in kinds:
                 self._picks = (None,)
             else:
-                exps = self._fit.exps
-                gbw, a0 = exps[:, kinds.index("gbw")], exps[:, kinds.index("a0")]
+                exps_t = self._fit.exps_t  # (the same comparisons on the exponents as floats)
+                gbw, a0 = exps_t[kinds.index("gbw")], exps_t[kinds.index("a0")]
                 degree = self.variables[kinds.index("a0")].degree
                 power = np.arange(degree + 1)[:, None]
                 signs = np.where((gbw == 0)[None, :] & (a0[None, :] == power), (-1.0) ** power, 0.0)
