@@ -226,8 +226,8 @@ def _digest(entry: bytes) -> str:
 
 
 def _load_table() -> dict:
-    """The shipped table's index as ``{hash: (start, end, digest)}``: byte offsets of each entry's
-    JSON object from the end of the index line, and the digest of its bytes. Empty when the file
+    """The shipped table's index as ``{hash: (start, end, digest)}``: byte offsets of each entry
+    (a JSON string) from the end of the index line, and the digest of its bytes. Empty when the file
     is missing, stale (its stamp is not :func:`_table_stamp`) or not laid out as the table. Only
     the head of the file is read (and kept); lookups use :func:`_span`."""
     if _TABLE is None:
@@ -307,17 +307,17 @@ def _read_index(fd: int) -> tuple:
 
 
 def _table_line(name: str) -> bytes | None:
-    """The JSON object of entry ``name`` in the shipped table, or None (not there, not readable,
+    """The bytes of entry ``name`` in the shipped table (a JSON string), or None (not there, not readable,
     or its bytes do not match their digest). The first call reads the file's index as well, from
     the same open file."""
-    if _TABLE is not None and (not _TABLE or _span(name) is None):
-        return None
+    span = None
+    if _TABLE is not None and (not _TABLE or (span := _span(name)) is None):
+        return None  # (not there: the file is not opened)
     fd = _open_table()
     if fd is None:
         return None
     try:
-        span = _span(name)
-        if span is None:
+        if span is None and (span := _span(name)) is None:
             return None
         start, end, digest = span
         os.lseek(fd, _TABLE[1] + start, os.SEEK_SET)
