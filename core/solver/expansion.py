@@ -344,7 +344,8 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
 def _entry_text(fit: "_Fit", n_var: int) -> str:
     """A fit as its table entry (the text of a JSON string, :func:`_entry_fit` reads it): fields
     ``n_var low num_powers den_powers exps k_den k_num coefficients`` apart by one space, the
-    powers comma-separated, ``exps`` the ``(M, n_var)`` exponents row by row (one digit each), and
+    powers comma-separated, ``exps`` the ``(M, n_var)`` exponents variable by variable (one digit
+    each: the rows of :attr:`_Fit.exps_t`), and
     ``coefficients`` the nonzero entries of ``[den | num]`` ``(M, k_den + k_num)``: base64 of
     their values (little-endian float64: the very bits) followed by their flat indices
     (little-endian int32)."""
@@ -357,7 +358,7 @@ def _entry_text(fit: "_Fit", n_var: int) -> str:
     nz = np.flatnonzero(flat)
     blob = flat[nz].astype("<f8").tobytes() + nz.astype("<i4").tobytes()
     return " ".join([str(n_var), str(fit.low), ",".join(map(str, fit.num_powers)), ",".join(map(str, fit.den_powers)),
-                     "".join(str(int(e)) for e in exps.reshape(-1)), str(fit.den.shape[1]), str(fit.num.shape[1]),
+                     "".join(str(int(e)) for e in exps.T.reshape(-1)), str(fit.den.shape[1]), str(fit.num.shape[1]),
                      binascii.b2a_base64(blob, newline=False).decode("ascii")])
 
 
@@ -377,9 +378,8 @@ def _entry_fit(raw: bytes, n_var: int) -> "_Fit | str | None":
     n, low, num_powers, den_powers, digits, k_den, k_num, coefficients = raw[1:-1].split(b" ")
     if int(n) != n_var or not digits or digits.translate(None, b"0123456789") or len(digits) % n_var:
         return None
-    digit_values = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).reshape(-1, n_var)
-    exps_t = np.ascontiguousarray(digit_values.T, dtype=float)
-    rows = digit_values.shape[0]
+    exps_t = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).astype(float).reshape(n_var, -1)
+    rows = exps_t.shape[1]
     k_den, k_num = int(k_den), int(k_num)
     blob = binascii.a2b_base64(coefficients, strict_mode=True)
     count, rest = divmod(len(blob), 12)
