@@ -45,7 +45,7 @@ def test_the_shipped_table_is_what_the_generator_writes_now():
             assert old == entry
             continue
         n_var = int(entry.split(" ")[0])
-        a, b = (E._entry_fit(json.dumps(e).encode(), n_var) for e in (old, entry))
+        a, b = (E._entry_fit(json.dumps(e).encode(), ("C",) * n_var) for e in (old, entry))
         assert np.array_equal(a.exps, b.exps) and (a.low, a.num_powers, a.den_powers) == (b.low, b.num_powers, b.den_powers)
         for part in ("den", "num"):  # integer-point determinants: equal to rounding (BLAS may differ)
             x, y = getattr(a, part), getattr(b, part)
@@ -78,15 +78,17 @@ def test_a_fit_round_trips_bit_for_bit():
     both = np.zeros((5, 5))
     both.reshape(-1)[[0, 2, 4, 7, 9, 13, 24]] = values
     exps = np.array([[0, 1], [1, 0], [1, 1], [2, 0], [0, 2]])
-    fit = E._fit_of(np.ascontiguousarray(exps.T, dtype=float), both[:, :3], both[:, 3:], 1)
+    fit = E._fit_of(np.ascontiguousarray(exps.T, dtype=float), ("R", "C"), both[:, :3], both[:, 3:], 1)
     text = E._entry_text(fit, 2)
-    back = E._entry_fit(json.dumps(text).encode(), 2)
+    back = E._entry_fit(json.dumps(text).encode(), ("R", "C"))
+    assert back.exps_ratio.tobytes() == fit.exps_ratio.tobytes()  # a resistor's row negated (its stamp 1/R)
+    assert np.array_equal(back.exps_ratio, np.array([[0.0, -1, -1, -2, 0], [1, 0, 1, 0, 2]]))
     assert back.exps.dtype == exps.dtype and np.array_equal(back.exps, exps) and back.low == 1
     assert (back.num_powers, back.den_powers) == (fit.num_powers, fit.den_powers)
     for part in ("den", "num"):
         assert np.ascontiguousarray(getattr(back, part)).tobytes() == np.ascontiguousarray(getattr(fit, part)).tobytes()
-    assert E._entry_fit(json.dumps(text).encode(), 3) is None  # another structure's variables
-    assert E._entry_fit(json.dumps("unavailable: no transfer").encode(), 2) == "no transfer"
+    assert E._entry_fit(json.dumps(text).encode(), ("R", "C", "C")) is None  # another structure's variables
+    assert E._entry_fit(json.dumps("unavailable: no transfer").encode(), ("R", "C")) == "no transfer"
 
 
 def test_the_names_are_blake2b_of_the_structure():
@@ -208,7 +210,7 @@ def test_an_entry_changed_but_still_valid_is_fitted_not_used(no_fits, monkeypatc
     at = line.rindex(b" ") + 1  # the first character of the coefficients' base64
     changed = line[:at] + (b"B" if line[at:at + 1] != b"B" else b"C") + line[at + 1:]  # base64 still
     n_var = int(line[1:line.index(b" ")])
-    fit, was = (E._entry_fit(x.rstrip(b","), n_var) for x in (changed, line))  # well-formed: it decodes
+    fit, was = (E._entry_fit(x.rstrip(b","), ("C",) * n_var) for x in (changed, line))  # well-formed: it decodes
     assert fit.den.tobytes() != was.den.tobytes()  # to another coefficient
     _with_table(monkeypatch, tmp_path, raw[:start] + changed + raw[end:])
     calls = []

@@ -51,6 +51,10 @@ _ZERO = 1e-9
 _VERIFY_RTOL = 1e-8
 
 
+# The kinds whose stamp is the reciprocal of the value (a resistor's conductance, 1/(2π·GBW), 1/A0).
+_INVERSE_KINDS = ("R", "gbw", "a0")
+
+
 class ExpansionUnavailable(RuntimeError):
     """The netlist does not fit the expansion (too many parameters, or a check failed)."""
 
@@ -80,7 +84,7 @@ class Variable:
     @property
     def inverse(self) -> bool:
         """True where the stamped parameter is the reciprocal of the value (R, GBW, A0)."""
-        return self.kind in ("R", "gbw", "a0")
+        return self.kind in _INVERSE_KINDS
 
     def stamped(self, t: np.ndarray) -> np.ndarray:
         """The part value whose stamp equals ``t`` (0 gives an absent stamp)."""
@@ -138,7 +142,13 @@ class _Fit:
     """The value-independent part of an expansion: monomial exponents and integer-point
     coefficients (ascending powers of ``s``, a common factor ``s^low`` removed)."""
 
-    exps_t: np.ndarray  # the exponents (M monomials, n_var variables) transposed, as floats: (n_var, M), C-contiguous
+    # The exponents of the M monomials in the n_var variables over the log *ratios*, as
+    # :meth:`Expansion.dense_log` takes them: transposed, (n_var, M) C-contiguous floats, the
+    # row of an inverse variable (its stamp the reciprocal of the value) negated; and the log
+    # ratio that makes each variable's stamp absent (both fixed by the variables' kinds, which
+    # are part of the structure).
+    exps_ratio: np.ndarray
+    absent_log: np.ndarray
     den: np.ndarray
     num: np.ndarray
     low: int
@@ -148,8 +158,8 @@ class _Fit:
     @property
     def exps(self) -> np.ndarray:
         """The exponents as integers, ``(M, n_var)`` (made when asked: the unit expansions use
-        :attr:`exps_t` alone)."""
-        return np.ascontiguousarray(self.exps_t.T, dtype=np.int64)
+        :attr:`exps_ratio` alone)."""
+        return np.ascontiguousarray(np.abs(self.exps_ratio).T, dtype=np.int64)
 
 
 # Structural fits by netlist structure (elements, nodes, which parameters are present): the
@@ -336,7 +346,7 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
     if raw is None:
         return None
     try:
-        return _entry_fit(raw, len(key[-1]))  # (key[-1]: the structure's variables)
+        return _entry_fit(raw, tuple(kind for _, kind, _ in key[-1]))  # (key[-1]: the structure's variables)
     except Exception:  # noqa: BLE001 - a damaged entry whose digest still matched: fitted instead
         return None
 
@@ -345,7 +355,7 @@ def _entry_text(fit: "_Fit", n_var: int) -> str:
     """A fit as its table entry (the text of a JSON string, :func:`_entry_fit` reads it): fields
     ``n_var low num_powers den_powers exps k_den k_num coefficients`` apart by one space, the
     powers comma-separated, ``exps`` the ``(M, n_var)`` exponents variable by variable (one digit
-    each: the rows of :attr:`_Fit.exps_t`), and
+    each: the rows of :attr:`_Fit.exps_ratio` without their signs), and
     ``coefficients`` the nonzero entries of ``[den | num]`` ``(M, k_den + k_num)``: base64 of
     their values (little-endian float64: the very bits) followed by their flat indices
     (little-endian int32)."""
@@ -362,10 +372,10 @@ def _entry_text(fit: "_Fit", n_var: int) -> str:
                      binascii.b2a_base64(blob, newline=False).decode("ascii")])
 
 
-def _entry_fit(raw: bytes, n_var: int) -> "_Fit | str | None":
+def _entry_fit(raw: bytes, kinds: tuple[str, ...]) -> "_Fit | str | None":
     """The fit of a table entry's bytes (a JSON string: :func:`_entry_text`, or ``"unavailable:
-    <reason>"``), its reason text, or None when it is not an entry of a structure of ``n_var``
-    variables; raises on most else (the entry's digest has already told that its bytes are the
+    <reason>"``), its reason text, or None when it is not an entry of a structure of variables
+    of these ``kinds`` (:attr:`Variable.kind`); raises on most else (the entry's digest has already told that its bytes are the
     ones written). Bytes operations only: no JSON parse but for a reason text."""
     import binascii
 
@@ -376,6 +386,7 @@ def _entry_fit(raw: bytes, n_var: int) -> "_Fit | str | None":
     if not (len(raw) > 2 and raw[0] == raw[-1] == 34):  # '"'
         return None
     n, low, num_powers, den_powers, digits, k_den, k_num, coefficients = raw[1:-1].split(b" ")
+    n_var = len(kinds)
     if int(n) != n_var or not digits or digits.translate(None, b"0123456789") or len(digits) % n_var:
         return None
     exps_t = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).astype(float).reshape(n_var, -1)
@@ -388,7 +399,7 @@ def _entry_fit(raw: bytes, n_var: int) -> "_Fit | str | None":
     both = np.zeros(rows * (k_den + k_num))
     both[np.frombuffer(blob, dtype="<i4", offset=8 * count)] = np.frombuffer(blob, dtype="<f8", count=count)
     both = both.reshape(rows, k_den + k_num)
-    return _fit_of(exps_t, both[:, :k_den], both[:, k_den:], int(low),
+    return _fit_of(exps_t, kinds, both[:, :k_den], both[:, k_den:], int(low),
                    (tuple(int(p) for p in num_powers.split(b",")), tuple(int(p) for p in den_powers.split(b","))))
 
 
@@ -491,17 +502,22 @@ def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: Op
     if den_pw.size == 0 or num_pw.size == 0:
         raise ExpansionUnavailable("no transfer from the input to the output")
     low = int(min(den_pw[0], num_pw[0]))  # a common factor s^low cancels
-    return _fit_of(np.ascontiguousarray(exps.T, dtype=float), den[:, low : den_pw[-1] + 1], num[:, low : num_pw[-1] + 1], low)
+    return _fit_of(np.ascontiguousarray(exps.T, dtype=float), tuple(v.kind for v in variables), den[:, low : den_pw[-1] + 1], num[:, low : num_pw[-1] + 1], low)
 
 
-def _fit_of(exps_t: np.ndarray, den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
-    """A :class:`_Fit` from its exponents transposed, as floats ``(n_var, M)`` C-contiguous, its trimmed coefficients ``(M, ·)``
-    (ascending powers of ``s`` from ``s^low``), ``low``, and the powers present in the numerator
-    and the denominator when known (the columns with a nonzero coefficient)."""
+def _fit_of(exps_t: np.ndarray, kinds: tuple[str, ...], den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
+    """A :class:`_Fit` from its exponents transposed, as floats ``(n_var, M)`` C-contiguous (a
+    new array: its inverse variables' rows are negated in place), the variables' kinds, its
+    trimmed coefficients ``(M, ·)`` (ascending powers of ``s`` from ``s^low``), ``low``, and the
+    powers present in the numerator and the denominator when known (the columns with a nonzero
+    coefficient)."""
     if powers is None:
         powers = tuple(tuple(int(p) for p in np.flatnonzero(np.any(c != 0, axis=0))) for c in (num, den))
     num_powers, den_powers = (tuple(p) for p in powers)
-    return _Fit(exps_t=exps_t, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers)
+    inverse = [k in _INVERSE_KINDS for k in kinds]
+    np.multiply(exps_t, np.array([[-1.0] if i else [1.0] for i in inverse]), out=exps_t)
+    return _Fit(exps_ratio=exps_t, absent_log=np.array([-_LOG_ZERO if i else _LOG_ZERO for i in inverse]), den=den, num=num, low=low,
+                num_powers=num_powers, den_powers=den_powers)
 
 
 # Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
@@ -611,12 +627,10 @@ class Expansion:
         self._plan: _CoefficientPlan | None = None
         self._picks = None  # (:meth:`_opamp_picks`, made when first asked)
         # For :meth:`dense_log`: exponents over the log *ratios* (an inverse parameter's stamp is
-        # the reciprocal: its column negated), the log ratio that makes a stamp absent, and term
-        # matrices onto every power of p, highest first.
-        inverse = [v.inverse for v in self.variables]
-        sign = np.array([-1.0 if i else 1.0 for i in inverse])
-        self._exps_ratio = fit.exps_t * sign[:, None]  # (n_var, M), C-contiguous as exps_t
-        self._absent_log = np.array([-_LOG_ZERO if i else _LOG_ZERO for i in inverse])  # _LOG_ZERO · sign
+        # the reciprocal: its row negated), the log ratio that makes a stamp absent (the fit's,
+        # shared: read only), and term matrices onto every power of p, highest first.
+        self._exps_ratio = fit.exps_ratio
+        self._absent_log = fit.absent_log
         # (M, top + 1): every power of p, highest first (a power absent from the fit is a zero column)
         self._num_dense = np.ascontiguousarray(num[:, ::-1])
         self._den_dense = np.ascontiguousarray(den[:, ::-1])
@@ -771,8 +785,8 @@ class Expansion:
             if "gbw" not in kinds or "a0" not in kinds:
                 self._picks = (None,)
             else:
-                exps_t = self._fit.exps_t  # (the same comparisons on the exponents as floats)
-                gbw, a0 = exps_t[kinds.index("gbw")], exps_t[kinds.index("a0")]
+                exps_ratio = self._fit.exps_ratio  # (negated rows: the op-amp's stamps are reciprocals)
+                gbw, a0 = -exps_ratio[kinds.index("gbw")], -exps_ratio[kinds.index("a0")]
                 degree = self.variables[kinds.index("a0")].degree
                 power = np.arange(degree + 1)[:, None]
                 signs = np.where((gbw == 0)[None, :] & (a0[None, :] == power), (-1.0) ** power, 0.0)
