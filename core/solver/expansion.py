@@ -196,6 +196,7 @@ _HEX = b"0123456789abcdef"
 # checks that they agree), written out so that a file's stamp is checked by comparing bytes (no
 # float formatting or JSON parse in a process's first analysis).
 _STAMP_TEXT = '{"angle_offset": 0.3771, "format": 4, "max_points": 16384, "zero": 1e-09}'
+_HEAD = b'{\n"stamp": ' + _STAMP_TEXT.encode() + b',\n"index": "'  # how the file begins
 
 
 def structure_hash(key: tuple) -> str:
@@ -294,7 +295,7 @@ def _read_index(fd: int) -> tuple:
     hex digits, or a file shorter or longer than its index says (cut, or grown)."""
     size = os.fstat(fd).st_size
     head = os.read(fd, _HEAD_READ)
-    prefix = b'{\n"stamp": ' + _STAMP_TEXT.encode() + b',\n"index": "'
+    prefix = _HEAD
     end = head.find(b"\n", len(prefix))
     while end < 0 and len(head) < size and prefix.startswith(head[: len(prefix)]):  # an index longer than the first read
         more = os.read(fd, size - len(head))
@@ -355,16 +356,16 @@ def _entry_text(fit: "_Fit", n_var: int) -> str:
     """A fit as its table entry (the text of a JSON string, :func:`_entry_fit` reads it): fields
     ``n_var low num_powers den_powers exps k_den k_num coefficients`` apart by one space, the
     powers comma-separated, ``exps`` the ``(M, n_var)`` exponents variable by variable (one digit
-    each: the rows of :attr:`_Fit.exps_ratio` without their signs), and
-    ``coefficients`` the nonzero entries of ``[den | num]`` ``(M, k_den + k_num)``: base64 of
-    their values (little-endian float64: the very bits) followed by their flat indices
-    (little-endian int32)."""
+    each: the rows of :attr:`_Fit.exps_ratio` without their signs), and ``coefficients`` the
+    nonzero entries of den ``(M, k_den)`` then num ``(M, k_num)``, each with its highest power
+    first (the layout :meth:`Expansion.dense_log` multiplies with): base64 of their values
+    (little-endian float64: the very bits) followed by their flat indices (little-endian int32)."""
     import binascii
 
     exps = fit.exps
     if exps.size and (exps.min() < 0 or exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
         raise ValueError("an exponent beyond one digit")
-    flat = np.concatenate([fit.den, fit.num], axis=1).reshape(-1)
+    flat = np.concatenate([fit.den[:, ::-1].reshape(-1), fit.num[:, ::-1].reshape(-1)])
     nz = np.flatnonzero(flat)
     blob = flat[nz].astype("<f8").tobytes() + nz.astype("<i4").tobytes()
     return " ".join([str(n_var), str(fit.low), ",".join(map(str, fit.num_powers)), ",".join(map(str, fit.den_powers)),
@@ -398,8 +399,9 @@ def _entry_fit(raw: bytes, kinds: tuple[str, ...]) -> "_Fit | str | None":
         return None
     both = np.zeros(rows * (k_den + k_num))
     both[np.frombuffer(blob, dtype="<i4", offset=8 * count)] = np.frombuffer(blob, dtype="<f8", count=count)
-    both = both.reshape(rows, k_den + k_num)
-    return _fit_of(exps_t, kinds, both[:, :k_den], both[:, k_den:], int(low),
+    den_dense, num_dense = both[: rows * k_den].reshape(rows, k_den), both[rows * k_den :].reshape(rows, k_num)
+    # (ascending views of the highest-first blocks: an expansion at unit values uses the blocks as they are)
+    return _fit_of(exps_t, kinds, den_dense[:, ::-1], num_dense[:, ::-1], int(low),
                    (tuple(int(p) for p in num_powers.split(b",")), tuple(int(p) for p in den_powers.split(b","))))
 
 
@@ -582,9 +584,6 @@ class Expansion:
         self.variables = variables
         self.names = tuple(v.name for v in self.variables)
         self.column = {name: j for j, name in enumerate(self.names)}  # a variable's column by name
-        sizes = [v.degree + 1 for v in self.variables]
-        if math.prod(sizes) > MAX_POINTS:
-            raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
         fit = _FITS.get(key)
         if fit is None:
             shipped = _table_fit(key)
@@ -593,6 +592,9 @@ class Expansion:
             if shipped is not None:  # computed and verified when the table was written
                 _FITS[key] = fit = shipped
         if fit is None:
+            sizes = [v.degree + 1 for v in self.variables]
+            if math.prod(sizes) > MAX_POINTS:
+                raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
             _FITS[key] = fit = _structural_fit(self.netlist, self.variables, opamp, sizes)
             # Checked once per structure, at unit values (well conditioned for the solver it is
             # checked against): the integer fit does not depend on the values.
