@@ -331,8 +331,13 @@ def _table_line(name: str) -> bytes | None:
         if span is None and (span := _span(name)) is None:
             return None
         start, end, digest = span
-        os.lseek(fd, _TABLE[1] + start, os.SEEK_SET)
-        line = os.read(fd, end - start) if end >= start else b""
+        if end < start:
+            line = b""
+        elif hasattr(os, "pread"):
+            line = os.pread(fd, end - start, _TABLE[1] + start)
+        else:  # pragma: no cover - Windows
+            os.lseek(fd, _TABLE[1] + start, os.SEEK_SET)
+            line = os.read(fd, end - start)
     except OSError:
         return None
     finally:
@@ -347,7 +352,7 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
     if raw is None:
         return None
     try:
-        return _entry_fit(raw, tuple(kind for _, kind, _ in key[-1]))  # (key[-1]: the structure's variables)
+        return _entry_fit(raw, [kind for _, kind, _ in key[-1]])  # (key[-1]: the structure's variables)
     except Exception:  # noqa: BLE001 - a damaged entry whose digest still matched: fitted instead
         return None
 
@@ -373,7 +378,7 @@ def _entry_text(fit: "_Fit", n_var: int) -> str:
                      binascii.b2a_base64(blob, newline=False).decode("ascii")])
 
 
-def _entry_fit(raw: bytes, kinds: tuple[str, ...]) -> "_Fit | str | None":
+def _entry_fit(raw: bytes, kinds: list[str] | tuple[str, ...]) -> "_Fit | str | None":
     """The fit of a table entry's bytes (a JSON string: :func:`_entry_text`, or ``"unavailable:
     <reason>"``), its reason text, or None when it is not an entry of a structure of variables
     of these ``kinds`` (:attr:`Variable.kind`); raises on most else (the entry's digest has already told that its bytes are the
@@ -402,7 +407,7 @@ def _entry_fit(raw: bytes, kinds: tuple[str, ...]) -> "_Fit | str | None":
     den_dense, num_dense = both[: rows * k_den].reshape(rows, k_den), both[rows * k_den :].reshape(rows, k_num)
     # (ascending views of the highest-first blocks: an expansion at unit values uses the blocks as they are)
     return _fit_of(exps_t, kinds, den_dense[:, ::-1], num_dense[:, ::-1], int(low),
-                   (tuple(int(p) for p in num_powers.split(b",")), tuple(int(p) for p in den_powers.split(b","))))
+                   (tuple(map(int, num_powers.split(b","))), tuple(map(int, den_powers.split(b",")))))
 
 
 # "0"…"9" → bytes 0…9 (bytes.translate): the exponent digits as their values, one byte each.
@@ -507,7 +512,7 @@ def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: Op
     return _fit_of(np.ascontiguousarray(exps.T, dtype=float), tuple(v.kind for v in variables), den[:, low : den_pw[-1] + 1], num[:, low : num_pw[-1] + 1], low)
 
 
-def _fit_of(exps_t: np.ndarray, kinds: tuple[str, ...], den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
+def _fit_of(exps_t: np.ndarray, kinds: list[str] | tuple[str, ...], den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
     """A :class:`_Fit` from its exponents transposed, as floats ``(n_var, M)`` C-contiguous (a
     new array: its inverse variables' rows are negated in place), the variables' kinds, its
     trimmed coefficients ``(M, ·)`` (ascending powers of ``s`` from ``s^low``), ``low``, and the
@@ -516,10 +521,10 @@ def _fit_of(exps_t: np.ndarray, kinds: tuple[str, ...], den: np.ndarray, num: np
     if powers is None:
         powers = tuple(tuple(int(p) for p in np.flatnonzero(np.any(c != 0, axis=0))) for c in (num, den))
     num_powers, den_powers = (tuple(p) for p in powers)
-    inverse = [k in _INVERSE_KINDS for k in kinds]
-    np.multiply(exps_t, np.array([[-1.0] if i else [1.0] for i in inverse]), out=exps_t)
-    return _Fit(exps_ratio=exps_t, absent_log=np.array([-_LOG_ZERO if i else _LOG_ZERO for i in inverse]), den=den, num=num, low=low,
-                num_powers=num_powers, den_powers=den_powers)
+    # per variable: its sign (−1 for an inverse one) and the log ratio of an absent stamp (_LOG_ZERO · sign)
+    signs = np.array([(-1.0, -_LOG_ZERO) if k in _INVERSE_KINDS else (1.0, _LOG_ZERO) for k in kinds])
+    np.multiply(exps_t, signs[:, :1], out=exps_t)
+    return _Fit(exps_ratio=exps_t, absent_log=signs[:, 1], den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers)
 
 
 # Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
