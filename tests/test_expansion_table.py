@@ -249,3 +249,20 @@ def test_an_index_longer_than_the_first_read_is_read_on(no_fits, monkeypatch):
     monkeypatch.setattr(E, "_structural_fit", lambda *a: pytest.fail("fitted although the table has the structure"))
     topo = get_topology("state-variable")
     _agrees_with_solver(topo.build(topo.example), OpAmpModel(gbw_hz=1e6))
+
+
+def test_a_first_lookup_reads_the_head_and_its_entry_only(no_fits, monkeypatch):
+    # the file is read at its head (the stamp and the index) and at the one entry asked for
+    import os
+
+    got = []
+    real_read, real_pread = os.read, getattr(os, "pread", None)
+    monkeypatch.setattr(os, "read", lambda fd, n: (b := real_read(fd, n), got.append(len(b)))[0])
+    if real_pread is not None:
+        monkeypatch.setattr(os, "pread", lambda fd, n, at: (b := real_pread(fd, n, at), got.append(len(b)))[0])
+    topo = get_topology("mfb")
+    net = topo.build(topo.example)
+    key = E._structure_key(net, E.circuit_variables(net, IDEAL))
+    assert isinstance(E._table_fit(key), E._Fit)
+    span = E._load_table()[E.structure_hash(key)]
+    assert len(got) == 2 and got[0] == min(E._HEAD_READ, E.table_path().stat().st_size) and got[1] == span[1] - span[0]
