@@ -37,7 +37,7 @@ def structures():
                     yield f"{topo.id}{label}{src_label} {amp_label}", driven, amp
 
 
-def table_entries() -> dict[str, dict]:
+def table_entries() -> dict[str, str]:
     from bandsmith.solver.expansion import table_entry
 
     out = {}

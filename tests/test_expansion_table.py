@@ -5,6 +5,7 @@ The fits themselves are checked against the MNA solver in test_expansion.py (whi
 them from the table) and, when the table is written, by the expansion's own verification.
 """
 
+import hashlib
 import json
 import sys
 from pathlib import Path
@@ -32,31 +33,69 @@ def test_the_shipped_table_is_what_the_generator_writes_now():
     # no entry and needs none: it is fitted at first use (test below), so adding one changes nothing here.
     shipped = _shipped()
     assert shipped.pop("stamp") == E._table_stamp()
-    index = shipped.pop("index")
+    assert isinstance(shipped.pop("index"), str)
+    index = E._load_table()
     fresh = table_entries()
     assert shipped and sorted(shipped) == sorted(index)
     stale = sorted(set(shipped) - set(fresh))
     assert not stale, f"{len(stale)} entries for structures no circuit has now: run python tests/expansion_table.py"
     for name, old in shipped.items():
         entry = fresh[name]
-        assert set(old) == set(entry)
-        if "unavailable" in entry:
+        if entry.startswith("unavailable: "):
             assert old == entry
             continue
-        assert (old["n_var"], old["low"], old["exps"]) == (entry["n_var"], entry["low"], entry["exps"])
-        rows = len(entry["exps"]) // entry["n_var"]
+        n_var = int(entry.split(" ")[0])
+        a, b = (E._entry_fit(json.dumps(e).encode(), ("C",) * n_var) for e in (old, entry))
+        assert np.array_equal(a.exps, b.exps) and (a.low, a.num_powers, a.den_powers) == (b.low, b.num_powers, b.den_powers)
         for part in ("den", "num"):  # integer-point determinants: equal to rounding (BLAS may differ)
-            a, b = E._dense_of(old[part], rows), E._dense_of(entry[part], rows)
-            assert a.shape == b.shape
-            np.testing.assert_allclose(a, b, rtol=0, atol=1e-12 * np.abs(b).max())
+            x, y = getattr(a, part), getattr(b, part)
+            assert x.shape == y.shape
+            np.testing.assert_allclose(x, y, rtol=0, atol=1e-12 * np.abs(y).max())
 
 
 def test_the_index_points_at_each_entry():
     raw = E.table_path().read_bytes()
     base = raw.index(b"\n", raw.index(b'"index": ')) + 1
-    for name, (start, end, digest) in _shipped()["index"].items():
-        assert json.loads(raw[base + start : base + end]) == _shipped()[name]
+    shipped = _shipped()
+    index = E._load_table()
+    assert sorted(index) == sorted(set(shipped) - {"stamp", "index"})
+    for name, (start, end, digest) in index.items():
+        assert json.loads(raw[base + start : base + end]) == shipped[name]
         assert E._digest(raw[base + start : base + end]) == digest
+        assert digest == hashlib.blake2b(raw[base + start : base + end], digest_size=8).hexdigest()  # Python's hashlib
+
+
+def test_the_stamp_is_written_out_as_json_writes_it():
+    # the file's stamp line is checked by comparing bytes with the text written out in the module
+    assert E._STAMP_TEXT == json.dumps(E._table_stamp(), sort_keys=True)
+    assert json.loads(E._STAMP_TEXT) == E._table_stamp()
+
+
+def test_a_fit_round_trips_bit_for_bit():
+    # base64 (RFC 4648) of IEEE 754 binary64 values: the very bits come back (extremes included:
+    # the smallest subnormal, the largest finite value, one ulp either side of 1)
+    values = [1.0, -3.0000000000000036, 5e-324, 1.7976931348623157e308, np.nextafter(1.0, 2.0), np.nextafter(1.0, 0.0), -2.5e-300]
+    both = np.zeros((5, 5))
+    both.reshape(-1)[[0, 2, 4, 7, 9, 13, 24]] = values
+    exps = np.array([[0, 1], [1, 0], [1, 1], [2, 0], [0, 2]])
+    fit = E._fit_of(np.ascontiguousarray(exps.T, dtype=float), ("R", "C"), both[:, :3], both[:, 3:], 1)
+    text = E._entry_text(fit, 2)
+    back = E._entry_fit(json.dumps(text).encode(), ("R", "C"))
+    assert back.exps_ratio.tobytes() == fit.exps_ratio.tobytes()  # a resistor's row negated (its stamp 1/R)
+    assert np.array_equal(back.exps_ratio, np.array([[0.0, -1, -1, -2, 0], [1, 0, 1, 0, 2]]))
+    assert back.exps.dtype == exps.dtype and np.array_equal(back.exps, exps) and back.low == 1
+    assert (back.num_powers, back.den_powers) == (fit.num_powers, fit.den_powers)
+    for part in ("den", "num"):
+        assert np.ascontiguousarray(getattr(back, part)).tobytes() == np.ascontiguousarray(getattr(fit, part)).tobytes()
+    assert E._entry_fit(json.dumps(text).encode(), ("R", "C", "C")) is None  # another structure's variables
+    assert E._entry_fit(json.dumps("unavailable: no transfer").encode(), ("R", "C")) == "no transfer"
+
+
+def test_the_names_are_blake2b_of_the_structure():
+    topo = get_topology("mfb")
+    net = topo.build(topo.example)
+    key = E._structure_key(net, E.circuit_variables(net, IDEAL))
+    assert E.structure_hash(key) == hashlib.blake2b(repr(key).encode(), digest_size=10).hexdigest()  # Python's hashlib
 
 
 def test_a_circuit_in_the_table_has_every_structure_there():
@@ -168,10 +207,11 @@ def test_an_entry_changed_but_still_valid_is_fitted_not_used(no_fits, monkeypatc
     # one digit of a coefficient changed: still a well-formed entry, so only its digest tells
     net, raw, start, end = _sallen_key_entry_span()
     line = raw[start:end]
-    at = line.index(b'"den":[') + 7
-    at = line.index(b"[", at) + 1  # the first flat index of the denominator's nonzero entries
-    digit = line[at:at + 1]
-    changed = line[:at] + (b"1" if digit != b"1" else b"2") + line[at + 1:]
+    at = line.rindex(b" ") + 1  # the first character of the coefficients' base64
+    changed = line[:at] + (b"B" if line[at:at + 1] != b"B" else b"C") + line[at + 1:]  # base64 still
+    n_var = int(line[1:line.index(b" ")])
+    fit, was = (E._entry_fit(x.rstrip(b","), ("C",) * n_var) for x in (changed, line))  # well-formed: it decodes
+    assert fit.den.tobytes() != was.den.tobytes()  # to another coefficient
     _with_table(monkeypatch, tmp_path, raw[:start] + changed + raw[end:])
     calls = []
     real = E._structural_fit
@@ -180,11 +220,19 @@ def test_an_entry_changed_but_still_valid_is_fitted_not_used(no_fits, monkeypatc
     assert calls == [1]
 
 
+def _first_span_field(raw: bytes) -> int:
+    """Where the first index record's start offset is."""
+    return raw.index(b":", raw.index(b'"index": "')) + 1
+
+
 @pytest.mark.parametrize("damage", [
-    lambda raw: raw.replace(b'"index": {', b'"index": [', 1),              # index of the wrong kind
+    lambda raw: raw.replace(b'"index": "', b'"index": [', 1),              # index of the wrong kind
     lambda raw: raw.replace(b'"stamp": {', b'"stamp": \xff{', 1),          # bytes that are not text
-    lambda raw: raw.replace(b'":[', b'":["a",', 1),                        # a span of the wrong kind
+    lambda raw: raw[:_first_span_field(raw)] + b"x" + raw[_first_span_field(raw) + 1:],  # a span of the wrong kind
+    lambda raw: raw[:_first_span_field(raw)] + b"0000001" + raw[_first_span_field(raw) + 8:],  # a record cut short
     lambda raw: raw[: len(raw) // 2],                                      # cut short
+    lambda raw: raw[:-3] + b"}\n",                                          # its last entry cut short
+    lambda raw: raw + b"\n",                                                # grown
     lambda raw: b"",
 ])
 def test_a_table_that_cannot_be_read_is_ignored_whole(no_fits, monkeypatch, tmp_path, damage):
@@ -192,3 +240,29 @@ def test_a_table_that_cannot_be_read_is_ignored_whole(no_fits, monkeypatch, tmp_
     assert E._load_table() == {}
     topo = get_topology("sallen-key")
     _agrees_with_solver(topo.build(topo.example), IDEAL)
+
+
+def test_an_index_longer_than_the_first_read_is_read_on(no_fits, monkeypatch):
+    monkeypatch.setattr(E, "_HEAD_READ", 64)
+    assert len(E._load_table()) == len(_shipped()) - 2
+    monkeypatch.setattr(E, "_TABLE", None)
+    monkeypatch.setattr(E, "_structural_fit", lambda *a: pytest.fail("fitted although the table has the structure"))
+    topo = get_topology("state-variable")
+    _agrees_with_solver(topo.build(topo.example), OpAmpModel(gbw_hz=1e6))
+
+
+def test_a_first_lookup_reads_the_head_and_its_entry_only(no_fits, monkeypatch):
+    # the file is read at its head (the stamp and the index) and at the one entry asked for
+    import os
+
+    got = []
+    real_read, real_pread = os.read, getattr(os, "pread", None)
+    monkeypatch.setattr(os, "read", lambda fd, n: (b := real_read(fd, n), got.append(len(b)))[0])
+    if real_pread is not None:
+        monkeypatch.setattr(os, "pread", lambda fd, n, at: (b := real_pread(fd, n, at), got.append(len(b)))[0])
+    topo = get_topology("mfb")
+    net = topo.build(topo.example)
+    key = E._structure_key(net, E.circuit_variables(net, IDEAL))
+    assert isinstance(E._table_fit(key), E._Fit)
+    span = E._load_table()[E.structure_hash(key)]
+    assert len(got) == 2 and got[0] == min(E._HEAD_READ, E.table_path().stat().st_size) and got[1] == span[1] - span[0]

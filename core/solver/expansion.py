@@ -51,6 +51,10 @@ _ZERO = 1e-9
 _VERIFY_RTOL = 1e-8
 
 
+# The kinds whose stamp is the reciprocal of the value (a resistor's conductance, 1/(2π·GBW), 1/A0).
+_INVERSE_KINDS = ("R", "gbw", "a0")
+
+
 class ExpansionUnavailable(RuntimeError):
     """The netlist does not fit the expansion (too many parameters, or a check failed)."""
 
@@ -80,7 +84,7 @@ class Variable:
     @property
     def inverse(self) -> bool:
         """True where the stamped parameter is the reciprocal of the value (R, GBW, A0)."""
-        return self.kind in ("R", "gbw", "a0")
+        return self.kind in _INVERSE_KINDS
 
     def stamped(self, t: np.ndarray) -> np.ndarray:
         """The part value whose stamp equals ``t`` (0 gives an absent stamp)."""
@@ -138,13 +142,24 @@ class _Fit:
     """The value-independent part of an expansion: monomial exponents and integer-point
     coefficients (ascending powers of ``s``, a common factor ``s^low`` removed)."""
 
-    exps: np.ndarray
+    # The exponents of the M monomials in the n_var variables over the log *ratios*, as
+    # :meth:`Expansion.dense_log` takes them: transposed, (n_var, M) C-contiguous floats, the
+    # row of an inverse variable (its stamp the reciprocal of the value) negated; and the log
+    # ratio that makes each variable's stamp absent (both fixed by the variables' kinds, which
+    # are part of the structure).
+    exps_ratio: np.ndarray
+    absent_log: np.ndarray
     den: np.ndarray
     num: np.ndarray
     low: int
     num_powers: tuple[int, ...]
     den_powers: tuple[int, ...]
-    exps_f: np.ndarray
+
+    @property
+    def exps(self) -> np.ndarray:
+        """The exponents as integers, ``(M, n_var)`` (made when asked: the unit expansions use
+        :attr:`exps_ratio` alone)."""
+        return np.ascontiguousarray(np.abs(self.exps_ratio).T, dtype=np.int64)
 
 
 # Structural fits by netlist structure (elements, nodes, which parameters are present): the
@@ -156,18 +171,40 @@ _FITS: dict[tuple, _Fit] = {}
 # analysis does not pay for them. Looked up by :func:`structure_hash`; a structure not in the
 # file (a circuit added later, a changed netlist) is fitted and verified as before. A fit's
 # inputs beside the structure are the constants below: a file written with other ones is ignored.
-# Each entry's bytes carry a SHA-256 digest in the index: a damaged entry is fitted instead, and a
+# Each entry's bytes carry a BLAKE2b digest in the index: a damaged entry is fitted instead, and a
 # file that cannot be read as the table is ignored as a whole (never an error, never a wrong fit).
+#
+# Layout (format 4, valid JSON): line 1 "{", line 2 the stamp (:data:`_STAMP_TEXT`), line 3 the
+# index, one string of fixed-width records "<hash>:<start>:<end>:<digest>;" sorted by hash (start
+# and end: 8 hex digits, the byte offsets of the entry from the end of line 3), then one entry per
+# line, in the same order: "<hash>": "<entry>", the entry a string of space-separated fields
+# (:func:`_entry_text`: counts, powers, the exponent digits, and the nonzero coefficients as base64
+# of their float64 bits and int32 indices, so a fit read back is the one written) or
+# "unavailable: <reason>". A first use reads the file's head and the one entry it needs (a few
+# KB; the file is about 45), not the whole file, and parses no JSON: the stamp is compared as
+# bytes, the index checked by its layout and searched as bytes, the entry split as bytes.
 TABLE_FILE = "expansions.json"
-TABLE_FORMAT = 3
-_TABLE: dict | None = None
+TABLE_FORMAT = 4
+# The index (None: not read yet): (its records, where the entries' offsets count from), or ()
+# when the file is not usable as the table.
+_TABLE: tuple | None = None
+# Bytes read first: the three header lines (about 1.9 KB for 32 entries); a longer index is read on.
+_HEAD_READ = 4096
+_RECORD = 56  # one index record: 20 + 8 + 8 + 16 hex digits, three ":" and a ";"
+_HEX = b"0123456789abcdef"
+# The stamp as the file's second line holds it: json.dumps(_table_stamp(), sort_keys=True) (a test
+# checks that they agree), written out so that a file's stamp is checked by comparing bytes (no
+# float formatting or JSON parse in a process's first analysis).
+_STAMP_TEXT = '{"angle_offset": 0.3771, "format": 4, "max_points": 16384, "zero": 1e-09}'
+_HEAD = b'{\n"stamp": ' + _STAMP_TEXT.encode() + b',\n"index": "'  # how the file begins
 
 
 def structure_hash(key: tuple) -> str:
-    """A short, stable name of a structure key (:func:`_structure_key`): SHA-256 of its ``repr``."""
+    """A short, stable name of a structure key (:func:`_structure_key`): BLAKE2b of its ``repr``
+    (:func:`hashlib.blake2b`, a 10-byte digest: 20 hex digits)."""
     import hashlib
 
-    return hashlib.sha256(repr(key).encode()).hexdigest()[:20]
+    return hashlib.blake2b(repr(key).encode(), digest_size=10).hexdigest()
 
 
 def _table_stamp() -> dict:
@@ -183,74 +220,129 @@ def table_path():
     return _TABLE_PATH
 
 
+def _shipped_file() -> str:
+    """:func:`table_path` as a str, made from the resources package's file name (the str of a
+    pathlib path costs a process's first use of it about 13 µs, this a few)."""
+    import bandsmith.resources
+
+    folder, sep, _ = bandsmith.resources.__file__.rpartition(os.sep)
+    return folder + sep + TABLE_FILE if sep else os.fspath(_TABLE_PATH)
+
+
 def _digest(entry: bytes) -> str:
-    """The check of one entry's bytes in the table's index: SHA-256, the first 16 hex digits."""
+    """The check of one entry's bytes in the table's index: BLAKE2b, an 8-byte digest (16 hex digits)."""
     import hashlib
 
-    return hashlib.sha256(entry).hexdigest()[:16]
+    return hashlib.blake2b(entry, digest_size=8).hexdigest()
 
 
 def _load_table() -> dict:
-    """The shipped table's index, ``{hash: (start, end, digest)}`` byte offsets of each entry's JSON
-    object from the end of the index line and the digest of its bytes, ``"@base"``: where that is,
-    and ``"@path"``: the file. Empty when the file is missing, stale (its stamp is not
-    :func:`_table_stamp`) or not laid out as the table. Only the three header lines are read and
-    parsed here; an entry is read and parsed when asked for (:func:`_table_line`)."""
-    global _TABLE
+    """The shipped table's index as ``{hash: (start, end, digest)}``: byte offsets of each entry
+    (a JSON string) from the end of the index line, and the digest of its bytes. Empty when the file
+    is missing, stale (its stamp is not :func:`_table_stamp`) or not laid out as the table. Only
+    the head of the file is read (and kept); lookups use :func:`_span`."""
     if _TABLE is None:
-        _TABLE = {}
-        path = table_path()
+        fd = _open_table()
+        if fd is not None:
+            os.close(fd)
+    if not _TABLE:
+        return {}
+    records = _TABLE[0]
+    out = {}
+    for at in range(0, len(records), _RECORD):
+        name = records[at : at + 20].decode("ascii")
+        out[name] = _span(name)
+    return out
+
+
+def _span(name: str) -> tuple[int, int, str] | None:
+    """``(start, end, digest)`` of entry ``name`` in the read index, or None."""
+    records = _TABLE[0]
+    key = name.encode("ascii", "replace") + b":"
+    at = records.find(key)
+    while at > 0 and at % _RECORD:  # (a hash only ever stands at a record's start; kept exact regardless)
+        at = records.find(key, at + 1)
+    if at < 0 or len(key) != 21:
+        return None
+    return int(records[at + 21 : at + 29], 16), int(records[at + 30 : at + 38], 16), records[at + 39 : at + 55].decode("ascii")
+
+
+def _open_table() -> int | None:
+    """Read and keep the shipped table's index if not yet read (:data:`_TABLE`); the open file (a
+    descriptor, for the caller to close) when the table is usable, else None."""
+    global _TABLE
+    path = table_path()
+    try:
+        fd = os.open(_shipped_file() if path is _TABLE_PATH else path, os.O_RDONLY | getattr(os, "O_BINARY", 0))
+    except OSError:
+        if _TABLE is None:
+            _TABLE = ()
+        return None
+    if _TABLE is None:
         try:
-            with open(path, "rb") as fh:
-                head = [fh.readline() for _ in range(3)]
-                size = os.fstat(fh.fileno()).st_size
-        except OSError:
-            return _TABLE
-        try:
-            _TABLE = _parse_header(head, size)
+            _TABLE = _read_index(fd)
         except Exception:  # noqa: BLE001 - whatever is wrong with the file, the fits are made instead
-            _TABLE = {}
-        if _TABLE:
-            _TABLE["@path"] = path
-    return _TABLE
+            _TABLE = ()
+    if not _TABLE:
+        os.close(fd)
+        return None
+    return fd
 
 
-def _parse_header(head: list[bytes], size: int) -> dict:
-    """The index of the header lines ``head`` of a file of ``size`` bytes (:func:`_load_table`)."""
-    import json
-
-    # "{", then "stamp": {...}, then "index": {...}, then one entry per line: "<hash>": {...},
-    if not all(line.endswith(b"\n") for line in head):
-        return {}
-    first, stamp, index = (line[:-1] for line in head)
-    if not (first == b"{" and stamp.startswith(b'"stamp": ') and index.startswith(b'"index": ')
-            and json.loads(stamp[9:].rstrip(b",")) == _table_stamp()):
-        return {}
-    base = sum(len(line) for line in head)
-    table = {}
-    for name, span in json.loads(index[9:].rstrip(b",")).items():
-        start, end, digest = span
-        if not (isinstance(start, int) and isinstance(end, int) and isinstance(digest, str) and 0 <= start <= end <= size - base):
-            return {}
-        table[str(name)] = (start, end, digest)
-    table["@base"] = base
-    return table
+def _read_index(fd: int) -> tuple:
+    """``(records, base)`` of the open table file ``fd`` (:data:`_TABLE`); () when it is not the
+    table: another stamp, a header of another layout, an index record that is not four fields of
+    hex digits, or a file shorter or longer than its index says (cut, or grown)."""
+    size = os.fstat(fd).st_size
+    head = os.read(fd, _HEAD_READ)
+    prefix = _HEAD
+    end = head.find(b"\n", len(prefix))
+    while end < 0 and len(head) < size and prefix.startswith(head[: len(prefix)]):  # an index longer than the first read
+        more = os.read(fd, size - len(head))
+        if not more:
+            break
+        head += more
+        end = head.find(b"\n", len(prefix))
+    if end < 0 or not head.startswith(prefix) or not head[:end].endswith(b'",'):
+        return ()
+    records = head[len(prefix) : end - 2]
+    n = len(records) // _RECORD
+    # every record four fields of lowercase hex digits: with the digits deleted, only the separators stay
+    if n == 0 or len(records) % _RECORD or records.translate(None, _HEX) != b":::;" * n:
+        return ()
+    base = end + 1
+    last_end = int(records[-_RECORD + 30 : -_RECORD + 38], 16)
+    if last_end + len(b"\n}\n") != size - base:  # the last entry, then "\n}\n", ends the file
+        return ()
+    return (records, base)
 
 
 def _table_line(name: str) -> bytes | None:
-    """The JSON object of entry ``name`` in the shipped table, or None (not there, not readable,
-    or its bytes do not match their digest)."""
-    table = _load_table()
-    span = table.get(name)
-    if span is None:
+    """The bytes of entry ``name`` in the shipped table (a JSON string), or None (not there, not readable,
+    or its bytes do not match their digest). The first call reads the file's index as well, from
+    the same open file."""
+    span = None
+    if _TABLE is not None and (not _TABLE or (span := _span(name)) is None):
+        return None  # (not there: the file is not opened)
+    fd = _open_table()
+    if fd is None:
         return None
     try:
-        with open(table["@path"], "rb") as fh:
-            fh.seek(table["@base"] + span[0])
-            line = fh.read(span[1] - span[0])
+        if span is None and (span := _span(name)) is None:
+            return None
+        start, end, digest = span
+        if end < start:
+            line = b""
+        elif hasattr(os, "pread"):
+            line = os.pread(fd, end - start, _TABLE[1] + start)
+        else:  # pragma: no cover - Windows
+            os.lseek(fd, _TABLE[1] + start, os.SEEK_SET)
+            line = os.read(fd, end - start)
     except OSError:
         return None
-    return line if _digest(line) == span[2] else None
+    finally:
+        os.close(fd)
+    return line if len(line) == end - start and _digest(line) == digest else None
 
 
 def _table_fit(key: tuple) -> "_Fit | str | None":
@@ -259,40 +351,72 @@ def _table_fit(key: tuple) -> "_Fit | str | None":
     raw = _table_line(structure_hash(key))
     if raw is None:
         return None
-    import json
-
     try:
-        entry = json.loads(raw)
-        if "unavailable" in entry:
-            return str(entry["unavailable"])
-        n_var = len(key[-1])  # the structure's variables
-        if entry["n_var"] != n_var or not entry["exps"].isdigit() or len(entry["exps"]) % n_var:
-            return None
-        exps = (np.frombuffer(entry["exps"].encode("ascii"), dtype=np.uint8).astype(np.int64) - 48).reshape(-1, n_var)
-        return _fit_of(exps, _dense_of(entry["den"], exps.shape[0]), _dense_of(entry["num"], exps.shape[0]), int(entry["low"]),
-                       (entry["num_powers"], entry["den_powers"]))
+        return _entry_fit(raw, [kind for _, kind, _ in key[-1]])  # (key[-1]: the structure's variables)
     except Exception:  # noqa: BLE001 - a damaged entry whose digest still matched: fitted instead
         return None
 
 
-def _sparse_of(c: np.ndarray) -> list:
-    """A coefficient matrix ``(M, k)`` for the table: ``[k, flat indices, values]`` of its nonzero entries."""
-    flat = c.reshape(-1)
+def _entry_text(fit: "_Fit", n_var: int) -> str:
+    """A fit as its table entry (the text of a JSON string, :func:`_entry_fit` reads it): fields
+    ``n_var low num_powers den_powers exps k_den k_num coefficients`` apart by one space, the
+    powers comma-separated, ``exps`` the ``(M, n_var)`` exponents variable by variable (one digit
+    each: the rows of :attr:`_Fit.exps_ratio` without their signs), and ``coefficients`` the
+    nonzero entries of den ``(M, k_den)`` then num ``(M, k_num)``, each with its highest power
+    first (the layout :meth:`Expansion.dense_log` multiplies with): base64 of their values
+    (little-endian float64: the very bits) followed by their flat indices (little-endian int32)."""
+    import binascii
+
+    exps = fit.exps
+    if exps.size and (exps.min() < 0 or exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
+        raise ValueError("an exponent beyond one digit")
+    flat = np.concatenate([fit.den[:, ::-1].reshape(-1), fit.num[:, ::-1].reshape(-1)])
     nz = np.flatnonzero(flat)
-    return [int(c.shape[1]), nz.tolist(), flat[nz].tolist()]
+    blob = flat[nz].astype("<f8").tobytes() + nz.astype("<i4").tobytes()
+    return " ".join([str(n_var), str(fit.low), ",".join(map(str, fit.num_powers)), ",".join(map(str, fit.den_powers)),
+                     "".join(str(int(e)) for e in exps.T.reshape(-1)), str(fit.den.shape[1]), str(fit.num.shape[1]),
+                     binascii.b2a_base64(blob, newline=False).decode("ascii")])
 
 
-def _dense_of(sparse: list, rows: int) -> np.ndarray:
-    """The matrix :func:`_sparse_of` wrote."""
-    cols, at, values = sparse
-    out = np.zeros(rows * cols)
-    out[at] = values
-    return out.reshape(rows, cols)
+def _entry_fit(raw: bytes, kinds: list[str] | tuple[str, ...]) -> "_Fit | str | None":
+    """The fit of a table entry's bytes (a JSON string: :func:`_entry_text`, or ``"unavailable:
+    <reason>"``), its reason text, or None when it is not an entry of a structure of variables
+    of these ``kinds`` (:attr:`Variable.kind`); raises on most else (the entry's digest has already told that its bytes are the
+    ones written). Bytes operations only: no JSON parse but for a reason text."""
+    import binascii
+
+    if raw.startswith(b'"unavailable: '):
+        import json
+
+        return json.loads(raw)[len("unavailable: "):]
+    if not (len(raw) > 2 and raw[0] == raw[-1] == 34):  # '"'
+        return None
+    n, low, num_powers, den_powers, digits, k_den, k_num, coefficients = raw[1:-1].split(b" ")
+    n_var = len(kinds)
+    if int(n) != n_var or not digits or digits.translate(None, b"0123456789") or len(digits) % n_var:
+        return None
+    exps_t = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).astype(float).reshape(n_var, -1)
+    rows = exps_t.shape[1]
+    k_den, k_num = int(k_den), int(k_num)
+    blob = binascii.a2b_base64(coefficients, strict_mode=True)
+    count, rest = divmod(len(blob), 12)
+    if rest:
+        return None
+    both = np.zeros(rows * (k_den + k_num))
+    both[np.frombuffer(blob, dtype="<i4", offset=8 * count)] = np.frombuffer(blob, dtype="<f8", count=count)
+    den_dense, num_dense = both[: rows * k_den].reshape(rows, k_den), both[rows * k_den :].reshape(rows, k_num)
+    # (ascending views of the highest-first blocks: an expansion at unit values uses the blocks as they are)
+    return _fit_of(exps_t, kinds, den_dense[:, ::-1], num_dense[:, ::-1], int(low),
+                   (tuple(map(int, num_powers.split(b","))), tuple(map(int, den_powers.split(b",")))))
 
 
-def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, dict]:
+# "0"…"9" → bytes 0…9 (bytes.translate): the exponent digits as their values, one byte each.
+_DIGIT_VALUES = bytes(range(48)) + bytes(range(10)) + bytes(range(58, 256))
+
+
+def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, str]:
     """``(hash, entry)`` of a netlist's structure for the shipped table: its fit, computed and
-    verified now (``{"unavailable": reason}`` when it does not fit)."""
+    verified now, as :func:`_entry_text` (``"unavailable: <reason>"`` when it does not fit)."""
     variables = circuit_variables(netlist, opamp)
     key = _structure_key(netlist, variables)
     sizes = [v.degree + 1 for v in variables]
@@ -309,30 +433,28 @@ def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, dict]
             else:
                 _FITS[key] = saved
     except ExpansionUnavailable as exc:
-        return structure_hash(key), {"unavailable": str(exc)}
-    if fit.exps.size and (fit.exps.min() < 0 or fit.exps.max() > 9):  # pragma: no cover - degrees are op-amp counts
-        raise ValueError("an exponent beyond one digit")
-    entry = {"n_var": len(variables), "low": fit.low, "exps": "".join(str(int(e)) for e in fit.exps.reshape(-1)),
-             "den": _sparse_of(fit.den), "num": _sparse_of(fit.num), "num_powers": list(fit.num_powers), "den_powers": list(fit.den_powers)}
-    return structure_hash(key), entry
+        return structure_hash(key), f"unavailable: {exc}"
+    return structure_hash(key), _entry_text(fit, len(variables))
 
 
-def table_text(entries: dict[str, dict]) -> str:
+def table_text(entries: dict[str, str]) -> str:
     """The table file's text (valid JSON): the stamp, the index of byte offsets, then one entry per
     line, sorted by hash (the layout :func:`_load_table` reads)."""
     import json
 
-    body, index, at = [], {}, 0
+    body, index, at = [], [], 0
     names = sorted(entries)
     for k, name in enumerate(names):
-        obj = json.dumps(entries[name], separators=(",", ":"))
-        head = f'"{name}": '
-        start = at + len(head.encode())
-        index[name] = [start, start + len(obj.encode()), _digest(obj.encode())]
-        line = head + obj + ("," if k < len(names) - 1 else "") + "\n"
-        body.append(line)
-        at += len(line.encode())
-    header = ["{\n", f'"stamp": {json.dumps(_table_stamp(), sort_keys=True)},\n', f'"index": {json.dumps(index, separators=(",", ":"))},\n']
+        obj = json.dumps(entries[name]).encode()
+        head = f'"{name}": '.encode()
+        start = at + len(head)
+        if len(name) != 20 or name.strip("0123456789abcdef"):  # pragma: no cover - structure_hash's
+            raise ValueError(f"not a table name: {name!r}")
+        index.append(f"{name}:{start:08x}:{start + len(obj):08x}:{_digest(obj)};")
+        line = head + obj + (b"," if k < len(names) - 1 else b"") + b"\n"
+        body.append(line.decode())
+        at += len(line)
+    header = ["{\n", f'"stamp": {json.dumps(_table_stamp(), sort_keys=True)},\n', f'"index": "{"".join(index)}",\n']
     return "".join(header + body) + "}\n"
 
 
@@ -387,17 +509,22 @@ def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: Op
     if den_pw.size == 0 or num_pw.size == 0:
         raise ExpansionUnavailable("no transfer from the input to the output")
     low = int(min(den_pw[0], num_pw[0]))  # a common factor s^low cancels
-    return _fit_of(exps, den[:, low : den_pw[-1] + 1], num[:, low : num_pw[-1] + 1], low)
+    return _fit_of(np.ascontiguousarray(exps.T, dtype=float), tuple(v.kind for v in variables), den[:, low : den_pw[-1] + 1], num[:, low : num_pw[-1] + 1], low)
 
 
-def _fit_of(exps: np.ndarray, den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
-    """A :class:`_Fit` from its exponents ``(M, n_var)``, its trimmed coefficients ``(M, ·)``
-    (ascending powers of ``s`` from ``s^low``), ``low``, and the powers present in the numerator
-    and the denominator when known (the columns with a nonzero coefficient)."""
+def _fit_of(exps_t: np.ndarray, kinds: list[str] | tuple[str, ...], den: np.ndarray, num: np.ndarray, low: int, powers: tuple | None = None) -> _Fit:
+    """A :class:`_Fit` from its exponents transposed, as floats ``(n_var, M)`` C-contiguous (a
+    new array: its inverse variables' rows are negated in place), the variables' kinds, its
+    trimmed coefficients ``(M, ·)`` (ascending powers of ``s`` from ``s^low``), ``low``, and the
+    powers present in the numerator and the denominator when known (the columns with a nonzero
+    coefficient)."""
     if powers is None:
         powers = tuple(tuple(int(p) for p in np.flatnonzero(np.any(c != 0, axis=0))) for c in (num, den))
     num_powers, den_powers = (tuple(p) for p in powers)
-    return _Fit(exps=exps, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers, exps_f=exps.astype(float))
+    # per variable: its sign (−1 for an inverse one) and the log ratio of an absent stamp (_LOG_ZERO · sign)
+    signs = np.array([(-1.0, -_LOG_ZERO) if k in _INVERSE_KINDS else (1.0, _LOG_ZERO) for k in kinds])
+    np.multiply(exps_t, signs[:, :1], out=exps_t)
+    return _Fit(exps_ratio=exps_t, absent_log=signs[:, 1], den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers)
 
 
 # Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
@@ -462,9 +589,6 @@ class Expansion:
         self.variables = variables
         self.names = tuple(v.name for v in self.variables)
         self.column = {name: j for j, name in enumerate(self.names)}  # a variable's column by name
-        sizes = [v.degree + 1 for v in self.variables]
-        if math.prod(sizes) > MAX_POINTS:
-            raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
         fit = _FITS.get(key)
         if fit is None:
             shipped = _table_fit(key)
@@ -473,6 +597,9 @@ class Expansion:
             if shipped is not None:  # computed and verified when the table was written
                 _FITS[key] = fit = shipped
         if fit is None:
+            sizes = [v.degree + 1 for v in self.variables]
+            if math.prod(sizes) > MAX_POINTS:
+                raise ExpansionUnavailable(f"{math.prod(sizes)} integer points needed, at most {MAX_POINTS}")
             _FITS[key] = fit = _structural_fit(self.netlist, self.variables, opamp, sizes)
             # Checked once per structure, at unit values (well conditioned for the solver it is
             # checked against): the integer fit does not depend on the values.
@@ -486,12 +613,12 @@ class Expansion:
     # -- building -------------------------------------------------------------------------------
     def _scale(self, fit: "_Fit") -> None:
         """Scale the structural coefficients to the nominal values and to ``p = s/w_ref``."""
-        exps, den, num, low = fit.exps, fit.den, fit.num, fit.low
-        # in logs, so that nothing overflows
-        log_stamps = [v.log_stamp for v in self.variables]
-        if self.w_ref != 1.0 or any(log_stamps):  # (unit stamps and w_ref = 1, as unit_expansion's: nothing to scale)
-            log_stamp = np.array(log_stamps)
-            base = exps @ log_stamp  # (M,)
+        den, num, low = fit.den, fit.num, fit.low
+        # in logs, so that nothing overflows; nothing to scale when w_ref = 1 and every stamp is 1
+        # (unit_expansion's: its log stamps are all 0, the test below without the logs)
+        if self.w_ref != 1.0 or not all((2.0 * math.pi * v.value if v.kind == "gbw" else v.value) == 1.0 for v in self.variables):
+            log_stamp = np.array([v.log_stamp for v in self.variables])
+            base = fit.exps @ log_stamp  # (M,)
             log_w = math.log(self.w_ref)
             lden = base[:, None] + (np.arange(den.shape[1]) + low)[None, :] * log_w
             lnum = base[:, None] + (np.arange(num.shape[1]) + low)[None, :] * log_w
@@ -507,11 +634,10 @@ class Expansion:
         self._plan: _CoefficientPlan | None = None
         self._picks = None  # (:meth:`_opamp_picks`, made when first asked)
         # For :meth:`dense_log`: exponents over the log *ratios* (an inverse parameter's stamp is
-        # the reciprocal: its column negated), the log ratio that makes a stamp absent, and term
-        # matrices onto every power of p, highest first.
-        sign = np.array([-1.0 if v.inverse else 1.0 for v in self.variables])
-        self._exps_ratio = np.ascontiguousarray((fit.exps_f * sign[None, :]).T)  # (n_var, M)
-        self._absent_log = _LOG_ZERO * sign
+        # the reciprocal: its row negated), the log ratio that makes a stamp absent (the fit's,
+        # shared: read only), and term matrices onto every power of p, highest first.
+        self._exps_ratio = fit.exps_ratio
+        self._absent_log = fit.absent_log
         # (M, top + 1): every power of p, highest first (a power absent from the fit is a zero column)
         self._num_dense = np.ascontiguousarray(num[:, ::-1])
         self._den_dense = np.ascontiguousarray(den[:, ::-1])
@@ -666,8 +792,8 @@ class Expansion:
             if "gbw" not in kinds or "a0" not in kinds:
                 self._picks = (None,)
             else:
-                exps = self._fit.exps
-                gbw, a0 = exps[:, kinds.index("gbw")], exps[:, kinds.index("a0")]
+                exps_ratio = self._fit.exps_ratio  # (negated rows: the op-amp's stamps are reciprocals)
+                gbw, a0 = -exps_ratio[kinds.index("gbw")], -exps_ratio[kinds.index("a0")]
                 degree = self.variables[kinds.index("a0")].degree
                 power = np.arange(degree + 1)[:, None]
                 signs = np.where((gbw == 0)[None, :] & (a0[None, :] == power), (-1.0) ** power, 0.0)
@@ -720,8 +846,13 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = T
     key = (structure, opamp)
     exp = _UNIT.get(key)
     if exp is None:
-        if not fit and structure not in _FITS and _table_line(structure_hash(structure)) is None:
-            raise ExpansionUnavailable("not fitted yet")
+        if not fit and structure not in _FITS:
+            shipped = _table_fit(structure)  # looked up once here (_setup then finds it fitted)
+            if shipped is None:
+                raise ExpansionUnavailable("not fitted yet")
+            if isinstance(shipped, str):
+                raise ExpansionUnavailable(shipped)
+            _FITS[structure] = shipped
         exp = Expansion._at_unit(netlist, opamp, variables, structure)
         _UNIT[key] = exp
     return exp, variables
