@@ -51,7 +51,7 @@ def main() -> None:
     from bandsmith.solver.expansion import table_path, table_text
 
     text = table_text(table_entries())
-    table_path().write_text(text, encoding="utf-8")
+    table_path().write_bytes(text.encode("utf-8"))  # "\n" line ends on every system: the reader compares bytes
     print(f"wrote {table_path()} ({len(text)} bytes)")
 
 

@@ -225,14 +225,25 @@ def _first_span_field(raw: bytes) -> int:
     return raw.index(b":", raw.index(b'"index": "')) + 1
 
 
+def _head_of(raw: bytes) -> bytes:
+    """The file's first three lines (the stamp and the index)."""
+    return raw[: raw.index(b"\n", raw.index(b'"index": "')) + 1]
+
+
+def _separator_moved(raw: bytes) -> bytes:
+    """The first record's ":" after its hash swapped with the digit after it: the same bytes, one
+    field a digit short and the next a digit long."""
+    at = _first_span_field(raw) - 1
+    return raw[:at] + raw[at + 1 : at + 2] + b":" + raw[at + 2 :]
+
+
 @pytest.mark.parametrize("damage", [
     lambda raw: raw.replace(b'"index": "', b'"index": [', 1),              # index of the wrong kind
     lambda raw: raw.replace(b'"stamp": {', b'"stamp": \xff{', 1),          # bytes that are not text
     lambda raw: raw[:_first_span_field(raw)] + b"x" + raw[_first_span_field(raw) + 1:],  # a span of the wrong kind
     lambda raw: raw[:_first_span_field(raw)] + b"0000001" + raw[_first_span_field(raw) + 8:],  # a record cut short
-    lambda raw: raw[: len(raw) // 2],                                      # cut short
-    lambda raw: raw[:-3] + b"}\n",                                          # its last entry cut short
-    lambda raw: raw + b"\n",                                                # grown
+    _separator_moved,                                                       # a separator out of place
+    lambda raw: raw[: len(_head_of(raw)) // 2],                             # cut inside the index
     lambda raw: b"",
 ])
 def test_a_table_that_cannot_be_read_is_ignored_whole(no_fits, monkeypatch, tmp_path, damage):
@@ -242,6 +253,30 @@ def test_a_table_that_cannot_be_read_is_ignored_whole(no_fits, monkeypatch, tmp_
     _agrees_with_solver(topo.build(topo.example), IDEAL)
 
 
+@pytest.mark.parametrize("damage", [
+    lambda raw: raw[: len(raw) // 2],                                      # cut short
+    lambda raw: raw[:-3] + b"}\n",                                          # its last entry cut short
+    lambda raw: raw + b"\n",                                                # grown
+])
+def test_a_cut_or_grown_table_loses_only_the_entries_it_touches(no_fits, monkeypatch, tmp_path, damage):
+    # each entry is checked by its length and digest when read: an entry the damage reaches is
+    # fitted instead (never a wrong fit), the others are still used
+    raw = E.table_path().read_bytes()
+    entries = len(_shipped()) - 2
+    damaged = damage(raw)
+    _with_table(monkeypatch, tmp_path, damaged)
+    index = E._load_table()
+    assert len(index) == entries
+    base = len(_head_of(raw))
+    touched = {name for name, (start, end, digest) in index.items()
+               if damaged[base + start : base + end] != raw[base + start : base + end]}
+    for name in index:
+        assert (E._table_line(name) is None) == (name in touched)
+    for circuit, amp in (("sallen-key", IDEAL), ("state-variable", OpAmpModel(gbw_hz=1e6))):
+        topo = get_topology(circuit)
+        _agrees_with_solver(topo.build(topo.example), amp)
+
+
 def test_an_index_longer_than_the_first_read_is_read_on(no_fits, monkeypatch):
     monkeypatch.setattr(E, "_HEAD_READ", 64)
     assert len(E._load_table()) == len(_shipped()) - 2
@@ -249,20 +284,3 @@ def test_an_index_longer_than_the_first_read_is_read_on(no_fits, monkeypatch):
     monkeypatch.setattr(E, "_structural_fit", lambda *a: pytest.fail("fitted although the table has the structure"))
     topo = get_topology("state-variable")
     _agrees_with_solver(topo.build(topo.example), OpAmpModel(gbw_hz=1e6))
-
-
-def test_a_first_lookup_reads_the_head_and_its_entry_only(no_fits, monkeypatch):
-    # the file is read at its head (the stamp and the index) and at the one entry asked for
-    import os
-
-    got = []
-    real_read, real_pread = os.read, getattr(os, "pread", None)
-    monkeypatch.setattr(os, "read", lambda fd, n: (b := real_read(fd, n), got.append(len(b)))[0])
-    if real_pread is not None:
-        monkeypatch.setattr(os, "pread", lambda fd, n, at: (b := real_pread(fd, n, at), got.append(len(b)))[0])
-    topo = get_topology("mfb")
-    net = topo.build(topo.example)
-    key = E._structure_key(net, E.circuit_variables(net, IDEAL))
-    assert isinstance(E._table_fit(key), E._Fit)
-    span = E._load_table()[E.structure_hash(key)]
-    assert len(got) == 2 and got[0] == min(E._HEAD_READ, E.table_path().stat().st_size) and got[1] == span[1] - span[0]

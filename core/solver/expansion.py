@@ -180,16 +180,16 @@ _FITS: dict[tuple, _Fit] = {}
 # line, in the same order: "<hash>": "<entry>", the entry a string of space-separated fields
 # (:func:`_entry_text`: counts, powers, the exponent digits, and the nonzero coefficients as base64
 # of their float64 bits and int32 indices, so a fit read back is the one written) or
-# "unavailable: <reason>". A first use reads the file's head and the one entry it needs (a few
-# KB; the file is about 45), not the whole file, and parses no JSON: the stamp is compared as
-# bytes, the index checked by its layout and searched as bytes, the entry split as bytes.
+# "unavailable: <reason>". A first use reads the file's head (the stamp and the index, about 2 KB)
+# and the one entry it needs from one open file, not the whole file (about 50 KB: reading it
+# measured 30–50 µs more); nothing in it is parsed as JSON: the stamp is compared as bytes, the
+# index checked by its layout and searched as bytes, an entry split as bytes.
 TABLE_FILE = "expansions.json"
 TABLE_FORMAT = 4
-# The index (None: not read yet): (its records, where the entries' offsets count from), or ()
-# when the file is not usable as the table.
+# The index (None: not read yet): (its records, where the entries' offsets count from), or () when
+# the file is missing or not usable as the table.
 _TABLE: tuple | None = None
-# Bytes read first: the three header lines (about 1.9 KB for 32 entries); a longer index is read on.
-_HEAD_READ = 4096
+_HEAD_READ = 4096  # bytes read for the head (a longer index is read on)
 _RECORD = 56  # one index record: 20 + 8 + 8 + 16 hex digits, three ":" and a ";"
 _HEX = b"0123456789abcdef"
 # The stamp as the file's second line holds it: json.dumps(_table_stamp(), sort_keys=True) (a test
@@ -220,15 +220,6 @@ def table_path():
     return _TABLE_PATH
 
 
-def _shipped_file() -> str:
-    """:func:`table_path` as a str, made from the resources package's file name (the str of a
-    pathlib path costs a process's first use of it about 13 µs, this a few)."""
-    import bandsmith.resources
-
-    folder, sep, _ = bandsmith.resources.__file__.rpartition(os.sep)
-    return folder + sep + TABLE_FILE if sep else os.fspath(_TABLE_PATH)
-
-
 def _digest(entry: bytes) -> str:
     """The check of one entry's bytes in the table's index: BLAKE2b, an 8-byte digest (16 hex digits)."""
     import hashlib
@@ -236,113 +227,91 @@ def _digest(entry: bytes) -> str:
     return hashlib.blake2b(entry, digest_size=8).hexdigest()
 
 
+def _head(fh) -> bytes:
+    """The open table file's first three lines (the stamp and the index), and what follows them in
+    the same read."""
+    head = fh.read(_HEAD_READ)
+    while head.count(b"\n") < 3:
+        more = fh.read(_HEAD_READ)
+        if not more:
+            break
+        head += more
+    return head
+
+
+def _indexed(head: bytes) -> tuple:
+    """``(records, base)`` of a table file's head: its index records and where the entries'
+    offsets count from; () when it is not the table: another stamp, a header of another layout, or
+    an index record that is not four fields of hex digits with its separators in place. (Each
+    entry is checked by its length and digest when read: a file cut or changed further on loses
+    only the entries it touches.)"""
+    end = head.find(b"\n", len(_HEAD))
+    if end < 0 or not head.startswith(_HEAD) or not head[:end].endswith(b'",'):
+        return ()
+    records = head[len(_HEAD) : end - 2]
+    n = len(records) // _RECORD
+    # every record four fields of lowercase hex digits: with the digits deleted only the separators
+    # stay, and each separator sits where the fixed widths put it
+    if n == 0 or len(records) % _RECORD or records.translate(None, _HEX) != b":::;" * n:
+        return ()
+    if not (records[20::_RECORD] == records[29::_RECORD] == records[38::_RECORD] == b":" * n
+            and records[55::_RECORD] == b";" * n):
+        return ()
+    return (records, end + 1)
+
+
 def _load_table() -> dict:
     """The shipped table's index as ``{hash: (start, end, digest)}``: byte offsets of each entry
     (a JSON string) from the end of the index line, and the digest of its bytes. Empty when the file
-    is missing, stale (its stamp is not :func:`_table_stamp`) or not laid out as the table. Only
-    the head of the file is read (and kept); lookups use :func:`_span`."""
+    is missing, stale (its stamp is not :func:`_table_stamp`) or not laid out as the table."""
+    global _TABLE
     if _TABLE is None:
-        fd = _open_table()
-        if fd is not None:
-            os.close(fd)
+        try:
+            with open(table_path(), "rb") as fh:
+                _TABLE = _indexed(_head(fh))
+        except OSError:
+            _TABLE = ()
     if not _TABLE:
         return {}
     records = _TABLE[0]
-    out = {}
-    for at in range(0, len(records), _RECORD):
-        name = records[at : at + 20].decode("ascii")
-        out[name] = _span(name)
-    return out
+    return {name: _span(records, name) for name in (records[at : at + 20].decode("ascii") for at in range(0, len(records), _RECORD))}
 
 
-def _span(name: str) -> tuple[int, int, str] | None:
-    """``(start, end, digest)`` of entry ``name`` in the read index, or None."""
-    records = _TABLE[0]
-    key = name.encode("ascii", "replace") + b":"
-    at = records.find(key)
-    while at > 0 and at % _RECORD:  # (a hash only ever stands at a record's start; kept exact regardless)
-        at = records.find(key, at + 1)
-    if at < 0 or len(key) != 21:
+def _span(records: bytes, name: str) -> tuple[int, int, str] | None:
+    """``(start, end, digest)`` of entry ``name`` in the index ``records`` (checked by
+    :func:`_indexed`), or None. A name is 20 hex digits (:func:`structure_hash`), found only at a
+    record's start."""
+    at = records.find(name.encode("ascii", "replace") + b":")
+    if at < 0 or at % _RECORD or len(name) != 20:
         return None
     return int(records[at + 21 : at + 29], 16), int(records[at + 30 : at + 38], 16), records[at + 39 : at + 55].decode("ascii")
 
 
-def _open_table() -> int | None:
-    """Read and keep the shipped table's index if not yet read (:data:`_TABLE`); the open file (a
-    descriptor, for the caller to close) when the table is usable, else None."""
+def _table_line(name: str) -> bytes | None:
+    """The bytes of entry ``name`` in the shipped table (a JSON string), or None (not there, or its
+    bytes do not match their length and digest: a damaged or cut entry). The first call reads the
+    index too, from the same open file."""
     global _TABLE
-    path = table_path()
+    if _TABLE == ():
+        return None
+    span = None if _TABLE is None else _span(_TABLE[0], name)
+    if _TABLE is not None and span is None:
+        return None  # not there: the file is not opened
     try:
-        fd = os.open(_shipped_file() if path is _TABLE_PATH else path, os.O_RDONLY | getattr(os, "O_BINARY", 0))
+        with open(table_path(), "rb") as fh:
+            if _TABLE is None:
+                _TABLE = _indexed(_head(fh))
+                span = _span(_TABLE[0], name) if _TABLE else None
+                if span is None:
+                    return None
+            start, end, digest = span
+            fh.seek(_TABLE[1] + start)
+            line = fh.read(max(end - start, 0))
     except OSError:
         if _TABLE is None:
             _TABLE = ()
         return None
-    if _TABLE is None:
-        try:
-            _TABLE = _read_index(fd)
-        except Exception:  # noqa: BLE001 - whatever is wrong with the file, the fits are made instead
-            _TABLE = ()
-    if not _TABLE:
-        os.close(fd)
-        return None
-    return fd
-
-
-def _read_index(fd: int) -> tuple:
-    """``(records, base)`` of the open table file ``fd`` (:data:`_TABLE`); () when it is not the
-    table: another stamp, a header of another layout, an index record that is not four fields of
-    hex digits, or a file shorter or longer than its index says (cut, or grown)."""
-    size = os.fstat(fd).st_size
-    head = os.read(fd, _HEAD_READ)
-    prefix = _HEAD
-    end = head.find(b"\n", len(prefix))
-    while end < 0 and len(head) < size and prefix.startswith(head[: len(prefix)]):  # an index longer than the first read
-        more = os.read(fd, size - len(head))
-        if not more:
-            break
-        head += more
-        end = head.find(b"\n", len(prefix))
-    if end < 0 or not head.startswith(prefix) or not head[:end].endswith(b'",'):
-        return ()
-    records = head[len(prefix) : end - 2]
-    n = len(records) // _RECORD
-    # every record four fields of lowercase hex digits: with the digits deleted, only the separators stay
-    if n == 0 or len(records) % _RECORD or records.translate(None, _HEX) != b":::;" * n:
-        return ()
-    base = end + 1
-    last_end = int(records[-_RECORD + 30 : -_RECORD + 38], 16)
-    if last_end + len(b"\n}\n") != size - base:  # the last entry, then "\n}\n", ends the file
-        return ()
-    return (records, base)
-
-
-def _table_line(name: str) -> bytes | None:
-    """The bytes of entry ``name`` in the shipped table (a JSON string), or None (not there, not readable,
-    or its bytes do not match their digest). The first call reads the file's index as well, from
-    the same open file."""
-    span = None
-    if _TABLE is not None and (not _TABLE or (span := _span(name)) is None):
-        return None  # (not there: the file is not opened)
-    fd = _open_table()
-    if fd is None:
-        return None
-    try:
-        if span is None and (span := _span(name)) is None:
-            return None
-        start, end, digest = span
-        if end < start:
-            line = b""
-        elif hasattr(os, "pread"):
-            line = os.pread(fd, end - start, _TABLE[1] + start)
-        else:  # pragma: no cover - Windows
-            os.lseek(fd, _TABLE[1] + start, os.SEEK_SET)
-            line = os.read(fd, end - start)
-    except OSError:
-        return None
-    finally:
-        os.close(fd)
-    return line if len(line) == end - start and _digest(line) == digest else None
+    return line if end >= start and len(line) == end - start and _digest(line) == digest else None
 
 
 def _table_fit(key: tuple) -> "_Fit | str | None":
@@ -393,9 +362,9 @@ def _entry_fit(raw: bytes, kinds: list[str] | tuple[str, ...]) -> "_Fit | str | 
         return None
     n, low, num_powers, den_powers, digits, k_den, k_num, coefficients = raw[1:-1].split(b" ")
     n_var = len(kinds)
-    if int(n) != n_var or not digits or digits.translate(None, b"0123456789") or len(digits) % n_var:
+    if int(n) != n_var or not digits.isdigit() or len(digits) % n_var:  # (bytes: ASCII digits only, not empty)
         return None
-    exps_t = np.frombuffer(digits.translate(_DIGIT_VALUES), dtype=np.uint8).astype(float).reshape(n_var, -1)
+    exps_t = (np.frombuffer(digits, dtype=np.uint8).astype(float) - 48.0).reshape(n_var, -1)
     rows = exps_t.shape[1]
     k_den, k_num = int(k_den), int(k_num)
     blob = binascii.a2b_base64(coefficients, strict_mode=True)
@@ -408,10 +377,6 @@ def _entry_fit(raw: bytes, kinds: list[str] | tuple[str, ...]) -> "_Fit | str | 
     # (ascending views of the highest-first blocks: an expansion at unit values uses the blocks as they are)
     return _fit_of(exps_t, kinds, den_dense[:, ::-1], num_dense[:, ::-1], int(low),
                    (tuple(map(int, num_powers.split(b","))), tuple(map(int, den_powers.split(b",")))))
-
-
-# "0"…"9" → bytes 0…9 (bytes.translate): the exponent digits as their values, one byte each.
-_DIGIT_VALUES = bytes(range(48)) + bytes(range(10)) + bytes(range(58, 256))
 
 
 def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, str]:
@@ -524,7 +489,10 @@ def _fit_of(exps_t: np.ndarray, kinds: list[str] | tuple[str, ...], den: np.ndar
     # per variable: its sign (−1 for an inverse one) and the log ratio of an absent stamp (_LOG_ZERO · sign)
     signs = np.array([(-1.0, -_LOG_ZERO) if k in _INVERSE_KINDS else (1.0, _LOG_ZERO) for k in kinds])
     np.multiply(exps_t, signs[:, :1], out=exps_t)
-    return _Fit(exps_ratio=exps_t, absent_log=signs[:, 1], den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers)
+    absent_log = signs[:, 1]
+    exps_t.setflags(write=False)  # shared by every expansion of the structure
+    absent_log.setflags(write=False)
+    return _Fit(exps_ratio=exps_t, absent_log=absent_log, den=den, num=num, low=low, num_powers=num_powers, den_powers=den_powers)
 
 
 # Up to this batch size the monomials are exp(exponents @ log stamps) and the coefficients one
@@ -615,8 +583,8 @@ class Expansion:
         """Scale the structural coefficients to the nominal values and to ``p = s/w_ref``."""
         den, num, low = fit.den, fit.num, fit.low
         # in logs, so that nothing overflows; nothing to scale when w_ref = 1 and every stamp is 1
-        # (unit_expansion's: its log stamps are all 0, the test below without the logs)
-        if self.w_ref != 1.0 or not all((2.0 * math.pi * v.value if v.kind == "gbw" else v.value) == 1.0 for v in self.variables):
+        # (unit_expansion's: its log stamps are all 0)
+        if self.w_ref != 1.0 or any(v.log_stamp for v in self.variables):
             log_stamp = np.array([v.log_stamp for v in self.variables])
             base = fit.exps @ log_stamp  # (M,)
             log_w = math.log(self.w_ref)
