@@ -33,7 +33,8 @@ from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_a
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, node_rationals, rational_and_family, reference_w
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, lead_trimmed, node_rationals, rational_and_family, reference_w
+from bandsmith.solver.stability import routh_stable
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes, step_response
 
 __all__ = [
@@ -267,13 +268,12 @@ def is_stable(h: Rational, i: int = 0) -> bool:
     A second-order denominator ``a2·p² + a1·p + a0`` has its poles in closed form (a complex
     pair's real part ``−a1/(2·a2)`` and size ``√(a0/a2)``; real poles by the cancellation-free
     quadratic formula), the same test without an eigenvalue call. Any other is first tried by
-    Routh–Hurwitz (:func:`_routh_stable`), which settles it only where every entry of the first
-    column is positive and none came out of a near-cancellation (a pair of poles close to the axis,
-    where rounding in the array could hide a pole just beyond it); everywhere else the poles of
-    :meth:`~bandsmith.solver.rational.Rational.poles` decide, to the same 1e-9."""
-    den = h.den[i].tolist()
-    while len(den) > 1 and den[0] == 0:
-        den = den[1:]
+    Routh–Hurwitz (:func:`bandsmith.solver.stability.routh_stable`), which settles it only where
+    every entry of the first column is positive and none came out of a near-cancellation (a pair
+    of poles close to the axis, where rounding in the array could hide a pole just beyond it);
+    everywhere else the poles of :meth:`~bandsmith.solver.rational.Rational.poles` decide, to the
+    same 1e-9."""
+    den = lead_trimmed(h.den[i].tolist())
     if len(den) == 3 and den[2] != 0:
         a2, a1, a0 = den
         disc = a1 * a1 - 4.0 * a2 * a0
@@ -281,44 +281,10 @@ def is_stable(h: Rational, i: int = 0) -> bool:
             return -a1 / (2.0 * a2) < 1e-9 * math.sqrt(a0 / a2)
         q = -0.5 * (a1 + math.copysign(math.sqrt(disc), a1))
         return q != 0 and q / a2 < 0 and a0 / q < 0  # both real poles negative (a zero pole is not)
-    if len(den) > 3 and _routh_stable(den):
+    if len(den) > 3 and routh_stable(den):
         return True
     p = h.poles(i)
     return bool(np.all(p.real < 1e-9 * np.abs(p))) if p.size else True
-
-
-# A first-column entry of the Routh array formed as u − v with u − v below this share of |u| or
-# |v| came out of a near-cancellation: its sign is not trusted (is_stable then takes the poles).
-_ROUTH_CANCELLATION = 1e-4
-
-
-def _routh_stable(den: list[float]) -> bool:
-    """True when the first column of the Routh array of ``den`` (highest power first, leading
-    coefficient nonzero) is all positive after dividing by the leading coefficient, each entry
-    clear of cancellation: every root in the open left half-plane (E. J. Routh, *A Treatise on
-    the Stability of a Given State of Motion*, 1877). The rows of
-    :func:`bandsmith.solver.stability.hurwitz_stable` for one polynomial, in Python floats (a
-    handful of coefficients: cheaper than arrays). False — "not settled here" — for a zero, a
-    negative or a non-finite entry, and for an entry ``u − v`` smaller than
-    :data:`_ROUTH_CANCELLATION` of ``max(|u|, |v|)``: with a repeated pair of poles near the axis,
-    rounding in the rows can leave the column positive while a pole lies just beyond the axis."""
-    lead = den[0]
-    a = [c / lead for c in den]
-    if not all(math.isfinite(c) for c in a):
-        return False
-    r0, r1 = a[0::2], a[1::2]
-    for _ in range(len(a) - 1):
-        first = r1[0] if r1 else 0.0
-        if not first > 0:
-            return False
-        r1_rest = r1[1:] + [0.0] * (len(r0) - len(r1))
-        if len(r0) > 1:  # the next row's first entry, (u − v)/first: trusted only clear of cancellation
-            u, v = first * r0[1], r0[0] * r1_rest[0]
-            if not u - v > _ROUTH_CANCELLATION * max(abs(u), abs(v)):
-                return False
-        nxt = [(first * r0[k + 1] - r0[0] * r1_rest[k]) / first for k in range(len(r0) - 1)]
-        r0, r1 = r1, nxt
-    return True
 
 
 def opamp_output_current(
@@ -344,12 +310,11 @@ def amplifier_needs(
 ) -> tuple[AmplifierNeeds, ...]:
     """Each amplifier's output swing, slew rates and output current (ideal op-amps).
 
-    The exact transfer functions from the input to every op-amp's output node and output current
+    The exact transfer functions from the input to every op-amp's output node
     (:func:`bandsmith.solver.rational.node_rationals`, one set of samples) give the step slew of
-    each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes`), and the circuit solved
-    at f0 in the same batch gives the values there; with a load, one solve of the loaded circuit
-    at f0 gives the values. ``vin_v`` is the input's
-    peak (V).
+    each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes`); the circuit solved at f0
+    in the same batch gives each output's voltage and current there (with a load, one solve of the
+    loaded circuit at f0). ``vin_v`` is the input's peak (V).
     """
     if not math.isfinite(f0_hz):
         return tuple(AmplifierNeeds(e.ref, e.nodes[2], math.nan, math.nan, math.nan, math.nan) for e in netlist.opamps)
@@ -496,8 +461,7 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     # unit nominal values: the ratios are the values (an op-amp's are 1: stamps of 1); member
     # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
     rows = n_ideal + 1 if one else n_ideal
-    lr = np.log([v.value / u.value for v, u in zip(variables, exp.variables)]) + _sensitivity_steps(
-        rows, len(variables), tuple(col[r] for r in refs))
+    lr = exp.log_ratios(variables) + _sensitivity_steps(rows, len(variables), tuple(col[r] for r in refs))
     if one:
         num, den = exp.dense_log(lr, absent=_absent_mask(rows, len(variables), col["gbw"], col["a0"]))
     else:

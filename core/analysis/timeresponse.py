@@ -19,7 +19,7 @@ from typing import Sequence
 import numpy as np
 
 from bandsmith.solver.polyroots import companion_roots
-from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
+from bandsmith.solver.rational import Rational, lead_trimmed, polyder_batch, polyval_batch
 
 __all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
 
@@ -217,13 +217,6 @@ def _second_order_slope(b: Sequence[float], a: Sequence[float]) -> float | None:
     return best
 
 
-def _leading_zeros_dropped(values: list[float]) -> list[float]:
-    """Coefficients (highest power first) from the first nonzero one on (the last one if all are
-    zero): :meth:`~bandsmith.solver.rational.Rational.item`'s trim of one row, on a list."""
-    first = next((k for k, v in enumerate(values) if v != 0), len(values) - 1)
-    return values[first:]
-
-
 def _powers(w_ref: float, n: int) -> list[float]:
     """``w_ref^−(n−1)``, …, ``w_ref^−1``, ``1``: the factors that turn coefficients in ``p = s/w_ref``
     into coefficients in ``s`` (``c_k·p^k = (c_k/w_ref^k)·s^k``), formed by numpy as
@@ -261,7 +254,7 @@ def max_step_slopes(h: Rational) -> list[float]:
     width = max(h.num.shape[1], h.den.shape[1])
     powers: dict[float, list[float]] = {}
     for i, (num_row, den_row, w) in enumerate(zip(h.num.tolist(), h.den.tolist(), h.w_ref.tolist())):
-        num, den = _leading_zeros_dropped(num_row), _leading_zeros_dropped(den_row)  # Rational.item's
+        num, den = lead_trimmed(num_row), lead_trimmed(den_row)  # Rational.item's
         slope = _pure_bandpass_slope(num, den, w)
         if slope is None:
             if w not in powers:
@@ -308,7 +301,7 @@ def max_step_slope(h: Rational, *, i: int = 0) -> float:
     ``max_slope_per_s``. The closed forms work on lists of the member's coefficients.
     """
     w = float(h.w_ref[i])
-    num, den = _leading_zeros_dropped(h.num[i].tolist()), _leading_zeros_dropped(h.den[i].tolist())
+    num, den = lead_trimmed(h.num[i].tolist()), lead_trimmed(h.den[i].tolist())
     slope = _pure_bandpass_slope(num, den, w)
     if slope is None:
         slope = _second_order_slope(*_in_s(num, den, _powers(w, max(len(num), len(den)))))

@@ -72,7 +72,7 @@ def several_amp_family(netlist: Netlist, w_ref: float) -> AmpFamily | None:
         exp, variables = unit_expansion(netlist, UNIT_OPAMP, fit=False)
     except ExpansionUnavailable:
         exp = None
-    terms = None if exp is None else exp.opamp_terms(np.log([v.value / u.value for v, u in zip(variables, exp.variables)]))
+    terms = None if exp is None else exp.opamp_terms(exp.log_ratios(variables))
     if terms is None:
         return amp_family(nominal_system(netlist), w_ref)
     num, den = terms

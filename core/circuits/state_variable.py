@@ -98,20 +98,15 @@ def _unit(spec: Spec, c1: float, c2: float, ratio: float | None) -> dict[str, fl
     r = math.sqrt(k) / (w * math.sqrt(c1 * c2))
     # ω0/Q = (1 + k)/(R2·Gs·R·C1), so R2·Gs = (1 + k)·Q/(ω0·R·C1)
     r2gs = (1.0 + k) * spec.q / (w * r * c1)
-    spare = r2gs - 1.0 - spec.gain  # R2/R7
-    if not r2gs - 1.0 > 0:  # no gain at all is left (Q of 0.5 or below with equal capacitors)
-        raise Infeasible(
-            f"the state-variable band-pass's centre gain is tied to Q: with these capacitors it reaches "
-            f"at most {r2gs - 1.0:.4g} (2·Q − 1 = {2.0 * spec.q - 1.0:.4g} with equal capacitors), so at Q "
-            f"{spec.q:.4g} it gives no gain at all; choose another circuit"
-        )
+    most = r2gs - 1.0  # the largest centre gain these capacitors allow
+    spare = most - spec.gain  # R2/R7
     if not spare > 0:
-        raise Infeasible(
-            f"the state-variable band-pass's centre gain is tied to Q: with these capacitors it reaches "
-            f"at most {r2gs - 1.0:.4g} (2·Q − 1 = {2.0 * spec.q - 1.0:.4g} with equal capacitors), and "
-            f"{spec.gain:.4g} was asked; design for gain {r2gs - 1.0:.4g} and add a gain stage of "
-            f"{spec.gain / (r2gs - 1.0):.4g}, or choose another circuit"
-        )
+        tied = (f"the state-variable band-pass's centre gain is tied to Q: with these capacitors it reaches "
+                f"at most {most:.4g} (2·Q − 1 = {2.0 * spec.q - 1.0:.4g} with equal capacitors), ")
+        if not most > 0:  # no gain at all (Q of 0.5 or below with equal capacitors)
+            raise Infeasible(tied + f"so at Q {spec.q:.4g} it gives no gain at all; choose another circuit")
+        raise Infeasible(tied + f"and {spec.gain:.4g} was asked; design for gain {most:.4g} and add a gain stage of "
+                         f"{spec.gain / most:.4g}, or choose another circuit")
     # R1 = R2/G, R7 = R2/spare: their geometric mean with R2 put at R
     r2 = r * (spec.gain * spare) ** (1.0 / 3.0)
     return {"R1": r2 / spec.gain, "R2": r2, "R7": r2 / spare, "R3": r, "R4": r, "C1": c1, "C2": c2}

@@ -260,20 +260,30 @@ def _indexed(head: bytes) -> tuple:
     return (records, end + 1)
 
 
+def _read_index(fh=None) -> tuple:
+    """:data:`_TABLE`, the index read at first use: from ``fh`` (the table file, open) when the
+    caller has it open, else from the file opened here; () when it cannot be read."""
+    global _TABLE
+    if _TABLE is None:
+        try:
+            if fh is not None:
+                _TABLE = _indexed(_head(fh))
+            else:
+                with open(table_path(), "rb") as f:
+                    _TABLE = _indexed(_head(f))
+        except OSError:
+            _TABLE = ()
+    return _TABLE
+
+
 def _load_table() -> dict:
     """The shipped table's index as ``{hash: (start, end, digest)}``: byte offsets of each entry
     (a JSON string) from the end of the index line, and the digest of its bytes. Empty when the file
     is missing, stale (its stamp is not :func:`_table_stamp`) or not laid out as the table."""
-    global _TABLE
-    if _TABLE is None:
-        try:
-            with open(table_path(), "rb") as fh:
-                _TABLE = _indexed(_head(fh))
-        except OSError:
-            _TABLE = ()
-    if not _TABLE:
+    table = _read_index()
+    if not table:
         return {}
-    records = _TABLE[0]
+    records = table[0]
     return {name: _span(records, name) for name in (records[at : at + 20].decode("ascii") for at in range(0, len(records), _RECORD))}
 
 
@@ -291,25 +301,19 @@ def _table_line(name: str) -> bytes | None:
     """The bytes of entry ``name`` in the shipped table (a JSON string), or None (not there, or its
     bytes do not match their length and digest: a damaged or cut entry). The first call reads the
     index too, from the same open file."""
-    global _TABLE
-    if _TABLE == ():
-        return None
-    span = None if _TABLE is None else _span(_TABLE[0], name)
-    if _TABLE is not None and span is None:
-        return None  # not there: the file is not opened
+    if _TABLE is not None and (not _TABLE or _span(_TABLE[0], name) is None):
+        return None  # not usable, or not there: the file is not opened
     try:
         with open(table_path(), "rb") as fh:
-            if _TABLE is None:
-                _TABLE = _indexed(_head(fh))
-                span = _span(_TABLE[0], name) if _TABLE else None
-                if span is None:
-                    return None
+            table = _read_index(fh)
+            span = _span(table[0], name) if table else None
+            if span is None:
+                return None
             start, end, digest = span
-            fh.seek(_TABLE[1] + start)
+            fh.seek(table[1] + start)
             line = fh.read(max(end - start, 0))
     except OSError:
-        if _TABLE is None:
-            _TABLE = ()
+        _read_index()  # (a file that cannot be opened is not tried again)
         return None
     return line if end >= start and len(line) == end - start and _digest(line) == digest else None
 
@@ -712,6 +716,12 @@ class Expansion:
             num *= k ** np.arange(num.shape[1] - 1, -1, -1.0)
             den *= k ** np.arange(den.shape[1] - 1, -1, -1.0)
         return num, den
+
+    def log_ratios(self, variables: tuple[Variable, ...]) -> np.ndarray:
+        """The natural logs of a circuit's own values over this expansion's (``variables`` as
+        :func:`unit_expansion` returns them beside it, in its order): ``(n_var,)``, what
+        :meth:`dense_log` and :meth:`opamp_terms` take for one member."""
+        return np.log([v.value / u.value for v, u in zip(variables, self.variables)])
 
     def dense_log(self, log_ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`dense` from the natural logs of the ratios (any batch size, the expansion's

@@ -211,6 +211,13 @@ def _degree_bound(system: MnaSystem) -> int:
     return int(np.count_nonzero(np.any(system.C != 0, axis=(0, 2))))
 
 
+def lead_trimmed(values: list[float]) -> list[float]:
+    """One polynomial's coefficients (highest power first, a list) from the first nonzero one on,
+    the last one kept if all are zero: :meth:`Rational.item`'s trim of one row, in plain floats."""
+    first = next((k for k, v in enumerate(values) if v != 0), len(values) - 1)
+    return values[first:]
+
+
 def _lead_trim(c: np.ndarray, expected: int = 0) -> np.ndarray:
     """Drop leading columns that are zero in every row (keeps at least one column).
 
@@ -511,10 +518,9 @@ def _family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
     """``C(j, i)·(−β)^i·(−α)^(j−i)`` for every pair of :func:`_family_pairs`: ``(B, pairs)``.
 
     Each power of ``−β`` and ``−α`` is taken once (``m + 1`` of each), then picked per pair; an
-    ``α`` of one value (one open-loop gain for the whole ladder, shape ``(1,)``) is raised once."""
+    ``α`` of one value (one open-loop gain for the whole ladder, shape ``(1,)``: :meth:`AmpFamily.at`
+    passes it so) is raised once and broadcast."""
     _, i_pow, rest, comb = _family_pairs(m)
-    if alpha.ndim == 1 and alpha.size > 1 and alpha.strides[0] == 0:
-        alpha = alpha[:1]  # the same number in every member: its powers broadcast below
     nb, na = -beta, -alpha
     pb = np.empty((nb.size, m + 1))
     pa = np.empty((na.size, m + 1))

@@ -1,14 +1,17 @@
 """Stability of batched polynomials: Routh–Hurwitz, with no root finding.
 
 Used by the design search (an unstable combination is never chosen) and the tolerance spread (an
-unstable trial fails).
+unstable trial fails); :func:`routh_stable`, one polynomial in plain floats that says "stable"
+only where no entry came out of a near-cancellation, by the analysis's stability check.
 """
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
-__all__ = ["hurwitz_stable"]
+__all__ = ["hurwitz_stable", "routh_stable"]
 
 
 def hurwitz_stable(den: np.ndarray) -> np.ndarray:
@@ -48,3 +51,36 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
             nxt[:, :-1] = (first[:, None] * r0[:, 1:] - r0[:, :1] * r1[:, 1:]) / safe[:, None]
             r0, r1 = r1, nxt
     return ok
+
+
+# A first-column entry of the Routh array formed as u − v with u − v below this share of |u| or
+# |v| came out of a near-cancellation: its sign is not trusted (the caller then takes the poles).
+_ROUTH_CANCELLATION = 1e-4
+
+
+def routh_stable(den: list[float]) -> bool:
+    """True when the first column of the Routh array of ``den`` (highest power first, leading
+    coefficient nonzero) is all positive after dividing by the leading coefficient, each entry
+    clear of cancellation: every root in the open left half-plane (E. J. Routh, *A Treatise on
+    the Stability of a Given State of Motion*, 1877). The rows of :func:`hurwitz_stable` for one
+    polynomial, in Python floats (a handful of coefficients: cheaper than arrays). False — "not settled here" — for a zero, a
+    negative or a non-finite entry, and for an entry ``u − v`` smaller than
+    :data:`_ROUTH_CANCELLATION` of ``max(|u|, |v|)``: with a repeated pair of poles near the axis,
+    rounding in the rows can leave the column positive while a pole lies just beyond the axis."""
+    lead = den[0]
+    a = [c / lead for c in den]
+    if not all(math.isfinite(c) for c in a):
+        return False
+    r0, r1 = a[0::2], a[1::2]
+    for _ in range(len(a) - 1):
+        first = r1[0] if r1 else 0.0
+        if not first > 0:
+            return False
+        r1_rest = r1[1:] + [0.0] * (len(r0) - len(r1))
+        if len(r0) > 1:  # the next row's first entry, (u − v)/first: trusted only clear of cancellation
+            u, v = first * r0[1], r0[0] * r1_rest[0]
+            if not u - v > _ROUTH_CANCELLATION * max(abs(u), abs(v)):
+                return False
+        nxt = [(first * r0[k + 1] - r0[0] * r1_rest[k]) / first for k in range(len(r0) - 1)]
+        r0, r1 = r1, nxt
+    return True
