@@ -79,3 +79,33 @@ def test_an_all_zero_denominator_gives_no_slope_rather_than_an_error():
         h = Rational(np.array([[1.0, 0.0]]), np.array([den]), np.array([1e3]))
         assert max_step_slope(h) == 0.0
         assert max_step_slopes(h) == [0.0]
+
+
+def _circuits():
+    from bandsmith.circuits import topology_ids
+
+    return topology_ids()
+
+
+@pytest.mark.parametrize("circuit", _circuits())
+@pytest.mark.parametrize("gbw_hz", [1e6, 2e5])
+def test_step_response_with_finite_op_amps_matches_scipy(circuit, gbw_hz):
+    # Every circuit's example with single-pole op-amps: real op-amp poles beside the complex pair
+    # (or a second real pair), each summed in its own form by the modal step response; against
+    # scipy.signal.step and scipy.signal.impulse (matrix exponential of a state-space form) on the
+    # same (b, a) and the same times.
+    from bandsmith.circuits import get_topology
+    from bandsmith.design.candidate import Candidate, Conditions
+
+    values = dict(get_topology(circuit).example)
+    an = Candidate(circuit, values).analyze(Conditions(gbw_hz=gbw_hz))
+    h = an.h_actual
+    got = step_response(h)
+    b, a = h.to_s()
+    sys = scipy.signal.lti(b, a)
+    t = got.t_s
+    y = scipy.signal.step(sys, T=t)[1]
+    imp = scipy.signal.impulse(sys, T=t)[1]
+    scale_y, scale_h = np.max(np.abs(y)), np.max(np.abs(imp))
+    np.testing.assert_allclose(got.y, y, atol=1e-7 * scale_y)
+    np.testing.assert_allclose(got.slope_per_s, imp, atol=1e-7 * scale_h)

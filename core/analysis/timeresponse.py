@@ -75,25 +75,68 @@ _UNDERFLOW = -746.0
 
 def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
     """Step and impulse responses from simple poles ``p`` (the roots of ``a``):
-    ``r_i = N(λ_i)/D'(λ_i)`` after division."""
+    ``r_i = N(λ_i)/D'(λ_i)`` after division.
+
+    A real polynomial's complex poles come in conjugate pairs whose terms are conjugate, so each
+    pair ``σ ± jω`` counts once, twice the real part of its upper pole's term: with ``2r = A + jB``
+    and ``2r/λ = C + jD``, ``h = e^{σt}·(A·cos ωt − B·sin ωt)`` and
+    ``y = e^{σt}·(C·cos ωt − D·sin ωt) − C``. A real pole (an op-amp's, mostly) gives
+    ``h = r·e^{λt}`` and ``y = (r/λ)·(e^{λt} − 1)``; ``y`` starts from the direct term ``D_∞``.
+    All in real arithmetic, each pole's row over the times at once.
+    """
     direct = 0.0
     if b.size >= a.size:
         quotient, b = _polydiv(b, a)
         direct = float(quotient[-1])
-    # A real polynomial's complex poles come in conjugate pairs whose terms are conjugate: keep
-    # the upper one of each pair, twice its real part.
     p = p[p.imag >= 0]
-    at = p[None, :]
-    r = polyval_batch(b[None, :], at)[0] / polyval_batch(polyder_batch(a[None, :]), at)[0]
-    r *= np.where(p.imag > 0, 2.0, 1.0)
-    # exp(x + iy) is exactly zero below x ≈ −745.13 (half the smallest subnormal, e^−744.44): a
-    # fast op-amp pole underflows over most of the grid, where exp takes its slow path for nothing
-    z = t[:, None] * p
-    e = np.zeros_like(z)
-    np.exp(z, out=e, where=z.real >= _UNDERFLOW)
-    h = (e @ r).real
-    y = ((e - 1.0) @ (r / p)).real + direct
+    r = np.array(_residues(b.tolist(), a.tolist(), p.tolist()), dtype=complex)
+    pair = p.imag > 0
+    h = np.zeros(t.size)
+    y = np.full(t.size, direct)
+    if not pair.all():  # real poles: r and λ real (a real point keeps a zero imaginary part)
+        lam, rr = p.real[~pair], r.real[~pair]
+        e = _decay(lam[:, None] * t)  # (poles, times)
+        h += rr @ e
+        e -= 1.0
+        y += (rr / lam) @ e
+    if pair.any():
+        lam, twice = p[pair], 2.0 * r[pair]
+        over = twice / lam
+        e = _decay(lam.real[:, None] * t)
+        wt = lam.imag[:, None] * t
+        c = np.cos(wt)
+        c *= e
+        s = np.sin(wt)
+        s *= e
+        h += twice.real @ c - twice.imag @ s
+        y += over.real @ c - over.imag @ s - over.real.sum()
     return y, h
+
+
+def _residues(b: list[float], a: list[float], poles: list[complex]) -> list[complex]:
+    """``N(λ)/D'(λ)`` at each of a handful of simple poles (Horner's rule on plain numbers; the
+    coefficients highest power first, ``b`` of lower degree than ``a``)."""
+    n = len(a) - 1
+    da = [c * (n - k) for k, c in enumerate(a[:-1])]  # D'
+    out = []
+    for lam in poles:
+        num = 0j
+        for c in b:
+            num = num * lam + c
+        den = 0j
+        for c in da:
+            den = den * lam + c
+        out.append(num / den)
+    return out
+
+
+def _decay(x: np.ndarray) -> np.ndarray:
+    """``exp(x)`` (real), taken only where ``x ≥ −746`` and zero elsewhere: ``exp`` is exactly
+    zero below ``−745.13`` (half the smallest subnormal, ``e^−744.44``), and a fast op-amp pole
+    underflows over most of a step's time grid, where ``exp`` would take its slow path for nothing."""
+    e = np.zeros_like(x)
+    np.exp(x, out=e, where=x >= _UNDERFLOW)
+    return e
 
 
 def _state_space(b: np.ndarray, a: np.ndarray, t: np.ndarray):
