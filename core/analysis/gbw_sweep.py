@@ -17,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from bandsmith.analysis.tolerances import Tolerances
+from bandsmith.common.grids import geometric
 from bandsmith.analysis.gbw_search import with_gbw
 from bandsmith.analysis.transfer import nominal_system
 from bandsmith.common.limits import DEFAULT_A0
@@ -68,7 +69,7 @@ def gbw_ladder(f0_hz: float, *, lo_hz: float | None = None, hi_hz: float | None 
         lo = min(lo, lo_hz)
     if hi_hz is not None and math.isfinite(hi_hz) and hi_hz > 0:
         hi = max(hi, hi_hz)
-    return np.geomspace(lo, hi, n)
+    return geometric(lo, hi, n)
 
 
 def gbw_error_sweep(
