@@ -5,6 +5,8 @@
 - Monte Carlo trials measured by the closed-form roots: the same figures (1e-12 relative) and the
   same pass/fail as the tracked-grid search they replace.
 - One BLAS thread: a thread count the user set in the environment is kept.
+- The MNA pencil stamped by ranks (``mna.build_system``): bit for bit the pencil of adding every
+  stamp of ``mna._stamps`` in turn, signed zeros included.
 """
 
 import csv
@@ -289,3 +291,57 @@ def test_node_rationals_writes_out_the_sampled_solve_bit_for_bit(circuit):
     assert np.array_equal(node_rationals(system, idx, w).num, h.num)
     x_ref = np.linalg.solve(system.G[0] + 2j * math.pi * 2e3 * system.C[0], one.source_vector().astype(complex))
     assert_allclose(x0, x_ref, rtol=1e-13, atol=0)
+
+
+def _stamped_one_by_one(netlist, opamp, overrides):
+    """The pencil of adding each stamp of ``mna._stamps`` in turn, as the module notes write it."""
+    from bandsmith.solver.mna import MnaLayout, _stamps
+
+    layout = MnaLayout.of(netlist)
+    over = overrides or {}
+    size = max([1] + [np.size(v) for v in over.values()])
+    n = layout.size
+    G, C = np.zeros((size, n, n)), np.zeros((size, n, n))
+    parts = {e.ref: e for e in netlist.elements}
+    for which, i, j, sign, q in _stamps(netlist, layout):
+        m = G if which == "G" else C
+        if q is None:
+            y = 1.0
+        else:
+            kind, ref = q
+            if kind in ("a0", "wt"):
+                if opamp.ideal:
+                    continue
+                y = 1.0 / opamp.a0 if kind == "a0" else 1.0 / (2.0 * np.pi * opamp.gbw_hz)
+            elif kind == "rs":
+                e = parts[ref]
+                y = over.get(ref + ".rs", over.get(e.series_ref, e.series_resistance) if e.series_ref else e.series_resistance)
+            else:
+                v = over.get(ref, parts[ref].value)
+                y = 1.0 / np.asarray(v, dtype=float) if kind == "g" else v
+        y = np.broadcast_to(np.asarray(y, dtype=float), (size,))
+        if sign > 0:
+            m[:, i, j] += y
+        else:
+            m[:, i, j] -= y
+    return G, C
+
+
+@pytest.mark.parametrize("circuit", ["rlc-tank", "mfb", "sallen-key", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_the_pencil_by_ranks_is_every_stamp_added_in_turn(circuit):
+    from bandsmith.solver.mna import build_system
+
+    topo = get_topology(circuit)
+    values = topo.values_from(dict(topo.example))
+    netlist = topo.build(values)
+    rng = np.random.default_rng(7)
+    cases = [None, {e.ref: rng.uniform(0.5, 2.0, 9) * e.value for e in netlist.passives}]
+    if any(e.kind == "L" for e in netlist.elements):
+        cases.append({"RL": np.array([0.0, 1.0, 7.0])})  # a zero winding resistance: a signed zero to keep
+    for opamp in (IDEAL, OpAmpModel(2e6, 3e5)):
+        for over in cases:
+            got = build_system(netlist, opamp, overrides=over)
+            want_g, want_c = _stamped_one_by_one(netlist, opamp, over)
+            for a, b in ((got.G, want_g), (got.C, want_c)):
+                assert_array_equal(a, b)
+                assert_array_equal(np.signbit(a), np.signbit(b))

@@ -145,30 +145,6 @@ class MnaSystem:
         return self.solve(s)[..., self.output_index]
 
 
-def _batch_values(netlist: Netlist, overrides: Mapping[str, np.ndarray | float] | None) -> tuple[dict, int]:
-    overrides = dict(overrides or {})
-    size = 1
-    for v in overrides.values():
-        size = max(size, np.size(v))
-    vals = {}
-    for e in netlist.passives:
-        v = overrides.get(e.ref, e.value)
-        vals[e.ref] = _column(v, size)
-        if e.kind == "L":
-            key = e.ref + ".rs"
-            given = overrides.get(e.series_ref, e.series_resistance) if e.series_ref else e.series_resistance
-            vals[key] = _column(overrides.get(key, given), size)
-    return vals, size
-
-
-def _column(v, size: int) -> np.ndarray:
-    """A value or a ``(size,)`` array as a ``(size,)`` float array (np.full for a scalar: quicker
-    than broadcast_to at these sizes)."""
-    if isinstance(v, (int, float)):
-        return np.full(size, float(v))
-    return np.broadcast_to(np.asarray(v, dtype=float), (size,))
-
-
 def build_system(
     netlist: Netlist,
     opamp: OpAmpModel = IDEAL,
@@ -196,53 +172,132 @@ def build_system(
     MnaSystem
         ``G`` and ``C`` of shape ``(B, n, n)``.
     """
-    layout = MnaLayout.of(netlist)
-    vals, size = _batch_values(netlist, overrides)
-    if gbw_hz is not None:
-        size = max(size, np.size(gbw_hz))
-    if a0 is not None:
-        size = max(size, np.size(a0))
-    n = layout.size
-    G = np.zeros((size, n, n))
-    C = np.zeros((size, n, n))
     gbw = gbw_hz if gbw_hz is not None else opamp.gbw_hz
     gain0 = a0 if a0 is not None else opamp.a0
-
-    def quantity(kind: str, ref: str) -> np.ndarray:
-        if kind == "g":
-            return 1.0 / vals[ref]
-        if kind == "rs":
-            return vals[ref + ".rs"]
-        if kind == "a0":
-            return 1.0 / np.broadcast_to(np.asarray(gain0, float), (size,))
-        if kind == "wt":
-            return 1.0 / (2.0 * np.pi * np.broadcast_to(np.asarray(gbw, float), (size,)))
-        return vals[ref]  # "c", "l"
-
-    known: dict[tuple[str, str], np.ndarray] = {}
-    for which, i, j, sign, q in _stamps(netlist, layout):
-        m = G if which == "G" else C
-        if q is None:
-            m[:, i, j] += sign
-            continue
-        if q[0] in _OPAMP_TERMS and gbw is None:
-            continue  # the ideal op-amp: 1/A0 = 1/ωt = 0
-        y = known.get(q)
-        if y is None:
-            y = known[q] = quantity(*q)
-        if sign > 0:
-            m[:, i, j] += y
-        else:
-            m[:, i, j] -= y
-
+    plan = _plan(netlist, gbw is None)
+    layout, n = plan.layout, plan.layout.size
+    columns, size = _quantities(netlist, plan.quantities, overrides, gbw, gain0)
+    values = np.empty((size, len(columns) + 1))
+    for k, col in enumerate(columns):
+        values[:, k] = col
+    values[:, -1] = 1.0  # the constant stamps
+    G = np.zeros((size, n * n))
+    C = np.zeros((size, n * n))
+    for m, ranks in ((G, plan.g_ranks), (C, plan.c_ranks)):
+        for flat, cols, signs in ranks:  # the r-th stamp of each entry that has one: unique entries
+            m[:, flat] += values[:, cols] * signs
     terms = []
-    for e in netlist.opamps:
-        row, col = layout.opamp_row[e.ref], layout.node_index[e.nodes[2]]
-        if gbw is None:
+    for row, col, a0_k, wt_k in plan.amp_columns:
+        if a0_k is None:
             terms.append((row, col, np.zeros(size), np.zeros(size)))
         else:
-            terms.append((row, col, known[("a0", e.ref)], known[("wt", e.ref)]))
-    return MnaSystem(G, C, layout, layout.node_index[netlist.output], tuple(terms))
+            terms.append((row, col, values[:, a0_k].copy(), values[:, wt_k].copy()))
+    return MnaSystem(G.reshape(size, n, n), C.reshape(size, n, n), layout, layout.node_index[netlist.output], tuple(terms))
+
+
+@dataclass(frozen=True, slots=True)
+class _Plan:
+    """How a netlist's structure stamps its pencil (:func:`_plan`): the layout, the quantities in
+    column order (``(kind, ref)`` as :func:`_stamps` names them), and per matrix its stamps in
+    *ranks*: rank ``r`` holds, for every entry with at least ``r`` stamps, its ``r``-th one in
+    stamping order, as ``(flat entries, quantity columns, signs)`` (the constant 1 is the column
+    after the quantities). Adding the ranks in turn adds each entry's stamps in stamping order,
+    the very sums of stamping one at a time, with a few array operations. ``amp_columns`` holds
+    each op-amp's ``(row, column, 1/A0 column, 1/ωt column)`` (None for the ideal op-amp)."""
+
+    layout: MnaLayout
+    quantities: tuple[tuple[str, str], ...]
+    g_ranks: tuple[tuple[np.ndarray, np.ndarray, np.ndarray], ...]
+    c_ranks: tuple[tuple[np.ndarray, np.ndarray, np.ndarray], ...]
+    amp_columns: tuple[tuple[int, int, int | None, int | None], ...]
+
+
+def _plan(netlist: Netlist, ideal: bool) -> _Plan:
+    """The :class:`_Plan` of a netlist's structure (its elements' kinds, references and nodes, and
+    its ground and input; not their values), with the op-amps' terms left out when ``ideal``;
+    worked out once per structure (the last :data:`_PLANS_KEPT` kept)."""
+    key = (ideal, netlist.ground, netlist.input, tuple((e.kind, e.ref, e.nodes) for e in netlist.elements))
+    plan = _PLANS.get(key)
+    if plan is None:
+        if len(_PLANS) >= _PLANS_KEPT:
+            _PLANS.pop(next(iter(_PLANS)), None)  # the oldest
+        plan = _PLANS[key] = _make_plan(netlist, ideal)
+    return plan
+
+
+_PLANS: dict[tuple, _Plan] = {}
+_PLANS_KEPT = 256
+
+
+def _make_plan(netlist: Netlist, ideal: bool) -> _Plan:
+    layout = MnaLayout.of(netlist)
+    n = layout.size
+    column: dict[tuple[str, str], int] = {}
+    stamps: dict[str, list[tuple[int, int, float]]] = {"G": [], "C": []}
+    for which, i, j, sign, q in _stamps(netlist, layout):
+        if q is not None and q[0] in _OPAMP_TERMS and ideal:
+            continue  # the ideal op-amp: 1/A0 = 1/ωt = 0
+        if q is not None and q not in column:
+            column[q] = len(column)
+        stamps[which].append((i * n + j, -1 if q is None else column[q], sign))
+    constant = len(column)
+
+    def ranks(entries):
+        seen: dict[int, int] = {}
+        out: list[list[tuple[int, int, float]]] = []
+        for flat, col, sign in entries:
+            r = seen.get(flat, 0)
+            seen[flat] = r + 1
+            if r == len(out):
+                out.append([])
+            out[r].append((flat, constant if col < 0 else col, sign))
+        return tuple(tuple(_frozen(np.array(v, dtype=dt)) for v, dt in zip(zip(*rank), (np.intp, np.intp, float))) for rank in out)
+
+    amps = []
+    for e in netlist.opamps:
+        row, col = layout.opamp_row[e.ref], layout.node_index[e.nodes[2]]
+        amps.append((row, col, None, None) if ideal else (row, col, column[("a0", e.ref)], column[("wt", e.ref)]))
+    return _Plan(layout, tuple(column), ranks(stamps["G"]), ranks(stamps["C"]), tuple(amps))
+
+
+def _frozen(a: np.ndarray) -> np.ndarray:
+    a.setflags(write=False)
+    return a
+
+
+def _quantities(netlist: Netlist, quantities, overrides, gbw, gain0) -> tuple[list, int]:
+    """Each quantity's value, a float or a ``(B,)`` array (overrides by part reference, an
+    inductor's winding resistance by its ``series_ref`` or ``"<ref>.rs"``), and the batch size."""
+    over = overrides or {}
+    size = 1
+    for v in over.values():
+        size = max(size, np.size(v))
+    if gbw is not None:
+        size = max(size, np.size(gbw))
+    if gain0 is not None:
+        size = max(size, np.size(gain0))
+    parts = {e.ref: e for e in netlist.elements}
+    out = []
+    for kind, ref in quantities:
+        if kind == "a0":
+            out.append(1.0 / _as_column(gain0, size))
+        elif kind == "wt":
+            out.append(1.0 / (2.0 * np.pi * _as_column(gbw, size)))
+        elif kind == "rs":
+            e = parts[ref]
+            given = over.get(e.series_ref, e.series_resistance) if e.series_ref else e.series_resistance
+            out.append(_as_column(over.get(ref + ".rs", given), size))
+        else:  # "g", "c", "l"
+            v = _as_column(over.get(ref, parts[ref].value), size)
+            out.append(1.0 / v if kind == "g" else v)
+    return out, size
+
+
+def _as_column(v, size: int):
+    """A value as a float, or a ``(size,)`` float array."""
+    if isinstance(v, (int, float)):
+        return float(v)
+    return np.broadcast_to(np.asarray(v, dtype=float), (size,))
 
 
 _OPAMP_TERMS = ("a0", "wt")
