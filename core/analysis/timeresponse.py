@@ -185,7 +185,7 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
         looks at a fine grid of early times where a fast op-amp pole shapes the start.
     """
     b, a = h.to_s(i)
-    poles = _roots(a)
+    poles = _roots(a) if a.size == 3 else h.poles(i)  # (the quadratic formula for two; else found once per member)
     if t_s is None:
         t_s = default_time_grid(poles)
     listed = poles.tolist()

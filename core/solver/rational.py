@@ -102,6 +102,8 @@ class Rational:
     num: np.ndarray
     den: np.ndarray
     w_ref: np.ndarray
+    # the roots already found, by ("poles" or "zeros", member): :meth:`poles` and :meth:`zeros`
+    _roots: dict | None = field(default=None, init=False, repr=False, compare=False)
 
     @property
     def batch(self) -> int:
@@ -165,12 +167,26 @@ class Rational:
         return coefficients_in_s(one.num[0], one.den[0], float(self.w_ref[i]))
 
     def poles(self, i: int = 0) -> np.ndarray:
-        """Poles in rad/s of member ``i`` (the roots of its denominator, leading zeros dropped)."""
-        return companion_roots(self.den[i]) * self.w_ref[i]
+        """Poles in rad/s of member ``i`` (the roots of its denominator, leading zeros dropped;
+        read-only, found once: a candidate's step response, stability check and pole-zero chart
+        ask for the same)."""
+        return self._found("poles", i)
 
     def zeros(self, i: int = 0) -> np.ndarray:
-        """Finite zeros in rad/s of member ``i`` (none for a constant numerator)."""
-        return companion_roots(self.num[i]) * self.w_ref[i]
+        """Finite zeros in rad/s of member ``i`` (none for a constant numerator; read-only, found once)."""
+        return self._found("zeros", i)
+
+    def _found(self, which: str, i: int) -> np.ndarray:
+        known = self._roots
+        if known is None:
+            known = {}
+            object.__setattr__(self, "_roots", known)
+        roots = known.get((which, i))
+        if roots is None:
+            roots = companion_roots((self.den if which == "poles" else self.num)[i]) * self.w_ref[i]
+            roots.setflags(write=False)
+            known[(which, i)] = roots
+        return roots
 
 
 def coefficients_in_s(num: np.ndarray, den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
