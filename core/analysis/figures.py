@@ -333,17 +333,21 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
     q0 = polyval_batch(qu, u_pk)
     peak2 = p0 / q0
     half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
+    # a Lorentzian in u with the peak's curvature, |H|² = peak/(1 + ((u − u_pk)/γ)²), puts
+    # the edges γ from the peak: γ² = −2·P·Q/(P''Q − P·Q'') there (P'Q = PQ' at the peak)
+    p2 = polyval_batch(polyder_batch(polyder_batch(pu)), u_pk)
+    q2 = polyval_batch(polyder_batch(polyder_batch(qu)), u_pk)
+    spread_u = 1.0 + np.sqrt(np.abs(2.0 * p0 * q0 / (p2 * q0 - p0 * q2))) / u_pk
+    lorentz = np.concatenate([u_pk / spread_u, u_pk * spread_u])
     if only_peak:
-        # a Lorentzian in u with the peak's curvature, |H|² = peak/(1 + ((u − u_pk)/γ)²), puts
-        # the edges γ from the peak: γ² = −2·P·Q/(P''Q − P·Q'') there (P'Q = PQ' at the peak)
-        p2 = polyval_batch(polyder_batch(polyder_batch(pu)), u_pk)
-        q2 = polyval_batch(polyder_batch(polyder_batch(qu)), u_pk)
-        spread_u = 1.0 + np.sqrt(np.abs(2.0 * p0 * q0 / (p2 * q0 - p0 * q2))) / u_pk
-        starts = np.concatenate([u_pk / spread_u, u_pk * spread_u])
-    else:  # the band edges start where the moved peak carries the reference's
-        shift = u_pk / u0
-        starts = np.concatenate([ref.f_low_hz**2 * to_u * shift, ref.f_high_hz**2 * to_u * shift])
-    both, ok2 = _newton(np.concatenate([half, half]), starts, k2, first=5)
+        both, ok2 = _newton(np.concatenate([half, half]), lorentz, k2, first=5)
+    else:
+        # the window is where the moved peak carries the reference's band edges; Newton's method
+        # starts from the Lorentzian's edges where they lie in it (a member whose Q has moved far
+        # from the reference's converges in fewer steps from them), else from the window's centre
+        anchor = np.concatenate([ref.f_low_hz**2 * to_u, ref.f_high_hz**2 * to_u]) * np.concatenate([u_pk / u0] * 2)
+        starts = np.where((lorentz >= anchor / k2) & (lorentz <= anchor * k2), lorentz, anchor)
+        both, ok2 = _newton(np.concatenate([half, half]), starts, k2, first=5, window=anchor)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
     if only_peak:
         ok &= _only_peak(pu, qu, slope, u_pk, peak2, both[:b], both[b:], ok & ok2[:b] & ok2[b:])
@@ -473,10 +477,11 @@ _FROM_SPREAD = 9.0
 _NEWTON_MOST = 40
 
 
-def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndarray, np.ndarray]:
+def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4, window: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Newton's method on batched polynomials from ``x0`` (``(B,)`` or broadcastable): the roots
     and a mask of the members that converged (last step below 1e-5 relative, so that the error
-    after it is of order 1e-10) within a factor ``k2`` of their start. A member is settled at the
+    after it is of order 1e-10) within a factor ``k2`` of their start (of ``window``, the
+    windows' centres, where it is given: then the start only sets how soon). A member is settled at the
     first test that finds it converged or outside that window, and stepped no more: what becomes
     of a member does not depend on the rest of the batch. Tests come after ``first`` steps and
     then every other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps; the
@@ -486,7 +491,8 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4) -> tuple[np.ndar
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
         x0 = np.broadcast_to(x0, (b,))
-    lo, hi = x0 / k2, x0 * k2
+    centre = x0 if window is None else window
+    lo, hi = centre / k2, centre * k2
     # the polynomials and their derivatives (a leading zero: the same Horner steps) in one batch,
     # stored by coefficient (row j: coefficient j of every member, contiguous)
     rows = np.zeros((k, 2 * b))
