@@ -345,3 +345,27 @@ def test_the_pencil_by_ranks_is_every_stamp_added_in_turn(circuit):
             for a, b in ((got.G, want_g), (got.C, want_c)):
                 assert_array_equal(a, b)
                 assert_array_equal(np.signbit(a), np.signbit(b))
+
+
+def test_biquad_peak_figures_are_measures_closed_form_and_nan_where_not_stable():
+    # f0, Q and the gain of second-order band-passes: the numbers of measure()'s closed form where
+    # every member has a peak; where one has none, NaN, and there Routh–Hurwitz fails too (a
+    # quadratic is stable when its three coefficients are nonzero and of one sign).
+    from bandsmith.analysis.figures import biquad_peak_figures, measure
+    from bandsmith.solver.rational import Rational
+    from bandsmith.solver.stability import hurwitz_stable
+
+    rng = np.random.default_rng(11)
+    b = 4000
+    den = np.abs(rng.normal(size=(b, 3))) * 10.0 ** rng.uniform(-3, 3, (b, 3))
+    num = np.column_stack([rng.normal(size=b), np.zeros(b)])
+    h = Rational(num, den * rng.choice([-1.0, 1.0], (b, 1)), 10.0 ** rng.uniform(1, 6, b))
+    want = measure(h)
+    got = biquad_peak_figures(h)
+    for a, w in zip(got, (want.f0_hz, want.q, want.gain_center_db)):
+        assert_array_equal(a, w)
+    odd = Rational(num[:64], den[:64] * rng.choice([-1.0, 1.0], (64, 3)), h.w_ref[:64])
+    f0, q, db = biquad_peak_figures(odd)
+    assert not (hurwitz_stable(odd.den) & ~np.isfinite(q)).any()
+    assert (~np.isfinite(q)).sum() > 10  # (the signs drawn leave some with no peak)
+    assert biquad_peak_figures(Rational(np.ones((2, 3)), den[:2], h.w_ref[:2])) is None  # not a band-pass

@@ -32,7 +32,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
-__all__ = ["Figures", "measure", "measure_many", "measure_near", "measure_from", "biquad_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
+__all__ = ["Figures", "measure", "measure_many", "measure_near", "measure_from", "biquad_figures", "biquad_peak_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
            "CLOSED_FORM_FROM"]
 
 _ROOT_STEPS = 8
@@ -270,6 +270,31 @@ def _biquad_parts(b1, a2, a1, a0):
         x_high = (a1 + np.sqrt(a1 * a1 + 4.0 * a0 * a2)) / (2.0 * a2)
         x_low = u_pk / x_high  # x_high − x_low = |a1|/a2 exactly
     return u_pk, x_low * x_low, x_high * x_high, a1 / a2 * nan, hc, peak
+
+
+def biquad_peak_figures(h: Rational) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """f0 (Hz), Q and the centre gain (dB) of a batch of second-order band-passes
+    ``b1·p / (a2·p² + a1·p + a0)``: the same operations on the same numbers as :func:`measure`'s
+    closed form (``f0 = √(a0/a2)·w_ref/2π``, ``Q = f0/((|a1|/a2)·w_ref/2π)``, the gain
+    ``20·log10|b1/a1|``), without the band edges and the phase that a search over many
+    combinations does not use. A member with no peak (``a0`` and ``a2`` of opposite signs, or
+    ``a1`` zero: a quadratic that fails Routh–Hurwitz) gets NaN, where :func:`measure` would take
+    the whole batch through its polynomial roots. None when a member is not such a band-pass."""
+    if not _biquad_shaped(h):
+        return None
+    b1, a2, a1, a0 = h.num[:, -2], h.den[:, 0], h.den[:, 1], h.den[:, 2]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        sign = np.sign(a2)
+        mag = np.abs(b1 * sign / (a1 * sign))  # |H| at the peak, H = b1/a1 there
+        a2, a1, a0 = a2 * sign, np.abs(a1), a0 * sign
+        nan = np.where((a0 > 0) & (a2 > 0) & (a1 > 0), 1.0, np.nan)
+        to_hz = h.w_ref / (2.0 * np.pi)
+        f0 = np.sqrt(a0 / a2 * nan) * to_hz
+        q = f0 / (a1 / a2 * nan * to_hz)
+        db = np.log10(mag)
+        db *= 20.0
+        db[mag == 0] = np.nan
+    return f0, q, db
 
 
 def biquad_figures(b1, a2, a1, a0, w_ref) -> tuple[Figures, np.ndarray]:
