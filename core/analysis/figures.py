@@ -328,10 +328,12 @@ def biquad_figures(b1, a2, a1, a0, w_ref) -> tuple[Figures, np.ndarray]:
 def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = False) -> Figures:
     """Figures of members known to lie near reference figures (a GBW ladder near the ideal op-amp).
 
-    The peak and the half-power points are found by Newton's method started at ``ref``'s (one
-    member for all, or one per member; the band edges scaled by the peak's move); a member for
-    which it does not converge, or converges farther than a factor ``1 + spread`` from the start,
-    gets NaN figures: it is off the reference by more than ``spread``. Cheaper than
+    The peak and the half-power points are found by Newton's method near ``ref``'s (one member
+    for all, or one per member; the band edges near ``ref``'s scaled by the peak's move, started
+    from a Lorentzian's half-width from the peak found, by the curvature there, where that lies
+    within the window); a member for which it does not converge, or converges farther than a
+    factor ``1 + spread`` from ``ref``'s (so moved), gets NaN figures: it is off the reference by
+    more than ``spread``. Cheaper than
     :func:`measure` by a fixed cost, for callers that ask "within tolerance of the reference?"
     and need exact figures only where it is. With ``only_peak`` a member gets NaN figures too
     unless the peak found is the highest stationary point of ``|H|²`` and none lies between it
