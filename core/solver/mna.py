@@ -215,12 +215,13 @@ class _Plan:
 def _plan(netlist: Netlist, ideal: bool) -> _Plan:
     """The :class:`_Plan` of a netlist's structure (its elements' kinds, references and nodes, and
     its ground and input; not their values), with the op-amps' terms left out when ``ideal``;
-    worked out once per structure (the last :data:`_PLANS_KEPT` kept)."""
+    worked out once per structure (up to :data:`_PLANS_KEPT` of them kept; then the store starts
+    again, which a dict does in one step whatever another thread is doing)."""
     key = (ideal, netlist.ground, netlist.input, tuple((e.kind, e.ref, e.nodes) for e in netlist.elements))
     plan = _PLANS.get(key)
     if plan is None:
         if len(_PLANS) >= _PLANS_KEPT:
-            _PLANS.pop(next(iter(_PLANS)), None)  # the oldest
+            _PLANS.clear()
         plan = _PLANS[key] = _make_plan(netlist, ideal)
     return plan
 
