@@ -231,6 +231,7 @@ _PLANS_KEPT = 256
 
 
 def _make_plan(netlist: Netlist, ideal: bool) -> _Plan:
+    """A structure's :class:`_Plan`, from its stamps (:func:`_stamps`) in stamping order."""
     layout = MnaLayout.of(netlist)
     n = layout.size
     column: dict[tuple[str, str], int] = {}
@@ -262,6 +263,7 @@ def _make_plan(netlist: Netlist, ideal: bool) -> _Plan:
 
 
 def _frozen(a: np.ndarray) -> np.ndarray:
+    """``a`` made read-only (a plan's arrays are shared by every netlist of its structure)."""
     a.setflags(write=False)
     return a
 
