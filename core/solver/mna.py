@@ -17,7 +17,7 @@ netlist's own values are used where no override is given.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Mapping
 
 import numpy as np
@@ -177,15 +177,20 @@ def build_system(
     plan = _plan(netlist, gbw is None)
     layout, n = plan.layout, plan.layout.size
     columns, size = _quantities(netlist, plan.quantities, overrides, gbw, gain0)
-    values = np.empty((size, len(columns) + 1))
-    for k, col in enumerate(columns):
-        values[:, k] = col
-    values[:, -1] = 1.0  # the constant stamps
-    G = np.zeros((size, n * n))
-    C = np.zeros((size, n * n))
-    for m, ranks in ((G, plan.g_ranks), (C, plan.c_ranks)):
-        for flat, cols, signs in ranks:  # the r-th stamp of each entry that has one: unique entries
-            m[:, flat] += values[:, cols] * signs
+    if size == 1 and all(type(c) is float for c in columns):
+        G, C = _stamped_one(plan, columns)
+        values = np.array([columns])
+    else:
+        values = np.empty((size, len(columns) + 1))
+        for k, col in enumerate(columns):
+            values[:, k] = col
+        values[:, -1] = 1.0  # the constant stamps
+        G = np.zeros((size, n * n))
+        C = np.zeros((size, n * n))
+        g_ranks, c_ranks = plan.ranks()
+        for m, ranks in ((G, g_ranks), (C, c_ranks)):
+            for flat, cols, signs in ranks:  # the r-th stamp of each entry that has one: unique entries
+                m[:, flat] += values[:, cols] * signs
     terms = []
     for row, col, a0_k, wt_k in plan.amp_columns:
         if a0_k is None:
@@ -195,21 +200,56 @@ def build_system(
     return MnaSystem(G.reshape(size, n, n), C.reshape(size, n, n), layout, layout.node_index[netlist.output], tuple(terms))
 
 
+def _stamped_one(plan: "_Plan", columns: list[float]) -> tuple[np.ndarray, np.ndarray]:
+    """A batch of one as plain numbers: every stamp added in turn into a list per matrix, as
+    :func:`solve_at` adds them (the same IEEE sums as the arrays'), ``(G, C)`` flat ``(1, n·n)``."""
+    out = []
+    for stamps in (plan.g_stamps, plan.c_stamps):
+        m = [0.0] * (plan.layout.size * plan.layout.size)
+        for flat, col, sign in stamps:
+            y = 1.0 if col < 0 else columns[col]
+            m[flat] = m[flat] + y if sign > 0 else m[flat] - y
+        out.append(np.array([m]))
+    return out[0], out[1]
+
+
 @dataclass(frozen=True, slots=True)
 class _Plan:
     """How a netlist's structure stamps its pencil (:func:`_plan`): the layout, the quantities in
-    column order (``(kind, ref)`` as :func:`_stamps` names them), and per matrix its stamps in
-    *ranks*: rank ``r`` holds, for every entry with at least ``r`` stamps, its ``r``-th one in
-    stamping order, as ``(flat entries, quantity columns, signs)`` (the constant 1 is the column
-    after the quantities). Adding the ranks in turn adds each entry's stamps in stamping order,
-    the very sums of stamping one at a time, with a few array operations. ``amp_columns`` holds
-    each op-amp's ``(row, column, 1/A0 column, 1/ωt column)`` (None for the ideal op-amp)."""
+    column order (``(kind, ref)`` as :func:`_stamps` names them), each matrix's stamps in stamping
+    order as ``(flat entry, quantity column or −1 for the constant 1, sign)``, and each op-amp's
+    ``(row, column, 1/A0 column, 1/ωt column)`` (None for the ideal op-amp).
+
+    For a batch, :meth:`ranks` gives each matrix's stamps in *ranks*: rank ``r`` holds, for every
+    entry with at least ``r`` stamps, its ``r``-th one in stamping order, as ``(flat entries,
+    quantity columns, signs)`` arrays (the constant 1 is the column after the quantities). Adding
+    the ranks in turn adds each entry's stamps in stamping order, the very sums of stamping one at
+    a time, with a few array operations."""
 
     layout: MnaLayout
     quantities: tuple[tuple[str, str], ...]
-    g_ranks: tuple[tuple[np.ndarray, np.ndarray, np.ndarray], ...]
-    c_ranks: tuple[tuple[np.ndarray, np.ndarray, np.ndarray], ...]
+    g_stamps: tuple[tuple[int, int, float], ...]
+    c_stamps: tuple[tuple[int, int, float], ...]
     amp_columns: tuple[tuple[int, int, int | None, int | None], ...]
+    _ranks: tuple | None = field(default=None, init=False, repr=False, compare=False)
+
+    def ranks(self) -> tuple:
+        """``(G ranks, C ranks)`` (see the class notes), made when a batch first asks (read-only)."""
+        if self._ranks is None:
+            object.__setattr__(self, "_ranks", (self._ranked(self.g_stamps), self._ranked(self.c_stamps)))
+        return self._ranks
+
+    def _ranked(self, stamps) -> tuple:
+        constant = len(self.quantities)
+        seen: dict[int, int] = {}
+        by_rank: list[list[tuple[int, int, float]]] = []
+        for flat, col, sign in stamps:
+            r = seen.get(flat, 0)
+            seen[flat] = r + 1
+            if r == len(by_rank):
+                by_rank.append([])
+            by_rank[r].append((flat, constant if col < 0 else col, sign))
+        return tuple(tuple(_frozen(np.array(v, dtype=dt)) for v, dt in zip(zip(*rank), (np.intp, np.intp, float))) for rank in by_rank)
 
 
 def _plan(netlist: Netlist, ideal: bool) -> _Plan:
@@ -242,24 +282,11 @@ def _make_plan(netlist: Netlist, ideal: bool) -> _Plan:
         if q is not None and q not in column:
             column[q] = len(column)
         stamps[which].append((i * n + j, -1 if q is None else column[q], sign))
-    constant = len(column)
-
-    def ranks(entries):
-        seen: dict[int, int] = {}
-        out: list[list[tuple[int, int, float]]] = []
-        for flat, col, sign in entries:
-            r = seen.get(flat, 0)
-            seen[flat] = r + 1
-            if r == len(out):
-                out.append([])
-            out[r].append((flat, constant if col < 0 else col, sign))
-        return tuple(tuple(_frozen(np.array(v, dtype=dt)) for v, dt in zip(zip(*rank), (np.intp, np.intp, float))) for rank in out)
-
     amps = []
     for e in netlist.opamps:
         row, col = layout.opamp_row[e.ref], layout.node_index[e.nodes[2]]
         amps.append((row, col, None, None) if ideal else (row, col, column[("a0", e.ref)], column[("wt", e.ref)]))
-    return _Plan(layout, tuple(column), ranks(stamps["G"]), ranks(stamps["C"]), tuple(amps))
+    return _Plan(layout, tuple(column), tuple(stamps["G"]), tuple(stamps["C"]), tuple(amps))
 
 
 def _frozen(a: np.ndarray) -> np.ndarray:
