@@ -70,6 +70,7 @@ from bandsmith.common.values import format_value
 from bandsmith.chain.chain_settings import AUTO, STAGE_HOLD, Chain, ChainSettings, ChainStage, circuit_choices
 from bandsmith.chain.cascade_json import cascade_json, cascade_session, chains_in
 from bandsmith.chain.chain_measure import Overall, chain_peaks, max_dev_db, measure_chains, reference_zpk, sweep_frequencies
+from bandsmith.chain.stage_designs import PendingStage, prepare_stages
 from bandsmith.chain.stage_verdicts import choose_auto, hold_warnings
 
 __all__ = [
@@ -301,11 +302,15 @@ def _stacked(stages: tuple[Stage, ...], actual: bool) -> Rational | None:
     return Rational.joined([h.take(slice(0, 1)) for h in hs])
 
 
-def _attempts(ids, plan: SectionPlan, series: str, conditions: Conditions):
-    """``(result, Attempt)`` of each circuit for a stage, their designs analysed in one batch."""
+def _attempts(ids, plan: SectionPlan, series: str, conditions: Conditions, pending: PendingStage | None = None):
+    """``(result, Attempt)`` of each circuit for a stage, their designs analysed in one batch
+    (or concluded from the stage's ``pending`` designs, made with the other stages')."""
     from bandsmith.design.designer import Spec, designs_or_errors
 
-    made = designs_or_errors(ids, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
+    if pending is not None:
+        made = pending.results(conditions)
+    else:
+        made = designs_or_errors(ids, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
     return [(None, Attempt(t, False, None, None, None, res.reason)) if isinstance(res, InputError) else _assess(t, res, plan, series, conditions)
             for t, res in zip(ids, made)]
 
@@ -391,19 +396,30 @@ def _stage_rsource(conditions: Conditions, index: int) -> float | None:
     return conditions.rsource_ohm if index == 1 else None
 
 
-def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, conditions: Conditions) -> Stage:
+def _stage_conditions(conditions: Conditions, plan: SectionPlan, vin_v: float) -> Conditions:
+    """A stage's conditions: the amplitude reaching it, its stage tolerances, its source (module notes)."""
+    return replace(conditions, vin_v=vin_v, tolerances=stage_tolerances(conditions.tolerances, plan.q), rsource_ohm=_stage_rsource(conditions, plan.index))
+
+
+def _stage_circuits(settings: ChainSettings) -> list[str]:
+    """The circuits tried for every stage: the one named, or with ``auto`` all of them."""
+    return list(topology_ids()) if settings.circuit == AUTO else [settings.circuit]
+
+
+def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, conditions: Conditions, pending: PendingStage | None = None) -> Stage:
+    """A stage built from its circuits' designs (``pending``: made before, with the other stages')."""
     if plan.q > MAX_STAGE_Q:
         return Stage(
             plan, vin_v, None, (), False,
             f"Q {plan.q:.4g} is above {MAX_STAGE_Q:g}, beyond any of our circuits with real parts ({_Q_CAP_WHY})",
         )
-    cond = replace(conditions, vin_v=vin_v, tolerances=stage_tolerances(conditions.tolerances, plan.q), rsource_ohm=_stage_rsource(conditions, plan.index))
+    cond = _stage_conditions(conditions, plan, vin_v)
+    tried = _attempts(_stage_circuits(settings), plan, settings.series, cond, pending)
     if settings.circuit != AUTO:
-        res, att = _attempts([settings.circuit], plan, settings.series, cond)[0]
+        res, att = tried[0]
         if not att.feasible:
             return Stage(plan, vin_v, res, (att,), False, f"{settings.circuit} cannot build it: {att.reason}")
         return _finish(plan, vin_v, res, (att,), conditions, (f"{att.reason}",) if att.reason else ())
-    tried = _attempts(topology_ids(), plan, settings.series, cond)
     attempts = tuple(a for _, a in tried)
     usable = [(i, res, a) for i, (res, a) in enumerate(tried) if a.sane]
     if not usable:
@@ -444,10 +460,20 @@ def design_cascade(settings: ChainSettings, *, conditions: Conditions = Conditio
     Cascade
         With ``feasible`` False and a plain ``reason`` when a stage cannot be built.
     """
+    from bandsmith.design.designer import Spec
+
     plan = plan_cascade(settings.prototype(), settings.band, settings.gain)
+    # every stage's designs made first, in one batch (bandsmith.chain.stage_designs), each with
+    # the chain's input amplitude standing in for its own until the stages before it are built
+    ids = _stage_circuits(settings)
+    buildable = [sec for sec in plan.sections if sec.q <= MAX_STAGE_Q]
+    pending = dict(zip(
+        (sec.index for sec in buildable),
+        prepare_stages([(ids, Spec(sec.f0_hz, sec.q, sec.gain), _stage_conditions(conditions, sec, conditions.vin_v)) for sec in buildable], settings.series),
+    ))
     built: list[Stage] = []
     for sec in plan.sections:
-        built.append(_build_stage(sec, _stage_vin(settings, conditions, plan, built, sec), settings, conditions))
+        built.append(_build_stage(sec, _stage_vin(settings, conditions, plan, built, sec), settings, conditions, pending.get(sec.index)))
     return _assemble(settings, conditions, plan, tuple(built))
 
 
@@ -496,7 +522,7 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
     built: list[Stage] = []
     for sec, saved in zip(plan.sections, chain.stages):
         vin = _stage_vin(settings, conditions, plan, built, sec)
-        cond = replace(conditions, vin_v=vin, tolerances=stage_tolerances(conditions.tolerances, sec.q), rsource_ohm=_stage_rsource(conditions, sec.index))
+        cond = _stage_conditions(conditions, sec, vin)
         cand = Candidate(saved.topology_id, saved.values)
         an = cand.analyze(cond)
         spec = Spec(sec.f0_hz, sec.q, sec.gain)
