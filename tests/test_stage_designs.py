@@ -11,9 +11,13 @@ parts, figures, required GBW and amplifier needs. Scenarios are our own.
 from dataclasses import replace
 
 import pytest
-
-from bandsmith.chain.cascade import ChainSettings, _stage_circuits, _stage_conditions, design_cascade
 from bandsmith.chain.bandpass import plan_cascade
+from bandsmith.chain.cascade import (
+    ChainSettings,
+    _stage_circuits,
+    _stage_conditions,
+    design_cascade,
+)
 from bandsmith.chain.stage_designs import prepare_stages
 from bandsmith.common.errors import InputError
 from bandsmith.design.candidate import Conditions
@@ -42,10 +46,10 @@ def _same(a, b):
 
 CASES = [
     # (family, order, band, gain, series, circuit, conditions)
-    ("butterworth", 4, dict(f0_hz=40e3, bw_hz=16e3), 10.0, "E24", "auto", Conditions(gbw_hz=20e6)),
-    ("chebyshev", 3, dict(f0_hz=2e3, bw_hz=500.0), 2.0, "E12", "auto", Conditions(gbw_hz=1e6, rsource_ohm=600.0, vin_v=0.3)),
-    ("bessel", 4, dict(f0_hz=10e3, bw_hz=4e3), 1.0, "E96", "tow-thomas", Conditions()),
-    ("butterworth", 3, dict(f0_hz=5e3, bw_hz=1e3), 4.0, "E24", "auto", Conditions(gbw_hz=5e6, cload_f=1e-9, rload_ohm=10e3)),
+    ("butterworth", 4, {"f0_hz": 40e3, "bw_hz": 16e3}, 10.0, "E24", "auto", Conditions(gbw_hz=20e6)),
+    ("chebyshev", 3, {"f0_hz": 2e3, "bw_hz": 500.0}, 2.0, "E12", "auto", Conditions(gbw_hz=1e6, rsource_ohm=600.0, vin_v=0.3)),
+    ("bessel", 4, {"f0_hz": 10e3, "bw_hz": 4e3}, 1.0, "E96", "tow-thomas", Conditions()),
+    ("butterworth", 3, {"f0_hz": 5e3, "bw_hz": 1e3}, 4.0, "E24", "auto", Conditions(gbw_hz=5e6, cload_f=1e-9, rload_ohm=10e3)),
 ]
 
 
@@ -70,15 +74,19 @@ def test_stages_designed_together_match_each_alone(case):
 
 def test_design_cascade_stages_match_stage_by_stage():
     # The chain as built before its designs were batched: each stage designed once the stages
-    # before it were built (design_cascade's stages without their pending designs).
-    from bandsmith.chain.cascade import _build_stage, _stage_vin
+    # before it were built, the amplitude reaching it read off the partial chain's response at
+    # its f0 (Cascade.response, ideal op-amp).
+    import numpy as np
+    from bandsmith.chain.cascade import Cascade, _build_stage
 
     s = ChainSettings.from_request("chebyshev", 4, f0_hz=12e3, bw_hz=3e3, gain=5.0, series="E24")
     cond = Conditions(gbw_hz=10e6, vin_v=0.5, rsource_ohm=1e3)
     r = design_cascade(s, conditions=cond)
     built = []
     for sec in r.plan.sections:
-        built.append(_build_stage(sec, _stage_vin(s, cond, r.plan, built, sec), s, cond))
+        partial = Cascade(s, cond, r.plan, tuple(built), False, None, None, None, None, None, None, np.empty(0))
+        vin = cond.vin_v * float(abs(partial.response(np.array([sec.f0_hz]))[0])) if built else cond.vin_v
+        built.append(_build_stage(sec, vin, s, cond))
     for st, ref in zip(r.stages, built):
         assert st.vin_v == ref.vin_v
         assert [a.to_json() for a in st.attempts] == [a.to_json() for a in ref.attempts]

@@ -258,11 +258,7 @@ class Cascade:
             return stacked.at_f(f)
         out = np.empty((len(self.stages), f.size), dtype=complex)
         for k, st in enumerate(self.stages):
-            h = st.h_actual if actual and st.h_actual is not None else st.h_ideal
-            if h is None:
-                out[k] = biquad_bandpass(2j * math.pi * f, [2 * math.pi * st.plan.f0_hz], [st.plan.q], [st.plan.gain])[0]
-            else:
-                out[k] = h.at_f(f)[0]
+            out[k] = _stage_response(st, f, actual=actual)
         return out
 
     def response(self, f_hz: np.ndarray, *, actual: bool = False) -> np.ndarray:
@@ -286,6 +282,15 @@ class Cascade:
             ChainStage(st.index, st.plan.f0_hz, st.plan.q, st.plan.gain, st.circuit, st.chosen, cid) for st, cid in zip(self.stages, ids)
         )
         return Chain(chain_id, self.settings, stages, notes)
+
+
+def _stage_response(st: Stage, f: np.ndarray, *, actual: bool = False) -> np.ndarray:
+    """One stage's response at frequencies ``f`` (Hz), ``(F,)`` complex: its chosen parts' (the
+    finite op-amp's where asked and known), or its planned ideal section where it is not built."""
+    h = st.h_actual if actual and st.h_actual is not None else st.h_ideal
+    if h is None:
+        return biquad_bandpass(2j * math.pi * f, [2 * math.pi * st.plan.f0_hz], [st.plan.q], [st.plan.gain])[0]
+    return h.at_f(f)[0]
 
 
 def _stacked(stages: tuple[Stage, ...], actual: bool) -> Rational | None:
@@ -436,12 +441,35 @@ def _finish(plan, vin_v, res, attempts, conditions: Conditions, notes: tuple[str
     return Stage(plan, vin_v, res, attempts, True, None, an.h_ideal, an.h_actual, warnings=tuple(res.warnings) + tuple(notes))
 
 
-def _stage_vin(settings: ChainSettings, conditions: Conditions, plan: CascadePlan, built: list[Stage], sec: SectionPlan) -> float:
-    """Amplitude reaching a stage at its own f0 (earlier stages as built, ideal op-amp)."""
-    if not built:
-        return conditions.vin_v
-    partial = Cascade(settings, conditions, plan, tuple(built), False, None, None, None, None, None, None, np.empty(0))
-    return conditions.vin_v * float(abs(partial.response(np.array([sec.f0_hz]))[0]))
+class _Amplitudes:
+    """The amplitude reaching each stage of a chain built in signal order (module notes): at stage
+    k's own f0, ``vin·|H_1…H_(k−1)(f_k)|``, the earlier stages as built (ideal op-amp; a stage not
+    built as its planned section).
+
+    Each built stage's response is evaluated once, at every stage's f0 (:meth:`add`); stage k's
+    amplitude is numpy's product over the stages before it of column k, ``(k − 1, 1)``, so each
+    stage's value is multiplied in signal order, as the partial chain's response there gives it.
+    """
+
+    __slots__ = ("_at", "_f0", "_n", "_vin")
+
+    def __init__(self, conditions: Conditions, plan: CascadePlan):
+        self._vin = conditions.vin_v
+        self._f0 = np.array([sec.f0_hz for sec in plan.sections])
+        self._at = np.empty((self._f0.size, self._f0.size), dtype=complex)  # row j: stage j + 1 at every f0
+        self._n = 0
+
+    def next(self) -> float:
+        """The amplitude (V peak) reaching the next stage."""
+        k = self._n
+        if k == 0:
+            return self._vin
+        return self._vin * float(abs(np.prod(self._at[:k, k : k + 1], axis=0)[0]))
+
+    def add(self, stage: Stage) -> None:
+        """The next stage, as built."""
+        self._at[self._n] = _stage_response(stage, self._f0)
+        self._n += 1
 
 
 def design_cascade(settings: ChainSettings, *, conditions: Conditions = Conditions()) -> Cascade:
@@ -471,15 +499,16 @@ def design_cascade(settings: ChainSettings, *, conditions: Conditions = Conditio
         (sec.index for sec in buildable),
         prepare_stages([(ids, Spec(sec.f0_hz, sec.q, sec.gain), _stage_conditions(conditions, sec, conditions.vin_v)) for sec in buildable], settings.series),
     ))
+    amps = _Amplitudes(conditions, plan)
     built: list[Stage] = []
     for sec in plan.sections:
-        built.append(_build_stage(sec, _stage_vin(settings, conditions, plan, built, sec), settings, conditions, pending.get(sec.index)))
+        built.append(_build_stage(sec, amps.next(), settings, conditions, pending.get(sec.index)))
+        amps.add(built[-1])
     return _assemble(settings, conditions, plan, tuple(built))
 
 
-def _redrive(settings: ChainSettings, conditions: Conditions, plan: CascadePlan, built: list[Stage], st: Stage) -> Stage:
-    """A built stage re-analysed for the amplitude that now reaches it (parts unchanged)."""
-    vin = _stage_vin(settings, conditions, plan, built, st.plan)
+def _redrive(st: Stage, vin: float) -> Stage:
+    """A built stage re-analysed for the amplitude ``vin`` that now reaches it (parts unchanged)."""
     if not st.feasible or abs(vin / st.vin_v - 1.0) <= 1e-12:
         return replace(st, vin_v=vin)
     res = st.result
@@ -500,11 +529,15 @@ def with_stage_circuit(result: Cascade, index: int, circuit: str) -> Cascade:
     if circuit not in circuit_choices():
         raise InputError("circuit", f"{circuit!r} is not a circuit; choose one of {', '.join(circuit_choices())}")
     settings, conditions, plan = result.settings, result.conditions, result.plan
+    amps = _Amplitudes(conditions, plan)
     built = list(result.stages[: index - 1])
-    sec = plan.sections[index - 1]
-    built.append(_build_stage(sec, _stage_vin(settings, conditions, plan, built, sec), replace(settings, circuit=circuit), conditions))
+    for st in built:
+        amps.add(st)
+    built.append(_build_stage(plan.sections[index - 1], amps.next(), replace(settings, circuit=circuit), conditions))
+    amps.add(built[-1])
     for st in result.stages[index:]:
-        built.append(_redrive(settings, conditions, plan, built, st))
+        built.append(_redrive(st, amps.next()))
+        amps.add(built[-1])
     return _assemble(settings, conditions, plan, tuple(built))
 
 
@@ -519,9 +552,10 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
 
     settings = chain.settings
     plan = plan_cascade(settings.prototype(), settings.band, settings.gain)
+    amps = _Amplitudes(conditions, plan)
     built: list[Stage] = []
     for sec, saved in zip(plan.sections, chain.stages):
-        vin = _stage_vin(settings, conditions, plan, built, sec)
+        vin = amps.next()
         cond = _stage_conditions(conditions, sec, vin)
         cand = Candidate(saved.topology_id, saved.values)
         an = cand.analyze(cond)
@@ -536,6 +570,7 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
         )
         att = Attempt(cand.topology_id, True, an.required_gbw[0], sp["r"] or 1.0, sp["c"] or 1.0, None, errors, within, weighted_error(errors, tol))
         built.append(Stage(sec, vin, res, (att,), True, None, an.h_ideal, an.h_actual))
+        amps.add(built[-1])
     return _assemble(settings, conditions, plan, tuple(built))
 
 
