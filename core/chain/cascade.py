@@ -307,15 +307,9 @@ def _stacked(stages: tuple[Stage, ...], actual: bool) -> Rational | None:
     return Rational.joined([h.take(slice(0, 1)) for h in hs])
 
 
-def _attempts(ids, plan: SectionPlan, series: str, conditions: Conditions, pending: PendingStage | None = None):
-    """``(result, Attempt)`` of each circuit for a stage, their designs analysed in one batch
-    (or concluded from the stage's ``pending`` designs, made with the other stages')."""
-    from bandsmith.design.designer import Spec, designs_or_errors
-
-    if pending is not None:
-        made = pending.results(conditions)
-    else:
-        made = designs_or_errors(ids, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
+def _attempts(ids, plan: SectionPlan, series: str, made: list, conditions: Conditions):
+    """``(result, Attempt)`` of each circuit for a stage from its designs ``made`` (in the order
+    of ``ids``: a result, or the :class:`InputError` that circuit raised) under ``conditions``."""
     return [(None, Attempt(t, False, None, None, None, res.reason)) if isinstance(res, InputError) else _assess(t, res, plan, series, conditions)
             for t, res in zip(ids, made)]
 
@@ -418,8 +412,15 @@ def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, condi
             plan, vin_v, None, (), False,
             f"Q {plan.q:.4g} is above {MAX_STAGE_Q:g}, beyond any of our circuits with real parts ({_Q_CAP_WHY})",
         )
-    cond = _stage_conditions(conditions, plan, vin_v)
-    tried = _attempts(_stage_circuits(settings), plan, settings.series, cond, pending)
+    ids = _stage_circuits(settings)
+    if pending is not None:
+        cond, made = pending.results(vin_v)
+    else:  # its circuits' designs, analysed in one batch
+        from bandsmith.design.designer import Spec, designs_or_errors
+
+        cond = _stage_conditions(conditions, plan, vin_v)
+        made = designs_or_errors(ids, Spec(plan.f0_hz, plan.q, plan.gain), series=settings.series, conditions=cond)
+    tried = _attempts(ids, plan, settings.series, made, cond)
     if settings.circuit != AUTO:
         res, att = tried[0]
         if not att.feasible:

@@ -60,18 +60,18 @@ class PendingStage:
     made: list
     analyses: list | None = None
 
-    def results(self, conditions: Conditions) -> list:
-        """The stage's designs under its own ``conditions`` (the amplitude that reaches it): per
-        circuit what :func:`bandsmith.design.designer.designs_or_errors` gives for them."""
-        if replace(self.conditions, vin_v=conditions.vin_v) != conditions:
-            raise ValueError("a stage's conditions may differ from its pending ones in the amplitude only")
+    def results(self, vin_v: float) -> tuple[Conditions, list]:
+        """The stage's conditions with the amplitude ``vin_v`` (V peak) that reaches it, and its
+        designs under them: per circuit what :func:`bandsmith.design.designer.designs_or_errors`
+        gives for those conditions."""
+        same = vin_v == self.conditions.vin_v
+        conditions = self.conditions if same else replace(self.conditions, vin_v=vin_v)
         analyses = self.analyses
         if analyses is None:
             ready = [i for i, m in enumerate(self.made) if isinstance(m, _Prepared)]
             analyses = [None] * len(self.made)
             for i, an in zip(ready, analyze_candidates([self.made[i].candidate for i in ready], conditions) if ready else []):
                 analyses[i] = an
-        same = conditions == self.conditions
         out = []
         for m, an in zip(self.made, analyses):
             if isinstance(m, InputError):
@@ -81,10 +81,10 @@ class PendingStage:
             elif isinstance(an, InputError):
                 out.append(an)
             else:
-                if an.drive.vin_v != conditions.vin_v:
-                    an = replace(an, drive=an.drive._replace(vin_v=conditions.vin_v))
+                if an.drive.vin_v != vin_v:
+                    an = replace(an, drive=an.drive._replace(vin_v=vin_v))
                 out.append(_conclude(m, an, self.spec, self.series, conditions))
-        return out
+        return conditions, out
 
 
 def prepare_stages(stages: Sequence[tuple[Sequence[str], Spec, Conditions]], series: str) -> list[PendingStage]:
