@@ -488,6 +488,14 @@ def design_cascade(settings: ChainSettings, *, conditions: Conditions = Conditio
     -------
     Cascade
         With ``feasible`` False and a plain ``reason`` when a stage cannot be built.
+
+    Notes
+    -----
+    Every stage's circuits are designed first, their analyses in as few batches as their
+    conditions allow (:mod:`bandsmith.chain.stage_designs`); the stages are then built in signal
+    order, each concluded under the amplitude the stages before it let through
+    (:class:`_Amplitudes`). The results are those of designing each stage once the ones before
+    it are built.
     """
     from bandsmith.design.designer import Spec
 
