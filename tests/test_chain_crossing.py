@@ -58,3 +58,17 @@ def test_no_sign_change_falls_back_to_bisection():
     lo, hi, lv = np.array([950.0]), np.array([1000.0]), np.array([0.1])
     a = np.log(lo)
     assert np.array_equal(_crossing(mag, lo, hi, lv), _bisected(mag, a, np.log(hi), mag(np.exp(a)) - lv, lv))
+
+
+def test_bracket_at_one_hz_is_bisected():
+    # An edge at 1 Hz: log f's floats near 0 are far finer than a sweep step, so bisection's 60
+    # halvings stop short of neighbouring floats; the search then is bisection itself. The edge
+    # is still scipy.signal's (butter's band edge, |H| = 1/√2).
+    mag = _butter_mag(2, 1.0, 3.0)
+    f = np.geomspace(0.25, 12.0, 4001)
+    above = np.flatnonzero(mag(f) >= 1 / math.sqrt(2))
+    lo, hi, lv = np.array([f[above[0] - 1]]), np.array([f[above[0]]]), np.array([1 / math.sqrt(2)])
+    a = np.log(lo)
+    x = _crossing(mag, lo, hi, lv)
+    assert np.array_equal(x, _bisected(mag, a, np.log(hi), mag(np.exp(a)) - lv, lv))
+    np.testing.assert_allclose(x, [1.0], rtol=1e-12)

@@ -99,12 +99,14 @@ def _crossing(mag_fn, lo_hz: np.ndarray, hi_hz: np.ndarray, level) -> np.ndarray
     Bisection in log f (:func:`_bisected`) ends on that pair of floats. Each step here instead
     takes the false-position estimate ``x`` of the crossing in the bracket ``[a, b]`` and
     probes ``x ± d`` with ``d = max(_PROBE·w², one float step)``, ``w = b − a`` (the midpoint
-    alone once ``4d ≥ w``); the next bracket is the part of ``[a, x − d, x + d, b]`` where the
-    sign changes. A smooth magnitude lets that shrink the bracket from one sweep step to a few
-    float steps in four or five steps where bisection takes some forty. Where ``mag − level``
+    alone once ``4d ≥ w``, and after a step that did not halve the bracket); the next bracket is
+    the part of ``[a, x − d, x + d, b]`` where the sign changes. A smooth magnitude lets that
+    shrink the bracket from one sweep step to a few float steps in four or five steps where
+    bisection takes some forty; at worst it takes two steps per halving. Where ``mag − level``
     changes sign once in the bracket both end on the same pair of floats, so the value is
-    bisection's, bit for bit. Where the ends do not differ in sign or are not finite, bisection
-    itself (as before).
+    bisection's, bit for bit. Bisection itself (as before) where the ends do not differ in sign
+    or are not finite, or where its 60 halvings might stop short of neighbouring floats (a
+    bracket at or near 1 Hz, where log f's floats are finer).
     """
     a, b = np.log(lo_hz), np.log(hi_hz)
     n = a.size
@@ -112,17 +114,19 @@ def _crossing(mag_fn, lo_hz: np.ndarray, hi_hz: np.ndarray, level) -> np.ndarray
     k2, level2 = np.concatenate([np.arange(n)] * 2), np.concatenate([level, level])
     ends = mag_fn(np.exp(np.concatenate([a, b])), k2) - level2
     fa, fb = ends[:n], ends[n:]
-    if not (np.isfinite(ends).all() and (np.signbit(fa) != np.signbit(fb)).all()):
+    if not (np.isfinite(ends).all() and (np.signbit(fa) != np.signbit(fb)).all()
+            and (b - a <= 2.0**50 * np.spacing(np.minimum(np.abs(a), np.abs(b)))).all()):
         return _bisected(mag_fn, a, b, fa, level)
     cols = np.arange(n)
-    for _ in range(200):  # a step never leaves the bracket as it was, and some five do
+    slow = np.zeros(n, dtype=bool)
+    for _ in range(200):  # two steps per halving at most: some 90 from a sweep step to one float
         m = 0.5 * (a + b)
         if ((m == a) | (m == b)).all():
             break
         w = b - a
         d = np.maximum(_PROBE * w * w, np.spacing(np.maximum(np.abs(a), np.abs(b))))
         x = a - fa * (w / (fb - fa))  # fa, fb of opposite signs: inside [a, b] up to rounding
-        mid = (4.0 * d >= w) | ~np.isfinite(x)  # (fa and fb both zeros of opposite signs)
+        mid = (4.0 * d >= w) | slow | ~np.isfinite(x)  # (x: fa and fb both zeros of opposite signs)
         x1 = np.where(mid, m, np.clip(x - d, a, b))
         x2 = np.where(mid, m, np.clip(x + d, a, b))
         f = mag_fn(np.exp(np.concatenate([x1, x2])), k2) - level2
@@ -130,6 +134,7 @@ def _crossing(mag_fn, lo_hz: np.ndarray, hi_hz: np.ndarray, level) -> np.ndarray
         vals = np.stack([fa, f[:n], f[n:], fb])
         j = np.argmax(np.signbit(vals) != np.signbit(fa), axis=0)  # the first point past the change (1 to 3)
         a, fa, b, fb = pts[j - 1, cols], vals[j - 1, cols], pts[j, cols], vals[j, cols]
+        slow = b - a > 0.5 * w
     return np.exp(0.5 * (a + b))
 
 
