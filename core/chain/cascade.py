@@ -70,6 +70,7 @@ from bandsmith.common.values import format_value
 from bandsmith.chain.chain_settings import AUTO, STAGE_HOLD, Chain, ChainSettings, ChainStage, circuit_choices
 from bandsmith.chain.cascade_json import cascade_json, cascade_session, chains_in
 from bandsmith.chain.chain_measure import Overall, chain_peaks, max_dev_db, measure_chains, reference_zpk, sweep_frequencies
+from bandsmith.chain.stage_designs import PendingStage, prepare_stages
 from bandsmith.chain.stage_verdicts import choose_auto, hold_warnings
 
 __all__ = [
@@ -257,11 +258,7 @@ class Cascade:
             return stacked.at_f(f)
         out = np.empty((len(self.stages), f.size), dtype=complex)
         for k, st in enumerate(self.stages):
-            h = st.h_actual if actual and st.h_actual is not None else st.h_ideal
-            if h is None:
-                out[k] = biquad_bandpass(2j * math.pi * f, [2 * math.pi * st.plan.f0_hz], [st.plan.q], [st.plan.gain])[0]
-            else:
-                out[k] = h.at_f(f)[0]
+            out[k] = _stage_response(st, f, actual=actual)
         return out
 
     def response(self, f_hz: np.ndarray, *, actual: bool = False) -> np.ndarray:
@@ -287,6 +284,15 @@ class Cascade:
         return Chain(chain_id, self.settings, stages, notes)
 
 
+def _stage_response(st: Stage, f: np.ndarray, *, actual: bool = False) -> np.ndarray:
+    """One stage's response at frequencies ``f`` (Hz), ``(F,)`` complex: its chosen parts' (the
+    finite op-amp's where asked and known), or its planned ideal section where it is not built."""
+    h = st.h_actual if actual and st.h_actual is not None else st.h_ideal
+    if h is None:
+        return biquad_bandpass(2j * math.pi * f, [2 * math.pi * st.plan.f0_hz], [st.plan.q], [st.plan.gain])[0]
+    return h.at_f(f)[0]
+
+
 def _stacked(stages: tuple[Stage, ...], actual: bool) -> Rational | None:
     """Every stage's transfer function (the finite op-amp's where asked and known) as one batch,
     or None when a stage has none (or there is no stage).
@@ -301,11 +307,9 @@ def _stacked(stages: tuple[Stage, ...], actual: bool) -> Rational | None:
     return Rational.joined([h.take(slice(0, 1)) for h in hs])
 
 
-def _attempts(ids, plan: SectionPlan, series: str, conditions: Conditions):
-    """``(result, Attempt)`` of each circuit for a stage, their designs analysed in one batch."""
-    from bandsmith.design.designer import Spec, designs_or_errors
-
-    made = designs_or_errors(ids, Spec(plan.f0_hz, plan.q, plan.gain), series=series, conditions=conditions)
+def _attempts(ids, plan: SectionPlan, series: str, made: list, conditions: Conditions):
+    """``(result, Attempt)`` of each circuit for a stage from its designs ``made`` (in the order
+    of ``ids``: a result, or the :class:`InputError` that circuit raised) under ``conditions``."""
     return [(None, Attempt(t, False, None, None, None, res.reason)) if isinstance(res, InputError) else _assess(t, res, plan, series, conditions)
             for t, res in zip(ids, made)]
 
@@ -391,19 +395,37 @@ def _stage_rsource(conditions: Conditions, index: int) -> float | None:
     return conditions.rsource_ohm if index == 1 else None
 
 
-def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, conditions: Conditions) -> Stage:
+def _stage_conditions(conditions: Conditions, plan: SectionPlan, vin_v: float) -> Conditions:
+    """A stage's conditions: the amplitude reaching it, its stage tolerances, its source (module notes)."""
+    return replace(conditions, vin_v=vin_v, tolerances=stage_tolerances(conditions.tolerances, plan.q), rsource_ohm=_stage_rsource(conditions, plan.index))
+
+
+def _stage_circuits(settings: ChainSettings) -> list[str]:
+    """The circuits tried for every stage: the one named, or with ``auto`` all of them."""
+    return list(topology_ids()) if settings.circuit == AUTO else [settings.circuit]
+
+
+def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, conditions: Conditions, pending: PendingStage | None = None) -> Stage:
+    """A stage built from its circuits' designs (``pending``: made before, with the other stages')."""
     if plan.q > MAX_STAGE_Q:
         return Stage(
             plan, vin_v, None, (), False,
             f"Q {plan.q:.4g} is above {MAX_STAGE_Q:g}, beyond any of our circuits with real parts ({_Q_CAP_WHY})",
         )
-    cond = replace(conditions, vin_v=vin_v, tolerances=stage_tolerances(conditions.tolerances, plan.q), rsource_ohm=_stage_rsource(conditions, plan.index))
+    ids = _stage_circuits(settings)
+    if pending is not None:
+        cond, made = pending.results(vin_v)
+    else:  # its circuits' designs, analysed in one batch
+        from bandsmith.design.designer import Spec, designs_or_errors
+
+        cond = _stage_conditions(conditions, plan, vin_v)
+        made = designs_or_errors(ids, Spec(plan.f0_hz, plan.q, plan.gain), series=settings.series, conditions=cond)
+    tried = _attempts(ids, plan, settings.series, made, cond)
     if settings.circuit != AUTO:
-        res, att = _attempts([settings.circuit], plan, settings.series, cond)[0]
+        res, att = tried[0]
         if not att.feasible:
             return Stage(plan, vin_v, res, (att,), False, f"{settings.circuit} cannot build it: {att.reason}")
         return _finish(plan, vin_v, res, (att,), conditions, (f"{att.reason}",) if att.reason else ())
-    tried = _attempts(topology_ids(), plan, settings.series, cond)
     attempts = tuple(a for _, a in tried)
     usable = [(i, res, a) for i, (res, a) in enumerate(tried) if a.sane]
     if not usable:
@@ -420,12 +442,35 @@ def _finish(plan, vin_v, res, attempts, conditions: Conditions, notes: tuple[str
     return Stage(plan, vin_v, res, attempts, True, None, an.h_ideal, an.h_actual, warnings=tuple(res.warnings) + tuple(notes))
 
 
-def _stage_vin(settings: ChainSettings, conditions: Conditions, plan: CascadePlan, built: list[Stage], sec: SectionPlan) -> float:
-    """Amplitude reaching a stage at its own f0 (earlier stages as built, ideal op-amp)."""
-    if not built:
-        return conditions.vin_v
-    partial = Cascade(settings, conditions, plan, tuple(built), False, None, None, None, None, None, None, np.empty(0))
-    return conditions.vin_v * float(abs(partial.response(np.array([sec.f0_hz]))[0]))
+class _Amplitudes:
+    """The amplitude reaching each stage of a chain built in signal order (module notes): at stage
+    k's own f0, ``vin·|H_1…H_(k−1)(f_k)|``, the earlier stages as built (ideal op-amp; a stage not
+    built as its planned section).
+
+    Each built stage's response is evaluated once, at every stage's f0 (:meth:`add`); stage k's
+    amplitude is numpy's product over the stages before it of column k, ``(k − 1, 1)``, so each
+    stage's value is multiplied in signal order, as the partial chain's response there gives it.
+    """
+
+    __slots__ = ("_at", "_f0", "_n", "_vin")
+
+    def __init__(self, conditions: Conditions, plan: CascadePlan):
+        self._vin = conditions.vin_v
+        self._f0 = np.array([sec.f0_hz for sec in plan.sections])
+        self._at = np.empty((self._f0.size, self._f0.size), dtype=complex)  # row j: stage j + 1 at every f0
+        self._n = 0
+
+    def next(self) -> float:
+        """The amplitude (V peak) reaching the next stage."""
+        k = self._n
+        if k == 0:
+            return self._vin
+        return self._vin * float(abs(np.prod(self._at[:k, k : k + 1], axis=0)[0]))
+
+    def add(self, stage: Stage) -> None:
+        """The next stage, as built."""
+        self._at[self._n] = _stage_response(stage, self._f0)
+        self._n += 1
 
 
 def design_cascade(settings: ChainSettings, *, conditions: Conditions = Conditions()) -> Cascade:
@@ -443,17 +488,36 @@ def design_cascade(settings: ChainSettings, *, conditions: Conditions = Conditio
     -------
     Cascade
         With ``feasible`` False and a plain ``reason`` when a stage cannot be built.
+
+    Notes
+    -----
+    Every stage's circuits are designed first, their analyses in as few batches as their
+    conditions allow (:mod:`bandsmith.chain.stage_designs`); the stages are then built in signal
+    order, each concluded under the amplitude the stages before it let through
+    (:class:`_Amplitudes`). The results are those of designing each stage once the ones before
+    it are built.
     """
+    from bandsmith.design.designer import Spec
+
     plan = plan_cascade(settings.prototype(), settings.band, settings.gain)
+    # every stage's designs made first, in one batch (bandsmith.chain.stage_designs), each with
+    # the chain's input amplitude standing in for its own until the stages before it are built
+    ids = _stage_circuits(settings)
+    buildable = [sec for sec in plan.sections if sec.q <= MAX_STAGE_Q]
+    pending = dict(zip(
+        (sec.index for sec in buildable),
+        prepare_stages([(ids, Spec(sec.f0_hz, sec.q, sec.gain), _stage_conditions(conditions, sec, conditions.vin_v)) for sec in buildable], settings.series),
+    ))
+    amps = _Amplitudes(conditions, plan)
     built: list[Stage] = []
     for sec in plan.sections:
-        built.append(_build_stage(sec, _stage_vin(settings, conditions, plan, built, sec), settings, conditions))
+        built.append(_build_stage(sec, amps.next(), settings, conditions, pending.get(sec.index)))
+        amps.add(built[-1])
     return _assemble(settings, conditions, plan, tuple(built))
 
 
-def _redrive(settings: ChainSettings, conditions: Conditions, plan: CascadePlan, built: list[Stage], st: Stage) -> Stage:
-    """A built stage re-analysed for the amplitude that now reaches it (parts unchanged)."""
-    vin = _stage_vin(settings, conditions, plan, built, st.plan)
+def _redrive(st: Stage, vin: float) -> Stage:
+    """A built stage re-analysed for the amplitude ``vin`` that now reaches it (parts unchanged)."""
     if not st.feasible or abs(vin / st.vin_v - 1.0) <= 1e-12:
         return replace(st, vin_v=vin)
     res = st.result
@@ -474,11 +538,15 @@ def with_stage_circuit(result: Cascade, index: int, circuit: str) -> Cascade:
     if circuit not in circuit_choices():
         raise InputError("circuit", f"{circuit!r} is not a circuit; choose one of {', '.join(circuit_choices())}")
     settings, conditions, plan = result.settings, result.conditions, result.plan
+    amps = _Amplitudes(conditions, plan)
     built = list(result.stages[: index - 1])
-    sec = plan.sections[index - 1]
-    built.append(_build_stage(sec, _stage_vin(settings, conditions, plan, built, sec), replace(settings, circuit=circuit), conditions))
+    for st in built:
+        amps.add(st)
+    built.append(_build_stage(plan.sections[index - 1], amps.next(), replace(settings, circuit=circuit), conditions))
+    amps.add(built[-1])
     for st in result.stages[index:]:
-        built.append(_redrive(settings, conditions, plan, built, st))
+        built.append(_redrive(st, amps.next()))
+        amps.add(built[-1])
     return _assemble(settings, conditions, plan, tuple(built))
 
 
@@ -493,10 +561,11 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
 
     settings = chain.settings
     plan = plan_cascade(settings.prototype(), settings.band, settings.gain)
+    amps = _Amplitudes(conditions, plan)
     built: list[Stage] = []
     for sec, saved in zip(plan.sections, chain.stages):
-        vin = _stage_vin(settings, conditions, plan, built, sec)
-        cond = replace(conditions, vin_v=vin, tolerances=stage_tolerances(conditions.tolerances, sec.q), rsource_ohm=_stage_rsource(conditions, sec.index))
+        vin = amps.next()
+        cond = _stage_conditions(conditions, sec, vin)
         cand = Candidate(saved.topology_id, saved.values)
         an = cand.analyze(cond)
         spec = Spec(sec.f0_hz, sec.q, sec.gain)
@@ -510,6 +579,7 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
         )
         att = Attempt(cand.topology_id, True, an.required_gbw[0], sp["r"] or 1.0, sp["c"] or 1.0, None, errors, within, weighted_error(errors, tol))
         built.append(Stage(sec, vin, res, (att,), True, None, an.h_ideal, an.h_actual))
+        amps.add(built[-1])
     return _assemble(settings, conditions, plan, tuple(built))
 
 
