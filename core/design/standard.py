@@ -30,7 +30,7 @@ import numpy as np
 
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
-from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
+from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion
 from bandsmith.analysis.figures import Figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
@@ -133,6 +133,58 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
     return exp.rational(ratios, w_ref=w_ref)
 
 
+def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tuple[int, ...], w_ref: float):
+    """:func:`_combinations` of every combination of the search, given as the flat options
+    ``flat`` of the ``free`` parts (each part's ``sizes[i]`` options, then its nearest value) taken
+    by :func:`_flat_combination_index`: the same transfer functions, bit for bit.
+
+    Through the expansion, the natural logs of the ratios go to
+    :meth:`bandsmith.solver.expansion.Expansion.rational_log` as one gather: ``log(x/u)`` is taken
+    once per offered value (a few dozen) instead of once per combination and part, and a
+    logarithm is the same correctly rounded function of the same number wherever it is taken.
+    Where the expansion does not apply, or the batch is past its small-batch products,
+    :func:`_combinations`.
+    """
+    index = _flat_combination_index(sizes)
+    try:
+        exp, variables = unit_expansion(netlist)
+    except ExpansionUnavailable:
+        exp = None
+    if exp is None or index.shape[1] > SMALL_BATCH:
+        return _combinations(netlist, dict(zip(free, flat[index])), w_ref)
+    # the logs of every value a combination can hold, in one array: the free parts' options and
+    # nearest values over their unit values, then the other variables' own ratios
+    at = {r: k for k, r in enumerate(free)}
+    units = [u.value for u in exp.variables]
+    held = [j for j, v in enumerate(variables) if v.name not in at]
+    per_entry = np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes])
+    ratios = np.concatenate([flat / per_entry, [variables[j].value / units[j] for j in held]])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        logs = np.log(ratios)
+    return exp.rational_log(logs[_log_gather(sizes, tuple(at.get(v.name, -1) for v in variables))], w_ref=w_ref)
+
+
+@functools.lru_cache(maxsize=64)
+def _log_gather(sizes: tuple[int, ...], rows: tuple[int, ...]) -> np.ndarray:
+    """``(combinations, variables)`` positions in :func:`_option_combinations`'s logs, row by row
+    the log ratios of one combination (the member that rounds every part alone last): variable
+    ``j`` is free part ``rows[j]`` (its row of :func:`_flat_combination_index`) or, where
+    ``rows[j]`` is −1, held at its own value (one entry after the options, in the variables'
+    order). Read-only."""
+    index = _flat_combination_index(sizes)
+    n_flat = sum(sizes) + len(sizes)
+    out = np.empty((index.shape[1], len(rows)), dtype=np.intp)
+    held = 0
+    for j, r in enumerate(rows):
+        if r >= 0:
+            out[:, j] = index[r]
+        else:
+            out[:, j] = n_flat + held
+            held += 1
+    out.setflags(write=False)
+    return out
+
+
 @functools.lru_cache(maxsize=64)
 def _combination_index(sizes: tuple[int, ...]) -> np.ndarray:
     """Index rows ``(len(sizes), N + 1)`` that enumerate every combination of options of these
@@ -193,12 +245,14 @@ def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
 
 @dataclass(frozen=True, slots=True)
 class _Search:
-    """One circuit's combinations (``every``: parts × combinations, the last member every part
+    """One circuit's combinations (the flat options ``flat`` of the ``free`` parts taken by
+    ``index``, parts × combinations, :func:`_flat_combination_index`; the last member every part
     rounded alone) and their transfer functions ``h``, waiting for their cost."""
 
     values: dict[str, float]
     free: list[str]
-    every: np.ndarray
+    flat: np.ndarray
+    index: np.ndarray
     h: Rational
     spec: Spec
     tolerances: Tolerances
@@ -207,7 +261,7 @@ class _Search:
         """The combination of least cost (the last member, every part rounded alone, only compared)."""
         i = int(np.argmin(cost[:-1]))
         chosen = dict(self.values)
-        chosen.update(zip(self.free, self.every[:, i].tolist()))
+        chosen.update(zip(self.free, self.flat[self.index[:, i]].tolist()))
         return Choice(
             values=chosen if math.isfinite(cost[i]) else None,
             combinations=int(cost.size - 1),
@@ -240,7 +294,6 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     # them, in one flat array taken by a combination index.
     sizes = tuple(len(o) for o in options)
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
-    every = flat[_flat_combination_index(sizes)]  # (parts, combinations)
     with np.errstate(all="ignore"):
-        h = _combinations(netlist, dict(zip(free, every)), spec.w0)
-    return _Search(values, free, every, h, spec, tolerances)
+        h = _option_combinations(netlist, free, flat, sizes, spec.w0)
+    return _Search(values, free, flat, _flat_combination_index(sizes), h, spec, tolerances)

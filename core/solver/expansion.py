@@ -711,8 +711,13 @@ class Expansion:
             with np.errstate(divide="ignore", invalid="ignore"):
                 lr = np.log(r)
             num, den = self.dense_log(lr, absent=absent)
+        return self._in_p(num, den, w_ref)
+
+    def _in_p(self, num: np.ndarray, den: np.ndarray, w_ref: float | None) -> tuple[np.ndarray, np.ndarray]:
+        """Dense coefficients in this expansion's ``p`` taken, in place, to ``p = s/w_ref``
+        (``c·(s/w_e)^n = c·k^n·(s/w_ref)^n``, ``k = w_ref/w_e``); unchanged for None."""
         if w_ref is not None and w_ref != self.w_ref:
-            k = w_ref / self.w_ref  # c·(s/w_e)^n = c·k^n·(s/w_ref)^n
+            k = w_ref / self.w_ref
             num *= k ** np.arange(num.shape[1] - 1, -1, -1.0)
             den *= k ** np.arange(den.shape[1] - 1, -1, -1.0)
         return num, den
@@ -794,7 +799,17 @@ class Expansion:
             Coefficients in ``p = s/w_ref``, highest power first, each member scaled so that its
             largest denominator coefficient is ±1.
         """
-        num, den = self.dense(ratios, w_ref=w_ref)
+        return self._rational(*self.dense(ratios, w_ref=w_ref), w_ref)
+
+    def rational_log(self, log_ratios: np.ndarray, *, w_ref: float | None = None) -> Rational:
+        """:meth:`rational` from the natural logs of the ratios, ``(B, len(variables))`` (any batch
+        size, by :meth:`dense_log`): the same transfer functions, bit for bit, as :meth:`rational`
+        of their exponentials up to :data:`SMALL_BATCH` members (which takes their logs first)."""
+        return self._rational(*self._in_p(*self.dense_log(log_ratios), w_ref), w_ref)
+
+    def _rational(self, num: np.ndarray, den: np.ndarray, w_ref: float | None) -> Rational:
+        """Dense coefficients in ``p = s/w_ref`` as a :class:`Rational`, each member scaled so that
+        its largest denominator coefficient is ±1."""
         w = self.w_ref if w_ref is None else float(w_ref)
         with np.errstate(invalid="ignore", divide="ignore"):
             scale = np.abs(den).max(axis=1, keepdims=True)
