@@ -30,7 +30,7 @@ import numpy as np
 
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
-from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion
+from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion, unit_expansion_values
 from bandsmith.analysis.figures import Figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
@@ -147,7 +147,7 @@ def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tupl
     """
     index = _flat_combination_index(sizes)
     try:
-        exp, variables = unit_expansion(netlist)
+        exp, own = unit_expansion_values(netlist)
     except ExpansionUnavailable:
         exp = None
     if exp is None or index.shape[1] > SMALL_BATCH:
@@ -156,12 +156,12 @@ def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tupl
     # nearest values over their unit values, then the other variables' own ratios
     at = {r: k for k, r in enumerate(free)}
     units = [u.value for u in exp.variables]
-    held = [j for j, v in enumerate(variables) if v.name not in at]
+    held = [j for j, u in enumerate(exp.variables) if u.name not in at]
     per_entry = np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes])
-    ratios = np.concatenate([flat / per_entry, [variables[j].value / units[j] for j in held]])
+    ratios = np.concatenate([flat / per_entry, [own[j] / units[j] for j in held]])
     with np.errstate(divide="ignore", invalid="ignore"):
         logs = np.log(ratios)
-    return exp.rational_log(logs[_log_gather(sizes, tuple(at.get(v.name, -1) for v in variables))], w_ref=w_ref)
+    return exp.rational_log(logs[_log_gather(sizes, tuple(at.get(u.name, -1) for u in exp.variables))], w_ref=w_ref)
 
 
 @functools.lru_cache(maxsize=64)

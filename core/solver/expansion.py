@@ -28,6 +28,7 @@ from __future__ import annotations
 import math
 import os
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -37,7 +38,7 @@ from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import _ANGLE_OFFSET, Rational, _circle, _degree_bound, rational_from_system
 
 __all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "UNIT_OPAMP", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path",
-           "SMALL_BATCH", "TABLE_FORMAT"]
+           "SMALL_BATCH", "TABLE_FORMAT", "unit_expansion_values"]
 
 # An op-amp model whose stamps are 1 (``1/A0`` and ``1/ωt``, s-units): with it a unit expansion's
 # op-amp ratios are 1 and its absent or unit stamps select the op-amp's terms.
@@ -111,16 +112,34 @@ def circuit_variables(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Vari
     ``series_ref`` (or ``"<ref>.rs"``) when it is above zero. A finite op-amp adds ``gbw`` and
     ``a0`` (degree: the number of op-amps).
     """
+    return tuple(Variable(*f) for f in _variable_fields(netlist, opamp))
+
+
+class _Field(NamedTuple):
+    """A :class:`Variable`'s fields as a plain tuple (cheaper to make than the frozen record)."""
+
+    name: str
+    kind: str
+    value: float
+    degree: int
+
+
+def _variable_fields(netlist: Netlist, opamp: OpAmpModel) -> list[_Field]:
+    """:func:`circuit_variables` as :class:`_Field` tuples (:func:`unit_expansion_values` needs
+    only the values and the structure)."""
     out = []
-    for e in netlist.passives:
-        out.append(Variable(e.ref, e.kind, float(e.value)))
+    m = 0  # op-amps
+    for e in netlist.elements:
+        if e.kind == "opamp":
+            m += 1
+            continue
+        out.append(_Field(e.ref, e.kind, float(e.value), 1))
         if e.kind == "L" and e.series_resistance > 0:
-            out.append(Variable(e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance)))
-    m = len(netlist.opamps)
+            out.append(_Field(e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance), 1))
     if not opamp.ideal and m:
-        out.append(Variable("gbw", "gbw", float(opamp.gbw_hz), m))
-        out.append(Variable("a0", "a0", float(opamp.a0), m))
-    return tuple(out)
+        out.append(_Field("gbw", "gbw", float(opamp.gbw_hz), m))
+        out.append(_Field("a0", "a0", float(opamp.a0), m))
+    return out
 
 
 def _system_for(netlist: Netlist, variables: tuple[Variable, ...], values: np.ndarray, opamp: OpAmpModel):
@@ -439,7 +458,9 @@ def _unit_netlist(netlist: Netlist) -> Netlist:
     return replace(netlist, elements=elements)
 
 
-def _structure_key(netlist: Netlist, variables: tuple[Variable, ...]) -> tuple:
+def _structure_key(netlist: Netlist, variables) -> tuple:
+    """What an expansion's fit depends on: the netlist's elements without their values, and the
+    ``(name, kind, degree)`` of each of its ``variables`` (:class:`Variable` or :class:`_Field`)."""
     elements = tuple((e.ref, e.kind, tuple(e.nodes), e.series_ref) for e in netlist.elements)
     return (elements, netlist.ground, netlist.input, netlist.output,
             tuple((v.name, v.kind, v.degree) for v in variables))
@@ -726,7 +747,12 @@ class Expansion:
         """The natural logs of a circuit's own values over this expansion's (``variables`` as
         :func:`unit_expansion` returns them beside it, in its order): ``(n_var,)``, what
         :meth:`dense_log` and :meth:`opamp_terms` take for one member."""
-        return np.log([v.value / u.value for v, u in zip(variables, self.variables)])
+        return self.log_ratios_of([v.value for v in variables])
+
+    def log_ratios_of(self, values) -> np.ndarray:
+        """:meth:`log_ratios` from the variables' values (SI units, in this expansion's order, as
+        :func:`unit_expansion_values` gives them)."""
+        return np.log([x / u.value for x, u in zip(values, self.variables)])
 
     def dense_log(self, log_ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`dense` from the natural logs of the ratios (any batch size, the expansion's
@@ -822,6 +848,18 @@ class Expansion:
 
 
 _UNIT: dict[tuple, "Expansion"] = {}
+
+
+def unit_expansion_values(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, list[float]]:
+    """:func:`unit_expansion`'s expansion, and the values of ``netlist``'s own variables (in SI
+    units, in the expansion's order) as plain floats instead of :class:`Variable` records: what
+    :meth:`Expansion.log_ratios_of` takes. Once the structure's expansion is kept, no record is
+    made. Raises :class:`ExpansionUnavailable` as :func:`unit_expansion` does."""
+    fields = _variable_fields(netlist, opamp)
+    exp = _UNIT.get((_structure_key(netlist, fields), opamp))
+    if exp is None:
+        exp = unit_expansion(netlist, opamp, fit=fit)[0]
+    return exp, [f.value for f in fields]
 
 
 def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, tuple[Variable, ...]]:
