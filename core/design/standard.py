@@ -92,11 +92,19 @@ def weighted_error(errors: Mapping[str, float], tolerances: Tolerances = Toleran
 
 
 def _weighted_batch(fig: Figures, spec: Spec, tol: Tolerances) -> np.ndarray:
+    """The weighted error (module notes) of every member of ``fig`` against ``spec``; inf where undefined."""
+    return _weighted_rows(fig.f0_hz, fig.q, fig.gain_center_db, spec.f0_hz, spec.q, 20.0 * math.log10(spec.gain),
+                          tol.f0, tol.q, tol.gain_db)
+
+
+def _weighted_rows(f0, q, gain_db, f0_target, q_target, gain_db_target, tol_f0, tol_q, tol_gain_db) -> np.ndarray:
+    """:func:`_weighted_batch` from the figures' arrays, the targets and the tolerances each a
+    scalar or one per member (the same operations member by member either way)."""
     with np.errstate(invalid="ignore", divide="ignore"):
         e = np.sqrt(
-            ((fig.f0_hz / spec.f0_hz - 1.0) / tol.f0) ** 2
-            + ((fig.q / spec.q - 1.0) / tol.q) ** 2
-            + ((fig.gain_center_db - 20.0 * math.log10(spec.gain)) / tol.gain_db) ** 2
+            ((f0 / f0_target - 1.0) / tol_f0) ** 2
+            + ((q / q_target - 1.0) / tol_q) ** 2
+            + ((gain_db - gain_db_target) / tol_gain_db) ** 2
         )
     return np.where(np.isfinite(e), e, np.inf)
 
@@ -235,12 +243,46 @@ def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
         # exact polynomial roots up to a few thousand members; a grid around the target beyond
         figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
-        for i in live:
-            m = made[i]
-            fig = figs[i] if i in figs else measure(m.h, grid=search_grid(m.spec.q))
-            cost = np.where(hurwitz_stable(m.h.den) & fig.valid, _weighted_batch(fig, m.spec, m.tolerances), np.inf)
-            made[i] = m.choice(cost)
+        figs.update((i, measure(made[i].h, grid=search_grid(made[i].spec.q))) for i in live if i not in figs)
+        for group in _same_width(made, live):
+            costs = _costs([made[i] for i in group], [figs[i] for i in group])
+            for i, cost in zip(group, costs):
+                made[i] = made[i].choice(cost)
     return made
+
+
+def _same_width(made: list, live: list[int]) -> list[list[int]]:
+    """The searches of ``live`` in groups whose denominators have one width (all of them, as a
+    rule: the combinations of an ideal op-amp's circuit are second order)."""
+    groups: dict[int, list[int]] = {}
+    for i in live:
+        groups.setdefault(made[i].h.den.shape[1], []).append(i)
+    return list(groups.values())
+
+
+def _costs(searches: list[_Search], figs: list[Figures]) -> list[np.ndarray]:
+    """Each search's costs: its weighted errors where the combination is stable (Routh–Hurwitz)
+    and measured, inf elsewhere. Denominators of one width: the stability test and the weighted
+    errors of every search in one batch, each search's targets and tolerances repeated over its
+    members (the same operations, member by member, as each search alone)."""
+    if len(searches) == 1:
+        m, fig = searches[0], figs[0]
+        return [np.where(hurwitz_stable(m.h.den) & fig.valid, _weighted_batch(fig, m.spec, m.tolerances), np.inf)]
+    sizes = [m.h.batch for m in searches]
+
+    def each(value) -> np.ndarray:
+        return np.repeat([value(m) for m in searches], sizes)
+
+    def joined(name: str) -> np.ndarray:
+        return np.concatenate([getattr(f, name) for f in figs])
+
+    weighted = _weighted_rows(
+        joined("f0_hz"), joined("q"), joined("gain_center_db"), each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
+        each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
+    )
+    valid = np.concatenate([f.valid for f in figs])
+    cost = np.where(hurwitz_stable(np.concatenate([m.h.den for m in searches])) & valid, weighted, np.inf)
+    return np.split(cost, np.cumsum(sizes)[:-1])
 
 
 @dataclass(frozen=True, slots=True)
