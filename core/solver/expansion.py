@@ -28,7 +28,6 @@ from __future__ import annotations
 import math
 import os
 from dataclasses import dataclass
-from typing import NamedTuple
 
 import numpy as np
 
@@ -115,30 +114,21 @@ def circuit_variables(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Vari
     return tuple(Variable(*f) for f in _variable_fields(netlist, opamp))
 
 
-class _Field(NamedTuple):
-    """A :class:`Variable`'s fields as a plain tuple (cheaper to make than the frozen record)."""
-
-    name: str
-    kind: str
-    value: float
-    degree: int
-
-
-def _variable_fields(netlist: Netlist, opamp: OpAmpModel) -> list[_Field]:
-    """:func:`circuit_variables` as :class:`_Field` tuples (:func:`unit_expansion_values` needs
-    only the values and the structure)."""
+def _variable_fields(netlist: Netlist, opamp: OpAmpModel) -> list[tuple[str, str, float, int]]:
+    """:func:`circuit_variables` as plain ``(name, kind, value, degree)`` tuples (cheaper to make
+    than the records: a kept expansion's lookup needs only the structure and the values)."""
     out = []
     m = 0  # op-amps
     for e in netlist.elements:
         if e.kind == "opamp":
             m += 1
             continue
-        out.append(_Field(e.ref, e.kind, float(e.value), 1))
+        out.append((e.ref, e.kind, float(e.value), 1))
         if e.kind == "L" and e.series_resistance > 0:
-            out.append(_Field(e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance), 1))
+            out.append((e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance), 1))
     if not opamp.ideal and m:
-        out.append(_Field("gbw", "gbw", float(opamp.gbw_hz), m))
-        out.append(_Field("a0", "a0", float(opamp.a0), m))
+        out.append(("gbw", "gbw", float(opamp.gbw_hz), m))
+        out.append(("a0", "a0", float(opamp.a0), m))
     return out
 
 
@@ -458,12 +448,16 @@ def _unit_netlist(netlist: Netlist) -> Netlist:
     return replace(netlist, elements=elements)
 
 
-def _structure_key(netlist: Netlist, variables) -> tuple:
+def _structure_key(netlist: Netlist, variables: tuple[Variable, ...]) -> tuple:
     """What an expansion's fit depends on: the netlist's elements without their values, and the
-    ``(name, kind, degree)`` of each of its ``variables`` (:class:`Variable` or :class:`_Field`)."""
+    name, kind and degree of each of its ``variables``."""
+    return _fields_key(netlist, [(v.name, v.kind, v.value, v.degree) for v in variables])
+
+
+def _fields_key(netlist: Netlist, fields: list[tuple[str, str, float, int]]) -> tuple:
+    """:func:`_structure_key` from the variables' :func:`_variable_fields`."""
     elements = tuple((e.ref, e.kind, tuple(e.nodes), e.series_ref) for e in netlist.elements)
-    return (elements, netlist.ground, netlist.input, netlist.output,
-            tuple((v.name, v.kind, v.degree) for v in variables))
+    return (elements, netlist.ground, netlist.input, netlist.output, tuple((name, kind, degree) for name, kind, _, degree in fields))
 
 
 def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: OpAmpModel, sizes: list[int]) -> _Fit:
@@ -856,10 +850,10 @@ def unit_expansion_values(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: b
     :meth:`Expansion.log_ratios_of` takes. Once the structure's expansion is kept, no record is
     made. Raises :class:`ExpansionUnavailable` as :func:`unit_expansion` does."""
     fields = _variable_fields(netlist, opamp)
-    exp = _UNIT.get((_structure_key(netlist, fields), opamp))
+    exp = _UNIT.get((_fields_key(netlist, fields), opamp))
     if exp is None:
         exp = unit_expansion(netlist, opamp, fit=fit)[0]
-    return exp, [f.value for f in fields]
+    return exp, [value for _, _, value, _ in fields]
 
 
 def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, tuple[Variable, ...]]:
@@ -872,8 +866,9 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = T
     the structure would have to be fitted now (it is neither fitted yet nor in the shipped table:
     for a caller with a cheaper way than a fit of several op-amps' stamps, up to a second).
     """
-    variables = circuit_variables(netlist, opamp)
-    structure = _structure_key(netlist, variables)
+    fields = _variable_fields(netlist, opamp)
+    variables = tuple(Variable(*f) for f in fields)  # circuit_variables(netlist, opamp)
+    structure = _fields_key(netlist, fields)
     key = (structure, opamp)
     exp = _UNIT.get(key)
     if exp is None:
