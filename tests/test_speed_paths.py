@@ -105,6 +105,27 @@ def test_quadratic_hurwitz_shortcut_agrees_with_the_roots():
     assert_array_equal(hurwitz_stable(den), want)
 
 
+def test_hurwitz_of_one_polynomial_equals_the_batch_form_row_by_row():
+    """hurwitz_stable of a single polynomial (Python floats) against the array form of the same
+    polynomial in a batch, degrees 0 to 6, scales over 60 decades, zeros, signs, infinities and
+    NaN (Routh's test, E. J. Routh, A Treatise on the Stability of a Given State of Motion, 1877:
+    the same first column either way); and against numpy.roots where the roots are well defined."""
+    from bandsmith.solver.stability import hurwitz_stable
+
+    rng = np.random.default_rng(11)
+    specials = [0.0, -0.0, 1e-320, 1e308, -1e308, np.inf, -np.inf, np.nan, 1.0, -1.0]
+    with np.errstate(all="ignore"):
+        for k in range(1, 8):
+            dens = rng.normal(size=(1500, k)) * 10.0 ** rng.uniform(-30, 30, size=(1500, k))
+            dens[::3] = np.abs(dens[::3])
+            dens[::7, rng.integers(k)] = rng.choice(specials, size=dens[::7].shape[0])
+            batch = hurwitz_stable(dens)
+            one = [bool(hurwitz_stable(d[None, :])[0]) for d in dens]
+            assert one == batch.tolist()
+        for d in rng.normal(size=(300, 4)):
+            assert bool(hurwitz_stable(d[None, :])[0]) == bool(np.all(np.roots(d).real < 0))
+
+
 @pytest.mark.parametrize("circuit", ["rlc-tank", "mfb", "sallen-key", "dabp", "state-variable"])
 def test_gbw_error_sweep_through_the_family_agrees_with_the_batched_solve(circuit, monkeypatch):
     """gbw_error_sweep (the op-amp family) against the same sweep through the batched MNA solve
