@@ -33,7 +33,9 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
         return np.array([_hurwitz_one(a[0].tolist())])
     with np.errstate(invalid="ignore", divide="ignore"):
         a = a / a[:, :1]
-        ok = np.all(np.isfinite(a), axis=1)
+        ok = np.isfinite(a[:, 0])  # every entry finite, column by column (cheaper than along rows)
+        for j in range(1, k):
+            ok &= np.isfinite(a[:, j])
         if k == 1:
             return ok
         if k == 3:  # a quadratic: the two steps of the loop below written out (same arithmetic)
