@@ -128,7 +128,8 @@ def _interpolated_crossing(on_ladder: tuple[Figures, int], ref: Figures, tol: To
     sign = math.copysign(1.0, ref.gain_center)
     if not all(math.copysign(1.0, g) == sign for g in np.asarray(fig.gain_center)[sl].tolist()):
         return None
-    worst = np.abs(_BASIS @ np.array(err).T).max(axis=1)  # (T,)
+    e = np.abs(_BASIS @ np.array(err).T)  # (T, 3): each figure's interpolated error over its tolerance
+    worst = np.maximum(np.maximum(e[:, 0], e[:, 1]), e[:, 2])  # (T,): the worst of the three, as max(axis=1)
     if not (worst[0] > 1.0 and worst[-1] <= 1.0):
         return None
     k = int(np.flatnonzero(worst > 1.0)[-1]) + 1
