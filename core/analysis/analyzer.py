@@ -448,9 +448,10 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     the ideal-op-amp expansion (the one with the op-amps' stamps carries ``(m + 1)²`` times its
     integer points) and the :class:`~bandsmith.solver.rational.AmpFamily` from the one with them
     (:func:`bandsmith.analysis.transfer.several_amp_family`)."""
-    one = len(netlist.opamps) == 1
-    if not netlist.opamps:
+    m = len(netlist.opamps)
+    if not m:
         return None
+    one = m == 1
     try:
         exp, own = unit_expansion_values(netlist, UNIT_OPAMP) if one else unit_expansion_values(netlist)
     except ExpansionUnavailable:
