@@ -148,8 +148,8 @@ def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tupl
 
     Through the expansion, the natural logs of the ratios go to
     :meth:`bandsmith.solver.expansion.Expansion.rational_log` as one gather: ``log(x/u)`` is taken
-    once per offered value (a few dozen) instead of once per combination and part, and a
-    logarithm is the same correctly rounded function of the same number wherever it is taken.
+    once per offered value (a few dozen) instead of once per combination and part; numpy's log
+    maps each number alone, so a value has the same log wherever it sits in an array.
     Where the expansion does not apply, or the batch is past its small-batch products,
     :func:`_combinations`.
     """
@@ -279,7 +279,8 @@ def _costs(searches: list[_Search], figs: list[Figures]) -> list[np.ndarray]:
         return np.concatenate([getattr(f, name) for f in figs])
 
     weighted = _weighted_rows(
-        joined("f0_hz"), joined("q"), joined("gain_center_db"), each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
+        joined("f0_hz"), joined("q"), joined("gain_center_db"),
+        each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
         each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
     )
     valid = np.concatenate([f.valid for f in figs])

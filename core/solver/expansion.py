@@ -33,7 +33,7 @@ import numpy as np
 
 from bandsmith.resources import resource_path
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
-from bandsmith.solver.netlist import Netlist
+from bandsmith.solver.netlist import PASSIVE_KINDS, Netlist
 from bandsmith.solver.rational import _ANGLE_OFFSET, Rational, _circle, _degree_bound, rational_from_system
 
 __all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "UNIT_OPAMP", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path",
@@ -122,10 +122,10 @@ def _variable_fields(netlist: Netlist, opamp: OpAmpModel) -> list[tuple[str, str
     for e in netlist.elements:
         if e.kind == "opamp":
             m += 1
-            continue
-        out.append((e.ref, e.kind, float(e.value), 1))
-        if e.kind == "L" and e.series_resistance > 0:
-            out.append((e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance), 1))
+        elif e.kind in PASSIVE_KINDS:
+            out.append((e.ref, e.kind, float(e.value), 1))
+            if e.kind == "L" and e.series_resistance > 0:
+                out.append((e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance), 1))
     if not opamp.ideal and m:
         out.append(("gbw", "gbw", float(opamp.gbw_hz), m))
         out.append(("a0", "a0", float(opamp.a0), m))
