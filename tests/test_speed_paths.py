@@ -233,7 +233,7 @@ def test_search_combinations_from_gathered_logs_equal_the_values_passed_part_by_
     winding resistance or a pinned part held at its own value. A consistency check of our own two
     paths, no outside source."""
     from bandsmith.common.eseries import search_option_lists
-    from bandsmith.design.standard import _combinations, _flat_combination_index, _option_combinations
+    from bandsmith.design import standard
 
     topo = get_topology(circuit)
     rng = np.random.default_rng(5)
@@ -249,8 +249,8 @@ def test_search_combinations_from_gathered_logs_equal_the_values_passed_part_by_
         netlist = topo.build(values)
         w = 2e4 * float(np.exp(rng.uniform(-1, 1)))
         with np.errstate(all="ignore"):
-            mine = _option_combinations(netlist, free, flat, sizes, w)
-            ref = _combinations(netlist, dict(zip(free, flat[_flat_combination_index(sizes)])), w)
+            mine = standard._option_combinations(netlist, free, flat, sizes, w)
+            ref = standard._combinations(netlist, dict(zip(free, flat[standard._flat_combination_index(sizes)])), w)
         assert_array_equal(mine.num, ref.num)
         assert_array_equal(mine.den, ref.den)
         assert_array_equal(mine.w_ref, ref.w_ref)
