@@ -32,7 +32,7 @@ from bandsmith.analysis.tolerances import Tolerances, within_tolerances
 from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_family, transfer_function
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
-from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion
+from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
 from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, lead_trimmed, node_rationals, rational_and_family, reference_w
 from bandsmith.solver.stability import routh_stable
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes, step_response
@@ -448,11 +448,12 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     the ideal-op-amp expansion (the one with the op-amps' stamps carries ``(m + 1)²`` times its
     integer points) and the :class:`~bandsmith.solver.rational.AmpFamily` from the one with them
     (:func:`bandsmith.analysis.transfer.several_amp_family`)."""
-    one = len(netlist.opamps) == 1
-    if not netlist.opamps:
+    m = len(netlist.opamps)
+    if not m:
         return None
+    one = m == 1
     try:
-        exp, variables = unit_expansion(netlist, UNIT_OPAMP) if one else unit_expansion(netlist)
+        exp, own = unit_expansion_values(netlist, UNIT_OPAMP) if one else unit_expansion_values(netlist)
     except ExpansionUnavailable:
         return None
     col = exp.column
@@ -461,9 +462,9 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     # unit nominal values: the ratios are the values (an op-amp's are 1: stamps of 1); member
     # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
     rows = n_ideal + 1 if one else n_ideal
-    lr = exp.log_ratios(variables) + _sensitivity_steps(rows, len(variables), tuple(col[r] for r in refs))
+    lr = exp.log_ratios_of(own) + _sensitivity_steps(rows, len(own), tuple(col[r] for r in refs))
     if one:
-        num, den = exp.dense_log(lr, absent=_absent_mask(rows, len(variables), col["gbw"], col["a0"]))
+        num, den = exp.dense_log(lr, absent=_absent_mask(rows, len(own), col["gbw"], col["a0"]))
     else:
         num, den = exp.dense_log(lr)
     # in p = s (the unit expansion), highest power first

@@ -62,7 +62,7 @@ def search_gbw_many(
     (NaN figures where they are not near the ideal ones: the caller measures them exactly).
     """
     out: list = [((None, "the circuit has no band-pass peak with an ideal op-amp"), None)] * len(items)
-    live, hs, refs = [], [], []
+    live, hs = [], []
     for i, (netlist, ideal, family, w_ref, probe) in enumerate(items):
         ref = ideal.item()
         if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
@@ -71,20 +71,19 @@ def search_gbw_many(
         gbw = ladder if probe is None else np.append(ladder, probe)
         live.append((i, ladder, ref))
         hs.append(with_gbw(netlist, family, w_ref, gbw, a0))
-        refs.append(ideal)
     if not live:
         return out
     h = hs[0] if len(hs) == 1 else Rational.joined(hs)
     sizes = [x.batch for x in hs]
-    ref = refs[0] if len(refs) == 1 else Figures.repeated(refs, sizes)
+    # one member's figures for all, or each candidate's (as scalars) repeated over its members
+    ref = items[live[0][0]][1] if len(live) == 1 else Figures.repeated([one for _, _, one in live], sizes)
     fig = _near_figures(h, ref, tolerances)
     ok = within_tolerances(fig, ref, tolerances)  # every member against its own candidate's figures
     start = 0
     for (i, ladder, one), part, size in zip(live, hs, sizes):
         netlist, ideal, family, w_ref, probe = items[i]
-        on_ladder = fig.take(slice(start, start + ladder.size))
         at_probe = None if probe is None else (part.item(ladder.size), fig.take(slice(start + ladder.size, start + size)))
-        found = _conclude_gbw(netlist, one, family, w_ref, ladder, on_ladder, ok[start : start + ladder.size], a0=a0, tolerances=tolerances)
+        found = _conclude_gbw(netlist, one, family, w_ref, ladder, (fig, start), ok[start : start + ladder.size], a0=a0, tolerances=tolerances)
         out[i] = (found, at_probe)
         start += size
     return out
@@ -107,26 +106,30 @@ _BASIS = np.stack(
 _CROSSING_MARGIN = 0.005
 
 
-def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, ladder: np.ndarray, j: int) -> float | None:
+def _interpolated_crossing(on_ladder: tuple[Figures, int], ref: Figures, tol: Tolerances, ladder: np.ndarray, j: int) -> float | None:
     """The required GBW (Hz) inside the ladder step from ``j`` (failing) to ``j + 1`` (passing):
     each figure's error is interpolated by the cubic through the ladder points ``j − 1 … j + 2``
     (uniform in log GBW), and the last sub-step where the worst error exceeds its tolerance is
     found; the result is :data:`_CROSSING_MARGIN` above it. None where the four points are not
     all measured (a point too far off) or the interpolation disagrees with the measured pass and
-    fail at ``j`` and ``j + 1``: the caller then measures a fine ladder."""
+    fail at ``j`` and ``j + 1``: the caller then measures a fine ladder. ``on_ladder`` is
+    ``(figures, start)``: the ladder's figures are members ``start …`` of a batch (the batch the
+    ladders of several candidates are measured in, not taken apart)."""
     if j < 1 or j + 2 >= ladder.size:
         return None
-    sl = slice(j - 1, j + 3)
+    fig, start = on_ladder
+    sl = slice(start + j - 1, start + j + 3)
     # errors over tolerances at the four points, as plain numbers (a handful of them)
-    f0, q, db = (np.asarray(v)[sl].tolist() for v in (on_ladder.f0_hz, on_ladder.q, on_ladder.gain_center_db))
+    f0, q, db = (np.asarray(v)[sl].tolist() for v in (fig.f0_hz, fig.q, fig.gain_center_db))
     err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0], [(v / ref.q - 1.0) / tol.q for v in q],
            [(v - ref.gain_center_db) / tol.gain_db for v in db]]
     if not all(math.isfinite(e) for row in err for e in row):
         return None
     sign = math.copysign(1.0, ref.gain_center)
-    if not all(math.copysign(1.0, g) == sign for g in np.asarray(on_ladder.gain_center)[sl].tolist()):
+    if not all(math.copysign(1.0, g) == sign for g in np.asarray(fig.gain_center)[sl].tolist()):
         return None
-    worst = np.abs(_BASIS @ np.array(err).T).max(axis=1)  # (T,)
+    e = np.abs(_BASIS @ np.array(err).T)  # (T, 3): each figure's interpolated error over its tolerance
+    worst = np.maximum(np.maximum(e[:, 0], e[:, 1]), e[:, 2])  # (T,): the worst of the three, as max(axis=1)
     if not (worst[0] > 1.0 and worst[-1] <= 1.0):
         return None
     k = int(np.flatnonzero(worst > 1.0)[-1]) + 1
@@ -136,10 +139,11 @@ def _interpolated_crossing(on_ladder: Figures, ref: Figures, tol: Tolerances, la
 
 def _conclude_gbw(
     netlist: Netlist, ref: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float, ladder: np.ndarray,
-    on_ladder: Figures, ok: np.ndarray, *, a0: float, tolerances: Tolerances,
+    on_ladder: tuple[Figures, int], ok: np.ndarray, *, a0: float, tolerances: Tolerances,
 ) -> tuple[float | None, str | None]:
     """The required GBW from a candidate's coarse ladder: its ideal figures ``ref`` (scalars), the
-    figures ``on_ladder`` measured on the ``ladder`` and ``ok``, where they are within tolerance."""
+    figures ``on_ladder`` measured on the ``ladder`` (``(figures, start)``, as
+    :func:`_interpolated_crossing` takes them) and ``ok``, where they are within tolerance."""
     if not ok[-1]:
         top = measure(with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
         return None, (

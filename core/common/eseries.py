@@ -95,6 +95,14 @@ def _positive(x: np.ndarray, field: str = "value") -> np.ndarray:
     return x
 
 
+def _positive_floats(x) -> list[float]:
+    """:func:`_positive` of ``x`` flattened to a list of floats; a list or tuple of finite floats
+    above zero (a design's few part values) is checked in Python, without an array."""
+    if isinstance(x, (list, tuple)) and all(isinstance(v, float) and math.isfinite(v) and v > 0 for v in x):
+        return [float(v) for v in x]
+    return _positive(x).reshape(-1).tolist()
+
+
 def _value(index: np.ndarray, codes: np.ndarray, ndigits: int) -> np.ndarray:
     """Standard value number `index` (all decades), rounded once from its decimal form."""
     n = len(codes)
@@ -314,7 +322,7 @@ def search_option_lists(x, series: str, width: int) -> tuple[list[list[float]], 
         return _value_of(k, codes_l, n, ndigits)
 
     options, near = [], []
-    for xv in _positive(x).reshape(-1).tolist():
+    for xv in _positive_floats(x):
         ceiling = xv * (1 + _REL_TOL)
         if width <= 8 and x_min < xv < x_max:
             # the largest standard value <= ceiling, by bisection of the table

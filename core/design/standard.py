@@ -30,7 +30,7 @@ import numpy as np
 
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
-from bandsmith.solver.expansion import ExpansionUnavailable, unit_expansion
+from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion, unit_expansion_values
 from bandsmith.analysis.figures import Figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
@@ -92,11 +92,19 @@ def weighted_error(errors: Mapping[str, float], tolerances: Tolerances = Toleran
 
 
 def _weighted_batch(fig: Figures, spec: Spec, tol: Tolerances) -> np.ndarray:
+    """The weighted error (module notes) of every member of ``fig`` against ``spec``; inf where undefined."""
+    return _weighted_rows(fig.f0_hz, fig.q, fig.gain_center_db, spec.f0_hz, spec.q, 20.0 * math.log10(spec.gain),
+                          tol.f0, tol.q, tol.gain_db)
+
+
+def _weighted_rows(f0, q, gain_db, f0_target, q_target, gain_db_target, tol_f0, tol_q, tol_gain_db) -> np.ndarray:
+    """:func:`_weighted_batch` from the figures' arrays, the targets and the tolerances each a
+    scalar or one per member (the same operations member by member either way)."""
     with np.errstate(invalid="ignore", divide="ignore"):
         e = np.sqrt(
-            ((fig.f0_hz / spec.f0_hz - 1.0) / tol.f0) ** 2
-            + ((fig.q / spec.q - 1.0) / tol.q) ** 2
-            + ((fig.gain_center_db - 20.0 * math.log10(spec.gain)) / tol.gain_db) ** 2
+            ((f0 / f0_target - 1.0) / tol_f0) ** 2
+            + ((q / q_target - 1.0) / tol_q) ** 2
+            + ((gain_db - gain_db_target) / tol_gain_db) ** 2
         )
     return np.where(np.isfinite(e), e, np.inf)
 
@@ -131,6 +139,58 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
     for j, (v, unit) in enumerate(zip(variables, exp.variables)):
         ratios[:, j] = (over[v.name] if v.name in over else v.value) / unit.value
     return exp.rational(ratios, w_ref=w_ref)
+
+
+def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tuple[int, ...], w_ref: float):
+    """:func:`_combinations` of every combination of the search, given as the flat options
+    ``flat`` of the ``free`` parts (each part's ``sizes[i]`` options, then its nearest value) taken
+    by :func:`_flat_combination_index`: the same transfer functions, bit for bit.
+
+    Through the expansion, the natural logs of the ratios go to
+    :meth:`bandsmith.solver.expansion.Expansion.rational_log` as one gather: ``log(x/u)`` is taken
+    once per offered value (a few dozen) instead of once per combination and part; numpy's log
+    maps each number alone, so a value has the same log wherever it sits in an array.
+    Where the expansion does not apply, or the batch is past its small-batch products,
+    :func:`_combinations`.
+    """
+    index = _flat_combination_index(sizes)
+    try:
+        exp, own = unit_expansion_values(netlist)
+    except ExpansionUnavailable:
+        exp = None
+    if exp is None or index.shape[1] > SMALL_BATCH:
+        return _combinations(netlist, dict(zip(free, flat[index])), w_ref)
+    # the logs of every value a combination can hold, in one array: the free parts' options and
+    # nearest values over their unit values, then the other variables' own ratios
+    at = {r: k for k, r in enumerate(free)}
+    units = [u.value for u in exp.variables]
+    held = [j for j, u in enumerate(exp.variables) if u.name not in at]
+    per_entry = np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes])
+    ratios = np.concatenate([flat / per_entry, [own[j] / units[j] for j in held]])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        logs = np.log(ratios)
+    return exp.rational_log(logs[_log_gather(sizes, tuple(at.get(u.name, -1) for u in exp.variables))], w_ref=w_ref)
+
+
+@functools.lru_cache(maxsize=64)
+def _log_gather(sizes: tuple[int, ...], rows: tuple[int, ...]) -> np.ndarray:
+    """``(combinations, variables)`` positions in :func:`_option_combinations`'s logs, row by row
+    the log ratios of one combination (the member that rounds every part alone last): variable
+    ``j`` is free part ``rows[j]`` (its row of :func:`_flat_combination_index`) or, where
+    ``rows[j]`` is −1, held at its own value (one entry after the options, in the variables'
+    order). Read-only."""
+    index = _flat_combination_index(sizes)
+    n_flat = sum(sizes) + len(sizes)
+    out = np.empty((index.shape[1], len(rows)), dtype=np.intp)
+    held = 0
+    for j, r in enumerate(rows):
+        if r >= 0:
+            out[:, j] = index[r]
+        else:
+            out[:, j] = n_flat + held
+            held += 1
+    out.setflags(write=False)
+    return out
 
 
 @functools.lru_cache(maxsize=64)
@@ -171,34 +231,73 @@ def choose_standard(
     return choose_standard_many([(topology, exact, spec, series, keep, tolerances, width)])[0]
 
 
-def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
+def choose_standard_many(items: Sequence[tuple], *, checked: bool = False) -> list[Choice]:
     """:func:`choose_standard` of several circuits at once, each item ``(topology, exact, spec,
     series, keep, tolerances, width)``: every circuit builds its own combinations and chooses its
     own parts; the combinations that are second-order band-passes (an ideal op-amp's, the lossless
     tank's) are measured in one closed-form batch (:func:`bandsmith.analysis.figures.measure_many`:
-    the same figures, member by member, as each batch alone)."""
-    made = [_combination_search(*item) for item in items]
+    the same figures, member by member, as each batch alone). ``checked``: every ``exact`` is
+    already what :meth:`~bandsmith.circuits.topology.Topology.values_from` returns for it (the
+    designer's), so it is not checked again."""
+    made = [_combination_search(*item, checked=checked) for item in items]
     live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
     by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
         # exact polynomial roots up to a few thousand members; a grid around the target beyond
         figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
-        for i in live:
-            m = made[i]
-            fig = figs[i] if i in figs else measure(m.h, grid=search_grid(m.spec.q))
-            cost = np.where(hurwitz_stable(m.h.den) & fig.valid, _weighted_batch(fig, m.spec, m.tolerances), np.inf)
-            made[i] = m.choice(cost)
+        figs.update((i, measure(made[i].h, grid=search_grid(made[i].spec.q))) for i in live if i not in figs)
+        for group in _same_width(made, live):
+            costs = _costs([made[i] for i in group], [figs[i] for i in group])
+            for i, cost in zip(group, costs):
+                made[i] = made[i].choice(cost)
     return made
+
+
+def _same_width(made: list, live: list[int]) -> list[list[int]]:
+    """The searches of ``live`` in groups whose denominators have one width (all of them, as a
+    rule: the combinations of an ideal op-amp's circuit are second order)."""
+    groups: dict[int, list[int]] = {}
+    for i in live:
+        groups.setdefault(made[i].h.den.shape[1], []).append(i)
+    return list(groups.values())
+
+
+def _costs(searches: list[_Search], figs: list[Figures]) -> list[np.ndarray]:
+    """Each search's costs: its weighted errors where the combination is stable (Routh–Hurwitz)
+    and measured, inf elsewhere. Denominators of one width: the stability test and the weighted
+    errors of every search in one batch, each search's targets and tolerances repeated over its
+    members (the same operations, member by member, as each search alone)."""
+    if len(searches) == 1:
+        m, fig = searches[0], figs[0]
+        return [np.where(hurwitz_stable(m.h.den) & fig.valid, _weighted_batch(fig, m.spec, m.tolerances), np.inf)]
+    sizes = [m.h.batch for m in searches]
+
+    def each(value) -> np.ndarray:
+        return np.repeat([value(m) for m in searches], sizes)
+
+    def joined(name: str) -> np.ndarray:
+        return np.concatenate([getattr(f, name) for f in figs])
+
+    weighted = _weighted_rows(
+        joined("f0_hz"), joined("q"), joined("gain_center_db"),
+        each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
+        each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
+    )
+    valid = np.concatenate([f.valid for f in figs])
+    cost = np.where(hurwitz_stable(np.concatenate([m.h.den for m in searches])) & valid, weighted, np.inf)
+    return np.split(cost, np.cumsum(sizes)[:-1])
 
 
 @dataclass(frozen=True, slots=True)
 class _Search:
-    """One circuit's combinations (``every``: parts × combinations, the last member every part
+    """One circuit's combinations (the flat options ``flat`` of the ``free`` parts taken by
+    ``index``, parts × combinations, :func:`_flat_combination_index`; the last member every part
     rounded alone) and their transfer functions ``h``, waiting for their cost."""
 
     values: dict[str, float]
     free: list[str]
-    every: np.ndarray
+    flat: np.ndarray
+    index: np.ndarray
     h: Rational
     spec: Spec
     tolerances: Tolerances
@@ -207,7 +306,7 @@ class _Search:
         """The combination of least cost (the last member, every part rounded alone, only compared)."""
         i = int(np.argmin(cost[:-1]))
         chosen = dict(self.values)
-        chosen.update(zip(self.free, self.every[:, i].tolist()))
+        chosen.update(zip(self.free, self.flat[self.index[:, i]].tolist()))
         return Choice(
             values=chosen if math.isfinite(cost[i]) else None,
             combinations=int(cost.size - 1),
@@ -217,10 +316,10 @@ class _Search:
 
 
 def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
-                        tolerances: Tolerances, width: int) -> Choice | _Search:
+                        tolerances: Tolerances, width: int, *, checked: bool = False) -> Choice | _Search:
     """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
-    or its :class:`Choice` at once when no part is free."""
-    values = topology.values_from(dict(exact))
+    or its :class:`Choice` at once when no part is free (``checked`` as :func:`choose_standard_many`)."""
+    values = dict(exact) if checked else topology.values_from(dict(exact))
     free = [c.ref for c in topology.components if c.required and c.ref not in keep]
     netlist = topology.build(values)
     if not free:
@@ -240,7 +339,6 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     # them, in one flat array taken by a combination index.
     sizes = tuple(len(o) for o in options)
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
-    every = flat[_flat_combination_index(sizes)]  # (parts, combinations)
     with np.errstate(all="ignore"):
-        h = _combinations(netlist, dict(zip(free, every)), spec.w0)
-    return _Search(values, free, every, h, spec, tolerances)
+        h = _option_combinations(netlist, free, flat, sizes, spec.w0)
+    return _Search(values, free, flat, _flat_combination_index(sizes), h, spec, tolerances)

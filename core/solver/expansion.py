@@ -33,11 +33,11 @@ import numpy as np
 
 from bandsmith.resources import resource_path
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
-from bandsmith.solver.netlist import Netlist
+from bandsmith.solver.netlist import PASSIVE_KINDS, Netlist
 from bandsmith.solver.rational import _ANGLE_OFFSET, Rational, _circle, _degree_bound, rational_from_system
 
 __all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "UNIT_OPAMP", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path",
-           "SMALL_BATCH", "TABLE_FORMAT"]
+           "SMALL_BATCH", "TABLE_FORMAT", "unit_expansion_values"]
 
 # An op-amp model whose stamps are 1 (``1/A0`` and ``1/ωt``, s-units): with it a unit expansion's
 # op-amp ratios are 1 and its absent or unit stamps select the op-amp's terms.
@@ -111,16 +111,25 @@ def circuit_variables(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Vari
     ``series_ref`` (or ``"<ref>.rs"``) when it is above zero. A finite op-amp adds ``gbw`` and
     ``a0`` (degree: the number of op-amps).
     """
+    return tuple(Variable(*f) for f in _variable_fields(netlist, opamp))
+
+
+def _variable_fields(netlist: Netlist, opamp: OpAmpModel) -> list[tuple[str, str, float, int]]:
+    """:func:`circuit_variables` as plain ``(name, kind, value, degree)`` tuples (cheaper to make
+    than the records: a kept expansion's lookup needs only the structure and the values)."""
     out = []
-    for e in netlist.passives:
-        out.append(Variable(e.ref, e.kind, float(e.value)))
-        if e.kind == "L" and e.series_resistance > 0:
-            out.append(Variable(e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance)))
-    m = len(netlist.opamps)
+    m = 0  # op-amps
+    for e in netlist.elements:
+        if e.kind == "opamp":
+            m += 1
+        elif e.kind in PASSIVE_KINDS:
+            out.append((e.ref, e.kind, float(e.value), 1))
+            if e.kind == "L" and e.series_resistance > 0:
+                out.append((e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance), 1))
     if not opamp.ideal and m:
-        out.append(Variable("gbw", "gbw", float(opamp.gbw_hz), m))
-        out.append(Variable("a0", "a0", float(opamp.a0), m))
-    return tuple(out)
+        out.append(("gbw", "gbw", float(opamp.gbw_hz), m))
+        out.append(("a0", "a0", float(opamp.a0), m))
+    return out
 
 
 def _system_for(netlist: Netlist, variables: tuple[Variable, ...], values: np.ndarray, opamp: OpAmpModel):
@@ -440,9 +449,15 @@ def _unit_netlist(netlist: Netlist) -> Netlist:
 
 
 def _structure_key(netlist: Netlist, variables: tuple[Variable, ...]) -> tuple:
+    """What an expansion's fit depends on: the netlist's elements without their values, and the
+    name, kind and degree of each of its ``variables``."""
+    return _fields_key(netlist, [(v.name, v.kind, v.value, v.degree) for v in variables])
+
+
+def _fields_key(netlist: Netlist, fields: list[tuple[str, str, float, int]]) -> tuple:
+    """:func:`_structure_key` from the variables' :func:`_variable_fields`."""
     elements = tuple((e.ref, e.kind, tuple(e.nodes), e.series_ref) for e in netlist.elements)
-    return (elements, netlist.ground, netlist.input, netlist.output,
-            tuple((v.name, v.kind, v.degree) for v in variables))
+    return (elements, netlist.ground, netlist.input, netlist.output, tuple((name, kind, degree) for name, kind, _, degree in fields))
 
 
 def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: OpAmpModel, sizes: list[int]) -> _Fit:
@@ -711,8 +726,13 @@ class Expansion:
             with np.errstate(divide="ignore", invalid="ignore"):
                 lr = np.log(r)
             num, den = self.dense_log(lr, absent=absent)
+        return self._in_p(num, den, w_ref)
+
+    def _in_p(self, num: np.ndarray, den: np.ndarray, w_ref: float | None) -> tuple[np.ndarray, np.ndarray]:
+        """Dense coefficients in this expansion's ``p`` taken, in place, to ``p = s/w_ref``
+        (``c·(s/w_e)^n = c·k^n·(s/w_ref)^n``, ``k = w_ref/w_e``); unchanged for None."""
         if w_ref is not None and w_ref != self.w_ref:
-            k = w_ref / self.w_ref  # c·(s/w_e)^n = c·k^n·(s/w_ref)^n
+            k = w_ref / self.w_ref
             num *= k ** np.arange(num.shape[1] - 1, -1, -1.0)
             den *= k ** np.arange(den.shape[1] - 1, -1, -1.0)
         return num, den
@@ -721,17 +741,23 @@ class Expansion:
         """The natural logs of a circuit's own values over this expansion's (``variables`` as
         :func:`unit_expansion` returns them beside it, in its order): ``(n_var,)``, what
         :meth:`dense_log` and :meth:`opamp_terms` take for one member."""
-        return np.log([v.value / u.value for v, u in zip(variables, self.variables)])
+        return self.log_ratios_of([v.value for v in variables])
+
+    def log_ratios_of(self, values) -> np.ndarray:
+        """:meth:`log_ratios` from the variables' values (SI units, in this expansion's order, as
+        :func:`unit_expansion_values` gives them)."""
+        return np.log([x / u.value for x, u in zip(values, self.variables)])
 
     def dense_log(self, log_ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`dense` from the natural logs of the ratios (any batch size, the expansion's
         ``w_ref``): ``exp(log ratios @ exponents)`` and one product per polynomial."""
         with np.errstate(invalid="ignore", over="ignore"):
             lr = log_ratios if absent is None else np.where(absent, self._absent_log, log_ratios)
-            bad = ~np.isfinite(lr).all(axis=1)
+            finite = np.isfinite(lr)
             mono = np.exp(lr @ self._exps_ratio)  # (B, M); an absent stamp gives exactly 0
             num, den = mono @ self._num_dense, mono @ self._den_dense
-        if bad.any():
+        if not finite.all():  # (the rows looked at only then: a reduction along rows of a few costs)
+            bad = ~finite.all(axis=1)
             num[bad] = np.nan
             den[bad] = np.nan
         return num, den
@@ -794,10 +820,20 @@ class Expansion:
             Coefficients in ``p = s/w_ref``, highest power first, each member scaled so that its
             largest denominator coefficient is ±1.
         """
-        num, den = self.dense(ratios, w_ref=w_ref)
+        return self._rational(*self.dense(ratios, w_ref=w_ref), w_ref)
+
+    def rational_log(self, log_ratios: np.ndarray, *, w_ref: float | None = None) -> Rational:
+        """:meth:`rational` from the natural logs of the ratios, ``(B, len(variables))`` (any batch
+        size, by :meth:`dense_log`): the same transfer functions, bit for bit, as :meth:`rational`
+        of their exponentials up to :data:`SMALL_BATCH` members (which takes their logs first)."""
+        return self._rational(*self._in_p(*self.dense_log(log_ratios), w_ref), w_ref)
+
+    def _rational(self, num: np.ndarray, den: np.ndarray, w_ref: float | None) -> Rational:
+        """Dense coefficients in ``p = s/w_ref`` as a :class:`Rational`, each member scaled so that
+        its largest denominator coefficient is ±1."""
         w = self.w_ref if w_ref is None else float(w_ref)
         with np.errstate(invalid="ignore", divide="ignore"):
-            scale = np.abs(den).max(axis=1, keepdims=True)
+            scale = _row_abs_max(den)
             return Rational(num / scale, den / scale, np.full(num.shape[0], w))
 
     @property
@@ -806,7 +842,29 @@ class Expansion:
         return self.num_powers == (1,) and self.den_powers == (0, 1, 2)
 
 
+def _row_abs_max(a: np.ndarray) -> np.ndarray:
+    """``np.abs(a).max(axis=1, keepdims=True)`` column by column: the same numbers (a maximum
+    rounds nothing, and NaN wins either way), without numpy's reduction along rows of a few
+    entries, which costs some ten times more over a batch of a thousand."""
+    out = np.abs(a[:, 0])
+    for j in range(1, a.shape[1]):
+        np.maximum(out, np.abs(a[:, j]), out=out)
+    return out[:, None]
+
+
 _UNIT: dict[tuple, "Expansion"] = {}
+
+
+def unit_expansion_values(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, list[float]]:
+    """:func:`unit_expansion`'s expansion, and the values of ``netlist``'s own variables (in SI
+    units, in the expansion's order) as plain floats instead of :class:`Variable` records: what
+    :meth:`Expansion.log_ratios_of` takes. Once the structure's expansion is kept, no record is
+    made. Raises :class:`ExpansionUnavailable` as :func:`unit_expansion` does."""
+    fields = _variable_fields(netlist, opamp)
+    exp = _UNIT.get((_fields_key(netlist, fields), opamp))
+    if exp is None:
+        exp = unit_expansion(netlist, opamp, fit=fit)[0]
+    return exp, [value for _, _, value, _ in fields]
 
 
 def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, tuple[Variable, ...]]:
@@ -819,8 +877,9 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = T
     the structure would have to be fitted now (it is neither fitted yet nor in the shipped table:
     for a caller with a cheaper way than a fit of several op-amps' stamps, up to a second).
     """
-    variables = circuit_variables(netlist, opamp)
-    structure = _structure_key(netlist, variables)
+    fields = _variable_fields(netlist, opamp)
+    variables = tuple(Variable(*f) for f in fields)  # circuit_variables(netlist, opamp)
+    structure = _fields_key(netlist, fields)
     key = (structure, opamp)
     exp = _UNIT.get(key)
     if exp is None:

@@ -29,9 +29,13 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
     """
     a = np.asarray(den, dtype=float)
     b, k = a.shape
+    if b == 1:  # one polynomial (a design's chosen parts): the same arithmetic in Python floats
+        return np.array([_hurwitz_one(a[0].tolist())])
     with np.errstate(invalid="ignore", divide="ignore"):
         a = a / a[:, :1]
-        ok = np.all(np.isfinite(a), axis=1)
+        ok = np.isfinite(a[:, 0])  # every entry finite, column by column (cheaper than along rows)
+        for j in range(1, k):
+            ok &= np.isfinite(a[:, j])
         if k == 1:
             return ok
         if k == 3:  # a quadratic: the two steps of the loop below written out (same arithmetic)
@@ -51,6 +55,30 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
             nxt[:, :-1] = (first[:, None] * r0[:, 1:] - r0[:, :1] * r1[:, 1:]) / safe[:, None]
             r0, r1 = r1, nxt
     return ok
+
+
+def _hurwitz_one(den: list[float]) -> bool:
+    """:func:`hurwitz_stable` of one polynomial, step by step the same IEEE operations in Python
+    floats (cheaper than arrays for a handful of coefficients): divided by the leading
+    coefficient (a zero one gives no finite row: not stable), then the Routh rows."""
+    lead = den[0]
+    if lead == 0 or not all(math.isfinite(c / lead) for c in den):
+        return False
+    a = [c / lead for c in den]
+    k = len(a)
+    if k == 1:
+        return True
+    if k == 3:
+        return a[1] > 0 and (a[1] * a[2] - 0.0) / a[1] > 0
+    width = (k + 1) // 2 + 1
+    r0 = a[0::2] + [0.0] * (width - (k + 1) // 2)
+    r1 = a[1::2] + [0.0] * (width - k // 2)
+    for _ in range(k - 1):
+        first = r1[0]
+        if not first > 0:
+            return False
+        r0, r1 = r1, [(first * r0[j + 1] - r0[0] * r1[j + 1]) / first for j in range(width - 1)] + [0.0]
+    return True
 
 
 # A first-column entry of the Routh array formed as u − v with u − v below this share of |u| or
