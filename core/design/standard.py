@@ -31,7 +31,7 @@ import numpy as np
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
 from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion, unit_expansion_values
-from bandsmith.analysis.figures import Figures, measure, measure_many
+from bandsmith.analysis.figures import Figures, biquad_peak_figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
@@ -243,6 +243,12 @@ def choose_standard_many(items: Sequence[tuple], *, checked: bool = False) -> li
     live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
     by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
+        if live and len(by_roots) == len(live):
+            peaks = _peak_costs([made[i] for i in live])
+            if peaks is not None:  # every combination a second-order band-pass: the closed form
+                for i, cost in zip(live, peaks):
+                    made[i] = made[i].choice(cost)
+                return made
         # exact polynomial roots up to a few thousand members; a grid around the target beyond
         figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
         figs.update((i, measure(made[i].h, grid=search_grid(made[i].spec.q))) for i in live if i not in figs)
@@ -251,6 +257,33 @@ def choose_standard_many(items: Sequence[tuple], *, checked: bool = False) -> li
             for i, cost in zip(group, costs):
                 made[i] = made[i].choice(cost)
     return made
+
+
+def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
+    """Each search's costs (:func:`_costs`) where every combination of every search is a
+    second-order band-pass (an ideal op-amp's circuit, the lossless tank): f0, Q and the gain of
+    all of them at once in closed form (:func:`bandsmith.analysis.figures.biquad_peak_figures`,
+    the numbers of :func:`~bandsmith.analysis.figures.measure_many`'s closed form without the band
+    edges and the phase; a combination with no peak is not stable and costs inf either way); None
+    where a combination is of another shape."""
+    h = searches[0].h if len(searches) == 1 else Rational.joined([m.h for m in searches])
+    peaks = biquad_peak_figures(h)
+    if peaks is None:
+        return None
+    f0, q, db = peaks
+    sizes = [m.h.batch for m in searches]
+
+    def each(value) -> np.ndarray:
+        return np.repeat([value(m) for m in searches], sizes)
+
+    weighted = _weighted_rows(
+        f0, q, db,
+        each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
+        each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
+    )
+    valid = np.isfinite(q) & np.isfinite(f0) & np.isfinite(db)
+    cost = np.where(hurwitz_stable(h.den) & valid, weighted, np.inf)
+    return np.split(cost, np.cumsum(sizes)[:-1])
 
 
 def _same_width(made: list, live: list[int]) -> list[list[int]]:
