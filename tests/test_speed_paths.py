@@ -421,3 +421,27 @@ def test_biquad_peak_figures_are_measures_closed_form_and_nan_where_not_stable()
     assert not (hurwitz_stable(odd.den) & ~np.isfinite(q)).any()
     assert (~np.isfinite(q)).sum() > 10  # (the signs drawn leave some with no peak)
     assert biquad_peak_figures(Rational(np.ones((2, 3)), den[:2], h.w_ref[:2])) is None  # not a band-pass
+
+
+def test_sallen_key_normalised_parts_of_one_gain_are_the_arrays_numbers():
+    # The Sallen–Key design's normalised parts for one gain K and one capacitor ratio, in plain
+    # numbers: the very values of the array form (the same IEEE operations) over random targets.
+    import math
+
+    from bandsmith.circuits import sallen_key
+    from bandsmith.circuits.synthesis import Spec
+
+    rng = np.random.default_rng(21)
+    compared = 0
+    for _ in range(3000):
+        spec = Spec(10 ** rng.uniform(1, 6), 10 ** rng.uniform(-0.5, 2), 10 ** rng.uniform(-1, 1.5))
+        k, r = float(1.0 + 10 ** rng.uniform(-3, 1.5)), float(10 ** rng.uniform(-2, 2))
+        one = sallen_key._normalised_one(spec, k, r)
+        if one is None:
+            continue
+        compared += 1
+        with np.errstate(all="ignore"):
+            arrays = sallen_key._normalised(spec, np.array(k), np.array(r))
+        for a, b in zip(arrays, one):
+            assert float(a) == b or (math.isnan(float(a)) and math.isnan(b))
+    assert compared > 2500
