@@ -74,14 +74,11 @@ class Figures:
 
     def item(self, i: int = 0) -> "Figures":
         """Member ``i`` as scalars (floats)."""
-        out = []
-        for name in _FIELDS:
-            v = getattr(self, name)
-            if type(v) is np.ndarray:
-                out.append(float(v.item(i)))  # flat index
-            else:
-                out.append(float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)))
-        return Figures(*out)
+        values = (self.f0_hz, self.q, self.bw_hz, self.f_low_hz, self.f_high_hz, self.gain_center,
+                  self.gain_center_db, self.phase_center_deg)
+        if all(type(v) is np.ndarray and v.dtype == np.float64 for v in values):
+            return Figures(*[v.item(i) for v in values])  # (flat index; a float64's item is a float)
+        return Figures(*[float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)) for v in values])
 
     def to_json(self, i: int = 0) -> dict:
         """The README's FIGURES object for member ``i`` (None where a figure is undefined)."""
