@@ -5,8 +5,8 @@
 - Monte Carlo trials measured by the closed-form roots: the same figures (1e-12 relative) and the
   same pass/fail as the tracked-grid search they replace.
 - One BLAS thread: a thread count the user set in the environment is kept.
-- The MNA pencil stamped by ranks (``mna.build_system``): bit for bit the pencil of adding every
-  stamp of ``mna._stamps`` in turn, signed zeros included.
+- The MNA pencil from a structure's cached stamps (``mna.build_system``): bit for bit the pencil of
+  adding every stamp of ``mna._stamps`` in turn, signed zeros included, batches of one and more.
 """
 
 import csv
@@ -345,13 +345,15 @@ def test_node_rationals_writes_out_the_sampled_solve_bit_for_bit(circuit):
     assert_allclose(x0, x_ref, rtol=1e-13, atol=0)
 
 
-def _stamped_one_by_one(netlist, opamp, overrides):
+def _stamped_one_by_one(netlist, opamp, overrides, gbw_hz=None, a0=None):
     """The pencil of adding each stamp of ``mna._stamps`` in turn, as the module notes write it."""
     from bandsmith.solver.mna import MnaLayout, _stamps
 
     layout = MnaLayout.of(netlist)
     over = overrides or {}
-    size = max([1] + [np.size(v) for v in over.values()])
+    size = max([1] + [np.size(v) for v in over.values()] + [np.size(v) for v in (gbw_hz, a0) if v is not None])
+    gbw = opamp.gbw_hz if gbw_hz is None else np.asarray(gbw_hz, dtype=float)
+    gain0 = opamp.a0 if a0 is None else np.asarray(a0, dtype=float)
     n = layout.size
     G, C = np.zeros((size, n, n)), np.zeros((size, n, n))
     parts = {e.ref: e for e in netlist.elements}
@@ -362,9 +364,9 @@ def _stamped_one_by_one(netlist, opamp, overrides):
         else:
             kind, ref = q
             if kind in ("a0", "wt"):
-                if opamp.ideal:
+                if gbw is None:
                     continue
-                y = 1.0 / opamp.a0 if kind == "a0" else 1.0 / (2.0 * np.pi * opamp.gbw_hz)
+                y = 1.0 / gain0 if kind == "a0" else 1.0 / (2.0 * np.pi * gbw)
             elif kind == "rs":
                 e = parts[ref]
                 y = over.get(ref + ".rs", over.get(e.series_ref, e.series_resistance) if e.series_ref else e.series_resistance)
@@ -380,7 +382,7 @@ def _stamped_one_by_one(netlist, opamp, overrides):
 
 
 @pytest.mark.parametrize("circuit", ["rlc-tank", "mfb", "sallen-key", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
-def test_the_pencil_by_ranks_is_every_stamp_added_in_turn(circuit):
+def test_the_pencil_from_cached_stamps_is_every_stamp_added_in_turn(circuit):
     from bandsmith.solver.mna import build_system
 
     topo = get_topology(circuit)
@@ -390,13 +392,27 @@ def test_the_pencil_by_ranks_is_every_stamp_added_in_turn(circuit):
     cases = [None, {e.ref: rng.uniform(0.5, 2.0, 9) * e.value for e in netlist.passives}]
     if any(e.kind == "L" for e in netlist.elements):
         cases.append({"RL": np.array([0.0, 1.0, 7.0])})  # a zero winding resistance: a signed zero to keep
+    ladders = [(None, None), (np.geomspace(1e5, 1e8, 5), np.full(5, 2e5))]  # per-member op-amps
     for opamp in (IDEAL, OpAmpModel(2e6, 3e5)):
         for over in cases:
-            got = build_system(netlist, opamp, overrides=over)
-            want_g, want_c = _stamped_one_by_one(netlist, opamp, over)
-            for a, b in ((got.G, want_g), (got.C, want_c)):
-                assert_array_equal(a, b)
-                assert_array_equal(np.signbit(a), np.signbit(b))
+            for gbw_hz, a0 in ladders:
+                if over is not None and gbw_hz is not None:
+                    continue  # (one batch size at a time)
+                got = build_system(netlist, opamp, overrides=over, gbw_hz=gbw_hz, a0=a0)
+                want_g, want_c = _stamped_one_by_one(netlist, opamp, over, gbw_hz, a0)
+                for a, b in ((got.G, want_g), (got.C, want_c)):
+                    assert_array_equal(a, b)
+                    assert_array_equal(np.signbit(a), np.signbit(b))
+                size = got.G.shape[0]
+                if gbw_hz is None and opamp.ideal:
+                    want_a0 = want_wt = np.zeros(size)
+                else:  # each op-amp's 1/A0 and 1/ωt per member, as the stamps take them
+                    want_a0 = np.broadcast_to(1.0 / np.asarray(opamp.a0 if a0 is None else a0, dtype=float), (size,))
+                    want_wt = np.broadcast_to(1.0 / (2.0 * np.pi * np.asarray(opamp.gbw_hz if gbw_hz is None else gbw_hz, dtype=float)), (size,))
+                assert len(got.amp_terms) == len(netlist.opamps)
+                for row, col, inv_a0, inv_wt in got.amp_terms:
+                    assert_array_equal(inv_a0, want_a0)
+                    assert_array_equal(inv_wt, want_wt)
 
 
 def test_biquad_peak_figures_are_measures_closed_form_and_nan_where_not_stable():

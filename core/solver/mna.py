@@ -17,7 +17,7 @@ netlist's own values are used where no override is given.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Mapping
 
 import numpy as np
@@ -179,24 +179,22 @@ def build_system(
     columns, size = _quantities(netlist, plan.quantities, overrides, gbw, gain0)
     if size == 1 and all(type(c) is float for c in columns):
         G, C = _stamped_one(plan, columns)
-        values = np.array([columns])
-    else:
-        values = np.empty((size, len(columns) + 1))
-        for k, col in enumerate(columns):
-            values[:, k] = col
-        values[:, -1] = 1.0  # the constant stamps
+    else:  # each stamp added in turn, as the module notes write it, into flat (B, n·n) arrays
         G = np.zeros((size, n * n))
         C = np.zeros((size, n * n))
-        g_ranks, c_ranks = plan.ranks()
-        for m, ranks in ((G, g_ranks), (C, c_ranks)):
-            for flat, cols, signs in ranks:  # the r-th stamp of each entry that has one: unique entries
-                m[:, flat] += values[:, cols] * signs
+        for m, stamps in ((G, plan.g_stamps), (C, plan.c_stamps)):
+            for flat, col, sign in stamps:
+                y = 1.0 if col < 0 else columns[col]
+                if sign > 0:
+                    m[:, flat] += y
+                else:
+                    m[:, flat] -= y
     terms = []
     for row, col, a0_k, wt_k in plan.amp_columns:
         if a0_k is None:
             terms.append((row, col, np.zeros(size), np.zeros(size)))
         else:
-            terms.append((row, col, values[:, a0_k].copy(), values[:, wt_k].copy()))
+            terms.append((row, col, _column(columns[a0_k], size), _column(columns[wt_k], size)))
     return MnaSystem(G.reshape(size, n, n), C.reshape(size, n, n), layout, layout.node_index[netlist.output], tuple(terms))
 
 
@@ -218,38 +216,13 @@ class _Plan:
     """How a netlist's structure stamps its pencil (:func:`_plan`): the layout, the quantities in
     column order (``(kind, ref)`` as :func:`_stamps` names them), each matrix's stamps in stamping
     order as ``(flat entry, quantity column or −1 for the constant 1, sign)``, and each op-amp's
-    ``(row, column, 1/A0 column, 1/ωt column)`` (None for the ideal op-amp).
-
-    For a batch, :meth:`ranks` gives each matrix's stamps in *ranks*: rank ``r`` holds, for every
-    entry with at least ``r`` stamps, its ``r``-th one in stamping order, as ``(flat entries,
-    quantity columns, signs)`` arrays (the constant 1 is the column after the quantities). Adding
-    the ranks in turn adds each entry's stamps in stamping order, the very sums of stamping one at
-    a time, with a few array operations."""
+    ``(row, column, 1/A0 column, 1/ωt column)`` (None for the ideal op-amp)."""
 
     layout: MnaLayout
     quantities: tuple[tuple[str, str], ...]
     g_stamps: tuple[tuple[int, int, float], ...]
     c_stamps: tuple[tuple[int, int, float], ...]
     amp_columns: tuple[tuple[int, int, int | None, int | None], ...]
-    _ranks: tuple | None = field(default=None, init=False, repr=False, compare=False)
-
-    def ranks(self) -> tuple:
-        """``(G ranks, C ranks)`` (see the class notes), made when a batch first asks (read-only)."""
-        if self._ranks is None:
-            object.__setattr__(self, "_ranks", (self._ranked(self.g_stamps), self._ranked(self.c_stamps)))
-        return self._ranks
-
-    def _ranked(self, stamps) -> tuple:
-        constant = len(self.quantities)
-        seen: dict[int, int] = {}
-        by_rank: list[list[tuple[int, int, float]]] = []
-        for flat, col, sign in stamps:
-            r = seen.get(flat, 0)
-            seen[flat] = r + 1
-            if r == len(by_rank):
-                by_rank.append([])
-            by_rank[r].append((flat, constant if col < 0 else col, sign))
-        return tuple(tuple(_frozen(np.array(v, dtype=dt)) for v, dt in zip(zip(*rank), (np.intp, np.intp, float))) for rank in by_rank)
 
 
 def _plan(netlist: Netlist, ideal: bool) -> _Plan:
@@ -289,12 +262,6 @@ def _make_plan(netlist: Netlist, ideal: bool) -> _Plan:
     return _Plan(layout, tuple(column), tuple(stamps["G"]), tuple(stamps["C"]), tuple(amps))
 
 
-def _frozen(a: np.ndarray) -> np.ndarray:
-    """``a`` made read-only (a plan's arrays are shared by every netlist of its structure)."""
-    a.setflags(write=False)
-    return a
-
-
 def _quantities(netlist: Netlist, quantities, overrides, gbw, gain0) -> tuple[list, int]:
     """Each quantity's value, a float or a ``(B,)`` array (overrides by part reference, an
     inductor's winding resistance by its ``series_ref`` or ``"<ref>.rs"``), and the batch size."""
@@ -328,6 +295,11 @@ def _as_column(v, size: int):
     if isinstance(v, (int, float)):
         return float(v)
     return np.broadcast_to(np.asarray(v, dtype=float), (size,))
+
+
+def _column(v, size: int) -> np.ndarray:
+    """A quantity (a float or a ``(size,)`` array) as a ``(size,)`` array of its own."""
+    return np.full(size, v) if type(v) is float else np.array(v, dtype=float)
 
 
 _OPAMP_TERMS = ("a0", "wt")
