@@ -256,17 +256,23 @@ def _biquad_parts(b1, a2, a1, a0):
     ``a2x² ∓ |a1|x − a0 = 0``, so ``x_high = (|a1| + √(a1² + 4a0a2))/(2a2)`` and
     ``x_low = (a0/a2)/x_high`` (the product of the two, free of cancellation); derived (sympy).
     """
-    sign = np.sign(a2)
     with np.errstate(invalid="ignore", divide="ignore"):
-        # at the peak H = b1·jx/(a1·jx) = b1/a1 (signed, real)
-        hc = (b1 * sign / (a1 * sign)).astype(complex)
-        a2, a1, a0 = a2 * sign, np.abs(a1), a0 * sign
-        peak = (a0 > 0) & (a2 > 0) & (a1 > 0)
-        nan = np.where(peak, 1.0, np.nan)
+        h_pk, a2, a1, a0, peak, nan = _biquad_peak(b1, a2, a1, a0)
         u_pk = a0 / a2 * nan
         x_high = (a1 + np.sqrt(a1 * a1 + 4.0 * a0 * a2)) / (2.0 * a2)
         x_low = u_pk / x_high  # x_high − x_low = |a1|/a2 exactly
-    return u_pk, x_low * x_low, x_high * x_high, a1 / a2 * nan, hc, peak
+    return u_pk, x_low * x_low, x_high * x_high, a1 / a2 * nan, h_pk.astype(complex), peak
+
+
+def _biquad_peak(b1, a2, a1, a0):
+    """``(H at the peak, a2, |a1|, a0, has a peak, 1 where it has else NaN)`` of
+    ``b1·p / (a2·p² + a1·p + a0)``, the denominator's sign taken out (``a2 > 0``): at the peak
+    ``H = b1·jx/(a1·jx) = b1/a1``, signed and real. Floating-point warnings are the caller's."""
+    sign = np.sign(a2)
+    h_pk = b1 * sign / (a1 * sign)
+    a2, a1, a0 = a2 * sign, np.abs(a1), a0 * sign
+    peak = (a0 > 0) & (a2 > 0) & (a1 > 0)
+    return h_pk, a2, a1, a0, peak, np.where(peak, 1.0, np.nan)
 
 
 def biquad_peak_figures(h: Rational) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
@@ -279,12 +285,9 @@ def biquad_peak_figures(h: Rational) -> tuple[np.ndarray, np.ndarray, np.ndarray
     the whole batch through its polynomial roots. None when a member is not such a band-pass."""
     if not _biquad_shaped(h):
         return None
-    b1, a2, a1, a0 = h.num[:, -2], h.den[:, 0], h.den[:, 1], h.den[:, 2]
     with np.errstate(invalid="ignore", divide="ignore"):
-        sign = np.sign(a2)
-        mag = np.abs(b1 * sign / (a1 * sign))  # |H| at the peak, H = b1/a1 there
-        a2, a1, a0 = a2 * sign, np.abs(a1), a0 * sign
-        nan = np.where((a0 > 0) & (a2 > 0) & (a1 > 0), 1.0, np.nan)
+        h_pk, a2, a1, a0, _, nan = _biquad_peak(h.num[:, -2], h.den[:, 0], h.den[:, 1], h.den[:, 2])
+        mag = np.abs(h_pk)
         to_hz = h.w_ref / (2.0 * np.pi)
         f0 = np.sqrt(a0 / a2 * nan) * to_hz
         q = f0 / (a1 / a2 * nan * to_hz)
