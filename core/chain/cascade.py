@@ -63,6 +63,7 @@ import numpy as np
 from bandsmith.chain.bandpass import CascadePlan, SectionPlan, biquad_bandpass, plan_cascade
 from bandsmith.analysis.analyzer import Tolerances
 from bandsmith.design.candidate import Candidate, Conditions
+from bandsmith.design.designer import Spec, designs_or_errors
 from bandsmith.circuits import topology_ids
 from bandsmith.common.errors import InputError
 from bandsmith.solver.rational import Rational
@@ -416,8 +417,6 @@ def _build_stage(plan: SectionPlan, vin_v: float, settings: ChainSettings, condi
     if pending is not None:
         cond, made = pending.results(vin_v)
     else:  # its circuits' designs, analysed in one batch
-        from bandsmith.design.designer import Spec, designs_or_errors
-
         cond = _stage_conditions(conditions, plan, vin_v)
         made = designs_or_errors(ids, Spec(plan.f0_hz, plan.q, plan.gain), series=settings.series, conditions=cond)
     tried = _attempts(ids, plan, settings.series, made, cond)
@@ -497,8 +496,6 @@ def design_cascade(settings: ChainSettings, *, conditions: Conditions = Conditio
     (:class:`_Amplitudes`). The results are those of designing each stage once the ones before
     it are built.
     """
-    from bandsmith.design.designer import Spec
-
     plan = plan_cascade(settings.prototype(), settings.band, settings.gain)
     # every stage's designs made first, in one batch (bandsmith.chain.stage_designs), each with
     # the chain's input amplitude standing in for its own until the stages before it are built
@@ -556,7 +553,7 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
     Each stage is analysed as :func:`design_cascade` would (its drive and its stage tolerances);
     its errors are against the stage's planned target.
     """
-    from bandsmith.design.designer import DesignResult, Spec, spread_of
+    from bandsmith.design.designer import DesignResult, spread_of
     from bandsmith.design.standard import errors_of, figure_misses, weighted_error
 
     settings = chain.settings

@@ -6,7 +6,7 @@ resistance, all known from the plan. The amplitude that reaches a stage depends 
 built before it, but it reaches only the amplifier needs, which an analysis works out when first
 asked for (:attr:`bandsmith.analysis.analyzer.Analysis.requirements`, from its ``drive``), and
 the conditions a result carries. So every stage's circuits are prepared and their parts chosen
-first (:func:`prepare_stages`), and the analyses of all stages that share their conditions up to
+first (:func:`prepare_stages`, through :func:`bandsmith.design.designer.prepare_designs`), and the analyses of all stages that share their conditions up to
 the amplitude are made in one batch (:func:`bandsmith.design.candidate.analyze_candidates`: each
 candidate's figures and required GBW measured member by member, as alone); once the stages before
 it are built, a stage's results are concluded under its own conditions, amplitude included
@@ -24,13 +24,7 @@ from dataclasses import dataclass, replace
 
 from bandsmith.common.errors import InputError
 from bandsmith.design.candidate import Conditions, analyze_candidates
-from bandsmith.design.designer import (
-    Spec,
-    _choose_parts,
-    _conclude,
-    _prepare,
-    _Prepared,
-)
+from bandsmith.design.designer import PreparedDesigns, Spec, prepare_designs
 
 __all__ = ["PendingStage", "prepare_stages"]
 
@@ -41,76 +35,46 @@ class PendingStage:
 
     Attributes
     ----------
-    spec : Spec
-        The stage's target.
-    series : str
+    prepared : PreparedDesigns
+        Its circuits' designs for its target, parts chosen (in the order asked).
     conditions : Conditions
         The stage's conditions with the chain's input amplitude in place of its own.
-    made : list
-        Per circuit (in the order asked): an :class:`InputError`, an infeasible ``DesignResult``
-        (under ``conditions``) or the prepared design with its parts chosen.
     analyses : list or None
-        Per circuit the analysis of its chosen parts (or the :class:`InputError` it raised) where
-        it has parts, None for the others; None when the analyses wait for the amplitude.
+        The analyses of ``prepared``'s candidates (each an analysis or the :class:`InputError` it
+        raised); None when they wait for the amplitude.
     """
 
-    spec: Spec
-    series: str
+    prepared: PreparedDesigns
     conditions: Conditions
-    made: list
     analyses: list | None = None
 
     def results(self, vin_v: float) -> tuple[Conditions, list]:
         """The stage's conditions with the amplitude ``vin_v`` (V peak) that reaches it, and its
         designs under them: per circuit what :func:`bandsmith.design.designer.designs_or_errors`
         gives for those conditions."""
-        same = vin_v == self.conditions.vin_v
-        conditions = self.conditions if same else replace(self.conditions, vin_v=vin_v)
+        conditions = self.conditions if vin_v == self.conditions.vin_v else replace(self.conditions, vin_v=vin_v)
         analyses = self.analyses
         if analyses is None:
-            ready = [i for i, m in enumerate(self.made) if isinstance(m, _Prepared)]
-            analyses = [None] * len(self.made)
-            for i, an in zip(ready, analyze_candidates([self.made[i].candidate for i in ready], conditions) if ready else []):
-                analyses[i] = an
-        out = []
-        for m, an in zip(self.made, analyses):
-            if isinstance(m, InputError):
-                out.append(m)
-            elif not isinstance(m, _Prepared):  # infeasible before any analysis
-                out.append(m if same else replace(m, conditions=conditions))
-            elif isinstance(an, InputError):
-                out.append(an)
-            else:
-                if an.drive.vin_v != vin_v:
-                    an = replace(an, drive=an.drive._replace(vin_v=vin_v))
-                out.append(_conclude(m, an, self.spec, self.series, conditions))
-        return conditions, out
+            ready = self.prepared.candidates()
+            analyses = analyze_candidates(ready, conditions) if ready else []
+        analyses = [an if isinstance(an, InputError) or an.drive.vin_v == vin_v else replace(an, drive=an.drive._replace(vin_v=vin_v))
+                    for an in analyses]
+        return conditions, self.prepared.concluded(analyses, conditions)
 
 
 def prepare_stages(stages: Sequence[tuple[Sequence[str], Spec, Conditions]], series: str) -> list[PendingStage]:
     """Every stage's circuits ``(ids, target, conditions)`` prepared, their parts chosen, and
     (without a load capacitance) analysed: the candidates of all stages whose conditions are
     equal in one batch. The conditions' amplitude is a stand-in (module notes)."""
-    made_all = []
-    for ids, spec, cond in stages:
-        made = []
-        for t in ids:
-            try:
-                made.append(_prepare(t, spec, series, None, cond))
-            except InputError as exc:
-                made.append(exc)
-        _choose_parts(made, spec, series, cond, 1)
-        made_all.append(made)
+    prepared = [prepare_designs(ids, spec, series=series, conditions=cond) for ids, spec, cond in stages]
     analyses: list[list | None] = [None] * len(stages)
     groups: dict[Conditions, list[int]] = {}
     for k, (_, _, cond) in enumerate(stages):
         if cond.cload_f is None:  # with one, the analysis needs the amplitude
             groups.setdefault(cond, []).append(k)
     for cond, ks in groups.items():
-        ready = [(k, i) for k in ks for i, m in enumerate(made_all[k]) if isinstance(m, _Prepared)]
-        done = analyze_candidates([made_all[k][i].candidate for k, i in ready], cond) if ready else []
-        for k in ks:
-            analyses[k] = [None] * len(made_all[k])
-        for (k, i), an in zip(ready, done):
-            analyses[k][i] = an
-    return [PendingStage(spec, series, cond, made, an) for (_, spec, cond), made, an in zip(stages, made_all, analyses)]
+        ready = [prepared[k].candidates() for k in ks]
+        done = iter(analyze_candidates([c for cands in ready for c in cands], cond) if any(ready) else [])
+        for k, cands in zip(ks, ready):
+            analyses[k] = [next(done) for _ in cands]
+    return [PendingStage(p, cond, an) for (_, _, cond), p, an in zip(stages, prepared, analyses)]

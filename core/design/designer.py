@@ -11,7 +11,7 @@ The standard-value search is in :mod:`bandsmith.design.standard`.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Mapping, Sequence
 
 from bandsmith.common.units import PART_UNITS
@@ -36,6 +36,8 @@ __all__ = [
     "design",
     "design_many",
     "designs_or_errors",
+    "prepare_designs",
+    "PreparedDesigns",
     "design_json",
     "spread_of",
     "parse_fixed",
@@ -274,6 +276,56 @@ def designs_or_errors(
     analyses of those that got parts share one batch (:func:`bandsmith.design.candidate.analyze_candidates`);
     each circuit's :class:`InputError` is kept in its place (a chain lists the circuits that cannot
     build a stage, and why). ``fixed`` pins the same parts on every circuit (most callers pin none)."""
+    prepared = prepare_designs(topology_ids, spec, series=series, fixed=fixed, conditions=conditions, width=width)
+    ready = prepared.candidates()
+    return prepared.concluded(analyze_candidates(ready, conditions) if ready else [], conditions)
+
+
+@dataclass(frozen=True, slots=True)
+class PreparedDesigns:
+    """Several circuits' designs for one target with their parts chosen, waiting for the analyses
+    of those parts (:func:`prepare_designs`); a caller that analyses many targets' candidates in
+    one batch (a chain's stages) concludes each target's from its own.
+
+    ``made`` holds per circuit, in the order asked, the :class:`InputError` it raised, its
+    infeasible :class:`DesignResult`, or its design with its parts chosen."""
+
+    spec: Spec
+    series: str
+    made: tuple
+
+    def candidates(self) -> list[Candidate]:
+        """The candidates to analyse: every design with its parts, in order."""
+        return [m.candidate for m in self.made if isinstance(m, _Prepared)]
+
+    def concluded(self, analyses: Sequence, conditions: Conditions) -> list[DesignResult | InputError]:
+        """Each circuit's result under ``conditions``, given the analyses of :meth:`candidates`
+        (in their order; an analysis may be the :class:`InputError` it raised): what
+        :func:`designs_or_errors` gives for those conditions."""
+        found = iter(analyses)
+        out: list[DesignResult | InputError] = []
+        for m in self.made:
+            if isinstance(m, _Prepared):
+                analysis = next(found)
+                out.append(analysis if isinstance(analysis, InputError) else _conclude(m, analysis, self.spec, self.series, conditions))
+            elif isinstance(m, DesignResult) and m.conditions is not conditions:  # infeasible before any analysis
+                out.append(replace(m, conditions=conditions))
+            else:
+                out.append(m)
+        return out
+
+
+def prepare_designs(
+    topology_ids: Sequence[str],
+    spec: Spec,
+    *,
+    series: str = "E24",
+    fixed: Mapping[str, float | str] | None = None,
+    conditions: Conditions = Conditions(),
+    width: int = 1,
+) -> PreparedDesigns:
+    """:func:`designs_or_errors` up to the analyses: every circuit's exact design and its parts
+    chosen (the standard-value searches of all of them in one call)."""
     made: list = []
     for t in topology_ids:
         try:
@@ -281,11 +333,7 @@ def designs_or_errors(
         except InputError as exc:
             made.append(exc)
     _choose_parts(made, spec, series, conditions, width)
-    ready = [i for i, m in enumerate(made) if isinstance(m, _Prepared)]
-    analyses = analyze_candidates([made[i].candidate for i in ready], conditions) if ready else []
-    for i, analysis in zip(ready, analyses):
-        made[i] = analysis if isinstance(analysis, InputError) else _conclude(made[i], analysis, spec, series, conditions)
-    return made
+    return PreparedDesigns(spec, series, tuple(made))
 
 
 @dataclass(frozen=True, slots=True)
