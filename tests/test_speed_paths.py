@@ -77,8 +77,9 @@ def test_a_blas_thread_count_set_by_the_user_is_kept():
 
 @pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
 def test_step_slopes_of_every_amplifier_output_in_one_pass_equal_one_by_one(circuit):
-    """max_step_slopes (shared poles and exponentials) against max_step_slope member by member,
-    itself checked against scipy.signal.step in tests/test_requirements.py: equal."""
+    """max_step_slopes (shared poles and modes) against max_step_slope member by member, itself
+    checked against scipy.signal.step in tests/test_requirements.py and tests/test_step_slope.py:
+    the same numbers, with ideal op-amps (closed forms) and finite ones (the shared modes)."""
     import math
 
     from bandsmith.analysis.timeresponse import max_step_slope, max_step_slopes
@@ -86,12 +87,15 @@ def test_step_slopes_of_every_amplifier_output_in_one_pass_equal_one_by_one(circ
     from bandsmith.solver.mna import build_system
     from bandsmith.solver.rational import node_rationals
 
+    from bandsmith.solver.mna import OpAmpModel
+
     topo = get_topology(circuit)
     netlist = topo.build(dict(topo.example))
-    system = build_system(netlist)
-    nodes = [system.layout.node_index[e.nodes[2]] for e in netlist.opamps]
-    h = node_rationals(system, nodes, 2 * math.pi * 1e3)
-    assert_allclose(max_step_slopes(h), [max_step_slope(h, i=i) for i in range(h.batch)], rtol=1e-14)
+    for opamp in (IDEAL, OpAmpModel(1e6), OpAmpModel(2e5)):  # finite op-amps: every node above second order
+        system = build_system(netlist, opamp)
+        nodes = [system.layout.node_index[e.nodes[2]] for e in netlist.opamps] + [system.output_index]
+        h = node_rationals(system, nodes, 2 * math.pi * 1e3)
+        assert max_step_slopes(h) == [max_step_slope(h, i=i) for i in range(h.batch)]
 
 
 def test_quadratic_hurwitz_shortcut_agrees_with_the_roots():

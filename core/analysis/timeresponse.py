@@ -19,7 +19,7 @@ from typing import Sequence
 import numpy as np
 
 from bandsmith.solver.polyroots import companion_roots
-from bandsmith.solver.rational import Rational, lead_trimmed, polyder_batch, polyval_batch
+from bandsmith.solver.rational import Rational, lead_trimmed
 
 __all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
 
@@ -74,8 +74,15 @@ _UNDERFLOW = -746.0
 
 
 def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
-    """Step and impulse responses from simple poles ``p`` (the roots of ``a``):
-    ``r_i = N(λ_i)/D'(λ_i)`` after division.
+    """Step and impulse responses ``(y, h)`` at times ``t`` from simple poles ``p`` (the roots of
+    ``a``): :class:`_Modes`."""
+    return _Modes(a, t, p).responses(b)
+
+
+class _Modes:
+    """The modes of one denominator ``a`` (its simple poles ``p``) over times ``t``, shared by
+    every numerator over it; :meth:`responses` gives a numerator's step and impulse responses,
+    with residues ``r_i = N(λ_i)/D'(λ_i)`` after division.
 
     A real polynomial's complex poles come in conjugate pairs whose terms are conjugate, so each
     pair ``σ ± jω`` counts once, twice the real part of its upper pole's term: with ``2r = A + jB``
@@ -84,33 +91,50 @@ def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
     ``h = r·e^{λt}`` and ``y = (r/λ)·(e^{λt} − 1)``; ``y`` starts from the direct term ``D_∞``.
     All in real arithmetic, each pole's row over the times at once.
     """
-    direct = 0.0
-    if b.size >= a.size:
-        quotient, b = _polydiv(b, a)
-        direct = float(quotient[-1])
-    p = p[p.imag >= 0]
-    r = np.array(_residues(b.tolist(), a.tolist(), p.tolist()), dtype=complex)
-    pair = p.imag > 0
-    h = np.zeros(t.size)
-    y = np.full(t.size, direct)
-    if not pair.all():  # real poles: r and λ real (a real point keeps a zero imaginary part)
-        lam, rr = p.real[~pair], r.real[~pair]
-        e = _decay(lam[:, None] * t)  # (poles, times)
-        h += rr @ e
-        e -= 1.0
-        y += (rr / lam) @ e
-    if pair.any():
-        lam, twice = p[pair], 2.0 * r[pair]
-        over = twice / lam
-        e = _decay(lam.real[:, None] * t)
-        wt = lam.imag[:, None] * t
-        c = np.cos(wt)
-        c *= e
-        s = np.sin(wt)
-        s *= e
-        h += twice.real @ c - twice.imag @ s
-        y += over.real @ c - over.imag @ s - over.real.sum()
-    return y, h
+
+    __slots__ = ("a", "poles", "size", "pair", "real_lam", "real_exp", "pair_lam", "pair_cos", "pair_sin")
+
+    def __init__(self, a: np.ndarray, t: np.ndarray, p: np.ndarray):
+        p = p[p.imag >= 0]
+        self.a = a
+        self.poles = p.tolist()
+        self.size = t.size
+        self.pair = pair = p.imag > 0
+        self.real_lam = self.real_exp = self.pair_lam = self.pair_cos = self.pair_sin = None
+        if not pair.all():  # real poles (a real point keeps a zero imaginary part)
+            self.real_lam = lam = p.real[~pair]
+            self.real_exp = _decay(lam[:, None] * t)  # (poles, times)
+        if pair.any():
+            self.pair_lam = lam = p[pair]
+            e = _decay(lam.real[:, None] * t)
+            wt = lam.imag[:, None] * t
+            self.pair_cos = np.cos(wt)
+            self.pair_cos *= e
+            self.pair_sin = np.sin(wt)
+            self.pair_sin *= e
+
+    def responses(self, b: np.ndarray, *, step: bool = True) -> tuple[np.ndarray | None, np.ndarray]:
+        """``(y, h)``: the unit-step response (None without ``step``) and the impulse response."""
+        a = self.a
+        direct = 0.0
+        if b.size >= a.size:
+            quotient, b = _polydiv(b, a)
+            direct = float(quotient[-1])
+        r = np.array(_residues(b.tolist(), a.tolist(), self.poles), dtype=complex)
+        h = np.zeros(self.size)
+        y = np.full(self.size, direct) if step else None
+        if self.real_exp is not None:
+            rr = r.real[~self.pair]
+            h += rr @ self.real_exp
+            if step:
+                y += (rr / self.real_lam) @ (self.real_exp - 1.0)
+        if self.pair_lam is not None:
+            twice = 2.0 * r[self.pair]
+            h += twice.real @ self.pair_cos - twice.imag @ self.pair_sin
+            if step:
+                over = twice / self.pair_lam
+                y += over.real @ self.pair_cos - over.imag @ self.pair_sin - over.real.sum()
+        return y, h
 
 
 def _residues(b: list[float], a: list[float], poles: list[complex]) -> list[complex]:
@@ -288,9 +312,9 @@ def max_step_slopes(h: Rational) -> list[float]:
     Each member tries the closed forms first (:func:`_pure_bandpass_slope`, then
     :func:`_second_order_slope`), on lists of its coefficients. Members left over with one
     denominator (the transfer functions to several nodes of one circuit) share its poles, time
-    grid and modal exponentials: one ``exp`` over the grid for all of them, and each member's
-    residues as :func:`_modal` finds them. Members whose poles are too close for the modal form
-    go through :func:`step_response` one by one.
+    grid and modes (:class:`_Modes`, as :func:`step_response` forms them: the same largest slope
+    as it finds, bit for bit). Members whose poles are too close for the modal form go through
+    :func:`step_response` one by one.
     """
     out: list[float | None] = []
     groups: dict[tuple, list[tuple[int, np.ndarray]]] = {}
@@ -304,12 +328,12 @@ def max_step_slopes(h: Rational) -> list[float]:
                 powers[w] = _powers(w, width)
             b, a = _in_s(num, den, powers[w])
             slope = _second_order_slope(b, a)
-            if slope is None:
-                groups.setdefault(tuple(a), []).append((i, np.array(b)))
+            if slope is None:  # one group per denominator (as a member, in p and in s)
+                groups.setdefault((tuple(a), tuple(den), w), []).append((i, np.array(b)))
         out.append(slope)
-    for key, members in groups.items():
+    for (key, _, _), members in groups.items():
         a = np.array(key)
-        poles = _roots(a)
+        poles = _roots(a) if a.size == 3 else h.poles(members[0][0])  # step_response's
         listed = poles.tolist()
         fast = max((abs(p) for p in listed if cmath.isfinite(p)), default=1.0)
         gap = min((abs(p - q) for k, p in enumerate(listed) for q in listed[k + 1 :]), default=np.inf)
@@ -317,18 +341,9 @@ def max_step_slopes(h: Rational) -> list[float]:
             for i, _ in members:
                 out[i] = step_response(h, i=i).max_slope_per_s
             continue
-        t_all = np.concatenate([default_time_grid(poles), _EARLY / fast])
-        p = poles[poles.imag >= 0]
-        e = np.exp(t_all[:, None] * p)
-        at = p[None, :]
-        dd = polyval_batch(polyder_batch(a[None, :]), at)[0]
-        twice = np.where(p.imag > 0, 2.0, 1.0)
-        for i, b in members:  # the impulse response h(t) = Σ r·e^{λt}, as _modal forms it
-            if b.size >= a.size:
-                b = _polydiv(b, a)[1]
-            r = polyval_batch(b[None, :], at)[0] / dd
-            r *= twice
-            out[i] = float(np.abs((e @ r).real).max())
+        modes = _Modes(a, np.concatenate([default_time_grid(poles), _EARLY / fast]), poles)
+        for i, b in members:  # the impulse response, as step_response forms it
+            out[i] = float(np.abs(modes.responses(b, step=False)[1]).max())
     return out
 
 
