@@ -213,6 +213,15 @@ class Analysis:
         """The same analysis with these requirements (an output current into a known load, say)."""
         return replace(self, _requirements=req)
 
+    def with_vin(self, vin_v: float) -> Analysis:
+        """The same analysis driven at another input amplitude (V peak): its requirements, which
+        depend on it, are worked out afresh when asked for (the rest does not depend on it). Not
+        for an analysis whose requirements were set with a capacitive load's current
+        (:meth:`with_requirements`): that is worked out for the amplitude it was made with."""
+        if vin_v == self.drive.vin_v:
+            return self
+        return replace(self, drive=self.drive._replace(vin_v=vin_v), _requirements=None)
+
     @property
     def step(self) -> StepResponse:
         """The ideal-op-amp unit-step response (computed when first asked for)."""

@@ -57,8 +57,7 @@ class PendingStage:
         if analyses is None:
             ready = self.prepared.candidates()
             analyses = analyze_candidates(ready, conditions) if ready else []
-        analyses = [an if isinstance(an, InputError) or an.drive.vin_v == vin_v else replace(an, drive=an.drive._replace(vin_v=vin_v))
-                    for an in analyses]
+        analyses = [an if isinstance(an, InputError) else an.with_vin(vin_v) for an in analyses]
         return conditions, self.prepared.concluded(analyses, conditions)
 
 
