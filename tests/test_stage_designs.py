@@ -90,3 +90,19 @@ def test_design_cascade_stages_match_stage_by_stage():
         assert [a.to_json() for a in st.attempts] == [a.to_json() for a in ref.attempts]
         assert st.circuit == ref.circuit and st.chosen == ref.chosen and st.warnings == ref.warnings
     _same(r.stages[-1].result, built[-1].result)  # the earlier ones' output currents include the next stage's input
+
+
+def test_an_analysis_at_another_amplitude_has_that_amplitudes_requirements():
+    # Analysis.with_vin: the requirements worked out afresh for the new amplitude, equal to an
+    # analysis made at it (the output swing and slew scale with the input), the rest untouched.
+    from bandsmith.design.candidate import Candidate
+
+    values = {"R1": 16e3, "R2": 1.1e3, "R3": 91e3, "C1": 10e-9, "C2": 10e-9}  # an MFB of our own
+    one = Candidate("mfb", values).analyze(Conditions(gbw_hz=5e6, vin_v=0.5))
+    one.requirements  # found for 0.5 V first
+    moved = one.with_vin(2.0)
+    fresh = Candidate("mfb", values).analyze(Conditions(gbw_hz=5e6, vin_v=2.0))
+    assert moved.requirements.to_json() == fresh.requirements.to_json()
+    assert moved.requirements.vout_peak_v == pytest.approx(4.0 * one.requirements.vout_peak_v, rel=1e-12)
+    assert moved.ideal is one.ideal and moved.required_gbw == one.required_gbw
+    assert one.with_vin(0.5) is one
