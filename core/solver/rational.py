@@ -333,23 +333,44 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     """
     g, c = system.G[0], system.C[0]
     k = int(np.count_nonzero(c.any(axis=1))) + 1  # _degree_bound of member 0, plus one
-    s = float(w_ref) * _circle(k)[0]
+    idx = list(indices)
+    s = np.empty(k if at is None else k + 1, dtype=complex)
+    s[:k] = float(w_ref) * _circle(k)[0]
     if at is not None:
-        s = np.append(s, complex(at))
+        s[k] = at
     a = g + s[:, None, None] * c  # (K, n, n), and the pencil at ``at`` after them
     den_v = np.linalg.det(a[:k])
     rhs = system.source_vector().astype(complex)[None, :, None]  # (1, n, 1): a matrix for every member
     x = np.linalg.solve(a, rhs)  # (K, n, 1), each matrix solved alone
-    idx = list(indices)
     values = np.empty((1 + len(idx), k), dtype=complex)
     values[0] = den_v
     values[1:] = (x[:k, idx, 0] * den_v[:, None]).T
-    both = _coefficients(values, k)
-    num_c = _trim(both[1:])
-    den_c = _trim(both[:1])
-    scale = np.abs(den_c).max()
-    h = Rational(num_c / scale, np.repeat(den_c / scale, len(idx), axis=0), np.full(len(idx), float(w_ref)))
+    both = _coefficients(values, k).tolist()
+    den_c = _trim_rows(both[:1])[0]
+    num_c = _trim_rows(both[1:])
+    # the largest |coefficient| (numpy's max where a NaN must carry through)
+    scale = max(map(abs, den_c)) if all(map(math.isfinite, den_c)) else float(np.abs(np.array(den_c)).max())
+    # the divisions IEEE's in numpy or Python alike; every member has the one denominator
+    h = Rational(np.array(num_c) / scale, np.array([den_c] * len(idx)) / scale, np.full(len(idx), float(w_ref)))
     return h if at is None else (h, x[k, :, 0])
+
+
+def _trim_rows(rows: list[list[float]]) -> list[list[float]]:
+    """:func:`_trim` of a few short rows given as lists (node_rationals': a handful of
+    coefficients, where a dozen array operations cost more than the arithmetic): each row's
+    entries at or below ``_SNAP`` times its largest magnitude set to zero, then the leading
+    columns whose entries are all at or below ``_TRIM`` times their row's largest dropped (the
+    last column kept). The same comparisons on the same floats, so the same result; a row with
+    a non-finite entry goes to :func:`_trim` itself (its NaN rules are numpy's)."""
+    scales = [max(map(abs, r)) for r in rows]
+    if not all(map(math.isfinite, scales)):
+        return _trim(np.array(rows)).tolist()
+    scales = [m if m != 0 else 1.0 for m in scales]
+    rows = [[0.0 if abs(v) <= _SNAP * m else v for v in r] for r, m in zip(rows, scales)]
+    # the first column where any row is above its floor: the least of each row's first such column
+    last = len(rows[0]) - 1
+    first = min(next((j for j, v in enumerate(r) if abs(v) > _TRIM * m), last) for r, m in zip(rows, scales))
+    return [r[first:] for r in rows]
 
 
 def _finite_amps(system: MnaSystem) -> bool:
