@@ -259,11 +259,13 @@ def test_amplifier_values_at_f0_match_a_50_digit_solve(circuit):
 
 
 @pytest.mark.parametrize("circuit", ["mfb", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
-def test_node_rationals_writes_out_the_sampled_solve_bit_for_bit(circuit):
-    """node_rationals forms member 0's pencil, determinant and solve itself (fewer array calls);
-    the same numbers as the general path it shortens: the samples of _samples, MnaSystem.solve's
-    right-hand side, one transform (_coefficients) and the trims. With ``at`` the solution there is
-    the pencil solved at that point (numpy.linalg.solve), every unknown."""
+def test_node_rationals_writes_out_the_sampled_solve(circuit):
+    """node_rationals forms member 0's pencil, determinant and solve itself (fewer array calls),
+    its coefficients by one product (_interpolation_matrix) and its trims on lists (_trim_rows):
+    against the general path it shortens (the samples of _samples, MnaSystem.solve's right-hand
+    side, the transform _coefficients and the array trim _trim) the same shapes and exact zeros,
+    every coefficient within 1e-14 of its row's largest. With ``at`` the solution there is the
+    pencil solved at that point (numpy.linalg.solve), every unknown."""
     import math
 
     from bandsmith.circuits import get_topology
@@ -284,8 +286,38 @@ def test_node_rationals_writes_out_the_sampled_solve_bit_for_bit(circuit):
     num_c, den_c = _trim(both[1:]), _trim(both[:1])
     scale = np.abs(den_c).max()
     h, x0 = node_rationals(system, idx, w, at=2j * math.pi * 2e3)
-    assert np.array_equal(h.num, num_c / scale)
-    assert np.array_equal(h.den, np.repeat(den_c / scale, len(idx), axis=0))
+    num_ref, den_ref = num_c / scale, np.repeat(den_c / scale, len(idx), axis=0)
+    assert h.num.shape == num_ref.shape and h.den.shape == den_ref.shape
+    assert np.array_equal(h.num == 0, num_ref == 0) and np.array_equal(h.den == 0, den_ref == 0)
+    assert_allclose(h.num, num_ref, rtol=0, atol=1e-14 * np.abs(num_ref).max())
+    assert_allclose(h.den, den_ref, rtol=0, atol=1e-14)
     assert np.array_equal(node_rationals(system, idx, w).num, h.num)
     x_ref = np.linalg.solve(system.G[0] + 2j * math.pi * 2e3 * system.C[0], one.source_vector().astype(complex))
     assert_allclose(x0, x_ref, rtol=1e-13, atol=0)
+
+
+def test_interpolation_matrix_is_the_transform_and_list_trim_is_the_array_trim():
+    """_interpolation_matrix (one product) against _coefficients (numpy.fft) on random
+    polynomials sampled at _circle's points: within 1e-15 of the largest coefficient; _trim_rows
+    on lists against _trim on arrays, random rows with zeros, tiny entries and NaN: equal."""
+    from bandsmith.solver.rational import (
+        _circle,
+        _coefficients,
+        _interpolation_matrix,
+        _trim,
+        _trim_rows,
+    )
+
+    rng = np.random.default_rng(11)
+    for k in range(1, 9):
+        c = rng.standard_normal((4, k))  # highest power first
+        values = np.array([np.polyval(row, _circle(k)[0]) for row in c])
+        assert_allclose((values @ _interpolation_matrix(k)).real, _coefficients(values, k), rtol=0, atol=1e-15 * np.abs(c).max() * k)
+        assert_allclose((values @ _interpolation_matrix(k)).real, c, rtol=0, atol=1e-14 * np.abs(c).max())
+    for _ in range(3000):
+        rows, cols = rng.integers(1, 5), rng.integers(1, 7)
+        m = rng.standard_normal((rows, cols)) * 10.0 ** rng.integers(-16, 2, size=(rows, cols))
+        m[rng.random((rows, cols)) < 0.2] = 0.0
+        if rng.random() < 0.05:
+            m[0, 0] = np.nan
+        assert np.array_equal(np.array(_trim_rows(m.tolist())), _trim(m), equal_nan=True)

@@ -321,10 +321,12 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
 
     Member 0's pencil at the ``K`` points of :func:`_samples` (``K − 1`` its :func:`_degree_bound`),
     its determinant ``D`` and the unknowns ``x`` there; by Cramer's rule ``D·x_i`` is the numerator
-    of unknown ``i``, and one transform (:func:`_coefficients`) gives the coefficients of ``D`` and
-    of every numerator, those of ``D`` and those of the numerators each trimmed (:func:`_trim`) as
-    alone. The steps of :func:`_samples` and :meth:`~bandsmith.solver.mna.MnaSystem.solve` are
-    written out for the one member (the same arithmetic in fewer array operations).
+    of unknown ``i``, and one product (:func:`_interpolation_matrix`, the transform of
+    :func:`_coefficients`) gives the coefficients of ``D`` and of every numerator, those of ``D``
+    and those of the numerators each trimmed as :func:`_trim` trims (:func:`_trim_rows`) as alone.
+    The steps of :func:`_samples` and :meth:`~bandsmith.solver.mna.MnaSystem.solve` are written
+    out for the one member (the same arithmetic in fewer array operations; the pencil as the
+    outer product ``s ⊗ C`` plus ``G``, the same complex products and sums).
 
     With ``at`` (a complex frequency, rad/s) the pencil is solved there too, in the same batch,
     and the result is ``(rational, x)``: every unknown's complex value at ``at``, ``(n,)`` (the
@@ -338,14 +340,15 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     s[:k] = float(w_ref) * _circle(k)[0]
     if at is not None:
         s[k] = at
-    a = g + s[:, None, None] * c  # (K, n, n), and the pencil at ``at`` after them
+    a = np.multiply.outer(s, c)  # (K, n, n), and the pencil at ``at`` after them
+    a += g
     den_v = np.linalg.det(a[:k])
     rhs = system.source_vector().astype(complex)[None, :, None]  # (1, n, 1): a matrix for every member
     x = np.linalg.solve(a, rhs)  # (K, n, 1), each matrix solved alone
     values = np.empty((1 + len(idx), k), dtype=complex)
     values[0] = den_v
     values[1:] = (x[:k, idx, 0] * den_v[:, None]).T
-    both = _coefficients(values, k).tolist()
+    both = (values @ _interpolation_matrix(k)).real.tolist()
     den_c = _trim_rows(both[:1])[0]
     num_c = _trim_rows(both[1:])
     # the largest |coefficient| (numpy's max where a NaN must carry through)
@@ -353,6 +356,24 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     # the divisions IEEE's in numpy or Python alike; every member has the one denominator
     h = Rational(np.array(num_c) / scale, np.array([den_c] * len(idx)) / scale, np.full(len(idx), float(w_ref)))
     return h if at is None else (h, x[k, :, 0])
+
+
+@functools.lru_cache(maxsize=16)
+def _interpolation_matrix(k: int) -> np.ndarray:
+    """The ``(k, k)`` complex matrix ``M`` with ``values @ M`` the coefficients (highest power
+    first, real parts) of polynomials of degree below ``k`` from their values at the ``k``
+    rotated points of :func:`_circle`: :func:`_coefficients` as one product (read-only).
+
+    ``v_j = Σ_m c_m·e^{imθ_j}``, ``θ_j = 2πj/k + offset``, so ``c_m = e^{−im·offset}·(1/k)·Σ_j
+    v_j·e^{−2πijm/k}`` (the discrete Fourier transform, undone rotation), and column ``k−1−m``
+    of ``M`` holds ``e^{−im·offset}·e^{−2πijm/k}/k`` over ``j``. For the few points of a circuit
+    a product of a handful of rows is cheaper than the transform's call; the two agree to
+    rounding (some 1e-16 of the largest coefficient)."""
+    j = np.arange(k)
+    m = np.exp(-2j * np.pi * np.outer(j, j) / k) / k * _circle(k)[1][None, :]
+    m = np.ascontiguousarray(m[:, ::-1])
+    m.setflags(write=False)
+    return m
 
 
 def _trim_rows(rows: list[list[float]]) -> list[list[float]]:
