@@ -321,3 +321,23 @@ def test_interpolation_matrix_is_the_transform_and_list_trim_is_the_array_trim()
         if rng.random() < 0.05:
             m[0, 0] = np.nan
         assert np.array_equal(np.array(_trim_rows(m.tolist())), _trim(m), equal_nan=True)
+
+def test_amplifier_needs_pencil_is_build_systems_bit_for_bit():
+    """amplifier_needs's one-member pencil (_nominal_pencil: the stamps added as plain numbers)
+    against build_system's batch arrays, every circuit at random part values (the tank also with
+    a winding resistance): the same floats, signs of zero included, and the same layout."""
+    from bandsmith.analysis.analyzer import _nominal_pencil
+    from bandsmith.circuits import all_topologies
+    from bandsmith.solver.mna import build_system
+
+    rng = np.random.default_rng(2)
+    for topo in all_topologies():
+        for k in range(12):
+            values = {r: v * 10 ** rng.uniform(-1, 1) if v else v for r, v in topo.example.items()}
+            if "RL" in values and k % 2:
+                values["RL"] = 12.0
+            netlist = topo.build(topo.values_from(values))
+            ours, ref = _nominal_pencil(netlist), build_system(netlist)
+            for a, b in ((ours.G, ref.G), (ours.C, ref.C)):
+                assert a.shape == b.shape and np.array_equal(a, b) and np.array_equal(np.signbit(a), np.signbit(b))
+            assert ours.layout == ref.layout and ours.output_index == ref.output_index
