@@ -341,3 +341,20 @@ def test_amplifier_needs_pencil_is_build_systems_bit_for_bit():
             for a, b in ((ours.G, ref.G), (ours.C, ref.C)):
                 assert a.shape == b.shape and np.array_equal(a, b) and np.array_equal(np.signbit(a), np.signbit(b))
             assert ours.layout == ref.layout and ours.output_index == ref.output_index
+
+
+def test_node_rationals_of_no_unknown_is_an_empty_batch():
+    """node_rationals asked for no unknown: a batch of none, shaped as the array trims shaped it
+    (numerators (0, 1), the denominator's width kept), and with ``at`` the solution there."""
+    import math
+
+    from bandsmith.circuits import get_topology
+    from bandsmith.solver.mna import build_system
+    from bandsmith.solver.rational import node_rationals
+
+    topo = get_topology("dabp")
+    system = build_system(topo.build(dict(topo.example)))
+    h = node_rationals(system, [], 2 * math.pi * 1e3)
+    assert h.num.shape == (0, 1) and h.den.shape[0] == 0 and h.den.shape[1] >= 3 and h.w_ref.shape == (0,)
+    h, x0 = node_rationals(system, [], 2 * math.pi * 1e3, at=2j * math.pi * 1e3)
+    assert h.batch == 0 and x0.shape == (system.layout.size,)

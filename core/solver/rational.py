@@ -353,8 +353,11 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     num_c = _trim_rows(both[1:])
     # the largest |coefficient| (numpy's max where a NaN must carry through)
     scale = max(map(abs, den_c)) if all(map(math.isfinite, den_c)) else float(np.abs(np.array(den_c)).max())
-    # the divisions IEEE's in numpy or Python alike; every member has the one denominator
-    h = Rational(np.array(num_c) / scale, np.array([den_c] * len(idx)) / scale, np.full(len(idx), float(w_ref)))
+    # the divisions IEEE's in numpy or Python alike; every member has the one denominator (the
+    # shapes given: no unknown asked for is a batch of none, a numerator column as _trim leaves it)
+    m = len(idx)
+    num = np.array(num_c).reshape(m, len(num_c[0]) if m else 1) / scale
+    h = Rational(num, np.array([den_c] * m).reshape(m, len(den_c)) / scale, np.full(m, float(w_ref)))
     return h if at is None else (h, x[k, :, 0])
 
 
@@ -383,6 +386,8 @@ def _trim_rows(rows: list[list[float]]) -> list[list[float]]:
     columns whose entries are all at or below ``_TRIM`` times their row's largest dropped (the
     last column kept). The same comparisons on the same floats, so the same result; a row with
     a non-finite entry goes to :func:`_trim` itself (its NaN rules are numpy's)."""
+    if not rows:
+        return []
     scales = [max(map(abs, r)) for r in rows]
     if not all(map(math.isfinite, scales)):
         return _trim(np.array(rows)).tolist()
