@@ -388,10 +388,9 @@ def _trim_rows(rows: list[list[float]]) -> list[list[float]]:
     a non-finite entry goes to :func:`_trim` itself (its NaN rules are numpy's)."""
     if not rows:
         return []
-    scales = [max(map(abs, r)) for r in rows]
-    if not all(map(math.isfinite, scales)):
+    if not all(all(map(math.isfinite, r)) for r in rows):  # (Python's max need not carry a NaN)
         return _trim(np.array(rows)).tolist()
-    scales = [m if m != 0 else 1.0 for m in scales]
+    scales = [max(map(abs, r)) or 1.0 for r in rows]
     rows = [[0.0 if abs(v) <= _SNAP * m else v for v in r] for r, m in zip(rows, scales)]
     # the first column where any row is above its floor: the least of each row's first such column
     last = len(rows[0]) - 1
