@@ -528,12 +528,14 @@ def compare(
     ComparisonReport
         ``to_json()`` is the ``compare --json`` object, verdicts and recommendation included.
     """
-    from bandsmith.verdict import VerdictLimits, compare_verdicts
+    from bandsmith.verdict import compare_verdicts
 
     spec = _spec(f0_hz, q, bw_hz, gain)
     series = _series(series)
     conditions = conditions_of(gbw_hz, a0, vin_v, rload_ohm, tol_f0, tol_q, tol_gain_db, rsource_ohm, cload_f)
-    comparison = compare_verdicts(spec, series=series, conditions=conditions, limits=limits or VerdictLimits())
+    # without limits, compare_verdicts' default VerdictLimits() (frozen): none built per call
+    given = {} if limits is None else {"limits": limits}
+    comparison = compare_verdicts(spec, series=series, conditions=conditions, **given)
     return ComparisonReport(comparison, series, conditions)
 
 

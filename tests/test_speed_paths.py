@@ -317,11 +317,13 @@ def test_amplifier_values_at_f0_match_a_50_digit_solve(circuit):
 
 
 @pytest.mark.parametrize("circuit", ["mfb", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
-def test_node_rationals_writes_out_the_sampled_solve_bit_for_bit(circuit):
-    """node_rationals forms member 0's pencil, determinant and solve itself (fewer array calls);
-    the same numbers as the general path it shortens: the samples of _samples, MnaSystem.solve's
-    right-hand side, one transform (_coefficients) and the trims. With ``at`` the solution there is
-    the pencil solved at that point (numpy.linalg.solve), every unknown."""
+def test_node_rationals_writes_out_the_sampled_solve(circuit):
+    """node_rationals forms member 0's pencil, determinant and solve itself (fewer array calls),
+    its coefficients by one product (_interpolation_matrix) and its trims on lists (_trim_rows):
+    against the general path it shortens (the samples of _samples, MnaSystem.solve's right-hand
+    side, the transform _coefficients and the array trim _trim) the same shapes and exact zeros,
+    every coefficient within 1e-14 of its row's largest. With ``at`` the solution there is the
+    pencil solved at that point (numpy.linalg.solve), every unknown."""
     import math
 
     from bandsmith.circuits import get_topology
@@ -342,8 +344,11 @@ def test_node_rationals_writes_out_the_sampled_solve_bit_for_bit(circuit):
     num_c, den_c = _trim(both[1:]), _trim(both[:1])
     scale = np.abs(den_c).max()
     h, x0 = node_rationals(system, idx, w, at=2j * math.pi * 2e3)
-    assert np.array_equal(h.num, num_c / scale)
-    assert np.array_equal(h.den, np.repeat(den_c / scale, len(idx), axis=0))
+    num_ref, den_ref = num_c / scale, np.repeat(den_c / scale, len(idx), axis=0)
+    assert h.num.shape == num_ref.shape and h.den.shape == den_ref.shape
+    assert np.array_equal(h.num == 0, num_ref == 0) and np.array_equal(h.den == 0, den_ref == 0)
+    assert_allclose(h.num, num_ref, rtol=0, atol=1e-14 * np.abs(num_ref).max())
+    assert_allclose(h.den, den_ref, rtol=0, atol=1e-14)
     assert np.array_equal(node_rationals(system, idx, w).num, h.num)
     x_ref = np.linalg.solve(system.G[0] + 2j * math.pi * 2e3 * system.C[0], one.source_vector().astype(complex))
     assert_allclose(x0, x_ref, rtol=1e-13, atol=0)
@@ -465,3 +470,67 @@ def test_sallen_key_normalised_parts_of_one_gain_are_the_arrays_numbers():
         for a, b in zip(arrays, one):
             assert float(a) == b or (math.isnan(float(a)) and math.isnan(b))
     assert compared > 2500
+
+
+def test_interpolation_matrix_is_the_transform_and_list_trim_is_the_array_trim():
+    """_interpolation_matrix (one product) against _coefficients (numpy.fft) on random
+    polynomials sampled at _circle's points: within 1e-15 of the largest coefficient; _trim_rows
+    on lists against _trim on arrays, random rows with zeros, tiny entries, NaN and infinities: equal."""
+    from bandsmith.solver.rational import (
+        _circle,
+        _coefficients,
+        _interpolation_matrix,
+        _trim,
+        _trim_rows,
+    )
+
+    rng = np.random.default_rng(11)
+    for k in range(1, 9):
+        c = rng.standard_normal((4, k))  # highest power first
+        values = np.array([np.polyval(row, _circle(k)[0]) for row in c])
+        assert_allclose((values @ _interpolation_matrix(k)).real, _coefficients(values, k), rtol=0, atol=1e-15 * np.abs(c).max() * k)
+        assert_allclose((values @ _interpolation_matrix(k)).real, c, rtol=0, atol=1e-14 * np.abs(c).max())
+    for _ in range(3000):
+        rows, cols = rng.integers(1, 5), rng.integers(1, 7)
+        m = rng.standard_normal((rows, cols)) * 10.0 ** rng.integers(-16, 2, size=(rows, cols))
+        m[rng.random((rows, cols)) < 0.2] = 0.0
+        if rng.random() < 0.1:
+            m[rng.integers(rows), rng.integers(cols)] = rng.choice([np.nan, np.inf, -np.inf])
+        assert np.array_equal(np.array(_trim_rows(m.tolist())), _trim(m), equal_nan=True)
+
+def test_amplifier_needs_pencil_is_build_systems_bit_for_bit():
+    """amplifier_needs's one-member pencil (_nominal_pencil: the stamps added as plain numbers)
+    against build_system's batch arrays, every circuit at random part values (the tank also with
+    a winding resistance): the same floats, signs of zero included, and the same layout."""
+    from bandsmith.analysis.analyzer import _nominal_pencil
+    from bandsmith.circuits import all_topologies
+    from bandsmith.solver.mna import build_system
+
+    rng = np.random.default_rng(2)
+    for topo in all_topologies():
+        for k in range(12):
+            values = {r: v * 10 ** rng.uniform(-1, 1) if v else v for r, v in topo.example.items()}
+            if "RL" in values and k % 2:
+                values["RL"] = 12.0
+            netlist = topo.build(topo.values_from(values))
+            ours, ref = _nominal_pencil(netlist), build_system(netlist)
+            for a, b in ((ours.G, ref.G), (ours.C, ref.C)):
+                assert a.shape == b.shape and np.array_equal(a, b) and np.array_equal(np.signbit(a), np.signbit(b))
+            assert ours.layout == ref.layout and ours.output_index == ref.output_index
+
+
+def test_node_rationals_of_no_unknown_is_an_empty_batch():
+    """node_rationals asked for no unknown: a batch of none, shaped as the array trims shaped it
+    (numerators (0, 1), the denominator's width kept), and with ``at`` the solution there."""
+    import math
+
+    from bandsmith.circuits import get_topology
+    from bandsmith.solver.mna import build_system
+    from bandsmith.solver.rational import node_rationals
+
+    topo = get_topology("dabp")
+    system = build_system(topo.build(dict(topo.example)))
+    h = node_rationals(system, [], 2 * math.pi * 1e3)
+    assert h.num.shape == (0, 1) and h.den.shape[0] == 0 and h.den.shape[1] >= 3 and h.w_ref.shape == (0,)
+    h, x0 = node_rationals(system, [], 2 * math.pi * 1e3, at=2j * math.pi * 1e3)
+    assert h.batch == 0 and x0.shape == (system.layout.size,)

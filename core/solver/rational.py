@@ -337,10 +337,12 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
 
     Member 0's pencil at the ``K`` points of :func:`_samples` (``K − 1`` its :func:`_degree_bound`),
     its determinant ``D`` and the unknowns ``x`` there; by Cramer's rule ``D·x_i`` is the numerator
-    of unknown ``i``, and one transform (:func:`_coefficients`) gives the coefficients of ``D`` and
-    of every numerator, those of ``D`` and those of the numerators each trimmed (:func:`_trim`) as
-    alone. The steps of :func:`_samples` and :meth:`~bandsmith.solver.mna.MnaSystem.solve` are
-    written out for the one member (the same arithmetic in fewer array operations).
+    of unknown ``i``, and one product (:func:`_interpolation_matrix`, the transform of
+    :func:`_coefficients`) gives the coefficients of ``D`` and of every numerator, those of ``D``
+    and those of the numerators each trimmed as :func:`_trim` trims (:func:`_trim_rows`) as alone.
+    The steps of :func:`_samples` and :meth:`~bandsmith.solver.mna.MnaSystem.solve` are written
+    out for the one member (the same arithmetic in fewer array operations; the pencil as the
+    outer product ``s ⊗ C`` plus ``G``, the same complex products and sums).
 
     With ``at`` (a complex frequency, rad/s) the pencil is solved there too, in the same batch,
     and the result is ``(rational, x)``: every unknown's complex value at ``at``, ``(n,)`` (the
@@ -349,23 +351,67 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     """
     g, c = system.G[0], system.C[0]
     k = int(np.count_nonzero(c.any(axis=1))) + 1  # _degree_bound of member 0, plus one
-    s = float(w_ref) * _circle(k)[0]
+    idx = list(indices)
+    s = np.empty(k if at is None else k + 1, dtype=complex)
+    s[:k] = float(w_ref) * _circle(k)[0]
     if at is not None:
-        s = np.append(s, complex(at))
-    a = g + s[:, None, None] * c  # (K, n, n), and the pencil at ``at`` after them
+        s[k] = at
+    a = np.multiply.outer(s, c)  # (K, n, n), and the pencil at ``at`` after them
+    a += g
     den_v = np.linalg.det(a[:k])
     rhs = system.source_vector().astype(complex)[None, :, None]  # (1, n, 1): a matrix for every member
     x = np.linalg.solve(a, rhs)  # (K, n, 1), each matrix solved alone
-    idx = list(indices)
     values = np.empty((1 + len(idx), k), dtype=complex)
     values[0] = den_v
     values[1:] = (x[:k, idx, 0] * den_v[:, None]).T
-    both = _coefficients(values, k)
-    num_c = _trim(both[1:])
-    den_c = _trim(both[:1])
-    scale = np.abs(den_c).max()
-    h = Rational(num_c / scale, np.repeat(den_c / scale, len(idx), axis=0), np.full(len(idx), float(w_ref)))
+    both = (values @ _interpolation_matrix(k)).real.tolist()
+    den_c = _trim_rows(both[:1])[0]
+    num_c = _trim_rows(both[1:])
+    # the largest |coefficient| (numpy's max where a NaN must carry through)
+    scale = max(map(abs, den_c)) if all(map(math.isfinite, den_c)) else float(np.abs(np.array(den_c)).max())
+    # the divisions IEEE's in numpy or Python alike; every member has the one denominator (the
+    # shapes given: no unknown asked for is a batch of none, a numerator column as _trim leaves it)
+    m = len(idx)
+    num = np.array(num_c).reshape(m, len(num_c[0]) if m else 1) / scale
+    h = Rational(num, np.array([den_c] * m).reshape(m, len(den_c)) / scale, np.full(m, float(w_ref)))
     return h if at is None else (h, x[k, :, 0])
+
+
+@functools.lru_cache(maxsize=16)
+def _interpolation_matrix(k: int) -> np.ndarray:
+    """The ``(k, k)`` complex matrix ``M`` with ``values @ M`` the coefficients (highest power
+    first, real parts) of polynomials of degree below ``k`` from their values at the ``k``
+    rotated points of :func:`_circle`: :func:`_coefficients` as one product (read-only).
+
+    ``v_j = Σ_m c_m·e^{imθ_j}``, ``θ_j = 2πj/k + offset``, so ``c_m = e^{−im·offset}·(1/k)·Σ_j
+    v_j·e^{−2πijm/k}`` (the discrete Fourier transform, undone rotation), and column ``k−1−m``
+    of ``M`` holds ``e^{−im·offset}·e^{−2πijm/k}/k`` over ``j``. For the few points of a circuit
+    a product of a handful of rows is cheaper than the transform's call; the two agree to
+    rounding (some 1e-16 of the largest coefficient)."""
+    j = np.arange(k)
+    m = np.exp(-2j * np.pi * np.outer(j, j) / k) / k * _circle(k)[1][None, :]
+    m = np.ascontiguousarray(m[:, ::-1])
+    m.setflags(write=False)
+    return m
+
+
+def _trim_rows(rows: list[list[float]]) -> list[list[float]]:
+    """:func:`_trim` of a few short rows given as lists (node_rationals': a handful of
+    coefficients, where a dozen array operations cost more than the arithmetic): each row's
+    entries at or below ``_SNAP`` times its largest magnitude set to zero, then the leading
+    columns whose entries are all at or below ``_TRIM`` times their row's largest dropped (the
+    last column kept). The same comparisons on the same floats, so the same result; a row with
+    a non-finite entry goes to :func:`_trim` itself (its NaN rules are numpy's)."""
+    if not rows:
+        return []
+    if not all(all(map(math.isfinite, r)) for r in rows):  # (Python's max need not carry a NaN)
+        return _trim(np.array(rows)).tolist()
+    scales = [max(map(abs, r)) or 1.0 for r in rows]
+    rows = [[0.0 if abs(v) <= _SNAP * m else v for v in r] for r, m in zip(rows, scales)]
+    # the first column where any row is above its floor: the least of each row's first such column
+    last = len(rows[0]) - 1
+    first = min(next((j for j, v in enumerate(r) if abs(v) > _TRIM * m), last) for r, m in zip(rows, scales))
+    return [r[first:] for r in rows]
 
 
 def _finite_amps(system: MnaSystem) -> bool:
