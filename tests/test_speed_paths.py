@@ -498,25 +498,31 @@ def test_interpolation_matrix_is_the_transform_and_list_trim_is_the_array_trim()
             m[rng.integers(rows), rng.integers(cols)] = rng.choice([np.nan, np.inf, -np.inf])
         assert np.array_equal(np.array(_trim_rows(m.tolist())), _trim(m), equal_nan=True)
 
-def test_amplifier_needs_pencil_is_build_systems_bit_for_bit():
-    """amplifier_needs's one-member pencil (_nominal_pencil: the stamps added as plain numbers)
-    against build_system's batch arrays, every circuit at random part values (the tank also with
-    a winding resistance): the same floats, signs of zero included, and the same layout."""
-    from bandsmith.analysis.analyzer import _nominal_pencil
+def test_a_structures_first_pencil_stamped_directly_is_the_plans():
+    """build_system's first pencil of a structure (stamped straight from the netlist, no plan
+    made) against the next one of the same netlist (from the plan) and against adding every stamp
+    in turn: every circuit at random part values (the tank also with a winding resistance), ideal
+    and finite op-amps, the same floats, signs of zero included, and the same layout and terms."""
     from bandsmith.circuits import all_topologies
-    from bandsmith.solver.mna import build_system
+    from bandsmith.solver import mna
 
     rng = np.random.default_rng(2)
     for topo in all_topologies():
-        for k in range(12):
+        for k in range(6):
             values = {r: v * 10 ** rng.uniform(-1, 1) if v else v for r, v in topo.example.items()}
             if "RL" in values and k % 2:
                 values["RL"] = 12.0
             netlist = topo.build(topo.values_from(values))
-            ours, ref = _nominal_pencil(netlist), build_system(netlist)
-            for a, b in ((ours.G, ref.G), (ours.C, ref.C)):
-                assert a.shape == b.shape and np.array_equal(a, b) and np.array_equal(np.signbit(a), np.signbit(b))
-            assert ours.layout == ref.layout and ours.output_index == ref.output_index
+            for opamp in (IDEAL, OpAmpModel(3e6, 2e5)):
+                mna._PLANS.clear()
+                mna._SEEN.clear()
+                first, planned = mna.build_system(netlist, opamp), mna.build_system(netlist, opamp)
+                want_g, want_c = _stamped_one_by_one(netlist, opamp, None)
+                for a, b in ((first.G, planned.G), (first.C, planned.C), (first.G, want_g), (first.C, want_c)):
+                    assert a.shape == b.shape and np.array_equal(a, b) and np.array_equal(np.signbit(a), np.signbit(b))
+                assert first.layout == planned.layout and first.output_index == planned.output_index
+                for x, y in zip(first.amp_terms, planned.amp_terms, strict=True):
+                    assert x[:2] == y[:2] and np.array_equal(x[2], y[2]) and np.array_equal(x[3], y[3])
 
 
 def test_node_rationals_of_no_unknown_is_an_empty_batch():

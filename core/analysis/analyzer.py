@@ -29,8 +29,8 @@ from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure_from, measure_many
 from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
 from bandsmith.analysis.tolerances import Tolerances, within_tolerances
-from bandsmith.analysis.transfer import ideal_figures, several_amp_family, transfer_function
-from bandsmith.solver.mna import _OPAMP_TERMS, IDEAL, MnaLayout, MnaSystem, OpAmpModel, _stamps, build_system, solve_at
+from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_family, transfer_function
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
 from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, lead_trimmed, node_rationals, rational_and_family, reference_w
@@ -314,41 +314,6 @@ def opamp_output_current(
     return float(max(abs(x[layout.opamp_row[r]]) for r in own)) if own else 0.0
 
 
-@functools.lru_cache(maxsize=32)
-def _nominal_pencil(netlist: Netlist) -> MnaSystem:
-    """``build_system(netlist)`` (the netlist's own values, ideal op-amps) as a batch of one, kept
-    for the few netlists last asked for (as :func:`bandsmith.analysis.transfer.nominal_system`
-    keeps it; read-only arrays): the pencil :func:`amplifier_needs` samples.
-
-    Its entries are added up as plain numbers in the order of the stamps
-    (:func:`bandsmith.solver.mna._stamps`), as :func:`bandsmith.solver.mna.solve_at` adds them:
-    each entry the sum of its ``± 1``, ``± 1/R``, ``± C``, ``± L``, ``± R_s`` in the same order
-    as :func:`build_system` adds them (``x − y`` is ``x + (−y)`` exactly), so the same floats,
-    without the batch machinery (some forty array operations, several times the cost of the
-    handful of stamps of a small circuit, paid by every new design). The op-amps' terms are left
-    out (ideal op-amps) and ``amp_terms`` is None (:func:`bandsmith.solver.rational.node_rationals`
-    does not read it)."""
-    layout = MnaLayout.of(netlist)
-    n = layout.size
-    g = [[0.0] * n for _ in range(n)]
-    c = [[0.0] * n for _ in range(n)]
-    parts = {e.ref: e for e in netlist.elements}
-    for which, i, j, sign, q in _stamps(netlist, layout):
-        if q is None:
-            y = 1.0
-        elif q[0] in _OPAMP_TERMS:
-            continue  # ideal op-amps
-        else:
-            kind, ref = q
-            e = parts[ref]
-            y = 1.0 / e.value if kind == "g" else e.series_resistance if kind == "rs" else e.value
-        (g if which == "G" else c)[i][j] += sign * y
-    system = MnaSystem(np.array([g]), np.array([c]), layout, layout.node_index[netlist.output], None)
-    system.G.setflags(write=False)
-    system.C.setflags(write=False)
-    return system
-
-
 def amplifier_needs(
     netlist: Netlist, f0_hz: float, *, vin_v: float = 1.0, rload_ohm: float | None = None, w_ref: float | None = None,
 ) -> tuple[AmplifierNeeds, ...]:
@@ -363,7 +328,7 @@ def amplifier_needs(
     if not math.isfinite(f0_hz):
         return tuple(AmplifierNeeds(e.ref, e.nodes[2], math.nan, math.nan, math.nan, math.nan) for e in netlist.opamps)
     s0 = 2j * math.pi * f0_hz
-    system = _nominal_pencil(netlist)
+    system = nominal_system(netlist)
     if w_ref is None:
         w_ref = 2.0 * math.pi * f0_hz
     amps = netlist.opamps

@@ -174,7 +174,9 @@ def build_system(
     """
     gbw = gbw_hz if gbw_hz is not None else opamp.gbw_hz
     gain0 = a0 if a0 is not None else opamp.a0
-    plan = _plan(netlist, gbw is None)
+    plan = _plan(netlist, gbw is None, first_sight=_scalars(overrides, gbw, gain0))
+    if plan is None:  # a structure's first pencil, of one member: stamped straight from the netlist
+        return _stamped_directly(netlist, overrides or {}, gbw, gain0)
     layout, n = plan.layout, plan.layout.size
     columns, size = _quantities(netlist, plan.quantities, overrides, gbw, gain0)
     if size == 1 and all(type(c) is float for c in columns):
@@ -196,6 +198,43 @@ def build_system(
         else:
             terms.append((row, col, _column(columns[a0_k], size), _column(columns[wt_k], size)))
     return MnaSystem(G.reshape(size, n, n), C.reshape(size, n, n), layout, layout.node_index[netlist.output], tuple(terms))
+
+
+def _scalars(overrides, gbw, gain0) -> bool:
+    """True when every value given is one number (a batch of one)."""
+    return all(isinstance(v, (int, float)) for v in (overrides or {}).values()) and all(
+        v is None or isinstance(v, (int, float)) for v in (gbw, gain0))
+
+
+def _stamped_directly(netlist: Netlist, over: Mapping, gbw, gain0) -> MnaSystem:
+    """A batch of one stamped straight from :func:`_stamps` as plain numbers, each entry's stamps
+    summed in stamping order (the numbers of the plan's path, without making a plan: a
+    structure met once, the first design of a circuit in a process, does not pay for one)."""
+    layout = MnaLayout.of(netlist)
+    n = layout.size
+    parts = {e.ref: e for e in netlist.elements}
+    g, c = [0.0] * (n * n), [0.0] * (n * n)
+    known: dict[tuple[str, str], float] = {}
+    for which, i, j, sign, q in _stamps(netlist, layout):
+        if q is None:
+            y = 1.0
+        elif q[0] in _OPAMP_TERMS and gbw is None:
+            continue  # the ideal op-amp: 1/A0 = 1/ωt = 0
+        else:
+            y = known.get(q)
+            if y is None:
+                y = known[q] = _value(q, parts, over, gbw, gain0, 1)
+        m = g if which == "G" else c
+        k = i * n + j
+        m[k] = m[k] + y if sign > 0 else m[k] - y
+    terms = []
+    for e in netlist.opamps:
+        row, col = layout.opamp_row[e.ref], layout.node_index[e.nodes[2]]
+        if gbw is None:
+            terms.append((row, col, np.zeros(1), np.zeros(1)))
+        else:
+            terms.append((row, col, np.full(1, known[("a0", e.ref)]), np.full(1, known[("wt", e.ref)])))
+    return MnaSystem(np.array(g).reshape(1, n, n), np.array(c).reshape(1, n, n), layout, layout.node_index[netlist.output], tuple(terms))
 
 
 def _stamped_one(plan: "_Plan", columns: list[float]) -> tuple[np.ndarray, np.ndarray]:
@@ -225,20 +264,28 @@ class _Plan:
     amp_columns: tuple[tuple[int, int, int | None, int | None], ...]
 
 
-def _plan(netlist: Netlist, ideal: bool) -> _Plan:
+def _plan(netlist: Netlist, ideal: bool, *, first_sight: bool = False) -> _Plan | None:
     """The :class:`_Plan` of a netlist's structure (its elements' kinds, references and nodes, and
     its ground and input; not their values), with the op-amps' terms left out when ``ideal``;
     worked out once per structure (up to :data:`_PLANS_KEPT` of them kept; then the store starts
-    again, which a dict does in one step whatever another thread is doing)."""
+    again, which a dict does in one step whatever another thread is doing). With
+    ``first_sight``, None the first time a structure is asked for: its caller stamps that one
+    pencil directly and the plan is made when the structure comes again."""
     key = (ideal, netlist.ground, netlist.input, tuple((e.kind, e.ref, e.nodes) for e in netlist.elements))
     plan = _PLANS.get(key)
     if plan is None:
+        if first_sight and key not in _SEEN:
+            if len(_SEEN) >= _PLANS_KEPT:
+                _SEEN.clear()
+            _SEEN.add(key)
+            return None
         if len(_PLANS) >= _PLANS_KEPT:
             _PLANS.clear()
         plan = _PLANS[key] = _make_plan(netlist, ideal)
     return plan
 
 
+_SEEN: set[tuple] = set()
 _PLANS: dict[tuple, _Plan] = {}
 _PLANS_KEPT = 256
 
@@ -274,20 +321,22 @@ def _quantities(netlist: Netlist, quantities, overrides, gbw, gain0) -> tuple[li
     if gain0 is not None:
         size = max(size, np.size(gain0))
     parts = {e.ref: e for e in netlist.elements}
-    out = []
-    for kind, ref in quantities:
-        if kind == "a0":
-            out.append(1.0 / _as_column(gain0, size))
-        elif kind == "wt":
-            out.append(1.0 / (2.0 * np.pi * _as_column(gbw, size)))
-        elif kind == "rs":
-            e = parts[ref]
-            given = over.get(e.series_ref, e.series_resistance) if e.series_ref else e.series_resistance
-            out.append(_as_column(over.get(ref + ".rs", given), size))
-        else:  # "g", "c", "l"
-            v = _as_column(over.get(ref, parts[ref].value), size)
-            out.append(1.0 / v if kind == "g" else v)
-    return out, size
+    return [_value(q, parts, over, gbw, gain0, size) for q in quantities], size
+
+
+def _value(q: tuple[str, str], parts: Mapping, over: Mapping, gbw, gain0, size: int):
+    """One quantity's value (a float, or a ``(size,)`` array where a given value is one)."""
+    kind, ref = q
+    if kind == "a0":
+        return 1.0 / _as_column(gain0, size)
+    if kind == "wt":
+        return 1.0 / (2.0 * np.pi * _as_column(gbw, size))
+    if kind == "rs":
+        e = parts[ref]
+        given = over.get(e.series_ref, e.series_resistance) if e.series_ref else e.series_resistance
+        return _as_column(over.get(ref + ".rs", given), size)
+    v = _as_column(over.get(ref, parts[ref].value), size)  # "g", "c", "l"
+    return 1.0 / v if kind == "g" else v
 
 
 def _as_column(v, size: int):
