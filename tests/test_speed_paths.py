@@ -540,3 +540,29 @@ def test_node_rationals_of_no_unknown_is_an_empty_batch():
     assert h.num.shape == (0, 1) and h.den.shape[0] == 0 and h.den.shape[1] >= 3 and h.w_ref.shape == (0,)
     h, x0 = node_rationals(system, [], 2 * math.pi * 1e3, at=2j * math.pi * 1e3)
     assert h.batch == 0 and x0.shape == (system.layout.size,)
+
+
+def test_family_shifted_terms_in_one_step_are_the_terms_written_one_by_one():
+    """AmpFamily's shifted terms T_j·p^i written at their places in one step, and the count of
+    leading all-zero columns from the terms' own leading zeros: the matrix of writing each term
+    into its row in turn, and the columns _lead_trim drops from it (terms with leading zeros and
+    terms that are zero throughout included)."""
+    from bandsmith.solver.rational import _family_pairs, _family_shifted, _lead_trim
+
+    rng = np.random.default_rng(5)
+    for m in (1, 2, 3, 4):
+        for _ in range(400):
+            terms = []
+            for _j in range(m + 1):
+                size = int(rng.integers(1, 8))
+                t = rng.normal(size=size)
+                if rng.random() < 0.3:
+                    t[: int(rng.integers(0, size + 1))] = 0.0
+                terms.append(t)
+            length = max(t.size + j for j, t in enumerate(terms))
+            want = np.zeros((len(_family_pairs(m)[0]), length))
+            for n, (j, i) in enumerate(_family_pairs(m)[0]):
+                want[n, length - terms[j].size - i : length - i] = terms[j]
+            got, zero = _family_shifted(tuple(terms), m)
+            assert_array_equal(got, want)
+            assert zero == want.shape[1] - _lead_trim(want).shape[1]

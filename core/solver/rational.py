@@ -549,9 +549,9 @@ class AmpFamily:
         m = len(self.den_terms) - 1
         if self._shifted is None:
             # (their shape kept: a product of another shape may add in another order)
-            shifted = (_family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m))
-            object.__setattr__(self, "_shifted", shifted)
-            object.__setattr__(self, "_zero_lead", tuple(t.shape[1] - _lead_trim(t).shape[1] for t in shifted))
+            (num_s, num_zero), (den_s, den_zero) = _family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m)
+            object.__setattr__(self, "_shifted", (num_s, den_s))
+            object.__setattr__(self, "_zero_lead", (num_zero, den_zero))
         weights = _family_weights(alpha, beta, m)
         num = weights @ self._shifted[0]
         den = weights @ self._shifted[1]
@@ -600,15 +600,33 @@ def _family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
     return comb * pb[:, i_pow] * pa[:, rest]
 
 
-def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> np.ndarray:
-    """The shifted terms ``T_j·p^i`` of every pair of :func:`_family_pairs`: ``(pairs, length)``."""
-    length = max(t.size + j for j, t in enumerate(terms))
+def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> tuple[np.ndarray, int]:
+    """The shifted terms ``T_j·p^i`` of every pair of :func:`_family_pairs`, ``(pairs, length)``,
+    and the number of leading columns that are zero in every row (what :func:`_lead_trim` drops),
+    counted from the terms' own leading zeros: each term written at its place in one step."""
+    sizes = tuple(t.size for t in terms)
+    index, length, starts = _shifted_index(sizes, m)
+    shifted = np.zeros((len(_family_pairs(m)[0]), length))
+    shifted.flat[index] = np.concatenate([terms[j] for j, _ in _family_pairs(m)[0]])
+    lead = []
+    for t in terms:
+        nz = np.flatnonzero(t)
+        lead.append(int(nz[0]) if nz.size else None)  # None: a term that is zero throughout
+    zero = min((start + lead[j] for (j, _), start in zip(_family_pairs(m)[0], starts) if lead[j] is not None), default=length - 1)
+    return shifted, min(zero, length - 1)
+
+
+@functools.lru_cache(maxsize=64)
+def _shifted_index(sizes: tuple[int, ...], m: int) -> tuple[np.ndarray, int, tuple[int, ...]]:
+    """For :func:`_family_shifted` of terms of these sizes: the flat positions of every pair's
+    term (its row, from column ``length − size − i``: ``T_j·p^i``, highest power first), the row
+    length and each pair's first column. Read-only."""
+    length = max(size + j for j, size in enumerate(sizes))
     pairs = _family_pairs(m)[0]
-    shifted = np.zeros((len(pairs), length))
-    for n, (j, i) in enumerate(pairs):
-        t = terms[j]
-        shifted[n, length - t.size - i : length - i] = t  # T_j·p^i
-    return shifted
+    starts = tuple(length - sizes[j] - i for j, i in pairs)
+    index = np.concatenate([n * length + start + np.arange(sizes[j]) for n, ((j, _), start) in enumerate(zip(pairs, starts))])
+    index.setflags(write=False)
+    return index, length, starts
 
 
 def amp_family(system: MnaSystem, w_ref: float) -> AmpFamily | None:
