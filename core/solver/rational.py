@@ -128,11 +128,32 @@ class Rational:
 
     def response_and_delay(self, f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`at_f` and :meth:`group_delay` together, ``(H, delay in s)``, each ``(B, F)``: the
-        numerator and denominator are evaluated once for both (the same points ``p = jω/w_ref``)."""
+        numerator and denominator are evaluated once for both (the same points ``p = jω/w_ref``).
+
+        A second-order band-pass ``b1·p/(a2·p² + a1·p + a0)`` (an ideal op-amp's) in closed form,
+        with ``x = ω/w_ref``: ``H = j·b1·x/((a0 − a2·x²) + j·a1·x)`` and, its numerator's phase
+        being constant, the delay ``a1·(a0 + a2·x²)/(((a0 − a2·x²)² + (a1·x)²)·w_ref)`` (the
+        derivative of the denominator's phase; derived)."""
+        if self.num.shape[1] == 2 and self.den.shape[1] == 3 and not self.num[:, 1].any():
+            return self._bandpass_response(f_hz)
         p = self._jw(f_hz)
         n = polyval_batch(self.num, p)
         d = polyval_batch(self.den, p)
         return n / d, self._delay(p, n, d)
+
+    def _bandpass_response(self, f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`response_and_delay` of second-order band-passes (its notes)."""
+        inv = 1.0 / self.w_ref[:, None]
+        x = (2.0 * np.pi * np.asarray(f_hz, dtype=float)) * inv
+        b1, a2, a1, a0 = self.num[:, :1], self.den[:, :1], self.den[:, 1:2], self.den[:, 2:]
+        x2 = x * x
+        re = a0 - a2 * x2
+        im = a1 * x
+        h = (1j * (b1 * x)) / (re + 1j * im)
+        delay = a1 * (a0 + a2 * x2)
+        delay /= re * re + im * im
+        delay *= inv
+        return h, delay
 
     def _jw(self, f_hz: np.ndarray) -> np.ndarray:
         """The points ``p = jω/w_ref`` of frequencies in Hz, ``(B, F)``: ``ω·(1/w_ref)`` on the
