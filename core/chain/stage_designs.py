@@ -36,17 +36,20 @@ class PendingStage:
     Attributes
     ----------
     prepared : PreparedDesigns
-        Its circuits' designs for its target, parts chosen (in the order asked).
-    conditions : Conditions
-        The stage's conditions with the chain's input amplitude in place of its own.
+        Its circuits' designs for its target, parts chosen (in the order asked), under the
+        stage's conditions with the chain's input amplitude in place of its own.
     analyses : list or None
         The analyses of ``prepared``'s candidates (each an analysis or the :class:`InputError` it
         raised); None when they wait for the amplitude.
     """
 
     prepared: PreparedDesigns
-    conditions: Conditions
     analyses: list | None = None
+
+    @property
+    def conditions(self) -> Conditions:
+        """The stage's conditions with the chain's input amplitude in place of its own."""
+        return self.prepared.conditions
 
     def results(self, vin_v: float) -> tuple[Conditions, list]:
         """The stage's conditions with the amplitude ``vin_v`` (V peak) that reaches it, and its
@@ -58,7 +61,7 @@ class PendingStage:
             ready = self.prepared.candidates()
             analyses = analyze_candidates(ready, conditions) if ready else []
         analyses = [an if isinstance(an, InputError) else an.with_vin(vin_v) for an in analyses]
-        return conditions, self.prepared.concluded(analyses, conditions)
+        return conditions, self.prepared.concluded(analyses, vin_v)
 
 
 def prepare_stages(stages: Sequence[tuple[Sequence[str], Spec, Conditions]], series: str) -> list[PendingStage]:
@@ -76,4 +79,4 @@ def prepare_stages(stages: Sequence[tuple[Sequence[str], Spec, Conditions]], ser
         done = iter(analyze_candidates([c for cands in ready for c in cands], cond) if any(ready) else [])
         for k, cands in zip(ks, ready):
             analyses[k] = [next(done) for _ in cands]
-    return [PendingStage(p, cond, an) for (_, _, cond), p, an in zip(stages, prepared, analyses)]
+    return [PendingStage(p, an) for p, an in zip(prepared, analyses)]

@@ -278,7 +278,7 @@ def designs_or_errors(
     build a stage, and why). ``fixed`` pins the same parts on every circuit (most callers pin none)."""
     prepared = prepare_designs(topology_ids, spec, series=series, fixed=fixed, conditions=conditions, width=width)
     ready = prepared.candidates()
-    return prepared.concluded(analyze_candidates(ready, conditions) if ready else [], conditions)
+    return prepared.concluded(analyze_candidates(ready, conditions) if ready else [])
 
 
 @dataclass(frozen=True, slots=True)
@@ -288,20 +288,27 @@ class PreparedDesigns:
     one batch (a chain's stages) concludes each target's from its own.
 
     ``made`` holds per circuit, in the order asked, the :class:`InputError` it raised, its
-    infeasible :class:`DesignResult`, or its design with its parts chosen."""
+    infeasible :class:`DesignResult`, or its design with its parts chosen, all under
+    ``conditions``."""
 
     spec: Spec
     series: str
+    conditions: Conditions
     made: tuple
 
     def candidates(self) -> list[Candidate]:
         """The candidates to analyse: every design with its parts, in order."""
         return [m.candidate for m in self.made if isinstance(m, _Prepared)]
 
-    def concluded(self, analyses: Sequence, conditions: Conditions) -> list[DesignResult | InputError]:
-        """Each circuit's result under ``conditions``, given the analyses of :meth:`candidates`
-        (in their order; an analysis may be the :class:`InputError` it raised): what
-        :func:`designs_or_errors` gives for those conditions."""
+    def concluded(self, analyses: Sequence, vin_v: float | None = None) -> list[DesignResult | InputError]:
+        """Each circuit's result, given the analyses of :meth:`candidates` (in their order, made
+        under these conditions at the amplitude ``vin_v``, V peak, by default theirs; an analysis
+        may be the :class:`InputError` it raised): what :func:`designs_or_errors` gives for the
+        conditions at that amplitude (the amplitude reaches only the amplifier needs, so the
+        parts chosen hold)."""
+        conditions = self.conditions
+        if vin_v is not None and vin_v != conditions.vin_v:
+            conditions = replace(conditions, vin_v=vin_v)
         found = iter(analyses)
         out: list[DesignResult | InputError] = []
         for m in self.made:
@@ -333,7 +340,7 @@ def prepare_designs(
         except InputError as exc:
             made.append(exc)
     _choose_parts(made, spec, series, conditions, width)
-    return PreparedDesigns(spec, series, tuple(made))
+    return PreparedDesigns(spec, series, conditions, tuple(made))
 
 
 @dataclass(frozen=True, slots=True)
