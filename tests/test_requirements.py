@@ -343,3 +343,26 @@ def test_a_repeated_pair_just_beyond_the_axis_is_not_stable(den):
     from bandsmith.solver.rational import Rational
 
     assert not is_stable(Rational(np.array([[1.0]]), np.array([den]), np.array([1.0])))
+
+
+def test_routh_stable_settles_only_what_the_roots_confirm():
+    # routh_stable (one polynomial, first column clear of cancellation) against numpy.roots
+    # (numpy's companion-matrix eigenvalues, the reference): "stable" only where every root lies
+    # left of the axis, and for roots kept well clear of the axis it settles every stable one.
+    from bandsmith.solver.stability import routh_stable
+
+    rng = np.random.default_rng(17)
+    settled = 0
+    for _ in range(3000):
+        n = int(rng.integers(1, 7))
+        roots = rng.normal(size=n) * 10 ** rng.uniform(-1, 1, n) + 1j * rng.normal(size=n) * rng.integers(0, 2, n)
+        roots = np.concatenate([roots, np.conj(roots[roots.imag != 0])])  # a real polynomial
+        roots.real = np.where(np.abs(roots.real) < 0.05, 0.05 * np.sign(roots.real + 1e-300), roots.real)
+        den = np.real(np.poly(roots)) * 10 ** rng.uniform(-3, 3)
+        stable = bool(np.all(np.roots(den).real < 0))
+        got = routh_stable(den.tolist())
+        assert not got or stable
+        if stable and np.all(roots.real < -0.05 * np.abs(roots)):
+            settled += 1
+            assert got
+    assert settled > 100

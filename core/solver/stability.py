@@ -30,7 +30,7 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
     a = np.asarray(den, dtype=float)
     b, k = a.shape
     if b == 1:  # one polynomial (a design's chosen parts): the same arithmetic in Python floats
-        return np.array([_hurwitz_one(a[0].tolist())])
+        return np.array([_routh(a[0].tolist(), None)])
     with np.errstate(invalid="ignore", divide="ignore"):
         a = a / a[:, :1]
         ok = np.isfinite(a[:, 0])  # every entry finite, column by column (cheaper than along rows)
@@ -57,30 +57,6 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
     return ok
 
 
-def _hurwitz_one(den: list[float]) -> bool:
-    """:func:`hurwitz_stable` of one polynomial, step by step the same IEEE operations in Python
-    floats (cheaper than arrays for a handful of coefficients): divided by the leading
-    coefficient (a zero one gives no finite row: not stable), then the Routh rows."""
-    lead = den[0]
-    if lead == 0 or not all(math.isfinite(c / lead) for c in den):
-        return False
-    a = [c / lead for c in den]
-    k = len(a)
-    if k == 1:
-        return True
-    if k == 3:
-        return a[1] > 0 and (a[1] * a[2] - 0.0) / a[1] > 0
-    width = (k + 1) // 2 + 1
-    r0 = a[0::2] + [0.0] * (width - (k + 1) // 2)
-    r1 = a[1::2] + [0.0] * (width - k // 2)
-    for _ in range(k - 1):
-        first = r1[0]
-        if not first > 0:
-            return False
-        r0, r1 = r1, [(first * r0[j + 1] - r0[0] * r1[j + 1]) / first for j in range(width - 1)] + [0.0]
-    return True
-
-
 # A first-column entry of the Routh array formed as u − v with u − v below this share of |u| or
 # |v| came out of a near-cancellation: its sign is not trusted (the caller then takes the poles).
 _ROUTH_CANCELLATION = 1e-4
@@ -90,12 +66,22 @@ def routh_stable(den: list[float]) -> bool:
     """True when the first column of the Routh array of ``den`` (highest power first, leading
     coefficient nonzero) is all positive after dividing by the leading coefficient, each entry
     clear of cancellation: every root in the open left half-plane (E. J. Routh, *A Treatise on
-    the Stability of a Given State of Motion*, 1877). The rows of :func:`hurwitz_stable` for one
-    polynomial, in Python floats (a handful of coefficients: cheaper than arrays). False — "not settled here" — for a zero, a
+    the Stability of a Given State of Motion*, 1877). False — "not settled here" — for a zero, a
     negative or a non-finite entry, and for an entry ``u − v`` smaller than
     :data:`_ROUTH_CANCELLATION` of ``max(|u|, |v|)``: with a repeated pair of poles near the axis,
     rounding in the rows can leave the column positive while a pole lies just beyond the axis."""
+    return _routh(den, _ROUTH_CANCELLATION)
+
+
+def _routh(den: list[float], margin: float | None) -> bool:
+    """The rows of :func:`hurwitz_stable` for one polynomial, step by step the same IEEE
+    operations in Python floats (a handful of coefficients: cheaper than arrays): divided by the
+    leading coefficient (a zero one, or an entry not finite: not stable), then the Routh rows,
+    each first-column entry ``u − v`` also checked clear of cancellation by ``margin`` (a share
+    of ``max(|u|, |v|)``) where one is given."""
     lead = den[0]
+    if lead == 0:
+        return False
     a = [c / lead for c in den]
     if not all(math.isfinite(c) for c in a):
         return False
@@ -104,11 +90,10 @@ def routh_stable(den: list[float]) -> bool:
         first = r1[0] if r1 else 0.0
         if not first > 0:
             return False
-        r1_rest = r1[1:] + [0.0] * (len(r0) - len(r1))
-        if len(r0) > 1:  # the next row's first entry, (u − v)/first: trusted only clear of cancellation
-            u, v = first * r0[1], r0[0] * r1_rest[0]
-            if not u - v > _ROUTH_CANCELLATION * max(abs(u), abs(v)):
+        rest = r1[1:] + [0.0] * (len(r0) - len(r1))
+        if margin is not None and len(r0) > 1:  # the next row's first entry, (u − v)/first
+            u, v = first * r0[1], r0[0] * rest[0]
+            if not u - v > margin * max(abs(u), abs(v)):
                 return False
-        nxt = [(first * r0[k + 1] - r0[0] * r1_rest[k]) / first for k in range(len(r0) - 1)]
-        r0, r1 = r1, nxt
+        r0, r1 = r1, [(first * r0[j + 1] - r0[0] * rest[j]) / first for j in range(len(r0) - 1)]
     return True
