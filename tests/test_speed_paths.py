@@ -285,6 +285,32 @@ def test_standard_searches_made_together_equal_each_made_alone(series):
         assert choice == choose_standard(topo, exact, spec_, series_, keep=keep, tolerances=tol, width=width), topo.id
 
 
+@pytest.mark.parametrize("width", [1, 2])
+@pytest.mark.parametrize("series", ["E12", "E24", "E96"])
+def test_closed_form_search_costs_are_the_measured_figures_costs(series, width):
+    """The standard-value search's costs from the closed form (standard._peak_costs, on
+    figures.biquad_peak_figures) against the costs from measure_many's figures (standard._costs),
+    every circuit's combinations together: the same numbers, exactly. A consistency check of our
+    own two paths, no outside source."""
+    from bandsmith.analysis.figures import measure_many
+    from bandsmith.analysis.tolerances import Tolerances
+    from bandsmith.circuits import all_topologies
+    from bandsmith.design import standard
+    from bandsmith.design.designer import Spec
+
+    spec = Spec(27e3, 6.0, 2.0)
+    searches = []
+    for topo in all_topologies():
+        exact = topo.values_from(dict(topo.synthesize(spec, {}, series=series)))
+        searches.append(standard._combination_search(topo, exact, spec, series, (), Tolerances(), width))
+    with np.errstate(all="ignore"):
+        closed = standard._peak_costs(searches)
+        measured = standard._costs(searches, measure_many([m.h for m in searches]))
+    assert closed is not None and len(closed) == len(measured) == 7
+    for a, b in zip(closed, measured):
+        assert_array_equal(a, b)
+
+
 @pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
 def test_amplifier_values_at_f0_match_a_50_digit_solve(circuit):
     """amplifier_needs's output voltages and currents at f0 (solved in node_rationals's batch)

@@ -268,22 +268,7 @@ def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
     where a combination is of another shape."""
     h = searches[0].h if len(searches) == 1 else Rational.joined([m.h for m in searches])
     peaks = biquad_peak_figures(h)
-    if peaks is None:
-        return None
-    f0, q, db = peaks
-    sizes = [m.h.batch for m in searches]
-
-    def each(value) -> np.ndarray:
-        return np.repeat([value(m) for m in searches], sizes)
-
-    weighted = _weighted_rows(
-        f0, q, db,
-        each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
-        each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
-    )
-    valid = np.isfinite(q) & np.isfinite(f0) & np.isfinite(db)
-    cost = np.where(hurwitz_stable(h.den) & valid, weighted, np.inf)
-    return np.split(cost, np.cumsum(sizes)[:-1])
+    return None if peaks is None else _joined_costs(searches, *peaks, h.den)
 
 
 def _same_width(made: list, live: list[int]) -> list[list[int]]:
@@ -296,28 +281,31 @@ def _same_width(made: list, live: list[int]) -> list[list[int]]:
 
 
 def _costs(searches: list[_Search], figs: list[Figures]) -> list[np.ndarray]:
-    """Each search's costs: its weighted errors where the combination is stable (Routh–Hurwitz)
-    and measured, inf elsewhere. Denominators of one width: the stability test and the weighted
-    errors of every search in one batch, each search's targets and tolerances repeated over its
-    members (the same operations, member by member, as each search alone)."""
-    if len(searches) == 1:
-        m, fig = searches[0], figs[0]
-        return [np.where(hurwitz_stable(m.h.den) & fig.valid, _weighted_batch(fig, m.spec, m.tolerances), np.inf)]
+    """Each search's costs from its figures (:func:`_joined_costs`; denominators of one width)."""
+
+    def joined(name: str) -> np.ndarray:
+        return np.concatenate([getattr(f, name) for f in figs])
+
+    return _joined_costs(searches, joined("f0_hz"), joined("q"), joined("gain_center_db"), np.concatenate([m.h.den for m in searches]))
+
+
+def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarray]:
+    """Each search's costs: its weighted errors where the combination is stable (Routh–Hurwitz on
+    ``den``) and measured (f0, Q and the gain finite, as :attr:`Figures.valid`), inf elsewhere;
+    the figures and denominators of every search joined, each search's targets and tolerances
+    repeated over its members (the same operations, member by member, as each search alone)."""
     sizes = [m.h.batch for m in searches]
 
     def each(value) -> np.ndarray:
         return np.repeat([value(m) for m in searches], sizes)
 
-    def joined(name: str) -> np.ndarray:
-        return np.concatenate([getattr(f, name) for f in figs])
-
     weighted = _weighted_rows(
-        joined("f0_hz"), joined("q"), joined("gain_center_db"),
+        f0, q, gain_db,
         each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
         each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
     )
-    valid = np.concatenate([f.valid for f in figs])
-    cost = np.where(hurwitz_stable(np.concatenate([m.h.den for m in searches])) & valid, weighted, np.inf)
+    valid = np.isfinite(q) & np.isfinite(f0) & np.isfinite(gain_db)
+    cost = np.where(hurwitz_stable(den) & valid, weighted, np.inf)
     return np.split(cost, np.cumsum(sizes)[:-1])
 
 
