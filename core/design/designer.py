@@ -401,10 +401,8 @@ def _choose_parts(made: list, spec: Spec, series: str, conditions: Conditions, w
         for i in todo:
             made[i] = _Prepared(made[i], None, Candidate(made[i].topology.id, dict(made[i].exact)))
         return
-    # the exact values are _prepare's values_from result, unless a source resistance was absorbed
-    # into them (then the search checks them again, as it always did)
     choices = choose_standard_many([(made[i].topology, made[i].exact, spec, series, tuple(made[i].pins), conditions.tolerances, width)
-                                    for i in todo], checked=conditions.rsource_ohm is None)
+                                    for i in todo])
     for i, choice in zip(todo, choices):
         m = made[i]
         if choice.values is None:

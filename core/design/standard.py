@@ -231,15 +231,19 @@ def choose_standard(
     return choose_standard_many([(topology, exact, spec, series, keep, tolerances, width)])[0]
 
 
-def choose_standard_many(items: Sequence[tuple], *, checked: bool = False) -> list[Choice]:
+def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
     """:func:`choose_standard` of several circuits at once, each item ``(topology, exact, spec,
     series, keep, tolerances, width)``: every circuit builds its own combinations and chooses its
-    own parts; the combinations that are second-order band-passes (an ideal op-amp's, the lossless
-    tank's) are measured in one closed-form batch (:func:`bandsmith.analysis.figures.measure_many`:
-    the same figures, member by member, as each batch alone). ``checked``: every ``exact`` is
-    already what :meth:`~bandsmith.circuits.topology.Topology.values_from` returns for it (the
-    designer's), so it is not checked again."""
-    made = [_combination_search(*item, checked=checked) for item in items]
+    own parts. Where every combination of every circuit is a second-order band-pass (an ideal
+    op-amp's, the lossless tank's) and none has more than a few thousand, their costs come from
+    the closed form in one batch (:func:`_peak_costs`); else the combinations are measured
+    (:func:`bandsmith.analysis.figures.measure_many`, by exact roots, or on a grid for the
+    largest) and costed in batches of one width. The costs are the same either way (the closed
+    form is what measure_many takes member by member for such a batch), but for a search with a
+    combination that has no peak (a zero ``a1``: never stable, so never chosen), whose other
+    combinations measure_many would take through polynomial roots, a few units in the last place
+    apart."""
+    made = [_combination_search(*item) for item in items]
     live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
     by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
@@ -337,10 +341,10 @@ class _Search:
 
 
 def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
-                        tolerances: Tolerances, width: int, *, checked: bool = False) -> Choice | _Search:
+                        tolerances: Tolerances, width: int) -> Choice | _Search:
     """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
-    or its :class:`Choice` at once when no part is free (``checked`` as :func:`choose_standard_many`)."""
-    values = dict(exact) if checked else topology.values_from(dict(exact))
+    or its :class:`Choice` at once when no part is free."""
+    values = topology.values_from(dict(exact))
     free = [c.ref for c in topology.components if c.required and c.ref not in keep]
     netlist = topology.build(values)
     if not free:
