@@ -10,7 +10,7 @@ import numpy as np
 from bandsmith.analysis.figures import Figures, measure
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion
+from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
 from bandsmith.solver.rational import AmpFamily, Rational, amp_family, nominal_w_ref, rational_from_system
 
 __all__ = ["ideal_figures", "nominal_system", "several_amp_family", "transfer_function"]
@@ -69,10 +69,10 @@ def several_amp_family(netlist: Netlist, w_ref: float) -> AmpFamily | None:
     if len(netlist.opamps) < 2:
         return None
     try:
-        exp, variables = unit_expansion(netlist, UNIT_OPAMP, fit=False)
+        exp, own = unit_expansion_values(netlist, UNIT_OPAMP, fit=False)
     except ExpansionUnavailable:
         exp = None
-    terms = None if exp is None else exp.opamp_terms(exp.log_ratios(variables))
+    terms = None if exp is None else exp.opamp_terms(exp.log_ratios_of(own))
     if terms is None:
         return amp_family(nominal_system(netlist), w_ref)
     num, den = terms

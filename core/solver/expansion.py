@@ -737,15 +737,11 @@ class Expansion:
             den *= k ** np.arange(den.shape[1] - 1, -1, -1.0)
         return num, den
 
-    def log_ratios(self, variables: tuple[Variable, ...]) -> np.ndarray:
-        """The natural logs of a circuit's own values over this expansion's (``variables`` as
-        :func:`unit_expansion` returns them beside it, in its order): ``(n_var,)``, what
-        :meth:`dense_log` and :meth:`opamp_terms` take for one member."""
-        return self.log_ratios_of([v.value for v in variables])
-
     def log_ratios_of(self, values) -> np.ndarray:
-        """:meth:`log_ratios` from the variables' values (SI units, in this expansion's order, as
-        :func:`unit_expansion_values` gives them)."""
+        """The natural logs of a circuit's own values over this expansion's, from the variables'
+        values (SI units, in this expansion's order, as :func:`unit_expansion_values` gives them
+        beside it): ``(n_var,)``, what :meth:`dense_log` and :meth:`opamp_terms` take for one
+        member."""
         return np.log([x / u.value for x, u in zip(values, self.variables)])
 
     def dense_log(self, log_ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
@@ -861,10 +857,7 @@ def unit_expansion_values(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: b
     :meth:`Expansion.log_ratios_of` takes. Once the structure's expansion is kept, no record is
     made. Raises :class:`ExpansionUnavailable` as :func:`unit_expansion` does."""
     fields = _variable_fields(netlist, opamp)
-    exp = _UNIT.get((_fields_key(netlist, fields), opamp))
-    if exp is None:
-        exp = unit_expansion(netlist, opamp, fit=fit)[0]
-    return exp, [value for _, _, value, _ in fields]
+    return _unit_of(netlist, opamp, fields, fit), [value for _, _, value, _ in fields]
 
 
 def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, tuple[Variable, ...]]:
@@ -878,7 +871,12 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = T
     for a caller with a cheaper way than a fit of several op-amps' stamps, up to a second).
     """
     fields = _variable_fields(netlist, opamp)
-    variables = tuple(Variable(*f) for f in fields)  # circuit_variables(netlist, opamp)
+    return _unit_of(netlist, opamp, fields, fit), tuple(Variable(*f) for f in fields)  # circuit_variables(netlist, opamp)
+
+
+def _unit_of(netlist: Netlist, opamp: OpAmpModel, fields: list, fit: bool) -> Expansion:
+    """The kept unit expansion of the structure with these variable ``fields`` (made, and kept,
+    where it is not yet): :func:`unit_expansion`'s."""
     structure = _fields_key(netlist, fields)
     key = (structure, opamp)
     exp = _UNIT.get(key)
@@ -890,9 +888,9 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = T
             if isinstance(shipped, str):
                 raise ExpansionUnavailable(shipped)
             _FITS[structure] = shipped
-        exp = Expansion._at_unit(netlist, opamp, variables, structure)
+        exp = Expansion._at_unit(netlist, opamp, tuple(Variable(*f) for f in fields), structure)
         _UNIT[key] = exp
-    return exp, variables
+    return exp
 
 
 class _CoefficientPlan:
