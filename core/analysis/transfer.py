@@ -75,11 +75,11 @@ def several_amp_family(netlist: Netlist, w_ref: float) -> AmpFamily | None:
     terms = None if exp is None else exp.opamp_terms(exp.log_ratios_of(own))
     if terms is None:
         return amp_family(nominal_system(netlist), w_ref)
-    num, den = terms
+    num, den = terms  # (m + 1, k) each: row j the term of x^j
     # the unit expansion's s is p·w_ref: c·s^k = c·w_ref^k·p^k; scaled by D_0's largest coefficient
-    to_num, to_den = (w_ref ** np.arange(t[0].size - 1, -1, -1.0) for t in (num, den))
+    to_num, to_den = (w_ref ** np.arange(t.shape[1] - 1, -1, -1.0) for t in (num, den))
     scale = np.abs(den[0] * to_den).max()
-    return AmpFamily(tuple(c * to_num / scale for c in num), tuple(c * to_den / scale for c in den), w_ref)
+    return AmpFamily(tuple(num * to_num / scale), tuple(den * to_den / scale), w_ref)
 
 
 def ideal_figures(netlist: Netlist) -> Figures:

@@ -770,9 +770,10 @@ class Expansion:
 
         Returns
         -------
-        num_terms, den_terms : list of ndarray
-            ``N_j`` and ``D_j``, ``j = 0 … m``, in the expansion's ``p``, highest power first
-            (:class:`bandsmith.solver.rational.AmpFamily`'s terms); None without op-amp variables.
+        num_terms, den_terms : ndarray
+            ``N_j`` and ``D_j``, ``j = 0 … m``, the rows of an ``(m + 1, k)`` array each, in the
+            expansion's ``p``, highest power first (:class:`bandsmith.solver.rational.AmpFamily`'s
+            terms); None without op-amp variables.
         """
         picks = self._opamp_picks()
         if picks is None:
@@ -781,7 +782,7 @@ class Expansion:
         with np.errstate(invalid="ignore", over="ignore"):
             mono = np.exp(np.where(keep, log_ratios, 0.0) @ self._exps_ratio)  # op-amp stamps at 1
         weighted = signs * mono  # (m + 1, M): row j the monomials of (1/A0)^j, signed (−1)^j
-        return list(weighted @ self._num_dense), list(weighted @ self._den_dense)
+        return weighted @ self._num_dense, weighted @ self._den_dense
 
     def _opamp_picks(self):
         """For :meth:`opamp_terms`: the mask of the variables that are not the op-amp's, and a
