@@ -592,3 +592,27 @@ def test_family_shifted_terms_in_one_step_are_the_terms_written_one_by_one():
             got, zero = _family_shifted(tuple(terms), m)
             assert_array_equal(got, want)
             assert zero == want.shape[1] - _lead_trim(want).shape[1]
+
+
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_node_rationals_from_the_known_denominator_equal_those_from_determinants(circuit):
+    """node_rationals given the circuit's own denominator (from its analysis) instead of taking
+    determinants of the pencil: the same transfer functions but for rounding (a common factor
+    cancels), and the same solution at f0, every op-amp output and the output node."""
+    import math
+
+    from bandsmith.design.candidate import Candidate, Conditions
+    from bandsmith.solver.mna import build_system
+    from bandsmith.solver.rational import node_rationals
+
+    topo = get_topology(circuit)
+    an = Candidate(circuit, dict(topo.example)).analyze(Conditions())
+    system = build_system(an.netlist)
+    nodes = [system.layout.node_index[e.nodes[2]] for e in an.netlist.opamps] + [system.output_index]
+    w = 2 * math.pi * an.ideal.item().f0_hz
+    den = (an.h_ideal.den[0].tolist(), float(an.h_ideal.w_ref[0]))
+    (a, xa), (b, xb) = node_rationals(system, nodes, w, at=1j * w), node_rationals(system, nodes, w, at=1j * w, den=den)
+    assert a.num.shape == b.num.shape and a.den.shape == b.den.shape
+    assert_allclose(b.num, a.num, rtol=1e-12, atol=1e-13 * np.abs(a.num).max())
+    assert_allclose(b.den, a.den, rtol=1e-12, atol=1e-13)
+    assert_array_equal(xa, xb)
