@@ -663,7 +663,7 @@ def _shifted_index(sizes: tuple[int, ...], m: int) -> tuple[np.ndarray, int, tup
     length = max(size + j for j, size in enumerate(sizes))
     pairs = _family_pairs(m)[0]
     starts = tuple(length - sizes[j] - i for j, i in pairs)
-    index = np.concatenate([n * length + start + np.arange(sizes[j]) for n, ((j, _), start) in enumerate(zip(pairs, starts))])
+    index = np.array([n * length + start + t for n, ((j, _), start) in enumerate(zip(pairs, starts)) for t in range(sizes[j])], dtype=np.intp)
     index.setflags(write=False)
     return index, length, starts
 
