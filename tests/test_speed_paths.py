@@ -616,3 +616,15 @@ def test_node_rationals_from_the_known_denominator_equal_those_from_determinants
     assert_allclose(b.num, a.num, rtol=1e-12, atol=1e-13 * np.abs(a.num).max())
     assert_allclose(b.den, a.den, rtol=1e-12, atol=1e-13)
     assert_array_equal(xa, xb)
+
+
+def test_sampling_circle_in_plain_numbers_is_numpys():
+    """The sampling circle's points and rotation factors made with cmath on plain numbers: the
+    values numpy's complex exponential gives on the same arrays, bit for bit."""
+    from bandsmith.solver.rational import _ANGLE_OFFSET, _circle
+
+    for k in range(1, 64):
+        points, undo = _circle(k)
+        theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
+        assert_array_equal(points, np.exp(1j * theta))
+        assert_array_equal(undo, np.exp(-1j * np.arange(k) * _ANGLE_OFFSET))

@@ -10,6 +10,7 @@ order one, highest power first (numpy's convention).
 
 from __future__ import annotations
 
+import cmath
 import functools
 import itertools
 import math
@@ -281,9 +282,10 @@ def _coefficients(values: np.ndarray, k: int) -> np.ndarray:
 def _circle(k: int) -> tuple[np.ndarray, np.ndarray]:
     """The ``k`` rotated unit points ``e^{iθ_j}`` of :func:`_samples` and the factors
     ``e^{−ik·offset}`` that :func:`_coefficients` undoes the rotation with (read-only)."""
-    theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
-    points = np.exp(1j * theta)
-    undo = np.exp(-1j * np.arange(k) * _ANGLE_OFFSET)
+    # (a handful of points: plain numbers, the same operations as numpy's on arrays, so the same
+    # values, without a process's first complex exponential in numpy)
+    points = np.array([cmath.exp(1j * (2.0 * math.pi * j / k + _ANGLE_OFFSET)) for j in range(k)])
+    undo = np.array([cmath.exp(-1j * j * _ANGLE_OFFSET) for j in range(k)])
     points.setflags(write=False)
     undo.setflags(write=False)
     return points, undo
