@@ -19,7 +19,7 @@ from typing import Sequence
 import numpy as np
 
 from bandsmith.solver.polyroots import companion_roots
-from bandsmith.solver.rational import Rational, lead_trimmed
+from bandsmith.solver.rational import Rational, in_s, lead_trimmed, polyval_one, s_powers
 
 __all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
 
@@ -142,16 +142,7 @@ def _residues(b: list[float], a: list[float], poles: list[complex]) -> list[comp
     coefficients highest power first, ``b`` of lower degree than ``a``)."""
     n = len(a) - 1
     da = [c * (n - k) for k, c in enumerate(a[:-1])]  # D'
-    out = []
-    for lam in poles:
-        num = 0j
-        for c in b:
-            num = num * lam + c
-        den = 0j
-        for c in da:
-            den = den * lam + c
-        out.append(num / den)
-    return out
+    return [polyval_one(b, lam) / polyval_one(da, lam) for lam in poles]
 
 
 def _decay(x: np.ndarray) -> np.ndarray:
@@ -284,28 +275,6 @@ def _second_order_slope(b: Sequence[float], a: Sequence[float]) -> float | None:
     return best
 
 
-def _powers(w_ref: float, n: int) -> list[float]:
-    """``w_ref^−(n−1)``, …, ``w_ref^−1``, ``1``: the factors that turn coefficients in ``p = s/w_ref``
-    into coefficients in ``s`` (``c_k·p^k = (c_k/w_ref^k)·s^k``), formed by numpy as
-    :func:`~bandsmith.solver.rational.coefficients_in_s` forms them (numpy's power may differ from
-    Python's in the last bit); the last ``m`` of them serve any polynomial of ``m`` coefficients."""
-    return (w_ref ** -np.arange(n - 1, -1, -1.0)).tolist()
-
-
-def _in_s(num: list[float], den: list[float], powers: list[float]) -> tuple[list[float], list[float]]:
-    """:func:`~bandsmith.solver.rational.coefficients_in_s` of one member on lists: ``(b, a)`` in
-    powers of ``s``, ``a`` monic, from coefficients in ``p`` (leading zeros dropped) and
-    :func:`_powers` of at least their length; the same products and quotients, in Python floats
-    (a handful of coefficients: a list is cheaper than an array)."""
-    b = [c * f for c, f in zip(num, powers[len(powers) - len(num) :])]
-    a = [c * f for c, f in zip(den, powers[len(powers) - len(den) :])]
-    lead = a[0]
-    if lead == 0:  # an all-zero denominator: IEEE quotients (inf, NaN), as numpy's division gives them
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return (np.array(b) / lead).tolist(), (np.array(a) / lead).tolist()
-    return [c / lead for c in b], [c / lead for c in a]
-
-
 def max_step_slopes(h: Rational) -> list[float]:
     """:func:`max_step_slope` of every member of ``h``.
 
@@ -325,8 +294,8 @@ def max_step_slopes(h: Rational) -> list[float]:
         slope = _pure_bandpass_slope(num, den, w)
         if slope is None:
             if w not in powers:
-                powers[w] = _powers(w, width)
-            b, a = _in_s(num, den, powers[w])
+                powers[w] = s_powers(w, width)
+            b, a = in_s(num, den, powers[w])
             slope = _second_order_slope(b, a)
             if slope is None:  # one group per denominator (as a member, in p and in s)
                 groups.setdefault((tuple(a), tuple(den), w), []).append((i, np.array(b)))
@@ -362,5 +331,5 @@ def max_step_slope(h: Rational, *, i: int = 0) -> float:
     num, den = lead_trimmed(h.num[i].tolist()), lead_trimmed(h.den[i].tolist())
     slope = _pure_bandpass_slope(num, den, w)
     if slope is None:
-        slope = _second_order_slope(*_in_s(num, den, _powers(w, max(len(num), len(den)))))
+        slope = _second_order_slope(*in_s(num, den, s_powers(w, max(len(num), len(den)))))
     return step_response(h, i=i).max_slope_per_s if slope is None else slope

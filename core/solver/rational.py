@@ -22,7 +22,7 @@ import numpy as np
 from bandsmith.solver.mna import MnaSystem, build_system
 from bandsmith.solver.polyroots import companion_roots
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "polyval_batch", "pad_rows"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -213,12 +213,38 @@ class Rational:
 
 def coefficients_in_s(num: np.ndarray, den: np.ndarray, w_ref: float) -> tuple[np.ndarray, np.ndarray]:
     """``(b, a)`` in powers of ``s`` (highest first, ``a`` monic) of ``num/den`` in ``p = s/w_ref``
-    (leading zeros already dropped): :meth:`Rational.to_s` of one member."""
-    # powers of 1/w_ref, highest first: p = s/w_ref turns c_k·p^k into (c_k/w_ref^k)·s^k
-    scale = w_ref ** -np.arange(max(num.size, den.size) - 1, -1, -1.0)
-    b = num * scale[scale.size - num.size :]
-    a = den * scale[scale.size - den.size :]
-    return b / a[0], a / a[0]
+    (leading zeros already dropped): :meth:`Rational.to_s` of one member (:func:`in_s`)."""
+    b, a = in_s(num.tolist(), den.tolist(), s_powers(w_ref, max(num.size, den.size)))
+    return np.array(b, dtype=float), np.array(a, dtype=float)
+
+
+def s_powers(w_ref: float, n: int) -> list[float]:
+    """``w_ref^−(n−1)``, …, ``w_ref^−1``, ``1``: the factors that turn coefficients in ``p = s/w_ref``
+    into coefficients in ``s`` (``c_k·p^k = (c_k/w_ref^k)·s^k``), formed by numpy (whose power may
+    differ from Python's in the last bit); the last ``m`` of them serve any polynomial of ``m``
+    coefficients."""
+    return (w_ref ** -np.arange(n - 1, -1, -1.0)).tolist()
+
+
+def in_s(num: list[float], den: list[float], powers: list[float]) -> tuple[list[float], list[float]]:
+    """``(b, a)`` in powers of ``s``, ``a`` monic, from one member's coefficients in ``p`` (plain
+    numbers, leading zeros dropped) and :func:`s_powers` of at least their length (a handful of
+    coefficients: lists are cheaper than arrays; the IEEE products and quotients are the same)."""
+    b = [c * f for c, f in zip(num, powers[len(powers) - len(num) :])]
+    a = [c * f for c, f in zip(den, powers[len(powers) - len(den) :])]
+    lead = a[0]
+    if lead == 0:  # an all-zero denominator: IEEE quotients (inf, NaN), as numpy's division gives them
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return (np.array(b) / lead).tolist(), (np.array(a) / lead).tolist()
+    return [c / lead for c in b], [c / lead for c in a]
+
+
+def polyval_one(coefficients, z):
+    """One polynomial (highest power first, plain numbers) at ``z`` by Horner's rule."""
+    v = 0j if isinstance(z, complex) else 0.0
+    for c in coefficients:
+        v = v * z + c
+    return v
 
 
 def reference_w(system: MnaSystem) -> float:
@@ -391,7 +417,7 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
         den_v = np.linalg.det(a[:k])
     else:
         coefficients, w = den
-        den_v = np.array([_horner(coefficients, z / w) for z in s[:k].tolist()])
+        den_v = np.array([polyval_one(coefficients, z / w) for z in s[:k].tolist()])
     rhs = system.source_vector().astype(complex)[None, :, None]  # (1, n, 1): a matrix for every member
     x = np.linalg.solve(a, rhs)  # (K, n, 1), each matrix solved alone
     values = np.empty((1 + len(idx), k), dtype=complex)
@@ -408,14 +434,6 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     num = np.array(num_c).reshape(m, len(num_c[0]) if m else 1) / scale
     h = Rational(num, np.array([den_c] * m).reshape(m, len(den_c)) / scale, np.full(m, float(w_ref)))
     return h if at is None else (h, x[k, :, 0])
-
-
-def _horner(coefficients, z: complex) -> complex:
-    """A polynomial (highest power first, plain numbers) at ``z``."""
-    v = 0j
-    for c in coefficients:
-        v = v * z + c
-    return v
 
 
 @functools.lru_cache(maxsize=16)
