@@ -203,10 +203,9 @@ class Analysis:
         """What the circuit asks of its op-amps (:func:`requirements`; computed when first asked for)."""
         if self._requirements is None:
             d = self.drive
-            h = self.h_ideal
             object.__setattr__(self, "_requirements", requirements(
-                self.netlist, self.ideal, max_step_slope(h), vin_v=d.vin_v, a0=d.a0, rload_ohm=d.rload_ohm,
-                tolerances=d.tolerances, gbw_search=self.required_gbw, den=(h.den[0].tolist(), float(h.w_ref[0])),
+                self.netlist, self.ideal, max_step_slope(self.h_ideal), vin_v=d.vin_v, a0=d.a0, rload_ohm=d.rload_ohm,
+                tolerances=d.tolerances, gbw_search=self.required_gbw, h_ideal=self.h_ideal,
             ))
         return self._requirements
 
@@ -317,7 +316,7 @@ def opamp_output_current(
 
 def amplifier_needs(
     netlist: Netlist, f0_hz: float, *, vin_v: float = 1.0, rload_ohm: float | None = None, w_ref: float | None = None,
-    den: tuple | None = None,
+    h_ideal: Rational | None = None,
 ) -> tuple[AmplifierNeeds, ...]:
     """Each amplifier's output swing, slew rates and output current (ideal op-amps).
 
@@ -325,8 +324,9 @@ def amplifier_needs(
     (:func:`bandsmith.solver.rational.node_rationals`, one set of samples) give the step slew of
     each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes`); the circuit solved at f0
     in the same batch gives each output's voltage and current there (with a load, one solve of the
-    loaded circuit at f0). ``vin_v`` is the input's peak (V); ``den``, where the caller has it,
-    the circuit's denominator as :func:`~bandsmith.solver.rational.node_rationals` takes it.
+    loaded circuit at f0). ``vin_v`` is the input's peak (V); ``h_ideal``, where the caller has it,
+    the circuit's transfer function with ideal op-amps, whose denominator then serves the samples
+    (:func:`~bandsmith.solver.rational.node_rationals`' ``den``).
     """
     if not math.isfinite(f0_hz):
         return tuple(AmplifierNeeds(e.ref, e.nodes[2], math.nan, math.nan, math.nan, math.nan) for e in netlist.opamps)
@@ -336,6 +336,7 @@ def amplifier_needs(
         w_ref = 2.0 * math.pi * f0_hz
     amps = netlist.opamps
     nodes = [system.layout.node_index[e.nodes[2]] for e in amps]
+    den = None if h_ideal is None else (h_ideal.den[0].tolist(), float(h_ideal.w_ref[0]))
     if rload_ohm is None:  # the outputs' voltages and currents at f0 solved with the same samples
         at_nodes, x0 = node_rationals(system, nodes, w_ref, at=s0, den=den)
         at_f0 = np.abs(x0[nodes + [system.layout.opamp_row[e.ref] for e in amps]]).tolist()
@@ -373,7 +374,7 @@ def requirements(
     rload_ohm: float | None = None,
     tolerances: Tolerances = Tolerances(),
     gbw_search: tuple[float | None, str | None] | None = None,
-    den: tuple | None = None,
+    h_ideal: Rational | None = None,
 ) -> Requirements:
     """The op-amp needs of a candidate (see the README's "Definitions").
 
@@ -381,8 +382,8 @@ def requirements(
     the largest ``|dv_out/dt|`` of the step response (``step_slope_per_s``: its largest ``|slope|``
     in 1/s per volt, :func:`bandsmith.analysis.timeresponse.max_step_slope`); output current: the
     peak current the op-amp output delivers at f0 into the circuit and the optional load.
-    ``gbw_search`` is a finished :func:`required_gbw`, when the caller has it; ``den`` the ideal
-    circuit's denominator (``(coefficients in p, w_ref)``), when it has that (:func:`amplifier_needs`).
+    ``gbw_search`` is a finished :func:`required_gbw`, and ``h_ideal`` the transfer function with
+    ideal op-amps (:func:`amplifier_needs`), when the caller has them.
     """
     ref = ideal.item()
     if gbw_search is None:
@@ -395,7 +396,7 @@ def requirements(
     slew_sine = 2.0 * math.pi * ref.f0_hz * gain * vin_v
     slew_step = step_slope_per_s * vin_v
     if len(netlist.opamps) > 1:
-        amps = amplifier_needs(netlist, ref.f0_hz, vin_v=vin_v, rload_ohm=rload_ohm, den=den)
+        amps = amplifier_needs(netlist, ref.f0_hz, vin_v=vin_v, rload_ohm=rload_ohm, h_ideal=h_ideal)
         # the worst amplifier (the output's own figures are among them)
         vout = max([vout] + [a.vout_peak_v for a in amps])
         slew_sine = max([slew_sine] + [a.slew_sine_v_per_s for a in amps])

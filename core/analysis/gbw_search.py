@@ -14,6 +14,7 @@ import numpy as np
 from bandsmith.analysis.figures import Figures, measure, measure_near
 from bandsmith.analysis.tolerances import Tolerances, within_tolerances
 from bandsmith.analysis.transfer import nominal_system, transfer_function
+from bandsmith.common.grids import geometric
 from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, rational_and_family
@@ -83,7 +84,7 @@ def search_gbw_many(
     for (i, ladder, one), part, size in zip(live, hs, sizes):
         netlist, ideal, family, w_ref, probe = items[i]
         at_probe = None if probe is None else (part.item(ladder.size), fig.take(slice(start + ladder.size, start + size)))
-        found = _conclude_gbw(netlist, one, family, w_ref, ladder, (fig, start), ok[start : start + ladder.size], a0=a0, tolerances=tolerances)
+        found = _conclude_gbw(netlist, one, family, w_ref, ladder, fig, start, ok[start : start + ladder.size], a0=a0, tolerances=tolerances)
         out[i] = (found, at_probe)
         start += size
     return out
@@ -106,18 +107,17 @@ _BASIS = np.stack(
 _CROSSING_MARGIN = 0.005
 
 
-def _interpolated_crossing(on_ladder: tuple[Figures, int], ref: Figures, tol: Tolerances, ladder: np.ndarray, j: int) -> float | None:
+def _interpolated_crossing(fig: Figures, start: int, ref: Figures, tol: Tolerances, ladder: np.ndarray, j: int) -> float | None:
     """The required GBW (Hz) inside the ladder step from ``j`` (failing) to ``j + 1`` (passing):
     each figure's error is interpolated by the cubic through the ladder points ``j − 1 … j + 2``
     (uniform in log GBW), and the last sub-step where the worst error exceeds its tolerance is
     found; the result is :data:`_CROSSING_MARGIN` above it. None where the four points are not
     all measured (a point too far off) or the interpolation disagrees with the measured pass and
-    fail at ``j`` and ``j + 1``: the caller then measures a fine ladder. ``on_ladder`` is
-    ``(figures, start)``: the ladder's figures are members ``start …`` of a batch (the batch the
-    ladders of several candidates are measured in, not taken apart)."""
+    fail at ``j`` and ``j + 1``: the caller then measures a fine ladder. The ladder's figures are
+    members ``start …`` of ``fig`` (the batch the ladders of several candidates are measured in,
+    not taken apart)."""
     if j < 1 or j + 2 >= ladder.size:
         return None
-    fig, start = on_ladder
     sl = slice(start + j - 1, start + j + 3)
     # errors over tolerances at the four points, as plain numbers (a handful of them)
     f0, q, db = (np.asarray(v)[sl].tolist() for v in (fig.f0_hz, fig.q, fig.gain_center_db))
@@ -139,11 +139,11 @@ def _interpolated_crossing(on_ladder: tuple[Figures, int], ref: Figures, tol: To
 
 def _conclude_gbw(
     netlist: Netlist, ref: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float, ladder: np.ndarray,
-    on_ladder: tuple[Figures, int], ok: np.ndarray, *, a0: float, tolerances: Tolerances,
+    fig: Figures, start: int, ok: np.ndarray, *, a0: float, tolerances: Tolerances,
 ) -> tuple[float | None, str | None]:
     """The required GBW from a candidate's coarse ladder: its ideal figures ``ref`` (scalars), the
-    figures ``on_ladder`` measured on the ``ladder`` (``(figures, start)``, as
-    :func:`_interpolated_crossing` takes them) and ``ok``, where they are within tolerance."""
+    figures measured on the ``ladder`` (members ``start …`` of ``fig``) and ``ok``, where they are
+    within tolerance."""
     if not ok[-1]:
         top = measure(with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
         return None, (
@@ -154,10 +154,10 @@ def _conclude_gbw(
     fails = np.flatnonzero(~ok)
     if fails.size == 0:
         return float(ladder[0]), None
-    found = _interpolated_crossing(on_ladder, ref, tolerances, ladder, int(fails[-1]))
+    found = _interpolated_crossing(fig, start, ref, tolerances, ladder, int(fails[-1]))
     if found is not None:
         return found, None
-    fine = np.geomspace(ladder[fails[-1]], ladder[fails[-1] + 1], _FINE_POINTS)
+    fine = geometric(float(ladder[fails[-1]]), float(ladder[fails[-1] + 1]), _FINE_POINTS)
     ok = within_tolerances(_near_figures(with_gbw(netlist, family, w_ref, fine, a0), ref, tolerances), ref, tolerances)
     fails = np.flatnonzero(~ok)
     # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
