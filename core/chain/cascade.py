@@ -61,9 +61,10 @@ from typing import Any, Mapping
 import numpy as np
 
 from bandsmith.chain.bandpass import CascadePlan, SectionPlan, biquad_bandpass, plan_cascade
-from bandsmith.analysis.analyzer import Tolerances
+from bandsmith.analysis.analyzer import Tolerances, opamp_output_current
 from bandsmith.design.candidate import Candidate, Conditions
-from bandsmith.design.designer import Spec, designs_or_errors
+from bandsmith.design.designer import DesignResult, Spec, designs_or_errors, spread_of
+from bandsmith.design.standard import errors_of, figure_misses, weighted_error
 from bandsmith.circuits import topology_ids
 from bandsmith.common.errors import InputError
 from bandsmith.solver.rational import Rational
@@ -317,9 +318,6 @@ def _attempts(ids, plan: SectionPlan, series: str, made: list, conditions: Condi
 
 def _assess(topology_id: str, res, plan: SectionPlan, series: str, conditions: Conditions):
     """A circuit's design for a stage and what the stage makes of it: ``(result, Attempt)``."""
-    from bandsmith.design.designer import spread_of
-    from bandsmith.design.standard import figure_misses, weighted_error
-
     if not res.feasible:
         return res, Attempt(topology_id, False, None, None, None, res.reason or "cannot meet the stage's target")
     sp = spread_of(res.topology, res.chosen)
@@ -553,9 +551,6 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
     Each stage is analysed as :func:`design_cascade` would (its drive and its stage tolerances);
     its errors are against the stage's planned target.
     """
-    from bandsmith.design.designer import DesignResult, spread_of
-    from bandsmith.design.standard import errors_of, figure_misses, weighted_error
-
     settings = chain.settings
     plan = plan_cascade(settings.prototype(), settings.band, settings.gain)
     amps = _Amplitudes(conditions, plan)
@@ -583,8 +578,6 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
 def _loaded(stages: tuple[Stage, ...]) -> tuple[Stage, ...]:
     """Built stages with each one's output current into its own circuit and the next stage's
     input (module notes); the last stage keeps its own, with the conditions' load."""
-    from bandsmith.analysis.analyzer import opamp_output_current
-
     out = list(stages)
     for k, (st, nxt) in enumerate(zip(stages[:-1], stages[1:])):
         an = st.result.analysis

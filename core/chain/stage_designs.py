@@ -20,9 +20,8 @@ the amplitude; with one, each stage's analyses wait for its amplitude (one batch
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
-from bandsmith.common.errors import InputError
 from bandsmith.design.candidate import Conditions, analyze_candidates
 from bandsmith.design.designer import PreparedDesigns, Spec, prepare_designs
 
@@ -55,12 +54,11 @@ class PendingStage:
         """The stage's conditions with the amplitude ``vin_v`` (V peak) that reaches it, and its
         designs under them: per circuit what :func:`bandsmith.design.designer.designs_or_errors`
         gives for those conditions."""
-        conditions = self.conditions if vin_v == self.conditions.vin_v else replace(self.conditions, vin_v=vin_v)
+        conditions = self.prepared.conditions_at(vin_v)
         analyses = self.analyses
-        if analyses is None:
+        if analyses is None:  # (with a load capacitance: analysed at the amplitude itself)
             ready = self.prepared.candidates()
             analyses = analyze_candidates(ready, conditions) if ready else []
-        analyses = [an if isinstance(an, InputError) else an.with_vin(vin_v) for an in analyses]
         return conditions, self.prepared.concluded(analyses, vin_v)
 
 

@@ -28,7 +28,6 @@
 
 from __future__ import annotations
 
-import heapq
 import math
 from typing import TYPE_CHECKING, Sequence
 
@@ -150,11 +149,8 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     cands = [(i, res, a) for i, (res, a) in enumerate(tried) if res is not None and a.feasible and res.feasible]
     if not cands:
         return None
-    heap = [(_least_key(res, a, limits), k) for k, (_, res, a) in enumerate(cands)]  # (bound, position), least first
-    heapq.heapify(heap)
     best = pick = None
-    while heap:
-        bound, k = heapq.heappop(heap)
+    for bound, k in sorted((_least_key(res, a, limits), k) for k, (_, res, a) in enumerate(cands)):  # least bound first
         if best is not None and bound > best[:4]:
             break  # this bound and every one left is above the best key's first four parts
         i, res, a = cands[k]

@@ -101,8 +101,7 @@ class Topology:
             zero or below, or an optional part below zero.
         """
         for ref in given:
-            if ref not in self._by_ref:
-                self.component(ref)  # raises: no such part
+            self.component(ref)  # raises for a part the circuit does not have
         out = {}
         for c in self.components:
             if c.ref not in given:

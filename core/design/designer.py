@@ -300,21 +300,26 @@ class PreparedDesigns:
         """The candidates to analyse: every design with its parts, in order."""
         return [m.candidate for m in self.made if isinstance(m, _Prepared)]
 
+    def conditions_at(self, vin_v: float | None) -> Conditions:
+        """These conditions at the input amplitude ``vin_v`` (V peak; None: their own)."""
+        if vin_v is None or vin_v == self.conditions.vin_v:
+            return self.conditions
+        return replace(self.conditions, vin_v=vin_v)
+
     def concluded(self, analyses: Sequence, vin_v: float | None = None) -> list[DesignResult | InputError]:
         """Each circuit's result, given the analyses of :meth:`candidates` (in their order, made
-        under these conditions at the amplitude ``vin_v``, V peak, by default theirs; an analysis
-        may be the :class:`InputError` it raised): what :func:`designs_or_errors` gives for the
-        conditions at that amplitude (the amplitude reaches only the amplifier needs, so the
-        parts chosen hold)."""
-        conditions = self.conditions
-        if vin_v is not None and vin_v != conditions.vin_v:
-            conditions = replace(conditions, vin_v=vin_v)
+        under these conditions; an analysis may be the :class:`InputError` it raised): what
+        :func:`designs_or_errors` gives for the conditions at the amplitude ``vin_v`` (V peak, by
+        default theirs). The amplitude reaches only the amplifier needs, so the parts chosen hold
+        and each analysis is taken at it (:meth:`~bandsmith.analysis.analyzer.Analysis.with_vin`)."""
+        conditions = self.conditions_at(vin_v)
         found = iter(analyses)
         out: list[DesignResult | InputError] = []
         for m in self.made:
             if isinstance(m, _Prepared):
                 analysis = next(found)
-                out.append(analysis if isinstance(analysis, InputError) else _conclude(m, analysis, self.spec, self.series, conditions))
+                out.append(analysis if isinstance(analysis, InputError)
+                           else _conclude(m, analysis.with_vin(conditions.vin_v), self.spec, self.series, conditions))
             elif isinstance(m, DesignResult) and m.conditions is not conditions:  # infeasible before any analysis
                 out.append(replace(m, conditions=conditions))
             else:

@@ -26,7 +26,6 @@ fitted and verified on first use as above.
 from __future__ import annotations
 
 import math
-import os
 from dataclasses import dataclass
 
 import numpy as np
@@ -576,13 +575,7 @@ class Expansion:
         self.variables = variables
         self.names = tuple(v.name for v in self.variables)
         self.column = {name: j for j, name in enumerate(self.names)}  # a variable's column by name
-        fit = _FITS.get(key)
-        if fit is None:
-            shipped = _table_fit(key)
-            if isinstance(shipped, str):
-                raise ExpansionUnavailable(shipped)
-            if shipped is not None:  # computed and verified when the table was written
-                _FITS[key] = fit = shipped
+        fit = _known_fit(key)
         if fit is None:
             sizes = [v.degree + 1 for v in self.variables]
             if math.prod(sizes) > MAX_POINTS:
@@ -843,6 +836,8 @@ def _row_abs_max(a: np.ndarray) -> np.ndarray:
     """``np.abs(a).max(axis=1, keepdims=True)`` column by column: the same numbers (a maximum
     rounds nothing, and NaN wins either way), without numpy's reduction along rows of a few
     entries, which costs some ten times more over a batch of a thousand."""
+    if a.shape[0] < 64:  # (numpy's own reduction is the cheaper there)
+        return np.abs(a).max(axis=1, keepdims=True)
     out = np.abs(a[:, 0])
     for j in range(1, a.shape[1]):
         np.maximum(out, np.abs(a[:, j]), out=out)
@@ -858,7 +853,7 @@ def unit_expansion_values(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: b
     :meth:`Expansion.log_ratios_of` takes. Once the structure's expansion is kept, no record is
     made. Raises :class:`ExpansionUnavailable` as :func:`unit_expansion` does."""
     fields = _variable_fields(netlist, opamp)
-    return _unit_of(netlist, opamp, fields, fit), [value for _, _, value, _ in fields]
+    return _kept_unit(netlist, opamp, fields, fit), [value for _, _, value, _ in fields]
 
 
 def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, tuple[Variable, ...]]:
@@ -872,26 +867,35 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = T
     for a caller with a cheaper way than a fit of several op-amps' stamps, up to a second).
     """
     fields = _variable_fields(netlist, opamp)
-    return _unit_of(netlist, opamp, fields, fit), tuple(Variable(*f) for f in fields)  # circuit_variables(netlist, opamp)
+    return _kept_unit(netlist, opamp, fields, fit), tuple(Variable(*f) for f in fields)
 
 
-def _unit_of(netlist: Netlist, opamp: OpAmpModel, fields: list, fit: bool) -> Expansion:
+def _kept_unit(netlist: Netlist, opamp: OpAmpModel, fields: list, fit: bool) -> Expansion:
     """The kept unit expansion of the structure with these variable ``fields`` (made, and kept,
     where it is not yet): :func:`unit_expansion`'s."""
     structure = _fields_key(netlist, fields)
     key = (structure, opamp)
     exp = _UNIT.get(key)
     if exp is None:
-        if not fit and structure not in _FITS:
-            shipped = _table_fit(structure)  # looked up once here (_setup then finds it fitted)
-            if shipped is None:
-                raise ExpansionUnavailable("not fitted yet")
-            if isinstance(shipped, str):
-                raise ExpansionUnavailable(shipped)
-            _FITS[structure] = shipped
+        if not fit and _known_fit(structure) is None:
+            raise ExpansionUnavailable("not fitted yet")
         exp = Expansion._at_unit(netlist, opamp, tuple(Variable(*f) for f in fields), structure)
         _UNIT[key] = exp
     return exp
+
+
+def _known_fit(key: tuple) -> "_Fit | None":
+    """A structure's fit where it is made already or shipped (then kept), None where neither;
+    :class:`ExpansionUnavailable` with the table's reason where the structure is known not to
+    fit."""
+    fit = _FITS.get(key)
+    if fit is None:
+        shipped = _table_fit(key)
+        if isinstance(shipped, str):
+            raise ExpansionUnavailable(shipped)
+        if shipped is not None:  # computed and verified when the table was written
+            _FITS[key] = fit = shipped
+    return fit
 
 
 class _CoefficientPlan:
