@@ -284,17 +284,6 @@ def _read_index(fh=None) -> tuple:
     return _TABLE
 
 
-def _load_table() -> dict:
-    """The shipped table's index as ``{hash: (start, end, digest)}``: byte offsets of each entry
-    (a JSON string) from the end of the index line, and the digest of its bytes. Empty when the file
-    is missing, stale (its stamp is not :func:`_table_stamp`) or not laid out as the table."""
-    table = _read_index()
-    if not table:
-        return {}
-    records = table[0]
-    return {name: _span(records, name) for name in (records[at : at + 20].decode("ascii") for at in range(0, len(records), _RECORD))}
-
-
 def _span(records: bytes, name: str) -> tuple[int, int, str] | None:
     """``(start, end, digest)`` of entry ``name`` in the index ``records`` (checked by
     :func:`_indexed`), or None. A name is 20 hex digits (:func:`structure_hash`), found only at a
@@ -416,7 +405,7 @@ def table_entry(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[str, str]:
 
 def table_text(entries: dict[str, str]) -> str:
     """The table file's text (valid JSON): the stamp, the index of byte offsets, then one entry per
-    line, sorted by hash (the layout :func:`_load_table` reads)."""
+    line, sorted by hash (the layout :func:`_read_index` and :func:`_table_line` read)."""
     import json
 
     body, index, at = [], [], 0
