@@ -740,7 +740,7 @@ class Expansion:
             den[bad] = np.nan
         return num, den
 
-    def opamp_terms(self, log_ratios: np.ndarray) -> tuple[list[np.ndarray], list[np.ndarray]] | None:
+    def opamp_terms(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
         """The transfer function of one member as a polynomial in the op-amp stamp its ``m``
         op-amps share, ``x = −(1/A0 + s/ω_t)``: ``D = Σ_j x^j·D_j`` and ``N = Σ_j x^j·N_j``.
 
