@@ -32,7 +32,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
-__all__ = ["Figures", "measure", "measure_many", "measure_near", "measure_from", "biquad_figures", "biquad_peak_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
+__all__ = ["Figures", "defined", "measure", "measure_many", "measure_near", "measure_from", "biquad_figures", "biquad_peak_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
            "CLOSED_FORM_FROM"]
 
 _ROOT_STEPS = 8
@@ -89,8 +89,14 @@ class Figures:
 
     @property
     def valid(self) -> np.ndarray:
-        """True where every figure is defined."""
-        return np.isfinite(self.q) & np.isfinite(self.f0_hz) & np.isfinite(self.gain_center_db)
+        """True where every figure is defined (:func:`defined`)."""
+        return defined(self.f0_hz, self.q, self.gain_center_db)
+
+
+def defined(f0_hz, q, gain_center_db) -> np.ndarray:
+    """True where f0, Q and the centre gain (dB) are all finite: a member's figures are defined
+    (:attr:`Figures.valid`, and a search's figures kept as arrays)."""
+    return np.isfinite(q) & np.isfinite(f0_hz) & np.isfinite(gain_center_db)
 
 
 _FIELDS = tuple(f.name for f in fields(Figures))

@@ -18,7 +18,6 @@ from typing import Sequence
 
 import numpy as np
 
-from bandsmith.solver.polyroots import companion_roots
 from bandsmith.solver.rational import Rational, in_s, lead_trimmed, polyval_one, s_powers
 
 __all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
@@ -71,12 +70,6 @@ def _polydiv(u: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 # Below this real part exp(z) is zero in double precision (it underflows below −745.13).
 _UNDERFLOW = -746.0
-
-
-def _modal(b: np.ndarray, a: np.ndarray, t: np.ndarray, p: np.ndarray):
-    """Step and impulse responses ``(y, h)`` at times ``t`` from simple poles ``p`` (the roots of
-    ``a``): :class:`_Modes`."""
-    return _Modes(a, t, p).responses(b)
 
 
 class _Modes:
@@ -173,14 +166,25 @@ def _state_space(b: np.ndarray, a: np.ndarray, t: np.ndarray):
 _EARLY = np.geomspace(1e-3, 20.0, 200)
 
 
-def _roots(a: np.ndarray) -> np.ndarray:
-    """Roots of a monic polynomial: the quadratic formula for degree two, else numpy.roots's
-    (:func:`~bandsmith.solver.polyroots.companion_roots`)."""
+def _setting(h: Rational, i: int, a: np.ndarray, t_s: np.ndarray | None):
+    """What the step response of member ``i`` of ``h`` (its denominator ``a`` in ``s``, monic) is
+    formed from: ``(poles, t_s, t_all, modal)``, its poles (the quadratic formula for degree two,
+    without cancellation; else the member's own, :meth:`Rational.poles`, found once), the times
+    ``t_s`` (:func:`default_time_grid` by default), those times followed by the early ones where a
+    fast op-amp pole shapes the start, and whether the poles are far enough apart for the modal
+    form (:class:`_Modes`; else the state-space form)."""
     if a.size == 3:
         d = np.sqrt(complex(a[1] * a[1] - 4.0 * a[2]))
         q = -0.5 * (a[1] + (d if (np.conj(a[1]) * d).real >= 0 else -d))  # no cancellation
-        return np.array([q, a[2] / q]) if q != 0 else np.zeros(2, dtype=complex)
-    return companion_roots(a)
+        poles = np.array([q, a[2] / q]) if q != 0 else np.zeros(2, dtype=complex)
+    else:
+        poles = h.poles(i)
+    if t_s is None:
+        t_s = default_time_grid(poles)
+    listed = poles.tolist()
+    fast = max((abs(p) for p in listed if cmath.isfinite(p)), default=1.0)
+    gap = min((abs(p - q) for k, p in enumerate(listed) for q in listed[k + 1 :]), default=np.inf)
+    return poles, t_s, np.concatenate([t_s, _EARLY / fast]), gap > 1e-5 * fast
 
 
 def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> StepResponse:
@@ -200,17 +204,8 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
         looks at a fine grid of early times where a fast op-amp pole shapes the start.
     """
     b, a = h.to_s(i)
-    poles = _roots(a) if a.size == 3 else h.poles(i)  # (the quadratic formula for two; else found once per member)
-    if t_s is None:
-        t_s = default_time_grid(poles)
-    listed = poles.tolist()
-    fast = max((abs(p) for p in listed if cmath.isfinite(p)), default=1.0)
-    t_all = np.concatenate([t_s, _EARLY / fast])
-    gap = min((abs(p - q) for k, p in enumerate(listed) for q in listed[k + 1 :]), default=np.inf)
-    if gap > 1e-5 * fast:
-        y, slope = _modal(b, a, t_all, poles)
-    else:
-        y, slope = _state_space(b, a, t_all)
+    poles, t_s, t_all, modal = _setting(h, i, a, t_s)
+    y, slope = _Modes(a, t_all, poles).responses(b) if modal else _state_space(b, a, t_all)
     n = t_s.size
     return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.abs(slope).max()))
 
@@ -262,7 +257,7 @@ def _second_order_slope(b: Sequence[float], a: Sequence[float]) -> float | None:
         return max(abs(r1), abs(2.0 * (r_1 * cmath.exp(p1 * t1)).real))
     q = -0.5 * (a1 + math.sqrt(disc))
     p1, p2 = q, a0 / q
-    if abs(p1 - p2) <= 1e-5 * max(abs(p1), abs(p2)):  # as step_response's gap test
+    if abs(p1 - p2) <= 1e-5 * max(abs(p1), abs(p2)):  # as _setting's gap test (step_response's)
         return None
     r_1, r_2 = (r1 * p1 + r0) / (p1 - p2), (r1 * p2 + r0) / (p2 - p1)
     best = abs(r1)
@@ -302,15 +297,12 @@ def max_step_slopes(h: Rational) -> list[float]:
         out.append(slope)
     for (key, _, _), members in groups.items():
         a = np.array(key)
-        poles = _roots(a) if a.size == 3 else h.poles(members[0][0])  # step_response's
-        listed = poles.tolist()
-        fast = max((abs(p) for p in listed if cmath.isfinite(p)), default=1.0)
-        gap = min((abs(p - q) for k, p in enumerate(listed) for q in listed[k + 1 :]), default=np.inf)
-        if not gap > 1e-5 * fast:
+        poles, _, t_all, modal = _setting(h, members[0][0], a, None)  # step_response's
+        if not modal:
             for i, _ in members:
                 out[i] = step_response(h, i=i).max_slope_per_s
             continue
-        modes = _Modes(a, np.concatenate([default_time_grid(poles), _EARLY / fast]), poles)
+        modes = _Modes(a, t_all, poles)
         for i, b in members:  # the impulse response, as step_response forms it
             out[i] = float(np.abs(modes.responses(b, step=False)[1]).max())
     return out

@@ -45,11 +45,6 @@ class PendingStage:
     prepared: PreparedDesigns
     analyses: list | None = None
 
-    @property
-    def conditions(self) -> Conditions:
-        """The stage's conditions with the chain's input amplitude in place of its own."""
-        return self.prepared.conditions
-
     def results(self, vin_v: float) -> tuple[Conditions, list]:
         """The stage's conditions with the amplitude ``vin_v`` (V peak) that reaches it, and its
         designs under them: per circuit what :func:`bandsmith.design.designer.designs_or_errors`

@@ -31,7 +31,7 @@ import numpy as np
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
 from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion, unit_expansion_values
-from bandsmith.analysis.figures import Figures, biquad_peak_figures, measure, measure_many
+from bandsmith.analysis.figures import Figures, biquad_peak_figures, defined, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
@@ -295,7 +295,7 @@ def _costs(searches: list[_Search], figs: list[Figures]) -> list[np.ndarray]:
 
 def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarray]:
     """Each search's costs: its weighted errors where the combination is stable (Routh–Hurwitz on
-    ``den``) and measured (f0, Q and the gain finite, as :attr:`Figures.valid`), inf elsewhere;
+    ``den``) and measured (f0, Q and the gain finite: :func:`~bandsmith.analysis.figures.defined`), inf elsewhere;
     the figures and denominators of every search joined, each search's targets and tolerances
     repeated over its members (the same operations, member by member, as each search alone)."""
     sizes = [m.h.batch for m in searches]
@@ -308,8 +308,7 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
         each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
         each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
     )
-    valid = np.isfinite(q) & np.isfinite(f0) & np.isfinite(gain_db)
-    cost = np.where(hurwitz_stable(den) & valid, weighted, np.inf)
+    cost = np.where(hurwitz_stable(den) & defined(f0, q, gain_db), weighted, np.inf)
     return np.split(cost, np.cumsum(sizes)[:-1])
 
 

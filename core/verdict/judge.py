@@ -24,7 +24,7 @@ code                   what                                                     
 
 A candidate's verdict is the heaviest weight among its reasons; with none it is ``buildable``. A
 figure beyond its design tolerance is always ``not buildable``. :func:`least_verdict` gives, from
-the figure, spread and GBW checks alone, a verdict that judge's is never better than.
+the figure, spread, part-range and GBW checks alone, a verdict that judge's is never better than.
 
 The yield is estimated from the sensitivities (:func:`bandsmith.verdict.yield_estimate.estimate_yield`)
 and confirmed by a short fixed-seed Monte Carlo when the estimate lies within
@@ -294,6 +294,22 @@ def _order(reasons: list[Reason]) -> tuple[Reason, ...]:
     return tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
 
 
+def _settled_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
+    """The reasons of judge's checks on numbers a feasible design already has, in judge's order:
+    its figures against the design tolerances with the ideal op-amp and with the session's op-amp,
+    the resistor and capacitor spread, the parts' range and the required GBW (what
+    :func:`least_verdict` bounds the verdict with)."""
+    a, topo, tol = result.analysis, result.topology, result.conditions.tolerances
+    reasons = _figure_reasons(result.errors, tol, "", f"with {result.series} parts and an ideal op-amp,")
+    if a.actual is not None:
+        reasons += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
+                                   f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
+    reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
+    reasons += _range_reasons(topo, result.chosen, limits)
+    reasons += _gbw_reasons(result, limits)
+    return reasons
+
+
 def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, candidate: str | None = None) -> Verdict:
     """The verdict of one designed candidate (see the module notes).
 
@@ -317,17 +333,10 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
         reason = Reason("infeasible", result.reason or "the circuit cannot meet this target", None, None, NOT_BUILDABLE)
         return Verdict(cid, NOT_BUILDABLE, (reason,), None, None, None, None, count, inductor, result.conditions.gbw_hz)
     a = result.analysis
-    tol = result.conditions.tolerances
     reasons: list[Reason] = []
     if not a.stable_ideal or a.stable_actual is False:
         reasons.append(Reason("unstable", "; ".join(a.warnings) or "unstable", None, None, NOT_BUILDABLE))
-    reasons += _figure_reasons(result.errors, tol, "", f"with {result.series} parts and an ideal op-amp,")
-    if a.actual is not None:
-        reasons += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
-                                   f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
-    reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
-    reasons += _range_reasons(topo, result.chosen, limits)
-    reasons += _gbw_reasons(result, limits)
+    reasons += _settled_reasons(result, limits)
     reasons += _amp_reasons(result, limits)
     r = _inductor_reason(result, limits) if inductor else None
     if r is not None:
@@ -348,15 +357,14 @@ def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits())
     """The least verdict :func:`judge` can give a design, and the least number of its
     ``not buildable`` reasons, from the checks that need nothing more worked out.
 
-    The checks are judge's own pieces, on the same numbers: a figure (f0, Q, gain) beyond its
-    design tolerance with the ideal op-amp and with the session's op-amp
-    (:func:`bandsmith.design.standard.figure_misses`), the resistor and capacitor spread
-    (:func:`bandsmith.design.designer.spread_of` of the chosen parts) and the required GBW
-    against the ceiling, ordinary op-amps and the session's op-amp. Judge's other checks
-    (stability, part range, slew rate, output current, inductor, yield) only add reasons, so its
-    verdict is at least this one (in ``VERDICTS``' order) and, when both are ``not buildable``,
-    it has at least this many reasons of that weight. Lets a caller that wants only the best of
-    several judge the few that can still be best.
+    The checks are judge's own (:func:`_settled_reasons`), on the same numbers: a figure (f0, Q,
+    gain) beyond its design tolerance with the ideal op-amp and with the session's op-amp, the
+    resistor and capacitor spread, the parts' range and the required GBW against the ceiling,
+    ordinary op-amps and the session's op-amp. Judge's other checks (stability, slew rate, output
+    current, inductor, yield) only add reasons, so its verdict is at least this one (in
+    ``VERDICTS``' order) and, when both are ``not buildable``, it has at least this many reasons
+    of that weight. Lets a caller that wants only the best of several judge the few that can
+    still be best.
 
     Returns
     -------
@@ -368,13 +376,8 @@ def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits())
     """
     if not result.feasible or result.analysis is None:
         return NOT_BUILDABLE, 1  # judge gives exactly one reason: infeasible
-    a = result.analysis
-    tol = result.conditions.tolerances
-    heavy = len(figure_misses(result.errors, tol))
-    if a.actual is not None:
-        heavy += len(figure_misses(errors_of(a.actual, result.spec), tol))
-    weights = [r.weight for r in _spread_reasons(spread_of(result.topology, result.chosen), limits) + _gbw_reasons(result, limits)]
-    heavy += weights.count(NOT_BUILDABLE)
+    weights = [r.weight for r in _settled_reasons(result, limits)]
+    heavy = weights.count(NOT_BUILDABLE)
     if heavy:
         return NOT_BUILDABLE, heavy
     return (MARGINAL if MARGINAL in weights else BUILDABLE), 0
