@@ -26,7 +26,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
-from bandsmith.analysis.figures import Figures, measure_from, measure_many
+from bandsmith.analysis.figures import Figures, measure_from, nominal_and_peaks_many
 from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
 from bandsmith.analysis.tolerances import Tolerances, within_tolerances
 from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_family, transfer_function
@@ -520,21 +520,20 @@ def _first_pass_many(
     netlists: Sequence[Netlist], parts: Sequence[Mapping[str, float] | None], w_ref: float | None = None,
 ) -> list[_FirstPass]:
     """:func:`_first_pass` of several candidates, their figures measured together
-    (:func:`bandsmith.analysis.figures.measure_many`)."""
+    (:func:`bandsmith.analysis.figures.nominal_and_peaks_many`)."""
     made = []
     for netlist, own in zip(netlists, parts):
         values = dict(own if own is not None else netlist.values())
         refs = [r for r, v in values.items() if v > 0]
         made.append((values, refs, _perturbed(netlist, values, refs, w_ref)))
-    figs = measure_many([h for _, _, (_, h, _) in made])
+    measured = nominal_and_peaks_many([h for _, _, (_, h, _) in made])
     out = []
-    for (values, refs, (w, h, family)), fig in zip(made, figs):
-        sv = log_slopes(np.abs(np.stack([fig.f0_hz, fig.q, fig.gain_center])[:, 1:]))
+    for (values, refs, (w, h, family)), (nominal, peaks) in zip(made, measured):
         sens = {}
-        for row, key in enumerate(("f0", "q", "gain")):
-            by_ref = dict(zip(refs, sv[row].tolist()))
+        for key, row in zip(("f0", "q", "gain"), log_slopes(peaks[:, 1:]).tolist()):
+            by_ref = dict(zip(refs, row))
             sens[key] = {r: by_ref.get(r, 0.0) for r in values}
-        out.append(_FirstPass(float(w), h.item(0), fig.take(slice(0, 1)), sens, family))
+        out.append(_FirstPass(float(w), h.item(0), nominal, sens, family))
     return out
 
 
