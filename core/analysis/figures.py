@@ -60,8 +60,11 @@ class Figures:
 
     @staticmethod
     def repeated(members: "list[Figures]", counts) -> "Figures":
-        """One batch of one-member figures, member ``i`` repeated ``counts[i]`` times."""
-        return Figures(*[np.repeat([float(np.asarray(getattr(m, name)).item()) for m in members], counts) for name in _FIELDS])
+        """One batch of one-member figures, member ``i`` repeated ``counts[i]`` times (the
+        members' eight figures as the rows of one table, repeated in one call)."""
+        table = np.array([[v if type(v) is float else float(np.asarray(v).item()) for v in (getattr(m, name) for name in _FIELDS)]
+                          for m in members])
+        return Figures(*np.repeat(table.T, counts, axis=1))
 
     def put(self, index, other: "Figures") -> "Figures":
         """A copy with the members at ``index`` (an index array) replaced by ``other``'s, in order."""

@@ -667,10 +667,9 @@ def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> tuple[np.ndarray, 
     index, length, starts = _shifted_index(sizes, m)
     shifted = np.zeros((len(_family_pairs(m)[0]), length))
     shifted.flat[index] = np.concatenate([terms[j] for j, _ in _family_pairs(m)[0]])
-    lead = []
-    for t in terms:
-        nz = np.flatnonzero(t)
-        lead.append(int(nz[0]) if nz.size else None)  # None: a term that is zero throughout
+    # each term's first nonzero entry (a NaN counts, as numpy's nonzero counts it), read from
+    # its few coefficients as plain numbers; None: a term that is zero throughout
+    lead = [next((i for i, v in enumerate(t.tolist()) if v != 0.0), None) for t in terms]
     zero = min((start + lead[j] for (j, _), start in zip(_family_pairs(m)[0], starts) if lead[j] is not None), default=length - 1)
     return shifted, min(zero, length - 1)
 
