@@ -63,31 +63,69 @@ def search_gbw_many(
     (NaN figures where they are not near the ideal ones: the caller measures them exactly).
     """
     out: list = [((None, "the circuit has no band-pass peak with an ideal op-amp"), None)] * len(items)
-    live, hs = [], []
+    live, gbws = [], []
     for i, (netlist, ideal, family, w_ref, probe) in enumerate(items):
         ref = ideal.item()
         if not (math.isfinite(ref.f0_hz) and math.isfinite(ref.q)):
             continue
         ladder = _ladder(ref.f0_hz)
-        gbw = ladder if probe is None else np.append(ladder, probe)
         live.append((i, ladder, ref))
-        hs.append(with_gbw(netlist, family, w_ref, gbw, a0))
+        gbws.append(ladder if probe is None else np.append(ladder, probe))
     if not live:
         return out
-    h = hs[0] if len(hs) == 1 else Rational.joined(hs)
-    sizes = [x.batch for x in hs]
+    h = _ladders([items[i][:4] for i, _, _ in live], gbws, a0)
+    sizes = [g.size for g in gbws]
     # one member's figures for all, or each candidate's (as scalars) repeated over its members
     ref = items[live[0][0]][1] if len(live) == 1 else Figures.repeated([one for _, _, one in live], sizes)
     fig = _near_figures(h, ref, tolerances)
     ok = within_tolerances(fig, ref, tolerances)  # every member against its own candidate's figures
     start = 0
-    for (i, ladder, one), part, size in zip(live, hs, sizes):
+    for (i, ladder, one), size in zip(live, sizes):
         netlist, ideal, family, w_ref, probe = items[i]
-        at_probe = None if probe is None else (part.item(ladder.size), fig.take(slice(start + ladder.size, start + size)))
+        at_probe = None if probe is None else (h.item(start + ladder.size), fig.take(slice(start + ladder.size, start + size)))
         found = _conclude_gbw(netlist, one, family, w_ref, ladder, fig, start, ok[start : start + ladder.size], a0=a0, tolerances=tolerances)
         out[i] = (found, at_probe)
         start += size
     return out
+
+
+def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
+    """:func:`with_gbw` of several candidates ``(netlist, ideal figures, family, w_ref)`` at their
+    GBW ladders (Hz), joined into one batch (:meth:`Rational.joined`'s: each polynomial padded
+    with leading zeros to the longest); the members of one-op-amp families made together.
+
+    An :class:`OpAmpFamily` member is ``D = D0 − α·M − β·M·p`` (``α = 1/A0``, ``β = w_ref/ωt``)
+    over the numerator ``N``, both scaled by ``D``'s largest coefficient: the same operations on
+    every family's rows, so the families' ``D0``, ``M``, ``M·p`` and ``N``, each padded with
+    leading zeros to the longest, are repeated over their ladders and taken in one batch (a
+    padded zero stays zero, and leaves each member's largest coefficient as it is)."""
+    blocks: list = [None] * len(items)
+    singles = [k for k, it in enumerate(items) if isinstance(it[2], OpAmpFamily)]
+    if len(singles) > 1:
+        fams = [items[k][2] for k in singles]
+        counts = [gbws[k].size for k in singles]
+        n = max(max(f.d0.size, f.cofactor.size + 1) for f in fams)
+        width = max(f.num.size for f in fams)
+        d0, m, mp, num = (np.zeros((len(fams), w)) for w in (n, n, n, width))
+        for r, f in enumerate(fams):
+            d0[r, n - f.d0.size :] = f.d0
+            m[r, n - f.cofactor.size :] = f.cofactor
+            mp[r, n - f.cofactor.size - 1 : n - 1] = f.cofactor
+            num[r, width - f.num.size :] = f.num
+        alpha = 1.0 / np.asarray(a0, dtype=float)
+        w_ref = np.repeat([f.w_ref for f in fams], counts)
+        beta = w_ref / (2.0 * np.pi * np.concatenate([gbws[k] for k in singles]))
+        den = np.repeat(d0, counts, axis=0) - alpha * np.repeat(m, counts, axis=0) - beta[:, None] * np.repeat(mp, counts, axis=0)
+        scale = np.abs(den).max(axis=1, keepdims=True)
+        made = Rational(np.repeat(num, counts, axis=0) / scale, den / scale, w_ref)
+        start = 0
+        for k, c in zip(singles, counts):
+            blocks[k] = made.take(slice(start, start + c))
+            start += c
+    for k, (netlist, _, family, w_ref) in enumerate(items):
+        if blocks[k] is None:
+            blocks[k] = with_gbw(netlist, family, w_ref, gbws[k], a0)
+    return blocks[0] if len(blocks) == 1 else Rational.joined(blocks)
 
 
 # Lagrange basis of the ladder points j−1, j, j+1, j+2 (uniform in log GBW) at sub-steps
