@@ -17,7 +17,7 @@ from bandsmith.analysis.transfer import nominal_system, transfer_function
 from bandsmith.common.grids import geometric
 from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, rational_and_family
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, family_weights, rational_and_family
 
 __all__ = ["required_gbw", "search_gbw_many", "with_gbw"]
 
@@ -92,7 +92,9 @@ def search_gbw_many(
 def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
     """:func:`with_gbw` of several candidates ``(netlist, ideal figures, family, w_ref)`` at their
     GBW ladders (Hz), joined into one batch (:meth:`Rational.joined`'s: each polynomial padded
-    with leading zeros to the longest); the members of one-op-amp families made together.
+    with leading zeros to the longest); the members of one-op-amp families made together, and the
+    op-amp weights (:func:`~bandsmith.solver.rational.family_weights`) of several-op-amp families
+    with the same number of op-amps.
 
     An :class:`OpAmpFamily` member is ``D = D0 − α·M − β·M·p`` (``α = 1/A0``, ``β = w_ref/ωt``)
     over the numerator ``N``, both scaled by ``D``'s largest coefficient: the same operations on
@@ -122,6 +124,21 @@ def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
         for k, c in zip(singles, counts):
             blocks[k] = made.take(slice(start, start + c))
             start += c
+    by_m: dict[int, list[int]] = {}
+    for k, it in enumerate(items):
+        if isinstance(it[2], AmpFamily):
+            by_m.setdefault(len(it[2].den_terms) - 1, []).append(k)
+    for m, ks in by_m.items():
+        if len(ks) < 2:
+            continue
+        alpha = (1.0 / np.asarray(a0, dtype=float)).reshape(1)
+        beta = np.concatenate([items[k][2].w_ref / (2.0 * np.pi * gbws[k]) for k in ks])
+        weights = family_weights(alpha, beta, m)
+        start = 0
+        for k in ks:
+            stop = start + gbws[k].size
+            blocks[k] = items[k][2].weighted(weights[start:stop])
+            start = stop
     for k, (netlist, _, family, w_ref) in enumerate(items):
         if blocks[k] is None:
             blocks[k] = with_gbw(netlist, family, w_ref, gbws[k], a0)

@@ -22,7 +22,7 @@ import numpy as np
 from bandsmith.solver.mna import MnaSystem, build_system
 from bandsmith.solver.polyroots import companion_roots
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows", "family_weights"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -605,20 +605,25 @@ class AmpFamily:
         # one open-loop gain for the whole ladder: one value, its powers broadcast in the weights
         alpha = alpha.reshape(1) if alpha.size == 1 else np.broadcast_to(alpha, gbw.shape)
         beta = self.w_ref / (2.0 * np.pi * gbw)
+        return self.weighted(family_weights(alpha, beta, len(self.den_terms) - 1))
+
+    def weighted(self, weights: np.ndarray) -> Rational:
+        """The transfer functions for the rows of :func:`family_weights` (``(B, pairs)``, this
+        family's ``m``): :meth:`at` once its op-amps' weights are made (a caller with the ladders
+        of several families of one ``m`` makes their weights in one batch)."""
         m = len(self.den_terms) - 1
         if self._shifted is None:
             # (their shape kept: a product of another shape may add in another order)
             (num_s, num_zero), (den_s, den_zero) = _family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m)
             object.__setattr__(self, "_shifted", (num_s, den_s))
             object.__setattr__(self, "_zero_lead", (num_zero, den_zero))
-        weights = _family_weights(alpha, beta, m)
         num = weights @ self._shifted[0]
         den = weights @ self._shifted[1]
         den = _lead_trim(den, self._zero_lead[1])
         num = _lead_trim(num, self._zero_lead[0])
         scale = np.abs(den).max(axis=1, keepdims=True)
         scale[scale == 0] = 1.0
-        return Rational(num / scale, den / scale, np.full(gbw.size, self.w_ref))
+        return Rational(num / scale, den / scale, np.full(weights.shape[0], self.w_ref))
 
 
 @functools.lru_cache(maxsize=16)
@@ -635,7 +640,7 @@ def _family_pairs(m: int) -> tuple[tuple[tuple[int, int], ...], np.ndarray, np.n
     return pairs, i_pow, rest, comb
 
 
-def _family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
+def family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
     """``C(j, i)·(−β)^i·(−α)^(j−i)`` for every pair of :func:`_family_pairs`: ``(B, pairs)``.
 
     Each power of ``−β`` and ``−α`` is taken once (``m + 1`` of each), then picked per pair; an
