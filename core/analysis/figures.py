@@ -269,8 +269,8 @@ def nominal_and_peaks_many(hs: Sequence[Rational]) -> list[tuple[Figures, np.nda
     each through :func:`measure`."""
     out: list = [None] * len(hs)
     quick = [i for i, h in enumerate(hs) if _biquad_shaped(h)]
-    if quick:
-        h = hs[quick[0]] if len(quick) == 1 else Rational.joined([hs[i] for i in quick])
+    if len(quick) > 1:  # (one alone is measured whole: the closed form over its members costs no more)
+        h = Rational.joined([hs[i] for i in quick])
         num, den = h.num, h.den
         with np.errstate(invalid="ignore", divide="ignore"):
             h_pk, a2, a1, a0, peak, nan = _biquad_peak(num[:, -2], den[:, 0], den[:, 1], den[:, 2])
