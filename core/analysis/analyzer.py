@@ -452,17 +452,28 @@ def _sensitivity_steps(rows: int, n_var: int, cols: tuple[int, ...]) -> np.ndarr
     return steps
 
 
-def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
-    """The first pass's transfer functions from the netlist's coefficient expansion
-    (:mod:`bandsmith.solver.expansion`, built once per circuit) instead of solves: ``(w_ref, h, family)``, or
-    None where the expansion does not apply (no op-amp, or a part the expansion does not
-    carry).
+class _Expanded(NamedTuple):
+    """A candidate's first pass from its coefficient expansion, set up (:func:`_expansion_setup`):
+    the kept expansion, the natural logs of its members' ratios ``(rows, n_var)`` (member 0 the
+    nominal circuit, members ``1 + 2j``/``2 + 2j`` part ``j`` up/down by the sensitivity step and,
+    with one op-amp, a last member with ``1/ωt = 1``), the stamps absent from each member (one
+    op-amp) or None, and the number of ideal members."""
 
-    With one op-amp the expansion carries its stamps, and one more member (``1/ωt = 1``) gives
-    the :class:`~bandsmith.solver.rational.OpAmpFamily`; with several the ideal members come from
-    the ideal-op-amp expansion (the one with the op-amps' stamps carries ``(m + 1)²`` times its
-    integer points) and the :class:`~bandsmith.solver.rational.AmpFamily` from the one with them
-    (:func:`bandsmith.analysis.transfer.several_amp_family`)."""
+    netlist: Netlist
+    exp: object
+    log_ratios: np.ndarray
+    absent: np.ndarray | None
+    n_ideal: int
+
+
+def _expansion_setup(netlist: Netlist, refs: list[str], n_ideal: int) -> _Expanded | None:
+    """The set-up of :func:`_first_pass_expanded` for one candidate, or None where the expansion
+    does not apply (no op-amp, or a part the expansion does not carry): the expansion with the
+    op-amp's stamps for one op-amp (one more member, ``1/ωt = 1``, gives the
+    :class:`~bandsmith.solver.rational.OpAmpFamily`), the ideal-op-amp one for several (the one
+    with the op-amps' stamps carries ``(m + 1)²`` times its integer points; their
+    :class:`~bandsmith.solver.rational.AmpFamily` comes from it,
+    :func:`bandsmith.analysis.transfer.several_amp_family`)."""
     m = len(netlist.opamps)
     if not m:
         return None
@@ -478,11 +489,44 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
     rows = n_ideal + 1 if one else n_ideal
     lr = exp.log_ratios_of(own) + _sensitivity_steps(rows, len(own), tuple(col[r] for r in refs))
-    if one:
-        num, den = exp.dense_log(lr, absent=_absent_mask(rows, len(own), col["gbw"], col["a0"]))
-    else:
-        num, den = exp.dense_log(lr)
-    # in p = s (the unit expansion), highest power first
+    absent = _absent_mask(rows, len(own), col["gbw"], col["a0"]) if one else None
+    return _Expanded(netlist, exp, lr, absent, n_ideal)
+
+
+def _first_pass_expanded(setups: Sequence[_Expanded], w_ref: float | None) -> list:
+    """The first passes' transfer functions from the candidates' coefficient expansions
+    (:mod:`bandsmith.solver.expansion`, built once per circuit) instead of solves: per set-up
+    ``(w_ref, h, family)``, or None where the coefficients cannot serve (the caller then solves).
+
+    The members of every candidate of one structure (the stages of a chain on one circuit) are
+    taken through their expansion in one batch (:meth:`~bandsmith.solver.expansion.Expansion.dense_log`
+    is row by row: each member's coefficients as alone)."""
+    out: list = [None] * len(setups)
+    by_expansion: dict[int, list[int]] = {}
+    for k, setup in enumerate(setups):
+        by_expansion.setdefault(id(setup.exp), []).append(k)
+    for ks in by_expansion.values():
+        first = setups[ks[0]]
+        if len(ks) == 1:
+            blocks = [first.exp.dense_log(first.log_ratios, absent=first.absent)]
+        else:
+            lr = np.concatenate([setups[k].log_ratios for k in ks])
+            absent = None if first.absent is None else np.concatenate([setups[k].absent for k in ks])
+            num, den = first.exp.dense_log(lr, absent=absent)
+            blocks, start = [], 0
+            for k in ks:
+                stop = start + setups[k].log_ratios.shape[0]
+                blocks.append((num[start:stop], den[start:stop]))
+                start = stop
+        for k, (num, den) in zip(ks, blocks):
+            out[k] = _expanded_rational(setups[k], num, den, w_ref)
+    return out
+
+
+def _expanded_rational(setup: _Expanded, num: np.ndarray, den: np.ndarray, w_ref: float | None):
+    """``(w_ref, h, family)`` of one candidate from its members' dense coefficients in the unit
+    expansion's ``p = s`` (highest power first), or None where they cannot serve."""
+    n_ideal = setup.n_ideal
     d0 = den[0]
     nz = np.flatnonzero(d0)
     if nz.size < 2 or not np.isfinite(den).all():
@@ -494,8 +538,8 @@ def _first_pass_expanded(netlist, refs, n_ideal, w_ref):
     num_p = num[:n_ideal] * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
     scale = np.abs(den_p).max(axis=1, keepdims=True)
     h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
-    if not one:
-        return float(w_ref), h, several_amp_family(netlist, float(w_ref))
+    if setup.absent is None:
+        return float(w_ref), h, several_amp_family(setup.netlist, float(w_ref))
     # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
     m_s = np.zeros(den.shape[1])
     m_s[1:] = (d0 - den[n_ideal])[:-1]
@@ -521,11 +565,15 @@ def _first_pass_many(
 ) -> list[_FirstPass]:
     """:func:`_first_pass` of several candidates, their figures measured together
     (:func:`bandsmith.analysis.figures.nominal_and_peaks_many`)."""
-    made = []
+    made, setups = [], []
     for netlist, own in zip(netlists, parts):
         values = dict(own if own is not None else netlist.values())
         refs = [r for r, v in values.items() if v > 0]
-        made.append((values, refs, _perturbed(netlist, values, refs, w_ref)))
+        made.append((netlist, values, refs))
+        setups.append(_expansion_setup(netlist, refs, 1 + 2 * len(refs)))
+    live = [k for k, setup in enumerate(setups) if setup is not None]
+    quick = dict(zip(live, _first_pass_expanded([setups[k] for k in live], w_ref))) if live else {}
+    made = [(values, refs, quick.get(k) or _perturbed(netlist, values, refs, w_ref)) for k, (netlist, values, refs) in enumerate(made)]
     measured = nominal_and_peaks_many([h for _, _, (_, h, _) in made])
     out = []
     for (values, refs, (w, h, family)), (nominal, peaks) in zip(made, measured):
@@ -539,11 +587,8 @@ def _first_pass_many(
 
 def _perturbed(netlist: Netlist, values: dict, refs: list[str], w_ref: float | None):
     """``(w_ref, h, family)``: the nominal circuit and its 2·P part perturbations for the ideal
-    op-amp (:func:`_first_pass_expanded`, else one batched solve)."""
+    op-amp by one batched solve (where :func:`_first_pass_expanded` does not serve)."""
     n_ideal = 1 + 2 * len(refs)
-    quick = _first_pass_expanded(netlist, refs, n_ideal, w_ref)
-    if quick is not None:
-        return quick
     up, down = math.exp(SENS_STEP), math.exp(-SENS_STEP)
     over = {}
     for j, r in enumerate(refs):

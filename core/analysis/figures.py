@@ -551,18 +551,27 @@ def measure_from(h: Rational, ref: Figures) -> Figures:
 # one sought, so the window only stops a member that wanders off.
 _FROM_SPREAD = 9.0
 _NEWTON_MOST = 40
+# _newton steps the members still live after a test on their own from this batch size on (where
+# they are at most a quarter of it): below it the steps cost little more than the gather
+_COMPACT_FROM = 256
 
 
-def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4, window: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4, window: np.ndarray | None = None,
+            most: int = _NEWTON_MOST) -> tuple[np.ndarray, np.ndarray]:
     """Newton's method on batched polynomials from ``x0`` (``(B,)`` or broadcastable): the roots
     and a mask of the members that converged (last step below 1e-5 relative, so that the error
     after it is of order 1e-10) within a factor ``k2`` of their start (of ``window``, the
     windows' centres, where it is given: then the start only sets how soon). A member is settled at the
     first test that finds it converged or outside that window, and stepped no more: what becomes
     of a member does not depend on the rest of the batch. Tests come after ``first`` steps and
-    then every other step (a test costs about a step), at most :data:`_NEWTON_MOST` steps; the
+    then every other step (a test costs about a step), at most ``most`` steps; the
     converged members then take one step more. Floating-point warnings are the caller's to
-    silence (:func:`measure_near` does)."""
+    silence (:func:`measure_near` does).
+
+    In a large batch most members settle by the first test (a GBW ladder's far members leave
+    the window, its near ones converge); the few still live are then stepped on their own, as
+    a batch of their own with the tests at the same steps (:data:`_COMPACT_FROM`): each
+    member's arithmetic is the same, element by element, so its result is too."""
     b, k = poly.shape
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
@@ -597,7 +606,7 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4, window: np.ndarr
         return v[:b] / v[b:]
 
     # (called under measure_near's errstate: a member that wanders off may overflow or divide by zero)
-    for n in range(1, _NEWTON_MOST + 1):
+    for n in range(1, most + 1):
         step = newton_step()
         if live is None:
             x -= step
@@ -613,6 +622,13 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4, window: np.ndarr
             if done.all():
                 break
             live = ~done
+            if b >= _COMPACT_FROM and n + 2 <= most:
+                rest = np.flatnonzero(live)
+                if 4 * rest.size <= b:  # the few still live stepped as a batch of their own
+                    settled = ok.copy()  # (their last step taken below)
+                    x[rest], ok[rest] = _newton(poly[rest], x[rest], k2, first=2, window=centre[rest], most=most - n)
+                    np.subtract(x, newton_step(), out=x, where=settled)
+                    return x, ok
     # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which
     # for a band edge is the bandwidth (x/Q); after this step it is rounding
     np.subtract(x, newton_step(), out=x, where=ok)

@@ -79,13 +79,13 @@ def search_gbw_many(
     ref = items[live[0][0]][1] if len(live) == 1 else Figures.repeated([one for _, _, one in live], sizes)
     fig = _near_figures(h, ref, tolerances)
     ok = within_tolerances(fig, ref, tolerances)  # every member against its own candidate's figures
-    start = 0
-    for (i, ladder, one), size in zip(live, sizes):
-        netlist, ideal, family, w_ref, probe = items[i]
+    starts = np.cumsum([0] + sizes[:-1]).tolist()
+    found = _conclude_many([(items[i], one, ladder, start) for (i, ladder, one), start in zip(live, starts)], fig, ok,
+                           a0=a0, tolerances=tolerances)
+    for (i, ladder, one), size, start, gbw in zip(live, sizes, starts, found):
+        probe = items[i][4]
         at_probe = None if probe is None else (h.item(start + ladder.size), fig.take(slice(start + ladder.size, start + size)))
-        found = _conclude_gbw(netlist, one, family, w_ref, ladder, fig, start, ok[start : start + ladder.size], a0=a0, tolerances=tolerances)
-        out[i] = (found, at_probe)
-        start += size
+        out[i] = (gbw, at_probe)
     return out
 
 
@@ -162,61 +162,80 @@ _BASIS = np.stack(
 _CROSSING_MARGIN = 0.005
 
 
-def _interpolated_crossing(fig: Figures, start: int, ref: Figures, tol: Tolerances, ladder: np.ndarray, j: int) -> float | None:
-    """The required GBW (Hz) inside the ladder step from ``j`` (failing) to ``j + 1`` (passing):
-    each figure's error is interpolated by the cubic through the ladder points ``j − 1 … j + 2``
-    (uniform in log GBW), and the last sub-step where the worst error exceeds its tolerance is
-    found; the result is :data:`_CROSSING_MARGIN` above it. None where the four points are not
-    all measured (a point too far off) or the interpolation disagrees with the measured pass and
-    fail at ``j`` and ``j + 1``: the caller then measures a fine ladder. The ladder's figures are
-    members ``start …`` of ``fig`` (the batch the ladders of several candidates are measured in,
-    not taken apart)."""
-    if j < 1 or j + 2 >= ladder.size:
-        return None
-    sl = slice(start + j - 1, start + j + 3)
-    # errors over tolerances at the four points, as plain numbers (a handful of them)
-    f0, q, db = (np.asarray(v)[sl].tolist() for v in (fig.f0_hz, fig.q, fig.gain_center_db))
-    err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0], [(v / ref.q - 1.0) / tol.q for v in q],
-           [(v - ref.gain_center_db) / tol.gain_db for v in db]]
-    if not all(math.isfinite(e) for row in err for e in row):
-        return None
-    sign = math.copysign(1.0, ref.gain_center)
-    if not all(math.copysign(1.0, g) == sign for g in np.asarray(fig.gain_center)[sl].tolist()):
-        return None
-    e = np.abs(_BASIS @ np.array(err).T)  # (T, 3): each figure's interpolated error over its tolerance
-    worst = np.maximum(np.maximum(e[:, 0], e[:, 1]), e[:, 2])  # (T,): the worst of the three, as max(axis=1)
-    if not (worst[0] > 1.0 and worst[-1] <= 1.0):
-        return None
-    k = int(np.flatnonzero(worst > 1.0)[-1]) + 1
-    step = math.log(ladder[j + 1] / ladder[j])
-    return float(ladder[j] * math.exp(_SUB[k] * step) * (1.0 + _CROSSING_MARGIN))
+def _crossings(fig: Figures, tol: Tolerances, cases: Sequence[tuple[Figures, np.ndarray, int, int]]) -> list[float | None]:
+    """The required GBW (Hz) of each case ``(ref, ladder, start, j)`` inside its ladder step from
+    ``j`` (failing) to ``j + 1`` (passing): each figure's error is interpolated by the cubic
+    through the ladder points ``j − 1 … j + 2`` (uniform in log GBW), and the last sub-step where
+    the worst error exceeds its tolerance is found; the result is :data:`_CROSSING_MARGIN` above
+    it. None where the four points are not all measured (a point too far off) or the
+    interpolation disagrees with the measured pass and fail at ``j`` and ``j + 1``: the caller
+    then measures a fine ladder. A case's ladder is members ``start …`` of ``fig`` (the batch the
+    ladders of several candidates are measured in, not taken apart); every case's cubics are
+    evaluated in one batch, the basis' four terms added in order (``_BASIS``' rows: the same
+    numbers for a case whatever the batch)."""
+    out: list[float | None] = [None] * len(cases)
+    inner = [n for n, (_, ladder, _, j) in enumerate(cases) if 1 <= j and j + 2 < ladder.size]
+    if not inner:
+        return out
+    at = np.array([cases[n][2] + cases[n][3] - 1 for n in inner])[:, None] + np.arange(4)  # (C, 4) members
+    refs = [cases[n][0] for n in inner]
+    ref_f0, ref_q, ref_db = (np.array([getattr(r, name) for r in refs])[:, None] for name in ("f0_hz", "q", "gain_center_db"))
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        # errors over tolerances at the four points: (C, 3, 4)
+        err = np.stack([(np.asarray(fig.f0_hz)[at] / ref_f0 - 1.0) / tol.f0, (np.asarray(fig.q)[at] / ref_q - 1.0) / tol.q,
+                        (np.asarray(fig.gain_center_db)[at] - ref_db) / tol.gain_db], axis=1)
+        usable = np.isfinite(err).all(axis=(1, 2))
+        usable &= (np.signbit(np.asarray(fig.gain_center)[at]) == np.signbit([r.gain_center for r in refs])[:, None]).all(axis=1)
+        e = _BASIS[:, 0, None, None] * err[None, :, :, 0]  # (T, C, 3)
+        for j in (1, 2, 3):
+            e += _BASIS[:, j, None, None] * err[None, :, :, j]
+        np.abs(e, out=e)
+        worst = np.maximum(np.maximum(e[:, :, 0], e[:, :, 1]), e[:, :, 2])  # (T, C): the worst of the three
+    over = worst > 1.0
+    usable &= over[0] & (worst[-1] <= 1.0)
+    last = (_SUB.size - np.argmax(over[::-1], axis=0)).tolist()  # the sub-step after the last one over
+    for n, ok, k in zip(inner, usable.tolist(), last):
+        if ok:
+            ladder, j = cases[n][1], cases[n][3]
+            step = math.log(ladder[j + 1] / ladder[j])
+            out[n] = float(ladder[j] * math.exp(_SUB[k] * step) * (1.0 + _CROSSING_MARGIN))
+    return out
 
 
-def _conclude_gbw(
-    netlist: Netlist, ref: Figures, family: OpAmpFamily | AmpFamily | None, w_ref: float, ladder: np.ndarray,
-    fig: Figures, start: int, ok: np.ndarray, *, a0: float, tolerances: Tolerances,
-) -> tuple[float | None, str | None]:
-    """The required GBW from a candidate's coarse ladder: its ideal figures ``ref`` (scalars), the
-    figures measured on the ``ladder`` (members ``start …`` of ``fig``) and ``ok``, where they are
+def _conclude_many(
+    cases: Sequence[tuple[tuple, Figures, np.ndarray, int]], fig: Figures, ok: np.ndarray, *, a0: float, tolerances: Tolerances,
+) -> list[tuple[float | None, str | None]]:
+    """The required GBW of each candidate from its coarse ladder, ``(item, ref, ladder, start)``:
+    its search item ``(netlist, ideal, family, w_ref, probe)``, its ideal figures ``ref``
+    (scalars) and its ladder, measured as members ``start …`` of ``fig``, ``ok`` where they are
     within tolerance."""
-    if not ok[-1]:
-        top = measure(with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
-        return None, (
-            f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {ladder[-1]:.3g} Hz "
-            f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
-            f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed"
-        )
-    fails = np.flatnonzero(~ok)
-    if fails.size == 0:
-        return float(ladder[0]), None
-    found = _interpolated_crossing(fig, start, ref, tolerances, ladder, int(fails[-1]))
-    if found is not None:
-        return found, None
-    fine = geometric(float(ladder[fails[-1]]), float(ladder[fails[-1] + 1]), _FINE_POINTS)
-    ok = within_tolerances(_near_figures(with_gbw(netlist, family, w_ref, fine, a0), ref, tolerances), ref, tolerances)
-    fails = np.flatnonzero(~ok)
-    # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
-    return float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0]), None
+    out: list = [None] * len(cases)
+    crossing = []  # (case, ref, ladder, start, j): the last failing step, interpolated below
+    ok_list = ok.tolist()
+    for n, ((netlist, _, family, w_ref, _), ref, ladder, start) in enumerate(cases):
+        passed = ok_list[start : start + ladder.size]
+        if not passed[-1]:
+            top = measure(with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
+            out[n] = None, (
+                f"no gain-bandwidth is enough with an open-loop gain of {a0:g}: even at {ladder[-1]:.3g} Hz "
+                f"f0 is off by {100 * (top.f0_hz / ref.f0_hz - 1):+.3g} %, Q by {100 * (top.q / ref.q - 1):+.3g} % "
+                f"and the gain by {top.gain_center_db - ref.gain_center_db:+.3g} dB; a larger A0 is needed"
+            )
+        elif all(passed):
+            out[n] = float(ladder[0]), None
+        else:
+            crossing.append((n, ref, ladder, start, len(passed) - 1 - passed[::-1].index(False)))
+    found = _crossings(fig, tolerances, [c[1:] for c in crossing])
+    for (n, ref, ladder, _, j), gbw in zip(crossing, found):
+        if gbw is None:  # a fine ladder across the last failing step
+            netlist, _, family, w_ref, _ = cases[n][0]
+            fine = geometric(float(ladder[j]), float(ladder[j + 1]), _FINE_POINTS)
+            passes = within_tolerances(_near_figures(with_gbw(netlist, family, w_ref, fine, a0), ref, tolerances), ref, tolerances)
+            fails = np.flatnonzero(~passes)
+            # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
+            gbw = float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0])
+        out[n] = gbw, None
+    return out
 
 
 def required_gbw(
