@@ -21,7 +21,7 @@ from numpy.testing import assert_allclose, assert_array_equal
 
 from bandsmith.analysis.figures import exact_in_closed_form
 from bandsmith.files.exports import write_csv
-from bandsmith.circuits import get_topology
+from bandsmith.circuits import get_topology, topology_ids
 from bandsmith.solver.mna import IDEAL, OpAmpModel
 from bandsmith.spread.evaluator import draws, evaluator_columns, prepare_spread
 from bandsmith.spread.spread_settings import SpreadSettings
@@ -628,3 +628,34 @@ def test_sampling_circle_in_plain_numbers_is_numpys():
         theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
         assert_array_equal(points, np.exp(1j * theta))
         assert_array_equal(undo, np.exp(-1j * np.arange(k) * _ANGLE_OFFSET))
+
+
+@pytest.mark.parametrize("circuit", topology_ids())
+def test_an_analysis_in_a_batch_is_the_analysis_alone_bit_for_bit(circuit):
+    """analyze_many groups candidates of one structure (a chain's stages on one circuit) and
+    measures every candidate's ladder in one batch; each candidate's transfer functions, ideal
+    figures and sensitivities are still those it gets alone, bit for bit (a result must not
+    depend on what else was analysed with it), and its figures with the op-amp and its required
+    GBW to 1e-12 (measured in a batch padded to the longest polynomial, whose squared magnitudes
+    are products that may round by their place). Common practice, no source: reproducible results."""
+    from bandsmith.analysis.analyzer import analyze, analyze_many
+
+    topo = get_topology(circuit)
+    rng = np.random.default_rng(5)
+    base = dict(topo.example)
+    if "RL" in base:
+        base["RL"] = 15.0
+    netlists = [topo.netlist({r: v * float(np.exp(rng.uniform(-0.3, 0.3))) for r, v in base.items()}) for _ in range(4)]
+    others = [get_topology(c).netlist(dict(get_topology(c).example)) for c in ("mfb", "dabp")]
+    opamp = OpAmpModel(3e6, 1e5)
+    together = analyze_many(netlists + others, opamp=opamp)
+    for netlist, got in zip(netlists, together):
+        alone = analyze(netlist, opamp=opamp)
+        for name in ("num", "den"):
+            assert_array_equal(getattr(got.h_ideal, name), getattr(alone.h_ideal, name))
+            assert_array_equal(getattr(got.h_actual, name), getattr(alone.h_actual, name))
+        for name in ("f0_hz", "q", "gain_center_db", "f_low_hz", "f_high_hz"):
+            assert_array_equal(getattr(got.ideal, name), getattr(alone.ideal, name))
+            assert_allclose(getattr(got.actual, name), getattr(alone.actual, name), rtol=1e-12)
+        assert got.sensitivity == alone.sensitivity
+        assert_allclose(got.required_gbw[0], alone.required_gbw[0], rtol=1e-12)

@@ -498,26 +498,25 @@ def _first_pass_expanded(setups: Sequence[_Expanded], w_ref: float | None) -> li
     (:mod:`bandsmith.solver.expansion`, built once per circuit) instead of solves: per set-up
     ``(w_ref, h, family)``, or None where the coefficients cannot serve (the caller then solves).
 
-    The members of every candidate of one structure (the stages of a chain on one circuit) are
-    taken through their expansion in one batch (:meth:`~bandsmith.solver.expansion.Expansion.dense_log`
-    is row by row: each member's coefficients as alone)."""
+    The candidates of one structure with as many members (the stages of a chain on one circuit)
+    are taken through their expansion in one batch, a stack of their members
+    (:meth:`~bandsmith.solver.expansion.Expansion.dense_log` of ``(G, members, n_var)``: its
+    products one per candidate, so each candidate's coefficients are those it has alone, bit for
+    bit; rows stacked into one matrix would not be: a BLAS product may round a row differently
+    by its place)."""
     out: list = [None] * len(setups)
-    by_expansion: dict[int, list[int]] = {}
+    groups: dict[tuple, list[int]] = {}
     for k, setup in enumerate(setups):
-        by_expansion.setdefault(id(setup.exp), []).append(k)
-    for ks in by_expansion.values():
+        groups.setdefault((id(setup.exp), setup.log_ratios.shape[0]), []).append(k)
+    for ks in groups.values():
         first = setups[ks[0]]
         if len(ks) == 1:
             blocks = [first.exp.dense_log(first.log_ratios, absent=first.absent)]
         else:
-            lr = np.concatenate([setups[k].log_ratios for k in ks])
-            absent = None if first.absent is None else np.concatenate([setups[k].absent for k in ks])
+            lr = np.stack([setups[k].log_ratios for k in ks])
+            absent = None if first.absent is None else np.stack([setups[k].absent for k in ks])
             num, den = first.exp.dense_log(lr, absent=absent)
-            blocks, start = [], 0
-            for k in ks:
-                stop = start + setups[k].log_ratios.shape[0]
-                blocks.append((num[start:stop], den[start:stop]))
-                start = stop
+            blocks = list(zip(num, den))
         for k, (num, den) in zip(ks, blocks):
             out[k] = _expanded_rational(setups[k], num, den, w_ref)
     return out

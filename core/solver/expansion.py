@@ -728,14 +728,16 @@ class Expansion:
 
     def dense_log(self, log_ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`dense` from the natural logs of the ratios (any batch size, the expansion's
-        ``w_ref``): ``exp(log ratios @ exponents)`` and one product per polynomial."""
+        ``w_ref``): ``exp(log ratios @ exponents)`` and one product per polynomial. A stack of
+        batches, ``(G, B, n_var)`` (and ``absent`` likewise), gives ``(G, B, k)``: each batch's
+        products taken as alone."""
         with np.errstate(invalid="ignore", over="ignore"):
             lr = log_ratios if absent is None else np.where(absent, self._absent_log, log_ratios)
             finite = np.isfinite(lr)
             mono = np.exp(lr @ self._exps_ratio)  # (B, M); an absent stamp gives exactly 0
             num, den = mono @ self._num_dense, mono @ self._den_dense
         if not finite.all():  # (the rows looked at only then: a reduction along rows of a few costs)
-            bad = ~finite.all(axis=1)
+            bad = ~finite.all(axis=-1)
             num[bad] = np.nan
             den[bad] = np.nan
         return num, den
