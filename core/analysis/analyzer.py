@@ -29,7 +29,7 @@ from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure_from, nominal_and_peaks_many
 from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
 from bandsmith.analysis.tolerances import Tolerances, within_tolerances
-from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_family, transfer_function
+from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_families, transfer_function
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
@@ -559,12 +559,14 @@ def _expanded_rationals(setups: Sequence[_Expanded], num: np.ndarray, den: np.nd
         m_s[:, 1:] = (den[:, 0] - den[:, n_ideal])[:, :-1]
         s0 = scale[:, 0]  # (G, 1)
         fam_num, fam_den, fam_m = num_p[:, 0] / s0, den_p[:, 0] / s0, m_s * to_p / s0
+    else:
+        families = several_amp_families([setups[c].netlist for c in live], ws)
     for n, (c, wc) in enumerate(zip(live, ws)):
         h = Rational(_lead_trim(num_s[n]), _lead_trim(den_s[n]), np.full(n_ideal, float(wc)))
         if single:
             family = OpAmpFamily(_lead_trim(fam_num[n : n + 1])[0], _lead_trim(fam_den[n : n + 1])[0], _lead_trim(fam_m[n : n + 1])[0], float(wc))
         else:
-            family = several_amp_family(setups[c].netlist, float(wc))
+            family = families[n]
         out[c] = (float(wc), h, family)
     return out
 
