@@ -157,6 +157,7 @@ _BASIS = np.stack(
     ],
     axis=1,
 )
+_BASIS_ROWS = np.ascontiguousarray(_BASIS.T)  # (4, T): each basis polynomial over the sub-steps
 # The reported GBW lies this fraction above the interpolated crossing (the interpolation error
 # of a cubic over a ladder step is below 0.1 % in GBW for these smooth errors).
 _CROSSING_MARGIN = 0.005
@@ -170,31 +171,38 @@ def _crossings(fig: Figures, tol: Tolerances, cases: Sequence[tuple[Figures, np.
     it. None where the four points are not all measured (a point too far off) or the
     interpolation disagrees with the measured pass and fail at ``j`` and ``j + 1``: the caller
     then measures a fine ladder. A case's ladder is members ``start …`` of ``fig`` (the batch the
-    ladders of several candidates are measured in, not taken apart); every case's cubics are
-    evaluated in one batch, the basis' four terms added in order (``_BASIS``' rows: the same
-    numbers for a case whatever the batch)."""
+    ladders of several candidates are measured in, not taken apart); the errors at its four
+    points are plain numbers, and every case's cubics are evaluated in one batch, the basis' four
+    terms added in order (the same numbers for a case whatever the batch)."""
     out: list[float | None] = [None] * len(cases)
-    inner = [n for n, (_, ladder, _, j) in enumerate(cases) if 1 <= j and j + 2 < ladder.size]
+    f0s, qs, dbs, gains = (np.asarray(v) for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
+    inner, errs = [], []
+    for n, (ref, ladder, start, j) in enumerate(cases):
+        if j < 1 or j + 2 >= ladder.size:
+            continue
+        sl = slice(start + j - 1, start + j + 3)
+        # errors over tolerances at the four points, as plain numbers (a handful of them)
+        err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0s[sl].tolist()], [(v / ref.q - 1.0) / tol.q for v in qs[sl].tolist()],
+               [(v - ref.gain_center_db) / tol.gain_db for v in dbs[sl].tolist()]]
+        if not all(math.isfinite(e) for row in err for e in row):
+            continue
+        sign = math.copysign(1.0, ref.gain_center)
+        if not all(math.copysign(1.0, g) == sign for g in gains[sl].tolist()):
+            continue
+        inner.append(n)
+        errs.append(err)
     if not inner:
         return out
-    at = np.array([cases[n][2] + cases[n][3] - 1 for n in inner])[:, None] + np.arange(4)  # (C, 4) members
-    refs = [cases[n][0] for n in inner]
-    ref_f0, ref_q, ref_db = (np.array([getattr(r, name) for r in refs])[:, None] for name in ("f0_hz", "q", "gain_center_db"))
-    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        # errors over tolerances at the four points: (C, 3, 4)
-        err = np.stack([(np.asarray(fig.f0_hz)[at] / ref_f0 - 1.0) / tol.f0, (np.asarray(fig.q)[at] / ref_q - 1.0) / tol.q,
-                        (np.asarray(fig.gain_center_db)[at] - ref_db) / tol.gain_db], axis=1)
-        usable = np.isfinite(err).all(axis=(1, 2))
-        usable &= (np.signbit(np.asarray(fig.gain_center)[at]) == np.signbit([r.gain_center for r in refs])[:, None]).all(axis=1)
-        e = _BASIS[:, 0, None, None] * err[None, :, :, 0]  # (T, C, 3)
-        for j in (1, 2, 3):
-            e += _BASIS[:, j, None, None] * err[None, :, :, j]
-        np.abs(e, out=e)
-        worst = np.maximum(np.maximum(e[:, :, 0], e[:, :, 1]), e[:, :, 2])  # (T, C): the worst of the three
+    err = np.array(errs)  # (C, 3, 4)
+    e = err[:, :, 0, None] * _BASIS_ROWS[0]  # (C, 3, T)
+    for j in (1, 2, 3):
+        e += err[:, :, j, None] * _BASIS_ROWS[j]
+    np.abs(e, out=e)
+    worst = np.maximum(np.maximum(e[:, 0], e[:, 1]), e[:, 2])  # (C, T): the worst of the three
     over = worst > 1.0
-    usable &= over[0] & (worst[-1] <= 1.0)
-    last = (_SUB.size - np.argmax(over[::-1], axis=0)).tolist()  # the sub-step after the last one over
-    for n, ok, k in zip(inner, usable.tolist(), last):
+    usable = (over[:, 0] & (worst[:, -1] <= 1.0)).tolist()
+    last = (_SUB.size - np.argmax(over[:, ::-1], axis=1)).tolist()  # the sub-step after the last one over
+    for n, ok, k in zip(inner, usable, last):
         if ok:
             ladder, j = cases[n][1], cases[n][3]
             step = math.log(ladder[j + 1] / ladder[j])
