@@ -29,7 +29,7 @@ from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure_from, nominal_and_peaks_many
 from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
 from bandsmith.analysis.tolerances import Tolerances, within_tolerances
-from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_families, transfer_function
+from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_family, transfer_function
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
@@ -511,64 +511,43 @@ def _first_pass_expanded(setups: Sequence[_Expanded], w_ref: float | None) -> li
     for ks in groups.values():
         first = setups[ks[0]]
         if len(ks) == 1:
-            num, den = first.exp.dense_log(first.log_ratios, absent=first.absent)
-            num, den = num[None], den[None]
+            blocks = [first.exp.dense_log(first.log_ratios, absent=first.absent)]
         else:
             lr = np.stack([setups[k].log_ratios for k in ks])
             absent = None if first.absent is None else np.stack([setups[k].absent for k in ks])
             num, den = first.exp.dense_log(lr, absent=absent)
-        for k, made in zip(ks, _expanded_rationals([setups[k] for k in ks], num, den, w_ref)):
-            out[k] = made
+            blocks = list(zip(num, den))
+        for k, (num, den) in zip(ks, blocks):
+            out[k] = _expanded_rational(setups[k], num, den, w_ref)
     return out
 
 
-def _expanded_rationals(setups: Sequence[_Expanded], num: np.ndarray, den: np.ndarray, w_ref: float | None) -> list:
-    """``(w_ref, h, family)`` of each of several candidates of one structure with as many members,
-    from their members' dense coefficients ``(G, members, k)`` in the unit expansion's ``p = s``
-    (highest power first); None for a candidate whose coefficients cannot serve.
-
-    ``w_ref`` (by default each candidate's geometric mean of its finite, nonzero poles,
-    :func:`bandsmith.solver.rational.reference_w`, from its nominal denominator's outer nonzero
-    coefficients) takes the coefficients to ``p = s/w_ref`` (``c·s^k = c·w_ref^k·p^k``); each
-    member is scaled by its denominator's largest coefficient. Element by element, so every
-    candidate's numbers are those it has alone."""
-    out: list = [None] * len(setups)
-    finite = np.isfinite(den).all(axis=(1, 2)).tolist()
-    live, ws = [], []
-    for c, d0 in enumerate(den[:, 0].tolist()):
-        nz = [i for i, v in enumerate(d0) if v != 0]
-        if len(nz) < 2 or not finite[c]:
-            continue
-        live.append(c)
-        ws.append(w_ref if w_ref is not None else float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0]))))
-    if not live:
-        return out
-    if len(live) < len(setups):
-        num, den = num[live], den[live]
-    n_ideal = setups[live[0]].n_ideal
-    w = np.array(ws)[:, None]
-    to_p = w ** np.arange(den.shape[2] - 1, -1, -1.0)  # (G, k)
-    den_p = den[:, :n_ideal] * to_p[:, None, :]
-    num_p = num[:, :n_ideal] * (w ** np.arange(num.shape[2] - 1, -1, -1.0))[:, None, :]
-    scale = np.abs(den_p).max(axis=2, keepdims=True)
-    num_s, den_s = num_p / scale, den_p / scale
-    single = setups[live[0]].absent is not None
-    if single:
-        # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
-        m_s = np.zeros((len(live), den.shape[2]))
-        m_s[:, 1:] = (den[:, 0] - den[:, n_ideal])[:, :-1]
-        s0 = scale[:, 0]  # (G, 1)
-        fam_num, fam_den, fam_m = num_p[:, 0] / s0, den_p[:, 0] / s0, m_s * to_p / s0
-    else:
-        families = several_amp_families([setups[c].netlist for c in live], ws)
-    for n, (c, wc) in enumerate(zip(live, ws)):
-        h = Rational(_lead_trim(num_s[n]), _lead_trim(den_s[n]), np.full(n_ideal, float(wc)))
-        if single:
-            family = OpAmpFamily(_lead_trim(fam_num[n : n + 1])[0], _lead_trim(fam_den[n : n + 1])[0], _lead_trim(fam_m[n : n + 1])[0], float(wc))
-        else:
-            family = families[n]
-        out[c] = (float(wc), h, family)
-    return out
+def _expanded_rational(setup: _Expanded, num: np.ndarray, den: np.ndarray, w_ref: float | None):
+    """``(w_ref, h, family)`` of one candidate from its members' dense coefficients in the unit
+    expansion's ``p = s`` (highest power first), or None where they cannot serve."""
+    n_ideal = setup.n_ideal
+    d0 = den[0]
+    nz = np.flatnonzero(d0)
+    if nz.size < 2 or not np.isfinite(den).all():
+        return None
+    if w_ref is None:  # geometric mean of the finite, nonzero poles (bandsmith.solver.rational.reference_w)
+        w_ref = float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0])))
+    to_p = w_ref ** np.arange(den.shape[1] - 1, -1, -1.0)  # c·s^k = c·w_ref^k·p^k
+    den_p = den[:n_ideal] * to_p
+    num_p = num[:n_ideal] * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
+    scale = np.abs(den_p).max(axis=1, keepdims=True)
+    h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
+    if setup.absent is None:
+        return float(w_ref), h, several_amp_family(setup.netlist, float(w_ref))
+    # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
+    m_s = np.zeros(den.shape[1])
+    m_s[1:] = (d0 - den[n_ideal])[:-1]
+    s0 = scale[0, 0]
+    family = OpAmpFamily(
+        _lead_trim(num_p[:1] / s0)[0], _lead_trim(den_p[:1] / s0)[0], _lead_trim((m_s * to_p)[None, :] / s0)[0],
+        float(w_ref),
+    )
+    return float(w_ref), h, family
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import functools
-from typing import Mapping, Sequence
+from typing import Mapping
 
 import numpy as np
 
@@ -13,7 +13,7 @@ from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
 from bandsmith.solver.rational import AmpFamily, Rational, amp_family, nominal_w_ref, rational_from_system
 
-__all__ = ["ideal_figures", "nominal_system", "several_amp_family", "several_amp_families", "transfer_function"]
+__all__ = ["ideal_figures", "nominal_system", "several_amp_family", "transfer_function"]
 
 
 @functools.lru_cache(maxsize=32)
@@ -68,39 +68,18 @@ def several_amp_family(netlist: Netlist, w_ref: float) -> AmpFamily | None:
     a second). Both agree with a direct solve to about 1e-12 (tests/test_expansion.py)."""
     if len(netlist.opamps) < 2:
         return None
-    return several_amp_families([netlist], [w_ref])[0]
-
-
-def several_amp_families(netlists: Sequence[Netlist], w_refs: Sequence[float]) -> list[AmpFamily]:
-    """:func:`several_amp_family` of several netlists with several op-amps each (``w_refs`` in
-    rad/s, one each): those of one structure from their expansion in one batch
-    (:meth:`~bandsmith.solver.expansion.Expansion.opamp_terms` of a stack, each member's products
-    as alone), element by element the numbers each has alone."""
-    out: list = [None] * len(netlists)
-    groups: dict[int, tuple] = {}
-    for k, netlist in enumerate(netlists):
-        try:
-            exp, own = unit_expansion_values(netlist, UNIT_OPAMP, fit=False)
-        except ExpansionUnavailable:
-            continue
-        groups.setdefault(id(exp), (exp, []))[1].append((k, exp.log_ratios_of(own)))
-    for exp, members in groups.values():
-        terms = exp.opamp_terms(np.stack([lr for _, lr in members]))
-        if terms is None:
-            continue
-        num, den = terms  # (G, m + 1, k) each: row j the term of x^j
-        # the unit expansion's s is p·w_ref: c·s^k = c·w_ref^k·p^k; scaled by D_0's largest coefficient
-        w = np.array([float(w_refs[k]) for k, _ in members])[:, None]
-        to_num, to_den = (w ** np.arange(t.shape[2] - 1, -1, -1.0) for t in (num, den))
-        scale = np.abs(den[:, 0] * to_den).max(axis=1)[:, None, None]
-        num = num * to_num[:, None, :] / scale
-        den = den * to_den[:, None, :] / scale
-        for n, (k, _) in enumerate(members):
-            out[k] = AmpFamily(tuple(num[n]), tuple(den[n]), float(w_refs[k]))
-    for k, netlist in enumerate(netlists):
-        if out[k] is None:
-            out[k] = amp_family(nominal_system(netlist), float(w_refs[k]))
-    return out
+    try:
+        exp, own = unit_expansion_values(netlist, UNIT_OPAMP, fit=False)
+    except ExpansionUnavailable:
+        exp = None
+    terms = None if exp is None else exp.opamp_terms(exp.log_ratios_of(own))
+    if terms is None:
+        return amp_family(nominal_system(netlist), w_ref)
+    num, den = terms  # (m + 1, k) each: row j the term of x^j
+    # the unit expansion's s is p·w_ref: c·s^k = c·w_ref^k·p^k; scaled by D_0's largest coefficient
+    to_num, to_den = (w_ref ** np.arange(t.shape[1] - 1, -1, -1.0) for t in (num, den))
+    scale = np.abs(den[0] * to_den).max()
+    return AmpFamily(tuple(num * to_num / scale), tuple(den * to_den / scale), w_ref)
 
 
 def ideal_figures(netlist: Netlist) -> Figures:
