@@ -268,7 +268,7 @@ def nominal_and_peaks_many(hs: Sequence[Rational]) -> list[tuple[Figures, np.nda
     ``|x + 0j|`` is ``|x|`` exactly), the band edges and the phase only for member 0; the rest
     each through :func:`measure`."""
     out: list = [None] * len(hs)
-    quick = [i for i, h in enumerate(hs) if _biquad_shaped(h)]
+    quick = [i for i, h in enumerate(hs) if _biquad_shaped(h)] if len(hs) > 1 else []
     if len(quick) > 1:  # (one alone is measured whole: the closed form over its members costs no more)
         h = Rational.joined([hs[i] for i in quick])
         num, den = h.num, h.den
