@@ -33,9 +33,9 @@ from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_a
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, lead_trimmed, node_rationals, rational_and_family, reference_w
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, lead_trimmed, node_coefficients, rational_and_family, reference_w
 from bandsmith.solver.stability import routh_stable
-from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes, step_response
+from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes_of, step_response
 
 __all__ = [
     "Tolerances",
@@ -321,12 +321,12 @@ def amplifier_needs(
     """Each amplifier's output swing, slew rates and output current (ideal op-amps).
 
     The exact transfer functions from the input to every op-amp's output node
-    (:func:`bandsmith.solver.rational.node_rationals`, one set of samples) give the step slew of
-    each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes`); the circuit solved at f0
+    (:func:`bandsmith.solver.rational.node_coefficients`, one set of samples) give the step slew of
+    each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes_of`); the circuit solved at f0
     in the same batch gives each output's voltage and current there (with a load, one solve of the
     loaded circuit at f0). ``vin_v`` is the input's peak (V); ``h_ideal``, where the caller has it,
     the circuit's transfer function with ideal op-amps, whose denominator then serves the samples
-    (:func:`~bandsmith.solver.rational.node_rationals`' ``den``).
+    (:func:`~bandsmith.solver.rational.node_coefficients`' ``den``).
     """
     if not math.isfinite(f0_hz):
         return tuple(AmplifierNeeds(e.ref, e.nodes[2], math.nan, math.nan, math.nan, math.nan) for e in netlist.opamps)
@@ -338,7 +338,7 @@ def amplifier_needs(
     nodes = [system.layout.node_index[e.nodes[2]] for e in amps]
     den = None if h_ideal is None else (h_ideal.den[0].tolist(), float(h_ideal.w_ref[0]))
     if rload_ohm is None:  # the outputs' voltages and currents at f0 solved with the same samples
-        at_nodes, x0 = node_rationals(system, nodes, w_ref, at=s0, den=den)
+        nums, den_c, x0 = node_coefficients(system, nodes, w_ref, at=s0, den=den)
         at_f0 = np.abs(x0[nodes + [system.layout.opamp_row[e.ref] for e in amps]]).tolist()
         volts, amperes = at_f0[: len(amps)], at_f0[len(amps) :]
     else:
@@ -346,8 +346,8 @@ def amplifier_needs(
         x, layout = solve_at(loaded, s0)
         volts = [abs(x[layout.node_index[e.nodes[2]]]) for e in amps]
         amperes = [abs(x[layout.opamp_row[e.ref]]) for e in amps]
-        at_nodes = node_rationals(system, nodes, w_ref, den=den)
-    slopes = max_step_slopes(at_nodes)  # one denominator: the poles and exponentials shared
+        nums, den_c, _ = node_coefficients(system, nodes, w_ref, den=den)
+    slopes = max_step_slopes_of(nums, den_c, w_ref)  # one denominator: the poles and exponentials shared
     out = []
     for e, v, i_out, slope in zip(amps, volts, amperes, slopes):
         v *= vin_v
