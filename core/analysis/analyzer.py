@@ -76,14 +76,13 @@ class AmplifierNeeds:
     iout_peak_a: float
 
     def to_json(self) -> dict:
-        f = finite_or_none
         return {
             "ref": self.ref,
             "node": self.node,
-            "vout_peak_v": f(self.vout_peak_v),
-            "slew_sine_v_per_us": f(to_v_per_us(self.slew_sine_v_per_s)),
-            "slew_step_v_per_us": f(to_v_per_us(self.slew_step_v_per_s)),
-            "iout_peak_ma": f(to_ma(self.iout_peak_a)),
+            "vout_peak_v": finite_or_none(self.vout_peak_v),
+            "slew_sine_v_per_us": finite_or_none(to_v_per_us(self.slew_sine_v_per_s)),
+            "slew_step_v_per_us": finite_or_none(to_v_per_us(self.slew_step_v_per_s)),
+            "iout_peak_ma": finite_or_none(to_ma(self.iout_peak_a)),
         }
 
 
@@ -136,9 +135,9 @@ class Requirements:
             "a0": float(self.a0),
             "vin_v": float(self.vin_v),
             "vout_peak_v": f(self.vout_peak_v),
-            "slew_sine_v_per_us": f(self.slew_sine_v_per_us),
-            "slew_step_v_per_us": f(self.slew_step_v_per_us),
-            "iout_peak_ma": f(self.iout_peak_ma),
+            "slew_sine_v_per_us": f(to_v_per_us(self.slew_sine_v_per_s)),
+            "slew_step_v_per_us": f(to_v_per_us(self.slew_step_v_per_s)),
+            "iout_peak_ma": f(to_ma(self.iout_peak_a)),
             "gbw_rule_of_thumb_hz": f(self.gbw_rule_of_thumb_hz),
             "amplifiers": [a.to_json() for a in self.amplifiers],
         }
@@ -267,7 +266,7 @@ class Analysis:
             "actual": self.actual.to_json() if self.actual is not None else None,
             "opamp": self.opamp.to_json(),
             "requirements": self.requirements.to_json(),
-            "sensitivity": {k: {r: float(s) for r, s in v.items()} for k, v in self.sensitivity.items()},
+            "sensitivity": {k: dict(zip(v, map(float, v.values()))) for k, v in self.sensitivity.items()},
         }
 
 
