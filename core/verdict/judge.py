@@ -39,7 +39,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Callable, Mapping, NamedTuple
 
 from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.inductor import inductor_q_needed
@@ -153,15 +153,22 @@ def _ratio(x: float) -> str:
     return (f"{x:,.0f}".replace(",", " ") if x >= 1000 else f"{x:.3g}") + " : 1"
 
 
-def _figure_reasons(errors: Mapping[str, float], tol, suffix: str, with_what: str) -> list[Reason]:
-    """A reason for each figure error (``errors_of``'s keys) beyond the design tolerances ``tol``."""
-    named = {"f0_pct": ("f0_error", "f0"), "q_pct": ("q_error", "Q"), "gain_db": ("gain_error", "the centre gain")}
+_FIGURE_NAMES = {"f0_pct": ("f0_error", "f0"), "q_pct": ("q_error", "Q"), "gain_db": ("gain_error", "the centre gain")}
+
+
+def _figure_reasons(errors: Mapping[str, float], tol, suffix: str, with_what: Callable[[], str]) -> list[Reason]:
+    """A reason for each figure error (``errors_of``'s keys) beyond the design tolerances ``tol``;
+    ``with_what()`` gives the words for what the figures were found with (asked for only when a
+    figure misses)."""
     out = []
+    words = None
     for key, value, limit, unit in figure_misses(errors, tol):
-        code, name = named[key]
+        code, name = _FIGURE_NAMES[key]
+        if words is None:
+            words = with_what()
         out.append(Reason(
             code + suffix,
-            f"{with_what} {name} misses the target by {value:+.3g} {unit}, beyond the ±{limit:g} {unit} design tolerance",
+            f"{words} {name} misses the target by {value:+.3g} {unit}, beyond the ±{limit:g} {unit} design tolerance",
             value, limit, NOT_BUILDABLE,
         ))
     return out
@@ -184,17 +191,40 @@ def _spread_reasons(spread: Mapping[str, float | None], limits: VerdictLimits) -
 def _range_reasons(topo: Topology, chosen: Mapping[str, float], limits: VerdictLimits) -> list[Reason]:
     bounds = {"R": (limits.r_min_ohm, limits.r_max_ohm), "C": (limits.c_min_f, limits.c_max_f), "L": (limits.l_min_h, limits.l_max_h)}
     out = []
-    for comp in topo.components:
-        if not comp.required or comp.kind not in bounds:
-            continue
-        v = chosen.get(comp.ref, 0.0)
-        lo, hi = bounds[comp.kind]
-        unit = PART_UNITS[comp.kind]
+    for ref, kind in _parts_of(topo).ranged:
+        v = chosen.get(ref, 0.0)
+        lo, hi = bounds[kind]
         if v < lo:
-            out.append(Reason("part_small", f"{comp.ref} = {format_value(v, unit)} is below {format_value(lo, unit)}: {_SMALL_WHY[comp.kind]}", v, lo, MARGINAL))
+            unit = PART_UNITS[kind]
+            out.append(Reason("part_small", f"{ref} = {format_value(v, unit)} is below {format_value(lo, unit)}: {_SMALL_WHY[kind]}", v, lo, MARGINAL))
         elif v > hi:
-            out.append(Reason("part_large", f"{comp.ref} = {format_value(v, unit)} is above {format_value(hi, unit)}: {_LARGE_WHY[comp.kind]}", v, hi, MARGINAL))
+            unit = PART_UNITS[kind]
+            out.append(Reason("part_large", f"{ref} = {format_value(v, unit)} is above {format_value(hi, unit)}: {_LARGE_WHY[kind]}", v, hi, MARGINAL))
     return out
+
+
+class _Parts(NamedTuple):
+    """What judge reads of a circuit's parts list (the same for any part values)."""
+
+    kinds: dict[str, str]  # reference -> kind, every part
+    kind_set: frozenset[str]  # the kinds among them
+    ranged: tuple[tuple[str, str], ...]  # (reference, kind) of the required R, C and L, in order
+    count: int  # part_count
+    inductor: bool  # needs_inductor
+
+
+# Worked out once per topology object, keyed by its id (a topology holds a dict, so it is not
+# hashable); the entry holds the topology itself, so no other object can take its id while it lives.
+_PARTS: dict[int, tuple[Topology, _Parts]] = {}
+
+
+def _parts_of(topo: Topology) -> _Parts:
+    known = _PARTS.get(id(topo))
+    if known is None:
+        kinds = {c.ref: c.kind for c in topo.components}
+        ranged = tuple((c.ref, c.kind) for c in topo.components if c.required and c.kind in _KIND_WORDS)
+        known = _PARTS[id(topo)] = (topo, _Parts(kinds, frozenset(kinds.values()), ranged, part_count(topo), needs_inductor(topo)))
+    return known[1]
 
 
 def _gbw_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
@@ -256,7 +286,7 @@ def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits
     return est, mc, est.fraction if mc is None else mc
 
 
-def _yield_reason(est: YieldEstimate, mc: float | None, y: float, limits: VerdictLimits, kinds: set[str]) -> Reason | None:
+def _yield_reason(est: YieldEstimate, mc: float | None, y: float, limits: VerdictLimits, kinds: frozenset[str]) -> Reason | None:
     if y >= limits.yield_marginal:
         return None
     hard = y < limits.yield_min
@@ -300,10 +330,10 @@ def _settled_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason
     the resistor and capacitor spread, the parts' range and the required GBW (what
     :func:`least_verdict` bounds the verdict with)."""
     a, topo, tol = result.analysis, result.topology, result.conditions.tolerances
-    reasons = _figure_reasons(result.errors, tol, "", f"with {result.series} parts and an ideal op-amp,")
+    reasons = _figure_reasons(result.errors, tol, "", lambda: f"with {result.series} parts and an ideal op-amp,")
     if a.actual is not None:
         reasons += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
-                                   f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
+                                   lambda: f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
     reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
     reasons += _range_reasons(topo, result.chosen, limits)
     reasons += _gbw_reasons(result, limits)
@@ -328,7 +358,8 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     """
     topo = result.topology
     cid = candidate or result.topology_id
-    count, inductor = part_count(topo), needs_inductor(topo)
+    parts = _parts_of(topo)
+    count, inductor = parts.count, parts.inductor
     if not result.feasible or result.analysis is None:
         reason = Reason("infeasible", result.reason or "the circuit cannot meet this target", None, None, NOT_BUILDABLE)
         return Verdict(cid, NOT_BUILDABLE, (reason,), None, None, None, None, count, inductor, result.conditions.gbw_hz)
@@ -342,9 +373,8 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     if r is not None:
         reasons.append(r)
     so_far = max((r.weight for r in reasons), key=VERDICTS.index, default=BUILDABLE)
-    kinds = {c.ref: c.kind for c in topo.components}
-    est, mc, y = _yield(result, kinds, limits, so_far)
-    r = _yield_reason(est, mc, y, limits, set(kinds.values()))
+    est, mc, y = _yield(result, parts.kinds, limits, so_far)
+    r = _yield_reason(est, mc, y, limits, parts.kind_set)
     if r is not None:
         reasons.append(r)
     ordered = _order(reasons)
