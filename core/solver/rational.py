@@ -483,18 +483,25 @@ def _trim_rows(rows: list[list[float]]) -> list[list[float]]:
     coefficients, where a dozen array operations cost more than the arithmetic): each row's
     entries at or below ``_SNAP`` times its largest magnitude set to zero, then the leading
     columns whose entries are all at or below ``_TRIM`` times their row's largest dropped (the
-    last column kept). The same comparisons on the same floats, so the same result; a row with
-    a non-finite entry goes to :func:`_trim` itself (its NaN rules are numpy's)."""
+    last column kept). The same comparisons on the same floats, so the same result; rows whose
+    sum is not finite (any NaN or infinity makes it so; a finite sum that overflows only sends
+    them the same way) go to :func:`_trim` itself (its NaN rules are numpy's)."""
     if not rows:
         return []
-    if not all(all(map(math.isfinite, r)) for r in rows):  # (Python's max need not carry a NaN)
+    if not math.isfinite(sum(map(sum, rows))):  # (Python's max need not carry a NaN)
         return _trim(np.array(rows)).tolist()
-    scales = [max(map(abs, r)) or 1.0 for r in rows]
-    rows = [[0.0 if abs(v) <= _SNAP * m else v for v in r] for r, m in zip(rows, scales)]
-    # the first column where any row is above its floor: the least of each row's first such column
-    last = len(rows[0]) - 1
-    first = min(next((j for j, v in enumerate(r) if abs(v) > _TRIM * m), last) for r, m in zip(rows, scales))
-    return [r[first:] for r in rows]
+    out = []
+    first = len(rows[0]) - 1  # the least, over the rows, of each one's first column above its floor
+    for r in rows:
+        m = max(map(abs, r)) or 1.0
+        snap, floor = _SNAP * m, _TRIM * m
+        r = [0.0 if abs(v) <= snap else v for v in r]
+        for j in range(first):
+            if abs(r[j]) > floor:
+                first = j
+                break
+        out.append(r)
+    return [r[first:] for r in out] if first else out
 
 
 def _finite_amps(system: MnaSystem) -> bool:
