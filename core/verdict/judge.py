@@ -172,14 +172,21 @@ _FIGURE_NAMES = {"f0_pct": ("f0_error", "f0"), "q_pct": ("q_error", "Q"), "gain_
 
 def _figure_reasons(errors: Mapping[str, float], tol, suffix: str, with_what: Callable[[], str]) -> list[_Crossed]:
     """Each figure error (``errors_of``'s keys) beyond the design tolerances ``tol``; ``with_what()``
-    gives the words for what the figures were found with."""
+    gives the words for what the figures were found with (written once for all of them)."""
     out = []
+    said: list[str] = []
+
+    def what() -> str:
+        if not said:
+            said.append(with_what())
+        return said[0]
+
     for key, value, limit, unit in figure_misses(errors, tol):
         code, name = _FIGURE_NAMES[key]
         out.append(_Crossed(
             code + suffix,
             lambda name=name, value=value, limit=limit, unit=unit:
-                f"{with_what()} {name} misses the target by {value:+.3g} {unit}, beyond the ±{limit:g} {unit} design tolerance",
+                f"{what()} {name} misses the target by {value:+.3g} {unit}, beyond the ±{limit:g} {unit} design tolerance",
             value, limit, NOT_BUILDABLE,
         ))
     return out
