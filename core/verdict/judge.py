@@ -41,6 +41,7 @@ import math
 from dataclasses import dataclass
 from typing import Callable, Mapping, NamedTuple
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
@@ -93,10 +94,7 @@ class Reason:
     weight: str
 
     def to_json(self) -> dict:
-        def f(x):
-            return None if x is None or not math.isfinite(x) else float(x)
-
-        return {"code": self.code, "text": self.text, "value": f(self.value), "limit": f(self.limit), "weight": self.weight}
+        return {"code": self.code, "text": self.text, "value": finite_or_none(self.value), "limit": finite_or_none(self.limit), "weight": self.weight}
 
 
 @dataclass(frozen=True, slots=True)
