@@ -102,7 +102,7 @@ def test_row_sums_in_plain_numbers_are_numpys():
     from bandsmith.verdict.yield_estimate import _row_sum
 
     rng = np.random.default_rng(11)
-    for n in range(0, 201):
+    for n in range(201):
         rows = rng.standard_normal((3, n)) * 10.0 ** rng.uniform(-6, 6, (3, n))
         rows = rows * rows / 3.0
         assert [_row_sum(r) for r in rows.tolist()] == rows.sum(axis=1).tolist()
