@@ -366,3 +366,27 @@ def test_routh_stable_settles_only_what_the_roots_confirm():
             settled += 1
             assert got
     assert settled > 100
+
+
+def test_loaded_output_current_by_superposition_equals_the_joined_solve():
+    """opamp_output_current with a next stage as its load: where an op-amp drives the output the
+    load is superposed (an ideal op-amp's output is a voltage source, so the load draws its own
+    input current at the output's voltage and changes nothing else: Kirchhoff's laws, derived);
+    against one MNA solve of the two netlists joined (bandsmith.solver.mna.solve_at of
+    Netlist.driving), every pair of circuits, with and without a load resistor: the same peak
+    current to 1e-12."""
+    from bandsmith.analysis.analyzer import opamp_output_current
+    from bandsmith.circuits import all_topologies
+    from bandsmith.solver.mna import solve_at
+    from bandsmith.solver.netlist import Element
+
+    rng = np.random.default_rng(5)
+    nets = [t.build(t.values_from(dict(t.example))) for t in all_topologies()]
+    for a in nets:
+        for b in nets:
+            f = float(10 ** rng.uniform(2, 5))
+            for rload in (None, 2.2e3):
+                own = a if rload is None else a.with_element(Element("RLOAD", "R", (a.output, a.ground), rload))
+                x, layout = solve_at(own.driving(b), TWO_PI * f * 1j)
+                joined = max(abs(x[layout.opamp_row[e.ref]]) for e in a.opamps)
+                assert opamp_output_current(a, f, rload_ohm=rload, load=b) == pytest.approx(joined, rel=1e-12)

@@ -595,6 +595,34 @@ def test_family_shifted_terms_in_one_step_are_the_terms_written_one_by_one():
 
 
 @pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_step_slopes_from_node_coefficients_lists_equal_those_of_the_rational(circuit):
+    """The amplifier needs' list path (node_coefficients, max_step_slopes_of) against the arrays
+    (node_rationals, max_step_slopes, itself checked member by member above): the same
+    coefficients and slopes bit for bit, ideal op-amps (closed forms) and finite ones (the
+    shared modes), with and without the circuit's own denominator and a solve at f0."""
+    import math
+
+    from bandsmith.analysis.timeresponse import max_step_slopes, max_step_slopes_of
+    from bandsmith.design.candidate import Candidate, Conditions
+    from bandsmith.solver.mna import build_system
+    from bandsmith.solver.rational import node_coefficients, node_rationals
+
+    topo = get_topology(circuit)
+    an = Candidate(circuit, dict(topo.example)).analyze(Conditions())
+    w = 2 * math.pi * an.ideal.item().f0_hz
+    den = (an.h_ideal.den[0].tolist(), float(an.h_ideal.w_ref[0]))
+    for opamp, kw in ((IDEAL, {}), (IDEAL, {"den": den, "at": 1j * w}), (OpAmpModel(1e6), {}), (OpAmpModel(2e5), {"at": 2j * w})):
+        system = build_system(an.netlist, opamp)
+        nodes = [system.layout.node_index[e.nodes[2]] for e in an.netlist.opamps] + [system.output_index]
+        nums, den_c, x = node_coefficients(system, nodes, w, **kw)
+        h = node_rationals(system, nodes, w, **kw)
+        if "at" in kw:
+            h, xh = h
+            assert_array_equal(x, xh)
+        assert_array_equal(np.array(nums), h.num)
+        assert_array_equal(np.array([den_c] * len(nums)), h.den)
+        assert max_step_slopes_of(nums, den_c, w) == max_step_slopes(h)
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
 def test_node_rationals_from_the_known_denominator_equal_those_from_determinants(circuit):
     """node_rationals given the circuit's own denominator (from its analysis) instead of taking
     determinants of the pencil: the same transfer functions but for rounding (a common factor

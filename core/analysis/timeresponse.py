@@ -20,7 +20,7 @@ import numpy as np
 
 from bandsmith.solver.rational import Rational, in_s, lead_trimmed, polyval_one, s_powers
 
-__all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes"]
+__all__ = ["StepResponse", "step_response", "default_time_grid", "max_step_slope", "max_step_slopes", "max_step_slopes_of"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -280,11 +280,32 @@ def max_step_slopes(h: Rational) -> list[float]:
     as it finds, bit for bit). Members whose poles are too close for the modal form go through
     :func:`step_response` one by one.
     """
+    return _step_slopes(h.num.tolist(), h.den.tolist(), h.w_ref.tolist(), lambda: h)
+
+
+def max_step_slopes_of(nums: list[list[float]], den: list[float], w_ref: float) -> list[float]:
+    """:func:`max_step_slopes` of the members ``nums[i]/den`` (one denominator, coefficients in
+    ``p = s/w_ref``, highest power first, rows of one length: the lists of
+    :func:`bandsmith.solver.rational.node_coefficients`), the same numbers; the arrays of a
+    :class:`Rational` are formed only where a member has no closed form."""
+    m = len(nums)
+
+    def rational() -> Rational:
+        return Rational(np.array(nums).reshape(m, len(nums[0])), np.array([den] * m).reshape(m, len(den)), np.full(m, float(w_ref)))
+
+    return _step_slopes(nums, [den] * m, [float(w_ref)] * m, rational)
+
+
+def _step_slopes(num_rows: list[list[float]], den_rows: list[list[float]], ws: list[float], rational) -> list[float]:
+    """:func:`max_step_slopes` of the members given as rows of coefficients (each row list as long
+    as the others of its kind, as a :class:`Rational`'s arrays give them) and their ``w_ref``;
+    ``rational()`` gives them as a :class:`Rational`, asked for only by members that have no
+    closed form."""
     out: list[float | None] = []
     groups: dict[tuple, list[tuple[int, np.ndarray]]] = {}
-    width = max(h.num.shape[1], h.den.shape[1])
+    width = max(len(num_rows[0]), len(den_rows[0])) if num_rows else 0
     powers: dict[float, list[float]] = {}
-    for i, (num_row, den_row, w) in enumerate(zip(h.num.tolist(), h.den.tolist(), h.w_ref.tolist())):
+    for i, (num_row, den_row, w) in enumerate(zip(num_rows, den_rows, ws)):
         num, den = lead_trimmed(num_row), lead_trimmed(den_row)  # Rational.item's
         slope = _pure_bandpass_slope(num, den, w)
         if slope is None:
@@ -295,6 +316,7 @@ def max_step_slopes(h: Rational) -> list[float]:
             if slope is None:  # one group per denominator (as a member, in p and in s)
                 groups.setdefault((tuple(a), tuple(den), w), []).append((i, np.array(b)))
         out.append(slope)
+    h = rational() if groups else None
     for (key, _, _), members in groups.items():
         a = np.array(key)
         poles, _, t_all, modal = _setting(h, members[0][0], a, None)  # step_response's

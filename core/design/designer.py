@@ -470,13 +470,13 @@ def design_json(result: DesignResult) -> dict:
     a = result.analysis
     body = a.to_json() if a is not None else {"netlist": None, "ideal": None, "actual": None, "opamp": None, "requirements": None, "sensitivity": None}
     s = result.search
-    chosen = {k: float(v) for k, v in result.chosen.items()}
+    chosen = dict(zip(result.chosen, map(float, result.chosen.values())))
     return {
         "topology": result.topology_id,
         "spec": result.spec.to_json(),
         "feasible": result.feasible,
         "reason": result.reason,
-        "exact": {k: float(v) for k, v in result.exact.items()},
+        "exact": dict(zip(result.exact, map(float, result.exact.values()))),
         "chosen": chosen,
         "components": dict(chosen),
         "series": result.series,

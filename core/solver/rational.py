@@ -22,7 +22,7 @@ import numpy as np
 from bandsmith.solver.mna import MnaSystem, build_system
 from bandsmith.solver.polyroots import companion_roots
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows", "family_weights"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows", "family_weights"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -317,6 +317,12 @@ def _circle(k: int) -> tuple[np.ndarray, np.ndarray]:
     return points, undo
 
 
+@functools.lru_cache(maxsize=64)
+def _circle_points(k: int) -> tuple[complex, ...]:
+    """:func:`_circle`'s ``k`` points as Python complex numbers (the same values)."""
+    return tuple(_circle(k)[0].tolist())
+
+
 def _samples(system: MnaSystem, w: np.ndarray) -> tuple[int, np.ndarray]:
     k = _degree_bound(system) + 1
     return k, system.matrix(w[:, None] * _circle(k)[0][None, :])
@@ -382,7 +388,27 @@ def rational_and_family(system: MnaSystem, w_ref: float) -> tuple[Rational, OpAm
 
 def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | None = None, den: tuple | None = None):
     """Transfer functions from the input to several unknowns (node voltages, op-amp currents) of
-    member 0 of an ideal-op-amp system, from one set of samples: a batch of ``len(indices)``.
+    member 0 of an ideal-op-amp system, from one set of samples: a batch of ``len(indices)``, every
+    member with the one denominator (:func:`node_coefficients`' rows as a :class:`Rational` in
+    ``p = s/w_ref``).
+
+    With ``at`` (a complex frequency, rad/s) the result is ``(rational, x)``, ``x`` every unknown's
+    complex value at ``at``, ``(n,)``; ``den`` as :func:`node_coefficients` takes it.
+    """
+    nums, den_c, x = node_coefficients(system, indices, w_ref, at=at, den=den)
+    # the shapes given: no unknown asked for is a batch of none, a numerator column as _trim leaves it
+    m = len(nums)
+    num = np.array(nums).reshape(m, len(nums[0]) if m else 1)
+    h = Rational(num, np.array([den_c] * m).reshape(m, len(den_c)), np.full(m, float(w_ref)))
+    return h if at is None else (h, x)
+
+
+def node_coefficients(system: MnaSystem, indices, w_ref: float, *, at: complex | None = None, den: tuple | None = None):
+    """The transfer functions of :func:`node_rationals` as plain numbers: ``(nums, den_c, x)``,
+    each unknown's numerator and the one denominator in ``p = s/w_ref`` (highest power first,
+    lists of floats, all divided by the denominator's largest ``|coefficient|``), and ``x`` every
+    unknown's complex value at ``at`` (``(n,)``; None without ``at``). For a caller that reads
+    the coefficients one by one (the step slopes' closed forms) rather than as arrays.
 
     Member 0's pencil at the ``K`` points of :func:`_samples` (``K − 1`` its :func:`_degree_bound`),
     its determinant ``D`` and the unknowns ``x`` there; by Cramer's rule ``D·x_i`` is the numerator
@@ -391,12 +417,12 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     and those of the numerators each trimmed as :func:`_trim` trims (:func:`_trim_rows`) as alone.
     The steps of :func:`_samples` and :meth:`~bandsmith.solver.mna.MnaSystem.solve` are written
     out for the one member (the same arithmetic in fewer array operations; the pencil as the
-    outer product ``s ⊗ C`` plus ``G``, the same complex products and sums).
+    outer product ``s ⊗ C`` plus ``G``, the same complex products and sums; the points ``w_ref·e^{iθ_j}``
+    as Python's products, the same IEEE operations as numpy's).
 
-    With ``at`` (a complex frequency, rad/s) the pencil is solved there too, in the same batch,
-    and the result is ``(rational, x)``: every unknown's complex value at ``at``, ``(n,)`` (the
-    solution itself, not the polynomials evaluated; the same to rounding), so that values of
-    unknowns whose transfer functions are not wanted (the op-amps' currents) come along.
+    With ``at`` (a complex frequency, rad/s) the pencil is solved there too, in the same batch:
+    ``x`` is the solution itself, not the polynomials evaluated (the same to rounding), so that
+    values of unknowns whose transfer functions are not wanted (the op-amps' currents) come along.
 
     With ``den`` — ``(coefficients, w)``: member 0's denominator in ``p = s/w`` (rad/s), highest
     power first, any nonzero multiple of ``det(G + s·C)`` (the circuit's transfer function's own,
@@ -407,18 +433,18 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     g, c = system.G[0], system.C[0]
     k = int(np.count_nonzero(c.any(axis=1))) + 1  # _degree_bound of member 0, plus one
     idx = list(indices)
-    s = np.empty(k if at is None else k + 1, dtype=complex)
-    s[:k] = float(w_ref) * _circle(k)[0]
-    if at is not None:
-        s[k] = at
+    w_ref = float(w_ref)
+    points = [w_ref * z for z in _circle_points(k)]
+    s = np.array(points if at is None else points + [complex(at)])
     a = np.multiply.outer(s, c)  # (K, n, n), and the pencil at ``at`` after them
     a += g
     if den is None:
         den_v = np.linalg.det(a[:k])
     else:
         coefficients, w = den
-        den_v = np.array([polyval_one(coefficients, z / w) for z in s[:k].tolist()])
-    rhs = system.source_vector().astype(complex)[None, :, None]  # (1, n, 1): a matrix for every member
+        den_v = np.array([polyval_one(coefficients, z / w) for z in points])
+    rhs = np.zeros((1, system.layout.size, 1), dtype=complex)  # (1, n, 1): a matrix for every member
+    rhs[0, system.layout.source_row, 0] = 1.0
     x = np.linalg.solve(a, rhs)  # (K, n, 1), each matrix solved alone
     values = np.empty((1 + len(idx), k), dtype=complex)
     values[0] = den_v
@@ -426,14 +452,12 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     both = (values @ _interpolation_matrix(k)).real.tolist()
     den_c = _trim_rows(both[:1])[0]
     num_c = _trim_rows(both[1:])
-    # the largest |coefficient| (numpy's max where a NaN must carry through)
+    # the largest |coefficient| (numpy's max where a NaN must carry through); the divisions IEEE's
     scale = max(map(abs, den_c)) if all(map(math.isfinite, den_c)) else float(np.abs(np.array(den_c)).max())
-    # the divisions IEEE's in numpy or Python alike; every member has the one denominator (the
-    # shapes given: no unknown asked for is a batch of none, a numerator column as _trim leaves it)
-    m = len(idx)
-    num = np.array(num_c).reshape(m, len(num_c[0]) if m else 1) / scale
-    h = Rational(num, np.array([den_c] * m).reshape(m, len(den_c)) / scale, np.full(m, float(w_ref)))
-    return h if at is None else (h, x[k, :, 0])
+    x_at = None if at is None else x[k, :, 0]
+    if scale == 0:  # an all-zero denominator: IEEE quotients (inf, NaN), as numpy's division gives them
+        return (np.array(num_c) / scale).tolist(), (np.array(den_c) / scale).tolist(), x_at
+    return [[v / scale for v in r] for r in num_c], [v / scale for v in den_c], x_at
 
 
 @functools.lru_cache(maxsize=16)
@@ -459,18 +483,25 @@ def _trim_rows(rows: list[list[float]]) -> list[list[float]]:
     coefficients, where a dozen array operations cost more than the arithmetic): each row's
     entries at or below ``_SNAP`` times its largest magnitude set to zero, then the leading
     columns whose entries are all at or below ``_TRIM`` times their row's largest dropped (the
-    last column kept). The same comparisons on the same floats, so the same result; a row with
-    a non-finite entry goes to :func:`_trim` itself (its NaN rules are numpy's)."""
+    last column kept). The same comparisons on the same floats, so the same result; rows whose
+    sum is not finite (any NaN or infinity makes it so; a finite sum that overflows only sends
+    them the same way) go to :func:`_trim` itself (its NaN rules are numpy's)."""
     if not rows:
         return []
-    if not all(all(map(math.isfinite, r)) for r in rows):  # (Python's max need not carry a NaN)
+    if not math.isfinite(sum(map(sum, rows))):  # (Python's max need not carry a NaN)
         return _trim(np.array(rows)).tolist()
-    scales = [max(map(abs, r)) or 1.0 for r in rows]
-    rows = [[0.0 if abs(v) <= _SNAP * m else v for v in r] for r, m in zip(rows, scales)]
-    # the first column where any row is above its floor: the least of each row's first such column
-    last = len(rows[0]) - 1
-    first = min(next((j for j, v in enumerate(r) if abs(v) > _TRIM * m), last) for r, m in zip(rows, scales))
-    return [r[first:] for r in rows]
+    out = []
+    first = len(rows[0]) - 1  # the least, over the rows, of each one's first column above its floor
+    for r in rows:
+        m = max(map(abs, r)) or 1.0
+        snap, floor = _SNAP * m, _TRIM * m
+        r = [0.0 if abs(v) <= snap else v for v in r]
+        for j in range(first):
+            if abs(r[j]) > floor:
+                first = j
+                break
+        out.append(r)
+    return [r[first:] for r in out] if first else out
 
 
 def _finite_amps(system: MnaSystem) -> bool:

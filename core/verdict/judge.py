@@ -39,8 +39,9 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Callable, Mapping, NamedTuple
 
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
@@ -93,10 +94,7 @@ class Reason:
     weight: str
 
     def to_json(self) -> dict:
-        def f(x):
-            return None if x is None or not math.isfinite(x) else float(x)
-
-        return {"code": self.code, "text": self.text, "value": f(self.value), "limit": f(self.limit), "weight": self.weight}
+        return {"code": self.code, "text": self.text, "value": finite_or_none(self.value), "limit": finite_or_none(self.limit), "weight": self.weight}
 
 
 @dataclass(frozen=True, slots=True)
@@ -153,21 +151,46 @@ def _ratio(x: float) -> str:
     return (f"{x:,.0f}".replace(",", " ") if x >= 1000 else f"{x:.3g}") + " : 1"
 
 
-def _figure_reasons(errors: Mapping[str, float], tol, suffix: str, with_what: str) -> list[Reason]:
-    """A reason for each figure error (``errors_of``'s keys) beyond the design tolerances ``tol``."""
-    named = {"f0_pct": ("f0_error", "f0"), "q_pct": ("q_error", "Q"), "gain_db": ("gain_error", "the centre gain")}
+class _Crossed(NamedTuple):
+    """A limit crossed, its words still to be written (``words()``): :func:`least_verdict` reads
+    the weights alone, and judge writes each reason's words once."""
+
+    code: str
+    words: Callable[[], str]
+    value: float | None
+    limit: float | None
+    weight: str
+
+    def reason(self) -> Reason:
+        return Reason(self.code, self.words(), self.value, self.limit, self.weight)
+
+
+_FIGURE_NAMES = {"f0_pct": ("f0_error", "f0"), "q_pct": ("q_error", "Q"), "gain_db": ("gain_error", "the centre gain")}
+
+
+def _figure_reasons(errors: Mapping[str, float], tol, suffix: str, with_what: Callable[[], str]) -> list[_Crossed]:
+    """Each figure error (``errors_of``'s keys) beyond the design tolerances ``tol``; ``with_what()``
+    gives the words for what the figures were found with (written once for all of them)."""
     out = []
+    said: list[str] = []
+
+    def what() -> str:
+        if not said:
+            said.append(with_what())
+        return said[0]
+
     for key, value, limit, unit in figure_misses(errors, tol):
-        code, name = named[key]
-        out.append(Reason(
+        code, name = _FIGURE_NAMES[key]
+        out.append(_Crossed(
             code + suffix,
-            f"{with_what} {name} misses the target by {value:+.3g} {unit}, beyond the ±{limit:g} {unit} design tolerance",
+            lambda name=name, value=value, limit=limit, unit=unit:
+                f"{what()} {name} misses the target by {value:+.3g} {unit}, beyond the ±{limit:g} {unit} design tolerance",
             value, limit, NOT_BUILDABLE,
         ))
     return out
 
 
-def _spread_reasons(spread: Mapping[str, float | None], limits: VerdictLimits) -> list[Reason]:
+def _spread_reasons(spread: Mapping[str, float | None], limits: VerdictLimits) -> list[_Crossed]:
     out = []
     for key, word, marginal, hard in (("r", "resistor", limits.r_spread_marginal, limits.r_spread_max),
                                       ("c", "capacitor", limits.c_spread_marginal, limits.c_spread_max)):
@@ -175,45 +198,71 @@ def _spread_reasons(spread: Mapping[str, float | None], limits: VerdictLimits) -
         if s is None:
             continue
         if s > hard:
-            out.append(Reason(f"{key}_spread", f"{word} spread {_ratio(s)} is beyond {_ratio(hard)}: the parts cannot track or be bought from one range", s, hard, NOT_BUILDABLE))
+            out.append(_Crossed(f"{key}_spread", lambda word=word, s=s, hard=hard:
+                                f"{word} spread {_ratio(s)} is beyond {_ratio(hard)}: the parts cannot track or be bought from one range", s, hard, NOT_BUILDABLE))
         elif s > marginal:
-            out.append(Reason(f"{key}_spread", f"{word} spread {_ratio(s)} is above {_ratio(marginal)}: parts from far-apart ranges that drift apart", s, marginal, MARGINAL))
+            out.append(_Crossed(f"{key}_spread", lambda word=word, s=s, marginal=marginal:
+                                f"{word} spread {_ratio(s)} is above {_ratio(marginal)}: parts from far-apart ranges that drift apart", s, marginal, MARGINAL))
     return out
 
 
-def _range_reasons(topo: Topology, chosen: Mapping[str, float], limits: VerdictLimits) -> list[Reason]:
+def _range_reasons(topo: Topology, chosen: Mapping[str, float], limits: VerdictLimits) -> list[_Crossed]:
     bounds = {"R": (limits.r_min_ohm, limits.r_max_ohm), "C": (limits.c_min_f, limits.c_max_f), "L": (limits.l_min_h, limits.l_max_h)}
     out = []
-    for comp in topo.components:
-        if not comp.required or comp.kind not in bounds:
-            continue
-        v = chosen.get(comp.ref, 0.0)
-        lo, hi = bounds[comp.kind]
-        unit = PART_UNITS[comp.kind]
+    for ref, kind in _parts_of(topo).ranged:
+        v = chosen.get(ref, 0.0)
+        lo, hi = bounds[kind]
         if v < lo:
-            out.append(Reason("part_small", f"{comp.ref} = {format_value(v, unit)} is below {format_value(lo, unit)}: {_SMALL_WHY[comp.kind]}", v, lo, MARGINAL))
+            out.append(_Crossed("part_small", lambda ref=ref, kind=kind, v=v, lo=lo:
+                                f"{ref} = {format_value(v, PART_UNITS[kind])} is below {format_value(lo, PART_UNITS[kind])}: {_SMALL_WHY[kind]}", v, lo, MARGINAL))
         elif v > hi:
-            out.append(Reason("part_large", f"{comp.ref} = {format_value(v, unit)} is above {format_value(hi, unit)}: {_LARGE_WHY[comp.kind]}", v, hi, MARGINAL))
+            out.append(_Crossed("part_large", lambda ref=ref, kind=kind, v=v, hi=hi:
+                                f"{ref} = {format_value(v, PART_UNITS[kind])} is above {format_value(hi, PART_UNITS[kind])}: {_LARGE_WHY[kind]}", v, hi, MARGINAL))
     return out
 
 
-def _gbw_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
-    """The reasons of the required GBW: none serves, above ordinary op-amps or the ceiling, above
-    the session's op-amp. Read from the search the requirements carry (``analysis.required_gbw``,
-    the very ``requirements.gbw_hz`` and ``gbw_reason``), so the rest of the requirements is not
-    worked out for it."""
+class _Parts(NamedTuple):
+    """What judge reads of a circuit's parts list (the same for any part values)."""
+
+    kinds: dict[str, str]  # reference -> kind, every part
+    kind_set: frozenset[str]  # the kinds among them
+    ranged: tuple[tuple[str, str], ...]  # (reference, kind) of the required R, C and L, in order
+    count: int  # part_count
+    inductor: bool  # needs_inductor
+
+
+# Worked out once per topology object, keyed by its id (a topology holds a dict, so it is not
+# hashable); the entry holds the topology itself, so no other object can take its id while it lives.
+_PARTS: dict[int, tuple[Topology, _Parts]] = {}
+
+
+def _parts_of(topo: Topology) -> _Parts:
+    known = _PARTS.get(id(topo))
+    if known is None:
+        kinds = {c.ref: c.kind for c in topo.components}
+        ranged = tuple((c.ref, c.kind) for c in topo.components if c.required and c.kind in _KIND_WORDS)
+        known = _PARTS[id(topo)] = (topo, _Parts(kinds, frozenset(kinds.values()), ranged, part_count(topo), needs_inductor(topo)))
+    return known[1]
+
+
+def _gbw_reasons(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
+    """The required GBW: none serves, above ordinary op-amps or the ceiling, above the session's
+    op-amp. Read from the search the requirements carry (``analysis.required_gbw``, the very
+    ``requirements.gbw_hz`` and ``gbw_reason``), so the rest of the requirements is not worked
+    out for it."""
     gbw, why = result.analysis.required_gbw
     out = []
     if gbw is None or not math.isfinite(gbw):
-        out.append(Reason("gbw_none", f"no op-amp gain-bandwidth holds the figures within the tolerances: {why or 'the open-loop gain is too small'}", None, None, NOT_BUILDABLE))
+        out.append(_Crossed("gbw_none", lambda: f"no op-amp gain-bandwidth holds the figures within the tolerances: {why or 'the open-loop gain is too small'}", None, None, NOT_BUILDABLE))
         return out
-    if gbw > limits.gbw_max_hz:
-        out.append(Reason("gbw", f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, beyond the {format_value(limits.gbw_max_hz, 'Hz')} ceiling", gbw, limits.gbw_max_hz, NOT_BUILDABLE))
-    elif gbw > limits.gbw_ordinary_hz:
-        out.append(Reason("gbw", f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, above the {format_value(limits.gbw_ordinary_hz, 'Hz')} of ordinary op-amps: a fast part and a careful layout", gbw, limits.gbw_ordinary_hz, MARGINAL))
+    top, ordinary = limits.gbw_max_hz, limits.gbw_ordinary_hz
+    if gbw > top:
+        out.append(_Crossed("gbw", lambda: f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, beyond the {format_value(top, 'Hz')} ceiling", gbw, top, NOT_BUILDABLE))
+    elif gbw > ordinary:
+        out.append(_Crossed("gbw", lambda: f"needs an op-amp of {format_value(gbw, 'Hz')} gain-bandwidth, above the {format_value(ordinary, 'Hz')} of ordinary op-amps: a fast part and a careful layout", gbw, ordinary, MARGINAL))
     own = result.conditions.gbw_hz
     if own is not None and gbw > own:
-        out.append(Reason("gbw_opamp", f"needs {format_value(gbw, 'Hz')} gain-bandwidth; the session's op-amp has {format_value(own, 'Hz')}", gbw, own, NOT_BUILDABLE))
+        out.append(_Crossed("gbw_opamp", lambda: f"needs {format_value(gbw, 'Hz')} gain-bandwidth; the session's op-amp has {format_value(own, 'Hz')}", gbw, own, NOT_BUILDABLE))
     return out
 
 
@@ -256,7 +305,7 @@ def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits
     return est, mc, est.fraction if mc is None else mc
 
 
-def _yield_reason(est: YieldEstimate, mc: float | None, y: float, limits: VerdictLimits, kinds: set[str]) -> Reason | None:
+def _yield_reason(est: YieldEstimate, mc: float | None, y: float, limits: VerdictLimits, kinds: frozenset[str]) -> Reason | None:
     if y >= limits.yield_marginal:
         return None
     hard = y < limits.yield_min
@@ -294,20 +343,20 @@ def _order(reasons: list[Reason]) -> tuple[Reason, ...]:
     return tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
 
 
-def _settled_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
-    """The reasons of judge's checks on numbers a feasible design already has, in judge's order:
-    its figures against the design tolerances with the ideal op-amp and with the session's op-amp,
-    the resistor and capacitor spread, the parts' range and the required GBW (what
-    :func:`least_verdict` bounds the verdict with)."""
+def _settled_limits(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
+    """The limits crossed in judge's checks on numbers a feasible design already has, in judge's
+    order: its figures against the design tolerances with the ideal op-amp and with the session's
+    op-amp, the resistor and capacitor spread, the parts' range and the required GBW (what
+    :func:`least_verdict` bounds the verdict with); their words are written only when judge asks."""
     a, topo, tol = result.analysis, result.topology, result.conditions.tolerances
-    reasons = _figure_reasons(result.errors, tol, "", f"with {result.series} parts and an ideal op-amp,")
+    crossed = _figure_reasons(result.errors, tol, "", lambda: f"with {result.series} parts and an ideal op-amp,")
     if a.actual is not None:
-        reasons += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
-                                   f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
-    reasons += _spread_reasons(spread_of(topo, result.chosen), limits)
-    reasons += _range_reasons(topo, result.chosen, limits)
-    reasons += _gbw_reasons(result, limits)
-    return reasons
+        crossed += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
+                                   lambda: f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
+    crossed += _spread_reasons(spread_of(topo, result.chosen), limits)
+    crossed += _range_reasons(topo, result.chosen, limits)
+    crossed += _gbw_reasons(result, limits)
+    return crossed
 
 
 def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, candidate: str | None = None) -> Verdict:
@@ -328,7 +377,8 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     """
     topo = result.topology
     cid = candidate or result.topology_id
-    count, inductor = part_count(topo), needs_inductor(topo)
+    parts = _parts_of(topo)
+    count, inductor = parts.count, parts.inductor
     if not result.feasible or result.analysis is None:
         reason = Reason("infeasible", result.reason or "the circuit cannot meet this target", None, None, NOT_BUILDABLE)
         return Verdict(cid, NOT_BUILDABLE, (reason,), None, None, None, None, count, inductor, result.conditions.gbw_hz)
@@ -336,15 +386,14 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     reasons: list[Reason] = []
     if not a.stable_ideal or a.stable_actual is False:
         reasons.append(Reason("unstable", "; ".join(a.warnings) or "unstable", None, None, NOT_BUILDABLE))
-    reasons += _settled_reasons(result, limits)
+    reasons += [c.reason() for c in _settled_limits(result, limits)]
     reasons += _amp_reasons(result, limits)
     r = _inductor_reason(result, limits) if inductor else None
     if r is not None:
         reasons.append(r)
     so_far = max((r.weight for r in reasons), key=VERDICTS.index, default=BUILDABLE)
-    kinds = {c.ref: c.kind for c in topo.components}
-    est, mc, y = _yield(result, kinds, limits, so_far)
-    r = _yield_reason(est, mc, y, limits, set(kinds.values()))
+    est, mc, y = _yield(result, parts.kinds, limits, so_far)
+    r = _yield_reason(est, mc, y, limits, parts.kind_set)
     if r is not None:
         reasons.append(r)
     ordered = _order(reasons)
@@ -357,7 +406,7 @@ def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits())
     """The least verdict :func:`judge` can give a design, and the least number of its
     ``not buildable`` reasons, from the checks that need nothing more worked out.
 
-    The checks are judge's own (:func:`_settled_reasons`), on the same numbers: a figure (f0, Q,
+    The checks are judge's own (:func:`_settled_limits`), on the same numbers: a figure (f0, Q,
     gain) beyond its design tolerance with the ideal op-amp and with the session's op-amp, the
     resistor and capacitor spread, the parts' range and the required GBW against the ceiling,
     ordinary op-amps and the session's op-amp. Judge's other checks (stability, slew rate, output
@@ -376,7 +425,7 @@ def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits())
     """
     if not result.feasible or result.analysis is None:
         return NOT_BUILDABLE, 1  # judge gives exactly one reason: infeasible
-    weights = [r.weight for r in _settled_reasons(result, limits)]
+    weights = [r.weight for r in _settled_limits(result, limits)]
     heavy = weights.count(NOT_BUILDABLE)
     if heavy:
         return NOT_BUILDABLE, heavy

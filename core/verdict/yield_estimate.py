@@ -131,14 +131,37 @@ class YieldEstimate:
         }
 
 
-def _finite_or_zero(x: float) -> float:
-    return x if math.isfinite(x) else 0.0
-
-
 def part_tolerances_of(parts: Mapping[str, str], values: Mapping[str, float], limits: VerdictLimits) -> dict[str, float]:
     """The tolerance of every part with a value above zero (reference → fraction), ``parts`` mapping
     reference → kind."""
     return {ref: limits.tolerance_of(ref, kind) for ref, kind in parts.items() if values.get(ref, 0.0) > 0}
+
+
+_NONE: Mapping[str, float] = {}
+
+
+def _row_sum(values: list[float]) -> float:
+    """The sum of a few floats as numpy sums a row (``ndarray.sum`` of a contiguous row, its
+    pairwise summation: below eight terms one after the other from zero; from eight to 128, eight
+    running sums over the terms eight apart, joined as ``((r0 + r1) + (r2 + r3)) + ((r4 + r5) +
+    (r6 + r7))``, then the rest one after the other), so that the estimate's spreads are numpy's
+    own to the last bit; longer rows are left to numpy."""
+    n = len(values)
+    if n < 8:
+        total = 0.0
+        for v in values:
+            total += v
+        return total
+    if n > 128:
+        return float(np.sum(values))
+    r = values[:8]
+    stop = n - n % 8
+    for i in range(8, stop, 8):
+        r = [a + b for a, b in zip(r, values[i : i + 8])]
+    total = ((r[0] + r[1]) + (r[2] + r[3])) + ((r[4] + r[5]) + (r[6] + r[7]))
+    for v in values[stop:]:
+        total += v
+    return total
 
 
 def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: Mapping[str, float], limits: VerdictLimits = VerdictLimits()) -> YieldEstimate:
@@ -159,19 +182,22 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
     -------
     YieldEstimate
     """
-    refs = [r for r in tolerances if tolerances[r] > 0]
-    p = tuple(float(tolerances[r]) for r in refs)
-    rows = [sensitivity.get(k, {}) for k in FIGURES]
-    # the sensitivities (3, parts), a non-finite one taken as zero
-    s = np.array([[_finite_or_zero(float(row.get(r, 0.0))) for r in refs] for row in rows], dtype=float).reshape(len(FIGURES), len(refs))
-    contrib = (s * p) ** 2 / 3.0  # (3, parts): each part's share of each figure's log variance
-    totals = contrib.sum(axis=1)
-    sd = np.sqrt(totals).tolist()
+    refs = [r for r, t in tolerances.items() if t > 0]
+    p = [float(tolerances[r]) for r in refs]
+    n_parts = len(refs)
+    rows = [sensitivity.get(k, _NONE) for k in FIGURES]
+    # the sensitivities, row by row (f0, Q, gain), a non-finite one taken as zero
+    flat = [float(row.get(r, 0.0)) for row in rows for r in refs]
+    if not all(map(math.isfinite, flat)):
+        flat = [v if math.isfinite(v) else 0.0 for v in flat]
+    # each part's share of each figure's log variance, (S·p)²/3, and their sums (in plain numbers:
+    # numpy's square and division are the same IEEE operations; a row's sum as numpy sums a row)
+    contrib = [[(v * t) * (v * t) / 3.0 for v, t in zip(flat[i * n_parts : (i + 1) * n_parts], p)] for i in range(len(FIGURES))]
+    totals = [_row_sum(c) for c in contrib]
     lo, hi = _window(limits.window_f0, limits.window_q, limits.window_gain_db)
-    if refs:
-        x = s @ _log_deviations(p)  # (3, points): the figures' log deviations
-    else:
-        x = np.zeros((len(FIGURES), 1))
+    # the figures' log deviations at the fixed points, (3, points); all zero when nothing varies
+    s = np.array(flat).reshape(len(FIGURES), n_parts)
+    x = s @ _log_deviations(tuple(p)) if refs else np.zeros((len(FIGURES), 1))
     inside = x >= lo  # (3, points), all rows at once
     inside &= x <= hi
     every = inside[0] & inside[1]
@@ -180,21 +206,21 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
     fraction = np.count_nonzero(every) / n
     within = [np.count_nonzero(row) / n for row in inside]  # row by row: contiguous, quicker than axis=1
     k = min(range(len(FIGURES)), key=within.__getitem__) if refs else 0  # the first of the least, as argmin
-    total = float(totals[k])
+    total = totals[k]
     if refs and total > 0:
         # the first part (in the circuit's order) of the largest share: parts whose shares are the
         # same in theory (equal sensitivities and tolerances) differ only in rounding, which must not choose
-        shares = contrib[k].tolist()
+        shares = contrib[k]
         top = max(shares) * (1.0 - 1e-6)
         j = next(i for i, c in enumerate(shares) if c >= top)
         part, share = refs[j], shares[j] / total
     else:
         part, share = None, 0.0
-    sigma = {"f0": math.expm1(sd[0]), "q": math.expm1(sd[1]), "gain_db": sd[2] * _DB_PER_NEPER}
+    sd = [math.sqrt(t) for t in totals]
     return YieldEstimate(
         fraction=fraction,
-        sigma=sigma,
-        within={f: float(w) for f, w in zip(FIGURES, within)},
+        sigma={"f0": math.expm1(sd[0]), "q": math.expm1(sd[1]), "gain_db": sd[2] * _DB_PER_NEPER},
+        within=dict(zip(FIGURES, within)),
         figure=FIGURES[k],
         part=part,
         share=share,
