@@ -7,6 +7,8 @@
 - One BLAS thread: a thread count the user set in the environment is kept.
 - The MNA pencil from a structure's cached stamps (``mna.build_system``): bit for bit the pencil of
   adding every stamp of ``mna._stamps`` in turn, signed zeros included, batches of one and more.
+- ``Topology.values_from``'s one-comparison acceptance: the same values accepted and the same
+  parts refused as its rule written out check by check (our own contract, no source).
 """
 
 import csv
@@ -628,3 +630,60 @@ def test_sampling_circle_in_plain_numbers_is_numpys():
         theta = 2.0 * np.pi * np.arange(k) / k + _ANGLE_OFFSET
         assert_array_equal(points, np.exp(1j * theta))
         assert_array_equal(undo, np.exp(-1j * np.arange(k) * _ANGLE_OFFSET))
+
+
+def _values_from_by_the_rule(topo, given):
+    """Topology.values_from's contract written out check by check (our own rule, common practice,
+    no source): unknown parts and missing required ones refused; each value finite, a required
+    part above zero, an optional one zero or more, and above zero within the kind's range of
+    bandsmith.common.limits.PART_RANGES."""
+    from bandsmith.common.errors import InputError
+    from bandsmith.common.limits import PART_RANGES
+
+    for ref in given:
+        if ref not in topo.refs:
+            raise InputError(ref, "unknown")
+    out = {}
+    for c in topo.components:
+        if c.ref not in given:
+            if c.required:
+                raise InputError(c.ref, "missing")
+            out[c.ref] = float(c.default)
+            continue
+        v = float(given[c.ref])
+        lo, hi = PART_RANGES[c.kind]
+        if not np.isfinite(v) or (c.required and v <= 0) or v < 0 or (v > 0 and not lo <= v <= hi):
+            raise InputError(c.ref, "refused")
+        out[c.ref] = v
+    return out
+
+
+@pytest.mark.parametrize("circuit", ["rlc-tank", "sallen-key", "state-variable"])
+def test_values_from_accepts_and_refuses_by_the_rule(circuit):
+    from bandsmith.common.errors import InputError
+    from bandsmith.common.limits import PART_RANGES
+
+    topo = get_topology(circuit)
+    base = topo.values_from(topo.example)
+    for comp in topo.components:
+        lo, hi = PART_RANGES[comp.kind]
+        for v in (np.nan, np.inf, -np.inf, 0.0, -0.0, -1.0, 5e-324, lo, np.nextafter(lo, 0), hi, np.nextafter(hi, np.inf),
+                  1e300, 3.3e3, 4.7e-9, 1):
+            given = dict(base, **{comp.ref: v})
+            try:
+                want = _values_from_by_the_rule(topo, given)
+            except InputError as exc:
+                with pytest.raises(InputError) as got:
+                    topo.values_from(given)
+                assert got.value.field == exc.field
+                continue
+            got_values = topo.values_from(given)
+            assert got_values == want and all(type(x) is float for x in got_values.values())
+        if not comp.required:  # an optional part left out takes its default
+            given = {k: x for k, x in base.items() if k != comp.ref}
+            assert topo.values_from(given) == _values_from_by_the_rule(topo, given)
+        else:
+            with pytest.raises(InputError, match="missing"):
+                topo.values_from({k: x for k, x in base.items() if k != comp.ref})
+    with pytest.raises(InputError, match="has no part"):
+        topo.values_from(dict(base, X9=1.0))
