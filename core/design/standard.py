@@ -22,6 +22,7 @@ parts, not from the search.
 from __future__ import annotations
 
 import functools
+import itertools
 import math
 from dataclasses import dataclass
 from typing import Mapping, Sequence
@@ -151,7 +152,8 @@ def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tupl
     once per offered value (a few dozen) instead of once per combination and part; numpy's log
     maps each number alone, so a value has the same log wherever it sits in an array.
     Where the expansion does not apply, or the batch is past its small-batch products,
-    :func:`_combinations`.
+    :func:`_combinations`. Floating-point warnings are the caller's to silence (far-off
+    combinations may overflow, a log of zero is -inf: such combinations are simply not chosen).
     """
     index = _flat_combination_index(sizes)
     try:
@@ -162,14 +164,25 @@ def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tupl
         return _combinations(netlist, dict(zip(free, flat[index])), w_ref)
     # the logs of every value a combination can hold, in one array: the free parts' options and
     # nearest values over their unit values, then the other variables' own ratios
+    per_entry, held, gather = _log_plan(exp, tuple(free), sizes)
+    ratios = flat / per_entry
+    if held:
+        ratios = np.concatenate([ratios, [own[j] / unit for j, unit in held]])
+    return exp.rational_log(np.log(ratios)[gather], w_ref=w_ref)
+
+
+@functools.lru_cache(maxsize=64)
+def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.ndarray, tuple[tuple[int, float], ...], np.ndarray]:
+    """What :func:`_option_combinations` needs of an expansion ``exp`` (a kept unit expansion, one
+    per circuit structure) for these free parts and option counts, made once: each flat entry's
+    unit value (a part's options and nearest value over its variable's unit), the held variables
+    as ``(column, unit value)``, and :func:`_log_gather`'s positions. Read-only."""
     at = {r: k for k, r in enumerate(free)}
     units = [u.value for u in exp.variables]
-    held = [j for j, u in enumerate(exp.variables) if u.name not in at]
     per_entry = np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes])
-    ratios = np.concatenate([flat / per_entry, [own[j] / units[j] for j in held]])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        logs = np.log(ratios)
-    return exp.rational_log(logs[_log_gather(sizes, tuple(at.get(u.name, -1) for u in exp.variables))], w_ref=w_ref)
+    per_entry.setflags(write=False)
+    held = tuple((j, units[j]) for j, u in enumerate(exp.variables) if u.name not in at)
+    return per_entry, held, _log_gather(sizes, tuple(at.get(u.name, -1) for u in exp.variables))
 
 
 @functools.lru_cache(maxsize=64)
@@ -300,8 +313,11 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
     repeated over its members (the same operations, member by member, as each search alone)."""
     sizes = [m.h.batch for m in searches]
 
-    def each(value) -> np.ndarray:
-        return np.repeat([value(m) for m in searches], sizes)
+    def each(value) -> float | np.ndarray:
+        # one number where every search has the same (one target and tolerances: a compare, a
+        # chain's stage), broadcast over the members as its repetition would be, element by element
+        first, *rest = [value(m) for m in searches]
+        return first if all(v == first for v in rest) else np.repeat([first, *rest], sizes)
 
     weighted = _weighted_rows(
         f0, q, gain_db,
@@ -309,7 +325,8 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
         each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
     )
     cost = np.where(hurwitz_stable(den) & defined(f0, q, gain_db), weighted, np.inf)
-    return np.split(cost, np.cumsum(sizes)[:-1])
+    ends = list(itertools.accumulate(sizes))
+    return [cost[end - size:end] for size, end in zip(sizes, ends)]
 
 
 @dataclass(frozen=True, slots=True)
@@ -343,18 +360,16 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
                         tolerances: Tolerances, width: int) -> Choice | _Search:
     """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
     or its :class:`Choice` at once when no part is free."""
-    values = topology.values_from(dict(exact))
-    free = [c.ref for c in topology.components if c.required and c.ref not in keep]
+    values = topology.values_from(exact)
+    free, groups = _free_parts(topology.components, keep, series)
     netlist = topology.build(values)
     if not free:
         h = transfer_function(netlist, w_ref=spec.w0)
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
-    part_series = [part_series_of(topology.component(r).kind, series) for r in free]
     options = [None] * len(free)
     rounded = [None] * len(free)
-    for ps in set(part_series):
-        idx = [i for i, p in enumerate(part_series) if p == ps]
+    for ps, idx in groups:
         opts, near = search_option_lists([values[free[i]] for i in idx], ps, width)
         for i, o, v in zip(idx, opts, near):
             options[i], rounded[i] = o, v
@@ -365,4 +380,15 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
     with np.errstate(all="ignore"):
         h = _option_combinations(netlist, free, flat, sizes, spec.w0)
-    return _Search(values, free, flat, _flat_combination_index(sizes), h, spec, tolerances)
+    return _Search(values, list(free), flat, _flat_combination_index(sizes), h, spec, tolerances)
+
+
+@functools.lru_cache(maxsize=256)
+def _free_parts(components: tuple, keep: tuple[str, ...], series: str) -> tuple[tuple[str, ...], tuple[tuple[str, tuple[int, ...]], ...]]:
+    """A circuit's parts a search chooses (every required part not in ``keep``, in the circuit's
+    order) and, per series they are chosen from (:func:`part_series_of`), their positions among
+    them: worked out once per circuit, pins and series."""
+    free = tuple(c for c in components if c.required and c.ref not in keep)
+    part_series = [part_series_of(c.kind, series) for c in free]
+    groups = tuple((ps, tuple(i for i, p in enumerate(part_series) if p == ps)) for ps in dict.fromkeys(part_series))
+    return tuple(c.ref for c in free), groups
