@@ -687,3 +687,45 @@ def test_values_from_accepts_and_refuses_by_the_rule(circuit):
                 topo.values_from({k: x for k, x in base.items() if k != comp.ref})
     with pytest.raises(InputError, match="has no part"):
         topo.values_from(dict(base, X9=1.0))
+
+
+def _choose_level_by_rows(unit, kinds, level_ref, series):
+    """choose_level as first written: every part's log10 at every level, the resistors' centre
+    by reductions over their rows (the reference the two-subtraction centre must equal)."""
+    import math
+
+    from bandsmith.circuits.synthesis import R_CENTRE_OHM, _level_capacitors, _level_weights, capacitor_series
+
+    caps, log_caps = _level_capacitors(capacitor_series(series))
+    log_s = log_caps - math.log10(unit[level_ref])
+    parts = [(ref, v) for ref, v in unit.items() if v > 0]
+    sign, lo, hi, weight, rows = _level_weights(tuple(kinds[ref] for ref, _ in parts))
+    lx = np.log10([v for _, v in parts])[:, None] + sign * log_s[None, :]
+    cost = weight @ (np.maximum(0.0, lo - lx) + np.maximum(0.0, lx - hi))
+    if rows:
+        r = lx[rows]
+        cost += 0.05 * np.abs(0.5 * (r.min(axis=0) + r.max(axis=0)) - math.log10(R_CENTRE_OHM))
+    return float(caps[int(np.argmin(cost))] / unit[level_ref])
+
+
+def test_choose_level_centre_from_the_extreme_resistors_equals_the_row_reductions():
+    """choose_level's resistor centre from the least and largest unit resistor (rounding is
+    monotone: IEEE 754-2019, 4.3) gives the level of the reductions over every resistor's row,
+    over random designs of every mix of kinds and three series. A consistency check of our own
+    two forms, no outside source."""
+    from bandsmith.circuits.synthesis import choose_level
+
+    rng = np.random.default_rng(17)
+    mixes = ["RRRCC", "RRRRRRCC", "RLC", "RRCCL", "CC", "RC"]
+    for trial in range(3000):
+        mix = mixes[trial % len(mixes)]
+        refs = [f"{k}{i}" for i, k in enumerate(mix)]
+        unit = {r: float(10.0 ** rng.uniform(-9, 9)) for r in refs}
+        if trial % 7 == 0 and "R" in mix:  # equal resistors, an absent part
+            first_r = next(r for r in refs if r[0] == "R")
+            unit.update({r: unit[first_r] for r in refs if r[0] == "R"})
+            unit[refs[-1]] = 0.0 if refs[-1][0] != "C" else unit[refs[-1]]
+        ref_c = next(r for r in refs if r[0] == "C")
+        kinds = {r: r[0] for r in refs}
+        series = ("E6", "E24", "E96")[trial % 3]
+        assert choose_level(unit, kinds, ref_c, series) == _choose_level_by_rows(unit, kinds, ref_c, series)
