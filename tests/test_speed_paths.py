@@ -497,7 +497,28 @@ def test_sallen_key_normalised_parts_of_one_gain_are_the_arrays_numbers():
             arrays = sallen_key._normalised(spec, np.array(k), np.array(r))
         for a, b in zip(arrays, one):
             assert float(a) == b or (math.isnan(float(a)) and math.isnan(b))
+        # a gain grid with one plain r: the numbers of r as an array
+        ks = 1.0 + 10 ** rng.uniform(-3, 1.5, 8)
+        with np.errstate(all="ignore"):
+            for a, b in zip(sallen_key._normalised(spec, ks, r), sallen_key._normalised(spec, ks, np.array(r))):
+                assert_array_equal(a, b)
     assert compared > 2500
+
+
+def test_sallen_key_spread_of_three_numbers_is_the_arrays():
+    # The resistor spread of one design in plain numbers: the value of the array form, zero,
+    # negative and infinite parts included (common practice, no source: a consistency check).
+    from bandsmith.circuits import sallen_key
+
+    rng = np.random.default_rng(22)
+    edge = [0.0, -0.0, -1.5, np.inf, -np.inf, 1e-300, 1e300]
+    for trial in range(3000):
+        xs = [float(10 ** rng.uniform(-6, 6)) for _ in range(3)]
+        if trial % 2 == 0:
+            xs[(trial // 2) % 3] = edge[(trial // 6) % len(edge)]
+        one = sallen_key._spread(*xs)
+        assert type(one) is float
+        assert one == float(sallen_key._spread(*(np.array(x) for x in xs)))
 
 
 def test_interpolation_matrix_is_the_transform_and_list_trim_is_the_array_trim():
