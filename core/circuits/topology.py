@@ -79,11 +79,14 @@ class Topology:
     order: int = 100
     notes: str = ""
     refs: tuple[str, ...] = field(init=False)
+    part_kinds: tuple[tuple[str, str, bool], ...] = field(init=False, repr=False)
     _by_ref: Mapping[str, Component] = field(init=False, repr=False, compare=False)
     _accepts: tuple = field(init=False, repr=False, compare=False)
 
     def __post_init__(self):
         object.__setattr__(self, "refs", tuple(c.ref for c in self.components))
+        # (ref, kind, required) of every part in order: plain strings, a cheap key for caches
+        object.__setattr__(self, "part_kinds", tuple((c.ref, c.kind, c.required) for c in self.components))
         object.__setattr__(self, "_by_ref", {c.ref: c for c in self.components})
         # per part, what values_from accepts at once: (component, ref, required, default, the
         # kind's value range of bandsmith.common.limits.PART_RANGES)

@@ -361,7 +361,7 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
     or its :class:`Choice` at once when no part is free."""
     values = topology.values_from(exact)
-    free, groups = _free_parts(topology.components, keep, series)
+    free, groups = _free_parts(topology.part_kinds, keep, series)
     netlist = topology.build(values)
     if not free:
         h = transfer_function(netlist, w_ref=spec.w0)
@@ -384,11 +384,12 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
 
 
 @functools.lru_cache(maxsize=256)
-def _free_parts(components: tuple, keep: tuple[str, ...], series: str) -> tuple[tuple[str, ...], tuple[tuple[str, tuple[int, ...]], ...]]:
-    """A circuit's parts a search chooses (every required part not in ``keep``, in the circuit's
-    order) and, per series they are chosen from (:func:`part_series_of`), their positions among
-    them: worked out once per circuit, pins and series."""
-    free = tuple(c for c in components if c.required and c.ref not in keep)
-    part_series = [part_series_of(c.kind, series) for c in free]
+def _free_parts(part_kinds: tuple[tuple[str, str, bool], ...], keep: tuple[str, ...], series: str) -> tuple[tuple[str, ...], tuple[tuple[str, tuple[int, ...]], ...]]:
+    """A circuit's parts a search chooses (of its ``(ref, kind, required)``, every required part
+    not in ``keep``, in the circuit's order) and, per series they are chosen from
+    (:func:`part_series_of`), their positions among them: worked out once per circuit, pins and
+    series."""
+    free = [(ref, kind) for ref, kind, required in part_kinds if required and ref not in keep]
+    part_series = [part_series_of(kind, series) for _, kind in free]
     groups = tuple((ps, tuple(i for i, p in enumerate(part_series) if p == ps)) for ps in dict.fromkeys(part_series))
-    return tuple(c.ref for c in free), groups
+    return tuple(ref for ref, _ in free), groups
