@@ -118,7 +118,7 @@ def test_hurwitz_of_one_polynomial_equals_the_batch_form_row_by_row():
     polynomial in a batch, degrees 0 to 6, scales over 60 decades, zeros, signs, infinities and
     NaN (Routh's test, E. J. Routh, A Treatise on the Stability of a Given State of Motion, 1877:
     the same first column either way); and against numpy.roots where the roots are well defined."""
-    from bandsmith.solver.stability import hurwitz_stable
+    from bandsmith.solver.stability import hurwitz_stable, hurwitz_stable_one
 
     rng = np.random.default_rng(11)
     specials = [0.0, -0.0, 1e-320, 1e308, -1e308, np.inf, -np.inf, np.nan, 1.0, -1.0]
@@ -130,6 +130,7 @@ def test_hurwitz_of_one_polynomial_equals_the_batch_form_row_by_row():
             batch = hurwitz_stable(dens)
             one = [bool(hurwitz_stable(d[None, :])[0]) for d in dens]
             assert one == batch.tolist()
+            assert [hurwitz_stable_one(d.tolist()) for d in dens] == one
         for d in rng.normal(size=(300, 4)):
             assert bool(hurwitz_stable(d[None, :])[0]) == bool(np.all(np.roots(d).real < 0))
 

@@ -38,7 +38,7 @@ from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
 
-__all__ = ["Choice", "errors_of", "figure_misses", "weighted_error", "choose_standard", "choose_standard_many", "part_series_of"]
+__all__ = ["Choice", "errors_of", "errors_of_one", "figure_misses", "weighted_error", "choose_standard", "choose_standard_many", "part_series_of"]
 
 
 # Batches up to this size are measured by exact roots (global, and cheaper there), larger on a grid.
@@ -62,7 +62,11 @@ class Choice:
 
 def errors_of(fig: Figures, spec: Spec, i: int = 0) -> dict[str, float]:
     """``f0_pct``, ``q_pct``, ``gain_db`` of member ``i`` of ``fig`` against the target."""
-    one = fig.item(i)
+    return errors_of_one(fig.item(i), spec)
+
+
+def errors_of_one(one: Figures, spec: Spec) -> dict[str, float]:
+    """:func:`errors_of` of figures already taken as scalars (:meth:`Figures.item`)."""
     return {
         "f0_pct": 100.0 * (one.f0_hz / spec.f0_hz - 1.0),
         "q_pct": 100.0 * (one.q / spec.q - 1.0),

@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-__all__ = ["hurwitz_stable", "routh_stable"]
+__all__ = ["hurwitz_stable", "hurwitz_stable_one", "routh_stable"]
 
 
 def hurwitz_stable(den: np.ndarray) -> np.ndarray:
@@ -55,6 +55,12 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
             nxt[:, :-1] = (first[:, None] * r0[:, 1:] - r0[:, :1] * r1[:, 1:]) / safe[:, None]
             r0, r1 = r1, nxt
     return ok
+
+
+def hurwitz_stable_one(den: list[float]) -> bool:
+    """:func:`hurwitz_stable` of one polynomial given as a list of floats (highest power first):
+    the same answer as its batch of one, without making arrays."""
+    return _routh(den, None)
 
 
 # A first-column entry of the Routh array formed as u − v with u − v below this share of |u| or
