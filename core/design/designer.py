@@ -138,16 +138,16 @@ def spread_of(topology: Topology, values: Mapping[str, float]) -> dict[str, floa
 
 def _limits(topology: Topology, values: Mapping[str, float]) -> str | None:
     """A reason when a part lies outside what is made (MADE), else None."""
-    for c in topology.components:
-        v = values.get(c.ref, 0.0)
-        if not c.required:
+    for ref, kind, required in topology.part_kinds:
+        if not required:
             continue
-        lo, hi = MADE[c.kind]
+        v = values.get(ref, 0.0)
+        lo, hi = MADE[kind]
         if not (lo <= v <= hi):
             word = "above" if v > hi else "below"
             return (
-                f"{c.ref} would be {format_value(v, PART_UNITS[c.kind])}, {word} any {_KIND_NAMES[c.kind]} made "
-                f"({format_value(lo, PART_UNITS[c.kind])} to {format_value(hi, PART_UNITS[c.kind])}); this target is out of this circuit's reach"
+                f"{ref} would be {format_value(v, PART_UNITS[kind])}, {word} any {_KIND_NAMES[kind]} made "
+                f"({format_value(lo, PART_UNITS[kind])} to {format_value(hi, PART_UNITS[kind])}); this target is out of this circuit's reach"
             )
     return None
 
@@ -383,7 +383,7 @@ def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Condi
         return _infeasible(topo, spec, series, exc.reason, pins, conditions)
     notes = tuple(getattr(exact, "notes", ()))
     try:
-        exact = topo.values_from(dict(exact))
+        exact = topo.values_from(exact)
     except InputError as exc:  # the target, not a part the user typed, is what is out of reach
         return _infeasible(topo, spec, series, f"this target needs {exc.field} = {exc.reason.replace(' is outside', ', outside', 1)}", pins, conditions)
     reason = _limits(topo, exact)
