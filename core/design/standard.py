@@ -32,7 +32,7 @@ import numpy as np
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
 from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion, unit_expansion_values
-from bandsmith.analysis.figures import Figures, biquad_peak_figures, defined, measure, measure_many
+from bandsmith.analysis.figures import Figures, biquad_peak_figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
@@ -328,7 +328,9 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
         each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
         each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
     )
-    cost = np.where(hurwitz_stable(den) & defined(f0, q, gain_db), weighted, np.inf)
+    # (where f0, Q or the gain is not finite, :func:`~bandsmith.analysis.figures.defined`, the
+    # weighted error is not finite either, so already inf: the figures need no test of their own)
+    cost = np.where(hurwitz_stable(den), weighted, np.inf)
     ends = list(itertools.accumulate(sizes))
     return [cost[end - size:end] for size, end in zip(sizes, ends)]
 
@@ -349,13 +351,14 @@ class _Search:
 
     def choice(self, cost: np.ndarray) -> Choice:
         """The combination of least cost (the last member, every part rounded alone, only compared)."""
-        i = int(np.argmin(cost[:-1]))
+        i = int(cost[:-1].argmin())
+        best = float(cost[i])
         chosen = dict(self.values)
         chosen.update(zip(self.free, self.flat[self.index[:, i]].tolist()))
         return Choice(
-            values=chosen if math.isfinite(cost[i]) else None,
+            values=chosen if math.isfinite(best) else None,
             combinations=int(cost.size - 1),
-            weighted=float(cost[i]),
+            weighted=best,
             weighted_rounded=float(cost[-1]),
         )
 
