@@ -260,10 +260,10 @@ def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
     combination that has no peak (a zero ``a1``: never stable, so never chosen), whose other
     combinations measure_many would take through polynomial roots, a few units in the last place
     apart."""
-    made = [_combination_search(*item) for item in items]
-    live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
-    by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
+        made = [_combination_search(*item) for item in items]
+        live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
+        by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
         if live and len(by_roots) == len(live):
             peaks = _peak_costs([made[i] for i in live])
             if peaks is not None:  # every combination a second-order band-pass: the closed form
@@ -366,7 +366,8 @@ class _Search:
 def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
                         tolerances: Tolerances, width: int) -> Choice | _Search:
     """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
-    or its :class:`Choice` at once when no part is free."""
+    or its :class:`Choice` at once when no part is free. Floating-point warnings are the caller's
+    to silence (:func:`choose_standard_many` does: a far-off combination may overflow)."""
     values = topology.values_from(exact)
     free, groups = _free_parts(topology.part_kinds, keep, series)
     netlist = topology.build(values)
@@ -385,8 +386,7 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     # them, in one flat array taken by a combination index.
     sizes = tuple(len(o) for o in options)
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
-    with np.errstate(all="ignore"):
-        h = _option_combinations(netlist, free, flat, sizes, spec.w0)
+    h = _option_combinations(netlist, free, flat, sizes, spec.w0)
     return _Search(values, list(free), flat, _flat_combination_index(sizes), h, spec, tolerances)
 
 
