@@ -174,7 +174,7 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
     if sp["c"] is not None and sp["c"] > _SPREAD_C:
         out.append(f"large capacitor spread: {sp['c']:.3g} : 1 between the largest and the smallest capacitor")
     sq = analysis.sensitivity.get("q", {})
-    total = sum(abs(s) for s in sq.values() if math.isfinite(s))
+    total = sum(map(abs, filter(math.isfinite, sq.values())))  # (in the dict's order, as a loop would add them)
     if total > 0:
         needed = tol.q / total
         if needed < _TIGHT_PARTS:
