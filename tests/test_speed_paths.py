@@ -717,17 +717,17 @@ def _choose_level_by_rows(unit, kinds, level_ref, series):
     by reductions over their rows (the reference the two-subtraction centre must equal)."""
     import math
 
-    from bandsmith.circuits.synthesis import R_CENTRE_OHM, _level_capacitors, _level_weights, capacitor_series
+    from bandsmith.circuits import synthesis
 
-    caps, log_caps = _level_capacitors(capacitor_series(series))
+    caps, log_caps = synthesis._level_capacitors(synthesis.capacitor_series(series))
     log_s = log_caps - math.log10(unit[level_ref])
     parts = [(ref, v) for ref, v in unit.items() if v > 0]
-    sign, lo, hi, weight, rows = _level_weights(tuple(kinds[ref] for ref, _ in parts))
+    sign, lo, hi, weight, rows = synthesis._level_weights(tuple(kinds[ref] for ref, _ in parts))
     lx = np.log10([v for _, v in parts])[:, None] + sign * log_s[None, :]
     cost = weight @ (np.maximum(0.0, lo - lx) + np.maximum(0.0, lx - hi))
     if rows:
         r = lx[rows]
-        cost += 0.05 * np.abs(0.5 * (r.min(axis=0) + r.max(axis=0)) - math.log10(R_CENTRE_OHM))
+        cost += 0.05 * np.abs(0.5 * (r.min(axis=0) + r.max(axis=0)) - math.log10(synthesis.R_CENTRE_OHM))
     return float(caps[int(np.argmin(cost))] / unit[level_ref])
 
 
