@@ -172,7 +172,9 @@ def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref:
     # log10 of every part at every level, (parts, levels): capacitors scale up, the rest down
     log_v = np.log10(values)
     lx = log_v[:, None] + sign * log_s
-    cost = weight @ (np.maximum(0.0, lo - lx) + np.maximum(0.0, lx - hi))
+    # decades outside the window, max(0, lo − lx) + max(0, lx − hi): with lo < hi at most one term
+    # is above zero, so the sum is max(lo − lx, lx − hi, 0) exactly (one addition fewer)
+    cost = weight @ np.maximum(np.maximum(lo - lx, lx - hi), 0.0)
     if rows:
         # The resistors' least and largest log10 at each level: a resistor's is fl(log10 R − log_s),
         # and rounding is monotone, so they are those of the least and the largest unit resistor
