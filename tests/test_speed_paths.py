@@ -7,6 +7,8 @@
 - One BLAS thread: a thread count the user set in the environment is kept.
 - The MNA pencil from a structure's cached stamps (``mna.build_system``): bit for bit the pencil of
   adding every stamp of ``mna._stamps`` in turn, signed zeros included, batches of one and more.
+- ``Topology.values_from``'s one-comparison acceptance: the same values accepted and the same
+  parts refused as its rule written out check by check (our own contract, no source).
 """
 
 import csv
@@ -116,7 +118,7 @@ def test_hurwitz_of_one_polynomial_equals_the_batch_form_row_by_row():
     polynomial in a batch, degrees 0 to 6, scales over 60 decades, zeros, signs, infinities and
     NaN (Routh's test, E. J. Routh, A Treatise on the Stability of a Given State of Motion, 1877:
     the same first column either way); and against numpy.roots where the roots are well defined."""
-    from bandsmith.solver.stability import hurwitz_stable
+    from bandsmith.solver.stability import hurwitz_stable, hurwitz_stable_one
 
     rng = np.random.default_rng(11)
     specials = [0.0, -0.0, 1e-320, 1e308, -1e308, np.inf, -np.inf, np.nan, 1.0, -1.0]
@@ -128,6 +130,7 @@ def test_hurwitz_of_one_polynomial_equals_the_batch_form_row_by_row():
             batch = hurwitz_stable(dens)
             one = [bool(hurwitz_stable(d[None, :])[0]) for d in dens]
             assert one == batch.tolist()
+            assert [hurwitz_stable_one(d.tolist()) for d in dens] == one
         for d in rng.normal(size=(300, 4)):
             assert bool(hurwitz_stable(d[None, :])[0]) == bool(np.all(np.roots(d).real < 0))
 
@@ -302,7 +305,8 @@ def test_closed_form_search_costs_are_the_measured_figures_costs(series, width):
     searches = []
     for topo in all_topologies():
         exact = topo.values_from(dict(topo.synthesize(spec, {}, series=series)))
-        searches.append(standard._combination_search(topo, exact, spec, series, (), Tolerances(), width))
+        with np.errstate(all="ignore"):
+            searches.append(standard._combination_search(topo, exact, spec, series, (), Tolerances(), width))
     with np.errstate(all="ignore"):
         closed = standard._peak_costs(searches)
         measured = standard._costs(searches, measure_many([m.h for m in searches]))
@@ -495,7 +499,28 @@ def test_sallen_key_normalised_parts_of_one_gain_are_the_arrays_numbers():
             arrays = sallen_key._normalised(spec, np.array(k), np.array(r))
         for a, b in zip(arrays, one):
             assert float(a) == b or (math.isnan(float(a)) and math.isnan(b))
+        # a gain grid with one plain r: the numbers of r as an array
+        ks = 1.0 + 10 ** rng.uniform(-3, 1.5, 8)
+        with np.errstate(all="ignore"):
+            for a, b in zip(sallen_key._normalised(spec, ks, r), sallen_key._normalised(spec, ks, np.array(r))):
+                assert_array_equal(a, b)
     assert compared > 2500
+
+
+def test_sallen_key_spread_of_three_numbers_is_the_arrays():
+    # The resistor spread of one design in plain numbers: the value of the array form, zero,
+    # negative and infinite parts included (common practice, no source: a consistency check).
+    from bandsmith.circuits import sallen_key
+
+    rng = np.random.default_rng(22)
+    edge = [0.0, -0.0, -1.5, np.inf, -np.inf, 1e-300, 1e300]
+    for trial in range(3000):
+        xs = [float(10 ** rng.uniform(-6, 6)) for _ in range(3)]
+        if trial % 2 == 0:
+            xs[(trial // 2) % 3] = edge[(trial // 6) % len(edge)]
+        one = sallen_key._spread(*xs)
+        assert type(one) is float
+        assert one == float(sallen_key._spread(*(np.array(x) for x in xs)))
 
 
 def test_interpolation_matrix_is_the_transform_and_list_trim_is_the_array_trim():
@@ -687,3 +712,102 @@ def test_an_analysis_in_a_batch_is_the_analysis_alone_bit_for_bit(circuit):
             assert_allclose(getattr(got.actual, name), getattr(alone.actual, name), rtol=1e-12)
         assert got.sensitivity == alone.sensitivity
         assert_allclose(got.required_gbw[0], alone.required_gbw[0], rtol=1e-12)
+
+
+def _values_from_by_the_rule(topo, given):
+    """Topology.values_from's contract written out check by check (our own rule, common practice,
+    no source): unknown parts and missing required ones refused; each value finite, a required
+    part above zero, an optional one zero or more, and above zero within the kind's range of
+    bandsmith.common.limits.PART_RANGES."""
+    from bandsmith.common.errors import InputError
+    from bandsmith.common.limits import PART_RANGES
+
+    for ref in given:
+        if ref not in topo.refs:
+            raise InputError(ref, "unknown")
+    out = {}
+    for c in topo.components:
+        if c.ref not in given:
+            if c.required:
+                raise InputError(c.ref, "missing")
+            out[c.ref] = float(c.default)
+            continue
+        v = float(given[c.ref])
+        lo, hi = PART_RANGES[c.kind]
+        if not np.isfinite(v) or (c.required and v <= 0) or v < 0 or (v > 0 and not lo <= v <= hi):
+            raise InputError(c.ref, "refused")
+        out[c.ref] = v
+    return out
+
+
+@pytest.mark.parametrize("circuit", ["rlc-tank", "sallen-key", "state-variable"])
+def test_values_from_accepts_and_refuses_by_the_rule(circuit):
+    from bandsmith.common.errors import InputError
+    from bandsmith.common.limits import PART_RANGES
+
+    topo = get_topology(circuit)
+    base = topo.values_from(topo.example)
+    for comp in topo.components:
+        lo, hi = PART_RANGES[comp.kind]
+        for v in (np.nan, np.inf, -np.inf, 0.0, -0.0, -1.0, 5e-324, lo, np.nextafter(lo, 0), hi, np.nextafter(hi, np.inf),
+                  1e300, 3.3e3, 4.7e-9, 1):
+            given = dict(base, **{comp.ref: v})
+            try:
+                want = _values_from_by_the_rule(topo, given)
+            except InputError as exc:
+                with pytest.raises(InputError) as got:
+                    topo.values_from(given)
+                assert got.value.field == exc.field
+                continue
+            got_values = topo.values_from(given)
+            assert got_values == want and all(type(x) is float for x in got_values.values())
+        if not comp.required:  # an optional part left out takes its default
+            given = {k: x for k, x in base.items() if k != comp.ref}
+            assert topo.values_from(given) == _values_from_by_the_rule(topo, given)
+        else:
+            with pytest.raises(InputError, match="missing"):
+                topo.values_from({k: x for k, x in base.items() if k != comp.ref})
+    with pytest.raises(InputError, match="has no part"):
+        topo.values_from(dict(base, X9=1.0))
+
+
+def _choose_level_by_rows(unit, kinds, level_ref, series):
+    """choose_level as first written: every part's log10 at every level, the resistors' centre
+    by reductions over their rows (the reference the two-subtraction centre must equal)."""
+    import math
+
+    from bandsmith.circuits import synthesis
+
+    caps, log_caps = synthesis._level_capacitors(synthesis.capacitor_series(series))
+    log_s = log_caps - math.log10(unit[level_ref])
+    parts = [(ref, v) for ref, v in unit.items() if v > 0]
+    sign, lo, hi, weight, rows = synthesis._level_weights(tuple(kinds[ref] for ref, _ in parts))
+    lx = np.log10([v for _, v in parts])[:, None] + sign * log_s[None, :]
+    cost = weight @ (np.maximum(0.0, lo - lx) + np.maximum(0.0, lx - hi))
+    if rows:
+        r = lx[rows]
+        cost += 0.05 * np.abs(0.5 * (r.min(axis=0) + r.max(axis=0)) - math.log10(synthesis.R_CENTRE_OHM))
+    return float(caps[int(np.argmin(cost))] / unit[level_ref])
+
+
+def test_choose_level_centre_from_the_extreme_resistors_equals_the_row_reductions():
+    """choose_level's resistor centre from the least and largest unit resistor (rounding is
+    monotone: IEEE 754-2019, 4.3) gives the level of the reductions over every resistor's row,
+    over random designs of every mix of kinds and three series. A consistency check of our own
+    two forms, no outside source."""
+    from bandsmith.circuits.synthesis import choose_level
+
+    rng = np.random.default_rng(17)
+    mixes = ["RRRCC", "RRRRRRCC", "RLC", "RRCCL", "CC", "RC"]
+    for trial in range(3000):
+        mix = mixes[trial % len(mixes)]
+        refs = [f"{k}{i}" for i, k in enumerate(mix)]
+        unit = {r: float(10.0 ** rng.uniform(-9, 9)) for r in refs}
+        if trial % 7 == 0 and "R" in mix:  # equal resistors, an absent part
+            first_r = next(r for r in refs if r[0] == "R")
+            unit.update({r: unit[first_r] for r in refs if r[0] == "R"})
+            unit[refs[-1]] = 0.0 if refs[-1][0] != "C" else unit[refs[-1]]
+        ref_c = next(r for r in refs if r[0] == "C")
+        kinds = {r: r[0] for r in refs}
+        series = ("E6", "E24", "E96")[trial % 3]
+        assert choose_level(unit, kinds, ref_c, series) == _choose_level_by_rows(unit, kinds, ref_c, series)

@@ -28,6 +28,7 @@
 
 from __future__ import annotations
 
+import heapq
 import math
 from typing import TYPE_CHECKING, Sequence
 
@@ -141,19 +142,30 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     ``⌊weighted/FIT_STEP⌋``; :func:`bandsmith.verdict.merit_key` with the candidate's position
     (rank's order, the position last, so no two keys tie). Judging is the costly part, so the
     pick is found by branch and bound: :func:`_least_key` gives, from numbers the design already
-    has, a tuple that the first four parts of a candidate's key cannot be below. Candidates are
-    judged in the order of those bounds; once the next bound is above the first four parts of
-    the best key so far, neither it nor any later candidate can be the least, and judging stops.
-    The pick is the one judging every candidate gives.
+    has, a tuple that the first four parts of a candidate's key cannot be below, and the
+    attempt's own parts alone, ``(0, not sane, 0, near)``, one that it cannot be below either
+    (a verdict's place and a count are never below 0). Candidates
+    are taken least bound first: one with the attempt's bound gets :func:`_least_key`'s instead
+    and goes back, one with that bound is judged. Once the least bound left is above the first
+    four parts of the best key so far, neither it nor any other candidate can be the least, and
+    judging stops. The pick is the one judging every candidate gives.
     """
     cands = [(i, res, a) for i, (res, a) in enumerate(tried) if res is not None and a.feasible and res.feasible]
     if not cands:
         return None
     best = pick = None
-    for bound, k in sorted((_least_key(res, a, limits), k) for k, (_, res, a) in enumerate(cands)):  # least bound first
+    # (bound, whether it is _least_key's, position): least bound first, the attempt's before
+    # _least_key's where they are equal
+    bounds = [((0, not a.sane, 0, _near(a)), False, k) for k, (_, res, a) in enumerate(cands)]
+    heapq.heapify(bounds)
+    while bounds:
+        bound, settled, k = heapq.heappop(bounds)
         if best is not None and bound > best[:4]:
             break  # this bound and every one left is above the best key's first four parts
         i, res, a = cands[k]
+        if not settled:
+            heapq.heappush(bounds, (_least_key(res, a, limits), True, k))
+            continue
         v = judge(res, limits, candidate=a.topology_id)
         heavy = sum(1 for r in v.reasons if r.weight == NOT_BUILDABLE) if v.verdict == NOT_BUILDABLE else 0
         key = (VERDICTS.index(v.verdict), not a.sane, heavy, _near(a), merit_key(v, k))

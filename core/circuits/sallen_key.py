@@ -102,7 +102,8 @@ def _normalised(spec: Spec, k, r):
         if one is not None:
             return one
     k = np.asarray(k, dtype=float)
-    r = np.asarray(r, dtype=float)
+    if type(r) is not float:  # (one plain r, the usual case, enters as the same double)
+        r = np.asarray(r, dtype=float)
     q = spec.q
     x1 = spec.gain / (k * q)
     a = k - 1.0
@@ -137,6 +138,11 @@ def _normalised_one(spec: Spec, k: float, r: float) -> tuple[float, float, float
 
 
 def _spread(x1, x2, x3):
+    """Largest over least of R1, R2, R3's normalised values (inf where the least is not above
+    zero); three plain numbers, none NaN, in plain numbers (the same comparisons and quotient)."""
+    if type(x1) is float and type(x2) is float and type(x3) is float and not math.isnan(x1 + x2 + x3):
+        lo = min(x1, x2, x3)
+        return max(x1, x2, x3) / lo if lo > 0 else math.inf
     lo = np.minimum(np.minimum(x1, x2), x3)
     with np.errstate(invalid="ignore", divide="ignore"):
         out = np.maximum(np.maximum(x1, x2), x3) / lo
@@ -144,6 +150,7 @@ def _spread(x1, x2, x3):
 
 
 _KM1_GRID = np.geomspace(_K_MIN - 1.0, _K_MAX - 1.0, 160)  # K − 1, logarithmic
+_K_GRID = 1.0 + _KM1_GRID  # the gains K of that grid
 _UNIT_FINE = np.linspace(0.0, 1.0, 161)
 
 
@@ -154,15 +161,15 @@ def best_gain_k(spec: Spec, r: float = 1.0) -> float:
         if k_eq > 1.0 and float(_spread(*_normalised(spec, k_eq, r))) <= 1.0 + 1e-12:
             return k_eq  # the equal-resistor design meets this gain exactly
     km1 = _KM1_GRID
-    sp = _spread(*_normalised(spec, 1.0 + km1, r))
-    i = int(np.argmin(sp))
-    if not np.isfinite(sp[i]):
+    sp = _spread(*_normalised(spec, _K_GRID, r))
+    i = int(sp.argmin())
+    if not math.isfinite(sp[i]):
         raise Infeasible(f"no amplifier gain K from {_K_MIN} to {_K_MAX:g} meets Q {spec.q:.4g} with gain {spec.gain:.4g} (Q below about 0.35 is out of reach)")
     # Refine between the grid neighbours (the spread is smooth there but for its kink at the
     # optimum) to about 5e-4 in K − 1; any K meets the target exactly, so this only tidies the choice.
     lo, hi = km1[max(i - 1, 0)], km1[min(i + 1, km1.size - 1)]
     fine = lo * (hi / lo) ** _UNIT_FINE
-    return 1.0 + float(fine[int(np.argmin(_spread(*_normalised(spec, 1.0 + fine, r))))])
+    return 1.0 + float(fine[int(_spread(*_normalised(spec, 1.0 + fine, r)).argmin())])
 
 
 def _filter_parts(spec: Spec, c1: float, r: float, k: float) -> dict[str, float]:

@@ -167,16 +167,22 @@ def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref:
     """
     caps, log_caps = _level_capacitors(capacitor_series(series))
     log_s = log_caps - math.log10(unit[level_ref])  # log10 of every level on offer
-    parts = [(ref, v) for ref, v in unit.items() if v > 0]
-    sign, lo, hi, weight, rows = _level_weights(tuple(kinds[ref] for ref, _ in parts))
+    values = [v for v in unit.values() if v > 0]
+    sign, lo, hi, weight, rows = _level_weights(tuple(kinds[ref] for ref, v in unit.items() if v > 0))
     # log10 of every part at every level, (parts, levels): capacitors scale up, the rest down
-    lx = np.log10([v for _, v in parts])[:, None] + sign * log_s[None, :]
-    cost = weight @ (np.maximum(0.0, lo - lx) + np.maximum(0.0, lx - hi))
+    log_v = np.log10(values)
+    lx = log_v[:, None] + sign * log_s
+    # decades outside the window, max(0, lo − lx) + max(0, lx − hi): with lo < hi at most one term
+    # is above zero, so the sum is max(lo − lx, lx − hi, 0) exactly (one addition fewer)
+    cost = weight @ np.maximum(np.maximum(lo - lx, lx - hi), 0.0)
     if rows:
-        r = lx[rows]
-        centre = 0.5 * (r.min(axis=0) + r.max(axis=0))
+        # The resistors' least and largest log10 at each level: a resistor's is fl(log10 R − log_s),
+        # and rounding is monotone, so they are those of the least and the largest unit resistor
+        # (the same numbers as the reductions over the rows of lx, with two subtractions).
+        r = log_v[rows].tolist()
+        centre = 0.5 * ((min(r) - log_s) + (max(r) - log_s))
         cost += 0.05 * np.abs(centre - math.log10(R_CENTRE_OHM))
-    i = int(np.argmin(cost))
+    i = int(cost.argmin())
     return float(caps[i] / unit[level_ref])
 
 

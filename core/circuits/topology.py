@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 from typing import Callable, Mapping
 
 from bandsmith.common.errors import InputError
-from bandsmith.common.limits import check_part_value
+from bandsmith.common.limits import PART_RANGES, check_part_value
 from bandsmith.solver.netlist import Netlist
 
 __all__ = ["Component", "IdealFormulas", "Topology"]
@@ -79,11 +79,18 @@ class Topology:
     order: int = 100
     notes: str = ""
     refs: tuple[str, ...] = field(init=False)
+    part_kinds: tuple[tuple[str, str, bool], ...] = field(init=False, repr=False)
     _by_ref: Mapping[str, Component] = field(init=False, repr=False, compare=False)
+    _accepts: tuple = field(init=False, repr=False, compare=False)
 
     def __post_init__(self):
         object.__setattr__(self, "refs", tuple(c.ref for c in self.components))
+        # (ref, kind, required) of every part in order: plain strings, a cheap key for caches
+        object.__setattr__(self, "part_kinds", tuple((c.ref, c.kind, c.required) for c in self.components))
         object.__setattr__(self, "_by_ref", {c.ref: c for c in self.components})
+        # per part, what values_from accepts at once: (component, ref, required, default, the
+        # kind's value range of bandsmith.common.limits.PART_RANGES)
+        object.__setattr__(self, "_accepts", tuple((c, c.ref, c.required, float(c.default), *PART_RANGES[c.kind]) for c in self.components))
 
     def component(self, ref: str) -> Component:
         c = self._by_ref.get(ref)
@@ -100,25 +107,22 @@ class Topology:
             For an unknown part, a missing required part, a non-finite value, a required part at
             zero or below, or an optional part below zero.
         """
-        for ref in given:
-            self.component(ref)  # raises for a part the circuit does not have
+        if not self._by_ref.keys() >= given.keys():
+            for ref in given:
+                self.component(ref)  # raises for a part the circuit does not have
         out = {}
-        for c in self.components:
-            if c.ref not in given:
-                if c.required:
-                    raise InputError(c.ref, f"missing; {self.id} needs {', '.join(x.ref for x in self.components if x.required)}")
-                out[c.ref] = float(c.default)
+        for c, ref, required, default, lo, hi in self._accepts:
+            if ref not in given:
+                if required:
+                    raise InputError(ref, f"missing; {self.id} needs {', '.join(x.ref for x in self.components if x.required)}")
+                out[ref] = default
                 continue
-            v = float(given[c.ref])
-            if not math.isfinite(v):
-                raise InputError(c.ref, f"{v!r} is not a finite number")
-            if c.required and v <= 0:
-                raise InputError(c.ref, f"must be greater than zero, got {v:g}")
-            if not c.required and v < 0:
-                raise InputError(c.ref, f"must be zero or more, got {v:g}")
-            if v > 0:
-                check_part_value(c.ref, c.kind, v)
-            out[c.ref] = v
+            v = float(given[ref])
+            # within the kind's range (0 < lo, so finite and above zero), or an optional part at
+            # zero: accepted at once; anything else is refused by _refuse with its reason
+            if not (lo <= v <= hi or (v == 0.0 and not required)):
+                _refuse(c, v)
+            out[ref] = v
         return out
 
     def netlist(self, given: Mapping[str, float]) -> Netlist:
@@ -133,3 +137,15 @@ class Topology:
             "components": [c.to_json() for c in self.components],
             "example": {k: float(v) for k, v in self.example.items()},
         }
+
+
+def _refuse(c: Component, v: float) -> None:
+    """Raise the InputError that :meth:`Topology.values_from` gives for value ``v`` of part ``c``
+    (one outside what that part accepts)."""
+    if not math.isfinite(v):
+        raise InputError(c.ref, f"{v!r} is not a finite number")
+    if c.required and v <= 0:
+        raise InputError(c.ref, f"must be greater than zero, got {v:g}")
+    if not c.required and v < 0:
+        raise InputError(c.ref, f"must be zero or more, got {v:g}")
+    check_part_value(c.ref, c.kind, v)  # what is left is above zero and outside the kind's range: raises

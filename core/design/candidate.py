@@ -117,7 +117,7 @@ class Candidate:
         sens = [x for by_ref in result.sensitivity.values() for x in by_ref.values()]
         ideal = result.ideal.item()
         if not (math.isfinite(ideal.f0_hz) and math.isfinite(ideal.q) and math.isfinite(ideal.gain_center_db)
-                and math.isfinite(ideal.f_low_hz) and math.isfinite(ideal.f_high_hz) and all(math.isfinite(x) for x in sens)):
+                and math.isfinite(ideal.f_low_hz) and math.isfinite(ideal.f_high_hz) and all(map(math.isfinite, sens))):
             raise InputError(
                 "parts",
                 f"these {self.topology_id} values give no band-pass peak that can be measured "

@@ -25,10 +25,10 @@ from bandsmith.common.eseries import SERIES_NAMES, in_series
 from bandsmith.analysis.figures import Figures
 from bandsmith.analysis.inductor import inductor_q_needed, inductor_q_warning
 from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec
-from bandsmith.solver.stability import hurwitz_stable
+from bandsmith.solver.stability import hurwitz_stable_one
 from bandsmith.circuits.topology import Topology
 from bandsmith.common.values import format_value, parse_value
-from bandsmith.design.standard import Choice, choose_standard_many, errors_of, figure_misses
+from bandsmith.design.standard import Choice, choose_standard_many, errors_of, errors_of_one, figure_misses
 
 __all__ = [
     "Spec",
@@ -129,52 +129,52 @@ def spread_of(topology: Topology, values: Mapping[str, float]) -> dict[str, floa
 
     The winding resistance is not a resistor here; None where a circuit has no such part.
     """
-    out = {}
-    for kind, key in (("R", "r"), ("C", "c")):
-        vals = [values[c.ref] for c in topology.components if c.kind == kind and c.required and values.get(c.ref, 0) > 0]
-        out[key] = max(vals) / min(vals) if vals else None
-    return out
+    by_kind: dict[str, list[float]] = {"R": [], "C": []}
+    for ref, kind, required in topology.part_kinds:
+        if required and kind in by_kind and values.get(ref, 0) > 0:
+            by_kind[kind].append(values[ref])
+    return {key: max(vals) / min(vals) if vals else None for key, vals in (("r", by_kind["R"]), ("c", by_kind["C"]))}
 
 
 def _limits(topology: Topology, values: Mapping[str, float]) -> str | None:
     """A reason when a part lies outside what is made (MADE), else None."""
-    for c in topology.components:
-        v = values.get(c.ref, 0.0)
-        if not c.required:
+    for ref, kind, required in topology.part_kinds:
+        if not required:
             continue
-        lo, hi = MADE[c.kind]
+        v = values.get(ref, 0.0)
+        lo, hi = MADE[kind]
         if not (lo <= v <= hi):
             word = "above" if v > hi else "below"
             return (
-                f"{c.ref} would be {format_value(v, PART_UNITS[c.kind])}, {word} any {_KIND_NAMES[c.kind]} made "
-                f"({format_value(lo, PART_UNITS[c.kind])} to {format_value(hi, PART_UNITS[c.kind])}); this target is out of this circuit's reach"
+                f"{ref} would be {format_value(v, PART_UNITS[kind])}, {word} any {_KIND_NAMES[kind]} made "
+                f"({format_value(lo, PART_UNITS[kind])} to {format_value(hi, PART_UNITS[kind])}); this target is out of this circuit's reach"
             )
     return None
 
 
 def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[str, float], result_errors, analysis: Analysis, series: str, tol: Tolerances, fixed) -> list[str]:
     out = []
-    for c in topology.components:
-        v = chosen.get(c.ref, 0.0)
-        if not c.required:
+    for ref, kind, required in topology.part_kinds:
+        if not required:
             continue
-        lo, hi = PRACTICAL[c.kind]
+        v = chosen.get(ref, 0.0)
+        lo, hi = PRACTICAL[kind]
         if v > hi or v < lo:
-            unit = PART_UNITS[c.kind]
-            if c.kind == "L":
+            unit = PART_UNITS[kind]
+            if kind == "L":
                 what = "larger than most catalogue inductors" if v > hi else "smaller than most catalogue inductors"
-            elif c.kind == "C":
+            elif kind == "C":
                 what = "too large for a stable film or ceramic part" if v > hi else "close to stray capacitance"
             else:
                 what = "high: leakage, noise and stray capacitance matter" if v > hi else "low: it loads the op-amp and its driver"
-            out.append(f"{c.ref} = {format_value(v, unit)} is {what} (usual range {format_value(lo, unit)} to {format_value(hi, unit)})")
+            out.append(f"{ref} = {format_value(v, unit)} is {what} (usual range {format_value(lo, unit)} to {format_value(hi, unit)})")
     sp = spread_of(topology, chosen)
     if sp["r"] is not None and sp["r"] > _SPREAD_R:
         out.append(f"large resistor spread: {sp['r']:.3g} : 1 between the largest and the smallest resistor")
     if sp["c"] is not None and sp["c"] > _SPREAD_C:
         out.append(f"large capacitor spread: {sp['c']:.3g} : 1 between the largest and the smallest capacitor")
     sq = analysis.sensitivity.get("q", {})
-    total = sum(abs(s) for s in sq.values() if math.isfinite(s))
+    total = sum(map(abs, filter(math.isfinite, sq.values())))  # (in the dict's order, as a loop would add them)
     if total > 0:
         needed = tol.q / total
         if needed < _TIGHT_PARTS:
@@ -383,7 +383,7 @@ def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Condi
         return _infeasible(topo, spec, series, exc.reason, pins, conditions)
     notes = tuple(getattr(exact, "notes", ()))
     try:
-        exact = topo.values_from(dict(exact))
+        exact = topo.values_from(exact)
     except InputError as exc:  # the target, not a part the user typed, is what is out of reach
         return _infeasible(topo, spec, series, f"this target needs {exc.field} = {exc.reason.replace(' is outside', ', outside', 1)}", pins, conditions)
     reason = _limits(topo, exact)
@@ -420,9 +420,12 @@ def _conclude(made: _Prepared, analysis: Analysis, spec: Spec, series: str, cond
     """The design of prepared parts, from their analysis."""
     d = made.design
     topo, exact, notes, pins = d.topology, d.exact, d.notes, d.pins
-    if not bool(hurwitz_stable(analysis.h_ideal.den)[0]) or not bool(analysis.ideal.valid[0]):
+    ideal = analysis.ideal.item()  # (the figures' validity, Figures.valid, on the scalars)
+    if not (hurwitz_stable_one(analysis.h_ideal.den[0].tolist())
+            and math.isfinite(ideal.q) and math.isfinite(ideal.f0_hz) and math.isfinite(ideal.gain_center_db)):
         return _infeasible(topo, spec, series, "the chosen parts do not give a stable band-pass", pins, conditions, exact, notes)
-    return _feasible(topo, spec, series, exact, made.candidate, analysis, notes, pins, conditions, made.choice)
+    errors = errors_of_one(ideal, spec)
+    return _feasible(topo, spec, series, exact, made.candidate, analysis, errors, notes, pins, conditions, made.choice)
 
 
 _NO_STANDARD = (
@@ -431,11 +434,12 @@ _NO_STANDARD = (
 )
 
 
-def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analysis, notes, pins, conditions: Conditions, choice) -> DesignResult:
-    """The result of a design that works: its errors, warnings and analysis."""
-    errors = errors_of(analysis.ideal, spec)
+def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analysis, errors: dict, notes, pins, conditions: Conditions,
+              choice) -> DesignResult:
+    """The result of a design that works, given its errors (:func:`errors_of` of its ideal
+    figures): its warnings and analysis."""
     warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins)
-    if any(c.kind == "L" for c in topo.components):  # a real inductor must reach its share of the Q
+    if any(kind == "L" for _, kind, _ in topo.part_kinds):  # a real inductor must reach its share of the Q
         w = inductor_q_warning(inductor_q_needed(spec.q))
         if w:
             warnings.append(w)

@@ -22,6 +22,7 @@ parts, not from the search.
 from __future__ import annotations
 
 import functools
+import itertools
 import math
 from dataclasses import dataclass
 from typing import Mapping, Sequence
@@ -31,13 +32,13 @@ import numpy as np
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
 from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion, unit_expansion_values
-from bandsmith.analysis.figures import Figures, biquad_peak_figures, defined, measure, measure_many
+from bandsmith.analysis.figures import Figures, biquad_peak_figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
 
-__all__ = ["Choice", "errors_of", "figure_misses", "weighted_error", "choose_standard", "choose_standard_many", "part_series_of"]
+__all__ = ["Choice", "errors_of", "errors_of_one", "figure_misses", "weighted_error", "choose_standard", "choose_standard_many", "part_series_of"]
 
 
 # Batches up to this size are measured by exact roots (global, and cheaper there), larger on a grid.
@@ -61,7 +62,11 @@ class Choice:
 
 def errors_of(fig: Figures, spec: Spec, i: int = 0) -> dict[str, float]:
     """``f0_pct``, ``q_pct``, ``gain_db`` of member ``i`` of ``fig`` against the target."""
-    one = fig.item(i)
+    return errors_of_one(fig.item(i), spec)
+
+
+def errors_of_one(one: Figures, spec: Spec) -> dict[str, float]:
+    """:func:`errors_of` of figures already taken as scalars (:meth:`Figures.item`)."""
     return {
         "f0_pct": 100.0 * (one.f0_hz / spec.f0_hz - 1.0),
         "q_pct": 100.0 * (one.q / spec.q - 1.0),
@@ -151,7 +156,8 @@ def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tupl
     once per offered value (a few dozen) instead of once per combination and part; numpy's log
     maps each number alone, so a value has the same log wherever it sits in an array.
     Where the expansion does not apply, or the batch is past its small-batch products,
-    :func:`_combinations`.
+    :func:`_combinations`. Floating-point warnings are the caller's to silence (far-off
+    combinations may overflow, a log of zero is -inf: such combinations are simply not chosen).
     """
     index = _flat_combination_index(sizes)
     try:
@@ -162,14 +168,25 @@ def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tupl
         return _combinations(netlist, dict(zip(free, flat[index])), w_ref)
     # the logs of every value a combination can hold, in one array: the free parts' options and
     # nearest values over their unit values, then the other variables' own ratios
+    per_entry, held, gather = _log_plan(exp, tuple(free), sizes)
+    ratios = flat / per_entry
+    if held:
+        ratios = np.concatenate([ratios, [own[j] / unit for j, unit in held]])
+    return exp.rational_log(np.log(ratios)[gather], w_ref=w_ref)
+
+
+@functools.lru_cache(maxsize=64)
+def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.ndarray, tuple[tuple[int, float], ...], np.ndarray]:
+    """What :func:`_option_combinations` needs of an expansion ``exp`` (a kept unit expansion, one
+    per circuit structure) for these free parts and option counts, made once: each flat entry's
+    unit value (a part's options and nearest value over its variable's unit), the held variables
+    as ``(column, unit value)``, and :func:`_log_gather`'s positions. Read-only."""
     at = {r: k for k, r in enumerate(free)}
     units = [u.value for u in exp.variables]
-    held = [j for j, u in enumerate(exp.variables) if u.name not in at]
     per_entry = np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes])
-    ratios = np.concatenate([flat / per_entry, [own[j] / units[j] for j in held]])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        logs = np.log(ratios)
-    return exp.rational_log(logs[_log_gather(sizes, tuple(at.get(u.name, -1) for u in exp.variables))], w_ref=w_ref)
+    per_entry.setflags(write=False)
+    held = tuple((j, units[j]) for j, u in enumerate(exp.variables) if u.name not in at)
+    return per_entry, held, _log_gather(sizes, tuple(at.get(u.name, -1) for u in exp.variables))
 
 
 @functools.lru_cache(maxsize=64)
@@ -243,10 +260,10 @@ def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
     combination that has no peak (a zero ``a1``: never stable, so never chosen), whose other
     combinations measure_many would take through polynomial roots, a few units in the last place
     apart."""
-    made = [_combination_search(*item) for item in items]
-    live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
-    by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
+        made = [_combination_search(*item) for item in items]
+        live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
+        by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
         if live and len(by_roots) == len(live):
             peaks = _peak_costs([made[i] for i in live])
             if peaks is not None:  # every combination a second-order band-pass: the closed form
@@ -300,16 +317,22 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
     repeated over its members (the same operations, member by member, as each search alone)."""
     sizes = [m.h.batch for m in searches]
 
-    def each(value) -> np.ndarray:
-        return np.repeat([value(m) for m in searches], sizes)
+    def each(value) -> float | np.ndarray:
+        # one number where every search has the same (one target and tolerances: a compare, a
+        # chain's stage), broadcast over the members as its repetition would be, element by element
+        first, *rest = [value(m) for m in searches]
+        return first if all(v == first for v in rest) else np.repeat([first, *rest], sizes)
 
     weighted = _weighted_rows(
         f0, q, gain_db,
         each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
         each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
     )
-    cost = np.where(hurwitz_stable(den) & defined(f0, q, gain_db), weighted, np.inf)
-    return np.split(cost, np.cumsum(sizes)[:-1])
+    # (where f0, Q or the gain is not finite, :func:`~bandsmith.analysis.figures.defined`, the
+    # weighted error is not finite either, so already inf: the figures need no test of their own)
+    cost = np.where(hurwitz_stable(den), weighted, np.inf)
+    ends = list(itertools.accumulate(sizes))
+    return [cost[end - size:end] for size, end in zip(sizes, ends)]
 
 
 @dataclass(frozen=True, slots=True)
@@ -328,13 +351,14 @@ class _Search:
 
     def choice(self, cost: np.ndarray) -> Choice:
         """The combination of least cost (the last member, every part rounded alone, only compared)."""
-        i = int(np.argmin(cost[:-1]))
+        i = int(cost[:-1].argmin())
+        best = float(cost[i])
         chosen = dict(self.values)
         chosen.update(zip(self.free, self.flat[self.index[:, i]].tolist()))
         return Choice(
-            values=chosen if math.isfinite(cost[i]) else None,
+            values=chosen if math.isfinite(best) else None,
             combinations=int(cost.size - 1),
-            weighted=float(cost[i]),
+            weighted=best,
             weighted_rounded=float(cost[-1]),
         )
 
@@ -342,19 +366,18 @@ class _Search:
 def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
                         tolerances: Tolerances, width: int) -> Choice | _Search:
     """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
-    or its :class:`Choice` at once when no part is free."""
-    values = topology.values_from(dict(exact))
-    free = [c.ref for c in topology.components if c.required and c.ref not in keep]
+    or its :class:`Choice` at once when no part is free. Floating-point warnings are the caller's
+    to silence (:func:`choose_standard_many` does: a far-off combination may overflow)."""
+    values = topology.values_from(exact)
+    free, groups = _free_parts(topology.part_kinds, keep, series)
     netlist = topology.build(values)
     if not free:
         h = transfer_function(netlist, w_ref=spec.w0)
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
-    part_series = [part_series_of(topology.component(r).kind, series) for r in free]
     options = [None] * len(free)
     rounded = [None] * len(free)
-    for ps in set(part_series):
-        idx = [i for i, p in enumerate(part_series) if p == ps]
+    for ps, idx in groups:
         opts, near = search_option_lists([values[free[i]] for i in idx], ps, width)
         for i, o, v in zip(idx, opts, near):
             options[i], rounded[i] = o, v
@@ -363,6 +386,17 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     # them, in one flat array taken by a combination index.
     sizes = tuple(len(o) for o in options)
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
-    with np.errstate(all="ignore"):
-        h = _option_combinations(netlist, free, flat, sizes, spec.w0)
-    return _Search(values, free, flat, _flat_combination_index(sizes), h, spec, tolerances)
+    h = _option_combinations(netlist, free, flat, sizes, spec.w0)
+    return _Search(values, list(free), flat, _flat_combination_index(sizes), h, spec, tolerances)
+
+
+@functools.lru_cache(maxsize=256)
+def _free_parts(part_kinds: tuple[tuple[str, str, bool], ...], keep: tuple[str, ...], series: str) -> tuple[tuple[str, ...], tuple[tuple[str, tuple[int, ...]], ...]]:
+    """A circuit's parts a search chooses (of its ``(ref, kind, required)``, every required part
+    not in ``keep``, in the circuit's order) and, per series they are chosen from
+    (:func:`part_series_of`), their positions among them: worked out once per circuit, pins and
+    series."""
+    free = [(ref, kind) for ref, kind, required in part_kinds if required and ref not in keep]
+    part_series = [part_series_of(kind, series) for _, kind in free]
+    groups = tuple((ps, tuple(i for i, p in enumerate(part_series) if p == ps)) for ps in dict.fromkeys(part_series))
+    return tuple(ref for ref, _ in free), groups

@@ -9,7 +9,7 @@ against ground.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from typing import Mapping
 
 from bandsmith.common.errors import InputError
@@ -125,8 +125,8 @@ class Netlist:
 
     def with_values(self, values: Mapping[str, float]) -> "Netlist":
         """A copy with some parts' values set (by reference; the others as they are)."""
-        return Netlist(tuple(replace(e, value=float(values[e.ref])) if e.ref in values else e for e in self.elements),
-                       self.ground, self.input, self.output)
+        return Netlist(tuple(Element(e.ref, e.kind, e.nodes, float(values[e.ref]), e.series_resistance, e.series_ref) if e.ref in values else e
+                             for e in self.elements), self.ground, self.input, self.output)
 
     def with_element(self, element: Element) -> "Netlist":
         """A copy with one more element (a load resistor, say)."""
@@ -146,9 +146,9 @@ class Netlist:
                 return self.output
             return tag + n
 
-        extra = tuple(
-            replace(e, ref=tag + e.ref, nodes=tuple(node(n) for n in e.nodes),
-                    series_ref=tag + e.series_ref if e.series_ref else None)
+        extra = tuple(  # (every field given: dataclasses.replace looks them up for each element)
+            Element(tag + e.ref, e.kind, tuple(node(n) for n in e.nodes), e.value, e.series_resistance,
+                    tag + e.series_ref if e.series_ref else None)
             for e in load.elements
         )
         return Netlist(self.elements + extra, self.ground, self.input, self.output)

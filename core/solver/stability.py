@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-__all__ = ["hurwitz_stable", "routh_stable"]
+__all__ = ["hurwitz_stable", "hurwitz_stable_one", "routh_stable"]
 
 
 def hurwitz_stable(den: np.ndarray) -> np.ndarray:
@@ -32,16 +32,14 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
     if b == 1:  # one polynomial (a design's chosen parts): the same arithmetic in Python floats
         return np.array([_routh(a[0].tolist(), None)])
     with np.errstate(invalid="ignore", divide="ignore"):
+        if k == 3:
+            return _quadratics_stable(a)
         a = a / a[:, :1]
         ok = np.isfinite(a[:, 0])  # every entry finite, column by column (cheaper than along rows)
         for j in range(1, k):
             ok &= np.isfinite(a[:, j])
         if k == 1:
             return ok
-        if k == 3:  # a quadratic: the two steps of the loop below written out (same arithmetic)
-            a1, a2 = a[:, 1], a[:, 2]
-            ok &= a1 > 0
-            return ok & ((a1 * a2 - 0.0) / np.where(a1 > 0, a1, 1.0) > 0)
         width = (k + 1) // 2 + 1
         r0 = np.zeros((b, width))
         r1 = np.zeros((b, width))
@@ -55,6 +53,27 @@ def hurwitz_stable(den: np.ndarray) -> np.ndarray:
             nxt[:, :-1] = (first[:, None] * r0[:, 1:] - r0[:, :1] * r1[:, 1:]) / safe[:, None]
             r0, r1 = r1, nxt
     return ok
+
+
+def hurwitz_stable_one(den: list[float]) -> bool:
+    """:func:`hurwitz_stable` of one polynomial given as a list of floats (highest power first):
+    the same answer as its batch of one, without making arrays."""
+    return _routh(den, None)
+
+
+def _quadratics_stable(den: np.ndarray) -> np.ndarray:
+    """:func:`hurwitz_stable` of quadratics ``(B, 3)``, column by column: each coefficient divided
+    by the leading one (the quotients of the whole array's division), every one finite, then the
+    loop's two steps written out, ``a1 > 0`` and ``(a1·a2 − 0·1)/a1 > 0`` (the same arithmetic;
+    the columns of the transposed view, where whole rows cost more to divide and test)."""
+    lead, c1, c2 = den.T
+    a1, a2 = c1 / lead, c2 / lead
+    ok = np.isfinite(lead / lead)  # the leading coefficient over itself: 1, or NaN where it is 0 or not finite
+    ok &= np.isfinite(a1)
+    ok &= np.isfinite(a2)
+    positive = a1 > 0
+    ok &= positive
+    return ok & ((a1 * a2 - 0.0) / np.where(positive, a1, 1.0) > 0)
 
 
 # A first-column entry of the Routh array formed as u − v with u − v below this share of |u| or
