@@ -811,3 +811,22 @@ def test_choose_level_centre_from_the_extreme_resistors_equals_the_row_reduction
         kinds = {r: r[0] for r in refs}
         series = ("E6", "E24", "E96")[trial % 3]
         assert choose_level(unit, kinds, ref_c, series) == _choose_level_by_rows(unit, kinds, ref_c, series)
+
+
+def test_the_crossing_cubics_add_the_basis_terms_in_order():
+    """The required-GBW search evaluates every candidate's interpolating cubics in one einsum
+    (gbw_search._crossings); einsum's own loop adds the four basis terms in order, so each
+    candidate's numbers are those of the terms added one by one, whatever the batch (what makes a
+    required GBW the same alone and in a chain). Checked on random errors; the basis is exactly the
+    failing point at the step's start and the passing one at its end. Common practice, no source."""
+    from bandsmith.analysis.gbw_search import _BASIS_ROWS
+
+    rng = np.random.default_rng(2)
+    for _ in range(300):
+        err = rng.normal(size=(int(rng.integers(1, 60)), 3, 4)) * 10.0 ** rng.uniform(-3, 3, size=(1, 3, 1))
+        ordered = err[:, :, 0, None] * _BASIS_ROWS[0]
+        for j in (1, 2, 3):
+            ordered = ordered + err[:, :, j, None] * _BASIS_ROWS[j]
+        assert_array_equal(np.einsum("cfj,jt->cft", err, _BASIS_ROWS, optimize=False), ordered)
+    assert _BASIS_ROWS[:, 0].tolist() == [0.0, 1.0, 0.0, 0.0]
+    assert _BASIS_ROWS[:, -1].tolist() == [0.0, 0.0, 1.0, 0.0]
