@@ -6,6 +6,7 @@ amplifier) for which a candidate's figures stay within tolerance, searched on a 
 
 from __future__ import annotations
 
+import itertools
 import math
 from typing import Sequence
 
@@ -79,7 +80,7 @@ def search_gbw_many(
     ref = items[live[0][0]][1] if len(live) == 1 else Figures.repeated([one for _, _, one in live], sizes)
     fig = _near_figures(h, ref, tolerances)
     ok = within_tolerances(fig, ref, tolerances)  # every member against its own candidate's figures
-    starts = np.cumsum([0] + sizes[:-1]).tolist()
+    starts = list(itertools.accumulate(sizes[:-1], initial=0))
     found = _conclude_many([(items[i], one, ladder, start) for (i, ladder, one), start in zip(live, starts)], fig, ok,
                            a0=a0, tolerances=tolerances)
     for (i, ladder, one), size, start, gbw in zip(live, sizes, starts, found):
