@@ -32,7 +32,7 @@ from bandsmith.analysis.tolerances import Tolerances, within_tolerances
 from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_family, transfer_function
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
-from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
+from bandsmith.solver.expansion import UNIT_OPAMP, Expansion, ExpansionUnavailable, unit_expansion_values
 from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, lead_trimmed, node_coefficients, rational_and_family, reference_w
 from bandsmith.solver.stability import routh_stable
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes_of, step_response
@@ -468,13 +468,13 @@ def _sensitivity_steps(rows: int, n_var: int, cols: tuple[int, ...]) -> np.ndarr
 
 class _Expanded(NamedTuple):
     """A candidate's first pass from its coefficient expansion, set up (:func:`_expansion_setup`):
-    the kept expansion, the natural logs of its members' ratios ``(rows, n_var)`` (member 0 the
-    nominal circuit, members ``1 + 2j``/``2 + 2j`` part ``j`` up/down by the sensitivity step and,
-    with one op-amp, a last member with ``1/ωt = 1``), the stamps absent from each member (one
-    op-amp) or None, and the number of ideal members."""
+    its netlist, the kept expansion of its structure, the natural logs of its members' ratios
+    ``(rows, n_var)`` (member 0 the nominal circuit, members ``1 + 2j``/``2 + 2j`` part ``j`` up/down
+    by the sensitivity step and, with one op-amp, a last member with ``1/ωt = 1``), the stamps
+    absent from each member (one op-amp) or None, and the number of ideal members."""
 
     netlist: Netlist
-    exp: object
+    exp: Expansion
     log_ratios: np.ndarray
     absent: np.ndarray | None
     n_ideal: int
