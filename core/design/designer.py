@@ -263,22 +263,16 @@ def design_many(topology_ids: Sequence[str], spec: Spec, **options) -> list[Desi
     return out
 
 
-def designs_or_errors(
-    topology_ids: Sequence[str],
-    spec: Spec,
-    *,
-    series: str = "E24",
-    fixed: Mapping[str, float | str] | None = None,
-    conditions: Conditions = Conditions(),
-    width: int = 1,
-) -> list[DesignResult | InputError]:
-    """:func:`design` of several circuits for one target: each chooses its parts alone, and the
-    analyses of those that got parts share one batch (:func:`bandsmith.design.candidate.analyze_candidates`);
-    each circuit's :class:`InputError` is kept in its place (a chain lists the circuits that cannot
-    build a stage, and why). ``fixed`` pins the same parts on every circuit (most callers pin none)."""
-    prepared = prepare_designs(topology_ids, spec, series=series, fixed=fixed, conditions=conditions, width=width)
+def designs_or_errors(topology_ids: Sequence[str], spec: Spec, **options) -> list[DesignResult | InputError]:
+    """:func:`design` of several circuits for one target (``options`` — ``series``, ``fixed``,
+    ``conditions``, ``width`` — as :func:`prepare_designs` takes them): each chooses its parts
+    alone, and the analyses of those that got parts share one batch
+    (:func:`bandsmith.design.candidate.analyze_candidates`); each circuit's :class:`InputError`
+    is kept in its place (a chain lists the circuits that cannot build a stage, and why).
+    ``fixed`` pins the same parts on every circuit (most callers pin none)."""
+    prepared = prepare_designs(topology_ids, spec, **options)
     ready = prepared.candidates()
-    return prepared.concluded(analyze_candidates(ready, conditions) if ready else [])
+    return prepared.concluded(analyze_candidates(ready, prepared.conditions) if ready else [])
 
 
 @dataclass(frozen=True, slots=True)
