@@ -231,18 +231,11 @@ class _Parts(NamedTuple):
     inductor: bool  # needs_inductor
 
 
-# Worked out once per topology object, keyed by its id (a topology holds a dict, so it is not
-# hashable); the entry holds the topology itself, so no other object can take its id while it lives.
-_PARTS: dict[int, tuple[Topology, _Parts]] = {}
-
-
 def _parts_of(topo: Topology) -> _Parts:
-    known = _PARTS.get(id(topo))
-    if known is None:
-        kinds = {c.ref: c.kind for c in topo.components}
-        ranged = tuple((c.ref, c.kind) for c in topo.components if c.required and c.kind in _KIND_WORDS)
-        known = _PARTS[id(topo)] = (topo, _Parts(kinds, frozenset(kinds.values()), ranged, part_count(topo), needs_inductor(topo)))
-    return known[1]
+    """What judge reads of ``topo``'s parts, from its ``part_kinds`` (made once with the topology)."""
+    kinds = {ref: kind for ref, kind, _ in topo.part_kinds}
+    ranged = tuple((ref, kind) for ref, kind, required in topo.part_kinds if required and kind in _KIND_WORDS)
+    return _Parts(kinds, frozenset(kinds.values()), ranged, part_count(topo), needs_inductor(topo))
 
 
 def _gbw_reasons(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
