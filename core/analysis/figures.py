@@ -277,11 +277,8 @@ def nominal_and_peaks_many(hs: Sequence[Rational]) -> list[tuple[Figures, np.nda
     if len(quick) > 1:  # (one alone is measured whole: the closed form over its members costs no more)
         h = Rational.joined([hs[i] for i in quick])
         num, den = h.num, h.den
-        with np.errstate(invalid="ignore", divide="ignore"):
-            h_pk, a2, a1, a0, peak, nan = _biquad_peak(num[:, -2], den[:, 0], den[:, 1], den[:, 2])
-            to_hz = h.w_ref / (2.0 * np.pi)
-            f0 = np.sqrt(a0 / a2 * nan) * to_hz
-            peaks = np.stack([f0, f0 / (a1 / a2 * nan * to_hz), np.abs(h_pk)])
+        *values, peak = _biquad_peak_values(h)
+        peaks = np.stack(values)
         starts, whole, start = [], [], 0
         for i in quick:
             stop = start + hs[i].batch
@@ -339,16 +336,23 @@ def biquad_peak_figures(h: Rational) -> tuple[np.ndarray, np.ndarray, np.ndarray
     the whole batch through its polynomial roots. None when a member is not such a band-pass."""
     if not _biquad_shaped(h):
         return None
+    f0, q, mag, _ = _biquad_peak_values(h)
+    with np.errstate(divide="ignore"):
+        db = np.log10(mag)
+    db *= 20.0
+    db[mag == 0] = np.nan
+    return f0, q, db
+
+
+def _biquad_peak_values(h: Rational) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """``(f0 in Hz, Q, |H| at the peak, has a peak)`` of second-order band-passes
+    ``b1·p / (a2·p² + a1·p + a0)`` (:func:`_biquad_shaped`), by :func:`measure`'s closed-form
+    operations (:func:`_biquad_parts`, :func:`figures_at`): NaN where there is no peak."""
     with np.errstate(invalid="ignore", divide="ignore"):
-        h_pk, a2, a1, a0, _, nan = _biquad_peak(h.num[:, -2], h.den[:, 0], h.den[:, 1], h.den[:, 2])
-        mag = np.abs(h_pk)
+        h_pk, a2, a1, a0, peak, nan = _biquad_peak(h.num[:, -2], h.den[:, 0], h.den[:, 1], h.den[:, 2])
         to_hz = h.w_ref / (2.0 * np.pi)
         f0 = np.sqrt(a0 / a2 * nan) * to_hz
-        q = f0 / (a1 / a2 * nan * to_hz)
-        db = np.log10(mag)
-        db *= 20.0
-        db[mag == 0] = np.nan
-    return f0, q, db
+        return f0, f0 / (a1 / a2 * nan * to_hz), np.abs(h_pk), peak
 
 
 def biquad_figures(b1, a2, a1, a0, w_ref) -> tuple[Figures, np.ndarray]:
