@@ -23,7 +23,6 @@ the batch:
 from __future__ import annotations
 
 import functools
-import math
 from dataclasses import dataclass, fields, replace
 from typing import Sequence
 
@@ -85,15 +84,10 @@ class Figures:
         return Figures(*[float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)) for v in values])
 
     def to_json(self, i: int = 0) -> dict:
-        """The README's FIGURES object for member ``i`` (None where a figure is undefined).
-
-        Fields that are float64 arrays give their member as a float straight away (``item``, the
-        flat index, as ``reshape(-1)[i]``); other values through ``numpy.asarray``."""
-        values = (self.f0_hz, self.q, self.bw_hz, self.f_low_hz, self.f_high_hz, self.gain_center,
-                  self.gain_center_db, self.phase_center_deg)
-        if all(type(v) is np.ndarray and v.dtype == np.float64 for v in values):
-            return {name: x if math.isfinite(x) else None for name, x in zip(_FIELDS, [v.item(i) for v in values])}
-        return {name: finite_or_none(np.asarray(v).reshape(-1)[i]) for name, v in zip(_FIELDS, values)}
+        """The README's FIGURES object for member ``i`` (None where a figure is undefined): the
+        floats of :meth:`item`."""
+        one = self.item(i)
+        return {name: finite_or_none(getattr(one, name)) for name in _FIELDS}
 
     @property
     def valid(self) -> np.ndarray:
