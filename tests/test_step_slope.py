@@ -1,5 +1,7 @@
 """The largest step slope (the impulse response's peak) against scipy.signal.impulse."""
 
+import warnings
+
 import numpy as np
 import pytest
 import scipy.signal
@@ -109,3 +111,17 @@ def test_step_response_with_finite_op_amps_matches_scipy(circuit, gbw_hz):
     scale_y, scale_h = np.max(np.abs(y)), np.max(np.abs(imp))
     np.testing.assert_allclose(got.y, y, atol=1e-7 * scale_y)
     np.testing.assert_allclose(got.slope_per_s, imp, atol=1e-7 * scale_h)
+
+
+def test_an_unstable_circuit_grows_without_numpy_warnings():
+    # (s − 1)(s² + 0.1·s + 1) in the denominator: a pole at +1 rad/s, so the step response grows
+    # as e^t (common practice, no source: a right-half-plane pole is an oscillator's, not a filter's);
+    # over a long grid it outgrows the largest double, which is not an arithmetic fault to warn of
+    den = np.polymul([1.0, -1.0], [1.0, 0.1, 1.0])
+    h = Rational(np.array([[0.0, 1.0, 0.0]]), den[None, :], np.array([1.0]))
+    t = np.linspace(0.0, 2000.0, 4001)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        step = step_response(h, t)
+    assert step.y[10] == pytest.approx(float(scipy.signal.step(([1.0, 0.0], den), T=t[:11])[1][10]), rel=1e-9)
+    assert not np.all(np.isfinite(step.y))  # e^2000 is beyond any double

@@ -82,16 +82,27 @@ class _Modes:
     and ``2r/λ = C + jD``, ``h = e^{σt}·(A·cos ωt − B·sin ωt)`` and
     ``y = e^{σt}·(C·cos ωt − D·sin ωt) − C``. A real pole (an op-amp's, mostly) gives
     ``h = r·e^{λt}`` and ``y = (r/λ)·(e^{λt} − 1)``; ``y`` starts from the direct term ``D_∞``.
-    All in real arithmetic, each pole's row over the times at once.
+    All in real arithmetic, each pole's row over the times at once. A pole in the right
+    half-plane (an unstable candidate) makes its mode outgrow the largest double late in the
+    grid: the responses are infinite or NaN there, as the growth they describe, without a warning.
     """
 
-    __slots__ = ("a", "poles", "size", "pair", "real_lam", "real_exp", "pair_lam", "pair_cos", "pair_sin")
+    __slots__ = ("a", "poles", "size", "grows", "pair", "real_lam", "real_exp", "pair_lam", "pair_cos", "pair_sin")
 
     def __init__(self, a: np.ndarray, t: np.ndarray, p: np.ndarray):
         p = p[p.imag >= 0]
         self.a = a
         self.poles = p.tolist()
         self.size = t.size
+        self.grows = any(z.real > 0 for z in self.poles)
+        if self.grows:
+            with np.errstate(over="ignore", invalid="ignore"):
+                self._modes(t, p)
+        else:
+            self._modes(t, p)
+
+    def _modes(self, t: np.ndarray, p: np.ndarray) -> None:
+        """Each pole's mode over the times ``t`` (the upper poles ``p``)."""
         self.pair = pair = p.imag > 0
         self.real_lam = self.real_exp = self.pair_lam = self.pair_cos = self.pair_sin = None
         if not pair.all():  # real poles (a real point keeps a zero imaginary part)
@@ -108,6 +119,12 @@ class _Modes:
 
     def responses(self, b: np.ndarray, *, step: bool = True) -> tuple[np.ndarray | None, np.ndarray]:
         """``(y, h)``: the unit-step response (None without ``step``) and the impulse response."""
+        if self.grows:
+            with np.errstate(over="ignore", invalid="ignore"):
+                return self._responses(b, step)
+        return self._responses(b, step)
+
+    def _responses(self, b: np.ndarray, step: bool) -> tuple[np.ndarray | None, np.ndarray]:
         a = self.a
         direct = 0.0
         if b.size >= a.size:
