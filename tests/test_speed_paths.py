@@ -619,6 +619,27 @@ def test_family_shifted_terms_in_one_step_are_the_terms_written_one_by_one():
             assert zero == want.shape[1] - _lead_trim(want).shape[1]
 
 
+def test_lead_trim_of_one_row_is_the_general_trim():
+    """_lead_trim's one-row path (a member taken alone from a padded batch) against the rule it
+    states, written out on the columns: every leading all-zero column dropped, at least one kept
+    (rows of zeros, NaN and signed zeros included)."""
+    from bandsmith.solver.rational import _lead_trim
+
+    rng = np.random.default_rng(11)
+    for _ in range(3000):
+        row = rng.normal(size=int(rng.integers(1, 10)))
+        row[: int(rng.integers(0, row.size + 1))] = 0.0
+        if rng.random() < 0.1:
+            row[int(rng.integers(0, row.size))] = np.nan
+        if rng.random() < 0.1:
+            row[: int(rng.integers(0, row.size + 1))] = -0.0
+        c = row[None, :]
+        nonzero = [k for k in range(row.size) if row[k] != 0]
+        want = c[:, nonzero[0] :] if nonzero else c[:, -1:]
+        assert_array_equal(_lead_trim(c), want)
+        assert _lead_trim(c).shape == want.shape
+
+
 @pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
 def test_step_slopes_from_node_coefficients_lists_equal_those_of_the_rational(circuit):
     """The amplifier needs' list path (node_coefficients, max_step_slopes_of) against the arrays

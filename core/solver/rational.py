@@ -292,6 +292,9 @@ def _lead_trim(c: np.ndarray, expected: int = 0) -> np.ndarray:
         return c[:, expected:]
     if c.shape[1] < 2 or np.count_nonzero(c[:, 0]):
         return c
+    if c.shape[0] == 1:  # one row (a member taken alone from a padded batch): its first nonzero in plain floats
+        row = c[0].tolist()
+        return c[:, next((k for k, v in enumerate(row) if v != 0), len(row) - 1) :]
     nz = np.flatnonzero((c != 0).any(axis=0))
     return c[:, nz[0] :] if nz.size else c[:, -1:]
 
