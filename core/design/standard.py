@@ -38,7 +38,7 @@ from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
 
-__all__ = ["Choice", "errors_of", "errors_of_one", "figure_misses", "weighted_error", "choose_standard", "choose_standard_many", "part_series_of"]
+__all__ = ["Choice", "errors_of", "errors_of_one", "figure_misses", "weighted_error", "choose_standard", "choose_standard_many", "choose_standard_groups", "part_series_of"]
 
 
 # Batches up to this size are measured by exact roots (global, and cheaper there), larger on a grid.
@@ -168,11 +168,8 @@ def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tupl
         return _combinations(netlist, dict(zip(free, flat[index])), w_ref)
     # the logs of every value a combination can hold, in one array: the free parts' options and
     # nearest values over their unit values, then the other variables' own ratios
-    per_entry, held, gather = _log_plan(exp, tuple(free), sizes)
-    ratios = flat / per_entry
-    if held:
-        ratios = np.concatenate([ratios, [own[j] / unit for j, unit in held]])
-    return exp.rational_log(np.log(ratios)[gather], w_ref=w_ref)
+    plan = _log_plan(exp, tuple(free), sizes)
+    return exp.rational_log(np.log(_log_entries(flat, own, plan))[plan[2]], w_ref=w_ref)
 
 
 @functools.lru_cache(maxsize=64)
@@ -260,24 +257,56 @@ def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
     combination that has no peak (a zero ``a1``: never stable, so never chosen), whose other
     combinations measure_many would take through polynomial roots, a few units in the last place
     apart."""
+    return choose_standard_groups([items])[0]
+
+
+def choose_standard_groups(groups: Sequence[Sequence[tuple]]) -> list[list[Choice]]:
+    """:func:`choose_standard_many` of each group of items (a chain's stages, each with its
+    circuits), the same choices: where the closed form serves every group that
+    choose_standard_many would cost by it, their costs come from one closed-form batch over all
+    of them. The closed form's operations are element by element (each member's costs the same
+    numbers in any batch), and a joined batch takes it only where each group alone would (every
+    member of the joined batch a second-order band-pass); else each group is costed as alone."""
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
-        made = [_combination_search(*item) for item in items]
-        live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
-        by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
-        if live and len(by_roots) == len(live):
-            peaks = _peak_costs([made[i] for i in live])
-            if peaks is not None:  # every combination a second-order band-pass: the closed form
-                for i, cost in zip(live, peaks):
-                    made[i] = made[i].choice(cost)
-                return made
-        # exact polynomial roots up to a few thousand members; a grid around the target beyond
-        figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
-        figs.update((i, measure(made[i].h, grid=search_grid(made[i].spec.q))) for i in live if i not in figs)
-        for group in _same_width(made, live):
-            costs = _costs([made[i] for i in group], [figs[i] for i in group])
-            for i, cost in zip(group, costs):
-                made[i] = made[i].choice(cost)
+        every = iter(_combination_searches([item for items in groups for item in items]))
+        made = [[next(every) for _ in items] for items in groups]
+        lives = [[i for i, m in enumerate(ms) if isinstance(m, _Search)] for ms in made]
+        peaked = [g for g, (ms, live) in enumerate(zip(made, lives))
+                  if live and all(ms[i].h.batch <= _ROOTS_UP_TO for i in live)]
+        if len(peaked) > 1:
+            joined = [made[g][i] for g in peaked for i in lives[g]]
+            peaks = _peak_costs(joined)
+            if peaks is not None:  # every combination of every such group a second-order band-pass
+                costs = iter(peaks)
+                for g in peaked:
+                    for i in lives[g]:
+                        made[g][i] = made[g][i].choice(next(costs))
+                peaked = []
+        for g, (ms, live) in enumerate(zip(made, lives)):
+            if live and isinstance(ms[live[0]], _Search):  # (not yet chosen above)
+                _choose_searches(ms, live, g in peaked)
     return made
+
+
+def _choose_searches(made: list, live: list[int], by_peaks: bool) -> None:
+    """The searches ``live`` of ``made`` replaced by their choices (:func:`choose_standard_many`'s
+    rule: by the closed form where ``by_peaks`` (each small enough for exact roots) and every
+    combination is a second-order band-pass, else measured). Floating-point warnings are the
+    caller's to silence."""
+    if by_peaks:
+        peaks = _peak_costs([made[i] for i in live])
+        if peaks is not None:  # every combination a second-order band-pass: the closed form
+            for i, cost in zip(live, peaks):
+                made[i] = made[i].choice(cost)
+            return
+    by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
+    # exact polynomial roots up to a few thousand members; a grid around the target beyond
+    figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
+    figs.update((i, measure(made[i].h, grid=search_grid(made[i].spec.q))) for i in live if i not in figs)
+    for group in _same_width(made, live):
+        costs = _costs([made[i] for i in group], [figs[i] for i in group])
+        for i, cost in zip(group, costs):
+            made[i] = made[i].choice(cost)
 
 
 def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
@@ -368,6 +397,71 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
     or its :class:`Choice` at once when no part is free. Floating-point warnings are the caller's
     to silence (:func:`choose_standard_many` does: a far-off combination may overflow)."""
+    return _combination_searches([(topology, exact, spec, series, keep, tolerances, width)])[0]
+
+
+def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
+    """:func:`_combination_search` of each item ``(topology, exact, spec, series, keep,
+    tolerances, width)``: the same searches, the transfer functions of those that share a kept
+    expansion, free parts and option counts (a chain's stages on one circuit) made in one stacked
+    batch (:meth:`bandsmith.solver.expansion.Expansion.rational_log_stacked`, each batch's
+    numbers as alone). Their log ratios come from one logarithm of all their flat entries and one
+    gather (each value's log is the same wherever it sits, :func:`_option_combinations`)."""
+    out: list = [None] * len(items)
+    stacks: dict[tuple, list] = {}
+    for k, item in enumerate(items):
+        made = _search_setup(*item)
+        if isinstance(made, Choice):
+            out[k] = made
+            continue
+        values, free, netlist, flat, sizes, spec, tolerances = made
+        index = _flat_combination_index(sizes)
+        try:
+            exp, own = unit_expansion_values(netlist)
+        except ExpansionUnavailable:
+            exp = None
+        if exp is None or index.shape[1] > SMALL_BATCH:
+            h = _combinations(netlist, dict(zip(free, flat[index])), spec.w0)
+            out[k] = _Search(values, list(free), flat, index, h, spec, tolerances)
+            continue
+        plan = _log_plan(exp, free, sizes)
+        stacks.setdefault((id(exp), free, sizes), []).append((k, exp, plan, _log_entries(flat, own, plan), made))
+    for group in stacks.values():
+        k0, exp, (_, _, gather), _, (_, free, _, _, sizes, _, _) = group[0]
+        index = _flat_combination_index(sizes)
+        if len(group) == 1:
+            entries, spec = group[0][3], group[0][4][5]
+            hs = [exp.rational_log(np.log(entries)[gather], w_ref=spec.w0)]
+        else:  # one log of every member's entries, one gather of their rows (the stack's batch g at g · entries)
+            n = group[0][3].size
+            logs = np.log(np.concatenate([g[3] for g in group]))
+            hs = exp.rational_log_stacked(logs[gather + _stack_offsets(len(group), n)], [g[4][5].w0 for g in group])
+        for (k, _, _, _, (values, _, _, flat, _, spec, tolerances)), h in zip(group, hs):
+            out[k] = _Search(values, list(free), flat, index, h, spec, tolerances)
+    return out
+
+
+def _stack_offsets(g: int, n: int) -> np.ndarray:
+    """``(g, 1, 1)`` offsets ``0, n, 2n, …`` that take one gather's positions to each of ``g``
+    stacked copies of ``n`` entries."""
+    return (np.arange(g, dtype=np.intp) * n)[:, None, None]
+
+
+def _log_entries(flat: np.ndarray, own: list[float], plan: tuple) -> np.ndarray:
+    """The ratios whose logs :func:`_option_combinations` gathers: the free parts' flat entries
+    over their unit values, then the held variables' own values over theirs."""
+    per_entry, held, _ = plan
+    ratios = flat / per_entry
+    if held:
+        ratios = np.concatenate([ratios, [own[j] / unit for j, unit in held]])
+    return ratios
+
+
+def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
+                  tolerances: Tolerances, width: int) -> Choice | tuple:
+    """A search up to its transfer functions: ``(values, free, netlist, flat, sizes, spec,
+    tolerances)`` (each free part's options and then its nearest value, part after part, in
+    ``flat``; ``sizes`` the option counts), or the :class:`Choice` at once when no part is free."""
     values = topology.values_from(exact)
     free, groups = _free_parts(topology.part_kinds, keep, series)
     netlist = topology.build(values)
@@ -386,8 +480,7 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     # them, in one flat array taken by a combination index.
     sizes = tuple(len(o) for o in options)
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
-    h = _option_combinations(netlist, free, flat, sizes, spec.w0)
-    return _Search(values, list(free), flat, _flat_combination_index(sizes), h, spec, tolerances)
+    return values, free, netlist, flat, sizes, spec, tolerances
 
 
 @functools.lru_cache(maxsize=256)
