@@ -884,3 +884,41 @@ def test_the_crossing_cubics_add_the_basis_terms_in_order():
         assert_array_equal(np.einsum("cfj,jt->cft", err, _BASIS_ROWS, optimize=False), ordered)
     assert _BASIS_ROWS[:, 0].tolist() == [0.0, 1.0, 0.0, 0.0]
     assert _BASIS_ROWS[:, -1].tolist() == [0.0, 0.0, 1.0, 0.0]
+
+
+def test_netlist_nodes_and_refusals_follow_the_rule_written_out():
+    """Netlist's nodes (every node but ground and the input, in the order first met, found through
+    a dict) against the rule written out node by node, on every circuit and its netlist driving
+    another; and its refusals: a reference used twice, an output not connected. Element's checks
+    in their order: an unknown kind, a node count, a value, both ends on one node, a series
+    resistance. Our own contract, no outside source."""
+    import math
+
+    from bandsmith.common.errors import InputError
+    from bandsmith.solver.netlist import Element, Netlist
+
+    def rule(net):
+        seen = []
+        for e in net.elements:
+            for n in e.nodes:
+                if n not in seen and n not in (net.ground, net.input):
+                    seen.append(n)
+        return tuple(seen)
+
+    for circuit in topology_ids():
+        topo = get_topology(circuit)
+        net = topo.build(topo.values_from(topo.example))
+        assert net.nodes == rule(net)
+        joined = net.driving(get_topology("mfb").build(get_topology("mfb").values_from(get_topology("mfb").example)))
+        assert joined.nodes == rule(joined)
+    r = Element("R1", "R", ("in", "out"), 1e3)
+    with pytest.raises(InputError, match="used twice"):
+        Netlist((r, r))
+    with pytest.raises(InputError, match="not connected"):
+        Netlist((Element("R1", "R", ("in", "a"), 1e3),))
+    for args, words in ((("X1", "Q", ("a", "b", "c", "d")), "unknown element kind"), (("R1", "R", ("a",), -1.0), "has 2 nodes"),
+                        (("U1", "opamp", ("a", "b")), "has 3 nodes"), (("R1", "R", ("a", "a"), -1.0), "not a usable value"),
+                        (("R1", "R", ("a", "a"), 1.0), "same node"), (("L1", "L", ("a", "b"), 1e-3, -1.0), "series resistance"),
+                        (("U1", "opamp", ("a", "b", "c"), 0.0, math.nan), "series resistance")):
+        with pytest.raises(InputError, match=words):
+            Element(*args)
