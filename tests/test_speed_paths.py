@@ -313,6 +313,30 @@ def test_stacked_search_rationals_equal_each_batch_alone(circuit):
             assert_array_equal(mine.w_ref, ref.w_ref)
 
 
+@pytest.mark.parametrize("circuit", sorted(topology_ids()))
+def test_search_expansion_is_the_netlists_own(circuit):
+    """standard._search_expansion (a circuit's kept expansion and its variables' names made once
+    per circuit and optional parts at zero, the variables' values read from the parts) against
+    unit_expansion_values of the netlist built from the same values: the same expansion and
+    values, exactly, at random values with an optional part at zero and above it. A consistency
+    check of our own two paths, no outside source."""
+    from bandsmith.design import standard
+    from bandsmith.solver.expansion import unit_expansion_values
+
+    topo = get_topology(circuit)
+    rng = np.random.default_rng(3)
+    optional = [ref for ref, _, required in topo.part_kinds if not required]
+    for trial in range(6):
+        values = {ref: v * float(np.exp(rng.uniform(-1, 1))) for ref, v in topo.example.items() if v > 0}
+        for ref in optional:
+            values[ref] = 0.0 if trial % 2 else 3.3 * (trial + 1)
+        values = topo.values_from(values)
+        exp, own = standard._search_expansion(topo, values)
+        ref_exp, ref_own = unit_expansion_values(topo.build(values))
+        assert exp is ref_exp
+        assert own == ref_own
+
+
 @pytest.mark.parametrize("series", ["E12", "E24", "E96"])
 def test_standard_searches_of_several_targets_equal_each_target_alone(series):
     """choose_standard_groups (a chain's stages: every target's circuits, the searches of one

@@ -31,7 +31,7 @@ import numpy as np
 
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
-from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion, unit_expansion_values
+from bandsmith.solver.expansion import SMALL_BATCH, Expansion, ExpansionUnavailable, unit_expansion, unit_expansion_values
 from bandsmith.analysis.figures import Figures, biquad_peak_figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
@@ -408,36 +408,31 @@ def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
     numbers as alone). Their log ratios come from one logarithm of all their flat entries and one
     gather (each value's log is the same wherever it sits, :func:`_option_combinations`)."""
     out: list = [None] * len(items)
-    stacks: dict[tuple, list] = {}
+    stacks: dict[tuple, list[tuple[int, _Setup, np.ndarray]]] = {}
     for k, item in enumerate(items):
         made = _search_setup(*item)
         if isinstance(made, Choice):
             out[k] = made
             continue
-        values, free, netlist, flat, sizes, spec, tolerances = made
-        index = _flat_combination_index(sizes)
-        try:
-            exp, own = unit_expansion_values(netlist)
-        except ExpansionUnavailable:
-            exp = None
+        index = _flat_combination_index(made.sizes)
+        exp, own = _search_expansion(made.topology, made.values)
         if exp is None or index.shape[1] > SMALL_BATCH:
-            h = _combinations(netlist, dict(zip(free, flat[index])), spec.w0)
-            out[k] = _Search(values, list(free), flat, index, h, spec, tolerances)
+            h = _combinations(made.topology.build(made.values), dict(zip(made.free, made.flat[index])), made.spec.w0)
+            out[k] = made.search(h)
             continue
-        plan = _log_plan(exp, free, sizes)
-        stacks.setdefault((id(exp), free, sizes), []).append((k, exp, plan, _log_entries(flat, own, plan), made))
-    for group in stacks.values():
-        k0, exp, (_, _, gather), _, (_, free, _, _, sizes, _, _) = group[0]
-        index = _flat_combination_index(sizes)
+        entries = _log_entries(made.flat, own, _log_plan(exp, made.free, made.sizes))
+        stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, entries))
+    for (exp, free, sizes), group in stacks.items():
+        gather = _log_plan(exp, free, sizes)[2]
         if len(group) == 1:
-            entries, spec = group[0][3], group[0][4][5]
-            hs = [exp.rational_log(np.log(entries)[gather], w_ref=spec.w0)]
+            _, made, entries = group[0]
+            hs = [exp.rational_log(np.log(entries)[gather], w_ref=made.spec.w0)]
         else:  # one log of every member's entries, one gather of their rows (the stack's batch g at g · entries)
-            n = group[0][3].size
-            logs = np.log(np.concatenate([g[3] for g in group]))
-            hs = exp.rational_log_stacked(logs[gather + _stack_offsets(len(group), n)], [g[4][5].w0 for g in group])
-        for (k, _, _, _, (values, _, _, flat, _, spec, tolerances)), h in zip(group, hs):
-            out[k] = _Search(values, list(free), flat, index, h, spec, tolerances)
+            logs = np.log(np.concatenate([entries for _, _, entries in group]))
+            stacked = logs[gather + _stack_offsets(len(group), group[0][2].size)]
+            hs = exp.rational_log_stacked(stacked, [made.spec.w0 for _, made, _ in group])
+        for (k, made, _), h in zip(group, hs):
+            out[k] = made.search(h)
     return out
 
 
@@ -457,16 +452,72 @@ def _log_entries(flat: np.ndarray, own: list[float], plan: tuple) -> np.ndarray:
     return ratios
 
 
+# per circuit build and optional parts at zero: its kept unit expansion and its variables' names,
+# or None where the expansion does not apply (_search_expansion)
+_STRUCTURES: dict[tuple, tuple | None] = {}
+
+
+def _search_expansion(topology: Topology, values: Mapping[str, float]) -> tuple[Expansion | None, list[float] | None]:
+    """:func:`bandsmith.solver.expansion.unit_expansion_values` of the circuit's netlist
+    ``topology.build(values)`` (``values`` complete, as :meth:`Topology.values_from` gives them):
+    its kept unit expansion and its variables' own values, or ``(None, None)`` where the
+    expansion does not apply.
+
+    Made once per circuit and set of optional parts at zero, the netlist's structure: a circuit's
+    build places every part at its own node and reference, its value the element's (an inductor's
+    winding resistance its series resistance, a variable only when above zero); so the expansion
+    and its variables' names are those of the first such netlist, and each variable's own value
+    is the part's (checked on that first netlist: where a variable's value is not the part of
+    its name, every netlist is built and looked up as before)."""
+    key = (topology.build, tuple(ref for ref, _, required in topology.part_kinds if not required and values[ref] == 0.0))
+    known = _STRUCTURES.get(key, False)
+    if known is False:
+        try:
+            exp, own = unit_expansion_values(topology.build(values))
+        except ExpansionUnavailable:
+            _STRUCTURES[key] = None
+            return None, None
+        names = tuple(u.name for u in exp.variables)
+        by_name = all(name in values and values[name] == v for name, v in zip(names, own))
+        _STRUCTURES[key] = (exp, names) if by_name else ("build",)
+        return exp, own
+    if known is None:
+        return None, None
+    if len(known) == 1:  # (a circuit whose variables are not its parts: its netlist looked up)
+        try:
+            return unit_expansion_values(topology.build(values))
+        except ExpansionUnavailable:
+            return None, None
+    exp, names = known
+    return exp, [values[name] for name in names]
+
+
+@dataclass(frozen=True, slots=True)
+class _Setup:
+    """A search up to its transfer functions (:func:`_search_setup`): each free part's options and
+    then its nearest value, part after part, in ``flat``; ``sizes`` the option counts."""
+
+    topology: Topology
+    values: dict[str, float]
+    free: tuple[str, ...]
+    flat: np.ndarray
+    sizes: tuple[int, ...]
+    spec: Spec
+    tolerances: Tolerances
+
+    def search(self, h: Rational) -> _Search:
+        """The search with the transfer functions ``h`` of its combinations."""
+        return _Search(self.values, list(self.free), self.flat, _flat_combination_index(self.sizes), h, self.spec, self.tolerances)
+
+
 def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
-                  tolerances: Tolerances, width: int) -> Choice | tuple:
-    """A search up to its transfer functions: ``(values, free, netlist, flat, sizes, spec,
-    tolerances)`` (each free part's options and then its nearest value, part after part, in
-    ``flat``; ``sizes`` the option counts), or the :class:`Choice` at once when no part is free."""
+                  tolerances: Tolerances, width: int) -> Choice | _Setup:
+    """A search up to its transfer functions (:class:`_Setup`), or the :class:`Choice` at once
+    when no part is free."""
     values = topology.values_from(exact)
     free, groups = _free_parts(topology.part_kinds, keep, series)
-    netlist = topology.build(values)
     if not free:
-        h = transfer_function(netlist, w_ref=spec.w0)
+        h = transfer_function(topology.build(values), w_ref=spec.w0)
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
     options = [None] * len(free)
@@ -480,7 +531,7 @@ def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, se
     # them, in one flat array taken by a combination index.
     sizes = tuple(len(o) for o in options)
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
-    return values, free, netlist, flat, sizes, spec, tolerances
+    return _Setup(topology, values, free, flat, sizes, spec, tolerances)
 
 
 @functools.lru_cache(maxsize=256)
