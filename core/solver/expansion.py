@@ -821,22 +821,33 @@ class Expansion:
         powers of its own ``k``, the same ``pow`` of the same two numbers (``k = 1`` where a batch
         keeps the expansion's ``w_e``: a product by 1 is exact); each member is scaled by its
         largest denominator coefficient (:meth:`_rational`: a maximum rounds nothing), the same
-        quotients. The Rationals are views of the stack's arrays."""
+        quotients. Those steps go coefficient by coefficient, over ``(G, B)`` at a time (numpy
+        loops slowly over a last axis of two or three). The Rationals are views of the stack's
+        arrays."""
         num, den = self.dense_log(log_ratios)
-        g = num.shape[0]
         ks = [1.0 if w == self.w_ref else w / self.w_ref for w in w_refs]
+        by_column = num.shape[1] >= 64  # (short batches: fewer calls over the whole arrays)
         if any(k != 1.0 for k in ks):
-            k = np.array(ks)[:, None, None]
-            num *= k ** np.arange(num.shape[2] - 1, -1, -1.0)
-            den *= k ** np.arange(den.shape[2] - 1, -1, -1.0)
-        scale = np.abs(den[:, :, 0])  # (column by column, as _row_abs_max: the same maxima)
+            k = np.array(ks)[:, None]
+            for c in (num, den):
+                powers = k ** np.arange(c.shape[2] - 1, -1, -1.0)  # (G, coefficients)
+                if not by_column:
+                    c *= powers[:, None, :]
+                    continue
+                for j in range(c.shape[2]):
+                    c[:, :, j] *= powers[:, j : j + 1]
+        scale = np.abs(den[:, :, 0])  # (as _row_abs_max: the same maxima)
         for j in range(1, den.shape[2]):
             np.maximum(scale, np.abs(den[:, :, j]), out=scale)
         with np.errstate(invalid="ignore", divide="ignore"):
-            num = num / scale[:, :, None]
-            den = den / scale[:, :, None]
+            for c in (num, den):
+                if not by_column:
+                    c /= scale[:, :, None]
+                    continue
+                for j in range(c.shape[2]):
+                    np.divide(c[:, :, j], scale, out=c[:, :, j])
         b = num.shape[1]
-        return [Rational(num[i], den[i], np.full(b, float(w_refs[i]))) for i in range(g)]
+        return [Rational(num[i], den[i], np.full(b, float(w))) for i, w in enumerate(w_refs)]
 
     def _rational(self, num: np.ndarray, den: np.ndarray, w_ref: float | None) -> Rational:
         """Dense coefficients in ``p = s/w_ref`` as a :class:`Rational`, each member scaled so that
