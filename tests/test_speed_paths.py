@@ -288,6 +288,84 @@ def test_standard_searches_made_together_equal_each_made_alone(series):
         assert choice == choose_standard(topo, exact, spec_, series_, keep=keep, tolerances=tol, width=width), topo.id
 
 
+@pytest.mark.parametrize("circuit", sorted(topology_ids()))
+def test_stacked_search_rationals_equal_each_batch_alone(circuit):
+    """Expansion.rational_log_stacked (several batches of one circuit's log ratios in one stack,
+    each at its own w_ref, one of them the expansion's own) against rational_log of each batch
+    alone: the same coefficients and w_ref bit for bit, a non-finite log (a ratio of zero)
+    included. A consistency check of our own two paths, no outside source."""
+    from bandsmith.solver.expansion import unit_expansion_values
+
+    topo = get_topology(circuit)
+    exp, own = unit_expansion_values(topo.build(topo.values_from(topo.example)))
+    rng = np.random.default_rng(11)
+    for b in (3, 70, 600):
+        logs = np.log(own)[None, None, :] - np.log([u.value for u in exp.variables]) + rng.normal(0.0, 0.4, (5, b, len(own)))
+        logs[2, 1, 0] = -np.inf
+        w_refs = [float(w) for w in 2e4 * np.exp(rng.uniform(-2, 2, 5))]
+        w_refs[3] = exp.w_ref
+        with np.errstate(all="ignore"):
+            stacked = exp.rational_log_stacked(logs.copy(), w_refs)
+            alone = [exp.rational_log(logs[g].copy(), w_ref=w) for g, w in enumerate(w_refs)]
+        for mine, ref in zip(stacked, alone):
+            assert_array_equal(mine.num, ref.num)
+            assert_array_equal(mine.den, ref.den)
+            assert_array_equal(mine.w_ref, ref.w_ref)
+
+
+@pytest.mark.parametrize("circuit", sorted(topology_ids()))
+def test_search_expansion_is_the_netlists_own(circuit):
+    """standard._search_expansion (a circuit's kept expansion and its variables' names made once
+    per circuit and optional parts at zero, the variables' values read from the parts) against
+    unit_expansion_values of the netlist built from the same values: the same expansion and
+    values, exactly, at random values with an optional part at zero and above it. A consistency
+    check of our own two paths, no outside source."""
+    from bandsmith.design import standard
+    from bandsmith.solver.expansion import unit_expansion_values
+
+    topo = get_topology(circuit)
+    rng = np.random.default_rng(3)
+    optional = [ref for ref, _, required in topo.part_kinds if not required]
+    for trial in range(6):
+        values = {ref: v * float(np.exp(rng.uniform(-1, 1))) for ref, v in topo.example.items() if v > 0}
+        for ref in optional:
+            values[ref] = 0.0 if trial % 2 else 3.3 * (trial + 1)
+        values = topo.values_from(values)
+        exp, own = standard._search_expansion(topo, values)
+        ref_exp, ref_own = unit_expansion_values(topo.build(values))
+        assert exp is ref_exp
+        assert own == ref_own
+
+
+@pytest.mark.parametrize("series", ["E12", "E24", "E96"])
+def test_standard_searches_of_several_targets_equal_each_target_alone(series):
+    """choose_standard_groups (a chain's stages: every target's circuits, the searches of one
+    circuit stacked over the targets, one closed-form batch) against choose_standard_many target
+    by target: the same Choices, exactly. A consistency check of our own two paths, no outside
+    source."""
+    from bandsmith.analysis.tolerances import Tolerances
+    from bandsmith.circuits import all_topologies
+    from bandsmith.circuits.synthesis import Infeasible
+    from bandsmith.design.designer import Spec
+    from bandsmith.design.standard import choose_standard_groups, choose_standard_many
+
+    groups = []
+    for f0, q, gain in ((38e3, 1.3, 1.5), (44e3, 2.6, 2.0), (35e3, 4.1, 1.0), (51e3, 6.5, 3.0)):
+        spec = Spec(f0, q, gain)
+        items = []
+        for topo in all_topologies():
+            try:
+                exact = topo.values_from(dict(topo.synthesize(spec, {}, series=series)))
+            except Infeasible:  # a target this circuit cannot meet
+                continue
+            items.append((topo, exact, spec, series, (), Tolerances(f0=0.01 / q, q=0.03), 1))
+        groups.append(items)
+    together = choose_standard_groups(groups)
+    assert [len(c) for c in together] == [len(g) for g in groups]
+    for items, choices in zip(groups, together):
+        assert choices == choose_standard_many(items)
+
+
 @pytest.mark.parametrize("width", [1, 2])
 @pytest.mark.parametrize("series", ["E12", "E24", "E96"])
 def test_closed_form_search_costs_are_the_measured_figures_costs(series, width):
@@ -851,3 +929,41 @@ def test_the_crossing_cubics_add_the_basis_terms_in_order():
         assert_array_equal(np.einsum("cfj,jt->cft", err, _BASIS_ROWS, optimize=False), ordered)
     assert _BASIS_ROWS[:, 0].tolist() == [0.0, 1.0, 0.0, 0.0]
     assert _BASIS_ROWS[:, -1].tolist() == [0.0, 0.0, 1.0, 0.0]
+
+
+def test_netlist_nodes_and_refusals_follow_the_rule_written_out():
+    """Netlist's nodes (every node but ground and the input, in the order first met, found through
+    a dict) against the rule written out node by node, on every circuit and its netlist driving
+    another; and its refusals: a reference used twice, an output not connected. Element's checks
+    in their order: an unknown kind, a node count, a value, both ends on one node, a series
+    resistance. Our own contract, no outside source."""
+    import math
+
+    from bandsmith.common.errors import InputError
+    from bandsmith.solver.netlist import Element, Netlist
+
+    def rule(net):
+        seen = []
+        for e in net.elements:
+            for n in e.nodes:
+                if n not in seen and n not in (net.ground, net.input):
+                    seen.append(n)
+        return tuple(seen)
+
+    for circuit in topology_ids():
+        topo = get_topology(circuit)
+        net = topo.build(topo.values_from(topo.example))
+        assert net.nodes == rule(net)
+        joined = net.driving(get_topology("mfb").build(get_topology("mfb").values_from(get_topology("mfb").example)))
+        assert joined.nodes == rule(joined)
+    r = Element("R1", "R", ("in", "out"), 1e3)
+    with pytest.raises(InputError, match="used twice"):
+        Netlist((r, r))
+    with pytest.raises(InputError, match="not connected"):
+        Netlist((Element("R1", "R", ("in", "a"), 1e3),))
+    for args, words in ((("X1", "Q", ("a", "b", "c", "d")), "unknown element kind"), (("R1", "R", ("a",), -1.0), "has 2 nodes"),
+                        (("U1", "opamp", ("a", "b")), "has 3 nodes"), (("R1", "R", ("a", "a"), -1.0), "not a usable value"),
+                        (("R1", "R", ("a", "a"), 1.0), "same node"), (("L1", "L", ("a", "b"), 1e-3, -1.0), "series resistance"),
+                        (("U1", "opamp", ("a", "b", "c"), 0.0, math.nan), "series resistance")):
+        with pytest.raises(InputError, match=words):
+            Element(*args)

@@ -6,8 +6,9 @@ resistance, all known from the plan. The amplitude that reaches a stage depends 
 built before it, but it reaches only the amplifier needs, which an analysis works out when first
 asked for (:attr:`bandsmith.analysis.analyzer.Analysis.requirements`, from its ``drive``), and
 the conditions a result carries. So every stage's circuits are prepared and their parts chosen
-first (:func:`prepare_stages`, through :func:`bandsmith.design.designer.prepare_designs`), and the analyses of all stages that share their conditions up to
-the amplitude are made in one batch (:func:`bandsmith.design.candidate.analyze_candidates`: each
+first (:func:`prepare_stages`, through :func:`bandsmith.design.designer.prepare_designs_many`: the
+standard-value searches of every stage's circuits in one call), and the analyses of all stages
+that share their conditions up to the amplitude are made in one batch (:func:`bandsmith.design.candidate.analyze_candidates`: each
 candidate's figures and required GBW measured member by member, as alone); once the stages before
 it are built, a stage's results are concluded under its own conditions, amplitude included
 (:meth:`PendingStage.results`). They are the results :func:`designs_or_errors` gives for the
@@ -23,7 +24,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 from bandsmith.design.candidate import Conditions, analyze_candidates
-from bandsmith.design.designer import PreparedDesigns, Spec, prepare_designs
+from bandsmith.design.designer import PreparedDesigns, Spec, prepare_designs_many
 
 __all__ = ["PendingStage", "prepare_stages"]
 
@@ -61,7 +62,7 @@ def prepare_stages(stages: Sequence[tuple[Sequence[str], Spec, Conditions]], ser
     """Every stage's circuits ``(ids, target, conditions)`` prepared, their parts chosen, and
     (without a load capacitance) analysed: the candidates of all stages whose conditions are
     equal in one batch. The conditions' amplitude is a stand-in (module notes)."""
-    prepared = [prepare_designs(ids, spec, series=series, conditions=cond) for ids, spec, cond in stages]
+    prepared = prepare_designs_many(stages, series=series)
     analyses: list[list | None] = [None] * len(stages)
     groups: dict[Conditions, list[int]] = {}
     for k, (_, _, cond) in enumerate(stages):

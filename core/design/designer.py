@@ -28,7 +28,7 @@ from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec
 from bandsmith.solver.stability import hurwitz_stable_one
 from bandsmith.circuits.topology import Topology
 from bandsmith.common.values import format_value, parse_value
-from bandsmith.design.standard import Choice, choose_standard_many, errors_of, errors_of_one, figure_misses
+from bandsmith.design.standard import Choice, choose_standard_groups, errors_of, errors_of_one, figure_misses
 
 __all__ = [
     "Spec",
@@ -37,6 +37,7 @@ __all__ = [
     "design_many",
     "designs_or_errors",
     "prepare_designs",
+    "prepare_designs_many",
     "PreparedDesigns",
     "design_json",
     "spread_of",
@@ -332,14 +333,30 @@ def prepare_designs(
 ) -> PreparedDesigns:
     """:func:`designs_or_errors` up to the analyses: every circuit's exact design and its parts
     chosen (the standard-value searches of all of them in one call)."""
-    made: list = []
-    for t in topology_ids:
-        try:
-            made.append(_prepare(t, spec, series, fixed, conditions))
-        except InputError as exc:
-            made.append(exc)
-    _choose_parts(made, spec, series, conditions, width)
-    return PreparedDesigns(spec, series, conditions, tuple(made))
+    return prepare_designs_many([(topology_ids, spec, conditions)], series=series, fixed=fixed, width=width)[0]
+
+
+def prepare_designs_many(
+    requests: Sequence[tuple[Sequence[str], Spec, Conditions]],
+    *,
+    series: str = "E24",
+    fixed: Mapping[str, float | str] | None = None,
+    width: int = 1,
+) -> list[PreparedDesigns]:
+    """:func:`prepare_designs` of several targets, each request ``(topology_ids, spec,
+    conditions)`` (a chain's stages): the same designs, the standard-value searches of every
+    target's circuits in one call (:func:`bandsmith.design.standard.choose_standard_groups`)."""
+    made: list[list] = []
+    for topology_ids, spec, conditions in requests:
+        ms: list = []
+        for t in topology_ids:
+            try:
+                ms.append(_prepare(t, spec, series, fixed, conditions))
+            except InputError as exc:
+                ms.append(exc)
+        made.append(ms)
+    _choose_parts([(ms, spec, conditions) for ms, (_, spec, conditions) in zip(made, requests)], series, width)
+    return [PreparedDesigns(spec, series, conditions, tuple(ms)) for ms, (_, spec, conditions) in zip(made, requests)]
 
 
 @dataclass(frozen=True, slots=True)
@@ -391,23 +408,26 @@ def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Condi
     return _Exact(topo, exact, notes, pins)
 
 
-def _choose_parts(made: list, spec: Spec, series: str, conditions: Conditions, width: int) -> None:
-    """Each :class:`_Exact` of ``made`` replaced by its :class:`_Prepared` (its parts chosen) or by
-    the infeasible result: the standard-value searches of every circuit in one call
-    (:func:`bandsmith.design.standard.choose_standard_many`), each circuit's parts chosen alone."""
-    todo = [i for i, m in enumerate(made) if isinstance(m, _Exact)]
+def _choose_parts(targets: list[tuple[list, Spec, Conditions]], series: str, width: int) -> None:
+    """Each :class:`_Exact` of every target's ``made`` (of its ``(made, spec, conditions)``)
+    replaced by its :class:`_Prepared` (its parts chosen) or by the infeasible result: the
+    standard-value searches of every circuit of every target in one call
+    (:func:`bandsmith.design.standard.choose_standard_groups`), each circuit's parts chosen alone."""
+    todos = [[i for i, m in enumerate(made) if isinstance(m, _Exact)] for made, _, _ in targets]
     if series == "exact":
-        for i in todo:
-            made[i] = _Prepared(made[i], None, Candidate(made[i].topology.id, dict(made[i].exact)))
+        for (made, _, _), todo in zip(targets, todos):
+            for i in todo:
+                made[i] = _Prepared(made[i], None, Candidate(made[i].topology.id, dict(made[i].exact)))
         return
-    choices = choose_standard_many([(made[i].topology, made[i].exact, spec, series, tuple(made[i].pins), conditions.tolerances, width)
-                                    for i in todo])
-    for i, choice in zip(todo, choices):
-        m = made[i]
-        if choice.values is None:
-            made[i] = _infeasible(m.topology, spec, series, _NO_STANDARD.format(series=series), m.pins, conditions, m.exact, m.notes)
-        else:
-            made[i] = _Prepared(m, choice, Candidate(m.topology.id, choice.values))
+    chosen = choose_standard_groups([[(made[i].topology, made[i].exact, spec, series, tuple(made[i].pins), conditions.tolerances, width)
+                                      for i in todo] for (made, spec, conditions), todo in zip(targets, todos)])
+    for (made, spec, conditions), todo, choices in zip(targets, todos, chosen):
+        for i, choice in zip(todo, choices):
+            m = made[i]
+            if choice.values is None:
+                made[i] = _infeasible(m.topology, spec, series, _NO_STANDARD.format(series=series), m.pins, conditions, m.exact, m.notes)
+            else:
+                made[i] = _Prepared(m, choice, Candidate(m.topology.id, choice.values))
 
 
 def _conclude(made: _Prepared, analysis: Analysis, spec: Spec, series: str, conditions: Conditions) -> DesignResult:

@@ -31,14 +31,14 @@ import numpy as np
 
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
-from bandsmith.solver.expansion import SMALL_BATCH, ExpansionUnavailable, unit_expansion, unit_expansion_values
+from bandsmith.solver.expansion import SMALL_BATCH, Expansion, ExpansionUnavailable, unit_expansion, unit_expansion_values
 from bandsmith.analysis.figures import Figures, biquad_peak_figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
 from bandsmith.solver.stability import hurwitz_stable
 from bandsmith.circuits.topology import Topology
 
-__all__ = ["Choice", "errors_of", "errors_of_one", "figure_misses", "weighted_error", "choose_standard", "choose_standard_many", "part_series_of"]
+__all__ = ["Choice", "errors_of", "errors_of_one", "figure_misses", "weighted_error", "choose_standard", "choose_standard_many", "choose_standard_groups", "part_series_of"]
 
 
 # Batches up to this size are measured by exact roots (global, and cheaper there), larger on a grid.
@@ -168,11 +168,8 @@ def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tupl
         return _combinations(netlist, dict(zip(free, flat[index])), w_ref)
     # the logs of every value a combination can hold, in one array: the free parts' options and
     # nearest values over their unit values, then the other variables' own ratios
-    per_entry, held, gather = _log_plan(exp, tuple(free), sizes)
-    ratios = flat / per_entry
-    if held:
-        ratios = np.concatenate([ratios, [own[j] / unit for j, unit in held]])
-    return exp.rational_log(np.log(ratios)[gather], w_ref=w_ref)
+    plan = _log_plan(exp, tuple(free), sizes)
+    return exp.rational_log(np.log(_log_entries(flat, own, plan))[plan[2]], w_ref=w_ref)
 
 
 @functools.lru_cache(maxsize=64)
@@ -260,24 +257,56 @@ def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
     combination that has no peak (a zero ``a1``: never stable, so never chosen), whose other
     combinations measure_many would take through polynomial roots, a few units in the last place
     apart."""
+    return choose_standard_groups([items])[0]
+
+
+def choose_standard_groups(groups: Sequence[Sequence[tuple]]) -> list[list[Choice]]:
+    """:func:`choose_standard_many` of each group of items (a chain's stages, each with its
+    circuits), the same choices: where the closed form serves every group that
+    choose_standard_many would cost by it, their costs come from one closed-form batch over all
+    of them. The closed form's operations are element by element (each member's costs the same
+    numbers in any batch), and a joined batch takes it only where each group alone would (every
+    member of the joined batch a second-order band-pass); else each group is costed as alone."""
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
-        made = [_combination_search(*item) for item in items]
-        live = [i for i, m in enumerate(made) if isinstance(m, _Search)]
-        by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
-        if live and len(by_roots) == len(live):
-            peaks = _peak_costs([made[i] for i in live])
-            if peaks is not None:  # every combination a second-order band-pass: the closed form
-                for i, cost in zip(live, peaks):
-                    made[i] = made[i].choice(cost)
-                return made
-        # exact polynomial roots up to a few thousand members; a grid around the target beyond
-        figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
-        figs.update((i, measure(made[i].h, grid=search_grid(made[i].spec.q))) for i in live if i not in figs)
-        for group in _same_width(made, live):
-            costs = _costs([made[i] for i in group], [figs[i] for i in group])
-            for i, cost in zip(group, costs):
-                made[i] = made[i].choice(cost)
+        every = iter(_combination_searches([item for items in groups for item in items]))
+        made = [[next(every) for _ in items] for items in groups]
+        lives = [[i for i, m in enumerate(ms) if isinstance(m, _Search)] for ms in made]
+        peaked = [g for g, (ms, live) in enumerate(zip(made, lives))
+                  if live and all(ms[i].h.batch <= _ROOTS_UP_TO for i in live)]
+        if len(peaked) > 1:
+            joined = [made[g][i] for g in peaked for i in lives[g]]
+            peaks = _peak_costs(joined)
+            if peaks is not None:  # every combination of every such group a second-order band-pass
+                costs = iter(peaks)
+                for g in peaked:
+                    for i in lives[g]:
+                        made[g][i] = made[g][i].choice(next(costs))
+                peaked = []
+        for g, (ms, live) in enumerate(zip(made, lives)):
+            if live and isinstance(ms[live[0]], _Search):  # (not yet chosen above)
+                _choose_searches(ms, live, g in peaked)
     return made
+
+
+def _choose_searches(made: list, live: list[int], by_peaks: bool) -> None:
+    """The searches ``live`` of ``made`` replaced by their choices (:func:`choose_standard_many`'s
+    rule: by the closed form where ``by_peaks`` (each small enough for exact roots) and every
+    combination is a second-order band-pass, else measured). Floating-point warnings are the
+    caller's to silence."""
+    if by_peaks:
+        peaks = _peak_costs([made[i] for i in live])
+        if peaks is not None:  # every combination a second-order band-pass: the closed form
+            for i, cost in zip(live, peaks):
+                made[i] = made[i].choice(cost)
+            return
+    by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
+    # exact polynomial roots up to a few thousand members; a grid around the target beyond
+    figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
+    figs.update((i, measure(made[i].h, grid=search_grid(made[i].spec.q))) for i in live if i not in figs)
+    for group in _same_width(made, live):
+        costs = _costs([made[i] for i in group], [figs[i] for i in group])
+        for i, cost in zip(group, costs):
+            made[i] = made[i].choice(cost)
 
 
 def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
@@ -368,11 +397,127 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
     or its :class:`Choice` at once when no part is free. Floating-point warnings are the caller's
     to silence (:func:`choose_standard_many` does: a far-off combination may overflow)."""
+    return _combination_searches([(topology, exact, spec, series, keep, tolerances, width)])[0]
+
+
+def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
+    """:func:`_combination_search` of each item ``(topology, exact, spec, series, keep,
+    tolerances, width)``: the same searches, the transfer functions of those that share a kept
+    expansion, free parts and option counts (a chain's stages on one circuit) made in one stacked
+    batch (:meth:`bandsmith.solver.expansion.Expansion.rational_log_stacked`, each batch's
+    numbers as alone). Their log ratios come from one logarithm of all their flat entries and one
+    gather (each value's log is the same wherever it sits, :func:`_option_combinations`)."""
+    out: list = [None] * len(items)
+    stacks: dict[tuple, list[tuple[int, _Setup, np.ndarray]]] = {}
+    for k, item in enumerate(items):
+        made = _search_setup(*item)
+        if isinstance(made, Choice):
+            out[k] = made
+            continue
+        index = _flat_combination_index(made.sizes)
+        exp, own = _search_expansion(made.topology, made.values)
+        if exp is None or index.shape[1] > SMALL_BATCH:
+            h = _combinations(made.topology.build(made.values), dict(zip(made.free, made.flat[index])), made.spec.w0)
+            out[k] = made.search(h)
+            continue
+        entries = _log_entries(made.flat, own, _log_plan(exp, made.free, made.sizes))
+        stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, entries))
+    for (exp, free, sizes), group in stacks.items():
+        gather = _log_plan(exp, free, sizes)[2]
+        if len(group) == 1:
+            _, made, entries = group[0]
+            hs = [exp.rational_log(np.log(entries)[gather], w_ref=made.spec.w0)]
+        else:  # one log of every member's entries, one gather of their rows (the stack's batch g at g · entries)
+            logs = np.log(np.concatenate([entries for _, _, entries in group]))
+            stacked = logs[gather + _stack_offsets(len(group), group[0][2].size)]
+            hs = exp.rational_log_stacked(stacked, [made.spec.w0 for _, made, _ in group])
+        for (k, made, _), h in zip(group, hs):
+            out[k] = made.search(h)
+    return out
+
+
+def _stack_offsets(g: int, n: int) -> np.ndarray:
+    """``(g, 1, 1)`` offsets ``0, n, 2n, …`` that take one gather's positions to each of ``g``
+    stacked copies of ``n`` entries."""
+    return (np.arange(g, dtype=np.intp) * n)[:, None, None]
+
+
+def _log_entries(flat: np.ndarray, own: list[float], plan: tuple) -> np.ndarray:
+    """The ratios whose logs :func:`_option_combinations` gathers: the free parts' flat entries
+    over their unit values, then the held variables' own values over theirs."""
+    per_entry, held, _ = plan
+    ratios = flat / per_entry
+    if held:
+        ratios = np.concatenate([ratios, [own[j] / unit for j, unit in held]])
+    return ratios
+
+
+# per circuit build and optional parts at zero: its kept unit expansion and its variables' names,
+# or None where the expansion does not apply (_search_expansion)
+_STRUCTURES: dict[tuple, tuple | None] = {}
+
+
+def _search_expansion(topology: Topology, values: Mapping[str, float]) -> tuple[Expansion | None, list[float] | None]:
+    """:func:`bandsmith.solver.expansion.unit_expansion_values` of the circuit's netlist
+    ``topology.build(values)`` (``values`` complete, as :meth:`Topology.values_from` gives them):
+    its kept unit expansion and its variables' own values, or ``(None, None)`` where the
+    expansion does not apply.
+
+    Made once per circuit and set of optional parts at zero, the netlist's structure: a circuit's
+    build places every part at its own node and reference, its value the element's (an inductor's
+    winding resistance its series resistance, a variable only when above zero); so the expansion
+    and its variables' names are those of the first such netlist, and each variable's own value
+    is the part's (checked on that first netlist: where a variable's value is not the part of
+    its name, every netlist is built and looked up as before)."""
+    key = (topology.build, tuple(ref for ref, _, required in topology.part_kinds if not required and values[ref] == 0.0))
+    known = _STRUCTURES.get(key, False)
+    if known is False:
+        try:
+            exp, own = unit_expansion_values(topology.build(values))
+        except ExpansionUnavailable:
+            _STRUCTURES[key] = None
+            return None, None
+        names = tuple(u.name for u in exp.variables)
+        by_name = all(name in values and values[name] == v for name, v in zip(names, own))
+        _STRUCTURES[key] = (exp, names) if by_name else ("build",)
+        return exp, own
+    if known is None:
+        return None, None
+    if len(known) == 1:  # (a circuit whose variables are not its parts: its netlist looked up)
+        try:
+            return unit_expansion_values(topology.build(values))
+        except ExpansionUnavailable:
+            return None, None
+    exp, names = known
+    return exp, [values[name] for name in names]
+
+
+@dataclass(frozen=True, slots=True)
+class _Setup:
+    """A search up to its transfer functions (:func:`_search_setup`): each free part's options and
+    then its nearest value, part after part, in ``flat``; ``sizes`` the option counts."""
+
+    topology: Topology
+    values: dict[str, float]
+    free: tuple[str, ...]
+    flat: np.ndarray
+    sizes: tuple[int, ...]
+    spec: Spec
+    tolerances: Tolerances
+
+    def search(self, h: Rational) -> _Search:
+        """The search with the transfer functions ``h`` of its combinations."""
+        return _Search(self.values, list(self.free), self.flat, _flat_combination_index(self.sizes), h, self.spec, self.tolerances)
+
+
+def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
+                  tolerances: Tolerances, width: int) -> Choice | _Setup:
+    """A search up to its transfer functions (:class:`_Setup`), or the :class:`Choice` at once
+    when no part is free."""
     values = topology.values_from(exact)
     free, groups = _free_parts(topology.part_kinds, keep, series)
-    netlist = topology.build(values)
     if not free:
-        h = transfer_function(netlist, w_ref=spec.w0)
+        h = transfer_function(topology.build(values), w_ref=spec.w0)
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
     options = [None] * len(free)
@@ -386,8 +531,7 @@ def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Sp
     # them, in one flat array taken by a combination index.
     sizes = tuple(len(o) for o in options)
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
-    h = _option_combinations(netlist, free, flat, sizes, spec.w0)
-    return _Search(values, list(free), flat, _flat_combination_index(sizes), h, spec, tolerances)
+    return _Setup(topology, values, free, flat, sizes, spec, tolerances)
 
 
 @functools.lru_cache(maxsize=256)

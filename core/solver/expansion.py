@@ -809,6 +809,46 @@ class Expansion:
         of their exponentials up to :data:`SMALL_BATCH` members (which takes their logs first)."""
         return self._rational(*self._in_p(*self.dense_log(log_ratios), w_ref), w_ref)
 
+    def rational_log_stacked(self, log_ratios: np.ndarray, w_refs: list[float]) -> list[Rational]:
+        """:meth:`rational_log` of a stack of batches of one size, ``(G, B, len(variables))``,
+        batch ``g`` normalised to ``p = s/w_refs[g]`` (rad/s): the same transfer functions, bit
+        for bit, as each batch alone, at one set of array calls for the stack (a chain's stages
+        on one circuit).
+
+        Every step is the one :meth:`rational_log` takes, member by member: :meth:`dense_log`
+        takes a stack's products one batch at a time; the change of variable
+        ``c·k^n``, ``k = w_ref/w_e`` (:meth:`_in_p`), multiplies each batch's coefficients by the
+        powers of its own ``k``, the same ``pow`` of the same two numbers (``k = 1`` where a batch
+        keeps the expansion's ``w_e``: a product by 1 is exact); each member is scaled by its
+        largest denominator coefficient (:meth:`_rational`: a maximum rounds nothing), the same
+        quotients. Those steps go coefficient by coefficient, over ``(G, B)`` at a time (numpy
+        loops slowly over a last axis of two or three). The Rationals are views of the stack's
+        arrays."""
+        num, den = self.dense_log(log_ratios)
+        ks = [1.0 if w == self.w_ref else w / self.w_ref for w in w_refs]
+        by_column = num.shape[1] >= 64  # (short batches: fewer calls over the whole arrays)
+        if any(k != 1.0 for k in ks):
+            k = np.array(ks)[:, None]
+            for c in (num, den):
+                powers = k ** np.arange(c.shape[2] - 1, -1, -1.0)  # (G, coefficients)
+                if not by_column:
+                    c *= powers[:, None, :]
+                    continue
+                for j in range(c.shape[2]):
+                    c[:, :, j] *= powers[:, j : j + 1]
+        scale = np.abs(den[:, :, 0])  # (as _row_abs_max: the same maxima)
+        for j in range(1, den.shape[2]):
+            np.maximum(scale, np.abs(den[:, :, j]), out=scale)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            for c in (num, den):
+                if not by_column:
+                    c /= scale[:, :, None]
+                    continue
+                for j in range(c.shape[2]):
+                    np.divide(c[:, :, j], scale, out=c[:, :, j])
+        b = num.shape[1]
+        return [Rational(num[i], den[i], np.full(b, float(w))) for i, w in enumerate(w_refs)]
+
     def _rational(self, num: np.ndarray, den: np.ndarray, w_ref: float | None) -> Rational:
         """Dense coefficients in ``p = s/w_ref`` as a :class:`Rational`, each member scaled so that
         its largest denominator coefficient is ±1."""

@@ -49,17 +49,24 @@ class Element:
     series_ref: str | None = None
 
     def __post_init__(self):
-        if self.kind not in ELEMENT_KINDS:
-            raise InputError(self.ref, f"unknown element kind {self.kind!r}")
-        want = 3 if self.kind == "opamp" else 2
-        if len(self.nodes) != want:
-            raise InputError(self.ref, f"a {self.kind} element has {want} nodes, got {len(self.nodes)}")
-        if self.kind in PASSIVE_KINDS:
-            if not math.isfinite(self.value) or self.value <= 0.0:
-                raise InputError(self.ref, f"{self.value!r} is not a usable value; it must be a finite number above zero")
-            if self.nodes[0] == self.nodes[1]:
+        # the checks in this order for every kind: the kind, the node count, the value, the two
+        # ends, the series resistance (a passive part, the common case, looked at first)
+        kind, nodes = self.kind, self.nodes
+        if kind in PASSIVE_KINDS:
+            if len(nodes) != 2:
+                raise InputError(self.ref, f"a {kind} element has 2 nodes, got {len(nodes)}")
+            value = self.value
+            if not math.isfinite(value) or value <= 0.0:
+                raise InputError(self.ref, f"{value!r} is not a usable value; it must be a finite number above zero")
+            if nodes[0] == nodes[1]:
                 raise InputError(self.ref, "both ends on the same node")
-        if not math.isfinite(self.series_resistance) or self.series_resistance < 0.0:
+        elif kind == "opamp":
+            if len(nodes) != 3:
+                raise InputError(self.ref, f"a {kind} element has 3 nodes, got {len(nodes)}")
+        else:
+            raise InputError(self.ref, f"unknown element kind {kind!r}")
+        rs = self.series_resistance
+        if not math.isfinite(rs) or rs < 0.0:
             raise InputError(self.ref, "series resistance must be a finite number of zero or more")
 
     def to_json(self) -> dict:
@@ -88,15 +95,15 @@ class Netlist:
     nodes: tuple[str, ...] = field(init=False)
 
     def __post_init__(self):
-        refs = [e.ref for e in self.elements]
-        if len(set(refs)) < len(refs):
+        elements = self.elements
+        if len({e.ref for e in elements}) < len(elements):
+            refs = [e.ref for e in elements]
             dup = {r for r in refs if refs.count(r) > 1}
             raise InputError(sorted(dup)[0], "reference used twice in the netlist")
-        seen: list[str] = []
-        for e in self.elements:
-            for n in e.nodes:
-                if n not in seen and n not in (self.ground, self.input):
-                    seen.append(n)
+        # every node but ground and the input, in the order first met (a dict keeps its keys' order)
+        seen = dict.fromkeys([n for e in elements for n in e.nodes])
+        seen.pop(self.ground, None)
+        seen.pop(self.input, None)
         if self.output not in seen and self.output != self.input:
             raise InputError("netlist", f"output node {self.output!r} is not connected")
         object.__setattr__(self, "nodes", tuple(seen))
