@@ -171,6 +171,18 @@ def test_gbw_error_sweep_through_the_family_agrees_with_the_batched_solve(circui
     assert math.isfinite(float(np.min(fast.worst)))
 
 
+def numbers(obj, path=""):
+    """Every leaf of a JSON-like object with its path, ``(path, value)``."""
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            yield from numbers(v, f"{path}.{k}")
+    elif isinstance(obj, list):
+        for i, v in enumerate(obj):
+            yield from numbers(v, f"{path}[{i}]")
+    else:
+        yield path, obj
+
+
 @pytest.mark.parametrize("gbw_hz", [None, 1e6])
 def test_circuits_designed_together_equal_each_designed_alone(gbw_hz):
     """design_many (the analyses of every circuit in one batch, as compare and each stage of a
@@ -183,16 +195,6 @@ def test_circuits_designed_together_equal_each_designed_alone(gbw_hz):
     from bandsmith.circuits import topology_ids
     from bandsmith.design.candidate import Conditions
     from bandsmith.design.designer import Spec, design, design_json, design_many
-
-    def numbers(obj, path=""):
-        if isinstance(obj, dict):
-            for k, v in obj.items():
-                yield from numbers(v, f"{path}.{k}")
-        elif isinstance(obj, list):
-            for i, v in enumerate(obj):
-                yield from numbers(v, f"{path}[{i}]")
-        else:
-            yield path, obj
 
     cond = Conditions(gbw_hz=gbw_hz)
     ids = topology_ids()
@@ -232,6 +234,42 @@ def test_a_candidate_that_cannot_be_analysed_does_not_stop_the_others(monkeypatc
     out = cmod.analyze_candidates([good, bad, good], cmod.Conditions())
     assert isinstance(out[1], InputError) and out[1].field == "parts"
     assert out[0].to_json() == good.analyze(cmod.Conditions()).to_json() == out[2].to_json()
+
+
+@pytest.mark.parametrize("gbw_hz", [None, 4e6])
+def test_candidates_analysed_together_under_their_own_tolerances_equal_each_alone(gbw_hz):
+    """analyze_candidates with one set of conditions per candidate, differing in the tolerances
+    (a chain's stages are held to their own) and the source resistance: each candidate's analysis
+    and amplifier needs are those it has alone under its own, bit for bit but the figures and
+    required GBW that come from the joined ladder's padded polynomials (1e-12, as for candidates
+    under one set of conditions). A consistency check of our own batching, no outside source."""
+    import json
+    import math
+    from dataclasses import replace
+
+    from bandsmith.analysis.tolerances import Tolerances
+    from bandsmith.design.candidate import Candidate, Conditions, analyze_candidates
+
+    rng = np.random.default_rng(3)
+    cands, conds = [], []
+    for cid in ("mfb", "tow-thomas", "sallen-key", "dabp", "mfb", "akerberg-mossberg", "rlc-tank", "tow-thomas"):
+        topo = get_topology(cid)
+        cands.append(Candidate(cid, {k: v * float(np.exp(rng.uniform(-0.2, 0.2))) if v > 0 else v for k, v in topo.example.items()}))
+        tol = Tolerances(f0=float(rng.choice([0.01, 0.004, 0.0125])), q=float(rng.choice([0.05, 0.03])), gain_db=float(rng.choice([0.5, 0.25])))
+        conds.append(Conditions(gbw_hz=gbw_hz, tolerances=tol, rsource_ohm=50.0 if len(conds) == 0 else None))
+    together = analyze_candidates(cands, conds)
+    for cand, cond, an in zip(cands, conds, together):
+        alone = cand.analyze(cond)
+        a, b = dict(numbers(json.loads(json.dumps(alone.to_json())))), dict(numbers(json.loads(json.dumps(an.to_json()))))
+        assert a.keys() == b.keys()
+        for key, x in a.items():
+            if isinstance(x, float) and math.isfinite(x):
+                assert b[key] == pytest.approx(x, rel=1e-12, abs=1e-300), f"{cand.topology_id}{key}"
+            else:
+                assert b[key] == x, f"{cand.topology_id}{key}"
+        assert an.drive.tolerances == cond.tolerances
+    with pytest.raises(ValueError):
+        analyze_candidates(cands[:2], [conds[0], replace(conds[1], vin_v=2.0)])
 
 
 @pytest.mark.parametrize("circuit", ["rlc-tank", "mfb", "sallen-key", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])

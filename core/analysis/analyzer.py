@@ -667,13 +667,13 @@ def analyze_many(
     vin_v: float = 1.0,
     a0: float | None = None,
     rload_ohm: float | None = None,
-    tolerances: Tolerances = Tolerances(),
+    tolerances: Tolerances | Sequence[Tolerances] = Tolerances(),
     parts: Sequence[Mapping[str, float] | None] | None = None,
 ) -> list[Analysis]:
     """:func:`analyze` of several candidates under the same conditions (``parts``: one mapping or
-    None per netlist): their first passes' second-order members and their required-GBW ladders
-    are measured in one batch each, the rest one by one. A compare or a stage of a chain analyses
-    several circuits at once."""
+    None per netlist; ``tolerances``: one for all, or one per netlist): their first passes'
+    second-order members and their required-GBW ladders are measured in one batch each, the
+    rest one by one. A compare or a chain's stages analyse several circuits at once."""
     if not (math.isfinite(vin_v) and vin_v > 0):
         raise InputError("vin", f"must be a finite number above zero, got {vin_v!r}")
     if rload_ohm is not None and not (math.isfinite(rload_ohm) and rload_ohm > 0):
@@ -687,8 +687,9 @@ def analyze_many(
          for n, f in zip(netlists, firsts)],
         a0=a0, tolerances=tolerances,
     )
+    each = [tolerances] * len(netlists) if isinstance(tolerances, Tolerances) else list(tolerances)
     out = []
-    for netlist, first, (gbw_search, at_probe) in zip(netlists, firsts, searches):
+    for netlist, first, (gbw_search, at_probe), tol in zip(netlists, firsts, searches, each):
         h_actual = actual = None
         if at_probe is not None:
             h_actual, actual = at_probe
@@ -705,7 +706,7 @@ def analyze_many(
             sensitivity=first.sensitivity,
             h_ideal=first.h_ideal,
             h_actual=h_actual,
-            drive=Drive(vin_v, a0, rload_ohm, tolerances),
+            drive=Drive(vin_v, a0, rload_ohm, tol),
             family=first.family,
         ))
     return out

@@ -391,16 +391,24 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
     unless the peak found is the highest stationary point of ``|H|²`` and none lies between it
     and its band edges (:func:`_only_peak`: then they are exactly what :func:`measure` finds), and
     the band edges start from the peak found, a Lorentzian's half-width from it by the curvature
-    there, which holds a band far wider or narrower than ``ref``'s.
+    there, which holds a band far wider or narrower than ``ref``'s. ``spread`` is one number for
+    every member or one per member (a batch of several candidates' ladders, each with its own);
+    each member's window factor ``(1 + spread)²`` is Python's float power of its own spread, as
+    for one number (the power rounds differently from a product now and then).
     """
+    if np.ndim(spread):
+        values, at = np.unique(np.asarray(spread, dtype=float), return_inverse=True)
+        k2 = np.array([(1.0 + v) ** 2 for v in values.tolist()])[at]
+    else:
+        k2 = (1.0 + spread) ** 2
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        return _measure_near(h, ref, spread, only_peak)
+        return _measure_near(h, ref, k2, only_peak)
 
 
-def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> Figures:
+def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: bool) -> Figures:
     b = h.batch
     to_u = (2.0 * np.pi / h.w_ref) ** 2
-    k2 = (1.0 + spread) ** 2
+    both_k2 = k2 if np.ndim(k2) == 0 else np.concatenate([k2, k2])  # the band edges' windows, low then high
     pu = _sq_mag_u(h.num)
     qu = _sq_mag_u(h.den)
     slope = _slope_u(pu, qu)
@@ -419,14 +427,14 @@ def _measure_near(h: Rational, ref: Figures, spread: float, only_peak: bool) -> 
     spread_u = 1.0 + np.sqrt(np.abs(2.0 * p0 * q0 / (p2 * q0 - p0 * q2))) / u_pk
     lorentz = np.concatenate([u_pk / spread_u, u_pk * spread_u])
     if only_peak:
-        both, ok2 = _newton(np.concatenate([half, half]), lorentz, k2, first=5)
+        both, ok2 = _newton(np.concatenate([half, half]), lorentz, both_k2, first=5)
     else:
         # the window is where the moved peak carries the reference's band edges; Newton's method
         # starts from the Lorentzian's edges where they lie in it (a member whose Q has moved far
         # from the reference's converges in fewer steps from them), else from the window's centre
         anchor = np.concatenate([ref.f_low_hz**2 * to_u, ref.f_high_hz**2 * to_u]) * np.concatenate([u_pk / u0] * 2)
-        starts = np.where((lorentz >= anchor / k2) & (lorentz <= anchor * k2), lorentz, anchor)
-        both, ok2 = _newton(np.concatenate([half, half]), starts, k2, first=5, window=anchor)
+        starts = np.where((lorentz >= anchor / both_k2) & (lorentz <= anchor * both_k2), lorentz, anchor)
+        both, ok2 = _newton(np.concatenate([half, half]), starts, both_k2, first=5, window=anchor)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
     if only_peak:
         ok &= _only_peak(pu, qu, slope, u_pk, peak2, both[:b], both[b:], ok & ok2[:b] & ok2[b:])
@@ -559,11 +567,11 @@ _NEWTON_MOST = 40
 _COMPACT_FROM = 256
 
 
-def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4, window: np.ndarray | None = None,
+def _newton(poly: np.ndarray, x0, k2: float | np.ndarray, *, first: int = 4, window: np.ndarray | None = None,
             most: int = _NEWTON_MOST) -> tuple[np.ndarray, np.ndarray]:
     """Newton's method on batched polynomials from ``x0`` (``(B,)`` or broadcastable): the roots
     and a mask of the members that converged (last step below 1e-5 relative, so that the error
-    after it is of order 1e-10) within a factor ``k2`` of their start (of ``window``, the
+    after it is of order 1e-10) within a factor ``k2`` (one, or one per member) of their start (of ``window``, the
     windows' centres, where it is given: then the start only sets how soon). A member is settled at the
     first test that finds it converged or outside that window, and stepped no more: what becomes
     of a member does not depend on the rest of the batch. Tests come after ``first`` steps and
@@ -629,7 +637,8 @@ def _newton(poly: np.ndarray, x0, k2: float, *, first: int = 4, window: np.ndarr
                 rest = np.flatnonzero(live)
                 if 4 * rest.size <= b:  # the few still live stepped as a batch of their own
                     settled = ok.copy()  # (their last step taken below)
-                    x[rest], ok[rest] = _newton(poly[rest], x[rest], k2, first=2, window=centre[rest], most=most - n)
+                    x[rest], ok[rest] = _newton(poly[rest], x[rest], k2 if np.ndim(k2) == 0 else k2[rest], first=2,
+                                                window=centre[rest], most=most - n)
                     np.subtract(x, newton_step(), out=x, where=settled)
                     return x, ok
     # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which

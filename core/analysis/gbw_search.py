@@ -44,26 +44,35 @@ def with_gbw(netlist: Netlist, family: OpAmpFamily | AmpFamily | None, w_ref: fl
     return transfer_function(netlist, gbw_hz=gbw, a0=np.full(gbw.shape, a0), w_ref=w_ref)
 
 
+def _spread(tolerances: Tolerances) -> float:
+    """How far from the ideal figures a ladder's member is sought: about twice the tolerances
+    (a member farther off fails whatever its exact figures are)."""
+    return 2.0 * (tolerances.f0 + tolerances.q) + 0.02
+
+
 def _near_figures(h: Rational, ideal: Figures, tolerances: Tolerances) -> Figures:
-    """Figures sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`): a
-    member farther off than about twice the tolerances fails whatever its exact figures are."""
-    return measure_near(h, ideal, spread=2.0 * (tolerances.f0 + tolerances.q) + 0.02)
+    """Figures sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`),
+    within :func:`_spread` of them."""
+    return measure_near(h, ideal, spread=_spread(tolerances))
 
 
 def search_gbw_many(
     items: Sequence[tuple[Netlist, Figures, OpAmpFamily | AmpFamily | None, float, float | None]], *, a0: float,
-    tolerances: Tolerances,
+    tolerances: Tolerances | Sequence[Tolerances],
 ) -> list[tuple[tuple[float | None, str | None], tuple[Rational, Figures] | None]]:
     """The required-GBW search of several candidates ``(netlist, ideal figures, op-amp family or
     None, w_ref, probe)``: a coarse ladder for each, all measured in one batch (each member near
     its own candidate's ideal figures), then a fine ladder in a candidate's last failing step
-    where its coarse one cannot be interpolated.
+    where its coarse one cannot be interpolated. ``tolerances``: one for all, or one per
+    candidate (a chain's stages are held to their own): each member is sought near, and held
+    to, its own candidate's, with the same numbers as a search of that candidate alone.
 
     Returns, per candidate, ``((gbw_hz or None, reason or None), probe)``: with a ``probe`` (a
     GBW in Hz, same ``a0``) riding along in the coarse batch, its transfer function and figures
     (NaN figures where they are not near the ideal ones: the caller measures them exactly).
     """
     out: list = [((None, "the circuit has no band-pass peak with an ideal op-amp"), None)] * len(items)
+    each = [tolerances] * len(items) if isinstance(tolerances, Tolerances) else list(tolerances)
     live, gbws = [], []
     for i, (netlist, ideal, family, w_ref, probe) in enumerate(items):
         ref = ideal.item()
@@ -78,11 +87,16 @@ def search_gbw_many(
     sizes = [g.size for g in gbws]
     # one member's figures for all, or each candidate's (as scalars) repeated over its members
     ref = items[live[0][0]][1] if len(live) == 1 else Figures.repeated([one for _, _, one in live], sizes)
-    fig = _near_figures(h, ref, tolerances)
-    ok = within_tolerances(fig, ref, tolerances)  # every member against its own candidate's figures
+    tols = [each[i] for i, _, _ in live]
+    if all(t == tols[0] for t in tols):  # one for all
+        fig = _near_figures(h, ref, tols[0])
+        ok = within_tolerances(fig, ref, tols[0])  # every member against its own candidate's figures
+    else:  # each member sought near, and held to, its own candidate's
+        fig = measure_near(h, ref, spread=np.repeat([_spread(t) for t in tols], sizes))
+        ok = within_tolerances(fig, ref, tols, sizes)
     starts = list(itertools.accumulate(sizes[:-1], initial=0))
-    found = _conclude_many([(items[i], one, ladder, start) for (i, ladder, one), start in zip(live, starts)], fig, ok,
-                           a0=a0, tolerances=tolerances)
+    found = _conclude_many([(items[i], one, ladder, start, each[i]) for (i, ladder, one), start in zip(live, starts)], fig, ok,
+                           a0=a0)
     for (i, ladder, one), size, start, gbw in zip(live, sizes, starts, found):
         probe = items[i][4]
         at_probe = None if probe is None else (h.item(start + ladder.size), fig.take(slice(start + ladder.size, start + size)))
@@ -164,8 +178,8 @@ _BASIS_ROWS = np.ascontiguousarray(_BASIS.T)  # (4, T): each basis polynomial ov
 _CROSSING_MARGIN = 0.005
 
 
-def _crossings(fig: Figures, tol: Tolerances, cases: Sequence[tuple[Figures, np.ndarray, int, int]]) -> list[float | None]:
-    """The required GBW (Hz) of each case ``(ref, ladder, start, j)`` inside its ladder step from
+def _crossings(fig: Figures, cases: Sequence[tuple[Figures, np.ndarray, int, int, Tolerances]]) -> list[float | None]:
+    """The required GBW (Hz) of each case ``(ref, ladder, start, j, tolerances)`` inside its ladder step from
     ``j`` (failing) to ``j + 1`` (passing): each figure's error is interpolated by the cubic
     through the ladder points ``j − 1 … j + 2`` (uniform in log GBW), and the last sub-step where
     the worst error exceeds its tolerance is found; the result is :data:`_CROSSING_MARGIN` above
@@ -178,7 +192,7 @@ def _crossings(fig: Figures, tol: Tolerances, cases: Sequence[tuple[Figures, np.
     out: list[float | None] = [None] * len(cases)
     f0s, qs, dbs, gains = (np.asarray(v) for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
     inner, errs = [], []
-    for n, (ref, ladder, start, j) in enumerate(cases):
+    for n, (ref, ladder, start, j, tol) in enumerate(cases):
         if j < 1 or j + 2 >= ladder.size:
             continue
         sl = slice(start + j - 1, start + j + 3)
@@ -211,16 +225,16 @@ def _crossings(fig: Figures, tol: Tolerances, cases: Sequence[tuple[Figures, np.
 
 
 def _conclude_many(
-    cases: Sequence[tuple[tuple, Figures, np.ndarray, int]], fig: Figures, ok: np.ndarray, *, a0: float, tolerances: Tolerances,
+    cases: Sequence[tuple[tuple, Figures, np.ndarray, int, Tolerances]], fig: Figures, ok: np.ndarray, *, a0: float,
 ) -> list[tuple[float | None, str | None]]:
-    """The required GBW of each candidate from its coarse ladder, ``(item, ref, ladder, start)``:
-    its search item ``(netlist, ideal, family, w_ref, probe)``, its ideal figures ``ref``
-    (scalars) and its ladder, measured as members ``start …`` of ``fig``, ``ok`` where they are
-    within tolerance."""
+    """The required GBW of each candidate from its coarse ladder, ``(item, ref, ladder, start,
+    tolerances)``: its search item ``(netlist, ideal, family, w_ref, probe)``, its ideal figures
+    ``ref`` (scalars) and its ladder, measured as members ``start …`` of ``fig``, ``ok`` where
+    they are within its tolerances."""
     out: list = [None] * len(cases)
     crossing = []  # (case, ref, ladder, start, j): the last failing step, interpolated below
     ok_list = ok.tolist()
-    for n, ((netlist, _, family, w_ref, _), ref, ladder, start) in enumerate(cases):
+    for n, ((netlist, _, family, w_ref, _), ref, ladder, start, tol) in enumerate(cases):
         passed = ok_list[start : start + ladder.size]
         if not passed[-1]:
             top = measure(with_gbw(netlist, family, w_ref, ladder[-1:], a0)).item()
@@ -232,13 +246,13 @@ def _conclude_many(
         elif all(passed):
             out[n] = float(ladder[0]), None
         else:
-            crossing.append((n, ref, ladder, start, len(passed) - 1 - passed[::-1].index(False)))
-    found = _crossings(fig, tolerances, [c[1:] for c in crossing])
-    for (n, ref, ladder, _, j), gbw in zip(crossing, found):
+            crossing.append((n, ref, ladder, start, len(passed) - 1 - passed[::-1].index(False), tol))
+    found = _crossings(fig, [c[1:] for c in crossing])
+    for (n, ref, ladder, _, j, tol), gbw in zip(crossing, found):
         if gbw is None:  # a fine ladder across the last failing step
             netlist, _, family, w_ref, _ = cases[n][0]
             fine = geometric(float(ladder[j]), float(ladder[j + 1]), _FINE_POINTS)
-            passes = within_tolerances(_near_figures(with_gbw(netlist, family, w_ref, fine, a0), ref, tolerances), ref, tolerances)
+            passes = within_tolerances(_near_figures(with_gbw(netlist, family, w_ref, fine, a0), ref, tol), ref, tol)
             fails = np.flatnonzero(~passes)
             # the last fine point is the ladder's passing one; if rounding fails it there, keep it anyway
             gbw = float(fine[min(fails[-1] + 1, fine.size - 1)] if fails.size else fine[0])

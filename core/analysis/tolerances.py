@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Sequence
 
 import numpy as np
 
@@ -31,11 +32,17 @@ class Tolerances:
                 raise InputError(f"tol-{name.replace('_', '-')}", f"must be a finite number above zero, got {v!r}")
 
 
-def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances) -> np.ndarray:
-    """True where ``fig`` is within ``tol`` of the reference figures (scalars in ``ref``)."""
+def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances | Sequence[Tolerances], counts: Sequence[int] | None = None) -> np.ndarray:
+    """True where ``fig`` is within ``tol`` of the reference figures (scalars in ``ref``, or one
+    per member of ``fig``). With a tolerance per candidate, ``counts`` gives each one's number of
+    members (in order): each member is held to its own candidate's tolerances."""
+    if isinstance(tol, Tolerances):
+        f0, q, gain_db = tol.f0, tol.q, tol.gain_db
+    else:
+        f0, q, gain_db = (np.repeat([getattr(t, name) for t in tol], counts) for name in ("f0", "q", "gain_db"))
     with np.errstate(invalid="ignore"):
-        ok = np.abs(fig.f0_hz / ref.f0_hz - 1.0) <= tol.f0
-        ok &= np.abs(fig.q / ref.q - 1.0) <= tol.q
-        ok &= np.abs(fig.gain_center_db - ref.gain_center_db) <= tol.gain_db
+        ok = np.abs(fig.f0_hz / ref.f0_hz - 1.0) <= f0
+        ok &= np.abs(fig.q / ref.q - 1.0) <= q
+        ok &= np.abs(fig.gain_center_db - ref.gain_center_db) <= gain_db
         ok &= np.sign(fig.gain_center) == np.sign(ref.gain_center)
     return ok & fig.valid

@@ -8,8 +8,9 @@ asked for (:attr:`bandsmith.analysis.analyzer.Analysis.requirements`, from its `
 the conditions a result carries. So every stage's circuits are prepared and their parts chosen
 first (:func:`prepare_stages`, through :func:`bandsmith.design.designer.prepare_designs_many`: the
 standard-value searches of every stage's circuits in one call), and the analyses of all stages
-that share their conditions up to the amplitude are made in one batch (:func:`bandsmith.design.candidate.analyze_candidates`: each
-candidate's figures and required GBW measured member by member, as alone); once the stages before
+that share their conditions up to the amplitude, their stage tolerances and the source resistance
+are made in one batch (:func:`bandsmith.design.candidate.analyze_candidates`: each candidate's
+figures and required GBW measured member by member under its own stage's, as alone); once the stages before
 it are built, a stage's results are concluded under its own conditions, amplitude included
 (:meth:`PendingStage.results`). They are the results :func:`designs_or_errors` gives for the
 stage's conditions.
@@ -23,7 +24,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from bandsmith.design.candidate import Conditions, analyze_candidates
+from bandsmith.design.candidate import Conditions, analyze_candidates, batch_conditions
 from bandsmith.design.designer import PreparedDesigns, Spec, prepare_designs_many
 
 __all__ = ["PendingStage", "prepare_stages"]
@@ -60,17 +61,20 @@ class PendingStage:
 
 def prepare_stages(stages: Sequence[tuple[Sequence[str], Spec, Conditions]], series: str) -> list[PendingStage]:
     """Every stage's circuits ``(ids, target, conditions)`` prepared, their parts chosen, and
-    (without a load capacitance) analysed: the candidates of all stages whose conditions are
-    equal in one batch. The conditions' amplitude is a stand-in (module notes)."""
+    (without a load capacitance) analysed: the candidates of all stages whose conditions differ
+    at most in their tolerances and source resistance in one batch, each under its own stage's
+    (:func:`bandsmith.design.candidate.analyze_candidates`). The conditions' amplitude is a
+    stand-in (module notes)."""
     prepared = prepare_designs_many(stages, series=series)
     analyses: list[list | None] = [None] * len(stages)
     groups: dict[Conditions, list[int]] = {}
     for k, (_, _, cond) in enumerate(stages):
         if cond.cload_f is None:  # with one, the analysis needs the amplitude
-            groups.setdefault(cond, []).append(k)
-    for cond, ks in groups.items():
+            groups.setdefault(batch_conditions(cond), []).append(k)
+    for ks in groups.values():
         ready = [prepared[k].candidates() for k in ks]
-        done = iter(analyze_candidates([c for cands in ready for c in cands], cond) if any(ready) else [])
+        each = [stages[k][2] for k, cands in zip(ks, ready) for _ in cands]
+        done = iter(analyze_candidates([c for cands in ready for c in cands], each) if any(ready) else [])
         for k, cands in zip(ks, ready):
             analyses[k] = [next(done) for _ in cands]
     return [PendingStage(p, an) for p, an in zip(prepared, analyses)]

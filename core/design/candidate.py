@@ -7,7 +7,7 @@ candidate, an :class:`~bandsmith.analysis.analyzer.Analysis` out, and the README
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Mapping, Sequence
 
 from bandsmith.analysis.analyzer import DEFAULT_A0, Analysis, Tolerances, analyze, analyze_many
@@ -21,7 +21,7 @@ from bandsmith.common.values import parse_value
 from bandsmith.common.limits import VIN_RANGE_V, check_part_value, check_range
 from bandsmith.design.source import with_source  # at import: the first analysis of a process should not load it
 
-__all__ = ["Conditions", "Candidate", "analyze_candidates", "parse_parts", "analysis_json"]
+__all__ = ["Conditions", "Candidate", "analyze_candidates", "batch_conditions", "parse_parts", "analysis_json"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -128,25 +128,41 @@ class Candidate:
         return result
 
 
-def analyze_candidates(candidates: Sequence[Candidate], conditions: Conditions = Conditions()) -> list[Analysis | InputError]:
-    """:meth:`Candidate.analyze` of several candidates under one set of conditions, their first
-    passes and required-GBW ladders measured in one batch (:func:`bandsmith.analysis.analyzer.analyze_many`).
+def analyze_candidates(
+    candidates: Sequence[Candidate], conditions: Conditions | Sequence[Conditions] = Conditions()
+) -> list[Analysis | InputError]:
+    """:meth:`Candidate.analyze` of several candidates, their first passes and required-GBW
+    ladders measured in one batch (:func:`bandsmith.analysis.analyzer.analyze_many`).
+
+    ``conditions``: one set for all, or one per candidate, which may differ in their tolerances
+    and source resistance only (a chain's stages: each held to its own tolerances, the first
+    driven through the source); each candidate's analysis is the one it has under its own.
 
     Returns
     -------
     list
         Per candidate its analysis, or the :class:`InputError` it raises alone (no measurable peak).
     """
-    results = analyze_many(
-        [c.driven_netlist(conditions) for c in candidates], parts=[c.values for c in candidates], **_analysis_options(conditions)
-    )
+    each = [conditions] * len(candidates) if isinstance(conditions, Conditions) else list(conditions)
+    options = _analysis_options(each[0] if each else Conditions())
+    if not isinstance(conditions, Conditions):
+        if any(batch_conditions(c) != batch_conditions(each[0]) for c in each[1:]):
+            raise ValueError("candidates analysed together may differ in their tolerances and source resistance only")
+        options["tolerances"] = [c.tolerances for c in each]
+    results = analyze_many([c.driven_netlist(k) for c, k in zip(candidates, each)], parts=[c.values for c in candidates], **options)
     out: list[Analysis | InputError] = []
-    for cand, result in zip(candidates, results):
+    for cand, result, k in zip(candidates, results, each):
         try:
-            out.append(cand._checked(result, conditions))
+            out.append(cand._checked(result, k))
         except InputError as exc:
             out.append(exc)
     return out
+
+
+def batch_conditions(conditions: Conditions) -> Conditions:
+    """The conditions but their tolerances and source resistance: what candidates analysed in one
+    batch share (:func:`analyze_candidates`)."""
+    return replace(conditions, tolerances=Tolerances(), rsource_ohm=None)
 
 
 def _analysis_options(conditions: Conditions) -> dict:
@@ -157,8 +173,6 @@ def _analysis_options(conditions: Conditions) -> dict:
 
 def _with_capacitive_load(result: Analysis, conditions: Conditions) -> Analysis:
     """The analysis with the output current at f0 into the load R ∥ C as well (R optional)."""
-    from dataclasses import replace
-
     from bandsmith.solver.mna import solve_at
     from bandsmith.solver.netlist import Element
 
