@@ -304,8 +304,11 @@ def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits
     """
     tol = part_tolerances_of(kinds, result.chosen, limits)
     est = estimate_yield(result.analysis.sensitivity, tol, limits)
-    edges = {BUILDABLE: (limits.yield_marginal, limits.yield_min), MARGINAL: (limits.yield_min,), NOT_BUILDABLE: ()}[so_far]
-    bent = max(est.sigma["f0"], est.sigma["q"], math.expm1(est.sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
+    if so_far == NOT_BUILDABLE:
+        return est, None, est.fraction  # no yield can change the verdict: no Monte Carlo
+    edges = (limits.yield_marginal, limits.yield_min) if so_far == BUILDABLE else (limits.yield_min,)
+    sigma = est.sigma
+    bent = max(sigma["f0"], sigma["q"], math.expm1(sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
     band = limits.confirm_band * (2.0 if bent else 1.0)
     near = any(abs(est.fraction - e) < band for e in edges)
     mc = confirm_yield(result.analysis.netlist, tol, limits) if near and tol else None
