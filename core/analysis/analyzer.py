@@ -22,7 +22,7 @@ from typing import Mapping, NamedTuple, Sequence
 import numpy as np
 
 from bandsmith.common.limits import DEFAULT_A0
-from bandsmith.common.jsonutil import finite_or_none_each
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import to_ma, to_v_per_us
 from bandsmith.common.errors import InputError
 from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
@@ -76,9 +76,14 @@ class AmplifierNeeds:
     iout_peak_a: float
 
     def to_json(self) -> dict:
-        vout, sine, step, iout = finite_or_none_each(
-            (self.vout_peak_v, to_v_per_us(self.slew_sine_v_per_s), to_v_per_us(self.slew_step_v_per_s), to_ma(self.iout_peak_a)))
-        return {"ref": self.ref, "node": self.node, "vout_peak_v": vout, "slew_sine_v_per_us": sine, "slew_step_v_per_us": step, "iout_peak_ma": iout}
+        return {
+            "ref": self.ref,
+            "node": self.node,
+            "vout_peak_v": finite_or_none(self.vout_peak_v),
+            "slew_sine_v_per_us": finite_or_none(to_v_per_us(self.slew_sine_v_per_s)),
+            "slew_step_v_per_us": finite_or_none(to_v_per_us(self.slew_step_v_per_s)),
+            "iout_peak_ma": finite_or_none(to_ma(self.iout_peak_a)),
+        }
 
 
 @dataclass(frozen=True, slots=True)
@@ -119,24 +124,21 @@ class Requirements:
         return to_ma(self.iout_peak_a)
 
     def to_json(self) -> dict:
-        gbw, vout, sine, step, iout, rule = finite_or_none_each((
-            self.gbw_hz, self.vout_peak_v, to_v_per_us(self.slew_sine_v_per_s), to_v_per_us(self.slew_step_v_per_s),
-            to_ma(self.iout_peak_a), self.gbw_rule_of_thumb_hz,
-        ))
-        tol = self.tolerances
+        f = finite_or_none
+
         return {
-            "gbw_hz": gbw,
+            "gbw_hz": f(self.gbw_hz),
             "gbw_reason": self.gbw_reason,
-            "tol_f0": float(tol.f0),
-            "tol_q": float(tol.q),
-            "tol_gain_db": float(tol.gain_db),
+            "tol_f0": float(self.tolerances.f0),
+            "tol_q": float(self.tolerances.q),
+            "tol_gain_db": float(self.tolerances.gain_db),
             "a0": float(self.a0),
             "vin_v": float(self.vin_v),
-            "vout_peak_v": vout,
-            "slew_sine_v_per_us": sine,
-            "slew_step_v_per_us": step,
-            "iout_peak_ma": iout,
-            "gbw_rule_of_thumb_hz": rule,
+            "vout_peak_v": f(self.vout_peak_v),
+            "slew_sine_v_per_us": f(to_v_per_us(self.slew_sine_v_per_s)),
+            "slew_step_v_per_us": f(to_v_per_us(self.slew_step_v_per_s)),
+            "iout_peak_ma": f(to_ma(self.iout_peak_a)),
+            "gbw_rule_of_thumb_hz": f(self.gbw_rule_of_thumb_hz),
             "amplifiers": [a.to_json() for a in self.amplifiers],
         }
 

@@ -23,13 +23,12 @@ the batch:
 from __future__ import annotations
 
 import functools
-import operator
 from dataclasses import dataclass, fields, replace
 from typing import Sequence
 
 import numpy as np
 
-from bandsmith.common.jsonutil import finite_or_none_each
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
 from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
 
@@ -87,7 +86,8 @@ class Figures:
     def to_json(self, i: int = 0) -> dict:
         """The README's FIGURES object for member ``i`` (None where a figure is undefined): the
         floats of :meth:`item`."""
-        return dict(zip(_FIELDS, finite_or_none_each(_MEMBER_VALUES(self.item(i)))))
+        one = self.item(i)
+        return {name: finite_or_none(getattr(one, name)) for name in _FIELDS}
 
     @property
     def valid(self) -> np.ndarray:
@@ -102,8 +102,6 @@ def defined(f0_hz, q, gain_center_db) -> np.ndarray:
 
 
 _FIELDS = tuple(f.name for f in fields(Figures))
-# the eight figures of one member (Figures.item's) as a tuple in field order, in one call
-_MEMBER_VALUES = operator.attrgetter(*_FIELDS)
 
 
 @functools.lru_cache(maxsize=None)
