@@ -20,7 +20,7 @@ from numpy.testing import assert_allclose
 
 from bandsmith.analysis.figures import biquad_figures
 from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes, perturbed_ratios
-from bandsmith.common.jsonutil import finite_or_none, finite_or_none_each
+from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import PART_UNITS, part_unit, to_ma, to_v_per_us
 
 
@@ -42,16 +42,6 @@ def test_finite_or_none_writes_only_numbers_json_allows(x, want):
     got = finite_or_none(x)
     assert got == want and (got is None or type(got) is float)
     json.dumps(got, allow_nan=False)  # raises on NaN/inf
-
-
-def test_finite_or_none_each_is_finite_or_none_of_every_value_in_order():
-    # RFC 8259 section 6: NaN and Infinity are not permitted as JSON numbers.
-    values = [1.5, np.float64(-2.0), math.nan, math.inf, -math.inf, None, 0.0, -0.0, 3, 1e308]
-    got = finite_or_none_each(values)
-    assert got == [finite_or_none(x) for x in values]
-    assert all(g is None or type(g) is float for g in got)
-    assert finite_or_none_each(()) == []
-    json.dumps(got, allow_nan=False)
 
 
 @pytest.mark.parametrize("f0, q, h0", [(1e3, 0.7, 1.0), (5.6e3, 6.0, -4.9), (20e3, 50.0, 10.0)])
