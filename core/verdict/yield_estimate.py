@@ -201,8 +201,10 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
     x = s @ _log_deviations(tuple(p)) if refs else np.zeros((len(FIGURES), 1))
     inside = x >= lo  # (3, points), all rows at once
     inside &= x <= hi
+    every = inside[0] & inside[1]
+    every &= inside[2]
     n = x.shape[1]
-    fraction = np.count_nonzero(inside.all(axis=0)) / n  # all three at once (along the short axis)
+    fraction = np.count_nonzero(every) / n
     within = [np.count_nonzero(row) / n for row in inside]  # row by row: contiguous, quicker than axis=1
     k = min(range(len(FIGURES)), key=within.__getitem__) if refs else 0  # the first of the least, as argmin
     total = totals[k]
