@@ -373,3 +373,24 @@ def test_ties_in_theory_are_not_decided_by_rounding(demo):
     assert est.part == "C1"
     est = estimate_yield({"f0": {"C1": -0.5 * (1 - 2e-12), "C2": -0.5}, "q": {}, "gain": {}}, {"C1": 0.05, "C2": 0.05})
     assert est.part == "C1"
+
+
+def test_judge_reads_each_circuits_parts_as_its_components_list_says():
+    # What judge reads of a circuit's parts (made once per parts list) against the rule written
+    # out on the components themselves: every part's kind, the required resistors, capacitors and
+    # inductors range-checked in order, the parts to buy and whether an inductor is among them
+    # (bandsmith.design.compare's part_count and needs_inductor). A consistency check of our own.
+    import importlib
+
+    from bandsmith.circuits import get_topology, topology_ids
+    from bandsmith.design.compare import needs_inductor, part_count
+
+    judge_module = importlib.import_module("bandsmith.verdict.judge")
+    for cid in topology_ids():
+        topo = get_topology(cid)
+        parts = judge_module._parts_of(topo)
+        kinds = {c.ref: c.kind for c in topo.components}
+        assert parts.kinds == kinds and parts.kind_set == frozenset(kinds.values()), cid
+        assert parts.ranged == tuple((c.ref, c.kind) for c in topo.components if c.required and c.kind in ("R", "C", "L")), cid
+        assert (parts.count, parts.inductor) == (part_count(topo), needs_inductor(topo)), cid
+        assert judge_module._parts_of(topo).ranged is parts.ranged  # made once per parts list

@@ -322,8 +322,11 @@ def _step_slopes(num_rows: list[list[float]], den_rows: list[list[float]], ws: l
     groups: dict[tuple, list[tuple[int, np.ndarray]]] = {}
     width = max(len(num_rows[0]), len(den_rows[0])) if num_rows else 0
     powers: dict[float, list[float]] = {}
+    last_row = den = None
     for i, (num_row, den_row, w) in enumerate(zip(num_rows, den_rows, ws)):
-        num, den = lead_trimmed(num_row), lead_trimmed(den_row)  # Rational.item's
+        num = lead_trimmed(num_row)  # Rational.item's
+        if den_row is not last_row:  # (max_step_slopes_of's members share one row: trimmed once)
+            last_row, den = den_row, lead_trimmed(den_row)
         slope = _pure_bandpass_slope(num, den, w)
         if slope is None:
             if w not in powers:

@@ -441,17 +441,14 @@ def node_coefficients(system: MnaSystem, indices, w_ref: float, *, at: complex |
     s = np.array(points if at is None else points + [complex(at)])
     a = np.multiply.outer(s, c)  # (K, n, n), and the pencil at ``at`` after them
     a += g
+    values = np.empty((1 + len(idx), k), dtype=complex)  # D, then D·x_i of every unknown asked for
     if den is None:
-        den_v = np.linalg.det(a[:k])
+        values[0] = np.linalg.det(a[:k])
     else:
         coefficients, w = den
-        den_v = np.array([polyval_one(coefficients, z / w) for z in points])
-    rhs = np.zeros((1, system.layout.size, 1), dtype=complex)  # (1, n, 1): a matrix for every member
-    rhs[0, system.layout.source_row, 0] = 1.0
-    x = np.linalg.solve(a, rhs)  # (K, n, 1), each matrix solved alone
-    values = np.empty((1 + len(idx), k), dtype=complex)
-    values[0] = den_v
-    values[1:] = (x[:k, idx, 0] * den_v[:, None]).T
+        values[0] = [polyval_one(coefficients, z / w) for z in points]
+    x = np.linalg.solve(a, _source_column(system.layout.size, system.layout.source_row))  # (K, n, 1), each matrix solved alone
+    np.multiply(x[:k, idx, 0].T, values[0], out=values[1:])  # (the same products as D·x, laid out as rows)
     both = (values @ _interpolation_matrix(k)).real.tolist()
     den_c = _trim_rows(both[:1])[0]
     num_c = _trim_rows(both[1:])
@@ -461,6 +458,16 @@ def node_coefficients(system: MnaSystem, indices, w_ref: float, *, at: complex |
     if scale == 0:  # an all-zero denominator: IEEE quotients (inf, NaN), as numpy's division gives them
         return (np.array(num_c) / scale).tolist(), (np.array(den_c) / scale).tolist(), x_at
     return [[v / scale for v in r] for r in num_c], [v / scale for v in den_c], x_at
+
+
+@functools.lru_cache(maxsize=64)
+def _source_column(n: int, row: int) -> np.ndarray:
+    """The right-hand side of :func:`node_coefficients`' solves: ``(1, n, 1)``, a unit source in
+    ``row`` (one matrix for every member of the stack), read-only."""
+    rhs = np.zeros((1, n, 1), dtype=complex)
+    rhs[0, row, 0] = 1.0
+    rhs.setflags(write=False)
+    return rhs
 
 
 @functools.lru_cache(maxsize=16)

@@ -37,6 +37,7 @@ where it cannot change the verdict (other reasons already make the candidate ``n
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 from typing import Callable, Mapping, NamedTuple
@@ -45,7 +46,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
-from bandsmith.design.compare import needs_inductor, part_count
+from bandsmith.design.compare import part_count
 from bandsmith.design.designer import DesignResult, spread_of
 from bandsmith.circuits.topology import Topology
 from bandsmith.design.standard import errors_of, figure_misses
@@ -206,10 +207,12 @@ def _spread_reasons(spread: Mapping[str, float | None], limits: VerdictLimits) -
     return out
 
 
-def _range_reasons(topo: Topology, chosen: Mapping[str, float], limits: VerdictLimits) -> list[_Crossed]:
+def _range_reasons(ranged: tuple[tuple[str, str], ...], chosen: Mapping[str, float], limits: VerdictLimits) -> list[_Crossed]:
+    """The parts outside the practical range of their kind; ``ranged`` the circuit's
+    ``(reference, kind)`` pairs to check (:class:`_Parts`' ``ranged``)."""
     bounds = {"R": (limits.r_min_ohm, limits.r_max_ohm), "C": (limits.c_min_f, limits.c_max_f), "L": (limits.l_min_h, limits.l_max_h)}
     out = []
-    for ref, kind in _parts_of(topo).ranged:
+    for ref, kind in ranged:
         v = chosen.get(ref, 0.0)
         lo, hi = bounds[kind]
         if v < lo:
@@ -231,11 +234,22 @@ class _Parts(NamedTuple):
     inductor: bool  # needs_inductor
 
 
+@functools.lru_cache(maxsize=64)
+def _kinds_of(part_kinds: tuple[tuple[str, str, bool], ...]) -> tuple[dict[str, str], frozenset[str], tuple[tuple[str, str], ...]]:
+    """:class:`_Parts`' ``kinds``, ``kind_set`` and ``ranged`` of a parts list
+    (:attr:`~bandsmith.circuits.topology.Topology.part_kinds`), made once per parts list: a
+    cache keyed on the circuit's structure (plain strings). The dict is shared: read it only."""
+    kinds = {ref: kind for ref, kind, _ in part_kinds}
+    ranged = tuple((ref, kind) for ref, kind, required in part_kinds if required and kind in _KIND_WORDS)
+    return kinds, frozenset(kinds.values()), ranged
+
+
 def _parts_of(topo: Topology) -> _Parts:
-    """What judge reads of ``topo``'s parts, from its ``part_kinds`` (made once with the topology)."""
-    kinds = {ref: kind for ref, kind, _ in topo.part_kinds}
-    ranged = tuple((ref, kind) for ref, kind, required in topo.part_kinds if required and kind in _KIND_WORDS)
-    return _Parts(kinds, frozenset(kinds.values()), ranged, part_count(topo), needs_inductor(topo))
+    """What judge reads of ``topo``'s parts, from its ``part_kinds`` (made once with the topology;
+    :func:`_kinds_of`); it needs an inductor when an ``L`` is among its kinds (as
+    :func:`~bandsmith.design.compare.needs_inductor` finds)."""
+    kinds, kind_set, ranged = _kinds_of(topo.part_kinds)
+    return _Parts(kinds, kind_set, ranged, part_count(topo), "L" in kind_set)
 
 
 def _gbw_reasons(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
@@ -290,8 +304,11 @@ def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits
     """
     tol = part_tolerances_of(kinds, result.chosen, limits)
     est = estimate_yield(result.analysis.sensitivity, tol, limits)
-    edges = {BUILDABLE: (limits.yield_marginal, limits.yield_min), MARGINAL: (limits.yield_min,), NOT_BUILDABLE: ()}[so_far]
-    bent = max(est.sigma["f0"], est.sigma["q"], math.expm1(est.sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
+    if so_far == NOT_BUILDABLE:
+        return est, None, est.fraction  # no yield can change the verdict: no Monte Carlo
+    edges = (limits.yield_marginal, limits.yield_min) if so_far == BUILDABLE else (limits.yield_min,)
+    sigma = est.sigma
+    bent = max(sigma["f0"], sigma["q"], math.expm1(sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
     band = limits.confirm_band * (2.0 if bent else 1.0)
     near = any(abs(est.fraction - e) < band for e in edges)
     mc = confirm_yield(result.analysis.netlist, tol, limits) if near and tol else None
@@ -336,18 +353,25 @@ def _order(reasons: list[Reason]) -> tuple[Reason, ...]:
     return tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
 
 
-def _settled_limits(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
+def _settled_limits(result: DesignResult, limits: VerdictLimits, parts: tuple[Topology, _Parts] | None = None) -> list[_Crossed]:
     """The limits crossed in judge's checks on numbers a feasible design already has, in judge's
     order: its figures against the design tolerances with the ideal op-amp and with the session's
     op-amp, the resistor and capacitor spread, the parts' range and the required GBW (what
-    :func:`least_verdict` bounds the verdict with); their words are written only when judge asks."""
-    a, topo, tol = result.analysis, result.topology, result.conditions.tolerances
+    :func:`least_verdict` bounds the verdict with); their words are written only when judge asks.
+    ``parts``: the design's topology and :func:`_parts_of` it, where the caller has them (else
+    found here)."""
+    a, tol = result.analysis, result.conditions.tolerances
+    if parts is None:
+        topo = result.topology
+        ranged = _kinds_of(topo.part_kinds)[2]
+    else:
+        topo, ranged = parts[0], parts[1].ranged
     crossed = _figure_reasons(result.errors, tol, "", lambda: f"with {result.series} parts and an ideal op-amp,")
     if a.actual is not None:
         crossed += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
                                    lambda: f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
     crossed += _spread_reasons(spread_of(topo, result.chosen), limits)
-    crossed += _range_reasons(topo, result.chosen, limits)
+    crossed += _range_reasons(ranged, result.chosen, limits)
     crossed += _gbw_reasons(result, limits)
     return crossed
 
@@ -379,7 +403,7 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     reasons: list[Reason] = []
     if not a.stable_ideal or a.stable_actual is False:
         reasons.append(Reason("unstable", "; ".join(a.warnings) or "unstable", None, None, NOT_BUILDABLE))
-    reasons += [c.reason() for c in _settled_limits(result, limits)]
+    reasons += [c.reason() for c in _settled_limits(result, limits, (topo, parts))]
     reasons += _amp_reasons(result, limits)
     r = _inductor_reason(result, limits) if inductor else None
     if r is not None:

@@ -134,7 +134,8 @@ class YieldEstimate:
 def part_tolerances_of(parts: Mapping[str, str], values: Mapping[str, float], limits: VerdictLimits) -> dict[str, float]:
     """The tolerance of every part with a value above zero (reference → fraction), ``parts`` mapping
     reference → kind."""
-    return {ref: limits.tolerance_of(ref, kind) for ref, kind in parts.items() if values.get(ref, 0.0) > 0}
+    get = limits.tolerances.get  # limits.tolerance_of(ref, kind), the lookup written out once
+    return {ref: float(get(ref, get(kind, 0.0))) for ref, kind in parts.items() if values.get(ref, 0.0) > 0}
 
 
 _NONE: Mapping[str, float] = {}
@@ -185,14 +186,14 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
     refs = [r for r, t in tolerances.items() if t > 0]
     p = [float(tolerances[r]) for r in refs]
     n_parts = len(refs)
-    rows = [sensitivity.get(k, _NONE) for k in FIGURES]
     # the sensitivities, row by row (f0, Q, gain), a non-finite one taken as zero
-    flat = [float(row.get(r, 0.0)) for row in rows for r in refs]
+    flat = [float(row.get(r, 0.0)) for row in (sensitivity.get(k, _NONE) for k in FIGURES) for r in refs]
     if not all(map(math.isfinite, flat)):
         flat = [v if math.isfinite(v) else 0.0 for v in flat]
     # each part's share of each figure's log variance, (S·p)²/3, and their sums (in plain numbers:
     # numpy's square and division are the same IEEE operations; a row's sum as numpy sums a row)
-    contrib = [[(v * t) * (v * t) / 3.0 for v, t in zip(flat[i * n_parts : (i + 1) * n_parts], p)] for i in range(len(FIGURES))]
+    shares_all = [(v * t) * (v * t) / 3.0 for v, t in zip(flat, p * len(FIGURES))]
+    contrib = [shares_all[i : i + n_parts] for i in range(0, len(shares_all), n_parts)] if n_parts else [[] for _ in FIGURES]
     totals = [_row_sum(c) for c in contrib]
     lo, hi = _window(limits.window_f0, limits.window_q, limits.window_gain_db)
     # the figures' log deviations at the fixed points, (3, points); all zero when nothing varies
