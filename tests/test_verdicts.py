@@ -98,6 +98,15 @@ def test_q50_mfb_and_sallen_key_not_buildable(q50):
         assert "no candidate is buildable" in q50.ranking.reason
 
 
+def test_a_spread_beyond_100_percent_is_written_in_plain_digits(q50):
+    # The Sallen–Key at Q 50: its Q's first-order spread passes 100 % with 1 % and 5 % parts
+    # (±286 % here); the reason states it as an engineer writes it, in plain digits, not in
+    # exponent notation (common practice, no source).
+    sk = _by_id(q50)["sallen-key"]
+    text = next(r.text for r in sk.reasons if r.code == "yield")
+    assert "at one standard deviation" in text and "e+" not in text
+
+
 def test_455k_q20_gain2():
     c = compare_verdicts(Spec(f0_hz=455e3, q=20.0, gain=2.0), series="E24")
     v = _by_id(c)

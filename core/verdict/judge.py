@@ -315,6 +315,13 @@ def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits
     return est, mc, est.fraction if mc is None else mc
 
 
+
+def _two_figures(x: float) -> str:
+    """A spread in plain digits: two significant figures, whole numbers from 100 on (a first-order
+    spread of Q can pass 100 %: "±286 %", not "±2.9e+02 %")."""
+    return f"{x:.0f}" if abs(x) >= 100 else f"{x:.2g}"
+
+
 def _yield_reason(est: YieldEstimate, mc: float | None, y: float, limits: VerdictLimits, kinds: frozenset[str]) -> Reason | None:
     if y >= limits.yield_marginal:
         return None
@@ -323,7 +330,7 @@ def _yield_reason(est: YieldEstimate, mc: float | None, y: float, limits: Verdic
     how = f"{limits.mc_trials} Monte Carlo trials" if mc is not None else "first-order estimate"
     tol = ", ".join(f"{k} {100 * limits.tolerances[k]:g} %" for k in ("R", "C", "L") if k in kinds)
     window = f"f0 ±{100 * limits.window_f0:g} %, Q ±{100 * limits.window_q:g} %, gain ±{limits.window_gain_db:g} dB"
-    spread = f"±{est.sigma['gain_db']:.2g} dB" if est.figure == "gain" else f"±{100 * est.sigma[est.figure]:.2g} %"
+    spread = f"±{_two_figures(est.sigma['gain_db'])} dB" if est.figure == "gain" else f"±{_two_figures(100 * est.sigma[est.figure])} %"
     most = f"; {est.figure_words} varies most ({spread} at one standard deviation), {100 * est.share:.0f} % of that from {est.part}" if est.part else ""
     return Reason(
         "yield",
