@@ -1005,3 +1005,38 @@ def test_netlist_nodes_and_refusals_follow_the_rule_written_out():
                         (("U1", "opamp", ("a", "b", "c"), 0.0, math.nan), "series resistance")):
         with pytest.raises(InputError, match=words):
             Element(*args)
+
+
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_families_weighted_together_equal_each_weighted_alone(circuit):
+    """weighted_together (a chain's stages on one several-op-amp circuit: their op-amp weights
+    over the GBW ladders as one stack) against AmpFamily.weighted family by family: the same
+    coefficients bit for bit, with the families' own terms and with terms whose leading entries
+    are zero in some families only (each then trimmed alone). A consistency check of our own two
+    paths, no outside source."""
+    import math
+
+    from bandsmith.analysis.transfer import several_amp_family
+    from bandsmith.solver.rational import AmpFamily, family_weights, weighted_together
+    from numpy.testing import assert_array_equal
+
+    topo = get_topology(circuit)
+    rng = np.random.default_rng(8)
+    fams = []
+    for _ in range(6):
+        values = topo.values_from({k: v * float(np.exp(rng.uniform(-0.4, 0.4))) if v > 0 else v for k, v in topo.example.items()})
+        fams.append(several_amp_family(topo.build(values), 2 * math.pi * 1e4 * float(np.exp(rng.uniform(-1, 1)))))
+    m = len(fams[0].den_terms) - 1
+    zeroed = [AmpFamily(tuple(np.r_[0.0, t[1:]] if k % 2 and j == m else t for j, t in enumerate(f.num_terms)),
+                        tuple(np.r_[0.0, t[1:]] if k % 3 == 0 and j == m else t for j, t in enumerate(f.den_terms)), f.w_ref)
+              for k, f in enumerate(fams)]
+    for group in (fams, zeroed, zeroed[::3]):
+        gbw = np.geomspace(1e4, 1e11, 62)
+        beta = np.concatenate([f.w_ref / (2 * math.pi * gbw) for f in group])
+        weights = family_weights(np.array([1e-5]), beta, m).reshape(len(group), gbw.size, -1)
+        together = weighted_together(group, weights)
+        for f, w, h in zip(group, weights, together):
+            fresh = AmpFamily(f.num_terms, f.den_terms, f.w_ref).weighted(w)
+            assert_array_equal(h.num, fresh.num)
+            assert_array_equal(h.den, fresh.den)
+            assert_array_equal(h.w_ref, fresh.w_ref)

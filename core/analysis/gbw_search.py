@@ -18,7 +18,7 @@ from bandsmith.analysis.transfer import nominal_system, transfer_function
 from bandsmith.common.grids import geometric
 from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, family_weights, rational_and_family
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, family_weights, rational_and_family, weighted_together
 
 __all__ = ["required_gbw", "search_gbw_many", "with_gbw"]
 
@@ -149,11 +149,18 @@ def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
         alpha = (1.0 / np.asarray(a0, dtype=float)).reshape(1)
         beta = np.concatenate([items[k][2].w_ref / (2.0 * np.pi * gbws[k]) for k in ks])
         weights = family_weights(alpha, beta, m)
-        start = 0
+        starts = dict(zip(ks, itertools.accumulate([gbws[k].size for k in ks[:-1]], initial=0)))
+        # the families of one shape with ladders as long (a chain's stages on one circuit) weighted as one stack
+        shapes: dict[tuple, list[int]] = {}
         for k in ks:
-            stop = start + gbws[k].size
-            blocks[k] = items[k][2].weighted(weights[start:stop])
-            start = stop
+            shapes.setdefault((tuple(t.shape for t in items[k][2].shifted_terms()), gbws[k].size), []).append(k)
+        for (_, size), group in shapes.items():
+            if len(group) > 1:
+                stack = np.stack([weights[starts[k] : starts[k] + size] for k in group])
+                for k, block in zip(group, weighted_together([items[k][2] for k in group], stack)):
+                    blocks[k] = block
+            else:
+                blocks[group[0]] = items[group[0]][2].weighted(weights[starts[group[0]] : starts[group[0]] + size])
     for k, (netlist, _, family, w_ref) in enumerate(items):
         if blocks[k] is None:
             blocks[k] = with_gbw(netlist, family, w_ref, gbws[k], a0)

@@ -652,19 +652,62 @@ class AmpFamily:
         """The transfer functions for the rows of :func:`family_weights` (``(B, pairs)``, this
         family's ``m``): :meth:`at` once its op-amps' weights are made (a caller with the ladders
         of several families of one ``m`` makes their weights in one batch)."""
-        m = len(self.den_terms) - 1
-        if self._shifted is None:
-            # (their shape kept: a product of another shape may add in another order)
-            (num_s, num_zero), (den_s, den_zero) = _family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m)
-            object.__setattr__(self, "_shifted", (num_s, den_s))
-            object.__setattr__(self, "_zero_lead", (num_zero, den_zero))
-        num = weights @ self._shifted[0]
-        den = weights @ self._shifted[1]
+        num_s, den_s = self.shifted_terms()
+        num = weights @ num_s
+        den = weights @ den_s
         den = _lead_trim(den, self._zero_lead[1])
         num = _lead_trim(num, self._zero_lead[0])
         scale = np.abs(den).max(axis=1, keepdims=True)
         scale[scale == 0] = 1.0
         return Rational(num / scale, den / scale, np.full(weights.shape[0], self.w_ref))
+
+    def shifted_terms(self) -> tuple[np.ndarray, np.ndarray]:
+        """The numerator's and denominator's shifted terms ``T_j·p^i`` (:func:`_family_shifted`,
+        ``(pairs, length)`` each, read-only), made when first asked for, with the number of
+        leading columns that are zero in every row (``_zero_lead``)."""
+        if self._shifted is None:
+            m = len(self.den_terms) - 1
+            # (their shape kept: a product of another shape may add in another order)
+            (num_s, num_zero), (den_s, den_zero) = _family_shifted(self.num_terms, m), _family_shifted(self.den_terms, m)
+            object.__setattr__(self, "_shifted", (num_s, den_s))
+            object.__setattr__(self, "_zero_lead", (num_zero, den_zero))
+        return self._shifted
+
+
+def _leads_with(c: np.ndarray, zero: int) -> bool:
+    """True where :func:`_lead_trim` of every family's block ``c[g]`` (a stack ``(G, B, length)``)
+    drops exactly its first ``zero`` columns: they are zero in every row, and the next column is
+    not (in some row of each block)."""
+    return zero < c.shape[2] and bool(c[:, :, zero].any(axis=1).all()) and not c[:, :, :zero].any()
+
+
+def weighted_together(families: Sequence[AmpFamily], weights: np.ndarray) -> list[Rational]:
+    """:meth:`AmpFamily.weighted` of several families whose shifted terms have one shape (one
+    circuit's families: a chain's stages on it), with as many rows of weights each, ``weights``
+    ``(G, B, pairs)``: the products as one stack (numpy's matmul takes a stack one product per
+    family, so each family gets the numbers it has alone; tested), and where every family has as
+    many leading zero columns, and the column after them is not zero in any, the trim and the
+    scaling over the whole stack (a maximum and a division round each number as alone)."""
+    num_s, den_s = (np.stack(t) for t in zip(*[f.shifted_terms() for f in families]))
+    num = weights @ num_s
+    den = weights @ den_s
+    zeros = {f._zero_lead for f in families}
+    if len(zeros) == 1:
+        zn, zd = zeros.pop()
+        if _leads_with(num, zn) and _leads_with(den, zd):  # every family trimmed as _lead_trim trims it alone
+            den, num = den[:, :, zd:], num[:, :, zn:]
+            scale = np.abs(den).max(axis=2, keepdims=True)
+            scale[scale == 0] = 1.0
+            num, den = num / scale, den / scale
+            return [Rational(num[g], den[g], np.full(weights.shape[1], f.w_ref)) for g, f in enumerate(families)]
+    out = []
+    for g, f in enumerate(families):  # (families whose leading zeros differ: each trimmed alone)
+        d = _lead_trim(den[g], f._zero_lead[1])
+        n = _lead_trim(num[g], f._zero_lead[0])
+        scale = np.abs(d).max(axis=1, keepdims=True)
+        scale[scale == 0] = 1.0
+        out.append(Rational(n / scale, d / scale, np.full(weights.shape[1], f.w_ref)))
+    return out
 
 
 @functools.lru_cache(maxsize=16)
