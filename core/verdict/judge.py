@@ -315,7 +315,6 @@ def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits
     return est, mc, est.fraction if mc is None else mc
 
 
-
 def _two_figures(x: float) -> str:
     """A spread in plain digits: two significant figures, whole numbers from 100 on (a first-order
     spread of Q can pass 100 %: "±286 %", not "±2.9e+02 %")."""

@@ -134,8 +134,7 @@ class YieldEstimate:
 def part_tolerances_of(parts: Mapping[str, str], values: Mapping[str, float], limits: VerdictLimits) -> dict[str, float]:
     """The tolerance of every part with a value above zero (reference → fraction), ``parts`` mapping
     reference → kind."""
-    get = limits.tolerances.get  # limits.tolerance_of(ref, kind), the lookup written out once
-    return {ref: float(get(ref, get(kind, 0.0))) for ref, kind in parts.items() if values.get(ref, 0.0) > 0}
+    return {ref: limits.tolerance_of(ref, kind) for ref, kind in parts.items() if values.get(ref, 0.0) > 0}
 
 
 _NONE: Mapping[str, float] = {}
