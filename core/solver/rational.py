@@ -653,13 +653,16 @@ class AmpFamily:
         family's ``m``): :meth:`at` once its op-amps' weights are made (a caller with the ladders
         of several families of one ``m`` makes their weights in one batch)."""
         num_s, den_s = self.shifted_terms()
-        num = weights @ num_s
-        den = weights @ den_s
+        return self._trimmed(weights @ num_s, weights @ den_s)
+
+    def _trimmed(self, num: np.ndarray, den: np.ndarray) -> Rational:
+        """Weighted sums of the shifted terms as transfer functions: the leading columns that are
+        zero in every row dropped, each member scaled by its denominator's largest coefficient."""
         den = _lead_trim(den, self._zero_lead[1])
         num = _lead_trim(num, self._zero_lead[0])
         scale = np.abs(den).max(axis=1, keepdims=True)
         scale[scale == 0] = 1.0
-        return Rational(num / scale, den / scale, np.full(weights.shape[0], self.w_ref))
+        return Rational(num / scale, den / scale, np.full(num.shape[0], self.w_ref))
 
     def shifted_terms(self) -> tuple[np.ndarray, np.ndarray]:
         """The numerator's and denominator's shifted terms ``T_j·p^i`` (:func:`_family_shifted`,
@@ -700,14 +703,7 @@ def weighted_together(families: Sequence[AmpFamily], weights: np.ndarray) -> lis
             scale[scale == 0] = 1.0
             num, den = num / scale, den / scale
             return [Rational(num[g], den[g], np.full(weights.shape[1], f.w_ref)) for g, f in enumerate(families)]
-    out = []
-    for g, f in enumerate(families):  # (families whose leading zeros differ: each trimmed alone)
-        d = _lead_trim(den[g], f._zero_lead[1])
-        n = _lead_trim(num[g], f._zero_lead[0])
-        scale = np.abs(d).max(axis=1, keepdims=True)
-        scale[scale == 0] = 1.0
-        out.append(Rational(n / scale, d / scale, np.full(weights.shape[1], f.w_ref)))
-    return out
+    return [f._trimmed(num[g], den[g]) for g, f in enumerate(families)]  # (leading zeros that differ: each alone)
 
 
 @functools.lru_cache(maxsize=16)
