@@ -1040,3 +1040,36 @@ def test_families_weighted_together_equal_each_weighted_alone(circuit):
             assert_array_equal(h.num, fresh.num)
             assert_array_equal(h.den, fresh.den)
             assert_array_equal(h.w_ref, fresh.w_ref)
+
+
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_several_amp_families_made_together_equal_each_made_alone(circuit):
+    """several_amp_families (a chain's stages on one several-op-amp circuit: their families from
+    the expansion's op-amp terms of a stack) against several_amp_family netlist by netlist: the
+    same terms bit for bit, with a one-op-amp netlist among them (None). A consistency check of
+    our own two paths, no outside source."""
+    import math
+
+    from bandsmith.analysis.transfer import several_amp_families, several_amp_family
+    from numpy.testing import assert_array_equal
+
+    topo = get_topology(circuit)
+    rng = np.random.default_rng(12)
+    netlists, w_refs = [], []
+    for _ in range(7):
+        values = topo.values_from({k: v * float(np.exp(rng.uniform(-0.5, 0.5))) if v > 0 else v for k, v in topo.example.items()})
+        netlists.append(topo.build(values))
+        w_refs.append(2 * math.pi * 1e3 * float(np.exp(rng.uniform(-2, 2))))
+    mfb = get_topology("mfb")
+    netlists.insert(3, mfb.build(mfb.example))
+    w_refs.insert(3, 1e4)
+    together = several_amp_families(netlists, w_refs)
+    assert together[3] is None
+    for netlist, w, fam in zip(netlists, w_refs, together):
+        alone = several_amp_family(netlist, w)
+        if alone is None:
+            assert fam is None
+            continue
+        assert fam.w_ref == alone.w_ref
+        for a, b in zip(fam.num_terms + fam.den_terms, alone.num_terms + alone.den_terms):
+            assert_array_equal(a, b)

@@ -29,7 +29,7 @@ from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure_from, nominal_and_peaks_many
 from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
 from bandsmith.analysis.tolerances import Tolerances, within_tolerances
-from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_family, transfer_function
+from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_families, several_amp_family, transfer_function
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, Expansion, ExpansionUnavailable, unit_expansion_values
@@ -531,14 +531,22 @@ def _first_pass_expanded(setups: Sequence[_Expanded], w_ref: float | None) -> li
             absent = None if first.absent is None else np.stack([setups[k].absent for k in ks])
             num, den = first.exp.dense_log(lr, absent=absent)
             blocks = list(zip(num, den))
+        together = len(ks) > 1 and first.absent is None  # several op-amps: the group's families in one batch
         for k, (num, den) in zip(ks, blocks):
-            out[k] = _expanded_rational(setups[k], num, den, w_ref)
+            out[k] = _expanded_rational(setups[k], num, den, w_ref, family=not together)
+        if together:
+            made = [k for k in ks if out[k] is not None]
+            families = several_amp_families([setups[k].netlist for k in made], [out[k][0] for k in made])
+            for k, family in zip(made, families):
+                out[k] = (*out[k][:2], family)
     return out
 
 
-def _expanded_rational(setup: _Expanded, num: np.ndarray, den: np.ndarray, w_ref: float | None):
+def _expanded_rational(setup: _Expanded, num: np.ndarray, den: np.ndarray, w_ref: float | None, *, family: bool = True):
     """``(w_ref, h, family)`` of one candidate from its members' dense coefficients in the unit
-    expansion's ``p = s`` (highest power first), or None where they cannot serve."""
+    expansion's ``p = s`` (highest power first), or None where they cannot serve; a
+    several-op-amp candidate's family is None without ``family`` (its caller makes a group's
+    together, :func:`bandsmith.analysis.transfer.several_amp_families`)."""
     n_ideal = setup.n_ideal
     d0 = den[0]
     nz = np.flatnonzero(d0)
@@ -552,7 +560,7 @@ def _expanded_rational(setup: _Expanded, num: np.ndarray, den: np.ndarray, w_ref
     scale = np.abs(den_p).max(axis=1, keepdims=True)
     h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
     if setup.absent is None:
-        return float(w_ref), h, several_amp_family(setup.netlist, float(w_ref))
+        return float(w_ref), h, several_amp_family(setup.netlist, float(w_ref)) if family else None
     # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
     m_s = np.zeros(den.shape[1])
     m_s[1:] = (d0 - den[n_ideal])[:-1]

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import functools
-from typing import Mapping
+from typing import Mapping, Sequence
 
 import numpy as np
 
@@ -13,7 +13,7 @@ from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
 from bandsmith.solver.rational import AmpFamily, Rational, amp_family, nominal_w_ref, rational_from_system
 
-__all__ = ["ideal_figures", "nominal_system", "several_amp_family", "transfer_function"]
+__all__ = ["ideal_figures", "nominal_system", "several_amp_families", "several_amp_family", "transfer_function"]
 
 
 @functools.lru_cache(maxsize=32)
@@ -75,11 +75,46 @@ def several_amp_family(netlist: Netlist, w_ref: float) -> AmpFamily | None:
     terms = None if exp is None else exp.opamp_terms(exp.log_ratios_of(own))
     if terms is None:
         return amp_family(nominal_system(netlist), w_ref)
-    num, den = terms  # (m + 1, k) each: row j the term of x^j
-    # the unit expansion's s is p·w_ref: c·s^k = c·w_ref^k·p^k; scaled by D_0's largest coefficient
-    to_num, to_den = (w_ref ** np.arange(t.shape[1] - 1, -1, -1.0) for t in (num, den))
-    scale = np.abs(den[0] * to_den).max()
-    return AmpFamily(tuple(num * to_num / scale), tuple(den * to_den / scale), w_ref)
+    num, den = _scaled_terms(*terms, w_ref)
+    return AmpFamily(tuple(num), tuple(den), w_ref)
+
+
+def several_amp_families(netlists: Sequence[Netlist], w_refs: Sequence[float]) -> list[AmpFamily | None]:
+    """:func:`several_amp_family` of several netlists (``w_refs`` in rad/s, one each): those of one
+    structure (a chain's stages on one circuit) from their expansion in one batch
+    (:meth:`~bandsmith.solver.expansion.Expansion.opamp_terms` of a stack), each the family it
+    has alone, bit for bit (tested); the others one by one."""
+    out: list = [None] * len(netlists)
+    groups: dict[int, tuple] = {}
+    for k, netlist in enumerate(netlists):
+        if len(netlist.opamps) < 2:
+            continue
+        try:
+            exp, own = unit_expansion_values(netlist, UNIT_OPAMP, fit=False)
+        except ExpansionUnavailable:
+            out[k] = several_amp_family(netlist, float(w_refs[k]))
+            continue
+        groups.setdefault(id(exp), (exp, []))[1].append((k, exp.log_ratios_of(own)))
+    for exp, members in groups.values():
+        terms = exp.opamp_terms(np.stack([lr for _, lr in members])) if len(members) > 1 else None
+        if terms is None:
+            for k, _ in members:
+                out[k] = several_amp_family(netlists[k], float(w_refs[k]))
+            continue
+        w = [float(w_refs[k]) for k, _ in members]
+        num, den = _scaled_terms(*terms, np.array(w)[:, None])
+        for (k, _), n, d, w_ref in zip(members, num, den, w):
+            out[k] = AmpFamily(tuple(n), tuple(d), w_ref)
+    return out
+
+
+def _scaled_terms(num: np.ndarray, den: np.ndarray, w_ref) -> tuple[np.ndarray, np.ndarray]:
+    """The unit expansion's op-amp terms (``(m + 1, k)`` each, row j the term of x^j, or a stack
+    ``(G, m + 1, k)`` with ``w_ref`` ``(G, 1)``) in ``p = s/w_ref``: the unit expansion's s is
+    p·w_ref, so c·s^k = c·w_ref^k·p^k, each member scaled by its D_0's largest coefficient."""
+    to_num, to_den = (w_ref ** np.arange(t.shape[-1] - 1, -1, -1.0) for t in (num, den))
+    scale = np.abs(den[..., :1, :] * to_den[..., None, :]).max(axis=-1, keepdims=True)
+    return num * to_num[..., None, :] / scale, den * to_den[..., None, :] / scale
 
 
 def ideal_figures(netlist: Netlist) -> Figures:

@@ -750,7 +750,9 @@ class Expansion:
         ``m`` in ``x`` alone, and ``D_j`` is ``(−1)^j`` times the part of ``D`` in ``(1/A0)^j`` with no
         ``1/ω_t``: the monomials of that exponent pair, summed (no cancellation between powers, as
         a fit over several values of ``x`` would have). ``log_ratios`` ``(n_var,)`` as
-        :meth:`dense_log` takes them (the op-amp's columns are ignored).
+        :meth:`dense_log` takes them (the op-amp's columns are ignored); ``(G, n_var)`` for
+        several members at once gives ``(G, m + 1, k)`` arrays, each member's products taken as a
+        stack of one-row products (the numbers it has alone, bit for bit: tested).
 
         Returns
         -------
@@ -763,8 +765,11 @@ class Expansion:
         if picks is None:
             return None
         keep, signs = picks
+        kept = np.where(keep, log_ratios, 0.0)
+        if kept.ndim == 2:
+            kept = kept[:, None, :]  # (G, 1, n_var): one product per member
         with np.errstate(invalid="ignore", over="ignore"):
-            mono = np.exp(np.where(keep, log_ratios, 0.0) @ self._exps_ratio)  # op-amp stamps at 1
+            mono = np.exp(kept @ self._exps_ratio)  # op-amp stamps at 1
         weighted = signs * mono  # (m + 1, M): row j the monomials of (1/A0)^j, signed (−1)^j
         return weighted @ self._num_dense, weighted @ self._den_dense
 
