@@ -239,7 +239,7 @@ def _conclude_many(
     ``ref`` (scalars) and its ladder, measured as members ``start …`` of ``fig``, ``ok`` where
     they are within its tolerances."""
     out: list = [None] * len(cases)
-    crossing = []  # (case, ref, ladder, start, j): the last failing step, interpolated below
+    crossing = []  # (case, ref, ladder, start, j, tolerances): the last failing step, interpolated below
     ok_list = ok.tolist()
     for n, ((netlist, _, family, w_ref, _), ref, ladder, start, tol) in enumerate(cases):
         passed = ok_list[start : start + ladder.size]
