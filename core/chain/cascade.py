@@ -61,7 +61,7 @@ from typing import Any, Mapping
 import numpy as np
 
 from bandsmith.chain.bandpass import CascadePlan, SectionPlan, biquad_bandpass, plan_cascade
-from bandsmith.analysis.analyzer import Tolerances, opamp_output_current
+from bandsmith.analysis.analyzer import Tolerances, opamp_output_currents
 from bandsmith.design.candidate import Candidate, Conditions
 from bandsmith.design.designer import DesignResult, Spec, designs_or_errors, spread_of
 from bandsmith.design.standard import errors_of, figure_misses, weighted_error
@@ -577,15 +577,19 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
 
 def _loaded(stages: tuple[Stage, ...]) -> tuple[Stage, ...]:
     """Built stages with each one's output current into its own circuit and the next stage's
-    input (module notes); the last stage keeps its own, with the conditions' load."""
+    input (module notes); the last stage keeps its own, with the conditions' load. The currents
+    of all stages in one :func:`bandsmith.analysis.analyzer.opamp_output_currents` (their solves
+    stacked; each stage's number as alone)."""
     out = list(stages)
+    todo = []
     for k, (st, nxt) in enumerate(zip(stages[:-1], stages[1:])):
+        f0 = st.result.analysis.ideal.item().f0_hz
+        if math.isfinite(f0):
+            todo.append((k, (st.result.analysis.netlist, f0, nxt.result.analysis.netlist)))
+    for (k, _), per_volt in zip(todo, opamp_output_currents([case for _, case in todo])):
+        st = stages[k]
         an = st.result.analysis
-        f0 = an.ideal.item().f0_hz
-        if not math.isfinite(f0):
-            continue
-        amps = opamp_output_current(an.netlist, f0, load=nxt.result.analysis.netlist) * st.vin_v
-        req = replace(an.requirements, iout_peak_a=amps)
+        req = replace(an.requirements, iout_peak_a=per_volt * st.vin_v)
         out[k] = replace(st, result=replace(st.result, analysis=an.with_requirements(req)))
     return tuple(out)
 
