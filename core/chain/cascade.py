@@ -71,7 +71,7 @@ from bandsmith.solver.rational import Rational
 from bandsmith.common.values import format_value
 from bandsmith.chain.chain_settings import AUTO, STAGE_HOLD, Chain, ChainSettings, ChainStage, circuit_choices
 from bandsmith.chain.cascade_json import cascade_json, cascade_session, chains_in
-from bandsmith.chain.chain_measure import Overall, chain_peaks, max_dev_db, measure_chains, reference_zpk, sweep_frequencies
+from bandsmith.chain.chain_measure import Overall, chain_peaks, deviations_db, largest, measure_chains, reference_zpk, sweep_frequencies
 from bandsmith.chain.stage_designs import PendingStage, prepare_stages
 from bandsmith.chain.stage_verdicts import choose_auto, hold_warnings
 
@@ -622,18 +622,17 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
     stages = tuple(replace(s, peak_internal_gain_db=float(p)) for s, p in zip(stages, peaks_db))
     shell = replace(shell, stages=stages)
     hs = np.stack([np.prod(p.at_f(f), axis=0) for p in parts])  # the whole responses on the sweep, ideal first
-    h = hs[0]
-    ref = shell.reference_response(f)
-    measured = measure_chains(chain_mag, settings, f, np.abs(hs), peaks, f_peaks)  # the sweep's magnitude, once
+    mags = np.abs(hs)  # (once: for the figures and the deviations)
+    measured = measure_chains(chain_mag, settings, f, mags, peaks, f_peaks)
     overall = measured[0]
+    dev = deviations_db(mags, np.abs(shell.reference_response(f)))  # each response's |dB difference| from the reference
     band = (f >= settings.f_low_hz) & (f <= settings.f_high_hz)
     overall_actual = actual_dev = act_band = None
     if conditions.opamp is not None:
-        h_act = hs[1]
         overall_actual = measured[1]
-        actual_dev = max_dev_db(h_act, ref)
-        act_band = max_dev_db(h_act[band], ref[band])
-    band_dev = max_dev_db(h[band], ref[band])
+        actual_dev = largest(dev[1])
+        act_band = largest(dev[1][band])
+    band_dev = largest(dev[0][band])
     warnings = list(shell.warnings)  # every stage outside its hold
     if band_dev > WARN_BAND_DEV_DB:
         finer = "" if settings.series in ("exact", "E192") else "; a finer series (E96, say) or trimming the sharpest stages brings it closer"
@@ -645,7 +644,7 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
         shell,
         overall=overall,
         overall_actual=overall_actual,
-        reference_max_dev_db=max_dev_db(h, ref),
+        reference_max_dev_db=largest(dev[0]),
         passband_max_dev_db=band_dev,
         actual_max_dev_db=actual_dev,
         warnings=tuple(warnings),
