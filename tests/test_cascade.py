@@ -386,3 +386,25 @@ def test_joint_measurement_equals_each_response_measured_alone():
 
         alone = measure_chain(response, settings, f, q_max)
         assert alone == (result.overall_actual if actual else result.overall)
+
+
+@pytest.mark.parametrize("response,order,gbw", [("butterworth", 8, 20e6), ("chebyshev", 6, None), ("bessel", 4, 5e6)])
+def test_whole_peaks_of_chain_peaks_are_each_found_alone(response, order, gbw):
+    # chain_peaks against bandsmith.chain.bandpass.peak_over_frequency of each whole response
+    # alone (|numpy.prod| of its stages): the same peak and frequency, bit for bit, also where the
+    # first whole response's refining grids are its last internal one's and their values shared.
+    from bandsmith.chain.bandpass import peak_over_frequency
+    from bandsmith.chain.cascade import _stacked
+    from bandsmith.chain.chain_measure import chain_peaks
+
+    kw = {"ripple_db": 0.5} if response == "chebyshev" else {}
+    s = ChainSettings.from_request(response, order, f0_hz=20e3, bw_hz=6e3, gain=4.0, series="E24", **kw)
+    r = design_cascade(s, conditions=Conditions(gbw_hz=gbw))
+    assert r.feasible, r.reason
+    parts = [_stacked(r.stages, False)] + ([] if gbw is None else [_stacked(r.stages, True)])
+    f, q_max = r.sweep_f_hz, max(sec.q for sec in r.plan.sections)
+    _, peaks, f_peaks = chain_peaks([p.at_f for p in parts], len(r.stages), f, q_max)
+    for k, p in enumerate(parts):
+        alone, f_alone = peak_over_frequency(lambda x, p=p: np.abs(np.prod(p.at_f(x.reshape(-1)), axis=0)).reshape(1, -1),
+                                             float(f[0]), float(f[-1]), q_max=q_max, rows=1)
+        assert peaks[k] == alone[0] and f_peaks[k] == f_alone[0]

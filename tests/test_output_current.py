@@ -57,3 +57,14 @@ def test_each_inner_stage_of_a_chain_drives_the_next():
     last = r.stages[-1].result.analysis
     want = opamp_output_current(last.netlist, last.ideal.item().f0_hz, rload_ohm=2e3) * r.stages[-1].vin_v
     assert_allclose(last.requirements.iout_peak_ma, want * 1e3, rtol=1e-12)
+
+
+def test_the_currents_of_several_are_each_ones_alone():
+    # opamp_output_currents stacks the solves of every case; each number is the one
+    # opamp_output_current gives alone (bit for bit), with and without a next stage.
+    from bandsmith.analysis.analyzer import opamp_output_currents
+
+    cases = [(a.build(a.example), f, b.build(b.example) if b is not None else None)
+             for (a, b), f in zip(itertools.product(TOPOLOGIES, list(TOPOLOGIES) + [None]), itertools.cycle((250.0, 3e3, 47e3)))]
+    got = opamp_output_currents(cases)
+    assert got == [opamp_output_current(nl, f, load=load) for nl, f, load in cases]

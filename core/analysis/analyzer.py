@@ -30,7 +30,7 @@ from bandsmith.analysis.figures import Figures, measure_from, nominal_and_peaks_
 from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
 from bandsmith.analysis.tolerances import Tolerances, within_tolerances
 from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_families, several_amp_family, transfer_function
-from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at
+from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at, solve_at_many
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, Expansion, ExpansionUnavailable, unit_expansion_values
 from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, lead_trimmed, node_coefficients, rational_and_family, reference_w
@@ -47,6 +47,7 @@ __all__ = [
     "required_gbw",
     "requirements",
     "opamp_output_current",
+    "opamp_output_currents",
     "AmplifierNeeds",
     "amplifier_needs",
     "sensitivities",
@@ -312,19 +313,47 @@ def opamp_output_current(
     circuits to rounding, tested). Two small solves cost less than joining the netlists and
     solving the whole. A passive output node is solved joined to its load.
     """
+    own, solved, s, driver = _output_current_system(netlist, f_hz, rload_ohm, load)
+    x, layout = solve_at(solved, s)
+    x_load, load_layout = solve_at(load, s) if driver is not None else (None, None)  # its input's current per volt
+    return _largest_output_current(own, solved, x, layout, driver, x_load, load_layout)
+
+
+def opamp_output_currents(cases: Sequence[tuple[Netlist, float, Netlist | None]]) -> list[float]:
+    """:func:`opamp_output_current` of several ``(netlist, f_hz, load)`` (no load resistor; a
+    chain's stages, each loaded by the next), each the number it gives alone: all their solves in
+    one :func:`bandsmith.solver.mna.solve_at_many` (the same numbers as :func:`solve_at`)."""
+    made = [_output_current_system(netlist, f_hz, None, load) for netlist, f_hz, load in cases]
+    systems = [(solved, s) for _, solved, s, _ in made]
+    systems += [(load, s) for (_, _, s, driver), (_, _, load) in zip(made, cases) if driver is not None]
+    found = iter(solve_at_many(systems))
+    own = [next(found) for _ in made]
+    return [_largest_output_current(refs, solved, x, layout, driver, *(next(found) if driver is not None else (None, None)))
+            for (refs, solved, _, driver), (x, layout) in zip(made, own)]
+
+
+def _output_current_system(netlist: Netlist, f_hz: float, rload_ohm: float | None, load: Netlist | None):
+    """What :func:`opamp_output_current` solves: ``(own, solved, s, driver)``, the netlist's own
+    op-amps, the netlist solved (with the load resistor, and joined to a load that no op-amp of
+    its output node drives), ``s`` (rad/s) and the op-amp driving the output where a load is
+    taken by superposition (else None)."""
     own = [e.ref for e in netlist.opamps]
     if rload_ohm is not None:
         netlist = netlist.with_element(Element("RLOAD", "R", (netlist.output, netlist.ground), rload_ohm))
-    s = 2j * math.pi * f_hz
     driver = None if load is None else next((e.ref for e in netlist.opamps if e.nodes[2] == netlist.output), None)
     if load is not None and driver is None:
         netlist = netlist.driving(load)
-    x, layout = solve_at(netlist, s)
+    return own, netlist, 2j * math.pi * f_hz, driver
+
+
+def _largest_output_current(own: list[str], solved: Netlist, x: np.ndarray, layout, driver: str | None, x_load, load_layout) -> float:
+    """:func:`opamp_output_current` from the solution ``x`` of the netlist
+    :func:`_output_current_system` gives and, with a ``driver``, the load's own solution (its
+    source's unknown: the current its input draws per volt)."""
     currents = [x[layout.opamp_row[r]] for r in own]
     if driver is not None:
-        x_load, load_layout = solve_at(load, s)  # its input's current per volt: the source's unknown
         k = own.index(driver)
-        currents[k] = currents[k] + x[layout.node_index[netlist.output]] * x_load[load_layout.source_row]
+        currents[k] = currents[k] + x[layout.node_index[solved.output]] * x_load[load_layout.source_row]
     return float(max(abs(c) for c in currents)) if own else 0.0
 
 

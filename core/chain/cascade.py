@@ -61,7 +61,7 @@ from typing import Any, Mapping
 import numpy as np
 
 from bandsmith.chain.bandpass import CascadePlan, SectionPlan, biquad_bandpass, plan_cascade
-from bandsmith.analysis.analyzer import Tolerances, opamp_output_current
+from bandsmith.analysis.analyzer import Tolerances, opamp_output_currents
 from bandsmith.design.candidate import Candidate, Conditions
 from bandsmith.design.designer import DesignResult, Spec, designs_or_errors, spread_of
 from bandsmith.design.standard import errors_of, figure_misses, weighted_error
@@ -71,7 +71,7 @@ from bandsmith.solver.rational import Rational
 from bandsmith.common.values import format_value
 from bandsmith.chain.chain_settings import AUTO, STAGE_HOLD, Chain, ChainSettings, ChainStage, circuit_choices
 from bandsmith.chain.cascade_json import cascade_json, cascade_session, chains_in
-from bandsmith.chain.chain_measure import Overall, chain_peaks, max_dev_db, measure_chains, reference_zpk, sweep_frequencies
+from bandsmith.chain.chain_measure import Overall, chain_peaks, deviations_db, largest, measure_chains, reference_zpk, sweep_frequencies
 from bandsmith.chain.stage_designs import PendingStage, prepare_stages
 from bandsmith.chain.stage_verdicts import choose_auto, hold_warnings
 
@@ -577,15 +577,19 @@ def chain_cascade(chain: Chain, *, conditions: Conditions = Conditions()) -> Cas
 
 def _loaded(stages: tuple[Stage, ...]) -> tuple[Stage, ...]:
     """Built stages with each one's output current into its own circuit and the next stage's
-    input (module notes); the last stage keeps its own, with the conditions' load."""
+    input (module notes); the last stage keeps its own, with the conditions' load. The currents
+    of all stages in one :func:`bandsmith.analysis.analyzer.opamp_output_currents` (their solves
+    stacked; each stage's number as alone)."""
     out = list(stages)
+    todo = []
     for k, (st, nxt) in enumerate(zip(stages[:-1], stages[1:])):
+        f0 = st.result.analysis.ideal.item().f0_hz
+        if math.isfinite(f0):
+            todo.append((k, (st.result.analysis.netlist, f0, nxt.result.analysis.netlist)))
+    for (k, _), per_volt in zip(todo, opamp_output_currents([case for _, case in todo])):
+        st = stages[k]
         an = st.result.analysis
-        f0 = an.ideal.item().f0_hz
-        if not math.isfinite(f0):
-            continue
-        amps = opamp_output_current(an.netlist, f0, load=nxt.result.analysis.netlist) * st.vin_v
-        req = replace(an.requirements, iout_peak_a=amps)
+        req = replace(an.requirements, iout_peak_a=per_volt * st.vin_v)
         out[k] = replace(st, result=replace(st.result, analysis=an.with_requirements(req)))
     return tuple(out)
 
@@ -618,18 +622,17 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
     stages = tuple(replace(s, peak_internal_gain_db=float(p)) for s, p in zip(stages, peaks_db))
     shell = replace(shell, stages=stages)
     hs = np.stack([np.prod(p.at_f(f), axis=0) for p in parts])  # the whole responses on the sweep, ideal first
-    h = hs[0]
-    ref = shell.reference_response(f)
-    measured = measure_chains(chain_mag, settings, f, np.abs(hs), peaks, f_peaks)  # the sweep's magnitude, once
+    mags = np.abs(hs)  # (once: for the figures and the deviations)
+    measured = measure_chains(chain_mag, settings, f, mags, peaks, f_peaks)
     overall = measured[0]
+    dev = deviations_db(mags, np.abs(shell.reference_response(f)))  # each response's |dB difference| from the reference
     band = (f >= settings.f_low_hz) & (f <= settings.f_high_hz)
     overall_actual = actual_dev = act_band = None
     if conditions.opamp is not None:
-        h_act = hs[1]
         overall_actual = measured[1]
-        actual_dev = max_dev_db(h_act, ref)
-        act_band = max_dev_db(h_act[band], ref[band])
-    band_dev = max_dev_db(h[band], ref[band])
+        actual_dev = largest(dev[1])
+        act_band = largest(dev[1][band])
+    band_dev = largest(dev[0][band])
     warnings = list(shell.warnings)  # every stage outside its hold
     if band_dev > WARN_BAND_DEV_DB:
         finer = "" if settings.series in ("exact", "E192") else "; a finer series (E96, say) or trimming the sharpest stages brings it closer"
@@ -641,7 +644,7 @@ def _assemble(settings: ChainSettings, conditions: Conditions, plan: CascadePlan
         shell,
         overall=overall,
         overall_actual=overall_actual,
-        reference_max_dev_db=max_dev_db(h, ref),
+        reference_max_dev_db=largest(dev[0]),
         passband_max_dev_db=band_dev,
         actual_max_dev_db=actual_dev,
         warnings=tuple(warnings),

@@ -12,7 +12,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.chain.bandpass import partial_magnitudes, peak_over_frequency
 from bandsmith.chain.chain_settings import HALF_POWER_DB, ChainSettings
 
-__all__ = ["Overall", "reference_zpk", "sweep_frequencies", "measure_chain", "measure_chains", "chain_peaks", "max_dev_db"]
+__all__ = ["Overall", "reference_zpk", "sweep_frequencies", "measure_chain", "measure_chains", "chain_peaks", "max_dev_db", "deviations_db", "largest"]
 
 
 
@@ -291,7 +291,9 @@ def chain_peaks(stage_hs, n: int, f: np.ndarray, q_max: float) -> tuple[np.ndarr
     on the search grid, products in signal order on the refining grids), the whole ones
     ``|prod|``, each row at its own frequencies on the refining grids. These are the very values
     of searching each alone (numpy's product along an axis of several points multiplies in
-    order, elementwise).
+    order, elementwise). So where a refining grid of the first whole response is that of its
+    last internal one (the two peaks found at the same grid point, as they mostly are), its
+    magnitudes are that row's, taken without evaluating its stages again.
     """
     first = stage_hs[0]
 
@@ -303,7 +305,10 @@ def chain_peaks(stage_hs, n: int, f: np.ndarray, q_max: float) -> tuple[np.ndarr
         out = np.empty(x.shape)
         out[:n] = partial_magnitudes(first, x[:n])  # row k: the first k + 1 stages at its grid
         for r, sh in enumerate(stage_hs):
-            out[n + r] = np.abs(np.prod(sh(x[n + r]), axis=0))
+            if r == 0 and np.array_equal(x[n], x[n - 1]):  # the first whole response where its last partial one is refined
+                out[n] = out[n - 1]
+            else:
+                out[n + r] = np.abs(np.prod(sh(x[n + r]), axis=0))
         return out
 
     peaks, f_pk = peak_over_frequency(mag_fn, float(f[0]), float(f[-1]), q_max=q_max, rows=n + len(stage_hs))
@@ -311,6 +316,18 @@ def chain_peaks(stage_hs, n: int, f: np.ndarray, q_max: float) -> tuple[np.ndarr
 
 
 def max_dev_db(a: np.ndarray, b: np.ndarray) -> float:
+    """The largest ``|20·log10|a| − 20·log10|b||`` (dB) of two responses; nan when empty."""
+    return largest(deviations_db(np.abs(a), np.abs(b)))
+
+
+def deviations_db(mags: np.ndarray, ref_mag: np.ndarray) -> np.ndarray:
+    """``|20·log10(mags) − 20·log10(ref_mag)|`` (dB) elementwise, ``mags`` ``(..., F)`` (one row per
+    response) against the reference's magnitudes ``(F,)``; a zero magnitude gives inf, not a
+    warning. A part of the sweep (the band) takes its elements: the same numbers as its own."""
     with np.errstate(divide="ignore"):
-        d = np.abs(20 * np.log10(np.abs(a)) - 20 * np.log10(np.abs(b)))
+        return np.abs(20 * np.log10(mags) - 20 * np.log10(ref_mag))
+
+
+def largest(d: np.ndarray) -> float:
+    """The largest of deviations (:func:`deviations_db`), nan when there are none."""
     return float(np.max(d)) if d.size else math.nan

@@ -146,7 +146,8 @@ def analyze_candidates(
     each = [conditions] * len(candidates) if isinstance(conditions, Conditions) else list(conditions)
     options = _analysis_options(each[0] if each else Conditions())
     if not isinstance(conditions, Conditions):
-        if any(batch_conditions(c) != batch_conditions(each[0]) for c in each[1:]):
+        shared = batch_conditions(each[0])
+        if any(batch_conditions(c) != shared for c in {id(c): c for c in each[1:]}.values()):  # each distinct object once
             raise ValueError("candidates analysed together may differ in their tolerances and source resistance only")
         options["tolerances"] = [c.tolerances for c in each]
     results = analyze_many([c.driven_netlist(k) for c, k in zip(candidates, each)], parts=[c.values for c in candidates], **options)

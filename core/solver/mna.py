@@ -18,13 +18,13 @@ netlist's own values are used where no override is given.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Mapping
+from typing import Mapping, Sequence
 
 import numpy as np
 
 from bandsmith.solver.netlist import Netlist
 
-__all__ = ["OpAmpModel", "MnaLayout", "MnaSystem", "build_system", "solve_at"]
+__all__ = ["OpAmpModel", "MnaLayout", "MnaSystem", "build_system", "solve_at", "solve_at_many"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -430,3 +430,49 @@ def solve_at(netlist: Netlist, s: complex) -> tuple[np.ndarray, MnaLayout]:
     b = np.zeros(n, dtype=complex)
     b[layout.source_row] = 1.0
     return np.linalg.solve(np.array(a), b), layout
+
+
+def solve_at_many(systems: Sequence[tuple[Netlist, complex]]) -> list[tuple[np.ndarray, MnaLayout]]:
+    """:func:`solve_at` of several netlists, each at its own complex frequency ``s`` (rad/s):
+    ``(x, layout)`` of each, in order, with the numbers :func:`solve_at` gives each alone.
+
+    Notes
+    -----
+    Each matrix comes from its structure's kept :class:`_Plan` (ideal op-amps; made once per
+    structure) instead of the stamps worked out afresh. Every conductance-side stamp ``±y`` is
+    real and every capacitance-side stamp ``±s·y`` imaginary (``s`` on the imaginary axis), so
+    :func:`solve_at`'s complex sum of one entry is the sum of its real stamps in stamping order
+    beside the sum of its imaginary ones: the plan's G stamps summed in order, and its C stamps as
+    ``Im(s)·y`` summed in order, are the same two parts (up to the sign of an exact zero). The
+    matrices of one size are solved in one stacked :func:`numpy.linalg.solve` (LAPACK's gesv on
+    each matrix of the stack: the same numbers as alone, tested).
+    """
+    out: list = [None] * len(systems)
+    by_size: dict[int, list[tuple[int, np.ndarray, MnaLayout]]] = {}
+    for k, (netlist, s) in enumerate(systems):
+        s = complex(s)
+        if s.real != 0.0:  # off the imaginary axis: the complex sums of solve_at itself
+            out[k] = solve_at(netlist, s)
+            continue
+        plan = _plan(netlist, True)
+        columns, _ = _quantities(netlist, plan.quantities, None, None, None)
+        n = plan.layout.size
+        g, c = [0.0] * (n * n), [0.0] * (n * n)
+        for flat, col, sign in plan.g_stamps:
+            y = 1.0 if col < 0 else columns[col]
+            g[flat] = g[flat] + y if sign > 0 else g[flat] - y
+        b = s.imag
+        for flat, col, sign in plan.c_stamps:
+            y = b * (1.0 if col < 0 else columns[col])
+            c[flat] = c[flat] + y if sign > 0 else c[flat] - y
+        a = np.empty(n * n, dtype=complex)
+        a.real, a.imag = g, c
+        by_size.setdefault(n, []).append((k, a.reshape(n, n), plan.layout))
+    for n, members in by_size.items():
+        rhs = np.zeros((len(members), n, 1), dtype=complex)
+        for m, (_, _, layout) in enumerate(members):
+            rhs[m, layout.source_row, 0] = 1.0
+        x = np.linalg.solve(np.stack([a for _, a, _ in members]), rhs)[..., 0]
+        for m, (k, _, layout) in enumerate(members):
+            out[k] = (x[m], layout)
+    return out
