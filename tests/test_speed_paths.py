@@ -1073,3 +1073,20 @@ def test_several_amp_families_made_together_equal_each_made_alone(circuit):
         assert fam.w_ref == alone.w_ref
         for a, b in zip(fam.num_terms + fam.den_terms, alone.num_terms + alone.den_terms):
             assert_array_equal(a, b)
+
+
+def test_response_on_the_imaginary_axis_equals_at_s():
+    """Rational.at_f (its points p = jω/w_ref as one real product, _jw) against at_s of
+    s = 2πf·j (a complex division by w_ref): the same responses bit for bit, over random
+    polynomials, references and frequencies. A consistency check of our own two paths, no
+    outside source."""
+    from bandsmith.solver.rational import Rational
+    from numpy.testing import assert_array_equal
+
+    rng = np.random.default_rng(2)
+    for k in range(1, 9):
+        for _ in range(100):
+            b = int(rng.integers(1, 6))
+            h = Rational(rng.normal(size=(b, max(1, k - 1))), rng.normal(size=(b, k)) + 0.1, 10 ** rng.uniform(-3, 7, size=b))
+            f = 10 ** rng.uniform(-2, 8, size=int(rng.integers(1, 40)))
+            assert_array_equal(h.at_f(f), h.at_s(2j * np.pi * f))

@@ -119,8 +119,10 @@ class Rational:
         return polyval_batch(self.num, p) / polyval_batch(self.den, p)
 
     def at_f(self, f_hz: np.ndarray) -> np.ndarray:
-        """Frequency response at frequencies in Hz: ``(B, F)`` complex."""
-        return self.at_s(2j * np.pi * np.asarray(f_hz, dtype=float))
+        """Frequency response at frequencies in Hz: ``(B, F)`` complex (:meth:`at_s` on the
+        imaginary axis, its points ``p = jω/w_ref`` made without a complex division: :meth:`_jw`)."""
+        p = self._jw(f_hz)
+        return polyval_batch(self.num, p) / polyval_batch(self.den, p)
 
     def group_delay(self, f_hz: np.ndarray) -> np.ndarray:
         """Group delay ``−dφ/dω`` in seconds at frequencies in Hz, exact from the polynomials: ``(B, F)``."""
