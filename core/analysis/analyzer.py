@@ -28,7 +28,7 @@ from bandsmith.common.errors import InputError
 from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure_from, nominal_and_peaks_many
 from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
-from bandsmith.analysis.tolerances import Tolerances, within_tolerances
+from bandsmith.analysis.tolerances import Tolerances, tolerances_each, within_tolerances
 from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_families, several_amp_family, transfer_function
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at, solve_at_many
 from bandsmith.solver.netlist import Element, Netlist
@@ -724,7 +724,7 @@ def analyze_many(
          for n, f in zip(netlists, firsts)],
         a0=a0, tolerances=tolerances,
     )
-    each = [tolerances] * len(netlists) if isinstance(tolerances, Tolerances) else list(tolerances)
+    each = tolerances_each(tolerances, len(netlists))
     out = []
     for netlist, first, (gbw_search, at_probe), tol in zip(netlists, firsts, searches, each):
         h_actual = actual = None

@@ -13,7 +13,7 @@ from typing import Sequence
 import numpy as np
 
 from bandsmith.analysis.figures import Figures, measure, measure_near
-from bandsmith.analysis.tolerances import Tolerances, within_tolerances
+from bandsmith.analysis.tolerances import Tolerances, tolerances_each, within_tolerances
 from bandsmith.analysis.transfer import nominal_system, transfer_function
 from bandsmith.common.grids import geometric
 from bandsmith.common.limits import DEFAULT_A0
@@ -72,7 +72,7 @@ def search_gbw_many(
     (NaN figures where they are not near the ideal ones: the caller measures them exactly).
     """
     out: list = [((None, "the circuit has no band-pass peak with an ideal op-amp"), None)] * len(items)
-    each = [tolerances] * len(items) if isinstance(tolerances, Tolerances) else list(tolerances)
+    each = tolerances_each(tolerances, len(items))
     live, gbws = [], []
     for i, (netlist, ideal, family, w_ref, probe) in enumerate(items):
         ref = ideal.item()
@@ -121,13 +121,11 @@ def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
     if len(singles) > 1:
         fams = [items[k][2] for k in singles]
         counts = [gbws[k].size for k in singles]
-        n = max(max(f.d0.size, f.cofactor.size + 1) for f in fams)
+        n = max(f.width for f in fams)
         width = max(f.num.size for f in fams)
         d0, m, mp, num = (np.zeros((len(fams), w)) for w in (n, n, n, width))
         for r, f in enumerate(fams):
-            d0[r, n - f.d0.size :] = f.d0
-            m[r, n - f.cofactor.size :] = f.cofactor
-            mp[r, n - f.cofactor.size - 1 : n - 1] = f.cofactor
+            f.rows_into(d0[r], m[r], mp[r])
             num[r, width - f.num.size :] = f.num
         alpha = 1.0 / np.asarray(a0, dtype=float)
         w_ref = np.repeat([f.w_ref for f in fams], counts)

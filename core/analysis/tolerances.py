@@ -11,7 +11,7 @@ import numpy as np
 from bandsmith.analysis.figures import Figures
 from bandsmith.common.errors import InputError
 
-__all__ = ["Tolerances", "within_tolerances"]
+__all__ = ["Tolerances", "tolerances_each", "within_tolerances"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -30,6 +30,11 @@ class Tolerances:
             v = getattr(self, name)
             if not (math.isfinite(v) and v > 0):
                 raise InputError(f"tol-{name.replace('_', '-')}", f"must be a finite number above zero, got {v!r}")
+
+
+def tolerances_each(tolerances: Tolerances | Sequence[Tolerances], n: int) -> list[Tolerances]:
+    """Each of ``n`` candidates' tolerances: one set for all, or one per candidate as given."""
+    return [tolerances] * n if isinstance(tolerances, Tolerances) else list(tolerances)
 
 
 def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances | Sequence[Tolerances], counts: Sequence[int] | None = None) -> np.ndarray:

@@ -68,15 +68,8 @@ def several_amp_family(netlist: Netlist, w_ref: float) -> AmpFamily | None:
     a second). Both agree with a direct solve to about 1e-12 (tests/test_expansion.py)."""
     if len(netlist.opamps) < 2:
         return None
-    try:
-        exp, own = unit_expansion_values(netlist, UNIT_OPAMP, fit=False)
-    except ExpansionUnavailable:
-        exp = None
-    terms = None if exp is None else exp.opamp_terms(exp.log_ratios_of(own))
-    if terms is None:
-        return amp_family(nominal_system(netlist), w_ref)
-    num, den = _scaled_terms(*terms, w_ref)
-    return AmpFamily(tuple(num), tuple(den), w_ref)
+    exp, log_ratios = _opamp_expansion(netlist)
+    return _family(netlist, exp, log_ratios, w_ref)
 
 
 def several_amp_families(netlists: Sequence[Netlist], w_refs: Sequence[float]) -> list[AmpFamily | None]:
@@ -89,23 +82,43 @@ def several_amp_families(netlists: Sequence[Netlist], w_refs: Sequence[float]) -
     for k, netlist in enumerate(netlists):
         if len(netlist.opamps) < 2:
             continue
-        try:
-            exp, own = unit_expansion_values(netlist, UNIT_OPAMP, fit=False)
-        except ExpansionUnavailable:
-            out[k] = several_amp_family(netlist, float(w_refs[k]))
-            continue
-        groups.setdefault(id(exp), (exp, []))[1].append((k, exp.log_ratios_of(own)))
+        exp, log_ratios = _opamp_expansion(netlist)
+        if exp is None:
+            out[k] = _family(netlist, None, None, float(w_refs[k]))
+        else:
+            groups.setdefault(id(exp), (exp, []))[1].append((k, log_ratios))
     for exp, members in groups.values():
         terms = exp.opamp_terms(np.stack([lr for _, lr in members])) if len(members) > 1 else None
-        if terms is None:
-            for k, _ in members:
-                out[k] = several_amp_family(netlists[k], float(w_refs[k]))
+        if terms is None:  # one member, or no op-amp terms: each as alone
+            for k, log_ratios in members:
+                out[k] = _family(netlists[k], exp, log_ratios, float(w_refs[k]))
             continue
         w = [float(w_refs[k]) for k, _ in members]
         num, den = _scaled_terms(*terms, np.array(w)[:, None])
         for (k, _), n, d, w_ref in zip(members, num, den, w):
             out[k] = AmpFamily(tuple(n), tuple(d), w_ref)
     return out
+
+
+def _opamp_expansion(netlist: Netlist):
+    """The kept unit expansion with the op-amps' stamps of a netlist's structure and the logs of
+    its own values over it, ``(exp, log_ratios)``; ``(None, None)`` where it is unavailable or
+    not fitted yet (:func:`several_amp_family`)."""
+    try:
+        exp, own = unit_expansion_values(netlist, UNIT_OPAMP, fit=False)
+    except ExpansionUnavailable:
+        return None, None
+    return exp, exp.log_ratios_of(own)
+
+
+def _family(netlist: Netlist, exp, log_ratios, w_ref: float) -> AmpFamily:
+    """One netlist's family (:func:`several_amp_family`) from its expansion and log ratios
+    (:func:`_opamp_expansion`), or from its sampled pencil where they do not serve."""
+    terms = None if exp is None else exp.opamp_terms(log_ratios)
+    if terms is None:
+        return amp_family(nominal_system(netlist), w_ref)
+    num, den = _scaled_terms(*terms, w_ref)
+    return AmpFamily(tuple(num), tuple(den), w_ref)
 
 
 def _scaled_terms(num: np.ndarray, den: np.ndarray, w_ref) -> tuple[np.ndarray, np.ndarray]:

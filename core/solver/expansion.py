@@ -841,16 +841,14 @@ class Expansion:
                     continue
                 for j in range(c.shape[2]):
                     c[:, :, j] *= powers[:, j : j + 1]
-        scale = np.abs(den[:, :, 0])  # (as _row_abs_max: the same maxima)
-        for j in range(1, den.shape[2]):
-            np.maximum(scale, np.abs(den[:, :, j]), out=scale)
+        scale = _row_abs_max(den)  # (G, B, 1)
         with np.errstate(invalid="ignore", divide="ignore"):
             for c in (num, den):
                 if not by_column:
-                    c /= scale[:, :, None]
+                    c /= scale
                     continue
                 for j in range(c.shape[2]):
-                    np.divide(c[:, :, j], scale, out=c[:, :, j])
+                    np.divide(c[:, :, j], scale[:, :, 0], out=c[:, :, j])
         b = num.shape[1]
         return [Rational(num[i], den[i], np.full(b, float(w))) for i, w in enumerate(w_refs)]
 
@@ -869,15 +867,16 @@ class Expansion:
 
 
 def _row_abs_max(a: np.ndarray) -> np.ndarray:
-    """``np.abs(a).max(axis=1, keepdims=True)`` column by column: the same numbers (a maximum
-    rounds nothing, and NaN wins either way), without numpy's reduction along rows of a few
-    entries, which costs some ten times more over a batch of a thousand."""
-    if a.shape[0] < 64:  # (numpy's own reduction is the cheaper there)
-        return np.abs(a).max(axis=1, keepdims=True)
-    out = np.abs(a[:, 0])
-    for j in range(1, a.shape[1]):
-        np.maximum(out, np.abs(a[:, j]), out=out)
-    return out[:, None]
+    """``np.abs(a).max(axis=-1, keepdims=True)`` (rows along the last axis: a batch ``(B, k)`` or
+    a stack of batches ``(G, B, k)``) column by column: the same numbers (a maximum rounds
+    nothing, and NaN wins either way), without numpy's reduction along rows of a few entries,
+    which costs some ten times more over a batch of a thousand."""
+    if a.shape[-2] < 64:  # (numpy's own reduction is the cheaper there)
+        return np.abs(a).max(axis=-1, keepdims=True)
+    out = np.abs(a[..., 0])
+    for j in range(1, a.shape[-1]):
+        np.maximum(out, np.abs(a[..., j]), out=out)
+    return out[..., None]
 
 
 _UNIT: dict[tuple, "Expansion"] = {}

@@ -294,9 +294,8 @@ def _lead_trim(c: np.ndarray, expected: int = 0) -> np.ndarray:
         return c[:, expected:]
     if c.shape[1] < 2 or np.count_nonzero(c[:, 0]):
         return c
-    if c.shape[0] == 1:  # one row (a member taken alone from a padded batch): its first nonzero in plain floats
-        row = c[0].tolist()
-        return c[:, next((k for k, v in enumerate(row) if v != 0), len(row) - 1) :]
+    if c.shape[0] == 1:  # one row (a member taken alone from a padded batch): trimmed in plain floats
+        return c[:, c.shape[1] - len(lead_trimmed(c[0].tolist())) :]
     nz = np.flatnonzero((c != 0).any(axis=0))
     return c[:, nz[0] :] if nz.size else c[:, -1:]
 
@@ -367,19 +366,27 @@ class OpAmpFamily:
     cofactor: np.ndarray
     w_ref: float
 
+    @property
+    def width(self) -> int:
+        """The number of coefficients of ``D``: those of ``D0`` or of ``M·p``, the longer."""
+        return max(self.d0.size, self.cofactor.size + 1)
+
+    def rows_into(self, d0: np.ndarray, m: np.ndarray, mp: np.ndarray) -> None:
+        """``D0``, ``M`` and ``M·p`` written into zero rows of one length (at least :attr:`width`),
+        each padded with leading zeros: the rows every member's ``D`` is formed from."""
+        n = d0.size
+        d0[n - self.d0.size :] = self.d0
+        m[n - self.cofactor.size :] = self.cofactor
+        mp[n - self.cofactor.size - 1 : n - 1] = self.cofactor
+
     def at(self, gbw_hz: np.ndarray, a0: float | np.ndarray) -> Rational:
         """The transfer functions for op-amps of these GBWs (Hz, ``(B,)``) and open-loop gain(s)."""
         gbw = np.atleast_1d(np.asarray(gbw_hz, dtype=float))
         alpha = 1.0 / np.asarray(a0, dtype=float)
         alpha = alpha[:, None] if alpha.ndim else alpha
         beta = self.w_ref / (2.0 * np.pi * gbw)
-        n = max(self.d0.size, self.cofactor.size + 1)
-        d0 = np.zeros(n)
-        d0[n - self.d0.size :] = self.d0
-        m = np.zeros(n)
-        m[n - self.cofactor.size :] = self.cofactor
-        mp = np.zeros(n)  # M(p)·p
-        mp[n - self.cofactor.size - 1 : n - 1] = self.cofactor
+        d0, m, mp = np.zeros((3, self.width))  # mp: M(p)·p
+        self.rows_into(d0, m, mp)
         den = d0[None, :] - alpha * m[None, :] - beta[:, None] * mp[None, :]
         scale = np.abs(den).max(axis=1, keepdims=True)
         return Rational(self.num[None, :] / scale, den / scale, np.full(gbw.size, self.w_ref))
