@@ -23,6 +23,7 @@ the batch:
 from __future__ import annotations
 
 import functools
+import math
 from dataclasses import dataclass, fields, replace
 from typing import Sequence
 
@@ -95,9 +96,12 @@ class Figures:
         return defined(self.f0_hz, self.q, self.gain_center_db)
 
 
-def defined(f0_hz, q, gain_center_db) -> np.ndarray:
+def defined(f0_hz, q, gain_center_db) -> np.ndarray | bool:
     """True where f0, Q and the centre gain (dB) are all finite: a member's figures are defined
-    (:attr:`Figures.valid`, and a search's figures kept as arrays)."""
+    (:attr:`Figures.valid`, and a search's figures kept as arrays); for one member as plain
+    floats (:meth:`Figures.item`'s) a bool, tested in plain numbers."""
+    if type(f0_hz) is float and type(q) is float and type(gain_center_db) is float:
+        return math.isfinite(q) and math.isfinite(f0_hz) and math.isfinite(gain_center_db)
     return np.isfinite(q) & np.isfinite(f0_hz) & np.isfinite(gain_center_db)
 
 

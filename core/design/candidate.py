@@ -11,6 +11,7 @@ from dataclasses import dataclass, field, replace
 from typing import Mapping, Sequence
 
 from bandsmith.analysis.analyzer import DEFAULT_A0, Analysis, Tolerances, analyze, analyze_many
+from bandsmith.analysis.figures import defined
 from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.solver.mna import OpAmpModel
@@ -116,7 +117,7 @@ class Candidate:
         """The analysis, with a capacitive load's current, once its figures are known measurable."""
         sens = [x for by_ref in result.sensitivity.values() for x in by_ref.values()]
         ideal = result.ideal.item()
-        if not (math.isfinite(ideal.f0_hz) and math.isfinite(ideal.q) and math.isfinite(ideal.gain_center_db)
+        if not (defined(ideal.f0_hz, ideal.q, ideal.gain_center_db)
                 and math.isfinite(ideal.f_low_hz) and math.isfinite(ideal.f_high_hz) and all(map(math.isfinite, sens))):
             raise InputError(
                 "parts",

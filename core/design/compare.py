@@ -30,7 +30,8 @@ _COUNTS: dict[int, tuple[Topology, int]] = {}
 
 
 def needs_inductor(topology: Topology) -> bool:
-    return any(c.kind == "L" for c in topology.components)
+    """True when the circuit has an inductor among its parts."""
+    return any(kind == "L" for _, kind, _ in topology.part_kinds)
 
 
 def compare(spec: Spec, *, series: str = "E24", conditions: Conditions = Conditions(), width: int = 1) -> tuple[DesignResult, ...]:

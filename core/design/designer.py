@@ -22,7 +22,7 @@ from bandsmith.circuits import get_topology
 from bandsmith.common.errors import InputError
 from bandsmith.common.limits import check_part_value
 from bandsmith.common.eseries import SERIES_NAMES, in_series
-from bandsmith.analysis.figures import Figures
+from bandsmith.analysis.figures import Figures, defined
 from bandsmith.analysis.inductor import inductor_q_needed, inductor_q_warning
 from bandsmith.circuits.synthesis import MADE, PRACTICAL, Infeasible, Spec
 from bandsmith.solver.stability import hurwitz_stable_one
@@ -434,9 +434,8 @@ def _conclude(made: _Prepared, analysis: Analysis, spec: Spec, series: str, cond
     """The design of prepared parts, from their analysis."""
     d = made.design
     topo, exact, notes, pins = d.topology, d.exact, d.notes, d.pins
-    ideal = analysis.ideal.item()  # (the figures' validity, Figures.valid, on the scalars)
-    if not (hurwitz_stable_one(analysis.h_ideal.den[0].tolist())
-            and math.isfinite(ideal.q) and math.isfinite(ideal.f0_hz) and math.isfinite(ideal.gain_center_db)):
+    ideal = analysis.ideal.item()
+    if not (hurwitz_stable_one(analysis.h_ideal.den[0].tolist()) and defined(ideal.f0_hz, ideal.q, ideal.gain_center_db)):
         return _infeasible(topo, spec, series, "the chosen parts do not give a stable band-pass", pins, conditions, exact, notes)
     errors = errors_of_one(ideal, spec)
     return _feasible(topo, spec, series, exact, made.candidate, analysis, errors, notes, pins, conditions, made.choice)

@@ -46,7 +46,7 @@ from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import PART_UNITS
 from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
-from bandsmith.design.compare import part_count
+from bandsmith.design.compare import needs_inductor, part_count
 from bandsmith.design.designer import DesignResult, spread_of
 from bandsmith.circuits.topology import Topology
 from bandsmith.design.standard import errors_of, figure_misses
@@ -246,10 +246,9 @@ def _kinds_of(part_kinds: tuple[tuple[str, str, bool], ...]) -> tuple[dict[str, 
 
 def _parts_of(topo: Topology) -> _Parts:
     """What judge reads of ``topo``'s parts, from its ``part_kinds`` (made once with the topology;
-    :func:`_kinds_of`); it needs an inductor when an ``L`` is among its kinds (as
-    :func:`~bandsmith.design.compare.needs_inductor` finds)."""
+    :func:`_kinds_of`)."""
     kinds, kind_set, ranged = _kinds_of(topo.part_kinds)
-    return _Parts(kinds, kind_set, ranged, part_count(topo), "L" in kind_set)
+    return _Parts(kinds, kind_set, ranged, part_count(topo), needs_inductor(topo))
 
 
 def _gbw_reasons(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
@@ -359,19 +358,13 @@ def _order(reasons: list[Reason]) -> tuple[Reason, ...]:
     return tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
 
 
-def _settled_limits(result: DesignResult, limits: VerdictLimits, parts: tuple[Topology, _Parts] | None = None) -> list[_Crossed]:
+def _settled_limits(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
     """The limits crossed in judge's checks on numbers a feasible design already has, in judge's
     order: its figures against the design tolerances with the ideal op-amp and with the session's
     op-amp, the resistor and capacitor spread, the parts' range and the required GBW (what
-    :func:`least_verdict` bounds the verdict with); their words are written only when judge asks.
-    ``parts``: the design's topology and :func:`_parts_of` it, where the caller has them (else
-    found here)."""
-    a, tol = result.analysis, result.conditions.tolerances
-    if parts is None:
-        topo = result.topology
-        ranged = _kinds_of(topo.part_kinds)[2]
-    else:
-        topo, ranged = parts[0], parts[1].ranged
+    :func:`least_verdict` bounds the verdict with); their words are written only when judge asks."""
+    a, topo, tol = result.analysis, result.topology, result.conditions.tolerances
+    ranged = _kinds_of(topo.part_kinds)[2]
     crossed = _figure_reasons(result.errors, tol, "", lambda: f"with {result.series} parts and an ideal op-amp,")
     if a.actual is not None:
         crossed += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
@@ -409,7 +402,7 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     reasons: list[Reason] = []
     if not a.stable_ideal or a.stable_actual is False:
         reasons.append(Reason("unstable", "; ".join(a.warnings) or "unstable", None, None, NOT_BUILDABLE))
-    reasons += [c.reason() for c in _settled_limits(result, limits, (topo, parts))]
+    reasons += [c.reason() for c in _settled_limits(result, limits)]
     reasons += _amp_reasons(result, limits)
     r = _inductor_reason(result, limits) if inductor else None
     if r is not None:
