@@ -275,12 +275,13 @@ def test_candidates_analysed_together_under_their_own_tolerances_equal_each_alon
 @pytest.mark.parametrize("circuit", ["rlc-tank", "mfb", "sallen-key", "dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
 def test_search_combinations_from_gathered_logs_equal_the_values_passed_part_by_part(circuit):
     """The standard-value search's transfer functions (each combination's log ratios gathered
-    from the logs of the offered values) against _combinations of the same values given part by
-    part (their ratios built, then their logs taken): the same coefficients bit for bit, with a
-    winding resistance or a pinned part held at its own value. A consistency check of our own two
-    paths, no outside source."""
-    from bandsmith.common.eseries import search_option_lists
+    from the logs of the offered values, _combination_searches) against _combinations of the same
+    values given part by part (their ratios built, then their logs taken): the same coefficients
+    bit for bit, with a winding resistance or a pinned part held at its own value. A consistency
+    check of our own two paths, no outside source."""
+    from bandsmith.analysis.tolerances import Tolerances
     from bandsmith.design import standard
+    from bandsmith.design.designer import Spec
 
     topo = get_topology(circuit)
     rng = np.random.default_rng(5)
@@ -289,18 +290,14 @@ def test_search_combinations_from_gathered_logs_equal_the_values_passed_part_by_
         if "RL" in values:
             values["RL"] = 15.0 if trial % 2 else 0.0
         values = topo.values_from(values)
-        free = [c.ref for c in topo.components if c.required][trial % 2:]  # the first part pinned in odd trials
-        options, near = search_option_lists([values[r] for r in free], "E24", 1)
-        sizes = tuple(len(o) for o in options)
-        flat = np.array([v for o, n in zip(options, near) for v in (*o, n)])
-        netlist = topo.build(values)
-        w = 2e4 * float(np.exp(rng.uniform(-1, 1)))
+        keep = tuple(c.ref for c in topo.components if c.required)[: trial % 2]  # the first part pinned in odd trials
+        spec = Spec(2e4 * float(np.exp(rng.uniform(-1, 1))) / (2 * np.pi), 2.0, 1.0)
         with np.errstate(all="ignore"):
-            mine = standard._option_combinations(netlist, free, flat, sizes, w)
-            ref = standard._combinations(netlist, dict(zip(free, flat[standard._flat_combination_index(sizes)])), w)
-        assert_array_equal(mine.num, ref.num)
-        assert_array_equal(mine.den, ref.den)
-        assert_array_equal(mine.w_ref, ref.w_ref)
+            mine = standard._combination_searches([(topo, values, spec, "E24", keep, Tolerances(), 1)])[0]
+            ref = standard._combinations(topo.build(mine.values), dict(zip(mine.free, mine.flat[mine.index])), spec.w0)
+        assert_array_equal(mine.h.num, ref.num)
+        assert_array_equal(mine.h.den, ref.den)
+        assert_array_equal(mine.h.w_ref, ref.w_ref)
 
 
 @pytest.mark.parametrize("series", ["E12", "E24", "E96"])
@@ -422,7 +419,7 @@ def test_closed_form_search_costs_are_the_measured_figures_costs(series, width):
     for topo in all_topologies():
         exact = topo.values_from(dict(topo.synthesize(spec, {}, series=series)))
         with np.errstate(all="ignore"):
-            searches.append(standard._combination_search(topo, exact, spec, series, (), Tolerances(), width))
+            searches += standard._combination_searches([(topo, exact, spec, series, (), Tolerances(), width)])
     with np.errstate(all="ignore"):
         closed = standard._peak_costs(searches)
         measured = standard._costs(searches, measure_many([m.h for m in searches]))

@@ -146,35 +146,9 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
     return exp.rational(ratios, w_ref=w_ref)
 
 
-def _option_combinations(netlist, free: list[str], flat: np.ndarray, sizes: tuple[int, ...], w_ref: float):
-    """:func:`_combinations` of every combination of the search, given as the flat options
-    ``flat`` of the ``free`` parts (each part's ``sizes[i]`` options, then its nearest value) taken
-    by :func:`_flat_combination_index`: the same transfer functions, bit for bit.
-
-    Through the expansion, the natural logs of the ratios go to
-    :meth:`bandsmith.solver.expansion.Expansion.rational_log` as one gather: ``log(x/u)`` is taken
-    once per offered value (a few dozen) instead of once per combination and part; numpy's log
-    maps each number alone, so a value has the same log wherever it sits in an array.
-    Where the expansion does not apply, or the batch is past its small-batch products,
-    :func:`_combinations`. Floating-point warnings are the caller's to silence (far-off
-    combinations may overflow, a log of zero is -inf: such combinations are simply not chosen).
-    """
-    index = _flat_combination_index(sizes)
-    try:
-        exp, own = unit_expansion_values(netlist)
-    except ExpansionUnavailable:
-        exp = None
-    if exp is None or index.shape[1] > SMALL_BATCH:
-        return _combinations(netlist, dict(zip(free, flat[index])), w_ref)
-    # the logs of every value a combination can hold, in one array: the free parts' options and
-    # nearest values over their unit values, then the other variables' own ratios
-    plan = _log_plan(exp, tuple(free), sizes)
-    return exp.rational_log(np.log(_log_entries(flat, own, plan))[plan[2]], w_ref=w_ref)
-
-
 @functools.lru_cache(maxsize=64)
 def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.ndarray, tuple[tuple[int, float], ...], np.ndarray]:
-    """What :func:`_option_combinations` needs of an expansion ``exp`` (a kept unit expansion, one
+    """What :func:`_combination_searches` needs of an expansion ``exp`` (a kept unit expansion, one
     per circuit structure) for these free parts and option counts, made once: each flat entry's
     unit value (a part's options and nearest value over its variable's unit), the held variables
     as ``(column, unit value)``, and :func:`_log_gather`'s positions. Read-only."""
@@ -188,7 +162,7 @@ def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.nd
 
 @functools.lru_cache(maxsize=64)
 def _log_gather(sizes: tuple[int, ...], rows: tuple[int, ...]) -> np.ndarray:
-    """``(combinations, variables)`` positions in :func:`_option_combinations`'s logs, row by row
+    """``(combinations, variables)`` positions in :func:`_combination_searches`' logs, row by row
     the log ratios of one combination (the member that rounds every part alone last): variable
     ``j`` is free part ``rows[j]`` (its row of :func:`_flat_combination_index`) or, where
     ``rows[j]`` is −1, held at its own value (one entry after the options, in the variables'
@@ -392,21 +366,23 @@ class _Search:
         )
 
 
-def _combination_search(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
-                        tolerances: Tolerances, width: int) -> Choice | _Search:
-    """A circuit's combinations of standard values and their transfer functions (:class:`_Search`),
-    or its :class:`Choice` at once when no part is free. Floating-point warnings are the caller's
-    to silence (:func:`choose_standard_many` does: a far-off combination may overflow)."""
-    return _combination_searches([(topology, exact, spec, series, keep, tolerances, width)])[0]
-
-
 def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
-    """:func:`_combination_search` of each item ``(topology, exact, spec, series, keep,
-    tolerances, width)``: the same searches, the transfer functions of those that share a kept
-    expansion, free parts and option counts (a chain's stages on one circuit) made in one stacked
-    batch (:meth:`bandsmith.solver.expansion.Expansion.rational_log_stacked`, each batch's
-    numbers as alone). Their log ratios come from one logarithm of all their flat entries and one
-    gather (each value's log is the same wherever it sits, :func:`_option_combinations`)."""
+    """Each circuit's combinations of standard values and their transfer functions
+    (:class:`_Search`), or its :class:`Choice` at once when no part is free, of each item
+    ``(topology, exact, spec, series, keep, tolerances, width)``. Floating-point warnings are the
+    caller's to silence (:func:`choose_standard_many` does: a far-off combination may overflow,
+    a log of zero is -inf: such combinations are simply not chosen).
+
+    Through the circuit's kept expansion, the natural logs of the combinations' ratios go to
+    :meth:`bandsmith.solver.expansion.Expansion.rational_log` as one gather: ``log(x/u)`` is taken
+    once per offered value (a few dozen) instead of once per combination and part; numpy's log
+    maps each number alone, so a value has the same log wherever it sits in an array (the same
+    transfer functions, bit for bit, as :func:`_combinations` of the values themselves). The
+    searches that share a kept expansion, free parts and option counts (a chain's stages on one
+    circuit) are made in one stacked batch
+    (:meth:`~bandsmith.solver.expansion.Expansion.rational_log_stacked`, each batch's numbers as
+    alone), from one logarithm of all their flat entries and one gather. Where the expansion does
+    not apply, or a batch is past its small-batch products, :func:`_combinations`."""
     out: list = [None] * len(items)
     stacks: dict[tuple, list[tuple[int, _Setup, np.ndarray]]] = {}
     for k, item in enumerate(items):
@@ -443,7 +419,7 @@ def _stack_offsets(g: int, n: int) -> np.ndarray:
 
 
 def _log_entries(flat: np.ndarray, own: list[float], plan: tuple) -> np.ndarray:
-    """The ratios whose logs :func:`_option_combinations` gathers: the free parts' flat entries
+    """The ratios whose logs :func:`_combination_searches` gathers: the free parts' flat entries
     over their unit values, then the held variables' own values over theirs."""
     per_entry, held, _ = plan
     ratios = flat / per_entry
