@@ -463,11 +463,11 @@ def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
     many = np.flatnonzero(live & ~out)
     if many.size:
         x = u_pk[many]
-        rest = _deflated(slope[many], x)
-        proven = _below_peak(pu[many], qu[many], peak2[many], x) & _no_root_between(rest, u_low[many], u_high[many])
+        rest = _deflated_rows(slope[many].T, x)  # (deg, n): T's coefficients as rows
+        proven = _below_peak_rows(pu[many].T, qu[many].T, peak2[many], x) & _no_root_rows(rest, u_low[many], u_high[many])
         out[many[proven]] = True
         if not proven.all():
-            many, rest, x = many[~proven], rest[~proven], x[~proven]
+            many, rest, x = many[~proven], rest.T[~proven], x[~proven]
             others = _real_positive_roots(rest)  # (n, deg − 1), NaN where none
             top = peak2[many]
             with np.errstate(invalid="ignore"):
@@ -478,13 +478,16 @@ def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
     return out
 
 
-def _deflated(c: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """The quotient of batched polynomials ``c`` (highest power first) by ``u − x`` (Horner's
-    steps of synthetic division; the remainder, ``c(x)``, is dropped): one coefficient fewer."""
-    out = np.empty((c.shape[0], c.shape[1] - 1))
-    out[:, 0] = c[:, 0]
-    for k in range(1, c.shape[1] - 1):
-        out[:, k] = c[:, k] + x * out[:, k - 1]
+def _deflated_rows(c: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """The quotient of batched polynomials by ``u − x`` (Horner's steps of synthetic division;
+    the remainder, ``c(x)``, is dropped): one coefficient fewer. Coefficients as rows, highest
+    power first: ``c`` ``(k, n)`` (a transposed batch will do), the quotient ``(k − 1, n)``; each
+    step ``q_i = c_i + x·q_(i−1)`` over contiguous rows (two array calls a coefficient)."""
+    out = np.empty((c.shape[0] - 1, c.shape[1]))
+    out[0] = c[0]
+    for k in range(1, c.shape[0] - 1):
+        np.multiply(x, out[k - 1], out=out[k])
+        out[k] += c[k]
     return out
 
 
@@ -504,14 +507,23 @@ def _below_peak(pu, qu, peak2, x) -> np.ndarray:
     ``s0 > 0`` and ``s2 ≥ 0``, where ``s1² < 4·s0·s2`` (no real root; by a margin of
     :data:`_RIVAL_MARGIN`). A dual-amplifier band-pass's slope has two more sign changes (a dip
     and a small second peak near the op-amp's GBW): its ``S`` is such a quadratic."""
-    r = _poly_sub(qu * peak2[:, None], pu)
-    if r.shape[1] < 3:
+    return _below_peak_rows(pu.T, qu.T, peak2, x)
+
+
+def _below_peak_rows(pu: np.ndarray, qu: np.ndarray, peak2: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """:func:`_below_peak` of ``P`` and ``Q`` given as coefficient rows, ``(k, n)`` each (highest
+    power first; a transposed batch will do): the same operations on the same numbers."""
+    k = max(pu.shape[0], qu.shape[0])
+    if k < 3:
         return np.zeros(x.size, dtype=bool)
-    s = _deflated(_deflated(r, x), x)
+    r = np.zeros((k, x.size))  # peak2·Q − P, as _poly_sub forms it
+    r[k - qu.shape[0] :] = qu * peak2
+    r[k - pu.shape[0] :] -= pu
+    s = _deflated_rows(_deflated_rows(r, x), x)
     with np.errstate(invalid="ignore", over="ignore"):
-        out = (s >= 0.0).all(axis=1) & (s[:, -1] > 0.0)
-        if s.shape[1] == 3:
-            s2, s1, s0 = s[:, 0], s[:, 1], s[:, 2]
+        out = (s >= 0.0).all(axis=0) & (s[-1] > 0.0)
+        if s.shape[0] == 3:
+            s2, s1, s0 = s[0], s[1], s[2]
             four = 4.0 * s0 * s2
             out |= (s0 > 0.0) & (s2 >= 0.0) & (four - s1 * s1 > _RIVAL_MARGIN * four)
     return out
@@ -527,15 +539,24 @@ def _no_root_between(c: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     ``V(a) = V(b)`` proves that there is none (the Budan–Fourier theorem, a standard result of
     the theory of equations; from memory). Exact when every root is real (then each count is
     Descartes' and exact)."""
-    n = c.shape[0]
-    t = np.concatenate([c, c])
+    return _no_root_rows(c.T, a, b)
+
+
+def _no_root_rows(c: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """:func:`_no_root_between` of polynomials given as coefficient rows, ``(k, n)`` (highest
+    power first; a transposed batch will do): the same Taylor shifts, ``t_j += x·t_(j−1)``, over
+    contiguous rows, both ends at once."""
+    n = c.shape[1]
+    t = np.concatenate([c, c], axis=1)  # (k, 2n): the shifts to a, then to b
     x = np.concatenate([a, b])
-    d = c.shape[1] - 1
-    for i in range(d):  # after step i the last i + 1 entries are final
+    step = np.empty_like(x)
+    d = c.shape[0] - 1
+    for i in range(d):  # after step i the last i + 1 rows are final
         for j in range(1, d + 1 - i):
-            t[:, j] += x * t[:, j - 1]
-    v = _sign_changes(t)
-    finite = np.isfinite(t).all(axis=1)
+            np.multiply(x, t[j - 1], out=step)
+            t[j] += step
+    v = _sign_changes(t.T)
+    finite = np.isfinite(t).all(axis=0)
     return (v[:n] == v[n:]) & finite[:n] & finite[n:]
 
 
