@@ -112,9 +112,16 @@ class _Modes:
             self.pair_lam = lam = p[pair]
             e = _decay(lam.real[:, None] * t)
             wt = lam.imag[:, None] * t
-            self.pair_cos = np.cos(wt)
+            live = e != 0  # (a fast pair, an op-amp's, has died out over most of the times: no cosine there)
+            if live.all():
+                self.pair_cos = np.cos(wt)
+                self.pair_sin = np.sin(wt)
+            else:
+                self.pair_cos = np.zeros_like(wt)
+                self.pair_sin = np.zeros_like(wt)
+                np.cos(wt, out=self.pair_cos, where=live)
+                np.sin(wt, out=self.pair_sin, where=live)
             self.pair_cos *= e
-            self.pair_sin = np.sin(wt)
             self.pair_sin *= e
 
     def responses(self, b: np.ndarray, *, step: bool = True) -> tuple[np.ndarray | None, np.ndarray]:
