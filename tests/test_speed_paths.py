@@ -1087,3 +1087,34 @@ def test_response_on_the_imaginary_axis_equals_at_s():
             h = Rational(rng.normal(size=(b, max(1, k - 1))), rng.normal(size=(b, k)) + 0.1, 10 ** rng.uniform(-3, 7, size=b))
             f = 10 ** rng.uniform(-2, 8, size=int(rng.integers(1, 40)))
             assert_array_equal(h.at_f(f), h.at_s(2j * np.pi * f))
+
+
+def test_the_required_gbw_search_measures_the_lower_ladder_only_where_it_can_matter(monkeypatch):
+    """The required-GBW search measures each coarse ladder from a few steps below the rule of
+    thumb's GBW up, and the whole ladder only where that leaves the answer open
+    (gbw_search._first_measured, _settled): on the candidates of random compares, with and
+    without an op-amp riding along, the answers (and the op-amp's figures) are those of every
+    ladder measured whole, also where the first round is forced to start four steps from the
+    top, so that nearly every search takes the second round. Our own contract, no outside source."""
+    from bandsmith.analysis import gbw_search
+    from bandsmith.analysis.analyzer import analyze_many
+    from bandsmith.analysis.tolerances import Tolerances
+    from bandsmith.design.designer import Spec, prepare_designs
+
+    rng = np.random.default_rng(5)
+    netlists = []
+    for _ in range(6):
+        spec = Spec(f0_hz=float(10 ** rng.uniform(2, 5)), q=float(10 ** rng.uniform(-0.3, 1.6)), gain=float(10 ** rng.uniform(-0.5, 1.3)))
+        netlists += [c.netlist for c in prepare_designs(tuple(topology_ids()), spec, series="E24").candidates()]
+    chosen = gbw_search._first_measured
+
+    def searched(first, opamp):
+        monkeypatch.setattr(gbw_search, "_first_measured", first)
+        found = analyze_many(netlists, opamp=opamp, tolerances=Tolerances(f0=0.02, q=0.1, gain_db=1.0))
+        return [(a.required_gbw, None if a.actual is None else [np.asarray(getattr(a.actual, k)).tolist() for k in ("f0_hz", "q", "gain_center_db")])
+                for a in found]
+
+    for opamp in (IDEAL, OpAmpModel(gbw_hz=3e6)):
+        whole = searched(lambda ref: 0, opamp)
+        assert searched(chosen, opamp) == whole
+        assert searched(lambda ref: gbw_search._LADDER_POINTS - 4, opamp) == whole
