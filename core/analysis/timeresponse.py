@@ -102,25 +102,31 @@ class _Modes:
             self._modes(t, p)
 
     def _modes(self, t: np.ndarray, p: np.ndarray) -> None:
-        """Each pole's mode over the times ``t`` (the upper poles ``p``)."""
+        """Each pole's mode over the times ``t`` (the upper poles ``p``). A mode whose decay
+        underflows to zero before the last time (an op-amp's fast poles, over most of the grid)
+        is taken only where it has not (:func:`_decay`; its cosine and sine likewise)."""
         self.pair = pair = p.imag > 0
         self.real_lam = self.real_exp = self.pair_lam = self.pair_cos = self.pair_sin = None
+        latest = float(t.max())
         if not pair.all():  # real poles (a real point keeps a zero imaginary part)
             self.real_lam = lam = p.real[~pair]
-            self.real_exp = _decay(lam[:, None] * t)  # (poles, times)
+            x = lam[:, None] * t  # (poles, times)
+            self.real_exp = _decay(x) if _dies(lam, latest) else np.exp(x)
         if pair.any():
             self.pair_lam = lam = p[pair]
-            e = _decay(lam.real[:, None] * t)
+            x = lam.real[:, None] * t
             wt = lam.imag[:, None] * t
-            live = e != 0  # (a fast pair, an op-amp's, has died out over most of the times: no cosine there)
-            if live.all():
-                self.pair_cos = np.cos(wt)
-                self.pair_sin = np.sin(wt)
-            else:
+            if _dies(lam.real, latest):
+                e = _decay(x)
+                live = e != 0
                 self.pair_cos = np.zeros_like(wt)
                 self.pair_sin = np.zeros_like(wt)
                 np.cos(wt, out=self.pair_cos, where=live)
                 np.sin(wt, out=self.pair_sin, where=live)
+            else:
+                e = np.exp(x)
+                self.pair_cos = np.cos(wt)
+                self.pair_sin = np.sin(wt)
             self.pair_cos *= e
             self.pair_sin *= e
 
@@ -160,6 +166,13 @@ def _residues(b: list[float], a: list[float], poles: list[complex]) -> list[comp
     n = len(a) - 1
     da = [c * (n - k) for k, c in enumerate(a[:-1])]  # D'
     return [polyval_one(b, lam) / polyval_one(da, lam) for lam in poles]
+
+
+def _dies(sigma: np.ndarray, latest: float) -> bool:
+    """True unless every decay ``e^{σ·t}`` (real parts ``sigma``, 1/s) is still above
+    underflow at the latest time ``latest`` (s): then :func:`_decay` has zeros to skip (a NaN
+    part counts as dying: the careful path)."""
+    return not min(sigma.tolist()) * latest >= _UNDERFLOW
 
 
 def _decay(x: np.ndarray) -> np.ndarray:
