@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Sequence
 
+from bandsmith.analysis.analyzer import requirements_many
 from bandsmith.design.candidate import Conditions
 from bandsmith.design.compare import compare, compare_json
 from bandsmith.design.designer import DesignResult, Spec
@@ -53,7 +54,12 @@ class Comparison:
 
 
 def judge_all(spec: Spec, results: Sequence[DesignResult], limits: VerdictLimits = VerdictLimits()) -> Comparison:
-    """Judge and rank designs already made (ids are the circuit ids)."""
+    """Judge and rank designs already made (ids are the circuit ids).
+
+    The amplifier needs judge reads are worked out for every feasible design first, together
+    (:func:`bandsmith.analysis.analyzer.requirements_many`: the one-op-amp circuits' output
+    currents in one solve), each the one it has alone."""
+    requirements_many([r.analysis for r in results if r.feasible and r.analysis is not None])
     verdicts = tuple(judge(r, limits) for r in results)
     return Comparison(spec, tuple(results), verdicts, rank(verdicts), limits)
 
