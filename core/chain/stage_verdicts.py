@@ -157,6 +157,7 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     # (bound, whether it is _least_key's, position): least bound first, the attempt's before
     # _least_key's where they are equal
     bounds = [((0, not a.sane, 0, _near(a)), False, k) for k, (_, res, a) in enumerate(cands)]
+    seen: dict = {}  # the yield estimates of one model made once (judge's seen)
     heapq.heapify(bounds)
     while bounds:
         bound, settled, k = heapq.heappop(bounds)
@@ -166,7 +167,7 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
         if not settled:
             heapq.heappush(bounds, (_least_key(res, a, limits), True, k))
             continue
-        v = judge(res, limits, candidate=a.topology_id)
+        v = judge(res, limits, candidate=a.topology_id, seen=seen)
         heavy = sum(1 for r in v.reasons if r.weight == NOT_BUILDABLE) if v.verdict == NOT_BUILDABLE else 0
         key = (VERDICTS.index(v.verdict), not a.sane, heavy, _near(a), merit_key(v, k))
         if best is None or key < best:

@@ -12,11 +12,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Sequence
 
-from bandsmith.analysis.analyzer import requirements_many
 from bandsmith.design.candidate import Conditions
 from bandsmith.design.compare import compare, compare_json
 from bandsmith.design.designer import DesignResult, Spec
-from bandsmith.verdict.judge import Verdict, judge
+from bandsmith.verdict.judge import Verdict, judge_many
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.ranking import Ranking, rank
 
@@ -54,13 +53,9 @@ class Comparison:
 
 
 def judge_all(spec: Spec, results: Sequence[DesignResult], limits: VerdictLimits = VerdictLimits()) -> Comparison:
-    """Judge and rank designs already made (ids are the circuit ids).
-
-    The amplifier needs judge reads are worked out for every feasible design first, together
-    (:func:`bandsmith.analysis.analyzer.requirements_many`: the one-op-amp circuits' output
-    currents in one solve), each the one it has alone."""
-    requirements_many([r.analysis for r in results if r.feasible and r.analysis is not None])
-    verdicts = tuple(judge(r, limits) for r in results)
+    """Judge and rank designs already made (ids are the circuit ids), judged together
+    (:func:`bandsmith.verdict.judge.judge_many`)."""
+    verdicts = judge_many(results, limits)
     return Comparison(spec, tuple(results), verdicts, rank(verdicts), limits)
 
 

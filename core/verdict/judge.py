@@ -40,10 +40,11 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass
-from typing import Callable, Mapping, NamedTuple
+from typing import Callable, Mapping, NamedTuple, Sequence
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import PART_UNITS
+from bandsmith.analysis.analyzer import requirements_many
 from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
 from bandsmith.design.compare import needs_inductor, part_count
@@ -53,7 +54,7 @@ from bandsmith.design.standard import errors_of, figure_misses
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield, part_tolerances_of
 
-__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge", "least_verdict"]
+__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge", "judge_many", "least_verdict"]
 
 BUILDABLE, MARGINAL, NOT_BUILDABLE = "buildable", "marginal", "not buildable"
 #: The verdicts, best first.
@@ -294,15 +295,15 @@ def _amp_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
     return out
 
 
-def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits, so_far: str) -> tuple[YieldEstimate, float | None, float]:
+def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits, so_far: str, seen: dict | None) -> tuple[YieldEstimate, float | None, float]:
     """The estimate, the confirming Monte Carlo's yield (or None) and the yield the verdict uses;
-    ``kinds`` maps the circuit's part references to their kinds.
+    ``kinds`` maps the circuit's part references to their kinds, ``seen`` is estimate_yield's.
 
     The Monte Carlo runs only where it can change the verdict: not when other reasons already
     make the candidate ``not buildable``; when they make it ``marginal``, only near the lower limit.
     """
     tol = part_tolerances_of(kinds, result.chosen, limits)
-    est = estimate_yield(result.analysis.sensitivity, tol, limits)
+    est = estimate_yield(result.analysis.sensitivity, tol, limits, seen=seen)
     if so_far == NOT_BUILDABLE:
         return est, None, est.fraction  # no yield can change the verdict: no Monte Carlo
     edges = (limits.yield_marginal, limits.yield_min) if so_far == BUILDABLE else (limits.yield_min,)
@@ -375,7 +376,7 @@ def _settled_limits(result: DesignResult, limits: VerdictLimits) -> list[_Crosse
     return crossed
 
 
-def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, candidate: str | None = None) -> Verdict:
+def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, candidate: str | None = None, seen: dict | None = None) -> Verdict:
     """The verdict of one designed candidate (see the module notes).
 
     Parameters
@@ -386,6 +387,10 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     limits : VerdictLimits
     candidate : str, optional
         The candidate's id (default: its circuit id).
+    seen : dict, optional
+        One dict passed to every judge of several candidates (:func:`judge_many`, a chain's
+        ``auto``): their yield estimates of the same model, number for number, made once
+        (:func:`bandsmith.verdict.yield_estimate.estimate_yield`'s ``seen``).
 
     Returns
     -------
@@ -408,7 +413,7 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     if r is not None:
         reasons.append(r)
     so_far = max((r.weight for r in reasons), key=VERDICTS.index, default=BUILDABLE)
-    est, mc, y = _yield(result, parts.kinds, limits, so_far)
+    est, mc, y = _yield(result, parts.kinds, limits, so_far, seen)
     r = _yield_reason(est, mc, y, limits, parts.kind_set)
     if r is not None:
         reasons.append(r)
@@ -416,6 +421,19 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     verdict = ordered[0].weight if ordered else BUILDABLE
     req = a.requirements.gbw_hz
     return Verdict(cid, verdict, ordered, y, est, mc, req if req is not None and math.isfinite(req) else None, count, inductor, result.conditions.gbw_hz)
+
+
+def judge_many(results: Sequence[DesignResult], limits: VerdictLimits = VerdictLimits()) -> tuple[Verdict, ...]:
+    """:func:`judge` of several designs (a compare's candidates; ids are the circuit ids), each
+    the verdict it gets alone.
+
+    The feasible designs' amplifier needs are worked out together first
+    (:func:`bandsmith.analysis.analyzer.requirements_many`: the one-op-amp circuits' output
+    currents in one solve), and candidates whose yield model is the same number for number share
+    one estimate (``seen``)."""
+    requirements_many([r.analysis for r in results if r.feasible and r.analysis is not None])
+    seen: dict = {}
+    return tuple(judge(r, limits, seen=seen) for r in results)
 
 
 def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits()) -> tuple[str, int]:
