@@ -436,29 +436,22 @@ def requirements_many(analyses: Sequence[Analysis]) -> list[Requirements]:
 
     The output currents of the circuits with one op-amp (or none) are solved together, in one
     :func:`bandsmith.solver.mna.solve_at_many` (the numbers :func:`bandsmith.solver.mna.solve_at`
-    gives each alone, tested; systems of one size in one stacked solve). A circuit with several
+    gives each alone, tested; systems of one size in one stacked solve), where there are two or
+    more (one alone is solved by :func:`opamp_output_current`, as ever). A circuit with several
     op-amps takes :func:`amplifier_needs` alone: stacking the samples of two circuits of one size
     (a compare's Tow–Thomas and Åkerberg–Mossberg) in one solve kept their numbers but saved
     under 10 µs of some 160 µs for four circuits, and cost a lone circuit more.
     """
     todo = [a for a in analyses if a._requirements is None]
-    lone: dict[int, int] = {}  # position in todo -> its system's position in the solves
-    systems, made = [], []
-    for k, a in enumerate(todo):
-        f0_gain = _f0_and_gain(a.ideal)
-        made.append(f0_gain)
-        if len(a.netlist.opamps) <= 1 and math.isfinite(f0_gain[0]):
-            own, solved, s, _ = _output_current_system(a.netlist, f0_gain[0], a.drive.rload_ohm, None)
-            lone[k] = len(systems)
-            systems.append((own, solved, s))
-    solved_at = solve_at_many([(solved, s) for _, solved, s in systems]) if systems else []
+    made = [_f0_and_gain(a.ideal) for a in todo]
+    ones = [k for k, (a, (f0, _)) in enumerate(zip(todo, made)) if len(a.netlist.opamps) <= 1 and math.isfinite(f0)]
+    currents: dict[int, float] = {}  # position in todo -> its output current per volt, solved together
+    if len(ones) > 1:  # (a lone one: solve_at itself, as ever; a plan for solve_at_many costs a first use more)
+        systems = [_output_current_system(todo[k].netlist, made[k][0], todo[k].drive.rload_ohm, None) for k in ones]
+        for k, (own, solved, _, _), (x, layout) in zip(ones, systems, solve_at_many([(solved, s) for _, solved, s, _ in systems])):
+            currents[k] = _largest_output_current(own, solved, x, layout, None, None, None)
     for k, (a, f0_gain) in enumerate(zip(todo, made)):
-        current = None
-        if k in lone:
-            own, solved, _ = systems[lone[k]]
-            x, layout = solved_at[lone[k]]
-            current = _largest_output_current(own, solved, x, layout, None, None, None)
-        req = _requirements(a.netlist, f0_gain, max_step_slope(a.h_ideal), a.drive, a.required_gbw, a.h_ideal, current)
+        req = _requirements(a.netlist, f0_gain, max_step_slope(a.h_ideal), a.drive, a.required_gbw, a.h_ideal, currents.get(k))
         object.__setattr__(a, "_requirements", req)
     return [a._requirements for a in analyses]
 
