@@ -51,3 +51,17 @@ def test_estimates_of_one_model_are_made_once():
     # another window is another model
     wide = VerdictLimits(window_f0=0.1)
     assert estimate_yield(sens, tol, wide, seen=seen) == estimate_yield(sens, tol, wide)
+
+
+def test_least_verdict_then_judge_sharing_seen_gives_judge_alone():
+    """A chain's auto bounds a candidate by least_verdict and then judges it, both with one
+    ``seen``: the limits least_verdict found serve the judge, whose verdict is the one judge
+    gives alone; least_verdict's answer is its own without ``seen``."""
+    from bandsmith.design.candidate import Conditions
+    from bandsmith.verdict import least_verdict
+
+    results = compare(Spec(2.2e3, 8.0, 2.0), series="E12", conditions=Conditions(gbw_hz=1e6))
+    seen: dict = {}
+    bounds = [least_verdict(r, seen=seen) for r in results]
+    assert bounds == [least_verdict(r) for r in results]
+    assert [judge(r, seen=seen) for r in results] == [judge(r) for r in _fresh(results)]

@@ -359,11 +359,19 @@ def _order(reasons: list[Reason]) -> tuple[Reason, ...]:
     return tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
 
 
-def _settled_limits(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
+def _settled_limits(result: DesignResult, limits: VerdictLimits, seen: dict | None = None) -> list[_Crossed]:
     """The limits crossed in judge's checks on numbers a feasible design already has, in judge's
     order: its figures against the design tolerances with the ideal op-amp and with the session's
     op-amp, the resistor and capacitor spread, the parts' range and the required GBW (what
-    :func:`least_verdict` bounds the verdict with); their words are written only when judge asks."""
+    :func:`least_verdict` bounds the verdict with); their words are written only when judge asks.
+    With ``seen`` (judge's), found once per design: a chain's ``auto`` bounds a candidate by
+    :func:`least_verdict` and then judges it."""
+    if seen is not None:
+        key = ("settled", id(result))  # (the designs outlive the dict: one judging's)
+        known = seen.get(key)
+        if known is None:
+            known = seen[key] = _settled_limits(result, limits)
+        return known
     a, topo, tol = result.analysis, result.topology, result.conditions.tolerances
     ranged = _kinds_of(topo.part_kinds)[2]
     crossed = _figure_reasons(result.errors, tol, "", lambda: f"with {result.series} parts and an ideal op-amp,")
@@ -388,9 +396,12 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     candidate : str, optional
         The candidate's id (default: its circuit id).
     seen : dict, optional
-        One dict passed to every judge of several candidates (:func:`judge_many`, a chain's
-        ``auto``): their yield estimates of the same model, number for number, made once
-        (:func:`bandsmith.verdict.yield_estimate.estimate_yield`'s ``seen``).
+        One dict passed to every judge (and :func:`least_verdict`) of one judging of several
+        candidates (:func:`judge_many`, a chain's ``auto``), for the work they share, made once:
+        the yield estimates of one model, number for number
+        (:func:`bandsmith.verdict.yield_estimate.estimate_yield`'s ``seen``), and a design's
+        limits crossed that :func:`least_verdict` found before (:func:`_settled_limits`). It lives
+        no longer than that judging (its keys hold designs' ids).
 
     Returns
     -------
@@ -407,7 +418,7 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     reasons: list[Reason] = []
     if not a.stable_ideal or a.stable_actual is False:
         reasons.append(Reason("unstable", "; ".join(a.warnings) or "unstable", None, None, NOT_BUILDABLE))
-    reasons += [c.reason() for c in _settled_limits(result, limits)]
+    reasons += [c.reason() for c in _settled_limits(result, limits, seen)]
     reasons += _amp_reasons(result, limits)
     r = _inductor_reason(result, limits) if inductor else None
     if r is not None:
@@ -436,7 +447,7 @@ def judge_many(results: Sequence[DesignResult], limits: VerdictLimits = VerdictL
     return tuple(judge(r, limits, seen=seen) for r in results)
 
 
-def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits()) -> tuple[str, int]:
+def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, seen: dict | None = None) -> tuple[str, int]:
     """The least verdict :func:`judge` can give a design, and the least number of its
     ``not buildable`` reasons, from the checks that need nothing more worked out.
 
@@ -447,7 +458,8 @@ def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits())
     current, inductor, yield) only add reasons, so its verdict is at least this one (in
     ``VERDICTS``' order) and, when both are ``not buildable``, it has at least this many reasons
     of that weight. Lets a caller that wants only the best of several judge the few that can
-    still be best.
+    still be best. ``seen`` as :func:`judge` takes it (the limits found here serve its
+    judge of the same design).
 
     Returns
     -------
@@ -459,7 +471,7 @@ def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits())
     """
     if not result.feasible or result.analysis is None:
         return NOT_BUILDABLE, 1  # judge gives exactly one reason: infeasible
-    weights = [r.weight for r in _settled_limits(result, limits)]
+    weights = [r.weight for r in _settled_limits(result, limits, seen)]
     heavy = weights.count(NOT_BUILDABLE)
     if heavy:
         return NOT_BUILDABLE, heavy
