@@ -427,7 +427,7 @@ def requirements(
     """
     if gbw_search is None:
         gbw_search = required_gbw(netlist, ideal, a0=a0, tolerances=tolerances)
-    return _requirements(netlist, _f0_and_gain(ideal), step_slope_per_s, Drive(vin_v, a0, rload_ohm, tolerances), gbw_search, h_ideal)
+    return _requirements(netlist, netlist.opamps, _f0_and_gain(ideal), step_slope_per_s, Drive(vin_v, a0, rload_ohm, tolerances), gbw_search, h_ideal)
 
 
 def requirements_many(analyses: Sequence[Analysis]) -> list[Requirements]:
@@ -444,14 +444,15 @@ def requirements_many(analyses: Sequence[Analysis]) -> list[Requirements]:
     """
     todo = [a for a in analyses if a._requirements is None]
     made = [_f0_and_gain(a.ideal) for a in todo]
-    ones = [k for k, (a, (f0, _)) in enumerate(zip(todo, made)) if len(a.netlist.opamps) <= 1 and math.isfinite(f0)]
+    amps = [a.netlist.opamps for a in todo]
+    ones = [k for k, ((f0, _), opamps) in enumerate(zip(made, amps)) if len(opamps) <= 1 and math.isfinite(f0)]
     currents: dict[int, float] = {}  # position in todo -> its output current per volt, solved together
     if len(ones) > 1:  # (a lone one: solve_at itself, as ever; a plan for solve_at_many costs a first use more)
         systems = [_output_current_system(todo[k].netlist, made[k][0], todo[k].drive.rload_ohm, None) for k in ones]
         for k, (own, solved, _, _), (x, layout) in zip(ones, systems, solve_at_many([(solved, s) for _, solved, s, _ in systems])):
             currents[k] = _largest_output_current(own, solved, x, layout, None, None, None)
-    for k, (a, f0_gain) in enumerate(zip(todo, made)):
-        req = _requirements(a.netlist, f0_gain, max_step_slope(a.h_ideal), a.drive, a.required_gbw, a.h_ideal, currents.get(k))
+    for k, (a, opamps, f0_gain) in enumerate(zip(todo, amps, made)):
+        req = _requirements(a.netlist, opamps, f0_gain, max_step_slope(a.h_ideal), a.drive, a.required_gbw, a.h_ideal, currents.get(k))
         object.__setattr__(a, "_requirements", req)
     return [a._requirements for a in analyses]
 
@@ -464,12 +465,13 @@ def _f0_and_gain(ideal: Figures) -> tuple[float, float]:
 
 
 def _requirements(
-    netlist: Netlist, f0_gain: tuple[float, float], step_slope_per_s: float, drive: Drive,
+    netlist: Netlist, opamps: tuple[Element, ...], f0_gain: tuple[float, float], step_slope_per_s: float, drive: Drive,
     gbw_search: tuple[float | None, str | None], h_ideal: Rational | None, current: float | None = None,
 ) -> Requirements:
-    """:func:`requirements` from the reference f0 (Hz) and centre gain, the drive and a finished
-    required-GBW search; ``current`` the output current (A per volt of input) of a circuit with
-    one op-amp or none where already solved (:func:`requirements_many`), else solved here."""
+    """:func:`requirements` from the netlist's op-amps (``netlist.opamps``), the reference f0 (Hz)
+    and centre gain, the drive and a finished required-GBW search; ``current`` the output current
+    (A per volt of input) of a circuit with one op-amp or none where already solved
+    (:func:`requirements_many`), else solved here."""
     f0_hz, gain = f0_gain
     vin_v, rload_ohm = drive.vin_v, drive.rload_ohm
     gbw, reason = gbw_search
@@ -479,7 +481,6 @@ def _requirements(
     vout = gain * vin_v
     slew_sine = 2.0 * math.pi * f0_hz * gain * vin_v
     slew_step = step_slope_per_s * vin_v
-    opamps = netlist.opamps
     if len(opamps) > 1:
         amps = amplifier_needs(netlist, f0_hz, vin_v=vin_v, rload_ohm=rload_ohm, h_ideal=h_ideal)
         # the worst amplifier (the output's own figures are among them)
