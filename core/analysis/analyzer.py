@@ -46,6 +46,7 @@ __all__ = [
     "ideal_figures",
     "required_gbw",
     "requirements",
+    "requirements_many",
     "opamp_output_current",
     "opamp_output_currents",
     "AmplifierNeeds",
@@ -202,11 +203,7 @@ class Analysis:
     def requirements(self) -> Requirements:
         """What the circuit asks of its op-amps (:func:`requirements`; computed when first asked for)."""
         if self._requirements is None:
-            d = self.drive
-            object.__setattr__(self, "_requirements", requirements(
-                self.netlist, self.ideal, max_step_slope(self.h_ideal), vin_v=d.vin_v, a0=d.a0, rload_ohm=d.rload_ohm,
-                tolerances=d.tolerances, gbw_search=self.required_gbw, h_ideal=self.h_ideal,
-            ))
+            requirements_many((self,))
         return self._requirements
 
     def with_requirements(self, req: Requirements) -> Analysis:
@@ -428,31 +425,79 @@ def requirements(
     ``gbw_search`` is a finished :func:`required_gbw`, and ``h_ideal`` the transfer function with
     ideal op-amps (:func:`amplifier_needs`), when the caller has them.
     """
-    ref = ideal.item()
     if gbw_search is None:
         gbw_search = required_gbw(netlist, ideal, a0=a0, tolerances=tolerances)
+    return _requirements(netlist, netlist.opamps, _f0_and_gain(ideal), step_slope_per_s, Drive(vin_v, a0, rload_ohm, tolerances), gbw_search, h_ideal)
+
+
+def requirements_many(analyses: Sequence[Analysis]) -> list[Requirements]:
+    """:attr:`Analysis.requirements` of several analyses (a compare's candidates), each the one it
+    gives alone, and kept on each (an analysis that has them already keeps its own).
+
+    The output currents of the circuits with one op-amp (or none) are solved together, in one
+    :func:`bandsmith.solver.mna.solve_at_many` (the numbers :func:`bandsmith.solver.mna.solve_at`
+    gives each alone, tested; systems of one size in one stacked solve), where there are two or
+    more (one alone is solved by :func:`opamp_output_current`, as ever). A circuit with several
+    op-amps takes :func:`amplifier_needs` alone: stacking the samples of two circuits of one size
+    (a compare's Tow–Thomas and Åkerberg–Mossberg) in one solve kept their numbers but saved
+    under 10 µs of some 160 µs for four circuits, and cost a lone circuit more.
+    """
+    todo = [a for a in analyses if a._requirements is None]
+    made = [_f0_and_gain(a.ideal) for a in todo]
+    amps = [a.netlist.opamps for a in todo]
+    ones = [k for k, ((f0, _), opamps) in enumerate(zip(made, amps)) if len(opamps) <= 1 and math.isfinite(f0)]
+    currents: dict[int, float] = {}  # position in todo -> its output current per volt, solved together
+    if len(ones) > 1:  # (a lone one: solve_at itself, as ever; a plan for solve_at_many costs a first use more)
+        systems = [_output_current_system(todo[k].netlist, made[k][0], todo[k].drive.rload_ohm, None) for k in ones]
+        for k, (own, solved, _, _), (x, layout) in zip(ones, systems, solve_at_many([(solved, s) for _, solved, s, _ in systems])):
+            currents[k] = _largest_output_current(own, solved, x, layout, None, None, None)
+    for k, (a, opamps, f0_gain) in enumerate(zip(todo, amps, made)):
+        req = _requirements(a.netlist, opamps, f0_gain, max_step_slope(a.h_ideal), a.drive, a.required_gbw, a.h_ideal, currents.get(k))
+        object.__setattr__(a, "_requirements", req)
+    return [a._requirements for a in analyses]
+
+
+def _f0_and_gain(ideal: Figures) -> tuple[float, float]:
+    """Member 0's f0 (Hz) and centre gain as floats (the numbers of :meth:`Figures.item`)."""
+    return tuple(v.item(0) if type(v) is np.ndarray and v.dtype == np.float64 else
+                 float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(0))
+                 for v in (ideal.f0_hz, ideal.gain_center))
+
+
+def _requirements(
+    netlist: Netlist, opamps: tuple[Element, ...], f0_gain: tuple[float, float], step_slope_per_s: float, drive: Drive,
+    gbw_search: tuple[float | None, str | None], h_ideal: Rational | None, current: float | None = None,
+) -> Requirements:
+    """:func:`requirements` from the netlist's op-amps (``netlist.opamps``), the reference f0 (Hz)
+    and centre gain, the drive and a finished required-GBW search; ``current`` the output current
+    (A per volt of input) of a circuit with one op-amp or none where already solved
+    (:func:`requirements_many`), else solved here."""
+    f0_hz, gain = f0_gain
+    vin_v, rload_ohm = drive.vin_v, drive.rload_ohm
     gbw, reason = gbw_search
-    gain = abs(ref.gain_center)
+    gain = abs(gain)
     # Common practice, no source: open-loop gain at f0 some 40 dB above the peak gain.
-    rule = 100.0 * gain * ref.f0_hz if math.isfinite(gain) else math.nan
+    rule = 100.0 * gain * f0_hz if math.isfinite(gain) else math.nan
     vout = gain * vin_v
-    slew_sine = 2.0 * math.pi * ref.f0_hz * gain * vin_v
+    slew_sine = 2.0 * math.pi * f0_hz * gain * vin_v
     slew_step = step_slope_per_s * vin_v
-    if len(netlist.opamps) > 1:
-        amps = amplifier_needs(netlist, ref.f0_hz, vin_v=vin_v, rload_ohm=rload_ohm, h_ideal=h_ideal)
+    if len(opamps) > 1:
+        amps = amplifier_needs(netlist, f0_hz, vin_v=vin_v, rload_ohm=rload_ohm, h_ideal=h_ideal)
         # the worst amplifier (the output's own figures are among them)
         vout = max([vout] + [a.vout_peak_v for a in amps])
         slew_sine = max([slew_sine] + [a.slew_sine_v_per_s for a in amps])
         slew_step = max([slew_step] + [a.slew_step_v_per_s for a in amps])
         iout = max(a.iout_peak_a for a in amps)
     else:
-        iout = opamp_output_current(netlist, ref.f0_hz, rload_ohm=rload_ohm) * vin_v if math.isfinite(ref.f0_hz) else math.nan
-        amps = tuple(AmplifierNeeds(e.ref, e.nodes[2], vout, slew_sine, slew_step, iout) for e in netlist.opamps)
+        if current is None and math.isfinite(f0_hz):
+            current = opamp_output_current(netlist, f0_hz, rload_ohm=rload_ohm)
+        iout = current * vin_v if math.isfinite(f0_hz) else math.nan
+        amps = tuple(AmplifierNeeds(e.ref, e.nodes[2], vout, slew_sine, slew_step, iout) for e in opamps)
     return Requirements(
         gbw_hz=gbw,
         gbw_reason=reason,
-        tolerances=tolerances,
-        a0=a0,
+        tolerances=drive.tolerances,
+        a0=drive.a0,
         vin_v=vin_v,
         vout_peak_v=vout,
         slew_sine_v_per_s=slew_sine,

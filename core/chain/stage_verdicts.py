@@ -157,6 +157,7 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
     # (bound, whether it is _least_key's, position): least bound first, the attempt's before
     # _least_key's where they are equal
     bounds = [((0, not a.sane, 0, _near(a)), False, k) for k, (_, res, a) in enumerate(cands)]
+    seen: dict = {}  # the work the judging of this stage's candidates shares (judge's seen)
     heapq.heapify(bounds)
     while bounds:
         bound, settled, k = heapq.heappop(bounds)
@@ -164,9 +165,9 @@ def choose_auto(tried: Sequence[tuple], series: str, limits: VerdictLimits = Ver
             break  # this bound and every one left is above the best key's first four parts
         i, res, a = cands[k]
         if not settled:
-            heapq.heappush(bounds, (_least_key(res, a, limits), True, k))
+            heapq.heappush(bounds, (_least_key(res, a, limits, seen), True, k))
             continue
-        v = judge(res, limits, candidate=a.topology_id)
+        v = judge(res, limits, candidate=a.topology_id, seen=seen)
         heavy = sum(1 for r in v.reasons if r.weight == NOT_BUILDABLE) if v.verdict == NOT_BUILDABLE else 0
         key = (VERDICTS.index(v.verdict), not a.sane, heavy, _near(a), merit_key(v, k))
         if best is None or key < best:
@@ -187,11 +188,11 @@ def _near(a) -> float:
     return math.floor(a.weighted / FIT_STEP + 1e-9) if math.isfinite(a.weighted) else math.inf
 
 
-def _least_key(res, a, limits: VerdictLimits) -> tuple:
+def _least_key(res, a, limits: VerdictLimits, seen: dict | None = None) -> tuple:
     """A lower bound of the first four parts of :func:`choose_auto`'s key, from numbers the design
-    already has (no judging): the verdict and count of :func:`bandsmith.verdict.least_verdict`,
-    the attempt's own sane and nearest-fit parts."""
-    verdict, heavy = least_verdict(res, limits)
+    already has (no judging): the verdict and count of :func:`bandsmith.verdict.least_verdict`
+    (``seen`` as it takes it), the attempt's own sane and nearest-fit parts."""
+    verdict, heavy = least_verdict(res, limits, seen=seen)
     return (VERDICTS.index(verdict), not a.sane, heavy, _near(a))
 
 

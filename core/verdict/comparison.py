@@ -15,7 +15,7 @@ from typing import Sequence
 from bandsmith.design.candidate import Conditions
 from bandsmith.design.compare import compare, compare_json
 from bandsmith.design.designer import DesignResult, Spec
-from bandsmith.verdict.judge import Verdict, judge
+from bandsmith.verdict.judge import Verdict, judge_many
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.ranking import Ranking, rank
 
@@ -53,8 +53,9 @@ class Comparison:
 
 
 def judge_all(spec: Spec, results: Sequence[DesignResult], limits: VerdictLimits = VerdictLimits()) -> Comparison:
-    """Judge and rank designs already made (ids are the circuit ids)."""
-    verdicts = tuple(judge(r, limits) for r in results)
+    """Judge and rank designs already made (ids are the circuit ids), judged together
+    (:func:`bandsmith.verdict.judge.judge_many`)."""
+    verdicts = judge_many(results, limits)
     return Comparison(spec, tuple(results), verdicts, rank(verdicts), limits)
 
 

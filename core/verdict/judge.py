@@ -40,10 +40,11 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass
-from typing import Callable, Mapping, NamedTuple
+from typing import Callable, Mapping, NamedTuple, Sequence
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import PART_UNITS
+from bandsmith.analysis.analyzer import requirements_many
 from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
 from bandsmith.design.compare import needs_inductor, part_count
@@ -53,7 +54,7 @@ from bandsmith.design.standard import errors_of, figure_misses
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield, part_tolerances_of
 
-__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge", "least_verdict"]
+__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge", "judge_many", "least_verdict"]
 
 BUILDABLE, MARGINAL, NOT_BUILDABLE = "buildable", "marginal", "not buildable"
 #: The verdicts, best first.
@@ -294,15 +295,15 @@ def _amp_reasons(result: DesignResult, limits: VerdictLimits) -> list[Reason]:
     return out
 
 
-def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits, so_far: str) -> tuple[YieldEstimate, float | None, float]:
+def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits, so_far: str, seen: dict | None) -> tuple[YieldEstimate, float | None, float]:
     """The estimate, the confirming Monte Carlo's yield (or None) and the yield the verdict uses;
-    ``kinds`` maps the circuit's part references to their kinds.
+    ``kinds`` maps the circuit's part references to their kinds, ``seen`` is estimate_yield's.
 
     The Monte Carlo runs only where it can change the verdict: not when other reasons already
     make the candidate ``not buildable``; when they make it ``marginal``, only near the lower limit.
     """
     tol = part_tolerances_of(kinds, result.chosen, limits)
-    est = estimate_yield(result.analysis.sensitivity, tol, limits)
+    est = estimate_yield(result.analysis.sensitivity, tol, limits, seen=seen)
     if so_far == NOT_BUILDABLE:
         return est, None, est.fraction  # no yield can change the verdict: no Monte Carlo
     edges = (limits.yield_marginal, limits.yield_min) if so_far == BUILDABLE else (limits.yield_min,)
@@ -358,11 +359,19 @@ def _order(reasons: list[Reason]) -> tuple[Reason, ...]:
     return tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
 
 
-def _settled_limits(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
+def _settled_limits(result: DesignResult, limits: VerdictLimits, seen: dict | None = None) -> list[_Crossed]:
     """The limits crossed in judge's checks on numbers a feasible design already has, in judge's
     order: its figures against the design tolerances with the ideal op-amp and with the session's
     op-amp, the resistor and capacitor spread, the parts' range and the required GBW (what
-    :func:`least_verdict` bounds the verdict with); their words are written only when judge asks."""
+    :func:`least_verdict` bounds the verdict with); their words are written only when judge asks.
+    With ``seen`` (judge's), found once per design: a chain's ``auto`` bounds a candidate by
+    :func:`least_verdict` and then judges it."""
+    if seen is not None:
+        key = ("settled", id(result))  # (the designs outlive the dict: one judging's)
+        known = seen.get(key)
+        if known is None:
+            known = seen[key] = _settled_limits(result, limits)
+        return known
     a, topo, tol = result.analysis, result.topology, result.conditions.tolerances
     ranged = _kinds_of(topo.part_kinds)[2]
     crossed = _figure_reasons(result.errors, tol, "", lambda: f"with {result.series} parts and an ideal op-amp,")
@@ -375,7 +384,7 @@ def _settled_limits(result: DesignResult, limits: VerdictLimits) -> list[_Crosse
     return crossed
 
 
-def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, candidate: str | None = None) -> Verdict:
+def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, candidate: str | None = None, seen: dict | None = None) -> Verdict:
     """The verdict of one designed candidate (see the module notes).
 
     Parameters
@@ -386,6 +395,13 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     limits : VerdictLimits
     candidate : str, optional
         The candidate's id (default: its circuit id).
+    seen : dict, optional
+        One dict passed to every judge (and :func:`least_verdict`) of one judging of several
+        candidates (:func:`judge_many`, a chain's ``auto``), for the work they share, made once:
+        the yield estimates of one model, number for number
+        (:func:`bandsmith.verdict.yield_estimate.estimate_yield`'s ``seen``), and a design's
+        limits crossed that :func:`least_verdict` found before (:func:`_settled_limits`). It lives
+        no longer than that judging (its keys hold designs' ids).
 
     Returns
     -------
@@ -402,13 +418,13 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     reasons: list[Reason] = []
     if not a.stable_ideal or a.stable_actual is False:
         reasons.append(Reason("unstable", "; ".join(a.warnings) or "unstable", None, None, NOT_BUILDABLE))
-    reasons += [c.reason() for c in _settled_limits(result, limits)]
+    reasons += [c.reason() for c in _settled_limits(result, limits, seen)]
     reasons += _amp_reasons(result, limits)
     r = _inductor_reason(result, limits) if inductor else None
     if r is not None:
         reasons.append(r)
     so_far = max((r.weight for r in reasons), key=VERDICTS.index, default=BUILDABLE)
-    est, mc, y = _yield(result, parts.kinds, limits, so_far)
+    est, mc, y = _yield(result, parts.kinds, limits, so_far, seen)
     r = _yield_reason(est, mc, y, limits, parts.kind_set)
     if r is not None:
         reasons.append(r)
@@ -418,7 +434,20 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     return Verdict(cid, verdict, ordered, y, est, mc, req if req is not None and math.isfinite(req) else None, count, inductor, result.conditions.gbw_hz)
 
 
-def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits()) -> tuple[str, int]:
+def judge_many(results: Sequence[DesignResult], limits: VerdictLimits = VerdictLimits()) -> tuple[Verdict, ...]:
+    """:func:`judge` of several designs (a compare's candidates; ids are the circuit ids), each
+    the verdict it gets alone.
+
+    The feasible designs' amplifier needs are worked out together first
+    (:func:`bandsmith.analysis.analyzer.requirements_many`: the one-op-amp circuits' output
+    currents in one solve), and candidates whose yield model is the same number for number share
+    one estimate (``seen``)."""
+    requirements_many([r.analysis for r in results if r.feasible and r.analysis is not None])
+    seen: dict = {}
+    return tuple(judge(r, limits, seen=seen) for r in results)
+
+
+def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, seen: dict | None = None) -> tuple[str, int]:
     """The least verdict :func:`judge` can give a design, and the least number of its
     ``not buildable`` reasons, from the checks that need nothing more worked out.
 
@@ -429,7 +458,8 @@ def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits())
     current, inductor, yield) only add reasons, so its verdict is at least this one (in
     ``VERDICTS``' order) and, when both are ``not buildable``, it has at least this many reasons
     of that weight. Lets a caller that wants only the best of several judge the few that can
-    still be best.
+    still be best. ``seen`` as :func:`judge` takes it (the limits found here serve its
+    judge of the same design).
 
     Returns
     -------
@@ -441,7 +471,7 @@ def least_verdict(result: DesignResult, limits: VerdictLimits = VerdictLimits())
     """
     if not result.feasible or result.analysis is None:
         return NOT_BUILDABLE, 1  # judge gives exactly one reason: infeasible
-    weights = [r.weight for r in _settled_limits(result, limits)]
+    weights = [r.weight for r in _settled_limits(result, limits, seen)]
     heavy = weights.count(NOT_BUILDABLE)
     if heavy:
         return NOT_BUILDABLE, heavy

@@ -164,7 +164,10 @@ def _row_sum(values: list[float]) -> float:
     return total
 
 
-def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: Mapping[str, float], limits: VerdictLimits = VerdictLimits()) -> YieldEstimate:
+def estimate_yield(
+    sensitivity: Mapping[str, Mapping[str, float]], tolerances: Mapping[str, float], limits: VerdictLimits = VerdictLimits(),
+    *, seen: dict | None = None,
+) -> YieldEstimate:
     """First-order yield of a candidate (see the module notes).
 
     Parameters
@@ -177,27 +180,40 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
         not vary.
     limits : VerdictLimits
         The yield window.
+    seen : dict, optional
+        A dict the caller passes to every estimate of one judging of several candidates (a
+        compare's): candidates whose model is the same number for number (the same parts,
+        tolerances, sensitivities and window: a compare's Tow–Thomas and Åkerberg–Mossberg on the
+        same parts) share the one estimate, made once (a pure function of those numbers).
 
     Returns
     -------
     YieldEstimate
     """
-    refs = [r for r, t in tolerances.items() if t > 0]
-    p = [float(tolerances[r]) for r in refs]
+    refs, p = [], []
+    for r, t in tolerances.items():
+        if t > 0:
+            refs.append(r)
+            p.append(float(t))
     n_parts = len(refs)
     # the sensitivities, row by row (f0, Q, gain), a non-finite one taken as zero
     flat = [float(row.get(r, 0.0)) for row in (sensitivity.get(k, _NONE) for k in FIGURES) for r in refs]
     if not all(map(math.isfinite, flat)):
         flat = [v if math.isfinite(v) else 0.0 for v in flat]
+    window = (limits.window_f0, limits.window_q, limits.window_gain_db)
+    if seen is not None:
+        key = (tuple(refs), tuple(p), tuple(flat), window)
+        known = seen.get(key)
+        if known is not None:
+            return known
     # each part's share of each figure's log variance, (S·p)²/3, and their sums (in plain numbers:
     # numpy's square and division are the same IEEE operations; a row's sum as numpy sums a row)
     shares_all = [(v * t) * (v * t) / 3.0 for v, t in zip(flat, p * len(FIGURES))]
     contrib = [shares_all[i : i + n_parts] for i in range(0, len(shares_all), n_parts)] if n_parts else [[] for _ in FIGURES]
     totals = [_row_sum(c) for c in contrib]
-    lo, hi = _window(limits.window_f0, limits.window_q, limits.window_gain_db)
+    lo, hi = _window(*window)
     # the figures' log deviations at the fixed points, (3, points); all zero when nothing varies
-    s = np.array(flat).reshape(len(FIGURES), n_parts)
-    x = s @ _log_deviations(tuple(p)) if refs else np.zeros((len(FIGURES), 1))
+    x = np.array(flat).reshape(len(FIGURES), n_parts) @ _log_deviations(tuple(p)) if refs else np.zeros((len(FIGURES), 1))
     inside = x >= lo  # (3, points), all rows at once
     inside &= x <= hi
     every = inside[0] & inside[1]
@@ -217,7 +233,7 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
     else:
         part, share = None, 0.0
     sd = [math.sqrt(t) for t in totals]
-    return YieldEstimate(
+    est = YieldEstimate(
         fraction=fraction,
         sigma={"f0": math.expm1(sd[0]), "q": math.expm1(sd[1]), "gain_db": sd[2] * _DB_PER_NEPER},
         within=dict(zip(FIGURES, within)),
@@ -225,6 +241,9 @@ def estimate_yield(sensitivity: Mapping[str, Mapping[str, float]], tolerances: M
         part=part,
         share=share,
     )
+    if seen is not None:
+        seen[key] = est
+    return est
 
 
 def confirm_yield(netlist: Netlist, tolerances: Mapping[str, float], limits: VerdictLimits = VerdictLimits(), *, trials: int | None = None, seed: int | None = None) -> float:
