@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import numpy as np
 from PySide6 import QtCore
 
 from bandsmith.app.window.prompts import Prompter
@@ -90,9 +91,8 @@ def chain_pane(qtbot, state, wait_ms: int = 30_000, **kw):
     return p
 
 
-def _pixels(image) -> "np.ndarray":
+def _pixels(image) -> np.ndarray:
     """The image's pixels as a (height, width) array of 32-bit ARGB values."""
-    import numpy as np
     from PySide6 import QtGui
 
     if isinstance(image, QtGui.QPixmap):

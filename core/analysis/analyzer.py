@@ -427,7 +427,10 @@ def requirements(
     """
     if gbw_search is None:
         gbw_search = required_gbw(netlist, ideal, a0=a0, tolerances=tolerances)
-    return _requirements(netlist, netlist.opamps, _f0_and_gain(ideal), step_slope_per_s, Drive(vin_v, a0, rload_ohm, tolerances), gbw_search, h_ideal)
+    return _requirements(netlist, netlist.opamps, ideal.scalars(_F0_AND_GAIN), step_slope_per_s, Drive(vin_v, a0, rload_ohm, tolerances), gbw_search, h_ideal)
+
+
+_F0_AND_GAIN = ("f0_hz", "gain_center")  # what the requirements read of the ideal figures
 
 
 def requirements_many(analyses: Sequence[Analysis]) -> list[Requirements]:
@@ -443,7 +446,7 @@ def requirements_many(analyses: Sequence[Analysis]) -> list[Requirements]:
     under 10 µs of some 160 µs for four circuits, and cost a lone circuit more.
     """
     todo = [a for a in analyses if a._requirements is None]
-    made = [_f0_and_gain(a.ideal) for a in todo]
+    made = [a.ideal.scalars(_F0_AND_GAIN) for a in todo]
     amps = [a.netlist.opamps for a in todo]
     ones = [k for k, ((f0, _), opamps) in enumerate(zip(made, amps)) if len(opamps) <= 1 and math.isfinite(f0)]
     currents: dict[int, float] = {}  # position in todo -> its output current per volt, solved together
@@ -457,15 +460,8 @@ def requirements_many(analyses: Sequence[Analysis]) -> list[Requirements]:
     return [a._requirements for a in analyses]
 
 
-def _f0_and_gain(ideal: Figures) -> tuple[float, float]:
-    """Member 0's f0 (Hz) and centre gain as floats (the numbers of :meth:`Figures.item`)."""
-    return tuple(v.item(0) if type(v) is np.ndarray and v.dtype == np.float64 else
-                 float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(0))
-                 for v in (ideal.f0_hz, ideal.gain_center))
-
-
 def _requirements(
-    netlist: Netlist, opamps: tuple[Element, ...], f0_gain: tuple[float, float], step_slope_per_s: float, drive: Drive,
+    netlist: Netlist, opamps: tuple[Element, ...], f0_gain: Sequence[float], step_slope_per_s: float, drive: Drive,
     gbw_search: tuple[float | None, str | None], h_ideal: Rational | None, current: float | None = None,
 ) -> Requirements:
     """:func:`requirements` from the netlist's op-amps (``netlist.opamps``), the reference f0 (Hz)

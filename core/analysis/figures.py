@@ -78,11 +78,13 @@ class Figures:
 
     def item(self, i: int = 0) -> "Figures":
         """Member ``i`` as scalars (floats)."""
-        values = (self.f0_hz, self.q, self.bw_hz, self.f_low_hz, self.f_high_hz, self.gain_center,
-                  self.gain_center_db, self.phase_center_deg)
-        if all(type(v) is np.ndarray and v.dtype == np.float64 for v in values):
-            return Figures(*[v.item(i) for v in values])  # (flat index; a float64's item is a float)
-        return Figures(*[float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)) for v in values])
+        return Figures(*_floats((self.f0_hz, self.q, self.bw_hz, self.f_low_hz, self.f_high_hz, self.gain_center,
+                                 self.gain_center_db, self.phase_center_deg), i))
+
+    def scalars(self, names: Sequence[str], i: int = 0) -> list[float]:
+        """Member ``i``'s figures ``names`` as floats (those of :meth:`item`; a caller that reads a
+        few builds no :class:`Figures`)."""
+        return _floats([getattr(self, name) for name in names], i)
 
     def to_json(self, i: int = 0) -> dict:
         """The README's FIGURES object for member ``i`` (None where a figure is undefined): the
@@ -106,6 +108,13 @@ def defined(f0_hz, q, gain_center_db) -> np.ndarray | bool:
 
 
 _FIELDS = tuple(f.name for f in fields(Figures))
+
+
+def _floats(values: Sequence, i: int) -> list[float]:
+    """Member ``i`` of each figure (an array, or a float for a batch of one) as a float."""
+    if all(type(v) is np.ndarray and v.dtype == np.float64 for v in values):
+        return [v.item(i) for v in values]  # (flat index; a float64's item is a float)
+    return [float(v) if isinstance(v, (float, int)) else float(np.asarray(v).item(i)) for v in values]
 
 
 @functools.lru_cache(maxsize=None)
