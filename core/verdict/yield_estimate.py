@@ -28,6 +28,9 @@ evaluated, only the linear model above. A normal approximation of the three log 
 (covariance ``Σ_i S_i(a)·S_i(b)·p_i²/3``) would agree where many parts contribute (central limit
 theorem) but overstates the yield by 11 points where one part dominates (one uniform part
 with ``w = p/2``: normal 61 %, exact 50 %), which is why the uniform law is integrated instead.
+A figure whose largest deviation at any point, ``Σ_i |S_i|·max_u |ln(1 + p_i·u)|`` (the
+triangle inequality; with a margin of 1e-9 for the product's rounding), lies inside its window
+stays inside at every point: it is not evaluated (in a compare, Q and the gain mostly are not).
 
 Confirmation
 ------------
@@ -74,6 +77,27 @@ def _log_deviations(p: tuple[float, ...]) -> np.ndarray:
     d = np.log1p(np.array(p)[:, None] * _points(len(p)))
     d.setflags(write=False)
     return d
+
+
+@functools.lru_cache(maxsize=64)
+def _reach(p: tuple[float, ...]) -> list[float]:
+    """Each part's largest ``|ln(1 + p_i·u)|`` over the fixed points (cached: tolerances repeat)."""
+    return np.abs(_log_deviations(p)).max(axis=1).tolist()
+
+
+@functools.lru_cache(maxsize=16)
+def _inner_edges(window_f0: float, window_q: float, window_gain_db: float) -> list[float]:
+    """The yield window's nearer end from zero in log units, per figure (f0, Q, gain)."""
+    lo, hi = _window(window_f0, window_q, window_gain_db)
+    return [min(-a, b) for a, b in zip(lo[:, 0].tolist(), hi[:, 0].tolist())]
+
+
+def _dot_abs(values: list[float], weights: list[float]) -> float:
+    """``Σ |v|·w`` of two short lists (a bound: its rounding is covered by the caller's margin)."""
+    total = 0.0
+    for v, w in zip(values, weights):
+        total += abs(v) * w
+    return total
 
 
 @functools.lru_cache(maxsize=16)
@@ -212,15 +236,27 @@ def estimate_yield(
     contrib = [shares_all[i : i + n_parts] for i in range(0, len(shares_all), n_parts)] if n_parts else [[] for _ in FIGURES]
     totals = [_row_sum(c) for c in contrib]
     lo, hi = _window(*window)
-    # the figures' log deviations at the fixed points, (3, points); all zero when nothing varies
-    x = np.array(flat).reshape(len(FIGURES), n_parts) @ _log_deviations(tuple(p)) if refs else np.zeros((len(FIGURES), 1))
-    inside = x >= lo  # (3, points), all rows at once
-    inside &= x <= hi
-    every = inside[0] & inside[1]
-    every &= inside[2]
-    n = x.shape[1]
-    fraction = np.count_nonzero(every) / n
-    within = [np.count_nonzero(row) / n for row in inside]  # row by row: contiguous, quicker than axis=1
+    # the figures that can leave their window: one whose largest deviation at any point,
+    # Σ_i |S_i|·max|ln(1 + p_i·u)| (triangle inequality), lies inside it with a margin for the
+    # product's rounding stays inside at every point, and its row is not formed (all inside)
+    reach, inner = _reach(tuple(p)), _inner_edges(*window)
+    rows = [f for f in range(len(FIGURES))
+            if not _dot_abs(flat[f * n_parts : (f + 1) * n_parts], reach) * (1.0 + 1e-9) < inner[f]]
+    within = [1.0] * len(FIGURES)
+    fraction = 1.0
+    if rows:
+        # their log deviations at the fixed points, (rows, points), and where they are inside
+        s = np.array(flat).reshape(len(FIGURES), n_parts)
+        x = (s if len(rows) == len(FIGURES) else s[rows]) @ _log_deviations(tuple(p))
+        inside = x >= lo[rows]
+        inside &= x <= hi[rows]
+        every = inside[0]
+        for row in inside[1:]:
+            every = every & row
+        n = x.shape[1]
+        fraction = np.count_nonzero(every) / n
+        for f, row in zip(rows, inside):  # row by row: contiguous, quicker than axis=1
+            within[f] = np.count_nonzero(row) / n
     k = min(range(len(FIGURES)), key=within.__getitem__) if refs else 0  # the first of the least, as argmin
     total = totals[k]
     if refs and total > 0:
