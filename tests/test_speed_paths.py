@@ -947,6 +947,50 @@ def test_choose_level_centre_from_the_extreme_resistors_equals_the_row_reduction
         assert choose_level(unit, kinds, ref_c, series) == _choose_level_by_rows(unit, kinds, ref_c, series)
 
 
+def test_choose_level_near_the_minimum_is_the_level_of_every_level_weighed():
+    """choose_level looks first at the two levels around its cost's continuous minimum (the cost
+    is convex in log10 of the level: a sum of distances to intervals and of |t − t_c|); where it
+    decides, it is the argmin of the costs of every level, first of equals (numpy.argmin), over
+    random designs of every mix of kinds and four series; and on exact ties built on purpose (the
+    resistors' centre midway between two levels) it leaves the choice to every level's costs.
+    Convexity of a sum of convex functions: Boyd & Vandenberghe, Convex Optimization (2004),
+    3.2.1; the rest a consistency check of our own two forms."""
+    import math
+
+    from bandsmith.circuits import synthesis
+
+    rng = np.random.default_rng(23)
+    mixes = ["RRRCC", "RRRRRRCC", "RLC", "RRCCL", "RC", "RRLC"]
+    decided = 0
+    for trial in range(6000):
+        mix = mixes[trial % len(mixes)]
+        refs = [f"{k}{i}" for i, k in enumerate(mix)]
+        unit = {r: float(10.0 ** rng.uniform(-9, 9)) for r in refs}
+        if trial % 5 == 0:  # equal resistors
+            first_r = next(r for r in refs if r[0] == "R")
+            unit.update({r: unit[first_r] for r in refs if r[0] == "R"})
+        ref_c = next(r for r in refs if r[0] == "C")
+        cs = synthesis.capacitor_series(("E3", "E6", "E24", "E96", "E192")[trial % 5])
+        caps, log_caps = synthesis._level_capacitors(cs)
+        parts = [(v, r[0]) for r, v in unit.items()]
+        every = int(synthesis._level_costs(parts, log_caps - math.log10(unit[ref_c])).argmin())
+        near = synthesis._level_near_minimum(parts, synthesis._level_capacitor_logs(cs), math.log10(unit[ref_c]))
+        assert near is None or near == every
+        decided += near is not None
+    assert decided > 5900
+    caps, log_caps = synthesis._level_capacitors("E6")
+    undecided = 0
+    for k in range(10, 70):
+        unit = {"R1": 10.0 ** (4.0 + 0.5 * (log_caps[k] + log_caps[k + 1])), "C1": 1.0}
+        parts = [(unit["R1"], "R"), (1.0, "C")]
+        every = int(synthesis._level_costs(parts, log_caps - 0.0).argmin())
+        near = synthesis._level_near_minimum(parts, synthesis._level_capacitor_logs("E6"), 0.0)
+        assert near is None or near == every
+        undecided += near is None
+        assert synthesis.choose_level(unit, {"R1": "R", "C1": "C"}, "C1", "E24") == float(caps[every])
+    assert undecided > 0
+
+
 def test_the_crossing_cubics_add_the_basis_terms_in_order():
     """The required-GBW search evaluates every candidate's interpolating cubics in one einsum
     (gbw_search._crossings); einsum's own loop adds the four basis terms in order, so each
