@@ -348,6 +348,44 @@ def test_stacked_search_rationals_equal_each_batch_alone(circuit):
             assert_array_equal(mine.w_ref, ref.w_ref)
 
 
+@pytest.mark.parametrize("series", ["E12", "E24", "E96"])
+def test_search_rationals_made_together_equal_each_made_alone(series):
+    """_combination_searches of every circuit at several targets in one call (their coefficients
+    taken to p = s/w_ref and scaled as one joined batch, standard._scaled_searches; the searches
+    of one circuit stacked) against the call of each circuit at each target alone: the same
+    coefficients and w_ref bit for bit, and _joined_rows (the joined batch's rows, a view) equal
+    to Rational.joined of the searches' own. A consistency check of our own two paths, no
+    outside source."""
+    from bandsmith.analysis.tolerances import Tolerances
+    from bandsmith.circuits import all_topologies
+    from bandsmith.circuits.synthesis import Infeasible
+    from bandsmith.design import standard
+    from bandsmith.design.designer import Spec
+    from bandsmith.solver.rational import Rational
+
+    items = []
+    for f0, q, gain in ((3.3e3, 4.0, 3.0), (38e3, 1.3, 1.5), (44e3, 2.6, 2.0), (120.0, 9.0, 0.5)):
+        spec = Spec(f0, q, gain)
+        for topo in all_topologies():
+            try:
+                exact = topo.values_from(dict(topo.synthesize(spec, {}, series=series)))
+            except Infeasible:
+                continue
+            items.append((topo, exact, spec, series, (), Tolerances(), 1 + (f0 > 1e4)))
+    with np.errstate(all="ignore"):
+        together = standard._combination_searches(items)
+        alone = [standard._combination_searches([item])[0] for item in items]
+    for mine, ref in zip(together, alone):
+        assert_array_equal(mine.h.num, ref.h.num)
+        assert_array_equal(mine.h.den, ref.h.den)
+        assert_array_equal(mine.h.w_ref, ref.h.w_ref)
+    for part in (together, together[3:9], together[::2]):
+        rows, joined = standard._joined_rows(part), Rational.joined([m.h for m in part])
+        assert_array_equal(rows.num, joined.num)
+        assert_array_equal(rows.den, joined.den)
+        assert_array_equal(rows.w_ref, joined.w_ref)
+
+
 @pytest.mark.parametrize("circuit", sorted(topology_ids()))
 def test_search_expansion_is_the_netlists_own(circuit):
     """standard._search_expansion (a circuit's kept expansion and its variables' names made once

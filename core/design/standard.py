@@ -31,7 +31,7 @@ import numpy as np
 
 from bandsmith.analysis.analyzer import Tolerances, transfer_function
 from bandsmith.common.eseries import search_option_lists, search_options
-from bandsmith.solver.expansion import SMALL_BATCH, Expansion, ExpansionUnavailable, unit_expansion, unit_expansion_values
+from bandsmith.solver.expansion import SMALL_BATCH, Expansion, ExpansionUnavailable, _row_abs_max, unit_expansion, unit_expansion_values
 from bandsmith.analysis.figures import Figures, biquad_peak_figures, measure, measure_many
 from bandsmith.circuits.synthesis import Spec, search_grid
 from bandsmith.solver.rational import Rational
@@ -290,9 +290,26 @@ def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
     the numbers of :func:`~bandsmith.analysis.figures.measure_many`'s closed form without the band
     edges and the phase; a combination with no peak is not stable and costs inf either way); None
     where a combination is of another shape."""
-    h = searches[0].h if len(searches) == 1 else Rational.joined([m.h for m in searches])
+    h = searches[0].h if len(searches) == 1 else _joined_rows(searches)
     peaks = biquad_peak_figures(h)
     return None if peaks is None else _joined_costs(searches, *peaks, h.den)
+
+
+def _joined_rows(searches: list[_Search]) -> Rational:
+    """The searches' transfer functions in one batch: :meth:`Rational.joined` of them, or the rows
+    of the batch they were made in where they are its consecutive rows (a view: the same numbers,
+    as no padding is needed among transfer functions of one width)."""
+    first = searches[0].within
+    if first is not None:
+        joined, start = first
+        at = start
+        for m in searches:
+            if m.within is None or m.within[0] is not joined or m.within[1] != at:
+                break
+            at += m.h.batch
+        else:
+            return joined if start == 0 and at == joined.batch else joined.take(slice(start, at))
+    return Rational.joined([m.h for m in searches])
 
 
 def _same_width(made: list, live: list[int]) -> list[list[int]]:
@@ -351,6 +368,8 @@ class _Search:
     h: Rational
     spec: Spec
     tolerances: Tolerances
+    # the joined batch whose rows from ``start`` are ``h`` (``(joined, start)``), or None
+    within: tuple[Rational, int] | None = None
 
     def choice(self, cost: np.ndarray) -> Choice:
         """The combination of least cost (the last member, every part rounded alone, only compared)."""
@@ -398,18 +417,62 @@ def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
             continue
         entries = _log_entries(made.flat, own, _log_plan(exp, made.free, made.sizes))
         stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, entries))
+    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray]]] = {}
     for (exp, free, sizes), group in stacks.items():
         gather = _log_plan(exp, free, sizes)[2]
         if len(group) == 1:
-            _, made, entries = group[0]
-            hs = [exp.rational_log(np.log(entries)[gather], w_ref=made.spec.w0)]
+            num, den = exp.dense_log(np.log(group[0][2])[gather])
         else:  # one log of every member's entries, one gather of their rows (the stack's batch g at g · entries)
             logs = np.log(np.concatenate([entries for _, _, entries in group]))
-            stacked = logs[gather + _stack_offsets(len(group), group[0][2].size)]
-            hs = exp.rational_log_stacked(stacked, [made.spec.w0 for _, made, _ in group])
-        for (k, made, _), h in zip(group, hs):
-            out[k] = made.search(h)
+            num, den = exp.dense_log(logs[gather + _stack_offsets(len(group), group[0][2].size)])
+            num, den = num.reshape(-1, num.shape[-1]), den.reshape(-1, den.shape[-1])  # (each batch's rows in turn)
+        by_widths.setdefault((num.shape[1], den.shape[1]), []).append((exp, group, num, den))
+    for blocks in by_widths.values():
+        _scaled_searches(blocks, out)
     return out
+
+
+def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]], out: list) -> None:
+    """The searches of ``blocks`` made into :class:`_Search` es, placed in ``out``. Each block is
+    ``(exp, group, num, den)``: a stack's searches (``group``, as ``(k, setup, entries)`` with
+    ``k`` the place in ``out``) and the dense coefficients of their combinations in the
+    expansion's ``p`` (:meth:`~bandsmith.solver.expansion.Expansion.dense_log`, the searches'
+    rows in turn), every block of one width. Their transfer functions are those
+    :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
+    bit, from one set of array calls for all the blocks (a compare's seven circuits).
+
+    Each step is rational_log's, member by member: the change of variable to ``p = s/w_ref``
+    multiplies the coefficients of a search by the powers of its own ``k = w_ref/w_e`` (the same
+    ``k ** arange`` of the same two numbers, made once per distinct ``k``; a product by 1 where
+    the expansion's ``w_e`` is kept, which is exact), and each member is divided by its largest
+    denominator coefficient in size (a maximum rounds nothing; the same quotients). The
+    searches' transfer functions are views of the joined batch, which :func:`_peak_costs` takes
+    whole where it costs these searches together."""
+    num = blocks[0][2] if len(blocks) == 1 else np.concatenate([n for _, _, n, _ in blocks])
+    den = blocks[0][3] if len(blocks) == 1 else np.concatenate([d for _, _, _, d in blocks])
+    searches = [(k, made, exp) for exp, group, _, _ in blocks for k, made, _ in group]
+    sizes = [_flat_combination_index(made.sizes).shape[1] for _, made, _ in searches]
+    ks = [1.0 if made.spec.w0 == exp.w_ref else made.spec.w0 / exp.w_ref for _, made, exp in searches]
+    distinct = list(dict.fromkeys(ks))
+    if distinct != [1.0]:
+        for c in (num, den):
+            powers = [k ** np.arange(c.shape[1] - 1, -1, -1.0) for k in distinct]
+            if len(distinct) == 1:
+                c *= powers[0]
+            else:
+                at = {k: i for i, k in enumerate(distinct)}
+                c *= np.repeat(np.array(powers)[[at[k] for k in ks]], sizes, axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        scale = _row_abs_max(den)
+        num, den = num / scale, den / scale
+    w0s = [made.spec.w0 for _, made, _ in searches]
+    w_ref = np.full(num.shape[0], float(w0s[0])) if len(set(w0s)) == 1 else np.repeat(np.array(w0s, dtype=float), sizes)
+    joined = Rational(num, den, w_ref)
+    start = 0
+    for (k, made, _), size in zip(searches, sizes):
+        stop = start + size
+        out[k] = made.search(Rational(num[start:stop], den[start:stop], w_ref[start:stop]), (joined, start))
+        start = stop
 
 
 def _stack_offsets(g: int, n: int) -> np.ndarray:
@@ -481,9 +544,11 @@ class _Setup:
     spec: Spec
     tolerances: Tolerances
 
-    def search(self, h: Rational) -> _Search:
-        """The search with the transfer functions ``h`` of its combinations."""
-        return _Search(self.values, list(self.free), self.flat, _flat_combination_index(self.sizes), h, self.spec, self.tolerances)
+    def search(self, h: Rational, within: tuple[Rational, int] | None = None) -> _Search:
+        """The search with the transfer functions ``h`` of its combinations (rows of the joined
+        batch ``within[0]`` from ``within[1]`` on, if given)."""
+        return _Search(self.values, list(self.free), self.flat, _flat_combination_index(self.sizes), h, self.spec,
+                       self.tolerances, within)
 
 
 def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
