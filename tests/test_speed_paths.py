@@ -353,8 +353,8 @@ def test_search_rationals_made_together_equal_each_made_alone(series):
     """_combination_searches of every circuit at several targets in one call (their coefficients
     taken to p = s/w_ref and scaled as one joined batch, standard._scaled_searches; the searches
     of one circuit stacked) against the call of each circuit at each target alone: the same
-    coefficients and w_ref bit for bit, and _joined_rows (the joined batch's rows, a view) equal
-    to Rational.joined of the searches' own. A consistency check of our own two paths, no
+    coefficients and w_ref bit for bit, and _joined_rows (the joined batch's rows, a view, with
+    the searches' order in it) equal to Rational.joined of the searches' own in that order. A consistency check of our own two paths, no
     outside source."""
     from bandsmith.analysis.tolerances import Tolerances
     from bandsmith.circuits import all_topologies
@@ -379,8 +379,10 @@ def test_search_rationals_made_together_equal_each_made_alone(series):
         assert_array_equal(mine.h.num, ref.h.num)
         assert_array_equal(mine.h.den, ref.h.den)
         assert_array_equal(mine.h.w_ref, ref.h.w_ref)
-    for part in (together, together[3:9], together[::2]):
-        rows, joined = standard._joined_rows(part), Rational.joined([m.h for m in part])
+    for part in (together, together[3:9], together[::2], together[9:2:-1]):
+        rows, order = standard._joined_rows(part)
+        joined = Rational.joined([part[i].h for i in order])
+        assert sorted(order) == list(range(len(part)))
         assert_array_equal(rows.num, joined.num)
         assert_array_equal(rows.den, joined.den)
         assert_array_equal(rows.w_ref, joined.w_ref)

@@ -290,44 +290,53 @@ def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
     the numbers of :func:`~bandsmith.analysis.figures.measure_many`'s closed form without the band
     edges and the phase; a combination with no peak is not stable and costs inf either way); None
     where a combination is of another shape."""
-    h = searches[0].h if len(searches) == 1 else _joined_rows(searches)
+    h, order = (searches[0].h, [0]) if len(searches) == 1 else _joined_rows(searches)
     peaks = biquad_peak_figures(h)
-    return None if peaks is None else _joined_costs(searches, *peaks, h.den)
+    if peaks is None:
+        return None
+    out = [None] * len(searches)
+    for i, cost in zip(order, _joined_costs([searches[i] for i in order], *peaks, h.den)):
+        out[i] = cost
+    return out
 
 
 def _in_p_columns(c: np.ndarray, ks: list[float], sizes: list[int]) -> list[np.ndarray]:
-    """The columns of joined dense coefficients ``c`` (highest power first), each search's rows
-    (``sizes`` of them, in turn) taken to ``p = s/w_ref`` by its ``k`` of ``ks``: column ``j``
-    times ``k`` to the power ``n − 1 − j``, those powers ``k ** arange(n − 1, −1, −1.0)`` as
-    :meth:`~bandsmith.solver.expansion.Expansion.rational_log` makes them (once per distinct
-    ``k``); the columns themselves where every ``k`` is 1 (no change of variable)."""
+    """The columns of joined dense coefficients ``c`` (highest power first), each contiguous,
+    each search's members (``sizes`` of them, in turn) taken to ``p = s/w_ref`` by its ``k`` of
+    ``ks``: column ``j`` times ``k`` to the power ``n − 1 − j``, those powers
+    ``k ** arange(n − 1, −1, −1.0)`` as :meth:`~bandsmith.solver.expansion.Expansion.rational_log`
+    makes them (once per distinct ``k``); copies of the columns where every ``k`` is 1 (no change
+    of variable)."""
     distinct = list(dict.fromkeys(ks))
     n = c.shape[1]
     if distinct == [1.0]:
-        return [c[:, j] for j in range(n)]
+        return [c[:, j].copy() for j in range(n)]
     powers = [k ** np.arange(n - 1, -1, -1.0) for k in distinct]
     if len(distinct) == 1:
         return [c[:, j] * powers[0][j] for j in range(n)]
     at = {k: i for i, k in enumerate(distinct)}
-    per_row = np.repeat(np.array(powers)[[at[k] for k in ks]], sizes, axis=0).T  # (n, rows)
-    return [c[:, j] * per_row[j] for j in range(n)]
+    table = np.array(powers)[[at[k] for k in ks]].T  # (n, searches)
+    return [c[:, j] * np.repeat(table[j], sizes) for j in range(n)]
 
 
-def _joined_rows(searches: list[_Search]) -> Rational:
-    """The searches' transfer functions in one batch: :meth:`Rational.joined` of them, or the rows
-    of the batch they were made in where they are its consecutive rows (a view: the same numbers,
-    as no padding is needed among transfer functions of one width)."""
+def _joined_rows(searches: list[_Search]) -> tuple[Rational, list[int]]:
+    """The searches' transfer functions in one batch, and the searches' positions in the order
+    of its rows: the batch they were made in (its rows from the first of them on, a view) where
+    together they are consecutive rows of it, in any order, else :meth:`Rational.joined` of them
+    in their order (the same numbers either way: no padding is needed among transfer functions
+    of one width)."""
     first = searches[0].within
-    if first is not None:
-        joined, start = first
-        at = start
-        for m in searches:
-            if m.within is None or m.within[0] is not joined or m.within[1] != at:
+    if first is not None and all(m.within is not None and m.within[0] is first[0] for m in searches):
+        joined = first[0]
+        order = sorted(range(len(searches)), key=lambda i: searches[i].within[1])
+        start = at = searches[order[0]].within[1]
+        for i in order:
+            if searches[i].within[1] != at:
                 break
-            at += m.h.batch
+            at += searches[i].h.batch
         else:
-            return joined if start == 0 and at == joined.batch else joined.take(slice(start, at))
-    return Rational.joined([m.h for m in searches])
+            return (joined if start == 0 and at == joined.batch else joined.take(slice(start, at))), order
+    return Rational.joined([m.h for m in searches]), list(range(len(searches)))
 
 
 def _same_width(made: list, live: list[int]) -> list[list[int]]:
@@ -464,8 +473,9 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]
     ``k ** arange`` of the same two numbers, made once per distinct ``k``; a product by 1 where
     the expansion's ``w_e`` is kept, which is exact), and each member is divided by its largest
     denominator coefficient in size (a maximum rounds nothing; the same quotients). Those steps
-    go column by column (numpy loops slowly along rows of two or three coefficients: a tenth of
-    the time), into column-major arrays, whose columns the closed form then reads whole. The
+    go column by column (numpy loops slowly along rows of two or three coefficients, a tenth of
+    the speed), each column made contiguous by the first, into column-major arrays, whose
+    columns the closed form then reads whole. The
     searches' transfer functions are views of the joined batch, which :func:`_peak_costs` takes
     whole where it costs these searches together."""
     num = blocks[0][2] if len(blocks) == 1 else np.concatenate([n for _, _, n, _ in blocks])
@@ -474,11 +484,12 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]
     sizes = [made.combinations for _, made, _ in searches]
     ks = [1.0 if made.spec.w0 == exp.w_ref else made.spec.w0 / exp.w_ref for _, made, exp in searches]
     num_cols, den_cols = _in_p_columns(num, ks, sizes), _in_p_columns(den, ks, sizes)
-    # column by column (numpy loops slowly along rows of two or three): the rows' largest
-    # coefficient in size, then every coefficient over it, into column-major arrays
+    # column by column (numpy loops slowly along rows of two or three), contiguous: the rows'
+    # largest coefficient in size, then every coefficient over it, into column-major arrays
     scale = np.abs(den_cols[0])
+    size = np.empty_like(scale)
     for c in den_cols[1:]:
-        np.maximum(scale, np.abs(c), out=scale)
+        np.maximum(scale, np.abs(c, out=size), out=scale)
     num = np.empty(num.shape, order="F")
     den = np.empty(den.shape, order="F")
     with np.errstate(invalid="ignore", divide="ignore"):
