@@ -232,51 +232,50 @@ def _level_near_minimum(parts: list[tuple[float, str]], log_caps: list[float], l
     the next. So the level of least cost is one of the two around that minimum (the one level at
     an end where the minimum lies beyond it), ahead of every other by far more than any rounding
     (a minimum within rounding of a level, where its bisection may go either way, has that level
-    in both pairs): the costs of those two levels (the same operations as :func:`_level_costs`,
-    summed in plain floats) decide where the least is ahead of the other by
-    :data:`_LEVEL_MARGIN`, else (a near tie, which the order of rounding might settle either way)
-    None. None also without resistors (the cost may then be flat over
+    in both pairs): the costs of those two levels, as the distances to the intervals and to
+    ``t_c`` in plain floats (within a few units in the last place of :func:`_level_costs`' for
+    the same level), decide where the least is ahead of the other by :data:`_LEVEL_MARGIN`, else
+    (a near tie, which the order of rounding might settle either way) None. None also without resistors (the cost may then be flat over
     several levels, where the first wins) or with a value that is not finite."""
-    weights = {"C": 1.0, "R": 1.0, "L": 2.0}
+    windows = []  # (a_i, b_i, w_i)
     events = []
     resistors = []
-    logs = []
     total = 0.0
     for v, kind in parts:
         lv = math.log10(v)
         if not math.isfinite(lv):
             return None
         lo, hi = _PREFERRED_LOG10[kind]
-        a, b = (lo - lv, hi - lv) if kind == "C" else (lv - hi, lv - lo)
-        w = weights[kind]
-        events.append((a, w))
-        events.append((b, w))
+        if kind == "C":
+            a, b, w = lo - lv, hi - lv, 1.0
+        else:
+            a, b, w = lv - hi, lv - lo, 2.0 if kind == "L" else 1.0
+            if kind == "R":
+                resistors.append(lv)
+        windows.append((a, b, w))
+        events += ((a, w), (b, w))
         total += w
-        logs.append((lv, kind, lo, hi, w))
-        if kind == "R":
-            resistors.append(lv)
     if not resistors:
         return None
-    r_min, r_max = min(resistors), max(resistors)
-    log_centre = math.log10(R_CENTRE_OHM)
-    events.append((0.5 * (r_min + r_max) - log_centre, 0.1))
+    t_c = 0.5 * (min(resistors) + max(resistors)) - math.log10(R_CENTRE_OHM)
+    events.append((t_c, 0.1))
     events.sort()
     slope = -total - 0.05
     for t_min, rise in events:
         slope += rise
         if slope > 0.0:
             break
-    n = len(log_caps)
     j = bisect.bisect_left(log_caps, t_min + log_unit)
     best = second = math.inf
     at = None
-    for k in range(max(j - 1, 0), min(j + 1, n)):
+    for k in range(max(j - 1, 0), min(j + 1, len(log_caps))):
         t = log_caps[k] - log_unit
-        cost = 0.0
-        for lv, kind, lo, hi, w in logs:
-            lx = lv + t if kind == "C" else lv + -t
-            cost += w * max(lo - lx, lx - hi, 0.0)
-        cost += 0.05 * abs(0.5 * ((r_min - t) + (r_max - t)) - log_centre)
+        cost = 0.05 * abs(t - t_c)
+        for a, b, w in windows:
+            if t < a:
+                cost += w * (a - t)
+            elif t > b:
+                cost += w * (t - b)
         if cost < best:
             best, second, at = cost, best, k
         elif cost < second:

@@ -427,8 +427,10 @@ def _choose_parts(targets: list[tuple[list, Spec, Conditions]], series: str, wid
             for i in todo:
                 made[i] = _Prepared(made[i], None, Candidate(made[i].topology.id, dict(made[i].exact)))
         return
+    # (without a source resistance to absorb, each exact design is values_from's: _prepare)
+    checked = all(conditions.rsource_ohm is None for _, _, conditions in targets)
     chosen = choose_standard_groups([[(made[i].topology, made[i].exact, spec, series, tuple(made[i].pins), conditions.tolerances, width)
-                                      for i in todo] for (made, spec, conditions), todo in zip(targets, todos)])
+                                      for i in todo] for (made, spec, conditions), todo in zip(targets, todos)], checked=checked)
     for (made, spec, conditions), todo, choices in zip(targets, todos, chosen):
         for i, choice in zip(todo, choices):
             m = made[i]

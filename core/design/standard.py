@@ -234,15 +234,17 @@ def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
     return choose_standard_groups([items])[0]
 
 
-def choose_standard_groups(groups: Sequence[Sequence[tuple]]) -> list[list[Choice]]:
+def choose_standard_groups(groups: Sequence[Sequence[tuple]], *, checked: bool = False) -> list[list[Choice]]:
     """:func:`choose_standard_many` of each group of items (a chain's stages, each with its
     circuits), the same choices: where the closed form serves every group that
     choose_standard_many would cost by it, their costs come from one closed-form batch over all
     of them. The closed form's operations are element by element (each member's costs the same
     numbers in any batch), and a joined batch takes it only where each group alone would (every
-    member of the joined batch a second-order band-pass); else each group is costed as alone."""
+    member of the joined batch a second-order band-pass); else each group is costed as alone.
+    ``checked``: every item's exact values are :meth:`Topology.values_from`'s already (a
+    design's), so they are taken as they are instead of validated again."""
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
-        every = iter(_combination_searches([item for items in groups for item in items]))
+        every = iter(_combination_searches([item for items in groups for item in items], checked=checked))
         made = [[next(every) for _ in items] for items in groups]
         lives = [[i for i, m in enumerate(ms) if isinstance(m, _Search)] for ms in made]
         peaked = [g for g, (ms, live) in enumerate(zip(made, lives))
@@ -412,7 +414,7 @@ class _Search:
         )
 
 
-def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
+def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> list[Choice | _Search]:
     """Each circuit's combinations of standard values and their transfer functions
     (:class:`_Search`), or its :class:`Choice` at once when no part is free, of each item
     ``(topology, exact, spec, series, keep, tolerances, width)``. Floating-point warnings are the
@@ -428,11 +430,12 @@ def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
     circuit) are made in one stacked batch
     (:meth:`~bandsmith.solver.expansion.Expansion.rational_log_stacked`, each batch's numbers as
     alone), from one logarithm of all their flat entries and one gather. Where the expansion does
-    not apply, or a batch is past its small-batch products, :func:`_combinations`."""
+    not apply, or a batch is past its small-batch products, :func:`_combinations`. ``checked``
+    as :func:`choose_standard_groups` takes it."""
     out: list = [None] * len(items)
     stacks: dict[tuple, list[tuple[int, _Setup, np.ndarray]]] = {}
     for k, item in enumerate(items):
-        made = _search_setup(*item)
+        made = _search_setup(*item, checked=checked)
         if isinstance(made, Choice):
             out[k] = made
             continue
@@ -588,10 +591,11 @@ class _Setup:
 
 
 def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
-                  tolerances: Tolerances, width: int) -> Choice | _Setup:
+                  tolerances: Tolerances, width: int, *, checked: bool = False) -> Choice | _Setup:
     """A search up to its transfer functions (:class:`_Setup`), or the :class:`Choice` at once
-    when no part is free."""
-    values = topology.values_from(exact)
+    when no part is free; ``exact`` taken as it is where ``checked`` (:meth:`Topology.values_from`'s
+    already), else validated and completed by it."""
+    values = exact if checked else topology.values_from(exact)
     free, groups = _free_parts(topology.part_kinds, keep, series)
     if not free:
         h = transfer_function(topology.build(values), w_ref=spec.w0)
