@@ -464,11 +464,14 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
     by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray]]] = {}
     for (exp, free, sizes), group in stacks.items():
         gather = _log_plan(exp, free, sizes)[2]
+        # one log of every member's entries, one gather of their rows (the stack's batch g at g · entries);
+        # where every offered value's log is finite, so is every combination's row (none looked for)
+        logs = np.log(group[0][2] if len(group) == 1 else np.concatenate([entries for _, _, entries in group]))
+        dense = exp.dense_log_finite if np.isfinite(logs).all() else exp.dense_log
         if len(group) == 1:
-            num, den = exp.dense_log(np.log(group[0][2])[gather])
-        else:  # one log of every member's entries, one gather of their rows (the stack's batch g at g · entries)
-            logs = np.log(np.concatenate([entries for _, _, entries in group]))
-            num, den = exp.dense_log(logs[gather + _stack_offsets(len(group), group[0][2].size)])
+            num, den = dense(logs[gather])
+        else:
+            num, den = dense(logs[gather + _stack_offsets(len(group), group[0][2].size)])
             num, den = num.reshape(-1, num.shape[-1]), den.reshape(-1, den.shape[-1])  # (each batch's rows in turn)
         by_widths.setdefault((num.shape[1], den.shape[1]), []).append((exp, group, num, den))
     for blocks in by_widths.values():
