@@ -389,6 +389,23 @@ def test_search_rationals_made_together_equal_each_made_alone(series):
 
 
 @pytest.mark.parametrize("circuit", sorted(topology_ids()))
+def test_dense_log_of_finite_logs_equals_dense_log(circuit):
+    """Expansion.dense_log_finite (no look for non-finite rows) against dense_log on finite log
+    ratios, one batch and a stack of batches: the same coefficients bit for bit. A consistency
+    check of our own two paths, no outside source."""
+    from bandsmith.solver.expansion import unit_expansion_values
+
+    topo = get_topology(circuit)
+    exp, own = unit_expansion_values(topo.build(topo.values_from(topo.example)))
+    rng = np.random.default_rng(19)
+    base = np.log(own) - np.log([u.value for u in exp.variables])
+    for shape in ((40, len(own)), (3, 90, len(own))):
+        logs = base + rng.normal(0.0, 0.5, shape)
+        for mine, ref in zip(exp.dense_log_finite(logs), exp.dense_log(logs)):
+            assert_array_equal(mine, ref)
+
+
+@pytest.mark.parametrize("circuit", sorted(topology_ids()))
 def test_search_expansion_is_the_netlists_own(circuit):
     """standard._search_expansion (a circuit's kept expansion and its variables' names made once
     per circuit and optional parts at zero, the variables' values read from the parts) against
