@@ -1031,7 +1031,7 @@ def test_choose_level_near_the_minimum_is_the_level_of_every_level_weighed():
         caps, log_caps = synthesis._level_capacitors(cs)
         parts = [(v, r[0]) for r, v in unit.items()]
         every = int(synthesis._level_costs(parts, log_caps - math.log10(unit[ref_c])).argmin())
-        near = synthesis._level_near_minimum(parts, synthesis._level_capacitor_logs(cs), math.log10(unit[ref_c]))
+        near = synthesis._level_near_minimum(parts, synthesis._level_capacitor_lists(cs)[1], math.log10(unit[ref_c]))
         assert near is None or near == every
         decided += near is not None
     assert decided > 5900
@@ -1041,7 +1041,7 @@ def test_choose_level_near_the_minimum_is_the_level_of_every_level_weighed():
         unit = {"R1": 10.0 ** (4.0 + 0.5 * (log_caps[k] + log_caps[k + 1])), "C1": 1.0}
         parts = [(unit["R1"], "R"), (1.0, "C")]
         every = int(synthesis._level_costs(parts, log_caps - 0.0).argmin())
-        near = synthesis._level_near_minimum(parts, synthesis._level_capacitor_logs("E6"), 0.0)
+        near = synthesis._level_near_minimum(parts, synthesis._level_capacitor_lists("E6")[1], 0.0)
         assert near is None or near == every
         undecided += near is None
         assert synthesis.choose_level(unit, {"R1": "R", "C1": "C"}, "C1", "E24") == float(caps[every])

@@ -43,8 +43,8 @@ __all__ = [
 PREFERRED = {"R": (1e3, 1e6), "C": (100e-12, 1e-6), "L": (10e-6, 100e-3)}
 PRACTICAL = {"R": (100.0, 10e6), "C": (10e-12, 10e-6), "L": (100e-9, 1.0)}
 MADE = {"R": (1.0, 1e9), "C": (0.1e-12, 0.1), "L": (1e-9, 100.0)}
-# log10 of PREFERRED's ends, for choose_level
-_PREFERRED_LOG10 = {kind: (math.log10(lo), math.log10(hi)) for kind, (lo, hi) in PREFERRED.items()}
+# log10 of PREFERRED's ends and the weight of a part of each kind (an inductor twice), for choose_level
+_LEVEL_WINDOWS = {kind: (math.log10(lo), math.log10(hi), 2.0 if kind == "L" else 1.0) for kind, (lo, hi) in PREFERRED.items()}
 # The resistors' geometric centre aimed at when the window leaves freedom (common practice, no source).
 R_CENTRE_OHM = 10e3
 
@@ -172,13 +172,14 @@ def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref:
     float
         The level ``s``.
     """
-    caps, log_caps = _level_capacitors(capacitor_series(series))
+    cs = capacitor_series(series)
+    caps, log_caps = _level_capacitor_lists(cs)
     parts = [(v, kinds[ref]) for ref, v in unit.items() if v > 0]
     unit_ref = unit[level_ref]
-    i = _level_near_minimum(parts, _level_capacitor_logs(capacitor_series(series)), math.log10(unit_ref))
+    i = _level_near_minimum(parts, log_caps, math.log10(unit_ref))
     if i is None:
-        i = int(_level_costs(parts, log_caps - math.log10(unit_ref)).argmin())
-    return float(caps[i] / unit_ref)
+        i = int(_level_costs(parts, _level_capacitors(cs)[1] - math.log10(unit_ref)).argmin())
+    return caps[i] / unit_ref
 
 
 def _level_costs(parts: list[tuple[float, str]], log_s: np.ndarray) -> np.ndarray:
@@ -205,9 +206,10 @@ def _level_costs(parts: list[tuple[float, str]], log_s: np.ndarray) -> np.ndarra
 
 
 @functools.lru_cache(maxsize=None)
-def _level_capacitor_logs(cs: str) -> list[float]:
-    """:func:`_level_capacitors`' log10 as a plain list."""
-    return _level_capacitors(cs)[1].tolist()
+def _level_capacitor_lists(cs: str) -> tuple[list[float], list[float]]:
+    """:func:`_level_capacitors`' values and their log10 as plain lists."""
+    caps, logs = _level_capacitors(cs)
+    return caps.tolist(), logs.tolist()
 
 
 # How far apart (relative, at least 1e-9 absolute) the least cost and the next must be for the
@@ -240,22 +242,21 @@ def _level_near_minimum(parts: list[tuple[float, str]], log_caps: list[float], l
     windows = []  # (a_i, b_i, w_i)
     events = []
     resistors = []
-    total = 0.0
+    total = every = 0.0
     for v, kind in parts:
         lv = math.log10(v)
-        if not math.isfinite(lv):
-            return None
-        lo, hi = _PREFERRED_LOG10[kind]
+        every += lv  # (not finite once any is not)
+        lo, hi, w = _LEVEL_WINDOWS[kind]
         if kind == "C":
-            a, b, w = lo - lv, hi - lv, 1.0
+            a, b = lo - lv, hi - lv
         else:
-            a, b, w = lv - hi, lv - lo, 2.0 if kind == "L" else 1.0
+            a, b = lv - hi, lv - lo
             if kind == "R":
                 resistors.append(lv)
         windows.append((a, b, w))
         events += ((a, w), (b, w))
         total += w
-    if not resistors:
+    if not resistors or not math.isfinite(every):
         return None
     t_c = 0.5 * (min(resistors) + max(resistors)) - math.log10(R_CENTRE_OHM)
     events.append((t_c, 0.1))
