@@ -436,16 +436,20 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
     a log of zero is -inf: such combinations are simply not chosen).
 
     Through the circuit's kept expansion, the natural logs of the combinations' ratios go to
-    :meth:`bandsmith.solver.expansion.Expansion.rational_log` as one gather: ``log(x/u)`` is taken
+    :meth:`bandsmith.solver.expansion.Expansion.dense_log` as one gather: ``log(x/u)`` is taken
     once per offered value (a few dozen) instead of once per combination and part; numpy's log
-    maps each number alone, so a value has the same log wherever it sits in an array (the same
-    transfer functions, bit for bit, as :func:`_combinations` of the values themselves). The
+    maps each number alone, so a value has the same log wherever it sits in an array. The
     searches that share a kept expansion, free parts and option counts (a chain's stages on one
-    circuit) are made in one stacked batch
-    (:meth:`~bandsmith.solver.expansion.Expansion.rational_log_stacked`, each batch's numbers as
-    alone), from one logarithm of all their flat entries and one gather. Where the expansion does
-    not apply, or a batch is past its small-batch products, :func:`_combinations`. ``checked``
-    as :func:`choose_standard_groups` takes it."""
+    circuit) are made in one stacked batch (dense_log takes a stack's products one batch at a
+    time, each batch's numbers as alone), from one logarithm of all their flat entries and one
+    gather; where every offered value's log is finite, so is every row, and
+    :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite` looks for no other. The
+    coefficients of every search are then taken to ``p = s/w_ref`` and scaled in one joined batch
+    (:func:`_scaled_searches`): the transfer functions
+    :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
+    bit, which are :func:`_combinations`' of the values themselves. Where the expansion does not
+    apply, or a batch is past its small-batch products, :func:`_combinations`. ``checked`` as
+    :func:`choose_standard_groups` takes it."""
     out: list = [None] * len(items)
     stacks: dict[tuple, list[tuple[int, _Setup, np.ndarray]]] = {}
     for k, item in enumerate(items):
@@ -495,9 +499,8 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]
     denominator coefficient in size (a maximum rounds nothing; the same quotients). Those steps
     go column by column (numpy loops slowly along rows of two or three coefficients, a tenth of
     the speed), each column made contiguous by the first, into column-major arrays, whose
-    columns the closed form then reads whole. The
-    searches' transfer functions are views of the joined batch, which :func:`_peak_costs` takes
-    whole where it costs these searches together."""
+    columns the closed form then reads whole. The searches' transfer functions are views of the
+    joined batch, which :func:`_peak_costs` takes whole where it costs these searches together."""
     num = blocks[0][2] if len(blocks) == 1 else np.concatenate([n for _, _, n, _ in blocks])
     den = blocks[0][3] if len(blocks) == 1 else np.concatenate([d for _, _, _, d in blocks])
     searches = [(k, made, exp) for exp, group, _, _ in blocks for k, made, _ in group]
@@ -507,9 +510,9 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]
     # column by column (numpy loops slowly along rows of two or three), contiguous: the rows'
     # largest coefficient in size, then every coefficient over it, into column-major arrays
     scale = np.abs(den_cols[0])
-    size = np.empty_like(scale)
+    absolute = np.empty_like(scale)
     for c in den_cols[1:]:
-        np.maximum(scale, np.abs(c, out=size), out=scale)
+        np.maximum(scale, np.abs(c, out=absolute), out=scale)
     num = np.empty(num.shape, order="F")
     den = np.empty(den.shape, order="F")
     with np.errstate(invalid="ignore", divide="ignore"):
