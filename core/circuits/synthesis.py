@@ -237,8 +237,9 @@ def _level_near_minimum(parts: list[tuple[float, str]], log_caps: list[float], l
     in both pairs): the costs of those two levels, as the distances to the intervals and to
     ``t_c`` in plain floats (within a few units in the last place of :func:`_level_costs`' for
     the same level), decide where the least is ahead of the other by :data:`_LEVEL_MARGIN`, else
-    (a near tie, which the order of rounding might settle either way) None. None also without resistors (the cost may then be flat over
-    several levels, where the first wins) or with a value that is not finite."""
+    (a near tie, which the order of rounding might settle either way) None. None also without
+    resistors (the cost may then be flat over several levels, where the first wins) or with a
+    value that is not finite."""
     windows = []  # (a_i, b_i, w_i)
     events = []
     resistors = []
