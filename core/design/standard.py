@@ -262,7 +262,7 @@ def choose_standard_groups(groups: Sequence[Sequence[tuple]], *, checked: bool =
         made = [[next(every) for _ in items] for items in groups]
         lives = [[i for i, m in enumerate(ms) if isinstance(m, _Search)] for ms in made]
         peaked = [g for g, (ms, live) in enumerate(zip(made, lives))
-                  if live and all(ms[i].h.batch <= _ROOTS_UP_TO for i in live)]
+                  if live and all(ms[i].batch <= _ROOTS_UP_TO for i in live)]
         if len(peaked) > 1:
             joined = [made[g][i] for g in peaked for i in lives[g]]
             peaks = _peak_costs(joined)
@@ -289,7 +289,7 @@ def _choose_searches(made: list, live: list[int], by_peaks: bool) -> None:
             for i, cost in zip(live, peaks):
                 made[i] = made[i].choice(cost)
             return
-    by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
+    by_roots = [i for i in live if made[i].batch <= _ROOTS_UP_TO]
     # exact polynomial roots up to a few thousand members; a grid around the target beyond
     figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
     figs.update((i, measure(made[i].h, grid=search_grid(made[i].spec.q))) for i in live if i not in figs)
@@ -341,15 +341,14 @@ def _joined_rows(searches: list[_Search]) -> tuple[Rational, list[int]]:
     together they are consecutive rows of it, in any order, else :meth:`Rational.joined` of them
     in their order (the same numbers either way: no padding is needed among transfer functions
     of one width)."""
-    first = searches[0].within
-    if first is not None and all(m.within is not None and m.within[0] is first[0] for m in searches):
-        joined = first[0]
-        order = sorted(range(len(searches)), key=lambda i: searches[i].within[1])
-        start = at = searches[order[0]].within[1]
+    joined = searches[0].rows[0]
+    if all(m.rows[0] is joined for m in searches):
+        order = sorted(range(len(searches)), key=lambda i: searches[i].rows[1])
+        start = at = searches[order[0]].rows[1]
         for i in order:
-            if searches[i].within[1] != at:
+            if searches[i].rows[1] != at:
                 break
-            at += searches[i].h.batch
+            at = searches[i].rows[2]
         else:
             return (joined if start == 0 and at == joined.batch else joined.take(slice(start, at))), order
     return Rational.joined([m.h for m in searches]), list(range(len(searches)))
@@ -378,7 +377,7 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
     ``den``) and measured (f0, Q and the gain finite: :func:`~bandsmith.analysis.figures.defined`), inf elsewhere;
     the figures and denominators of every search joined, each search's targets and tolerances
     repeated over its members (the same operations, member by member, as each search alone)."""
-    sizes = [m.h.batch for m in searches]
+    sizes = [m.batch for m in searches]
 
     def each(value) -> float | np.ndarray:
         # one number where every search has the same (one target and tolerances: a compare, a
@@ -402,17 +401,28 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
 class _Search:
     """One circuit's combinations (the flat options ``flat`` of the ``free`` parts taken by
     ``index``, parts × combinations, :func:`_flat_combination_index`; the last member every part
-    rounded alone) and their transfer functions ``h``, waiting for their cost."""
+    rounded alone) and their transfer functions, waiting for their cost: the rows ``start`` to
+    ``stop`` of the batch ``rows = (batch, start, stop)`` (a batch of several searches, or its
+    own), taken out only where asked for (:attr:`h`)."""
 
     values: dict[str, float]
     free: list[str]
     flat: np.ndarray
     index: np.ndarray
-    h: Rational
+    rows: tuple[Rational, int, int]
     spec: Spec
     tolerances: Tolerances
-    # the joined batch whose rows from ``start`` are ``h`` (``(joined, start)``), or None
-    within: tuple[Rational, int] | None = None
+
+    @property
+    def h(self) -> Rational:
+        """The transfer functions of its combinations (a view of its rows)."""
+        batch, start, stop = self.rows
+        return batch if start == 0 and stop == batch.batch else batch.take(slice(start, stop))
+
+    @property
+    def batch(self) -> int:
+        """How many members it has: every combination and the one rounding every part alone."""
+        return self.rows[2] - self.rows[1]
 
     def choice(self, cost: np.ndarray) -> Choice:
         """The combination of least cost (the last member, every part rounded alone, only compared)."""
@@ -499,7 +509,7 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]
     denominator coefficient in size (a maximum rounds nothing; the same quotients). Those steps
     go column by column (numpy loops slowly along rows of two or three coefficients, a tenth of
     the speed), each column made contiguous by the first, into column-major arrays, whose
-    columns the closed form then reads whole. The searches' transfer functions are views of the
+    columns the closed form then reads whole. The searches' transfer functions are rows of the
     joined batch, which :func:`_peak_costs` takes whole where it costs these searches together."""
     num = blocks[0][2] if len(blocks) == 1 else np.concatenate([n for _, _, n, _ in blocks])
     den = blocks[0][3] if len(blocks) == 1 else np.concatenate([d for _, _, _, d in blocks])
@@ -524,9 +534,8 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]
     joined = Rational(num, den, w_ref)
     start = 0
     for (k, made, _), size in zip(searches, sizes):
-        stop = start + size
-        out[k] = made.search(Rational(num[start:stop], den[start:stop], w_ref[start:stop]), (joined, start))
-        start = stop
+        out[k] = made.search(joined, start)
+        start += size
 
 
 def _stack_offsets(g: int, n: int) -> np.ndarray:
@@ -603,11 +612,12 @@ class _Setup:
         """How many members its search has: every combination and the one rounding every part alone."""
         return math.prod(self.sizes) + 1
 
-    def search(self, h: Rational, within: tuple[Rational, int] | None = None) -> _Search:
-        """The search with the transfer functions ``h`` of its combinations (rows of the joined
-        batch ``within[0]`` from ``within[1]`` on, if given)."""
-        return _Search(self.values, list(self.free), self.flat, _flat_combination_index(self.sizes), h, self.spec,
-                       self.tolerances, within)
+    def search(self, h: Rational, start: int = 0) -> _Search:
+        """The search whose combinations' transfer functions are the rows of ``h`` from ``start``
+        on (all of them by default)."""
+        index = _flat_combination_index(self.sizes)
+        return _Search(self.values, list(self.free), self.flat, index, (h, start, start + index.shape[1]), self.spec,
+                       self.tolerances)
 
 
 def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
