@@ -378,21 +378,20 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
     the figures and denominators of every search joined, each search's targets and tolerances
     repeated over its members (the same operations, member by member, as each search alone)."""
     sizes = [m.batch for m in searches]
-
-    def each(value) -> float | np.ndarray:
-        # one number where every search has the same (one target and tolerances: a compare, a
-        # chain's stage), broadcast over the members as its repetition would be, element by element
-        first, *rest = [value(m) for m in searches]
-        return first if all(v == first for v in rest) else np.repeat([first, *rest], sizes)
-
+    # each search's targets and tolerances, (f0, Q, gain in dB, tol f0, tol Q, tol gain): one
+    # number where every search has the same (a compare, a chain's stage), broadcast over the
+    # members as its repetition would be, element by element
+    rows = {(m.spec, m.tolerances): None for m in searches}
+    if len(rows) == 1:
+        (spec, tol), = rows
+        each = [spec.f0_hz, spec.q, 20.0 * math.log10(spec.gain), tol.f0, tol.q, tol.gain_db]
+    else:
+        columns = zip(*[(m.spec.f0_hz, m.spec.q, 20.0 * math.log10(m.spec.gain), m.tolerances.f0, m.tolerances.q, m.tolerances.gain_db)
+                        for m in searches])
+        each = [c[0] if all(v == c[0] for v in c) else np.repeat(c, sizes) for c in columns]
     # (where f0, Q or the gain is not finite, :func:`~bandsmith.analysis.figures.defined`, the
     # weighted error is not finite either, so already inf: the figures need no test of their own)
-    cost = _weighted_rows(
-        f0, q, gain_db,
-        each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
-        each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
-        hurwitz_stable(den),
-    )
+    cost = _weighted_rows(f0, q, gain_db, *each, hurwitz_stable(den))
     ends = list(itertools.accumulate(sizes))
     return [cost[end - size:end] for size, end in zip(sizes, ends)]
 
