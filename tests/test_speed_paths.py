@@ -375,10 +375,15 @@ def test_search_rationals_made_together_equal_each_made_alone(series):
     with np.errstate(all="ignore"):
         together = standard._combination_searches(items)
         alone = [standard._combination_searches([item])[0] for item in items]
-    for mine, ref in zip(together, alone):
+    for mine, ref, item in zip(together, alone, items):
         assert_array_equal(mine.h.num, ref.h.num)
         assert_array_equal(mine.h.den, ref.h.den)
         assert_array_equal(mine.h.w_ref, ref.h.w_ref)
+        with np.errstate(all="ignore"):  # and the values given part by part (Expansion.rational)
+            by_parts = standard._combinations(item[0].build(mine.values), dict(zip(mine.free, mine.flat[mine.index])), item[2].w0)
+        assert_array_equal(mine.h.num, by_parts.num)
+        assert_array_equal(mine.h.den, by_parts.den)
+        assert_array_equal(mine.h.w_ref, by_parts.w_ref)
     for part in (together, together[3:9], together[::2], together[9:2:-1]):
         rows, order = standard._joined_rows(part)
         joined = Rational.joined([part[i].h for i in order])
