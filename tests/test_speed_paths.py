@@ -348,6 +348,68 @@ def test_stacked_search_rationals_equal_each_batch_alone(circuit):
             assert_array_equal(mine.w_ref, ref.w_ref)
 
 
+@pytest.mark.parametrize("series", ["E12", "E24", "E96"])
+def test_search_rationals_made_together_equal_each_made_alone(series):
+    """_combination_searches of every circuit at several targets in one call (their coefficients
+    taken to p = s/w_ref and scaled as one joined batch, standard._scaled_searches; the searches
+    of one circuit stacked) against the call of each circuit at each target alone: the same
+    coefficients and w_ref bit for bit, and _joined_rows (the joined batch's rows, a view, with
+    the searches' order in it) equal to Rational.joined of the searches' own in that order. A consistency check of our own two paths, no
+    outside source."""
+    from bandsmith.analysis.tolerances import Tolerances
+    from bandsmith.circuits import all_topologies
+    from bandsmith.circuits.synthesis import Infeasible
+    from bandsmith.design import standard
+    from bandsmith.design.designer import Spec
+    from bandsmith.solver.rational import Rational
+
+    items = []
+    for f0, q, gain in ((3.3e3, 4.0, 3.0), (38e3, 1.3, 1.5), (44e3, 2.6, 2.0), (120.0, 9.0, 0.5)):
+        spec = Spec(f0, q, gain)
+        for topo in all_topologies():
+            try:
+                exact = topo.values_from(dict(topo.synthesize(spec, {}, series=series)))
+            except Infeasible:
+                continue
+            items.append((topo, exact, spec, series, (), Tolerances(), 1 + (f0 > 1e4)))
+    with np.errstate(all="ignore"):
+        together = standard._combination_searches(items)
+        alone = [standard._combination_searches([item])[0] for item in items]
+    for mine, ref, item in zip(together, alone, items):
+        assert_array_equal(mine.h.num, ref.h.num)
+        assert_array_equal(mine.h.den, ref.h.den)
+        assert_array_equal(mine.h.w_ref, ref.h.w_ref)
+        with np.errstate(all="ignore"):  # and the values given part by part (Expansion.rational)
+            by_parts = standard._combinations(item[0].build(mine.values), dict(zip(mine.free, mine.flat[mine.index])), item[2].w0)
+        assert_array_equal(mine.h.num, by_parts.num)
+        assert_array_equal(mine.h.den, by_parts.den)
+        assert_array_equal(mine.h.w_ref, by_parts.w_ref)
+    for part in (together, together[3:9], together[::2], together[9:2:-1]):
+        rows, order = standard._joined_rows(part)
+        joined = Rational.joined([part[i].h for i in order])
+        assert sorted(order) == list(range(len(part)))
+        assert_array_equal(rows.num, joined.num)
+        assert_array_equal(rows.den, joined.den)
+        assert_array_equal(rows.w_ref, joined.w_ref)
+
+
+@pytest.mark.parametrize("circuit", sorted(topology_ids()))
+def test_dense_log_of_finite_logs_equals_dense_log(circuit):
+    """Expansion.dense_log_finite (no look for non-finite rows) against dense_log on finite log
+    ratios, one batch and a stack of batches: the same coefficients bit for bit. A consistency
+    check of our own two paths, no outside source."""
+    from bandsmith.solver.expansion import unit_expansion_values
+
+    topo = get_topology(circuit)
+    exp, own = unit_expansion_values(topo.build(topo.values_from(topo.example)))
+    rng = np.random.default_rng(19)
+    base = np.log(own) - np.log([u.value for u in exp.variables])
+    for shape in ((40, len(own)), (3, 90, len(own))):
+        logs = base + rng.normal(0.0, 0.5, shape)
+        for mine, ref in zip(exp.dense_log_finite(logs), exp.dense_log(logs)):
+            assert_array_equal(mine, ref)
+
+
 @pytest.mark.parametrize("circuit", sorted(topology_ids()))
 def test_search_expansion_is_the_netlists_own(circuit):
     """standard._search_expansion (a circuit's kept expansion and its variables' names made once
@@ -945,6 +1007,50 @@ def test_choose_level_centre_from_the_extreme_resistors_equals_the_row_reduction
         kinds = {r: r[0] for r in refs}
         series = ("E6", "E24", "E96")[trial % 3]
         assert choose_level(unit, kinds, ref_c, series) == _choose_level_by_rows(unit, kinds, ref_c, series)
+
+
+def test_choose_level_near_the_minimum_is_the_level_of_every_level_weighed():
+    """choose_level looks first at the two levels around its cost's continuous minimum (the cost
+    is convex in log10 of the level: a sum of distances to intervals and of |t − t_c|); where it
+    decides, it is the argmin of the costs of every level, first of equals (numpy.argmin), over
+    random designs of every mix of kinds and four series; and on exact ties built on purpose (the
+    resistors' centre midway between two levels) it leaves the choice to every level's costs.
+    Convexity of a sum of convex functions: Boyd & Vandenberghe, Convex Optimization (2004),
+    3.2.1; the rest a consistency check of our own two forms."""
+    import math
+
+    from bandsmith.circuits import synthesis
+
+    rng = np.random.default_rng(23)
+    mixes = ["RRRCC", "RRRRRRCC", "RLC", "RRCCL", "RC", "RRLC"]
+    decided = 0
+    for trial in range(6000):
+        mix = mixes[trial % len(mixes)]
+        refs = [f"{k}{i}" for i, k in enumerate(mix)]
+        unit = {r: float(10.0 ** rng.uniform(-9, 9)) for r in refs}
+        if trial % 5 == 0:  # equal resistors
+            first_r = next(r for r in refs if r[0] == "R")
+            unit.update({r: unit[first_r] for r in refs if r[0] == "R"})
+        ref_c = next(r for r in refs if r[0] == "C")
+        cs = synthesis.capacitor_series(("E3", "E6", "E24", "E96", "E192")[trial % 5])
+        caps, log_caps = synthesis._level_capacitors(cs)
+        parts = [(v, r[0]) for r, v in unit.items()]
+        every = int(synthesis._level_costs(parts, log_caps - math.log10(unit[ref_c])).argmin())
+        near = synthesis._level_near_minimum(parts, synthesis._level_capacitor_lists(cs)[1], math.log10(unit[ref_c]))
+        assert near is None or near == every
+        decided += near is not None
+    assert decided > 5900
+    caps, log_caps = synthesis._level_capacitors("E6")
+    undecided = 0
+    for k in range(10, 70):
+        unit = {"R1": 10.0 ** (4.0 + 0.5 * (log_caps[k] + log_caps[k + 1])), "C1": 1.0}
+        parts = [(unit["R1"], "R"), (1.0, "C")]
+        every = int(synthesis._level_costs(parts, log_caps - 0.0).argmin())
+        near = synthesis._level_near_minimum(parts, synthesis._level_capacitor_lists("E6")[1], 0.0)
+        assert near is None or near == every
+        undecided += near is None
+        assert synthesis.choose_level(unit, {"R1": "R", "C1": "C"}, "C1", "E24") == float(caps[every])
+    assert undecided > 0
 
 
 def test_the_crossing_cubics_add_the_basis_terms_in_order():

@@ -55,6 +55,11 @@ COMPONENTS = (
 EXAMPLE = {"R1": 316e3, "R2": 324e3, "C1": 10e-9, "R3": 13e3, "C2": 10e-9, "R4": 13.3e3, "R5": 13e3, "R6": 13.3e3}
 
 
+# The op-amps, which carry no value: made once (an Element is immutable)
+_U1 = Element("U1", "opamp", ("q", "n", "v1"))
+_U2 = Element("U2", "opamp", ("n", "p", "out"))
+
+
 def build(v: Mapping[str, float]) -> Netlist:
     """Netlist of the dual-amplifier band-pass for validated part values (ohm, F)."""
     return Netlist(
@@ -67,8 +72,8 @@ def build(v: Mapping[str, float]) -> Netlist:
             Element("R4", "R", ("p", "out"), v["R4"]),
             Element("R5", "R", ("out", "q"), v["R5"]),
             Element("R6", "R", ("q", "0"), v["R6"]),
-            Element("U1", "opamp", ("q", "n", "v1")),
-            Element("U2", "opamp", ("n", "p", "out")),
+            _U1,
+            _U2,
         )
     )
 

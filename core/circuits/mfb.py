@@ -51,6 +51,10 @@ COMPONENTS = (
 EXAMPLE = {"R1": 10e3, "R2": 866.0, "R3": 82e3, "C1": 10e-9, "C2": 10e-9}
 
 
+# The op-amps, which carry no value: made once (an Element is immutable)
+_U1 = Element("U1", "opamp", ("0", "m", "out"))
+
+
 def build(v: Mapping[str, float]) -> Netlist:
     """Netlist of the multiple-feedback band-pass for validated part values (ohm, F)."""
     return Netlist(
@@ -60,7 +64,7 @@ def build(v: Mapping[str, float]) -> Netlist:
             Element("C1", "C", ("a", "m"), v["C1"]),
             Element("C2", "C", ("a", "out"), v["C2"]),
             Element("R3", "R", ("m", "out"), v["R3"]),
-            Element("U1", "opamp", ("0", "m", "out")),
+            _U1,
         )
     )
 

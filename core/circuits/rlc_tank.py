@@ -52,6 +52,10 @@ COMPONENTS = (
 EXAMPLE = {"R1": 3300.0, "R2": 6800.0, "L": 0.01, "C": 22e-9, "RL": 0.0}
 
 
+# The op-amps, which carry no value: made once (an Element is immutable)
+_U1 = Element("U1", "opamp", ("0", "n1", "out"))
+
+
 def build(v: Mapping[str, float]) -> Netlist:
     """Netlist of the tank band-pass for validated part values (ohm, H, F)."""
     return Netlist(
@@ -60,7 +64,7 @@ def build(v: Mapping[str, float]) -> Netlist:
             Element("R2", "R", ("n1", "out"), v["R2"]),
             Element("L", "L", ("n1", "out"), v["L"], series_resistance=v.get("RL", 0.0), series_ref="RL"),
             Element("C", "C", ("n1", "out"), v["C"]),
-            Element("U1", "opamp", ("0", "n1", "out")),
+            _U1,
         )
     )
 

@@ -65,6 +65,10 @@ COMPONENTS = (
 EXAMPLE = {"R1": 4530.0, "R2": 4530.0, "R3": 4530.0, "C1": 100e-9, "C2": 100e-9, "RA": 10e3, "RB": 22.1e3}
 
 
+# The op-amps, which carry no value: made once (an Element is immutable)
+_U1 = Element("U1", "opamp", ("b", "m", "out"))
+
+
 def build(v: Mapping[str, float]) -> Netlist:
     """Netlist of the Sallen–Key band-pass for validated part values (ohm, F)."""
     return Netlist(
@@ -76,7 +80,7 @@ def build(v: Mapping[str, float]) -> Netlist:
             Element("R3", "R", ("b", "0"), v["R3"]),
             Element("RA", "R", ("m", "0"), v["RA"]),
             Element("RB", "R", ("out", "m"), v["RB"]),
-            Element("U1", "opamp", ("b", "m", "out")),
+            _U1,
         )
     )
 

@@ -58,6 +58,12 @@ COMPONENTS = (
 EXAMPLE = {"R1": 27e3, "R2": 54.9e3, "R7": 2.05e3, "R3": 10e3, "R4": 10e3, "C1": 4.99e-9, "C2": 4.99e-9, "R5": 10e3, "R6": 10e3}
 
 
+# The op-amps, which carry no value: made once (an Element is immutable)
+_U1 = Element("U1", "opamp", ("p", "n", "hp"))
+_U2 = Element("U2", "opamp", ("0", "m2", "out"))
+_U3 = Element("U3", "opamp", ("0", "m3", "lp"))
+
+
 def build(v: Mapping[str, float]) -> Netlist:
     """Netlist of the state-variable band-pass for validated part values (ohm, F)."""
     return Netlist(
@@ -67,13 +73,13 @@ def build(v: Mapping[str, float]) -> Netlist:
             Element("R7", "R", ("p", "0"), v["R7"]),
             Element("R5", "R", ("lp", "n"), v["R5"]),
             Element("R6", "R", ("hp", "n"), v["R6"]),
-            Element("U1", "opamp", ("p", "n", "hp")),
+            _U1,
             Element("R3", "R", ("hp", "m2"), v["R3"]),
             Element("C1", "C", ("m2", "out"), v["C1"]),
-            Element("U2", "opamp", ("0", "m2", "out")),
+            _U2,
             Element("R4", "R", ("out", "m3"), v["R4"]),
             Element("C2", "C", ("m3", "lp"), v["C2"]),
-            Element("U3", "opamp", ("0", "m3", "lp")),
+            _U3,
         )
     )
 

@@ -8,6 +8,7 @@ free when some are pinned and refine a design on its measured response.
 
 from __future__ import annotations
 
+import bisect
 import functools
 import itertools
 import math
@@ -42,6 +43,8 @@ __all__ = [
 PREFERRED = {"R": (1e3, 1e6), "C": (100e-12, 1e-6), "L": (10e-6, 100e-3)}
 PRACTICAL = {"R": (100.0, 10e6), "C": (10e-12, 10e-6), "L": (100e-9, 1.0)}
 MADE = {"R": (1.0, 1e9), "C": (0.1e-12, 0.1), "L": (1e-9, 100.0)}
+# log10 of PREFERRED's ends and the weight of a part of each kind (an inductor twice), for choose_level
+_LEVEL_WINDOWS = {kind: (math.log10(lo), math.log10(hi), 2.0 if kind == "L" else 1.0) for kind, (lo, hi) in PREFERRED.items()}
 # The resistors' geometric centre aimed at when the window leaves freedom (common practice, no source).
 R_CENTRE_OHM = 10e3
 
@@ -160,15 +163,32 @@ def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref:
     finer) and the parts sit best in :data:`PREFERRED` (an inductor counts twice: it is the part
     hardest to buy), the resistors' geometric centre near 10 kΩ breaking ties.
 
+    The level is the one of least cost over every level on offer (:func:`_level_costs`); it is
+    found first among the few levels around the cost's continuous minimum
+    (:func:`_level_near_minimum`), and over every level where that cannot tell (the same level).
+
     Returns
     -------
     float
         The level ``s``.
     """
-    caps, log_caps = _level_capacitors(capacitor_series(series))
-    log_s = log_caps - math.log10(unit[level_ref])  # log10 of every level on offer
-    values = [v for v in unit.values() if v > 0]
-    sign, lo, hi, weight, rows = _level_weights(tuple(kinds[ref] for ref, v in unit.items() if v > 0))
+    cs = capacitor_series(series)
+    caps, log_caps = _level_capacitor_lists(cs)
+    parts = [(v, kinds[ref]) for ref, v in unit.items() if v > 0]
+    unit_ref = unit[level_ref]
+    i = _level_near_minimum(parts, log_caps, math.log10(unit_ref))
+    if i is None:
+        i = int(_level_costs(parts, _level_capacitors(cs)[1] - math.log10(unit_ref)).argmin())
+    return caps[i] / unit_ref
+
+
+def _level_costs(parts: list[tuple[float, str]], log_s: np.ndarray) -> np.ndarray:
+    """:func:`choose_level`'s cost of every level ``log_s`` (log10 of the levels), for the parts
+    ``(unit value, kind)`` above zero: the decades each part lies outside its PREFERRED window
+    (an inductor's twice), plus 0.05 times the decades between the resistors' geometric centre
+    and 10 kΩ."""
+    values = [v for v, _ in parts]
+    sign, lo, hi, weight, rows = _level_weights(tuple(k for _, k in parts))
     # log10 of every part at every level, (parts, levels): capacitors scale up, the rest down
     log_v = np.log10(values)
     lx = log_v[:, None] + sign * log_s
@@ -182,8 +202,87 @@ def choose_level(unit: Mapping[str, float], kinds: Mapping[str, str], level_ref:
         r = log_v[rows].tolist()
         centre = 0.5 * ((min(r) - log_s) + (max(r) - log_s))
         cost += 0.05 * np.abs(centre - math.log10(R_CENTRE_OHM))
-    i = int(cost.argmin())
-    return float(caps[i] / unit[level_ref])
+    return cost
+
+
+@functools.lru_cache(maxsize=None)
+def _level_capacitor_lists(cs: str) -> tuple[list[float], list[float]]:
+    """:func:`_level_capacitors`' values and their log10 as plain lists."""
+    caps, logs = _level_capacitors(cs)
+    return caps.tolist(), logs.tolist()
+
+
+# How far apart (relative, at least 1e-9 absolute) the least cost and the next must be for the
+# few levels :func:`_level_near_minimum` weighs to decide alone: far above the rounding of either
+# way of adding up a cost (some 1e-15 of it), far below the gap to any other level (below).
+_LEVEL_MARGIN = 1e-9
+
+
+def _level_near_minimum(parts: list[tuple[float, str]], log_caps: list[float], log_unit: float) -> int | None:
+    """:func:`choose_level`'s level, found among the few levels around the cost's minimum: its
+    index, or None where this cannot tell (the caller then weighs every level).
+
+    With ``t = log10 s``, part ``i`` lies at ``lx_i = log10 v_i ± t`` (+ for a capacitor), inside
+    its window for ``t`` in an interval ``[a_i, b_i]``, so its cost ``w_i·max(lo_i − lx_i,
+    lx_i − hi_i, 0)`` is ``w_i`` times the distance from ``t`` to that interval; the resistors'
+    term is ``0.05·|t − t_c|`` (``t_c`` = the centre of their least and largest log10 less 4).
+    The cost is a sum of convex functions of ``t``, so convex, and its slope is a sum of the
+    ``±w_i`` (integers) or zero, plus ±0.05: never below 0.05 in size. Its minimum is where the
+    slope, rising by ``w_i`` at every ``a_i`` and ``b_i`` and by 0.1 at ``t_c`` from
+    ``−Σw_i − 0.05``, first reaches zero; away from it the cost rises by at least 0.05 × 0.145
+    decade (the least step between two levels on offer, of any series) = 7e-3 from one level to
+    the next. So the level of least cost is one of the two around that minimum (the one level at
+    an end where the minimum lies beyond it), ahead of every other by far more than any rounding
+    (a minimum within rounding of a level, where its bisection may go either way, has that level
+    in both pairs): the costs of those two levels, as the distances to the intervals and to
+    ``t_c`` in plain floats (within a few units in the last place of :func:`_level_costs`' for
+    the same level), decide where the least is ahead of the other by :data:`_LEVEL_MARGIN`, else
+    (a near tie, which the order of rounding might settle either way) None. None also without
+    resistors (the cost may then be flat over several levels, where the first wins) or with a
+    value that is not finite."""
+    windows = []  # (a_i, b_i, w_i)
+    events = []
+    resistors = []
+    total = every = 0.0
+    for v, kind in parts:
+        lv = math.log10(v)
+        every += lv  # (not finite once any is not)
+        lo, hi, w = _LEVEL_WINDOWS[kind]
+        if kind == "C":
+            a, b = lo - lv, hi - lv
+        else:
+            a, b = lv - hi, lv - lo
+            if kind == "R":
+                resistors.append(lv)
+        windows.append((a, b, w))
+        events += ((a, w), (b, w))
+        total += w
+    if not resistors or not math.isfinite(every):
+        return None
+    t_c = 0.5 * (min(resistors) + max(resistors)) - math.log10(R_CENTRE_OHM)
+    events.append((t_c, 0.1))
+    events.sort()
+    slope = -total - 0.05
+    for t_min, rise in events:
+        slope += rise
+        if slope > 0.0:
+            break
+    j = bisect.bisect_left(log_caps, t_min + log_unit)
+    best = second = math.inf
+    at = None
+    for k in range(max(j - 1, 0), min(j + 1, len(log_caps))):
+        t = log_caps[k] - log_unit
+        cost = 0.05 * abs(t - t_c)
+        for a, b, w in windows:
+            if t < a:
+                cost += w * (a - t)
+            elif t > b:
+                cost += w * (t - b)
+        if cost < best:
+            best, second, at = cost, best, k
+        elif cost < second:
+            second = cost
+    return at if second - best > _LEVEL_MARGIN * max(1.0, best) else None
 
 
 def solve_pinned(

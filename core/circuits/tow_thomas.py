@@ -78,6 +78,13 @@ def loop_synthesize(spec: Spec, fixed, series: str, name: str) -> Exact:
     )
 
 
+# The op-amps, which carry no value: made once (an Element is immutable)
+_U1 = Element("U1", "opamp", ("0", "m1", "out"))
+_U2 = Element("U2", "opamp", ("0", "m2", "v2"))
+# the inverter U3, its non-inverting input at ground (Tow–Thomas) or at m2 (Åkerberg–Mossberg)
+_U3 = {plus: Element("U3", "opamp", (plus, "m3", "v3")) for plus in ("0", "m2")}
+
+
 def loop_netlist(v: Mapping[str, float], inverter_plus: str) -> Netlist:
     """The two-integrator loop's netlist (Tow–Thomas and Åkerberg–Mossberg alike) for part values (ohm, F).
 
@@ -90,13 +97,13 @@ def loop_netlist(v: Mapping[str, float], inverter_plus: str) -> Netlist:
             Element("R2", "R", ("m1", "out"), v["R2"]),
             Element("C1", "C", ("m1", "out"), v["C1"]),
             Element("R3", "R", ("v3", "m1"), v["R3"]),
-            Element("U1", "opamp", ("0", "m1", "out")),
+            _U1,
             Element("R4", "R", ("out", "m2"), v["R4"]),
             Element("C2", "C", ("m2", "v2"), v["C2"]),
-            Element("U2", "opamp", ("0", "m2", "v2")),
+            _U2,
             Element("R5", "R", ("v2", "m3"), v["R5"]),
             Element("R6", "R", ("m3", "v3"), v["R6"]),
-            Element("U3", "opamp", (inverter_plus, "m3", "v3")),
+            _U3[inverter_plus] if inverter_plus in _U3 else Element("U3", "opamp", (inverter_plus, "m3", "v3")),
         )
     )
 

@@ -10,6 +10,7 @@ The standard-value search is in :mod:`bandsmith.design.standard`.
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field, replace
 from typing import Mapping, Sequence
@@ -130,11 +131,21 @@ def spread_of(topology: Topology, values: Mapping[str, float]) -> dict[str, floa
 
     The winding resistance is not a resistor here; None where a circuit has no such part.
     """
-    by_kind: dict[str, list[float]] = {"R": [], "C": []}
-    for ref, kind, required in topology.part_kinds:
-        if required and kind in by_kind and values.get(ref, 0) > 0:
-            by_kind[kind].append(values[ref])
-    return {key: max(vals) / min(vals) if vals else None for key, vals in (("r", by_kind["R"]), ("c", by_kind["C"]))}
+    r_refs, c_refs = _parts_of(topology.part_kinds)[1:3]
+    rs = [values[ref] for ref in r_refs if values.get(ref, 0) > 0]
+    cs = [values[ref] for ref in c_refs if values.get(ref, 0) > 0]
+    return {"r": max(rs) / min(rs) if rs else None, "c": max(cs) / min(cs) if cs else None}
+
+
+@functools.lru_cache(maxsize=64)
+def _parts_of(part_kinds: tuple[tuple[str, str, bool], ...]) -> tuple[tuple, tuple[str, ...], tuple[str, ...], bool]:
+    """What the designer reads of a circuit's parts (its ``(ref, kind, required)``), worked out
+    once per parts list: each required part as ``(ref, kind, practical low, practical high)``
+    (:data:`~bandsmith.circuits.synthesis.PRACTICAL`), the required resistors and the required
+    capacitors (references, in order), and whether it has an inductor."""
+    required = tuple((ref, kind, *PRACTICAL[kind]) for ref, kind, req in part_kinds if req)
+    return (required, tuple(ref for ref, kind, _, _ in required if kind == "R"),
+            tuple(ref for ref, kind, _, _ in required if kind == "C"), any(kind == "L" for _, kind, _ in part_kinds))
 
 
 def _limits(topology: Topology, values: Mapping[str, float]) -> str | None:
@@ -155,11 +166,8 @@ def _limits(topology: Topology, values: Mapping[str, float]) -> str | None:
 
 def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[str, float], result_errors, analysis: Analysis, series: str, tol: Tolerances, fixed) -> list[str]:
     out = []
-    for ref, kind, required in topology.part_kinds:
-        if not required:
-            continue
+    for ref, kind, lo, hi in _parts_of(topology.part_kinds)[0]:
         v = chosen.get(ref, 0.0)
-        lo, hi = PRACTICAL[kind]
         if v > hi or v < lo:
             unit = PART_UNITS[kind]
             if kind == "L":
@@ -419,8 +427,10 @@ def _choose_parts(targets: list[tuple[list, Spec, Conditions]], series: str, wid
             for i in todo:
                 made[i] = _Prepared(made[i], None, Candidate(made[i].topology.id, dict(made[i].exact)))
         return
+    # (without a source resistance to absorb, each exact design is values_from's: _prepare)
+    checked = all(conditions.rsource_ohm is None for _, _, conditions in targets)
     chosen = choose_standard_groups([[(made[i].topology, made[i].exact, spec, series, tuple(made[i].pins), conditions.tolerances, width)
-                                      for i in todo] for (made, spec, conditions), todo in zip(targets, todos)])
+                                      for i in todo] for (made, spec, conditions), todo in zip(targets, todos)], checked=checked)
     for (made, spec, conditions), todo, choices in zip(targets, todos, chosen):
         for i, choice in zip(todo, choices):
             m = made[i]
@@ -452,7 +462,7 @@ def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analy
     """The result of a design that works, given its errors (:func:`errors_of` of its ideal
     figures): its warnings and analysis."""
     warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins)
-    if any(kind == "L" for _, kind, _ in topo.part_kinds):  # a real inductor must reach its share of the Q
+    if _parts_of(topo.part_kinds)[3]:  # a real inductor must reach its share of the Q
         w = inductor_q_warning(inductor_q_needed(spec.q))
         if w:
             warnings.append(w)

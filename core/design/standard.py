@@ -102,16 +102,30 @@ def _weighted_batch(fig: Figures, spec: Spec, tol: Tolerances) -> np.ndarray:
                           tol.f0, tol.q, tol.gain_db)
 
 
-def _weighted_rows(f0, q, gain_db, f0_target, q_target, gain_db_target, tol_f0, tol_q, tol_gain_db) -> np.ndarray:
+def _weighted_rows(f0, q, gain_db, f0_target, q_target, gain_db_target, tol_f0, tol_q, tol_gain_db, stable=None) -> np.ndarray:
     """:func:`_weighted_batch` from the figures' arrays, the targets and the tolerances each a
-    scalar or one per member (the same operations member by member either way)."""
+    scalar or one per member (the same operations member by member either way), inf also where
+    ``stable`` (if given) is False. Each sum's terms made in place, in the order written in the
+    module notes (``x ** 2`` of an array is numpy's square)."""
     with np.errstate(invalid="ignore", divide="ignore"):
-        e = np.sqrt(
-            ((f0 / f0_target - 1.0) / tol_f0) ** 2
-            + ((q / q_target - 1.0) / tol_q) ** 2
-            + ((gain_db - gain_db_target) / tol_gain_db) ** 2
-        )
-    return np.where(np.isfinite(e), e, np.inf)
+        e = np.divide(f0, f0_target)
+        e -= 1.0
+        e /= tol_f0
+        np.square(e, out=e)
+        term = np.divide(q, q_target)
+        term -= 1.0
+        term /= tol_q
+        np.square(term, out=term)
+        e += term
+        np.subtract(gain_db, gain_db_target, out=term)
+        term /= tol_gain_db
+        np.square(term, out=term)
+        e += term
+        np.sqrt(e, out=e)
+    ok = np.isfinite(e)
+    if stable is not None:
+        ok &= stable
+    return np.where(ok, e, np.inf)
 
 
 def part_series_of(kind: str, series: str) -> str:
@@ -234,19 +248,21 @@ def choose_standard_many(items: Sequence[tuple]) -> list[Choice]:
     return choose_standard_groups([items])[0]
 
 
-def choose_standard_groups(groups: Sequence[Sequence[tuple]]) -> list[list[Choice]]:
+def choose_standard_groups(groups: Sequence[Sequence[tuple]], *, checked: bool = False) -> list[list[Choice]]:
     """:func:`choose_standard_many` of each group of items (a chain's stages, each with its
     circuits), the same choices: where the closed form serves every group that
     choose_standard_many would cost by it, their costs come from one closed-form batch over all
     of them. The closed form's operations are element by element (each member's costs the same
     numbers in any batch), and a joined batch takes it only where each group alone would (every
-    member of the joined batch a second-order band-pass); else each group is costed as alone."""
+    member of the joined batch a second-order band-pass); else each group is costed as alone.
+    ``checked``: every item's exact values are :meth:`Topology.values_from`'s already (a
+    design's), so they are taken as they are instead of validated again."""
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
-        every = iter(_combination_searches([item for items in groups for item in items]))
+        every = iter(_combination_searches([item for items in groups for item in items], checked=checked))
         made = [[next(every) for _ in items] for items in groups]
         lives = [[i for i, m in enumerate(ms) if isinstance(m, _Search)] for ms in made]
         peaked = [g for g, (ms, live) in enumerate(zip(made, lives))
-                  if live and all(ms[i].h.batch <= _ROOTS_UP_TO for i in live)]
+                  if live and all(ms[i].batch <= _ROOTS_UP_TO for i in live)]
         if len(peaked) > 1:
             joined = [made[g][i] for g in peaked for i in lives[g]]
             peaks = _peak_costs(joined)
@@ -273,7 +289,7 @@ def _choose_searches(made: list, live: list[int], by_peaks: bool) -> None:
             for i, cost in zip(live, peaks):
                 made[i] = made[i].choice(cost)
             return
-    by_roots = [i for i in live if made[i].h.batch <= _ROOTS_UP_TO]
+    by_roots = [i for i in live if made[i].batch <= _ROOTS_UP_TO]
     # exact polynomial roots up to a few thousand members; a grid around the target beyond
     figs = dict(zip(by_roots, measure_many([made[i].h for i in by_roots])))
     figs.update((i, measure(made[i].h, grid=search_grid(made[i].spec.q))) for i in live if i not in figs)
@@ -290,9 +306,52 @@ def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
     the numbers of :func:`~bandsmith.analysis.figures.measure_many`'s closed form without the band
     edges and the phase; a combination with no peak is not stable and costs inf either way); None
     where a combination is of another shape."""
-    h = searches[0].h if len(searches) == 1 else Rational.joined([m.h for m in searches])
+    h, order = (searches[0].h, [0]) if len(searches) == 1 else _joined_rows(searches)
     peaks = biquad_peak_figures(h)
-    return None if peaks is None else _joined_costs(searches, *peaks, h.den)
+    if peaks is None:
+        return None
+    out = [None] * len(searches)
+    for i, cost in zip(order, _joined_costs([searches[i] for i in order], *peaks, h.den)):
+        out[i] = cost
+    return out
+
+
+def _in_p_columns(c: np.ndarray, ks: list[float], sizes: list[int]) -> list[np.ndarray]:
+    """The columns of joined dense coefficients ``c`` (highest power first), each contiguous,
+    each search's members (``sizes`` of them, in turn) taken to ``p = s/w_ref`` by its ``k`` of
+    ``ks``: column ``j`` times ``k`` to the power ``n − 1 − j``, those powers
+    ``k ** arange(n − 1, −1, −1.0)`` as :meth:`~bandsmith.solver.expansion.Expansion.rational_log`
+    makes them (once per distinct ``k``); copies of the columns where every ``k`` is 1 (no change
+    of variable)."""
+    distinct = list(dict.fromkeys(ks))
+    n = c.shape[1]
+    if distinct == [1.0]:
+        return [c[:, j].copy() for j in range(n)]
+    powers = [k ** np.arange(n - 1, -1, -1.0) for k in distinct]
+    if len(distinct) == 1:
+        return [c[:, j] * powers[0][j] for j in range(n)]
+    at = {k: i for i, k in enumerate(distinct)}
+    table = np.array(powers)[[at[k] for k in ks]].T  # (n, searches)
+    return [c[:, j] * np.repeat(table[j], sizes) for j in range(n)]
+
+
+def _joined_rows(searches: list[_Search]) -> tuple[Rational, list[int]]:
+    """The searches' transfer functions in one batch, and the searches' positions in the order
+    of its rows: the batch they were made in (its rows from the first of them on, a view) where
+    together they are consecutive rows of it, in any order, else :meth:`Rational.joined` of them
+    in their order (the same numbers either way: no padding is needed among transfer functions
+    of one width)."""
+    joined = searches[0].rows[0]
+    if all(m.rows[0] is joined for m in searches):
+        order = sorted(range(len(searches)), key=lambda i: searches[i].rows[1])
+        start = at = searches[order[0]].rows[1]
+        for i in order:
+            if searches[i].rows[1] != at:
+                break
+            at = searches[i].rows[2]
+        else:
+            return (joined if start == 0 and at == joined.batch else joined.take(slice(start, at))), order
+    return Rational.joined([m.h for m in searches]), list(range(len(searches)))
 
 
 def _same_width(made: list, live: list[int]) -> list[list[int]]:
@@ -318,22 +377,21 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
     ``den``) and measured (f0, Q and the gain finite: :func:`~bandsmith.analysis.figures.defined`), inf elsewhere;
     the figures and denominators of every search joined, each search's targets and tolerances
     repeated over its members (the same operations, member by member, as each search alone)."""
-    sizes = [m.h.batch for m in searches]
-
-    def each(value) -> float | np.ndarray:
-        # one number where every search has the same (one target and tolerances: a compare, a
-        # chain's stage), broadcast over the members as its repetition would be, element by element
-        first, *rest = [value(m) for m in searches]
-        return first if all(v == first for v in rest) else np.repeat([first, *rest], sizes)
-
-    weighted = _weighted_rows(
-        f0, q, gain_db,
-        each(lambda m: m.spec.f0_hz), each(lambda m: m.spec.q), each(lambda m: 20.0 * math.log10(m.spec.gain)),
-        each(lambda m: m.tolerances.f0), each(lambda m: m.tolerances.q), each(lambda m: m.tolerances.gain_db),
-    )
+    sizes = [m.batch for m in searches]
+    # each search's targets and tolerances, (f0, Q, gain in dB, tol f0, tol Q, tol gain): one
+    # number where every search has the same (a compare, a chain's stage), broadcast over the
+    # members as its repetition would be, element by element
+    rows = {(m.spec, m.tolerances): None for m in searches}
+    if len(rows) == 1:
+        (spec, tol), = rows
+        each = [spec.f0_hz, spec.q, 20.0 * math.log10(spec.gain), tol.f0, tol.q, tol.gain_db]
+    else:
+        columns = zip(*[(m.spec.f0_hz, m.spec.q, 20.0 * math.log10(m.spec.gain), m.tolerances.f0, m.tolerances.q, m.tolerances.gain_db)
+                        for m in searches])
+        each = [c[0] if all(v == c[0] for v in c) else np.repeat(c, sizes) for c in columns]
     # (where f0, Q or the gain is not finite, :func:`~bandsmith.analysis.figures.defined`, the
     # weighted error is not finite either, so already inf: the figures need no test of their own)
-    cost = np.where(hurwitz_stable(den), weighted, np.inf)
+    cost = _weighted_rows(f0, q, gain_db, *each, hurwitz_stable(den))
     ends = list(itertools.accumulate(sizes))
     return [cost[end - size:end] for size, end in zip(sizes, ends)]
 
@@ -342,15 +400,28 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
 class _Search:
     """One circuit's combinations (the flat options ``flat`` of the ``free`` parts taken by
     ``index``, parts × combinations, :func:`_flat_combination_index`; the last member every part
-    rounded alone) and their transfer functions ``h``, waiting for their cost."""
+    rounded alone) and their transfer functions, waiting for their cost: the rows ``start`` to
+    ``stop`` of the batch ``rows = (batch, start, stop)`` (a batch of several searches, or its
+    own), taken out only where asked for (:attr:`h`)."""
 
     values: dict[str, float]
     free: list[str]
     flat: np.ndarray
     index: np.ndarray
-    h: Rational
+    rows: tuple[Rational, int, int]
     spec: Spec
     tolerances: Tolerances
+
+    @property
+    def h(self) -> Rational:
+        """The transfer functions of its combinations (a view of its rows)."""
+        batch, start, stop = self.rows
+        return batch if start == 0 and stop == batch.batch else batch.take(slice(start, stop))
+
+    @property
+    def batch(self) -> int:
+        """How many members it has: every combination and the one rounding every part alone."""
+        return self.rows[2] - self.rows[1]
 
     def choice(self, cost: np.ndarray) -> Choice:
         """The combination of least cost (the last member, every part rounded alone, only compared)."""
@@ -366,7 +437,7 @@ class _Search:
         )
 
 
-def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
+def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> list[Choice | _Search]:
     """Each circuit's combinations of standard values and their transfer functions
     (:class:`_Search`), or its :class:`Choice` at once when no part is free, of each item
     ``(topology, exact, spec, series, keep, tolerances, width)``. Floating-point warnings are the
@@ -374,19 +445,24 @@ def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
     a log of zero is -inf: such combinations are simply not chosen).
 
     Through the circuit's kept expansion, the natural logs of the combinations' ratios go to
-    :meth:`bandsmith.solver.expansion.Expansion.rational_log` as one gather: ``log(x/u)`` is taken
+    :meth:`bandsmith.solver.expansion.Expansion.dense_log` as one gather: ``log(x/u)`` is taken
     once per offered value (a few dozen) instead of once per combination and part; numpy's log
-    maps each number alone, so a value has the same log wherever it sits in an array (the same
-    transfer functions, bit for bit, as :func:`_combinations` of the values themselves). The
+    maps each number alone, so a value has the same log wherever it sits in an array. The
     searches that share a kept expansion, free parts and option counts (a chain's stages on one
-    circuit) are made in one stacked batch
-    (:meth:`~bandsmith.solver.expansion.Expansion.rational_log_stacked`, each batch's numbers as
-    alone), from one logarithm of all their flat entries and one gather. Where the expansion does
-    not apply, or a batch is past its small-batch products, :func:`_combinations`."""
+    circuit) are made in one stacked batch (dense_log takes a stack's products one batch at a
+    time, each batch's numbers as alone), from one logarithm of all their flat entries and one
+    gather; where every offered value's log is finite, so is every row, and
+    :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite` looks for no other. The
+    coefficients of every search are then taken to ``p = s/w_ref`` and scaled in one joined batch
+    (:func:`_scaled_searches`): the transfer functions
+    :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
+    bit, which are :func:`_combinations`' of the values themselves. Where the expansion does not
+    apply, or a batch is past its small-batch products, :func:`_combinations`. ``checked`` as
+    :func:`choose_standard_groups` takes it."""
     out: list = [None] * len(items)
     stacks: dict[tuple, list[tuple[int, _Setup, np.ndarray]]] = {}
     for k, item in enumerate(items):
-        made = _search_setup(*item)
+        made = _search_setup(*item, checked=checked)
         if isinstance(made, Choice):
             out[k] = made
             continue
@@ -398,18 +474,67 @@ def _combination_searches(items: Sequence[tuple]) -> list[Choice | _Search]:
             continue
         entries = _log_entries(made.flat, own, _log_plan(exp, made.free, made.sizes))
         stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, entries))
+    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray]]] = {}
     for (exp, free, sizes), group in stacks.items():
         gather = _log_plan(exp, free, sizes)[2]
+        # one log of every member's entries, one gather of their rows (the stack's batch g at g · entries);
+        # where every offered value's log is finite, so is every combination's row (none looked for)
+        logs = np.log(group[0][2] if len(group) == 1 else np.concatenate([entries for _, _, entries in group]))
+        dense = exp.dense_log_finite if np.isfinite(logs).all() else exp.dense_log
         if len(group) == 1:
-            _, made, entries = group[0]
-            hs = [exp.rational_log(np.log(entries)[gather], w_ref=made.spec.w0)]
-        else:  # one log of every member's entries, one gather of their rows (the stack's batch g at g · entries)
-            logs = np.log(np.concatenate([entries for _, _, entries in group]))
-            stacked = logs[gather + _stack_offsets(len(group), group[0][2].size)]
-            hs = exp.rational_log_stacked(stacked, [made.spec.w0 for _, made, _ in group])
-        for (k, made, _), h in zip(group, hs):
-            out[k] = made.search(h)
+            num, den = dense(logs[gather])
+        else:
+            num, den = dense(logs[gather + _stack_offsets(len(group), group[0][2].size)])
+            num, den = num.reshape(-1, num.shape[-1]), den.reshape(-1, den.shape[-1])  # (each batch's rows in turn)
+        by_widths.setdefault((num.shape[1], den.shape[1]), []).append((exp, group, num, den))
+    for blocks in by_widths.values():
+        _scaled_searches(blocks, out)
     return out
+
+
+def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]], out: list) -> None:
+    """The searches of ``blocks`` made into :class:`_Search` es, placed in ``out``. Each block is
+    ``(exp, group, num, den)``: a stack's searches (``group``, as ``(k, setup, entries)`` with
+    ``k`` the place in ``out``) and the dense coefficients of their combinations in the
+    expansion's ``p`` (:meth:`~bandsmith.solver.expansion.Expansion.dense_log`, the searches'
+    rows in turn), every block of one width. Their transfer functions are those
+    :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
+    bit, from one set of array calls for all the blocks (a compare's seven circuits).
+
+    Each step is rational_log's, member by member: the change of variable to ``p = s/w_ref``
+    multiplies the coefficients of a search by the powers of its own ``k = w_ref/w_e`` (the same
+    ``k ** arange`` of the same two numbers, made once per distinct ``k``; a product by 1 where
+    the expansion's ``w_e`` is kept, which is exact), and each member is divided by its largest
+    denominator coefficient in size (a maximum rounds nothing; the same quotients). Those steps
+    go column by column (numpy loops slowly along rows of two or three coefficients, a tenth of
+    the speed), each column made contiguous by the first, into column-major arrays, whose
+    columns the closed form then reads whole. The searches' transfer functions are rows of the
+    joined batch, which :func:`_peak_costs` takes whole where it costs these searches together."""
+    num = blocks[0][2] if len(blocks) == 1 else np.concatenate([n for _, _, n, _ in blocks])
+    den = blocks[0][3] if len(blocks) == 1 else np.concatenate([d for _, _, _, d in blocks])
+    searches = [(k, made, exp) for exp, group, _, _ in blocks for k, made, _ in group]
+    sizes = [made.combinations for _, made, _ in searches]
+    ks = [1.0 if made.spec.w0 == exp.w_ref else made.spec.w0 / exp.w_ref for _, made, exp in searches]
+    num_cols, den_cols = _in_p_columns(num, ks, sizes), _in_p_columns(den, ks, sizes)
+    # column by column (numpy loops slowly along rows of two or three), contiguous: the rows'
+    # largest coefficient in size, then every coefficient over it, into column-major arrays
+    scale = np.abs(den_cols[0])
+    absolute = np.empty_like(scale)
+    for c in den_cols[1:]:
+        np.maximum(scale, np.abs(c, out=absolute), out=scale)
+    num = np.empty(num.shape, order="F")
+    den = np.empty(den.shape, order="F")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        for out_, cols in ((num, num_cols), (den, den_cols)):
+            for j, c in enumerate(cols):
+                np.divide(c, scale, out=out_[:, j])
+    w0s = [made.spec.w0 for _, made, _ in searches]
+    w_ref = np.full(num.shape[0], float(w0s[0])) if len(set(w0s)) == 1 else np.repeat(np.array(w0s, dtype=float), sizes)
+    joined = Rational(num, den, w_ref)
+    start = 0
+    for (k, made, _), size in zip(searches, sizes):
+        out[k] = made.search(joined, start)
+        start += size
 
 
 def _stack_offsets(g: int, n: int) -> np.ndarray:
@@ -481,16 +606,25 @@ class _Setup:
     spec: Spec
     tolerances: Tolerances
 
-    def search(self, h: Rational) -> _Search:
-        """The search with the transfer functions ``h`` of its combinations."""
-        return _Search(self.values, list(self.free), self.flat, _flat_combination_index(self.sizes), h, self.spec, self.tolerances)
+    @property
+    def combinations(self) -> int:
+        """How many members its search has: every combination and the one rounding every part alone."""
+        return math.prod(self.sizes) + 1
+
+    def search(self, h: Rational, start: int = 0) -> _Search:
+        """The search whose combinations' transfer functions are the rows of ``h`` from ``start``
+        on (all of them by default)."""
+        index = _flat_combination_index(self.sizes)
+        return _Search(self.values, list(self.free), self.flat, index, (h, start, start + index.shape[1]), self.spec,
+                       self.tolerances)
 
 
 def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, series: str, keep: tuple[str, ...],
-                  tolerances: Tolerances, width: int) -> Choice | _Setup:
+                  tolerances: Tolerances, width: int, *, checked: bool = False) -> Choice | _Setup:
     """A search up to its transfer functions (:class:`_Setup`), or the :class:`Choice` at once
-    when no part is free."""
-    values = topology.values_from(exact)
+    when no part is free; ``exact`` taken as it is where ``checked`` (:meth:`Topology.values_from`'s
+    already), else validated and completed by it."""
+    values = exact if checked else topology.values_from(exact)
     free, groups = _free_parts(topology.part_kinds, keep, series)
     if not free:
         h = transfer_function(topology.build(values), w_ref=spec.w0)

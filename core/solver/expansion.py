@@ -742,6 +742,14 @@ class Expansion:
             den[bad] = np.nan
         return num, den
 
+    def dense_log_finite(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`dense_log` of log ratios known to be all finite (no absent stamp): the same
+        products, without looking for non-finite rows (a search over many combinations checks
+        its few offered values' logs instead)."""
+        with np.errstate(over="ignore"):
+            mono = np.exp(log_ratios @ self._exps_ratio)
+        return mono @ self._num_dense, mono @ self._den_dense
+
     def opamp_terms(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
         """The transfer function of one member as a polynomial in the op-amp stamp its ``m``
         op-amps share, ``x = −(1/A0 + s/ω_t)``: ``D = Σ_j x^j·D_j`` and ``N = Σ_j x^j·N_j``.

@@ -96,12 +96,19 @@ class Netlist:
 
     def __post_init__(self):
         elements = self.elements
-        if len({e.ref for e in elements}) < len(elements):
+        # in one pass: the references (their duplicates looked for only when the set comes out
+        # short), and every node in the order first met (a dict keeps its keys' order)
+        refs = set()
+        seen = {}
+        for e in elements:
+            refs.add(e.ref)
+            for n in e.nodes:
+                seen[n] = None
+        if len(refs) < len(elements):
             refs = [e.ref for e in elements]
             dup = {r for r in refs if refs.count(r) > 1}
             raise InputError(sorted(dup)[0], "reference used twice in the netlist")
-        # every node but ground and the input, in the order first met (a dict keeps its keys' order)
-        seen = dict.fromkeys([n for e in elements for n in e.nodes])
+        # every node but ground and the input
         seen.pop(self.ground, None)
         seen.pop(self.input, None)
         if self.output not in seen and self.output != self.input:
