@@ -323,31 +323,6 @@ def test_standard_searches_made_together_equal_each_made_alone(series):
         assert choice == choose_standard(topo, exact, spec_, series_, keep=keep, tolerances=tol, width=width), topo.id
 
 
-@pytest.mark.parametrize("circuit", sorted(topology_ids()))
-def test_stacked_search_rationals_equal_each_batch_alone(circuit):
-    """Expansion.rational_log_stacked (several batches of one circuit's log ratios in one stack,
-    each at its own w_ref, one of them the expansion's own) against rational_log of each batch
-    alone: the same coefficients and w_ref bit for bit, a non-finite log (a ratio of zero)
-    included. A consistency check of our own two paths, no outside source."""
-    from bandsmith.solver.expansion import unit_expansion_values
-
-    topo = get_topology(circuit)
-    exp, own = unit_expansion_values(topo.build(topo.values_from(topo.example)))
-    rng = np.random.default_rng(11)
-    for b in (3, 70, 600):
-        logs = np.log(own)[None, None, :] - np.log([u.value for u in exp.variables]) + rng.normal(0.0, 0.4, (5, b, len(own)))
-        logs[2, 1, 0] = -np.inf
-        w_refs = [float(w) for w in 2e4 * np.exp(rng.uniform(-2, 2, 5))]
-        w_refs[3] = exp.w_ref
-        with np.errstate(all="ignore"):
-            stacked = exp.rational_log_stacked(logs.copy(), w_refs)
-            alone = [exp.rational_log(logs[g].copy(), w_ref=w) for g, w in enumerate(w_refs)]
-        for mine, ref in zip(stacked, alone):
-            assert_array_equal(mine.num, ref.num)
-            assert_array_equal(mine.den, ref.den)
-            assert_array_equal(mine.w_ref, ref.w_ref)
-
-
 @pytest.mark.parametrize("series", ["E12", "E24", "E96"])
 def test_search_rationals_made_together_equal_each_made_alone(series):
     """_combination_searches of every circuit at several targets in one call (their coefficients

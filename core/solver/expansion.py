@@ -734,8 +734,7 @@ class Expansion:
         with np.errstate(invalid="ignore", over="ignore"):
             lr = log_ratios if absent is None else np.where(absent, self._absent_log, log_ratios)
             finite = np.isfinite(lr)
-            mono = np.exp(lr @ self._exps_ratio)  # (B, M); an absent stamp gives exactly 0
-            num, den = mono @ self._num_dense, mono @ self._den_dense
+            num, den = self._products(lr)  # an absent stamp gives exactly 0
         if not finite.all():  # (the rows looked at only then: a reduction along rows of a few costs)
             bad = ~finite.all(axis=-1)
             num[bad] = np.nan
@@ -743,11 +742,17 @@ class Expansion:
         return num, den
 
     def dense_log_finite(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """:meth:`dense_log` of log ratios known to be all finite (no absent stamp): the same
-        products, without looking for non-finite rows (a search over many combinations checks
-        its few offered values' logs instead)."""
+        """:meth:`dense_log` of log ratios known to be all finite (no absent stamp): its products,
+        ``exp(log ratios @ exponents)`` onto every power of p, without looking for non-finite
+        rows (a search over many combinations checks its few offered values' logs instead)."""
         with np.errstate(over="ignore"):
-            mono = np.exp(log_ratios @ self._exps_ratio)
+            return self._products(log_ratios)
+
+    def _products(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """``exp(log ratios @ exponents)``, the monomials ``(B, M)``, onto every power of p, highest
+        first: :meth:`dense_log`'s and :meth:`dense_log_finite`'s numerator and denominator
+        (floating-point warnings are the caller's)."""
+        mono = np.exp(log_ratios @ self._exps_ratio)
         return mono @ self._num_dense, mono @ self._den_dense
 
     def opamp_terms(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
@@ -821,44 +826,6 @@ class Expansion:
         size, by :meth:`dense_log`): the same transfer functions, bit for bit, as :meth:`rational`
         of their exponentials up to :data:`SMALL_BATCH` members (which takes their logs first)."""
         return self._rational(*self._in_p(*self.dense_log(log_ratios), w_ref), w_ref)
-
-    def rational_log_stacked(self, log_ratios: np.ndarray, w_refs: list[float]) -> list[Rational]:
-        """:meth:`rational_log` of a stack of batches of one size, ``(G, B, len(variables))``,
-        batch ``g`` normalised to ``p = s/w_refs[g]`` (rad/s): the same transfer functions, bit
-        for bit, as each batch alone, at one set of array calls for the stack (a chain's stages
-        on one circuit).
-
-        Every step is the one :meth:`rational_log` takes, member by member: :meth:`dense_log`
-        takes a stack's products one batch at a time; the change of variable
-        ``c·k^n``, ``k = w_ref/w_e`` (:meth:`_in_p`), multiplies each batch's coefficients by the
-        powers of its own ``k``, the same ``pow`` of the same two numbers (``k = 1`` where a batch
-        keeps the expansion's ``w_e``: a product by 1 is exact); each member is scaled by its
-        largest denominator coefficient (:meth:`_rational`: a maximum rounds nothing), the same
-        quotients. Those steps go coefficient by coefficient, over ``(G, B)`` at a time (numpy
-        loops slowly over a last axis of two or three). The Rationals are views of the stack's
-        arrays."""
-        num, den = self.dense_log(log_ratios)
-        ks = [1.0 if w == self.w_ref else w / self.w_ref for w in w_refs]
-        by_column = num.shape[1] >= 64  # (short batches: fewer calls over the whole arrays)
-        if any(k != 1.0 for k in ks):
-            k = np.array(ks)[:, None]
-            for c in (num, den):
-                powers = k ** np.arange(c.shape[2] - 1, -1, -1.0)  # (G, coefficients)
-                if not by_column:
-                    c *= powers[:, None, :]
-                    continue
-                for j in range(c.shape[2]):
-                    c[:, :, j] *= powers[:, j : j + 1]
-        scale = _row_abs_max(den)  # (G, B, 1)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            for c in (num, den):
-                if not by_column:
-                    c /= scale
-                    continue
-                for j in range(c.shape[2]):
-                    np.divide(c[:, :, j], scale[:, :, 0], out=c[:, :, j])
-        b = num.shape[1]
-        return [Rational(num[i], den[i], np.full(b, float(w))) for i, w in enumerate(w_refs)]
 
     def _rational(self, num: np.ndarray, den: np.ndarray, w_ref: float | None) -> Rational:
         """Dense coefficients in ``p = s/w_ref`` as a :class:`Rational`, each member scaled so that
