@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import functools
 import math
-from dataclasses import dataclass, fields, replace
+from dataclasses import dataclass, field, fields, replace
 from typing import Sequence
 
 import numpy as np
@@ -54,6 +54,9 @@ class Figures:
     gain_center: np.ndarray
     gain_center_db: np.ndarray
     phase_center_deg: np.ndarray
+    # member 0 as scalars, made when first asked for (:meth:`item`: an analysis's ideal figures
+    # are read so, a dozen times over, by its requirements, verdict, design and JSON)
+    _first: "Figures | None" = field(default=None, init=False, repr=False, compare=False)
 
     def take(self, index) -> "Figures":
         """A sub-batch (a slice or index array), as arrays."""
@@ -77,14 +80,20 @@ class Figures:
         return Figures(*out)
 
     def item(self, i: int = 0) -> "Figures":
-        """Member ``i`` as scalars (floats)."""
-        return Figures(*_floats((self.f0_hz, self.q, self.bw_hz, self.f_low_hz, self.f_high_hz, self.gain_center,
-                                 self.gain_center_db, self.phase_center_deg), i))
+        """Member ``i`` as scalars (floats); member 0 made once (the figures' arrays are not
+        written to once made)."""
+        if i == 0 and self._first is not None:
+            return self._first
+        one = Figures(*_floats((self.f0_hz, self.q, self.bw_hz, self.f_low_hz, self.f_high_hz, self.gain_center,
+                                self.gain_center_db, self.phase_center_deg), i))
+        if i == 0:
+            object.__setattr__(self, "_first", one)
+        return one
 
     def scalars(self, names: Sequence[str], i: int = 0) -> list[float]:
-        """Member ``i``'s figures ``names`` as floats (those of :meth:`item`; a caller that reads a
-        few builds no :class:`Figures`)."""
-        return _floats([getattr(self, name) for name in names], i)
+        """Member ``i``'s figures ``names`` as floats (those of :meth:`item`)."""
+        one = self.item(i)
+        return [getattr(one, name) for name in names]
 
     def to_json(self, i: int = 0) -> dict:
         """The README's FIGURES object for member ``i`` (None where a figure is undefined): the
@@ -107,7 +116,7 @@ def defined(f0_hz, q, gain_center_db) -> np.ndarray | bool:
     return np.isfinite(q) & np.isfinite(f0_hz) & np.isfinite(gain_center_db)
 
 
-_FIELDS = tuple(f.name for f in fields(Figures))
+_FIELDS = tuple(f.name for f in fields(Figures) if f.init)  # the eight figures
 
 
 def _floats(values: Sequence, i: int) -> list[float]:

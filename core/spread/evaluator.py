@@ -38,7 +38,7 @@ def _measure_wide(h: Rational) -> Figures:
     for start in range(0, h.batch, _WIDE_CHUNK):
         sl = slice(start, start + _WIDE_CHUNK)
         parts.append(measure(h.take(sl)))
-    return Figures(**{f.name: np.concatenate([getattr(p, f.name) for p in parts]) for f in fields(Figures)})
+    return Figures(**{f.name: np.concatenate([getattr(p, f.name) for p in parts]) for f in fields(Figures) if f.init})
 
 
 class Evaluator:
