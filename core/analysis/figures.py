@@ -480,9 +480,10 @@ def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
     out = _sign_changes(slope) == 1
     many = np.flatnonzero(live & ~out)
     if many.size:
-        x = u_pk[many]
-        rest = _deflated_rows(slope[many].T, x)  # (deg, n): T's coefficients as rows
-        proven = _below_peak_rows(pu[many].T, qu[many].T, peak2[many], x) & _no_root_rows(rest, u_low[many], u_high[many])
+        pick = slice(None) if many.size == out.size else many  # (every member: views, no copies)
+        x = u_pk[pick]
+        rest = _deflated_rows(slope[pick].T, x)  # (deg, n): T's coefficients as rows
+        proven = _below_peak_rows(pu[pick].T, qu[pick].T, peak2[pick], x) & _no_root_rows(rest, u_low[pick], u_high[pick])
         out[many[proven]] = True
         if not proven.all():
             many, rest, x = many[~proven], rest.T[~proven], x[~proven]

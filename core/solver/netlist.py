@@ -93,17 +93,22 @@ class Netlist:
     input: str = "in"
     output: str = "out"
     nodes: tuple[str, ...] = field(init=False)
+    #: The op-amps, in order (read by every analysis, several times over)
+    opamps: tuple[Element, ...] = field(init=False, repr=False, compare=False)
 
     def __post_init__(self):
         elements = self.elements
         # in one pass: the references (their duplicates looked for only when the set comes out
-        # short), and every node in the order first met (a dict keeps its keys' order)
+        # short), every node in the order first met (a dict keeps its keys' order), the op-amps
         refs = set()
         seen = {}
+        amps = []
         for e in elements:
             refs.add(e.ref)
             for n in e.nodes:
                 seen[n] = None
+            if e.kind == "opamp":
+                amps.append(e)
         if len(refs) < len(elements):
             refs = [e.ref for e in elements]
             dup = {r for r in refs if refs.count(r) > 1}
@@ -114,10 +119,7 @@ class Netlist:
         if self.output not in seen and self.output != self.input:
             raise InputError("netlist", f"output node {self.output!r} is not connected")
         object.__setattr__(self, "nodes", tuple(seen))
-
-    @property
-    def opamps(self) -> tuple[Element, ...]:
-        return tuple(e for e in self.elements if e.kind == "opamp")
+        object.__setattr__(self, "opamps", tuple(amps))
 
     @property
     def passives(self) -> tuple[Element, ...]:

@@ -64,8 +64,15 @@ def polyder_batch(c: np.ndarray) -> np.ndarray:
     k = c.shape[1]
     if k == 1:
         return np.zeros_like(c)
-    powers = np.arange(k - 1, 0, -1)
-    return c[:, :-1] * powers
+    return c[:, :-1] * _powers_down(k - 1)
+
+
+@functools.lru_cache(maxsize=None)
+def _powers_down(n: int) -> np.ndarray:
+    """``n, n − 1, …, 1`` (integers, read-only): the factors of a derivative of ``n + 1`` coefficients."""
+    powers = np.arange(n, 0, -1)
+    powers.setflags(write=False)
+    return powers
 
 
 def polymul_batch(a: np.ndarray, b: np.ndarray) -> np.ndarray:
