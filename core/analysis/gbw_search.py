@@ -336,8 +336,10 @@ def required_gbw(
 ) -> tuple[float | None, str | None]:
     """Smallest single-pole GBW (Hz) from which on every figure stays within tolerance.
 
-    Searched, not estimated: the figures are measured at 61 GBW values from f0/10 to f0·10⁹ in one
-    batch (near the ideal figures, :func:`bandsmith.analysis.figures.measure_near`); inside the step from the
+    Searched, not estimated: the figures are measured on a ladder of 61 GBW values from f0/10 to
+    f0·10⁹ (near the ideal figures, :func:`bandsmith.analysis.figures.measure_near`; those from
+    some steps below the rule of thumb's GBW up, the rest only where they can matter:
+    :func:`search_gbw_many`); inside the step from the
     last failing to the first passing value each figure's error is interpolated by a cubic through
     four ladder points, and the answer is 0.5 % above the crossing (where the four points are not
     all measurable, 48 values across the step are measured instead, at most 1 % above). Returns
