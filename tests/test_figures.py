@@ -275,7 +275,7 @@ def test_closed_form_peak_proofs_agree_with_numpy_roots():
     qu = np.exp(rng.uniform(-3.0, 3.0, (n, 5)))
     square = np.stack([np.ones(n), -2.0 * x, x * x], axis=1)
     pu = qu - polymul_batch(square, s)
-    got = _below_peak(pu, qu, np.ones(n), x)
+    got = _below_peak(pu.T, qu.T, np.ones(n), x)  # (coefficients as rows)
     roots = [np.roots(row) for row in s]
     positive_root = np.array([np.any((np.abs(r.imag) <= 1e-9 * np.abs(r)) & (r.real > 0)) for r in roots])
     assert not (got & positive_root).any()
@@ -287,7 +287,7 @@ def test_closed_form_peak_proofs_agree_with_numpy_roots():
     c = np.array([np.poly(pair[i] + [re[i, 2], re[i, 3]]).real for i in range(n)])
     a = rng.normal(size=n) * 3.0
     b = a + np.exp(rng.uniform(-3.0, 1.0, n))
-    none = _no_root_between(c, a, b)
+    none = _no_root_between(c.T, a, b)  # (coefficients as rows)
     r = [np.roots(row) for row in c]
     inside = np.array([np.any((np.abs(q.imag) <= 1e-9) & (q.real > a[i]) & (q.real <= b[i])) for i, q in enumerate(r)])
     assert not (none & inside).any()

@@ -427,7 +427,7 @@ def requirements(
     """
     if gbw_search is None:
         gbw_search = required_gbw(netlist, ideal, a0=a0, tolerances=tolerances)
-    return _requirements(netlist, netlist.opamps, ideal.scalars(_F0_AND_GAIN), step_slope_per_s, Drive(vin_v, a0, rload_ohm, tolerances), gbw_search, h_ideal)
+    return _requirements(netlist, ideal.scalars(_F0_AND_GAIN), step_slope_per_s, Drive(vin_v, a0, rload_ohm, tolerances), gbw_search, h_ideal)
 
 
 _F0_AND_GAIN = ("f0_hz", "gain_center")  # what the requirements read of the ideal figures
@@ -447,25 +447,23 @@ def requirements_many(analyses: Sequence[Analysis]) -> list[Requirements]:
     """
     todo = [a for a in analyses if a._requirements is None]
     made = [a.ideal.scalars(_F0_AND_GAIN) for a in todo]
-    amps = [a.netlist.opamps for a in todo]
-    ones = [k for k, ((f0, _), opamps) in enumerate(zip(made, amps)) if len(opamps) <= 1 and math.isfinite(f0)]
+    ones = [k for k, (a, (f0, _)) in enumerate(zip(todo, made)) if len(a.netlist.opamps) <= 1 and math.isfinite(f0)]
     currents: dict[int, float] = {}  # position in todo -> its output current per volt, solved together
     if len(ones) > 1:  # (a lone one: solve_at itself, as ever; a plan for solve_at_many costs a first use more)
         systems = [_output_current_system(todo[k].netlist, made[k][0], todo[k].drive.rload_ohm, None) for k in ones]
         for k, (own, solved, _, _), (x, layout) in zip(ones, systems, solve_at_many([(solved, s) for _, solved, s, _ in systems])):
             currents[k] = _largest_output_current(own, solved, x, layout, None, None, None)
-    for k, (a, opamps, f0_gain) in enumerate(zip(todo, amps, made)):
-        req = _requirements(a.netlist, opamps, f0_gain, max_step_slope(a.h_ideal), a.drive, a.required_gbw, a.h_ideal, currents.get(k))
+    for k, (a, f0_gain) in enumerate(zip(todo, made)):
+        req = _requirements(a.netlist, f0_gain, max_step_slope(a.h_ideal), a.drive, a.required_gbw, a.h_ideal, currents.get(k))
         object.__setattr__(a, "_requirements", req)
     return [a._requirements for a in analyses]
 
 
 def _requirements(
-    netlist: Netlist, opamps: tuple[Element, ...], f0_gain: Sequence[float], step_slope_per_s: float, drive: Drive,
+    netlist: Netlist, f0_gain: Sequence[float], step_slope_per_s: float, drive: Drive,
     gbw_search: tuple[float | None, str | None], h_ideal: Rational | None, current: float | None = None,
 ) -> Requirements:
-    """:func:`requirements` from the netlist's op-amps (``netlist.opamps``), the reference f0 (Hz)
-    and centre gain, the drive and a finished required-GBW search; ``current`` the output current
+    """:func:`requirements` from the netlist, the reference f0 (Hz) and centre gain, the drive and a finished required-GBW search; ``current`` the output current
     (A per volt of input) of a circuit with one op-amp or none where already solved
     (:func:`requirements_many`), else solved here."""
     f0_hz, gain = f0_gain
@@ -477,6 +475,7 @@ def _requirements(
     vout = gain * vin_v
     slew_sine = 2.0 * math.pi * f0_hz * gain * vin_v
     slew_step = step_slope_per_s * vin_v
+    opamps = netlist.opamps
     if len(opamps) > 1:
         amps = amplifier_needs(netlist, f0_hz, vin_v=vin_v, rload_ohm=rload_ohm, h_ideal=h_ideal)
         # the worst amplifier (the output's own figures are among them)

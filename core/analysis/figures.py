@@ -482,8 +482,8 @@ def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
     if many.size:
         pick = slice(None) if many.size == out.size else many  # (every member: views, no copies)
         x = u_pk[pick]
-        rest = _deflated_rows(slope[pick].T, x)  # (deg, n): T's coefficients as rows
-        proven = _below_peak_rows(pu[pick].T, qu[pick].T, peak2[pick], x) & _no_root_rows(rest, u_low[pick], u_high[pick])
+        rest = _deflated(slope[pick].T, x)  # (deg, n): T's coefficients as rows
+        proven = _below_peak(pu[pick].T, qu[pick].T, peak2[pick], x) & _no_root_between(rest, u_low[pick], u_high[pick])
         out[many[proven]] = True
         if not proven.all():
             many, rest, x = many[~proven], rest.T[~proven], x[~proven]
@@ -497,7 +497,7 @@ def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
     return out
 
 
-def _deflated_rows(c: np.ndarray, x: np.ndarray) -> np.ndarray:
+def _deflated(c: np.ndarray, x: np.ndarray) -> np.ndarray:
     """The quotient of batched polynomials by ``u − x`` (Horner's steps of synthetic division;
     the remainder, ``c(x)``, is dropped): one coefficient fewer. Coefficients as rows, highest
     power first: ``c`` ``(k, n)`` (a transposed batch will do), the quotient ``(k − 1, n)``; each
@@ -515,7 +515,7 @@ def _deflated_rows(c: np.ndarray, x: np.ndarray) -> np.ndarray:
 _RIVAL_MARGIN = 1e-12
 
 
-def _below_peak(pu, qu, peak2, x) -> np.ndarray:
+def _below_peak(pu: np.ndarray, qu: np.ndarray, peak2: np.ndarray, x: np.ndarray) -> np.ndarray:
     """True where ``|H|² = P/Q`` stays below its height ``peak2`` at ``u = x`` for every other
     ``u ≥ 0``, proven in closed form; False where that is not known (not necessarily untrue).
 
@@ -525,20 +525,16 @@ def _below_peak(pu, qu, peak2, x) -> np.ndarray:
     ``S`` is at least zero and ``S(0) > 0``, or, for a quadratic ``s2·u² + s1·u + s0`` with
     ``s0 > 0`` and ``s2 ≥ 0``, where ``s1² < 4·s0·s2`` (no real root; by a margin of
     :data:`_RIVAL_MARGIN`). A dual-amplifier band-pass's slope has two more sign changes (a dip
-    and a small second peak near the op-amp's GBW): its ``S`` is such a quadratic."""
-    return _below_peak_rows(pu.T, qu.T, peak2, x)
-
-
-def _below_peak_rows(pu: np.ndarray, qu: np.ndarray, peak2: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """:func:`_below_peak` of ``P`` and ``Q`` given as coefficient rows, ``(k, n)`` each (highest
-    power first; a transposed batch will do): the same operations on the same numbers."""
+    and a small second peak near the op-amp's GBW): its ``S`` is such a quadratic.
+    ``P`` and ``Q`` come as coefficient rows, ``(k, n)`` each (highest power first; a transposed
+    batch will do)."""
     k = max(pu.shape[0], qu.shape[0])
     if k < 3:
         return np.zeros(x.size, dtype=bool)
     r = np.zeros((k, x.size))  # peak2·Q − P, as _poly_sub forms it
     r[k - qu.shape[0] :] = qu * peak2
     r[k - pu.shape[0] :] -= pu
-    s = _deflated_rows(_deflated_rows(r, x), x)
+    s = _deflated(_deflated(r, x), x)
     with np.errstate(invalid="ignore", over="ignore"):
         out = (s >= 0.0).all(axis=0) & (s[-1] > 0.0)
         if s.shape[0] == 3:
@@ -557,14 +553,9 @@ def _no_root_between(c: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     ``c(x + y)`` in ``y`` (found by repeated synthetic division, the Taylor shift); so
     ``V(a) = V(b)`` proves that there is none (the Budan–Fourier theorem, a standard result of
     the theory of equations; from memory). Exact when every root is real (then each count is
-    Descartes' and exact)."""
-    return _no_root_rows(c.T, a, b)
-
-
-def _no_root_rows(c: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """:func:`_no_root_between` of polynomials given as coefficient rows, ``(k, n)`` (highest
-    power first; a transposed batch will do): the same Taylor shifts, ``t_j += x·t_(j−1)``, over
-    contiguous rows, both ends at once."""
+    Descartes' and exact).
+    ``c`` comes as coefficient rows, ``(k, n)`` (highest power first; a transposed batch will
+    do): the Taylor shifts ``t_j += x·t_(j−1)`` over contiguous rows, both ends at once."""
     n = c.shape[1]
     t = np.concatenate([c, c], axis=1)  # (k, 2n): the shifts to a, then to b
     x = np.concatenate([a, b])

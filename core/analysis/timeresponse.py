@@ -104,29 +104,25 @@ class _Modes:
     def _modes(self, t: np.ndarray, p: np.ndarray) -> None:
         """Each pole's mode over the times ``t`` (the upper poles ``p``). A mode whose decay
         underflows to zero before the last time (an op-amp's fast poles, over most of the grid)
-        is taken only where it has not (:func:`_decay`; its cosine and sine likewise)."""
+        is taken only where it has not (:func:`_decay`), its cosine and sine likewise."""
         self.pair = pair = p.imag > 0
         self.real_lam = self.real_exp = self.pair_lam = self.pair_cos = self.pair_sin = None
         latest = float(t.max())
         if not pair.all():  # real poles (a real point keeps a zero imaginary part)
             self.real_lam = lam = p.real[~pair]
-            x = lam[:, None] * t  # (poles, times)
-            self.real_exp = _decay(x) if _dies(lam, latest) else np.exp(x)
+            self.real_exp = _decay(lam[:, None] * t, lam, latest)[0]  # (poles, times)
         if pair.any():
             self.pair_lam = lam = p[pair]
-            x = lam.real[:, None] * t
+            e, live = _decay(lam.real[:, None] * t, lam.real, latest)
             wt = lam.imag[:, None] * t
-            if _dies(lam.real, latest):
-                e = _decay(x)
-                live = e != 0
+            if live is None:
+                self.pair_cos = np.cos(wt)
+                self.pair_sin = np.sin(wt)
+            else:
                 self.pair_cos = np.zeros_like(wt)
                 self.pair_sin = np.zeros_like(wt)
                 np.cos(wt, out=self.pair_cos, where=live)
                 np.sin(wt, out=self.pair_sin, where=live)
-            else:
-                e = np.exp(x)
-                self.pair_cos = np.cos(wt)
-                self.pair_sin = np.sin(wt)
             self.pair_cos *= e
             self.pair_sin *= e
 
@@ -168,20 +164,18 @@ def _residues(b: list[float], a: list[float], poles: list[complex]) -> list[comp
     return [polyval_one(b, lam) / polyval_one(da, lam) for lam in poles]
 
 
-def _dies(sigma: np.ndarray, latest: float) -> bool:
-    """True unless every decay ``e^{σ·t}`` (real parts ``sigma``, 1/s) is still above
-    underflow at the latest time ``latest`` (s): then :func:`_decay` has zeros to skip (a NaN
-    part counts as dying: the careful path)."""
-    return not min(sigma.tolist()) * latest >= _UNDERFLOW
-
-
-def _decay(x: np.ndarray) -> np.ndarray:
-    """``exp(x)`` (real), taken only where ``x ≥ −746`` and zero elsewhere: ``exp`` is exactly
-    zero below ``−745.13`` (half the smallest subnormal, ``e^−744.44``), and a fast op-amp pole
-    underflows over most of a step's time grid, where ``exp`` would take its slow path for nothing."""
+def _decay(x: np.ndarray, sigma: np.ndarray, latest: float) -> tuple[np.ndarray, np.ndarray | None]:
+    """``(e, live)``: ``exp(x)`` of modes' exponents ``x = σ·t`` (their real parts ``sigma``, 1/s,
+    times up to ``latest``, s), and where it is above zero. Where every decay is still above
+    underflow at the latest time, numpy's exp whole and ``live`` None; else (a NaN part counts so)
+    exp taken only where ``x ≥ −746`` and zero elsewhere: ``exp`` is exactly zero below
+    ``−745.13`` (half the smallest subnormal, ``e^−744.44``), and a fast op-amp pole underflows
+    over most of a step's time grid, where ``exp`` would take its slow path for nothing."""
+    if min(sigma.tolist()) * latest >= _UNDERFLOW:
+        return np.exp(x), None
     e = np.zeros_like(x)
     np.exp(x, out=e, where=x >= _UNDERFLOW)
-    return e
+    return e, e != 0
 
 
 def _state_space(b: np.ndarray, a: np.ndarray, t: np.ndarray):
