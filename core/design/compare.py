@@ -6,7 +6,7 @@ from typing import Sequence
 
 from bandsmith.design.candidate import Conditions
 from bandsmith.circuits import all_topologies, get_topology
-from bandsmith.design.designer import DesignResult, Spec, design_json, design_many, spread_of
+from bandsmith.design.designer import DesignResult, Spec, design_json, design_many, needs_inductor, spread_of
 from bandsmith.circuits.topology import Topology
 
 __all__ = ["compare", "compare_json", "part_count", "needs_inductor", "candidate_json"]
@@ -27,11 +27,6 @@ def part_count(topology: Topology) -> int:
 # candidate and verdict. Keyed by id (a topology holds a dict, so it is not hashable); the entry
 # holds the topology itself, so no other object can take its id while the entry lives.
 _COUNTS: dict[int, tuple[Topology, int]] = {}
-
-
-def needs_inductor(topology: Topology) -> bool:
-    """True when the circuit has an inductor among its parts."""
-    return any(kind == "L" for _, kind, _ in topology.part_kinds)
 
 
 def compare(spec: Spec, *, series: str = "E24", conditions: Conditions = Conditions(), width: int = 1) -> tuple[DesignResult, ...]:

@@ -13,7 +13,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass, field, replace
-from typing import Mapping, Sequence
+from typing import Mapping, NamedTuple, Sequence
 
 from bandsmith.common.units import PART_UNITS
 from bandsmith.common.jsonutil import finite_or_none
@@ -42,6 +42,7 @@ __all__ = [
     "PreparedDesigns",
     "design_json",
     "spread_of",
+    "needs_inductor",
     "parse_fixed",
 ]
 
@@ -131,21 +132,35 @@ def spread_of(topology: Topology, values: Mapping[str, float]) -> dict[str, floa
 
     The winding resistance is not a resistor here; None where a circuit has no such part.
     """
-    r_refs, c_refs = _parts_of(topology.part_kinds)[1:3]
+    roles = _parts_of(topology.part_kinds)
+    r_refs, c_refs = roles.resistors, roles.capacitors
     rs = [values[ref] for ref in r_refs if values.get(ref, 0) > 0]
     cs = [values[ref] for ref in c_refs if values.get(ref, 0) > 0]
     return {"r": max(rs) / min(rs) if rs else None, "c": max(cs) / min(cs) if cs else None}
 
 
+class _PartRoles(NamedTuple):
+    """What the designer reads of a circuit's parts (:func:`_parts_of`)."""
+
+    required: tuple[tuple[str, str, float, float], ...]  # (ref, kind, practical low, practical high)
+    resistors: tuple[str, ...]  # the required resistors, in order
+    capacitors: tuple[str, ...]  # the required capacitors, in order
+    inductor: bool  # whether it has an inductor
+
+
 @functools.lru_cache(maxsize=64)
-def _parts_of(part_kinds: tuple[tuple[str, str, bool], ...]) -> tuple[tuple, tuple[str, ...], tuple[str, ...], bool]:
+def _parts_of(part_kinds: tuple[tuple[str, str, bool], ...]) -> _PartRoles:
     """What the designer reads of a circuit's parts (its ``(ref, kind, required)``), worked out
-    once per parts list: each required part as ``(ref, kind, practical low, practical high)``
-    (:data:`~bandsmith.circuits.synthesis.PRACTICAL`), the required resistors and the required
-    capacitors (references, in order), and whether it has an inductor."""
+    once per parts list: each required part with its :data:`~bandsmith.circuits.synthesis.PRACTICAL`
+    range, the required resistors and capacitors, and whether it has an inductor."""
     required = tuple((ref, kind, *PRACTICAL[kind]) for ref, kind, req in part_kinds if req)
-    return (required, tuple(ref for ref, kind, _, _ in required if kind == "R"),
-            tuple(ref for ref, kind, _, _ in required if kind == "C"), any(kind == "L" for _, kind, _ in part_kinds))
+    return _PartRoles(required, tuple(ref for ref, kind, _, _ in required if kind == "R"),
+                      tuple(ref for ref, kind, _, _ in required if kind == "C"), any(kind == "L" for _, kind, _ in part_kinds))
+
+
+def needs_inductor(topology: Topology) -> bool:
+    """True when the circuit has an inductor among its parts."""
+    return _parts_of(topology.part_kinds).inductor
 
 
 def _limits(topology: Topology, values: Mapping[str, float]) -> str | None:
@@ -166,7 +181,7 @@ def _limits(topology: Topology, values: Mapping[str, float]) -> str | None:
 
 def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[str, float], result_errors, analysis: Analysis, series: str, tol: Tolerances, fixed) -> list[str]:
     out = []
-    for ref, kind, lo, hi in _parts_of(topology.part_kinds)[0]:
+    for ref, kind, lo, hi in _parts_of(topology.part_kinds).required:
         v = chosen.get(ref, 0.0)
         if v > hi or v < lo:
             unit = PART_UNITS[kind]
@@ -404,7 +419,7 @@ def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Condi
     try:
         exact = topo.values_from(exact)
     except InputError as exc:  # the target, not a part the user typed, is what is out of reach
-        return _infeasible(topo, spec, series, f"this target needs {exc.field} = {exc.reason.replace(' is outside', ', outside', 1)}", pins, conditions)
+        return _infeasible(topo, spec, series, _out_of_reach(exc), pins, conditions)
     reason = _limits(topo, exact)
     if reason:
         return _infeasible(topo, spec, series, reason, pins, conditions, exact, notes)
@@ -413,7 +428,16 @@ def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Condi
 
         exact, absorbed = absorb_source(topo.build(exact), exact, conditions.rsource_ohm, tuple(pins))
         notes = notes + absorbed
+        try:  # (the lowered input resistor checked as every part is: the exact values are values_from's)
+            exact = topo.values_from(exact)
+        except InputError as exc:
+            return _infeasible(topo, spec, series, _out_of_reach(exc), pins, conditions)
     return _Exact(topo, exact, notes, pins)
+
+
+def _out_of_reach(exc: InputError) -> str:
+    """The reason of a design whose exact value is outside what a part can be."""
+    return f"this target needs {exc.field} = {exc.reason.replace(' is outside', ', outside', 1)}"
 
 
 def _choose_parts(targets: list[tuple[list, Spec, Conditions]], series: str, width: int) -> None:
@@ -427,10 +451,9 @@ def _choose_parts(targets: list[tuple[list, Spec, Conditions]], series: str, wid
             for i in todo:
                 made[i] = _Prepared(made[i], None, Candidate(made[i].topology.id, dict(made[i].exact)))
         return
-    # (without a source resistance to absorb, each exact design is values_from's: _prepare)
-    checked = all(conditions.rsource_ohm is None for _, _, conditions in targets)
+    # (each exact design is values_from's already: _prepare)
     chosen = choose_standard_groups([[(made[i].topology, made[i].exact, spec, series, tuple(made[i].pins), conditions.tolerances, width)
-                                      for i in todo] for (made, spec, conditions), todo in zip(targets, todos)], checked=checked)
+                                      for i in todo] for (made, spec, conditions), todo in zip(targets, todos)], checked=True)
     for (made, spec, conditions), todo, choices in zip(targets, todos, chosen):
         for i, choice in zip(todo, choices):
             m = made[i]
@@ -462,7 +485,7 @@ def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analy
     """The result of a design that works, given its errors (:func:`errors_of` of its ideal
     figures): its warnings and analysis."""
     warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins)
-    if _parts_of(topo.part_kinds)[3]:  # a real inductor must reach its share of the Q
+    if needs_inductor(topo):  # a real inductor must reach its share of the Q
         w = inductor_q_warning(inductor_q_needed(spec.q))
         if w:
             warnings.append(w)
