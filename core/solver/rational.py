@@ -674,11 +674,8 @@ class AmpFamily:
     def _trimmed(self, num: np.ndarray, den: np.ndarray) -> Rational:
         """Weighted sums of the shifted terms as transfer functions: the leading columns that are
         zero in every row dropped, each member scaled by its denominator's largest coefficient."""
-        den = _lead_trim(den, self._zero_lead[1])
-        num = _lead_trim(num, self._zero_lead[0])
-        scale = np.abs(den).max(axis=1, keepdims=True)
-        scale[scale == 0] = 1.0
-        return Rational(num / scale, den / scale, np.full(num.shape[0], self.w_ref))
+        num, den = _by_largest(_lead_trim(num, self._zero_lead[0]), _lead_trim(den, self._zero_lead[1]))
+        return Rational(num, den, np.full(num.shape[0], self.w_ref))
 
     def shifted_terms(self) -> tuple[np.ndarray, np.ndarray]:
         """The numerator's and denominator's shifted terms ``T_j·p^i`` (:func:`_family_shifted`,
@@ -691,6 +688,15 @@ class AmpFamily:
             object.__setattr__(self, "_shifted", (num_s, den_s))
             object.__setattr__(self, "_zero_lead", (num_zero, den_zero))
         return self._shifted
+
+
+def _by_largest(num: np.ndarray, den: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Each member (along the last axis) over its denominator's largest coefficient in size, 1
+    where that is zero: the scaling of a family's weighted sums (:meth:`AmpFamily.weighted`, one
+    family or a stack of them)."""
+    scale = np.abs(den).max(axis=-1, keepdims=True)
+    scale[scale == 0] = 1.0
+    return num / scale, den / scale
 
 
 def _leads_with(c: np.ndarray, zero: int) -> bool:
@@ -714,10 +720,7 @@ def weighted_together(families: Sequence[AmpFamily], weights: np.ndarray) -> lis
     if len(zeros) == 1:
         zn, zd = zeros.pop()
         if _leads_with(num, zn) and _leads_with(den, zd):  # every family trimmed as _lead_trim trims it alone
-            den, num = den[:, :, zd:], num[:, :, zn:]
-            scale = np.abs(den).max(axis=2, keepdims=True)
-            scale[scale == 0] = 1.0
-            num, den = num / scale, den / scale
+            num, den = _by_largest(num[:, :, zn:], den[:, :, zd:])
             return [Rational(num[g], den[g], np.full(weights.shape[1], f.w_ref)) for g, f in enumerate(families)]
     return [f._trimmed(num[g], den[g]) for g, f in enumerate(families)]  # (leading zeros that differ: each alone)
 
