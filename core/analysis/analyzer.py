@@ -15,6 +15,7 @@ the tolerances in :mod:`bandsmith.analysis.tolerances`, the required-GBW search 
 from __future__ import annotations
 
 import functools
+import itertools
 import math
 from dataclasses import dataclass, field, replace
 from typing import Mapping, NamedTuple, Sequence
@@ -29,7 +30,7 @@ from bandsmith.analysis.sensitivity import SENS_STEP, log_slopes
 from bandsmith.analysis.figures import Figures, measure_from, nominal_and_peaks_many
 from bandsmith.analysis.gbw_search import required_gbw, search_gbw_many, with_gbw
 from bandsmith.analysis.tolerances import Tolerances, tolerances_each, within_tolerances
-from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_families, several_amp_family, transfer_function
+from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_amp_families, transfer_function
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at, solve_at_many
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, Expansion, ExpansionUnavailable, unit_expansion_values
@@ -537,34 +538,48 @@ def _sensitivity_steps(rows: int, n_var: int, cols: tuple[int, ...]) -> np.ndarr
 
 class _Expanded(NamedTuple):
     """A candidate's first pass from its coefficient expansion, set up (:func:`_expansion_setup`):
-    its netlist, the kept expansion of its structure, the natural logs of its members' ratios
-    ``(rows, n_var)`` (member 0 the nominal circuit, members ``1 + 2j``/``2 + 2j`` part ``j`` up/down
-    by the sensitivity step and, with one op-amp, a last member with ``1/ωt = 1``), the stamps
-    absent from each member (one op-amp) or None, and the number of ideal members."""
+    its netlist, what its ideal members are taken through (the kept expansion of its structure,
+    or with several op-amps that expansion's ideal part, :meth:`Expansion.ideal_part`), the
+    natural logs of its members' ratios ``(rows, n_var)`` (member 0 the nominal circuit, members
+    ``1 + 2j``/``2 + 2j`` part ``j`` up/down by the sensitivity step and, with one op-amp, a last
+    member with ``1/ωt = 1``), the stamps absent from each member (one op-amp) or None, the number
+    of ideal members, and with several op-amps the expansion with their stamps whose
+    :meth:`~Expansion.opamp_terms` of member 0 give the op-amp family (None: looked up by the
+    family's maker)."""
 
     netlist: Netlist
     exp: Expansion
     log_ratios: np.ndarray
     absent: np.ndarray | None
     n_ideal: int
+    opamp_exp: Expansion | None = None
 
 
 def _expansion_setup(netlist: Netlist, refs: list[str], n_ideal: int) -> _Expanded | None:
     """The set-up of :func:`_first_pass_expanded` for one candidate, or None where the expansion
     does not apply (no op-amp, or a part the expansion does not carry): the expansion with the
-    op-amp's stamps for one op-amp (one more member, ``1/ωt = 1``, gives the
-    :class:`~bandsmith.solver.rational.OpAmpFamily`), the ideal-op-amp one for several (the one
-    with the op-amps' stamps carries ``(m + 1)²`` times its integer points; their
-    :class:`~bandsmith.solver.rational.AmpFamily` comes from it,
-    :func:`bandsmith.analysis.transfer.several_amp_family`)."""
+    op-amps' stamps. With one op-amp its stamps are absent from the ideal members, and one more
+    member (``1/ωt = 1``) gives the :class:`~bandsmith.solver.rational.OpAmpFamily`. With several,
+    the ideal members are taken through its ideal part (:meth:`Expansion.ideal_part`: its
+    monomials with no op-amp stamp, as few as the ideal expansion's) and member 0 through its
+    :meth:`~Expansion.opamp_terms` gives the :class:`~bandsmith.solver.rational.AmpFamily`: one
+    kept expansion, one table entry, serves both. Where that expansion is not fitted yet (not in
+    the shipped table: a fit of several op-amps' stamps takes up to a second), the ideal
+    expansion serves the members and the family is made as
+    :func:`bandsmith.analysis.transfer.several_amp_family` makes it."""
     m = len(netlist.opamps)
     if not m:
         return None
     one = m == 1
     try:
-        exp, own = unit_expansion_values(netlist, UNIT_OPAMP) if one else unit_expansion_values(netlist)
+        exp, own = unit_expansion_values(netlist, UNIT_OPAMP, fit=one)
     except ExpansionUnavailable:
-        return None
+        if one:
+            return None
+        try:
+            exp, own = unit_expansion_values(netlist)
+        except ExpansionUnavailable:
+            return None
     col = exp.column
     if any(r not in col for r in refs):
         return None
@@ -572,8 +587,10 @@ def _expansion_setup(netlist: Netlist, refs: list[str], n_ideal: int) -> _Expand
     # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
     rows = n_ideal + 1 if one else n_ideal
     lr = exp.log_ratios_of(own) + _sensitivity_steps(rows, len(own), tuple(col[r] for r in refs))
-    absent = _absent_mask(rows, len(own), col["gbw"], col["a0"]) if one else None
-    return _Expanded(netlist, exp, lr, absent, n_ideal)
+    if one:
+        return _Expanded(netlist, exp, lr, _absent_mask(rows, len(own), col["gbw"], col["a0"]), n_ideal)
+    ideal = exp.ideal_part()
+    return _Expanded(netlist, exp, lr, None, n_ideal) if ideal is None else _Expanded(netlist, ideal, lr, None, n_ideal, exp)
 
 
 def _first_pass_expanded(setups: Sequence[_Expanded], w_ref: float | None) -> list:
@@ -586,59 +603,127 @@ def _first_pass_expanded(setups: Sequence[_Expanded], w_ref: float | None) -> li
     (:meth:`~bandsmith.solver.expansion.Expansion.dense_log` of ``(G, members, n_var)``: its
     products one per candidate, so each candidate's coefficients are those it has alone, bit for
     bit; rows stacked into one matrix would not be: a BLAS product may round a row differently
-    by its place)."""
-    out: list = [None] * len(setups)
+    by its place); every candidate's coefficients are then scaled in one batch
+    (:func:`_expanded_rationals`), and the families of those with several op-amps made together
+    (:func:`bandsmith.analysis.transfer.several_amp_families`)."""
+    blocks: list = [None] * len(setups)
     groups: dict[tuple, list[int]] = {}
     for k, setup in enumerate(setups):
         groups.setdefault((id(setup.exp), setup.log_ratios.shape[0]), []).append(k)
     for ks in groups.values():
         first = setups[ks[0]]
         if len(ks) == 1:
-            blocks = [first.exp.dense_log(first.log_ratios, absent=first.absent)]
+            blocks[ks[0]] = first.exp.dense_log(first.log_ratios, absent=first.absent)
         else:
             lr = np.stack([setups[k].log_ratios for k in ks])
             absent = None if first.absent is None else np.stack([setups[k].absent for k in ks])
             num, den = first.exp.dense_log(lr, absent=absent)
-            blocks = list(zip(num, den))
-        together = len(ks) > 1 and first.absent is None  # several op-amps: the group's families in one batch
-        for k, (num, den) in zip(ks, blocks):
-            out[k] = _expanded_rational(setups[k], num, den, w_ref, family=not together)
-        if together:
-            made = [k for k in ks if out[k] is not None]
-            families = several_amp_families([setups[k].netlist for k in made], [out[k][0] for k in made])
-            for k, family in zip(made, families):
-                out[k] = (*out[k][:2], family)
+            for k, n, d in zip(ks, num, den):
+                blocks[k] = (n, d)
+    out = _expanded_rationals(setups, blocks, w_ref)
+    several = [k for k, made in enumerate(out) if made is not None and setups[k].absent is None]
+    if several:
+        families = several_amp_families([setups[k].netlist for k in several], [out[k][0] for k in several],
+                                        [_family_source(setups[k]) for k in several])
+        for k, family in zip(several, families):
+            out[k] = (*out[k][:2], family)
     return out
 
 
-def _expanded_rational(setup: _Expanded, num: np.ndarray, den: np.ndarray, w_ref: float | None, *, family: bool = True):
-    """``(w_ref, h, family)`` of one candidate from its members' dense coefficients in the unit
-    expansion's ``p = s`` (highest power first), or None where they cannot serve; a
-    several-op-amp candidate's family is None without ``family`` (its caller makes a group's
-    together, :func:`bandsmith.analysis.transfer.several_amp_families`)."""
-    n_ideal = setup.n_ideal
-    d0 = den[0]
-    nz = np.flatnonzero(d0)
-    if nz.size < 2 or not np.isfinite(den).all():
-        return None
-    if w_ref is None:  # geometric mean of the finite, nonzero poles (bandsmith.solver.rational.reference_w)
-        w_ref = float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0])))
-    to_p = w_ref ** np.arange(den.shape[1] - 1, -1, -1.0)  # c·s^k = c·w_ref^k·p^k
-    den_p = den[:n_ideal] * to_p
-    num_p = num[:n_ideal] * w_ref ** np.arange(num.shape[1] - 1, -1, -1.0)
+def _family_source(setup: _Expanded) -> tuple[Expansion, np.ndarray] | None:
+    """The expansion with the op-amps' stamps and the log ratios of member 0 over it that give a
+    several-op-amp candidate's family, where its set-up holds them (None: looked up)."""
+    return None if setup.opamp_exp is None else (setup.opamp_exp, setup.log_ratios[0])
+
+
+def _expanded_rationals(setups: Sequence[_Expanded], blocks: Sequence[tuple[np.ndarray, np.ndarray]], w_ref: float | None) -> list:
+    """``(w_ref, h, family)`` of each candidate from its members' dense coefficients ``(num, den)``
+    in the unit expansion's ``p = s`` (highest power first), or None where they cannot serve (a
+    nominal denominator with fewer than two nonzero coefficients, or a coefficient that is not a
+    number); the family is the one-op-amp :class:`OpAmpFamily`, None with several op-amps (their
+    caller makes those).
+
+    Each candidate's ``w_ref`` (unless given) is the geometric mean of its nominal circuit's finite,
+    nonzero poles (:func:`bandsmith.solver.rational.reference_w`), ``(|d_last|/|d_first|)^(1/(last −
+    first))`` over its first and last nonzero coefficients. In ``p = s/w_ref`` a coefficient of
+    ``s^k`` becomes ``c·w_ref^k``, and each member is scaled by its denominator's largest
+    coefficient: the same operations on every row, so the ideal members of all candidates are
+    taken in one batch, each block padded with leading zeros to the widest (a padded zero stays
+    zero and leaves each row's largest coefficient as it is), then each candidate's rows taken
+    back with their leading zero columns dropped: the numbers each gets alone.
+
+    The one-op-amp family ``D = D0 − s·(1/ωt)·M − (1/A0)·M`` takes ``s·M`` from the member after
+    the ideal ones (``1/ωt = 1``)."""
+    out: list = [None] * len(setups)
+    live, widths, w_of = [], [0, 0], []
+    for k, (setup, (num, den)) in enumerate(zip(setups, blocks)):
+        d0 = den[0].tolist()
+        nz = [j for j, v in enumerate(d0) if v != 0.0]  # (a NaN counts, as numpy's nonzero counts it)
+        if len(nz) < 2:
+            continue
+        w = float(w_ref) if w_ref is not None else float((abs(d0[nz[-1]]) / abs(d0[nz[0]])) ** (1.0 / (nz[-1] - nz[0])))
+        live.append(k)
+        w_of.append(w)
+        widths = [max(widths[0], num.shape[1]), max(widths[1], den.shape[1])]
+    if not live:
+        return out
+    counts = [setups[k].n_ideal for k in live]
+    rows = sum(counts)
+    wn, wd = widths
+    num_all, den_all = np.zeros((rows, wn)), np.zeros((rows, wd))
+    start = 0
+    for k, n in zip(live, counts):
+        num, den = blocks[k]
+        num_all[start : start + n, wn - num.shape[1] :] = num[:n]
+        den_all[start : start + n, wd - den.shape[1] :] = den[:n]
+        start += n
+    w_rows = np.repeat(w_of, counts)[:, None]
+    to_p = w_rows ** _descending(wd)  # c·s^k = c·w_ref^k·p^k, column by column
+    den_p = den_all * to_p
+    num_p = num_all * (to_p[:, wd - wn :] if wn <= wd else w_rows ** _descending(wn))
     scale = np.abs(den_p).max(axis=1, keepdims=True)
-    h = Rational(_lead_trim(num_p / scale), _lead_trim(den_p / scale), np.full(n_ideal, float(w_ref)))
-    if setup.absent is None:
-        return float(w_ref), h, several_amp_family(setup.netlist, float(w_ref)) if family else None
-    # the one-op-amp family D = D0 − s·(1/ωt)·M − (1/A0)·M: s·M from the member with 1/ωt = 1
-    m_s = np.zeros(den.shape[1])
-    m_s[1:] = (d0 - den[n_ideal])[:-1]
-    s0 = scale[0, 0]
-    family = OpAmpFamily(
-        _lead_trim(num_p[:1] / s0)[0], _lead_trim(den_p[:1] / s0)[0], _lead_trim((m_s * to_p)[None, :] / s0)[0],
-        float(w_ref),
-    )
-    return float(w_ref), h, family
+    num_s, den_s = num_p / scale, den_p / scale
+    finite = np.isfinite(den_all).all(axis=1).tolist()
+    # each candidate's leading columns zero in all its rows (what _lead_trim drops; a NaN is not zero)
+    starts = list(itertools.accumulate(counts[:-1], initial=0))
+    lead_num, lead_den = (np.logical_or.reduceat(c != 0, starts, axis=0).tolist() for c in (num_s, den_s))
+    for k, n, w, start, nz_num, nz_den in zip(live, counts, w_of, starts, lead_num, lead_den):
+        rows_k = slice(start, start + n)
+        setup, (num, den) = setups[k], blocks[k]
+        if not all(finite[rows_k]) or (setup.absent is not None and not all(map(math.isfinite, den[n].tolist()))):
+            continue
+        h = Rational(num_s[rows_k, _first_nonzero(nz_num) :], den_s[rows_k, _first_nonzero(nz_den) :], np.full(n, w))
+        if setup.absent is None:
+            out[k] = (w, h, None)
+            continue
+        # the one-op-amp family: s·M from the member with 1/ωt = 1, in p and scaled as member 0
+        m_s = np.zeros(den.shape[1])
+        m_s[1:] = (den[0] - den[n])[:-1]
+        first = rows_k.start
+        s0 = scale[first, 0]
+        own_p = to_p[first, wd - den.shape[1] :]
+        family = OpAmpFamily(
+            _lead_trim(num_s[first : first + 1])[0], _lead_trim(den_s[first : first + 1])[0],
+            _lead_trim((m_s * own_p)[None, :] / s0)[0], w,
+        )
+        out[k] = (w, h, family)
+    return out
+
+
+def _first_nonzero(flags: list[bool]) -> int:
+    """The first column a polynomial keeps (:func:`~bandsmith.solver.rational._lead_trim`'s rule):
+    the first of ``flags`` (nonzero in some row) that is set, the last column if none is."""
+    return next((j for j, f in enumerate(flags) if f), len(flags) - 1)
+
+
+_DESCENDING = np.arange(63, -1, -1.0)
+_DESCENDING.setflags(write=False)
+
+
+def _descending(width: int) -> np.ndarray:
+    """The exponents ``width − 1, …, 1, 0`` of a polynomial's coefficients, highest first (kept
+    up to degree 63, far beyond any circuit's)."""
+    return _DESCENDING[_DESCENDING.size - width :] if width <= _DESCENDING.size else np.arange(width - 1, -1, -1.0)
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:

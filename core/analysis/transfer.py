@@ -57,9 +57,11 @@ def transfer_function(
     return rational_from_system(system, w_ref)
 
 
-def several_amp_family(netlist: Netlist, w_ref: float) -> AmpFamily | None:
+def several_amp_family(netlist: Netlist, w_ref: float, source: tuple | None = None) -> AmpFamily | None:
     """The :class:`~bandsmith.solver.rational.AmpFamily` of a netlist with several op-amps (its
-    own values), in ``p = s/w_ref`` (rad/s); None with fewer than two.
+    own values), in ``p = s/w_ref`` (rad/s); None with fewer than two. ``source``, where the
+    caller has them: the kept expansion with the op-amps' stamps of its structure and the log
+    ratios of its values over it (what :func:`_opamp_expansion` looks up).
 
     From the expansion with the op-amps' stamps
     (:meth:`bandsmith.solver.expansion.Expansion.opamp_terms`: one product over its monomials), or
@@ -68,13 +70,14 @@ def several_amp_family(netlist: Netlist, w_ref: float) -> AmpFamily | None:
     a second). Both agree with a direct solve to about 1e-12 (tests/test_expansion.py)."""
     if len(netlist.opamps) < 2:
         return None
-    exp, log_ratios = _opamp_expansion(netlist)
+    exp, log_ratios = source or _opamp_expansion(netlist)
     return _family(netlist, exp, log_ratios, w_ref)
 
 
-def several_amp_families(netlists: Sequence[Netlist], w_refs: Sequence[float]) -> list[AmpFamily | None]:
-    """:func:`several_amp_family` of several netlists (``w_refs`` in rad/s, one each): those of one
-    structure (a chain's stages on one circuit) from their expansion in one batch
+def several_amp_families(netlists: Sequence[Netlist], w_refs: Sequence[float], sources: Sequence[tuple | None] | None = None) -> list[AmpFamily | None]:
+    """:func:`several_amp_family` of several netlists (``w_refs`` in rad/s, one each; ``sources``
+    one each as it takes them, or None): those of one structure (a chain's stages on one
+    circuit) from their expansion in one batch
     (:meth:`~bandsmith.solver.expansion.Expansion.opamp_terms` of a stack), each the family it
     has alone, bit for bit (tested); the others one by one."""
     out: list = [None] * len(netlists)
@@ -82,7 +85,7 @@ def several_amp_families(netlists: Sequence[Netlist], w_refs: Sequence[float]) -
     for k, netlist in enumerate(netlists):
         if len(netlist.opamps) < 2:
             continue
-        exp, log_ratios = _opamp_expansion(netlist)
+        exp, log_ratios = (sources[k] if sources is not None else None) or _opamp_expansion(netlist)
         if exp is None:
             out[k] = _family(netlist, None, None, float(w_refs[k]))
         else:

@@ -27,6 +27,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -602,6 +603,7 @@ class Expansion:
         self._loops = None  # the monomials' factors and terms of the large-batch loops, made when first needed
         self._plan: _CoefficientPlan | None = None
         self._picks = None  # (:meth:`_opamp_picks`, made when first asked)
+        self._ideal: _IdealPart | None = None  # (:meth:`ideal_part`, made when first asked)
         # For :meth:`dense_log`: exponents over the log *ratios* (an inverse parameter's stamp is
         # the reciprocal: its row negated), the log ratio that makes a stamp absent (the fit's,
         # shared: read only), and term matrices onto every power of p, highest first.
@@ -786,6 +788,24 @@ class Expansion:
         weighted = signs * mono  # (m + 1, M): row j the monomials of (1/A0)^j, signed (−1)^j
         return weighted @ self._num_dense, weighted @ self._den_dense
 
+    def ideal_part(self) -> "_IdealPart | None":
+        """The circuit with ideal op-amps (``1/A0 = 1/ω_t = 0``) from this expansion with the
+        op-amps' stamps: the monomials with no op-amp stamp (``N_0`` and ``D_0`` of
+        :meth:`opamp_terms`), for log ratios over this expansion's variables (made when first
+        asked; None without op-amp variables). Its :meth:`_IdealPart.dense_log` is :meth:`dense_log`
+        with every op-amp stamp absent, the same polynomials summed over those few monomials only:
+        one table entry serves a circuit's ideal members and its op-amp family."""
+        if self._ideal is None:
+            picks = self._opamp_picks()
+            if picks is None:
+                return None
+            sel = np.flatnonzero(picks[1][0])  # row 0: the monomials of (1/A0)^0 with no 1/ω_t
+            num, den = self._num_dense[sel], self._den_dense[sel]
+            # the leading powers only the op-amps' stamps reach: zero in every kept monomial
+            lead_n, lead_d = (next((j for j, f in enumerate(c.any(axis=0).tolist()) if f), c.shape[1] - 1) for c in (num, den))
+            self._ideal = _IdealPart(np.ascontiguousarray(self._exps_ratio[:, sel]), num[:, lead_n:].copy(), den[:, lead_d:].copy())
+        return self._ideal
+
     def _opamp_picks(self):
         """For :meth:`opamp_terms`: the mask of the variables that are not the op-amp's, and a
         ``(m + 1, M)`` matrix with ``(−1)^j`` in row ``j`` at the monomials with ``1/A0`` to the
@@ -839,6 +859,29 @@ class Expansion:
     def pure_bandpass(self) -> bool:
         """True when every member is ``b1·p / (a2·p² + a1·p + a0)``, a second-order band-pass."""
         return self.num_powers == (1,) and self.den_powers == (0, 1, 2)
+
+
+class _IdealPart(NamedTuple):
+    """:meth:`Expansion.ideal_part`: the exponents over the log ratios ``(n_var, M0)`` of the
+    monomials with no op-amp stamp, and their terms onto every power of p, highest first
+    (``(M0, k)``, the leading powers no such monomial reaches dropped)."""
+
+    exps_ratio: np.ndarray
+    num_dense: np.ndarray
+    den_dense: np.ndarray
+
+    def dense_log(self, log_ratios: np.ndarray, *, absent: None = None) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`Expansion.dense_log` of the circuit with ideal op-amps (the op-amps' columns of
+        ``log_ratios`` are not read; ``absent`` is there for the signature only: None)."""
+        with np.errstate(invalid="ignore", over="ignore"):
+            finite = np.isfinite(log_ratios)
+            mono = np.exp(log_ratios @ self.exps_ratio)
+            num, den = mono @ self.num_dense, mono @ self.den_dense
+        if not finite.all():
+            bad = ~finite.all(axis=-1)
+            num[bad] = np.nan
+            den[bad] = np.nan
+        return num, den
 
 
 def _row_abs_max(a: np.ndarray) -> np.ndarray:
