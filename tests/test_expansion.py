@@ -130,6 +130,42 @@ def test_opamp_terms_give_the_circuit_at_every_gbw(topo):
     assert unit_expansion(base)[0].opamp_terms(np.zeros(len(base.passives))) is None  # no op-amp variables
 
 
+@pytest.mark.parametrize("topo", [t for t in all_topologies() if len(t.build(t.example).opamps) > 1], ids=lambda t: t.id)
+def test_ideal_part_is_the_circuit_with_ideal_opamps(topo):
+    """Expansion.ideal_part (the monomials of the expansion with the op-amps' stamps that carry
+    none, what the first pass of a several-op-amp circuit takes its ideal members through) against
+    the ideal expansion of the same structure and the op-amp terms' x^0 row at random part values:
+    the same polynomials to 1e-14 relative (each expansion's coefficients are fitted, so they may
+    differ in the last bit), and against a direct MNA solve with ideal op-amps (numpy.linalg.solve
+    of the stamped pencil) to 1e-12."""
+    from bandsmith.solver.expansion import UNIT_OPAMP, unit_expansion_values
+
+    rng = np.random.default_rng(5)
+    base = topo.build(topo.example)
+    opamp_exp, _ = unit_expansion_values(base, UNIT_OPAMP)
+    ideal_exp, _ = unit_expansion_values(base)
+    part = opamp_exp.ideal_part()
+    assert part is opamp_exp.ideal_part()  # made once per structure
+    assert part.exps_ratio.shape[1] == ideal_exp._exps_ratio.shape[1]  # as few monomials as the ideal expansion
+    for _ in range(5):
+        netlist = base.with_values({r: v * float(np.exp(rng.uniform(-0.5, 0.5))) for r, v in base.values().items()})
+        lr_op = opamp_exp.log_ratios_of(unit_expansion_values(netlist, UNIT_OPAMP)[1])
+        num, den = part.dense_log(lr_op[None, :])
+        num_i, den_i = ideal_exp.dense_log(ideal_exp.log_ratios_of(unit_expansion_values(netlist)[1])[None, :])
+        np.testing.assert_allclose(num, num_i, rtol=1e-14, atol=1e-14 * np.abs(num_i).max())
+        np.testing.assert_allclose(den, den_i, rtol=1e-14, atol=1e-14 * np.abs(den_i).max())
+        num_t, den_t = opamp_exp.opamp_terms(lr_op)
+        np.testing.assert_allclose(num[0], num_t[0, num_t.shape[1] - num.shape[1] :], rtol=1e-14, atol=1e-14 * np.abs(num).max())
+        np.testing.assert_allclose(den[0], den_t[0, den_t.shape[1] - den.shape[1] :], rtol=1e-14, atol=1e-14 * np.abs(den).max())
+        system = build_system(netlist)
+        s = 1j * np.geomspace(1e2, 1e5, 7)
+        a = system.G[0][None] + s[:, None, None] * system.C[0][None]
+        x = np.linalg.solve(a, np.broadcast_to(system.source_vector().astype(complex), a.shape[:-1])[..., None])
+        got = np.polyval(num[0], s) / np.polyval(den[0], s)
+        np.testing.assert_allclose(got, x[:, system.output_index, 0], rtol=1e-12)
+    assert unit_expansion_values(base)[0].ideal_part() is None  # no op-amp variables
+
+
 def test_an_unfitted_structure_is_refused_when_no_fit_is_wanted():
     # A structure neither fitted in this process nor in the shipped table raises instead of being
     # fitted (fit=False); fitted once, it is served.
