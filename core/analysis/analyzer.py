@@ -750,12 +750,17 @@ def _first_pass_many(
     quick = dict(zip(live, _first_pass_expanded([setups[k] for k in live], w_ref))) if live else {}
     made = [(values, refs, quick.get(k) or _perturbed(netlist, values, refs, w_ref)) for k, (netlist, values, refs) in enumerate(made)]
     measured = nominal_and_peaks_many([h for _, _, (_, h, _) in made])
-    out = []
-    for (values, refs, (w, h, family)), (nominal, peaks) in zip(made, measured):
+    # every candidate's slopes in one batch: its perturbed members come in up/down pairs, so
+    # their columns joined side by side keep each pair together
+    slopes = log_slopes(np.concatenate([peaks[:, 1:] for _, peaks in measured], axis=1)).tolist()
+    out, start = [], 0
+    for (values, refs, (w, h, family)), (nominal, _) in zip(made, measured):
+        stop = start + len(refs)
         sens = {}
-        for key, row in zip(("f0", "q", "gain"), log_slopes(peaks[:, 1:]).tolist()):
-            by_ref = dict(zip(refs, row))
+        for key, row in zip(("f0", "q", "gain"), slopes):
+            by_ref = dict(zip(refs, row[start:stop]))
             sens[key] = {r: by_ref.get(r, 0.0) for r in values}
+        start = stop
         out.append(_FirstPass(float(w), h.item(0), nominal, sens, family))
     return out
 
