@@ -668,25 +668,31 @@ def _expanded_rationals(setups: Sequence[_Expanded], blocks: Sequence[tuple[np.n
     if not live:
         return out
     counts = [setups[k].n_ideal for k in live]
-    rows = sum(counts)
     wn, wd = widths
-    num_all, den_all = np.zeros((rows, wn)), np.zeros((rows, wd))
-    start = 0
-    for k, n in zip(live, counts):
-        num, den = blocks[k]
-        num_all[start : start + n, wn - num.shape[1] :] = num[:n]
-        den_all[start : start + n, wd - den.shape[1] :] = den[:n]
-        start += n
-    w_rows = np.repeat(w_of, counts)[:, None]
+    if len(live) == 1:  # one candidate (an analysis alone): its own blocks, no padding
+        num_all, den_all = blocks[live[0]][0][: counts[0]], blocks[live[0]][1][: counts[0]]
+        w_rows = w_of[0]
+    else:
+        num_all, den_all = np.zeros((sum(counts), wn)), np.zeros((sum(counts), wd))
+        start = 0
+        for k, n in zip(live, counts):
+            num, den = blocks[k]
+            num_all[start : start + n, wn - num.shape[1] :] = num[:n]
+            den_all[start : start + n, wd - den.shape[1] :] = den[:n]
+            start += n
+        w_rows = np.repeat(w_of, counts)[:, None]
     to_p = w_rows ** _descending(wd)  # c·s^k = c·w_ref^k·p^k, column by column
     den_p = den_all * to_p
-    num_p = num_all * (to_p[:, wd - wn :] if wn <= wd else w_rows ** _descending(wn))
+    num_p = num_all * (to_p[..., wd - wn :] if wn <= wd else w_rows ** _descending(wn))
     scale = np.abs(den_p).max(axis=1, keepdims=True)
     num_s, den_s = num_p / scale, den_p / scale
     finite = np.isfinite(den_all).all(axis=1).tolist()
     # each candidate's leading columns zero in all its rows (what _lead_trim drops; a NaN is not zero)
     starts = list(itertools.accumulate(counts[:-1], initial=0))
-    lead_num, lead_den = (np.logical_or.reduceat(c != 0, starts, axis=0).tolist() for c in (num_s, den_s))
+    if len(live) == 1:
+        lead_num, lead_den = ([(c != 0).any(axis=0).tolist()] for c in (num_s, den_s))
+    else:
+        lead_num, lead_den = (np.logical_or.reduceat(c != 0, starts, axis=0).tolist() for c in (num_s, den_s))
     for k, n, w, start, nz_num, nz_den in zip(live, counts, w_of, starts, lead_num, lead_den):
         rows_k = slice(start, start + n)
         setup, (num, den) = setups[k], blocks[k]
@@ -701,7 +707,7 @@ def _expanded_rationals(setups: Sequence[_Expanded], blocks: Sequence[tuple[np.n
         m_s[1:] = (den[0] - den[n])[:-1]
         first = rows_k.start
         s0 = scale[first, 0]
-        own_p = to_p[first, wd - den.shape[1] :]
+        own_p = (to_p if to_p.ndim == 1 else to_p[first])[wd - den.shape[1] :]
         family = OpAmpFamily(
             _lead_trim(num_s[first : first + 1])[0], _lead_trim(den_s[first : first + 1])[0],
             _lead_trim((m_s * own_p)[None, :] / s0)[0], w,
