@@ -1153,6 +1153,35 @@ def test_several_amp_families_made_together_equal_each_made_alone(circuit):
             assert_array_equal(a, b)
 
 
+def test_several_amp_families_of_several_structures_equal_each_made_alone():
+    """several_amp_families of a compare's circuits (one netlist of each several-op-amp circuit,
+    their terms scaled together padded to one stack: _scaled_apart) against several_amp_family
+    netlist by netlist: the same terms bit for bit, with the number of terms and their lengths
+    each family's own. A consistency check of our own two paths, no outside source."""
+    import math
+
+    from bandsmith.analysis.transfer import several_amp_families, several_amp_family
+    from numpy.testing import assert_array_equal
+
+    rng = np.random.default_rng(21)
+    for _ in range(10):
+        netlists, w_refs = [], []
+        for circuit in ("dabp", "state-variable", "tow-thomas", "akerberg-mossberg", "mfb"):
+            topo = get_topology(circuit)
+            values = topo.values_from({k: v * float(np.exp(rng.uniform(-0.5, 0.5))) if v > 0 else v for k, v in topo.example.items()})
+            netlists.append(topo.build(values))
+            w_refs.append(2 * math.pi * 1e3 * float(np.exp(rng.uniform(-3, 3))))
+        together = several_amp_families(netlists, w_refs)
+        assert together[-1] is None
+        for netlist, w, fam in zip(netlists[:-1], w_refs, together):
+            alone = several_amp_family(netlist, w)
+            assert fam.w_ref == alone.w_ref
+            assert len(fam.num_terms) == len(alone.num_terms) and len(fam.den_terms) == len(alone.den_terms)
+            for a, b in zip(fam.num_terms + fam.den_terms, alone.num_terms + alone.den_terms):
+                assert a.shape == b.shape
+                assert_array_equal(a, b)
+
+
 def test_response_on_the_imaginary_axis_equals_at_s():
     """Rational.at_f (its points p = jω/w_ref as one real product, _jw) against at_s of
     s = 2πf·j (a complex division by w_ref): the same responses bit for bit, over random

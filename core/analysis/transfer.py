@@ -90,17 +90,49 @@ def several_amp_families(netlists: Sequence[Netlist], w_refs: Sequence[float], s
             out[k] = _family(netlist, None, None, float(w_refs[k]))
         else:
             groups.setdefault(id(exp), (exp, []))[1].append((k, log_ratios))
+    alone = []  # (k, its terms): the members alone in their structure, scaled together below
     for exp, members in groups.values():
-        terms = exp.opamp_terms(np.stack([lr for _, lr in members])) if len(members) > 1 else None
-        if terms is None:  # one member, or no op-amp terms: each as alone
-            for k, log_ratios in members:
-                out[k] = _family(netlists[k], exp, log_ratios, float(w_refs[k]))
+        if len(members) == 1:
+            k, log_ratios = members[0]
+            terms = exp.opamp_terms(log_ratios)
+            if terms is None:
+                out[k] = _family(netlists[k], None, None, float(w_refs[k]))
+            else:
+                alone.append((k, terms))
+            continue
+        terms = exp.opamp_terms(np.stack([lr for _, lr in members]))
+        if terms is None:  # no op-amp terms: each from its sampled pencil
+            for k, _ in members:
+                out[k] = _family(netlists[k], None, None, float(w_refs[k]))
             continue
         w = [float(w_refs[k]) for k, _ in members]
         num, den = _scaled_terms(*terms, np.array(w)[:, None])
         for (k, _), n, d, w_ref in zip(members, num, den, w):
             out[k] = AmpFamily(tuple(n), tuple(d), w_ref)
+    if len(alone) == 1:
+        (k, terms), = alone
+        num, den = _scaled_terms(*terms, float(w_refs[k]))
+        out[k] = AmpFamily(tuple(num), tuple(den), float(w_refs[k]))
+    elif alone:
+        for (k, _), (num, den) in zip(alone, _scaled_apart([terms for _, terms in alone], [float(w_refs[k]) for k, _ in alone])):
+            out[k] = AmpFamily(tuple(num), tuple(den), float(w_refs[k]))
     return out
+
+
+def _scaled_apart(terms: Sequence[tuple[np.ndarray, np.ndarray]], w_refs: Sequence[float]) -> list[tuple[np.ndarray, np.ndarray]]:
+    """:func:`_scaled_terms` of several families' terms of different shapes (circuits of several
+    structures: a compare's), in one batch: each family's ``(m + 1, k)`` terms padded with zero rows
+    below and zero columns in front to one ``(G, m + 1, k)`` stack (a padded zero stays zero, and
+    leaves each family's largest coefficient of ``D_0`` as it is), scaled, and taken back as views
+    of its own shape: the numbers it gets alone."""
+    rows = max(n.shape[0] for n, _ in terms)
+    kn, kd = max(n.shape[1] for n, _ in terms), max(d.shape[1] for _, d in terms)
+    num, den = np.zeros((len(terms), rows, kn)), np.zeros((len(terms), rows, kd))
+    for g, (n, d) in enumerate(terms):
+        num[g, : n.shape[0], kn - n.shape[1] :] = n
+        den[g, : d.shape[0], kd - d.shape[1] :] = d
+    num, den = _scaled_terms(num, den, np.array(w_refs)[:, None])
+    return [(num[g, : n.shape[0], kn - n.shape[1] :], den[g, : d.shape[0], kd - d.shape[1] :]) for g, (n, d) in enumerate(terms)]
 
 
 def _opamp_expansion(netlist: Netlist):
