@@ -316,23 +316,30 @@ def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
     return out
 
 
-def _in_p_columns(c: np.ndarray, ks: list[float], sizes: list[int]) -> list[np.ndarray]:
-    """The columns of joined dense coefficients ``c`` (highest power first), each contiguous,
-    each search's members (``sizes`` of them, in turn) taken to ``p = s/w_ref`` by its ``k`` of
+def _in_p_columns(c: np.ndarray, ks: list[float], sizes: list[int]) -> np.ndarray:
+    """Joined dense coefficients ``c`` (highest power first) in a new column-major array, each
+    search's members (``sizes`` of them, in turn) taken to ``p = s/w_ref`` by its ``k`` of
     ``ks``: column ``j`` times ``k`` to the power ``n − 1 − j``, those powers
     ``k ** arange(n − 1, −1, −1.0)`` as :meth:`~bandsmith.solver.expansion.Expansion.rational_log`
-    makes them (once per distinct ``k``); copies of the columns where every ``k`` is 1 (no change
-    of variable)."""
+    makes them (once per distinct ``k``), each column's products written into its place; a copy
+    where every ``k`` is 1 (no change of variable)."""
+    out = np.empty(c.shape, order="F")
     distinct = list(dict.fromkeys(ks))
     n = c.shape[1]
     if distinct == [1.0]:
-        return [c[:, j].copy() for j in range(n)]
+        out[...] = c
+        return out
     powers = [k ** np.arange(n - 1, -1, -1.0) for k in distinct]
     if len(distinct) == 1:
-        return [c[:, j] * powers[0][j] for j in range(n)]
+        for j in range(n):
+            np.multiply(c[:, j], powers[0][j], out=out[:, j])
+        return out
     at = {k: i for i, k in enumerate(distinct)}
-    table = np.array(powers)[[at[k] for k in ks]].T  # (n, searches)
-    return [c[:, j] * np.repeat(table[j], sizes) for j in range(n)]
+    # (n, members): row j every member's power of its k, each search's repeated over its members
+    repeated = np.repeat(np.array(powers)[[at[k] for k in ks]].T, sizes, axis=1)
+    for j in range(n):
+        np.multiply(c[:, j], repeated[j], out=out[:, j])
+    return out
 
 
 def _joined_rows(searches: list[_Search]) -> tuple[Rational, list[int]]:
@@ -474,64 +481,80 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
             continue
         entries = _log_entries(made.flat, own, _log_plan(exp, made.free, made.sizes))
         stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, entries))
-    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray]]] = {}
+    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, bool]]] = {}
     for (exp, free, sizes), group in stacks.items():
         gather = _log_plan(exp, free, sizes)[2]
         # one log of every member's entries, one gather of their rows (the stack's batch g from row g of its logs);
         # where every offered value's log is finite, so is every combination's row (none looked for)
         logs = np.log(group[0][2] if len(group) == 1 else np.concatenate([entries for _, _, entries in group]))
-        dense = exp.dense_log_finite if np.isfinite(logs).all() else exp.dense_log
+        finite = bool(np.isfinite(logs).all())
         if len(group) == 1:
-            num, den = dense(logs.take(gather))
+            gathered = logs.take(gather)
         else:  # (the stack's logs as rows, each row's entries taken by the one gather: numpy's take
             # along an axis copies the same numbers as the fancy index of offset positions, at half the cost)
-            num, den = dense(logs.reshape(len(group), -1).take(gather, axis=1))
-            num, den = num.reshape(-1, num.shape[-1]), den.reshape(-1, den.shape[-1])  # (each batch's rows in turn)
-        by_widths.setdefault((num.shape[1], den.shape[1]), []).append((exp, group, num, den))
-    for blocks in by_widths.values():
-        _scaled_searches(blocks, out)
+            gathered = logs.reshape(len(group), -1).take(gather, axis=1)
+        by_widths.setdefault(exp.dense_widths, []).append((exp, group, gathered, finite))
+    for widths, blocks in by_widths.items():
+        _scaled_searches(blocks, widths, out)
     return out
 
 
-def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]], out: list) -> None:
+def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, bool]], widths: tuple[int, int], out: list) -> None:
     """The searches of ``blocks`` made into :class:`_Search` es, placed in ``out``. Each block is
-    ``(exp, group, num, den)``: a stack's searches (``group``, as ``(k, setup, entries)`` with
-    ``k`` the place in ``out``) and the dense coefficients of their combinations in the
-    expansion's ``p`` (:meth:`~bandsmith.solver.expansion.Expansion.dense_log`, the searches'
-    rows in turn), every block of one width. Their transfer functions are those
-    :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
-    bit, from one set of array calls for all the blocks (a compare's seven circuits).
+    ``(exp, group, logs, finite)``: a stack's searches (``group``, as ``(k, setup, entries)`` with
+    ``k`` the place in ``out``), the log ratios of their combinations (``(B, n_var)``, or
+    ``(G, B, n_var)`` for a stack of ``G``) and whether every one is finite; every block's dense
+    coefficients of the ``widths`` given (numerator, denominator). Their transfer functions are
+    those :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit
+    for bit, from one set of array calls for all the blocks (a compare's seven circuits).
 
-    Each step is rational_log's, member by member: the change of variable to ``p = s/w_ref``
-    multiplies the coefficients of a search by the powers of its own ``k = w_ref/w_e`` (the same
-    ``k ** arange`` of the same two numbers, made once per distinct ``k``; a product by 1 where
-    the expansion's ``w_e`` is kept, which is exact), and each member is divided by its largest
-    denominator coefficient in size (a maximum rounds nothing; the same quotients). Those steps
-    go column by column (numpy loops slowly along rows of two or three coefficients, a tenth of
-    the speed), each column made contiguous by the first, into column-major arrays, whose
-    columns the closed form then reads whole. The searches' transfer functions are rows of the
-    joined batch, which :func:`_peak_costs` takes whole where it costs these searches together."""
-    num = blocks[0][2] if len(blocks) == 1 else np.concatenate([n for _, _, n, _ in blocks])
-    den = blocks[0][3] if len(blocks) == 1 else np.concatenate([d for _, _, _, d in blocks])
+    The dense coefficients in the expansion's ``p`` are :meth:`~bandsmith.solver.expansion.Expansion.dense_log`'s
+    (its products written straight into the joined batch's rows by
+    :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_into` where every log is
+    finite: no block's own arrays to join). Each further step is rational_log's, member by member:
+    the change of variable to ``p = s/w_ref`` multiplies the coefficients of a search by the
+    powers of its own ``k = w_ref/w_e`` (the same ``k ** arange`` of the same two numbers, made
+    once per distinct ``k``; a product by 1 where the expansion's ``w_e`` is kept, which is
+    exact), and each member is divided by its largest denominator coefficient in size (a maximum
+    rounds nothing; the same quotients). Those steps go column by column (numpy loops slowly
+    along rows of two or three coefficients, a tenth of the speed), in place in column-major
+    arrays, whose columns the closed form then reads whole: over a chain's tens of thousands of
+    combinations every array freshly made costs its memory's first use, so none is made that is
+    not needed. The searches' transfer functions are rows of the joined batch, which
+    :func:`_peak_costs` takes whole where it costs these searches together."""
+    rows = [logs.size // logs.shape[-1] for _, _, logs, _ in blocks]
+    total = sum(rows)
+    num = np.empty((total, widths[0]))
+    den = np.empty((total, widths[1]))
+    start = 0
+    for (exp, _, logs, finite), size in zip(blocks, rows):
+        num_rows, den_rows = num[start:start + size], den[start:start + size]
+        if finite:
+            if logs.ndim == 3:  # (a stack: its batches' rows in turn)
+                num_rows, den_rows = num_rows.reshape(*logs.shape[:2], widths[0]), den_rows.reshape(*logs.shape[:2], widths[1])
+            exp.dense_log_finite_into(logs, num_rows, den_rows)
+        else:
+            block_num, block_den = exp.dense_log(logs)
+            num_rows[...] = block_num.reshape(size, widths[0])
+            den_rows[...] = block_den.reshape(size, widths[1])
+        start += size
     searches = [(k, made, exp) for exp, group, _, _ in blocks for k, made, _ in group]
     sizes = [made.combinations for _, made, _ in searches]
     ks = [1.0 if made.spec.w0 == exp.w_ref else made.spec.w0 / exp.w_ref for _, made, exp in searches]
-    num_cols, den_cols = _in_p_columns(num, ks, sizes), _in_p_columns(den, ks, sizes)
-    # column by column (numpy loops slowly along rows of two or three), contiguous: the rows'
-    # largest coefficient in size, then every coefficient over it, into column-major arrays
-    scale = np.abs(den_cols[0])
+    num_p, den_p = _in_p_columns(num, ks, sizes), _in_p_columns(den, ks, sizes)
+    # column by column (numpy loops slowly along rows of two or three), in place: the rows'
+    # largest coefficient in size, then every coefficient over it
+    scale = np.abs(den_p[:, 0])
     absolute = np.empty_like(scale)
-    for c in den_cols[1:]:
-        np.maximum(scale, np.abs(c, out=absolute), out=scale)
-    num = np.empty(num.shape, order="F")
-    den = np.empty(den.shape, order="F")
+    for j in range(1, den_p.shape[1]):
+        np.maximum(scale, np.abs(den_p[:, j], out=absolute), out=scale)
     with np.errstate(invalid="ignore", divide="ignore"):
-        for out_, cols in ((num, num_cols), (den, den_cols)):
-            for j, c in enumerate(cols):
-                np.divide(c, scale, out=out_[:, j])
+        for c in (num_p, den_p):
+            for j in range(c.shape[1]):
+                np.divide(c[:, j], scale, out=c[:, j])
     w0s = [made.spec.w0 for _, made, _ in searches]
-    w_ref = np.full(num.shape[0], float(w0s[0])) if len(set(w0s)) == 1 else np.repeat(np.array(w0s, dtype=float), sizes)
-    joined = Rational(num, den, w_ref)
+    w_ref = np.full(total, float(w0s[0])) if len(set(w0s)) == 1 else np.repeat(np.array(w0s, dtype=float), sizes)
+    joined = Rational(num_p, den_p, w_ref)
     start = 0
     for (k, made, _), size in zip(searches, sizes):
         out[k] = made.search(joined, start)
