@@ -132,10 +132,13 @@ def spread_of(topology: Topology, values: Mapping[str, float]) -> dict[str, floa
 
     The winding resistance is not a resistor here; None where a circuit has no such part.
     """
-    roles = _parts_of(topology.part_kinds)
-    r_refs, c_refs = roles.resistors, roles.capacitors
-    rs = [values[ref] for ref in r_refs if values.get(ref, 0) > 0]
-    cs = [values[ref] for ref in c_refs if values.get(ref, 0) > 0]
+    return _spread(_parts_of(topology.part_kinds), values)
+
+
+def _spread(roles: _PartRoles, values: Mapping[str, float]) -> dict[str, float | None]:
+    """:func:`spread_of` from the circuit's :func:`_parts_of`."""
+    rs = [v for ref in roles.resistors if (v := values.get(ref, 0)) > 0]
+    cs = [v for ref in roles.capacitors if (v := values.get(ref, 0)) > 0]
     return {"r": max(rs) / min(rs) if rs else None, "c": max(cs) / min(cs) if cs else None}
 
 
@@ -179,9 +182,17 @@ def _limits(topology: Topology, values: Mapping[str, float]) -> str | None:
     return None
 
 
-def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[str, float], result_errors, analysis: Analysis, series: str, tol: Tolerances, fixed) -> list[str]:
+# How _warnings shows each figure a design misses (of standard.figure_misses' keys).
+_MISSES_SHOWN = {"f0_pct": "f0 {:+.3g} % (tolerance ±{:g} %)", "q_pct": "Q {:+.3g} % (±{:g} %)", "gain_db": "gain {:+.3g} dB (±{:g} dB)"}
+
+
+def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[str, float], result_errors, analysis: Analysis, series: str, tol: Tolerances, fixed,
+              roles: _PartRoles | None = None) -> list[str]:
+    """A design's warnings (``roles``: the circuit's :func:`_parts_of`, looked up when not given)."""
     out = []
-    for ref, kind, lo, hi in _parts_of(topology.part_kinds).required:
+    if roles is None:
+        roles = _parts_of(topology.part_kinds)
+    for ref, kind, lo, hi in roles.required:
         v = chosen.get(ref, 0.0)
         if v > hi or v < lo:
             unit = PART_UNITS[kind]
@@ -192,7 +203,7 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
             else:
                 what = "high: leakage, noise and stray capacitance matter" if v > hi else "low: it loads the op-amp and its driver"
             out.append(f"{ref} = {format_value(v, unit)} is {what} (usual range {format_value(lo, unit)} to {format_value(hi, unit)})")
-    sp = spread_of(topology, chosen)
+    sp = _spread(roles, chosen)
     if sp["r"] is not None and sp["r"] > _SPREAD_R:
         out.append(f"large resistor spread: {sp['r']:.3g} : 1 between the largest and the smallest resistor")
     if sp["c"] is not None and sp["c"] > _SPREAD_C:
@@ -208,13 +219,13 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
                 f"±{100 * tol.q:g} % takes parts of about ±{100 * needed:.2g} % or a trimmer"
             )
     if series != "exact" and result_errors is not None:
-        shown = {"f0_pct": "f0 {:+.3g} % (tolerance ±{:g} %)", "q_pct": "Q {:+.3g} % (±{:g} %)", "gain_db": "gain {:+.3g} dB (±{:g} dB)"}
-        misses = [shown[key].format(value, limit) for key, value, limit, _unit in figure_misses(result_errors, tol)]
+        misses = [_MISSES_SHOWN[key].format(value, limit) for key, value, limit, _unit in figure_misses(result_errors, tol)]
         if misses:
             out.append(f"with {series} values the best combination still misses: " + ", ".join(misses) + "; use a finer series or trim a part")
-        off = [r for r in fixed if topology.component(r).required and not in_series(chosen[r], series)]
-        if off:
-            out.append(f"pinned {', '.join(off)} {'is' if len(off) == 1 else 'are'} not {series} values; kept as given")
+        if fixed:
+            off = [r for r in fixed if topology.component(r).required and not in_series(chosen[r], series)]
+            if off:
+                out.append(f"pinned {', '.join(off)} {'is' if len(off) == 1 else 'are'} not {series} values; kept as given")
     return out
 
 
@@ -484,8 +495,9 @@ def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analy
               choice) -> DesignResult:
     """The result of a design that works, given its errors (:func:`errors_of` of its ideal
     figures): its warnings and analysis."""
-    warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins)
-    if needs_inductor(topo):  # a real inductor must reach its share of the Q
+    roles = _parts_of(topo.part_kinds)
+    warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins, roles)
+    if roles.inductor:  # a real inductor must reach its share of the Q
         w = inductor_q_warning(inductor_q_needed(spec.q))
         if w:
             warnings.append(w)
