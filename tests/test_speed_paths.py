@@ -673,6 +673,30 @@ def test_sallen_key_spread_of_three_numbers_is_the_arrays():
         assert one == float(sallen_key._spread(*(np.array(x) for x in xs)))
 
 
+def test_sallen_key_grid_spreads_are_the_array_forms_numbers():
+    # The spreads best_gain_k weighs over a gain grid (_grid_spreads: fewer array calls, one
+    # branch of the root where the gain is clear of 1) against _spread of _normalised's arrays,
+    # bit for bit: random targets, gains near 1 on both sides, r = 1 with the grid's terms made
+    # once and other r (common practice, no source: a consistency check of our own two forms).
+    from bandsmith.circuits import sallen_key
+    from bandsmith.circuits.synthesis import Spec
+
+    rng = np.random.default_rng(23)
+    for trial in range(2000):
+        gain = 10 ** rng.uniform(-1, 1.5)
+        if trial % 2:
+            gain = 1.0 + rng.choice([-1.0, 1.0]) * 10 ** rng.uniform(-9.5, -5)
+        spec = Spec(10 ** rng.uniform(1, 6), 10 ** rng.uniform(-0.5, 2), float(gain))
+        r = 1.0 if trial % 3 else float(10 ** rng.uniform(-2, 2))
+        terms = sallen_key._K_GRID_TERMS if r == 1.0 else None
+        with np.errstate(all="ignore"):
+            ref = sallen_key._spread(*sallen_key._normalised(spec, sallen_key._K_GRID, r))
+            fine = 1.0 + 10 ** rng.uniform(-3, 1.5, 161)
+            ref_fine = sallen_key._spread(*sallen_key._normalised(spec, fine, r))
+        assert_array_equal(sallen_key._grid_spreads(spec, sallen_key._K_GRID, r, terms), ref)
+        assert_array_equal(sallen_key._grid_spreads(spec, fine, r), ref_fine)
+
+
 def test_interpolation_matrix_is_the_transform_and_list_trim_is_the_array_trim():
     """_interpolation_matrix (one product) against _coefficients (numpy.fft) on random
     polynomials sampled at _circle's points: within 1e-15 of the largest coefficient; _trim_rows
