@@ -481,67 +481,70 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
             continue
         entries = _log_entries(made.flat, own, _log_plan(exp, made.free, made.sizes))
         stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, entries))
-    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, bool]]] = {}
+    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray, bool]]] = {}
     for (exp, free, sizes), group in stacks.items():
-        gather = _log_plan(exp, free, sizes)[2]
-        # one log of every member's entries, one gather of their rows (the stack's batch g from row g of its logs);
-        # where every offered value's log is finite, so is every combination's row (none looked for)
+        # one log of every member's entries; where every offered value's log is finite, so is every
+        # combination's row (none looked for)
         logs = np.log(group[0][2] if len(group) == 1 else np.concatenate([entries for _, _, entries in group]))
-        finite = bool(np.isfinite(logs).all())
-        if len(group) == 1:
-            gathered = logs.take(gather)
-        else:  # (the stack's logs as rows, each row's entries taken by the one gather: numpy's take
-            # along an axis copies the same numbers as the fancy index of offset positions, at half the cost)
-            gathered = logs.reshape(len(group), -1).take(gather, axis=1)
-        by_widths.setdefault(exp.dense_widths, []).append((exp, group, gathered, finite))
+        by_widths.setdefault(exp.dense_widths, []).append((exp, group, logs, _log_plan(exp, free, sizes)[2], bool(np.isfinite(logs).all())))
     for widths, blocks in by_widths.items():
         _scaled_searches(blocks, widths, out)
     return out
 
 
-def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, bool]], widths: tuple[int, int], out: list) -> None:
+def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray, bool]], widths: tuple[int, int], out: list) -> None:
     """The searches of ``blocks`` made into :class:`_Search` es, placed in ``out``. Each block is
-    ``(exp, group, logs, finite)``: a stack's searches (``group``, as ``(k, setup, entries)`` with
-    ``k`` the place in ``out``), the log ratios of their combinations (``(B, n_var)``, or
-    ``(G, B, n_var)`` for a stack of ``G``) and whether every one is finite; every block's dense
-    coefficients of the ``widths`` given (numerator, denominator). Their transfer functions are
-    those :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit
-    for bit, from one set of array calls for all the blocks (a compare's seven circuits).
+    ``(exp, group, logs, gather, finite)``: a stack's searches (``group``, as ``(k, setup,
+    entries)`` with ``k`` the place in ``out``), the logs of their entries (one row per search
+    of the stack), the positions that gather each combination's log ratios from a row
+    (:func:`_log_plan`) and whether every log is finite; every block's dense coefficients of the
+    ``widths`` given (numerator, denominator). Their transfer functions are those
+    :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
+    bit, from one set of array calls for all the blocks (a compare's seven circuits).
 
-    The dense coefficients in the expansion's ``p`` are :meth:`~bandsmith.solver.expansion.Expansion.dense_log`'s
-    (its products written straight into the joined batch's rows by
+    Block by block, the combinations' log ratios are gathered (one search's by numpy's take; a
+    stack's rows of logs each taken by the one gather along the axis: the same numbers as a
+    fancy index of offset positions, at half the cost) and their dense coefficients in the
+    expansion's ``p`` made, :meth:`~bandsmith.solver.expansion.Expansion.dense_log`'s (its
+    products written straight into the joined batch's rows by
     :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_into` where every log is
-    finite: no block's own arrays to join). Each further step is rational_log's, member by member:
-    the change of variable to ``p = s/w_ref`` multiplies the coefficients of a search by the
-    powers of its own ``k = w_ref/w_e`` (the same ``k ** arange`` of the same two numbers, made
-    once per distinct ``k``; a product by 1 where the expansion's ``w_e`` is kept, which is
-    exact), and each member is divided by its largest denominator coefficient in size (a maximum
-    rounds nothing; the same quotients). Those steps go column by column (numpy loops slowly
-    along rows of two or three coefficients, a tenth of the speed), in place in column-major
-    arrays, whose columns the closed form then reads whole: over a chain's tens of thousands of
-    combinations every array freshly made costs its memory's first use, so none is made that is
-    not needed. The searches' transfer functions are rows of the joined batch, which
-    :func:`_peak_costs` takes whole where it costs these searches together."""
-    rows = [logs.size // logs.shape[-1] for _, _, logs, _ in blocks]
+    finite), each block's gathered logs let go before the next is made. Each further step is
+    rational_log's, member by member: the change of variable to ``p = s/w_ref`` multiplies the
+    coefficients of a search by the powers of its own ``k = w_ref/w_e`` (the same ``k **
+    arange`` of the same two numbers, made once per distinct ``k``; a product by 1 where the
+    expansion's ``w_e`` is kept, which is exact), and each member is divided by its largest
+    denominator coefficient in size (a maximum rounds nothing; the same quotients). Those steps
+    go column by column (numpy loops slowly along rows of two or three coefficients, a tenth of
+    the speed), in place in column-major arrays, whose columns the closed form then reads whole.
+    Over a chain's tens of thousands of combinations, memory taken afresh from the system costs
+    more than the arithmetic (its first use), so no array is made that is not needed and each
+    is let go as soon as it is used. The searches' transfer functions are rows of the joined
+    batch, which :func:`_peak_costs` takes whole where it costs these searches together."""
+    rows = [len(group) * gather.shape[0] for _, group, _, gather, _ in blocks]
     total = sum(rows)
     num = np.empty((total, widths[0]))
     den = np.empty((total, widths[1]))
     start = 0
-    for (exp, _, logs, finite), size in zip(blocks, rows):
+    for (exp, group, logs, gather, finite), size in zip(blocks, rows):
+        gathered = logs.take(gather) if len(group) == 1 else logs.reshape(len(group), -1).take(gather, axis=1)
         num_rows, den_rows = num[start:start + size], den[start:start + size]
         if finite:
-            if logs.ndim == 3:  # (a stack: its batches' rows in turn)
-                num_rows, den_rows = num_rows.reshape(*logs.shape[:2], widths[0]), den_rows.reshape(*logs.shape[:2], widths[1])
-            exp.dense_log_finite_into(logs, num_rows, den_rows)
+            if gathered.ndim == 3:  # (a stack: its batches' rows in turn)
+                num_rows, den_rows = num_rows.reshape(*gathered.shape[:2], widths[0]), den_rows.reshape(*gathered.shape[:2], widths[1])
+            exp.dense_log_finite_into(gathered, num_rows, den_rows)
         else:
-            block_num, block_den = exp.dense_log(logs)
+            block_num, block_den = exp.dense_log(gathered)
             num_rows[...] = block_num.reshape(size, widths[0])
             den_rows[...] = block_den.reshape(size, widths[1])
+        del gathered, num_rows, den_rows
         start += size
-    searches = [(k, made, exp) for exp, group, _, _ in blocks for k, made, _ in group]
+    searches = [(k, made, exp) for exp, group, *_ in blocks for k, made, _ in group]
     sizes = [made.combinations for _, made, _ in searches]
     ks = [1.0 if made.spec.w0 == exp.w_ref else made.spec.w0 / exp.w_ref for _, made, exp in searches]
-    num_p, den_p = _in_p_columns(num, ks, sizes), _in_p_columns(den, ks, sizes)
+    den_p = _in_p_columns(den, ks, sizes)
+    del den  # (its memory free for the numerator's columns)
+    num_p = _in_p_columns(num, ks, sizes)
+    del num
     # column by column (numpy loops slowly along rows of two or three), in place: the rows'
     # largest coefficient in size, then every coefficient over it
     scale = np.abs(den_p[:, 0])
