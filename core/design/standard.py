@@ -307,11 +307,14 @@ def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
     edges and the phase; a combination with no peak is not stable and costs inf either way); None
     where a combination is of another shape."""
     h, order = (searches[0].h, [0]) if len(searches) == 1 else _joined_rows(searches)
+    # (Routh–Hurwitz first: its working arrays are let go before the closed form makes its own,
+    # and over a chain's tens of thousands of combinations fresh memory costs more than either)
+    stable = hurwitz_stable(h.den)
     peaks = biquad_peak_figures(h)
     if peaks is None:
         return None
     out = [None] * len(searches)
-    for i, cost in zip(order, _joined_costs([searches[i] for i in order], *peaks, h.den)):
+    for i, cost in zip(order, _joined_costs([searches[i] for i in order], *peaks, h.den, stable)):
         out[i] = cost
     return out
 
@@ -379,11 +382,12 @@ def _costs(searches: list[_Search], figs: list[Figures]) -> list[np.ndarray]:
     return _joined_costs(searches, joined("f0_hz"), joined("q"), joined("gain_center_db"), np.concatenate([m.h.den for m in searches]))
 
 
-def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarray]:
+def _joined_costs(searches: list[_Search], f0, q, gain_db, den, stable: np.ndarray | None = None) -> list[np.ndarray]:
     """Each search's costs: its weighted errors where the combination is stable (Routh–Hurwitz on
     ``den``) and measured (f0, Q and the gain finite: :func:`~bandsmith.analysis.figures.defined`), inf elsewhere;
     the figures and denominators of every search joined, each search's targets and tolerances
-    repeated over its members (the same operations, member by member, as each search alone)."""
+    repeated over its members (the same operations, member by member, as each search alone);
+    ``stable``: Routh–Hurwitz on ``den`` where already made."""
     sizes = [m.batch for m in searches]
     # each search's targets and tolerances, (f0, Q, gain in dB, tol f0, tol Q, tol gain): one
     # number where every search has the same (a compare, a chain's stage), broadcast over the
@@ -398,7 +402,7 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
         each = [c[0] if all(v == c[0] for v in c) else np.repeat(c, sizes) for c in columns]
     # (where f0, Q or the gain is not finite, :func:`~bandsmith.analysis.figures.defined`, the
     # weighted error is not finite either, so already inf: the figures need no test of their own)
-    cost = _weighted_rows(f0, q, gain_db, *each, hurwitz_stable(den))
+    cost = _weighted_rows(f0, q, gain_db, *each, hurwitz_stable(den) if stable is None else stable)
     ends = list(itertools.accumulate(sizes))
     return [cost[end - size:end] for size, end in zip(sizes, ends)]
 
