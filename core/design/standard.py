@@ -161,16 +161,17 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
 
 
 @functools.lru_cache(maxsize=64)
-def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.ndarray, tuple[tuple[int, float], ...], np.ndarray]:
+def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.ndarray, tuple[int, ...], np.ndarray]:
     """What :func:`_combination_searches` needs of an expansion ``exp`` (a kept unit expansion, one
-    per circuit structure) for these free parts and option counts, made once: each flat entry's
-    unit value (a part's options and nearest value over its variable's unit), the held variables
-    as ``(column, unit value)``, and :func:`_log_gather`'s positions. Read-only."""
+    per circuit structure) for these free parts and option counts, made once: the unit value of
+    each of a search's entries (a free part's options and nearest value over its variable's
+    unit, then each held variable's unit), the held variables' columns, and :func:`_log_gather`'s
+    positions. Read-only."""
     at = {r: k for k, r in enumerate(free)}
     units = [u.value for u in exp.variables]
-    per_entry = np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes])
+    held = tuple(j for j, u in enumerate(exp.variables) if u.name not in at)
+    per_entry = np.concatenate([np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes]), [units[j] for j in held]])
     per_entry.setflags(write=False)
-    held = tuple((j, units[j]) for j, u in enumerate(exp.variables) if u.name not in at)
     return per_entry, held, _log_gather(sizes, tuple(at.get(u.name, -1) for u in exp.variables))
 
 
@@ -471,7 +472,7 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
     apply, or a batch is past its small-batch products, :func:`_combinations`. ``checked`` as
     :func:`choose_standard_groups` takes it."""
     out: list = [None] * len(items)
-    stacks: dict[tuple, list[tuple[int, _Setup, np.ndarray]]] = {}
+    stacks: dict[tuple, list[tuple[int, _Setup, list[float]]]] = {}
     for k, item in enumerate(items):
         made = _search_setup(*item, checked=checked)
         if isinstance(made, Choice):
@@ -483,14 +484,27 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
             h = _combinations(made.topology.build(made.values), dict(zip(made.free, made.flat[index])), made.spec.w0)
             out[k] = made.search(h)
             continue
-        entries = _log_entries(made.flat, own, _log_plan(exp, made.free, made.sizes))
-        stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, entries))
+        stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, own))
+    if not stacks:
+        return out
+    # The ratios of every search's entries (its flat entries, then its held variables' own values,
+    # each over its unit) in one division and their logs in one call, stack after stack (numpy's
+    # division and log map each number alone: the numbers of each search's own); where every
+    # offered value's log is finite, so is every combination's row (none looked for).
+    plans = {key: _log_plan(*key) for key in stacks}
+    values = np.concatenate([part for key, group in stacks.items() for _, made, own in group
+                             for part in (made.flat, [own[j] for j in plans[key][1]])])
+    logs = np.log(values / np.concatenate([plans[key][0] for key, group in stacks.items() for _ in group]))
+    finite = np.isfinite(logs)
+    every_finite = bool(finite.all())
     by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray, bool]]] = {}
-    for (exp, free, sizes), group in stacks.items():
-        # one log of every member's entries; where every offered value's log is finite, so is every
-        # combination's row (none looked for)
-        logs = np.log(group[0][2] if len(group) == 1 else np.concatenate([entries for _, _, entries in group]))
-        by_widths.setdefault(exp.dense_widths, []).append((exp, group, logs, _log_plan(exp, free, sizes)[2], bool(np.isfinite(logs).all())))
+    start = 0
+    for key, group in stacks.items():
+        exp, per_entry, gather = key[0], plans[key][0], plans[key][2]
+        stop = start + len(group) * per_entry.size
+        by_widths.setdefault(exp.dense_widths, []).append(
+            (exp, group, logs[start:stop], gather, every_finite or bool(finite[start:stop].all())))
+        start = stop
     for widths, blocks in by_widths.items():
         _scaled_searches(blocks, widths, out)
     return out
@@ -499,8 +513,8 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
 def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray, bool]], widths: tuple[int, int], out: list) -> None:
     """The searches of ``blocks`` made into :class:`_Search` es, placed in ``out``. Each block is
     ``(exp, group, logs, gather, finite)``: a stack's searches (``group``, as ``(k, setup,
-    entries)`` with ``k`` the place in ``out``), the logs of their entries (one row per search
-    of the stack), the positions that gather each combination's log ratios from a row
+    own)`` with ``k`` the place in ``out`` and ``own`` the variables' own values), the logs of
+    their entries (one row per search of the stack, :func:`_log_plan`'s entries), the positions that gather each combination's log ratios from a row
     (:func:`_log_plan`) and whether every log is finite; every block's dense coefficients of the
     ``widths`` given (numerator, denominator). Their transfer functions are those
     :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
@@ -566,16 +580,6 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray,
     for (k, made, _), size in zip(searches, sizes):
         out[k] = made.search(joined, start)
         start += size
-
-
-def _log_entries(flat: np.ndarray, own: list[float], plan: tuple) -> np.ndarray:
-    """The ratios whose logs :func:`_combination_searches` gathers: the free parts' flat entries
-    over their unit values, then the held variables' own values over theirs."""
-    per_entry, held, _ = plan
-    ratios = flat / per_entry
-    if held:
-        ratios = np.concatenate([ratios, [own[j] / unit for j, unit in held]])
-    return ratios
 
 
 # per circuit build and optional parts at zero: its kept unit expansion and its variables' names,
