@@ -259,7 +259,9 @@ def choose_standard_groups(groups: Sequence[Sequence[tuple]], *, checked: bool =
     ``checked``: every item's exact values are :meth:`Topology.values_from`'s already (a
     design's), so they are taken as they are instead of validated again."""
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
-        every = iter(_combination_searches([item for items in groups for item in items], checked=checked))
+        found = _combination_searches([item for items in groups for item in items], checked=checked,
+                                      groups=[g for g, items in enumerate(groups) for _ in items])
+        every = iter(found)
         made = [[next(every) for _ in items] for items in groups]
         lives = [[i for i, m in enumerate(ms) if isinstance(m, _Search)] for ms in made]
         peaked = [g for g, (ms, live) in enumerate(zip(made, lives))
@@ -276,6 +278,13 @@ def choose_standard_groups(groups: Sequence[Sequence[tuple]], *, checked: bool =
         for g, (ms, live) in enumerate(zip(made, lives)):
             if live and isinstance(ms[live[0]], _Search):  # (not yet chosen above)
                 _choose_searches(ms, live, g in peaked)
+    if any(isinstance(m, _Same) for m in found):  # each the choice of the search it repeats
+        place = [(g, i) for g, items in enumerate(groups) for i in range(len(items))]
+        for k, m in enumerate(found):
+            if isinstance(m, _Same):
+                g, i = place[k]
+                og, oi = place[m.of]
+                made[g][i] = m.choice(made[og][oi])
     return made
 
 
@@ -449,7 +458,42 @@ class _Search:
         )
 
 
-def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> list[Choice | _Search]:
+@dataclass(frozen=True, slots=True)
+class _Same:
+    """A search whose every input is that of search ``of`` (its place among the items of
+    :func:`_combination_searches`): its choice is that search's, with its own ``values``."""
+
+    of: int
+    values: dict[str, float]
+    free: tuple[str, ...]
+
+    def choice(self, same: Choice) -> Choice:
+        """Its choice, given that of the search it repeats: the same free parts' values (the
+        same combination), its other parts its own, the same numbers."""
+        if same.values is None:
+            return same
+        chosen = dict(self.values)
+        chosen.update((ref, same.values[ref]) for ref in self.free)
+        return Choice(chosen, same.combinations, same.weighted, same.weighted_rounded)
+
+
+# each kept expansion's canonical one: the first seen that gives the same products (_canonical)
+_CANONICAL: dict[Expansion, Expansion] = {}
+
+
+def _canonical(exp: Expansion) -> Expansion:
+    """The first kept expansion met whose products are ``exp``'s, number for number
+    (:meth:`~bandsmith.solver.expansion.Expansion.same_products`; ``exp`` itself if none): worked
+    out once per circuit structure, so that searches on circuits whose ideal transfer functions
+    are one function of their parts share a stack."""
+    known = _CANONICAL.get(exp)
+    if known is None:
+        known = next((c for c in dict.fromkeys(_CANONICAL.values()) if c.same_products(exp)), exp)
+        _CANONICAL[exp] = known
+    return known
+
+
+def _combination_searches(items: Sequence[tuple], *, checked: bool = False, groups: Sequence[int] | None = None) -> list:
     """Each circuit's combinations of standard values and their transfer functions
     (:class:`_Search`), or its :class:`Choice` at once when no part is free, of each item
     ``(topology, exact, spec, series, keep, tolerances, width)``. Floating-point warnings are the
@@ -470,9 +514,18 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
     :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
     bit, which are :func:`_combinations`' of the values themselves. Where the expansion does not
     apply, or a batch is past its small-batch products, :func:`_combinations`. ``checked`` as
-    :func:`choose_standard_groups` takes it."""
+    :func:`choose_standard_groups` takes it.
+
+    ``groups`` (one number per item: :func:`choose_standard_groups`' groups) lets a search whose
+    every input is that of an earlier one in its group be made once: the same canonical
+    expansion (:func:`_canonical`), free parts, option counts, offered values bit for bit, the
+    variables' own values, target and tolerances give the same combinations, transfer functions
+    and costs, so the same choice (a compare's Tow–Thomas and Åkerberg–Mossberg, one function of
+    the same parts with an ideal op-amp, designed alike). Such an item gets a :class:`_Same`
+    pointing at that search, whose choice the caller takes with the item's own values."""
     out: list = [None] * len(items)
     stacks: dict[tuple, list[tuple[int, _Setup, list[float]]]] = {}
+    seen: dict[tuple, tuple[int, _Setup, list[float]]] = {}  # (group, stack, offered values) -> the first such search
     for k, item in enumerate(items):
         made = _search_setup(*item, checked=checked)
         if isinstance(made, Choice):
@@ -484,7 +537,13 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
             h = _combinations(made.topology.build(made.values), dict(zip(made.free, made.flat[index])), made.spec.w0)
             out[k] = made.search(h)
             continue
-        stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, own))
+        key = (_canonical(exp), made.free, made.sizes)
+        if groups is not None:
+            earlier = seen.setdefault((groups[k], key, made.flat.tobytes()), (k, made, own))
+            if earlier[0] != k and earlier[2] == own and earlier[1].spec == made.spec and earlier[1].tolerances == made.tolerances:
+                out[k] = _Same(earlier[0], made.values, made.free)
+                continue
+        stacks.setdefault(key, []).append((k, made, own))
     if not stacks:
         return out
     # The ratios of every search's entries (its flat entries, then its held variables' own values,

@@ -754,6 +754,16 @@ class Expansion:
         (every power of p up to the highest present)."""
         return self._num_dense.shape[1], self._den_dense.shape[1]
 
+    def same_products(self, other: "Expansion") -> bool:
+        """True where ``other`` gives the same dense coefficients as this one, number for number,
+        for the same log ratios (:meth:`dense_log`, :meth:`dense_log_finite`): the same variables
+        (names, kinds, units and degrees), the same ``w_ref``, exponents and term matrices (two
+        circuits whose ideal transfer functions are one function of their parts, say)."""
+        return other is self or (
+            self.variables == other.variables and self.w_ref == other.w_ref
+            and np.array_equal(self._exps_ratio, other._exps_ratio)
+            and np.array_equal(self._num_dense, other._num_dense) and np.array_equal(self._den_dense, other._den_dense))
+
     def dense_log_finite_into(self, log_ratios: np.ndarray, num: np.ndarray, den: np.ndarray) -> None:
         """:meth:`dense_log_finite` written into ``num`` and ``den`` (C-contiguous, of the shapes
         it gives: the rows of a batch joined with others, say), its monomials' exponential taken
