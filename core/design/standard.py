@@ -518,32 +518,33 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False, grou
 
     ``groups`` (one number per item: :func:`choose_standard_groups`' groups) lets a search whose
     every input is that of an earlier one in its group be made once: the same canonical
-    expansion (:func:`_canonical`), free parts, option counts, offered values bit for bit, the
-    variables' own values, target and tolerances give the same combinations, transfer functions
-    and costs, so the same choice (a compare's Tow–Thomas and Åkerberg–Mossberg, one function of
+    expansion (:func:`_canonical`), the same values of its variables (so of its free parts),
+    free parts, pins, series, width, target and tolerances give the same offered values,
+    combinations, transfer functions and costs, so the same choice (a compare's Tow–Thomas and Åkerberg–Mossberg, one function of
     the same parts with an ideal op-amp, designed alike). Such an item gets a :class:`_Same`
     pointing at that search, whose choice the caller takes with the item's own values."""
     out: list = [None] * len(items)
     stacks: dict[tuple, list[tuple[int, _Setup, list[float]]]] = {}
-    seen: dict[tuple, tuple[int, _Setup, list[float]]] = {}  # (group, stack, offered values) -> the first such search
-    for k, item in enumerate(items):
-        made = _search_setup(*item, checked=checked)
+    seen: dict[tuple, tuple] = {}  # (group, canonical expansion, own values, …) -> the first such search
+    for k, (topology, exact, spec, series, keep, tolerances, width) in enumerate(items):
+        values = exact if checked else topology.values_from(exact)
+        exp, own = _search_expansion(topology, values)
+        if groups is not None and exp is not None:  # (the same inputs as an earlier search of its group: made once)
+            free = _free_parts(topology.part_kinds, keep, series)[0]
+            earlier = seen.setdefault((groups[k], _canonical(exp), tuple(own), free, keep, series, width), (k, spec, tolerances))
+            if earlier[0] != k and earlier[1] == spec and earlier[2] == tolerances:
+                out[k] = _Same(earlier[0], values, free)
+                continue
+        made = _search_setup(topology, values, spec, series, keep, tolerances, width, checked=True)
         if isinstance(made, Choice):
             out[k] = made
             continue
         index = _flat_combination_index(made.sizes)
-        exp, own = _search_expansion(made.topology, made.values)
         if exp is None or index.shape[1] > SMALL_BATCH:
             h = _combinations(made.topology.build(made.values), dict(zip(made.free, made.flat[index])), made.spec.w0)
             out[k] = made.search(h)
             continue
-        key = (_canonical(exp), made.free, made.sizes)
-        if groups is not None:
-            earlier = seen.setdefault((groups[k], key, made.flat.tobytes()), (k, made, own))
-            if earlier[0] != k and earlier[2] == own and earlier[1].spec == made.spec and earlier[1].tolerances == made.tolerances:
-                out[k] = _Same(earlier[0], made.values, made.free)
-                continue
-        stacks.setdefault(key, []).append((k, made, own))
+        stacks.setdefault((_canonical(exp), made.free, made.sizes), []).append((k, made, own))
     if not stacks:
         return out
     # The ratios of every search's entries (its flat entries, then its held variables' own values,
