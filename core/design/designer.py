@@ -383,9 +383,10 @@ def prepare_designs_many(
     made: list[list] = []
     for topology_ids, spec, conditions in requests:
         ms: list = []
+        shared: dict = {}  # (a procedure several circuits share, run once for this target: _prepare)
         for t in topology_ids:
             try:
-                ms.append(_prepare(t, spec, series, fixed, conditions))
+                ms.append(_prepare(t, spec, series, fixed, conditions, shared))
             except InputError as exc:
                 ms.append(exc)
         made.append(ms)
@@ -412,8 +413,13 @@ class _Prepared:
     candidate: Candidate
 
 
-def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Conditions) -> DesignResult | _Exact:
-    """The design up to its exact values: an :class:`_Exact`, or the infeasible result."""
+def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Conditions, shared: dict | None = None) -> DesignResult | _Exact:
+    """The design up to its exact values: an :class:`_Exact`, or the infeasible result.
+
+    ``shared`` (one per target) keeps the exact values of a design procedure several circuits
+    share (:attr:`Topology.procedure`) by pins and series, so that it runs once for them: the same
+    values and notes (its messages, which name the circuit, come only from a run that fails,
+    and a failed run is not kept)."""
     topo = get_topology(topology_id)
     if not isinstance(spec, Spec):
         raise InputError("spec", "must be a design target (bandsmith.design.designer.Spec)")
@@ -422,10 +428,15 @@ def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Condi
     pins = parse_fixed(topo, fixed)
     if topo.synthesize is None:
         return _infeasible(topo, spec, series, f"{topo.title} has no design procedure yet; enter its parts by hand", pins, conditions)
-    try:
-        exact = topo.synthesize(spec, pins, series=series)
-    except Infeasible as exc:
-        return _infeasible(topo, spec, series, exc.reason, pins, conditions)
+    key = None if shared is None or topo.procedure is None else (topo.procedure, tuple(pins.items()), series)
+    exact = None if key is None else shared.get(key)
+    if exact is None:
+        try:
+            exact = topo.synthesize(spec, pins, series=series)
+        except Infeasible as exc:
+            return _infeasible(topo, spec, series, exc.reason, pins, conditions)
+        if key is not None:
+            shared[key] = exact
     notes = tuple(getattr(exact, "notes", ()))
     try:
         exact = topo.values_from(exact)
