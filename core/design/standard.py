@@ -616,9 +616,14 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray,
             den_rows[...] = block_den.reshape(size, widths[1])
         del gathered, num_rows, den_rows
         start += size
-    searches = [(k, made, exp) for exp, group, *_ in blocks for k, made, _ in group]
-    sizes = [made.combinations for _, made, _ in searches]
-    ks = [1.0 if made.spec.w0 == exp.w_ref else made.spec.w0 / exp.w_ref for _, made, exp in searches]
+    searches, sizes, ks, w0s = [], [], [], []  # (each search's place and set-up, members, k, w0)
+    for exp, group, *_ in blocks:
+        for k, made, _ in group:
+            w0 = made.spec.w0
+            searches.append((k, made))
+            sizes.append(made.combinations)
+            ks.append(1.0 if w0 == exp.w_ref else w0 / exp.w_ref)
+            w0s.append(w0)
     den_p = _in_p_columns(den, ks, sizes)
     del den  # (its memory free for the numerator's columns)
     num_p = _in_p_columns(num, ks, sizes)
@@ -633,11 +638,10 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray,
         for c in (num_p, den_p):
             for j in range(c.shape[1]):
                 np.divide(c[:, j], scale, out=c[:, j])
-    w0s = [made.spec.w0 for _, made, _ in searches]
     w_ref = np.full(total, float(w0s[0])) if len(set(w0s)) == 1 else np.repeat(np.array(w0s, dtype=float), sizes)
     joined = Rational(num_p, den_p, w_ref)
     start = 0
-    for (k, made, _), size in zip(searches, sizes):
+    for (k, made), size in zip(searches, sizes):
         out[k] = made.search(joined, start)
         start += size
 
@@ -719,16 +723,19 @@ def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, se
         h = transfer_function(topology.build(values), w_ref=spec.w0)
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
-    options = [None] * len(free)
-    rounded = [None] * len(free)
-    for ps, idx in groups:
-        opts, near = search_option_lists([values[free[i]] for i in idx], ps, width)
-        for i, o, v in zip(idx, opts, near):
-            options[i], rounded[i] = o, v
+    if len(groups) == 1:  # (every part from one series, as a rule: the parts in their order)
+        options, rounded = search_option_lists([values[ref] for ref in free], groups[0][0], width)
+    else:
+        options = [None] * len(free)
+        rounded = [None] * len(free)
+        for ps, idx in groups:
+            opts, near = search_option_lists([values[free[i]] for i in idx], ps, width)
+            for i, o, v in zip(idx, opts, near):
+                options[i], rounded[i] = o, v
     # Every combination of the options, and last the member that rounds every part alone to its
     # nearest standard value, for comparison: each part's options with its nearest value after
     # them, in one flat array taken by a combination index.
-    sizes = tuple(len(o) for o in options)
+    sizes = tuple(map(len, options))
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
     return _Setup(topology, values, free, flat, sizes, spec, tolerances)
 
