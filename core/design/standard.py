@@ -503,11 +503,12 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False, grou
     Through the circuit's kept expansion, the natural logs of the combinations' ratios go to
     :meth:`bandsmith.solver.expansion.Expansion.dense_log` as one gather: ``log(x/u)`` is taken
     once per offered value (a few dozen) instead of once per combination and part; numpy's log
-    maps each number alone, so a value has the same log wherever it sits in an array. The
-    searches that share a kept expansion, free parts and option counts (a chain's stages on one
+    maps each number alone, so a value has the same log wherever it sits in an array (one call
+    takes every search's). The searches that share a kept expansion (or one of the same
+    products, :func:`_canonical`), free parts and option counts (a chain's stages on one
     circuit) are made in one stacked batch (dense_log takes a stack's products one batch at a
-    time, each batch's numbers as alone), from one logarithm of all their flat entries and one
-    gather; where every offered value's log is finite, so is every row, and
+    time, each batch's numbers as alone), from one gather of their rows of logs; where every
+    offered value's log is finite, so is every row, and
     :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite` looks for no other. The
     coefficients of every search are then taken to ``p = s/w_ref`` and scaled in one joined batch
     (:func:`_scaled_searches`): the transfer functions
@@ -520,9 +521,10 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False, grou
     every input is that of an earlier one in its group be made once: the same canonical
     expansion (:func:`_canonical`), the same values of its variables (so of its free parts),
     free parts, pins, series, width, target and tolerances give the same offered values,
-    combinations, transfer functions and costs, so the same choice (a compare's Tow–Thomas and Åkerberg–Mossberg, one function of
-    the same parts with an ideal op-amp, designed alike). Such an item gets a :class:`_Same`
-    pointing at that search, whose choice the caller takes with the item's own values."""
+    combinations, transfer functions and costs, so the same choice (a compare's Tow–Thomas and
+    Åkerberg–Mossberg, one function of the same parts with an ideal op-amp, designed alike).
+    Such an item gets a :class:`_Same` pointing at that search, whose choice the caller takes
+    with the item's own values."""
     out: list = [None] * len(items)
     stacks: dict[tuple, list[tuple[int, _Setup, list[float]]]] = {}
     seen: dict[tuple, tuple] = {}  # (group, canonical expansion, own values, …) -> the first such search
@@ -552,9 +554,9 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False, grou
     # division and log map each number alone: the numbers of each search's own); where every
     # offered value's log is finite, so is every combination's row (none looked for).
     plans = {key: _log_plan(*key) for key in stacks}
-    values = np.concatenate([part for key, group in stacks.items() for _, made, own in group
-                             for part in (made.flat, [own[j] for j in plans[key][1]])])
-    logs = np.log(values / np.concatenate([plans[key][0] for key, group in stacks.items() for _ in group]))
+    entries = np.concatenate([part for key, group in stacks.items() for _, made, own in group
+                              for part in (made.flat, [own[j] for j in plans[key][1]])])
+    logs = np.log(entries / np.concatenate([plans[key][0] for key, group in stacks.items() for _ in group]))
     finite = np.isfinite(logs)
     every_finite = bool(finite.all())
     by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray, bool]]] = {}
@@ -574,9 +576,10 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray,
     """The searches of ``blocks`` made into :class:`_Search` es, placed in ``out``. Each block is
     ``(exp, group, logs, gather, finite)``: a stack's searches (``group``, as ``(k, setup,
     own)`` with ``k`` the place in ``out`` and ``own`` the variables' own values), the logs of
-    their entries (one row per search of the stack, :func:`_log_plan`'s entries), the positions that gather each combination's log ratios from a row
-    (:func:`_log_plan`) and whether every log is finite; every block's dense coefficients of the
-    ``widths`` given (numerator, denominator). Their transfer functions are those
+    their entries (one row per search of the stack, :func:`_log_plan`'s entries), the positions
+    that gather each combination's log ratios from a row (:func:`_log_plan`) and whether every
+    log is finite; every block's dense coefficients of the ``widths`` given (numerator,
+    denominator). Their transfer functions are those
     :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
     bit, from one set of array calls for all the blocks (a compare's seven circuits).
 
