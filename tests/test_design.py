@@ -454,3 +454,25 @@ def test_synthesize_is_set_on_every_circuit():
         assert set(ex) >= {c.ref for c in topo.components if c.required}
     with pytest.raises(Infeasible):
         get_topology("mfb").synthesize(Spec(1e3, 1.0, 3.0), {})
+
+
+def test_a_shared_design_procedure_runs_once_with_each_circuits_own_values():
+    # The two-integrator loops share their design procedure (Topology.procedure): a design of both
+    # for one target runs it once, and each gets the exact values and notes its own synthesize
+    # gives (with and without a pinned part); a failing run is each circuit's own, naming it.
+    # A consistency check of our own two paths (common practice, no source).
+    from bandsmith.design.designer import design_many, parse_fixed, prepare_designs
+
+    tt, am = get_topology("tow-thomas"), get_topology("akerberg-mossberg")
+    assert tt.procedure is not None and tt.procedure == am.procedure
+    assert get_topology("mfb").procedure is None
+    for spec, fixed in ((Spec(3.3e3, 4.0, 3.0), None), (Spec(12e3, 9.0, 0.7), {"C1": "4.7n"}), (Spec(250.0, 1.2, 2.0), {"R2": "47k"})):
+        prepared = prepare_designs(("tow-thomas", "akerberg-mossberg"), spec, series="E24", fixed=fixed)
+        for topo, made in zip((tt, am), prepared.made):
+            own = topo.synthesize(spec, parse_fixed(topo, fixed), series="E24")
+            assert made.design.exact == topo.values_from(own)
+            assert made.design.notes == tuple(own.notes)
+    bad = {"R1": "1k", "R2": "47k"}  # (R2/R1 sets the gain: 47, not 3)
+    results = design_many(("tow-thomas", "akerberg-mossberg"), Spec(3.3e3, 4.0, 3.0), series="E24", fixed=bad)
+    assert not results[0].feasible and not results[1].feasible
+    assert "Tow" in results[0].reason and "kerberg" in results[1].reason

@@ -368,6 +368,50 @@ def test_search_rationals_made_together_equal_each_made_alone(series):
         assert_array_equal(rows.w_ref, joined.w_ref)
 
 
+@pytest.mark.parametrize("series", ["E12", "E24", "E96"])
+def test_repeated_searches_are_made_once_with_the_same_choices(series):
+    """choose_standard_groups makes a search whose every input repeats an earlier one of its
+    group once (_combination_searches' _Same: a compare's Tow-Thomas and Akerberg-Mossberg, whose
+    ideal transfer functions are one function of the same parts, designed alike; their kept
+    expansions' products the same, Expansion.same_products): the same Choice, exactly, as each
+    circuit's search alone, in groups of several targets (a chain's stages) too. A consistency
+    check of our own two paths, no outside source."""
+    from bandsmith.analysis.tolerances import Tolerances
+    from bandsmith.circuits import all_topologies
+    from bandsmith.circuits.synthesis import Infeasible
+    from bandsmith.design import standard
+    from bandsmith.design.designer import Spec
+    from bandsmith.solver.expansion import unit_expansion_values
+
+    tt, am = get_topology("tow-thomas"), get_topology("akerberg-mossberg")
+    values = tt.values_from(tt.example)
+    exp_tt, _ = unit_expansion_values(tt.build(values))
+    exp_am, _ = unit_expansion_values(am.build(am.values_from(values)))
+    assert exp_tt is not exp_am and exp_tt.same_products(exp_am)
+    assert not exp_tt.same_products(unit_expansion_values(get_topology("mfb").build(get_topology("mfb").example))[0])
+    groups = []
+    for f0, q, gain in ((3.3e3, 4.0, 3.0), (38e3, 1.3, 1.5), (44e3, 2.6, 2.0)):
+        spec = Spec(f0, q, gain)
+        items = []
+        for topo in all_topologies():
+            try:
+                exact = topo.values_from(dict(topo.synthesize(spec, {}, series=series)))
+            except Infeasible:
+                continue
+            items.append((topo, exact, spec, series, (), Tolerances(), 1))
+        groups.append(items)
+    flat = [item for items in groups for item in items]
+    with np.errstate(all="ignore"):
+        found = standard._combination_searches(flat, groups=[g for g, items in enumerate(groups) for _ in items])
+    repeated = [(flat[k][0].id, flat[m.of][0].id) for k, m in enumerate(found) if isinstance(m, standard._Same)]
+    assert repeated and all(pair == ("akerberg-mossberg", "tow-thomas") for pair in repeated)
+    together = standard.choose_standard_groups(groups)
+    for items, choices in zip(groups, together):
+        for item, choice in zip(items, choices):
+            topo, exact, spec_, series_, keep, tol, width = item
+            assert choice == standard.choose_standard(topo, exact, spec_, series_, keep=keep, tolerances=tol, width=width), topo.id
+
+
 @pytest.mark.parametrize("circuit", sorted(topology_ids()))
 def test_dense_log_of_finite_logs_equals_dense_log(circuit):
     """Expansion.dense_log_finite (no look for non-finite rows) against dense_log on finite log
@@ -671,6 +715,30 @@ def test_sallen_key_spread_of_three_numbers_is_the_arrays():
         one = sallen_key._spread(*xs)
         assert type(one) is float
         assert one == float(sallen_key._spread(*(np.array(x) for x in xs)))
+
+
+def test_sallen_key_grid_spreads_are_the_array_forms_numbers():
+    # The spreads best_gain_k weighs over a gain grid (_grid_spreads: fewer array calls, one
+    # branch of the root where the gain is clear of 1) against _spread of _normalised's arrays,
+    # bit for bit: random targets, gains near 1 on both sides, r = 1 with the grid's terms made
+    # once and other r (common practice, no source: a consistency check of our own two forms).
+    from bandsmith.circuits import sallen_key
+    from bandsmith.circuits.synthesis import Spec
+
+    rng = np.random.default_rng(23)
+    for trial in range(2000):
+        gain = 10 ** rng.uniform(-1, 1.5)
+        if trial % 2:
+            gain = 1.0 + rng.choice([-1.0, 1.0]) * 10 ** rng.uniform(-9.5, -5)
+        spec = Spec(10 ** rng.uniform(1, 6), 10 ** rng.uniform(-0.5, 2), float(gain))
+        r = 1.0 if trial % 3 else float(10 ** rng.uniform(-2, 2))
+        terms = sallen_key._K_GRID_TERMS if r == 1.0 else None
+        with np.errstate(all="ignore"):
+            ref = sallen_key._spread(*sallen_key._normalised(spec, sallen_key._K_GRID, r))
+            fine = 1.0 + 10 ** rng.uniform(-3, 1.5, 161)
+            ref_fine = sallen_key._spread(*sallen_key._normalised(spec, fine, r))
+        assert_array_equal(sallen_key._grid_spreads(spec, sallen_key._K_GRID, r, terms), ref)
+        assert_array_equal(sallen_key._grid_spreads(spec, fine, r), ref_fine)
 
 
 def test_interpolation_matrix_is_the_transform_and_list_trim_is_the_array_trim():

@@ -34,7 +34,7 @@ from typing import Mapping
 
 from bandsmith.circuits.synthesis import Exact, Spec
 from bandsmith.circuits.topology import Topology
-from bandsmith.circuits.tow_thomas import COMPONENTS, loop_formulas, loop_netlist, loop_synthesize
+from bandsmith.circuits.tow_thomas import COMPONENTS, LOOP_PROCEDURE, loop_formulas, loop_netlist, loop_synthesize
 from bandsmith.solver.netlist import Netlist
 
 # the same parts and roles as the Tow–Thomas loop: only where the inverter's + input goes differs
@@ -63,6 +63,7 @@ TOPOLOGY = Topology(
     formulas=loop_formulas,
     synthesize=synthesize,
     order=70,
+    procedure=LOOP_PROCEDURE,
     notes=(
         "Three op-amps; the Tow–Thomas loop with the inverter's + input on the second integrator's summing "
         "node, which cancels most of the op-amps' phase error: about half the GBW of the Tow–Thomas loop."

@@ -156,6 +156,47 @@ def _spread(x1, x2, x3):
 _KM1_GRID = np.geomspace(_K_MIN - 1.0, _K_MAX - 1.0, 160)  # K − 1, logarithmic
 _K_GRID = 1.0 + _KM1_GRID  # the gains K of that grid
 _UNIT_FINE = np.linspace(0.0, 1.0, 161)
+# Numbers the grid's spreads take for r = 1 (C1 = C2, the usual design) that depend on K alone:
+# _normalised's a = K − 1, 4·a·c with c = −(1 + r)/r = −2, and 2·a (the same operations, made once).
+_K_GRID_A = _K_GRID - 1.0
+_K_GRID_TERMS = (_K_GRID_A, 4.0 * _K_GRID_A * -2.0, 2.0 * _K_GRID_A)
+# How far from 1 the centre gain must be for b = 1/Q − K·x1 to have one sign at every K (below).
+_GAIN_MARGIN = 1e-9
+
+
+def _grid_spreads(spec: Spec, k: np.ndarray, r: float, terms: tuple | None = None) -> np.ndarray:
+    """``_spread(*_normalised(spec, k, r))`` over an array of gains ``k`` for one plain ``r``, the
+    same IEEE operations on the same numbers in fewer array calls (``terms``: ``a = k − 1``,
+    ``4·a·c`` and ``2·a``, where already made for this ``k`` and ``r``).
+
+    ``b = 1/Q − K·x1`` is ``−(K·x1 − 1/Q)`` exactly (a difference and its negation round alike),
+    and ``−b + root`` is ``root − b``. With ``x1 = G/(K·Q)``, ``K·x1`` is ``G/Q`` within a few
+    units in the last place and ``1/Q`` within one, so ``b`` is below zero at every K where the
+    gain G is above 1 by more than :data:`_GAIN_MARGIN` and above zero where it is below 1 by
+    as much: only the quotient :func:`_normalised`'s ``where`` takes there is made. A product by
+    ``r = 1`` is exact, so ``x3 = 1/y`` then. Floating-point warnings silenced (a grid may reach
+    K where no design exists: its spread is inf there, never the least)."""
+    q, gain = spec.q, spec.gain
+    with np.errstate(divide="ignore", invalid="ignore"):
+        x1 = gain / (k * q)
+        if terms is None:
+            a = k - 1.0
+            terms = (a, 4.0 * a * (-(1.0 + r) / r), 2.0 * a)
+        _, four_ac, two_a = terms
+        b = 1.0 / q - k * x1
+        root = np.sqrt(b * b - four_ac)
+        if gain > 1.0 + _GAIN_MARGIN:
+            y = (root - b) / two_a
+        elif gain < 1.0 - _GAIN_MARGIN:
+            y = (2.0 * (1.0 + r) / r) / (b + root)
+        else:
+            y = np.where(b <= 0, (root - b) / two_a, (2.0 * (1.0 + r) / r) / (b + root))
+        x2 = y - x1
+        x3 = 1.0 / (y if r == 1.0 else r * y)
+        lo = np.minimum(np.minimum(x1, x2), x3)
+        out = np.maximum(np.maximum(x1, x2), x3)
+        out /= lo
+    return np.where(lo > 0, out, np.inf)
 
 
 def best_gain_k(spec: Spec, r: float = 1.0) -> float:
@@ -165,7 +206,8 @@ def best_gain_k(spec: Spec, r: float = 1.0) -> float:
         if k_eq > 1.0 and float(_spread(*_normalised(spec, k_eq, r))) <= 1.0 + 1e-12:
             return k_eq  # the equal-resistor design meets this gain exactly
     km1 = _KM1_GRID
-    sp = _spread(*_normalised(spec, _K_GRID, r))
+    r = float(r)
+    sp = _grid_spreads(spec, _K_GRID, r, _K_GRID_TERMS if r == 1.0 else None)
     i = int(sp.argmin())
     if not math.isfinite(sp[i]):
         raise Infeasible(f"no amplifier gain K from {_K_MIN} to {_K_MAX:g} meets Q {spec.q:.4g} with gain {spec.gain:.4g} (Q below about 0.35 is out of reach)")
@@ -173,7 +215,7 @@ def best_gain_k(spec: Spec, r: float = 1.0) -> float:
     # optimum) to about 5e-4 in K − 1; any K meets the target exactly, so this only tidies the choice.
     lo, hi = km1[max(i - 1, 0)], km1[min(i + 1, km1.size - 1)]
     fine = lo * (hi / lo) ** _UNIT_FINE
-    return 1.0 + float(fine[int(_spread(*_normalised(spec, 1.0 + fine, r)).argmin())])
+    return 1.0 + float(fine[int(_grid_spreads(spec, 1.0 + fine, r).argmin())])
 
 
 def _filter_parts(spec: Spec, c1: float, r: float, k: float) -> dict[str, float]:

@@ -66,6 +66,10 @@ class Topology:
         Position in listings.
     notes : str
         Design notes shown beside the circuit.
+    procedure : str, optional
+        The name of a design procedure several circuits share: their ``synthesize`` gives the
+        same exact values and notes for the same target, pins and series (only its messages name
+        the circuit), so a design of several circuits for one target runs it once.
     """
 
     id: str
@@ -78,6 +82,7 @@ class Topology:
     synthesize: Callable | None = None
     order: int = 100
     notes: str = ""
+    procedure: str | None = None
     refs: tuple[str, ...] = field(init=False)
     part_kinds: tuple[tuple[str, str, bool], ...] = field(init=False, repr=False)
     _by_ref: Mapping[str, Component] = field(init=False, repr=False, compare=False)

@@ -71,6 +71,11 @@ def loop_unit(spec: Spec, c1: float, c2: float, ratio: float | None) -> dict[str
     return {"R1": r2 / spec.gain, "R2": r2, "R3": r, "R4": r, "C1": c1, "C2": c2}
 
 
+# The two-integrator loops' shared design procedure (Topology.procedure): loop_synthesize names the
+# circuit only in its messages.
+LOOP_PROCEDURE = "two-integrator loop"
+
+
 def loop_synthesize(spec: Spec, fixed, series: str, name: str) -> Exact:
     return synthesize_scaled(
         spec, fixed, series, name=name, unit=loop_unit, ratio=lambda s: 1.0, pair=Pair("R5", "R6", "R3"),
@@ -134,6 +139,7 @@ TOPOLOGY = Topology(
     formulas=loop_formulas,
     synthesize=synthesize,
     order=60,
+    procedure=LOOP_PROCEDURE,
     notes=(
         "Three op-amps; f0, Q and gain set one at a time (R3/R4, R2, R1), resistor spread about Q : 1. "
         "Q rises with finite op-amp GBW (about 4·Q·f0/GBW)."

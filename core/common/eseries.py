@@ -72,6 +72,8 @@ _CODES: dict[str, tuple[tuple[int, ...], int]] = {
 _TOLERANCE = {"E6": 0.2, "E12": 0.1, "E24": 0.05, "E48": 0.02, "E96": 0.01, "E192": 0.005}
 
 _REL_TOL = 1e-9
+# the factors a value is scaled by to take a standard value within _REL_TOL of it as equal (1 ± _REL_TOL)
+_UP, _DOWN = 1 + _REL_TOL, 1 - _REL_TOL
 _POW10 = np.array([float(f"1e{k}") for k in range(0, 330)])  # exact up to 1e22
 
 
@@ -322,18 +324,20 @@ def search_option_lists(x, series: str, width: int) -> tuple[list[list[float]], 
         return _value_of(k, codes_l, n, ndigits)
 
     options, near = [], []
+    inside = width <= 8
     for xv in _positive_floats(x):
-        ceiling = xv * (1 + _REL_TOL)
-        if width <= 8 and x_min < xv < x_max:
+        ceiling = xv * _UP
+        if inside and x_min < xv < x_max:
             # the largest standard value <= ceiling, by bisection of the table
             i = bisect.bisect_right(table, ceiling) - 1
             v_lo = table[i]
-            standard = v_lo >= xv * (1 - _REL_TOL)
-            v_hi = v_lo if standard else table[i + 1]
-            near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)
-            # itself and width each side, or width at or below and width above: one run of values
-            lo_i, hi_i = (i - width, i + width + 1) if standard else (i - width + 1, i + width + 1)
-            options.append(table[lo_i:hi_i])
+            if v_lo >= xv * _DOWN:  # a standard value: its own nearest; itself and width each side
+                near.append(v_lo)
+                options.append(table[i - width:i + width + 1])
+            else:  # width at or below and width above: one run of values
+                v_hi = table[i + 1]
+                near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)
+                options.append(table[i - width + 1:i + width + 1])
             continue
         lx = math.log10(xv)
         decade = math.floor(lx)
@@ -342,7 +346,7 @@ def search_option_lists(x, series: str, width: int) -> tuple[list[list[float]], 
             lo += value(lo + 1) <= ceiling
             lo -= value(lo) > ceiling
         v_lo = value(lo)
-        standard = v_lo >= xv * (1 - _REL_TOL)
+        standard = v_lo >= xv * _DOWN
         hi = lo if standard else lo + 1
         v_hi = value(hi)
         near.append(v_lo if math.log(xv / v_lo) <= math.log(v_hi / xv) else v_hi)

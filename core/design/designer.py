@@ -132,10 +132,13 @@ def spread_of(topology: Topology, values: Mapping[str, float]) -> dict[str, floa
 
     The winding resistance is not a resistor here; None where a circuit has no such part.
     """
-    roles = _parts_of(topology.part_kinds)
-    r_refs, c_refs = roles.resistors, roles.capacitors
-    rs = [values[ref] for ref in r_refs if values.get(ref, 0) > 0]
-    cs = [values[ref] for ref in c_refs if values.get(ref, 0) > 0]
+    return _spread(_parts_of(topology.part_kinds), values)
+
+
+def _spread(roles: _PartRoles, values: Mapping[str, float]) -> dict[str, float | None]:
+    """:func:`spread_of` from the circuit's :func:`_parts_of`."""
+    rs = [v for ref in roles.resistors if (v := values.get(ref, 0)) > 0]
+    cs = [v for ref in roles.capacitors if (v := values.get(ref, 0)) > 0]
     return {"r": max(rs) / min(rs) if rs else None, "c": max(cs) / min(cs) if cs else None}
 
 
@@ -179,9 +182,17 @@ def _limits(topology: Topology, values: Mapping[str, float]) -> str | None:
     return None
 
 
-def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[str, float], result_errors, analysis: Analysis, series: str, tol: Tolerances, fixed) -> list[str]:
+# How _warnings shows each figure a design misses (of standard.figure_misses' keys).
+_MISSES_SHOWN = {"f0_pct": "f0 {:+.3g} % (tolerance ±{:g} %)", "q_pct": "Q {:+.3g} % (±{:g} %)", "gain_db": "gain {:+.3g} dB (±{:g} dB)"}
+
+
+def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[str, float], result_errors, analysis: Analysis, series: str, tol: Tolerances, fixed,
+              roles: _PartRoles | None = None) -> list[str]:
+    """A design's warnings (``roles``: the circuit's :func:`_parts_of`, looked up when not given)."""
     out = []
-    for ref, kind, lo, hi in _parts_of(topology.part_kinds).required:
+    if roles is None:
+        roles = _parts_of(topology.part_kinds)
+    for ref, kind, lo, hi in roles.required:
         v = chosen.get(ref, 0.0)
         if v > hi or v < lo:
             unit = PART_UNITS[kind]
@@ -192,7 +203,7 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
             else:
                 what = "high: leakage, noise and stray capacitance matter" if v > hi else "low: it loads the op-amp and its driver"
             out.append(f"{ref} = {format_value(v, unit)} is {what} (usual range {format_value(lo, unit)} to {format_value(hi, unit)})")
-    sp = spread_of(topology, chosen)
+    sp = _spread(roles, chosen)
     if sp["r"] is not None and sp["r"] > _SPREAD_R:
         out.append(f"large resistor spread: {sp['r']:.3g} : 1 between the largest and the smallest resistor")
     if sp["c"] is not None and sp["c"] > _SPREAD_C:
@@ -208,13 +219,13 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
                 f"±{100 * tol.q:g} % takes parts of about ±{100 * needed:.2g} % or a trimmer"
             )
     if series != "exact" and result_errors is not None:
-        shown = {"f0_pct": "f0 {:+.3g} % (tolerance ±{:g} %)", "q_pct": "Q {:+.3g} % (±{:g} %)", "gain_db": "gain {:+.3g} dB (±{:g} dB)"}
-        misses = [shown[key].format(value, limit) for key, value, limit, _unit in figure_misses(result_errors, tol)]
+        misses = [_MISSES_SHOWN[key].format(value, limit) for key, value, limit, _unit in figure_misses(result_errors, tol)]
         if misses:
             out.append(f"with {series} values the best combination still misses: " + ", ".join(misses) + "; use a finer series or trim a part")
-        off = [r for r in fixed if topology.component(r).required and not in_series(chosen[r], series)]
-        if off:
-            out.append(f"pinned {', '.join(off)} {'is' if len(off) == 1 else 'are'} not {series} values; kept as given")
+        if fixed:
+            off = [r for r in fixed if topology.component(r).required and not in_series(chosen[r], series)]
+            if off:
+                out.append(f"pinned {', '.join(off)} {'is' if len(off) == 1 else 'are'} not {series} values; kept as given")
     return out
 
 
@@ -372,9 +383,10 @@ def prepare_designs_many(
     made: list[list] = []
     for topology_ids, spec, conditions in requests:
         ms: list = []
+        shared: dict = {}  # (a procedure several circuits share, run once for this target: _prepare)
         for t in topology_ids:
             try:
-                ms.append(_prepare(t, spec, series, fixed, conditions))
+                ms.append(_prepare(t, spec, series, fixed, conditions, shared))
             except InputError as exc:
                 ms.append(exc)
         made.append(ms)
@@ -401,8 +413,13 @@ class _Prepared:
     candidate: Candidate
 
 
-def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Conditions) -> DesignResult | _Exact:
-    """The design up to its exact values: an :class:`_Exact`, or the infeasible result."""
+def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Conditions, shared: dict | None = None) -> DesignResult | _Exact:
+    """The design up to its exact values: an :class:`_Exact`, or the infeasible result.
+
+    ``shared`` (one per target) keeps the exact values of a design procedure several circuits
+    share (:attr:`Topology.procedure`) by pins and series, so that it runs once for them: the same
+    values and notes (its messages, which name the circuit, come only from a run that fails,
+    and a failed run is not kept)."""
     topo = get_topology(topology_id)
     if not isinstance(spec, Spec):
         raise InputError("spec", "must be a design target (bandsmith.design.designer.Spec)")
@@ -411,10 +428,15 @@ def _prepare(topology_id: str, spec: Spec, series: str, fixed, conditions: Condi
     pins = parse_fixed(topo, fixed)
     if topo.synthesize is None:
         return _infeasible(topo, spec, series, f"{topo.title} has no design procedure yet; enter its parts by hand", pins, conditions)
-    try:
-        exact = topo.synthesize(spec, pins, series=series)
-    except Infeasible as exc:
-        return _infeasible(topo, spec, series, exc.reason, pins, conditions)
+    key = None if shared is None or topo.procedure is None else (topo.procedure, tuple(pins.items()), series)
+    exact = None if key is None else shared.get(key)
+    if exact is None:
+        try:
+            exact = topo.synthesize(spec, pins, series=series)
+        except Infeasible as exc:
+            return _infeasible(topo, spec, series, exc.reason, pins, conditions)
+        if key is not None:
+            shared[key] = exact
     notes = tuple(getattr(exact, "notes", ()))
     try:
         exact = topo.values_from(exact)
@@ -484,8 +506,9 @@ def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analy
               choice) -> DesignResult:
     """The result of a design that works, given its errors (:func:`errors_of` of its ideal
     figures): its warnings and analysis."""
-    warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins)
-    if needs_inductor(topo):  # a real inductor must reach its share of the Q
+    roles = _parts_of(topo.part_kinds)
+    warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins, roles)
+    if roles.inductor:  # a real inductor must reach its share of the Q
         w = inductor_q_warning(inductor_q_needed(spec.q))
         if w:
             warnings.append(w)

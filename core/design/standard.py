@@ -161,16 +161,17 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
 
 
 @functools.lru_cache(maxsize=64)
-def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.ndarray, tuple[tuple[int, float], ...], np.ndarray]:
+def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.ndarray, tuple[int, ...], np.ndarray]:
     """What :func:`_combination_searches` needs of an expansion ``exp`` (a kept unit expansion, one
-    per circuit structure) for these free parts and option counts, made once: each flat entry's
-    unit value (a part's options and nearest value over its variable's unit), the held variables
-    as ``(column, unit value)``, and :func:`_log_gather`'s positions. Read-only."""
+    per circuit structure) for these free parts and option counts, made once: the unit value of
+    each of a search's entries (a free part's options and nearest value over its variable's
+    unit, then each held variable's unit), the held variables' columns, and :func:`_log_gather`'s
+    positions. Read-only."""
     at = {r: k for k, r in enumerate(free)}
     units = [u.value for u in exp.variables]
-    per_entry = np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes])
+    held = tuple(j for j, u in enumerate(exp.variables) if u.name not in at)
+    per_entry = np.concatenate([np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes]), [units[j] for j in held]])
     per_entry.setflags(write=False)
-    held = tuple((j, units[j]) for j, u in enumerate(exp.variables) if u.name not in at)
     return per_entry, held, _log_gather(sizes, tuple(at.get(u.name, -1) for u in exp.variables))
 
 
@@ -258,7 +259,9 @@ def choose_standard_groups(groups: Sequence[Sequence[tuple]], *, checked: bool =
     ``checked``: every item's exact values are :meth:`Topology.values_from`'s already (a
     design's), so they are taken as they are instead of validated again."""
     with np.errstate(all="ignore"):  # far-off combinations may overflow; they are simply not chosen
-        every = iter(_combination_searches([item for items in groups for item in items], checked=checked))
+        found = _combination_searches([item for items in groups for item in items], checked=checked,
+                                      groups=[g for g, items in enumerate(groups) for _ in items])
+        every = iter(found)
         made = [[next(every) for _ in items] for items in groups]
         lives = [[i for i, m in enumerate(ms) if isinstance(m, _Search)] for ms in made]
         peaked = [g for g, (ms, live) in enumerate(zip(made, lives))
@@ -275,6 +278,13 @@ def choose_standard_groups(groups: Sequence[Sequence[tuple]], *, checked: bool =
         for g, (ms, live) in enumerate(zip(made, lives)):
             if live and isinstance(ms[live[0]], _Search):  # (not yet chosen above)
                 _choose_searches(ms, live, g in peaked)
+    if any(isinstance(m, _Same) for m in found):  # each the choice of the search it repeats
+        place = [(g, i) for g, items in enumerate(groups) for i in range(len(items))]
+        for k, m in enumerate(found):
+            if isinstance(m, _Same):
+                g, i = place[k]
+                og, oi = place[m.of]
+                made[g][i] = m.choice(made[og][oi])
     return made
 
 
@@ -307,32 +317,42 @@ def _peak_costs(searches: list[_Search]) -> list[np.ndarray] | None:
     edges and the phase; a combination with no peak is not stable and costs inf either way); None
     where a combination is of another shape."""
     h, order = (searches[0].h, [0]) if len(searches) == 1 else _joined_rows(searches)
+    # (Routh–Hurwitz first: its working arrays are let go before the closed form makes its own,
+    # and over a chain's tens of thousands of combinations fresh memory costs more than either)
+    stable = hurwitz_stable(h.den)
     peaks = biquad_peak_figures(h)
     if peaks is None:
         return None
     out = [None] * len(searches)
-    for i, cost in zip(order, _joined_costs([searches[i] for i in order], *peaks, h.den)):
+    for i, cost in zip(order, _joined_costs([searches[i] for i in order], *peaks, h.den, stable)):
         out[i] = cost
     return out
 
 
-def _in_p_columns(c: np.ndarray, ks: list[float], sizes: list[int]) -> list[np.ndarray]:
-    """The columns of joined dense coefficients ``c`` (highest power first), each contiguous,
-    each search's members (``sizes`` of them, in turn) taken to ``p = s/w_ref`` by its ``k`` of
+def _in_p_columns(c: np.ndarray, ks: list[float], sizes: list[int]) -> np.ndarray:
+    """Joined dense coefficients ``c`` (highest power first) in a new column-major array, each
+    search's members (``sizes`` of them, in turn) taken to ``p = s/w_ref`` by its ``k`` of
     ``ks``: column ``j`` times ``k`` to the power ``n − 1 − j``, those powers
     ``k ** arange(n − 1, −1, −1.0)`` as :meth:`~bandsmith.solver.expansion.Expansion.rational_log`
-    makes them (once per distinct ``k``); copies of the columns where every ``k`` is 1 (no change
-    of variable)."""
+    makes them (once per distinct ``k``), each column's products written into its place; a copy
+    where every ``k`` is 1 (no change of variable)."""
+    out = np.empty(c.shape, order="F")
     distinct = list(dict.fromkeys(ks))
     n = c.shape[1]
     if distinct == [1.0]:
-        return [c[:, j].copy() for j in range(n)]
+        out[...] = c
+        return out
     powers = [k ** np.arange(n - 1, -1, -1.0) for k in distinct]
     if len(distinct) == 1:
-        return [c[:, j] * powers[0][j] for j in range(n)]
+        for j in range(n):
+            np.multiply(c[:, j], powers[0][j], out=out[:, j])
+        return out
     at = {k: i for i, k in enumerate(distinct)}
-    table = np.array(powers)[[at[k] for k in ks]].T  # (n, searches)
-    return [c[:, j] * np.repeat(table[j], sizes) for j in range(n)]
+    # (n, members): row j every member's power of its k, each search's repeated over its members
+    repeated = np.repeat(np.array(powers)[[at[k] for k in ks]].T, sizes, axis=1)
+    for j in range(n):
+        np.multiply(c[:, j], repeated[j], out=out[:, j])
+    return out
 
 
 def _joined_rows(searches: list[_Search]) -> tuple[Rational, list[int]]:
@@ -372,11 +392,12 @@ def _costs(searches: list[_Search], figs: list[Figures]) -> list[np.ndarray]:
     return _joined_costs(searches, joined("f0_hz"), joined("q"), joined("gain_center_db"), np.concatenate([m.h.den for m in searches]))
 
 
-def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarray]:
+def _joined_costs(searches: list[_Search], f0, q, gain_db, den, stable: np.ndarray | None = None) -> list[np.ndarray]:
     """Each search's costs: its weighted errors where the combination is stable (Routh–Hurwitz on
     ``den``) and measured (f0, Q and the gain finite: :func:`~bandsmith.analysis.figures.defined`), inf elsewhere;
     the figures and denominators of every search joined, each search's targets and tolerances
-    repeated over its members (the same operations, member by member, as each search alone)."""
+    repeated over its members (the same operations, member by member, as each search alone);
+    ``stable``: Routh–Hurwitz on ``den`` where already made."""
     sizes = [m.batch for m in searches]
     # each search's targets and tolerances, (f0, Q, gain in dB, tol f0, tol Q, tol gain): one
     # number where every search has the same (a compare, a chain's stage), broadcast over the
@@ -391,7 +412,7 @@ def _joined_costs(searches: list[_Search], f0, q, gain_db, den) -> list[np.ndarr
         each = [c[0] if all(v == c[0] for v in c) else np.repeat(c, sizes) for c in columns]
     # (where f0, Q or the gain is not finite, :func:`~bandsmith.analysis.figures.defined`, the
     # weighted error is not finite either, so already inf: the figures need no test of their own)
-    cost = _weighted_rows(f0, q, gain_db, *each, hurwitz_stable(den))
+    cost = _weighted_rows(f0, q, gain_db, *each, hurwitz_stable(den) if stable is None else stable)
     ends = list(itertools.accumulate(sizes))
     return [cost[end - size:end] for size, end in zip(sizes, ends)]
 
@@ -437,7 +458,42 @@ class _Search:
         )
 
 
-def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> list[Choice | _Search]:
+@dataclass(frozen=True, slots=True)
+class _Same:
+    """A search whose every input is that of search ``of`` (its place among the items of
+    :func:`_combination_searches`): its choice is that search's, with its own ``values``."""
+
+    of: int
+    values: dict[str, float]
+    free: tuple[str, ...]
+
+    def choice(self, same: Choice) -> Choice:
+        """Its choice, given that of the search it repeats: the same free parts' values (the
+        same combination), its other parts its own, the same numbers."""
+        if same.values is None:
+            return same
+        chosen = dict(self.values)
+        chosen.update((ref, same.values[ref]) for ref in self.free)
+        return Choice(chosen, same.combinations, same.weighted, same.weighted_rounded)
+
+
+# each kept expansion's canonical one: the first seen that gives the same products (_canonical)
+_CANONICAL: dict[Expansion, Expansion] = {}
+
+
+def _canonical(exp: Expansion) -> Expansion:
+    """The first kept expansion met whose products are ``exp``'s, number for number
+    (:meth:`~bandsmith.solver.expansion.Expansion.same_products`; ``exp`` itself if none): worked
+    out once per circuit structure, so that searches on circuits whose ideal transfer functions
+    are one function of their parts share a stack."""
+    known = _CANONICAL.get(exp)
+    if known is None:
+        known = next((c for c in dict.fromkeys(_CANONICAL.values()) if c.same_products(exp)), exp)
+        _CANONICAL[exp] = known
+    return known
+
+
+def _combination_searches(items: Sequence[tuple], *, checked: bool = False, groups: Sequence[int] | None = None) -> list:
     """Each circuit's combinations of standard values and their transfer functions
     (:class:`_Search`), or its :class:`Choice` at once when no part is free, of each item
     ``(topology, exact, spec, series, keep, tolerances, width)``. Floating-point warnings are the
@@ -447,110 +503,150 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False) -> l
     Through the circuit's kept expansion, the natural logs of the combinations' ratios go to
     :meth:`bandsmith.solver.expansion.Expansion.dense_log` as one gather: ``log(x/u)`` is taken
     once per offered value (a few dozen) instead of once per combination and part; numpy's log
-    maps each number alone, so a value has the same log wherever it sits in an array. The
-    searches that share a kept expansion, free parts and option counts (a chain's stages on one
+    maps each number alone, so a value has the same log wherever it sits in an array (one call
+    takes every search's). The searches that share a kept expansion (or one of the same
+    products, :func:`_canonical`), free parts and option counts (a chain's stages on one
     circuit) are made in one stacked batch (dense_log takes a stack's products one batch at a
-    time, each batch's numbers as alone), from one logarithm of all their flat entries and one
-    gather; where every offered value's log is finite, so is every row, and
+    time, each batch's numbers as alone), from one gather of their rows of logs; where every
+    offered value's log is finite, so is every row, and
     :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite` looks for no other. The
     coefficients of every search are then taken to ``p = s/w_ref`` and scaled in one joined batch
     (:func:`_scaled_searches`): the transfer functions
     :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
     bit, which are :func:`_combinations`' of the values themselves. Where the expansion does not
     apply, or a batch is past its small-batch products, :func:`_combinations`. ``checked`` as
-    :func:`choose_standard_groups` takes it."""
+    :func:`choose_standard_groups` takes it.
+
+    ``groups`` (one number per item: :func:`choose_standard_groups`' groups) lets a search whose
+    every input is that of an earlier one in its group be made once: the same canonical
+    expansion (:func:`_canonical`), the same values of its variables (so of its free parts),
+    free parts, pins, series, width, target and tolerances give the same offered values,
+    combinations, transfer functions and costs, so the same choice (a compare's Tow–Thomas and
+    Åkerberg–Mossberg, one function of the same parts with an ideal op-amp, designed alike).
+    Such an item gets a :class:`_Same` pointing at that search, whose choice the caller takes
+    with the item's own values."""
     out: list = [None] * len(items)
-    stacks: dict[tuple, list[tuple[int, _Setup, np.ndarray]]] = {}
-    for k, item in enumerate(items):
-        made = _search_setup(*item, checked=checked)
+    stacks: dict[tuple, list[tuple[int, _Setup, list[float]]]] = {}
+    seen: dict[tuple, tuple] = {}  # (group, canonical expansion, own values, …) -> the first such search
+    for k, (topology, exact, spec, series, keep, tolerances, width) in enumerate(items):
+        values = exact if checked else topology.values_from(exact)
+        exp, own = _search_expansion(topology, values)
+        if groups is not None and exp is not None:  # (the same inputs as an earlier search of its group: made once)
+            free = _free_parts(topology.part_kinds, keep, series)[0]
+            earlier = seen.setdefault((groups[k], _canonical(exp), tuple(own), free, keep, series, width), (k, spec, tolerances))
+            if earlier[0] != k and earlier[1] == spec and earlier[2] == tolerances:
+                out[k] = _Same(earlier[0], values, free)
+                continue
+        made = _search_setup(topology, values, spec, series, keep, tolerances, width, checked=True)
         if isinstance(made, Choice):
             out[k] = made
             continue
         index = _flat_combination_index(made.sizes)
-        exp, own = _search_expansion(made.topology, made.values)
         if exp is None or index.shape[1] > SMALL_BATCH:
             h = _combinations(made.topology.build(made.values), dict(zip(made.free, made.flat[index])), made.spec.w0)
             out[k] = made.search(h)
             continue
-        entries = _log_entries(made.flat, own, _log_plan(exp, made.free, made.sizes))
-        stacks.setdefault((exp, made.free, made.sizes), []).append((k, made, entries))
-    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray]]] = {}
-    for (exp, free, sizes), group in stacks.items():
-        gather = _log_plan(exp, free, sizes)[2]
-        # one log of every member's entries, one gather of their rows (the stack's batch g at g · entries);
-        # where every offered value's log is finite, so is every combination's row (none looked for)
-        logs = np.log(group[0][2] if len(group) == 1 else np.concatenate([entries for _, _, entries in group]))
-        dense = exp.dense_log_finite if np.isfinite(logs).all() else exp.dense_log
-        if len(group) == 1:
-            num, den = dense(logs[gather])
-        else:
-            num, den = dense(logs[gather + _stack_offsets(len(group), group[0][2].size)])
-            num, den = num.reshape(-1, num.shape[-1]), den.reshape(-1, den.shape[-1])  # (each batch's rows in turn)
-        by_widths.setdefault((num.shape[1], den.shape[1]), []).append((exp, group, num, den))
-    for blocks in by_widths.values():
-        _scaled_searches(blocks, out)
+        stacks.setdefault((_canonical(exp), made.free, made.sizes), []).append((k, made, own))
+    if not stacks:
+        return out
+    # The ratios of every search's entries (its flat entries, then its held variables' own values,
+    # each over its unit) in one division and their logs in one call, stack after stack (numpy's
+    # division and log map each number alone: the numbers of each search's own); where every
+    # offered value's log is finite, so is every combination's row (none looked for).
+    plans = {key: _log_plan(*key) for key in stacks}
+    entries = np.concatenate([part for key, group in stacks.items() for _, made, own in group
+                              for part in (made.flat, [own[j] for j in plans[key][1]])])
+    logs = np.log(entries / np.concatenate([plans[key][0] for key, group in stacks.items() for _ in group]))
+    finite = np.isfinite(logs)
+    every_finite = bool(finite.all())
+    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray, bool]]] = {}
+    start = 0
+    for key, group in stacks.items():
+        exp, per_entry, gather = key[0], plans[key][0], plans[key][2]
+        stop = start + len(group) * per_entry.size
+        by_widths.setdefault(exp.dense_widths, []).append(
+            (exp, group, logs[start:stop], gather, every_finite or bool(finite[start:stop].all())))
+        start = stop
+    for widths, blocks in by_widths.items():
+        _scaled_searches(blocks, widths, out)
     return out
 
 
-def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray]], out: list) -> None:
+def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray, bool]], widths: tuple[int, int], out: list) -> None:
     """The searches of ``blocks`` made into :class:`_Search` es, placed in ``out``. Each block is
-    ``(exp, group, num, den)``: a stack's searches (``group``, as ``(k, setup, entries)`` with
-    ``k`` the place in ``out``) and the dense coefficients of their combinations in the
-    expansion's ``p`` (:meth:`~bandsmith.solver.expansion.Expansion.dense_log`, the searches'
-    rows in turn), every block of one width. Their transfer functions are those
+    ``(exp, group, logs, gather, finite)``: a stack's searches (``group``, as ``(k, setup,
+    own)`` with ``k`` the place in ``out`` and ``own`` the variables' own values), the logs of
+    their entries (one row per search of the stack, :func:`_log_plan`'s entries), the positions
+    that gather each combination's log ratios from a row (:func:`_log_plan`) and whether every
+    log is finite; every block's dense coefficients of the ``widths`` given (numerator,
+    denominator). Their transfer functions are those
     :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
     bit, from one set of array calls for all the blocks (a compare's seven circuits).
 
-    Each step is rational_log's, member by member: the change of variable to ``p = s/w_ref``
-    multiplies the coefficients of a search by the powers of its own ``k = w_ref/w_e`` (the same
-    ``k ** arange`` of the same two numbers, made once per distinct ``k``; a product by 1 where
-    the expansion's ``w_e`` is kept, which is exact), and each member is divided by its largest
+    Block by block, the combinations' log ratios are gathered (one search's by numpy's take; a
+    stack's rows of logs each taken by the one gather along the axis: the same numbers as a
+    fancy index of offset positions, at half the cost) and their dense coefficients in the
+    expansion's ``p`` made, :meth:`~bandsmith.solver.expansion.Expansion.dense_log`'s (its
+    products written straight into the joined batch's rows by
+    :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_into` where every log is
+    finite), each block's gathered logs let go before the next is made. Each further step is
+    rational_log's, member by member: the change of variable to ``p = s/w_ref`` multiplies the
+    coefficients of a search by the powers of its own ``k = w_ref/w_e`` (the same ``k **
+    arange`` of the same two numbers, made once per distinct ``k``; a product by 1 where the
+    expansion's ``w_e`` is kept, which is exact), and each member is divided by its largest
     denominator coefficient in size (a maximum rounds nothing; the same quotients). Those steps
     go column by column (numpy loops slowly along rows of two or three coefficients, a tenth of
-    the speed), each column made contiguous by the first, into column-major arrays, whose
-    columns the closed form then reads whole. The searches' transfer functions are rows of the
-    joined batch, which :func:`_peak_costs` takes whole where it costs these searches together."""
-    num = blocks[0][2] if len(blocks) == 1 else np.concatenate([n for _, _, n, _ in blocks])
-    den = blocks[0][3] if len(blocks) == 1 else np.concatenate([d for _, _, _, d in blocks])
-    searches = [(k, made, exp) for exp, group, _, _ in blocks for k, made, _ in group]
-    sizes = [made.combinations for _, made, _ in searches]
-    ks = [1.0 if made.spec.w0 == exp.w_ref else made.spec.w0 / exp.w_ref for _, made, exp in searches]
-    num_cols, den_cols = _in_p_columns(num, ks, sizes), _in_p_columns(den, ks, sizes)
-    # column by column (numpy loops slowly along rows of two or three), contiguous: the rows'
-    # largest coefficient in size, then every coefficient over it, into column-major arrays
-    scale = np.abs(den_cols[0])
-    absolute = np.empty_like(scale)
-    for c in den_cols[1:]:
-        np.maximum(scale, np.abs(c, out=absolute), out=scale)
-    num = np.empty(num.shape, order="F")
-    den = np.empty(den.shape, order="F")
-    with np.errstate(invalid="ignore", divide="ignore"):
-        for out_, cols in ((num, num_cols), (den, den_cols)):
-            for j, c in enumerate(cols):
-                np.divide(c, scale, out=out_[:, j])
-    w0s = [made.spec.w0 for _, made, _ in searches]
-    w_ref = np.full(num.shape[0], float(w0s[0])) if len(set(w0s)) == 1 else np.repeat(np.array(w0s, dtype=float), sizes)
-    joined = Rational(num, den, w_ref)
+    the speed), in place in column-major arrays, whose columns the closed form then reads whole.
+    Over a chain's tens of thousands of combinations, memory taken afresh from the system costs
+    more than the arithmetic (its first use), so no array is made that is not needed and each
+    is let go as soon as it is used. The searches' transfer functions are rows of the joined
+    batch, which :func:`_peak_costs` takes whole where it costs these searches together."""
+    rows = [len(group) * gather.shape[0] for _, group, _, gather, _ in blocks]
+    total = sum(rows)
+    num = np.empty((total, widths[0]))
+    den = np.empty((total, widths[1]))
     start = 0
-    for (k, made, _), size in zip(searches, sizes):
+    for (exp, group, logs, gather, finite), size in zip(blocks, rows):
+        gathered = logs.take(gather) if len(group) == 1 else logs.reshape(len(group), -1).take(gather, axis=1)
+        num_rows, den_rows = num[start:start + size], den[start:start + size]
+        if finite:
+            if gathered.ndim == 3:  # (a stack: its batches' rows in turn)
+                num_rows, den_rows = num_rows.reshape(*gathered.shape[:2], widths[0]), den_rows.reshape(*gathered.shape[:2], widths[1])
+            exp.dense_log_finite_into(gathered, num_rows, den_rows)
+        else:
+            block_num, block_den = exp.dense_log(gathered)
+            num_rows[...] = block_num.reshape(size, widths[0])
+            den_rows[...] = block_den.reshape(size, widths[1])
+        del gathered, num_rows, den_rows
+        start += size
+    searches, sizes, ks, w0s = [], [], [], []  # (each search's place and set-up, members, k, w0)
+    for exp, group, *_ in blocks:
+        for k, made, _ in group:
+            w0 = made.spec.w0
+            searches.append((k, made))
+            sizes.append(made.combinations)
+            ks.append(1.0 if w0 == exp.w_ref else w0 / exp.w_ref)
+            w0s.append(w0)
+    den_p = _in_p_columns(den, ks, sizes)
+    del den  # (its memory free for the numerator's columns)
+    num_p = _in_p_columns(num, ks, sizes)
+    del num
+    # column by column (numpy loops slowly along rows of two or three), in place: the rows'
+    # largest coefficient in size, then every coefficient over it
+    scale = np.abs(den_p[:, 0])
+    absolute = np.empty_like(scale)
+    for j in range(1, den_p.shape[1]):
+        np.maximum(scale, np.abs(den_p[:, j], out=absolute), out=scale)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        for c in (num_p, den_p):
+            for j in range(c.shape[1]):
+                np.divide(c[:, j], scale, out=c[:, j])
+    w_ref = np.full(total, float(w0s[0])) if len(set(w0s)) == 1 else np.repeat(np.array(w0s, dtype=float), sizes)
+    joined = Rational(num_p, den_p, w_ref)
+    start = 0
+    for (k, made), size in zip(searches, sizes):
         out[k] = made.search(joined, start)
         start += size
-
-
-def _stack_offsets(g: int, n: int) -> np.ndarray:
-    """``(g, 1, 1)`` offsets ``0, n, 2n, …`` that take one gather's positions to each of ``g``
-    stacked copies of ``n`` entries."""
-    return (np.arange(g, dtype=np.intp) * n)[:, None, None]
-
-
-def _log_entries(flat: np.ndarray, own: list[float], plan: tuple) -> np.ndarray:
-    """The ratios whose logs :func:`_combination_searches` gathers: the free parts' flat entries
-    over their unit values, then the held variables' own values over theirs."""
-    per_entry, held, _ = plan
-    ratios = flat / per_entry
-    if held:
-        ratios = np.concatenate([ratios, [own[j] / unit for j, unit in held]])
-    return ratios
 
 
 # per circuit build and optional parts at zero: its kept unit expansion and its variables' names,
@@ -630,16 +726,19 @@ def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, se
         h = transfer_function(topology.build(values), w_ref=spec.w0)
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
-    options = [None] * len(free)
-    rounded = [None] * len(free)
-    for ps, idx in groups:
-        opts, near = search_option_lists([values[free[i]] for i in idx], ps, width)
-        for i, o, v in zip(idx, opts, near):
-            options[i], rounded[i] = o, v
+    if len(groups) == 1:  # (every part from one series, as a rule: the parts in their order)
+        options, rounded = search_option_lists([values[ref] for ref in free], groups[0][0], width)
+    else:
+        options = [None] * len(free)
+        rounded = [None] * len(free)
+        for ps, idx in groups:
+            opts, near = search_option_lists([values[free[i]] for i in idx], ps, width)
+            for i, o, v in zip(idx, opts, near):
+                options[i], rounded[i] = o, v
     # Every combination of the options, and last the member that rounds every part alone to its
     # nearest standard value, for comparison: each part's options with its nearest value after
     # them, in one flat array taken by a combination index.
-    sizes = tuple(len(o) for o in options)
+    sizes = tuple(map(len, options))
     flat = np.array([v for o, near in zip(options, rounded) for v in (*o, near)])
     return _Setup(topology, values, free, flat, sizes, spec, tolerances)
 

@@ -750,6 +750,35 @@ class Expansion:
         with np.errstate(over="ignore"):
             return self._products(log_ratios)
 
+    @property
+    def dense_widths(self) -> tuple[int, int]:
+        """How many coefficients :meth:`dense_log` gives a member's numerator and denominator
+        (every power of p up to the highest present)."""
+        return self._num_dense.shape[1], self._den_dense.shape[1]
+
+    def same_products(self, other: "Expansion") -> bool:
+        """True where ``other`` gives the same dense coefficients as this one, number for number,
+        for the same log ratios (:meth:`dense_log`, :meth:`dense_log_finite`): the same variables
+        (names, kinds, units and degrees), the same ``w_ref``, exponents and term matrices (two
+        circuits whose ideal transfer functions are one function of their parts, say)."""
+        return other is self or (
+            self.variables == other.variables and self.w_ref == other.w_ref
+            and np.array_equal(self._exps_ratio, other._exps_ratio)
+            and np.array_equal(self._num_dense, other._num_dense) and np.array_equal(self._den_dense, other._den_dense))
+
+    def dense_log_finite_into(self, log_ratios: np.ndarray, num: np.ndarray, den: np.ndarray) -> None:
+        """:meth:`dense_log_finite` written into ``num`` and ``den`` (C-contiguous, of the shapes
+        it gives: the rows of a batch joined with others, say), its monomials' exponential taken
+        in place: the same numbers (numpy's exp maps each number alone, and a product given its
+        output runs the same product), without a batch's own arrays to join afterwards — over a
+        chain's tens of thousands of combinations the memory freshly taken for those costs more
+        than the arithmetic."""
+        with np.errstate(over="ignore"):
+            mono = log_ratios @ self._exps_ratio
+            np.exp(mono, out=mono)
+            np.matmul(mono, self._num_dense, out=num)
+            np.matmul(mono, self._den_dense, out=den)
+
     def _products(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """``exp(log ratios @ exponents)``, the monomials ``(B, M)``, onto every power of p, highest
         first: :meth:`dense_log`'s and :meth:`dense_log_finite`'s numerator and denominator
