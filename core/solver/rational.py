@@ -532,7 +532,7 @@ def _few_matrix(degree: int) -> np.ndarray:
         powers = [p**m for m in range(n)]
         rows.append([z.real for z in powers])
         rows.append([z.imag for z in powers])
-    m = np.ascontiguousarray(np.linalg.inv(np.array(rows[:n])).T[:, ::-1])
+    m = np.ascontiguousarray(np.linalg.solve(np.array(rows[:n]), np.eye(n)).T[:, ::-1])  # (solve: the gufunc the samples take too)
     m.setflags(write=False)
     return m
 
