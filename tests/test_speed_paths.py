@@ -1267,3 +1267,19 @@ def test_node_coefficients_from_the_fewest_samples_against_50_digits(circuit):
             assert_allclose(got, want, rtol=0, atol=1e-13)
         slopes = max_step_slopes_of(nums, den_c, w)
         assert_allclose(slopes, max_step_slopes_of([r[-3:] for r in exact[1:]], exact[0][-3:], w), rtol=1e-13)
+
+
+def test_fewest_samples_give_back_real_polynomials():
+    """The fewest samples' matrix (rational._few_matrix) turns the values of any real polynomial of
+    degree 0, 1 or 2 at rational._few_points, laid out as (Re, Im, Re, …), into its coefficients
+    (highest power first), to rounding: numpy.polyval gives the values. Reference: numpy.polyval."""
+    from bandsmith.solver.rational import _few_matrix, _few_points
+
+    rng = np.random.default_rng(3)
+    for degree in (0, 1, 2):
+        points = np.array(_few_points(degree))
+        for _ in range(50):
+            c = rng.standard_normal(degree + 1) * 10.0 ** rng.uniform(-3, 3, degree + 1)
+            v = np.polyval(c, points)
+            b = np.column_stack([v.real, v.imag]).ravel()[: degree + 1]
+            assert_allclose(b @ _few_matrix(degree), c, rtol=0, atol=1e-14 * np.abs(c).max())
