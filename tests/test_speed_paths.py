@@ -1296,3 +1296,87 @@ def test_the_required_gbw_search_measures_the_lower_ladder_only_where_it_can_mat
         whole = searched(lambda ref: 0, opamp)
         assert searched(chosen, opamp) == whole
         assert searched(lambda ref: gbw_search._LADDER_POINTS - 4, opamp) == whole
+
+
+def _node_coefficients_50_digits(system, nodes, w):
+    """Member 0's denominator and the numerators of ``nodes`` in ``p = s/w`` (highest power
+    first), from 50-digit mpmath solves and determinants of the pencil at ``r + 1`` points of the
+    unit circle (``r`` the count of reactive rows' rank bound: the number of capacitors and
+    inductors), interpolated by a 50-digit Vandermonde solve; all divided by the denominator's
+    largest |coefficient|, exact zeros below 1e-30 of it."""
+    import mpmath as mp
+
+    mp.mp.dps = 50
+    g, c = system.G[0], system.C[0]
+    n = g.shape[0]
+    r = int(np.count_nonzero(c.any(axis=1)))
+    pts = [mp.exp(2j * mp.pi * j / (r + 1) + 0.3j) for j in range(r + 1)]
+    vals = []
+    for p in pts:
+        a = mp.matrix([[mp.mpf(float(g[i, j])) + p * w * mp.mpf(float(c[i, j])) for j in range(n)] for i in range(n)])
+        b = mp.matrix(n, 1)
+        b[system.layout.source_row] = 1
+        x, d = mp.lu_solve(a, b), mp.det(a)
+        vals.append([d] + [d * x[i] for i in nodes])
+    v = mp.matrix([[p**m for m in range(r + 1)] for p in pts])
+    rows = []
+    for col in range(1 + len(nodes)):
+        cf = mp.lu_solve(v, mp.matrix([row[col] for row in vals]))
+        rows.append([mp.re(cf[m]) for m in reversed(range(r + 1))])
+    scale = max(abs(x) for x in rows[0])
+    return [[float(x / scale) if abs(x / scale) > mp.mpf(10) ** -30 else 0.0 for x in row] for row in rows]
+
+
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_node_coefficients_from_the_fewest_samples_against_50_digits(circuit):
+    """node_coefficients with a degree bound of 2 (the circuit's two capacitors) samples the
+    pencil at p = e^{iπ/4} and p = 1 only (real coefficients: conjugate points add nothing). On
+    random part values its denominator and numerators (with the circuit's own denominator, as the
+    amplifier needs take it) agree with 50-digit mpmath values to 1e-13 of the largest
+    coefficient, as the full circle's do, the step slopes from them with those of the 50-digit
+    coefficients to 1e-13, and the solution at f0 is the full circle's bit for bit (the same
+    pencil solved). Reference: mpmath (50 digits)."""
+    import math
+
+    from bandsmith.analysis.timeresponse import max_step_slopes_of
+    from bandsmith.design.candidate import Candidate, Conditions
+    from bandsmith.solver.mna import build_system
+    from bandsmith.solver.rational import node_coefficients
+
+    topo = get_topology(circuit)
+    rng = np.random.default_rng(7)
+    for _ in range(4):
+        values = {k: v * 10.0 ** rng.uniform(-0.3, 0.3) for k, v in topo.example.items()}
+        an = Candidate(circuit, values).analyze(Conditions())
+        system = build_system(an.netlist)
+        assert sum(e.kind in ("C", "L") for e in an.netlist.elements) == 2
+        nodes = [system.layout.node_index[e.nodes[2]] for e in an.netlist.opamps]
+        w = 2 * math.pi * an.ideal.item().f0_hz
+        den = (an.h_ideal.den[0].tolist(), float(an.h_ideal.w_ref[0]))
+        exact = _node_coefficients_50_digits(system, nodes, w)
+        sign = 1.0 if exact[0][-1] * den[0][-1] > 0 else -1.0  # the analysis's denominator keeps its sign
+        exact = [[sign * x for x in row] for row in exact]
+        nums, den_c, x = node_coefficients(system, nodes, w, at=1j * w, den=den, degree=2)
+        _, _, x_full = node_coefficients(system, nodes, w, at=1j * w, den=den)
+        assert_array_equal(x, x_full)
+        for got, want in zip([den_c] + nums, exact):
+            got = [0.0] * (len(want) - len(got)) + got
+            assert_allclose(got, want, rtol=0, atol=1e-13)
+        slopes = max_step_slopes_of(nums, den_c, w)
+        assert_allclose(slopes, max_step_slopes_of([r[-3:] for r in exact[1:]], exact[0][-3:], w), rtol=1e-13)
+
+
+def test_fewest_samples_give_back_real_polynomials():
+    """The fewest samples' matrix (rational._few_matrix) turns the values of any real polynomial of
+    degree 0, 1 or 2 at rational._few_points, laid out as (Re, Im, Re, …), into its coefficients
+    (highest power first), to rounding: numpy.polyval gives the values. Reference: numpy.polyval."""
+    from bandsmith.solver.rational import _few_matrix, _few_points
+
+    rng = np.random.default_rng(3)
+    for degree in (0, 1, 2):
+        points = np.array(_few_points(degree))
+        for _ in range(50):
+            c = rng.standard_normal(degree + 1) * 10.0 ** rng.uniform(-3, 3, degree + 1)
+            v = np.polyval(c, points)
+            b = np.column_stack([v.real, v.imag]).ravel()[: degree + 1]
+            assert_allclose(b @ _few_matrix(degree), c, rtol=0, atol=1e-14 * np.abs(c).max())

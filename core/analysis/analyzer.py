@@ -362,7 +362,8 @@ def amplifier_needs(
     """Each amplifier's output swing, slew rates and output current (ideal op-amps).
 
     The exact transfer functions from the input to every op-amp's output node
-    (:func:`bandsmith.solver.rational.node_coefficients`, one set of samples) give the step slew of
+    (:func:`bandsmith.solver.rational.node_coefficients`, one set of samples: the fewest for the
+    netlist's count of capacitors and inductors, which bounds their degree) give the step slew of
     each output (:func:`bandsmith.analysis.timeresponse.max_step_slopes_of`); the circuit solved at f0
     in the same batch gives each output's voltage and current there (with a load, one solve of the
     loaded circuit at f0). ``vin_v`` is the input's peak (V); ``h_ideal``, where the caller has it,
@@ -378,8 +379,9 @@ def amplifier_needs(
     amps = netlist.opamps
     nodes = [system.layout.node_index[e.nodes[2]] for e in amps]
     den = None if h_ideal is None else (h_ideal.den[0].tolist(), float(h_ideal.w_ref[0]))
+    degree = sum(1 for e in netlist.elements if e.kind == "C" or e.kind == "L")  # the rank of C at most
     if rload_ohm is None:  # the outputs' voltages and currents at f0 solved with the same samples
-        nums, den_c, x0 = node_coefficients(system, nodes, w_ref, at=s0, den=den)
+        nums, den_c, x0 = node_coefficients(system, nodes, w_ref, at=s0, den=den, degree=degree)
         at_f0 = np.abs(x0[nodes + [system.layout.opamp_row[e.ref] for e in amps]]).tolist()
         volts, amperes = at_f0[: len(amps)], at_f0[len(amps) :]
     else:
@@ -387,7 +389,7 @@ def amplifier_needs(
         x, layout = solve_at(loaded, s0)
         volts = [abs(x[layout.node_index[e.nodes[2]]]) for e in amps]
         amperes = [abs(x[layout.opamp_row[e.ref]]) for e in amps]
-        nums, den_c, _ = node_coefficients(system, nodes, w_ref, den=den)
+        nums, den_c, _ = node_coefficients(system, nodes, w_ref, den=den, degree=degree)
     slopes = max_step_slopes_of(nums, den_c, w_ref)  # one denominator: the poles and exponentials shared
     out = []
     for e, v, i_out, slope in zip(amps, volts, amperes, slopes):

@@ -422,7 +422,8 @@ def node_rationals(system: MnaSystem, indices, w_ref: float, *, at: complex | No
     return h if at is None else (h, x)
 
 
-def node_coefficients(system: MnaSystem, indices, w_ref: float, *, at: complex | None = None, den: tuple | None = None):
+def node_coefficients(system: MnaSystem, indices, w_ref: float, *, at: complex | None = None, den: tuple | None = None,
+                      degree: int | None = None):
     """The transfer functions of :func:`node_rationals` as plain numbers: ``(nums, den_c, x)``,
     each unknown's numerator and the one denominator in ``p = s/w_ref`` (highest power first,
     lists of floats, all divided by the denominator's largest ``|coefficient|``), and ``x`` every
@@ -448,7 +449,22 @@ def node_coefficients(system: MnaSystem, indices, w_ref: float, *, at: complex |
     from its analysis) — ``D`` at the samples is that polynomial's value instead of a determinant
     (the transfer functions are the same but for rounding, some 1e-15: a common factor of ``D``
     and every ``D·x_i`` cancels; and a process's first determinant costs numpy some 150 µs).
+
+    With ``degree`` — a bound ``r`` on the degree of ``D`` and of every numerator (the number of
+    the netlist's capacitors and inductors: each adds a rank-one term to ``C``, and the degree of
+    ``det(G + s·C)`` and of every Cramer numerator is at most the rank of ``C``) — where it is 2
+    or less (every second-order circuit), the samples are the fewest that fix real coefficients
+    (:func:`_few_points`): a polynomial with real coefficients takes conjugate values at conjugate
+    points, so a complex sample gives two real equations (``Re`` and ``Im`` of ``Σ c_m·p^m``) and
+    a real one gives one; ``p = e^{iπ/4}`` and ``p = 1`` give the three coefficients of ``r = 2`` by
+    one real ``(3, 3)`` matrix (:func:`_few_matrix`, the inverse of those equations): two solves
+    (and the one at ``at``) instead of the full circle's five or six. The points lie in the right
+    half-plane, away from the poles of a stable circuit (and from ``p = j``, near which a high-Q
+    denominator is small: a sample there would carry its cancellation). The coefficients are the
+    full circle's but for rounding: see the tests against 50-digit values.
     """
+    if degree is not None and degree <= 2:
+        return _node_coefficients_few(system, indices, w_ref, degree, at, den)
     g, c = system.G[0], system.C[0]
     k = int(np.count_nonzero(c.any(axis=1))) + 1  # _degree_bound of member 0, plus one
     idx = list(indices)
@@ -466,11 +482,69 @@ def node_coefficients(system: MnaSystem, indices, w_ref: float, *, at: complex |
     x = np.linalg.solve(a, _source_column(system.layout.size, system.layout.source_row))  # (K, n, 1), each matrix solved alone
     np.multiply(x[:k, idx, 0].T, values[0], out=values[1:])  # (the same products as D·x, laid out as rows)
     both = (values @ _interpolation_matrix(k)).real.tolist()
+    return _scaled_rows(both, None if at is None else x[k, :, 0])
+
+
+def _node_coefficients_few(system: MnaSystem, indices, w_ref: float, degree: int, at: complex | None, den: tuple | None):
+    """:func:`node_coefficients` of a degree bound of 2 or less, from the samples of
+    :func:`_few_points` (see there)."""
+    g, c = system.G[0], system.C[0]
+    idx = list(indices)
+    w_ref = float(w_ref)
+    points = [w_ref * z for z in _few_points(degree)]
+    k = len(points)
+    s = np.array(points if at is None else points + [complex(at)])
+    a = np.multiply.outer(s, c)  # (K, n, n), and the pencil at ``at`` after them
+    a += g
+    values = np.empty((1 + len(idx), k), dtype=complex)  # D, then D·x_i of every unknown asked for
+    if den is None:
+        values[0] = np.linalg.det(a[:k])
+    else:
+        coefficients, w = den
+        values[0] = [polyval_one(coefficients, z / w) for z in points]
+    x = np.linalg.solve(a, _source_column(system.layout.size, system.layout.source_row))  # (K, n, 1), each matrix solved alone
+    np.multiply(x[:k, idx, 0].T, values[0], out=values[1:])
+    # each row's (Re, Im) pairs side by side, the last Im left out where the last point is real
+    both = (values.view(np.float64)[:, : degree + 1] @ _few_matrix(degree)).tolist()
+    return _scaled_rows(both, None if at is None else x[k, :, 0])
+
+
+_FEW_POINTS = {0: (1.0 + 0j,), 1: (cmath.exp(0.25j * math.pi),), 2: (cmath.exp(0.25j * math.pi), 1.0 + 0j)}
+
+
+def _few_points(degree: int) -> tuple[complex, ...]:
+    """The unit points ``p_k`` of :func:`node_coefficients`' fewest samples for real polynomials
+    of degree at most ``degree`` (0, 1 or 2): ``(1,)``, ``(e^{iπ/4},)``, ``(e^{iπ/4}, 1)``; the
+    real point last, where it gives one equation."""
+    return _FEW_POINTS[degree]
+
+
+@functools.lru_cache(maxsize=4)
+def _few_matrix(degree: int) -> np.ndarray:
+    """The real ``(r + 1, r + 1)`` matrix ``P`` with ``b @ P`` the coefficients (highest power
+    first) of a real polynomial of degree at most ``r`` from ``b``, its values at
+    :func:`_few_points` as ``(Re v_0, Im v_0, Re v_1, …)`` (the last ``Im`` left out where the
+    last point is real): the transposed inverse of the equations ``Re/Im Σ_m c_m·p_k^m = b``,
+    columns reversed. Read-only."""
+    n = degree + 1
+    rows = []
+    for p in _few_points(degree):
+        powers = [p**m for m in range(n)]
+        rows.append([z.real for z in powers])
+        rows.append([z.imag for z in powers])
+    m = np.ascontiguousarray(np.linalg.solve(np.array(rows[:n]), np.eye(n)).T[:, ::-1])  # (solve: the gufunc the samples take too)
+    m.setflags(write=False)
+    return m
+
+
+def _scaled_rows(both: list[list[float]], x_at):
+    """:func:`node_coefficients`' result from the coefficient rows ``both`` (``D`` first, then
+    every numerator): each trimmed (:func:`_trim_rows`; ``D`` alone, the numerators together),
+    all divided by ``D``'s largest ``|coefficient|``."""
     den_c = _trim_rows(both[:1])[0]
     num_c = _trim_rows(both[1:])
     # the largest |coefficient| (numpy's max where a NaN must carry through); the divisions IEEE's
     scale = max(map(abs, den_c)) if all(map(math.isfinite, den_c)) else float(np.abs(np.array(den_c)).max())
-    x_at = None if at is None else x[k, :, 0]
     if scale == 0:  # an all-zero denominator: IEEE quotients (inf, NaN), as numpy's division gives them
         return (np.array(num_c) / scale).tolist(), (np.array(den_c) / scale).tolist(), x_at
     return [[v / scale for v in r] for r in num_c], [v / scale for v in den_c], x_at

@@ -247,9 +247,20 @@ def _kinds_of(part_kinds: tuple[tuple[str, str, bool], ...]) -> tuple[dict[str, 
 
 def _parts_of(topo: Topology) -> _Parts:
     """What judge reads of ``topo``'s parts, from its ``part_kinds`` (made once with the topology;
-    :func:`_kinds_of`)."""
-    kinds, kind_set, ranged = _kinds_of(topo.part_kinds)
-    return _Parts(kinds, kind_set, ranged, part_count(topo), needs_inductor(topo))
+    :func:`_kinds_of`), worked out once per topology object: a compare judges each circuit's
+    topology again at every call, and a chain's ``auto`` every stage's (keyed by id, as
+    :func:`bandsmith.design.compare.part_count` keys its counts: the entry holds the topology, so
+    no other object takes its id while the entry lives)."""
+    known = _PARTS.get(id(topo))
+    if known is None:
+        if len(_PARTS) >= 256:
+            _PARTS.clear()
+        kinds, kind_set, ranged = _kinds_of(topo.part_kinds)
+        known = _PARTS[id(topo)] = (topo, _Parts(kinds, kind_set, ranged, part_count(topo), needs_inductor(topo)))
+    return known[1]
+
+
+_PARTS: dict[int, tuple[Topology, _Parts]] = {}
 
 
 def _gbw_reasons(result: DesignResult, limits: VerdictLimits) -> list[_Crossed]:
@@ -373,7 +384,7 @@ def _settled_limits(result: DesignResult, limits: VerdictLimits, seen: dict | No
             known = seen[key] = _settled_limits(result, limits)
         return known
     a, topo, tol = result.analysis, result.topology, result.conditions.tolerances
-    ranged = _kinds_of(topo.part_kinds)[2]
+    ranged = _parts_of(topo).ranged
     crossed = _figure_reasons(result.errors, tol, "", lambda: f"with {result.series} parts and an ideal op-amp,")
     if a.actual is not None:
         crossed += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",

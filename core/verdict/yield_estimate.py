@@ -86,6 +86,14 @@ def _reach(p: tuple[float, ...]) -> list[float]:
 
 
 @functools.lru_cache(maxsize=16)
+def _window_ends(window_f0: float, window_q: float, window_gain_db: float) -> tuple[list[float], list[float]]:
+    """:func:`_window`'s lower and upper ends as plain floats, per figure (f0, Q, gain): what a
+    single figure's row is compared with (the same float64 numbers as the columns)."""
+    lo, hi = _window(window_f0, window_q, window_gain_db)
+    return lo[:, 0].tolist(), hi[:, 0].tolist()
+
+
+@functools.lru_cache(maxsize=16)
 def _inner_edges(window_f0: float, window_q: float, window_gain_db: float) -> list[float]:
     """The yield window's nearer end from zero in log units, per figure (f0, Q, gain)."""
     lo, hi = _window(window_f0, window_q, window_gain_db)
@@ -231,23 +239,37 @@ def estimate_yield(
         if known is not None:
             return known
     # each part's share of each figure's log variance, (S·p)²/3, and their sums (in plain numbers:
-    # numpy's square and division are the same IEEE operations; a row's sum as numpy sums a row)
-    shares_all = [(v * t) * (v * t) / 3.0 for v, t in zip(flat, p * len(FIGURES))]
-    contrib = [shares_all[i : i + n_parts] for i in range(0, len(shares_all), n_parts)] if n_parts else [[] for _ in FIGURES]
-    totals = [_row_sum(c) for c in contrib]
-    lo, hi = _window(*window)
-    # the figures that can leave their window: one whose largest deviation at any point,
+    # numpy's square and division are the same IEEE operations; a row's sum as numpy sums a row);
+    # and the figures that can leave their window: one whose largest deviation at any point,
     # Σ_i |S_i|·max|ln(1 + p_i·u)| (triangle inequality), lies inside it with a margin for the
     # product's rounding stays inside at every point, and its row is not formed (all inside)
-    reach, inner = _reach(tuple(p)), _inner_edges(*window)
-    rows = [f for f in range(len(FIGURES))
-            if not _dot_abs(flat[f * n_parts : (f + 1) * n_parts], reach) * (1.0 + 1e-9) < inner[f]]
+    tp = tuple(p)
+    reach, inner = _reach(tp), _inner_edges(*window)
+    contrib, totals, rows = [], [], []
+    for f in range(len(FIGURES)):
+        row = flat[f * n_parts : (f + 1) * n_parts]
+        c = [(v * t) * (v * t) / 3.0 for v, t in zip(row, p)]
+        contrib.append(c)
+        totals.append(_row_sum(c))
+        if not _dot_abs(row, reach) * (1.0 + 1e-9) < inner[f]:
+            rows.append(f)
     within = [1.0] * len(FIGURES)
     fraction = 1.0
-    if rows:
+    if len(rows) == 1:
+        # one figure (a compare's rule): its row of log deviations at the fixed points as a 1-D
+        # product (numpy's (1, parts) row product, bit for bit: tested), compared with its
+        # window's ends as plain floats, counted once (the joint count is its own)
+        f = rows[0]
+        lo, hi = _window_ends(*window)
+        x = np.array(flat[f * n_parts : (f + 1) * n_parts]) @ _log_deviations(tp)
+        inside = x >= lo[f]
+        inside &= x <= hi[f]
+        fraction = within[f] = np.count_nonzero(inside) / x.shape[0]
+    elif rows:
         # their log deviations at the fixed points, (rows, points), and where they are inside
+        lo, hi = _window(*window)
         s = np.array(flat).reshape(len(FIGURES), n_parts)
-        x = (s if len(rows) == len(FIGURES) else s[rows]) @ _log_deviations(tuple(p))
+        x = (s if len(rows) == len(FIGURES) else s[rows]) @ _log_deviations(tp)
         inside = x >= lo[rows]
         inside &= x <= hi[rows]
         every = inside[0]
