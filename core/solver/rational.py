@@ -532,9 +532,27 @@ def _few_matrix(degree: int) -> np.ndarray:
         powers = [p**m for m in range(n)]
         rows.append([z.real for z in powers])
         rows.append([z.imag for z in powers])
-    m = np.ascontiguousarray(np.linalg.solve(np.array(rows[:n]), np.eye(n)).T[:, ::-1])  # (solve: the gufunc the samples take too)
+    inverse = _small_inverse(rows[:n])  # (in plain floats: a real LAPACK solve's first call costs a process some 50 µs)
+    m = np.array([row[::-1] for row in zip(*inverse)])  # transposed, columns reversed
     m.setflags(write=False)
     return m
+
+
+def _small_inverse(a: list[list[float]]) -> list[list[float]]:
+    """The inverse of a small nonsingular real matrix (a list of rows) by Gauss–Jordan elimination
+    with partial pivoting, in plain floats (:func:`_few_matrix`'s 3 × 3 at most)."""
+    n = len(a)
+    work = [list(map(float, row)) + [1.0 if i == j else 0.0 for j in range(n)] for i, row in enumerate(a)]
+    for col in range(n):
+        pivot = max(range(col, n), key=lambda r: abs(work[r][col]))
+        work[col], work[pivot] = work[pivot], work[col]
+        lead = work[col][col]
+        work[col] = [v / lead for v in work[col]]
+        for r in range(n):
+            if r != col and work[r][col] != 0.0:
+                f = work[r][col]
+                work[r] = [v - f * w for v, w in zip(work[r], work[col])]
+    return [row[n:] for row in work]
 
 
 def _scaled_rows(both: list[list[float]], x_at):
