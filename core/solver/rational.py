@@ -766,29 +766,49 @@ def family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
 def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> tuple[np.ndarray, int]:
     """The shifted terms ``T_j·p^i`` of every pair of :func:`_family_pairs`, ``(pairs, length)``,
     and the number of leading columns that are zero in every row (what :func:`_lead_trim` drops),
-    counted from the terms' own leading zeros: each term written at its place in one step."""
+    counted from the terms' own leading zeros.
+
+    The terms' coefficients are joined once, a zero after them, and the matrix is one gather
+    from that (:func:`_shifted_index`: each entry's coefficient, or the zero): the same values
+    as each term written into a zero row. Row ``(j, i)`` starts at column ``length − size_j − i``,
+    so the first nonzero column of any row is the least, over the terms, of
+    ``length − size_j − j`` (the row ``(j, j)``) plus the term's own leading zeros, read from the
+    joined coefficients as plain numbers (a NaN counts as nonzero, as numpy's nonzero counts it;
+    ``length − 1`` where every term is zero throughout)."""
     sizes = tuple(t.size for t in terms)
-    index, length, starts = _shifted_index(sizes, m)
-    shifted = np.zeros((len(_family_pairs(m)[0]), length))
-    shifted.flat[index] = np.concatenate([terms[j] for j, _ in _family_pairs(m)[0]])
-    # each term's first nonzero entry (a NaN counts, as numpy's nonzero counts it), read from
-    # its few coefficients as plain numbers; None: a term that is zero throughout
-    lead = [next((i for i, v in enumerate(t.tolist()) if v != 0.0), None) for t in terms]
-    zero = min((start + lead[j] for (j, _), start in zip(_family_pairs(m)[0], starts) if lead[j] is not None), default=length - 1)
-    return shifted, min(zero, length - 1)
+    gather, length, firsts = _shifted_index(sizes, m)
+    values = np.concatenate(terms + (_ONE_ZERO,))
+    zero = length - 1
+    flat = values.tolist()
+    start = 0
+    for size, first in zip(sizes, firsts):
+        for k in range(start, start + size):
+            if flat[k] != 0.0:
+                zero = min(zero, first + k - start)
+                break
+        start += size
+    return values[gather], zero
+
+
+_ONE_ZERO = np.zeros(1)  # the entry :func:`_family_shifted`'s gaps take (read-only)
+_ONE_ZERO.setflags(write=False)
 
 
 @functools.lru_cache(maxsize=64)
 def _shifted_index(sizes: tuple[int, ...], m: int) -> tuple[np.ndarray, int, tuple[int, ...]]:
-    """For :func:`_family_shifted` of terms of these sizes: the flat positions of every pair's
-    term (its row, from column ``length − size − i``: ``T_j·p^i``, highest power first), the row
-    length and each pair's first column. Read-only."""
+    """For :func:`_family_shifted` of terms of these sizes: the ``(pairs, length)`` positions in
+    the terms' joined coefficients (the zero after them, at ``Σ sizes``, where no term lies) of
+    every entry (pair ``(j, i)``'s row holds ``T_j`` from column ``length − size_j − i``: ``T_j·p^i``,
+    highest power first), the row length and each term's first column in its row ``(j, j)``,
+    ``length − size_j − j``. Read-only."""
     length = max(size + j for j, size in enumerate(sizes))
-    pairs = _family_pairs(m)[0]
-    starts = tuple(length - sizes[j] - i for j, i in pairs)
-    index = np.array([n * length + start + t for n, ((j, _), start) in enumerate(zip(pairs, starts)) for t in range(sizes[j])], dtype=np.intp)
-    index.setflags(write=False)
-    return index, length, starts
+    offsets = list(itertools.accumulate(sizes, initial=0))
+    gather = np.full((len(_family_pairs(m)[0]), length), offsets[-1], dtype=np.intp)
+    for n, (j, i) in enumerate(_family_pairs(m)[0]):
+        start = length - sizes[j] - i
+        gather[n, start : start + sizes[j]] = np.arange(offsets[j], offsets[j] + sizes[j])
+    gather.setflags(write=False)
+    return gather, length, tuple(length - size - j for j, size in enumerate(sizes))
 
 
 def amp_family(system: MnaSystem, w_ref: float) -> AmpFamily | None:
