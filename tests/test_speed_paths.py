@@ -1121,6 +1121,83 @@ def test_families_weighted_together_equal_each_weighted_alone(circuit):
 
 
 @pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_family_sums_of_ladders_of_several_lengths_equal_each_family_alone(circuit):
+    """family_sums of one circuit's families with ladders of different lengths (a chain's stages:
+    their weights padded with rows of zeros into one stack, every family's rows a view of the
+    stacked products) and the weights of the circuit's op-amps as the first columns of those of
+    more op-amps (a compare's families of two and three op-amps weighted in one call): each
+    family's unscaled sums are those of its own product and trim (AmpFamily.weighted before its
+    scaling), bit for bit, and the shifted terms it keeps are those it makes alone. A consistency
+    check of our own two paths, no outside source."""
+    import math
+
+    from bandsmith.analysis.transfer import several_amp_family
+    from bandsmith.solver.rational import AmpFamily, _lead_trim, family_sums, family_weights
+
+    topo = get_topology(circuit)
+    rng = np.random.default_rng(9)
+    fams = []
+    for _ in range(5):
+        values = topo.values_from({k: v * float(np.exp(rng.uniform(-0.4, 0.4))) if v > 0 else v for k, v in topo.example.items()})
+        fams.append(several_amp_family(topo.build(values), 2 * math.pi * 1e4 * float(np.exp(rng.uniform(-1, 1)))))
+    m = len(fams[0].den_terms) - 1
+    pairs = (m + 1) * (m + 2) // 2
+    for group in (fams, fams[:1], fams[1:3]):
+        gbws = [np.geomspace(1e4, 1e11, int(rng.integers(4, 62))) for _ in group]
+        beta = np.concatenate([f.w_ref / (2 * math.pi * g) for f, g in zip(group, gbws)])
+        weights = family_weights(np.array([1e-5]), beta, m + 1)  # one op-amp more: the first columns serve
+        starts = np.cumsum([0] + [g.size for g in gbws])
+        copies = [AmpFamily(f.num_terms, f.den_terms, f.w_ref) for f in group]
+        sums = family_sums(copies, [weights[a:b, :pairs] for a, b in zip(starts[:-1], starts[1:])])
+        for f, copy, g, (num, den) in zip(group, copies, gbws, sums):
+            w = family_weights(np.array([1e-5]), f.w_ref / (2 * math.pi * g), m)
+            fresh = AmpFamily(f.num_terms, f.den_terms, f.w_ref)
+            num_s, den_s = fresh.shifted_terms()
+            assert_array_equal(num, _lead_trim(w @ num_s, fresh._zero_lead[0]))
+            assert_array_equal(den, _lead_trim(w @ den_s, fresh._zero_lead[1]))
+            assert num.shape == _lead_trim(w @ num_s, fresh._zero_lead[0]).shape
+            for kept, own in zip(copy.shifted_terms(), (num_s, den_s)):
+                assert_array_equal(kept, own)
+            assert copy._zero_lead == fresh._zero_lead
+
+
+@pytest.mark.parametrize("gbw_hz", [None, 3e6])
+def test_ladders_joined_are_each_candidates_own_ladder_padded(gbw_hz):
+    """gbw_search._ladders (every kind of candidate in one batch: the one-op-amp families' rows
+    together, the several-op-amp families' weights in one call and their sums by runs of one
+    shape, a candidate without a family solved as it is, everything scaled in one pass) against
+    Rational.joined of each candidate's with_gbw alone: the same coefficients bit for bit, in
+    the search's order and in another. A consistency check of our own two paths, no outside
+    source."""
+    from bandsmith.analysis import gbw_search
+    from bandsmith.analysis.analyzer import _first_pass_many
+    from bandsmith.solver.rational import AmpFamily, Rational
+
+    rng = np.random.default_rng(4)
+    netlists = []
+    for cid in ("mfb", "tow-thomas", "dabp", "sallen-key", "state-variable", "akerberg-mossberg", "rlc-tank", "tow-thomas", "dabp"):
+        topo = get_topology(cid)
+        netlists.append(topo.netlist(topo.values_from({k: v * float(np.exp(rng.uniform(-0.3, 0.3))) if v > 0 else v
+                                                       for k, v in topo.example.items()})))
+    firsts = _first_pass_many(netlists, [None] * len(netlists))
+    items = [(n, f.ideal, f.family, f.w_ref) for n, f in zip(netlists, firsts)]
+    items.append((netlists[1], firsts[1].ideal, None, firsts[1].w_ref))  # no family: solved whole
+    for order in (sorted(range(len(items)), key=lambda k: gbw_search._batch_key(items[k][2])), list(range(len(items)))[::-1]):
+        chosen = [items[k] for k in order]
+        gbws = []
+        for _, ideal, _, _ in chosen:
+            ladder = gbw_search._ladder(ideal.item().f0_hz)[int(rng.integers(0, 40)):]
+            gbws.append(ladder if gbw_hz is None else np.append(ladder, gbw_hz))
+        got = gbw_search._ladders(chosen, gbws, 2e5)
+        fresh = [(n, i, AmpFamily(f.num_terms, f.den_terms, f.w_ref) if isinstance(f, AmpFamily) else f, w) for n, i, f, w in chosen]
+        want = Rational.joined([gbw_search.with_gbw(n, f, w, g, 2e5) for (n, _, f, w), g in zip(fresh, gbws)])
+        assert_array_equal(got.num, want.num)
+        assert_array_equal(got.den, want.den)
+        assert_array_equal(got.w_ref, want.w_ref)
+        assert got.num.shape == want.num.shape and got.den.shape == want.den.shape
+
+
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
 def test_several_amp_families_made_together_equal_each_made_alone(circuit):
     """several_amp_families (a chain's stages on one several-op-amp circuit: their families from
     the expansion's op-amp terms of a stack) against several_amp_family netlist by netlist: the

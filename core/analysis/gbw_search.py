@@ -18,7 +18,7 @@ from bandsmith.analysis.transfer import nominal_system, transfer_function
 from bandsmith.common.grids import geometric
 from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, family_weights, rational_and_family, weighted_together
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, family_sums, family_weights, rational_and_family
 
 __all__ = ["required_gbw", "search_gbw_many", "with_gbw"]
 
@@ -87,6 +87,7 @@ def search_gbw_many(
             live.append((i, _ladder(ref.f0_hz), ref, _first_measured(ref)))
     if not live:
         return out
+    live.sort(key=lambda entry: _batch_key(items[entry[0]][2]))  # (stable: in order within a kind)
     h, fig, ok, starts = _measured(items, live, each, a0, probes=True)
     ok_list = ok.tolist()
     settled, again, probes = [], [], {}
@@ -162,23 +163,52 @@ def _measured(items, live, each, a0: float, *, probes: bool) -> tuple[Rational, 
     return h, fig, ok, list(itertools.accumulate(sizes[:-1], initial=0))
 
 
+def _batch_key(family: OpAmpFamily | AmpFamily | None) -> tuple:
+    """Where a candidate's ladder goes in a batch (:func:`search_gbw_many` orders its candidates
+    by it; a member's figures are the same in any batch): the one-op-amp families first, then the
+    several-op-amp ones by their terms' sizes (so that those whose shifted terms have one shape
+    lie together: :func:`_ladders` weighs them as one stack), the rest last."""
+    if isinstance(family, OpAmpFamily):
+        return (0,)
+    if isinstance(family, AmpFamily):
+        return (1, _terms_shape(family))
+    return (2,)
+
+
+def _terms_shape(family: AmpFamily) -> tuple:
+    """The sizes of a several-op-amp family's terms (which set its shifted terms' shapes)."""
+    return tuple(t.size for t in family.num_terms), tuple(t.size for t in family.den_terms)
+
+
 def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
     """:func:`with_gbw` of several candidates ``(netlist, ideal figures, family, w_ref)`` at their
     GBW ladders (Hz), joined into one batch (:meth:`Rational.joined`'s: each polynomial padded
-    with leading zeros to the longest); the members of one-op-amp families made together, and the
-    op-amp weights (:func:`~bandsmith.solver.rational.family_weights`) of several-op-amp families
-    with the same number of op-amps.
+    with leading zeros to the longest): the members of one-op-amp families made together, the
+    op-amp weights (:func:`~bandsmith.solver.rational.family_weights`) of every several-op-amp
+    family in one call, and those families' sums by runs of one shape
+    (:func:`~bandsmith.solver.rational.family_sums`; :func:`_batch_key` orders candidates so).
 
     An :class:`OpAmpFamily` member is ``D = D0 − α·M − β·M·p`` (``α = 1/A0``, ``β = w_ref/ωt``)
     over the numerator ``N``, both scaled by ``D``'s largest coefficient: the same operations on
     every family's rows, so the families' ``D0``, ``M``, ``M·p`` and ``N``, each padded with
     leading zeros to the longest, are repeated over their ladders and taken in one batch (a
-    padded zero stays zero, and leaves each member's largest coefficient as it is)."""
-    blocks: list = [None] * len(items)
+    padded zero stays zero, and leaves each member's largest coefficient as it is).
+
+    The weights' pairs ``(j, i)`` come in the order of ``j``, so the weights of a family of
+    ``m`` op-amps are the first columns of those of the most op-amps (the same products). Every
+    family's rows are written unscaled into the joined batch and scaled there in one pass: each
+    row over its denominator's largest coefficient in size (the padding's zeros leave it as it
+    is), a several-op-amp row whose denominator is zero throughout over 1 (as
+    :meth:`AmpFamily.weighted` scales it), a one-op-amp row over its zero (as
+    :meth:`OpAmpFamily.at` does). Candidates without a family are solved as they are
+    (:func:`with_gbw`) and written in after."""
+    sizes = [g.size for g in gbws]
+    starts = list(itertools.accumulate(sizes, initial=0))
+    blocks = []  # (first row, numerators, denominators): a family's members, not yet scaled
     singles = [k for k, it in enumerate(items) if isinstance(it[2], OpAmpFamily)]
-    if len(singles) > 1:
+    if singles:
         fams = [items[k][2] for k in singles]
-        counts = [gbws[k].size for k in singles]
+        counts = [sizes[k] for k in singles]
         n = max(f.width for f in fams)
         width = max(f.num.size for f in fams)
         d0, m, mp, num = (np.zeros((len(fams), w)) for w in (n, n, n, width))
@@ -186,41 +216,50 @@ def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
             f.rows_into(d0[r], m[r], mp[r])
             num[r, width - f.num.size :] = f.num
         alpha = 1.0 / np.asarray(a0, dtype=float)
-        w_ref = np.repeat([f.w_ref for f in fams], counts)
-        beta = w_ref / (2.0 * np.pi * np.concatenate([gbws[k] for k in singles]))
+        beta = np.repeat([f.w_ref for f in fams], counts) / (2.0 * np.pi * np.concatenate([gbws[k] for k in singles]))
         den = np.repeat(d0, counts, axis=0) - alpha * np.repeat(m, counts, axis=0) - beta[:, None] * np.repeat(mp, counts, axis=0)
-        scale = np.abs(den).max(axis=1, keepdims=True)
-        made = Rational(np.repeat(num, counts, axis=0) / scale, den / scale, w_ref)
-        start = 0
-        for k, c in zip(singles, counts):
-            blocks[k] = made.take(slice(start, start + c))
-            start += c
-    by_m: dict[int, list[int]] = {}
-    for k, it in enumerate(items):
-        if isinstance(it[2], AmpFamily):
-            by_m.setdefault(len(it[2].den_terms) - 1, []).append(k)
-    for m, ks in by_m.items():
-        if len(ks) < 2:
-            continue
+        num = np.repeat(num, counts, axis=0)
+        if singles[-1] - singles[0] == len(singles) - 1:  # their rows one run (as _batch_key orders them)
+            blocks.append((starts[singles[0]], num, den))
+        else:
+            for k, row in zip(singles, itertools.accumulate(counts[:-1], initial=0)):
+                blocks.append((starts[k], num[row : row + sizes[k]], den[row : row + sizes[k]]))
+    amps = [k for k, it in enumerate(items) if isinstance(it[2], AmpFamily)]
+    if amps:
         alpha = (1.0 / np.asarray(a0, dtype=float)).reshape(1)
-        beta = np.concatenate([items[k][2].w_ref / (2.0 * np.pi * gbws[k]) for k in ks])
-        weights = family_weights(alpha, beta, m)
-        starts = dict(zip(ks, itertools.accumulate([gbws[k].size for k in ks[:-1]], initial=0)))
-        # the families of one shape with ladders as long (a chain's stages on one circuit) weighted as one stack
-        shapes: dict[tuple, list[int]] = {}
-        for k in ks:
-            shapes.setdefault((tuple(t.shape for t in items[k][2].shifted_terms()), gbws[k].size), []).append(k)
-        for (_, size), group in shapes.items():
-            if len(group) > 1:
-                stack = np.stack([weights[starts[k] : starts[k] + size] for k in group])
-                for k, block in zip(group, weighted_together([items[k][2] for k in group], stack)):
-                    blocks[k] = block
-            else:
-                blocks[group[0]] = items[group[0]][2].weighted(weights[starts[group[0]] : starts[group[0]] + size])
-    for k, (netlist, _, family, w_ref) in enumerate(items):
-        if blocks[k] is None:
-            blocks[k] = with_gbw(netlist, family, w_ref, gbws[k], a0)
-    return blocks[0] if len(blocks) == 1 else Rational.joined(blocks)
+        beta = np.concatenate([items[k][2].w_ref / (2.0 * np.pi * gbws[k]) for k in amps])
+        weights = family_weights(alpha, beta, max(len(items[k][2].den_terms) for k in amps) - 1)
+        rows = dict(zip(amps, itertools.accumulate([sizes[k] for k in amps[:-1]], initial=0)))
+        for _, run in itertools.groupby(amps, key=lambda k: _terms_shape(items[k][2])):
+            run = list(run)
+            fams = [items[k][2] for k in run]
+            pairs = len(fams[0].den_terms) * (len(fams[0].den_terms) + 1) // 2  # (j, i) for 0 ≤ i ≤ j ≤ m
+            sums = family_sums(fams, [weights[rows[k] : rows[k] + sizes[k], :pairs] for k in run])
+            blocks.extend((starts[k], num, den) for k, (num, den) in zip(run, sums))
+    alone = [(starts[k], with_gbw(netlist, family, w_ref, gbws[k], a0))
+             for k, (netlist, _, family, w_ref) in enumerate(items) if not isinstance(family, (OpAmpFamily, AmpFamily))]
+    if not blocks:
+        return alone[0][1] if len(alone) == 1 else Rational.joined([h for _, h in alone])
+    parts = [(start, num, den) for start, num, den in blocks] + [(start, h.num, h.den) for start, h in alone]
+    num = np.zeros((starts[-1], max(p[1].shape[1] for p in parts)))
+    den = np.zeros((starts[-1], max(p[2].shape[1] for p in parts)))
+    for start, n_rows, d_rows in blocks:
+        num[start : start + n_rows.shape[0], num.shape[1] - n_rows.shape[1] :] = n_rows
+        den[start : start + d_rows.shape[0], den.shape[1] - d_rows.shape[1] :] = d_rows
+    scale = np.abs(den).max(axis=1, keepdims=True)
+    zero = scale == 0
+    if zero.any():
+        for k in singles:  # (a one-op-amp row divides by its zero)
+            zero[starts[k] : starts[k + 1]] = False
+        scale[zero] = 1.0
+    num /= scale
+    den /= scale
+    w_ref = np.repeat([it[2].w_ref if isinstance(it[2], (OpAmpFamily, AmpFamily)) else 0.0 for it in items], sizes)
+    for start, h in alone:  # already scaled (their rows are zeros here)
+        num[start : start + h.batch, num.shape[1] - h.num.shape[1] :] = h.num
+        den[start : start + h.batch, den.shape[1] - h.den.shape[1] :] = h.den
+        w_ref[start : start + h.batch] = h.w_ref
+    return Rational(num, den, w_ref)
 
 
 # Lagrange basis of the ladder points j−1, j, j+1, j+2 (uniform in log GBW) at sub-steps

@@ -22,7 +22,7 @@ import numpy as np
 from bandsmith.solver.mna import MnaSystem, build_system
 from bandsmith.solver.polyroots import companion_roots
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows", "family_weights"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows", "family_weights", "family_sums", "shifted_stack"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -709,20 +709,74 @@ def _leads_with(c: np.ndarray, zero: int) -> bool:
 def weighted_together(families: Sequence[AmpFamily], weights: np.ndarray) -> list[Rational]:
     """:meth:`AmpFamily.weighted` of several families whose shifted terms have one shape (one
     circuit's families: a chain's stages on it), with as many rows of weights each, ``weights``
-    ``(G, B, pairs)``: the products as one stack (numpy's matmul takes a stack one product per
-    family, so each family gets the numbers it has alone; tested), and where every family has as
-    many leading zero columns, and the column after them is not zero in any, the trim and the
-    scaling over the whole stack (a maximum and a division round each number as alone)."""
-    num_s, den_s = (np.stack(t) for t in zip(*[f.shifted_terms() for f in families]))
-    num = weights @ num_s
-    den = weights @ den_s
+    ``(G, B, pairs)``: :func:`family_sums` of them, each family's sums over its denominator's
+    largest coefficient (:func:`_by_largest`)."""
+    out = []
+    for f, (num, den) in zip(families, family_sums(families, list(weights))):
+        num, den = _by_largest(num, den)
+        out.append(Rational(num, den, np.full(num.shape[0], f.w_ref)))
+    return out
+
+
+def family_sums(families: Sequence[AmpFamily], weights: Sequence[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
+    """The weighted sums of several families whose terms have one set of sizes (their shifted
+    terms one shape: one circuit's families, a compare's two circuits of one structure or a
+    chain's stages on one circuit), each with its rows of :func:`family_weights` (``(B_g, pairs)``,
+    ``B_g`` at least two): per family its numerators and denominators, ``(B_g, length)``, the
+    leading columns that are zero in every row dropped (:func:`_lead_trim`), not yet scaled
+    (:meth:`AmpFamily.weighted` before its scaling, number for number).
+
+    One family alone is two products. Several are two stacked products over
+    :func:`shifted_stack` (numpy's matmul takes a stack one product per family, so each family
+    gets the numbers it has alone; tested), their weights padded with rows of zeros to the
+    longest (a product's row does not depend on how many rows it has beside it, from two on;
+    tested); where every family has as many leading zero columns, and the column after them is
+    not zero in any, the trim is one view of the stack."""
+    if len(families) == 1:
+        f, w = families[0], weights[0]
+        num_s, den_s = f.shifted_terms()
+        return [(_lead_trim(w @ num_s, f._zero_lead[0]), _lead_trim(w @ den_s, f._zero_lead[1]))]
+    rows = [w.shape[0] for w in weights]
+    if len(set(rows)) == 1:
+        stack = np.stack(weights)
+    else:
+        stack = np.zeros((len(weights), max(rows), weights[0].shape[1]))
+        for g, w in enumerate(weights):
+            stack[g, : w.shape[0]] = w
+    num_s, den_s = shifted_stack(families)
+    num = stack @ num_s
+    den = stack @ den_s
     zeros = {f._zero_lead for f in families}
     if len(zeros) == 1:
         zn, zd = zeros.pop()
         if _leads_with(num, zn) and _leads_with(den, zd):  # every family trimmed as _lead_trim trims it alone
-            num, den = _by_largest(num[:, :, zn:], den[:, :, zd:])
-            return [Rational(num[g], den[g], np.full(weights.shape[1], f.w_ref)) for g, f in enumerate(families)]
-    return [f._trimmed(num[g], den[g]) for g, f in enumerate(families)]  # (leading zeros that differ: each alone)
+            return [(num[g, :b, zn:], den[g, :b, zd:]) for g, b in enumerate(rows)]
+    # (leading zeros that differ: each alone)
+    return [(_lead_trim(num[g, :b], f._zero_lead[0]), _lead_trim(den[g, :b], f._zero_lead[1])) for g, (f, b) in enumerate(zip(families, rows))]
+
+
+def shifted_stack(families: Sequence[AmpFamily]) -> tuple[np.ndarray, np.ndarray]:
+    """:meth:`AmpFamily.shifted_terms` of several families whose terms have one set of sizes, as
+    two stacks ``(G, pairs, length)`` (numerators', denominators'): each one gather from every
+    family's terms joined (:func:`_family_shifted`'s, over the stack: :func:`_shifted_index`'s
+    positions, family ``g``'s moved on by ``g`` times the terms' joined size). A family whose
+    shifted terms are not made yet keeps its own (views of the stacks) and its leading zero
+    columns, counted as :func:`_family_shifted` counts them."""
+    m = len(families[0].den_terms) - 1
+    stacks, zeros = [], []
+    for which in ("num_terms", "den_terms"):
+        sizes = tuple(t.size for t in getattr(families[0], which))
+        gather, length, firsts = _shifted_index(sizes, m, len(families))
+        values = np.concatenate([t for f in families for t in getattr(f, which)] + [_ONE_ZERO])
+        stacks.append(values[gather])
+        flat = values.tolist()
+        per = sum(sizes)
+        zeros.append([_zero_columns(flat, g * per, sizes, firsts, length) for g in range(len(families))])
+    for g, f in enumerate(families):
+        if f._shifted is None:
+            object.__setattr__(f, "_shifted", (stacks[0][g], stacks[1][g]))
+            object.__setattr__(f, "_zero_lead", (zeros[0][g], zeros[1][g]))
+    return stacks[0], stacks[1]
 
 
 @functools.lru_cache(maxsize=16)
@@ -765,29 +819,33 @@ def family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
 
 def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> tuple[np.ndarray, int]:
     """The shifted terms ``T_j·p^i`` of every pair of :func:`_family_pairs`, ``(pairs, length)``,
-    and the number of leading columns that are zero in every row (what :func:`_lead_trim` drops),
-    counted from the terms' own leading zeros.
+    and the number of leading columns that are zero in every row (what :func:`_lead_trim` drops,
+    :func:`_zero_columns`).
 
     The terms' coefficients are joined once, a zero after them, and the matrix is one gather
     from that (:func:`_shifted_index`: each entry's coefficient, or the zero): the same values
-    as each term written into a zero row. Row ``(j, i)`` starts at column ``length − size_j − i``,
-    so the first nonzero column of any row is the least, over the terms, of
-    ``length − size_j − j`` (the row ``(j, j)``) plus the term's own leading zeros, read from the
-    joined coefficients as plain numbers (a NaN counts as nonzero, as numpy's nonzero counts it;
-    ``length − 1`` where every term is zero throughout)."""
+    as each term written into a zero row."""
     sizes = tuple(t.size for t in terms)
     gather, length, firsts = _shifted_index(sizes, m)
     values = np.concatenate(terms + (_ONE_ZERO,))
+    return values[gather], _zero_columns(values.tolist(), 0, sizes, firsts, length)
+
+
+def _zero_columns(flat: list[float], start: int, sizes: tuple[int, ...], firsts: tuple[int, ...], length: int) -> int:
+    """The leading columns that are zero in every row of a family's shifted terms, from its
+    terms' coefficients joined (``flat``, plain numbers, the family's from ``start`` on): row
+    ``(j, i)`` holds ``T_j`` from column ``length − size_j − i``, so the first nonzero column of
+    any row is the least, over the terms, of ``length − size_j − j`` (``firsts``: the row
+    ``(j, j)``) plus the term's own leading zeros (a NaN counts as nonzero, as numpy's nonzero
+    counts it); ``length − 1`` where every term is zero throughout."""
     zero = length - 1
-    flat = values.tolist()
-    start = 0
     for size, first in zip(sizes, firsts):
         for k in range(start, start + size):
             if flat[k] != 0.0:
                 zero = min(zero, first + k - start)
                 break
         start += size
-    return values[gather], zero
+    return zero
 
 
 _ONE_ZERO = np.zeros(1)  # the entry :func:`_family_shifted`'s gaps take (read-only)
@@ -795,18 +853,24 @@ _ONE_ZERO.setflags(write=False)
 
 
 @functools.lru_cache(maxsize=64)
-def _shifted_index(sizes: tuple[int, ...], m: int) -> tuple[np.ndarray, int, tuple[int, ...]]:
+def _shifted_index(sizes: tuple[int, ...], m: int, count: int = 0) -> tuple[np.ndarray, int, tuple[int, ...]]:
     """For :func:`_family_shifted` of terms of these sizes: the ``(pairs, length)`` positions in
     the terms' joined coefficients (the zero after them, at ``Σ sizes``, where no term lies) of
     every entry (pair ``(j, i)``'s row holds ``T_j`` from column ``length − size_j − i``: ``T_j·p^i``,
     highest power first), the row length and each term's first column in its row ``(j, j)``,
-    ``length − size_j − j``. Read-only."""
+    ``length − size_j − j``. With a ``count``, the positions for that many families' terms
+    joined one after the other (:func:`shifted_stack`), ``(count, pairs, length)``, the zero
+    after all of them. Read-only."""
     length = max(size + j for j, size in enumerate(sizes))
     offsets = list(itertools.accumulate(sizes, initial=0))
-    gather = np.full((len(_family_pairs(m)[0]), length), offsets[-1], dtype=np.intp)
-    for n, (j, i) in enumerate(_family_pairs(m)[0]):
-        start = length - sizes[j] - i
-        gather[n, start : start + sizes[j]] = np.arange(offsets[j], offsets[j] + sizes[j])
+    per = offsets[-1]
+    gather = np.full((max(count, 1), len(_family_pairs(m)[0]), length), max(count, 1) * per, dtype=np.intp)
+    for g in range(max(count, 1)):
+        for n, (j, i) in enumerate(_family_pairs(m)[0]):
+            start = length - sizes[j] - i
+            gather[g, n, start : start + sizes[j]] = np.arange(g * per + offsets[j], g * per + offsets[j] + sizes[j])
+    if not count:
+        gather = gather[0]
     gather.setflags(write=False)
     return gather, length, tuple(length - size - j for j, size in enumerate(sizes))
 
