@@ -1047,6 +1047,61 @@ def test_the_crossing_cubics_add_the_basis_terms_in_order():
     assert _BASIS_ROWS[:, -1].tolist() == [0.0, 0.0, 1.0, 0.0]
 
 
+def test_crossings_taken_at_once_are_the_rule_worked_case_by_case():
+    """gbw_search._crossings gathers every case's four points and works their errors as arrays;
+    against its rule worked case by case in plain numbers (each figure's error over its
+    tolerance at the four points; a case kept where all are finite, of the ideal's sign, over
+    one at the failing point and within one at the passing point; the cubic's last sub-step
+    over one, a margin above): the same answers, on random ladders with NaN figures, sign flips
+    and cases at the ladder's ends. Our own contract, no outside source."""
+    import math
+
+    from bandsmith.analysis import gbw_search
+    from bandsmith.analysis.figures import Figures
+    from bandsmith.analysis.tolerances import Tolerances
+
+    def by_case(fig, case):
+        ref, ladder, start, j, tol = case
+        if j < 1 or j + 2 >= ladder.size:
+            return None
+        sl = slice(start + j - 1, start + j + 3)
+        err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in fig.f0_hz[sl].tolist()], [(v / ref.q - 1.0) / tol.q for v in fig.q[sl].tolist()],
+               [(v - ref.gain_center_db) / tol.gain_db for v in fig.gain_center_db[sl].tolist()]]
+        if not all(math.isfinite(e) for row in err for e in row):
+            return None
+        if not all(math.copysign(1.0, g) == math.copysign(1.0, ref.gain_center) for g in fig.gain_center[sl].tolist()):
+            return None
+        if not (max(abs(row[1]) for row in err) > 1.0 and max(abs(row[2]) for row in err) <= 1.0):
+            return None
+        worst = np.abs(np.einsum("fj,jt->ft", np.array(err), gbw_search._BASIS_ROWS, optimize=False)).max(axis=0)
+        k = gbw_search._SUB.size - int(np.argmax(worst[::-1] > 1.0))
+        return float(ladder[j] * math.exp(gbw_search._SUB[k] * math.log(ladder[j + 1] / ladder[j])) * (1.0 + gbw_search._CROSSING_MARGIN))
+
+    rng = np.random.default_rng(12)
+    found = []
+    for _ in range(200):
+        cases, rows = [], 0
+        for _c in range(int(rng.integers(1, 9))):
+            ladder = gbw_search._ladder(float(10 ** rng.uniform(2, 5)))[int(rng.integers(0, 55)):]
+            ref = Figures(float(1e3 * rng.uniform(0.5, 2)), float(rng.uniform(0.5, 20)), 0.0, 0.0, 0.0,
+                          float(rng.choice([-1.0, 1.0])) * 3.0, float(rng.uniform(-10, 20)), 0.0).item()
+            tol = Tolerances(f0=float(rng.choice([0.01, 0.004])), q=float(rng.choice([0.05, 0.03])), gain_db=float(rng.choice([0.5, 0.25])))
+            cases.append((ref, ladder, rows, int(rng.integers(0, ladder.size)), tol))
+            rows += ladder.size
+        refs = Figures.repeated([c[0] for c in cases], [c[1].size for c in cases])
+        scale = 10.0 ** rng.uniform(-3.5, -1.0, size=rows)
+        fig = Figures(refs.f0_hz * (1 + rng.normal(size=rows) * scale), refs.q * (1 + rng.normal(size=rows) * 3 * scale),
+                      refs.bw_hz, refs.f_low_hz, refs.f_high_hz,
+                      refs.gain_center * np.where(rng.random(rows) < 0.02, -1.0, 1.0),
+                      refs.gain_center_db + rng.normal(size=rows) * 30 * scale, refs.phase_center_deg)
+        for name in ("f0_hz", "q", "gain_center_db"):
+            getattr(fig, name)[rng.random(rows) < 0.02] = np.nan
+        want = [by_case(fig, c) for c in cases]
+        assert gbw_search._crossings(fig, cases) == want
+        found += [w is not None for w in want]
+    assert 100 < sum(found) < len(found)  # answers and fine ladders both met
+
+
 def test_netlist_nodes_and_refusals_follow_the_rule_written_out():
     """Netlist's nodes (every node but ground and the input, in the order first met, found through
     a dict) against the rule written out node by node, on every circuit and its netlist driving

@@ -288,42 +288,47 @@ def _crossings(fig: Figures, cases: Sequence[tuple[Figures, np.ndarray, int, int
     it. None where the four points are not all measured (a point too far off) or the
     interpolation disagrees with the measured pass and fail at ``j`` and ``j + 1``: the caller
     then measures a fine ladder. A case's ladder is members ``start …`` of ``fig`` (the batch the
-    ladders of several candidates are measured in, not taken apart); the errors at its four
-    points are plain numbers, and every case's cubics are evaluated in one batch, the basis' four
-    terms added in order (the same numbers for a case whatever the batch)."""
+    ladders of several candidates are measured in, not taken apart).
+
+    Every case is taken at once: its four points' figures gathered from ``fig``, its errors over
+    its tolerances ``(C, 3 figures, 4 points)`` (the IEEE operations of each error worked alone),
+    the cases whose four points are all measured, of the ideal's sign, and failing at ``j`` and
+    passing at ``j + 1`` kept, and their cubics evaluated in one batch, the basis' four terms
+    added in order (the same numbers for a case whatever the batch)."""
     out: list[float | None] = [None] * len(cases)
-    f0s, qs, dbs, gains = (np.asarray(v) for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
-    inner, errs = [], []
-    for n, (ref, ladder, start, j, tol) in enumerate(cases):
-        if j < 1 or j + 2 >= ladder.size:
-            continue
-        sl = slice(start + j - 1, start + j + 3)
-        # errors over tolerances at the four points, as plain numbers (a handful of them)
-        err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0s[sl].tolist()], [(v / ref.q - 1.0) / tol.q for v in qs[sl].tolist()],
-               [(v - ref.gain_center_db) / tol.gain_db for v in dbs[sl].tolist()]]
-        if not all(math.isfinite(e) for row in err for e in row):
-            continue
-        sign = math.copysign(1.0, ref.gain_center)
-        if not all(math.copysign(1.0, g) == sign for g in gains[sl].tolist()):
-            continue
+    inner = [n for n, (_, ladder, _, j, _) in enumerate(cases) if 1 <= j and j + 2 < ladder.size]
+    if not inner:
+        return out
+    rows = np.array([cases[n][2] + cases[n][3] - 1 for n in inner])[:, None] + _FOUR  # (C, 4): each case's points
+    # per case: its ideal f0, Q, gain in dB and gain, and its tolerances on the first three, (C, 7)
+    refs = np.array([(r.f0_hz, r.q, r.gain_center_db, r.gain_center, t.f0, t.q, t.gain_db)
+                     for r, _, _, _, t in (cases[n] for n in inner)])
+    f0s, qs, dbs, gains = (np.asarray(v)[rows] for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
+    err = np.stack([(f0s / refs[:, 0:1] - 1.0) / refs[:, 4:5], (qs / refs[:, 1:2] - 1.0) / refs[:, 5:6],
+                    (dbs - refs[:, 2:3]) / refs[:, 6:7]], axis=1)  # (C, 3, 4)
+    size = np.abs(err)
+    with np.errstate(invalid="ignore"):
         # the cubic is the failing point's error at the step's start and the passing point's at
         # its end (the basis is exactly 0 or 1 there): the interpolation must agree with both
-        if not (max(abs(row[1]) for row in err) > 1.0 and max(abs(row[2]) for row in err) <= 1.0):
-            continue
-        inner.append(n)
-        errs.append(err)
-    if not inner:
+        good = np.isfinite(err).all(axis=(1, 2)) & (size[:, :, 1].max(axis=1) > 1.0) & (size[:, :, 2].max(axis=1) <= 1.0)
+    good &= (np.copysign(1.0, gains) == np.copysign(1.0, refs[:, 3:4])).all(axis=1)
+    kept = np.flatnonzero(good).tolist()
+    if not kept:
         return out
     # (C, 3, T): each figure's cubic over the sub-steps, the basis' four terms added in order
     # (einsum's own loop, the same numbers as the terms added one by one: tested)
-    e = np.abs(np.einsum("cfj,jt->cft", np.array(errs), _BASIS_ROWS, optimize=False))
-    worst = np.maximum(np.maximum(e[:, 0], e[:, 1]), e[:, 2])  # (C, T): the worst of the three
+    e = np.abs(np.einsum("cfj,jt->cft", err[kept], _BASIS_ROWS, optimize=False))
+    worst = e.max(axis=1)  # (C, T): the worst of the three
     last = (_SUB.size - np.argmax(worst[:, ::-1] > 1.0, axis=1)).tolist()  # the sub-step after the last one over
-    for n, k in zip(inner, last):
+    for c, k in zip(kept, last):
+        n = inner[c]
         ladder, j = cases[n][1], cases[n][3]
         step = math.log(ladder[j + 1] / ladder[j])
         out[n] = float(ladder[j] * math.exp(_SUB[k] * step) * (1.0 + _CROSSING_MARGIN))
     return out
+
+
+_FOUR = np.arange(4)  # a case's four ladder points j − 1 … j + 2, from j − 1
 
 
 def _conclude_many(
