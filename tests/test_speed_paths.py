@@ -1102,6 +1102,28 @@ def test_crossings_taken_at_once_are_the_rule_worked_case_by_case():
     assert 100 < sum(found) < len(found)  # answers and fine ladders both met
 
 
+def test_largest_in_rows_is_numpys_maximum_along_the_rows():
+    """rational.largest_in_rows (many rows reduced down the columns of a transposed copy) against
+    numpy's np.abs(c).max(axis=-1, keepdims=True) (numpy's reference, ndarray.max): the same
+    numbers and shape, on batches of every size around the switch, stacks, views with leading
+    columns dropped, NaN, infinities and signed zeros."""
+    from bandsmith.solver.rational import largest_in_rows
+
+    rng = np.random.default_rng(13)
+    for _ in range(400):
+        shape = tuple(int(v) for v in rng.integers(1, 40, size=int(rng.integers(2, 4))))
+        c = rng.normal(size=shape) * 10.0 ** rng.uniform(-200, 200, size=shape)
+        for special in (np.nan, np.inf, -np.inf, -0.0, 0.0):
+            c[rng.random(shape) < 0.03] = special
+        if rng.random() < 0.3:
+            c[..., : int(rng.integers(0, shape[-1]))] = 0.0
+        view = c[..., int(rng.integers(0, shape[-1])):]
+        for x in (c, view):
+            got, want = largest_in_rows(x), np.abs(x).max(axis=-1, keepdims=True)
+            assert got.shape == want.shape
+            assert_array_equal(got, want)
+
+
 def test_netlist_nodes_and_refusals_follow_the_rule_written_out():
     """Netlist's nodes (every node but ground and the input, in the order first met, found through
     a dict) against the rule written out node by node, on every circuit and its netlist driving

@@ -31,7 +31,7 @@ import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
-from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
+from bandsmith.solver.rational import Rational, largest_in_rows, polyder_batch, polyval_batch
 
 __all__ = ["Figures", "defined", "measure", "measure_many", "nominal_and_peaks_many", "measure_near", "measure_from", "biquad_figures", "biquad_peak_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
            "CLOSED_FORM_FROM"]
@@ -687,7 +687,7 @@ def _real_positive_roots(c: np.ndarray) -> np.ndarray:
     b, k = c.shape
     if k < 2:
         return np.full((b, 0), np.nan)
-    scale = np.abs(c).max(axis=1, keepdims=True)
+    scale = largest_in_rows(c)
     # A member of lower degree than the batch (an ideal op-amp beside finite ones) has leading
     # zeros: shift it up and multiply by (u + 1), whose root −1 is never real positive.
     lead = None

@@ -18,7 +18,7 @@ from bandsmith.analysis.transfer import nominal_system, transfer_function
 from bandsmith.common.grids import geometric
 from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, family_sums, family_weights, rational_and_family
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, family_sums, family_weights, largest_in_rows, rational_and_family
 
 __all__ = ["required_gbw", "search_gbw_many", "with_gbw"]
 
@@ -246,7 +246,7 @@ def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
     for start, n_rows, d_rows in blocks:
         num[start : start + n_rows.shape[0], num.shape[1] - n_rows.shape[1] :] = n_rows
         den[start : start + d_rows.shape[0], den.shape[1] - d_rows.shape[1] :] = d_rows
-    scale = np.abs(den).max(axis=1, keepdims=True)
+    scale = largest_in_rows(den)
     zero = scale == 0
     if zero.any():
         for k in singles:  # (a one-op-amp row divides by its zero)

@@ -22,7 +22,7 @@ import numpy as np
 from bandsmith.solver.mna import MnaSystem, build_system
 from bandsmith.solver.polyroots import companion_roots
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows", "family_weights", "family_sums", "shifted_stack"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows", "family_weights", "family_sums", "shifted_stack", "largest_in_rows"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -46,6 +46,25 @@ def polyval_batch(c: np.ndarray, x: np.ndarray) -> np.ndarray:
         y *= x
     y += cc[:, k - 1]
     return y
+
+
+# From this many rows on, largest_in_rows reduces down the columns of a transposed copy.
+_COLUMNS_FROM = 16
+
+
+def largest_in_rows(c: np.ndarray) -> np.ndarray:
+    """Each row's largest magnitude, ``max |c|`` along the last axis, kept as an axis of one
+    (``c.shape[:-1] + (1,)``): the numbers of ``np.abs(c).max(axis=-1, keepdims=True)`` (a
+    maximum rounds nothing, and a NaN is carried either way). Where there are many rows
+    (:data:`_COLUMNS_FROM`) they are reduced down the columns of a transposed copy: numpy sets up
+    its reduction loop for every short row (some 40 ns a row, 15 µs for a GBW ladder batch of
+    some 370 members), a column of every row's entries as one loop (under 3 µs with the copy)."""
+    mag = np.abs(c)
+    rows = mag.size // mag.shape[-1] if mag.shape[-1] else 0
+    if rows < _COLUMNS_FROM:
+        return mag.max(axis=-1, keepdims=True)
+    across = np.ascontiguousarray(mag.reshape(rows, mag.shape[-1]).T).max(axis=0)
+    return across.reshape(c.shape[:-1] + (1,))
 
 
 def pad_rows(blocks: Sequence[np.ndarray]) -> np.ndarray:
@@ -395,7 +414,7 @@ class OpAmpFamily:
         d0, m, mp = np.zeros((3, self.width))  # mp: M(p)·p
         self.rows_into(d0, m, mp)
         den = d0[None, :] - alpha * m[None, :] - beta[:, None] * mp[None, :]
-        scale = np.abs(den).max(axis=1, keepdims=True)
+        scale = largest_in_rows(den)
         return Rational(self.num[None, :] / scale, den / scale, np.full(gbw.size, self.w_ref))
 
 
@@ -694,7 +713,7 @@ def _by_largest(num: np.ndarray, den: np.ndarray) -> tuple[np.ndarray, np.ndarra
     """Each member (along the last axis) over its denominator's largest coefficient in size, 1
     where that is zero: the scaling of a family's weighted sums (:meth:`AmpFamily.weighted`, one
     family or a stack of them)."""
-    scale = np.abs(den).max(axis=-1, keepdims=True)
+    scale = largest_in_rows(den)
     scale[scale == 0] = 1.0
     return num / scale, den / scale
 
