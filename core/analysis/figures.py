@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import functools
 import math
+import operator
 from dataclasses import dataclass, field, fields, replace
 from typing import Sequence
 
@@ -66,8 +67,12 @@ class Figures:
     def repeated(members: "list[Figures]", counts) -> "Figures":
         """One batch of one-member figures, member ``i`` repeated ``counts[i]`` times (the
         members' eight figures as the rows of one table, repeated in one call)."""
-        table = np.array([[v if type(v) is float else float(np.asarray(v).item()) for v in (getattr(m, name) for name in _FIELDS)]
-                          for m in members])
+        try:  # members as scalars (Figures.item's floats): their rows as numpy reads them
+            table = np.array([_ROW(m) for m in members], dtype=float)
+        except ValueError:  # (arrays of one among scalars)
+            table = None
+        if table is None or table.ndim != 2:
+            table = np.array([[float(np.asarray(v).item()) for v in _ROW(m)] for m in members])
         return Figures(*np.repeat(table.T, counts, axis=1))
 
     def put(self, index, other: "Figures") -> "Figures":
@@ -117,6 +122,7 @@ def defined(f0_hz, q, gain_center_db) -> np.ndarray | bool:
 
 
 _FIELDS = tuple(f.name for f in fields(Figures) if f.init)  # the eight figures
+_ROW = operator.attrgetter(*_FIELDS)  # a member's eight figures, as a tuple
 
 
 def _floats(values: Sequence, i: int) -> list[float]:
@@ -464,7 +470,7 @@ def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: 
     u_pk = np.where(ok, u_pk, nan)
     u_low = np.where(ok & ok2[:b], both[:b], nan)
     u_high = np.where(ok & ok2[b:], both[b:], nan)
-    return _figures(h, u_pk, u_low, u_high)
+    return _figures_quiet(h, u_pk, u_low, u_high)
 
 
 def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
@@ -815,39 +821,51 @@ def _by_grid(pu, qu, slope, grid):
 def _figures(h: Rational, u_pk, u_low, u_high) -> Figures:
     """Figures from the peak and half-power points (in ``u``)."""
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        p = 1j * np.sqrt(u_pk)
-        hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
-    return figures_at(h.w_ref, u_pk, u_low, u_high, None, hc)
+        return _figures_quiet(h, u_pk, u_low, u_high)
+
+
+def _figures_quiet(h: Rational, u_pk, u_low, u_high) -> Figures:
+    """:func:`_figures` under the caller's floating-point error state (:func:`measure_near`'s
+    ignores what :func:`_figures` ignores: an error state entered and left costs some 2 µs)."""
+    p = 1j * np.sqrt(u_pk)
+    hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
+    return _figures_at(h.w_ref, u_pk, u_low, u_high, None, hc)
 
 
 def figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
     """Figures from the peak and half-power points (in ``u``), ``H`` at the peak and, where it is
     known without cancellation, ``bw_x``, the bandwidth in ``ω/w_ref``."""
-    to_hz = w_ref / (2.0 * np.pi)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        x_pk = np.sqrt(u_pk)  # ω/w_ref at the peak
-        f0 = x_pk * to_hz
-        f_low = np.sqrt(u_low) * to_hz
-        f_high = np.sqrt(u_high) * to_hz
-        bw = f_high - f_low if bw_x is None else bw_x * to_hz
-        re, im = hc.real, hc.imag
-        phase = np.arctan2(im, re)
-        phase *= 180.0 / np.pi
-        phase[phase <= -180.0 + 1e-7] = 180.0
-        mag = np.hypot(re, im)
-        db = np.log10(mag)  # −inf at a zero gain: NaN below
-        db *= 20.0
-        db[mag == 0] = np.nan
-        return Figures(
-            f0_hz=f0,
-            q=f0 / bw,
-            bw_hz=bw,
-            f_low_hz=f_low,
-            f_high_hz=f_high,
-            gain_center=np.copysign(mag, re + 0.0),  # negative where |phase| > 90° (+ 0.0 clears a −0)
-            gain_center_db=db,
-            phase_center_deg=phase,
-        )
+        return _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc)
+
+
+def _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
+    """:func:`figures_at` under the caller's floating-point error state (invalid values, division
+    by zero and overflow ignored)."""
+    to_hz = w_ref / (2.0 * np.pi)
+    x_pk = np.sqrt(u_pk)  # ω/w_ref at the peak
+    f0 = x_pk * to_hz
+    f_low = np.sqrt(u_low) * to_hz
+    f_high = np.sqrt(u_high) * to_hz
+    bw = f_high - f_low if bw_x is None else bw_x * to_hz
+    re, im = hc.real, hc.imag
+    phase = np.arctan2(im, re)
+    phase *= 180.0 / np.pi
+    phase[phase <= -180.0 + 1e-7] = 180.0
+    mag = np.hypot(re, im)
+    db = np.log10(mag)  # −inf at a zero gain: NaN below
+    db *= 20.0
+    db[mag == 0] = np.nan
+    return Figures(
+        f0_hz=f0,
+        q=f0 / bw,
+        bw_hz=bw,
+        f_low_hz=f_low,
+        f_high_hz=f_high,
+        gain_center=np.copysign(mag, re + 0.0),  # negative where |phase| > 90° (+ 0.0 clears a −0)
+        gain_center_db=db,
+        phase_center_deg=phase,
+    )
 
 
 def _poly_sub(a: np.ndarray, b: np.ndarray) -> np.ndarray:
