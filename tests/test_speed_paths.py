@@ -1124,6 +1124,32 @@ def test_largest_in_rows_is_numpys_maximum_along_the_rows():
             assert_array_equal(got, want)
 
 
+def test_polynomials_stored_by_coefficient_give_the_batch_numbers():
+    """rational.polyder_rows and polyval_rows (polynomials stored by coefficient, (k, B)) against
+    polyder_batch and polyval_batch on the same polynomials stored by member, and figures._outer
+    (many members multiplied through a transposed view) against numpy's broadcast outer product:
+    the same numbers bit for bit, constants, NaN and infinities included. The derivative's
+    factors as floats against numpy's polyder (numpy's reference), term by term."""
+    from bandsmith.analysis.figures import _outer
+    from bandsmith.solver.rational import polyder_batch, polyder_rows, polyval_batch, polyval_rows
+
+    rng = np.random.default_rng(14)
+    for _ in range(300):
+        b, k = int(rng.integers(1, 300)), int(rng.integers(1, 10))
+        c = rng.normal(size=(b, k)) * 10.0 ** rng.uniform(-100, 100, size=(b, k))
+        c[rng.random((b, k)) < 0.02] = np.nan
+        c[rng.random((b, k)) < 0.02] = np.inf
+        x = rng.normal(size=b) * 10.0 ** rng.uniform(-5, 5, size=b)
+        rows = np.ascontiguousarray(c.T)
+        assert_array_equal(polyder_rows(rows), polyder_batch(c).T)
+        assert_array_equal(polyval_rows(rows, x), polyval_batch(c, x))
+        d = rng.normal(size=(b, int(rng.integers(1, 10))))
+        assert_array_equal(_outer(c, d), (c[:, :, None] * d[:, None, :]).reshape(b, -1))
+        assert _outer(c, d).flags.c_contiguous
+        if b > 1:
+            assert_array_equal(polyder_batch(c[:1]).ravel(), np.polyder(c[0]) if k > 1 else [0.0])
+
+
 def test_netlist_nodes_and_refusals_follow_the_rule_written_out():
     """Netlist's nodes (every node but ground and the input, in the order first met, found through
     a dict) against the rule written out node by node, on every circuit and its netlist driving

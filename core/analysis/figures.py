@@ -32,7 +32,7 @@ import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
-from bandsmith.solver.rational import Rational, largest_in_rows, polyder_batch, polyval_batch
+from bandsmith.solver.rational import COLUMNS_FROM, Rational, largest_in_rows, polyder_batch, polyder_rows, polyval_batch, polyval_rows
 
 __all__ = ["Figures", "defined", "measure", "measure_many", "nominal_and_peaks_many", "measure_near", "measure_from", "biquad_figures", "biquad_peak_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
            "CLOSED_FORM_FROM"]
@@ -165,7 +165,7 @@ def _slope_matrix(m: int, n: int) -> np.ndarray:
 def _sq_mag_u(c: np.ndarray) -> np.ndarray:
     """Polynomial in ``u`` equal to ``|c(jx)|²`` at ``u = x²`` (highest power first): one product."""
     k = c.shape[1]
-    return (c[:, :, None] * c[:, None, :]).reshape(c.shape[0], k * k) @ _sq_mag_matrix(k)
+    return _outer(c, c) @ _sq_mag_matrix(k)
 
 
 def _slope_u(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
@@ -173,7 +173,24 @@ def _slope_u(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
     m, n = pu.shape[1], qu.shape[1]
     if m + n < 3:
         return np.zeros((pu.shape[0], 1))
-    return (pu[:, :, None] * qu[:, None, :]).reshape(pu.shape[0], m * n) @ _slope_matrix(m, n)
+    return _outer(pu, qu) @ _slope_matrix(m, n)
+
+
+def _outer(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Each member's products of coefficients, ``(B, m·n)`` (C order), entry ``i·n + j`` of member
+    ``r`` being ``a[r, i]·b[r, j]``: the left operand of :func:`_sq_mag_u`'s and
+    :func:`_slope_u`'s products. Many members (:data:`~bandsmith.solver.rational.COLUMNS_FROM`)
+    are multiplied from copies stored by coefficient, written through a transposed view of the
+    result: each of the ``m·n`` products then runs over the members in one loop, where numpy
+    would run over each member's short row in turn (the same products either way)."""
+    rows, m, n = a.shape[0], a.shape[1], b.shape[1]
+    if rows < COLUMNS_FROM:
+        return (a[:, :, None] * b[:, None, :]).reshape(rows, m * n)
+    at = np.ascontiguousarray(a.T)
+    bt = at if b is a else np.ascontiguousarray(b.T)
+    out = np.empty((rows, m * n))
+    np.multiply(at[:, None, :], bt[None, :, :], out=out.reshape(rows, m, n).transpose(1, 2, 0))
+    return out
 
 
 def _root(poly: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
@@ -444,25 +461,35 @@ def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: 
         ref = ref.item()  # one reference for every member (else one per member)
     u0 = ref.f0_hz**2 * to_u
     u_pk, ok = _newton(slope, u0, k2)
-    p0 = polyval_batch(pu, u_pk)
-    q0 = polyval_batch(qu, u_pk)
+    # P and Q stored by coefficient from here on (:func:`polyval_rows`, :func:`polyder_rows`:
+    # the same arithmetic as on the batch stored by member, in fewer, longer loops)
+    p_rows, q_rows = np.ascontiguousarray(pu.T), np.ascontiguousarray(qu.T)
+    p0 = polyval_rows(p_rows, u_pk)
+    q0 = polyval_rows(q_rows, u_pk)
     peak2 = p0 / q0
-    half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
+    # P − ½·peak²·Q (as _poly_sub forms it), twice over: both band edges' polynomials, the
+    # first half of Newton's rows
+    n = max(p_rows.shape[0], q_rows.shape[0])
+    rows = np.zeros((n, 4 * b))
+    half = rows[:, :b]
+    half[n - p_rows.shape[0] :] += p_rows
+    half[n - q_rows.shape[0] :] -= q_rows * (0.5 * peak2)
+    rows[:, b : 2 * b] = half
     # a Lorentzian in u with the peak's curvature, |H|² = peak/(1 + ((u − u_pk)/γ)²), puts
     # the edges γ from the peak: γ² = −2·P·Q/(P''Q − P·Q'') there (P'Q = PQ' at the peak)
-    p2 = polyval_batch(polyder_batch(polyder_batch(pu)), u_pk)
-    q2 = polyval_batch(polyder_batch(polyder_batch(qu)), u_pk)
+    p2 = polyval_rows(polyder_rows(polyder_rows(p_rows)), u_pk)
+    q2 = polyval_rows(polyder_rows(polyder_rows(q_rows)), u_pk)
     spread_u = 1.0 + np.sqrt(np.abs(2.0 * p0 * q0 / (p2 * q0 - p0 * q2))) / u_pk
     lorentz = np.concatenate([u_pk / spread_u, u_pk * spread_u])
     if only_peak:
-        both, ok2 = _newton(np.concatenate([half, half]), lorentz, both_k2, first=5)
+        both, ok2 = _newton_rows(rows, lorentz, both_k2, first=5)
     else:
         # the window is where the moved peak carries the reference's band edges; Newton's method
         # starts from the Lorentzian's edges where they lie in it (a member whose Q has moved far
         # from the reference's converges in fewer steps from them), else from the window's centre
         anchor = np.concatenate([ref.f_low_hz**2 * to_u, ref.f_high_hz**2 * to_u]) * np.concatenate([u_pk / u0] * 2)
         starts = np.where((lorentz >= anchor / both_k2) & (lorentz <= anchor * both_k2), lorentz, anchor)
-        both, ok2 = _newton(np.concatenate([half, half]), starts, both_k2, first=5, window=anchor)
+        both, ok2 = _newton_rows(rows, starts, both_k2, first=5, window=anchor)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
     if only_peak:
         ok &= _only_peak(pu, qu, slope, u_pk, peak2, both[:b], both[b:], ok & ok2[:b] & ok2[b:])
@@ -625,17 +652,27 @@ def _newton(poly: np.ndarray, x0, k2: float | np.ndarray, *, first: int = 4, win
     a batch of their own with the tests at the same steps (:data:`_COMPACT_FROM`): each
     member's arithmetic is the same, element by element, so its result is too."""
     b, k = poly.shape
+    rows = np.empty((k, 2 * b))
+    rows[:, :b] = poly.T
+    return _newton_rows(rows, x0, k2, first=first, window=window, most=most)
+
+
+def _newton_rows(rows: np.ndarray, x0, k2: float | np.ndarray, *, first: int = 4, window: np.ndarray | None = None,
+                 most: int = _NEWTON_MOST) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`_newton` of polynomials stored by coefficient in the first half of ``rows``
+    ``(k, 2·B)`` (row ``i``: coefficient ``i`` of every member, highest power first; the second
+    half is a buffer, written here): the polynomials and their derivatives (a leading zero: the
+    same Horner steps) are stepped in one batch, each coefficient row contiguous."""
+    k, b = rows.shape[0], rows.shape[1] // 2
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
         x0 = np.broadcast_to(x0, (b,))
     centre = x0 if window is None else window
     lo, hi = centre / k2, centre * k2
-    # the polynomials and their derivatives (a leading zero: the same Horner steps) in one batch,
-    # stored by coefficient (row j: coefficient j of every member, contiguous)
-    rows = np.zeros((k, 2 * b))
-    rows[:, :b] = poly.T
+    rows[0, b:] = 0.0
     if k > 1:  # a constant's derivative is zero
-        rows[1:, b:] = polyder_batch(poly).T
+        polyder_rows(rows[:, :b], out=rows[1:, b:])
+    whole = rows
     rows = list(rows)  # the coefficient rows as arrays of their own (no view made per step)
     xx = np.empty(2 * b)  # the points of both halves: x, then a copy of it
     x = xx[:b]  # stepped in place
@@ -678,8 +715,10 @@ def _newton(poly: np.ndarray, x0, k2: float | np.ndarray, *, first: int = 4, win
                 rest = np.flatnonzero(live)
                 if 4 * rest.size <= b:  # the few still live stepped as a batch of their own
                     settled = ok.copy()  # (their last step taken below)
-                    x[rest], ok[rest] = _newton(poly[rest], x[rest], k2 if np.ndim(k2) == 0 else k2[rest], first=2,
-                                                window=centre[rest], most=most - n)
+                    few = np.empty((k, 2 * rest.size))
+                    few[:, : rest.size] = whole[:, rest]
+                    x[rest], ok[rest] = _newton_rows(few, x[rest], k2 if np.ndim(k2) == 0 else k2[rest], first=2,
+                                                     window=centre[rest], most=most - n)
                     np.subtract(x, newton_step(), out=x, where=settled)
                     return x, ok
     # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which

@@ -22,7 +22,7 @@ import numpy as np
 from bandsmith.solver.mna import MnaSystem, build_system
 from bandsmith.solver.polyroots import companion_roots
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows", "family_weights", "family_sums", "shifted_stack", "largest_in_rows"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "polyder_rows", "polyval_rows", "pad_rows", "family_weights", "family_sums", "shifted_stack", "largest_in_rows"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -48,23 +48,39 @@ def polyval_batch(c: np.ndarray, x: np.ndarray) -> np.ndarray:
     return y
 
 
-# From this many rows on, largest_in_rows reduces down the columns of a transposed copy.
-_COLUMNS_FROM = 16
+# From this many rows on, a batch's short rows are worked down the columns of a transposed copy
+# (largest_in_rows; figures' outer products of coefficients).
+COLUMNS_FROM = 16
 
 
 def largest_in_rows(c: np.ndarray) -> np.ndarray:
     """Each row's largest magnitude, ``max |c|`` along the last axis, kept as an axis of one
     (``c.shape[:-1] + (1,)``): the numbers of ``np.abs(c).max(axis=-1, keepdims=True)`` (a
     maximum rounds nothing, and a NaN is carried either way). Where there are many rows
-    (:data:`_COLUMNS_FROM`) they are reduced down the columns of a transposed copy: numpy sets up
+    (:data:`COLUMNS_FROM`) they are reduced down the columns of a transposed copy: numpy sets up
     its reduction loop for every short row (some 40 ns a row, 15 µs for a GBW ladder batch of
     some 370 members), a column of every row's entries as one loop (under 3 µs with the copy)."""
     mag = np.abs(c)
     rows = mag.size // mag.shape[-1] if mag.shape[-1] else 0
-    if rows < _COLUMNS_FROM:
+    if rows < COLUMNS_FROM:
         return mag.max(axis=-1, keepdims=True)
     across = np.ascontiguousarray(mag.reshape(rows, mag.shape[-1]).T).max(axis=0)
     return across.reshape(c.shape[:-1] + (1,))
+
+
+def polyval_rows(rows: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """:func:`polyval_batch` of polynomials stored by coefficient, ``rows`` ``(k, B)`` (row ``i``:
+    coefficient ``i`` of every member, highest power first), at ``x`` ``(B,)``: the same Horner
+    steps on the same numbers, each coefficient read as one contiguous row."""
+    k = rows.shape[0]
+    if k == 1:
+        return rows[0] + np.zeros_like(x)
+    y = rows[0] * x
+    for i in range(1, k - 1):
+        y += rows[i]
+        y *= x
+    y += rows[k - 1]
+    return y
 
 
 def pad_rows(blocks: Sequence[np.ndarray]) -> np.ndarray:
@@ -86,10 +102,27 @@ def polyder_batch(c: np.ndarray) -> np.ndarray:
     return c[:, :-1] * _powers_down(k - 1)
 
 
+def polyder_rows(rows: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
+    """:func:`polyder_batch` of polynomials stored by coefficient, ``rows`` ``(k, B)`` (row ``i``:
+    coefficient ``i`` of every member, highest power first): ``(k − 1, B)`` (``(1, B)`` of zeros
+    for a constant), the same products, each row scaled by its power as one loop over the members
+    (a batch stored by member, ``(B, k)``, takes numpy's loop over its short rows one member at a
+    time). ``out``: where to write it."""
+    k = rows.shape[0]
+    if k == 1:
+        if out is None:
+            return np.zeros_like(rows)
+        out[...] = 0.0
+        return out
+    return np.multiply(rows[:-1], _powers_down(k - 1)[:, None], out=out)
+
+
 @functools.lru_cache(maxsize=None)
 def _powers_down(n: int) -> np.ndarray:
-    """``n, n − 1, …, 1`` (integers, read-only): the factors of a derivative of ``n + 1`` coefficients."""
-    powers = np.arange(n, 0, -1)
+    """``n, n − 1, …, 1`` (as floats, read-only): the factors of a derivative of ``n + 1``
+    coefficients (whole numbers, exact as floats: the products are those with the integers,
+    without numpy's casting of them)."""
+    powers = np.arange(n, 0, -1, dtype=float)
     powers.setflags(write=False)
     return powers
 
