@@ -63,6 +63,12 @@ class Figures:
         """A sub-batch (a slice or index array), as arrays."""
         return Figures(*[np.asarray(getattr(self, name))[index] for name in _FIELDS])
 
+    def members(self, rows: Sequence[int]) -> "list[Figures]":
+        """:meth:`take` of each of ``rows`` as a batch of one (``take(slice(r, r + 1))``), the
+        figures of every row gathered at once."""
+        columns = [np.asarray(getattr(self, name))[rows] for name in _FIELDS]
+        return [Figures(*[c[p : p + 1] for c in columns]) for p in range(len(rows))]
+
     @staticmethod
     def repeated(members: "list[Figures]", counts) -> "Figures":
         """One batch of one-member figures, member ``i`` repeated ``counts[i]`` times (the

@@ -90,15 +90,17 @@ def search_gbw_many(
     live.sort(key=lambda entry: _batch_key(items[entry[0]][2]))  # (stable: in order within a kind)
     h, fig, ok, starts = _measured(items, live, each, a0, probes=True)
     ok_list = ok.tolist()
-    settled, again, probes = [], [], {}
+    settled, again, probe_rows = [], [], {}
     for (i, ladder, ref, first), start in zip(live, starts):
         size = ladder.size - first
         if items[i][4] is not None:  # the probe, after the ladder's members
-            probes[i] = (h.item(start + size), fig.take(slice(start + size, start + size + 1)))
+            probe_rows[i] = start + size
         if _settled(ok_list[start : start + size], first):
             settled.append((i, (items[i], ref, ladder, start, first, each[i])))
         else:
             again.append((i, ladder, ref, 0))
+    rows = list(probe_rows.values())
+    probes = dict(zip(probe_rows, zip(h.items(rows), fig.members(rows)))) if rows else {}
     found = dict(zip([i for i, _ in settled], _conclude_many([case for _, case in settled], fig, ok, a0=a0)))
     if again:  # the whole ladders of those the first round left open
         _, fig, ok, starts = _measured(items, again, each, a0, probes=False)
@@ -148,7 +150,7 @@ def _measured(items, live, each, a0: float, *, probes: bool) -> tuple[Rational, 
     for i, ladder, _, first in live:
         rungs = ladder[first:] if first else ladder
         probe = items[i][4] if probes else None
-        gbws.append(rungs if probe is None else np.append(rungs, probe))
+        gbws.append(rungs if probe is None else np.concatenate((rungs, [probe])))
     h = _ladders([items[i][:4] for i, _, _, _ in live], gbws, a0)
     sizes = [g.size for g in gbws]
     # one member's figures for all, or each candidate's (as scalars) repeated over its members

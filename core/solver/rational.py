@@ -235,6 +235,18 @@ class Rational:
         """The ``i``-th member of the batch, as a batch of one (leading zero coefficients dropped)."""
         return Rational(_lead_trim(self.num[i : i + 1]), _lead_trim(self.den[i : i + 1]), self.w_ref[i : i + 1])
 
+    def items(self, rows: Sequence[int]) -> list["Rational"]:
+        """:meth:`item` of each of ``rows`` (the same members, each its own batch of one), their
+        rows gathered at once and each one's leading zeros found in one pass: the first column
+        that is not zero (a NaN is not), the last where all are (what :meth:`item` keeps)."""
+        index = np.asarray(rows, dtype=np.intp)
+        num, den, w_ref = self.num[index], self.den[index], self.w_ref[index]
+        firsts = []
+        for c in (num, den):
+            nonzero = c != 0
+            firsts.append(np.where(nonzero.any(axis=1), nonzero.argmax(axis=1), c.shape[1] - 1).tolist())
+        return [Rational(num[p : p + 1, a:], den[p : p + 1, b:], w_ref[p : p + 1]) for p, (a, b) in enumerate(zip(*firsts))]
+
     def take(self, index) -> "Rational":
         """A sub-batch (a slice or index array)."""
         return Rational(self.num[index], self.den[index], self.w_ref[index])
