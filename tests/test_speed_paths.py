@@ -1180,6 +1180,35 @@ def test_members_taken_at_once_are_each_taken_alone():
             assert f.f0_hz.shape == (1,)
 
 
+def test_measure_near_with_phase_rows_is_the_whole_measure_but_the_others_phases():
+    """measure_near with phase_rows (the required-GBW search keeps a probe's centre phase only)
+    against measure_near of every member: the same figures bit for bit, the phase of the rows
+    asked for, NaN for the rest. Our own contract, no outside source."""
+    import math
+
+    from bandsmith.analysis import gbw_search
+    from bandsmith.analysis.analyzer import _first_pass_many
+    from bandsmith.analysis.figures import measure_near
+
+    netlists = [_netlist(c) for c in ("mfb", "tow-thomas", "dabp")]
+    firsts = _first_pass_many(netlists, [None] * len(netlists))
+    items = [(n, f.ideal, f.family, f.w_ref) for n, f in zip(netlists, firsts)]
+    gbws = [gbw_search._ladder(f.ideal.item().f0_hz) for f in firsts]
+    h = gbw_search._ladders(items, gbws, 1e5)
+    ref = firsts[0].ideal
+    whole = measure_near(h, ref, spread=0.5)
+    finite = np.flatnonzero(np.isfinite(whole.phase_center_deg)).tolist()
+    rows = [3, finite[0], finite[-1], h.batch - 1]
+    part = measure_near(h, ref, spread=0.5, phase_rows=rows)
+    for name in ("f0_hz", "q", "bw_hz", "f_low_hz", "f_high_hz", "gain_center", "gain_center_db"):
+        assert_array_equal(getattr(part, name), getattr(whole, name))
+    assert_array_equal(part.phase_center_deg[rows], whole.phase_center_deg[rows])
+    others = np.setdiff1d(np.arange(h.batch), rows)
+    assert np.isnan(part.phase_center_deg[others]).all()
+    assert len(finite) > 10 and not math.isnan(float(part.phase_center_deg[rows[1]]))
+    assert np.isnan(measure_near(h, ref, spread=0.5, phase_rows=[]).phase_center_deg).all()
+
+
 def test_netlist_nodes_and_refusals_follow_the_rule_written_out():
     """Netlist's nodes (every node but ground and the input, in the order first met, found through
     a dict) against the rule written out node by node, on every circuit and its netlist driving

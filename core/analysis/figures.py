@@ -428,7 +428,7 @@ def biquad_figures(b1, a2, a1, a0, w_ref) -> tuple[Figures, np.ndarray]:
     return fig, stable & fig.valid
 
 
-def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = False) -> Figures:
+def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = False, phase_rows: Sequence[int] | None = None) -> Figures:
     """Figures of members known to lie near reference figures (a GBW ladder near the ideal op-amp).
 
     The peak and the half-power points are found by Newton's method near ``ref``'s (one member
@@ -445,7 +445,9 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
     there, which holds a band far wider or narrower than ``ref``'s. ``spread`` is one number for
     every member or one per member (a batch of several candidates' ladders, each with its own);
     each member's window factor ``(1 + spread)²`` is Python's float power of its own spread, as
-    for one number (the power rounds differently from a product now and then).
+    for one number (the power rounds differently from a product now and then). With
+    ``phase_rows`` only those members get their centre phase (the rest NaN: a caller that asks
+    only whether the others are within tolerance does not read it).
     """
     if np.ndim(spread):
         values, at = np.unique(np.asarray(spread, dtype=float), return_inverse=True)
@@ -453,10 +455,10 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
     else:
         k2 = (1.0 + spread) ** 2
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        return _measure_near(h, ref, k2, only_peak)
+        return _measure_near(h, ref, k2, only_peak, phase_rows)
 
 
-def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: bool) -> Figures:
+def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: bool, phase_rows=None) -> Figures:
     b = h.batch
     to_u = (2.0 * np.pi / h.w_ref) ** 2
     both_k2 = k2 if np.ndim(k2) == 0 else np.concatenate([k2, k2])  # the band edges' windows, low then high
@@ -476,8 +478,9 @@ def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: 
     # P − ½·peak²·Q (as _poly_sub forms it), twice over: both band edges' polynomials, the
     # first half of Newton's rows
     n = max(p_rows.shape[0], q_rows.shape[0])
-    rows = np.zeros((n, 4 * b))
+    rows = np.empty((n, 4 * b))  # (the derivatives' half written by _newton_rows)
     half = rows[:, :b]
+    half[...] = 0.0
     half[n - p_rows.shape[0] :] += p_rows
     half[n - q_rows.shape[0] :] -= q_rows * (0.5 * peak2)
     rows[:, b : 2 * b] = half
@@ -503,7 +506,7 @@ def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: 
     u_pk = np.where(ok, u_pk, nan)
     u_low = np.where(ok & ok2[:b], both[:b], nan)
     u_high = np.where(ok & ok2[b:], both[b:], nan)
-    return _figures_quiet(h, u_pk, u_low, u_high)
+    return _figures_quiet(h, u_pk, u_low, u_high, phase_rows)
 
 
 def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
@@ -869,12 +872,18 @@ def _figures(h: Rational, u_pk, u_low, u_high) -> Figures:
         return _figures_quiet(h, u_pk, u_low, u_high)
 
 
-def _figures_quiet(h: Rational, u_pk, u_low, u_high) -> Figures:
+def _figures_quiet(h: Rational, u_pk, u_low, u_high, phase_rows=None) -> Figures:
     """:func:`_figures` under the caller's floating-point error state (:func:`measure_near`'s
-    ignores what :func:`_figures` ignores: an error state entered and left costs some 2 µs)."""
+    ignores what :func:`_figures` ignores: an error state entered and left costs some 2 µs).
+    ``H`` at the peak by Horner's rule on the coefficients made complex once, stored by
+    coefficient (numpy makes a real operand complex for every mixed operation: the same
+    numbers); ``phase_rows``: as :func:`measure_near` takes it."""
     p = 1j * np.sqrt(u_pk)
-    hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
-    return _figures_at(h.w_ref, u_pk, u_low, u_high, None, hc)
+    if h.batch >= COLUMNS_FROM:
+        hc = polyval_rows(np.ascontiguousarray(h.num.T, dtype=complex), p) / polyval_rows(np.ascontiguousarray(h.den.T, dtype=complex), p)
+    else:
+        hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
+    return _figures_at(h.w_ref, u_pk, u_low, u_high, None, hc, phase_rows)
 
 
 def figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
@@ -884,9 +893,10 @@ def figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
         return _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc)
 
 
-def _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
+def _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc, phase_rows=None) -> Figures:
     """:func:`figures_at` under the caller's floating-point error state (invalid values, division
-    by zero and overflow ignored)."""
+    by zero and overflow ignored); with ``phase_rows``, the phase of those members only (NaN
+    elsewhere)."""
     to_hz = w_ref / (2.0 * np.pi)
     x_pk = np.sqrt(u_pk)  # ω/w_ref at the peak
     f0 = x_pk * to_hz
@@ -894,9 +904,12 @@ def _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
     f_high = np.sqrt(u_high) * to_hz
     bw = f_high - f_low if bw_x is None else bw_x * to_hz
     re, im = hc.real, hc.imag
-    phase = np.arctan2(im, re)
-    phase *= 180.0 / np.pi
-    phase[phase <= -180.0 + 1e-7] = 180.0
+    if phase_rows is None:
+        phase = _degrees(im, re)
+    else:
+        phase = np.full(hc.shape, np.nan)
+        if len(phase_rows):
+            phase[phase_rows] = _degrees(im[phase_rows], re[phase_rows])
     mag = np.hypot(re, im)
     db = np.log10(mag)  # −inf at a zero gain: NaN below
     db *= 20.0
@@ -911,6 +924,14 @@ def _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
         gain_center_db=db,
         phase_center_deg=phase,
     )
+
+
+def _degrees(im: np.ndarray, re: np.ndarray) -> np.ndarray:
+    """The angle of ``re + j·im`` in degrees, in (−180, 180] (−180 itself, to 1e-7, as 180)."""
+    phase = np.arctan2(im, re)
+    phase *= 180.0 / np.pi
+    phase[phase <= -180.0 + 1e-7] = 180.0
+    return phase
 
 
 def _poly_sub(a: np.ndarray, b: np.ndarray) -> np.ndarray:

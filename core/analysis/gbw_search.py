@@ -50,10 +50,11 @@ def _spread(tolerances: Tolerances) -> float:
     return 2.0 * (tolerances.f0 + tolerances.q) + 0.02
 
 
-def _near_figures(h: Rational, ideal: Figures, tolerances: Tolerances) -> Figures:
+def _near_figures(h: Rational, ideal: Figures, tolerances: Tolerances, phase_rows: Sequence[int] = ()) -> Figures:
     """Figures sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`),
-    within :func:`_spread` of them."""
-    return measure_near(h, ideal, spread=_spread(tolerances))
+    within :func:`_spread` of them; the centre phase of ``phase_rows`` only (the search holds
+    the ladders' members to the tolerances, which do not read it: a probe's is kept)."""
+    return measure_near(h, ideal, spread=_spread(tolerances), phase_rows=phase_rows)
 
 
 def search_gbw_many(
@@ -156,13 +157,15 @@ def _measured(items, live, each, a0: float, *, probes: bool) -> tuple[Rational, 
     # one member's figures for all, or each candidate's (as scalars) repeated over its members
     ref = items[live[0][0]][1] if len(live) == 1 else Figures.repeated([one for _, _, one, _ in live], sizes)
     tols = [each[i] for i, _, _, _ in live]
+    starts = list(itertools.accumulate(sizes[:-1], initial=0))
+    phase_rows = [start + size - 1 for (i, _, _, _), start, size in zip(live, starts, sizes) if probes and items[i][4] is not None]
     if all(t == tols[0] for t in tols):  # one for all
-        fig = _near_figures(h, ref, tols[0])
+        fig = _near_figures(h, ref, tols[0], phase_rows)
         ok = within_tolerances(fig, ref, tols[0])  # every member against its own candidate's figures
     else:  # each member sought near, and held to, its own candidate's
-        fig = measure_near(h, ref, spread=np.repeat([_spread(t) for t in tols], sizes))
+        fig = measure_near(h, ref, spread=np.repeat([_spread(t) for t in tols], sizes), phase_rows=phase_rows)
         ok = within_tolerances(fig, ref, tols, sizes)
-    return h, fig, ok, list(itertools.accumulate(sizes[:-1], initial=0))
+    return h, fig, ok, starts
 
 
 def _batch_key(family: OpAmpFamily | AmpFamily | None) -> tuple:
