@@ -101,7 +101,10 @@ def search_gbw_many(
         else:
             again.append((i, ladder, ref, 0))
     rows = list(probe_rows.values())
-    probes = dict(zip(probe_rows, zip(h.items(rows), fig.members(rows)))) if rows else {}
+    if len(rows) > 1:  # (gathered at once)
+        probes = dict(zip(probe_rows, zip(h.items(rows), fig.members(rows))))
+    else:
+        probes = {i: (h.item(r), fig.take(slice(r, r + 1))) for i, r in probe_rows.items()}
     found = dict(zip([i for i, _ in settled], _conclude_many([case for _, case in settled], fig, ok, a0=a0)))
     if again:  # the whole ladders of those the first round left open
         _, fig, ok, starts = _measured(items, again, each, a0, probes=False)
@@ -207,6 +210,9 @@ def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
     :meth:`AmpFamily.weighted` scales it), a one-op-amp row over its zero (as
     :meth:`OpAmpFamily.at` does). Candidates without a family are solved as they are
     (:func:`with_gbw`) and written in after."""
+    if len(items) == 1:  # (one candidate: its own, nothing to join)
+        netlist, _, family, w_ref = items[0]
+        return with_gbw(netlist, family, w_ref, gbws[0], a0)
     sizes = [g.size for g in gbws]
     starts = list(itertools.accumulate(sizes, initial=0))
     blocks = []  # (first row, numerators, denominators): a family's members, not yet scaled
