@@ -1047,9 +1047,10 @@ def test_the_crossing_cubics_add_the_basis_terms_in_order():
     assert _BASIS_ROWS[:, -1].tolist() == [0.0, 0.0, 1.0, 0.0]
 
 
-def test_crossings_taken_at_once_are_the_rule_worked_case_by_case():
-    """gbw_search._crossings gathers every case's four points and works their errors as arrays;
-    against its rule worked case by case in plain numbers (each figure's error over its
+def test_crossings_taken_at_once_are_the_rule_worked_case_by_case(monkeypatch):
+    """gbw_search._crossings gathers every case's four points and works their errors as arrays
+    (many cases) or in plain numbers (one or two), each path forced in turn; against its rule
+    worked case by case in plain numbers (each figure's error over its
     tolerance at the four points; a case kept where all are finite, of the ideal's sign, over
     one at the failing point and within one at the passing point; the cubic's last sub-step
     over one, a margin above): the same answers, on random ladders with NaN figures, sign flips
@@ -1097,7 +1098,9 @@ def test_crossings_taken_at_once_are_the_rule_worked_case_by_case():
         for name in ("f0_hz", "q", "gain_center_db"):
             getattr(fig, name)[rng.random(rows) < 0.02] = np.nan
         want = [by_case(fig, c) for c in cases]
-        assert gbw_search._crossings(fig, cases) == want
+        for few in (0, 2, 100):  # every case at once, the path by a candidate's size, case by case
+            monkeypatch.setattr(gbw_search, "_ONE_BY_ONE", few)
+            assert gbw_search._crossings(fig, cases) == want
         found += [w is not None for w in want]
     assert 100 < sum(found) < len(found)  # answers and fine ladders both met
 

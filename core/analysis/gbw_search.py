@@ -301,34 +301,23 @@ def _crossings(fig: Figures, cases: Sequence[tuple[Figures, np.ndarray, int, int
     then measures a fine ladder. A case's ladder is members ``start …`` of ``fig`` (the batch the
     ladders of several candidates are measured in, not taken apart).
 
-    Every case is taken at once: its four points' figures gathered from ``fig``, its errors over
-    its tolerances ``(C, 3 figures, 4 points)`` (the IEEE operations of each error worked alone),
-    the cases whose four points are all measured, of the ideal's sign, and failing at ``j`` and
-    passing at ``j + 1`` kept, and their cubics evaluated in one batch, the basis' four terms
-    added in order (the same numbers for a case whatever the batch)."""
+    The errors over the tolerances at the cases' four points come as arrays for many cases
+    (:func:`_errors_at_once`), in plain numbers for one or two (:func:`_case_errors`): the same
+    numbers; the cubics of the cases kept are evaluated in one batch, the basis' four terms added
+    in order (the same numbers for a case whatever the batch)."""
     out: list[float | None] = [None] * len(cases)
     inner = [n for n, (_, ladder, _, j, _) in enumerate(cases) if 1 <= j and j + 2 < ladder.size]
     if not inner:
         return out
-    rows = np.array([cases[n][2] + cases[n][3] - 1 for n in inner])[:, None] + _FOUR  # (C, 4): each case's points
-    # per case: its ideal f0, Q, gain in dB and gain, and its tolerances on the first three, (C, 7)
-    refs = np.array([(r.f0_hz, r.q, r.gain_center_db, r.gain_center, t.f0, t.q, t.gain_db)
-                     for r, _, _, _, t in (cases[n] for n in inner)])
-    f0s, qs, dbs, gains = (np.asarray(v)[rows] for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
-    err = np.stack([(f0s / refs[:, 0:1] - 1.0) / refs[:, 4:5], (qs / refs[:, 1:2] - 1.0) / refs[:, 5:6],
-                    (dbs - refs[:, 2:3]) / refs[:, 6:7]], axis=1)  # (C, 3, 4)
-    size = np.abs(err)
-    with np.errstate(invalid="ignore"):
-        # the cubic is the failing point's error at the step's start and the passing point's at
-        # its end (the basis is exactly 0 or 1 there): the interpolation must agree with both
-        good = np.isfinite(err).all(axis=(1, 2)) & (size[:, :, 1].max(axis=1) > 1.0) & (size[:, :, 2].max(axis=1) <= 1.0)
-    good &= (np.copysign(1.0, gains) == np.copysign(1.0, refs[:, 3:4])).all(axis=1)
-    kept = np.flatnonzero(good).tolist()
+    if len(inner) <= _ONE_BY_ONE:
+        err, kept = _case_errors(fig, [cases[n] for n in inner])
+    else:
+        err, kept = _errors_at_once(fig, [cases[n] for n in inner])
     if not kept:
         return out
     # (C, 3, T): each figure's cubic over the sub-steps, the basis' four terms added in order
     # (einsum's own loop, the same numbers as the terms added one by one: tested)
-    e = np.abs(np.einsum("cfj,jt->cft", err[kept], _BASIS_ROWS, optimize=False))
+    e = np.abs(np.einsum("cfj,jt->cft", err, _BASIS_ROWS, optimize=False))
     worst = e.max(axis=1)  # (C, T): the worst of the three
     last = (_SUB.size - np.argmax(worst[:, ::-1] > 1.0, axis=1)).tolist()  # the sub-step after the last one over
     for c, k in zip(kept, last):
@@ -340,6 +329,51 @@ def _crossings(fig: Figures, cases: Sequence[tuple[Figures, np.ndarray, int, int
 
 
 _FOUR = np.arange(4)  # a case's four ladder points j − 1 … j + 2, from j − 1
+# Up to this many cases (a candidate searched alone) their errors are worked in plain numbers.
+_ONE_BY_ONE = 2
+
+
+def _errors_at_once(fig: Figures, cases) -> tuple[np.ndarray, list[int]]:
+    """:func:`_crossings`' errors over tolerances at each case's four points, ``(kept cases, 3,
+    4)``, and the indices of the cases kept (all four points measured and of the ideal's sign,
+    over one at the failing point and within one at the passing point), every case at once:
+    the four points' figures gathered from ``fig`` and the errors worked as arrays (the IEEE
+    operations of each error worked alone)."""
+    rows = np.array([start + j - 1 for _, _, start, j, _ in cases])[:, None] + _FOUR  # (C, 4): each case's points
+    # per case: its ideal f0, Q, gain in dB and gain, and its tolerances on the first three, (C, 7)
+    refs = np.array([(r.f0_hz, r.q, r.gain_center_db, r.gain_center, t.f0, t.q, t.gain_db) for r, _, _, _, t in cases])
+    f0s, qs, dbs, gains = (np.asarray(v)[rows] for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
+    err = np.stack([(f0s / refs[:, 0:1] - 1.0) / refs[:, 4:5], (qs / refs[:, 1:2] - 1.0) / refs[:, 5:6],
+                    (dbs - refs[:, 2:3]) / refs[:, 6:7]], axis=1)  # (C, 3, 4)
+    size = np.abs(err)
+    with np.errstate(invalid="ignore"):
+        # the cubic is the failing point's error at the step's start and the passing point's at
+        # its end (the basis is exactly 0 or 1 there): the interpolation must agree with both
+        good = np.isfinite(err).all(axis=(1, 2)) & (size[:, :, 1].max(axis=1) > 1.0) & (size[:, :, 2].max(axis=1) <= 1.0)
+    good &= (np.copysign(1.0, gains) == np.copysign(1.0, refs[:, 3:4])).all(axis=1)
+    kept = np.flatnonzero(good).tolist()
+    return err[kept], kept
+
+
+def _case_errors(fig: Figures, cases) -> tuple[np.ndarray, list[int]]:
+    """:func:`_errors_at_once` case by case in plain numbers (the same IEEE operations; a few
+    cases cost fewer array calls so)."""
+    f0s, qs, dbs, gains = (np.asarray(v) for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
+    errs, kept = [], []
+    for c, (ref, _, start, j, tol) in enumerate(cases):
+        sl = slice(start + j - 1, start + j + 3)
+        err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0s[sl].tolist()], [(v / ref.q - 1.0) / tol.q for v in qs[sl].tolist()],
+               [(v - ref.gain_center_db) / tol.gain_db for v in dbs[sl].tolist()]]
+        if not math.isfinite(sum(map(sum, err))) and not all(math.isfinite(e) for row in err for e in row):
+            continue
+        sign = math.copysign(1.0, ref.gain_center)
+        if not all(math.copysign(1.0, g) == sign for g in gains[sl].tolist()):
+            continue
+        if not (max(abs(row[1]) for row in err) > 1.0 and max(abs(row[2]) for row in err) <= 1.0):
+            continue
+        errs.append(err)
+        kept.append(c)
+    return np.array(errs).reshape(len(kept), 3, 4), kept
 
 
 def _conclude_many(
