@@ -1115,6 +1115,172 @@ def test_the_crossing_cubics_add_the_basis_terms_in_order():
     assert _BASIS_ROWS[:, -1].tolist() == [0.0, 0.0, 1.0, 0.0]
 
 
+def test_crossings_taken_at_once_are_the_rule_worked_case_by_case(monkeypatch):
+    """gbw_search._crossings gathers every case's four points and works their errors as arrays
+    (many cases) or in plain numbers (one or two), each path forced in turn; against its rule
+    worked case by case in plain numbers (each figure's error over its
+    tolerance at the four points; a case kept where all are finite, of the ideal's sign, over
+    one at the failing point and within one at the passing point; the cubic's last sub-step
+    over one, a margin above): the same answers, on random ladders with NaN figures, sign flips
+    and cases at the ladder's ends. Our own contract, no outside source."""
+    import math
+
+    from bandsmith.analysis import gbw_search
+    from bandsmith.analysis.figures import Figures
+    from bandsmith.analysis.tolerances import Tolerances
+
+    def by_case(fig, case):
+        ref, ladder, start, j, tol = case
+        if j < 1 or j + 2 >= ladder.size:
+            return None
+        sl = slice(start + j - 1, start + j + 3)
+        err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in fig.f0_hz[sl].tolist()], [(v / ref.q - 1.0) / tol.q for v in fig.q[sl].tolist()],
+               [(v - ref.gain_center_db) / tol.gain_db for v in fig.gain_center_db[sl].tolist()]]
+        if not all(math.isfinite(e) for row in err for e in row):
+            return None
+        if not all(math.copysign(1.0, g) == math.copysign(1.0, ref.gain_center) for g in fig.gain_center[sl].tolist()):
+            return None
+        if not (max(abs(row[1]) for row in err) > 1.0 and max(abs(row[2]) for row in err) <= 1.0):
+            return None
+        worst = np.abs(np.einsum("fj,jt->ft", np.array(err), gbw_search._BASIS_ROWS, optimize=False)).max(axis=0)
+        k = gbw_search._SUB.size - int(np.argmax(worst[::-1] > 1.0))
+        return float(ladder[j] * math.exp(gbw_search._SUB[k] * math.log(ladder[j + 1] / ladder[j])) * (1.0 + gbw_search._CROSSING_MARGIN))
+
+    rng = np.random.default_rng(12)
+    found = []
+    for _ in range(200):
+        cases, rows = [], 0
+        for _c in range(int(rng.integers(1, 9))):
+            ladder = gbw_search._ladder(float(10 ** rng.uniform(2, 5)))[int(rng.integers(0, 55)):]
+            ref = Figures(float(1e3 * rng.uniform(0.5, 2)), float(rng.uniform(0.5, 20)), 0.0, 0.0, 0.0,
+                          float(rng.choice([-1.0, 1.0])) * 3.0, float(rng.uniform(-10, 20)), 0.0).item()
+            tol = Tolerances(f0=float(rng.choice([0.01, 0.004])), q=float(rng.choice([0.05, 0.03])), gain_db=float(rng.choice([0.5, 0.25])))
+            cases.append((ref, ladder, rows, int(rng.integers(0, ladder.size)), tol))
+            rows += ladder.size
+        refs = Figures.repeated([c[0] for c in cases], [c[1].size for c in cases])
+        scale = 10.0 ** rng.uniform(-3.5, -1.0, size=rows)
+        fig = Figures(refs.f0_hz * (1 + rng.normal(size=rows) * scale), refs.q * (1 + rng.normal(size=rows) * 3 * scale),
+                      refs.bw_hz, refs.f_low_hz, refs.f_high_hz,
+                      refs.gain_center * np.where(rng.random(rows) < 0.02, -1.0, 1.0),
+                      refs.gain_center_db + rng.normal(size=rows) * 30 * scale, refs.phase_center_deg)
+        for name in ("f0_hz", "q", "gain_center_db"):
+            getattr(fig, name)[rng.random(rows) < 0.02] = np.nan
+        want = [by_case(fig, c) for c in cases]
+        for few in (0, 2, 100):  # every case at once, the path by a candidate's size, case by case
+            monkeypatch.setattr(gbw_search, "_ONE_BY_ONE", few)
+            assert gbw_search._crossings(fig, cases) == want
+        found += [w is not None for w in want]
+    assert 100 < sum(found) < len(found)  # answers and fine ladders both met
+
+
+def test_largest_in_rows_is_numpys_maximum_along_the_rows():
+    """rational.largest_in_rows (many rows reduced down the columns of a transposed copy) against
+    numpy's np.abs(c).max(axis=-1, keepdims=True) (numpy's reference, ndarray.max): the same
+    numbers and shape, on batches of every size around the switch, stacks, views with leading
+    columns dropped, NaN, infinities and signed zeros."""
+    from bandsmith.solver.rational import largest_in_rows
+
+    rng = np.random.default_rng(13)
+    for _ in range(400):
+        shape = tuple(int(v) for v in rng.integers(1, 40, size=int(rng.integers(2, 4))))
+        c = rng.normal(size=shape) * 10.0 ** rng.uniform(-200, 200, size=shape)
+        for special in (np.nan, np.inf, -np.inf, -0.0, 0.0):
+            c[rng.random(shape) < 0.03] = special
+        if rng.random() < 0.3:
+            c[..., : int(rng.integers(0, shape[-1]))] = 0.0
+        view = c[..., int(rng.integers(0, shape[-1])):]
+        for x in (c, view):
+            got, want = largest_in_rows(x), np.abs(x).max(axis=-1, keepdims=True)
+            assert got.shape == want.shape
+            assert_array_equal(got, want)
+
+
+def test_polynomials_stored_by_coefficient_give_the_batch_numbers():
+    """rational.polyder_rows and polyval_rows (polynomials stored by coefficient, (k, B)) against
+    polyder_batch and polyval_batch on the same polynomials stored by member, and figures._outer
+    (many members multiplied through a transposed view) against numpy's broadcast outer product:
+    the same numbers bit for bit, constants, NaN and infinities included. The derivative's
+    factors as floats against numpy's polyder (numpy's reference), term by term."""
+    from bandsmith.analysis.figures import _outer
+    from bandsmith.solver.rational import polyder_batch, polyder_rows, polyval_batch, polyval_rows
+
+    rng = np.random.default_rng(14)
+    for _ in range(300):
+        b, k = int(rng.integers(1, 300)), int(rng.integers(1, 10))
+        c = rng.normal(size=(b, k)) * 10.0 ** rng.uniform(-60, 60, size=(b, k))
+        c[rng.random((b, k)) < 0.02] = np.nan
+        c[rng.random((b, k)) < 0.02] = np.inf
+        x = rng.normal(size=b) * 10.0 ** rng.uniform(-5, 5, size=b)
+        rows = np.ascontiguousarray(c.T)
+        assert_array_equal(polyder_rows(rows), polyder_batch(c).T)
+        with np.errstate(invalid="ignore", over="ignore"):  # (infinities of both signs meet)
+            assert_array_equal(polyval_rows(rows, x), polyval_batch(c, x))
+        d = rng.normal(size=(b, int(rng.integers(1, 10))))
+        assert_array_equal(_outer(c, d), (c[:, :, None] * d[:, None, :]).reshape(b, -1))
+        assert _outer(c, d).flags.c_contiguous
+        if b > 1:
+            assert_array_equal(polyder_batch(c[:1]).ravel(), np.polyder(c[0]) if k > 1 else [0.0])
+
+
+def test_members_taken_at_once_are_each_taken_alone():
+    """Rational.items and Figures.members (a search's probes, gathered at once) against
+    Rational.item and Figures.take of each row alone: the same coefficients, shapes and
+    figures, rows with leading zeros, all zeros, NaN and signed zeros included. Our own contract,
+    no outside source."""
+    from bandsmith.analysis.figures import Figures
+    from bandsmith.solver.rational import Rational
+
+    rng = np.random.default_rng(15)
+    for _ in range(200):
+        b = int(rng.integers(1, 40))
+        num, den = rng.normal(size=(b, int(rng.integers(1, 6)))), rng.normal(size=(b, int(rng.integers(1, 8))))
+        for c in (num, den):
+            for r in range(b):
+                c[r, : int(rng.integers(0, c.shape[1] + 1))] = float(rng.choice([0.0, -0.0]))
+            c[rng.random(c.shape) < 0.03] = np.nan
+        h = Rational(num, den, rng.uniform(1, 1e5, size=b))
+        fig = Figures(*rng.normal(size=(8, b)))
+        rows = rng.integers(0, b, size=int(rng.integers(1, 6))).tolist()
+        for r, one, f in zip(rows, h.items(rows), fig.members(rows)):
+            alone = h.item(r)
+            for x, y in ((one.num, alone.num), (one.den, alone.den), (one.w_ref, alone.w_ref)):
+                assert x.shape == y.shape
+                assert_array_equal(x, y)
+            for x, y in zip(f.scalars(("f0_hz", "q", "bw_hz", "f_low_hz", "f_high_hz", "gain_center", "gain_center_db", "phase_center_deg")),
+                            fig.take(slice(r, r + 1)).scalars(("f0_hz", "q", "bw_hz", "f_low_hz", "f_high_hz", "gain_center", "gain_center_db", "phase_center_deg"))):
+                assert x == y
+            assert f.f0_hz.shape == (1,)
+
+
+def test_measure_near_with_phase_rows_is_the_whole_measure_but_the_others_phases():
+    """measure_near with phase_rows (the required-GBW search keeps a probe's centre phase only)
+    against measure_near of every member: the same figures bit for bit, the phase of the rows
+    asked for, NaN for the rest. Our own contract, no outside source."""
+    import math
+
+    from bandsmith.analysis import gbw_search
+    from bandsmith.analysis.analyzer import _first_pass_many
+    from bandsmith.analysis.figures import measure_near
+
+    netlists = [_netlist(c) for c in ("mfb", "tow-thomas", "dabp")]
+    firsts = _first_pass_many(netlists, [None] * len(netlists))
+    items = [(n, f.ideal, f.family, f.w_ref) for n, f in zip(netlists, firsts)]
+    gbws = [gbw_search._ladder(f.ideal.item().f0_hz) for f in firsts]
+    h = gbw_search._ladders(items, gbws, 1e5)
+    ref = firsts[0].ideal
+    whole = measure_near(h, ref, spread=0.5)
+    finite = np.flatnonzero(np.isfinite(whole.phase_center_deg)).tolist()
+    rows = [3, finite[0], finite[-1], h.batch - 1]
+    part = measure_near(h, ref, spread=0.5, phase_rows=rows)
+    for name in ("f0_hz", "q", "bw_hz", "f_low_hz", "f_high_hz", "gain_center", "gain_center_db"):
+        assert_array_equal(getattr(part, name), getattr(whole, name))
+    assert_array_equal(part.phase_center_deg[rows], whole.phase_center_deg[rows])
+    others = np.setdiff1d(np.arange(h.batch), rows)
+    assert np.isnan(part.phase_center_deg[others]).all()
+    assert len(finite) > 10 and not math.isnan(float(part.phase_center_deg[rows[1]]))
+    assert np.isnan(measure_near(h, ref, spread=0.5, phase_rows=[]).phase_center_deg).all()
+
+
 def test_netlist_nodes_and_refusals_follow_the_rule_written_out():
     """Netlist's nodes (every node but ground and the input, in the order first met, found through
     a dict) against the rule written out node by node, on every circuit and its netlist driving
@@ -1186,6 +1352,83 @@ def test_families_weighted_together_equal_each_weighted_alone(circuit):
             assert_array_equal(h.num, fresh.num)
             assert_array_equal(h.den, fresh.den)
             assert_array_equal(h.w_ref, fresh.w_ref)
+
+
+@pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
+def test_family_sums_of_ladders_of_several_lengths_equal_each_family_alone(circuit):
+    """family_sums of one circuit's families with ladders of different lengths (a chain's stages:
+    their weights padded with rows of zeros into one stack, every family's rows a view of the
+    stacked products) and the weights of the circuit's op-amps as the first columns of those of
+    more op-amps (a compare's families of two and three op-amps weighted in one call): each
+    family's unscaled sums are those of its own product and trim (AmpFamily.weighted before its
+    scaling), bit for bit, and the shifted terms it keeps are those it makes alone. A consistency
+    check of our own two paths, no outside source."""
+    import math
+
+    from bandsmith.analysis.transfer import several_amp_family
+    from bandsmith.solver.rational import AmpFamily, _lead_trim, family_sums, family_weights
+
+    topo = get_topology(circuit)
+    rng = np.random.default_rng(9)
+    fams = []
+    for _ in range(5):
+        values = topo.values_from({k: v * float(np.exp(rng.uniform(-0.4, 0.4))) if v > 0 else v for k, v in topo.example.items()})
+        fams.append(several_amp_family(topo.build(values), 2 * math.pi * 1e4 * float(np.exp(rng.uniform(-1, 1)))))
+    m = len(fams[0].den_terms) - 1
+    pairs = (m + 1) * (m + 2) // 2
+    for group in (fams, fams[:1], fams[1:3]):
+        gbws = [np.geomspace(1e4, 1e11, int(rng.integers(4, 62))) for _ in group]
+        beta = np.concatenate([f.w_ref / (2 * math.pi * g) for f, g in zip(group, gbws)])
+        weights = family_weights(np.array([1e-5]), beta, m + 1)  # one op-amp more: the first columns serve
+        starts = np.cumsum([0] + [g.size for g in gbws])
+        copies = [AmpFamily(f.num_terms, f.den_terms, f.w_ref) for f in group]
+        sums = family_sums(copies, [weights[a:b, :pairs] for a, b in zip(starts[:-1], starts[1:])])
+        for f, copy, g, (num, den) in zip(group, copies, gbws, sums):
+            w = family_weights(np.array([1e-5]), f.w_ref / (2 * math.pi * g), m)
+            fresh = AmpFamily(f.num_terms, f.den_terms, f.w_ref)
+            num_s, den_s = fresh.shifted_terms()
+            assert_array_equal(num, _lead_trim(w @ num_s, fresh._zero_lead[0]))
+            assert_array_equal(den, _lead_trim(w @ den_s, fresh._zero_lead[1]))
+            assert num.shape == _lead_trim(w @ num_s, fresh._zero_lead[0]).shape
+            for kept, own in zip(copy.shifted_terms(), (num_s, den_s)):
+                assert_array_equal(kept, own)
+            assert copy._zero_lead == fresh._zero_lead
+
+
+@pytest.mark.parametrize("gbw_hz", [None, 3e6])
+def test_ladders_joined_are_each_candidates_own_ladder_padded(gbw_hz):
+    """gbw_search._ladders (every kind of candidate in one batch: the one-op-amp families' rows
+    together, the several-op-amp families' weights in one call and their sums by runs of one
+    shape, a candidate without a family solved as it is, everything scaled in one pass) against
+    Rational.joined of each candidate's with_gbw alone: the same coefficients bit for bit, in
+    the search's order and in another. A consistency check of our own two paths, no outside
+    source."""
+    from bandsmith.analysis import gbw_search
+    from bandsmith.analysis.analyzer import _first_pass_many
+    from bandsmith.solver.rational import AmpFamily, Rational
+
+    rng = np.random.default_rng(4)
+    netlists = []
+    for cid in ("mfb", "tow-thomas", "dabp", "sallen-key", "state-variable", "akerberg-mossberg", "rlc-tank", "tow-thomas", "dabp"):
+        topo = get_topology(cid)
+        netlists.append(topo.netlist(topo.values_from({k: v * float(np.exp(rng.uniform(-0.3, 0.3))) if v > 0 else v
+                                                       for k, v in topo.example.items()})))
+    firsts = _first_pass_many(netlists, [None] * len(netlists))
+    items = [(n, f.ideal, f.family, f.w_ref) for n, f in zip(netlists, firsts)]
+    items.append((netlists[1], firsts[1].ideal, None, firsts[1].w_ref))  # no family: solved whole
+    for order in (sorted(range(len(items)), key=lambda k: gbw_search._batch_key(items[k][2])), list(range(len(items)))[::-1]):
+        chosen = [items[k] for k in order]
+        gbws = []
+        for _, ideal, _, _ in chosen:
+            ladder = gbw_search._ladder(ideal.item().f0_hz)[int(rng.integers(0, 40)):]
+            gbws.append(ladder if gbw_hz is None else np.append(ladder, gbw_hz))
+        got = gbw_search._ladders(chosen, gbws, 2e5)
+        fresh = [(n, i, AmpFamily(f.num_terms, f.den_terms, f.w_ref) if isinstance(f, AmpFamily) else f, w) for n, i, f, w in chosen]
+        want = Rational.joined([gbw_search.with_gbw(n, f, w, g, 2e5) for (n, _, f, w), g in zip(fresh, gbws)])
+        assert_array_equal(got.num, want.num)
+        assert_array_equal(got.den, want.den)
+        assert_array_equal(got.w_ref, want.w_ref)
+        assert got.num.shape == want.num.shape and got.den.shape == want.den.shape
 
 
 @pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])

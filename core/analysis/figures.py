@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import functools
 import math
+import operator
 from dataclasses import dataclass, field, fields, replace
 from typing import Sequence
 
@@ -31,7 +32,7 @@ import numpy as np
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.solver.polyroots import cubic_roots, quadratic_roots
-from bandsmith.solver.rational import Rational, polyder_batch, polyval_batch
+from bandsmith.solver.rational import COLUMNS_FROM, Rational, largest_in_rows, polyder_batch, polyder_rows, polyval_batch, polyval_rows
 
 __all__ = ["Figures", "defined", "measure", "measure_many", "nominal_and_peaks_many", "measure_near", "measure_from", "biquad_figures", "biquad_peak_figures", "exact_in_closed_form", "figures_at", "real_positive_roots_eig",
            "CLOSED_FORM_FROM"]
@@ -62,12 +63,22 @@ class Figures:
         """A sub-batch (a slice or index array), as arrays."""
         return Figures(*[np.asarray(getattr(self, name))[index] for name in _FIELDS])
 
+    def members(self, rows: Sequence[int]) -> "list[Figures]":
+        """:meth:`take` of each of ``rows`` as a batch of one (``take(slice(r, r + 1))``), the
+        figures of every row gathered at once."""
+        columns = [np.asarray(getattr(self, name))[rows] for name in _FIELDS]
+        return [Figures(*[c[p : p + 1] for c in columns]) for p in range(len(rows))]
+
     @staticmethod
     def repeated(members: "list[Figures]", counts) -> "Figures":
         """One batch of one-member figures, member ``i`` repeated ``counts[i]`` times (the
         members' eight figures as the rows of one table, repeated in one call)."""
-        table = np.array([[v if type(v) is float else float(np.asarray(v).item()) for v in (getattr(m, name) for name in _FIELDS)]
-                          for m in members])
+        try:  # members as scalars (Figures.item's floats): their rows as numpy reads them
+            table = np.array([_ROW(m) for m in members], dtype=float)
+        except ValueError:  # (arrays of one among scalars)
+            table = None
+        if table is None or table.ndim != 2:
+            table = np.array([[float(np.asarray(v).item()) for v in _ROW(m)] for m in members])
         return Figures(*np.repeat(table.T, counts, axis=1))
 
     def put(self, index, other: "Figures") -> "Figures":
@@ -117,6 +128,7 @@ def defined(f0_hz, q, gain_center_db) -> np.ndarray | bool:
 
 
 _FIELDS = tuple(f.name for f in fields(Figures) if f.init)  # the eight figures
+_ROW = operator.attrgetter(*_FIELDS)  # a member's eight figures, as a tuple
 
 
 def _floats(values: Sequence, i: int) -> list[float]:
@@ -159,7 +171,7 @@ def _slope_matrix(m: int, n: int) -> np.ndarray:
 def _sq_mag_u(c: np.ndarray) -> np.ndarray:
     """Polynomial in ``u`` equal to ``|c(jx)|²`` at ``u = x²`` (highest power first): one product."""
     k = c.shape[1]
-    return (c[:, :, None] * c[:, None, :]).reshape(c.shape[0], k * k) @ _sq_mag_matrix(k)
+    return _outer(c, c) @ _sq_mag_matrix(k)
 
 
 def _slope_u(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
@@ -167,7 +179,24 @@ def _slope_u(pu: np.ndarray, qu: np.ndarray) -> np.ndarray:
     m, n = pu.shape[1], qu.shape[1]
     if m + n < 3:
         return np.zeros((pu.shape[0], 1))
-    return (pu[:, :, None] * qu[:, None, :]).reshape(pu.shape[0], m * n) @ _slope_matrix(m, n)
+    return _outer(pu, qu) @ _slope_matrix(m, n)
+
+
+def _outer(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Each member's products of coefficients, ``(B, m·n)`` (C order), entry ``i·n + j`` of member
+    ``r`` being ``a[r, i]·b[r, j]``: the left operand of :func:`_sq_mag_u`'s and
+    :func:`_slope_u`'s products. Many members (:data:`~bandsmith.solver.rational.COLUMNS_FROM`)
+    are multiplied from copies stored by coefficient, written through a transposed view of the
+    result: each of the ``m·n`` products then runs over the members in one loop, where numpy
+    would run over each member's short row in turn (the same products either way)."""
+    rows, m, n = a.shape[0], a.shape[1], b.shape[1]
+    if rows < COLUMNS_FROM:
+        return (a[:, :, None] * b[:, None, :]).reshape(rows, m * n)
+    at = np.ascontiguousarray(a.T)
+    bt = at if b is a else np.ascontiguousarray(b.T)
+    out = np.empty((rows, m * n))
+    np.multiply(at[:, None, :], bt[None, :, :], out=out.reshape(rows, m, n).transpose(1, 2, 0))
+    return out
 
 
 def _root(poly: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
@@ -399,7 +428,7 @@ def biquad_figures(b1, a2, a1, a0, w_ref) -> tuple[Figures, np.ndarray]:
     return fig, stable & fig.valid
 
 
-def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = False) -> Figures:
+def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = False, phase_rows: Sequence[int] | None = None) -> Figures:
     """Figures of members known to lie near reference figures (a GBW ladder near the ideal op-amp).
 
     The peak and the half-power points are found by Newton's method near ``ref``'s (one member
@@ -416,7 +445,9 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
     there, which holds a band far wider or narrower than ``ref``'s. ``spread`` is one number for
     every member or one per member (a batch of several candidates' ladders, each with its own);
     each member's window factor ``(1 + spread)²`` is Python's float power of its own spread, as
-    for one number (the power rounds differently from a product now and then).
+    for one number (the power rounds differently from a product now and then). With
+    ``phase_rows`` only those members get their centre phase (the rest NaN: a caller that asks
+    only whether the others are within tolerance does not read it).
     """
     if np.ndim(spread):
         values, at = np.unique(np.asarray(spread, dtype=float), return_inverse=True)
@@ -424,10 +455,10 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
     else:
         k2 = (1.0 + spread) ** 2
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        return _measure_near(h, ref, k2, only_peak)
+        return _measure_near(h, ref, k2, only_peak, phase_rows)
 
 
-def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: bool) -> Figures:
+def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: bool, phase_rows=None) -> Figures:
     b = h.batch
     to_u = (2.0 * np.pi / h.w_ref) ** 2
     both_k2 = k2 if np.ndim(k2) == 0 else np.concatenate([k2, k2])  # the band edges' windows, low then high
@@ -438,25 +469,36 @@ def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: 
         ref = ref.item()  # one reference for every member (else one per member)
     u0 = ref.f0_hz**2 * to_u
     u_pk, ok = _newton(slope, u0, k2)
-    p0 = polyval_batch(pu, u_pk)
-    q0 = polyval_batch(qu, u_pk)
+    # P and Q stored by coefficient from here on (:func:`polyval_rows`, :func:`polyder_rows`:
+    # the same arithmetic as on the batch stored by member, in fewer, longer loops)
+    p_rows, q_rows = np.ascontiguousarray(pu.T), np.ascontiguousarray(qu.T)
+    p0 = polyval_rows(p_rows, u_pk)
+    q0 = polyval_rows(q_rows, u_pk)
     peak2 = p0 / q0
-    half = _poly_sub(pu, qu * (0.5 * peak2)[:, None])
+    # P − ½·peak²·Q (as _poly_sub forms it), twice over: both band edges' polynomials, the
+    # first half of Newton's rows
+    n = max(p_rows.shape[0], q_rows.shape[0])
+    rows = np.empty((n, 4 * b))  # (the derivatives' half written by _newton_rows)
+    half = rows[:, :b]
+    half[...] = 0.0
+    half[n - p_rows.shape[0] :] += p_rows
+    half[n - q_rows.shape[0] :] -= q_rows * (0.5 * peak2)
+    rows[:, b : 2 * b] = half
     # a Lorentzian in u with the peak's curvature, |H|² = peak/(1 + ((u − u_pk)/γ)²), puts
     # the edges γ from the peak: γ² = −2·P·Q/(P''Q − P·Q'') there (P'Q = PQ' at the peak)
-    p2 = polyval_batch(polyder_batch(polyder_batch(pu)), u_pk)
-    q2 = polyval_batch(polyder_batch(polyder_batch(qu)), u_pk)
+    p2 = polyval_rows(polyder_rows(polyder_rows(p_rows)), u_pk)
+    q2 = polyval_rows(polyder_rows(polyder_rows(q_rows)), u_pk)
     spread_u = 1.0 + np.sqrt(np.abs(2.0 * p0 * q0 / (p2 * q0 - p0 * q2))) / u_pk
     lorentz = np.concatenate([u_pk / spread_u, u_pk * spread_u])
     if only_peak:
-        both, ok2 = _newton(np.concatenate([half, half]), lorentz, both_k2, first=5)
+        both, ok2 = _newton_rows(rows, lorentz, both_k2, first=5)
     else:
         # the window is where the moved peak carries the reference's band edges; Newton's method
         # starts from the Lorentzian's edges where they lie in it (a member whose Q has moved far
         # from the reference's converges in fewer steps from them), else from the window's centre
         anchor = np.concatenate([ref.f_low_hz**2 * to_u, ref.f_high_hz**2 * to_u]) * np.concatenate([u_pk / u0] * 2)
         starts = np.where((lorentz >= anchor / both_k2) & (lorentz <= anchor * both_k2), lorentz, anchor)
-        both, ok2 = _newton(np.concatenate([half, half]), starts, both_k2, first=5, window=anchor)
+        both, ok2 = _newton_rows(rows, starts, both_k2, first=5, window=anchor)
     ok2 &= np.concatenate([both[:b] < u_pk, both[b:] > u_pk])
     if only_peak:
         ok &= _only_peak(pu, qu, slope, u_pk, peak2, both[:b], both[b:], ok & ok2[:b] & ok2[b:])
@@ -464,7 +506,7 @@ def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: 
     u_pk = np.where(ok, u_pk, nan)
     u_low = np.where(ok & ok2[:b], both[:b], nan)
     u_high = np.where(ok & ok2[b:], both[b:], nan)
-    return _figures(h, u_pk, u_low, u_high)
+    return _figures_quiet(h, u_pk, u_low, u_high, phase_rows)
 
 
 def _only_peak(pu, qu, slope, u_pk, peak2, u_low, u_high, live) -> np.ndarray:
@@ -619,17 +661,27 @@ def _newton(poly: np.ndarray, x0, k2: float | np.ndarray, *, first: int = 4, win
     a batch of their own with the tests at the same steps (:data:`_COMPACT_FROM`): each
     member's arithmetic is the same, element by element, so its result is too."""
     b, k = poly.shape
+    rows = np.empty((k, 2 * b))
+    rows[:, :b] = poly.T
+    return _newton_rows(rows, x0, k2, first=first, window=window, most=most)
+
+
+def _newton_rows(rows: np.ndarray, x0, k2: float | np.ndarray, *, first: int = 4, window: np.ndarray | None = None,
+                 most: int = _NEWTON_MOST) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`_newton` of polynomials stored by coefficient in the first half of ``rows``
+    ``(k, 2·B)`` (row ``i``: coefficient ``i`` of every member, highest power first; the second
+    half is a buffer, written here): the polynomials and their derivatives (a leading zero: the
+    same Horner steps) are stepped in one batch, each coefficient row contiguous."""
+    k, b = rows.shape[0], rows.shape[1] // 2
     x0 = np.asarray(x0, dtype=float)
     if x0.shape != (b,):
         x0 = np.broadcast_to(x0, (b,))
     centre = x0 if window is None else window
     lo, hi = centre / k2, centre * k2
-    # the polynomials and their derivatives (a leading zero: the same Horner steps) in one batch,
-    # stored by coefficient (row j: coefficient j of every member, contiguous)
-    rows = np.zeros((k, 2 * b))
-    rows[:, :b] = poly.T
+    rows[0, b:] = 0.0
     if k > 1:  # a constant's derivative is zero
-        rows[1:, b:] = polyder_batch(poly).T
+        polyder_rows(rows[:, :b], out=rows[1:, b:])
+    whole = rows
     rows = list(rows)  # the coefficient rows as arrays of their own (no view made per step)
     xx = np.empty(2 * b)  # the points of both halves: x, then a copy of it
     x = xx[:b]  # stepped in place
@@ -672,8 +724,10 @@ def _newton(poly: np.ndarray, x0, k2: float | np.ndarray, *, first: int = 4, win
                 rest = np.flatnonzero(live)
                 if 4 * rest.size <= b:  # the few still live stepped as a batch of their own
                     settled = ok.copy()  # (their last step taken below)
-                    x[rest], ok[rest] = _newton(poly[rest], x[rest], k2 if np.ndim(k2) == 0 else k2[rest], first=2,
-                                                window=centre[rest], most=most - n)
+                    few = np.empty((k, 2 * rest.size))
+                    few[:, : rest.size] = whole[:, rest]
+                    x[rest], ok[rest] = _newton_rows(few, x[rest], k2 if np.ndim(k2) == 0 else k2[rest], first=2,
+                                                     window=centre[rest], most=most - n)
                     np.subtract(x, newton_step(), out=x, where=settled)
                     return x, ok
     # one step more: the error after the test is ~1e-10 relative to the curvature's scale, which
@@ -687,7 +741,7 @@ def _real_positive_roots(c: np.ndarray) -> np.ndarray:
     b, k = c.shape
     if k < 2:
         return np.full((b, 0), np.nan)
-    scale = np.abs(c).max(axis=1, keepdims=True)
+    scale = largest_in_rows(c)
     # A member of lower degree than the batch (an ideal op-amp beside finite ones) has leading
     # zeros: shift it up and multiply by (u + 1), whose root −1 is never real positive.
     lead = None
@@ -815,39 +869,69 @@ def _by_grid(pu, qu, slope, grid):
 def _figures(h: Rational, u_pk, u_low, u_high) -> Figures:
     """Figures from the peak and half-power points (in ``u``)."""
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        p = 1j * np.sqrt(u_pk)
+        return _figures_quiet(h, u_pk, u_low, u_high)
+
+
+def _figures_quiet(h: Rational, u_pk, u_low, u_high, phase_rows=None) -> Figures:
+    """:func:`_figures` under the caller's floating-point error state (:func:`measure_near`'s
+    ignores what :func:`_figures` ignores: an error state entered and left costs some 2 µs).
+    ``H`` at the peak by Horner's rule on the coefficients made complex once, stored by
+    coefficient (numpy makes a real operand complex for every mixed operation: the same
+    numbers); ``phase_rows``: as :func:`measure_near` takes it."""
+    p = 1j * np.sqrt(u_pk)
+    if h.batch >= COLUMNS_FROM:
+        hc = polyval_rows(np.ascontiguousarray(h.num.T, dtype=complex), p) / polyval_rows(np.ascontiguousarray(h.den.T, dtype=complex), p)
+    else:
         hc = polyval_batch(h.num, p) / polyval_batch(h.den, p)
-    return figures_at(h.w_ref, u_pk, u_low, u_high, None, hc)
+    return _figures_at(h.w_ref, u_pk, u_low, u_high, None, hc, phase_rows)
 
 
 def figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc) -> Figures:
     """Figures from the peak and half-power points (in ``u``), ``H`` at the peak and, where it is
     known without cancellation, ``bw_x``, the bandwidth in ``ω/w_ref``."""
-    to_hz = w_ref / (2.0 * np.pi)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        x_pk = np.sqrt(u_pk)  # ω/w_ref at the peak
-        f0 = x_pk * to_hz
-        f_low = np.sqrt(u_low) * to_hz
-        f_high = np.sqrt(u_high) * to_hz
-        bw = f_high - f_low if bw_x is None else bw_x * to_hz
-        re, im = hc.real, hc.imag
-        phase = np.arctan2(im, re)
-        phase *= 180.0 / np.pi
-        phase[phase <= -180.0 + 1e-7] = 180.0
-        mag = np.hypot(re, im)
-        db = np.log10(mag)  # −inf at a zero gain: NaN below
-        db *= 20.0
-        db[mag == 0] = np.nan
-        return Figures(
-            f0_hz=f0,
-            q=f0 / bw,
-            bw_hz=bw,
-            f_low_hz=f_low,
-            f_high_hz=f_high,
-            gain_center=np.copysign(mag, re + 0.0),  # negative where |phase| > 90° (+ 0.0 clears a −0)
-            gain_center_db=db,
-            phase_center_deg=phase,
-        )
+        return _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc)
+
+
+def _figures_at(w_ref, u_pk, u_low, u_high, bw_x, hc, phase_rows=None) -> Figures:
+    """:func:`figures_at` under the caller's floating-point error state (invalid values, division
+    by zero and overflow ignored); with ``phase_rows``, the phase of those members only (NaN
+    elsewhere)."""
+    to_hz = w_ref / (2.0 * np.pi)
+    x_pk = np.sqrt(u_pk)  # ω/w_ref at the peak
+    f0 = x_pk * to_hz
+    f_low = np.sqrt(u_low) * to_hz
+    f_high = np.sqrt(u_high) * to_hz
+    bw = f_high - f_low if bw_x is None else bw_x * to_hz
+    re, im = hc.real, hc.imag
+    if phase_rows is None:
+        phase = _degrees(im, re)
+    else:
+        phase = np.full(hc.shape, np.nan)
+        if len(phase_rows):
+            phase[phase_rows] = _degrees(im[phase_rows], re[phase_rows])
+    mag = np.hypot(re, im)
+    db = np.log10(mag)  # −inf at a zero gain: NaN below
+    db *= 20.0
+    db[mag == 0] = np.nan
+    return Figures(
+        f0_hz=f0,
+        q=f0 / bw,
+        bw_hz=bw,
+        f_low_hz=f_low,
+        f_high_hz=f_high,
+        gain_center=np.copysign(mag, re + 0.0),  # negative where |phase| > 90° (+ 0.0 clears a −0)
+        gain_center_db=db,
+        phase_center_deg=phase,
+    )
+
+
+def _degrees(im: np.ndarray, re: np.ndarray) -> np.ndarray:
+    """The angle of ``re + j·im`` in degrees, in (−180, 180] (−180 itself, to 1e-7, as 180)."""
+    phase = np.arctan2(im, re)
+    phase *= 180.0 / np.pi
+    phase[phase <= -180.0 + 1e-7] = 180.0
+    return phase
 
 
 def _poly_sub(a: np.ndarray, b: np.ndarray) -> np.ndarray:

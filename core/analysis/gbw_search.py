@@ -18,7 +18,7 @@ from bandsmith.analysis.transfer import nominal_system, transfer_function
 from bandsmith.common.grids import geometric
 from bandsmith.common.limits import DEFAULT_A0
 from bandsmith.solver.netlist import Netlist
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, family_weights, rational_and_family, weighted_together
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, family_sums, family_weights, largest_in_rows, rational_and_family
 
 __all__ = ["required_gbw", "search_gbw_many", "with_gbw"]
 
@@ -50,10 +50,11 @@ def _spread(tolerances: Tolerances) -> float:
     return 2.0 * (tolerances.f0 + tolerances.q) + 0.02
 
 
-def _near_figures(h: Rational, ideal: Figures, tolerances: Tolerances) -> Figures:
+def _near_figures(h: Rational, ideal: Figures, tolerances: Tolerances, phase_rows: Sequence[int] = ()) -> Figures:
     """Figures sought near the ideal ones (:func:`bandsmith.analysis.figures.measure_near`),
-    within :func:`_spread` of them."""
-    return measure_near(h, ideal, spread=_spread(tolerances))
+    within :func:`_spread` of them; the centre phase of ``phase_rows`` only (the search holds
+    the ladders' members to the tolerances, which do not read it: a probe's is kept)."""
+    return measure_near(h, ideal, spread=_spread(tolerances), phase_rows=phase_rows)
 
 
 def search_gbw_many(
@@ -87,17 +88,23 @@ def search_gbw_many(
             live.append((i, _ladder(ref.f0_hz), ref, _first_measured(ref)))
     if not live:
         return out
+    live.sort(key=lambda entry: _batch_key(items[entry[0]][2]))  # (stable: in order within a kind)
     h, fig, ok, starts = _measured(items, live, each, a0, probes=True)
     ok_list = ok.tolist()
-    settled, again, probes = [], [], {}
+    settled, again, probe_rows = [], [], {}
     for (i, ladder, ref, first), start in zip(live, starts):
         size = ladder.size - first
         if items[i][4] is not None:  # the probe, after the ladder's members
-            probes[i] = (h.item(start + size), fig.take(slice(start + size, start + size + 1)))
+            probe_rows[i] = start + size
         if _settled(ok_list[start : start + size], first):
             settled.append((i, (items[i], ref, ladder, start, first, each[i])))
         else:
             again.append((i, ladder, ref, 0))
+    rows = list(probe_rows.values())
+    if len(rows) > 1:  # (gathered at once)
+        probes = dict(zip(probe_rows, zip(h.items(rows), fig.members(rows))))
+    else:
+        probes = {i: (h.item(r), fig.take(slice(r, r + 1))) for i, r in probe_rows.items()}
     found = dict(zip([i for i, _ in settled], _conclude_many([case for _, case in settled], fig, ok, a0=a0)))
     if again:  # the whole ladders of those the first round left open
         _, fig, ok, starts = _measured(items, again, each, a0, probes=False)
@@ -147,38 +154,72 @@ def _measured(items, live, each, a0: float, *, probes: bool) -> tuple[Rational, 
     for i, ladder, _, first in live:
         rungs = ladder[first:] if first else ladder
         probe = items[i][4] if probes else None
-        gbws.append(rungs if probe is None else np.append(rungs, probe))
+        gbws.append(rungs if probe is None else np.concatenate((rungs, [probe])))
     h = _ladders([items[i][:4] for i, _, _, _ in live], gbws, a0)
     sizes = [g.size for g in gbws]
     # one member's figures for all, or each candidate's (as scalars) repeated over its members
     ref = items[live[0][0]][1] if len(live) == 1 else Figures.repeated([one for _, _, one, _ in live], sizes)
     tols = [each[i] for i, _, _, _ in live]
+    starts = list(itertools.accumulate(sizes[:-1], initial=0))
+    phase_rows = [start + size - 1 for (i, _, _, _), start, size in zip(live, starts, sizes) if probes and items[i][4] is not None]
     if all(t == tols[0] for t in tols):  # one for all
-        fig = _near_figures(h, ref, tols[0])
+        fig = _near_figures(h, ref, tols[0], phase_rows)
         ok = within_tolerances(fig, ref, tols[0])  # every member against its own candidate's figures
     else:  # each member sought near, and held to, its own candidate's
-        fig = measure_near(h, ref, spread=np.repeat([_spread(t) for t in tols], sizes))
+        fig = measure_near(h, ref, spread=np.repeat([_spread(t) for t in tols], sizes), phase_rows=phase_rows)
         ok = within_tolerances(fig, ref, tols, sizes)
-    return h, fig, ok, list(itertools.accumulate(sizes[:-1], initial=0))
+    return h, fig, ok, starts
+
+
+def _batch_key(family: OpAmpFamily | AmpFamily | None) -> tuple:
+    """Where a candidate's ladder goes in a batch (:func:`search_gbw_many` orders its candidates
+    by it; a member's figures are the same in any batch): the one-op-amp families first, then the
+    several-op-amp ones by their terms' sizes (so that those whose shifted terms have one shape
+    lie together: :func:`_ladders` weighs them as one stack), the rest last."""
+    if isinstance(family, OpAmpFamily):
+        return (0,)
+    if isinstance(family, AmpFamily):
+        return (1, _terms_shape(family))
+    return (2,)
+
+
+def _terms_shape(family: AmpFamily) -> tuple:
+    """The sizes of a several-op-amp family's terms (which set its shifted terms' shapes)."""
+    return tuple(t.size for t in family.num_terms), tuple(t.size for t in family.den_terms)
 
 
 def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
     """:func:`with_gbw` of several candidates ``(netlist, ideal figures, family, w_ref)`` at their
     GBW ladders (Hz), joined into one batch (:meth:`Rational.joined`'s: each polynomial padded
-    with leading zeros to the longest); the members of one-op-amp families made together, and the
-    op-amp weights (:func:`~bandsmith.solver.rational.family_weights`) of several-op-amp families
-    with the same number of op-amps.
+    with leading zeros to the longest): the members of one-op-amp families made together, the
+    op-amp weights (:func:`~bandsmith.solver.rational.family_weights`) of every several-op-amp
+    family in one call, and those families' sums by runs of one shape
+    (:func:`~bandsmith.solver.rational.family_sums`; :func:`_batch_key` orders candidates so).
 
     An :class:`OpAmpFamily` member is ``D = D0 − α·M − β·M·p`` (``α = 1/A0``, ``β = w_ref/ωt``)
     over the numerator ``N``, both scaled by ``D``'s largest coefficient: the same operations on
     every family's rows, so the families' ``D0``, ``M``, ``M·p`` and ``N``, each padded with
     leading zeros to the longest, are repeated over their ladders and taken in one batch (a
-    padded zero stays zero, and leaves each member's largest coefficient as it is)."""
-    blocks: list = [None] * len(items)
+    padded zero stays zero, and leaves each member's largest coefficient as it is).
+
+    The weights' pairs ``(j, i)`` come in the order of ``j``, so the weights of a family of
+    ``m`` op-amps are the first columns of those of the most op-amps (the same products). Every
+    family's rows are written unscaled into the joined batch and scaled there in one pass: each
+    row over its denominator's largest coefficient in size (the padding's zeros leave it as it
+    is), a several-op-amp row whose denominator is zero throughout over 1 (as
+    :meth:`AmpFamily.weighted` scales it), a one-op-amp row over its zero (as
+    :meth:`OpAmpFamily.at` does). Candidates without a family are solved as they are
+    (:func:`with_gbw`) and written in after."""
+    if len(items) == 1:  # (one candidate: its own, nothing to join)
+        netlist, _, family, w_ref = items[0]
+        return with_gbw(netlist, family, w_ref, gbws[0], a0)
+    sizes = [g.size for g in gbws]
+    starts = list(itertools.accumulate(sizes, initial=0))
+    blocks = []  # (first row, numerators, denominators): a family's members, not yet scaled
     singles = [k for k, it in enumerate(items) if isinstance(it[2], OpAmpFamily)]
-    if len(singles) > 1:
+    if singles:
         fams = [items[k][2] for k in singles]
-        counts = [gbws[k].size for k in singles]
+        counts = [sizes[k] for k in singles]
         n = max(f.width for f in fams)
         width = max(f.num.size for f in fams)
         d0, m, mp, num = (np.zeros((len(fams), w)) for w in (n, n, n, width))
@@ -186,41 +227,50 @@ def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
             f.rows_into(d0[r], m[r], mp[r])
             num[r, width - f.num.size :] = f.num
         alpha = 1.0 / np.asarray(a0, dtype=float)
-        w_ref = np.repeat([f.w_ref for f in fams], counts)
-        beta = w_ref / (2.0 * np.pi * np.concatenate([gbws[k] for k in singles]))
+        beta = np.repeat([f.w_ref for f in fams], counts) / (2.0 * np.pi * np.concatenate([gbws[k] for k in singles]))
         den = np.repeat(d0, counts, axis=0) - alpha * np.repeat(m, counts, axis=0) - beta[:, None] * np.repeat(mp, counts, axis=0)
-        scale = np.abs(den).max(axis=1, keepdims=True)
-        made = Rational(np.repeat(num, counts, axis=0) / scale, den / scale, w_ref)
-        start = 0
-        for k, c in zip(singles, counts):
-            blocks[k] = made.take(slice(start, start + c))
-            start += c
-    by_m: dict[int, list[int]] = {}
-    for k, it in enumerate(items):
-        if isinstance(it[2], AmpFamily):
-            by_m.setdefault(len(it[2].den_terms) - 1, []).append(k)
-    for m, ks in by_m.items():
-        if len(ks) < 2:
-            continue
+        num = np.repeat(num, counts, axis=0)
+        if singles[-1] - singles[0] == len(singles) - 1:  # their rows one run (as _batch_key orders them)
+            blocks.append((starts[singles[0]], num, den))
+        else:
+            for k, row in zip(singles, itertools.accumulate(counts[:-1], initial=0)):
+                blocks.append((starts[k], num[row : row + sizes[k]], den[row : row + sizes[k]]))
+    amps = [k for k, it in enumerate(items) if isinstance(it[2], AmpFamily)]
+    if amps:
         alpha = (1.0 / np.asarray(a0, dtype=float)).reshape(1)
-        beta = np.concatenate([items[k][2].w_ref / (2.0 * np.pi * gbws[k]) for k in ks])
-        weights = family_weights(alpha, beta, m)
-        starts = dict(zip(ks, itertools.accumulate([gbws[k].size for k in ks[:-1]], initial=0)))
-        # the families of one shape with ladders as long (a chain's stages on one circuit) weighted as one stack
-        shapes: dict[tuple, list[int]] = {}
-        for k in ks:
-            shapes.setdefault((tuple(t.shape for t in items[k][2].shifted_terms()), gbws[k].size), []).append(k)
-        for (_, size), group in shapes.items():
-            if len(group) > 1:
-                stack = np.stack([weights[starts[k] : starts[k] + size] for k in group])
-                for k, block in zip(group, weighted_together([items[k][2] for k in group], stack)):
-                    blocks[k] = block
-            else:
-                blocks[group[0]] = items[group[0]][2].weighted(weights[starts[group[0]] : starts[group[0]] + size])
-    for k, (netlist, _, family, w_ref) in enumerate(items):
-        if blocks[k] is None:
-            blocks[k] = with_gbw(netlist, family, w_ref, gbws[k], a0)
-    return blocks[0] if len(blocks) == 1 else Rational.joined(blocks)
+        beta = np.concatenate([items[k][2].w_ref / (2.0 * np.pi * gbws[k]) for k in amps])
+        weights = family_weights(alpha, beta, max(len(items[k][2].den_terms) for k in amps) - 1)
+        rows = dict(zip(amps, itertools.accumulate([sizes[k] for k in amps[:-1]], initial=0)))
+        for _, run in itertools.groupby(amps, key=lambda k: _terms_shape(items[k][2])):
+            run = list(run)
+            fams = [items[k][2] for k in run]
+            pairs = len(fams[0].den_terms) * (len(fams[0].den_terms) + 1) // 2  # (j, i) for 0 ≤ i ≤ j ≤ m
+            sums = family_sums(fams, [weights[rows[k] : rows[k] + sizes[k], :pairs] for k in run])
+            blocks.extend((starts[k], num, den) for k, (num, den) in zip(run, sums))
+    alone = [(starts[k], with_gbw(netlist, family, w_ref, gbws[k], a0))
+             for k, (netlist, _, family, w_ref) in enumerate(items) if not isinstance(family, (OpAmpFamily, AmpFamily))]
+    if not blocks:
+        return alone[0][1] if len(alone) == 1 else Rational.joined([h for _, h in alone])
+    parts = [(start, num, den) for start, num, den in blocks] + [(start, h.num, h.den) for start, h in alone]
+    num = np.zeros((starts[-1], max(p[1].shape[1] for p in parts)))
+    den = np.zeros((starts[-1], max(p[2].shape[1] for p in parts)))
+    for start, n_rows, d_rows in blocks:
+        num[start : start + n_rows.shape[0], num.shape[1] - n_rows.shape[1] :] = n_rows
+        den[start : start + d_rows.shape[0], den.shape[1] - d_rows.shape[1] :] = d_rows
+    scale = largest_in_rows(den)
+    zero = scale == 0
+    if zero.any():
+        for k in singles:  # (a one-op-amp row divides by its zero)
+            zero[starts[k] : starts[k + 1]] = False
+        scale[zero] = 1.0
+    num /= scale
+    den /= scale
+    w_ref = np.repeat([it[2].w_ref if isinstance(it[2], (OpAmpFamily, AmpFamily)) else 0.0 for it in items], sizes)
+    for start, h in alone:  # already scaled (their rows are zeros here)
+        num[start : start + h.batch, num.shape[1] - h.num.shape[1] :] = h.num
+        den[start : start + h.batch, den.shape[1] - h.den.shape[1] :] = h.den
+        w_ref[start : start + h.batch] = h.w_ref
+    return Rational(num, den, w_ref)
 
 
 # Lagrange basis of the ladder points j−1, j, j+1, j+2 (uniform in log GBW) at sub-steps
@@ -249,42 +299,81 @@ def _crossings(fig: Figures, cases: Sequence[tuple[Figures, np.ndarray, int, int
     it. None where the four points are not all measured (a point too far off) or the
     interpolation disagrees with the measured pass and fail at ``j`` and ``j + 1``: the caller
     then measures a fine ladder. A case's ladder is members ``start …`` of ``fig`` (the batch the
-    ladders of several candidates are measured in, not taken apart); the errors at its four
-    points are plain numbers, and every case's cubics are evaluated in one batch, the basis' four
-    terms added in order (the same numbers for a case whatever the batch)."""
+    ladders of several candidates are measured in, not taken apart).
+
+    The errors over the tolerances at the cases' four points come as arrays for many cases
+    (:func:`_errors_at_once`), in plain numbers for one or two (:func:`_case_errors`): the same
+    numbers; the cubics of the cases kept are evaluated in one batch, the basis' four terms added
+    in order (the same numbers for a case whatever the batch)."""
     out: list[float | None] = [None] * len(cases)
-    f0s, qs, dbs, gains = (np.asarray(v) for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
-    inner, errs = [], []
-    for n, (ref, ladder, start, j, tol) in enumerate(cases):
-        if j < 1 or j + 2 >= ladder.size:
-            continue
-        sl = slice(start + j - 1, start + j + 3)
-        # errors over tolerances at the four points, as plain numbers (a handful of them)
-        err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0s[sl].tolist()], [(v / ref.q - 1.0) / tol.q for v in qs[sl].tolist()],
-               [(v - ref.gain_center_db) / tol.gain_db for v in dbs[sl].tolist()]]
-        if not all(math.isfinite(e) for row in err for e in row):
-            continue
-        sign = math.copysign(1.0, ref.gain_center)
-        if not all(math.copysign(1.0, g) == sign for g in gains[sl].tolist()):
-            continue
-        # the cubic is the failing point's error at the step's start and the passing point's at
-        # its end (the basis is exactly 0 or 1 there): the interpolation must agree with both
-        if not (max(abs(row[1]) for row in err) > 1.0 and max(abs(row[2]) for row in err) <= 1.0):
-            continue
-        inner.append(n)
-        errs.append(err)
+    inner = [n for n, (_, ladder, _, j, _) in enumerate(cases) if 1 <= j and j + 2 < ladder.size]
     if not inner:
+        return out
+    if len(inner) <= _ONE_BY_ONE:
+        err, kept = _case_errors(fig, [cases[n] for n in inner])
+    else:
+        err, kept = _errors_at_once(fig, [cases[n] for n in inner])
+    if not kept:
         return out
     # (C, 3, T): each figure's cubic over the sub-steps, the basis' four terms added in order
     # (einsum's own loop, the same numbers as the terms added one by one: tested)
-    e = np.abs(np.einsum("cfj,jt->cft", np.array(errs), _BASIS_ROWS, optimize=False))
-    worst = np.maximum(np.maximum(e[:, 0], e[:, 1]), e[:, 2])  # (C, T): the worst of the three
+    e = np.abs(np.einsum("cfj,jt->cft", err, _BASIS_ROWS, optimize=False))
+    worst = e.max(axis=1)  # (C, T): the worst of the three
     last = (_SUB.size - np.argmax(worst[:, ::-1] > 1.0, axis=1)).tolist()  # the sub-step after the last one over
-    for n, k in zip(inner, last):
+    for c, k in zip(kept, last):
+        n = inner[c]
         ladder, j = cases[n][1], cases[n][3]
         step = math.log(ladder[j + 1] / ladder[j])
         out[n] = float(ladder[j] * math.exp(_SUB[k] * step) * (1.0 + _CROSSING_MARGIN))
     return out
+
+
+_FOUR = np.arange(4)  # a case's four ladder points j − 1 … j + 2, from j − 1
+# Up to this many cases (a candidate searched alone) their errors are worked in plain numbers.
+_ONE_BY_ONE = 2
+
+
+def _errors_at_once(fig: Figures, cases) -> tuple[np.ndarray, list[int]]:
+    """:func:`_crossings`' errors over tolerances at each case's four points, ``(kept cases, 3,
+    4)``, and the indices of the cases kept (all four points measured and of the ideal's sign,
+    over one at the failing point and within one at the passing point), every case at once:
+    the four points' figures gathered from ``fig`` and the errors worked as arrays (the IEEE
+    operations of each error worked alone)."""
+    rows = np.array([start + j - 1 for _, _, start, j, _ in cases])[:, None] + _FOUR  # (C, 4): each case's points
+    # per case: its ideal f0, Q, gain in dB and gain, and its tolerances on the first three, (C, 7)
+    refs = np.array([(r.f0_hz, r.q, r.gain_center_db, r.gain_center, t.f0, t.q, t.gain_db) for r, _, _, _, t in cases])
+    f0s, qs, dbs, gains = (np.asarray(v)[rows] for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
+    err = np.stack([(f0s / refs[:, 0:1] - 1.0) / refs[:, 4:5], (qs / refs[:, 1:2] - 1.0) / refs[:, 5:6],
+                    (dbs - refs[:, 2:3]) / refs[:, 6:7]], axis=1)  # (C, 3, 4)
+    size = np.abs(err)
+    with np.errstate(invalid="ignore"):
+        # the cubic is the failing point's error at the step's start and the passing point's at
+        # its end (the basis is exactly 0 or 1 there): the interpolation must agree with both
+        good = np.isfinite(err).all(axis=(1, 2)) & (size[:, :, 1].max(axis=1) > 1.0) & (size[:, :, 2].max(axis=1) <= 1.0)
+    good &= (np.copysign(1.0, gains) == np.copysign(1.0, refs[:, 3:4])).all(axis=1)
+    kept = np.flatnonzero(good).tolist()
+    return err[kept], kept
+
+
+def _case_errors(fig: Figures, cases) -> tuple[np.ndarray, list[int]]:
+    """:func:`_errors_at_once` case by case in plain numbers (the same IEEE operations; a few
+    cases cost fewer array calls so)."""
+    f0s, qs, dbs, gains = (np.asarray(v) for v in (fig.f0_hz, fig.q, fig.gain_center_db, fig.gain_center))
+    errs, kept = [], []
+    for c, (ref, _, start, j, tol) in enumerate(cases):
+        sl = slice(start + j - 1, start + j + 3)
+        err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0s[sl].tolist()], [(v / ref.q - 1.0) / tol.q for v in qs[sl].tolist()],
+               [(v - ref.gain_center_db) / tol.gain_db for v in dbs[sl].tolist()]]
+        if not math.isfinite(sum(map(sum, err))) and not all(math.isfinite(e) for row in err for e in row):
+            continue
+        sign = math.copysign(1.0, ref.gain_center)
+        if not all(math.copysign(1.0, g) == sign for g in gains[sl].tolist()):
+            continue
+        if not (max(abs(row[1]) for row in err) > 1.0 and max(abs(row[2]) for row in err) <= 1.0):
+            continue
+        errs.append(err)
+        kept.append(c)
+    return np.array(errs).reshape(len(kept), 3, 4), kept
 
 
 def _conclude_many(

@@ -40,7 +40,12 @@ def tolerances_each(tolerances: Tolerances | Sequence[Tolerances], n: int) -> li
 def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances | Sequence[Tolerances], counts: Sequence[int] | None = None) -> np.ndarray:
     """True where ``fig`` is within ``tol`` of the reference figures (scalars in ``ref``, or one
     per member of ``fig``). With a tolerance per candidate, ``counts`` gives each one's number of
-    members (in order): each member is held to its own candidate's tolerances."""
+    members (in order): each member is held to its own candidate's tolerances.
+
+    A member whose f0, Q or centre gain is not a number or infinite (figures not defined,
+    :attr:`Figures.valid`) fails that figure's own test, its tolerance being finite
+    (:class:`Tolerances` checks it): ``|NaN| ≤ t`` and ``∞ ≤ t`` are false, so no test of
+    :attr:`Figures.valid` is needed beside them."""
     if isinstance(tol, Tolerances):
         f0, q, gain_db = tol.f0, tol.q, tol.gain_db
     else:
@@ -50,4 +55,4 @@ def within_tolerances(fig: Figures, ref: Figures, tol: Tolerances | Sequence[Tol
         ok &= np.abs(fig.q / ref.q - 1.0) <= q
         ok &= np.abs(fig.gain_center_db - ref.gain_center_db) <= gain_db
         ok &= np.sign(fig.gain_center) == np.sign(ref.gain_center)
-    return ok & fig.valid
+    return ok

@@ -22,7 +22,7 @@ import numpy as np
 from bandsmith.solver.mna import MnaSystem, build_system
 from bandsmith.solver.polyroots import companion_roots
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "pad_rows", "family_weights"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "polyder_rows", "polyval_rows", "pad_rows", "family_weights", "family_sums", "shifted_stack", "largest_in_rows"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -48,6 +48,42 @@ def polyval_batch(c: np.ndarray, x: np.ndarray) -> np.ndarray:
     return y
 
 
+# From this many rows on, a batch's short rows are worked down the columns of a transposed copy
+# (largest_in_rows; figures' outer products of coefficients): below it numpy's own loop over the
+# rows costs no more than the copy.
+COLUMNS_FROM = 64
+
+
+def largest_in_rows(c: np.ndarray) -> np.ndarray:
+    """Each row's largest magnitude, ``max |c|`` along the last axis, kept as an axis of one
+    (``c.shape[:-1] + (1,)``): the numbers of ``np.abs(c).max(axis=-1, keepdims=True)`` (a
+    maximum rounds nothing, and a NaN is carried either way). Where there are many rows
+    (:data:`COLUMNS_FROM`) they are reduced down the columns of a transposed copy: numpy sets up
+    its reduction loop for every short row (some 40 ns a row, 15 µs for a GBW ladder batch of
+    some 370 members), a column of every row's entries as one loop (under 3 µs with the copy)."""
+    mag = np.abs(c)
+    rows = mag.size // mag.shape[-1] if mag.shape[-1] else 0
+    if rows < COLUMNS_FROM:
+        return mag.max(axis=-1, keepdims=True)
+    across = np.ascontiguousarray(mag.reshape(rows, mag.shape[-1]).T).max(axis=0)
+    return across.reshape(c.shape[:-1] + (1,))
+
+
+def polyval_rows(rows: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """:func:`polyval_batch` of polynomials stored by coefficient, ``rows`` ``(k, B)`` (row ``i``:
+    coefficient ``i`` of every member, highest power first), at ``x`` ``(B,)``: the same Horner
+    steps on the same numbers, each coefficient read as one contiguous row."""
+    k = rows.shape[0]
+    if k == 1:
+        return rows[0] + np.zeros_like(x)
+    y = rows[0] * x
+    for i in range(1, k - 1):
+        y += rows[i]
+        y *= x
+    y += rows[k - 1]
+    return y
+
+
 def pad_rows(blocks: Sequence[np.ndarray]) -> np.ndarray:
     """Batches of polynomials (highest power first) stacked into one, each padded with leading
     zeros to the longest (Horner's rule then gives every member the value it had alone)."""
@@ -67,10 +103,27 @@ def polyder_batch(c: np.ndarray) -> np.ndarray:
     return c[:, :-1] * _powers_down(k - 1)
 
 
+def polyder_rows(rows: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
+    """:func:`polyder_batch` of polynomials stored by coefficient, ``rows`` ``(k, B)`` (row ``i``:
+    coefficient ``i`` of every member, highest power first): ``(k − 1, B)`` (``(1, B)`` of zeros
+    for a constant), the same products, each row scaled by its power as one loop over the members
+    (a batch stored by member, ``(B, k)``, takes numpy's loop over its short rows one member at a
+    time). ``out``: where to write it."""
+    k = rows.shape[0]
+    if k == 1:
+        if out is None:
+            return np.zeros_like(rows)
+        out[...] = 0.0
+        return out
+    return np.multiply(rows[:-1], _powers_down(k - 1)[:, None], out=out)
+
+
 @functools.lru_cache(maxsize=None)
 def _powers_down(n: int) -> np.ndarray:
-    """``n, n − 1, …, 1`` (integers, read-only): the factors of a derivative of ``n + 1`` coefficients."""
-    powers = np.arange(n, 0, -1)
+    """``n, n − 1, …, 1`` (as floats, read-only): the factors of a derivative of ``n + 1``
+    coefficients (whole numbers, exact as floats: the products are those with the integers,
+    without numpy's casting of them)."""
+    powers = np.arange(n, 0, -1, dtype=float)
     powers.setflags(write=False)
     return powers
 
@@ -182,6 +235,18 @@ class Rational:
     def item(self, i: int = 0) -> "Rational":
         """The ``i``-th member of the batch, as a batch of one (leading zero coefficients dropped)."""
         return Rational(_lead_trim(self.num[i : i + 1]), _lead_trim(self.den[i : i + 1]), self.w_ref[i : i + 1])
+
+    def items(self, rows: Sequence[int]) -> list["Rational"]:
+        """:meth:`item` of each of ``rows`` (the same members, each its own batch of one), their
+        rows gathered at once and each one's leading zeros found in one pass: the first column
+        that is not zero (a NaN is not), the last where all are (what :meth:`item` keeps)."""
+        index = np.asarray(rows, dtype=np.intp)
+        num, den, w_ref = self.num[index], self.den[index], self.w_ref[index]
+        firsts = []
+        for c in (num, den):
+            nonzero = c != 0
+            firsts.append(np.where(nonzero.any(axis=1), nonzero.argmax(axis=1), c.shape[1] - 1).tolist())
+        return [Rational(num[p : p + 1, a:], den[p : p + 1, b:], w_ref[p : p + 1]) for p, (a, b) in enumerate(zip(*firsts))]
 
     def take(self, index) -> "Rational":
         """A sub-batch (a slice or index array)."""
@@ -395,7 +460,7 @@ class OpAmpFamily:
         d0, m, mp = np.zeros((3, self.width))  # mp: M(p)·p
         self.rows_into(d0, m, mp)
         den = d0[None, :] - alpha * m[None, :] - beta[:, None] * mp[None, :]
-        scale = np.abs(den).max(axis=1, keepdims=True)
+        scale = largest_in_rows(den)
         return Rational(self.num[None, :] / scale, den / scale, np.full(gbw.size, self.w_ref))
 
 
@@ -786,7 +851,7 @@ def _by_largest(num: np.ndarray, den: np.ndarray) -> tuple[np.ndarray, np.ndarra
     """Each member (along the last axis) over its denominator's largest coefficient in size, 1
     where that is zero: the scaling of a family's weighted sums (:meth:`AmpFamily.weighted`, one
     family or a stack of them)."""
-    scale = np.abs(den).max(axis=-1, keepdims=True)
+    scale = largest_in_rows(den)
     scale[scale == 0] = 1.0
     return num / scale, den / scale
 
@@ -801,20 +866,74 @@ def _leads_with(c: np.ndarray, zero: int) -> bool:
 def weighted_together(families: Sequence[AmpFamily], weights: np.ndarray) -> list[Rational]:
     """:meth:`AmpFamily.weighted` of several families whose shifted terms have one shape (one
     circuit's families: a chain's stages on it), with as many rows of weights each, ``weights``
-    ``(G, B, pairs)``: the products as one stack (numpy's matmul takes a stack one product per
-    family, so each family gets the numbers it has alone; tested), and where every family has as
-    many leading zero columns, and the column after them is not zero in any, the trim and the
-    scaling over the whole stack (a maximum and a division round each number as alone)."""
-    num_s, den_s = (np.stack(t) for t in zip(*[f.shifted_terms() for f in families]))
-    num = weights @ num_s
-    den = weights @ den_s
+    ``(G, B, pairs)``: :func:`family_sums` of them, each family's sums over its denominator's
+    largest coefficient (:func:`_by_largest`)."""
+    out = []
+    for f, (num, den) in zip(families, family_sums(families, list(weights))):
+        num, den = _by_largest(num, den)
+        out.append(Rational(num, den, np.full(num.shape[0], f.w_ref)))
+    return out
+
+
+def family_sums(families: Sequence[AmpFamily], weights: Sequence[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
+    """The weighted sums of several families whose terms have one set of sizes (their shifted
+    terms one shape: one circuit's families, a compare's two circuits of one structure or a
+    chain's stages on one circuit), each with its rows of :func:`family_weights` (``(B_g, pairs)``,
+    ``B_g`` at least two): per family its numerators and denominators, ``(B_g, length)``, the
+    leading columns that are zero in every row dropped (:func:`_lead_trim`), not yet scaled
+    (:meth:`AmpFamily.weighted` before its scaling, number for number).
+
+    One family alone is two products. Several are two stacked products over
+    :func:`shifted_stack` (numpy's matmul takes a stack one product per family, so each family
+    gets the numbers it has alone; tested), their weights padded with rows of zeros to the
+    longest (a product's row does not depend on how many rows it has beside it, from two on;
+    tested); where every family has as many leading zero columns, and the column after them is
+    not zero in any, the trim is one view of the stack."""
+    if len(families) == 1:
+        f, w = families[0], weights[0]
+        num_s, den_s = f.shifted_terms()
+        return [(_lead_trim(w @ num_s, f._zero_lead[0]), _lead_trim(w @ den_s, f._zero_lead[1]))]
+    rows = [w.shape[0] for w in weights]
+    if len(set(rows)) == 1:
+        stack = np.stack(weights)
+    else:
+        stack = np.zeros((len(weights), max(rows), weights[0].shape[1]))
+        for g, w in enumerate(weights):
+            stack[g, : w.shape[0]] = w
+    num_s, den_s = shifted_stack(families)
+    num = stack @ num_s
+    den = stack @ den_s
     zeros = {f._zero_lead for f in families}
     if len(zeros) == 1:
         zn, zd = zeros.pop()
         if _leads_with(num, zn) and _leads_with(den, zd):  # every family trimmed as _lead_trim trims it alone
-            num, den = _by_largest(num[:, :, zn:], den[:, :, zd:])
-            return [Rational(num[g], den[g], np.full(weights.shape[1], f.w_ref)) for g, f in enumerate(families)]
-    return [f._trimmed(num[g], den[g]) for g, f in enumerate(families)]  # (leading zeros that differ: each alone)
+            return [(num[g, :b, zn:], den[g, :b, zd:]) for g, b in enumerate(rows)]
+    # (leading zeros that differ: each alone)
+    return [(_lead_trim(num[g, :b], f._zero_lead[0]), _lead_trim(den[g, :b], f._zero_lead[1])) for g, (f, b) in enumerate(zip(families, rows))]
+
+
+def shifted_stack(families: Sequence[AmpFamily]) -> tuple[np.ndarray, np.ndarray]:
+    """:meth:`AmpFamily.shifted_terms` of several families whose terms have one set of sizes, as
+    two stacks ``(G, pairs, length)`` (numerators', denominators'): each one gather from every
+    family's terms joined (:func:`_family_shifted`'s, over the stack: :func:`_shifted_index`'s
+    positions, family ``g``'s moved on by ``g`` times the terms' joined size). A family whose
+    shifted terms are not made yet keeps its own (views of the stacks) and its leading zero
+    columns, counted as :func:`_family_shifted` counts them."""
+    m = len(families[0].den_terms) - 1
+    stacks, zeros = [], []
+    for which in ("num_terms", "den_terms"):
+        sizes = tuple(t.size for t in getattr(families[0], which))
+        gather, length, firsts = _shifted_index(sizes, m, len(families))
+        values = np.concatenate([t for f in families for t in getattr(f, which)] + [_ONE_ZERO])
+        stacks.append(values[gather])
+        flat = values.tolist()
+        per = sum(sizes)
+        zeros.append([_zero_columns(flat, g * per, sizes, firsts, length) for g in range(len(families))])
+    for g, f in enumerate(families):
+        if f._shifted is None:
+            object.__setattr__(f, "_shifted", (stacks[0][g], stacks[1][g]))
+            object.__setattr__(f, "_zero_lead", (zeros[0][g], zeros[1][g]))
+    return stacks[0], stacks[1]
 
 
 @functools.lru_cache(maxsize=16)
@@ -857,30 +976,60 @@ def family_weights(alpha: np.ndarray, beta: np.ndarray, m: int) -> np.ndarray:
 
 def _family_shifted(terms: tuple[np.ndarray, ...], m: int) -> tuple[np.ndarray, int]:
     """The shifted terms ``T_j·p^i`` of every pair of :func:`_family_pairs`, ``(pairs, length)``,
-    and the number of leading columns that are zero in every row (what :func:`_lead_trim` drops),
-    counted from the terms' own leading zeros: each term written at its place in one step."""
+    and the number of leading columns that are zero in every row (what :func:`_lead_trim` drops,
+    :func:`_zero_columns`).
+
+    The terms' coefficients are joined once, a zero after them, and the matrix is one gather
+    from that (:func:`_shifted_index`: each entry's coefficient, or the zero): the same values
+    as each term written into a zero row."""
     sizes = tuple(t.size for t in terms)
-    index, length, starts = _shifted_index(sizes, m)
-    shifted = np.zeros((len(_family_pairs(m)[0]), length))
-    shifted.flat[index] = np.concatenate([terms[j] for j, _ in _family_pairs(m)[0]])
-    # each term's first nonzero entry (a NaN counts, as numpy's nonzero counts it), read from
-    # its few coefficients as plain numbers; None: a term that is zero throughout
-    lead = [next((i for i, v in enumerate(t.tolist()) if v != 0.0), None) for t in terms]
-    zero = min((start + lead[j] for (j, _), start in zip(_family_pairs(m)[0], starts) if lead[j] is not None), default=length - 1)
-    return shifted, min(zero, length - 1)
+    gather, length, firsts = _shifted_index(sizes, m)
+    values = np.concatenate(terms + (_ONE_ZERO,))
+    return values[gather], _zero_columns(values.tolist(), 0, sizes, firsts, length)
+
+
+def _zero_columns(flat: list[float], start: int, sizes: tuple[int, ...], firsts: tuple[int, ...], length: int) -> int:
+    """The leading columns that are zero in every row of a family's shifted terms, from its
+    terms' coefficients joined (``flat``, plain numbers, the family's from ``start`` on): row
+    ``(j, i)`` holds ``T_j`` from column ``length − size_j − i``, so the first nonzero column of
+    any row is the least, over the terms, of ``length − size_j − j`` (``firsts``: the row
+    ``(j, j)``) plus the term's own leading zeros (a NaN counts as nonzero, as numpy's nonzero
+    counts it); ``length − 1`` where every term is zero throughout."""
+    zero = length - 1
+    for size, first in zip(sizes, firsts):
+        for k in range(start, start + size):
+            if flat[k] != 0.0:
+                zero = min(zero, first + k - start)
+                break
+        start += size
+    return zero
+
+
+_ONE_ZERO = np.zeros(1)  # the entry :func:`_family_shifted`'s gaps take (read-only)
+_ONE_ZERO.setflags(write=False)
 
 
 @functools.lru_cache(maxsize=64)
-def _shifted_index(sizes: tuple[int, ...], m: int) -> tuple[np.ndarray, int, tuple[int, ...]]:
-    """For :func:`_family_shifted` of terms of these sizes: the flat positions of every pair's
-    term (its row, from column ``length − size − i``: ``T_j·p^i``, highest power first), the row
-    length and each pair's first column. Read-only."""
+def _shifted_index(sizes: tuple[int, ...], m: int, count: int = 0) -> tuple[np.ndarray, int, tuple[int, ...]]:
+    """For :func:`_family_shifted` of terms of these sizes: the ``(pairs, length)`` positions in
+    the terms' joined coefficients (the zero after them, at ``Σ sizes``, where no term lies) of
+    every entry (pair ``(j, i)``'s row holds ``T_j`` from column ``length − size_j − i``: ``T_j·p^i``,
+    highest power first), the row length and each term's first column in its row ``(j, j)``,
+    ``length − size_j − j``. With a ``count``, the positions for that many families' terms
+    joined one after the other (:func:`shifted_stack`), ``(count, pairs, length)``, the zero
+    after all of them. Read-only."""
     length = max(size + j for j, size in enumerate(sizes))
-    pairs = _family_pairs(m)[0]
-    starts = tuple(length - sizes[j] - i for j, i in pairs)
-    index = np.array([n * length + start + t for n, ((j, _), start) in enumerate(zip(pairs, starts)) for t in range(sizes[j])], dtype=np.intp)
-    index.setflags(write=False)
-    return index, length, starts
+    offsets = list(itertools.accumulate(sizes, initial=0))
+    per = offsets[-1]
+    gather = np.full((max(count, 1), len(_family_pairs(m)[0]), length), max(count, 1) * per, dtype=np.intp)
+    for g in range(max(count, 1)):
+        for n, (j, i) in enumerate(_family_pairs(m)[0]):
+            start = length - sizes[j] - i
+            gather[g, n, start : start + sizes[j]] = np.arange(g * per + offsets[j], g * per + offsets[j] + sizes[j])
+    if not count:
+        gather = gather[0]
+    gather.setflags(write=False)
+    return gather, length, tuple(length - size - j for j, size in enumerate(sizes))
 
 
 def amp_family(system: MnaSystem, w_ref: float) -> AmpFamily | None:
