@@ -34,7 +34,7 @@ import numpy as np
 from bandsmith.resources import resource_path
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import PASSIVE_KINDS, Netlist
-from bandsmith.solver.rational import _ANGLE_OFFSET, Rational, _circle, _degree_bound, rational_from_system
+from bandsmith.solver.rational import _ANGLE_OFFSET, Rational, _circle, _degree_bound, largest_in_rows, rational_from_system
 
 __all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "UNIT_OPAMP", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path",
            "SMALL_BATCH", "TABLE_FORMAT", "unit_expansion_values"]
@@ -881,7 +881,7 @@ class Expansion:
         its largest denominator coefficient is ±1."""
         w = self.w_ref if w_ref is None else float(w_ref)
         with np.errstate(invalid="ignore", divide="ignore"):
-            scale = _row_abs_max(den)
+            scale = largest_in_rows(den)
             return Rational(num / scale, den / scale, np.full(num.shape[0], w))
 
     @property
@@ -911,19 +911,6 @@ class _IdealPart(NamedTuple):
             num[bad] = np.nan
             den[bad] = np.nan
         return num, den
-
-
-def _row_abs_max(a: np.ndarray) -> np.ndarray:
-    """``np.abs(a).max(axis=-1, keepdims=True)`` (rows along the last axis: a batch ``(B, k)`` or
-    a stack of batches ``(G, B, k)``) column by column: the same numbers (a maximum rounds
-    nothing, and NaN wins either way), without numpy's reduction along rows of a few entries,
-    which costs some ten times more over a batch of a thousand."""
-    if a.shape[-2] < 64:  # (numpy's own reduction is the cheaper there)
-        return np.abs(a).max(axis=-1, keepdims=True)
-    out = np.abs(a[..., 0])
-    for j in range(1, a.shape[-1]):
-        np.maximum(out, np.abs(a[..., j]), out=out)
-    return out[..., None]
 
 
 _UNIT: dict[tuple, "Expansion"] = {}

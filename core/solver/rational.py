@@ -71,9 +71,10 @@ def largest_in_rows(c: np.ndarray) -> np.ndarray:
 
 def polyval_rows(rows: np.ndarray, x: np.ndarray) -> np.ndarray:
     """:func:`polyval_batch` of polynomials stored by coefficient, ``rows`` ``(k, B)`` (row ``i``:
-    coefficient ``i`` of every member, highest power first), at ``x`` ``(B,)``: the same Horner
-    steps on the same numbers, each coefficient read as one contiguous row."""
-    k = rows.shape[0]
+    coefficient ``i`` of every member, highest power first; or a list of those ``k`` rows), at
+    ``x`` ``(B,)``: the same Horner steps on the same numbers, each coefficient read as one
+    contiguous row."""
+    k = len(rows)
     if k == 1:
         return rows[0] + np.zeros_like(x)
     y = rows[0] * x
@@ -528,35 +529,24 @@ def node_coefficients(system: MnaSystem, indices, w_ref: float, *, at: complex |
     denominator is small: a sample there would carry its cancellation). The coefficients are the
     full circle's but for rounding: see the tests against 50-digit values.
     """
-    if degree is not None and degree <= 2:
-        return _node_coefficients_few(system, indices, w_ref, degree, at, den)
-    g, c = system.G[0], system.C[0]
-    k = int(np.count_nonzero(c.any(axis=1))) + 1  # _degree_bound of member 0, plus one
-    idx = list(indices)
-    w_ref = float(w_ref)
-    points = [w_ref * z for z in _circle_points(k)]
-    s = np.array(points if at is None else points + [complex(at)])
-    a = np.multiply.outer(s, c)  # (K, n, n), and the pencil at ``at`` after them
-    a += g
-    values = np.empty((1 + len(idx), k), dtype=complex)  # D, then D·x_i of every unknown asked for
-    if den is None:
-        values[0] = np.linalg.det(a[:k])
-    else:
-        coefficients, w = den
-        values[0] = [polyval_one(coefficients, z / w) for z in points]
-    x = np.linalg.solve(a, _source_column(system.layout.size, system.layout.source_row))  # (K, n, 1), each matrix solved alone
-    np.multiply(x[:k, idx, 0].T, values[0], out=values[1:])  # (the same products as D·x, laid out as rows)
-    both = (values @ _interpolation_matrix(k)).real.tolist()
-    return _scaled_rows(both, None if at is None else x[k, :, 0])
+    if degree is not None and degree <= 2:  # the fewest samples (see above)
+        values, x_at = _sampled(system, indices, w_ref, _few_points(degree), at, den)
+        # each row's (Re, Im) pairs side by side, the last Im left out where the last point is real
+        return _scaled_rows((values.view(np.float64)[:, : degree + 1] @ _few_matrix(degree)).tolist(), x_at)
+    k = int(np.count_nonzero(system.C[0].any(axis=1))) + 1  # _degree_bound of member 0, plus one
+    values, x_at = _sampled(system, indices, w_ref, _circle_points(k), at, den)
+    return _scaled_rows((values @ _interpolation_matrix(k)).real.tolist(), x_at)
 
 
-def _node_coefficients_few(system: MnaSystem, indices, w_ref: float, degree: int, at: complex | None, den: tuple | None):
-    """:func:`node_coefficients` of a degree bound of 2 or less, from the samples of
-    :func:`_few_points` (see there)."""
+def _sampled(system: MnaSystem, indices, w_ref: float, unit_points, at: complex | None, den: tuple | None):
+    """What :func:`node_coefficients` interpolates: ``D`` and ``D·x_i`` of every unknown asked for
+    at the points ``w_ref·p_k`` (rows of a ``(1 + len(indices), K)`` complex array: ``D`` the
+    determinant, or the caller's denominator ``den`` there), with every unknown solved at ``at``
+    (None without it): the pencil at all the points and at ``at`` solved in one stacked call."""
     g, c = system.G[0], system.C[0]
     idx = list(indices)
     w_ref = float(w_ref)
-    points = [w_ref * z for z in _few_points(degree)]
+    points = [w_ref * z for z in unit_points]
     k = len(points)
     s = np.array(points if at is None else points + [complex(at)])
     a = np.multiply.outer(s, c)  # (K, n, n), and the pencil at ``at`` after them
@@ -568,10 +558,8 @@ def _node_coefficients_few(system: MnaSystem, indices, w_ref: float, degree: int
         coefficients, w = den
         values[0] = [polyval_one(coefficients, z / w) for z in points]
     x = np.linalg.solve(a, _source_column(system.layout.size, system.layout.source_row))  # (K, n, 1), each matrix solved alone
-    np.multiply(x[:k, idx, 0].T, values[0], out=values[1:])
-    # each row's (Re, Im) pairs side by side, the last Im left out where the last point is real
-    both = (values.view(np.float64)[:, : degree + 1] @ _few_matrix(degree)).tolist()
-    return _scaled_rows(both, None if at is None else x[k, :, 0])
+    np.multiply(x[:k, idx, 0].T, values[0], out=values[1:])  # (the same products as D·x, laid out as rows)
+    return values, None if at is None else x[k, :, 0]
 
 
 _FEW_POINTS = {0: (1.0 + 0j,), 1: (cmath.exp(0.25j * math.pi),), 2: (cmath.exp(0.25j * math.pi), 1.0 + 0j)}

@@ -33,6 +33,7 @@ import numpy as np
 from bandsmith.analysis.figures import CLOSED_FORM_FROM
 from bandsmith.analysis.figures import Figures, figures_at, real_positive_roots_eig
 from bandsmith.solver.polyroots import cubic_roots_rows, quadratic_roots_rows
+from bandsmith.solver.rational import polyval_rows  # (Horner on rows: a list of k arrays or a (k, B) array)
 
 __all__ = [
     "Rows", "CLOSED_FORM_FROM", "scaled_rows", "finite_rows", "hurwitz_rows", "sq_mag_rows", "slope_rows",
@@ -175,19 +176,6 @@ def slope_rows(pu: Rows, qu: Rows) -> Rows:
             else:
                 acc[r] += t
     return [np.zeros(b) if x is None else x for x in acc]
-
-
-def polyval_rows(c: Rows, x: np.ndarray) -> np.ndarray:
-    """:func:`bandsmith.solver.rational.polyval_batch` on rows (the same arithmetic)."""
-    k = len(c)
-    if k == 1:
-        return c[0] + np.zeros_like(x)
-    y = c[0] * x
-    for i in range(1, k - 1):
-        y += c[i]
-        y *= x
-    y += c[k - 1]
-    return y
 
 
 def _polyder_rows(c: Rows) -> Rows:
