@@ -1328,16 +1328,10 @@ def test_families_weighted_together_equal_each_weighted_alone(circuit):
     paths, no outside source."""
     import math
 
-    from bandsmith.analysis.transfer import several_amp_family
     from bandsmith.solver.rational import AmpFamily, family_weights, weighted_together
     from numpy.testing import assert_array_equal
 
-    topo = get_topology(circuit)
-    rng = np.random.default_rng(8)
-    fams = []
-    for _ in range(6):
-        values = topo.values_from({k: v * float(np.exp(rng.uniform(-0.4, 0.4))) if v > 0 else v for k, v in topo.example.items()})
-        fams.append(several_amp_family(topo.build(values), 2 * math.pi * 1e4 * float(np.exp(rng.uniform(-1, 1)))))
+    fams = _random_families(get_topology(circuit), np.random.default_rng(8), 6)
     m = len(fams[0].den_terms) - 1
     zeroed = [AmpFamily(tuple(np.r_[0.0, t[1:]] if k % 2 and j == m else t for j, t in enumerate(f.num_terms)),
                         tuple(np.r_[0.0, t[1:]] if k % 3 == 0 and j == m else t for j, t in enumerate(f.den_terms)), f.w_ref)
@@ -1354,6 +1348,21 @@ def test_families_weighted_together_equal_each_weighted_alone(circuit):
             assert_array_equal(h.w_ref, fresh.w_ref)
 
 
+def _random_families(topo, rng, n: int) -> list:
+    """n op-amp families of one several-op-amp circuit (transfer.several_amp_family) at its
+    example parts each scaled by a random factor within ±0.4 in the log, each at a random w_ref
+    near 2π·10 kHz."""
+    import math
+
+    from bandsmith.analysis.transfer import several_amp_family
+
+    fams = []
+    for _ in range(n):
+        values = topo.values_from({k: v * float(np.exp(rng.uniform(-0.4, 0.4))) if v > 0 else v for k, v in topo.example.items()})
+        fams.append(several_amp_family(topo.build(values), 2 * math.pi * 1e4 * float(np.exp(rng.uniform(-1, 1)))))
+    return fams
+
+
 @pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
 def test_family_sums_of_ladders_of_several_lengths_equal_each_family_alone(circuit):
     """family_sums of one circuit's families with ladders of different lengths (a chain's stages:
@@ -1365,15 +1374,10 @@ def test_family_sums_of_ladders_of_several_lengths_equal_each_family_alone(circu
     check of our own two paths, no outside source."""
     import math
 
-    from bandsmith.analysis.transfer import several_amp_family
     from bandsmith.solver.rational import AmpFamily, _lead_trim, family_sums, family_weights
 
-    topo = get_topology(circuit)
     rng = np.random.default_rng(9)
-    fams = []
-    for _ in range(5):
-        values = topo.values_from({k: v * float(np.exp(rng.uniform(-0.4, 0.4))) if v > 0 else v for k, v in topo.example.items()})
-        fams.append(several_amp_family(topo.build(values), 2 * math.pi * 1e4 * float(np.exp(rng.uniform(-1, 1)))))
+    fams = _random_families(get_topology(circuit), rng, 5)
     m = len(fams[0].den_terms) - 1
     pairs = (m + 1) * (m + 2) // 2
     for group in (fams, fams[:1], fams[1:3]):
