@@ -34,7 +34,7 @@ from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_a
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at, solve_at_many
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, Expansion, ExpansionUnavailable, unit_expansion_values
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, lead_trimmed, node_coefficients, rational_and_family, reference_w
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, exponents_down, first_kept, lead_trimmed, node_coefficients, rational_and_family, reference_w
 from bandsmith.solver.stability import routh_stable
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes_of, step_response
 
@@ -683,9 +683,9 @@ def _expanded_rationals(setups: Sequence[_Expanded], blocks: Sequence[tuple[np.n
             den_all[start : start + n, wd - den.shape[1] :] = den[:n]
             start += n
         w_rows = np.repeat(w_of, counts)[:, None]
-    to_p = w_rows ** _descending(wd)  # c·s^k = c·w_ref^k·p^k, column by column
+    to_p = w_rows ** exponents_down(wd)  # c·s^k = c·w_ref^k·p^k, column by column
     den_p = den_all * to_p
-    num_p = num_all * (to_p[..., wd - wn :] if wn <= wd else w_rows ** _descending(wn))
+    num_p = num_all * (to_p[..., wd - wn :] if wn <= wd else w_rows ** exponents_down(wn))
     scale = np.abs(den_p).max(axis=1, keepdims=True)
     num_s, den_s = num_p / scale, den_p / scale
     finite = np.isfinite(den_all).all(axis=1).tolist()
@@ -700,7 +700,7 @@ def _expanded_rationals(setups: Sequence[_Expanded], blocks: Sequence[tuple[np.n
         setup, (num, den) = setups[k], blocks[k]
         if not all(finite[rows_k]) or (setup.absent is not None and not all(map(math.isfinite, den[n].tolist()))):
             continue
-        h = Rational(num_s[rows_k, _first_nonzero(nz_num) :], den_s[rows_k, _first_nonzero(nz_den) :], np.full(n, w))
+        h = Rational(num_s[rows_k, first_kept(nz_num) :], den_s[rows_k, first_kept(nz_den) :], np.full(n, w))
         if setup.absent is None:
             out[k] = (w, h, None)
             continue
@@ -716,22 +716,6 @@ def _expanded_rationals(setups: Sequence[_Expanded], blocks: Sequence[tuple[np.n
         )
         out[k] = (w, h, family)
     return out
-
-
-def _first_nonzero(flags: list[bool]) -> int:
-    """The first column a polynomial keeps (:func:`~bandsmith.solver.rational._lead_trim`'s rule):
-    the first of ``flags`` (nonzero in some row) that is set, the last column if none is."""
-    return next((j for j, f in enumerate(flags) if f), len(flags) - 1)
-
-
-_DESCENDING = np.arange(63, -1, -1.0)
-_DESCENDING.setflags(write=False)
-
-
-def _descending(width: int) -> np.ndarray:
-    """The exponents ``width − 1, …, 1, 0`` of a polynomial's coefficients, highest first (kept
-    up to degree 63, far beyond any circuit's)."""
-    return _DESCENDING[_DESCENDING.size - width :] if width <= _DESCENDING.size else np.arange(width - 1, -1, -1.0)
 
 
 def _first_pass(netlist: Netlist, parts: Mapping[str, float] | None, w_ref: float | None = None) -> _FirstPass:

@@ -11,7 +11,7 @@ from bandsmith.analysis.figures import Figures, measure
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
-from bandsmith.solver.rational import AmpFamily, Rational, amp_family, nominal_w_ref, rational_from_system
+from bandsmith.solver.rational import AmpFamily, Rational, amp_family, exponents_down, nominal_w_ref, rational_from_system
 
 __all__ = ["ideal_figures", "nominal_system", "several_amp_families", "several_amp_family", "transfer_function"]
 
@@ -160,7 +160,7 @@ def _scaled_terms(num: np.ndarray, den: np.ndarray, w_ref) -> tuple[np.ndarray, 
     """The unit expansion's op-amp terms (``(m + 1, k)`` each, row j the term of x^j, or a stack
     ``(G, m + 1, k)`` with ``w_ref`` ``(G, 1)``) in ``p = s/w_ref``: the unit expansion's s is
     p·w_ref, so c·s^k = c·w_ref^k·p^k, each member scaled by its D_0's largest coefficient."""
-    to_num, to_den = (w_ref ** np.arange(t.shape[-1] - 1, -1, -1.0) for t in (num, den))
+    to_num, to_den = (w_ref ** exponents_down(t.shape[-1]) for t in (num, den))
     scale = np.abs(den[..., :1, :] * to_den[..., None, :]).max(axis=-1, keepdims=True)
     return num * to_num[..., None, :] / scale, den * to_den[..., None, :] / scale
 

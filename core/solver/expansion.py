@@ -34,7 +34,7 @@ import numpy as np
 from bandsmith.resources import resource_path
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system
 from bandsmith.solver.netlist import PASSIVE_KINDS, Netlist
-from bandsmith.solver.rational import _ANGLE_OFFSET, Rational, _circle, _degree_bound, largest_in_rows, rational_from_system
+from bandsmith.solver.rational import _ANGLE_OFFSET, Rational, _circle, _degree_bound, first_kept, largest_in_rows, rational_from_system
 
 __all__ = ["Variable", "Expansion", "ExpansionUnavailable", "circuit_variables", "unit_expansion", "UNIT_OPAMP", "MAX_POINTS", "structure_hash", "table_entry", "table_text", "table_path",
            "SMALL_BATCH", "TABLE_FORMAT", "unit_expansion_values"]
@@ -733,15 +733,8 @@ class Expansion:
         ``w_ref``): ``exp(log ratios @ exponents)`` and one product per polynomial. A stack of
         batches, ``(G, B, n_var)`` (and ``absent`` likewise), gives ``(G, B, k)``: each batch's
         products taken as alone."""
-        with np.errstate(invalid="ignore", over="ignore"):
-            lr = log_ratios if absent is None else np.where(absent, self._absent_log, log_ratios)
-            finite = np.isfinite(lr)
-            num, den = self._products(lr)  # an absent stamp gives exactly 0
-        if not finite.all():  # (the rows looked at only then: a reduction along rows of a few costs)
-            bad = ~finite.all(axis=-1)
-            num[bad] = np.nan
-            den[bad] = np.nan
-        return num, den
+        lr = log_ratios if absent is None else np.where(absent, self._absent_log, log_ratios)
+        return _checked_products(lr, self._exps_ratio, self._num_dense, self._den_dense)  # an absent stamp gives exactly 0
 
     def dense_log_finite(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`dense_log` of log ratios known to be all finite (no absent stamp): its products,
@@ -780,11 +773,8 @@ class Expansion:
             np.matmul(mono, self._den_dense, out=den)
 
     def _products(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """``exp(log ratios @ exponents)``, the monomials ``(B, M)``, onto every power of p, highest
-        first: :meth:`dense_log`'s and :meth:`dense_log_finite`'s numerator and denominator
-        (floating-point warnings are the caller's)."""
-        mono = np.exp(log_ratios @ self._exps_ratio)
-        return mono @ self._num_dense, mono @ self._den_dense
+        """:func:`_products` over this expansion's monomials (:meth:`dense_log_finite`'s)."""
+        return _products(log_ratios, self._exps_ratio, self._num_dense, self._den_dense)
 
     def opamp_terms(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
         """The transfer function of one member as a polynomial in the op-amp stamp its ``m``
@@ -831,7 +821,7 @@ class Expansion:
             sel = np.flatnonzero(picks[1][0])  # row 0: the monomials of (1/A0)^0 with no 1/ω_t
             num, den = self._num_dense[sel], self._den_dense[sel]
             # the leading powers only the op-amps' stamps reach: zero in every kept monomial
-            lead_n, lead_d = (next((j for j, f in enumerate(c.any(axis=0).tolist()) if f), c.shape[1] - 1) for c in (num, den))
+            lead_n, lead_d = (first_kept(c.any(axis=0).tolist()) for c in (num, den))
             self._ideal = _IdealPart(np.ascontiguousarray(self._exps_ratio[:, sel]), num[:, lead_n:].copy(), den[:, lead_d:].copy())
         return self._ideal
 
@@ -902,15 +892,29 @@ class _IdealPart(NamedTuple):
     def dense_log(self, log_ratios: np.ndarray, *, absent: None = None) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`Expansion.dense_log` of the circuit with ideal op-amps (the op-amps' columns of
         ``log_ratios`` are not read; ``absent`` is there for the signature only: None)."""
-        with np.errstate(invalid="ignore", over="ignore"):
-            finite = np.isfinite(log_ratios)
-            mono = np.exp(log_ratios @ self.exps_ratio)
-            num, den = mono @ self.num_dense, mono @ self.den_dense
-        if not finite.all():
-            bad = ~finite.all(axis=-1)
-            num[bad] = np.nan
-            den[bad] = np.nan
-        return num, den
+        return _checked_products(log_ratios, self.exps_ratio, self.num_dense, self.den_dense)
+
+
+def _products(log_ratios: np.ndarray, exps_ratio: np.ndarray, num_dense: np.ndarray, den_dense: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``exp(log ratios @ exponents)``, the monomials ``(B, M)``, onto every power of p by the term
+    matrices, highest first: a batch's numerators and denominators (floating-point warnings are
+    the caller's)."""
+    mono = np.exp(log_ratios @ exps_ratio)
+    return mono @ num_dense, mono @ den_dense
+
+
+def _checked_products(log_ratios: np.ndarray, exps_ratio: np.ndarray, num_dense: np.ndarray, den_dense: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`_products` (:meth:`Expansion.dense_log`'s), a member with a log ratio that is not a
+    finite number NaN throughout (overflow and invalid warnings silenced: such a member is not
+    looked at further)."""
+    with np.errstate(invalid="ignore", over="ignore"):
+        finite = np.isfinite(log_ratios)
+        num, den = _products(log_ratios, exps_ratio, num_dense, den_dense)
+    if not finite.all():  # (the rows looked at only then: a reduction along rows of a few costs)
+        bad = ~finite.all(axis=-1)
+        num[bad] = np.nan
+        den[bad] = np.nan
+    return num, den
 
 
 _UNIT: dict[tuple, "Expansion"] = {}

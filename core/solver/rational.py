@@ -22,7 +22,7 @@ import numpy as np
 from bandsmith.solver.mna import MnaSystem, build_system
 from bandsmith.solver.polyroots import companion_roots
 
-__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "polyder_rows", "polyval_rows", "pad_rows", "family_weights", "family_sums", "shifted_stack", "largest_in_rows"]
+__all__ = ["Rational", "OpAmpFamily", "AmpFamily", "node_rationals", "node_coefficients", "rational_from_system", "rational_and_family", "amp_family", "reference_w", "nominal_w_ref", "coefficients_in_s", "in_s", "s_powers", "polyval_one", "polyval_batch", "exponents_down", "first_kept", "polyder_rows", "polyval_rows", "pad_rows", "family_weights", "family_sums", "shifted_stack", "largest_in_rows"]
 
 # A point set rotated off the real axis so that no sample lands on a real pole (Q = 0.5 gives a
 # double real pole at −w_ref).
@@ -120,13 +120,20 @@ def polyder_rows(rows: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
 
 
 @functools.lru_cache(maxsize=None)
+def exponents_down(width: int) -> np.ndarray:
+    """``width − 1, …, 1, 0`` as floats (read-only, made once per width): the powers of a
+    polynomial's ``width`` coefficients, highest first (whole numbers, exact as floats: a change
+    of variable ``c·w^k`` takes them as ``w ** exponents_down(width)``)."""
+    powers = np.arange(width - 1, -1, -1, dtype=float)
+    powers.setflags(write=False)
+    return powers
+
+
 def _powers_down(n: int) -> np.ndarray:
     """``n, n − 1, …, 1`` (as floats, read-only): the factors of a derivative of ``n + 1``
     coefficients (whole numbers, exact as floats: the products are those with the integers,
     without numpy's casting of them)."""
-    powers = np.arange(n, 0, -1, dtype=float)
-    powers.setflags(write=False)
-    return powers
+    return exponents_down(n + 1)[:-1]
 
 
 def polymul_batch(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -353,8 +360,14 @@ def _degree_bound(system: MnaSystem) -> int:
 def lead_trimmed(values: list[float]) -> list[float]:
     """One polynomial's coefficients (highest power first, a list) from the first nonzero one on,
     the last one kept if all are zero: :meth:`Rational.item`'s trim of one row, in plain floats."""
-    first = next((k for k, v in enumerate(values) if v != 0), len(values) - 1)
-    return values[first:]
+    return values[first_kept(values):]
+
+
+def first_kept(values: Sequence) -> int:
+    """Where :func:`lead_trimmed` starts: the first entry of ``values`` that is not zero (a NaN is
+    not; of flags, the first set: the first column nonzero in some row of a batch), the last
+    where all are."""
+    return next((k for k, v in enumerate(values) if v != 0), len(values) - 1)
 
 
 def _lead_trim(c: np.ndarray, expected: int = 0) -> np.ndarray:
