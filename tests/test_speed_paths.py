@@ -414,9 +414,9 @@ def test_repeated_searches_are_made_once_with_the_same_choices(series):
 
 @pytest.mark.parametrize("circuit", sorted(topology_ids()))
 def test_dense_log_of_finite_logs_equals_dense_log(circuit):
-    """Expansion.dense_log_finite (no look for non-finite rows) against dense_log on finite log
-    ratios, one batch and a stack of batches: the same coefficients bit for bit. A consistency
-    check of our own two paths, no outside source."""
+    """Expansion.dense_log_finite_into (no look for non-finite rows, written into arrays given)
+    against dense_log on finite log ratios, one batch and a stack of batches: the same
+    coefficients bit for bit. A consistency check of our own two paths, no outside source."""
     from bandsmith.solver.expansion import unit_expansion_values
 
     topo = get_topology(circuit)
@@ -425,8 +425,11 @@ def test_dense_log_of_finite_logs_equals_dense_log(circuit):
     base = np.log(own) - np.log([u.value for u in exp.variables])
     for shape in ((40, len(own)), (3, 90, len(own))):
         logs = base + rng.normal(0.0, 0.5, shape)
-        for mine, ref in zip(exp.dense_log_finite(logs), exp.dense_log(logs)):
-            assert_array_equal(mine, ref)
+        wn, wd = exp.dense_widths
+        mine = np.empty(shape[:-1] + (wn,)), np.empty(shape[:-1] + (wd,))
+        exp.dense_log_finite_into(logs, *mine)
+        for got, ref in zip(mine, exp.dense_log(logs)):
+            assert_array_equal(got, ref)
 
 
 @pytest.mark.parametrize("circuit", sorted(topology_ids()))
@@ -1321,14 +1324,16 @@ def test_netlist_nodes_and_refusals_follow_the_rule_written_out():
 
 @pytest.mark.parametrize("circuit", ["dabp", "state-variable", "tow-thomas", "akerberg-mossberg"])
 def test_families_weighted_together_equal_each_weighted_alone(circuit):
-    """weighted_together (a chain's stages on one several-op-amp circuit: their op-amp weights
-    over the GBW ladders as one stack) against AmpFamily.weighted family by family: the same
+    """family_sums of several families scaled as AmpFamily.weighted scales them (a chain's stages
+    on one several-op-amp circuit: their op-amp weights over the GBW ladders as one stack, as
+    gbw_search._ladders takes them) against AmpFamily.weighted family by family: the same
     coefficients bit for bit, with the families' own terms and with terms whose leading entries
     are zero in some families only (each then trimmed alone). A consistency check of our own two
     paths, no outside source."""
     import math
 
-    from bandsmith.solver.rational import AmpFamily, family_weights, weighted_together
+    from bandsmith.solver.rational import AmpFamily, _by_largest, family_sums, family_weights
+    from bandsmith.solver.rational import Rational
     from numpy.testing import assert_array_equal
 
     fams = _random_families(get_topology(circuit), np.random.default_rng(8), 6)
@@ -1340,7 +1345,10 @@ def test_families_weighted_together_equal_each_weighted_alone(circuit):
         gbw = np.geomspace(1e4, 1e11, 62)
         beta = np.concatenate([f.w_ref / (2 * math.pi * gbw) for f in group])
         weights = family_weights(np.array([1e-5]), beta, m).reshape(len(group), gbw.size, -1)
-        together = weighted_together(group, weights)
+        together = []
+        for f, (num, den) in zip(group, family_sums(group, list(weights))):
+            num, den = _by_largest(num, den)
+            together.append(Rational(num, den, np.full(num.shape[0], f.w_ref)))
         for f, w, h in zip(group, weights, together):
             fresh = AmpFamily(f.num_terms, f.den_terms, f.w_ref).weighted(w)
             assert_array_equal(h.num, fresh.num)

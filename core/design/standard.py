@@ -333,7 +333,7 @@ def _in_p_columns(c: np.ndarray, ks: list[float], sizes: list[int]) -> np.ndarra
     """Joined dense coefficients ``c`` (highest power first) in a new column-major array, each
     search's members (``sizes`` of them, in turn) taken to ``p = s/w_ref`` by its ``k`` of
     ``ks``: column ``j`` times ``k`` to the power ``n − 1 − j``, those powers
-    ``k ** arange(n − 1, −1, −1.0)`` as :meth:`~bandsmith.solver.expansion.Expansion.rational_log`
+    ``k ** arange(n − 1, −1, −1.0)`` as :meth:`~bandsmith.solver.expansion.Expansion.rational`
     makes them (once per distinct ``k``), each column's products written into its place; a copy
     where every ``k`` is 1 (no change of variable)."""
     out = np.empty(c.shape, order="F")
@@ -509,11 +509,11 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False, grou
     circuit) are made in one stacked batch (dense_log takes a stack's products one batch at a
     time, each batch's numbers as alone), from one gather of their rows of logs; where every
     offered value's log is finite, so is every row, and
-    :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite` looks for no other. The
+    :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_into` looks for no other. The
     coefficients of every search are then taken to ``p = s/w_ref`` and scaled in one joined batch
     (:func:`_scaled_searches`): the transfer functions
-    :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
-    bit, which are :func:`_combinations`' of the values themselves. Where the expansion does not
+    :meth:`~bandsmith.solver.expansion.Expansion.rational` gives each search's values alone (it
+    takes their logs first), bit for bit, which are :func:`_combinations`'. Where the expansion does not
     apply, or a batch is past its small-batch products, :func:`_combinations`. ``checked`` as
     :func:`choose_standard_groups` takes it.
 
@@ -580,8 +580,8 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray,
     that gather each combination's log ratios from a row (:func:`_log_plan`) and whether every
     log is finite; every block's dense coefficients of the ``widths`` given (numerator,
     denominator). Their transfer functions are those
-    :meth:`~bandsmith.solver.expansion.Expansion.rational_log` gives each search alone, bit for
-    bit, from one set of array calls for all the blocks (a compare's seven circuits).
+    :meth:`~bandsmith.solver.expansion.Expansion.rational` gives each search's values alone, bit
+    for bit, from one set of array calls for all the blocks (a compare's seven circuits).
 
     Block by block, the combinations' log ratios are gathered (one search's by numpy's take; a
     stack's rows of logs each taken by the one gather along the axis: the same numbers as a
@@ -590,7 +590,7 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray,
     products written straight into the joined batch's rows by
     :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_into` where every log is
     finite), each block's gathered logs let go before the next is made. Each further step is
-    rational_log's, member by member: the change of variable to ``p = s/w_ref`` multiplies the
+    :meth:`~bandsmith.solver.expansion.Expansion.rational`'s, member by member: the change of variable to ``p = s/w_ref`` multiplies the
     coefficients of a search by the powers of its own ``k = w_ref/w_e`` (the same ``k **
     arange`` of the same two numbers, made once per distinct ``k``; a product by 1 where the
     expansion's ``w_e`` is kept, which is exact), and each member is divided by its largest

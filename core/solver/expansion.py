@@ -736,13 +736,6 @@ class Expansion:
         lr = log_ratios if absent is None else np.where(absent, self._absent_log, log_ratios)
         return _checked_products(lr, self._exps_ratio, self._num_dense, self._den_dense)  # an absent stamp gives exactly 0
 
-    def dense_log_finite(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """:meth:`dense_log` of log ratios known to be all finite (no absent stamp): its products,
-        ``exp(log ratios @ exponents)`` onto every power of p, without looking for non-finite
-        rows (a search over many combinations checks its few offered values' logs instead)."""
-        with np.errstate(over="ignore"):
-            return self._products(log_ratios)
-
     @property
     def dense_widths(self) -> tuple[int, int]:
         """How many coefficients :meth:`dense_log` gives a member's numerator and denominator
@@ -751,7 +744,7 @@ class Expansion:
 
     def same_products(self, other: "Expansion") -> bool:
         """True where ``other`` gives the same dense coefficients as this one, number for number,
-        for the same log ratios (:meth:`dense_log`, :meth:`dense_log_finite`): the same variables
+        for the same log ratios (:meth:`dense_log`, :meth:`dense_log_finite_into`): the same variables
         (names, kinds, units and degrees), the same ``w_ref``, exponents and term matrices (two
         circuits whose ideal transfer functions are one function of their parts, say)."""
         return other is self or (
@@ -760,9 +753,11 @@ class Expansion:
             and np.array_equal(self._num_dense, other._num_dense) and np.array_equal(self._den_dense, other._den_dense))
 
     def dense_log_finite_into(self, log_ratios: np.ndarray, num: np.ndarray, den: np.ndarray) -> None:
-        """:meth:`dense_log_finite` written into ``num`` and ``den`` (C-contiguous, of the shapes
-        it gives: the rows of a batch joined with others, say), its monomials' exponential taken
-        in place: the same numbers (numpy's exp maps each number alone, and a product given its
+        """:meth:`dense_log` of log ratios known to be all finite (no absent stamp, no row looked
+        at for a value that is not a number: a search over many combinations checks its few
+        offered values' logs instead), written into ``num`` and ``den`` (C-contiguous, of the
+        shapes it gives: the rows of a batch joined with others, say), its monomials' exponential
+        taken in place: the same numbers (numpy's exp maps each number alone, and a product given its
         output runs the same product), without a batch's own arrays to join afterwards — over a
         chain's tens of thousands of combinations the memory freshly taken for those costs more
         than the arithmetic."""
@@ -771,10 +766,6 @@ class Expansion:
             np.exp(mono, out=mono)
             np.matmul(mono, self._num_dense, out=num)
             np.matmul(mono, self._den_dense, out=den)
-
-    def _products(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """:func:`_products` over this expansion's monomials (:meth:`dense_log_finite`'s)."""
-        return _products(log_ratios, self._exps_ratio, self._num_dense, self._den_dense)
 
     def opamp_terms(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
         """The transfer function of one member as a polynomial in the op-amp stamp its ``m``
@@ -859,12 +850,6 @@ class Expansion:
             largest denominator coefficient is ±1.
         """
         return self._rational(*self.dense(ratios, w_ref=w_ref), w_ref)
-
-    def rational_log(self, log_ratios: np.ndarray, *, w_ref: float | None = None) -> Rational:
-        """:meth:`rational` from the natural logs of the ratios, ``(B, len(variables))`` (any batch
-        size, by :meth:`dense_log`): the same transfer functions, bit for bit, as :meth:`rational`
-        of their exponentials up to :data:`SMALL_BATCH` members (which takes their logs first)."""
-        return self._rational(*self._in_p(*self.dense_log(log_ratios), w_ref), w_ref)
 
     def _rational(self, num: np.ndarray, den: np.ndarray, w_ref: float | None) -> Rational:
         """Dense coefficients in ``p = s/w_ref`` as a :class:`Rational`, each member scaled so that

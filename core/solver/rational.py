@@ -864,18 +864,6 @@ def _leads_with(c: np.ndarray, zero: int) -> bool:
     return zero < c.shape[2] and bool(c[:, :, zero].any(axis=1).all()) and not c[:, :, :zero].any()
 
 
-def weighted_together(families: Sequence[AmpFamily], weights: np.ndarray) -> list[Rational]:
-    """:meth:`AmpFamily.weighted` of several families whose shifted terms have one shape (one
-    circuit's families: a chain's stages on it), with as many rows of weights each, ``weights``
-    ``(G, B, pairs)``: :func:`family_sums` of them, each family's sums over its denominator's
-    largest coefficient (:func:`_by_largest`)."""
-    out = []
-    for f, (num, den) in zip(families, family_sums(families, list(weights))):
-        num, den = _by_largest(num, den)
-        out.append(Rational(num, den, np.full(num.shape[0], f.w_ref)))
-    return out
-
-
 def family_sums(families: Sequence[AmpFamily], weights: Sequence[np.ndarray]) -> list[tuple[np.ndarray, np.ndarray]]:
     """The weighted sums of several families whose terms have one set of sizes (their shifted
     terms one shape: one circuit's families, a compare's two circuits of one structure or a
