@@ -364,6 +364,7 @@ def _case_errors(fig: Figures, cases) -> tuple[np.ndarray, list[int]]:
         sl = slice(start + j - 1, start + j + 3)
         err = [[(v / ref.f0_hz - 1.0) / tol.f0 for v in f0s[sl].tolist()], [(v / ref.q - 1.0) / tol.q for v in qs[sl].tolist()],
                [(v - ref.gain_center_db) / tol.gain_db for v in dbs[sl].tolist()]]
+        # (a finite sum proves every error finite; one that is not is looked at term by term)
         if not math.isfinite(sum(map(sum, err))) and not all(math.isfinite(e) for row in err for e in row):
             continue
         sign = math.copysign(1.0, ref.gain_center)

@@ -187,11 +187,9 @@ _MISSES_SHOWN = {"f0_pct": "f0 {:+.3g} % (tolerance ±{:g} %)", "q_pct": "Q {:+.
 
 
 def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[str, float], result_errors, analysis: Analysis, series: str, tol: Tolerances, fixed,
-              roles: _PartRoles | None = None) -> list[str]:
-    """A design's warnings (``roles``: the circuit's :func:`_parts_of`, looked up when not given)."""
+              roles: _PartRoles) -> list[str]:
+    """A design's warnings (``roles``: the circuit's :func:`_parts_of`, which its caller has read)."""
     out = []
-    if roles is None:
-        roles = _parts_of(topology.part_kinds)
     for ref, kind, lo, hi in roles.required:
         v = chosen.get(ref, 0.0)
         if v > hi or v < lo:

@@ -96,8 +96,8 @@ def _window_ends(window_f0: float, window_q: float, window_gain_db: float) -> tu
 @functools.lru_cache(maxsize=16)
 def _inner_edges(window_f0: float, window_q: float, window_gain_db: float) -> list[float]:
     """The yield window's nearer end from zero in log units, per figure (f0, Q, gain)."""
-    lo, hi = _window(window_f0, window_q, window_gain_db)
-    return [min(-a, b) for a, b in zip(lo[:, 0].tolist(), hi[:, 0].tolist())]
+    lo, hi = _window_ends(window_f0, window_q, window_gain_db)
+    return [min(-a, b) for a, b in zip(lo, hi)]
 
 
 def _dot_abs(values: list[float], weights: list[float]) -> float:
