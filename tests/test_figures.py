@@ -293,3 +293,23 @@ def test_closed_form_peak_proofs_agree_with_numpy_roots():
     assert not (none & inside).any()
     all_real = im == 0
     assert_array_equal(none[all_real], ~inside[all_real])  # exact when every root is real
+
+
+def test_nominal_figures_scalars_equal_their_arrays_read_alone():
+    """nominal_and_peaks_many gives each nominal batch of one its scalars at once: they are the
+    floats its arrays hold (numpy's ndarray.item of each figure, bit for bit) and the arrays are
+    measure()'s own figures of member 0 (the reference)."""
+    from bandsmith.analysis.figures import _FIELDS, Figures, nominal_and_peaks_many
+
+    rng = np.random.default_rng(7)
+    hs = []
+    for _ in range(5):
+        a = rng.uniform(0.1, 10.0, size=(3, 3))
+        b1 = rng.uniform(0.1, 10.0, size=(3, 1))
+        hs.append(Rational(np.hstack([b1, np.zeros((3, 1))]), a, np.full(3, rng.uniform(1e2, 1e5))))
+    for h, (nominal, _) in zip(hs, nominal_and_peaks_many(hs)):
+        alone = Figures(*[np.asarray(getattr(nominal, name)) for name in _FIELDS])  # no scalars kept yet
+        for name in _FIELDS:
+            got, want = getattr(nominal.item(), name), getattr(alone.item(), name)
+            assert type(got) is float and (got == want or (math.isnan(got) and math.isnan(want)))
+        assert_array_equal(np.array([getattr(nominal, n)[0] for n in _FIELDS]), np.array([getattr(measure(h).take(slice(0, 1)), n)[0] for n in _FIELDS]))

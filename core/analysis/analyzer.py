@@ -583,7 +583,7 @@ def _expansion_setup(netlist: Netlist, refs: list[str], n_ideal: int) -> _Expand
         except ExpansionUnavailable:
             return None
     col = exp.column
-    if any(r not in col for r in refs):
+    if not col.keys() >= set(refs):
         return None
     # unit nominal values: the ratios are the values (an op-amp's are 1: stamps of 1); member
     # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
@@ -748,10 +748,13 @@ def _first_pass_many(
     out, start = [], 0
     for (values, refs, (w, h, family)), (nominal, _) in zip(made, measured):
         stop = start + len(refs)
-        sens = {}
-        for key, row in zip(("f0", "q", "gain"), slopes):
-            by_ref = dict(zip(refs, row[start:stop]))
-            sens[key] = {r: by_ref.get(r, 0.0) for r in values}
+        if len(refs) == len(values):  # every part above zero: the slopes in the parts' order
+            sens = {key: dict(zip(refs, row[start:stop])) for key, row in zip(("f0", "q", "gain"), slopes)}
+        else:
+            sens = {}
+            for key, row in zip(("f0", "q", "gain"), slopes):
+                by_ref = dict(zip(refs, row[start:stop]))
+                sens[key] = {r: by_ref.get(r, 0.0) for r in values}
         start = stop
         out.append(_FirstPass(float(w), h.item(0), nominal, sens, family))
     return out

@@ -335,8 +335,11 @@ def nominal_and_peaks_many(hs: Sequence[Rational]) -> list[tuple[Figures, np.nda
             first = np.array(starts)
             nominal = figures_at(h.w_ref[first], *_biquad_parts(num[first, -2], den[first, 0], den[first, 1], den[first, 2])[:-1])
             columns = [getattr(nominal, name) for name in _FIELDS]
+            floats = [c.tolist() for c in columns]  # (each member's scalars, as Figures.item reads them)
             for n, (i, start, stop) in enumerate(whole):
-                out[i] = (Figures(*[c[n : n + 1] for c in columns]), peaks[:, start:stop])
+                fig = Figures(*[c[n : n + 1] for c in columns])
+                object.__setattr__(fig, "_first", Figures(*[f[n] for f in floats]))
+                out[i] = (fig, peaks[:, start:stop])
     for i, h in enumerate(hs):
         if out[i] is None:
             fig = measure(h)
