@@ -313,3 +313,36 @@ def test_nominal_figures_scalars_equal_their_arrays_read_alone():
             got, want = getattr(nominal.item(), name), getattr(alone.item(), name)
             assert type(got) is float and (got == want or (math.isnan(got) and math.isnan(want)))
         assert_array_equal(np.array([getattr(nominal, n)[0] for n in _FIELDS]), np.array([getattr(measure(h).take(slice(0, 1)), n)[0] for n in _FIELDS]))
+
+
+def test_biquads_joined_pick_what_each_check_alone_picks():
+    """_biquads_joined looks at the coefficients of all transfer functions in one joined batch:
+    it picks exactly those _biquad_shaped picks one by one (numerators of two or three
+    coefficients, a nonzero constant or leading term, a denominator not of three or not finite),
+    and joins them as Rational.joined does."""
+    from bandsmith.analysis.figures import _biquad_shaped, _biquads_joined
+
+    rng = np.random.default_rng(11)
+    for _ in range(200):
+        hs = []
+        for _ in range(rng.integers(1, 6)):
+            b = int(rng.integers(1, 4))
+            num = np.hstack([np.zeros((b, int(rng.integers(0, 2)))), rng.uniform(0.5, 2.0, (b, 1)), np.zeros((b, 1))])
+            den = rng.uniform(0.5, 2.0, (b, int(rng.choice([3, 3, 3, 4]))))
+            pick = rng.integers(0, 8)
+            if pick == 0:
+                num[rng.integers(0, b), -1] = 1.0
+            elif pick == 1 and num.shape[1] == 3:
+                num[rng.integers(0, b), 0] = 1.0
+            elif pick == 2:
+                den[rng.integers(0, b), 1] = np.inf
+            elif pick == 3:
+                num[rng.integers(0, b), -1] = np.nan
+            hs.append(Rational(num, den, np.full(b, 1e3)))
+        quick, joined = _biquads_joined(hs)
+        assert quick == [i for i, h in enumerate(hs) if _biquad_shaped(h)]
+        if len(quick) > 1:
+            want = Rational.joined([hs[i] for i in quick])
+            assert_array_equal(joined.num, want.num)
+            assert_array_equal(joined.den, want.den)
+            assert_array_equal(joined.w_ref, want.w_ref)

@@ -275,6 +275,25 @@ def _biquad(h: Rational):
     return parts if parts[-1].all() else None
 
 
+def _biquads_joined(hs: Sequence[Rational]) -> tuple[list[int], Rational | None]:
+    """The indices of the transfer functions of ``hs`` that are :func:`_biquad_shaped`, and their
+    members joined into one batch (:meth:`Rational.joined`; None where there are fewer than two):
+    the shapes looked at on each, the coefficients on the joined batch, whose rows are each
+    member's own (a numerator of two coefficients padded with a leading zero, which is what
+    :func:`_biquad_shaped` asks of a numerator of three)."""
+    shaped = [i for i, h in enumerate(hs) if h.den.shape[1] == 3 and 2 <= h.num.shape[1] <= 3]
+    if len(shaped) < 2:
+        return [i for i in shaped if _biquad_shaped(hs[i])], None
+    joined = Rational.joined([hs[i] for i in shaped])
+    num, den = joined.num, joined.den
+    bad = (num[:, -1] != 0) | (num[:, 0] != 0) if num.shape[1] == 3 else num[:, -1] != 0
+    bad |= ~np.isfinite(den).all(axis=1)
+    if not bad.any():
+        return shaped, joined
+    quick = [i for i in shaped if _biquad_shaped(hs[i])]
+    return quick, Rational.joined([hs[i] for i in quick]) if len(quick) > 1 else None
+
+
 def _biquad_shaped(h: Rational) -> bool:
     """True when every member has the form ``b1·p / (a2·p² + a1·p + a0)`` (finite denominator)."""
     num, den = h.num, h.den
@@ -318,16 +337,16 @@ def nominal_and_peaks_many(hs: Sequence[Rational]) -> list[tuple[Figures, np.nda
     ``|x + 0j|`` is ``|x|`` exactly), the band edges and the phase only for member 0; the rest
     each through :func:`measure`."""
     out: list = [None] * len(hs)
-    quick = [i for i, h in enumerate(hs) if _biquad_shaped(h)] if len(hs) > 1 else []
+    quick, h = _biquads_joined(hs) if len(hs) > 1 else ([], None)
     if len(quick) > 1:  # (one alone is measured whole: the closed form over its members costs no more)
-        h = Rational.joined([hs[i] for i in quick])
         num, den = h.num, h.den
         *values, peak = _biquad_peak_values(h)
         peaks = np.stack(values)
         starts, whole, start = [], [], 0
+        every = bool(peak.all())  # (each candidate's rows looked at only where some member has no peak)
         for i in quick:
             stop = start + hs[i].batch
-            if peak[start:stop].all():
+            if every or peak[start:stop].all():
                 starts.append(start)
                 whole.append((i, start, stop))
             start = stop
