@@ -179,3 +179,25 @@ def test_an_unfitted_structure_is_refused_when_no_fit_is_wanted():
         unit_expansion(odd, fit=False)
     unit_expansion(odd)
     assert unit_expansion(odd, fit=False)[0] is unit_expansion(odd)[0]
+
+
+@pytest.mark.parametrize("opamp", [None, "unit", "finite"])
+def test_unit_expansion_values_is_unit_expansion_in_plain_floats(opamp):
+    """unit_expansion_values looks the kept expansion up in one pass over the elements: the very
+    expansion unit_expansion keeps for the structure, and its variables' values in order, on
+    every circuit (an inductor with and without a winding resistance, ideal and finite op-amps)."""
+    from bandsmith.solver.expansion import IDEAL, UNIT_OPAMP, ExpansionUnavailable, unit_expansion_values
+
+    model = {None: IDEAL, "unit": UNIT_OPAMP, "finite": OpAmpModel(1e6, 1e5)}[opamp]
+    for topo in all_topologies():
+        for values in (dict(topo.example), {**topo.example, "RL": 12.0} if "RL" in topo.example else None):
+            if values is None:
+                continue
+            netlist = topo.build(topo.values_from(values))
+            try:
+                exp, variables = unit_expansion(netlist, model, fit=False)
+            except ExpansionUnavailable:
+                continue
+            got, floats = unit_expansion_values(netlist, model, fit=False)
+            assert got is exp
+            assert floats == [v.value for v in variables] and all(type(x) is float for x in floats)

@@ -588,7 +588,7 @@ def _expansion_setup(netlist: Netlist, refs: list[str], n_ideal: int) -> _Expand
     # unit nominal values: the ratios are the values (an op-amp's are 1: stamps of 1); member
     # 1 + 2j has part j up by the sensitivity step, member 2 + 2j down
     rows = n_ideal + 1 if one else n_ideal
-    lr = exp.log_ratios_of(own) + _sensitivity_steps(rows, len(own), tuple(col[r] for r in refs))
+    lr = exp.log_ratios_of(own) + _sensitivity_steps(rows, len(own), tuple(map(col.__getitem__, refs)))
     if one:
         return _Expanded(netlist, exp, lr, _absent_mask(rows, len(own), col["gbw"], col["a0"]), n_ideal)
     ideal = exp.ideal_part()

@@ -471,7 +471,7 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
     ``phase_rows`` only those members get their centre phase (the rest NaN: a caller that asks
     only whether the others are within tolerance does not read it).
     """
-    if np.ndim(spread):
+    if type(spread) is not float and np.ndim(spread):
         values, at = np.unique(np.asarray(spread, dtype=float), return_inverse=True)
         k2 = np.array([(1.0 + v) ** 2 for v in values.tolist()])[at]
     else:
@@ -483,7 +483,7 @@ def measure_near(h: Rational, ref: Figures, *, spread: float, only_peak: bool = 
 def _measure_near(h: Rational, ref: Figures, k2: float | np.ndarray, only_peak: bool, phase_rows=None) -> Figures:
     b = h.batch
     to_u = (2.0 * np.pi / h.w_ref) ** 2
-    both_k2 = k2 if np.ndim(k2) == 0 else np.concatenate([k2, k2])  # the band edges' windows, low then high
+    both_k2 = k2 if type(k2) is float or np.ndim(k2) == 0 else np.concatenate([k2, k2])  # the band edges' windows, low then high
     pu = _sq_mag_u(h.num)
     qu = _sq_mag_u(h.den)
     slope = _slope_u(pu, qu)

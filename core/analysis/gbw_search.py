@@ -162,7 +162,7 @@ def _measured(items, live, each, a0: float, *, probes: bool) -> tuple[Rational, 
     tols = [each[i] for i, _, _, _ in live]
     starts = list(itertools.accumulate(sizes[:-1], initial=0))
     phase_rows = [start + size - 1 for (i, _, _, _), start, size in zip(live, starts, sizes) if probes and items[i][4] is not None]
-    if all(t == tols[0] for t in tols):  # one for all
+    if all(t is tols[0] or t == tols[0] for t in tols):  # one for all
         fig = _near_figures(h, ref, tols[0], phase_rows)
         ok = within_tolerances(fig, ref, tols[0])  # every member against its own candidate's figures
     else:  # each member sought near, and held to, its own candidate's
@@ -228,7 +228,8 @@ def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
             num[r, width - f.num.size :] = f.num
         alpha = 1.0 / np.asarray(a0, dtype=float)
         beta = np.repeat([f.w_ref for f in fams], counts) / (2.0 * np.pi * np.concatenate([gbws[k] for k in singles]))
-        den = np.repeat(d0, counts, axis=0) - alpha * np.repeat(m, counts, axis=0) - beta[:, None] * np.repeat(mp, counts, axis=0)
+        # (D0 − α·M is the same for every member of a family: taken once per family, then repeated)
+        den = np.repeat(d0 - alpha * m, counts, axis=0) - beta[:, None] * np.repeat(mp, counts, axis=0)
         num = np.repeat(num, counts, axis=0)
         if singles[-1] - singles[0] == len(singles) - 1:  # their rows one run (as _batch_key orders them)
             blocks.append((starts[singles[0]], num, den))

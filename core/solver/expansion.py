@@ -565,6 +565,7 @@ class Expansion:
         self.variables = variables
         self.names = tuple(v.name for v in self.variables)
         self.column = {name: j for j, name in enumerate(self.names)}  # a variable's column by name
+        self._unit_values = [v.value for v in self.variables]  # (what log_ratios_of divides by)
         fit = _known_fit(key)
         if fit is None:
             sizes = [v.degree + 1 for v in self.variables]
@@ -726,7 +727,7 @@ class Expansion:
         values (SI units, in this expansion's order, as :func:`unit_expansion_values` gives them
         beside it): ``(n_var,)``, what :meth:`dense_log` and :meth:`opamp_terms` take for one
         member."""
-        return np.log([x / u.value for x, u in zip(values, self.variables)])
+        return np.log([x / u for x, u in zip(values, self._unit_values)])
 
     def dense_log(self, log_ratios: np.ndarray, *, absent: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`dense` from the natural logs of the ratios (any batch size, the expansion's
@@ -910,8 +911,28 @@ def unit_expansion_values(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: b
     units, in the expansion's order) as plain floats instead of :class:`Variable` records: what
     :meth:`Expansion.log_ratios_of` takes. Once the structure's expansion is kept, no record is
     made. Raises :class:`ExpansionUnavailable` as :func:`unit_expansion` does."""
-    fields = _variable_fields(netlist, opamp)
-    return _kept_unit(netlist, opamp, fields, fit), [value for _, _, value, _ in fields]
+    # (_variable_fields and _fields_key in one pass over the elements: the same fields and key)
+    elements, named, values = [], [], []
+    m = 0  # op-amps
+    for e in netlist.elements:
+        kind, nodes = e.kind, e.nodes
+        elements.append((e.ref, kind, nodes if type(nodes) is tuple else tuple(nodes), e.series_ref))
+        if kind == "opamp":
+            m += 1
+        elif kind in PASSIVE_KINDS:
+            named.append((e.ref, kind, 1))
+            values.append(float(e.value))
+            if kind == "L" and e.series_resistance > 0:
+                named.append((e.series_ref or e.ref + ".rs", "RS", 1))
+                values.append(float(e.series_resistance))
+    if not opamp.ideal and m:
+        named += [("gbw", "gbw", m), ("a0", "a0", m)]
+        values += [float(opamp.gbw_hz), float(opamp.a0)]
+    structure = (tuple(elements), netlist.ground, netlist.input, netlist.output, tuple(named))
+    exp = _UNIT.get((structure, opamp))
+    if exp is None:  # (made and kept as unit_expansion makes it)
+        exp = _kept_unit(netlist, opamp, _variable_fields(netlist, opamp), fit)
+    return exp, values
 
 
 def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, tuple[Variable, ...]]:
