@@ -1635,3 +1635,37 @@ def test_fewest_samples_give_back_real_polynomials():
             v = np.polyval(c, points)
             b = np.column_stack([v.real, v.imag]).ravel()[: degree + 1]
             assert_allclose(b @ _few_matrix(degree), c, rtol=0, atol=1e-14 * np.abs(c).max())
+
+
+def test_polyval_batch_complex_points_equal_mixed_real_complex_horner():
+    """polyval_batch makes real coefficients complex once at complex points: bit for bit (signed
+    zeros, infinities and NaN included) the Horner steps with the real coefficients in each mixed
+    operation, which numpy carries out on the float64 operand cast to complex128 with a zero
+    imaginary part (numpy's type promotion rules, numpy.result_type; the numpy user guide). The
+    sign bit of a NaN is not compared (it carries no number)."""
+    from bandsmith.solver.rational import polyval_batch
+
+    def mixed(c, x):  # the steps as written, every coefficient real
+        cc = c if x.ndim == 1 else c.reshape(c.shape + (1,) * (x.ndim - 1))
+        if c.shape[1] == 1:
+            return cc[:, 0] + np.zeros_like(x)
+        y = cc[:, 0] * x
+        for i in range(1, c.shape[1] - 1):
+            y += cc[:, i]
+            y *= x
+        y += cc[:, -1]
+        return y
+
+    rng = np.random.default_rng(5)
+    for _ in range(300):
+        b, k = int(rng.integers(1, 6)), int(rng.integers(1, 9))
+        c = rng.normal(size=(b, k)) * 10.0 ** rng.integers(-5, 5, size=(b, k))
+        c[rng.random((b, k)) < 0.15] = rng.choice([0.0, -0.0, np.inf, -np.inf, np.nan])
+        x = (rng.normal(size=(b, 7)) + 1j * rng.normal(size=(b, 7))) if rng.random() < 0.5 else 1j * rng.normal(size=b)
+        x[np.unravel_index(rng.integers(0, x.size), x.shape)] = rng.choice([0j, complex(-0.0, -0.0), 1j * np.inf])
+        with np.errstate(all="ignore"):
+            got, want = polyval_batch(c, x), mixed(c, x)
+        assert got.dtype == want.dtype
+        assert_array_equal(got.view(float), want.view(float))
+        number = ~np.isnan(want.view(float))  # (a NaN's sign bit carries nothing)
+        assert_array_equal(np.signbit(got.view(float))[number], np.signbit(want.view(float))[number])

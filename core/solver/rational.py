@@ -34,8 +34,14 @@ _SNAP = 1e-13
 
 
 def polyval_batch(c: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """Evaluate polynomials ``c`` (shape ``(B, k)``, highest power first) at ``x`` (``(B, ...)``)."""
+    """Evaluate polynomials ``c`` (shape ``(B, k)``, highest power first) at ``x`` (``(B, ...)``).
+
+    Real coefficients at complex points are made complex once (numpy makes a real operand
+    complex for every mixed operation, the imaginary part zero: the same numbers, without a
+    cast in each of Horner's steps)."""
     x = np.asarray(x)
+    if x.dtype == np.complex128 and np.asarray(c).dtype == np.float64:
+        c = np.asarray(c, dtype=np.complex128)
     cc = c if x.ndim == 1 else np.asarray(c).reshape(c.shape + (1,) * (x.ndim - 1))
     k = cc.shape[1]
     if k == 1:
