@@ -111,25 +111,37 @@ def circuit_variables(netlist: Netlist, opamp: OpAmpModel = IDEAL) -> tuple[Vari
     ``series_ref`` (or ``"<ref>.rs"``) when it is above zero. A finite op-amp adds ``gbw`` and
     ``a0`` (degree: the number of op-amps).
     """
-    return tuple(Variable(*f) for f in _variable_fields(netlist, opamp))
+    named, values, _ = _values_and_key(netlist, opamp)
+    return _variables(named, values)
 
 
-def _variable_fields(netlist: Netlist, opamp: OpAmpModel) -> list[tuple[str, str, float, int]]:
-    """:func:`circuit_variables` as plain ``(name, kind, value, degree)`` tuples (cheaper to make
-    than the records: a kept expansion's lookup needs only the structure and the values)."""
-    out = []
+def _variables(named: list[tuple[str, str, int]], values: list[float]) -> tuple[Variable, ...]:
+    """The records of :func:`_values_and_key`'s variables."""
+    return tuple(Variable(name, kind, value, degree) for (name, kind, degree), value in zip(named, values))
+
+
+def _values_and_key(netlist: Netlist, opamp: OpAmpModel) -> tuple[list[tuple[str, str, int]], list[float], tuple]:
+    """:func:`circuit_variables` as their ``(name, kind, degree)`` and their values (plain
+    floats: cheaper to make than the records, where a kept expansion's lookup needs only the
+    structure and the values), and the structure key (:func:`_fields_key`'s), from one pass over
+    the elements."""
+    named, values, elements = [], [], []
     m = 0  # op-amps
     for e in netlist.elements:
-        if e.kind == "opamp":
+        kind, nodes = e.kind, e.nodes
+        elements.append((e.ref, kind, nodes if type(nodes) is tuple else tuple(nodes), e.series_ref))
+        if kind == "opamp":
             m += 1
-        elif e.kind in PASSIVE_KINDS:
-            out.append((e.ref, e.kind, float(e.value), 1))
-            if e.kind == "L" and e.series_resistance > 0:
-                out.append((e.series_ref or e.ref + ".rs", "RS", float(e.series_resistance), 1))
+        elif kind in PASSIVE_KINDS:
+            named.append((e.ref, kind, 1))
+            values.append(float(e.value))
+            if kind == "L" and e.series_resistance > 0:
+                named.append((e.series_ref or e.ref + ".rs", "RS", 1))
+                values.append(float(e.series_resistance))
     if not opamp.ideal and m:
-        out.append(("gbw", "gbw", float(opamp.gbw_hz), m))
-        out.append(("a0", "a0", float(opamp.a0), m))
-    return out
+        named += [("gbw", "gbw", m), ("a0", "a0", m)]
+        values += [float(opamp.gbw_hz), float(opamp.a0)]
+    return named, values, (tuple(elements), netlist.ground, netlist.input, netlist.output, tuple(named))
 
 
 def _system_for(netlist: Netlist, variables: tuple[Variable, ...], values: np.ndarray, opamp: OpAmpModel):
@@ -444,7 +456,8 @@ def _structure_key(netlist: Netlist, variables: tuple[Variable, ...]) -> tuple:
 
 
 def _fields_key(netlist: Netlist, fields: list[tuple[str, str, float, int]]) -> tuple:
-    """:func:`_structure_key` from the variables' :func:`_variable_fields`."""
+    """:func:`_structure_key` from the variables' ``(name, kind, value, degree)`` (the key
+    :func:`_values_and_key` makes)."""
     elements = tuple((e.ref, e.kind, tuple(e.nodes), e.series_ref) for e in netlist.elements)
     return (elements, netlist.ground, netlist.input, netlist.output, tuple((name, kind, degree) for name, kind, _, degree in fields))
 
@@ -911,28 +924,8 @@ def unit_expansion_values(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: b
     units, in the expansion's order) as plain floats instead of :class:`Variable` records: what
     :meth:`Expansion.log_ratios_of` takes. Once the structure's expansion is kept, no record is
     made. Raises :class:`ExpansionUnavailable` as :func:`unit_expansion` does."""
-    # (_variable_fields and _fields_key in one pass over the elements: the same fields and key)
-    elements, named, values = [], [], []
-    m = 0  # op-amps
-    for e in netlist.elements:
-        kind, nodes = e.kind, e.nodes
-        elements.append((e.ref, kind, nodes if type(nodes) is tuple else tuple(nodes), e.series_ref))
-        if kind == "opamp":
-            m += 1
-        elif kind in PASSIVE_KINDS:
-            named.append((e.ref, kind, 1))
-            values.append(float(e.value))
-            if kind == "L" and e.series_resistance > 0:
-                named.append((e.series_ref or e.ref + ".rs", "RS", 1))
-                values.append(float(e.series_resistance))
-    if not opamp.ideal and m:
-        named += [("gbw", "gbw", m), ("a0", "a0", m)]
-        values += [float(opamp.gbw_hz), float(opamp.a0)]
-    structure = (tuple(elements), netlist.ground, netlist.input, netlist.output, tuple(named))
-    exp = _UNIT.get((structure, opamp))
-    if exp is None:  # (made and kept as unit_expansion makes it)
-        exp = _kept_unit(netlist, opamp, _variable_fields(netlist, opamp), fit)
-    return exp, values
+    _, values, structure = _values_and_key(netlist, opamp)
+    return _kept_unit(netlist, opamp, structure, fit), values
 
 
 def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = True) -> tuple[Expansion, tuple[Variable, ...]]:
@@ -945,20 +938,19 @@ def unit_expansion(netlist: Netlist, opamp: OpAmpModel = IDEAL, *, fit: bool = T
     the structure would have to be fitted now (it is neither fitted yet nor in the shipped table:
     for a caller with a cheaper way than a fit of several op-amps' stamps, up to a second).
     """
-    fields = _variable_fields(netlist, opamp)
-    return _kept_unit(netlist, opamp, fields, fit), tuple(Variable(*f) for f in fields)
+    named, values, structure = _values_and_key(netlist, opamp)
+    return _kept_unit(netlist, opamp, structure, fit), _variables(named, values)
 
 
-def _kept_unit(netlist: Netlist, opamp: OpAmpModel, fields: list, fit: bool) -> Expansion:
-    """The kept unit expansion of the structure with these variable ``fields`` (made, and kept,
-    where it is not yet): :func:`unit_expansion`'s."""
-    structure = _fields_key(netlist, fields)
+def _kept_unit(netlist: Netlist, opamp: OpAmpModel, structure: tuple, fit: bool) -> Expansion:
+    """The kept unit expansion of ``netlist``'s structure, whose key :func:`_values_and_key`
+    made (made, and kept, where it is not yet): :func:`unit_expansion`'s."""
     key = (structure, opamp)
     exp = _UNIT.get(key)
     if exp is None:
         if not fit and _known_fit(structure) is None:
             raise ExpansionUnavailable("not fitted yet")
-        exp = Expansion._at_unit(netlist, opamp, tuple(Variable(*f) for f in fields), structure)
+        exp = Expansion._at_unit(netlist, opamp, circuit_variables(netlist, opamp), structure)
         _UNIT[key] = exp
     return exp
 
