@@ -227,10 +227,17 @@ def _monomial_rows(sizes: tuple[int, ...], rows: tuple[int, ...], supports: tupl
         for j in support:
             if rows[j] >= 0:
                 reads[m, rows[j]] = True
-    # each (monomial, member)'s row: the member's entries where the monomial reads, 0 elsewhere
-    keys = (index[None, :, :] * reads[:, :, None]).transpose(1, 0, 2).reshape(n_parts, -1)
-    distinct, inverse = np.unique(keys, axis=1, return_inverse=True)
-    if distinct.shape[1] >= members:  # (no fewer rows than the combinations': each its own)
+    # each (monomial, member)'s row: the member's entries where the monomial reads, 0 elsewhere,
+    # as one number (the entries' digits in the radices n + 1, the last part's lowest)
+    radices = [n + 1 for n in sizes]
+    strides = [math.prod(radices[p + 1:]) for p in range(n_parts)]
+    distinct = None
+    if math.prod(radices) < 2 ** 62:
+        codes = (reads.astype(np.int64) * strides) @ index.astype(np.int64)  # (monomials, members)
+        unique, inverse = np.unique(codes.reshape(-1), return_inverse=True)
+        if unique.size < members:
+            distinct = (unique[None, :] // np.array(strides, dtype=np.int64)[:, None]) % np.array(radices, dtype=np.int64)[:, None]
+    if distinct is None:  # (no fewer rows than the combinations': each its own)
         distinct, inverse = index, np.tile(np.arange(members), len(supports))
     picks = inverse.reshape(len(supports), members).T * len(supports) + np.arange(len(supports))
     picks = np.ascontiguousarray(picks, dtype=np.intp)
