@@ -782,12 +782,12 @@ def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, se
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
     if len(groups) == 1:  # (every part from one series, as a rule: the parts in their order)
-        options, rounded = search_option_lists([values[ref] for ref in free], groups[0][0], width)
+        options, rounded = search_option_lists([values[ref] for ref in free], groups[0][0], width, checked=True)
     else:
         options = [None] * len(free)
         rounded = [None] * len(free)
         for ps, idx in groups:
-            opts, near = search_option_lists([values[free[i]] for i in idx], ps, width)
+            opts, near = search_option_lists([values[free[i]] for i in idx], ps, width, checked=True)
             for i, o, v in zip(idx, opts, near):
                 options[i], rounded[i] = o, v
     # Every combination of the options, and last the member that rounds every part alone to its
