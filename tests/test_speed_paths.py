@@ -413,23 +413,38 @@ def test_repeated_searches_are_made_once_with_the_same_choices(series):
 
 
 @pytest.mark.parametrize("circuit", sorted(topology_ids()))
-def test_dense_log_of_finite_logs_equals_dense_log(circuit):
-    """Expansion.dense_log_finite_into (no look for non-finite rows, written into arrays given)
-    against dense_log on finite log ratios, one batch and a stack of batches: the same
-    coefficients bit for bit. A consistency check of our own two paths, no outside source."""
+def test_picked_monomials_equal_dense_log(circuit):
+    """Expansion.dense_log_finite_picked_into (the monomials of a few rows, picked for every
+    combination by standard._monomial_rows, written into arrays given) against dense_log of
+    every combination's own log ratios (standard._log_gather), one search and a stack of
+    three, with random free parts, option counts and finite logs: the same coefficients bit for
+    bit. A consistency check of our own two paths, no outside source."""
+    from bandsmith.design import standard
     from bandsmith.solver.expansion import unit_expansion_values
 
     topo = get_topology(circuit)
     exp, own = unit_expansion_values(topo.build(topo.values_from(topo.example)))
     rng = np.random.default_rng(19)
+    n_var = len(own)
     base = np.log(own) - np.log([u.value for u in exp.variables])
-    for shape in ((40, len(own)), (3, 90, len(own))):
-        logs = base + rng.normal(0.0, 0.5, shape)
+    for trial in range(6):
+        chosen = sorted(rng.choice(n_var, size=rng.integers(1, n_var + 1), replace=False).tolist())
+        sizes = tuple(int(n) for n in rng.integers(1, 4, len(chosen)))
+        rows = tuple(chosen.index(j) if j in chosen else -1 for j in range(n_var))
+        gather = standard._log_gather(sizes, rows)
+        few, picks = standard._monomial_rows(sizes, rows, exp.monomial_supports())
+        n_entries = sum(sizes) + len(sizes) + n_var - len(chosen)
         wn, wd = exp.dense_widths
-        mine = np.empty(shape[:-1] + (wn,)), np.empty(shape[:-1] + (wd,))
-        exp.dense_log_finite_into(logs, *mine)
-        for got, ref in zip(mine, exp.dense_log(logs)):
-            assert_array_equal(got, ref)
+        for stack in (None, 3):
+            shape = (n_entries,) if stack is None else (stack, n_entries)
+            logs = rng.normal(0.0, 2.0, shape) + base.mean()
+            full = logs.take(gather) if stack is None else logs.take(gather, axis=1)
+            few_logs = logs.take(few) if stack is None else logs.take(few, axis=1)
+            mine = np.empty(full.shape[:-1] + (wn,)), np.empty(full.shape[:-1] + (wd,))
+            exp.dense_log_finite_picked_into(few_logs, picks, *mine)
+            for got, ref in zip(mine, exp.dense_log(full)):
+                assert_array_equal(got, ref)
+        assert few.shape[0] <= gather.shape[0]
 
 
 @pytest.mark.parametrize("circuit", sorted(topology_ids()))

@@ -296,7 +296,7 @@ def search_options(x, series: str, width: int) -> tuple[list[np.ndarray], np.nda
     return [np.array(o) for o in options], np.array(near)
 
 
-def search_option_lists(x, series: str, width: int) -> tuple[list[list[float]], list[float]]:
+def search_option_lists(x, series: str, width: int, *, checked: bool = False) -> tuple[list[list[float]], list[float]]:
     """For a few values at once: the standard values a combination search offers each, and each
     one's nearest standard value, as plain lists of floats.
 
@@ -308,6 +308,9 @@ def search_option_lists(x, series: str, width: int) -> tuple[list[list[float]], 
     rounded step from its code. The offered values are neighbours in the series, so each is one
     slice of the series' table (:func:`_series_table`), found by bisection; a value beyond the
     table (or a wide ``width``) is located from its logarithm instead.
+
+    ``checked``: ``x`` is a list of finite floats above zero already (a design's part values,
+    :meth:`~bandsmith.circuits.topology.Topology.values_from`'s), taken without a second look.
 
     Returns
     -------
@@ -325,7 +328,7 @@ def search_option_lists(x, series: str, width: int) -> tuple[list[list[float]], 
 
     options, near = [], []
     inside = width <= 8
-    for xv in _positive_floats(x):
+    for xv in x if checked else _positive_floats(x):
         ceiling = xv * _UP
         if inside and x_min < xv < x_max:
             # the largest standard value <= ceiling, by bisection of the table

@@ -161,18 +161,19 @@ def _combinations(netlist, over: Mapping[str, np.ndarray], w_ref: float):
 
 
 @functools.lru_cache(maxsize=64)
-def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.ndarray, tuple[int, ...], np.ndarray]:
+def _log_plan(exp, free: tuple[str, ...], sizes: tuple[int, ...]) -> tuple[np.ndarray, tuple[int, ...], np.ndarray, tuple[np.ndarray, np.ndarray]]:
     """What :func:`_combination_searches` needs of an expansion ``exp`` (a kept unit expansion, one
     per circuit structure) for these free parts and option counts, made once: the unit value of
     each of a search's entries (a free part's options and nearest value over its variable's
-    unit, then each held variable's unit), the held variables' columns, and :func:`_log_gather`'s
-    positions. Read-only."""
+    unit, then each held variable's unit), the held variables' columns, :func:`_log_gather`'s
+    positions and :func:`_monomial_rows`' rows and picks. Read-only."""
     at = {r: k for k, r in enumerate(free)}
     units = [u.value for u in exp.variables]
     held = tuple(j for j, u in enumerate(exp.variables) if u.name not in at)
     per_entry = np.concatenate([np.repeat([units[exp.column[r]] for r in free], [n + 1 for n in sizes]), [units[j] for j in held]])
     per_entry.setflags(write=False)
-    return per_entry, held, _log_gather(sizes, tuple(at.get(u.name, -1) for u in exp.variables))
+    rows = tuple(at.get(u.name, -1) for u in exp.variables)
+    return per_entry, held, _log_gather(sizes, rows), _monomial_rows(sizes, rows, exp.monomial_supports())
 
 
 @functools.lru_cache(maxsize=64)
@@ -182,18 +183,66 @@ def _log_gather(sizes: tuple[int, ...], rows: tuple[int, ...]) -> np.ndarray:
     ``j`` is free part ``rows[j]`` (its row of :func:`_flat_combination_index`) or, where
     ``rows[j]`` is −1, held at its own value (one entry after the options, in the variables'
     order). Read-only."""
-    index = _flat_combination_index(sizes)
+    return _positions(_combination_index(sizes), sizes, rows)
+
+
+def _positions(index: np.ndarray, sizes: tuple[int, ...], rows: tuple[int, ...]) -> np.ndarray:
+    """:func:`_log_gather` of the members whose entries (one column per member, one row per
+    free part, as :func:`_combination_index`'s) ``index`` gives: the positions of their log
+    ratios in a search's row of logs, ``(members, variables)``, read-only."""
+    starts = np.cumsum((0,) + tuple(n + 1 for n in sizes[:-1]))
     n_flat = sum(sizes) + len(sizes)
     out = np.empty((index.shape[1], len(rows)), dtype=np.intp)
     held = 0
     for j, r in enumerate(rows):
         if r >= 0:
-            out[:, j] = index[r]
+            np.add(index[r], starts[r], out=out[:, j])
         else:
             out[:, j] = n_flat + held
             held += 1
     out.setflags(write=False)
     return out
+
+
+@functools.lru_cache(maxsize=64)
+def _monomial_rows(sizes: tuple[int, ...], rows: tuple[int, ...], supports: tuple[tuple[int, ...], ...]) -> tuple[np.ndarray, np.ndarray]:
+    """The few rows of log ratios from which every combination's monomials are taken, and where
+    each is taken from (:meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_picked_into`):
+    monomial ``m`` reads only the variables ``supports[m]`` (the others' exponents are zero), so
+    its value at a combination is its value at any row with that combination's entries on the
+    free parts among them (``rows`` as :func:`_log_gather` takes them); each such row here has
+    the first option (entry 0) on every other free part (or, where those rows would be no fewer
+    than the combinations, each combination's own). Returns the distinct rows' positions
+    (:func:`_positions`, ``(R, variables)``) and ``(combinations, monomials)`` picks into the
+    ``(R, monomials)`` monomials of those rows, flat. Read-only.
+
+    A monomial's exponent of the log ratios is ``Σ_j lr_j·e_j`` over every variable; a term with
+    ``e_j = 0`` is ±0 for a finite ``lr_j`` and adds nothing (``x + ±0 = x``; a sum of zeros is
+    ±0, and ``exp(±0) = 1``), so with the same entries on its support, the same terms in the same
+    order make the same sum at any row (the product is taken row by row: tested)."""
+    index = _combination_index(sizes)
+    n_parts, members = index.shape
+    reads = np.zeros((len(supports), n_parts), dtype=bool)  # monomial × free part it reads
+    for m, support in enumerate(supports):
+        for j in support:
+            if rows[j] >= 0:
+                reads[m, rows[j]] = True
+    # each (monomial, member)'s row: the member's entries where the monomial reads, 0 elsewhere,
+    # as one number (the entries' digits in the radices n + 1, the last part's lowest)
+    radices = [n + 1 for n in sizes]
+    strides = [math.prod(radices[p + 1:]) for p in range(n_parts)]
+    distinct = None
+    if math.prod(radices) < 2 ** 62:
+        codes = (reads.astype(np.int64) * strides) @ index.astype(np.int64)  # (monomials, members)
+        unique, inverse = np.unique(codes.reshape(-1), return_inverse=True)
+        if unique.size < members:
+            distinct = (unique[None, :] // np.array(strides, dtype=np.int64)[:, None]) % np.array(radices, dtype=np.int64)[:, None]
+    if distinct is None:  # (no fewer rows than the combinations': each its own)
+        distinct, inverse = index, np.tile(np.arange(members), len(supports))
+    picks = inverse.reshape(len(supports), members).T * len(supports) + np.arange(len(supports))
+    picks = np.ascontiguousarray(picks, dtype=np.intp)
+    picks.setflags(write=False)
+    return _positions(distinct, sizes, rows), picks
 
 
 @functools.lru_cache(maxsize=64)
@@ -509,7 +558,8 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False, grou
     circuit) are made in one stacked batch (dense_log takes a stack's products one batch at a
     time, each batch's numbers as alone), from one gather of their rows of logs; where every
     offered value's log is finite, so is every row, and
-    :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_into` looks for no other. The
+    :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_picked_into` looks for no
+    other. The
     coefficients of every search are then taken to ``p = s/w_ref`` and scaled in one joined batch
     (:func:`_scaled_searches`): the transfer functions
     :meth:`~bandsmith.solver.expansion.Expansion.rational` gives each search's values alone (it
@@ -559,37 +609,39 @@ def _combination_searches(items: Sequence[tuple], *, checked: bool = False, grou
     logs = np.log(entries / np.concatenate([plans[key][0] for key, group in stacks.items() for _ in group]))
     finite = np.isfinite(logs)
     every_finite = bool(finite.all())
-    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, np.ndarray, bool]]] = {}
+    by_widths: dict[tuple[int, int], list[tuple[Expansion, list, np.ndarray, tuple, bool]]] = {}
     start = 0
     for key, group in stacks.items():
-        exp, per_entry, gather = key[0], plans[key][0], plans[key][2]
-        stop = start + len(group) * per_entry.size
+        exp, plan = key[0], plans[key]
+        stop = start + len(group) * plan[0].size
         by_widths.setdefault(exp.dense_widths, []).append(
-            (exp, group, logs[start:stop], gather, every_finite or bool(finite[start:stop].all())))
+            (exp, group, logs[start:stop], plan, every_finite or bool(finite[start:stop].all())))
         start = stop
     for widths, blocks in by_widths.items():
         _scaled_searches(blocks, widths, out)
     return out
 
 
-def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray, bool]], widths: tuple[int, int], out: list) -> None:
+def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, tuple, bool]], widths: tuple[int, int], out: list) -> None:
     """The searches of ``blocks`` made into :class:`_Search` es, placed in ``out``. Each block is
-    ``(exp, group, logs, gather, finite)``: a stack's searches (``group``, as ``(k, setup,
+    ``(exp, group, logs, plan, finite)``: a stack's searches (``group``, as ``(k, setup,
     own)`` with ``k`` the place in ``out`` and ``own`` the variables' own values), the logs of
-    their entries (one row per search of the stack, :func:`_log_plan`'s entries), the positions
-    that gather each combination's log ratios from a row (:func:`_log_plan`) and whether every
-    log is finite; every block's dense coefficients of the ``widths`` given (numerator,
+    their entries (one row per search of the stack, :func:`_log_plan`'s entries), its
+    :func:`_log_plan` (the positions that gather each combination's log ratios from a row, and
+    the few rows its monomials are picked from) and whether every log is finite; every block's dense coefficients of the ``widths`` given (numerator,
     denominator). Their transfer functions are those
     :meth:`~bandsmith.solver.expansion.Expansion.rational` gives each search's values alone, bit
     for bit, from one set of array calls for all the blocks (a compare's seven circuits).
 
-    Block by block, the combinations' log ratios are gathered (one search's by numpy's take; a
-    stack's rows of logs each taken by the one gather along the axis: the same numbers as a
-    fancy index of offset positions, at half the cost) and their dense coefficients in the
-    expansion's ``p`` made, :meth:`~bandsmith.solver.expansion.Expansion.dense_log`'s (its
-    products written straight into the joined batch's rows by
-    :meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_into` where every log is
-    finite), each block's gathered logs let go before the next is made. Each further step is
+    Block by block, the combinations' dense coefficients in the expansion's ``p`` are made,
+    :meth:`~bandsmith.solver.expansion.Expansion.dense_log`'s: where every log is finite, from
+    the monomials of the few rows :func:`_monomial_rows` gathers (a tenth of the exponentials),
+    picked for every combination and their products written straight into the joined batch's
+    rows (:meth:`~bandsmith.solver.expansion.Expansion.dense_log_finite_picked_into`), else from
+    every combination's log ratios gathered; one search's by numpy's take, a stack's rows of
+    logs each taken by the one gather along the axis (the same numbers as a fancy index of
+    offset positions, at half the cost), each block's gathered logs let go before the next is
+    made. Each further step is
     :meth:`~bandsmith.solver.expansion.Expansion.rational`'s, member by member: the change of variable to ``p = s/w_ref`` multiplies the
     coefficients of a search by the powers of its own ``k = w_ref/w_e`` (the same ``k **
     arange`` of the same two numbers, made once per distinct ``k``; a product by 1 where the
@@ -601,19 +653,22 @@ def _scaled_searches(blocks: list[tuple[Expansion, list, np.ndarray, np.ndarray,
     more than the arithmetic (its first use), so no array is made that is not needed and each
     is let go as soon as it is used. The searches' transfer functions are rows of the joined
     batch, which :func:`_peak_costs` takes whole where it costs these searches together."""
-    rows = [len(group) * gather.shape[0] for _, group, _, gather, _ in blocks]
+    rows = [len(group) * plan[2].shape[0] for _, group, _, plan, _ in blocks]
     total = sum(rows)
     num = np.empty((total, widths[0]))
     den = np.empty((total, widths[1]))
     start = 0
-    for (exp, group, logs, gather, finite), size in zip(blocks, rows):
-        gathered = logs.take(gather) if len(group) == 1 else logs.reshape(len(group), -1).take(gather, axis=1)
+    for (exp, group, logs, (_, _, gather, (few, picks)), finite), size in zip(blocks, rows):
         num_rows, den_rows = num[start:start + size], den[start:start + size]
         if finite:
-            if gathered.ndim == 3:  # (a stack: its batches' rows in turn)
-                num_rows, den_rows = num_rows.reshape(*gathered.shape[:2], widths[0]), den_rows.reshape(*gathered.shape[:2], widths[1])
-            exp.dense_log_finite_into(gathered, num_rows, den_rows)
+            if len(group) == 1:
+                gathered = logs.take(few)
+            else:  # (a stack: its batches' rows in turn)
+                gathered = logs.reshape(len(group), -1).take(few, axis=1)
+                num_rows, den_rows = num_rows.reshape(len(group), -1, widths[0]), den_rows.reshape(len(group), -1, widths[1])
+            exp.dense_log_finite_picked_into(gathered, picks, num_rows, den_rows)
         else:
+            gathered = logs.take(gather) if len(group) == 1 else logs.reshape(len(group), -1).take(gather, axis=1)
             block_num, block_den = exp.dense_log(gathered)
             num_rows[...] = block_num.reshape(size, widths[0])
             den_rows[...] = block_den.reshape(size, widths[1])
@@ -727,12 +782,12 @@ def _search_setup(topology: Topology, exact: Mapping[str, float], spec: Spec, se
         cost = float(np.where(hurwitz_stable(h.den), _weighted_batch(measure(h), spec, tolerances), np.inf)[0])
         return Choice(values if math.isfinite(cost) else None, 1, cost, cost)
     if len(groups) == 1:  # (every part from one series, as a rule: the parts in their order)
-        options, rounded = search_option_lists([values[ref] for ref in free], groups[0][0], width)
+        options, rounded = search_option_lists([values[ref] for ref in free], groups[0][0], width, checked=True)
     else:
         options = [None] * len(free)
         rounded = [None] * len(free)
         for ps, idx in groups:
-            opts, near = search_option_lists([values[free[i]] for i in idx], ps, width)
+            opts, near = search_option_lists([values[free[i]] for i in idx], ps, width, checked=True)
             for i, o, v in zip(idx, opts, near):
                 options[i], rounded[i] = o, v
     # Every combination of the options, and last the member that rounds every part alone to its

@@ -758,7 +758,7 @@ class Expansion:
 
     def same_products(self, other: "Expansion") -> bool:
         """True where ``other`` gives the same dense coefficients as this one, number for number,
-        for the same log ratios (:meth:`dense_log`, :meth:`dense_log_finite_into`): the same variables
+        for the same log ratios (:meth:`dense_log`, :meth:`dense_log_finite_picked_into`): the same variables
         (names, kinds, units and degrees), the same ``w_ref``, exponents and term matrices (two
         circuits whose ideal transfer functions are one function of their parts, say)."""
         return other is self or (
@@ -766,20 +766,29 @@ class Expansion:
             and np.array_equal(self._exps_ratio, other._exps_ratio)
             and np.array_equal(self._num_dense, other._num_dense) and np.array_equal(self._den_dense, other._den_dense))
 
-    def dense_log_finite_into(self, log_ratios: np.ndarray, num: np.ndarray, den: np.ndarray) -> None:
-        """:meth:`dense_log` of log ratios known to be all finite (no absent stamp, no row looked
-        at for a value that is not a number: a search over many combinations checks its few
-        offered values' logs instead), written into ``num`` and ``den`` (C-contiguous, of the
-        shapes it gives: the rows of a batch joined with others, say), its monomials' exponential
-        taken in place: the same numbers (numpy's exp maps each number alone, and a product given its
-        output runs the same product), without a batch's own arrays to join afterwards — over a
-        chain's tens of thousands of combinations the memory freshly taken for those costs more
-        than the arithmetic."""
-        with np.errstate(over="ignore"):
-            mono = log_ratios @ self._exps_ratio
-            np.exp(mono, out=mono)
-            np.matmul(mono, self._num_dense, out=num)
-            np.matmul(mono, self._den_dense, out=den)
+    def monomial_supports(self) -> tuple[tuple[int, ...], ...]:
+        """Per monomial, the variables (columns of the log ratios :meth:`dense_log` takes) whose
+        exponent in it is not zero, in order."""
+        return tuple(tuple(np.flatnonzero(col).tolist()) for col in self._exps_ratio.T)
+
+    def dense_log_finite_picked_into(self, log_ratios: np.ndarray, picks: np.ndarray, num: np.ndarray, den: np.ndarray) -> None:
+        """:meth:`dense_log` of a batch whose log ratios are all finite (no absent stamp, no row
+        looked at for a value that is not a number: a search over many combinations checks its
+        few offered values' logs instead), its monomials taken from those of a few rows: the
+        monomials of the rows ``log_ratios`` (``(R, n_var)``, or a stack ``(G, R, n_var)``),
+        ``exp(log ratios @ exponents)``, then each member's from them by ``picks`` (``(B, M)``
+        flat positions in a row's ``(R, M)`` monomials, :func:`numpy.take`), onto every power
+        of p into ``num`` and ``den`` (C-contiguous, ``(B, k)`` or ``(G, B, k)``: the rows of a
+        batch joined with others, say). Where every member's monomial is picked from a row with
+        its log ratios on the monomial's variables (:meth:`monomial_supports`), the numbers of
+        dense_log of the members' own rows: the other terms of its sum are ±0 and add nothing,
+        numpy's exp maps each number alone, and a product given its output runs the same
+        product. Floating-point warnings are the caller's (an exponential may overflow)."""
+        mono = log_ratios @ self._exps_ratio
+        np.exp(mono, out=mono)
+        picked = mono.take(picks) if mono.ndim == 2 else mono.reshape(mono.shape[0], -1).take(picks, axis=1)
+        np.matmul(picked, self._num_dense, out=num)
+        np.matmul(picked, self._den_dense, out=den)
 
     def opamp_terms(self, log_ratios: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
         """The transfer function of one member as a polynomial in the op-amp stamp its ``m``
