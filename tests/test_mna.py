@@ -50,3 +50,18 @@ def test_solve_complex_is_numpy_linalg_solve_bit_for_bit():
         solve_complex(singular, np.ones((1, 3, 1), dtype=complex))
     with pytest.raises(np.linalg.LinAlgError):
         np.linalg.solve(singular, np.ones((1, 3, 1), dtype=complex))
+
+
+def test_first_kept_is_the_first_nonzero_entry():
+    # Reference: numpy.flatnonzero (a NaN is nonzero there too), the last index where every entry
+    # is zero (lead_trimmed keeps one coefficient); random rows with zeros, NaN and signed zeros.
+    from bandsmith.solver.rational import first_kept, lead_trimmed
+
+    rng = np.random.default_rng(11)
+    for _ in range(500):
+        n = int(rng.integers(1, 8))
+        row = [float(rng.choice([0.0, -0.0, np.nan, rng.normal()])) for _ in range(n)]
+        nz = np.flatnonzero(np.array(row))
+        want = int(nz[0]) if nz.size else n - 1
+        assert first_kept(row) == want
+        assert len(lead_trimmed(row)) == n - want
