@@ -487,7 +487,7 @@ def _requirements(
         vout = max([vout] + [a.vout_peak_v for a in amps])
         slew_sine = max([slew_sine] + [a.slew_sine_v_per_s for a in amps])
         slew_step = max([slew_step] + [a.slew_step_v_per_s for a in amps])
-        iout = max(a.iout_peak_a for a in amps)
+        iout = max([a.iout_peak_a for a in amps])
     else:
         if current is None and math.isfinite(f0_hz):
             current = opamp_output_current(netlist, f0_hz, rload_ohm=rload_ohm)

@@ -321,7 +321,7 @@ def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits
     sigma = est.sigma
     bent = max(sigma["f0"], sigma["q"], math.expm1(sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
     band = limits.confirm_band * (2.0 if bent else 1.0)
-    near = any(abs(est.fraction - e) < band for e in edges)
+    near = any([abs(est.fraction - e) < band for e in edges])
     mc = confirm_yield(result.analysis.netlist, tol, limits) if near and tol else None
     return est, mc, est.fraction if mc is None else mc
 

@@ -230,7 +230,7 @@ def estimate_yield(
             p.append(float(t))
     n_parts = len(refs)
     # the sensitivities, row by row (f0, Q, gain), a non-finite one taken as zero
-    flat = [float(row.get(r, 0.0)) for row in (sensitivity.get(k, _NONE) for k in FIGURES) for r in refs]
+    flat = [float(row.get(r, 0.0)) for row in [sensitivity.get(k, _NONE) for k in FIGURES] for r in refs]
     if not all(map(math.isfinite, flat)):
         flat = [v if math.isfinite(v) else 0.0 for v in flat]
     window = (limits.window_f0, limits.window_q, limits.window_gain_db)
