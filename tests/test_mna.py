@@ -30,3 +30,38 @@ def test_solve_at_many_is_solve_at_of_each_bit_for_bit():
         want, want_layout = solve_at(nl, s)
         assert layout == want_layout
         assert np.array_equal(x, want)
+
+
+def test_solve_complex_is_numpy_linalg_solve_bit_for_bit():
+    # Reference: numpy.linalg.solve (numpy's documented routine; solve_complex calls its gufunc
+    # without the argument checks): random complex stacks, one and several right-hand sides,
+    # broadcast and 1-D, the same numbers; a singular matrix raises LinAlgError as it does.
+    from bandsmith.solver.mna import solve_complex
+
+    rng = np.random.default_rng(7)
+    for n in (1, 3, 6, 11):
+        a = rng.normal(size=(4, n, n)) + 1j * rng.normal(size=(4, n, n))
+        for b in (rng.normal(size=(1, n, 1)) + 0j, rng.normal(size=(4, n, 2)) + 1j * rng.normal(size=(4, n, 2))):
+            assert np.array_equal(solve_complex(a, b), np.linalg.solve(a, b))
+        b1 = rng.normal(size=n) + 1j * rng.normal(size=n)
+        assert np.array_equal(solve_complex(a[0], b1), np.linalg.solve(a[0], b1))
+    singular = np.zeros((2, 3, 3), dtype=complex)
+    with pytest.raises(np.linalg.LinAlgError):
+        solve_complex(singular, np.ones((1, 3, 1), dtype=complex))
+    with pytest.raises(np.linalg.LinAlgError):
+        np.linalg.solve(singular, np.ones((1, 3, 1), dtype=complex))
+
+
+def test_first_kept_is_the_first_nonzero_entry():
+    # Reference: numpy.flatnonzero (a NaN is nonzero there too), the last index where every entry
+    # is zero (lead_trimmed keeps one coefficient); random rows with zeros, NaN and signed zeros.
+    from bandsmith.solver.rational import first_kept, lead_trimmed
+
+    rng = np.random.default_rng(11)
+    for _ in range(500):
+        n = int(rng.integers(1, 8))
+        row = [float(rng.choice([0.0, -0.0, np.nan, rng.normal()])) for _ in range(n)]
+        nz = np.flatnonzero(np.array(row))
+        want = int(nz[0]) if nz.size else n - 1
+        assert first_kept(row) == want
+        assert len(lead_trimmed(row)) == n - want

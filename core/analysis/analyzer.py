@@ -79,13 +79,14 @@ class AmplifierNeeds:
     iout_peak_a: float
 
     def to_json(self) -> dict:
+        f = finite_or_none
         return {
             "ref": self.ref,
             "node": self.node,
-            "vout_peak_v": finite_or_none(self.vout_peak_v),
-            "slew_sine_v_per_us": finite_or_none(to_v_per_us(self.slew_sine_v_per_s)),
-            "slew_step_v_per_us": finite_or_none(to_v_per_us(self.slew_step_v_per_s)),
-            "iout_peak_ma": finite_or_none(to_ma(self.iout_peak_a)),
+            "vout_peak_v": f(self.vout_peak_v),
+            "slew_sine_v_per_us": f(to_v_per_us(self.slew_sine_v_per_s)),
+            "slew_step_v_per_us": f(to_v_per_us(self.slew_step_v_per_s)),
+            "iout_peak_ma": f(to_ma(self.iout_peak_a)),
         }
 
 
@@ -265,7 +266,7 @@ class Analysis:
             "actual": self.actual.to_json() if self.actual is not None else None,
             "opamp": self.opamp.to_json(),
             "requirements": self.requirements.to_json(),
-            "sensitivity": {k: dict(zip(v, map(float, v.values()))) for k, v in self.sensitivity.items()},
+            "sensitivity": {k: {ref: float(x) for ref, x in v.items()} for k, v in self.sensitivity.items()},
         }
 
 
@@ -379,7 +380,8 @@ def amplifier_needs(
     amps = netlist.opamps
     nodes = [system.layout.node_index[e.nodes[2]] for e in amps]
     den = None if h_ideal is None else (h_ideal.den[0].tolist(), float(h_ideal.w_ref[0]))
-    degree = sum(1 for e in netlist.elements if e.kind == "C" or e.kind == "L")  # the rank of C at most
+    kinds = [e.kind for e in netlist.elements]
+    degree = kinds.count("C") + kinds.count("L")  # the rank of C at most
     if rload_ohm is None:  # the outputs' voltages and currents at f0 solved with the same samples
         nums, den_c, x0 = node_coefficients(system, nodes, w_ref, at=s0, den=den, degree=degree)
         at_f0 = np.abs(x0[nodes + [system.layout.opamp_row[e.ref] for e in amps]]).tolist()
@@ -485,7 +487,7 @@ def _requirements(
         vout = max([vout] + [a.vout_peak_v for a in amps])
         slew_sine = max([slew_sine] + [a.slew_sine_v_per_s for a in amps])
         slew_step = max([slew_step] + [a.slew_step_v_per_s for a in amps])
-        iout = max(a.iout_peak_a for a in amps)
+        iout = max([a.iout_peak_a for a in amps])
     else:
         if current is None and math.isfinite(f0_hz):
             current = opamp_output_current(netlist, f0_hz, rload_ohm=rload_ohm)

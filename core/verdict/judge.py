@@ -321,7 +321,7 @@ def _yield(result: DesignResult, kinds: Mapping[str, str], limits: VerdictLimits
     sigma = est.sigma
     bent = max(sigma["f0"], sigma["q"], math.expm1(sigma["gain_db"] * math.log(10.0) / 20.0)) > limits.confirm_sigma
     band = limits.confirm_band * (2.0 if bent else 1.0)
-    near = any(abs(est.fraction - e) < band for e in edges)
+    near = any([abs(est.fraction - e) < band for e in edges])
     mc = confirm_yield(result.analysis.netlist, tol, limits) if near and tol else None
     return est, mc, est.fraction if mc is None else mc
 
@@ -367,7 +367,9 @@ def _inductor_reason(result: DesignResult, limits: VerdictLimits) -> Reason | No
 
 
 def _order(reasons: list[Reason]) -> tuple[Reason, ...]:
-    return tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
+    """Heaviest first, in their order within a weight (a stable sort by weight)."""
+    return (*[r for r in reasons if r.weight == NOT_BUILDABLE], *[r for r in reasons if r.weight == MARGINAL],
+            *[r for r in reasons if r.weight != NOT_BUILDABLE and r.weight != MARGINAL])
 
 
 def _settled_limits(result: DesignResult, limits: VerdictLimits, seen: dict | None = None) -> list[_Crossed]:
@@ -434,7 +436,8 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     r = _inductor_reason(result, limits) if inductor else None
     if r is not None:
         reasons.append(r)
-    so_far = max((r.weight for r in reasons), key=VERDICTS.index, default=BUILDABLE)
+    weights = {r.weight for r in reasons}
+    so_far = NOT_BUILDABLE if NOT_BUILDABLE in weights else MARGINAL if MARGINAL in weights else BUILDABLE
     est, mc, y = _yield(result, parts.kinds, limits, so_far, seen)
     r = _yield_reason(est, mc, y, limits, parts.kind_set)
     if r is not None:

@@ -39,7 +39,7 @@ def merit_key(v: Verdict, position: int = 0) -> tuple:
     y = -1.0 if v.yield_fraction is None else v.yield_fraction
     g = v.required_gbw_hz
     gbw = round(math.log(g) / GBW_STEP) if g is not None and math.isfinite(g) and g > 0 else math.inf
-    heavy = sum(1 for r in v.reasons if r.weight == v.verdict)
+    heavy = [r.weight for r in v.reasons].count(v.verdict)
     return (VERDICTS.index(v.verdict), heavy, -math.floor(y / YIELD_STEP + 1e-9), v.needs_inductor, gbw, v.part_count, position)
 
 
@@ -78,7 +78,7 @@ def rank(verdicts: Sequence[Verdict]) -> Ranking:
         why = [f"yield {100 * best.yield_fraction:.1f} %" if best.yield_fraction is not None else None,
                f"op-amp of {format_value(best.required_gbw_hz, 'Hz')} GBW" if best.required_gbw_hz is not None else None,
                f"{best.part_count} parts", "with an inductor" if best.needs_inductor else "no inductor"]
-        others = sum(1 for v in verdicts if v.verdict == BUILDABLE) - 1
+        others = [v.verdict for v in verdicts].count(BUILDABLE) - 1
         lead = "the only buildable candidate" if others == 0 else f"the best of {others + 1} buildable candidates"
         return Ranking(tuple(ranks), order, best.candidate, f"{best.candidate}: {lead} ({', '.join(w for w in why if w)})")
     first = best.reasons[0].text if best.reasons else best.verdict

@@ -44,6 +44,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass
+from operator import mul
 from typing import Mapping
 
 import numpy as np
@@ -229,7 +230,7 @@ def estimate_yield(
             p.append(float(t))
     n_parts = len(refs)
     # the sensitivities, row by row (f0, Q, gain), a non-finite one taken as zero
-    flat = [float(row.get(r, 0.0)) for row in (sensitivity.get(k, _NONE) for k in FIGURES) for r in refs]
+    flat = [float(row.get(r, 0.0)) for row in [sensitivity.get(k, _NONE) for k in FIGURES] for r in refs]
     if not all(map(math.isfinite, flat)):
         flat = [v if math.isfinite(v) else 0.0 for v in flat]
     window = (limits.window_f0, limits.window_q, limits.window_gain_db)
@@ -248,7 +249,7 @@ def estimate_yield(
     contrib, totals, rows = [], [], []
     for f in range(len(FIGURES)):
         row = flat[f * n_parts : (f + 1) * n_parts]
-        c = [(v * t) * (v * t) / 3.0 for v, t in zip(row, p)]
+        c = [x * x / 3.0 for x in map(mul, row, p)]  # (S·p)·(S·p)/3
         contrib.append(c)
         totals.append(_row_sum(c))
         if not _dot_abs(row, reach) * (1.0 + 1e-9) < inner[f]:
@@ -279,14 +280,21 @@ def estimate_yield(
         fraction = np.count_nonzero(every) / n
         for f, row in zip(rows, inside):  # row by row: contiguous, quicker than axis=1
             within[f] = np.count_nonzero(row) / n
-    k = min(range(len(FIGURES)), key=within.__getitem__) if refs else 0  # the first of the least, as argmin
+    k = 0  # the first of the least, as argmin
+    if refs:
+        if within[1] < within[k]:
+            k = 1
+        if within[2] < within[k]:
+            k = 2
     total = totals[k]
     if refs and total > 0:
         # the first part (in the circuit's order) of the largest share: parts whose shares are the
         # same in theory (equal sensitivities and tolerances) differ only in rounding, which must not choose
         shares = contrib[k]
         top = max(shares) * (1.0 - 1e-6)
-        j = next(i for i, c in enumerate(shares) if c >= top)
+        j = 0
+        while not shares[j] >= top:
+            j += 1
         part, share = refs[j], shares[j] / total
     else:
         part, share = None, 0.0
