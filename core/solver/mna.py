@@ -21,7 +21,12 @@ from dataclasses import dataclass
 from typing import Mapping, Sequence
 
 import numpy as np
-from numpy.linalg import LinAlgError, _umath_linalg
+from numpy.linalg import LinAlgError
+
+try:  # numpy's own solver gufunc, which numpy.linalg.solve calls after its argument checks
+    from numpy.linalg import _umath_linalg
+except ImportError:  # (a numpy that moved it: numpy.linalg.solve itself, the same numbers)
+    _umath_linalg = None
 
 from bandsmith.solver.netlist import Netlist
 
@@ -38,6 +43,8 @@ def solve_complex(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     matrix) under its own error handling (a singular matrix raises ``LinAlgError``), without its
     argument checks and conversions, which cost more than a small solve: the same numbers (tested).
     For arrays already of that form: complex128, ``b`` of one or more dimensions."""
+    if _umath_linalg is None:
+        return np.linalg.solve(a, b)
     with np.errstate(call=_singular, invalid="call", over="ignore", divide="ignore", under="ignore"):
         return (_umath_linalg.solve1 if b.ndim == 1 else _umath_linalg.solve)(a, b, signature="DD->D")
 
