@@ -34,7 +34,7 @@ from bandsmith.analysis.transfer import ideal_figures, nominal_system, several_a
 from bandsmith.solver.mna import IDEAL, OpAmpModel, build_system, solve_at, solve_at_many
 from bandsmith.solver.netlist import Element, Netlist
 from bandsmith.solver.expansion import UNIT_OPAMP, Expansion, ExpansionUnavailable, unit_expansion_values
-from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, exponents_down, first_kept, lead_trimmed, node_coefficients, rational_and_family, reference_w
+from bandsmith.solver.rational import AmpFamily, OpAmpFamily, Rational, _lead_trim, exponents_down, first_kept, largest_in_rows, lead_trimmed, node_coefficients, rational_and_family, reference_w
 from bandsmith.solver.stability import routh_stable
 from bandsmith.analysis.timeresponse import StepResponse, max_step_slope, max_step_slopes_of, step_response
 
@@ -688,7 +688,7 @@ def _expanded_rationals(setups: Sequence[_Expanded], blocks: Sequence[tuple[np.n
     to_p = w_rows ** exponents_down(wd)  # c·s^k = c·w_ref^k·p^k, column by column
     den_p = den_all * to_p
     num_p = num_all * (to_p[..., wd - wn :] if wn <= wd else w_rows ** exponents_down(wn))
-    scale = np.abs(den_p).max(axis=1, keepdims=True)
+    scale = largest_in_rows(den_p)
     num_s, den_s = num_p / scale, den_p / scale
     finite = np.isfinite(den_all).all(axis=1).tolist()
     # each candidate's leading columns zero in all its rows (what _lead_trim drops; a NaN is not zero)

@@ -63,11 +63,18 @@ class Figures:
         """A sub-batch (a slice or index array), as arrays."""
         return Figures(*[np.asarray(getattr(self, name))[index] for name in _FIELDS])
 
-    def members(self, rows: Sequence[int]) -> "list[Figures]":
-        """:meth:`take` of each of ``rows`` as a batch of one (``take(slice(r, r + 1))``), the
-        figures of every row gathered at once."""
+    def members(self, rows: Sequence[int] | slice) -> "list[Figures]":
+        """:meth:`take` of each of ``rows`` (indices, or a slice) as a batch of one
+        (``take(slice(r, r + 1))``), the figures of every row gathered at once, each with its
+        :meth:`item` made from them (the same floats)."""
         columns = [np.asarray(getattr(self, name))[rows] for name in _FIELDS]
-        return [Figures(*[c[p : p + 1] for c in columns]) for p in range(len(rows))]
+        floats = [c.tolist() for c in columns]
+        out = []
+        for p in range(len(floats[0])):
+            one = Figures(*[c[p : p + 1] for c in columns])
+            object.__setattr__(one, "_first", Figures(*[f[p] for f in floats]))
+            out.append(one)
+        return out
 
     @staticmethod
     def repeated(members: "list[Figures]", counts) -> "Figures":
@@ -353,11 +360,7 @@ def nominal_and_peaks_many(hs: Sequence[Rational]) -> list[tuple[Figures, np.nda
         if whole:
             first = np.array(starts)
             nominal = figures_at(h.w_ref[first], *_biquad_parts(num[first, -2], den[first, 0], den[first, 1], den[first, 2])[:-1])
-            columns = [getattr(nominal, name) for name in _FIELDS]
-            floats = [c.tolist() for c in columns]  # (each member's scalars, as Figures.item reads them)
-            for n, (i, start, stop) in enumerate(whole):
-                fig = Figures(*[c[n : n + 1] for c in columns])
-                object.__setattr__(fig, "_first", Figures(*[f[n] for f in floats]))
+            for fig, (i, start, stop) in zip(nominal.members(slice(None)), whole):
                 out[i] = (fig, peaks[:, start:stop])
     for i, h in enumerate(hs):
         if out[i] is None:

@@ -252,7 +252,7 @@ def _ladders(items, gbws: list[np.ndarray], a0: float) -> Rational:
              for k, (netlist, _, family, w_ref) in enumerate(items) if not isinstance(family, (OpAmpFamily, AmpFamily))]
     if not blocks:
         return alone[0][1] if len(alone) == 1 else Rational.joined([h for _, h in alone])
-    parts = [(start, num, den) for start, num, den in blocks] + [(start, h.num, h.den) for start, h in alone]
+    parts = blocks + [(start, h.num, h.den) for start, h in alone]
     num = np.zeros((starts[-1], max(p[1].shape[1] for p in parts)))
     den = np.zeros((starts[-1], max(p[2].shape[1] for p in parts)))
     for start, n_rows, d_rows in blocks:

@@ -123,13 +123,11 @@ def _variables(named: list[tuple[str, str, int]], values: list[float]) -> tuple[
 def _values_and_key(netlist: Netlist, opamp: OpAmpModel) -> tuple[list[tuple[str, str, int]], list[float], tuple]:
     """:func:`circuit_variables` as their ``(name, kind, degree)`` and their values (plain
     floats: cheaper to make than the records, where a kept expansion's lookup needs only the
-    structure and the values), and the structure key (:func:`_fields_key`'s), from one pass over
-    the elements."""
-    named, values, elements = [], [], []
+    structure and the values), and the structure key (:func:`_keyed`)."""
+    named, values = [], []
     m = 0  # op-amps
     for e in netlist.elements:
-        kind, nodes = e.kind, e.nodes
-        elements.append((e.ref, kind, nodes if type(nodes) is tuple else tuple(nodes), e.series_ref))
+        kind = e.kind
         if kind == "opamp":
             m += 1
         elif kind in PASSIVE_KINDS:
@@ -141,7 +139,14 @@ def _values_and_key(netlist: Netlist, opamp: OpAmpModel) -> tuple[list[tuple[str
     if not opamp.ideal and m:
         named += [("gbw", "gbw", m), ("a0", "a0", m)]
         values += [float(opamp.gbw_hz), float(opamp.a0)]
-    return named, values, (tuple(elements), netlist.ground, netlist.input, netlist.output, tuple(named))
+    return named, values, _keyed(netlist, named)
+
+
+def _keyed(netlist: Netlist, named: list[tuple[str, str, int]]) -> tuple:
+    """What an expansion's fit depends on: the netlist's elements without their values, its
+    ground, input and output, and the ``(name, kind, degree)`` of each of its variables."""
+    elements = tuple([(e.ref, e.kind, e.nodes if type(e.nodes) is tuple else tuple(e.nodes), e.series_ref) for e in netlist.elements])
+    return (elements, netlist.ground, netlist.input, netlist.output, tuple(named))
 
 
 def _system_for(netlist: Netlist, variables: tuple[Variable, ...], values: np.ndarray, opamp: OpAmpModel):
@@ -450,16 +455,8 @@ def _unit_netlist(netlist: Netlist) -> Netlist:
 
 
 def _structure_key(netlist: Netlist, variables: tuple[Variable, ...]) -> tuple:
-    """What an expansion's fit depends on: the netlist's elements without their values, and the
-    name, kind and degree of each of its ``variables``."""
-    return _fields_key(netlist, [(v.name, v.kind, v.value, v.degree) for v in variables])
-
-
-def _fields_key(netlist: Netlist, fields: list[tuple[str, str, float, int]]) -> tuple:
-    """:func:`_structure_key` from the variables' ``(name, kind, value, degree)`` (the key
-    :func:`_values_and_key` makes)."""
-    elements = tuple((e.ref, e.kind, tuple(e.nodes), e.series_ref) for e in netlist.elements)
-    return (elements, netlist.ground, netlist.input, netlist.output, tuple((name, kind, degree) for name, kind, _, degree in fields))
+    """:func:`_keyed` of a netlist with these ``variables``."""
+    return _keyed(netlist, [(v.name, v.kind, v.degree) for v in variables])
 
 
 def _structural_fit(netlist: Netlist, variables: tuple[Variable, ...], opamp: OpAmpModel, sizes: list[int]) -> _Fit:
