@@ -49,12 +49,6 @@ def solve_complex(a: np.ndarray, b: np.ndarray) -> np.ndarray:
         return (_umath_linalg.solve1 if b.ndim == 1 else _umath_linalg.solve)(a, b, signature="DD->D")
 
 
-# A process's first LAPACK solve binds the library's symbols and faults its code in (some 0.15 to
-# 0.2 ms on the development machine, as long as a whole warm analysis of a biquad takes a fifth):
-# made here, with the rest of start-up, instead of in the first analysis a user waits for.
-solve_complex(np.eye(2, dtype=complex), np.ones(2, dtype=complex))
-
-
 @dataclass(frozen=True, slots=True)
 class OpAmpModel:
     """Single-pole op-amp ``A(s) = A0 / (1 + s·A0/(2π·GBW))``; ``gbw_hz=None`` is the ideal op-amp.
