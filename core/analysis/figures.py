@@ -648,14 +648,15 @@ def _sign_changes(c: np.ndarray) -> np.ndarray:
     return (held[:, 1:] * held[:, :-1] < 0).sum(axis=1)
 
 
-def measure_from(h: Rational, ref: Figures) -> Figures:
+def measure_from(h: Rational, ref: Figures, *, phase: bool = True) -> Figures:
     """:func:`measure`'s figures, found from reference figures where that is safe: Newton's method
     from ``ref`` (:func:`measure_near` with ``only_peak`` and a window of a factor ten) for the
     members whose peak found is the highest, with no other stationary point inside its band, the
     companion-matrix roots for the rest. The same figures
     as :func:`measure` (closer to them than its roots at a high Q), at a fraction of its cost
-    for a batch of members near ``ref`` (a GBW ladder)."""
-    fig = measure_near(h, ref, spread=_FROM_SPREAD, only_peak=True)
+    for a batch of members near ``ref`` (a GBW ladder). Without ``phase`` the members found by
+    Newton's method have no centre phase (NaN: a caller that reads only f0, Q and the gain)."""
+    fig = measure_near(h, ref, spread=_FROM_SPREAD, only_peak=True, phase_rows=None if phase else ())
     far = np.flatnonzero(~fig.valid)
     return fig.put(far, measure(h.take(far))) if far.size else fig
 

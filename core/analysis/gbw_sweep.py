@@ -110,13 +110,17 @@ def gbw_error_sweep(
     if family is None and len(netlist.opamps) == 1:  # the one-op-amp family serves every GBW (several: transfer_function's)
         family = rational_and_family(nominal_system(netlist), w_ref)[1]
     h = with_gbw(netlist, family, w_ref, g, float(a0))
-    fig = measure_from(h, ideal)
+    fig = measure_from(h, ideal, phase=False)
     with np.errstate(invalid="ignore", divide="ignore"):
         f0_err = fig.f0_hz / ref.f0_hz - 1.0
         q_err = fig.q / ref.q - 1.0
         gain_err = fig.gain_center_db - ref.gain_center_db
         # the largest of the three, pairwise (NaN propagating, as a reduce over them would)
         worst = np.maximum(np.maximum(np.abs(f0_err) / tolerances.f0, np.abs(q_err) / tolerances.q), np.abs(gain_err) / tolerances.gain_db)
-        flipped = np.sign(fig.gain_center) != np.sign(ref.gain_center)
-    worst = np.where(fig.valid & ~flipped, worst, np.inf)
+        # a member counts where its figures are defined and its gain has the ideal's sign: its
+        # worst error is finite exactly where f0, Q and the gain in dB are (NaN and infinity carry
+        # through the errors), and the product with the ideal's sign is above zero exactly where
+        # the signs agree (a zero, NaN or flipped gain is not)
+        counts = np.isfinite(worst) & (fig.gain_center * math.copysign(1.0, ref.gain_center) > 0.0) if ref.gain_center != 0.0 else False
+    worst = np.where(counts, worst, np.inf)
     return GbwSweep(gbw_hz=g, f0_error=f0_err, q_error=q_err, gain_error_db=gain_err, worst=worst)

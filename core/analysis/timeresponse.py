@@ -85,11 +85,15 @@ class _Modes:
     All in real arithmetic, each pole's row over the times at once. A pole in the right
     half-plane (an unstable candidate) makes its mode outgrow the largest double late in the
     grid: the responses are infinite or NaN there, as the growth they describe, without a warning.
+
+    ``uniform``: how many of the first times are evenly spaced from 0 (:func:`default_time_grid`'s
+    grid, whose last one is its end): there a pair's cosine and sine come from
+    :func:`_even_phasors`, not from ``numpy.cos`` and ``numpy.sin`` of every time.
     """
 
     __slots__ = ("a", "poles", "size", "grows", "pair", "real_lam", "real_exp", "pair_lam", "pair_cos", "pair_sin")
 
-    def __init__(self, a: np.ndarray, t: np.ndarray, p: np.ndarray):
+    def __init__(self, a: np.ndarray, t: np.ndarray, p: np.ndarray, uniform: int = 0):
         p = p[p.imag >= 0]
         self.a = a
         self.poles = p.tolist()
@@ -97,14 +101,15 @@ class _Modes:
         self.grows = any(z.real > 0 for z in self.poles)
         if self.grows:
             with np.errstate(over="ignore", invalid="ignore"):
-                self._modes(t, p)
+                self._modes(t, p, uniform)
         else:
-            self._modes(t, p)
+            self._modes(t, p, uniform)
 
-    def _modes(self, t: np.ndarray, p: np.ndarray) -> None:
+    def _modes(self, t: np.ndarray, p: np.ndarray, uniform: int) -> None:
         """Each pole's mode over the times ``t`` (the upper poles ``p``). A mode whose decay
         underflows to zero before the last time (an op-amp's fast poles, over most of the grid)
-        is taken only where it has not (:func:`_decay`), its cosine and sine likewise."""
+        is taken only where it has not (:func:`_decay`); a pair's cosine and sine are taken over
+        every time (times zero where the decay is)."""
         self.pair = pair = p.imag > 0
         self.real_lam = self.real_exp = self.pair_lam = self.pair_cos = self.pair_sin = None
         latest = float(t.max())
@@ -113,16 +118,8 @@ class _Modes:
             self.real_exp = _decay(lam[:, None] * t, lam, latest)[0]  # (poles, times)
         if pair.any():
             self.pair_lam = lam = p[pair]
-            e, live = _decay(lam.real[:, None] * t, lam.real, latest)
-            wt = lam.imag[:, None] * t
-            if live is None:
-                self.pair_cos = np.cos(wt)
-                self.pair_sin = np.sin(wt)
-            else:
-                self.pair_cos = np.zeros_like(wt)
-                self.pair_sin = np.zeros_like(wt)
-                np.cos(wt, out=self.pair_cos, where=live)
-                np.sin(wt, out=self.pair_sin, where=live)
+            e = _decay(lam.real[:, None] * t, lam.real, latest)[0]
+            self.pair_cos, self.pair_sin = _phasors(lam.imag, t, uniform)
             self.pair_cos *= e
             self.pair_sin *= e
 
@@ -154,6 +151,37 @@ class _Modes:
                 over = twice / self.pair_lam
                 y += over.real @ self.pair_cos - over.imag @ self.pair_sin - over.real.sum()
         return y, h
+
+
+def _phasors(omega: np.ndarray, t: np.ndarray, uniform: int) -> tuple[np.ndarray, np.ndarray]:
+    """``(cos ωt, sin ωt)`` of angular frequencies ``omega`` (rad/s, ``(P,)``) at times ``t`` (s),
+    ``(P, T)`` each: the first ``uniform`` times (evenly spaced from 0, the last of them the
+    grid's end) by :func:`_even_phasors`, the rest by ``numpy.cos`` and ``numpy.sin``."""
+    if uniform < 2:
+        wt = omega[:, None] * t
+        return np.cos(wt), np.sin(wt)
+    cos, sin = np.empty((omega.size, t.size)), np.empty((omega.size, t.size))
+    z = _even_phasors(omega, t[uniform - 1] / (uniform - 1), uniform)
+    cos[:, :uniform] = z.real
+    sin[:, :uniform] = z.imag
+    if uniform < t.size:
+        wt = omega[:, None] * t[uniform:]
+        np.cos(wt, out=cos[:, uniform:])
+        np.sin(wt, out=sin[:, uniform:])
+    return cos, sin
+
+
+def _even_phasors(omega: np.ndarray, dt: float, n: int) -> np.ndarray:
+    """``exp(j·ω·k·dt)``, ``k = 0 … n − 1``, for each of ``omega`` (rad/s, ``(P,)``; ``dt`` in s):
+    ``(P, n)`` complex. With ``k = m·a + b`` (``m = ⌈√n⌉``) each is the product of two unit
+    phasors, ``exp(j·ω·m·a·dt)·exp(j·ω·b·dt)`` (angle addition), so some ``2√n`` cosines and sines
+    serve ``n`` times: within a few units in the last place of each (a cosine or sine of a
+    large argument costs some 20 ns a time, the product under one)."""
+    m = math.isqrt(n - 1) + 1
+    steps = np.arange(m) * dt  # (the fine steps, then the coarse ones: m fine steps each)
+    coarse = np.exp(1j * (omega[:, None] * (steps * m)))[:, :, None]
+    fine = np.exp(1j * (omega[:, None] * steps))[:, None, :]
+    return (coarse * fine).reshape(omega.size, m * m)[:, :n]
 
 
 def _residues(b: list[float], a: list[float], poles: list[complex]) -> list[complex]:
@@ -199,23 +227,26 @@ _EARLY = np.geomspace(1e-3, 20.0, 200)
 
 def _setting(h: Rational, i: int, a: np.ndarray, t_s: np.ndarray | None):
     """What the step response of member ``i`` of ``h`` (its denominator ``a`` in ``s``, monic) is
-    formed from: ``(poles, t_s, t_all, modal)``, its poles (the quadratic formula for degree two,
-    without cancellation; else the member's own, :meth:`Rational.poles`, found once), the times
-    ``t_s`` (:func:`default_time_grid` by default), those times followed by the early ones where a
-    fast op-amp pole shapes the start, and whether the poles are far enough apart for the modal
-    form (:class:`_Modes`; else the state-space form)."""
+    formed from: ``(poles, t_s, t_all, modal, uniform)``, its poles (the quadratic formula for
+    degree two, without cancellation; else the member's own, :meth:`Rational.poles`, found
+    once), the times ``t_s`` (:func:`default_time_grid` by default), those times followed by the
+    early ones where a fast op-amp pole shapes the start, whether the poles are far enough apart
+    for the modal form (:class:`_Modes`; else the state-space form), and how many of the first
+    times are evenly spaced from 0 (the default grid's; 0 for times given)."""
     if a.size == 3:
         d = np.sqrt(complex(a[1] * a[1] - 4.0 * a[2]))
         q = -0.5 * (a[1] + (d if (np.conj(a[1]) * d).real >= 0 else -d))  # no cancellation
         poles = np.array([q, a[2] / q]) if q != 0 else np.zeros(2, dtype=complex)
     else:
         poles = h.poles(i)
+    uniform = 0
     if t_s is None:
         t_s = default_time_grid(poles)
+        uniform = t_s.size
     listed = poles.tolist()
     fast = max((abs(p) for p in listed if cmath.isfinite(p)), default=1.0)
     gap = min((abs(p - q) for k, p in enumerate(listed) for q in listed[k + 1 :]), default=np.inf)
-    return poles, t_s, np.concatenate([t_s, _EARLY / fast]), gap > 1e-5 * fast
+    return poles, t_s, np.concatenate([t_s, _EARLY / fast]), gap > 1e-5 * fast, uniform
 
 
 def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> StepResponse:
@@ -235,8 +266,8 @@ def step_response(h: Rational, t_s: np.ndarray | None = None, *, i: int = 0) -> 
         looks at a fine grid of early times where a fast op-amp pole shapes the start.
     """
     b, a = h.to_s(i)
-    poles, t_s, t_all, modal = _setting(h, i, a, t_s)
-    y, slope = _Modes(a, t_all, poles).responses(b) if modal else _state_space(b, a, t_all)
+    poles, t_s, t_all, modal, uniform = _setting(h, i, a, t_s)
+    y, slope = _Modes(a, t_all, poles, uniform).responses(b) if modal else _state_space(b, a, t_all)
     n = t_s.size
     return StepResponse(t_s=t_s, y=y[:n], slope_per_s=slope[:n], max_slope_per_s=float(np.abs(slope).max()))
 
@@ -353,12 +384,12 @@ def _step_slopes(num_rows: list[list[float]], den_rows: list[list[float]], ws: l
     h = rational() if groups else None
     for (key, _, _), members in groups.items():
         a = np.array(key)
-        poles, _, t_all, modal = _setting(h, members[0][0], a, None)  # step_response's
+        poles, _, t_all, modal, uniform = _setting(h, members[0][0], a, None)  # step_response's
         if not modal:
             for i, _ in members:
                 out[i] = step_response(h, i=i).max_slope_per_s
             continue
-        modes = _Modes(a, t_all, poles)
+        modes = _Modes(a, t_all, poles, uniform)
         for i, b in members:  # the impulse response, as step_response forms it
             out[i] = float(np.abs(modes.responses(b, step=False)[1]).max())
     return out

@@ -829,7 +829,7 @@ class Expansion:
             picks = self._opamp_picks()
             if picks is None:
                 return None
-            sel = np.flatnonzero(picks[1][0])  # row 0: the monomials of (1/A0)^0 with no 1/ω_t
+            sel = picks[1][0].nonzero()[0]  # row 0: the monomials of (1/A0)^0 with no 1/ω_t
             num, den = self._num_dense[sel], self._den_dense[sel]
             # the leading powers only the op-amps' stamps reach: zero in every kept monomial
             lead_n, lead_d = (first_kept(c.any(axis=0).tolist()) for c in (num, den))
@@ -846,10 +846,10 @@ class Expansion:
                 self._picks = (None,)
             else:
                 exps_ratio = self._fit.exps_ratio  # (negated rows: the op-amp's stamps are reciprocals)
-                gbw, a0 = -exps_ratio[kinds.index("gbw")], -exps_ratio[kinds.index("a0")]
-                degree = self.variables[kinds.index("a0")].degree
-                power = np.arange(degree + 1)[:, None]
-                signs = np.where((gbw == 0)[None, :] & (a0[None, :] == power), (-1.0) ** power, 0.0)
+                gbw, a0 = exps_ratio[kinds.index("gbw")], exps_ratio[kinds.index("a0")]
+                powers = range(self.variables[kinds.index("a0")].degree + 1)
+                # (columns made from lists: a process's first analysis pays for each distinct array call)
+                signs = np.where((gbw == 0) & (a0 == np.array([[-float(j)] for j in powers])), np.array([[(-1.0) ** j] for j in powers]), 0.0)
                 self._picks = (np.array([k not in ("gbw", "a0") for k in kinds]), signs)
         return None if self._picks[0] is None else self._picks
 
