@@ -510,23 +510,10 @@ def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analy
         w = inductor_q_warning(inductor_q_needed(spec.q))
         if w:
             warnings.append(w)
-    return DesignResult(
-        topology_id=topo.id,
-        spec=spec,
-        feasible=True,
-        reason=None,
-        exact=dict(exact),
-        chosen=dict(cand.values),
-        series=series,
-        ideal=analysis.ideal,
-        errors=errors,
-        warnings=tuple(warnings),
-        analysis=analysis,
-        notes=notes,
-        fixed=tuple(pins),
-        conditions=conditions,
-        search=choice,
-    )
+    # (topology_id, spec, feasible, reason, exact, chosen, series, ideal, errors, warnings, analysis,
+    # notes, fixed, conditions, search; positional: quicker than by keyword)
+    return DesignResult(topo.id, spec, True, None, dict(exact), dict(cand.values), series, analysis.ideal, errors, tuple(warnings),
+                        analysis, notes, tuple(pins), conditions, choice)
 
 
 def _errors_actual(result: DesignResult) -> dict | None:

@@ -299,13 +299,9 @@ def estimate_yield(
     else:
         part, share = None, 0.0
     sd = [math.sqrt(t) for t in totals]
-    est = YieldEstimate(
-        fraction=fraction,
-        sigma={"f0": math.expm1(sd[0]), "q": math.expm1(sd[1]), "gain_db": sd[2] * _DB_PER_NEPER},
-        within=dict(zip(FIGURES, within)),
-        figure=FIGURES[k],
-        part=part,
-        share=share,
+    est = YieldEstimate(  # (fraction, sigma, within, figure, part, share)
+        fraction, {"f0": math.expm1(sd[0]), "q": math.expm1(sd[1]), "gain_db": sd[2] * _DB_PER_NEPER},
+        dict(zip(FIGURES, within)), FIGURES[k], part, share,
     )
     if seen is not None:
         seen[key] = est
