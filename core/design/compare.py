@@ -6,7 +6,7 @@ from typing import Sequence
 
 from bandsmith.design.candidate import Conditions
 from bandsmith.circuits import all_topologies, get_topology
-from bandsmith.design.designer import DesignResult, Spec, design_json, design_many, needs_inductor, spread_of
+from bandsmith.design.designer import DesignResult, Spec, design_json, design_many, needs_inductor
 from bandsmith.circuits.topology import Topology
 
 __all__ = ["compare", "compare_json", "part_count", "needs_inductor", "candidate_json"]
@@ -40,7 +40,7 @@ def candidate_json(result: DesignResult) -> dict:
     """One DESIGN object with ``spread``, ``part_count`` and ``needs_inductor``."""
     topo = get_topology(result.topology_id)
     out = design_json(result)
-    out["spread"] = spread_of(topo, result.chosen) if result.feasible else None
+    out["spread"] = dict(result.part_spread) if result.feasible else None
     out["part_count"] = part_count(topo)
     out["needs_inductor"] = needs_inductor(topo)
     return out

@@ -103,10 +103,22 @@ class DesignResult:
     fixed: tuple[str, ...] = ()
     conditions: Conditions = field(default_factory=Conditions)
     search: Choice | None = None
+    # (chosen, its spread_of) as the design worked it out for its warnings: read by part_spread
+    # while ``chosen`` is that very mapping (a copy made with other parts works its own out)
+    _spread: tuple | None = field(default=None, repr=False, compare=False)
 
     @property
     def topology(self) -> Topology:
         return get_topology(self.topology_id)
+
+    @property
+    def part_spread(self) -> dict[str, float | None]:
+        """:func:`spread_of` of the chosen parts (the one the design worked out for its
+        warnings where it has it: a compare's verdict and JSON read it again). Read only."""
+        known = self._spread
+        if known is not None and known[0] is self.chosen:
+            return known[1]
+        return spread_of(self.topology, self.chosen)
 
 
 def parse_fixed(topology: Topology, fixed: Mapping[str, float | str] | None) -> dict[str, float]:
@@ -187,8 +199,9 @@ _MISSES_SHOWN = {"f0_pct": "f0 {:+.3g} % (tolerance ±{:g} %)", "q_pct": "Q {:+.
 
 
 def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[str, float], result_errors, analysis: Analysis, series: str, tol: Tolerances, fixed,
-              roles: _PartRoles) -> list[str]:
-    """A design's warnings (``roles``: the circuit's :func:`_parts_of`, which its caller has read)."""
+              roles: _PartRoles, sp: Mapping[str, float | None]) -> list[str]:
+    """A design's warnings (``roles``: the circuit's :func:`_parts_of`, which its caller has read;
+    ``sp``: the chosen parts' :func:`_spread`, which it has worked out)."""
     out = []
     for ref, kind, lo, hi in roles.required:
         v = chosen.get(ref, 0.0)
@@ -201,7 +214,6 @@ def _warnings(topology: Topology, chosen: Mapping[str, float], exact: Mapping[st
             else:
                 what = "high: leakage, noise and stray capacitance matter" if v > hi else "low: it loads the op-amp and its driver"
             out.append(f"{ref} = {format_value(v, unit)} is {what} (usual range {format_value(lo, unit)} to {format_value(hi, unit)})")
-    sp = _spread(roles, chosen)
     if sp["r"] is not None and sp["r"] > _SPREAD_R:
         out.append(f"large resistor spread: {sp['r']:.3g} : 1 between the largest and the smallest resistor")
     if sp["c"] is not None and sp["c"] > _SPREAD_C:
@@ -505,28 +517,17 @@ def _feasible(topo, spec: Spec, series: str, exact: dict, cand: Candidate, analy
     """The result of a design that works, given its errors (:func:`errors_of` of its ideal
     figures): its warnings and analysis."""
     roles = _parts_of(topo.part_kinds)
-    warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins, roles)
+    sp = _spread(roles, cand.values)
+    warnings = _warnings(topo, cand.values, exact, errors, analysis, series, conditions.tolerances, pins, roles, sp)
     if roles.inductor:  # a real inductor must reach its share of the Q
         w = inductor_q_warning(inductor_q_needed(spec.q))
         if w:
             warnings.append(w)
-    return DesignResult(
-        topology_id=topo.id,
-        spec=spec,
-        feasible=True,
-        reason=None,
-        exact=dict(exact),
-        chosen=dict(cand.values),
-        series=series,
-        ideal=analysis.ideal,
-        errors=errors,
-        warnings=tuple(warnings),
-        analysis=analysis,
-        notes=notes,
-        fixed=tuple(pins),
-        conditions=conditions,
-        search=choice,
-    )
+    # (topology_id, spec, feasible, reason, exact, chosen, series, ideal, errors, warnings, analysis,
+    # notes, fixed, conditions, search; positional: quicker than by keyword)
+    chosen = dict(cand.values)
+    return DesignResult(topo.id, spec, True, None, dict(exact), chosen, series, analysis.ideal, errors, tuple(warnings),
+                        analysis, notes, tuple(pins), conditions, choice, (chosen, sp))
 
 
 def _errors_actual(result: DesignResult) -> dict | None:

@@ -48,7 +48,7 @@ from bandsmith.analysis.analyzer import requirements_many
 from bandsmith.analysis.inductor import inductor_q_needed
 from bandsmith.common.values import format_value
 from bandsmith.design.compare import needs_inductor, part_count
-from bandsmith.design.designer import DesignResult, spread_of
+from bandsmith.design.designer import DesignResult
 from bandsmith.circuits.topology import Topology
 from bandsmith.design.standard import errors_of, figure_misses
 from bandsmith.verdict.limits import VerdictLimits
@@ -391,7 +391,7 @@ def _settled_limits(result: DesignResult, limits: VerdictLimits, seen: dict | No
     if a.actual is not None:
         crossed += _figure_reasons(errors_of(a.actual, result.spec), tol, "_opamp",
                                    lambda: f"with {result.series} parts and the {format_value(a.opamp.gbw_hz, 'Hz')} op-amp,")
-    crossed += _spread_reasons(spread_of(topo, result.chosen), limits)
+    crossed += _spread_reasons(result.part_spread, limits)
     crossed += _range_reasons(ranged, result.chosen, limits)
     crossed += _gbw_reasons(result, limits)
     return crossed

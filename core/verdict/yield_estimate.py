@@ -235,10 +235,13 @@ def estimate_yield(
         flat = [v if math.isfinite(v) else 0.0 for v in flat]
     window = (limits.window_f0, limits.window_q, limits.window_gain_db)
     if seen is not None:
-        key = (tuple(refs), tuple(p), tuple(flat), window)
-        known = seen.get(key)
-        if known is not None:
-            return known
+        # the models met so far with these parts, compared number for number as lists (hashing
+        # every float of a key costs more than comparing the few models of a judging)
+        model = (p, flat, window)
+        models = seen.setdefault(("yield", tuple(refs)), [])
+        for other, known in models:
+            if other == model:
+                return known
     # each part's share of each figure's log variance, (S·p)²/3, and their sums (in plain numbers:
     # numpy's square and division are the same IEEE operations; a row's sum as numpy sums a row);
     # and the figures that can leave their window: one whose largest deviation at any point,
@@ -299,16 +302,12 @@ def estimate_yield(
     else:
         part, share = None, 0.0
     sd = [math.sqrt(t) for t in totals]
-    est = YieldEstimate(
-        fraction=fraction,
-        sigma={"f0": math.expm1(sd[0]), "q": math.expm1(sd[1]), "gain_db": sd[2] * _DB_PER_NEPER},
-        within=dict(zip(FIGURES, within)),
-        figure=FIGURES[k],
-        part=part,
-        share=share,
+    est = YieldEstimate(  # (fraction, sigma, within, figure, part, share)
+        fraction, {"f0": math.expm1(sd[0]), "q": math.expm1(sd[1]), "gain_db": sd[2] * _DB_PER_NEPER},
+        dict(zip(FIGURES, within)), FIGURES[k], part, share,
     )
     if seen is not None:
-        seen[key] = est
+        models.append((model, est))
     return est
 
 
