@@ -49,21 +49,28 @@ def median_time(fn: Callable[[], object], *, repeat: int, number: int = 1, warm:
     return statistics.median(times)
 
 
-# Reference calls timed before each repeat of a job (some 2.6 ms at 26 µs a call).
+# Reference calls timed before each repeat of a job (some 2.6 ms at 26 µs a call), after some
+# untimed ones: a job leaves the caches to itself, and the first reference calls after it ran
+# 6 % slower than in a loop of their own (after 50 untimed ones, as fast), which would have
+# flattered the job's ratio.
 PAIRED_REFERENCE_CALLS = 100
+PAIRED_REFERENCE_WARM = 50
 
 
 def paired_ratio(fn: Callable[[], object], ref: Callable[[], object], *, repeat: int, number: int = 1,
                  warm: bool = True) -> tuple[float, float]:
     """``(median time, median ratio)`` over ``repeat`` repeats, each a block of
-    :data:`PAIRED_REFERENCE_CALLS` reference calls then ``number`` calls of ``fn``: the median of
-    the mean time per call of ``fn`` (s), and the median of each repeat's ratio of that mean to the
-    reference's mean in the block just before it."""
+    :data:`PAIRED_REFERENCE_CALLS` reference calls (after :data:`PAIRED_REFERENCE_WARM` untimed
+    ones) then ``number`` calls of ``fn``: the median of the mean time per call of ``fn`` (s), and
+    the median of each repeat's ratio of that mean to the reference's mean in the block just
+    before it."""
     if warm:
         fn()  # warm-up: imports, caches
     times, ratios = [], []
     for _ in range(repeat):
         gc.disable()
+        for _ in range(PAIRED_REFERENCE_WARM):
+            ref()
         t0 = time.perf_counter()
         for _ in range(PAIRED_REFERENCE_CALLS):
             ref()
