@@ -61,11 +61,10 @@ def paired_ratio(fn: Callable[[], object], ref: Callable[[], object], *, repeat:
                  warm: bool = True) -> tuple[float, float]:
     """``(median time, median ratio)`` over ``repeat`` repeats, each a block of
     :data:`PAIRED_REFERENCE_CALLS` reference calls (after :data:`PAIRED_REFERENCE_WARM` untimed
-    ones) then ``number`` calls of ``fn``: the median of the mean time per call of ``fn`` (s), and
-    the median of each repeat's ratio of that mean to the reference's mean in the block just
-    before it."""
-    if warm:
-        fn()  # warm-up: imports, caches
+    ones) then ``number`` calls of ``fn`` (after one untimed call with ``warm``: each side timed
+    with its own data in the caches, as when each is timed in a loop of its own): the median of
+    the mean time per call of ``fn`` (s), and the median of each repeat's ratio of that mean to
+    the reference's mean in the block just before it."""
     times, ratios = [], []
     for _ in range(repeat):
         gc.disable()
@@ -74,12 +73,14 @@ def paired_ratio(fn: Callable[[], object], ref: Callable[[], object], *, repeat:
         t0 = time.perf_counter()
         for _ in range(PAIRED_REFERENCE_CALLS):
             ref()
+        t_ref = (time.perf_counter() - t0) / PAIRED_REFERENCE_CALLS
+        if warm:
+            fn()  # warm-up: imports and caches, then the job's own data in the caches
         t1 = time.perf_counter()
         for _ in range(number):
             fn()
-        t2 = time.perf_counter()
+        t_job = (time.perf_counter() - t1) / number
         gc.enable()
-        t_ref, t_job = (t1 - t0) / PAIRED_REFERENCE_CALLS, (t2 - t1) / number
         times.append(t_job)
         ratios.append(t_job / t_ref)
     return statistics.median(times), statistics.median(ratios)
