@@ -34,7 +34,7 @@ from typing import TYPE_CHECKING, Sequence
 
 from bandsmith.chain.chain_settings import STAGE_HOLD, StageHold
 from bandsmith.design.standard import figure_misses
-from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, VerdictLimits, judge, least_verdict, merit_key
+from bandsmith.verdict import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, VerdictLimits, heaviest, heaviest_first, judge, least_verdict, merit_key
 
 if TYPE_CHECKING:
     from bandsmith.chain.cascade import Cascade, Stage
@@ -83,10 +83,6 @@ def hold_warnings(stages: Sequence["Stage"]) -> tuple[str, ...]:
     return tuple(w for w in (hold_miss(s) for s in stages) if w is not None)
 
 
-def _worst(verdicts: Sequence[str]) -> str:
-    return max(verdicts, key=VERDICTS.index, default=BUILDABLE)
-
-
 def chain_verdict(result: "Cascade", stage_verdicts: Sequence[Verdict], hold: StageHold = STAGE_HOLD) -> tuple[str, tuple[Reason, ...]]:
     """The chain's verdict and reasons (module notes), heaviest first."""
     reasons: list[Reason] = []
@@ -113,8 +109,8 @@ def chain_verdict(result: "Cascade", stage_verdicts: Sequence[Verdict], hold: St
                 f"with {s.series} parts the chain is up to {dev:.3g} dB off the ideal {s.response} response within the band, beyond {limit:g} dB",
                 dev, limit, weight,
             ))
-    ordered = tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
-    verdict = _worst([v.verdict for v in stage_verdicts] + [r.weight for r in ordered])
+    ordered = heaviest_first(reasons)
+    verdict = heaviest([v.verdict for v in stage_verdicts] + [r.weight for r in ordered])
     return verdict, ordered
 
 

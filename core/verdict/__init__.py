@@ -9,7 +9,7 @@ tolerances is estimated from the sensitivities and confirmed by a short Monte Ca
 """
 
 from bandsmith.verdict.comparison import Comparison, compare_verdicts, comparison_json, judge_all
-from bandsmith.verdict.judge import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, judge, judge_many, least_verdict
+from bandsmith.verdict.judge import BUILDABLE, MARGINAL, NOT_BUILDABLE, VERDICTS, Reason, Verdict, heaviest, heaviest_first, judge, judge_many, least_verdict
 from bandsmith.verdict.limits import LIMIT_SOURCES, VerdictLimits
 from bandsmith.verdict.ranking import Ranking, merit_key, rank
 from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield
@@ -17,7 +17,7 @@ from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estim
 __all__ = [
     "BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS",
     "VerdictLimits", "LIMIT_SOURCES",
-    "Reason", "Verdict", "judge", "judge_many", "least_verdict",
+    "Reason", "Verdict", "judge", "judge_many", "least_verdict", "heaviest", "heaviest_first",
     "Ranking", "rank", "merit_key",
     "Comparison", "compare_verdicts", "judge_all", "comparison_json",
     "YieldEstimate", "estimate_yield", "confirm_yield",

@@ -40,7 +40,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass
-from typing import Callable, Mapping, NamedTuple, Sequence
+from typing import Callable, Iterable, Mapping, NamedTuple, Sequence
 
 from bandsmith.common.jsonutil import finite_or_none
 from bandsmith.common.units import PART_UNITS
@@ -54,11 +54,28 @@ from bandsmith.design.standard import errors_of, figure_misses
 from bandsmith.verdict.limits import VerdictLimits
 from bandsmith.verdict.yield_estimate import YieldEstimate, confirm_yield, estimate_yield, part_tolerances_of
 
-__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "judge", "judge_many", "least_verdict"]
+__all__ = ["BUILDABLE", "MARGINAL", "NOT_BUILDABLE", "VERDICTS", "Reason", "Verdict", "heaviest", "heaviest_first", "judge", "judge_many", "least_verdict"]
 
 BUILDABLE, MARGINAL, NOT_BUILDABLE = "buildable", "marginal", "not buildable"
 #: The verdicts, best first.
 VERDICTS = (BUILDABLE, MARGINAL, NOT_BUILDABLE)
+_HEAVIEST_FIRST = VERDICTS[::-1]
+
+
+def heaviest(weights: Iterable[str]) -> str:
+    """The heaviest of some verdicts or reason weights (the last in :data:`VERDICTS`' order),
+    ``buildable`` for none."""
+    present = set(weights)
+    return next((w for w in _HEAVIEST_FIRST if w in present), BUILDABLE)
+
+
+def heaviest_first(reasons: Iterable[Reason]) -> tuple[Reason, ...]:
+    """Reasons ordered by weight, heaviest first, in their own order within a weight (a stable
+    sort by :data:`VERDICTS`' order, reversed)."""
+    reasons = list(reasons)
+    return tuple(r for w in _HEAVIEST_FIRST for r in reasons if r.weight == w)
+
+
 _KIND_WORDS = {"R": "resistor", "C": "capacitor", "L": "inductor"}
 _SMALL_WHY = {
     "R": "it loads the op-amp's output and the stage driving it",
@@ -366,12 +383,6 @@ def _inductor_reason(result: DesignResult, limits: VerdictLimits) -> Reason | No
     )
 
 
-def _order(reasons: list[Reason]) -> tuple[Reason, ...]:
-    """Heaviest first, in their order within a weight (a stable sort by weight)."""
-    return (*[r for r in reasons if r.weight == NOT_BUILDABLE], *[r for r in reasons if r.weight == MARGINAL],
-            *[r for r in reasons if r.weight != NOT_BUILDABLE and r.weight != MARGINAL])
-
-
 def _settled_limits(result: DesignResult, limits: VerdictLimits, seen: dict | None = None) -> list[_Crossed]:
     """The limits crossed in judge's checks on numbers a feasible design already has, in judge's
     order: its figures against the design tolerances with the ideal op-amp and with the session's
@@ -436,13 +447,12 @@ def judge(result: DesignResult, limits: VerdictLimits = VerdictLimits(), *, cand
     r = _inductor_reason(result, limits) if inductor else None
     if r is not None:
         reasons.append(r)
-    weights = {r.weight for r in reasons}
-    so_far = NOT_BUILDABLE if NOT_BUILDABLE in weights else MARGINAL if MARGINAL in weights else BUILDABLE
+    so_far = heaviest([r.weight for r in reasons])
     est, mc, y = _yield(result, parts.kinds, limits, so_far, seen)
     r = _yield_reason(est, mc, y, limits, parts.kind_set)
     if r is not None:
         reasons.append(r)
-    ordered = _order(reasons)
+    ordered = heaviest_first(reasons)
     verdict = ordered[0].weight if ordered else BUILDABLE
     req = a.requirements.gbw_hz
     return Verdict(cid, verdict, ordered, y, est, mc, req if req is not None and math.isfinite(req) else None, count, inductor, result.conditions.gbw_hz)

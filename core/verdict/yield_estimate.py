@@ -283,12 +283,7 @@ def estimate_yield(
         fraction = np.count_nonzero(every) / n
         for f, row in zip(rows, inside):  # row by row: contiguous, quicker than axis=1
             within[f] = np.count_nonzero(row) / n
-    k = 0  # the first of the least, as argmin
-    if refs:
-        if within[1] < within[k]:
-            k = 1
-        if within[2] < within[k]:
-            k = 2
+    k = within.index(min(within)) if refs else 0  # the first of the least, as argmin
     total = totals[k]
     if refs and total > 0:
         # the first part (in the circuit's order) of the largest share: parts whose shares are the
