@@ -288,27 +288,35 @@ def _biquads_joined(hs: Sequence[Rational]) -> tuple[list[int], Rational | None]
     the shapes looked at on each, the coefficients on the joined batch, whose rows are each
     member's own (a numerator of two coefficients padded with a leading zero, which is what
     :func:`_biquad_shaped` asks of a numerator of three)."""
-    shaped = [i for i, h in enumerate(hs) if h.den.shape[1] == 3 and 2 <= h.num.shape[1] <= 3]
+    shaped = [i for i, h in enumerate(hs) if _biquad_sized(h)]
     if len(shaped) < 2:
         return [i for i in shaped if _biquad_shaped(hs[i])], None
     joined = Rational.joined([hs[i] for i in shaped])
-    num, den = joined.num, joined.den
-    bad = (num[:, -1] != 0) | (num[:, 0] != 0) if num.shape[1] == 3 else num[:, -1] != 0
-    bad |= ~np.isfinite(den).all(axis=1)
-    if not bad.any():
+    if not _off_biquad(joined.num, joined.den).any():
         return shaped, joined
     quick = [i for i in shaped if _biquad_shaped(hs[i])]
     return quick, Rational.joined([hs[i] for i in quick]) if len(quick) > 1 else None
 
 
+def _biquad_sized(h: Rational) -> bool:
+    """True when ``h``'s arrays have a second-order band-pass's widths: three denominator
+    coefficients, two or three numerator ones."""
+    return h.den.shape[1] == 3 and 2 <= h.num.shape[1] <= 3
+
+
+def _off_biquad(num: np.ndarray, den: np.ndarray) -> np.ndarray:
+    """Per member of arrays of :func:`_biquad_sized` widths, True where it is not of the form
+    ``b1·p / (a2·p² + a1·p + a0)`` with a finite denominator (a constant term in the numerator,
+    a ``p²`` term in a numerator of three, a denominator that is not finite)."""
+    off = num[:, -1] != 0
+    if num.shape[1] == 3:
+        off |= num[:, 0] != 0
+    return off | ~np.isfinite(den).all(axis=1)
+
+
 def _biquad_shaped(h: Rational) -> bool:
     """True when every member has the form ``b1·p / (a2·p² + a1·p + a0)`` (finite denominator)."""
-    num, den = h.num, h.den
-    if den.shape[1] != 3 or num.shape[1] > 3 or num.shape[1] < 2:
-        return False
-    if (num[:, -1] != 0).any() or (num.shape[1] == 3 and (num[:, 0] != 0).any()):
-        return False
-    return bool(np.isfinite(den).all())
+    return _biquad_sized(h) and not _off_biquad(h.num, h.den).any()
 
 
 def measure_many(hs: Sequence[Rational]) -> list[Figures]:
