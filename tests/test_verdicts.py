@@ -403,3 +403,17 @@ def test_judge_reads_each_circuits_parts_as_its_components_list_says():
         assert parts.ranged == tuple((c.ref, c.kind) for c in topo.components if c.required and c.kind in ("R", "C", "L")), cid
         assert (parts.count, parts.inductor) == (part_count(topo), needs_inductor(topo)), cid
         assert judge_module._parts_of(topo).ranged is parts.ranged  # made once per parts list
+
+
+def test_heaviest_first_is_a_stable_sort_by_weight_and_heaviest_its_first():
+    # Reference: Python's sorted (stable by definition) on each reason's place in VERDICTS,
+    # reversed, and max by that place; random lists of reasons, none at all included.
+    import random
+
+    from bandsmith.verdict import VERDICTS, Reason, heaviest, heaviest_first
+
+    rng = random.Random(5)
+    for _ in range(300):
+        reasons = [Reason(f"c{k}", f"reason {k}", None, None, rng.choice(VERDICTS)) for k in range(rng.randrange(0, 7))]
+        assert heaviest_first(reasons) == tuple(sorted(reasons, key=lambda r: -VERDICTS.index(r.weight)))
+        assert heaviest(r.weight for r in reasons) == max((r.weight for r in reasons), key=VERDICTS.index, default=VERDICTS[0])
